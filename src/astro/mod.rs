@@ -1,0 +1,91 @@
+//! Time scales, sites, frames (via sofars), Sun, Moon, airmass and events.
+
+pub mod airmass;
+pub mod events;
+pub mod frames;
+pub mod night;
+pub mod site;
+pub mod time;
+
+use crate::astro::frames::{CatalogPlace, Context};
+use crate::astro::site::Site;
+use serde::Serialize;
+
+/// Everything about one target at one instant, as `rung where` reports it.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Pointing {
+    /// Observed (refracted) altitude, degrees.
+    pub altitude_deg: f64,
+    /// Geometric (unrefracted) altitude, degrees.
+    pub altitude_geometric_deg: f64,
+    /// Azimuth, degrees, north 0, east 90.
+    pub azimuth_deg: f64,
+    /// Kasten–Young airmass, `None` below the horizon.
+    pub airmass: Option<f64>,
+    /// Hour angle, hours in (−12, 12].
+    pub hour_angle_h: f64,
+    /// Parallactic angle, degrees (SOFA `hd2pa`).
+    pub parallactic_angle_deg: f64,
+    /// Geometric altitude of the Sun's centre, degrees (topocentric).
+    pub sun_altitude_deg: f64,
+    /// Angular distance from the Sun, degrees.
+    pub sun_separation_deg: f64,
+    /// Geometric altitude of the Moon's centre, degrees (topocentric).
+    pub moon_altitude_deg: f64,
+    /// Azimuth of the Moon, degrees.
+    pub moon_azimuth_deg: f64,
+    /// Target–Moon separation, degrees (topocentric).
+    pub moon_separation_deg: f64,
+    /// Moon illuminated fraction, 0–1.
+    pub moon_illumination: f64,
+    /// Moon phase angle (Sun–Moon–Earth), degrees; 0 at full Moon.
+    pub moon_phase_angle_deg: f64,
+    /// Pressure used for refraction, hPa.
+    pub pressure_hpa: f64,
+    /// Temperature used for refraction, °C.
+    pub temperature_c: f64,
+}
+
+/// Where a target is, seen from `site` through the context `ctx`.
+pub fn pointing(site: &Site, ctx: &Context, place: &CatalogPlace) -> Pointing {
+    let o = ctx.observe(place);
+    let sun = ctx.sun();
+    let moon = ctx.moon();
+    let pa = sofars::coords::hd2pa(o.ha_rad, o.dec_rad, site.lat_rad());
+    let alt_deg = o.alt_rad.to_degrees();
+    Pointing {
+        altitude_deg: alt_deg,
+        altitude_geometric_deg: o.alt_geom_rad.to_degrees(),
+        azimuth_deg: o.az_rad.to_degrees().rem_euclid(360.0),
+        airmass: airmass::kasten_young(alt_deg),
+        hour_angle_h: o.ha_rad.to_degrees() / 15.0,
+        parallactic_angle_deg: pa.to_degrees(),
+        sun_altitude_deg: sun.alt_geom_rad.to_degrees(),
+        sun_separation_deg: o.separation_rad(&sun).to_degrees(),
+        moon_altitude_deg: moon.alt_geom_rad.to_degrees(),
+        moon_azimuth_deg: moon.az_rad.to_degrees().rem_euclid(360.0),
+        moon_separation_deg: o.separation_rad(&moon).to_degrees(),
+        moon_illumination: ctx.moon_illumination(),
+        moon_phase_angle_deg: ctx.moon_phase_angle_rad().to_degrees(),
+        pressure_hpa: site.pressure_hpa(),
+        temperature_c: site.temperature_c,
+    }
+}
+
+/// Altitude of the Sun's centre above which the Sun counts as up for the
+/// Sun-avoidance rule, degrees (the sunrise/sunset altitude).
+pub const SUN_UP_DEG: f64 = night::SUN_RISE_SET_DEG;
+
+/// A Sun-proximity caution when a pointing is within the site's Sun-avoidance
+/// angle while the Sun is up. Pointing near the Sun can blind and can destroy
+/// instruments; the observatory's own rules prevail over this check.
+pub fn sun_caution(site: &Site, p: &Pointing) -> Option<String> {
+    if p.sun_altitude_deg > SUN_UP_DEG && p.sun_separation_deg < site.sun_avoid_deg {
+        Some(format!(
+            "SUN CAUTION: target is {:.1}° from the Sun while the Sun is up (site limit {:.0}°); do not point there without the observatory's own safety clearance",
+            p.sun_separation_deg, site.sun_avoid_deg
+        ))
+    } else {
+        None
+    }
+}

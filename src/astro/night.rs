@@ -1,0 +1,421 @@
+//! The night of a date: from local noon of that date to the next local noon,
+//! with its Sun and Moon events and the visibility of targets in it.
+
+use crate::astro::airmass::kasten_young;
+use crate::astro::events::{Crossing, crossings_on_grid, grid, positive_intervals};
+use crate::astro::frames::{CatalogPlace, Context, NightFrame, Observed};
+use crate::astro::site::Site;
+use crate::astro::time::Instant;
+use crate::error::{Result, RungError};
+use chrono::{NaiveDate, NaiveTime, TimeZone};
+use serde::Serialize;
+
+/// Grid spacing used to bracket events, seconds (refined by bisection to 1 s).
+pub const GRID_STEP_S: f64 = 600.0;
+/// Tolerance of every reported event time, seconds.
+pub const EVENT_TOL_S: f64 = 1.0;
+
+/// Sunrise/sunset altitude of the Sun's geometric centre: −0°50′ (Meeus ch. 15).
+pub const SUN_RISE_SET_DEG: f64 = -50.0 / 60.0;
+/// Civil, nautical and astronomical twilight limits (degrees).
+pub const CIVIL_DEG: f64 = -6.0;
+/// Nautical twilight limit (degrees).
+pub const NAUTICAL_DEG: f64 = -12.0;
+/// Astronomical twilight limit (degrees).
+pub const ASTRONOMICAL_DEG: f64 = -18.0;
+/// Rise/set geometric altitude of a star: −0°34′ (standard refraction at the horizon; Meeus ch. 15).
+pub const STAR_RISE_SET_DEG: f64 = -34.0 / 60.0;
+
+/// Local noon of a date at the site (the earlier one if the zone repeats it, an
+/// hour later if a zone change skips it).
+pub fn local_noon(site: &Site, date: NaiveDate) -> Result<Instant> {
+    let tz = site.timezone;
+    for h in [12u32, 13, 11] {
+        let naive = date.and_time(NaiveTime::from_hms_opt(h, 0, 0).unwrap_or_default());
+        if let Some(dt) = tz.from_local_datetime(&naive).earliest() {
+            return Instant::from_zoned(&dt);
+        }
+    }
+    Err(RungError::invalid(
+        "date",
+        format!("{date} has no local noon in zone {}", tz.name()),
+    ))
+}
+
+/// An event that may not happen, with the reason when it does not.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Event {
+    /// When, or `None`.
+    pub t: Option<Instant>,
+    /// Why there is no time, when there is none.
+    pub reason: Option<String>,
+}
+
+impl Event {
+    fn at(t: Instant) -> Self {
+        Event { t: Some(t), reason: None }
+    }
+    fn none(reason: impl Into<String>) -> Self {
+        Event { t: None, reason: Some(reason.into()) }
+    }
+    /// The ISO text, or `None`.
+    pub fn iso(&self) -> Option<String> {
+        self.t.map(|t| t.iso())
+    }
+}
+
+impl Serialize for Instant {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> std::result::Result<S::Ok, S::Error> {
+        s.serialize_str(&self.iso())
+    }
+}
+
+/// One night at one site: its span, an interpolating astrometry frame, and a
+/// grid of shared contexts with the Sun and Moon already computed.
+#[derive(Debug, Clone)]
+pub struct Night {
+    /// The local date whose evening starts the night.
+    pub date: NaiveDate,
+    /// The site.
+    pub site: Site,
+    /// Local noon of `date`.
+    pub start: Instant,
+    /// Local noon of the next day.
+    pub end: Instant,
+    /// Interpolating frame for contexts at any instant of the night.
+    pub frame: NightFrame,
+    /// Bracketing grid.
+    pub times: Vec<Instant>,
+    /// Contexts on the grid (one per instant, shared by all targets).
+    pub contexts: Vec<Context>,
+    /// Geometric altitude of the Sun's centre on the grid, degrees.
+    pub sun_alt_deg: Vec<f64>,
+    /// Topocentric geometric altitude of the Moon's centre on the grid, degrees.
+    pub moon_alt_deg: Vec<f64>,
+    /// Moon on the grid.
+    pub moon: Vec<Observed>,
+    /// Sun on the grid.
+    pub sun: Vec<Observed>,
+}
+
+/// Topocentric altitude of the Moon's centre at which its upper limb touches the
+/// refracted horizon: −(0°34′ + semidiameter), the semidiameter being
+/// 0.2725·π with π the horizontal parallax. This is Meeus's (ch. 15)
+/// geocentric h0 = 0.7275·π − 0°34′ moved to topocentric altitude.
+pub fn moon_rise_set_topo_deg(ctx: &Context) -> f64 {
+    let hp = (6378.14 / ctx.moon_geo_distance_km()).asin().to_degrees();
+    -(34.0 / 60.0) - 0.2725 * hp
+}
+
+impl Night {
+    /// The night that begins on the local evening of `date` at `site`.
+    pub fn new(site: &Site, date: NaiveDate) -> Result<Self> {
+        let start = local_noon(site, date)?;
+        let next = date.succ_opt().ok_or_else(|| RungError::invalid("date", "no next day"))?;
+        let end = local_noon(site, next)?;
+        Self::spanning(site, date, start, end)
+    }
+
+    /// A night over an explicit span (used by tests and by the season engine).
+    pub fn spanning(site: &Site, date: NaiveDate, start: Instant, end: Instant) -> Result<Self> {
+        let frame = NightFrame::new(site, start.add_seconds(-1800.0), end.add_seconds(1800.0))?;
+        let times = grid(start, end, GRID_STEP_S);
+        let contexts: Vec<Context> = times.iter().map(|t| frame.context(*t)).collect();
+        let sun: Vec<Observed> = contexts.iter().map(|c| c.sun()).collect();
+        let moon: Vec<Observed> = contexts.iter().map(|c| c.moon()).collect();
+        Ok(Night {
+            date,
+            site: site.clone(),
+            start,
+            end,
+            sun_alt_deg: sun.iter().map(|o| o.alt_geom_rad.to_degrees()).collect(),
+            moon_alt_deg: moon.iter().map(|o| o.alt_geom_rad.to_degrees()).collect(),
+            frame,
+            times,
+            contexts,
+            moon,
+            sun,
+        })
+    }
+
+    /// Context at any instant of the night.
+    pub fn context(&self, t: Instant) -> Context {
+        self.frame.context(t)
+    }
+
+    /// Geometric altitude of the Sun's centre, degrees.
+    pub fn sun_alt_at(&self, t: Instant) -> f64 {
+        self.context(t).sun().alt_geom_rad.to_degrees()
+    }
+
+    fn sun_crossings(&self, thr_deg: f64) -> Vec<Crossing> {
+        let vs: Vec<f64> = self.sun_alt_deg.iter().map(|a| a - thr_deg).collect();
+        let mut f = |t: Instant| self.sun_alt_at(t) - thr_deg;
+        crossings_on_grid(&mut f, &self.times, &vs, EVENT_TOL_S)
+    }
+
+    /// The falling (dusk) and rising (dawn) crossings of the Sun through `thr_deg`,
+    /// each `None` with a reason when it does not happen this night.
+    pub fn sun_pair(&self, thr_deg: f64, label: &str) -> (Event, Event) {
+        let c = self.sun_crossings(thr_deg);
+        let fall = c.iter().find(|c| !c.rising).map(|c| c.t);
+        let rise = c.iter().rev().find(|c| c.rising && fall.is_none_or(|f| c.t > f)).map(|c| c.t);
+        let above_all = self.sun_alt_deg.iter().all(|a| *a >= thr_deg);
+        let below_all = self.sun_alt_deg.iter().all(|a| *a < thr_deg);
+        let why = |which: &str| {
+            if above_all {
+                format!("the Sun stays above {thr_deg}° all night: no {label} {which}")
+            } else if below_all {
+                format!("the Sun stays below {thr_deg}° all day (polar night): no {label} {which}")
+            } else {
+                format!("the Sun does not cross {thr_deg}° in that direction between local noons")
+            }
+        };
+        (
+            fall.map(Event::at).unwrap_or_else(|| Event::none(why("dusk"))),
+            rise.map(Event::at).unwrap_or_else(|| Event::none(why("dawn"))),
+        )
+    }
+
+    /// Sunset, sunrise and the three twilights, plus moonrise/set.
+    pub fn events(&self) -> NightEvents {
+        let (sunset, sunrise) = self.sun_pair(SUN_RISE_SET_DEG, "sunset/sunrise");
+        let (civil_dusk, civil_dawn) = self.sun_pair(CIVIL_DEG, "civil");
+        let (nautical_dusk, nautical_dawn) = self.sun_pair(NAUTICAL_DEG, "nautical");
+        let (astronomical_dusk, astronomical_dawn) = self.sun_pair(ASTRONOMICAL_DEG, "astronomical");
+        let (moonrise, moonset) = self.moon_events();
+        let mid = self.start.add_seconds(self.end.seconds_since(&self.start) / 2.0);
+        let c = self.context(mid);
+        NightEvents {
+            sunset,
+            sunrise,
+            civil_dusk,
+            civil_dawn,
+            nautical_dusk,
+            nautical_dawn,
+            astronomical_dusk,
+            astronomical_dawn,
+            moonrise,
+            moonset,
+            moon_illumination: c.moon_illumination(),
+            moon_waxing: c.moon_waxing(),
+            local_midnight: mid,
+        }
+    }
+
+    /// First moonrise and first moonset between the local noons.
+    pub fn moon_events(&self) -> (Event, Event) {
+        let vs: Vec<f64> = self
+            .contexts
+            .iter()
+            .zip(&self.moon_alt_deg)
+            .map(|(c, a)| a - moon_rise_set_topo_deg(c))
+            .collect();
+        let mut f = |t: Instant| {
+            let c = self.context(t);
+            c.moon().alt_geom_rad.to_degrees() - moon_rise_set_topo_deg(&c)
+        };
+        let cs = crossings_on_grid(&mut f, &self.times, &vs, EVENT_TOL_S);
+        let rise = cs.iter().find(|c| c.rising).map(|c| Event::at(c.t));
+        let set = cs.iter().find(|c| !c.rising).map(|c| Event::at(c.t));
+        let up = vs.iter().all(|v| *v >= 0.0);
+        let reason = |w: &str| {
+            if up {
+                format!("the Moon is up all night: no moon{w}")
+            } else if vs.iter().all(|v| *v < 0.0) {
+                format!("the Moon is down all night: no moon{w}")
+            } else {
+                format!("no moon{w} between the local noons")
+            }
+        };
+        (
+            rise.unwrap_or_else(|| Event::none(reason("rise"))),
+            set.unwrap_or_else(|| Event::none(reason("set"))),
+        )
+    }
+
+    /// Intervals of the night when the Sun's centre is below `sun_alt_deg`.
+    pub fn dark_intervals(&self, sun_alt_deg: f64) -> Vec<(Instant, Instant)> {
+        let vs: Vec<f64> = self.sun_alt_deg.iter().map(|a| sun_alt_deg - a).collect();
+        let mut f = |t: Instant| sun_alt_deg - self.sun_alt_at(t);
+        positive_intervals(&mut f, &self.times, &vs, EVENT_TOL_S)
+    }
+
+    /// Rise, transit, set and the observable window of a target this night.
+    pub fn target(&self, place: &CatalogPlace, limits: &Limits) -> TargetNight {
+        let obs: Vec<Observed> = self.contexts.iter().map(|c| c.observe(place)).collect();
+        let at = |t: Instant| self.context(t).observe(place);
+
+        // Rise and set: geometric altitude through −0°34′.
+        let rs: Vec<f64> = obs.iter().map(|o| o.alt_geom_rad.to_degrees() - STAR_RISE_SET_DEG).collect();
+        let mut frs = |t: Instant| at(t).alt_geom_rad.to_degrees() - STAR_RISE_SET_DEG;
+        let cs = crossings_on_grid(&mut frs, &self.times, &rs, EVENT_TOL_S);
+        let circumpolar = rs.iter().all(|v| *v >= 0.0);
+        let never = rs.iter().all(|v| *v < 0.0);
+        let reason = |w: &str| {
+            if circumpolar {
+                format!("circumpolar at this latitude: never {w}s")
+            } else if never {
+                "never rises at this latitude".to_string()
+            } else {
+                format!("does not {w} between the local noons")
+            }
+        };
+        let rise = cs
+            .iter()
+            .find(|c| c.rising)
+            .map(|c| Event::at(c.t))
+            .unwrap_or_else(|| Event::none(reason("rise")));
+        let set = cs
+            .iter()
+            .find(|c| !c.rising)
+            .map(|c| Event::at(c.t))
+            .unwrap_or_else(|| Event::none(reason("set")));
+
+        // Transit: hour angle through 0 going from east to west.
+        let hs: Vec<f64> = obs.iter().map(|o| o.ha_rad.sin()).collect();
+        let mut fh = |t: Instant| at(t).ha_rad.sin();
+        let transit = crossings_on_grid(&mut fh, &self.times, &hs, EVENT_TOL_S)
+            .into_iter()
+            .find(|c| c.rising && at(c.t).ha_rad.cos() > 0.0)
+            .map(|c| Event::at(c.t))
+            .unwrap_or_else(|| Event::none("no upper transit between the local noons"));
+
+        // Window: observed altitude above the limit and the horizon mask, Sun below its limit.
+        let margin = |o: &Observed, sun_alt: f64| -> f64 {
+            let alt = o.alt_rad.to_degrees();
+            let floor = limits.min_alt_deg.max(self.site.horizon_alt_deg(o.az_rad.to_degrees()));
+            (alt - floor).min(limits.sun_alt_deg - sun_alt)
+        };
+        let ws: Vec<f64> = obs.iter().zip(&self.sun_alt_deg).map(|(o, s)| margin(o, *s)).collect();
+        let mut fw = |t: Instant| {
+            let c = self.context(t);
+            margin(&c.observe(place), c.sun().alt_geom_rad.to_degrees())
+        };
+        let windows = positive_intervals(&mut fw, &self.times, &ws, EVENT_TOL_S);
+
+        // Highest altitude while the Sun is below its limit (grid, window edges and transit).
+        let mut best: Option<(f64, Instant)> = None;
+        let mut consider = |alt: f64, t: Instant, sun_alt: f64| {
+            if sun_alt < limits.sun_alt_deg && best.is_none_or(|(b, _)| alt > b) {
+                best = Some((alt, t));
+            }
+        };
+        for ((o, t), s) in obs.iter().zip(&self.times).zip(&self.sun_alt_deg) {
+            consider(o.alt_rad.to_degrees(), *t, *s);
+        }
+        let mut extra: Vec<Instant> = windows.iter().flat_map(|w| [w.0, w.1]).collect();
+        if let Some(t) = transit.t {
+            extra.push(t);
+        }
+        for t in extra {
+            let c = self.context(t);
+            consider(c.observe(place).alt_rad.to_degrees(), t, c.sun().alt_geom_rad.to_degrees());
+        }
+        let observable_s: f64 = windows.iter().map(|(a, b)| b.seconds_since(a)).sum();
+        TargetNight {
+            rise,
+            transit,
+            set,
+            windows,
+            observable_hours: observable_s / 3600.0,
+            max_altitude_deg: best.map(|b| b.0),
+            max_altitude_time: best.map(|b| b.1),
+            min_airmass: best.and_then(|b| kasten_young(b.0)),
+        }
+    }
+}
+
+/// Observing limits for a window.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Limits {
+    /// Minimum observed altitude, degrees.
+    pub min_alt_deg: f64,
+    /// The Sun's centre must be below this altitude, degrees.
+    pub sun_alt_deg: f64,
+}
+
+impl Default for Limits {
+    fn default() -> Self {
+        Limits { min_alt_deg: 30.0, sun_alt_deg: ASTRONOMICAL_DEG }
+    }
+}
+
+impl Limits {
+    /// Checked limits.
+    pub fn new(min_alt_deg: f64, sun_alt_deg: f64) -> Result<Self> {
+        if !min_alt_deg.is_finite() || !(-1.0..=89.0).contains(&min_alt_deg) {
+            return Err(RungError::invalid("--min-alt", format!("{min_alt_deg} is not within -1..89 degrees")));
+        }
+        if !sun_alt_deg.is_finite() || !(-90.0..=0.0).contains(&sun_alt_deg) {
+            return Err(RungError::invalid("--sun-alt", format!("{sun_alt_deg} is not within -90..0 degrees")));
+        }
+        Ok(Limits { min_alt_deg, sun_alt_deg })
+    }
+}
+
+/// The Sun and Moon events of one night.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NightEvents {
+    /// Sun's centre through −0°50′ going down.
+    pub sunset: Event,
+    /// Sun's centre through −0°50′ going up.
+    pub sunrise: Event,
+    /// Sun through −6° going down.
+    pub civil_dusk: Event,
+    /// Sun through −6° going up.
+    pub civil_dawn: Event,
+    /// Sun through −12° going down.
+    pub nautical_dusk: Event,
+    /// Sun through −12° going up.
+    pub nautical_dawn: Event,
+    /// Sun through −18° going down.
+    pub astronomical_dusk: Event,
+    /// Sun through −18° going up.
+    pub astronomical_dawn: Event,
+    /// First moonrise between the local noons.
+    pub moonrise: Event,
+    /// First moonset between the local noons.
+    pub moonset: Event,
+    /// Illuminated fraction of the Moon at the middle of the night (local midnight).
+    pub moon_illumination: f64,
+    /// Whether the Moon is waxing then.
+    pub moon_waxing: bool,
+    /// The middle of the noon-to-noon span (local midnight, to within DST shifts).
+    pub local_midnight: Instant,
+}
+
+/// What one target does in one night.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TargetNight {
+    /// Rise (geometric altitude through −0°34′).
+    pub rise: Event,
+    /// Upper transit.
+    pub transit: Event,
+    /// Set.
+    pub set: Event,
+    /// Observable intervals (above the limit and the horizon mask, Sun below its limit).
+    pub windows: Vec<(Instant, Instant)>,
+    /// Total observable time, hours.
+    pub observable_hours: f64,
+    /// Highest observed altitude while the Sun is below its limit, degrees.
+    pub max_altitude_deg: Option<f64>,
+    /// When that altitude is reached.
+    pub max_altitude_time: Option<Instant>,
+    /// Kasten–Young airmass at that altitude.
+    pub min_airmass: Option<f64>,
+}
+
+impl TargetNight {
+    /// The longest observable interval.
+    pub fn main_window(&self) -> Option<(Instant, Instant)> {
+        self.windows
+            .iter()
+            .copied()
+            .max_by(|a, b| {
+                a.1.seconds_since(&a.0)
+                    .partial_cmp(&b.1.seconds_since(&b.0))
+                    .unwrap_or(std::cmp::Ordering::Equal)
+            })
+    }
+}

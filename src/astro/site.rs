@@ -1,0 +1,232 @@
+//! Observing sites: where the telescope stands and what its air is like.
+
+use crate::error::{Result, RungError};
+use chrono_tz::Tz;
+use serde::{Deserialize, Serialize};
+
+/// One point of a site's horizon mask: below `alt_deg` at `az_deg` the sky is hidden.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct HorizonPoint {
+    /// Azimuth, degrees, north 0, east 90.
+    pub az_deg: f64,
+    /// Lowest usable altitude at that azimuth, degrees.
+    pub alt_deg: f64,
+}
+
+/// Default Sun-avoidance angle while the Sun is up, degrees (DESIGN.md, safety).
+pub const DEFAULT_SUN_AVOID_DEG: f64 = 45.0;
+
+/// An observing site.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Site {
+    /// Name, as in the catalogue (or "inline" for coordinates given on the command line).
+    pub name: String,
+    /// Geodetic latitude (WGS84), degrees, north positive.
+    pub lat_deg: f64,
+    /// Longitude, degrees, east positive.
+    pub lon_deg: f64,
+    /// Height above the ellipsoid, metres.
+    pub elev_m: f64,
+    /// IANA time zone of the site.
+    pub timezone: Tz,
+    /// Ambient pressure, hPa; `None` means the standard atmosphere at `elev_m`.
+    pub pressure_hpa: Option<f64>,
+    /// Ambient temperature, °C.
+    pub temperature_c: f64,
+    /// Relative humidity, 0–1.
+    pub humidity: f64,
+    /// Horizon mask (azimuth-sorted); empty means a flat horizon.
+    pub horizon: Vec<HorizonPoint>,
+    /// Sun-avoidance angle (degrees) while the Sun is up.
+    pub sun_avoid_deg: f64,
+}
+
+/// Standard-atmosphere pressure at height `elev_m` (hPa): the ICAO/US 1976
+/// troposphere, p = 1013.25 (1 − 2.25577·10⁻⁵ h)^5.25588 (common practice).
+pub fn standard_pressure_hpa(elev_m: f64) -> f64 {
+    1013.25 * (1.0 - 2.25577e-5 * elev_m).max(0.0).powf(5.25588)
+}
+
+impl Site {
+    /// A site with checked values. Latitude must be within ±90° and not at a
+    /// pole exactly (hour angle and azimuth are undefined there), longitude within
+    /// ±360° (normalised to ±180°), elevation from −500 m to 6000 m.
+    pub fn new(name: &str, lat_deg: f64, lon_deg: f64, elev_m: f64, timezone: Tz) -> Result<Self> {
+        let s = Site {
+            name: name.to_string(),
+            lat_deg,
+            lon_deg,
+            elev_m,
+            timezone,
+            pressure_hpa: None,
+            temperature_c: 10.0,
+            humidity: 0.5,
+            horizon: Vec::new(),
+            sun_avoid_deg: DEFAULT_SUN_AVOID_DEG,
+        };
+        s.validated()
+    }
+
+    /// Check every field; normalise the longitude and sort the horizon mask.
+    pub fn validated(mut self) -> Result<Self> {
+        if !self.lat_deg.is_finite() || self.lat_deg.abs() > 90.0 {
+            return Err(RungError::invalid(
+                "latitude",
+                format!("{} is not within -90..+90 degrees", self.lat_deg),
+            ));
+        }
+        if self.lat_deg.abs() > 89.99 {
+            return Err(RungError::invalid(
+                "latitude",
+                format!(
+                    "{} is at a pole, where azimuth and hour angle are undefined; use |lat| <= 89.99",
+                    self.lat_deg
+                ),
+            ));
+        }
+        if !self.lon_deg.is_finite() || self.lon_deg.abs() > 360.0 {
+            return Err(RungError::invalid(
+                "longitude",
+                format!("{} is not within -360..+360 degrees (east positive)", self.lon_deg),
+            ));
+        }
+        self.lon_deg = ((self.lon_deg + 180.0).rem_euclid(360.0)) - 180.0;
+        if !self.elev_m.is_finite() || !(-500.0..=6000.0).contains(&self.elev_m) {
+            return Err(RungError::invalid(
+                "elevation",
+                format!("{} m is not within -500..6000 m", self.elev_m),
+            ));
+        }
+        if let Some(p) = self.pressure_hpa {
+            if !p.is_finite() || !(0.0..=1100.0).contains(&p) {
+                return Err(RungError::invalid(
+                    "pressure_hpa",
+                    format!("{p} is not within 0..1100 hPa"),
+                ));
+            }
+        }
+        if !self.temperature_c.is_finite() || !(-80.0..=60.0).contains(&self.temperature_c) {
+            return Err(RungError::invalid(
+                "temperature_c",
+                format!("{} is not within -80..60 °C", self.temperature_c),
+            ));
+        }
+        if !self.humidity.is_finite() || !(0.0..=1.0).contains(&self.humidity) {
+            return Err(RungError::invalid(
+                "humidity",
+                format!("{} is not within 0..1", self.humidity),
+            ));
+        }
+        if !self.sun_avoid_deg.is_finite() || !(0.0..=180.0).contains(&self.sun_avoid_deg) {
+            return Err(RungError::invalid(
+                "sun_avoid_deg",
+                format!("{} is not within 0..180 degrees", self.sun_avoid_deg),
+            ));
+        }
+        for h in &self.horizon {
+            if !h.az_deg.is_finite() || !h.alt_deg.is_finite() || h.alt_deg.abs() > 90.0 {
+                return Err(RungError::invalid(
+                    "horizon",
+                    format!("point az {} alt {} is not a direction", h.az_deg, h.alt_deg),
+                ));
+            }
+        }
+        for h in &mut self.horizon {
+            h.az_deg = h.az_deg.rem_euclid(360.0);
+        }
+        self.horizon
+            .sort_by(|a, b| a.az_deg.partial_cmp(&b.az_deg).unwrap_or(std::cmp::Ordering::Equal));
+        Ok(self)
+    }
+
+    /// Pressure used for refraction, hPa (given, or the standard atmosphere).
+    pub fn pressure_hpa(&self) -> f64 {
+        self.pressure_hpa
+            .unwrap_or_else(|| standard_pressure_hpa(self.elev_m))
+    }
+
+    /// Latitude in radians.
+    pub fn lat_rad(&self) -> f64 {
+        self.lat_deg.to_radians()
+    }
+
+    /// Longitude (east positive) in radians.
+    pub fn lon_rad(&self) -> f64 {
+        self.lon_deg.to_radians()
+    }
+
+    /// Horizon-mask altitude (degrees) at an azimuth, linear between points and
+    /// wrapping through north; 0 for a flat horizon.
+    pub fn horizon_alt_deg(&self, az_deg: f64) -> f64 {
+        let n = self.horizon.len();
+        if n == 0 {
+            return 0.0;
+        }
+        if n == 1 {
+            return self.horizon[0].alt_deg;
+        }
+        let az = az_deg.rem_euclid(360.0);
+        let idx = self.horizon.partition_point(|p| p.az_deg <= az);
+        let (a, b) = if idx == 0 || idx == n {
+            (self.horizon[n - 1], self.horizon[0])
+        } else {
+            (self.horizon[idx - 1], self.horizon[idx])
+        };
+        let span = (b.az_deg - a.az_deg).rem_euclid(360.0);
+        if span == 0.0 {
+            return a.alt_deg;
+        }
+        let off = (az - a.az_deg).rem_euclid(360.0);
+        a.alt_deg + (b.alt_deg - a.alt_deg) * off / span
+    }
+
+    /// Distance from the Earth's spin axis and north of the equator (km), for TDB.
+    pub fn spin_axis_uv_km(&self) -> (f64, f64) {
+        match sofars::coords::gd2gc(1, self.lon_rad(), self.lat_rad(), self.elev_m) {
+            Ok(xyz) => (
+                (xyz[0] * xyz[0] + xyz[1] * xyz[1]).sqrt() / 1000.0,
+                xyz[2] / 1000.0,
+            ),
+            Err(_) => (0.0, 0.0),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn standard_atmosphere() {
+        // US Standard Atmosphere 1976: 1013.25 hPa at sea level, ≈ 795 hPa at 2000 m,
+        // ≈ 616 hPa at 4000 m (tabulated values, quoted from memory).
+        assert!((standard_pressure_hpa(0.0) - 1013.25).abs() < 1e-9);
+        assert!((standard_pressure_hpa(2000.0) - 795.0).abs() < 1.5);
+        assert!((standard_pressure_hpa(4000.0) - 616.4).abs() < 1.5);
+    }
+
+    #[test]
+    fn bad_sites() {
+        let tz: Tz = "UTC".parse().unwrap();
+        assert!(Site::new("x", 95.0, 0.0, 0.0, tz).is_err());
+        assert!(Site::new("x", 90.0, 0.0, 0.0, tz).is_err());
+        assert!(Site::new("x", 10.0, f64::NAN, 0.0, tz).is_err());
+        assert!(Site::new("x", 10.0, 0.0, 9000.0, tz).is_err());
+        let s = Site::new("x", 10.0, 270.0, 0.0, tz).unwrap();
+        assert!((s.lon_deg + 90.0).abs() < 1e-12);
+    }
+
+    #[test]
+    fn horizon_mask_interpolates_and_wraps() {
+        let tz: Tz = "UTC".parse().unwrap();
+        let mut s = Site::new("x", 10.0, 0.0, 0.0, tz).unwrap();
+        s.horizon = vec![
+            HorizonPoint { az_deg: 90.0, alt_deg: 10.0 },
+            HorizonPoint { az_deg: 270.0, alt_deg: 20.0 },
+        ];
+        let s = s.validated().unwrap();
+        assert!((s.horizon_alt_deg(180.0) - 15.0).abs() < 1e-9);
+        assert!((s.horizon_alt_deg(0.0) - 15.0).abs() < 1e-9);
+        assert!((s.horizon_alt_deg(90.0) - 10.0).abs() < 1e-9);
+    }
+}

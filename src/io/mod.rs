@@ -1,0 +1,6 @@
+//! Targets, sites, instruments, and exports.
+
+pub mod angles;
+pub mod atomic;
+pub mod sites;
+pub mod targets;

@@ -1,0 +1,197 @@
+//! The site catalogue: `config/sites.toml` (built in), the user's own
+//! `sites.toml` in the user config folder, and inline `LAT,LON,ELEV_M[,ZONE]`.
+
+use crate::astro::site::{DEFAULT_SUN_AVOID_DEG, HorizonPoint, Site};
+use crate::error::{Location, Result, RungError};
+use serde::Deserialize;
+use std::path::{Path, PathBuf};
+
+/// The built-in catalogue (config/sites.toml), compiled in so rung works anywhere.
+pub const BUILTIN_SITES: &str = include_str!("../../config/sites.toml");
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct SiteRow {
+    name: String,
+    lat_deg: f64,
+    lon_deg: f64,
+    elev_m: f64,
+    timezone: String,
+    pressure_hpa: Option<f64>,
+    temperature_c: Option<f64>,
+    humidity: Option<f64>,
+    sun_avoid_deg: Option<f64>,
+    horizon: Option<Vec<[f64; 2]>>,
+    description: Option<String>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct SiteFile {
+    #[serde(default)]
+    site: Vec<SiteRow>,
+}
+
+/// The user's config folder for rung (`$RUNG_CONFIG_DIR` overrides it).
+pub fn user_config_dir() -> Option<PathBuf> {
+    if let Ok(d) = std::env::var("RUNG_CONFIG_DIR") {
+        return Some(PathBuf::from(d));
+    }
+    directories::ProjectDirs::from("org", "rung", "rung").map(|p| p.config_dir().to_path_buf())
+}
+
+fn line_of(text: &str, offset: usize) -> usize {
+    text[..offset.min(text.len())].lines().count().max(1)
+}
+
+/// Parse a sites TOML text. `file` names it in errors.
+pub fn parse_sites(text: &str, file: &Path) -> Result<Vec<Site>> {
+    let f: SiteFile = toml::from_str(text).map_err(|e| RungError::InFile {
+        loc: Location {
+            file: Some(file.to_path_buf()),
+            line: e.span().map(|s| line_of(text, s.start)),
+            field: None,
+        },
+        msg: e.message().to_string(),
+    })?;
+    let header_lines: Vec<usize> = text
+        .lines()
+        .enumerate()
+        .filter(|(_, l)| l.trim_start().starts_with("[[site]]"))
+        .map(|(i, _)| i + 1)
+        .collect();
+    let mut out = Vec::new();
+    for (i, r) in f.site.into_iter().enumerate() {
+        let at = |field: &str, msg: String| RungError::InFile {
+            loc: Location {
+                file: Some(file.to_path_buf()),
+                line: header_lines.get(i).copied(),
+                field: Some(field.to_string()),
+            },
+            msg,
+        };
+        let tz = r
+            .timezone
+            .parse::<chrono_tz::Tz>()
+            .map_err(|_| at("timezone", format!("'{}' is not an IANA time zone", r.timezone)))?;
+        let _ = r.description;
+        let site = Site {
+            name: r.name.clone(),
+            lat_deg: r.lat_deg,
+            lon_deg: r.lon_deg,
+            elev_m: r.elev_m,
+            timezone: tz,
+            pressure_hpa: r.pressure_hpa,
+            temperature_c: r.temperature_c.unwrap_or(10.0),
+            humidity: r.humidity.unwrap_or(0.5),
+            horizon: r
+                .horizon
+                .unwrap_or_default()
+                .into_iter()
+                .map(|[az_deg, alt_deg]| HorizonPoint { az_deg, alt_deg })
+                .collect(),
+            sun_avoid_deg: r.sun_avoid_deg.unwrap_or(DEFAULT_SUN_AVOID_DEG),
+        };
+        let site = site.validated().map_err(|e| match e {
+            RungError::Invalid { what, why } => at(&what, why),
+            other => other,
+        })?;
+        out.push(site);
+    }
+    Ok(out)
+}
+
+/// Every known site: built-in first, then the user's file (which may override by name).
+pub fn catalogue() -> Result<Vec<Site>> {
+    let mut all = parse_sites(BUILTIN_SITES, Path::new("config/sites.toml"))?;
+    if let Some(dir) = user_config_dir() {
+        let p = dir.join("sites.toml");
+        if p.exists() {
+            let text = std::fs::read_to_string(&p).map_err(|e| RungError::io(&p, e))?;
+            for s in parse_sites(&text, &p)? {
+                all.retain(|x| x.name != s.name);
+                all.push(s);
+            }
+        }
+    }
+    Ok(all)
+}
+
+/// A zone for an inline site without one: the whole-hour `Etc/GMT±N` zone nearest its longitude.
+pub fn zone_from_longitude(lon_deg: f64) -> chrono_tz::Tz {
+    let h = (lon_deg / 15.0).round() as i32;
+    let name = match h {
+        0 => "Etc/GMT".to_string(),
+        h if h > 0 => format!("Etc/GMT-{}", h.min(12)),
+        h => format!("Etc/GMT+{}", (-h).min(12)),
+    };
+    name.parse().unwrap_or(chrono_tz::UTC)
+}
+
+/// Resolve `--site`: a catalogue name (case-insensitive) or `LAT,LON,ELEV_M[,ZONE]`.
+pub fn resolve(spec: &str) -> Result<Site> {
+    let parts: Vec<&str> = spec.split(',').map(|s| s.trim()).collect();
+    if parts.len() >= 3 && parts[0].parse::<f64>().is_ok() {
+        let num = |i: usize, what: &str| -> Result<f64> {
+            parts[i]
+                .parse::<f64>()
+                .ok()
+                .filter(|v| v.is_finite())
+                .ok_or_else(|| RungError::parse(what, parts[i], "expected a number"))
+        };
+        let lat = num(0, "latitude")?;
+        let lon = num(1, "longitude")?;
+        let elev = num(2, "elevation")?;
+        let tz = match parts.get(3) {
+            Some(z) => z
+                .parse::<chrono_tz::Tz>()
+                .map_err(|_| RungError::parse("time zone", z, "expected an IANA zone such as America/Santiago"))?,
+            None => zone_from_longitude(lon),
+        };
+        if parts.len() > 4 {
+            return Err(RungError::parse("site", spec, "expected LAT,LON,ELEV_M[,ZONE]"));
+        }
+        return Site::new("inline", lat, lon, elev, tz);
+    }
+    let all = catalogue()?;
+    all.iter()
+        .find(|s| s.name.eq_ignore_ascii_case(spec.trim()))
+        .cloned()
+        .ok_or_else(|| RungError::Unknown {
+            what: "site".into(),
+            name: spec.to_string(),
+            hint: format!(
+                "; known sites: {}; or give LAT,LON,ELEV_M (degrees, east-positive longitude, metres)",
+                all.iter().map(|s| s.name.as_str()).collect::<Vec<_>>().join(", ")
+            ),
+        })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn builtin_catalogue_parses_with_both_hemispheres() {
+        let all = parse_sites(BUILTIN_SITES, Path::new("config/sites.toml")).unwrap();
+        assert!(all.len() >= 2);
+        assert!(all.iter().any(|s| s.lat_deg < 0.0));
+        assert!(all.iter().any(|s| s.lat_deg > 0.0));
+    }
+
+    #[test]
+    fn inline_and_errors() {
+        let s = resolve("-30.5,-70.8,2400").unwrap();
+        assert_eq!(s.timezone.name(), "Etc/GMT+5");
+        assert!(resolve("95,0,0").unwrap_err().to_string().contains("latitude"));
+        assert!(resolve("no-such-site").unwrap_err().to_string().contains("unknown site"));
+        assert!(resolve("10,20,30,Not/AZone").is_err());
+    }
+
+    #[test]
+    fn bad_site_file_names_line_and_field() {
+        let t = "[[site]]\nname = \"a\"\nlat_deg = 10\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n\n[[site]]\nname = \"b\"\nlat_deg = 95\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n";
+        let e = parse_sites(t, Path::new("s.toml")).unwrap_err().to_string();
+        assert!(e.contains("s.toml") && e.contains("line 8") && e.contains("latitude"), "{e}");
+    }
+}

@@ -1,0 +1,19 @@
+//! rung: an offline planner for observers who measure distances — trigonometric
+//! parallaxes, period–luminosity distances of pulsating stars, and
+//! standardized-candle distances of thermonuclear supernovae.
+//!
+//! The engine is this library; the `rung` binary and its terminal UI are thin
+//! shells over it. The library never prints and never touches the terminal.
+
+#![warn(missing_docs)]
+
+pub mod astro;
+pub mod error;
+pub mod io;
+pub mod ladder;
+pub mod photometry;
+pub mod plan;
+pub mod sky;
+pub mod tui;
+
+pub use error::{Result, RungError};
