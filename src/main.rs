@@ -1,1 +1,40 @@
-fn main() {}
+//! The `rung` command line: argument parsing and dispatch only. Each
+//! subcommand lives in `src/cli/` as a small function that builds inputs, calls
+//! the library, and formats the result (table, `--json`, `--csv`).
+
+mod cli;
+
+use clap::{Parser, Subcommand};
+use std::process::ExitCode;
+
+/// rung: plan observations for distance measurements (parallax, pulsators, transients).
+#[derive(Parser)]
+#[command(name = "rung", version, about, long_about = None)]
+struct Cli {
+    #[command(subcommand)]
+    command: Option<Command>,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Where a target is at an instant: altitude, azimuth, airmass, Sun and Moon.
+    Where(cli::where_cmd::Args),
+    /// The night of a date: twilights, Moon, and each target's window.
+    Night(cli::night::Args),
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        Some(Command::Where(a)) => cli::where_cmd::run(a),
+        Some(Command::Night(a)) => cli::night::run(a),
+        None => cli::default_run(),
+    };
+    match result {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("rung: error: {}", cli::one_line(&e));
+            ExitCode::from(2)
+        }
+    }
+}

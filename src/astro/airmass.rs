@@ -5,7 +5,7 @@
 /// X = 1 / [sin h + 0.50572 (h + 6.07995°)^−1.6364]. Valid to the horizon
 /// (X ≈ 38 at h = 0); `None` below it.
 pub fn kasten_young(alt_deg: f64) -> Option<f64> {
-    if !alt_deg.is_finite() || alt_deg < 0.0 || alt_deg > 90.0 {
+    if !alt_deg.is_finite() || !(0.0..=90.0).contains(&alt_deg) {
         return None;
     }
     let h = alt_deg;
@@ -15,7 +15,7 @@ pub fn kasten_young(alt_deg: f64) -> Option<f64> {
 /// Plane-parallel airmass sec z from the altitude in degrees (cross-check only;
 /// it diverges towards the horizon). `None` at or below the horizon.
 pub fn secant_z(alt_deg: f64) -> Option<f64> {
-    if !(alt_deg > 0.0 && alt_deg <= 90.0) {
+    if alt_deg.is_nan() || alt_deg <= 0.0 || alt_deg > 90.0 {
         return None;
     }
     Some(1.0 / alt_deg.to_radians().sin())
@@ -24,7 +24,7 @@ pub fn secant_z(alt_deg: f64) -> Option<f64> {
 /// Apparent altitude (degrees) at which the Kasten–Young airmass equals `x` (≥ 1),
 /// by bisection; used to turn an airmass limit into an altitude limit.
 pub fn altitude_for_airmass_deg(x: f64) -> Option<f64> {
-    if !(x >= 1.0) || !x.is_finite() {
+    if x.is_nan() || x < 1.0 || !x.is_finite() {
         return None;
     }
     let (mut lo, mut hi) = (0.0_f64, 90.0_f64);
@@ -51,7 +51,13 @@ mod tests {
         // Kasten & Young (1989), Applied Optics 28, 4735, their Table of relative
         // airmass (quoted from memory): 1.0000 at zenith, 1.9927 at h = 30°,
         // 5.5600 at 10°, 10.3163 at 5°, 38.0868 at the horizon.
-        let cases = [(90.0, 1.0), (30.0, 1.9927), (10.0, 5.600), (5.0, 10.316), (0.0, 38.087)];
+        let cases = [
+            (90.0, 1.0),
+            (30.0, 1.9927),
+            (10.0, 5.600),
+            (5.0, 10.316),
+            (0.0, 38.087),
+        ];
         for (h, x) in cases {
             let got = kasten_young(h).unwrap();
             assert!((got - x).abs() / x < 0.008, "h={h}: {got} vs {x}");

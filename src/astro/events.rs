@@ -13,7 +13,13 @@ pub struct Crossing {
 }
 
 /// Bisect a sign change of `f` between `a` (value `fa`) and `b` to `tol_s` seconds.
-pub fn bisect(f: &mut dyn FnMut(Instant) -> f64, a: Instant, fa: f64, b: Instant, tol_s: f64) -> Instant {
+pub fn bisect(
+    f: &mut dyn FnMut(Instant) -> f64,
+    a: Instant,
+    fa: f64,
+    b: Instant,
+    tol_s: f64,
+) -> Instant {
     let (mut lo, mut hi) = (a, b);
     let mut flo = fa;
     while hi.seconds_since(&lo) > tol_s {
@@ -44,7 +50,10 @@ pub fn crossings_on_grid(
         }
         if (a >= 0.0) != (b >= 0.0) {
             let t = bisect(f, ts[i - 1], a, ts[i], tol_s);
-            out.push(Crossing { t, rising: b >= 0.0 });
+            out.push(Crossing {
+                t,
+                rising: b >= 0.0,
+            });
         }
     }
     out
@@ -93,7 +102,8 @@ mod tests {
     fn finds_sine_crossings_to_a_second() {
         let t0 = parse_instant("2026-06-01T00:00:00Z").unwrap();
         let period = 86_400.0;
-        let mut f = |t: Instant| (2.0 * std::f64::consts::PI * t.seconds_since(&t0) / period).sin() - 0.5;
+        let mut f =
+            |t: Instant| (2.0 * std::f64::consts::PI * t.seconds_since(&t0) / period).sin() - 0.5;
         let ts = grid(t0, t0.add_seconds(period), 600.0);
         let vs: Vec<f64> = ts.iter().map(|t| f(*t)).collect();
         let c = crossings_on_grid(&mut f, &ts, &vs, 1.0);

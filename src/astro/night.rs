@@ -53,10 +53,16 @@ pub struct Event {
 
 impl Event {
     fn at(t: Instant) -> Self {
-        Event { t: Some(t), reason: None }
+        Event {
+            t: Some(t),
+            reason: None,
+        }
     }
     fn none(reason: impl Into<String>) -> Self {
-        Event { t: None, reason: Some(reason.into()) }
+        Event {
+            t: None,
+            reason: Some(reason.into()),
+        }
     }
     /// The ISO text, or `None`.
     pub fn iso(&self) -> Option<String> {
@@ -111,7 +117,9 @@ impl Night {
     /// The night that begins on the local evening of `date` at `site`.
     pub fn new(site: &Site, date: NaiveDate) -> Result<Self> {
         let start = local_noon(site, date)?;
-        let next = date.succ_opt().ok_or_else(|| RungError::invalid("date", "no next day"))?;
+        let next = date
+            .succ_opt()
+            .ok_or_else(|| RungError::invalid("date", "no next day"))?;
         let end = local_noon(site, next)?;
         Self::spanning(site, date, start, end)
     }
@@ -159,7 +167,11 @@ impl Night {
     pub fn sun_pair(&self, thr_deg: f64, label: &str) -> (Event, Event) {
         let c = self.sun_crossings(thr_deg);
         let fall = c.iter().find(|c| !c.rising).map(|c| c.t);
-        let rise = c.iter().rev().find(|c| c.rising && fall.is_none_or(|f| c.t > f)).map(|c| c.t);
+        let rise = c
+            .iter()
+            .rev()
+            .find(|c| c.rising && fall.is_none_or(|f| c.t > f))
+            .map(|c| c.t);
         let above_all = self.sun_alt_deg.iter().all(|a| *a >= thr_deg);
         let below_all = self.sun_alt_deg.iter().all(|a| *a < thr_deg);
         let why = |which: &str| {
@@ -172,8 +184,10 @@ impl Night {
             }
         };
         (
-            fall.map(Event::at).unwrap_or_else(|| Event::none(why("dusk"))),
-            rise.map(Event::at).unwrap_or_else(|| Event::none(why("dawn"))),
+            fall.map(Event::at)
+                .unwrap_or_else(|| Event::none(why("dusk"))),
+            rise.map(Event::at)
+                .unwrap_or_else(|| Event::none(why("dawn"))),
         )
     }
 
@@ -182,9 +196,12 @@ impl Night {
         let (sunset, sunrise) = self.sun_pair(SUN_RISE_SET_DEG, "sunset/sunrise");
         let (civil_dusk, civil_dawn) = self.sun_pair(CIVIL_DEG, "civil");
         let (nautical_dusk, nautical_dawn) = self.sun_pair(NAUTICAL_DEG, "nautical");
-        let (astronomical_dusk, astronomical_dawn) = self.sun_pair(ASTRONOMICAL_DEG, "astronomical");
+        let (astronomical_dusk, astronomical_dawn) =
+            self.sun_pair(ASTRONOMICAL_DEG, "astronomical");
         let (moonrise, moonset) = self.moon_events();
-        let mid = self.start.add_seconds(self.end.seconds_since(&self.start) / 2.0);
+        let mid = self
+            .start
+            .add_seconds(self.end.seconds_since(&self.start) / 2.0);
         let c = self.context(mid);
         NightEvents {
             sunset,
@@ -247,7 +264,10 @@ impl Night {
         let at = |t: Instant| self.context(t).observe(place);
 
         // Rise and set: geometric altitude through −0°34′.
-        let rs: Vec<f64> = obs.iter().map(|o| o.alt_geom_rad.to_degrees() - STAR_RISE_SET_DEG).collect();
+        let rs: Vec<f64> = obs
+            .iter()
+            .map(|o| o.alt_geom_rad.to_degrees() - STAR_RISE_SET_DEG)
+            .collect();
         let mut frs = |t: Instant| at(t).alt_geom_rad.to_degrees() - STAR_RISE_SET_DEG;
         let cs = crossings_on_grid(&mut frs, &self.times, &rs, EVENT_TOL_S);
         let circumpolar = rs.iter().all(|v| *v >= 0.0);
@@ -284,10 +304,16 @@ impl Night {
         // Window: observed altitude above the limit and the horizon mask, Sun below its limit.
         let margin = |o: &Observed, sun_alt: f64| -> f64 {
             let alt = o.alt_rad.to_degrees();
-            let floor = limits.min_alt_deg.max(self.site.horizon_alt_deg(o.az_rad.to_degrees()));
+            let floor = limits
+                .min_alt_deg
+                .max(self.site.horizon_alt_deg(o.az_rad.to_degrees()));
             (alt - floor).min(limits.sun_alt_deg - sun_alt)
         };
-        let ws: Vec<f64> = obs.iter().zip(&self.sun_alt_deg).map(|(o, s)| margin(o, *s)).collect();
+        let ws: Vec<f64> = obs
+            .iter()
+            .zip(&self.sun_alt_deg)
+            .map(|(o, s)| margin(o, *s))
+            .collect();
         let mut fw = |t: Instant| {
             let c = self.context(t);
             margin(&c.observe(place), c.sun().alt_geom_rad.to_degrees())
@@ -310,9 +336,13 @@ impl Night {
         }
         for t in extra {
             let c = self.context(t);
-            consider(c.observe(place).alt_rad.to_degrees(), t, c.sun().alt_geom_rad.to_degrees());
+            consider(
+                c.observe(place).alt_rad.to_degrees(),
+                t,
+                c.sun().alt_geom_rad.to_degrees(),
+            );
         }
-        let observable_s: f64 = windows.iter().map(|(a, b)| b.seconds_since(a)).sum();
+        let observable_s: f64 = windows.iter().map(|(a, b)| b.seconds_since(a)).sum::<f64>() + 0.0;
         TargetNight {
             rise,
             transit,
@@ -337,7 +367,10 @@ pub struct Limits {
 
 impl Default for Limits {
     fn default() -> Self {
-        Limits { min_alt_deg: 30.0, sun_alt_deg: ASTRONOMICAL_DEG }
+        Limits {
+            min_alt_deg: 30.0,
+            sun_alt_deg: ASTRONOMICAL_DEG,
+        }
     }
 }
 
@@ -345,12 +378,21 @@ impl Limits {
     /// Checked limits.
     pub fn new(min_alt_deg: f64, sun_alt_deg: f64) -> Result<Self> {
         if !min_alt_deg.is_finite() || !(-1.0..=89.0).contains(&min_alt_deg) {
-            return Err(RungError::invalid("--min-alt", format!("{min_alt_deg} is not within -1..89 degrees")));
+            return Err(RungError::invalid(
+                "--min-alt",
+                format!("{min_alt_deg} is not within -1..89 degrees"),
+            ));
         }
         if !sun_alt_deg.is_finite() || !(-90.0..=0.0).contains(&sun_alt_deg) {
-            return Err(RungError::invalid("--sun-alt", format!("{sun_alt_deg} is not within -90..0 degrees")));
+            return Err(RungError::invalid(
+                "--sun-alt",
+                format!("{sun_alt_deg} is not within -90..0 degrees"),
+            ));
         }
-        Ok(Limits { min_alt_deg, sun_alt_deg })
+        Ok(Limits {
+            min_alt_deg,
+            sun_alt_deg,
+        })
     }
 }
 
@@ -409,13 +451,10 @@ pub struct TargetNight {
 impl TargetNight {
     /// The longest observable interval.
     pub fn main_window(&self) -> Option<(Instant, Instant)> {
-        self.windows
-            .iter()
-            .copied()
-            .max_by(|a, b| {
-                a.1.seconds_since(&a.0)
-                    .partial_cmp(&b.1.seconds_since(&b.0))
-                    .unwrap_or(std::cmp::Ordering::Equal)
-            })
+        self.windows.iter().copied().max_by(|a, b| {
+            a.1.seconds_since(&a.0)
+                .partial_cmp(&b.1.seconds_since(&b.0))
+                .unwrap_or(std::cmp::Ordering::Equal)
+        })
     }
 }

@@ -87,7 +87,10 @@ impl Site {
         if !self.lon_deg.is_finite() || self.lon_deg.abs() > 360.0 {
             return Err(RungError::invalid(
                 "longitude",
-                format!("{} is not within -360..+360 degrees (east positive)", self.lon_deg),
+                format!(
+                    "{} is not within -360..+360 degrees (east positive)",
+                    self.lon_deg
+                ),
             ));
         }
         self.lon_deg = ((self.lon_deg + 180.0).rem_euclid(360.0)) - 180.0;
@@ -97,13 +100,13 @@ impl Site {
                 format!("{} m is not within -500..6000 m", self.elev_m),
             ));
         }
-        if let Some(p) = self.pressure_hpa {
-            if !p.is_finite() || !(0.0..=1100.0).contains(&p) {
-                return Err(RungError::invalid(
-                    "pressure_hpa",
-                    format!("{p} is not within 0..1100 hPa"),
-                ));
-            }
+        if let Some(p) = self.pressure_hpa
+            && (!p.is_finite() || !(0.0..=1100.0).contains(&p))
+        {
+            return Err(RungError::invalid(
+                "pressure_hpa",
+                format!("{p} is not within 0..1100 hPa"),
+            ));
         }
         if !self.temperature_c.is_finite() || !(-80.0..=60.0).contains(&self.temperature_c) {
             return Err(RungError::invalid(
@@ -134,8 +137,11 @@ impl Site {
         for h in &mut self.horizon {
             h.az_deg = h.az_deg.rem_euclid(360.0);
         }
-        self.horizon
-            .sort_by(|a, b| a.az_deg.partial_cmp(&b.az_deg).unwrap_or(std::cmp::Ordering::Equal));
+        self.horizon.sort_by(|a, b| {
+            a.az_deg
+                .partial_cmp(&b.az_deg)
+                .unwrap_or(std::cmp::Ordering::Equal)
+        });
         Ok(self)
     }
 
@@ -221,8 +227,14 @@ mod tests {
         let tz: Tz = "UTC".parse().unwrap();
         let mut s = Site::new("x", 10.0, 0.0, 0.0, tz).unwrap();
         s.horizon = vec![
-            HorizonPoint { az_deg: 90.0, alt_deg: 10.0 },
-            HorizonPoint { az_deg: 270.0, alt_deg: 20.0 },
+            HorizonPoint {
+                az_deg: 90.0,
+                alt_deg: 10.0,
+            },
+            HorizonPoint {
+                az_deg: 270.0,
+                alt_deg: 20.0,
+            },
         ];
         let s = s.validated().unwrap();
         assert!((s.horizon_alt_deg(180.0) - 15.0).abs() < 1e-9);

@@ -51,14 +51,13 @@ impl Instant {
     /// Build from a calendar date and UTC time of day (seconds may reach 60.x on a
     /// leap-second day). Checks rung's valid span.
     pub fn from_utc_calendar(y: i32, mo: u32, d: u32, h: u32, mi: u32, sec: f64) -> Result<Self> {
-        let (a, b) = ts::dtf2d("UTC", y, mo as i32, d as i32, h as i32, mi as i32, sec).map_err(
-            |_| {
+        let (a, b) =
+            ts::dtf2d("UTC", y, mo as i32, d as i32, h as i32, mi as i32, sec).map_err(|_| {
                 RungError::invalid(
                     "time",
                     format!("{y:04}-{mo:02}-{d:02} {h:02}:{mi:02}:{sec:06.3} is not a UTC time"),
                 )
-            },
-        )?;
+            })?;
         // Normalise to utc1 = 0h of the day, utc2 = fraction.
         let whole = (a + b - 0.5).floor() + 0.5;
         let inst = Instant {
@@ -106,8 +105,8 @@ impl Instant {
     pub fn to_datetime(&self) -> DateTime<Utc> {
         match ts::d2dtf("UTC", 6, self.utc1, self.utc2) {
             Ok((y, mo, d, [h, mi, s, f])) => {
-                let date = NaiveDate::from_ymd_opt(y, mo as u32, d as u32)
-                    .unwrap_or(NaiveDate::MIN);
+                let date =
+                    NaiveDate::from_ymd_opt(y, mo as u32, d as u32).unwrap_or(NaiveDate::MIN);
                 let (s, nano) = if s >= 60 {
                     (59u32, 1_000_000_000u32 + f as u32 * 1000)
                 } else {
@@ -243,17 +242,16 @@ pub fn parse_instant(text: &str) -> Result<Instant> {
     // A leap second written as :60 is not accepted by chrono's parser; take it apart.
     if let Some((date, time)) = bare.split_once('T') {
         let tp: Vec<&str> = time.split(':').collect();
-        if tp.len() == 3 {
-            if let (Ok(d), Ok(h), Ok(m), Ok(s)) = (
+        if tp.len() == 3
+            && let (Ok(d), Ok(h), Ok(m), Ok(s)) = (
                 NaiveDate::parse_from_str(date, "%Y-%m-%d"),
                 tp[0].parse::<u32>(),
                 tp[1].parse::<u32>(),
                 tp[2].parse::<f64>(),
-            ) {
-                if (60.0..61.0).contains(&s) {
-                    return Instant::from_utc_calendar(d.year(), d.month(), d.day(), h, m, s);
-                }
-            }
+            )
+            && (60.0..61.0).contains(&s)
+        {
+            return Instant::from_utc_calendar(d.year(), d.month(), d.day(), h, m, s);
         }
     }
     Err(RungError::parse(
@@ -307,7 +305,11 @@ mod tests {
 
     #[test]
     fn iso_round_trip() {
-        for s in ["2026-12-01T23:15:07Z", "2000-01-01T12:00:00Z", "2099-12-31T23:59:59Z"] {
+        for s in [
+            "2026-12-01T23:15:07Z",
+            "2000-01-01T12:00:00Z",
+            "2099-12-31T23:59:59Z",
+        ] {
             assert_eq!(parse_instant(s).unwrap().iso(), s);
         }
         assert_eq!(
@@ -318,7 +320,13 @@ mod tests {
 
     #[test]
     fn bad_times_are_refused() {
-        for s in ["2026-13-01T00:00:00Z", "yesterday", "2026-02-30", "", "1899-01-01T00:00:00Z"] {
+        for s in [
+            "2026-13-01T00:00:00Z",
+            "yesterday",
+            "2026-02-30",
+            "",
+            "1899-01-01T00:00:00Z",
+        ] {
             assert!(parse_instant(s).is_err(), "{s}");
         }
         assert!(parse_date("2026-02-30").is_err());

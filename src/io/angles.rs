@@ -34,7 +34,9 @@ fn sexagesimal(text: &str) -> Option<(bool, f64, f64, f64)> {
 }
 
 fn is_sexagesimal(text: &str) -> bool {
-    text.contains(':') || text.trim().contains(' ') || text.contains(['h', 'd', 'm', '°', '\'', '′'])
+    text.contains(':')
+        || text.trim().contains(' ')
+        || text.contains(['h', 'd', 'm', '°', '\'', '′'])
 }
 
 /// Right ascension: decimal degrees (`83.63`) or hours-minutes-seconds
@@ -99,7 +101,11 @@ pub fn parse_angle_deg(text: &str, what: &str) -> Result<f64> {
     };
     match v {
         Some(x) if x.is_finite() => Ok(x),
-        _ => Err(RungError::parse(what, text, "expected degrees, decimal or ±DD:MM:SS")),
+        _ => Err(RungError::parse(
+            what,
+            text,
+            "expected degrees, decimal or ±DD:MM:SS",
+        )),
     }
 }
 
@@ -119,7 +125,16 @@ mod tests {
 
     #[test]
     fn bad_angles() {
-        for s in ["24:00:00", "12:60:00", "abc", "", "-01:00:00", "400", "nan", "1:2:3:4"] {
+        for s in [
+            "24:00:00",
+            "12:60:00",
+            "abc",
+            "",
+            "-01:00:00",
+            "400",
+            "nan",
+            "1:2:3:4",
+        ] {
             assert!(parse_ra_deg(s).is_err(), "{s}");
         }
         for s in ["+91:00:00", "95", "inf", "10:61:00", "1.5:30:00"] {

@@ -8,13 +8,24 @@ use std::path::Path;
 
 /// Write `bytes` to `path` atomically (temp file + fsync + rename + fsync of the folder).
 pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
-    let dir = path.parent().filter(|p| !p.as_os_str().is_empty()).unwrap_or(Path::new("."));
-    let name = path
-        .file_name()
-        .ok_or_else(|| RungError::invalid("file name", format!("{} names no file", path.display())))?;
-    let tmp = dir.join(format!(".{}.rung-tmp-{}", name.to_string_lossy(), std::process::id()));
+    let dir = path
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
+    let name = path.file_name().ok_or_else(|| {
+        RungError::invalid("file name", format!("{} names no file", path.display()))
+    })?;
+    let tmp = dir.join(format!(
+        ".{}.rung-tmp-{}",
+        name.to_string_lossy(),
+        std::process::id()
+    ));
     let res = (|| -> std::io::Result<()> {
-        let mut f = std::fs::OpenOptions::new().write(true).create(true).truncate(true).open(&tmp)?;
+        let mut f = std::fs::OpenOptions::new()
+            .write(true)
+            .create(true)
+            .truncate(true)
+            .open(&tmp)?;
         f.write_all(bytes)?;
         f.sync_all()?;
         drop(f);

@@ -70,10 +70,12 @@ pub fn parse_sites(text: &str, file: &Path) -> Result<Vec<Site>> {
             },
             msg,
         };
-        let tz = r
-            .timezone
-            .parse::<chrono_tz::Tz>()
-            .map_err(|_| at("timezone", format!("'{}' is not an IANA time zone", r.timezone)))?;
+        let tz = r.timezone.parse::<chrono_tz::Tz>().map_err(|_| {
+            at(
+                "timezone",
+                format!("'{}' is not an IANA time zone", r.timezone),
+            )
+        })?;
         let _ = r.description;
         let site = Site {
             name: r.name.clone(),
@@ -143,13 +145,21 @@ pub fn resolve(spec: &str) -> Result<Site> {
         let lon = num(1, "longitude")?;
         let elev = num(2, "elevation")?;
         let tz = match parts.get(3) {
-            Some(z) => z
-                .parse::<chrono_tz::Tz>()
-                .map_err(|_| RungError::parse("time zone", z, "expected an IANA zone such as America/Santiago"))?,
+            Some(z) => z.parse::<chrono_tz::Tz>().map_err(|_| {
+                RungError::parse(
+                    "time zone",
+                    z,
+                    "expected an IANA zone such as America/Santiago",
+                )
+            })?,
             None => zone_from_longitude(lon),
         };
         if parts.len() > 4 {
-            return Err(RungError::parse("site", spec, "expected LAT,LON,ELEV_M[,ZONE]"));
+            return Err(RungError::parse(
+                "site",
+                spec,
+                "expected LAT,LON,ELEV_M[,ZONE]",
+            ));
         }
         return Site::new("inline", lat, lon, elev, tz);
     }
@@ -183,8 +193,18 @@ mod tests {
     fn inline_and_errors() {
         let s = resolve("-30.5,-70.8,2400").unwrap();
         assert_eq!(s.timezone.name(), "Etc/GMT+5");
-        assert!(resolve("95,0,0").unwrap_err().to_string().contains("latitude"));
-        assert!(resolve("no-such-site").unwrap_err().to_string().contains("unknown site"));
+        assert!(
+            resolve("95,0,0")
+                .unwrap_err()
+                .to_string()
+                .contains("latitude")
+        );
+        assert!(
+            resolve("no-such-site")
+                .unwrap_err()
+                .to_string()
+                .contains("unknown site")
+        );
         assert!(resolve("10,20,30,Not/AZone").is_err());
     }
 
@@ -192,6 +212,9 @@ mod tests {
     fn bad_site_file_names_line_and_field() {
         let t = "[[site]]\nname = \"a\"\nlat_deg = 10\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n\n[[site]]\nname = \"b\"\nlat_deg = 95\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n";
         let e = parse_sites(t, Path::new("s.toml")).unwrap_err().to_string();
-        assert!(e.contains("s.toml") && e.contains("line 8") && e.contains("latitude"), "{e}");
+        assert!(
+            e.contains("s.toml") && e.contains("line 8") && e.contains("latitude"),
+            "{e}"
+        );
     }
 }

@@ -190,17 +190,27 @@ fn loc(file: &Path, line: usize, field: &str) -> Location {
     Location {
         file: Some(file.to_path_buf()),
         line: Some(line),
-        field: if field.is_empty() { None } else { Some(field.to_string()) },
+        field: if field.is_empty() {
+            None
+        } else {
+            Some(field.to_string())
+        },
     }
 }
 
-fn num(fields: &[(String, String)], key: &str) -> std::result::Result<Option<f64>, (String, String)> {
+fn num(
+    fields: &[(String, String)],
+    key: &str,
+) -> std::result::Result<Option<f64>, (String, String)> {
     match fields.iter().find(|(k, _)| k == key) {
         None => Ok(None),
         Some((_, v)) if v.trim().is_empty() => Ok(None),
         Some((_, v)) => match v.trim().parse::<f64>() {
             Ok(x) if x.is_finite() => Ok(Some(x)),
-            _ => Err((key.to_string(), format!("'{}' is not a finite number", cut(v)))),
+            _ => Err((
+                key.to_string(),
+                format!("'{}' is not a finite number", cut(v)),
+            )),
         },
     }
 }
@@ -215,23 +225,57 @@ fn text<'a>(fields: &'a [(String, String)], key: &str) -> Option<&'a str> {
 
 fn cut(s: &str) -> String {
     let c: String = s.chars().take(40).collect();
-    if s.chars().count() > 40 { format!("{c}…") } else { c }
+    if s.chars().count() > 40 {
+        format!("{c}…")
+    } else {
+        c
+    }
 }
 
 const KNOWN: [&str; 24] = [
-    "name", "ra", "dec", "kind", "parallax_mas", "pm_ra_masyr", "pm_dec_masyr", "epoch_yr", "mag",
-    "band", "period_d", "epoch_max_bjd", "period_err_d", "amplitude_mag", "mean_mag", "discovered",
-    "peak_mag", "mag_now", "redshift", "extinction_mag", "goal_pct", "priority", "notes", "id",
+    "name",
+    "ra",
+    "dec",
+    "kind",
+    "parallax_mas",
+    "pm_ra_masyr",
+    "pm_dec_masyr",
+    "epoch_yr",
+    "mag",
+    "band",
+    "period_d",
+    "epoch_max_bjd",
+    "period_err_d",
+    "amplitude_mag",
+    "mean_mag",
+    "discovered",
+    "peak_mag",
+    "mag_now",
+    "redshift",
+    "extinction_mag",
+    "goal_pct",
+    "priority",
+    "notes",
+    "id",
 ];
 
 /// Build a target from (field, value) pairs; the error names the field.
-pub fn target_from_fields(fields: &[(String, String)]) -> std::result::Result<Target, (String, String)> {
+pub fn target_from_fields(
+    fields: &[(String, String)],
+) -> std::result::Result<Target, (String, String)> {
     for (k, v) in fields {
         if v.len() > MAX_FIELD_BYTES {
-            return Err((k.clone(), format!("{} bytes is longer than the {MAX_FIELD_BYTES}-byte limit", v.len())));
+            return Err((
+                k.clone(),
+                format!(
+                    "{} bytes is longer than the {MAX_FIELD_BYTES}-byte limit",
+                    v.len()
+                ),
+            ));
         }
     }
-    let name = text(fields, "name").ok_or(("name".to_string(), "is missing or empty".to_string()))?;
+    let name =
+        text(fields, "name").ok_or(("name".to_string(), "is missing or empty".to_string()))?;
     let ra_t = text(fields, "ra").ok_or(("ra".to_string(), "is missing".to_string()))?;
     let dec_t = text(fields, "dec").ok_or(("dec".to_string(), "is missing".to_string()))?;
     let ra = parse_ra_deg(ra_t).map_err(|e| ("ra".to_string(), e.to_string()))?;
@@ -239,7 +283,10 @@ pub fn target_from_fields(fields: &[(String, String)]) -> std::result::Result<Ta
     let kind_t = text(fields, "kind").unwrap_or("plain");
     let kind = Kind::parse(kind_t).ok_or((
         "kind".to_string(),
-        format!("'{}' is not one of parallax, pulsator, transient, plain", cut(kind_t)),
+        format!(
+            "'{}' is not one of parallax, pulsator, transient, plain",
+            cut(kind_t)
+        ),
     ))?;
     let mut t = Target::plain(name, ra, dec);
     t.kind = kind;
@@ -263,18 +310,25 @@ pub fn target_from_fields(fields: &[(String, String)]) -> std::result::Result<Ta
     if let Some(b) = text(fields, "band") {
         let up = b.to_ascii_uppercase();
         if !BANDS.contains(&up.as_str()) {
-            return Err(("band".into(), format!("'{}' is not one of U, B, V, R, I", cut(b))));
+            return Err((
+                "band".into(),
+                format!("'{}' is not one of U, B, V, R, I", cut(b)),
+            ));
         }
         t.band = up;
     }
     if let Some(d) = text(fields, "discovered") {
-        t.discovered = Some(parse_instant(d).map_err(|e| ("discovered".to_string(), e.to_string()))?);
+        t.discovered =
+            Some(parse_instant(d).map_err(|e| ("discovered".to_string(), e.to_string()))?);
     }
     let bad = |f: &str, why: &str| Err((f.to_string(), why.to_string()));
     if !(1900.0..=2100.0).contains(&t.epoch_yr) {
         return bad("epoch_yr", "must be a Julian year between 1900 and 2100");
     }
-    for (f, v) in [("pm_ra_masyr", t.pm_ra_masyr), ("pm_dec_masyr", t.pm_dec_masyr)] {
+    for (f, v) in [
+        ("pm_ra_masyr", t.pm_ra_masyr),
+        ("pm_dec_masyr", t.pm_dec_masyr),
+    ] {
         if v.abs() > 20_000.0 {
             return bad(f, "is faster than 20 arcsec/yr, beyond any star");
         }
@@ -282,23 +336,32 @@ pub fn target_from_fields(fields: &[(String, String)]) -> std::result::Result<Ta
     if t.extinction_mag < 0.0 || t.extinction_mag > 20.0 {
         return bad("extinction_mag", "must be within 0..20 mag");
     }
-    if let Some(g) = t.goal_pct {
-        if g <= 0.0 || g > 100.0 {
-            return bad("goal_pct", "must be a percentage in (0, 100]");
-        }
+    if let Some(g) = t.goal_pct
+        && (g <= 0.0 || g > 100.0)
+    {
+        return bad("goal_pct", "must be a percentage in (0, 100]");
     }
-    for (f, v) in [("mag", t.mag), ("mean_mag", t.mean_mag), ("peak_mag", t.peak_mag), ("mag_now", t.mag_now)] {
-        if let Some(m) = v {
-            if !(-2.0..=30.0).contains(&m) {
-                return bad(f, "must be a magnitude within -2..30");
-            }
+    for (f, v) in [
+        ("mag", t.mag),
+        ("mean_mag", t.mean_mag),
+        ("peak_mag", t.peak_mag),
+        ("mag_now", t.mag_now),
+    ] {
+        if let Some(m) = v
+            && !(-2.0..=30.0).contains(&m)
+        {
+            return bad(f, "must be a magnitude within -2..30");
         }
     }
     match kind {
         Kind::Parallax => match t.parallax_mas {
             None => return bad("parallax_mas", "is required for a parallax target"),
-            Some(p) if p <= 0.0 => return bad("parallax_mas", "must be positive (expected parallax, mas)"),
-            Some(p) if p > 1000.0 => return bad("parallax_mas", "exceeds 1000 mas: no star is that close"),
+            Some(p) if p <= 0.0 => {
+                return bad("parallax_mas", "must be positive (expected parallax, mas)");
+            }
+            Some(p) if p > 1000.0 => {
+                return bad("parallax_mas", "exceeds 1000 mas: no star is that close");
+            }
             _ => {}
         },
         Kind::Pulsator => {
@@ -308,21 +371,26 @@ pub fn target_from_fields(fields: &[(String, String)]) -> std::result::Result<Ta
                 _ => {}
             }
             match t.epoch_max_bjd {
-                None => return bad("epoch_max_bjd", "is required for a pulsator (BJD_TDB of a maximum)"),
+                None => {
+                    return bad(
+                        "epoch_max_bjd",
+                        "is required for a pulsator (BJD_TDB of a maximum)",
+                    );
+                }
                 Some(e) if !(2_400_000.0..=2_500_000.0).contains(&e) => {
                     return bad("epoch_max_bjd", "must be a full BJD such as 2461000.123");
                 }
                 _ => {}
             }
-            if let Some(e) = t.period_err_d {
-                if e < 0.0 {
-                    return bad("period_err_d", "must not be negative");
-                }
+            if let Some(e) = t.period_err_d
+                && e < 0.0
+            {
+                return bad("period_err_d", "must not be negative");
             }
-            if let Some(a) = t.amplitude_mag {
-                if a < 0.0 {
-                    return bad("amplitude_mag", "must not be negative");
-                }
+            if let Some(a) = t.amplitude_mag
+                && a < 0.0
+            {
+                return bad("amplitude_mag", "must not be negative");
             }
         }
         Kind::Transient => {
@@ -332,10 +400,10 @@ pub fn target_from_fields(fields: &[(String, String)]) -> std::result::Result<Ta
             if t.peak_mag.is_none() && t.mag_now.is_none() {
                 return bad("peak_mag", "a transient needs peak_mag or mag_now");
             }
-            if let Some(z) = t.redshift {
-                if !(0.0..=3.0).contains(&z) {
-                    return bad("redshift", "must be within 0..3");
-                }
+            if let Some(z) = t.redshift
+                && !(0.0..=3.0).contains(&z)
+            {
+                return bad("redshift", "must be within 0..3");
             }
         }
         Kind::Plain => {}
@@ -354,7 +422,10 @@ pub fn parse_csv(text: &str, file: &Path) -> Loaded {
     let headers: Vec<String> = match rdr.headers() {
         Ok(h) => h.iter().map(|s| s.trim().to_ascii_lowercase()).collect(),
         Err(e) => {
-            out.problems.push(RungError::InFile { loc: loc(file, 1, ""), msg: format!("unreadable header: {e}") });
+            out.problems.push(RungError::InFile {
+                loc: loc(file, 1, ""),
+                msg: format!("unreadable header: {e}"),
+            });
             return out;
         }
     };
@@ -373,7 +444,10 @@ pub fn parse_csv(text: &str, file: &Path) -> Loaded {
             Ok(r) => r,
             Err(e) => {
                 let line = e.position().map(|p| p.line() as usize).unwrap_or(0);
-                out.problems.push(RungError::InFile { loc: loc(file, line, ""), msg: format!("unreadable row: {e}") });
+                out.problems.push(RungError::InFile {
+                    loc: loc(file, line, ""),
+                    msg: format!("unreadable row: {e}"),
+                });
                 continue;
             }
         };
@@ -381,12 +455,19 @@ pub fn parse_csv(text: &str, file: &Path) -> Loaded {
         if rec.len() != headers.len() {
             out.problems.push(RungError::InFile {
                 loc: loc(file, line, ""),
-                msg: format!("row has {} fields but the header has {}", rec.len(), headers.len()),
+                msg: format!(
+                    "row has {} fields but the header has {}",
+                    rec.len(),
+                    headers.len()
+                ),
             });
             continue;
         }
-        let fields: Vec<(String, String)> =
-            headers.iter().cloned().zip(rec.iter().map(|s| s.to_string())).collect();
+        let fields: Vec<(String, String)> = headers
+            .iter()
+            .cloned()
+            .zip(rec.iter().map(|s| s.to_string()))
+            .collect();
         push_target(&mut out, &mut seen, fields, file, line);
     }
     out
@@ -410,7 +491,10 @@ fn push_target(
                 out.targets.push(t);
             }
         }
-        Err((field, msg)) => out.problems.push(RungError::InFile { loc: loc(file, line, &field), msg }),
+        Err((field, msg)) => out.problems.push(RungError::InFile {
+            loc: loc(file, line, &field),
+            msg,
+        }),
     }
 }
 
@@ -420,7 +504,10 @@ pub fn parse_toml(text: &str, file: &Path) -> Loaded {
     let doc: toml::Table = match text.parse() {
         Ok(d) => d,
         Err(e) => {
-            let line = e.span().map(|s| text[..s.start.min(text.len())].lines().count().max(1)).unwrap_or(1);
+            let line = e
+                .span()
+                .map(|s| text[..s.start.min(text.len())].lines().count().max(1))
+                .unwrap_or(1);
             out.problems.push(RungError::InFile {
                 loc: loc(file, line, ""),
                 msg: format!("not valid TOML: {}", e.message()),
@@ -446,7 +533,10 @@ pub fn parse_toml(text: &str, file: &Path) -> Loaded {
     for (i, item) in list.iter().enumerate() {
         let line = header_lines.get(i).copied().unwrap_or(0);
         let Some(tab) = item.as_table() else {
-            out.problems.push(RungError::InFile { loc: loc(file, line, ""), msg: "not a table".into() });
+            out.problems.push(RungError::InFile {
+                loc: loc(file, line, ""),
+                msg: "not a table".into(),
+            });
             continue;
         };
         let mut fields = Vec::new();
@@ -466,7 +556,10 @@ pub fn parse_toml(text: &str, file: &Path) -> Loaded {
             fields.push((k.to_ascii_lowercase(), s));
         }
         if let Some(k) = bad {
-            out.problems.push(RungError::InFile { loc: loc(file, line, &k), msg: "must be a single value".into() });
+            out.problems.push(RungError::InFile {
+                loc: loc(file, line, &k),
+                msg: "must be a single value".into(),
+            });
             continue;
         }
         push_target(&mut out, &mut seen, fields, file, line);
@@ -476,26 +569,44 @@ pub fn parse_toml(text: &str, file: &Path) -> Loaded {
 
 /// Unknown column names in a CSV header (reported as warnings by the command line).
 pub fn unknown_columns(headers: &[String]) -> Vec<String> {
-    headers.iter().filter(|h| !KNOWN.contains(&h.as_str())).cloned().collect()
+    headers
+        .iter()
+        .filter(|h| !KNOWN.contains(&h.as_str()))
+        .cloned()
+        .collect()
 }
 
 /// Read a targets file (by extension: `.toml`, else CSV).
 pub fn load(path: &Path) -> Result<Loaded> {
     let meta = std::fs::metadata(path).map_err(|e| RungError::io(path, e))?;
     if meta.is_dir() {
-        return Err(RungError::invalid("targets file", format!("{} is a folder", path.display())));
+        return Err(RungError::invalid(
+            "targets file",
+            format!("{} is a folder", path.display()),
+        ));
     }
     let bytes = std::fs::read(path).map_err(|e| RungError::io(path, e))?;
     let text = String::from_utf8(bytes).map_err(|e| RungError::InFile {
         loc: Location {
             file: Some(PathBuf::from(path)),
-            line: Some(1 + e.as_bytes()[..e.utf8_error().valid_up_to()].iter().filter(|b| **b == b'\n').count()),
+            line: Some(
+                1 + e.as_bytes()[..e.utf8_error().valid_up_to()]
+                    .iter()
+                    .filter(|b| **b == b'\n')
+                    .count(),
+            ),
             field: None,
         },
         msg: "is not UTF-8 text".into(),
     })?;
-    let is_toml = path.extension().is_some_and(|e| e.eq_ignore_ascii_case("toml"));
-    Ok(if is_toml { parse_toml(&text, path) } else { parse_csv(&text, path) })
+    let is_toml = path
+        .extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("toml"));
+    Ok(if is_toml {
+        parse_toml(&text, path)
+    } else {
+        parse_csv(&text, path)
+    })
 }
 
 #[cfg(test)]
@@ -509,7 +620,10 @@ mod tests {
         assert_eq!(l.targets.len(), 2);
         assert_eq!(l.problems.len(), 2);
         let m = l.problems[0].to_string();
-        assert!(m.contains("t.csv") && m.contains("line 3") && m.contains("field 'ra'"), "{m}");
+        assert!(
+            m.contains("t.csv") && m.contains("line 3") && m.contains("field 'ra'"),
+            "{m}"
+        );
         let m = l.problems[1].to_string();
         assert!(m.contains("line 5") && m.contains("parallax_mas"), "{m}");
     }

@@ -1,0 +1,84 @@
+//! Subcommands of the `rung` binary and the formatting they share.
+
+pub mod night;
+pub mod where_cmd;
+
+use anyhow::Result;
+use std::path::{Path, PathBuf};
+
+/// The error and its causes on one line.
+pub fn one_line(e: &anyhow::Error) -> String {
+    let mut s = e.to_string();
+    for c in e.chain().skip(1) {
+        let cs = c.to_string();
+        if !s.contains(&cs) {
+            s.push_str(": ");
+            s.push_str(&cs);
+        }
+    }
+    s.replace('\n', " ")
+}
+
+/// Folder of the demo programme: `$RUNG_DEMO_DIR`, else `targets-demo/` beside
+/// the current folder, else the one compiled into this build.
+pub fn demo_dir() -> PathBuf {
+    if let Ok(d) = std::env::var("RUNG_DEMO_DIR") {
+        return PathBuf::from(d);
+    }
+    let here = PathBuf::from("targets-demo");
+    if here.join("targets.csv").exists() {
+        return here;
+    }
+    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("targets-demo")
+}
+
+/// The demo site's catalogue name.
+pub const DEMO_SITE: &str = "pampa-lucero";
+
+/// Load targets, printing each refused row as a warning on stderr (the good rows load).
+pub fn load_targets(path: &Path) -> Result<Vec<rung::io::targets::Target>> {
+    let l = rung::io::targets::load(path)?;
+    for p in &l.problems {
+        eprintln!("rung: warning: {p} (row skipped)");
+    }
+    if l.targets.is_empty() {
+        anyhow::bail!("{}: no usable targets", path.display());
+    }
+    Ok(l.targets)
+}
+
+/// `rung` with no subcommand: tonight's plan for the demo programme.
+pub fn default_run() -> Result<()> {
+    let dir = demo_dir();
+    let today = chrono::Utc::now().date_naive();
+    night::run(night::Args {
+        site: DEMO_SITE.to_string(),
+        date: Some(today.to_string()),
+        targets: Some(dir.join("targets.csv")),
+        min_alt: 30.0,
+        sun_alt: -12.0,
+        json: false,
+    })
+}
+
+/// Format an optional number with a fixed number of decimals, or "-".
+pub fn opt(v: Option<f64>, dp: usize) -> String {
+    v.map(|x| format!("{x:.dp$}")).unwrap_or_else(|| "-".into())
+}
+
+/// Local clock time (HH:MM) of an instant at a site, or "-".
+pub fn local_hm(t: Option<rung::astro::time::Instant>, site: &rung::astro::site::Site) -> String {
+    t.map(|t| t.local(&site.timezone).format("%H:%M").to_string())
+        .unwrap_or_else(|| "-".into())
+}
+
+/// UTC clock time (HH:MM) of an instant, or "-".
+pub fn utc_hm(t: Option<rung::astro::time::Instant>) -> String {
+    t.map(|t| {
+        t.round_to_second()
+            .to_datetime()
+            .format("%H:%M")
+            .to_string()
+    })
+    .unwrap_or_else(|| "-".into())
+}

@@ -1,0 +1,221 @@
+//! `rung night`: the night of a date at a site.
+
+use anyhow::Result;
+use rung::astro::night::{Event, Limits, Night};
+use rung::astro::time::parse_date;
+use rung::io::sites;
+use serde_json::{Map, Value, json};
+use std::path::PathBuf;
+
+/// Arguments of `rung night`.
+#[derive(clap::Args)]
+pub struct Args {
+    /// Site name from the catalogue, or LAT,LON,ELEV_M[,ZONE].
+    #[arg(long)]
+    pub site: String,
+    /// The local date whose evening starts the night (YYYY-MM-DD); default today (UTC).
+    #[arg(long)]
+    pub date: Option<String>,
+    /// Targets file (CSV or TOML): adds each target's rise, transit, set and window.
+    #[arg(long)]
+    pub targets: Option<PathBuf>,
+    /// Minimum altitude for the window, degrees.
+    #[arg(long, default_value_t = 30.0, allow_hyphen_values = true)]
+    pub min_alt: f64,
+    /// The Sun must be below this altitude for the window, degrees.
+    #[arg(long, default_value_t = -12.0, allow_hyphen_values = true)]
+    pub sun_alt: f64,
+    /// Machine-readable output.
+    #[arg(long)]
+    pub json: bool,
+}
+
+fn ev(o: &mut Map<String, Value>, reasons: &mut Map<String, Value>, key: &str, e: &Event) {
+    o.insert(key.into(), json!(e.iso()));
+    if let Some(r) = &e.reason {
+        reasons.insert(key.into(), json!(r));
+    }
+}
+
+/// Run `rung night`.
+pub fn run(a: Args) -> Result<()> {
+    let site = sites::resolve(&a.site)?;
+    let limits = Limits::new(a.min_alt, a.sun_alt)?;
+    let date_text = a
+        .date
+        .clone()
+        .unwrap_or_else(|| chrono::Utc::now().date_naive().to_string());
+    let date = parse_date(&date_text)?;
+    let targets = match &a.targets {
+        Some(p) => super::load_targets(p)?,
+        None => Vec::new(),
+    };
+    let night = Night::new(&site, date)?;
+    let e = night.events();
+    let rows: Vec<_> = {
+        use rayon::prelude::*;
+        targets
+            .par_iter()
+            .map(|t| (t, night.target(&t.place(), &limits)))
+            .collect()
+    };
+    if a.json {
+        let mut o = Map::new();
+        let mut reasons = Map::new();
+        o.insert("site".into(), json!(site.name));
+        o.insert("date".into(), json!(date.to_string()));
+        o.insert("timezone".into(), json!(site.timezone.name()));
+        ev(&mut o, &mut reasons, "sunset", &e.sunset);
+        ev(&mut o, &mut reasons, "sunrise", &e.sunrise);
+        ev(&mut o, &mut reasons, "civil_dusk", &e.civil_dusk);
+        ev(&mut o, &mut reasons, "civil_dawn", &e.civil_dawn);
+        ev(&mut o, &mut reasons, "nautical_dusk", &e.nautical_dusk);
+        ev(&mut o, &mut reasons, "nautical_dawn", &e.nautical_dawn);
+        ev(
+            &mut o,
+            &mut reasons,
+            "astronomical_dusk",
+            &e.astronomical_dusk,
+        );
+        ev(
+            &mut o,
+            &mut reasons,
+            "astronomical_dawn",
+            &e.astronomical_dawn,
+        );
+        ev(&mut o, &mut reasons, "moonrise", &e.moonrise);
+        ev(&mut o, &mut reasons, "moonset", &e.moonset);
+        o.insert("moon_illumination".into(), json!(e.moon_illumination));
+        o.insert("moon_waxing".into(), json!(e.moon_waxing));
+        o.insert("min_alt_deg".into(), json!(limits.min_alt_deg));
+        o.insert("sun_alt_deg".into(), json!(limits.sun_alt_deg));
+        o.insert("reasons".into(), Value::Object(reasons));
+        if a.targets.is_some() {
+            let list: Vec<Value> = rows
+                .iter()
+                .map(|(t, tn)| {
+                    let mut r = Map::new();
+                    let mut why = Map::new();
+                    r.insert("name".into(), json!(t.name));
+                    r.insert("kind".into(), json!(t.kind.as_str()));
+                    ev(&mut r, &mut why, "rise", &tn.rise);
+                    ev(&mut r, &mut why, "transit", &tn.transit);
+                    ev(&mut r, &mut why, "set", &tn.set);
+                    let w = tn.main_window();
+                    r.insert("window_start".into(), json!(w.map(|w| w.0.iso())));
+                    r.insert("window_end".into(), json!(w.map(|w| w.1.iso())));
+                    r.insert(
+                        "windows".into(),
+                        json!(
+                            tn.windows
+                                .iter()
+                                .map(|w| json!({"start": w.0.iso(), "end": w.1.iso()}))
+                                .collect::<Vec<_>>()
+                        ),
+                    );
+                    if w.is_none() {
+                        why.insert(
+                            "window_start".into(),
+                            json!("not above the altitude limit while the Sun is below its limit"),
+                        );
+                    }
+                    r.insert("observable_hours".into(), json!(tn.observable_hours));
+                    r.insert("max_altitude_deg".into(), json!(tn.max_altitude_deg));
+                    r.insert("min_airmass".into(), json!(tn.min_airmass));
+                    r.insert("reasons".into(), Value::Object(why));
+                    Value::Object(r)
+                })
+                .collect();
+            o.insert("targets".into(), Value::Array(list));
+        }
+        println!("{}", serde_json::to_string_pretty(&Value::Object(o))?);
+        return Ok(());
+    }
+    let l = |e: &Event| super::local_hm(e.t, &site);
+    let u = |e: &Event| super::utc_hm(e.t);
+    println!(
+        "Night of {date} at {} ({:.4}°, {:.4}°, {:.0} m; times local {} / UTC)",
+        site.name,
+        site.lat_deg,
+        site.lon_deg,
+        site.elev_m,
+        site.timezone.name()
+    );
+    println!(
+        "  {:<14} {:>7} {:>7}   {:<14} {:>7} {:>7}",
+        "", "local", "UTC", "", "local", "UTC"
+    );
+    for (n1, e1, n2, e2) in [
+        ("sunset", &e.sunset, "sunrise", &e.sunrise),
+        ("civil dusk", &e.civil_dusk, "civil dawn", &e.civil_dawn),
+        (
+            "nautical dusk",
+            &e.nautical_dusk,
+            "nautical dawn",
+            &e.nautical_dawn,
+        ),
+        (
+            "astro dusk",
+            &e.astronomical_dusk,
+            "astro dawn",
+            &e.astronomical_dawn,
+        ),
+        ("moonrise", &e.moonrise, "moonset", &e.moonset),
+    ] {
+        println!(
+            "  {:<14} {:>7} {:>7}   {:<14} {:>7} {:>7}",
+            n1,
+            l(e1),
+            u(e1),
+            n2,
+            l(e2),
+            u(e2)
+        );
+    }
+    println!(
+        "  Moon {:.0}% lit, {}",
+        100.0 * e.moon_illumination,
+        if e.moon_waxing { "waxing" } else { "waning" }
+    );
+    for ev in [&e.astronomical_dusk, &e.sunset] {
+        if let Some(r) = &ev.reason {
+            println!("  note: {r}");
+        }
+    }
+    if !rows.is_empty() {
+        println!();
+        println!(
+            "  Targets: window above {:.0}° with the Sun below {:.0}° (local times)",
+            limits.min_alt_deg, limits.sun_alt_deg
+        );
+        println!(
+            "  {:<20} {:<9} {:>6} {:>6} {:>6} {:>13} {:>6} {:>7} {:>7}",
+            "name", "kind", "rise", "trans", "set", "window", "hours", "max alt", "airmass"
+        );
+        for (t, tn) in &rows {
+            let w = tn
+                .main_window()
+                .map(|w| {
+                    format!(
+                        "{}-{}",
+                        super::local_hm(Some(w.0), &site),
+                        super::local_hm(Some(w.1), &site)
+                    )
+                })
+                .unwrap_or_else(|| "-".into());
+            println!(
+                "  {:<20} {:<9} {:>6} {:>6} {:>6} {:>13} {:>6.2} {:>7} {:>7}",
+                t.name,
+                t.kind.as_str(),
+                l(&tn.rise),
+                l(&tn.transit),
+                l(&tn.set),
+                w,
+                tn.observable_hours,
+                super::opt(tn.max_altitude_deg, 1),
+                super::opt(tn.min_airmass, 2),
+            );
+        }
+    }
+    Ok(())
+}

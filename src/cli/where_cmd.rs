@@ -1,0 +1,107 @@
+//! `rung where`: one target, one instant.
+
+use anyhow::{Context as _, Result};
+use rung::astro::frames::{CatalogPlace, Context};
+use rung::astro::time::parse_instant;
+use rung::astro::{pointing, sun_caution};
+use rung::io::angles::{parse_dec_deg, parse_ra_deg};
+use rung::io::sites;
+use serde_json::json;
+use std::path::PathBuf;
+
+/// Arguments of `rung where`.
+#[derive(clap::Args)]
+pub struct Args {
+    /// Site name from the catalogue, or LAT,LON,ELEV_M[,ZONE].
+    #[arg(long)]
+    pub site: String,
+    /// Right ascension (ICRS): degrees or HH:MM:SS.s.
+    #[arg(long, allow_hyphen_values = true)]
+    pub ra: Option<String>,
+    /// Declination (ICRS): degrees or ±DD:MM:SS.
+    #[arg(long, allow_hyphen_values = true)]
+    pub dec: Option<String>,
+    /// A target name from --targets instead of --ra/--dec.
+    #[arg(long)]
+    pub target: Option<String>,
+    /// Targets file (CSV or TOML) for --target.
+    #[arg(long)]
+    pub targets: Option<PathBuf>,
+    /// Instant, ISO 8601 (a time without a zone is UTC), or 'now'.
+    #[arg(long, default_value = "now")]
+    pub at: String,
+    /// Machine-readable output.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// Run `rung where`.
+pub fn run(a: Args) -> Result<()> {
+    let site = sites::resolve(&a.site)?;
+    let t = parse_instant(&a.at)?;
+    let (name, place) = match (&a.target, &a.ra, &a.dec) {
+        (Some(n), _, _) => {
+            let file = a
+                .targets
+                .clone()
+                .unwrap_or_else(|| super::demo_dir().join("targets.csv"));
+            let ts = super::load_targets(&file)?;
+            let tg = ts
+                .iter()
+                .find(|x| x.name.eq_ignore_ascii_case(n))
+                .with_context(|| format!("no target named '{n}' in {}", file.display()))?;
+            (tg.name.clone(), tg.place())
+        }
+        (None, Some(r), Some(d)) => (
+            "coordinates".to_string(),
+            CatalogPlace::fixed_deg(parse_ra_deg(r)?, parse_dec_deg(d)?),
+        ),
+        _ => anyhow::bail!("give --ra and --dec, or --target NAME (with --targets FILE)"),
+    };
+    let ctx = Context::exact(&site, t)?;
+    let p = pointing(&site, &ctx, &place);
+    let caution = sun_caution(&site, &p);
+    if a.json {
+        let mut v = serde_json::to_value(&p)?;
+        let o = v.as_object_mut().context("object")?;
+        o.insert("time".into(), json!(t.iso()));
+        o.insert("site".into(), json!(site.name));
+        o.insert("target".into(), json!(name));
+        o.insert("cautions".into(), json!(caution.iter().collect::<Vec<_>>()));
+        println!("{}", serde_json::to_string_pretty(&v)?);
+        return Ok(());
+    }
+    let local = t.local(&site.timezone);
+    println!(
+        "{name} from {} at {} ({} local)",
+        site.name,
+        t.iso(),
+        local.format("%Y-%m-%d %H:%M:%S %Z")
+    );
+    println!(
+        "  altitude      {:8.3}°  (geometric {:.3}°)",
+        p.altitude_deg, p.altitude_geometric_deg
+    );
+    println!("  azimuth       {:8.3}°  (north 0, east 90)", p.azimuth_deg);
+    println!("  airmass       {:>8}", super::opt(p.airmass, 3));
+    println!("  hour angle    {:+8.3} h", p.hour_angle_h);
+    println!("  parallactic   {:+8.2}°", p.parallactic_angle_deg);
+    println!(
+        "  Sun           {:+8.2}° altitude, {:.1}° away",
+        p.sun_altitude_deg, p.sun_separation_deg
+    );
+    println!(
+        "  Moon          {:+8.2}° altitude, {:.1}° away, {:.0}% lit",
+        p.moon_altitude_deg,
+        p.moon_separation_deg,
+        100.0 * p.moon_illumination
+    );
+    println!(
+        "  refraction at {:.1} hPa, {:.1} °C",
+        p.pressure_hpa, p.temperature_c
+    );
+    if let Some(c) = caution {
+        println!("  {c}");
+    }
+    Ok(())
+}
