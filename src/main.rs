@@ -31,6 +31,7 @@ fn main() -> ExitCode {
         None => cli::default_run(),
     };
     match result {
+        Ok(()) if cli::skipped_input() => ExitCode::from(3),
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
             eprintln!("rung: error: {}", cli::one_line(&e));

@@ -5,6 +5,16 @@ pub mod where_cmd;
 
 use anyhow::Result;
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, Ordering};
+
+/// Set when some input rows were refused; `main` then exits with code 3
+/// (the output for the good rows was still produced).
+pub static SKIPPED_INPUT: AtomicBool = AtomicBool::new(false);
+
+/// Whether any input row was refused during this run.
+pub fn skipped_input() -> bool {
+    SKIPPED_INPUT.load(Ordering::Relaxed)
+}
 
 /// The error and its causes on one line.
 pub fn one_line(e: &anyhow::Error) -> String {
@@ -40,6 +50,7 @@ pub fn load_targets(path: &Path) -> Result<Vec<rung::io::targets::Target>> {
     let l = rung::io::targets::load(path)?;
     for p in &l.problems {
         eprintln!("rung: warning: {p} (row skipped)");
+        SKIPPED_INPUT.store(true, Ordering::Relaxed);
     }
     if l.targets.is_empty() {
         anyhow::bail!("{}: no usable targets", path.display());

@@ -1,1 +1,132 @@
-//! See DESIGN.md.
+//! The distance methods, one module each, all with the same face.
+//!
+//! Given a target, a site, an exposure model and a date range, a method
+//! proposes epochs; given epochs it predicts the distance precision they buy;
+//! given a goal it says what it takes or why it cannot. The budget and the
+//! scheduler use only this face ([`Method`]), so a fourth method is a new file
+//! plus one line in [`method_for`].
+
+use crate::astro::frames::{CatalogPlace, Context};
+use crate::astro::night::Limits;
+use crate::astro::site::Site;
+use crate::astro::time::Instant;
+use crate::error::Result;
+use crate::io::targets::{Kind, Target};
+use chrono::NaiveDate;
+use serde::Serialize;
+
+/// What the photometry model offers the methods: signal-to-noise and exposure
+/// time for a star at a place and instant (sky brightness, airmass and the Moon
+/// taken from the context). Implemented by `crate::photometry`.
+pub trait ExposureModel: Sync {
+    /// Signal-to-noise reached on a point source of magnitude `mag` in `band`
+    /// with a total exposure of `exptime_s` seconds.
+    fn snr(
+        &self,
+        mag: f64,
+        band: &str,
+        exptime_s: f64,
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<f64>;
+    /// Total exposure time (s) and number of sub-exposures (split to avoid
+    /// saturation) that reach `snr`.
+    fn exptime(
+        &self,
+        mag: f64,
+        band: &str,
+        snr: f64,
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<(f64, u32)>;
+    /// Overhead per visit (slew, acquisition), seconds.
+    fn visit_overhead_s(&self) -> f64;
+    /// Overhead per sub-exposure (readout), seconds.
+    fn readout_s(&self) -> f64;
+    /// Typical seeing FWHM, arcseconds.
+    fn seeing_fwhm_arcsec(&self) -> f64;
+}
+
+/// Where and when a method may observe a target.
+#[derive(Debug, Clone)]
+pub struct Setting<'a> {
+    /// The site.
+    pub site: &'a Site,
+    /// The target.
+    pub target: &'a Target,
+    /// First night (local date) of the range.
+    pub from: NaiveDate,
+    /// Last night (local date) of the range, inclusive.
+    pub to: NaiveDate,
+    /// Altitude and Sun limits for observing windows.
+    pub limits: Limits,
+}
+
+/// One planned or actual observation of a target.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Epoch {
+    /// Mid-exposure instant.
+    pub time: Instant,
+    /// Total exposure, seconds.
+    pub exptime_s: f64,
+    /// Number of sub-exposures.
+    pub n_exposures: u32,
+    /// Expected signal-to-noise.
+    pub snr: f64,
+    /// Airmass at mid-exposure.
+    pub airmass: f64,
+    /// Time the visit takes with overheads, seconds.
+    pub visit_s: f64,
+}
+
+/// How a distance goal stands for a target.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[serde(tag = "verdict", rename_all = "snake_case")]
+pub enum Verdict {
+    /// The goal is reached with the epochs given.
+    Reachable,
+    /// The method cannot do better than `floor_pct` whatever the time spent.
+    LimitedByFloor {
+        /// Best achievable σ_d/d, percent.
+        floor_pct: f64,
+    },
+    /// The target is not observable enough in the range.
+    NotObservable {
+        /// When it would be (text), if known.
+        when: Option<String>,
+    },
+    /// More seasons (a longer baseline or more nights) are needed.
+    NeedsMoreSeasons {
+        /// How many seasons would do, if known.
+        seasons: Option<u32>,
+    },
+}
+
+/// What a set of epochs buys.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Prediction {
+    /// The method.
+    pub kind: Kind,
+    /// The epochs the prediction is for.
+    pub epochs: Vec<Epoch>,
+    /// Predicted distance precision σ_d/d, percent.
+    pub distance_precision_pct: f64,
+    /// Telescope hours with overheads.
+    pub hours_needed: f64,
+    /// Verdict against the goal (Reachable when no goal was given and the precision is finite).
+    pub verdict: Verdict,
+    /// Warnings and explanations for the observer.
+    pub notes: Vec<String>,
+}
+
+/// The face every distance method shows.
+pub trait Method: Sync {
+    /// Which targets this method serves.
+    fn kind(&self) -> Kind;
+    /// Propose epochs over the range (the method's own cadence rule).
+    fn propose(&self, s: &Setting, em: &dyn ExposureModel) -> Result<Vec<Epoch>>;
+    /// The precision a set of epochs buys.
+    fn predict(&self, s: &Setting, em: &dyn ExposureModel, epochs: &[Epoch]) -> Result<Prediction>;
+    /// The epochs and hours that reach `goal_pct`, or why they cannot.
+    fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction>;
+}
