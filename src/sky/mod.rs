@@ -7,6 +7,10 @@
 //! B(nL) = 34.08 exp(20.7233 − 0.92104 V). The same conversion is used for
 //! every band (it is a pure 10^(−0.4 m) scaling, since 0.92104 ≈ 0.4 ln 10), so
 //! light from the different terms can be added in any band.
+//!
+//! The K&S formulas and equation numbers cited in this module are quoted from
+//! memory of the paper; the code is checked against an independent numpy
+//! implementation (tests/reference/make_sky_fixtures.py, tests/photometry_sky.rs).
 
 pub mod bands;
 
