@@ -213,3 +213,55 @@ fn where_json_gains_the_v_sky() {
     ]);
     assert!(v["sky_v_mag_arcsec2"].is_null());
 }
+
+#[test]
+fn target_from_the_demo_programme_brings_its_magnitude_and_band() {
+    let file = format!("{}/targets-demo/targets.csv", env!("CARGO_MANIFEST_DIR"));
+    let text = std::fs::read_to_string(&file).unwrap();
+    let mut rdr = csv::ReaderBuilder::new()
+        .comment(Some(b'#'))
+        .from_reader(text.as_bytes());
+    let h = rdr.headers().unwrap().clone();
+    let col = |n: &str| h.iter().position(|x| x == n).unwrap();
+    let row = rdr
+        .records()
+        .map(|r| r.unwrap())
+        .find(|r| !r[col("mag")].is_empty())
+        .unwrap();
+    let (name, mag) = (
+        row[col("name")].to_string(),
+        row[col("mag")].parse::<f64>().unwrap(),
+    );
+    let v = json(&[
+        "snr",
+        "--target",
+        &name,
+        "--targets",
+        &file,
+        "--exptime",
+        "60",
+        "--site",
+        "pampa-lucero",
+        "--date",
+        "2026-12-09",
+        "--json",
+    ]);
+    assert_eq!(v["target"].as_str().unwrap(), name);
+    assert_eq!(v["mag"].as_f64().unwrap(), mag);
+    assert!(v["snr"].as_f64().unwrap() > 0.0);
+}
+
+#[test]
+fn hopeless_goals_are_said_to_be_out_of_reach() {
+    let mut a = vec!["exptime", "--mag", "27", "--snr", "100", "--json"];
+    a.extend(WHERE);
+    let v = json(&a);
+    assert!(v["exptime_s"].as_f64().unwrap() > 12.0 * 3600.0);
+    let notes = v["notes"].as_array().unwrap();
+    assert!(
+        notes
+            .iter()
+            .any(|n| n.as_str().unwrap().contains("out of reach")),
+        "{v}"
+    );
+}

@@ -44,7 +44,9 @@ pub struct Common {
     /// Instant, ISO 8601 (a time without a zone is UTC), or 'now'.
     #[arg(long, conflicts_with = "date")]
     pub at: Option<String>,
-    /// A night (local date of its evening): use the target's best time in it.
+    /// A night (local date of its evening): use the target's best time in it, its
+    /// highest altitude with the Sun below -18° (below -12° if the night has no
+    /// astronomical darkness).
     #[arg(long)]
     pub date: Option<String>,
     /// Instrument name from config/instruments.toml or your instruments.toml.

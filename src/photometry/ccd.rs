@@ -208,7 +208,7 @@ pub fn rates(inst: &Instrument, band: &Band, mag: f64, cond: &Conditions) -> Res
     check_conditions(cond)?;
     let tp = inst.throughput_in(&band.name)?;
     let a = inst.area_cm2() * tp;
-    let ext = band.extinction_mag_per_airmass * cond.airmass;
+    let ext = crate::sky::extinction_mag(band, cond.airmass);
     let star = band.photons_per_s_cm2(mag + ext) * a;
     let pix_arcsec2 = inst.pixel_scale_arcsec * inst.pixel_scale_arcsec;
     let sky = band.photons_per_s_cm2(cond.sky_mag_arcsec2) * pix_arcsec2 * a;
