@@ -6,6 +6,8 @@
 //! noise is drawn from a fixed-seed generator (SplitMix64, Steele, Lea & Flood
 //! 2014, with the Box–Muller transform, Box & Muller 1958).
 
+#![allow(clippy::needless_range_loop)] // index loops mirror the matrix algebra
+
 use rung::ladder::transient::{CurveParams, TransientConfig, curve_mag, fisher_precision};
 
 struct Rng(u64);
