@@ -1187,6 +1187,16 @@ impl TransientMethod {
                 nights.len()
             )),
         }
+        if let Some(fi) = nights.iter().position(|n| n.usable)
+            && let Some(te) = nights[fi].epoch_time
+            && te.mjd_utc() > pl.params.t_max_mjd + 5.0 * (1.0 + pl.z)
+        {
+            notes.push(format!(
+                "the first usable night is {}, {:.0} days after the predicted maximum: the peak is missed",
+                nights[fi].night,
+                (te.mjd_utc() - pl.params.t_max_mjd) / (1.0 + pl.z)
+            ));
+        }
         if n_use < n_obs {
             notes.push(format!(
                 "{} observable night(s) cannot take an epoch (too faint for the exposure limit, or the visit does not fit)",
@@ -1321,7 +1331,7 @@ impl TransientMethod {
             (Some(_), true) => Verdict::Reachable,
             (Some(b), false) => {
                 notes.push(format!(
-                    "even an epoch on every usable night reaches only {:.1}% (goal {goal}%): the nights before the Sun takes the target are too few or the epochs too shallow (try a higher --snr)",
+                    "even an epoch on every usable night reaches only {:.1}% (goal {goal}%): the usable nights are too few, too late or too shallow (a higher --snr may help when they are well placed)",
                     b.distance_precision_pct
                 ));
                 if limited {
