@@ -751,6 +751,8 @@ pub struct ChaseNight {
     pub reason: Option<String>,
     /// Sun-proximity cautions at the planned times.
     pub cautions: Vec<String>,
+    /// Why the epoch is not at the highest point, when it is not.
+    pub epoch_note: Option<String>,
     /// Whether the chosen cadence observes this night.
     pub planned: bool,
 }
@@ -965,6 +967,7 @@ impl TransientMethod {
             usable: false,
             reason: None,
             cautions: Vec::new(),
+            epoch_note: None,
             planned: false,
         };
         let Some((ws, we)) = main else {
@@ -992,22 +995,62 @@ impl TransientMethod {
             Some(_) => we,
             None => ws.add_seconds(we.seconds_since(&ws) / 2.0),
         };
-        let ctx = night.context(t);
-        let p = pointing(site, &ctx, place);
-        row.epoch_time = Some(t);
-        row.best_airmass = p.airmass;
-        row.moon_separation_deg = p.moon_separation_deg;
-        row.moon_illumination = p.moon_illumination;
-        row.moon_altitude_deg = p.moon_altitude_deg;
-        row.solar_elongation_deg = p.sun_separation_deg;
-        let t_mjd = t.mjd_utc();
-        row.phase_days = Some((t_mjd - pl.params.t_max_mjd) / (1.0 + pl.z));
-        let Some(mag) = curve_mag(&self.cfg.template, pl.z, &pl.params, t_mjd) else {
-            row.reason = Some("before the predicted explosion".into());
+        // The highest point first; when the exposure model refuses it (for
+        // example an airmass rule at the zenith), 30 min either side.
+        let clamp = |x: Instant| {
+            if x.seconds_since(&ws) < 0.0 {
+                ws
+            } else if we.seconds_since(&x) < 0.0 {
+                we
+            } else {
+                x
+            }
+        };
+        let tries = [
+            t,
+            clamp(t.add_seconds(-1800.0)),
+            clamp(t.add_seconds(1800.0)),
+        ];
+        let mut first_err: Option<String> = None;
+        let mut found: Option<(Instant, f64, (f64, u32))> = None;
+        for (k, tt) in tries.iter().enumerate() {
+            if k > 0 && tries[..k].contains(tt) {
+                continue;
+            }
+            let ctx = night.context(*tt);
+            let p = pointing(site, &ctx, place);
+            let t_mjd = tt.mjd_utc();
+            row.epoch_time = Some(*tt);
+            row.best_airmass = p.airmass;
+            row.moon_separation_deg = p.moon_separation_deg;
+            row.moon_illumination = p.moon_illumination;
+            row.moon_altitude_deg = p.moon_altitude_deg;
+            row.solar_elongation_deg = p.sun_separation_deg;
+            row.phase_days = Some((t_mjd - pl.params.t_max_mjd) / (1.0 + pl.z));
+            let Some(mag) = curve_mag(&self.cfg.template, pl.z, &pl.params, t_mjd) else {
+                row.reason = Some("before the predicted explosion".into());
+                return Ok(row);
+            };
+            row.expected_mag = Some(mag);
+            match em.exptime(mag, &s.target.band, snr, &ctx, place) {
+                Ok(v) => {
+                    found = Some((*tt, mag, v));
+                    break;
+                }
+                Err(e) => {
+                    first_err.get_or_insert_with(|| format!("no exposure for {mag:.1} mag: {e}"));
+                }
+            }
+        }
+        let Some((t, mag, (exptime, n))) = found else {
+            row.reason = first_err;
             return Ok(row);
         };
-        row.expected_mag = Some(mag);
-        let (exptime, n) = em.exptime(mag, &s.target.band, snr, &ctx, place)?;
+        if let Some(e) = first_err {
+            row.epoch_note = Some(format!(
+                "epoch moved 30 min from the highest point, where the exposure model refused ({e})"
+            ));
+        }
         let visit = em.visit_overhead_s() + exptime + n as f64 * em.readout_s();
         row.exptime_s = Some(exptime);
         row.n_exposures = Some(n);
@@ -1197,6 +1240,14 @@ impl TransientMethod {
                 (te.mjd_utc() - pl.params.t_max_mjd) / (1.0 + pl.z)
             ));
         }
+        let moved: Vec<&ChaseNight> = nights.iter().filter(|n| n.epoch_note.is_some()).collect();
+        if let Some(m) = moved.first() {
+            notes.push(format!(
+                "{} night(s): {}",
+                moved.len(),
+                m.epoch_note.clone().unwrap_or_default()
+            ));
+        }
         if n_use < n_obs {
             notes.push(format!(
                 "{} observable night(s) cannot take an epoch (too faint for the exposure limit, or the visit does not fit)",
@@ -1346,6 +1397,12 @@ impl TransientMethod {
                 }
             }
         };
+        if design.meets_goal && design.cadence_days == cfg.planning.max_every_n {
+            notes.push(format!(
+                "the sparsest cadence tried (every {} nights, config planning.max_every_n) already suffices; keep a few extra epochs against weather",
+                design.cadence_days
+            ));
+        }
         if design.dense_around_max {
             notes.push(format!(
                 "a run on every usable night within ±{dense_w} d of maximum pays: it reaches the goal with fewer hours than any regular cadence"
