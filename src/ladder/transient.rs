@@ -1385,7 +1385,7 @@ impl TransientMethod {
                     "even an epoch on every usable night reaches only {:.1}% (goal {goal}%): the usable nights are too few, too late or too shallow (a higher --snr may help when they are well placed)",
                     b.distance_precision_pct
                 ));
-                if limited {
+                if limited && b.sigma_mu_mag <= 1.25 * b.sigma_mu_floor_mag {
                     Verdict::LimitedByFloor { floor_pct }
                 } else {
                     Verdict::NotObservable {
