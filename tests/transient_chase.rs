@@ -341,3 +341,39 @@ fn predict_agrees_with_the_chase_design() {
     let q = m.predict(&s, &TestPhotometer, &half).unwrap();
     assert!(q.distance_precision_pct >= p.distance_precision_pct);
 }
+
+#[test]
+fn the_demo_photometer_gives_a_full_curve_at_opposition() {
+    // The same chase through the real photometry model (invented demo
+    // instrument): exposures are positive, grow as the supernova fades, and
+    // the curve is measured.
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let ph = rung::photometry::Photometer::demo(&site).unwrap();
+    let t = transient("TEST-OPP", 50.0, -30.0, "2026-11-15T04:00:00Z", 18.3, 0.02);
+    let from = night_of(&site, t.discovered.unwrap());
+    let s = Setting {
+        site: &site,
+        target: &t,
+        from,
+        to: from + chrono::Duration::days(60),
+        limits: Limits::new(30.0, -12.0).unwrap(),
+    };
+    let m = TransientMethod::new().unwrap();
+    let c = m.chase(&s, &ph, Some(12.0)).unwrap();
+    assert!(c.nights.iter().filter(|n| n.usable).count() >= 50);
+    let f = c.design.fit.expect("measured");
+    assert!(f.sigma_dm15 < 0.1);
+    let exp_at = |d: f64| {
+        c.nights
+            .iter()
+            .filter(|n| n.usable)
+            .min_by(|a, b| {
+                (a.phase_days.unwrap() - d)
+                    .abs()
+                    .total_cmp(&(b.phase_days.unwrap() - d).abs())
+            })
+            .and_then(|n| n.exptime_s)
+            .unwrap()
+    };
+    assert!(exp_at(0.0) > 0.0 && exp_at(40.0) > 3.0 * exp_at(0.0));
+}

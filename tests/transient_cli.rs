@@ -202,3 +202,59 @@ fn bad_input_exits_non_zero_with_one_clear_line() {
     assert_ne!(code, 0);
     assert!(err.contains("not a transient"), "{err}");
 }
+
+#[test]
+fn a_dense_run_around_maximum_is_chosen_when_it_pays() {
+    // A tight peak-magnitude requirement (0.01 mag) with a 0.015 mag per-epoch
+    // floor needs many epochs near maximum, where the peak is measured; a
+    // regular cadence would pay for them all season long.
+    let v = json(&[
+        "chase",
+        "--ra",
+        "03:20:00",
+        "--dec",
+        "-30:00:00",
+        "--discovered",
+        "2026-11-15T04:00:00Z",
+        "--mag",
+        "18.3",
+        "--redshift",
+        "0.02",
+        "--now",
+        "2026-11-15T12:00:00Z",
+        "--goal",
+        "12",
+        "--sigma-peak",
+        "0.01",
+        "--snr",
+        "30",
+        "--json",
+    ]);
+    assert_eq!(v["dense_around_max"], true, "{}", v["notes"]);
+    assert!(v["sigma_peak_mag"].as_f64().unwrap() <= 0.01);
+    assert!(v["cadence_days"].as_u64().unwrap() >= 2);
+    assert_eq!(v["goal_met"], true);
+    // Without the extra requirement a sparse regular cadence does.
+    let w = json(&[
+        "chase",
+        "--ra",
+        "03:20:00",
+        "--dec",
+        "-30:00:00",
+        "--discovered",
+        "2026-11-15T04:00:00Z",
+        "--mag",
+        "18.3",
+        "--redshift",
+        "0.02",
+        "--now",
+        "2026-11-15T12:00:00Z",
+        "--goal",
+        "12",
+        "--snr",
+        "30",
+        "--json",
+    ]);
+    assert_eq!(w["dense_around_max"], false);
+    assert!(w["hours_needed"].as_f64().unwrap() < v["hours_needed"].as_f64().unwrap());
+}
