@@ -1259,9 +1259,11 @@ impl TransientMethod {
             && let Some(te) = nights[i].epoch_time
             && te.mjd_utc() < t15
         {
-            notes.push(
-                "the Sun takes the target before 15 days after maximum: Δm15 cannot be measured from these nights".into(),
-            );
+            notes.push(if observable_at_horizon {
+                "the horizon ends before 15 days after maximum: lengthen it to measure Δm15".to_string()
+            } else {
+                "the Sun takes the target before 15 days after maximum: Δm15 cannot be measured from these nights".to_string()
+            });
         }
 
         // Requirement.
@@ -1381,9 +1383,22 @@ impl TransientMethod {
             }
             (Some(_), true) => Verdict::Reachable,
             (Some(b), false) => {
+                let f = design.fit.as_ref();
                 notes.push(format!(
-                    "even an epoch on every usable night reaches only {:.1}% (goal {goal}%): the usable nights are too few, too late or too shallow (a higher --snr may help when they are well placed)",
-                    b.distance_precision_pct
+                    "even an epoch on every usable night reaches only {:.1}% (goal {goal}%){}{}: the usable nights are too few, too late or too shallow (a higher --snr may help when they are well placed)",
+                    b.distance_precision_pct,
+                    match (self.options.sigma_peak_goal_mag, f) {
+                        (Some(g), Some(f)) if f.sigma_peak_mag > g => format!(
+                            ", σ(peak) {:.3} mag (asked {g})",
+                            f.sigma_peak_mag
+                        ),
+                        _ => String::new(),
+                    },
+                    match (self.options.sigma_dm15_goal, f) {
+                        (Some(g), Some(f)) if f.sigma_dm15 > g =>
+                            format!(", σ(Δm15) {:.3} mag (asked {g})", f.sigma_dm15),
+                        _ => String::new(),
+                    }
                 ));
                 if limited && b.sigma_mu_mag <= 1.25 * b.sigma_mu_floor_mag {
                     Verdict::LimitedByFloor { floor_pct }
