@@ -2,6 +2,7 @@
 
 pub mod chase;
 pub mod night;
+pub mod snr;
 pub mod where_cmd;
 
 use anyhow::Result;
