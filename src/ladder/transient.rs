@@ -530,8 +530,10 @@ pub struct DistanceBudget {
 }
 
 /// The floor of the distance modulus error (mag) at redshift `z` (none: no
-/// peculiar-velocity term) with foreground extinction `extinction_mag`:
-/// intrinsic scatter, extinction and peculiar velocity in quadrature.
+/// peculiar-velocity term) with foreground extinction `extinction_mag` (mag):
+/// the intrinsic scatter of standardized peaks (Phillips et al. 1999, config),
+/// the extinction uncertainty (config) and the peculiar-velocity term
+/// [`peculiar_sigma_mu`], in quadrature. What no amount of photometry removes.
 pub fn floor_sigma_mu(cfg: &TransientConfig, z: Option<f64>, extinction_mag: f64) -> f64 {
     let (si, se, sp) = floor_terms(cfg, z, extinction_mag);
     (si * si + se * se + sp.unwrap_or(0.0).powi(2)).sqrt()
@@ -615,7 +617,11 @@ pub fn check_band(cfg: &TransientConfig, band: &str) -> Result<()> {
 /// with the standardization and the foreground extinction, else from the
 /// discovery magnitude at the configured discovery phase; the time of
 /// maximum from the discovery magnitude on the rise when it is fainter than
-/// the peak, else from the configured discovery phase.
+/// the peak, else from the configured discovery phase. Magnitudes in the
+/// target's band, times MJD (UTC). Accuracy: that of the template (a few
+/// tenths of a magnitude, so a few days in the time of maximum when placed
+/// from the rise) and, for the Hubble-law peak, the intrinsic scatter plus
+/// the peculiar-velocity term.
 pub fn place_curve(cfg: &TransientConfig, target: &Target, dm15: f64) -> Result<Placement> {
     let tp = &cfg.template;
     let disc = target.discovered.ok_or_else(|| {
