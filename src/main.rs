@@ -21,6 +21,8 @@ enum Command {
     Where(cli::where_cmd::Args),
     /// The night of a date: twilights, Moon, and each target's window.
     Night(cli::night::Args),
+    /// Chase a fresh thermonuclear supernova: nightly windows, exposures, cadence, distance precision.
+    Chase(Box<cli::chase::Args>),
     /// Signal-to-noise of an exposure on a star under tonight's sky.
     Snr(cli::snr::SnrArgs),
     /// Exposure time that reaches a signal-to-noise on a star under tonight's sky.
@@ -32,6 +34,7 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Some(Command::Where(a)) => cli::where_cmd::run(a),
         Some(Command::Night(a)) => cli::night::run(a),
+        Some(Command::Chase(a)) => cli::chase::run(*a),
         Some(Command::Snr(a)) => cli::snr::run_snr(a),
         Some(Command::Exptime(a)) => cli::snr::run_exptime(a),
         None => cli::default_run(),
