@@ -76,7 +76,7 @@ fn mean_magnitude_error_matches_monte_carlo() {
     // (1) 20 points evenly spread in phase (one per bin of 0.05).
     let even: Vec<f64> = (0..20).map(|i| (i as f64 + 0.5) / 20.0).collect();
     let mc = monte_carlo(&even, sigma, k, 4000, 12345);
-    let cov = mean_mag_sigma(&even, &vec![sigma; 20], k).unwrap();
+    let cov = mean_mag_sigma(&even, &[sigma; 20], k).unwrap();
     // The fit's covariance for A0 is σ/√N when phases are evenly spread.
     assert!((cov - sigma / 20f64.sqrt()).abs() < 1e-9);
     assert!(
@@ -108,7 +108,7 @@ fn mean_magnitude_error_matches_monte_carlo() {
         })
         .collect();
     let mc = monte_carlo(&uneven, sigma, k, 4000, 999);
-    let cov = mean_mag_sigma(&uneven, &vec![sigma; 15], k).unwrap();
+    let cov = mean_mag_sigma(&uneven, &[sigma; 15], k).unwrap();
     assert!(
         (mc.sd_mean / cov - 1.0).abs() < 0.05,
         "MC {} vs covariance {}",
@@ -122,7 +122,7 @@ fn mean_magnitude_error_matches_monte_carlo() {
 fn fit_recovers_a_noiseless_curve_and_refuses_too_few_points() {
     let ph: Vec<f64> = (0..9).map(|i| i as f64 / 9.0 + 0.01).collect();
     let m: Vec<f64> = ph.iter().map(|p| light_curve(*p)).collect();
-    let f = fourier_fit(&ph, &m, &vec![0.01; 9], 3).unwrap();
+    let f = fourier_fit(&ph, &m, &[0.01; 9], 3).unwrap();
     assert!((f.mean_mag() - 11.2).abs() < 1e-9);
     assert!((f.coeffs[1] - 0.30).abs() < 1e-9);
     assert!(f.chi2 < 1e-12);
