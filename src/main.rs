@@ -22,7 +22,7 @@ enum Command {
     /// The night of a date: twilights, Moon, and each target's window.
     Night(cli::night::Args),
     /// Phase coverage of a pulsating star, a visit plan over its phase bins, and its distance precision.
-    Phase(cli::phase::Args),
+    Phase(Box<cli::phase::Args>),
 }
 
 fn main() -> ExitCode {
@@ -30,7 +30,7 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Some(Command::Where(a)) => cli::where_cmd::run(a),
         Some(Command::Night(a)) => cli::night::run(a),
-        Some(Command::Phase(a)) => cli::phase::run(a),
+        Some(Command::Phase(a)) => cli::phase::run(*a),
         None => cli::default_run(),
     };
     match result {

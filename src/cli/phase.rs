@@ -434,7 +434,7 @@ fn print_text(
     for d in &r.dark_nights {
         rows.push((*d, format!("  {:<10} not observable", d.to_string())));
     }
-    rows.sort_by(|a, b| a.0.cmp(&b.0));
+    rows.sort_by_key(|x| x.0);
     for (_, l) in rows {
         println!("{l}");
     }
