@@ -318,6 +318,8 @@ pub struct Alias {
 /// denominators k = 1..`max_k` (ties go to the smaller k): k = 1 is the daily
 /// alias (P near 1 d, 1/2 d, …; for P well beyond a day m = 0 and the beat is
 /// P itself), k = 2 the alternate-night alias (P near 2/3 d, 2/5 d, …).
+/// With k > 1 the k interleaved nightly sequences sit 1/k apart in phase, so
+/// the whole cycle is swept in about beat/k days.
 /// Inputs: `period_d` > 0 (days), `max_k` ≥ 1. Source: the classical
 /// sampling alias (e.g. Deeming 1975, Ap&SS 36, 137; quoted from memory).
 pub fn day_alias(period_d: f64, max_k: u32) -> Alias {
@@ -1119,10 +1121,14 @@ impl PulsatorMethod {
                 "the period is commensurate with the day (1/P = {}/{} per day): the same phases return every {} night(s) and never drift from this site",
                 alias.m, alias.k, alias.k
             )),
-            Some(b) if b > 2.0 * (s.to - s.from).num_days().max(1) as f64 && alias.m != 0 => {
+            Some(b) if alias.m != 0 && b / alias.k as f64 > self.max_nights as f64 => {
                 notes.push(format!(
-                    "day alias {}/{}: the sampled phases drift through the cycle only every {:.1} d (beat period); a second site in another longitude would help",
-                    alias.m, alias.k, b
+                    "day alias {}/{}: the beat period is {:.1} d, so one site sweeps the whole cycle only in about {:.0} nights (more than {}); a second site at another longitude would help",
+                    alias.m,
+                    alias.k,
+                    b,
+                    b / alias.k as f64,
+                    self.max_nights
                 ))
             }
             _ => {}
@@ -1155,7 +1161,7 @@ impl PulsatorMethod {
         let mut budget = None;
         let mut rule = None;
         let mut prediction = None;
-        if let Some(em) = em {
+        if let (Some(em), Ok(_)) = (em, &law) {
             if star.mean_mag.is_some() {
                 for v in &plan.visits {
                     let (ep, c) = epoch_at(s, em, &star, v.time, snr)?;
