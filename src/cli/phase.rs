@@ -8,7 +8,7 @@ use rung::astro::time::{parse_date, parse_instant};
 use rung::io::angles::{parse_dec_deg, parse_ra_deg};
 use rung::io::sites;
 use rung::io::targets::{BANDS, Kind, Target};
-use rung::ladder::pulsator::{PhaseReport, PulsatorMethod};
+use rung::ladder::pulsator::{PhaseReport, PulsatorConfig, PulsatorMethod};
 use rung::ladder::{ExposureModel, Setting, Verdict};
 use rung::photometry::{DEMO_INSTRUMENT, Photometer};
 use serde_json::{Map, Value, json};
@@ -188,7 +188,7 @@ pub fn run(a: Args) -> Result<()> {
             from + chrono::Days::new(a.nights as u64 - 1)
         }
     };
-    let mut m = PulsatorMethod::default();
+    let mut m = PulsatorMethod::with_config(PulsatorConfig::load()?);
     if let Some(b) = a.bins {
         m.bins = b;
     }

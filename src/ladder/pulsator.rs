@@ -122,13 +122,59 @@ impl PulsatorConfig {
                 loc: Location {
                     file: Some(file.to_path_buf()),
                     line,
-                    field: None,
+                    field: line.and_then(|l| field_at_line(text, l)),
                 },
                 msg: e.message().to_string(),
             }
         })?;
         cfg.check(file)?;
         Ok(cfg)
+    }
+
+    /// The built-in configuration with the user's `pulsator.toml` (user config
+    /// folder, `$RUNG_CONFIG_DIR` overrides it) merged over it key by key: a
+    /// user file may set only `[defaults] bins = 12`, or add a `[band.B]` table.
+    pub fn load() -> Result<Self> {
+        let Some(dir) = crate::io::sites::user_config_dir() else {
+            return Ok(Self::builtin());
+        };
+        let p = dir.join("pulsator.toml");
+        if !p.exists() {
+            return Ok(Self::builtin());
+        }
+        let text = std::fs::read_to_string(&p).map_err(|e| RungError::io(&p, e))?;
+        Self::merged(&text, &p)
+    }
+
+    /// The built-in configuration with `text` (the content of `file`) merged over it.
+    pub fn merged(text: &str, file: &Path) -> Result<Self> {
+        let in_file = |line: Option<usize>, msg: String| RungError::InFile {
+            loc: Location {
+                file: Some(file.to_path_buf()),
+                line,
+                field: None,
+            },
+            msg,
+        };
+        let user: toml::Table = text.parse().map_err(|e: toml::de::Error| {
+            let line = e
+                .span()
+                .map(|s| text[..s.start.min(text.len())].lines().count().max(1));
+            in_file(line, e.message().to_string())
+        })?;
+        let mut base: toml::Table = BUILTIN_CONFIG
+            .parse()
+            .map_err(|e: toml::de::Error| in_file(None, format!("built-in config: {e}")))?;
+        merge_tables(&mut base, user);
+        let merged = toml::to_string(&base).map_err(|e| in_file(None, e.to_string()))?;
+        // Line numbers of the merged text would not be the user's: drop them.
+        Self::parse(&merged, file).map_err(|e| match e {
+            RungError::InFile { loc, msg } => RungError::InFile {
+                loc: Location { line: None, ..loc },
+                msg,
+            },
+            other => other,
+        })
     }
 
     fn check(&self, file: &Path) -> Result<()> {
@@ -207,6 +253,38 @@ impl PulsatorConfig {
                 self.band.keys().cloned().collect::<Vec<_>>().join(", ")
             ),
         })
+    }
+}
+
+/// The dotted key (`defaults.bins`) set on 1-based line `line` of a TOML text.
+fn field_at_line(text: &str, line: usize) -> Option<String> {
+    let lines: Vec<&str> = text.lines().collect();
+    let here = lines.get(line.checked_sub(1)?)?;
+    let key = here.split('=').next()?.trim();
+    if key.is_empty() || key.starts_with('[') {
+        return None;
+    }
+    let table = lines[..line - 1]
+        .iter()
+        .rev()
+        .map(|l| l.trim())
+        .find(|l| l.starts_with('[') && l.ends_with(']'))
+        .map(|l| l.trim_matches(|c| c == '[' || c == ']').trim().to_string());
+    Some(match table {
+        Some(t) => format!("{t}.{key}"),
+        None => key.to_string(),
+    })
+}
+
+/// Merge `over` into `base`: tables recursively, other values replaced.
+fn merge_tables(base: &mut toml::Table, over: toml::Table) {
+    for (k, v) in over {
+        match (base.get_mut(&k), v) {
+            (Some(toml::Value::Table(b)), toml::Value::Table(o)) => merge_tables(b, o),
+            (_, v) => {
+                base.insert(k, v);
+            }
+        }
     }
 }
 
@@ -1455,6 +1533,22 @@ mod tests {
             .unwrap_err()
             .to_string();
         assert!(e.contains("x.toml") && e.contains("defaults.bins"), "{e}");
+    }
+
+    #[test]
+    fn user_config_merges_over_builtin() {
+        let c = PulsatorConfig::merged(
+            "[defaults]\nbins = 12\n[band.B]\na = -2.3\na_err = 0.1\nb = -3.4\nb_err = 0.05\nscatter_mag = 0.25\nsource = \"test only\"\n",
+            Path::new("user.toml"),
+        )
+        .unwrap();
+        assert_eq!(c.defaults.bins, 12);
+        assert_eq!(c.defaults.harmonics, 3);
+        assert!(c.law("B").is_ok() && c.law("V").is_ok());
+        let e = PulsatorConfig::merged("[defaults]\nbins = \"x\"\n", Path::new("user.toml"))
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("user.toml") && e.contains("bins"), "{e}");
     }
 
     #[test]
