@@ -354,6 +354,17 @@ fn print_json(
         p.map(|p| json!(p.hours_needed)).unwrap_or(Value::Null),
     );
     o.insert("goal_pct".into(), json!(goal));
+    o.insert("points_needed".into(), json!(r.plan.bins));
+    o.insert("snr_per_point".into(), json!(r.snr_per_point));
+    o.insert(
+        "exptime_per_point_s".into(),
+        r.epochs
+            .iter()
+            .map(|e| e.exptime_s)
+            .fold(None, |m: Option<f64>, x| Some(m.map_or(x, |m| m.max(x))))
+            .map(opt_num)
+            .unwrap_or(Value::Null),
+    );
     o.insert(
         "verdict".into(),
         p.map(|p| serde_json::to_value(&p.verdict))

@@ -1033,6 +1033,8 @@ pub struct PhaseReport {
     pub stale: bool,
     /// Epochs of the visits (exposures sized by the exposure model), when one was given.
     pub epochs: Vec<Epoch>,
+    /// Per-point signal-to-noise the exposures were sized for.
+    pub snr_per_point: f64,
     /// The distance budget of the planned points, when it can be computed.
     pub budget: Option<DistanceBudget>,
     /// The rule-of-thumb mean-magnitude error σ√((2K+1)/N), mag.
@@ -1251,7 +1253,16 @@ impl PulsatorMethod {
                 let p = self.predict_star(s, &star, &epochs, &mut notes)?;
                 budget = p.1;
                 rule = p.2;
-                prediction = Some(p.0);
+                let mut pred = p.0;
+                if windows.is_empty() {
+                    pred.verdict = Verdict::NotObservable {
+                        when: Some(format!(
+                            "not between {} and {} under these limits",
+                            s.from, s.to
+                        )),
+                    };
+                }
+                prediction = Some(pred);
             } else {
                 notes.push("mean_mag not given: no exposures or distance precision".into());
             }
@@ -1283,6 +1294,7 @@ impl PulsatorMethod {
             phase_sigma: sig1,
             stale,
             epochs,
+            snr_per_point: snr,
             budget,
             sigma_mean_rule_mag: rule,
             prediction,
