@@ -2,6 +2,7 @@
 
 pub mod chase;
 pub mod night;
+pub mod phase;
 pub mod snr;
 pub mod where_cmd;
 
