@@ -52,9 +52,14 @@ fn series_candidates_are_near_meridian_in_dark_time_at_large_factor() {
         let ctx = rung::astro::frames::Context::exact(&site, t).unwrap();
         assert!(ctx.sun().alt_geom_rad.to_degrees() < -18.0 + 0.05);
     }
-    // A star transiting at midnight is opposite the Sun: small RA factor; the
-    // candidate seasons therefore avoid opposition (near late November for α = 61°).
-    assert!(series.seasons(45.0).len() >= 1);
+    // A star transiting at midnight is opposite the Sun, where its RA factor is
+    // small (fact of the trade): some nights are observable near the meridian
+    // yet are no candidates, and the observable night nearest opposition
+    // (late November for α = 61°) is one of them.
+    assert!(!series.seasons(45.0).is_empty());
+    assert!(series.nights.iter().any(|n| n.observable && !n.candidate));
+    let first = series.nights.iter().find(|n| n.observable).unwrap();
+    assert!(first.night < d("2027-01-01") && !first.candidate && first.factor < 0.5);
 }
 
 #[test]
