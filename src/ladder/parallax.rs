@@ -643,20 +643,31 @@ fn fmt_limits(cfg: &ParallaxConfig, lim: &Limits) -> String {
     )
 }
 
-/// Pick `k` indices spread evenly over a season (all of them when it is shorter).
-fn spread(season: &[usize], k: usize) -> Vec<usize> {
+/// Pick `k` nights of a season: the season's candidate nights are cut into
+/// `k` consecutive chunks of equal length and each chunk gives its best night
+/// (largest factor, less 10 % of the yearly extreme per hour-limit of hour
+/// angle, so that nights nearer the meridian win ties). All nights when the
+/// season is shorter than `k`.
+fn spread(series: &Series, season: &[usize], k: usize, ha_limit_h: f64) -> Vec<usize> {
     let m = season.len();
     if k >= m {
         return season.to_vec();
     }
-    if k == 1 {
-        return vec![season[m / 2]];
-    }
-    let mut out: Vec<usize> = (0..k)
-        .map(|i| season[((i as f64) * (m - 1) as f64 / (k - 1) as f64).round() as usize])
-        .collect();
-    out.dedup();
-    out
+    let score = |i: usize| {
+        let n = &series.nights[i];
+        n.factor
+            - 0.1 * series.yearly_extreme * n.hour_angle_h.unwrap_or(ha_limit_h).abs() / ha_limit_h
+    };
+    (0..k)
+        .filter_map(|c| {
+            let a = c * m / k;
+            let b = ((c + 1) * m / k).max(a + 1);
+            season[a..b.min(m)]
+                .iter()
+                .copied()
+                .max_by(|x, y| score(*x).total_cmp(&score(*y)))
+        })
+        .collect()
 }
 
 impl ParallaxMethod {
@@ -937,7 +948,12 @@ impl ParallaxMethod {
         }
         let mut epochs = Vec::new();
         for (si, season) in seasons.iter().enumerate() {
-            for i in spread(season, self.cfg.epochs_per_season as usize) {
+            for i in spread(
+                &series,
+                season,
+                self.cfg.epochs_per_season as usize,
+                self.cfg.ha_limit_h,
+            ) {
                 let nf = &series.nights[i];
                 if let Some(t) = nf.best_time {
                     let ctx = Context::exact(s.site, t)?;
@@ -1125,7 +1141,10 @@ impl ParallaxMethod {
         let kmax = self.cfg.max_epochs_per_season as usize;
         for ns in 1..=seasons.len() {
             for k in 1..=kmax {
-                let idx: Vec<usize> = seasons[..ns].iter().flat_map(|se| spread(se, k)).collect();
+                let idx: Vec<usize> = seasons[..ns]
+                    .iter()
+                    .flat_map(|se| spread(&series, se, k, self.cfg.ha_limit_h))
+                    .collect();
                 if idx.len() < 3 {
                     continue;
                 }
@@ -1175,7 +1194,7 @@ impl ParallaxMethod {
             let snr = self.cfg.goal_snr_steps[si];
             let mut epochs = Vec::new();
             for (sn, se) in seasons[..ns].iter().enumerate() {
-                for i in spread(se, k) {
+                for i in spread(&series, se, k, self.cfg.ha_limit_h) {
                     epochs.push(self.make_epoch(
                         s,
                         em,
@@ -1198,7 +1217,10 @@ impl ParallaxMethod {
             return Ok(plan);
         }
         // Why not: the best the range allows with noiseless centroids, most epochs, every season.
-        let idx: Vec<usize> = seasons.iter().flat_map(|se| spread(se, kmax)).collect();
+        let idx: Vec<usize> = seasons
+            .iter()
+            .flat_map(|se| spread(&series, se, kmax, self.cfg.ha_limit_h))
+            .collect();
         let floor_sig = |i: usize| -> Result<f64> {
             let x = series.nights[i].airmass.unwrap_or(1.0);
             let tanz = (x * x - 1.0).max(0.0).sqrt();
