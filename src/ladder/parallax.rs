@@ -982,7 +982,24 @@ impl ParallaxMethod {
         }
         let series = self.series(s)?;
         let n = series.seasons(self.cfg.season_gap_d).len();
-        self.finish(s, plx, series, n, epochs, None)
+        let outside: Vec<String> = epochs
+            .iter()
+            .filter(|e| {
+                e.hour_angle_h.abs() > self.cfg.ha_limit_h || e.epoch.airmass > self.cfg.max_airmass
+            })
+            .map(|e| e.epoch.time.round_to_second().iso())
+            .collect();
+        let mut plan = self.finish(s, plx, series, n, epochs, None)?;
+        if !outside.is_empty() {
+            plan.prediction.notes.push(format!(
+                "{} epoch(s) lie outside ±{:.1} h of the meridian or above airmass {:.2} (DCR grows with tan z): {}",
+                outside.len(),
+                self.cfg.ha_limit_h,
+                self.cfg.max_airmass,
+                outside.join(", ")
+            ));
+        }
+        Ok(plan)
     }
 
     fn finish(
