@@ -980,6 +980,19 @@ impl ParallaxMethod {
                 "it is empty: give at least three epochs",
             ));
         }
+        if epochs.len() < 3 {
+            // Refuse before the (slow) factor series; `solve` words it.
+            let obs: Vec<EpochObs> = epochs
+                .iter()
+                .map(|e| EpochObs {
+                    t_yr: e.epoch.time.julian_epoch_tt(),
+                    pf_ra: e.pf_ra,
+                    pf_dec: e.pf_dec,
+                    sigma_mas: e.sigma_mas,
+                })
+                .collect();
+            solve(&obs)?;
+        }
         let series = self.series(s)?;
         let n = series.seasons(self.cfg.season_gap_d).len();
         let outside: Vec<String> = epochs
