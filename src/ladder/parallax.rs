@@ -37,6 +37,9 @@ pub const MAS_PER_RAD: f64 = 180.0 / std::f64::consts::PI * 3_600_000.0;
 /// Longest date range the factor series accepts, nights (about 12 years).
 pub const MAX_RANGE_NIGHTS: i64 = 4400;
 
+/// Most extra years the goal search considers when the range falls short.
+pub const MAX_EXTRA_YEARS: u32 = 10;
+
 /// Sampling step inside an observing window when looking for the best time, seconds.
 pub const WINDOW_STEP_S: f64 = 300.0;
 
@@ -1092,7 +1095,8 @@ impl ParallaxMethod {
 
     /// Goal mode: the cheapest plan (fewest telescope hours) that reaches
     /// `goal_pct` = 100 σ_ϖ/ϖ within the range, searching the number of
-    /// seasons (from the first), epochs per season (1 to `max_epochs_per_season`)
+    /// seasons (from the first), epochs per season (`epochs_per_season` to
+    /// `max_epochs_per_season`, so that a lost night does not break a season)
     /// and the SNR levels of `goal_snr_steps`; or the verdict that says why not.
     pub fn goal_plan(
         &self,
@@ -1170,7 +1174,7 @@ impl ParallaxMethod {
         let mut first_exp_error: Option<String> = None;
         let kmax = self.cfg.max_epochs_per_season as usize;
         for ns in 1..=seasons.len() {
-            for k in 1..=kmax {
+            for k in (self.cfg.epochs_per_season as usize)..=kmax {
                 let idx: Vec<usize> = seasons[..ns]
                     .iter()
                     .flat_map(|se| spread(&series, se, k, self.cfg.ha_limit_h))
@@ -1246,7 +1250,8 @@ impl ParallaxMethod {
             );
             return Ok(plan);
         }
-        // Why not: the best the range allows with noiseless centroids, most epochs, every season.
+        // Why not: the best the range allows with noiseless centroids (floor and
+        // DCR only), the most epochs per season, every season.
         let idx: Vec<usize> = seasons
             .iter()
             .flat_map(|se| spread(&series, se, kmax, self.cfg.ha_limit_h))
@@ -1257,20 +1262,49 @@ impl ParallaxMethod {
             let d = self.cfg.dcr_mas_per_tanz * tanz;
             Ok((self.cfg.floor_mas.powi(2) + d * d).sqrt().max(1e-6))
         };
-        let best_sol = if idx.len() >= 3 {
-            solve(&obs_for(&idx, &floor_sig)?).ok()
-        } else {
-            None
-        };
+        let base = obs_for(&idx, &floor_sig)?;
+        let best_sol = solve(&base).ok();
+        // How many more years would do: the same candidate nights repeated a
+        // whole number of Julian years later (the factors repeat with the
+        // year to about 1e-2 au), up to MAX_EXTRA_YEARS.
+        let extra_years = (1..=MAX_EXTRA_YEARS).find(|y| {
+            let mut o = base.clone();
+            for k in 1..=*y {
+                o.extend(base.iter().map(|e| EpochObs {
+                    t_yr: e.t_yr + k as f64,
+                    ..*e
+                }));
+            }
+            solve(&o).is_ok_and(|x| x.sigma_parallax_mas <= need_mas)
+        });
         let mut notes = Vec::new();
         if let Some(e) = first_exp_error {
             notes.push(format!("the exposure model refused some epochs: {e}"));
         }
-        let span_yr = (s.to - s.from).num_days() as f64 / 365.25;
+        let span_yr = (s.to - s.from).num_days() as f64 / 365.25 + 1.0 / 365.25;
+        let range_years = span_yr.ceil().max(1.0) as u32;
+        let more_seasons = extra_years.map(|y| {
+            let per_year = (seasons.len() as f64 / span_yr.max(1.0)).ceil().max(1.0) as u32;
+            seasons.len() as u32 + y * per_year
+        });
+        let longer = match (extra_years, more_seasons) {
+            (Some(y), Some(n)) => format!(
+                "a range about {y} year(s) longer (some {n} seasons, {} years in all) would reach it",
+                range_years + y
+            ),
+            _ => format!("not even {MAX_EXTRA_YEARS} more years of these nights would reach it"),
+        };
+        let longer = if span_yr < 1.0 {
+            format!(
+                "{longer} (the range covers less than a year, so the seasons outside it are not counted: give a range of two years or more)"
+            )
+        } else {
+            longer
+        };
         let verdict = match &best_sol {
             Some(b) if b.sigma_parallax_mas <= need_mas => {
                 notes.push(format!(
-                    "the goal needs more signal than the highest SNR tried ({:.0}) gives at {} epochs",
+                    "the goal needs more signal than the highest SNR tried ({:.0}) gives at {} epochs, or the exposure model refused the epochs",
                     self.cfg.goal_snr_steps.last().copied().unwrap_or(0.0),
                     idx.len()
                 ));
@@ -1279,32 +1313,35 @@ impl ParallaxMethod {
                 }
             }
             Some(b) if span_yr < 2.0 || b.corr_parallax_pm.abs() > 0.7 => {
-                let ratio = (b.sigma_parallax_mas / need_mas).powi(2);
-                let more = (seasons.len() as f64 * ratio)
-                    .ceil()
-                    .max(seasons.len() as f64 + 1.0) as u32;
                 notes.push(format!(
-                    "the range {}..{} ({span_yr:.1} yr, {} season(s)) gives at best {:.1} % (floor {:.1} mas per epoch): extend it over about {more} seasons",
-                    s.from, s.to, seasons.len(), 100.0 * b.sigma_parallax_mas / plx, self.cfg.floor_mas
+                    "the range {}..{} ({span_yr:.1} yr, {} season(s)) is too short a baseline to separate proper motion from parallax: at best {:.1} % even at the {:.1} mas floor; {longer}",
+                    s.from,
+                    s.to,
+                    seasons.len(),
+                    100.0 * b.sigma_parallax_mas / plx,
+                    self.cfg.floor_mas
                 ));
                 Verdict::NeedsMoreSeasons {
-                    seasons: Some(more),
+                    seasons: more_seasons,
                 }
             }
             Some(b) => {
                 let fp = 100.0 * b.sigma_parallax_mas / plx;
                 notes.push(format!(
-                    "with the per-epoch floor of {:.1} mas and DCR, {} epochs over the range reach at best {fp:.1} %, short of {goal_pct:.1} %",
-                    self.cfg.floor_mas, idx.len()
+                    "with the per-epoch floor of {:.1} mas and DCR, {} epochs over the range reach at best {fp:.1} %, short of {goal_pct:.1} %; {longer}",
+                    self.cfg.floor_mas,
+                    idx.len()
                 ));
                 Verdict::LimitedByFloor { floor_pct: fp }
             }
             None => {
                 notes.push(format!(
-                    "only {} candidate night(s) in the range: too few to fit position, proper motion and parallax",
+                    "only {} candidate night(s) in the range: too few to fit position, proper motion and parallax; {longer}",
                     idx.len()
                 ));
-                Verdict::NeedsMoreSeasons { seasons: None }
+                Verdict::NeedsMoreSeasons {
+                    seasons: more_seasons,
+                }
             }
         };
         let n = seasons.len();
