@@ -15,6 +15,16 @@
 //!   differential-chromatic-refraction term k tan z, added in quadrature.
 //! - Weighted least squares for (x0, y0, μx, μy, ϖ); σ_d/d ≈ σ_ϖ/ϖ, and beyond
 //!   ~10 % the inverse parallax is a biased distance (Lutz & Kelker 1973).
+//!
+//! Planning: [`ParallaxMethod::series`] walks the range night by night
+//! ([`Night`] and the target's windows above the airmass limit with the Sun
+//! below the setting's limit), keeps the instant nearest the meridian within
+//! the hour-angle limit, and marks as candidates the nights whose chosen
+//! factor is within `factor_fraction` of its yearly extreme. Seasons are runs
+//! of candidate nights; [`ParallaxMethod::plan`] takes `epochs_per_season`
+//! of each, [`ParallaxMethod::goal_plan`] searches seasons × epochs × SNR for
+//! the fewest telescope hours that reach a goal. Moonlight enters through the
+//! exposure model (sky brightness), not as a separate Moon-distance cut.
 
 use crate::astro::airmass::{altitude_for_airmass_deg, kasten_young};
 use crate::astro::frames::{CatalogPlace, Context};
@@ -424,6 +434,12 @@ pub struct EpochObs {
 /// FWHM / (2.35 SNR) (a Gaussian's σ = FWHM/2.355 divided by the SNR; common
 /// practice), the floor and the DCR term k·tan z added in quadrature, with
 /// tan z = sqrt(X² − 1) from the plane-parallel airmass relation X = sec z.
+/// Inputs: seeing FWHM in arcsec, the epoch's SNR, its airmass X ≥ 1. The
+/// same error is applied to both coordinates (a conservative simplification:
+/// DCR acts along the vertical, whose direction on the sky turns with the
+/// parallactic angle). The centroid term is the photon-limited estimate of
+/// SCIENCE.md (Parallax); the floor and k are modelling choices in
+/// `config/parallax.toml`.
 pub fn epoch_sigma_mas(
     fwhm_arcsec: f64,
     snr: f64,
