@@ -23,6 +23,10 @@ enum Command {
     Night(cli::night::Args),
     /// Parallax factors, best epochs, and the precision a schedule buys.
     Parallax(Box<cli::parallax::Args>),
+    /// Signal-to-noise of an exposure on a star under tonight's sky.
+    Snr(cli::snr::SnrArgs),
+    /// Exposure time that reaches a signal-to-noise on a star under tonight's sky.
+    Exptime(cli::snr::ExptimeArgs),
 }
 
 fn main() -> ExitCode {
@@ -31,6 +35,8 @@ fn main() -> ExitCode {
         Some(Command::Where(a)) => cli::where_cmd::run(a),
         Some(Command::Night(a)) => cli::night::run(a),
         Some(Command::Parallax(a)) => cli::parallax::run(*a),
+        Some(Command::Snr(a)) => cli::snr::run_snr(a),
+        Some(Command::Exptime(a)) => cli::snr::run_exptime(a),
         None => cli::default_run(),
     };
     match result {

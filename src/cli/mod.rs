@@ -2,6 +2,7 @@
 
 pub mod night;
 pub mod parallax;
+pub mod snr;
 pub mod where_cmd;
 
 use anyhow::Result;

@@ -2,7 +2,8 @@
 //! conditions (no astronomy here: the sky and airmass come in as numbers).
 //!
 //! Signal-to-noise, Merline & Howell (1995, Experimental Astronomy 6, 163) as
-//! given in Howell, *Handbook of CCD Astronomy* (2nd ed., 2006, §4.4):
+//! given in Howell, *Handbook of CCD Astronomy* (2nd ed., 2006, ch. 4; references
+//! quoted from memory):
 //!
 //! SNR = N* / sqrt(N* + n_pix (1 + n_pix/n_B) (N_S + N_D + N_R² + G² σ_f²) + σ_sc² N*²)
 //!
@@ -32,7 +33,7 @@ pub const FWHM_PER_SIGMA: f64 = 2.354_820_045_030_949;
 /// the aperture actually used is optimized for each case.
 pub const BACKGROUND_LIMITED_RADIUS_FWHM: f64 = 0.673;
 
-/// Young (1967, AJ 72, 747) scintillation, as a fraction of the flux:
+/// Young (1967, AJ 72, 747; reference quoted from memory) scintillation, as a fraction of the flux:
 /// σ = 0.09 D^(−2/3) X^1.75 exp(−h/8000 m) (2t)^(−1/2), D the aperture in
 /// cm, X the airmass, h the site's height in m, t the exposure in s. An
 /// average-conditions estimate; actual scintillation varies by a factor ~1.5
@@ -208,7 +209,7 @@ pub fn rates(inst: &Instrument, band: &Band, mag: f64, cond: &Conditions) -> Res
     check_conditions(cond)?;
     let tp = inst.throughput_in(&band.name)?;
     let a = inst.area_cm2() * tp;
-    let ext = band.extinction_mag_per_airmass * cond.airmass;
+    let ext = crate::sky::extinction_mag(band, cond.airmass);
     let star = band.photons_per_s_cm2(mag + ext) * a;
     let pix_arcsec2 = inst.pixel_scale_arcsec * inst.pixel_scale_arcsec;
     let sky = band.photons_per_s_cm2(cond.sky_mag_arcsec2) * pix_arcsec2 * a;

@@ -192,6 +192,13 @@ impl Photometer {
                 budget.saturation_electrons
             ));
         }
+        if budget.exptime_s > 12.0 * 3600.0 {
+            e.notes.push(format!(
+                "{:.1} h of exposure is more than one night holds: the goal is out of reach for this star with {}",
+                budget.exptime_s / 3600.0,
+                self.instrument.name
+            ));
+        }
         e.budget = budget;
         e
     }

@@ -7,6 +7,10 @@
 //! B(nL) = 34.08 exp(20.7233 − 0.92104 V). The same conversion is used for
 //! every band (it is a pure 10^(−0.4 m) scaling, since 0.92104 ≈ 0.4 ln 10), so
 //! light from the different terms can be added in any band.
+//!
+//! The K&S formulas and equation numbers cited in this module are quoted from
+//! memory of the paper; the code is checked against an independent numpy
+//! implementation (tests/reference/make_sky_fixtures.py, tests/photometry_sky.rs).
 
 pub mod bands;
 
@@ -38,7 +42,8 @@ pub fn ks_airmass(z_rad: f64) -> f64 {
 /// Krisciunas & Schaefer (1991) eq. (20): illuminance of the Moon outside the
 /// atmosphere, in the paper's units, I* = 10^(−0.4 (3.84 + 0.026 |α| + 4·10⁻⁹ α⁴)),
 /// α the lunar phase angle in degrees (0 at full Moon), here given in radians.
-/// The paper notes the opposition surge (|α| < 7°) is not represented.
+/// The opposition surge near full Moon (|α| ≲ 7°) is not represented (from memory
+/// of the paper's discussion).
 pub fn ks_moon_illuminance(phase_rad: f64) -> f64 {
     let a = phase_rad.to_degrees().abs();
     10f64.powf(-0.4 * (3.84 + 0.026 * a + 4e-9 * a.powi(4)))
