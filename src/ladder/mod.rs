@@ -4,10 +4,11 @@
 //! proposes epochs; given epochs it predicts the distance precision they buy;
 //! given a goal it says what it takes or why it cannot. The budget and the
 //! scheduler use only this face ([`Method`]), so a fourth method is a new file
-//! plus one line in [`method_for`].
+//! plus one line in [`methods`].
 
-pub mod pulsator;
 pub mod parallax;
+pub mod pulsator;
+pub mod transient;
 
 use crate::astro::frames::{CatalogPlace, Context};
 use crate::astro::night::Limits;
@@ -133,4 +134,13 @@ pub trait Method: Sync {
     /// The epochs and hours that reach `goal_pct`, or why they cannot.
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction>;
 }
-pub mod transient;
+
+/// Every distance method rung knows, with its built-in configuration
+/// (config/parallax.toml, config/pulsator.toml, config/transient.toml).
+pub fn methods() -> Result<Vec<Box<dyn Method>>> {
+    Ok(vec![
+        Box::new(parallax::ParallaxMethod::builtin()?),
+        Box::new(pulsator::PulsatorMethod::default()),
+        Box::new(transient::TransientMethod::new()?),
+    ])
+}
