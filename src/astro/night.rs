@@ -82,12 +82,6 @@ impl Event {
     }
 }
 
-impl Serialize for Instant {
-    fn serialize<S: serde::Serializer>(&self, s: S) -> std::result::Result<S::Ok, S::Error> {
-        s.serialize_str(&self.iso())
-    }
-}
-
 /// One night at one site: its span, an interpolating astrometry frame, and a
 /// grid of shared contexts with the Sun and Moon already computed.
 #[derive(Debug, Clone)]
