@@ -27,6 +27,10 @@ enum Command {
     Phase(Box<cli::phase::Args>),
     /// Parallax factors, best epochs, and the precision a schedule buys.
     Parallax(Box<cli::parallax::Args>),
+    /// Place visits on nights for a season; save, mark done or lost, re-plan, export (CSV, JSON, iCalendar, night sheet).
+    Plan(Box<cli::plan::PlanArgs>),
+    /// What each target's distance goal costs: method, precision, epochs, hours, verdict.
+    Budget(Box<cli::plan::BudgetArgs>),
     /// Signal-to-noise of an exposure on a star under tonight's sky.
     Snr(cli::snr::SnrArgs),
     /// Exposure time that reaches a signal-to-noise on a star under tonight's sky.
@@ -41,6 +45,8 @@ fn main() -> ExitCode {
         Some(Command::Chase(a)) => cli::chase::run(*a),
         Some(Command::Phase(a)) => cli::phase::run(*a),
         Some(Command::Parallax(a)) => cli::parallax::run(*a),
+        Some(Command::Plan(a)) => cli::plan::run_plan(*a),
+        Some(Command::Budget(a)) => cli::plan::run_budget(*a),
         Some(Command::Snr(a)) => cli::snr::run_snr(a),
         Some(Command::Exptime(a)) => cli::snr::run_exptime(a),
         None => cli::default_run(),

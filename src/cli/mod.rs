@@ -2,8 +2,9 @@
 
 pub mod chase;
 pub mod night;
-pub mod phase;
 pub mod parallax;
+pub mod phase;
+pub mod plan;
 pub mod snr;
 pub mod where_cmd;
 

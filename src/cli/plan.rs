@@ -73,11 +73,6 @@ pub struct PlanArgs {
     pub json: bool,
 }
 
-/// Every distance method rung knows.
-pub fn methods() -> Vec<&'static dyn Method> {
-    rung::ladder::methods()
-}
-
 fn instrument(site: &rung::astro::site::Site, name: &Option<String>) -> Result<Photometer> {
     Ok(match name {
         Some(n) => Photometer::from_name(n, site)?,
@@ -107,7 +102,8 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
         p.check_targets(&targets, pp)?;
     }
     let em = instrument(&site, &a.instrument)?;
-    let ms = methods();
+    let owned = rung::ladder::methods()?;
+    let ms: Vec<&dyn Method> = owned.iter().map(|m| m.as_ref()).collect();
 
     let mut p = match plan.take() {
         Some(p) => p,
@@ -149,7 +145,11 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
     for n in &a.lost_night {
         let d = parse_date(n)?;
         p.lost_nights.insert(d);
-        for v in p.visits.iter_mut().filter(|v| v.night == d && v.status == Status::Planned) {
+        for v in p
+            .visits
+            .iter_mut()
+            .filter(|v| v.night == d && v.status == Status::Planned)
+        {
             v.status = Status::Lost;
         }
         changed = true;
@@ -166,7 +166,12 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
     if a.replan || a.load.is_none() {
         let limits = p.limits()?;
         let hours = a.hours_per_night.unwrap_or(p.hours_per_night);
-        let done: Vec<_> = p.visits.iter().filter(|v| v.status == Status::Done).cloned().collect();
+        let done: Vec<_> = p
+            .visits
+            .iter()
+            .filter(|v| v.status == Status::Done)
+            .cloned()
+            .collect();
         let req = Request {
             site: &site,
             targets: &targets,
@@ -182,16 +187,28 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
         let s = schedule::schedule(&req)?;
         if a.replan {
             report_unplaced(&s);
-            let lost: Vec<_> = p.visits.iter().filter(|v| v.status == Status::Lost).cloned().collect();
+            let lost: Vec<_> = p
+                .visits
+                .iter()
+                .filter(|v| v.status == Status::Lost)
+                .cloned()
+                .collect();
             p.visits = s.visits.clone();
             p.visits.extend(lost);
-            p.visits.sort_by(|x, y| x.start.partial_cmp(&y.start).unwrap_or(std::cmp::Ordering::Equal));
+            p.visits.sort_by(|x, y| {
+                x.start
+                    .partial_cmp(&y.start)
+                    .unwrap_or(std::cmp::Ordering::Equal)
+            });
             p.hours_per_night = hours;
             changed = true;
         }
         outcomes = Some(s.outcomes);
     }
-    let save_to = a.save.clone().or_else(|| if changed { plan_path.clone() } else { None });
+    let save_to = a
+        .save
+        .clone()
+        .or_else(|| if changed { plan_path.clone() } else { None });
     if let Some(path) = &save_to {
         if plan_path.as_ref() == Some(path) && path.exists() {
             let old = std::fs::read(path).with_context(|| format!("reading {}", path.display()))?;
@@ -233,11 +250,18 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
 
 fn report_unplaced(s: &schedule::Schedule) {
     if !s.unplaced.is_empty() {
-        eprintln!("rung: note: {} requested epochs found no place (see --json 'unplaced' via the library)", s.unplaced.len());
+        eprintln!(
+            "rung: note: {} requested epochs found no place (see --json 'unplaced' via the library)",
+            s.unplaced.len()
+        );
     }
 }
 
-fn print_plan(p: &PlanFile, site: &rung::astro::site::Site, outcomes: Option<&[schedule::Outcome]>) {
+fn print_plan(
+    p: &PlanFile,
+    site: &rung::astro::site::Site,
+    outcomes: Option<&[schedule::Outcome]>,
+) {
     println!(
         "Plan {} to {} at {} ({:.1} h per night, above {:.0}°, Sun below {:.0}°): {} visits",
         p.from,
@@ -252,7 +276,11 @@ fn print_plan(p: &PlanFile, site: &rung::astro::site::Site, outcomes: Option<&[s
     for v in &p.visits {
         if night != Some(v.night) {
             night = Some(v.night);
-            let lost = if p.lost_nights.contains(&v.night) { "  (lost)" } else { "" };
+            let lost = if p.lost_nights.contains(&v.night) {
+                "  (lost)"
+            } else {
+                ""
+            };
             println!("  night {}{lost}", v.night);
         }
         println!(
@@ -270,7 +298,10 @@ fn print_plan(p: &PlanFile, site: &rung::astro::site::Site, outcomes: Option<&[s
     }
     if let Some(os) = outcomes {
         println!();
-        println!("  {:<14} {:<9} {:>7} {:>5} {:>8} {:>8}  verdict", "target", "method", "planned", "done", "σd/d %", "goal %");
+        println!(
+            "  {:<14} {:<9} {:>7} {:>5} {:>8} {:>8}  verdict",
+            "target", "method", "planned", "done", "σd/d %", "goal %"
+        );
         for o in os {
             let got = o.prediction.as_ref().map(|p| p.distance_precision_pct);
             println!(
@@ -340,7 +371,8 @@ pub fn run_budget(a: BudgetArgs) -> Result<()> {
     let limits = Limits::new(a.min_alt, a.sun_alt)?;
     let targets = super::load_targets(&a.targets)?;
     let em = instrument(&site, &a.instrument)?;
-    let ms = methods();
+    let owned = rung::ladder::methods()?;
+    let ms: Vec<&dyn Method> = owned.iter().map(|m| m.as_ref()).collect();
     let b = budget::budget(&site, &targets, &ms, &em, from, to, limits, a.goal)?;
     if a.json {
         println!("{}", serde_json::to_string_pretty(&b)?);
@@ -349,8 +381,14 @@ pub fn run_budget(a: BudgetArgs) -> Result<()> {
     } else if a.markdown {
         print!("{}", budget::markdown(&b));
     } else {
-        println!("Distance budget {from} to {to} at {} (window above {:.0}°, Sun below {:.0}°)", site.name, a.min_alt, a.sun_alt);
-        println!("  {:<14} {:<9} {:>6} {:>8} {:>6} {:>8} {:>7}  verdict", "target", "method", "goal %", "reach %", "epochs", "exp/ep s", "hours");
+        println!(
+            "Distance budget {from} to {to} at {} (window above {:.0}°, Sun below {:.0}°)",
+            site.name, a.min_alt, a.sun_alt
+        );
+        println!(
+            "  {:<14} {:<9} {:>6} {:>8} {:>6} {:>8} {:>7}  verdict",
+            "target", "method", "goal %", "reach %", "epochs", "exp/ep s", "hours"
+        );
         for r in &b.rows {
             println!(
                 "  {:<14} {:<9} {:>6.1} {:>8.2} {:>6} {:>8.0} {:>7.1}  {}",
