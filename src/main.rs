@@ -38,6 +38,13 @@ enum Command {
 }
 
 fn main() -> ExitCode {
+    // Die quietly like other Unix tools when the reader of stdout goes away
+    // (`rung season ... | head`), instead of panicking on a broken pipe.
+    #[cfg(unix)]
+    // SAFETY: restoring the default SIGPIPE disposition before any thread starts.
+    unsafe {
+        libc::signal(libc::SIGPIPE, libc::SIG_DFL);
+    }
     let cli = Cli::parse();
     let result = match cli.command {
         Some(Command::Where(a)) => cli::where_cmd::run(a),

@@ -391,11 +391,11 @@ pub fn run_budget(a: BudgetArgs) -> Result<()> {
         );
         for r in &b.rows {
             println!(
-                "  {:<14} {:<9} {:>6.1} {:>8.2} {:>6} {:>8.0} {:>7.1}  {}",
+                "  {:<14} {:<9} {:>6.1} {:>8} {:>6} {:>8.0} {:>7.1}  {}",
                 r.target,
                 r.kind.as_str(),
                 r.goal_pct,
-                r.achievable_pct,
+                super::opt(Some(r.achievable_pct).filter(|x| x.is_finite()), 2),
                 r.epochs,
                 r.exptime_per_epoch_s,
                 r.hours,

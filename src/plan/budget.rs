@@ -218,11 +218,11 @@ pub fn markdown(b: &Budget) -> String {
     );
     for r in &b.rows {
         s.push_str(&format!(
-            "| {} | {} | {:.1} % | {:.1} % | {} | {:.0} s | {:.1} | {} |\n",
+            "| {} | {} | {:.1} % | {} | {} | {:.0} s | {:.1} | {} |\n",
             r.target,
             r.kind.as_str(),
             r.goal_pct,
-            r.achievable_pct,
+            if r.achievable_pct.is_finite() { format!("{:.1} %", r.achievable_pct) } else { "–".into() },
             r.epochs,
             r.exptime_per_epoch_s,
             r.hours,
