@@ -7,7 +7,11 @@
 //! pressure 0, topocentric; DUT1 = 0 and no polar motion; versions recorded in
 //! the files). The event times were found in the script on a 60 s grid of
 //! astropy Sun altitudes from local noon to the next local noon in the site's
-//! IANA zone, refined by cubic interpolation and checked against astropy.
+//! IANA zone, refined by cubic interpolation and checked against astropy. The
+//! nights are the 21st of every month of 2026 at 12 sites from −60° to +70°,
+//! plus 36 "marginal" nights at the sites beyond 50° when the Sun's lowest or
+//! highest altitude comes within 0.2° of a threshold (the closest within
+//! 0.0014°), where an event only just happens or only just fails to.
 
 use chrono::NaiveDate;
 use rung::astro::frames::{CatalogPlace, Context};
@@ -184,9 +188,10 @@ fn sun_events_match_astropy() {
         worst.0,
         worst.1
     );
+    let n_marginal = nights.iter().filter(|n| n["marginal"] == true).count();
     assert!(
-        nights.len() >= 12 * 12 && n_nulls >= 10,
-        "too few cases or no nulls"
+        nights.len() >= 12 * 12 && n_nulls >= 10 && n_marginal >= 30,
+        "too few cases, nulls or marginal nights"
     );
     assert!(problems.is_empty(), "{}", problems.join("; "));
     assert!(worst.0 < 30.0, "{:.2} s: {}", worst.0, worst.1);

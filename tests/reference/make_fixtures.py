@@ -19,8 +19,10 @@ It writes three files beside itself:
   from the geocentric Sun-Moon elongation (k = (1 + cos i)/2, Meeus ch. 48).
 - astropy_events.json: sunset/sunrise (Sun's geometric centre at -0 deg 50')
   and civil/nautical/astronomical dusk and dawn (-6, -12, -18 deg) for a set of
-  sites, on the 21st of every month of 2026, found here on a 1-minute grid of
-  astropy Sun altitudes and refined by interpolation.
+  sites, on the 21st of every month of 2026 and on the nights when the Sun's
+  lowest or highest altitude comes within 0.2 deg of a threshold at the sites
+  beyond 50 deg latitude (found on a 10-minute scan of the year), found here on
+  a 1-minute grid of astropy Sun altitudes and refined by interpolation.
 
 Conventions shared with rung: UT1 = UTC (DUT1 = 0), no polar motion (astropy is
 given an Earth-orientation table of zeros), WGS84 geodetic sites, wavelength
@@ -287,13 +289,46 @@ def cubic_root(ts, vs, j):
     return 0.5 * (a + b)
 
 
+def marginal_dates(max_extra=36, margin_deg=0.2):
+    """Dates of YEAR at the high-latitude sites when the Sun's lowest (or highest)
+    altitude of the night comes within `margin_deg` of an event threshold: the
+    hard cases where an event only just happens or only just fails to happen."""
+    picks = []
+    for name, lat, lon, elev, zone in EVENT_SITES:
+        if abs(lat) < 50:
+            continue
+        loc = location(lat, lon, elev)
+        d0 = datetime(YEAR, 1, 1)
+        days = [d0 + timedelta(days=k) for k in range(365)]
+        starts = [local_noon_utc(zone, d.year, d.month, d.day) for d in days]
+        offs = np.arange(0, 86400 + 1, 600.0)
+        t0 = Time([st.replace(tzinfo=None).isoformat() for st in starts], scale="utc")
+        times = t0[:, None] + offs[None, :] * u.s
+        alt = sun_alt_deg(times, loc).reshape(len(days), len(offs))
+        for k, d in enumerate(days):
+            for extreme in (alt[k].min(), alt[k].max()):
+                for _, _, thr in THRESHOLDS:
+                    if abs(extreme - thr) < margin_deg and d.day != DAY:
+                        picks.append((abs(extreme - thr), name, d.month, d.day))
+    picks.sort()
+    out = []
+    for _, n, m, d in picks:
+        if (n, m, d) not in out:
+            out.append((n, m, d))
+    return out[:max_extra]
+
+
 def event_nights():
     nights = []
+    extra = marginal_dates()
+    print(f"marginal nights: {extra}", flush=True)
     for name, lat, lon, elev, zone in EVENT_SITES:
         loc = location(lat, lon, elev)
-        for month in range(1, 13):
-            start = local_noon_utc(zone, YEAR, month, DAY)
-            nd = datetime(YEAR, month, DAY) + timedelta(days=1)
+        dates = [(month, DAY) for month in range(1, 13)]
+        dates += [(m, d) for n, m, d in extra if n == name]
+        for month, day in dates:
+            start = local_noon_utc(zone, YEAR, month, day)
+            nd = datetime(YEAR, month, day) + timedelta(days=1)
             end = local_noon_utc(zone, nd.year, nd.month, nd.day)
             span = (end - start).total_seconds()
             n = int(math.floor(span / GRID_S))
@@ -303,7 +338,8 @@ def event_nights():
             t0 = Time(start.replace(tzinfo=None).isoformat(), scale="utc")
             times = t0 + offs * u.s
             alt = sun_alt_deg(times, loc)
-            night = {"site": name, "date": f"{YEAR}-{month:02d}-{DAY:02d}",
+            night = {"site": name, "date": f"{YEAR}-{month:02d}-{day:02d}",
+                     "marginal": day != DAY,
                      "start_jd_utc": float(t0.jd1 + t0.jd2),
                      "sun_alt_min_deg": float(alt.min()), "sun_alt_max_deg": float(alt.max())}
             roots = []
