@@ -164,6 +164,18 @@ impl Instant {
         ts::tttdb(t1, t2, dtr).unwrap_or((t1, t2))
     }
 
+    /// Greenwich mean sidereal time, radians in [0, 2π): SOFA `gmst06`
+    /// (IAU 2006, consistent with the IAU 2000 Earth rotation angle) from UT1
+    /// (DUT1 = 0, see the module note) and TT. Accuracy: the model's own is
+    /// microarcseconds; with DUT1 = 0 the result can differ from the true GMST by
+    /// up to 0.9 s of time (13.5″). It differs from the older IAU 1982 expression
+    /// (Meeus, Astronomical Algorithms, eq. 12.4) by a few milliseconds.
+    pub fn gmst_rad(&self) -> f64 {
+        let (u1, u2) = self.ut1();
+        let (t1, t2) = self.tt();
+        sofars::erst::gmst06(u1, u2, t1, t2)
+    }
+
     /// TAI − UTC in seconds at this instant (leap seconds, SOFA `dat`).
     pub fn tai_minus_utc_s(&self) -> f64 {
         let (a, b) = self.tai();

@@ -1,6 +1,6 @@
 //! `rung night`: the night of a date at a site.
 
-use anyhow::Result;
+use anyhow::{Context as _, Result};
 use rung::astro::night::{Event, Limits, Night};
 use rung::astro::time::parse_date;
 use rung::io::sites;
@@ -39,13 +39,13 @@ fn ev(o: &mut Map<String, Value>, reasons: &mut Map<String, Value>, key: &str, e
 
 /// Run `rung night`.
 pub fn run(a: Args) -> Result<()> {
-    let site = sites::resolve(&a.site)?;
+    let site = sites::resolve(&a.site).context("--site")?;
     let limits = Limits::new(a.min_alt, a.sun_alt)?;
     let date_text = a
         .date
         .clone()
         .unwrap_or_else(|| chrono::Utc::now().date_naive().to_string());
-    let date = parse_date(&date_text)?;
+    let date = parse_date(&date_text).context("--date")?;
     let targets = match &a.targets {
         Some(p) => super::load_targets(p)?,
         None => Vec::new(),

@@ -37,8 +37,8 @@ pub struct Args {
 
 /// Run `rung where`.
 pub fn run(a: Args) -> Result<()> {
-    let site = sites::resolve(&a.site)?;
-    let t = parse_instant(&a.at)?;
+    let site = sites::resolve(&a.site).context("--site")?;
+    let t = parse_instant(&a.at).context("--at")?;
     let (name, place) = match (&a.target, &a.ra, &a.dec) {
         (Some(n), _, _) => {
             let file = a
