@@ -21,6 +21,8 @@ enum Command {
     Where(cli::where_cmd::Args),
     /// The night of a date: twilights, Moon, and each target's window.
     Night(cli::night::Args),
+    /// Every target on every night of a date range: observable hours, airmass, Moon.
+    Season(cli::season::Args),
 }
 
 fn main() -> ExitCode {
@@ -28,6 +30,7 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Some(Command::Where(a)) => cli::where_cmd::run(a),
         Some(Command::Night(a)) => cli::night::run(a),
+        Some(Command::Season(a)) => cli::season::run(a),
         None => cli::default_run(),
     };
     match result {

@@ -1,6 +1,7 @@
 //! Subcommands of the `rung` binary and the formatting they share.
 
 pub mod night;
+pub mod season;
 pub mod where_cmd;
 
 use anyhow::Result;
