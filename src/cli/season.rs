@@ -83,8 +83,9 @@ pub fn run(a: Args) -> Result<()> {
         indicatif::ProgressBar::hidden()
     };
 
-    let stdout = std::io::stdout();
-    let mut out = std::io::BufWriter::with_capacity(1 << 20, stdout.lock());
+    // Night chunks (tens of kilobytes each) go straight to the file descriptor;
+    // the small buffer only gathers headers and summaries.
+    let mut out = std::io::BufWriter::with_capacity(1 << 15, raw_stdout());
     let mut io_err: Option<std::io::Error> = None;
     let mut summary = SeasonSummary::new(places.len());
     let want_rows = !a.summary && (a.csv || a.json);
@@ -130,7 +131,7 @@ pub fn run(a: Args) -> Result<()> {
             .rows
             .par_chunks(512)
             .map(|rows| {
-                let mut buf = Vec::with_capacity(rows.len() * 120);
+                let mut buf = Vec::with_capacity(rows.len() * 192);
                 for r in rows {
                     if a.csv {
                         fmt.csv_row(&mut buf, &csv_names[r.target], r);
@@ -182,6 +183,18 @@ pub fn run(a: Args) -> Result<()> {
         Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
         r => r.context("writing the season output"),
     }
+}
+
+/// Standard output without its line buffering (a duplicate of the descriptor on Unix).
+fn raw_stdout() -> Box<dyn Write> {
+    #[cfg(unix)]
+    {
+        use std::os::fd::AsFd;
+        if let Ok(fd) = std::io::stdout().as_fd().try_clone_to_owned() {
+            return Box::new(std::fs::File::from(fd));
+        }
+    }
+    Box::new(std::io::stdout())
 }
 
 #[allow(clippy::too_many_arguments)]
@@ -294,18 +307,58 @@ fn csv_field(s: &str) -> String {
 struct NightFmt {
     date: Vec<u8>,
     mid_unix_s: f64,
+    /// Unix day number of the first of three cached date prefixes.
+    day0: i64,
+    /// `YYYY-MM-DDT` of day0, day0 + 1, day0 + 2.
+    prefixes: [[u8; 11]; 3],
+    /// `,dark_hours,moon_illumination,` for CSV.
+    csv_tail: Vec<u8>,
     dark_hours: f64,
     moon_illumination: f64,
 }
 
 impl NightFmt {
     fn new(sky: &NightSky) -> Self {
+        let mid_unix_s = sky.mid_unix_s();
+        let day0 = (mid_unix_s / 86_400.0).floor() as i64 - 1;
+        let mut prefixes = [[0u8; 11]; 3];
+        for (i, p) in prefixes.iter_mut().enumerate() {
+            let mut b = Vec::with_capacity(20);
+            push_iso(&mut b, ((day0 + i as i64) * 86_400) as f64);
+            p.copy_from_slice(&b[..11]);
+        }
+        let mut csv_tail = vec![b','];
+        push_fixed(&mut csv_tail, sky.dark_hours(), 3);
+        csv_tail.push(b',');
+        push_fixed(&mut csv_tail, sky.moon_illumination, 3);
+        csv_tail.push(b',');
         NightFmt {
             date: sky.date.to_string().into_bytes(),
-            mid_unix_s: sky.mid_unix_s(),
+            mid_unix_s,
+            day0,
+            prefixes,
+            csv_tail,
             dark_hours: sky.dark_hours(),
             moon_illumination: sky.moon_illumination,
         }
+    }
+
+    /// ISO text of a Unix time inside the cached three days (else the full path).
+    fn iso(&self, buf: &mut Vec<u8>, unix_s: f64) {
+        let t = unix_s.round() as i64;
+        let k = t.div_euclid(86_400) - self.day0;
+        if !(0..3).contains(&k) {
+            push_iso(buf, unix_s);
+            return;
+        }
+        let sod = t.rem_euclid(86_400) as usize;
+        buf.extend_from_slice(&self.prefixes[k as usize]);
+        push2(buf, sod / 3600);
+        buf.push(b':');
+        push2(buf, sod / 60 % 60);
+        buf.push(b':');
+        push2(buf, sod % 60);
+        buf.push(b'Z');
     }
 
     fn time(&self, buf: &mut Vec<u8>, off: Option<f64>, quote: bool) {
@@ -314,7 +367,7 @@ impl NightFmt {
                 if quote {
                     buf.push(b'"');
                 }
-                push_iso(buf, self.mid_unix_s + s);
+                self.iso(buf, self.mid_unix_s + s);
                 if quote {
                     buf.push(b'"');
                 }
@@ -346,13 +399,8 @@ impl NightFmt {
         self.time(buf, r.window_end_s, false);
         buf.push(b',');
         push_uint(buf, r.windows as u64);
-        buf.push(b',');
-        push_fixed(buf, self.dark_hours, 3);
-        buf.push(b',');
-        push_fixed(buf, self.moon_illumination, 3);
-        buf.push(b',');
-        buf.extend_from_slice(if r.sun_caution { b"true" } else { b"false" });
-        buf.push(b'\n');
+        buf.extend_from_slice(&self.csv_tail);
+        buf.extend_from_slice(if r.sun_caution { b"true\n" } else { b"false\n" });
     }
 
     fn json_row(&self, buf: &mut Vec<u8>, name: &[u8], r: &TargetNightRow) {
@@ -388,20 +436,39 @@ impl NightFmt {
     }
 }
 
+const DIGITS2: &[u8; 200] = b"0001020304050607080910111213141516171819\
+2021222324252627282930313233343536373839\
+4041424344454647484950515253545556575859\
+6061626364656667686970717273747576777879\
+8081828384858687888990919293949596979899";
+
+/// Two decimal digits of `v` (< 100).
+fn push2(buf: &mut Vec<u8>, v: usize) {
+    let i = 2 * (v % 100);
+    buf.extend_from_slice(&DIGITS2[i..i + 2]);
+}
+
 fn push_uint(buf: &mut Vec<u8>, mut v: u64) {
     let mut tmp = [0u8; 20];
     let mut i = tmp.len();
-    loop {
+    while v >= 100 {
+        let d = 2 * (v % 100) as usize;
+        v /= 100;
+        i -= 2;
+        tmp[i..i + 2].copy_from_slice(&DIGITS2[d..d + 2]);
+    }
+    if v >= 10 {
+        let d = 2 * v as usize;
+        i -= 2;
+        tmp[i..i + 2].copy_from_slice(&DIGITS2[d..d + 2]);
+    } else {
         i -= 1;
-        tmp[i] = b'0' + (v % 10) as u8;
-        v /= 10;
-        if v == 0 {
-            break;
-        }
+        tmp[i] = b'0' + v as u8;
     }
     buf.extend_from_slice(&tmp[i..]);
 }
 
+/// `v` zero-padded to at least `width` digits.
 fn push_padded(buf: &mut Vec<u8>, v: u64, width: usize) {
     let mut tmp = [b'0'; 20];
     let mut x = v;
@@ -415,21 +482,24 @@ fn push_padded(buf: &mut Vec<u8>, v: u64, width: usize) {
     buf.extend_from_slice(&tmp[start..]);
 }
 
-/// A number with `dp` decimals (rounded half away from zero).
+const SCALE: [u64; 5] = [1, 10, 100, 1000, 10_000];
+
+/// A number with `dp` (≤ 4) decimals, rounded half away from zero.
 fn push_fixed(buf: &mut Vec<u8>, x: f64, dp: u32) {
     if !x.is_finite() {
-        buf.extend_from_slice(b"0");
+        buf.push(b'0');
         return;
     }
-    let scale = 10u64.pow(dp);
-    let m = (x.abs() * scale as f64).round() as u64;
+    let dp = dp.min(4) as usize;
+    let scale = SCALE[dp];
+    let m = (x.abs() * scale as f64 + 0.5) as u64;
     if x < 0.0 && m > 0 {
         buf.push(b'-');
     }
     push_uint(buf, m / scale);
     if dp > 0 {
         buf.push(b'.');
-        push_padded(buf, m % scale, dp as usize);
+        push_padded(buf, m % scale, dp);
     }
 }
 

@@ -37,7 +37,7 @@ use crate::astro::time::{DUT1_S, Instant, UNIX_EPOCH_JD};
 use crate::error::{Result, RungError};
 use chrono::{Datelike, NaiveDate};
 use rayon::prelude::*;
-use sofars::astro::{IauAstrom, apco13, atciq, atioq};
+use sofars::astro::{IauAstrom, ab, apco13, atioq, ldsun, pmpx};
 use std::f64::consts::{PI, TAU};
 use std::ops::ControlFlow;
 
@@ -199,7 +199,12 @@ pub struct NightSky {
     pub moon_illumination: f64,
     astrom: IauAstrom,
     grid_s: Vec<f64>,
+    grid_h: f64,
     moon_v: Vec<[f64; 3]>,
+    moon_c: [f64; 3],
+    moon_cap_cos: f64,
+    cos_eral: f64,
+    sin_eral: f64,
     sun_v: Vec<[f64; 3]>,
     sun_up: Vec<bool>,
 }
@@ -263,6 +268,27 @@ impl NightSky {
             .map(|(o, s)| turning_unit(o.ha_rad, o.dec_rad, *s))
             .collect();
         let sun_up = night.sun_alt_deg.iter().map(|a| *a > SUN_UP_DEG).collect();
+        let grid_h = if grid_s.len() > 1 {
+            (grid_s[grid_s.len() - 1] - grid_s[0]) / (grid_s.len() - 1) as f64
+        } else {
+            1.0
+        };
+        // The cap holding the Moon all night: centre and angular radius.
+        let moon_v: Vec<[f64; 3]> = moon_v;
+        let mut sum = [0.0; 3];
+        for m in &moon_v {
+            for (si, mi) in sum.iter_mut().zip(m) {
+                *si += mi;
+            }
+        }
+        let n = (sum[0] * sum[0] + sum[1] * sum[1] + sum[2] * sum[2])
+            .sqrt()
+            .max(1e-300);
+        let moon_c = [sum[0] / n, sum[1] / n, sum[2] / n];
+        let moon_rho = moon_v
+            .iter()
+            .map(|m| crate::astro::frames::sep_unit(m, &moon_c))
+            .fold(0.0, f64::max);
         Ok(NightSky {
             date,
             mid,
@@ -272,7 +298,20 @@ impl NightSky {
             moon_illumination: night.context(mid).moon_illumination(),
             astrom,
             grid_s,
+            grid_h,
             moon_v,
+            moon_c,
+            // Targets closer to the cap than the Moon limit plus 0.5° get the
+            // fine (10-minute) Moon check; all others cannot meet the limit.
+            moon_cap_cos: if c.moon_sep_deg > 0.0 {
+                (c.moon_sep_deg.to_radians() + moon_rho + 0.5f64.to_radians())
+                    .min(PI)
+                    .cos()
+            } else {
+                2.0
+            },
+            cos_eral: astrom.eral.cos(),
+            sin_eral: astrom.eral.sin(),
             sun_v,
             sun_up,
         })
@@ -412,30 +451,67 @@ fn intersect_into(out: &mut Vec<(f64, f64)>, x: (f64, f64), ys: &[(f64, f64)]) {
     }
 }
 
-/// Compute one target on one night. `place` is the catalogue place; the result
-/// follows [`TargetNightRow`]. Accuracy: the window edges follow the full SOFA
-/// chain to a few seconds (Sun limit to 1 s by bisection, altitude limit exact
-/// in closed form from a mid-night apparent place, horizon mask to
+/// A catalogue place made ready for many nights (its BCRS direction cached
+/// when it has no space motion).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PreparedPlace {
+    place: CatalogPlace,
+    pco: Option<[f64; 3]>,
+}
+
+impl PreparedPlace {
+    /// Prepare a place.
+    pub fn new(place: &CatalogPlace) -> Self {
+        let still = place.pm_ra_rad_yr == 0.0
+            && place.pm_dec_rad_yr == 0.0
+            && place.parallax_arcsec == 0.0
+            && place.rv_kms == 0.0;
+        PreparedPlace {
+            place: *place,
+            pco: still.then(|| sofars::vm::s2c(place.ra_rad, place.dec_rad)),
+        }
+    }
+}
+
+/// Compute one target on one night; the result follows [`TargetNightRow`].
+///
+/// The apparent place is SOFA's `atciq` chain (`pmpx`, `ldsun`, `ab`, `bpn`
+/// rotation) at the middle of the night, kept as a CIRS unit vector. Accuracy:
+/// the window edges follow the full SOFA chain to a few seconds (Sun limit to
+/// 1 s by bisection, altitude limit exact in closed form, horizon mask to
 /// [`MASK_TOL_S`], Moon limit from a 10-minute grid, linear in between).
 pub fn target_night(
     setup: &ScanSetup,
     sky: &NightSky,
     index: usize,
-    place: &CatalogPlace,
+    prepared: &PreparedPlace,
     scratch: &mut Scratch,
 ) -> TargetNightRow {
-    let mut astrom = sky.astrom;
-    let (ri, di) = atciq(
-        place.ra_rad,
-        place.dec_rad,
-        place.pm_ra_rad_yr,
-        place.pm_dec_rad_yr,
-        place.parallax_arcsec,
-        place.rv_kms,
-        &mut astrom,
-    );
-    let ha_mid = sofars::vm::anpm(sky.astrom.eral - ri);
-    let (sd, cd) = di.sin_cos();
+    let astrom = &sky.astrom;
+    let p = &prepared.place;
+    let pco = match prepared.pco {
+        Some(v) => v,
+        None => pmpx(
+            p.ra_rad,
+            p.dec_rad,
+            p.pm_ra_rad_yr,
+            p.pm_dec_rad_yr,
+            p.parallax_arcsec,
+            p.rv_kms,
+            astrom.pmt,
+            astrom.eb,
+        ),
+    };
+    let pnat = ldsun(pco, astrom.eh, astrom.em);
+    let ppr = ab(&pnat, &astrom.v, astrom.em, astrom.bm1);
+    let mut pi = [0.0; 3];
+    sofars::vm::rxp(&astrom.bpn, &ppr, &mut pi);
+    // CIRS vector turned to (HA, Dec) at the middle of the night: H = ERA_local − RA.
+    let (ce, se) = (sky.cos_eral, sky.sin_eral);
+    let u = [ce * pi[0] + se * pi[1], se * pi[0] - ce * pi[1], pi[2]];
+    let ha_mid = u[1].atan2(u[0]);
+    let cd = u[0].hypot(u[1]);
+    let sd = u[2];
     let a = setup.sin_phi * sd;
     let b = setup.cos_phi * cd;
     let w = ERA_RATE_RAD_S;
@@ -483,13 +559,11 @@ pub fn target_night(
         return row;
     }
 
-    let alt_geo_at = |s: f64| -> f64 {
-        let h = ha_mid + w * s;
-        (a + b * h.cos()).clamp(-1.0, 1.0).asin()
-    };
+    let sin_alt_at = |s: f64| -> f64 { a + b * (ha_mid + w * s).cos() };
 
     // Horizon mask above the altitude limit: sample and bisect.
     if let Some(site) = &setup.mask {
+        let di = sd.atan2(cd);
         let margin = |s: f64| -> f64 {
             let h = ha_mid + w * s;
             let [az, el] = sofars::coords::hd2ae(h, di, setup.phi);
@@ -540,55 +614,55 @@ pub fn target_night(
         }
     }
 
-    // Moon: piecewise-linear cosine of the separation on the night's grid; keep
-    // the parts farther than the limit and track the closest approach there.
-    let u = turning_unit(ha_mid, di, 0.0);
-    let dotm = |k: usize| -> f64 {
-        let m = &sky.moon_v[k];
+    // Moon: piecewise-linear cosine of the separation on the night's grid
+    // (every grid point when the target may come within the limit, every third
+    // otherwise, where only the closest approach is wanted); keep the parts
+    // farther than the limit and track the closest approach there.
+    let mc = &sky.moon_c;
+    let fine = u[0] * mc[0] + u[1] * mc[1] + u[2] * mc[2] > sky.moon_cap_cos;
+    let cm = if fine { setup.cos_moon } else { f64::INFINITY };
+    let stride = if fine { 1 } else { 3 };
+    let last = sky.moon_v.len() - 1;
+    let nseg = last.div_ceil(stride).max(1);
+    let g0 = sky.grid_s[0];
+    let gh = sky.grid_h;
+    let idx = |j: usize| (j * stride).min(last);
+    let sx = |j: usize| g0 + idx(j) as f64 * gh;
+    let dotm = |j: usize| -> f64 {
+        let m = &sky.moon_v[idx(j)];
         u[0] * m[0] + u[1] * m[1] + u[2] * m[2]
     };
-    let g = &sky.grid_s;
-    let cm = setup.cos_moon;
+    let seg_h = gh * stride as f64;
     let mut max_dot = f64::NEG_INFINITY;
     nxt.clear();
     for &(lo, hi) in cur.iter() {
-        // Grid segment holding lo.
-        let mut k = g.partition_point(|x| *x <= lo).saturating_sub(1);
-        if k + 1 >= g.len() {
-            k = g.len().saturating_sub(2);
-        }
-        let mut x0 = lo;
-        let lerp = |k: usize, x: f64, dk: f64, dk1: f64| -> f64 {
-            let span = g[k + 1] - g[k];
-            if span > 0.0 {
-                dk + (dk1 - dk) * (x - g[k]) / span
+        let mut j = (((lo - g0) / seg_h).floor().max(0.0) as usize).min(nseg - 1);
+        let (mut xa, mut xb) = (sx(j), sx(j + 1));
+        let mut dk = dotm(j);
+        let mut dk1 = dotm(j + 1);
+        let lerp = |x: f64, xa: f64, xb: f64, dk: f64, dk1: f64| -> f64 {
+            if xb > xa {
+                dk + (dk1 - dk) * (x - xa) / (xb - xa)
             } else {
                 dk
             }
         };
-        let mut dk = dotm(k);
-        let mut dk1 = dotm(k + 1);
-        let mut d0 = lerp(k, x0, dk, dk1);
+        let mut x0 = lo;
+        let mut d0 = lerp(x0, xa, xb, dk, dk1);
         let mut open = if d0 <= cm { Some(x0) } else { None };
         if d0 <= cm {
             max_dot = max_dot.max(d0);
         }
         loop {
-            let seg_end = if k + 2 >= g.len() {
-                hi
-            } else {
-                g[k + 1].min(hi)
-            };
-            let x1 = seg_end.max(x0);
-            let d1 = lerp(k, x1, dk, dk1);
+            let x1 = if j + 1 >= nseg { hi } else { xb.min(hi) }.max(x0);
+            let d1 = lerp(x1, xa, xb, dk, dk1);
             if (d0 <= cm) != (d1 <= cm) {
                 let xc = x0 + (cm - d0) / (d1 - d0) * (x1 - x0);
+                max_dot = max_dot.max(cm);
                 if d1 <= cm {
                     open = Some(xc);
-                    max_dot = max_dot.max(cm);
                 } else if let Some(o) = open.take() {
                     nxt.push((o, xc));
-                    max_dot = max_dot.max(cm);
                 }
             }
             if d1 <= cm {
@@ -599,9 +673,11 @@ pub fn target_night(
             }
             x0 = x1;
             d0 = d1;
-            k += 1;
+            j += 1;
+            xa = xb;
+            xb = sx(j + 1);
             dk = dk1;
-            dk1 = dotm(k + 1);
+            dk1 = dotm(j + 1);
         }
         if let Some(o) = open {
             nxt.push((o, hi));
@@ -614,22 +690,25 @@ pub fn target_night(
 
     // Totals, the highest altitude and the Sun caution.
     let mut total_s = 0.0;
-    let mut best_geo = f64::NEG_INFINITY;
+    let mut best_sin = f64::NEG_INFINITY;
     for &(lo, hi) in cur.iter() {
         total_s += hi - lo;
         let h_lo = ha_mid + w * lo;
         let h_hi = ha_mid + w * hi;
         // Does [h_lo, h_hi] contain a multiple of 2π (an upper transit)?
         let kk = (h_hi / TAU).floor();
-        let alt = if kk * TAU >= h_lo {
-            transit_geo
+        let sin_alt = if kk * TAU >= h_lo {
+            a + b
         } else {
-            alt_geo_at(lo).max(alt_geo_at(hi))
+            sin_alt_at(lo).max(sin_alt_at(hi))
         };
-        best_geo = best_geo.max(alt);
+        best_sin = best_sin.max(sin_alt);
     }
     row.observable_hours = total_s / 3600.0;
-    let best_obs = setup.refr.observed(best_geo).to_degrees();
+    let best_obs = setup
+        .refr
+        .observed(best_sin.clamp(-1.0, 1.0).asin())
+        .to_degrees();
     row.max_altitude_deg = Some(best_obs);
     row.best_airmass = kasten_young(best_obs);
     row.moon_separation_min_deg = max_dot
@@ -660,7 +739,7 @@ fn sun_caution_in(setup: &ScanSetup, sky: &NightSky, u: &[f64; 3], ws: &[(f64, f
 pub fn scan_night(
     setup: &ScanSetup,
     sky: &NightSky,
-    places: &[CatalogPlace],
+    places: &[PreparedPlace],
     rows: &mut Vec<TargetNightRow>,
 ) {
     rows.resize(places.len(), TargetNightRow::default());
@@ -701,6 +780,7 @@ where
     }
     let dates = nights_in(from, to)?;
     let nights = dates.len();
+    let places: Vec<PreparedPlace> = places.iter().map(PreparedPlace::new).collect();
     let block = (2 * rayon::current_num_threads()).clamp(2, 16);
     let mut rows: Vec<TargetNightRow> = Vec::with_capacity(places.len());
     let mut setup: Option<ScanSetup> = None;
@@ -712,7 +792,7 @@ where
             .collect::<Result<_>>()?;
         for sky in &skies {
             let st = setup.get_or_insert_with(|| ScanSetup::new(site, c, sky));
-            scan_night(st, sky, places, &mut rows);
+            scan_night(st, sky, &places, &mut rows);
             let nr = NightRows {
                 index,
                 nights,
