@@ -221,6 +221,14 @@ fn cases() -> Vec<Case> {
             targets: nt,
         },
         Case {
+            label: "northern mid-latitude site, the night clocks go back (25 h)",
+            site: mid.clone(),
+            from: date("2026-10-24"),
+            to: date("2026-10-24"),
+            c: Constraints::new(25.0, -12.0, Some(40.0)).unwrap(),
+            targets: mt.clone(),
+        },
+        Case {
             label: "northern mid-latitude site near full Moon, Moon 40°",
             site: mid,
             from: dm,
@@ -317,7 +325,7 @@ fn observable_hours_match_the_full_sofa_chain_at_one_minute_steps() {
 fn transit_matches_the_full_chain() {
     // Upper transit where the full chain's hour angle passes through zero
     // (SOFA atioq hour angle), checked to within 2 seconds.
-    let case = &cases()[3];
+    let case = &cases()[4];
     let rows = &fast(case)[0];
     let start = local_noon(&case.site, case.from).unwrap();
     let mid = start.add_seconds(
