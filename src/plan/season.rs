@@ -510,7 +510,7 @@ pub fn target_night(
     let (ce, se) = (sky.cos_eral, sky.sin_eral);
     let u = [ce * pi[0] + se * pi[1], se * pi[0] - ce * pi[1], pi[2]];
     let ha_mid = u[1].atan2(u[0]);
-    let cd = u[0].hypot(u[1]);
+    let cd = (u[0] * u[0] + u[1] * u[1]).sqrt();
     let sd = u[2];
     let a = setup.sin_phi * sd;
     let b = setup.cos_phi * cd;
@@ -640,22 +640,17 @@ pub fn target_night(
         let (mut xa, mut xb) = (sx(j), sx(j + 1));
         let mut dk = dotm(j);
         let mut dk1 = dotm(j + 1);
-        let lerp = |x: f64, xa: f64, xb: f64, dk: f64, dk1: f64| -> f64 {
-            if xb > xa {
-                dk + (dk1 - dk) * (x - xa) / (xb - xa)
-            } else {
-                dk
-            }
-        };
+        let mut slope = if xb > xa { (dk1 - dk) / (xb - xa) } else { 0.0 };
         let mut x0 = lo;
-        let mut d0 = lerp(x0, xa, xb, dk, dk1);
+        let mut d0 = dk + slope * (x0 - xa);
         let mut open = if d0 <= cm { Some(x0) } else { None };
         if d0 <= cm {
             max_dot = max_dot.max(d0);
         }
         loop {
-            let x1 = if j + 1 >= nseg { hi } else { xb.min(hi) }.max(x0);
-            let d1 = lerp(x1, xa, xb, dk, dk1);
+            let at_end = j + 1 >= nseg || xb >= hi;
+            let x1 = if at_end { hi.max(x0) } else { xb };
+            let d1 = if at_end { dk + slope * (x1 - xa) } else { dk1 };
             if (d0 <= cm) != (d1 <= cm) {
                 let xc = x0 + (cm - d0) / (d1 - d0) * (x1 - x0);
                 max_dot = max_dot.max(cm);
@@ -668,7 +663,7 @@ pub fn target_night(
             if d1 <= cm {
                 max_dot = max_dot.max(d1);
             }
-            if x1 >= hi {
+            if at_end {
                 break;
             }
             x0 = x1;
@@ -678,6 +673,7 @@ pub fn target_night(
             xb = sx(j + 1);
             dk = dk1;
             dk1 = dotm(j + 1);
+            slope = if xb > xa { (dk1 - dk) / (xb - xa) } else { 0.0 };
         }
         if let Some(o) = open {
             nxt.push((o, hi));
