@@ -388,6 +388,7 @@ pub struct ScanSetup {
     sin_g_lim: f64,
     refr: Refraction,
     mask: Option<Site>,
+    sin_g_mask: f64,
     cos_moon: f64,
     cos_avoid: f64,
     caution_possible: bool,
@@ -411,8 +412,9 @@ impl ScanSetup {
             phi,
             g_lim,
             sin_g_lim: g_lim.sin(),
-            refr,
             mask: (mask_max > c.min_alt_deg).then(|| site.clone()),
+            sin_g_mask: refr.geometric(mask_max.max(-1.0).to_radians()).sin(),
+            refr,
             cos_moon: if c.moon_sep_deg > 0.0 {
                 c.moon_sep_deg.to_radians().cos()
             } else {
@@ -572,40 +574,42 @@ pub fn target_night(
                 .horizon_alt_deg(az.to_degrees())
                 .max(setup.c.min_alt_deg)
         };
+        // Where the target stands above the highest point of the mask the
+        // mask cannot bite (closed form again); sample only the rest.
+        let c1 = if b.abs() < 1e-12 {
+            if a >= setup.sin_g_mask { -2.0 } else { 2.0 }
+        } else {
+            (setup.sin_g_mask - a) / b
+        };
+        let mut safe = [(0.0, 0.0); 3];
+        let mut n_safe = 0;
+        if c1 <= -1.0 {
+            safe[0] = (f64::NEG_INFINITY, f64::INFINITY);
+            n_safe = 1;
+        } else if c1 < 1.0 {
+            let h1 = c1.acos();
+            for k in -1..=1 {
+                let c = (TAU * k as f64 - ha_mid) / w;
+                safe[n_safe] = (c - h1 / w, c + h1 / w);
+                n_safe += 1;
+            }
+        }
         nxt.clear();
         for &(lo, hi) in cur.iter() {
-            let n = ((hi - lo) / MASK_STEP_S).ceil().max(1.0) as usize;
-            let step = (hi - lo) / n as f64;
-            let mut s0 = lo;
-            let mut f0 = margin(lo);
-            let mut open = if f0 >= 0.0 { Some(lo) } else { None };
-            for j in 1..=n {
-                let s1 = if j == n { hi } else { lo + step * j as f64 };
-                let f1 = margin(s1);
-                if (f0 >= 0.0) != (f1 >= 0.0) {
-                    let (mut x0, mut x1, mut g0) = (s0, s1, f0);
-                    while x1 - x0 > MASK_TOL_S {
-                        let xm = 0.5 * (x0 + x1);
-                        let gm = margin(xm);
-                        if (gm >= 0.0) == (g0 >= 0.0) {
-                            x0 = xm;
-                            g0 = gm;
-                        } else {
-                            x1 = xm;
-                        }
-                    }
-                    let x = 0.5 * (x0 + x1);
-                    if f1 >= 0.0 {
-                        open = Some(x);
-                    } else if let Some(o) = open.take() {
-                        nxt.push((o, x));
-                    }
+            let mut x = lo;
+            for &(sa, sb) in &safe[..n_safe] {
+                let (sa, sb) = (sa.max(lo), sb.min(hi));
+                if sb <= sa || sb <= x {
+                    continue;
                 }
-                s0 = s1;
-                f0 = f1;
+                if sa > x {
+                    refine_mask(&margin, x, sa, nxt);
+                }
+                push_merged(nxt, (sa.max(x), sb));
+                x = sb;
             }
-            if let Some(o) = open {
-                nxt.push((o, hi));
+            if hi > x {
+                refine_mask(&margin, x, hi, nxt);
             }
         }
         std::mem::swap(cur, nxt);
@@ -717,6 +721,55 @@ pub fn target_night(
         row.sun_caution = sun_caution_in(setup, sky, &u, cur);
     }
     row
+}
+
+/// Append an interval, joining it to the last one when they touch.
+fn push_merged(out: &mut Vec<(f64, f64)>, iv: (f64, f64)) {
+    if let Some(last) = out.last_mut()
+        && iv.0 <= last.1 + 1e-6
+    {
+        last.1 = last.1.max(iv.1);
+        return;
+    }
+    out.push(iv);
+}
+
+/// The parts of `[lo, hi]` where `margin` ≥ 0, sampled every [`MASK_STEP_S`]
+/// and bisected to [`MASK_TOL_S`], appended to `out`.
+fn refine_mask(margin: &dyn Fn(f64) -> f64, lo: f64, hi: f64, out: &mut Vec<(f64, f64)>) {
+    let n = ((hi - lo) / MASK_STEP_S).ceil().max(1.0) as usize;
+    let step = (hi - lo) / n as f64;
+    let mut s0 = lo;
+    let mut f0 = margin(lo);
+    let mut open = if f0 >= 0.0 { Some(lo) } else { None };
+    for j in 1..=n {
+        let s1 = if j == n { hi } else { lo + step * j as f64 };
+        let f1 = margin(s1);
+        if (f0 >= 0.0) != (f1 >= 0.0) {
+            let (mut x0, mut x1, mut g0) = (s0, s1, f0);
+            while x1 - x0 > MASK_TOL_S {
+                let xm = 0.5 * (x0 + x1);
+                let gm = margin(xm);
+                if (gm >= 0.0) == (g0 >= 0.0) {
+                    x0 = xm;
+                    g0 = gm;
+                } else {
+                    x1 = xm;
+                }
+            }
+            let x = 0.5 * (x0 + x1);
+            if f1 >= 0.0 {
+                open = Some(x);
+            } else if let Some(o) = open.take() {
+                push_merged(out, (o, x));
+            }
+        }
+        s0 = s1;
+        f0 = f1;
+    }
+    if let Some(o) = open {
+        push_merged(out, (o, hi));
+    }
 }
 
 fn sun_caution_in(setup: &ScanSetup, sky: &NightSky, u: &[f64; 3], ws: &[(f64, f64)]) -> bool {
