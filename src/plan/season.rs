@@ -746,15 +746,47 @@ fn refine_mask(margin: &dyn Fn(f64) -> f64, lo: f64, hi: f64, out: &mut Vec<(f64
         let s1 = if j == n { hi } else { lo + step * j as f64 };
         let f1 = margin(s1);
         if (f0 >= 0.0) != (f1 >= 0.0) {
-            let (mut x0, mut x1, mut g0) = (s0, s1, f0);
+            // Illinois (modified regula falsi) on the bracket, to MASK_TOL_S.
+            let (mut x0, mut x1, mut g0, mut g1) = (s0, s1, f0, f1);
+            let mut side = 0;
             while x1 - x0 > MASK_TOL_S {
-                let xm = 0.5 * (x0 + x1);
+                let xm = if g1 != g0 {
+                    (x0 - g0 * (x1 - x0) / (g1 - g0))
+                        .clamp(x0 + 0.25 * MASK_TOL_S, x1 - 0.25 * MASK_TOL_S)
+                } else {
+                    0.5 * (x0 + x1)
+                };
                 let gm = margin(xm);
                 if (gm >= 0.0) == (g0 >= 0.0) {
                     x0 = xm;
                     g0 = gm;
+                    if side == -1 {
+                        g1 *= 0.5;
+                    }
+                    side = -1;
                 } else {
                     x1 = xm;
+                    g1 = gm;
+                    if side == 1 {
+                        g0 *= 0.5;
+                    }
+                    side = 1;
+                }
+                // Close the bracket from the far side once the root is pinned.
+                let probe = if side == -1 {
+                    x0 + MASK_TOL_S
+                } else {
+                    x1 - MASK_TOL_S
+                };
+                if probe > x0 && probe < x1 {
+                    let gp = margin(probe);
+                    if (gp >= 0.0) == (g0 >= 0.0) {
+                        x0 = probe;
+                        g0 = gp;
+                    } else {
+                        x1 = probe;
+                        g1 = gp;
+                    }
                 }
             }
             let x = 0.5 * (x0 + x1);
