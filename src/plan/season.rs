@@ -3,9 +3,10 @@
 //! observable window — fast enough for tens of thousands of targets over years.
 //!
 //! How it stays cheap (the structure of the problem):
-//! - Per night, one [`Night`] (Sun and Moon on a 10-minute grid, Sun limits
-//!   bisected to 1 s) and one full SOFA context (`apco13`) at the middle of the
-//!   night are shared by every target.
+//! - Per night, one [`NightFrame`] (interpolated SOFA astrometry, as
+//!   `rung::astro::night::Night` uses it: Sun on a 10-minute grid, Sun limits
+//!   bisected to 1 s; Moon on a [`MOON_STEP_S`] grid) and one full SOFA context
+//!   (`apco13`) at the middle of the night are shared by every target.
 //! - Per target and night, the apparent (CIRS) place is computed once with
 //!   SOFA `atciq` at the middle of the night. Over one night it moves by well
 //!   under 1″ (aberration and precession-nutation change slowly), so the hour
@@ -19,7 +20,7 @@
 //!   refraction (with the site's `refco` constants) built once per scan.
 //! - A horizon mask above the altitude limit is applied by sampling every
 //!   [`MASK_STEP_S`] seconds inside the window and bisecting each crossing.
-//! - The Moon is carried on the night's 10-minute grid as unit vectors in a
+//! - The Moon is carried on its grid as unit vectors in a
 //!   frame that turns with the Earth, so target–Moon separation is a dot product
 //!   per grid point, linear in between; the Moon limit crossings and the
 //!   minimum separation come from that piecewise-linear curve.
@@ -30,8 +31,10 @@
 //! to within the 1-minute resolution of that reference (tests/season_accuracy.rs).
 
 use crate::astro::airmass::kasten_young;
+use crate::astro::events::{grid, positive_intervals};
 use crate::astro::frames::CatalogPlace;
-use crate::astro::night::{Limits, Night};
+use crate::astro::frames::{NightFrame, Observed};
+use crate::astro::night::{EVENT_TOL_S, GRID_STEP_S, Limits, local_noon};
 use crate::astro::site::Site;
 use crate::astro::time::{DUT1_S, Instant, UNIX_EPOCH_JD};
 use crate::error::{Result, RungError};
@@ -55,6 +58,11 @@ pub const MASK_TOL_S: f64 = 2.0;
 /// day, the rate of the IAU 2000 Earth rotation angle (IERS Conventions 2010,
 /// eq. 5.15; SOFA `era00`).
 pub const ERA_RATE_RAD_S: f64 = TAU * 1.002_737_811_911_354_5 / 86_400.0;
+
+/// Spacing of the Moon's grid, seconds. Linear interpolation of the Moon's
+/// direction over it errs by < 0.003° (the topocentric parallax, ≤ 1°, turns
+/// by 7.5° in 30 minutes: 1° × (0.13 rad)²/8 ≈ 0.002°).
+pub const MOON_STEP_S: f64 = 1800.0;
 
 /// Targets per parallel work item.
 const CHUNK: usize = 256;
@@ -199,7 +207,8 @@ pub struct NightSky {
     pub moon_illumination: f64,
     astrom: IauAstrom,
     grid_s: Vec<f64>,
-    grid_h: f64,
+    moon_s0: f64,
+    moon_h: f64,
     moon_v: Vec<[f64; 3]>,
     moon_c: [f64; 3],
     moon_cap_cos: f64,
@@ -221,17 +230,40 @@ fn turning_unit(ha_rad: f64, dec_rad: f64, s: f64) -> [f64; 3] {
 impl NightSky {
     /// Prepare the night of `date` at `site` for the constraints `c`.
     pub fn new(site: &Site, date: NaiveDate, c: &Constraints) -> Result<Self> {
-        let night = Night::new(site, date)?;
-        let span = night.end.seconds_since(&night.start);
-        let mid = night.start.add_seconds(span / 2.0);
-        let start_s = night.start.seconds_since(&mid);
-        let end_s = night.end.seconds_since(&mid);
-        let dark_s = night
-            .dark_intervals(c.sun_alt_deg)
+        // The night's span and Sun as `Night` has them (local noon to local noon,
+        // Sun on the 10-minute grid, limits bisected to 1 s), with the Moon on a
+        // coarser grid: its direction is smooth enough for linear interpolation
+        // over MOON_STEP_S (< 0.003°, see the module note).
+        let start = local_noon(site, date)?;
+        let next = date
+            .succ_opt()
+            .ok_or_else(|| RungError::invalid("date", "no next day"))?;
+        let end = local_noon(site, next)?;
+        let frame = NightFrame::new(site, start.add_seconds(-1800.0), end.add_seconds(1800.0))?;
+        let times = grid(start, end, GRID_STEP_S);
+        let sun: Vec<Observed> = times.iter().map(|t| frame.context(*t).sun()).collect();
+        let sun_alt_deg: Vec<f64> = sun.iter().map(|o| o.alt_geom_rad.to_degrees()).collect();
+        let span = end.seconds_since(&start);
+        let mid = start.add_seconds(span / 2.0);
+        let start_s = start.seconds_since(&mid);
+        let end_s = end.seconds_since(&mid);
+        let vs: Vec<f64> = sun_alt_deg.iter().map(|a| c.sun_alt_deg - a).collect();
+        let mut f = |t: Instant| c.sun_alt_deg - frame.context(t).sun().alt_geom_rad.to_degrees();
+        let dark_s = positive_intervals(&mut f, &times, &vs, EVENT_TOL_S)
             .iter()
             .map(|(a, b)| (a.seconds_since(&mid), b.seconds_since(&mid)))
             .filter(|(a, b)| b > a)
             .collect();
+        let n_moon = (span / MOON_STEP_S).ceil().max(1.0) as usize;
+        let moon_h = span / n_moon as f64;
+        let moon_v: Vec<[f64; 3]> = (0..=n_moon)
+            .map(|k| {
+                let off = start_s + k as f64 * moon_h;
+                let o = frame.context(mid.add_seconds(off)).moon();
+                turning_unit(o.ha_rad, o.dec_rad, off)
+            })
+            .collect();
+        let moon_illumination = frame.context(mid).moon_illumination();
         let mut astrom = IauAstrom::default();
         let mut eo = 0.0;
         apco13(
@@ -254,27 +286,14 @@ impl NightSky {
             routine: "apco13",
             status,
         })?;
-        let grid_s: Vec<f64> = night.times.iter().map(|t| t.seconds_since(&mid)).collect();
-        let moon_v = night
-            .moon
+        let grid_s: Vec<f64> = times.iter().map(|t| t.seconds_since(&mid)).collect();
+        let sun_v = sun
             .iter()
             .zip(&grid_s)
             .map(|(o, s)| turning_unit(o.ha_rad, o.dec_rad, *s))
             .collect();
-        let sun_v = night
-            .sun
-            .iter()
-            .zip(&grid_s)
-            .map(|(o, s)| turning_unit(o.ha_rad, o.dec_rad, *s))
-            .collect();
-        let sun_up = night.sun_alt_deg.iter().map(|a| *a > SUN_UP_DEG).collect();
-        let grid_h = if grid_s.len() > 1 {
-            (grid_s[grid_s.len() - 1] - grid_s[0]) / (grid_s.len() - 1) as f64
-        } else {
-            1.0
-        };
+        let sun_up = sun_alt_deg.iter().map(|a| *a > SUN_UP_DEG).collect();
         // The cap holding the Moon all night: centre and angular radius.
-        let moon_v: Vec<[f64; 3]> = moon_v;
         let mut sum = [0.0; 3];
         for m in &moon_v {
             for (si, mi) in sum.iter_mut().zip(m) {
@@ -295,14 +314,15 @@ impl NightSky {
             start_s,
             end_s,
             dark_s,
-            moon_illumination: night.context(mid).moon_illumination(),
+            moon_illumination,
             astrom,
             grid_s,
-            grid_h,
+            moon_s0: start_s,
+            moon_h,
             moon_v,
             moon_c,
             // Targets closer to the cap than the Moon limit plus 0.5° get the
-            // fine (10-minute) Moon check; all others cannot meet the limit.
+            // fine Moon check; all others cannot meet the limit.
             moon_cap_cos: if c.moon_sep_deg > 0.0 {
                 (c.moon_sep_deg.to_radians() + moon_rho + 0.5f64.to_radians())
                     .min(PI)
@@ -481,7 +501,7 @@ impl PreparedPlace {
 /// rotation) at the middle of the night, kept as a CIRS unit vector. Accuracy:
 /// the window edges follow the full SOFA chain to a few seconds (Sun limit to
 /// 1 s by bisection, altitude limit exact in closed form, horizon mask to
-/// [`MASK_TOL_S`], Moon limit from a 10-minute grid, linear in between).
+/// [`MASK_TOL_S`], Moon limit from the [`MOON_STEP_S`] grid, linear in between).
 pub fn target_night(
     setup: &ScanSetup,
     sky: &NightSky,
@@ -618,18 +638,18 @@ pub fn target_night(
         }
     }
 
-    // Moon: piecewise-linear cosine of the separation on the night's grid
-    // (every grid point when the target may come within the limit, every third
+    // Moon: piecewise-linear cosine of the separation on the Moon grid
+    // (every point when the target may come within the limit, every second
     // otherwise, where only the closest approach is wanted); keep the parts
     // farther than the limit and track the closest approach there.
     let mc = &sky.moon_c;
     let fine = u[0] * mc[0] + u[1] * mc[1] + u[2] * mc[2] > sky.moon_cap_cos;
     let cm = if fine { setup.cos_moon } else { f64::INFINITY };
-    let stride = if fine { 1 } else { 3 };
+    let stride = if fine { 1 } else { 2 };
     let last = sky.moon_v.len() - 1;
     let nseg = last.div_ceil(stride).max(1);
-    let g0 = sky.grid_s[0];
-    let gh = sky.grid_h;
+    let g0 = sky.moon_s0;
+    let gh = sky.moon_h;
     let idx = |j: usize| (j * stride).min(last);
     let sx = |j: usize| g0 + idx(j) as f64 * gh;
     let dotm = |j: usize| -> f64 {
