@@ -55,6 +55,9 @@ pub const ROW_HEADER: &str = "target,night,observable_hours,best_airmass,moon_se
 /// CSV header of the per-target totals.
 pub const SUMMARY_HEADER: &str = "target,total_hours,nights_observable,first_night,last_night,best_month,best_month_hours,best_airmass,best_airmass_night";
 
+/// Rows formatted per parallel work item.
+const ROWS_PER_CHUNK: usize = 512;
+
 /// Run `rung season`.
 pub fn run(a: Args) -> Result<()> {
     let site = sites::resolve(&a.site)?;
@@ -116,6 +119,7 @@ pub fn run(a: Args) -> Result<()> {
         out.write_all(head.as_bytes())?;
     }
     let mut first_json = true;
+    let mut pool: Vec<Vec<u8>> = Vec::new();
     let mut cautions = 0usize;
     season::scan(&site, &places, from, to, &c, |nr: &NightRows<'_>| {
         bar.inc(1);
@@ -127,22 +131,25 @@ pub fn run(a: Args) -> Result<()> {
             return ControlFlow::Continue(());
         }
         let fmt = NightFmt::new(nr.sky);
-        let chunks: Vec<Vec<u8>> = nr
-            .rows
-            .par_chunks(512)
-            .map(|rows| {
-                let mut buf = Vec::with_capacity(rows.len() * 192);
+        // Format on all cores into buffers kept from night to night.
+        let n_chunks = nr.rows.len().div_ceil(ROWS_PER_CHUNK);
+        if pool.len() < n_chunks {
+            pool.resize_with(n_chunks, Vec::new);
+        }
+        nr.rows
+            .par_chunks(ROWS_PER_CHUNK)
+            .zip(pool.par_iter_mut())
+            .for_each(|(rows, buf)| {
+                buf.clear();
                 for r in rows {
                     if a.csv {
-                        fmt.csv_row(&mut buf, &csv_names[r.target], r);
+                        fmt.csv_row(buf, &csv_names[r.target], r);
                     } else {
-                        fmt.json_row(&mut buf, &json_names[r.target], r);
+                        fmt.json_row(buf, &json_names[r.target], r);
                     }
                 }
-                buf
-            })
-            .collect();
-        for ch in chunks {
+            });
+        for ch in &pool[..n_chunks] {
             let ch = if !a.csv && first_json && !ch.is_empty() {
                 first_json = false;
                 &ch[1..] // drop the leading comma of the very first row
