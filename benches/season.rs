@@ -3,7 +3,19 @@
 //! night of 10 000 targets). Run with `cargo bench --bench season`.
 //!
 //! Targets are spread uniformly over the sphere with a fixed pseudo-random
-//! sequence (invented positions), seen from the invented demo site.
+//! sequence (invented positions), seen from the invented demo site, with
+//! altitude ≥ 30°, Sun < −18°, Moon ≥ 30°.
+//!
+//! Measured 2026-12-02 on the shared 2-core AMD EPYC virtual machine while
+//! other builds ran (load average 4–6, so wall times are inflated):
+//! - prepare one night: 2.6–3.5 ms (single thread);
+//! - 10 000 targets × 1 night: 6.4–6.8 ms (2 threads);
+//! - 10 000 targets × 365 nights: 3.9–4.1 s wall under that load.
+//!
+//! The command-line run behind these numbers (`rung season ... --csv >
+//! /dev/null`, 3.65 million rows, 392 MB of CSV) took 2.9–3.7 s wall when it
+//! got 84–98 % of one core's worth of CPU, 2.9–3.1 s of CPU time in all
+//! (user + system), peak resident memory 17.3 MB (`/usr/bin/time -v`).
 
 use chrono::NaiveDate;
 use criterion::{Criterion, criterion_group, criterion_main};
