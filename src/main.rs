@@ -35,6 +35,8 @@ enum Command {
     Snr(cli::snr::SnrArgs),
     /// Exposure time that reaches a signal-to-noise on a star under tonight's sky.
     Exptime(cli::snr::ExptimeArgs),
+    /// Every target on every night of a date range: observable hours, airmass, Moon.
+    Season(cli::season::Args),
 }
 
 fn main() -> ExitCode {
@@ -56,6 +58,7 @@ fn main() -> ExitCode {
         Some(Command::Budget(a)) => cli::plan::run_budget(*a),
         Some(Command::Snr(a)) => cli::snr::run_snr(a),
         Some(Command::Exptime(a)) => cli::snr::run_exptime(a),
+        Some(Command::Season(a)) => cli::season::run(a),
         None => cli::default_run(),
     };
     match result {

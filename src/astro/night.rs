@@ -12,6 +12,8 @@ use serde::Serialize;
 
 /// Grid spacing used to bracket events, seconds (refined by bisection to 1 s).
 pub const GRID_STEP_S: f64 = 600.0;
+/// Most nights kept by [`Night::shared`] (about 0.13 MB each: three years of nights).
+pub const NIGHT_CACHE_MAX: usize = 1200;
 /// Tolerance of every reported event time, seconds.
 pub const EVENT_TOL_S: f64 = 1.0;
 
@@ -128,6 +130,32 @@ impl Night {
             .ok_or_else(|| RungError::invalid("date", "no next day"))?;
         let end = local_noon(site, next)?;
         Self::spanning(site, date, start, end)
+    }
+
+    /// The same as [`Night::new`], from a process-wide cache shared by every
+    /// caller (the methods, the budget and the scheduler ask for the same
+    /// nights again and again). At most [`NIGHT_CACHE_MAX`] nights are kept;
+    /// past that the cache starts afresh.
+    pub fn shared(site: &Site, date: NaiveDate) -> Result<std::sync::Arc<Night>> {
+        use std::collections::HashMap;
+        use std::sync::{Arc, Mutex, OnceLock};
+        type Cache = Mutex<HashMap<(String, NaiveDate), Arc<Night>>>;
+        static CACHE: OnceLock<Cache> = OnceLock::new();
+        let cache = CACHE.get_or_init(|| Mutex::new(HashMap::new()));
+        let key = (format!("{site:?}"), date);
+        if let Ok(c) = cache.lock() {
+            if let Some(n) = c.get(&key) {
+                return Ok(n.clone());
+            }
+        }
+        let n = Arc::new(Night::new(site, date)?);
+        if let Ok(mut c) = cache.lock() {
+            if c.len() >= NIGHT_CACHE_MAX {
+                c.clear();
+            }
+            c.insert(key, n.clone());
+        }
+        Ok(n)
     }
 
     /// A night over an explicit span (used by tests and by the season engine).

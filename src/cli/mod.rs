@@ -5,6 +5,7 @@ pub mod night;
 pub mod parallax;
 pub mod phase;
 pub mod plan;
+pub mod season;
 pub mod snr;
 pub mod where_cmd;
 

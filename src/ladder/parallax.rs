@@ -773,7 +773,7 @@ impl ParallaxMethod {
         lim: &Limits,
         threshold: f64,
     ) -> Result<NightFactor> {
-        let night = Night::new(s.site, date)?;
+        let night = Night::shared(s.site, date)?;
         let tn = night.target(place, lim);
         let ha_lim_rad = (self.cfg.ha_limit_h * 15.0).to_radians();
         let mut best: Option<(Instant, f64, f64)> = None; // (t, |ha| rad, airmass)

@@ -548,7 +548,7 @@ pub fn phase_windows(
     let mut empty = Vec::new();
     let mut date = from;
     while date <= to {
-        let night = Night::new(site, date)?;
+        let night = Night::shared(site, date)?;
         let tn = night.target(&star.place, limits);
         if tn.windows.is_empty() {
             empty.push(date);
@@ -1159,6 +1159,23 @@ impl PulsatorMethod {
         let star = Star::from_target(s.target)?;
         let e = star.ephemeris;
         let mut notes = Vec::new();
+        // Phase coverage is planned over at most MAX_RANGE_NIGHTS nights: a
+        // season's budget over several years uses its first stretch.
+        let capped_to = s.from + chrono::Duration::days(MAX_RANGE_NIGHTS - 1);
+        let capped;
+        let s = if s.to > capped_to {
+            notes.push(format!(
+                "phase coverage planned over the first {MAX_RANGE_NIGHTS} nights of the range ({} to {capped_to})",
+                s.from
+            ));
+            capped = Setting {
+                to: capped_to,
+                ..s.clone()
+            };
+            &capped
+        } else {
+            s
+        };
         let mut cautions = Vec::new();
         let (windows, dark_nights) = phase_windows(s.site, &star, s.from, s.to, &s.limits)?;
         // The dwell a visit needs: its length with the exposure model, at the

@@ -931,7 +931,7 @@ impl TransientMethod {
         date: NaiveDate,
     ) -> Result<ChaseNight> {
         let site = s.site;
-        let night = Night::new(site, date)?;
+        let night = Night::shared(site, date)?;
         let tn = night.target(place, &s.limits);
         let windows: Vec<(Instant, Instant)> = tn
             .windows
@@ -1172,7 +1172,10 @@ impl TransientMethod {
                 ),
             ));
         }
-        let dates: Vec<NaiveDate> = first.iter_days().take_while(|d| *d <= s.to).collect();
+        // The chase runs from discovery to the planning horizon, never past it.
+        let horizon_end = first + chrono::Duration::days(cfg.planning.horizon_days as i64);
+        let last = s.to.min(horizon_end);
+        let dates: Vec<NaiveDate> = first.iter_days().take_while(|d| *d <= last).collect();
         let place = target.place();
         let rows: Vec<Result<ChaseNight>> = {
             use rayon::prelude::*;

@@ -222,7 +222,11 @@ pub fn markdown(b: &Budget) -> String {
             r.target,
             r.kind.as_str(),
             r.goal_pct,
-            if r.achievable_pct.is_finite() { format!("{:.1} %", r.achievable_pct) } else { "–".into() },
+            if r.achievable_pct.is_finite() {
+                format!("{:.1} %", r.achievable_pct)
+            } else {
+                "–".into()
+            },
             r.epochs,
             r.exptime_per_epoch_s,
             r.hours,

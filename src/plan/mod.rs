@@ -1,7 +1,13 @@
-//! Planning over nights and seasons: the budget of a distance goal, the
-//! scheduler that places visits, and the exports of a plan.
+//! Planning over nights and seasons.
+//!
+//! - [`season`]: observable hours, best airmass, transit and Moon distance for
+//!   every target on every night of a range, streamed one night at a time.
+//! - [`budget`]: what each target's distance goal costs, with a verdict.
+//! - [`schedule`]: places the methods' epochs as visits on nights and times.
+//! - [`file`]: plans saved and re-planned; [`export`]: CSV, iCalendar, night sheets.
 
 pub mod budget;
 pub mod export;
 pub mod file;
 pub mod schedule;
+pub mod season;

@@ -212,7 +212,7 @@ pub fn dates(from: NaiveDate, to: NaiveDate) -> Result<Vec<NaiveDate>> {
 }
 
 struct NightSlot {
-    night: Night,
+    night: std::sync::Arc<Night>,
     dark: Vec<(Instant, Instant)>,
     capacity_s: f64,
     used_s: f64,
@@ -234,9 +234,11 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
         ));
     }
     let days = dates(req.from, req.to)?;
-    let built: Vec<Result<Night>> = {
+    let built: Vec<Result<std::sync::Arc<Night>>> = {
         use rayon::prelude::*;
-        days.par_iter().map(|d| Night::new(req.site, *d)).collect()
+        days.par_iter()
+            .map(|d| Night::shared(req.site, *d))
+            .collect()
     };
     let mut slots = Vec::with_capacity(days.len());
     for n in built {

@@ -1,0 +1,194 @@
+#!/usr/bin/env python3
+"""Side by side: `rung season` against the straightforward astropy approach.
+
+The astropy side is what an astronomer would write for the same question:
+for each night (local noon to local noon) an AltAz frame on a 5-minute grid,
+the targets, the Sun and the Moon transformed into it, and a boolean mask
+(observed altitude above the limit and the horizon mask, the Sun's centre below
+its limit, the Moon farther than its limit), summed to observable hours.
+
+Both run here, one after the other, on the same invented targets, site, nights
+and constraints; the script checks that observable hours agree (within 10
+minutes, the 5-minute grid's resolution at both window edges) and prints the
+speed ratio.
+
+Usage: python3 benches/side_by_side.py [--targets 200] [--nights 30]
+Needs the release binary: cargo build --release (or --rung PATH).
+"""
+
+import argparse
+import csv
+import datetime as dt
+import io
+import os
+import subprocess
+import sys
+import tempfile
+import time
+from zoneinfo import ZoneInfo
+
+import numpy as np
+
+# Offline: never fetch IERS tables; UT1-UTC beyond the bundled table is taken
+# as the table's edge value (rung takes DUT1 = 0; either way < 1 s).
+from astropy.utils import iers
+
+iers.conf.auto_download = False
+iers.conf.iers_degraded_accuracy = "ignore"
+
+import astropy.units as u  # noqa: E402
+from astropy.coordinates import AltAz, EarthLocation, SkyCoord, get_body, get_sun  # noqa: E402
+from astropy.time import Time  # noqa: E402
+
+HERE = os.path.dirname(os.path.abspath(__file__))
+ROOT = os.path.dirname(HERE)
+
+# The invented demo site, as in config/sites.toml (pampa-lucero).
+SITE = dict(
+    name="pampa-lucero",
+    lat_deg=-27.4521,
+    lon_deg=-68.0237,
+    elev_m=3120.0,
+    tz="America/Argentina/Catamarca",
+    temperature_c=6.0,
+    humidity=0.25,
+    horizon=[(0.0, 5.0), (60.0, 8.0), (110.0, 12.0), (180.0, 4.0), (270.0, 6.0)],
+)
+
+
+def standard_pressure_hpa(elev_m):
+    # ICAO/US 1976 troposphere, as rung uses when a site gives no pressure.
+    return 1013.25 * (1.0 - 2.25577e-5 * elev_m) ** 5.25588
+
+
+def invented_targets(n, seed=11):
+    rng = np.random.default_rng(seed)
+    ra = rng.uniform(0.0, 360.0, n)
+    dec = np.degrees(np.arcsin(rng.uniform(-1.0, 1.0, n)))
+    names = [f"CMP-{i:04d}" for i in range(n)]
+    return names, ra, dec
+
+
+def local_noon_utc(date, tz):
+    t = dt.datetime(date.year, date.month, date.day, 12, 0, tzinfo=ZoneInfo(tz))
+    return t.astimezone(dt.timezone.utc)
+
+
+def horizon_alt(az_deg):
+    pts = sorted(SITE["horizon"])
+    az = np.array([p[0] for p in pts] + [pts[0][0] + 360.0])
+    alt = np.array([p[1] for p in pts] + [pts[0][1]])
+    # Wrap below the first point as rung does (linear through north).
+    a = np.mod(az_deg, 360.0)
+    a = np.where(a < az[0], a + 360.0, a)
+    return np.interp(a, az, alt)
+
+
+def astropy_season(names, ra, dec, dates, min_alt, sun_alt, moon_sep, step_min=5.0):
+    loc = EarthLocation.from_geodetic(
+        SITE["lon_deg"] * u.deg, SITE["lat_deg"] * u.deg, SITE["elev_m"] * u.m
+    )
+    stars = SkyCoord(ra=ra * u.deg, dec=dec * u.deg, frame="icrs")
+    pressure = standard_pressure_hpa(SITE["elev_m"]) * u.hPa
+    hours = {}
+    for d in dates:
+        t0 = local_noon_utc(d, SITE["tz"])
+        t1 = local_noon_utc(d + dt.timedelta(days=1), SITE["tz"])
+        n = int(round((t1 - t0).total_seconds() / 60.0 / step_min))
+        # Sample the middle of each step, each standing for step_min minutes.
+        times = Time(t0) + (np.arange(n) + 0.5) * step_min * u.min
+        refr = AltAz(
+            obstime=times[:, None],
+            location=loc,
+            pressure=pressure,
+            temperature=SITE["temperature_c"] * u.deg_C,
+            relative_humidity=SITE["humidity"],
+            obswl=0.55 * u.micron,
+        )
+        geo = AltAz(obstime=times, location=loc)  # no refraction: geometric
+        sun = get_sun(times).transform_to(geo)
+        moon = get_body("moon", times, loc).transform_to(geo)
+        aa = stars[None, :].transform_to(refr)
+        alt = aa.alt.deg
+        floor = np.maximum(min_alt, horizon_alt(aa.az.deg))
+        ok = (alt >= floor) & (sun.alt.deg < sun_alt)[:, None]
+        if moon_sep > 0:
+            # Target-Moon separation, topocentric, from the geometric AltAz directions.
+            star_geo = stars[None, :].transform_to(AltAz(obstime=times[:, None], location=loc))
+            sep = star_geo.separation(moon[:, None]).deg
+            ok &= sep >= moon_sep
+        h = ok.sum(axis=0) * step_min / 60.0
+        for name, x in zip(names, h):
+            hours[(name, d.isoformat())] = float(x)
+    return hours
+
+
+def main():
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--targets", type=int, default=200)
+    ap.add_argument("--nights", type=int, default=30)
+    ap.add_argument("--from", dest="start", default="2026-03-01")
+    ap.add_argument("--min-alt", type=float, default=30.0)
+    ap.add_argument("--sun-alt", type=float, default=-18.0)
+    ap.add_argument("--moon-sep", type=float, default=30.0)
+    ap.add_argument("--rung", default=os.path.join(ROOT, "target", "release", "rung"))
+    a = ap.parse_args()
+
+    if not os.path.exists(a.rung):
+        sys.exit(f"side_by_side: {a.rung} not found; build it with `cargo build --release`")
+
+    names, ra, dec = invented_targets(a.targets)
+    start = dt.date.fromisoformat(a.start)
+    dates = [start + dt.timedelta(days=i) for i in range(a.nights)]
+
+    with tempfile.TemporaryDirectory() as tmp:
+        path = os.path.join(tmp, "targets.csv")
+        with open(path, "w") as f:
+            f.write("name,kind,ra,dec\n")
+            for n_, r_, d_ in zip(names, ra, dec):
+                f.write(f"{n_},plain,{r_:.6f},{d_:.6f}\n")
+        cmd = [
+            a.rung, "season", "--site", SITE["name"], "--targets", path,
+            "--from", dates[0].isoformat(), "--to", dates[-1].isoformat(),
+            "--min-alt", str(a.min_alt), "--sun-alt", str(a.sun_alt),
+            "--moon-sep", str(a.moon_sep), "--csv",
+        ]
+        # Best of three for rung (its run is short enough for start-up noise to matter).
+        rung_s = float("inf")
+        for _ in range(3):
+            t = time.perf_counter()
+            out = subprocess.run(cmd, check=True, capture_output=True, text=True).stdout
+            rung_s = min(rung_s, time.perf_counter() - t)
+
+    rung_h = {}
+    for row in csv.DictReader(io.StringIO(out)):
+        rung_h[(row["target"], row["night"])] = float(row["observable_hours"])
+
+    t = time.perf_counter()
+    astro_h = astropy_season(names, ra, dec, dates, a.min_alt, a.sun_alt, a.moon_sep)
+    astro_s = time.perf_counter() - t
+
+    keys = sorted(astro_h)
+    missing = [k for k in keys if k not in rung_h]
+    if missing:
+        sys.exit(f"side_by_side: rung has no row for {len(missing)} target-nights, e.g. {missing[0]}")
+    diff_min = np.array([abs(rung_h[k] - astro_h[k]) * 60.0 for k in keys])
+    worst = keys[int(np.argmax(diff_min))]
+    over10 = int((diff_min > 10.0).sum())
+
+    cpu = os.cpu_count()
+    print(f"machine: {cpu} logical cores, {os.uname().machine}, load average {os.getloadavg()[0]:.1f}")
+    print(f"workload: {a.targets} targets x {a.nights} nights = {len(keys)} target-nights at {SITE['name']}, "
+          f"alt >= {a.min_alt}, Sun < {a.sun_alt}, Moon >= {a.moon_sep} deg")
+    print(f"rung season (release, best of 3): {rung_s:8.3f} s wall")
+    print(f"astropy AltAz, 5-minute grid:     {astro_s:8.3f} s wall")
+    print(f"speed ratio: {astro_s / rung_s:.0f}x")
+    print(f"agreement: mean |dhours| {diff_min.mean():.2f} min, worst {diff_min.max():.2f} min "
+          f"({worst[0]} on {worst[1]}: rung {rung_h[worst]:.3f} h, astropy {astro_h[worst]:.3f} h), "
+          f"{over10} target-nights beyond 10 min")
+    if over10 > 0:
+        sys.exit("side_by_side: rung and astropy disagree by more than 10 minutes")
+
+
+if __name__ == "__main__":
+    main()

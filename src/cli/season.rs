@@ -1,0 +1,581 @@
+//! `rung season`: every target on every night of a date range.
+//!
+//! Rows stream out one night at a time (formatted on all cores), so a
+//! 10 000-target, one-year run holds one night of rows in memory.
+
+use anyhow::{Context as _, Result};
+use rayon::prelude::*;
+use rung::astro::time::parse_date;
+use rung::io::sites;
+use rung::plan::season::{
+    self, Constraints, NightRows, NightSky, SeasonSummary, TargetNightRow, TargetSummary,
+};
+use std::io::{IsTerminal, Write};
+use std::ops::ControlFlow;
+use std::path::PathBuf;
+
+/// Arguments of `rung season`.
+#[derive(clap::Args)]
+pub struct Args {
+    /// Site name from the catalogue, or LAT,LON,ELEV_M[,ZONE].
+    #[arg(long)]
+    pub site: String,
+    /// Targets file (CSV or TOML).
+    #[arg(long)]
+    pub targets: PathBuf,
+    /// First night (YYYY-MM-DD, the local evening that starts it).
+    #[arg(long)]
+    pub from: String,
+    /// Last night (YYYY-MM-DD), inclusive.
+    #[arg(long)]
+    pub to: String,
+    /// Minimum observed altitude, degrees.
+    #[arg(long, default_value_t = 30.0, allow_hyphen_values = true)]
+    pub min_alt: f64,
+    /// The Sun's centre must be below this altitude, degrees.
+    #[arg(long, default_value_t = -12.0, allow_hyphen_values = true)]
+    pub sun_alt: f64,
+    /// Minimum distance from the Moon's centre, degrees (default: no Moon limit).
+    #[arg(long)]
+    pub moon_sep: Option<f64>,
+    /// One CSV row per target and night (or per target with --summary).
+    #[arg(long, conflicts_with = "json")]
+    pub csv: bool,
+    /// JSON output (rows, or per-target totals with --summary).
+    #[arg(long)]
+    pub json: bool,
+    /// Per-target totals instead of rows: total hours, best month, first and last night.
+    #[arg(long)]
+    pub summary: bool,
+}
+
+/// CSV header of the per-night rows (the first five columns are a contract).
+pub const ROW_HEADER: &str = "target,night,observable_hours,best_airmass,moon_separation_min_deg,max_altitude_deg,transit,transit_altitude_deg,window_start,window_end,windows,dark_hours,moon_illumination,sun_caution";
+
+/// CSV header of the per-target totals.
+pub const SUMMARY_HEADER: &str = "target,total_hours,nights_observable,first_night,last_night,best_month,best_month_hours,best_airmass,best_airmass_night";
+
+/// Rows formatted per parallel work item.
+const ROWS_PER_CHUNK: usize = 512;
+
+/// Run `rung season`.
+pub fn run(a: Args) -> Result<()> {
+    let site = sites::resolve(&a.site)?;
+    let c = Constraints::new(a.min_alt, a.sun_alt, a.moon_sep)?;
+    let from = parse_date(&a.from).context("--from")?;
+    let to = parse_date(&a.to).context("--to")?;
+    let nights = season::nights_in(from, to)?.len();
+    let targets = super::load_targets(&a.targets)?;
+    let places: Vec<_> = targets.iter().map(|t| t.place()).collect();
+    let names: Vec<String> = targets.iter().map(|t| t.name.clone()).collect();
+
+    let work = nights as u64 * places.len() as u64;
+    let bar = if std::io::stderr().is_terminal() && work >= 100_000 {
+        let b = indicatif::ProgressBar::with_draw_target(
+            Some(nights as u64),
+            indicatif::ProgressDrawTarget::stderr(),
+        );
+        if let Ok(st) = indicatif::ProgressStyle::with_template(
+            "{prefix} [{bar:32}] {pos}/{len} nights, {eta} left",
+        ) {
+            b.set_style(st.progress_chars("=> "));
+        }
+        b.set_prefix("season");
+        b
+    } else {
+        indicatif::ProgressBar::hidden()
+    };
+
+    // Night chunks (tens of kilobytes each) go straight to the file descriptor;
+    // the small buffer only gathers headers and summaries.
+    let mut out = std::io::BufWriter::with_capacity(1 << 15, raw_stdout());
+    let mut io_err: Option<std::io::Error> = None;
+    let mut summary = SeasonSummary::new(places.len());
+    let want_rows = !a.summary && (a.csv || a.json);
+
+    let csv_names: Vec<Vec<u8>> = names.iter().map(|n| csv_field(n).into_bytes()).collect();
+    let json_names: Vec<Vec<u8>> = names
+        .iter()
+        .map(|n| {
+            serde_json::to_string(n)
+                .unwrap_or_else(|_| "\"?\"".into())
+                .into_bytes()
+        })
+        .collect();
+
+    if want_rows {
+        let head = if a.csv {
+            format!("{ROW_HEADER}\n")
+        } else {
+            format!(
+                "{{\"site\":{},\"from\":\"{from}\",\"to\":\"{to}\",\"nights\":{nights},\"target_count\":{},\"min_alt_deg\":{},\"sun_alt_deg\":{},\"moon_sep_deg\":{},\"rows\":[",
+                serde_json::to_string(&site.name)?,
+                places.len(),
+                c.min_alt_deg,
+                c.sun_alt_deg,
+                c.moon_sep_deg
+            )
+        };
+        out.write_all(head.as_bytes())?;
+    }
+    let mut first_json = true;
+    let mut pool: Vec<Vec<u8>> = Vec::new();
+    let mut cautions = 0usize;
+    season::scan(&site, &places, from, to, &c, |nr: &NightRows<'_>| {
+        bar.inc(1);
+        if !want_rows {
+            summary.add(nr);
+        }
+        cautions += nr.rows.iter().filter(|r| r.sun_caution).count();
+        if !want_rows {
+            return ControlFlow::Continue(());
+        }
+        let fmt = NightFmt::new(nr.sky);
+        // Format on all cores into buffers kept from night to night.
+        let n_chunks = nr.rows.len().div_ceil(ROWS_PER_CHUNK);
+        if pool.len() < n_chunks {
+            pool.resize_with(n_chunks, Vec::new);
+        }
+        nr.rows
+            .par_chunks(ROWS_PER_CHUNK)
+            .zip(pool.par_iter_mut())
+            .for_each(|(rows, buf)| {
+                buf.clear();
+                for r in rows {
+                    if a.csv {
+                        fmt.csv_row(buf, &csv_names[r.target], r);
+                    } else {
+                        fmt.json_row(buf, &json_names[r.target], r);
+                    }
+                }
+            });
+        for ch in &pool[..n_chunks] {
+            let ch = if !a.csv && first_json && !ch.is_empty() {
+                first_json = false;
+                &ch[1..] // drop the leading comma of the very first row
+            } else {
+                &ch[..]
+            };
+            if let Err(e) = out.write_all(ch) {
+                io_err = Some(e);
+                return ControlFlow::Break(());
+            }
+        }
+        ControlFlow::Continue(())
+    })?;
+    bar.finish_and_clear();
+    if let Some(e) = io_err {
+        if e.kind() == std::io::ErrorKind::BrokenPipe {
+            return Ok(());
+        }
+        return Err(e).context("writing the season rows");
+    }
+    if cautions > 0 {
+        eprintln!(
+            "rung: SUN CAUTION: {cautions} target-nights have a window with the Sun up and the target within the site's Sun-avoidance angle ({:.0}°); see the sun_caution column; the observatory's own safety rules prevail",
+            site.sun_avoid_deg
+        );
+    }
+    let res = if want_rows {
+        if a.json {
+            out.write_all(b"]}\n")
+        } else {
+            Ok(())
+        }
+    } else {
+        let totals = summary.finish();
+        write_summary(&mut out, &a, &site, from, to, &c, &names, &totals)
+    };
+    match res.and_then(|_| out.flush()) {
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
+        r => r.context("writing the season output"),
+    }
+}
+
+/// Standard output without its line buffering (a duplicate of the descriptor on Unix).
+fn raw_stdout() -> Box<dyn Write> {
+    #[cfg(unix)]
+    {
+        use std::os::fd::AsFd;
+        if let Ok(fd) = std::io::stdout().as_fd().try_clone_to_owned() {
+            return Box::new(std::fs::File::from(fd));
+        }
+    }
+    Box::new(std::io::stdout())
+}
+
+#[allow(clippy::too_many_arguments)]
+fn write_summary(
+    out: &mut impl Write,
+    a: &Args,
+    site: &rung::astro::site::Site,
+    from: chrono::NaiveDate,
+    to: chrono::NaiveDate,
+    c: &Constraints,
+    names: &[String],
+    totals: &[TargetSummary],
+) -> std::io::Result<()> {
+    let d = |x: Option<chrono::NaiveDate>| x.map(|d| d.to_string());
+    if a.csv {
+        writeln!(out, "{SUMMARY_HEADER}")?;
+        for t in totals {
+            writeln!(
+                out,
+                "{},{:.3},{},{},{},{},{:.3},{},{}",
+                csv_field(&names[t.target]),
+                t.total_hours,
+                t.nights_observable,
+                d(t.first_night).unwrap_or_default(),
+                d(t.last_night).unwrap_or_default(),
+                t.best_month_text().unwrap_or_default(),
+                t.best_month_hours,
+                t.best_airmass
+                    .map(|x| format!("{x:.3}"))
+                    .unwrap_or_default(),
+                d(t.best_airmass_night).unwrap_or_default(),
+            )?;
+        }
+        return Ok(());
+    }
+    if a.json {
+        let list: Vec<serde_json::Value> = totals
+            .iter()
+            .map(|t| {
+                serde_json::json!({
+                    "target": names[t.target],
+                    "total_hours": t.total_hours,
+                    "nights_observable": t.nights_observable,
+                    "first_night": d(t.first_night),
+                    "last_night": d(t.last_night),
+                    "best_month": t.best_month_text(),
+                    "best_month_hours": t.best_month_hours,
+                    "best_airmass": t.best_airmass,
+                    "best_airmass_night": d(t.best_airmass_night),
+                })
+            })
+            .collect();
+        let v = serde_json::json!({
+            "site": site.name,
+            "from": from.to_string(),
+            "to": to.to_string(),
+            "nights": (to - from).num_days() + 1,
+            "min_alt_deg": c.min_alt_deg,
+            "sun_alt_deg": c.sun_alt_deg,
+            "moon_sep_deg": c.moon_sep_deg,
+            "summary": list,
+        });
+        serde_json::to_writer_pretty(&mut *out, &v)?;
+        return writeln!(out);
+    }
+    writeln!(
+        out,
+        "Season {from} to {to} at {}: above {:.0}°, Sun below {:.0}°{}",
+        site.name,
+        c.min_alt_deg,
+        c.sun_alt_deg,
+        if c.moon_sep_deg > 0.0 {
+            format!(", at least {:.0}° from the Moon", c.moon_sep_deg)
+        } else {
+            String::new()
+        }
+    )?;
+    writeln!(
+        out,
+        "  {:<20} {:>8} {:>6} {:>10} {:>10} {:>8} {:>7} {:>7}",
+        "target", "hours", "nights", "first", "last", "best mo", "mo hrs", "airmass"
+    )?;
+    for t in totals {
+        writeln!(
+            out,
+            "  {:<20} {:>8.1} {:>6} {:>10} {:>10} {:>8} {:>7.1} {:>7}",
+            names[t.target],
+            t.total_hours,
+            t.nights_observable,
+            d(t.first_night).unwrap_or_else(|| "-".into()),
+            d(t.last_night).unwrap_or_else(|| "-".into()),
+            t.best_month_text().unwrap_or_else(|| "-".into()),
+            t.best_month_hours,
+            super::opt(t.best_airmass, 2),
+        )?;
+    }
+    Ok(())
+}
+
+/// A CSV field, quoted when it holds a comma, quote or line break.
+fn csv_field(s: &str) -> String {
+    if s.contains([',', '"', '\n', '\r']) {
+        format!("\"{}\"", s.replace('"', "\"\""))
+    } else {
+        s.to_string()
+    }
+}
+
+/// Per-night formatting state: the date text and the clock origin.
+struct NightFmt {
+    date: Vec<u8>,
+    mid_unix_s: f64,
+    /// Unix day number of the first of three cached date prefixes.
+    day0: i64,
+    /// `YYYY-MM-DDT` of day0, day0 + 1, day0 + 2.
+    prefixes: [[u8; 11]; 3],
+    /// `,dark_hours,moon_illumination,` for CSV.
+    csv_tail: Vec<u8>,
+    dark_hours: f64,
+    moon_illumination: f64,
+}
+
+impl NightFmt {
+    fn new(sky: &NightSky) -> Self {
+        let mid_unix_s = sky.mid_unix_s();
+        let day0 = (mid_unix_s / 86_400.0).floor() as i64 - 1;
+        let mut prefixes = [[0u8; 11]; 3];
+        for (i, p) in prefixes.iter_mut().enumerate() {
+            let mut b = Vec::with_capacity(20);
+            push_iso(&mut b, ((day0 + i as i64) * 86_400) as f64);
+            p.copy_from_slice(&b[..11]);
+        }
+        let mut csv_tail = vec![b','];
+        push_fixed(&mut csv_tail, sky.dark_hours(), 3);
+        csv_tail.push(b',');
+        push_fixed(&mut csv_tail, sky.moon_illumination, 3);
+        csv_tail.push(b',');
+        NightFmt {
+            date: sky.date.to_string().into_bytes(),
+            mid_unix_s,
+            day0,
+            prefixes,
+            csv_tail,
+            dark_hours: sky.dark_hours(),
+            moon_illumination: sky.moon_illumination,
+        }
+    }
+
+    /// ISO text of a Unix time inside the cached three days (else the full path).
+    fn iso(&self, buf: &mut Vec<u8>, unix_s: f64) {
+        let t = unix_s.round() as i64;
+        let k = t.div_euclid(86_400) - self.day0;
+        if !(0..3).contains(&k) {
+            push_iso(buf, unix_s);
+            return;
+        }
+        let sod = t.rem_euclid(86_400) as usize;
+        buf.extend_from_slice(&self.prefixes[k as usize]);
+        push2(buf, sod / 3600);
+        buf.push(b':');
+        push2(buf, sod / 60 % 60);
+        buf.push(b':');
+        push2(buf, sod % 60);
+        buf.push(b'Z');
+    }
+
+    fn time(&self, buf: &mut Vec<u8>, off: Option<f64>, quote: bool) {
+        match off {
+            Some(s) => {
+                if quote {
+                    buf.push(b'"');
+                }
+                self.iso(buf, self.mid_unix_s + s);
+                if quote {
+                    buf.push(b'"');
+                }
+            }
+            None if quote => buf.extend_from_slice(b"null"),
+            None => {}
+        }
+    }
+
+    fn csv_row(&self, buf: &mut Vec<u8>, name: &[u8], r: &TargetNightRow) {
+        buf.extend_from_slice(name);
+        buf.push(b',');
+        buf.extend_from_slice(&self.date);
+        buf.push(b',');
+        push_fixed(buf, r.observable_hours, 3);
+        buf.push(b',');
+        opt_fixed(buf, r.best_airmass, 3, false);
+        buf.push(b',');
+        opt_fixed(buf, r.moon_separation_min_deg, 2, false);
+        buf.push(b',');
+        opt_fixed(buf, r.max_altitude_deg, 2, false);
+        buf.push(b',');
+        self.time(buf, r.transit_s, false);
+        buf.push(b',');
+        push_fixed(buf, r.transit_altitude_deg, 2);
+        buf.push(b',');
+        self.time(buf, r.window_start_s, false);
+        buf.push(b',');
+        self.time(buf, r.window_end_s, false);
+        buf.push(b',');
+        push_uint(buf, r.windows as u64);
+        buf.extend_from_slice(&self.csv_tail);
+        buf.extend_from_slice(if r.sun_caution { b"true\n" } else { b"false\n" });
+    }
+
+    fn json_row(&self, buf: &mut Vec<u8>, name: &[u8], r: &TargetNightRow) {
+        buf.extend_from_slice(b",\n{\"target\":");
+        buf.extend_from_slice(name);
+        buf.extend_from_slice(b",\"night\":\"");
+        buf.extend_from_slice(&self.date);
+        buf.extend_from_slice(b"\",\"observable_hours\":");
+        push_fixed(buf, r.observable_hours, 4);
+        buf.extend_from_slice(b",\"best_airmass\":");
+        opt_fixed(buf, r.best_airmass, 4, true);
+        buf.extend_from_slice(b",\"moon_separation_min_deg\":");
+        opt_fixed(buf, r.moon_separation_min_deg, 3, true);
+        buf.extend_from_slice(b",\"max_altitude_deg\":");
+        opt_fixed(buf, r.max_altitude_deg, 3, true);
+        buf.extend_from_slice(b",\"transit\":");
+        self.time(buf, r.transit_s, true);
+        buf.extend_from_slice(b",\"transit_altitude_deg\":");
+        push_fixed(buf, r.transit_altitude_deg, 3);
+        buf.extend_from_slice(b",\"window_start\":");
+        self.time(buf, r.window_start_s, true);
+        buf.extend_from_slice(b",\"window_end\":");
+        self.time(buf, r.window_end_s, true);
+        buf.extend_from_slice(b",\"windows\":");
+        push_uint(buf, r.windows as u64);
+        buf.extend_from_slice(b",\"dark_hours\":");
+        push_fixed(buf, self.dark_hours, 4);
+        buf.extend_from_slice(b",\"moon_illumination\":");
+        push_fixed(buf, self.moon_illumination, 4);
+        buf.extend_from_slice(b",\"sun_caution\":");
+        buf.extend_from_slice(if r.sun_caution { b"true" } else { b"false" });
+        buf.push(b'}');
+    }
+}
+
+const DIGITS2: &[u8; 200] = b"0001020304050607080910111213141516171819\
+2021222324252627282930313233343536373839\
+4041424344454647484950515253545556575859\
+6061626364656667686970717273747576777879\
+8081828384858687888990919293949596979899";
+
+/// Two decimal digits of `v` (< 100).
+fn push2(buf: &mut Vec<u8>, v: usize) {
+    let i = 2 * (v % 100);
+    buf.extend_from_slice(&DIGITS2[i..i + 2]);
+}
+
+fn push_uint(buf: &mut Vec<u8>, mut v: u64) {
+    let mut tmp = [0u8; 20];
+    let mut i = tmp.len();
+    while v >= 100 {
+        let d = 2 * (v % 100) as usize;
+        v /= 100;
+        i -= 2;
+        tmp[i..i + 2].copy_from_slice(&DIGITS2[d..d + 2]);
+    }
+    if v >= 10 {
+        let d = 2 * v as usize;
+        i -= 2;
+        tmp[i..i + 2].copy_from_slice(&DIGITS2[d..d + 2]);
+    } else {
+        i -= 1;
+        tmp[i] = b'0' + v as u8;
+    }
+    buf.extend_from_slice(&tmp[i..]);
+}
+
+/// `v` zero-padded to at least `width` digits.
+fn push_padded(buf: &mut Vec<u8>, v: u64, width: usize) {
+    let mut tmp = [b'0'; 20];
+    let mut x = v;
+    let mut i = tmp.len();
+    while x > 0 {
+        i -= 1;
+        tmp[i] = b'0' + (x % 10) as u8;
+        x /= 10;
+    }
+    let start = (tmp.len() - width).min(i);
+    buf.extend_from_slice(&tmp[start..]);
+}
+
+const SCALE: [u64; 5] = [1, 10, 100, 1000, 10_000];
+
+/// A number with `dp` (≤ 4) decimals, rounded half away from zero.
+fn push_fixed(buf: &mut Vec<u8>, x: f64, dp: u32) {
+    if !x.is_finite() {
+        buf.push(b'0');
+        return;
+    }
+    let dp = dp.min(4) as usize;
+    let scale = SCALE[dp];
+    let m = (x.abs() * scale as f64 + 0.5) as u64;
+    if x < 0.0 && m > 0 {
+        buf.push(b'-');
+    }
+    push_uint(buf, m / scale);
+    if dp > 0 {
+        buf.push(b'.');
+        push_padded(buf, m % scale, dp);
+    }
+}
+
+fn opt_fixed(buf: &mut Vec<u8>, x: Option<f64>, dp: u32, json: bool) {
+    match x {
+        Some(v) => push_fixed(buf, v, dp),
+        None if json => buf.extend_from_slice(b"null"),
+        None => {}
+    }
+}
+
+/// UTC ISO 8601 text `YYYY-MM-DDTHH:MM:SSZ` of a Unix time (rounded to the
+/// second); days to civil date by the proleptic Gregorian algorithm of
+/// H. Hinnant, "chrono-Compatible Low-Level Date Algorithms" (days_from_civil inverse).
+fn push_iso(buf: &mut Vec<u8>, unix_s: f64) {
+    let t = unix_s.round() as i64;
+    let days = t.div_euclid(86_400);
+    let sod = t.rem_euclid(86_400);
+    let z = days + 719_468;
+    let era = z.div_euclid(146_097);
+    let doe = z - era * 146_097;
+    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
+    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    let mp = (5 * doy + 2) / 153;
+    let d = doy - (153 * mp + 2) / 5 + 1;
+    let m = if mp < 10 { mp + 3 } else { mp - 9 };
+    let y = yoe + era * 400 + i64::from(m <= 2);
+    push_padded(buf, y.max(0) as u64, 4);
+    buf.push(b'-');
+    push_padded(buf, m as u64, 2);
+    buf.push(b'-');
+    push_padded(buf, d as u64, 2);
+    buf.push(b'T');
+    push_padded(buf, (sod / 3600) as u64, 2);
+    buf.push(b':');
+    push_padded(buf, (sod / 60 % 60) as u64, 2);
+    buf.push(b':');
+    push_padded(buf, (sod % 60) as u64, 2);
+    buf.push(b'Z');
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn fixed_and_iso_formatting() {
+        let mut b = Vec::new();
+        push_fixed(&mut b, 1.23456, 3);
+        b.push(b' ');
+        push_fixed(&mut b, -0.0004, 3);
+        b.push(b' ');
+        push_fixed(&mut b, -12.5, 2);
+        b.push(b' ');
+        push_fixed(&mut b, 0.05, 2);
+        assert_eq!(String::from_utf8(b).unwrap(), "1.235 0.000 -12.50 0.05");
+        // Checked against chrono's calendar (proleptic Gregorian, UTC).
+        let dt = chrono::DateTime::parse_from_rfc3339("2026-12-01T23:46:03Z").unwrap();
+        let mut b = Vec::new();
+        push_iso(&mut b, dt.timestamp() as f64 + 0.2);
+        assert_eq!(String::from_utf8(b).unwrap(), "2026-12-01T23:46:03Z");
+        for s in [-86_400i64 * 365 * 9, 0, 951_782_400, 4_102_444_799] {
+            let want = chrono::DateTime::from_timestamp(s, 0)
+                .unwrap()
+                .format("%Y-%m-%dT%H:%M:%SZ")
+                .to_string();
+            let mut b = Vec::new();
+            push_iso(&mut b, s as f64);
+            assert_eq!(String::from_utf8(b).unwrap(), want);
+        }
+    }
+}
