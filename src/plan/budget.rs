@@ -155,7 +155,7 @@ pub fn budget(
                     } else {
                         0.0
                     },
-                    hours: p.hours_needed,
+                    hours: p.hours_needed.max(0.0),
                     verdict_label: verdict_label(&p.verdict).to_string(),
                     verdict: p.verdict.clone(),
                     hours_by_month: by_month,
@@ -229,7 +229,7 @@ pub fn markdown(b: &Budget) -> String {
             },
             r.epochs,
             r.exptime_per_epoch_s,
-            r.hours,
+            r.hours + 0.0,
             verdict_text(&r.verdict)
         ));
     }
