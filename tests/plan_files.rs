@@ -94,3 +94,42 @@ fn semesters_follow_common_practice() {
     assert_eq!(semester("2027-07-31".parse().unwrap()), "2027A");
     assert_eq!(semester("2027-08-01".parse().unwrap()), "2027B");
 }
+
+#[test]
+fn replanned_visits_never_reuse_an_id() {
+    use rung::plan::schedule::Visit;
+    let ts = vec![Target::plain("A", 10.0, -20.0)];
+    let t0 = rung::astro::time::parse_instant("2026-12-02T03:00:00Z").unwrap();
+    let visit = |id: &str, k: f64, status: Status| Visit {
+        id: id.into(),
+        target: "A".into(),
+        kind: rung::io::targets::Kind::Parallax,
+        night: "2026-12-01".parse().unwrap(),
+        start: t0.add_seconds(k * 600.0),
+        end: t0.add_seconds(k * 600.0 + 300.0),
+        exptime_s: 100.0,
+        n_exposures: 1,
+        snr: 50.0,
+        airmass: 1.1,
+        status,
+        cautions: vec![],
+    };
+    let mut p = plan_for(&ts);
+    p.visits = vec![
+        visit("A#1", 0.0, Status::Done),
+        visit("A#2", 1.0, Status::Lost),
+    ];
+    // The re-plan numbers its new visit A#2 again, as the scheduler counts done visits only.
+    p.replace_visits(vec![
+        visit("A#1", 0.0, Status::Done),
+        visit("A#2", 3.0, Status::Planned),
+    ]);
+    let ids: Vec<&str> = p.visits.iter().map(|v| v.id.as_str()).collect();
+    assert_eq!(ids, ["A#1", "A#2", "A#3"]);
+    assert_eq!(p.visits[1].status, Status::Lost);
+    assert_eq!(p.visits[2].status, Status::Planned);
+    let d = tempfile::tempdir().unwrap();
+    let path = d.path().join("p.json");
+    save(&p, &path).unwrap();
+    assert!(load(&path).is_ok());
+}

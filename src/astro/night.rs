@@ -143,10 +143,10 @@ impl Night {
         static CACHE: OnceLock<Cache> = OnceLock::new();
         let cache = CACHE.get_or_init(|| Mutex::new(HashMap::new()));
         let key = (format!("{site:?}"), date);
-        if let Ok(c) = cache.lock() {
-            if let Some(n) = c.get(&key) {
-                return Ok(n.clone());
-            }
+        if let Ok(c) = cache.lock()
+            && let Some(n) = c.get(&key)
+        {
+            return Ok(n.clone());
         }
         let n = Arc::new(Night::new(site, date)?);
         if let Ok(mut c) = cache.lock() {

@@ -105,6 +105,7 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
     let owned = rung::ladder::methods()?;
     let ms: Vec<&dyn Method> = owned.iter().map(|m| m.as_ref()).collect();
 
+    let mut outcomes = None;
     let mut p = match plan.take() {
         Some(p) => p,
         None => {
@@ -126,6 +127,7 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
             };
             let s = schedule::schedule(&req)?;
             report_unplaced(&s);
+            outcomes = Some(s.outcomes);
             PlanFile {
                 format: FORMAT.into(),
                 site: site_spec.clone(),
@@ -162,8 +164,7 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
         p.mark(&a.lost, Status::Lost)?;
         changed = true;
     }
-    let mut outcomes = None;
-    if a.replan || a.load.is_none() {
+    if a.replan {
         let limits = p.limits()?;
         let hours = a.hours_per_night.unwrap_or(p.hours_per_night);
         let done: Vec<_> = p
@@ -185,24 +186,10 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
             lost_nights: p.lost_nights.clone(),
         };
         let s = schedule::schedule(&req)?;
-        if a.replan {
-            report_unplaced(&s);
-            let lost: Vec<_> = p
-                .visits
-                .iter()
-                .filter(|v| v.status == Status::Lost)
-                .cloned()
-                .collect();
-            p.visits = s.visits.clone();
-            p.visits.extend(lost);
-            p.visits.sort_by(|x, y| {
-                x.start
-                    .partial_cmp(&y.start)
-                    .unwrap_or(std::cmp::Ordering::Equal)
-            });
-            p.hours_per_night = hours;
-            changed = true;
-        }
+        report_unplaced(&s);
+        p.replace_visits(s.visits.clone());
+        p.hours_per_night = hours;
+        changed = true;
         outcomes = Some(s.outcomes);
     }
     let save_to = a
@@ -303,7 +290,11 @@ fn print_plan(
             "target", "method", "planned", "done", "σd/d %", "goal %"
         );
         for o in os {
-            let got = o.prediction.as_ref().map(|p| p.distance_precision_pct);
+            let got = o
+                .prediction
+                .as_ref()
+                .map(|p| p.distance_precision_pct)
+                .filter(|x| x.is_finite());
             println!(
                 "  {:<14} {:<9} {:>7} {:>5} {:>8} {:>8}  {}",
                 o.target,

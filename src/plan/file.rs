@@ -85,6 +85,44 @@ impl PlanFile {
         Ok(())
     }
 
+    /// Replace the plan's visits by a re-planned set (`new`: the done visits and
+    /// the newly placed ones), keeping the visits marked lost for the record.
+    /// Newly placed visits whose id is already taken are renumbered
+    /// (`NAME#n` with the smallest free n), so ids stay unique.
+    pub fn replace_visits(&mut self, new: Vec<Visit>) {
+        let lost: Vec<Visit> = self
+            .visits
+            .iter()
+            .filter(|v| v.status == Status::Lost)
+            .cloned()
+            .collect();
+        let mut used: BTreeSet<String> = lost.iter().map(|v| v.id.clone()).collect();
+        for v in new.iter().filter(|v| v.status == Status::Done) {
+            used.insert(v.id.clone());
+        }
+        let mut out: Vec<Visit> = Vec::with_capacity(new.len() + lost.len());
+        for mut v in new {
+            if v.status != Status::Done {
+                if used.contains(&v.id) {
+                    let mut n = 1;
+                    while used.contains(&format!("{}#{n}", v.target)) {
+                        n += 1;
+                    }
+                    v.id = format!("{}#{n}", v.target);
+                }
+                used.insert(v.id.clone());
+            }
+            out.push(v);
+        }
+        out.extend(lost);
+        out.sort_by(|a, b| {
+            a.start
+                .partial_cmp(&b.start)
+                .unwrap_or(std::cmp::Ordering::Equal)
+        });
+        self.visits = out;
+    }
+
     /// The plan as pretty JSON text.
     pub fn to_json(&self) -> String {
         serde_json::to_string_pretty(self).unwrap_or_default()
