@@ -6,11 +6,16 @@
 //! reported with its file, line and field, and the good rows still load.
 
 use crate::astro::frames::CatalogPlace;
-use crate::astro::time::{Instant, parse_instant};
+use crate::astro::time::{Instant, check_jd_in_span, parse_instant};
 use crate::error::{Location, Result, RungError};
 use crate::io::angles::{parse_dec_deg, parse_ra_deg};
 use serde::Serialize;
 use std::path::{Path, PathBuf};
+
+/// Earliest accepted catalogue epoch `epoch_yr` (Julian year, TT); rung's valid span starts 1960-01-01.
+pub const VALID_FROM_EPOCH_YR: f64 = 1960.0;
+/// Latest accepted catalogue epoch `epoch_yr` (Julian year, TT); rung's valid span ends with 2099.
+pub const VALID_TO_EPOCH_YR: f64 = 2100.0;
 
 /// Longest accepted field, bytes. Longer fields are rejected, not loaded.
 pub const MAX_FIELD_BYTES: usize = 4096;
@@ -322,8 +327,11 @@ pub fn target_from_fields(
             Some(parse_instant(d).map_err(|e| ("discovered".to_string(), e.to_string()))?);
     }
     let bad = |f: &str, why: &str| Err((f.to_string(), why.to_string()));
-    if !(1900.0..=2100.0).contains(&t.epoch_yr) {
-        return bad("epoch_yr", "must be a Julian year between 1900 and 2100");
+    if !(VALID_FROM_EPOCH_YR..=VALID_TO_EPOCH_YR).contains(&t.epoch_yr) {
+        return bad(
+            "epoch_yr",
+            "must be a Julian year within rung's valid span, 1960.0 to 2100.0",
+        );
     }
     for (f, v) in [
         ("pm_ra_masyr", t.pm_ra_masyr),
@@ -380,6 +388,12 @@ pub fn target_from_fields(
                 Some(e) if !(2_400_000.0..=2_500_000.0).contains(&e) => {
                     return bad("epoch_max_bjd", "must be a full BJD such as 2461000.123");
                 }
+                Some(e) if check_jd_in_span(e, "").is_err() => {
+                    return bad(
+                        "epoch_max_bjd",
+                        "must lie within rung's valid span 1960-01-01 to 2099-12-31 (BJD 2436934.5 to 2488069.5)",
+                    );
+                }
                 _ => {}
             }
             if let Some(e) = t.period_err_d
@@ -411,87 +425,315 @@ pub fn target_from_fields(
     Ok(t)
 }
 
-/// Parse CSV text (header row first).
-pub fn parse_csv(text: &str, file: &Path) -> Loaded {
-    let mut out = Loaded::default();
+/// Longest accepted physical line of a CSV targets file, bytes. A longer line
+/// must hold a field over [`MAX_FIELD_BYTES`] (24 known columns of at most
+/// 4096 bytes fit well inside it); it is skipped without being held in memory.
+pub const MAX_LINE_BYTES: usize = 256 * 1024;
+/// Largest TOML targets file, bytes (TOML is parsed whole; use CSV for more).
+pub const MAX_TOML_BYTES: u64 = 64 * 1024 * 1024;
+/// How often (bytes read) the progress callback is called while streaming.
+const PROGRESS_STEP_BYTES: u64 = 1024 * 1024;
+
+/// Replaces an over-long physical line in the byte stream the CSV reader sees.
+/// Control characters keep it from being mistaken for real data.
+const OVERLONG_MARK: &str = "\u{1}rung:overlong-line\u{1}";
+
+/// A reader that passes a CSV file through line by line, replacing any line
+/// longer than [`MAX_LINE_BYTES`] by [`OVERLONG_MARK`] (its bytes are skipped,
+/// never stored), and counting the bytes read for the progress callback.
+struct LineCap<R: std::io::BufRead> {
+    inner: R,
+    pending: Vec<u8>,
+    pos: usize,
+    read: std::rc::Rc<std::cell::Cell<u64>>,
+    done: bool,
+    /// Whether the lines so far leave the reader inside a quoted field
+    /// (parity of the quote characters seen).
+    quoted: bool,
+}
+
+impl<R: std::io::BufRead> LineCap<R> {
+    fn refill(&mut self) -> std::io::Result<()> {
+        self.pending.clear();
+        self.pos = 0;
+        let mut overlong = false;
+        let mut quotes_in_line = 0usize;
+        let mut first = true;
+        let mut comment = false;
+        loop {
+            let buf = self.inner.fill_buf()?;
+            if buf.is_empty() {
+                self.done = true;
+                break;
+            }
+            let (take, newline) = match buf.iter().position(|b| *b == b'\n') {
+                Some(i) => (i + 1, true),
+                None => (buf.len(), false),
+            };
+            if first {
+                comment = buf[0] == b'#';
+                first = false;
+            }
+            let q = buf[..take].iter().filter(|b| **b == b'"').count();
+            quotes_in_line += q;
+            if !overlong {
+                if self.pending.len() + take > MAX_LINE_BYTES + 1 {
+                    overlong = true;
+                    self.pending.clear();
+                } else {
+                    self.pending.extend_from_slice(&buf[..take]);
+                }
+            }
+            self.inner.consume(take);
+            self.read.set(self.read.get() + take as u64);
+            if newline {
+                break;
+            }
+        }
+        if overlong && comment && !self.quoted {
+            // An over-long comment line is still a comment.
+            self.pending.extend_from_slice(b"#\n");
+        } else if overlong {
+            // Keep the quoting state the CSV reader would have had after the
+            // skipped line (an odd number of quotes flips it), so that the rows
+            // after it are read as they stand.
+            let entering_quoted = self.quoted;
+            let flips = quotes_in_line % 2 == 1;
+            if flips && !entering_quoted {
+                self.pending.push(b'"');
+            }
+            self.pending.extend_from_slice(OVERLONG_MARK.as_bytes());
+            if flips && entering_quoted {
+                self.pending.push(b'"');
+            }
+            self.pending.push(b'\n');
+        }
+        if quotes_in_line % 2 == 1 && (self.quoted || !comment) {
+            self.quoted = !self.quoted;
+        }
+        Ok(())
+    }
+}
+
+impl<R: std::io::BufRead> std::io::Read for LineCap<R> {
+    fn read(&mut self, out: &mut [u8]) -> std::io::Result<usize> {
+        if self.pos >= self.pending.len() {
+            if self.done {
+                return Ok(0);
+            }
+            self.refill()?;
+        }
+        let n = (self.pending.len() - self.pos).min(out.len());
+        out[..n].copy_from_slice(&self.pending[self.pos..self.pos + n]);
+        self.pos += n;
+        Ok(n)
+    }
+}
+
+/// Names already used, kept compactly for the duplicate check.
+type Seen = std::collections::HashSet<Box<str>>;
+
+/// The CSV reader behind [`parse_csv`], [`stream_csv`] and [`load`]: reads
+/// `reader` record by record, never holding more than one line of at most
+/// [`MAX_LINE_BYTES`]. `total_bytes` is passed to `on_progress` with the bytes
+/// read so far (about every MiB, and once at the end).
+pub fn stream_csv_reader<R: std::io::Read>(
+    reader: R,
+    file: &Path,
+    total_bytes: u64,
+    on_target: &mut dyn FnMut(Target),
+    on_problem: &mut dyn FnMut(RungError),
+    on_progress: &mut dyn FnMut(u64, u64),
+) {
+    let read = std::rc::Rc::new(std::cell::Cell::new(0u64));
+    let capped = LineCap {
+        inner: std::io::BufReader::with_capacity(64 * 1024, reader),
+        pending: Vec::new(),
+        pos: 0,
+        read: read.clone(),
+        done: false,
+        quoted: false,
+    };
     let mut rdr = csv::ReaderBuilder::new()
         .flexible(true)
         .trim(csv::Trim::All)
         .comment(Some(b'#'))
-        .from_reader(text.as_bytes());
+        .from_reader(capped);
     let headers: Vec<String> = match rdr.headers() {
+        Ok(h) if h.iter().any(|f| f.contains(OVERLONG_MARK)) => {
+            on_problem(RungError::InFile {
+                loc: loc(file, 1, ""),
+                msg: format!("the header line is longer than {MAX_LINE_BYTES} bytes"),
+            });
+            return;
+        }
         Ok(h) => h.iter().map(|s| s.trim().to_ascii_lowercase()).collect(),
         Err(e) => {
-            out.problems.push(RungError::InFile {
+            on_problem(RungError::InFile {
                 loc: loc(file, 1, ""),
                 msg: format!("unreadable header: {e}"),
             });
-            return out;
+            return;
         }
     };
     for need in ["name", "ra", "dec"] {
         if !headers.iter().any(|h| h == need) {
-            out.problems.push(RungError::InFile {
+            on_problem(RungError::InFile {
                 loc: loc(file, 1, need),
                 msg: format!("the header has no '{need}' column (required: name, ra, dec)"),
             });
-            return out;
+            return;
         }
     }
-    let mut seen = std::collections::HashSet::new();
-    for rec in rdr.records() {
-        let rec = match rec {
-            Ok(r) => r,
-            Err(e) => {
-                let line = e.position().map(|p| p.line() as usize).unwrap_or(0);
-                out.problems.push(RungError::InFile {
-                    loc: loc(file, line, ""),
-                    msg: format!("unreadable row: {e}"),
-                });
-                continue;
+    let mut seen = Seen::new();
+    let mut rec = csv::StringRecord::new();
+    let mut last_progress = 0u64;
+    loop {
+        let line_before = rdr.position().line() as usize;
+        match rdr.read_record(&mut rec) {
+            Ok(false) => break,
+            Ok(true) => {
+                let line = rec
+                    .position()
+                    .map(|p| p.line() as usize)
+                    .unwrap_or(line_before);
+                if let Some(i) = rec.iter().position(|f| f.contains(OVERLONG_MARK)) {
+                    // The mark sits on the over-long physical line itself.
+                    let extra = rec
+                        .iter()
+                        .take(i)
+                        .map(|f| f.matches('\n').count())
+                        .sum::<usize>()
+                        + rec.get(i).map_or(0, |f| {
+                            f[..f.find(OVERLONG_MARK).unwrap_or(0)]
+                                .matches('\n')
+                                .count()
+                        });
+                    let field = if rec.len() == headers.len() {
+                        headers[i].as_str()
+                    } else {
+                        ""
+                    };
+                    on_problem(RungError::InFile {
+                        loc: loc(file, line + extra, field),
+                        msg: format!(
+                            "line is longer than {MAX_LINE_BYTES} bytes: a field exceeds the {MAX_FIELD_BYTES}-byte limit; row skipped unread"
+                        ),
+                    });
+                } else if rec.len() != headers.len() {
+                    on_problem(RungError::InFile {
+                        loc: loc(file, line, ""),
+                        msg: format!(
+                            "row has {} fields but the header has {}",
+                            rec.len(),
+                            headers.len()
+                        ),
+                    });
+                } else {
+                    let fields: Vec<(String, String)> = headers
+                        .iter()
+                        .cloned()
+                        .zip(rec.iter().map(|s| s.to_string()))
+                        .collect();
+                    push_target(&mut seen, fields, file, line, on_target, on_problem);
+                }
             }
-        };
-        let line = rec.position().map(|p| p.line() as usize).unwrap_or(0);
-        if rec.len() != headers.len() {
-            out.problems.push(RungError::InFile {
-                loc: loc(file, line, ""),
-                msg: format!(
-                    "row has {} fields but the header has {}",
-                    rec.len(),
-                    headers.len()
-                ),
-            });
-            continue;
+            Err(e) => {
+                let line = e
+                    .position()
+                    .map(|p| p.line() as usize)
+                    .unwrap_or(line_before);
+                on_problem(RungError::InFile {
+                    loc: loc(file, line, ""),
+                    msg: format!("unreadable row: {}", cut(&e.to_string())),
+                });
+                if matches!(e.kind(), csv::ErrorKind::Io(_)) {
+                    break;
+                }
+            }
         }
-        let fields: Vec<(String, String)> = headers
-            .iter()
-            .cloned()
-            .zip(rec.iter().map(|s| s.to_string()))
-            .collect();
-        push_target(&mut out, &mut seen, fields, file, line);
+        let r = read.get();
+        if r >= last_progress + PROGRESS_STEP_BYTES {
+            last_progress = r;
+            on_progress(r, total_bytes.max(r));
+        }
     }
-    out
+    let r = read.get();
+    on_progress(r, total_bytes.max(r));
+}
+
+/// Stream a CSV targets file: each good target goes to `on_target` and each
+/// refused row to `on_problem`, in file order, with memory bounded by one line
+/// ([`MAX_LINE_BYTES`]) plus the set of names seen (for the duplicate check),
+/// whatever the size of the file.
+pub fn stream_csv(
+    path: &Path,
+    on_target: &mut dyn FnMut(Target),
+    on_problem: &mut dyn FnMut(RungError),
+) -> Result<()> {
+    stream_csv_progress(path, on_target, on_problem, &mut |_, _| {})
+}
+
+/// [`stream_csv`] with a progress callback `on_progress(bytes_read, total_bytes)`.
+pub fn stream_csv_progress(
+    path: &Path,
+    on_target: &mut dyn FnMut(Target),
+    on_problem: &mut dyn FnMut(RungError),
+    on_progress: &mut dyn FnMut(u64, u64),
+) -> Result<()> {
+    let f = open_file(path)?;
+    let total = f.metadata().map(|m| m.len()).unwrap_or(0);
+    stream_csv_reader(f, path, total, on_target, on_problem, on_progress);
+    Ok(())
+}
+
+fn open_file(path: &Path) -> Result<std::fs::File> {
+    let meta = std::fs::metadata(path).map_err(|e| RungError::io(path, e))?;
+    if meta.is_dir() {
+        return Err(RungError::invalid(
+            "targets file",
+            format!("{} is a folder", path.display()),
+        ));
+    }
+    std::fs::File::open(path).map_err(|e| RungError::io(path, e))
+}
+
+/// Parse CSV text (header row first).
+pub fn parse_csv(text: &str, file: &Path) -> Loaded {
+    let mut targets = Vec::new();
+    let mut problems = Vec::new();
+    stream_csv_reader(
+        text.as_bytes(),
+        file,
+        text.len() as u64,
+        &mut |t| targets.push(t),
+        &mut |p| problems.push(p),
+        &mut |_, _| {},
+    );
+    Loaded { targets, problems }
 }
 
 fn push_target(
-    out: &mut Loaded,
-    seen: &mut std::collections::HashSet<String>,
+    seen: &mut Seen,
     fields: Vec<(String, String)>,
     file: &Path,
     line: usize,
+    on_target: &mut dyn FnMut(Target),
+    on_problem: &mut dyn FnMut(RungError),
 ) {
     match target_from_fields(&fields) {
         Ok(t) => {
-            if !seen.insert(t.name.clone()) {
-                out.problems.push(RungError::InFile {
+            if seen.contains(t.name.as_str()) {
+                on_problem(RungError::InFile {
                     loc: loc(file, line, "name"),
                     msg: format!("'{}' is already used by an earlier row", cut(&t.name)),
                 });
             } else {
-                out.targets.push(t);
+                seen.insert(t.name.as_str().into());
+                on_target(t);
             }
         }
-        Err((field, msg)) => out.problems.push(RungError::InFile {
+        Err((field, msg)) => on_problem(RungError::InFile {
             loc: loc(file, line, &field),
             msg,
         }),
@@ -529,11 +771,12 @@ pub fn parse_toml(text: &str, file: &Path) -> Loaded {
         });
         return out;
     };
-    let mut seen = std::collections::HashSet::new();
+    let mut seen = Seen::new();
+    let Loaded { targets, problems } = &mut out;
     for (i, item) in list.iter().enumerate() {
         let line = header_lines.get(i).copied().unwrap_or(0);
         let Some(tab) = item.as_table() else {
-            out.problems.push(RungError::InFile {
+            problems.push(RungError::InFile {
                 loc: loc(file, line, ""),
                 msg: "not a table".into(),
             });
@@ -556,13 +799,20 @@ pub fn parse_toml(text: &str, file: &Path) -> Loaded {
             fields.push((k.to_ascii_lowercase(), s));
         }
         if let Some(k) = bad {
-            out.problems.push(RungError::InFile {
+            problems.push(RungError::InFile {
                 loc: loc(file, line, &k),
                 msg: "must be a single value".into(),
             });
             continue;
         }
-        push_target(&mut out, &mut seen, fields, file, line);
+        push_target(
+            &mut seen,
+            fields,
+            file,
+            line,
+            &mut |t| targets.push(t),
+            &mut |p| problems.push(p),
+        );
     }
     out
 }
@@ -576,15 +826,47 @@ pub fn unknown_columns(headers: &[String]) -> Vec<String> {
         .collect()
 }
 
-/// Read a targets file (by extension: `.toml`, else CSV).
+/// Read a targets file (by extension: `.toml`, else CSV). CSV is always read
+/// as a stream (see [`stream_csv`]), so even a file of millions of rows never
+/// has its text in memory; TOML is parsed whole and refused above
+/// [`MAX_TOML_BYTES`].
 pub fn load(path: &Path) -> Result<Loaded> {
-    let meta = std::fs::metadata(path).map_err(|e| RungError::io(path, e))?;
-    if meta.is_dir() {
-        return Err(RungError::invalid(
-            "targets file",
-            format!("{} is a folder", path.display()),
-        ));
+    load_with_progress(path, &mut |_, _| {})
+}
+
+/// [`load`] with a progress callback `on_progress(bytes_read, total_bytes)`
+/// (called about every MiB while a CSV file streams, and once at the end).
+pub fn load_with_progress(path: &Path, on_progress: &mut dyn FnMut(u64, u64)) -> Result<Loaded> {
+    let is_toml = path
+        .extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("toml"));
+    if !is_toml {
+        let mut targets = Vec::new();
+        let mut problems = Vec::new();
+        stream_csv_progress(
+            path,
+            &mut |t| targets.push(t),
+            &mut |p| problems.push(p),
+            on_progress,
+        )?;
+        return Ok(Loaded { targets, problems });
     }
+    let f = open_file(path)?;
+    let len = f.metadata().map(|m| m.len()).unwrap_or(0);
+    if len > MAX_TOML_BYTES {
+        return Err(RungError::InFile {
+            loc: Location {
+                file: Some(PathBuf::from(path)),
+                line: None,
+                field: None,
+            },
+            msg: format!(
+                "a TOML targets file is read whole and may hold at most {} MiB ({len} bytes given); use CSV for larger programmes",
+                MAX_TOML_BYTES / (1024 * 1024)
+            ),
+        });
+    }
+    drop(f);
     let bytes = std::fs::read(path).map_err(|e| RungError::io(path, e))?;
     let text = String::from_utf8(bytes).map_err(|e| RungError::InFile {
         loc: Location {
@@ -599,14 +881,8 @@ pub fn load(path: &Path) -> Result<Loaded> {
         },
         msg: "is not UTF-8 text".into(),
     })?;
-    let is_toml = path
-        .extension()
-        .is_some_and(|e| e.eq_ignore_ascii_case("toml"));
-    Ok(if is_toml {
-        parse_toml(&text, path)
-    } else {
-        parse_csv(&text, path)
-    })
+    on_progress(len, len);
+    Ok(parse_toml(&text, path))
 }
 
 #[cfg(test)]
