@@ -49,6 +49,21 @@ fn check_span(jd: f64, text: impl FnOnce() -> String) -> Result<()> {
     Ok(())
 }
 
+/// Whether the UTC day ends with a positive leap second (TAI − UTC grows by
+/// one second at the following midnight, SOFA `dat`).
+pub fn has_leap_second(y: i32, mo: u32, d: u32) -> bool {
+    let Some(next) = NaiveDate::from_ymd_opt(y, mo, d).and_then(|x| x.succ_opt()) else {
+        return false;
+    };
+    match (
+        ts::dat(y, mo as i32, d as i32, 0.0),
+        ts::dat(next.year(), next.month() as i32, next.day() as i32, 0.0),
+    ) {
+        (Ok(a), Ok(b)) => y >= 1972 && (b - a - 1.0).abs() < 1e-9,
+        _ => false,
+    }
+}
+
 /// Refuse a (UTC or BJD-like) Julian date outside rung's valid span
 /// [`VALID_FROM`]..=[`VALID_TO`] with [`RungError::OutOfSpan`]; `what` names it
 /// in the message (e.g. "epoch_max_bjd 2400000.5").
@@ -76,6 +91,24 @@ impl Instant {
     /// Build from a calendar date and UTC time of day (seconds may reach 60.x on a
     /// leap-second day). Checks rung's valid span.
     pub fn from_utc_calendar(y: i32, mo: u32, d: u32, h: u32, mi: u32, sec: f64) -> Result<Self> {
+        // SOFA dtf2d only warns (status +2) when the seconds run past the end of
+        // the minute and then counts them into the next one, so 23:59:60 on an
+        // ordinary day would silently become 00:00:00 of the next. Refuse it:
+        // second 60 exists only in the last minute of a leap-second day.
+        if !sec.is_finite() || sec < 0.0 {
+            return Err(RungError::invalid(
+                "time",
+                format!("{y:04}-{mo:02}-{d:02} {h:02}:{mi:02}: seconds {sec} are not a time"),
+            ));
+        }
+        if sec >= 60.0 && !(sec < 61.0 && h == 23 && mi == 59 && has_leap_second(y, mo, d)) {
+            return Err(RungError::invalid(
+                "time",
+                format!(
+                    "{y:04}-{mo:02}-{d:02} {h:02}:{mi:02}:{sec:06.3} does not exist: second 60 occurs only at 23:59 of a day that ends with a leap second (such as 2016-12-31)"
+                ),
+            ));
+        }
         let (a, b) =
             ts::dtf2d("UTC", y, mo as i32, d as i32, h as i32, mi as i32, sec).map_err(|_| {
                 RungError::invalid(
