@@ -203,29 +203,29 @@ fn loc(file: &Path, line: usize, field: &str) -> Location {
     }
 }
 
-fn num(
-    fields: &[(String, String)],
-    key: &str,
-) -> std::result::Result<Option<f64>, (String, String)> {
-    match fields.iter().find(|(k, _)| k == key) {
-        None => Ok(None),
-        Some((_, v)) if v.trim().is_empty() => Ok(None),
-        Some((_, v)) => match v.trim().parse::<f64>() {
+/// The values of one row by known field (index into [`KNOWN`]); the first
+/// occurrence of a repeated field wins.
+type Slots<'a> = [Option<&'a str>; KNOWN.len()];
+
+fn slot_of(key: &str) -> Option<usize> {
+    KNOWN.iter().position(|k| *k == key)
+}
+
+fn num(s: &Slots, i: usize) -> std::result::Result<Option<f64>, (String, String)> {
+    match s[i].map(str::trim) {
+        None | Some("") => Ok(None),
+        Some(v) => match v.parse::<f64>() {
             Ok(x) if x.is_finite() => Ok(Some(x)),
             _ => Err((
-                key.to_string(),
+                KNOWN[i].to_string(),
                 format!("'{}' is not a finite number", cut(v)),
             )),
         },
     }
 }
 
-fn text<'a>(fields: &'a [(String, String)], key: &str) -> Option<&'a str> {
-    fields
-        .iter()
-        .find(|(k, _)| k == key)
-        .map(|(_, v)| v.trim())
-        .filter(|v| !v.is_empty())
+fn text<'a>(s: &Slots<'a>, i: usize) -> Option<&'a str> {
+    s[i].map(str::trim).filter(|v| !v.is_empty())
 }
 
 fn cut(s: &str) -> String {
@@ -264,55 +264,98 @@ const KNOWN: [&str; 24] = [
     "id",
 ];
 
+// Positions in KNOWN of the fields read by name.
+const F_NAME: usize = 0;
+const F_RA: usize = 1;
+const F_DEC: usize = 2;
+const F_KIND: usize = 3;
+const F_PARALLAX_MAS: usize = 4;
+const F_PM_RA_MASYR: usize = 5;
+const F_PM_DEC_MASYR: usize = 6;
+const F_EPOCH_YR: usize = 7;
+const F_MAG: usize = 8;
+const F_BAND: usize = 9;
+const F_PERIOD_D: usize = 10;
+const F_EPOCH_MAX_BJD: usize = 11;
+const F_PERIOD_ERR_D: usize = 12;
+const F_AMPLITUDE_MAG: usize = 13;
+const F_MEAN_MAG: usize = 14;
+const F_DISCOVERED: usize = 15;
+const F_PEAK_MAG: usize = 16;
+const F_MAG_NOW: usize = 17;
+const F_REDSHIFT: usize = 18;
+const F_EXTINCTION_MAG: usize = 19;
+const F_GOAL_PCT: usize = 20;
+const F_PRIORITY: usize = 21;
+const F_NOTES: usize = 22;
+
 /// Build a target from (field, value) pairs; the error names the field.
 pub fn target_from_fields(
     fields: &[(String, String)],
 ) -> std::result::Result<Target, (String, String)> {
     for (k, v) in fields {
-        if v.len() > MAX_FIELD_BYTES {
-            return Err((
-                k.clone(),
-                format!(
-                    "{} bytes is longer than the {MAX_FIELD_BYTES}-byte limit",
-                    v.len()
-                ),
-            ));
+        check_len(k, v)?;
+    }
+    let mut slots: Slots = [None; KNOWN.len()];
+    for (k, v) in fields {
+        if let Some(i) = slot_of(k) {
+            slots[i].get_or_insert(v.as_str());
         }
     }
-    let name =
-        text(fields, "name").ok_or(("name".to_string(), "is missing or empty".to_string()))?;
-    let ra_t = text(fields, "ra").ok_or(("ra".to_string(), "is missing".to_string()))?;
-    let dec_t = text(fields, "dec").ok_or(("dec".to_string(), "is missing".to_string()))?;
+    target_from_slots(&slots)
+}
+
+fn check_len(key: &str, v: &str) -> std::result::Result<(), (String, String)> {
+    if v.len() > MAX_FIELD_BYTES {
+        return Err((
+            key.to_string(),
+            format!(
+                "{} bytes is longer than the {MAX_FIELD_BYTES}-byte limit",
+                v.len()
+            ),
+        ));
+    }
+    Ok(())
+}
+
+fn target_from_slots(slots: &Slots) -> std::result::Result<Target, (String, String)> {
+    let fields = slots;
+    let name = text(fields, F_NAME)
+        .ok_or_else(|| ("name".to_string(), "is missing or empty".to_string()))?;
+    let ra_t = text(fields, F_RA).ok_or_else(|| ("ra".to_string(), "is missing".to_string()))?;
+    let dec_t = text(fields, F_DEC).ok_or_else(|| ("dec".to_string(), "is missing".to_string()))?;
     let ra = parse_ra_deg(ra_t).map_err(|e| ("ra".to_string(), e.to_string()))?;
     let dec = parse_dec_deg(dec_t).map_err(|e| ("dec".to_string(), e.to_string()))?;
-    let kind_t = text(fields, "kind").unwrap_or("plain");
-    let kind = Kind::parse(kind_t).ok_or((
-        "kind".to_string(),
-        format!(
-            "'{}' is not one of parallax, pulsator, transient, plain",
-            cut(kind_t)
-        ),
-    ))?;
+    let kind_t = text(fields, F_KIND).unwrap_or("plain");
+    let kind = Kind::parse(kind_t).ok_or_else(|| {
+        (
+            "kind".to_string(),
+            format!(
+                "'{}' is not one of parallax, pulsator, transient, plain",
+                cut(kind_t)
+            ),
+        )
+    })?;
     let mut t = Target::plain(name, ra, dec);
     t.kind = kind;
-    t.parallax_mas = num(fields, "parallax_mas")?;
-    t.pm_ra_masyr = num(fields, "pm_ra_masyr")?.unwrap_or(0.0);
-    t.pm_dec_masyr = num(fields, "pm_dec_masyr")?.unwrap_or(0.0);
-    t.epoch_yr = num(fields, "epoch_yr")?.unwrap_or(2000.0);
-    t.mag = num(fields, "mag")?;
-    t.period_d = num(fields, "period_d")?;
-    t.epoch_max_bjd = num(fields, "epoch_max_bjd")?;
-    t.period_err_d = num(fields, "period_err_d")?;
-    t.amplitude_mag = num(fields, "amplitude_mag")?;
-    t.mean_mag = num(fields, "mean_mag")?;
-    t.peak_mag = num(fields, "peak_mag")?;
-    t.mag_now = num(fields, "mag_now")?;
-    t.redshift = num(fields, "redshift")?;
-    t.extinction_mag = num(fields, "extinction_mag")?.unwrap_or(0.0);
-    t.goal_pct = num(fields, "goal_pct")?;
-    t.priority = num(fields, "priority")?.unwrap_or(1.0);
-    t.notes = text(fields, "notes").unwrap_or("").to_string();
-    if let Some(b) = text(fields, "band") {
+    t.parallax_mas = num(fields, F_PARALLAX_MAS)?;
+    t.pm_ra_masyr = num(fields, F_PM_RA_MASYR)?.unwrap_or(0.0);
+    t.pm_dec_masyr = num(fields, F_PM_DEC_MASYR)?.unwrap_or(0.0);
+    t.epoch_yr = num(fields, F_EPOCH_YR)?.unwrap_or(2000.0);
+    t.mag = num(fields, F_MAG)?;
+    t.period_d = num(fields, F_PERIOD_D)?;
+    t.epoch_max_bjd = num(fields, F_EPOCH_MAX_BJD)?;
+    t.period_err_d = num(fields, F_PERIOD_ERR_D)?;
+    t.amplitude_mag = num(fields, F_AMPLITUDE_MAG)?;
+    t.mean_mag = num(fields, F_MEAN_MAG)?;
+    t.peak_mag = num(fields, F_PEAK_MAG)?;
+    t.mag_now = num(fields, F_MAG_NOW)?;
+    t.redshift = num(fields, F_REDSHIFT)?;
+    t.extinction_mag = num(fields, F_EXTINCTION_MAG)?.unwrap_or(0.0);
+    t.goal_pct = num(fields, F_GOAL_PCT)?;
+    t.priority = num(fields, F_PRIORITY)?.unwrap_or(1.0);
+    t.notes = text(fields, F_NOTES).unwrap_or("").to_string();
+    if let Some(b) = text(fields, F_BAND) {
         let up = b.to_ascii_uppercase();
         if !BANDS.contains(&up.as_str()) {
             return Err((
@@ -322,7 +365,7 @@ pub fn target_from_fields(
         }
         t.band = up;
     }
-    if let Some(d) = text(fields, "discovered") {
+    if let Some(d) = text(fields, F_DISCOVERED) {
         t.discovered =
             Some(parse_instant(d).map_err(|e| ("discovered".to_string(), e.to_string()))?);
     }
@@ -585,6 +628,7 @@ pub fn stream_csv_reader<R: std::io::Read>(
             return;
         }
     }
+    let col_slot: Vec<Option<usize>> = headers.iter().map(|h| slot_of(h)).collect();
     let mut seen = Seen::new();
     let mut rec = csv::StringRecord::new();
     let mut last_progress = 0u64;
@@ -630,12 +674,20 @@ pub fn stream_csv_reader<R: std::io::Read>(
                         ),
                     });
                 } else {
-                    let fields: Vec<(String, String)> = headers
-                        .iter()
-                        .cloned()
-                        .zip(rec.iter().map(|s| s.to_string()))
-                        .collect();
-                    push_target(&mut seen, fields, file, line, on_target, on_problem);
+                    // Straight into the slots, no copy of the row.
+                    let mut slots: Slots = [None; KNOWN.len()];
+                    let mut r = Ok(());
+                    for (j, v) in rec.iter().enumerate() {
+                        r = check_len(&headers[j], v);
+                        if r.is_err() {
+                            break;
+                        }
+                        if let Some(i) = col_slot[j] {
+                            slots[i].get_or_insert(v);
+                        }
+                    }
+                    let t = r.and_then(|_| target_from_slots(&slots));
+                    push_target(&mut seen, t, file, line, on_target, on_problem);
                 }
             }
             Err(e) => {
@@ -715,13 +767,13 @@ pub fn parse_csv(text: &str, file: &Path) -> Loaded {
 
 fn push_target(
     seen: &mut Seen,
-    fields: Vec<(String, String)>,
+    target: std::result::Result<Target, (String, String)>,
     file: &Path,
     line: usize,
     on_target: &mut dyn FnMut(Target),
     on_problem: &mut dyn FnMut(RungError),
 ) {
-    match target_from_fields(&fields) {
+    match target {
         Ok(t) => {
             if seen.contains(t.name.as_str()) {
                 on_problem(RungError::InFile {
@@ -807,7 +859,7 @@ pub fn parse_toml(text: &str, file: &Path) -> Loaded {
         }
         push_target(
             &mut seen,
-            fields,
+            target_from_fields(&fields),
             file,
             line,
             &mut |t| targets.push(t),
