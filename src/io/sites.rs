@@ -96,7 +96,16 @@ pub fn parse_sites(text: &str, file: &Path) -> Result<Vec<Site>> {
             sun_avoid_deg: r.sun_avoid_deg.unwrap_or(DEFAULT_SUN_AVOID_DEG),
         };
         let site = site.validated().map_err(|e| match e {
-            RungError::Invalid { what, why } => at(&what, why),
+            // Name the key as it is written in the file.
+            RungError::Invalid { what, why } => at(
+                match what.as_str() {
+                    "latitude" => "lat_deg",
+                    "longitude" => "lon_deg",
+                    "elevation" => "elev_m",
+                    w => w,
+                },
+                why,
+            ),
             other => other,
         })?;
         out.push(site);
@@ -317,7 +326,7 @@ mod tests {
         let t = "[[site]]\nname = \"a\"\nlat_deg = 10\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n\n[[site]]\nname = \"b\"\nlat_deg = 95\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n";
         let e = parse_sites(t, Path::new("s.toml")).unwrap_err().to_string();
         assert!(
-            e.contains("s.toml") && e.contains("line 8") && e.contains("latitude"),
+            e.contains("s.toml") && e.contains("line 8") && e.contains("field 'lat_deg'"),
             "{e}"
         );
     }

@@ -695,9 +695,16 @@ pub fn stream_csv_reader<R: std::io::Read>(
                     .position()
                     .map(|p| p.line() as usize)
                     .unwrap_or(line_before);
+                let msg = match e.kind() {
+                    csv::ErrorKind::Utf8 { err, .. } => format!(
+                        "field {} is not UTF-8 text (save the file as UTF-8); row skipped",
+                        err.field() + 1
+                    ),
+                    _ => format!("unreadable row: {e}"),
+                };
                 on_problem(RungError::InFile {
                     loc: loc(file, line, ""),
-                    msg: format!("unreadable row: {}", cut(&e.to_string())),
+                    msg,
                 });
                 if matches!(e.kind(), csv::ErrorKind::Io(_)) {
                     break;
