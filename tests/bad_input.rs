@@ -273,3 +273,22 @@ fn files() {
         format!("{}: No such file or directory (os error 2)", m.display()),
     );
 }
+
+#[test]
+fn toml_errors_point_at_the_right_table() {
+    // A header written `[[ target ]]` used to be missed, so the errors of the
+    // tables after it named the line of the next table (or "line 0").
+    let t = "[[ target ]]\nname = \"A\"\nra = 1\ndec = 100\n\n[[target]] # second\nname = \"B\"\nra = 1\ndec = 2\n\n[[target]]\nname = \"C\"\nra = 1\ndec = 200\n";
+    let (p, n) = toml(t);
+    assert_eq!(n, 1);
+    assert!(p[0].starts_with("t.toml, line 1, field 'dec'"), "{}", p[0]);
+    assert!(p[1].starts_with("t.toml, line 11, field 'dec'"), "{}", p[1]);
+    // Tables written inline have no header line: the line is left out, not invented.
+    let (p, _) = toml("target = [{ name = \"A\", ra = 1, dec = 100 }]\n");
+    assert!(p[0].starts_with("t.toml, field 'dec'"), "{}", p[0]);
+    let e = err(parse_sites(
+        "[[ site ]]\nname = \"a\"\nlat_deg = 95\nlon_deg = 1\nelev_m = 0\ntimezone = \"UTC\"\n",
+        Path::new("s.toml"),
+    ));
+    assert!(e.starts_with("s.toml, line 1, field 'lat_deg'"), "{e}");
+}

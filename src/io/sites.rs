@@ -55,18 +55,13 @@ pub fn parse_sites(text: &str, file: &Path) -> Result<Vec<Site>> {
         },
         msg: e.message().to_string(),
     })?;
-    let header_lines: Vec<usize> = text
-        .lines()
-        .enumerate()
-        .filter(|(_, l)| l.trim_start().starts_with("[[site]]"))
-        .map(|(i, _)| i + 1)
-        .collect();
+    let header_lines = crate::io::targets::array_table_lines(text, "site", f.site.len());
     let mut out = Vec::new();
     for (i, r) in f.site.into_iter().enumerate() {
         let at = |field: &str, msg: String| RungError::InFile {
             loc: Location {
                 file: Some(file.to_path_buf()),
-                line: header_lines.get(i).copied(),
+                line: header_lines.get(i).copied().filter(|l| *l > 0),
                 field: Some(field.to_string()),
             },
             msg,

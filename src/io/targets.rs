@@ -191,10 +191,11 @@ pub struct Loaded {
     pub problems: Vec<RungError>,
 }
 
+/// `line` 0 means "not known" and is left out of the message.
 fn loc(file: &Path, line: usize, field: &str) -> Location {
     Location {
         file: Some(file.to_path_buf()),
-        line: Some(line),
+        line: (line > 0).then_some(line),
         field: if field.is_empty() {
             None
         } else {
@@ -816,13 +817,6 @@ pub fn parse_toml(text: &str, file: &Path) -> Loaded {
             return out;
         }
     };
-    // Lines of the [[target]] headers, to place errors.
-    let header_lines: Vec<usize> = text
-        .lines()
-        .enumerate()
-        .filter(|(_, l)| l.trim_start().starts_with("[[target]]"))
-        .map(|(i, _)| i + 1)
-        .collect();
     let Some(list) = doc.get("target").and_then(|v| v.as_array()) else {
         out.problems.push(RungError::InFile {
             loc: loc(file, 1, "target"),
@@ -830,6 +824,8 @@ pub fn parse_toml(text: &str, file: &Path) -> Loaded {
         });
         return out;
     };
+    // Lines of the [[target]] headers, to place errors.
+    let header_lines = array_table_lines(text, "target", list.len());
     let mut seen = Seen::new();
     let Loaded { targets, problems } = &mut out;
     for (i, item) in list.iter().enumerate() {
@@ -874,6 +870,35 @@ pub fn parse_toml(text: &str, file: &Path) -> Loaded {
         );
     }
     out
+}
+
+/// The 1-based lines of the `[[name]]` headers of a TOML text, one per
+/// table of the array (spaces inside the brackets, quoted names and trailing
+/// comments allowed). When they cannot be matched one to one with the
+/// `count` tables (tables written inline, or a header-like line inside a
+/// multi-line string), all are 0, "line not known", rather than wrong.
+pub(crate) fn array_table_lines(text: &str, name: &str, count: usize) -> Vec<usize> {
+    let lines: Vec<usize> = text
+        .lines()
+        .enumerate()
+        .filter(|(_, l)| {
+            let t = l.trim();
+            t.strip_prefix("[[")
+                .and_then(|r| r.split_once("]]"))
+                .is_some_and(|(inner, rest)| {
+                    let inner = inner.trim();
+                    let rest = rest.trim_start();
+                    (inner == name || inner.trim_matches(['"', '\'']) == name)
+                        && (rest.is_empty() || rest.starts_with('#'))
+                })
+        })
+        .map(|(i, _)| i + 1)
+        .collect();
+    if lines.len() == count {
+        lines
+    } else {
+        vec![0; count]
+    }
 }
 
 /// Unknown column names in a CSV header (reported as warnings by the command line).
