@@ -292,3 +292,13 @@ fn toml_errors_point_at_the_right_table() {
     ));
     assert!(e.starts_with("s.toml, line 1, field 'lat_deg'"), "{e}");
 }
+
+#[test]
+fn header_problems_name_the_header_line() {
+    // Comment lines before the header (as in the demo programme) count.
+    let (p, _) = csv("# my programme\n# second comment\nname,ra\nA,1\n");
+    assert_eq!(
+        p[0],
+        "t.csv, line 3, field 'dec': the header has no 'dec' column (required: name, ra, dec)"
+    );
+}

@@ -603,15 +603,16 @@ pub fn stream_csv_reader<R: std::io::Read>(
         .trim(csv::Trim::All)
         .comment(Some(b'#'))
         .from_reader(capped);
-    let headers: Vec<String> = match rdr.headers() {
+    // The header's own line (comment lines may come before it).
+    let (headers, hline): (Vec<String>, usize) = match rdr.headers() {
         Ok(h) if h.iter().any(|f| f.contains(OVERLONG_MARK)) => {
             on_problem(RungError::InFile {
-                loc: loc(file, 1, ""),
+                loc: loc(file, h.position().map_or(1, |p| p.line() as usize), ""),
                 msg: format!("the header line is longer than {MAX_LINE_BYTES} bytes"),
             });
             return;
         }
-        Ok(h) => h.iter().map(|s| s.trim().to_ascii_lowercase()).collect(),
+        Ok(h) => (h.iter().map(|s| s.trim().to_ascii_lowercase()).collect(), 0),
         Err(e) => {
             on_problem(RungError::InFile {
                 loc: loc(file, 1, ""),
@@ -620,10 +621,16 @@ pub fn stream_csv_reader<R: std::io::Read>(
             return;
         }
     };
+    // After the header the reader stands at the start of the next line.
+    let hline = if hline == 0 {
+        (rdr.position().line() as usize).saturating_sub(1).max(1)
+    } else {
+        hline
+    };
     for need in ["name", "ra", "dec"] {
         if !headers.iter().any(|h| h == need) {
             on_problem(RungError::InFile {
-                loc: loc(file, 1, need),
+                loc: loc(file, hline, need),
                 msg: format!("the header has no '{need}' column (required: name, ra, dec)"),
             });
             return;
