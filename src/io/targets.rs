@@ -494,48 +494,61 @@ struct LineCap<R: std::io::BufRead> {
     /// Whether the lines so far leave the reader inside a quoted field
     /// (parity of the quote characters seen).
     quoted: bool,
+    /// How many [`OVERLONG_MARK`]s have been put in the stream.
+    marks: std::rc::Rc<std::cell::Cell<u64>>,
 }
 
 impl<R: std::io::BufRead> LineCap<R> {
     fn refill(&mut self) -> std::io::Result<()> {
+        use std::io::{BufRead as _, Read as _};
         self.pending.clear();
         self.pos = 0;
-        let mut overlong = false;
-        let mut quotes_in_line = 0usize;
-        let mut first = true;
-        let mut comment = false;
-        loop {
-            let buf = self.inner.fill_buf()?;
-            if buf.is_empty() {
-                self.done = true;
-                break;
+        // Fast path: one line of at most MAX_LINE_BYTES (+ its newline),
+        // found with the standard library's memchr.
+        let limit = MAX_LINE_BYTES + 1;
+        let n = (&mut self.inner)
+            .take(limit as u64)
+            .read_until(b'\n', &mut self.pending)?;
+        self.read.set(self.read.get() + n as u64);
+        if n == 0 {
+            self.done = true;
+            return Ok(());
+        }
+        let comment = self.pending[0] == b'#';
+        let count_quotes = |b: &[u8]| {
+            if b.contains(&b'"') {
+                b.iter().filter(|c| **c == b'"').count()
+            } else {
+                0
             }
-            let (take, newline) = match buf.iter().position(|b| *b == b'\n') {
-                Some(i) => (i + 1, true),
-                None => (buf.len(), false),
-            };
-            if first {
-                comment = buf[0] == b'#';
-                first = false;
-            }
-            let q = buf[..take].iter().filter(|b| **b == b'"').count();
-            quotes_in_line += q;
-            if !overlong {
-                if self.pending.len() + take > MAX_LINE_BYTES + 1 {
-                    overlong = true;
-                    self.pending.clear();
-                } else {
-                    self.pending.extend_from_slice(&buf[..take]);
+        };
+        let mut quotes_in_line = count_quotes(&self.pending);
+        let overlong = n == limit && self.pending.last() != Some(&b'\n');
+        if overlong {
+            // Skip the rest of the line without storing it, counting its quotes.
+            self.pending.clear();
+            loop {
+                let buf = self.inner.fill_buf()?;
+                if buf.is_empty() {
+                    self.done = true;
+                    break;
+                }
+                let (take, newline) = match buf.iter().position(|b| *b == b'\n') {
+                    Some(i) => (i + 1, true),
+                    None => (buf.len(), false),
+                };
+                quotes_in_line += count_quotes(&buf[..take]);
+                self.inner.consume(take);
+                self.read.set(self.read.get() + take as u64);
+                if newline {
+                    break;
                 }
             }
-            self.inner.consume(take);
-            self.read.set(self.read.get() + take as u64);
-            if newline {
-                break;
-            }
+            self.marks.set(self.marks.get() + 1);
         }
         if overlong && comment && !self.quoted {
             // An over-long comment line is still a comment.
+            self.marks.set(self.marks.get() - 1);
             self.pending.extend_from_slice(b"#\n");
         } else if overlong {
             // Keep the quoting state the CSV reader would have had after the
@@ -590,6 +603,8 @@ pub fn stream_csv_reader<R: std::io::Read>(
     on_progress: &mut dyn FnMut(u64, u64),
 ) {
     let read = std::rc::Rc::new(std::cell::Cell::new(0u64));
+    let marks = std::rc::Rc::new(std::cell::Cell::new(0u64));
+    let mut marks_found = 0u64;
     let capped = LineCap {
         inner: std::io::BufReader::with_capacity(64 * 1024, reader),
         pending: Vec::new(),
@@ -597,6 +612,7 @@ pub fn stream_csv_reader<R: std::io::Read>(
         read: read.clone(),
         done: false,
         quoted: false,
+        marks: marks.clone(),
     };
     let mut rdr = csv::ReaderBuilder::new()
         .flexible(true)
@@ -649,7 +665,18 @@ pub fn stream_csv_reader<R: std::io::Read>(
                     .position()
                     .map(|p| p.line() as usize)
                     .unwrap_or(line_before);
-                if let Some(i) = rec.iter().position(|f| f.contains(OVERLONG_MARK)) {
+                // Look for the mark only while one is in the stream unread
+                // (the reader runs ahead, so it may be in a later record).
+                let mark_at = if marks.get() > marks_found {
+                    rec.iter().position(|f| f.contains(OVERLONG_MARK))
+                } else {
+                    None
+                };
+                if let Some(i) = mark_at {
+                    marks_found += rec
+                        .iter()
+                        .map(|f| f.matches(OVERLONG_MARK).count() as u64)
+                        .sum::<u64>();
                     // The mark sits on the over-long physical line itself.
                     let extra = rec
                         .iter()
