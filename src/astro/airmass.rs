@@ -3,8 +3,10 @@
 /// Kasten & Young (1989), Applied Optics 28, 4735: relative optical airmass from
 /// the apparent (refracted) altitude `alt_deg` in degrees,
 /// X = 1 / [sin h + 0.50572 (h + 6.07995°)^−1.6364]. Valid to the horizon
-/// (X ≈ 38 at h = 0); `None` below it. The fit gives 0.9997 at the zenith;
-/// the result is clamped to 1, the airmass of the zenith by definition.
+/// (X ≈ 38 at h = 0); `None` below it. The fit dips below 1 within 1.4° of the
+/// zenith (0.9997 at h = 90°); relative airmass is 1 at the zenith by
+/// definition, so the result is never less than 1 and never falls as the
+/// altitude falls.
 pub fn kasten_young(alt_deg: f64) -> Option<f64> {
     if !alt_deg.is_finite() || !(0.0..=90.0).contains(&alt_deg) {
         return None;

@@ -122,6 +122,9 @@ fn site_refraction(site: &Site) -> (f64, f64, f64, f64) {
 impl Context {
     /// Full SOFA chain at this instant (`apco13`, DUT1 = 0, no polar motion).
     pub fn exact(site: &Site, t: Instant) -> Result<Self> {
+        // SOFA apco13 unwraps epv00, which has no answer outside 1900-2100: never
+        // let an out-of-span instant reach it.
+        t.check_span()?;
         let (phpa, tc, rh, wl) = site_refraction(site);
         let mut astrom = IauAstrom::default();
         let mut eo = 0.0;
@@ -370,6 +373,7 @@ pub struct NightFrame {
 }
 
 fn slow_quantities(t: Instant) -> Result<[f64; 16]> {
+    t.check_span()?;
     let (t1, t2) = t.tt();
     let r = sofars::pnp::pnm06a(t1, t2);
     let (x, y) = sofars::pnp::bpn2xy(&r);

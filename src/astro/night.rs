@@ -5,7 +5,7 @@ use crate::astro::airmass::kasten_young;
 use crate::astro::events::{Crossing, crossings_on_grid, grid, positive_intervals};
 use crate::astro::frames::{CatalogPlace, Context, NightFrame, Observed};
 use crate::astro::site::Site;
-use crate::astro::time::Instant;
+use crate::astro::time::{Instant, VALID_FROM_JD, VALID_TO_JD};
 use crate::error::{Result, RungError};
 use chrono::{NaiveDate, NaiveTime, TimeZone};
 use serde::Serialize;
@@ -128,7 +128,14 @@ impl Night {
         let next = date
             .succ_opt()
             .ok_or_else(|| RungError::invalid("date", "no next day"))?;
-        let end = local_noon(site, next)?;
+        let end = local_noon(site, next).map_err(|e| match e {
+            RungError::OutOfSpan { from, to, .. } => RungError::OutOfSpan {
+                when: format!("the night of {date} (it ends at local noon of {next})"),
+                from,
+                to,
+            },
+            other => other,
+        })?;
         Self::spanning(site, date, start, end)
     }
 
@@ -160,7 +167,21 @@ impl Night {
 
     /// A night over an explicit span (used by tests and by the season engine).
     pub fn spanning(site: &Site, date: NaiveDate, start: Instant, end: Instant) -> Result<Self> {
-        let frame = NightFrame::new(site, start.add_seconds(-1800.0), end.add_seconds(1800.0))?;
+        start.check_span()?;
+        end.check_span()?;
+        // The frame reaches half an hour past each end for the bisections, but
+        // never outside rung's valid span (it extrapolates smoothly there).
+        let lo = Instant::from_jd_utc(VALID_FROM_JD)?;
+        let hi = Instant::from_jd_utc(VALID_TO_JD - 1e-6)?;
+        let mut f0 = start.add_seconds(-1800.0);
+        if f0 < lo {
+            f0 = lo;
+        }
+        let mut f1 = end.add_seconds(1800.0);
+        if f1 > hi {
+            f1 = hi;
+        }
+        let frame = NightFrame::new(site, f0, f1)?;
         let times = grid(start, end, GRID_STEP_S);
         let contexts: Vec<Context> = times.iter().map(|t| frame.context(*t)).collect();
         let sun: Vec<Observed> = contexts.iter().map(|c| c.sun()).collect();

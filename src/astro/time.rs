@@ -16,8 +16,10 @@ use sofars::ts;
 pub const VALID_FROM: &str = "1960-01-01";
 /// Last day of the valid span (SOFA `epv00` is fitted to 1900–2100).
 pub const VALID_TO: &str = "2099-12-31";
-const VALID_FROM_JD: f64 = 2436934.5; // 1960-01-01 0h
-const VALID_TO_JD: f64 = 2488069.5; // 2100-01-01 0h
+/// UTC Julian date of [`VALID_FROM`] at 0h: the first instant rung accepts.
+pub const VALID_FROM_JD: f64 = 2436934.5; // 1960-01-01 0h
+/// UTC Julian date of the day after [`VALID_TO`] at 0h: the first instant rung refuses.
+pub const VALID_TO_JD: f64 = 2488069.5; // 2100-01-01 0h
 
 /// Seconds per day.
 pub const DAY_S: f64 = 86_400.0;
@@ -37,7 +39,7 @@ pub struct Instant {
 }
 
 fn check_span(jd: f64, text: impl FnOnce() -> String) -> Result<()> {
-    if !(VALID_FROM_JD..VALID_TO_JD).contains(&jd) || !jd.is_finite() {
+    if !jd.is_finite() || !(VALID_FROM_JD..VALID_TO_JD).contains(&jd) {
         return Err(RungError::OutOfSpan {
             when: text(),
             from: VALID_FROM,
@@ -47,10 +49,66 @@ fn check_span(jd: f64, text: impl FnOnce() -> String) -> Result<()> {
     Ok(())
 }
 
+/// Whether the UTC day ends with a positive leap second (TAI − UTC grows by
+/// one second at the following midnight, SOFA `dat`).
+pub fn has_leap_second(y: i32, mo: u32, d: u32) -> bool {
+    let Some(next) = NaiveDate::from_ymd_opt(y, mo, d).and_then(|x| x.succ_opt()) else {
+        return false;
+    };
+    match (
+        ts::dat(y, mo as i32, d as i32, 0.0),
+        ts::dat(next.year(), next.month() as i32, next.day() as i32, 0.0),
+    ) {
+        (Ok(a), Ok(b)) => y >= 1972 && (b - a - 1.0).abs() < 1e-9,
+        _ => false,
+    }
+}
+
+/// Refuse a (UTC or BJD-like) Julian date outside rung's valid span
+/// [`VALID_FROM`]..=[`VALID_TO`] with [`RungError::OutOfSpan`]; `what` names it
+/// in the message (e.g. "epoch_max_bjd 2400000.5").
+pub fn check_jd_in_span(jd: f64, what: &str) -> Result<()> {
+    check_span(jd, || what.to_string())
+}
+
 impl Instant {
+    /// Refuse this instant when it lies outside rung's valid span. Every entry
+    /// point that hands an instant to SOFA's ephemerides calls this, because
+    /// SOFA `epv00` has no answer outside 1900–2100 and `apco13` would panic.
+    /// (The fields are public and [`Instant::add_seconds`] does not check, so
+    /// an out-of-span instant can exist; it is refused where it would be used.)
+    pub fn check_span(&self) -> Result<()> {
+        let jd = self.utc1 + self.utc2;
+        check_span(jd, || {
+            if jd.is_finite() && (2_000_000.0..3_000_000.0).contains(&jd) {
+                self.iso()
+            } else {
+                format!("JD {jd}")
+            }
+        })
+    }
+
     /// Build from a calendar date and UTC time of day (seconds may reach 60.x on a
     /// leap-second day). Checks rung's valid span.
     pub fn from_utc_calendar(y: i32, mo: u32, d: u32, h: u32, mi: u32, sec: f64) -> Result<Self> {
+        // SOFA dtf2d only warns (status +2) when the seconds run past the end of
+        // the minute and then counts them into the next one, so 23:59:60 on an
+        // ordinary day would silently become 00:00:00 of the next. Refuse it:
+        // second 60 exists only in the last minute of a leap-second day.
+        if !sec.is_finite() || sec < 0.0 {
+            return Err(RungError::invalid(
+                "time",
+                format!("{y:04}-{mo:02}-{d:02} {h:02}:{mi:02}: seconds {sec} are not a time"),
+            ));
+        }
+        if sec >= 60.0 && !(sec < 61.0 && h == 23 && mi == 59 && has_leap_second(y, mo, d)) {
+            return Err(RungError::invalid(
+                "time",
+                format!(
+                    "{y:04}-{mo:02}-{d:02} {h:02}:{mi:02}:{sec:06.3} does not exist: second 60 occurs only at 23:59 of a day that ends with a leap second (such as 2016-12-31)"
+                ),
+            ));
+        }
         let (a, b) =
             ts::dtf2d("UTC", y, mo as i32, d as i32, h as i32, mi as i32, sec).map_err(|_| {
                 RungError::invalid(
@@ -300,11 +358,12 @@ pub fn parse_date(text: &str) -> Result<NaiveDate> {
             "expected YYYY-MM-DD, a real calendar date such as 2026-12-01",
         )
     })?;
+    // The date itself must lie in the span; a night that runs past its end is
+    // refused by `Night::new`, which names the instant.
     let jd = sofars::cal::cal2jd(d.year(), d.month() as i32, d.day() as i32)
         .map(|(a, b)| a + b)
-        .unwrap_or(0.0);
+        .unwrap_or(f64::NAN);
     check_span(jd, || d.to_string())?;
-    check_span(jd + 1.0, || d.to_string())?;
     Ok(d)
 }
 

@@ -51,9 +51,37 @@ pub fn demo_dir() -> PathBuf {
 /// The demo site's catalogue name.
 pub const DEMO_SITE: &str = "pampa-lucero";
 
-/// Load targets, printing each refused row as a warning on stderr (the good rows load).
+/// Files smaller than this load without a progress bar.
+const PROGRESS_FROM_BYTES: u64 = 8 * 1024 * 1024;
+
+/// Load targets, printing each refused row as a warning on stderr (the good
+/// rows load). A large file shows a progress bar on stderr, only when stderr
+/// is a terminal (never in pipes, logs or `--json` captures).
 pub fn load_targets(path: &Path) -> Result<Vec<rung::io::targets::Target>> {
-    let l = rung::io::targets::load(path)?;
+    use std::io::IsTerminal;
+    let size = std::fs::metadata(path).map(|m| m.len()).unwrap_or(0);
+    let bar = (size >= PROGRESS_FROM_BYTES && std::io::stderr().is_terminal()).then(|| {
+        let b = indicatif::ProgressBar::with_draw_target(
+            Some(size),
+            indicatif::ProgressDrawTarget::stderr(),
+        );
+        if let Ok(style) = indicatif::ProgressStyle::with_template(
+            "reading targets {bar:30} {bytes}/{total_bytes} ({eta} left)",
+        ) {
+            b.set_style(style);
+        }
+        b
+    });
+    let l = rung::io::targets::load_with_progress(path, &mut |read, total| {
+        if let Some(b) = &bar {
+            b.set_length(total);
+            b.set_position(read);
+        }
+    });
+    if let Some(b) = &bar {
+        b.finish_and_clear();
+    }
+    let l = l?;
     for p in &l.problems {
         eprintln!("rung: warning: {p} (row skipped)");
         SKIPPED_INPUT.store(true, Ordering::Relaxed);

@@ -34,9 +34,18 @@ fn sexagesimal(text: &str) -> Option<(bool, f64, f64, f64)> {
 }
 
 fn is_sexagesimal(text: &str) -> bool {
-    text.contains(':')
-        || text.trim().contains(' ')
-        || text.contains(['h', 'd', 'm', '°', '\'', '′'])
+    // One pass over the bytes (this runs for every row of a targets file);
+    // the two non-ASCII markers, ° and ′, are looked for only when present.
+    let t = text.trim();
+    let mut wide = false;
+    for b in t.bytes() {
+        match b {
+            b':' | b' ' | b'h' | b'd' | b'm' | b'\'' => return true,
+            0x80.. => wide = true,
+            _ => {}
+        }
+    }
+    wide && t.contains(['°', '′'])
 }
 
 /// Right ascension: decimal degrees (`83.63`) or hours-minutes-seconds

@@ -3,6 +3,7 @@
 
 use crate::astro::site::{DEFAULT_SUN_AVOID_DEG, HorizonPoint, Site};
 use crate::error::{Location, Result, RungError};
+use crate::io::atomic::save_with_backup;
 use serde::Deserialize;
 use std::path::{Path, PathBuf};
 
@@ -54,18 +55,13 @@ pub fn parse_sites(text: &str, file: &Path) -> Result<Vec<Site>> {
         },
         msg: e.message().to_string(),
     })?;
-    let header_lines: Vec<usize> = text
-        .lines()
-        .enumerate()
-        .filter(|(_, l)| l.trim_start().starts_with("[[site]]"))
-        .map(|(i, _)| i + 1)
-        .collect();
+    let header_lines = crate::io::targets::array_table_lines(text, "site", f.site.len());
     let mut out = Vec::new();
     for (i, r) in f.site.into_iter().enumerate() {
         let at = |field: &str, msg: String| RungError::InFile {
             loc: Location {
                 file: Some(file.to_path_buf()),
-                line: header_lines.get(i).copied(),
+                line: header_lines.get(i).copied().filter(|l| *l > 0),
                 field: Some(field.to_string()),
             },
             msg,
@@ -95,7 +91,16 @@ pub fn parse_sites(text: &str, file: &Path) -> Result<Vec<Site>> {
             sun_avoid_deg: r.sun_avoid_deg.unwrap_or(DEFAULT_SUN_AVOID_DEG),
         };
         let site = site.validated().map_err(|e| match e {
-            RungError::Invalid { what, why } => at(&what, why),
+            // Name the key as it is written in the file.
+            RungError::Invalid { what, why } => at(
+                match what.as_str() {
+                    "latitude" => "lat_deg",
+                    "longitude" => "lon_deg",
+                    "elevation" => "elev_m",
+                    w => w,
+                },
+                why,
+            ),
             other => other,
         })?;
         out.push(site);
@@ -117,6 +122,109 @@ pub fn catalogue() -> Result<Vec<Site>> {
         }
     }
     Ok(all)
+}
+
+/// The user's own site catalogue, `sites.toml` in [`user_config_dir`].
+pub fn user_sites_path() -> Option<PathBuf> {
+    user_config_dir().map(|d| d.join("sites.toml"))
+}
+
+/// One `[[site]]` table in the catalogue's TOML layout.
+pub fn site_toml(site: &Site) -> String {
+    let q = |s: &str| toml::Value::String(s.to_string()).to_string();
+    let mut t = format!(
+        "[[site]]\nname = {}\nlat_deg = {:?}\nlon_deg = {:?}\nelev_m = {:?}\ntimezone = {}\n",
+        q(&site.name),
+        site.lat_deg,
+        site.lon_deg,
+        site.elev_m,
+        q(site.timezone.name())
+    );
+    if let Some(p) = site.pressure_hpa {
+        t.push_str(&format!("pressure_hpa = {p:?}\n"));
+    }
+    t.push_str(&format!(
+        "temperature_c = {:?}\nhumidity = {:?}\nsun_avoid_deg = {:?}\n",
+        site.temperature_c, site.humidity, site.sun_avoid_deg
+    ));
+    if !site.horizon.is_empty() {
+        let pts: Vec<String> = site
+            .horizon
+            .iter()
+            .map(|h| format!("[{:?}, {:?}]", h.az_deg, h.alt_deg))
+            .collect();
+        t.push_str(&format!("horizon = [{}]\n", pts.join(", ")));
+    }
+    t
+}
+
+/// Add `site` to the sites catalogue file at `path` (created when missing),
+/// keeping everything already written there (comments included) and the
+/// previous version in `path.bak` ([`save_with_backup`]).
+///
+/// A file that does not parse is never overwritten: the error names the file
+/// and the line where it is broken, and the file is left as it is for the
+/// user to mend. A name already in the file is refused too.
+pub fn add_site_to_file(path: &Path, site: &Site) -> Result<()> {
+    let old = match std::fs::read(path) {
+        Ok(b) => String::from_utf8(b).map_err(|e| RungError::InFile {
+            loc: Location {
+                file: Some(path.to_path_buf()),
+                line: Some(line_of_bytes(e.as_bytes(), e.utf8_error().valid_up_to())),
+                field: None,
+            },
+            msg: "is not UTF-8 text; left unchanged".into(),
+        })?,
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => String::new(),
+        Err(e) => return Err(RungError::io(path, e)),
+    };
+    let existing = parse_sites(&old, path).map_err(|e| match e {
+        RungError::InFile { loc, msg } => RungError::InFile {
+            loc,
+            msg: format!("{msg} (the file is left unchanged; mend it, then add the site again)"),
+        },
+        other => other,
+    })?;
+    if existing
+        .iter()
+        .any(|s| s.name.eq_ignore_ascii_case(&site.name))
+    {
+        return Err(RungError::invalid(
+            "site",
+            format!(
+                "{} already has a site named '{}'; edit that entry instead",
+                path.display(),
+                site.name
+            ),
+        ));
+    }
+    let mut text = old;
+    if !text.is_empty() && !text.ends_with('\n') {
+        text.push('\n');
+    }
+    if !text.is_empty() {
+        text.push('\n');
+    }
+    text.push_str(&site_toml(site));
+    // What is written must read back as the same catalogue plus this site.
+    let back = parse_sites(&text, path)?;
+    if back.len() != existing.len() + 1 {
+        return Err(RungError::invalid(
+            "site",
+            "the new catalogue text does not read back; nothing was written",
+        ));
+    }
+    if let Some(dir) = path.parent().filter(|d| !d.as_os_str().is_empty()) {
+        std::fs::create_dir_all(dir).map_err(|e| RungError::io(dir, e))?;
+    }
+    save_with_backup(path, text.as_bytes())
+}
+
+fn line_of_bytes(b: &[u8], upto: usize) -> usize {
+    1 + b[..upto.min(b.len())]
+        .iter()
+        .filter(|c| **c == b'\n')
+        .count()
 }
 
 /// A zone for an inline site without one: the whole-hour `Etc/GMT±N` zone nearest its longitude.
@@ -213,7 +321,7 @@ mod tests {
         let t = "[[site]]\nname = \"a\"\nlat_deg = 10\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n\n[[site]]\nname = \"b\"\nlat_deg = 95\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n";
         let e = parse_sites(t, Path::new("s.toml")).unwrap_err().to_string();
         assert!(
-            e.contains("s.toml") && e.contains("line 8") && e.contains("latitude"),
+            e.contains("s.toml") && e.contains("line 8") && e.contains("field 'lat_deg'"),
             "{e}"
         );
     }

@@ -6,11 +6,16 @@
 //! reported with its file, line and field, and the good rows still load.
 
 use crate::astro::frames::CatalogPlace;
-use crate::astro::time::{Instant, parse_instant};
+use crate::astro::time::{Instant, check_jd_in_span, parse_instant};
 use crate::error::{Location, Result, RungError};
 use crate::io::angles::{parse_dec_deg, parse_ra_deg};
 use serde::Serialize;
 use std::path::{Path, PathBuf};
+
+/// Earliest accepted catalogue epoch `epoch_yr` (Julian year, TT); rung's valid span starts 1960-01-01.
+pub const VALID_FROM_EPOCH_YR: f64 = 1960.0;
+/// Latest accepted catalogue epoch `epoch_yr` (Julian year, TT); rung's valid span ends with 2099.
+pub const VALID_TO_EPOCH_YR: f64 = 2100.0;
 
 /// Longest accepted field, bytes. Longer fields are rejected, not loaded.
 pub const MAX_FIELD_BYTES: usize = 4096;
@@ -188,10 +193,11 @@ pub struct Loaded {
     pub problems: Vec<RungError>,
 }
 
+/// `line` 0 means "not known" and is left out of the message.
 fn loc(file: &Path, line: usize, field: &str) -> Location {
     Location {
         file: Some(file.to_path_buf()),
-        line: Some(line),
+        line: (line > 0).then_some(line),
         field: if field.is_empty() {
             None
         } else {
@@ -200,29 +206,29 @@ fn loc(file: &Path, line: usize, field: &str) -> Location {
     }
 }
 
-fn num(
-    fields: &[(String, String)],
-    key: &str,
-) -> std::result::Result<Option<f64>, (String, String)> {
-    match fields.iter().find(|(k, _)| k == key) {
-        None => Ok(None),
-        Some((_, v)) if v.trim().is_empty() => Ok(None),
-        Some((_, v)) => match v.trim().parse::<f64>() {
+/// The values of one row by known field (index into [`KNOWN`]); the first
+/// occurrence of a repeated field wins.
+type Slots<'a> = [Option<&'a str>; KNOWN.len()];
+
+fn slot_of(key: &str) -> Option<usize> {
+    KNOWN.iter().position(|k| *k == key)
+}
+
+fn num(s: &Slots, i: usize) -> std::result::Result<Option<f64>, (String, String)> {
+    match s[i].map(str::trim) {
+        None | Some("") => Ok(None),
+        Some(v) => match v.parse::<f64>() {
             Ok(x) if x.is_finite() => Ok(Some(x)),
             _ => Err((
-                key.to_string(),
+                KNOWN[i].to_string(),
                 format!("'{}' is not a finite number", cut(v)),
             )),
         },
     }
 }
 
-fn text<'a>(fields: &'a [(String, String)], key: &str) -> Option<&'a str> {
-    fields
-        .iter()
-        .find(|(k, _)| k == key)
-        .map(|(_, v)| v.trim())
-        .filter(|v| !v.is_empty())
+fn text<'a>(s: &Slots<'a>, i: usize) -> Option<&'a str> {
+    s[i].map(str::trim).filter(|v| !v.is_empty())
 }
 
 fn cut(s: &str) -> String {
@@ -261,55 +267,98 @@ const KNOWN: [&str; 24] = [
     "id",
 ];
 
+// Positions in KNOWN of the fields read by name.
+const F_NAME: usize = 0;
+const F_RA: usize = 1;
+const F_DEC: usize = 2;
+const F_KIND: usize = 3;
+const F_PARALLAX_MAS: usize = 4;
+const F_PM_RA_MASYR: usize = 5;
+const F_PM_DEC_MASYR: usize = 6;
+const F_EPOCH_YR: usize = 7;
+const F_MAG: usize = 8;
+const F_BAND: usize = 9;
+const F_PERIOD_D: usize = 10;
+const F_EPOCH_MAX_BJD: usize = 11;
+const F_PERIOD_ERR_D: usize = 12;
+const F_AMPLITUDE_MAG: usize = 13;
+const F_MEAN_MAG: usize = 14;
+const F_DISCOVERED: usize = 15;
+const F_PEAK_MAG: usize = 16;
+const F_MAG_NOW: usize = 17;
+const F_REDSHIFT: usize = 18;
+const F_EXTINCTION_MAG: usize = 19;
+const F_GOAL_PCT: usize = 20;
+const F_PRIORITY: usize = 21;
+const F_NOTES: usize = 22;
+
 /// Build a target from (field, value) pairs; the error names the field.
 pub fn target_from_fields(
     fields: &[(String, String)],
 ) -> std::result::Result<Target, (String, String)> {
     for (k, v) in fields {
-        if v.len() > MAX_FIELD_BYTES {
-            return Err((
-                k.clone(),
-                format!(
-                    "{} bytes is longer than the {MAX_FIELD_BYTES}-byte limit",
-                    v.len()
-                ),
-            ));
+        check_len(k, v)?;
+    }
+    let mut slots: Slots = [None; KNOWN.len()];
+    for (k, v) in fields {
+        if let Some(i) = slot_of(k) {
+            slots[i].get_or_insert(v.as_str());
         }
     }
-    let name =
-        text(fields, "name").ok_or(("name".to_string(), "is missing or empty".to_string()))?;
-    let ra_t = text(fields, "ra").ok_or(("ra".to_string(), "is missing".to_string()))?;
-    let dec_t = text(fields, "dec").ok_or(("dec".to_string(), "is missing".to_string()))?;
+    target_from_slots(&slots)
+}
+
+fn check_len(key: &str, v: &str) -> std::result::Result<(), (String, String)> {
+    if v.len() > MAX_FIELD_BYTES {
+        return Err((
+            key.to_string(),
+            format!(
+                "{} bytes is longer than the {MAX_FIELD_BYTES}-byte limit",
+                v.len()
+            ),
+        ));
+    }
+    Ok(())
+}
+
+fn target_from_slots(slots: &Slots) -> std::result::Result<Target, (String, String)> {
+    let fields = slots;
+    let name = text(fields, F_NAME)
+        .ok_or_else(|| ("name".to_string(), "is missing or empty".to_string()))?;
+    let ra_t = text(fields, F_RA).ok_or_else(|| ("ra".to_string(), "is missing".to_string()))?;
+    let dec_t = text(fields, F_DEC).ok_or_else(|| ("dec".to_string(), "is missing".to_string()))?;
     let ra = parse_ra_deg(ra_t).map_err(|e| ("ra".to_string(), e.to_string()))?;
     let dec = parse_dec_deg(dec_t).map_err(|e| ("dec".to_string(), e.to_string()))?;
-    let kind_t = text(fields, "kind").unwrap_or("plain");
-    let kind = Kind::parse(kind_t).ok_or((
-        "kind".to_string(),
-        format!(
-            "'{}' is not one of parallax, pulsator, transient, plain",
-            cut(kind_t)
-        ),
-    ))?;
+    let kind_t = text(fields, F_KIND).unwrap_or("plain");
+    let kind = Kind::parse(kind_t).ok_or_else(|| {
+        (
+            "kind".to_string(),
+            format!(
+                "'{}' is not one of parallax, pulsator, transient, plain",
+                cut(kind_t)
+            ),
+        )
+    })?;
     let mut t = Target::plain(name, ra, dec);
     t.kind = kind;
-    t.parallax_mas = num(fields, "parallax_mas")?;
-    t.pm_ra_masyr = num(fields, "pm_ra_masyr")?.unwrap_or(0.0);
-    t.pm_dec_masyr = num(fields, "pm_dec_masyr")?.unwrap_or(0.0);
-    t.epoch_yr = num(fields, "epoch_yr")?.unwrap_or(2000.0);
-    t.mag = num(fields, "mag")?;
-    t.period_d = num(fields, "period_d")?;
-    t.epoch_max_bjd = num(fields, "epoch_max_bjd")?;
-    t.period_err_d = num(fields, "period_err_d")?;
-    t.amplitude_mag = num(fields, "amplitude_mag")?;
-    t.mean_mag = num(fields, "mean_mag")?;
-    t.peak_mag = num(fields, "peak_mag")?;
-    t.mag_now = num(fields, "mag_now")?;
-    t.redshift = num(fields, "redshift")?;
-    t.extinction_mag = num(fields, "extinction_mag")?.unwrap_or(0.0);
-    t.goal_pct = num(fields, "goal_pct")?;
-    t.priority = num(fields, "priority")?.unwrap_or(1.0);
-    t.notes = text(fields, "notes").unwrap_or("").to_string();
-    if let Some(b) = text(fields, "band") {
+    t.parallax_mas = num(fields, F_PARALLAX_MAS)?;
+    t.pm_ra_masyr = num(fields, F_PM_RA_MASYR)?.unwrap_or(0.0);
+    t.pm_dec_masyr = num(fields, F_PM_DEC_MASYR)?.unwrap_or(0.0);
+    t.epoch_yr = num(fields, F_EPOCH_YR)?.unwrap_or(2000.0);
+    t.mag = num(fields, F_MAG)?;
+    t.period_d = num(fields, F_PERIOD_D)?;
+    t.epoch_max_bjd = num(fields, F_EPOCH_MAX_BJD)?;
+    t.period_err_d = num(fields, F_PERIOD_ERR_D)?;
+    t.amplitude_mag = num(fields, F_AMPLITUDE_MAG)?;
+    t.mean_mag = num(fields, F_MEAN_MAG)?;
+    t.peak_mag = num(fields, F_PEAK_MAG)?;
+    t.mag_now = num(fields, F_MAG_NOW)?;
+    t.redshift = num(fields, F_REDSHIFT)?;
+    t.extinction_mag = num(fields, F_EXTINCTION_MAG)?.unwrap_or(0.0);
+    t.goal_pct = num(fields, F_GOAL_PCT)?;
+    t.priority = num(fields, F_PRIORITY)?.unwrap_or(1.0);
+    t.notes = text(fields, F_NOTES).unwrap_or("").to_string();
+    if let Some(b) = text(fields, F_BAND) {
         let up = b.to_ascii_uppercase();
         if !BANDS.contains(&up.as_str()) {
             return Err((
@@ -319,13 +368,16 @@ pub fn target_from_fields(
         }
         t.band = up;
     }
-    if let Some(d) = text(fields, "discovered") {
+    if let Some(d) = text(fields, F_DISCOVERED) {
         t.discovered =
             Some(parse_instant(d).map_err(|e| ("discovered".to_string(), e.to_string()))?);
     }
     let bad = |f: &str, why: &str| Err((f.to_string(), why.to_string()));
-    if !(1900.0..=2100.0).contains(&t.epoch_yr) {
-        return bad("epoch_yr", "must be a Julian year between 1900 and 2100");
+    if !(VALID_FROM_EPOCH_YR..=VALID_TO_EPOCH_YR).contains(&t.epoch_yr) {
+        return bad(
+            "epoch_yr",
+            "must be a Julian year within rung's valid span, 1960.0 to 2100.0",
+        );
     }
     for (f, v) in [
         ("pm_ra_masyr", t.pm_ra_masyr),
@@ -382,6 +434,12 @@ pub fn target_from_fields(
                 Some(e) if !(2_400_000.0..=2_500_000.0).contains(&e) => {
                     return bad("epoch_max_bjd", "must be a full BJD such as 2461000.123");
                 }
+                Some(e) if check_jd_in_span(e, "").is_err() => {
+                    return bad(
+                        "epoch_max_bjd",
+                        "must lie within rung's valid span 1960-01-01 to 2099-12-31 (BJD 2436934.5 to 2488069.5)",
+                    );
+                }
                 _ => {}
             }
             if let Some(e) = t.period_err_d
@@ -413,87 +471,365 @@ pub fn target_from_fields(
     Ok(t)
 }
 
-/// Parse CSV text (header row first).
-pub fn parse_csv(text: &str, file: &Path) -> Loaded {
-    let mut out = Loaded::default();
+/// Longest accepted physical line of a CSV targets file, bytes. A longer line
+/// must hold a field over [`MAX_FIELD_BYTES`] (24 known columns of at most
+/// 4096 bytes fit well inside it); it is skipped without being held in memory.
+pub const MAX_LINE_BYTES: usize = 256 * 1024;
+/// Largest TOML targets file, bytes (TOML is parsed whole; use CSV for more).
+pub const MAX_TOML_BYTES: u64 = 64 * 1024 * 1024;
+/// How often (bytes read) the progress callback is called while streaming.
+const PROGRESS_STEP_BYTES: u64 = 1024 * 1024;
+
+/// Replaces an over-long physical line in the byte stream the CSV reader sees.
+/// Control characters keep it from being mistaken for real data.
+const OVERLONG_MARK: &str = "\u{1}rung:overlong-line\u{1}";
+
+/// A reader that passes a CSV file through line by line, replacing any line
+/// longer than [`MAX_LINE_BYTES`] by [`OVERLONG_MARK`] (its bytes are skipped,
+/// never stored), and counting the bytes read for the progress callback.
+struct LineCap<R: std::io::BufRead> {
+    inner: R,
+    pending: Vec<u8>,
+    pos: usize,
+    read: std::rc::Rc<std::cell::Cell<u64>>,
+    done: bool,
+    /// Whether the lines so far leave the reader inside a quoted field
+    /// (parity of the quote characters seen).
+    quoted: bool,
+    /// How many [`OVERLONG_MARK`]s have been put in the stream.
+    marks: std::rc::Rc<std::cell::Cell<u64>>,
+}
+
+impl<R: std::io::BufRead> LineCap<R> {
+    fn refill(&mut self) -> std::io::Result<()> {
+        use std::io::{BufRead as _, Read as _};
+        self.pending.clear();
+        self.pos = 0;
+        // Fast path: one line of at most MAX_LINE_BYTES (+ its newline),
+        // found with the standard library's memchr.
+        let limit = MAX_LINE_BYTES + 1;
+        let n = (&mut self.inner)
+            .take(limit as u64)
+            .read_until(b'\n', &mut self.pending)?;
+        self.read.set(self.read.get() + n as u64);
+        if n == 0 {
+            self.done = true;
+            return Ok(());
+        }
+        let comment = self.pending[0] == b'#';
+        let count_quotes = |b: &[u8]| {
+            if b.contains(&b'"') {
+                b.iter().filter(|c| **c == b'"').count()
+            } else {
+                0
+            }
+        };
+        let mut quotes_in_line = count_quotes(&self.pending);
+        let overlong = n == limit && self.pending.last() != Some(&b'\n');
+        if overlong {
+            // Skip the rest of the line without storing it, counting its quotes.
+            self.pending.clear();
+            loop {
+                let buf = self.inner.fill_buf()?;
+                if buf.is_empty() {
+                    self.done = true;
+                    break;
+                }
+                let (take, newline) = match buf.iter().position(|b| *b == b'\n') {
+                    Some(i) => (i + 1, true),
+                    None => (buf.len(), false),
+                };
+                quotes_in_line += count_quotes(&buf[..take]);
+                self.inner.consume(take);
+                self.read.set(self.read.get() + take as u64);
+                if newline {
+                    break;
+                }
+            }
+            self.marks.set(self.marks.get() + 1);
+        }
+        if overlong && comment && !self.quoted {
+            // An over-long comment line is still a comment.
+            self.marks.set(self.marks.get() - 1);
+            self.pending.extend_from_slice(b"#\n");
+        } else if overlong {
+            // Keep the quoting state the CSV reader would have had after the
+            // skipped line (an odd number of quotes flips it), so that the rows
+            // after it are read as they stand.
+            let entering_quoted = self.quoted;
+            let flips = quotes_in_line % 2 == 1;
+            if flips && !entering_quoted {
+                self.pending.push(b'"');
+            }
+            self.pending.extend_from_slice(OVERLONG_MARK.as_bytes());
+            if flips && entering_quoted {
+                self.pending.push(b'"');
+            }
+            self.pending.push(b'\n');
+        }
+        if quotes_in_line % 2 == 1 && (self.quoted || !comment) {
+            self.quoted = !self.quoted;
+        }
+        Ok(())
+    }
+}
+
+impl<R: std::io::BufRead> std::io::Read for LineCap<R> {
+    fn read(&mut self, out: &mut [u8]) -> std::io::Result<usize> {
+        if self.pos >= self.pending.len() {
+            if self.done {
+                return Ok(0);
+            }
+            self.refill()?;
+        }
+        let n = (self.pending.len() - self.pos).min(out.len());
+        out[..n].copy_from_slice(&self.pending[self.pos..self.pos + n]);
+        self.pos += n;
+        Ok(n)
+    }
+}
+
+/// Names already used, kept compactly for the duplicate check.
+type Seen = std::collections::HashSet<Box<str>>;
+
+/// The CSV reader behind [`parse_csv`], [`stream_csv`] and [`load`]: reads
+/// `reader` record by record, never holding more than one line of at most
+/// [`MAX_LINE_BYTES`]. `total_bytes` is passed to `on_progress` with the bytes
+/// read so far (about every MiB, and once at the end).
+pub fn stream_csv_reader<R: std::io::Read>(
+    reader: R,
+    file: &Path,
+    total_bytes: u64,
+    on_target: &mut dyn FnMut(Target),
+    on_problem: &mut dyn FnMut(RungError),
+    on_progress: &mut dyn FnMut(u64, u64),
+) {
+    let read = std::rc::Rc::new(std::cell::Cell::new(0u64));
+    let marks = std::rc::Rc::new(std::cell::Cell::new(0u64));
+    let mut marks_found = 0u64;
+    let capped = LineCap {
+        inner: std::io::BufReader::with_capacity(64 * 1024, reader),
+        pending: Vec::new(),
+        pos: 0,
+        read: read.clone(),
+        done: false,
+        quoted: false,
+        marks: marks.clone(),
+    };
     let mut rdr = csv::ReaderBuilder::new()
         .flexible(true)
         .trim(csv::Trim::All)
         .comment(Some(b'#'))
-        .from_reader(text.as_bytes());
-    let headers: Vec<String> = match rdr.headers() {
-        Ok(h) => h.iter().map(|s| s.trim().to_ascii_lowercase()).collect(),
+        .from_reader(capped);
+    // The header's own line (comment lines may come before it).
+    let (headers, hline): (Vec<String>, usize) = match rdr.headers() {
+        Ok(h) if h.iter().any(|f| f.contains(OVERLONG_MARK)) => {
+            on_problem(RungError::InFile {
+                loc: loc(file, h.position().map_or(1, |p| p.line() as usize), ""),
+                msg: format!("the header line is longer than {MAX_LINE_BYTES} bytes"),
+            });
+            return;
+        }
+        Ok(h) => (h.iter().map(|s| s.trim().to_ascii_lowercase()).collect(), 0),
         Err(e) => {
-            out.problems.push(RungError::InFile {
+            on_problem(RungError::InFile {
                 loc: loc(file, 1, ""),
                 msg: format!("unreadable header: {e}"),
             });
-            return out;
+            return;
         }
+    };
+    // After the header the reader stands at the start of the next line.
+    let hline = if hline == 0 {
+        (rdr.position().line() as usize).saturating_sub(1).max(1)
+    } else {
+        hline
     };
     for need in ["name", "ra", "dec"] {
         if !headers.iter().any(|h| h == need) {
-            out.problems.push(RungError::InFile {
-                loc: loc(file, 1, need),
+            on_problem(RungError::InFile {
+                loc: loc(file, hline, need),
                 msg: format!("the header has no '{need}' column (required: name, ra, dec)"),
             });
-            return out;
+            return;
         }
     }
-    let mut seen = std::collections::HashSet::new();
-    for rec in rdr.records() {
-        let rec = match rec {
-            Ok(r) => r,
-            Err(e) => {
-                let line = e.position().map(|p| p.line() as usize).unwrap_or(0);
-                out.problems.push(RungError::InFile {
-                    loc: loc(file, line, ""),
-                    msg: format!("unreadable row: {e}"),
-                });
-                continue;
+    let col_slot: Vec<Option<usize>> = headers.iter().map(|h| slot_of(h)).collect();
+    let mut seen = Seen::new();
+    let mut rec = csv::StringRecord::new();
+    let mut last_progress = 0u64;
+    loop {
+        let line_before = rdr.position().line() as usize;
+        match rdr.read_record(&mut rec) {
+            Ok(false) => break,
+            Ok(true) => {
+                let line = rec
+                    .position()
+                    .map(|p| p.line() as usize)
+                    .unwrap_or(line_before);
+                // Look for the mark only while one is in the stream unread
+                // (the reader runs ahead, so it may be in a later record).
+                let mark_at = if marks.get() > marks_found {
+                    rec.iter().position(|f| f.contains(OVERLONG_MARK))
+                } else {
+                    None
+                };
+                if let Some(i) = mark_at {
+                    marks_found += rec
+                        .iter()
+                        .map(|f| f.matches(OVERLONG_MARK).count() as u64)
+                        .sum::<u64>();
+                    // The mark sits on the over-long physical line itself.
+                    let extra = rec
+                        .iter()
+                        .take(i)
+                        .map(|f| f.matches('\n').count())
+                        .sum::<usize>()
+                        + rec.get(i).map_or(0, |f| {
+                            f[..f.find(OVERLONG_MARK).unwrap_or(0)]
+                                .matches('\n')
+                                .count()
+                        });
+                    let field = if rec.len() == headers.len() {
+                        headers[i].as_str()
+                    } else {
+                        ""
+                    };
+                    on_problem(RungError::InFile {
+                        loc: loc(file, line + extra, field),
+                        msg: format!(
+                            "line is longer than {MAX_LINE_BYTES} bytes: a field exceeds the {MAX_FIELD_BYTES}-byte limit; row skipped unread"
+                        ),
+                    });
+                } else if rec.len() != headers.len() {
+                    on_problem(RungError::InFile {
+                        loc: loc(file, line, ""),
+                        msg: format!(
+                            "row has {} fields but the header has {}",
+                            rec.len(),
+                            headers.len()
+                        ),
+                    });
+                } else {
+                    // Straight into the slots, no copy of the row.
+                    let mut slots: Slots = [None; KNOWN.len()];
+                    let mut r = Ok(());
+                    for (j, v) in rec.iter().enumerate() {
+                        r = check_len(&headers[j], v);
+                        if r.is_err() {
+                            break;
+                        }
+                        if let Some(i) = col_slot[j] {
+                            slots[i].get_or_insert(v);
+                        }
+                    }
+                    let t = r.and_then(|_| target_from_slots(&slots));
+                    push_target(&mut seen, t, file, line, on_target, on_problem);
+                }
             }
-        };
-        let line = rec.position().map(|p| p.line() as usize).unwrap_or(0);
-        if rec.len() != headers.len() {
-            out.problems.push(RungError::InFile {
-                loc: loc(file, line, ""),
-                msg: format!(
-                    "row has {} fields but the header has {}",
-                    rec.len(),
-                    headers.len()
-                ),
-            });
-            continue;
+            Err(e) => {
+                let line = e
+                    .position()
+                    .map(|p| p.line() as usize)
+                    .unwrap_or(line_before);
+                let msg = match e.kind() {
+                    csv::ErrorKind::Utf8 { err, .. } => format!(
+                        "field {} is not UTF-8 text (save the file as UTF-8); row skipped",
+                        err.field() + 1
+                    ),
+                    _ => format!("unreadable row: {e}"),
+                };
+                on_problem(RungError::InFile {
+                    loc: loc(file, line, ""),
+                    msg,
+                });
+                if matches!(e.kind(), csv::ErrorKind::Io(_)) {
+                    break;
+                }
+            }
         }
-        let fields: Vec<(String, String)> = headers
-            .iter()
-            .cloned()
-            .zip(rec.iter().map(|s| s.to_string()))
-            .collect();
-        push_target(&mut out, &mut seen, fields, file, line);
+        let r = read.get();
+        if r >= last_progress + PROGRESS_STEP_BYTES {
+            last_progress = r;
+            on_progress(r, total_bytes.max(r));
+        }
     }
-    out
+    let r = read.get();
+    on_progress(r, total_bytes.max(r));
+}
+
+/// Stream a CSV targets file: each good target goes to `on_target` and each
+/// refused row to `on_problem`, in file order, with memory bounded by one line
+/// ([`MAX_LINE_BYTES`]) plus the set of names seen (for the duplicate check),
+/// whatever the size of the file.
+pub fn stream_csv(
+    path: &Path,
+    on_target: &mut dyn FnMut(Target),
+    on_problem: &mut dyn FnMut(RungError),
+) -> Result<()> {
+    stream_csv_progress(path, on_target, on_problem, &mut |_, _| {})
+}
+
+/// [`stream_csv`] with a progress callback `on_progress(bytes_read, total_bytes)`.
+pub fn stream_csv_progress(
+    path: &Path,
+    on_target: &mut dyn FnMut(Target),
+    on_problem: &mut dyn FnMut(RungError),
+    on_progress: &mut dyn FnMut(u64, u64),
+) -> Result<()> {
+    let f = open_file(path)?;
+    let total = f.metadata().map(|m| m.len()).unwrap_or(0);
+    stream_csv_reader(f, path, total, on_target, on_problem, on_progress);
+    Ok(())
+}
+
+fn open_file(path: &Path) -> Result<std::fs::File> {
+    let meta = std::fs::metadata(path).map_err(|e| RungError::io(path, e))?;
+    if meta.is_dir() {
+        return Err(RungError::invalid(
+            "targets file",
+            format!("{} is a folder", path.display()),
+        ));
+    }
+    std::fs::File::open(path).map_err(|e| RungError::io(path, e))
+}
+
+/// Parse CSV text (header row first).
+pub fn parse_csv(text: &str, file: &Path) -> Loaded {
+    let mut targets = Vec::new();
+    let mut problems = Vec::new();
+    stream_csv_reader(
+        text.as_bytes(),
+        file,
+        text.len() as u64,
+        &mut |t| targets.push(t),
+        &mut |p| problems.push(p),
+        &mut |_, _| {},
+    );
+    Loaded { targets, problems }
 }
 
 fn push_target(
-    out: &mut Loaded,
-    seen: &mut std::collections::HashSet<String>,
-    fields: Vec<(String, String)>,
+    seen: &mut Seen,
+    target: std::result::Result<Target, (String, String)>,
     file: &Path,
     line: usize,
+    on_target: &mut dyn FnMut(Target),
+    on_problem: &mut dyn FnMut(RungError),
 ) {
-    match target_from_fields(&fields) {
+    match target {
         Ok(t) => {
-            if !seen.insert(t.name.clone()) {
-                out.problems.push(RungError::InFile {
+            if seen.contains(t.name.as_str()) {
+                on_problem(RungError::InFile {
                     loc: loc(file, line, "name"),
                     msg: format!("'{}' is already used by an earlier row", cut(&t.name)),
                 });
             } else {
-                out.targets.push(t);
+                seen.insert(t.name.as_str().into());
+                on_target(t);
             }
         }
-        Err((field, msg)) => out.problems.push(RungError::InFile {
+        Err((field, msg)) => on_problem(RungError::InFile {
             loc: loc(file, line, &field),
             msg,
         }),
@@ -517,13 +853,6 @@ pub fn parse_toml(text: &str, file: &Path) -> Loaded {
             return out;
         }
     };
-    // Lines of the [[target]] headers, to place errors.
-    let header_lines: Vec<usize> = text
-        .lines()
-        .enumerate()
-        .filter(|(_, l)| l.trim_start().starts_with("[[target]]"))
-        .map(|(i, _)| i + 1)
-        .collect();
     let Some(list) = doc.get("target").and_then(|v| v.as_array()) else {
         out.problems.push(RungError::InFile {
             loc: loc(file, 1, "target"),
@@ -531,11 +860,14 @@ pub fn parse_toml(text: &str, file: &Path) -> Loaded {
         });
         return out;
     };
-    let mut seen = std::collections::HashSet::new();
+    // Lines of the [[target]] headers, to place errors.
+    let header_lines = array_table_lines(text, "target", list.len());
+    let mut seen = Seen::new();
+    let Loaded { targets, problems } = &mut out;
     for (i, item) in list.iter().enumerate() {
         let line = header_lines.get(i).copied().unwrap_or(0);
         let Some(tab) = item.as_table() else {
-            out.problems.push(RungError::InFile {
+            problems.push(RungError::InFile {
                 loc: loc(file, line, ""),
                 msg: "not a table".into(),
             });
@@ -558,15 +890,51 @@ pub fn parse_toml(text: &str, file: &Path) -> Loaded {
             fields.push((k.to_ascii_lowercase(), s));
         }
         if let Some(k) = bad {
-            out.problems.push(RungError::InFile {
+            problems.push(RungError::InFile {
                 loc: loc(file, line, &k),
                 msg: "must be a single value".into(),
             });
             continue;
         }
-        push_target(&mut out, &mut seen, fields, file, line);
+        push_target(
+            &mut seen,
+            target_from_fields(&fields),
+            file,
+            line,
+            &mut |t| targets.push(t),
+            &mut |p| problems.push(p),
+        );
     }
     out
+}
+
+/// The 1-based lines of the `[[name]]` headers of a TOML text, one per
+/// table of the array (spaces inside the brackets, quoted names and trailing
+/// comments allowed). When they cannot be matched one to one with the
+/// `count` tables (tables written inline, or a header-like line inside a
+/// multi-line string), all are 0, "line not known", rather than wrong.
+pub(crate) fn array_table_lines(text: &str, name: &str, count: usize) -> Vec<usize> {
+    let lines: Vec<usize> = text
+        .lines()
+        .enumerate()
+        .filter(|(_, l)| {
+            let t = l.trim();
+            t.strip_prefix("[[")
+                .and_then(|r| r.split_once("]]"))
+                .is_some_and(|(inner, rest)| {
+                    let inner = inner.trim();
+                    let rest = rest.trim_start();
+                    (inner == name || inner.trim_matches(['"', '\'']) == name)
+                        && (rest.is_empty() || rest.starts_with('#'))
+                })
+        })
+        .map(|(i, _)| i + 1)
+        .collect();
+    if lines.len() == count {
+        lines
+    } else {
+        vec![0; count]
+    }
 }
 
 /// Unknown column names in a CSV header (reported as warnings by the command line).
@@ -578,15 +946,47 @@ pub fn unknown_columns(headers: &[String]) -> Vec<String> {
         .collect()
 }
 
-/// Read a targets file (by extension: `.toml`, else CSV).
+/// Read a targets file (by extension: `.toml`, else CSV). CSV is always read
+/// as a stream (see [`stream_csv`]), so even a file of millions of rows never
+/// has its text in memory; TOML is parsed whole and refused above
+/// [`MAX_TOML_BYTES`].
 pub fn load(path: &Path) -> Result<Loaded> {
-    let meta = std::fs::metadata(path).map_err(|e| RungError::io(path, e))?;
-    if meta.is_dir() {
-        return Err(RungError::invalid(
-            "targets file",
-            format!("{} is a folder", path.display()),
-        ));
+    load_with_progress(path, &mut |_, _| {})
+}
+
+/// [`load`] with a progress callback `on_progress(bytes_read, total_bytes)`
+/// (called about every MiB while a CSV file streams, and once at the end).
+pub fn load_with_progress(path: &Path, on_progress: &mut dyn FnMut(u64, u64)) -> Result<Loaded> {
+    let is_toml = path
+        .extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("toml"));
+    if !is_toml {
+        let mut targets = Vec::new();
+        let mut problems = Vec::new();
+        stream_csv_progress(
+            path,
+            &mut |t| targets.push(t),
+            &mut |p| problems.push(p),
+            on_progress,
+        )?;
+        return Ok(Loaded { targets, problems });
     }
+    let f = open_file(path)?;
+    let len = f.metadata().map(|m| m.len()).unwrap_or(0);
+    if len > MAX_TOML_BYTES {
+        return Err(RungError::InFile {
+            loc: Location {
+                file: Some(PathBuf::from(path)),
+                line: None,
+                field: None,
+            },
+            msg: format!(
+                "a TOML targets file is read whole and may hold at most {} MiB ({len} bytes given); use CSV for larger programmes",
+                MAX_TOML_BYTES / (1024 * 1024)
+            ),
+        });
+    }
+    drop(f);
     let bytes = std::fs::read(path).map_err(|e| RungError::io(path, e))?;
     let text = String::from_utf8(bytes).map_err(|e| RungError::InFile {
         loc: Location {
@@ -601,14 +1001,8 @@ pub fn load(path: &Path) -> Result<Loaded> {
         },
         msg: "is not UTF-8 text".into(),
     })?;
-    let is_toml = path
-        .extension()
-        .is_some_and(|e| e.eq_ignore_ascii_case("toml"));
-    Ok(if is_toml {
-        parse_toml(&text, path)
-    } else {
-        parse_csv(&text, path)
-    })
+    on_progress(len, len);
+    Ok(parse_toml(&text, path))
 }
 
 #[cfg(test)]
