@@ -29,6 +29,8 @@ pub const HARNESSES: &[(&str, Harness)] = &[
     ("sites_toml", sites_toml),
     ("angles", angles),
     ("times", times),
+    ("instruments_toml", instruments_toml),
+    ("plan_file", plan_file),
 ];
 
 fn check_target(t: &Target) {
@@ -161,5 +163,49 @@ pub fn times(data: &[u8]) {
     if let Ok(d) = parse_date(text) {
         let site = rung::io::sites::resolve("10,20,0,UTC").expect("site");
         let _ = rung::astro::night::local_noon(&site, d);
+    }
+}
+
+/// Instrument TOML: an accepted instrument has a positive collecting area and
+/// a saturation level; refusals name the file.
+pub fn instruments_toml(data: &[u8]) {
+    let Ok(text) = std::str::from_utf8(data) else {
+        return;
+    };
+    match rung::photometry::instrument::parse_instruments(text, Path::new("fuzz.toml")) {
+        Ok(list) => {
+            for i in &list {
+                assert!(i.area_cm2() > 0.0 && i.area_cm2().is_finite(), "{i:?}");
+                assert!(i.saturation_e() > 0.0, "{i:?}");
+            }
+        }
+        Err(e) => {
+            check_problem(&e);
+            assert!(e.to_string().contains("fuzz.toml"), "{e}");
+        }
+    }
+}
+
+/// Plan files: an accepted plan has unique visit ids, each ending after it
+/// starts, and saves back to JSON that parses to the same plan.
+pub fn plan_file(data: &[u8]) {
+    let Ok(text) = std::str::from_utf8(data) else {
+        return;
+    };
+    match rung::plan::file::parse(text, Path::new("fuzz-plan.json")) {
+        Ok(p) => {
+            let mut ids = std::collections::BTreeSet::new();
+            for v in &p.visits {
+                assert!(ids.insert(v.id.clone()), "duplicate id {}", v.id);
+                assert!(v.end >= v.start);
+            }
+            let back = rung::plan::file::parse(&p.to_json(), Path::new("again.json"))
+                .unwrap_or_else(|e| panic!("a saved plan does not read back: {e}"));
+            assert_eq!(back.visits.len(), p.visits.len());
+        }
+        Err(e) => {
+            check_problem(&e);
+            assert!(e.to_string().contains("fuzz-plan.json"), "{e}");
+        }
     }
 }
