@@ -21,6 +21,8 @@ enum Command {
     Where(cli::where_cmd::Args),
     /// The night of a date: twilights, Moon, and each target's window.
     Night(cli::night::Args),
+    /// The terminal UI: roster, tonight, season (keyboard-driven; ? shows the keys).
+    Tui(cli::tui::Args),
 }
 
 fn main() -> ExitCode {
@@ -28,6 +30,7 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Some(Command::Where(a)) => cli::where_cmd::run(a),
         Some(Command::Night(a)) => cli::night::run(a),
+        Some(Command::Tui(a)) => cli::tui::run(a),
         None => cli::default_run(),
     };
     match result {

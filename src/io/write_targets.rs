@@ -163,7 +163,7 @@ mod tests {
 
     #[test]
     fn awkward_text_round_trips() {
-        let mut t = Target::plain("#odd, \"quoted\" name", 123.456789012345678, -0.000001);
+        let mut t = Target::plain("#odd, \"quoted\" name", 123.456_789_012_345_67, -0.000001);
         t.notes = "commas, quotes \" and\nnewlines".into();
         t.priority = 2.5;
         t.mag = Some(12.3);
