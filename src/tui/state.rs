@@ -343,7 +343,7 @@ impl State {
 
     /// The selected target.
     pub fn selected(&self) -> Option<&Target> {
-        self.order.get(self.sel).map(|i| &self.targets[*i])
+        self.order.get(self.sel).and_then(|i| self.targets.get(*i))
     }
 
     /// Whether the programme differs from the file.
@@ -375,6 +375,11 @@ impl State {
     /// Rebuild `order` from the targets, filter and sort; keep the selected target selected.
     pub fn reorder(&mut self) {
         let keep = self.selected().map(|t| t.name.clone());
+        self.reorder_keeping(keep);
+    }
+
+    /// Rebuild `order`; select the target named `keep` when it is still listed.
+    pub fn reorder_keeping(&mut self, keep: Option<String>) {
         let f = self.filter.to_lowercase();
         let mut idx: Vec<usize> = (0..self.targets.len())
             .filter(|i| {

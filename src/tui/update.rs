@@ -186,6 +186,7 @@ fn say(s: &mut State, text: impl Into<String>, level: Level) {
 
 /// Replace the programme, keeping the old one for undo.
 fn change(s: &mut State, new: Vec<Target>, what: String) -> Option<Effect> {
+    let keep = s.selected().map(|t| t.name.clone());
     let old = std::mem::replace(&mut s.targets, new);
     for t in &s.targets {
         if !old.contains(t) {
@@ -197,11 +198,11 @@ fn change(s: &mut State, new: Vec<Target>, what: String) -> Option<Effect> {
         s.undo.remove(0);
     }
     s.redo.clear();
-    after_change(s, what)
+    after_change(s, what, keep)
 }
 
-fn after_change(s: &mut State, what: String) -> Option<Effect> {
-    s.reorder();
+fn after_change(s: &mut State, what: String, keep: Option<String>) -> Option<Effect> {
+    s.reorder_keeping(keep);
     refresh_caution(s);
     let note = if s.dirty() { " (unsaved)" } else { "" };
     say(s, format!("{what}{note}"), Level::Info);
@@ -505,10 +506,11 @@ fn act_main(s: &mut State, a: Action) -> Option<Effect> {
         }
         Action::Undo => match s.undo.pop() {
             Some(prev) => {
+                let keep = s.selected().map(|t| t.name.clone());
                 let cur = std::mem::replace(&mut s.targets, prev);
                 s.redo.push(cur);
                 s.season.hours.clear();
-                after_change(s, "undone".into())
+                after_change(s, "undone".into(), keep)
             }
             None => {
                 say(s, "nothing to undo", Level::Info);
@@ -517,10 +519,11 @@ fn act_main(s: &mut State, a: Action) -> Option<Effect> {
         },
         Action::Redo => match s.redo.pop() {
             Some(next) => {
+                let keep = s.selected().map(|t| t.name.clone());
                 let cur = std::mem::replace(&mut s.targets, next);
                 s.undo.push(cur);
                 s.season.hours.clear();
-                after_change(s, "redone".into())
+                after_change(s, "redone".into(), keep)
             }
             None => {
                 say(s, "nothing to redo", Level::Info);
