@@ -41,7 +41,7 @@ fn roster_80x24_shows_library_windows() {
     );
     assert!(rows[0].contains("Moon "), "{}", rows[0]);
     assert!(rows[1].contains("1 Roster") && rows[1].contains("night Tue 2026-12-01"));
-    assert!(rows[1].contains("demo programme"));
+    assert!(rows[1].trim_end().ends_with("demo"), "{}", rows[1]);
     assert!(rows[2].starts_with("Roster · 26 of 26 targets · by file order"));
     assert!(rows[3].contains("name") && rows[3].contains("window") && rows[3].contains("airm"));
     // File order, with 24 − 5 = 19 rows visible (status, tabs, title, header, message).

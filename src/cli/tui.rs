@@ -184,8 +184,13 @@ fn event_loop(terminal: &mut ratatui::DefaultTerminal, mut setup: Setup) -> Resu
         }
     }
     let mut last_tick = std::time::Instant::now();
+    // Test hook for the terminal-restore test (tests/tui_tmux.rs): panic after the first frame.
+    let panic_test = std::env::var_os("RUNG_TUI_TEST_PANIC").is_some();
     loop {
         terminal.draw(|f| draw(&state, f))?;
+        if panic_test {
+            panic!("RUNG_TUI_TEST_PANIC is set: panicking on purpose to test terminal restore");
+        }
         if state.quit {
             return Ok(());
         }

@@ -111,7 +111,7 @@ fn tabs(s: &State, area: Rect, buf: &mut Buffer) {
         x = put(buf, x, area.y, "│", 1, th.dim());
     }
     let file = if s.programme.is_demo {
-        "demo programme".to_string()
+        "demo".to_string()
     } else {
         s.programme
             .save_path
