@@ -23,6 +23,12 @@ enum Command {
     Night(cli::night::Args),
     /// The terminal UI: roster, tonight, season (keyboard-driven; ? shows the keys).
     Tui(cli::tui::Args),
+    /// Phase coverage of a pulsating star, a visit plan over its phase bins, and its distance precision.
+    Phase(Box<cli::phase::Args>),
+    /// Signal-to-noise of an exposure on a star under tonight's sky.
+    Snr(cli::snr::SnrArgs),
+    /// Exposure time that reaches a signal-to-noise on a star under tonight's sky.
+    Exptime(cli::snr::ExptimeArgs),
 }
 
 fn main() -> ExitCode {
@@ -31,6 +37,9 @@ fn main() -> ExitCode {
         Some(Command::Where(a)) => cli::where_cmd::run(a),
         Some(Command::Night(a)) => cli::night::run(a),
         Some(Command::Tui(a)) => cli::tui::run(a),
+        Some(Command::Phase(a)) => cli::phase::run(*a),
+        Some(Command::Snr(a)) => cli::snr::run_snr(a),
+        Some(Command::Exptime(a)) => cli::snr::run_exptime(a),
         None => cli::default_run(),
     };
     match result {

@@ -1,6 +1,7 @@
 //! Time scales, sites, frames (via sofars), Sun, Moon, airmass and events.
 
 pub mod airmass;
+pub mod bary;
 pub mod events;
 pub mod frames;
 pub mod night;

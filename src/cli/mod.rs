@@ -2,6 +2,8 @@
 
 pub mod night;
 pub mod tui;
+pub mod phase;
+pub mod snr;
 pub mod where_cmd;
 
 use anyhow::Result;

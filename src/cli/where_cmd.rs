@@ -61,12 +61,22 @@ pub fn run(a: Args) -> Result<()> {
     let ctx = Context::exact(&site, t)?;
     let p = pointing(&site, &ctx, &place);
     let caution = sun_caution(&site, &p);
+    // Sky model (src/sky): V sky at the target, null below the horizon. A broken
+    // user bands.toml is reported and leaves the key null; the rest still prints.
+    let sky_v = match rung::sky::BandSet::load() {
+        Ok(b) => b.sky_at("V", &ctx, &place).ok().map(|s| s.sky_mag_arcsec2),
+        Err(e) => {
+            eprintln!("rung: warning: {e} (sky brightness not computed)");
+            None
+        }
+    };
     if a.json {
         let mut v = serde_json::to_value(&p)?;
         let o = v.as_object_mut().context("object")?;
         o.insert("time".into(), json!(t.iso()));
         o.insert("site".into(), json!(site.name));
         o.insert("target".into(), json!(name));
+        o.insert("sky_v_mag_arcsec2".into(), json!(sky_v));
         o.insert("cautions".into(), json!(caution.iter().collect::<Vec<_>>()));
         println!("{}", serde_json::to_string_pretty(&v)?);
         return Ok(());
@@ -95,6 +105,10 @@ pub fn run(a: Args) -> Result<()> {
         p.moon_altitude_deg,
         p.moon_separation_deg,
         100.0 * p.moon_illumination
+    );
+    println!(
+        "  sky V         {:>8} mag/arcsec² at the target",
+        super::opt(sky_v, 2)
     );
     println!(
         "  refraction at {:.1} hPa, {:.1} °C",

@@ -1,1 +1,302 @@
-//! See DESIGN.md.
+//! Signal-to-noise and exposure time of a point source under the real sky of
+//! a site and instant: the band table and sky model of [`crate::sky`], an
+//! instrument profile ([`instrument`]), and the CCD equation ([`ccd`]).
+//!
+//! The distance methods reach it through [`Photometer`], which implements
+//! [`crate::ladder::ExposureModel`]:
+//!
+//! ```no_run
+//! use rung::photometry::Photometer;
+//! use rung::ladder::ExposureModel;
+//! let site = rung::io::sites::resolve("pampa-lucero")?;
+//! let ph = Photometer::demo(&site)?; // the invented 1.0 m "lucero-1m"
+//! let t = rung::astro::time::parse_instant("2026-12-02T04:00:00Z")?;
+//! let ctx = rung::astro::frames::Context::exact(&site, t)?;
+//! let star = rung::astro::frames::CatalogPlace::fixed_deg(60.0, -30.0);
+//! let snr = ph.snr(18.0, "V", 300.0, &ctx, &star)?;
+//! let (exptime_s, n_exposures) = ph.exptime(18.0, "V", 100.0, &ctx, &star)?;
+//! # Ok::<(), rung::RungError>(())
+//! ```
+
+pub mod ccd;
+pub mod instrument;
+
+pub use crate::sky::{Band, BandSet, SkyBrightness, SkyGeometry};
+pub use ccd::{Conditions, NoiseBudget, Rates};
+pub use instrument::{DEMO_INSTRUMENT, Instrument};
+
+use crate::astro::airmass::kasten_young;
+use crate::astro::frames::{CatalogPlace, Context};
+use crate::astro::site::Site;
+use crate::error::{Result, RungError};
+use crate::ladder::ExposureModel;
+use serde::Serialize;
+
+/// One exposure computed at a target and instant: the conditions, the sky,
+/// and the full noise budget. Its fields are the JSON contract of
+/// `rung snr --json` and `rung exptime --json`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Exposure {
+    /// Star magnitude above the atmosphere.
+    pub mag: f64,
+    /// Band name.
+    pub band: String,
+    /// Instrument name.
+    pub instrument: String,
+    /// Kasten–Young airmass of the target.
+    pub airmass: f64,
+    /// Observed (refracted) altitude of the target, degrees.
+    pub altitude_deg: f64,
+    /// Atmospheric extinction applied to the star, mag.
+    pub extinction_mag: f64,
+    /// Seeing FWHM used, arcsec.
+    pub seeing_fwhm_arcsec: f64,
+    /// Moon–target separation, degrees.
+    pub moon_separation_deg: f64,
+    /// Moon altitude, degrees.
+    pub moon_altitude_deg: f64,
+    /// Moon illuminated fraction, 0–1.
+    pub moon_illumination: f64,
+    /// Sun altitude, degrees.
+    pub sun_altitude_deg: f64,
+    /// Sky brightness at the target in the band, mag arcsec⁻².
+    pub sky_mag_arcsec2: f64,
+    /// The sky with its parts.
+    pub sky: SkyBrightness,
+    /// Aperture radius, arcsec.
+    pub aperture_radius_arcsec: f64,
+    /// The noise budget (flattened into the JSON object).
+    #[serde(flatten)]
+    pub budget: NoiseBudget,
+    /// Cautions (sky model limits, saturation, linearity).
+    pub notes: Vec<String>,
+}
+
+/// The exposure model for one instrument at one site: bands, instrument, site
+/// (for its elevation) and the seeing.
+#[derive(Debug, Clone)]
+pub struct Photometer {
+    /// The instrument.
+    pub instrument: Instrument,
+    /// The band table and twilight model.
+    pub bands: BandSet,
+    /// The site (its elevation enters scintillation).
+    pub site: Site,
+    /// Seeing FWHM used, arcsec (default: the instrument's typical seeing).
+    pub seeing_fwhm_arcsec: f64,
+}
+
+impl Photometer {
+    /// A photometer from its parts, with the instrument's typical seeing.
+    pub fn new(instrument: Instrument, bands: BandSet, site: Site) -> Self {
+        let seeing = instrument.seeing_fwhm_arcsec;
+        Photometer {
+            instrument,
+            bands,
+            site,
+            seeing_fwhm_arcsec: seeing,
+        }
+    }
+
+    /// The instrument named `name` (config/ and the user config folder) with
+    /// the band table (built-in merged with the user's bands.toml) at `site`.
+    pub fn from_name(name: &str, site: &Site) -> Result<Self> {
+        Ok(Self::new(
+            instrument::resolve(name)?,
+            BandSet::load()?,
+            site.clone(),
+        ))
+    }
+
+    /// The invented demo instrument ([`DEMO_INSTRUMENT`]) at `site`.
+    pub fn demo(site: &Site) -> Result<Self> {
+        Self::from_name(DEMO_INSTRUMENT, site)
+    }
+
+    /// The same photometer with another seeing FWHM (arcsec, > 0).
+    pub fn with_seeing(mut self, fwhm_arcsec: f64) -> Result<Self> {
+        if !fwhm_arcsec.is_finite() || fwhm_arcsec <= 0.0 || fwhm_arcsec > 30.0 {
+            return Err(RungError::invalid(
+                "seeing",
+                format!("{fwhm_arcsec} arcsec is not a FWHM within (0, 30]"),
+            ));
+        }
+        self.seeing_fwhm_arcsec = fwhm_arcsec;
+        Ok(self)
+    }
+
+    /// Sky brightness in `band` at `place` through `ctx`.
+    pub fn sky(&self, band: &str, ctx: &Context, place: &CatalogPlace) -> Result<SkyBrightness> {
+        self.bands.sky_at(band, ctx, place)
+    }
+
+    fn prepare(
+        &self,
+        mag: f64,
+        band: &str,
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<(Rates, Exposure)> {
+        ccd::check_mag(mag)?;
+        let b = self.bands.get(band)?;
+        self.instrument.throughput_in(&b.name)?;
+        let g = SkyGeometry::at(ctx, place);
+        let sky = crate::sky::sky_brightness(b, &self.bands.twilight, &g)?;
+        let alt_deg = g.target_alt_rad.to_degrees();
+        let airmass = kasten_young(alt_deg).ok_or_else(|| {
+            RungError::invalid(
+                "target position",
+                format!("altitude {alt_deg:.1}° has no airmass"),
+            )
+        })?;
+        let cond = Conditions {
+            airmass,
+            sky_mag_arcsec2: sky.sky_mag_arcsec2,
+            seeing_fwhm_arcsec: self.seeing_fwhm_arcsec,
+            site_elev_m: self.site.elev_m,
+        };
+        let rates = ccd::rates(&self.instrument, b, mag, &cond)?;
+        let template = Exposure {
+            mag,
+            band: b.name.clone(),
+            instrument: self.instrument.name.clone(),
+            airmass,
+            altitude_deg: alt_deg,
+            extinction_mag: rates.extinction_mag,
+            seeing_fwhm_arcsec: self.seeing_fwhm_arcsec,
+            moon_separation_deg: g.moon_sep_rad.to_degrees(),
+            moon_altitude_deg: g.moon_alt_rad.to_degrees(),
+            moon_illumination: (1.0 + g.moon_phase_rad.cos()) / 2.0,
+            sun_altitude_deg: g.sun_alt_rad.to_degrees(),
+            sky_mag_arcsec2: sky.sky_mag_arcsec2,
+            notes: sky.notes.clone(),
+            sky,
+            aperture_radius_arcsec: 0.0,
+            budget: rates.evaluate(1.0, 1, 1.0, f64::INFINITY),
+        };
+        Ok((rates, template))
+    }
+
+    fn finish(&self, mut e: Exposure, budget: NoiseBudget) -> Exposure {
+        e.aperture_radius_arcsec = budget.aperture_radius_pix * self.instrument.pixel_scale_arcsec;
+        if budget.saturated {
+            e.notes.push(format!(
+                "the peak pixel reaches {:.0} e⁻ in the shortest sub-exposure, past saturation ({:.0} e⁻): defocus, use a narrower band or a smaller telescope",
+                budget.peak_pixel_electrons, budget.saturation_electrons
+            ));
+        } else if budget.peak_pixel_electrons > self.instrument.peak_limit_e() * (1.0 + 1e-9) {
+            e.notes.push(format!(
+                "the peak pixel reaches {:.0} e⁻, above the linear limit ({:.0}% of {:.0} e⁻)",
+                budget.peak_pixel_electrons,
+                100.0 * self.instrument.linear_fraction,
+                budget.saturation_electrons
+            ));
+        }
+        if budget.exptime_s > 12.0 * 3600.0 {
+            e.notes.push(format!(
+                "{:.1} h of exposure is more than one night holds: the goal is out of reach for this star with {}",
+                budget.exptime_s / 3600.0,
+                self.instrument.name
+            ));
+        }
+        e.budget = budget;
+        e
+    }
+
+    /// SNR of a star of magnitude `mag` (above the atmosphere) in `band` for a
+    /// total exposure `exptime_s` (s), split to avoid saturation, at `place`
+    /// seen through `ctx`. Errors: bad magnitude or exposure, unknown band,
+    /// target below the horizon.
+    pub fn snr_at(
+        &self,
+        mag: f64,
+        band: &str,
+        exptime_s: f64,
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<Exposure> {
+        ccd::check_exptime(exptime_s)?;
+        let (r, e) = self.prepare(mag, band, ctx, place)?;
+        let b = r.snr_for(exptime_s, &self.instrument);
+        Ok(self.finish(e, b))
+    }
+
+    /// Exposure reaching `snr` on a star of magnitude `mag` in `band` at
+    /// `place` through `ctx`, split into sub-exposures when one would saturate.
+    pub fn exptime_at(
+        &self,
+        mag: f64,
+        band: &str,
+        snr: f64,
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<Exposure> {
+        ccd::check_snr(snr)?;
+        let (r, e) = self.prepare(mag, band, ctx, place)?;
+        let b = r.exptime_for(snr, &self.instrument);
+        Ok(self.finish(e, b))
+    }
+
+    /// Faintest magnitude (above the atmosphere) reaching `snr` in a total
+    /// `exptime_s` in `band` at `place` through `ctx`.
+    pub fn limiting_mag_at(
+        &self,
+        band: &str,
+        exptime_s: f64,
+        snr: f64,
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<f64> {
+        ccd::check_exptime(exptime_s)?;
+        ccd::check_snr(snr)?;
+        let (r, _) = self.prepare(20.0, band, ctx, place)?;
+        Ok(r.limiting_mag(20.0, exptime_s, snr, &self.instrument))
+    }
+}
+
+impl ExposureModel for Photometer {
+    fn snr(
+        &self,
+        mag: f64,
+        band: &str,
+        exptime_s: f64,
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<f64> {
+        Ok(self.snr_at(mag, band, exptime_s, ctx, place)?.budget.snr)
+    }
+
+    /// Errors when the star saturates even in the shortest exposure.
+    fn exptime(
+        &self,
+        mag: f64,
+        band: &str,
+        snr: f64,
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<(f64, u32)> {
+        let e = self.exptime_at(mag, band, snr, ctx, place)?;
+        if e.budget.saturated {
+            return Err(RungError::invalid(
+                "magnitude",
+                format!(
+                    "{} = {mag} saturates {} even in its shortest exposure ({} s)",
+                    e.band, self.instrument.name, self.instrument.min_exptime_s
+                ),
+            ));
+        }
+        Ok((e.budget.exptime_s, e.budget.n_exposures))
+    }
+
+    fn visit_overhead_s(&self) -> f64 {
+        self.instrument.visit_overhead_s
+    }
+
+    fn readout_s(&self) -> f64 {
+        self.instrument.readout_s
+    }
+
+    fn seeing_fwhm_arcsec(&self) -> f64 {
+        self.seeing_fwhm_arcsec
+    }
+}

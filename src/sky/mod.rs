@@ -1,1 +1,270 @@
-//! See DESIGN.md.
+//! Sky brightness at a target and instant: the dark sky scaled with airmass,
+//! the Moon term of Krisciunas & Schaefer (1991, PASP 103, 1033), a twilight
+//! term (the project's own approximation), and atmospheric extinction.
+//!
+//! Surface brightness is carried in nanoLamberts (nL) inside the K&S formulas,
+//! as in the paper, and converted to mag arcsec⁻² with the paper's eq. (1):
+//! B(nL) = 34.08 exp(20.7233 − 0.92104 V). The same conversion is used for
+//! every band (it is a pure 10^(−0.4 m) scaling, since 0.92104 ≈ 0.4 ln 10), so
+//! light from the different terms can be added in any band.
+//!
+//! The K&S formulas and equation numbers cited in this module are quoted from
+//! memory of the paper; the code is checked against an independent numpy
+//! implementation (tests/reference/make_sky_fixtures.py, tests/photometry_sky.rs).
+
+pub mod bands;
+
+use crate::astro::frames::{CatalogPlace, Context};
+use crate::error::{Result, RungError};
+pub use bands::{Band, BandSet, TwilightModel};
+use serde::Serialize;
+
+/// Surface brightness in nanoLamberts of a sky of `mag` mag arcsec⁻²:
+/// B = 34.08 exp(20.7233 − 0.92104 m), Krisciunas & Schaefer (1991) eq. (1).
+pub fn nl_from_mag(mag_arcsec2: f64) -> f64 {
+    34.08 * (20.7233 - 0.92104 * mag_arcsec2).exp()
+}
+
+/// Inverse of [`nl_from_mag`]: m = (20.7233 − ln(B / 34.08)) / 0.92104 mag arcsec⁻²
+/// (Krisciunas & Schaefer 1991, eq. 1).
+pub fn mag_from_nl(b_nl: f64) -> f64 {
+    (20.7233 - (b_nl / 34.08).ln()) / 0.92104
+}
+
+/// Krisciunas & Schaefer (1991) eq. (3): the airmass used in their sky model,
+/// X(Z) = (1 − 0.96 sin² Z)^−1/2, from the zenith distance `z_rad` (radians).
+/// Finite at the horizon (X = 5 at Z = 90°); meant for the scattering geometry,
+/// not for stellar extinction (use Kasten–Young there).
+pub fn ks_airmass(z_rad: f64) -> f64 {
+    (1.0 - 0.96 * z_rad.sin().powi(2)).powf(-0.5)
+}
+
+/// Krisciunas & Schaefer (1991) eq. (20): illuminance of the Moon outside the
+/// atmosphere, in the paper's units, I* = 10^(−0.4 (3.84 + 0.026 |α| + 4·10⁻⁹ α⁴)),
+/// α the lunar phase angle in degrees (0 at full Moon), here given in radians.
+/// The opposition surge near full Moon (|α| ≲ 7°) is not represented (from memory
+/// of the paper's discussion).
+pub fn ks_moon_illuminance(phase_rad: f64) -> f64 {
+    let a = phase_rad.to_degrees().abs();
+    10f64.powf(-0.4 * (3.84 + 0.026 * a + 4e-9 * a.powi(4)))
+}
+
+/// Krisciunas & Schaefer (1991) eqs. (17)–(21): the scattering function
+/// f(ρ) = f_R + f_M, Rayleigh f_R = 10^5.36 (1.06 + cos² ρ) and Mie
+/// f_M = 10^(6.15 − ρ/40) for ρ > 10°, or 6.2·10⁷ ρ⁻² for ρ ≤ 10° (ρ in
+/// degrees, the Moon–target separation, given here in radians; ρ is floored
+/// at 0.25°, the Moon's radius).
+pub fn ks_scattering(sep_rad: f64) -> f64 {
+    let rho = sep_rad.to_degrees().abs();
+    let f_r = 10f64.powf(5.36) * (1.06 + sep_rad.cos().powi(2));
+    let f_m = if rho > 10.0 {
+        10f64.powf(6.15 - rho / 40.0)
+    } else {
+        6.2e7 / rho.max(0.25).powi(2)
+    };
+    f_r + f_m
+}
+
+/// Krisciunas & Schaefer (1991) eq. (15): sky brightness from scattered
+/// moonlight, nL,
+/// B_moon = f(ρ) I* 10^(−0.4 k X(Z_m)) [1 − 10^(−0.4 k X(Z))].
+/// Inputs: lunar phase angle `phase_rad` (0 = full), Moon–target separation
+/// `sep_rad`, zenith distances of the Moon `z_moon_rad` and of the target
+/// `z_rad` (radians), extinction `k` (mag/airmass). Zero when the Moon is below
+/// the horizon (Z_m ≥ 90°). Accuracy: the paper quotes agreement with its
+/// observations to 8–23 % in brightness (quoted from memory).
+pub fn ks_moon_nl(phase_rad: f64, sep_rad: f64, z_moon_rad: f64, z_rad: f64, k: f64) -> f64 {
+    if z_moon_rad >= std::f64::consts::FRAC_PI_2 {
+        return 0.0;
+    }
+    let xm = ks_airmass(z_moon_rad);
+    let x = ks_airmass(z_rad);
+    ks_scattering(sep_rad)
+        * ks_moon_illuminance(phase_rad)
+        * 10f64.powf(-0.4 * k * xm)
+        * (1.0 - 10f64.powf(-0.4 * k * x))
+}
+
+/// Krisciunas & Schaefer (1991) eq. (2): dark-sky brightness at zenith
+/// distance `z_rad` from the zenith value `b_zen_nl` (nL),
+/// B = B_zen 10^(−0.4 k (X − 1)) X with X from [`ks_airmass`].
+pub fn ks_dark_nl(b_zen_nl: f64, z_rad: f64, k: f64) -> f64 {
+    let x = ks_airmass(z_rad);
+    b_zen_nl * 10f64.powf(-0.4 * k * (x - 1.0)) * x
+}
+
+/// The twilight light at the zenith in V, mag arcsec⁻², at Sun altitude
+/// `sun_alt_rad` (radians), or `None` when the Sun is below
+/// `dark_sun_alt_deg` (no twilight). The project's own approximation (see
+/// config/bands.toml): linear in magnitude with solar depression,
+/// m = m_ref + s (h_ref − h☉). Above `model_top_sun_alt_deg` the value at that
+/// altitude is returned (the real sky is brighter; callers say so).
+pub fn twilight_v_mag_arcsec2(sun_alt_rad: f64, m: &TwilightModel) -> Option<f64> {
+    let h = sun_alt_rad.to_degrees();
+    if h <= m.dark_sun_alt_deg {
+        return None;
+    }
+    let h = h.min(m.model_top_sun_alt_deg);
+    Some(m.v_zenith_mag_arcsec2_at_ref + m.slope_mag_per_deg * (m.ref_sun_alt_deg - h))
+}
+
+/// Atmospheric extinction of a star, mag: k X (first order; k from the band
+/// table, X the Kasten–Young airmass).
+pub fn extinction_mag(band: &Band, airmass: f64) -> f64 {
+    band.extinction_mag_per_airmass * airmass
+}
+
+/// The geometry the sky model needs, at one target and instant.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct SkyGeometry {
+    /// Observed (refracted) altitude of the target, radians.
+    pub target_alt_rad: f64,
+    /// Geometric altitude of the Moon's centre (topocentric), radians.
+    pub moon_alt_rad: f64,
+    /// Moon–target separation, radians.
+    pub moon_sep_rad: f64,
+    /// Lunar phase angle, radians (0 = full Moon).
+    pub moon_phase_rad: f64,
+    /// Geometric altitude of the Sun's centre, radians.
+    pub sun_alt_rad: f64,
+}
+
+impl SkyGeometry {
+    /// The geometry of `place` seen through `ctx` (SOFA observed places of the
+    /// target, Sun and Moon; phase from `Context::moon_phase_angle_rad`).
+    pub fn at(ctx: &Context, place: &CatalogPlace) -> Self {
+        let o = ctx.observe(place);
+        let moon = ctx.moon();
+        let sun = ctx.sun();
+        SkyGeometry {
+            target_alt_rad: o.alt_rad,
+            moon_alt_rad: moon.alt_geom_rad,
+            moon_sep_rad: o.separation_rad(&moon),
+            moon_phase_rad: ctx.moon_phase_angle_rad(),
+            sun_alt_rad: sun.alt_geom_rad,
+        }
+    }
+}
+
+/// Sky brightness at a target, one band, with its parts.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SkyBrightness {
+    /// Band name.
+    pub band: String,
+    /// Total sky brightness, mag arcsec⁻².
+    pub sky_mag_arcsec2: f64,
+    /// Dark sky at the target (airmass-scaled), mag arcsec⁻².
+    pub dark_mag_arcsec2: f64,
+    /// Moon term alone, mag arcsec⁻² (`None` when the Moon is down).
+    pub moon_mag_arcsec2: Option<f64>,
+    /// Twilight term alone, mag arcsec⁻² (`None` when the Sun is below the dark limit).
+    pub twilight_mag_arcsec2: Option<f64>,
+    /// Brightening over the dark zenith sky, mag (positive = brighter).
+    pub brightening_mag: f64,
+    /// Cautions about the model's validity here.
+    pub notes: Vec<String>,
+}
+
+/// Sky brightness in `band` for the geometry `g`: the K&S dark sky scaled with
+/// airmass, the K&S Moon term (evaluated with the band's extinction and shifted
+/// by the band's moonlight colour: exact K&S in V, an approximation in other
+/// bands), and the twilight term shifted by the band's twilight colour, added
+/// as light. Error when the target is below the horizon. Accuracy: K&S quote
+/// 8–23 % in V (from memory); other bands and twilight are approximations.
+pub fn sky_brightness(band: &Band, tw: &TwilightModel, g: &SkyGeometry) -> Result<SkyBrightness> {
+    if g.target_alt_rad.is_nan() || g.target_alt_rad <= 0.0 {
+        return Err(RungError::invalid(
+            "target position",
+            format!(
+                "the target is below the horizon (altitude {:.1}°); no sky brightness or signal-to-noise there",
+                g.target_alt_rad.to_degrees()
+            ),
+        ));
+    }
+    let z = std::f64::consts::FRAC_PI_2 - g.target_alt_rad;
+    let k = band.extinction_mag_per_airmass;
+    let dark = ks_dark_nl(nl_from_mag(band.dark_sky_zenith_mag_arcsec2), z, k);
+    let z_moon = std::f64::consts::FRAC_PI_2 - g.moon_alt_rad;
+    let moon_v = ks_moon_nl(g.moon_phase_rad, g.moon_sep_rad, z_moon, z, k);
+    let moon = if moon_v > 0.0 {
+        nl_from_mag(mag_from_nl(moon_v) + band.moon_colour_mag)
+    } else {
+        0.0
+    };
+    let tw_mag = twilight_v_mag_arcsec2(g.sun_alt_rad, tw).map(|m| m + band.twilight_colour_mag);
+    let twl = tw_mag.map(nl_from_mag).unwrap_or(0.0);
+    let total = dark + moon + twl;
+    let sky = mag_from_nl(total);
+    let mut notes = Vec::new();
+    if g.sun_alt_rad.to_degrees() > tw.model_top_sun_alt_deg {
+        notes.push(format!(
+            "the Sun is at {:.1}°, above {:.0}°: the twilight model stops there and the real sky is brighter than {:.2} mag/arcsec²",
+            g.sun_alt_rad.to_degrees(),
+            tw.model_top_sun_alt_deg,
+            sky
+        ));
+    }
+    if moon > 0.0 && g.moon_sep_rad.to_degrees() < 10.0 {
+        notes.push(format!(
+            "the target is {:.1}° from the Moon: scattered light there is poorly known",
+            g.moon_sep_rad.to_degrees()
+        ));
+    }
+    Ok(SkyBrightness {
+        band: band.name.clone(),
+        sky_mag_arcsec2: sky,
+        dark_mag_arcsec2: mag_from_nl(dark),
+        moon_mag_arcsec2: (moon > 0.0).then(|| mag_from_nl(moon)),
+        twilight_mag_arcsec2: tw_mag,
+        brightening_mag: band.dark_sky_zenith_mag_arcsec2 - sky,
+        notes,
+    })
+}
+
+impl BandSet {
+    /// Sky brightness in the band named `band` at `place` seen through `ctx`.
+    pub fn sky_at(&self, band: &str, ctx: &Context, place: &CatalogPlace) -> Result<SkyBrightness> {
+        let b = self.get(band)?;
+        sky_brightness(b, &self.twilight, &SkyGeometry::at(ctx, place))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn nl_conversion_round_trips_and_is_a_magnitude_scale() {
+        for m in [15.0, 18.3, 21.587, 23.0] {
+            assert!((mag_from_nl(nl_from_mag(m)) - m).abs() < 1e-12);
+        }
+        // 0.92104 is 0.4 ln 10 to 5 digits: one magnitude is a factor 10^0.4.
+        let r = nl_from_mag(20.0) / nl_from_mag(21.0);
+        assert!((r - 10f64.powf(0.4)).abs() < 1e-4);
+        // Krisciunas & Schaefer (1991): V = 21.587 is B_zen ≈ 79.0 nL, their
+        // Mauna Kea dark sky (quoted from memory).
+        assert!((nl_from_mag(21.587) - 79.0).abs() < 0.2);
+    }
+
+    #[test]
+    fn ks_airmass_limits() {
+        assert!((ks_airmass(0.0) - 1.0).abs() < 1e-15);
+        assert!((ks_airmass(std::f64::consts::FRAC_PI_2) - 5.0).abs() < 1e-12);
+    }
+
+    #[test]
+    fn moon_below_horizon_gives_nothing() {
+        assert_eq!(ks_moon_nl(0.0, 0.5, 1.6, 0.3, 0.15), 0.0);
+    }
+
+    #[test]
+    fn twilight_steps() {
+        let m = BandSet::builtin().unwrap().twilight;
+        assert!(twilight_v_mag_arcsec2((-19f64).to_radians(), &m).is_none());
+        let a = twilight_v_mag_arcsec2((-12f64).to_radians(), &m).unwrap();
+        let b = twilight_v_mag_arcsec2((-15f64).to_radians(), &m).unwrap();
+        assert!((a - 18.0).abs() < 1e-9 && b > a);
+        let c = twilight_v_mag_arcsec2(10f64.to_radians(), &m).unwrap();
+        assert!((c - 12.0).abs() < 1e-9);
+    }
+}

@@ -1,0 +1,520 @@
+//! `rung phase`: phase coverage of a pulsating star over a range of nights, a
+//! visit plan covering its phase bins, and the distance precision it buys.
+
+use anyhow::{Context as _, Result, bail};
+use rung::astro::bary::bjd_tdb;
+use rung::astro::night::Limits;
+use rung::astro::time::{parse_date, parse_instant};
+use rung::io::angles::{parse_dec_deg, parse_ra_deg};
+use rung::io::sites;
+use rung::io::targets::{BANDS, Kind, Target};
+use rung::ladder::pulsator::{PhaseReport, PulsatorConfig, PulsatorMethod};
+use rung::ladder::{ExposureModel, Setting, Verdict};
+use rung::photometry::{DEMO_INSTRUMENT, Photometer};
+use serde_json::{Map, Value, json};
+use std::path::PathBuf;
+
+/// Arguments of `rung phase`.
+#[derive(clap::Args)]
+pub struct Args {
+    /// Site name from the catalogue, or LAT,LON,ELEV_M[,ZONE].
+    #[arg(long, default_value = super::DEMO_SITE)]
+    pub site: String,
+    /// A pulsator by name from --targets (default: the demo programme).
+    #[arg(long)]
+    pub target: Option<String>,
+    /// Targets file (CSV or TOML) for --target.
+    #[arg(long)]
+    pub targets: Option<PathBuf>,
+    /// Right ascension (ICRS): degrees or HH:MM:SS.s (instead of --target).
+    #[arg(long, allow_hyphen_values = true)]
+    pub ra: Option<String>,
+    /// Declination (ICRS): degrees or ±DD:MM:SS.
+    #[arg(long, allow_hyphen_values = true)]
+    pub dec: Option<String>,
+    /// Pulsation period, days (overrides the target's).
+    #[arg(long, allow_hyphen_values = true)]
+    pub period_d: Option<f64>,
+    /// Epoch of maximum light, BJD_TDB (overrides the target's).
+    #[arg(long, allow_hyphen_values = true)]
+    pub epoch_max_bjd: Option<f64>,
+    /// Period uncertainty, days.
+    #[arg(long, allow_hyphen_values = true)]
+    pub period_err_d: Option<f64>,
+    /// Peak-to-peak amplitude, mag.
+    #[arg(long, allow_hyphen_values = true)]
+    pub amplitude_mag: Option<f64>,
+    /// Mean magnitude in the band, mag.
+    #[arg(long, allow_hyphen_values = true)]
+    pub mean_mag: Option<f64>,
+    /// Photometric band (U, B, V, R, I).
+    #[arg(long)]
+    pub band: Option<String>,
+    /// Foreground extinction in the band, mag.
+    #[arg(long, allow_hyphen_values = true)]
+    pub extinction_mag: Option<f64>,
+    /// First night (local date of its evening, YYYY-MM-DD); default today (UTC).
+    #[arg(long)]
+    pub from: Option<String>,
+    /// Number of nights from --from.
+    #[arg(long, default_value_t = 30)]
+    pub nights: u32,
+    /// Last night, inclusive (instead of --nights).
+    #[arg(long)]
+    pub to: Option<String>,
+    /// Phase bins to cover (default from config/pulsator.toml: 10).
+    #[arg(long)]
+    pub bins: Option<usize>,
+    /// Fourier harmonics of the light-curve fit (default from config: 3).
+    #[arg(long)]
+    pub harmonics: Option<usize>,
+    /// Per-point signal-to-noise exposures are sized for (default from config: 100).
+    #[arg(long)]
+    pub snr: Option<f64>,
+    /// Warn when coverage needs more nights than this (default from config: 10).
+    #[arg(long)]
+    pub max_nights: Option<usize>,
+    /// Distance-precision goal, percent: plan the points and exposures that reach it.
+    #[arg(long)]
+    pub goal_pct: Option<f64>,
+    /// Instrument profile for exposures (config/instruments.toml).
+    #[arg(long, default_value = DEMO_INSTRUMENT)]
+    pub instrument: String,
+    /// Minimum altitude for the window, degrees.
+    #[arg(long, default_value_t = 30.0, allow_hyphen_values = true)]
+    pub min_alt: f64,
+    /// The Sun must be below this altitude for the window, degrees.
+    #[arg(long, default_value_t = -12.0, allow_hyphen_values = true)]
+    pub sun_alt: f64,
+    /// Also give the phase at this instant (ISO 8601 or 'now').
+    #[arg(long)]
+    pub at: Option<String>,
+    /// Machine-readable output.
+    #[arg(long)]
+    pub json: bool,
+}
+
+fn build_target(a: &Args) -> Result<Target> {
+    let mut t = match (&a.target, &a.ra, &a.dec) {
+        (Some(n), _, _) => {
+            let file = a
+                .targets
+                .clone()
+                .unwrap_or_else(|| super::demo_dir().join("targets.csv"));
+            let ts = super::load_targets(&file)?;
+            let t = ts
+                .into_iter()
+                .find(|x| x.name.eq_ignore_ascii_case(n))
+                .with_context(|| format!("no target named '{n}' in {}", file.display()))?;
+            if t.kind != Kind::Pulsator && a.period_d.is_none() {
+                bail!(
+                    "target '{}' is a {} target, not a pulsator; give --period-d and --epoch-max-bjd to treat it as one",
+                    t.name,
+                    t.kind.as_str()
+                );
+            }
+            t
+        }
+        (None, Some(r), Some(d)) => {
+            let mut t = Target::plain("coordinates", parse_ra_deg(r)?, parse_dec_deg(d)?);
+            t.kind = Kind::Pulsator;
+            t
+        }
+        _ => bail!(
+            "give --target NAME (with --targets FILE), or --ra, --dec, --period-d and --epoch-max-bjd"
+        ),
+    };
+    t.kind = Kind::Pulsator;
+    if a.period_d.is_some() {
+        t.period_d = a.period_d;
+    }
+    if a.epoch_max_bjd.is_some() {
+        t.epoch_max_bjd = a.epoch_max_bjd;
+    }
+    if a.period_err_d.is_some() {
+        t.period_err_d = a.period_err_d;
+    }
+    if a.amplitude_mag.is_some() {
+        t.amplitude_mag = a.amplitude_mag;
+    }
+    if a.mean_mag.is_some() {
+        t.mean_mag = a.mean_mag;
+    }
+    if let Some(x) = a.extinction_mag {
+        t.extinction_mag = x;
+    }
+    if let Some(b) = &a.band {
+        let up = b.trim().to_ascii_uppercase();
+        if !BANDS.contains(&up.as_str()) {
+            bail!("--band '{b}' is not one of U, B, V, R, I");
+        }
+        t.band = up;
+    }
+    if t.period_d.is_none() {
+        bail!(
+            "no period for '{}': give --period-d DAYS (a pulsator needs its period)",
+            t.name
+        );
+    }
+    if t.epoch_max_bjd.is_none() {
+        bail!(
+            "no epoch for '{}': give --epoch-max-bjd, the BJD_TDB of a maximum of light",
+            t.name
+        );
+    }
+    Ok(t)
+}
+
+fn opt_num(x: f64) -> Value {
+    if x.is_finite() { json!(x) } else { Value::Null }
+}
+
+/// Run `rung phase`.
+pub fn run(a: Args) -> Result<()> {
+    let site = sites::resolve(&a.site)?;
+    let limits = Limits::new(a.min_alt, a.sun_alt)?;
+    let target = build_target(&a)?;
+    let from_text = a
+        .from
+        .clone()
+        .unwrap_or_else(|| chrono::Utc::now().date_naive().to_string());
+    let from = parse_date(&from_text).context("--from")?;
+    let to = match &a.to {
+        Some(s) => parse_date(s).context("--to")?,
+        None => {
+            if a.nights == 0 {
+                bail!("--nights must be at least 1");
+            }
+            from + chrono::Days::new(a.nights as u64 - 1)
+        }
+    };
+    let mut m = PulsatorMethod::with_config(PulsatorConfig::load()?);
+    if let Some(b) = a.bins {
+        m.bins = b;
+    }
+    if let Some(k) = a.harmonics {
+        m.harmonics = k;
+    }
+    if let Some(s) = a.snr {
+        m.snr = s;
+    }
+    if let Some(n) = a.max_nights {
+        m.max_nights = n;
+    }
+    let photometer = Photometer::from_name(&a.instrument, &site)?;
+    let em: &dyn ExposureModel = &photometer;
+    let s = Setting {
+        site: &site,
+        target: &target,
+        from,
+        to,
+        limits,
+    };
+    let r = match a.goal_pct.or(target.goal_pct) {
+        Some(g) if target.mean_mag.is_some() => m.goal_report(&s, em, g)?,
+        _ => m.analyse(&s, Some(em))?,
+    };
+    let goal = a.goal_pct.or(target.goal_pct);
+    let at = match &a.at {
+        Some(text) => {
+            let t = parse_instant(text).context("--at")?;
+            let b = bjd_tdb(&site, t, &r.star.place)?;
+            Some((t, b))
+        }
+        None => None,
+    };
+    if a.json {
+        print_json(&a, &site, &target, &m, &r, goal, at)?;
+    } else {
+        print_text(&site, &target, &m, &r, goal, at);
+    }
+    Ok(())
+}
+
+#[allow(clippy::too_many_arguments)]
+fn print_json(
+    a: &Args,
+    site: &rung::astro::site::Site,
+    target: &Target,
+    m: &PulsatorMethod,
+    r: &PhaseReport,
+    goal: Option<f64>,
+    at: Option<(rung::astro::time::Instant, rung::astro::bary::Bjd)>,
+) -> Result<()> {
+    let e = &r.star.ephemeris;
+    let mut o = Map::new();
+    o.insert("target".into(), json!(target.name));
+    o.insert("site".into(), json!(site.name));
+    o.insert("instrument".into(), json!(a.instrument));
+    o.insert("period_d".into(), json!(e.period_d));
+    o.insert("epoch_max_bjd".into(), json!(e.epoch_max_bjd));
+    o.insert("period_err_d".into(), json!(e.period_err_d));
+    o.insert("band".into(), json!(r.star.band));
+    o.insert("mean_mag".into(), json!(r.star.mean_mag));
+    o.insert("amplitude_mag".into(), json!(r.star.amplitude_mag));
+    o.insert("extinction_mag".into(), json!(r.star.extinction_mag));
+    o.insert("min_alt_deg".into(), json!(a.min_alt));
+    o.insert("sun_alt_deg".into(), json!(a.sun_alt));
+    o.insert("bins".into(), json!(r.plan.bins));
+    o.insert("harmonics".into(), json!(m.harmonics));
+    // Nights: one row per window, and one row with nulls for a night without one.
+    let mut rows: Vec<(chrono::NaiveDate, Value)> = r
+        .windows
+        .iter()
+        .map(|w| {
+            (
+                w.night,
+                json!({
+                    "night": w.night.to_string(),
+                    "window_start": w.start.iso(),
+                    "window_end": w.end.iso(),
+                    "bjd_tdb_start": w.bjd_start.jd(),
+                    "bjd_tdb_end": w.bjd_end.jd(),
+                    "phase_start": w.phase_start,
+                    "phase_end": w.phase_end,
+                    "phase_span": w.span_cycles,
+                    "observable_hours": w.end.seconds_since(&w.start) / 3600.0,
+                }),
+            )
+        })
+        .collect();
+    for d in &r.dark_nights {
+        rows.push((
+            *d,
+            json!({
+                "night": d.to_string(),
+                "window_start": null, "window_end": null,
+                "bjd_tdb_start": null, "bjd_tdb_end": null,
+                "phase_start": null, "phase_end": null,
+                "phase_span": 0.0, "observable_hours": 0.0,
+            }),
+        ));
+    }
+    rows.sort_by_key(|x| x.0);
+    o.insert(
+        "nights".into(),
+        Value::Array(rows.into_iter().map(|x| x.1).collect()),
+    );
+    let visits: Vec<Value> = r
+        .plan
+        .visits
+        .iter()
+        .enumerate()
+        .map(|(i, v)| {
+            let mut x = Map::new();
+            x.insert("time".into(), json!(v.time.iso()));
+            x.insert("night".into(), json!(v.night.to_string()));
+            x.insert("bjd_tdb".into(), json!(v.bjd.jd()));
+            x.insert("phase".into(), json!(v.phase));
+            x.insert("bin".into(), json!(v.bin));
+            if let Some(ep) = r.epochs.get(i) {
+                x.insert("exptime_s".into(), json!(ep.exptime_s));
+                x.insert("n_exposures".into(), json!(ep.n_exposures));
+                x.insert("snr".into(), json!(ep.snr));
+                x.insert("airmass".into(), opt_num(ep.airmass));
+                x.insert("visit_s".into(), json!(ep.visit_s));
+            }
+            Value::Object(x)
+        })
+        .collect();
+    o.insert("visits".into(), Value::Array(visits));
+    o.insert("bins_covered".into(), json!(r.plan.bins_covered));
+    o.insert("missing_bins".into(), json!(r.plan.missing_bins));
+    o.insert("nights_needed".into(), json!(r.plan.nights_needed()));
+    o.insert(
+        "nights_used".into(),
+        json!(
+            r.plan
+                .nights
+                .iter()
+                .map(|d| d.to_string())
+                .collect::<Vec<_>>()
+        ),
+    );
+    o.insert("beat_period_d".into(), json!(r.alias.beat_period_d));
+    o.insert("alias_m".into(), json!(r.alias.m));
+    o.insert("alias_k".into(), json!(r.alias.k));
+    o.insert("phase_sigma".into(), json!(r.phase_sigma));
+    o.insert("phase_sigma_start".into(), json!(r.phase_sigma_start));
+    o.insert("stale_ephemeris".into(), json!(r.stale));
+    if let Some((t, b)) = at {
+        o.insert("at".into(), json!(t.iso()));
+        o.insert("bjd_tdb_at".into(), json!(b.jd()));
+        o.insert("phase_at".into(), json!(e.phase(&b)));
+        o.insert("phase_sigma_at".into(), json!(e.phase_sigma(&b)));
+    }
+    let p = r.prediction.as_ref();
+    o.insert(
+        "distance_precision_pct".into(),
+        p.map(|p| opt_num(p.distance_precision_pct))
+            .unwrap_or(Value::Null),
+    );
+    o.insert(
+        "hours_needed".into(),
+        p.map(|p| json!(p.hours_needed)).unwrap_or(Value::Null),
+    );
+    o.insert("goal_pct".into(), json!(goal));
+    o.insert("points_needed".into(), json!(r.plan.bins));
+    o.insert("snr_per_point".into(), json!(r.snr_per_point));
+    o.insert(
+        "exptime_per_point_s".into(),
+        r.epochs
+            .iter()
+            .map(|e| e.exptime_s)
+            .fold(None, |m: Option<f64>, x| Some(m.map_or(x, |m| m.max(x))))
+            .map(opt_num)
+            .unwrap_or(Value::Null),
+    );
+    o.insert(
+        "verdict".into(),
+        p.map(|p| serde_json::to_value(&p.verdict))
+            .transpose()?
+            .unwrap_or(Value::Null),
+    );
+    let b = r.budget.as_ref();
+    for (k, f) in [
+        ("distance_modulus_mag", b.map(|b| b.distance_modulus_mag)),
+        ("distance_pc", b.map(|b| b.distance_pc)),
+        ("abs_mag", b.map(|b| b.abs_mag)),
+        ("sigma_mu_mag", b.map(|b| b.sigma_mu_mag)),
+        ("sigma_mean_mag", b.map(|b| b.sigma_mean_mag)),
+        ("sigma_mean_rule_mag", r.sigma_mean_rule_mag),
+        ("sigma_pl_mag", b.map(|b| b.sigma_pl_mag)),
+        ("sigma_ext_mag", b.map(|b| b.sigma_ext_mag)),
+        ("floor_pct", b.map(|b| b.floor_pct)),
+    ] {
+        o.insert(k.into(), f.map(opt_num).unwrap_or(Value::Null));
+    }
+    o.insert("cautions".into(), json!(r.cautions));
+    o.insert("notes".into(), json!(r.notes));
+    println!("{}", serde_json::to_string_pretty(&Value::Object(o))?);
+    Ok(())
+}
+
+fn print_text(
+    site: &rung::astro::site::Site,
+    target: &Target,
+    m: &PulsatorMethod,
+    r: &PhaseReport,
+    goal: Option<f64>,
+    at: Option<(rung::astro::time::Instant, rung::astro::bary::Bjd)>,
+) {
+    let e = &r.star.ephemeris;
+    println!(
+        "{} (P = {} d, E0 = BJD_TDB {}, ±{} d) from {}; times local {} / UTC",
+        target.name,
+        e.period_d,
+        e.epoch_max_bjd,
+        e.period_err_d,
+        site.name,
+        site.timezone.name()
+    );
+    if let Some((t, b)) = at {
+        println!(
+            "  at {}: BJD_TDB {:.5}, phase {:.3} ± {:.3}",
+            t.iso(),
+            b.jd(),
+            e.phase(&b),
+            e.phase_sigma(&b)
+        );
+    }
+    println!(
+        "  {:<10} {:>13} {:>13}   {:>6} → {:<6} {:>6}",
+        "night", "window local", "window UTC", "phase", "", "span"
+    );
+    let mut rows: Vec<(chrono::NaiveDate, String)> = r
+        .windows
+        .iter()
+        .map(|w| {
+            (
+                w.night,
+                format!(
+                    "  {:<10} {:>5}–{:<7} {:>5}–{:<7}  {:>6.3} → {:<6.3} {:>6.3}",
+                    w.night.to_string(),
+                    super::local_hm(Some(w.start), site),
+                    super::local_hm(Some(w.end), site),
+                    super::utc_hm(Some(w.start)),
+                    super::utc_hm(Some(w.end)),
+                    w.phase_start,
+                    w.phase_end,
+                    w.span_cycles
+                ),
+            )
+        })
+        .collect();
+    for d in &r.dark_nights {
+        rows.push((*d, format!("  {:<10} not observable", d.to_string())));
+    }
+    rows.sort_by_key(|x| x.0);
+    for (_, l) in rows {
+        println!("{l}");
+    }
+    println!(
+        "Visit plan: {} of {} phase bins on {} night(s)",
+        r.plan.bins_covered,
+        r.plan.bins,
+        r.plan.nights_needed()
+    );
+    println!(
+        "  {:<20} {:>6} {:>4} {:>9} {:>5} {:>7}",
+        "UTC", "phase", "bin", "exptime_s", "snr", "airmass"
+    );
+    for (i, v) in r.plan.visits.iter().enumerate() {
+        let ep = r.epochs.get(i);
+        println!(
+            "  {:<20} {:>6.3} {:>4} {:>9} {:>5} {:>7}",
+            v.time.iso(),
+            v.phase,
+            v.bin,
+            super::opt(ep.map(|x| x.exptime_s), 1),
+            super::opt(ep.map(|x| x.snr), 0),
+            super::opt(ep.map(|x| x.airmass).filter(|x| x.is_finite()), 2)
+        );
+    }
+    match r.alias.beat_period_d {
+        Some(b) => println!(
+            "Beat period (day alias {}/{}): {:.2} d",
+            r.alias.m, r.alias.k, b
+        ),
+        None => println!(
+            "Beat period: none, 1/P = {}/{} per day exactly",
+            r.alias.m, r.alias.k
+        ),
+    }
+    println!(
+        "Phase uncertainty: {:.4} at the start, {:.4} at the end of the range{}",
+        r.phase_sigma_start,
+        r.phase_sigma,
+        if r.stale { " (STALE)" } else { "" }
+    );
+    if let (Some(p), Some(b)) = (&r.prediction, &r.budget) {
+        println!(
+            "Distance: μ = {:.3} mag ({:.0} pc); σ_μ = {:.3} mag (relation {:.3}, mean mag {:.4}, extinction {:.3}, K = {}) → σ_d/d = {:.2} % in {:.2} h{}",
+            b.distance_modulus_mag,
+            b.distance_pc,
+            b.sigma_mu_mag,
+            b.sigma_pl_mag,
+            b.sigma_mean_mag,
+            b.sigma_ext_mag,
+            m.harmonics,
+            p.distance_precision_pct,
+            p.hours_needed,
+            goal.map(|g| format!(" (goal {g} %)")).unwrap_or_default()
+        );
+        match &p.verdict {
+            Verdict::LimitedByFloor { floor_pct } => {
+                println!("  goal out of reach: floor {floor_pct:.2} % from the relation's scatter")
+            }
+            Verdict::NeedsMoreSeasons { .. } => {
+                println!("  goal not reached: more nights or epochs needed")
+            }
+            _ => {}
+        }
+    }
+    for c in &r.cautions {
+        println!("CAUTION: {c}");
+    }
+    for n in &r.notes {
+        println!("note: {n}");
+    }
+}

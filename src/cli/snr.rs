@@ -1,0 +1,346 @@
+//! `rung snr` and `rung exptime`: signal-to-noise of an exposure, or the
+//! exposure for a signal-to-noise, for one star at a site and instant.
+//!
+//! With `--date` instead of `--at`, the instant is the target's best time that
+//! night: its highest altitude while the Sun is below −18° (astronomical
+//! darkness), or below −12° when the night has no astronomical darkness.
+
+use anyhow::{Context as _, Result, bail};
+use rung::astro::frames::{CatalogPlace, Context};
+use rung::astro::night::{ASTRONOMICAL_DEG, Limits, NAUTICAL_DEG, Night};
+use rung::astro::time::{Instant, parse_date, parse_instant};
+use rung::astro::{pointing, sun_caution};
+use rung::io::angles::{parse_dec_deg, parse_ra_deg};
+use rung::io::sites;
+use rung::io::targets::Target;
+use rung::photometry::{DEMO_INSTRUMENT, Exposure, Photometer};
+use serde_json::json;
+use std::path::PathBuf;
+
+/// Where, when and with what: the arguments both commands share.
+#[derive(clap::Args)]
+pub struct Common {
+    /// Star magnitude above the atmosphere (default: the target's magnitude from --targets).
+    #[arg(long, allow_hyphen_values = true)]
+    pub mag: Option<f64>,
+    /// Band (U, B, V, R, I or one from your bands.toml; default: the target's band, else V).
+    #[arg(long)]
+    pub band: Option<String>,
+    /// Site name from the catalogue, or LAT,LON,ELEV_M[,ZONE].
+    #[arg(long)]
+    pub site: String,
+    /// Right ascension (ICRS): degrees or HH:MM:SS.s.
+    #[arg(long, allow_hyphen_values = true)]
+    pub ra: Option<String>,
+    /// Declination (ICRS): degrees or ±DD:MM:SS.
+    #[arg(long, allow_hyphen_values = true)]
+    pub dec: Option<String>,
+    /// A target name from --targets instead of --ra/--dec.
+    #[arg(long)]
+    pub target: Option<String>,
+    /// Targets file (CSV or TOML) for --target (default: the demo programme).
+    #[arg(long)]
+    pub targets: Option<PathBuf>,
+    /// Instant, ISO 8601 (a time without a zone is UTC), or 'now'.
+    #[arg(long, conflicts_with = "date")]
+    pub at: Option<String>,
+    /// A night (local date of its evening): use the target's best time in it, its
+    /// highest altitude with the Sun below -18° (below -12° if the night has no
+    /// astronomical darkness).
+    #[arg(long)]
+    pub date: Option<String>,
+    /// Instrument name from config/instruments.toml or your instruments.toml.
+    #[arg(long, default_value = DEMO_INSTRUMENT)]
+    pub instrument: String,
+    /// Seeing FWHM, arcsec (default: the instrument's typical seeing).
+    #[arg(long)]
+    pub seeing: Option<f64>,
+    /// Machine-readable output.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// Arguments of `rung snr`.
+#[derive(clap::Args)]
+pub struct SnrArgs {
+    /// Total exposure time, seconds.
+    #[arg(long, allow_hyphen_values = true)]
+    pub exptime: f64,
+    /// Signal-to-noise at which to report the limiting magnitude.
+    #[arg(long, default_value_t = 5.0, allow_hyphen_values = true)]
+    pub limit_snr: f64,
+    #[command(flatten)]
+    pub common: Common,
+}
+
+/// Arguments of `rung exptime`.
+#[derive(clap::Args)]
+pub struct ExptimeArgs {
+    /// Signal-to-noise to reach.
+    #[arg(long, allow_hyphen_values = true)]
+    pub snr: f64,
+    #[command(flatten)]
+    pub common: Common,
+}
+
+struct Setup {
+    site: rung::astro::site::Site,
+    name: String,
+    place: CatalogPlace,
+    mag: f64,
+    band: String,
+    t: Instant,
+    time_rule: &'static str,
+    ph: Photometer,
+}
+
+fn best_time(
+    site: &rung::astro::site::Site,
+    date: &str,
+    place: &CatalogPlace,
+) -> Result<(Instant, &'static str)> {
+    let date = parse_date(date)?;
+    let night = Night::new(site, date)?;
+    for (sun, rule) in [
+        (ASTRONOMICAL_DEG, "highest altitude with the Sun below -18°"),
+        (
+            NAUTICAL_DEG,
+            "highest altitude with the Sun below -12° (no astronomical darkness this night)",
+        ),
+    ] {
+        let tn = night.target(place, &Limits::new(0.0, sun)?);
+        if let (Some(t), Some(alt)) = (tn.max_altitude_time, tn.max_altitude_deg) {
+            if alt > 0.0 {
+                return Ok((t, rule));
+            }
+            bail!(
+                "the target stays below the horizon while the Sun is below {sun}° on the night of {date} (highest {alt:.1}°)"
+            );
+        }
+    }
+    bail!(
+        "the night of {date} has no darkness (the Sun never gets below -12°) at {}",
+        site.name
+    )
+}
+
+fn setup(c: &Common) -> Result<Setup> {
+    let site = sites::resolve(&c.site)?;
+    let (name, place, tg): (String, CatalogPlace, Option<Target>) = match (&c.target, &c.ra, &c.dec)
+    {
+        (Some(n), _, _) => {
+            let file = c
+                .targets
+                .clone()
+                .unwrap_or_else(|| super::demo_dir().join("targets.csv"));
+            let ts = super::load_targets(&file)?;
+            let tg = ts
+                .into_iter()
+                .find(|x| x.name.eq_ignore_ascii_case(n))
+                .with_context(|| format!("no target named '{n}' in {}", file.display()))?;
+            (tg.name.clone(), tg.place(), Some(tg))
+        }
+        (None, Some(r), Some(d)) => (
+            "coordinates".to_string(),
+            CatalogPlace::fixed_deg(parse_ra_deg(r)?, parse_dec_deg(d)?),
+            None,
+        ),
+        _ => bail!("give --ra and --dec, or --target NAME (with --targets FILE)"),
+    };
+    let mag = match (c.mag, &tg) {
+        (Some(m), _) => m,
+        (None, Some(t)) => t
+            .mag
+            .or(t.mean_mag)
+            .or(t.mag_now)
+            .or(t.peak_mag)
+            .with_context(|| format!("target '{}' has no magnitude; give --mag", t.name))?,
+        (None, None) => bail!("give --mag (the star's magnitude above the atmosphere)"),
+    };
+    let band = c
+        .band
+        .clone()
+        .or_else(|| {
+            tg.as_ref()
+                .map(|t| t.band.clone())
+                .filter(|b| !b.is_empty())
+        })
+        .unwrap_or_else(|| "V".to_string());
+    let (t, time_rule) = match (&c.at, &c.date) {
+        (_, Some(d)) => best_time(&site, d, &place)?,
+        (Some(a), None) => (parse_instant(a)?, "given instant"),
+        (None, None) => (parse_instant("now")?, "now"),
+    };
+    let mut ph = Photometer::from_name(&c.instrument, &site)?;
+    if let Some(s) = c.seeing {
+        ph = ph.with_seeing(s)?;
+    }
+    Ok(Setup {
+        site,
+        name,
+        place,
+        mag,
+        band,
+        t,
+        time_rule,
+        ph,
+    })
+}
+
+fn emit(
+    s: &Setup,
+    ctx: &Context,
+    e: &Exposure,
+    extra: &[(&str, serde_json::Value)],
+    json_out: bool,
+    asked: &str,
+) -> Result<()> {
+    let p = pointing(&s.site, ctx, &s.place);
+    let caution = sun_caution(&s.site, &p);
+    let ins = &s.ph.instrument;
+    let visit_s =
+        e.budget.exptime_s + e.budget.n_exposures as f64 * ins.readout_s + ins.visit_overhead_s;
+    if json_out {
+        let mut v = serde_json::to_value(e)?;
+        let o = v.as_object_mut().context("object")?;
+        o.insert("time".into(), json!(s.t.iso()));
+        o.insert("time_rule".into(), json!(s.time_rule));
+        o.insert("site".into(), json!(s.site.name));
+        o.insert("target".into(), json!(s.name));
+        o.insert("readout_s".into(), json!(ins.readout_s));
+        o.insert("visit_overhead_s".into(), json!(ins.visit_overhead_s));
+        o.insert("visit_s".into(), json!(visit_s));
+        for (k, val) in extra {
+            o.insert((*k).into(), val.clone());
+        }
+        o.insert("cautions".into(), json!(caution.iter().collect::<Vec<_>>()));
+        println!("{}", serde_json::to_string_pretty(&v)?);
+        return Ok(());
+    }
+    let b = &e.budget;
+    println!(
+        "{} ({} = {:.2}) from {} with {} at {} ({})",
+        s.name,
+        e.band,
+        e.mag,
+        s.site.name,
+        ins.name,
+        s.t.iso(),
+        s.time_rule
+    );
+    println!("  {asked}");
+    println!(
+        "  altitude {:.1}°, airmass {:.3}, extinction {:.3} mag; seeing {:.2}\"",
+        e.altitude_deg, e.airmass, e.extinction_mag, e.seeing_fwhm_arcsec
+    );
+    let moon = match e.sky.moon_mag_arcsec2 {
+        Some(m) => format!("Moon term {m:.2}"),
+        None => "Moon down".to_string(),
+    };
+    let tw = match e.sky.twilight_mag_arcsec2 {
+        Some(m) => format!(", twilight term {m:.2}"),
+        None => String::new(),
+    };
+    println!(
+        "  sky {:.2} mag/arcsec² in {} (dark {:.2}, {moon}{tw}); Moon {:.0}% lit, {:.1}° away, altitude {:.1}°",
+        e.sky_mag_arcsec2,
+        e.band,
+        e.sky.dark_mag_arcsec2,
+        100.0 * e.moon_illumination,
+        e.moon_separation_deg,
+        e.moon_altitude_deg
+    );
+    println!(
+        "  exposure {:.1} s in {} × {:.1} s; aperture radius {:.2}\" ({:.1} px, {:.0}% of the light), sky annulus {:.0} px",
+        b.exptime_s,
+        b.n_exposures,
+        b.sub_exptime_s,
+        e.aperture_radius_arcsec,
+        b.aperture_pixels,
+        100.0 * b.encircled_fraction,
+        b.background_pixels
+    );
+    println!(
+        "  signal {:.0} e⁻; sky {:.1} e⁻/px, dark {:.2} e⁻/px",
+        b.star_electrons, b.sky_electrons_per_pixel, b.dark_electrons_per_pixel
+    );
+    let var = b.noise_total_e.powi(2).max(f64::MIN_POSITIVE);
+    println!("  noise           e⁻     share of variance");
+    for (label, n) in [
+        ("star", b.noise_star_e),
+        ("sky", b.noise_sky_e),
+        ("dark", b.noise_dark_e),
+        ("read", b.noise_read_e),
+        ("scintillation", b.noise_scintillation_e),
+    ] {
+        println!("    {label:<13} {n:9.1}   {:5.1}%", 100.0 * n * n / var);
+    }
+    println!("    {:<13} {:9.1}", "total", b.noise_total_e);
+    println!(
+        "  SNR {:.1}  ({:.4} mag)",
+        b.snr,
+        2.5 / std::f64::consts::LN_10 / b.snr.max(f64::MIN_POSITIVE)
+    );
+    println!(
+        "  peak pixel {:.0} e⁻ of {:.0} e⁻ ({}); visit with overheads {:.0} s",
+        b.peak_pixel_electrons,
+        b.saturation_electrons,
+        if b.saturated {
+            "SATURATED"
+        } else {
+            "not saturated"
+        },
+        visit_s
+    );
+    if let (Some(lim), Some(snr)) = (
+        extra
+            .iter()
+            .find(|(k, _)| *k == "limiting_mag")
+            .and_then(|(_, v)| v.as_f64()),
+        extra
+            .iter()
+            .find(|(k, _)| *k == "limiting_snr")
+            .and_then(|(_, v)| v.as_f64()),
+    ) {
+        println!("  limiting magnitude {lim:.2} at SNR {snr} in the same exposure");
+    }
+    for n in &e.notes {
+        println!("  note: {n}");
+    }
+    if let Some(c) = caution {
+        println!("  {c}");
+    }
+    Ok(())
+}
+
+/// Run `rung snr`.
+pub fn run_snr(a: SnrArgs) -> Result<()> {
+    let s = setup(&a.common)?;
+    let ctx = Context::exact(&s.site, s.t)?;
+    let e = s.ph.snr_at(s.mag, &s.band, a.exptime, &ctx, &s.place)?;
+    rung::photometry::ccd::check_snr(a.limit_snr).context("--limit-snr")?;
+    let lim =
+        s.ph.limiting_mag_at(&s.band, a.exptime, a.limit_snr, &ctx, &s.place)?;
+    let extra = [
+        ("limiting_mag", json!(lim)),
+        ("limiting_snr", json!(a.limit_snr)),
+    ];
+    let asked = format!("signal-to-noise of a {:.1} s exposure", a.exptime);
+    emit(&s, &ctx, &e, &extra, a.common.json, &asked)
+}
+
+/// Run `rung exptime`.
+pub fn run_exptime(a: ExptimeArgs) -> Result<()> {
+    let s = setup(&a.common)?;
+    let ctx = Context::exact(&s.site, s.t)?;
+    let e = s.ph.exptime_at(s.mag, &s.band, a.snr, &ctx, &s.place)?;
+    let asked = format!("exposure time for SNR {}", a.snr);
+    emit(
+        &s,
+        &ctx,
+        &e,
+        &[("snr_goal", json!(a.snr))],
+        a.common.json,
+        &asked,
+    )
+}

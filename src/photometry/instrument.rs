@@ -1,0 +1,310 @@
+//! Instrument profiles: `config/instruments.toml` (built in) and the user's own
+//! `instruments.toml` in the user config folder, resolved by name like sites.
+
+use crate::error::{Location, Result, RungError};
+use crate::io::sites::user_config_dir;
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
+use std::path::Path;
+
+/// The built-in instrument catalogue (config/instruments.toml), compiled in.
+pub const BUILTIN_INSTRUMENTS: &str = include_str!("../../config/instruments.toml");
+
+/// The demo instrument's catalogue name (invented 1.0 m telescope with a CCD).
+pub const DEMO_INSTRUMENT: &str = "lucero-1m";
+
+/// A telescope with its detector (see config/instruments.toml for each field).
+#[derive(Debug, Clone, PartialEq, Deserialize, Serialize)]
+#[serde(deny_unknown_fields)]
+pub struct Instrument {
+    /// Catalogue name.
+    pub name: String,
+    /// Free text.
+    #[serde(default)]
+    pub description: String,
+    /// Clear aperture diameter, m.
+    pub aperture_m: f64,
+    /// Central obstruction, fraction of the aperture diameter.
+    pub obstruction: f64,
+    /// Pixel scale, arcsec per pixel.
+    pub pixel_scale_arcsec: f64,
+    /// Read noise, electrons rms.
+    pub read_noise_e: f64,
+    /// Dark current, e⁻ pix⁻¹ s⁻¹.
+    pub dark_e_per_pix_s: f64,
+    /// Gain, e⁻ per ADU.
+    pub gain_e_per_adu: f64,
+    /// Full well, electrons.
+    pub full_well_e: f64,
+    /// Converter bits, if the converter saturates before the full well.
+    #[serde(default)]
+    pub adc_bits: Option<u32>,
+    /// Fraction of the saturation level the peak pixel may reach.
+    pub linear_fraction: f64,
+    /// Typical seeing FWHM, arcsec.
+    pub seeing_fwhm_arcsec: f64,
+    /// Readout per exposure, s.
+    pub readout_s: f64,
+    /// Slew and acquisition per visit, s.
+    pub visit_overhead_s: f64,
+    /// Shortest exposure, s.
+    pub min_exptime_s: f64,
+    /// Longest single exposure, s.
+    pub max_sub_exptime_s: f64,
+    /// Sky annulus radii in units of the seeing FWHM (inner, outer).
+    pub sky_annulus_fwhm: [f64; 2],
+    /// End-to-end efficiency per band above the atmosphere.
+    pub throughput: BTreeMap<String, f64>,
+}
+
+impl Instrument {
+    /// Collecting area, cm²: π (D/2)² (1 − ε²), ε the linear obstruction.
+    pub fn area_cm2(&self) -> f64 {
+        let r_cm = self.aperture_m * 50.0;
+        std::f64::consts::PI * r_cm * r_cm * (1.0 - self.obstruction * self.obstruction)
+    }
+
+    /// Saturation level, electrons: the full well, or the converter's top
+    /// count × gain when that is lower.
+    pub fn saturation_e(&self) -> f64 {
+        match self.adc_bits {
+            Some(b) => self
+                .full_well_e
+                .min(self.gain_e_per_adu * (2f64.powi(b as i32) - 1.0)),
+            None => self.full_well_e,
+        }
+    }
+
+    /// Highest peak-pixel level a planned exposure may reach, electrons.
+    pub fn peak_limit_e(&self) -> f64 {
+        self.saturation_e() * self.linear_fraction
+    }
+
+    /// Throughput in `band`, or an error naming the bands this instrument has.
+    pub fn throughput_in(&self, band: &str) -> Result<f64> {
+        self.throughput
+            .iter()
+            .find(|(k, _)| k.as_str() == band)
+            .or_else(|| {
+                self.throughput
+                    .iter()
+                    .find(|(k, _)| k.eq_ignore_ascii_case(band))
+            })
+            .map(|(_, v)| *v)
+            .ok_or_else(|| RungError::Unknown {
+                what: format!("band for instrument {}", self.name),
+                name: band.to_string(),
+                hint: format!(
+                    "; it has throughput for: {}",
+                    self.throughput
+                        .keys()
+                        .cloned()
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                ),
+            })
+    }
+
+    /// Check every field; the error names the field.
+    pub fn validated(self) -> Result<Self> {
+        let bad = |f: &str, why: String| RungError::invalid(f.to_string(), why);
+        let pos = |v: f64, f: &str| {
+            if v.is_finite() && v > 0.0 {
+                Ok(())
+            } else {
+                Err(bad(f, format!("{v} must be a positive number")))
+            }
+        };
+        let nonneg = |v: f64, f: &str| {
+            if v.is_finite() && v >= 0.0 {
+                Ok(())
+            } else {
+                Err(bad(f, format!("{v} must be zero or positive")))
+            }
+        };
+        pos(self.aperture_m, "aperture_m")?;
+        if !(0.0..1.0).contains(&self.obstruction) {
+            return Err(bad(
+                "obstruction",
+                format!("{} is not a fraction in 0..1", self.obstruction),
+            ));
+        }
+        pos(self.pixel_scale_arcsec, "pixel_scale_arcsec")?;
+        nonneg(self.read_noise_e, "read_noise_e")?;
+        nonneg(self.dark_e_per_pix_s, "dark_e_per_pix_s")?;
+        pos(self.gain_e_per_adu, "gain_e_per_adu")?;
+        pos(self.full_well_e, "full_well_e")?;
+        if let Some(b) = self.adc_bits
+            && !(8..=32).contains(&b)
+        {
+            return Err(bad("adc_bits", format!("{b} is not within 8..32")));
+        }
+        if !(self.linear_fraction > 0.0 && self.linear_fraction <= 1.0) {
+            return Err(bad(
+                "linear_fraction",
+                format!("{} is not within (0, 1]", self.linear_fraction),
+            ));
+        }
+        pos(self.seeing_fwhm_arcsec, "seeing_fwhm_arcsec")?;
+        nonneg(self.readout_s, "readout_s")?;
+        nonneg(self.visit_overhead_s, "visit_overhead_s")?;
+        pos(self.min_exptime_s, "min_exptime_s")?;
+        pos(self.max_sub_exptime_s, "max_sub_exptime_s")?;
+        if self.max_sub_exptime_s < self.min_exptime_s {
+            return Err(bad(
+                "max_sub_exptime_s",
+                "is shorter than min_exptime_s".to_string(),
+            ));
+        }
+        let [a, b] = self.sky_annulus_fwhm;
+        if !(a.is_finite() && b.is_finite() && a > 0.0 && b > a) {
+            return Err(bad(
+                "sky_annulus_fwhm",
+                format!("[{a}, {b}] must be two radii with 0 < inner < outer"),
+            ));
+        }
+        if self.throughput.is_empty() {
+            return Err(bad("throughput", "no band is given".to_string()));
+        }
+        for (k, v) in &self.throughput {
+            if !(v.is_finite() && *v > 0.0 && *v <= 1.0) {
+                return Err(bad(
+                    &format!("throughput.{k}"),
+                    format!("{v} is not an efficiency in (0, 1]"),
+                ));
+            }
+        }
+        Ok(self)
+    }
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct InstrumentFile {
+    #[serde(default)]
+    instrument: Vec<Instrument>,
+}
+
+fn line_of(text: &str, offset: usize) -> usize {
+    text[..offset.min(text.len())].lines().count().max(1)
+}
+
+/// Parse an instruments TOML text; `file` names it in errors (with the line of
+/// the offending `[[instrument]]` table and the field).
+pub fn parse_instruments(text: &str, file: &Path) -> Result<Vec<Instrument>> {
+    let f: InstrumentFile = toml::from_str(text).map_err(|e| RungError::InFile {
+        loc: Location {
+            file: Some(file.to_path_buf()),
+            line: e.span().map(|s| line_of(text, s.start)),
+            field: None,
+        },
+        msg: e.message().to_string(),
+    })?;
+    let header_lines: Vec<usize> = text
+        .lines()
+        .enumerate()
+        .filter(|(_, l)| l.trim_start().starts_with("[[instrument]]"))
+        .map(|(i, _)| i + 1)
+        .collect();
+    let mut out = Vec::new();
+    for (i, ins) in f.instrument.into_iter().enumerate() {
+        let name = ins.name.clone();
+        let ins = ins.validated().map_err(|e| match e {
+            RungError::Invalid { what, why } => RungError::InFile {
+                loc: Location {
+                    file: Some(file.to_path_buf()),
+                    line: header_lines.get(i).copied(),
+                    field: Some(what),
+                },
+                msg: format!("instrument {name}: {why}"),
+            },
+            other => other,
+        })?;
+        out.push(ins);
+    }
+    Ok(out)
+}
+
+/// Every known instrument: built-in first, then the user's file (which may
+/// replace one by name).
+pub fn catalogue() -> Result<Vec<Instrument>> {
+    let mut all = parse_instruments(BUILTIN_INSTRUMENTS, Path::new("config/instruments.toml"))?;
+    if let Some(dir) = user_config_dir() {
+        let p = dir.join("instruments.toml");
+        if p.exists() {
+            let text = std::fs::read_to_string(&p).map_err(|e| RungError::io(&p, e))?;
+            for s in parse_instruments(&text, &p)? {
+                all.retain(|x| !x.name.eq_ignore_ascii_case(&s.name));
+                all.push(s);
+            }
+        }
+    }
+    Ok(all)
+}
+
+/// An instrument by catalogue name (case-insensitive).
+pub fn resolve(name: &str) -> Result<Instrument> {
+    let all = catalogue()?;
+    all.iter()
+        .find(|s| s.name.eq_ignore_ascii_case(name.trim()))
+        .cloned()
+        .ok_or_else(|| RungError::Unknown {
+            what: "instrument".into(),
+            name: name.to_string(),
+            hint: format!(
+                "; known instruments: {}",
+                all.iter()
+                    .map(|s| s.name.as_str())
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ),
+        })
+}
+
+/// The demo instrument (from the built-in catalogue, or the user's replacement).
+pub fn demo() -> Result<Instrument> {
+    resolve(DEMO_INSTRUMENT)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn builtin_parses() {
+        let all =
+            parse_instruments(BUILTIN_INSTRUMENTS, Path::new("config/instruments.toml")).unwrap();
+        let d = all.iter().find(|i| i.name == DEMO_INSTRUMENT).unwrap();
+        // 1.0 m with a 0.33 obstruction: π 50² (1 − 0.1089) cm².
+        assert!((d.area_cm2() - std::f64::consts::PI * 2500.0 * 0.8911).abs() < 1e-6);
+        // 16-bit converter at 1.3 e/ADU tops out at 85 195 e, below the 90 000 e full well.
+        assert!((d.saturation_e() - 1.3 * 65535.0).abs() < 1e-6);
+        assert!(d.throughput_in("v").is_ok());
+        assert!(d.throughput_in("K").is_err());
+    }
+
+    #[test]
+    fn bad_instrument_names_line_and_field() {
+        let mut t = BUILTIN_INSTRUMENTS.replace("read_noise_e = 6.0", "read_noise_e = -6.0");
+        t.insert_str(0, "# a comment\n");
+        let e = parse_instruments(&t, Path::new("i.toml"))
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("i.toml") && e.contains("read_noise_e"), "{e}");
+        let line = t
+            .lines()
+            .position(|l| l.starts_with("[[instrument]]"))
+            .unwrap()
+            + 1;
+        assert!(e.contains(&format!("line {line}")), "{e}");
+    }
+
+    #[test]
+    fn unknown_instrument() {
+        let e = resolve("no-such-scope").unwrap_err().to_string();
+        assert!(
+            e.contains("unknown instrument") && e.contains(DEMO_INSTRUMENT),
+            "{e}"
+        );
+    }
+}

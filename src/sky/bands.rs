@@ -1,0 +1,309 @@
+//! Photometric bands and their sky coefficients: `config/bands.toml` (built
+//! in) and the user's own `bands.toml` in the user config folder.
+
+use crate::error::{Location, Result, RungError};
+use crate::io::sites::user_config_dir;
+use serde::Deserialize;
+use std::path::Path;
+
+/// The built-in band table (config/bands.toml), compiled in.
+pub const BUILTIN_BANDS: &str = include_str!("../../config/bands.toml");
+
+/// Planck constant, erg s (CODATA 2018, exact in SI).
+pub const H_CGS: f64 = 6.626_070_15e-27;
+/// Speed of light, cm s⁻¹ (exact).
+pub const C_CGS: f64 = 2.997_924_58e10;
+
+/// One photometric band with its zero point and sky coefficients (see
+/// config/bands.toml for the source of every value).
+#[derive(Debug, Clone, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Band {
+    /// Band name (U, B, V, R, I, …).
+    pub name: String,
+    /// Effective wavelength, Å.
+    pub lambda_eff_angstrom: f64,
+    /// Passband FWHM, Å (top-hat width used for photon counts).
+    pub bandwidth_angstrom: f64,
+    /// f_λ of a magnitude-0 star, erg cm⁻² s⁻¹ Å⁻¹.
+    pub flambda_zero_cgs: f64,
+    /// Atmospheric extinction, mag per airmass.
+    pub extinction_mag_per_airmass: f64,
+    /// Dark-sky zenith brightness, mag arcsec⁻².
+    pub dark_sky_zenith_mag_arcsec2: f64,
+    /// Colour of scattered moonlight, m_band − m_V, mag.
+    pub moon_colour_mag: f64,
+    /// Colour of the twilight sky, m_band − m_V, mag.
+    pub twilight_colour_mag: f64,
+}
+
+impl Band {
+    /// Photon flux density of a magnitude-0 source, photons s⁻¹ cm⁻² Å⁻¹:
+    /// f_λ λ_eff / (h c). Zero points of Bessell, Castelli & Plez (1998); for V
+    /// this is close to 1000 (common practice).
+    pub fn photon_zero_per_s_cm2_angstrom(&self) -> f64 {
+        let lambda_cm = self.lambda_eff_angstrom * 1e-8;
+        self.flambda_zero_cgs * lambda_cm / (H_CGS * C_CGS)
+    }
+
+    /// Photons s⁻¹ cm⁻² through the whole band (top-hat of width
+    /// `bandwidth_angstrom`) from a source of magnitude `mag` above the
+    /// atmosphere. Accuracy: the top-hat approximation, a few per cent for
+    /// smooth spectra.
+    pub fn photons_per_s_cm2(&self, mag: f64) -> f64 {
+        self.photon_zero_per_s_cm2_angstrom() * self.bandwidth_angstrom * 10f64.powf(-0.4 * mag)
+    }
+
+    fn check(&self) -> std::result::Result<(), (&'static str, String)> {
+        let pos = |v: f64, f: &'static str| {
+            if v.is_finite() && v > 0.0 {
+                Ok(())
+            } else {
+                Err((f, format!("{v} must be a positive number")))
+            }
+        };
+        pos(self.lambda_eff_angstrom, "lambda_eff_angstrom")?;
+        pos(self.bandwidth_angstrom, "bandwidth_angstrom")?;
+        pos(self.flambda_zero_cgs, "flambda_zero_cgs")?;
+        let k = self.extinction_mag_per_airmass;
+        if !k.is_finite() || !(0.0..=5.0).contains(&k) {
+            return Err((
+                "extinction_mag_per_airmass",
+                format!("{k} is not within 0..5 mag per airmass"),
+            ));
+        }
+        let d = self.dark_sky_zenith_mag_arcsec2;
+        if !d.is_finite() || !(10.0..=30.0).contains(&d) {
+            return Err((
+                "dark_sky_zenith_mag_arcsec2",
+                format!("{d} is not within 10..30 mag arcsec⁻²"),
+            ));
+        }
+        for (v, f) in [
+            (self.moon_colour_mag, "moon_colour_mag"),
+            (self.twilight_colour_mag, "twilight_colour_mag"),
+        ] {
+            if !v.is_finite() || v.abs() > 10.0 {
+                return Err((f, format!("{v} is not a colour within ±10 mag")));
+            }
+        }
+        Ok(())
+    }
+}
+
+/// Parameters of the twilight term (the project's own approximation; see
+/// config/bands.toml and [`crate::sky::twilight_v_mag_arcsec2`]).
+#[derive(Debug, Clone, Copy, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TwilightModel {
+    /// Sun altitude of the reference point, degrees.
+    pub ref_sun_alt_deg: f64,
+    /// Zenith V brightness of the twilight light at the reference altitude, mag arcsec⁻².
+    pub v_zenith_mag_arcsec2_at_ref: f64,
+    /// Fading of the twilight light per degree of solar depression, mag/deg.
+    pub slope_mag_per_deg: f64,
+    /// Sun altitude below which there is no twilight light, degrees.
+    pub dark_sun_alt_deg: f64,
+    /// Highest Sun altitude the model covers, degrees.
+    pub model_top_sun_alt_deg: f64,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct BandFile {
+    #[serde(default)]
+    band: Vec<Band>,
+    twilight: Option<TwilightModel>,
+}
+
+/// The bands known to rung with the twilight model.
+#[derive(Debug, Clone, PartialEq)]
+pub struct BandSet {
+    /// The bands, in file order.
+    pub bands: Vec<Band>,
+    /// The twilight term.
+    pub twilight: TwilightModel,
+}
+
+fn line_of(text: &str, offset: usize) -> usize {
+    text[..offset.min(text.len())].lines().count().max(1)
+}
+
+fn parse_file(text: &str, file: &Path) -> Result<BandFile> {
+    let f: BandFile = toml::from_str(text).map_err(|e| RungError::InFile {
+        loc: Location {
+            file: Some(file.to_path_buf()),
+            line: e.span().map(|s| line_of(text, s.start)),
+            field: None,
+        },
+        msg: e.message().to_string(),
+    })?;
+    let header_lines: Vec<usize> = text
+        .lines()
+        .enumerate()
+        .filter(|(_, l)| l.trim_start().starts_with("[[band]]"))
+        .map(|(i, _)| i + 1)
+        .collect();
+    for (i, b) in f.band.iter().enumerate() {
+        if let Err((field, msg)) = b.check() {
+            return Err(RungError::InFile {
+                loc: Location {
+                    file: Some(file.to_path_buf()),
+                    line: header_lines.get(i).copied(),
+                    field: Some(field.to_string()),
+                },
+                msg: format!("band {}: {msg}", b.name),
+            });
+        }
+    }
+    if let Some(t) = &f.twilight {
+        let ok = [
+            t.ref_sun_alt_deg,
+            t.v_zenith_mag_arcsec2_at_ref,
+            t.slope_mag_per_deg,
+            t.dark_sun_alt_deg,
+            t.model_top_sun_alt_deg,
+        ]
+        .iter()
+        .all(|v| v.is_finite())
+            && t.slope_mag_per_deg > 0.0
+            && t.dark_sun_alt_deg < t.model_top_sun_alt_deg;
+        if !ok {
+            let line = text
+                .lines()
+                .position(|l| l.trim_start().starts_with("[twilight]"))
+                .map(|i| i + 1);
+            return Err(RungError::InFile {
+                loc: Location {
+                    file: Some(file.to_path_buf()),
+                    line,
+                    field: Some("twilight".into()),
+                },
+                msg: "twilight needs finite values, slope_mag_per_deg > 0 and dark_sun_alt_deg < model_top_sun_alt_deg".into(),
+            });
+        }
+    }
+    Ok(f)
+}
+
+impl BandSet {
+    /// Parse a complete band table (it must have a `[twilight]` table).
+    pub fn parse(text: &str, file: &Path) -> Result<Self> {
+        let f = parse_file(text, file)?;
+        let twilight = f.twilight.ok_or_else(|| RungError::InFile {
+            loc: Location {
+                file: Some(file.to_path_buf()),
+                line: None,
+                field: Some("twilight".into()),
+            },
+            msg: "missing [twilight] table".into(),
+        })?;
+        if f.band.is_empty() {
+            return Err(RungError::InFile {
+                loc: Location {
+                    file: Some(file.to_path_buf()),
+                    line: None,
+                    field: Some("band".into()),
+                },
+                msg: "no [[band]] tables".into(),
+            });
+        }
+        Ok(BandSet {
+            bands: f.band,
+            twilight,
+        })
+    }
+
+    /// The built-in table (config/bands.toml).
+    pub fn builtin() -> Result<Self> {
+        Self::parse(BUILTIN_BANDS, Path::new("config/bands.toml"))
+    }
+
+    /// Merge a user file over this set: bands with the same name are replaced,
+    /// new ones appended, and its `[twilight]` table (if any) replaces ours.
+    pub fn merge_text(&mut self, text: &str, file: &Path) -> Result<()> {
+        let f = parse_file(text, file)?;
+        for b in f.band {
+            self.bands.retain(|x| !x.name.eq_ignore_ascii_case(&b.name));
+            self.bands.push(b);
+        }
+        if let Some(t) = f.twilight {
+            self.twilight = t;
+        }
+        Ok(())
+    }
+
+    /// The built-in table with the user's `bands.toml` (user config folder) merged over it.
+    pub fn load() -> Result<Self> {
+        let mut s = Self::builtin()?;
+        if let Some(dir) = user_config_dir() {
+            let p = dir.join("bands.toml");
+            if p.exists() {
+                let text = std::fs::read_to_string(&p).map_err(|e| RungError::io(&p, e))?;
+                s.merge_text(&text, &p)?;
+            }
+        }
+        Ok(s)
+    }
+
+    /// A band by name (case-sensitive first, then case-insensitive), or an
+    /// `Unknown band` error listing the known ones.
+    pub fn get(&self, name: &str) -> Result<&Band> {
+        let n = name.trim();
+        self.bands
+            .iter()
+            .find(|b| b.name == n)
+            .or_else(|| self.bands.iter().find(|b| b.name.eq_ignore_ascii_case(n)))
+            .ok_or_else(|| RungError::Unknown {
+                what: "band".into(),
+                name: name.to_string(),
+                hint: format!(
+                    "; known bands: {}",
+                    self.bands
+                        .iter()
+                        .map(|b| b.name.as_str())
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                ),
+            })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn builtin_has_ubvri() {
+        let s = BandSet::builtin().unwrap();
+        for b in ["U", "B", "V", "R", "I"] {
+            assert!(s.get(b).is_ok(), "{b}");
+        }
+        assert!(s.get("v").is_ok());
+        let e = s.get("Z").unwrap_err().to_string();
+        assert!(e.contains("unknown band 'Z'") && e.contains("V"), "{e}");
+    }
+
+    #[test]
+    fn bad_band_names_line_and_field() {
+        let mut s = BandSet::builtin().unwrap();
+        let t = "[[band]]\nname = \"V\"\nlambda_eff_angstrom = 5450\nbandwidth_angstrom = -3\nflambda_zero_cgs = 3.6e-9\nextinction_mag_per_airmass = 0.15\ndark_sky_zenith_mag_arcsec2 = 21.8\nmoon_colour_mag = 0\ntwilight_colour_mag = 0\n";
+        let e = s
+            .merge_text(t, Path::new("u.toml"))
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("u.toml") && e.contains("line 1") && e.contains("bandwidth_angstrom"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn user_band_replaces_by_name() {
+        let mut s = BandSet::builtin().unwrap();
+        let t = "[[band]]\nname = \"V\"\nlambda_eff_angstrom = 5450\nbandwidth_angstrom = 880\nflambda_zero_cgs = 3.631e-9\nextinction_mag_per_airmass = 0.2\ndark_sky_zenith_mag_arcsec2 = 21.0\nmoon_colour_mag = 0\ntwilight_colour_mag = 0\n";
+        s.merge_text(t, Path::new("u.toml")).unwrap();
+        assert_eq!(s.get("V").unwrap().dark_sky_zenith_mag_arcsec2, 21.0);
+        assert_eq!(s.bands.len(), 5);
+    }
+}
