@@ -25,6 +25,8 @@ enum Command {
     Tui(cli::tui::Args),
     /// Phase coverage of a pulsating star, a visit plan over its phase bins, and its distance precision.
     Phase(Box<cli::phase::Args>),
+    /// Chase a fresh thermonuclear supernova: nightly windows, exposures, cadence, distance precision.
+    Chase(Box<cli::chase::Args>),
     /// Signal-to-noise of an exposure on a star under tonight's sky.
     Snr(cli::snr::SnrArgs),
     /// Exposure time that reaches a signal-to-noise on a star under tonight's sky.
@@ -38,6 +40,7 @@ fn main() -> ExitCode {
         Some(Command::Night(a)) => cli::night::run(a),
         Some(Command::Tui(a)) => cli::tui::run(a),
         Some(Command::Phase(a)) => cli::phase::run(*a),
+        Some(Command::Chase(a)) => cli::chase::run(*a),
         Some(Command::Snr(a)) => cli::snr::run_snr(a),
         Some(Command::Exptime(a)) => cli::snr::run_exptime(a),
         None => cli::default_run(),

@@ -1,5 +1,6 @@
 //! Subcommands of the `rung` binary and the formatting they share.
 
+pub mod chase;
 pub mod night;
 pub mod tui;
 pub mod phase;

@@ -132,3 +132,4 @@ pub trait Method: Sync {
     /// The epochs and hours that reach `goal_pct`, or why they cannot.
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction>;
 }
+pub mod transient;
