@@ -49,6 +49,8 @@ fn state(size: (u16, u16)) -> State {
         size,
         theme: Theme { color: true },
         message: None,
+        instrument: rung::photometry::instrument::DEMO_INSTRUMENT.to_string(),
+        instruments: vec![rung::photometry::instrument::DEMO_INSTRUMENT.to_string()],
     })
 }
 

@@ -144,7 +144,14 @@ fn edit_validate_undo_redo_and_save() {
     assert_eq!(s.targets[0].name, "LPO-X99");
     assert!(s.dirty());
     let (rows, _) = screen(&s, 80, 24);
-    assert!(rows[1].contains("● unsaved"));
+    assert!(rows[1].contains("● unsaved"), "{}", rows[1]);
+    // Opening and accepting the form unchanged changes nothing (exact coordinates kept).
+    key(&mut s, KeyCode::Down);
+    ch(&mut s, 'e');
+    key(&mut s, KeyCode::Enter);
+    assert!(s.targets[1] == demo_targets()[1]);
+    assert_eq!(s.undo.len(), 1, "an unchanged form adds no undo step");
+    key(&mut s, KeyCode::Up);
     // A new target: validation names the field and keeps the form open.
     ch(&mut s, 'a');
     key(&mut s, KeyCode::Enter);
@@ -226,7 +233,10 @@ fn edit_validate_undo_redo_and_save() {
     ch(&mut s, 'u');
     ch(&mut s, 'u');
     ch(&mut s, 'u');
-    assert_eq!(s.targets, demo_targets(), "three undos return to the file");
+    assert!(
+        s.targets == demo_targets(),
+        "three undos return to the file"
+    );
     assert!(!s.dirty());
     ch(&mut s, 'U');
     assert_eq!(s.targets[0].name, "LPO-X99");
@@ -314,6 +324,13 @@ fn quit_discarding_and_site_picker() {
         "{}",
         rows[0]
     );
+    // The instrument picker.
+    ch(&mut s, 'i');
+    assert!(matches!(s.overlay, Some(Overlay::Instruments { .. })));
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(has(&rows, "● lucero-1m"));
+    key(&mut s, KeyCode::Esc);
+    assert!(s.overlay.is_none() && s.instrument == "lucero-1m");
     // Minimum altitude steps change the windows.
     let h0 = s.row("LPO-P09").unwrap().night.observable_hours;
     ch(&mut s, '-');

@@ -55,6 +55,12 @@ pub fn state_with(
         size,
         theme: Theme { color },
         message: None,
+        instrument: rung::photometry::instrument::DEMO_INSTRUMENT.to_string(),
+        instruments: rung::photometry::instrument::catalogue()
+            .unwrap()
+            .into_iter()
+            .map(|i| i.name)
+            .collect(),
     })
 }
 

@@ -104,13 +104,14 @@ fn command(cfg: &Path, extra_env: &str) -> String {
     // After rung ends, the shell prints a marker, whether the tty is canonical again, and waits.
     format!(
         "RUNG_CONFIG_DIR='{}' NO_COLOR=1 {extra_env} '{bin}' tui --date 2026-12-01; \
-         echo RUNG-EXIT-$?; stty -a | tr ' ' '\\n' | grep -x -e icanon -e -icanon -e echo -e -echo | tr '\\n' ' '; echo; sleep 120",
+         echo RUNG-EXIT-$?; stty -a | tr ' ' '\\n' | grep -x -e icanon -e -icanon -e echo -e -echo | tr '\\n' ' '; echo; echo RUNG-TTY-DONE; sleep 120",
         cfg.display()
     )
 }
 
 fn assert_restored(t: &Tmux, exit: &str) {
-    let s = t.wait_for(exit);
+    t.wait_for(exit);
+    let s = t.wait_for("RUNG-TTY-DONE");
     assert_eq!(t.alternate_on(), "0", "still on the alternate screen:\n{s}");
     assert!(
         !s.contains("Roster ·") && !s.contains("Season ·"),
@@ -143,6 +144,18 @@ fn every_view_then_quit_restores_the_terminal() {
     t.wait_for("LPO-P01: most");
     t.send("Down");
     t.wait_for("LPO-P02: most");
+    t.send("4");
+    t.wait_for("the Phase view is for pulsators");
+    t.send("5");
+    t.wait_for("the Chase view is for transients");
+    t.send("End");
+    t.wait_for("Chase · ✶ LPO-T2026b");
+    t.send("Up");
+    t.wait_for("● obs");
+    t.send("Tab");
+    t.wait_for("Roster · 26 of 26");
+    t.send("BTab");
+    t.wait_for("Chase · ✶ LPO-T2026a");
     t.send("1");
     t.wait_for("Roster · 26 of 26");
     t.send("?");
@@ -154,9 +167,9 @@ fn every_view_then_quit_restores_the_terminal() {
     t.send("Escape");
     t.wait_gone("sierra-alcaravan");
     t.send("e");
-    t.wait_for("Edit LPO-P02");
+    t.wait_for("Edit LPO-T2026a");
     t.send("Escape");
-    t.wait_gone("Edit LPO-P02");
+    t.wait_gone("Edit LPO-T2026a");
     // Resize: the UI redraws at the new size.
     t.cmd(&["resize-window", "-t", "rung", "-x", "120", "-y", "30"]);
     t.wait_for("trans");

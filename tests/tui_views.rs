@@ -40,7 +40,11 @@ fn roster_80x24_shows_library_windows() {
         rows[0]
     );
     assert!(rows[0].contains("Moon "), "{}", rows[0]);
-    assert!(rows[1].contains("1 Roster") && rows[1].contains("night Tue 2026-12-01"));
+    assert!(
+        rows[1].contains("1 Roster")
+            && rows[1].contains("5 Chase")
+            && rows[1].contains(" Tue 2026-12-01 ")
+    );
     assert!(rows[1].trim_end().ends_with("demo"), "{}", rows[1]);
     assert!(rows[2].starts_with("Roster · 26 of 26 targets · by file order"));
     assert!(rows[3].contains("name") && rows[3].contains("window") && rows[3].contains("airm"));
@@ -309,4 +313,159 @@ fn sun_caution_is_flagged_for_a_target_beside_the_sun() {
     ch(&mut s, '2');
     let (rows, _) = screen(&s, 80, 24);
     assert!(has(&rows, "SUN CAUTION"), "{}", rows.join("\n"));
+}
+
+fn select(s: &mut rung::tui::State, name: &str) {
+    while s.selected().unwrap().name != name {
+        key(s, crossterm::event::KeyCode::Down);
+    }
+}
+
+#[test]
+fn phase_view_shows_the_pulsator_analysis_at_both_sizes() {
+    use rung::ladder::Setting;
+    use rung::ladder::pulsator::{PulsatorConfig, PulsatorMethod};
+    // The same library call as `rung phase`, made here directly.
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let targets = demo_targets();
+    let t = targets.iter().find(|t| t.name == "LPO-C03").unwrap();
+    let em = rung::photometry::Photometer::demo(&site).unwrap();
+    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
+    let r = PulsatorMethod::with_config(PulsatorConfig::load().unwrap())
+        .analyse(
+            &Setting {
+                site: &site,
+                target: t,
+                from,
+                to: from + chrono::Days::new(29),
+                limits: limits(),
+            },
+            Some(&em),
+        )
+        .unwrap();
+    for (w, h) in [(80u16, 24u16), (160, 48)] {
+        let mut s = demo_state((w, h));
+        ch(&mut s, '4');
+        let (rows, _) = screen(&s, w, h);
+        assert!(has(
+            &rows,
+            "LPO-P01 is a parallax target: the Phase view is for pulsators"
+        ));
+        select(&mut s, "LPO-C03");
+        let (rows, _) = screen(&s, w, h);
+        assert!(
+            rows[2].starts_with("Phase · ∿ LPO-C03 · P 5.0500 d · 30 nights from 2026-12-01"),
+            "{}",
+            rows[2]
+        );
+        let cov = format!(
+            "{}/{} in {} nights",
+            r.plan.bins_covered,
+            r.plan.bins,
+            r.plan.nights_needed()
+        );
+        assert!(rows[3].contains(&cov), "{cov}: {}", rows[3]);
+        let w0 = &r.windows[0];
+        let first = format!(
+            "{} {}-{}",
+            w0.night.format("%a %b %d"),
+            local_hm(w0.start),
+            local_hm(w0.end)
+        );
+        assert!(rows[5].starts_with(&first), "{first}: {}", rows[5]);
+        assert!(rows[5].contains('━'));
+        let visible = (h - 3 - 3 - 3) as usize;
+        assert!(has(
+            &rows,
+            &r.windows[visible.min(r.windows.len()) - 1]
+                .night
+                .format("%a %b %d")
+                .to_string()
+        ));
+        let pr = r.prediction.as_ref().unwrap();
+        assert!(has(
+            &rows,
+            &format!("σd/d {:.2}%", pr.distance_precision_pct)
+        ));
+        assert!(has(&rows, "◆ planned visit"));
+    }
+}
+
+#[test]
+fn chase_view_shows_the_transient_timeline_at_both_sizes() {
+    use rung::ladder::Setting;
+    use rung::ladder::transient::{ChaseOptions, TransientConfig, TransientMethod, night_of};
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let targets = demo_targets();
+    let t = targets.iter().find(|t| t.name == "LPO-T2026a").unwrap();
+    let em = rung::photometry::Photometer::demo(&site).unwrap();
+    let cfg = TransientConfig::embedded().unwrap();
+    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
+    let noon = rung::astro::night::local_noon(&site, from).unwrap();
+    let disc = t.discovered.unwrap();
+    let to = night_of(&site, disc) + chrono::Days::new(cfg.planning.horizon_days as u64);
+    let c = TransientMethod::with(
+        cfg,
+        ChaseOptions {
+            now: Some(noon),
+            ..Default::default()
+        },
+    )
+    .chase(
+        &Setting {
+            site: &site,
+            target: t,
+            from,
+            to,
+            limits: limits(),
+        },
+        &em,
+        t.goal_pct,
+    )
+    .unwrap();
+    for (w, h) in [(80u16, 24u16), (160, 48)] {
+        let mut s = demo_state((w, h));
+        ch(&mut s, '5');
+        let (rows, _) = screen(&s, w, h);
+        assert!(has(&rows, "the Chase view is for transients"));
+        select(&mut s, "LPO-T2026a");
+        let (rows, _) = screen(&s, w, h);
+        assert!(
+            rows[2].starts_with("Chase · ✶ LPO-T2026a · max "),
+            "{}",
+            rows[2]
+        );
+        assert!(rows[2].contains(&format!("B {:.1}", c.placement.params.m_max)));
+        assert!(rows[3].contains("phase") && rows[3].contains("mag") && rows[3].contains("plan"));
+        let n0 = &c.nights[0];
+        let r0 = &rows[4];
+        assert!(
+            r0.starts_with(&n0.night.format("%a %b %d").to_string()),
+            "{r0}"
+        );
+        assert!(
+            r0.contains(&format!("{:+.1}d", n0.phase_days.unwrap())),
+            "{r0}"
+        );
+        assert!(
+            r0.contains(&format!("{:.1}", n0.expected_mag.unwrap())),
+            "{r0}"
+        );
+        let planned = rows.iter().filter(|r| r.contains("● obs")).count();
+        let expect = c
+            .nights
+            .iter()
+            .take((h - 2 - 3 - 3) as usize)
+            .filter(|n| n.planned)
+            .count();
+        assert_eq!(planned, expect);
+        let b = c.design.budget.unwrap();
+        assert!(has(
+            &rows,
+            &format!(
+                "σd/d {:.1}% (floor {:.1}%)",
+                b.distance_precision_pct, b.floor_pct
+            )
+        ));
+    }
 }

@@ -2,9 +2,9 @@
 
 pub mod chase;
 pub mod night;
-pub mod tui;
 pub mod phase;
 pub mod snr;
+pub mod tui;
 pub mod where_cmd;
 
 use anyhow::Result;

@@ -27,6 +27,9 @@ pub struct Args {
     /// Night to open (YYYY-MM-DD); default: the current night, following the clock.
     #[arg(long)]
     pub date: Option<String>,
+    /// Instrument profile for exposures (Phase and Chase views).
+    #[arg(long)]
+    pub instrument: Option<String>,
 }
 
 /// The user's own programme file.
@@ -123,6 +126,17 @@ pub fn setup(a: &Args) -> Result<Setup> {
         list.push(site.clone());
     }
     let date = a.date.as_deref().map(parse_date).transpose()?;
+    let instrument = a
+        .instrument
+        .clone()
+        .unwrap_or_else(|| rung::photometry::instrument::DEMO_INSTRUMENT.to_string());
+    rung::photometry::instrument::resolve(&instrument)?;
+    let mut instruments: Vec<String> = rung::photometry::instrument::catalogue()
+        .map(|l| l.into_iter().map(|i| i.name).collect())
+        .unwrap_or_default();
+    if !instruments.contains(&instrument) {
+        instruments.push(instrument.clone());
+    }
     Ok(Setup {
         site,
         sites: list,
@@ -133,6 +147,8 @@ pub fn setup(a: &Args) -> Result<Setup> {
         size: (80, 24),
         theme: Theme::from_env(),
         message,
+        instrument,
+        instruments,
     })
 }
 

@@ -7,8 +7,13 @@ use crate::astro::{pointing, sun_caution};
 use crate::error::Result;
 use crate::io::atomic::write_atomic;
 use crate::io::targets::Target;
+use crate::ladder::pulsator::{PulsatorConfig, PulsatorMethod};
+use crate::ladder::transient::{ChaseOptions, TransientConfig, TransientMethod, night_of};
+use crate::photometry::Photometer;
 use crate::tui::msg::{Effect, Msg, NightJob, SeasonJob, SeasonRows};
-use crate::tui::state::{NightData, TargetRow};
+use crate::tui::state::{
+    MethodBody, MethodKey, MethodResult, NightData, PHASE_NIGHTS, TargetRow, View,
+};
 use rayon::prelude::*;
 use std::sync::Arc;
 
@@ -105,6 +110,92 @@ pub fn season_rows(job: &SeasonJob) -> Result<SeasonRows> {
     })
 }
 
+/// The distance-method report for a key: the pulsator's phase analysis over
+/// [`PHASE_NIGHTS`] nights from the date, or the transient's chase from the
+/// date (not before its discovery) to the method's horizon, with exposures from
+/// the chosen instrument's photometer. The same library calls as `rung phase`
+/// and `rung chase`.
+pub fn method_report(k: &MethodKey) -> MethodBody {
+    match method_report_inner(k) {
+        Ok(b) => b,
+        Err(e) => MethodBody::Failed(e.to_string()),
+    }
+}
+
+fn method_report_inner(k: &MethodKey) -> Result<MethodBody> {
+    use crate::io::targets::Kind;
+    use crate::ladder::Setting;
+    let t = &k.target;
+    let em = Photometer::from_name(&k.instrument, &k.site)?;
+    match k.view {
+        View::Phase => {
+            if t.kind != Kind::Pulsator {
+                return Ok(MethodBody::NotApplicable(format!(
+                    "{} is a {} target: the Phase view is for pulsators (choose one with ↑/↓)",
+                    t.name,
+                    t.kind.as_str()
+                )));
+            }
+            let m = PulsatorMethod::with_config(PulsatorConfig::load()?);
+            let s = Setting {
+                site: &k.site,
+                target: t,
+                from: k.date,
+                to: k.date + chrono::Days::new(PHASE_NIGHTS - 1),
+                limits: k.limits,
+            };
+            Ok(MethodBody::Phase(Box::new(m.analyse(&s, Some(&em))?)))
+        }
+        View::Chase => {
+            if t.kind != Kind::Transient {
+                return Ok(MethodBody::NotApplicable(format!(
+                    "{} is a {} target: the Chase view is for transients (choose one with ↑/↓)",
+                    t.name,
+                    t.kind.as_str()
+                )));
+            }
+            let cfg = TransientConfig::embedded()?;
+            let disc = t.discovered.ok_or_else(|| {
+                crate::error::RungError::invalid("target", "a transient needs its discovery time")
+            })?;
+            let first = night_of(&k.site, disc);
+            let to = first + chrono::Days::new(cfg.planning.horizon_days as u64);
+            let noon = crate::astro::night::local_noon(&k.site, k.date)?;
+            let now = if noon.seconds_since(&disc) > 0.0 {
+                noon
+            } else {
+                disc
+            };
+            let from = night_of(&k.site, now).max(first);
+            if from > to {
+                return Ok(MethodBody::NotApplicable(format!(
+                    "{} is past its {}-day follow-up horizon on {} (discovered {})",
+                    t.name,
+                    cfg.planning.horizon_days,
+                    k.date,
+                    disc.iso()
+                )));
+            }
+            let m = TransientMethod::with(
+                cfg,
+                ChaseOptions {
+                    now: Some(now),
+                    ..ChaseOptions::default()
+                },
+            );
+            let s = Setting {
+                site: &k.site,
+                target: t,
+                from,
+                to,
+                limits: k.limits,
+            };
+            Ok(MethodBody::Chase(Box::new(m.chase(&s, &em, t.goal_pct)?)))
+        }
+        _ => Ok(MethodBody::NotApplicable("no report for this view".into())),
+    }
+}
+
 /// Save: keep the original once as a backup, then write the programme atomically.
 pub fn save(
     path: &std::path::Path,
@@ -133,6 +224,10 @@ pub fn run(effect: Effect) -> Vec<Msg> {
             Ok(r) => Msg::SeasonReady(Box::new(r)),
             Err(e) => Msg::SeasonFailed(job.key.clone(), e.to_string()),
         }],
+        Effect::Method(k) => {
+            let body = method_report(&k);
+            vec![Msg::MethodReady(Box::new(MethodResult { key: *k, body }))]
+        }
         Effect::Save { path, text, backup } => {
             vec![Msg::Saved(save(&path, &text, backup.as_ref()))]
         }

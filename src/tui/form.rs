@@ -48,6 +48,15 @@ pub struct Form {
     pub focus: usize,
     /// The last validation failure: field and message.
     pub error: Option<(String, String)>,
+    /// The target as it was when the form opened (edits only).
+    pub original: Option<Target>,
+}
+
+/// Degrees as the form shows them: at most 9 decimals (≈ 4 µas), trailing zeros dropped.
+pub fn degrees_text(v: f64) -> String {
+    let t = format!("{v:.9}");
+    let t = t.trim_end_matches('0').trim_end_matches('.');
+    if t == "-0" { "0".into() } else { t.to_string() }
 }
 
 impl Form {
@@ -57,6 +66,7 @@ impl Form {
         t.name.clear();
         let mut f = Self::from_target(&t);
         f.editing = None;
+        f.original = None;
         for (c, v) in f.values.iter_mut() {
             if *c == "ra" || *c == "dec" {
                 v.clear();
@@ -69,9 +79,17 @@ impl Form {
     pub fn from_target(t: &Target) -> Self {
         Form {
             editing: Some(t.name.clone()),
-            values: COLUMNS.iter().map(|c| (*c, field_text(t, c))).collect(),
+            values: COLUMNS
+                .iter()
+                .map(|c| match *c {
+                    "ra" => (*c, degrees_text(t.ra_deg)),
+                    "dec" => (*c, degrees_text(t.dec_deg)),
+                    _ => (*c, field_text(t, c)),
+                })
+                .collect(),
             focus: 0,
             error: None,
+            original: Some(t.clone()),
         }
     }
 
@@ -185,7 +203,16 @@ impl Form {
                 ),
             ));
         }
-        let t = target_from_fields(&fields)?;
+        let mut t = target_from_fields(&fields)?;
+        // Unchanged coordinates keep their exact value (the text shows 9 decimals).
+        if let Some(o) = &self.original {
+            if self.value("ra") == degrees_text(o.ra_deg) {
+                t.ra_deg = o.ra_deg;
+            }
+            if self.value("dec") == degrees_text(o.dec_deg) {
+                t.dec_deg = o.dec_deg;
+            }
+        }
         if others
             .iter()
             .any(|o| o.name == t.name && Some(&o.name) != self.editing.as_ref())

@@ -5,7 +5,7 @@ use crate::astro::night::{Limits, Night};
 use crate::astro::site::Site;
 use crate::astro::time::Instant;
 use crate::io::targets::Target;
-use crate::tui::state::{NightData, SeasonKey};
+use crate::tui::state::{MethodKey, MethodResult, NightData, SeasonKey};
 use crossterm::event::KeyEvent;
 use std::path::PathBuf;
 use std::sync::Arc;
@@ -29,6 +29,12 @@ pub enum Action {
     ShowTonight,
     /// The Season view.
     ShowSeason,
+    /// The Phase view (pulsators).
+    ShowPhase,
+    /// The Chase view (transients).
+    ShowChase,
+    /// Pick the instrument.
+    Instruments,
     /// Selection up one row.
     Up,
     /// Selection down one row.
@@ -133,6 +139,8 @@ pub enum Msg {
     SeasonFailed(SeasonKey, String),
     /// A save finished: the path written, or the error.
     Saved(Result<PathBuf, String>),
+    /// A distance-method report (Phase, Chase) was computed.
+    MethodReady(Box<MethodResult>),
 }
 
 /// A job for the night table: the night at a site and every target's visibility in it.
@@ -170,6 +178,8 @@ pub enum Effect {
     Night(Box<NightJob>),
     /// Compute season rows (in the background).
     Season(Box<SeasonJob>),
+    /// Compute a distance-method report for one target (in the background).
+    Method(Box<MethodKey>),
     /// Write the programme atomically; first keep a copy of the original file when asked.
     Save {
         /// Where the programme goes.

@@ -22,17 +22,29 @@ pub enum View {
     Tonight,
     /// Observable hours, targets × nights.
     Season,
+    /// A pulsator's phase coverage and next reachable phases.
+    Phase,
+    /// A transient's follow-up timeline.
+    Chase,
 }
 
 impl View {
     /// All views in tab order.
-    pub const ALL: [View; 3] = [View::Roster, View::Tonight, View::Season];
+    pub const ALL: [View; 5] = [
+        View::Roster,
+        View::Tonight,
+        View::Season,
+        View::Phase,
+        View::Chase,
+    ];
     /// Tab label.
     pub fn title(&self) -> &'static str {
         match self {
             View::Roster => "Roster",
             View::Tonight => "Tonight",
             View::Season => "Season",
+            View::Phase => "Phase",
+            View::Chase => "Chase",
         }
     }
     fn index(&self) -> usize {
@@ -193,6 +205,48 @@ pub struct SeasonData {
     pub error: Option<String>,
 }
 
+/// What a distance-method report is for: a target (as it is now), site, night, instrument, limits, view.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MethodKey {
+    /// The view (Phase or Chase).
+    pub view: View,
+    /// The target.
+    pub target: crate::io::targets::Target,
+    /// The site.
+    pub site: Site,
+    /// First night.
+    pub date: NaiveDate,
+    /// Instrument name.
+    pub instrument: String,
+    /// Window limits.
+    pub limits: Limits,
+}
+
+/// A distance-method report, computed by the library.
+#[derive(Debug, Clone, PartialEq)]
+pub enum MethodBody {
+    /// `PulsatorMethod::analyse` over the range.
+    Phase(Box<crate::ladder::pulsator::PhaseReport>),
+    /// `TransientMethod::chase`.
+    Chase(Box<crate::ladder::transient::Chase>),
+    /// The selected target is not of the view's kind.
+    NotApplicable(String),
+    /// The library refused (the message says why).
+    Failed(String),
+}
+
+/// A report with what it is for.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MethodResult {
+    /// What it is for.
+    pub key: MethodKey,
+    /// The report.
+    pub body: MethodBody,
+}
+
+/// Nights the Phase view covers.
+pub const PHASE_NIGHTS: u64 = 30;
+
 /// The sky at the current instant.
 #[derive(Debug, Clone)]
 pub struct SkyNow {
@@ -221,6 +275,11 @@ pub enum Overlay {
     /// Site picker.
     Sites {
         /// Highlighted site.
+        sel: usize,
+    },
+    /// Instrument picker.
+    Instruments {
+        /// Highlighted instrument.
         sel: usize,
     },
     /// Target form.
@@ -305,6 +364,14 @@ pub struct State {
     pub season: SeasonData,
     /// Days between season columns.
     pub season_step_days: u32,
+    /// Instrument (for exposures in Phase and Chase).
+    pub instrument: String,
+    /// Instruments the picker offers.
+    pub instruments: Vec<String>,
+    /// The last distance-method report.
+    pub method: Option<MethodResult>,
+    /// The report being computed.
+    pub method_pending: Option<MethodKey>,
     /// Message line.
     pub message: Option<(String, Level)>,
     /// Terminal size (columns, rows).
@@ -333,7 +400,7 @@ impl State {
     pub fn scope(&self) -> Scope {
         match &self.overlay {
             Some(Overlay::Help { .. }) => Scope::Help,
-            Some(Overlay::Sites { .. }) => Scope::Picker,
+            Some(Overlay::Sites { .. }) | Some(Overlay::Instruments { .. }) => Scope::Picker,
             Some(Overlay::Form(_)) => Scope::Form,
             Some(Overlay::Question(_)) => Scope::Question,
             None if self.filtering => Scope::Filter,
@@ -359,6 +426,28 @@ impl State {
     /// Rows a list view shows (terminal rows less chrome, title and header).
     pub fn list_rows(&self) -> usize {
         self.size.1.saturating_sub(CHROME_ROWS + 3) as usize
+    }
+
+    /// The method-report key for the current view and selection (Phase and Chase only).
+    pub fn method_key(&self) -> Option<MethodKey> {
+        if !matches!(self.view, View::Phase | View::Chase) {
+            return None;
+        }
+        Some(MethodKey {
+            view: self.view,
+            target: self.selected()?.clone(),
+            site: self.site.clone(),
+            date: self.date,
+            instrument: self.instrument.clone(),
+            limits: self.limits,
+        })
+    }
+
+    /// The report for the current view and selection, when computed.
+    pub fn method_now(&self) -> Option<&MethodBody> {
+        let m = self.method.as_ref()?;
+        let k = self.method_key()?;
+        (m.key == k).then_some(&m.body)
     }
 
     /// The season key for the current site, date, limits and step.

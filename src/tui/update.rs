@@ -39,6 +39,10 @@ pub struct Setup {
     pub theme: Theme,
     /// A first message (e.g. rows refused when loading).
     pub message: Option<String>,
+    /// Instrument name (Phase and Chase exposures).
+    pub instrument: String,
+    /// Instruments the picker offers.
+    pub instruments: Vec<String>,
 }
 
 /// The local date whose evening starts the night containing `now` at `site`
@@ -79,6 +83,10 @@ pub fn init(setup: Setup) -> (State, Option<Effect>) {
         night_error: None,
         season: SeasonData::default(),
         season_step_days: 7,
+        instrument: setup.instrument,
+        instruments: setup.instruments,
+        method: None,
+        method_pending: None,
         message: setup.message.map(|m| (m, Level::Warn)),
         size: setup.size,
         theme: setup.theme,
@@ -140,8 +148,24 @@ fn recompute(s: &mut State) -> Option<Effect> {
     Effect::join(Some(night), season_effect(s))
 }
 
-/// Ask for the season rows the Season view is missing.
+/// Ask for what the current view is missing: season rows, or the method report.
 fn season_effect(s: &mut State) -> Option<Effect> {
+    let a = season_rows_effect(s);
+    Effect::join(a, method_effect(s))
+}
+
+/// Ask for the Phase or Chase report of the selected target when it is not cached.
+fn method_effect(s: &mut State) -> Option<Effect> {
+    let k = s.method_key()?;
+    if s.method.as_ref().is_some_and(|m| m.key == k) || s.method_pending.as_ref() == Some(&k) {
+        return None;
+    }
+    s.method_pending = Some(k.clone());
+    Some(Effect::Method(Box::new(k)))
+}
+
+/// Ask for the season rows the Season view is missing.
+fn season_rows_effect(s: &mut State) -> Option<Effect> {
     let key = s.season_key();
     if s.season.key.as_ref() != Some(&key) {
         s.season = SeasonData {
@@ -292,6 +316,28 @@ fn act(s: &mut State, a: Action) -> Option<Effect> {
             }
             season_effect(s)
         }
+        Scope::Picker if matches!(s.overlay, Some(Overlay::Instruments { .. })) => {
+            let Some(Overlay::Instruments { sel }) = s.overlay.as_mut() else {
+                return None;
+            };
+            let n = s.instruments.len();
+            match a {
+                Action::Up => *sel = sel.saturating_sub(1),
+                Action::Down => *sel = (*sel + 1).min(n.saturating_sub(1)),
+                Action::Accept => {
+                    let i = *sel;
+                    s.overlay = None;
+                    if let Some(name) = s.instruments.get(i).cloned() {
+                        say(s, format!("instrument: {name}"), Level::Info);
+                        s.instrument = name;
+                        return season_effect(s);
+                    }
+                }
+                Action::Cancel => s.overlay = None,
+                _ => {}
+            }
+            None
+        }
         Scope::Picker => {
             let Some(Overlay::Sites { sel }) = s.overlay.as_mut() else {
                 return None;
@@ -393,6 +439,10 @@ fn act_form(s: &mut State, a: Action) -> Option<Effect> {
                         format!("added {name}")
                     }
                 };
+                if new == s.targets {
+                    say(s, format!("{name}: nothing changed"), Level::Info);
+                    return None;
+                }
                 let e = change(s, new, what);
                 select_name(s, &name);
                 refresh_caution(s);
@@ -443,6 +493,23 @@ fn act_main(s: &mut State, a: Action) -> Option<Effect> {
         Action::ShowSeason => {
             s.view = View::Season;
             season_effect(s)
+        }
+        Action::ShowPhase => {
+            s.view = View::Phase;
+            season_effect(s)
+        }
+        Action::ShowChase => {
+            s.view = View::Chase;
+            season_effect(s)
+        }
+        Action::Instruments => {
+            let sel = s
+                .instruments
+                .iter()
+                .position(|x| *x == s.instrument)
+                .unwrap_or(0);
+            s.overlay = Some(Overlay::Instruments { sel });
+            None
         }
         Action::Up => move_sel(s, sel - 1),
         Action::Down => move_sel(s, sel + 1),
@@ -662,6 +729,15 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
             s.programme.original = None;
             s.saved = s.targets.clone();
             say(s, format!("saved {}", p.display()), Level::Good);
+            None
+        }
+        Msg::MethodReady(r) => {
+            if s.method_pending.as_ref() == Some(&r.key) {
+                s.method_pending = None;
+            }
+            if s.method_key().as_ref() == Some(&r.key) {
+                s.method = Some(*r);
+            }
             None
         }
         Msg::Saved(Err(e)) => {

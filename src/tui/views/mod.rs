@@ -2,8 +2,10 @@
 //! state and writes cells: nothing is computed that the library did not cache.
 
 pub mod chart;
+pub mod chase;
 pub mod fmt;
 pub mod overlays;
+pub mod phase;
 pub mod roster;
 pub mod season;
 pub mod tonight;
@@ -93,8 +95,13 @@ fn status(s: &State, area: Rect, buf: &mut Buffer) {
 fn tabs(s: &State, area: Rect, buf: &mut Buffer) {
     let th = &s.theme;
     let mut x = area.x;
+    let roomy = area.width >= 100;
     for (i, v) in View::ALL.iter().enumerate() {
-        let label = format!(" {} {} ", i + 1, v.title());
+        let label = if roomy {
+            format!(" {} {} ", i + 1, v.title())
+        } else {
+            format!("{} {}", i + 1, v.title())
+        };
         let st = if *v == s.view {
             th.selected().patch(th.title())
         } else {
@@ -119,25 +126,17 @@ fn tabs(s: &State, area: Rect, buf: &mut Buffer) {
             .map(|f| f.to_string_lossy().to_string())
             .unwrap_or_default()
     };
-    let right = format!(" night {}  {}", s.date.format("%a %Y-%m-%d"), file);
-    x = put(
-        buf,
-        x,
-        area.y,
-        &right,
-        area.width.saturating_sub(x - area.x),
-        th.text(),
-    );
+    let night = if roomy {
+        format!(" night {} ", s.date.format("%a %Y-%m-%d"))
+    } else {
+        format!(" {} ", s.date.format("%a %Y-%m-%d"))
+    };
+    let rest = |x: u16| area.width.saturating_sub(x - area.x);
+    x = put(buf, x, area.y, &night, rest(x), th.text());
     if s.dirty() {
-        put(
-            buf,
-            x,
-            area.y,
-            " ● unsaved",
-            area.width.saturating_sub(x - area.x),
-            th.notice(),
-        );
+        x = put(buf, x, area.y, "● unsaved ", rest(x), th.notice());
     }
+    put(buf, x, area.y, &file, rest(x), th.dim());
 }
 
 /// The bottom line: the filter being typed, the last message, or the main keys.
@@ -208,6 +207,8 @@ pub fn render_all(s: &State, area: Rect, buf: &mut Buffer) {
         View::Roster => roster::render(s, body, buf),
         View::Tonight => tonight::render(s, body, buf),
         View::Season => season::render(s, body, buf),
+        View::Phase => phase::render(s, body, buf),
+        View::Chase => chase::render(s, body, buf),
     }
     bottom(
         s,
@@ -219,6 +220,7 @@ pub fn render_all(s: &State, area: Rect, buf: &mut Buffer) {
         Some(Overlay::Help { scroll }) => overlays::help(s, *scroll, body, buf),
         Some(Overlay::Form(f)) => overlays::form(s, f, body, buf),
         Some(Overlay::Sites { sel }) => overlays::sites(s, *sel, body, buf),
+        Some(Overlay::Instruments { sel }) => overlays::instruments(s, *sel, body, buf),
         Some(Overlay::Question(q)) => overlays::question(s, q, body, buf),
     }
 }

@@ -244,3 +244,42 @@ pub fn question(s: &State, q: &Question, area: Rect, buf: &mut Buffer) {
         s.theme.text(),
     );
 }
+
+/// The instrument picker.
+pub fn instruments(s: &State, sel: usize, area: Rect, buf: &mut Buffer) {
+    let h = (s.instruments.len() as u16 + 3).min(area.height);
+    let r = centered(area, 60, h);
+    let inner = frame(
+        "Instrument (Enter uses it, Esc keeps the current)",
+        r,
+        buf,
+        s,
+    );
+    let rows = inner.height.saturating_sub(1) as usize;
+    let off = sel.saturating_sub(rows.saturating_sub(1));
+    for (k, name) in s.instruments.iter().enumerate().skip(off).take(rows) {
+        let y = inner.y + (k - off) as u16;
+        let cur = if *name == s.instrument { "●" } else { " " };
+        let st = if k == sel {
+            s.theme.selected()
+        } else {
+            s.theme.text()
+        };
+        put(
+            buf,
+            inner.x,
+            y,
+            &fit(&format!("{cur} {name}"), inner.width as usize),
+            inner.width,
+            st,
+        );
+    }
+    put(
+        buf,
+        inner.x,
+        inner.y + inner.height - 1,
+        "used for exposures in the Phase and Chase views",
+        inner.width,
+        s.theme.dim(),
+    );
+}
