@@ -283,7 +283,7 @@ pub enum Overlay {
         sel: usize,
     },
     /// Target form.
-    Form(Form),
+    Form(Box<Form>),
     /// A yes/no question.
     Question(Question),
 }

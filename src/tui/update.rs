@@ -556,12 +556,12 @@ fn act_main(s: &mut State, a: Action) -> Option<Effect> {
             season_effect(s)
         }
         Action::Add => {
-            s.overlay = Some(Overlay::Form(Form::blank()));
+            s.overlay = Some(Overlay::Form(Box::new(Form::blank())));
             None
         }
         Action::Edit => {
             if let Some(t) = s.selected() {
-                s.overlay = Some(Overlay::Form(Form::from_target(t)));
+                s.overlay = Some(Overlay::Form(Box::new(Form::from_target(t))));
             }
             None
         }
