@@ -27,6 +27,8 @@ enum Command {
     Phase(Box<cli::phase::Args>),
     /// Chase a fresh thermonuclear supernova: nightly windows, exposures, cadence, distance precision.
     Chase(Box<cli::chase::Args>),
+    /// Parallax factors, best epochs, and the precision a schedule buys.
+    Parallax(Box<cli::parallax::Args>),
     /// Signal-to-noise of an exposure on a star under tonight's sky.
     Snr(cli::snr::SnrArgs),
     /// Exposure time that reaches a signal-to-noise on a star under tonight's sky.
@@ -41,6 +43,7 @@ fn main() -> ExitCode {
         Some(Command::Tui(a)) => cli::tui::run(a),
         Some(Command::Phase(a)) => cli::phase::run(*a),
         Some(Command::Chase(a)) => cli::chase::run(*a),
+        Some(Command::Parallax(a)) => cli::parallax::run(*a),
         Some(Command::Snr(a)) => cli::snr::run_snr(a),
         Some(Command::Exptime(a)) => cli::snr::run_exptime(a),
         None => cli::default_run(),

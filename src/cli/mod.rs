@@ -3,6 +3,7 @@
 pub mod chase;
 pub mod night;
 pub mod phase;
+pub mod parallax;
 pub mod snr;
 pub mod tui;
 pub mod where_cmd;

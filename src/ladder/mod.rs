@@ -7,6 +7,7 @@
 //! plus one line in [`method_for`].
 
 pub mod pulsator;
+pub mod parallax;
 
 use crate::astro::frames::{CatalogPlace, Context};
 use crate::astro::night::Limits;

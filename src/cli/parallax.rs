@@ -1,0 +1,480 @@
+//! `rung parallax`: parallax factors through a range, the best nights for
+//! epochs, and the precision a schedule buys (or what a goal takes).
+
+use anyhow::{Context as _, Result, bail};
+use rung::astro::frames::Context;
+use rung::astro::night::Limits;
+use rung::astro::time::{Instant, parse_date, parse_instant};
+use rung::astro::{pointing, sun_caution};
+use rung::io::angles::{parse_dec_deg, parse_ra_deg};
+use rung::io::sites;
+use rung::io::targets::{Kind, Target};
+use rung::ladder::parallax::{FactorAxis, ParallaxConfig, ParallaxMethod, ParallaxPlan};
+use rung::ladder::{Setting, Verdict};
+use rung::photometry::{DEMO_INSTRUMENT, Photometer};
+use serde_json::{Value, json};
+use std::path::PathBuf;
+
+/// Arguments of `rung parallax`.
+#[derive(clap::Args)]
+pub struct Args {
+    /// Site name from the catalogue, or LAT,LON,ELEV_M[,ZONE].
+    #[arg(long, default_value = super::DEMO_SITE)]
+    pub site: String,
+    /// A target name from --targets.
+    #[arg(long)]
+    pub target: Option<String>,
+    /// Targets file (CSV or TOML); default the demo programme.
+    #[arg(long)]
+    pub targets: Option<PathBuf>,
+    /// Right ascension (ICRS): degrees or HH:MM:SS.s (instead of --target).
+    #[arg(long, allow_hyphen_values = true)]
+    pub ra: Option<String>,
+    /// Declination (ICRS): degrees or ±DD:MM:SS.
+    #[arg(long, allow_hyphen_values = true)]
+    pub dec: Option<String>,
+    /// Expected parallax, mas (required with --ra/--dec; overrides the file's).
+    #[arg(long, allow_hyphen_values = true)]
+    pub parallax_mas: Option<f64>,
+    /// Proper motion μα cos δ, mas/yr (with --ra/--dec).
+    #[arg(long, default_value_t = 0.0, allow_hyphen_values = true)]
+    pub pm_ra_masyr: f64,
+    /// Proper motion μδ, mas/yr (with --ra/--dec).
+    #[arg(long, default_value_t = 0.0, allow_hyphen_values = true)]
+    pub pm_dec_masyr: f64,
+    /// Magnitude in --band (required with --ra/--dec; overrides the file's).
+    #[arg(long, allow_hyphen_values = true)]
+    pub mag: Option<f64>,
+    /// Photometric band (with --ra/--dec).
+    #[arg(long, default_value = "I")]
+    pub band: String,
+    /// First night of the range (YYYY-MM-DD); default today (UTC).
+    #[arg(long)]
+    pub from: Option<String>,
+    /// Last night of the range, inclusive; default three years after --from.
+    #[arg(long)]
+    pub to: Option<String>,
+    /// Factor to maximise: ra, dec or combined (default from config/parallax.toml).
+    #[arg(long)]
+    pub axis: Option<String>,
+    /// Candidate nights have |factor| ≥ this fraction of the yearly extreme (0–1).
+    #[arg(long)]
+    pub fraction: Option<f64>,
+    /// Hour-angle limit, hours (default ±1 h).
+    #[arg(long)]
+    pub ha_limit_h: Option<f64>,
+    /// Airmass limit.
+    #[arg(long)]
+    pub max_airmass: Option<f64>,
+    /// Signal-to-noise per proposed epoch.
+    #[arg(long)]
+    pub snr: Option<f64>,
+    /// Epochs per season.
+    #[arg(long)]
+    pub epochs_per_season: Option<u32>,
+    /// Minimum altitude, degrees.
+    #[arg(long, default_value_t = 30.0, allow_hyphen_values = true)]
+    pub min_alt: f64,
+    /// The Sun must be below this altitude (dark time), degrees.
+    #[arg(long, default_value_t = -18.0, allow_hyphen_values = true)]
+    pub sun_alt: f64,
+    /// An epoch of your own (ISO 8601), repeatable: predicts the precision of these instead.
+    #[arg(long = "epoch")]
+    pub epoch: Vec<String>,
+    /// A file of your own epochs, one ISO 8601 instant per line ('#' comments).
+    #[arg(long)]
+    pub epochs_file: Option<PathBuf>,
+    /// Distance-precision goal, percent: find the epochs and hours that reach it.
+    #[arg(long)]
+    pub goal_pct: Option<f64>,
+    /// Instrument name from the catalogue (default the demo instrument).
+    #[arg(long, default_value = DEMO_INSTRUMENT)]
+    pub instrument: String,
+    /// Seeing FWHM, arcsec (default the instrument's typical seeing).
+    #[arg(long)]
+    pub seeing: Option<f64>,
+    /// Parallax configuration (TOML with every key of config/parallax.toml).
+    #[arg(long)]
+    pub config: Option<PathBuf>,
+    /// Machine-readable output.
+    #[arg(long)]
+    pub json: bool,
+}
+
+fn config(a: &Args) -> Result<ParallaxConfig> {
+    let mut c = match &a.config {
+        Some(p) => {
+            let text = std::fs::read_to_string(p)
+                .with_context(|| format!("{}: cannot read", p.display()))?;
+            ParallaxConfig::from_toml(&text, p)?
+        }
+        None => ParallaxConfig::builtin()?,
+    };
+    if let Some(x) = &a.axis {
+        c.factor_axis = FactorAxis::parse(x)?;
+    }
+    if let Some(x) = a.fraction {
+        c.factor_fraction = x;
+    }
+    if let Some(x) = a.ha_limit_h {
+        c.ha_limit_h = x;
+    }
+    if let Some(x) = a.max_airmass {
+        c.max_airmass = x;
+    }
+    if let Some(x) = a.snr {
+        c.snr = x;
+    }
+    if let Some(x) = a.epochs_per_season {
+        c.epochs_per_season = x;
+        c.max_epochs_per_season = c.max_epochs_per_season.max(x);
+    }
+    Ok(c.validated()?)
+}
+
+fn target(a: &Args) -> Result<Target> {
+    let mut t = match (&a.target, &a.ra, &a.dec) {
+        (Some(n), _, _) => {
+            let file = a
+                .targets
+                .clone()
+                .unwrap_or_else(|| super::demo_dir().join("targets.csv"));
+            let ts = super::load_targets(&file)?;
+            ts.into_iter()
+                .find(|x| x.name.eq_ignore_ascii_case(n))
+                .with_context(|| format!("no target named '{n}' in {}", file.display()))?
+        }
+        (None, Some(r), Some(d)) => {
+            let mut t = Target::plain("coordinates", parse_ra_deg(r)?, parse_dec_deg(d)?);
+            t.kind = Kind::Parallax;
+            t.pm_ra_masyr = a.pm_ra_masyr;
+            t.pm_dec_masyr = a.pm_dec_masyr;
+            t.band = a.band.clone();
+            if a.parallax_mas.is_none() {
+                bail!("give --parallax-mas (the expected parallax) with --ra and --dec");
+            }
+            if a.mag.is_none() {
+                bail!("give --mag (and --band) with --ra and --dec: the exposure model needs them");
+            }
+            t
+        }
+        _ => bail!("give --target NAME (with --targets FILE), or --ra, --dec and --parallax-mas"),
+    };
+    if let Some(p) = a.parallax_mas {
+        t.parallax_mas = Some(p);
+    }
+    if let Some(m) = a.mag {
+        t.mag = Some(m);
+    }
+    Ok(t)
+}
+
+fn user_epochs(a: &Args) -> Result<Vec<Instant>> {
+    let mut out = Vec::new();
+    for (i, e) in a.epoch.iter().enumerate() {
+        out.push(parse_instant(e).with_context(|| format!("--epoch number {}", i + 1))?);
+    }
+    if let Some(p) = &a.epochs_file {
+        let text =
+            std::fs::read_to_string(p).with_context(|| format!("{}: cannot read", p.display()))?;
+        for (i, line) in text.lines().enumerate() {
+            let l = line.split('#').next().unwrap_or("").trim();
+            if l.is_empty() {
+                continue;
+            }
+            out.push(parse_instant(l).with_context(|| format!("{}, line {}", p.display(), i + 1))?);
+        }
+        if out.is_empty() {
+            bail!(
+                "{}: the epoch list is empty: give at least three ISO 8601 instants",
+                p.display()
+            );
+        }
+    }
+    Ok(out)
+}
+
+/// Run `rung parallax`.
+pub fn run(a: Args) -> Result<()> {
+    let site = sites::resolve(&a.site)?;
+    let cfg = config(&a)?;
+    let tgt = target(&a)?;
+    let limits = Limits::new(a.min_alt, a.sun_alt)?;
+    let from = match &a.from {
+        Some(s) => parse_date(s)?,
+        None => chrono::Utc::now().date_naive(),
+    };
+    let to = match &a.to {
+        Some(s) => parse_date(s)?,
+        None => from
+            .checked_add_months(chrono::Months::new(36))
+            .and_then(|d| d.pred_opt())
+            .context("--from is too late for a default range")?,
+    };
+    let mut em = Photometer::from_name(&a.instrument, &site)?;
+    if let Some(s) = a.seeing {
+        em = em.with_seeing(s)?;
+    }
+    let m = ParallaxMethod::new(cfg.clone())?;
+    let s = Setting {
+        site: &site,
+        target: &tgt,
+        from,
+        to,
+        limits,
+    };
+    let times = user_epochs(&a)?;
+    let (mode, plan) = if !times.is_empty() || a.epochs_file.is_some() {
+        let ep = m.epochs_at(&s, &em, &times)?;
+        ("epochs", m.plan_for(&s, ep)?)
+    } else if let Some(g) = a.goal_pct {
+        ("goal", m.goal_plan(&s, &em, g)?)
+    } else {
+        ("propose", m.plan(&s, &em)?)
+    };
+    let mut cautions = Vec::new();
+    for e in &plan.epochs {
+        let ctx = Context::exact(&site, e.epoch.time)?;
+        let p = pointing(&site, &ctx, &tgt.place());
+        if let Some(c) = sun_caution(&site, &p) {
+            cautions.push(format!("{}: {c}", e.epoch.time.iso()));
+        }
+    }
+    if a.json {
+        let v = to_json(
+            &a,
+            &site.name,
+            &em.instrument.name,
+            &tgt,
+            mode,
+            &cfg,
+            &plan,
+            &cautions,
+            &s,
+        )?;
+        println!("{}", serde_json::to_string_pretty(&v)?);
+        return Ok(());
+    }
+    print_text(
+        &site,
+        &em.instrument.name,
+        &tgt,
+        mode,
+        &cfg,
+        &plan,
+        &cautions,
+        &s,
+    );
+    Ok(())
+}
+
+fn finite(x: f64) -> Option<f64> {
+    x.is_finite().then_some(x)
+}
+
+#[allow(clippy::too_many_arguments)]
+fn to_json(
+    a: &Args,
+    site: &str,
+    instrument: &str,
+    t: &Target,
+    mode: &str,
+    cfg: &ParallaxConfig,
+    plan: &ParallaxPlan,
+    cautions: &[String],
+    s: &Setting,
+) -> Result<Value> {
+    let seasons_used = plan.epochs.iter().map(|e| e.season).max().unwrap_or(0);
+    let series: Vec<Value> = plan
+        .series
+        .nights
+        .iter()
+        .map(|n| {
+            json!({
+                "night": n.night.to_string(),
+                "pf_ra": n.pf_ra,
+                "pf_dec": n.pf_dec,
+                "factor": n.factor,
+                "observable": n.observable,
+                "candidate": n.candidate,
+                "best_time": n.best_time.map(|t| t.iso()),
+                "hour_angle_h": n.hour_angle_h,
+                "airmass": n.airmass,
+                "usable_min": n.usable_min,
+            })
+        })
+        .collect();
+    let epochs: Vec<Value> = plan
+        .epochs
+        .iter()
+        .map(|e| {
+            json!({
+                "time": e.epoch.time.iso(),
+                "night": e.night.map(|d| d.to_string()),
+                "season": e.season,
+                "pf_ra": e.pf_ra,
+                "pf_dec": e.pf_dec,
+                "hour_angle_h": e.hour_angle_h,
+                "airmass": e.epoch.airmass,
+                "snr": e.epoch.snr,
+                "exptime_s": e.epoch.exptime_s,
+                "n_exposures": e.epoch.n_exposures,
+                "visit_s": e.epoch.visit_s,
+                "sigma_mas": e.sigma_mas,
+            })
+        })
+        .collect();
+    let sol = plan.solution.as_ref();
+    let pct = finite(plan.prediction.distance_precision_pct);
+    Ok(json!({
+        "target": t.name,
+        "site": site,
+        "instrument": instrument,
+        "mode": mode,
+        "from": s.from.to_string(),
+        "to": s.to.to_string(),
+        "parallax_mas": plan.parallax_mas,
+        "distance_pc": 1000.0 / plan.parallax_mas,
+        "goal_pct": a.goal_pct,
+        "axis": cfg.factor_axis.as_str(),
+        "factor_fraction": cfg.factor_fraction,
+        "ha_limit_h": cfg.ha_limit_h,
+        "max_airmass": cfg.max_airmass,
+        "min_alt_deg": s.limits.min_alt_deg,
+        "sun_alt_deg": s.limits.sun_alt_deg,
+        "floor_mas": cfg.floor_mas,
+        "dcr_mas_per_tanz": cfg.dcr_mas_per_tanz,
+        "ellipse": plan.ellipse,
+        "yearly_extreme_au": plan.series.yearly_extreme,
+        "threshold_au": plan.series.threshold,
+        "series": series,
+        "seasons_available": plan.seasons_available,
+        "seasons_used": seasons_used,
+        "epochs": epochs,
+        "sigma_parallax_mas": sol.map(|x| x.sigma_parallax_mas),
+        "sigma_pm_masyr": sol.map(|x| x.sigma_pm_masyr),
+        "sigma_pm_ra_masyr": sol.map(|x| x.sigma_pm_ra_masyr),
+        "sigma_pm_dec_masyr": sol.map(|x| x.sigma_pm_dec_masyr),
+        "corr_parallax_pm": sol.map(|x| x.corr_parallax_pm),
+        "corr_parallax_pm_ra": sol.map(|x| x.corr_parallax_pm_ra),
+        "corr_parallax_pm_dec": sol.map(|x| x.corr_parallax_pm_dec),
+        "baseline_yr": sol.map(|x| x.baseline_yr),
+        "distance_precision_pct": pct,
+        "lutz_kelker_warning": pct.is_some_and(|p| p > cfg.lutz_kelker_pct),
+        "hours_needed": plan.prediction.hours_needed,
+        "verdict": plan.prediction.verdict,
+        "cautions": cautions,
+        "notes": plan.prediction.notes,
+    }))
+}
+
+fn verdict_text(v: &Verdict) -> String {
+    match v {
+        Verdict::Reachable => "reachable".into(),
+        Verdict::LimitedByFloor { floor_pct } => {
+            format!("not reachable: limited by the per-epoch floor (best {floor_pct:.1} %)")
+        }
+        Verdict::NotObservable { when } => format!(
+            "not observable in the range{}",
+            when.as_ref().map(|w| format!(" ({w})")).unwrap_or_default()
+        ),
+        Verdict::NeedsMoreSeasons { seasons } => match seasons {
+            Some(n) => format!("needs more seasons (about {n})"),
+            None => "needs more seasons".into(),
+        },
+    }
+}
+
+#[allow(clippy::too_many_arguments)]
+fn print_text(
+    site: &rung::astro::site::Site,
+    instrument: &str,
+    t: &Target,
+    mode: &str,
+    cfg: &ParallaxConfig,
+    plan: &ParallaxPlan,
+    cautions: &[String],
+    s: &Setting,
+) {
+    let el = &plan.ellipse;
+    println!(
+        "{} from {} with {}: ϖ = {:.2} mas (d ≈ {:.1} pc), nights {} to {} ({mode})",
+        t.name,
+        site.name,
+        instrument,
+        plan.parallax_mas,
+        1000.0 / plan.parallax_mas,
+        s.from,
+        s.to
+    );
+    println!(
+        "  parallactic ellipse {:.2} × {:.2} mas, major axis at PA {:.1}°, ecliptic latitude {:+.1}°",
+        el.semi_major_mas, el.semi_minor_mas, el.pa_major_deg, el.ecliptic_lat_deg
+    );
+    let obs = plan.series.nights.iter().filter(|n| n.observable).count();
+    println!(
+        "  {} nights, {obs} observable within ±{:.1} h below airmass {:.2}; candidates at |P_{}| ≥ {:.2} au ({:.0} % of {:.3}): {} season(s)",
+        plan.series.nights.len(),
+        cfg.ha_limit_h,
+        cfg.max_airmass,
+        cfg.factor_axis.as_str(),
+        plan.series.threshold,
+        100.0 * cfg.factor_fraction,
+        plan.series.yearly_extreme,
+        plan.seasons_available
+    );
+    for season in plan.series.seasons(cfg.season_gap_d) {
+        if let (Some(a), Some(b)) = (season.first(), season.last()) {
+            println!(
+                "    season {} to {}: {} candidate night(s)",
+                plan.series.nights[*a].night,
+                plan.series.nights[*b].night,
+                season.len()
+            );
+        }
+    }
+    if !plan.epochs.is_empty() {
+        println!("  epochs:");
+        println!(
+            "    {:<20} {:>3} {:>7} {:>7} {:>6} {:>6} {:>6} {:>8} {:>4} {:>7}",
+            "time (UTC)", "ssn", "P_ra", "P_dec", "HA h", "X", "SNR", "exp s", "n", "σ mas"
+        );
+        for e in &plan.epochs {
+            println!(
+                "    {:<20} {:>3} {:>+7.3} {:>+7.3} {:>+6.2} {:>6.3} {:>6.0} {:>8.1} {:>4} {:>7.2}",
+                e.epoch.time.round_to_second().iso(),
+                e.season,
+                e.pf_ra,
+                e.pf_dec,
+                e.hour_angle_h,
+                e.epoch.airmass,
+                e.epoch.snr,
+                e.epoch.exptime_s,
+                e.epoch.n_exposures,
+                e.sigma_mas
+            );
+        }
+    }
+    if let Some(sol) = &plan.solution {
+        println!(
+            "  σ_ϖ = {:.2} mas, σ_μ = {:.2} mas/yr (RA {:.2}, Dec {:.2}), ϖ–μ correlation {:+.2}, baseline {:.2} yr",
+            sol.sigma_parallax_mas,
+            sol.sigma_pm_masyr,
+            sol.sigma_pm_ra_masyr,
+            sol.sigma_pm_dec_masyr,
+            sol.corr_parallax_pm,
+            sol.baseline_yr
+        );
+        println!(
+            "  σ_d/d = {:.2} %, {:.2} telescope hours with overheads",
+            plan.prediction.distance_precision_pct, plan.prediction.hours_needed
+        );
+    }
+    println!("  verdict: {}", verdict_text(&plan.prediction.verdict));
+    for n in &plan.prediction.notes {
+        println!("  note: {n}");
+    }
+    for c in cautions {
+        println!("  {c}");
+    }
+}

@@ -1,0 +1,209 @@
+//! `rung parallax` as a user runs it: the JSON contract, cautions, and clear
+//! one-line errors for bad input (exit code 2, no panic).
+
+use std::process::Command;
+
+fn rung(args: &[&str]) -> (i32, String, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args(args)
+        .env(
+            "RUNG_CONFIG_DIR",
+            std::env::temp_dir().join("rung-parallax-cli-test-none"),
+        )
+        .output()
+        .expect("rung runs");
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+fn json(args: &[&str]) -> serde_json::Value {
+    let (code, out, err) = rung(args);
+    assert_eq!(code, 0, "{err}");
+    serde_json::from_str(&out).expect("JSON output")
+}
+
+/// The JSON keys are a contract (DESIGN.md, issue 4): series items with night,
+/// pf_ra, pf_dec, observable, best_time; epochs; the sigmas, precision and hours;
+/// cautions and notes.
+#[test]
+fn json_has_the_contract_keys() {
+    let v = json(&[
+        "parallax",
+        "--target",
+        "LPO-P01",
+        "--from",
+        "2026-12-01",
+        "--to",
+        "2027-12-31",
+        "--json",
+    ]);
+    for k in [
+        "series",
+        "epochs",
+        "sigma_parallax_mas",
+        "sigma_pm_masyr",
+        "distance_precision_pct",
+        "hours_needed",
+        "cautions",
+        "notes",
+        "ellipse",
+        "corr_parallax_pm",
+        "verdict",
+    ] {
+        assert!(v.get(k).is_some(), "missing {k}");
+    }
+    let series = v["series"].as_array().unwrap();
+    assert_eq!(series.len(), 396);
+    for k in ["night", "pf_ra", "pf_dec", "observable", "best_time"] {
+        assert!(series[0].get(k).is_some(), "series missing {k}");
+    }
+    let epochs = v["epochs"].as_array().unwrap();
+    assert!(epochs.len() >= 3);
+    for k in [
+        "time",
+        "snr",
+        "exptime_s",
+        "airmass",
+        "sigma_mas",
+        "pf_ra",
+        "pf_dec",
+    ] {
+        assert!(epochs[0].get(k).is_some(), "epochs missing {k}");
+    }
+    assert!(v["sigma_parallax_mas"].as_f64().unwrap() > 0.0);
+    let pct = v["distance_precision_pct"].as_f64().unwrap();
+    let s = v["sigma_parallax_mas"].as_f64().unwrap();
+    assert!((pct - 100.0 * s / 68.4).abs() < 1e-9);
+    // An unobservable night carries no best time.
+    assert!(
+        series
+            .iter()
+            .any(|n| !n["observable"].as_bool().unwrap() && n["best_time"].is_null())
+    );
+}
+
+/// Safety (HELPER_RULES, DESIGN.md): an epoch near the Sun while it is up gets
+/// a caution. And an inverse parallax with σ_ϖ/ϖ above 10 % is flagged as a
+/// biased distance (Lutz & Kelker 1973, quoted from memory).
+#[test]
+fn user_epochs_near_the_sun_get_a_caution_and_lutz_kelker_warning() {
+    let v = json(&[
+        "parallax",
+        "--ra",
+        "10",
+        "--dec",
+        "0",
+        "--parallax-mas",
+        "50",
+        "--mag",
+        "12",
+        "--from",
+        "2027-03-01",
+        "--to",
+        "2027-03-31",
+        "--epoch",
+        "2027-03-21T16:00:00Z",
+        "--epoch",
+        "2027-03-22T16:00:00Z",
+        "--epoch",
+        "2027-03-25T16:00:00Z",
+        "--json",
+    ]);
+    let c = v["cautions"].as_array().unwrap();
+    assert_eq!(c.len(), 3);
+    assert!(c[0].as_str().unwrap().contains("SUN CAUTION"));
+    assert!(v["lutz_kelker_warning"].as_bool().unwrap());
+    let notes: Vec<&str> = v["notes"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|n| n.as_str().unwrap())
+        .collect();
+    assert!(notes.iter().any(|n| n.contains("Lutz & Kelker")));
+    assert!(notes.iter().any(|n| n.contains("outside ±1.0 h")));
+}
+
+fn fails_with(args: &[&str], needle: &str) {
+    let (code, out, err) = rung(args);
+    assert_eq!(code, 2, "stdout {out} stderr {err}");
+    assert!(err.contains(needle), "{err}");
+    assert_eq!(err.trim().lines().count(), 1, "one line: {err}");
+    assert!(!err.contains("panicked"));
+}
+
+#[test]
+fn bad_input_gives_one_clear_line() {
+    fails_with(
+        &[
+            "parallax",
+            "--ra",
+            "10",
+            "--dec",
+            "-20",
+            "--parallax-mas",
+            "-5",
+            "--mag",
+            "12",
+        ],
+        "not positive",
+    );
+    fails_with(
+        &["parallax", "--ra", "10", "--dec", "-20", "--mag", "12"],
+        "--parallax-mas",
+    );
+    fails_with(
+        &[
+            "parallax",
+            "--ra",
+            "200",
+            "--dec",
+            "75",
+            "--parallax-mas",
+            "5",
+            "--mag",
+            "12",
+            "--from",
+            "2027-01-01",
+            "--to",
+            "2027-02-01",
+        ],
+        "never observable",
+    );
+    let empty = std::env::temp_dir().join("rung-parallax-empty-epochs.txt");
+    std::fs::write(&empty, "# no epochs here\n").unwrap();
+    fails_with(
+        &[
+            "parallax",
+            "--target",
+            "LPO-P01",
+            "--epochs-file",
+            empty.to_str().unwrap(),
+        ],
+        "empty",
+    );
+    fails_with(
+        &[
+            "parallax",
+            "--target",
+            "LPO-P01",
+            "--epoch",
+            "2027-01-01T03:00:00Z",
+        ],
+        "at least three",
+    );
+    fails_with(
+        &["parallax", "--target", "LPO-P01", "--axis", "sideways"],
+        "ra, dec or combined",
+    );
+    fails_with(
+        &["parallax", "--target", "NO-SUCH", "--from", "2027-01-01"],
+        "no target named",
+    );
+    fails_with(
+        &["parallax", "--target", "LPO-P01", "--fraction", "1.5"],
+        "factor_fraction",
+    );
+}
