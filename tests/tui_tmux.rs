@@ -145,8 +145,11 @@ fn every_view_then_quit_restores_the_terminal() {
     t.send("Down");
     t.wait_for("LPO-P02: most");
     t.send("4");
-    t.wait_for("the Phase view is for pulsators");
+    t.wait_for("Parallax · ◆ LPO-P02");
+    t.wait_for("σd/d");
     t.send("5");
+    t.wait_for("the Phase view is for pulsators");
+    t.send("6");
     t.wait_for("the Chase view is for transients");
     t.send("End");
     t.wait_for("Chase · ✶ LPO-T2026b");

@@ -42,8 +42,10 @@ fn roster_80x24_shows_library_windows() {
     assert!(rows[0].contains("Moon "), "{}", rows[0]);
     assert!(
         rows[1].contains("1 Roster")
-            && rows[1].contains("5 Chase")
-            && rows[1].contains(" Tue 2026-12-01 ")
+            && rows[1].contains("6 Chase")
+            && rows[1].contains(" 2026-12-01 "),
+        "{}",
+        rows[1]
     );
     assert!(rows[1].trim_end().ends_with("demo"), "{}", rows[1]);
     assert!(rows[2].starts_with("Roster · 26 of 26 targets · by file order"));
@@ -345,7 +347,7 @@ fn phase_view_shows_the_pulsator_analysis_at_both_sizes() {
         .unwrap();
     for (w, h) in [(80u16, 24u16), (160, 48)] {
         let mut s = demo_state((w, h));
-        ch(&mut s, '4');
+        ch(&mut s, '5');
         let (rows, _) = screen(&s, w, h);
         assert!(has(
             &rows,
@@ -425,7 +427,7 @@ fn chase_view_shows_the_transient_timeline_at_both_sizes() {
     .unwrap();
     for (w, h) in [(80u16, 24u16), (160, 48)] {
         let mut s = demo_state((w, h));
-        ch(&mut s, '5');
+        ch(&mut s, '6');
         let (rows, _) = screen(&s, w, h);
         assert!(has(&rows, "the Chase view is for transients"));
         select(&mut s, "LPO-T2026a");
@@ -468,4 +470,71 @@ fn chase_view_shows_the_transient_timeline_at_both_sizes() {
             )
         ));
     }
+}
+
+#[test]
+fn parallax_view_shows_factors_and_epochs_at_both_sizes() {
+    use rung::ladder::Setting;
+    use rung::ladder::parallax::ParallaxMethod;
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let targets = demo_targets();
+    let t = targets.iter().find(|t| t.name == "LPO-P03").unwrap();
+    let em = rung::photometry::Photometer::demo(&site).unwrap();
+    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
+    let to = chrono::NaiveDate::from_ymd_opt(2029, 11, 30).unwrap();
+    let p = ParallaxMethod::builtin()
+        .unwrap()
+        .plan(
+            &Setting {
+                site: &site,
+                target: t,
+                from,
+                to,
+                limits: limits(),
+            },
+            &em,
+        )
+        .unwrap();
+    let mut s = demo_state((80, 24));
+    ch(&mut s, '4');
+    select(&mut s, "LPO-P03");
+    for (w, h) in [(80u16, 24u16), (160, 48)] {
+        s.size = (w, h);
+        let (rows, buf) = screen(&s, w, h);
+        assert!(
+            rows[2].starts_with("Parallax · ◆ LPO-P03 · ϖ 112.0 mas · 3 years from 2026-12-01"),
+            "{}",
+            rows[2]
+        );
+        assert!(rows[3].starts_with("+1 au") && has(&rows, " 0 au") && has(&rows, "-1 au"));
+        let braille = buf
+            .content()
+            .iter()
+            .filter(|c| {
+                c.symbol()
+                    .chars()
+                    .next()
+                    .is_some_and(|c| ('\u{2801}'..='\u{28FF}').contains(&c))
+            })
+            .count();
+        assert!(braille > 60, "{braille}");
+        let sky = row_of(&rows, "sky  ");
+        assert!(sky.contains('█') && sky.contains('·'), "{sky}");
+        let epochs = row_of(&rows, "epoch");
+        assert!(epochs.contains('◆'));
+        let sol = p.solution.as_ref().unwrap();
+        let line = format!(
+            "σϖ {:.2} mas → σd/d {:.2}% · {} epochs in {} seasons",
+            sol.sigma_parallax_mas,
+            p.prediction.distance_precision_pct,
+            p.epochs.len(),
+            p.seasons_available
+        );
+        assert!(has(&rows, &line), "{line}");
+        assert!(has(&rows, "2027") && has(&rows, "2028"));
+    }
+    // A pulsator is refused with a reason.
+    select(&mut s, "LPO-C01");
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(has(&rows, "the Parallax view is for parallax targets"));
 }

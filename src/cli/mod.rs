@@ -2,8 +2,8 @@
 
 pub mod chase;
 pub mod night;
-pub mod phase;
 pub mod parallax;
+pub mod phase;
 pub mod snr;
 pub mod tui;
 pub mod where_cmd;

@@ -6,8 +6,8 @@
 //! scheduler use only this face ([`Method`]), so a fourth method is a new file
 //! plus one line in [`method_for`].
 
-pub mod pulsator;
 pub mod parallax;
+pub mod pulsator;
 
 use crate::astro::frames::{CatalogPlace, Context};
 use crate::astro::night::Limits;

@@ -7,12 +7,13 @@ use crate::astro::{pointing, sun_caution};
 use crate::error::Result;
 use crate::io::atomic::write_atomic;
 use crate::io::targets::Target;
+use crate::ladder::parallax::ParallaxMethod;
 use crate::ladder::pulsator::{PulsatorConfig, PulsatorMethod};
 use crate::ladder::transient::{ChaseOptions, TransientConfig, TransientMethod, night_of};
 use crate::photometry::Photometer;
 use crate::tui::msg::{Effect, Msg, NightJob, SeasonJob, SeasonRows};
 use crate::tui::state::{
-    MethodBody, MethodKey, MethodResult, NightData, PHASE_NIGHTS, TargetRow, View,
+    MethodBody, MethodKey, MethodResult, NightData, PARALLAX_MONTHS, PHASE_NIGHTS, TargetRow, View,
 };
 use rayon::prelude::*;
 use std::sync::Arc;
@@ -128,6 +129,31 @@ fn method_report_inner(k: &MethodKey) -> Result<MethodBody> {
     let t = &k.target;
     let em = Photometer::from_name(&k.instrument, &k.site)?;
     match k.view {
+        View::Parallax => {
+            if t.kind != Kind::Parallax {
+                return Ok(MethodBody::NotApplicable(format!(
+                    "{} is a {} target: the Parallax view is for parallax targets (choose one with ↑/↓)",
+                    t.name,
+                    t.kind.as_str()
+                )));
+            }
+            let m = ParallaxMethod::builtin()?;
+            let to = k
+                .date
+                .checked_add_months(chrono::Months::new(PARALLAX_MONTHS))
+                .and_then(|d| d.pred_opt())
+                .ok_or_else(|| {
+                    crate::error::RungError::invalid("date", "too late for a parallax range")
+                })?;
+            let s = Setting {
+                site: &k.site,
+                target: t,
+                from: k.date,
+                to,
+                limits: k.limits,
+            };
+            Ok(MethodBody::Parallax(Box::new(m.plan(&s, &em)?)))
+        }
         View::Phase => {
             if t.kind != Kind::Pulsator {
                 return Ok(MethodBody::NotApplicable(format!(

@@ -29,6 +29,8 @@ pub enum Action {
     ShowTonight,
     /// The Season view.
     ShowSeason,
+    /// The Parallax view (parallax targets).
+    ShowParallax,
     /// The Phase view (pulsators).
     ShowPhase,
     /// The Chase view (transients).

@@ -22,6 +22,8 @@ pub enum View {
     Tonight,
     /// Observable hours, targets × nights.
     Season,
+    /// The parallax factor through the years, with the chosen epochs.
+    Parallax,
     /// A pulsator's phase coverage and next reachable phases.
     Phase,
     /// A transient's follow-up timeline.
@@ -30,10 +32,11 @@ pub enum View {
 
 impl View {
     /// All views in tab order.
-    pub const ALL: [View; 5] = [
+    pub const ALL: [View; 6] = [
         View::Roster,
         View::Tonight,
         View::Season,
+        View::Parallax,
         View::Phase,
         View::Chase,
     ];
@@ -43,6 +46,7 @@ impl View {
             View::Roster => "Roster",
             View::Tonight => "Tonight",
             View::Season => "Season",
+            View::Parallax => "Parallax",
             View::Phase => "Phase",
             View::Chase => "Chase",
         }
@@ -225,6 +229,8 @@ pub struct MethodKey {
 /// A distance-method report, computed by the library.
 #[derive(Debug, Clone, PartialEq)]
 pub enum MethodBody {
+    /// `ParallaxMethod::plan` over the range.
+    Parallax(Box<crate::ladder::parallax::ParallaxPlan>),
     /// `PulsatorMethod::analyse` over the range.
     Phase(Box<crate::ladder::pulsator::PhaseReport>),
     /// `TransientMethod::chase`.
@@ -244,6 +250,8 @@ pub struct MethodResult {
     pub body: MethodBody,
 }
 
+/// Months the Parallax view covers (as `rung parallax` by default).
+pub const PARALLAX_MONTHS: u32 = 36;
 /// Nights the Phase view covers.
 pub const PHASE_NIGHTS: u64 = 30;
 
@@ -430,7 +438,7 @@ impl State {
 
     /// The method-report key for the current view and selection (Phase and Chase only).
     pub fn method_key(&self) -> Option<MethodKey> {
-        if !matches!(self.view, View::Phase | View::Chase) {
+        if !matches!(self.view, View::Parallax | View::Phase | View::Chase) {
             return None;
         }
         Some(MethodKey {

@@ -494,6 +494,10 @@ fn act_main(s: &mut State, a: Action) -> Option<Effect> {
             s.view = View::Season;
             season_effect(s)
         }
+        Action::ShowParallax => {
+            s.view = View::Parallax;
+            season_effect(s)
+        }
         Action::ShowPhase => {
             s.view = View::Phase;
             season_effect(s)

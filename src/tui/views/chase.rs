@@ -56,7 +56,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             put(buf, area.x, area.y + 2, m, area.width, th.notice());
             return;
         }
-        Some(MethodBody::Phase(_)) => return,
+        Some(_) => return,
     };
     let d = &c.design;
     let cadence = if d.cadence_days == 1 {

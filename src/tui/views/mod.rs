@@ -5,6 +5,7 @@ pub mod chart;
 pub mod chase;
 pub mod fmt;
 pub mod overlays;
+pub mod parallax;
 pub mod phase;
 pub mod roster;
 pub mod season;
@@ -102,6 +103,9 @@ fn tabs(s: &State, area: Rect, buf: &mut Buffer) {
         } else {
             format!("{} {}", i + 1, v.title())
         };
+        if i > 0 && !roomy {
+            x = put(buf, x, area.y, " ", 1, th.dim());
+        }
         let st = if *v == s.view {
             th.selected().patch(th.title())
         } else {
@@ -115,7 +119,9 @@ fn tabs(s: &State, area: Rect, buf: &mut Buffer) {
             area.width.saturating_sub(x - area.x),
             st,
         );
-        x = put(buf, x, area.y, "│", 1, th.dim());
+        if roomy {
+            x = put(buf, x, area.y, "│", 1, th.dim());
+        }
     }
     let file = if s.programme.is_demo {
         "demo".to_string()
@@ -129,7 +135,7 @@ fn tabs(s: &State, area: Rect, buf: &mut Buffer) {
     let night = if roomy {
         format!(" night {} ", s.date.format("%a %Y-%m-%d"))
     } else {
-        format!(" {} ", s.date.format("%a %Y-%m-%d"))
+        format!("  {} ", s.date.format("%Y-%m-%d"))
     };
     let rest = |x: u16| area.width.saturating_sub(x - area.x);
     x = put(buf, x, area.y, &night, rest(x), th.text());
@@ -207,6 +213,7 @@ pub fn render_all(s: &State, area: Rect, buf: &mut Buffer) {
         View::Roster => roster::render(s, body, buf),
         View::Tonight => tonight::render(s, body, buf),
         View::Season => season::render(s, body, buf),
+        View::Parallax => parallax::render(s, body, buf),
         View::Phase => phase::render(s, body, buf),
         View::Chase => chase::render(s, body, buf),
     }

@@ -72,7 +72,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             put(buf, area.x, area.y + 2, m, area.width, th.notice());
             return;
         }
-        Some(MethodBody::Chase(_)) => return,
+        Some(_) => return,
     };
     let e = &r.star.ephemeris;
     put(
