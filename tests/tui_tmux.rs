@@ -207,7 +207,7 @@ fn unsaved_changes_are_asked_about_on_ctrl_c() {
     t.send("n");
     t.wait_gone("Quit without saving?");
     t.send("w");
-    t.wait_for("saved ");
+    t.wait_for("saved /");
     assert!(cfg.path().join("programme.csv").exists());
     t.send("q");
     assert_restored(&t, "RUNG-EXIT-0");
