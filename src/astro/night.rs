@@ -26,6 +26,18 @@ pub const ASTRONOMICAL_DEG: f64 = -18.0;
 /// Rise/set geometric altitude of a star: −0°34′ (standard refraction at the horizon; Meeus ch. 15).
 pub const STAR_RISE_SET_DEG: f64 = -34.0 / 60.0;
 
+/// An altitude as degrees and arcminutes, e.g. "-0°50′", "-18°".
+pub fn fmt_alt(deg: f64) -> String {
+    let sign = if deg < 0.0 { "-" } else { "" };
+    let total_min = (deg.abs() * 60.0).round() as i64;
+    let (d, m) = (total_min / 60, total_min % 60);
+    if m == 0 {
+        format!("{sign}{d}°")
+    } else {
+        format!("{sign}{d}°{m:02}′")
+    }
+}
+
 /// Local noon of a date at the site (the earlier one if the zone repeats it, an
 /// hour later if a zone change skips it).
 pub fn local_noon(site: &Site, date: NaiveDate) -> Result<Instant> {
@@ -67,12 +79,6 @@ impl Event {
     /// The ISO text, or `None`.
     pub fn iso(&self) -> Option<String> {
         self.t.map(|t| t.iso())
-    }
-}
-
-impl Serialize for Instant {
-    fn serialize<S: serde::Serializer>(&self, s: S) -> std::result::Result<S::Ok, S::Error> {
-        s.serialize_str(&self.iso())
     }
 }
 
@@ -163,8 +169,9 @@ impl Night {
     }
 
     /// The falling (dusk) and rising (dawn) crossings of the Sun through `thr_deg`,
-    /// each `None` with a reason when it does not happen this night.
-    pub fn sun_pair(&self, thr_deg: f64, label: &str) -> (Event, Event) {
+    /// each `None` with a reason when it does not happen this night. `names` are
+    /// the two events' names for the reasons (e.g. "sunset", "sunrise").
+    pub fn sun_pair(&self, thr_deg: f64, names: (&str, &str)) -> (Event, Event) {
         let c = self.sun_crossings(thr_deg);
         let fall = c.iter().find(|c| !c.rising).map(|c| c.t);
         let rise = c
@@ -174,30 +181,32 @@ impl Night {
             .map(|c| c.t);
         let above_all = self.sun_alt_deg.iter().all(|a| *a >= thr_deg);
         let below_all = self.sun_alt_deg.iter().all(|a| *a < thr_deg);
+        let thr = fmt_alt(thr_deg);
         let why = |which: &str| {
             if above_all {
-                format!("the Sun stays above {thr_deg}° all night: no {label} {which}")
+                format!("no {which}: the Sun's centre stays above {thr} all night")
             } else if below_all {
-                format!("the Sun stays below {thr_deg}° all day (polar night): no {label} {which}")
+                format!("no {which}: the Sun's centre stays below {thr} from noon to noon")
             } else {
-                format!("the Sun does not cross {thr_deg}° in that direction between local noons")
+                format!("no {which}: the Sun does not cross {thr} that way between the local noons")
             }
         };
         (
             fall.map(Event::at)
-                .unwrap_or_else(|| Event::none(why("dusk"))),
+                .unwrap_or_else(|| Event::none(why(names.0))),
             rise.map(Event::at)
-                .unwrap_or_else(|| Event::none(why("dawn"))),
+                .unwrap_or_else(|| Event::none(why(names.1))),
         )
     }
 
     /// Sunset, sunrise and the three twilights, plus moonrise/set.
     pub fn events(&self) -> NightEvents {
-        let (sunset, sunrise) = self.sun_pair(SUN_RISE_SET_DEG, "sunset/sunrise");
-        let (civil_dusk, civil_dawn) = self.sun_pair(CIVIL_DEG, "civil");
-        let (nautical_dusk, nautical_dawn) = self.sun_pair(NAUTICAL_DEG, "nautical");
+        let (sunset, sunrise) = self.sun_pair(SUN_RISE_SET_DEG, ("sunset", "sunrise"));
+        let (civil_dusk, civil_dawn) = self.sun_pair(CIVIL_DEG, ("civil dusk", "civil dawn"));
+        let (nautical_dusk, nautical_dawn) =
+            self.sun_pair(NAUTICAL_DEG, ("nautical dusk", "nautical dawn"));
         let (astronomical_dusk, astronomical_dawn) =
-            self.sun_pair(ASTRONOMICAL_DEG, "astronomical");
+            self.sun_pair(ASTRONOMICAL_DEG, ("astronomical dusk", "astronomical dawn"));
         let (moonrise, moonset) = self.moon_events();
         let mid = self
             .start

@@ -218,6 +218,24 @@ impl Instant {
     }
 }
 
+impl serde::Serialize for Instant {
+    /// As ISO 8601 UTC text to the second (`2026-12-01T23:15:00Z`).
+    fn serialize<S: serde::Serializer>(&self, s: S) -> std::result::Result<S::Ok, S::Error> {
+        s.serialize_str(&self.iso())
+    }
+}
+
+impl<'de> serde::Deserialize<'de> for Instant {
+    /// From ISO 8601 text, as [`parse_instant`] reads it (but not `now`).
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> std::result::Result<Self, D::Error> {
+        let s = String::deserialize(d)?;
+        if s.trim().eq_ignore_ascii_case("now") {
+            return Err(serde::de::Error::custom("'now' is not a stored instant"));
+        }
+        parse_instant(&s).map_err(serde::de::Error::custom)
+    }
+}
+
 /// Parse an ISO 8601 instant: `2026-12-01T23:15:00Z`, with an offset
 /// (`+02:00`), fractional seconds, a space instead of `T`, or no zone at all
 /// (then it is UTC). `now` is the system clock.

@@ -18,7 +18,9 @@ pub const MAX_FIELD_BYTES: usize = 4096;
 pub const BANDS: [&str; 5] = ["U", "B", "V", "R", "I"];
 
 /// Which distance method a target is for.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, PartialOrd, Ord)]
+#[derive(
+    Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, serde::Deserialize, PartialOrd, Ord,
+)]
 #[serde(rename_all = "lowercase")]
 pub enum Kind {
     /// Trigonometric parallax.

@@ -1,0 +1,17 @@
+#!/usr/bin/env bash
+# The whole rung test suite, with everything it needs, on a fresh machine.
+# README.md names this command; .ci/run calls exactly this.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+
+# tmux drives the terminal-UI test (tests/tui_tmux.rs skips itself without it).
+if ! command -v tmux >/dev/null 2>&1; then
+    if [ "$(id -u)" = "0" ] && command -v apt-get >/dev/null 2>&1; then
+        (apt-get update -qq && apt-get install -y -qq tmux) >/dev/null 2>&1 \
+            || echo "scripts/test.sh: could not install tmux; the tmux test will skip itself" >&2
+    else
+        echo "scripts/test.sh: tmux not found and cannot install it; the tmux test will skip itself" >&2
+    fi
+fi
+
+cargo test --locked --release

@@ -1,0 +1,331 @@
+//! Exports of a plan: CSV rows, an iCalendar (RFC 5545) file with one event
+//! per visit in the site's time zone, and a printable night sheet.
+
+use crate::astro::site::Site;
+use crate::astro::time::Instant;
+use crate::plan::schedule::{Status, Visit};
+use chrono::{NaiveDate, Offset, TimeZone, Utc};
+use chrono_tz::{OffsetComponents, Tz};
+
+/// CSV of visits with a header row; times in UTC ISO 8601 and local.
+pub fn visits_csv(visits: &[Visit], site: &Site) -> String {
+    let mut w = csv::Writer::from_writer(Vec::new());
+    let _ = w.write_record([
+        "id",
+        "target",
+        "kind",
+        "night",
+        "start_utc",
+        "end_utc",
+        "start_local",
+        "end_local",
+        "exptime_s",
+        "n_exposures",
+        "snr",
+        "airmass",
+        "status",
+        "cautions",
+    ]);
+    for v in visits {
+        let _ = w.write_record([
+            v.id.clone(),
+            v.target.clone(),
+            v.kind.as_str().to_string(),
+            v.night.to_string(),
+            v.start.iso(),
+            v.end.iso(),
+            local_iso(v.start, &site.timezone),
+            local_iso(v.end, &site.timezone),
+            format!("{:.1}", v.exptime_s),
+            v.n_exposures.to_string(),
+            format!("{:.1}", v.snr),
+            format!("{:.3}", v.airmass),
+            status_str(v.status).to_string(),
+            v.cautions.join(" | "),
+        ]);
+    }
+    String::from_utf8(w.into_inner().unwrap_or_default()).unwrap_or_default()
+}
+
+fn status_str(s: Status) -> &'static str {
+    match s {
+        Status::Planned => "planned",
+        Status::Done => "done",
+        Status::Lost => "lost",
+    }
+}
+
+/// Local ISO 8601 time with its offset, to the second.
+pub fn local_iso(t: Instant, tz: &Tz) -> String {
+    t.round_to_second()
+        .local(tz)
+        .format("%Y-%m-%dT%H:%M:%S%:z")
+        .to_string()
+}
+
+/// Escape a TEXT value (RFC 5545 §3.3.11).
+fn ics_text(s: &str) -> String {
+    s.replace('\\', "\\\\")
+        .replace(';', "\\;")
+        .replace(',', "\\,")
+        .replace('\n', "\\n")
+}
+
+/// Fold a content line at 75 octets (RFC 5545 §3.1), never inside a UTF-8 character.
+fn fold(line: &str) -> String {
+    let mut out = String::new();
+    let mut count = 0;
+    for ch in line.chars() {
+        let n = ch.len_utf8();
+        if count + n > 75 {
+            out.push_str("\r\n ");
+            count = 1;
+        }
+        out.push(ch);
+        count += n;
+    }
+    out.push_str("\r\n");
+    out
+}
+
+fn utc_stamp(t: Instant) -> String {
+    t.round_to_second()
+        .to_datetime()
+        .format("%Y%m%dT%H%M%SZ")
+        .to_string()
+}
+
+fn local_stamp(t: Instant, tz: &Tz) -> String {
+    t.round_to_second()
+        .local(tz)
+        .format("%Y%m%dT%H%M%S")
+        .to_string()
+}
+
+fn offset_text(secs: i32) -> String {
+    let sign = if secs < 0 { '-' } else { '+' };
+    let a = secs.abs();
+    if a % 60 != 0 {
+        format!("{sign}{:02}{:02}{:02}", a / 3600, (a % 3600) / 60, a % 60)
+    } else {
+        format!("{sign}{:02}{:02}", a / 3600, (a % 3600) / 60)
+    }
+}
+
+/// The zone's UTC-offset changes between two instants (Unix seconds), found by
+/// hourly steps and bisection to the second: (Unix second of the change, offset before, offset after, dst after, abbreviation after).
+fn transitions(tz: &Tz, from_s: i64, to_s: i64) -> Vec<(i64, i32, i32, bool, String)> {
+    let off = |s: i64| -> (i32, bool, String) {
+        let dt = Utc
+            .timestamp_opt(s, 0)
+            .single()
+            .unwrap_or_default()
+            .with_timezone(tz);
+        let o = dt.offset();
+        (
+            o.fix().local_minus_utc(),
+            o.dst_offset().num_seconds() != 0,
+            dt.format("%Z").to_string(),
+        )
+    };
+    let mut out = Vec::new();
+    let mut s = from_s;
+    let mut prev = off(s);
+    while s < to_s {
+        let n = (s + 3600).min(to_s);
+        let cur = off(n);
+        if cur.0 != prev.0 {
+            let (mut lo, mut hi) = (s, n);
+            while hi - lo > 1 {
+                let mid = (lo + hi) / 2;
+                if off(mid).0 == prev.0 {
+                    lo = mid
+                } else {
+                    hi = mid
+                }
+            }
+            out.push((hi, prev.0, cur.0, cur.1, cur.2.clone()));
+        }
+        prev = cur;
+        s = n;
+    }
+    out
+}
+
+/// A VTIMEZONE for `tz` covering `[from, to]` (RFC 5545 §3.6.5): one
+/// observance per offset change inside the span, or a single fixed observance.
+pub fn vtimezone(tz: &Tz, from: Instant, to: Instant) -> String {
+    let f = from.to_datetime().timestamp() - 40 * 86_400;
+    let t = to.to_datetime().timestamp() + 40 * 86_400;
+    let mut s = String::new();
+    s.push_str(&fold("BEGIN:VTIMEZONE"));
+    s.push_str(&fold(&format!("TZID:{}", tz.name())));
+    let start_dt = Utc
+        .timestamp_opt(f, 0)
+        .single()
+        .unwrap_or_default()
+        .with_timezone(tz);
+    let o0 = start_dt.offset();
+    let first_off = o0.fix().local_minus_utc();
+    let first_dst = o0.dst_offset().num_seconds() != 0;
+    let first_name = start_dt.format("%Z").to_string();
+    let obs =
+        |s: &mut String, kind: &str, local_start: String, from_o: i32, to_o: i32, name: &str| {
+            s.push_str(&fold(&format!("BEGIN:{kind}")));
+            s.push_str(&fold(&format!("DTSTART:{local_start}")));
+            s.push_str(&fold(&format!("TZOFFSETFROM:{}", offset_text(from_o))));
+            s.push_str(&fold(&format!("TZOFFSETTO:{}", offset_text(to_o))));
+            s.push_str(&fold(&format!("TZNAME:{}", ics_text(name))));
+            s.push_str(&fold(&format!("END:{kind}")));
+        };
+    // The offset in force at the start of the span.
+    let local0 = (Utc.timestamp_opt(f, 0).single().unwrap_or_default()
+        + chrono::Duration::seconds(first_off as i64))
+    .format("%Y%m%dT%H%M%S")
+    .to_string();
+    obs(
+        &mut s,
+        if first_dst { "DAYLIGHT" } else { "STANDARD" },
+        local0,
+        first_off,
+        first_off,
+        &first_name,
+    );
+    for (at, before, after, dst, name) in transitions(tz, f, t) {
+        // DTSTART of an observance is local time in the offset before the change.
+        let local = (Utc.timestamp_opt(at, 0).single().unwrap_or_default()
+            + chrono::Duration::seconds(before as i64))
+        .format("%Y%m%dT%H%M%S")
+        .to_string();
+        obs(
+            &mut s,
+            if dst { "DAYLIGHT" } else { "STANDARD" },
+            local,
+            before,
+            after,
+            &name,
+        );
+    }
+    s.push_str(&fold("END:VTIMEZONE"));
+    s
+}
+
+/// An iCalendar file with one VEVENT per visit, DTSTART/DTEND in the site's zone.
+/// `stamp` is the DTSTAMP of every event (the plan's creation time, for
+/// reproducible files).
+pub fn ics(visits: &[Visit], site: &Site, stamp: Instant) -> String {
+    let tz = &site.timezone;
+    let mut s = String::new();
+    s.push_str(&fold("BEGIN:VCALENDAR"));
+    s.push_str(&fold("VERSION:2.0"));
+    s.push_str(&fold("PRODID:-//rung//observing plan//EN"));
+    s.push_str(&fold("CALSCALE:GREGORIAN"));
+    if let (Some(a), Some(b)) = (
+        visits
+            .iter()
+            .map(|v| v.start)
+            .reduce(|a, b| if b < a { b } else { a }),
+        visits
+            .iter()
+            .map(|v| v.end)
+            .reduce(|a, b| if b > a { b } else { a }),
+    ) {
+        s.push_str(&vtimezone(tz, a, b));
+    }
+    for v in visits {
+        s.push_str(&fold("BEGIN:VEVENT"));
+        s.push_str(&fold(&format!(
+            "UID:{}@rung",
+            ics_text(&v.id.replace(' ', "_"))
+        )));
+        s.push_str(&fold(&format!("DTSTAMP:{}", utc_stamp(stamp))));
+        s.push_str(&fold(&format!(
+            "DTSTART;TZID={}:{}",
+            tz.name(),
+            local_stamp(v.start, tz)
+        )));
+        s.push_str(&fold(&format!(
+            "DTEND;TZID={}:{}",
+            tz.name(),
+            local_stamp(v.end, tz)
+        )));
+        s.push_str(&fold(&format!(
+            "SUMMARY:{}",
+            ics_text(&format!(
+                "{} ({}) {:.0} s",
+                v.target,
+                v.kind.as_str(),
+                v.exptime_s
+            ))
+        )));
+        let mut d = format!(
+            "{} x {:.0} s, SNR {:.0}, airmass {:.2}, {} (UTC {} to {}).",
+            v.n_exposures,
+            v.exptime_s / v.n_exposures.max(1) as f64,
+            v.snr,
+            v.airmass,
+            status_str(v.status),
+            v.start.iso(),
+            v.end.iso()
+        );
+        for c in &v.cautions {
+            d.push(' ');
+            d.push_str(c);
+        }
+        s.push_str(&fold(&format!("DESCRIPTION:{}", ics_text(&d))));
+        s.push_str(&fold(&format!("LOCATION:{}", ics_text(&site.name))));
+        if v.status == Status::Lost {
+            s.push_str(&fold("STATUS:CANCELLED"));
+        } else {
+            s.push_str(&fold("STATUS:CONFIRMED"));
+        }
+        s.push_str(&fold("END:VEVENT"));
+    }
+    s.push_str(&fold("END:VCALENDAR"));
+    s
+}
+
+/// A printable night sheet (Markdown) for one night: times in UTC and local,
+/// target, exposure, airmass, cautions.
+pub fn night_sheet(visits: &[Visit], site: &Site, night: NaiveDate, header: &str) -> String {
+    let tz = &site.timezone;
+    let mut s = format!("# Night sheet {night} at {}\n\n{header}\n\n", site.name);
+    s.push_str(&format!("Times are UTC and local ({}).\n\n", tz.name()));
+    s.push_str("| start UTC | start local | end local | target | kind | exposure | SNR | airmass | status | cautions |\n");
+    s.push_str("| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |\n");
+    let mut any = false;
+    for v in visits.iter().filter(|v| v.night == night) {
+        any = true;
+        let hm = |t: Instant| t.round_to_second().local(tz).format("%H:%M:%S").to_string();
+        s.push_str(&format!(
+            "| {} | {} | {} | {} | {} | {} × {:.0} s | {:.0} | {:.2} | {} | {} |\n",
+            v.start.round_to_second().to_datetime().format("%H:%M:%S"),
+            hm(v.start),
+            hm(v.end),
+            v.target,
+            v.kind.as_str(),
+            v.n_exposures,
+            v.exptime_s / v.n_exposures.max(1) as f64,
+            v.snr,
+            v.airmass,
+            status_str(v.status),
+            if v.cautions.is_empty() {
+                "".to_string()
+            } else {
+                v.cautions.join("; ")
+            },
+        ));
+    }
+    if !any {
+        s.push_str("| – | – | – | no visits this night | | | | | | |\n");
+    }
+    if visits
+        .iter()
+        .any(|v| v.night == night && !v.cautions.is_empty())
+    {
+        s.push_str(
+            "\n**SUN CAUTION** on some visits: the observatory's own safety rules prevail.\n",
+        );
+    }
+    s
+}

@@ -1,0 +1,152 @@
+//! Plan files: a schedule saved as JSON so a season can be re-planned after
+//! nights are lost to weather. Saved atomically; a broken or foreign plan file
+//! is reported with where it is broken and is never overwritten.
+
+use crate::astro::night::Limits;
+use crate::error::{Location, Result, RungError};
+use crate::io::targets::Target;
+use crate::plan::schedule::{Status, Visit, fingerprint};
+use chrono::NaiveDate;
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeSet;
+use std::path::Path;
+
+/// The format tag every plan file carries.
+pub const FORMAT: &str = "rung-plan/1";
+
+/// A saved plan.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct PlanFile {
+    /// Always [`FORMAT`].
+    pub format: String,
+    /// The site as given to `--site` (catalogue name or inline coordinates).
+    pub site: String,
+    /// The targets file the plan was made from, as given.
+    pub targets_file: String,
+    /// Fingerprint of the targets list ([`fingerprint`]).
+    pub targets_fingerprint: String,
+    /// First night.
+    pub from: NaiveDate,
+    /// Last night.
+    pub to: NaiveDate,
+    /// Hours per night.
+    pub hours_per_night: f64,
+    /// Minimum altitude, degrees.
+    pub min_alt_deg: f64,
+    /// Sun limit, degrees.
+    pub sun_alt_deg: f64,
+    /// Nights lost to weather or faults.
+    #[serde(default)]
+    pub lost_nights: BTreeSet<NaiveDate>,
+    /// The visits.
+    pub visits: Vec<Visit>,
+}
+
+impl PlanFile {
+    /// The window limits of the plan.
+    pub fn limits(&self) -> Result<Limits> {
+        Limits::new(self.min_alt_deg, self.sun_alt_deg)
+    }
+
+    /// Check that the plan belongs to `targets`.
+    pub fn check_targets(&self, targets: &[Target], path: &Path) -> Result<()> {
+        let fp = fingerprint(targets);
+        if fp != self.targets_fingerprint {
+            return Err(RungError::InFile {
+                loc: Location {
+                    file: Some(path.to_path_buf()),
+                    line: None,
+                    field: Some("targets_fingerprint".into()),
+                },
+                msg: format!(
+                    "this plan was made for another targets list ({}, fingerprint {}); the list given has fingerprint {fp}. Nothing was changed",
+                    self.targets_file, self.targets_fingerprint
+                ),
+            });
+        }
+        Ok(())
+    }
+
+    /// Mark visits done or lost by id; an unknown id is an error naming it.
+    pub fn mark(&mut self, ids: &[String], status: Status) -> Result<()> {
+        for id in ids {
+            let v = self
+                .visits
+                .iter_mut()
+                .find(|v| &v.id == id)
+                .ok_or_else(|| RungError::Unknown {
+                    what: "visit".into(),
+                    name: id.clone(),
+                    hint: "; visit ids look like NAME#N (see the plan's CSV or JSON)".into(),
+                })?;
+            v.status = status;
+        }
+        Ok(())
+    }
+
+    /// The plan as pretty JSON text.
+    pub fn to_json(&self) -> String {
+        serde_json::to_string_pretty(self).unwrap_or_default()
+    }
+}
+
+/// Read a plan file; errors name the file, line and column of the break.
+pub fn load(path: &Path) -> Result<PlanFile> {
+    let text = std::fs::read_to_string(path).map_err(|e| RungError::io(path, e))?;
+    parse(&text, path)
+}
+
+/// Parse plan text.
+pub fn parse(text: &str, path: &Path) -> Result<PlanFile> {
+    let p: PlanFile = serde_json::from_str(text).map_err(|e| RungError::InFile {
+        loc: Location {
+            file: Some(path.to_path_buf()),
+            line: Some(e.line()),
+            field: None,
+        },
+        msg: format!("not a readable plan file (column {}): {e}", e.column()),
+    })?;
+    if p.format != FORMAT {
+        return Err(RungError::InFile {
+            loc: Location {
+                file: Some(path.to_path_buf()),
+                line: None,
+                field: Some("format".into()),
+            },
+            msg: format!(
+                "'{}' is not a plan format rung reads (expected {FORMAT})",
+                p.format
+            ),
+        });
+    }
+    let mut seen = BTreeSet::new();
+    for v in &p.visits {
+        if !seen.insert(v.id.clone()) {
+            return Err(RungError::InFile {
+                loc: Location {
+                    file: Some(path.to_path_buf()),
+                    line: None,
+                    field: Some("visits".into()),
+                },
+                msg: format!("visit id '{}' appears twice", v.id),
+            });
+        }
+        if v.end < v.start {
+            return Err(RungError::InFile {
+                loc: Location {
+                    file: Some(path.to_path_buf()),
+                    line: None,
+                    field: Some("visits".into()),
+                },
+                msg: format!("visit '{}' ends before it starts", v.id),
+            });
+        }
+    }
+    Ok(p)
+}
+
+/// Save atomically (temp file + fsync + rename).
+pub fn save(plan: &PlanFile, path: &Path) -> Result<()> {
+    crate::io::atomic::write_atomic(path, plan.to_json().as_bytes())
+}

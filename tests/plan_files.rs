@@ -1,0 +1,96 @@
+//! Plan files and budget input checks: bad input gets a clear message and
+//! nothing is overwritten.
+
+use rung::io::targets::Target;
+use rung::plan::file::{FORMAT, PlanFile, load, parse, save};
+use rung::plan::schedule::{Status, fingerprint};
+use std::path::Path;
+
+fn plan_for(ts: &[Target]) -> PlanFile {
+    PlanFile {
+        format: FORMAT.into(),
+        site: "pampa-lucero".into(),
+        targets_file: "a.csv".into(),
+        targets_fingerprint: fingerprint(ts),
+        from: "2026-12-01".parse().unwrap(),
+        to: "2026-12-05".parse().unwrap(),
+        hours_per_night: 4.0,
+        min_alt_deg: 30.0,
+        sun_alt_deg: -12.0,
+        lost_nights: Default::default(),
+        visits: vec![],
+    }
+}
+
+#[test]
+fn plan_from_another_targets_list_is_refused() {
+    let a = vec![Target::plain("A", 10.0, -20.0)];
+    let b = vec![Target::plain("B", 10.0, -20.0)];
+    let p = plan_for(&a);
+    assert!(p.check_targets(&a, Path::new("p.json")).is_ok());
+    let e = p
+        .check_targets(&b, Path::new("p.json"))
+        .unwrap_err()
+        .to_string();
+    assert!(
+        e.contains("p.json")
+            && e.contains("another targets list")
+            && e.contains("Nothing was changed"),
+        "{e}"
+    );
+}
+
+#[test]
+fn broken_plan_names_line_and_is_not_overwritten() {
+    let d = tempfile::tempdir().unwrap();
+    let path = d.path().join("plan.json");
+    let ts = vec![Target::plain("A", 10.0, -20.0)];
+    save(&plan_for(&ts), &path).unwrap();
+    let good = std::fs::read_to_string(&path).unwrap();
+    let broken = good.replacen("\"hours_per_night\": 4.0", "\"hours_per_night\": four", 1);
+    std::fs::write(&path, &broken).unwrap();
+    let want_line = broken.lines().position(|l| l.contains("four")).unwrap() + 1;
+    let e = load(&path).unwrap_err().to_string();
+    assert!(
+        e.contains("plan.json") && e.contains(&format!("line {want_line}")),
+        "{e}"
+    );
+    assert_eq!(
+        std::fs::read_to_string(&path).unwrap(),
+        broken,
+        "a failed load must not touch the file"
+    );
+    let e = parse(&good.replace(FORMAT, "other/9"), &path)
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("format"), "{e}");
+}
+
+#[test]
+fn marking_an_unknown_visit_is_an_error() {
+    let ts = vec![Target::plain("A", 10.0, -20.0)];
+    let mut p = plan_for(&ts);
+    let e = p
+        .mark(&["A#9".into()], Status::Done)
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("unknown visit 'A#9'"), "{e}");
+}
+
+#[test]
+fn goals_must_be_positive_percentages() {
+    for g in [0.0, -3.0, f64::NAN, 150.0] {
+        assert!(rung::plan::budget::check_goal(g).is_err(), "{g}");
+    }
+    assert!(rung::plan::budget::check_goal(3.0).is_ok());
+}
+
+#[test]
+fn semesters_follow_common_practice() {
+    use rung::plan::budget::semester;
+    // Common practice (many observatories): A = Feb–Jul, B = Aug–Jan.
+    assert_eq!(semester("2027-01-15".parse().unwrap()), "2026B");
+    assert_eq!(semester("2027-02-01".parse().unwrap()), "2027A");
+    assert_eq!(semester("2027-07-31".parse().unwrap()), "2027A");
+    assert_eq!(semester("2027-08-01".parse().unwrap()), "2027B");
+}
