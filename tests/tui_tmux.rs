@@ -155,8 +155,12 @@ fn every_view_then_quit_restores_the_terminal() {
     t.wait_for("Chase · ✶ LPO-T2026b");
     t.send("Up");
     t.wait_for("● obs");
+    t.send("7");
+    t.wait_for("Budget · 12 months from 2026-12-01");
     t.send("Tab");
     t.wait_for("Roster · 26 of 26");
+    t.send("BTab");
+    t.wait_for("Budget · 12 months");
     t.send("BTab");
     t.wait_for("Chase · ✶ LPO-T2026a");
     t.send("1");

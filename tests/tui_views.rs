@@ -42,7 +42,7 @@ fn roster_80x24_shows_library_windows() {
     assert!(rows[0].contains("Moon "), "{}", rows[0]);
     assert!(
         rows[1].contains("1 Roster")
-            && rows[1].contains("6 Chase")
+            && rows[1].contains("7 Bud")
             && rows[1].contains(" 2026-12-01 "),
         "{}",
         rows[1]
@@ -537,4 +537,68 @@ fn parallax_view_shows_factors_and_epochs_at_both_sizes() {
     select(&mut s, "LPO-C01");
     let (rows, _) = screen(&s, 80, 24);
     assert!(has(&rows, "the Parallax view is for parallax targets"));
+}
+
+#[test]
+fn budget_view_and_export_match_the_library_budget() {
+    use rung::ladder::Method;
+    use rung::ladder::parallax::ParallaxMethod;
+    use rung::ladder::pulsator::{PulsatorConfig, PulsatorMethod};
+    use rung::ladder::transient::TransientMethod;
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let pick = ["LPO-P03", "LPO-C03", "LPO-C05", "LPO-T2026a"];
+    let targets: Vec<_> = demo_targets()
+        .into_iter()
+        .filter(|t| pick.contains(&t.name.as_str()))
+        .collect();
+    // The same call as `rung budget`, made here directly.
+    let em = rung::photometry::Photometer::demo(&site).unwrap();
+    let (plx, pul, tra) = (
+        ParallaxMethod::builtin().unwrap(),
+        PulsatorMethod::with_config(PulsatorConfig::load().unwrap()),
+        TransientMethod::new().unwrap(),
+    );
+    let methods: [&dyn Method; 3] = [&plx, &pul, &tra];
+    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
+    let to = chrono::NaiveDate::from_ymd_opt(2027, 11, 30).unwrap();
+    let b = rung::plan::budget::budget(&site, &targets, &methods, &em, from, to, limits(), None)
+        .unwrap();
+    let dir = tempfile::tempdir().unwrap();
+    let mut s = state_with(
+        targets,
+        None,
+        dir.path().join("programme.csv"),
+        true,
+        (80, 24),
+        true,
+    );
+    ch(&mut s, '7');
+    for (w, h) in [(80u16, 24u16), (160, 48)] {
+        let (rows, _) = screen(&s, w, h);
+        assert!(
+            rows[2].starts_with("Budget · 12 months from 2026-12-01 · pampa-lucero · lucero-1m")
+        );
+        assert!(
+            rows[3].contains("goal") && rows[3].contains("reach") && rows[3].contains("verdict")
+        );
+        for r in &b.rows {
+            let line = row_of(&rows, &r.target);
+            assert!(line.contains(&format!("{:.0}%", r.goal_pct)), "{line}");
+            assert!(line.contains(&format!("{:.1}", r.hours)), "{line}");
+            assert!(
+                line.contains(&rung::plan::budget::verdict_text(&r.verdict)),
+                "{line}"
+            );
+        }
+        assert!(has(&rows, &format!("total {:.1} h", b.total_hours)));
+    }
+    // Export writes the library's CSV and Markdown beside the programme file.
+    ch(&mut s, 'x');
+    let csv =
+        std::fs::read_to_string(dir.path().join("budget-pampa-lucero-2026-12-01.csv")).unwrap();
+    assert_eq!(csv, rung::plan::budget::csv(&b));
+    let md = std::fs::read_to_string(dir.path().join("budget-pampa-lucero-2026-12-01.md")).unwrap();
+    assert_eq!(md, rung::plan::budget::markdown(&b));
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(rows[23].starts_with("exported "), "{}", rows[23]);
 }

@@ -13,7 +13,8 @@ use crate::ladder::transient::{ChaseOptions, TransientConfig, TransientMethod, n
 use crate::photometry::Photometer;
 use crate::tui::msg::{Effect, Msg, NightJob, SeasonJob, SeasonRows};
 use crate::tui::state::{
-    MethodBody, MethodKey, MethodResult, NightData, PARALLAX_MONTHS, PHASE_NIGHTS, TargetRow, View,
+    BUDGET_MONTHS, BudgetKey, MethodBody, MethodKey, MethodResult, NightData, PARALLAX_MONTHS,
+    PHASE_NIGHTS, TargetRow, View,
 };
 use rayon::prelude::*;
 use std::sync::Arc;
@@ -222,6 +223,25 @@ fn method_report_inner(k: &MethodKey) -> Result<MethodBody> {
     }
 }
 
+/// The programme's budget over [`BUDGET_MONTHS`] months from the date: each
+/// target's goal through its method's `goal` (the same `plan::budget::budget`
+/// as `rung budget`), exposures from the chosen instrument.
+pub fn budget_for(k: &BudgetKey) -> Result<crate::plan::budget::Budget> {
+    let em = Photometer::from_name(&k.instrument, &k.site)?;
+    let plx = ParallaxMethod::builtin()?;
+    let pul = PulsatorMethod::with_config(PulsatorConfig::load()?);
+    let tra = TransientMethod::new()?;
+    let methods: [&dyn crate::ladder::Method; 3] = [&plx, &pul, &tra];
+    let to = k
+        .date
+        .checked_add_months(chrono::Months::new(BUDGET_MONTHS))
+        .and_then(|d| d.pred_opt())
+        .ok_or_else(|| crate::error::RungError::invalid("date", "too late for a budget range"))?;
+    crate::plan::budget::budget(
+        &k.site, &k.targets, &methods, &em, k.date, to, k.limits, None,
+    )
+}
+
 /// Save: keep the original once as a backup, then write the programme atomically.
 pub fn save(
     path: &std::path::Path,
@@ -253,6 +273,27 @@ pub fn run(effect: Effect) -> Vec<Msg> {
         Effect::Method(k) => {
             let body = method_report(&k);
             vec![Msg::MethodReady(Box::new(MethodResult { key: *k, body }))]
+        }
+        Effect::Budget(k) => {
+            let r = budget_for(&k).map(Box::new).map_err(|e| e.to_string());
+            vec![Msg::BudgetReady(k, r)]
+        }
+        Effect::Export(files) => {
+            let mut done = Vec::new();
+            let mut err = None;
+            for (p, text) in files {
+                match save(&p, &text, None) {
+                    Ok(p) => done.push(p),
+                    Err(e) => {
+                        err = Some(e);
+                        break;
+                    }
+                }
+            }
+            vec![Msg::Exported(match err {
+                Some(e) => Err(e),
+                None => Ok(done),
+            })]
         }
         Effect::Save { path, text, backup } => {
             vec![Msg::Saved(save(&path, &text, backup.as_ref()))]

@@ -87,6 +87,8 @@ pub const KEYMAP: &[Binding] = &[
     ch(S::Main, '4', A::ShowParallax, "Parallax view"),
     ch(S::Main, '5', A::ShowPhase, "Phase view (pulsators)"),
     ch(S::Main, '6', A::ShowChase, "Chase view (transients)"),
+    ch(S::Main, '7', A::ShowBudget, "Budget view"),
+    ch(S::Main, 'x', A::Export, "export budget (CSV, Markdown)"),
     b(S::Main, KeyCode::Tab, A::NextView, "next view"),
     b(S::Main, KeyCode::BackTab, A::PrevView, "previous view"),
     b(S::Main, KeyCode::Up, A::Up, "previous target"),

@@ -5,7 +5,7 @@ use crate::astro::night::{Limits, Night};
 use crate::astro::site::Site;
 use crate::astro::time::Instant;
 use crate::io::targets::Target;
-use crate::tui::state::{MethodKey, MethodResult, NightData, SeasonKey};
+use crate::tui::state::{BudgetKey, MethodKey, MethodResult, NightData, SeasonKey};
 use crossterm::event::KeyEvent;
 use std::path::PathBuf;
 use std::sync::Arc;
@@ -37,6 +37,10 @@ pub enum Action {
     ShowChase,
     /// Pick the instrument.
     Instruments,
+    /// The Budget view.
+    ShowBudget,
+    /// Export the budget (CSV and Markdown) beside the programme file.
+    Export,
     /// Selection up one row.
     Up,
     /// Selection down one row.
@@ -141,6 +145,13 @@ pub enum Msg {
     SeasonFailed(SeasonKey, String),
     /// A save finished: the path written, or the error.
     Saved(Result<PathBuf, String>),
+    /// A budget was computed (or failed).
+    BudgetReady(
+        Box<BudgetKey>,
+        Result<Box<crate::plan::budget::Budget>, String>,
+    ),
+    /// An export finished: the files written, or the error.
+    Exported(Result<Vec<PathBuf>, String>),
     /// A distance-method report (Phase, Chase) was computed.
     MethodReady(Box<MethodResult>),
 }
@@ -180,6 +191,10 @@ pub enum Effect {
     Night(Box<NightJob>),
     /// Compute season rows (in the background).
     Season(Box<SeasonJob>),
+    /// Compute the programme's budget (in the background).
+    Budget(Box<BudgetKey>),
+    /// Write export files atomically (path, contents).
+    Export(Vec<(PathBuf, String)>),
     /// Compute a distance-method report for one target (in the background).
     Method(Box<MethodKey>),
     /// Write the programme atomically; first keep a copy of the original file when asked.

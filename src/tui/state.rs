@@ -28,17 +28,20 @@ pub enum View {
     Phase,
     /// A transient's follow-up timeline.
     Chase,
+    /// Hours and precision against each target's goal.
+    Budget,
 }
 
 impl View {
     /// All views in tab order.
-    pub const ALL: [View; 6] = [
+    pub const ALL: [View; 7] = [
         View::Roster,
         View::Tonight,
         View::Season,
         View::Parallax,
         View::Phase,
         View::Chase,
+        View::Budget,
     ];
     /// Tab label.
     pub fn title(&self) -> &'static str {
@@ -49,6 +52,7 @@ impl View {
             View::Parallax => "Parallax",
             View::Phase => "Phase",
             View::Chase => "Chase",
+            View::Budget => "Budget",
         }
     }
     fn index(&self) -> usize {
@@ -250,6 +254,24 @@ pub struct MethodResult {
     pub body: MethodBody,
 }
 
+/// What a budget is for: the programme, site, first night, instrument, limits.
+#[derive(Debug, Clone, PartialEq)]
+pub struct BudgetKey {
+    /// The programme.
+    pub targets: Vec<crate::io::targets::Target>,
+    /// The site.
+    pub site: Site,
+    /// First night.
+    pub date: NaiveDate,
+    /// Instrument name.
+    pub instrument: String,
+    /// Window limits.
+    pub limits: Limits,
+}
+
+/// Months a budget covers.
+pub const BUDGET_MONTHS: u32 = 12;
+
 /// Months the Parallax view covers (as `rung parallax` by default).
 pub const PARALLAX_MONTHS: u32 = 36;
 /// Nights the Phase view covers.
@@ -380,6 +402,10 @@ pub struct State {
     pub method: Option<MethodResult>,
     /// The report being computed.
     pub method_pending: Option<MethodKey>,
+    /// The last budget (or why it failed).
+    pub budget: Option<(BudgetKey, Result<Box<crate::plan::budget::Budget>, String>)>,
+    /// The budget being computed.
+    pub budget_pending: Option<BudgetKey>,
     /// Message line.
     pub message: Option<(String, Level)>,
     /// Terminal size (columns, rows).
@@ -449,6 +475,23 @@ impl State {
             instrument: self.instrument.clone(),
             limits: self.limits,
         })
+    }
+
+    /// The budget key for the current programme, site, date, instrument and limits.
+    pub fn budget_key(&self) -> BudgetKey {
+        BudgetKey {
+            targets: self.targets.clone(),
+            site: self.site.clone(),
+            date: self.date,
+            instrument: self.instrument.clone(),
+            limits: self.limits,
+        }
+    }
+
+    /// The budget for the current key, when computed.
+    pub fn budget_now(&self) -> Option<&Result<Box<crate::plan::budget::Budget>, String>> {
+        let (k, b) = self.budget.as_ref()?;
+        (*k == self.budget_key()).then_some(b)
     }
 
     /// The report for the current view and selection, when computed.

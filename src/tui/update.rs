@@ -87,6 +87,8 @@ pub fn init(setup: Setup) -> (State, Option<Effect>) {
         instruments: setup.instruments,
         method: None,
         method_pending: None,
+        budget: None,
+        budget_pending: None,
         message: setup.message.map(|m| (m, Level::Warn)),
         size: setup.size,
         theme: setup.theme,
@@ -151,7 +153,48 @@ fn recompute(s: &mut State) -> Option<Effect> {
 /// Ask for what the current view is missing: season rows, or the method report.
 fn season_effect(s: &mut State) -> Option<Effect> {
     let a = season_rows_effect(s);
-    Effect::join(a, method_effect(s))
+    let b = Effect::join(a, method_effect(s));
+    Effect::join(b, budget_effect(s))
+}
+
+/// Ask for the budget when the Budget view shows and it is not cached.
+fn budget_effect(s: &mut State) -> Option<Effect> {
+    if s.view != View::Budget {
+        return None;
+    }
+    let k = s.budget_key();
+    if s.budget.as_ref().is_some_and(|b| b.0 == k) || s.budget_pending.as_ref() == Some(&k) {
+        return None;
+    }
+    s.budget_pending = Some(k.clone());
+    Some(Effect::Budget(Box::new(k)))
+}
+
+fn export(s: &mut State) -> Option<Effect> {
+    let Some(Ok(b)) = s.budget_now() else {
+        say(
+            s,
+            "nothing to export yet: open the Budget view (7) and wait for it",
+            Level::Warn,
+        );
+        return None;
+    };
+    let dir = s
+        .programme
+        .save_path
+        .parent()
+        .map(|p| p.to_path_buf())
+        .unwrap_or_default();
+    let stem = format!("budget-{}-{}", s.site.name, s.date);
+    let files = vec![
+        (dir.join(format!("{stem}.csv")), crate::plan::budget::csv(b)),
+        (
+            dir.join(format!("{stem}.md")),
+            crate::plan::budget::markdown(b),
+        ),
+    ];
+    say(s, "exporting …", Level::Info);
+    Some(Effect::Export(files))
 }
 
 /// Ask for the Phase or Chase report of the selected target when it is not cached.
@@ -494,6 +537,11 @@ fn act_main(s: &mut State, a: Action) -> Option<Effect> {
             s.view = View::Season;
             season_effect(s)
         }
+        Action::ShowBudget => {
+            s.view = View::Budget;
+            season_effect(s)
+        }
+        Action::Export => export(s),
         Action::ShowParallax => {
             s.view = View::Parallax;
             season_effect(s)
@@ -733,6 +781,24 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
             s.programme.original = None;
             s.saved = s.targets.clone();
             say(s, format!("saved {}", p.display()), Level::Good);
+            None
+        }
+        Msg::BudgetReady(k, r) => {
+            if s.budget_pending.as_ref() == Some(&*k) {
+                s.budget_pending = None;
+            }
+            if *k == s.budget_key() {
+                s.budget = Some((*k, r));
+            }
+            None
+        }
+        Msg::Exported(Ok(files)) => {
+            let names: Vec<String> = files.iter().map(|p| p.display().to_string()).collect();
+            say(s, format!("exported {}", names.join(", ")), Level::Good);
+            None
+        }
+        Msg::Exported(Err(e)) => {
+            say(s, format!("NOT exported: {e}"), Level::Warn);
             None
         }
         Msg::MethodReady(r) => {

@@ -1,6 +1,7 @@
 //! The views and the chrome around them. Every function here only reads the
 //! state and writes cells: nothing is computed that the library did not cache.
 
+pub mod budget;
 pub mod chart;
 pub mod chase;
 pub mod fmt;
@@ -100,8 +101,11 @@ fn tabs(s: &State, area: Rect, buf: &mut Buffer) {
     for (i, v) in View::ALL.iter().enumerate() {
         let label = if roomy {
             format!(" {} {} ", i + 1, v.title())
-        } else {
+        } else if *v == s.view {
             format!("{} {}", i + 1, v.title())
+        } else {
+            // Narrow screens: the other views by number and their first three letters.
+            format!("{} {}", i + 1, &v.title()[..3])
         };
         if i > 0 && !roomy {
             x = put(buf, x, area.y, " ", 1, th.dim());
@@ -216,6 +220,7 @@ pub fn render_all(s: &State, area: Rect, buf: &mut Buffer) {
         View::Parallax => parallax::render(s, body, buf),
         View::Phase => phase::render(s, body, buf),
         View::Chase => chase::render(s, body, buf),
+        View::Budget => budget::render(s, body, buf),
     }
     bottom(
         s,

@@ -41,7 +41,7 @@ pub fn help_text() -> Vec<(String, String)> {
 
 /// Key help.
 pub fn help(s: &State, scroll: u16, area: Rect, buf: &mut Buffer) {
-    let r = centered(area, 78, area.height.saturating_sub(2).max(10));
+    let r = centered(area, 120, area.height.saturating_sub(2).max(10));
     let inner = frame("Keys (Esc closes, ↑↓ scroll)", r, buf, s);
     let lines = help_text();
     let two = inner.width >= 72;
