@@ -21,6 +21,8 @@ enum Command {
     Where(cli::where_cmd::Args),
     /// The night of a date: twilights, Moon, and each target's window.
     Night(cli::night::Args),
+    /// The terminal UI: roster, tonight, season (keyboard-driven; ? shows the keys).
+    Tui(cli::tui::Args),
     /// Chase a fresh thermonuclear supernova: nightly windows, exposures, cadence, distance precision.
     Chase(Box<cli::chase::Args>),
     /// Phase coverage of a pulsating star, a visit plan over its phase bins, and its distance precision.
@@ -51,6 +53,7 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Some(Command::Where(a)) => cli::where_cmd::run(a),
         Some(Command::Night(a)) => cli::night::run(a),
+        Some(Command::Tui(a)) => cli::tui::run(a),
         Some(Command::Chase(a)) => cli::chase::run(*a),
         Some(Command::Phase(a)) => cli::phase::run(*a),
         Some(Command::Parallax(a)) => cli::parallax::run(*a),

@@ -7,6 +7,7 @@ pub mod phase;
 pub mod plan;
 pub mod season;
 pub mod snr;
+pub mod tui;
 pub mod where_cmd;
 
 use anyhow::Result;
@@ -92,8 +93,12 @@ pub fn load_targets(path: &Path) -> Result<Vec<rung::io::targets::Target>> {
     Ok(l.targets)
 }
 
-/// `rung` with no subcommand: tonight's plan for the demo programme.
+/// `rung` with no subcommand: the terminal UI when stdout is a terminal,
+/// else tonight's plan for the demo programme as a table (so scripts keep working).
 pub fn default_run() -> Result<()> {
+    if std::io::IsTerminal::is_terminal(&std::io::stdout()) {
+        return tui::run(tui::Args::default());
+    }
     let dir = demo_dir();
     let today = chrono::Utc::now().date_naive();
     night::run(night::Args {

@@ -4,3 +4,4 @@ pub mod angles;
 pub mod atomic;
 pub mod sites;
 pub mod targets;
+pub mod write_targets;

@@ -1,0 +1,240 @@
+//! `rung tui` (and `rung` alone on a terminal): the terminal runner. It owns the
+//! terminal (raw mode, alternate screen, restored on exit, on panic and on
+//! Ctrl-C), turns terminal events into `Msg`s, runs `Effect`s (computations on
+//! background threads, saves at once) and redraws.
+
+use anyhow::{Context as _, Result};
+use rung::astro::time::{Instant, parse_date};
+use rung::io::sites;
+use rung::io::targets::Target;
+use rung::tui::effects;
+use rung::tui::state::Programme;
+use rung::tui::theme::Theme;
+use rung::tui::{Effect, Msg, Setup, draw, init, update};
+use std::path::{Path, PathBuf};
+use std::sync::mpsc;
+use std::time::Duration;
+
+/// Arguments of `rung tui`.
+#[derive(clap::Args, Default)]
+pub struct Args {
+    /// Targets file (CSV or TOML); default: programme.csv in your config folder, else the demo.
+    #[arg(long)]
+    pub targets: Option<PathBuf>,
+    /// Site name from the catalogue, or LAT,LON,ELEV_M[,ZONE].
+    #[arg(long)]
+    pub site: Option<String>,
+    /// Night to open (YYYY-MM-DD); default: the current night, following the clock.
+    #[arg(long)]
+    pub date: Option<String>,
+    /// Instrument profile for exposures (Phase and Chase views).
+    #[arg(long)]
+    pub instrument: Option<String>,
+}
+
+/// The user's own programme file.
+pub fn user_programme() -> PathBuf {
+    sites::user_config_dir()
+        .unwrap_or_else(|| PathBuf::from("."))
+        .join("programme.csv")
+}
+
+fn load(path: &Path) -> Result<(Vec<Target>, usize, Option<String>)> {
+    let l = rung::io::targets::load(path)?;
+    let msg = l.problems.first().map(|p| {
+        format!(
+            "{} row(s) refused, first: {p} — they stay in the file until you save; a .bak copy is kept then",
+            l.problems.len()
+        )
+    });
+    Ok((l.targets, l.problems.len(), msg))
+}
+
+/// Build the UI's inputs from the arguments.
+pub fn setup(a: &Args) -> Result<Setup> {
+    let user = user_programme();
+    let (targets, programme, message) = match &a.targets {
+        Some(p) => {
+            let (t, refused, msg) = load(p)?;
+            let is_csv = p
+                .extension()
+                .is_none_or(|e| !e.eq_ignore_ascii_case("toml"));
+            let save_path = if is_csv {
+                p.clone()
+            } else {
+                p.with_extension("csv")
+            };
+            let msg = msg.or_else(|| {
+                (!is_csv).then(|| {
+                    format!(
+                        "TOML programme: saving writes CSV to {}",
+                        save_path.display()
+                    )
+                })
+            });
+            let original = std::fs::read(p).ok();
+            (
+                t,
+                Programme {
+                    source: Some(p.clone()),
+                    save_path,
+                    is_demo: false,
+                    refused_rows: refused,
+                    original,
+                },
+                msg,
+            )
+        }
+        None if user.exists() => {
+            let (t, refused, msg) = load(&user)?;
+            let original = std::fs::read(&user).ok();
+            (
+                t,
+                Programme {
+                    source: Some(user.clone()),
+                    save_path: user,
+                    is_demo: false,
+                    refused_rows: refused,
+                    original,
+                },
+                msg,
+            )
+        }
+        None => {
+            let demo = super::demo_dir().join("targets.csv");
+            let (t, refused, msg) = load(&demo)?;
+            (
+                t,
+                Programme {
+                    source: Some(demo),
+                    save_path: user,
+                    is_demo: true,
+                    refused_rows: refused,
+                    original: None,
+                },
+                msg,
+            )
+        }
+    };
+    let spec = a
+        .site
+        .clone()
+        .unwrap_or_else(|| super::DEMO_SITE.to_string());
+    let site = sites::resolve(&spec)?;
+    let mut list = sites::catalogue().unwrap_or_default();
+    if !list.iter().any(|s| s.name == site.name) {
+        list.push(site.clone());
+    }
+    let date = a.date.as_deref().map(parse_date).transpose()?;
+    let instrument = a
+        .instrument
+        .clone()
+        .unwrap_or_else(|| rung::photometry::instrument::DEMO_INSTRUMENT.to_string());
+    rung::photometry::instrument::resolve(&instrument)?;
+    let mut instruments: Vec<String> = rung::photometry::instrument::catalogue()
+        .map(|l| l.into_iter().map(|i| i.name).collect())
+        .unwrap_or_default();
+    if !instruments.contains(&instrument) {
+        instruments.push(instrument.clone());
+    }
+    Ok(Setup {
+        site,
+        sites: list,
+        date,
+        now: Instant::now()?,
+        targets,
+        programme,
+        size: (80, 24),
+        theme: Theme::from_env(),
+        message,
+        instrument,
+        instruments,
+    })
+}
+
+fn spawn(effect: Effect, tx: &mpsc::Sender<Msg>, inline: &mut Vec<Msg>) {
+    match effect {
+        Effect::Batch(list) => {
+            for e in list {
+                spawn(e, tx, inline);
+            }
+        }
+        // Saves happen at once, before anything else (and before a quit).
+        e @ Effect::Save { .. } => inline.extend(effects::run(e)),
+        e => {
+            let tx = tx.clone();
+            std::thread::spawn(move || {
+                for m in effects::run(e) {
+                    if tx.send(m).is_err() {
+                        break;
+                    }
+                }
+            });
+        }
+    }
+}
+
+fn apply(state: &mut rung::tui::State, msg: Msg, tx: &mpsc::Sender<Msg>) {
+    let mut queue = vec![msg];
+    while let Some(m) = queue.pop() {
+        if let Some(e) = update(state, m) {
+            let mut inline = Vec::new();
+            spawn(e, tx, &mut inline);
+            inline.reverse();
+            queue.extend(inline);
+        }
+    }
+}
+
+fn event_loop(terminal: &mut ratatui::DefaultTerminal, mut setup: Setup) -> Result<()> {
+    use crossterm::event::{self, Event};
+    let size = terminal.size()?;
+    setup.size = (size.width, size.height);
+    let (tx, rx) = mpsc::channel::<Msg>();
+    let (mut state, first) = init(setup);
+    if let Some(e) = first {
+        let mut inline = Vec::new();
+        spawn(e, &tx, &mut inline);
+        for m in inline {
+            apply(&mut state, m, &tx);
+        }
+    }
+    let mut last_tick = std::time::Instant::now();
+    // Test hook for the terminal-restore test (tests/tui_tmux.rs): panic after the first frame.
+    let panic_test = std::env::var_os("RUNG_TUI_TEST_PANIC").is_some();
+    loop {
+        terminal.draw(|f| draw(&state, f))?;
+        if panic_test {
+            panic!("RUNG_TUI_TEST_PANIC is set: panicking on purpose to test terminal restore");
+        }
+        if state.quit {
+            return Ok(());
+        }
+        if event::poll(Duration::from_millis(200))? {
+            match event::read()? {
+                Event::Key(k) => apply(&mut state, Msg::Key(k), &tx),
+                Event::Resize(w, h) => apply(&mut state, Msg::Resize(w, h), &tx),
+                _ => {}
+            }
+        }
+        while let Ok(m) = rx.try_recv() {
+            apply(&mut state, m, &tx);
+        }
+        if last_tick.elapsed() >= Duration::from_secs(1) {
+            last_tick = std::time::Instant::now();
+            if let Ok(now) = Instant::now() {
+                apply(&mut state, Msg::Tick(now), &tx);
+            }
+        }
+    }
+}
+
+/// Open the UI.
+pub fn run(a: Args) -> Result<()> {
+    let setup = setup(&a)?;
+    // ratatui's init installs a panic hook that restores the terminal first.
+    let mut terminal = ratatui::try_init().context("cannot open the terminal")?;
+    let res = event_loop(&mut terminal, setup);
+    ratatui::restore();
+    res
+}

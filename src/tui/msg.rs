@@ -1,0 +1,221 @@
+//! Everything that can happen to the UI ([`Msg`]), the actions keys are bound
+//! to ([`Action`]), and the side effects `update` asks for ([`Effect`]).
+
+use crate::astro::night::{Limits, Night};
+use crate::astro::site::Site;
+use crate::astro::time::Instant;
+use crate::io::targets::Target;
+use crate::tui::state::{BudgetKey, MethodKey, MethodResult, NightData, SeasonKey};
+use crossterm::event::KeyEvent;
+use std::path::PathBuf;
+use std::sync::Arc;
+
+/// What a key can be bound to. Every binding in [`crate::tui::keymap::KEYMAP`] names one.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Action {
+    /// Leave (asks first when there are unsaved changes).
+    Quit,
+    /// Leave without saving (from the unsaved-changes question).
+    QuitDiscard,
+    /// Open or close the key overlay.
+    Help,
+    /// Next view.
+    NextView,
+    /// Previous view.
+    PrevView,
+    /// The Roster view.
+    ShowRoster,
+    /// The Tonight view.
+    ShowTonight,
+    /// The Season view.
+    ShowSeason,
+    /// The Parallax view (parallax targets).
+    ShowParallax,
+    /// The Phase view (pulsators).
+    ShowPhase,
+    /// The Chase view (transients).
+    ShowChase,
+    /// Pick the instrument.
+    Instruments,
+    /// The Budget view.
+    ShowBudget,
+    /// Export the budget (CSV and Markdown) beside the programme file.
+    Export,
+    /// Selection up one row.
+    Up,
+    /// Selection down one row.
+    Down,
+    /// Selection up one page.
+    PageUp,
+    /// Selection down one page.
+    PageDown,
+    /// First row.
+    Top,
+    /// Last row.
+    Bottom,
+    /// One night earlier.
+    NightBack,
+    /// One night later.
+    NightFwd,
+    /// One week earlier.
+    WeekBack,
+    /// One week later.
+    WeekFwd,
+    /// One month earlier.
+    MonthBack,
+    /// One month later.
+    MonthFwd,
+    /// Back to the current night.
+    Today,
+    /// Follow the clock (the night and the time marker move on their own).
+    Live,
+    /// Type to filter the roster.
+    Filter,
+    /// Next sort column.
+    Sort,
+    /// Reverse the sort order.
+    SortReverse,
+    /// Add a target.
+    Add,
+    /// Edit the selected target.
+    Edit,
+    /// Remove the selected target (asks first).
+    Remove,
+    /// Undo the last change to the programme.
+    Undo,
+    /// Redo what was undone.
+    Redo,
+    /// Save the programme (atomically).
+    Save,
+    /// Pick the site.
+    Sites,
+    /// Season strip: every night or every week.
+    SeasonStep,
+    /// Raise the minimum altitude by 5°.
+    MinAltUp,
+    /// Lower the minimum altitude by 5°.
+    MinAltDown,
+    /// Form, picker, filter: confirm.
+    Accept,
+    /// Form, picker, filter, overlay: close without change.
+    Cancel,
+    /// Form: next field.
+    NextField,
+    /// Form: previous field.
+    PrevField,
+    /// Form: next value of a choice field (kind, band).
+    NextChoice,
+    /// Form: previous value of a choice field.
+    PrevChoice,
+    /// Question: yes.
+    Yes,
+    /// Question: no.
+    No,
+}
+
+/// A computed season strip for some targets.
+#[derive(Debug, Clone)]
+pub struct SeasonRows {
+    /// What the rows are for.
+    pub key: SeasonKey,
+    /// The nights of the strip (shared with later jobs for the same key).
+    pub nights: Arc<Vec<Night>>,
+    /// Observable hours per night, by target name.
+    pub rows: Vec<(String, Vec<f64>)>,
+}
+
+/// Everything that can happen.
+#[derive(Debug, Clone)]
+pub enum Msg {
+    /// A key was pressed.
+    Key(KeyEvent),
+    /// A bound action (what a key maps to; also sent directly by tests).
+    Act(Action),
+    /// The clock moved on.
+    Tick(Instant),
+    /// The terminal has a new size (columns, rows).
+    Resize(u16, u16),
+    /// The night's table was computed.
+    NightReady(Box<NightData>),
+    /// The night could not be computed.
+    NightFailed(String),
+    /// Season rows were computed.
+    SeasonReady(Box<SeasonRows>),
+    /// The season could not be computed.
+    SeasonFailed(SeasonKey, String),
+    /// A save finished: the path written, or the error.
+    Saved(Result<PathBuf, String>),
+    /// A budget was computed (or failed).
+    BudgetReady(
+        Box<BudgetKey>,
+        Result<Box<crate::plan::budget::Budget>, String>,
+    ),
+    /// An export finished: the files written, or the error.
+    Exported(Result<Vec<PathBuf>, String>),
+    /// A distance-method report (Phase, Chase) was computed.
+    MethodReady(Box<MethodResult>),
+}
+
+/// A job for the night table: the night at a site and every target's visibility in it.
+#[derive(Debug, Clone)]
+pub struct NightJob {
+    /// Site.
+    pub site: Site,
+    /// Local date of the evening.
+    pub date: chrono::NaiveDate,
+    /// Window limits.
+    pub limits: Limits,
+    /// Targets to compute.
+    pub targets: Vec<Target>,
+    /// Generation counter; stale results are dropped.
+    pub generation: u64,
+}
+
+/// A job for the season strip of some targets.
+#[derive(Debug, Clone)]
+pub struct SeasonJob {
+    /// What the strip is for.
+    pub key: SeasonKey,
+    /// Site.
+    pub site: Site,
+    /// Nights already computed for this key, if any.
+    pub nights: Option<Arc<Vec<Night>>>,
+    /// Targets to compute.
+    pub targets: Vec<Target>,
+}
+
+/// Side effects `update` asks the runner to perform.
+#[derive(Debug, Clone)]
+pub enum Effect {
+    /// Compute the night table (in the background).
+    Night(Box<NightJob>),
+    /// Compute season rows (in the background).
+    Season(Box<SeasonJob>),
+    /// Compute the programme's budget (in the background).
+    Budget(Box<BudgetKey>),
+    /// Write export files atomically (path, contents).
+    Export(Vec<(PathBuf, String)>),
+    /// Compute a distance-method report for one target (in the background).
+    Method(Box<MethodKey>),
+    /// Write the programme atomically; first keep a copy of the original file when asked.
+    Save {
+        /// Where the programme goes.
+        path: PathBuf,
+        /// CSV text.
+        text: String,
+        /// A copy of the file as it was loaded, written once before the first save.
+        backup: Option<(PathBuf, Vec<u8>)>,
+    },
+    /// Several effects.
+    Batch(Vec<Effect>),
+}
+
+impl Effect {
+    /// Join two optional effects.
+    pub fn join(a: Option<Effect>, b: Option<Effect>) -> Option<Effect> {
+        match (a, b) {
+            (None, x) | (x, None) => x,
+            (Some(a), Some(b)) => Some(Effect::Batch(vec![a, b])),
+        }
+    }
+}

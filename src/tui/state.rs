@@ -1,0 +1,567 @@
+//! The one [`State`] of the UI and the results cached in it.
+
+use crate::astro::frames::Context;
+use crate::astro::night::{Limits, Night, NightEvents, TargetNight};
+use crate::astro::site::Site;
+use crate::astro::time::Instant;
+use crate::io::targets::Target;
+use crate::tui::form::Form;
+use crate::tui::keymap::Scope;
+use crate::tui::theme::Theme;
+use chrono::NaiveDate;
+use std::collections::{HashMap, HashSet};
+use std::path::PathBuf;
+use std::sync::Arc;
+
+/// The views (names are rung's own).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum View {
+    /// Every target with tonight's window.
+    Roster,
+    /// Altitude through the night.
+    Tonight,
+    /// Observable hours, targets × nights.
+    Season,
+    /// The parallax factor through the years, with the chosen epochs.
+    Parallax,
+    /// A pulsator's phase coverage and next reachable phases.
+    Phase,
+    /// A transient's follow-up timeline.
+    Chase,
+    /// Hours and precision against each target's goal.
+    Budget,
+}
+
+impl View {
+    /// All views in tab order.
+    pub const ALL: [View; 7] = [
+        View::Roster,
+        View::Tonight,
+        View::Season,
+        View::Parallax,
+        View::Phase,
+        View::Chase,
+        View::Budget,
+    ];
+    /// Tab label.
+    pub fn title(&self) -> &'static str {
+        match self {
+            View::Roster => "Roster",
+            View::Tonight => "Tonight",
+            View::Season => "Season",
+            View::Parallax => "Parallax",
+            View::Phase => "Phase",
+            View::Chase => "Chase",
+            View::Budget => "Budget",
+        }
+    }
+    fn index(&self) -> usize {
+        View::ALL.iter().position(|v| v == self).unwrap_or(0)
+    }
+    /// The view `d` tabs away.
+    pub fn step(&self, d: i32) -> View {
+        let n = View::ALL.len() as i32;
+        View::ALL[(self.index() as i32 + d).rem_euclid(n) as usize]
+    }
+}
+
+/// Roster sort columns.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SortKey {
+    /// File order.
+    File,
+    /// Name.
+    Name,
+    /// Kind.
+    Kind,
+    /// Start of tonight's main window.
+    Window,
+    /// Observable hours tonight.
+    Hours,
+    /// Best airmass tonight.
+    Airmass,
+    /// Moon distance at the best time.
+    Moon,
+    /// Priority (higher first).
+    Priority,
+}
+
+impl SortKey {
+    /// All, in the order `Sort` steps through them.
+    pub const ALL: [SortKey; 8] = [
+        SortKey::File,
+        SortKey::Name,
+        SortKey::Kind,
+        SortKey::Window,
+        SortKey::Hours,
+        SortKey::Airmass,
+        SortKey::Moon,
+        SortKey::Priority,
+    ];
+    /// Label.
+    pub fn label(&self) -> &'static str {
+        match self {
+            SortKey::File => "file order",
+            SortKey::Name => "name",
+            SortKey::Kind => "kind",
+            SortKey::Window => "window start",
+            SortKey::Hours => "hours",
+            SortKey::Airmass => "airmass",
+            SortKey::Moon => "Moon distance",
+            SortKey::Priority => "priority",
+        }
+    }
+    /// The next sort column.
+    pub fn next(&self) -> SortKey {
+        let i = SortKey::ALL.iter().position(|k| k == self).unwrap_or(0);
+        SortKey::ALL[(i + 1) % SortKey::ALL.len()]
+    }
+}
+
+/// Where the programme came from and where saves go.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Programme {
+    /// The file read at start, if any.
+    pub source: Option<PathBuf>,
+    /// Where saves are written.
+    pub save_path: PathBuf,
+    /// Whether the programme is the demo (never overwritten).
+    pub is_demo: bool,
+    /// Rows of the source refused when loading (kept only in the backup copy).
+    pub refused_rows: usize,
+    /// The source file's bytes as loaded; written once as a backup before the first save over it.
+    pub original: Option<Vec<u8>>,
+}
+
+impl Programme {
+    /// Where the backup copy of the original goes.
+    pub fn backup_path(&self) -> PathBuf {
+        let mut s = self.save_path.clone().into_os_string();
+        s.push(".bak");
+        PathBuf::from(s)
+    }
+}
+
+/// One target in one night, as the views show it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TargetRow {
+    /// Rise, transit, set, windows, best altitude.
+    pub night: TargetNight,
+    /// Target–Moon distance at the best time, degrees.
+    pub moon_sep_deg: Option<f64>,
+    /// Observed altitude on the night's grid, degrees.
+    pub alt_deg: Vec<f32>,
+    /// A Sun caution when the target is above the horizon within the site's
+    /// Sun-avoidance angle while the Sun is up, with the first such instant.
+    pub sun_caution: Option<(Instant, String)>,
+}
+
+/// The night table: computed by the library off the draw path.
+#[derive(Debug, Clone)]
+pub struct NightData {
+    /// Generation of the job that made it.
+    pub generation: u64,
+    /// Site name.
+    pub site: String,
+    /// Local date of the evening.
+    pub date: NaiveDate,
+    /// Limits used for the windows.
+    pub limits: Limits,
+    /// Sun and Moon events.
+    pub events: NightEvents,
+    /// Local noon to local noon.
+    pub start: Instant,
+    /// End of the span.
+    pub end: Instant,
+    /// Grid instants as seconds since `start`.
+    pub grid_s: Vec<f64>,
+    /// Sun altitude on the grid, degrees.
+    pub sun_alt_deg: Vec<f64>,
+    /// Moon altitude on the grid, degrees.
+    pub moon_alt_deg: Vec<f64>,
+    /// Per target, by name.
+    pub rows: HashMap<String, TargetRow>,
+}
+
+/// What a season strip is for.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SeasonKey {
+    /// Site name.
+    pub site: String,
+    /// First night.
+    pub from: NaiveDate,
+    /// Days between columns.
+    pub step_days: u32,
+    /// Number of columns.
+    pub nights: u32,
+    /// Limits.
+    pub limits: Limits,
+}
+
+/// The season strip: observable hours per target and night.
+#[derive(Debug, Clone, Default)]
+pub struct SeasonData {
+    /// What the cached rows are for.
+    pub key: Option<SeasonKey>,
+    /// The nights, once computed.
+    pub nights: Option<Arc<Vec<Night>>>,
+    /// Hours by target name.
+    pub hours: HashMap<String, Vec<f64>>,
+    /// Targets being computed.
+    pub pending: HashSet<String>,
+    /// The last failure.
+    pub error: Option<String>,
+}
+
+/// What a distance-method report is for: a target (as it is now), site, night, instrument, limits, view.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MethodKey {
+    /// The view (Phase or Chase).
+    pub view: View,
+    /// The target.
+    pub target: crate::io::targets::Target,
+    /// The site.
+    pub site: Site,
+    /// First night.
+    pub date: NaiveDate,
+    /// Instrument name.
+    pub instrument: String,
+    /// Window limits.
+    pub limits: Limits,
+}
+
+/// A distance-method report, computed by the library.
+#[derive(Debug, Clone, PartialEq)]
+pub enum MethodBody {
+    /// `ParallaxMethod::plan` over the range.
+    Parallax(Box<crate::ladder::parallax::ParallaxPlan>),
+    /// `PulsatorMethod::analyse` over the range.
+    Phase(Box<crate::ladder::pulsator::PhaseReport>),
+    /// `TransientMethod::chase`.
+    Chase(Box<crate::ladder::transient::Chase>),
+    /// The selected target is not of the view's kind.
+    NotApplicable(String),
+    /// The library refused (the message says why).
+    Failed(String),
+}
+
+/// A report with what it is for.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MethodResult {
+    /// What it is for.
+    pub key: MethodKey,
+    /// The report.
+    pub body: MethodBody,
+}
+
+/// What a budget is for: the programme, site, first night, instrument, limits.
+#[derive(Debug, Clone, PartialEq)]
+pub struct BudgetKey {
+    /// The programme.
+    pub targets: Vec<crate::io::targets::Target>,
+    /// The site.
+    pub site: Site,
+    /// First night.
+    pub date: NaiveDate,
+    /// Instrument name.
+    pub instrument: String,
+    /// Window limits.
+    pub limits: Limits,
+}
+
+/// Months a budget covers.
+pub const BUDGET_MONTHS: u32 = 12;
+
+/// Months the Parallax view covers (as `rung parallax` by default).
+pub const PARALLAX_MONTHS: u32 = 36;
+/// Nights the Phase view covers.
+pub const PHASE_NIGHTS: u64 = 30;
+
+/// The sky at the current instant.
+#[derive(Debug, Clone)]
+pub struct SkyNow {
+    /// Context at `now` (full SOFA apco13).
+    pub ctx: Context,
+    /// Sun altitude, degrees.
+    pub sun_alt_deg: f64,
+    /// Moon altitude, degrees.
+    pub moon_alt_deg: f64,
+    /// Moon illuminated fraction.
+    pub moon_illumination: f64,
+    /// Whether the Moon waxes.
+    pub moon_waxing: bool,
+    /// Sun caution for the selected target now.
+    pub caution: Option<String>,
+}
+
+/// An overlay on top of the views.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Overlay {
+    /// The keys.
+    Help {
+        /// First line shown.
+        scroll: u16,
+    },
+    /// Site picker.
+    Sites {
+        /// Highlighted site.
+        sel: usize,
+    },
+    /// Instrument picker.
+    Instruments {
+        /// Highlighted instrument.
+        sel: usize,
+    },
+    /// Target form.
+    Form(Box<Form>),
+    /// A yes/no question.
+    Question(Question),
+}
+
+/// Questions asked before something is lost.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Question {
+    /// Quit with unsaved changes?
+    Quit,
+    /// Remove this target?
+    Remove(String),
+}
+
+/// How a message reads.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Level {
+    /// Information.
+    Info,
+    /// Something done.
+    Good,
+    /// Something refused or failed.
+    Warn,
+}
+
+/// Longest undo history kept.
+pub const UNDO_DEPTH: usize = 200;
+
+/// The whole UI state.
+#[derive(Debug, Clone)]
+pub struct State {
+    /// Current site.
+    pub site: Site,
+    /// Sites the picker offers.
+    pub sites: Vec<Site>,
+    /// Local date of the evening shown.
+    pub date: NaiveDate,
+    /// Follow the clock.
+    pub live: bool,
+    /// The clock (set by `Tick`).
+    pub now: Instant,
+    /// The sky now.
+    pub sky: Option<SkyNow>,
+    /// Window limits.
+    pub limits: Limits,
+    /// The programme.
+    pub targets: Vec<Target>,
+    /// The programme as last saved or loaded (unsaved changes = differs from this).
+    pub saved: Vec<Target>,
+    /// Earlier programmes, newest last.
+    pub undo: Vec<Vec<Target>>,
+    /// Undone programmes, newest last.
+    pub redo: Vec<Vec<Target>>,
+    /// Files.
+    pub programme: Programme,
+    /// Current view.
+    pub view: View,
+    /// Selected row in `order`.
+    pub sel: usize,
+    /// Indices into `targets`, sorted and filtered.
+    pub order: Vec<usize>,
+    /// Sort column.
+    pub sort: SortKey,
+    /// Reverse order.
+    pub sort_rev: bool,
+    /// Filter text.
+    pub filter: String,
+    /// Typing the filter.
+    pub filtering: bool,
+    /// Overlay, if any.
+    pub overlay: Option<Overlay>,
+    /// The night table, when computed.
+    pub night: Option<NightData>,
+    /// Generation of the newest night job.
+    pub night_gen: u64,
+    /// The last failure to compute the night.
+    pub night_error: Option<String>,
+    /// Season strip.
+    pub season: SeasonData,
+    /// Days between season columns.
+    pub season_step_days: u32,
+    /// Instrument (for exposures in Phase and Chase).
+    pub instrument: String,
+    /// Instruments the picker offers.
+    pub instruments: Vec<String>,
+    /// The last distance-method report.
+    pub method: Option<MethodResult>,
+    /// The report being computed.
+    pub method_pending: Option<MethodKey>,
+    /// The last budget (or why it failed).
+    pub budget: Option<(BudgetKey, Result<Box<crate::plan::budget::Budget>, String>)>,
+    /// The budget being computed.
+    pub budget_pending: Option<BudgetKey>,
+    /// Message line.
+    pub message: Option<(String, Level)>,
+    /// Terminal size (columns, rows).
+    pub size: (u16, u16),
+    /// Styles.
+    pub theme: Theme,
+    /// Set when the UI should end.
+    pub quit: bool,
+}
+
+/// Rows of chrome around a view: status, tabs, message line.
+pub const CHROME_ROWS: u16 = 3;
+/// Season columns.
+pub const SEASON_NIGHTS: u32 = 52;
+
+/// The first row shown in a list of `len` rows with `sel` selected, `height` rows tall.
+pub fn scroll_offset(sel: usize, height: usize) -> usize {
+    if height == 0 {
+        return 0;
+    }
+    sel.saturating_sub(height - 1)
+}
+
+impl State {
+    /// The scope keys are looked up in.
+    pub fn scope(&self) -> Scope {
+        match &self.overlay {
+            Some(Overlay::Help { .. }) => Scope::Help,
+            Some(Overlay::Sites { .. }) | Some(Overlay::Instruments { .. }) => Scope::Picker,
+            Some(Overlay::Form(_)) => Scope::Form,
+            Some(Overlay::Question(_)) => Scope::Question,
+            None if self.filtering => Scope::Filter,
+            None => Scope::Main,
+        }
+    }
+
+    /// The selected target.
+    pub fn selected(&self) -> Option<&Target> {
+        self.order.get(self.sel).and_then(|i| self.targets.get(*i))
+    }
+
+    /// Whether the programme differs from the file.
+    pub fn dirty(&self) -> bool {
+        self.targets != self.saved
+    }
+
+    /// Tonight's row of a target, when computed.
+    pub fn row(&self, name: &str) -> Option<&TargetRow> {
+        self.night.as_ref().and_then(|n| n.rows.get(name))
+    }
+
+    /// Rows a list view shows (terminal rows less chrome, title and header).
+    pub fn list_rows(&self) -> usize {
+        self.size.1.saturating_sub(CHROME_ROWS + 3) as usize
+    }
+
+    /// The method-report key for the current view and selection (Phase and Chase only).
+    pub fn method_key(&self) -> Option<MethodKey> {
+        if !matches!(self.view, View::Parallax | View::Phase | View::Chase) {
+            return None;
+        }
+        Some(MethodKey {
+            view: self.view,
+            target: self.selected()?.clone(),
+            site: self.site.clone(),
+            date: self.date,
+            instrument: self.instrument.clone(),
+            limits: self.limits,
+        })
+    }
+
+    /// The budget key for the current programme, site, date, instrument and limits.
+    pub fn budget_key(&self) -> BudgetKey {
+        BudgetKey {
+            targets: self.targets.clone(),
+            site: self.site.clone(),
+            date: self.date,
+            instrument: self.instrument.clone(),
+            limits: self.limits,
+        }
+    }
+
+    /// The budget for the current key, when computed.
+    pub fn budget_now(&self) -> Option<&Result<Box<crate::plan::budget::Budget>, String>> {
+        let (k, b) = self.budget.as_ref()?;
+        (*k == self.budget_key()).then_some(b)
+    }
+
+    /// The report for the current view and selection, when computed.
+    pub fn method_now(&self) -> Option<&MethodBody> {
+        let m = self.method.as_ref()?;
+        let k = self.method_key()?;
+        (m.key == k).then_some(&m.body)
+    }
+
+    /// The season key for the current site, date, limits and step.
+    pub fn season_key(&self) -> SeasonKey {
+        SeasonKey {
+            site: self.site.name.clone(),
+            from: self.date,
+            step_days: self.season_step_days,
+            nights: SEASON_NIGHTS,
+            limits: self.limits,
+        }
+    }
+
+    /// Rebuild `order` from the targets, filter and sort; keep the selected target selected.
+    pub fn reorder(&mut self) {
+        let keep = self.selected().map(|t| t.name.clone());
+        self.reorder_keeping(keep);
+    }
+
+    /// Rebuild `order`; select the target named `keep` when it is still listed.
+    pub fn reorder_keeping(&mut self, keep: Option<String>) {
+        let f = self.filter.to_lowercase();
+        let mut idx: Vec<usize> = (0..self.targets.len())
+            .filter(|i| {
+                let t = &self.targets[*i];
+                f.is_empty()
+                    || t.name.to_lowercase().contains(&f)
+                    || t.kind.as_str().contains(&f)
+                    || t.notes.to_lowercase().contains(&f)
+            })
+            .collect();
+        let key = |i: &usize| -> (f64, String) {
+            let t = &self.targets[*i];
+            let r = self.row(&t.name);
+            let big = f64::INFINITY;
+            let v = match self.sort {
+                SortKey::File => *i as f64,
+                SortKey::Name => 0.0,
+                SortKey::Kind => t.kind as u8 as f64,
+                SortKey::Window => r
+                    .and_then(|r| r.night.main_window())
+                    .map(|w| w.0.jd_utc())
+                    .unwrap_or(big),
+                SortKey::Hours => r.map(|r| -r.night.observable_hours).unwrap_or(big),
+                SortKey::Airmass => r.and_then(|r| r.night.min_airmass).unwrap_or(big),
+                SortKey::Moon => r.and_then(|r| r.moon_sep_deg).map(|m| -m).unwrap_or(big),
+                SortKey::Priority => -t.priority,
+            };
+            (v, t.name.to_lowercase())
+        };
+        idx.sort_by(|a, b| {
+            let (ka, kb) = (key(a), key(b));
+            ka.0.partial_cmp(&kb.0)
+                .unwrap_or(std::cmp::Ordering::Equal)
+                .then_with(|| ka.1.cmp(&kb.1))
+        });
+        if self.sort_rev {
+            idx.reverse();
+        }
+        self.order = idx;
+        self.sel = keep
+            .and_then(|n| self.order.iter().position(|i| self.targets[*i].name == n))
+            .unwrap_or(0)
+            .min(self.order.len().saturating_sub(1));
+    }
+}

@@ -1,0 +1,818 @@
+//! `update`: the only place the state changes.
+
+use crate::astro::frames::Context;
+use crate::astro::night::Limits;
+use crate::astro::site::Site;
+use crate::astro::time::Instant;
+use crate::astro::{pointing, sun_caution};
+use crate::io::targets::Target;
+use crate::io::write_targets::to_csv;
+use crate::tui::form::Form;
+use crate::tui::keymap::{self, Scope};
+use crate::tui::msg::{Action, Effect, Msg, NightJob, SeasonJob};
+use crate::tui::state::{
+    Level, Overlay, Programme, Question, SeasonData, SkyNow, SortKey, State, UNDO_DEPTH, View,
+    scroll_offset,
+};
+use crate::tui::theme::Theme;
+use chrono::{Months, NaiveDate};
+use crossterm::event::{KeyCode, KeyEventKind, KeyModifiers};
+
+/// Everything needed to open the UI.
+#[derive(Debug, Clone)]
+pub struct Setup {
+    /// The site.
+    pub site: Site,
+    /// Sites the picker offers.
+    pub sites: Vec<Site>,
+    /// The night shown first, or `None` for the current night (live).
+    pub date: Option<NaiveDate>,
+    /// The clock at start.
+    pub now: Instant,
+    /// The programme.
+    pub targets: Vec<Target>,
+    /// Its files.
+    pub programme: Programme,
+    /// Terminal size.
+    pub size: (u16, u16),
+    /// Styles.
+    pub theme: Theme,
+    /// A first message (e.g. rows refused when loading).
+    pub message: Option<String>,
+    /// Instrument name (Phase and Chase exposures).
+    pub instrument: String,
+    /// Instruments the picker offers.
+    pub instruments: Vec<String>,
+}
+
+/// The local date whose evening starts the night containing `now` at `site`
+/// (nights run from local noon to local noon).
+pub fn night_date(site: &Site, now: Instant) -> NaiveDate {
+    (now.local(&site.timezone) - chrono::Duration::hours(12)).date_naive()
+}
+
+/// The first state and the effects it needs (the night table).
+pub fn init(setup: Setup) -> (State, Option<Effect>) {
+    let live = setup.date.is_none();
+    let date = setup
+        .date
+        .unwrap_or_else(|| night_date(&setup.site, setup.now));
+    let mut s = State {
+        site: setup.site,
+        sites: setup.sites,
+        date,
+        live,
+        now: setup.now,
+        sky: None,
+        limits: Limits::new(30.0, -12.0).unwrap_or_default(),
+        saved: setup.targets.clone(),
+        targets: setup.targets,
+        undo: Vec::new(),
+        redo: Vec::new(),
+        programme: setup.programme,
+        view: View::Roster,
+        sel: 0,
+        order: Vec::new(),
+        sort: SortKey::File,
+        sort_rev: false,
+        filter: String::new(),
+        filtering: false,
+        overlay: None,
+        night: None,
+        night_gen: 0,
+        night_error: None,
+        season: SeasonData::default(),
+        season_step_days: 7,
+        instrument: setup.instrument,
+        instruments: setup.instruments,
+        method: None,
+        method_pending: None,
+        budget: None,
+        budget_pending: None,
+        message: setup.message.map(|m| (m, Level::Warn)),
+        size: setup.size,
+        theme: setup.theme,
+        quit: false,
+    };
+    if s.message.is_none() && s.programme.is_demo {
+        s.message = Some((
+            format!(
+                "demo programme: saving writes your own {}",
+                s.programme.save_path.display()
+            ),
+            Level::Info,
+        ));
+    }
+    s.reorder();
+    refresh_sky(&mut s);
+    let e = recompute(&mut s);
+    (s, e)
+}
+
+fn refresh_sky(s: &mut State) {
+    let Ok(ctx) = Context::exact(&s.site, s.now) else {
+        s.sky = None;
+        return;
+    };
+    let caution = s
+        .selected()
+        .and_then(|t| sun_caution(&s.site, &pointing(&s.site, &ctx, &t.place())));
+    s.sky = Some(SkyNow {
+        sun_alt_deg: ctx.sun().alt_geom_rad.to_degrees(),
+        moon_alt_deg: ctx.moon().alt_geom_rad.to_degrees(),
+        moon_illumination: ctx.moon_illumination(),
+        moon_waxing: ctx.moon_waxing(),
+        caution,
+        ctx,
+    });
+}
+
+fn refresh_caution(s: &mut State) {
+    let caution = match (&s.sky, s.selected()) {
+        (Some(sky), Some(t)) => sun_caution(&s.site, &pointing(&s.site, &sky.ctx, &t.place())),
+        _ => None,
+    };
+    if let Some(sky) = s.sky.as_mut() {
+        sky.caution = caution;
+    }
+}
+
+/// Ask for the night table again (date, site, limits or targets changed).
+fn recompute(s: &mut State) -> Option<Effect> {
+    s.night_gen += 1;
+    let night = Effect::Night(Box::new(NightJob {
+        site: s.site.clone(),
+        date: s.date,
+        limits: s.limits,
+        targets: s.targets.clone(),
+        generation: s.night_gen,
+    }));
+    Effect::join(Some(night), season_effect(s))
+}
+
+/// Ask for what the current view is missing: season rows, or the method report.
+fn season_effect(s: &mut State) -> Option<Effect> {
+    let a = season_rows_effect(s);
+    let b = Effect::join(a, method_effect(s));
+    Effect::join(b, budget_effect(s))
+}
+
+/// Ask for the budget when the Budget view shows and it is not cached.
+fn budget_effect(s: &mut State) -> Option<Effect> {
+    if s.view != View::Budget {
+        return None;
+    }
+    let k = s.budget_key();
+    if s.budget.as_ref().is_some_and(|b| b.0 == k) || s.budget_pending.as_ref() == Some(&k) {
+        return None;
+    }
+    s.budget_pending = Some(k.clone());
+    Some(Effect::Budget(Box::new(k)))
+}
+
+fn export(s: &mut State) -> Option<Effect> {
+    let Some(Ok(b)) = s.budget_now() else {
+        say(
+            s,
+            "nothing to export yet: open the Budget view (7) and wait for it",
+            Level::Warn,
+        );
+        return None;
+    };
+    let dir = s
+        .programme
+        .save_path
+        .parent()
+        .map(|p| p.to_path_buf())
+        .unwrap_or_default();
+    let stem = format!("budget-{}-{}", s.site.name, s.date);
+    let files = vec![
+        (dir.join(format!("{stem}.csv")), crate::plan::budget::csv(b)),
+        (
+            dir.join(format!("{stem}.md")),
+            crate::plan::budget::markdown(b),
+        ),
+    ];
+    say(s, "exporting …", Level::Info);
+    Some(Effect::Export(files))
+}
+
+/// Ask for the Phase or Chase report of the selected target when it is not cached.
+fn method_effect(s: &mut State) -> Option<Effect> {
+    let k = s.method_key()?;
+    if s.method.as_ref().is_some_and(|m| m.key == k) || s.method_pending.as_ref() == Some(&k) {
+        return None;
+    }
+    s.method_pending = Some(k.clone());
+    Some(Effect::Method(Box::new(k)))
+}
+
+/// Ask for the season rows the Season view is missing.
+fn season_rows_effect(s: &mut State) -> Option<Effect> {
+    let key = s.season_key();
+    if s.season.key.as_ref() != Some(&key) {
+        s.season = SeasonData {
+            key: Some(key.clone()),
+            ..SeasonData::default()
+        };
+    }
+    if s.view != View::Season {
+        return None;
+    }
+    if s.season.nights.is_none() && !s.season.pending.is_empty() {
+        return None; // the first job computes the nights; wait for it
+    }
+    let h = s.list_rows();
+    let off = scroll_offset(s.sel, h);
+    let want: Vec<Target> = s
+        .order
+        .iter()
+        .skip(off)
+        .take(h.max(1))
+        .map(|i| &s.targets[*i])
+        .filter(|t| !s.season.hours.contains_key(&t.name) && !s.season.pending.contains(&t.name))
+        .cloned()
+        .collect();
+    if want.is_empty() {
+        return None;
+    }
+    for t in &want {
+        s.season.pending.insert(t.name.clone());
+    }
+    Some(Effect::Season(Box::new(SeasonJob {
+        key,
+        site: s.site.clone(),
+        nights: s.season.nights.clone(),
+        targets: want,
+    })))
+}
+
+fn say(s: &mut State, text: impl Into<String>, level: Level) {
+    s.message = Some((text.into(), level));
+}
+
+/// Replace the programme, keeping the old one for undo.
+fn change(s: &mut State, new: Vec<Target>, what: String) -> Option<Effect> {
+    let keep = s.selected().map(|t| t.name.clone());
+    let old = std::mem::replace(&mut s.targets, new);
+    for t in &s.targets {
+        if !old.contains(t) {
+            s.season.hours.remove(&t.name);
+        }
+    }
+    s.undo.push(old);
+    if s.undo.len() > UNDO_DEPTH {
+        s.undo.remove(0);
+    }
+    s.redo.clear();
+    after_change(s, what, keep)
+}
+
+fn after_change(s: &mut State, what: String, keep: Option<String>) -> Option<Effect> {
+    s.reorder_keeping(keep);
+    refresh_caution(s);
+    let note = if s.dirty() { " (unsaved)" } else { "" };
+    say(s, format!("{what}{note}"), Level::Info);
+    recompute(s)
+}
+
+fn select_name(s: &mut State, name: &str) {
+    if let Some(p) = s.order.iter().position(|i| s.targets[*i].name == name) {
+        s.sel = p;
+    }
+}
+
+fn set_date(s: &mut State, d: Option<NaiveDate>) -> Option<Effect> {
+    let Some(d) = d else {
+        say(s, "that date is outside rung's span", Level::Warn);
+        return None;
+    };
+    if crate::astro::time::parse_date(&d.to_string()).is_err() {
+        say(
+            s,
+            format!("{d} is outside rung's valid span (1960-2100)"),
+            Level::Warn,
+        );
+        return None;
+    }
+    s.date = d;
+    recompute(s)
+}
+
+fn step_days(s: &mut State, days: i64) -> Option<Effect> {
+    s.live = false;
+    let d = if days >= 0 {
+        s.date.checked_add_days(chrono::Days::new(days as u64))
+    } else {
+        s.date.checked_sub_days(chrono::Days::new((-days) as u64))
+    };
+    set_date(s, d)
+}
+
+fn step_months(s: &mut State, m: i32) -> Option<Effect> {
+    s.live = false;
+    let d = if m >= 0 {
+        s.date.checked_add_months(Months::new(m as u32))
+    } else {
+        s.date.checked_sub_months(Months::new((-m) as u32))
+    };
+    set_date(s, d)
+}
+
+fn move_sel(s: &mut State, to: i64) -> Option<Effect> {
+    let n = s.order.len() as i64;
+    s.sel = to.clamp(0, (n - 1).max(0)) as usize;
+    refresh_caution(s);
+    season_effect(s)
+}
+
+fn save(s: &mut State) -> Option<Effect> {
+    let p = &s.programme;
+    let backup = match (&p.original, &p.source) {
+        (Some(bytes), Some(src)) if !p.is_demo && *src == p.save_path => {
+            Some((p.backup_path(), bytes.clone()))
+        }
+        _ => None,
+    };
+    let path = p.save_path.clone();
+    say(s, format!("saving {} …", path.display()), Level::Info);
+    Some(Effect::Save {
+        path,
+        text: to_csv(&s.targets),
+        backup,
+    })
+}
+
+fn act(s: &mut State, a: Action) -> Option<Effect> {
+    match s.scope() {
+        Scope::Main => act_main(s, a),
+        Scope::Form => act_form(s, a),
+        Scope::Filter => {
+            match a {
+                Action::Accept => s.filtering = false,
+                Action::Cancel => {
+                    s.filtering = false;
+                    s.filter.clear();
+                    s.reorder();
+                }
+                _ => {}
+            }
+            season_effect(s)
+        }
+        Scope::Picker if matches!(s.overlay, Some(Overlay::Instruments { .. })) => {
+            let Some(Overlay::Instruments { sel }) = s.overlay.as_mut() else {
+                return None;
+            };
+            let n = s.instruments.len();
+            match a {
+                Action::Up => *sel = sel.saturating_sub(1),
+                Action::Down => *sel = (*sel + 1).min(n.saturating_sub(1)),
+                Action::Accept => {
+                    let i = *sel;
+                    s.overlay = None;
+                    if let Some(name) = s.instruments.get(i).cloned() {
+                        say(s, format!("instrument: {name}"), Level::Info);
+                        s.instrument = name;
+                        return season_effect(s);
+                    }
+                }
+                Action::Cancel => s.overlay = None,
+                _ => {}
+            }
+            None
+        }
+        Scope::Picker => {
+            let Some(Overlay::Sites { sel }) = s.overlay.as_mut() else {
+                return None;
+            };
+            let n = s.sites.len();
+            match a {
+                Action::Up => *sel = sel.saturating_sub(1),
+                Action::Down => *sel = (*sel + 1).min(n.saturating_sub(1)),
+                Action::Accept => {
+                    let i = *sel;
+                    s.overlay = None;
+                    if let Some(site) = s.sites.get(i).cloned() {
+                        say(s, format!("site: {}", site.name), Level::Info);
+                        s.site = site;
+                        if s.live {
+                            s.date = night_date(&s.site, s.now);
+                        }
+                        refresh_sky(s);
+                        return recompute(s);
+                    }
+                }
+                Action::Cancel => s.overlay = None,
+                _ => {}
+            }
+            None
+        }
+        Scope::Question => {
+            let Some(Overlay::Question(q)) = s.overlay.clone() else {
+                return None;
+            };
+            s.overlay = None;
+            match (q, a) {
+                (_, Action::QuitDiscard) => {
+                    s.quit = true;
+                    None
+                }
+                (Question::Quit, Action::Yes) => {
+                    s.quit = true;
+                    None
+                }
+                (Question::Remove(name), Action::Yes) => {
+                    let new: Vec<Target> = s
+                        .targets
+                        .iter()
+                        .filter(|t| t.name != name)
+                        .cloned()
+                        .collect();
+                    change(s, new, format!("removed {name}"))
+                }
+                _ => None,
+            }
+        }
+        Scope::Help => {
+            if let Some(Overlay::Help { scroll }) = s.overlay.as_mut() {
+                match a {
+                    Action::Down => *scroll = scroll.saturating_add(1),
+                    Action::Up => *scroll = scroll.saturating_sub(1),
+                    _ => s.overlay = None,
+                }
+            }
+            None
+        }
+    }
+}
+
+fn act_form(s: &mut State, a: Action) -> Option<Effect> {
+    let Some(Overlay::Form(f)) = s.overlay.as_mut() else {
+        return None;
+    };
+    match a {
+        Action::NextField => f.move_focus(1),
+        Action::PrevField => f.move_focus(-1),
+        Action::NextChoice => f.cycle(1),
+        Action::PrevChoice => f.cycle(-1),
+        Action::Cancel => {
+            s.overlay = None;
+            say(s, "form closed, nothing changed", Level::Info);
+        }
+        Action::Accept => match f.check(&s.targets) {
+            Err((field, msg)) => {
+                f.focus_on(&field);
+                f.error = Some((field, msg));
+            }
+            Ok(t) => {
+                let editing = f.editing.clone();
+                s.overlay = None;
+                let mut new = s.targets.clone();
+                let name = t.name.clone();
+                let what = match &editing {
+                    Some(old) => {
+                        match new.iter_mut().find(|x| &x.name == old) {
+                            Some(slot) => *slot = t,
+                            None => new.push(t),
+                        }
+                        format!("edited {name}")
+                    }
+                    None => {
+                        new.push(t);
+                        format!("added {name}")
+                    }
+                };
+                if new == s.targets {
+                    say(s, format!("{name}: nothing changed"), Level::Info);
+                    return None;
+                }
+                let e = change(s, new, what);
+                select_name(s, &name);
+                refresh_caution(s);
+                return e;
+            }
+        },
+        _ => {}
+    }
+    None
+}
+
+fn act_main(s: &mut State, a: Action) -> Option<Effect> {
+    let page = s.list_rows().max(1) as i64;
+    let sel = s.sel as i64;
+    match a {
+        Action::Quit => {
+            if s.dirty() {
+                s.overlay = Some(Overlay::Question(Question::Quit));
+            } else {
+                s.quit = true;
+            }
+            None
+        }
+        Action::QuitDiscard => {
+            s.quit = true;
+            None
+        }
+        Action::Help => {
+            s.overlay = Some(Overlay::Help { scroll: 0 });
+            None
+        }
+        Action::NextView => {
+            s.view = s.view.step(1);
+            season_effect(s)
+        }
+        Action::PrevView => {
+            s.view = s.view.step(-1);
+            season_effect(s)
+        }
+        Action::ShowRoster => {
+            s.view = View::Roster;
+            None
+        }
+        Action::ShowTonight => {
+            s.view = View::Tonight;
+            None
+        }
+        Action::ShowSeason => {
+            s.view = View::Season;
+            season_effect(s)
+        }
+        Action::ShowBudget => {
+            s.view = View::Budget;
+            season_effect(s)
+        }
+        Action::Export => export(s),
+        Action::ShowParallax => {
+            s.view = View::Parallax;
+            season_effect(s)
+        }
+        Action::ShowPhase => {
+            s.view = View::Phase;
+            season_effect(s)
+        }
+        Action::ShowChase => {
+            s.view = View::Chase;
+            season_effect(s)
+        }
+        Action::Instruments => {
+            let sel = s
+                .instruments
+                .iter()
+                .position(|x| *x == s.instrument)
+                .unwrap_or(0);
+            s.overlay = Some(Overlay::Instruments { sel });
+            None
+        }
+        Action::Up => move_sel(s, sel - 1),
+        Action::Down => move_sel(s, sel + 1),
+        Action::PageUp => move_sel(s, sel - page),
+        Action::PageDown => move_sel(s, sel + page),
+        Action::Top => move_sel(s, 0),
+        Action::Bottom => move_sel(s, i64::MAX / 2),
+        Action::NightBack => step_days(s, -1),
+        Action::NightFwd => step_days(s, 1),
+        Action::WeekBack => step_days(s, -7),
+        Action::WeekFwd => step_days(s, 7),
+        Action::MonthBack => step_months(s, -1),
+        Action::MonthFwd => step_months(s, 1),
+        Action::Today => {
+            let d = night_date(&s.site, s.now);
+            set_date(s, Some(d))
+        }
+        Action::Live => {
+            s.live = !s.live;
+            if s.live {
+                say(s, "live: following the clock", Level::Info);
+                let d = night_date(&s.site, s.now);
+                if d != s.date {
+                    return set_date(s, Some(d));
+                }
+            } else {
+                say(s, "live off", Level::Info);
+            }
+            None
+        }
+        Action::Filter => {
+            s.filtering = true;
+            None
+        }
+        Action::Sort => {
+            s.sort = s.sort.next();
+            s.reorder();
+            say(s, format!("sorted by {}", s.sort.label()), Level::Info);
+            season_effect(s)
+        }
+        Action::SortReverse => {
+            s.sort_rev = !s.sort_rev;
+            s.reorder();
+            season_effect(s)
+        }
+        Action::Add => {
+            s.overlay = Some(Overlay::Form(Box::new(Form::blank())));
+            None
+        }
+        Action::Edit => {
+            if let Some(t) = s.selected() {
+                s.overlay = Some(Overlay::Form(Box::new(Form::from_target(t))));
+            }
+            None
+        }
+        Action::Remove => {
+            if let Some(t) = s.selected() {
+                s.overlay = Some(Overlay::Question(Question::Remove(t.name.clone())));
+            }
+            None
+        }
+        Action::Undo => match s.undo.pop() {
+            Some(prev) => {
+                let keep = s.selected().map(|t| t.name.clone());
+                let cur = std::mem::replace(&mut s.targets, prev);
+                s.redo.push(cur);
+                s.season.hours.clear();
+                after_change(s, "undone".into(), keep)
+            }
+            None => {
+                say(s, "nothing to undo", Level::Info);
+                None
+            }
+        },
+        Action::Redo => match s.redo.pop() {
+            Some(next) => {
+                let keep = s.selected().map(|t| t.name.clone());
+                let cur = std::mem::replace(&mut s.targets, next);
+                s.undo.push(cur);
+                s.season.hours.clear();
+                after_change(s, "redone".into(), keep)
+            }
+            None => {
+                say(s, "nothing to redo", Level::Info);
+                None
+            }
+        },
+        Action::Save => save(s),
+        Action::Sites => {
+            let sel = s
+                .sites
+                .iter()
+                .position(|x| x.name == s.site.name)
+                .unwrap_or(0);
+            s.overlay = Some(Overlay::Sites { sel });
+            None
+        }
+        Action::SeasonStep => {
+            s.season_step_days = if s.season_step_days == 7 { 1 } else { 7 };
+            say(
+                s,
+                format!("season: every {} night(s)", s.season_step_days),
+                Level::Info,
+            );
+            season_effect(s)
+        }
+        Action::MinAltUp | Action::MinAltDown => {
+            let d = if a == Action::MinAltUp { 5.0 } else { -5.0 };
+            let v = (s.limits.min_alt_deg + d).clamp(0.0, 85.0);
+            if let Ok(l) = Limits::new(v, s.limits.sun_alt_deg) {
+                s.limits = l;
+            }
+            say(s, format!("minimum altitude {v:.0}°"), Level::Info);
+            recompute(s)
+        }
+        _ => None,
+    }
+}
+
+/// Apply one message; return the side effect it asks for.
+pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
+    match msg {
+        Msg::Key(k) => {
+            if k.kind != KeyEventKind::Press {
+                return None;
+            }
+            let scope = s.scope();
+            if let Some(a) = keymap::lookup(scope, &k) {
+                return act(s, a);
+            }
+            let plain = !k
+                .modifiers
+                .intersects(KeyModifiers::CONTROL | KeyModifiers::ALT);
+            match (scope, k.code) {
+                (Scope::Form, KeyCode::Char(c)) if plain => {
+                    if let Some(Overlay::Form(f)) = s.overlay.as_mut() {
+                        f.type_char(c);
+                    }
+                    None
+                }
+                (Scope::Form, KeyCode::Backspace) => {
+                    if let Some(Overlay::Form(f)) = s.overlay.as_mut() {
+                        f.backspace();
+                    }
+                    None
+                }
+                (Scope::Filter, KeyCode::Char(c)) if plain => {
+                    s.filter.push(c);
+                    s.reorder();
+                    season_effect(s)
+                }
+                (Scope::Filter, KeyCode::Backspace) => {
+                    s.filter.pop();
+                    s.reorder();
+                    season_effect(s)
+                }
+                // Any other key closes a question with "no".
+                (Scope::Question, _) => {
+                    s.overlay = None;
+                    None
+                }
+                _ => None,
+            }
+        }
+        Msg::Act(a) => act(s, a),
+        Msg::Tick(t) => {
+            s.now = t;
+            refresh_sky(s);
+            if s.live {
+                let d = night_date(&s.site, t);
+                if d != s.date {
+                    s.date = d;
+                    return recompute(s);
+                }
+            }
+            None
+        }
+        Msg::Resize(w, h) => {
+            s.size = (w, h);
+            season_effect(s)
+        }
+        Msg::NightReady(d) => {
+            if d.generation == s.night_gen {
+                s.night = Some(*d);
+                s.night_error = None;
+                s.reorder();
+            }
+            None
+        }
+        Msg::NightFailed(e) => {
+            say(s, format!("night not computed: {e}"), Level::Warn);
+            s.night_error = Some(e);
+            None
+        }
+        Msg::SeasonReady(r) => {
+            if s.season.key.as_ref() == Some(&r.key) {
+                s.season.nights = Some(r.nights);
+                for (name, h) in r.rows {
+                    s.season.pending.remove(&name);
+                    s.season.hours.insert(name, h);
+                }
+                s.season.error = None;
+            }
+            season_effect(s)
+        }
+        Msg::SeasonFailed(key, e) => {
+            if s.season.key.as_ref() == Some(&key) {
+                s.season.pending.clear();
+                s.season.error = Some(e);
+            }
+            None
+        }
+        Msg::Saved(Ok(p)) => {
+            s.programme.source = Some(p.clone());
+            s.programme.save_path = p.clone();
+            s.programme.is_demo = false;
+            s.programme.original = None;
+            s.saved = s.targets.clone();
+            say(s, format!("saved {}", p.display()), Level::Good);
+            None
+        }
+        Msg::BudgetReady(k, r) => {
+            if s.budget_pending.as_ref() == Some(&*k) {
+                s.budget_pending = None;
+            }
+            if *k == s.budget_key() {
+                s.budget = Some((*k, r));
+            }
+            None
+        }
+        Msg::Exported(Ok(files)) => {
+            let names: Vec<String> = files.iter().map(|p| p.display().to_string()).collect();
+            say(s, format!("exported {}", names.join(", ")), Level::Good);
+            None
+        }
+        Msg::Exported(Err(e)) => {
+            say(s, format!("NOT exported: {e}"), Level::Warn);
+            None
+        }
+        Msg::MethodReady(r) => {
+            if s.method_pending.as_ref() == Some(&r.key) {
+                s.method_pending = None;
+            }
+            if s.method_key().as_ref() == Some(&r.key) {
+                s.method = Some(*r);
+            }
+            None
+        }
+        Msg::Saved(Err(e)) => {
+            say(s, format!("NOT saved: {e}"), Level::Warn);
+            None
+        }
+    }
+}

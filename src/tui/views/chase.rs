@@ -1,0 +1,183 @@
+//! Chase: a transient's follow-up timeline (from `TransientMethod::chase`):
+//! night by night the window, the rest-frame phase, the expected magnitude, the
+//! exposure, the Moon, and which nights the chosen cadence observes.
+
+use crate::tui::state::{MethodBody, State};
+use crate::tui::views::fmt::{fit, hm, put, rfit};
+use crate::tui::views::phase::verdict_text;
+use ratatui::buffer::Buffer;
+use ratatui::layout::Rect;
+
+/// Draw the Chase view.
+pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
+    let th = &s.theme;
+    if area.height < 8 || area.width < 40 {
+        put(
+            buf,
+            area.x,
+            area.y,
+            "Chase: window too small",
+            area.width,
+            th.dim(),
+        );
+        return;
+    }
+    let name = s.selected().map(|t| t.name.clone()).unwrap_or_default();
+    let c = match s.method_now() {
+        None => {
+            put(
+                buf,
+                area.x,
+                area.y,
+                &format!("Chase · {name}"),
+                area.width,
+                th.title(),
+            );
+            put(
+                buf,
+                area.x,
+                area.y + 2,
+                "computing the chase…",
+                area.width,
+                th.dim(),
+            );
+            return;
+        }
+        Some(MethodBody::Chase(c)) => c,
+        Some(MethodBody::NotApplicable(m)) | Some(MethodBody::Failed(m)) => {
+            put(
+                buf,
+                area.x,
+                area.y,
+                &format!("Chase · {name}"),
+                area.width,
+                th.title(),
+            );
+            put(buf, area.x, area.y + 2, m, area.width, th.notice());
+            return;
+        }
+        Some(_) => return,
+    };
+    let d = &c.design;
+    let cadence = if d.cadence_days == 1 {
+        "every night".to_string()
+    } else {
+        format!("every {} nights", d.cadence_days)
+    };
+    put(
+        buf,
+        area.x,
+        area.y,
+        &format!(
+            "Chase · ✶ {name} · max {} ({} {:.1}) · {cadence}{} · goal {:.0}%",
+            c.t_max.local(&s.site.timezone).format("%Y-%m-%d"),
+            c.band,
+            c.placement.params.m_max,
+            if d.dense_around_max {
+                " + dense near max"
+            } else {
+                ""
+            },
+            c.goal_pct
+        ),
+        area.width,
+        th.title(),
+    );
+    let cols: [(&str, usize, bool); 8] = [
+        ("night", 10, false),
+        ("window", 11, false),
+        ("phase", 7, true),
+        ("mag", 5, true),
+        ("exp s", 6, true),
+        ("airm", 5, true),
+        ("Moon", 5, true),
+        ("plan", 5, false),
+    ];
+    let line = |v: [String; 8]| -> String {
+        v.iter()
+            .zip(cols.iter())
+            .map(|(t, (_, w, r))| if *r { rfit(t, *w) } else { fit(t, *w) })
+            .collect::<Vec<_>>()
+            .join(" ")
+    };
+    let head = line(cols.map(|c| c.0.to_string()));
+    put(buf, area.x, area.y + 1, &head, area.width, th.header());
+    let foot = 3u16;
+    let rows = area.height.saturating_sub(2 + foot) as usize;
+    for (k, n) in c.nights.iter().take(rows).enumerate() {
+        let y = area.y + 2 + k as u16;
+        let w = match (n.window_start, n.window_end) {
+            (Some(a), Some(b)) => format!("{}-{}", hm(Some(a), &s.site), hm(Some(b), &s.site)),
+            _ => "none".into(),
+        };
+        let plan = if n.planned {
+            "● obs"
+        } else if n.usable {
+            "○"
+        } else {
+            "—"
+        };
+        let text = line([
+            n.night.format("%a %b %d").to_string(),
+            w,
+            n.phase_days
+                .map(|p| format!("{p:+.1}d"))
+                .unwrap_or("—".into()),
+            n.expected_mag
+                .map(|m| format!("{m:.1}"))
+                .unwrap_or("—".into()),
+            n.exptime_s.map(|e| format!("{e:.0}")).unwrap_or("—".into()),
+            n.best_airmass
+                .map(|x| format!("{x:.2}"))
+                .unwrap_or("—".into()),
+            format!("{:.0}°", n.moon_separation_deg),
+            plan.to_string(),
+        ]);
+        let st = if n.planned { th.text() } else { th.dim() };
+        let end = put(buf, area.x, y, &text, area.width, st);
+        let extra = if !n.cautions.is_empty() {
+            Some(("☼ Sun".to_string(), th.warn()))
+        } else {
+            n.reason.clone().map(|r| (r, th.dim()))
+        };
+        if let Some((t, st)) = extra {
+            let x = end + 1;
+            if x < area.x + area.width {
+                put(buf, x, y, &t, area.x + area.width - x, st);
+            }
+        }
+    }
+    let fy = area.y + area.height - foot;
+    let buy = match &d.budget {
+        Some(b) => format!(
+            "σd/d {:.1}% (floor {:.1}%) · {} epochs · {:.1} h · {}",
+            b.distance_precision_pct,
+            b.floor_pct,
+            d.epochs.len(),
+            d.hours_needed,
+            verdict_text(&c.verdict)
+        ),
+        None => format!(
+            "{} epochs do not fix the light curve · {}",
+            d.epochs.len(),
+            verdict_text(&c.verdict)
+        ),
+    };
+    put(buf, area.x, fy, &buy, area.width, th.text());
+    put(
+        buf,
+        area.x,
+        fy + 1,
+        "● planned by the cadence  ○ usable  — not usable (reason beside it)",
+        area.width,
+        th.dim(),
+    );
+    let note = c
+        .cautions
+        .first()
+        .map(|n| (format!("☼ {n}"), th.warn()))
+        .or_else(|| c.notes.first().map(|n| (n.clone(), th.dim())));
+    if let Some((n, st)) = note {
+        put(buf, area.x, fy + 2, &n, area.width, st);
+    }
+}

@@ -1,0 +1,83 @@
+//! Small text helpers shared by the views (formatting only).
+
+use crate::astro::site::Site;
+use crate::astro::time::Instant;
+use ratatui::buffer::Buffer;
+use ratatui::layout::Rect;
+use ratatui::style::Style;
+
+/// Local HH:MM of an instant at a site, or "—".
+pub fn hm(t: Option<Instant>, site: &Site) -> String {
+    t.map(|t| t.local(&site.timezone).format("%H:%M").to_string())
+        .unwrap_or_else(|| "—".into())
+}
+
+/// UTC HH:MM.
+pub fn hm_utc(t: Instant) -> String {
+    t.round_to_second()
+        .to_datetime()
+        .format("%H:%M")
+        .to_string()
+}
+
+/// Right ascension in hours, minutes, seconds.
+pub fn ra_text(ra_deg: f64) -> String {
+    let s = (ra_deg.rem_euclid(360.0) / 15.0 * 3600.0).round() as i64 % 86_400;
+    format!("{:02}:{:02}:{:02}", s / 3600, s / 60 % 60, s % 60)
+}
+
+/// Declination in degrees, arcminutes, arcseconds.
+pub fn dec_text(dec_deg: f64) -> String {
+    let sign = if dec_deg < 0.0 { '-' } else { '+' };
+    let s = (dec_deg.abs() * 3600.0).round() as i64;
+    format!("{sign}{:02}:{:02}:{:02}", s / 3600, s / 60 % 60, s % 60)
+}
+
+/// A number with `dp` decimals, or "—".
+pub fn num(v: Option<f64>, dp: usize) -> String {
+    v.map(|x| format!("{x:.dp$}")).unwrap_or_else(|| "—".into())
+}
+
+/// Write `text` at (x, y) cut to `w` cells; returns the column after it.
+pub fn put(buf: &mut Buffer, x: u16, y: u16, text: &str, w: u16, style: Style) -> u16 {
+    if w == 0 {
+        return x;
+    }
+    buf.set_stringn(x, y, text, w as usize, style).0
+}
+
+/// Pad or cut `s` to exactly `w` characters.
+pub fn fit(s: &str, w: usize) -> String {
+    let n = s.chars().count();
+    if n > w {
+        let mut c: String = s.chars().take(w.saturating_sub(1)).collect();
+        if w > 0 {
+            c.push('…');
+        }
+        c
+    } else {
+        format!("{s}{}", " ".repeat(w - n))
+    }
+}
+
+/// Right-align `s` in `w` characters.
+pub fn rfit(s: &str, w: usize) -> String {
+    let n = s.chars().count();
+    if n >= w {
+        fit(s, w)
+    } else {
+        format!("{}{s}", " ".repeat(w - n))
+    }
+}
+
+/// A centred rectangle of at most `w × h` inside `area`.
+pub fn centered(area: Rect, w: u16, h: u16) -> Rect {
+    let w = w.min(area.width);
+    let h = h.min(area.height);
+    Rect::new(
+        area.x + (area.width - w) / 2,
+        area.y + (area.height - h) / 2,
+        w,
+        h,
+    )
+}

@@ -1,0 +1,238 @@
+//! The views and the chrome around them. Every function here only reads the
+//! state and writes cells: nothing is computed that the library did not cache.
+
+pub mod budget;
+pub mod chart;
+pub mod chase;
+pub mod fmt;
+pub mod overlays;
+pub mod parallax;
+pub mod phase;
+pub mod roster;
+pub mod season;
+pub mod tonight;
+
+use crate::tui::keymap::{Scope, keys_for};
+use crate::tui::msg::Action;
+use crate::tui::state::{Level, Overlay, State, View};
+use fmt::{hm, hm_utc, put};
+use ratatui::buffer::Buffer;
+use ratatui::layout::Rect;
+
+/// The status line: site, UTC and local time, Sun altitude, Moon phase and rise/set.
+pub fn status_text(s: &State, width: u16) -> String {
+    let local = s.now.local(&s.site.timezone).format("%H:%M").to_string();
+    let sun = s
+        .sky
+        .as_ref()
+        .map(|k| format!("Sun {:+.1}°", k.sun_alt_deg))
+        .unwrap_or_else(|| "Sun —".into());
+    let moon = s.sky.as_ref().map(|k| {
+        (
+            k.moon_illumination * 100.0,
+            k.moon_waxing,
+            k.moon_alt_deg > 0.0,
+        )
+    });
+    let ev = s.night.as_ref().map(|n| &n.events);
+    let rise = ev.map(|e| hm(e.moonrise.t, &s.site)).unwrap_or("…".into());
+    let set = ev.map(|e| hm(e.moonset.t, &s.site)).unwrap_or("…".into());
+    let live = if s.live { "  LIVE" } else { "" };
+    let long = match moon {
+        Some((pct, wax, up)) => format!(
+            "{}  UTC {}  local {}  {}  Moon {:.0}% {} ({}), rise {} set {}{}",
+            s.site.name,
+            hm_utc(s.now),
+            local,
+            sun,
+            pct,
+            if wax { "waxing" } else { "waning" },
+            if up { "up" } else { "down" },
+            rise,
+            set,
+            live
+        ),
+        None => format!(
+            "{}  UTC {}  local {}  {}{}",
+            s.site.name,
+            hm_utc(s.now),
+            local,
+            sun,
+            live
+        ),
+    };
+    if long.chars().count() <= width as usize {
+        return long;
+    }
+    match moon {
+        Some((pct, wax, _)) => format!(
+            "{}  UTC {}  local {}  {}  Moon {:.0}%{} r{} s{}{}",
+            s.site.name,
+            hm_utc(s.now),
+            local,
+            sun,
+            pct,
+            if wax { "+" } else { "-" },
+            rise,
+            set,
+            live
+        ),
+        None => long,
+    }
+}
+
+fn status(s: &State, area: Rect, buf: &mut Buffer) {
+    let th = &s.theme;
+    buf.set_style(area, th.selected());
+    put(
+        buf,
+        area.x,
+        area.y,
+        &status_text(s, area.width),
+        area.width,
+        th.selected(),
+    );
+}
+
+fn tabs(s: &State, area: Rect, buf: &mut Buffer) {
+    let th = &s.theme;
+    let mut x = area.x;
+    let roomy = area.width >= 100;
+    for (i, v) in View::ALL.iter().enumerate() {
+        let label = if roomy {
+            format!(" {} {} ", i + 1, v.title())
+        } else if *v == s.view {
+            format!("{} {}", i + 1, v.title())
+        } else {
+            // Narrow screens: the other views by number and their first three letters.
+            format!("{} {}", i + 1, &v.title()[..3])
+        };
+        if i > 0 && !roomy {
+            x = put(buf, x, area.y, " ", 1, th.dim());
+        }
+        let st = if *v == s.view {
+            th.selected().patch(th.title())
+        } else {
+            th.dim()
+        };
+        x = put(
+            buf,
+            x,
+            area.y,
+            &label,
+            area.width.saturating_sub(x - area.x),
+            st,
+        );
+        if roomy {
+            x = put(buf, x, area.y, "│", 1, th.dim());
+        }
+    }
+    let file = if s.programme.is_demo {
+        "demo".to_string()
+    } else {
+        s.programme
+            .save_path
+            .file_name()
+            .map(|f| f.to_string_lossy().to_string())
+            .unwrap_or_default()
+    };
+    let night = if roomy {
+        format!(" night {} ", s.date.format("%a %Y-%m-%d"))
+    } else {
+        format!("  {} ", s.date.format("%Y-%m-%d"))
+    };
+    let rest = |x: u16| area.width.saturating_sub(x - area.x);
+    x = put(buf, x, area.y, &night, rest(x), th.text());
+    if s.dirty() {
+        x = put(buf, x, area.y, "● unsaved ", rest(x), th.notice());
+    }
+    put(buf, x, area.y, &file, rest(x), th.dim());
+}
+
+/// The bottom line: the filter being typed, the last message, or the main keys.
+pub fn bottom_text(s: &State) -> (String, Level) {
+    if s.filtering {
+        return (
+            format!(
+                "filter: {}▏  ({} keep · {} clear)",
+                s.filter,
+                keys_for(Scope::Filter, Action::Accept),
+                keys_for(Scope::Filter, Action::Cancel)
+            ),
+            Level::Info,
+        );
+    }
+    if let Some((m, l)) = &s.message {
+        return (m.clone(), *l);
+    }
+    let k = |a| keys_for(Scope::Main, a);
+    (
+        format!(
+            "{} keys · {} quit · ← → night · {} filter · {} add · {} edit · {} save · {} site",
+            k(Action::Help),
+            keys_for(Scope::Main, Action::Quit)
+                .split(' ')
+                .next()
+                .unwrap_or("q"),
+            k(Action::Filter),
+            k(Action::Add),
+            keys_for(Scope::Main, Action::Edit)
+                .split(' ')
+                .next()
+                .unwrap_or("e"),
+            k(Action::Save).split(' ').next().unwrap_or("w"),
+            k(Action::Sites),
+        ),
+        Level::Info,
+    )
+}
+
+fn bottom(s: &State, area: Rect, buf: &mut Buffer) {
+    let (text, level) = bottom_text(s);
+    let st = match level {
+        Level::Info => s.theme.dim(),
+        Level::Good => s.theme.good(),
+        Level::Warn => s.theme.warn(),
+    };
+    put(buf, area.x, area.y, &text, area.width, st);
+}
+
+/// Draw the whole screen into `buf`.
+pub fn render_all(s: &State, area: Rect, buf: &mut Buffer) {
+    if area.height < 4 || area.width < 20 {
+        put(
+            buf,
+            area.x,
+            area.y,
+            "rung: terminal too small",
+            area.width,
+            s.theme.warn(),
+        );
+        return;
+    }
+    status(s, Rect::new(area.x, area.y, area.width, 1), buf);
+    tabs(s, Rect::new(area.x, area.y + 1, area.width, 1), buf);
+    let body = Rect::new(area.x, area.y + 2, area.width, area.height - 3);
+    match s.view {
+        View::Roster => roster::render(s, body, buf),
+        View::Tonight => tonight::render(s, body, buf),
+        View::Season => season::render(s, body, buf),
+        View::Parallax => parallax::render(s, body, buf),
+        View::Phase => phase::render(s, body, buf),
+        View::Chase => chase::render(s, body, buf),
+        View::Budget => budget::render(s, body, buf),
+    }
+    bottom(
+        s,
+        Rect::new(area.x, area.y + area.height - 1, area.width, 1),
+        buf,
+    );
+    match &s.overlay {
+        None => {}
+        Some(Overlay::Help { scroll }) => overlays::help(s, *scroll, body, buf),
+        Some(Overlay::Form(f)) => overlays::form(s, f, body, buf),
+        Some(Overlay::Sites { sel }) => overlays::sites(s, *sel, body, buf),
+        Some(Overlay::Instruments { sel }) => overlays::instruments(s, *sel, body, buf),
+        Some(Overlay::Question(q)) => overlays::question(s, q, body, buf),
+    }
+}

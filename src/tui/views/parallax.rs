@@ -1,0 +1,207 @@
+//! Parallax: the parallax factors in RA and Dec through the coming years
+//! (from `ParallaxMethod::plan`), the observable and candidate nights, the
+//! chosen epochs, and the precision they buy.
+
+use crate::tui::state::{MethodBody, PARALLAX_MONTHS, State};
+use crate::tui::views::chart::Braille;
+use crate::tui::views::fmt::put;
+use crate::tui::views::phase::verdict_text;
+use chrono::Datelike;
+use ratatui::buffer::Buffer;
+use ratatui::layout::Rect;
+
+/// Draw the Parallax view.
+pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
+    let th = &s.theme;
+    if area.height < 12 || area.width < 40 {
+        put(
+            buf,
+            area.x,
+            area.y,
+            "Parallax: window too small",
+            area.width,
+            th.dim(),
+        );
+        return;
+    }
+    let name = s.selected().map(|t| t.name.clone()).unwrap_or_default();
+    let p = match s.method_now() {
+        None => {
+            put(
+                buf,
+                area.x,
+                area.y,
+                &format!("Parallax · {name}"),
+                area.width,
+                th.title(),
+            );
+            put(
+                buf,
+                area.x,
+                area.y + 2,
+                "computing the parallax factors and epochs…",
+                area.width,
+                th.dim(),
+            );
+            return;
+        }
+        Some(MethodBody::Parallax(p)) => p,
+        Some(MethodBody::NotApplicable(m)) | Some(MethodBody::Failed(m)) => {
+            put(
+                buf,
+                area.x,
+                area.y,
+                &format!("Parallax · {name}"),
+                area.width,
+                th.title(),
+            );
+            put(buf, area.x, area.y + 2, m, area.width, th.notice());
+            return;
+        }
+        Some(_) => return,
+    };
+    put(
+        buf,
+        area.x,
+        area.y,
+        &format!(
+            "Parallax · ◆ {name} · ϖ {:.1} mas · {} years from {} · ellipse {:.1}×{:.1} mas",
+            p.parallax_mas,
+            PARALLAX_MONTHS / 12,
+            s.date,
+            p.ellipse.semi_major_mas,
+            p.ellipse.semi_minor_mas
+        ),
+        area.width,
+        th.title(),
+    );
+    let nights = &p.series.nights;
+    if nights.is_empty() {
+        return;
+    }
+    let foot = 4u16;
+    let label_w = 5u16;
+    let chart_h = area.height - 1 - 3 - foot; // title, strip + epochs + axis, footer
+    let cw = area.width - label_w;
+    let cx = area.x + label_w;
+    let cy = area.y + 1;
+    let n = nights.len();
+    let col_of = |i: usize| -> u16 { ((i as f64 + 0.5) / n as f64 * cw as f64) as u16 };
+    // Factor −1..+1 au on the y axis.
+    let dots = chart_h as f64 * 4.0 - 1.0;
+    let y_of = |f: f64| -> i64 { ((1.0 - f.clamp(-1.0, 1.0)) / 2.0 * dots).round() as i64 };
+    for (v, label) in [(1.0, "+1"), (0.0, " 0"), (-1.0, "-1")] {
+        put(
+            buf,
+            area.x,
+            cy + (y_of(v) / 4) as u16,
+            &format!("{label} au"),
+            label_w,
+            th.dim(),
+        );
+    }
+    let zero = (y_of(0.0) / 4) as u16;
+    for c in 0..cw {
+        if let Some(cell) = buf.cell_mut((cx + c, cy + zero)) {
+            cell.set_char('┄');
+            cell.set_style(th.dim());
+        }
+    }
+    let mut br = Braille::new(cw, chart_h);
+    let dw = br.dots_w();
+    for d in 0..dw {
+        let i = ((d as f64 + 0.5) / dw as f64 * n as f64) as usize;
+        let nf = &nights[i.min(n - 1)];
+        br.dot(d as i64, y_of(nf.pf_ra), th.series_target());
+        if d % 2 == 0 {
+            br.dot(d as i64, y_of(nf.pf_dec), th.series_moon());
+        }
+    }
+    br.render(Rect::new(cx, cy, cw, chart_h), buf);
+    // Strip: candidate (large factor, observable), observable, neither.
+    let sy = cy + chart_h;
+    for c in 0..cw {
+        let i0 = (c as f64 / cw as f64 * n as f64) as usize;
+        let i1 = (((c + 1) as f64 / cw as f64 * n as f64) as usize)
+            .max(i0 + 1)
+            .min(n);
+        let slice = &nights[i0.min(n - 1)..i1];
+        let g = if slice.iter().any(|x| x.candidate) {
+            '█'
+        } else if slice.iter().any(|x| x.observable) {
+            '▒'
+        } else {
+            '·'
+        };
+        if let Some(cell) = buf.cell_mut((cx + c, sy)) {
+            cell.set_char(g);
+            cell.set_style(if g == '█' { th.limit() } else { th.dim() });
+        }
+    }
+    put(buf, area.x, sy, "sky", label_w, th.dim());
+    // Epochs.
+    put(buf, area.x, sy + 1, "epoch", label_w, th.dim());
+    for e in &p.epochs {
+        if let Some(night) = e.night
+            && let Some(i) = nights.iter().position(|x| x.night == night)
+        {
+            let c = col_of(i).min(cw - 1);
+            if let Some(cell) = buf.cell_mut((cx + c, sy + 1)) {
+                cell.set_char('◆');
+                cell.set_style(th.now());
+            }
+        }
+    }
+    // Year and month labels.
+    let mut last_end = 0u16;
+    for (i, nf) in nights.iter().enumerate() {
+        let d = nf.night;
+        if d.day() != 1 || !(d.month() == 1 || d.month() == 7) {
+            continue;
+        }
+        let c = col_of(i);
+        let label = if d.month() == 1 {
+            format!("{}", d.year())
+        } else {
+            "Jul".to_string()
+        };
+        if c >= last_end && c + label.len() as u16 <= cw {
+            put(buf, cx + c, sy + 2, &label, label.len() as u16, th.dim());
+            last_end = c + label.len() as u16 + 1;
+        }
+    }
+    // What the epochs buy.
+    let fy = area.y + area.height - foot;
+    let pr = &p.prediction;
+    let sol = p
+        .solution
+        .as_ref()
+        .map(|x| format!("σϖ {:.2} mas → ", x.sigma_parallax_mas))
+        .unwrap_or_default();
+    put(
+        buf,
+        area.x,
+        fy,
+        &format!(
+            "{sol}σd/d {:.2}% · {} epochs in {} seasons · {:.1} h · {}",
+            pr.distance_precision_pct,
+            p.epochs.len(),
+            p.seasons_available,
+            pr.hours_needed,
+            verdict_text(&pr.verdict)
+        ),
+        area.width,
+        th.text(),
+    );
+    put(
+        buf,
+        area.x,
+        fy + 1,
+        "⣿ factor in RA  ⠂ in Dec  sky █ candidate ▒ observable · not  ◆ chosen epoch",
+        area.width,
+        th.dim(),
+    );
+    for (k, note) in pr.notes.iter().take(2).enumerate() {
+        put(buf, area.x, fy + 2 + k as u16, note, area.width, th.dim());
+    }
+}

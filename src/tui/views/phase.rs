@@ -1,0 +1,218 @@
+//! Phase: a pulsator's phase coverage over the coming nights (from
+//! `PulsatorMethod::analyse`), night by night, with the planned visits and what
+//! the points buy.
+
+use crate::ladder::Verdict;
+use crate::tui::state::{MethodBody, PHASE_NIGHTS, State};
+use crate::tui::views::fmt::{hm, put};
+use ratatui::buffer::Buffer;
+use ratatui::layout::Rect;
+
+/// A verdict in words.
+pub fn verdict_text(v: &Verdict) -> String {
+    match v {
+        Verdict::Reachable => "goal reachable".into(),
+        Verdict::LimitedByFloor { floor_pct } => format!("limited by a {floor_pct:.1}% floor"),
+        Verdict::NotObservable { when } => match when {
+            Some(w) => format!("not observable ({w})"),
+            None => "not observable".into(),
+        },
+        Verdict::NeedsMoreSeasons { seasons } => match seasons {
+            Some(n) => format!("needs {n} seasons"),
+            None => "needs more seasons".into(),
+        },
+    }
+}
+
+/// Draw the Phase view.
+pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
+    let th = &s.theme;
+    if area.height < 8 || area.width < 40 {
+        put(
+            buf,
+            area.x,
+            area.y,
+            "Phase: window too small",
+            area.width,
+            th.dim(),
+        );
+        return;
+    }
+    let name = s.selected().map(|t| t.name.clone()).unwrap_or_default();
+    let r = match s.method_now() {
+        None => {
+            put(
+                buf,
+                area.x,
+                area.y,
+                &format!("Phase · {name}"),
+                area.width,
+                th.title(),
+            );
+            put(
+                buf,
+                area.x,
+                area.y + 2,
+                "computing the phase coverage…",
+                area.width,
+                th.dim(),
+            );
+            return;
+        }
+        Some(MethodBody::Phase(r)) => r,
+        Some(MethodBody::NotApplicable(m)) | Some(MethodBody::Failed(m)) => {
+            put(
+                buf,
+                area.x,
+                area.y,
+                &format!("Phase · {name}"),
+                area.width,
+                th.title(),
+            );
+            put(buf, area.x, area.y + 2, m, area.width, th.notice());
+            return;
+        }
+        Some(_) => return,
+    };
+    let e = &r.star.ephemeris;
+    put(
+        buf,
+        area.x,
+        area.y,
+        &format!(
+            "Phase · ∿ {name} · P {:.4} d · {PHASE_NIGHTS} nights from {} · {}",
+            e.period_d, s.date, s.instrument
+        ),
+        area.width,
+        th.title(),
+    );
+    // Bin coverage of the plan.
+    let p = &r.plan;
+    let mut bins = String::new();
+    for b in 0..p.bins {
+        bins.push(if p.missing_bins.contains(&b) {
+            '·'
+        } else {
+            '█'
+        });
+    }
+    let stale = if r.stale { "STALE" } else { "fresh" };
+    let line = format!(
+        "bins [{bins}] {}/{} in {} nights · σφ {:.4}→{:.4} cycles ({stale})",
+        p.bins_covered,
+        p.bins,
+        p.nights_needed(),
+        r.phase_sigma_start,
+        r.phase_sigma
+    );
+    put(
+        buf,
+        area.x,
+        area.y + 1,
+        &line,
+        area.width,
+        if r.stale { th.warn() } else { th.text() },
+    );
+    // Night rows: window and the phases it reaches, on a 0..1 strip.
+    let strip_x = area.x + 24;
+    let sw = area.width.saturating_sub(25).max(10);
+    let head = format!(
+        "{:<10} {:<12} φ 0{}1",
+        "night",
+        "window",
+        " ".repeat(sw as usize - 3)
+    );
+    put(buf, area.x, area.y + 2, &head, area.width, th.header());
+    for q in [0.25, 0.5, 0.75] {
+        let c = (q * sw as f64) as u16;
+        put(buf, strip_x + c, area.y + 2, "╷", 1, th.header());
+    }
+    let foot = 3u16;
+    let rows = area.height.saturating_sub(3 + foot) as usize;
+    for (k, w) in r.windows.iter().take(rows).enumerate() {
+        let y = area.y + 3 + k as u16;
+        let label = format!(
+            "{:<10} {}-{}",
+            w.night.format("%a %b %d"),
+            hm(Some(w.start), &s.site),
+            hm(Some(w.end), &s.site)
+        );
+        put(buf, area.x, y, &label, 24, th.text());
+        let mark = |buf: &mut Buffer, a: f64, b: f64| {
+            let c0 = (a * sw as f64).floor() as u16;
+            let c1 = ((b * sw as f64).ceil() as u16).min(sw);
+            for c in c0..c1.max(c0 + 1).min(sw) {
+                if let Some(cell) = buf.cell_mut((strip_x + c, y)) {
+                    cell.set_char('━');
+                    cell.set_style(th.series_target());
+                }
+            }
+        };
+        for c in 0..sw {
+            if let Some(cell) = buf.cell_mut((strip_x + c, y)) {
+                cell.set_char('·');
+                cell.set_style(th.dim());
+            }
+        }
+        if w.span_cycles >= 1.0 {
+            mark(buf, 0.0, 1.0);
+        } else if w.phase_end >= w.phase_start {
+            mark(buf, w.phase_start, w.phase_end);
+        } else {
+            mark(buf, w.phase_start, 1.0);
+            mark(buf, 0.0, w.phase_end);
+        }
+        for v in p
+            .visits
+            .iter()
+            .filter(|v| v.night == w.night && v.time >= w.start && v.time <= w.end)
+        {
+            let c = ((v.phase * sw as f64) as u16).min(sw - 1);
+            if let Some(cell) = buf.cell_mut((strip_x + c, y)) {
+                cell.set_char('◆');
+                cell.set_style(th.now());
+            }
+        }
+    }
+    if r.windows.is_empty() {
+        put(
+            buf,
+            area.x,
+            area.y + 3,
+            "no observable window in these nights",
+            area.width,
+            th.notice(),
+        );
+    }
+    // What the points buy.
+    let fy = area.y + area.height - foot;
+    let buy = match (&r.prediction, &r.budget) {
+        (Some(pr), b) => format!(
+            "σd/d {:.2}%{} · {:.1} h · {}",
+            pr.distance_precision_pct,
+            b.as_ref()
+                .map(|b| format!(" (floor {:.2}%, {:.0} pc)", b.floor_pct, b.distance_pc))
+                .unwrap_or_default(),
+            pr.hours_needed,
+            verdict_text(&pr.verdict)
+        ),
+        (None, _) => "no distance prediction (the star needs mean_mag)".into(),
+    };
+    put(buf, area.x, fy, &buy, area.width, th.text());
+    put(
+        buf,
+        area.x,
+        fy + 1,
+        "━ phases reached in the window  ◆ planned visit  · not reached",
+        area.width,
+        th.dim(),
+    );
+    let note = r
+        .cautions
+        .first()
+        .map(|c| (format!("☼ {c}"), th.warn()))
+        .or_else(|| r.notes.first().map(|n| (n.clone(), th.dim())));
+    if let Some((n, st)) = note {
+        put(buf, area.x, fy + 2, &n, area.width, st);
+    }
+}

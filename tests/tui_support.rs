@@ -1,0 +1,128 @@
+//! Shared helpers of the UI tests (also compiled on its own, with no tests).
+#![allow(dead_code)]
+
+use ratatui::Terminal;
+use ratatui::backend::TestBackend;
+use rung::astro::time::{Instant, parse_instant};
+use rung::io::sites;
+use rung::io::targets::{Target, load};
+use rung::tui::effects::{open, settle};
+use rung::tui::state::{Programme, State};
+use rung::tui::theme::Theme;
+use rung::tui::{Msg, Setup, draw};
+use std::path::{Path, PathBuf};
+
+/// The demo programme file.
+pub fn demo_file() -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("targets-demo/targets.csv")
+}
+
+/// The demo targets.
+pub fn demo_targets() -> Vec<Target> {
+    load(&demo_file()).unwrap().targets
+}
+
+/// 2026-12-02T01:00:00Z: 22:00 local at the demo site, in the night of 2026-12-01.
+pub fn test_now() -> Instant {
+    parse_instant("2026-12-02T01:00:00Z").unwrap()
+}
+
+/// A state on the demo programme, night of 2026-12-01 at pampa-lucero, fully computed.
+/// Saves go to `save_path`; `source` is the file the programme came from.
+pub fn state_with(
+    targets: Vec<Target>,
+    source: Option<PathBuf>,
+    save_path: PathBuf,
+    is_demo: bool,
+    size: (u16, u16),
+    color: bool,
+) -> State {
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let original = source.as_ref().and_then(|p| std::fs::read(p).ok());
+    open(Setup {
+        sites: sites::catalogue().unwrap(),
+        site,
+        date: Some(chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap()),
+        now: test_now(),
+        targets,
+        programme: Programme {
+            source,
+            save_path,
+            is_demo,
+            refused_rows: 0,
+            original: if is_demo { None } else { original },
+        },
+        size,
+        theme: Theme { color },
+        message: None,
+        instrument: rung::photometry::instrument::DEMO_INSTRUMENT.to_string(),
+        instruments: rung::photometry::instrument::catalogue()
+            .unwrap()
+            .into_iter()
+            .map(|i| i.name)
+            .collect(),
+    })
+}
+
+/// The demo state (saves would go to a path that is never written by these tests).
+pub fn demo_state(size: (u16, u16)) -> State {
+    state_with(
+        demo_targets(),
+        Some(demo_file()),
+        PathBuf::from("/nonexistent/rung-test/programme.csv"),
+        true,
+        size,
+        true,
+    )
+}
+
+/// Render the state at a size; the buffer's rows as strings.
+pub fn screen(s: &State, w: u16, h: u16) -> (Vec<String>, ratatui::buffer::Buffer) {
+    let mut term = Terminal::new(TestBackend::new(w, h)).unwrap();
+    term.draw(|f| draw(s, f)).unwrap();
+    let buf = term.backend().buffer().clone();
+    let mut rows = Vec::new();
+    for y in 0..h {
+        let mut line = String::new();
+        for x in 0..w {
+            line.push_str(buf[(x, y)].symbol());
+        }
+        rows.push(line);
+    }
+    (rows, buf)
+}
+
+/// Whether some row contains `needle`.
+pub fn has(rows: &[String], needle: &str) -> bool {
+    rows.iter().any(|r| r.contains(needle))
+}
+
+/// The first row containing `needle`.
+pub fn row_of<'a>(rows: &'a [String], needle: &str) -> &'a str {
+    rows.iter()
+        .find(|r| r.contains(needle))
+        .unwrap_or_else(|| panic!("no row with {needle:?} in\n{}", rows.join("\n")))
+}
+
+/// Send a key (and run everything it causes).
+pub fn key(s: &mut State, code: crossterm::event::KeyCode) {
+    settle(
+        s,
+        Msg::Key(crossterm::event::KeyEvent::new(
+            code,
+            crossterm::event::KeyModifiers::NONE,
+        )),
+    );
+}
+
+/// Send a character key.
+pub fn ch(s: &mut State, c: char) {
+    key(s, crossterm::event::KeyCode::Char(c));
+}
+
+/// Type text.
+pub fn typed(s: &mut State, text: &str) {
+    for c in text.chars() {
+        ch(s, c);
+    }
+}

@@ -1,0 +1,244 @@
+//! A scripted terminal run: the `rung` binary in a tmux session, through every
+//! view and overlay, then quit (q, Ctrl-C, and a panic), checking each time that
+//! the alternate screen was left and the tty is back in canonical mode.
+//! Skipped with a message when tmux is not installed.
+
+use std::path::Path;
+use std::process::Command;
+use std::time::{Duration, Instant};
+
+struct Tmux {
+    sock: std::path::PathBuf,
+    _dir: tempfile::TempDir,
+}
+
+impl Tmux {
+    fn start(cmd: &str) -> Option<Tmux> {
+        if !Command::new("tmux")
+            .arg("-V")
+            .output()
+            .is_ok_and(|o| o.status.success())
+        {
+            eprintln!("tmux is not installed: skipping the scripted terminal run");
+            return None;
+        }
+        let dir = tempfile::tempdir().unwrap();
+        let sock = dir.path().join("sock");
+        let t = Tmux { sock, _dir: dir };
+        let ok = t
+            .cmd(&[
+                "new-session",
+                "-d",
+                "-s",
+                "rung",
+                "-x",
+                "80",
+                "-y",
+                "24",
+                "sh",
+                "-c",
+                cmd,
+            ])
+            .status
+            .success();
+        assert!(ok, "tmux new-session failed");
+        Some(t)
+    }
+    fn cmd(&self, args: &[&str]) -> std::process::Output {
+        Command::new("tmux")
+            .arg("-S")
+            .arg(&self.sock)
+            .args(args)
+            .output()
+            .unwrap()
+    }
+    fn screen(&self) -> String {
+        String::from_utf8_lossy(&self.cmd(&["capture-pane", "-p", "-t", "rung"]).stdout).to_string()
+    }
+    fn send(&self, key: &str) {
+        self.cmd(&["send-keys", "-t", "rung", key]);
+    }
+    fn wait_for(&self, needle: &str) -> String {
+        let t0 = Instant::now();
+        loop {
+            let s = self.screen();
+            if s.contains(needle) {
+                return s;
+            }
+            assert!(
+                t0.elapsed() < Duration::from_secs(60),
+                "timed out waiting for {needle:?}; screen:\n{s}"
+            );
+            std::thread::sleep(Duration::from_millis(100));
+        }
+    }
+    fn wait_gone(&self, needle: &str) {
+        let t0 = Instant::now();
+        while self.screen().contains(needle) {
+            assert!(
+                t0.elapsed() < Duration::from_secs(30),
+                "{needle:?} stays on screen"
+            );
+            std::thread::sleep(Duration::from_millis(100));
+        }
+    }
+    fn alternate_on(&self) -> String {
+        String::from_utf8_lossy(
+            &self
+                .cmd(&["display-message", "-p", "-t", "rung", "#{alternate_on}"])
+                .stdout,
+        )
+        .trim()
+        .to_string()
+    }
+}
+
+impl Drop for Tmux {
+    fn drop(&mut self) {
+        let _ = self.cmd(&["kill-server"]);
+    }
+}
+
+fn command(cfg: &Path, extra_env: &str) -> String {
+    let bin = env!("CARGO_BIN_EXE_rung");
+    // After rung ends, the shell prints a marker, whether the tty is canonical again, and waits.
+    format!(
+        "RUNG_CONFIG_DIR='{}' NO_COLOR=1 {extra_env} '{bin}' tui --date 2026-12-01; \
+         echo RUNG-EXIT-$?; stty -a | tr ' ' '\\n' | grep -x -e icanon -e -icanon -e echo -e -echo | tr '\\n' ' '; echo; echo RUNG-TTY-DONE; sleep 120",
+        cfg.display()
+    )
+}
+
+fn assert_restored(t: &Tmux, exit: &str) {
+    t.wait_for(exit);
+    let s = t.wait_for("RUNG-TTY-DONE");
+    assert_eq!(t.alternate_on(), "0", "still on the alternate screen:\n{s}");
+    assert!(
+        !s.contains("Roster ·") && !s.contains("Season ·"),
+        "UI left on screen:\n{s}"
+    );
+    assert!(
+        s.contains("icanon echo") || s.contains("icanon") && !s.contains("-icanon"),
+        "tty not restored:\n{s}"
+    );
+    assert!(
+        !s.contains("-icanon") && !s.contains("-echo"),
+        "raw mode left on:\n{s}"
+    );
+}
+
+#[test]
+fn every_view_then_quit_restores_the_terminal() {
+    let cfg = tempfile::tempdir().unwrap();
+    let Some(t) = Tmux::start(&command(cfg.path(), "")) else {
+        return;
+    };
+    t.wait_for("Roster · 26 of 26 targets");
+    assert_eq!(t.alternate_on(), "1");
+    t.send("2");
+    t.wait_for("Tonight · ◆ LPO-P01 parallax");
+    let s = t.wait_for("Sun set");
+    assert!(s.contains("90°") && s.contains("┄┄┄"), "{s}");
+    t.send("3");
+    t.wait_for("Season · hours above 30°");
+    t.wait_for("LPO-P01: most");
+    t.send("Down");
+    t.wait_for("LPO-P02: most");
+    t.send("4");
+    t.wait_for("Parallax · ◆ LPO-P02");
+    t.wait_for("σd/d");
+    t.send("5");
+    t.wait_for("the Phase view is for pulsators");
+    t.send("6");
+    t.wait_for("the Chase view is for transients");
+    t.send("End");
+    t.wait_for("Chase · ✶ LPO-T2026b");
+    t.send("Up");
+    t.wait_for("● obs");
+    t.send("7");
+    t.wait_for("Budget · 12 months from 2026-12-01");
+    t.send("Tab");
+    t.wait_for("Roster · 26 of 26");
+    t.send("BTab");
+    t.wait_for("Budget · 12 months");
+    t.send("BTab");
+    t.wait_for("Chase · ✶ LPO-T2026a");
+    t.send("1");
+    t.wait_for("Roster · 26 of 26");
+    t.send("?");
+    t.wait_for("Keys (Esc closes");
+    t.send("Escape");
+    t.wait_gone("Keys (Esc closes");
+    t.send("p");
+    t.wait_for("sierra-alcaravan");
+    t.send("Escape");
+    t.wait_gone("sierra-alcaravan");
+    t.send("e");
+    t.wait_for("Edit LPO-T2026a");
+    t.send("Escape");
+    t.wait_gone("Edit LPO-T2026a");
+    // Resize: the UI redraws at the new size.
+    t.cmd(&["resize-window", "-t", "rung", "-x", "120", "-y", "30"]);
+    t.wait_for("trans");
+    t.send("q");
+    assert_restored(&t, "RUNG-EXIT-0");
+}
+
+#[test]
+fn ctrl_c_quits_and_restores_the_terminal() {
+    let cfg = tempfile::tempdir().unwrap();
+    let Some(t) = Tmux::start(&command(cfg.path(), "")) else {
+        return;
+    };
+    t.wait_for("Roster · 26 of 26 targets");
+    t.send("C-c");
+    assert_restored(&t, "RUNG-EXIT-0");
+}
+
+#[test]
+fn unsaved_changes_are_asked_about_on_ctrl_c() {
+    let cfg = tempfile::tempdir().unwrap();
+    let Some(t) = Tmux::start(&command(cfg.path(), "")) else {
+        return;
+    };
+    t.wait_for("Roster · 26 of 26 targets");
+    t.send("d");
+    t.wait_for("Remove LPO-P01");
+    t.send("y");
+    t.wait_for("● unsaved");
+    t.send("C-c");
+    t.wait_for("Quit without saving?");
+    t.send("n");
+    t.wait_gone("Quit without saving?");
+    t.send("w");
+    t.wait_for("saved /");
+    assert!(cfg.path().join("programme.csv").exists());
+    t.send("q");
+    assert_restored(&t, "RUNG-EXIT-0");
+}
+
+#[test]
+fn a_panic_restores_the_terminal() {
+    let cfg = tempfile::tempdir().unwrap();
+    let Some(t) = Tmux::start(&command(cfg.path(), "RUNG_TUI_TEST_PANIC=1")) else {
+        return;
+    };
+    let s = t.wait_for("RUNG-EXIT-101");
+    assert!(s.contains("panicking on purpose"), "{s}");
+    assert_restored(&t, "RUNG-EXIT-101");
+}
+
+#[test]
+fn without_a_terminal_rung_prints_tonights_table() {
+    let cfg = tempfile::tempdir().unwrap();
+    let out = Command::new(env!("CARGO_BIN_EXE_rung"))
+        .env("RUNG_CONFIG_DIR", cfg.path())
+        .output()
+        .unwrap();
+    assert!(out.status.success());
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        text.contains("Night of ") && text.contains("LPO-P01"),
+        "{text}"
+    );
+}

@@ -1,0 +1,604 @@
+//! Each view rendered into ratatui's TestBackend at 80×24 and 160×48, checked
+//! cell by cell against content computed here straight from the library
+//! (`Night::new`, `night.target`, `night.events`), so the screen must show
+//! exactly what the commands compute.
+
+#[path = "tui_support.rs"]
+mod support;
+
+use ratatui::style::Color;
+use rung::astro::night::{Limits, Night};
+use rung::io::sites;
+use rung::tui::keymap::{KEYMAP, Scope};
+use rung::tui::msg::Action;
+use rung::tui::state::View;
+use rung::tui::theme::hours_glyph;
+use support::*;
+
+fn local_hm(t: rung::astro::time::Instant) -> String {
+    let site = sites::resolve("pampa-lucero").unwrap();
+    t.local(&site.timezone).format("%H:%M").to_string()
+}
+
+fn demo_night() -> Night {
+    let site = sites::resolve("pampa-lucero").unwrap();
+    Night::new(&site, chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap()).unwrap()
+}
+
+fn limits() -> Limits {
+    Limits::new(30.0, -12.0).unwrap()
+}
+
+#[test]
+fn roster_80x24_shows_library_windows() {
+    let s = demo_state((80, 24));
+    let (rows, _) = screen(&s, 80, 24);
+    // Status line: site, UTC and local time (UTC−3 at the demo site), Sun, Moon.
+    assert!(
+        rows[0].starts_with("pampa-lucero  UTC 01:00  local 22:00  Sun "),
+        "{}",
+        rows[0]
+    );
+    assert!(rows[0].contains("Moon "), "{}", rows[0]);
+    assert!(
+        rows[1].contains("1 Roster")
+            && rows[1].contains("7 Bud")
+            && rows[1].contains(" 2026-12-01 "),
+        "{}",
+        rows[1]
+    );
+    assert!(rows[1].trim_end().ends_with("demo"), "{}", rows[1]);
+    assert!(rows[2].starts_with("Roster · 26 of 26 targets · by file order"));
+    assert!(rows[3].contains("name") && rows[3].contains("window") && rows[3].contains("airm"));
+    // File order, with 24 − 5 = 19 rows visible (status, tabs, title, header, message).
+    let night = demo_night();
+    let targets = demo_targets();
+    for (k, t) in targets.iter().take(19).enumerate() {
+        let r = &rows[4 + k];
+        assert!(r.contains(&t.name), "row {k}: {r}");
+        let tn = night.target(&t.place(), &limits());
+        let w = match tn.main_window() {
+            Some(w) => format!("{}-{}", local_hm(w.0), local_hm(w.1)),
+            None => "none".into(),
+        };
+        assert!(r.contains(&w), "{} window {w}: {r}", t.name);
+        if let Some(x) = tn.min_airmass {
+            assert!(
+                r.contains(&format!("{x:.2}")),
+                "{}: airmass {x:.2}: {r}",
+                t.name
+            );
+        }
+    }
+    assert!(
+        !has(&rows, &targets[19].name),
+        "row 20 must be off screen at 24 rows"
+    );
+    // The last row names the demo rule: saving goes to the user's own file.
+    assert!(rows[23].contains("demo programme: saving writes your own"));
+}
+
+#[test]
+fn roster_160x48_has_wide_columns_and_every_target() {
+    let s = demo_state((160, 48));
+    let (rows, _) = screen(&s, 160, 48);
+    assert!(rows[0].contains("Moon ") && rows[0].contains("waning") || rows[0].contains("waxing"));
+    for col in ["trans", "RA", "Dec", "prio", "notes"] {
+        assert!(rows[3].contains(col), "{col}: {}", rows[3]);
+    }
+    for t in demo_targets() {
+        assert!(has(&rows, &t.name), "{}", t.name);
+    }
+    // LPO-P01 sits at 00:48:00, −31:12:00 in the demo file.
+    let r = row_of(&rows, "LPO-P01");
+    assert!(r.contains("00:48:00") && r.contains("-31:12:00"), "{r}");
+    assert!(r.contains("nearby dwarf candidate"), "{r}");
+}
+
+#[test]
+fn tonight_80x24_chart_and_events() {
+    let mut s = demo_state((80, 24));
+    ch(&mut s, '2');
+    assert_eq!(s.view, View::Tonight);
+    let (rows, buf) = screen(&s, 80, 24);
+    assert!(rows[2].starts_with("Tonight · ◆ LPO-P01 parallax · night of 2026-12-01"));
+    // Altitude labels on the left, limit label on the right.
+    assert!(rows[3].starts_with("90°"), "{}", rows[3]);
+    assert!(has(&rows, " 0°"));
+    let lim = row_of(&rows, "┄┄┄┄");
+    assert!(
+        lim.starts_with("30°") && lim.trim_end().ends_with("30°"),
+        "{lim}"
+    );
+    // Braille curve cells and the current-time marker.
+    let braille = (0..80)
+        .flat_map(|x| (3..16).map(move |y| (x, y)))
+        .filter(|p| {
+            buf[*p]
+                .symbol()
+                .chars()
+                .next()
+                .is_some_and(|c| ('\u{2801}'..='\u{28FF}').contains(&c))
+        })
+        .count();
+    assert!(braille > 40, "only {braille} braille cells");
+    assert!(has(&rows, "now") && has(&rows, "│"));
+    // The twilight strip holds day, civil, nautical, astronomical and dark glyphs.
+    let strip = rows
+        .iter()
+        .find(|r| r.contains("▓") && r.contains("░"))
+        .unwrap();
+    for g in ['█', '▓', '▒', '░'] {
+        assert!(strip.contains(g), "{g} in {strip}");
+    }
+    // Events as the library computes them.
+    let night = demo_night();
+    let e = night.events();
+    let sky = row_of(&rows, "Sun set");
+    assert!(
+        sky.contains(&format!("Sun set {}", local_hm(e.sunset.t.unwrap()))),
+        "{sky}"
+    );
+    assert!(
+        sky.contains(&format!("rise {}", local_hm(e.sunrise.t.unwrap()))),
+        "{sky}"
+    );
+    let tn = night.target(&demo_targets()[0].place(), &limits());
+    let w = tn.main_window().unwrap();
+    let line = row_of(&rows, "window ");
+    assert!(
+        line.contains(&format!("window {}-{}", local_hm(w.0), local_hm(w.1))),
+        "{line}"
+    );
+    let tr = row_of(&rows, "transit ");
+    assert!(
+        tr.contains(&format!("transit {}", local_hm(tn.transit.t.unwrap()))),
+        "{tr}"
+    );
+    // Local hour labels under the chart.
+    let axis = rows
+        .iter()
+        .find(|r| r.contains("21") && r.contains("00") && r.contains("03"))
+        .unwrap();
+    assert!(
+        axis.trim_start().starts_with("20") || axis.trim_start().starts_with("19"),
+        "{axis}"
+    );
+}
+
+#[test]
+fn tonight_160x48_has_the_roster_beside_it() {
+    let mut s = demo_state((160, 48));
+    ch(&mut s, '2');
+    let (rows, _) = screen(&s, 160, 48);
+    assert!(rows[2].starts_with("Roster"), "{}", rows[2]);
+    assert!(rows[2][..].contains("Tonight · ◆ LPO-P01"));
+    for t in demo_targets().iter().take(20) {
+        assert!(has(&rows, &format!("{} ", t.name)), "{}", t.name);
+    }
+    assert!(has(&rows, "90°") && has(&rows, "Sun set"));
+}
+
+#[test]
+fn season_80x24_and_160x48_match_per_night_library_hours() {
+    for (w, h) in [(80u16, 24u16), (160, 48)] {
+        let mut s = demo_state((w, h));
+        ch(&mut s, '3');
+        assert_eq!(s.view, View::Season);
+        let (rows, _) = screen(&s, w, h);
+        assert!(
+            rows[2].starts_with(
+                "Season · hours above 30° with Sun below -12° · from 2026-12-01, every 7 nights"
+            ),
+            "{}",
+            rows[2]
+        );
+        assert!(rows[3].contains("Dec") && rows[3].contains("2027") && rows[3].contains("Jun"));
+        let shown = (h - 6) as usize;
+        let targets = demo_targets();
+        for t in targets.iter().take(shown.min(targets.len())) {
+            assert!(has(&rows, &format!(" {}", t.name)), "{}", t.name);
+        }
+        // First three columns of LPO-P02 against Night::new + night.target, nights 0, 7, 14.
+        let site = sites::resolve("pampa-lucero").unwrap();
+        let r = row_of(&rows, "LPO-P02");
+        let cells: Vec<char> = r.chars().skip(16).take(3).collect();
+        for (i, c) in cells.iter().enumerate() {
+            let d = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap()
+                + chrono::Days::new(7 * i as u64);
+            let hrs = Night::new(&site, d)
+                .unwrap()
+                .target(&targets[1].place(), &limits())
+                .observable_hours;
+            assert_eq!(*c, hours_glyph(hrs), "night {d}: {hrs} h");
+        }
+        assert!(rows[(h - 2) as usize].contains("█ ≥7 h"));
+        assert!(rows[(h - 2) as usize].contains("LPO-P01: most"));
+    }
+}
+
+#[test]
+fn help_overlay_is_drawn_from_the_key_table() {
+    let mut s = demo_state((160, 48));
+    ch(&mut s, '?');
+    let (rows, _) = screen(&s, 160, 48);
+    assert!(has(&rows, "Keys (Esc closes"));
+    for b in KEYMAP.iter().filter(|b| b.scope == Scope::Main) {
+        assert!(has(&rows, b.help), "help for {:?} missing", b.action);
+    }
+    let (small, _) = screen(&s, 80, 24);
+    assert!(has(&small, "— Everywhere —") && has(&small, "Roster view"));
+    // A key in the table changes what the overlay shows (same source).
+    assert!(
+        KEYMAP
+            .iter()
+            .any(|b| b.action == Action::Save && b.help == "save the programme")
+    );
+}
+
+#[test]
+fn form_picker_and_question_overlays() {
+    let mut s = demo_state((80, 24));
+    ch(&mut s, 'e');
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(has(&rows, "Edit LPO-P01"));
+    assert!(row_of(&rows, "parallax_mas").contains("68.4"));
+    assert!(has(&rows, "Enter check and keep · Esc drop"));
+    key(&mut s, crossterm::event::KeyCode::Esc);
+    ch(&mut s, 'p');
+    let (rows, _) = screen(&s, 160, 48);
+    assert!(row_of(&rows, "● pampa-lucero").contains("-27.4521"));
+    assert!(has(&rows, "sierra-alcaravan"));
+    key(&mut s, crossterm::event::KeyCode::Esc);
+    ch(&mut s, 'd');
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(has(&rows, "Remove LPO-P01 from the programme?"));
+}
+
+#[test]
+fn no_color_uses_no_colours_and_colour_run_does() {
+    let coloured = |color: bool| {
+        let mut s = state_with(
+            demo_targets(),
+            None,
+            "/nonexistent/x.csv".into(),
+            true,
+            (80, 24),
+            color,
+        );
+        let mut n = 0;
+        for v in ['1', '2', '3'] {
+            ch(&mut s, v);
+            let (_, buf) = screen(&s, 80, 24);
+            n += buf
+                .content()
+                .iter()
+                .filter(|c| c.fg != Color::Reset || c.bg != Color::Reset)
+                .count();
+        }
+        n
+    };
+    assert_eq!(coloured(false), 0);
+    assert!(coloured(true) > 100);
+}
+
+#[test]
+fn sun_caution_is_flagged_for_a_target_beside_the_sun() {
+    // A plain target placed on the Sun's position at local noon of the night's start.
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let night = demo_night();
+    let ctx = night.contexts[0];
+    let sun = ctx.sun();
+    // Observed → approximate RA/Dec is not needed: use the Sun's geocentric direction.
+    let v = ctx.sun_geo_au();
+    let (ra, dec) = sofars::vm::c2s(&v);
+    let mut targets = demo_targets();
+    targets.truncate(1);
+    targets.push(rung::io::targets::Target::plain(
+        "NEAR-SUN",
+        ra.to_degrees().rem_euclid(360.0),
+        dec.to_degrees(),
+    ));
+    assert!(sun.alt_geom_rad.to_degrees() > 0.0 && site.sun_avoid_deg == 45.0);
+    let mut s = state_with(
+        targets,
+        None,
+        "/nonexistent/x.csv".into(),
+        true,
+        (80, 24),
+        true,
+    );
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(row_of(&rows, "NEAR-SUN").contains("☼!"));
+    assert!(!row_of(&rows, "LPO-P01").contains("☼!"));
+    ch(&mut s, 'j');
+    ch(&mut s, '2');
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(has(&rows, "SUN CAUTION"), "{}", rows.join("\n"));
+}
+
+fn select(s: &mut rung::tui::State, name: &str) {
+    while s.selected().unwrap().name != name {
+        key(s, crossterm::event::KeyCode::Down);
+    }
+}
+
+#[test]
+fn phase_view_shows_the_pulsator_analysis_at_both_sizes() {
+    use rung::ladder::Setting;
+    use rung::ladder::pulsator::{PulsatorConfig, PulsatorMethod};
+    // The same library call as `rung phase`, made here directly.
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let targets = demo_targets();
+    let t = targets.iter().find(|t| t.name == "LPO-C03").unwrap();
+    let em = rung::photometry::Photometer::demo(&site).unwrap();
+    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
+    let r = PulsatorMethod::with_config(PulsatorConfig::load().unwrap())
+        .analyse(
+            &Setting {
+                site: &site,
+                target: t,
+                from,
+                to: from + chrono::Days::new(29),
+                limits: limits(),
+            },
+            Some(&em),
+        )
+        .unwrap();
+    for (w, h) in [(80u16, 24u16), (160, 48)] {
+        let mut s = demo_state((w, h));
+        ch(&mut s, '5');
+        let (rows, _) = screen(&s, w, h);
+        assert!(has(
+            &rows,
+            "LPO-P01 is a parallax target: the Phase view is for pulsators"
+        ));
+        select(&mut s, "LPO-C03");
+        let (rows, _) = screen(&s, w, h);
+        assert!(
+            rows[2].starts_with("Phase · ∿ LPO-C03 · P 5.0500 d · 30 nights from 2026-12-01"),
+            "{}",
+            rows[2]
+        );
+        let cov = format!(
+            "{}/{} in {} nights",
+            r.plan.bins_covered,
+            r.plan.bins,
+            r.plan.nights_needed()
+        );
+        assert!(rows[3].contains(&cov), "{cov}: {}", rows[3]);
+        let w0 = &r.windows[0];
+        let first = format!(
+            "{} {}-{}",
+            w0.night.format("%a %b %d"),
+            local_hm(w0.start),
+            local_hm(w0.end)
+        );
+        assert!(rows[5].starts_with(&first), "{first}: {}", rows[5]);
+        assert!(rows[5].contains('━'));
+        let visible = (h - 3 - 3 - 3) as usize;
+        assert!(has(
+            &rows,
+            &r.windows[visible.min(r.windows.len()) - 1]
+                .night
+                .format("%a %b %d")
+                .to_string()
+        ));
+        let pr = r.prediction.as_ref().unwrap();
+        assert!(has(
+            &rows,
+            &format!("σd/d {:.2}%", pr.distance_precision_pct)
+        ));
+        assert!(has(&rows, "◆ planned visit"));
+    }
+}
+
+#[test]
+fn chase_view_shows_the_transient_timeline_at_both_sizes() {
+    use rung::ladder::Setting;
+    use rung::ladder::transient::{ChaseOptions, TransientConfig, TransientMethod, night_of};
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let targets = demo_targets();
+    let t = targets.iter().find(|t| t.name == "LPO-T2026a").unwrap();
+    let em = rung::photometry::Photometer::demo(&site).unwrap();
+    let cfg = TransientConfig::embedded().unwrap();
+    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
+    let noon = rung::astro::night::local_noon(&site, from).unwrap();
+    let disc = t.discovered.unwrap();
+    let to = night_of(&site, disc) + chrono::Days::new(cfg.planning.horizon_days as u64);
+    let c = TransientMethod::with(
+        cfg,
+        ChaseOptions {
+            now: Some(noon),
+            ..Default::default()
+        },
+    )
+    .chase(
+        &Setting {
+            site: &site,
+            target: t,
+            from,
+            to,
+            limits: limits(),
+        },
+        &em,
+        t.goal_pct,
+    )
+    .unwrap();
+    for (w, h) in [(80u16, 24u16), (160, 48)] {
+        let mut s = demo_state((w, h));
+        ch(&mut s, '6');
+        let (rows, _) = screen(&s, w, h);
+        assert!(has(&rows, "the Chase view is for transients"));
+        select(&mut s, "LPO-T2026a");
+        let (rows, _) = screen(&s, w, h);
+        assert!(
+            rows[2].starts_with("Chase · ✶ LPO-T2026a · max "),
+            "{}",
+            rows[2]
+        );
+        assert!(rows[2].contains(&format!("B {:.1}", c.placement.params.m_max)));
+        assert!(rows[3].contains("phase") && rows[3].contains("mag") && rows[3].contains("plan"));
+        let n0 = &c.nights[0];
+        let r0 = &rows[4];
+        assert!(
+            r0.starts_with(&n0.night.format("%a %b %d").to_string()),
+            "{r0}"
+        );
+        assert!(
+            r0.contains(&format!("{:+.1}d", n0.phase_days.unwrap())),
+            "{r0}"
+        );
+        assert!(
+            r0.contains(&format!("{:.1}", n0.expected_mag.unwrap())),
+            "{r0}"
+        );
+        let planned = rows.iter().filter(|r| r.contains("● obs")).count();
+        let expect = c
+            .nights
+            .iter()
+            .take((h - 2 - 3 - 3) as usize)
+            .filter(|n| n.planned)
+            .count();
+        assert_eq!(planned, expect);
+        let b = c.design.budget.unwrap();
+        assert!(has(
+            &rows,
+            &format!(
+                "σd/d {:.1}% (floor {:.1}%)",
+                b.distance_precision_pct, b.floor_pct
+            )
+        ));
+    }
+}
+
+#[test]
+fn parallax_view_shows_factors_and_epochs_at_both_sizes() {
+    use rung::ladder::Setting;
+    use rung::ladder::parallax::ParallaxMethod;
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let targets = demo_targets();
+    let t = targets.iter().find(|t| t.name == "LPO-P03").unwrap();
+    let em = rung::photometry::Photometer::demo(&site).unwrap();
+    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
+    let to = chrono::NaiveDate::from_ymd_opt(2029, 11, 30).unwrap();
+    let p = ParallaxMethod::builtin()
+        .unwrap()
+        .plan(
+            &Setting {
+                site: &site,
+                target: t,
+                from,
+                to,
+                limits: limits(),
+            },
+            &em,
+        )
+        .unwrap();
+    let mut s = demo_state((80, 24));
+    ch(&mut s, '4');
+    select(&mut s, "LPO-P03");
+    for (w, h) in [(80u16, 24u16), (160, 48)] {
+        s.size = (w, h);
+        let (rows, buf) = screen(&s, w, h);
+        assert!(
+            rows[2].starts_with("Parallax · ◆ LPO-P03 · ϖ 112.0 mas · 3 years from 2026-12-01"),
+            "{}",
+            rows[2]
+        );
+        assert!(rows[3].starts_with("+1 au") && has(&rows, " 0 au") && has(&rows, "-1 au"));
+        let braille = buf
+            .content()
+            .iter()
+            .filter(|c| {
+                c.symbol()
+                    .chars()
+                    .next()
+                    .is_some_and(|c| ('\u{2801}'..='\u{28FF}').contains(&c))
+            })
+            .count();
+        assert!(braille > 60, "{braille}");
+        let sky = row_of(&rows, "sky  ");
+        assert!(sky.contains('█') && sky.contains('·'), "{sky}");
+        let epochs = row_of(&rows, "epoch");
+        assert!(epochs.contains('◆'));
+        let sol = p.solution.as_ref().unwrap();
+        let line = format!(
+            "σϖ {:.2} mas → σd/d {:.2}% · {} epochs in {} seasons",
+            sol.sigma_parallax_mas,
+            p.prediction.distance_precision_pct,
+            p.epochs.len(),
+            p.seasons_available
+        );
+        assert!(has(&rows, &line), "{line}");
+        assert!(has(&rows, "2027") && has(&rows, "2028"));
+    }
+    // A pulsator is refused with a reason.
+    select(&mut s, "LPO-C01");
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(has(&rows, "the Parallax view is for parallax targets"));
+}
+
+#[test]
+fn budget_view_and_export_match_the_library_budget() {
+    use rung::ladder::Method;
+    use rung::ladder::parallax::ParallaxMethod;
+    use rung::ladder::pulsator::{PulsatorConfig, PulsatorMethod};
+    use rung::ladder::transient::TransientMethod;
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let pick = ["LPO-P03", "LPO-C03", "LPO-C05", "LPO-T2026a"];
+    let targets: Vec<_> = demo_targets()
+        .into_iter()
+        .filter(|t| pick.contains(&t.name.as_str()))
+        .collect();
+    // The same call as `rung budget`, made here directly.
+    let em = rung::photometry::Photometer::demo(&site).unwrap();
+    let (plx, pul, tra) = (
+        ParallaxMethod::builtin().unwrap(),
+        PulsatorMethod::with_config(PulsatorConfig::load().unwrap()),
+        TransientMethod::new().unwrap(),
+    );
+    let methods: [&dyn Method; 3] = [&plx, &pul, &tra];
+    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
+    let to = chrono::NaiveDate::from_ymd_opt(2027, 11, 30).unwrap();
+    let b = rung::plan::budget::budget(&site, &targets, &methods, &em, from, to, limits(), None)
+        .unwrap();
+    let dir = tempfile::tempdir().unwrap();
+    let mut s = state_with(
+        targets,
+        None,
+        dir.path().join("programme.csv"),
+        true,
+        (80, 24),
+        true,
+    );
+    ch(&mut s, '7');
+    for (w, h) in [(80u16, 24u16), (160, 48)] {
+        let (rows, _) = screen(&s, w, h);
+        assert!(
+            rows[2].starts_with("Budget · 12 months from 2026-12-01 · pampa-lucero · lucero-1m")
+        );
+        assert!(
+            rows[3].contains("goal") && rows[3].contains("reach") && rows[3].contains("verdict")
+        );
+        for r in &b.rows {
+            let line = row_of(&rows, &r.target);
+            assert!(line.contains(&format!("{:.0}%", r.goal_pct)), "{line}");
+            assert!(line.contains(&format!("{:.1}", r.hours)), "{line}");
+            assert!(
+                line.contains(&rung::plan::budget::verdict_text(&r.verdict)),
+                "{line}"
+            );
+        }
+        assert!(has(&rows, &format!("total {:.1} h", b.total_hours)));
+    }
+    // Export writes the library's CSV and Markdown beside the programme file.
+    ch(&mut s, 'x');
+    let csv =
+        std::fs::read_to_string(dir.path().join("budget-pampa-lucero-2026-12-01.csv")).unwrap();
+    assert_eq!(csv, rung::plan::budget::csv(&b));
+    let md = std::fs::read_to_string(dir.path().join("budget-pampa-lucero-2026-12-01.md")).unwrap();
+    assert_eq!(md, rung::plan::budget::markdown(&b));
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(rows[23].starts_with("exported "), "{}", rows[23]);
+}
