@@ -133,5 +133,19 @@ impl RungError {
     }
 }
 
+/// Text from a parser's message made safe for one line: control characters
+/// become '?', and it is cut to `max` characters (with '…').
+pub fn one_line_cut(text: &str, max: usize) -> String {
+    let mut out: String = text
+        .chars()
+        .map(|c| if c.is_control() { '?' } else { c })
+        .take(max)
+        .collect();
+    if text.chars().count() > max {
+        out.push('…');
+    }
+    out
+}
+
 /// Result type of the rung library.
 pub type Result<T> = std::result::Result<T, RungError>;

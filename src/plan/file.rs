@@ -143,7 +143,11 @@ pub fn parse(text: &str, path: &Path) -> Result<PlanFile> {
             line: Some(e.line()),
             field: None,
         },
-        msg: format!("not a readable plan file (column {}): {e}", e.column()),
+        msg: format!(
+            "not a readable plan file (column {}): {}",
+            e.column(),
+            crate::error::one_line_cut(&e.to_string(), 200)
+        ),
     })?;
     if p.format != FORMAT {
         return Err(RungError::InFile {
