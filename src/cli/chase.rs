@@ -118,20 +118,11 @@ fn build_target(a: &Args, cfg: &TransientConfig) -> Result<Target> {
         if a.ra.is_some() || a.dec.is_some() || a.discovered.is_some() {
             bail!("give either --target NAME or --ra/--dec/--discovered, not both");
         }
-        let file = a
-            .targets
-            .clone()
-            .unwrap_or_else(|| super::demo_dir().join("targets.csv"));
-        let ts = super::load_targets(&file)?;
-        let t = ts
-            .into_iter()
-            .find(|x| x.name.eq_ignore_ascii_case(n))
-            .with_context(|| format!("no target named '{n}' in {}", file.display()))?;
+        let t = super::target_by_name(&a.targets, n)?;
         if t.kind != Kind::Transient {
             bail!(
-                "target {} in {} is a {} target, not a transient",
+                "target {} is a {} target, not a transient",
                 t.name,
-                file.display(),
                 t.kind.as_str()
             );
         }

@@ -93,6 +93,18 @@ pub fn load_targets(path: &Path) -> Result<Vec<rung::io::targets::Target>> {
     Ok(l.targets)
 }
 
+/// A target by name (case-insensitive) from `file`, or from the demo
+/// programme when no file is given; the error names the name and the file.
+pub fn target_by_name(file: &Option<PathBuf>, name: &str) -> Result<rung::io::targets::Target> {
+    let file = file
+        .clone()
+        .unwrap_or_else(|| demo_dir().join("targets.csv"));
+    let ts = load_targets(&file)?;
+    ts.into_iter()
+        .find(|x| x.name.eq_ignore_ascii_case(name))
+        .ok_or_else(|| anyhow::anyhow!("no target named '{name}' in {}", file.display()))
+}
+
 /// `rung` with no subcommand: the terminal UI when stdout is a terminal,
 /// else tonight's plan for the demo programme as a table (so scripts keep working).
 pub fn default_run() -> Result<()> {

@@ -134,16 +134,7 @@ fn config(a: &Args) -> Result<ParallaxConfig> {
 
 fn target(a: &Args) -> Result<Target> {
     let mut t = match (&a.target, &a.ra, &a.dec) {
-        (Some(n), _, _) => {
-            let file = a
-                .targets
-                .clone()
-                .unwrap_or_else(|| super::demo_dir().join("targets.csv"));
-            let ts = super::load_targets(&file)?;
-            ts.into_iter()
-                .find(|x| x.name.eq_ignore_ascii_case(n))
-                .with_context(|| format!("no target named '{n}' in {}", file.display()))?
-        }
+        (Some(n), _, _) => super::target_by_name(&a.targets, n)?,
         (None, Some(r), Some(d)) => {
             let mut t = Target::plain("coordinates", parse_ra_deg(r)?, parse_dec_deg(d)?);
             t.kind = Kind::Parallax;

@@ -97,15 +97,7 @@ pub struct Args {
 fn build_target(a: &Args) -> Result<Target> {
     let mut t = match (&a.target, &a.ra, &a.dec) {
         (Some(n), _, _) => {
-            let file = a
-                .targets
-                .clone()
-                .unwrap_or_else(|| super::demo_dir().join("targets.csv"));
-            let ts = super::load_targets(&file)?;
-            let t = ts
-                .into_iter()
-                .find(|x| x.name.eq_ignore_ascii_case(n))
-                .with_context(|| format!("no target named '{n}' in {}", file.display()))?;
+            let t = super::target_by_name(&a.targets, n)?;
             if t.kind != Kind::Pulsator && a.period_d.is_none() {
                 bail!(
                     "target '{}' is a {} target, not a pulsator; give --period-d and --epoch-max-bjd to treat it as one",

@@ -129,15 +129,7 @@ fn setup(c: &Common) -> Result<Setup> {
     let (name, place, tg): (String, CatalogPlace, Option<Target>) = match (&c.target, &c.ra, &c.dec)
     {
         (Some(n), _, _) => {
-            let file = c
-                .targets
-                .clone()
-                .unwrap_or_else(|| super::demo_dir().join("targets.csv"));
-            let ts = super::load_targets(&file)?;
-            let tg = ts
-                .into_iter()
-                .find(|x| x.name.eq_ignore_ascii_case(n))
-                .with_context(|| format!("no target named '{n}' in {}", file.display()))?;
+            let tg = super::target_by_name(&c.targets, n)?;
             (tg.name.clone(), tg.place(), Some(tg))
         }
         (None, Some(r), Some(d)) => (

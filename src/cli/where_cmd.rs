@@ -41,15 +41,7 @@ pub fn run(a: Args) -> Result<()> {
     let t = parse_instant(&a.at).context("--at")?;
     let (name, place) = match (&a.target, &a.ra, &a.dec) {
         (Some(n), _, _) => {
-            let file = a
-                .targets
-                .clone()
-                .unwrap_or_else(|| super::demo_dir().join("targets.csv"));
-            let ts = super::load_targets(&file)?;
-            let tg = ts
-                .iter()
-                .find(|x| x.name.eq_ignore_ascii_case(n))
-                .with_context(|| format!("no target named '{n}' in {}", file.display()))?;
+            let tg = super::target_by_name(&a.targets, n)?;
             (tg.name.clone(), tg.place())
         }
         (None, Some(r), Some(d)) => (
