@@ -199,19 +199,38 @@ fn season_80x24_and_160x48_match_per_night_library_hours() {
         for t in targets.iter().take(shown.min(targets.len())) {
             assert!(has(&rows, &format!(" {}", t.name)), "{}", t.name);
         }
-        // First three columns of LPO-P02 against Night::new + night.target, nights 0, 7, 14.
+        // Every shown column of every shown target against the season engine
+        // (`rung::plan::season::scan`, the engine of `rung season`), run here
+        // over the strip's span and read every 7th night.
         let site = sites::resolve("pampa-lucero").unwrap();
-        let r = row_of(&rows, "LPO-P02");
-        let cells: Vec<char> = r.chars().skip(16).take(3).collect();
-        for (i, c) in cells.iter().enumerate() {
-            let d = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap()
-                + chrono::Days::new(7 * i as u64);
-            let hrs = Night::new(&site, d)
-                .unwrap()
-                .target(&targets[1].place(), &limits())
-                .observable_hours;
-            assert_eq!(*c, hours_glyph(hrs), "night {d}: {hrs} h");
+        let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
+        let ncol = (w as usize - 16).min(52);
+        let to = from + chrono::Days::new(7 * (ncol as u64 - 1));
+        let c = rung::plan::season::Constraints::new(30.0, -12.0, None).unwrap();
+        let listed: Vec<_> = targets.iter().take(shown.min(targets.len())).collect();
+        let places: Vec<_> = listed.iter().map(|t| t.place()).collect();
+        let mut want: Vec<Vec<f64>> = vec![Vec::new(); places.len()];
+        rung::plan::season::scan(&site, &places, from, to, &c, |n| {
+            if n.index % 7 == 0 {
+                for (w, r) in want.iter_mut().zip(n.rows) {
+                    w.push(r.observable_hours);
+                }
+            }
+            std::ops::ControlFlow::Continue(())
+        })
+        .unwrap();
+        let mut nonzero = 0;
+        for (t, hrs) in listed.iter().zip(&want) {
+            assert_eq!(hrs.len(), ncol);
+            let r = row_of(&rows, &format!(" {} ", t.name));
+            let cells: Vec<char> = r.chars().skip(16).take(ncol).collect();
+            let expect: Vec<char> = hrs.iter().map(|h| hours_glyph(*h)).collect();
+            assert_eq!(cells, expect, "{} at {w}x{h}", t.name);
+            // The cached hours are the engine's numbers exactly.
+            assert_eq!(&s.season.hours[&t.name][..ncol], &hrs[..], "{}", t.name);
+            nonzero += hrs.iter().filter(|h| **h > 0.0).count();
         }
+        assert!(nonzero > 10, "the strip shows observable nights");
         assert!(rows[(h - 2) as usize].contains("█ ≥7 h"));
         assert!(rows[(h - 2) as usize].contains("LPO-P01: most"));
     }

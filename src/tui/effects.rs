@@ -11,10 +11,13 @@ use crate::ladder::parallax::ParallaxMethod;
 use crate::ladder::pulsator::{PulsatorConfig, PulsatorMethod};
 use crate::ladder::transient::{ChaseOptions, TransientConfig, TransientMethod, night_of};
 use crate::photometry::Photometer;
-use crate::tui::msg::{Effect, Msg, NightJob, SeasonJob, SeasonRows};
+use crate::plan::season::{
+    Constraints, NightSky, PreparedPlace, ScanSetup, TargetNightRow, scan_night,
+};
+use crate::tui::msg::{Effect, Msg, NightJob, SeasonJob, SeasonRows, SeasonSky};
 use crate::tui::state::{
     BUDGET_MONTHS, BudgetKey, MethodBody, MethodKey, MethodResult, NightData, PARALLAX_MONTHS,
-    PHASE_NIGHTS, TargetRow, View,
+    PHASE_NIGHTS, SeasonKey, TargetRow, View,
 };
 use rayon::prelude::*;
 use std::sync::Arc;
@@ -76,38 +79,62 @@ pub fn night_data(job: &NightJob) -> Result<NightData> {
     })
 }
 
-/// Season rows for a job: a loop over nights (`Night::new`) and `night.target`
-/// for the targets asked for. (To be replaced by the season engine once it is merged.)
+/// The nights of a season strip as the season engine prepares them: one
+/// [`NightSky`] per column (every `step_days` from `from`) and the scan setup
+/// shared by all of them (`rung::plan::season`, the engine of `rung season`).
+pub fn season_sky(site: &crate::astro::site::Site, k: &SeasonKey) -> Result<SeasonSky> {
+    let c = season_constraints(&k.limits)?;
+    let skies: Vec<NightSky> = (0..k.nights)
+        .into_par_iter()
+        .map(|i| {
+            let d = k.from + chrono::Days::new((i * k.step_days) as u64);
+            NightSky::new(site, d, &c)
+        })
+        .collect::<Result<_>>()?;
+    let first = skies.first().ok_or_else(|| {
+        crate::error::RungError::invalid("season", "a season strip needs at least one night")
+    })?;
+    let setup = ScanSetup::new(site, &c, first);
+    Ok(SeasonSky { setup, skies })
+}
+
+/// The season engine's constraints for the UI's limits (no Moon limit, as the
+/// night table has none).
+pub fn season_constraints(l: &crate::astro::night::Limits) -> Result<Constraints> {
+    Constraints::new(l.min_alt_deg, l.sun_alt_deg, None)
+}
+
+/// Season rows for a job: observable hours of the asked targets on every night
+/// of the strip, from the season engine's `scan_night` (the nights are prepared
+/// once per key with [`season_sky`] and shared by later jobs).
 pub fn season_rows(job: &SeasonJob) -> Result<SeasonRows> {
     let k = &job.key;
-    let nights = match &job.nights {
+    let sky = match &job.nights {
         Some(n) => n.clone(),
-        None => {
-            let list: Result<Vec<Night>> = (0..k.nights)
-                .into_par_iter()
-                .map(|i| {
-                    let d = k.from + chrono::Days::new((i * k.step_days) as u64);
-                    Night::new(&job.site, d)
-                })
-                .collect();
-            Arc::new(list?)
-        }
+        None => Arc::new(season_sky(&job.site, k)?),
     };
+    let places: Vec<PreparedPlace> = job
+        .targets
+        .iter()
+        .map(|t| PreparedPlace::new(&t.place()))
+        .collect();
+    let mut hours = vec![Vec::with_capacity(sky.skies.len()); places.len()];
+    let mut rows: Vec<TargetNightRow> = Vec::with_capacity(places.len());
+    for night in &sky.skies {
+        scan_night(&sky.setup, night, &places, &mut rows);
+        for (h, r) in hours.iter_mut().zip(&rows) {
+            h.push(r.observable_hours);
+        }
+    }
     let rows = job
         .targets
-        .par_iter()
-        .map(|t| {
-            let place = t.place();
-            let hours = nights
-                .iter()
-                .map(|n| n.target(&place, &k.limits).observable_hours)
-                .collect();
-            (t.name.clone(), hours)
-        })
+        .iter()
+        .map(|t| t.name.clone())
+        .zip(hours)
         .collect();
     Ok(SeasonRows {
         key: k.clone(),
-        nights,
+        nights: sky,
         rows,
     })
 }

@@ -1,7 +1,7 @@
 //! Everything that can happen to the UI ([`Msg`]), the actions keys are bound
 //! to ([`Action`]), and the side effects `update` asks for ([`Effect`]).
 
-use crate::astro::night::{Limits, Night};
+use crate::astro::night::Limits;
 use crate::astro::site::Site;
 use crate::astro::time::Instant;
 use crate::io::targets::Target;
@@ -113,13 +113,22 @@ pub enum Action {
     No,
 }
 
+/// The prepared nights of a season strip (season engine), shared by its jobs.
+#[derive(Debug, Clone)]
+pub struct SeasonSky {
+    /// What does not change from night to night.
+    pub setup: crate::plan::season::ScanSetup,
+    /// One night per column.
+    pub skies: Vec<crate::plan::season::NightSky>,
+}
+
 /// A computed season strip for some targets.
 #[derive(Debug, Clone)]
 pub struct SeasonRows {
     /// What the rows are for.
     pub key: SeasonKey,
     /// The nights of the strip (shared with later jobs for the same key).
-    pub nights: Arc<Vec<Night>>,
+    pub nights: Arc<SeasonSky>,
     /// Observable hours per night, by target name.
     pub rows: Vec<(String, Vec<f64>)>,
 }
@@ -179,7 +188,7 @@ pub struct SeasonJob {
     /// Site.
     pub site: Site,
     /// Nights already computed for this key, if any.
-    pub nights: Option<Arc<Vec<Night>>>,
+    pub nights: Option<Arc<SeasonSky>>,
     /// Targets to compute.
     pub targets: Vec<Target>,
 }

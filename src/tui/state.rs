@@ -1,7 +1,7 @@
 //! The one [`State`] of the UI and the results cached in it.
 
 use crate::astro::frames::Context;
-use crate::astro::night::{Limits, Night, NightEvents, TargetNight};
+use crate::astro::night::{Limits, NightEvents, TargetNight};
 use crate::astro::site::Site;
 use crate::astro::time::Instant;
 use crate::io::targets::Target;
@@ -204,7 +204,7 @@ pub struct SeasonData {
     /// What the cached rows are for.
     pub key: Option<SeasonKey>,
     /// The nights, once computed.
-    pub nights: Option<Arc<Vec<Night>>>,
+    pub nights: Option<Arc<crate::tui::msg::SeasonSky>>,
     /// Hours by target name.
     pub hours: HashMap<String, Vec<f64>>,
     /// Targets being computed.
