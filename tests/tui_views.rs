@@ -621,3 +621,92 @@ fn budget_view_and_export_match_the_library_budget() {
     let (rows, _) = screen(&s, 80, 24);
     assert!(rows[23].starts_with("exported "), "{}", rows[23]);
 }
+
+#[test]
+fn plan_export_writes_plan_csv_ics_and_night_sheet_that_read_back() {
+    use rung::plan::schedule::{Request, schedule};
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let pick = ["LPO-P03", "LPO-C03", "LPO-T2026a"];
+    let targets: Vec<_> = demo_targets()
+        .into_iter()
+        .filter(|t| pick.contains(&t.name.as_str()))
+        .collect();
+    let dir = tempfile::tempdir().unwrap();
+    let mut s = state_with(
+        targets.clone(),
+        None,
+        dir.path().join("programme.csv"),
+        true,
+        (80, 24),
+        true,
+    );
+    // The Season strip's span: 52 columns a week apart from 2026-12-01.
+    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
+    let to = from + chrono::Days::new(51 * 7);
+    assert_eq!(s.season_span(), (from, to));
+    ch(&mut s, 'X');
+    let stem = format!("plan-pampa-lucero-{from}-to-{to}");
+    let json = dir.path().join(format!("{stem}.json"));
+    let plan = rung::plan::file::load(&json).unwrap();
+    assert_eq!(plan.format, rung::plan::file::FORMAT);
+    assert_eq!((plan.from, plan.to), (from, to));
+    assert_eq!((plan.min_alt_deg, plan.sun_alt_deg), (30.0, -12.0));
+    plan.check_targets(&targets, &json).unwrap();
+    // The visits are those of the library's scheduler called here as `rung plan` calls it.
+    let em = rung::photometry::Photometer::demo(&site).unwrap();
+    let owned = rung::ladder::methods().unwrap();
+    let ms: Vec<&dyn rung::ladder::Method> = owned.iter().map(|m| m.as_ref()).collect();
+    let want = schedule(&Request {
+        site: &site,
+        targets: &targets,
+        from,
+        to,
+        limits: limits(),
+        hours_per_night: rung::tui::state::PLAN_HOURS_PER_NIGHT,
+        methods: &ms,
+        em: &em,
+        done: vec![],
+        lost_nights: Default::default(),
+    })
+    .unwrap();
+    assert!(!want.visits.is_empty());
+    // (The plan file keeps times to the second, so compare them to that.)
+    assert_eq!(plan.visits.len(), want.visits.len());
+    for (a, b) in plan.visits.iter().zip(&want.visits) {
+        assert_eq!((&a.id, &a.target, a.night), (&b.id, &b.target, b.night));
+        assert!(a.start.seconds_since(&b.start).abs() < 1.0, "{}", a.id);
+        assert!(a.end.seconds_since(&b.end).abs() < 1.0, "{}", a.id);
+        assert_eq!(a.n_exposures, b.n_exposures);
+    }
+    // CSV: the library's text, one header and a row per visit.
+    let csv = std::fs::read_to_string(dir.path().join(format!("{stem}.csv"))).unwrap();
+    assert_eq!(csv, rung::plan::export::visits_csv(&want.visits, &site));
+    assert_eq!(csv.lines().count(), plan.visits.len() + 1);
+    // iCalendar (RFC 5545): one VCALENDAR with a VEVENT per visit.
+    let ics = std::fs::read_to_string(dir.path().join(format!("{stem}.ics"))).unwrap();
+    assert!(ics.starts_with("BEGIN:VCALENDAR\r\n"));
+    assert!(ics.trim_end().ends_with("END:VCALENDAR"));
+    assert_eq!(ics.matches("BEGIN:VEVENT").count(), plan.visits.len());
+    // Tonight's sheet.
+    let sheet =
+        std::fs::read_to_string(dir.path().join("night-pampa-lucero-2026-12-01.md")).unwrap();
+    assert!(sheet.starts_with("# Night sheet 2026-12-01 at pampa-lucero"));
+    let tonight = plan.visits.iter().filter(|v| v.night == from).count();
+    assert_eq!(
+        sheet
+            .lines()
+            .filter(|l| l.starts_with("| ") && !l.starts_with("| start") && !l.starts_with("| ---"))
+            .count(),
+        tonight
+    );
+    // The message line says where the files went.
+    let (rows, _) = screen(&s, 160, 48);
+    let msg = &rows[47];
+    assert!(
+        msg.starts_with(&format!(
+            "exported to {}: {stem}.json/.csv/.ics, night-pampa-lucero-2026-12-01.md",
+            dir.path().display()
+        )),
+        "{msg}"
+    );
+}

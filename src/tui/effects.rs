@@ -14,7 +14,7 @@ use crate::photometry::Photometer;
 use crate::plan::season::{
     Constraints, NightSky, PreparedPlace, ScanSetup, TargetNightRow, scan_night,
 };
-use crate::tui::msg::{Effect, Msg, NightJob, SeasonJob, SeasonRows, SeasonSky};
+use crate::tui::msg::{Effect, Msg, NightJob, PlanJob, SeasonJob, SeasonRows, SeasonSky};
 use crate::tui::state::{
     BUDGET_MONTHS, BudgetKey, MethodBody, MethodKey, MethodResult, NightData, PARALLAX_MONTHS,
     PHASE_NIGHTS, SeasonKey, TargetRow, View,
@@ -269,6 +269,79 @@ pub fn budget_for(k: &BudgetKey) -> Result<crate::plan::budget::Budget> {
     )
 }
 
+/// The files of a plan export, named after the site and span.
+pub fn plan_paths(job: &PlanJob) -> [std::path::PathBuf; 4] {
+    let stem = format!("plan-{}-{}-to-{}", job.site.name, job.from, job.to);
+    [
+        job.dir.join(format!("{stem}.json")),
+        job.dir.join(format!("{stem}.csv")),
+        job.dir.join(format!("{stem}.ics")),
+        job.dir
+            .join(format!("night-{}-{}.md", job.site.name, job.sheet_night)),
+    ]
+}
+
+/// Schedule the job's span (`plan::schedule::schedule` with
+/// `ladder::methods()` and the instrument's photometer, as `rung plan` does)
+/// and write, atomically, the plan file (`plan::file::save`), the visits as CSV
+/// (`plan::export::visits_csv`), as iCalendar (`plan::export::ics`) and the
+/// night sheet of `sheet_night` (`plan::export::night_sheet`). Returns the
+/// files written.
+pub fn export_plan(job: &PlanJob) -> Result<Vec<std::path::PathBuf>> {
+    use crate::plan::export;
+    use crate::plan::file::{self, FORMAT, PlanFile};
+    use crate::plan::schedule::{self, Request, fingerprint};
+    let em = Photometer::from_name(&job.instrument, &job.site)?;
+    let owned = crate::ladder::methods()?;
+    let ms: Vec<&dyn crate::ladder::Method> = owned.iter().map(|m| m.as_ref()).collect();
+    let req = Request {
+        site: &job.site,
+        targets: &job.targets,
+        from: job.from,
+        to: job.to,
+        limits: job.limits,
+        hours_per_night: job.hours_per_night,
+        methods: &ms,
+        em: &em,
+        done: vec![],
+        lost_nights: Default::default(),
+    };
+    let sch = schedule::schedule(&req)?;
+    let plan = PlanFile {
+        format: FORMAT.into(),
+        site: job.site_spec.clone(),
+        targets_file: job.targets_file.clone(),
+        targets_fingerprint: fingerprint(&job.targets),
+        from: job.from,
+        to: job.to,
+        hours_per_night: job.hours_per_night,
+        min_alt_deg: job.limits.min_alt_deg,
+        sun_alt_deg: job.limits.sun_alt_deg,
+        lost_nights: Default::default(),
+        visits: sch.visits,
+    };
+    let [json, csv, ics, sheet] = plan_paths(job);
+    std::fs::create_dir_all(&job.dir).map_err(|e| crate::error::RungError::Io {
+        path: job.dir.clone(),
+        source: e,
+    })?;
+    file::save(&plan, &json)?;
+    write_atomic(&csv, export::visits_csv(&plan.visits, &job.site).as_bytes())?;
+    write_atomic(
+        &ics,
+        export::ics(&plan.visits, &job.site, job.stamp).as_bytes(),
+    )?;
+    let header = format!(
+        "Plan {} to {}, {:.1} h per night, window above {:.0}° with the Sun below {:.0}°.",
+        plan.from, plan.to, plan.hours_per_night, plan.min_alt_deg, plan.sun_alt_deg
+    );
+    write_atomic(
+        &sheet,
+        export::night_sheet(&plan.visits, &job.site, job.sheet_night, &header).as_bytes(),
+    )?;
+    Ok(vec![json, csv, ics, sheet])
+}
+
 /// Save: keep the original once as a backup, then write the programme atomically.
 pub fn save(
     path: &std::path::Path,
@@ -322,6 +395,9 @@ pub fn run(effect: Effect) -> Vec<Msg> {
                 None => Ok(done),
             })]
         }
+        Effect::ExportPlan(job) => vec![Msg::Exported(
+            export_plan(&job).map_err(|e| format!("plan not exported: {e}")),
+        )],
         Effect::Save { path, text, backup } => {
             vec![Msg::Saved(save(&path, &text, backup.as_ref()))]
         }

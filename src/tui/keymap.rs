@@ -89,6 +89,12 @@ pub const KEYMAP: &[Binding] = &[
     ch(S::Main, '6', A::ShowChase, "Chase view (transients)"),
     ch(S::Main, '7', A::ShowBudget, "Budget view"),
     ch(S::Main, 'x', A::Export, "export budget (CSV, Markdown)"),
+    ch(
+        S::Main,
+        'X',
+        A::ExportPlan,
+        "export plan (JSON CSV iCal), night sheet",
+    ),
     b(S::Main, KeyCode::Tab, A::NextView, "next view"),
     b(S::Main, KeyCode::BackTab, A::PrevView, "previous view"),
     b(S::Main, KeyCode::Up, A::Up, "previous target"),

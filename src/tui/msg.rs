@@ -41,6 +41,9 @@ pub enum Action {
     ShowBudget,
     /// Export the budget (CSV and Markdown) beside the programme file.
     Export,
+    /// Schedule the Season view's span and export the plan (JSON, CSV,
+    /// iCalendar) and tonight's night sheet beside the programme file.
+    ExportPlan,
     /// Selection up one row.
     Up,
     /// Selection down one row.
@@ -193,6 +196,36 @@ pub struct SeasonJob {
     pub targets: Vec<Target>,
 }
 
+/// A job for the plan export: schedule a span with the library's scheduler and
+/// write the plan (JSON, CSV, iCalendar) and one night's sheet into `dir`.
+#[derive(Debug, Clone)]
+pub struct PlanJob {
+    /// Site.
+    pub site: Site,
+    /// The site as a plan file names it (catalogue name or inline coordinates).
+    pub site_spec: String,
+    /// The programme.
+    pub targets: Vec<Target>,
+    /// The programme file, as the plan file records it.
+    pub targets_file: String,
+    /// First night.
+    pub from: chrono::NaiveDate,
+    /// Last night, inclusive.
+    pub to: chrono::NaiveDate,
+    /// Window limits.
+    pub limits: Limits,
+    /// Telescope hours per night.
+    pub hours_per_night: f64,
+    /// Instrument name (its photometer gives the exposures).
+    pub instrument: String,
+    /// The night whose sheet is written.
+    pub sheet_night: chrono::NaiveDate,
+    /// The iCalendar DTSTAMP.
+    pub stamp: Instant,
+    /// Folder the files go to.
+    pub dir: PathBuf,
+}
+
 /// Side effects `update` asks the runner to perform.
 #[derive(Debug, Clone)]
 pub enum Effect {
@@ -204,6 +237,8 @@ pub enum Effect {
     Budget(Box<BudgetKey>),
     /// Write export files atomically (path, contents).
     Export(Vec<(PathBuf, String)>),
+    /// Build a schedule and write the plan files (in the background).
+    ExportPlan(Box<PlanJob>),
     /// Compute a distance-method report for one target (in the background).
     Method(Box<MethodKey>),
     /// Write the programme atomically; first keep a copy of the original file when asked.

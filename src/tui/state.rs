@@ -272,6 +272,9 @@ pub struct BudgetKey {
 /// Months a budget covers.
 pub const BUDGET_MONTHS: u32 = 12;
 
+/// Telescope hours per night the plan export schedules (at most the dark time of each night).
+pub const PLAN_HOURS_PER_NIGHT: f64 = 8.0;
+
 /// Months the Parallax view covers (as `rung parallax` by default).
 pub const PARALLAX_MONTHS: u32 = 36;
 /// Nights the Phase view covers.
@@ -510,6 +513,13 @@ impl State {
             nights: SEASON_NIGHTS,
             limits: self.limits,
         }
+    }
+
+    /// First and last night of the Season view's strip (the span the plan export schedules).
+    pub fn season_span(&self) -> (NaiveDate, NaiveDate) {
+        let k = self.season_key();
+        let last = (k.nights.max(1) - 1) * k.step_days;
+        (k.from, k.from + chrono::Days::new(last as u64))
     }
 
     /// Rebuild `order` from the targets, filter and sort; keep the selected target selected.
