@@ -710,3 +710,83 @@ fn plan_export_writes_plan_csv_ics_and_night_sheet_that_read_back() {
         "{msg}"
     );
 }
+
+#[test]
+fn roster_shows_progress_towards_each_goal_from_the_budget() {
+    use rung::ladder::Method;
+    use rung::ladder::parallax::ParallaxMethod;
+    use rung::ladder::pulsator::{PulsatorConfig, PulsatorMethod};
+    use rung::ladder::transient::TransientMethod;
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let pick = ["LPO-P03", "LPO-C03", "LPO-C05", "LPO-T2026a"];
+    let mut targets: Vec<_> = demo_targets()
+        .into_iter()
+        .filter(|t| pick.contains(&t.name.as_str()))
+        .collect();
+    // One target without a goal shows a dash.
+    targets[0].goal_pct = None;
+    let nogoal = targets[0].name.clone();
+    // The same call as `rung budget` over the Budget view's 12 months, made here directly.
+    let em = rung::photometry::Photometer::demo(&site).unwrap();
+    let (plx, pul, tra) = (
+        ParallaxMethod::builtin().unwrap(),
+        PulsatorMethod::with_config(PulsatorConfig::load().unwrap()),
+        TransientMethod::new().unwrap(),
+    );
+    let methods: [&dyn Method; 3] = [&plx, &pul, &tra];
+    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
+    let to = chrono::NaiveDate::from_ymd_opt(2027, 11, 30).unwrap();
+    let b = rung::plan::budget::budget(&site, &targets, &methods, &em, from, to, limits(), None)
+        .unwrap();
+    assert!(!b.rows.is_empty());
+    let dir = tempfile::tempdir().unwrap();
+    let mut s = state_with(
+        targets.clone(),
+        None,
+        dir.path().join("programme.csv"),
+        true,
+        (80, 24),
+        true,
+    );
+    for (w, h) in [(80u16, 24u16), (160, 48)] {
+        let (rows, _) = screen(&s, w, h);
+        assert!(rows[3].contains("σd/d·goal"), "{}", rows[3]);
+        for r in &b.rows {
+            let g = format!("{:.1}", r.goal_pct);
+            let g = g.strip_suffix(".0").unwrap_or(&g);
+            let a = if r.achievable_pct.is_finite() {
+                format!("{:.1}", r.achievable_pct)
+            } else {
+                "—".into()
+            };
+            let mark = if r.verdict == rung::ladder::Verdict::Reachable {
+                "✓"
+            } else {
+                " "
+            };
+            let line = row_of(&rows, &r.target);
+            assert!(line.contains(&format!("{a}/{g}%{mark}")), "{line}");
+        }
+        assert!(row_of(&rows, &nogoal).contains(" — "));
+    }
+    // The Budget view reuses the roster's budget: no second computation.
+    assert!(rung::tui::update(&mut s, rung::tui::Msg::Act(Action::ShowBudget)).is_none());
+    assert_eq!(s.view, View::Budget);
+    // While the budget is computed the column says so.
+    let (mut fresh, _) = rung::tui::init(rung::tui::Setup {
+        sites: sites::catalogue().unwrap(),
+        site: site.clone(),
+        date: Some(from),
+        now: test_now(),
+        targets: targets.clone(),
+        programme: s.programme.clone(),
+        size: (80, 24),
+        theme: rung::tui::theme::Theme { color: false },
+        message: None,
+        instrument: s.instrument.clone(),
+        instruments: s.instruments.clone(),
+    });
+    fresh.size = (80, 24);
+    let (rows, _) = screen(&fresh, 80, 24);
+    assert!(row_of(&rows, &targets[1].name).contains("…/"), "{rows:?}");
+}

@@ -269,6 +269,34 @@ pub struct BudgetKey {
     pub limits: Limits,
 }
 
+/// A target's progress towards its distance goal, as the Roster shows it.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Progress {
+    /// The target has no distance goal.
+    NoGoal,
+    /// The budget is being computed.
+    Pending {
+        /// Goal σd/d, percent.
+        goal_pct: f64,
+    },
+    /// The method's prediction over the budget's months.
+    Predicted {
+        /// What the method reaches, percent (not finite when nothing can be observed).
+        achievable_pct: f64,
+        /// Goal σd/d, percent.
+        goal_pct: f64,
+        /// Whether the goal is reachable in the range.
+        reached: bool,
+    },
+    /// The budget left the target out (no method, or the method failed) or failed.
+    Unavailable {
+        /// Goal σd/d, percent.
+        goal_pct: f64,
+        /// Why.
+        why: String,
+    },
+}
+
 /// Months a budget covers.
 pub const BUDGET_MONTHS: u32 = 12;
 
@@ -495,6 +523,51 @@ impl State {
     pub fn budget_now(&self) -> Option<&Result<Box<crate::plan::budget::Budget>, String>> {
         let (k, b) = self.budget.as_ref()?;
         (*k == self.budget_key()).then_some(b)
+    }
+
+    /// A target's progress towards its goal from the budget for the current site,
+    /// date, instrument and limits (the Budget view's result, computed once).
+    /// A budget made before an edit still answers for targets the edit left as
+    /// they were, so the column does not blank out while it is recomputed.
+    pub fn progress(&self, t: &Target) -> Progress {
+        let Some(goal_pct) = t.goal_pct else {
+            return Progress::NoGoal;
+        };
+        let now = self.budget_key();
+        let Some((k, b)) = self.budget.as_ref() else {
+            return Progress::Pending { goal_pct };
+        };
+        let same = k.site == now.site
+            && k.date == now.date
+            && k.instrument == now.instrument
+            && k.limits == now.limits
+            && k.targets.contains(t);
+        if !same {
+            return Progress::Pending { goal_pct };
+        }
+        let b = match b {
+            Ok(b) => b,
+            Err(e) => {
+                return Progress::Unavailable {
+                    goal_pct,
+                    why: e.clone(),
+                };
+            }
+        };
+        if let Some(r) = b.rows.iter().find(|r| r.target == t.name) {
+            return Progress::Predicted {
+                achievable_pct: r.achievable_pct,
+                goal_pct: r.goal_pct,
+                reached: r.verdict == crate::ladder::Verdict::Reachable,
+            };
+        }
+        match b.skipped.iter().find(|x| x.0 == t.name) {
+            Some((_, why)) => Progress::Unavailable {
+                goal_pct,
+                why: why.clone(),
+            },
+            None => Progress::Pending { goal_pct },
+        }
     }
 
     /// The report for the current view and selection, when computed.

@@ -157,9 +157,10 @@ fn season_effect(s: &mut State) -> Option<Effect> {
     Effect::join(b, budget_effect(s))
 }
 
-/// Ask for the budget when the Budget view shows and it is not cached.
+/// Ask for the budget when the Budget view or the Roster (its goal-progress
+/// column) shows and it is not cached.
 fn budget_effect(s: &mut State) -> Option<Effect> {
-    if s.view != View::Budget {
+    if !matches!(s.view, View::Budget | View::Roster) {
         return None;
     }
     let k = s.budget_key();
@@ -566,7 +567,7 @@ fn act_main(s: &mut State, a: Action) -> Option<Effect> {
         }
         Action::ShowRoster => {
             s.view = View::Roster;
-            None
+            season_effect(s)
         }
         Action::ShowTonight => {
             s.view = View::Tonight;
