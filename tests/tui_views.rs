@@ -754,10 +754,13 @@ fn roster_shows_progress_towards_each_goal_from_the_budget() {
         for r in &b.rows {
             let g = format!("{:.1}", r.goal_pct);
             let g = g.strip_suffix(".0").unwrap_or(&g);
-            let a = if r.achievable_pct.is_finite() {
-                format!("{:.1}", r.achievable_pct)
-            } else {
-                "—".into()
+            let a = match &r.verdict {
+                _ if r.achievable_pct.is_finite() => format!("{:.1}", r.achievable_pct),
+                rung::ladder::Verdict::NeedsMoreSeasons { seasons: Some(n) } => {
+                    format!("{n} seas")
+                }
+                rung::ladder::Verdict::NotObservable { .. } => "unobs".into(),
+                _ => "—".into(),
             };
             let mark = if r.verdict == rung::ladder::Verdict::Reachable {
                 "✓"

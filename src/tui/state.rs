@@ -287,6 +287,8 @@ pub enum Progress {
         goal_pct: f64,
         /// Whether the goal is reachable in the range.
         reached: bool,
+        /// The method's verdict.
+        verdict: crate::ladder::Verdict,
     },
     /// The budget left the target out (no method, or the method failed) or failed.
     Unavailable {
@@ -559,6 +561,7 @@ impl State {
                 achievable_pct: r.achievable_pct,
                 goal_pct: r.goal_pct,
                 reached: r.verdict == crate::ladder::Verdict::Reachable,
+                verdict: r.verdict.clone(),
             };
         }
         match b.skipped.iter().find(|x| x.0 == t.name) {

@@ -26,12 +26,13 @@ pub fn window_text(s: &State, t: &Target) -> String {
 }
 
 /// Width of the goal-progress column.
-pub const PROGRESS_W: usize = 10;
+pub const PROGRESS_W: usize = 11;
 
 /// Progress towards the distance goal: the method's predicted σd/d over the
 /// budget's months against the goal, "4.1/3%" (✓ when the budget calls the goal
-/// reachable), "…/3%" while computing, "—/3%" when the method gives nothing
-/// (not observable, no method), "—" without a goal.
+/// reachable), "4 seas/3%" when the method needs more seasons than the range
+/// to say, "unobs/3%" when not observable, "…/3%" while computing, "—/3%" when
+/// the method gives nothing (no method, failed), "—" without a goal.
 pub fn progress_text(s: &State, t: &Target) -> String {
     let g = |x: f64| {
         let t = format!("{x:.1}");
@@ -45,9 +46,15 @@ pub fn progress_text(s: &State, t: &Target) -> String {
             achievable_pct,
             goal_pct,
             reached,
+            verdict,
         } => {
+            use crate::ladder::Verdict;
             let a = if !achievable_pct.is_finite() {
-                "—".to_string()
+                match verdict {
+                    Verdict::NeedsMoreSeasons { seasons: Some(n) } => format!("{n} seas"),
+                    Verdict::NotObservable { .. } => "unobs".to_string(),
+                    _ => "—".to_string(),
+                }
             } else if achievable_pct >= 100.0 {
                 ">99".to_string()
             } else {
