@@ -242,3 +242,47 @@ fn without_a_terminal_rung_prints_tonights_table() {
         "{text}"
     );
 }
+
+/// The pid of the `rung` process in the pane (the child of the pane's shell).
+fn rung_pid(t: &Tmux) -> String {
+    let sh = String::from_utf8_lossy(
+        &t.cmd(&["display-message", "-p", "-t", "rung", "#{pane_pid}"])
+            .stdout,
+    )
+    .trim()
+    .to_string();
+    let out = Command::new("ps")
+        .args(["-o", "pid=", "--ppid", &sh])
+        .output()
+        .unwrap();
+    let pid = String::from_utf8_lossy(&out.stdout).trim().to_string();
+    assert!(
+        !pid.is_empty() && !pid.contains('\n'),
+        "rung's pid under {sh}: {pid:?}"
+    );
+    pid
+}
+
+#[test]
+fn sigterm_and_sigint_from_outside_restore_the_terminal() {
+    // POSIX: SIGTERM is 15 and SIGINT is 2; a shell reports 128 + signal (common practice).
+    for (sig, code) in [("-TERM", "RUNG-EXIT-143"), ("-INT", "RUNG-EXIT-130")] {
+        let cfg = tempfile::tempdir().unwrap();
+        let Some(t) = Tmux::start(&command(cfg.path(), "")) else {
+            return;
+        };
+        t.wait_for("Roster · 26 of 26 targets");
+        assert_eq!(t.alternate_on(), "1");
+        let pid = rung_pid(&t);
+        assert!(
+            Command::new("kill")
+                .args([sig, &pid])
+                .status()
+                .unwrap()
+                .success()
+        );
+        let s = t.wait_for(code);
+        assert!(s.contains("ended by signal"), "{s}");
+        assert_restored(&t, code);
+    }
+}

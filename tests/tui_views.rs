@@ -199,19 +199,38 @@ fn season_80x24_and_160x48_match_per_night_library_hours() {
         for t in targets.iter().take(shown.min(targets.len())) {
             assert!(has(&rows, &format!(" {}", t.name)), "{}", t.name);
         }
-        // First three columns of LPO-P02 against Night::new + night.target, nights 0, 7, 14.
+        // Every shown column of every shown target against the season engine
+        // (`rung::plan::season::scan`, the engine of `rung season`), run here
+        // over the strip's span and read every 7th night.
         let site = sites::resolve("pampa-lucero").unwrap();
-        let r = row_of(&rows, "LPO-P02");
-        let cells: Vec<char> = r.chars().skip(16).take(3).collect();
-        for (i, c) in cells.iter().enumerate() {
-            let d = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap()
-                + chrono::Days::new(7 * i as u64);
-            let hrs = Night::new(&site, d)
-                .unwrap()
-                .target(&targets[1].place(), &limits())
-                .observable_hours;
-            assert_eq!(*c, hours_glyph(hrs), "night {d}: {hrs} h");
+        let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
+        let ncol = (w as usize - 16).min(52);
+        let to = from + chrono::Days::new(7 * (ncol as u64 - 1));
+        let c = rung::plan::season::Constraints::new(30.0, -12.0, None).unwrap();
+        let listed: Vec<_> = targets.iter().take(shown.min(targets.len())).collect();
+        let places: Vec<_> = listed.iter().map(|t| t.place()).collect();
+        let mut want: Vec<Vec<f64>> = vec![Vec::new(); places.len()];
+        rung::plan::season::scan(&site, &places, from, to, &c, |n| {
+            if n.index % 7 == 0 {
+                for (w, r) in want.iter_mut().zip(n.rows) {
+                    w.push(r.observable_hours);
+                }
+            }
+            std::ops::ControlFlow::Continue(())
+        })
+        .unwrap();
+        let mut nonzero = 0;
+        for (t, hrs) in listed.iter().zip(&want) {
+            assert_eq!(hrs.len(), ncol);
+            let r = row_of(&rows, &format!(" {} ", t.name));
+            let cells: Vec<char> = r.chars().skip(16).take(ncol).collect();
+            let expect: Vec<char> = hrs.iter().map(|h| hours_glyph(*h)).collect();
+            assert_eq!(cells, expect, "{} at {w}x{h}", t.name);
+            // The cached hours are the engine's numbers exactly.
+            assert_eq!(&s.season.hours[&t.name][..ncol], &hrs[..], "{}", t.name);
+            nonzero += hrs.iter().filter(|h| **h > 0.0).count();
         }
+        assert!(nonzero > 10, "the strip shows observable nights");
         assert!(rows[(h - 2) as usize].contains("█ ≥7 h"));
         assert!(rows[(h - 2) as usize].contains("LPO-P01: most"));
     }
@@ -601,4 +620,176 @@ fn budget_view_and_export_match_the_library_budget() {
     assert_eq!(md, rung::plan::budget::markdown(&b));
     let (rows, _) = screen(&s, 80, 24);
     assert!(rows[23].starts_with("exported "), "{}", rows[23]);
+}
+
+#[test]
+fn plan_export_writes_plan_csv_ics_and_night_sheet_that_read_back() {
+    use rung::plan::schedule::{Request, schedule};
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let pick = ["LPO-P03", "LPO-C03", "LPO-T2026a"];
+    let targets: Vec<_> = demo_targets()
+        .into_iter()
+        .filter(|t| pick.contains(&t.name.as_str()))
+        .collect();
+    let dir = tempfile::tempdir().unwrap();
+    let mut s = state_with(
+        targets.clone(),
+        None,
+        dir.path().join("programme.csv"),
+        true,
+        (80, 24),
+        true,
+    );
+    // The Season strip's span: 52 columns a week apart from 2026-12-01.
+    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
+    let to = from + chrono::Days::new(51 * 7);
+    assert_eq!(s.season_span(), (from, to));
+    ch(&mut s, 'X');
+    let stem = format!("plan-pampa-lucero-{from}-to-{to}");
+    let json = dir.path().join(format!("{stem}.json"));
+    let plan = rung::plan::file::load(&json).unwrap();
+    assert_eq!(plan.format, rung::plan::file::FORMAT);
+    assert_eq!((plan.from, plan.to), (from, to));
+    assert_eq!((plan.min_alt_deg, plan.sun_alt_deg), (30.0, -12.0));
+    plan.check_targets(&targets, &json).unwrap();
+    // The visits are those of the library's scheduler called here as `rung plan` calls it.
+    let em = rung::photometry::Photometer::demo(&site).unwrap();
+    let owned = rung::ladder::methods().unwrap();
+    let ms: Vec<&dyn rung::ladder::Method> = owned.iter().map(|m| m.as_ref()).collect();
+    let want = schedule(&Request {
+        site: &site,
+        targets: &targets,
+        from,
+        to,
+        limits: limits(),
+        hours_per_night: rung::tui::state::PLAN_HOURS_PER_NIGHT,
+        methods: &ms,
+        em: &em,
+        done: vec![],
+        lost_nights: Default::default(),
+    })
+    .unwrap();
+    assert!(!want.visits.is_empty());
+    // (The plan file keeps times to the second, so compare them to that.)
+    assert_eq!(plan.visits.len(), want.visits.len());
+    for (a, b) in plan.visits.iter().zip(&want.visits) {
+        assert_eq!((&a.id, &a.target, a.night), (&b.id, &b.target, b.night));
+        assert!(a.start.seconds_since(&b.start).abs() < 1.0, "{}", a.id);
+        assert!(a.end.seconds_since(&b.end).abs() < 1.0, "{}", a.id);
+        assert_eq!(a.n_exposures, b.n_exposures);
+    }
+    // CSV: the library's text, one header and a row per visit.
+    let csv = std::fs::read_to_string(dir.path().join(format!("{stem}.csv"))).unwrap();
+    assert_eq!(csv, rung::plan::export::visits_csv(&want.visits, &site));
+    assert_eq!(csv.lines().count(), plan.visits.len() + 1);
+    // iCalendar (RFC 5545): one VCALENDAR with a VEVENT per visit.
+    let ics = std::fs::read_to_string(dir.path().join(format!("{stem}.ics"))).unwrap();
+    assert!(ics.starts_with("BEGIN:VCALENDAR\r\n"));
+    assert!(ics.trim_end().ends_with("END:VCALENDAR"));
+    assert_eq!(ics.matches("BEGIN:VEVENT").count(), plan.visits.len());
+    // Tonight's sheet.
+    let sheet =
+        std::fs::read_to_string(dir.path().join("night-pampa-lucero-2026-12-01.md")).unwrap();
+    assert!(sheet.starts_with("# Night sheet 2026-12-01 at pampa-lucero"));
+    let tonight = plan.visits.iter().filter(|v| v.night == from).count();
+    assert_eq!(
+        sheet
+            .lines()
+            .filter(|l| l.starts_with("| ") && !l.starts_with("| start") && !l.starts_with("| ---"))
+            .count(),
+        tonight
+    );
+    // The message line says where the files went.
+    let (rows, _) = screen(&s, 160, 48);
+    let msg = &rows[47];
+    assert!(
+        msg.starts_with(&format!(
+            "exported to {}: {stem}.json/.csv/.ics, night-pampa-lucero-2026-12-01.md",
+            dir.path().display()
+        )),
+        "{msg}"
+    );
+}
+
+#[test]
+fn roster_shows_progress_towards_each_goal_from_the_budget() {
+    use rung::ladder::Method;
+    use rung::ladder::parallax::ParallaxMethod;
+    use rung::ladder::pulsator::{PulsatorConfig, PulsatorMethod};
+    use rung::ladder::transient::TransientMethod;
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let pick = ["LPO-P03", "LPO-C03", "LPO-C05", "LPO-T2026a"];
+    let mut targets: Vec<_> = demo_targets()
+        .into_iter()
+        .filter(|t| pick.contains(&t.name.as_str()))
+        .collect();
+    // One target without a goal shows a dash.
+    targets[0].goal_pct = None;
+    let nogoal = targets[0].name.clone();
+    // The same call as `rung budget` over the Budget view's 12 months, made here directly.
+    let em = rung::photometry::Photometer::demo(&site).unwrap();
+    let (plx, pul, tra) = (
+        ParallaxMethod::builtin().unwrap(),
+        PulsatorMethod::with_config(PulsatorConfig::load().unwrap()),
+        TransientMethod::new().unwrap(),
+    );
+    let methods: [&dyn Method; 3] = [&plx, &pul, &tra];
+    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
+    let to = chrono::NaiveDate::from_ymd_opt(2027, 11, 30).unwrap();
+    let b = rung::plan::budget::budget(&site, &targets, &methods, &em, from, to, limits(), None)
+        .unwrap();
+    assert!(!b.rows.is_empty());
+    let dir = tempfile::tempdir().unwrap();
+    let mut s = state_with(
+        targets.clone(),
+        None,
+        dir.path().join("programme.csv"),
+        true,
+        (80, 24),
+        true,
+    );
+    for (w, h) in [(80u16, 24u16), (160, 48)] {
+        let (rows, _) = screen(&s, w, h);
+        assert!(rows[3].contains("σd/d·goal"), "{}", rows[3]);
+        for r in &b.rows {
+            let g = format!("{:.1}", r.goal_pct);
+            let g = g.strip_suffix(".0").unwrap_or(&g);
+            let a = match &r.verdict {
+                _ if r.achievable_pct.is_finite() => format!("{:.1}", r.achievable_pct),
+                rung::ladder::Verdict::NeedsMoreSeasons { seasons: Some(n) } => {
+                    format!("{n} seas")
+                }
+                rung::ladder::Verdict::NotObservable { .. } => "unobs".into(),
+                _ => "—".into(),
+            };
+            let mark = if r.verdict == rung::ladder::Verdict::Reachable {
+                "✓"
+            } else {
+                " "
+            };
+            let line = row_of(&rows, &r.target);
+            assert!(line.contains(&format!("{a}/{g}%{mark}")), "{line}");
+        }
+        assert!(row_of(&rows, &nogoal).contains(" — "));
+    }
+    // The Budget view reuses the roster's budget: no second computation.
+    assert!(rung::tui::update(&mut s, rung::tui::Msg::Act(Action::ShowBudget)).is_none());
+    assert_eq!(s.view, View::Budget);
+    // While the budget is computed the column says so.
+    let (mut fresh, _) = rung::tui::init(rung::tui::Setup {
+        sites: sites::catalogue().unwrap(),
+        site: site.clone(),
+        date: Some(from),
+        now: test_now(),
+        targets: targets.clone(),
+        programme: s.programme.clone(),
+        size: (80, 24),
+        theme: rung::tui::theme::Theme { color: false },
+        message: None,
+        instrument: s.instrument.clone(),
+        instruments: s.instruments.clone(),
+    });
+    fresh.size = (80, 24);
+    let (rows, _) = screen(&fresh, 80, 24);
+    assert!(row_of(&rows, &targets[1].name).contains("…/"), "{rows:?}");
 }

@@ -1,6 +1,6 @@
 //! `rung tui` (and `rung` alone on a terminal): the terminal runner. It owns the
-//! terminal (raw mode, alternate screen, restored on exit, on panic and on
-//! Ctrl-C), turns terminal events into `Msg`s, runs `Effect`s (computations on
+//! terminal (raw mode, alternate screen, restored on exit, on panic, on
+//! Ctrl-C and on SIGTERM/SIGINT/SIGHUP sent from outside), turns terminal events into `Msg`s, runs `Effect`s (computations on
 //! background threads, saves at once) and redraws.
 
 use anyhow::{Context as _, Result};
@@ -186,7 +186,30 @@ fn apply(state: &mut rung::tui::State, msg: Msg, tx: &mpsc::Sender<Msg>) {
     }
 }
 
-fn event_loop(terminal: &mut ratatui::DefaultTerminal, mut setup: Setup) -> Result<()> {
+/// Signals that end the UI from outside (kill, a closed terminal, Ctrl-C sent
+/// by another process); each sets a flag the event loop checks, so the terminal
+/// is restored before the process ends.
+const END_SIGNALS: [i32; 3] = [
+    signal_hook::consts::SIGTERM,
+    signal_hook::consts::SIGINT,
+    signal_hook::consts::SIGHUP,
+];
+
+/// Register the end signals; the returned cell holds the signal number once one arrives.
+fn watch_signals() -> Result<std::sync::Arc<std::sync::atomic::AtomicUsize>> {
+    let got = std::sync::Arc::new(std::sync::atomic::AtomicUsize::new(0));
+    for sig in END_SIGNALS {
+        signal_hook::flag::register_usize(sig, got.clone(), sig as usize)
+            .with_context(|| format!("cannot watch signal {sig}"))?;
+    }
+    Ok(got)
+}
+
+fn event_loop(
+    terminal: &mut ratatui::DefaultTerminal,
+    mut setup: Setup,
+    signalled: &std::sync::atomic::AtomicUsize,
+) -> Result<()> {
     use crossterm::event::{self, Event};
     let size = terminal.size()?;
     setup.size = (size.width, size.height);
@@ -207,7 +230,7 @@ fn event_loop(terminal: &mut ratatui::DefaultTerminal, mut setup: Setup) -> Resu
         if panic_test {
             panic!("RUNG_TUI_TEST_PANIC is set: panicking on purpose to test terminal restore");
         }
-        if state.quit {
+        if state.quit || signalled.load(std::sync::atomic::Ordering::Relaxed) != 0 {
             return Ok(());
         }
         if event::poll(Duration::from_millis(200))? {
@@ -233,8 +256,15 @@ fn event_loop(terminal: &mut ratatui::DefaultTerminal, mut setup: Setup) -> Resu
 pub fn run(a: Args) -> Result<()> {
     let setup = setup(&a)?;
     // ratatui's init installs a panic hook that restores the terminal first.
+    let signalled = watch_signals()?;
     let mut terminal = ratatui::try_init().context("cannot open the terminal")?;
-    let res = event_loop(&mut terminal, setup);
+    let res = event_loop(&mut terminal, setup, &signalled);
     ratatui::restore();
+    let sig = signalled.load(std::sync::atomic::Ordering::Relaxed);
+    if sig != 0 {
+        // Terminal restored; end as the signal asked, with the shell's 128 + signal status.
+        eprintln!("rung: ended by signal {sig}; unsaved changes are not saved");
+        std::process::exit(128 + sig as i32);
+    }
     res
 }

@@ -11,10 +11,13 @@ use crate::ladder::parallax::ParallaxMethod;
 use crate::ladder::pulsator::{PulsatorConfig, PulsatorMethod};
 use crate::ladder::transient::{ChaseOptions, TransientConfig, TransientMethod, night_of};
 use crate::photometry::Photometer;
-use crate::tui::msg::{Effect, Msg, NightJob, SeasonJob, SeasonRows};
+use crate::plan::season::{
+    Constraints, NightSky, PreparedPlace, ScanSetup, TargetNightRow, scan_night,
+};
+use crate::tui::msg::{Effect, Msg, NightJob, PlanJob, SeasonJob, SeasonRows, SeasonSky};
 use crate::tui::state::{
     BUDGET_MONTHS, BudgetKey, MethodBody, MethodKey, MethodResult, NightData, PARALLAX_MONTHS,
-    PHASE_NIGHTS, TargetRow, View,
+    PHASE_NIGHTS, SeasonKey, TargetRow, View,
 };
 use rayon::prelude::*;
 use std::sync::Arc;
@@ -76,38 +79,62 @@ pub fn night_data(job: &NightJob) -> Result<NightData> {
     })
 }
 
-/// Season rows for a job: a loop over nights (`Night::new`) and `night.target`
-/// for the targets asked for. (To be replaced by the season engine once it is merged.)
+/// The nights of a season strip as the season engine prepares them: one
+/// [`NightSky`] per column (every `step_days` from `from`) and the scan setup
+/// shared by all of them (`rung::plan::season`, the engine of `rung season`).
+pub fn season_sky(site: &crate::astro::site::Site, k: &SeasonKey) -> Result<SeasonSky> {
+    let c = season_constraints(&k.limits)?;
+    let skies: Vec<NightSky> = (0..k.nights)
+        .into_par_iter()
+        .map(|i| {
+            let d = k.from + chrono::Days::new((i * k.step_days) as u64);
+            NightSky::new(site, d, &c)
+        })
+        .collect::<Result<_>>()?;
+    let first = skies.first().ok_or_else(|| {
+        crate::error::RungError::invalid("season", "a season strip needs at least one night")
+    })?;
+    let setup = ScanSetup::new(site, &c, first);
+    Ok(SeasonSky { setup, skies })
+}
+
+/// The season engine's constraints for the UI's limits (no Moon limit, as the
+/// night table has none).
+pub fn season_constraints(l: &crate::astro::night::Limits) -> Result<Constraints> {
+    Constraints::new(l.min_alt_deg, l.sun_alt_deg, None)
+}
+
+/// Season rows for a job: observable hours of the asked targets on every night
+/// of the strip, from the season engine's `scan_night` (the nights are prepared
+/// once per key with [`season_sky`] and shared by later jobs).
 pub fn season_rows(job: &SeasonJob) -> Result<SeasonRows> {
     let k = &job.key;
-    let nights = match &job.nights {
+    let sky = match &job.nights {
         Some(n) => n.clone(),
-        None => {
-            let list: Result<Vec<Night>> = (0..k.nights)
-                .into_par_iter()
-                .map(|i| {
-                    let d = k.from + chrono::Days::new((i * k.step_days) as u64);
-                    Night::new(&job.site, d)
-                })
-                .collect();
-            Arc::new(list?)
-        }
+        None => Arc::new(season_sky(&job.site, k)?),
     };
+    let places: Vec<PreparedPlace> = job
+        .targets
+        .iter()
+        .map(|t| PreparedPlace::new(&t.place()))
+        .collect();
+    let mut hours = vec![Vec::with_capacity(sky.skies.len()); places.len()];
+    let mut rows: Vec<TargetNightRow> = Vec::with_capacity(places.len());
+    for night in &sky.skies {
+        scan_night(&sky.setup, night, &places, &mut rows);
+        for (h, r) in hours.iter_mut().zip(&rows) {
+            h.push(r.observable_hours);
+        }
+    }
     let rows = job
         .targets
-        .par_iter()
-        .map(|t| {
-            let place = t.place();
-            let hours = nights
-                .iter()
-                .map(|n| n.target(&place, &k.limits).observable_hours)
-                .collect();
-            (t.name.clone(), hours)
-        })
+        .iter()
+        .map(|t| t.name.clone())
+        .zip(hours)
         .collect();
     Ok(SeasonRows {
         key: k.clone(),
-        nights,
+        nights: sky,
         rows,
     })
 }
@@ -242,6 +269,79 @@ pub fn budget_for(k: &BudgetKey) -> Result<crate::plan::budget::Budget> {
     )
 }
 
+/// The files of a plan export, named after the site and span.
+pub fn plan_paths(job: &PlanJob) -> [std::path::PathBuf; 4] {
+    let stem = format!("plan-{}-{}-to-{}", job.site.name, job.from, job.to);
+    [
+        job.dir.join(format!("{stem}.json")),
+        job.dir.join(format!("{stem}.csv")),
+        job.dir.join(format!("{stem}.ics")),
+        job.dir
+            .join(format!("night-{}-{}.md", job.site.name, job.sheet_night)),
+    ]
+}
+
+/// Schedule the job's span (`plan::schedule::schedule` with
+/// `ladder::methods()` and the instrument's photometer, as `rung plan` does)
+/// and write, atomically, the plan file (`plan::file::save`), the visits as CSV
+/// (`plan::export::visits_csv`), as iCalendar (`plan::export::ics`) and the
+/// night sheet of `sheet_night` (`plan::export::night_sheet`). Returns the
+/// files written.
+pub fn export_plan(job: &PlanJob) -> Result<Vec<std::path::PathBuf>> {
+    use crate::plan::export;
+    use crate::plan::file::{self, FORMAT, PlanFile};
+    use crate::plan::schedule::{self, Request, fingerprint};
+    let em = Photometer::from_name(&job.instrument, &job.site)?;
+    let owned = crate::ladder::methods()?;
+    let ms: Vec<&dyn crate::ladder::Method> = owned.iter().map(|m| m.as_ref()).collect();
+    let req = Request {
+        site: &job.site,
+        targets: &job.targets,
+        from: job.from,
+        to: job.to,
+        limits: job.limits,
+        hours_per_night: job.hours_per_night,
+        methods: &ms,
+        em: &em,
+        done: vec![],
+        lost_nights: Default::default(),
+    };
+    let sch = schedule::schedule(&req)?;
+    let plan = PlanFile {
+        format: FORMAT.into(),
+        site: job.site_spec.clone(),
+        targets_file: job.targets_file.clone(),
+        targets_fingerprint: fingerprint(&job.targets),
+        from: job.from,
+        to: job.to,
+        hours_per_night: job.hours_per_night,
+        min_alt_deg: job.limits.min_alt_deg,
+        sun_alt_deg: job.limits.sun_alt_deg,
+        lost_nights: Default::default(),
+        visits: sch.visits,
+    };
+    let [json, csv, ics, sheet] = plan_paths(job);
+    std::fs::create_dir_all(&job.dir).map_err(|e| crate::error::RungError::Io {
+        path: job.dir.clone(),
+        source: e,
+    })?;
+    file::save(&plan, &json)?;
+    write_atomic(&csv, export::visits_csv(&plan.visits, &job.site).as_bytes())?;
+    write_atomic(
+        &ics,
+        export::ics(&plan.visits, &job.site, job.stamp).as_bytes(),
+    )?;
+    let header = format!(
+        "Plan {} to {}, {:.1} h per night, window above {:.0}° with the Sun below {:.0}°.",
+        plan.from, plan.to, plan.hours_per_night, plan.min_alt_deg, plan.sun_alt_deg
+    );
+    write_atomic(
+        &sheet,
+        export::night_sheet(&plan.visits, &job.site, job.sheet_night, &header).as_bytes(),
+    )?;
+    Ok(vec![json, csv, ics, sheet])
+}
+
 /// Save: keep the original once as a backup, then write the programme atomically.
 pub fn save(
     path: &std::path::Path,
@@ -295,6 +395,9 @@ pub fn run(effect: Effect) -> Vec<Msg> {
                 None => Ok(done),
             })]
         }
+        Effect::ExportPlan(job) => vec![Msg::Exported(
+            export_plan(&job).map_err(|e| format!("plan not exported: {e}")),
+        )],
         Effect::Save { path, text, backup } => {
             vec![Msg::Saved(save(&path, &text, backup.as_ref()))]
         }

@@ -1,7 +1,7 @@
 //! Everything that can happen to the UI ([`Msg`]), the actions keys are bound
 //! to ([`Action`]), and the side effects `update` asks for ([`Effect`]).
 
-use crate::astro::night::{Limits, Night};
+use crate::astro::night::Limits;
 use crate::astro::site::Site;
 use crate::astro::time::Instant;
 use crate::io::targets::Target;
@@ -41,6 +41,9 @@ pub enum Action {
     ShowBudget,
     /// Export the budget (CSV and Markdown) beside the programme file.
     Export,
+    /// Schedule the Season view's span and export the plan (JSON, CSV,
+    /// iCalendar) and tonight's night sheet beside the programme file.
+    ExportPlan,
     /// Selection up one row.
     Up,
     /// Selection down one row.
@@ -113,13 +116,22 @@ pub enum Action {
     No,
 }
 
+/// The prepared nights of a season strip (season engine), shared by its jobs.
+#[derive(Debug, Clone)]
+pub struct SeasonSky {
+    /// What does not change from night to night.
+    pub setup: crate::plan::season::ScanSetup,
+    /// One night per column.
+    pub skies: Vec<crate::plan::season::NightSky>,
+}
+
 /// A computed season strip for some targets.
 #[derive(Debug, Clone)]
 pub struct SeasonRows {
     /// What the rows are for.
     pub key: SeasonKey,
     /// The nights of the strip (shared with later jobs for the same key).
-    pub nights: Arc<Vec<Night>>,
+    pub nights: Arc<SeasonSky>,
     /// Observable hours per night, by target name.
     pub rows: Vec<(String, Vec<f64>)>,
 }
@@ -179,9 +191,39 @@ pub struct SeasonJob {
     /// Site.
     pub site: Site,
     /// Nights already computed for this key, if any.
-    pub nights: Option<Arc<Vec<Night>>>,
+    pub nights: Option<Arc<SeasonSky>>,
     /// Targets to compute.
     pub targets: Vec<Target>,
+}
+
+/// A job for the plan export: schedule a span with the library's scheduler and
+/// write the plan (JSON, CSV, iCalendar) and one night's sheet into `dir`.
+#[derive(Debug, Clone)]
+pub struct PlanJob {
+    /// Site.
+    pub site: Site,
+    /// The site as a plan file names it (catalogue name or inline coordinates).
+    pub site_spec: String,
+    /// The programme.
+    pub targets: Vec<Target>,
+    /// The programme file, as the plan file records it.
+    pub targets_file: String,
+    /// First night.
+    pub from: chrono::NaiveDate,
+    /// Last night, inclusive.
+    pub to: chrono::NaiveDate,
+    /// Window limits.
+    pub limits: Limits,
+    /// Telescope hours per night.
+    pub hours_per_night: f64,
+    /// Instrument name (its photometer gives the exposures).
+    pub instrument: String,
+    /// The night whose sheet is written.
+    pub sheet_night: chrono::NaiveDate,
+    /// The iCalendar DTSTAMP.
+    pub stamp: Instant,
+    /// Folder the files go to.
+    pub dir: PathBuf,
 }
 
 /// Side effects `update` asks the runner to perform.
@@ -195,6 +237,8 @@ pub enum Effect {
     Budget(Box<BudgetKey>),
     /// Write export files atomically (path, contents).
     Export(Vec<(PathBuf, String)>),
+    /// Build a schedule and write the plan files (in the background).
+    ExportPlan(Box<PlanJob>),
     /// Compute a distance-method report for one target (in the background).
     Method(Box<MethodKey>),
     /// Write the programme atomically; first keep a copy of the original file when asked.

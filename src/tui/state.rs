@@ -1,7 +1,7 @@
 //! The one [`State`] of the UI and the results cached in it.
 
 use crate::astro::frames::Context;
-use crate::astro::night::{Limits, Night, NightEvents, TargetNight};
+use crate::astro::night::{Limits, NightEvents, TargetNight};
 use crate::astro::site::Site;
 use crate::astro::time::Instant;
 use crate::io::targets::Target;
@@ -204,7 +204,7 @@ pub struct SeasonData {
     /// What the cached rows are for.
     pub key: Option<SeasonKey>,
     /// The nights, once computed.
-    pub nights: Option<Arc<Vec<Night>>>,
+    pub nights: Option<Arc<crate::tui::msg::SeasonSky>>,
     /// Hours by target name.
     pub hours: HashMap<String, Vec<f64>>,
     /// Targets being computed.
@@ -269,8 +269,41 @@ pub struct BudgetKey {
     pub limits: Limits,
 }
 
+/// A target's progress towards its distance goal, as the Roster shows it.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Progress {
+    /// The target has no distance goal.
+    NoGoal,
+    /// The budget is being computed.
+    Pending {
+        /// Goal σd/d, percent.
+        goal_pct: f64,
+    },
+    /// The method's prediction over the budget's months.
+    Predicted {
+        /// What the method reaches, percent (not finite when nothing can be observed).
+        achievable_pct: f64,
+        /// Goal σd/d, percent.
+        goal_pct: f64,
+        /// Whether the goal is reachable in the range.
+        reached: bool,
+        /// The method's verdict.
+        verdict: crate::ladder::Verdict,
+    },
+    /// The budget left the target out (no method, or the method failed) or failed.
+    Unavailable {
+        /// Goal σd/d, percent.
+        goal_pct: f64,
+        /// Why.
+        why: String,
+    },
+}
+
 /// Months a budget covers.
 pub const BUDGET_MONTHS: u32 = 12;
+
+/// Telescope hours per night the plan export schedules (at most the dark time of each night).
+pub const PLAN_HOURS_PER_NIGHT: f64 = 8.0;
 
 /// Months the Parallax view covers (as `rung parallax` by default).
 pub const PARALLAX_MONTHS: u32 = 36;
@@ -494,6 +527,52 @@ impl State {
         (*k == self.budget_key()).then_some(b)
     }
 
+    /// A target's progress towards its goal from the budget for the current site,
+    /// date, instrument and limits (the Budget view's result, computed once).
+    /// A budget made before an edit still answers for targets the edit left as
+    /// they were, so the column does not blank out while it is recomputed.
+    pub fn progress(&self, t: &Target) -> Progress {
+        let Some(goal_pct) = t.goal_pct else {
+            return Progress::NoGoal;
+        };
+        let now = self.budget_key();
+        let Some((k, b)) = self.budget.as_ref() else {
+            return Progress::Pending { goal_pct };
+        };
+        let same = k.site == now.site
+            && k.date == now.date
+            && k.instrument == now.instrument
+            && k.limits == now.limits
+            && k.targets.contains(t);
+        if !same {
+            return Progress::Pending { goal_pct };
+        }
+        let b = match b {
+            Ok(b) => b,
+            Err(e) => {
+                return Progress::Unavailable {
+                    goal_pct,
+                    why: e.clone(),
+                };
+            }
+        };
+        if let Some(r) = b.rows.iter().find(|r| r.target == t.name) {
+            return Progress::Predicted {
+                achievable_pct: r.achievable_pct,
+                goal_pct: r.goal_pct,
+                reached: r.verdict == crate::ladder::Verdict::Reachable,
+                verdict: r.verdict.clone(),
+            };
+        }
+        match b.skipped.iter().find(|x| x.0 == t.name) {
+            Some((_, why)) => Progress::Unavailable {
+                goal_pct,
+                why: why.clone(),
+            },
+            None => Progress::Pending { goal_pct },
+        }
+    }
+
     /// The report for the current view and selection, when computed.
     pub fn method_now(&self) -> Option<&MethodBody> {
         let m = self.method.as_ref()?;
@@ -510,6 +589,13 @@ impl State {
             nights: SEASON_NIGHTS,
             limits: self.limits,
         }
+    }
+
+    /// First and last night of the Season view's strip (the span the plan export schedules).
+    pub fn season_span(&self) -> (NaiveDate, NaiveDate) {
+        let k = self.season_key();
+        let last = (k.nights.max(1) - 1) * k.step_days;
+        (k.from, k.from + chrono::Days::new(last as u64))
     }
 
     /// Rebuild `order` from the targets, filter and sort; keep the selected target selected.

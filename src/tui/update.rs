@@ -9,10 +9,10 @@ use crate::io::targets::Target;
 use crate::io::write_targets::to_csv;
 use crate::tui::form::Form;
 use crate::tui::keymap::{self, Scope};
-use crate::tui::msg::{Action, Effect, Msg, NightJob, SeasonJob};
+use crate::tui::msg::{Action, Effect, Msg, NightJob, PlanJob, SeasonJob};
 use crate::tui::state::{
-    Level, Overlay, Programme, Question, SeasonData, SkyNow, SortKey, State, UNDO_DEPTH, View,
-    scroll_offset,
+    Level, Overlay, PLAN_HOURS_PER_NIGHT, Programme, Question, SeasonData, SkyNow, SortKey, State,
+    UNDO_DEPTH, View, scroll_offset,
 };
 use crate::tui::theme::Theme;
 use chrono::{Months, NaiveDate};
@@ -157,9 +157,10 @@ fn season_effect(s: &mut State) -> Option<Effect> {
     Effect::join(b, budget_effect(s))
 }
 
-/// Ask for the budget when the Budget view shows and it is not cached.
+/// Ask for the budget when the Budget view or the Roster (its goal-progress
+/// column) shows and it is not cached.
 fn budget_effect(s: &mut State) -> Option<Effect> {
-    if s.view != View::Budget {
+    if !matches!(s.view, View::Budget | View::Roster) {
         return None;
     }
     let k = s.budget_key();
@@ -179,12 +180,7 @@ fn export(s: &mut State) -> Option<Effect> {
         );
         return None;
     };
-    let dir = s
-        .programme
-        .save_path
-        .parent()
-        .map(|p| p.to_path_buf())
-        .unwrap_or_default();
+    let dir = export_dir(s);
     let stem = format!("budget-{}-{}", s.site.name, s.date);
     let files = vec![
         (dir.join(format!("{stem}.csv")), crate::plan::budget::csv(b)),
@@ -195,6 +191,50 @@ fn export(s: &mut State) -> Option<Effect> {
     ];
     say(s, "exporting …", Level::Info);
     Some(Effect::Export(files))
+}
+
+fn export_dir(s: &State) -> std::path::PathBuf {
+    s.programme
+        .save_path
+        .parent()
+        .map(|p| p.to_path_buf())
+        .unwrap_or_default()
+}
+
+/// Schedule the Season view's span and export the plan and tonight's sheet (in the background).
+fn export_plan(s: &mut State) -> Option<Effect> {
+    if s.targets.is_empty() {
+        say(s, "nothing to plan: the programme is empty", Level::Warn);
+        return None;
+    }
+    let (from, to) = s.season_span();
+    let targets_file = s
+        .programme
+        .source
+        .as_ref()
+        .unwrap_or(&s.programme.save_path)
+        .display()
+        .to_string();
+    let job = PlanJob {
+        site: s.site.clone(),
+        site_spec: s.site.name.clone(),
+        targets: s.targets.clone(),
+        targets_file,
+        from,
+        to,
+        limits: s.limits,
+        hours_per_night: PLAN_HOURS_PER_NIGHT,
+        instrument: s.instrument.clone(),
+        sheet_night: s.date,
+        stamp: s.now,
+        dir: export_dir(s),
+    };
+    say(
+        s,
+        format!("planning {from} to {to} ({PLAN_HOURS_PER_NIGHT:.0} h a night) and exporting …"),
+        Level::Info,
+    );
+    Some(Effect::ExportPlan(Box::new(job)))
 }
 
 /// Ask for the Phase or Chase report of the selected target when it is not cached.
@@ -527,7 +567,7 @@ fn act_main(s: &mut State, a: Action) -> Option<Effect> {
         }
         Action::ShowRoster => {
             s.view = View::Roster;
-            None
+            season_effect(s)
         }
         Action::ShowTonight => {
             s.view = View::Tonight;
@@ -542,6 +582,7 @@ fn act_main(s: &mut State, a: Action) -> Option<Effect> {
             season_effect(s)
         }
         Action::Export => export(s),
+        Action::ExportPlan => export_plan(s),
         Action::ShowParallax => {
             s.view = View::Parallax;
             season_effect(s)
@@ -681,6 +722,37 @@ fn act_main(s: &mut State, a: Action) -> Option<Effect> {
     }
 }
 
+/// "exported to DIR: a.json/.csv, b.md" when the files share a folder (files
+/// with the same stem joined), else their full paths.
+pub fn exported_text(files: &[std::path::PathBuf]) -> String {
+    let dir = files.first().and_then(|f| f.parent());
+    let same = dir.is_some() && files.iter().all(|f| f.parent() == dir);
+    let Some(d) = dir.filter(|_| same) else {
+        let names: Vec<String> = files.iter().map(|p| p.display().to_string()).collect();
+        return format!("exported {}", names.join(", "));
+    };
+    let mut groups: Vec<(String, Vec<String>)> = Vec::new();
+    for f in files {
+        let stem = f
+            .file_stem()
+            .map(|x| x.to_string_lossy().into_owned())
+            .unwrap_or_default();
+        let ext = f
+            .extension()
+            .map(|x| format!(".{}", x.to_string_lossy()))
+            .unwrap_or_default();
+        match groups.iter_mut().find(|g| g.0 == stem) {
+            Some(g) => g.1.push(ext),
+            None => groups.push((stem, vec![ext])),
+        }
+    }
+    let names: Vec<String> = groups
+        .into_iter()
+        .map(|(stem, exts)| format!("{stem}{}", exts.join("/")))
+        .collect();
+    format!("exported to {}: {}", d.display(), names.join(", "))
+}
+
 /// Apply one message; return the side effect it asks for.
 pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
     match msg {
@@ -793,8 +865,7 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
             None
         }
         Msg::Exported(Ok(files)) => {
-            let names: Vec<String> = files.iter().map(|p| p.display().to_string()).collect();
-            say(s, format!("exported {}", names.join(", ")), Level::Good);
+            say(s, exported_text(&files), Level::Good);
             None
         }
         Msg::Exported(Err(e)) => {

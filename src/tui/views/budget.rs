@@ -142,7 +142,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         buf,
         area.x,
         fy + 1,
-        "x exports this budget (CSV and Markdown) beside the programme file",
+        "x: budget CSV + Markdown · X: plan JSON, CSV, iCal + night sheet",
         area.width,
         th.dim(),
     );

@@ -1,7 +1,7 @@
 //! Roster: every target of the programme with tonight's window.
 
 use crate::io::targets::Target;
-use crate::tui::state::{State, scroll_offset};
+use crate::tui::state::{Progress, State, scroll_offset};
 use crate::tui::theme::kind_glyph;
 use crate::tui::views::fmt::{dec_text, fit, hm, num, put, ra_text, rfit};
 use ratatui::buffer::Buffer;
@@ -22,6 +22,46 @@ pub fn window_text(s: &State, t: &Target) -> String {
                 )
             }
         },
+    }
+}
+
+/// Width of the goal-progress column.
+pub const PROGRESS_W: usize = 11;
+
+/// Progress towards the distance goal: the method's predicted σd/d over the
+/// budget's months against the goal, "4.1/3%" (✓ when the budget calls the goal
+/// reachable), "4 seas/3%" when the method needs more seasons than the range
+/// to say, "unobs/3%" when not observable, "…/3%" while computing, "—/3%" when
+/// the method gives nothing (no method, failed), "—" without a goal.
+pub fn progress_text(s: &State, t: &Target) -> String {
+    let g = |x: f64| {
+        let t = format!("{x:.1}");
+        t.strip_suffix(".0").map(str::to_string).unwrap_or(t)
+    };
+    match s.progress(t) {
+        Progress::NoGoal => "—".into(),
+        Progress::Pending { goal_pct } => format!("…/{}%", g(goal_pct)),
+        Progress::Unavailable { goal_pct, .. } => format!("—/{}%", g(goal_pct)),
+        Progress::Predicted {
+            achievable_pct,
+            goal_pct,
+            reached,
+            verdict,
+        } => {
+            use crate::ladder::Verdict;
+            let a = if !achievable_pct.is_finite() {
+                match verdict {
+                    Verdict::NeedsMoreSeasons { seasons: Some(n) } => format!("{n} seas"),
+                    Verdict::NotObservable { .. } => "unobs".to_string(),
+                    _ => "—".to_string(),
+                }
+            } else if achievable_pct >= 100.0 {
+                ">99".to_string()
+            } else {
+                format!("{achievable_pct:.1}")
+            };
+            format!("{a}/{}%{}", g(goal_pct), if reached { "✓" } else { " " })
+        }
     }
 }
 
@@ -78,13 +118,8 @@ fn header_and_cells(s: &State, t: Option<&Target>, wide: bool) -> Vec<(String, u
             true,
         ),
         (
-            t.map(|t| {
-                t.goal_pct
-                    .map(|g| format!("{g}%"))
-                    .unwrap_or_else(|| "—".into())
-            })
-            .unwrap_or("goal".into()),
-            5,
+            t.map(|t| progress_text(s, t)).unwrap_or("σd/d·goal".into()),
+            PROGRESS_W,
             true,
         ),
     ];
