@@ -254,6 +254,28 @@ fn method_report_inner(k: &MethodKey) -> Result<MethodBody> {
 /// target's goal through its method's `goal` (the same `plan::budget::budget`
 /// as `rung budget`), exposures from the chosen instrument.
 pub fn budget_for(k: &BudgetKey) -> Result<crate::plan::budget::Budget> {
+    // The last few budgets are kept: reopening the same programme, or going
+    // back to a month already seen, costs nothing.
+    use std::sync::{Mutex, OnceLock};
+    type Memo = Mutex<Vec<(BudgetKey, crate::plan::budget::Budget)>>;
+    static MEMO: OnceLock<Memo> = OnceLock::new();
+    let memo = MEMO.get_or_init(|| Mutex::new(Vec::new()));
+    if let Ok(m) = memo.lock()
+        && let Some((_, b)) = m.iter().find(|(key, _)| key == k)
+    {
+        return Ok(b.clone());
+    }
+    let b = budget_uncached(k)?;
+    if let Ok(mut m) = memo.lock() {
+        if m.len() >= 8 {
+            m.remove(0);
+        }
+        m.push((k.clone(), b.clone()));
+    }
+    Ok(b)
+}
+
+fn budget_uncached(k: &BudgetKey) -> Result<crate::plan::budget::Budget> {
     let em = Photometer::from_name(&k.instrument, &k.site)?;
     let plx = ParallaxMethod::builtin()?;
     let pul = PulsatorMethod::with_config(PulsatorConfig::load()?);

@@ -8,6 +8,7 @@ use crate::io::targets::Target;
 use crate::tui::form::Form;
 use crate::tui::keymap::Scope;
 use crate::tui::theme::Theme;
+use chrono::Datelike;
 use chrono::NaiveDate;
 use std::collections::{HashMap, HashSet};
 use std::path::PathBuf;
@@ -515,7 +516,9 @@ impl State {
         BudgetKey {
             targets: self.targets.clone(),
             site: self.site.clone(),
-            date: self.date,
+            // A season budget starts on the first of the month shown, so that
+            // stepping nights inside a month does not ask for a new one.
+            date: self.date.with_day(1).unwrap_or(self.date),
             instrument: self.instrument.clone(),
             limits: self.limits,
         }
