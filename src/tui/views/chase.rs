@@ -23,40 +23,10 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         return;
     }
     let name = s.selected().map(|t| t.name.clone()).unwrap_or_default();
-    let c = match s.method_now() {
-        None => {
-            put(
-                buf,
-                area.x,
-                area.y,
-                &format!("Chase · {name}"),
-                area.width,
-                th.title(),
-            );
-            put(
-                buf,
-                area.x,
-                area.y + 2,
-                "computing the chase…",
-                area.width,
-                th.dim(),
-            );
-            return;
-        }
-        Some(MethodBody::Chase(c)) => c,
-        Some(MethodBody::NotApplicable(m)) | Some(MethodBody::Failed(m)) => {
-            put(
-                buf,
-                area.x,
-                area.y,
-                &format!("Chase · {name}"),
-                area.width,
-                th.title(),
-            );
-            put(buf, area.x, area.y + 2, m, area.width, th.notice());
-            return;
-        }
-        Some(_) => return,
+    let Some(MethodBody::Chase(c)) =
+        super::method_report(s, area, buf, "Chase", "computing the chase…")
+    else {
+        return;
     };
     let d = &c.design;
     let cadence = if d.cadence_days == 1 {

@@ -236,3 +236,41 @@ pub fn render_all(s: &State, area: Rect, buf: &mut Buffer) {
         Some(Overlay::Question(q)) => overlays::question(s, q, body, buf),
     }
 }
+
+/// The method report the current view should draw, or `None` after drawing
+/// the view's title and why there is nothing yet: still computing (`waiting`),
+/// not applicable to the selected target, or failed.
+pub fn method_report<'a>(
+    s: &'a State,
+    area: Rect,
+    buf: &mut Buffer,
+    view: &str,
+    waiting: &str,
+) -> Option<&'a crate::tui::state::MethodBody> {
+    use crate::tui::state::MethodBody;
+    let th = &s.theme;
+    let name = s.selected().map(|t| t.name.clone()).unwrap_or_default();
+    let title = |buf: &mut Buffer| {
+        fmt::put(
+            buf,
+            area.x,
+            area.y,
+            &format!("{view} · {name}"),
+            area.width,
+            th.title(),
+        );
+    };
+    match s.method_now() {
+        None => {
+            title(buf);
+            fmt::put(buf, area.x, area.y + 2, waiting, area.width, th.dim());
+            None
+        }
+        Some(MethodBody::NotApplicable(m)) | Some(MethodBody::Failed(m)) => {
+            title(buf);
+            fmt::put(buf, area.x, area.y + 2, m, area.width, th.notice());
+            None
+        }
+        Some(b) => Some(b),
+    }
+}

@@ -25,40 +25,14 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         return;
     }
     let name = s.selected().map(|t| t.name.clone()).unwrap_or_default();
-    let p = match s.method_now() {
-        None => {
-            put(
-                buf,
-                area.x,
-                area.y,
-                &format!("Parallax · {name}"),
-                area.width,
-                th.title(),
-            );
-            put(
-                buf,
-                area.x,
-                area.y + 2,
-                "computing the parallax factors and epochs…",
-                area.width,
-                th.dim(),
-            );
-            return;
-        }
-        Some(MethodBody::Parallax(p)) => p,
-        Some(MethodBody::NotApplicable(m)) | Some(MethodBody::Failed(m)) => {
-            put(
-                buf,
-                area.x,
-                area.y,
-                &format!("Parallax · {name}"),
-                area.width,
-                th.title(),
-            );
-            put(buf, area.x, area.y + 2, m, area.width, th.notice());
-            return;
-        }
-        Some(_) => return,
+    let Some(MethodBody::Parallax(p)) = super::method_report(
+        s,
+        area,
+        buf,
+        "Parallax",
+        "computing the parallax factors and epochs…",
+    ) else {
+        return;
     };
     put(
         buf,

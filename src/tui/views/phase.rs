@@ -39,40 +39,10 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         return;
     }
     let name = s.selected().map(|t| t.name.clone()).unwrap_or_default();
-    let r = match s.method_now() {
-        None => {
-            put(
-                buf,
-                area.x,
-                area.y,
-                &format!("Phase · {name}"),
-                area.width,
-                th.title(),
-            );
-            put(
-                buf,
-                area.x,
-                area.y + 2,
-                "computing the phase coverage…",
-                area.width,
-                th.dim(),
-            );
-            return;
-        }
-        Some(MethodBody::Phase(r)) => r,
-        Some(MethodBody::NotApplicable(m)) | Some(MethodBody::Failed(m)) => {
-            put(
-                buf,
-                area.x,
-                area.y,
-                &format!("Phase · {name}"),
-                area.width,
-                th.title(),
-            );
-            put(buf, area.x, area.y + 2, m, area.width, th.notice());
-            return;
-        }
-        Some(_) => return,
+    let Some(MethodBody::Phase(r)) =
+        super::method_report(s, area, buf, "Phase", "computing the phase coverage…")
+    else {
+        return;
     };
     let e = &r.star.ephemeris;
     put(
