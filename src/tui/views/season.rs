@@ -3,7 +3,7 @@
 use crate::tui::state::{State, scroll_offset};
 use crate::tui::theme::{hours_glyph, kind_glyph};
 use crate::tui::views::fmt::{fit, put};
-use chrono::Datelike;
+use chrono::{Datelike, NaiveDate};
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
 
@@ -35,21 +35,34 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     put(buf, area.x, area.y, &title, area.width, th.title());
     let ncol = (key.nights as u16).min(area.width - NAME_W);
     let cx = area.x + NAME_W;
-    // Month labels where a month begins.
-    let mut last_end = 0u16;
-    for c in 0..ncol {
-        let d = key.from + chrono::Days::new((c as u32 * step) as u64);
-        let first = c == 0 || d.day() <= step;
-        if first && c >= last_end {
-            let label = if d.month() == 1 {
-                d.format("%Y").to_string()
-            } else {
-                d.format("%b").to_string()
-            };
-            if c + 3 <= ncol {
-                let end = put(buf, cx + c, area.y + 1, &label, ncol - c, th.header());
-                last_end = end - cx + 1;
-            }
+    // Month labels where a month begins, each in the longest form that fits
+    // before the next: January carries the year ("Jan 2027", "2027", "'27").
+    let starts: Vec<(u16, NaiveDate)> = (0..ncol)
+        .filter_map(|c| {
+            let d = key.from + chrono::Days::new((c as u32 * step) as u64);
+            (c == 0 || d.day() <= step).then_some((c, d))
+        })
+        .collect();
+    for (i, (c, d)) in starts.iter().enumerate() {
+        let room = starts.get(i + 1).map(|n| n.0).unwrap_or(ncol) - c;
+        let forms: Vec<String> = if d.month() == 1 {
+            vec![
+                d.format("%b %Y").to_string(),
+                d.format("%Y").to_string(),
+                d.format("'%y").to_string(),
+            ]
+        } else {
+            vec![
+                d.format("%b").to_string(),
+                d.format("%b").to_string()[..1].to_string(),
+            ]
+        };
+        // A label needs a blank column after it unless it reaches the strip's end.
+        if let Some(label) = forms.iter().find(|f| {
+            let n = f.chars().count() as u16;
+            n < room || (i + 1 == starts.len() && n <= room)
+        }) {
+            put(buf, cx + c, area.y + 1, label, ncol - c, th.header());
         }
     }
     let rows = (area.height - 3) as usize;
