@@ -51,6 +51,7 @@ fn state(size: (u16, u16)) -> State {
         message: None,
         instrument: rung::photometry::instrument::DEMO_INSTRUMENT.to_string(),
         instruments: vec![rung::photometry::instrument::DEMO_INSTRUMENT.to_string()],
+        recovered: None,
     })
 }
 

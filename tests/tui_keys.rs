@@ -337,3 +337,217 @@ fn quit_discarding_and_site_picker() {
     assert_eq!(s.limits.min_alt_deg, 25.0);
     assert!(s.row("LPO-P09").unwrap().night.observable_hours >= h0);
 }
+
+#[test]
+fn chase_and_phase_lists_scroll_apart_from_the_selection() {
+    let mut s = demo_state((80, 24));
+    ch(&mut s, '6');
+    let t = s
+        .order
+        .iter()
+        .position(|i| s.targets[*i].name == "LPO-T2026a")
+        .unwrap();
+    s.sel = t;
+    settle(&mut s, Msg::Act(rung::tui::Action::Down));
+    settle(&mut s, Msg::Act(rung::tui::Action::Up));
+    assert_eq!(s.selected().unwrap().name, "LPO-T2026a");
+    let Some(rung::tui::state::MethodBody::Chase(c)) = s.method_now().cloned() else {
+        panic!("no chase")
+    };
+    let rows_shown = 24 - 3 - 5;
+    assert!(c.nights.len() > rows_shown, "{} nights", c.nights.len());
+    let first_row = |s: &rung::tui::State| {
+        let (rows, _) = screen(s, 80, 24);
+        rows[4].clone() // status, tabs, title, header, then the nights
+    };
+    let night = |k: usize| c.nights[k].night.format("%a %b %d").to_string();
+    assert!(first_row(&s).starts_with(&night(0)));
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(
+        has(
+            &rows,
+            &format!("rows 1-{rows_shown} of {} · J/K scroll", c.nights.len())
+        ),
+        "{rows:?}"
+    );
+    for _ in 0..3 {
+        ch(&mut s, 'J');
+    }
+    assert_eq!(s.detail_scroll, 3);
+    assert!(first_row(&s).starts_with(&night(3)), "{}", first_row(&s));
+    assert_eq!(
+        s.selected().unwrap().name,
+        "LPO-T2026a",
+        "the selection stays"
+    );
+    // Held at the end of the list, and back.
+    for _ in 0..500 {
+        ch(&mut s, 'J');
+    }
+    let max = c.nights.len() - rows_shown;
+    assert_eq!(s.detail_scroll, max);
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(rows[4 + rows_shown - 1].starts_with(&night(c.nights.len() - 1)));
+    ch(&mut s, 'K');
+    assert_eq!(s.detail_scroll, max - 1);
+    // Another target starts at its first night.
+    key(&mut s, KeyCode::Down);
+    assert_eq!(s.detail_scroll, 0);
+    // The Phase view scrolls its nights the same way.
+    let p = s
+        .order
+        .iter()
+        .position(|i| s.targets[*i].kind == Kind::Pulsator)
+        .unwrap();
+    ch(&mut s, '5');
+    s.sel = p;
+    settle(&mut s, Msg::Act(rung::tui::Action::Down));
+    settle(&mut s, Msg::Act(rung::tui::Action::Up));
+    let Some(rung::tui::state::MethodBody::Phase(r)) = s.method_now().cloned() else {
+        panic!("no phase report")
+    };
+    let shown = 24 - 3 - 6;
+    assert!(r.windows.len() > shown, "{} windows", r.windows.len());
+    ch(&mut s, 'J');
+    let (rows, _) = screen(&s, 80, 24);
+    let want = r.windows[1].night.format("%a %b %d").to_string();
+    assert!(rows[5].starts_with(&want), "{}", rows[5]);
+    // Where there is no list, the keys say so and change nothing.
+    ch(&mut s, '1');
+    ch(&mut s, 'J');
+    assert_eq!(s.detail_scroll, 0);
+    assert!(
+        s.message
+            .as_ref()
+            .unwrap()
+            .0
+            .contains("nothing to scroll here")
+    );
+}
+
+#[test]
+fn unsaved_edits_are_kept_beside_the_file_until_saved() {
+    let dir = tempfile::tempdir().unwrap();
+    let file = dir.path().join("mine.csv");
+    std::fs::copy(demo_file(), &file).unwrap();
+    let recovery = dir.path().join("mine.csv.unsaved");
+    let mut s = state_with(
+        demo_targets(),
+        Some(file.clone()),
+        file.clone(),
+        false,
+        (80, 24),
+        true,
+    );
+    assert_eq!(s.programme.recovery_path(), recovery);
+    assert!(!recovery.exists());
+    // Every change that leaves the programme unsaved is written beside it.
+    ch(&mut s, 'd');
+    ch(&mut s, 'y');
+    let kept = parse_csv(&std::fs::read_to_string(&recovery).unwrap(), &recovery);
+    assert!(kept.problems.is_empty());
+    assert_eq!(kept.targets, s.targets);
+    assert_eq!(kept.targets.len(), 25);
+    ch(&mut s, 'd');
+    ch(&mut s, 'y');
+    let kept = parse_csv(&std::fs::read_to_string(&recovery).unwrap(), &recovery);
+    assert_eq!(kept.targets.len(), 24);
+    // Undoing back to the file leaves nothing unsaved: the file goes.
+    ch(&mut s, 'u');
+    ch(&mut s, 'u');
+    assert!(!s.dirty());
+    assert!(!recovery.exists());
+    // Redo, then save: the programme file has the edits and the recovery file goes.
+    ch(&mut s, 'U');
+    assert!(recovery.exists());
+    ch(&mut s, 'w');
+    assert!(!recovery.exists());
+    let saved = parse_csv(&std::fs::read_to_string(&file).unwrap(), &file);
+    assert_eq!(saved.targets.len(), 25);
+    // Quitting and dropping the edits (q, y) removes it as well.
+    ch(&mut s, 'd');
+    ch(&mut s, 'y');
+    assert!(recovery.exists());
+    ch(&mut s, 'q');
+    ch(&mut s, 'y');
+    assert!(s.quit && !recovery.exists());
+}
+
+#[test]
+fn unsaved_edits_left_by_a_session_are_offered_back() {
+    use rung::tui::state::{Question, Recovered};
+    let dir = tempfile::tempdir().unwrap();
+    let file = dir.path().join("mine.csv");
+    std::fs::copy(demo_file(), &file).unwrap();
+    let recovery = dir.path().join("mine.csv.unsaved");
+    let mut edited = demo_targets();
+    edited.truncate(20);
+    std::fs::write(&recovery, rung::io::write_targets::to_csv(&edited)).unwrap();
+    let open_with = |recovered: Option<Recovered>| {
+        let mut s = state_with(
+            demo_targets(),
+            Some(file.clone()),
+            file.clone(),
+            false,
+            (80, 24),
+            true,
+        );
+        // What `rung` finds at start (src/cli/tui.rs) comes in through Setup; the
+        // support state has none, so open the question the way `init` does.
+        if let Some(r) = recovered {
+            s.overlay = Some(Overlay::Question(Question::Restore(Box::new(r))));
+        }
+        s
+    };
+    let offer = || Recovered {
+        path: recovery.clone(),
+        targets: edited.clone(),
+        written: Some("2026-12-02 03:00".into()),
+    };
+    // Yes: the edits come back as unsaved edits (the file itself is untouched).
+    let mut s = open_with(Some(offer()));
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(has(&rows, "Unsaved edits found"), "{rows:?}");
+    assert!(
+        has(&rows, "(20") && has(&rows, "targets). Restore them?"),
+        "{rows:?}"
+    );
+    // A stray key does not answer (its "no" would move a file).
+    ch(&mut s, 'j');
+    key(&mut s, KeyCode::Down);
+    assert!(matches!(
+        s.overlay,
+        Some(Overlay::Question(Question::Restore(_)))
+    ));
+    ch(&mut s, 'y');
+    assert!(s.overlay.is_none());
+    assert_eq!(s.targets, edited);
+    assert!(s.dirty());
+    assert_eq!(
+        parse_csv(&std::fs::read_to_string(&file).unwrap(), &file)
+            .targets
+            .len(),
+        26
+    );
+    assert_eq!(
+        parse_csv(&std::fs::read_to_string(&recovery).unwrap(), &recovery).targets,
+        edited
+    );
+    // Undo takes the restore back like any change.
+    ch(&mut s, 'u');
+    assert_eq!(s.targets.len(), 26);
+    assert!(!recovery.exists());
+    // No: the file is set aside, not deleted, and the programme is as loaded.
+    std::fs::write(&recovery, rung::io::write_targets::to_csv(&edited)).unwrap();
+    let mut s = open_with(Some(offer()));
+    ch(&mut s, 'n');
+    assert!(s.overlay.is_none());
+    assert_eq!(s.targets.len(), 26);
+    assert!(!recovery.exists());
+    let old = dir.path().join("mine.csv.unsaved.old");
+    assert_eq!(
+        parse_csv(&std::fs::read_to_string(&old).unwrap(), &old).targets,
+        edited
+    );
+    assert!(s.message.as_ref().unwrap().0.contains("set aside in"));
+}

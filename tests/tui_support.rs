@@ -61,15 +61,27 @@ pub fn state_with(
             .into_iter()
             .map(|i| i.name)
             .collect(),
+        recovered: None,
     })
 }
 
-/// The demo state (saves would go to a path that is never written by these tests).
+/// A fresh programme path of its own for each demo state, in one temporary
+/// folder per test binary (edits write the unsaved-edits file beside it).
+fn scratch_programme() -> PathBuf {
+    static DIR: std::sync::OnceLock<tempfile::TempDir> = std::sync::OnceLock::new();
+    static N: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
+    // Inside cargo's scratch folder for integration tests (target/tmp), never /tmp litter.
+    let dir = DIR.get_or_init(|| tempfile::tempdir_in(env!("CARGO_TARGET_TMPDIR")).unwrap());
+    let n = N.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+    dir.path().join(format!("programme-{n}.csv"))
+}
+
+/// The demo state; saves and the unsaved-edits file go to a scratch folder.
 pub fn demo_state(size: (u16, u16)) -> State {
     state_with(
         demo_targets(),
         Some(demo_file()),
-        PathBuf::from("/nonexistent/rung-test/programme.csv"),
+        scratch_programme(),
         true,
         size,
         true,

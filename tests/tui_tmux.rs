@@ -286,3 +286,47 @@ fn sigterm_and_sigint_from_outside_restore_the_terminal() {
         assert_restored(&t, code);
     }
 }
+
+#[test]
+fn sigterm_keeps_unsaved_edits_and_the_next_start_offers_them() {
+    let cfg = tempfile::tempdir().unwrap();
+    let Some(t) = Tmux::start(&command(cfg.path(), "")) else {
+        return;
+    };
+    t.wait_for("Roster · 26 of 26 targets");
+    t.send("d");
+    t.wait_for("Remove LPO-P01");
+    t.send("y");
+    t.wait_for("● unsaved");
+    let recovery = cfg.path().join("programme.csv.unsaved");
+    assert!(recovery.exists(), "no {}", recovery.display());
+    let pid = rung_pid(&t);
+    assert!(
+        Command::new("kill")
+            .args(["-TERM", &pid])
+            .status()
+            .unwrap()
+            .success()
+    );
+    // (The pane is 80 columns wide: join the wrapped lines before looking.)
+    let s = t.wait_for("RUNG-EXIT-143").replace('\n', "");
+    assert!(
+        s.contains("unsaved edits are kept in") && s.contains("programme.csv.unsaved"),
+        "{s}"
+    );
+    assert_restored(&t, "RUNG-EXIT-143");
+    drop(t);
+    // The next start asks, and "y" brings the 25 targets back as unsaved edits.
+    let Some(t) = Tmux::start(&command(cfg.path(), "")) else {
+        return;
+    };
+    t.wait_for("Unsaved edits found");
+    t.send("y");
+    t.wait_for("Roster · 25 of 25 targets");
+    t.wait_for("● unsaved");
+    t.send("w");
+    t.wait_for("saved /");
+    assert!(!recovery.exists());
+    t.send("q");
+    assert_restored(&t, "RUNG-EXIT-0");
+}

@@ -193,7 +193,23 @@ fn season_80x24_and_160x48_match_per_night_library_hours() {
             "{}",
             rows[2]
         );
-        assert!(rows[3].contains("Dec") && rows[3].contains("2027") && rows[3].contains("Jun"));
+        // Month labels at the column where each month begins (weekly columns
+        // from 2026-12-01: Dec at 0, January at 5, February at 9, March at 13).
+        // January has four columns, too few for "2027" and a gap, so it is "'27".
+        let labels: String = rows[3].chars().skip(16).collect();
+        let at = |c: usize, l: &str| {
+            labels
+                .chars()
+                .skip(c)
+                .take(l.chars().count())
+                .collect::<String>()
+                == l
+        };
+        assert!(
+            at(0, "Dec") && at(5, "'27") && at(9, "Feb") && at(13, "Mar"),
+            "{labels}"
+        );
+        assert!(labels.contains("Jun"), "{labels}");
         let shown = (h - 6) as usize;
         let targets = demo_targets();
         for t in targets.iter().take(shown.min(targets.len())) {
@@ -788,8 +804,113 @@ fn roster_shows_progress_towards_each_goal_from_the_budget() {
         message: None,
         instrument: s.instrument.clone(),
         instruments: s.instruments.clone(),
+        recovered: None,
     });
     fresh.size = (80, 24);
     let (rows, _) = screen(&fresh, 80, 24);
     assert!(row_of(&rows, &targets[1].name).contains("…/"), "{rows:?}");
+}
+
+#[test]
+fn plan_export_uses_the_hours_a_night_set_with_h_and_capital_h() {
+    let pick = ["LPO-P03", "LPO-C03", "LPO-C05", "LPO-T2026a"];
+    let targets: Vec<_> = demo_targets()
+        .into_iter()
+        .filter(|t| pick.contains(&t.name.as_str()))
+        .collect();
+    let dir = tempfile::tempdir().unwrap();
+    let mut s = state_with(
+        targets.clone(),
+        None,
+        dir.path().join("programme.csv"),
+        true,
+        (80, 24),
+        true,
+    );
+    assert_eq!(
+        s.plan_hours_per_night,
+        rung::tui::state::PLAN_HOURS_PER_NIGHT
+    );
+    // Steps of an hour, held inside 1..14 h.
+    for _ in 0..20 {
+        ch(&mut s, 'h');
+    }
+    assert_eq!(s.plan_hours_per_night, 1.0);
+    for _ in 0..30 {
+        ch(&mut s, 'H');
+    }
+    assert_eq!(s.plan_hours_per_night, 14.0);
+    for _ in 0..12 {
+        ch(&mut s, 'h');
+    }
+    assert_eq!(s.plan_hours_per_night, 2.0);
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(
+        rows[23].starts_with("plan export: 2 telescope hours a night"),
+        "{}",
+        rows[23]
+    );
+    // The Budget view's footer names the setting and its keys.
+    ch(&mut s, '7');
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(has(&rows, "X: plan at 2 h/night (h/H)"), "{rows:?}");
+    // The exported plan records it, and no night holds more than that.
+    ch(&mut s, 'X');
+    let (from, to) = s.season_span();
+    let json = dir
+        .path()
+        .join(format!("plan-pampa-lucero-{from}-to-{to}.json"));
+    let plan = rung::plan::file::load(&json).unwrap();
+    assert_eq!(plan.hours_per_night, 2.0);
+    assert!(!plan.visits.is_empty());
+    let mut per_night: std::collections::BTreeMap<chrono::NaiveDate, f64> = Default::default();
+    for v in &plan.visits {
+        *per_night.entry(v.night).or_default() += v.end.seconds_since(&v.start) / 3600.0;
+    }
+    for (n, h) in per_night {
+        assert!(h <= 2.0 + 1.0 / 3600.0, "{n}: {h} h");
+    }
+}
+
+#[test]
+fn season_labels_keep_every_month_nightly_and_weekly() {
+    // Nightly columns from 2026-12-01: January begins at column 31 with room for "Jan 2027".
+    let mut s = demo_state((80, 24));
+    ch(&mut s, '3');
+    ch(&mut s, 'g');
+    assert_eq!(s.season_step_days, 1);
+    let (rows, _) = screen(&s, 80, 24);
+    let labels: String = rows[3].chars().skip(16).collect();
+    assert!(labels.starts_with("Dec "), "{labels}");
+    assert_eq!(
+        labels.chars().skip(31).take(8).collect::<String>(),
+        "Jan 2027",
+        "{labels}"
+    );
+    // Weekly from mid-January 2027 (a year of columns at 160 wide): every month
+    // that begins inside the strip is labelled where it begins.
+    let mut s = demo_state((160, 48));
+    for _ in 0..6 {
+        ch(&mut s, ']');
+    }
+    ch(&mut s, '3');
+    assert_eq!(
+        s.date,
+        chrono::NaiveDate::from_ymd_opt(2027, 1, 12).unwrap()
+    );
+    let (rows, _) = screen(&s, 160, 48);
+    let labels: String = rows[3].chars().skip(16).collect();
+    let mut d = s.date;
+    for c in 0..52usize {
+        if c == 0 || chrono::Datelike::day(&d) <= 7 {
+            let want = if chrono::Datelike::month(&d) == 1 {
+                d.format("'%y").to_string()
+            } else {
+                d.format("%b").to_string()
+            };
+            let got: String = labels.chars().skip(c).take(want.chars().count()).collect();
+            assert_eq!(got, want, "column {c} ({d}): {labels}");
+        }
+        d = d + chrono::Days::new(7);
+    }
 }

@@ -137,7 +137,9 @@ pub fn setup(a: &Args) -> Result<Setup> {
     if !instruments.contains(&instrument) {
         instruments.push(instrument.clone());
     }
+    let (recovered, message) = find_recovery(&programme, &targets, message);
     Ok(Setup {
+        recovered,
         site,
         sites: list,
         date,
@@ -152,6 +154,56 @@ pub fn setup(a: &Args) -> Result<Setup> {
     })
 }
 
+/// Unsaved edits an earlier session left beside the programme file. A file
+/// that cannot be read is left as it is and said in the first message; one that
+/// holds the programme as saved is not offered.
+fn find_recovery(
+    programme: &Programme,
+    targets: &[Target],
+    message: Option<String>,
+) -> (Option<rung::tui::state::Recovered>, Option<String>) {
+    let path = programme.recovery_path();
+    if !path.exists() {
+        return (None, message);
+    }
+    match rung::io::targets::load(&path) {
+        Ok(l) if l.problems.is_empty() && l.targets != targets => {
+            let written = std::fs::metadata(&path)
+                .and_then(|m| m.modified())
+                .ok()
+                .map(|t| {
+                    chrono::DateTime::<chrono::Local>::from(t)
+                        .format("%Y-%m-%d %H:%M")
+                        .to_string()
+                });
+            (
+                Some(rung::tui::state::Recovered {
+                    path,
+                    targets: l.targets,
+                    written,
+                }),
+                message,
+            )
+        }
+        Ok(l) if l.problems.is_empty() => (None, message),
+        Ok(l) => (
+            None,
+            Some(format!(
+                "unsaved edits in {} not offered back: {} (the file is left as it is)",
+                path.display(),
+                l.problems[0]
+            )),
+        ),
+        Err(e) => (
+            None,
+            Some(format!(
+                "unsaved edits in {} not offered back: {e} (the file is left as it is)",
+                path.display()
+            )),
+        ),
+    }
+}
+
 fn spawn(effect: Effect, tx: &mpsc::Sender<Msg>, inline: &mut Vec<Msg>) {
     match effect {
         Effect::Batch(list) => {
@@ -159,8 +211,9 @@ fn spawn(effect: Effect, tx: &mpsc::Sender<Msg>, inline: &mut Vec<Msg>) {
                 spawn(e, tx, inline);
             }
         }
-        // Saves happen at once, before anything else (and before a quit).
-        e @ Effect::Save { .. } => inline.extend(effects::run(e)),
+        // Saves and the unsaved-edits file happen at once, in order, before
+        // anything else (and before a quit).
+        e @ (Effect::Save { .. } | Effect::Recovery { .. }) => inline.extend(effects::run(e)),
         e => {
             let tx = tx.clone();
             std::thread::spawn(move || {
@@ -209,7 +262,7 @@ fn event_loop(
     terminal: &mut ratatui::DefaultTerminal,
     mut setup: Setup,
     signalled: &std::sync::atomic::AtomicUsize,
-) -> Result<()> {
+) -> Result<Option<PathBuf>> {
     use crossterm::event::{self, Event};
     let size = terminal.size()?;
     setup.size = (size.width, size.height);
@@ -231,7 +284,9 @@ fn event_loop(
             panic!("RUNG_TUI_TEST_PANIC is set: panicking on purpose to test terminal restore");
         }
         if state.quit || signalled.load(std::sync::atomic::Ordering::Relaxed) != 0 {
-            return Ok(());
+            // Edits still unsaved at the end are in the recovery file (kept after every change).
+            let kept = state.programme.recovery_path();
+            return Ok((state.dirty() && kept.exists()).then_some(kept));
         }
         if event::poll(Duration::from_millis(200))? {
             match event::read()? {
@@ -261,10 +316,20 @@ pub fn run(a: Args) -> Result<()> {
     let res = event_loop(&mut terminal, setup, &signalled);
     ratatui::restore();
     let sig = signalled.load(std::sync::atomic::Ordering::Relaxed);
+    let kept = match &res {
+        Ok(Some(p)) => format!(
+            "unsaved edits are kept in {} and offered back at the next start",
+            p.display()
+        ),
+        _ => "nothing was left unsaved".to_string(),
+    };
     if sig != 0 {
         // Terminal restored; end as the signal asked, with the shell's 128 + signal status.
-        eprintln!("rung: ended by signal {sig}; unsaved changes are not saved");
+        eprintln!("rung: ended by signal {sig}; {kept}");
         std::process::exit(128 + sig as i32);
     }
-    res
+    if matches!(res, Ok(Some(_))) {
+        eprintln!("rung: {kept}");
+    }
+    res.map(|_| ())
 }

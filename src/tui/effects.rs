@@ -381,6 +381,43 @@ pub fn save(
     Ok(path.to_path_buf())
 }
 
+/// Keep, remove or set aside the unsaved-edits file (see [`Effect::Recovery`]).
+/// A file that is already absent counts as removed.
+pub fn keep_recovery(
+    path: &std::path::Path,
+    text: Option<&str>,
+    set_aside: bool,
+) -> std::result::Result<(), String> {
+    match (text, set_aside) {
+        (Some(t), _) => {
+            if let Some(dir) = path.parent().filter(|p| !p.as_os_str().is_empty()) {
+                std::fs::create_dir_all(dir)
+                    .map_err(|e| format!("cannot create {}: {e}", dir.display()))?;
+            }
+            write_atomic(path, t.as_bytes()).map_err(|e| e.to_string())
+        }
+        (None, aside) => {
+            let r = if aside {
+                let old = crate::tui::state::declined_recovery_path(path);
+                std::fs::rename(path, &old).map_err(|e| {
+                    (
+                        e,
+                        format!("cannot move {} to {}", path.display(), old.display()),
+                    )
+                })
+            } else {
+                std::fs::remove_file(path)
+                    .map_err(|e| (e, format!("cannot remove {}", path.display())))
+            };
+            match r {
+                Ok(()) => Ok(()),
+                Err((e, _)) if e.kind() == std::io::ErrorKind::NotFound => Ok(()),
+                Err((e, what)) => Err(format!("{what}: {e}")),
+            }
+        }
+    }
+}
+
 /// Run an effect to completion here and return the messages it produces.
 pub fn run(effect: Effect) -> Vec<Msg> {
     match effect {
@@ -423,6 +460,15 @@ pub fn run(effect: Effect) -> Vec<Msg> {
         Effect::Save { path, text, backup } => {
             vec![Msg::Saved(save(&path, &text, backup.as_ref()))]
         }
+        Effect::Recovery {
+            path,
+            text,
+            set_aside,
+        } => vec![Msg::RecoveryKept(keep_recovery(
+            &path,
+            text.as_deref(),
+            set_aside,
+        ))],
         Effect::Batch(list) => list.into_iter().flat_map(run).collect(),
     }
 }

@@ -110,6 +110,14 @@ pub enum Action {
     NextChoice,
     /// Form: previous value of a choice field.
     PrevChoice,
+    /// Plan export: one telescope hour a night more.
+    PlanHoursUp,
+    /// Plan export: one telescope hour a night less.
+    PlanHoursDown,
+    /// Scroll the view's detail list (Chase timeline) down a row.
+    DetailDown,
+    /// Scroll the view's detail list up a row.
+    DetailUp,
     /// Question: yes.
     Yes,
     /// Question: no.
@@ -166,6 +174,8 @@ pub enum Msg {
     Exported(Result<Vec<PathBuf>, String>),
     /// A distance-method report (Phase, Chase) was computed.
     MethodReady(Box<MethodResult>),
+    /// The unsaved-edits file was written or removed (or the error).
+    RecoveryKept(Result<(), String>),
 }
 
 /// A job for the night table: the night at a site and every target's visibility in it.
@@ -249,6 +259,17 @@ pub enum Effect {
         text: String,
         /// A copy of the file as it was loaded, written once before the first save.
         backup: Option<(PathBuf, Vec<u8>)>,
+    },
+    /// Keep the unsaved edits in the recovery file (`Some` CSV text, written
+    /// atomically) or remove it (`None`); `set_aside` first moves an older one
+    /// to `<file>.old` instead of overwriting it.
+    Recovery {
+        /// The recovery file.
+        path: PathBuf,
+        /// CSV text, or `None` to remove the file.
+        text: Option<String>,
+        /// Move the file aside (to `<file>.old`) rather than remove it.
+        set_aside: bool,
     },
     /// Several effects.
     Batch(Vec<Effect>),

@@ -141,6 +141,41 @@ impl Programme {
         s.push(".bak");
         PathBuf::from(s)
     }
+
+    /// Where unsaved edits are kept while the UI runs: written (atomically)
+    /// after every change that leaves the programme unsaved, removed once it is
+    /// saved or the user chooses to drop the edits. A session that ends without
+    /// either (a signal, a panic, a closed terminal, a power cut) leaves it for
+    /// the next start to offer back.
+    pub fn recovery_path(&self) -> PathBuf {
+        recovery_path_for(&self.save_path)
+    }
+}
+
+/// The unsaved-edits file kept beside a programme file (`<file>.unsaved`).
+pub fn recovery_path_for(save_path: &std::path::Path) -> PathBuf {
+    let mut s = save_path.as_os_str().to_owned();
+    s.push(".unsaved");
+    PathBuf::from(s)
+}
+
+/// Where an offered-back recovery file is moved when the user declines it
+/// (`<file>.unsaved.old`, one copy, so nothing is deleted unasked).
+pub fn declined_recovery_path(recovery: &std::path::Path) -> PathBuf {
+    let mut s = recovery.as_os_str().to_owned();
+    s.push(".old");
+    PathBuf::from(s)
+}
+
+/// Unsaved edits left by an earlier session, found at start.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Recovered {
+    /// The recovery file.
+    pub path: PathBuf,
+    /// The programme it holds.
+    pub targets: Vec<Target>,
+    /// When it was last written (local time text), if known.
+    pub written: Option<String>,
 }
 
 /// One target in one night, as the views show it.
@@ -303,7 +338,8 @@ pub enum Progress {
 /// Months a budget covers.
 pub const BUDGET_MONTHS: u32 = 12;
 
-/// Telescope hours per night the plan export schedules (at most the dark time of each night).
+/// Telescope hours per night the plan export schedules at first (at most the
+/// dark time of each night); `h` and `H` change it in steps of an hour.
 pub const PLAN_HOURS_PER_NIGHT: f64 = 8.0;
 
 /// Months the Parallax view covers (as `rung parallax` by default).
@@ -359,6 +395,8 @@ pub enum Question {
     Quit,
     /// Remove this target?
     Remove(String),
+    /// Restore the unsaved edits an earlier session left?
+    Restore(Box<Recovered>),
 }
 
 /// How a message reads.
@@ -371,6 +409,9 @@ pub enum Level {
     /// Something refused or failed.
     Warn,
 }
+
+/// Telescope hours per night the plan export may use: the smallest and largest setting.
+pub const PLAN_HOURS_RANGE: (f64, f64) = (1.0, 14.0);
 
 /// Longest undo history kept.
 pub const UNDO_DEPTH: usize = 200;
@@ -432,6 +473,11 @@ pub struct State {
     pub instrument: String,
     /// Instruments the picker offers.
     pub instruments: Vec<String>,
+    /// Telescope hours per night the plan export schedules.
+    pub plan_hours_per_night: f64,
+    /// First row of the current view's detail list (the Chase timeline),
+    /// scrolled apart from the target selection; reset when the report changes.
+    pub detail_scroll: usize,
     /// The last distance-method report.
     pub method: Option<MethodResult>,
     /// The report being computed.
@@ -463,7 +509,41 @@ pub fn scroll_offset(sel: usize, height: usize) -> usize {
     sel.saturating_sub(height - 1)
 }
 
+/// Rows of the detail list a view shows in a view area `area_h` rows tall
+/// (Phase: title, coverage and header rows above, three foot rows below;
+/// Chase: title and header above, three below).
+pub fn detail_rows(view: View, area_h: u16) -> usize {
+    match view {
+        View::Phase => area_h.saturating_sub(6) as usize,
+        View::Chase => area_h.saturating_sub(5) as usize,
+        _ => 0,
+    }
+}
+
+/// The first row of a detail list of `len` rows shown `rows` at a time, for a
+/// wanted first row `scroll`.
+pub fn detail_offset(scroll: usize, rows: usize, len: usize) -> usize {
+    scroll.min(len.saturating_sub(rows))
+}
+
 impl State {
+    /// Rows in the current view's detail list (Phase windows, Chase nights), when there is one.
+    pub fn detail_len(&self) -> Option<usize> {
+        match self.method_now()? {
+            MethodBody::Phase(r) if self.view == View::Phase => Some(r.windows.len()),
+            MethodBody::Chase(c) if self.view == View::Chase => Some(c.nights.len()),
+            _ => None,
+        }
+    }
+
+    /// The largest useful detail scroll for the current view and terminal size.
+    pub fn detail_max(&self) -> usize {
+        let rows = detail_rows(self.view, self.size.1.saturating_sub(CHROME_ROWS));
+        self.detail_len()
+            .map(|n| n.saturating_sub(rows))
+            .unwrap_or(0)
+    }
+
     /// The scope keys are looked up in.
     pub fn scope(&self) -> Scope {
         match &self.overlay {

@@ -11,8 +11,8 @@ use crate::tui::form::Form;
 use crate::tui::keymap::{self, Scope};
 use crate::tui::msg::{Action, Effect, Msg, NightJob, PlanJob, SeasonJob};
 use crate::tui::state::{
-    Level, Overlay, PLAN_HOURS_PER_NIGHT, Programme, Question, SeasonData, SkyNow, SortKey, State,
-    UNDO_DEPTH, View, scroll_offset,
+    Level, Overlay, PLAN_HOURS_PER_NIGHT, PLAN_HOURS_RANGE, Programme, Question, Recovered,
+    SeasonData, SkyNow, SortKey, State, UNDO_DEPTH, View, scroll_offset,
 };
 use crate::tui::theme::Theme;
 use chrono::{Months, NaiveDate};
@@ -43,6 +43,8 @@ pub struct Setup {
     pub instrument: String,
     /// Instruments the picker offers.
     pub instruments: Vec<String>,
+    /// Unsaved edits an earlier session left beside the programme file, offered back at once.
+    pub recovered: Option<Recovered>,
 }
 
 /// The local date whose evening starts the night containing `now` at `site`
@@ -85,6 +87,8 @@ pub fn init(setup: Setup) -> (State, Option<Effect>) {
         season_step_days: 7,
         instrument: setup.instrument,
         instruments: setup.instruments,
+        plan_hours_per_night: PLAN_HOURS_PER_NIGHT,
+        detail_scroll: 0,
         method: None,
         method_pending: None,
         budget: None,
@@ -103,10 +107,22 @@ pub fn init(setup: Setup) -> (State, Option<Effect>) {
             Level::Info,
         ));
     }
+    if let Some(r) = setup.recovered {
+        s.overlay = Some(Overlay::Question(Question::Restore(Box::new(r))));
+    }
     s.reorder();
     refresh_sky(&mut s);
     let e = recompute(&mut s);
     (s, e)
+}
+
+/// Keep the unsaved edits in the recovery file, or remove it once nothing is unsaved.
+fn keep_edits(s: &State) -> Effect {
+    Effect::Recovery {
+        path: s.programme.recovery_path(),
+        text: s.dirty().then(|| to_csv(&s.targets)),
+        set_aside: false,
+    }
 }
 
 fn refresh_sky(s: &mut State) {
@@ -223,7 +239,7 @@ fn export_plan(s: &mut State) -> Option<Effect> {
         from,
         to,
         limits: s.limits,
-        hours_per_night: PLAN_HOURS_PER_NIGHT,
+        hours_per_night: s.plan_hours_per_night,
         instrument: s.instrument.clone(),
         sheet_night: s.date,
         stamp: s.now,
@@ -231,7 +247,10 @@ fn export_plan(s: &mut State) -> Option<Effect> {
     };
     say(
         s,
-        format!("planning {from} to {to} ({PLAN_HOURS_PER_NIGHT:.0} h a night) and exporting …"),
+        format!(
+            "planning {from} to {to} ({:.0} h a night) and exporting …",
+            s.plan_hours_per_night
+        ),
         Level::Info,
     );
     Some(Effect::ExportPlan(Box::new(job)))
@@ -313,7 +332,7 @@ fn after_change(s: &mut State, what: String, keep: Option<String>) -> Option<Eff
     refresh_caution(s);
     let note = if s.dirty() { " (unsaved)" } else { "" };
     say(s, format!("{what}{note}"), Level::Info);
-    recompute(s)
+    Effect::join(Some(keep_edits(s)), recompute(s))
 }
 
 fn select_name(s: &mut State, name: &str) {
@@ -362,6 +381,7 @@ fn step_months(s: &mut State, m: i32) -> Option<Effect> {
 fn move_sel(s: &mut State, to: i64) -> Option<Effect> {
     let n = s.order.len() as i64;
     s.sel = to.clamp(0, (n - 1).max(0)) as usize;
+    s.detail_scroll = 0;
     refresh_caution(s);
     season_effect(s)
 }
@@ -453,13 +473,41 @@ fn act(s: &mut State, a: Action) -> Option<Effect> {
             };
             s.overlay = None;
             match (q, a) {
+                // Ctrl-C at a question: leave at once; unsaved edits stay in
+                // the recovery file for the next start.
                 (_, Action::QuitDiscard) => {
                     s.quit = true;
                     None
                 }
+                // The user chose to drop the edits: the recovery file goes too.
                 (Question::Quit, Action::Yes) => {
                     s.quit = true;
-                    None
+                    Some(Effect::Recovery {
+                        path: s.programme.recovery_path(),
+                        text: None,
+                        set_aside: false,
+                    })
+                }
+                (Question::Restore(r), Action::Yes) => {
+                    let n = r.targets.len();
+                    let what = format!(
+                        "restored the unsaved edits from {} ({n} targets)",
+                        r.path.display()
+                    );
+                    change(s, r.targets, what)
+                }
+                (Question::Restore(r), _) => {
+                    let old = crate::tui::state::declined_recovery_path(&r.path);
+                    say(
+                        s,
+                        format!("unsaved edits not restored; set aside in {}", old.display()),
+                        Level::Info,
+                    );
+                    Some(Effect::Recovery {
+                        path: r.path.clone(),
+                        text: None,
+                        set_aside: true,
+                    })
                 }
                 (Question::Remove(name), Action::Yes) => {
                     let new: Vec<Target> = s
@@ -538,6 +586,15 @@ fn act_form(s: &mut State, a: Action) -> Option<Effect> {
 }
 
 fn act_main(s: &mut State, a: Action) -> Option<Effect> {
+    let before = s.view;
+    let e = act_main_inner(s, a);
+    if s.view != before {
+        s.detail_scroll = 0;
+    }
+    e
+}
+
+fn act_main_inner(s: &mut State, a: Action) -> Option<Effect> {
     let page = s.list_rows().max(1) as i64;
     let sel = s.sel as i64;
     match a {
@@ -709,6 +766,36 @@ fn act_main(s: &mut State, a: Action) -> Option<Effect> {
             );
             season_effect(s)
         }
+        Action::PlanHoursUp | Action::PlanHoursDown => {
+            let d = if a == Action::PlanHoursUp { 1.0 } else { -1.0 };
+            let (lo, hi) = PLAN_HOURS_RANGE;
+            s.plan_hours_per_night = (s.plan_hours_per_night + d).clamp(lo, hi);
+            say(
+                s,
+                format!(
+                    "plan export: {:.0} telescope hours a night (at most each night's dark time)",
+                    s.plan_hours_per_night
+                ),
+                Level::Info,
+            );
+            None
+        }
+        Action::DetailDown | Action::DetailUp => {
+            if s.detail_len().is_none() {
+                say(
+                    s,
+                    "nothing to scroll here: J and K scroll the Phase and Chase lists",
+                    Level::Info,
+                );
+                return None;
+            }
+            s.detail_scroll = if a == Action::DetailDown {
+                (s.detail_scroll + 1).min(s.detail_max())
+            } else {
+                s.detail_scroll.saturating_sub(1).min(s.detail_max())
+            };
+            None
+        }
         Action::MinAltUp | Action::MinAltDown => {
             let d = if a == Action::MinAltUp { 5.0 } else { -5.0 };
             let v = (s.limits.min_alt_deg + d).clamp(0.0, 85.0);
@@ -790,6 +877,13 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
                     s.reorder();
                     season_effect(s)
                 }
+                // The restore question waits for an answer: its "no" moves a
+                // file, so a stray key must not give it.
+                (Scope::Question, _)
+                    if matches!(s.overlay, Some(Overlay::Question(Question::Restore(_)))) =>
+                {
+                    None
+                }
                 // Any other key closes a question with "no".
                 (Scope::Question, _) => {
                     s.overlay = None;
@@ -853,6 +947,11 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
             s.programme.original = None;
             s.saved = s.targets.clone();
             say(s, format!("saved {}", p.display()), Level::Good);
+            Some(keep_edits(s))
+        }
+        Msg::RecoveryKept(Ok(())) => None,
+        Msg::RecoveryKept(Err(e)) => {
+            say(s, format!("unsaved edits NOT kept aside: {e}"), Level::Warn);
             None
         }
         Msg::BudgetReady(k, r) => {
@@ -877,6 +976,9 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
                 s.method_pending = None;
             }
             if s.method_key().as_ref() == Some(&r.key) {
+                if s.method.as_ref().map(|m| &m.key) != Some(&r.key) {
+                    s.detail_scroll = 0;
+                }
                 s.method = Some(*r);
             }
             None

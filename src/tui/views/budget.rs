@@ -3,6 +3,8 @@
 //! as `rung budget`), and the hours by semester.
 
 use crate::plan::budget::verdict_text;
+use crate::tui::keymap::{Scope, keys_for};
+use crate::tui::msg::Action;
 use crate::tui::state::{BUDGET_MONTHS, State, scroll_offset};
 use crate::tui::theme::kind_glyph;
 use crate::tui::views::fmt::{fit, put, rfit};
@@ -142,7 +144,12 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         buf,
         area.x,
         fy + 1,
-        "x: budget CSV + Markdown · X: plan JSON, CSV, iCal + night sheet",
+        &format!(
+            "x: budget CSV+MD · X: plan at {:.0} h/night ({}/{}) JSON CSV iCal sheet",
+            s.plan_hours_per_night,
+            keys_for(Scope::Main, Action::PlanHoursDown),
+            keys_for(Scope::Main, Action::PlanHoursUp)
+        ),
         area.width,
         th.dim(),
     );

@@ -2,9 +2,10 @@
 //! night by night the window, the rest-frame phase, the expected magnitude, the
 //! exposure, the Moon, and which nights the chosen cadence observes.
 
-use crate::tui::state::{MethodBody, State};
+use crate::tui::state::{MethodBody, State, View, detail_offset, detail_rows};
 use crate::tui::views::fmt::{fit, hm, put, rfit};
 use crate::tui::views::phase::verdict_text;
+use crate::tui::views::scroll_mark;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
 
@@ -73,8 +74,10 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     let head = line(cols.map(|c| c.0.to_string()));
     put(buf, area.x, area.y + 1, &head, area.width, th.header());
     let foot = 3u16;
-    let rows = area.height.saturating_sub(2 + foot) as usize;
-    for (k, n) in c.nights.iter().take(rows).enumerate() {
+    let rows = detail_rows(View::Chase, area.height);
+    let off = detail_offset(s.detail_scroll, rows, c.nights.len());
+    let fy = area.y + area.height - foot;
+    for (k, n) in c.nights.iter().skip(off).take(rows).enumerate() {
         let y = area.y + 2 + k as u16;
         let w = match (n.window_start, n.window_end) {
             (Some(a), Some(b)) => format!("{}-{}", hm(Some(a), &s.site), hm(Some(b), &s.site)),
@@ -117,7 +120,6 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             }
         }
     }
-    let fy = area.y + area.height - foot;
     let buy = match &d.budget {
         Some(b) => format!(
             "σd/d {:.1}% (floor {:.1}%) · {} epochs · {:.1} h · {}",
@@ -138,7 +140,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         buf,
         area.x,
         fy + 1,
-        "● planned by the cadence  ○ usable  — not usable (reason beside it)",
+        "● planned  ○ usable  — not (reason beside it)",
         area.width,
         th.dim(),
     );
@@ -150,4 +152,5 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     if let Some((n, st)) = note {
         put(buf, area.x, fy + 2, &n, area.width, st);
     }
+    scroll_mark(s, area, fy + 1, off, rows, c.nights.len(), buf);
 }

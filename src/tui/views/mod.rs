@@ -19,6 +19,33 @@ use fmt::{hm, hm_utc, put};
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
 
+/// When a detail list (Phase windows, Chase nights) has more rows than it shows,
+/// say which are shown and the keys that scroll it, right-aligned on row `y`.
+pub fn scroll_mark(
+    s: &State,
+    area: Rect,
+    y: u16,
+    off: usize,
+    rows: usize,
+    len: usize,
+    buf: &mut Buffer,
+) {
+    if len <= rows || rows == 0 {
+        return;
+    }
+    let text = format!(
+        "rows {}-{} of {len} · {}/{} scroll",
+        off + 1,
+        (off + rows).min(len),
+        keys_for(Scope::Main, Action::DetailDown),
+        keys_for(Scope::Main, Action::DetailUp)
+    );
+    let w = text.chars().count() as u16;
+    if w < area.width {
+        put(buf, area.x + area.width - w, y, &text, w, s.theme.header());
+    }
+}
+
 /// The status line: site, UTC and local time, Sun altitude, Moon phase and rise/set.
 pub fn status_text(s: &State, width: u16) -> String {
     let local = s.now.local(&s.site.timezone).format("%H:%M").to_string();

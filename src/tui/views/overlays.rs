@@ -204,10 +204,22 @@ pub fn question(s: &State, q: &Question, area: Rect, buf: &mut Buffer) {
             "Remove target",
             format!("Remove {n} from the programme? (u undoes it)"),
         ),
+        Question::Restore(r) => (
+            "Unsaved edits found",
+            format!(
+                "An earlier session ended with unsaved edits, kept in {}{} ({} targets). \
+                 Restore them? y restores them as unsaved edits; n sets them aside in {}.",
+                r.path.display(),
+                r.written
+                    .as_ref()
+                    .map(|w| format!(" at {w}"))
+                    .unwrap_or_default(),
+                r.targets.len(),
+                crate::tui::state::declined_recovery_path(&r.path).display()
+            ),
+        ),
     };
-    let r = centered(area, 64, 6);
-    let inner = frame(title, r, buf, s);
-    let w = inner.width as usize;
+    let w = area.width.min(64).saturating_sub(2).max(1) as usize;
     let mut lines: Vec<String> = Vec::new();
     let mut cur = String::new();
     for word in text.split(' ') {
@@ -220,7 +232,11 @@ pub fn question(s: &State, q: &Question, area: Rect, buf: &mut Buffer) {
         cur.push_str(word);
     }
     lines.push(cur);
-    for (i, l) in lines.iter().take(2).enumerate() {
+    let h = (lines.len() as u16 + 4).min(area.height);
+    let r = centered(area, 64, h);
+    let inner = frame(title, r, buf, s);
+    let text_rows = inner.height.saturating_sub(2) as usize;
+    for (i, l) in lines.iter().take(text_rows).enumerate() {
         put(
             buf,
             inner.x,
@@ -238,7 +254,7 @@ pub fn question(s: &State, q: &Question, area: Rect, buf: &mut Buffer) {
     put(
         buf,
         inner.x,
-        inner.y + 3,
+        inner.y + inner.height.saturating_sub(1),
         &keys,
         inner.width,
         s.theme.text(),

@@ -3,8 +3,9 @@
 //! the points buy.
 
 use crate::ladder::Verdict;
-use crate::tui::state::{MethodBody, PHASE_NIGHTS, State};
+use crate::tui::state::{MethodBody, PHASE_NIGHTS, State, View, detail_offset, detail_rows};
 use crate::tui::views::fmt::{hm, put};
+use crate::tui::views::scroll_mark;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
 
@@ -98,8 +99,10 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         put(buf, strip_x + c, area.y + 2, "╷", 1, th.header());
     }
     let foot = 3u16;
-    let rows = area.height.saturating_sub(3 + foot) as usize;
-    for (k, w) in r.windows.iter().take(rows).enumerate() {
+    let rows = detail_rows(View::Phase, area.height);
+    let off = detail_offset(s.detail_scroll, rows, r.windows.len());
+    let fy = area.y + area.height - foot;
+    for (k, w) in r.windows.iter().skip(off).take(rows).enumerate() {
         let y = area.y + 3 + k as u16;
         let label = format!(
             "{:<10} {}-{}",
@@ -155,7 +158,6 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         );
     }
     // What the points buy.
-    let fy = area.y + area.height - foot;
     let buy = match (&r.prediction, &r.budget) {
         (Some(pr), b) => format!(
             "σd/d {:.2}%{} · {:.1} h · {}",
@@ -173,7 +175,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         buf,
         area.x,
         fy + 1,
-        "━ phases reached in the window  ◆ planned visit  · not reached",
+        "━ phases reached  ◆ planned visit  · not reached",
         area.width,
         th.dim(),
     );
@@ -185,4 +187,5 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     if let Some((n, st)) = note {
         put(buf, area.x, fy + 2, &n, area.width, st);
     }
+    scroll_mark(s, area, fy + 1, off, rows, r.windows.len(), buf);
 }
