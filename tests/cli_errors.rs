@@ -337,6 +337,9 @@ fn night_json_has_the_design_keys() {
                 "window_end",
                 "max_altitude_deg",
                 "min_airmass",
+                "max_altitude_time",
+                "moon_separation_deg",
+                "sun_caution",
             ],
             &what,
         );

@@ -914,3 +914,55 @@ fn season_labels_keep_every_month_nightly_and_weekly() {
         d = d + chrono::Days::new(7);
     }
 }
+
+#[test]
+fn roster_moon_and_sun_columns_are_the_numbers_of_rung_night_json() {
+    // The UI holds no science: the Roster's Moon distance and Sun caution for
+    // every target are what `rung night --json` prints for the same night.
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args([
+            "night",
+            "--site",
+            "pampa-lucero",
+            "--date",
+            "2026-12-01",
+            "--targets",
+            demo_file().to_str().unwrap(),
+            "--json",
+        ])
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let s = demo_state((160, 48));
+    let (rows, _) = screen(&s, 160, 48);
+    let mut cautions = 0;
+    for t in v["targets"].as_array().unwrap() {
+        let name = t["name"].as_str().unwrap();
+        let r = s.row(name).unwrap();
+        // (serde_json's default float parsing is not bit-exact: compare to 1e-9°.)
+        match (r.moon_sep_deg, t["moon_separation_deg"].as_f64()) {
+            (Some(a), Some(b)) => assert!((a - b).abs() < 1e-9, "{name}: {a} vs {b}"),
+            (a, b) => assert_eq!(a, b, "{name}"),
+        }
+        let line = row_of(&rows, &format!(" {name} "));
+        if let Some(m) = r.moon_sep_deg {
+            assert!(line.contains(&format!("{m:.0}°")), "{line}");
+        }
+        match (&r.sun_caution, t["sun_caution"].as_object()) {
+            (None, None) => assert!(!line.contains('!'), "{line}"),
+            (Some((at, text)), Some(j)) => {
+                cautions += 1;
+                assert_eq!(j["first"].as_str().unwrap(), at.iso(), "{name}");
+                assert_eq!(j["text"].as_str().unwrap(), text, "{name}");
+                assert!(line.contains('!'), "{line}");
+            }
+            (a, b) => panic!("{name}: UI {a:?}, rung night {b:?}"),
+        }
+    }
+    assert!(cautions > 0, "the demo night has daytime Sun cautions");
+}

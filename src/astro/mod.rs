@@ -10,6 +10,7 @@ pub mod time;
 
 use crate::astro::frames::{CatalogPlace, Context};
 use crate::astro::site::Site;
+use crate::astro::time::Instant;
 use serde::Serialize;
 
 /// Everything about one target at one instant, as `rung where` reports it.
@@ -76,6 +77,36 @@ pub fn pointing(site: &Site, ctx: &Context, place: &CatalogPlace) -> Pointing {
 /// Altitude of the Sun's centre above which the Sun counts as up for the
 /// Sun-avoidance rule, degrees (the sunrise/sunset altitude).
 pub const SUN_UP_DEG: f64 = night::SUN_RISE_SET_DEG;
+
+/// Target–Moon angular distance at instant `t` of `night`, degrees: both
+/// topocentric apparent places from the night's interpolated frame (SOFA
+/// `apco` through sofars, Moon from `moon98`). Accuracy well under 0.01°, far
+/// finer than any Moon-avoidance rule needs.
+pub fn moon_separation_deg(night: &night::Night, place: &CatalogPlace, t: Instant) -> f64 {
+    let c = night.context(t);
+    c.observe(place).separation_rad(&c.moon()).to_degrees()
+}
+
+/// The first instant on the night's 10-minute grid at which the target is
+/// above the horizon within the site's Sun-avoidance angle while the Sun is
+/// up, with the caution text of [`sun_caution`]; `None` when there is none.
+/// A grid check: the separation changes by about 2.5′ between grid points
+/// (the Sun moves about 1° a day among the stars), so only the start of a
+/// spell, set by the Sun or the target rising, can be late by up to the step.
+pub fn first_sun_caution(night: &night::Night, place: &CatalogPlace) -> Option<(Instant, String)> {
+    for (c, sun_alt) in night.contexts.iter().zip(&night.sun_alt_deg) {
+        if *sun_alt <= SUN_UP_DEG {
+            continue;
+        }
+        if c.observe(place).alt_rad <= 0.0 {
+            continue;
+        }
+        if let Some(m) = sun_caution(&night.site, &pointing(&night.site, c, place)) {
+            return Some((c.t, m));
+        }
+    }
+    None
+}
 
 /// A Sun-proximity caution when a pointing is within the site's Sun-avoidance
 /// angle while the Sun is up. Pointing near the Sun can blind and can destroy

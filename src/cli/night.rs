@@ -38,6 +38,9 @@ fn ev(o: &mut Map<String, Value>, reasons: &mut Map<String, Value>, key: &str, e
 }
 
 /// Run `rung night`.
+/// A target's Moon distance at its best time (degrees) and its first Sun caution.
+type Extras = (Option<f64>, Option<(rung::astro::time::Instant, String)>);
+
 pub fn run(a: Args) -> Result<()> {
     let site = sites::resolve(&a.site).context("--site")?;
     let limits = Limits::new(a.min_alt, a.sun_alt)?;
@@ -57,6 +60,20 @@ pub fn run(a: Args) -> Result<()> {
         targets
             .par_iter()
             .map(|t| (t, night.target(&t.place(), &limits)))
+            .collect()
+    };
+    // Per target: the Moon's distance at the best time, and the first Sun caution.
+    let extras: Vec<Extras> = {
+        use rayon::prelude::*;
+        rows.par_iter()
+            .map(|(t, tn)| {
+                let p = t.place();
+                (
+                    tn.max_altitude_time
+                        .map(|tm| rung::astro::moon_separation_deg(&night, &p, tm)),
+                    rung::astro::first_sun_caution(&night, &p),
+                )
+            })
             .collect()
     };
     if a.json {
@@ -93,7 +110,8 @@ pub fn run(a: Args) -> Result<()> {
         if a.targets.is_some() {
             let list: Vec<Value> = rows
                 .iter()
-                .map(|(t, tn)| {
+                .zip(&extras)
+                .map(|((t, tn), (moon_sep, caution))| {
                     let mut r = Map::new();
                     let mut why = Map::new();
                     r.insert("name".into(), json!(t.name));
@@ -122,6 +140,19 @@ pub fn run(a: Args) -> Result<()> {
                     r.insert("observable_hours".into(), json!(tn.observable_hours));
                     r.insert("max_altitude_deg".into(), json!(tn.max_altitude_deg));
                     r.insert("min_airmass".into(), json!(tn.min_airmass));
+                    r.insert(
+                        "max_altitude_time".into(),
+                        json!(tn.max_altitude_time.map(|t| t.iso())),
+                    );
+                    r.insert("moon_separation_deg".into(), json!(moon_sep));
+                    r.insert(
+                        "sun_caution".into(),
+                        json!(
+                            caution
+                                .as_ref()
+                                .map(|(t, m)| json!({"first": t.iso(), "text": m}))
+                        ),
+                    );
                     r.insert("reasons".into(), Value::Object(why));
                     Value::Object(r)
                 })
@@ -189,10 +220,10 @@ pub fn run(a: Args) -> Result<()> {
             limits.min_alt_deg, limits.sun_alt_deg
         );
         println!(
-            "  {:<20} {:<9} {:>6} {:>6} {:>6} {:>13} {:>6} {:>7} {:>7}",
-            "name", "kind", "rise", "trans", "set", "window", "hours", "max alt", "airmass"
+            "  {:<20} {:<9} {:>6} {:>6} {:>6} {:>13} {:>6} {:>7} {:>7} {:>5}",
+            "name", "kind", "rise", "trans", "set", "window", "hours", "max alt", "airmass", "Moon"
         );
-        for (t, tn) in &rows {
+        for ((t, tn), (moon_sep, _)) in rows.iter().zip(&extras) {
             let w = tn
                 .main_window()
                 .map(|w| {
@@ -204,7 +235,7 @@ pub fn run(a: Args) -> Result<()> {
                 })
                 .unwrap_or_else(|| "-".into());
             println!(
-                "  {:<20} {:<9} {:>6} {:>6} {:>6} {:>13} {:>6.2} {:>7} {:>7}",
+                "  {:<20} {:<9} {:>6} {:>6} {:>6} {:>13} {:>6.2} {:>7} {:>7} {:>5}",
                 t.name,
                 t.kind.as_str(),
                 l(&tn.rise),
@@ -214,7 +245,19 @@ pub fn run(a: Args) -> Result<()> {
                 tn.observable_hours,
                 super::opt(tn.max_altitude_deg, 1),
                 super::opt(tn.min_airmass, 2),
+                moon_sep
+                    .map(|m| format!("{m:.0}°"))
+                    .unwrap_or_else(|| "-".into()),
             );
+        }
+        for ((t, _), (_, caution)) in rows.iter().zip(&extras) {
+            if let Some((at, m)) = caution {
+                println!(
+                    "  {} from {}: {m}",
+                    t.name,
+                    super::local_hm(Some(*at), &site)
+                );
+            }
         }
     }
     Ok(())

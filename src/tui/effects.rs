@@ -3,7 +3,6 @@
 //! benchmarks call [`run`] directly.
 
 use crate::astro::night::Night;
-use crate::astro::{pointing, sun_caution};
 use crate::error::Result;
 use crate::io::atomic::write_atomic;
 use crate::io::targets::Target;
@@ -28,21 +27,10 @@ pub fn target_row(night: &Night, t: &Target, limits: &crate::astro::night::Limit
     let tn = night.target(&place, limits);
     let obs: Vec<_> = night.contexts.iter().map(|c| c.observe(&place)).collect();
     let alt_deg = obs.iter().map(|o| o.alt_rad.to_degrees() as f32).collect();
-    let moon_sep_deg = tn.max_altitude_time.map(|tm| {
-        let c = night.context(tm);
-        c.observe(&place).separation_rad(&c.moon()).to_degrees()
-    });
-    // Sun caution: any grid instant with the target up and the Sun up within the avoidance angle.
-    let mut caution = None;
-    for ((c, o), s) in night.contexts.iter().zip(&obs).zip(&night.sun_alt_deg) {
-        if o.alt_rad > 0.0 && *s > crate::astro::SUN_UP_DEG {
-            let p = pointing(&night.site, c, &place);
-            if let Some(m) = sun_caution(&night.site, &p) {
-                caution = Some((c.t, m));
-                break;
-            }
-        }
-    }
+    let moon_sep_deg = tn
+        .max_altitude_time
+        .map(|tm| crate::astro::moon_separation_deg(night, &place, tm));
+    let caution = crate::astro::first_sun_caution(night, &place);
     TargetRow {
         night: tn,
         moon_sep_deg,
