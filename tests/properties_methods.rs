@@ -75,30 +75,27 @@ proptest! {
 // The transient method through its own face (`Method::predict`): the Fisher
 // matrix of (t_max, m_max, Δm15) over the epochs, then the distance budget
 // (SCIENCE.md, Thermonuclear supernovae). Invented transients at the invented
-// demo site; `predict` uses only the epochs' times and SNR, not the site or
-// the exposure model, so each case costs microseconds.
+// demo site (tests/transient_support); `predict` uses only the epochs' times
+// and SNR, not the site or the exposure model, so each case costs microseconds.
+
+mod transient_support;
 
 use rung::RungError;
-use rung::io::targets::{Kind, Target};
+use rung::io::targets::Target;
 use rung::ladder::transient::{
-    C_KM_S, ChaseOptions, TransientConfig, TransientMethod, floor_sigma_mu,
+    C_KM_S, ChaseOptions, TransientMethod, default_limits, floor_sigma_mu,
     fractional_distance_error, hubble_distance_modulus, place_curve,
 };
-use rung::ladder::{Epoch, Method, Setting};
-
-fn sn_cfg() -> TransientConfig {
-    TransientConfig::embedded().expect("config/transient.toml parses")
-}
+use rung::ladder::{Epoch, Method};
+use transient_support::{TestPhotometer, cfg as sn_cfg, chase_setting, site, transient};
 
 /// An invented transient discovered on 2026-11-20 at 06:00 UTC, in the
-/// standardization's band, with `peak_mag` given or (None) from the Hubble law.
+/// standardization's band, with `peak_mag` given or (None) from the Hubble
+/// law, and no discovery magnitude.
 fn sn(peak_mag: Option<f64>, z: f64, extinction_mag: f64) -> Target {
-    let mut t = Target::plain("TEST-SN", 52.0, -28.0);
-    t.kind = Kind::Transient;
-    t.band = sn_cfg().standardization.band;
-    t.discovered = Some(rung::astro::time::parse_instant("2026-11-20T06:00:00Z").unwrap());
+    let mut t = transient("TEST-SN", 52.0, -28.0, "2026-11-20T06:00:00Z", 0.0, z);
+    t.mag_now = None;
     t.peak_mag = peak_mag;
-    t.redshift = Some(z);
     t.extinction_mag = extinction_mag;
     t
 }
@@ -107,8 +104,7 @@ fn sn(peak_mag: Option<f64>, z: f64, extinction_mag: f64) -> Target {
 /// from the predicted maximum) with signal-to-noise `snr`, Δm15 = `dm15`.
 fn sn_pct(t: &Target, dm15: f64, days: &[f64], snr: &[f64]) -> Result<f64, RungError> {
     let cfg = sn_cfg();
-    let site = rung::io::sites::resolve("pampa-lucero").unwrap();
-    let em = rung::photometry::Photometer::from_name("lucero-1m", &site).unwrap();
+    let site = site();
     let t_max = place_curve(&cfg, t, dm15)?.params.t_max_mjd;
     let epochs: Vec<Epoch> = days
         .iter()
@@ -122,14 +118,7 @@ fn sn_pct(t: &Target, dm15: f64, days: &[f64], snr: &[f64]) -> Result<f64, RungE
             visit_s: 240.0,
         })
         .collect();
-    let from = chrono::NaiveDate::from_ymd_opt(2026, 11, 19).unwrap();
-    let s = Setting {
-        site: &site,
-        target: t,
-        from,
-        to: from + chrono::Duration::days(60),
-        limits: rung::ladder::transient::default_limits(),
-    };
+    let s = chase_setting(&site, t, 60, default_limits());
     let m = TransientMethod::with(
         cfg,
         ChaseOptions {
@@ -137,7 +126,8 @@ fn sn_pct(t: &Target, dm15: f64, days: &[f64], snr: &[f64]) -> Result<f64, RungE
             ..Default::default()
         },
     );
-    Ok(m.predict(&s, &em, &epochs)?.distance_precision_pct)
+    Ok(m.predict(&s, &TestPhotometer, &epochs)?
+        .distance_precision_pct)
 }
 
 /// A cadence that brackets maximum and reaches past +15 d, so that all three
@@ -242,21 +232,13 @@ proptest! {
         }
         let t = sn(Some(16.0), 0.02, 0.1);
         let cfg = sn_cfg();
-        let site = rung::io::sites::resolve("pampa-lucero").unwrap();
-        let em = rung::photometry::Photometer::from_name("lucero-1m", &site).unwrap();
-        let from = chrono::NaiveDate::from_ymd_opt(2026, 11, 19).unwrap();
-        let s = Setting {
-            site: &site,
-            target: &t,
-            from,
-            to: from + chrono::Duration::days(60),
-            limits: rung::ladder::transient::default_limits(),
-        };
+        let site = site();
+        let s = chase_setting(&site, &t, 60, default_limits());
         let m = TransientMethod::with(
             cfg.clone(),
             ChaseOptions { dm15: Some(bad_dm15), ..Default::default() },
         );
-        match m.predict(&s, &em, &[]) {
+        match m.predict(&s, &TestPhotometer, &[]) {
             Err(RungError::Invalid { what, .. }) => prop_assert_eq!(what, "dm15"),
             other => prop_assert!(false, "dm15 {bad_dm15}: {other:?}"),
         }
