@@ -207,3 +207,37 @@ fn bad_input_gives_one_clear_line() {
         "factor_fraction",
     );
 }
+
+/// Goal mode short of the goal: the verdict's season count and the added
+/// `goal_reach` object (how far the range's nights go when continued to the
+/// horizon) agree, and the floor they report lies below the goal the count
+/// says is reachable. Demo target LPO-P02 (invented) over eighteen months.
+#[test]
+fn goal_mode_shortfall_reports_a_count_and_the_floor_below_the_goal() {
+    let v = json(&[
+        "parallax",
+        "--target",
+        "LPO-P02",
+        "--from",
+        "2026-12-01",
+        "--to",
+        "2028-05-31",
+        "--sun-alt",
+        "-12",
+        "--goal-pct",
+        "3",
+        "--json",
+    ]);
+    assert_eq!(v["verdict"]["verdict"], "needs_more_seasons", "{v:#}");
+    let r = &v["goal_reach"];
+    let n = v["verdict"]["seasons"].as_u64().unwrap();
+    assert_eq!(r["seasons_needed"].as_u64(), Some(n));
+    assert!(n as usize > v["seasons_available"].as_u64().unwrap() as usize);
+    assert!(r["floor_pct"].as_f64().unwrap() < 3.0, "{r:#}");
+    assert!(r["range_best_pct"].as_f64().unwrap() > 3.0, "{r:#}");
+    assert!(r["horizon_yr"].as_f64().unwrap() >= 12.0 - 1e-9);
+    assert!(r["reached_by_night"].as_str().unwrap() > "2028-05-31");
+    for key in ["snr", "range_seasons", "horizon_seasons", "full_year"] {
+        assert!(!r[key].is_null(), "{key} missing: {r:#}");
+    }
+}

@@ -1,6 +1,7 @@
 //! Property tests of the distance methods' invariants (issue: hardening):
 //! phase in [0, 1); σ_d/d positive and falling as epochs are added, for each
-//! method's own precision model.
+//! method's own precision model; for the transient method also falling as the
+//! signal-to-noise rises, a finite distance, and typed refusals of bad input.
 
 use proptest::prelude::*;
 use rung::astro::bary::Bjd;
@@ -68,5 +69,182 @@ proptest! {
         let d4 = s4.sigma_parallax_mas / plx_mas;
         prop_assert!(d2 > 0.0 && d4 > 0.0);
         prop_assert!(d4 < d2, "σd/d with 4 years {d4} is not below 2 years {d2}");
+    }
+}
+
+// The transient method through its own face (`Method::predict`): the Fisher
+// matrix of (t_max, m_max, Δm15) over the epochs, then the distance budget
+// (SCIENCE.md, Thermonuclear supernovae). Invented transients at the invented
+// demo site (tests/transient_support); `predict` uses only the epochs' times
+// and SNR, not the site or the exposure model, so each case costs microseconds.
+
+mod transient_support;
+
+use rung::RungError;
+use rung::io::targets::Target;
+use rung::ladder::transient::{
+    C_KM_S, ChaseOptions, TransientMethod, default_limits, floor_sigma_mu,
+    fractional_distance_error, hubble_distance_modulus, place_curve,
+};
+use rung::ladder::{Epoch, Method};
+use transient_support::{TestPhotometer, cfg as sn_cfg, chase_setting, site, transient};
+
+/// An invented transient discovered on 2026-11-20 at 06:00 UTC, in the
+/// standardization's band, with `peak_mag` given or (None) from the Hubble
+/// law, and no discovery magnitude.
+fn sn(peak_mag: Option<f64>, z: f64, extinction_mag: f64) -> Target {
+    let mut t = transient("TEST-SN", 52.0, -28.0, "2026-11-20T06:00:00Z", 0.0, z);
+    t.mag_now = None;
+    t.peak_mag = peak_mag;
+    t.extinction_mag = extinction_mag;
+    t
+}
+
+/// σ_d/d (percent) that `predict` gives for epochs at `days` (observed days
+/// from the predicted maximum) with signal-to-noise `snr`, Δm15 = `dm15`.
+fn sn_pct(t: &Target, dm15: f64, days: &[f64], snr: &[f64]) -> Result<f64, RungError> {
+    let cfg = sn_cfg();
+    let site = site();
+    let t_max = place_curve(&cfg, t, dm15)?.params.t_max_mjd;
+    let epochs: Vec<Epoch> = days
+        .iter()
+        .zip(snr)
+        .map(|(d, s)| Epoch {
+            time: Instant::from_jd_utc(t_max + d + 2_400_000.5).unwrap(),
+            exptime_s: 60.0,
+            n_exposures: 1,
+            snr: *s,
+            airmass: 1.2,
+            visit_s: 240.0,
+        })
+        .collect();
+    let s = chase_setting(&site, t, 60, default_limits());
+    let m = TransientMethod::with(
+        cfg,
+        ChaseOptions {
+            dm15: Some(dm15),
+            ..Default::default()
+        },
+    );
+    Ok(m.predict(&s, &TestPhotometer, &epochs)?
+        .distance_precision_pct)
+}
+
+/// A cadence that brackets maximum and reaches past +15 d, so that all three
+/// light-curve parameters are constrained: `n` epochs evenly from `start`
+/// (before maximum) over `span` days.
+fn cadence(n: usize, start: f64, span: f64) -> Vec<f64> {
+    (0..n)
+        .map(|i| start + span * i as f64 / (n - 1) as f64)
+        .collect()
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 48, .. ProptestConfig::default() })]
+
+    /// Valid input: σ_d/d is finite, positive and never below the floor the
+    /// photometry cannot remove (intrinsic scatter, extinction, peculiar
+    /// velocity in quadrature); adding epochs anywhere on the curve or raising
+    /// every epoch's SNR never makes it worse, because each adds a positive
+    /// semi-definite term to the Fisher matrix (Fisher 1925; a property of
+    /// the Cramér–Rao bound, common practice).
+    #[test]
+    fn transient_sigma_positive_above_floor_and_falls_with_data_and_snr(
+        peak in 13.0f64..19.0,
+        z in 0.003f64..0.08,
+        a_mag in 0.0f64..0.5,
+        dm15 in 0.8f64..1.9,
+        n in 6usize..14,
+        start in -10.0f64..-2.0,
+        span in 25.0f64..55.0,
+        snr in 10.0f64..200.0,
+        extra in proptest::collection::vec(-8.0f64..60.0, 1..8),
+        gain in 1.1f64..5.0,
+    ) {
+        let t = sn(Some(peak), z, a_mag);
+        let days = cadence(n, start, span);
+        let base = sn_pct(&t, dm15, &days, &vec![snr; n]).unwrap();
+        let floor = 100.0 * fractional_distance_error(floor_sigma_mu(&sn_cfg(), Some(z), a_mag));
+        prop_assert!(base.is_finite() && base > 0.0, "σd/d {base}");
+        prop_assert!(base >= floor * (1.0 - 1e-12), "σd/d {base} below the floor {floor}");
+        // More epochs.
+        let mut more = days.clone();
+        more.extend(&extra);
+        let with_more = sn_pct(&t, dm15, &more, &vec![snr; more.len()]).unwrap();
+        prop_assert!(with_more.is_finite() && with_more > 0.0);
+        prop_assert!(with_more <= base * (1.0 + 1e-9), "{} more epochs: {with_more} > {base}", extra.len());
+        // Higher SNR at the same epochs.
+        let deeper = sn_pct(&t, dm15, &days, &vec![snr * gain; n]).unwrap();
+        prop_assert!(deeper <= base * (1.0 + 1e-9), "SNR ×{gain}: {deeper} > {base}");
+        prop_assert!(deeper >= floor * (1.0 - 1e-12));
+    }
+
+    /// Valid input gives a finite, positive distance: μ = m_max − A − M_max(Δm15)
+    /// (Phillips et al. 1999) and d = 10^(μ/5 + 1) pc (the distance modulus,
+    /// a fact of the trade). When the peak itself comes from the Hubble law,
+    /// the standardized distance is the Hubble-law distance c z / H0 (Hubble
+    /// 1929) to rounding: the two relations invert each other.
+    #[test]
+    fn transient_distance_is_finite_and_inverts_the_hubble_law(
+        peak in 12.0f64..21.0,
+        z in 0.001f64..0.1,
+        a_mag in 0.0f64..1.0,
+        dm15 in 0.75f64..1.95,
+    ) {
+        let cfg = sn_cfg();
+        let mu = |t: &Target| -> f64 {
+            let p = place_curve(&cfg, t, dm15).unwrap().params;
+            p.m_max - t.extinction_mag - cfg.standardization.peak_abs_mag(p.dm15)
+        };
+        let d_pc = 10f64.powf(mu(&sn(Some(peak), z, a_mag)) / 5.0 + 1.0);
+        prop_assert!(d_pc.is_finite() && d_pc > 0.0, "d = {d_pc} pc");
+        let d_h = 10f64.powf(mu(&sn(None, z, a_mag)) / 5.0 + 1.0);
+        let d_law = C_KM_S * z / cfg.cosmology.h0_km_s_mpc * 1.0e6;
+        prop_assert!((d_h / d_law - 1.0).abs() < 1e-9, "{d_h} pc against c z / H0 = {d_law} pc");
+        let mu_h = hubble_distance_modulus(z, cfg.cosmology.h0_km_s_mpc).unwrap();
+        prop_assert!(mu_h.is_finite());
+    }
+
+    /// Bad input is refused with a typed error naming the field, never a panic:
+    /// a redshift outside 0..3 (or not a number), a Δm15 outside the range the
+    /// standardization is used for, a Hubble-law redshift that is not positive.
+    #[test]
+    fn transient_bad_input_gives_typed_errors(
+        bad_z in prop_oneof![
+            -50.0f64..-1e-9,
+            3.000_001f64..1e6,
+            Just(f64::NAN),
+            Just(f64::INFINITY),
+            Just(f64::NEG_INFINITY),
+        ],
+        bad_dm15 in prop_oneof![
+            -5.0f64..0.749,
+            1.951f64..20.0,
+            Just(f64::NAN),
+        ],
+        bad_hubble_z in prop_oneof![-5.0f64..=0.0, Just(f64::NAN)],
+    ) {
+        let days = cadence(8, -6.0, 40.0);
+        let snr = vec![50.0; 8];
+        match sn_pct(&sn(Some(16.0), bad_z, 0.1), 1.1, &days, &snr) {
+            Err(RungError::Invalid { what, .. }) => prop_assert_eq!(what, "redshift"),
+            other => prop_assert!(false, "redshift {bad_z}: {other:?}"),
+        }
+        let t = sn(Some(16.0), 0.02, 0.1);
+        let cfg = sn_cfg();
+        let site = site();
+        let s = chase_setting(&site, &t, 60, default_limits());
+        let m = TransientMethod::with(
+            cfg.clone(),
+            ChaseOptions { dm15: Some(bad_dm15), ..Default::default() },
+        );
+        match m.predict(&s, &TestPhotometer, &[]) {
+            Err(RungError::Invalid { what, .. }) => prop_assert_eq!(what, "dm15"),
+            other => prop_assert!(false, "dm15 {bad_dm15}: {other:?}"),
+        }
+        match hubble_distance_modulus(bad_hubble_z, cfg.cosmology.h0_km_s_mpc) {
+            Err(RungError::Invalid { what, .. }) => prop_assert_eq!(what, "redshift"),
+            other => prop_assert!(false, "Hubble-law z {bad_hubble_z}: {other:?}"),
+        }
     }
 }

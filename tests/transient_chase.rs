@@ -1,104 +1,24 @@
 //! The chase from discovery on, at the invented demo site `pampa-lucero`, with
-//! invented targets, through a small documented test exposure model.
+//! invented targets, through a small documented test exposure model
+//! (tests/transient_support).
 
-use rung::astro::frames::{CatalogPlace, Context};
+mod transient_support;
+
 use rung::astro::night::Limits;
-use rung::astro::time::parse_instant;
-use rung::io::sites;
-use rung::io::targets::{Kind, Target};
-use rung::ladder::transient::{ChaseOptions, TransientConfig, TransientMethod, night_of};
-use rung::ladder::{ExposureModel, Method, Setting, Verdict};
+use rung::io::targets::Kind;
+use rung::ladder::transient::TransientMethod;
+use rung::ladder::{Method, Verdict};
+use transient_support::{TestPhotometer, chase_setting, method_at, site, transient};
 
-/// Test exposure model (a stand-in for the photometry module, documented
-/// here so the test does not depend on it): a 0.6 m-class telescope whose
-/// source rate is 10^(−0.4 (m + k X − 22.0)) e⁻/s in B with k = 0.25 mag per
-/// airmass (SCIENCE.md, common practice), a constant dark-sky background of
-/// 120 e⁻/s in the aperture, 60 e⁻ of read noise squared per frame summed over
-/// the aperture, and the CCD equation (Howell) solved in closed form for the
-/// exposure; one sub-exposure per 600 s.
-struct TestPhotometer;
-
-impl TestPhotometer {
-    fn rates(&self, mag: f64, ctx: &Context, place: &CatalogPlace) -> (f64, f64) {
-        let alt = ctx.observe(place).alt_rad.to_degrees();
-        let x = rung::astro::airmass::kasten_young(alt.max(1.0)).unwrap_or(40.0);
-        (10f64.powf(-0.4 * (mag + 0.25 * x - 22.0)), 120.0)
-    }
-}
-
-const RN2: f64 = 60.0 * 60.0;
-
-impl ExposureModel for TestPhotometer {
-    fn snr(
-        &self,
-        mag: f64,
-        _band: &str,
-        t: f64,
-        ctx: &Context,
-        place: &CatalogPlace,
-    ) -> rung::Result<f64> {
-        let (n, s) = self.rates(mag, ctx, place);
-        let frames = (t / 600.0).ceil().max(1.0);
-        Ok(n * t / (n * t + s * t + frames * RN2).sqrt())
-    }
-    fn exptime(
-        &self,
-        mag: f64,
-        _band: &str,
-        snr: f64,
-        ctx: &Context,
-        place: &CatalogPlace,
-    ) -> rung::Result<(f64, u32)> {
-        let (n, s) = self.rates(mag, ctx, place);
-        // N² t² − SNR² (N + S) t − SNR² R = 0, first with one frame.
-        let solve = |r: f64| {
-            let b = snr * snr * (n + s);
-            (b + (b * b + 4.0 * n * n * snr * snr * r).sqrt()) / (2.0 * n * n)
-        };
-        let mut t = solve(RN2);
-        let frames = (t / 600.0).ceil().max(1.0);
-        t = solve(frames * RN2);
-        Ok((t, (t / 600.0).ceil().max(1.0) as u32))
-    }
-    fn visit_overhead_s(&self) -> f64 {
-        180.0
-    }
-    fn readout_s(&self) -> f64 {
-        20.0
-    }
-    fn seeing_fwhm_arcsec(&self) -> f64 {
-        1.2
-    }
-}
-
-fn transient(name: &str, ra: f64, dec: f64, disc: &str, mag_now: f64, z: f64) -> Target {
-    let mut t = Target::plain(name, ra, dec);
-    t.kind = Kind::Transient;
-    t.band = "B".into();
-    t.discovered = Some(parse_instant(disc).unwrap());
-    t.mag_now = Some(mag_now);
-    t.redshift = Some(z);
-    t
-}
-
-fn run(t: &Target, limits: Limits, now: &str, goal: Option<f64>) -> rung::ladder::transient::Chase {
-    let site = sites::resolve("pampa-lucero").unwrap();
-    let from = night_of(&site, t.discovered.unwrap());
-    let s = Setting {
-        site: &site,
-        target: t,
-        from,
-        to: from + chrono::Duration::days(60),
-        limits,
-    };
-    let m = TransientMethod::with(
-        TransientConfig::embedded().unwrap(),
-        ChaseOptions {
-            now: Some(parse_instant(now).unwrap()),
-            ..Default::default()
-        },
-    );
-    m.chase(&s, &TestPhotometer, goal).unwrap()
+fn run(
+    t: &rung::io::targets::Target,
+    limits: Limits,
+    now: &str,
+    goal: Option<f64>,
+) -> rung::ladder::transient::Chase {
+    let site = site();
+    let s = chase_setting(&site, t, 60, limits);
+    method_at(now).chase(&s, &TestPhotometer, goal).unwrap()
 }
 
 // Sun's right ascension in mid-November is about 15h20m (229°), declination
@@ -258,38 +178,27 @@ fn twilight_pointing_near_the_sun_raises_a_caution() {
 
 #[test]
 fn bad_input_is_refused_with_a_clear_message() {
-    let site = sites::resolve("pampa-lucero").unwrap();
+    let site = site();
     let t = transient("TEST-OPP", 50.0, -30.0, "2026-11-15T04:00:00Z", 18.3, 0.02);
-    fn setting<'a>(site: &'a rung::astro::site::Site, t: &'a Target) -> Setting<'a> {
-        let from = night_of(site, t.discovered.unwrap());
-        Setting {
-            site,
-            target: t,
-            from,
-            to: from + chrono::Duration::days(20),
-            limits: Limits::default(),
-        }
-    }
-    let cfg = TransientConfig::embedded().unwrap();
     // Discovery after "now".
-    let m = TransientMethod::with(
-        cfg.clone(),
-        ChaseOptions {
-            now: Some(parse_instant("2026-11-10T00:00:00Z").unwrap()),
-            ..Default::default()
-        },
-    );
+    let m = method_at("2026-11-10T00:00:00Z");
     let e = m
-        .propose(&setting(&site, &t), &TestPhotometer)
+        .propose(
+            &chase_setting(&site, &t, 20, Limits::default()),
+            &TestPhotometer,
+        )
         .unwrap_err()
         .to_string();
     assert!(e.contains("discover") && e.contains("future"), "{e}");
     // Negative redshift.
-    let m = TransientMethod::with(cfg.clone(), ChaseOptions::default());
+    let m = TransientMethod::new().unwrap();
     let mut bad = t.clone();
     bad.redshift = Some(-0.01);
     let e = m
-        .propose(&setting(&site, &bad), &TestPhotometer)
+        .propose(
+            &chase_setting(&site, &bad, 20, Limits::default()),
+            &TestPhotometer,
+        )
         .unwrap_err()
         .to_string();
     assert!(e.contains("redshift"), "{e}");
@@ -297,14 +206,20 @@ fn bad_input_is_refused_with_a_clear_message() {
     let mut bad = t.clone();
     bad.band = "Q".into();
     let e = m
-        .propose(&setting(&site, &bad), &TestPhotometer)
+        .propose(
+            &chase_setting(&site, &bad, 20, Limits::default()),
+            &TestPhotometer,
+        )
         .unwrap_err()
         .to_string();
     assert!(e.contains("unknown band 'Q'"), "{e}");
     let mut bad = t.clone();
     bad.band = "I".into();
     let e = m
-        .propose(&setting(&site, &bad), &TestPhotometer)
+        .propose(
+            &chase_setting(&site, &bad, 20, Limits::default()),
+            &TestPhotometer,
+        )
         .unwrap_err()
         .to_string();
     assert!(e.contains("defined for B only"), "{e}");
@@ -312,7 +227,10 @@ fn bad_input_is_refused_with_a_clear_message() {
     let mut bad = t.clone();
     bad.kind = Kind::Parallax;
     let e = m
-        .propose(&setting(&site, &bad), &TestPhotometer)
+        .propose(
+            &chase_setting(&site, &bad, 20, Limits::default()),
+            &TestPhotometer,
+        )
         .unwrap_err()
         .to_string();
     assert!(e.contains("not a transient"), "{e}");
@@ -320,16 +238,9 @@ fn bad_input_is_refused_with_a_clear_message() {
 
 #[test]
 fn predict_agrees_with_the_chase_design() {
-    let site = sites::resolve("pampa-lucero").unwrap();
+    let site = site();
     let t = transient("TEST-OPP", 50.0, -30.0, "2026-11-15T04:00:00Z", 18.3, 0.02);
-    let from = night_of(&site, t.discovered.unwrap());
-    let s = Setting {
-        site: &site,
-        target: &t,
-        from,
-        to: from + chrono::Duration::days(60),
-        limits: Limits::new(30.0, -12.0).unwrap(),
-    };
+    let s = chase_setting(&site, &t, 60, Limits::new(30.0, -12.0).unwrap());
     let m = TransientMethod::new().unwrap();
     let g = m.goal(&s, &TestPhotometer, 12.0).unwrap();
     let p = m.predict(&s, &TestPhotometer, &g.epochs).unwrap();
@@ -347,17 +258,10 @@ fn the_demo_photometer_gives_a_full_curve_at_opposition() {
     // The same chase through the real photometry model (invented demo
     // instrument): exposures are positive, grow as the supernova fades, and
     // the curve is measured.
-    let site = sites::resolve("pampa-lucero").unwrap();
+    let site = site();
     let ph = rung::photometry::Photometer::demo(&site).unwrap();
     let t = transient("TEST-OPP", 50.0, -30.0, "2026-11-15T04:00:00Z", 18.3, 0.02);
-    let from = night_of(&site, t.discovered.unwrap());
-    let s = Setting {
-        site: &site,
-        target: &t,
-        from,
-        to: from + chrono::Duration::days(60),
-        limits: Limits::new(30.0, -12.0).unwrap(),
-    };
+    let s = chase_setting(&site, &t, 60, Limits::new(30.0, -12.0).unwrap());
     let m = TransientMethod::new().unwrap();
     let c = m.chase(&s, &ph, Some(12.0)).unwrap();
     assert!(c.nights.iter().filter(|n| n.usable).count() >= 50);

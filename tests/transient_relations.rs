@@ -1,12 +1,11 @@
 //! Published relations of the transient method, as configured, checked by hand.
 
+mod transient_support;
+
 use rung::ladder::transient::{
     TransientConfig, fractional_distance_error, hubble_distance_modulus, peculiar_sigma_mu,
 };
-
-fn cfg() -> TransientConfig {
-    TransientConfig::embedded().expect("embedded config/transient.toml parses")
-}
+use transient_support::cfg;
 
 #[test]
 fn standardization_at_reference_decline_and_its_slope() {

@@ -354,6 +354,7 @@ fn to_json(
         "lutz_kelker_warning": pct.is_some_and(|p| p > cfg.lutz_kelker_pct),
         "hours_needed": plan.prediction.hours_needed,
         "verdict": plan.prediction.verdict,
+        "goal_reach": plan.reach,
         "cautions": cautions,
         "notes": plan.prediction.notes,
     }))

@@ -23,7 +23,9 @@
 //! factor is within `factor_fraction` of its yearly extreme. Seasons are runs
 //! of candidate nights; [`ParallaxMethod::plan`] takes `epochs_per_season`
 //! of each, [`ParallaxMethod::goal_plan`] searches seasons × epochs × SNR for
-//! the fewest telescope hours that reach a goal. Moonlight enters through the
+//! the fewest telescope hours that reach a goal, and when the range falls
+//! short continues its nights year by year to a horizon to say how many
+//! seasons would do, or what the floor is ([`Reach`]). Moonlight enters through the
 //! exposure model (sky brightness), not as a separate Moon-distance cut.
 
 use crate::astro::airmass::{altitude_for_airmass_deg, kasten_young};
@@ -47,8 +49,14 @@ pub const MAS_PER_RAD: f64 = 180.0 / std::f64::consts::PI * 3_600_000.0;
 /// Longest date range the factor series accepts, nights (about 12 years).
 pub const MAX_RANGE_NIGHTS: i64 = 4400;
 
-/// Most extra years the goal search considers when the range falls short.
-pub const MAX_EXTRA_YEARS: u32 = 10;
+/// When the range falls short of a goal, its candidate nights are continued
+/// year by year to this many years from the range start (a long parallax
+/// programme; about the longest range a series accepts, [`MAX_RANGE_NIGHTS`])
+/// to count the seasons that would reach it, or to give the floor.
+pub const HORIZON_YEARS: f64 = 12.0;
+
+/// Nights in the year that is repeated beyond the range.
+const YEAR_NIGHTS: usize = 365;
 
 /// Sampling step inside an observing window when looking for the best time, seconds.
 pub const WINDOW_STEP_S: f64 = 300.0;
@@ -622,6 +630,41 @@ pub struct ParallaxPlan {
     pub solution: Option<Solution>,
     /// What the epochs buy, in the shared form.
     pub prediction: Prediction,
+    /// In goal mode when the range falls short: how far its nights, continued
+    /// to the horizon, go toward the goal.
+    pub reach: Option<Reach>,
+}
+
+/// How far a range's candidate nights, continued year by year to
+/// [`HORIZON_YEARS`] from its start, go toward a distance goal
+/// (see `ParallaxMethod::goal_plan`).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Reach {
+    /// SNR per epoch assumed: the highest level of `goal_snr_steps`.
+    pub snr: f64,
+    /// Seasons of candidate nights inside the range.
+    pub range_seasons: usize,
+    /// Best σ_ϖ/ϖ of the range's seasons, percent; `None` when they cannot be fitted.
+    pub range_best_pct: Option<f64>,
+    /// Parallax–proper-motion correlation of that fit.
+    pub range_corr_parallax_pm: Option<f64>,
+    /// Length of the horizon, years from the range start.
+    pub horizon_yr: f64,
+    /// Seasons of candidate nights within the horizon.
+    pub horizon_seasons: usize,
+    /// Best σ_ϖ/ϖ over the whole horizon, percent: the floor the verdict
+    /// compares with the goal; `None` when even these nights cannot separate
+    /// position, proper motion and parallax.
+    pub floor_pct: Option<f64>,
+    /// Fewest seasons, counted from the range start, that reach the goal
+    /// within the horizon.
+    pub seasons_needed: Option<usize>,
+    /// Last night of the season that reaches the goal.
+    #[serde(serialize_with = "ser_opt_date", rename = "reached_by_night")]
+    pub reached_by: Option<NaiveDate>,
+    /// The repeated year is a full year of real nights (false only for a
+    /// range shorter than a year near the end of rung's span).
+    pub full_year: bool,
 }
 
 /// The parallax method.
@@ -1085,6 +1128,7 @@ impl ParallaxMethod {
             epochs,
             solution: Some(sol),
             prediction,
+            reach: None,
         })
     }
 
@@ -1114,6 +1158,17 @@ impl ParallaxMethod {
     /// seasons (from the first), epochs per season (`epochs_per_season` to
     /// `max_epochs_per_season`, so that a lost night does not break a season)
     /// and the SNR levels of `goal_snr_steps`; or the verdict that says why not.
+    ///
+    /// Why not is one test, [`Reach`]: the range's candidate nights continued
+    /// year by year to [`HORIZON_YEARS`] at the highest SNR tried. When some
+    /// number of seasons within the horizon reaches the goal the verdict is
+    /// `NeedsMoreSeasons` with that number (so the floor over the horizon is
+    /// below the goal); when none does it is `LimitedByFloor` with the best
+    /// over the horizon (above the goal). Both come from the same nights
+    /// whatever the range, so every range gives the same kind of answer. The
+    /// per-epoch floor of SCIENCE.md is an error of each epoch, independent
+    /// between epochs, so it averages down with more epochs: what limits a
+    /// range that falls short is its length, not the floor.
     pub fn goal_plan(
         &self,
         s: &Setting,
@@ -1147,6 +1202,7 @@ impl ParallaxMethod {
                 verdict,
                 notes,
             },
+            reach: None,
         };
         if seasons.is_empty() {
             let why = self.no_candidates(s, &series);
@@ -1266,102 +1322,235 @@ impl ParallaxMethod {
             );
             return Ok(plan);
         }
-        // Why not: the best the range allows with noiseless centroids (floor and
-        // DCR only), the most epochs per season, every season.
-        let idx: Vec<usize> = seasons
-            .iter()
-            .flat_map(|se| spread(&series, se, kmax, self.cfg.ha_limit_h))
-            .collect();
-        let floor_sig = |i: usize| -> Result<f64> {
-            let x = series.nights[i].airmass.unwrap_or(1.0);
-            let tanz = (x * x - 1.0).max(0.0).sqrt();
-            let d = self.cfg.dcr_mas_per_tanz * tanz;
-            Ok((self.cfg.floor_mas.powi(2) + d * d).sqrt().max(1e-6))
-        };
-        let base = obs_for(&idx, &floor_sig)?;
-        let best_sol = solve(&base).ok();
-        // How many more years would do: the same candidate nights repeated a
-        // whole number of Julian years later (the factors repeat with the
-        // year to about 1e-2 au), up to MAX_EXTRA_YEARS.
-        let extra_years = (1..=MAX_EXTRA_YEARS).find(|y| {
-            let mut o = base.clone();
-            for k in 1..=*y {
-                o.extend(base.iter().map(|e| EpochObs {
-                    t_yr: e.t_yr + k as f64,
-                    ..*e
-                }));
-            }
-            solve(&o).is_ok_and(|x| x.sigma_parallax_mas <= need_mas)
-        });
+        // Why not: continue the range's candidate nights year by year to the
+        // planning horizon, at the highest SNR the search tries, and count the
+        // seasons that would reach the goal (or give the horizon's floor).
+        let reach = self.reach(s, &series, fwhm, goal_pct, plx)?;
+        let snr_top = reach.snr;
         let mut notes = Vec::new();
-        if let Some(e) = first_exp_error {
+        if let Some(e) = &first_exp_error {
             notes.push(format!("the exposure model refused some epochs: {e}"));
         }
         let span_yr = (s.to - s.from).num_days() as f64 / 365.25 + 1.0 / 365.25;
-        let range_years = span_yr.ceil().max(1.0) as u32;
-        let more_seasons = extra_years.map(|y| {
-            let per_year = (seasons.len() as f64 / span_yr.max(1.0)).ceil().max(1.0) as u32;
-            seasons.len() as u32 + y * per_year
-        });
-        let longer = match (extra_years, more_seasons) {
-            (Some(y), Some(n)) => format!(
-                "a range about {y} year(s) longer (some {n} seasons, {} years in all) would reach it",
-                range_years + y
+        let per_epoch = format!(
+            "at SNR {snr_top:.0} per epoch (the highest tried) with the {:.1} mas floor and DCR",
+            self.cfg.floor_mas
+        );
+        let range_best = match reach.range_best_pct {
+            Some(p) => format!(
+                "the range's {} season(s) × up to {kmax} epochs reach at best {p:.1} %",
+                seasons.len()
             ),
-            _ => format!("not even {MAX_EXTRA_YEARS} more years of these nights would reach it"),
+            None => format!(
+                "the range's {} candidate night(s) are too few to fit position, proper motion and parallax",
+                seasons.iter().map(|se| se.len()).sum::<usize>()
+            ),
         };
-        let longer = if span_yr < 1.0 {
-            format!(
-                "{longer} (the range covers less than a year, so the seasons outside it are not counted: give a range of two years or more)"
-            )
-        } else {
-            longer
-        };
-        let verdict = match &best_sol {
-            Some(b) if b.sigma_parallax_mas <= need_mas => {
+        if span_yr < 2.0 || reach.range_corr_parallax_pm.is_none_or(|c| c.abs() > 0.7) {
+            notes.push(format!(
+                "the range {}..{} ({span_yr:.1} yr, {} season(s)) is too short a baseline to separate proper motion from parallax",
+                s.from,
+                s.to,
+                seasons.len()
+            ));
+        }
+        if !reach.full_year {
+            notes.push(
+                "the range covers less than a year and the nights after it are outside rung's span, so the other season of each year is not counted: give a range of two years or more".to_string(),
+            );
+        }
+        let horizon = format!(
+            "{} season(s) in the {:.0} years from {}",
+            reach.horizon_seasons, reach.horizon_yr, s.from
+        );
+        let verdict = match (reach.seasons_needed, reach.floor_pct) {
+            (Some(n), _) if first_exp_error.is_some() && n <= seasons.len() => {
                 notes.push(format!(
-                    "the goal needs more signal than the highest SNR tried ({:.0}) gives at {} epochs, or the exposure model refused the epochs",
-                    self.cfg.goal_snr_steps.last().copied().unwrap_or(0.0),
-                    idx.len()
+                    "{per_epoch}, {range_best}: the goal is within reach of the range's seasons, but the exposure model refuses the epochs"
                 ));
-                Verdict::LimitedByFloor {
-                    floor_pct: 100.0 * b.sigma_parallax_mas / plx,
+                Verdict::NotObservable {
+                    when: Some("the exposure model refuses its epochs".to_string()),
                 }
             }
-            Some(b) if span_yr < 2.0 || b.corr_parallax_pm.abs() > 0.7 => {
+            (Some(n), Some(fp)) => {
+                let by = reach
+                    .reached_by
+                    .map(|d| {
+                        format!(
+                            ", through about {d} ({:.1} years from {})",
+                            ((d - s.from).num_days() + 1) as f64 / 365.25,
+                            s.from
+                        )
+                    })
+                    .unwrap_or_default();
                 notes.push(format!(
-                    "the range {}..{} ({span_yr:.1} yr, {} season(s)) is too short a baseline to separate proper motion from parallax: at best {:.1} % even at the {:.1} mas floor; {longer}",
-                    s.from,
-                    s.to,
-                    seasons.len(),
-                    100.0 * b.sigma_parallax_mas / plx,
-                    self.cfg.floor_mas
+                    "{per_epoch}, {range_best}, short of {goal_pct:.1} %; the same candidate nights continued year by year reach it after {n} season(s) in all{by}; the floor over {horizon} is {fp:.1} %"
                 ));
                 Verdict::NeedsMoreSeasons {
-                    seasons: more_seasons,
+                    seasons: Some(n as u32),
                 }
             }
-            Some(b) => {
-                let fp = 100.0 * b.sigma_parallax_mas / plx;
+            (None, Some(fp)) => {
                 notes.push(format!(
-                    "with the per-epoch floor of {:.1} mas and DCR, {} epochs over the range reach at best {fp:.1} %, short of {goal_pct:.1} %; {longer}",
-                    self.cfg.floor_mas,
-                    idx.len()
+                    "{per_epoch}, {range_best}; even continued year by year, {horizon} reach at best {fp:.1} %, short of {goal_pct:.1} %: independent per-epoch errors average down only as the square root of the number of epochs"
                 ));
                 Verdict::LimitedByFloor { floor_pct: fp }
             }
-            None => {
+            (_, None) => {
                 notes.push(format!(
-                    "only {} candidate night(s) in the range: too few to fit position, proper motion and parallax; {longer}",
-                    idx.len()
+                    "{per_epoch}, {range_best}; even continued year by year over {horizon}, these candidate nights cannot separate position, proper motion and parallax: choose another factor axis or a lower factor fraction"
                 ));
-                Verdict::NeedsMoreSeasons {
-                    seasons: more_seasons,
-                }
+                Verdict::NeedsMoreSeasons { seasons: None }
             }
         };
         let n = seasons.len();
-        Ok(empty(verdict, notes, series, n))
+        let mut plan = empty(verdict, notes, series, n);
+        plan.reach = Some(reach);
+        Ok(plan)
+    }
+    /// How far the range's candidate nights go toward `goal_pct` when they are
+    /// continued year by year to [`HORIZON_YEARS`] from the range start: the
+    /// best σ_ϖ/ϖ of the range itself, the fewest seasons (counted from the
+    /// range start) that reach the goal, and the best over the horizon (the
+    /// floor the goal verdict compares with the goal).
+    ///
+    /// The schedule is the one the goal search would try at its most generous:
+    /// `max_epochs_per_season` nights per season ([`spread`]), each at the
+    /// highest SNR of `goal_snr_steps`, per-epoch error from
+    /// [`epoch_sigma_mas`] (centroid, floor and DCR in quadrature) and the fit
+    /// of [`solve`]. Beyond the range, night j repeats the night a whole number
+    /// of 365-day years earlier within the range's last year (factors, hour
+    /// angle, airmass and candidacy), its epoch moved by the same number of
+    /// days: the parallax factors repeat with the year to about 1e-2 au, and the
+    /// 0.24-day drift a year moves them by at most about 0.05 au over the horizon.
+    /// A range shorter than a year is first completed to a year with real
+    /// nights. Because the per-epoch errors are independent, σ_ϖ only falls as
+    /// seasons are added (the normal matrix only grows), so "reached after N
+    /// seasons" and "the horizon's floor is below the goal" are the same test.
+    fn reach(
+        &self,
+        s: &Setting,
+        series: &Series,
+        fwhm_arcsec: f64,
+        goal_pct: f64,
+        plx: f64,
+    ) -> Result<Reach> {
+        let snr = self
+            .cfg
+            .goal_snr_steps
+            .last()
+            .copied()
+            .unwrap_or(self.cfg.snr);
+        let kmax = self.cfg.max_epochs_per_season as usize;
+        let gap = self.cfg.season_gap_d;
+        let need_mas = goal_pct / 100.0 * plx;
+        let pct = |sol: &Solution| 100.0 * sol.sigma_parallax_mas / plx;
+        let obs_of = |ser: &Series, t_yr: &[f64], idx: &[usize]| -> Result<Vec<EpochObs>> {
+            idx.iter()
+                .map(|i| {
+                    let n = &ser.nights[*i];
+                    Ok(EpochObs {
+                        t_yr: t_yr[*i],
+                        pf_ra: n.pf_ra,
+                        pf_dec: n.pf_dec,
+                        sigma_mas: epoch_sigma_mas(
+                            fwhm_arcsec,
+                            snr,
+                            n.airmass.unwrap_or(1.0),
+                            &self.cfg,
+                        )?,
+                    })
+                })
+                .collect()
+        };
+        let t_of = |n: &NightFactor| n.best_time.map(|t| t.julian_epoch_tt()).unwrap_or(f64::NAN);
+        // The range alone.
+        let t_range: Vec<f64> = series.nights.iter().map(t_of).collect();
+        let range_idx: Vec<usize> = series
+            .seasons(gap)
+            .iter()
+            .flat_map(|se| spread(series, se, kmax, self.cfg.ha_limit_h))
+            .collect();
+        let range_sol = solve(&obs_of(series, &t_range, &range_idx)?).ok();
+        // Real nights to a full year, then the last year repeated.
+        let mut nights = series.nights.clone();
+        let mut full_year = nights.len() >= YEAR_NIGHTS;
+        if !full_year {
+            let place = s.target.place();
+            let lim = self.effective_limits(s);
+            let dates: Vec<NaiveDate> = (nights.len()..YEAR_NIGHTS)
+                .filter_map(|i| s.from.checked_add_days(chrono::Days::new(i as u64)))
+                .collect();
+            use rayon::prelude::*;
+            let more = dates
+                .par_iter()
+                .map(|d| self.night_factor(s, *d, &place, &lim, series.threshold))
+                .collect::<Result<Vec<_>>>();
+            match more {
+                Ok(more) => {
+                    nights.extend(more);
+                    full_year = true;
+                }
+                // Near the end of rung's span: repeat what there is.
+                Err(RungError::OutOfSpan { .. }) => {}
+                Err(e) => return Err(e),
+            }
+        }
+        let mut t_yr: Vec<f64> = nights.iter().map(t_of).collect();
+        let n_real = nights.len();
+        let horizon_n = n_real.max((HORIZON_YEARS * 365.25).round() as usize);
+        for j in n_real..horizon_n {
+            let c = (j - n_real) / YEAR_NIGHTS + 1;
+            let Some(src) = j.checked_sub(c * YEAR_NIGHTS) else {
+                continue;
+            };
+            let Some(date) = s.from.checked_add_days(chrono::Days::new(j as u64)) else {
+                break;
+            };
+            let mut nf = nights[src].clone();
+            nf.night = date;
+            nf.best_time = None;
+            nights.push(nf);
+            t_yr.push(t_yr[src] + (c * YEAR_NIGHTS) as f64 / 365.25);
+        }
+        let ext = Series {
+            nights,
+            yearly_extreme: series.yearly_extreme,
+            threshold: series.threshold,
+            axis: series.axis,
+        };
+        let ext_seasons = ext.seasons(gap);
+        let mut obs: Vec<EpochObs> = Vec::new();
+        let mut seasons_needed = None;
+        let mut reached_by = None;
+        for (k, se) in ext_seasons.iter().enumerate() {
+            let idx = spread(&ext, se, kmax, self.cfg.ha_limit_h);
+            obs.extend(obs_of(&ext, &t_yr, &idx)?);
+            if obs.len() < 3 {
+                continue;
+            }
+            let Ok(sol) = solve(&obs) else {
+                continue;
+            };
+            if seasons_needed.is_none() && sol.sigma_parallax_mas <= need_mas {
+                seasons_needed = Some(k + 1);
+                reached_by = se.last().map(|i| ext.nights[*i].night);
+            }
+        }
+        // The floor: the fit of every season of the horizon.
+        let floor = solve(&obs).ok().map(|sol| pct(&sol));
+        Ok(Reach {
+            snr,
+            range_seasons: series.seasons(gap).len(),
+            range_best_pct: range_sol.as_ref().map(pct),
+            range_corr_parallax_pm: range_sol.as_ref().map(|x| x.corr_parallax_pm),
+            horizon_yr: horizon_n as f64 / 365.25,
+            horizon_seasons: ext_seasons.len(),
+            floor_pct: floor,
+            seasons_needed,
+            reached_by,
+            full_year,
+        })
     }
 }
 
