@@ -596,18 +596,32 @@ impl State {
         BudgetKey {
             targets: self.targets.clone(),
             site: self.site.clone(),
-            // A season budget starts on the first of the month shown, so that
-            // stepping nights inside a month does not ask for a new one.
-            date: self.date.with_day(1).unwrap_or(self.date),
+            date: self.budget_date(),
             instrument: self.instrument.clone(),
             limits: self.limits,
         }
     }
 
+    /// The first night a budget made now starts on: the first of the month
+    /// shown, so that stepping nights inside a month does not ask for a new one.
+    pub fn budget_date(&self) -> NaiveDate {
+        self.date.with_day(1).unwrap_or(self.date)
+    }
+
+    /// Whether a budget key is for the current site, first night, instrument
+    /// and limits (its programme aside). Compares in place: a redraw must not
+    /// copy the programme.
+    fn budget_setting_is_current(&self, k: &BudgetKey) -> bool {
+        k.site == self.site
+            && k.date == self.budget_date()
+            && k.instrument == self.instrument
+            && k.limits == self.limits
+    }
+
     /// The budget for the current key, when computed.
     pub fn budget_now(&self) -> Option<&Result<Box<crate::plan::budget::Budget>, String>> {
         let (k, b) = self.budget.as_ref()?;
-        (*k == self.budget_key()).then_some(b)
+        (self.budget_setting_is_current(k) && k.targets == self.targets).then_some(b)
     }
 
     /// A target's progress towards its goal from the budget for the current site,
@@ -618,15 +632,10 @@ impl State {
         let Some(goal_pct) = t.goal_pct else {
             return Progress::NoGoal;
         };
-        let now = self.budget_key();
         let Some((k, b)) = self.budget.as_ref() else {
             return Progress::Pending { goal_pct };
         };
-        let same = k.site == now.site
-            && k.date == now.date
-            && k.instrument == now.instrument
-            && k.limits == now.limits
-            && k.targets.contains(t);
+        let same = self.budget_setting_is_current(k) && k.targets.contains(t);
         if !same {
             return Progress::Pending { goal_pct };
         }
