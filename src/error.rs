@@ -147,5 +147,14 @@ pub fn one_line_cut(text: &str, max: usize) -> String {
     out
 }
 
+/// The 1-based line holding byte `offset` of `text` (a parser's error span).
+/// An offset at the start of a line belongs to that line.
+pub fn line_at(text: &str, offset: usize) -> usize {
+    1 + text.as_bytes()[..offset.min(text.len())]
+        .iter()
+        .filter(|b| **b == b'\n')
+        .count()
+}
+
 /// Result type of the rung library.
 pub type Result<T> = std::result::Result<T, RungError>;

@@ -81,7 +81,7 @@ fn sites() {
         ("S2", err(resolve("10,20,30,Not/AZone")), "cannot read time zone from 'Not/AZone': expected an IANA zone such as America/Santiago".into()),
         ("S3", s("[[site]]\nname = \"a\"\nlat_deg = 95\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n"), "s.toml, line 1, field 'lat_deg': 95 is not within -90..+90 degrees".into()),
         ("S4", s("[[site]]\nname = \"a\nlat_deg = 10\n"), "s.toml, line 2: invalid basic string, expected `\"`".into()),
-        ("S5", s("[[site]]\nname = \"a\"\nlattitude = 10\n"), "s.toml, line 2: unknown field `lattitude`, expected one of `name`, `lat_deg`, `lon_deg`, `elev_m`, `timezone`, `pressure_hpa`, `temperature_c`, `humidity`, `sun_avoid_deg`, `horizon`, `description`".into()),
+        ("S5", s("[[site]]\nname = \"a\"\nlattitude = 10\n"), "s.toml, line 3: unknown field `lattitude`, expected one of `name`, `lat_deg`, `lon_deg`, `elev_m`, `timezone`, `pressure_hpa`, `temperature_c`, `humidity`, `sun_avoid_deg`, `horizon`, `description`".into()),
         ("S6", s("[[site]]\nname = \"a\"\nlat_deg = 10\nlon_deg = 10\nelev_m = 0\ntimezone = \"Mars/Olympus\"\n"), "s.toml, line 1, field 'timezone': 'Mars/Olympus' is not an IANA time zone".into()),
     ] {
         check(id, got, want);
@@ -301,4 +301,446 @@ fn header_problems_name_the_header_line() {
         p[0],
         "t.csv, line 3, field 'dec': the header has no 'dec' column (required: name, ra, dec)"
     );
+}
+
+/// A small plan file as rung saves it (pretty JSON, one visit); `FP` stands
+/// for the targets fingerprint. Line numbers below count from its first line.
+const PLAN: &str = r#"{
+  "format": "rung-plan/1",
+  "site": "pampa-lucero",
+  "targets_file": "t.csv",
+  "targets_fingerprint": "FP",
+  "from": "2026-03-01",
+  "to": "2026-03-03",
+  "hours_per_night": 3.0,
+  "min_alt_deg": 30.0,
+  "sun_alt_deg": -12.0,
+  "lost_nights": [],
+  "visits": [
+    {
+      "id": "A#1",
+      "target": "A",
+      "kind": "plain",
+      "night": "2026-03-01",
+      "start": "2026-03-02T01:00:00Z",
+      "end": "2026-03-02T01:10:00Z",
+      "exptime_s": 60.0,
+      "n_exposures": 1,
+      "snr": 100.0,
+      "airmass": 1.2,
+      "status": "planned",
+      "cautions": []
+    }
+  ]
+}
+"#;
+
+#[test]
+fn plan_files() {
+    use rung::io::targets::Target;
+    use rung::plan::file::{load, parse};
+    use rung::plan::schedule::fingerprint;
+    let ours = vec![Target::plain("A", 10.0, -20.0)];
+    let other = vec![Target::plain("B", 10.0, -20.0)];
+    let (fa, fb) = (fingerprint(&ours), fingerprint(&other));
+    let good = PLAN.replace("FP", &fa);
+    let p = Path::new("p.json");
+    // The good plan beside the bad ones loads and belongs to its own list.
+    let plan = parse(&good, p).expect("the good plan reads");
+    plan.check_targets(&ours, p).expect("its own targets");
+    let bad = |from: &str, to: &str| {
+        assert!(good.contains(from), "{from}");
+        err(parse(&good.replacen(from, to, 1), p))
+    };
+    let mut marked = plan.clone();
+    // The same visit written twice.
+    let v0 = good.find("    {\n      \"id\"").unwrap();
+    let v1 = good.find("    }\n  ]").unwrap() + "    }".len();
+    let visit = &good[v0..v1];
+    let twice = good.replacen(visit, &format!("{visit},\n{visit}"), 1);
+    for (id, got, want) in [
+        ("P1", err(plan.check_targets(&other, p)), format!("p.json, field 'targets_fingerprint': this plan was made for another targets list (t.csv, fingerprint {fa}); the list given has fingerprint {fb}. Nothing was changed")),
+        ("P2", err(parse(&good[..good.find("\"visits\"").unwrap()], p)), "p.json, line 12: not a readable plan file (column 2): EOF while parsing a value".into()),
+        ("P3", err(parse("", p)), "p.json, line 1: not a readable plan file (column 0): EOF while parsing a value".into()),
+        ("P4", bad("\"kind\": \"plain\"", "\"kind\": \"quasar\""), "p.json, line 16, field 'kind': not a readable plan file (column 22): unknown variant `quasar`, expected one of `parallax`, `pulsator`, `transient`, `plain`".into()),
+        ("P5", bad("\"status\": \"planned\"", "\"status\": \"maybe\""), "p.json, line 24, field 'status': not a readable plan file (column 23): unknown variant `maybe`, expected one of `planned`, `done`, `lost`".into()),
+        ("P6", bad("\"start\": \"2026-03-02T01:00:00Z\"", "\"start\": \"2026-03-02T25:00:00Z\""), format!("p.json, line 18, field 'start': not a readable plan file (column 37): cannot read time from '2026-03-02T25:00:00Z': {ISO}")),
+        ("P7", bad("  \"lost_nights\": [],\n", "  \"lost_nights\": [],\n  \"notes\": \"x\",\n"), "p.json, line 12, field 'notes': not a readable plan file (column 9): unknown field `notes`, expected one of `format`, `site`, `targets_file`, `targets_fingerprint`, `from`, `to`, `hours_per_night`, `min_alt_deg`, `sun_alt_deg`, `lost_nights`, `visits`".into()),
+        ("P8", bad("rung-plan/1", "rung-plan/9"), "p.json, field 'format': 'rung-plan/9' is not a plan format rung reads (expected rung-plan/1)".into()),
+        ("P9", bad("\"hours_per_night\": 3.0", "\"hours_per_night\": -1.0"), "p.json, field 'hours_per_night': -1 is not within (0, 24] hours".into()),
+        ("P10", bad("\"min_alt_deg\": 30.0", "\"min_alt_deg\": 120.0"), "p.json, field 'min_alt_deg': 120 is not within -1..89 degrees".into()),
+        ("P11", bad("\"from\": \"2026-03-01\"", "\"from\": \"2026-04-01\""), "p.json, field 'to': 2026-03-03 is before 'from' 2026-04-01".into()),
+        ("P12", bad("\"to\": \"2026-03-03\"", "\"to\": \"2030-01-01\""), "p.json, field 'to': 2026-03-01 to 2030-01-01 is 1403 nights, longer than the 1098 nights a plan may span".into()),
+        ("P13", bad("\"to\": \"2026-03-03\"", "\"to\": \"2100-01-03\""), format!("p.json, field 'to': 2100-01-03 {SPAN}")),
+        ("P14", bad("\"end\": \"2026-03-02T01:10:00Z\"", "\"end\": \"2026-03-02T00:50:00Z\""), "p.json, field 'visits': visit 'A#1' ends before it starts".into()),
+        ("P15", err(parse(&twice, p)), "p.json, field 'visits': visit id 'A#1' appears twice".into()),
+        ("V1", err(marked.mark(&["A#9".into()], rung::plan::schedule::Status::Done)), "unknown visit 'A#9'; visit ids look like NAME#N (see the plan's CSV or JSON)".into()),
+    ] {
+        check(id, got, want);
+    }
+    // Files: a folder, bytes that are not UTF-8 (nothing is written either way).
+    let d = tempfile::tempdir().unwrap();
+    check(
+        "P16",
+        err(load(d.path())),
+        format!("invalid plan file: {} is a folder", d.path().display()),
+    );
+    let f = d.path().join("latin1.json");
+    std::fs::write(&f, b"{\n  \"site\": \"caf\xe9\"\n}\n").unwrap();
+    check(
+        "P17",
+        err(load(&f)),
+        format!(
+            "{}, line 2: not UTF-8 text: a plan file is the JSON that rung saves",
+            f.display()
+        ),
+    );
+    assert_eq!(
+        std::fs::read(&f).unwrap(),
+        b"{\n  \"site\": \"caf\xe9\"\n}\n"
+    );
+}
+
+#[test]
+fn budgets_and_ranges() {
+    use rung::plan::budget::check_goal;
+    use rung::plan::schedule::dates;
+    let day = |s: &str| s.parse::<chrono::NaiveDate>().unwrap();
+    for (id, got, want) in [
+        ("B1", err(check_goal(0.0)), "invalid goal: 0 % is not a distance precision in (0, 100] %".to_string()),
+        ("B2", err(check_goal(-3.0)), "invalid goal: -3 % is not a distance precision in (0, 100] %".into()),
+        ("B3", err(check_goal(101.0)), "invalid goal: 101 % is not a distance precision in (0, 100] %".into()),
+        ("B4", err(check_goal(f64::NAN)), "invalid goal: NaN % is not a distance precision in (0, 100] %".into()),
+        ("R1", err(dates(day("2026-06-01"), day("2026-03-01"))), "invalid date range: --from 2026-06-01 is after --to 2026-03-01".into()),
+        ("R2", err(dates(day("2026-03-01"), day("2036-06-01"))), "invalid date range: 3746 nights is longer than the 1098 nights a plan or a budget may span".into()),
+        ("R3", err(rung::plan::season::nights_in(day("2026-03-01"), day("2046-03-01"))), "invalid date range: 2026-03-01 to 2046-03-01 is 7306 nights; a season scan covers at most 3653 nights (10 years)".into()),
+    ] {
+        check(id, got, want);
+    }
+    // A one-night range is not empty: it is that night.
+    assert_eq!(
+        dates(day("2026-03-01"), day("2026-03-01")).unwrap().len(),
+        1
+    );
+}
+
+/// `rung ARGS` with an empty user config folder: (exit code, stderr).
+fn cli(args: &[&str]) -> (Option<i32>, String) {
+    let cfg = tempfile::tempdir().unwrap();
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args(args)
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .env("RUNG_CONFIG_DIR", cfg.path())
+        .env_remove("RUNG_DEMO_DIR")
+        .output()
+        .expect("run the rung binary");
+    (
+        o.status.code(),
+        String::from_utf8_lossy(&o.stderr).to_string(),
+    )
+}
+
+/// One line `rung: error: <want>` on stderr and exit code 2.
+fn check_cli(id: &str, args: &[&str], want: &str) {
+    let (code, err) = cli(args);
+    assert!(!err.contains("panicked"), "case {id}: {err}");
+    assert_eq!(err, format!("rung: error: {want}\n"), "case {id}");
+    assert_eq!(code, Some(2), "case {id}");
+}
+
+#[test]
+fn plan_and_budget_options() {
+    const T: &str = "targets-demo/targets.csv";
+    let season = [
+        "--site",
+        "pampa-lucero",
+        "--targets",
+        T,
+        "--from",
+        "2026-03-01",
+    ];
+    let budget = |extra: &[&str]| -> Vec<String> {
+        let mut v: Vec<String> = ["budget", "--to", "2026-06-01"]
+            .iter()
+            .chain(season.iter())
+            .map(|s| s.to_string())
+            .collect();
+        v.extend(extra.iter().map(|s| s.to_string()));
+        v
+    };
+    let plan = |extra: &[&str]| -> Vec<String> {
+        let mut v: Vec<String> = ["plan", "--to", "2026-03-05"]
+            .iter()
+            .chain(season.iter())
+            .map(|s| s.to_string())
+            .collect();
+        v.extend(extra.iter().map(|s| s.to_string()));
+        v
+    };
+    let run = |id: &str, args: Vec<String>, want: &str| {
+        let a: Vec<&str> = args.iter().map(String::as_str).collect();
+        check_cli(id, &a, want);
+    };
+    // A negative value used to stop in the argument parser with a usage screen.
+    run(
+        "B2",
+        budget(&["--goal", "-3"]),
+        "invalid goal: -3 % is not a distance precision in (0, 100] %",
+    );
+    run(
+        "I1",
+        budget(&["--goal", "3", "--instrument", "nope-2m"]),
+        "unknown instrument 'nope-2m'; known instruments: lucero-1m",
+    );
+    run(
+        "H1",
+        plan(&["--hours-per-night", "-2"]),
+        "invalid --hours-per-night: -2 is not within (0, 24] hours",
+    );
+    run(
+        "H2",
+        plan(&["--hours-per-night", "20"]),
+        "invalid --hours-per-night: 20.00 h is longer than the longest dark time in the range (9.77 h with the Sun below -12°)",
+    );
+    run("H3", plan(&[]), "give --hours-per-night H");
+    run(
+        "I2",
+        plan(&["--hours-per-night", "3", "--instrument", "nope-2m"]),
+        "unknown instrument 'nope-2m'; known instruments: lucero-1m",
+    );
+    run(
+        "R4",
+        vec![
+            "plan".into(),
+            "--targets".into(),
+            T.into(),
+            "--from".into(),
+            "2026-03-01".into(),
+            "--to".into(),
+            "2026-03-05".into(),
+            "--hours-per-night".into(),
+            "3".into(),
+        ],
+        "give --site (or --load a saved plan)",
+    );
+
+    // A saved plan, then marks and loads that go wrong; the file is never touched.
+    let d = tempfile::tempdir().unwrap();
+    let saved = d.path().join("p.json");
+    let s = saved.to_str().unwrap();
+    let (code, err) = cli(&plan(&["--hours-per-night", "3", "--save", s])
+        .iter()
+        .map(String::as_str)
+        .collect::<Vec<_>>());
+    assert_eq!(code, Some(0), "{err}");
+    let text = std::fs::read_to_string(&saved).unwrap();
+    check_cli(
+        "V2",
+        &["plan", "--load", s, "--done", "NOPE#7"],
+        "--done: unknown visit 'NOPE#7'; visit ids look like NAME#N (see the plan's CSV or JSON)",
+    );
+    check_cli(
+        "V3",
+        &["plan", "--load", s, "--lost", "NOPE#7"],
+        "--lost: unknown visit 'NOPE#7'; visit ids look like NAME#N (see the plan's CSV or JSON)",
+    );
+    check_cli(
+        "V4",
+        &["plan", "--load", s, "--lost-night", "2026-02-30"],
+        "--lost-night: cannot read date from '2026-02-30': expected YYYY-MM-DD, a real calendar date such as 2026-12-01",
+    );
+    let other = d.path().join("other.csv");
+    std::fs::write(&other, "name,ra,dec\nX-1,10,-20\n").unwrap();
+    let fp_other =
+        rung::plan::schedule::fingerprint(&rung::io::targets::load(&other).unwrap().targets);
+    let fp_ours = rung::plan::file::parse(&text, &saved)
+        .unwrap()
+        .targets_fingerprint;
+    check_cli(
+        "P1",
+        &["plan", "--load", s, "--targets", other.to_str().unwrap()],
+        &format!(
+            "{s}, field 'targets_fingerprint': this plan was made for another targets list ({T}, fingerprint {fp_ours}); the list given has fingerprint {fp_other}. Nothing was changed"
+        ),
+    );
+    let edited = d.path().join("edited.json");
+    let e = edited.to_str().unwrap();
+    std::fs::write(
+        &edited,
+        text.replacen("\"site\": \"pampa-lucero\"", "\"site\": \"nowhere\"", 1),
+    )
+    .unwrap();
+    check_cli(
+        "P18",
+        &["plan", "--load", e],
+        &format!(
+            "{e}, field 'site': unknown site 'nowhere'; known sites: pampa-lucero, sierra-alcaravan; or give LAT,LON,ELEV_M (degrees, east-positive longitude, metres)"
+        ),
+    );
+    std::fs::write(
+        &edited,
+        text.replacen(
+            &format!("\"targets_file\": \"{T}\""),
+            "\"targets_file\": \"gone.csv\"",
+            1,
+        ),
+    )
+    .unwrap();
+    check_cli(
+        "P19",
+        &["plan", "--load", e],
+        &format!("{e}, field 'targets_file': gone.csv: No such file or directory (os error 2)"),
+    );
+    assert_eq!(
+        std::fs::read_to_string(&saved).unwrap(),
+        text,
+        "a refused command leaves the plan alone"
+    );
+}
+
+#[test]
+fn method_options() {
+    let p = |extra: &[&str]| -> Vec<String> {
+        [
+            "parallax",
+            "--target",
+            "LPO-P04",
+            "--from",
+            "2026-03-01",
+            "--to",
+            "2026-06-01",
+        ]
+        .iter()
+        .chain(extra)
+        .map(|s| s.to_string())
+        .collect()
+    };
+    let run = |id: &str, args: Vec<String>, want: &str| {
+        let a: Vec<&str> = args.iter().map(String::as_str).collect();
+        check_cli(id, &a, want);
+    };
+    run(
+        "M1",
+        p(&["--fraction", "-0.5"]),
+        "invalid --fraction: -0.5 is not within 0..1",
+    );
+    run(
+        "M2",
+        p(&["--ha-limit-h", "13"]),
+        "invalid --ha-limit-h: 13 is not within (0, 12] hours",
+    );
+    run(
+        "M3",
+        p(&["--max-airmass", "0.5"]),
+        "invalid --max-airmass: 0.5 must be at least 1",
+    );
+    run(
+        "M4",
+        p(&["--snr", "-5"]),
+        "invalid --snr: -5 must be a positive number",
+    );
+    run(
+        "M5",
+        p(&["--goal-pct", "-3"]),
+        "invalid distance-precision goal: -3 % must be positive",
+    );
+    run(
+        "M6",
+        p(&["--instrument", "nope-2m"]),
+        "unknown instrument 'nope-2m'; known instruments: lucero-1m",
+    );
+    run(
+        "M7",
+        vec!["parallax".into(), "--target".into(), "LPO-C02".into()],
+        "invalid target 'LPO-C02': has no expected parallax_mas: give one (mas, positive)",
+    );
+    run(
+        "M8",
+        vec!["phase".into(), "--target".into(), "LPO-P04".into()],
+        "target 'LPO-P04' is a parallax target, not a pulsator; give --period-d and --epoch-max-bjd to treat it as one",
+    );
+    run(
+        "M9",
+        vec![
+            "phase".into(),
+            "--target".into(),
+            "LPO-C02".into(),
+            "--snr".into(),
+            "-5".into(),
+        ],
+        "invalid --snr: -5 is not a signal-to-noise of at least 2",
+    );
+    run(
+        "M10",
+        vec![
+            "phase".into(),
+            "--target".into(),
+            "LPO-C02".into(),
+            "--goal-pct".into(),
+            "0".into(),
+        ],
+        "invalid goal: 0 is not a percentage in (0, 100]",
+    );
+    run(
+        "M11",
+        vec!["chase".into(), "--target".into(), "LPO-P04".into()],
+        "target LPO-P04 is a parallax target, not a transient",
+    );
+}
+
+/// An instruments file with one invented instrument (as config/instruments.toml).
+const INSTRUMENT: &str = "[[instrument]]
+name = \"test-1m\"
+aperture_m = 1.0
+obstruction = 0.33
+pixel_scale_arcsec = 0.40
+read_noise_e = 6.0
+dark_e_per_pix_s = 0.002
+gain_e_per_adu = 1.3
+full_well_e = 90000.0
+linear_fraction = 0.8
+seeing_fwhm_arcsec = 1.3
+readout_s = 18.0
+visit_overhead_s = 120.0
+min_exptime_s = 1.0
+max_sub_exptime_s = 900.0
+sky_annulus_fwhm = [3.0, 5.0]
+
+[instrument.throughput]
+V = 0.52
+";
+
+#[test]
+fn instruments_toml() {
+    use rung::photometry::instrument::parse_instruments;
+    let p = Path::new("i.toml");
+    assert_eq!(
+        parse_instruments(INSTRUMENT, p)
+            .expect("the good file reads")
+            .len(),
+        1
+    );
+    let bad = |from: &str, to: &str| {
+        assert!(INSTRUMENT.contains(from), "{from}");
+        err(parse_instruments(&INSTRUMENT.replacen(from, to, 1), p))
+    };
+    for (id, got, want) in [
+        (
+            "I3",
+            bad("aperture_m = 1.0", "aperture_m = -1.0"),
+            "i.toml, line 1, field 'aperture_m': instrument test-1m: -1 must be a positive number",
+        ),
+        (
+            "I4",
+            bad("V = 0.52", "V = 1.5"),
+            "i.toml, line 1, field 'throughput.V': instrument test-1m: 1.5 is not an efficiency in (0, 1]",
+        ),
+        (
+            "I5",
+            bad("readout_s", "read_out_s"),
+            "i.toml, line 12: unknown field `read_out_s`, expected one of `name`, `description`, `aperture_m`, `obstruction`, `pixel_scale_arcsec`, `read_noise_e`, `dark_e_per_pix_s`, `gain_e_per_adu`, `full_well_e`, `adc_bits`, `linear_fraction`, `seeing_fwhm_arcsec`, `readout_s`, `visit_overhead_s`, `min_exptime_s`, `max_sub_exptime_s`, `sky_annulus_fwhm`, `throughput`",
+        ),
+    ] {
+        check(id, got, want.to_string());
+    }
 }

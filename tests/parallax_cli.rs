@@ -204,7 +204,7 @@ fn bad_input_gives_one_clear_line() {
     );
     fails_with(
         &["parallax", "--target", "LPO-P01", "--fraction", "1.5"],
-        "factor_fraction",
+        "invalid --fraction: 1.5 is not within 0..1",
     );
 }
 

@@ -110,7 +110,13 @@ pub struct Night {
     pub moon: Vec<Observed>,
     /// Sun on the grid.
     pub sun: Vec<Observed>,
+    /// Dark intervals already found, by Sun limit (degrees).
+    dark_cache: DarkCache,
 }
+
+/// Dark intervals of a night by Sun limit, found once and shared by the
+/// targets (and clones) of that night.
+type DarkCache = std::sync::Arc<std::sync::Mutex<Vec<(f64, Vec<(Instant, Instant)>)>>>;
 
 /// Topocentric altitude of the Moon's centre at which its upper limb touches the
 /// refracted horizon: −(0°34′ + semidiameter), the semidiameter being
@@ -198,6 +204,7 @@ impl Night {
             contexts,
             moon,
             sun,
+            dark_cache: DarkCache::default(),
         })
     }
 
@@ -309,11 +316,23 @@ impl Night {
         )
     }
 
-    /// Intervals of the night when the Sun's centre is below `sun_alt_deg`.
+    /// Intervals of the night when the Sun's centre is below `sun_alt_deg`
+    /// (found once per limit and kept with the night).
     pub fn dark_intervals(&self, sun_alt_deg: f64) -> Vec<(Instant, Instant)> {
+        if let Ok(c) = self.dark_cache.lock()
+            && let Some((_, iv)) = c.iter().find(|(s, _)| *s == sun_alt_deg)
+        {
+            return iv.clone();
+        }
         let vs: Vec<f64> = self.sun_alt_deg.iter().map(|a| sun_alt_deg - a).collect();
         let mut f = |t: Instant| sun_alt_deg - self.sun_alt_at(t);
-        positive_intervals(&mut f, &self.times, &vs, EVENT_TOL_S)
+        let iv = positive_intervals(&mut f, &self.times, &vs, EVENT_TOL_S);
+        if let Ok(mut c) = self.dark_cache.lock()
+            && c.len() < 16
+        {
+            c.push((sun_alt_deg, iv.clone()));
+        }
+        iv
     }
 
     /// Rise, transit, set and the observable window of a target this night.
@@ -359,45 +378,54 @@ impl Night {
             .map(|c| Event::at(c.t))
             .unwrap_or_else(|| Event::none("no upper transit between the local noons"));
 
-        // Window: observed altitude above the limit and the horizon mask, Sun below its limit.
-        let margin = |o: &Observed, sun_alt: f64| -> f64 {
-            let alt = o.alt_rad.to_degrees();
+        // Window: observed altitude above the limit and the horizon mask, Sun
+        // below its limit. Each condition's intervals are found on their own
+        // and then intersected, so a window shorter than the grid step made by
+        // the two overlapping (a target sinking below the limit soon after
+        // dusk) is still found.
+        let alt_margin = |o: &Observed| -> f64 {
             let floor = limits
                 .min_alt_deg
                 .max(self.site.horizon_alt_deg(o.az_rad.to_degrees()));
-            (alt - floor).min(limits.sun_alt_deg - sun_alt)
+            o.alt_rad.to_degrees() - floor
         };
-        let ws: Vec<f64> = obs
-            .iter()
-            .zip(&self.sun_alt_deg)
-            .map(|(o, s)| margin(o, *s))
-            .collect();
-        let mut fw = |t: Instant| {
-            let c = self.context(t);
-            margin(&c.observe(place), c.sun().alt_geom_rad.to_degrees())
-        };
-        let windows = positive_intervals(&mut fw, &self.times, &ws, EVENT_TOL_S);
+        let ws: Vec<f64> = obs.iter().map(alt_margin).collect();
+        let mut fw = |t: Instant| alt_margin(&at(t));
+        let above = positive_intervals(&mut fw, &self.times, &ws, EVENT_TOL_S);
+        let dark = self.dark_intervals(limits.sun_alt_deg);
+        let windows = intersect_intervals(&above, &dark);
 
-        // Highest altitude while the Sun is below its limit (grid, window edges and transit).
+        // Highest altitude while the Sun is below its limit: on the grid, at
+        // the window edges and the transit, and at the ends of the dark
+        // intervals (where it lies when the target climbs or sinks all through
+        // the dark time; those ends count as dark whichever side of the limit
+        // their 1 s bisection left them).
         let mut best: Option<(f64, Instant)> = None;
-        let mut consider = |alt: f64, t: Instant, sun_alt: f64| {
-            if sun_alt < limits.sun_alt_deg && best.is_none_or(|(b, _)| alt > b) {
+        let mut consider = |alt: f64, t: Instant, dark: bool| {
+            if dark && best.is_none_or(|(b, _)| alt > b) {
                 best = Some((alt, t));
             }
         };
         for ((o, t), s) in obs.iter().zip(&self.times).zip(&self.sun_alt_deg) {
-            consider(o.alt_rad.to_degrees(), *t, *s);
+            consider(o.alt_rad.to_degrees(), *t, *s < limits.sun_alt_deg);
         }
-        let mut extra: Vec<Instant> = windows.iter().flat_map(|w| [w.0, w.1]).collect();
+        let mut extra: Vec<(Instant, bool)> = windows
+            .iter()
+            .flat_map(|w| [(w.0, false), (w.1, false)])
+            .collect();
         if let Some(t) = transit.t {
-            extra.push(t);
+            extra.push((t, false));
         }
-        for t in extra {
+        for d in &dark {
+            extra.push((d.0, true));
+            extra.push((d.1, true));
+        }
+        for (t, dark_end) in extra {
             let c = self.context(t);
             consider(
                 c.observe(place).alt_rad.to_degrees(),
                 t,
-                c.sun().alt_geom_rad.to_degrees(),
+                dark_end || c.sun().alt_geom_rad.to_degrees() < limits.sun_alt_deg,
             );
         }
         let observable_s: f64 = windows.iter().map(|(a, b)| b.seconds_since(a)).sum::<f64>() + 0.0;
@@ -412,6 +440,29 @@ impl Night {
             min_airmass: best.and_then(|b| kasten_young(b.0)),
         }
     }
+}
+
+/// The overlaps of two time-ordered lists of disjoint intervals (empty
+/// overlaps dropped).
+pub fn intersect_intervals(
+    a: &[(Instant, Instant)],
+    b: &[(Instant, Instant)],
+) -> Vec<(Instant, Instant)> {
+    let (mut i, mut j) = (0, 0);
+    let mut out = Vec::new();
+    while i < a.len() && j < b.len() {
+        let lo = if a[i].0 > b[j].0 { a[i].0 } else { b[j].0 };
+        let hi = if a[i].1 < b[j].1 { a[i].1 } else { b[j].1 };
+        if lo < hi {
+            out.push((lo, hi));
+        }
+        if a[i].1 < b[j].1 {
+            i += 1;
+        } else {
+            j += 1;
+        }
+    }
+    out
 }
 
 /// Observing limits for a window.

@@ -62,19 +62,19 @@ pub struct Args {
     #[arg(long)]
     pub horizon_days: Option<u32>,
     /// Signal-to-noise per epoch (default from config/transient.toml).
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub snr: Option<f64>,
     /// Decline rate Δm15 assumed for planning, mag (default from config).
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub dm15: Option<f64>,
     /// Distance-precision goal, percent (default: the target's goal_pct, else config).
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub goal: Option<f64>,
     /// Also require this σ of the peak magnitude, mag.
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub sigma_peak: Option<f64>,
     /// Also require this σ of Δm15, mag.
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub sigma_dm15: Option<f64>,
     /// Minimum altitude for the windows, degrees.
     #[arg(long, default_value_t = 30.0, allow_hyphen_values = true)]

@@ -58,16 +58,16 @@ pub struct Args {
     #[arg(long)]
     pub axis: Option<String>,
     /// Candidate nights have |factor| ≥ this fraction of the yearly extreme (0–1).
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub fraction: Option<f64>,
     /// Hour-angle limit, hours (default ±1 h).
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub ha_limit_h: Option<f64>,
     /// Airmass limit.
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub max_airmass: Option<f64>,
     /// Signal-to-noise per proposed epoch.
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub snr: Option<f64>,
     /// Epochs per season.
     #[arg(long)]
@@ -85,13 +85,13 @@ pub struct Args {
     #[arg(long)]
     pub epochs_file: Option<PathBuf>,
     /// Distance-precision goal, percent: find the epochs and hours that reach it.
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub goal_pct: Option<f64>,
     /// Instrument name from the catalogue (default the demo instrument).
     #[arg(long, default_value = DEMO_INSTRUMENT)]
     pub instrument: String,
     /// Seeing FWHM, arcsec (default the instrument's typical seeing).
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub seeing: Option<f64>,
     /// Parallax configuration (TOML with every key of config/parallax.toml).
     #[arg(long)]
@@ -129,7 +129,29 @@ fn config(a: &Args) -> Result<ParallaxConfig> {
         c.epochs_per_season = x;
         c.max_epochs_per_season = c.max_epochs_per_season.max(x);
     }
-    Ok(c.validated()?)
+    // A value given as an option is refused under the option's name, not the
+    // config key it overrides.
+    let given = [
+        ("factor_fraction", "--fraction", a.fraction.is_some()),
+        ("ha_limit_h", "--ha-limit-h", a.ha_limit_h.is_some()),
+        ("max_airmass", "--max-airmass", a.max_airmass.is_some()),
+        ("snr", "--snr", a.snr.is_some()),
+        (
+            "epochs_per_season",
+            "--epochs-per-season",
+            a.epochs_per_season.is_some(),
+        ),
+    ];
+    Ok(c.validated().map_err(|e| match e {
+        rung::RungError::Invalid { what, why } => {
+            let what = given
+                .iter()
+                .find(|(key, _, set)| *set && *key == what)
+                .map_or(what, |(_, opt, _)| opt.to_string());
+            rung::RungError::Invalid { what, why }
+        }
+        other => other,
+    })?)
 }
 
 fn target(a: &Args) -> Result<Target> {

@@ -69,13 +69,13 @@ pub struct Args {
     #[arg(long)]
     pub harmonics: Option<usize>,
     /// Per-point signal-to-noise exposures are sized for (default from config: 100).
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub snr: Option<f64>,
     /// Warn when coverage needs more nights than this (default from config: 10).
     #[arg(long)]
     pub max_nights: Option<usize>,
     /// Distance-precision goal, percent: plan the points and exposures that reach it.
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub goal_pct: Option<f64>,
     /// Instrument profile for exposures (config/instruments.toml).
     #[arg(long, default_value = DEMO_INSTRUMENT)]

@@ -30,7 +30,7 @@ pub struct PlanArgs {
     #[arg(long)]
     pub to: Option<String>,
     /// Telescope hours per night.
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub hours_per_night: Option<f64>,
     /// Instrument name (config/instruments.toml or the user's file).
     #[arg(long)]
@@ -91,13 +91,25 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
         (None, Some(s)) => s.clone(),
         (None, None) => anyhow::bail!("give --site (or --load a saved plan)"),
     };
-    let site = sites::resolve(&site_spec)?;
+    // A site or targets file taken from a loaded plan is named as the plan's field.
+    let from_plan = |field: &str| {
+        plan_path
+            .as_ref()
+            .map(|p| format!("{}, field '{field}'", p.display()))
+    };
+    let site = match from_plan("site") {
+        Some(w) if plan.is_some() => sites::resolve(&site_spec).context(w)?,
+        _ => sites::resolve(&site_spec)?,
+    };
     let targets_path = match (&a.targets, &plan) {
         (Some(t), _) => t.clone(),
         (None, Some(p)) => PathBuf::from(&p.targets_file),
         (None, None) => anyhow::bail!("give --targets FILE"),
     };
-    let targets = super::load_targets(&targets_path)?;
+    let targets = match from_plan("targets_file") {
+        Some(w) if a.targets.is_none() => super::load_targets(&targets_path).context(w)?,
+        _ => super::load_targets(&targets_path)?,
+    };
     if let (Some(p), Some(pp)) = (&plan, &plan_path) {
         p.check_targets(&targets, pp)?;
     }
@@ -145,7 +157,7 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
     };
     let mut changed = a.load.is_none();
     for n in &a.lost_night {
-        let d = parse_date(n)?;
+        let d = parse_date(n).context("--lost-night")?;
         p.lost_nights.insert(d);
         for v in p
             .visits
@@ -157,11 +169,11 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
         changed = true;
     }
     if !a.done.is_empty() {
-        p.mark(&a.done, Status::Done)?;
+        p.mark(&a.done, Status::Done).context("--done")?;
         changed = true;
     }
     if !a.lost.is_empty() {
-        p.mark(&a.lost, Status::Lost)?;
+        p.mark(&a.lost, Status::Lost).context("--lost")?;
         changed = true;
     }
     if a.replan {
@@ -211,7 +223,7 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
         eprintln!("rung: iCalendar written to {}", path.display());
     }
     if let Some(d) = &a.sheet {
-        let d = parse_date(d)?;
+        let d = parse_date(d).context("--sheet")?;
         let header = format!(
             "Plan {} to {}, {:.1} h per night, window above {:.0}° with the Sun below {:.0}°.",
             p.from, p.to, p.hours_per_night, p.min_alt_deg, p.sun_alt_deg
@@ -329,7 +341,7 @@ pub struct BudgetArgs {
     #[arg(long)]
     pub to: String,
     /// Distance-precision goal in percent for targets without their own goal_pct.
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub goal: Option<f64>,
     /// Instrument name.
     #[arg(long)]

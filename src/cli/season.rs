@@ -36,7 +36,7 @@ pub struct Args {
     #[arg(long, default_value_t = -12.0, allow_hyphen_values = true)]
     pub sun_alt: f64,
     /// Minimum distance from the Moon's centre, degrees (default: no Moon limit).
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub moon_sep: Option<f64>,
     /// One CSV row per target and night (or per target with --summary).
     #[arg(long, conflicts_with = "json")]

@@ -53,7 +53,7 @@ pub struct Common {
     #[arg(long, default_value = DEMO_INSTRUMENT)]
     pub instrument: String,
     /// Seeing FWHM, arcsec (default: the instrument's typical seeing).
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub seeing: Option<f64>,
     /// Machine-readable output.
     #[arg(long)]

@@ -41,16 +41,12 @@ pub fn user_config_dir() -> Option<PathBuf> {
     directories::ProjectDirs::from("org", "rung", "rung").map(|p| p.config_dir().to_path_buf())
 }
 
-fn line_of(text: &str, offset: usize) -> usize {
-    text[..offset.min(text.len())].lines().count().max(1)
-}
-
 /// Parse a sites TOML text. `file` names it in errors.
 pub fn parse_sites(text: &str, file: &Path) -> Result<Vec<Site>> {
     let f: SiteFile = toml::from_str(text).map_err(|e| RungError::InFile {
         loc: Location {
             file: Some(file.to_path_buf()),
-            line: e.span().map(|s| line_of(text, s.start)),
+            line: e.span().map(|s| crate::error::line_at(text, s.start)),
             field: None,
         },
         msg: e.message().to_string(),

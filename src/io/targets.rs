@@ -844,7 +844,7 @@ pub fn parse_toml(text: &str, file: &Path) -> Loaded {
         Err(e) => {
             let line = e
                 .span()
-                .map(|s| text[..s.start.min(text.len())].lines().count().max(1))
+                .map(|s| crate::error::line_at(text, s.start))
                 .unwrap_or(1);
             out.problems.push(RungError::InFile {
                 loc: loc(file, line, ""),

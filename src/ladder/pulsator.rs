@@ -115,9 +115,7 @@ impl PulsatorConfig {
     /// Parse a configuration text; `file` names it in error messages.
     pub fn parse(text: &str, file: &Path) -> Result<Self> {
         let cfg: PulsatorConfig = toml::from_str(text).map_err(|e| {
-            let line = e
-                .span()
-                .map(|s| text[..s.start.min(text.len())].lines().count().max(1));
+            let line = e.span().map(|s| crate::error::line_at(text, s.start));
             RungError::InFile {
                 loc: Location {
                     file: Some(file.to_path_buf()),
@@ -157,9 +155,7 @@ impl PulsatorConfig {
             msg,
         };
         let user: toml::Table = text.parse().map_err(|e: toml::de::Error| {
-            let line = e
-                .span()
-                .map(|s| text[..s.start.min(text.len())].lines().count().max(1));
+            let line = e.span().map(|s| crate::error::line_at(text, s.start));
             in_file(line, e.message().to_string())
         })?;
         let mut base: toml::Table = BUILTIN_CONFIG

@@ -139,10 +139,6 @@ pub struct TransientConfig {
     pub planning: Planning,
 }
 
-fn line_of(text: &str, offset: usize) -> usize {
-    text[..offset.min(text.len())].lines().count().max(1)
-}
-
 impl TransientConfig {
     /// The compiled-in `config/transient.toml`.
     pub fn embedded() -> Result<Self> {
@@ -154,7 +150,7 @@ impl TransientConfig {
         let c: TransientConfig = toml::from_str(text).map_err(|e| RungError::InFile {
             loc: Location {
                 file: Some(file.to_path_buf()),
-                line: e.span().map(|s| line_of(text, s.start)),
+                line: e.span().map(|s| crate::error::line_at(text, s.start)),
                 field: None,
             },
             msg: e.message().to_string(),

@@ -185,17 +185,13 @@ struct InstrumentFile {
     instrument: Vec<Instrument>,
 }
 
-fn line_of(text: &str, offset: usize) -> usize {
-    text[..offset.min(text.len())].lines().count().max(1)
-}
-
 /// Parse an instruments TOML text; `file` names it in errors (with the line of
 /// the offending `[[instrument]]` table and the field).
 pub fn parse_instruments(text: &str, file: &Path) -> Result<Vec<Instrument>> {
     let f: InstrumentFile = toml::from_str(text).map_err(|e| RungError::InFile {
         loc: Location {
             file: Some(file.to_path_buf()),
-            line: e.span().map(|s| line_of(text, s.start)),
+            line: e.span().map(|s| crate::error::line_at(text, s.start)),
             field: None,
         },
         msg: e.message().to_string(),

@@ -131,58 +131,132 @@ impl PlanFile {
 
 /// Read a plan file; errors name the file, line and column of the break.
 pub fn load(path: &Path) -> Result<PlanFile> {
-    let text = std::fs::read_to_string(path).map_err(|e| RungError::io(path, e))?;
-    parse(&text, path)
+    let meta = std::fs::metadata(path).map_err(|e| RungError::io(path, e))?;
+    if meta.is_dir() {
+        return Err(RungError::invalid(
+            "plan file",
+            format!("{} is a folder", path.display()),
+        ));
+    }
+    let bytes = std::fs::read(path).map_err(|e| RungError::io(path, e))?;
+    let text = std::str::from_utf8(&bytes).map_err(|e| RungError::InFile {
+        loc: Location {
+            file: Some(path.to_path_buf()),
+            line: Some(
+                bytes[..e.valid_up_to()]
+                    .iter()
+                    .filter(|b| **b == b'\n')
+                    .count()
+                    + 1,
+            ),
+            field: None,
+        },
+        msg: "not UTF-8 text: a plan file is the JSON that rung saves".into(),
+    })?;
+    parse(text, path)
+}
+
+/// The key of a line that holds exactly one `"key": value` pair, as rung's
+/// pretty-printed plan files do; `None` otherwise.
+fn key_on_line(text: &str, line: usize) -> Option<String> {
+    let l = text.lines().nth(line.checked_sub(1)?)?.trim_start();
+    let rest = l.strip_prefix('"')?;
+    let end = rest.find('"')?;
+    let key = &rest[..end];
+    let after = rest[end + 1..].trim_start();
+    if key.is_empty() || key.contains('\\') || !after.starts_with(':') || after.contains("\":") {
+        return None;
+    }
+    Some(crate::error::one_line_cut(key, 40))
 }
 
 /// Parse plan text.
 pub fn parse(text: &str, path: &Path) -> Result<PlanFile> {
-    let p: PlanFile = serde_json::from_str(text).map_err(|e| RungError::InFile {
-        loc: Location {
-            file: Some(path.to_path_buf()),
-            line: Some(e.line()),
-            field: None,
-        },
-        msg: format!(
-            "not a readable plan file (column {}): {}",
-            e.column(),
-            crate::error::one_line_cut(&e.to_string(), 200)
-        ),
-    })?;
-    if p.format != FORMAT {
-        return Err(RungError::InFile {
+    let p: PlanFile = serde_json::from_str(text).map_err(|e| {
+        // serde_json ends its message with the position, which the location
+        // already gives: say it once.
+        let full = e.to_string();
+        let suffix = format!(" at line {} column {}", e.line(), e.column());
+        let msg = full.strip_suffix(&suffix).unwrap_or(&full);
+        // A value of the wrong kind (an unknown visit kind or status, a bad
+        // time) sits on its key's line: name that field.
+        let field = if e.classify() == serde_json::error::Category::Data {
+            key_on_line(text, e.line())
+        } else {
+            None
+        };
+        RungError::InFile {
             loc: Location {
                 file: Some(path.to_path_buf()),
-                line: None,
-                field: Some("format".into()),
+                line: (e.line() > 0).then_some(e.line()),
+                field,
             },
             msg: format!(
-                "'{}' is not a plan format rung reads (expected {FORMAT})",
-                p.format
+                "not a readable plan file (column {}): {}",
+                e.column(),
+                crate::error::one_line_cut(msg, 200)
             ),
-        });
+        }
+    })?;
+    let at = |field: &str, msg: String| RungError::InFile {
+        loc: Location {
+            file: Some(path.to_path_buf()),
+            line: None,
+            field: Some(field.into()),
+        },
+        msg,
+    };
+    if p.format != FORMAT {
+        return Err(at(
+            "format",
+            format!(
+                "'{}' is not a plan format rung reads (expected {FORMAT})",
+                crate::error::one_line_cut(&p.format, 60)
+            ),
+        ));
+    }
+    // The plan's own settings are checked here, so a hand-edited value is
+    // reported as the file's field rather than as a command-line option.
+    if !(p.hours_per_night.is_finite() && p.hours_per_night > 0.0 && p.hours_per_night <= 24.0) {
+        return Err(at(
+            "hours_per_night",
+            format!("{} is not within (0, 24] hours", p.hours_per_night),
+        ));
+    }
+    if let Err(RungError::Invalid { what, why }) = p.limits() {
+        let field = if what == "--min-alt" {
+            "min_alt_deg"
+        } else {
+            "sun_alt_deg"
+        };
+        return Err(at(field, why));
+    }
+    for (field, d) in [("from", p.from), ("to", p.to)] {
+        crate::astro::time::parse_date(&d.to_string()).map_err(|e| at(field, e.to_string()))?;
+    }
+    if p.to < p.from {
+        return Err(at("to", format!("{} is before 'from' {}", p.to, p.from)));
+    }
+    let nights = (p.to - p.from).num_days() + 1;
+    if nights > crate::plan::schedule::MAX_NIGHTS as i64 {
+        return Err(at(
+            "to",
+            format!(
+                "{} to {} is {nights} nights, longer than the {} nights a plan may span",
+                p.from,
+                p.to,
+                crate::plan::schedule::MAX_NIGHTS
+            ),
+        ));
     }
     let mut seen = BTreeSet::new();
     for v in &p.visits {
+        let id = crate::error::one_line_cut(&v.id, 60);
         if !seen.insert(v.id.clone()) {
-            return Err(RungError::InFile {
-                loc: Location {
-                    file: Some(path.to_path_buf()),
-                    line: None,
-                    field: Some("visits".into()),
-                },
-                msg: format!("visit id '{}' appears twice", v.id),
-            });
+            return Err(at("visits", format!("visit id '{id}' appears twice")));
         }
         if v.end < v.start {
-            return Err(RungError::InFile {
-                loc: Location {
-                    file: Some(path.to_path_buf()),
-                    line: None,
-                    field: Some("visits".into()),
-                },
-                msg: format!("visit '{}' ends before it starts", v.id),
-            });
+            return Err(at("visits", format!("visit '{id}' ends before it starts")));
         }
     }
     Ok(p)

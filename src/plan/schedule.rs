@@ -205,7 +205,9 @@ pub fn dates(from: NaiveDate, to: NaiveDate) -> Result<Vec<NaiveDate>> {
     if n > MAX_NIGHTS {
         return Err(RungError::invalid(
             "date range",
-            format!("{n} nights is longer than the {MAX_NIGHTS} nights one plan may span"),
+            format!(
+                "{n} nights is longer than the {MAX_NIGHTS} nights a plan or a budget may span"
+            ),
         ));
     }
     Ok(from.iter_days().take(n).collect())

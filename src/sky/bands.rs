@@ -125,15 +125,11 @@ pub struct BandSet {
     pub twilight: TwilightModel,
 }
 
-fn line_of(text: &str, offset: usize) -> usize {
-    text[..offset.min(text.len())].lines().count().max(1)
-}
-
 fn parse_file(text: &str, file: &Path) -> Result<BandFile> {
     let f: BandFile = toml::from_str(text).map_err(|e| RungError::InFile {
         loc: Location {
             file: Some(file.to_path_buf()),
-            line: e.span().map(|s| line_of(text, s.start)),
+            line: e.span().map(|s| crate::error::line_at(text, s.start)),
             field: None,
         },
         msg: e.message().to_string(),
