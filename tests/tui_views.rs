@@ -900,9 +900,13 @@ fn season_labels_keep_every_month_nightly_and_weekly() {
     );
     let (rows, _) = screen(&s, 160, 48);
     let labels: String = rows[3].chars().skip(16).collect();
+    // (Column 0 is the 12th: January has only three columns there, too few
+    // for any label and a gap, so it is checked as blank; the strip's last
+    // month, cut short by the strip's end, is not checked.)
+    assert!(labels.starts_with("   Feb"), "{labels}");
     let mut d = s.date;
-    for c in 0..52usize {
-        if c == 0 || chrono::Datelike::day(&d) <= 7 {
+    for c in 0..48usize {
+        if c > 0 && chrono::Datelike::day(&d) <= 7 {
             let want = if chrono::Datelike::month(&d) == 1 {
                 d.format("'%y").to_string()
             } else {
