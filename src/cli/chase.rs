@@ -3,7 +3,6 @@
 
 use anyhow::{Context as _, Result, bail};
 use rung::astro::frames::Context;
-use rung::astro::night::Limits;
 use rung::astro::time::{Instant, parse_instant};
 use rung::io::angles::{parse_dec_deg, parse_ra_deg};
 use rung::io::sites;
@@ -18,22 +17,17 @@ use std::path::PathBuf;
 
 /// Arguments of `rung chase`.
 #[derive(clap::Args)]
+#[command(
+    mut_arg("target", |a| a.help("A transient target by name from --targets")),
+    mut_arg("targets", |a| a.help("Targets file (CSV or TOML) for --target; default the demo programme")),
+    mut_arg("ra", |a| a.help("Right ascension (ICRS), degrees or HH:MM:SS.s, instead of --target")),
+    mut_arg("dec", |a| a.help("Declination (ICRS), degrees or ±DD:MM:SS")),
+    mut_arg("min_alt", |a| a.help("Minimum altitude for the windows, degrees")),
+    mut_arg("sun_alt", |a| a.help("The Sun must be below this altitude, degrees")),
+)]
 pub struct Args {
-    /// Site name from the catalogue, or LAT,LON,ELEV_M[,ZONE].
-    #[arg(long, default_value = super::DEMO_SITE)]
-    pub site: String,
-    /// A transient target by name from --targets.
-    #[arg(long)]
-    pub target: Option<String>,
-    /// Targets file (CSV or TOML) for --target; default the demo programme.
-    #[arg(long)]
-    pub targets: Option<PathBuf>,
-    /// Right ascension (ICRS), degrees or HH:MM:SS.s, instead of --target.
-    #[arg(long, allow_hyphen_values = true)]
-    pub ra: Option<String>,
-    /// Declination (ICRS), degrees or ±DD:MM:SS.
-    #[arg(long, allow_hyphen_values = true)]
-    pub dec: Option<String>,
+    #[command(flatten)]
+    pub aim: super::args::MethodTarget,
     /// Discovery instant, ISO 8601 (UTC when no zone is given).
     #[arg(long)]
     pub discovered: Option<String>,
@@ -76,12 +70,8 @@ pub struct Args {
     /// Also require this σ of Δm15, mag.
     #[arg(long, allow_hyphen_values = true)]
     pub sigma_dm15: Option<f64>,
-    /// Minimum altitude for the windows, degrees.
-    #[arg(long, default_value_t = 30.0, allow_hyphen_values = true)]
-    pub min_alt: f64,
-    /// The Sun must be below this altitude, degrees.
-    #[arg(long, default_value_t = -12.0, allow_hyphen_values = true)]
-    pub sun_alt: f64,
+    #[command(flatten)]
+    pub limits: super::args::WindowLimits,
     /// Instrument name (config/instruments.toml or the user's).
     #[arg(long, default_value = DEMO_INSTRUMENT)]
     pub instrument: String,
@@ -114,11 +104,11 @@ fn finite_in(v: Option<f64>, flag: &str, lo: f64, hi: f64) -> Result<()> {
 }
 
 fn build_target(a: &Args, cfg: &TransientConfig) -> Result<Target> {
-    if let Some(n) = &a.target {
-        if a.ra.is_some() || a.dec.is_some() || a.discovered.is_some() {
+    if let Some(n) = &a.aim.target {
+        if a.aim.ra.is_some() || a.aim.dec.is_some() || a.discovered.is_some() {
             bail!("give either --target NAME or --ra/--dec/--discovered, not both");
         }
-        let t = super::target_by_name(&a.targets, n)?;
+        let t = super::target_by_name(&a.aim.targets, n)?;
         if t.kind != Kind::Transient {
             bail!(
                 "target {} is a {} target, not a transient",
@@ -129,7 +119,7 @@ fn build_target(a: &Args, cfg: &TransientConfig) -> Result<Target> {
         check_band(cfg, &t.band).with_context(|| format!("target {}", t.name))?;
         return Ok(t);
     }
-    let (Some(ra), Some(dec), Some(disc)) = (&a.ra, &a.dec, &a.discovered) else {
+    let (Some(ra), Some(dec), Some(disc)) = (&a.aim.ra, &a.aim.dec, &a.discovered) else {
         bail!("give --target NAME (with --targets FILE), or --ra, --dec and --discovered");
     };
     let band = a.band.trim().to_ascii_uppercase();
@@ -166,8 +156,8 @@ fn build_target(a: &Args, cfg: &TransientConfig) -> Result<Target> {
 
 /// Run `rung chase`.
 pub fn run(a: Args) -> Result<()> {
-    let site = sites::resolve(&a.site)?;
-    let limits = Limits::new(a.min_alt, a.sun_alt)?;
+    let site = sites::resolve(&a.aim.site)?;
+    let limits = a.limits.limits()?;
     let cfg = load_config(&a)?;
     let target = build_target(&a, &cfg)?;
     let now = parse_instant(&a.now).context("--now")?;

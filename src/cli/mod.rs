@@ -1,5 +1,6 @@
 //! Subcommands of the `rung` binary and the formatting they share.
 
+pub mod args;
 pub mod chase;
 pub mod night;
 pub mod parallax;
@@ -117,8 +118,10 @@ pub fn default_run() -> Result<()> {
         site: DEMO_SITE.to_string(),
         date: Some(today.to_string()),
         targets: Some(dir.join("targets.csv")),
-        min_alt: 30.0,
-        sun_alt: -12.0,
+        limits: args::WindowLimits {
+            min_alt: 30.0,
+            sun_alt: -12.0,
+        },
         json: false,
     })
 }

@@ -1,7 +1,7 @@
 //! `rung night`: the night of a date at a site.
 
 use anyhow::{Context as _, Result};
-use rung::astro::night::{Event, Limits, Night};
+use rung::astro::night::{Event, Night};
 use rung::astro::time::parse_date;
 use rung::io::sites;
 use serde_json::{Map, Value, json};
@@ -19,12 +19,8 @@ pub struct Args {
     /// Targets file (CSV or TOML): adds each target's rise, transit, set and window.
     #[arg(long)]
     pub targets: Option<PathBuf>,
-    /// Minimum altitude for the window, degrees.
-    #[arg(long, default_value_t = 30.0, allow_hyphen_values = true)]
-    pub min_alt: f64,
-    /// The Sun must be below this altitude for the window, degrees.
-    #[arg(long, default_value_t = -12.0, allow_hyphen_values = true)]
-    pub sun_alt: f64,
+    #[command(flatten)]
+    pub limits: super::args::WindowLimits,
     /// Machine-readable output.
     #[arg(long)]
     pub json: bool,
@@ -43,7 +39,7 @@ type Extras = (Option<f64>, Option<(rung::astro::time::Instant, String)>);
 
 pub fn run(a: Args) -> Result<()> {
     let site = sites::resolve(&a.site).context("--site")?;
-    let limits = Limits::new(a.min_alt, a.sun_alt)?;
+    let limits = a.limits.limits()?;
     let date_text = a
         .date
         .clone()

@@ -18,21 +18,8 @@ use std::path::PathBuf;
 /// Arguments of `rung parallax`.
 #[derive(clap::Args)]
 pub struct Args {
-    /// Site name from the catalogue, or LAT,LON,ELEV_M[,ZONE].
-    #[arg(long, default_value = super::DEMO_SITE)]
-    pub site: String,
-    /// A target name from --targets.
-    #[arg(long)]
-    pub target: Option<String>,
-    /// Targets file (CSV or TOML); default the demo programme.
-    #[arg(long)]
-    pub targets: Option<PathBuf>,
-    /// Right ascension (ICRS): degrees or HH:MM:SS.s (instead of --target).
-    #[arg(long, allow_hyphen_values = true)]
-    pub ra: Option<String>,
-    /// Declination (ICRS): degrees or ±DD:MM:SS.
-    #[arg(long, allow_hyphen_values = true)]
-    pub dec: Option<String>,
+    #[command(flatten)]
+    pub aim: super::args::MethodTarget,
     /// Expected parallax, mas (required with --ra/--dec; overrides the file's).
     #[arg(long, allow_hyphen_values = true)]
     pub parallax_mas: Option<f64>,
@@ -155,8 +142,8 @@ fn config(a: &Args) -> Result<ParallaxConfig> {
 }
 
 fn target(a: &Args) -> Result<Target> {
-    let mut t = match (&a.target, &a.ra, &a.dec) {
-        (Some(n), _, _) => super::target_by_name(&a.targets, n)?,
+    let mut t = match (&a.aim.target, &a.aim.ra, &a.aim.dec) {
+        (Some(n), _, _) => super::target_by_name(&a.aim.targets, n)?,
         (None, Some(r), Some(d)) => {
             let mut t = Target::plain("coordinates", parse_ra_deg(r)?, parse_dec_deg(d)?);
             t.kind = Kind::Parallax;
@@ -209,7 +196,7 @@ fn user_epochs(a: &Args) -> Result<Vec<Instant>> {
 
 /// Run `rung parallax`.
 pub fn run(a: Args) -> Result<()> {
-    let site = sites::resolve(&a.site)?;
+    let site = sites::resolve(&a.aim.site)?;
     let cfg = config(&a)?;
     let tgt = target(&a)?;
     let limits = Limits::new(a.min_alt, a.sun_alt)?;

@@ -3,7 +3,6 @@
 
 use anyhow::{Context as _, Result, bail};
 use rung::astro::bary::bjd_tdb;
-use rung::astro::night::Limits;
 use rung::astro::time::{parse_date, parse_instant};
 use rung::io::angles::{parse_dec_deg, parse_ra_deg};
 use rung::io::sites;
@@ -12,26 +11,16 @@ use rung::ladder::pulsator::{PhaseReport, PulsatorConfig, PulsatorMethod};
 use rung::ladder::{ExposureModel, Setting, Verdict};
 use rung::photometry::{DEMO_INSTRUMENT, Photometer};
 use serde_json::{Map, Value, json};
-use std::path::PathBuf;
 
 /// Arguments of `rung phase`.
 #[derive(clap::Args)]
+#[command(
+    mut_arg("target", |a| a.help("A pulsator by name from --targets (default: the demo programme)")),
+    mut_arg("targets", |a| a.help("Targets file (CSV or TOML) for --target")),
+)]
 pub struct Args {
-    /// Site name from the catalogue, or LAT,LON,ELEV_M[,ZONE].
-    #[arg(long, default_value = super::DEMO_SITE)]
-    pub site: String,
-    /// A pulsator by name from --targets (default: the demo programme).
-    #[arg(long)]
-    pub target: Option<String>,
-    /// Targets file (CSV or TOML) for --target.
-    #[arg(long)]
-    pub targets: Option<PathBuf>,
-    /// Right ascension (ICRS): degrees or HH:MM:SS.s (instead of --target).
-    #[arg(long, allow_hyphen_values = true)]
-    pub ra: Option<String>,
-    /// Declination (ICRS): degrees or ±DD:MM:SS.
-    #[arg(long, allow_hyphen_values = true)]
-    pub dec: Option<String>,
+    #[command(flatten)]
+    pub aim: super::args::MethodTarget,
     /// Pulsation period, days (overrides the target's).
     #[arg(long, allow_hyphen_values = true)]
     pub period_d: Option<f64>,
@@ -80,12 +69,8 @@ pub struct Args {
     /// Instrument profile for exposures (config/instruments.toml).
     #[arg(long, default_value = DEMO_INSTRUMENT)]
     pub instrument: String,
-    /// Minimum altitude for the window, degrees.
-    #[arg(long, default_value_t = 30.0, allow_hyphen_values = true)]
-    pub min_alt: f64,
-    /// The Sun must be below this altitude for the window, degrees.
-    #[arg(long, default_value_t = -12.0, allow_hyphen_values = true)]
-    pub sun_alt: f64,
+    #[command(flatten)]
+    pub limits: super::args::WindowLimits,
     /// Also give the phase at this instant (ISO 8601 or 'now').
     #[arg(long)]
     pub at: Option<String>,
@@ -95,9 +80,9 @@ pub struct Args {
 }
 
 fn build_target(a: &Args) -> Result<Target> {
-    let mut t = match (&a.target, &a.ra, &a.dec) {
+    let mut t = match (&a.aim.target, &a.aim.ra, &a.aim.dec) {
         (Some(n), _, _) => {
-            let t = super::target_by_name(&a.targets, n)?;
+            let t = super::target_by_name(&a.aim.targets, n)?;
             if t.kind != Kind::Pulsator && a.period_d.is_none() {
                 bail!(
                     "target '{}' is a {} target, not a pulsator; give --period-d and --epoch-max-bjd to treat it as one",
@@ -163,8 +148,8 @@ fn opt_num(x: f64) -> Value {
 
 /// Run `rung phase`.
 pub fn run(a: Args) -> Result<()> {
-    let site = sites::resolve(&a.site)?;
-    let limits = Limits::new(a.min_alt, a.sun_alt)?;
+    let site = sites::resolve(&a.aim.site)?;
+    let limits = a.limits.limits()?;
     let target = build_target(&a)?;
     let from_text = a
         .from
@@ -245,8 +230,8 @@ fn print_json(
     o.insert("mean_mag".into(), json!(r.star.mean_mag));
     o.insert("amplitude_mag".into(), json!(r.star.amplitude_mag));
     o.insert("extinction_mag".into(), json!(r.star.extinction_mag));
-    o.insert("min_alt_deg".into(), json!(a.min_alt));
-    o.insert("sun_alt_deg".into(), json!(a.sun_alt));
+    o.insert("min_alt_deg".into(), json!(a.limits.min_alt));
+    o.insert("sun_alt_deg".into(), json!(a.limits.sun_alt));
     o.insert("bins".into(), json!(r.plan.bins));
     o.insert("harmonics".into(), json!(m.harmonics));
     // Nights: one row per window, and one row with nulls for a night without one.

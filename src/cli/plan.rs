@@ -327,6 +327,10 @@ fn print_plan(
 
 /// Arguments of `rung budget`.
 #[derive(clap::Args)]
+#[command(
+    mut_arg("min_alt", |a| a.help("Minimum altitude, degrees")),
+    mut_arg("sun_alt", |a| a.help("Sun limit, degrees")),
+)]
 pub struct BudgetArgs {
     /// Site name or LAT,LON,ELEV_M[,ZONE].
     #[arg(long)]
@@ -346,12 +350,8 @@ pub struct BudgetArgs {
     /// Instrument name.
     #[arg(long)]
     pub instrument: Option<String>,
-    /// Minimum altitude, degrees.
-    #[arg(long, default_value_t = 30.0, allow_hyphen_values = true)]
-    pub min_alt: f64,
-    /// Sun limit, degrees.
-    #[arg(long, default_value_t = -12.0, allow_hyphen_values = true)]
-    pub sun_alt: f64,
+    #[command(flatten)]
+    pub limits: super::args::WindowLimits,
     /// JSON output.
     #[arg(long)]
     pub json: bool,
@@ -371,7 +371,7 @@ pub fn run_budget(a: BudgetArgs) -> Result<()> {
     let site = sites::resolve(&a.site)?;
     let from = parse_date(&a.from)?;
     let to = parse_date(&a.to)?;
-    let limits = Limits::new(a.min_alt, a.sun_alt)?;
+    let limits = a.limits.limits()?;
     let targets = super::load_targets(&a.targets)?;
     let em = instrument(&site, &a.instrument)?;
     let owned = rung::ladder::methods()?;
@@ -386,7 +386,7 @@ pub fn run_budget(a: BudgetArgs) -> Result<()> {
     } else {
         println!(
             "Distance budget {from} to {to} at {} (window above {:.0}°, Sun below {:.0}°)",
-            site.name, a.min_alt, a.sun_alt
+            site.name, a.limits.min_alt, a.limits.sun_alt
         );
         println!(
             "  {:<14} {:<9} {:>6} {:>8} {:>6} {:>8} {:>7}  verdict",

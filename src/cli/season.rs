@@ -16,6 +16,10 @@ use std::path::PathBuf;
 
 /// Arguments of `rung season`.
 #[derive(clap::Args)]
+#[command(
+    mut_arg("min_alt", |a| a.help("Minimum observed altitude, degrees")),
+    mut_arg("sun_alt", |a| a.help("The Sun's centre must be below this altitude, degrees")),
+)]
 pub struct Args {
     /// Site name from the catalogue, or LAT,LON,ELEV_M[,ZONE].
     #[arg(long)]
@@ -29,12 +33,8 @@ pub struct Args {
     /// Last night (YYYY-MM-DD), inclusive.
     #[arg(long)]
     pub to: String,
-    /// Minimum observed altitude, degrees.
-    #[arg(long, default_value_t = 30.0, allow_hyphen_values = true)]
-    pub min_alt: f64,
-    /// The Sun's centre must be below this altitude, degrees.
-    #[arg(long, default_value_t = -12.0, allow_hyphen_values = true)]
-    pub sun_alt: f64,
+    #[command(flatten)]
+    pub limits: super::args::WindowLimits,
     /// Minimum distance from the Moon's centre, degrees (default: no Moon limit).
     #[arg(long, allow_hyphen_values = true)]
     pub moon_sep: Option<f64>,
@@ -61,7 +61,7 @@ const ROWS_PER_CHUNK: usize = 512;
 /// Run `rung season`.
 pub fn run(a: Args) -> Result<()> {
     let site = sites::resolve(&a.site)?;
-    let c = Constraints::new(a.min_alt, a.sun_alt, a.moon_sep)?;
+    let c = Constraints::new(a.limits.min_alt, a.limits.sun_alt, a.moon_sep)?;
     let from = parse_date(&a.from).context("--from")?;
     let to = parse_date(&a.to).context("--to")?;
     let nights = season::nights_in(from, to)?.len();

@@ -10,15 +10,16 @@ use rung::astro::frames::{CatalogPlace, Context};
 use rung::astro::night::{ASTRONOMICAL_DEG, Limits, NAUTICAL_DEG, Night};
 use rung::astro::time::{Instant, parse_date, parse_instant};
 use rung::astro::{pointing, sun_caution};
-use rung::io::angles::{parse_dec_deg, parse_ra_deg};
+
 use rung::io::sites;
-use rung::io::targets::Target;
 use rung::photometry::{DEMO_INSTRUMENT, Exposure, Photometer};
 use serde_json::json;
-use std::path::PathBuf;
 
 /// Where, when and with what: the arguments both commands share.
 #[derive(clap::Args)]
+#[command(mut_arg("targets", |a| {
+    a.help("Targets file (CSV or TOML) for --target (default: the demo programme)")
+}))]
 pub struct Common {
     /// Star magnitude above the atmosphere (default: the target's magnitude from --targets).
     #[arg(long, allow_hyphen_values = true)]
@@ -26,21 +27,8 @@ pub struct Common {
     /// Band (U, B, V, R, I or one from your bands.toml; default: the target's band, else V).
     #[arg(long)]
     pub band: Option<String>,
-    /// Site name from the catalogue, or LAT,LON,ELEV_M[,ZONE].
-    #[arg(long)]
-    pub site: String,
-    /// Right ascension (ICRS): degrees or HH:MM:SS.s.
-    #[arg(long, allow_hyphen_values = true)]
-    pub ra: Option<String>,
-    /// Declination (ICRS): degrees or ±DD:MM:SS.
-    #[arg(long, allow_hyphen_values = true)]
-    pub dec: Option<String>,
-    /// A target name from --targets instead of --ra/--dec.
-    #[arg(long)]
-    pub target: Option<String>,
-    /// Targets file (CSV or TOML) for --target (default: the demo programme).
-    #[arg(long)]
-    pub targets: Option<PathBuf>,
+    #[command(flatten)]
+    pub aim: super::args::Pointing,
     /// Instant, ISO 8601 (a time without a zone is UTC), or 'now'.
     #[arg(long, conflicts_with = "date")]
     pub at: Option<String>,
@@ -125,20 +113,8 @@ fn best_time(
 }
 
 fn setup(c: &Common) -> Result<Setup> {
-    let site = sites::resolve(&c.site)?;
-    let (name, place, tg): (String, CatalogPlace, Option<Target>) = match (&c.target, &c.ra, &c.dec)
-    {
-        (Some(n), _, _) => {
-            let tg = super::target_by_name(&c.targets, n)?;
-            (tg.name.clone(), tg.place(), Some(tg))
-        }
-        (None, Some(r), Some(d)) => (
-            "coordinates".to_string(),
-            CatalogPlace::fixed_deg(parse_ra_deg(r)?, parse_dec_deg(d)?),
-            None,
-        ),
-        _ => bail!("give --ra and --dec, or --target NAME (with --targets FILE)"),
-    };
+    let site = sites::resolve(&c.aim.site)?;
+    let (name, place, tg) = c.aim.resolve()?;
     let mag = match (c.mag, &tg) {
         (Some(m), _) => m,
         (None, Some(t)) => t

@@ -1,32 +1,18 @@
 //! `rung where`: one target, one instant.
 
 use anyhow::{Context as _, Result};
-use rung::astro::frames::{CatalogPlace, Context};
+use rung::astro::frames::Context;
 use rung::astro::time::parse_instant;
 use rung::astro::{pointing, sun_caution};
-use rung::io::angles::{parse_dec_deg, parse_ra_deg};
+
 use rung::io::sites;
 use serde_json::json;
-use std::path::PathBuf;
 
 /// Arguments of `rung where`.
 #[derive(clap::Args)]
 pub struct Args {
-    /// Site name from the catalogue, or LAT,LON,ELEV_M[,ZONE].
-    #[arg(long)]
-    pub site: String,
-    /// Right ascension (ICRS): degrees or HH:MM:SS.s.
-    #[arg(long, allow_hyphen_values = true)]
-    pub ra: Option<String>,
-    /// Declination (ICRS): degrees or ±DD:MM:SS.
-    #[arg(long, allow_hyphen_values = true)]
-    pub dec: Option<String>,
-    /// A target name from --targets instead of --ra/--dec.
-    #[arg(long)]
-    pub target: Option<String>,
-    /// Targets file (CSV or TOML) for --target.
-    #[arg(long)]
-    pub targets: Option<PathBuf>,
+    #[command(flatten)]
+    pub aim: super::args::Pointing,
     /// Instant, ISO 8601 (a time without a zone is UTC), or 'now'.
     #[arg(long, default_value = "now")]
     pub at: String,
@@ -37,19 +23,9 @@ pub struct Args {
 
 /// Run `rung where`.
 pub fn run(a: Args) -> Result<()> {
-    let site = sites::resolve(&a.site).context("--site")?;
+    let site = sites::resolve(&a.aim.site).context("--site")?;
     let t = parse_instant(&a.at).context("--at")?;
-    let (name, place) = match (&a.target, &a.ra, &a.dec) {
-        (Some(n), _, _) => {
-            let tg = super::target_by_name(&a.targets, n)?;
-            (tg.name.clone(), tg.place())
-        }
-        (None, Some(r), Some(d)) => (
-            "coordinates".to_string(),
-            CatalogPlace::fixed_deg(parse_ra_deg(r)?, parse_dec_deg(d)?),
-        ),
-        _ => anyhow::bail!("give --ra and --dec, or --target NAME (with --targets FILE)"),
-    };
+    let (name, place, _) = a.aim.resolve()?;
     let ctx = Context::exact(&site, t)?;
     let p = pointing(&site, &ctx, &place);
     let caution = sun_caution(&site, &p);
