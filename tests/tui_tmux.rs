@@ -330,3 +330,26 @@ fn sigterm_keeps_unsaved_edits_and_the_next_start_offers_them() {
     t.send("q");
     assert_restored(&t, "RUNG-EXIT-0");
 }
+
+#[test]
+fn a_vanished_terminal_ends_rung_instead_of_spinning() {
+    // Killing the multiplexer closes the terminal without the UI always
+    // getting SIGHUP; rung must notice and end (its edits are in the
+    // recovery file), not keep reading end-of-file at full CPU.
+    let cfg = tempfile::tempdir().unwrap();
+    let Some(t) = Tmux::start(&command(cfg.path(), "")) else {
+        return;
+    };
+    t.wait_for("Roster · 26 of 26 targets");
+    let pid = rung_pid(&t);
+    t.cmd(&["kill-server"]);
+    let proc_dir = std::path::PathBuf::from(format!("/proc/{pid}"));
+    let t0 = Instant::now();
+    while proc_dir.exists() {
+        if t0.elapsed() > Duration::from_secs(15) {
+            let _ = Command::new("kill").args(["-9", &pid]).status();
+            panic!("rung {pid} still running 15 s after its terminal closed");
+        }
+        std::thread::sleep(Duration::from_millis(200));
+    }
+}

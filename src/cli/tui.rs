@@ -307,12 +307,43 @@ fn event_loop(
     }
 }
 
+/// Whether the terminal on standard input still answers (a hung-up or closed
+/// terminal fails the window-size query with an error).
+fn terminal_alive() -> bool {
+    let mut ws = libc::winsize {
+        ws_row: 0,
+        ws_col: 0,
+        ws_xpixel: 0,
+        ws_ypixel: 0,
+    };
+    // SAFETY: TIOCGWINSZ writes one `winsize` into the struct we pass.
+    unsafe { libc::ioctl(libc::STDIN_FILENO, libc::TIOCGWINSZ, &mut ws) == 0 }
+}
+
+/// End the process when its terminal goes away without a SIGHUP reaching it
+/// (seen when a terminal multiplexer is killed): the terminal's reader then
+/// sees end-of-file forever and the event loop never gets control back. The
+/// unsaved edits are already in the recovery file (written after every change)
+/// and there is no terminal left to restore, so the watcher just ends the
+/// process with the hang-up status.
+fn watch_terminal() {
+    std::thread::spawn(|| {
+        loop {
+            std::thread::sleep(Duration::from_secs(1));
+            if !terminal_alive() {
+                std::process::exit(128 + signal_hook::consts::SIGHUP);
+            }
+        }
+    });
+}
+
 /// Open the UI.
 pub fn run(a: Args) -> Result<()> {
     let setup = setup(&a)?;
     // ratatui's init installs a panic hook that restores the terminal first.
     let signalled = watch_signals()?;
     let mut terminal = ratatui::try_init().context("cannot open the terminal")?;
+    watch_terminal();
     let res = event_loop(&mut terminal, setup, &signalled);
     ratatui::restore();
     let sig = signalled.load(std::sync::atomic::Ordering::Relaxed);
