@@ -121,17 +121,8 @@ fn filter_and_sort() {
 #[test]
 fn edit_validate_undo_redo_and_save() {
     let dir = tempfile::tempdir().unwrap();
-    let file = dir.path().join("mine.csv");
-    std::fs::copy(demo_file(), &file).unwrap();
+    let (mut s, file) = own_copy_state(dir.path());
     let original = std::fs::read(&file).unwrap();
-    let mut s = state_with(
-        demo_targets(),
-        Some(file.clone()),
-        file.clone(),
-        false,
-        (80, 24),
-        true,
-    );
     assert!(!s.dirty());
     // Rename the first target through the form.
     ch(&mut s, 'e');
@@ -428,17 +419,8 @@ fn chase_and_phase_lists_scroll_apart_from_the_selection() {
 #[test]
 fn unsaved_edits_are_kept_beside_the_file_until_saved() {
     let dir = tempfile::tempdir().unwrap();
-    let file = dir.path().join("mine.csv");
-    std::fs::copy(demo_file(), &file).unwrap();
+    let (mut s, file) = own_copy_state(dir.path());
     let recovery = dir.path().join("mine.csv.unsaved");
-    let mut s = state_with(
-        demo_targets(),
-        Some(file.clone()),
-        file.clone(),
-        false,
-        (80, 24),
-        true,
-    );
     assert_eq!(s.programme.recovery_path(), recovery);
     assert!(!recovery.exists());
     // Every change that leaves the programme unsaved is written beside it.
@@ -478,26 +460,16 @@ fn unsaved_edits_left_by_a_session_are_offered_back() {
     use rung::tui::state::{Question, Recovered};
     let dir = tempfile::tempdir().unwrap();
     let file = dir.path().join("mine.csv");
-    std::fs::copy(demo_file(), &file).unwrap();
     let recovery = dir.path().join("mine.csv.unsaved");
     let mut edited = demo_targets();
     edited.truncate(20);
     std::fs::write(&recovery, rung::io::write_targets::to_csv(&edited)).unwrap();
+    // What `rung` finds at start (src/cli/tui.rs) comes in through Setup and
+    // `init` asks about it.
     let open_with = |recovered: Option<Recovered>| {
-        let mut s = state_with(
-            demo_targets(),
-            Some(file.clone()),
-            file.clone(),
-            false,
-            (80, 24),
-            true,
-        );
-        // What `rung` finds at start (src/cli/tui.rs) comes in through Setup; the
-        // support state has none, so open the question the way `init` does.
-        if let Some(r) = recovered {
-            s.overlay = Some(Overlay::Question(Question::Restore(Box::new(r))));
-        }
-        s
+        let (mut setup, _) = own_copy_setup(dir.path());
+        setup.recovered = recovered;
+        rung::tui::effects::open(setup)
     };
     let offer = || Recovered {
         path: recovery.clone(),

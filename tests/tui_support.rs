@@ -37,9 +37,51 @@ pub fn state_with(
     size: (u16, u16),
     color: bool,
 ) -> State {
+    open(setup_with(targets, source, save_path, is_demo, size, color))
+}
+
+/// The demo targets with these names, in file order.
+pub fn demo_subset(names: &[&str]) -> Vec<Target> {
+    demo_targets()
+        .into_iter()
+        .filter(|t| names.contains(&t.name.as_str()))
+        .collect()
+}
+
+/// A copy of the demo programme as `dir/mine.csv` (the user's own file) and
+/// the Setup of a UI opened on it at 80×24.
+pub fn own_copy_setup(dir: &Path) -> (Setup, PathBuf) {
+    let file = dir.join("mine.csv");
+    std::fs::copy(demo_file(), &file).unwrap();
+    let setup = setup_with(
+        demo_targets(),
+        Some(file.clone()),
+        file.clone(),
+        false,
+        (80, 24),
+        true,
+    );
+    (setup, file)
+}
+
+/// A state opened on a copy of the demo programme as `dir/mine.csv`; the file's path.
+pub fn own_copy_state(dir: &Path) -> (State, PathBuf) {
+    let (setup, file) = own_copy_setup(dir);
+    (open(setup), file)
+}
+
+/// The Setup behind [`state_with`].
+pub fn setup_with(
+    targets: Vec<Target>,
+    source: Option<PathBuf>,
+    save_path: PathBuf,
+    is_demo: bool,
+    size: (u16, u16),
+    color: bool,
+) -> Setup {
     let site = sites::resolve("pampa-lucero").unwrap();
     let original = source.as_ref().and_then(|p| std::fs::read(p).ok());
-    open(Setup {
+    Setup {
         sites: sites::catalogue().unwrap(),
         site,
         date: Some(chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap()),
@@ -62,7 +104,7 @@ pub fn state_with(
             .map(|i| i.name)
             .collect(),
         recovered: None,
-    })
+    }
 }
 
 /// A fresh programme path of its own for each demo state, in one temporary

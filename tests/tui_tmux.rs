@@ -109,6 +109,34 @@ fn command(cfg: &Path, extra_env: &str) -> String {
     )
 }
 
+/// Start `rung tui` on the demo programme with `cfg` as its config folder and
+/// wait for the Roster; `None` (test skipped) without tmux.
+fn open_demo(cfg: &Path) -> Option<Tmux> {
+    let t = Tmux::start(&command(cfg, ""))?;
+    t.wait_for("Roster · 26 of 26 targets");
+    Some(t)
+}
+
+/// Remove the first target (d, y) and wait for the unsaved mark.
+fn remove_first_target(t: &Tmux) {
+    t.send("d");
+    t.wait_for("Remove LPO-P01");
+    t.send("y");
+    t.wait_for("● unsaved");
+}
+
+/// Send a signal (`-TERM`, `-INT`) to a process.
+fn signal(sig: &str, pid: &str) {
+    assert!(
+        Command::new("kill")
+            .args([sig, pid])
+            .status()
+            .unwrap()
+            .success(),
+        "kill {sig} {pid}"
+    );
+}
+
 fn assert_restored(t: &Tmux, exit: &str) {
     t.wait_for(exit);
     let s = t.wait_for("RUNG-TTY-DONE");
@@ -130,10 +158,9 @@ fn assert_restored(t: &Tmux, exit: &str) {
 #[test]
 fn every_view_then_quit_restores_the_terminal() {
     let cfg = tempfile::tempdir().unwrap();
-    let Some(t) = Tmux::start(&command(cfg.path(), "")) else {
+    let Some(t) = open_demo(cfg.path()) else {
         return;
     };
-    t.wait_for("Roster · 26 of 26 targets");
     assert_eq!(t.alternate_on(), "1");
     t.send("2");
     t.wait_for("Tonight · ◆ LPO-P01 parallax");
@@ -187,10 +214,9 @@ fn every_view_then_quit_restores_the_terminal() {
 #[test]
 fn ctrl_c_quits_and_restores_the_terminal() {
     let cfg = tempfile::tempdir().unwrap();
-    let Some(t) = Tmux::start(&command(cfg.path(), "")) else {
+    let Some(t) = open_demo(cfg.path()) else {
         return;
     };
-    t.wait_for("Roster · 26 of 26 targets");
     t.send("C-c");
     assert_restored(&t, "RUNG-EXIT-0");
 }
@@ -198,14 +224,10 @@ fn ctrl_c_quits_and_restores_the_terminal() {
 #[test]
 fn unsaved_changes_are_asked_about_on_ctrl_c() {
     let cfg = tempfile::tempdir().unwrap();
-    let Some(t) = Tmux::start(&command(cfg.path(), "")) else {
+    let Some(t) = open_demo(cfg.path()) else {
         return;
     };
-    t.wait_for("Roster · 26 of 26 targets");
-    t.send("d");
-    t.wait_for("Remove LPO-P01");
-    t.send("y");
-    t.wait_for("● unsaved");
+    remove_first_target(&t);
     t.send("C-c");
     t.wait_for("Quit without saving?");
     t.send("n");
@@ -268,19 +290,12 @@ fn sigterm_and_sigint_from_outside_restore_the_terminal() {
     // POSIX: SIGTERM is 15 and SIGINT is 2; a shell reports 128 + signal (common practice).
     for (sig, code) in [("-TERM", "RUNG-EXIT-143"), ("-INT", "RUNG-EXIT-130")] {
         let cfg = tempfile::tempdir().unwrap();
-        let Some(t) = Tmux::start(&command(cfg.path(), "")) else {
+        let Some(t) = open_demo(cfg.path()) else {
             return;
         };
-        t.wait_for("Roster · 26 of 26 targets");
         assert_eq!(t.alternate_on(), "1");
         let pid = rung_pid(&t);
-        assert!(
-            Command::new("kill")
-                .args([sig, &pid])
-                .status()
-                .unwrap()
-                .success()
-        );
+        signal(sig, &pid);
         let s = t.wait_for(code);
         assert!(s.contains("ended by signal"), "{s}");
         assert_restored(&t, code);
@@ -290,24 +305,14 @@ fn sigterm_and_sigint_from_outside_restore_the_terminal() {
 #[test]
 fn sigterm_keeps_unsaved_edits_and_the_next_start_offers_them() {
     let cfg = tempfile::tempdir().unwrap();
-    let Some(t) = Tmux::start(&command(cfg.path(), "")) else {
+    let Some(t) = open_demo(cfg.path()) else {
         return;
     };
-    t.wait_for("Roster · 26 of 26 targets");
-    t.send("d");
-    t.wait_for("Remove LPO-P01");
-    t.send("y");
-    t.wait_for("● unsaved");
+    remove_first_target(&t);
     let recovery = cfg.path().join("programme.csv.unsaved");
     assert!(recovery.exists(), "no {}", recovery.display());
     let pid = rung_pid(&t);
-    assert!(
-        Command::new("kill")
-            .args(["-TERM", &pid])
-            .status()
-            .unwrap()
-            .success()
-    );
+    signal("-TERM", &pid);
     // (The pane is 80 columns wide: join the wrapped lines before looking.)
     let s = t.wait_for("RUNG-EXIT-143").replace('\n', "");
     assert!(
@@ -337,10 +342,9 @@ fn a_vanished_terminal_ends_rung_instead_of_spinning() {
     // getting SIGHUP; rung must notice and end (its edits are in the
     // recovery file), not keep reading end-of-file at full CPU.
     let cfg = tempfile::tempdir().unwrap();
-    let Some(t) = Tmux::start(&command(cfg.path(), "")) else {
+    let Some(t) = open_demo(cfg.path()) else {
         return;
     };
-    t.wait_for("Roster · 26 of 26 targets");
     let pid = rung_pid(&t);
     t.cmd(&["kill-server"]);
     let proc_dir = std::path::PathBuf::from(format!("/proc/{pid}"));

@@ -582,10 +582,7 @@ fn budget_view_and_export_match_the_library_budget() {
     use rung::ladder::transient::TransientMethod;
     let site = sites::resolve("pampa-lucero").unwrap();
     let pick = ["LPO-P03", "LPO-C03", "LPO-C05", "LPO-T2026a"];
-    let targets: Vec<_> = demo_targets()
-        .into_iter()
-        .filter(|t| pick.contains(&t.name.as_str()))
-        .collect();
+    let targets = demo_subset(&pick);
     // The same call as `rung budget`, made here directly.
     let em = rung::photometry::Photometer::demo(&site).unwrap();
     let (plx, pul, tra) = (
@@ -643,10 +640,7 @@ fn plan_export_writes_plan_csv_ics_and_night_sheet_that_read_back() {
     use rung::plan::schedule::{Request, schedule};
     let site = sites::resolve("pampa-lucero").unwrap();
     let pick = ["LPO-P03", "LPO-C03", "LPO-T2026a"];
-    let targets: Vec<_> = demo_targets()
-        .into_iter()
-        .filter(|t| pick.contains(&t.name.as_str()))
-        .collect();
+    let targets = demo_subset(&pick);
     let dir = tempfile::tempdir().unwrap();
     let mut s = state_with(
         targets.clone(),
@@ -735,10 +729,7 @@ fn roster_shows_progress_towards_each_goal_from_the_budget() {
     use rung::ladder::transient::TransientMethod;
     let site = sites::resolve("pampa-lucero").unwrap();
     let pick = ["LPO-P03", "LPO-C03", "LPO-C05", "LPO-T2026a"];
-    let mut targets: Vec<_> = demo_targets()
-        .into_iter()
-        .filter(|t| pick.contains(&t.name.as_str()))
-        .collect();
+    let mut targets = demo_subset(&pick);
     // One target without a goal shows a dash.
     targets[0].goal_pct = None;
     let nogoal = targets[0].name.clone();
@@ -814,10 +805,7 @@ fn roster_shows_progress_towards_each_goal_from_the_budget() {
 #[test]
 fn plan_export_uses_the_hours_a_night_set_with_h_and_capital_h() {
     let pick = ["LPO-P03", "LPO-C03", "LPO-C05", "LPO-T2026a"];
-    let targets: Vec<_> = demo_targets()
-        .into_iter()
-        .filter(|t| pick.contains(&t.name.as_str()))
-        .collect();
+    let targets = demo_subset(&pick);
     let dir = tempfile::tempdir().unwrap();
     let mut s = state_with(
         targets.clone(),

@@ -33,10 +33,10 @@ fn ev(o: &mut Map<String, Value>, reasons: &mut Map<String, Value>, key: &str, e
     }
 }
 
-/// Run `rung night`.
 /// A target's Moon distance at its best time (degrees) and its first Sun caution.
 type Extras = (Option<f64>, Option<(rung::astro::time::Instant, String)>);
 
+/// Run `rung night`.
 pub fn run(a: Args) -> Result<()> {
     let site = sites::resolve(&a.site).context("--site")?;
     let limits = a.limits.limits()?;

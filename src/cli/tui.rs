@@ -166,8 +166,16 @@ fn find_recovery(
     if !path.exists() {
         return (None, message);
     }
-    match rung::io::targets::load(&path) {
-        Ok(l) if l.problems.is_empty() && l.targets != targets => {
+    let loaded = match rung::io::targets::load(&path) {
+        Ok(l) => match l.problems.first() {
+            None => Ok(l.targets),
+            Some(p) => Err(p.to_string()),
+        },
+        Err(e) => Err(e.to_string()),
+    };
+    match loaded {
+        Ok(kept) if kept == targets => (None, message),
+        Ok(kept) => {
             let written = std::fs::metadata(&path)
                 .and_then(|m| m.modified())
                 .ok()
@@ -176,28 +184,17 @@ fn find_recovery(
                         .format("%Y-%m-%d %H:%M")
                         .to_string()
                 });
-            (
-                Some(rung::tui::state::Recovered {
-                    path,
-                    targets: l.targets,
-                    written,
-                }),
-                message,
-            )
+            let r = rung::tui::state::Recovered {
+                path,
+                targets: kept,
+                written,
+            };
+            (Some(r), message)
         }
-        Ok(l) if l.problems.is_empty() => (None, message),
-        Ok(l) => (
+        Err(why) => (
             None,
             Some(format!(
-                "unsaved edits in {} not offered back: {} (the file is left as it is)",
-                path.display(),
-                l.problems[0]
-            )),
-        ),
-        Err(e) => (
-            None,
-            Some(format!(
-                "unsaved edits in {} not offered back: {e} (the file is left as it is)",
+                "unsaved edits in {} not offered back: {why} (the file is left as it is)",
                 path.display()
             )),
         ),
@@ -307,17 +304,18 @@ fn event_loop(
     }
 }
 
-/// Whether the terminal on standard input still answers (a hung-up or closed
-/// terminal fails the window-size query with an error).
-fn terminal_alive() -> bool {
+/// Whether a terminal still answers (a hung-up or closed terminal fails the
+/// window-size query with an error).
+fn terminal_alive(tty: &std::fs::File) -> bool {
+    use std::os::fd::AsRawFd;
     let mut ws = libc::winsize {
         ws_row: 0,
         ws_col: 0,
         ws_xpixel: 0,
         ws_ypixel: 0,
     };
-    // SAFETY: TIOCGWINSZ writes one `winsize` into the struct we pass.
-    unsafe { libc::ioctl(libc::STDIN_FILENO, libc::TIOCGWINSZ, &mut ws) == 0 }
+    // SAFETY: TIOCGWINSZ writes one `winsize` into the struct we pass, on an fd we own.
+    unsafe { libc::ioctl(tty.as_raw_fd(), libc::TIOCGWINSZ, &mut ws) == 0 }
 }
 
 /// End the process when its terminal goes away without a SIGHUP reaching it
@@ -325,12 +323,21 @@ fn terminal_alive() -> bool {
 /// sees end-of-file forever and the event loop never gets control back. The
 /// unsaved edits are already in the recovery file (written after every change)
 /// and there is no terminal left to restore, so the watcher just ends the
-/// process with the hang-up status.
+/// process with the hang-up status. It watches the controlling terminal
+/// (`/dev/tty`, what the UI reads and draws on even when standard input is
+/// redirected); without one there is nothing to watch.
 fn watch_terminal() {
-    std::thread::spawn(|| {
+    let Ok(tty) = std::fs::OpenOptions::new()
+        .read(true)
+        .write(true)
+        .open("/dev/tty")
+    else {
+        return;
+    };
+    std::thread::spawn(move || {
         loop {
             std::thread::sleep(Duration::from_secs(1));
-            if !terminal_alive() {
+            if !terminal_alive(&tty) {
                 std::process::exit(128 + signal_hook::consts::SIGHUP);
             }
         }

@@ -49,8 +49,13 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
 /// The backup kept by [`save_with_backup`]: `path` with `.bak` appended
 /// (`sites.toml` → `sites.toml.bak`).
 pub fn backup_path(path: &Path) -> PathBuf {
+    with_suffix(path, ".bak")
+}
+
+/// `path` with `suffix` appended to its file name (`a.csv` + `.unsaved` → `a.csv.unsaved`).
+pub fn with_suffix(path: &Path, suffix: &str) -> PathBuf {
     let mut s = path.as_os_str().to_owned();
-    s.push(".bak");
+    s.push(suffix);
     PathBuf::from(s)
 }
 

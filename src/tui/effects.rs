@@ -13,7 +13,9 @@ use crate::photometry::Photometer;
 use crate::plan::season::{
     Constraints, NightSky, PreparedPlace, ScanSetup, TargetNightRow, scan_night,
 };
-use crate::tui::msg::{Effect, Msg, NightJob, PlanJob, SeasonJob, SeasonRows, SeasonSky};
+use crate::tui::msg::{
+    Effect, Msg, NightJob, PlanJob, RecoveryOp, SeasonJob, SeasonRows, SeasonSky,
+};
 use crate::tui::state::{
     BUDGET_MONTHS, BudgetKey, MethodBody, MethodKey, MethodResult, NightData, PARALLAX_MONTHS,
     PHASE_NIGHTS, SeasonKey, TargetRow, View,
@@ -369,40 +371,22 @@ pub fn save(
     Ok(path.to_path_buf())
 }
 
-/// Keep, remove or set aside the unsaved-edits file (see [`Effect::Recovery`]).
+/// Keep, remove or set aside the unsaved-edits file (see [`RecoveryOp`]).
 /// A file that is already absent counts as removed.
-pub fn keep_recovery(
-    path: &std::path::Path,
-    text: Option<&str>,
-    set_aside: bool,
-) -> std::result::Result<(), String> {
-    match (text, set_aside) {
-        (Some(t), _) => {
-            if let Some(dir) = path.parent().filter(|p| !p.as_os_str().is_empty()) {
-                std::fs::create_dir_all(dir)
-                    .map_err(|e| format!("cannot create {}: {e}", dir.display()))?;
-            }
-            write_atomic(path, t.as_bytes()).map_err(|e| e.to_string())
+pub fn keep_recovery(path: &std::path::Path, op: &RecoveryOp) -> std::result::Result<(), String> {
+    let (r, what) = match op {
+        RecoveryOp::Keep(text) => return save(path, text, None).map(|_| ()),
+        RecoveryOp::Remove => (std::fs::remove_file(path), "remove"),
+        RecoveryOp::SetAside => (
+            std::fs::rename(path, crate::tui::state::declined_recovery_path(path)),
+            "set aside",
+        ),
+    };
+    match r {
+        Err(e) if e.kind() != std::io::ErrorKind::NotFound => {
+            Err(format!("cannot {what} {}: {e}", path.display()))
         }
-        (None, aside) => {
-            let r = if aside {
-                let old = crate::tui::state::declined_recovery_path(path);
-                std::fs::rename(path, &old).map_err(|e| {
-                    (
-                        e,
-                        format!("cannot move {} to {}", path.display(), old.display()),
-                    )
-                })
-            } else {
-                std::fs::remove_file(path)
-                    .map_err(|e| (e, format!("cannot remove {}", path.display())))
-            };
-            match r {
-                Ok(()) => Ok(()),
-                Err((e, _)) if e.kind() == std::io::ErrorKind::NotFound => Ok(()),
-                Err((e, what)) => Err(format!("{what}: {e}")),
-            }
-        }
+        _ => Ok(()),
     }
 }
 
@@ -448,15 +432,7 @@ pub fn run(effect: Effect) -> Vec<Msg> {
         Effect::Save { path, text, backup } => {
             vec![Msg::Saved(save(&path, &text, backup.as_ref()))]
         }
-        Effect::Recovery {
-            path,
-            text,
-            set_aside,
-        } => vec![Msg::RecoveryKept(keep_recovery(
-            &path,
-            text.as_deref(),
-            set_aside,
-        ))],
+        Effect::Recovery { path, op } => vec![Msg::RecoveryKept(keep_recovery(&path, &op))],
         Effect::Batch(list) => list.into_iter().flat_map(run).collect(),
     }
 }

@@ -236,6 +236,17 @@ pub struct PlanJob {
     pub dir: PathBuf,
 }
 
+/// What to do with the unsaved-edits file.
+#[derive(Debug, Clone, PartialEq)]
+pub enum RecoveryOp {
+    /// Write these CSV rows to it (atomically).
+    Keep(String),
+    /// Remove it (nothing is unsaved, or the user dropped the edits).
+    Remove,
+    /// Move it to `<file>.old` (the user declined to restore it).
+    SetAside,
+}
+
 /// Side effects `update` asks the runner to perform.
 #[derive(Debug, Clone)]
 pub enum Effect {
@@ -260,16 +271,12 @@ pub enum Effect {
         /// A copy of the file as it was loaded, written once before the first save.
         backup: Option<(PathBuf, Vec<u8>)>,
     },
-    /// Keep the unsaved edits in the recovery file (`Some` CSV text, written
-    /// atomically) or remove it (`None`); `set_aside` first moves an older one
-    /// to `<file>.old` instead of overwriting it.
+    /// Do something with the unsaved-edits (recovery) file.
     Recovery {
         /// The recovery file.
         path: PathBuf,
-        /// CSV text, or `None` to remove the file.
-        text: Option<String>,
-        /// Move the file aside (to `<file>.old`) rather than remove it.
-        set_aside: bool,
+        /// What to do with it.
+        op: RecoveryOp,
     },
     /// Several effects.
     Batch(Vec<Effect>),

@@ -137,9 +137,7 @@ pub struct Programme {
 impl Programme {
     /// Where the backup copy of the original goes.
     pub fn backup_path(&self) -> PathBuf {
-        let mut s = self.save_path.clone().into_os_string();
-        s.push(".bak");
-        PathBuf::from(s)
+        crate::io::atomic::backup_path(&self.save_path)
     }
 
     /// Where unsaved edits are kept while the UI runs: written (atomically)
@@ -148,23 +146,14 @@ impl Programme {
     /// either (a signal, a panic, a closed terminal, a power cut) leaves it for
     /// the next start to offer back.
     pub fn recovery_path(&self) -> PathBuf {
-        recovery_path_for(&self.save_path)
+        crate::io::atomic::with_suffix(&self.save_path, ".unsaved")
     }
-}
-
-/// The unsaved-edits file kept beside a programme file (`<file>.unsaved`).
-pub fn recovery_path_for(save_path: &std::path::Path) -> PathBuf {
-    let mut s = save_path.as_os_str().to_owned();
-    s.push(".unsaved");
-    PathBuf::from(s)
 }
 
 /// Where an offered-back recovery file is moved when the user declines it
 /// (`<file>.unsaved.old`, one copy, so nothing is deleted unasked).
 pub fn declined_recovery_path(recovery: &std::path::Path) -> PathBuf {
-    let mut s = recovery.as_os_str().to_owned();
-    s.push(".old");
-    PathBuf::from(s)
+    crate::io::atomic::with_suffix(recovery, ".old")
 }
 
 /// Unsaved edits left by an earlier session, found at start.

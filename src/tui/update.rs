@@ -9,7 +9,7 @@ use crate::io::targets::Target;
 use crate::io::write_targets::to_csv;
 use crate::tui::form::Form;
 use crate::tui::keymap::{self, Scope};
-use crate::tui::msg::{Action, Effect, Msg, NightJob, PlanJob, SeasonJob};
+use crate::tui::msg::{Action, Effect, Msg, NightJob, PlanJob, RecoveryOp, SeasonJob};
 use crate::tui::state::{
     Level, Overlay, PLAN_HOURS_PER_NIGHT, PLAN_HOURS_RANGE, Programme, Question, Recovered,
     SeasonData, SkyNow, SortKey, State, UNDO_DEPTH, View, scroll_offset,
@@ -120,8 +120,11 @@ pub fn init(setup: Setup) -> (State, Option<Effect>) {
 fn keep_edits(s: &State) -> Effect {
     Effect::Recovery {
         path: s.programme.recovery_path(),
-        text: s.dirty().then(|| to_csv(&s.targets)),
-        set_aside: false,
+        op: if s.dirty() {
+            RecoveryOp::Keep(to_csv(&s.targets))
+        } else {
+            RecoveryOp::Remove
+        },
     }
 }
 
@@ -484,8 +487,7 @@ fn act(s: &mut State, a: Action) -> Option<Effect> {
                     s.quit = true;
                     Some(Effect::Recovery {
                         path: s.programme.recovery_path(),
-                        text: None,
-                        set_aside: false,
+                        op: RecoveryOp::Remove,
                     })
                 }
                 (Question::Restore(r), Action::Yes) => {
@@ -505,8 +507,7 @@ fn act(s: &mut State, a: Action) -> Option<Effect> {
                     );
                     Some(Effect::Recovery {
                         path: r.path.clone(),
-                        text: None,
-                        set_aside: true,
+                        op: RecoveryOp::SetAside,
                     })
                 }
                 (Question::Remove(name), Action::Yes) => {
@@ -782,9 +783,14 @@ fn act_main_inner(s: &mut State, a: Action) -> Option<Effect> {
         }
         Action::DetailDown | Action::DetailUp => {
             if s.detail_len().is_none() {
+                let keys = format!(
+                    "{} and {}",
+                    keymap::keys_for(Scope::Main, Action::DetailDown),
+                    keymap::keys_for(Scope::Main, Action::DetailUp)
+                );
                 say(
                     s,
-                    "nothing to scroll here: J and K scroll the Phase and Chase lists",
+                    format!("nothing to scroll here: {keys} scroll the Phase and Chase lists"),
                     Level::Info,
                 );
                 return None;
