@@ -83,6 +83,7 @@ impl Method for EveryNights {
             hours_needed: e.iter().map(|x| x.visit_s).sum::<f64>() / 3600.0,
             verdict: Verdict::Reachable,
             notes: vec![],
+            error_terms: vec![],
         })
     }
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, _g: f64) -> rung::Result<Prediction> {

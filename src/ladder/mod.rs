@@ -106,6 +106,59 @@ pub enum Verdict {
     },
 }
 
+/// σ_d/d per magnitude of σ_μ: d ∝ 10^(μ/5), so σ_d/d = (ln 10 / 5) σ_μ.
+pub const DIST_FRAC_PER_MAG: f64 = std::f64::consts::LN_10 / 5.0;
+
+/// One named term of a distance's error budget.
+///
+/// Terms add in quadrature. A *shared* term is common to every distance
+/// calibrated the same way (the zero point of a period–luminosity relation, the
+/// peak luminosity of standardized supernovae, the distance scale): it does not
+/// average down over many targets and the distance ladder carries it apart
+/// from each target's own terms (docs/science.md, Distances).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ErrorTerm {
+    /// What the term is, in words ("parallax", "mean magnitude", "relation scatter", ...).
+    pub name: String,
+    /// The term's contribution to σ_μ, magnitudes.
+    pub sigma_mag: f64,
+    /// The same contribution as σ_d/d, percent: 100 · (ln 10 / 5) · sigma_mag.
+    pub distance_pct: f64,
+    /// Shared by every distance calibrated the same way (not averaged down).
+    pub shared: bool,
+}
+
+impl ErrorTerm {
+    /// A term from its σ_μ in magnitudes.
+    pub fn from_mag(name: impl Into<String>, sigma_mag: f64, shared: bool) -> Self {
+        ErrorTerm {
+            name: name.into(),
+            sigma_mag,
+            distance_pct: 100.0 * DIST_FRAC_PER_MAG * sigma_mag,
+            shared,
+        }
+    }
+
+    /// A term from its σ_d/d in percent.
+    pub fn from_pct(name: impl Into<String>, distance_pct: f64, shared: bool) -> Self {
+        ErrorTerm {
+            name: name.into(),
+            sigma_mag: distance_pct / (100.0 * DIST_FRAC_PER_MAG),
+            distance_pct,
+            shared,
+        }
+    }
+}
+
+/// The quadrature sum of error terms as σ_d/d, percent.
+pub fn total_pct(terms: &[ErrorTerm]) -> f64 {
+    terms
+        .iter()
+        .map(|t| t.distance_pct.powi(2))
+        .sum::<f64>()
+        .sqrt()
+}
+
 /// What a set of epochs buys.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Prediction {
@@ -121,6 +174,9 @@ pub struct Prediction {
     pub verdict: Verdict,
     /// Warnings and explanations for the observer.
     pub notes: Vec<String>,
+    /// The error budget of `distance_precision_pct` by term (empty when the
+    /// epochs give no finite precision); the terms add in quadrature to it.
+    pub error_terms: Vec<ErrorTerm>,
 }
 
 /// The face every distance method shows.

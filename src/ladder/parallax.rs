@@ -250,6 +250,16 @@ impl ParallaxConfig {
     }
 }
 
+/// The error terms of a parallax distance with σϖ/ϖ = `pct` percent: the
+/// fit's own term (σ_d/d ≈ σϖ/ϖ), none when the fit gives no finite precision.
+fn parallax_terms(pct: f64) -> Vec<crate::ladder::ErrorTerm> {
+    if pct.is_finite() {
+        vec![crate::ladder::ErrorTerm::from_pct("parallax", pct, false)]
+    } else {
+        Vec::new()
+    }
+}
+
 /// Parallax factors (Pα, Pδ), au, of a direction (ICRS α, δ in radians) seen
 /// from a barycentric position `earth_bary_au` (au, BCRS axes):
 /// Pα = X sin α − Y cos α, Pδ = X cos α sin δ + Y sin α sin δ − Z cos δ
@@ -1119,6 +1129,7 @@ impl ParallaxMethod {
             hours_needed: hours,
             verdict,
             notes,
+            error_terms: parallax_terms(pct),
         };
         Ok(ParallaxPlan {
             parallax_mas: plx,
@@ -1201,6 +1212,7 @@ impl ParallaxMethod {
                 hours_needed: 0.0,
                 verdict,
                 notes,
+                error_terms: Vec::new(),
             },
             reach: None,
         };
@@ -1594,6 +1606,7 @@ impl Method for ParallaxMethod {
             hours_needed: epochs.iter().map(|e| e.visit_s).sum::<f64>() / 3600.0,
             verdict,
             notes: self.notes(plx, &sol, pct),
+            error_terms: parallax_terms(pct),
         })
     }
 

@@ -35,7 +35,7 @@ pub const BUILTIN_CONFIG: &str = include_str!("../../config/pulsator.toml");
 pub const MAG_PER_INV_SNR: f64 = 2.5 / LN_10;
 
 /// σ_d/d per magnitude of distance-modulus error: ln 10 / 5 ≈ 0.4605.
-pub const DIST_FRAC_PER_MAG: f64 = LN_10 / 5.0;
+pub use super::DIST_FRAC_PER_MAG;
 
 /// Longest span of nights one phase query may cover.
 pub const MAX_RANGE_NIGHTS: i64 = 400;
@@ -973,6 +973,18 @@ pub struct DistanceBudget {
     pub floor_pct: f64,
 }
 
+impl DistanceBudget {
+    /// The budget's terms for the shared [`Prediction`] face; they add in
+    /// quadrature to `sigma_mu_mag`.
+    pub fn error_terms(&self) -> Vec<super::ErrorTerm> {
+        vec![
+            super::ErrorTerm::from_mag("period–luminosity relation", self.sigma_pl_mag, false),
+            super::ErrorTerm::from_mag("mean magnitude", self.sigma_mean_mag, false),
+            super::ErrorTerm::from_mag("extinction", self.sigma_ext_mag, false),
+        ]
+    }
+}
+
 /// Distance modulus μ = m̄ − M(P) − A (mag) from the mean magnitude `mean_mag`,
 /// the period `period_d` (days) and the extinction `extinction_mag` in the band.
 /// Source: the Leavitt law of the band (config) and m − M = 5 log10(d/10 pc).
@@ -1398,6 +1410,7 @@ impl PulsatorMethod {
                 hours_needed,
                 verdict,
                 notes: notes.clone(),
+                error_terms: budget.as_ref().map(|b| b.error_terms()).unwrap_or_default(),
             },
             budget,
             rule,

@@ -525,6 +525,23 @@ pub struct DistanceBudget {
     pub floor_pct: f64,
 }
 
+impl DistanceBudget {
+    /// The budget's terms for the shared [`Prediction`] face; they add in
+    /// quadrature to `sigma_mu_mag`.
+    pub fn error_terms(&self) -> Vec<crate::ladder::ErrorTerm> {
+        use crate::ladder::ErrorTerm;
+        let mut v = vec![
+            ErrorTerm::from_mag("light-curve fit", self.sigma_mu_phot_mag, false),
+            ErrorTerm::from_mag("intrinsic scatter", self.sigma_int_mag, false),
+            ErrorTerm::from_mag("extinction", self.sigma_extinction_mag, false),
+        ];
+        if let Some(p) = self.sigma_pec_mag {
+            v.push(ErrorTerm::from_mag("peculiar velocity", p, false));
+        }
+        v
+    }
+}
+
 /// The floor of the distance modulus error (mag) at redshift `z` (none: no
 /// peculiar-velocity term) with foreground extinction `extinction_mag` (mag):
 /// the intrinsic scatter of standardized peaks (Phillips et al. 1999, config),
@@ -1486,6 +1503,11 @@ impl Chase {
                 .chain(self.cautions.iter())
                 .cloned()
                 .collect(),
+            error_terms: self
+                .design
+                .budget
+                .map(|b| b.error_terms())
+                .unwrap_or_default(),
         }
     }
 }
@@ -1546,6 +1568,7 @@ impl Method for TransientMethod {
             hours_needed: hours,
             verdict,
             notes,
+            error_terms: budget.map(|b| b.error_terms()).unwrap_or_default(),
         })
     }
 
