@@ -8,9 +8,11 @@
 #![warn(missing_docs)]
 
 pub mod astro;
+pub mod config;
 pub mod error;
 pub mod io;
 pub mod ladder;
+pub mod linalg;
 pub mod photometry;
 pub mod plan;
 pub mod sky;

@@ -79,10 +79,11 @@ fn sites() {
     for (id, got, want) in [
         ("S1", err(resolve("95,0,0")), "invalid latitude: 95 is not within -90..+90 degrees".to_string()),
         ("S2", err(resolve("10,20,30,Not/AZone")), "cannot read time zone from 'Not/AZone': expected an IANA zone such as America/Santiago".into()),
-        ("S3", s("[[site]]\nname = \"a\"\nlat_deg = 95\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n"), "s.toml, line 1, field 'lat_deg': 95 is not within -90..+90 degrees".into()),
+        ("S3", s("[[site]]\nname = \"a\"\nlat_deg = 95\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n"), "s.toml, line 3, field 'lat_deg': 95 is not within -90..+90 degrees".into()),
         ("S4", s("[[site]]\nname = \"a\nlat_deg = 10\n"), "s.toml, line 2: invalid basic string, expected `\"`".into()),
-        ("S5", s("[[site]]\nname = \"a\"\nlattitude = 10\n"), "s.toml, line 3: unknown field `lattitude`, expected one of `name`, `lat_deg`, `lon_deg`, `elev_m`, `timezone`, `pressure_hpa`, `temperature_c`, `humidity`, `sun_avoid_deg`, `horizon`, `description`".into()),
-        ("S6", s("[[site]]\nname = \"a\"\nlat_deg = 10\nlon_deg = 10\nelev_m = 0\ntimezone = \"Mars/Olympus\"\n"), "s.toml, line 1, field 'timezone': 'Mars/Olympus' is not an IANA time zone".into()),
+        ("S5", s("[[site]]\nname = \"a\"\nlattitude = 10\n"), "s.toml, line 3, field 'lattitude': unknown field `lattitude`, expected one of `name`, `lat_deg`, `lon_deg`, `elev_m`, `timezone`, `pressure_hpa`, `temperature_c`, `humidity`, `sun_avoid_deg`, `horizon`, `description`".into()),
+        ("S6", s("[[site]]\nname = \"a\"\nlat_deg = 10\nlon_deg = 10\nelev_m = 0\ntimezone = \"Mars/Olympus\"\n"), "s.toml, line 6, field 'timezone': 'Mars/Olympus' is not an IANA time zone".into()),
+        ("S7", s("[[site]]\nname = \"a\"\nlat_deg = 10\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n\n[[site]]\nname = \"A\"\nlat_deg = 20\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n"), "s.toml, line 9, field 'name': site 'A' is named twice in this file (first at line 1); rename or remove one".into()),
     ] {
         check(id, got, want);
     }
@@ -290,7 +291,7 @@ fn toml_errors_point_at_the_right_table() {
         "[[ site ]]\nname = \"a\"\nlat_deg = 95\nlon_deg = 1\nelev_m = 0\ntimezone = \"UTC\"\n",
         Path::new("s.toml"),
     ));
-    assert!(e.starts_with("s.toml, line 1, field 'lat_deg'"), "{e}");
+    assert!(e.starts_with("s.toml, line 3, field 'lat_deg'"), "{e}");
 }
 
 #[test]
@@ -728,19 +729,55 @@ fn instruments_toml() {
         (
             "I3",
             bad("aperture_m = 1.0", "aperture_m = -1.0"),
-            "i.toml, line 1, field 'aperture_m': instrument test-1m: -1 must be a positive number",
+            "i.toml, line 3, field 'aperture_m': instrument test-1m: -1 must be a positive number",
         ),
         (
             "I4",
             bad("V = 0.52", "V = 1.5"),
-            "i.toml, line 1, field 'throughput.V': instrument test-1m: 1.5 is not an efficiency in (0, 1]",
+            "i.toml, line 19, field 'throughput.V': instrument test-1m: 1.5 is not an efficiency in (0, 1]",
         ),
         (
             "I5",
             bad("readout_s", "read_out_s"),
-            "i.toml, line 12: unknown field `read_out_s`, expected one of `name`, `description`, `aperture_m`, `obstruction`, `pixel_scale_arcsec`, `read_noise_e`, `dark_e_per_pix_s`, `gain_e_per_adu`, `full_well_e`, `adc_bits`, `linear_fraction`, `seeing_fwhm_arcsec`, `readout_s`, `visit_overhead_s`, `min_exptime_s`, `max_sub_exptime_s`, `sky_annulus_fwhm`, `throughput`",
+            "i.toml, line 12, field 'read_out_s': unknown field `read_out_s`, expected one of `name`, `description`, `aperture_m`, `obstruction`, `pixel_scale_arcsec`, `read_noise_e`, `dark_e_per_pix_s`, `gain_e_per_adu`, `full_well_e`, `adc_bits`, `linear_fraction`, `seeing_fwhm_arcsec`, `readout_s`, `visit_overhead_s`, `min_exptime_s`, `max_sub_exptime_s`, `sky_annulus_fwhm`, `throughput`",
         ),
     ] {
         check(id, got, want.to_string());
     }
+}
+
+/// The user's method configuration files are read by the one configuration
+/// reader: a bad value is named in the user's file, at its line and key.
+#[test]
+fn user_method_config() {
+    use rung::ladder::parallax::ParallaxConfig;
+    use rung::ladder::pulsator::PulsatorConfig;
+    let p = Path::new("pulsator.toml");
+    let e = err(PulsatorConfig::merged("# mine\n[defaults]\nbins = 1\n", p));
+    check(
+        "C1",
+        e,
+        "pulsator.toml, line 3, field 'defaults.bins': must be within 2..200".into(),
+    );
+    let e = err(PulsatorConfig::merged("[defaults]\nbinz = 12\n", p));
+    assert!(
+        e.starts_with("pulsator.toml, line 2, field 'defaults.binz': unknown field `binz`"),
+        "C2: {e}"
+    );
+    check(
+        "C2",
+        e.split(", expected").next().unwrap_or("").to_string(),
+        "pulsator.toml, line 2, field 'defaults.binz': unknown field `binz`".into(),
+    );
+    let d = tempfile::tempdir().unwrap();
+    let f = d.path().join("parallax.toml");
+    std::fs::write(&f, "# only what I change\nmax_airmass = 0.9\n").unwrap();
+    check(
+        "C3",
+        err(ParallaxConfig::load(Some(&f))),
+        format!(
+            "{}, line 2, field 'max_airmass': 0.9 must be at least 1",
+            f.display()
+        ),
+    );
 }

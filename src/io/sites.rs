@@ -2,13 +2,14 @@
 //! `sites.toml` in the user config folder, and inline `LAT,LON,ELEV_M[,ZONE]`.
 
 use crate::astro::site::{DEFAULT_SUN_AVOID_DEG, HorizonPoint, Site};
+use crate::config::{self, Layer, Named};
 use crate::error::{Location, Result, RungError};
 use crate::io::atomic::save_with_backup;
 use serde::Deserialize;
 use std::path::{Path, PathBuf};
 
 /// The built-in catalogue (config/sites.toml), compiled in so rung works anywhere.
-pub const BUILTIN_SITES: &str = include_str!("../../config/sites.toml");
+pub const BUILTIN_SITES: &str = config::SITES.builtin;
 
 #[derive(Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -34,88 +35,69 @@ struct SiteFile {
 }
 
 /// The user's config folder for rung (`$RUNG_CONFIG_DIR` overrides it).
-pub fn user_config_dir() -> Option<PathBuf> {
-    if let Ok(d) = std::env::var("RUNG_CONFIG_DIR") {
-        return Some(PathBuf::from(d));
+pub use crate::config::user_config_dir;
+
+impl Named for Site {
+    fn name(&self) -> &str {
+        &self.name
     }
-    directories::ProjectDirs::from("org", "rung", "rung").map(|p| p.config_dir().to_path_buf())
 }
 
-/// Parse a sites TOML text. `file` names it in errors.
+/// Parse a sites TOML text. `file` names it in errors (file, line and field;
+/// a name given twice in one file is refused).
 pub fn parse_sites(text: &str, file: &Path) -> Result<Vec<Site>> {
-    let f: SiteFile = toml::from_str(text).map_err(|e| RungError::InFile {
-        loc: Location {
-            file: Some(file.to_path_buf()),
-            line: e.span().map(|s| crate::error::line_at(text, s.start)),
-            field: None,
-        },
-        msg: e.message().to_string(),
-    })?;
-    let header_lines = crate::io::targets::array_table_lines(text, "site", f.site.len());
-    let mut out = Vec::new();
-    for (i, r) in f.site.into_iter().enumerate() {
-        let at = |field: &str, msg: String| RungError::InFile {
-            loc: Location {
-                file: Some(file.to_path_buf()),
-                line: header_lines.get(i).copied().filter(|l| *l > 0),
-                field: Some(field.to_string()),
-            },
-            msg,
-        };
-        let tz = r.timezone.parse::<chrono_tz::Tz>().map_err(|_| {
-            at(
-                "timezone",
-                format!("'{}' is not an IANA time zone", r.timezone),
-            )
-        })?;
-        let _ = r.description;
-        let site = Site {
-            name: r.name.clone(),
-            lat_deg: r.lat_deg,
-            lon_deg: r.lon_deg,
-            elev_m: r.elev_m,
-            timezone: tz,
-            pressure_hpa: r.pressure_hpa,
-            temperature_c: r.temperature_c.unwrap_or(10.0),
-            humidity: r.humidity.unwrap_or(0.5),
-            horizon: r
-                .horizon
-                .unwrap_or_default()
-                .into_iter()
-                .map(|[az_deg, alt_deg]| HorizonPoint { az_deg, alt_deg })
-                .collect(),
-            sun_avoid_deg: r.sun_avoid_deg.unwrap_or(DEFAULT_SUN_AVOID_DEG),
-        };
-        let site = site.validated().map_err(|e| match e {
-            // Name the key as it is written in the file.
-            RungError::Invalid { what, why } => at(
-                match what.as_str() {
-                    "latitude" => "lat_deg",
-                    "longitude" => "lon_deg",
-                    "elevation" => "elev_m",
-                    w => w,
-                },
-                why,
-            ),
-            other => other,
-        })?;
-        out.push(site);
-    }
-    Ok(out)
+    let layer = Layer::new(text, file);
+    let f: SiteFile = config::parse(&layer)?;
+    config::entries(&layer, "site", f.site, site_from_row)
 }
 
-/// Every known site: built-in first, then the user's file (which may override by name).
-pub fn catalogue() -> Result<Vec<Site>> {
-    let mut all = parse_sites(BUILTIN_SITES, Path::new("config/sites.toml"))?;
-    if let Some(dir) = user_config_dir() {
-        let p = dir.join("sites.toml");
-        if p.exists() {
-            let text = std::fs::read_to_string(&p).map_err(|e| RungError::io(&p, e))?;
-            for s in parse_sites(&text, &p)? {
-                all.retain(|x| x.name != s.name);
-                all.push(s);
+fn site_from_row(r: SiteRow) -> Result<Site> {
+    let tz = r.timezone.parse::<chrono_tz::Tz>().map_err(|_| {
+        RungError::invalid(
+            "timezone",
+            format!("'{}' is not an IANA time zone", r.timezone),
+        )
+    })?;
+    let _ = r.description;
+    let site = Site {
+        name: r.name.clone(),
+        lat_deg: r.lat_deg,
+        lon_deg: r.lon_deg,
+        elev_m: r.elev_m,
+        timezone: tz,
+        pressure_hpa: r.pressure_hpa,
+        temperature_c: r.temperature_c.unwrap_or(10.0),
+        humidity: r.humidity.unwrap_or(0.5),
+        horizon: r
+            .horizon
+            .unwrap_or_default()
+            .into_iter()
+            .map(|[az_deg, alt_deg]| HorizonPoint { az_deg, alt_deg })
+            .collect(),
+        sun_avoid_deg: r.sun_avoid_deg.unwrap_or(DEFAULT_SUN_AVOID_DEG),
+    };
+    site.validated().map_err(|e| match e {
+        // Name the key as it is written in the file.
+        RungError::Invalid { what, why } => RungError::Invalid {
+            what: match what.as_str() {
+                "latitude" => "lat_deg",
+                "longitude" => "lon_deg",
+                "elevation" => "elev_m",
+                w => w,
             }
-        }
+            .to_string(),
+            why,
+        },
+        other => other,
+    })
+}
+
+/// Every known site: built-in (`config/sites.toml`) with the user's
+/// `sites.toml` merged over it by name ([`config::merge_by_name`]).
+pub fn catalogue() -> Result<Vec<Site>> {
+    let mut all = Vec::new();
+    for l in config::SITES.layers(None)? {
+        config::merge_by_name(&mut all, parse_sites(&l.text, &l.file)?);
     }
     Ok(all)
 }
@@ -268,17 +250,13 @@ pub fn resolve(spec: &str) -> Result<Site> {
         return Site::new("inline", lat, lon, elev, tz);
     }
     let all = catalogue()?;
-    all.iter()
-        .find(|s| s.name.eq_ignore_ascii_case(spec.trim()))
-        .cloned()
-        .ok_or_else(|| RungError::Unknown {
-            what: "site".into(),
-            name: spec.to_string(),
-            hint: format!(
-                "; known sites: {}; or give LAT,LON,ELEV_M (degrees, east-positive longitude, metres)",
-                all.iter().map(|s| s.name.as_str()).collect::<Vec<_>>().join(", ")
-            ),
-        })
+    config::find(
+        &all,
+        "site",
+        spec,
+        "; or give LAT,LON,ELEV_M (degrees, east-positive longitude, metres)",
+    )
+    .cloned()
 }
 
 #[cfg(test)]
@@ -317,7 +295,7 @@ mod tests {
         let t = "[[site]]\nname = \"a\"\nlat_deg = 10\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n\n[[site]]\nname = \"b\"\nlat_deg = 95\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n";
         let e = parse_sites(t, Path::new("s.toml")).unwrap_err().to_string();
         assert!(
-            e.contains("s.toml") && e.contains("line 8") && e.contains("field 'lat_deg'"),
+            e.contains("s.toml") && e.contains("line 10") && e.contains("field 'lat_deg'"),
             "{e}"
         );
     }

@@ -32,7 +32,8 @@ use crate::astro::airmass::{altitude_for_airmass_deg, kasten_young};
 use crate::astro::frames::{CatalogPlace, Context};
 use crate::astro::night::{Limits, Night};
 use crate::astro::time::Instant;
-use crate::error::{Location, Result, RungError};
+use crate::config::{self, Layer};
+use crate::error::{Result, RungError};
 use crate::io::targets::{Kind, Target};
 use crate::ladder::{Epoch, ExposureModel, Method, Prediction, Setting, Verdict};
 use chrono::NaiveDate;
@@ -41,7 +42,7 @@ use std::collections::HashMap;
 use std::path::Path;
 
 /// The built-in defaults, `config/parallax.toml`.
-pub const DEFAULT_CONFIG: &str = include_str!("../../config/parallax.toml");
+pub const DEFAULT_CONFIG: &str = config::PARALLAX.builtin;
 
 /// Milliarcseconds per radian.
 pub const MAS_PER_RAD: f64 = 180.0 / std::f64::consts::PI * 3_600_000.0;
@@ -137,41 +138,23 @@ pub struct ParallaxConfig {
     pub goal_snr_steps: Vec<f64>,
 }
 
-fn toml_line(text: &str, e: &toml::de::Error) -> Option<usize> {
-    e.span()
-        .map(|s| text[..s.start.min(text.len())].matches('\n').count() + 1)
-}
-
 impl ParallaxConfig {
-    /// The built-in defaults.
+    /// The built-in defaults (`config/parallax.toml`).
     pub fn builtin() -> Result<Self> {
-        Self::from_toml(DEFAULT_CONFIG, Path::new("config/parallax.toml"))
+        config::merged(&[config::PARALLAX.builtin_layer()], Self::validated)
     }
 
-    /// Parse and check a configuration; errors name the file, line and key.
+    /// The built-in defaults with the user's `parallax.toml` (user config
+    /// folder) and then `extra` (a file named on the command line) merged over
+    /// them key by key; errors name the file, line and key.
+    pub fn load(extra: Option<&Path>) -> Result<Self> {
+        config::merged(&config::PARALLAX.layers(extra)?, Self::validated)
+    }
+
+    /// Parse and check a complete configuration (every key); errors name the
+    /// file, line and key.
     pub fn from_toml(text: &str, file: &Path) -> Result<Self> {
-        let c: ParallaxConfig = toml::from_str(text).map_err(|e| RungError::InFile {
-            loc: Location {
-                file: Some(file.to_path_buf()),
-                line: toml_line(text, &e),
-                field: None,
-            },
-            msg: e.message().to_string(),
-        })?;
-        c.validated().map_err(|e| match e {
-            RungError::Invalid { what, why } => RungError::InFile {
-                loc: Location {
-                    file: Some(file.to_path_buf()),
-                    line: text
-                        .lines()
-                        .position(|l| l.trim_start().starts_with(&what))
-                        .map(|i| i + 1),
-                    field: Some(what),
-                },
-                msg: why,
-            },
-            other => other,
-        })
+        config::merged(&[Layer::new(text, file)], Self::validated)
     }
 
     /// Check every value; the error names the key.
@@ -530,7 +513,7 @@ pub fn solve(obs: &[EpochObs]) -> Result<Solution> {
             }
         }
     }
-    let c = invert_spd(&n).ok_or_else(|| {
+    let c = crate::linalg::spd_inverse_n(&n).map_err(|_| {
         RungError::invalid(
             "epoch list",
             "the epochs cannot separate position, proper motion and parallax (singular normal matrix): spread them over different nights and seasons",
@@ -555,52 +538,6 @@ pub fn solve(obs: &[EpochObs]) -> Result<Solution> {
         n_epochs: obs.len(),
         covariance: c,
     })
-}
-
-/// Inverse of a symmetric positive-definite 5×5 matrix by Cholesky; `None`
-/// when a pivot falls below 1e-12 of its diagonal element (numerically singular).
-#[allow(clippy::needless_range_loop)] // index form mirrors the textbook algorithm
-fn invert_spd(a: &[[f64; 5]; 5]) -> Option<[[f64; 5]; 5]> {
-    let mut l = [[0.0f64; 5]; 5];
-    for i in 0..5 {
-        for j in 0..=i {
-            let mut s = a[i][j];
-            for k in 0..j {
-                s -= l[i][k] * l[j][k];
-            }
-            if i == j {
-                if s.is_nan() || s <= 1e-12 * a[i][i] || !s.is_finite() {
-                    return None;
-                }
-                l[i][i] = s.sqrt();
-            } else {
-                l[i][j] = s / l[j][j];
-            }
-        }
-    }
-    // Inverse of L (lower triangular), then A⁻¹ = L⁻ᵀ L⁻¹.
-    let mut li = [[0.0f64; 5]; 5];
-    for i in 0..5 {
-        li[i][i] = 1.0 / l[i][i];
-        for j in 0..i {
-            let mut s = 0.0;
-            for k in j..i {
-                s -= l[i][k] * li[k][j];
-            }
-            li[i][j] = s / l[i][i];
-        }
-    }
-    let mut inv = [[0.0f64; 5]; 5];
-    for i in 0..5 {
-        for j in 0..5 {
-            let mut s = 0.0;
-            for k in i.max(j)..5 {
-                s += li[k][i] * li[k][j];
-            }
-            inv[i][j] = s;
-        }
-    }
-    Some(inv)
 }
 
 /// An epoch of a parallax plan, with what the fit needs.

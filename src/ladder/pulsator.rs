@@ -18,7 +18,8 @@ use crate::astro::night::{Limits, Night};
 use crate::astro::site::Site;
 use crate::astro::time::{DAY_S, Instant};
 use crate::astro::{pointing, sun_caution};
-use crate::error::{Location, Result, RungError};
+use crate::config::{self, Layer};
+use crate::error::{Result, RungError};
 use crate::io::targets::{Kind, Target};
 use crate::ladder::{Epoch, ExposureModel, Method, Prediction, Setting, Verdict};
 use chrono::NaiveDate;
@@ -28,7 +29,7 @@ use std::f64::consts::{LN_10, PI};
 use std::path::Path;
 
 /// The built-in coefficients and defaults (`config/pulsator.toml`).
-pub const BUILTIN_CONFIG: &str = include_str!("../../config/pulsator.toml");
+pub const BUILTIN_CONFIG: &str = config::PULSATOR.builtin;
 
 /// Magnitude error per unit of inverse signal-to-noise, 2.5/ln 10 = 1.0857
 /// (σ_m ≈ 1.0857/SNR for SNR ≫ 1; Howell, Handbook of CCD Astronomy).
@@ -42,6 +43,7 @@ pub const MAX_RANGE_NIGHTS: i64 = 400;
 
 /// A period–luminosity relation in one band: M = a (log10 P − 1) + b.
 #[derive(Debug, Clone, PartialEq, Deserialize, Serialize)]
+#[serde(deny_unknown_fields)]
 pub struct LeavittLaw {
     /// Slope, mag per dex of period.
     pub a: f64,
@@ -74,6 +76,7 @@ impl LeavittLaw {
 
 /// Defaults of the method (the `[defaults]` table of `config/pulsator.toml`).
 #[derive(Debug, Clone, PartialEq, Deserialize, Serialize)]
+#[serde(deny_unknown_fields)]
 pub struct PulsatorDefaults {
     /// Phase bins of a visit plan.
     pub bins: usize,
@@ -97,6 +100,7 @@ pub struct PulsatorDefaults {
 
 /// The method's configuration: defaults and one Leavitt law per band.
 #[derive(Debug, Clone, PartialEq, Deserialize, Serialize)]
+#[serde(deny_unknown_fields)]
 pub struct PulsatorConfig {
     /// Defaults.
     pub defaults: PulsatorDefaults,
@@ -108,80 +112,33 @@ impl PulsatorConfig {
     /// The built-in configuration.
     pub fn builtin() -> Self {
         // The embedded file is checked by the unit test `builtin_config_parses`.
-        Self::parse(BUILTIN_CONFIG, Path::new("config/pulsator.toml"))
+        config::merged(&[config::PULSATOR.builtin_layer()], Self::validated)
             .unwrap_or_else(|e| panic!("built-in config/pulsator.toml is broken: {e}"))
     }
 
-    /// Parse a configuration text; `file` names it in error messages.
+    /// Parse a complete configuration text; `file` names it in error messages.
     pub fn parse(text: &str, file: &Path) -> Result<Self> {
-        let cfg: PulsatorConfig = toml::from_str(text).map_err(|e| {
-            let line = e.span().map(|s| crate::error::line_at(text, s.start));
-            RungError::InFile {
-                loc: Location {
-                    file: Some(file.to_path_buf()),
-                    line,
-                    field: line.and_then(|l| field_at_line(text, l)),
-                },
-                msg: e.message().to_string(),
-            }
-        })?;
-        cfg.check(file)?;
-        Ok(cfg)
+        config::merged(&[Layer::new(text, file)], Self::validated)
     }
 
     /// The built-in configuration with the user's `pulsator.toml` (user config
     /// folder, `$RUNG_CONFIG_DIR` overrides it) merged over it key by key: a
     /// user file may set only `[defaults] bins = 12`, or add a `[band.B]` table.
     pub fn load() -> Result<Self> {
-        let Some(dir) = crate::io::sites::user_config_dir() else {
-            return Ok(Self::builtin());
-        };
-        let p = dir.join("pulsator.toml");
-        if !p.exists() {
-            return Ok(Self::builtin());
-        }
-        let text = std::fs::read_to_string(&p).map_err(|e| RungError::io(&p, e))?;
-        Self::merged(&text, &p)
+        config::merged(&config::PULSATOR.layers(None)?, Self::validated)
     }
 
     /// The built-in configuration with `text` (the content of `file`) merged over it.
     pub fn merged(text: &str, file: &Path) -> Result<Self> {
-        let in_file = |line: Option<usize>, msg: String| RungError::InFile {
-            loc: Location {
-                file: Some(file.to_path_buf()),
-                line,
-                field: None,
-            },
-            msg,
-        };
-        let user: toml::Table = text.parse().map_err(|e: toml::de::Error| {
-            let line = e.span().map(|s| crate::error::line_at(text, s.start));
-            in_file(line, e.message().to_string())
-        })?;
-        let mut base: toml::Table = BUILTIN_CONFIG
-            .parse()
-            .map_err(|e: toml::de::Error| in_file(None, format!("built-in config: {e}")))?;
-        merge_tables(&mut base, user);
-        let merged = toml::to_string(&base).map_err(|e| in_file(None, e.to_string()))?;
-        // Line numbers of the merged text would not be the user's: drop them.
-        Self::parse(&merged, file).map_err(|e| match e {
-            RungError::InFile { loc, msg } => RungError::InFile {
-                loc: Location { line: None, ..loc },
-                msg,
-            },
-            other => other,
-        })
+        config::merged(
+            &[config::PULSATOR.builtin_layer(), Layer::new(text, file)],
+            Self::validated,
+        )
     }
 
-    fn check(&self, file: &Path) -> Result<()> {
-        let bad = |field: &str, msg: &str| RungError::InFile {
-            loc: Location {
-                file: Some(file.to_path_buf()),
-                line: None,
-                field: Some(field.to_string()),
-            },
-            msg: msg.to_string(),
-        };
+    /// Check every value; a bad one is `RungError::Invalid` naming its dotted key.
+    pub fn validated(self) -> Result<Self> {
+        let bad = |field: &str, msg: &str| RungError::invalid(field, msg);
         let d = &self.defaults;
         if !(2..=200).contains(&d.bins) {
             return Err(bad("defaults.bins", "must be within 2..200"));
@@ -236,7 +193,7 @@ impl PulsatorConfig {
                 ));
             }
         }
-        Ok(())
+        Ok(self)
     }
 
     /// The Leavitt law of a band, or a clear error naming the bands known.
@@ -249,38 +206,6 @@ impl PulsatorConfig {
                 self.band.keys().cloned().collect::<Vec<_>>().join(", ")
             ),
         })
-    }
-}
-
-/// The dotted key (`defaults.bins`) set on 1-based line `line` of a TOML text.
-fn field_at_line(text: &str, line: usize) -> Option<String> {
-    let lines: Vec<&str> = text.lines().collect();
-    let here = lines.get(line.checked_sub(1)?)?;
-    let key = here.split('=').next()?.trim();
-    if key.is_empty() || key.starts_with('[') {
-        return None;
-    }
-    let table = lines[..line - 1]
-        .iter()
-        .rev()
-        .map(|l| l.trim())
-        .find(|l| l.starts_with('[') && l.ends_with(']'))
-        .map(|l| l.trim_matches(|c| c == '[' || c == ']').trim().to_string());
-    Some(match table {
-        Some(t) => format!("{t}.{key}"),
-        None => key.to_string(),
-    })
-}
-
-/// Merge `over` into `base`: tables recursively, other values replaced.
-fn merge_tables(base: &mut toml::Table, over: toml::Table) {
-    for (k, v) in over {
-        match (base.get_mut(&k), v) {
-            (Some(toml::Value::Table(b)), toml::Value::Table(o)) => merge_tables(b, o),
-            (_, v) => {
-                base.insert(k, v);
-            }
-        }
     }
 }
 
@@ -788,45 +713,6 @@ fn dot(a: &[f64], b: &[f64]) -> f64 {
     a.iter().zip(b).map(|(x, y)| x * y).sum()
 }
 
-#[allow(clippy::needless_range_loop)] // index arithmetic is the clearest form here
-/// Inverse of a symmetric positive-definite matrix by Cholesky decomposition;
-/// `None` when it is singular or too ill-conditioned to trust.
-fn spd_inverse(a: &[Vec<f64>]) -> Option<Vec<Vec<f64>>> {
-    let n = a.len();
-    let mut l = vec![vec![0.0; n]; n];
-    let scale = (0..n).map(|i| a[i][i]).fold(0.0f64, f64::max);
-    for i in 0..n {
-        for j in 0..=i {
-            let s: f64 = (0..j).map(|k| l[i][k] * l[j][k]).sum();
-            if i == j {
-                let d = a[i][i] - s;
-                if d.is_nan() || d <= 1e-10 * scale {
-                    return None;
-                }
-                l[i][i] = d.sqrt();
-            } else {
-                l[i][j] = (a[i][j] - s) / l[j][j];
-            }
-        }
-    }
-    // Inverse of L (lower triangular), then A⁻¹ = L⁻ᵀ L⁻¹.
-    let mut li = vec![vec![0.0; n]; n];
-    for i in 0..n {
-        li[i][i] = 1.0 / l[i][i];
-        for j in 0..i {
-            let s: f64 = (j..i).map(|k| l[i][k] * li[k][j]).sum();
-            li[i][j] = -s / l[i][i];
-        }
-    }
-    let mut inv = vec![vec![0.0; n]; n];
-    for i in 0..n {
-        for j in 0..n {
-            inv[i][j] = (i.max(j)..n).map(|k| li[k][i] * li[k][j]).sum();
-        }
-    }
-    Some(inv)
-}
-
 fn check_points(phases: &[f64], sigmas: &[f64], k: usize) -> Result<()> {
     if phases.len() != sigmas.len() {
         return Err(RungError::invalid(
@@ -875,7 +761,7 @@ fn normal_matrix(phases: &[f64], sigmas: &[f64], k: usize) -> Result<Vec<Vec<f64
             }
         }
     }
-    spd_inverse(&a).ok_or_else(|| {
+    crate::linalg::spd_inverse(&a).map_err(|_| {
         RungError::invalid(
             "phase coverage",
             format!(
@@ -1592,16 +1478,5 @@ mod tests {
             .unwrap_err()
             .to_string();
         assert!(e.contains("user.toml") && e.contains("bins"), "{e}");
-    }
-
-    #[test]
-    fn spd_inverse_of_known_matrix() {
-        let a = vec![vec![4.0, 2.0], vec![2.0, 3.0]];
-        let i = spd_inverse(&a).unwrap();
-        // (1/8) [[3, -2], [-2, 4]]
-        assert!((i[0][0] - 0.375).abs() < 1e-12);
-        assert!((i[0][1] + 0.25).abs() < 1e-12);
-        assert!((i[1][1] - 0.5).abs() < 1e-12);
-        assert!(spd_inverse(&[vec![1.0, 1.0], vec![1.0, 1.0]]).is_none());
     }
 }

@@ -18,7 +18,8 @@ use crate::astro::night::{Limits, Night};
 use crate::astro::site::Site;
 use crate::astro::time::Instant;
 use crate::astro::{pointing, sun_caution};
-use crate::error::{Location, Result, RungError};
+use crate::config::{self, Layer};
+use crate::error::{Result, RungError};
 use crate::io::targets::{BANDS, Kind, Target};
 use crate::ladder::{Epoch, ExposureModel, Method, Prediction, Setting, Verdict};
 use chrono::{Duration, NaiveDate};
@@ -27,7 +28,7 @@ use std::f64::consts::LN_10;
 use std::path::Path;
 
 /// The default coefficients, `config/transient.toml`, compiled in.
-pub const DEFAULT_CONFIG_TOML: &str = include_str!("../../config/transient.toml");
+pub const DEFAULT_CONFIG_TOML: &str = config::TRANSIENT.builtin;
 
 /// Speed of light, km/s (SI definition).
 pub const C_KM_S: f64 = 299_792.458;
@@ -142,27 +143,25 @@ pub struct TransientConfig {
 impl TransientConfig {
     /// The compiled-in `config/transient.toml`.
     pub fn embedded() -> Result<Self> {
-        Self::parse(DEFAULT_CONFIG_TOML, Path::new("config/transient.toml"))
+        config::merged(&[config::TRANSIENT.builtin_layer()], Self::validated)
     }
 
-    /// Parse and check a transient configuration; `file` names it in errors.
+    /// The built-in coefficients with the user's `transient.toml` (user config
+    /// folder) and then `extra` (a file named on the command line) merged over
+    /// them key by key; errors name the file, line and key.
+    pub fn load(extra: Option<&Path>) -> Result<Self> {
+        config::merged(&config::TRANSIENT.layers(extra)?, Self::validated)
+    }
+
+    /// Parse and check a complete transient configuration; `file` names it in errors.
     pub fn parse(text: &str, file: &Path) -> Result<Self> {
-        let c: TransientConfig = toml::from_str(text).map_err(|e| RungError::InFile {
-            loc: Location {
-                file: Some(file.to_path_buf()),
-                line: e.span().map(|s| crate::error::line_at(text, s.start)),
-                field: None,
-            },
-            msg: e.message().to_string(),
-        })?;
-        let bad = |field: &str, why: &str| RungError::InFile {
-            loc: Location {
-                file: Some(file.to_path_buf()),
-                line: None,
-                field: Some(field.to_string()),
-            },
-            msg: why.to_string(),
-        };
+        config::merged(&[Layer::new(text, file)], Self::validated)
+    }
+
+    /// Check every value; a bad one is `RungError::Invalid` naming its dotted key.
+    pub fn validated(self) -> Result<Self> {
+        let c = self;
+        let bad = |field: &str, why: &str| RungError::invalid(field, why);
         let s = &c.standardization;
         if !BANDS.contains(&s.band.as_str()) {
             return Err(bad("standardization.band", "must be one of U, B, V, R, I"));
@@ -415,37 +414,6 @@ pub fn curve_gradient(
     Some(g)
 }
 
-/// Inverse of a symmetric 3×3 matrix, `None` when it is singular or badly
-/// conditioned (determinant below 1e-12 of the product of the diagonal).
-pub fn invert3(m: &[[f64; 3]; 3]) -> Option<[[f64; 3]; 3]> {
-    let c00 = m[1][1] * m[2][2] - m[1][2] * m[2][1];
-    let c01 = m[1][2] * m[2][0] - m[1][0] * m[2][2];
-    let c02 = m[1][0] * m[2][1] - m[1][1] * m[2][0];
-    let det = m[0][0] * c00 + m[0][1] * c01 + m[0][2] * c02;
-    let scale = (m[0][0] * m[1][1] * m[2][2]).abs();
-    if !det.is_finite() || scale == 0.0 || det.abs() <= 1e-12 * scale {
-        return None;
-    }
-    let inv = [
-        [
-            c00 / det,
-            (m[0][2] * m[2][1] - m[0][1] * m[2][2]) / det,
-            (m[0][1] * m[1][2] - m[0][2] * m[1][1]) / det,
-        ],
-        [
-            c01 / det,
-            (m[0][0] * m[2][2] - m[0][2] * m[2][0]) / det,
-            (m[0][2] * m[1][0] - m[0][0] * m[1][2]) / det,
-        ],
-        [
-            c02 / det,
-            (m[0][1] * m[2][0] - m[0][0] * m[2][1]) / det,
-            (m[0][0] * m[1][1] - m[0][1] * m[1][0]) / det,
-        ],
-    ];
-    Some(inv)
-}
-
 /// Precision of the light-curve parameters from a set of epochs.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct FitPrecision {
@@ -492,7 +460,7 @@ pub fn fisher_precision(
     if n < 3 {
         return None;
     }
-    let c = invert3(&f)?;
+    let c = crate::linalg::spd_inverse_n(&f).ok()?;
     if c[0][0] <= 0.0 || c[1][1] <= 0.0 || c[2][2] <= 0.0 {
         return None;
     }

@@ -1,14 +1,14 @@
 //! Instrument profiles: `config/instruments.toml` (built in) and the user's own
 //! `instruments.toml` in the user config folder, resolved by name like sites.
 
-use crate::error::{Location, Result, RungError};
-use crate::io::sites::user_config_dir;
+use crate::config::{self, Layer, Named};
+use crate::error::{Result, RungError};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 use std::path::Path;
 
 /// The built-in instrument catalogue (config/instruments.toml), compiled in.
-pub const BUILTIN_INSTRUMENTS: &str = include_str!("../../config/instruments.toml");
+pub const BUILTIN_INSTRUMENTS: &str = config::INSTRUMENTS.builtin;
 
 /// The demo instrument's catalogue name (invented 1.0 m telescope with a CCD).
 pub const DEMO_INSTRUMENT: &str = "lucero-1m";
@@ -185,76 +185,43 @@ struct InstrumentFile {
     instrument: Vec<Instrument>,
 }
 
-/// Parse an instruments TOML text; `file` names it in errors (with the line of
-/// the offending `[[instrument]]` table and the field).
-pub fn parse_instruments(text: &str, file: &Path) -> Result<Vec<Instrument>> {
-    let f: InstrumentFile = toml::from_str(text).map_err(|e| RungError::InFile {
-        loc: Location {
-            file: Some(file.to_path_buf()),
-            line: e.span().map(|s| crate::error::line_at(text, s.start)),
-            field: None,
-        },
-        msg: e.message().to_string(),
-    })?;
-    let header_lines: Vec<usize> = text
-        .lines()
-        .enumerate()
-        .filter(|(_, l)| l.trim_start().starts_with("[[instrument]]"))
-        .map(|(i, _)| i + 1)
-        .collect();
-    let mut out = Vec::new();
-    for (i, ins) in f.instrument.into_iter().enumerate() {
-        let name = ins.name.clone();
-        let ins = ins.validated().map_err(|e| match e {
-            RungError::Invalid { what, why } => RungError::InFile {
-                loc: Location {
-                    file: Some(file.to_path_buf()),
-                    line: header_lines.get(i).copied(),
-                    field: Some(what),
-                },
-                msg: format!("instrument {name}: {why}"),
-            },
-            other => other,
-        })?;
-        out.push(ins);
+impl Named for Instrument {
+    fn name(&self) -> &str {
+        &self.name
     }
-    Ok(out)
 }
 
-/// Every known instrument: built-in first, then the user's file (which may
-/// replace one by name).
+/// Parse an instruments TOML text; `file` names it in errors (with the line of
+/// the offending key and the field; a name given twice in one file is refused).
+pub fn parse_instruments(text: &str, file: &Path) -> Result<Vec<Instrument>> {
+    let layer = Layer::new(text, file);
+    let f: InstrumentFile = config::parse(&layer)?;
+    config::entries(&layer, "instrument", f.instrument, |ins| {
+        let name = ins.name.clone();
+        ins.validated().map_err(|e| match e {
+            RungError::Invalid { what, why } => RungError::Invalid {
+                what,
+                why: format!("instrument {name}: {why}"),
+            },
+            other => other,
+        })
+    })
+}
+
+/// Every known instrument: built-in (`config/instruments.toml`) with the
+/// user's `instruments.toml` merged over it by name.
 pub fn catalogue() -> Result<Vec<Instrument>> {
-    let mut all = parse_instruments(BUILTIN_INSTRUMENTS, Path::new("config/instruments.toml"))?;
-    if let Some(dir) = user_config_dir() {
-        let p = dir.join("instruments.toml");
-        if p.exists() {
-            let text = std::fs::read_to_string(&p).map_err(|e| RungError::io(&p, e))?;
-            for s in parse_instruments(&text, &p)? {
-                all.retain(|x| !x.name.eq_ignore_ascii_case(&s.name));
-                all.push(s);
-            }
-        }
+    let mut all = Vec::new();
+    for l in config::INSTRUMENTS.layers(None)? {
+        config::merge_by_name(&mut all, parse_instruments(&l.text, &l.file)?);
     }
     Ok(all)
 }
 
-/// An instrument by catalogue name (case-insensitive).
+/// An instrument by catalogue name (exact, then without regard to case).
 pub fn resolve(name: &str) -> Result<Instrument> {
     let all = catalogue()?;
-    all.iter()
-        .find(|s| s.name.eq_ignore_ascii_case(name.trim()))
-        .cloned()
-        .ok_or_else(|| RungError::Unknown {
-            what: "instrument".into(),
-            name: name.to_string(),
-            hint: format!(
-                "; known instruments: {}",
-                all.iter()
-                    .map(|s| s.name.as_str())
-                    .collect::<Vec<_>>()
-                    .join(", ")
-            ),
-        })
+    config::find(&all, "instrument", name, "").cloned()
 }
 
 /// The demo instrument (from the built-in catalogue, or the user's replacement).
@@ -289,10 +256,25 @@ mod tests {
         assert!(e.contains("i.toml") && e.contains("read_noise_e"), "{e}");
         let line = t
             .lines()
-            .position(|l| l.starts_with("[[instrument]]"))
+            .position(|l| l.starts_with("read_noise_e = -6.0"))
             .unwrap()
             + 1;
         assert!(e.contains(&format!("line {line}")), "{e}");
+    }
+
+    #[test]
+    fn one_name_twice_in_a_file_is_refused() {
+        let twice = format!(
+            "{BUILTIN_INSTRUMENTS}\n{}",
+            &BUILTIN_INSTRUMENTS[BUILTIN_INSTRUMENTS.find("[[instrument]]").unwrap()..]
+        );
+        let e = parse_instruments(&twice, Path::new("i.toml"))
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("i.toml") && e.contains("field 'name'") && e.contains("named twice"),
+            "{e}"
+        );
     }
 
     #[test]

@@ -1,13 +1,13 @@
 //! Photometric bands and their sky coefficients: `config/bands.toml` (built
 //! in) and the user's own `bands.toml` in the user config folder.
 
-use crate::error::{Location, Result, RungError};
-use crate::io::sites::user_config_dir;
+use crate::config::{self, Layer, Named};
+use crate::error::{Result, RungError};
 use serde::Deserialize;
 use std::path::Path;
 
 /// The built-in band table (config/bands.toml), compiled in.
-pub const BUILTIN_BANDS: &str = include_str!("../../config/bands.toml");
+pub const BUILTIN_BANDS: &str = config::BANDS.builtin;
 
 /// Planck constant, erg s (CODATA 2018, exact in SI).
 pub const H_CGS: f64 = 6.626_070_15e-27;
@@ -125,33 +125,21 @@ pub struct BandSet {
     pub twilight: TwilightModel,
 }
 
-fn parse_file(text: &str, file: &Path) -> Result<BandFile> {
-    let f: BandFile = toml::from_str(text).map_err(|e| RungError::InFile {
-        loc: Location {
-            file: Some(file.to_path_buf()),
-            line: e.span().map(|s| crate::error::line_at(text, s.start)),
-            field: None,
-        },
-        msg: e.message().to_string(),
-    })?;
-    let header_lines: Vec<usize> = text
-        .lines()
-        .enumerate()
-        .filter(|(_, l)| l.trim_start().starts_with("[[band]]"))
-        .map(|(i, _)| i + 1)
-        .collect();
-    for (i, b) in f.band.iter().enumerate() {
-        if let Err((field, msg)) = b.check() {
-            return Err(RungError::InFile {
-                loc: Location {
-                    file: Some(file.to_path_buf()),
-                    line: header_lines.get(i).copied(),
-                    field: Some(field.to_string()),
-                },
-                msg: format!("band {}: {msg}", b.name),
-            });
-        }
+impl Named for Band {
+    fn name(&self) -> &str {
+        &self.name
     }
+}
+
+/// The bands of one file (checked, a name given twice refused) and its
+/// `[twilight]` table, if any; errors name the file, line and field.
+fn parse_file(text: &str, file: &Path) -> Result<(Vec<Band>, Option<TwilightModel>)> {
+    let layer = Layer::new(text, file);
+    let f: BandFile = config::parse(&layer)?;
+    let bands = config::entries(&layer, "band", f.band, |b| match b.check() {
+        Ok(()) => Ok(b),
+        Err((field, msg)) => Err(RungError::invalid(field, format!("band {}: {msg}", b.name))),
+    })?;
     if let Some(t) = &f.twilight {
         let ok = [
             t.ref_sun_alt_deg,
@@ -165,65 +153,41 @@ fn parse_file(text: &str, file: &Path) -> Result<BandFile> {
             && t.slope_mag_per_deg > 0.0
             && t.dark_sun_alt_deg < t.model_top_sun_alt_deg;
         if !ok {
-            let line = text
-                .lines()
-                .position(|l| l.trim_start().starts_with("[twilight]"))
-                .map(|i| i + 1);
-            return Err(RungError::InFile {
-                loc: Location {
-                    file: Some(file.to_path_buf()),
-                    line,
-                    field: Some("twilight".into()),
-                },
-                msg: "twilight needs finite values, slope_mag_per_deg > 0 and dark_sun_alt_deg < model_top_sun_alt_deg".into(),
-            });
+            return Err(layer.error_at(
+                "twilight",
+                "twilight needs finite values, slope_mag_per_deg > 0 and dark_sun_alt_deg < model_top_sun_alt_deg",
+            ));
         }
     }
-    Ok(f)
+    Ok((bands, f.twilight))
 }
 
 impl BandSet {
     /// Parse a complete band table (it must have a `[twilight]` table).
     pub fn parse(text: &str, file: &Path) -> Result<Self> {
-        let f = parse_file(text, file)?;
-        let twilight = f.twilight.ok_or_else(|| RungError::InFile {
-            loc: Location {
-                file: Some(file.to_path_buf()),
-                line: None,
-                field: Some("twilight".into()),
-            },
-            msg: "missing [twilight] table".into(),
-        })?;
-        if f.band.is_empty() {
-            return Err(RungError::InFile {
-                loc: Location {
-                    file: Some(file.to_path_buf()),
-                    line: None,
-                    field: Some("band".into()),
-                },
-                msg: "no [[band]] tables".into(),
-            });
+        let (bands, twilight) = parse_file(text, file)?;
+        let layer = Layer::new(text, file);
+        let twilight =
+            twilight.ok_or_else(|| layer.error_at("twilight", "missing [twilight] table"))?;
+        if bands.is_empty() {
+            return Err(layer.error_at("band", "no [[band]] tables"));
         }
-        Ok(BandSet {
-            bands: f.band,
-            twilight,
-        })
+        Ok(BandSet { bands, twilight })
     }
 
     /// The built-in table (config/bands.toml).
     pub fn builtin() -> Result<Self> {
-        Self::parse(BUILTIN_BANDS, Path::new("config/bands.toml"))
+        let l = config::BANDS.builtin_layer();
+        Self::parse(&l.text, &l.file)
     }
 
-    /// Merge a user file over this set: bands with the same name are replaced,
-    /// new ones appended, and its `[twilight]` table (if any) replaces ours.
+    /// Merge a user file over this set: bands merge by name
+    /// ([`config::merge_by_name`]), and its `[twilight]` table (if any)
+    /// replaces ours.
     pub fn merge_text(&mut self, text: &str, file: &Path) -> Result<()> {
-        let f = parse_file(text, file)?;
-        for b in f.band {
-            self.bands.retain(|x| !x.name.eq_ignore_ascii_case(&b.name));
-            self.bands.push(b);
-        }
-        if let Some(t) = f.twilight {
+        let (bands, twilight) = parse_file(text, file)?;
+        config::merge_by_name(&mut self.bands, bands);
+        if let Some(t) = twilight {
             self.twilight = t;
         }
         Ok(())
@@ -232,12 +196,8 @@ impl BandSet {
     /// The built-in table with the user's `bands.toml` (user config folder) merged over it.
     pub fn load() -> Result<Self> {
         let mut s = Self::builtin()?;
-        if let Some(dir) = user_config_dir() {
-            let p = dir.join("bands.toml");
-            if p.exists() {
-                let text = std::fs::read_to_string(&p).map_err(|e| RungError::io(&p, e))?;
-                s.merge_text(&text, &p)?;
-            }
+        if let Some(u) = config::BANDS.user_layer()? {
+            s.merge_text(&u.text, &u.file)?;
         }
         Ok(s)
     }
@@ -245,23 +205,7 @@ impl BandSet {
     /// A band by name (case-sensitive first, then case-insensitive), or an
     /// `Unknown band` error listing the known ones.
     pub fn get(&self, name: &str) -> Result<&Band> {
-        let n = name.trim();
-        self.bands
-            .iter()
-            .find(|b| b.name == n)
-            .or_else(|| self.bands.iter().find(|b| b.name.eq_ignore_ascii_case(n)))
-            .ok_or_else(|| RungError::Unknown {
-                what: "band".into(),
-                name: name.to_string(),
-                hint: format!(
-                    "; known bands: {}",
-                    self.bands
-                        .iter()
-                        .map(|b| b.name.as_str())
-                        .collect::<Vec<_>>()
-                        .join(", ")
-                ),
-            })
+        config::find(&self.bands, "band", name, "")
     }
 }
 
@@ -289,7 +233,7 @@ mod tests {
             .unwrap_err()
             .to_string();
         assert!(
-            e.contains("u.toml") && e.contains("line 1") && e.contains("bandwidth_angstrom"),
+            e.contains("u.toml") && e.contains("line 4") && e.contains("bandwidth_angstrom"),
             "{e}"
         );
     }
@@ -301,5 +245,7 @@ mod tests {
         s.merge_text(t, Path::new("u.toml")).unwrap();
         assert_eq!(s.get("V").unwrap().dark_sky_zenith_mag_arcsec2, 21.0);
         assert_eq!(s.bands.len(), 5);
+        // Merged in place: V keeps its place in the table.
+        assert_eq!(s.bands[2].name, "V");
     }
 }
