@@ -1,7 +1,8 @@
 //! The error budget every distance method reports by term (the shared
 //! `Prediction::error_terms` face) adds up, in quadrature, to the precision
 //! the method states: σ_d/d = (ln 10 / 5) σ_μ (docs/science.md, Distances).
-//! One demo target of each method, each on the epochs its method proposes.
+//! One demo target of each method, each on the epochs its method proposes;
+//! each epoch names the band it exposes in.
 
 use rung::astro::night::Limits;
 use rung::io::sites;
@@ -50,6 +51,13 @@ fn each_methods_terms_add_up_to_its_precision() {
             limits: Limits::new(30.0, -12.0).unwrap(),
         };
         let epochs = m.propose(&s, &em).unwrap();
+        // Every epoch says which band it exposes in (the face's BandExposure).
+        for e in &epochs {
+            assert_eq!(e.exposures.len(), 1, "{name}: {e:?}");
+            let b = &e.exposures[0];
+            assert_eq!(b.band, t.band, "{name}");
+            assert!((b.exptime_s - e.exptime_s).abs() < 1e-9 && b.n_exposures == e.n_exposures);
+        }
         let p = m.predict(&s, &em, &epochs).unwrap();
         assert!(p.distance_precision_pct.is_finite(), "{name}: {p:?}");
         assert!(!p.error_terms.is_empty(), "{name}: no error terms");

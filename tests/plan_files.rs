@@ -113,6 +113,7 @@ fn replanned_visits_never_reuse_an_id() {
         airmass: 1.1,
         status,
         cautions: vec![],
+        exposures: vec![],
     };
     let mut p = plan_for(&ts);
     p.visits = vec![

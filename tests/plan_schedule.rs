@@ -65,6 +65,7 @@ impl Method for EveryNights {
                     snr: 100.0,
                     airmass: 1.2,
                     visit_s: self.visit_s,
+                    exposures: rung::ladder::BandExposure::single("V", 300.0, 1, 100.0),
                 });
             }
         }

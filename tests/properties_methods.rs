@@ -6,6 +6,7 @@
 use proptest::prelude::*;
 use rung::astro::bary::Bjd;
 use rung::astro::time::Instant;
+use rung::ladder::BandExposure;
 use rung::ladder::parallax::{EpochObs, parallax_factors_at, solve};
 use rung::ladder::pulsator::{Ephemeris, frac_phase, mean_mag_sigma};
 
@@ -116,6 +117,7 @@ fn sn_pct(t: &Target, dm15: f64, days: &[f64], snr: &[f64]) -> Result<f64, RungE
             snr: *s,
             airmass: 1.2,
             visit_s: 240.0,
+            exposures: BandExposure::single("B", 60.0, 1, *s),
         })
         .collect();
     let s = chase_setting(&site, t, 60, default_limits());

@@ -66,7 +66,26 @@ pub struct Setting<'a> {
     pub limits: Limits,
 }
 
+/// The exposure in one band within a visit.
+#[derive(Debug, Clone, PartialEq, Serialize, serde::Deserialize)]
+pub struct BandExposure {
+    /// Photometric band (a name from the band catalogue, e.g. "V").
+    pub band: String,
+    /// Total exposure in this band, seconds.
+    pub exptime_s: f64,
+    /// Number of sub-exposures (frames) in this band.
+    pub n_exposures: u32,
+    /// Expected signal-to-noise in this band.
+    pub snr: f64,
+}
+
 /// One planned or actual observation of a target.
+///
+/// A visit may expose in several bands (a colour for a supernova, V and I for
+/// a reddening-free index): `exposures` lists them in the order taken, the
+/// first being the method's primary band; `exptime_s` and `n_exposures` are
+/// their totals and `snr` is the primary band's. `visit_s` includes every
+/// overhead (acquisition, readouts, filter changes).
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Epoch {
     /// Mid-exposure instant.
@@ -81,6 +100,20 @@ pub struct Epoch {
     pub airmass: f64,
     /// Time the visit takes with overheads, seconds.
     pub visit_s: f64,
+    /// The exposure in each band, primary band first.
+    pub exposures: Vec<BandExposure>,
+}
+
+impl BandExposure {
+    /// The one band of a single-band visit.
+    pub fn single(band: &str, exptime_s: f64, n_exposures: u32, snr: f64) -> Vec<BandExposure> {
+        vec![BandExposure {
+            band: band.to_string(),
+            exptime_s,
+            n_exposures,
+            snr,
+        }]
+    }
 }
 
 /// How a distance goal stands for a target.

@@ -883,6 +883,12 @@ impl ParallaxMethod {
                 snr: got,
                 airmass: x,
                 visit_s,
+                exposures: crate::ladder::BandExposure::single(
+                    &s.target.band,
+                    exptime_s,
+                    n_exp,
+                    got,
+                ),
             },
             pf_ra,
             pf_dec,

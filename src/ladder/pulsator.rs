@@ -995,6 +995,7 @@ fn epoch_at(
             snr: got,
             airmass: p.airmass.unwrap_or(f64::NAN),
             visit_s,
+            exposures: super::BandExposure::single(&star.band, exptime_s, n_exposures, got),
         },
         caution,
     ))

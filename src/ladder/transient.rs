@@ -1074,6 +1074,7 @@ impl TransientMethod {
 
     /// Epochs of the usable nights at `idx`.
     fn epochs_of(&self, nights: &[ChaseNight], idx: &[usize], snr: f64) -> Vec<Epoch> {
+        let band = &self.cfg.standardization.band;
         idx.iter()
             .filter_map(|i| {
                 let n = &nights[*i];
@@ -1084,6 +1085,12 @@ impl TransientMethod {
                     snr,
                     airmass: n.best_airmass.unwrap_or(f64::NAN),
                     visit_s: n.visit_s?,
+                    exposures: crate::ladder::BandExposure::single(
+                        band,
+                        n.exptime_s?,
+                        n.n_exposures?,
+                        snr,
+                    ),
                 })
             })
             .collect()

@@ -77,6 +77,10 @@ pub struct Visit {
     pub status: Status,
     /// Sun-proximity and other cautions.
     pub cautions: Vec<String>,
+    /// The exposure in each band, primary band first (absent in plan files
+    /// written before bands were recorded).
+    #[serde(default)]
+    pub exposures: Vec<crate::ladder::BandExposure>,
 }
 
 impl Visit {
@@ -95,6 +99,7 @@ impl Visit {
             snr: self.snr,
             airmass: self.airmass,
             visit_s: self.end.seconds_since(&self.start),
+            exposures: self.exposures.clone(),
         }
     }
 }
@@ -437,6 +442,7 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                     airmass: p.airmass.unwrap_or(f64::NAN),
                     status: Status::Planned,
                     cautions,
+                    exposures: r.epoch.exposures.clone(),
                 });
             }
             None => unplaced.push(Unplaced {
