@@ -45,6 +45,7 @@ fn state(size: (u16, u16)) -> State {
             is_demo: true,
             refused_rows: 0,
             original: None,
+            layout: None,
         },
         size,
         theme: Theme { color: true },

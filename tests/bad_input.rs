@@ -198,7 +198,7 @@ fn targets_csv() {
         (
             "C11",
             "name,ra,dec\n\"A,1,2\n",
-            "t.csv, line 2: row has 1 fields but the header has 3",
+            "t.csv, line 2, field 'name': the quote opening this field is never closed; the lines after it are read as rows of their own",
             0,
         ),
     ] {
@@ -780,4 +780,143 @@ fn user_method_config() {
             f.display()
         ),
     );
+}
+
+// ---------------------------------------------------------------------------
+// Targets files, second round (docs/bad-input.md, rows TF1–TF13): quotes,
+// units in angles, exact names, duplicate columns and fields rung does not read.
+
+/// Problems and warnings of a CSV text, with the targets that loaded.
+fn csv_all(text: &str) -> (Vec<String>, Vec<String>, Vec<rung::io::targets::Target>) {
+    let l = parse_csv(text, Path::new("t.csv"));
+    let s = |v: &[rung::RungError]| v.iter().map(|e| e.to_string()).collect();
+    (s(&l.problems), s(&l.warnings), l.targets)
+}
+
+/// Standard error of one line, without its line end (which must be there).
+fn one_line(e: &str) -> String {
+    assert_eq!(e.matches('\n').count(), 1, "one line: {e}");
+    e.trim_end_matches('\n').to_string()
+}
+
+const NEVER_CLOSED: &str = "the quote opening this field is never closed; the lines after it are read as rows of their own";
+
+#[test]
+fn targets_files_second_round() {
+    let names = |t: &[rung::io::targets::Target]| -> Vec<String> {
+        t.iter().map(|t| t.name.clone()).collect()
+    };
+    // TF1: an unclosed quote in the last column used to swallow every later row.
+    let (p, w, t) = csv_all("name,ra,dec,notes\nA,1,2,\"note\nB,3,4,fine\nC,5,6,\"ok, quoted\"\n");
+    check(
+        "TF1",
+        p.join(" | "),
+        format!("t.csv, line 2, field 'notes': {NEVER_CLOSED}"),
+    );
+    assert!(w.is_empty());
+    assert_eq!(names(&t), ["B", "C"], "TF1: the rows after it load");
+    assert_eq!(t[1].notes, "ok, quoted");
+    // TF2: text after a closing quote.
+    let (p, _, t) = csv_all("name,ra,dec,notes\nA,1,2,\"x\"y\nB,3,4,fine\n");
+    check("TF2", p.join(" | "), "t.csv, line 2, field 'notes': text follows the closing quote of this field (inside quotes, write a quote as \"\")".into());
+    assert_eq!(names(&t), ["B"]);
+    // TF3: an RA with degree marks is degrees, hours marks or colons are hours.
+    let (p, _, t) =
+        csv_all("name,ra,dec\nA,10°30′00″,0\nB,10d30m00s,0\nC,10h30m,0\nD,10:30:00,0\n");
+    assert!(p.is_empty(), "TF3: {p:?}");
+    let ra: Vec<f64> = t.iter().map(|t| t.ra_deg).collect();
+    assert_eq!(ra, [10.5, 10.5, 157.5, 157.5], "TF3");
+    // TF4, TF5: mixed units, a declination in hours.
+    check("TF4", err(parse_ra_deg("10h30′00″")), "cannot read right ascension from '10h30′00″': hours (h) and degrees (°, d, ′, ″) are mixed in one angle; write hours as 10h30m00s or degrees as 157°30′00″".into());
+    check("TF5", err(parse_dec_deg("10h30m")), "cannot read declination from '10h30m': an angle in degrees cannot be written in hours (h); write degrees as -5.39, -5:23:24 or -5°23′24″".into());
+    // TF8: a duplicated column.
+    let (p, _, t) = csv_all("name,ra,dec,ra\nA,1,2,3\n");
+    check("TF8", p.join(" | "), "t.csv, line 1, field 'ra': the header has this column twice (columns 2 and 4): which one to read is unclear, so no row was read".into());
+    assert!(t.is_empty());
+    // TF9: a misspelt TOML key refuses its table, by name and line.
+    let l = parse_toml(
+        "[[target]]\nname = \"A\"\nra = 1\ndec = 2\nkind = \"parallax\"\nparalax_mas = 12\n\n[[target]]\nname = \"B\"\nra = 1\ndec = 2\n",
+        Path::new("t.toml"),
+    );
+    check("TF9", l.problems.iter().map(|e| e.to_string()).collect::<Vec<_>>().join(" | "), "t.toml, line 6, field 'paralax_mas': is not a field rung reads; did you mean 'parallax_mas'?".into());
+    assert_eq!(names(&l.targets), ["B"]);
+    // TF10: a misspelt CSV column refuses the rows that give it a value.
+    let (p, w, t) = csv_all("name,ra,dec,pm_ra_masy\nA,1,2,350\nB,3,4,\n");
+    check(
+        "TF10",
+        p.join(" | "),
+        "t.csv, line 2, field 'pm_ra_masy': is not a field rung reads; did you mean 'pm_ra_masyr'?"
+            .into(),
+    );
+    assert!(w.is_empty());
+    assert_eq!(names(&t), ["B"]);
+    // TF11, TF12: a column or key rung does not read at all is named once, and the rows load.
+    let (p, w, t) = csv_all("name,ra,dec,observer\nA,1,2,ana\nB,3,4,\n");
+    assert!(p.is_empty());
+    check("TF11", w.join(" | "), "t.csv, line 1, field 'observer': is not a field rung reads: its values are ignored (a save from the UI keeps them)".into());
+    assert_eq!(t.len(), 2);
+    let l = parse_toml(
+        "[[target]]\nname = \"A\"\nra = 1\ndec = 2\nobserver = \"ana\"\n",
+        Path::new("t.toml"),
+    );
+    assert!(l.problems.is_empty());
+    check("TF12", l.warnings.iter().map(|e| e.to_string()).collect::<Vec<_>>().join(" | "), "t.toml, line 5, field 'observer': is not a field rung reads: its values are ignored (a save from the UI keeps them)".into());
+    assert_eq!(l.targets.len(), 1);
+}
+
+#[test]
+fn targets_files_second_round_on_the_command_line() {
+    let d = tempfile::tempdir().unwrap();
+    let f = d.path().join("t.csv");
+    let file = f.display().to_string();
+    let at = ["--site", "pampa-lucero", "--at", "2026-12-02T03:00:00Z"];
+    let with = |extra: &[&str]| -> Vec<String> {
+        let mut a: Vec<String> = ["where"].iter().chain(&at).map(|s| s.to_string()).collect();
+        a.extend(["--targets".to_string(), file.clone()]);
+        a.extend(extra.iter().map(|s| s.to_string()));
+        a
+    };
+    let run = |a: &[String]| cli(&a.iter().map(|s| s.as_str()).collect::<Vec<_>>());
+    // TF6: a name that differs only in case is a hint, not a match.
+    std::fs::write(&f, "name,ra,dec\nAlpha,10,-20\n").unwrap();
+    let (code, e) = run(&with(&["--target", "alpha"]));
+    check(
+        "TF6",
+        one_line(&e),
+        format!(
+            "rung: error: {file}: no target named 'alpha'; did you mean 'Alpha'? (names match exactly, case included)"
+        ),
+    );
+    assert_eq!(code, Some(2));
+    // TF7: two names differing only in case: the exact one, or neither.
+    std::fs::write(&f, "name,ra,dec\nAlpha,10,-20\nALPHA,200,-20\n").unwrap();
+    let (code, e) = run(&with(&["--target", "alpha"]));
+    check(
+        "TF7",
+        one_line(&e),
+        format!(
+            "rung: error: {file}: no target named 'alpha'; names match exactly, case included, and 'Alpha' and 'ALPHA' differ from it only in case"
+        ),
+    );
+    assert_eq!(code, Some(2));
+    let (code, e) = run(&with(&["--target", "ALPHA", "--json"]));
+    assert_eq!(
+        (code, e.as_str()),
+        (Some(0), ""),
+        "TF7: the exact name is taken"
+    );
+    // TF13: the unclosed quote of TF1 on the command line: the good rows are
+    // used, the refused row is named, and the exit code is 3.
+    std::fs::write(
+        &f,
+        "name,ra,dec,notes\nA,1,2,\"note\nB,3,4,fine\nC,5,6,ok\n",
+    )
+    .unwrap();
+    let (code, e) = run(&with(&["--target", "C"]));
+    check(
+        "TF13",
+        one_line(&e),
+        format!("rung: warning: {file}, line 2, field 'notes': {NEVER_CLOSED} (row skipped)"),
+    );
+    assert_eq!(code, Some(3));
 }

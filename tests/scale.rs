@@ -66,6 +66,7 @@ fn a_million_rows_stream_with_bounded_memory_and_progress() {
             last = Some(t);
         },
         &mut |p| problems.push(p.to_string()),
+        &mut |w| panic!("no warning expected: {w}"),
         &mut |read, total| progress.push((read, total)),
     )
     .unwrap();

@@ -93,6 +93,7 @@ pub fn setup_with(
             is_demo,
             refused_rows: 0,
             original: if is_demo { None } else { original },
+            layout: None,
         },
         size,
         theme: Theme { color },

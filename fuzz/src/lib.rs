@@ -70,6 +70,10 @@ pub fn targets_csv(data: &[u8]) {
             check_problem(&e);
             assert!(e.to_string().starts_with("fuzz.csv"), "unlocated: {e}");
         },
+        &mut |w| {
+            check_problem(&w);
+            assert!(w.to_string().starts_with("fuzz.csv"), "unlocated: {w}");
+        },
         &mut |read, total| assert!(read <= total),
     );
 }
@@ -83,7 +87,7 @@ pub fn targets_toml(data: &[u8]) {
     for t in &l.targets {
         check_target(t);
     }
-    for e in &l.problems {
+    for e in l.problems.iter().chain(&l.warnings) {
         check_problem(e);
         assert!(e.to_string().starts_with("fuzz.toml"), "unlocated: {e}");
     }

@@ -84,6 +84,9 @@ pub fn load_targets(path: &Path) -> Result<Vec<rung::io::targets::Target>> {
         b.finish_and_clear();
     }
     let l = l?;
+    for w in &l.warnings {
+        eprintln!("rung: warning: {w}");
+    }
     for p in &l.problems {
         eprintln!("rung: warning: {p} (row skipped)");
         SKIPPED_INPUT.store(true, Ordering::Relaxed);
@@ -94,16 +97,15 @@ pub fn load_targets(path: &Path) -> Result<Vec<rung::io::targets::Target>> {
     Ok(l.targets)
 }
 
-/// A target by name (case-insensitive) from `file`, or from the demo
-/// programme when no file is given; the error names the name and the file.
+/// A target by name from `file`, or from the demo programme when no file is
+/// given. The name must match exactly, case included; a name that differs
+/// only in case is offered as a hint, never taken silently.
 pub fn target_by_name(file: &Option<PathBuf>, name: &str) -> Result<rung::io::targets::Target> {
     let file = file
         .clone()
         .unwrap_or_else(|| demo_dir().join("targets.csv"));
     let ts = load_targets(&file)?;
-    ts.into_iter()
-        .find(|x| x.name.eq_ignore_ascii_case(name))
-        .ok_or_else(|| anyhow::anyhow!("no target named '{name}' in {}", file.display()))
+    Ok(rung::io::targets::find_by_name(ts, name, &file)?)
 }
 
 /// `rung` with no subcommand: the terminal UI when stdout is a terminal,

@@ -39,15 +39,34 @@ pub fn user_programme() -> PathBuf {
         .join("programme.csv")
 }
 
-fn load(path: &Path) -> Result<(Vec<Target>, usize, Option<String>)> {
-    let l = rung::io::targets::load(path)?;
-    let msg = l.problems.first().map(|p| {
-        format!(
-            "{} row(s) refused, first: {p} — they stay in the file until you save; a .bak copy is kept then",
-            l.problems.len()
-        )
-    });
-    Ok((l.targets, l.problems.len(), msg))
+/// A programme read for editing: its targets (each keeping how it was
+/// written), how many rows were refused, the file's layout, and the first
+/// message to show.
+struct Read {
+    targets: Vec<Target>,
+    refused: usize,
+    layout: Option<std::sync::Arc<rung::io::csv_text::Layout>>,
+    message: Option<String>,
+}
+
+fn load(path: &Path) -> Result<Read> {
+    let l = rung::io::targets::load_keeping(path)?;
+    let kept = if l.layout.is_some() {
+        "a save keeps them in the file as they are"
+    } else {
+        "they stay in the file until you save; a .bak copy is kept then"
+    };
+    let message = l
+        .problems
+        .first()
+        .map(|p| format!("{} row(s) refused, first: {p} — {kept}", l.problems.len()))
+        .or_else(|| l.warnings.first().map(|w| format!("warning: {w}")));
+    Ok(Read {
+        targets: l.targets,
+        refused: l.problems.len(),
+        layout: l.layout,
+        message,
+    })
 }
 
 /// Build the UI's inputs from the arguments.
@@ -55,7 +74,12 @@ pub fn setup(a: &Args) -> Result<Setup> {
     let user = user_programme();
     let (targets, programme, message) = match &a.targets {
         Some(p) => {
-            let (t, refused, msg) = load(p)?;
+            let Read {
+                targets: t,
+                refused,
+                layout,
+                message: msg,
+            } = load(p)?;
             let is_csv = p
                 .extension()
                 .is_none_or(|e| !e.eq_ignore_ascii_case("toml"));
@@ -81,38 +105,41 @@ pub fn setup(a: &Args) -> Result<Setup> {
                     is_demo: false,
                     refused_rows: refused,
                     original,
+                    layout,
                 },
                 msg,
             )
         }
         None if user.exists() => {
-            let (t, refused, msg) = load(&user)?;
+            let r = load(&user)?;
             let original = std::fs::read(&user).ok();
             (
-                t,
+                r.targets,
                 Programme {
                     source: Some(user.clone()),
                     save_path: user,
                     is_demo: false,
-                    refused_rows: refused,
+                    refused_rows: r.refused,
                     original,
+                    layout: r.layout,
                 },
-                msg,
+                r.message,
             )
         }
         None => {
             let demo = super::demo_dir().join("targets.csv");
-            let (t, refused, msg) = load(&demo)?;
+            let r = load(&demo)?;
             (
-                t,
+                r.targets,
                 Programme {
                     source: Some(demo),
                     save_path: user,
                     is_demo: true,
-                    refused_rows: refused,
+                    refused_rows: r.refused,
                     original: None,
+                    layout: r.layout,
                 },
-                msg,
+                r.message,
             )
         }
     };
@@ -166,10 +193,13 @@ fn find_recovery(
     if !path.exists() {
         return (None, message);
     }
-    let loaded = match rung::io::targets::load(&path) {
+    // The recovery file is written in the programme's layout, so it holds the
+    // rows the programme file had refused, as they were: those are no reason
+    // to refuse it.
+    let loaded = match rung::io::targets::load_keeping(&path) {
         Ok(l) => match l.problems.first() {
-            None => Ok(l.targets),
-            Some(p) => Err(p.to_string()),
+            Some(p) if l.problems.len() > programme.refused_rows => Err(p.to_string()),
+            _ => Ok(l.targets),
         },
         Err(e) => Err(e.to_string()),
     };

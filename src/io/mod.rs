@@ -2,6 +2,8 @@
 
 pub mod angles;
 pub mod atomic;
+pub mod csv_text;
+pub mod kinds;
 pub mod sites;
 pub mod targets;
 pub mod write_targets;

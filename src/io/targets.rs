@@ -1,188 +1,31 @@
 //! Targets files: CSV with a header row, or TOML with `[[target]]` tables.
 //!
-//! Required fields: `name`, `ra`, `dec` (ICRS, decimal degrees or sexagesimal),
-//! and `kind` (`parallax`, `pulsator`, `transient`, `plain`; default `plain`).
-//! Kind fields carry their unit in their name (see DESIGN.md). A bad row is
-//! reported with its file, line and field, and the good rows still load.
+//! What the fields are, their units, bounds and which kind needs which, is the
+//! business of the tables in [`crate::io::kinds`]; this module reads files
+//! against them. Required fields: `name`, `ra`, `dec`; `kind` is one of the
+//! kinds table's names (default `plain`). A bad row is reported with its file,
+//! line and field, and the good rows still load. A field rung does not read is
+//! never ignored silently: one that looks like a misspelt field (`paralax_mas`)
+//! refuses the rows that give it a value, any other is named in a warning (and
+//! kept by a save from the UI).
+//!
+//! Top-level TOML keys other than `target` are left to the programme settings
+//! (they are not targets and are not read here).
 
-use crate::astro::frames::CatalogPlace;
-use crate::astro::time::{Instant, check_jd_in_span, parse_instant};
+pub use crate::io::csv_text::MAX_LINE_BYTES;
+pub use crate::io::kinds::{
+    BANDS, Cell, Kind, MAX_FIELD_BYTES, Target, VALID_FROM_EPOCH_YR, VALID_TO_EPOCH_YR,
+    target_from_fields,
+};
+
 use crate::error::{Location, Result, RungError};
-use crate::io::angles::{parse_dec_deg, parse_ra_deg};
-use serde::Serialize;
+use crate::io::csv_text::{Broken, Event, Item, Layout, Record, Records, RowRef};
+use crate::io::kinds::{
+    AsWritten, COLUMNS, Need, Slots, Written, check_len, column_index, cut, target_from_pairs,
+    target_from_slots,
+};
 use std::path::{Path, PathBuf};
-
-/// Earliest accepted catalogue epoch `epoch_yr` (Julian year, TT); rung's valid span starts 1960-01-01.
-pub const VALID_FROM_EPOCH_YR: f64 = 1960.0;
-/// Latest accepted catalogue epoch `epoch_yr` (Julian year, TT); rung's valid span ends with 2099.
-pub const VALID_TO_EPOCH_YR: f64 = 2100.0;
-
-/// Longest accepted field, bytes. Longer fields are rejected, not loaded.
-pub const MAX_FIELD_BYTES: usize = 4096;
-/// Photometric bands a target may name.
-pub const BANDS: [&str; 5] = ["U", "B", "V", "R", "I"];
-
-/// Which distance method a target is for.
-#[derive(
-    Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, serde::Deserialize, PartialOrd, Ord,
-)]
-#[serde(rename_all = "lowercase")]
-pub enum Kind {
-    /// Trigonometric parallax.
-    Parallax,
-    /// Pulsating star (period–luminosity).
-    Pulsator,
-    /// Thermonuclear supernova (standardized candle).
-    Transient,
-    /// Visibility only.
-    Plain,
-}
-
-impl Kind {
-    /// Parse the `kind` field.
-    pub fn parse(s: &str) -> Option<Kind> {
-        match s.trim().to_ascii_lowercase().as_str() {
-            "parallax" => Some(Kind::Parallax),
-            "pulsator" => Some(Kind::Pulsator),
-            "transient" => Some(Kind::Transient),
-            "plain" | "" => Some(Kind::Plain),
-            _ => None,
-        }
-    }
-    /// The lower-case name.
-    pub fn as_str(&self) -> &'static str {
-        match self {
-            Kind::Parallax => "parallax",
-            Kind::Pulsator => "pulsator",
-            Kind::Transient => "transient",
-            Kind::Plain => "plain",
-        }
-    }
-}
-
-/// One target of a programme.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct Target {
-    /// Name, unique in the file.
-    pub name: String,
-    /// ICRS right ascension, degrees (epoch J2000.0 unless `epoch_yr` says otherwise).
-    pub ra_deg: f64,
-    /// ICRS declination, degrees.
-    pub dec_deg: f64,
-    /// Method.
-    pub kind: Kind,
-    /// Expected parallax, milliarcseconds.
-    pub parallax_mas: Option<f64>,
-    /// Proper motion in RA, μα* = μα cos δ, mas/yr.
-    pub pm_ra_masyr: f64,
-    /// Proper motion in Dec, mas/yr.
-    pub pm_dec_masyr: f64,
-    /// Epoch of the catalogue position (Julian year, TT), default 2000.0.
-    pub epoch_yr: f64,
-    /// Magnitude in `band` (parallax targets, or plain).
-    pub mag: Option<f64>,
-    /// Photometric band.
-    pub band: String,
-    /// Pulsation period, days.
-    pub period_d: Option<f64>,
-    /// Epoch of maximum light, BJD_TDB.
-    pub epoch_max_bjd: Option<f64>,
-    /// Period uncertainty, days.
-    pub period_err_d: Option<f64>,
-    /// Peak-to-peak amplitude, mag.
-    pub amplitude_mag: Option<f64>,
-    /// Intensity-mean magnitude, mag.
-    pub mean_mag: Option<f64>,
-    /// Discovery instant (transients).
-    pub discovered: Option<Instant>,
-    /// Expected peak magnitude (transients).
-    pub peak_mag: Option<f64>,
-    /// Magnitude at discovery (transients).
-    pub mag_now: Option<f64>,
-    /// Redshift (transients).
-    pub redshift: Option<f64>,
-    /// Foreground extinction in `band`, mag (default 0).
-    pub extinction_mag: f64,
-    /// Distance-precision goal, percent.
-    pub goal_pct: Option<f64>,
-    /// Priority (higher first), default 1.
-    pub priority: f64,
-    /// Free notes.
-    pub notes: String,
-}
-
-impl Target {
-    /// A plain target at ICRS degrees.
-    pub fn plain(name: &str, ra_deg: f64, dec_deg: f64) -> Self {
-        Target {
-            name: name.to_string(),
-            ra_deg,
-            dec_deg,
-            kind: Kind::Plain,
-            parallax_mas: None,
-            pm_ra_masyr: 0.0,
-            pm_dec_masyr: 0.0,
-            epoch_yr: 2000.0,
-            mag: None,
-            band: "V".into(),
-            period_d: None,
-            epoch_max_bjd: None,
-            period_err_d: None,
-            amplitude_mag: None,
-            mean_mag: None,
-            discovered: None,
-            peak_mag: None,
-            mag_now: None,
-            redshift: None,
-            extinction_mag: 0.0,
-            goal_pct: None,
-            priority: 1.0,
-            notes: String::new(),
-        }
-    }
-
-    /// The catalogue place with space motion, at epoch J2000.0 as SOFA `atciq`
-    /// wants it (moved from `epoch_yr` with SOFA `pmsafe` when that differs).
-    pub fn place(&self) -> CatalogPlace {
-        let mas = (1e-3f64 / 3600.0).to_radians();
-        let dec = self.dec_deg.to_radians();
-        let cd = dec.cos().max(1e-9);
-        let p = CatalogPlace {
-            ra_rad: self.ra_deg.to_radians(),
-            dec_rad: dec,
-            pm_ra_rad_yr: self.pm_ra_masyr * mas / cd,
-            pm_dec_rad_yr: self.pm_dec_masyr * mas,
-            parallax_arcsec: self.parallax_mas.unwrap_or(0.0).max(0.0) * 1e-3,
-            rv_kms: 0.0,
-        };
-        if (self.epoch_yr - 2000.0).abs() < 1e-9 {
-            return p;
-        }
-        let (e1a, e1b) = sofars::cal::epj2jd(self.epoch_yr);
-        match sofars::astro::pmsafe(
-            p.ra_rad,
-            p.dec_rad,
-            p.pm_ra_rad_yr,
-            p.pm_dec_rad_yr,
-            p.parallax_arcsec,
-            p.rv_kms,
-            e1a,
-            e1b,
-            2451545.0,
-            0.0,
-        ) {
-            Ok((v, _)) => CatalogPlace {
-                ra_rad: v[0],
-                dec_rad: v[1],
-                pm_ra_rad_yr: v[2],
-                pm_dec_rad_yr: v[3],
-                parallax_arcsec: v[4],
-                rv_kms: v[5],
-            },
-            Err(_) => p,
-        }
-    }
-}
+use std::sync::Arc;
 
 /// Targets read from a file, with the rows that were refused.
 #[derive(Debug, Default)]
@@ -191,6 +34,11 @@ pub struct Loaded {
     pub targets: Vec<Target>,
     /// One error per refused row, with file, line and field.
     pub problems: Vec<RungError>,
+    /// Things read past without refusing a row (a column rung does not read),
+    /// with file, line and field.
+    pub warnings: Vec<RungError>,
+    /// The CSV file as written, when it was asked for ([`load_keeping`]).
+    pub layout: Option<Arc<Layout>>,
 }
 
 /// `line` 0 means "not known" and is left out of the message.
@@ -206,568 +54,424 @@ fn loc(file: &Path, line: usize, field: &str) -> Location {
     }
 }
 
-/// The values of one row by known field (index into [`KNOWN`]); the first
-/// occurrence of a repeated field wins.
-type Slots<'a> = [Option<&'a str>; KNOWN.len()];
-
-fn slot_of(key: &str) -> Option<usize> {
-    KNOWN.iter().position(|k| *k == key)
-}
-
-fn num(s: &Slots, i: usize) -> std::result::Result<Option<f64>, (String, String)> {
-    match s[i].map(str::trim) {
-        None | Some("") => Ok(None),
-        Some(v) => match v.parse::<f64>() {
-            Ok(x) if x.is_finite() => Ok(Some(x)),
-            _ => Err((
-                KNOWN[i].to_string(),
-                format!("'{}' is not a finite number", cut(v)),
-            )),
-        },
+fn in_file(file: &Path, line: usize, field: &str, msg: impl Into<String>) -> RungError {
+    RungError::InFile {
+        loc: loc(file, line, field),
+        msg: msg.into(),
     }
 }
 
-fn text<'a>(s: &Slots<'a>, i: usize) -> Option<&'a str> {
-    s[i].map(str::trim).filter(|v| !v.is_empty())
-}
-
-fn cut(s: &str) -> String {
-    let c: String = s.chars().take(40).collect();
-    if s.chars().count() > 40 {
-        format!("{c}…")
-    } else {
-        c
+/// The field of the tables a name not in them was probably meant to be:
+/// the same but for case, spaces or dashes; the name without its unit
+/// (`period` for `period_d`); or one or two letters off.
+pub fn meant_field(key: &str) -> Option<&'static str> {
+    let norm = |s: &str| -> String {
+        s.chars()
+            .filter(|c| !matches!(c, '_' | '-' | ' ' | '.'))
+            .flat_map(char::to_lowercase)
+            .collect()
+    };
+    let k = norm(key);
+    let lower = key.trim().to_ascii_lowercase();
+    if k.is_empty() {
+        return None;
     }
-}
-
-const KNOWN: [&str; 24] = [
-    "name",
-    "ra",
-    "dec",
-    "kind",
-    "parallax_mas",
-    "pm_ra_masyr",
-    "pm_dec_masyr",
-    "epoch_yr",
-    "mag",
-    "band",
-    "period_d",
-    "epoch_max_bjd",
-    "period_err_d",
-    "amplitude_mag",
-    "mean_mag",
-    "discovered",
-    "peak_mag",
-    "mag_now",
-    "redshift",
-    "extinction_mag",
-    "goal_pct",
-    "priority",
-    "notes",
-    "id",
-];
-
-// Positions in KNOWN of the fields read by name.
-const F_NAME: usize = 0;
-const F_RA: usize = 1;
-const F_DEC: usize = 2;
-const F_KIND: usize = 3;
-const F_PARALLAX_MAS: usize = 4;
-const F_PM_RA_MASYR: usize = 5;
-const F_PM_DEC_MASYR: usize = 6;
-const F_EPOCH_YR: usize = 7;
-const F_MAG: usize = 8;
-const F_BAND: usize = 9;
-const F_PERIOD_D: usize = 10;
-const F_EPOCH_MAX_BJD: usize = 11;
-const F_PERIOD_ERR_D: usize = 12;
-const F_AMPLITUDE_MAG: usize = 13;
-const F_MEAN_MAG: usize = 14;
-const F_DISCOVERED: usize = 15;
-const F_PEAK_MAG: usize = 16;
-const F_MAG_NOW: usize = 17;
-const F_REDSHIFT: usize = 18;
-const F_EXTINCTION_MAG: usize = 19;
-const F_GOAL_PCT: usize = 20;
-const F_PRIORITY: usize = 21;
-const F_NOTES: usize = 22;
-
-/// Build a target from (field, value) pairs; the error names the field.
-pub fn target_from_fields(
-    fields: &[(String, String)],
-) -> std::result::Result<Target, (String, String)> {
-    for (k, v) in fields {
-        check_len(k, v)?;
-    }
-    let mut slots: Slots = [None; KNOWN.len()];
-    for (k, v) in fields {
-        if let Some(i) = slot_of(k) {
-            slots[i].get_or_insert(v.as_str());
-        }
-    }
-    target_from_slots(&slots)
-}
-
-fn check_len(key: &str, v: &str) -> std::result::Result<(), (String, String)> {
-    if v.len() > MAX_FIELD_BYTES {
-        return Err((
-            key.to_string(),
-            format!(
-                "{} bytes is longer than the {MAX_FIELD_BYTES}-byte limit",
-                v.len()
-            ),
-        ));
-    }
-    Ok(())
-}
-
-fn target_from_slots(slots: &Slots) -> std::result::Result<Target, (String, String)> {
-    let fields = slots;
-    let name = text(fields, F_NAME)
-        .ok_or_else(|| ("name".to_string(), "is missing or empty".to_string()))?;
-    let ra_t = text(fields, F_RA).ok_or_else(|| ("ra".to_string(), "is missing".to_string()))?;
-    let dec_t = text(fields, F_DEC).ok_or_else(|| ("dec".to_string(), "is missing".to_string()))?;
-    let ra = parse_ra_deg(ra_t).map_err(|e| ("ra".to_string(), e.to_string()))?;
-    let dec = parse_dec_deg(dec_t).map_err(|e| ("dec".to_string(), e.to_string()))?;
-    let kind_t = text(fields, F_KIND).unwrap_or("plain");
-    let kind = Kind::parse(kind_t).ok_or_else(|| {
-        (
-            "kind".to_string(),
-            format!(
-                "'{}' is not one of parallax, pulsator, transient, plain",
-                cut(kind_t)
-            ),
-        )
-    })?;
-    let mut t = Target::plain(name, ra, dec);
-    t.kind = kind;
-    t.parallax_mas = num(fields, F_PARALLAX_MAS)?;
-    t.pm_ra_masyr = num(fields, F_PM_RA_MASYR)?.unwrap_or(0.0);
-    t.pm_dec_masyr = num(fields, F_PM_DEC_MASYR)?.unwrap_or(0.0);
-    t.epoch_yr = num(fields, F_EPOCH_YR)?.unwrap_or(2000.0);
-    t.mag = num(fields, F_MAG)?;
-    t.period_d = num(fields, F_PERIOD_D)?;
-    t.epoch_max_bjd = num(fields, F_EPOCH_MAX_BJD)?;
-    t.period_err_d = num(fields, F_PERIOD_ERR_D)?;
-    t.amplitude_mag = num(fields, F_AMPLITUDE_MAG)?;
-    t.mean_mag = num(fields, F_MEAN_MAG)?;
-    t.peak_mag = num(fields, F_PEAK_MAG)?;
-    t.mag_now = num(fields, F_MAG_NOW)?;
-    t.redshift = num(fields, F_REDSHIFT)?;
-    t.extinction_mag = num(fields, F_EXTINCTION_MAG)?.unwrap_or(0.0);
-    t.goal_pct = num(fields, F_GOAL_PCT)?;
-    t.priority = num(fields, F_PRIORITY)?.unwrap_or(1.0);
-    t.notes = text(fields, F_NOTES).unwrap_or("").to_string();
-    if let Some(b) = text(fields, F_BAND) {
-        let up = b.to_ascii_uppercase();
-        if !BANDS.contains(&up.as_str()) {
-            return Err((
-                "band".into(),
-                format!("'{}' is not one of U, B, V, R, I", cut(b)),
-            ));
-        }
-        t.band = up;
-    }
-    if let Some(d) = text(fields, F_DISCOVERED) {
-        t.discovered =
-            Some(parse_instant(d).map_err(|e| ("discovered".to_string(), e.to_string()))?);
-    }
-    let bad = |f: &str, why: &str| Err((f.to_string(), why.to_string()));
-    if !(VALID_FROM_EPOCH_YR..=VALID_TO_EPOCH_YR).contains(&t.epoch_yr) {
-        return bad(
-            "epoch_yr",
-            "must be a Julian year within rung's valid span, 1960.0 to 2100.0",
-        );
-    }
-    for (f, v) in [
-        ("pm_ra_masyr", t.pm_ra_masyr),
-        ("pm_dec_masyr", t.pm_dec_masyr),
-    ] {
-        if v.abs() > 20_000.0 {
-            return bad(f, "is faster than 20 arcsec/yr, beyond any star");
-        }
-    }
-    if t.extinction_mag < 0.0 || t.extinction_mag > 20.0 {
-        return bad("extinction_mag", "must be within 0..20 mag");
-    }
-    if let Some(g) = t.goal_pct
-        && (g <= 0.0 || g > 100.0)
-    {
-        return bad("goal_pct", "must be a percentage in (0, 100]");
-    }
-    for (f, v) in [
-        ("mag", t.mag),
-        ("mean_mag", t.mean_mag),
-        ("peak_mag", t.peak_mag),
-        ("mag_now", t.mag_now),
-    ] {
-        if let Some(m) = v
-            && !(-2.0..=30.0).contains(&m)
+    let mut best: Option<(usize, &'static str)> = None;
+    for c in COLUMNS {
+        let d = if norm(c.key) == k
+            || c.key
+                .strip_prefix(lower.as_str())
+                .is_some_and(|rest| rest.starts_with('_'))
         {
-            return bad(f, "must be a magnitude within -2..30");
+            0
+        } else {
+            edit_distance(&k, &norm(c.key))
+        };
+        let allowed = if k.chars().count() <= 4 { 1 } else { 2 };
+        if d <= allowed && best.is_none_or(|(bd, _)| d < bd) {
+            best = Some((d, c.key));
         }
     }
-    match kind {
-        Kind::Parallax => match t.parallax_mas {
-            None => return bad("parallax_mas", "is required for a parallax target"),
-            Some(p) if p <= 0.0 => {
-                return bad("parallax_mas", "must be positive (expected parallax, mas)");
-            }
-            Some(p) if p > 1000.0 => {
-                return bad("parallax_mas", "exceeds 1000 mas: no star is that close");
-            }
-            _ => {}
-        },
-        Kind::Pulsator => {
-            match t.period_d {
-                None => return bad("period_d", "is required for a pulsator"),
-                Some(p) if p <= 0.0 => return bad("period_d", "must be positive (days)"),
-                _ => {}
-            }
-            match t.epoch_max_bjd {
-                None => {
-                    return bad(
-                        "epoch_max_bjd",
-                        "is required for a pulsator (BJD_TDB of a maximum)",
-                    );
-                }
-                Some(e) if !(2_400_000.0..=2_500_000.0).contains(&e) => {
-                    return bad("epoch_max_bjd", "must be a full BJD such as 2461000.123");
-                }
-                Some(e) if check_jd_in_span(e, "").is_err() => {
-                    return bad(
-                        "epoch_max_bjd",
-                        "must lie within rung's valid span 1960-01-01 to 2099-12-31 (BJD 2436934.5 to 2488069.5)",
-                    );
-                }
-                _ => {}
-            }
-            if let Some(e) = t.period_err_d
-                && e < 0.0
-            {
-                return bad("period_err_d", "must not be negative");
-            }
-            if let Some(a) = t.amplitude_mag
-                && a < 0.0
-            {
-                return bad("amplitude_mag", "must not be negative");
-            }
-        }
-        Kind::Transient => {
-            if t.discovered.is_none() {
-                return bad("discovered", "is required for a transient (ISO 8601 time)");
-            }
-            if t.peak_mag.is_none() && t.mag_now.is_none() {
-                return bad("peak_mag", "a transient needs peak_mag or mag_now");
-            }
-            if let Some(z) = t.redshift
-                && !(0.0..=3.0).contains(&z)
-            {
-                return bad("redshift", "must be within 0..3");
-            }
-        }
-        Kind::Plain => {}
-    }
-    Ok(t)
+    best.map(|(_, k)| k)
 }
 
-/// Longest accepted physical line of a CSV targets file, bytes. A longer line
-/// must hold a field over [`MAX_FIELD_BYTES`] (24 known columns of at most
-/// 4096 bytes fit well inside it); it is skipped without being held in memory.
-pub const MAX_LINE_BYTES: usize = 256 * 1024;
+/// Levenshtein distance (insertions, deletions, substitutions), by characters.
+fn edit_distance(a: &str, b: &str) -> usize {
+    let a: Vec<char> = a.chars().collect();
+    let b: Vec<char> = b.chars().collect();
+    let mut prev: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.iter().enumerate() {
+        let mut cur = vec![i + 1; b.len() + 1];
+        for (j, cb) in b.iter().enumerate() {
+            cur[j + 1] = (prev[j] + usize::from(ca != cb))
+                .min(prev[j + 1] + 1)
+                .min(cur[j] + 1);
+        }
+        prev = cur;
+    }
+    prev[b.len()]
+}
+
+/// What is said of a field rung does not read, near a field it does.
+fn misspelt(meant: &str) -> String {
+    format!("is not a field rung reads; did you mean '{meant}'?")
+}
+
+/// What is said of a field rung does not read.
+const UNREAD: &str =
+    "is not a field rung reads: its values are ignored (a save from the UI keeps them)";
+
 /// Largest TOML targets file, bytes (TOML is parsed whole; use CSV for more).
 pub const MAX_TOML_BYTES: u64 = 64 * 1024 * 1024;
 /// How often (bytes read) the progress callback is called while streaming.
 const PROGRESS_STEP_BYTES: u64 = 1024 * 1024;
 
-/// Replaces an over-long physical line in the byte stream the CSV reader sees.
-/// Control characters keep it from being mistaken for real data.
-const OVERLONG_MARK: &str = "\u{1}rung:overlong-line\u{1}";
-
-/// A reader that passes a CSV file through line by line, replacing any line
-/// longer than [`MAX_LINE_BYTES`] by [`OVERLONG_MARK`] (its bytes are skipped,
-/// never stored), and counting the bytes read for the progress callback.
-struct LineCap<R: std::io::BufRead> {
-    inner: R,
-    pending: Vec<u8>,
-    pos: usize,
-    read: std::rc::Rc<std::cell::Cell<u64>>,
-    done: bool,
-    /// Whether the lines so far leave the reader inside a quoted field
-    /// (parity of the quote characters seen).
-    quoted: bool,
-    /// How many [`OVERLONG_MARK`]s have been put in the stream.
-    marks: std::rc::Rc<std::cell::Cell<u64>>,
-}
-
-impl<R: std::io::BufRead> LineCap<R> {
-    fn refill(&mut self) -> std::io::Result<()> {
-        use std::io::{BufRead as _, Read as _};
-        self.pending.clear();
-        self.pos = 0;
-        // Fast path: one line of at most MAX_LINE_BYTES (+ its newline),
-        // found with the standard library's memchr.
-        let limit = MAX_LINE_BYTES + 1;
-        let n = (&mut self.inner)
-            .take(limit as u64)
-            .read_until(b'\n', &mut self.pending)?;
-        self.read.set(self.read.get() + n as u64);
-        if n == 0 {
-            self.done = true;
-            return Ok(());
-        }
-        let comment = self.pending[0] == b'#';
-        let count_quotes = |b: &[u8]| {
-            if b.contains(&b'"') {
-                b.iter().filter(|c| **c == b'"').count()
-            } else {
-                0
-            }
-        };
-        let mut quotes_in_line = count_quotes(&self.pending);
-        let overlong = n == limit && self.pending.last() != Some(&b'\n');
-        if overlong {
-            // Skip the rest of the line without storing it, counting its quotes.
-            self.pending.clear();
-            loop {
-                let buf = self.inner.fill_buf()?;
-                if buf.is_empty() {
-                    self.done = true;
-                    break;
-                }
-                let (take, newline) = match buf.iter().position(|b| *b == b'\n') {
-                    Some(i) => (i + 1, true),
-                    None => (buf.len(), false),
-                };
-                quotes_in_line += count_quotes(&buf[..take]);
-                self.inner.consume(take);
-                self.read.set(self.read.get() + take as u64);
-                if newline {
-                    break;
-                }
-            }
-            self.marks.set(self.marks.get() + 1);
-        }
-        if overlong && comment && !self.quoted {
-            // An over-long comment line is still a comment.
-            self.marks.set(self.marks.get() - 1);
-            self.pending.extend_from_slice(b"#\n");
-        } else if overlong {
-            // Keep the quoting state the CSV reader would have had after the
-            // skipped line (an odd number of quotes flips it), so that the rows
-            // after it are read as they stand.
-            let entering_quoted = self.quoted;
-            let flips = quotes_in_line % 2 == 1;
-            if flips && !entering_quoted {
-                self.pending.push(b'"');
-            }
-            self.pending.extend_from_slice(OVERLONG_MARK.as_bytes());
-            if flips && entering_quoted {
-                self.pending.push(b'"');
-            }
-            self.pending.push(b'\n');
-        }
-        if quotes_in_line % 2 == 1 && (self.quoted || !comment) {
-            self.quoted = !self.quoted;
-        }
-        Ok(())
-    }
-}
-
-impl<R: std::io::BufRead> std::io::Read for LineCap<R> {
-    fn read(&mut self, out: &mut [u8]) -> std::io::Result<usize> {
-        if self.pos >= self.pending.len() {
-            if self.done {
-                return Ok(0);
-            }
-            self.refill()?;
-        }
-        let n = (self.pending.len() - self.pos).min(out.len());
-        out[..n].copy_from_slice(&self.pending[self.pos..self.pos + n]);
-        self.pos += n;
-        Ok(n)
-    }
-}
-
 /// Names already used, kept compactly for the duplicate check.
 type Seen = std::collections::HashSet<Box<str>>;
 
+/// Where the reader's findings go.
+struct Sink<'a> {
+    target: &'a mut dyn FnMut(Target),
+    problem: &'a mut dyn FnMut(RungError),
+    warning: &'a mut dyn FnMut(RungError),
+    progress: &'a mut dyn FnMut(u64, u64),
+}
+
+/// Building a [`Layout`] while reading (only when a save must keep the file as written).
+struct Keep<'t> {
+    text: &'t str,
+    items: Vec<Item>,
+    columns: Vec<String>,
+    newline: String,
+    /// Per target delivered, in order: its item.
+    rows: Vec<usize>,
+}
+
+impl Keep<'_> {
+    fn verbatim(&mut self, span: &std::ops::Range<u64>) {
+        self.items
+            .push(Item::Verbatim(span.start as usize..span.end as usize));
+    }
+}
+
+/// The header of a CSV file, checked.
+struct Header {
+    /// Column names, lower case, trimmed.
+    names: Vec<String>,
+    /// Per column: its index in COLUMNS.
+    slot: Vec<Option<usize>>,
+    /// Per column not read: the field it was probably meant to be.
+    meant: Vec<Option<&'static str>>,
+}
+
+fn read_header(rec: &Record, file: &Path, sink: &mut Sink) -> Option<Header> {
+    if let Some(i) = rec.first_not_utf8() {
+        (sink.problem)(in_file(
+            file,
+            rec.line,
+            "",
+            format!(
+                "unreadable header: field {} is not UTF-8 text (save the file as UTF-8)",
+                i + 1
+            ),
+        ));
+        return None;
+    }
+    let names: Vec<String> = (0..rec.len())
+        .map(|i| rec.value(i).unwrap_or("").to_ascii_lowercase())
+        .collect();
+    let required: Vec<&str> = COLUMNS
+        .iter()
+        .filter(|c| c.every_kind && matches!(c.need, Need::Required(_)))
+        .map(|c| c.key)
+        .collect();
+    for need in &required {
+        if !names.iter().any(|h| h == need) {
+            (sink.problem)(in_file(
+                file,
+                rec.line,
+                need,
+                format!(
+                    "the header has no '{need}' column (required: {})",
+                    required.join(", ")
+                ),
+            ));
+            return None;
+        }
+    }
+    let slot: Vec<Option<usize>> = names.iter().map(|h| column_index(h)).collect();
+    for (j, s) in slot.iter().enumerate() {
+        if let Some(first) = s.and_then(|s| slot[..j].iter().position(|x| *x == Some(s))) {
+            (sink.problem)(in_file(
+                file,
+                rec.line,
+                &names[j],
+                format!(
+                    "the header has this column twice (columns {} and {}): which one to read is unclear, so no row was read",
+                    first + 1,
+                    j + 1
+                ),
+            ));
+            return None;
+        }
+    }
+    let mut meant = vec![None; names.len()];
+    for (j, name) in names.iter().enumerate() {
+        if slot[j].is_some() {
+            continue;
+        }
+        meant[j] = meant_field(name);
+        if meant[j].is_none() {
+            let what = if name.is_empty() {
+                format!(
+                    "column {} has no name: its values are ignored (a save from the UI keeps them)",
+                    j + 1
+                )
+            } else {
+                UNREAD.to_string()
+            };
+            (sink.warning)(in_file(file, rec.line, name, what));
+        }
+    }
+    Some(Header { names, slot, meant })
+}
+
+/// The reader behind every CSV entry point: streams `reader` record by record
+/// (memory bounded by one line of [`MAX_LINE_BYTES`] and one quoted field of
+/// [`MAX_FIELD_BYTES`], plus the names seen for the duplicate check). With
+/// `keep`, the layout of the file is recorded too.
+fn read_csv<R: std::io::Read>(
+    reader: R,
+    file: &Path,
+    total_bytes: u64,
+    mut keep: Option<&mut Keep>,
+    sink: &mut Sink,
+) {
+    let mut records = Records::new(std::io::BufReader::with_capacity(64 * 1024, reader));
+    let mut rec = Record::default();
+    let mut header: Option<Header> = None;
+    let mut seen = Seen::new();
+    let mut last_progress = 0u64;
+    loop {
+        let event = match records.next_into(&mut rec) {
+            Ok(Some(e)) => e,
+            Ok(None) => break,
+            Err(e) => {
+                (sink.problem)(in_file(file, rec.line, "", format!("unreadable: {e}")));
+                break;
+            }
+        };
+        let r = records.bytes_read();
+        if r >= last_progress + PROGRESS_STEP_BYTES {
+            last_progress = r;
+            (sink.progress)(r, total_bytes.max(r));
+        }
+        let Some(h) = &header else {
+            match event {
+                Event::Skipped => {
+                    if let Some(k) = keep.as_deref_mut() {
+                        k.verbatim(&rec.span);
+                    }
+                }
+                Event::Broken(Broken::Overlong) => {
+                    (sink.problem)(in_file(
+                        file,
+                        rec.line,
+                        "",
+                        format!("the header line is longer than {MAX_LINE_BYTES} bytes"),
+                    ));
+                    return;
+                }
+                Event::Broken(_) => {
+                    (sink.problem)(in_file(
+                        file,
+                        rec.line,
+                        "",
+                        "unreadable header: a quote in it is not closed",
+                    ));
+                    return;
+                }
+                Event::Record => {
+                    header = Some(match read_header(&rec, file, sink) {
+                        Some(h) => h,
+                        None => return,
+                    });
+                    if let Some(k) = keep.as_deref_mut() {
+                        let s = rec.span.start as usize;
+                        let e = rec.span.end as usize;
+                        k.items
+                            .push(Item::Header(s..e - rec.terminator, e - rec.terminator..e));
+                        k.columns = header.as_ref().map(|h| h.names.clone()).unwrap_or_default();
+                        let t = k.text.get(e - rec.terminator..e).unwrap_or("");
+                        if !t.is_empty() {
+                            k.newline = t.to_string();
+                        }
+                    }
+                }
+            }
+            continue;
+        };
+        let outcome = match event {
+            Event::Skipped => {
+                if let Some(k) = keep.as_deref_mut() {
+                    k.verbatim(&rec.span);
+                }
+                continue;
+            }
+            Event::Broken(Broken::Overlong) => Err(in_file(
+                file,
+                rec.line,
+                "",
+                format!(
+                    "line is longer than {MAX_LINE_BYTES} bytes: a field exceeds the {MAX_FIELD_BYTES}-byte limit; row skipped unread"
+                ),
+            )),
+            Event::Broken(Broken::Unclosed { field }) => Err(in_file(
+                file,
+                rec.line,
+                h.names.get(field).map_or("", |s| s.as_str()),
+                "the quote opening this field is never closed; the lines after it are read as rows of their own",
+            )),
+            Event::Broken(Broken::AfterQuote { field }) => Err(in_file(
+                file,
+                rec.line,
+                h.names.get(field).map_or("", |s| s.as_str()),
+                "text follows the closing quote of this field (inside quotes, write a quote as \"\")",
+            )),
+            Event::Record => row(&rec, h, file, &mut seen, keep.is_some()),
+        };
+        match outcome {
+            Err(p) => {
+                (sink.problem)(p);
+                if let Some(k) = keep.as_deref_mut() {
+                    k.verbatim(&rec.span);
+                }
+            }
+            Ok(t) => {
+                if let Some(k) = keep.as_deref_mut() {
+                    let s = rec.span.start as usize;
+                    let e = rec.span.end as usize;
+                    k.rows.push(k.items.len());
+                    k.items.push(Item::Row {
+                        content: s..e - rec.terminator,
+                        terminator: e - rec.terminator..e,
+                        fields: (0..rec.len())
+                            .map(|i| {
+                                let r = rec.raw_range(i);
+                                s + r.start..s + r.end
+                            })
+                            .collect(),
+                    });
+                }
+                (sink.target)(t);
+            }
+        }
+    }
+    let r = records.bytes_read();
+    (sink.progress)(r, total_bytes.max(r));
+}
+
+/// Read one record against the header: the target, or why the row is refused.
+fn row(
+    rec: &Record,
+    h: &Header,
+    file: &Path,
+    seen: &mut Seen,
+    keep: bool,
+) -> std::result::Result<Target, RungError> {
+    let line = rec.line;
+    if rec.len() != h.names.len() {
+        return Err(in_file(
+            file,
+            line,
+            "",
+            format!(
+                "row has {} fields but the header has {}",
+                rec.len(),
+                h.names.len()
+            ),
+        ));
+    }
+    if let Some(i) = rec.first_not_utf8() {
+        return Err(in_file(
+            file,
+            line,
+            "",
+            format!(
+                "field {} is not UTF-8 text (save the file as UTF-8); row skipped",
+                i + 1
+            ),
+        ));
+    }
+    let mut slots: Slots = [None; COLUMNS.len()];
+    for j in 0..rec.len() {
+        let v = rec.value(j).unwrap_or("");
+        check_len(&h.names[j], v).map_err(|(f, m)| in_file(file, line, &f, m))?;
+        match (h.slot[j], h.meant[j]) {
+            (Some(i), _) => slots[i] = Some(v),
+            (None, Some(m)) if !v.is_empty() => {
+                return Err(in_file(file, line, &h.names[j], misspelt(m)));
+            }
+            _ => {}
+        }
+    }
+    let mut t = target_from_slots(&slots).map_err(|(f, m)| in_file(file, line, &f, m))?;
+    if seen.contains(t.name.as_str()) {
+        return Err(in_file(
+            file,
+            line,
+            "name",
+            format!("'{}' is already used by an earlier row", cut(&t.name)),
+        ));
+    }
+    seen.insert(t.name.as_str().into());
+    if keep {
+        t.written = Written(Some(Arc::new(AsWritten {
+            fields: (0..rec.len())
+                .map(|j| (h.names[j].clone(), rec.value(j).unwrap_or("").to_string()))
+                .collect(),
+            row: None,
+        })));
+    }
+    Ok(t)
+}
+
 /// The CSV reader behind [`parse_csv`], [`stream_csv`] and [`load`]: reads
 /// `reader` record by record, never holding more than one line of at most
-/// [`MAX_LINE_BYTES`]. `total_bytes` is passed to `on_progress` with the bytes
-/// read so far (about every MiB, and once at the end).
+/// [`MAX_LINE_BYTES`] and one quoted field of at most [`MAX_FIELD_BYTES`].
+/// Good targets go to `on_target`, refused rows to `on_problem`, columns rung
+/// does not read to `on_warning`; `total_bytes` is passed to `on_progress`
+/// with the bytes read so far (about every MiB, and once at the end).
 pub fn stream_csv_reader<R: std::io::Read>(
     reader: R,
     file: &Path,
     total_bytes: u64,
     on_target: &mut dyn FnMut(Target),
     on_problem: &mut dyn FnMut(RungError),
+    on_warning: &mut dyn FnMut(RungError),
     on_progress: &mut dyn FnMut(u64, u64),
 ) {
-    let read = std::rc::Rc::new(std::cell::Cell::new(0u64));
-    let marks = std::rc::Rc::new(std::cell::Cell::new(0u64));
-    let mut marks_found = 0u64;
-    let capped = LineCap {
-        inner: std::io::BufReader::with_capacity(64 * 1024, reader),
-        pending: Vec::new(),
-        pos: 0,
-        read: read.clone(),
-        done: false,
-        quoted: false,
-        marks: marks.clone(),
+    let mut sink = Sink {
+        target: on_target,
+        problem: on_problem,
+        warning: on_warning,
+        progress: on_progress,
     };
-    let mut rdr = csv::ReaderBuilder::new()
-        .flexible(true)
-        .trim(csv::Trim::All)
-        .comment(Some(b'#'))
-        .from_reader(capped);
-    // The header's own line (comment lines may come before it).
-    let (headers, hline): (Vec<String>, usize) = match rdr.headers() {
-        Ok(h) if h.iter().any(|f| f.contains(OVERLONG_MARK)) => {
-            on_problem(RungError::InFile {
-                loc: loc(file, h.position().map_or(1, |p| p.line() as usize), ""),
-                msg: format!("the header line is longer than {MAX_LINE_BYTES} bytes"),
-            });
-            return;
-        }
-        Ok(h) => (h.iter().map(|s| s.trim().to_ascii_lowercase()).collect(), 0),
-        Err(e) => {
-            on_problem(RungError::InFile {
-                loc: loc(file, 1, ""),
-                msg: format!("unreadable header: {e}"),
-            });
-            return;
-        }
-    };
-    // After the header the reader stands at the start of the next line.
-    let hline = if hline == 0 {
-        (rdr.position().line() as usize).saturating_sub(1).max(1)
-    } else {
-        hline
-    };
-    for need in ["name", "ra", "dec"] {
-        if !headers.iter().any(|h| h == need) {
-            on_problem(RungError::InFile {
-                loc: loc(file, hline, need),
-                msg: format!("the header has no '{need}' column (required: name, ra, dec)"),
-            });
-            return;
-        }
-    }
-    let col_slot: Vec<Option<usize>> = headers.iter().map(|h| slot_of(h)).collect();
-    let mut seen = Seen::new();
-    let mut rec = csv::StringRecord::new();
-    let mut last_progress = 0u64;
-    loop {
-        let line_before = rdr.position().line() as usize;
-        match rdr.read_record(&mut rec) {
-            Ok(false) => break,
-            Ok(true) => {
-                let line = rec
-                    .position()
-                    .map(|p| p.line() as usize)
-                    .unwrap_or(line_before);
-                // Look for the mark only while one is in the stream unread
-                // (the reader runs ahead, so it may be in a later record).
-                let mark_at = if marks.get() > marks_found {
-                    rec.iter().position(|f| f.contains(OVERLONG_MARK))
-                } else {
-                    None
-                };
-                if let Some(i) = mark_at {
-                    marks_found += rec
-                        .iter()
-                        .map(|f| f.matches(OVERLONG_MARK).count() as u64)
-                        .sum::<u64>();
-                    // The mark sits on the over-long physical line itself.
-                    let extra = rec
-                        .iter()
-                        .take(i)
-                        .map(|f| f.matches('\n').count())
-                        .sum::<usize>()
-                        + rec.get(i).map_or(0, |f| {
-                            f[..f.find(OVERLONG_MARK).unwrap_or(0)]
-                                .matches('\n')
-                                .count()
-                        });
-                    let field = if rec.len() == headers.len() {
-                        headers[i].as_str()
-                    } else {
-                        ""
-                    };
-                    on_problem(RungError::InFile {
-                        loc: loc(file, line + extra, field),
-                        msg: format!(
-                            "line is longer than {MAX_LINE_BYTES} bytes: a field exceeds the {MAX_FIELD_BYTES}-byte limit; row skipped unread"
-                        ),
-                    });
-                } else if rec.len() != headers.len() {
-                    on_problem(RungError::InFile {
-                        loc: loc(file, line, ""),
-                        msg: format!(
-                            "row has {} fields but the header has {}",
-                            rec.len(),
-                            headers.len()
-                        ),
-                    });
-                } else {
-                    // Straight into the slots, no copy of the row.
-                    let mut slots: Slots = [None; KNOWN.len()];
-                    let mut r = Ok(());
-                    for (j, v) in rec.iter().enumerate() {
-                        r = check_len(&headers[j], v);
-                        if r.is_err() {
-                            break;
-                        }
-                        if let Some(i) = col_slot[j] {
-                            slots[i].get_or_insert(v);
-                        }
-                    }
-                    let t = r.and_then(|_| target_from_slots(&slots));
-                    push_target(&mut seen, t, file, line, on_target, on_problem);
-                }
-            }
-            Err(e) => {
-                let line = e
-                    .position()
-                    .map(|p| p.line() as usize)
-                    .unwrap_or(line_before);
-                let msg = match e.kind() {
-                    csv::ErrorKind::Utf8 { err, .. } => format!(
-                        "field {} is not UTF-8 text (save the file as UTF-8); row skipped",
-                        err.field() + 1
-                    ),
-                    _ => format!("unreadable row: {e}"),
-                };
-                on_problem(RungError::InFile {
-                    loc: loc(file, line, ""),
-                    msg,
-                });
-                if matches!(e.kind(), csv::ErrorKind::Io(_)) {
-                    break;
-                }
-            }
-        }
-        let r = read.get();
-        if r >= last_progress + PROGRESS_STEP_BYTES {
-            last_progress = r;
-            on_progress(r, total_bytes.max(r));
-        }
-    }
-    let r = read.get();
-    on_progress(r, total_bytes.max(r));
+    read_csv(reader, file, total_bytes, None, &mut sink);
 }
 
-/// Stream a CSV targets file: each good target goes to `on_target` and each
-/// refused row to `on_problem`, in file order, with memory bounded by one line
+/// Stream a CSV targets file: each good target goes to `on_target`, each
+/// refused row to `on_problem` and each column rung does not read to
+/// `on_warning`, in file order, with memory bounded by one line
 /// ([`MAX_LINE_BYTES`]) plus the set of names seen (for the duplicate check),
 /// whatever the size of the file.
 pub fn stream_csv(
     path: &Path,
     on_target: &mut dyn FnMut(Target),
     on_problem: &mut dyn FnMut(RungError),
+    on_warning: &mut dyn FnMut(RungError),
 ) -> Result<()> {
-    stream_csv_progress(path, on_target, on_problem, &mut |_, _| {})
+    stream_csv_progress(path, on_target, on_problem, on_warning, &mut |_, _| {})
 }
 
 /// [`stream_csv`] with a progress callback `on_progress(bytes_read, total_bytes)`.
@@ -775,11 +479,20 @@ pub fn stream_csv_progress(
     path: &Path,
     on_target: &mut dyn FnMut(Target),
     on_problem: &mut dyn FnMut(RungError),
+    on_warning: &mut dyn FnMut(RungError),
     on_progress: &mut dyn FnMut(u64, u64),
 ) -> Result<()> {
     let f = open_file(path)?;
     let total = f.metadata().map(|m| m.len()).unwrap_or(0);
-    stream_csv_reader(f, path, total, on_target, on_problem, on_progress);
+    stream_csv_reader(
+        f,
+        path,
+        total,
+        on_target,
+        on_problem,
+        on_warning,
+        on_progress,
+    );
     Ok(())
 }
 
@@ -796,114 +509,161 @@ fn open_file(path: &Path) -> Result<std::fs::File> {
 
 /// Parse CSV text (header row first).
 pub fn parse_csv(text: &str, file: &Path) -> Loaded {
-    let mut targets = Vec::new();
-    let mut problems = Vec::new();
-    stream_csv_reader(
+    csv_text(text, file, false)
+}
+
+/// Parse CSV text keeping how it was written (see [`load_keeping`]).
+pub fn parse_csv_keeping(text: &str, file: &Path) -> Loaded {
+    csv_text(text, file, true)
+}
+
+fn csv_text(text: &str, file: &Path, keep_layout: bool) -> Loaded {
+    let mut out = Loaded::default();
+    let mut keep = keep_layout.then(|| Keep {
+        text,
+        items: Vec::new(),
+        columns: Vec::new(),
+        newline: "\n".into(),
+        rows: Vec::new(),
+    });
+    let Loaded {
+        targets,
+        problems,
+        warnings,
+        ..
+    } = &mut out;
+    let mut sink = Sink {
+        target: &mut |t| targets.push(t),
+        problem: &mut |p| problems.push(p),
+        warning: &mut |w| warnings.push(w),
+        progress: &mut |_, _| {},
+    };
+    read_csv(
         text.as_bytes(),
         file,
         text.len() as u64,
-        &mut |t| targets.push(t),
-        &mut |p| problems.push(p),
-        &mut |_, _| {},
+        keep.as_mut(),
+        &mut sink,
     );
-    Loaded { targets, problems }
-}
-
-fn push_target(
-    seen: &mut Seen,
-    target: std::result::Result<Target, (String, String)>,
-    file: &Path,
-    line: usize,
-    on_target: &mut dyn FnMut(Target),
-    on_problem: &mut dyn FnMut(RungError),
-) {
-    match target {
-        Ok(t) => {
-            if seen.contains(t.name.as_str()) {
-                on_problem(RungError::InFile {
-                    loc: loc(file, line, "name"),
-                    msg: format!("'{}' is already used by an earlier row", cut(&t.name)),
-                });
-            } else {
-                seen.insert(t.name.as_str().into());
-                on_target(t);
-            }
+    if let Some(k) = keep.filter(|k| !k.columns.is_empty()) {
+        let layout = Arc::new(Layout {
+            text: text.to_string(),
+            columns: k.columns,
+            items: k.items,
+            newline: k.newline,
+        });
+        for (t, item) in out.targets.iter_mut().zip(k.rows) {
+            let fields = t
+                .written
+                .0
+                .as_ref()
+                .map(|w| w.fields.clone())
+                .unwrap_or_default();
+            t.written = Written(Some(Arc::new(AsWritten {
+                fields,
+                row: Some(RowRef {
+                    layout: layout.clone(),
+                    item,
+                }),
+            })));
         }
-        Err((field, msg)) => on_problem(RungError::InFile {
-            loc: loc(file, line, &field),
-            msg,
-        }),
+        out.layout = Some(layout);
     }
+    out
 }
 
 /// Parse TOML text: `[[target]]` tables with the same field names as the CSV columns.
 pub fn parse_toml(text: &str, file: &Path) -> Loaded {
+    toml_text(text, file, false)
+}
+
+fn toml_text(text: &str, file: &Path, keep: bool) -> Loaded {
+    use toml::de::{DeTable, DeValue};
     let mut out = Loaded::default();
-    let doc: toml::Table = match text.parse() {
+    let doc = match DeTable::parse(text) {
         Ok(d) => d,
         Err(e) => {
             let line = e
                 .span()
                 .map(|s| crate::error::line_at(text, s.start))
                 .unwrap_or(1);
-            out.problems.push(RungError::InFile {
-                loc: loc(file, line, ""),
-                msg: format!("not valid TOML: {}", e.message()),
-            });
+            out.problems.push(in_file(
+                file,
+                line,
+                "",
+                format!("not valid TOML: {}", e.message()),
+            ));
             return out;
         }
     };
-    let Some(list) = doc.get("target").and_then(|v| v.as_array()) else {
-        out.problems.push(RungError::InFile {
-            loc: loc(file, 1, "target"),
-            msg: "no [[target]] tables found".into(),
-        });
+    let Some(list) = doc
+        .get_ref()
+        .get("target")
+        .and_then(|v| v.get_ref().as_array())
+    else {
+        out.problems
+            .push(in_file(file, 1, "target", "no [[target]] tables found"));
         return out;
     };
     // Lines of the [[target]] headers, to place errors.
     let header_lines = array_table_lines(text, "target", list.len());
     let mut seen = Seen::new();
-    let Loaded { targets, problems } = &mut out;
     for (i, item) in list.iter().enumerate() {
         let line = header_lines.get(i).copied().unwrap_or(0);
-        let Some(tab) = item.as_table() else {
-            problems.push(RungError::InFile {
-                loc: loc(file, line, ""),
-                msg: "not a table".into(),
-            });
+        let Some(tab) = item.get_ref().as_table() else {
+            out.problems.push(in_file(file, line, "", "not a table"));
             continue;
         };
         let mut fields = Vec::new();
-        let mut bad = None;
-        for (k, v) in tab {
-            let s = match v {
-                toml::Value::String(s) => s.clone(),
-                toml::Value::Integer(i) => i.to_string(),
-                toml::Value::Float(f) => f.to_string(),
-                toml::Value::Boolean(b) => b.to_string(),
-                toml::Value::Datetime(d) => d.to_string(),
+        let mut refused = None;
+        for (k, v) in tab.iter() {
+            let key = k.get_ref().to_ascii_lowercase();
+            let key_line = crate::error::line_at(text, k.span().start);
+            let s = match v.get_ref() {
+                DeValue::String(s) => s.to_string(),
+                DeValue::Integer(i) if i.radix() == 10 => i.as_str().to_string(),
+                DeValue::Integer(i) => i64::from_str_radix(i.as_str(), i.radix())
+                    .map(|n| n.to_string())
+                    .unwrap_or_else(|_| i.to_string()),
+                DeValue::Float(f) => f.as_str().to_string(),
+                DeValue::Boolean(b) => b.to_string(),
+                DeValue::Datetime(d) => d.to_string(),
                 _ => {
-                    bad = Some(k.clone());
-                    String::new()
+                    refused.get_or_insert((
+                        line,
+                        key.clone(),
+                        "must be a single value".to_string(),
+                    ));
+                    continue;
                 }
             };
-            fields.push((k.to_ascii_lowercase(), s));
+            if column_index(&key).is_none() {
+                match meant_field(&key) {
+                    Some(m) => {
+                        refused.get_or_insert((key_line, key.clone(), misspelt(m)));
+                    }
+                    None => out.warnings.push(in_file(file, key_line, &key, UNREAD)),
+                }
+            }
+            fields.push((key, s));
         }
-        if let Some(k) = bad {
-            problems.push(RungError::InFile {
-                loc: loc(file, line, &k),
-                msg: "must be a single value".into(),
-            });
+        if let Some((l, k, m)) = refused {
+            out.problems.push(in_file(file, l, &k, m));
             continue;
         }
-        push_target(
-            &mut seen,
-            target_from_fields(&fields),
-            file,
-            line,
-            &mut |t| targets.push(t),
-            &mut |p| problems.push(p),
-        );
+        match target_from_pairs(&fields, keep) {
+            Ok(t) if seen.contains(t.name.as_str()) => out.problems.push(in_file(
+                file,
+                line,
+                "name",
+                format!("'{}' is already used by an earlier row", cut(&t.name)),
+            )),
+            Ok(t) => {
+                seen.insert(t.name.as_str().into());
+                out.targets.push(t);
+            }
+            Err((f, m)) => out.problems.push(in_file(file, line, &f, m)),
+        }
     }
     out
 }
@@ -937,15 +697,6 @@ pub(crate) fn array_table_lines(text: &str, name: &str, count: usize) -> Vec<usi
     }
 }
 
-/// Unknown column names in a CSV header (reported as warnings by the command line).
-pub fn unknown_columns(headers: &[String]) -> Vec<String> {
-    headers
-        .iter()
-        .filter(|h| !KNOWN.contains(&h.as_str()))
-        .cloned()
-        .collect()
-}
-
 /// Read a targets file (by extension: `.toml`, else CSV). CSV is always read
 /// as a stream (see [`stream_csv`]), so even a file of millions of rows never
 /// has its text in memory; TOML is parsed whole and refused above
@@ -954,23 +705,38 @@ pub fn load(path: &Path) -> Result<Loaded> {
     load_with_progress(path, &mut |_, _| {})
 }
 
+fn is_toml(path: &Path) -> bool {
+    path.extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("toml"))
+}
+
 /// [`load`] with a progress callback `on_progress(bytes_read, total_bytes)`
 /// (called about every MiB while a CSV file streams, and once at the end).
 pub fn load_with_progress(path: &Path, on_progress: &mut dyn FnMut(u64, u64)) -> Result<Loaded> {
-    let is_toml = path
-        .extension()
-        .is_some_and(|e| e.eq_ignore_ascii_case("toml"));
-    if !is_toml {
-        let mut targets = Vec::new();
-        let mut problems = Vec::new();
+    if !is_toml(path) {
+        let mut out = Loaded::default();
+        let Loaded {
+            targets,
+            problems,
+            warnings,
+            ..
+        } = &mut out;
         stream_csv_progress(
             path,
             &mut |t| targets.push(t),
             &mut |p| problems.push(p),
+            &mut |w| warnings.push(w),
             on_progress,
         )?;
-        return Ok(Loaded { targets, problems });
+        return Ok(out);
     }
+    let text = read_toml_text(path)?;
+    let len = text.len() as u64;
+    on_progress(len, len);
+    Ok(parse_toml(&text, path))
+}
+
+fn read_toml_text(path: &Path) -> Result<String> {
     let f = open_file(path)?;
     let len = f.metadata().map(|m| m.len()).unwrap_or(0);
     if len > MAX_TOML_BYTES {
@@ -988,7 +754,7 @@ pub fn load_with_progress(path: &Path, on_progress: &mut dyn FnMut(u64, u64)) ->
     }
     drop(f);
     let bytes = std::fs::read(path).map_err(|e| RungError::io(path, e))?;
-    let text = String::from_utf8(bytes).map_err(|e| RungError::InFile {
+    String::from_utf8(bytes).map_err(|e| RungError::InFile {
         loc: Location {
             file: Some(PathBuf::from(path)),
             line: Some(
@@ -1000,9 +766,60 @@ pub fn load_with_progress(path: &Path, on_progress: &mut dyn FnMut(u64, u64)) ->
             field: None,
         },
         msg: "is not UTF-8 text".into(),
-    })?;
-    on_progress(len, len);
-    Ok(parse_toml(&text, path))
+    })
+}
+
+/// Read a programme to edit and save: like [`load`], but every target keeps
+/// how its fields were written and, for a CSV file that is UTF-8 text, the
+/// file's layout (comments, column order, refused rows), so that
+/// [`crate::io::write_targets::to_csv`] writes back what the user wrote with
+/// only the edits changed. The text is held whole (a programme being edited
+/// is read whole anyway).
+pub fn load_keeping(path: &Path) -> Result<Loaded> {
+    if is_toml(path) {
+        let text = read_toml_text(path)?;
+        return Ok(toml_text(&text, path, true));
+    }
+    let f = open_file(path)?;
+    drop(f);
+    let bytes = std::fs::read(path).map_err(|e| RungError::io(path, e))?;
+    match String::from_utf8(bytes) {
+        Ok(text) => Ok(csv_text(&text, path, true)),
+        // A file with rows that are not UTF-8: read as a stream, without layout.
+        Err(_) => load(path),
+    }
+}
+
+/// The target named `name` in `file`'s targets. Names match exactly, case
+/// included: a name that differs only in case is offered as a hint (and when
+/// several do, all are named), never taken in its place.
+pub fn find_by_name(targets: Vec<Target>, name: &str, file: &Path) -> Result<Target> {
+    let mut near = Vec::new();
+    for t in targets {
+        if t.name == name {
+            return Ok(t);
+        }
+        if t.name.to_lowercase() == name.to_lowercase() {
+            near.push(format!("'{}'", t.name));
+        }
+    }
+    let hint = match near.len() {
+        0 => String::new(),
+        1 => format!(
+            "; did you mean {}? (names match exactly, case included)",
+            near[0]
+        ),
+        _ => format!(
+            "; names match exactly, case included, and {} differ from it only in case",
+            near.join(" and ")
+        ),
+    };
+    Err(in_file(
+        file,
+        0,
+        "",
+        format!("no target named '{}'{hint}", cut(name)),
+    ))
 }
 
 #[cfg(test)]
@@ -1040,5 +857,47 @@ mod tests {
         let l = parse_csv(&csv, Path::new("t.csv"));
         assert_eq!(l.targets.len(), 1);
         assert!(l.problems[0].to_string().contains("limit"));
+    }
+
+    #[test]
+    fn names_match_exactly() {
+        let l = parse_csv(
+            "name,ra,dec\nAlpha,1,2\nALPHA,3,4\nbeta,5,6\n",
+            Path::new("t.csv"),
+        );
+        let f = Path::new("t.csv");
+        assert_eq!(
+            find_by_name(l.targets.clone(), "ALPHA", f).unwrap().ra_deg,
+            3.0
+        );
+        let e = find_by_name(l.targets.clone(), "Beta", f)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.ends_with("did you mean 'beta'? (names match exactly, case included)"),
+            "{e}"
+        );
+        let e = find_by_name(l.targets, "alpha", f).unwrap_err().to_string();
+        assert!(
+            e.contains("'Alpha' and 'ALPHA' differ from it only in case"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn misspelt_fields_are_recognised() {
+        for (typed, meant) in [
+            ("paralax_mas", "parallax_mas"),
+            ("Parallax MAS", "parallax_mas"),
+            ("period", "period_d"),
+            ("pm_ra_masy", "pm_ra_masyr"),
+            ("note", "notes"),
+            ("decl", "dec"),
+        ] {
+            assert_eq!(meant_field(typed), Some(meant), "{typed}");
+        }
+        for other in ["observer", "id", "comment", "", "host_galaxy"] {
+            assert_eq!(meant_field(other), None, "{other}");
+        }
     }
 }

@@ -1,39 +1,23 @@
-//! The target form: every field as text, validated by the same reader that
-//! loads targets files (`rung::io::targets::target_from_fields`).
+//! The target form: every field of the fields table as text, shown for the
+//! kinds that use it, validated by the same reader that loads targets files
+//! (`rung::io::kinds::target_from_pairs`). The text typed is kept on the
+//! target, so a save writes it as typed (`10:00:00` stays sexagesimal).
 
-use crate::io::targets::{BANDS, Kind, Target, target_from_fields};
-use crate::io::write_targets::{COLUMNS, field_text, kind_uses};
-
-/// Kinds in the order the form cycles through them.
-pub const KINDS: [Kind; 4] = [Kind::Parallax, Kind::Pulsator, Kind::Transient, Kind::Plain];
+use crate::io::kinds::{AsWritten, COLUMNS, Kind, Target, Ty, Written, column, target_from_pairs};
+use crate::io::write_targets::field_text;
+use std::sync::Arc;
 
 /// What a field is, in words, with its unit (shown beside it).
-pub fn field_hint(column: &str) -> &'static str {
-    match column {
-        "name" => "unique name",
-        "kind" => "←/→ to choose",
-        "ra" => "ICRS, degrees or hh:mm:ss",
-        "dec" => "ICRS, degrees or ±dd:mm:ss",
-        "parallax_mas" => "expected parallax, mas",
-        "pm_ra_masyr" => "μα cos δ, mas/yr",
-        "pm_dec_masyr" => "μδ, mas/yr",
-        "epoch_yr" => "epoch of position, Julian year",
-        "mag" => "magnitude in band",
-        "band" => "←/→ to choose",
-        "period_d" => "period, days",
-        "epoch_max_bjd" => "maximum light, BJD_TDB",
-        "period_err_d" => "period error, days",
-        "amplitude_mag" => "peak to peak, mag",
-        "mean_mag" => "mean magnitude",
-        "discovered" => "ISO 8601 UTC",
-        "peak_mag" => "expected peak, mag",
-        "mag_now" => "at discovery, mag",
-        "redshift" => "z",
-        "extinction_mag" => "foreground, mag",
-        "goal_pct" => "distance goal σd/d, %",
-        "priority" => "higher first",
-        "notes" => "free text",
-        _ => "",
+pub fn field_hint(key: &str) -> &'static str {
+    column(key).map_or("", |c| c.about)
+}
+
+/// The choices of a choice field (kind, band), if it is one.
+pub fn choices(key: &str) -> Option<Vec<&'static str>> {
+    match column(key)?.ty {
+        Ty::Kind => Some(crate::io::kinds::KINDS.iter().map(|k| k.name).collect()),
+        Ty::Choice(list) => Some(list.to_vec()),
+        _ => None,
     }
 }
 
@@ -42,7 +26,7 @@ pub fn field_hint(column: &str) -> &'static str {
 pub struct Form {
     /// The name of the target being edited, or `None` for a new one.
     pub editing: Option<String>,
-    /// Text of every column (see [`COLUMNS`]).
+    /// Text of every field of the fields table, in its order.
     pub values: Vec<(&'static str, String)>,
     /// Index of the focused field among [`Form::visible`].
     pub focus: usize,
@@ -59,12 +43,21 @@ pub fn degrees_text(v: f64) -> String {
     if t == "-0" { "0".into() } else { t.to_string() }
 }
 
+/// The text the form opens with for one field of a target: as written when
+/// that still holds, else the value (angles to 9 decimals).
+fn opening_text(t: &Target, key: &str) -> String {
+    let text = field_text(t, key);
+    match key {
+        "ra" if t.written.text("ra") != Some(text.as_str()) => degrees_text(t.ra_deg),
+        "dec" if t.written.text("dec") != Some(text.as_str()) => degrees_text(t.dec_deg),
+        _ => text,
+    }
+}
+
 impl Form {
     /// A form for a new target.
     pub fn blank() -> Self {
-        let mut t = Target::plain("", 0.0, 0.0);
-        t.name.clear();
-        let mut f = Self::from_target(&t);
+        let mut f = Self::from_target(&Target::plain("", 0.0, 0.0));
         f.editing = None;
         f.original = None;
         for (c, v) in f.values.iter_mut() {
@@ -81,11 +74,7 @@ impl Form {
             editing: Some(t.name.clone()),
             values: COLUMNS
                 .iter()
-                .map(|c| match *c {
-                    "ra" => (*c, degrees_text(t.ra_deg)),
-                    "dec" => (*c, degrees_text(t.dec_deg)),
-                    _ => (*c, field_text(t, c)),
-                })
+                .map(|c| (c.key, opening_text(t, c.key)))
                 .collect(),
             focus: 0,
             error: None,
@@ -95,36 +84,36 @@ impl Form {
 
     /// The kind the form currently says (plain when unreadable).
     pub fn kind(&self) -> Kind {
-        Kind::parse(self.value("kind")).unwrap_or(Kind::Plain)
+        Kind::parse(self.value("kind")).unwrap_or(crate::io::kinds::DEFAULT_KIND)
     }
 
-    /// The text of a column.
-    pub fn value(&self, column: &str) -> &str {
+    /// The text of a field.
+    pub fn value(&self, key: &str) -> &str {
         self.values
             .iter()
-            .find(|(c, _)| *c == column)
+            .find(|(c, _)| *c == key)
             .map(|(_, v)| v.as_str())
             .unwrap_or("")
     }
 
-    fn value_mut(&mut self, column: &str) -> Option<&mut String> {
+    fn value_mut(&mut self, key: &str) -> Option<&mut String> {
         self.values
             .iter_mut()
-            .find(|(c, _)| *c == column)
+            .find(|(c, _)| *c == key)
             .map(|(_, v)| v)
     }
 
-    /// The columns shown for the current kind, in order.
+    /// The fields shown for the current kind, in order.
     pub fn visible(&self) -> Vec<&'static str> {
         let k = self.kind();
         COLUMNS
             .iter()
-            .copied()
-            .filter(|c| kind_uses(k, c))
+            .map(|c| c.key)
+            .filter(|c| k.uses(c))
             .collect()
     }
 
-    /// The focused column.
+    /// The focused field.
     pub fn focused(&self) -> &'static str {
         let v = self.visible();
         v[self.focus.min(v.len() - 1)]
@@ -157,61 +146,56 @@ impl Form {
     /// Step a choice field (kind, band) by `d`.
     pub fn cycle(&mut self, d: i32) {
         let col = self.focused();
-        let opts: Vec<String> = match col {
-            "kind" => KINDS.iter().map(|k| k.as_str().to_string()).collect(),
-            "band" => BANDS.iter().map(|b| b.to_string()).collect(),
-            _ => return,
+        let Some(opts) = choices(col) else {
+            return;
         };
-        let cur = self.value(col).trim().to_ascii_lowercase();
+        let cur = self.value(col).trim().to_string();
         let i = opts
             .iter()
-            .position(|o| o.to_ascii_lowercase() == cur)
+            .position(|o| o.eq_ignore_ascii_case(&cur))
             .map(|i| i as i32)
             .unwrap_or(-1);
         let n = opts.len() as i32;
         let next = (i + d).rem_euclid(n) as usize;
         if let Some(v) = self.value_mut(col) {
-            *v = opts[next].clone();
+            *v = opts[next].to_string();
         }
-        // Keep the focus on the kind field when the visible set changes.
-        if col == "kind" {
-            self.focus = self
-                .visible()
-                .iter()
-                .position(|c| *c == "kind")
-                .unwrap_or(0);
-        }
+        // Keep the focus on the field when the visible set changes.
+        self.focus = self.visible().iter().position(|c| *c == col).unwrap_or(0);
         self.error = None;
     }
 
     /// Check the form: the target it describes, or the field and what is wrong.
-    /// Fields the kind does not use are not kept.
+    /// Fields the kind does not use keep their values (hidden), so switching a
+    /// kind back and forth loses nothing and a save drops nothing.
     pub fn check(&self, others: &[Target]) -> Result<Target, (String, String)> {
-        let k = self.kind();
         let fields: Vec<(String, String)> = self
             .values
             .iter()
-            .filter(|(c, _)| kind_uses(k, c) || *c == "kind")
             .map(|(c, v)| (c.to_string(), v.clone()))
             .collect();
-        if Kind::parse(self.value("kind")).is_none() {
-            return Err((
-                "kind".into(),
-                format!(
-                    "'{}' is not one of parallax, pulsator, transient, plain",
-                    self.value("kind")
-                ),
-            ));
-        }
-        let mut t = target_from_fields(&fields)?;
-        // Unchanged coordinates keep their exact value (the text shows 9 decimals).
+        let mut t = target_from_pairs(&fields, true)?;
         if let Some(o) = &self.original {
-            if self.value("ra") == degrees_text(o.ra_deg) {
+            let opened = Form::from_target(o);
+            // Unchanged coordinates keep their exact value (the text may show 9 decimals).
+            if self.value("ra") == opened.value("ra") {
                 t.ra_deg = o.ra_deg;
             }
-            if self.value("dec") == degrees_text(o.dec_deg) {
+            if self.value("dec") == opened.value("dec") {
                 t.dec_deg = o.dec_deg;
             }
+            // Keep the row the target came from, and fields the form does not show.
+            let mut typed = t.written.0.as_deref().cloned().unwrap_or_default();
+            if let Some(w) = o.written.0.as_deref() {
+                typed.row = w.row.clone();
+                typed.fields.extend(
+                    w.fields
+                        .iter()
+                        .filter(|(k, _)| column(k).is_none())
+                        .cloned(),
+                );
+            }
+            t.written = Written(Some(Arc::new(AsWritten { ..typed })));
         }
         if others
             .iter()
@@ -225,9 +209,9 @@ impl Form {
         Ok(t)
     }
 
-    /// Put the focus on a column (after a validation failure).
-    pub fn focus_on(&mut self, column: &str) {
-        if let Some(i) = self.visible().iter().position(|c| *c == column) {
+    /// Put the focus on a field (after a validation failure).
+    pub fn focus_on(&mut self, key: &str) {
+        if let Some(i) = self.visible().iter().position(|c| *c == key) {
             self.focus = i;
         }
     }

@@ -128,10 +128,23 @@ pub struct Programme {
     pub save_path: PathBuf,
     /// Whether the programme is the demo (never overwritten).
     pub is_demo: bool,
-    /// Rows of the source refused when loading (kept only in the backup copy).
+    /// Rows of the source refused when loading (a save keeps them in the file
+    /// as they are when the file's layout is known, else only in the backup copy).
     pub refused_rows: usize,
     /// The source file's bytes as loaded; written once as a backup before the first save over it.
     pub original: Option<Vec<u8>>,
+    /// The source file as written (comments, column order, refused rows), for
+    /// saves that keep it even when every target read from it is removed.
+    pub layout: Option<std::sync::Arc<crate::io::csv_text::Layout>>,
+}
+
+impl Programme {
+    /// The programme's text as a save writes it: the targets in the layout of
+    /// the file they were read from (see [`crate::io::write_targets`]).
+    pub fn text_of(&self, targets: &[crate::io::targets::Target]) -> String {
+        let layout = crate::io::write_targets::layout_of(targets).or_else(|| self.layout.clone());
+        crate::io::write_targets::to_csv_in(layout.as_ref(), targets)
+    }
 }
 
 impl Programme {

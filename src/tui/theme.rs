@@ -157,13 +157,7 @@ pub fn hours_glyph(h: f64) -> char {
     }
 }
 
-/// A shape for each kind, so kinds differ without colour.
+/// A shape for each kind, so kinds differ without colour (the kinds table's glyph).
 pub fn kind_glyph(k: crate::io::targets::Kind) -> char {
-    use crate::io::targets::Kind;
-    match k {
-        Kind::Parallax => '◆',
-        Kind::Pulsator => '∿',
-        Kind::Transient => '✶',
-        Kind::Plain => '○',
-    }
+    k.glyph()
 }

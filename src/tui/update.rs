@@ -6,7 +6,6 @@ use crate::astro::site::Site;
 use crate::astro::time::Instant;
 use crate::astro::{pointing, sun_caution};
 use crate::io::targets::Target;
-use crate::io::write_targets::to_csv;
 use crate::tui::form::Form;
 use crate::tui::keymap::{self, Scope};
 use crate::tui::msg::{Action, Effect, Msg, NightJob, PlanJob, RecoveryOp, SeasonJob};
@@ -121,7 +120,7 @@ fn keep_edits(s: &State) -> Effect {
     Effect::Recovery {
         path: s.programme.recovery_path(),
         op: if s.dirty() {
-            RecoveryOp::Keep(to_csv(&s.targets))
+            RecoveryOp::Keep(s.programme.text_of(&s.targets))
         } else {
             RecoveryOp::Remove
         },
@@ -401,7 +400,7 @@ fn save(s: &mut State) -> Option<Effect> {
     say(s, format!("saving {} …", path.display()), Level::Info);
     Some(Effect::Save {
         path,
-        text: to_csv(&s.targets),
+        text: s.programme.text_of(&s.targets),
         backup,
     })
 }

@@ -1,7 +1,7 @@
 //! Overlays: the key help (drawn from the key table), the target form, the
 //! site picker and yes/no questions.
 
-use crate::tui::form::{Form, field_hint};
+use crate::tui::form::{Form, choices, field_hint};
 use crate::tui::keymap::{Scope, help_lines, keys_for};
 use crate::tui::msg::Action;
 use crate::tui::state::{Question, State};
@@ -101,10 +101,12 @@ pub fn form(s: &State, f: &Form, area: Rect, buf: &mut Buffer) {
             if bad { s.theme.warn() } else { s.theme.text() },
         );
         let v = f.value(col);
-        let shown = match *col {
-            "kind" | "band" => format!("◂ {v} ▸"),
-            _ if focused => format!("{v}▏"),
-            _ => v.to_string(),
+        let shown = if choices(col).is_some() {
+            format!("◂ {v} ▸")
+        } else if focused {
+            format!("{v}▏")
+        } else {
+            v.to_string()
         };
         let vs = if focused {
             s.theme.selected()
