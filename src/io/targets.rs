@@ -177,8 +177,17 @@ fn read_header(rec: &Record, file: &Path, sink: &mut Sink) -> Option<Header> {
         ));
         return None;
     }
+    // A byte-order mark before the first name (some spreadsheets write one) is not part of it.
     let names: Vec<String> = (0..rec.len())
-        .map(|i| rec.value(i).unwrap_or("").to_ascii_lowercase())
+        .map(|i| {
+            let v = rec.value(i).unwrap_or("");
+            let v = if i == 0 {
+                v.trim_start_matches('\u{feff}')
+            } else {
+                v
+            };
+            v.trim().to_ascii_lowercase()
+        })
         .collect();
     let required: Vec<&str> = COLUMNS
         .iter()
@@ -848,6 +857,17 @@ mod tests {
         assert_eq!(l.targets.len(), 1);
         let m = l.problems[0].to_string();
         assert!(m.contains("line 9") && m.contains("dec"), "{m}");
+    }
+
+    #[test]
+    fn a_byte_order_mark_is_not_part_of_the_first_column() {
+        let l = parse_csv("\u{feff}Name,RA,Dec\r\nA,1,2\r\n", Path::new("t.csv"));
+        assert!(
+            l.problems.is_empty() && l.warnings.is_empty(),
+            "{:?}",
+            l.problems
+        );
+        assert_eq!(l.targets.len(), 1);
     }
 
     #[test]

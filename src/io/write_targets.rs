@@ -222,8 +222,9 @@ fn into_layout(l: &Arc<Layout>, targets: &[Target]) -> String {
     }
     for (t, _) in targets.iter().zip(&placed).filter(|(_, p)| !**p) {
         line_ended(&mut out);
-        let cols = l.columns.iter().chain(&more);
-        push_row(&mut out, cols.map(|c| added_text(t, c)), &l.newline);
+        let texts = l.columns.iter().map(|c| field_text(t, c));
+        let added = more.iter().map(|c| added_text(t, c));
+        push_row(&mut out, texts.chain(added), &l.newline);
     }
     out
 }
