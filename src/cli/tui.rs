@@ -60,7 +60,21 @@ fn load(path: &Path) -> Result<Read> {
         .problems
         .first()
         .map(|p| format!("{} row(s) refused, first: {p} — {kept}", l.problems.len()))
-        .or_else(|| l.warnings.first().map(|w| format!("warning: {w}")));
+        .or_else(|| {
+            // Short enough for the status line: the field, not the whole path.
+            let w = l.warnings.first()?;
+            let more = match l.warnings.len() {
+                1 => String::new(),
+                n => format!(" ({} more warnings)", n - 1),
+            };
+            Some(match w {
+                rung::RungError::InFile { loc, .. } if loc.field.is_some() => format!(
+                    "'{}' is not a field rung reads: kept as it is when you save{more}",
+                    loc.field.as_deref().unwrap_or("")
+                ),
+                _ => format!("warning: {w}{more}"),
+            })
+        });
     Ok(Read {
         targets: l.targets,
         refused: l.problems.len(),
