@@ -9,6 +9,7 @@
 
 pub mod astro;
 pub mod config;
+pub mod bounds;
 pub mod error;
 pub mod io;
 pub mod ladder;

@@ -14,6 +14,8 @@ const SPAN: &str = "is outside rung's valid span (1960-01-01 to 2099-12-31): the
 const ISO: &str =
     "expected ISO 8601 such as 2026-12-01T23:15:00Z (UTC), 2026-12-01T20:15:00-03:00, or 'now'";
 const RA: &str = "expected degrees 0..360 (83.63) or hours HH:MM:SS.s below 24h (05:34:31.9)";
+const EXPOSURE: &str =
+    "an exposure takes time, and one visit's exposure cannot last longer than a day (86,400 s)";
 
 fn err<T>(r: rung::Result<T>) -> String {
     match r {
@@ -375,6 +377,11 @@ fn plan_files() {
         ("P13", bad("\"to\": \"2026-03-03\"", "\"to\": \"2100-01-03\""), format!("p.json, field 'to': 2100-01-03 {SPAN}")),
         ("P14", bad("\"end\": \"2026-03-02T01:10:00Z\"", "\"end\": \"2026-03-02T00:50:00Z\""), "p.json, field 'visits': visit 'A#1' ends before it starts".into()),
         ("P15", err(parse(&twice, p)), "p.json, field 'visits': visit id 'A#1' appears twice".into()),
+        ("P20", bad("\"exptime_s\": 60.0", "\"exptime_s\": -60.0"), format!("p.json, field 'exptime_s': visit 'A#1': -60 s is not within (0, 86400] s: {EXPOSURE}")),
+        ("P21", bad("\"night\": \"2026-03-01\"", "\"night\": \"2030-01-05\""), "p.json, field 'night': visit 'A#1': 2030-01-05 is outside the plan's nights, 2026-03-01 to 2026-03-03".into()),
+        ("P22", bad("\"lost_nights\": []", "\"lost_nights\": [\"1970-01-01\"]"), "p.json, field 'lost_nights': 1970-01-01 is outside the plan's nights, 2026-03-01 to 2026-03-03".into()),
+        ("P23", bad("\"end\": \"2026-03-02T01:10:00Z\"", "\"end\": \"2026-03-05T01:10:00Z\""), "p.json, field 'end': visit 'A#1': 2026-03-05T01:10:00Z is not in its night of 2026-03-01".into()),
+        ("P24", bad("\"n_exposures\": 1", "\"n_exposures\": 0"), "p.json, field 'n_exposures': visit 'A#1': 0 is not within 1..10000 sub-exposures".into()),
         ("V1", err(marked.mark(&["A#9".into()], rung::plan::schedule::Status::Done)), "unknown visit 'A#9'; visit ids look like NAME#N (see the plan's CSV or JSON)".into()),
     ] {
         check(id, got, want);
@@ -729,7 +736,7 @@ fn instruments_toml() {
         (
             "I3",
             bad("aperture_m = 1.0", "aperture_m = -1.0"),
-            "i.toml, line 3, field 'aperture_m': instrument test-1m: -1 must be a positive number",
+            "i.toml, line 3, field 'aperture_m': instrument test-1m: -1 m is not within 0.01..50 m: from a 1 cm lens to beyond the largest telescope being built (39 m)",
         ),
         (
             "I4",

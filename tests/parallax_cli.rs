@@ -148,7 +148,7 @@ fn bad_input_gives_one_clear_line() {
             "--mag",
             "12",
         ],
-        "not positive",
+        "--parallax-mas: -5 mas is not within (0, 1000] mas",
     );
     fails_with(
         &["parallax", "--ra", "10", "--dec", "-20", "--mag", "12"],

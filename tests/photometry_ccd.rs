@@ -242,7 +242,7 @@ fn closed_form_exptime_inverts_the_equation() {
     // The full solver (optimal aperture, split) reaches the goal.
     let ins = demo();
     for mag in [14.0, 18.0, 20.0, 22.0] {
-        let b = demo_rates(mag).exptime_for(50.0, &ins);
+        let b = demo_rates(mag).exptime_for(50.0, &ins).unwrap();
         assert!(b.snr >= 50.0 * (1.0 - 1e-6), "{mag}: {}", b.snr);
         assert!(
             b.snr <= 50.0 * 1.001 || b.exptime_s == ins.min_exptime_s,
@@ -267,14 +267,122 @@ fn bright_stars_are_split_and_very_bright_ones_saturate() {
         ins.saturation_e(),
     );
     assert!(single.peak_pixel_electrons > ins.peak_limit_e());
-    let b = r.exptime_for(1000.0, &ins);
+    let b = r.exptime_for(1000.0, &ins).unwrap();
     assert!(b.n_exposures > 1, "{b:?}");
     assert!(b.peak_pixel_electrons <= ins.peak_limit_e() * (1.0 + 1e-9));
     assert!(!b.saturated);
     assert!(b.snr >= 1000.0 * (1.0 - 1e-6));
     // V = 6 passes the full well in the shortest exposure (1 s): flagged.
-    let b = demo_rates(6.0).exptime_for(100.0, &ins);
+    let b = demo_rates(6.0).exptime_for(100.0, &ins).unwrap();
     assert!(b.saturated && b.peak_pixel_electrons > ins.saturation_e());
+}
+
+/// The exposure search against its own rules, checked by brute force:
+/// every sub-exposure within the shutter's shortest and the instrument's
+/// longest exposure, the peak pixel under the linear limit unless even the
+/// shortest exposure passes it, the goal reached, and no split with fewer
+/// sub-exposures reaching the goal within those rules (so no shorter total).
+#[test]
+fn the_exposure_search_keeps_its_rules_and_finds_the_fewest_splits() {
+    let ins = demo();
+    let lin = ins.peak_limit_e();
+    let mut checked = 0;
+    for mag in (0..=60).map(|i| 6.0 + 0.25 * i as f64) {
+        let r = demo_rates(mag);
+        for snr in [20.0, 100.0, 300.0, 600.0, 1000.0] {
+            let Ok(b) = r.exptime_for(snr, &ins) else {
+                continue;
+            };
+            checked += 1;
+            let what = format!("V = {mag}, SNR {snr}: {b:?}");
+            let sub = b.sub_exptime_s;
+            assert!(sub >= ins.min_exptime_s * (1.0 - 1e-9), "{what}");
+            assert!(sub <= ins.max_sub_exptime_s * (1.0 + 1e-9), "{what}");
+            assert!(b.snr >= snr * (1.0 - 1e-6), "{what}");
+            let shortest_passes = r.peak_e_per_s() * ins.min_exptime_s > lin;
+            if shortest_passes {
+                assert!((sub - ins.min_exptime_s).abs() < 1e-9, "{what}");
+            } else {
+                assert!(b.peak_pixel_electrons <= lin * (1.0 + 1e-9), "{what}");
+                assert!(!b.saturated, "{what}");
+            }
+            // Fewer sub-exposures, each as long as the rules allow, fall short.
+            let cap = r.longest_sub_s(&ins).max(ins.min_exptime_s);
+            for n in 1..b.n_exposures {
+                let t = n as f64 * cap;
+                let best = r.evaluate(t, n, r.best_radius_pix(t, n), f64::INFINITY).snr;
+                assert!(
+                    best < snr * (1.0 + 1e-6),
+                    "{what}: {n} × {cap} s gives {best}"
+                );
+            }
+            // The SNR of the total found splits the same way (one rule both ways).
+            let back = r.snr_for(b.exptime_s, &ins).unwrap();
+            assert_eq!(back.n_exposures, b.n_exposures, "{what}");
+            assert!((back.snr / b.snr - 1.0).abs() < 1e-6, "{what}");
+        }
+    }
+    assert!(checked > 200, "{checked}");
+}
+
+/// When one exposure would pass the linear limit and the total needed lies
+/// between one and two of the shortest exposures, two of the shortest reach
+/// the goal unsaturated: the search says so instead of one saturated exposure
+/// (it used to propose one of 1.97 s whose peak pixel passed the full well).
+#[test]
+fn two_shortest_exposures_beat_one_that_passes_the_limit() {
+    let ins = demo();
+    let mut found = 0;
+    for mag in (0..=80).map(|i| 8.0 + 0.05 * i as f64) {
+        let r = demo_rates(mag);
+        for snr in [400.0, 500.0, 600.0, 700.0] {
+            let t1 = r.exptime_closed_form(snr, 1, 4.0);
+            let one_passes = r.peak_e_per_s() * t1 > ins.peak_limit_e();
+            let shortest_ok = r.peak_e_per_s() * ins.min_exptime_s <= ins.peak_limit_e();
+            if !(t1 > 1.05 && t1 < 1.95 && one_passes && shortest_ok) {
+                continue;
+            }
+            found += 1;
+            let b = r.exptime_for(snr, &ins).unwrap();
+            assert_eq!(b.n_exposures, 2, "V = {mag}, SNR {snr}: {b:?}");
+            assert!(!b.saturated && b.peak_pixel_electrons <= ins.peak_limit_e());
+            assert!(b.snr >= snr * (1.0 - 1e-9));
+        }
+    }
+    assert!(found >= 3, "{found}");
+}
+
+/// Goals out of reach are refused with the reason, never answered with an
+/// endless exposure, a split into billions or a false SATURATED.
+#[test]
+fn out_of_reach_exposures_are_refused() {
+    let ins = demo();
+    let e = demo_rates(29.0)
+        .exptime_for(1000.0, &ins)
+        .unwrap_err()
+        .to_string();
+    assert!(
+        e.starts_with("invalid exposure: SNR 1000 needs ")
+            && e.ends_with(" h of exposure with lucero-1m, more than one visit may hold (24 h)"),
+        "{e}"
+    );
+    // A very bright star at a high goal needs more sub-exposures than a visit holds.
+    let mut tiny = ins.clone();
+    tiny.min_exptime_s = 1e-3;
+    let e = demo_rates(-1.5)
+        .exptime_for(10_000.0, &tiny)
+        .unwrap_err()
+        .to_string();
+    assert!(
+        e.contains("sub-exposures, more than the 10000 one visit may hold"),
+        "{e}"
+    );
+    // A total shorter than the shutter allows.
+    let e = demo_rates(15.0).snr_for(0.5, &ins).unwrap_err().to_string();
+    assert_eq!(
+        e,
+        "invalid exposure time: 0.5 s is shorter than the shortest exposure of lucero-1m (1 s)"
+    );
 }
 
 #[test]
@@ -283,7 +391,7 @@ fn limiting_magnitude_is_where_the_snr_reaches_the_threshold() {
     let r = demo_rates(20.0);
     let m = r.limiting_mag(20.0, 300.0, 5.0, &ins);
     assert!(m > 21.0 && m < 25.0, "{m}");
-    let at = r.fainter_by(m - 20.0).snr_for(300.0, &ins).snr;
+    let at = r.fainter_by(m - 20.0).snr_for(300.0, &ins).unwrap().snr;
     assert!((at - 5.0).abs() < 1e-3, "{at}");
     // Four times the exposure in the sky-limited regime goes ~0.75 mag deeper
     // (SNR ∝ √t ∝ flux: 2.5 log10 2 = 0.753).

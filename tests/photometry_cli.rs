@@ -253,7 +253,8 @@ fn target_from_the_demo_programme_brings_its_magnitude_and_band() {
 
 #[test]
 fn hopeless_goals_are_said_to_be_out_of_reach() {
-    let mut a = vec!["exptime", "--mag", "27", "--snr", "100", "--json"];
+    // More than a night but less than a day: answered, with a note.
+    let mut a = vec!["exptime", "--mag", "22.5", "--snr", "100", "--json"];
     a.extend(WHERE);
     let v = json(&a);
     assert!(v["exptime_s"].as_f64().unwrap() > 12.0 * 3600.0);
@@ -263,5 +264,14 @@ fn hopeless_goals_are_said_to_be_out_of_reach() {
             .iter()
             .any(|n| n.as_str().unwrap().contains("out of reach")),
         "{v}"
+    );
+    // More than a day (rung::bounds::EXPTIME_S): refused with the reason.
+    let mut a = vec!["exptime", "--mag", "27", "--snr", "100"];
+    a.extend(WHERE);
+    let o = rung(&a);
+    assert_eq!(o.status.code(), Some(2));
+    assert_eq!(
+        String::from_utf8_lossy(&o.stderr),
+        "rung: error: invalid exposure: a V = 27 star at SNR 100 needs 42801 h of exposure with lucero-1m, more than one visit may hold (24 h)\n"
     );
 }

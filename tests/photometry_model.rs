@@ -136,6 +136,7 @@ fn airmass_two_gives_lower_snr_than_airmass_one() {
             ccd::rates(&ph.instrument, v, mag, &c)
                 .unwrap()
                 .snr_for(120.0, &ph.instrument)
+                .unwrap()
                 .snr
         };
         let (s1, s2) = (snr(1.0, 90.0), snr(2.0, alt2));

@@ -94,7 +94,7 @@ fn bad_input_is_one_clear_line() {
     let (code, _, err) = rung(&a);
     assert_eq!(code, 2);
     assert!(
-        err.contains("period_d") && err.contains("positive"),
+        err.contains("--period-d: 0 d is not within 0.01..3000 d"),
         "{err}"
     );
     assert_eq!(err.trim().lines().count(), 1);
@@ -108,7 +108,7 @@ fn bad_input_is_one_clear_line() {
     let (code, _, err) = rung(&a);
     assert_eq!(code, 2);
     assert!(
-        err.contains("amplitude_mag") && err.contains("NaN"),
+        err.contains("--amplitude-mag: NaN is not within 0..10 mag"),
         "{err}"
     );
 }

@@ -155,7 +155,7 @@ fn bad_input_exits_non_zero_with_one_clear_line() {
                 "--redshift",
                 "-0.01",
             ],
-            "redshift -0.01: a redshift cannot be negative",
+            "invalid --redshift: -0.01 is not within 0..3",
         ),
         (
             &[

@@ -41,8 +41,17 @@ pub fn fmt_alt(deg: f64) -> String {
 }
 
 /// Local noon of a date at the site (the earlier one if the zone repeats it, an
-/// hour later if a zone change skips it).
+/// hour later if a zone change skips it). For a site whose zone contradicts its
+/// longitude by more than a few hours ([`Site::zone_contradicts_longitude`]),
+/// mean solar noon of the date at its longitude instead: noon in such a zone
+/// falls in the dark and would cut the night in two.
 pub fn local_noon(site: &Site, date: NaiveDate) -> Result<Instant> {
+    if site.zone_contradicts_longitude() {
+        use chrono::Datelike;
+        let midnight =
+            Instant::from_utc_calendar(date.year(), date.month(), date.day(), 0, 0, 0.0)?;
+        return Ok(midnight.add_seconds((12.0 - site.lon_deg / 15.0) * 3600.0));
+    }
     let tz = site.timezone;
     for h in [12u32, 13, 11] {
         let naive = date.and_time(NaiveTime::from_hms_opt(h, 0, 0).unwrap_or_default());
@@ -54,6 +63,16 @@ pub fn local_noon(site: &Site, date: NaiveDate) -> Result<Instant> {
         "date",
         format!("{date} has no local noon in zone {}", tz.name()),
     ))
+}
+
+/// The night (local date of its evening, as [`local_noon`] bounds it) that
+/// holds the instant `t`.
+pub fn night_of(site: &Site, t: Instant) -> NaiveDate {
+    if site.zone_contradicts_longitude() {
+        let solar = t.to_datetime() + chrono::Duration::seconds((site.lon_deg * 240.0) as i64);
+        return (solar - chrono::Duration::hours(12)).date_naive();
+    }
+    (t.local(&site.timezone) - chrono::Duration::hours(12)).date_naive()
 }
 
 /// An event that may not happen, with the reason when it does not.

@@ -186,6 +186,57 @@ impl Site {
         a.alt_deg + (b.alt_deg - a.alt_deg) * off / span
     }
 
+    /// Hours the zone's clock runs ahead of the mean solar time at the site's
+    /// longitude (UTC offset − longitude/15°), wrapped to −12..12; of the
+    /// zone's offsets in January and July 2026 (summer time), the one nearer
+    /// the longitude.
+    pub fn zone_ahead_of_longitude_h(&self) -> f64 {
+        use chrono::{Offset, TimeZone};
+        let solar_h = self.lon_deg / 15.0;
+        [(1u32, 15u32), (7, 15)]
+            .iter()
+            .filter_map(|(m, d)| {
+                let at = chrono::NaiveDate::from_ymd_opt(2026, *m, *d)?.and_hms_opt(12, 0, 0)?;
+                let off_s = self
+                    .timezone
+                    .offset_from_utc_datetime(&at)
+                    .fix()
+                    .local_minus_utc();
+                Some((off_s as f64 / 3600.0 - solar_h + 12.0).rem_euclid(24.0) - 12.0)
+            })
+            .min_by(|a, b| a.abs().total_cmp(&b.abs()))
+            .unwrap_or(0.0)
+    }
+
+    /// Whether the zone contradicts the longitude by more than
+    /// [`crate::bounds::ZONE_FROM_LONGITUDE_MAX_H`]. Such a site's nights run
+    /// from mean solar noon to mean solar noon (see `astro::night::local_noon`),
+    /// and [`Self::zone_warning`] says so.
+    pub fn zone_contradicts_longitude(&self) -> bool {
+        self.zone_ahead_of_longitude_h().abs() > crate::bounds::ZONE_FROM_LONGITUDE_MAX_H
+    }
+
+    /// The warning for a zone that contradicts the longitude, or `None`.
+    pub fn zone_warning(&self) -> Option<String> {
+        if !self.zone_contradicts_longitude() {
+            return None;
+        }
+        let ahead = self.zone_ahead_of_longitude_h();
+        let solar_min = (self.lon_deg / 15.0 * 60.0).round() as i64;
+        Some(format!(
+            "site {}: the zone {} runs {:.1} h {} the mean solar time of longitude {}° (UTC{}{:02}:{:02}); its nights are taken from mean solar noon to noon, so that dusk and dawn fall in one night, and times are shown in {} as given",
+            self.name,
+            self.timezone.name(),
+            ahead.abs(),
+            if ahead > 0.0 { "ahead of" } else { "behind" },
+            self.lon_deg,
+            if solar_min < 0 { '-' } else { '+' },
+            solar_min.abs() / 60,
+            solar_min.abs() % 60,
+            self.timezone.name()
+        ))
+    }
+
     /// Distance from the Earth's spin axis and north of the equator (km), for TDB.
     pub fn spin_axis_uv_km(&self) -> (f64, f64) {
         match sofars::coords::gd2gc(1, self.lon_rad(), self.lat_rad(), self.elev_m) {

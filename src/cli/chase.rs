@@ -5,7 +5,6 @@ use anyhow::{Context as _, Result, bail};
 use rung::astro::frames::Context;
 use rung::astro::time::{Instant, parse_instant};
 use rung::io::angles::{parse_dec_deg, parse_ra_deg};
-use rung::io::sites;
 use rung::io::targets::{Kind, Target};
 use rung::ladder::transient::{
     Chase, ChaseOptions, TransientConfig, TransientMethod, check_band, night_of,
@@ -94,15 +93,6 @@ fn load_config(a: &Args) -> Result<TransientConfig> {
     }
 }
 
-fn finite_in(v: Option<f64>, flag: &str, lo: f64, hi: f64) -> Result<()> {
-    if let Some(x) = v
-        && !(x.is_finite() && (lo..=hi).contains(&x))
-    {
-        bail!("{flag} {x} is not within {lo}..{hi}");
-    }
-    Ok(())
-}
-
 fn build_target(a: &Args, cfg: &TransientConfig) -> Result<Target> {
     if let Some(n) = &a.aim.target {
         if a.aim.ra.is_some() || a.aim.dec.is_some() || a.discovered.is_some() {
@@ -124,17 +114,11 @@ fn build_target(a: &Args, cfg: &TransientConfig) -> Result<Target> {
     };
     let band = a.band.trim().to_ascii_uppercase();
     check_band(cfg, &band)?;
-    if let Some(z) = a.redshift {
-        if !z.is_finite() || z < 0.0 {
-            bail!("--redshift {z}: a redshift cannot be negative");
-        }
-        if z > 3.0 {
-            bail!("--redshift {z} is beyond 3, outside what the chase plans for");
-        }
-    }
-    finite_in(a.mag, "--mag", -5.0, 30.0)?;
-    finite_in(a.peak_mag, "--peak-mag", -5.0, 30.0)?;
-    finite_in(Some(a.extinction), "--extinction", 0.0, 20.0)?;
+    use rung::bounds::{EXTINCTION_MAG, MAG, REDSHIFT};
+    REDSHIFT.check_opt_as("--redshift", a.redshift)?;
+    MAG.check_opt_as("--mag", a.mag)?;
+    MAG.check_opt_as("--peak-mag", a.peak_mag)?;
+    EXTINCTION_MAG.check_as("--extinction", a.extinction)?;
     if a.mag.is_none() && a.peak_mag.is_none() && a.redshift.is_none() {
         bail!("give --mag (at discovery), --peak-mag or --redshift to place the light curve");
     }
@@ -156,7 +140,7 @@ fn build_target(a: &Args, cfg: &TransientConfig) -> Result<Target> {
 
 /// Run `rung chase`.
 pub fn run(a: Args) -> Result<()> {
-    let site = sites::resolve(&a.aim.site)?;
+    let site = super::resolve_site(&a.aim.site)?;
     let limits = a.limits.limits()?;
     let cfg = load_config(&a)?;
     let target = build_target(&a, &cfg)?;
@@ -191,6 +175,7 @@ pub fn run(a: Args) -> Result<()> {
             first
         );
     }
+    rung::bounds::SNR.check_opt_as("--snr", a.snr)?;
     let photometer = Photometer::from_name(&a.instrument, &site)?;
     let method = TransientMethod::with(
         cfg,

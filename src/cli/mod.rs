@@ -37,6 +37,16 @@ pub fn one_line(e: &anyhow::Error) -> String {
     s.replace('\n', " ")
 }
 
+/// Resolve `--site` (a catalogue name or inline coordinates) and say on
+/// stderr when its zone contradicts its longitude (`rung::astro::site::Site::zone_warning`).
+pub fn resolve_site(spec: &str) -> Result<rung::astro::site::Site> {
+    let site = rung::io::sites::resolve(spec)?;
+    if let Some(w) = site.zone_warning() {
+        eprintln!("rung: warning: {w}");
+    }
+    Ok(site)
+}
+
 /// Folder of the demo programme: `$RUNG_DEMO_DIR`, else `targets-demo/` beside
 /// the current folder, else the one compiled into this build.
 pub fn demo_dir() -> PathBuf {

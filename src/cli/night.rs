@@ -3,7 +3,6 @@
 use anyhow::{Context as _, Result};
 use rung::astro::night::{Event, Night};
 use rung::astro::time::parse_date;
-use rung::io::sites;
 use serde_json::{Map, Value, json};
 use std::path::PathBuf;
 
@@ -38,7 +37,7 @@ type Extras = (Option<f64>, Option<(rung::astro::time::Instant, String)>);
 
 /// Run `rung night`.
 pub fn run(a: Args) -> Result<()> {
-    let site = sites::resolve(&a.site).context("--site")?;
+    let site = super::resolve_site(&a.site).context("--site")?;
     let limits = a.limits.limits()?;
     let date_text = a
         .date

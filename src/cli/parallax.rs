@@ -7,7 +7,6 @@ use rung::astro::night::Limits;
 use rung::astro::time::{Instant, parse_date, parse_instant};
 use rung::astro::{pointing, sun_caution};
 use rung::io::angles::{parse_dec_deg, parse_ra_deg};
-use rung::io::sites;
 use rung::io::targets::{Kind, Target};
 use rung::ladder::parallax::{FactorAxis, ParallaxConfig, ParallaxMethod, ParallaxPlan};
 use rung::ladder::{Setting, Verdict};
@@ -160,12 +159,16 @@ fn target(a: &Args) -> Result<Target> {
         }
         _ => bail!("give --target NAME (with --targets FILE), or --ra, --dec and --parallax-mas"),
     };
+    // Options are held to the same bounds as the file's columns (rung::bounds).
+    use rung::bounds::{MAG, PARALLAX_MAS, PM_MASYR};
     if let Some(p) = a.parallax_mas {
-        t.parallax_mas = Some(p);
+        t.parallax_mas = Some(PARALLAX_MAS.check_as("--parallax-mas", p)?);
     }
     if let Some(m) = a.mag {
-        t.mag = Some(m);
+        t.mag = Some(MAG.check_as("--mag", m)?);
     }
+    PM_MASYR.check_as("--pm-ra-masyr", a.pm_ra_masyr)?;
+    PM_MASYR.check_as("--pm-dec-masyr", a.pm_dec_masyr)?;
     Ok(t)
 }
 
@@ -196,7 +199,7 @@ fn user_epochs(a: &Args) -> Result<Vec<Instant>> {
 
 /// Run `rung parallax`.
 pub fn run(a: Args) -> Result<()> {
-    let site = sites::resolve(&a.aim.site)?;
+    let site = super::resolve_site(&a.aim.site)?;
     let cfg = config(&a)?;
     let tgt = target(&a)?;
     let limits = Limits::new(a.min_alt, a.sun_alt)?;

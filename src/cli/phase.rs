@@ -5,7 +5,6 @@ use anyhow::{Context as _, Result, bail};
 use rung::astro::bary::bjd_tdb;
 use rung::astro::time::{parse_date, parse_instant};
 use rung::io::angles::{parse_dec_deg, parse_ra_deg};
-use rung::io::sites;
 use rung::io::targets::{BANDS, Kind, Target};
 use rung::ladder::pulsator::{PhaseReport, PulsatorConfig, PulsatorMethod};
 use rung::ladder::{ExposureModel, Setting, Verdict};
@@ -102,6 +101,17 @@ fn build_target(a: &Args) -> Result<Target> {
         ),
     };
     t.kind = Kind::Pulsator;
+    // Options are held to the same bounds as the file's columns (rung::bounds).
+    use rung::bounds::{AMPLITUDE_MAG, EXTINCTION_MAG, MAG, PERIOD_D};
+    PERIOD_D.check_opt_as("--period-d", a.period_d)?;
+    AMPLITUDE_MAG.check_opt_as("--amplitude-mag", a.amplitude_mag)?;
+    MAG.check_opt_as("--mean-mag", a.mean_mag)?;
+    EXTINCTION_MAG.check_opt_as("--extinction-mag", a.extinction_mag)?;
+    if let Some(e) = a.period_err_d
+        && let Some(why) = rung::bounds::period_err_why_not(e, a.period_d.or(t.period_d))
+    {
+        bail!(rung::RungError::invalid("--period-err-d", why));
+    }
     if a.period_d.is_some() {
         t.period_d = a.period_d;
     }
@@ -148,7 +158,7 @@ fn opt_num(x: f64) -> Value {
 
 /// Run `rung phase`.
 pub fn run(a: Args) -> Result<()> {
-    let site = sites::resolve(&a.aim.site)?;
+    let site = super::resolve_site(&a.aim.site)?;
     let limits = a.limits.limits()?;
     let target = build_target(&a)?;
     let from_text = a

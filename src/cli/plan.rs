@@ -4,7 +4,6 @@
 use anyhow::{Context as _, Result};
 use rung::astro::night::Limits;
 use rung::astro::time::{Instant, parse_date};
-use rung::io::sites;
 use rung::ladder::Method;
 use rung::photometry::Photometer;
 use rung::plan::budget;
@@ -98,8 +97,8 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
             .map(|p| format!("{}, field '{field}'", p.display()))
     };
     let site = match from_plan("site") {
-        Some(w) if plan.is_some() => sites::resolve(&site_spec).context(w)?,
-        _ => sites::resolve(&site_spec)?,
+        Some(w) if plan.is_some() => super::resolve_site(&site_spec).context(w)?,
+        _ => super::resolve_site(&site_spec)?,
     };
     let targets_path = match (&a.targets, &plan) {
         (Some(t), _) => t.clone(),
@@ -368,7 +367,7 @@ pub fn run_budget(a: BudgetArgs) -> Result<()> {
     if let Some(g) = a.goal {
         budget::check_goal(g)?;
     }
-    let site = sites::resolve(&a.site)?;
+    let site = super::resolve_site(&a.site)?;
     let from = parse_date(&a.from)?;
     let to = parse_date(&a.to)?;
     let limits = a.limits.limits()?;

@@ -6,7 +6,6 @@
 use anyhow::{Context as _, Result};
 use rayon::prelude::*;
 use rung::astro::time::parse_date;
-use rung::io::sites;
 use rung::plan::season::{
     self, Constraints, NightRows, NightSky, SeasonSummary, TargetNightRow, TargetSummary,
 };
@@ -60,7 +59,7 @@ const ROWS_PER_CHUNK: usize = 512;
 
 /// Run `rung season`.
 pub fn run(a: Args) -> Result<()> {
-    let site = sites::resolve(&a.site)?;
+    let site = super::resolve_site(&a.site)?;
     let c = Constraints::new(a.limits.min_alt, a.limits.sun_alt, a.moon_sep)?;
     let from = parse_date(&a.from).context("--from")?;
     let to = parse_date(&a.to).context("--to")?;

@@ -11,7 +11,6 @@ use rung::astro::night::{ASTRONOMICAL_DEG, Limits, NAUTICAL_DEG, Night};
 use rung::astro::time::{Instant, parse_date, parse_instant};
 use rung::astro::{pointing, sun_caution};
 
-use rung::io::sites;
 use rung::photometry::{DEMO_INSTRUMENT, Exposure, Photometer};
 use serde_json::json;
 
@@ -113,10 +112,10 @@ fn best_time(
 }
 
 fn setup(c: &Common) -> Result<Setup> {
-    let site = sites::resolve(&c.aim.site)?;
+    let site = super::resolve_site(&c.aim.site)?;
     let (name, place, tg) = c.aim.resolve()?;
     let mag = match (c.mag, &tg) {
-        (Some(m), _) => m,
+        (Some(m), _) => rung::bounds::MAG.check_as("--mag", m)?,
         (None, Some(t)) => t
             .mag
             .or(t.mean_mag)
@@ -141,7 +140,7 @@ fn setup(c: &Common) -> Result<Setup> {
     };
     let mut ph = Photometer::from_name(&c.instrument, &site)?;
     if let Some(s) = c.seeing {
-        ph = ph.with_seeing(s)?;
+        ph = ph.with_seeing(rung::bounds::SEEING_ARCSEC.check_as("--seeing", s)?)?;
     }
     Ok(Setup {
         site,
@@ -244,11 +243,20 @@ fn emit(
         println!("    {label:<13} {n:9.1}   {:5.1}%", 100.0 * n * n / var);
     }
     println!("    {:<13} {:9.1}", "total", b.noise_total_e);
-    println!(
-        "  SNR {:.1}  ({:.4} mag)",
-        b.snr,
-        2.5 / std::f64::consts::LN_10 / b.snr.max(f64::MIN_POSITIVE)
-    );
+    // The magnitude error 2.5/(ln 10 · SNR) is first order in 1/SNR: it
+    // means something only for a detection.
+    if b.snr >= 1.0 {
+        println!(
+            "  SNR {:.1}  ({:.4} mag)",
+            b.snr,
+            2.5 / std::f64::consts::LN_10 / b.snr
+        );
+    } else {
+        println!(
+            "  SNR {:.2}  (no detection: the noise exceeds the signal)",
+            b.snr
+        );
+    }
     println!(
         "  peak pixel {:.0} e⁻ of {:.0} e⁻ ({}); visit with overheads {:.0} s",
         b.peak_pixel_electrons,
@@ -283,10 +291,11 @@ fn emit(
 
 /// Run `rung snr`.
 pub fn run_snr(a: SnrArgs) -> Result<()> {
+    rung::bounds::EXPTIME_S.check_as("--exptime", a.exptime)?;
+    rung::bounds::SNR.check_as("--limit-snr", a.limit_snr)?;
     let s = setup(&a.common)?;
     let ctx = Context::exact(&s.site, s.t)?;
     let e = s.ph.snr_at(s.mag, &s.band, a.exptime, &ctx, &s.place)?;
-    rung::photometry::ccd::check_snr(a.limit_snr).context("--limit-snr")?;
     let lim =
         s.ph.limiting_mag_at(&s.band, a.exptime, a.limit_snr, &ctx, &s.place)?;
     let extra = [
@@ -299,6 +308,7 @@ pub fn run_snr(a: SnrArgs) -> Result<()> {
 
 /// Run `rung exptime`.
 pub fn run_exptime(a: ExptimeArgs) -> Result<()> {
+    rung::bounds::SNR.check_as("--snr", a.snr)?;
     let s = setup(&a.common)?;
     let ctx = Context::exact(&s.site, s.t)?;
     let e = s.ph.exptime_at(s.mag, &s.band, a.snr, &ctx, &s.place)?;

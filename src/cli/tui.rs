@@ -162,6 +162,7 @@ pub fn setup(a: &Args) -> Result<Setup> {
         .clone()
         .unwrap_or_else(|| super::DEMO_SITE.to_string());
     let site = sites::resolve(&spec)?;
+    let message = message.or_else(|| site.zone_warning());
     let mut list = sites::catalogue().unwrap_or_default();
     if !list.iter().any(|s| s.name == site.name) {
         list.push(site.clone());

@@ -5,7 +5,6 @@ use rung::astro::frames::Context;
 use rung::astro::time::parse_instant;
 use rung::astro::{pointing, sun_caution};
 
-use rung::io::sites;
 use serde_json::json;
 
 /// Arguments of `rung where`.
@@ -23,7 +22,7 @@ pub struct Args {
 
 /// Run `rung where`.
 pub fn run(a: Args) -> Result<()> {
-    let site = sites::resolve(&a.aim.site).context("--site")?;
+    let site = super::resolve_site(&a.aim.site).context("--site")?;
     let t = parse_instant(&a.at).context("--at")?;
     let (name, place, _) = a.aim.resolve()?;
     let ctx = Context::exact(&site, t)?;

@@ -164,6 +164,9 @@ pub struct Bound {
     pub max_open: bool,
     /// What a refusal says.
     pub why: &'static str,
+    /// The physical bound this is ([`crate::bounds`], shared with the
+    /// command-line options): its refusal names the value, the range and the reason.
+    pub physical: Option<&'static crate::bounds::Bound>,
 }
 
 impl Bound {
@@ -175,6 +178,25 @@ impl Bound {
             min_open: false,
             max_open: false,
             why,
+            physical: None,
+        }
+    }
+    /// A bound from physics, as [`crate::bounds`] holds it.
+    pub const fn physical(b: &'static crate::bounds::Bound) -> Bound {
+        Bound {
+            min: b.min,
+            max: b.max,
+            min_open: b.min_exclusive,
+            max_open: false,
+            why: b.why,
+            physical: Some(b),
+        }
+    }
+    /// What a refusal of `v` says.
+    pub fn refusal(&self, v: f64) -> String {
+        match self.physical.and_then(|p| p.why_not(v)) {
+            Some(why) => why,
+            None => self.why.to_string(),
         }
     }
     /// `v > min`.
@@ -185,6 +207,7 @@ impl Bound {
             min_open: true,
             max_open: false,
             why,
+            physical: None,
         }
     }
     /// `v ≥ min`.
@@ -313,13 +336,10 @@ pub struct Column {
     pub set: fn(&mut Target, Cell),
 }
 
-const MAGNITUDE: Bound = Bound::within(-2.0, 30.0, "must be a magnitude within -2..30");
+// The physical bounds are rung::bounds's, shared with the command-line options.
+const MAGNITUDE: Bound = Bound::physical(&crate::bounds::MAG);
 const NOT_NEGATIVE: Bound = Bound::at_least(0.0, "must not be negative");
-const PROPER_MOTION: Bound = Bound::within(
-    -20_000.0,
-    20_000.0,
-    "is faster than 20 arcsec/yr, beyond any star",
-);
+const PROPER_MOTION: Bound = Bound::physical(&crate::bounds::PM_MASYR);
 
 /// The fields table: every field of a targets file, in the order a new file
 /// writes them. Column order in a file is free; names are matched without
@@ -383,10 +403,7 @@ pub const COLUMNS: &[Column] = &[
         about: "expected parallax, mas",
         ty: Ty::Number,
         default: "",
-        bounds: &[
-            Bound::above(0.0, "must be positive (expected parallax, mas)"),
-            Bound::at_most(1000.0, "exceeds 1000 mas: no star is that close"),
-        ],
+        bounds: &[Bound::physical(&crate::bounds::PARALLAX_MAS)],
         every_kind: false,
         need: Optional,
         get: |t| Cell::num_or_empty(t.parallax_mas),
@@ -462,7 +479,7 @@ pub const COLUMNS: &[Column] = &[
         about: "period, days",
         ty: Ty::Number,
         default: "",
-        bounds: &[Bound::above(0.0, "must be positive (days)")],
+        bounds: &[Bound::physical(&crate::bounds::PERIOD_D)],
         every_kind: false,
         need: Optional,
         get: |t| Cell::num_or_empty(t.period_d),
@@ -510,7 +527,7 @@ pub const COLUMNS: &[Column] = &[
         about: "peak to peak, mag",
         ty: Ty::Number,
         default: "",
-        bounds: &[NOT_NEGATIVE],
+        bounds: &[Bound::physical(&crate::bounds::AMPLITUDE_MAG)],
         every_kind: false,
         need: Optional,
         get: |t| Cell::num_or_empty(t.amplitude_mag),
@@ -570,7 +587,7 @@ pub const COLUMNS: &[Column] = &[
         about: "z",
         ty: Ty::Number,
         default: "",
-        bounds: &[Bound::within(0.0, 3.0, "must be within 0..3")],
+        bounds: &[Bound::physical(&crate::bounds::REDSHIFT)],
         every_kind: false,
         need: Optional,
         get: |t| Cell::num_or_empty(t.redshift),
@@ -582,7 +599,7 @@ pub const COLUMNS: &[Column] = &[
         about: "foreground, mag",
         ty: Ty::Number,
         default: "0",
-        bounds: &[Bound::within(0.0, 20.0, "must be within 0..20 mag")],
+        bounds: &[Bound::physical(&crate::bounds::EXTINCTION_MAG)],
         every_kind: false,
         need: Optional,
         get: |t| Cell::Num(t.extinction_mag),
@@ -894,7 +911,7 @@ pub fn read_cell(c: &Column, text: &str) -> Result<Cell, Refusal> {
     if let Cell::Num(x) = cell
         && let Some(b) = c.bounds.iter().find(|b| !b.admits(x))
     {
-        return Err(refuse(b.why.to_string()));
+        return Err(refuse(b.refusal(x)));
     }
     Ok(cell)
 }
@@ -916,6 +933,12 @@ pub fn target_from_slots(slots: &Slots) -> Result<Target, Refusal> {
             return Err((c.key.to_string(), why.to_string()));
         }
         (c.set)(&mut t, cell);
+    }
+    // A period uncertainty as large as the period leaves no phase (rung::bounds).
+    if let Some(e) = t.period_err_d
+        && let Some(why) = crate::bounds::period_err_why_not(e, t.period_d)
+    {
+        return Err(("period_err_d".to_string(), why));
     }
     for (key, need) in t.kind.spec().fields {
         let missing = |k: &str| t.get(k).is_empty();

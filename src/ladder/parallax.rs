@@ -200,6 +200,7 @@ impl ParallaxConfig {
             ));
         }
         pos("snr", self.snr)?;
+        crate::bounds::SNR.check(self.snr)?;
         pos("season_gap_d", self.season_gap_d)?;
         pos("lutz_kelker_pct", self.lutz_kelker_pct)?;
         if self.epochs_per_season == 0 {
@@ -225,6 +226,7 @@ impl ParallaxConfig {
         }
         for v in &self.goal_snr_steps {
             pos("goal_snr_steps", *v)?;
+            crate::bounds::SNR.check_as("goal_snr_steps", *v)?;
         }
         if self.goal_snr_steps.windows(2).any(|w| w[1] <= w[0]) {
             return Err(RungError::invalid("goal_snr_steps", "levels must ascend"));

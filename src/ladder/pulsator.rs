@@ -241,12 +241,7 @@ impl Ephemeris {
                 "is missing: a pulsator needs its period in days",
             )
         })?;
-        if !p.is_finite() || p <= 0.0 {
-            return Err(RungError::invalid(
-                "period_d",
-                format!("must be a positive number of days, got {p}"),
-            ));
-        }
+        crate::bounds::PERIOD_D.check(p)?;
         let e = epoch_max_bjd.ok_or_else(|| {
             RungError::invalid(
                 "epoch_max_bjd",
@@ -260,11 +255,8 @@ impl Ephemeris {
             ));
         }
         let s = period_err_d.unwrap_or(0.0);
-        if !s.is_finite() || s < 0.0 {
-            return Err(RungError::invalid(
-                "period_err_d",
-                format!("must be a non-negative number of days, got {s}"),
-            ));
+        if let Some(why) = crate::bounds::period_err_why_not(s, Some(p)) {
+            return Err(RungError::invalid("period_err_d", why));
         }
         Ok(Ephemeris {
             period_d: p,
@@ -375,27 +367,12 @@ impl Star {
         };
         let ephemeris =
             Ephemeris::new(t.period_d, t.epoch_max_bjd, t.period_err_d).map_err(named)?;
-        let amplitude_mag = t.amplitude_mag.unwrap_or(0.0);
-        if !amplitude_mag.is_finite() || !(0.0..=5.0).contains(&amplitude_mag) {
-            return Err(named(RungError::invalid(
-                "amplitude_mag",
-                format!("must be a peak-to-peak amplitude within 0..5 mag, got {amplitude_mag}"),
-            )));
-        }
-        if let Some(m) = t.mean_mag
-            && (!m.is_finite() || !(-2.0..=30.0).contains(&m))
-        {
-            return Err(named(RungError::invalid(
-                "mean_mag",
-                format!("must be a magnitude within -2..30, got {m}"),
-            )));
-        }
-        if !t.extinction_mag.is_finite() || !(0.0..=20.0).contains(&t.extinction_mag) {
-            return Err(named(RungError::invalid(
-                "extinction_mag",
-                format!("must be within 0..20 mag, got {}", t.extinction_mag),
-            )));
-        }
+        use crate::bounds::{AMPLITUDE_MAG, EXTINCTION_MAG, MAG};
+        let amplitude_mag = AMPLITUDE_MAG
+            .check(t.amplitude_mag.unwrap_or(0.0))
+            .map_err(named)?;
+        MAG.check_opt_as("mean_mag", t.mean_mag).map_err(named)?;
+        EXTINCTION_MAG.check(t.extinction_mag).map_err(named)?;
         if !t.ra_deg.is_finite() || !t.dec_deg.is_finite() || t.dec_deg.abs() > 90.0 {
             return Err(named(RungError::invalid(
                 "position",
@@ -1032,6 +1009,7 @@ impl PulsatorMethod {
                 format!("{} is not a signal-to-noise of at least 2", self.snr),
             ));
         }
+        crate::bounds::SNR.check_as("--snr", self.snr)?;
         Ok(())
     }
 

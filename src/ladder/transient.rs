@@ -612,14 +612,7 @@ pub fn place_curve(cfg: &TransientConfig, target: &Target, dm15: f64) -> Result<
         )
     })?;
     let z_opt = target.redshift;
-    if let Some(z) = z_opt
-        && !(z.is_finite() && (0.0..=3.0).contains(&z))
-    {
-        return Err(RungError::invalid(
-            "redshift",
-            format!("{z} is not within 0..3"),
-        ));
-    }
+    crate::bounds::REDSHIFT.check_opt_as("redshift", z_opt)?;
     let z = z_opt.unwrap_or(0.0);
     let t_disc = disc.mjd_utc();
     let hubble_peak_mag = match z_opt {
@@ -822,7 +815,7 @@ pub struct TransientMethod {
 
 /// The night (local date whose evening starts it) that contains instant `t` at `site`.
 pub fn night_of(site: &Site, t: Instant) -> NaiveDate {
-    (t.local(&site.timezone) - Duration::hours(12)).date_naive()
+    crate::astro::night::night_of(site, t)
 }
 
 fn per_epoch_sigma(cfg: &TransientConfig, snr: f64) -> f64 {

@@ -141,37 +141,23 @@ pub struct NoiseBudget {
     pub saturated: bool,
 }
 
-/// Refuse a magnitude that is not a finite number in a sane range.
+/// Refuse a magnitude outside [`bounds::MAG`](crate::bounds::MAG).
 pub fn check_mag(mag: f64) -> Result<()> {
-    if !mag.is_finite() || !(-30.0..=50.0).contains(&mag) {
-        return Err(RungError::invalid(
-            "magnitude",
-            format!("{mag} is not a finite magnitude within -30..50"),
-        ));
-    }
-    Ok(())
+    crate::bounds::MAG.check_as("magnitude", mag).map(|_| ())
 }
 
-/// Refuse an exposure time that is not a positive finite number.
+/// Refuse an exposure time outside [`bounds::EXPTIME_S`](crate::bounds::EXPTIME_S).
 pub fn check_exptime(exptime_s: f64) -> Result<()> {
-    if !exptime_s.is_finite() || exptime_s <= 0.0 {
-        return Err(RungError::invalid(
-            "exposure time",
-            format!("{exptime_s} s must be a positive number of seconds"),
-        ));
-    }
-    Ok(())
+    crate::bounds::EXPTIME_S
+        .check_as("exposure time", exptime_s)
+        .map(|_| ())
 }
 
-/// Refuse a signal-to-noise that is not a positive finite number.
+/// Refuse a signal-to-noise outside [`bounds::SNR`](crate::bounds::SNR).
 pub fn check_snr(snr: f64) -> Result<()> {
-    if !snr.is_finite() || snr <= 0.0 {
-        return Err(RungError::invalid(
-            "signal-to-noise",
-            format!("{snr} must be a positive number"),
-        ));
-    }
-    Ok(())
+    crate::bounds::SNR
+        .check_as("signal-to-noise", snr)
+        .map(|_| ())
 }
 
 fn check_conditions(c: &Conditions) -> Result<()> {
@@ -357,47 +343,160 @@ impl Rates {
             / (2.0 * a_rate * a_rate)
     }
 
-    /// Sub-exposures needed for a total `exptime_s`: enough that each stays
-    /// under the instrument's longest single exposure and keeps the peak pixel
-    /// under `linear_fraction` of saturation, but none shorter than the
-    /// shortest exposure.
-    pub fn n_exposures_for(&self, exptime_s: f64, inst: &Instrument) -> u32 {
-        let by_len = (exptime_s / inst.max_sub_exptime_s).ceil();
-        let by_peak = (self.peak_e_per_s() * exptime_s / inst.peak_limit_e()).ceil();
-        let most = (exptime_s / inst.min_exptime_s).floor().max(1.0);
-        let n = by_len.max(by_peak).max(1.0).min(most.max(by_len));
-        n.min(u32::MAX as f64) as u32
+    /// The longest sub-exposure (s) that keeps the peak pixel under the
+    /// instrument's linear limit ([`Instrument::peak_limit_e`]) and within its
+    /// longest single exposure. It may be shorter than the shortest exposure
+    /// the shutter allows: the star then passes the linear limit whatever is done.
+    pub fn longest_sub_s(&self, inst: &Instrument) -> f64 {
+        let peak = self.peak_e_per_s();
+        let by_peak = if peak > 0.0 {
+            inst.peak_limit_e() / peak
+        } else {
+            f64::INFINITY
+        };
+        by_peak.min(inst.max_sub_exptime_s)
+    }
+
+    /// Sub-exposures for a total `exptime_s`: the fewest that keep each one
+    /// within [`Self::longest_sub_s`], but none shorter than the shortest
+    /// exposure (a star too bright for that is then split into the shortest
+    /// exposures and passes the linear limit, which the budget flags).
+    /// Errors: a total shorter than the shortest exposure, or a split into
+    /// more than [`bounds::MAX_SUB_EXPOSURES`](crate::bounds::MAX_SUB_EXPOSURES).
+    pub fn n_exposures_for(&self, exptime_s: f64, inst: &Instrument) -> Result<u32> {
+        use crate::bounds::{MAX_SUB_EXPOSURES, show, too_many_sub_exposures};
+        if exptime_s < inst.min_exptime_s * (1.0 - 1e-9) {
+            return Err(RungError::invalid(
+                "exposure time",
+                format!(
+                    "{} s is shorter than the shortest exposure of {} ({} s)",
+                    show(exptime_s),
+                    inst.name,
+                    show(inst.min_exptime_s)
+                ),
+            ));
+        }
+        // A tolerance of 1e-9 so that a total of exactly n sub-exposures
+        // (as the exposure search returns) splits into n, not n ± 1.
+        let need = (exptime_s / self.longest_sub_s(inst) - 1e-9)
+            .ceil()
+            .max(1.0);
+        let most = (exptime_s / inst.min_exptime_s + 1e-9).floor().max(1.0);
+        let n = need.min(most);
+        if n > MAX_SUB_EXPOSURES as f64 {
+            return Err(RungError::invalid(
+                "exposure time",
+                format!(
+                    "a {} s exposure with {}: {}",
+                    show(exptime_s),
+                    inst.name,
+                    too_many_sub_exposures(n)
+                ),
+            ));
+        }
+        Ok(n as u32)
     }
 
     /// The SNR reached in a total `exptime_s` (split as [`Self::n_exposures_for`]),
     /// through the optimal aperture.
-    pub fn snr_for(&self, exptime_s: f64, inst: &Instrument) -> NoiseBudget {
-        let n = self.n_exposures_for(exptime_s, inst);
+    pub fn snr_for(&self, exptime_s: f64, inst: &Instrument) -> Result<NoiseBudget> {
+        let n = self.n_exposures_for(exptime_s, inst)?;
         let r = self.best_radius_pix(exptime_s, n);
-        self.evaluate(exptime_s, n, r, inst.saturation_e())
+        Ok(self.evaluate(exptime_s, n, r, inst.saturation_e()))
     }
 
-    /// The exposure that reaches `snr`: closed form for a fixed aperture and
-    /// split, iterated with the optimal aperture and the split rule until the
-    /// time is stable (the split only grows, so this converges); never shorter
-    /// than the shortest exposure (the SNR is then higher than asked).
-    pub fn exptime_for(&self, snr: f64, inst: &Instrument) -> NoiseBudget {
-        let mut n = 1u32;
+    /// Total exposure (s) reaching `snr` in `n` sub-exposures through the
+    /// optimal aperture: the closed form for a fixed aperture, iterated with the
+    /// aperture that is best for that time until the time is stable.
+    fn exptime_in(&self, snr: f64, n: u32, floor_s: f64) -> f64 {
         let mut r =
             (BACKGROUND_LIMITED_RADIUS_FWHM * self.fwhm_pix()).clamp(0.5, self.max_radius_pix);
-        let mut t = self.exptime_closed_form(snr, n, r).max(inst.min_exptime_s);
+        let mut t = self.exptime_closed_form(snr, n, r);
         for _ in 0..100 {
-            r = self.best_radius_pix(t, n);
-            let t_new = self.exptime_closed_form(snr, n, r).max(inst.min_exptime_s);
-            let n_new = self.n_exposures_for(t_new, inst).max(n);
-            let done = n_new == n && (t_new - t).abs() <= 1e-9 * t;
+            if !t.is_finite() {
+                break;
+            }
+            r = self.best_radius_pix(t.max(floor_s), n);
+            let t_new = self.exptime_closed_form(snr, n, r);
+            let done = (t_new - t).abs() <= 1e-9 * t;
             t = t_new;
-            n = n_new;
             if done {
                 break;
             }
         }
-        self.evaluate(t, n, r, inst.saturation_e())
+        t
+    }
+
+    /// The shortest exposure that reaches `snr` with every sub-exposure
+    /// within [`Self::longest_sub_s`] and none shorter than the shortest
+    /// exposure: for each split n from the fewest the time needs, the total
+    /// T(n) that reaches the goal (more sub-exposures cost read noise, so T
+    /// grows with n); the first n whose sub-exposures T(n)/n fit is the answer,
+    /// with the total raised to n shortest exposures when T(n)/n is shorter
+    /// than the shutter allows (the SNR is then higher than asked). So when
+    /// one exposure would pass the linear limit and two of the shortest reach
+    /// the goal, the answer is two of the shortest. A star that passes the
+    /// linear limit even in the shortest exposure gets shortest exposures
+    /// (flagged by the peak pixel, `saturated` past the full well).
+    ///
+    /// Errors: a goal that needs more than a day of exposure
+    /// ([`bounds::EXPTIME_S`](crate::bounds::EXPTIME_S)) or more than
+    /// [`bounds::MAX_SUB_EXPOSURES`](crate::bounds::MAX_SUB_EXPOSURES)
+    /// sub-exposures (a star too faint, or too bright for the instrument).
+    pub fn exptime_for(&self, snr: f64, inst: &Instrument) -> Result<NoiseBudget> {
+        use crate::bounds::{
+            EXPTIME_S, MAX_SUB_EXPOSURES, show, show_about, too_many_sub_exposures,
+        };
+        let sub_lo = inst.min_exptime_s;
+        let sub_cap = self.longest_sub_s(inst).max(sub_lo);
+        let too_long = |t: f64| {
+            RungError::invalid(
+                "exposure",
+                format!(
+                    "SNR {} needs {} h of exposure with {}, more than one visit may hold ({} h)",
+                    show(snr),
+                    if t.is_finite() {
+                        show_about(t / 3600.0)
+                    } else {
+                        "endless".into()
+                    },
+                    inst.name,
+                    show(EXPTIME_S.max / 3600.0)
+                ),
+            )
+        };
+        let t1 = self.exptime_in(snr, 1, sub_lo);
+        if !(t1.is_finite() && t1 <= EXPTIME_S.max) {
+            return Err(too_long(t1));
+        }
+        let mut n = (t1 / sub_cap - 1e-9).ceil().max(1.0);
+        let (t, n) = loop {
+            if n > MAX_SUB_EXPOSURES as f64 {
+                return Err(RungError::invalid(
+                    "exposure",
+                    format!(
+                        "SNR {} with {}: {}",
+                        show(snr),
+                        inst.name,
+                        too_many_sub_exposures(n)
+                    ),
+                ));
+            }
+            let k = n as u32;
+            let tn = self.exptime_in(snr, k, sub_lo);
+            if !(tn.is_finite() && tn <= EXPTIME_S.max) {
+                return Err(too_long(tn));
+            }
+            if tn <= n * sub_cap * (1.0 + 1e-9) {
+                break (tn.max(n * sub_lo), k);
+            }
+            n = (n + 1.0).max((tn / sub_cap - 1e-9).ceil());
+        };
+        if t > EXPTIME_S.max {
+            return Err(too_long(t));
+        }
+        let r = self.best_radius_pix(t, n);
+        Ok(self.evaluate(t, n, r, inst.saturation_e()))
     }
 
     /// Faintest magnitude reaching `snr` in a total `exptime_s` (these rates

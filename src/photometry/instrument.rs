@@ -122,18 +122,21 @@ impl Instrument {
                 Err(bad(f, format!("{v} must be zero or positive")))
             }
         };
-        pos(self.aperture_m, "aperture_m")?;
+        use crate::bounds::{
+            APERTURE_M, EXPTIME_S, FULL_WELL_E, PIXEL_SCALE_ARCSEC, SEEING_ARCSEC,
+        };
+        APERTURE_M.check(self.aperture_m)?;
         if !(0.0..1.0).contains(&self.obstruction) {
             return Err(bad(
                 "obstruction",
                 format!("{} is not a fraction in 0..1", self.obstruction),
             ));
         }
-        pos(self.pixel_scale_arcsec, "pixel_scale_arcsec")?;
+        PIXEL_SCALE_ARCSEC.check(self.pixel_scale_arcsec)?;
         nonneg(self.read_noise_e, "read_noise_e")?;
         nonneg(self.dark_e_per_pix_s, "dark_e_per_pix_s")?;
         pos(self.gain_e_per_adu, "gain_e_per_adu")?;
-        pos(self.full_well_e, "full_well_e")?;
+        FULL_WELL_E.check(self.full_well_e)?;
         if let Some(b) = self.adc_bits
             && !(8..=32).contains(&b)
         {
@@ -145,11 +148,11 @@ impl Instrument {
                 format!("{} is not within (0, 1]", self.linear_fraction),
             ));
         }
-        pos(self.seeing_fwhm_arcsec, "seeing_fwhm_arcsec")?;
+        SEEING_ARCSEC.check(self.seeing_fwhm_arcsec)?;
         nonneg(self.readout_s, "readout_s")?;
         nonneg(self.visit_overhead_s, "visit_overhead_s")?;
-        pos(self.min_exptime_s, "min_exptime_s")?;
-        pos(self.max_sub_exptime_s, "max_sub_exptime_s")?;
+        EXPTIME_S.check_as("min_exptime_s", self.min_exptime_s)?;
+        EXPTIME_S.check_as("max_sub_exptime_s", self.max_sub_exptime_s)?;
         if self.max_sub_exptime_s < self.min_exptime_s {
             return Err(bad(
                 "max_sub_exptime_s",

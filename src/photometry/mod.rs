@@ -113,15 +113,10 @@ impl Photometer {
         Self::from_name(DEMO_INSTRUMENT, site)
     }
 
-    /// The same photometer with another seeing FWHM (arcsec, > 0).
+    /// The same photometer with another seeing FWHM (arcsec, within
+    /// [`bounds::SEEING_ARCSEC`](crate::bounds::SEEING_ARCSEC)).
     pub fn with_seeing(mut self, fwhm_arcsec: f64) -> Result<Self> {
-        if !fwhm_arcsec.is_finite() || fwhm_arcsec <= 0.0 || fwhm_arcsec > 30.0 {
-            return Err(RungError::invalid(
-                "seeing",
-                format!("{fwhm_arcsec} arcsec is not a FWHM within (0, 30]"),
-            ));
-        }
-        self.seeing_fwhm_arcsec = fwhm_arcsec;
+        self.seeing_fwhm_arcsec = crate::bounds::SEEING_ARCSEC.check_as("seeing", fwhm_arcsec)?;
         Ok(self)
     }
 
@@ -217,7 +212,7 @@ impl Photometer {
     ) -> Result<Exposure> {
         ccd::check_exptime(exptime_s)?;
         let (r, e) = self.prepare(mag, band, ctx, place)?;
-        let b = r.snr_for(exptime_s, &self.instrument);
+        let b = r.snr_for(exptime_s, &self.instrument)?;
         Ok(self.finish(e, b))
     }
 
@@ -233,7 +228,16 @@ impl Photometer {
     ) -> Result<Exposure> {
         ccd::check_snr(snr)?;
         let (r, e) = self.prepare(mag, band, ctx, place)?;
-        let b = r.exptime_for(snr, &self.instrument);
+        let b = r
+            .exptime_for(snr, &self.instrument)
+            .map_err(|err| match err {
+                // Say which star: the search knows only its rates.
+                RungError::Invalid { what, why } => RungError::Invalid {
+                    what,
+                    why: format!("a {} = {} star at {why}", e.band, crate::bounds::show(mag)),
+                },
+                other => other,
+            })?;
         Ok(self.finish(e, b))
     }
 

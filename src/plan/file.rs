@@ -249,6 +249,15 @@ pub fn parse(text: &str, path: &Path) -> Result<PlanFile> {
             ),
         ));
     }
+    let range = format!("{} to {}", p.from, p.to);
+    for d in &p.lost_nights {
+        if *d < p.from || *d > p.to {
+            return Err(at(
+                "lost_nights",
+                format!("{d} is outside the plan's nights, {range}"),
+            ));
+        }
+    }
     let mut seen = BTreeSet::new();
     for v in &p.visits {
         let id = crate::error::one_line_cut(&v.id, 60);
@@ -257,6 +266,61 @@ pub fn parse(text: &str, path: &Path) -> Result<PlanFile> {
         }
         if v.end < v.start {
             return Err(at("visits", format!("visit '{id}' ends before it starts")));
+        }
+        // A hand-edited visit is held to the same bounds as a planned one.
+        let of = |field: &str, why: String| at(field, format!("visit '{id}': {why}"));
+        if v.night < p.from || v.night > p.to {
+            return Err(of(
+                "night",
+                format!("{} is outside the plan's nights, {range}", v.night),
+            ));
+        }
+        // A night runs from local noon to local noon, so its visits lie within
+        // a day of the night's local midnight, wherever the site is.
+        let midnight = v
+            .night
+            .succ_opt()
+            .unwrap_or(v.night)
+            .and_time(chrono::NaiveTime::MIN);
+        for (field, t) in [("start", v.start), ("end", v.end)] {
+            let off_h = (t.to_datetime().naive_utc() - midnight).num_minutes() as f64 / 60.0;
+            if !(-26.0..=26.0).contains(&off_h) {
+                return Err(of(
+                    field,
+                    format!("{} is not in its night of {}", t.iso(), v.night),
+                ));
+            }
+        }
+        if let Some(why) = crate::bounds::EXPTIME_S.why_not(v.exptime_s) {
+            return Err(of("exptime_s", why));
+        }
+        if !(1..=crate::bounds::MAX_SUB_EXPOSURES).contains(&v.n_exposures) {
+            return Err(of(
+                "n_exposures",
+                format!(
+                    "{} is not within 1..{} sub-exposures",
+                    v.n_exposures,
+                    crate::bounds::MAX_SUB_EXPOSURES
+                ),
+            ));
+        }
+        if !(v.snr.is_finite() && v.snr > 0.0) {
+            return Err(of(
+                "snr",
+                format!(
+                    "{} is not a signal-to-noise (a positive number)",
+                    crate::bounds::show(v.snr)
+                ),
+            ));
+        }
+        if !(v.airmass.is_finite() && (1.0..=100.0).contains(&v.airmass)) {
+            return Err(of(
+                "airmass",
+                format!(
+                    "{} is not an airmass within 1..100",
+                    crate::bounds::show(v.airmass)
+                ),
+            ));
         }
     }
     Ok(p)

@@ -49,7 +49,7 @@ pub struct Setup {
 /// The local date whose evening starts the night containing `now` at `site`
 /// (nights run from local noon to local noon).
 pub fn night_date(site: &Site, now: Instant) -> NaiveDate {
-    (now.local(&site.timezone) - chrono::Duration::hours(12)).date_naive()
+    crate::astro::night::night_of(site, now)
 }
 
 /// The first state and the effects it needs (the night table).
