@@ -271,7 +271,7 @@ fn exposures_out_of_reach_are_refused_with_the_reason() {
     assert_eq!(code, Some(2), "case N11");
     assert!(
         err.starts_with("rung: error: ")
-            && err.ends_with("instruments.toml, line 1, field 'aperture_m': instrument huge: 100 m is not within 0.01..50 m: from a 1 cm lens to beyond the largest telescope being built (39 m)\n"),
+            && err.ends_with("instruments.toml, line 4, field 'aperture_m': instrument huge: 100 m is not within 0.01..50 m: from a 1 cm lens to beyond the largest telescope being built (39 m)\n"),
         "case N11: {err}"
     );
 }
