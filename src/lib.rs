@@ -8,8 +8,8 @@
 #![warn(missing_docs)]
 
 pub mod astro;
-pub mod config;
 pub mod bounds;
+pub mod config;
 pub mod error;
 pub mod io;
 pub mod ladder;
