@@ -1,41 +1,96 @@
 //! Finding when a smooth quantity crosses a threshold: bracket on a coarse
-//! grid, then bisect to a tolerance (1 s for every event rung reports).
+//! grid, then close in on the root by regula falsi with the Illinois
+//! modification (Dowell & Jarratt 1971, BIT 11, 168; from memory), which
+//! converges superlinearly on a bracket: two to four evaluations reach the
+//! millisecond where a bisection from a 600 s bracket takes ten to reach 1 s.
 
 use crate::astro::time::Instant;
 
 /// A threshold crossing.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Crossing {
-    /// When it happens (within the bisection tolerance).
+    /// When it happens (within the refinement tolerance).
     pub t: Instant,
     /// True when the quantity goes from below to above the threshold.
     pub rising: bool,
 }
 
-/// Bisect a sign change of `f` between `a` (value `fa`) and `b` to `tol_s` seconds.
-pub fn bisect(
+/// The root of `f` (offsets in seconds) inside the bracket `[a, b]` where
+/// `f(a) = fa` and `f(b) = fb` differ in sign (`fa ≥ 0` is "above"), by
+/// Illinois regula falsi to `tol_s` seconds. The answer always lies inside
+/// the bracket, so a discontinuous `f` still yields a point of its sign change.
+pub fn illinois(
+    f: &mut dyn FnMut(f64) -> f64,
+    a: f64,
+    fa: f64,
+    b: f64,
+    fb: f64,
+    tol_s: f64,
+) -> f64 {
+    let (mut x0, mut f0, mut x1, mut f1) = (a, fa, b, fb);
+    let above0 = f0 >= 0.0;
+    let mut side = 0;
+    let mut last = f64::NAN;
+    for _ in 0..100 {
+        let w = x1 - x0;
+        if w <= tol_s {
+            break;
+        }
+        let mut x = if f1 != f0 {
+            x0 - f0 * w / (f1 - f0)
+        } else {
+            0.5 * (x0 + x1)
+        };
+        // Stay strictly inside; a tiny margin keeps the bracket shrinking.
+        let m = (0.01 * tol_s).min(0.25 * w);
+        if !(x > x0 + m && x < x1 - m) {
+            x = x.clamp(x0 + m, x1 - m);
+        }
+        let fx = f(x);
+        if fx.is_nan() {
+            x = 0.5 * (x0 + x1);
+        }
+        if (fx >= 0.0) == above0 {
+            x0 = x;
+            f0 = fx;
+            if side == -1 {
+                f1 *= 0.5;
+            }
+            side = -1;
+        } else {
+            x1 = x;
+            f1 = fx;
+            if side == 1 {
+                f0 *= 0.5;
+            }
+            side = 1;
+        }
+        if (x - last).abs() < tol_s {
+            return x;
+        }
+        last = x;
+    }
+    0.5 * (x0 + x1)
+}
+
+/// Refine a sign change of `f` between `a` (value `fa`) and `b` (value `fb`)
+/// to `tol_s` seconds ([`illinois`] on the offsets from `a`).
+pub fn refine(
     f: &mut dyn FnMut(Instant) -> f64,
     a: Instant,
     fa: f64,
     b: Instant,
+    fb: f64,
     tol_s: f64,
 ) -> Instant {
-    let (mut lo, mut hi) = (a, b);
-    let mut flo = fa;
-    while hi.seconds_since(&lo) > tol_s {
-        let mid = lo.add_seconds(hi.seconds_since(&lo) / 2.0);
-        let fm = f(mid);
-        if (fm >= 0.0) == (flo >= 0.0) {
-            lo = mid;
-            flo = fm;
-        } else {
-            hi = mid;
-        }
-    }
-    lo.add_seconds(hi.seconds_since(&lo) / 2.0)
+    let span = b.seconds_since(&a);
+    let mut g = |s: f64| f(a.add_seconds(s));
+    let s = illinois(&mut g, 0.0, fa, span, fb, tol_s);
+    a.add_seconds(s)
 }
 
-/// Every zero crossing of `f` on the sampled grid `ts` (values `vs`), refined to `tol_s`.
+/// Every zero crossing of `f` on the sampled grid `ts` (values `vs`, which must
+/// be `f` at `ts`), refined to `tol_s`.
 pub fn crossings_on_grid(
     f: &mut dyn FnMut(Instant) -> f64,
     ts: &[Instant],
@@ -49,7 +104,7 @@ pub fn crossings_on_grid(
             continue;
         }
         if (a >= 0.0) != (b >= 0.0) {
-            let t = bisect(f, ts[i - 1], a, ts[i], tol_s);
+            let t = refine(f, ts[i - 1], a, ts[i], b, tol_s);
             out.push(Crossing {
                 t,
                 rising: b >= 0.0,

@@ -428,8 +428,10 @@ impl NightFrame {
         self.t0.add_seconds(self.span_s)
     }
 
-    /// Context at an instant inside (or slightly outside) the span.
-    pub fn context(&self, t: Instant) -> Context {
+    /// The slowly varying quantities at `t`, interpolated: CIP X, Y, CIO
+    /// locator s, TIO locator s′, the Earth's barycentric position and
+    /// velocity (au, au/d) and heliocentric position and velocity.
+    fn slow(&self, t: Instant) -> [f64; 16] {
         let u = t.seconds_since(&self.t0) / self.span_s; // 0..1
         // Quadratic Lagrange weights at nodes 0, 0.5, 1.
         let w0 = 2.0 * (u - 0.5) * (u - 1.0);
@@ -439,6 +441,52 @@ impl NightFrame {
         for (i, qi) in q.iter_mut().enumerate() {
             *qi = w0 * self.samples[0][i] + w1 * self.samples[1][i] + w2 * self.samples[2][i];
         }
+        q
+    }
+
+    /// Star-independent astrometry for the geocentre at `t` (SOFA `apci`
+    /// from the interpolated quantities): ICRS to geocentric CIRS, without
+    /// the observer's diurnal motion, which [`NightFrame::site_astrom`] adds.
+    /// A CIRS place from it varies smoothly through the night.
+    pub(crate) fn geocentric_astrom(&self, t: Instant) -> IauAstrom {
+        let q = self.slow(t);
+        let (t1, t2) = t.tt();
+        let eb = [[q[4], q[5], q[6]], [q[7], q[8], q[9]]];
+        let ehp = [q[10], q[11], q[12]];
+        let mut astrom = IauAstrom::default();
+        sofars::astro::apci(t1, t2, &eb, &ehp, q[0], q[1], q[2], &mut astrom);
+        astrom
+    }
+
+    /// The site's terms for CIRS to observed at `t` (SOFA `apio`: local Earth
+    /// rotation angle, diurnal aberration, refraction constants), with and
+    /// without refraction.
+    pub(crate) fn site_astrom(&self, t: Instant) -> (IauAstrom, IauAstrom) {
+        let q = self.slow(t);
+        let (u1, u2) = t.ut1();
+        let theta = sofars::erst::era00(u1, u2);
+        let mut astrom = IauAstrom::default();
+        sofars::astro::apio(
+            q[3],
+            theta,
+            self.site_lon_rad,
+            self.site_lat_rad,
+            self.elev_m,
+            0.0,
+            0.0,
+            self.refa,
+            self.refb,
+            &mut astrom,
+        );
+        let mut geo = astrom;
+        geo.refa = 0.0;
+        geo.refb = 0.0;
+        (astrom, geo)
+    }
+
+    /// Context at an instant inside (or slightly outside) the span.
+    pub fn context(&self, t: Instant) -> Context {
+        let q = self.slow(t);
         let (t1, t2) = t.tt();
         let (u1, u2) = t.ut1();
         let theta = sofars::erst::era00(u1, u2);

@@ -7,6 +7,7 @@ pub mod frames;
 pub mod night;
 pub mod site;
 pub mod time;
+pub mod visibility;
 
 use crate::astro::frames::{CatalogPlace, Context};
 use crate::astro::site::Site;

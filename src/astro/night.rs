@@ -1,21 +1,23 @@
 //! The night of a date: from local noon of that date to the next local noon,
 //! with its Sun and Moon events and the visibility of targets in it.
 
-use crate::astro::airmass::kasten_young;
 use crate::astro::events::{Crossing, crossings_on_grid, grid, positive_intervals};
 use crate::astro::frames::{CatalogPlace, Context, NightFrame, Observed};
 use crate::astro::site::Site;
 use crate::astro::time::{Instant, VALID_FROM_JD, VALID_TO_JD};
+use crate::astro::visibility::{SkyFrame, Track};
 use crate::error::{Result, RungError};
 use chrono::{NaiveDate, NaiveTime, TimeZone};
 use serde::Serialize;
 
-/// Grid spacing used to bracket events, seconds (refined by bisection to 1 s).
+/// Grid spacing used to bracket the Sun and Moon events, seconds (each then
+/// refined by regula falsi, `astro::events`).
 pub const GRID_STEP_S: f64 = 600.0;
 /// Most nights kept by [`Night::shared`] (about 0.13 MB each: three years of nights).
 pub const NIGHT_CACHE_MAX: usize = 1200;
-/// Tolerance of every reported event time, seconds.
-pub const EVENT_TOL_S: f64 = 1.0;
+/// Tolerance to which every event time is refined, seconds (reported times
+/// are then rounded to the second).
+pub const EVENT_TOL_S: f64 = 0.001;
 
 /// Sunrise/sunset altitude of the Sun's geometric centre: −0°50′ (Meeus ch. 15).
 pub const SUN_RISE_SET_DEG: f64 = -50.0 / 60.0;
@@ -129,6 +131,9 @@ pub struct Night {
     pub moon: Vec<Observed>,
     /// Sun on the grid.
     pub sun: Vec<Observed>,
+    /// What every target shares for its closed-form visibility
+    /// (`astro::visibility`).
+    pub sky: SkyFrame,
     /// Dark intervals already found, by Sun limit (degrees).
     dark_cache: DarkCache,
 }
@@ -194,7 +199,7 @@ impl Night {
     pub fn spanning(site: &Site, date: NaiveDate, start: Instant, end: Instant) -> Result<Self> {
         start.check_span()?;
         end.check_span()?;
-        // The frame reaches half an hour past each end for the bisections, but
+        // The frame reaches half an hour past each end for the refinements, but
         // never outside rung's valid span (it extrapolates smoothly there).
         let lo = Instant::from_jd_utc(VALID_FROM_JD)?;
         let hi = Instant::from_jd_utc(VALID_TO_JD - 1e-6)?;
@@ -211,7 +216,9 @@ impl Night {
         let contexts: Vec<Context> = times.iter().map(|t| frame.context(*t)).collect();
         let sun: Vec<Observed> = contexts.iter().map(|c| c.sun()).collect();
         let moon: Vec<Observed> = contexts.iter().map(|c| c.moon()).collect();
+        let sky = SkyFrame::new(site, start, end, &frame);
         Ok(Night {
+            sky,
             date,
             site: site.clone(),
             start,
@@ -354,110 +361,24 @@ impl Night {
         iv
     }
 
-    /// Rise, transit, set and the observable window of a target this night.
+    /// Rise, transit, set and the observable window of a target this night:
+    /// the row of the visibility table (`astro::visibility`), every event
+    /// refined to a millisecond on the exact observed place.
     pub fn target(&self, place: &CatalogPlace, limits: &Limits) -> TargetNight {
-        let obs: Vec<Observed> = self.contexts.iter().map(|c| c.observe(place)).collect();
-        let at = |t: Instant| self.context(t).observe(place);
+        self.sky.track(place).target_night(self, limits)
+    }
 
-        // Rise and set: geometric altitude through −0°34′.
-        let rs: Vec<f64> = obs
-            .iter()
-            .map(|o| o.alt_geom_rad.to_degrees() - STAR_RISE_SET_DEG)
-            .collect();
-        let mut frs = |t: Instant| at(t).alt_geom_rad.to_degrees() - STAR_RISE_SET_DEG;
-        let cs = crossings_on_grid(&mut frs, &self.times, &rs, EVENT_TOL_S);
-        let circumpolar = rs.iter().all(|v| *v >= 0.0);
-        let never = rs.iter().all(|v| *v < 0.0);
-        let reason = |w: &str| {
-            if circumpolar {
-                format!("circumpolar at this latitude: never {w}s")
-            } else if never {
-                "never rises at this latitude".to_string()
-            } else {
-                format!("does not {w} between the local noons")
-            }
-        };
-        let rise = cs
-            .iter()
-            .find(|c| c.rising)
-            .map(|c| Event::at(c.t))
-            .unwrap_or_else(|| Event::none(reason("rise")));
-        let set = cs
-            .iter()
-            .find(|c| !c.rising)
-            .map(|c| Event::at(c.t))
-            .unwrap_or_else(|| Event::none(reason("set")));
+    /// The same without rise and set (each `None` with the reason "not
+    /// computed"): windows, transit and the highest altitude in the dark, what
+    /// the distance methods, the budget and the scheduler need.
+    pub fn windows(&self, place: &CatalogPlace, limits: &Limits) -> TargetNight {
+        self.sky.track(place).windows_night(self, limits)
+    }
 
-        // Transit: hour angle through 0 going from east to west.
-        let hs: Vec<f64> = obs.iter().map(|o| o.ha_rad.sin()).collect();
-        let mut fh = |t: Instant| at(t).ha_rad.sin();
-        let transit = crossings_on_grid(&mut fh, &self.times, &hs, EVENT_TOL_S)
-            .into_iter()
-            .find(|c| c.rising && at(c.t).ha_rad.cos() > 0.0)
-            .map(|c| Event::at(c.t))
-            .unwrap_or_else(|| Event::none("no upper transit between the local noons"));
-
-        // Window: observed altitude above the limit and the horizon mask, Sun
-        // below its limit. Each condition's intervals are found on their own
-        // and then intersected, so a window shorter than the grid step made by
-        // the two overlapping (a target sinking below the limit soon after
-        // dusk) is still found.
-        let alt_margin = |o: &Observed| -> f64 {
-            let floor = limits
-                .min_alt_deg
-                .max(self.site.horizon_alt_deg(o.az_rad.to_degrees()));
-            o.alt_rad.to_degrees() - floor
-        };
-        let ws: Vec<f64> = obs.iter().map(alt_margin).collect();
-        let mut fw = |t: Instant| alt_margin(&at(t));
-        let above = positive_intervals(&mut fw, &self.times, &ws, EVENT_TOL_S);
-        let dark = self.dark_intervals(limits.sun_alt_deg);
-        let windows = intersect_intervals(&above, &dark);
-
-        // Highest altitude while the Sun is below its limit: on the grid, at
-        // the window edges and the transit, and at the ends of the dark
-        // intervals (where it lies when the target climbs or sinks all through
-        // the dark time; those ends count as dark whichever side of the limit
-        // their 1 s bisection left them).
-        let mut best: Option<(f64, Instant)> = None;
-        let mut consider = |alt: f64, t: Instant, dark: bool| {
-            if dark && best.is_none_or(|(b, _)| alt > b) {
-                best = Some((alt, t));
-            }
-        };
-        for ((o, t), s) in obs.iter().zip(&self.times).zip(&self.sun_alt_deg) {
-            consider(o.alt_rad.to_degrees(), *t, *s < limits.sun_alt_deg);
-        }
-        let mut extra: Vec<(Instant, bool)> = windows
-            .iter()
-            .flat_map(|w| [(w.0, false), (w.1, false)])
-            .collect();
-        if let Some(t) = transit.t {
-            extra.push((t, false));
-        }
-        for d in &dark {
-            extra.push((d.0, true));
-            extra.push((d.1, true));
-        }
-        for (t, dark_end) in extra {
-            let c = self.context(t);
-            consider(
-                c.observe(place).alt_rad.to_degrees(),
-                t,
-                dark_end || c.sun().alt_geom_rad.to_degrees() < limits.sun_alt_deg,
-            );
-        }
-        let observable_s: f64 = windows.iter().map(|(a, b)| b.seconds_since(a)).sum::<f64>() + 0.0;
-        TargetNight {
-            rise,
-            transit,
-            set,
-            windows,
-            observable_hours: observable_s / 3600.0,
-            max_altitude_deg: best.map(|b| b.0),
-            max_altitude_time: best.map(|b| b.1),
-            min_airmass: best.and_then(|b| kasten_young(b.0)),
-        }
+    /// A target's [`Track`] through this night: its exact observed place at
+    /// any instant and its closed-form first guesses.
+    pub fn track(&self, place: &CatalogPlace) -> Track<'_> {
+        self.sky.track(place)
     }
 }
 

@@ -71,6 +71,102 @@ pub fn check_jd_in_span(jd: f64, what: &str) -> Result<()> {
     check_span(jd, || what.to_string())
 }
 
+/// UTC Julian date of 1972-01-01 0h: from then on TAI − UTC is a whole number
+/// of seconds that changes only at leap seconds, at 0h of the first of a month.
+const LEAP_ERA_JD: f64 = 2_441_317.5;
+
+/// SOFA's leap-second table as rung uses it: (UTC Julian date at 0h of the
+/// first day a value holds, TAI − UTC in seconds from then on), from 1972 to
+/// the end of rung's valid span, read once from SOFA `dat` (so it is exactly
+/// SOFA's table, whatever sofars version is built in). Converting between
+/// UTC, TAI, TT and UT1 is then a lookup in this short list and arithmetic,
+/// instead of calendar conversions for every instant.
+pub fn leap_seconds() -> &'static [(f64, f64)] {
+    use std::sync::OnceLock;
+    static TABLE: OnceLock<Vec<(f64, f64)>> = OnceLock::new();
+    TABLE.get_or_init(|| {
+        let mut out: Vec<(f64, f64)> = Vec::new();
+        for y in 1972..=2100 {
+            for m in 1..=12 {
+                let (Ok(dat), Ok((a, b))) = (ts::dat(y, m, 1, 0.0), sofars::cal::cal2jd(y, m, 1))
+                else {
+                    continue;
+                };
+                if out.last().is_none_or(|l| l.1 != dat) {
+                    out.push((a + b, dat));
+                }
+            }
+        }
+        out
+    })
+}
+
+/// TAI − UTC (seconds) on the UTC day that starts at Julian date `day_jd`
+/// (0h), from [`leap_seconds`]; `None` before 1972.
+fn tai_minus_utc_at_day(day_jd: f64) -> Option<f64> {
+    if day_jd < LEAP_ERA_JD {
+        return None;
+    }
+    let t = leap_seconds();
+    let i = t.partition_point(|(d, _)| *d <= day_jd);
+    i.checked_sub(1).map(|i| t[i].1)
+}
+
+/// Whether `day_jd` is a Julian date at 0h (rung's normalised `utc1`).
+fn is_day_start(day_jd: f64) -> bool {
+    (day_jd - 0.5).fract() == 0.0
+}
+
+/// The day's TAI − UTC and the length of its UTC day in SI seconds over
+/// 86 400 (86 401/86 400 on a day that ends with a leap second).
+fn day_scale(day_jd: f64) -> Option<(f64, f64)> {
+    let d0 = tai_minus_utc_at_day(day_jd)?;
+    let d1 = tai_minus_utc_at_day(day_jd + 1.0)?;
+    Some((d0, (DAY_S + (d1 - d0)) / DAY_S))
+}
+
+/// UTC → TAI as SOFA `utctai` computes it, for an instant held as rung holds
+/// it (whole day at 0h, fraction in [0, 1)) from 1972 on; `None` otherwise.
+fn fast_utc_tai(utc1: f64, utc2: f64) -> Option<(f64, f64)> {
+    if !is_day_start(utc1) || !(0.0..1.0).contains(&utc2) {
+        return None;
+    }
+    let (dat0, scale) = day_scale(utc1)?;
+    let fd = if scale == 1.0 { utc2 } else { utc2 * scale };
+    Some((utc1, fd + dat0 / DAY_S))
+}
+
+/// TAI (whole day at 0h UTC of some day from 1972 on, plus a fraction of any
+/// size) → UTC as (0h of the UTC day, fraction in [0, 1)), the inverse of
+/// [`fast_utc_tai`]; `None` where SOFA must answer (before 1972, or a part
+/// that is not a day start).
+fn fast_tai_utc(tai1: f64, tai2: f64) -> Option<(f64, f64)> {
+    if !is_day_start(tai1) || !tai2.is_finite() || tai2.abs() > 1e4 {
+        return None;
+    }
+    let (mut day, mut f) = (tai1, tai2);
+    // Jump to the right day (give or take one), then settle.
+    let k = (f - tai_minus_utc_at_day(day)? / DAY_S).floor();
+    if k != 0.0 {
+        day += k;
+        f -= k;
+    }
+    for _ in 0..4 {
+        let (dat0, scale) = day_scale(day)?;
+        let u = (f - dat0 / DAY_S) / scale;
+        if u < 0.0 {
+            day -= 1.0;
+            f += 1.0;
+        } else if u >= 1.0 {
+            day += 1.0;
+            f -= 1.0;
+        } else {
+            return Some((day, u));
+        }
+    }
+    None
+}
+
 impl Instant {
     /// Refuse this instant when it lies outside rung's valid span. Every entry
     /// point that hands an instant to SOFA's ephemerides calls this, because
@@ -193,8 +289,13 @@ impl Instant {
         if up { back.add_seconds(1.0) } else { back }
     }
 
-    /// TAI as a two-part Julian date.
+    /// TAI as a two-part Julian date (SOFA `utctai`; from 1972 on, when the
+    /// instant is held as rung holds it, by arithmetic on the leap-second
+    /// table of [`leap_seconds`]).
     pub fn tai(&self) -> (f64, f64) {
+        if let Some(t) = fast_utc_tai(self.utc1, self.utc2) {
+            return t;
+        }
         ts::utctai(self.utc1, self.utc2).unwrap_or((self.utc1, self.utc2))
     }
 
@@ -206,6 +307,11 @@ impl Instant {
 
     /// UT1 as a two-part Julian date, with DUT1 = 0 (see module note).
     pub fn ut1(&self) -> (f64, f64) {
+        if let Some((a, b)) = fast_utc_tai(self.utc1, self.utc2) {
+            // SOFA utcut1: TAI, then UT1 = TAI + (DUT1 − (TAI − UTC at 0h of the day)).
+            let dat0 = tai_minus_utc_at_day(self.utc1).unwrap_or(0.0);
+            return (a, b + (DUT1_S - dat0) / DAY_S);
+        }
         ts::utcut1(self.utc1, self.utc2, DUT1_S).unwrap_or((self.utc1, self.utc2))
     }
 
@@ -244,6 +350,9 @@ impl Instant {
     pub fn add_seconds(&self, s: f64) -> Instant {
         let (a, b) = self.tai();
         let b2 = b + s / DAY_S;
+        if let Some((u1, u2)) = fast_tai_utc(a, b2) {
+            return Instant { utc1: u1, utc2: u2 };
+        }
         match ts::taiutc(a, b2) {
             Ok((u1, u2)) => {
                 let whole = (u1 + u2 - 0.5).floor() + 0.5;
@@ -421,6 +530,63 @@ mod tests {
         assert!(parse_date("2026-02-30").is_err());
         assert!(parse_date("2100-06-01").is_err());
         assert!(parse_date("1959-12-31").is_err());
+    }
+
+    #[test]
+    fn arithmetic_time_agrees_with_sofa() {
+        // The leap-second table path against SOFA's calendar path, on
+        // ordinary days, leap-second days (2016-12-31, 1972-06-30) and their
+        // neighbours: TAI, UT1 and the way back agree to 1 ns.
+        let ns = 1e-9 / DAY_S;
+        for day in [
+            "2016-12-30",
+            "2016-12-31",
+            "2017-01-01",
+            "1972-06-30",
+            "1972-07-01",
+            "2026-12-01",
+            "2099-12-30",
+        ] {
+            let d: NaiveDate = day.parse().unwrap();
+            for k in 0..=48 {
+                let frac = k as f64 / 48.0 * 0.999_999;
+                let (a, b) =
+                    sofars::cal::cal2jd(d.year(), d.month() as i32, d.day() as i32).unwrap();
+                let t = Instant {
+                    utc1: a + b,
+                    utc2: frac,
+                };
+                let (s1, s2) = ts::utctai(t.utc1, t.utc2).unwrap();
+                let (f1, f2) = t.tai();
+                assert!(((f1 - s1) + (f2 - s2)).abs() < ns, "{day} {frac}: tai");
+                let (s1, s2) = ts::utcut1(t.utc1, t.utc2, DUT1_S).unwrap();
+                let (f1, f2) = t.ut1();
+                assert!(((f1 - s1) + (f2 - s2)).abs() < ns, "{day} {frac}: ut1");
+                for ds in [
+                    -90_000.0,
+                    -3600.0,
+                    -0.5,
+                    0.25,
+                    3600.0,
+                    86_400.0,
+                    400.0 * 86_400.0,
+                ] {
+                    let (a, b) = t.tai();
+                    let (s1, s2) = ts::taiutc(a, b + ds / DAY_S).unwrap();
+                    let u = t.add_seconds(ds);
+                    // Compare as SI seconds from the same TAI origin.
+                    let w = ts::utctai(s1, s2).unwrap();
+                    let g = u.tai();
+                    assert!(
+                        ((g.0 - w.0) + (g.1 - w.1)).abs() < ns,
+                        "{day} {frac} + {ds} s: {:?} vs {:?}",
+                        g,
+                        w
+                    );
+                    assert!((0.0..1.0).contains(&u.utc2));
+                }
+            }
+        }
     }
 
     #[test]

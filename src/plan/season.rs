@@ -5,7 +5,7 @@
 //! How it stays cheap (the structure of the problem):
 //! - Per night, one [`NightFrame`] (interpolated SOFA astrometry, as
 //!   `rung::astro::night::Night` uses it: Sun on a 10-minute grid, Sun limits
-//!   bisected to 1 s; Moon on a [`MOON_STEP_S`] grid) and one full SOFA context
+//!   refined to 1 ms; Moon on a [`MOON_STEP_S`] grid) and one full SOFA context
 //!   (`apco13`) at the middle of the night are shared by every target.
 //! - Per target and night, the apparent (CIRS) place is computed once with
 //!   SOFA `atciq` at the middle of the night. Over one night it moves by well
@@ -19,7 +19,7 @@
 //!   altitude that SOFA `atioq` refracts onto it, from a table of SOFA `atioq`
 //!   refraction (with the site's `refco` constants) built once per scan.
 //! - A horizon mask above the altitude limit is applied by sampling every
-//!   [`MASK_STEP_S`] seconds inside the window and bisecting each crossing.
+//!   [`MASK_STEP_S`] seconds inside the window and refining each crossing.
 //! - The Moon is carried on its grid as unit vectors in a
 //!   frame that turns with the Earth, so target–Moon separation is a dot product
 //!   per grid point, linear in between; the Moon limit crossings and the
@@ -37,27 +37,28 @@ use crate::astro::frames::{NightFrame, Observed};
 use crate::astro::night::{EVENT_TOL_S, GRID_STEP_S, Limits, local_noon};
 use crate::astro::site::Site;
 use crate::astro::time::{DUT1_S, Instant, UNIX_EPOCH_JD};
+use crate::astro::visibility::{push_merged, sampled_into};
 use crate::error::{Result, RungError};
 use chrono::{Datelike, NaiveDate};
 use rayon::prelude::*;
-use sofars::astro::{IauAstrom, ab, apco13, atioq, ldsun, pmpx};
+use sofars::astro::{IauAstrom, ab, apco13, ldsun, pmpx};
 use std::f64::consts::{PI, TAU};
 use std::ops::ControlFlow;
 
 /// Longest date range one scan accepts, days (ten years).
 pub const MAX_SPAN_DAYS: i64 = 3653;
 
-/// Sampling step of the horizon mask inside a window, seconds; crossings are
-/// then bisected to [`MASK_TOL_S`]. Mask features narrower than this in time
-/// (a few arcminutes of azimuth near the meridian) can be missed.
-pub const MASK_STEP_S: f64 = 240.0;
-/// Bisection tolerance of horizon-mask crossings, seconds.
-pub const MASK_TOL_S: f64 = 2.0;
+/// Sampling step of the horizon mask inside a window, seconds (the
+/// visibility table's); crossings are then refined to [`MASK_TOL_S`]. Mask
+/// features narrower than this in time (a few arcminutes of azimuth near the
+/// meridian) can be missed.
+pub use crate::astro::visibility::MASK_STEP_S;
+/// Tolerance of horizon-mask crossings, seconds (regula falsi,
+/// `astro::visibility::sampled_into`).
+pub const MASK_TOL_S: f64 = 0.01;
 
-/// Earth rotation rate, radians per UT1 second: 2π × 1.00273781191135448 per
-/// day, the rate of the IAU 2000 Earth rotation angle (IERS Conventions 2010,
-/// eq. 5.15; SOFA `era00`).
-pub const ERA_RATE_RAD_S: f64 = TAU * 1.002_737_811_911_354_5 / 86_400.0;
+/// Earth rotation rate, radians per UT1 second (see `astro::visibility`).
+pub use crate::astro::visibility::ERA_RATE_RAD_S;
 
 /// Spacing of the Moon's grid, seconds. Linear interpolation of the Moon's
 /// direction over it errs by < 0.003° (the topocentric parallax, ≤ 1°, turns
@@ -66,11 +67,6 @@ pub const MOON_STEP_S: f64 = 1800.0;
 
 /// Targets per parallel work item.
 const CHUNK: usize = 256;
-
-/// Geometric altitude range of the refraction table, radians, and its step.
-const REFR_G0_DEG: f64 = -3.0;
-const REFR_STEP_DEG: f64 = 0.05;
-const REFR_N: usize = 1862; // (90 − (−3)) / 0.05 + 2
 
 /// Sun altitude (degrees) above which the Sun counts as up for the Sun-avoidance
 /// caution (the sunrise/sunset altitude).
@@ -130,64 +126,8 @@ pub fn nights_in(from: NaiveDate, to: NaiveDate) -> Result<Vec<NaiveDate>> {
     Ok(from.iter_days().take(n as usize).collect())
 }
 
-/// Refraction of SOFA `atioq` as a function of geometric altitude, tabulated once
-/// for a site's `refco` constants (SOFA's A tan z + B tan³ z model with its
-/// Newton correction and its low-altitude clamp).
-#[derive(Debug, Clone)]
-pub struct Refraction {
-    r_rad: Vec<f64>,
-}
-
-impl Refraction {
-    /// Tabulate from an astrometry context whose `refa`, `refb` are the site's.
-    fn new(astrom: &IauAstrom) -> Self {
-        let mut geo = *astrom;
-        geo.refa = 0.0;
-        geo.refb = 0.0;
-        let r_rad = (0..REFR_N)
-            .map(|i| {
-                let g = (REFR_G0_DEG + REFR_STEP_DEG * i as f64)
-                    .min(90.0)
-                    .to_radians();
-                // A direction at that altitude due east, as CIRS RA/Dec.
-                let [ha, dec] = sofars::coords::ae2hd(PI / 2.0, g, astrom.phi);
-                let ri = astrom.eral - ha;
-                let (_, zob, ..) = atioq(ri, dec, astrom);
-                let (_, zgeo, ..) = atioq(ri, dec, &geo);
-                zgeo - zob
-            })
-            .collect();
-        Refraction { r_rad }
-    }
-
-    /// Refraction (observed − geometric altitude), radians, at geometric altitude `g_rad`.
-    pub fn at(&self, g_rad: f64) -> f64 {
-        let x = (g_rad.to_degrees() - REFR_G0_DEG) / REFR_STEP_DEG;
-        if x <= 0.0 {
-            return self.r_rad[0];
-        }
-        let i = x as usize;
-        if i + 1 >= self.r_rad.len() {
-            return *self.r_rad.last().unwrap_or(&0.0);
-        }
-        let f = x - i as f64;
-        self.r_rad[i] * (1.0 - f) + self.r_rad[i + 1] * f
-    }
-
-    /// Observed altitude, radians, of a geometric altitude `g_rad`.
-    pub fn observed(&self, g_rad: f64) -> f64 {
-        g_rad + self.at(g_rad)
-    }
-
-    /// Geometric altitude, radians, that refracts onto the observed altitude `obs_rad`.
-    pub fn geometric(&self, obs_rad: f64) -> f64 {
-        let mut g = obs_rad;
-        for _ in 0..8 {
-            g = obs_rad - self.at(g);
-        }
-        g
-    }
-}
+/// SOFA's refraction tabulated once per site (see `astro::visibility`).
+pub use crate::astro::visibility::Refraction;
 
 /// What one night offers every target: the dark intervals, the shared
 /// astrometry at its middle, and the Moon (and Sun, when needed) on a grid.
@@ -231,7 +171,7 @@ impl NightSky {
     /// Prepare the night of `date` at `site` for the constraints `c`.
     pub fn new(site: &Site, date: NaiveDate, c: &Constraints) -> Result<Self> {
         // The night's span and Sun as `Night` has them (local noon to local noon,
-        // Sun on the 10-minute grid, limits bisected to 1 s), with the Moon on a
+        // Sun on the 10-minute grid, limits refined to 1 ms), with the Moon on a
         // coarser grid: its direction is smooth enough for linear interpolation
         // over MOON_STEP_S (< 0.003°, see the module note).
         let start = local_noon(site, date)?;
@@ -406,7 +346,7 @@ pub struct ScanSetup {
     phi: f64,
     g_lim: f64,
     sin_g_lim: f64,
-    refr: Refraction,
+    refr: std::sync::Arc<Refraction>,
     mask: Option<Site>,
     sin_g_mask: f64,
     cos_moon: f64,
@@ -417,7 +357,7 @@ pub struct ScanSetup {
 impl ScanSetup {
     /// Setup for a site and constraints; `sky` provides the refraction constants.
     pub fn new(site: &Site, c: &Constraints, sky: &NightSky) -> Self {
-        let refr = Refraction::new(&sky.astrom);
+        let refr = Refraction::shared(&sky.astrom);
         let g_lim = refr.geometric(c.min_alt_deg.to_radians());
         let mask_max = site
             .horizon
@@ -500,7 +440,7 @@ impl PreparedPlace {
 /// The apparent place is SOFA's `atciq` chain (`pmpx`, `ldsun`, `ab`, `bpn`
 /// rotation) at the middle of the night, kept as a CIRS unit vector. Accuracy:
 /// the window edges follow the full SOFA chain to a few seconds (Sun limit to
-/// 1 s by bisection, altitude limit exact in closed form, horizon mask to
+/// 1 ms by regula falsi, altitude limit exact in closed form, horizon mask to
 /// [`MASK_TOL_S`], Moon limit from the [`MOON_STEP_S`] grid, linear in between).
 pub fn target_night(
     setup: &ScanSetup,
@@ -583,7 +523,7 @@ pub fn target_night(
 
     let sin_alt_at = |s: f64| -> f64 { a + b * (ha_mid + w * s).cos() };
 
-    // Horizon mask above the altitude limit: sample and bisect.
+    // Horizon mask above the altitude limit: sample and refine.
     if let Some(site) = &setup.mask {
         let di = sd.atan2(cd);
         let margin = |s: f64| -> f64 {
@@ -623,13 +563,13 @@ pub fn target_night(
                     continue;
                 }
                 if sa > x {
-                    refine_mask(&margin, x, sa, nxt);
+                    sampled_into(&margin, x, sa, MASK_STEP_S, MASK_TOL_S, nxt);
                 }
                 push_merged(nxt, (sa.max(x), sb));
                 x = sb;
             }
             if hi > x {
-                refine_mask(&margin, x, hi, nxt);
+                sampled_into(&margin, x, hi, MASK_STEP_S, MASK_TOL_S, nxt);
             }
         }
         std::mem::swap(cur, nxt);
@@ -741,87 +681,6 @@ pub fn target_night(
         row.sun_caution = sun_caution_in(setup, sky, &u, cur);
     }
     row
-}
-
-/// Append an interval, joining it to the last one when they touch.
-fn push_merged(out: &mut Vec<(f64, f64)>, iv: (f64, f64)) {
-    if let Some(last) = out.last_mut()
-        && iv.0 <= last.1 + 1e-6
-    {
-        last.1 = last.1.max(iv.1);
-        return;
-    }
-    out.push(iv);
-}
-
-/// The parts of `[lo, hi]` where `margin` ≥ 0, sampled every [`MASK_STEP_S`]
-/// and bisected to [`MASK_TOL_S`], appended to `out`.
-fn refine_mask(margin: &dyn Fn(f64) -> f64, lo: f64, hi: f64, out: &mut Vec<(f64, f64)>) {
-    let n = ((hi - lo) / MASK_STEP_S).ceil().max(1.0) as usize;
-    let step = (hi - lo) / n as f64;
-    let mut s0 = lo;
-    let mut f0 = margin(lo);
-    let mut open = if f0 >= 0.0 { Some(lo) } else { None };
-    for j in 1..=n {
-        let s1 = if j == n { hi } else { lo + step * j as f64 };
-        let f1 = margin(s1);
-        if (f0 >= 0.0) != (f1 >= 0.0) {
-            // Illinois (modified regula falsi) on the bracket, to MASK_TOL_S.
-            let (mut x0, mut x1, mut g0, mut g1) = (s0, s1, f0, f1);
-            let mut side = 0;
-            while x1 - x0 > MASK_TOL_S {
-                let xm = if g1 != g0 {
-                    (x0 - g0 * (x1 - x0) / (g1 - g0))
-                        .clamp(x0 + 0.25 * MASK_TOL_S, x1 - 0.25 * MASK_TOL_S)
-                } else {
-                    0.5 * (x0 + x1)
-                };
-                let gm = margin(xm);
-                if (gm >= 0.0) == (g0 >= 0.0) {
-                    x0 = xm;
-                    g0 = gm;
-                    if side == -1 {
-                        g1 *= 0.5;
-                    }
-                    side = -1;
-                } else {
-                    x1 = xm;
-                    g1 = gm;
-                    if side == 1 {
-                        g0 *= 0.5;
-                    }
-                    side = 1;
-                }
-                // Close the bracket from the far side once the root is pinned.
-                let probe = if side == -1 {
-                    x0 + MASK_TOL_S
-                } else {
-                    x1 - MASK_TOL_S
-                };
-                if probe > x0 && probe < x1 {
-                    let gp = margin(probe);
-                    if (gp >= 0.0) == (g0 >= 0.0) {
-                        x0 = probe;
-                        g0 = gp;
-                    } else {
-                        x1 = probe;
-                        g1 = gp;
-                    }
-                }
-            }
-            let x = 0.5 * (x0 + x1);
-            if f1 >= 0.0 {
-                open = Some(x);
-            } else if let Some(o) = open.take() {
-                push_merged(out, (o, x));
-            }
-        }
-        s0 = s1;
-        f0 = f1;
-    }
-    if let Some(o) = open {
-        push_merged(out, (o, hi));
-    }
 }
 
 fn sun_caution_in(setup: &ScanSetup, sky: &NightSky, u: &[f64; 3], ws: &[(f64, f64)]) -> bool {

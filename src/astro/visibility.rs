@@ -1,0 +1,870 @@
+//! The visibility table: what a target does in a night, computed once in
+//! closed form and shared by every job that asks (`rung night`, the UI's
+//! Roster and Tonight, the distance methods, the budget and the scheduler).
+//!
+//! Per night, one [`SkyFrame`] (built with the [`Night`] and kept in it):
+//! SOFA astrometry contexts at the start, middle and end of the night, the
+//! Earth rotation angle as a linear function of time, and SOFA's refraction
+//! tabulated once per site ([`Refraction`]).
+//!
+//! Per target and night, a [`Track`]: the target's CIRS place (SOFA `atciq`)
+//! at those three instants, interpolated quadratically (it moves by well
+//! under 1″ in a night). The hour angle then runs at the Earth's rotation
+//! rate, and the geometric altitude follows the closed form of spherical
+//! astronomy, sin h = sin φ sin δ + cos φ cos δ cos H (Meeus, *Astronomical
+//! Algorithms*, 2nd ed., eq. 13.6), so every rise, set, transit and window
+//! edge has a closed-form first guess. Each guess is then refined on the
+//! exact observed place, SOFA `atioq` with the Earth rotation angle of the
+//! instant (the same numbers as [`Night::context`] gives, to 0.01″), by a
+//! Newton step from the closed form's slope and secant steps: one to three
+//! evaluations reach the millisecond, where bisection from the night's
+//! 10-minute grid took ten evaluations (each with a fresh context) to reach
+//! one second.
+//!
+//! The rules are those of the grid method the table replaced (DEVELOPERS.md,
+//! Events): a window is the overlap of the intervals above the altitude limit
+//! (and the horizon mask) with the dark intervals, each found on its own, so
+//! short overlaps are found; the highest altitude in the dark is taken over
+//! the dark intervals, their ends included (a target climbing or sinking
+//! through all the dark time peaks at one end).
+
+use crate::astro::airmass::kasten_young;
+use crate::astro::events::illinois;
+use crate::astro::frames::{CatalogPlace, NightFrame, Observed};
+use crate::astro::night::{
+    Event, Limits, Night, STAR_RISE_SET_DEG, TargetNight, intersect_intervals,
+};
+use crate::astro::site::Site;
+use crate::astro::time::Instant;
+use sofars::astro::{IauAstrom, atciq, atioq};
+use std::f64::consts::{FRAC_PI_2, PI, TAU};
+use std::sync::Arc;
+
+/// Earth rotation rate, radians per UT1 second: 2π × 1.00273781191135448 per
+/// day, the rate of the IAU 2000 Earth rotation angle (IERS Conventions 2010,
+/// eq. 5.15; SOFA `era00`).
+pub const ERA_RATE_RAD_S: f64 = TAU * 1.002_737_811_911_354_5 / 86_400.0;
+
+/// Sampling step of the horizon mask where it can bite, seconds; each sign
+/// change is then refined to [`REFINE_TOL_S`]. Mask features narrower than
+/// this in time (a few arcminutes of azimuth near the meridian) can be missed.
+pub const MASK_STEP_S: f64 = 240.0;
+
+/// Tolerance of every refined event, seconds.
+pub const REFINE_TOL_S: f64 = 0.001;
+
+/// Geometric altitude range of the refraction table, degrees, and its step.
+const REFR_G0_DEG: f64 = -3.0;
+const REFR_STEP_DEG: f64 = 0.05;
+const REFR_N: usize = 1862; // (90 − (−3)) / 0.05 + 2
+
+/// Refraction of SOFA `atioq` as a function of geometric altitude, tabulated
+/// once for a site's `refco` constants (SOFA's A tan z + B tan³ z model with
+/// its Newton correction and its low-altitude clamp). Linear interpolation on
+/// 0.05° steps errs by under 0.5″ down to the horizon, far less above it; it
+/// serves closed-form first guesses and drawings, never a reported number
+/// without an exact evaluation after it.
+#[derive(Debug, Clone)]
+pub struct Refraction {
+    r_rad: Vec<f64>,
+}
+
+impl Refraction {
+    /// Tabulate from an astrometry context whose `refa`, `refb` (and latitude)
+    /// are the site's.
+    pub fn new(astrom: &IauAstrom) -> Self {
+        let mut geo = *astrom;
+        geo.refa = 0.0;
+        geo.refb = 0.0;
+        let r_rad = (0..REFR_N)
+            .map(|i| {
+                let g = (REFR_G0_DEG + REFR_STEP_DEG * i as f64)
+                    .min(90.0)
+                    .to_radians();
+                // A direction at that altitude due east, as CIRS RA/Dec.
+                let [ha, dec] = sofars::coords::ae2hd(PI / 2.0, g, astrom.phi);
+                let ri = astrom.eral - ha;
+                let (_, zob, ..) = atioq(ri, dec, astrom);
+                let (_, zgeo, ..) = atioq(ri, dec, &geo);
+                zgeo - zob
+            })
+            .collect();
+        Refraction { r_rad }
+    }
+
+    /// The table for a site's refraction constants, built once per process
+    /// and shared (a handful of sites are ever in use).
+    pub fn shared(astrom: &IauAstrom) -> Arc<Refraction> {
+        use std::sync::{Mutex, OnceLock};
+        type Memo = Mutex<Vec<([u64; 3], Arc<Refraction>)>>;
+        static MEMO: OnceLock<Memo> = OnceLock::new();
+        let key = [
+            astrom.refa.to_bits(),
+            astrom.refb.to_bits(),
+            astrom.phi.to_bits(),
+        ];
+        let memo = MEMO.get_or_init(|| Mutex::new(Vec::new()));
+        if let Ok(m) = memo.lock()
+            && let Some((_, r)) = m.iter().find(|(k, _)| *k == key)
+        {
+            return r.clone();
+        }
+        let r = Arc::new(Refraction::new(astrom));
+        if let Ok(mut m) = memo.lock() {
+            if m.len() >= 64 {
+                m.remove(0);
+            }
+            m.push((key, r.clone()));
+        }
+        r
+    }
+
+    /// Refraction (observed − geometric altitude), radians, at geometric altitude `g_rad`.
+    pub fn at(&self, g_rad: f64) -> f64 {
+        let x = (g_rad.to_degrees() - REFR_G0_DEG) / REFR_STEP_DEG;
+        if x <= 0.0 {
+            return self.r_rad[0];
+        }
+        let i = x as usize;
+        if i + 1 >= self.r_rad.len() {
+            return *self.r_rad.last().unwrap_or(&0.0);
+        }
+        let f = x - i as f64;
+        self.r_rad[i] * (1.0 - f) + self.r_rad[i + 1] * f
+    }
+
+    /// Observed altitude, radians, of a geometric altitude `g_rad`.
+    pub fn observed(&self, g_rad: f64) -> f64 {
+        g_rad + self.at(g_rad)
+    }
+
+    /// Geometric altitude, radians, that refracts onto the observed altitude `obs_rad`.
+    pub fn geometric(&self, obs_rad: f64) -> f64 {
+        let mut g = obs_rad;
+        for _ in 0..8 {
+            g = obs_rad - self.at(g);
+        }
+        g
+    }
+}
+
+/// What one night offers every target: SOFA astrometry at its start, middle
+/// and end, the Earth rotation angle through it, and the site's refraction.
+/// Built once per night inside [`Night`]; all times are seconds (SI) from the
+/// night's start.
+#[derive(Debug, Clone)]
+pub struct SkyFrame {
+    t0: Instant,
+    span_s: f64,
+    /// Contexts (refracted) at 0, span/2 and span: what `atciq` needs.
+    nodes: [IauAstrom; 3],
+    /// The middle context with and without refraction; `atioq` uses only the
+    /// site terms and the local Earth rotation angle, set per instant.
+    astrom: IauAstrom,
+    astrom_geo: IauAstrom,
+    eral_mid: f64,
+    /// Whether a leap second falls inside the night (UT1 = UTC then jumps by
+    /// a second, and the rotation angle is taken from the instant itself).
+    leap: bool,
+    sin_phi: f64,
+    cos_phi: f64,
+    refraction: Arc<Refraction>,
+}
+
+impl SkyFrame {
+    /// The frame of a night spanning `[start, end]`, from the night's
+    /// interpolating frame: geocentric CIRS astrometry (SOFA `apci`) at the
+    /// start, middle and end, and the site's terms (SOFA `apio`: Earth
+    /// rotation, diurnal aberration, refraction) at the middle. Splitting the
+    /// observer's diurnal motion off the CIRS place (where SOFA `apco` puts it)
+    /// keeps that place smooth through the night, so three samples carry it;
+    /// the two ways agree to far below 0.001″ for stars.
+    pub(crate) fn new(site: &Site, start: Instant, end: Instant, frame: &NightFrame) -> Self {
+        let span_s = end.seconds_since(&start);
+        let mid = start.add_seconds(span_s / 2.0);
+        let du1 = {
+            let (a0, b0) = start.ut1();
+            let (a1, b1) = end.ut1();
+            ((a1 - a0) + (b1 - b0)) * 86_400.0
+        };
+        let phi = site.lat_rad();
+        let (astrom, astrom_geo) = frame.site_astrom(mid);
+        SkyFrame {
+            t0: start,
+            span_s,
+            nodes: [
+                frame.geocentric_astrom(start),
+                frame.geocentric_astrom(mid),
+                frame.geocentric_astrom(end),
+            ],
+            astrom,
+            astrom_geo,
+            eral_mid: astrom.eral,
+            leap: (du1 - span_s).abs() > 1e-3,
+            sin_phi: phi.sin(),
+            cos_phi: phi.cos(),
+            refraction: Refraction::shared(&astrom),
+        }
+    }
+
+    /// Seconds from the night's start to `t`.
+    pub fn offset(&self, t: Instant) -> f64 {
+        t.seconds_since(&self.t0)
+    }
+
+    /// The instant `s` seconds after the night's start.
+    pub fn instant(&self, s: f64) -> Instant {
+        self.t0.add_seconds(s)
+    }
+
+    /// Length of the night, seconds.
+    pub fn span_s(&self) -> f64 {
+        self.span_s
+    }
+
+    /// The site's refraction table.
+    pub fn refraction(&self) -> &Refraction {
+        &self.refraction
+    }
+
+    /// Local Earth rotation angle (ERA + longitude, SOFA `eral`) at offset `s`.
+    fn eral(&self, s: f64) -> f64 {
+        if self.leap {
+            let (u1, u2) = self.instant(s).ut1();
+            sofars::erst::era00(u1, u2) + self.astrom.along
+        } else {
+            self.eral_mid + ERA_RATE_RAD_S * (s - 0.5 * self.span_s)
+        }
+    }
+
+    /// The target's [`Track`] through the night.
+    pub fn track(&self, place: &CatalogPlace) -> Track<'_> {
+        let mut ri = [0.0; 3];
+        let mut di = [0.0; 3];
+        for k in 0..3 {
+            let mut a = self.nodes[k];
+            let (r, d) = atciq(
+                place.ra_rad,
+                place.dec_rad,
+                place.pm_ra_rad_yr,
+                place.pm_dec_rad_yr,
+                place.parallax_arcsec,
+                place.rv_kms,
+                &mut a,
+            );
+            ri[k] = r;
+            di[k] = d;
+        }
+        // Unwrap the right ascensions around the middle one.
+        for k in [0, 2] {
+            ri[k] = ri[1] + sofars::vm::anpm(ri[k] - ri[1]);
+        }
+        let (sd, cd) = di[1].sin_cos();
+        Track {
+            frame: self,
+            ri,
+            di,
+            ha_mid: sofars::vm::anpm(self.eral_mid - ri[1]),
+            a: self.sin_phi * sd,
+            b: self.cos_phi * cd,
+        }
+    }
+}
+
+/// One target through one night: its CIRS place interpolated from three
+/// SOFA `atciq` evaluations, the closed-form altitude for first guesses, and
+/// exact observed places (SOFA `atioq`) at any instant. Offsets are seconds
+/// from the night's start ([`SkyFrame::offset`]).
+#[derive(Debug, Clone)]
+pub struct Track<'a> {
+    frame: &'a SkyFrame,
+    ri: [f64; 3],
+    di: [f64; 3],
+    /// Closed form at the night's middle: hour angle, and sin h = a + b cos H.
+    ha_mid: f64,
+    a: f64,
+    b: f64,
+}
+
+/// A closed-form crossing: offset (s) and whether the quantity rises through it.
+type Guess = (f64, bool);
+
+impl<'a> Track<'a> {
+    /// The night's frame.
+    pub fn frame(&self) -> &'a SkyFrame {
+        self.frame
+    }
+
+    /// CIRS right ascension and declination at offset `s` (quadratic in time).
+    fn cirs(&self, s: f64) -> (f64, f64) {
+        let u = s / self.frame.span_s;
+        let w0 = 2.0 * (u - 0.5) * (u - 1.0);
+        let w1 = -4.0 * u * (u - 1.0);
+        let w2 = 2.0 * u * (u - 0.5);
+        (
+            w0 * self.ri[0] + w1 * self.ri[1] + w2 * self.ri[2],
+            w0 * self.di[0] + w1 * self.di[1] + w2 * self.di[2],
+        )
+    }
+
+    fn astrom_at(&self, s: f64, refracted: bool) -> IauAstrom {
+        let mut a = if refracted {
+            self.frame.astrom
+        } else {
+            self.frame.astrom_geo
+        };
+        a.eral = self.frame.eral(s);
+        a
+    }
+
+    /// The observed place at offset `s`: the same quantities as
+    /// `Context::observe` through the night's frame.
+    pub fn observe(&self, s: f64) -> Observed {
+        let (ri, di) = self.cirs(s);
+        let (aob, zob, ..) = atioq(ri, di, &self.astrom_at(s, true));
+        let (_, zog, hog, dog, _) = atioq(ri, di, &self.astrom_at(s, false));
+        Observed {
+            az_rad: aob,
+            alt_rad: FRAC_PI_2 - zob,
+            alt_geom_rad: FRAC_PI_2 - zog,
+            ha_rad: sofars::vm::anpm(hog),
+            dec_rad: dog,
+        }
+    }
+
+    /// The observed place at instant `t`.
+    pub fn observe_at(&self, t: Instant) -> Observed {
+        self.observe(self.frame.offset(t))
+    }
+
+    /// Geometric (unrefracted) altitude at offset `s`, radians.
+    pub fn alt_geom_rad(&self, s: f64) -> f64 {
+        let (ri, di) = self.cirs(s);
+        FRAC_PI_2 - atioq(ri, di, &self.astrom_at(s, false)).1
+    }
+
+    /// Observed (refracted) altitude and azimuth at offset `s`, radians.
+    pub fn alt_az_rad(&self, s: f64) -> (f64, f64) {
+        let (ri, di) = self.cirs(s);
+        let (aob, zob, ..) = atioq(ri, di, &self.astrom_at(s, true));
+        (FRAC_PI_2 - zob, aob)
+    }
+
+    /// Topocentric hour angle at offset `s`, radians in (−π, π].
+    pub fn ha_rad(&self, s: f64) -> f64 {
+        let (ri, di) = self.cirs(s);
+        sofars::vm::anpm(atioq(ri, di, &self.astrom_at(s, false)).2)
+    }
+
+    /// Closed-form hour angle at offset `s` (not wrapped), radians.
+    pub fn ha_linear(&self, s: f64) -> f64 {
+        self.ha_mid + ERA_RATE_RAD_S * (s - 0.5 * self.frame.span_s)
+    }
+
+    /// Closed-form sine of the geometric altitude at offset `s`.
+    pub fn sin_alt_linear(&self, s: f64) -> f64 {
+        self.a + self.b * self.ha_linear(s).cos()
+    }
+
+    /// Closed-form geometric altitude at the upper transit, radians.
+    pub fn transit_alt_geom_rad(&self) -> f64 {
+        (self.a + self.b).clamp(-1.0, 1.0).asin()
+    }
+
+    /// Offsets where the hour angle is 2πk (upper transits) inside `[lo, hi)`,
+    /// closed form.
+    fn transits_linear(&self, lo: f64, hi: f64) -> Vec<f64> {
+        (-2..=2)
+            .map(|k| 0.5 * self.frame.span_s + (TAU * k as f64 - self.ha_mid) / ERA_RATE_RAD_S)
+            .filter(|s| *s >= lo && *s < hi)
+            .collect()
+    }
+
+    /// Upper transits inside `[lo, hi)`, refined on the exact hour angle.
+    pub fn transits(&self, lo: f64, hi: f64) -> Vec<f64> {
+        self.transits_linear(lo - 60.0, hi + 60.0)
+            .into_iter()
+            .map(|s0| {
+                polish(
+                    &|s| self.ha_rad(s),
+                    s0,
+                    ERA_RATE_RAD_S,
+                    s0 - 120.0,
+                    s0 + 120.0,
+                )
+            })
+            .filter(|s| *s >= lo && *s < hi)
+            .collect()
+    }
+
+    /// Closed-form crossings of the geometric altitude through `g_rad` inside
+    /// `[lo, hi]`, in time order.
+    fn crossings_linear(&self, g_rad: f64, lo: f64, hi: f64) -> Vec<Guess> {
+        if self.b.abs() < 1e-12 {
+            return Vec::new();
+        }
+        let c = (g_rad.sin() - self.a) / self.b;
+        if !(-1.0..1.0).contains(&c) {
+            return Vec::new();
+        }
+        let h0 = c.acos();
+        let mut out: Vec<Guess> = Vec::new();
+        for k in -2..=2 {
+            for (h, rising) in [(-h0, true), (h0, false)] {
+                let s =
+                    0.5 * self.frame.span_s + (TAU * k as f64 + h - self.ha_mid) / ERA_RATE_RAD_S;
+                if s >= lo && s <= hi {
+                    out.push((s, rising));
+                }
+            }
+        }
+        out.sort_by(|x, y| x.0.total_cmp(&y.0));
+        out
+    }
+
+    /// Where the exact quantity `f` (≥ 0 "above") is above, over `[lo, hi]`,
+    /// with the closed form's crossings of the geometric altitude `g_rad` as
+    /// first guesses. Near grazing (the closed form's extreme within 30″ of
+    /// the threshold) the exact quantity is sampled instead of trusted to the
+    /// closed form.
+    fn above(&self, g_rad: f64, f: &dyn Fn(f64) -> f64, lo: f64, hi: f64) -> Vec<(f64, f64)> {
+        let top = (self.a + self.b).clamp(-1.0, 1.0).asin();
+        let bottom = (self.a - self.b).clamp(-1.0, 1.0).asin();
+        let graze = 30f64.to_radians() / 3600.0;
+        if (top - g_rad).abs() < graze || (bottom - g_rad).abs() < graze {
+            return sampled_intervals(f, lo, hi, 300.0);
+        }
+        let guesses = self.crossings_linear(g_rad, lo, hi);
+        let slope = |s: f64| -> f64 {
+            // d(sin h)/ds = −b ω sin H; dh/ds = that / cos h.
+            let h = self.ha_linear(s);
+            -self.b * ERA_RATE_RAD_S * h.sin() / g_rad.cos().max(1e-6)
+        };
+        let mut crossings: Vec<Guess> = guesses
+            .iter()
+            .map(|(s0, r)| {
+                let s = polish(
+                    f,
+                    *s0,
+                    slope(*s0),
+                    (s0 - 600.0).max(lo),
+                    (s0 + 600.0).min(hi),
+                );
+                (s, *r)
+            })
+            .collect();
+        crossings.sort_by(|x, y| x.0.total_cmp(&y.0));
+        let mut out = Vec::new();
+        let mut open = (f(lo) >= 0.0).then_some(lo);
+        for (s, rising) in crossings {
+            if rising {
+                if open.is_none() {
+                    open = Some(s);
+                }
+            } else if let Some(o) = open.take()
+                && s > o
+            {
+                out.push((o, s));
+            }
+        }
+        if let Some(o) = open
+            && hi > o
+        {
+            out.push((o, hi));
+        }
+        out
+    }
+
+    /// Rise and set (geometric altitude through −0°34′), the first of each
+    /// between the local noons, with the reasons when there is none.
+    pub fn rise_set(&self) -> (Event, Event) {
+        let span = self.frame.span_s;
+        let thr = STAR_RISE_SET_DEG.to_radians();
+        let f = |s: f64| self.alt_geom_rad(s) - thr;
+        let up = self.above(thr, &f, 0.0, span);
+        let rise = up.iter().map(|w| w.0).find(|s| *s > 0.0);
+        let set = up.iter().map(|w| w.1).find(|s| *s < span);
+        let circumpolar = up.len() == 1 && up[0] == (0.0, span);
+        let never = up.is_empty();
+        let reason = |w: &str| {
+            if circumpolar {
+                format!("circumpolar at this latitude: never {w}s")
+            } else if never {
+                "never rises at this latitude".to_string()
+            } else {
+                format!("does not {w} between the local noons")
+            }
+        };
+        let ev = |s: Option<f64>, w: &str| match s {
+            Some(s) => Event {
+                t: Some(self.frame.instant(s)),
+                reason: None,
+            },
+            None => Event {
+                t: None,
+                reason: Some(reason(w)),
+            },
+        };
+        (ev(rise, "rise"), ev(set, "set"))
+    }
+
+    /// The first upper transit between the local noons.
+    pub fn transit(&self) -> Event {
+        match self.transits(0.0, self.frame.span_s).first() {
+            Some(s) => Event {
+                t: Some(self.frame.instant(*s)),
+                reason: None,
+            },
+            None => Event {
+                t: None,
+                reason: Some("no upper transit between the local noons".into()),
+            },
+        }
+    }
+
+    /// Intervals (offsets) with the observed altitude above `limits.min_alt_deg`
+    /// and above the site's horizon mask.
+    pub fn above_limit(&self, site: &Site, min_alt_deg: f64) -> Vec<(f64, f64)> {
+        let span = self.frame.span_s;
+        let refr = &self.frame.refraction;
+        let lim = min_alt_deg.to_radians();
+        let g_lim = refr.geometric(lim);
+        let f = |s: f64| self.alt_az_rad(s).0 - lim;
+        let base = self.above(g_lim, &f, 0.0, span);
+        let mask_max = site
+            .horizon
+            .iter()
+            .map(|h| h.alt_deg)
+            .fold(f64::NEG_INFINITY, f64::max);
+        if base.is_empty() || mask_max <= min_alt_deg {
+            return base;
+        }
+        // Where the target stands above the mask's highest point the mask
+        // cannot bite (closed form, with a margin for the approximation);
+        // sample and refine the rest.
+        let margin = |s: f64| -> f64 {
+            let (alt, az) = self.alt_az_rad(s);
+            alt.to_degrees() - site.horizon_alt_deg(az.to_degrees()).max(min_alt_deg)
+        };
+        let g_mask = refr.geometric((mask_max + 0.01).to_radians());
+        let safe = self.linear_above(g_mask, 0.0, span);
+        let mut out = Vec::new();
+        for &(lo, hi) in &base {
+            let mut x = lo;
+            for &(sa, sb) in &safe {
+                let (sa, sb) = (sa.max(lo), sb.min(hi));
+                if sb <= sa || sb <= x {
+                    continue;
+                }
+                if sa > x {
+                    sampled_into(&margin, x, sa, MASK_STEP_S, REFINE_TOL_S, &mut out);
+                }
+                push_merged(&mut out, (sa.max(x), sb));
+                x = sb;
+            }
+            if hi > x {
+                sampled_into(&margin, x, hi, MASK_STEP_S, REFINE_TOL_S, &mut out);
+            }
+        }
+        out
+    }
+
+    /// Closed-form intervals above the geometric altitude `g_rad` (no refinement).
+    fn linear_above(&self, g_rad: f64, lo: f64, hi: f64) -> Vec<(f64, f64)> {
+        let c = if self.b.abs() < 1e-12 {
+            if self.a >= g_rad.sin() { -2.0 } else { 2.0 }
+        } else {
+            (g_rad.sin() - self.a) / self.b
+        };
+        if c >= 1.0 {
+            return Vec::new();
+        }
+        if c <= -1.0 {
+            return vec![(lo, hi)];
+        }
+        let h0 = c.acos();
+        let mut out = Vec::new();
+        for s in self.transits_linear(lo - 86_400.0, hi + 86_400.0) {
+            let w = h0 / ERA_RATE_RAD_S;
+            let (a, b) = ((s - w).max(lo), (s + w).min(hi));
+            if b > a {
+                out.push((a, b));
+            }
+        }
+        out
+    }
+
+    /// Highest observed altitude inside the intervals `dark` (offsets), and
+    /// its offset: at a dark interval's end or at an upper transit inside it.
+    pub fn highest_in(&self, dark: &[(f64, f64)]) -> Option<(f64, f64)> {
+        let mut best: Option<(f64, f64)> = None;
+        for &(d0, d1) in dark {
+            let mut cands = vec![d0];
+            cands.extend(self.transits(d0, d1));
+            cands.push(d1);
+            for s in cands {
+                let alt = self.alt_az_rad(s).0;
+                if best.is_none_or(|b| alt > b.0) {
+                    best = Some((alt, s));
+                }
+            }
+        }
+        best
+    }
+
+    /// Rise, transit, set, windows and the highest altitude in the dark, as
+    /// [`Night::target`] reports them.
+    pub fn target_night(&self, night: &Night, limits: &Limits) -> TargetNight {
+        let (rise, set) = self.rise_set();
+        let mut tn = self.windows_night(night, limits);
+        tn.rise = rise;
+        tn.set = set;
+        tn
+    }
+
+    /// [`Track::target_night`] without rise and set (their events carry the
+    /// reason "not computed"): what the methods and the budget need.
+    pub fn windows_night(&self, night: &Night, limits: &Limits) -> TargetNight {
+        let transit = self.transit();
+        let dark = night.dark_intervals(limits.sun_alt_deg);
+        let above: Vec<(Instant, Instant)> = self
+            .above_limit(&night.site, limits.min_alt_deg)
+            .iter()
+            .map(|(a, b)| (self.frame.instant(*a), self.frame.instant(*b)))
+            .collect();
+        let windows = intersect_intervals(&above, &dark);
+        let dark_s: Vec<(f64, f64)> = dark
+            .iter()
+            .map(|(a, b)| (self.frame.offset(*a), self.frame.offset(*b)))
+            .collect();
+        let best = self.highest_in(&dark_s);
+        let observable_s: f64 = windows.iter().map(|(a, b)| b.seconds_since(a)).sum::<f64>() + 0.0;
+        let max_altitude_time = best.map(|(_, s)| {
+            // A dark end keeps its own instant.
+            dark.iter()
+                .flat_map(|d| [d.0, d.1])
+                .find(|t| (self.frame.offset(*t) - s).abs() < 1e-9)
+                .unwrap_or_else(|| self.frame.instant(s))
+        });
+        let max_alt_deg = best.map(|b| b.0.to_degrees());
+        let not_computed = || Event {
+            t: None,
+            reason: Some("not computed".into()),
+        };
+        TargetNight {
+            rise: not_computed(),
+            transit,
+            set: not_computed(),
+            windows,
+            observable_hours: observable_s / 3600.0,
+            max_altitude_deg: max_alt_deg,
+            max_altitude_time,
+            min_airmass: max_alt_deg.and_then(kasten_young),
+        }
+    }
+}
+
+/// A root of `f` near the guess `s0` whose slope there is about `df`: a
+/// Newton step, then secant steps, to [`REFINE_TOL_S`], kept inside
+/// `[lo, hi]`. When that does not settle (a guess far off, a slope near zero)
+/// the root is bracketed by sampling around the guess and refined by
+/// [`illinois`]; with no sign change in reach the guess is returned.
+pub fn polish(f: &dyn Fn(f64) -> f64, s0: f64, df: f64, lo: f64, hi: f64) -> f64 {
+    let clamp = |x: f64| x.clamp(lo.min(s0), hi.max(s0));
+    let (mut x0, mut f0) = (s0, f(s0));
+    if f0 == 0.0 {
+        return s0;
+    }
+    let mut x1 = if df.is_finite() && df.abs() > 1e-15 {
+        clamp(x0 - f0 / df)
+    } else {
+        clamp(x0 + 1.0)
+    };
+    for _ in 0..6 {
+        if (x1 - x0).abs() < REFINE_TOL_S {
+            return x1;
+        }
+        let f1 = f(x1);
+        if f1 == 0.0 {
+            return x1;
+        }
+        let d = f1 - f0;
+        if d == 0.0 || !d.is_finite() {
+            break;
+        }
+        let x2 = clamp(x1 - f1 * (x1 - x0) / d);
+        x0 = x1;
+        f0 = f1;
+        x1 = x2;
+    }
+    // Bracket around the guess and close in.
+    let step = 30.0;
+    let f_s0 = f(s0);
+    for k in 1..=20 {
+        for dir in [-1.0, 1.0] {
+            let a = s0 + dir * (k - 1) as f64 * step;
+            let b = s0 + dir * k as f64 * step;
+            let (a, b) = if a < b { (a, b) } else { (b, a) };
+            if a < lo.min(s0) || b > hi.max(s0) {
+                continue;
+            }
+            let (fa, fb) = (
+                if a == s0 { f_s0 } else { f(a) },
+                if b == s0 { f_s0 } else { f(b) },
+            );
+            if (fa >= 0.0) != (fb >= 0.0) {
+                let mut g = |x: f64| f(x);
+                return illinois(&mut g, a, fa, b, fb, REFINE_TOL_S);
+            }
+        }
+    }
+    s0
+}
+
+/// Where `f` ≥ 0 over `[lo, hi]`, by sampling every `step_s` seconds (at
+/// least once) and refining each sign change with [`illinois`] to `tol_s`;
+/// the intervals are appended to `out`, joined to its last one when they touch.
+pub fn sampled_into(
+    f: &dyn Fn(f64) -> f64,
+    lo: f64,
+    hi: f64,
+    step_s: f64,
+    tol_s: f64,
+    out: &mut Vec<(f64, f64)>,
+) {
+    if hi <= lo {
+        return;
+    }
+    let n = ((hi - lo) / step_s).ceil().max(1.0) as usize;
+    let h = (hi - lo) / n as f64;
+    let mut s0 = lo;
+    let mut f0 = f(lo);
+    let mut open = (f0 >= 0.0).then_some(lo);
+    for j in 1..=n {
+        let s1 = if j == n { hi } else { lo + h * j as f64 };
+        let f1 = f(s1);
+        if (f0 >= 0.0) != (f1 >= 0.0) {
+            let mut g = |x: f64| f(x);
+            let x = illinois(&mut g, s0, f0, s1, f1, tol_s);
+            if f1 >= 0.0 {
+                open = Some(x);
+            } else if let Some(o) = open.take() {
+                push_merged(out, (o, x));
+            }
+        }
+        s0 = s1;
+        f0 = f1;
+    }
+    if let Some(o) = open {
+        push_merged(out, (o, hi));
+    }
+}
+
+/// [`sampled_into`] to [`REFINE_TOL_S`], as a new list.
+fn sampled_intervals(f: &dyn Fn(f64) -> f64, lo: f64, hi: f64, step_s: f64) -> Vec<(f64, f64)> {
+    let mut out = Vec::new();
+    sampled_into(f, lo, hi, step_s, REFINE_TOL_S, &mut out);
+    out
+}
+
+/// Append an interval, joining it to the last one when they touch.
+pub fn push_merged(out: &mut Vec<(f64, f64)>, iv: (f64, f64)) {
+    if let Some(last) = out.last_mut()
+        && iv.0 <= last.1 + 1e-6
+    {
+        last.1 = last.1.max(iv.1);
+        return;
+    }
+    out.push(iv);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::astro::events::{grid, positive_intervals};
+    use chrono::NaiveDate;
+
+    /// The grid method the table replaced: the night's contexts every 60 s,
+    /// each sign change refined to 1 ms on `Night::context`.
+    fn brute_windows(night: &Night, place: &CatalogPlace, limits: &Limits) -> Vec<(f64, f64)> {
+        let ts = grid(night.start, night.end, 60.0);
+        let margin = |t: Instant| {
+            let o = night.context(t).observe(place);
+            let floor = limits
+                .min_alt_deg
+                .max(night.site.horizon_alt_deg(o.az_rad.to_degrees()));
+            o.alt_rad.to_degrees() - floor
+        };
+        let vs: Vec<f64> = ts.iter().map(|t| margin(*t)).collect();
+        let mut f = |t: Instant| margin(t);
+        let above = positive_intervals(&mut f, &ts, &vs, 0.001);
+        intersect_intervals(&above, &night.dark_intervals(limits.sun_alt_deg))
+            .iter()
+            .map(|(a, b)| (night.sky.offset(*a), night.sky.offset(*b)))
+            .collect()
+    }
+
+    #[test]
+    fn table_rows_match_a_fine_grid_on_the_full_chain() {
+        // Against the night's own SOFA contexts on a 60 s grid (an independent
+        // path: no closed form, no interpolated CIRS place), at a site with a
+        // horizon mask and one without, targets from pole to pole.
+        let sites = crate::io::sites::catalogue().unwrap();
+        let limits = [
+            Limits::new(30.0, -12.0).unwrap(),
+            Limits::new(0.0, -18.0).unwrap(),
+        ];
+        let mut worst: f64 = 0.0;
+        for site in sites.iter().take(2) {
+            for day in ["2026-03-20", "2026-12-01"] {
+                let night = Night::new(site, day.parse::<NaiveDate>().unwrap()).unwrap();
+                for i in 0..24 {
+                    let place =
+                        CatalogPlace::fixed_deg(i as f64 * 15.0 + 3.0, -88.0 + i as f64 * 7.6);
+                    for lim in &limits {
+                        let got = night.target(&place, lim);
+                        let want = brute_windows(&night, &place, lim);
+                        let got_s: Vec<(f64, f64)> = got
+                            .windows
+                            .iter()
+                            .map(|(a, b)| (night.sky.offset(*a), night.sky.offset(*b)))
+                            .collect();
+                        assert_eq!(
+                            got_s.len(),
+                            want.len(),
+                            "{} {day} #{i}: {got_s:?} vs {want:?}",
+                            site.name
+                        );
+                        for (g, w) in got_s.iter().zip(&want) {
+                            worst = worst.max((g.0 - w.0).abs()).max((g.1 - w.1).abs());
+                        }
+                        // The highest altitude in the dark is at least every
+                        // grid point's, and it is the altitude at its time.
+                        let best_grid = grid(night.start, night.end, 60.0)
+                            .iter()
+                            .filter(|t| night.sun_alt_at(**t) < lim.sun_alt_deg)
+                            .map(|t| night.context(*t).observe(&place).alt_rad.to_degrees())
+                            .fold(f64::NEG_INFINITY, f64::max);
+                        if let (Some(m), Some(t)) = (got.max_altitude_deg, got.max_altitude_time) {
+                            assert!(m >= best_grid - 1e-6, "{m} vs {best_grid}");
+                            let there = night.context(t).observe(&place).alt_rad.to_degrees();
+                            assert!((m - there).abs() < 1e-5, "{m} vs {there}");
+                            assert!(night.sun_alt_at(t) < lim.sun_alt_deg + 1e-4);
+                        }
+                        if let Some(t) = got.transit.t {
+                            // 0.01″ of the night frame's interpolation on the
+                            // sky is 0.01″/cos δ of hour angle.
+                            let o = night.context(t).observe(&place);
+                            let on_sky = o.ha_rad.abs() * o.dec_rad.cos();
+                            assert!(
+                                on_sky < 0.02 / 206_265.0,
+                                "#{i}: transit off by {on_sky} rad"
+                            );
+                        }
+                    }
+                }
+            }
+        }
+        assert!(worst < 0.01, "window edges differ by {worst} s");
+    }
+}
