@@ -113,10 +113,22 @@ pub fn first_sun_caution(night: &night::Night, place: &CatalogPlace) -> Option<(
 /// angle while the Sun is up. Pointing near the Sun can blind and can destroy
 /// instruments; the observatory's own rules prevail over this check.
 pub fn sun_caution(site: &Site, p: &Pointing) -> Option<String> {
-    if p.sun_altitude_deg > SUN_UP_DEG && p.sun_separation_deg < site.sun_avoid_deg {
+    caution_text(site, p.sun_altitude_deg, p.sun_separation_deg)
+}
+
+/// [`sun_caution`] for a target seen through `ctx`, computing only the
+/// target's and the Sun's places (what a caution needs, without the Moon).
+pub fn sun_caution_at(site: &Site, ctx: &Context, place: &CatalogPlace) -> Option<String> {
+    let sun = ctx.sun();
+    let sep = ctx.observe(place).separation_rad(&sun).to_degrees();
+    caution_text(site, sun.alt_geom_rad.to_degrees(), sep)
+}
+
+fn caution_text(site: &Site, sun_alt_deg: f64, sun_sep_deg: f64) -> Option<String> {
+    if sun_alt_deg > SUN_UP_DEG && sun_sep_deg < site.sun_avoid_deg {
         Some(format!(
-            "SUN CAUTION: target is {:.1}° from the Sun while the Sun is up (site limit {:.0}°); do not point there without the observatory's own safety clearance",
-            p.sun_separation_deg, site.sun_avoid_deg
+            "SUN CAUTION: target is {sun_sep_deg:.1}° from the Sun while the Sun is up (site limit {:.0}°); do not point there without the observatory's own safety clearance",
+            site.sun_avoid_deg
         ))
     } else {
         None

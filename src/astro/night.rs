@@ -9,6 +9,7 @@ use crate::astro::visibility::{SkyFrame, Track};
 use crate::error::{Result, RungError};
 use chrono::{NaiveDate, NaiveTime, TimeZone};
 use serde::Serialize;
+use std::sync::Arc;
 
 /// Grid spacing used to bracket the Sun and Moon events, seconds (each then
 /// refined by regula falsi, `astro::events`).
@@ -75,6 +76,31 @@ pub fn night_of(site: &Site, t: Instant) -> NaiveDate {
         return (solar - chrono::Duration::hours(12)).date_naive();
     }
     (t.local(&site.timezone) - chrono::Duration::hours(12)).date_naive()
+}
+
+/// A key that tells sites apart for the night cache: every field that
+/// changes a night (place, zone, weather, horizon, Sun-avoidance angle).
+fn site_key(site: &Site) -> u64 {
+    use std::hash::{Hash, Hasher};
+    let mut h = std::collections::hash_map::DefaultHasher::new();
+    site.name.hash(&mut h);
+    site.timezone.name().hash(&mut h);
+    for x in [
+        site.lat_deg,
+        site.lon_deg,
+        site.elev_m,
+        site.pressure_hpa.unwrap_or(f64::NAN),
+        site.temperature_c,
+        site.humidity,
+        site.sun_avoid_deg,
+    ] {
+        x.to_bits().hash(&mut h);
+    }
+    for p in &site.horizon {
+        p.az_deg.to_bits().hash(&mut h);
+        p.alt_deg.to_bits().hash(&mut h);
+    }
+    h.finish()
 }
 
 /// An event that may not happen, with the reason when it does not.
@@ -171,28 +197,63 @@ impl Night {
 
     /// The same as [`Night::new`], from a process-wide cache shared by every
     /// caller (the methods, the budget and the scheduler ask for the same
-    /// nights again and again). At most [`NIGHT_CACHE_MAX`] nights are kept;
-    /// past that the cache starts afresh.
-    pub fn shared(site: &Site, date: NaiveDate) -> Result<std::sync::Arc<Night>> {
-        use std::collections::HashMap;
-        use std::sync::{Arc, Mutex, OnceLock};
-        type Cache = Mutex<HashMap<(String, NaiveDate), Arc<Night>>>;
-        static CACHE: OnceLock<Cache> = OnceLock::new();
-        let cache = CACHE.get_or_init(|| Mutex::new(HashMap::new()));
-        let key = (format!("{site:?}"), date);
-        if let Ok(c) = cache.lock()
-            && let Some(n) = c.get(&key)
-        {
-            return Ok(n.clone());
+    /// nights again and again, from many threads). Each night is built once:
+    /// a caller that asks while another thread builds it waits for that build
+    /// instead of building its own. At most [`NIGHT_CACHE_MAX`] nights are
+    /// kept; past that the oldest quarter is dropped.
+    pub fn shared(site: &Site, date: NaiveDate) -> Result<Arc<Night>> {
+        Self::shared_keyed(site, site_key(site), date)
+    }
+
+    /// Every night from `from` to `to` (inclusive) through [`Night::shared`],
+    /// the missing ones built in parallel, in date order.
+    pub fn shared_range(site: &Site, from: NaiveDate, to: NaiveDate) -> Result<Vec<Arc<Night>>> {
+        use rayon::prelude::*;
+        let key = site_key(site);
+        let dates: Vec<NaiveDate> = from.iter_days().take_while(|d| *d <= to).collect();
+        dates
+            .par_iter()
+            .map(|d| Self::shared_keyed(site, key, *d))
+            .collect()
+    }
+
+    fn shared_keyed(site: &Site, key: u64, date: NaiveDate) -> Result<Arc<Night>> {
+        use std::collections::{HashMap, VecDeque};
+        use std::sync::{Mutex, OnceLock};
+        type Slot = Arc<Mutex<Option<Arc<Night>>>>;
+        #[derive(Default)]
+        struct Cache {
+            slots: HashMap<(u64, NaiveDate), Slot>,
+            order: VecDeque<(u64, NaiveDate)>,
         }
-        let n = Arc::new(Night::new(site, date)?);
-        if let Ok(mut c) = cache.lock() {
-            if c.len() >= NIGHT_CACHE_MAX {
-                c.clear();
+        static CACHE: OnceLock<Mutex<Cache>> = OnceLock::new();
+        let cache = CACHE.get_or_init(|| Mutex::new(Cache::default()));
+        let slot: Slot = {
+            let mut c = cache.lock().unwrap_or_else(|e| e.into_inner());
+            if let Some(s) = c.slots.get(&(key, date)) {
+                s.clone()
+            } else {
+                if c.slots.len() >= NIGHT_CACHE_MAX {
+                    for _ in 0..NIGHT_CACHE_MAX / 4 {
+                        if let Some(k) = c.order.pop_front() {
+                            c.slots.remove(&k);
+                        }
+                    }
+                }
+                let s = Slot::default();
+                c.slots.insert((key, date), s.clone());
+                c.order.push_back((key, date));
+                s
             }
-            c.insert(key, n.clone());
+        };
+        // Build (once) under the night's own lock; other nights go on meanwhile.
+        let mut n = slot.lock().unwrap_or_else(|e| e.into_inner());
+        if let Some(night) = n.as_ref() {
+            return Ok(night.clone());
         }
-        Ok(n)
+        let night = Arc::new(Night::new(site, date)?);
+        *n = Some(night.clone());
+        Ok(night)
     }
 
     /// A night over an explicit span (used by tests and by the season engine).

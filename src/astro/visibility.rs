@@ -371,9 +371,25 @@ impl<'a> Track<'a> {
         (self.a + self.b).clamp(-1.0, 1.0).asin()
     }
 
+    /// The hour-angle half-width (radians, 0 to π) around an upper transit
+    /// inside which the geometric altitude is above `g_rad`, closed form;
+    /// `None` when the target never is.
+    pub fn half_width_above(&self, g_rad: f64) -> Option<f64> {
+        let c = if self.b.abs() < 1e-12 {
+            if self.a >= g_rad.sin() { -2.0 } else { 2.0 }
+        } else {
+            (g_rad.sin() - self.a) / self.b
+        };
+        if c >= 1.0 {
+            None
+        } else {
+            Some(c.max(-1.0).acos())
+        }
+    }
+
     /// Offsets where the hour angle is 2πk (upper transits) inside `[lo, hi)`,
-    /// closed form.
-    fn transits_linear(&self, lo: f64, hi: f64) -> Vec<f64> {
+    /// closed form (within a second of the refined [`Track::transits`]).
+    pub fn transits_linear(&self, lo: f64, hi: f64) -> Vec<f64> {
         (-2..=2)
             .map(|k| 0.5 * self.frame.span_s + (TAU * k as f64 - self.ha_mid) / ERA_RATE_RAD_S)
             .filter(|s| *s >= lo && *s < hi)
@@ -571,18 +587,12 @@ impl<'a> Track<'a> {
 
     /// Closed-form intervals above the geometric altitude `g_rad` (no refinement).
     fn linear_above(&self, g_rad: f64, lo: f64, hi: f64) -> Vec<(f64, f64)> {
-        let c = if self.b.abs() < 1e-12 {
-            if self.a >= g_rad.sin() { -2.0 } else { 2.0 }
-        } else {
-            (g_rad.sin() - self.a) / self.b
-        };
-        if c >= 1.0 {
+        let Some(h0) = self.half_width_above(g_rad) else {
             return Vec::new();
-        }
-        if c <= -1.0 {
+        };
+        if h0 >= PI {
             return vec![(lo, hi)];
         }
-        let h0 = c.acos();
         let mut out = Vec::new();
         for s in self.transits_linear(lo - 86_400.0, hi + 86_400.0) {
             let w = h0 / ERA_RATE_RAD_S;

@@ -29,9 +29,10 @@
 //! exposure model (sky brightness), not as a separate Moon-distance cut.
 
 use crate::astro::airmass::{altitude_for_airmass_deg, kasten_young};
-use crate::astro::frames::{CatalogPlace, Context};
-use crate::astro::night::{Limits, Night};
+use crate::astro::frames::{CatalogPlace, Context, Observed};
+use crate::astro::night::{Limits, Night, TargetNight};
 use crate::astro::time::Instant;
+use crate::astro::visibility::Track;
 use crate::config::{self, Layer};
 use crate::error::{Result, RungError};
 use crate::io::targets::{Kind, Target};
@@ -269,6 +270,42 @@ pub fn parallax_factors_at(t: Instant, ra_rad: f64, dec_rad: f64) -> Result<(f64
         status: 1,
     })?;
     Ok(parallax_factors(eb[0], ra_rad, dec_rad))
+}
+
+/// The Earth's barycentric position (au, SOFA `epv00`) once a day for 366
+/// days from `start`: the yearly sweep of the parallax factors, the same for
+/// every target of a range, so computed once per start and shared.
+fn earth_year(start: Instant) -> Result<std::sync::Arc<Vec<[f64; 3]>>> {
+    use std::sync::{Arc, Mutex, OnceLock};
+    type Memo = Mutex<Vec<((u64, u64), Arc<Vec<[f64; 3]>>)>>;
+    static MEMO: OnceLock<Memo> = OnceLock::new();
+    let key = (start.utc1.to_bits(), start.utc2.to_bits());
+    let memo = MEMO.get_or_init(|| Mutex::new(Vec::new()));
+    if let Ok(m) = memo.lock()
+        && let Some((_, v)) = m.iter().find(|(k, _)| *k == key)
+    {
+        return Ok(v.clone());
+    }
+    let v = Arc::new(
+        (0..366)
+            .map(|d| {
+                let (a, b) = start.add_seconds(d as f64 * 86_400.0).tt();
+                sofars::eph::epv00(a, b)
+                    .map(|(_, eb)| eb[0])
+                    .ok_or(RungError::Sofa {
+                        routine: "epv00",
+                        status: 1,
+                    })
+            })
+            .collect::<Result<Vec<_>>>()?,
+    );
+    if let Ok(mut m) = memo.lock() {
+        if m.len() >= 16 {
+            m.remove(0);
+        }
+        m.push((key, v.clone()));
+    }
+    Ok(v)
 }
 
 /// Cached exposure per (night index, SNR step): (exptime_s, n_exp, visit_s) or the model's refusal.
@@ -732,12 +769,8 @@ impl ParallaxMethod {
         let axis = self.cfg.factor_axis;
         let start = crate::astro::night::local_noon(s.site, s.from)?;
         let mut extreme: f64 = 0.0;
-        for d in 0..366 {
-            let (a, b) = parallax_factors_at(
-                start.add_seconds(d as f64 * 86_400.0),
-                place.ra_rad,
-                place.dec_rad,
-            )?;
+        for e in earth_year(start)?.iter() {
+            let (a, b) = parallax_factors(*e, place.ra_rad, place.dec_rad);
             extreme = extreme.max(axis.value(a, b));
         }
         let threshold = self.cfg.factor_fraction * extreme;
@@ -766,38 +799,8 @@ impl ParallaxMethod {
         threshold: f64,
     ) -> Result<NightFactor> {
         let night = Night::shared(s.site, date)?;
-        let tn = night.target(place, lim);
-        let ha_lim_rad = (self.cfg.ha_limit_h * 15.0).to_radians();
-        let mut best: Option<(Instant, f64, f64)> = None; // (t, |ha| rad, airmass)
-        let mut usable = 0usize;
-        let mut consider = |t: Instant, count: bool| {
-            let o = night.context(t).observe(place);
-            let x = kasten_young(o.alt_rad.to_degrees());
-            if let Some(x) = x
-                && o.ha_rad.abs() <= ha_lim_rad
-                && x <= self.cfg.max_airmass
-            {
-                if count {
-                    usable += 1;
-                }
-                if best.is_none_or(|b| o.ha_rad.abs() < b.1) {
-                    best = Some((t, o.ha_rad.abs(), x));
-                }
-            }
-        };
-        for (a, b) in &tn.windows {
-            let span = b.seconds_since(a);
-            let k = (span / WINDOW_STEP_S).floor() as usize;
-            for i in 0..=k {
-                consider(a.add_seconds(i as f64 * WINDOW_STEP_S), true);
-            }
-            if let Some(tr) = tn.transit.t
-                && tr.seconds_since(a) >= 0.0
-                && b.seconds_since(&tr) >= 0.0
-            {
-                consider(tr, false);
-            }
-        }
+        let tn = night.windows(place, lim);
+        let (best, usable) = self.best_in_windows(&night.track(place), &tn);
         let mid = night
             .start
             .add_seconds(night.end.seconds_since(&night.start) / 2.0);
@@ -809,7 +812,6 @@ impl ParallaxMethod {
         );
         let factor = self.cfg.factor_axis.value(pf_ra, pf_dec);
         let observable = best.is_some();
-        let ha_h = best.map(|b| night.context(b.0).observe(place).ha_rad.to_degrees() / 15.0);
         Ok(NightFactor {
             night: date,
             pf_ra,
@@ -818,10 +820,109 @@ impl ParallaxMethod {
             observable,
             candidate: observable && factor >= threshold,
             best_time: best.map(|b| b.0),
-            hour_angle_h: ha_h,
+            hour_angle_h: best.map(|b| b.1.to_degrees() / 15.0),
             airmass: best.map(|b| b.2),
             usable_min: usable as f64 * WINDOW_STEP_S / 60.0,
         })
+    }
+
+    /// The rule of a night's epoch: instants every [`WINDOW_STEP_S`] from the
+    /// start of each window, plus the transit when it lies in one; an instant
+    /// is usable when |HA| is within the limit and the airmass at most the
+    /// maximum; the epoch is the usable instant nearest the meridian. Returns
+    /// (instant, hour angle in radians, airmass) of the epoch and the count of
+    /// usable instants (the transit not counted).
+    ///
+    /// The usable instants of a window are those inside the hour-angle
+    /// interval around a transit where both limits hold (the altitude falls
+    /// and |HA| grows away from the transit), so the closed form of the
+    /// target's [`Track`] gives their index range; the instants at its ends
+    /// and the candidates nearest the meridian are checked on the exact place.
+    fn best_in_windows(
+        &self,
+        track: &Track,
+        tn: &TargetNight,
+    ) -> (Option<(Instant, f64, f64)>, usize) {
+        let ha_lim_rad = (self.cfg.ha_limit_h * 15.0).to_radians();
+        let ok = |o: &Observed| -> Option<f64> {
+            let x = kasten_young(o.alt_rad.to_degrees())?;
+            (o.ha_rad.abs() <= ha_lim_rad && x <= self.cfg.max_airmass).then_some(x)
+        };
+        let frame = track.frame();
+        // Hour-angle half-width of the usable interval, closed form.
+        let alt_x = altitude_for_airmass_deg(self.cfg.max_airmass).unwrap_or(0.0);
+        let h_use = track
+            .half_width_above(frame.refraction().geometric(alt_x.to_radians()))
+            .map(|h| h.min(ha_lim_rad));
+        let mut best: Option<(Instant, f64, f64, f64)> = None; // (t, |ha|, airmass, ha)
+        let mut usable = 0usize;
+        let mut consider = |t: Instant, o: &Observed, x: f64| {
+            if best.is_none_or(|b| o.ha_rad.abs() < b.1) {
+                best = Some((t, o.ha_rad.abs(), x, o.ha_rad));
+            }
+        };
+        for (wa, wb) in &tn.windows {
+            let a = frame.offset(*wa);
+            let k = (wb.seconds_since(wa) / WINDOW_STEP_S).floor() as i64;
+            let at = |i: i64| a + i as f64 * WINDOW_STEP_S;
+            let obs = |i: i64| track.observe(at(i));
+            let good = |i: i64| ok(&obs(i)).is_some();
+            if let Some(h) = h_use {
+                let w = h / crate::astro::visibility::ERA_RATE_RAD_S;
+                // One usable stretch around each transit (the whole window
+                // when the limits allow every hour angle).
+                let stretches: Vec<(f64, f64)> = if h >= std::f64::consts::PI {
+                    vec![(a, at(k))]
+                } else {
+                    track
+                        .transits_linear(a - w - 60.0, at(k) + w + 60.0)
+                        .iter()
+                        .map(|s| (s - w, s + w))
+                        .collect()
+                };
+                for (lo, hi) in stretches {
+                    let mut i0 = (((lo - a) / WINDOW_STEP_S).ceil() as i64).clamp(0, k + 1);
+                    let mut i1 = (((hi - a) / WINDOW_STEP_S).floor() as i64).clamp(-1, k);
+                    // The closed form is good to well under a second: settle
+                    // the instants at the ends on the exact place.
+                    while i0 <= i1 && !good(i0) {
+                        i0 += 1;
+                    }
+                    while i0 > 0 && i0 <= k && good(i0 - 1) {
+                        i0 -= 1;
+                    }
+                    while i1 >= i0 && !good(i1) {
+                        i1 -= 1;
+                    }
+                    while i1 >= i0 && i1 < k && good(i1 + 1) {
+                        i1 += 1;
+                    }
+                    if i1 < i0 {
+                        continue;
+                    }
+                    usable += (i1 - i0 + 1) as usize;
+                    // Nearest the meridian: when the transit lies in the
+                    // window it is usable itself (considered below) or no
+                    // instant is; otherwise the nearest is an end of the range.
+                    for i in [i0, i1] {
+                        let o = obs(i);
+                        if let Some(x) = ok(&o) {
+                            consider(frame.instant(at(i)), &o, x);
+                        }
+                    }
+                }
+            }
+            if let Some(tr) = tn.transit.t
+                && tr.seconds_since(wa) >= 0.0
+                && wb.seconds_since(&tr) >= 0.0
+            {
+                let o = track.observe_at(tr);
+                if let Some(x) = ok(&o) {
+                    consider(tr, &o, x);
+                }
+            }
+        }
+        (best.map(|b| (b.0, b.3, b.2)), usable)
     }
 
     /// Why a series offers no candidate night, as one line.
@@ -973,7 +1074,7 @@ impl ParallaxMethod {
             ) {
                 let nf = &series.nights[i];
                 if let Some(t) = nf.best_time {
-                    let ctx = Context::exact(s.site, t)?;
+                    let ctx = Night::shared(s.site, nf.night)?.context(t);
                     epochs.push(self.make_epoch(
                         s,
                         em,
@@ -1178,7 +1279,9 @@ impl ParallaxMethod {
             use rayon::prelude::*;
             cand.par_iter()
                 .filter_map(|i| series.nights[*i].best_time.map(|t| (*i, t)))
-                .map(|(i, t)| Context::exact(s.site, t).map(|c| (i, c)))
+                .map(|(i, t)| {
+                    Night::shared(s.site, series.nights[i].night).map(|n| (i, n.context(t)))
+                })
                 .collect::<Result<Vec<_>>>()?
                 .into_iter()
                 .collect()
@@ -1557,5 +1660,98 @@ impl Method for ParallaxMethod {
 
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {
         Ok(self.goal_plan(s, em, goal_pct)?.prediction)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The epoch rule sampled as it reads: every WINDOW_STEP_S from each
+    /// window's start and the transit, each on the night's own context.
+    fn sampled(
+        m: &ParallaxMethod,
+        night: &Night,
+        place: &CatalogPlace,
+        tn: &TargetNight,
+    ) -> (Option<(Instant, f64, f64)>, usize) {
+        let ha_lim = (m.cfg.ha_limit_h * 15.0).to_radians();
+        let mut best: Option<(Instant, f64, f64, f64)> = None;
+        let mut usable = 0;
+        let mut consider = |t: Instant, count: bool| {
+            let o = night.context(t).observe(place);
+            if let Some(x) = kasten_young(o.alt_rad.to_degrees())
+                && o.ha_rad.abs() <= ha_lim
+                && x <= m.cfg.max_airmass
+            {
+                usable += count as usize;
+                if best.is_none_or(|b| o.ha_rad.abs() < b.1) {
+                    best = Some((t, o.ha_rad.abs(), x, o.ha_rad));
+                }
+            }
+        };
+        for (a, b) in &tn.windows {
+            let k = (b.seconds_since(a) / WINDOW_STEP_S).floor() as usize;
+            for i in 0..=k {
+                consider(a.add_seconds(i as f64 * WINDOW_STEP_S), true);
+            }
+            if let Some(tr) = tn.transit.t
+                && tr >= *a
+                && tr <= *b
+            {
+                consider(tr, false);
+            }
+        }
+        (best.map(|b| (b.0, b.3, b.2)), usable)
+    }
+
+    #[test]
+    fn closed_form_epoch_rule_matches_the_sampled_rule() {
+        // Both demo sites, targets from pole to pole, two sets of limits (the
+        // built-in ±1 h and airmass 1.5, and a wide ±6 h, airmass 3).
+        let sites = crate::io::sites::catalogue().unwrap();
+        let mut narrow = ParallaxMethod::builtin().unwrap();
+        narrow.cfg.ha_limit_h = 1.0;
+        narrow.cfg.max_airmass = 1.5;
+        let mut wide = ParallaxMethod::builtin().unwrap();
+        wide.cfg.ha_limit_h = 6.0;
+        wide.cfg.max_airmass = 3.0;
+        let lim = Limits::new(20.0, -12.0).unwrap();
+        let (mut compared, mut usable_nights) = (0, 0);
+        for site in sites.iter().take(2) {
+            for day in ["2026-06-21", "2026-12-01"] {
+                let night = Night::new(site, day.parse().unwrap()).unwrap();
+                for i in 0..36 {
+                    let place =
+                        CatalogPlace::fixed_deg(i as f64 * 10.0 + 1.0, -85.0 + i as f64 * 4.9);
+                    let tn = night.windows(&place, &lim);
+                    for m in [&narrow, &wide] {
+                        let want = sampled(m, &night, &place, &tn);
+                        let got = m.best_in_windows(&night.track(&place), &tn);
+                        assert_eq!(got.1, want.1, "{} {day} #{i}: usable instants", site.name);
+                        match (got.0, want.0) {
+                            (Some(g), Some(w)) => {
+                                assert!(
+                                    g.0.seconds_since(&w.0).abs() < 1e-3,
+                                    "{} {day} #{i}: {} vs {}",
+                                    site.name,
+                                    g.0.iso(),
+                                    w.0.iso()
+                                );
+                                assert!((g.1 - w.1).abs() < 1e-6 && (g.2 - w.2).abs() < 1e-6);
+                                usable_nights += 1;
+                            }
+                            (None, None) => {}
+                            (g, w) => panic!("{} {day} #{i}: {g:?} vs {w:?}", site.name),
+                        }
+                        compared += 1;
+                    }
+                }
+            }
+        }
+        assert!(
+            compared == 288 && usable_nights > 80,
+            "{compared} compared, {usable_nights} usable"
+        );
     }
 }

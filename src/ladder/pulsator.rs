@@ -419,8 +419,9 @@ pub struct PhaseWindow {
 /// For each night from `from` to `to` (inclusive), the windows when the
 /// target is observable under `limits`, with the phases they cover.
 ///
-/// Windows come from `Night::target` (observed altitude above the limit and
-/// the horizon mask, Sun below its limit; edges to 1 s). BJD_TDB at each edge
+/// Windows come from the visibility table (`Night::windows`: observed
+/// altitude above the limit and the horizon mask, Sun below its limit; edges
+/// to 1 ms), the nights in parallel. BJD_TDB at each edge
 /// from [`bjd_tdb_ctx`]. Nights with no window are listed in the second vector.
 pub fn phase_windows(
     site: &Site,
@@ -442,34 +443,41 @@ pub fn phase_windows(
             format!("{} nights is more than {MAX_RANGE_NIGHTS}", n + 1),
         ));
     }
+    // The nights in parallel (each built once, `Night::shared_range`), each
+    // night's windows from the visibility table, then in date order.
+    use rayon::prelude::*;
+    let nights = Night::shared_range(site, from, to)?;
+    let per_night: Vec<Vec<PhaseWindow>> = nights
+        .par_iter()
+        .map(|night| {
+            let tn = night.windows(&star.place, limits);
+            tn.windows
+                .iter()
+                .map(|(a, b)| {
+                    let ba = bjd_tdb_ctx(site, &night.context(*a), &star.place);
+                    let bb = bjd_tdb_ctx(site, &night.context(*b), &star.place);
+                    let e = &star.ephemeris;
+                    PhaseWindow {
+                        night: night.date,
+                        start: *a,
+                        end: *b,
+                        bjd_start: ba,
+                        bjd_end: bb,
+                        phase_start: e.phase(&ba),
+                        phase_end: e.phase(&bb),
+                        span_cycles: (e.cycles(&bb) - e.cycles(&ba)),
+                    }
+                })
+                .collect()
+        })
+        .collect();
     let mut out = Vec::new();
     let mut empty = Vec::new();
-    let mut date = from;
-    while date <= to {
-        let night = Night::shared(site, date)?;
-        let tn = night.target(&star.place, limits);
-        if tn.windows.is_empty() {
-            empty.push(date);
+    for (night, ws) in nights.iter().zip(per_night) {
+        if ws.is_empty() {
+            empty.push(night.date);
         }
-        for (a, b) in &tn.windows {
-            let ba = bjd_tdb_ctx(site, &night.context(*a), &star.place);
-            let bb = bjd_tdb_ctx(site, &night.context(*b), &star.place);
-            let e = &star.ephemeris;
-            out.push(PhaseWindow {
-                night: date,
-                start: *a,
-                end: *b,
-                bjd_start: ba,
-                bjd_end: bb,
-                phase_start: e.phase(&ba),
-                phase_end: e.phase(&bb),
-                span_cycles: (e.cycles(&bb) - e.cycles(&ba)),
-            });
-        }
-        date = match date.succ_opt() {
-            Some(d) => d,
-            None => break,
-        };
+        out.extend(ws);
     }
     Ok((out, empty))
 }

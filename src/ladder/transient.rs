@@ -906,7 +906,7 @@ impl TransientMethod {
     ) -> Result<ChaseNight> {
         let site = s.site;
         let night = Night::shared(site, date)?;
-        let tn = night.target(place, &s.limits);
+        let tn = night.windows(place, &s.limits);
         let windows: Vec<(Instant, Instant)> = tn
             .windows
             .iter()

@@ -22,10 +22,11 @@
 //! Each visit includes its overheads (`Epoch::visit_s`), so consecutive visits
 //! leave room for slews and readouts.
 
+use crate::astro::airmass::kasten_young;
 use crate::astro::night::{Limits, Night};
 use crate::astro::site::Site;
+use crate::astro::sun_caution_at;
 use crate::astro::time::Instant;
-use crate::astro::{pointing, sun_caution};
 use crate::error::{Result, RungError};
 use crate::io::targets::{Kind, Target};
 use crate::ladder::{Epoch, ExposureModel, Method, Prediction, Setting};
@@ -241,15 +242,8 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
         ));
     }
     let days = dates(req.from, req.to)?;
-    let built: Vec<Result<std::sync::Arc<Night>>> = {
-        use rayon::prelude::*;
-        days.par_iter()
-            .map(|d| Night::shared(req.site, *d))
-            .collect()
-    };
     let mut slots = Vec::with_capacity(days.len());
-    for n in built {
-        let night = n?;
+    for night in Night::shared_range(req.site, req.from, req.to)? {
         let dark = night.dark_intervals(req.limits.sun_alt_deg);
         let dark_s: f64 = dark.iter().map(|(a, b)| b.seconds_since(a)).sum::<f64>() + 0.0;
         let lost = req.lost_nights.contains(&night.date);
@@ -309,18 +303,30 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
     let mut reqs: Vec<Req> = Vec::new();
     let mut requested: HashMap<usize, usize> = HashMap::new();
     let mut method_notes: HashMap<usize, Vec<String>> = HashMap::new();
-    for (ti, t) in req.targets.iter().enumerate() {
-        let Some(m) = req.methods.iter().find(|m| m.kind() == t.kind) else {
+    // Every target's proposal, in parallel (each method call is independent),
+    // then taken in target order so the result does not depend on threads.
+    let proposals: Vec<Option<Result<Vec<Epoch>>>> = {
+        use rayon::prelude::*;
+        req.targets
+            .par_iter()
+            .map(|t| {
+                let m = req.methods.iter().find(|m| m.kind() == t.kind)?;
+                let setting = Setting {
+                    site: req.site,
+                    target: t,
+                    from: req.from,
+                    to: req.to,
+                    limits: req.limits,
+                };
+                Some(m.propose(&setting, req.em))
+            })
+            .collect()
+    };
+    for ((ti, t), proposal) in req.targets.iter().enumerate().zip(proposals) {
+        let Some(proposal) = proposal else {
             continue;
         };
-        let setting = Setting {
-            site: req.site,
-            target: t,
-            from: req.from,
-            to: req.to,
-            limits: req.limits,
-        };
-        let mut epochs = match m.propose(&setting, req.em) {
+        let mut epochs = match proposal {
             Ok(e) => e,
             Err(e) => {
                 method_notes
@@ -399,7 +405,7 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
             }
             let wins = windows_cache
                 .entry((r.target, ni))
-                .or_insert_with(|| slots[ni].night.target(&place, &req.limits).windows.clone())
+                .or_insert_with(|| slots[ni].night.windows(&place, &req.limits).windows)
                 .clone();
             // Preferred time moved by whole sidereal days onto this night.
             let pref = r
@@ -420,11 +426,11 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                 *n += 1;
                 let mid = s.add_seconds(dur / 2.0);
                 let ctx = slots[ni].night.context(mid);
-                let p = pointing(req.site, &ctx, &place);
+                let airmass = kasten_young(ctx.observe(&place).alt_rad.to_degrees());
                 let mut cautions = Vec::new();
                 for at in [s, mid, e] {
                     let c = slots[ni].night.context(at);
-                    if let Some(w) = sun_caution(req.site, &pointing(req.site, &c, &place)) {
+                    if let Some(w) = sun_caution_at(req.site, &c, &place) {
                         cautions.push(w);
                         break;
                     }
@@ -439,7 +445,7 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                     exptime_s: r.epoch.exptime_s,
                     n_exposures: r.epoch.n_exposures,
                     snr: r.epoch.snr,
-                    airmass: p.airmass.unwrap_or(f64::NAN),
+                    airmass: airmass.unwrap_or(f64::NAN),
                     status: Status::Planned,
                     cautions,
                     exposures: r.epoch.exposures.clone(),
@@ -461,49 +467,61 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
             .unwrap_or(std::cmp::Ordering::Equal)
     });
 
-    let mut outcomes = Vec::new();
-    for (ti, t) in req.targets.iter().enumerate() {
-        let Some(m) = req.methods.iter().find(|m| m.kind() == t.kind) else {
-            continue;
-        };
-        let mine: Vec<&Visit> = visits.iter().filter(|v| v.target == t.name).collect();
-        let epochs: Vec<Epoch> = mine.iter().map(|v| v.epoch()).collect();
-        let mut notes = method_notes.remove(&ti).unwrap_or_default();
-        let setting = Setting {
-            site: req.site,
-            target: t,
-            from: req.from,
-            to: req.to,
-            limits: req.limits,
-        };
-        let prediction = if epochs.is_empty() {
-            notes.push("no visits placed".into());
-            None
-        } else {
-            match m.predict(&setting, req.em, &epochs) {
-                Ok(p) => Some(p),
-                Err(e) => {
-                    notes.push(format!("no prediction: {e}"));
-                    None
-                }
-            }
-        };
-        let meets_goal = match (t.goal_pct, &prediction) {
-            (Some(g), Some(p)) => Some(p.distance_precision_pct <= g),
-            _ => None,
-        };
-        outcomes.push(Outcome {
-            target: t.name.clone(),
-            kind: t.kind,
-            goal_pct: t.goal_pct,
-            planned: mine.iter().filter(|v| v.status == Status::Planned).count(),
-            done: mine.iter().filter(|v| v.status == Status::Done).count(),
-            requested: requested.get(&ti).copied().unwrap_or(0),
-            prediction,
-            meets_goal,
-            notes,
-        });
+    // Each target's visits, then its prediction (in parallel, in target order).
+    let mut by_target: HashMap<&str, Vec<&Visit>> = HashMap::new();
+    for v in &visits {
+        by_target.entry(v.target.as_str()).or_default().push(v);
     }
+    let outcomes: Vec<Outcome> = {
+        use rayon::prelude::*;
+        let work: Vec<(usize, &Target, Vec<String>)> = req
+            .targets
+            .iter()
+            .enumerate()
+            .map(|(ti, t)| (ti, t, method_notes.remove(&ti).unwrap_or_default()))
+            .collect();
+        work.into_par_iter()
+            .filter_map(|(ti, t, mut notes)| {
+                let m = req.methods.iter().find(|m| m.kind() == t.kind)?;
+                let mine: &[&Visit] = by_target.get(t.name.as_str()).map_or(&[], |v| v);
+                let epochs: Vec<Epoch> = mine.iter().map(|v| v.epoch()).collect();
+                let setting = Setting {
+                    site: req.site,
+                    target: t,
+                    from: req.from,
+                    to: req.to,
+                    limits: req.limits,
+                };
+                let prediction = if epochs.is_empty() {
+                    notes.push("no visits placed".into());
+                    None
+                } else {
+                    match m.predict(&setting, req.em, &epochs) {
+                        Ok(p) => Some(p),
+                        Err(e) => {
+                            notes.push(format!("no prediction: {e}"));
+                            None
+                        }
+                    }
+                };
+                let meets_goal = match (t.goal_pct, &prediction) {
+                    (Some(g), Some(p)) => Some(p.distance_precision_pct <= g),
+                    _ => None,
+                };
+                Some(Outcome {
+                    target: t.name.clone(),
+                    kind: t.kind,
+                    goal_pct: t.goal_pct,
+                    planned: mine.iter().filter(|v| v.status == Status::Planned).count(),
+                    done: mine.iter().filter(|v| v.status == Status::Done).count(),
+                    requested: requested.get(&ti).copied().unwrap_or(0),
+                    prediction,
+                    meets_goal,
+                    notes,
+                })
+            })
+            .collect()
+    };
     let nights = slots
         .iter()
         .map(|s| NightUse {
