@@ -32,12 +32,21 @@ fn programme(n: usize) -> Vec<Target> {
 }
 
 fn state(size: (u16, u16)) -> State {
-    let site = sites::resolve("pampa-lucero").unwrap();
+    let now = parse_instant("2026-12-02T01:00:00Z").unwrap();
+    // The demo site and instrument over twelve months.
+    let req = rung::programme::Request {
+        cli: rung::programme::Choices {
+            from: Some("2026-12-01".into()),
+            to: Some("2027-11-30".into()),
+            ..Default::default()
+        },
+        ..Default::default()
+    };
     open(Setup {
         sites: sites::catalogue().unwrap(),
-        site,
+        settings: rung::programme::Settings::resolve(&req, now).unwrap(),
         date: Some(chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap()),
-        now: parse_instant("2026-12-02T01:00:00Z").unwrap(),
+        now,
         targets: programme(1000),
         programme: Programme {
             source: None,
@@ -50,7 +59,6 @@ fn state(size: (u16, u16)) -> State {
         size,
         theme: Theme { color: true },
         message: None,
-        instrument: rung::photometry::instrument::DEMO_INSTRUMENT.to_string(),
         instruments: vec![rung::photometry::instrument::DEMO_INSTRUMENT.to_string()],
         recovered: None,
     })

@@ -124,6 +124,17 @@ impl RungError {
         }
     }
 
+    /// The same error naming `field` as its field (for an error in a file).
+    pub fn with_field(self, field: &str) -> Self {
+        match self {
+            RungError::InFile { mut loc, msg } => {
+                loc.field = Some(field.to_string());
+                RungError::InFile { loc, msg }
+            }
+            other => other,
+        }
+    }
+
     /// Shorthand for an I/O error on a path.
     pub fn io(path: impl Into<PathBuf>, source: std::io::Error) -> Self {
         RungError::Io {

@@ -16,6 +16,7 @@ pub mod ladder;
 pub mod linalg;
 pub mod photometry;
 pub mod plan;
+pub mod programme;
 pub mod sky;
 pub mod tui;
 

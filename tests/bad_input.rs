@@ -368,7 +368,7 @@ fn plan_files() {
         ("P4", bad("\"kind\": \"plain\"", "\"kind\": \"quasar\""), "p.json, line 16, field 'kind': not a readable plan file (column 22): unknown variant `quasar`, expected one of `parallax`, `pulsator`, `transient`, `plain`".into()),
         ("P5", bad("\"status\": \"planned\"", "\"status\": \"maybe\""), "p.json, line 24, field 'status': not a readable plan file (column 23): unknown variant `maybe`, expected one of `planned`, `done`, `lost`".into()),
         ("P6", bad("\"start\": \"2026-03-02T01:00:00Z\"", "\"start\": \"2026-03-02T25:00:00Z\""), format!("p.json, line 18, field 'start': not a readable plan file (column 37): cannot read time from '2026-03-02T25:00:00Z': {ISO}")),
-        ("P7", bad("  \"lost_nights\": [],\n", "  \"lost_nights\": [],\n  \"notes\": \"x\",\n"), "p.json, line 12, field 'notes': not a readable plan file (column 9): unknown field `notes`, expected one of `format`, `site`, `targets_file`, `targets_fingerprint`, `from`, `to`, `hours_per_night`, `min_alt_deg`, `sun_alt_deg`, `lost_nights`, `visits`".into()),
+        ("P7", bad("  \"lost_nights\": [],\n", "  \"lost_nights\": [],\n  \"notes\": \"x\",\n"), "p.json, line 12, field 'notes': not a readable plan file (column 9): unknown field `notes`, expected one of `format`, `site`, `targets_file`, `targets_fingerprint`, `from`, `to`, `hours_per_night`, `min_alt_deg`, `sun_alt_deg`, `instrument`, `lost_nights`, `visits`".into()),
         ("P8", bad("rung-plan/1", "rung-plan/9"), "p.json, field 'format': 'rung-plan/9' is not a plan format rung reads (expected rung-plan/1)".into()),
         ("P9", bad("\"hours_per_night\": 3.0", "\"hours_per_night\": -1.0"), "p.json, field 'hours_per_night': -1 is not within (0, 24] hours".into()),
         ("P10", bad("\"min_alt_deg\": 30.0", "\"min_alt_deg\": 120.0"), "p.json, field 'min_alt_deg': 120 is not within -1..89 degrees".into()),
@@ -493,12 +493,12 @@ fn plan_and_budget_options() {
     run(
         "B2",
         budget(&["--goal", "-3"]),
-        "invalid goal: -3 % is not a distance precision in (0, 100] %",
+        "invalid --goal-pct: -3 % is not a distance precision in (0, 100] %",
     );
     run(
         "I1",
         budget(&["--goal", "3", "--instrument", "nope-2m"]),
-        "unknown instrument 'nope-2m'; known instruments: lucero-1m",
+        "invalid --instrument: unknown instrument 'nope-2m'; known instruments: lucero-1m",
     );
     run(
         "H1",
@@ -514,7 +514,7 @@ fn plan_and_budget_options() {
     run(
         "I2",
         plan(&["--hours-per-night", "3", "--instrument", "nope-2m"]),
-        "unknown instrument 'nope-2m'; known instruments: lucero-1m",
+        "invalid --instrument: unknown instrument 'nope-2m'; known instruments: lucero-1m",
     );
     run(
         "R4",
@@ -526,10 +526,8 @@ fn plan_and_budget_options() {
             "2026-03-01".into(),
             "--to".into(),
             "2026-03-05".into(),
-            "--hours-per-night".into(),
-            "3".into(),
         ],
-        "give --site (or --load a saved plan)",
+        "give --hours-per-night H",
     );
 
     // A saved plan, then marks and loads that go wrong; the file is never touched.
@@ -650,12 +648,12 @@ fn method_options() {
     run(
         "M5",
         p(&["--goal-pct", "-3"]),
-        "invalid distance-precision goal: -3 % must be positive",
+        "invalid --goal-pct: -3 % is not a distance precision in (0, 100] %",
     );
     run(
         "M6",
         p(&["--instrument", "nope-2m"]),
-        "unknown instrument 'nope-2m'; known instruments: lucero-1m",
+        "invalid --instrument: unknown instrument 'nope-2m'; known instruments: lucero-1m",
     );
     run(
         "M7",
@@ -687,7 +685,7 @@ fn method_options() {
             "--goal-pct".into(),
             "0".into(),
         ],
-        "invalid goal: 0 is not a percentage in (0, 100]",
+        "invalid --goal-pct: 0 % is not a distance precision in (0, 100] %",
     );
     run(
         "M11",

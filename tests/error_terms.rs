@@ -33,7 +33,7 @@ fn each_methods_terms_add_up_to_its_precision() {
     let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("targets-demo/targets.csv");
     let targets = load(&demo).unwrap().targets;
     let em = Photometer::demo(&site).unwrap();
-    let ms = methods().unwrap();
+    let ms = methods(&Default::default()).unwrap();
     let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
     for (kind, name, days) in [
         (Kind::Parallax, "LPO-P01", 730),
@@ -42,7 +42,7 @@ fn each_methods_terms_add_up_to_its_precision() {
     ] {
         let t = targets.iter().find(|t| t.name == name).unwrap();
         assert_eq!(t.kind, kind);
-        let m = ms.iter().find(|m| m.kind() == kind).unwrap();
+        let m = ms.for_kind(kind).unwrap();
         let s = Setting {
             site: &site,
             target: t,

@@ -17,6 +17,7 @@ fn plan_for(ts: &[Target]) -> PlanFile {
         hours_per_night: 4.0,
         min_alt_deg: 30.0,
         sun_alt_deg: -12.0,
+        instrument: None,
         lost_nights: Default::default(),
         visits: vec![],
     }

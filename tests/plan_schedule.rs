@@ -11,9 +11,10 @@ use rung::astro::night::Limits;
 use rung::astro::time::Instant;
 use rung::io::sites::resolve;
 use rung::io::targets::{Kind, Target};
-use rung::ladder::{Epoch, ExposureModel, Method, Prediction, Setting, Verdict};
+use rung::ladder::{Epoch, ExposureModel, Method, MethodSet, Prediction, Setting, Verdict};
 use rung::plan::schedule::{Request, Status, schedule};
 use std::collections::BTreeSet;
+use std::sync::Arc;
 
 /// Test photometry: SNR 100 from 300 s in one exposure, fixed overheads.
 struct FixedPhot;
@@ -91,6 +92,9 @@ impl Method for EveryNights {
         let e = self.propose(s, em)?;
         self.predict(s, em, &e)
     }
+    fn as_any(&self) -> &dyn std::any::Any {
+        self
+    }
 }
 
 fn targets(n: usize, seed: u64) -> Vec<Target> {
@@ -141,7 +145,7 @@ fn run(
         every: 1,
         visit_s: 900.0,
     };
-    let methods: [&dyn Method; 2] = [&a, &b];
+    let methods = MethodSet::new(vec![Arc::new(a), Arc::new(b)]);
     let req = Request {
         site: &site,
         targets: ts,
@@ -151,6 +155,7 @@ fn run(
         hours_per_night: hours,
         methods: &methods,
         em: &FixedPhot,
+        goal_pct: None,
         done,
         lost_nights: lost,
     };
@@ -256,7 +261,7 @@ fn hours_beyond_the_night_are_refused() {
         every: 1,
         visit_s: 600.0,
     };
-    let methods: [&dyn Method; 1] = [&m];
+    let methods = MethodSet::new(vec![Arc::new(m)]);
     let req = Request {
         site: &site,
         targets: &ts,
@@ -266,6 +271,7 @@ fn hours_beyond_the_night_are_refused() {
         hours_per_night: 11.0, // December nights at -27° have ~7 h with the Sun below -12°.
         methods: &methods,
         em: &FixedPhot,
+        goal_pct: None,
         done: vec![],
         lost_nights: BTreeSet::new(),
     };

@@ -307,7 +307,7 @@ fn quit_discarding_and_site_picker() {
     ch(&mut s, 'p');
     key(&mut s, KeyCode::Down);
     key(&mut s, KeyCode::Enter);
-    assert_eq!(s.site.name, "sierra-alcaravan");
+    assert_eq!(s.site().name, "sierra-alcaravan");
     assert_eq!(s.night.as_ref().unwrap().site, "sierra-alcaravan");
     let (rows, _) = screen(&s, 80, 24);
     assert!(
@@ -321,11 +321,11 @@ fn quit_discarding_and_site_picker() {
     let (rows, _) = screen(&s, 80, 24);
     assert!(has(&rows, "● lucero-1m"));
     key(&mut s, KeyCode::Esc);
-    assert!(s.overlay.is_none() && s.instrument == "lucero-1m");
+    assert!(s.overlay.is_none() && s.settings.instrument().name == "lucero-1m");
     // Minimum altitude steps change the windows.
     let h0 = s.row("LPO-P09").unwrap().night.observable_hours;
     ch(&mut s, '-');
-    assert_eq!(s.limits.min_alt_deg, 25.0);
+    assert_eq!(s.settings.limits.min_alt_deg, 25.0);
     assert!(s.row("LPO-P09").unwrap().night.observable_hours >= h0);
 }
 

@@ -6,6 +6,7 @@ use ratatui::backend::TestBackend;
 use rung::astro::time::{Instant, parse_instant};
 use rung::io::sites;
 use rung::io::targets::{Target, load};
+use rung::programme::Settings;
 use rung::tui::effects::{open, settle};
 use rung::tui::state::{Programme, State};
 use rung::tui::theme::Theme;
@@ -25,6 +26,16 @@ pub fn demo_targets() -> Vec<Target> {
 /// 2026-12-02T01:00:00Z: 22:00 local at the demo site, in the night of 2026-12-01.
 pub fn test_now() -> Instant {
     parse_instant("2026-12-02T01:00:00Z").unwrap()
+}
+
+/// The demo programme's settings (targets-demo/targets.settings.toml) at
+/// [`test_now`]: pampa-lucero, lucero-1m, 2026-12-01 to 2028-05-31, 30°, −12°.
+pub fn demo_settings() -> Settings {
+    let req = rung::programme::Request {
+        programme: Some(demo_file()),
+        ..Default::default()
+    };
+    Settings::resolve(&req, test_now()).unwrap()
 }
 
 /// A state on the demo programme, night of 2026-12-01 at pampa-lucero, fully computed.
@@ -79,11 +90,10 @@ pub fn setup_with(
     size: (u16, u16),
     color: bool,
 ) -> Setup {
-    let site = sites::resolve("pampa-lucero").unwrap();
     let original = source.as_ref().and_then(|p| std::fs::read(p).ok());
     Setup {
         sites: sites::catalogue().unwrap(),
-        site,
+        settings: demo_settings(),
         date: Some(chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap()),
         now: test_now(),
         targets,
@@ -98,7 +108,6 @@ pub fn setup_with(
         size,
         theme: Theme { color },
         message: None,
-        instrument: rung::photometry::instrument::DEMO_INSTRUMENT.to_string(),
         instruments: rung::photometry::instrument::catalogue()
             .unwrap()
             .into_iter()

@@ -103,7 +103,7 @@ fn command(cfg: &Path, extra_env: &str) -> String {
     let bin = env!("CARGO_BIN_EXE_rung");
     // After rung ends, the shell prints a marker, whether the tty is canonical again, and waits.
     format!(
-        "RUNG_CONFIG_DIR='{}' NO_COLOR=1 {extra_env} '{bin}' tui --date 2026-12-01; \
+        "RUNG_CONFIG_DIR='{}' RUNG_NOW=2026-12-02T01:00:00Z NO_COLOR=1 {extra_env} '{bin}' tui --date 2026-12-01; \
          echo RUNG-EXIT-$?; stty -a | tr ' ' '\\n' | grep -x -e icanon -e -icanon -e echo -e -echo | tr '\\n' ' '; echo; echo RUNG-TTY-DONE; sleep 120",
         cfg.display()
     )
@@ -183,11 +183,11 @@ fn every_view_then_quit_restores_the_terminal() {
     t.send("Up");
     t.wait_for("● obs");
     t.send("7");
-    t.wait_for("Budget · 12 months from 2026-12-01");
+    t.wait_for("Budget · 2026-12-01 to 2028-05-31");
     t.send("Tab");
     t.wait_for("Roster · 26 of 26");
     t.send("BTab");
-    t.wait_for("Budget · 12 months");
+    t.wait_for("Budget · 2026-12-01 to");
     t.send("BTab");
     t.wait_for("Chase · ✶ LPO-T2026a");
     t.send("1");

@@ -360,26 +360,14 @@ fn select(s: &mut rung::tui::State, name: &str) {
 
 #[test]
 fn phase_view_shows_the_pulsator_analysis_at_both_sizes() {
-    use rung::ladder::Setting;
-    use rung::ladder::pulsator::{PulsatorConfig, PulsatorMethod};
-    // The same library call as `rung phase`, made here directly.
-    let site = sites::resolve("pampa-lucero").unwrap();
+    // The same library call as `rung phase`, made here directly, with the
+    // demo programme's settings.
     let targets = demo_targets();
     let t = targets.iter().find(|t| t.name == "LPO-C03").unwrap();
-    let em = rung::photometry::Photometer::demo(&site).unwrap();
-    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
-    let r = PulsatorMethod::with_config(PulsatorConfig::load().unwrap())
-        .analyse(
-            &Setting {
-                site: &site,
-                target: t,
-                from,
-                to: from + chrono::Days::new(29),
-                limits: limits(),
-            },
-            Some(&em),
-        )
-        .unwrap();
+    let r = match rung::programme::report(&demo_settings(), t).unwrap() {
+        rung::programme::Report::Phase(r) => *r,
+        other => panic!("{other:?}"),
+    };
     for (w, h) in [(80u16, 24u16), (160, 48)] {
         let mut s = demo_state((w, h));
         ch(&mut s, '5');
@@ -391,7 +379,7 @@ fn phase_view_shows_the_pulsator_analysis_at_both_sizes() {
         select(&mut s, "LPO-C03");
         let (rows, _) = screen(&s, w, h);
         assert!(
-            rows[2].starts_with("Phase · ∿ LPO-C03 · P 5.0500 d · 30 nights from 2026-12-01"),
+            rows[2].starts_with("Phase · ∿ LPO-C03 · P 5.0500 d · 2026-12-01 to "),
             "{}",
             rows[2]
         );
@@ -430,36 +418,13 @@ fn phase_view_shows_the_pulsator_analysis_at_both_sizes() {
 
 #[test]
 fn chase_view_shows_the_transient_timeline_at_both_sizes() {
-    use rung::ladder::Setting;
-    use rung::ladder::transient::{ChaseOptions, TransientConfig, TransientMethod, night_of};
-    let site = sites::resolve("pampa-lucero").unwrap();
+    // The same library call as `rung chase`, with the demo programme's settings.
     let targets = demo_targets();
     let t = targets.iter().find(|t| t.name == "LPO-T2026a").unwrap();
-    let em = rung::photometry::Photometer::demo(&site).unwrap();
-    let cfg = TransientConfig::embedded().unwrap();
-    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
-    let noon = rung::astro::night::local_noon(&site, from).unwrap();
-    let disc = t.discovered.unwrap();
-    let to = night_of(&site, disc) + chrono::Days::new(cfg.planning.horizon_days as u64);
-    let c = TransientMethod::with(
-        cfg,
-        ChaseOptions {
-            now: Some(noon),
-            ..Default::default()
-        },
-    )
-    .chase(
-        &Setting {
-            site: &site,
-            target: t,
-            from,
-            to,
-            limits: limits(),
-        },
-        &em,
-        t.goal_pct,
-    )
-    .unwrap();
+    let c = match rung::programme::report(&demo_settings(), t).unwrap() {
+        rung::programme::Report::Chase(c) => *c,
+        other => panic!("{other:?}"),
+    };
     for (w, h) in [(80u16, 24u16), (160, 48)] {
         let mut s = demo_state((w, h));
         ch(&mut s, '6');
@@ -509,27 +474,14 @@ fn chase_view_shows_the_transient_timeline_at_both_sizes() {
 
 #[test]
 fn parallax_view_shows_factors_and_epochs_at_both_sizes() {
-    use rung::ladder::Setting;
-    use rung::ladder::parallax::ParallaxMethod;
-    let site = sites::resolve("pampa-lucero").unwrap();
+    // The same library call as `rung parallax`, with the demo programme's
+    // settings (LPO-P03 has a goal: the goal plan).
     let targets = demo_targets();
     let t = targets.iter().find(|t| t.name == "LPO-P03").unwrap();
-    let em = rung::photometry::Photometer::demo(&site).unwrap();
-    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
-    let to = chrono::NaiveDate::from_ymd_opt(2029, 11, 30).unwrap();
-    let p = ParallaxMethod::builtin()
-        .unwrap()
-        .plan(
-            &Setting {
-                site: &site,
-                target: t,
-                from,
-                to,
-                limits: limits(),
-            },
-            &em,
-        )
-        .unwrap();
+    let p = match rung::programme::report(&demo_settings(), t).unwrap() {
+        rung::programme::Report::Parallax(p) => *p,
+        other => panic!("{other:?}"),
+    };
     let mut s = demo_state((80, 24));
     ch(&mut s, '4');
     select(&mut s, "LPO-P03");
@@ -537,7 +489,7 @@ fn parallax_view_shows_factors_and_epochs_at_both_sizes() {
         s.size = (w, h);
         let (rows, buf) = screen(&s, w, h);
         assert!(
-            rows[2].starts_with("Parallax · ◆ LPO-P03 · ϖ 112.0 mas · 3 years from 2026-12-01"),
+            rows[2].starts_with("Parallax · ◆ LPO-P03 · ϖ 112.0 mas · 2026-12-01 to 2028-05-31"),
             "{}",
             rows[2]
         );
@@ -576,25 +528,11 @@ fn parallax_view_shows_factors_and_epochs_at_both_sizes() {
 
 #[test]
 fn budget_view_and_export_match_the_library_budget() {
-    use rung::ladder::Method;
-    use rung::ladder::parallax::ParallaxMethod;
-    use rung::ladder::pulsator::{PulsatorConfig, PulsatorMethod};
-    use rung::ladder::transient::TransientMethod;
-    let site = sites::resolve("pampa-lucero").unwrap();
     let pick = ["LPO-P03", "LPO-C03", "LPO-C05", "LPO-T2026a"];
     let targets = demo_subset(&pick);
-    // The same call as `rung budget`, made here directly.
-    let em = rung::photometry::Photometer::demo(&site).unwrap();
-    let (plx, pul, tra) = (
-        ParallaxMethod::builtin().unwrap(),
-        PulsatorMethod::with_config(PulsatorConfig::load().unwrap()),
-        TransientMethod::new().unwrap(),
-    );
-    let methods: [&dyn Method; 3] = [&plx, &pul, &tra];
-    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
-    let to = chrono::NaiveDate::from_ymd_opt(2027, 11, 30).unwrap();
-    let b = rung::plan::budget::budget(&site, &targets, &methods, &em, from, to, limits(), None)
-        .unwrap();
+    // The same call as `rung budget`, made here directly, with the demo
+    // programme's settings (its range, 2026-12-01 to 2028-05-31).
+    let b = rung::plan::budget::budget(&demo_settings(), &targets).unwrap();
     let dir = tempfile::tempdir().unwrap();
     let mut s = state_with(
         targets,
@@ -608,7 +546,7 @@ fn budget_view_and_export_match_the_library_budget() {
     for (w, h) in [(80u16, 24u16), (160, 48)] {
         let (rows, _) = screen(&s, w, h);
         assert!(
-            rows[2].starts_with("Budget · 12 months from 2026-12-01 · pampa-lucero · lucero-1m")
+            rows[2].starts_with("Budget · 2026-12-01 to 2028-05-31 · pampa-lucero · lucero-1m")
         );
         assert!(
             rows[3].contains("goal") && rows[3].contains("reach") && rows[3].contains("verdict")
@@ -626,10 +564,17 @@ fn budget_view_and_export_match_the_library_budget() {
     }
     // Export writes the library's CSV and Markdown beside the programme file.
     ch(&mut s, 'x');
-    let csv =
-        std::fs::read_to_string(dir.path().join("budget-pampa-lucero-2026-12-01.csv")).unwrap();
+    let csv = std::fs::read_to_string(
+        dir.path()
+            .join("budget-pampa-lucero-2026-12-01-to-2028-05-31.csv"),
+    )
+    .unwrap();
     assert_eq!(csv, rung::plan::budget::csv(&b));
-    let md = std::fs::read_to_string(dir.path().join("budget-pampa-lucero-2026-12-01.md")).unwrap();
+    let md = std::fs::read_to_string(
+        dir.path()
+            .join("budget-pampa-lucero-2026-12-01-to-2028-05-31.md"),
+    )
+    .unwrap();
     assert_eq!(md, rung::plan::budget::markdown(&b));
     let (rows, _) = screen(&s, 80, 24);
     assert!(rows[23].starts_with("exported "), "{}", rows[23]);
@@ -650,10 +595,10 @@ fn plan_export_writes_plan_csv_ics_and_night_sheet_that_read_back() {
         (80, 24),
         true,
     );
-    // The Season strip's span: 52 columns a week apart from 2026-12-01.
-    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
-    let to = from + chrono::Days::new(51 * 7);
-    assert_eq!(s.season_span(), (from, to));
+    // The programme's range (the demo's settings file).
+    let st = demo_settings();
+    let (from, to) = (st.from, st.to);
+    assert_eq!((s.settings.from, s.settings.to), (from, to));
     ch(&mut s, 'X');
     let stem = format!("plan-pampa-lucero-{from}-to-{to}");
     let json = dir.path().join(format!("{stem}.json"));
@@ -663,21 +608,11 @@ fn plan_export_writes_plan_csv_ics_and_night_sheet_that_read_back() {
     assert_eq!((plan.min_alt_deg, plan.sun_alt_deg), (30.0, -12.0));
     plan.check_targets(&targets, &json).unwrap();
     // The visits are those of the library's scheduler called here as `rung plan` calls it.
-    let em = rung::photometry::Photometer::demo(&site).unwrap();
-    let owned = rung::ladder::methods().unwrap();
-    let ms: Vec<&dyn rung::ladder::Method> = owned.iter().map(|m| m.as_ref()).collect();
-    let want = schedule(&Request {
-        site: &site,
-        targets: &targets,
-        from,
-        to,
-        limits: limits(),
-        hours_per_night: rung::tui::state::PLAN_HOURS_PER_NIGHT,
-        methods: &ms,
-        em: &em,
-        done: vec![],
-        lost_nights: Default::default(),
-    })
+    let want = schedule(&Request::programme(
+        &st,
+        &targets,
+        rung::tui::state::PLAN_HOURS_PER_NIGHT,
+    ))
     .unwrap();
     assert!(!want.visits.is_empty());
     // (The plan file keeps times to the second, so compare them to that.)
@@ -723,28 +658,13 @@ fn plan_export_writes_plan_csv_ics_and_night_sheet_that_read_back() {
 
 #[test]
 fn roster_shows_progress_towards_each_goal_from_the_budget() {
-    use rung::ladder::Method;
-    use rung::ladder::parallax::ParallaxMethod;
-    use rung::ladder::pulsator::{PulsatorConfig, PulsatorMethod};
-    use rung::ladder::transient::TransientMethod;
-    let site = sites::resolve("pampa-lucero").unwrap();
     let pick = ["LPO-P03", "LPO-C03", "LPO-C05", "LPO-T2026a"];
     let mut targets = demo_subset(&pick);
     // One target without a goal shows a dash.
     targets[0].goal_pct = None;
     let nogoal = targets[0].name.clone();
-    // The same call as `rung budget` over the Budget view's 12 months, made here directly.
-    let em = rung::photometry::Photometer::demo(&site).unwrap();
-    let (plx, pul, tra) = (
-        ParallaxMethod::builtin().unwrap(),
-        PulsatorMethod::with_config(PulsatorConfig::load().unwrap()),
-        TransientMethod::new().unwrap(),
-    );
-    let methods: [&dyn Method; 3] = [&plx, &pul, &tra];
-    let from = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
-    let to = chrono::NaiveDate::from_ymd_opt(2027, 11, 30).unwrap();
-    let b = rung::plan::budget::budget(&site, &targets, &methods, &em, from, to, limits(), None)
-        .unwrap();
+    // The same call as `rung budget` with the programme's settings, made here directly.
+    let b = rung::plan::budget::budget(&demo_settings(), &targets).unwrap();
     assert!(!b.rows.is_empty());
     let dir = tempfile::tempdir().unwrap();
     let mut s = state_with(
@@ -785,15 +705,14 @@ fn roster_shows_progress_towards_each_goal_from_the_budget() {
     // While the budget is computed the column says so.
     let (mut fresh, _) = rung::tui::init(rung::tui::Setup {
         sites: sites::catalogue().unwrap(),
-        site: site.clone(),
-        date: Some(from),
+        settings: demo_settings(),
+        date: Some(chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap()),
         now: test_now(),
         targets: targets.clone(),
         programme: s.programme.clone(),
         size: (80, 24),
         theme: rung::tui::theme::Theme { color: false },
         message: None,
-        instrument: s.instrument.clone(),
         instruments: s.instruments.clone(),
         recovered: None,
     });
@@ -844,7 +763,7 @@ fn plan_export_uses_the_hours_a_night_set_with_h_and_capital_h() {
     assert!(has(&rows, "X: plan at 2 h/night (h/H)"), "{rows:?}");
     // The exported plan records it, and no night holds more than that.
     ch(&mut s, 'X');
-    let (from, to) = s.season_span();
+    let (from, to) = (s.settings.from, s.settings.to);
     let json = dir
         .path()
         .join(format!("plan-pampa-lucero-{from}-to-{to}.json"));

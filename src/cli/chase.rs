@@ -6,23 +6,23 @@ use rung::astro::frames::Context;
 use rung::astro::time::{Instant, parse_instant};
 use rung::io::angles::{parse_dec_deg, parse_ra_deg};
 use rung::io::targets::{Kind, Target};
+use rung::ladder::Verdict;
 use rung::ladder::transient::{
     Chase, ChaseOptions, TransientConfig, TransientMethod, check_band, night_of,
 };
-use rung::ladder::{Setting, Verdict};
-use rung::photometry::{DEMO_INSTRUMENT, Photometer};
+use rung::programme::Report;
 use serde_json::{Map, Value, json};
 use std::path::PathBuf;
+use std::sync::Arc;
 
 /// Arguments of `rung chase`.
 #[derive(clap::Args)]
 #[command(
     mut_arg("target", |a| a.help("A transient target by name from --targets")),
     mut_arg("targets", |a| a.help("Targets file (CSV or TOML) for --target; default the demo programme")),
+    mut_arg("goal_pct", |a| a.help("Distance-precision goal, percent (default: the target's goal_pct, else the programme's)")),
     mut_arg("ra", |a| a.help("Right ascension (ICRS), degrees or HH:MM:SS.s, instead of --target")),
     mut_arg("dec", |a| a.help("Declination (ICRS), degrees or ±DD:MM:SS")),
-    mut_arg("min_alt", |a| a.help("Minimum altitude for the windows, degrees")),
-    mut_arg("sun_alt", |a| a.help("The Sun must be below this altitude, degrees")),
 )]
 pub struct Args {
     #[command(flatten)]
@@ -43,14 +43,19 @@ pub struct Args {
     #[arg(long, default_value = "B")]
     pub band: String,
     /// Foreground extinction in --band, mag.
-    #[arg(long, default_value_t = 0.0, allow_hyphen_values = true)]
+    #[arg(
+        long = "extinction-mag",
+        visible_alias = "extinction",
+        default_value_t = 0.0,
+        allow_hyphen_values = true
+    )]
     pub extinction: f64,
     /// Name shown for a target given by coordinates.
     #[arg(long, default_value = "transient")]
     pub name: String,
-    /// The present instant (ISO 8601, or 'now'): nothing is planned before it.
-    #[arg(long, default_value = "now")]
-    pub now: String,
+    /// The present instant (ISO 8601, or 'now'): nothing is planned before it (default: the programme's range, from the coming night)
+    #[arg(long)]
+    pub now: Option<String>,
     /// Days of follow-up after discovery (default from config/transient.toml).
     #[arg(long)]
     pub horizon_days: Option<u32>,
@@ -60,9 +65,8 @@ pub struct Args {
     /// Decline rate Δm15 assumed for planning, mag (default from config).
     #[arg(long, allow_hyphen_values = true)]
     pub dm15: Option<f64>,
-    /// Distance-precision goal, percent (default: the target's goal_pct, else config).
-    #[arg(long, allow_hyphen_values = true)]
-    pub goal: Option<f64>,
+    #[command(flatten)]
+    pub goal: super::args::GoalArg,
     /// Also require this σ of the peak magnitude, mag.
     #[arg(long, allow_hyphen_values = true)]
     pub sigma_peak: Option<f64>,
@@ -70,27 +74,19 @@ pub struct Args {
     #[arg(long, allow_hyphen_values = true)]
     pub sigma_dm15: Option<f64>,
     #[command(flatten)]
+    pub site: super::args::SiteArg,
+    #[command(flatten)]
+    pub range: super::args::RangeArgs,
+    #[command(flatten)]
     pub limits: super::args::WindowLimits,
-    /// Instrument name (config/instruments.toml or the user's).
-    #[arg(long, default_value = DEMO_INSTRUMENT)]
-    pub instrument: String,
-    /// Another transient configuration (TOML like config/transient.toml).
+    #[command(flatten)]
+    pub instrument: super::args::InstrumentArg,
+    /// Transient configuration (TOML with keys of config/transient.toml; merged over it and your transient.toml)
     #[arg(long)]
     pub config: Option<PathBuf>,
     /// Machine-readable output.
     #[arg(long)]
     pub json: bool,
-}
-
-fn load_config(a: &Args) -> Result<TransientConfig> {
-    match &a.config {
-        None => Ok(TransientConfig::embedded()?),
-        Some(p) => {
-            let text = std::fs::read_to_string(p)
-                .with_context(|| format!("cannot read {}", p.display()))?;
-            Ok(TransientConfig::parse(&text, p)?)
-        }
-    }
 }
 
 fn build_target(a: &Args, cfg: &TransientConfig) -> Result<Target> {
@@ -118,7 +114,7 @@ fn build_target(a: &Args, cfg: &TransientConfig) -> Result<Target> {
     REDSHIFT.check_opt_as("--redshift", a.redshift)?;
     MAG.check_opt_as("--mag", a.mag)?;
     MAG.check_opt_as("--peak-mag", a.peak_mag)?;
-    EXTINCTION_MAG.check_as("--extinction", a.extinction)?;
+    EXTINCTION_MAG.check_as("--extinction-mag", a.extinction)?;
     if a.mag.is_none() && a.peak_mag.is_none() && a.redshift.is_none() {
         bail!("give --mag (at discovery), --peak-mag or --redshift to place the light curve");
     }
@@ -140,11 +136,33 @@ fn build_target(a: &Args, cfg: &TransientConfig) -> Result<Target> {
 
 /// Run `rung chase`.
 pub fn run(a: Args) -> Result<()> {
-    let site = super::resolve_site(&a.aim.site)?;
-    let limits = a.limits.limits()?;
-    let cfg = load_config(&a)?;
-    let target = build_target(&a, &cfg)?;
-    let now = parse_instant(&a.now).context("--now")?;
+    let programme = a.aim.targets.clone().unwrap_or_else(super::demo_programme);
+    let mut st = super::settings(
+        super::args::choices(
+            Some(&a.site),
+            Some(&a.instrument),
+            Some(&a.limits),
+            Some(&a.range),
+            Some(&a.goal),
+        ),
+        Some(&programme),
+        &[("transient.toml", a.config.as_ref())],
+    )?;
+    let mut cfg: TransientConfig = st
+        .methods
+        .get::<TransientMethod>()
+        .context("no transient method")?
+        .cfg
+        .clone();
+    let mut target = build_target(&a, &cfg)?;
+    if a.goal.goal_pct.is_some() {
+        target.goal_pct = a.goal.goal_pct;
+    }
+    let clock = super::now()?;
+    let now = match a.now.as_deref().map(str::trim) {
+        None | Some("now") => clock,
+        Some(t) => parse_instant(t).context("--now")?,
+    };
     let disc = target
         .discovered
         .context("the target has no discovery time")?;
@@ -156,45 +174,47 @@ pub fn run(a: Args) -> Result<()> {
             now.iso()
         );
     }
-    if let Some(g) = a.goal
-        && !(g.is_finite() && g > 0.0 && g <= 100.0)
-    {
-        bail!("--goal {g} is not a percentage in (0, 100]");
-    }
-    let horizon = a.horizon_days.unwrap_or(cfg.planning.horizon_days);
-    if !(1..=365).contains(&horizon) {
-        bail!("--horizon-days {horizon} is not within 1..365");
-    }
-    let first = night_of(&site, disc);
-    let to = first + chrono::Duration::days(horizon as i64);
-    let from = night_of(&site, now).max(first);
-    if from > to {
-        bail!(
-            "--now {} is past the {horizon}-day horizon after discovery ({} to {to})",
-            now.iso(),
-            first
-        );
+    if let Some(h) = a.horizon_days {
+        if !(1..=365).contains(&h) {
+            bail!("--horizon-days {h} is not within 1..365");
+        }
+        cfg.planning.horizon_days = h;
     }
     rung::bounds::SNR.check_opt_as("--snr", a.snr)?;
-    let photometer = Photometer::from_name(&a.instrument, &site)?;
+    let horizon = cfg.planning.horizon_days;
+    // With --now, the chase starts at that instant and runs to the horizon
+    // after discovery, as asked; without it, over the programme's range (from
+    // the coming night), as the budget plans it.
+    if a.now.is_some() {
+        let first = night_of(&st.site, disc);
+        st.to = first + chrono::Duration::days(horizon as i64);
+        st.from = night_of(&st.site, now).max(first);
+        if st.from > st.to {
+            bail!(
+                "--now {} is past the {horizon}-day horizon after discovery ({} to {})",
+                now.iso(),
+                first,
+                st.to
+            );
+        }
+    }
     let method = TransientMethod::with(
         cfg,
         ChaseOptions {
-            now: Some(now),
+            now: a.now.is_some().then_some(now),
             snr_goal: a.snr,
             dm15: a.dm15,
             sigma_peak_goal_mag: a.sigma_peak,
             sigma_dm15_goal: a.sigma_dm15,
         },
     );
-    let setting = Setting {
-        site: &site,
-        target: &target,
-        from,
-        to,
-        limits,
+    let st = st.with_method(Arc::new(method));
+    let site = st.site.clone();
+    let photometer = &st.photometer;
+    let chase = match rung::programme::report(&st, &target)? {
+        Report::Chase(c) => *c,
+        _ => bail!("no chase for {}", target.name),
     };
-    let chase = method.chase(&setting, &photometer, a.goal)?;
     // Sky brightness at each epoch, from the photometry model.
     let place = target.place();
     let sky: Vec<Option<f64>> = chase
@@ -218,7 +238,7 @@ pub fn run(a: Args) -> Result<()> {
                 &target,
                 now,
                 &sky,
-                &a.instrument
+                &photometer.instrument.name
             ))?
         );
     } else {

@@ -37,16 +37,6 @@ pub fn one_line(e: &anyhow::Error) -> String {
     s.replace('\n', " ")
 }
 
-/// Resolve `--site` (a catalogue name or inline coordinates) and say on
-/// stderr when its zone contradicts its longitude (`rung::astro::site::Site::zone_warning`).
-pub fn resolve_site(spec: &str) -> Result<rung::astro::site::Site> {
-    let site = rung::io::sites::resolve(spec)?;
-    if let Some(w) = site.zone_warning() {
-        eprintln!("rung: warning: {w}");
-    }
-    Ok(site)
-}
-
 /// Folder of the demo programme: `$RUNG_DEMO_DIR`, else `targets-demo/` beside
 /// the current folder, else the one compiled into this build.
 pub fn demo_dir() -> PathBuf {
@@ -60,8 +50,45 @@ pub fn demo_dir() -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("targets-demo")
 }
 
-/// The demo site's catalogue name.
-pub const DEMO_SITE: &str = "pampa-lucero";
+/// The demo programme's targets file.
+pub fn demo_programme() -> PathBuf {
+    demo_dir().join("targets.csv")
+}
+
+/// The clock: `$RUNG_NOW` when set (an ISO 8601 instant, so that tests and
+/// replays see a fixed clock), else the system clock.
+pub fn now() -> Result<rung::astro::time::Instant> {
+    match std::env::var("RUNG_NOW") {
+        Ok(t) => rung::astro::time::parse_instant(&t).map_err(|e| anyhow::anyhow!("RUNG_NOW: {e}")),
+        Err(_) => Ok(rung::astro::time::Instant::now()?),
+    }
+}
+
+/// The programme settings of a command, resolved once
+/// (`rung::programme::Settings::resolve`): the command line's `choices`, then
+/// the settings file of `programme` (its targets file), the user's
+/// `settings.toml` and the built-in defaults; `method_files` are the method
+/// configuration files named on the command line.
+pub fn settings(
+    choices: rung::programme::Choices,
+    programme: Option<&Path>,
+    method_files: &[(&str, Option<&PathBuf>)],
+) -> Result<rung::programme::Settings> {
+    let req = rung::programme::Request {
+        cli: choices,
+        programme: programme.map(Path::to_path_buf),
+        method_files: method_files
+            .iter()
+            .filter_map(|(k, p)| p.map(|p| (k.to_string(), p.clone())))
+            .collect(),
+    };
+    let st = rung::programme::Settings::resolve(&req, now()?)?;
+    // A site whose zone contradicts its longitude (`Site::zone_warning`) is said on stderr.
+    if let Some(w) = st.site.zone_warning() {
+        eprintln!("rung: warning: {w}");
+    }
+    Ok(st)
+}
 
 /// Files smaller than this load without a progress bar.
 const PROGRESS_FROM_BYTES: u64 = 8 * 1024 * 1024;
@@ -111,9 +138,7 @@ pub fn load_targets(path: &Path) -> Result<Vec<rung::io::targets::Target>> {
 /// given. The name must match exactly, case included; a name that differs
 /// only in case is offered as a hint, never taken silently.
 pub fn target_by_name(file: &Option<PathBuf>, name: &str) -> Result<rung::io::targets::Target> {
-    let file = file
-        .clone()
-        .unwrap_or_else(|| demo_dir().join("targets.csv"));
+    let file = file.clone().unwrap_or_else(demo_programme);
     let ts = load_targets(&file)?;
     Ok(rung::io::targets::find_by_name(ts, name, &file)?)
 }
@@ -124,16 +149,11 @@ pub fn default_run() -> Result<()> {
     if std::io::IsTerminal::is_terminal(&std::io::stdout()) {
         return tui::run(tui::Args::default());
     }
-    let dir = demo_dir();
-    let today = chrono::Utc::now().date_naive();
     night::run(night::Args {
-        site: DEMO_SITE.to_string(),
-        date: Some(today.to_string()),
-        targets: Some(dir.join("targets.csv")),
-        limits: args::WindowLimits {
-            min_alt: 30.0,
-            sun_alt: -12.0,
-        },
+        site: args::SiteArg::default(),
+        date: None,
+        targets: Some(demo_programme()),
+        limits: args::WindowLimits::default(),
         json: false,
     })
 }

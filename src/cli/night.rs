@@ -9,10 +9,9 @@ use std::path::PathBuf;
 /// Arguments of `rung night`.
 #[derive(clap::Args)]
 pub struct Args {
-    /// Site name from the catalogue, or LAT,LON,ELEV_M[,ZONE].
-    #[arg(long)]
-    pub site: String,
-    /// The local date whose evening starts the night (YYYY-MM-DD); default today (UTC).
+    #[command(flatten)]
+    pub site: super::args::SiteArg,
+    /// The local date whose evening starts the night, YYYY-MM-DD (default: the coming night at the site)
     #[arg(long)]
     pub date: Option<String>,
     /// Targets file (CSV or TOML): adds each target's rise, transit, set and window.
@@ -37,13 +36,17 @@ type Extras = (Option<f64>, Option<(rung::astro::time::Instant, String)>);
 
 /// Run `rung night`.
 pub fn run(a: Args) -> Result<()> {
-    let site = super::resolve_site(&a.site).context("--site")?;
-    let limits = a.limits.limits()?;
-    let date_text = a
-        .date
-        .clone()
-        .unwrap_or_else(|| chrono::Utc::now().date_naive().to_string());
-    let date = parse_date(&date_text).context("--date")?;
+    let st = super::settings(
+        super::args::choices(Some(&a.site), None, Some(&a.limits), None, None),
+        a.targets.as_deref(),
+        &[],
+    )?;
+    let site = st.site.clone();
+    let limits = st.limits;
+    let date = match &a.date {
+        Some(d) => parse_date(d).context("--date")?,
+        None => rung::programme::tonight(&site, super::now()?)?,
+    };
     let targets = match &a.targets {
         Some(p) => super::load_targets(p)?,
         None => Vec::new(),

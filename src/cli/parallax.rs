@@ -3,19 +3,20 @@
 
 use anyhow::{Context as _, Result, bail};
 use rung::astro::frames::Context;
-use rung::astro::night::Limits;
-use rung::astro::time::{Instant, parse_date, parse_instant};
+use rung::astro::time::{Instant, parse_instant};
 use rung::astro::{pointing, sun_caution};
 use rung::io::angles::{parse_dec_deg, parse_ra_deg};
 use rung::io::targets::{Kind, Target};
 use rung::ladder::parallax::{FactorAxis, ParallaxConfig, ParallaxMethod, ParallaxPlan};
 use rung::ladder::{Setting, Verdict};
-use rung::photometry::{DEMO_INSTRUMENT, Photometer};
+use rung::programme::{Report, Settings};
 use serde_json::{Value, json};
 use std::path::PathBuf;
+use std::sync::Arc;
 
 /// Arguments of `rung parallax`.
 #[derive(clap::Args)]
+#[command(mut_arg("goal_pct", |a| a.help("Distance-precision goal, percent (default: the target's goal_pct, else the programme's)")),)]
 pub struct Args {
     #[command(flatten)]
     pub aim: super::args::MethodTarget,
@@ -34,12 +35,10 @@ pub struct Args {
     /// Photometric band (with --ra/--dec).
     #[arg(long, default_value = "I")]
     pub band: String,
-    /// First night of the range (YYYY-MM-DD); default today (UTC).
-    #[arg(long)]
-    pub from: Option<String>,
-    /// Last night of the range, inclusive; default three years after --from.
-    #[arg(long)]
-    pub to: Option<String>,
+    #[command(flatten)]
+    pub site: super::args::SiteArg,
+    #[command(flatten)]
+    pub range: super::args::RangeArgs,
     /// Factor to maximise: ra, dec or combined (default from config/parallax.toml).
     #[arg(long)]
     pub axis: Option<String>,
@@ -58,28 +57,22 @@ pub struct Args {
     /// Epochs per season.
     #[arg(long)]
     pub epochs_per_season: Option<u32>,
-    /// Minimum altitude, degrees.
-    #[arg(long, default_value_t = 30.0, allow_hyphen_values = true)]
-    pub min_alt: f64,
-    /// The Sun must be below this altitude (dark time), degrees.
-    #[arg(long, default_value_t = -18.0, allow_hyphen_values = true)]
-    pub sun_alt: f64,
+    #[command(flatten)]
+    pub limits: super::args::WindowLimits,
     /// An epoch of your own (ISO 8601), repeatable: predicts the precision of these instead.
     #[arg(long = "epoch")]
     pub epoch: Vec<String>,
     /// A file of your own epochs, one ISO 8601 instant per line ('#' comments).
     #[arg(long)]
     pub epochs_file: Option<PathBuf>,
-    /// Distance-precision goal, percent: find the epochs and hours that reach it.
-    #[arg(long, allow_hyphen_values = true)]
-    pub goal_pct: Option<f64>,
-    /// Instrument name from the catalogue (default the demo instrument).
-    #[arg(long, default_value = DEMO_INSTRUMENT)]
-    pub instrument: String,
+    #[command(flatten)]
+    pub goal: super::args::GoalArg,
+    #[command(flatten)]
+    pub instrument: super::args::InstrumentArg,
     /// Seeing FWHM, arcsec (default the instrument's typical seeing).
     #[arg(long, allow_hyphen_values = true)]
     pub seeing: Option<f64>,
-    /// Parallax configuration (TOML with every key of config/parallax.toml).
+    /// Parallax configuration (TOML with keys of config/parallax.toml; merged over it and your parallax.toml)
     #[arg(long)]
     pub config: Option<PathBuf>,
     /// Machine-readable output.
@@ -87,15 +80,15 @@ pub struct Args {
     pub json: bool,
 }
 
-fn config(a: &Args) -> Result<ParallaxConfig> {
-    let mut c = match &a.config {
-        Some(p) => {
-            let text = std::fs::read_to_string(p)
-                .with_context(|| format!("{}: cannot read", p.display()))?;
-            ParallaxConfig::from_toml(&text, p)?
-        }
-        None => ParallaxConfig::builtin()?,
-    };
+/// The method's configuration: the programme's (built-in, the user's file,
+/// --config) with this command's own options over it.
+fn config(a: &Args, st: &Settings) -> Result<ParallaxConfig> {
+    let mut c = st
+        .methods
+        .get::<ParallaxMethod>()
+        .context("no parallax method")?
+        .cfg
+        .clone();
     if let Some(x) = &a.axis {
         c.factor_axis = FactorAxis::parse(x)?;
     }
@@ -199,41 +192,44 @@ fn user_epochs(a: &Args) -> Result<Vec<Instant>> {
 
 /// Run `rung parallax`.
 pub fn run(a: Args) -> Result<()> {
-    let site = super::resolve_site(&a.aim.site)?;
-    let cfg = config(&a)?;
-    let tgt = target(&a)?;
-    let limits = Limits::new(a.min_alt, a.sun_alt)?;
-    let from = match &a.from {
-        Some(s) => parse_date(s)?,
-        None => chrono::Utc::now().date_naive(),
-    };
-    let to = match &a.to {
-        Some(s) => parse_date(s)?,
-        None => from
-            .checked_add_months(chrono::Months::new(36))
-            .and_then(|d| d.pred_opt())
-            .context("--from is too late for a default range")?,
-    };
-    let mut em = Photometer::from_name(&a.instrument, &site)?;
-    if let Some(s) = a.seeing {
-        em = em.with_seeing(s)?;
+    let programme = a.aim.targets.clone().unwrap_or_else(super::demo_programme);
+    let st = super::settings(
+        super::args::choices(
+            Some(&a.site),
+            Some(&a.instrument),
+            Some(&a.limits),
+            Some(&a.range),
+            Some(&a.goal),
+        ),
+        Some(&programme),
+        &[("parallax.toml", a.config.as_ref())],
+    )?;
+    let cfg = config(&a, &st)?;
+    let mut tgt = target(&a)?;
+    // The parallax method, whatever the target's kind (its expected parallax is checked).
+    tgt.kind = Kind::Parallax;
+    if a.goal.goal_pct.is_some() {
+        tgt.goal_pct = a.goal.goal_pct;
     }
-    let m = ParallaxMethod::new(cfg.clone())?;
-    let s = Setting {
-        site: &site,
-        target: &tgt,
-        from,
-        to,
-        limits,
-    };
+    let mut st = st.with_method(Arc::new(ParallaxMethod::new(cfg.clone())?));
+    if let Some(s) = a.seeing {
+        st.photometer = st.photometer.clone().with_seeing(s)?;
+    }
+    let site = st.site.clone();
+    let em = &st.photometer;
+    let s = st.setting(&tgt);
     let times = user_epochs(&a)?;
+    let goal = st.goal_for(&tgt);
     let (mode, plan) = if !times.is_empty() || a.epochs_file.is_some() {
-        let ep = m.epochs_at(&s, &em, &times)?;
+        let m = ParallaxMethod::new(cfg.clone())?;
+        let ep = m.epochs_at(&s, em, &times)?;
         ("epochs", m.plan_for(&s, ep)?)
-    } else if let Some(g) = a.goal_pct {
-        ("goal", m.goal_plan(&s, &em, g)?)
     } else {
-        ("propose", m.plan(&s, &em)?)
+        let mode = if goal.is_some() { "goal" } else { "propose" };
+        match rung::programme::report(&st, &tgt)? {
+            Report::Parallax(p) => (mode, *p),
+            _ => bail!("no parallax plan for {}", tgt.name),
+        }
     };
     let mut cautions = Vec::new();
     for e in &plan.epochs {
@@ -245,7 +241,7 @@ pub fn run(a: Args) -> Result<()> {
     }
     if a.json {
         let v = to_json(
-            &a,
+            goal,
             &site.name,
             &em.instrument.name,
             &tgt,
@@ -277,7 +273,7 @@ fn finite(x: f64) -> Option<f64> {
 
 #[allow(clippy::too_many_arguments)]
 fn to_json(
-    a: &Args,
+    goal_pct: Option<f64>,
     site: &str,
     instrument: &str,
     t: &Target,
@@ -295,8 +291,11 @@ fn to_json(
         .map(|n| {
             json!({
                 "night": n.night.to_string(),
+                "pf_ra_au": n.pf_ra,
+                "pf_dec_au": n.pf_dec,
                 "pf_ra": n.pf_ra,
                 "pf_dec": n.pf_dec,
+                "factor_au": n.factor,
                 "factor": n.factor,
                 "observable": n.observable,
                 "candidate": n.candidate,
@@ -315,6 +314,8 @@ fn to_json(
                 "time": e.epoch.time.iso(),
                 "night": e.night.map(|d| d.to_string()),
                 "season": e.season,
+                "pf_ra_au": e.pf_ra,
+                "pf_dec_au": e.pf_dec,
                 "pf_ra": e.pf_ra,
                 "pf_dec": e.pf_dec,
                 "hour_angle_h": e.hour_angle_h,
@@ -338,7 +339,7 @@ fn to_json(
         "to": s.to.to_string(),
         "parallax_mas": plan.parallax_mas,
         "distance_pc": 1000.0 / plan.parallax_mas,
-        "goal_pct": a.goal_pct,
+        "goal_pct": goal_pct,
         "axis": cfg.factor_axis.as_str(),
         "factor_fraction": cfg.factor_fraction,
         "ha_limit_h": cfg.ha_limit_h,

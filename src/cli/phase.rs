@@ -3,19 +3,21 @@
 
 use anyhow::{Context as _, Result, bail};
 use rung::astro::bary::bjd_tdb;
-use rung::astro::time::{parse_date, parse_instant};
+use rung::astro::time::parse_instant;
 use rung::io::angles::{parse_dec_deg, parse_ra_deg};
 use rung::io::targets::{BANDS, Kind, Target};
-use rung::ladder::pulsator::{PhaseReport, PulsatorConfig, PulsatorMethod};
-use rung::ladder::{ExposureModel, Setting, Verdict};
-use rung::photometry::{DEMO_INSTRUMENT, Photometer};
+use rung::ladder::Verdict;
+use rung::ladder::pulsator::{PhaseReport, PulsatorMethod};
+use rung::programme::Report;
 use serde_json::{Map, Value, json};
+use std::sync::Arc;
 
 /// Arguments of `rung phase`.
 #[derive(clap::Args)]
 #[command(
     mut_arg("target", |a| a.help("A pulsator by name from --targets (default: the demo programme)")),
     mut_arg("targets", |a| a.help("Targets file (CSV or TOML) for --target")),
+    mut_arg("goal_pct", |a| a.help("Distance-precision goal, percent (default: the target's goal_pct, else the programme's)")),
 )]
 pub struct Args {
     #[command(flatten)]
@@ -39,17 +41,15 @@ pub struct Args {
     #[arg(long)]
     pub band: Option<String>,
     /// Foreground extinction in the band, mag.
-    #[arg(long, allow_hyphen_values = true)]
+    #[arg(long, visible_alias = "extinction", allow_hyphen_values = true)]
     pub extinction_mag: Option<f64>,
-    /// First night (local date of its evening, YYYY-MM-DD); default today (UTC).
-    #[arg(long)]
-    pub from: Option<String>,
-    /// Number of nights from --from.
-    #[arg(long, default_value_t = 30)]
-    pub nights: u32,
-    /// Last night, inclusive (instead of --nights).
-    #[arg(long)]
-    pub to: Option<String>,
+    #[command(flatten)]
+    pub site: super::args::SiteArg,
+    #[command(flatten)]
+    pub range: super::args::RangeArgs,
+    /// Number of nights from the first (instead of --to)
+    #[arg(long, conflicts_with = "to")]
+    pub nights: Option<u32>,
     /// Phase bins to cover (default from config/pulsator.toml: 10).
     #[arg(long)]
     pub bins: Option<usize>,
@@ -62,12 +62,10 @@ pub struct Args {
     /// Warn when coverage needs more nights than this (default from config: 10).
     #[arg(long)]
     pub max_nights: Option<usize>,
-    /// Distance-precision goal, percent: plan the points and exposures that reach it.
-    #[arg(long, allow_hyphen_values = true)]
-    pub goal_pct: Option<f64>,
-    /// Instrument profile for exposures (config/instruments.toml).
-    #[arg(long, default_value = DEMO_INSTRUMENT)]
-    pub instrument: String,
+    #[command(flatten)]
+    pub goal: super::args::GoalArg,
+    #[command(flatten)]
+    pub instrument: super::args::InstrumentArg,
     #[command(flatten)]
     pub limits: super::args::WindowLimits,
     /// Also give the phase at this instant (ISO 8601 or 'now').
@@ -158,24 +156,33 @@ fn opt_num(x: f64) -> Value {
 
 /// Run `rung phase`.
 pub fn run(a: Args) -> Result<()> {
-    let site = super::resolve_site(&a.aim.site)?;
-    let limits = a.limits.limits()?;
-    let target = build_target(&a)?;
-    let from_text = a
-        .from
-        .clone()
-        .unwrap_or_else(|| chrono::Utc::now().date_naive().to_string());
-    let from = parse_date(&from_text).context("--from")?;
-    let to = match &a.to {
-        Some(s) => parse_date(s).context("--to")?,
-        None => {
-            if a.nights == 0 {
-                bail!("--nights must be at least 1");
-            }
-            from + chrono::Days::new(a.nights as u64 - 1)
+    let programme = a.aim.targets.clone().unwrap_or_else(super::demo_programme);
+    let mut st = super::settings(
+        super::args::choices(
+            Some(&a.site),
+            Some(&a.instrument),
+            Some(&a.limits),
+            Some(&a.range),
+            Some(&a.goal),
+        ),
+        Some(&programme),
+        &[],
+    )?;
+    if let Some(n) = a.nights {
+        if n == 0 {
+            bail!("--nights must be at least 1");
         }
-    };
-    let mut m = PulsatorMethod::with_config(PulsatorConfig::load()?);
+        st.to = st.from + chrono::Days::new(n as u64 - 1);
+    }
+    let mut target = build_target(&a)?;
+    if a.goal.goal_pct.is_some() {
+        target.goal_pct = a.goal.goal_pct;
+    }
+    let mut m = st
+        .methods
+        .get::<PulsatorMethod>()
+        .context("no pulsator method")?
+        .clone();
     if let Some(b) = a.bins {
         m.bins = b;
     }
@@ -188,30 +195,26 @@ pub fn run(a: Args) -> Result<()> {
     if let Some(n) = a.max_nights {
         m.max_nights = n;
     }
-    let photometer = Photometer::from_name(&a.instrument, &site)?;
-    let em: &dyn ExposureModel = &photometer;
-    let s = Setting {
-        site: &site,
-        target: &target,
-        from,
-        to,
-        limits,
+    let st = st.with_method(Arc::new(m.clone()));
+    let site = st.site.clone();
+    let r = match rung::programme::report(&st, &target)? {
+        Report::Phase(r) => *r,
+        _ => bail!("no phase report for {}", target.name),
     };
-    let r = match a.goal_pct.or(target.goal_pct) {
-        Some(g) if target.mean_mag.is_some() => m.goal_report(&s, em, g)?,
-        _ => m.analyse(&s, Some(em))?,
-    };
-    let goal = a.goal_pct.or(target.goal_pct);
+    let goal = st.goal_for(&target);
     let at = match &a.at {
         Some(text) => {
-            let t = parse_instant(text).context("--at")?;
+            let t = match text.trim() {
+                "now" => super::now()?,
+                x => parse_instant(x).context("--at")?,
+            };
             let b = bjd_tdb(&site, t, &r.star.place)?;
             Some((t, b))
         }
         None => None,
     };
     if a.json {
-        print_json(&a, &site, &target, &m, &r, goal, at)?;
+        print_json(&st, &target, &m, &r, goal, at)?;
     } else {
         print_text(&site, &target, &m, &r, goal, at);
     }
@@ -220,8 +223,7 @@ pub fn run(a: Args) -> Result<()> {
 
 #[allow(clippy::too_many_arguments)]
 fn print_json(
-    a: &Args,
-    site: &rung::astro::site::Site,
+    st: &rung::programme::Settings,
     target: &Target,
     m: &PulsatorMethod,
     r: &PhaseReport,
@@ -230,9 +232,10 @@ fn print_json(
 ) -> Result<()> {
     let e = &r.star.ephemeris;
     let mut o = Map::new();
+    let site = &st.site;
     o.insert("target".into(), json!(target.name));
     o.insert("site".into(), json!(site.name));
-    o.insert("instrument".into(), json!(a.instrument));
+    o.insert("instrument".into(), json!(st.instrument().name));
     o.insert("period_d".into(), json!(e.period_d));
     o.insert("epoch_max_bjd".into(), json!(e.epoch_max_bjd));
     o.insert("period_err_d".into(), json!(e.period_err_d));
@@ -240,8 +243,8 @@ fn print_json(
     o.insert("mean_mag".into(), json!(r.star.mean_mag));
     o.insert("amplitude_mag".into(), json!(r.star.amplitude_mag));
     o.insert("extinction_mag".into(), json!(r.star.extinction_mag));
-    o.insert("min_alt_deg".into(), json!(a.limits.min_alt));
-    o.insert("sun_alt_deg".into(), json!(a.limits.sun_alt));
+    o.insert("min_alt_deg".into(), json!(st.limits.min_alt_deg));
+    o.insert("sun_alt_deg".into(), json!(st.limits.sun_alt_deg));
     o.insert("bins".into(), json!(r.plan.bins));
     o.insert("harmonics".into(), json!(m.harmonics));
     // Nights: one row per window, and one row with nulls for a night without one.

@@ -2,44 +2,33 @@
 //! `rung budget` (what each distance goal costs).
 
 use anyhow::{Context as _, Result};
-use rung::astro::night::Limits;
-use rung::astro::time::{Instant, parse_date};
-use rung::ladder::Method;
-use rung::photometry::Photometer;
+use rung::astro::time::parse_date;
 use rung::plan::budget;
 use rung::plan::export;
-use rung::plan::file::{self, FORMAT, PlanFile};
-use rung::plan::schedule::{self, Request, Status, fingerprint};
-use std::collections::BTreeSet;
+use rung::plan::file::{self, PlanFile};
+use rung::plan::schedule::{self, Request, Status};
 use std::path::PathBuf;
 
 /// Arguments of `rung plan`.
 #[derive(clap::Args)]
 pub struct PlanArgs {
-    /// Site name or LAT,LON,ELEV_M[,ZONE] (ignored with --load: the plan's own site is used).
-    #[arg(long)]
+    /// Site name from the catalogue, or LAT,LON,ELEV_M[,ZONE] (default: the programme's, else pampa-lucero; with --load the plan's own)
+    #[arg(long, allow_hyphen_values = true)]
     pub site: Option<String>,
     /// Targets file (CSV or TOML); with --load, defaults to the plan's own.
     #[arg(long)]
     pub targets: Option<PathBuf>,
-    /// First night (YYYY-MM-DD).
-    #[arg(long)]
-    pub from: Option<String>,
-    /// Last night (YYYY-MM-DD), inclusive.
-    #[arg(long)]
-    pub to: Option<String>,
+    #[command(flatten)]
+    pub range: super::args::RangeArgs,
     /// Telescope hours per night.
     #[arg(long, allow_hyphen_values = true)]
     pub hours_per_night: Option<f64>,
-    /// Instrument name (config/instruments.toml or the user's file).
-    #[arg(long)]
-    pub instrument: Option<String>,
-    /// Minimum altitude, degrees.
-    #[arg(long, allow_hyphen_values = true)]
-    pub min_alt: Option<f64>,
-    /// Sun limit, degrees.
-    #[arg(long, allow_hyphen_values = true)]
-    pub sun_alt: Option<f64>,
+    #[command(flatten)]
+    pub goal: super::args::GoalArg,
+    #[command(flatten)]
+    pub instrument: super::args::InstrumentArg,
+    #[command(flatten)]
+    pub limits: super::args::WindowLimits,
     /// Load a saved plan (to mark visits and nights, re-plan, or export it).
     #[arg(long)]
     pub load: Option<PathBuf>,
@@ -72,33 +61,17 @@ pub struct PlanArgs {
     pub json: bool,
 }
 
-fn instrument(site: &rung::astro::site::Site, name: &Option<String>) -> Result<Photometer> {
-    Ok(match name {
-        Some(n) => Photometer::from_name(n, site)?,
-        None => Photometer::demo(site)?,
-    })
-}
-
 /// Run `rung plan`.
 pub fn run_plan(a: PlanArgs) -> Result<()> {
     let (mut plan, plan_path) = match &a.load {
         Some(p) => (Some(file::load(p)?), Some(p.clone())),
         None => (None, None),
     };
-    let site_spec = match (&plan, &a.site) {
-        (Some(p), _) => p.site.clone(),
-        (None, Some(s)) => s.clone(),
-        (None, None) => anyhow::bail!("give --site (or --load a saved plan)"),
-    };
     // A site or targets file taken from a loaded plan is named as the plan's field.
     let from_plan = |field: &str| {
         plan_path
             .as_ref()
             .map(|p| format!("{}, field '{field}'", p.display()))
-    };
-    let site = match from_plan("site") {
-        Some(w) if plan.is_some() => super::resolve_site(&site_spec).context(w)?,
-        _ => super::resolve_site(&site_spec)?,
     };
     let targets_path = match (&a.targets, &plan) {
         (Some(t), _) => t.clone(),
@@ -112,48 +85,50 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
     if let (Some(p), Some(pp)) = (&plan, &plan_path) {
         p.check_targets(&targets, pp)?;
     }
-    let em = instrument(&site, &a.instrument)?;
-    let owned = rung::ladder::methods()?;
-    let ms: Vec<&dyn Method> = owned.iter().map(|m| m.as_ref()).collect();
+    // The settings: a loaded plan's own site, range, limits and instrument,
+    // else the command line over the programme's settings.
+    let mut choices = super::args::choices(
+        None,
+        Some(&a.instrument),
+        Some(&a.limits),
+        Some(&a.range),
+        Some(&a.goal),
+    );
+    choices.site = a.site.clone();
+    if let Some(p) = &plan {
+        choices.site = Some(p.site.clone());
+        choices.from = Some(p.from.to_string());
+        choices.to = Some(p.to.to_string());
+        choices.min_alt_deg = Some(p.min_alt_deg);
+        choices.sun_alt_deg = Some(p.sun_alt_deg);
+        if choices.instrument.is_none() {
+            choices.instrument = p.instrument.clone();
+        }
+    }
+    // A plan's own site that no longer resolves is named as the plan's field.
+    if let (Some(p), Some(w)) = (&plan, from_plan("site")) {
+        rung::io::sites::resolve(&p.site).context(w)?;
+    }
+    let st = super::settings(choices, Some(&targets_path), &[])?;
 
     let mut outcomes = None;
     let mut p = match plan.take() {
         Some(p) => p,
         None => {
-            let from = parse_date(a.from.as_deref().context("give --from YYYY-MM-DD")?)?;
-            let to = parse_date(a.to.as_deref().context("give --to YYYY-MM-DD")?)?;
             let hours = a.hours_per_night.context("give --hours-per-night H")?;
-            let limits = Limits::new(a.min_alt.unwrap_or(30.0), a.sun_alt.unwrap_or(-12.0))?;
-            let req = Request {
-                site: &site,
-                targets: &targets,
-                from,
-                to,
-                limits,
-                hours_per_night: hours,
-                methods: &ms,
-                em: &em,
-                done: vec![],
-                lost_nights: BTreeSet::new(),
-            };
-            let s = schedule::schedule(&req)?;
+            let s = schedule::schedule(&Request::programme(&st, &targets, hours))?;
             report_unplaced(&s);
             outcomes = Some(s.outcomes);
-            PlanFile {
-                format: FORMAT.into(),
-                site: site_spec.clone(),
-                targets_file: targets_path.display().to_string(),
-                targets_fingerprint: fingerprint(&targets),
-                from,
-                to,
-                hours_per_night: hours,
-                min_alt_deg: limits.min_alt_deg,
-                sun_alt_deg: limits.sun_alt_deg,
-                lost_nights: BTreeSet::new(),
-                visits: s.visits,
-            }
+            PlanFile::new(
+                &st,
+                &targets,
+                targets_path.display().to_string(),
+                hours,
+                s.visits,
+            )
         }
     };
+    let site = st.site.clone();
     let mut changed = a.load.is_none();
     for n in &a.lost_night {
         let d = parse_date(n).context("--lost-night")?;
@@ -176,7 +151,6 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
         changed = true;
     }
     if a.replan {
-        let limits = p.limits()?;
         let hours = a.hours_per_night.unwrap_or(p.hours_per_night);
         let done: Vec<_> = p
             .visits
@@ -185,16 +159,9 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
             .cloned()
             .collect();
         let req = Request {
-            site: &site,
-            targets: &targets,
-            from: p.from,
-            to: p.to,
-            limits,
-            hours_per_night: hours,
-            methods: &ms,
-            em: &em,
             done,
             lost_nights: p.lost_nights.clone(),
+            ..Request::programme(&st, &targets, hours)
         };
         let s = schedule::schedule(&req)?;
         report_unplaced(&s);
@@ -217,17 +184,16 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
         eprintln!("rung: plan saved to {}", path.display());
     }
     if let Some(path) = &a.ics {
-        let stamp = Instant::now()?;
+        let stamp = super::now()?;
         rung::io::atomic::write_atomic(path, export::ics(&p.visits, &site, stamp).as_bytes())?;
         eprintln!("rung: iCalendar written to {}", path.display());
     }
     if let Some(d) = &a.sheet {
         let d = parse_date(d).context("--sheet")?;
-        let header = format!(
-            "Plan {} to {}, {:.1} h per night, window above {:.0}° with the Sun below {:.0}°.",
-            p.from, p.to, p.hours_per_night, p.min_alt_deg, p.sun_alt_deg
+        print!(
+            "{}",
+            export::night_sheet(&p.visits, &site, d, &p.sheet_header())
         );
-        print!("{}", export::night_sheet(&p.visits, &site, d, &header));
         return Ok(());
     }
     if a.csv {
@@ -238,6 +204,7 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
         let v = serde_json::json!({
             "plan": &p,
             "outcomes": outcomes,
+            "settings": st.to_json(),
         });
         println!("{}", serde_json::to_string_pretty(&v)?);
         return Ok(());
@@ -326,29 +293,18 @@ fn print_plan(
 
 /// Arguments of `rung budget`.
 #[derive(clap::Args)]
-#[command(
-    mut_arg("min_alt", |a| a.help("Minimum altitude, degrees")),
-    mut_arg("sun_alt", |a| a.help("Sun limit, degrees")),
-)]
 pub struct BudgetArgs {
-    /// Site name or LAT,LON,ELEV_M[,ZONE].
-    #[arg(long)]
-    pub site: String,
+    #[command(flatten)]
+    pub site: super::args::SiteArg,
     /// Targets file (CSV or TOML).
     #[arg(long)]
     pub targets: PathBuf,
-    /// First night of the season (YYYY-MM-DD).
-    #[arg(long)]
-    pub from: String,
-    /// Last night of the season (YYYY-MM-DD).
-    #[arg(long)]
-    pub to: String,
-    /// Distance-precision goal in percent for targets without their own goal_pct.
-    #[arg(long, allow_hyphen_values = true)]
-    pub goal: Option<f64>,
-    /// Instrument name.
-    #[arg(long)]
-    pub instrument: Option<String>,
+    #[command(flatten)]
+    pub range: super::args::RangeArgs,
+    #[command(flatten)]
+    pub goal: super::args::GoalArg,
+    #[command(flatten)]
+    pub instrument: super::args::InstrumentArg,
     #[command(flatten)]
     pub limits: super::args::WindowLimits,
     /// JSON output.
@@ -364,28 +320,38 @@ pub struct BudgetArgs {
 
 /// Run `rung budget`.
 pub fn run_budget(a: BudgetArgs) -> Result<()> {
-    if let Some(g) = a.goal {
-        budget::check_goal(g)?;
-    }
-    let site = super::resolve_site(&a.site)?;
-    let from = parse_date(&a.from)?;
-    let to = parse_date(&a.to)?;
-    let limits = a.limits.limits()?;
+    let st = super::settings(
+        super::args::choices(
+            Some(&a.site),
+            Some(&a.instrument),
+            Some(&a.limits),
+            Some(&a.range),
+            Some(&a.goal),
+        ),
+        Some(&a.targets),
+        &[],
+    )?;
     let targets = super::load_targets(&a.targets)?;
-    let em = instrument(&site, &a.instrument)?;
-    let owned = rung::ladder::methods()?;
-    let ms: Vec<&dyn Method> = owned.iter().map(|m| m.as_ref()).collect();
-    let b = budget::budget(&site, &targets, &ms, &em, from, to, limits, a.goal)?;
+    let b = budget::budget(&st, &targets)?;
     if a.json {
-        println!("{}", serde_json::to_string_pretty(&b)?);
+        let mut v = serde_json::to_value(&b)?;
+        if let Some(o) = v.as_object_mut() {
+            o.insert("settings".into(), st.to_json());
+        }
+        println!("{}", serde_json::to_string_pretty(&v)?);
     } else if a.csv {
         print!("{}", budget::csv(&b));
     } else if a.markdown {
         print!("{}", budget::markdown(&b));
     } else {
         println!(
-            "Distance budget {from} to {to} at {} (window above {:.0}°, Sun below {:.0}°)",
-            site.name, a.limits.min_alt, a.limits.sun_alt
+            "Distance budget {} to {} at {} with {} (window above {:.0}°, Sun below {:.0}°)",
+            st.from,
+            st.to,
+            st.site.name,
+            st.instrument().name,
+            st.limits.min_alt_deg,
+            st.limits.sun_alt_deg
         );
         println!(
             "  {:<14} {:<9} {:>6} {:>8} {:>6} {:>8} {:>7}  verdict",

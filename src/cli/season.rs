@@ -5,7 +5,6 @@
 
 use anyhow::{Context as _, Result};
 use rayon::prelude::*;
-use rung::astro::time::parse_date;
 use rung::plan::season::{
     self, Constraints, NightRows, NightSky, SeasonSummary, TargetNightRow, TargetSummary,
 };
@@ -15,23 +14,14 @@ use std::path::PathBuf;
 
 /// Arguments of `rung season`.
 #[derive(clap::Args)]
-#[command(
-    mut_arg("min_alt", |a| a.help("Minimum observed altitude, degrees")),
-    mut_arg("sun_alt", |a| a.help("The Sun's centre must be below this altitude, degrees")),
-)]
 pub struct Args {
-    /// Site name from the catalogue, or LAT,LON,ELEV_M[,ZONE].
-    #[arg(long)]
-    pub site: String,
+    #[command(flatten)]
+    pub site: super::args::SiteArg,
     /// Targets file (CSV or TOML).
     #[arg(long)]
     pub targets: PathBuf,
-    /// First night (YYYY-MM-DD, the local evening that starts it).
-    #[arg(long)]
-    pub from: String,
-    /// Last night (YYYY-MM-DD), inclusive.
-    #[arg(long)]
-    pub to: String,
+    #[command(flatten)]
+    pub range: super::args::RangeArgs,
     #[command(flatten)]
     pub limits: super::args::WindowLimits,
     /// Minimum distance from the Moon's centre, degrees (default: no Moon limit).
@@ -59,10 +49,14 @@ const ROWS_PER_CHUNK: usize = 512;
 
 /// Run `rung season`.
 pub fn run(a: Args) -> Result<()> {
-    let site = super::resolve_site(&a.site)?;
-    let c = Constraints::new(a.limits.min_alt, a.limits.sun_alt, a.moon_sep)?;
-    let from = parse_date(&a.from).context("--from")?;
-    let to = parse_date(&a.to).context("--to")?;
+    let st = super::settings(
+        super::args::choices(Some(&a.site), None, Some(&a.limits), Some(&a.range), None),
+        Some(&a.targets),
+        &[],
+    )?;
+    let site = st.site.clone();
+    let c = Constraints::new(st.limits.min_alt_deg, st.limits.sun_alt_deg, a.moon_sep)?;
+    let (from, to) = (st.from, st.to);
     let nights = season::nights_in(from, to)?.len();
     let targets = super::load_targets(&a.targets)?;
     let places: Vec<_> = targets.iter().map(|t| t.place()).collect();

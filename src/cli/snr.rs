@@ -1,17 +1,19 @@
 //! `rung snr` and `rung exptime`: signal-to-noise of an exposure, or the
 //! exposure for a signal-to-noise, for one star at a site and instant.
 //!
-//! With `--date` instead of `--at`, the instant is the target's best time that
-//! night: its highest altitude while the Sun is below −18° (astronomical
-//! darkness), or below −12° when the night has no astronomical darkness.
+//! Without `--at`, the instant is the target's best time in a night: its
+//! highest altitude while the Sun is below the programme's Sun limit (the
+//! window's, −12° by default), in the night of `--date` or else the coming
+//! night (`rung::programme::tonight`): "tonight's sky", not the daylit present.
 
 use anyhow::{Context as _, Result, bail};
+use chrono::NaiveDate;
 use rung::astro::frames::{CatalogPlace, Context};
-use rung::astro::night::{ASTRONOMICAL_DEG, Limits, NAUTICAL_DEG, Night};
+use rung::astro::night::{Limits, Night};
 use rung::astro::time::{Instant, parse_date, parse_instant};
 use rung::astro::{pointing, sun_caution};
 
-use rung::photometry::{DEMO_INSTRUMENT, Exposure, Photometer};
+use rung::photometry::{Exposure, Photometer};
 use serde_json::json;
 
 /// Where, when and with what: the arguments both commands share.
@@ -27,18 +29,19 @@ pub struct Common {
     #[arg(long)]
     pub band: Option<String>,
     #[command(flatten)]
+    pub site: super::args::SiteArg,
+    #[command(flatten)]
     pub aim: super::args::Pointing,
-    /// Instant, ISO 8601 (a time without a zone is UTC), or 'now'.
+    /// Instant, ISO 8601 (a time without a zone is UTC), or 'now' (default: the best time of --date's night)
     #[arg(long, conflicts_with = "date")]
     pub at: Option<String>,
-    /// A night (local date of its evening): use the target's best time in it, its
-    /// highest altitude with the Sun below -18° (below -12° if the night has no
-    /// astronomical darkness).
+    /// A night, YYYY-MM-DD (local date of its evening): the target's highest altitude in it with the Sun below --sun-alt (default: the coming night)
     #[arg(long)]
     pub date: Option<String>,
-    /// Instrument name from config/instruments.toml or your instruments.toml.
-    #[arg(long, default_value = DEMO_INSTRUMENT)]
-    pub instrument: String,
+    #[command(flatten)]
+    pub instrument: super::args::InstrumentArg,
+    #[command(flatten)]
+    pub limits: super::args::WindowLimits,
     /// Seeing FWHM, arcsec (default: the instrument's typical seeing).
     #[arg(long, allow_hyphen_values = true)]
     pub seeing: Option<f64>,
@@ -77,42 +80,48 @@ struct Setup {
     mag: f64,
     band: String,
     t: Instant,
-    time_rule: &'static str,
+    time_rule: String,
     ph: Photometer,
 }
 
+/// The target's best time in the night of `date`: its highest altitude while
+/// the Sun is below the limit (the same instant the Roster and `rung night`
+/// measure the Moon distance at).
 fn best_time(
     site: &rung::astro::site::Site,
-    date: &str,
+    date: NaiveDate,
     place: &CatalogPlace,
-) -> Result<(Instant, &'static str)> {
-    let date = parse_date(date)?;
+    limits: &Limits,
+) -> Result<Instant> {
     let night = Night::new(site, date)?;
-    for (sun, rule) in [
-        (ASTRONOMICAL_DEG, "highest altitude with the Sun below -18°"),
-        (
-            NAUTICAL_DEG,
-            "highest altitude with the Sun below -12° (no astronomical darkness this night)",
+    let tn = night.target(place, limits);
+    match (tn.max_altitude_time, tn.max_altitude_deg) {
+        (Some(t), Some(alt)) if alt > 0.0 => Ok(t),
+        (Some(_), Some(alt)) => bail!(
+            "the target stays below the horizon while the Sun is below {}° on the night of {date} (highest {alt:.1}°)",
+            limits.sun_alt_deg
         ),
-    ] {
-        let tn = night.target(place, &Limits::new(0.0, sun)?);
-        if let (Some(t), Some(alt)) = (tn.max_altitude_time, tn.max_altitude_deg) {
-            if alt > 0.0 {
-                return Ok((t, rule));
-            }
-            bail!(
-                "the target stays below the horizon while the Sun is below {sun}° on the night of {date} (highest {alt:.1}°)"
-            );
-        }
+        _ => bail!(
+            "the night of {date} has no time with the Sun below {}° at {}",
+            limits.sun_alt_deg,
+            site.name
+        ),
     }
-    bail!(
-        "the night of {date} has no darkness (the Sun never gets below -12°) at {}",
-        site.name
-    )
 }
 
 fn setup(c: &Common) -> Result<Setup> {
-    let site = super::resolve_site(&c.aim.site)?;
+    let st = super::settings(
+        super::args::choices(
+            Some(&c.site),
+            Some(&c.instrument),
+            Some(&c.limits),
+            None,
+            None,
+        ),
+        c.aim.targets.as_deref(),
+        &[],
+    )?;
+    let site = st.site.clone();
     let (name, place, tg) = c.aim.resolve()?;
     let mag = match (c.mag, &tg) {
         (Some(m), _) => rung::bounds::MAG.check_as("--mag", m)?,
@@ -134,11 +143,23 @@ fn setup(c: &Common) -> Result<Setup> {
         })
         .unwrap_or_else(|| "V".to_string());
     let (t, time_rule) = match (&c.at, &c.date) {
-        (_, Some(d)) => best_time(&site, d, &place)?,
-        (Some(a), None) => (parse_instant(a)?, "given instant"),
-        (None, None) => (parse_instant("now")?, "now"),
+        (Some(a), None) if a.trim() == "now" => (super::now()?, "now".to_string()),
+        (Some(a), None) => (parse_instant(a)?, "given instant".to_string()),
+        (_, d) => {
+            let date = match d {
+                Some(d) => parse_date(d)?,
+                None => rung::programme::tonight(&site, super::now()?)?,
+            };
+            (
+                best_time(&site, date, &place, &st.limits)?,
+                format!(
+                    "highest altitude on the night of {date} with the Sun below {}°",
+                    st.limits.sun_alt_deg
+                ),
+            )
+        }
     };
-    let mut ph = Photometer::from_name(&c.instrument, &site)?;
+    let mut ph = st.photometer.clone();
     if let Some(s) = c.seeing {
         ph = ph.with_seeing(rung::bounds::SEEING_ARCSEC.check_as("--seeing", s)?)?;
     }

@@ -4,7 +4,7 @@
 //! background threads, saves at once) and redraws.
 
 use anyhow::{Context as _, Result};
-use rung::astro::time::{Instant, parse_date};
+use rung::astro::time::parse_date;
 use rung::io::sites;
 use rung::io::targets::Target;
 use rung::tui::effects;
@@ -21,15 +21,19 @@ pub struct Args {
     /// Targets file (CSV or TOML); default: programme.csv in your config folder, else the demo.
     #[arg(long)]
     pub targets: Option<PathBuf>,
-    /// Site name from the catalogue, or LAT,LON,ELEV_M[,ZONE].
-    #[arg(long)]
-    pub site: Option<String>,
-    /// Night to open (YYYY-MM-DD); default: the current night, following the clock.
+    #[command(flatten)]
+    pub site: super::args::SiteArg,
+    /// Night to open, YYYY-MM-DD (default: the coming night, following the clock)
     #[arg(long)]
     pub date: Option<String>,
-    /// Instrument profile for exposures (Phase and Chase views).
-    #[arg(long)]
-    pub instrument: Option<String>,
+    #[command(flatten)]
+    pub instrument: super::args::InstrumentArg,
+    #[command(flatten)]
+    pub range: super::args::RangeArgs,
+    #[command(flatten)]
+    pub limits: super::args::WindowLimits,
+    #[command(flatten)]
+    pub goal: super::args::GoalArg,
 }
 
 /// The user's own programme file.
@@ -157,41 +161,42 @@ pub fn setup(a: &Args) -> Result<Setup> {
             )
         }
     };
-    let spec = a
-        .site
-        .clone()
-        .unwrap_or_else(|| super::DEMO_SITE.to_string());
-    let site = sites::resolve(&spec)?;
-    let message = message.or_else(|| site.zone_warning());
+    let settings = super::settings(
+        super::args::choices(
+            Some(&a.site),
+            Some(&a.instrument),
+            Some(&a.limits),
+            Some(&a.range),
+            Some(&a.goal),
+        ),
+        programme.source.as_deref(),
+        &[],
+    )?;
+    let message = message.or_else(|| settings.site.zone_warning());
     let mut list = sites::catalogue().unwrap_or_default();
-    if !list.iter().any(|s| s.name == site.name) {
-        list.push(site.clone());
+    if !list.iter().any(|s| s.name == settings.site.name) {
+        list.push(settings.site.clone());
     }
     let date = a.date.as_deref().map(parse_date).transpose()?;
-    let instrument = a
-        .instrument
-        .clone()
-        .unwrap_or_else(|| rung::photometry::instrument::DEMO_INSTRUMENT.to_string());
-    rung::photometry::instrument::resolve(&instrument)?;
+    let instrument = settings.instrument().name.clone();
     let mut instruments: Vec<String> = rung::photometry::instrument::catalogue()
         .map(|l| l.into_iter().map(|i| i.name).collect())
         .unwrap_or_default();
     if !instruments.contains(&instrument) {
-        instruments.push(instrument.clone());
+        instruments.push(instrument);
     }
     let (recovered, message) = find_recovery(&programme, &targets, message);
     Ok(Setup {
         recovered,
-        site,
+        settings,
         sites: list,
         date,
-        now: Instant::now()?,
+        now: super::now()?,
         targets,
         programme,
         size: (80, 24),
         theme: Theme::from_env(),
         message,
-        instrument,
         instruments,
     })
 }
@@ -342,7 +347,7 @@ fn event_loop(
         }
         if last_tick.elapsed() >= Duration::from_secs(1) {
             last_tick = std::time::Instant::now();
-            if let Ok(now) = Instant::now() {
+            if let Ok(now) = super::now() {
                 apply(&mut state, Msg::Tick(now), &tx);
             }
         }

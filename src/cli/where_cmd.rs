@@ -11,6 +11,8 @@ use serde_json::json;
 #[derive(clap::Args)]
 pub struct Args {
     #[command(flatten)]
+    pub site: super::args::SiteArg,
+    #[command(flatten)]
     pub aim: super::args::Pointing,
     /// Instant, ISO 8601 (a time without a zone is UTC), or 'now'.
     #[arg(long, default_value = "now")]
@@ -22,21 +24,28 @@ pub struct Args {
 
 /// Run `rung where`.
 pub fn run(a: Args) -> Result<()> {
-    let site = super::resolve_site(&a.aim.site).context("--site")?;
-    let t = parse_instant(&a.at).context("--at")?;
+    let st = super::settings(
+        super::args::choices(Some(&a.site), None, None, None, None),
+        a.aim.targets.as_deref(),
+        &[],
+    )?;
+    let site = st.site.clone();
+    let t = match a.at.as_str() {
+        "now" => super::now()?,
+        at => parse_instant(at).context("--at")?,
+    };
     let (name, place, _) = a.aim.resolve()?;
     let ctx = Context::exact(&site, t)?;
     let p = pointing(&site, &ctx, &place);
     let caution = sun_caution(&site, &p);
     // Sky model (src/sky): V sky at the target, null below the horizon. A broken
     // user bands.toml is reported and leaves the key null; the rest still prints.
-    let sky_v = match rung::sky::BandSet::load() {
-        Ok(b) => b.sky_at("V", &ctx, &place).ok().map(|s| s.sky_mag_arcsec2),
-        Err(e) => {
-            eprintln!("rung: warning: {e} (sky brightness not computed)");
-            None
-        }
-    };
+    let sky_v = st
+        .photometer
+        .bands
+        .sky_at("V", &ctx, &place)
+        .ok()
+        .map(|s| s.sky_mag_arcsec2);
     if a.json {
         let mut v = serde_json::to_value(&p)?;
         let o = v.as_object_mut().context("object")?;
@@ -44,6 +53,7 @@ pub fn run(a: Args) -> Result<()> {
         o.insert("site".into(), json!(site.name));
         o.insert("target".into(), json!(name));
         o.insert("sky_v_mag_arcsec2".into(), json!(sky_v));
+        o.insert("humidity".into(), json!(site.humidity));
         o.insert("cautions".into(), json!(caution.iter().collect::<Vec<_>>()));
         println!("{}", serde_json::to_string_pretty(&v)?);
         return Ok(());
@@ -78,8 +88,10 @@ pub fn run(a: Args) -> Result<()> {
         super::opt(sky_v, 2)
     );
     println!(
-        "  refraction at {:.1} hPa, {:.1} °C",
-        p.pressure_hpa, p.temperature_c
+        "  refraction at {:.1} hPa, {:.1} °C, humidity {:.0} %",
+        p.pressure_hpa,
+        p.temperature_c,
+        100.0 * site.humidity
     );
     if let Some(c) = caution {
         println!("  {c}");

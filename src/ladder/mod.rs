@@ -18,6 +18,9 @@ use crate::error::Result;
 use crate::io::targets::{Kind, Target};
 use chrono::NaiveDate;
 use serde::Serialize;
+use std::collections::BTreeMap;
+use std::path::PathBuf;
+use std::sync::Arc;
 
 /// What the photometry model offers the methods: signal-to-noise and exposure
 /// time for a star at a place and instant (sky brightness, airmass and the Moon
@@ -213,7 +216,7 @@ pub struct Prediction {
 }
 
 /// The face every distance method shows.
-pub trait Method: Sync {
+pub trait Method: Send + Sync {
     /// Which targets this method serves.
     fn kind(&self) -> Kind;
     /// Propose epochs over the range (the method's own cadence rule).
@@ -222,14 +225,96 @@ pub trait Method: Sync {
     fn predict(&self, s: &Setting, em: &dyn ExposureModel, epochs: &[Epoch]) -> Result<Prediction>;
     /// The epochs and hours that reach `goal_pct`, or why they cannot.
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction>;
+    /// The distance goal (percent) the method plans for when neither the
+    /// target nor its programme gives one.
+    fn default_goal_pct(&self) -> Option<f64> {
+        None
+    }
+    /// The method's configuration as JSON: shown by `--json`, and two methods
+    /// with equal configurations give equal answers (the UI's caches compare it).
+    fn config_json(&self) -> serde_json::Value {
+        serde_json::Value::Null
+    }
+    /// The method itself, for a command or view that shows its own report
+    /// (see [`MethodSet::get`]).
+    fn as_any(&self) -> &dyn std::any::Any;
 }
 
-/// Every distance method rung knows, with its built-in configuration
-/// (config/parallax.toml, config/pulsator.toml, config/transient.toml).
-pub fn methods() -> Result<Vec<Box<dyn Method>>> {
-    Ok(vec![
-        Box::new(parallax::ParallaxMethod::builtin()?),
-        Box::new(pulsator::PulsatorMethod::default()),
-        Box::new(transient::TransientMethod::new()?),
-    ])
+/// The distance goal of a target (percent): its own `goal_pct`, else the
+/// programme's `programme_goal_pct`, else its method's default, else none.
+/// The one rule: the budget, the scheduler and every view use it.
+pub fn goal_for(t: &Target, programme_goal_pct: Option<f64>, m: &dyn Method) -> Option<f64> {
+    t.goal_pct
+        .or(programme_goal_pct)
+        .or_else(|| m.default_goal_pct())
+}
+
+/// The distance methods of a programme, each with its configuration.
+#[derive(Clone)]
+pub struct MethodSet(Vec<Arc<dyn Method>>);
+
+impl MethodSet {
+    /// A set of methods (one per kind; the first of a kind serves it).
+    pub fn new(list: Vec<Arc<dyn Method>>) -> Self {
+        MethodSet(list)
+    }
+
+    /// The method serving a kind of target, if any.
+    pub fn for_kind(&self, kind: Kind) -> Option<&dyn Method> {
+        self.0.iter().find(|m| m.kind() == kind).map(|m| m.as_ref())
+    }
+
+    /// Every method, in list order.
+    pub fn iter(&self) -> impl Iterator<Item = &dyn Method> {
+        self.0.iter().map(|m| m.as_ref())
+    }
+
+    /// The kinds served, in list order.
+    pub fn kinds(&self) -> Vec<Kind> {
+        self.iter().map(|m| m.kind()).collect()
+    }
+
+    /// The shared handles of the methods, in list order.
+    pub fn arcs(&self) -> Vec<Arc<dyn Method>> {
+        self.0.clone()
+    }
+
+    /// The method of a given type (for its own report: the parallax plan, the
+    /// phase report, the chase).
+    pub fn get<M: Method + 'static>(&self) -> Option<&M> {
+        self.0.iter().find_map(|m| m.as_any().downcast_ref::<M>())
+    }
+}
+
+impl PartialEq for MethodSet {
+    fn eq(&self, o: &Self) -> bool {
+        self.0.len() == o.0.len()
+            && self
+                .iter()
+                .zip(o.iter())
+                .all(|(a, b)| a.kind() == b.kind() && a.config_json() == b.config_json())
+    }
+}
+
+impl std::fmt::Debug for MethodSet {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_list()
+            .entries(self.iter().map(|m| m.kind().as_str()))
+            .finish()
+    }
+}
+
+/// Every distance method rung knows, each with its configuration: the
+/// built-in `config/<method>.toml`, the user's file of the same name merged
+/// over it, then a file named on the command line (`extra`, by config file
+/// name, e.g. `parallax.toml` → the file given to `rung parallax --config`).
+///
+/// This is the one method list: a new method is one line here.
+pub fn methods(extra: &BTreeMap<String, PathBuf>) -> Result<MethodSet> {
+    let file = |name: &str| extra.get(name).map(|p| p.as_path());
+    Ok(MethodSet::new(vec![
+        Arc::new(parallax::ParallaxMethod::load(file("parallax.toml"))?),
+        Arc::new(pulsator::PulsatorMethod::load(file("pulsator.toml"))?),
+        Arc::new(transient::TransientMethod::load(file("transient.toml"))?),
+    ]))
 }

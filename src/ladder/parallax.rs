@@ -726,6 +726,14 @@ impl ParallaxMethod {
         })
     }
 
+    /// The method with its configuration from the layers of
+    /// [`ParallaxConfig::load`] (built-in, the user's file, then `extra`).
+    pub fn load(extra: Option<&Path>) -> Result<Self> {
+        Ok(ParallaxMethod {
+            cfg: ParallaxConfig::load(extra)?,
+        })
+    }
+
     /// The method with a checked configuration.
     pub fn new(cfg: ParallaxConfig) -> Result<Self> {
         Ok(ParallaxMethod {
@@ -1617,6 +1625,14 @@ impl ParallaxMethod {
 impl Method for ParallaxMethod {
     fn kind(&self) -> Kind {
         Kind::Parallax
+    }
+
+    fn config_json(&self) -> serde_json::Value {
+        serde_json::to_value(&self.cfg).unwrap_or_default()
+    }
+
+    fn as_any(&self) -> &dyn std::any::Any {
+        self
     }
 
     fn propose(&self, s: &Setting, em: &dyn ExposureModel) -> Result<Vec<Epoch>> {

@@ -124,8 +124,9 @@ impl PulsatorConfig {
     /// The built-in configuration with the user's `pulsator.toml` (user config
     /// folder, `$RUNG_CONFIG_DIR` overrides it) merged over it key by key: a
     /// user file may set only `[defaults] bins = 12`, or add a `[band.B]` table.
-    pub fn load() -> Result<Self> {
-        config::merged(&config::PULSATOR.layers(None)?, Self::validated)
+    /// `extra`, a file named on the command line, is merged last.
+    pub fn load(extra: Option<&Path>) -> Result<Self> {
+        config::merged(&config::PULSATOR.layers(extra)?, Self::validated)
     }
 
     /// The built-in configuration with `text` (the content of `file`) merged over it.
@@ -987,6 +988,12 @@ fn epoch_at(
 }
 
 impl PulsatorMethod {
+    /// The method with its configuration from the layers of
+    /// [`PulsatorConfig::load`] (built-in, the user's file, then `extra`).
+    pub fn load(extra: Option<&Path>) -> Result<Self> {
+        Ok(Self::with_config(PulsatorConfig::load(extra)?))
+    }
+
     /// The method with a given configuration and its defaults.
     pub fn with_config(config: PulsatorConfig) -> Self {
         PulsatorMethod {
@@ -1402,6 +1409,20 @@ impl PulsatorMethod {
 impl Method for PulsatorMethod {
     fn kind(&self) -> Kind {
         Kind::Pulsator
+    }
+
+    fn config_json(&self) -> serde_json::Value {
+        serde_json::json!({
+            "config": self.config,
+            "bins": self.bins,
+            "harmonics": self.harmonics,
+            "snr": self.snr,
+            "max_nights": self.max_nights,
+        })
+    }
+
+    fn as_any(&self) -> &dyn std::any::Any {
+        self
     }
 
     /// One visit per phase bin (`bins`, default 10) on the fewest nights of

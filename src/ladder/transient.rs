@@ -831,6 +831,15 @@ impl TransientMethod {
         })
     }
 
+    /// The method with its configuration from the layers of
+    /// [`TransientConfig::load`] (built-in, the user's file, then `extra`).
+    pub fn load(extra: Option<&Path>) -> Result<Self> {
+        Ok(Self::with(
+            TransientConfig::load(extra)?,
+            ChaseOptions::default(),
+        ))
+    }
+
     /// The method with a given configuration and options.
     pub fn with(cfg: TransientConfig, options: ChaseOptions) -> Self {
         TransientMethod { cfg, options }
@@ -1483,6 +1492,21 @@ impl Chase {
 impl Method for TransientMethod {
     fn kind(&self) -> Kind {
         Kind::Transient
+    }
+
+    fn default_goal_pct(&self) -> Option<f64> {
+        Some(self.cfg.planning.default_goal_pct)
+    }
+
+    fn config_json(&self) -> serde_json::Value {
+        serde_json::json!({
+            "config": self.cfg,
+            "options": format!("{:?}", self.options),
+        })
+    }
+
+    fn as_any(&self) -> &dyn std::any::Any {
+        self
     }
 
     /// The epochs of the sparsest cadence that reaches the target's goal (or

@@ -6,11 +6,10 @@
 //! practice, not a standard): A runs from 1 February to 31 July, B from
 //! 1 August to 31 January; January belongs to the B semester of the year before.
 
-use crate::astro::night::Limits;
-use crate::astro::site::Site;
-use crate::error::{Result, RungError};
+use crate::error::Result;
 use crate::io::targets::{Kind, Target};
-use crate::ladder::{ExposureModel, Method, Setting, Verdict};
+use crate::ladder::{Prediction, Verdict};
+use crate::programme::Settings;
 use chrono::{Datelike, NaiveDate};
 use serde::Serialize;
 use std::collections::BTreeMap;
@@ -76,60 +75,61 @@ pub fn verdict_label(v: &Verdict) -> &'static str {
     }
 }
 
-/// Check a distance-precision goal in percent.
-pub fn check_goal(goal_pct: f64) -> Result<f64> {
-    if !goal_pct.is_finite() || goal_pct <= 0.0 || goal_pct > 100.0 {
-        return Err(RungError::invalid(
-            "goal",
-            format!("{goal_pct} % is not a distance precision in (0, 100] %"),
-        ));
-    }
-    Ok(goal_pct)
+pub use crate::programme::check_goal;
+
+/// What a target's goal takes with the programme's settings: its method's
+/// `goal` with the programme's setting and photometry, the goal from
+/// [`Settings::goal_for`] (its own, else the programme's, else its method's
+/// default). `None` when the target has no method or no goal; an error is
+/// kept as its message.
+pub fn target_prediction(
+    settings: &Settings,
+    t: &Target,
+) -> Option<std::result::Result<Prediction, String>> {
+    let m = settings.method(t.kind)?;
+    let g = settings.goal_for(t)?;
+    Some(
+        m.goal(&settings.setting(t), &settings.photometer, g)
+            .map_err(|e| e.to_string()),
+    )
 }
 
-/// Budget every target that has a method. `goal_pct` applies to targets
-/// without their own `goal_pct`; a target with neither is skipped with a reason.
-#[allow(clippy::too_many_arguments)]
-pub fn budget(
-    site: &Site,
-    targets: &[Target],
-    methods: &[&dyn Method],
-    em: &dyn ExposureModel,
-    from: NaiveDate,
-    to: NaiveDate,
-    limits: Limits,
-    goal_pct: Option<f64>,
-) -> Result<Budget> {
-    if let Some(g) = goal_pct {
-        check_goal(g)?;
-    }
-    crate::plan::schedule::dates(from, to)?;
-    let work: Vec<(usize, Result<crate::ladder::Prediction>)> = {
+/// Budget every target that has a method, with the programme's settings (its
+/// site, range, limits, instrument and methods; [`target_prediction`] for
+/// each target, on all cores); a target without a method or a goal is
+/// skipped with a reason.
+pub fn budget(settings: &Settings, targets: &[Target]) -> Result<Budget> {
+    crate::plan::schedule::dates(settings.from, settings.to)?;
+    let work: Vec<_> = {
         use rayon::prelude::*;
         targets
             .par_iter()
-            .enumerate()
-            .filter_map(|(i, t)| {
-                let m = methods.iter().find(|m| m.kind() == t.kind)?;
-                let g = t.goal_pct.or(goal_pct)?;
-                let s = Setting {
-                    site,
-                    target: t,
-                    from,
-                    to,
-                    limits,
-                };
-                Some((i, m.goal(&s, em, g)))
-            })
+            .map(|t| target_prediction(settings, t))
             .collect()
     };
+    Ok(assemble(settings, targets, work))
+}
+
+/// The budget from each target's [`target_prediction`] (one per target, in
+/// order): rows, targets skipped, totals by month and semester.
+pub fn assemble(
+    settings: &Settings,
+    targets: &[Target],
+    work: Vec<Option<std::result::Result<Prediction, String>>>,
+) -> Budget {
+    let site = &settings.site;
+    let work: Vec<(usize, std::result::Result<Prediction, String>)> = work
+        .into_iter()
+        .enumerate()
+        .filter_map(|(i, w)| w.map(|w| (i, w)))
+        .collect();
     let mut rows = Vec::new();
     let mut skipped = Vec::new();
     let mut done = vec![false; targets.len()];
     for (i, r) in work {
         done[i] = true;
         let t = &targets[i];
-        let goal = t.goal_pct.or(goal_pct).unwrap_or(f64::NAN);
+        let goal = settings.goal_for(t).unwrap_or(f64::NAN);
         match r {
             Ok(p) => {
                 let total_visit_s: f64 = p.epochs.iter().map(|e| e.visit_s).sum();
@@ -162,15 +162,15 @@ pub fn budget(
                     notes: p.notes.clone(),
                 });
             }
-            Err(e) => skipped.push((t.name.clone(), e.to_string())),
+            Err(e) => skipped.push((t.name.clone(), e)),
         }
     }
     for (i, t) in targets.iter().enumerate() {
         if !done[i] {
-            let why = if !methods.iter().any(|m| m.kind() == t.kind) {
+            let why = if settings.method(t.kind).is_none() {
                 format!("no distance method for kind '{}'", t.kind.as_str())
             } else {
-                "no goal: give the target a goal_pct or pass --goal".to_string()
+                "no goal: give the target a goal_pct or pass --goal-pct".to_string()
             };
             skipped.push((t.name.clone(), why));
         }
@@ -186,13 +186,13 @@ pub fn budget(
         }
     }
     let total_hours = rows.iter().map(|r| r.hours).sum::<f64>() + 0.0;
-    Ok(Budget {
+    Budget {
         rows,
         skipped,
         hours_by_month,
         hours_by_semester,
         total_hours,
-    })
+    }
 }
 
 /// The verdict in words, for tables.

@@ -6,6 +6,7 @@ use crate::astro::night::Limits;
 use crate::error::{Location, Result, RungError};
 use crate::io::targets::Target;
 use crate::plan::schedule::{Status, Visit, fingerprint};
+use crate::programme::Settings;
 use chrono::NaiveDate;
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeSet;
@@ -36,6 +37,9 @@ pub struct PlanFile {
     pub min_alt_deg: f64,
     /// Sun limit, degrees.
     pub sun_alt_deg: f64,
+    /// The instrument the exposures are for (absent in plans written before it was kept).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub instrument: Option<String>,
     /// Nights lost to weather or faults.
     #[serde(default)]
     pub lost_nights: BTreeSet<NaiveDate>,
@@ -44,6 +48,39 @@ pub struct PlanFile {
 }
 
 impl PlanFile {
+    /// A new plan of `targets` (read from `targets_file`) with the
+    /// programme's settings: its site, range, limits and instrument.
+    pub fn new(
+        settings: &Settings,
+        targets: &[Target],
+        targets_file: String,
+        hours_per_night: f64,
+        visits: Vec<Visit>,
+    ) -> Self {
+        PlanFile {
+            format: FORMAT.into(),
+            site: settings.site_spec.clone(),
+            targets_file,
+            targets_fingerprint: fingerprint(targets),
+            from: settings.from,
+            to: settings.to,
+            hours_per_night,
+            min_alt_deg: settings.limits.min_alt_deg,
+            sun_alt_deg: settings.limits.sun_alt_deg,
+            instrument: Some(settings.instrument().name.clone()),
+            lost_nights: BTreeSet::new(),
+            visits,
+        }
+    }
+
+    /// The line a night sheet of this plan starts with.
+    pub fn sheet_header(&self) -> String {
+        format!(
+            "Plan {} to {}, {:.1} h per night, window above {:.0}° with the Sun below {:.0}°.",
+            self.from, self.to, self.hours_per_night, self.min_alt_deg, self.sun_alt_deg
+        )
+    }
+
     /// The window limits of the plan.
     pub fn limits(&self) -> Result<Limits> {
         Limits::new(self.min_alt_deg, self.sun_alt_deg)

@@ -7,7 +7,9 @@
 //!    and its dark time (Sun below the limit); a night marked lost gets none.
 //!    Visits marked done in an earlier plan are kept as they are and occupy
 //!    their time first.
-//! 2. Each target's method proposes epochs (`Method::propose`). A done visit
+//! 2. Each target's method gives the epochs its distance goal takes
+//!    (`Method::goal`, the goal from `ladder::goal_for`: the budget's epochs),
+//!    or, for a target without a goal, its own proposal (`Method::propose`). A done visit
 //!    of the target absorbs the proposed epoch nearest to it.
 //! 3. Requests are taken in order of target priority (high first), then
 //!    preferred time, then target name.
@@ -29,7 +31,8 @@ use crate::astro::sun_caution_at;
 use crate::astro::time::Instant;
 use crate::error::{Result, RungError};
 use crate::io::targets::{Kind, Target};
-use crate::ladder::{Epoch, ExposureModel, Method, Prediction, Setting};
+use crate::ladder::{Epoch, ExposureModel, MethodSet, Prediction, Setting, goal_for};
+use crate::programme::Settings;
 use chrono::NaiveDate;
 use serde::{Deserialize, Serialize};
 use std::collections::{BTreeMap, BTreeSet, HashMap};
@@ -120,13 +123,36 @@ pub struct Request<'a> {
     /// Telescope hours available per night.
     pub hours_per_night: f64,
     /// The distance methods, chosen by target kind.
-    pub methods: &'a [&'a dyn Method],
+    pub methods: &'a MethodSet,
     /// The photometry.
     pub em: &'a dyn ExposureModel,
+    /// The programme's distance goal for targets without their own (percent).
+    pub goal_pct: Option<f64>,
     /// Visits already done (kept as they are).
     pub done: Vec<Visit>,
     /// Nights on which nothing can be placed.
     pub lost_nights: BTreeSet<NaiveDate>,
+}
+
+impl<'a> Request<'a> {
+    /// A request for a programme: its settings' site, range, limits,
+    /// methods, photometry and goal, with `hours_per_night` at the telescope
+    /// and nothing done yet.
+    pub fn programme(settings: &'a Settings, targets: &'a [Target], hours_per_night: f64) -> Self {
+        Request {
+            site: &settings.site,
+            targets,
+            from: settings.from,
+            to: settings.to,
+            limits: settings.limits,
+            hours_per_night,
+            methods: &settings.methods,
+            em: &settings.photometer,
+            goal_pct: settings.goal_pct,
+            done: vec![],
+            lost_nights: BTreeSet::new(),
+        }
+    }
 }
 
 /// A proposed epoch that found no place.
@@ -310,7 +336,7 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
         req.targets
             .par_iter()
             .map(|t| {
-                let m = req.methods.iter().find(|m| m.kind() == t.kind)?;
+                let m = req.methods.for_kind(t.kind)?;
                 let setting = Setting {
                     site: req.site,
                     target: t,
@@ -318,7 +344,12 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                     to: req.to,
                     limits: req.limits,
                 };
-                Some(m.propose(&setting, req.em))
+                // A target with a goal asks for the epochs its goal takes (the
+                // budget's); one without, for its method's own proposal.
+                Some(match goal_for(t, req.goal_pct, m) {
+                    Some(g) => m.goal(&setting, req.em, g).map(|p| p.epochs),
+                    None => m.propose(&setting, req.em),
+                })
             })
             .collect()
     };
@@ -482,7 +513,8 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
             .collect();
         work.into_par_iter()
             .filter_map(|(ti, t, mut notes)| {
-                let m = req.methods.iter().find(|m| m.kind() == t.kind)?;
+                let m = req.methods.for_kind(t.kind)?;
+                let goal = goal_for(t, req.goal_pct, m);
                 let mine: &[&Visit] = by_target.get(t.name.as_str()).map_or(&[], |v| v);
                 let epochs: Vec<Epoch> = mine.iter().map(|v| v.epoch()).collect();
                 let setting = Setting {
@@ -504,14 +536,14 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                         }
                     }
                 };
-                let meets_goal = match (t.goal_pct, &prediction) {
+                let meets_goal = match (goal, &prediction) {
                     (Some(g), Some(p)) => Some(p.distance_precision_pct <= g),
                     _ => None,
                 };
                 Some(Outcome {
                     target: t.name.clone(),
                     kind: t.kind,
-                    goal_pct: t.goal_pct,
+                    goal_pct: goal,
                     planned: mine.iter().filter(|v| v.status == Status::Planned).count(),
                     done: mine.iter().filter(|v| v.status == Status::Done).count(),
                     requested: requested.get(&ti).copied().unwrap_or(0),

@@ -6,10 +6,6 @@ use crate::astro::night::Night;
 use crate::error::Result;
 use crate::io::atomic::write_atomic;
 use crate::io::targets::Target;
-use crate::ladder::parallax::ParallaxMethod;
-use crate::ladder::pulsator::{PulsatorConfig, PulsatorMethod};
-use crate::ladder::transient::{ChaseOptions, TransientConfig, TransientMethod, night_of};
-use crate::photometry::Photometer;
 use crate::plan::season::{
     Constraints, NightSky, PreparedPlace, ScanSetup, TargetNightRow, scan_night,
 };
@@ -17,8 +13,7 @@ use crate::tui::msg::{
     Effect, Msg, NightJob, PlanJob, RecoveryOp, SeasonJob, SeasonRows, SeasonSky,
 };
 use crate::tui::state::{
-    BUDGET_MONTHS, BudgetKey, MethodBody, MethodKey, MethodResult, NightData, PARALLAX_MONTHS,
-    PHASE_NIGHTS, SeasonKey, TargetRow, View,
+    BudgetKey, MethodBody, MethodKey, MethodResult, NightData, SeasonKey, TargetRow, View,
 };
 use rayon::prelude::*;
 use std::sync::Arc;
@@ -129,227 +124,156 @@ pub fn season_rows(job: &SeasonJob) -> Result<SeasonRows> {
     })
 }
 
-/// The distance-method report for a key: the pulsator's phase analysis over
-/// [`PHASE_NIGHTS`] nights from the date, or the transient's chase from the
-/// date (not before its discovery) to the method's horizon, with exposures from
-/// the chosen instrument's photometer. The same library calls as `rung phase`
-/// and `rung chase`.
+/// The distance-method report for a key: the same library calls, with the
+/// same settings, as `rung parallax`, `rung phase` and `rung chase`
+/// ([`crate::programme::report`]).
 pub fn method_report(k: &MethodKey) -> MethodBody {
-    match method_report_inner(k) {
-        Ok(b) => b,
+    let kind = match k.view {
+        View::Parallax => crate::io::targets::Kind::Parallax,
+        View::Phase => crate::io::targets::Kind::Pulsator,
+        View::Chase => crate::io::targets::Kind::Transient,
+        _ => return MethodBody::NotApplicable("no report for this view".into()),
+    };
+    let t = &k.target;
+    if t.kind != kind {
+        let what = match k.view {
+            View::Parallax => "the Parallax view is for parallax targets",
+            View::Phase => "the Phase view is for pulsators",
+            _ => "the Chase view is for transients",
+        };
+        return MethodBody::NotApplicable(format!(
+            "{} is a {} target: {what} (choose one with ↑/↓)",
+            t.name,
+            t.kind.as_str()
+        ));
+    }
+    match crate::programme::report(&k.settings, t) {
+        Ok(crate::programme::Report::Parallax(p)) => MethodBody::Parallax(p),
+        Ok(crate::programme::Report::Phase(p)) => MethodBody::Phase(p),
+        Ok(crate::programme::Report::Chase(c)) => MethodBody::Chase(c),
+        Ok(crate::programme::Report::Other(_)) => {
+            MethodBody::NotApplicable("this method has no view of its own".into())
+        }
         Err(e) => MethodBody::Failed(e.to_string()),
     }
 }
 
-fn method_report_inner(k: &MethodKey) -> Result<MethodBody> {
-    use crate::io::targets::Kind;
-    use crate::ladder::Setting;
-    let t = &k.target;
-    let em = Photometer::from_name(&k.instrument, &k.site)?;
-    match k.view {
-        View::Parallax => {
-            if t.kind != Kind::Parallax {
-                return Ok(MethodBody::NotApplicable(format!(
-                    "{} is a {} target: the Parallax view is for parallax targets (choose one with ↑/↓)",
-                    t.name,
-                    t.kind.as_str()
-                )));
-            }
-            let m = ParallaxMethod::builtin()?;
-            let to = k
-                .date
-                .checked_add_months(chrono::Months::new(PARALLAX_MONTHS))
-                .and_then(|d| d.pred_opt())
-                .ok_or_else(|| {
-                    crate::error::RungError::invalid("date", "too late for a parallax range")
-                })?;
-            let s = Setting {
-                site: &k.site,
-                target: t,
-                from: k.date,
-                to,
-                limits: k.limits,
-            };
-            Ok(MethodBody::Parallax(Box::new(m.plan(&s, &em)?)))
-        }
-        View::Phase => {
-            if t.kind != Kind::Pulsator {
-                return Ok(MethodBody::NotApplicable(format!(
-                    "{} is a {} target: the Phase view is for pulsators (choose one with ↑/↓)",
-                    t.name,
-                    t.kind.as_str()
-                )));
-            }
-            let m = PulsatorMethod::with_config(PulsatorConfig::load()?);
-            let s = Setting {
-                site: &k.site,
-                target: t,
-                from: k.date,
-                to: k.date + chrono::Days::new(PHASE_NIGHTS - 1),
-                limits: k.limits,
-            };
-            Ok(MethodBody::Phase(Box::new(m.analyse(&s, Some(&em))?)))
-        }
-        View::Chase => {
-            if t.kind != Kind::Transient {
-                return Ok(MethodBody::NotApplicable(format!(
-                    "{} is a {} target: the Chase view is for transients (choose one with ↑/↓)",
-                    t.name,
-                    t.kind.as_str()
-                )));
-            }
-            let cfg = TransientConfig::embedded()?;
-            let disc = t.discovered.ok_or_else(|| {
-                crate::error::RungError::invalid("target", "a transient needs its discovery time")
-            })?;
-            let first = night_of(&k.site, disc);
-            let to = first + chrono::Days::new(cfg.planning.horizon_days as u64);
-            let noon = crate::astro::night::local_noon(&k.site, k.date)?;
-            let now = if noon.seconds_since(&disc) > 0.0 {
-                noon
-            } else {
-                disc
-            };
-            let from = night_of(&k.site, now).max(first);
-            if from > to {
-                return Ok(MethodBody::NotApplicable(format!(
-                    "{} is past its {}-day follow-up horizon on {} (discovered {})",
-                    t.name,
-                    cfg.planning.horizon_days,
-                    k.date,
-                    disc.iso()
-                )));
-            }
-            let m = TransientMethod::with(
-                cfg,
-                ChaseOptions {
-                    now: Some(now),
-                    ..ChaseOptions::default()
-                },
-            );
-            let s = Setting {
-                site: &k.site,
-                target: t,
-                from,
-                to,
-                limits: k.limits,
-            };
-            Ok(MethodBody::Chase(Box::new(m.chase(&s, &em, t.goal_pct)?)))
-        }
-        _ => Ok(MethodBody::NotApplicable("no report for this view".into())),
-    }
-}
-
-/// The programme's budget over [`BUDGET_MONTHS`] months from the date: each
-/// target's goal through its method's `goal` (the same `plan::budget::budget`
-/// as `rung budget`), exposures from the chosen instrument.
+/// The programme's budget over its range (`plan::budget` with the key's
+/// settings, as `rung budget`). Each target's prediction is kept, per target
+/// and settings: an edit recomputes only the targets it changed, and going
+/// back to settings already seen costs nothing.
 pub fn budget_for(k: &BudgetKey) -> Result<crate::plan::budget::Budget> {
-    // The last few budgets are kept: reopening the same programme, or going
-    // back to a month already seen, costs nothing.
+    use crate::plan::budget::{assemble, target_prediction};
+    use std::collections::HashMap;
     use std::sync::{Mutex, OnceLock};
-    type Memo = Mutex<Vec<(BudgetKey, crate::plan::budget::Budget)>>;
+    type Row = Option<std::result::Result<crate::ladder::Prediction, String>>;
+    type Rows = HashMap<String, Vec<(Target, Row)>>;
+    type Memo = Mutex<Vec<(Arc<crate::programme::Settings>, Rows)>>;
+    /// Settings whose predictions are kept (the newest).
+    const KEEP: usize = 4;
     static MEMO: OnceLock<Memo> = OnceLock::new();
+    crate::plan::schedule::dates(k.settings.from, k.settings.to)?;
     let memo = MEMO.get_or_init(|| Mutex::new(Vec::new()));
-    if let Ok(m) = memo.lock()
-        && let Some((_, b)) = m.iter().find(|(key, _)| key == k)
-    {
-        return Ok(b.clone());
-    }
-    let b = budget_uncached(k)?;
+    let find = |m: &[(Arc<crate::programme::Settings>, Rows)]| {
+        m.iter()
+            .position(|(s, _)| crate::tui::state::same_settings(s, &k.settings))
+    };
+    let known: Vec<Option<Row>> = match memo.lock() {
+        Ok(m) => match find(&m) {
+            Some(i) => k
+                .targets
+                .iter()
+                .map(|t| {
+                    m[i].1
+                        .get(&t.name)
+                        .and_then(|v| v.iter().find(|(mt, _)| mt == t))
+                        .map(|x| x.1.clone())
+                })
+                .collect(),
+            None => vec![None; k.targets.len()],
+        },
+        Err(_) => vec![None; k.targets.len()],
+    };
+    let work: Vec<Row> = k
+        .targets
+        .par_iter()
+        .zip(known)
+        .map(|(t, r)| r.unwrap_or_else(|| target_prediction(&k.settings, t)))
+        .collect();
     if let Ok(mut m) = memo.lock() {
-        if m.len() >= 8 {
-            m.remove(0);
+        let i = match find(&m) {
+            Some(i) => i,
+            None => {
+                if m.len() >= KEEP {
+                    m.remove(0);
+                }
+                m.push((k.settings.clone(), HashMap::new()));
+                m.len() - 1
+            }
+        };
+        let rows = &mut m[i].1;
+        for (t, r) in k.targets.iter().zip(&work) {
+            let v = rows.entry(t.name.clone()).or_default();
+            if !v.iter().any(|(mt, _)| mt == t) {
+                v.push((t.clone(), r.clone()));
+            }
         }
-        m.push((k.clone(), b.clone()));
     }
-    Ok(b)
-}
-
-fn budget_uncached(k: &BudgetKey) -> Result<crate::plan::budget::Budget> {
-    let em = Photometer::from_name(&k.instrument, &k.site)?;
-    let plx = ParallaxMethod::builtin()?;
-    let pul = PulsatorMethod::with_config(PulsatorConfig::load()?);
-    let tra = TransientMethod::new()?;
-    let methods: [&dyn crate::ladder::Method; 3] = [&plx, &pul, &tra];
-    let to = k
-        .date
-        .checked_add_months(chrono::Months::new(BUDGET_MONTHS))
-        .and_then(|d| d.pred_opt())
-        .ok_or_else(|| crate::error::RungError::invalid("date", "too late for a budget range"))?;
-    crate::plan::budget::budget(
-        &k.site, &k.targets, &methods, &em, k.date, to, k.limits, None,
-    )
+    Ok(assemble(&k.settings, &k.targets, work))
 }
 
 /// The files of a plan export, named after the site and span.
 pub fn plan_paths(job: &PlanJob) -> [std::path::PathBuf; 4] {
-    let stem = format!("plan-{}-{}-to-{}", job.site.name, job.from, job.to);
+    let st = &job.settings;
+    let stem = format!("plan-{}-{}-to-{}", st.site.name, st.from, st.to);
     [
         job.dir.join(format!("{stem}.json")),
         job.dir.join(format!("{stem}.csv")),
         job.dir.join(format!("{stem}.ics")),
         job.dir
-            .join(format!("night-{}-{}.md", job.site.name, job.sheet_night)),
+            .join(format!("night-{}-{}.md", st.site.name, job.sheet_night)),
     ]
 }
 
-/// Schedule the job's span (`plan::schedule::schedule` with
-/// `ladder::methods()` and the instrument's photometer, as `rung plan` does)
-/// and write, atomically, the plan file (`plan::file::save`), the visits as CSV
+/// Schedule the programme's range with its settings
+/// (`plan::schedule::Request::programme`, as `rung plan` does) and write,
+/// atomically, the plan file (`plan::file::save`), the visits as CSV
 /// (`plan::export::visits_csv`), as iCalendar (`plan::export::ics`) and the
 /// night sheet of `sheet_night` (`plan::export::night_sheet`). Returns the
 /// files written.
 pub fn export_plan(job: &PlanJob) -> Result<Vec<std::path::PathBuf>> {
     use crate::plan::export;
-    use crate::plan::file::{self, FORMAT, PlanFile};
-    use crate::plan::schedule::{self, Request, fingerprint};
-    let em = Photometer::from_name(&job.instrument, &job.site)?;
-    let owned = crate::ladder::methods()?;
-    let ms: Vec<&dyn crate::ladder::Method> = owned.iter().map(|m| m.as_ref()).collect();
-    let req = Request {
-        site: &job.site,
-        targets: &job.targets,
-        from: job.from,
-        to: job.to,
-        limits: job.limits,
-        hours_per_night: job.hours_per_night,
-        methods: &ms,
-        em: &em,
-        done: vec![],
-        lost_nights: Default::default(),
-    };
-    let sch = schedule::schedule(&req)?;
-    let plan = PlanFile {
-        format: FORMAT.into(),
-        site: job.site_spec.clone(),
-        targets_file: job.targets_file.clone(),
-        targets_fingerprint: fingerprint(&job.targets),
-        from: job.from,
-        to: job.to,
-        hours_per_night: job.hours_per_night,
-        min_alt_deg: job.limits.min_alt_deg,
-        sun_alt_deg: job.limits.sun_alt_deg,
-        lost_nights: Default::default(),
-        visits: sch.visits,
-    };
+    use crate::plan::file::{self, PlanFile};
+    use crate::plan::schedule::{self, Request};
+    let st = &job.settings;
+    let sch = schedule::schedule(&Request::programme(st, &job.targets, job.hours_per_night))?;
+    let plan = PlanFile::new(
+        st,
+        &job.targets,
+        job.targets_file.clone(),
+        job.hours_per_night,
+        sch.visits,
+    );
     let [json, csv, ics, sheet] = plan_paths(job);
     std::fs::create_dir_all(&job.dir).map_err(|e| crate::error::RungError::Io {
         path: job.dir.clone(),
         source: e,
     })?;
     file::save(&plan, &json)?;
-    write_atomic(&csv, export::visits_csv(&plan.visits, &job.site).as_bytes())?;
+    write_atomic(&csv, export::visits_csv(&plan.visits, &st.site).as_bytes())?;
     write_atomic(
         &ics,
-        export::ics(&plan.visits, &job.site, job.stamp).as_bytes(),
+        export::ics(&plan.visits, &st.site, job.stamp).as_bytes(),
     )?;
-    let header = format!(
-        "Plan {} to {}, {:.1} h per night, window above {:.0}° with the Sun below {:.0}°.",
-        plan.from, plan.to, plan.hours_per_night, plan.min_alt_deg, plan.sun_alt_deg
-    );
     write_atomic(
         &sheet,
-        export::night_sheet(&plan.visits, &job.site, job.sheet_night, &header).as_bytes(),
+        export::night_sheet(
+            &plan.visits,
+            &st.site,
+            job.sheet_night,
+            &plan.sheet_header(),
+        )
+        .as_bytes(),
     )?;
     Ok(vec![json, csv, ics, sheet])
 }

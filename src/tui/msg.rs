@@ -210,24 +210,14 @@ pub struct SeasonJob {
 /// write the plan (JSON, CSV, iCalendar) and one night's sheet into `dir`.
 #[derive(Debug, Clone)]
 pub struct PlanJob {
-    /// Site.
-    pub site: Site,
-    /// The site as a plan file names it (catalogue name or inline coordinates).
-    pub site_spec: String,
+    /// The programme's settings: site, range, limits, instrument, methods.
+    pub settings: std::sync::Arc<crate::programme::Settings>,
     /// The programme.
     pub targets: Vec<Target>,
     /// The programme file, as the plan file records it.
     pub targets_file: String,
-    /// First night.
-    pub from: chrono::NaiveDate,
-    /// Last night, inclusive.
-    pub to: chrono::NaiveDate,
-    /// Window limits.
-    pub limits: Limits,
     /// Telescope hours per night.
     pub hours_per_night: f64,
-    /// Instrument name (its photometer gives the exposures).
-    pub instrument: String,
     /// The night whose sheet is written.
     pub sheet_night: chrono::NaiveDate,
     /// The iCalendar DTSTAMP.

@@ -5,10 +5,10 @@ use crate::astro::night::{Limits, NightEvents, TargetNight};
 use crate::astro::site::Site;
 use crate::astro::time::Instant;
 use crate::io::targets::Target;
+use crate::programme::Settings;
 use crate::tui::form::Form;
 use crate::tui::keymap::Scope;
 use crate::tui::theme::Theme;
-use chrono::Datelike;
 use chrono::NaiveDate;
 use std::collections::{HashMap, HashSet};
 use std::path::PathBuf;
@@ -251,21 +251,28 @@ pub struct SeasonData {
     pub error: Option<String>,
 }
 
-/// What a distance-method report is for: a target (as it is now), site, night, instrument, limits, view.
-#[derive(Debug, Clone, PartialEq)]
+/// Whether two settings are the same: the same `Arc` (the usual case, cheap),
+/// or equal values.
+pub fn same_settings(a: &Arc<Settings>, b: &Arc<Settings>) -> bool {
+    Arc::ptr_eq(a, b) || a == b
+}
+
+/// What a distance-method report is for: a target (as it is now) and the
+/// programme's settings (site, range, limits, instrument, methods).
+#[derive(Debug, Clone)]
 pub struct MethodKey {
-    /// The view (Phase or Chase).
+    /// The view (Parallax, Phase or Chase).
     pub view: View,
     /// The target.
     pub target: crate::io::targets::Target,
-    /// The site.
-    pub site: Site,
-    /// First night.
-    pub date: NaiveDate,
-    /// Instrument name.
-    pub instrument: String,
-    /// Window limits.
-    pub limits: Limits,
+    /// The settings it is computed with.
+    pub settings: Arc<Settings>,
+}
+
+impl PartialEq for MethodKey {
+    fn eq(&self, o: &Self) -> bool {
+        self.view == o.view && self.target == o.target && same_settings(&self.settings, &o.settings)
+    }
 }
 
 /// A distance-method report, computed by the library.
@@ -292,19 +299,19 @@ pub struct MethodResult {
     pub body: MethodBody,
 }
 
-/// What a budget is for: the programme, site, first night, instrument, limits.
-#[derive(Debug, Clone, PartialEq)]
+/// What a budget is for: the programme and its settings.
+#[derive(Debug, Clone)]
 pub struct BudgetKey {
     /// The programme.
     pub targets: Vec<crate::io::targets::Target>,
-    /// The site.
-    pub site: Site,
-    /// First night.
-    pub date: NaiveDate,
-    /// Instrument name.
-    pub instrument: String,
-    /// Window limits.
-    pub limits: Limits,
+    /// The settings it is computed with.
+    pub settings: Arc<Settings>,
+}
+
+impl PartialEq for BudgetKey {
+    fn eq(&self, o: &Self) -> bool {
+        same_settings(&self.settings, &o.settings) && self.targets == o.targets
+    }
 }
 
 /// A target's progress towards its distance goal, as the Roster shows it.
@@ -337,17 +344,9 @@ pub enum Progress {
     },
 }
 
-/// Months a budget covers.
-pub const BUDGET_MONTHS: u32 = 12;
-
 /// Telescope hours per night the plan export schedules at first (at most the
 /// dark time of each night); `h` and `H` change it in steps of an hour.
 pub const PLAN_HOURS_PER_NIGHT: f64 = 8.0;
-
-/// Months the Parallax view covers (as `rung parallax` by default).
-pub const PARALLAX_MONTHS: u32 = 36;
-/// Nights the Phase view covers.
-pub const PHASE_NIGHTS: u64 = 30;
 
 /// The sky at the current instant.
 #[derive(Debug, Clone)]
@@ -421,8 +420,10 @@ pub const UNDO_DEPTH: usize = 200;
 /// The whole UI state.
 #[derive(Debug, Clone)]
 pub struct State {
-    /// Current site.
-    pub site: Site,
+    /// The programme's settings (site, instrument, range, limits, goal,
+    /// methods), resolved once (`crate::programme`); a choice made in the UI
+    /// (site, instrument, minimum altitude) replaces them with new ones.
+    pub settings: Arc<Settings>,
     /// Sites the picker offers.
     pub sites: Vec<Site>,
     /// Local date of the evening shown.
@@ -433,8 +434,6 @@ pub struct State {
     pub now: Instant,
     /// The sky now.
     pub sky: Option<SkyNow>,
-    /// Window limits.
-    pub limits: Limits,
     /// The programme.
     pub targets: Vec<Target>,
     /// The programme as last saved or loaded (unsaved changes = differs from this).
@@ -471,8 +470,6 @@ pub struct State {
     pub season: SeasonData,
     /// Days between season columns.
     pub season_step_days: u32,
-    /// Instrument (for exposures in Phase and Chase).
-    pub instrument: String,
     /// Instruments the picker offers.
     pub instruments: Vec<String>,
     /// Telescope hours per night the plan export schedules.
@@ -568,9 +565,25 @@ impl State {
         self.targets != self.saved
     }
 
-    /// Tonight's row of a target, when computed.
+    /// The site.
+    pub fn site(&self) -> &Site {
+        &self.settings.site
+    }
+
+    /// The night table, when it is computed for the current site, night and
+    /// limits: a table made for other settings is never shown (after a switch
+    /// of site, the old site's windows are hidden until the new ones come).
+    pub fn night_now(&self) -> Option<&NightData> {
+        self.night.as_ref().filter(|n| {
+            n.site == self.settings.site.name
+                && n.date == self.date
+                && n.limits == self.settings.limits
+        })
+    }
+
+    /// Tonight's row of a target, when computed for the current settings.
     pub fn row(&self, name: &str) -> Option<&TargetRow> {
-        self.night.as_ref().and_then(|n| n.rows.get(name))
+        self.night_now().and_then(|n| n.rows.get(name))
     }
 
     /// Rows a list view shows (terminal rows less chrome, title and header).
@@ -578,7 +591,7 @@ impl State {
         self.size.1.saturating_sub(CHROME_ROWS + 3) as usize
     }
 
-    /// The method-report key for the current view and selection (Phase and Chase only).
+    /// The method-report key for the current view and selection (Parallax, Phase and Chase).
     pub fn method_key(&self) -> Option<MethodKey> {
         if !matches!(self.view, View::Parallax | View::Phase | View::Chase) {
             return None;
@@ -586,38 +599,22 @@ impl State {
         Some(MethodKey {
             view: self.view,
             target: self.selected()?.clone(),
-            site: self.site.clone(),
-            date: self.date,
-            instrument: self.instrument.clone(),
-            limits: self.limits,
+            settings: self.settings.clone(),
         })
     }
 
-    /// The budget key for the current programme, site, date, instrument and limits.
+    /// The budget key for the current programme and settings.
     pub fn budget_key(&self) -> BudgetKey {
         BudgetKey {
             targets: self.targets.clone(),
-            site: self.site.clone(),
-            date: self.budget_date(),
-            instrument: self.instrument.clone(),
-            limits: self.limits,
+            settings: self.settings.clone(),
         }
     }
 
-    /// The first night a budget made now starts on: the first of the month
-    /// shown, so that stepping nights inside a month does not ask for a new one.
-    pub fn budget_date(&self) -> NaiveDate {
-        self.date.with_day(1).unwrap_or(self.date)
-    }
-
-    /// Whether a budget key is for the current site, first night, instrument
-    /// and limits (its programme aside). Compares in place: a redraw must not
-    /// copy the programme.
+    /// Whether a budget key is for the current settings (its programme aside).
+    /// Compares in place: a redraw must not copy the programme.
     fn budget_setting_is_current(&self, k: &BudgetKey) -> bool {
-        k.site == self.site
-            && k.date == self.budget_date()
-            && k.instrument == self.instrument
-            && k.limits == self.limits
+        same_settings(&k.settings, &self.settings)
     }
 
     /// The budget for the current key, when computed.
@@ -677,11 +674,11 @@ impl State {
     /// The season key for the current site, date, limits and step.
     pub fn season_key(&self) -> SeasonKey {
         SeasonKey {
-            site: self.site.name.clone(),
+            site: self.settings.site.name.clone(),
             from: self.date,
             step_days: self.season_step_days,
             nights: SEASON_NIGHTS,
-            limits: self.limits,
+            limits: self.settings.limits,
         }
     }
 

@@ -6,6 +6,7 @@ use crate::astro::site::Site;
 use crate::astro::time::Instant;
 use crate::astro::{pointing, sun_caution};
 use crate::io::targets::Target;
+use crate::programme::Settings;
 use crate::tui::form::Form;
 use crate::tui::keymap::{self, Scope};
 use crate::tui::msg::{Action, Effect, Msg, NightJob, PlanJob, RecoveryOp, SeasonJob};
@@ -16,12 +17,13 @@ use crate::tui::state::{
 use crate::tui::theme::Theme;
 use chrono::{Months, NaiveDate};
 use crossterm::event::{KeyCode, KeyEventKind, KeyModifiers};
+use std::sync::Arc;
 
 /// Everything needed to open the UI.
 #[derive(Debug, Clone)]
 pub struct Setup {
-    /// The site.
-    pub site: Site,
+    /// The programme's settings, resolved once (`crate::programme::Settings::resolve`).
+    pub settings: Settings,
     /// Sites the picker offers.
     pub sites: Vec<Site>,
     /// The night shown first, or `None` for the current night (live).
@@ -38,18 +40,18 @@ pub struct Setup {
     pub theme: Theme,
     /// A first message (e.g. rows refused when loading).
     pub message: Option<String>,
-    /// Instrument name (Phase and Chase exposures).
-    pub instrument: String,
     /// Instruments the picker offers.
     pub instruments: Vec<String>,
     /// Unsaved edits an earlier session left beside the programme file, offered back at once.
     pub recovered: Option<Recovered>,
 }
 
-/// The local date whose evening starts the night containing `now` at `site`
-/// (nights run from local noon to local noon).
+/// The night an observer means at `site` when the clock says `now`
+/// ([`crate::programme::tonight`]: after local noon the coming night, in the
+/// dark after midnight the night in progress, after sunrise the coming night).
 pub fn night_date(site: &Site, now: Instant) -> NaiveDate {
-    crate::astro::night::night_of(site, now)
+    crate::programme::tonight(site, now)
+        .unwrap_or_else(|_| (now.local(&site.timezone) - chrono::Duration::hours(12)).date_naive())
 }
 
 /// The first state and the effects it needs (the night table).
@@ -57,15 +59,14 @@ pub fn init(setup: Setup) -> (State, Option<Effect>) {
     let live = setup.date.is_none();
     let date = setup
         .date
-        .unwrap_or_else(|| night_date(&setup.site, setup.now));
+        .unwrap_or_else(|| night_date(&setup.settings.site, setup.now));
     let mut s = State {
-        site: setup.site,
+        settings: Arc::new(setup.settings),
         sites: setup.sites,
         date,
         live,
         now: setup.now,
         sky: None,
-        limits: Limits::new(30.0, -12.0).unwrap_or_default(),
         saved: setup.targets.clone(),
         targets: setup.targets,
         undo: Vec::new(),
@@ -84,7 +85,6 @@ pub fn init(setup: Setup) -> (State, Option<Effect>) {
         night_error: None,
         season: SeasonData::default(),
         season_step_days: 7,
-        instrument: setup.instrument,
         instruments: setup.instruments,
         plan_hours_per_night: PLAN_HOURS_PER_NIGHT,
         detail_scroll: 0,
@@ -110,9 +110,24 @@ pub fn init(setup: Setup) -> (State, Option<Effect>) {
         s.overlay = Some(Overlay::Question(Question::Restore(Box::new(r))));
     }
     s.reorder();
+    follow_clock(&mut s);
     refresh_sky(&mut s);
     let e = recompute(&mut s);
     (s, e)
+}
+
+/// When the clock has moved on to a later night, the programme's range starts
+/// there (method views and exports never plan on a night that is over).
+/// Whether the settings changed.
+fn follow_clock(s: &mut State) -> bool {
+    let tonight = night_date(s.site(), s.now);
+    match s.settings.on_night(tonight) {
+        Some(new) => {
+            s.settings = Arc::new(new);
+            true
+        }
+        None => false,
+    }
 }
 
 /// Keep the unsaved edits in the recovery file, or remove it once nothing is unsaved.
@@ -128,13 +143,13 @@ fn keep_edits(s: &State) -> Effect {
 }
 
 fn refresh_sky(s: &mut State) {
-    let Ok(ctx) = Context::exact(&s.site, s.now) else {
+    let Ok(ctx) = Context::exact(s.site(), s.now) else {
         s.sky = None;
         return;
     };
     let caution = s
         .selected()
-        .and_then(|t| sun_caution(&s.site, &pointing(&s.site, &ctx, &t.place())));
+        .and_then(|t| sun_caution(s.site(), &pointing(s.site(), &ctx, &t.place())));
     s.sky = Some(SkyNow {
         sun_alt_deg: ctx.sun().alt_geom_rad.to_degrees(),
         moon_alt_deg: ctx.moon().alt_geom_rad.to_degrees(),
@@ -147,7 +162,7 @@ fn refresh_sky(s: &mut State) {
 
 fn refresh_caution(s: &mut State) {
     let caution = match (&s.sky, s.selected()) {
-        (Some(sky), Some(t)) => sun_caution(&s.site, &pointing(&s.site, &sky.ctx, &t.place())),
+        (Some(sky), Some(t)) => sun_caution(s.site(), &pointing(s.site(), &sky.ctx, &t.place())),
         _ => None,
     };
     if let Some(sky) = s.sky.as_mut() {
@@ -159,9 +174,9 @@ fn refresh_caution(s: &mut State) {
 fn recompute(s: &mut State) -> Option<Effect> {
     s.night_gen += 1;
     let night = Effect::Night(Box::new(NightJob {
-        site: s.site.clone(),
+        site: s.site().clone(),
         date: s.date,
-        limits: s.limits,
+        limits: s.settings.limits,
         targets: s.targets.clone(),
         generation: s.night_gen,
     }));
@@ -199,7 +214,12 @@ fn export(s: &mut State) -> Option<Effect> {
         return None;
     };
     let dir = export_dir(s);
-    let stem = format!("budget-{}-{}", s.site.name, s.date);
+    let stem = format!(
+        "budget-{}-{}-to-{}",
+        s.site().name,
+        s.settings.from,
+        s.settings.to
+    );
     let files = vec![
         (dir.join(format!("{stem}.csv")), crate::plan::budget::csv(b)),
         (
@@ -219,13 +239,14 @@ fn export_dir(s: &State) -> std::path::PathBuf {
         .unwrap_or_default()
 }
 
-/// Schedule the Season view's span and export the plan and tonight's sheet (in the background).
+/// Schedule the programme's range (from the coming night on) and export the
+/// plan and the shown night's sheet (in the background).
 fn export_plan(s: &mut State) -> Option<Effect> {
     if s.targets.is_empty() {
         say(s, "nothing to plan: the programme is empty", Level::Warn);
         return None;
     }
-    let (from, to) = s.season_span();
+    let (from, to) = (s.settings.from, s.settings.to);
     let targets_file = s
         .programme
         .source
@@ -234,16 +255,11 @@ fn export_plan(s: &mut State) -> Option<Effect> {
         .display()
         .to_string();
     let job = PlanJob {
-        site: s.site.clone(),
-        site_spec: s.site.name.clone(),
+        settings: s.settings.clone(),
         targets: s.targets.clone(),
         targets_file,
-        from,
-        to,
-        limits: s.limits,
         hours_per_night: s.plan_hours_per_night,
-        instrument: s.instrument.clone(),
-        sheet_night: s.date,
+        sheet_night: s.date.max(from),
         stamp: s.now,
         dir: export_dir(s),
     };
@@ -302,7 +318,7 @@ fn season_rows_effect(s: &mut State) -> Option<Effect> {
     }
     Some(Effect::Season(Box::new(SeasonJob {
         key,
-        site: s.site.clone(),
+        site: s.site().clone(),
         nights: s.season.nights.clone(),
         targets: want,
     })))
@@ -433,9 +449,14 @@ fn act(s: &mut State, a: Action) -> Option<Effect> {
                     let i = *sel;
                     s.overlay = None;
                     if let Some(name) = s.instruments.get(i).cloned() {
-                        say(s, format!("instrument: {name}"), Level::Info);
-                        s.instrument = name;
-                        return season_effect(s);
+                        match s.settings.with_instrument(&name) {
+                            Ok(new) => {
+                                say(s, format!("instrument: {name}"), Level::Info);
+                                s.settings = Arc::new(new);
+                                return season_effect(s);
+                            }
+                            Err(e) => say(s, format!("instrument not changed: {e}"), Level::Warn),
+                        }
                     }
                 }
                 Action::Cancel => s.overlay = None,
@@ -456,10 +477,11 @@ fn act(s: &mut State, a: Action) -> Option<Effect> {
                     s.overlay = None;
                     if let Some(site) = s.sites.get(i).cloned() {
                         say(s, format!("site: {}", site.name), Level::Info);
-                        s.site = site;
+                        s.settings = Arc::new(s.settings.with_site(site));
                         if s.live {
-                            s.date = night_date(&s.site, s.now);
+                            s.date = night_date(s.site(), s.now);
                         }
+                        follow_clock(s);
                         refresh_sky(s);
                         return recompute(s);
                     }
@@ -656,7 +678,7 @@ fn act_main_inner(s: &mut State, a: Action) -> Option<Effect> {
             let sel = s
                 .instruments
                 .iter()
-                .position(|x| *x == s.instrument)
+                .position(|x| *x == s.settings.instrument().name)
                 .unwrap_or(0);
             s.overlay = Some(Overlay::Instruments { sel });
             None
@@ -674,14 +696,14 @@ fn act_main_inner(s: &mut State, a: Action) -> Option<Effect> {
         Action::MonthBack => step_months(s, -1),
         Action::MonthFwd => step_months(s, 1),
         Action::Today => {
-            let d = night_date(&s.site, s.now);
+            let d = night_date(s.site(), s.now);
             set_date(s, Some(d))
         }
         Action::Live => {
             s.live = !s.live;
             if s.live {
                 say(s, "live: following the clock", Level::Info);
-                let d = night_date(&s.site, s.now);
+                let d = night_date(s.site(), s.now);
                 if d != s.date {
                     return set_date(s, Some(d));
                 }
@@ -752,7 +774,7 @@ fn act_main_inner(s: &mut State, a: Action) -> Option<Effect> {
             let sel = s
                 .sites
                 .iter()
-                .position(|x| x.name == s.site.name)
+                .position(|x| x.name == s.site().name)
                 .unwrap_or(0);
             s.overlay = Some(Overlay::Sites { sel });
             None
@@ -803,9 +825,9 @@ fn act_main_inner(s: &mut State, a: Action) -> Option<Effect> {
         }
         Action::MinAltUp | Action::MinAltDown => {
             let d = if a == Action::MinAltUp { 5.0 } else { -5.0 };
-            let v = (s.limits.min_alt_deg + d).clamp(0.0, 85.0);
-            if let Ok(l) = Limits::new(v, s.limits.sun_alt_deg) {
-                s.limits = l;
+            let v = (s.settings.limits.min_alt_deg + d).clamp(0.0, 85.0);
+            if let Ok(l) = Limits::new(v, s.settings.limits.sun_alt_deg) {
+                s.settings = Arc::new(s.settings.with_limits(l));
             }
             say(s, format!("minimum altitude {v:.0}°"), Level::Info);
             recompute(s)
@@ -901,14 +923,15 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
         Msg::Tick(t) => {
             s.now = t;
             refresh_sky(s);
+            let moved = follow_clock(s);
             if s.live {
-                let d = night_date(&s.site, t);
+                let d = night_date(s.site(), t);
                 if d != s.date {
                     s.date = d;
                     return recompute(s);
                 }
             }
-            None
+            if moved { season_effect(s) } else { None }
         }
         Msg::Resize(w, h) => {
             s.size = (w, h);

@@ -5,7 +5,7 @@
 use crate::plan::budget::verdict_text;
 use crate::tui::keymap::{Scope, keys_for};
 use crate::tui::msg::Action;
-use crate::tui::state::{BUDGET_MONTHS, State, scroll_offset};
+use crate::tui::state::{State, scroll_offset};
 use crate::tui::theme::kind_glyph;
 use crate::tui::views::fmt::{fit, put, rfit};
 use ratatui::buffer::Buffer;
@@ -25,9 +25,13 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         );
         return;
     }
+    let st = &s.settings;
     let title = format!(
-        "Budget · {} months from {} · {} · {}",
-        BUDGET_MONTHS, s.date, s.site.name, s.instrument
+        "Budget · {} to {} · {} · {}",
+        st.from,
+        st.to,
+        st.site.name,
+        st.instrument().name
     );
     put(buf, area.x, area.y, &title, area.width, th.title());
     let b = match s.budget_now() {

@@ -41,7 +41,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         area.y,
         &format!(
             "Chase · ✶ {name} · max {} ({} {:.1}) · {cadence}{} · goal {:.0}%",
-            c.t_max.local(&s.site.timezone).format("%Y-%m-%d"),
+            c.t_max.local(&s.site().timezone).format("%Y-%m-%d"),
             c.band,
             c.placement.params.m_max,
             if d.dense_around_max {
@@ -80,7 +80,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     for (k, n) in c.nights.iter().skip(off).take(rows).enumerate() {
         let y = area.y + 2 + k as u16;
         let w = match (n.window_start, n.window_end) {
-            (Some(a), Some(b)) => format!("{}-{}", hm(Some(a), &s.site), hm(Some(b), &s.site)),
+            (Some(a), Some(b)) => format!("{}-{}", hm(Some(a), s.site()), hm(Some(b), s.site())),
             _ => "none".into(),
         };
         let plan = if n.planned {

@@ -48,7 +48,7 @@ pub fn scroll_mark(
 
 /// The status line: site, UTC and local time, Sun altitude, Moon phase and rise/set.
 pub fn status_text(s: &State, width: u16) -> String {
-    let local = s.now.local(&s.site.timezone).format("%H:%M").to_string();
+    let local = s.now.local(&s.site().timezone).format("%H:%M").to_string();
     let sun = s
         .sky
         .as_ref()
@@ -61,14 +61,14 @@ pub fn status_text(s: &State, width: u16) -> String {
             k.moon_alt_deg > 0.0,
         )
     });
-    let ev = s.night.as_ref().map(|n| &n.events);
-    let rise = ev.map(|e| hm(e.moonrise.t, &s.site)).unwrap_or("…".into());
-    let set = ev.map(|e| hm(e.moonset.t, &s.site)).unwrap_or("…".into());
+    let ev = s.night_now().map(|n| &n.events);
+    let rise = ev.map(|e| hm(e.moonrise.t, s.site())).unwrap_or("…".into());
+    let set = ev.map(|e| hm(e.moonset.t, s.site())).unwrap_or("…".into());
     let live = if s.live { "  LIVE" } else { "" };
     let long = match moon {
         Some((pct, wax, up)) => format!(
             "{}  UTC {}  local {}  {}  Moon {:.0}% {} ({}), rise {} set {}{}",
-            s.site.name,
+            s.site().name,
             hm_utc(s.now),
             local,
             sun,
@@ -81,7 +81,7 @@ pub fn status_text(s: &State, width: u16) -> String {
         ),
         None => format!(
             "{}  UTC {}  local {}  {}{}",
-            s.site.name,
+            s.site().name,
             hm_utc(s.now),
             local,
             sun,
@@ -94,7 +94,7 @@ pub fn status_text(s: &State, width: u16) -> String {
     match moon {
         Some((pct, wax, _)) => format!(
             "{}  UTC {}  local {}  {}  Moon {:.0}%{} r{} s{}{}",
-            s.site.name,
+            s.site().name,
             hm_utc(s.now),
             local,
             sun,

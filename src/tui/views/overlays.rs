@@ -159,7 +159,11 @@ pub fn sites(s: &State, sel: usize, area: Rect, buf: &mut Buffer) {
     let off = sel.saturating_sub(rows.saturating_sub(1));
     for (k, site) in s.sites.iter().enumerate().skip(off).take(rows) {
         let y = inner.y + (k - off) as u16;
-        let cur = if site.name == s.site.name { "●" } else { " " };
+        let cur = if site.name == s.site().name {
+            "●"
+        } else {
+            " "
+        };
         let text = format!(
             "{cur} {} {:>9.4}° {:>10.4}° {:>6.0} m  {}",
             fit(&site.name, 20),
@@ -277,7 +281,11 @@ pub fn instruments(s: &State, sel: usize, area: Rect, buf: &mut Buffer) {
     let off = sel.saturating_sub(rows.saturating_sub(1));
     for (k, name) in s.instruments.iter().enumerate().skip(off).take(rows) {
         let y = inner.y + (k - off) as u16;
-        let cur = if *name == s.instrument { "●" } else { " " };
+        let cur = if *name == s.settings.instrument().name {
+            "●"
+        } else {
+            " "
+        };
         let st = if k == sel {
             s.theme.selected()
         } else {

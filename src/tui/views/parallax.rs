@@ -2,7 +2,7 @@
 //! (from `ParallaxMethod::plan`), the observable and candidate nights, the
 //! chosen epochs, and the precision they buy.
 
-use crate::tui::state::{MethodBody, PARALLAX_MONTHS, State};
+use crate::tui::state::{MethodBody, State};
 use crate::tui::views::chart::Braille;
 use crate::tui::views::fmt::put;
 use crate::tui::views::phase::verdict_text;
@@ -39,10 +39,10 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         area.x,
         area.y,
         &format!(
-            "Parallax · ◆ {name} · ϖ {:.1} mas · {} years from {} · ellipse {:.1}×{:.1} mas",
+            "Parallax · ◆ {name} · ϖ {:.1} mas · {} to {} · ellipse {:.1}×{:.1} mas",
             p.parallax_mas,
-            PARALLAX_MONTHS / 12,
-            s.date,
+            s.settings.from,
+            s.settings.to,
             p.ellipse.semi_major_mas,
             p.ellipse.semi_minor_mas
         ),

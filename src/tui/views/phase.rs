@@ -3,7 +3,7 @@
 //! the points buy.
 
 use crate::ladder::Verdict;
-use crate::tui::state::{MethodBody, PHASE_NIGHTS, State, View, detail_offset, detail_rows};
+use crate::tui::state::{MethodBody, State, View, detail_offset, detail_rows};
 use crate::tui::views::fmt::{hm, put};
 use crate::tui::views::scroll_mark;
 use ratatui::buffer::Buffer;
@@ -51,8 +51,11 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         area.x,
         area.y,
         &format!(
-            "Phase · ∿ {name} · P {:.4} d · {PHASE_NIGHTS} nights from {} · {}",
-            e.period_d, s.date, s.instrument
+            "Phase · ∿ {name} · P {:.4} d · {} to {} · {}",
+            e.period_d,
+            r.windows.first().map_or(s.settings.from, |w| w.night),
+            r.windows.last().map_or(s.settings.to, |w| w.night),
+            s.settings.instrument().name
         ),
         area.width,
         th.title(),
@@ -107,8 +110,8 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         let label = format!(
             "{:<10} {}-{}",
             w.night.format("%a %b %d"),
-            hm(Some(w.start), &s.site),
-            hm(Some(w.end), &s.site)
+            hm(Some(w.start), s.site()),
+            hm(Some(w.end), s.site())
         );
         put(buf, area.x, y, &label, 24, th.text());
         let mark = |buf: &mut Buffer, a: f64, b: f64| {

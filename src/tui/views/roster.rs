@@ -17,8 +17,8 @@ pub fn window_text(s: &State, t: &Target) -> String {
                 let more = if r.night.windows.len() > 1 { "+" } else { "" };
                 format!(
                     "{}-{}{more}",
-                    hm(Some(w.0), &s.site),
-                    hm(Some(w.1), &s.site)
+                    hm(Some(w.0), s.site()),
+                    hm(Some(w.1), s.site())
                 )
             }
         },
@@ -125,7 +125,7 @@ fn header_and_cells(s: &State, t: Option<&Target>, wide: bool) -> Vec<(String, u
     ];
     if wide {
         c.push((
-            t.map(|_| dash(hm(r.and_then(|r| r.night.transit.t), &s.site)))
+            t.map(|_| dash(hm(r.and_then(|r| r.night.transit.t), s.site())))
                 .unwrap_or("trans".into()),
             6,
             true,
@@ -207,8 +207,8 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         s.targets.len(),
         s.sort.label(),
         if s.sort_rev { " (reversed)" } else { "" },
-        s.limits.min_alt_deg,
-        s.limits.sun_alt_deg,
+        s.settings.limits.min_alt_deg,
+        s.settings.limits.sun_alt_deg,
         filter
     );
     put(buf, area.x, area.y, &title, area.width, th.title());

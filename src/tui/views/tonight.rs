@@ -61,16 +61,12 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             t.name,
             t.kind.as_str(),
             s.date,
-            s.site.timezone.name()
+            s.site().timezone.name()
         ),
         None => format!("Tonight · no target selected · night of {}", s.date),
     };
     put(buf, area.x, area.y, &title, area.width, th.title());
-    let Some(n) = s
-        .night
-        .as_ref()
-        .filter(|n| n.date == s.date && n.site == s.site.name)
-    else {
+    let Some(n) = s.night_now() else {
         let why = s
             .night_error
             .clone()
@@ -115,7 +111,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         );
     }
     // Minimum altitude line.
-    let lim_y = (y_of(s.limits.min_alt_deg) / 4) as u16;
+    let lim_y = (y_of(s.settings.limits.min_alt_deg) / 4) as u16;
     for c in 0..cw {
         if let Some(cell) = buf.cell_mut((cx + c, cy + lim_y)) {
             cell.set_char('┄');
@@ -126,7 +122,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         buf,
         cx + cw,
         cy + lim_y,
-        &format!("{:.0}°", s.limits.min_alt_deg),
+        &format!("{:.0}°", s.settings.limits.min_alt_deg),
         4,
         th.limit(),
     );
@@ -183,7 +179,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     for h in first_h..=((t1 / 3600.0).floor() as i64) {
         let ts = h as f64 * 3600.0;
         let inst = start_local.add_seconds(ts);
-        let lt = inst.local(&s.site.timezone);
+        let lt = inst.local(&s.site().timezone);
         use chrono::Timelike;
         if lt.minute() != 0 || (lt.hour() as i64) % step_h != 0 {
             continue;
@@ -215,7 +211,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     // Details.
     let dy = axis_y + 2;
     let e = &n.events;
-    let site = &s.site;
+    let site = s.site();
     if let (Some(t), Some(r)) = (t, row) {
         put(
             buf,
