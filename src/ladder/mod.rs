@@ -52,6 +52,47 @@ pub trait ExposureModel: Sync {
     fn readout_s(&self) -> f64;
     /// Typical seeing FWHM, arcseconds.
     fn seeing_fwhm_arcsec(&self) -> f64;
+    /// Exposure of a long-slit spectrum of a point source of magnitude `mag`
+    /// in `band` reaching `snr` per resolution element at
+    /// `wavelength_angstrom` (a transient's classification spectrum). The
+    /// default refuses: an exposure model without a spectrograph.
+    fn spectrum_exptime(
+        &self,
+        mag: f64,
+        band: &str,
+        snr: f64,
+        wavelength_angstrom: f64,
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<SpectrumExposure> {
+        let _ = (mag, band, snr, wavelength_angstrom, ctx, place);
+        Err(crate::error::RungError::invalid(
+            "spectrograph",
+            "this exposure model has no spectrograph",
+        ))
+    }
+}
+
+/// The exposure of a spectrum in a visit (a transient's classification).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SpectrumExposure {
+    /// Spectrograph name.
+    pub spectrograph: String,
+    /// Total exposure, seconds.
+    pub exptime_s: f64,
+    /// Number of sub-exposures.
+    pub n_exposures: u32,
+    /// Signal-to-noise per resolution element.
+    pub snr_per_resolution_element: f64,
+    /// Resolving power λ/Δλ.
+    pub resolution: f64,
+    /// Width of a resolution element at the wavelength asked, Å.
+    pub resolution_element_angstrom: f64,
+    /// Fraction of the light through the slit and the extraction.
+    pub slit_transmission: f64,
+    /// The spectrograph's part of the visit (acquisition on the slit,
+    /// exposures, readouts), seconds.
+    pub visit_s: f64,
 }
 
 /// Where and when a method may observe a target.

@@ -55,6 +55,9 @@ pub struct Instrument {
     pub sky_annulus_fwhm: [f64; 2],
     /// End-to-end efficiency per band above the atmosphere.
     pub throughput: BTreeMap<String, f64>,
+    /// A long-slit spectrograph on the same telescope, if it has one.
+    #[serde(default)]
+    pub spectrograph: Option<Spectrograph>,
 }
 
 impl Instrument {
@@ -177,6 +180,93 @@ impl Instrument {
                 ));
             }
         }
+        let spectrograph = self.spectrograph.map(|s| s.validated()).transpose()?;
+        Ok(Instrument {
+            spectrograph,
+            ..self
+        })
+    }
+}
+
+/// A long-slit spectrograph (see config/instruments.toml for every field).
+#[derive(Debug, Clone, PartialEq, Deserialize, Serialize)]
+#[serde(deny_unknown_fields)]
+pub struct Spectrograph {
+    /// Name.
+    pub name: String,
+    /// Free text.
+    #[serde(default)]
+    pub description: String,
+    /// Resolving power λ/Δλ (Δλ the resolution element).
+    pub resolution: f64,
+    /// End-to-end efficiency (telescope, spectrograph, grating, detector) for
+    /// light that enters the slit, above the atmosphere, 0..1.
+    pub throughput: f64,
+    /// Slit width on the sky, arcsec.
+    pub slit_width_arcsec: f64,
+    /// Scale along the slit, arcsec per pixel.
+    pub spatial_scale_arcsec: f64,
+    /// Dispersion, Å per pixel.
+    pub dispersion_angstrom_per_pix: f64,
+    /// Length of the extraction aperture along the slit, in units of the seeing FWHM.
+    pub extraction_fwhm: f64,
+    /// Read noise, electrons rms per pixel.
+    pub read_noise_e: f64,
+    /// Dark current, e⁻ per pixel per second.
+    pub dark_e_per_pix_s: f64,
+    /// Readout per exposure, s.
+    pub readout_s: f64,
+    /// Slew, acquisition on the slit and calibration lamps per visit, s.
+    pub acquisition_s: f64,
+    /// Longest single exposure (cosmic rays, guiding), s.
+    pub max_sub_exptime_s: f64,
+}
+
+impl Spectrograph {
+    /// Check every field; the error names the field (prefixed `spectrograph.`).
+    pub fn validated(self) -> Result<Self> {
+        let bad = |f: &str, why: String| RungError::invalid(format!("spectrograph.{f}"), why);
+        let pos = |v: f64, f: &str| {
+            if v.is_finite() && v > 0.0 {
+                Ok(())
+            } else {
+                Err(bad(f, format!("{v} must be a positive number")))
+            }
+        };
+        let nonneg = |v: f64, f: &str| {
+            if v.is_finite() && v >= 0.0 {
+                Ok(())
+            } else {
+                Err(bad(f, format!("{v} must be zero or positive")))
+            }
+        };
+        if !(self.resolution.is_finite() && (10.0..=200_000.0).contains(&self.resolution)) {
+            return Err(bad(
+                "resolution",
+                format!(
+                    "{} is not a resolving power within 10..200000",
+                    self.resolution
+                ),
+            ));
+        }
+        if !(self.throughput > 0.0 && self.throughput <= 1.0) {
+            return Err(bad(
+                "throughput",
+                format!("{} is not an efficiency in (0, 1]", self.throughput),
+            ));
+        }
+        pos(self.slit_width_arcsec, "slit_width_arcsec")?;
+        pos(self.spatial_scale_arcsec, "spatial_scale_arcsec")?;
+        pos(
+            self.dispersion_angstrom_per_pix,
+            "dispersion_angstrom_per_pix",
+        )?;
+        pos(self.extraction_fwhm, "extraction_fwhm")?;
+        nonneg(self.read_noise_e, "read_noise_e")?;
+        nonneg(self.dark_e_per_pix_s, "dark_e_per_pix_s")?;
+        nonneg(self.readout_s, "readout_s")?;
+        nonneg(self.acquisition_s, "acquisition_s")?;
+        pos(self.max_sub_exptime_s, "max_sub_exptime_s")?;
         Ok(self)
     }
 }

@@ -20,6 +20,7 @@
 
 pub mod ccd;
 pub mod instrument;
+pub mod spectro;
 
 pub use crate::sky::{Band, BandSet, SkyBrightness, SkyGeometry};
 pub use ccd::{Conditions, NoiseBudget, Rates};
@@ -125,6 +126,26 @@ impl Photometer {
         self.bands.sky_at(band, ctx, place)
     }
 
+    /// The sky in band `b` at `place` through `ctx`, with the geometry and
+    /// the target's Kasten–Young airmass (an error below the horizon).
+    fn sky_and_airmass(
+        &self,
+        b: &Band,
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<(SkyGeometry, SkyBrightness, f64)> {
+        let g = SkyGeometry::at(ctx, place);
+        let sky = crate::sky::sky_brightness(b, &self.bands.twilight, &g)?;
+        let alt_deg = g.target_alt_rad.to_degrees();
+        let airmass = kasten_young(alt_deg).ok_or_else(|| {
+            RungError::invalid(
+                "target position",
+                format!("altitude {alt_deg:.1}° has no airmass"),
+            )
+        })?;
+        Ok((g, sky, airmass))
+    }
+
     fn prepare(
         &self,
         mag: f64,
@@ -135,15 +156,8 @@ impl Photometer {
         ccd::check_mag(mag)?;
         let b = self.bands.get(band)?;
         self.instrument.throughput_in(&b.name)?;
-        let g = SkyGeometry::at(ctx, place);
-        let sky = crate::sky::sky_brightness(b, &self.bands.twilight, &g)?;
+        let (g, sky, airmass) = self.sky_and_airmass(b, ctx, place)?;
         let alt_deg = g.target_alt_rad.to_degrees();
-        let airmass = kasten_young(alt_deg).ok_or_else(|| {
-            RungError::invalid(
-                "target position",
-                format!("altitude {alt_deg:.1}° has no airmass"),
-            )
-        })?;
         let cond = Conditions {
             airmass,
             sky_mag_arcsec2: sky.sky_mag_arcsec2,
@@ -241,6 +255,45 @@ impl Photometer {
         Ok(self.finish(e, b))
     }
 
+    /// Exposure of a long-slit spectrum with the instrument's spectrograph
+    /// ([`spectro::Spectrograph::exposure`]) reaching `snr` per resolution
+    /// element at `wavelength_angstrom` on a point source of magnitude `mag`
+    /// in `band` at `place` through `ctx`: the sky of the band there, the
+    /// airmass, the photometer's seeing. Errors: no spectrograph, bad input,
+    /// target below the horizon.
+    pub fn spectrum_at(
+        &self,
+        mag: f64,
+        band: &str,
+        snr: f64,
+        wavelength_angstrom: f64,
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<spectro::SpectrumBudget> {
+        let sp = self.instrument.spectrograph.as_ref().ok_or_else(|| {
+            RungError::invalid(
+                "spectrograph",
+                format!(
+                    "instrument {} has no spectrograph ([instrument.spectrograph] in instruments.toml)",
+                    self.instrument.name
+                ),
+            )
+        })?;
+        ccd::check_mag(mag)?;
+        let b = self.bands.get(band)?;
+        let (_, sky, airmass) = self.sky_and_airmass(b, ctx, place)?;
+        sp.exposure(
+            b,
+            mag,
+            airmass,
+            sky.sky_mag_arcsec2,
+            self.seeing_fwhm_arcsec,
+            self.instrument.area_cm2(),
+            snr,
+            wavelength_angstrom,
+        )
+    }
+
     /// Faintest magnitude (above the atmosphere) reaching `snr` in a total
     /// `exptime_s` in `band` at `place` through `ctx`.
     pub fn limiting_mag_at(
@@ -302,5 +355,33 @@ impl ExposureModel for Photometer {
 
     fn seeing_fwhm_arcsec(&self) -> f64 {
         self.seeing_fwhm_arcsec
+    }
+
+    fn spectrum_exptime(
+        &self,
+        mag: f64,
+        band: &str,
+        snr: f64,
+        wavelength_angstrom: f64,
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<crate::ladder::SpectrumExposure> {
+        let s = self.spectrum_at(mag, band, snr, wavelength_angstrom, ctx, place)?;
+        let (name, resolution) = self
+            .instrument
+            .spectrograph
+            .as_ref()
+            .map(|s| (s.name.clone(), s.resolution))
+            .unwrap_or_default();
+        Ok(crate::ladder::SpectrumExposure {
+            spectrograph: name,
+            exptime_s: s.exptime_s,
+            n_exposures: s.n_exposures,
+            snr_per_resolution_element: s.snr_per_resolution_element,
+            resolution,
+            resolution_element_angstrom: s.resolution_element_angstrom,
+            slit_transmission: s.slit_transmission,
+            visit_s: s.visit_s,
+        })
     }
 }

@@ -13,6 +13,7 @@
 //! implementation (tests/reference/make_sky_fixtures.py, tests/photometry_sky.rs).
 
 pub mod bands;
+pub mod dust;
 
 use crate::astro::frames::{CatalogPlace, Context};
 use crate::error::{Result, RungError};
