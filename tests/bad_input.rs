@@ -692,6 +692,63 @@ fn method_options() {
         vec!["chase".into(), "--target".into(), "LPO-P04".into()],
         "target LPO-P04 is a parallax target, not a transient",
     );
+    let c = |extra: &[&str]| -> Vec<String> {
+        [
+            "chase",
+            "--target",
+            "LPO-T2026a",
+            "--now",
+            "2026-12-01T12:00:00Z",
+        ]
+        .iter()
+        .chain(extra)
+        .map(|s| s.to_string())
+        .collect()
+    };
+    run(
+        "M12",
+        c(&["--bands", "V,R"]),
+        "invalid bands: V,R: the chase's first band must be B, the band of the standardization",
+    );
+    run(
+        "M13",
+        c(&["--bands", "B,R"]),
+        "invalid bands: B,R: the chase needs V with B for the colour that measures the host extinction",
+    );
+    run(
+        "M14",
+        c(&["--classification", "II"]),
+        "invalid classification: LPO-T2026a is classified as II: the chase plans standardizable thermonuclear supernovae (class Ia) only",
+    );
+    run(
+        "M15",
+        c(&["--standardization", "stretch"]),
+        "--standardization stretch: give stretch-colour or decline-rate",
+    );
+    run(
+        "M16",
+        c(&["--host-mu", "60"]),
+        "invalid host_mu_mag: 60 ± 0 is not a host distance modulus (15..45 mag, error 0..5)",
+    );
+    run(
+        "M17",
+        vec![
+            "chase".into(),
+            "--ra".into(),
+            "50".into(),
+            "--dec".into(),
+            "-30".into(),
+            "--discovered".into(),
+            "2026-11-28T04:00:00Z".into(),
+            "--mag".into(),
+            "19.5".into(),
+            "--redshift".into(),
+            "0.5".into(),
+            "--now".into(),
+            "2026-12-01T12:00:00Z".into(),
+        ],
+        "invalid redshift: 0.5 of transient is beyond 0.3, where the chase's model stops: without K-corrections from a spectral template the observed bands no longer sample the rest-frame light the template and the standardization are made for (docs/science.md, Thermonuclear supernovae)",
+    );
 }
 
 /// An instruments file with one invented instrument (as config/instruments.toml).
@@ -744,7 +801,17 @@ fn instruments_toml() {
         (
             "I5",
             bad("readout_s", "read_out_s"),
-            "i.toml, line 12, field 'read_out_s': unknown field `read_out_s`, expected one of `name`, `description`, `aperture_m`, `obstruction`, `pixel_scale_arcsec`, `read_noise_e`, `dark_e_per_pix_s`, `gain_e_per_adu`, `full_well_e`, `adc_bits`, `linear_fraction`, `seeing_fwhm_arcsec`, `readout_s`, `visit_overhead_s`, `min_exptime_s`, `max_sub_exptime_s`, `sky_annulus_fwhm`, `throughput`",
+            "i.toml, line 12, field 'read_out_s': unknown field `read_out_s`, expected one of `name`, `description`, `aperture_m`, `obstruction`, `pixel_scale_arcsec`, `read_noise_e`, `dark_e_per_pix_s`, `gain_e_per_adu`, `full_well_e`, `adc_bits`, `linear_fraction`, `seeing_fwhm_arcsec`, `readout_s`, `visit_overhead_s`, `min_exptime_s`, `max_sub_exptime_s`, `sky_annulus_fwhm`, `throughput`, `spectrograph`",
+        ),
+        (
+            "I6",
+            err(parse_instruments(
+                &format!(
+                    "{INSTRUMENT}\n[instrument.spectrograph]\nname = \"s\"\nresolution = 5.0\nthroughput = 0.15\nslit_width_arcsec = 1.5\nspatial_scale_arcsec = 0.6\ndispersion_angstrom_per_pix = 3.3\nextraction_fwhm = 2.0\nread_noise_e = 4.0\ndark_e_per_pix_s = 0.001\nreadout_s = 30.0\nacquisition_s = 420.0\nmax_sub_exptime_s = 1200.0\n"
+                ),
+                p,
+            )),
+            "i.toml, line 23, field 'spectrograph.resolution': instrument test-1m: 5 is not a resolving power within 10..200000",
         ),
     ] {
         check(id, got, want.to_string());
@@ -783,6 +850,16 @@ fn user_method_config() {
         format!(
             "{}, line 2, field 'max_airmass': 0.9 must be at least 1",
             f.display()
+        ),
+    );
+    let t = d.path().join("transient.toml");
+    std::fs::write(&t, "[cadence]\nlost_nights_tolerated = 2\n").unwrap();
+    check(
+        "C4",
+        err(rung::ladder::transient::TransientConfig::load(Some(&t))),
+        format!(
+            "{}, line 2, field 'cadence.lost_nights_tolerated': must be 0 or 1",
+            t.display()
         ),
     );
 }

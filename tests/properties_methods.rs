@@ -74,25 +74,22 @@ proptest! {
 }
 
 // The transient method through its own face (`Method::predict`): the Fisher
-// matrix of (t_max, m_max, Δm15) over the epochs, then the distance budget
-// (SCIENCE.md, Thermonuclear supernovae). Invented transients at the invented
-// demo site (tests/transient_support); `predict` uses only the epochs' times
-// and SNR, not the site or the exposure model, so each case costs microseconds.
+// matrix of the five light-curve parameters over the epochs, each exposing in
+// B, V and R, then the distance budget (docs/science.md, Thermonuclear
+// supernovae). Invented transients at the invented demo site
+// (tests/transient_support); `predict` uses only the epochs' times and each
+// band's SNR, not the site or the exposure model, so each case costs little.
 
 mod transient_support;
 
 use rung::RungError;
 use rung::io::targets::Target;
-use rung::ladder::transient::{
-    C_KM_S, ChaseOptions, TransientMethod, default_limits, floor_sigma_mu,
-    fractional_distance_error, hubble_distance_modulus, place_curve,
-};
+use rung::ladder::transient::{ChaseOptions, FlatLcdm, TransientMethod, default_limits};
 use rung::ladder::{Epoch, Method};
 use transient_support::{TestPhotometer, cfg as sn_cfg, chase_setting, site, transient};
 
-/// An invented transient discovered on 2026-11-20 at 06:00 UTC, in the
-/// standardization's band, with `peak_mag` given or (None) from the Hubble
-/// law, and no discovery magnitude.
+/// An invented transient discovered on 2026-11-20 at 06:00 UTC, in B, with
+/// `peak_mag` given or (None) from its distance, and no discovery magnitude.
 fn sn(peak_mag: Option<f64>, z: f64, extinction_mag: f64) -> Target {
     let mut t = transient("TEST-SN", 52.0, -28.0, "2026-11-20T06:00:00Z", 0.0, z);
     t.mag_now = None;
@@ -101,39 +98,62 @@ fn sn(peak_mag: Option<f64>, z: f64, extinction_mag: f64) -> Target {
     t
 }
 
+fn method(dm15: f64) -> TransientMethod {
+    TransientMethod::with(
+        sn_cfg(),
+        ChaseOptions {
+            dm15: Some(dm15),
+            classification: Some("Ia".into()),
+            ..Default::default()
+        },
+    )
+}
+
 /// σ_d/d (percent) that `predict` gives for epochs at `days` (observed days
-/// from the predicted maximum) with signal-to-noise `snr`, Δm15 = `dm15`.
+/// from the predicted maximum) with signal-to-noise `snr` in B, V and R,
+/// Δm15 = `dm15`.
 fn sn_pct(t: &Target, dm15: f64, days: &[f64], snr: &[f64]) -> Result<f64, RungError> {
-    let cfg = sn_cfg();
     let site = site();
-    let t_max = place_curve(&cfg, t, dm15)?.params.t_max_mjd;
+    let m = method(dm15);
+    let facts = m.facts(t)?;
+    let model = m.model(t, &facts)?;
+    let std = m.standardizer()?;
+    let t_max = m.place(t, &facts, &model, &std, dm15)?.params.t_max_mjd;
     let epochs: Vec<Epoch> = days
         .iter()
         .zip(snr)
         .map(|(d, s)| Epoch {
             time: Instant::from_jd_utc(t_max + d + 2_400_000.5).unwrap(),
-            exptime_s: 60.0,
-            n_exposures: 1,
+            exptime_s: 180.0,
+            n_exposures: 3,
             snr: *s,
             airmass: 1.2,
-            visit_s: 240.0,
-            exposures: BandExposure::single("B", 60.0, 1, *s),
+            visit_s: 360.0,
+            exposures: ["B", "V", "R"]
+                .iter()
+                .flat_map(|b| BandExposure::single(b, 60.0, 1, *s))
+                .collect(),
         })
         .collect();
     let s = chase_setting(&site, t, 60, default_limits());
-    let m = TransientMethod::with(
-        cfg,
-        ChaseOptions {
-            dm15: Some(dm15),
-            ..Default::default()
-        },
-    );
     Ok(m.predict(&s, &TestPhotometer, &epochs)?
         .distance_precision_pct)
 }
 
-/// A cadence that brackets maximum and reaches past +15 d, so that all three
-/// light-curve parameters are constrained: `n` epochs evenly from `start`
+/// The floor of σ_d/d (percent): everything photometry cannot remove.
+fn floor_pct(t: &Target) -> f64 {
+    let m = method(1.1);
+    let facts = m.facts(t).unwrap();
+    let model = m.model(t, &facts).unwrap();
+    m.standardizer()
+        .unwrap()
+        .budget(&m.cfg, &model, None, facts.role, facts.z)
+        .unwrap()
+        .floor_pct
+}
+
+/// A cadence that brackets maximum and reaches past +15 d, so that every
+/// light-curve parameter is constrained: `n` epochs evenly from `start`
 /// (before maximum) over `span` days.
 fn cadence(n: usize, start: f64, span: f64) -> Vec<f64> {
     (0..n)
@@ -145,17 +165,16 @@ proptest! {
     #![proptest_config(ProptestConfig { cases: 48, .. ProptestConfig::default() })]
 
     /// Valid input: σ_d/d is finite, positive and never below the floor the
-    /// photometry cannot remove (intrinsic scatter, extinction, peculiar
-    /// velocity in quadrature); adding epochs anywhere on the curve or raising
-    /// every epoch's SNR never makes it worse, because each adds a positive
-    /// semi-definite term to the Fisher matrix (Fisher 1925; a property of
-    /// the Cramér–Rao bound, common practice).
+    /// photometry cannot remove; adding epochs anywhere on the curve or
+    /// raising every epoch's SNR never makes it worse, because each adds a
+    /// positive semi-definite term to the Fisher matrix (Fisher 1925; a
+    /// property of the Cramér–Rao bound, common practice).
     #[test]
     fn transient_sigma_positive_above_floor_and_falls_with_data_and_snr(
         peak in 13.0f64..19.0,
         z in 0.003f64..0.08,
         a_mag in 0.0f64..0.5,
-        dm15 in 0.8f64..1.9,
+        dm15 in 0.8f64..1.55,
         n in 6usize..14,
         start in -10.0f64..-2.0,
         span in 25.0f64..55.0,
@@ -166,55 +185,56 @@ proptest! {
         let t = sn(Some(peak), z, a_mag);
         let days = cadence(n, start, span);
         let base = sn_pct(&t, dm15, &days, &vec![snr; n]).unwrap();
-        let floor = 100.0 * fractional_distance_error(floor_sigma_mu(&sn_cfg(), Some(z), a_mag));
+        let floor = floor_pct(&t);
         prop_assert!(base.is_finite() && base > 0.0, "σd/d {base}");
         prop_assert!(base >= floor * (1.0 - 1e-12), "σd/d {base} below the floor {floor}");
-        // More epochs.
         let mut more = days.clone();
         more.extend(&extra);
         let with_more = sn_pct(&t, dm15, &more, &vec![snr; more.len()]).unwrap();
         prop_assert!(with_more.is_finite() && with_more > 0.0);
         prop_assert!(with_more <= base * (1.0 + 1e-9), "{} more epochs: {with_more} > {base}", extra.len());
-        // Higher SNR at the same epochs.
         let deeper = sn_pct(&t, dm15, &days, &vec![snr * gain; n]).unwrap();
         prop_assert!(deeper <= base * (1.0 + 1e-9), "SNR ×{gain}: {deeper} > {base}");
         prop_assert!(deeper >= floor * (1.0 - 1e-12));
     }
 
-    /// Valid input gives a finite, positive distance: μ = m_max − A − M_max(Δm15)
-    /// (Phillips et al. 1999) and d = 10^(μ/5 + 1) pc (the distance modulus,
-    /// a fact of the trade). When the peak itself comes from the Hubble law,
-    /// the standardized distance is the Hubble-law distance c z / H0 (Hubble
-    /// 1929) to rounding: the two relations invert each other.
+    /// Valid input gives a finite, positive distance: μ = m_B − A_B −
+    /// M(standardized) and d = 10^(μ/5 + 1) pc (the distance modulus, a fact
+    /// of the trade). When the peak itself comes from the redshift, the
+    /// standardized distance is flat ΛCDM's luminosity distance at that
+    /// redshift to rounding: placement and standardization invert each other.
     #[test]
-    fn transient_distance_is_finite_and_inverts_the_hubble_law(
+    fn transient_distance_is_finite_and_inverts_the_luminosity_distance(
         peak in 12.0f64..21.0,
-        z in 0.001f64..0.1,
+        z in 0.001f64..0.29,
         a_mag in 0.0f64..1.0,
         dm15 in 0.75f64..1.95,
     ) {
-        let cfg = sn_cfg();
+        let m = method(dm15);
         let mu = |t: &Target| -> f64 {
-            let p = place_curve(&cfg, t, dm15).unwrap().params;
-            p.m_max - t.extinction_mag - cfg.standardization.peak_abs_mag(p.dm15)
+            let facts = m.facts(t).unwrap();
+            let model = m.model(t, &facts).unwrap();
+            let std = m.standardizer().unwrap();
+            let p = m.place(t, &facts, &model, &std, dm15).unwrap().params;
+            std.distance_modulus(&m.cfg, &model, &p)
         };
         let d_pc = 10f64.powf(mu(&sn(Some(peak), z, a_mag)) / 5.0 + 1.0);
         prop_assert!(d_pc.is_finite() && d_pc > 0.0, "d = {d_pc} pc");
         let d_h = 10f64.powf(mu(&sn(None, z, a_mag)) / 5.0 + 1.0);
-        let d_law = C_KM_S * z / cfg.cosmology.h0_km_s_mpc * 1.0e6;
-        prop_assert!((d_h / d_law - 1.0).abs() < 1e-9, "{d_h} pc against c z / H0 = {d_law} pc");
-        let mu_h = hubble_distance_modulus(z, cfg.cosmology.h0_km_s_mpc).unwrap();
-        prop_assert!(mu_h.is_finite());
+        let c = &m.cfg.cosmology;
+        let d_l = FlatLcdm::new(c.h0_km_s_mpc, c.omega_m).unwrap().luminosity_distance_mpc(z).unwrap() * 1.0e6;
+        prop_assert!((d_h / d_l - 1.0).abs() < 1e-9, "{d_h} pc against d_L = {d_l} pc");
     }
 
     /// Bad input is refused with a typed error naming the field, never a panic:
-    /// a redshift outside 0..3 (or not a number), a Δm15 outside the range the
-    /// standardization is used for, a Hubble-law redshift that is not positive.
+    /// a redshift below 0, beyond the model's 0.3 (or not a number), a Δm15
+    /// outside the range the standardization is used for, a luminosity
+    /// distance at a redshift that is not positive.
     #[test]
     fn transient_bad_input_gives_typed_errors(
         bad_z in prop_oneof![
             -50.0f64..-1e-9,
-            3.000_001f64..1e6,
+            0.300_001f64..1e6,
             Just(f64::NAN),
             Just(f64::INFINITY),
             Just(f64::NEG_INFINITY),
@@ -224,7 +244,7 @@ proptest! {
             1.951f64..20.0,
             Just(f64::NAN),
         ],
-        bad_hubble_z in prop_oneof![-5.0f64..=0.0, Just(f64::NAN)],
+        bad_dist_z in prop_oneof![-5.0f64..=0.0, Just(f64::NAN)],
     ) {
         let days = cadence(8, -6.0, 40.0);
         let snr = vec![50.0; 8];
@@ -233,20 +253,16 @@ proptest! {
             other => prop_assert!(false, "redshift {bad_z}: {other:?}"),
         }
         let t = sn(Some(16.0), 0.02, 0.1);
-        let cfg = sn_cfg();
         let site = site();
         let s = chase_setting(&site, &t, 60, default_limits());
-        let m = TransientMethod::with(
-            cfg.clone(),
-            ChaseOptions { dm15: Some(bad_dm15), ..Default::default() },
-        );
-        match m.predict(&s, &TestPhotometer, &[]) {
+        match method(bad_dm15).predict(&s, &TestPhotometer, &[]) {
             Err(RungError::Invalid { what, .. }) => prop_assert_eq!(what, "dm15"),
             other => prop_assert!(false, "dm15 {bad_dm15}: {other:?}"),
         }
-        match hubble_distance_modulus(bad_hubble_z, cfg.cosmology.h0_km_s_mpc) {
+        let c = &sn_cfg().cosmology;
+        match FlatLcdm::new(c.h0_km_s_mpc, c.omega_m).unwrap().distance_modulus(bad_dist_z) {
             Err(RungError::Invalid { what, .. }) => prop_assert_eq!(what, "redshift"),
-            other => prop_assert!(false, "Hubble-law z {bad_hubble_z}: {other:?}"),
+            other => prop_assert!(false, "distance at z {bad_dist_z}: {other:?}"),
         }
     }
 }

@@ -432,13 +432,14 @@ fn chase_view_shows_the_transient_timeline_at_both_sizes() {
         assert!(has(&rows, "the Chase view is for transients"));
         select(&mut s, "LPO-T2026a");
         let (rows, _) = screen(&s, w, h);
+        // An unclassified candidate: the plan says it is provisional.
         assert!(
-            rows[2].starts_with("Chase · ✶ LPO-T2026a · max "),
+            rows[2].starts_with("Chase · ✶ LPO-T2026a · PROVISIONAL · BVR · max "),
             "{}",
             rows[2]
         );
         assert!(rows[2].contains(&format!("B {:.1}", c.placement.params.m_max)));
-        assert!(rows[3].contains("phase") && rows[3].contains("mag") && rows[3].contains("plan"));
+        assert!(rows[3].contains("phase") && rows[3].contains(" B ") && rows[3].contains("plan"));
         let n0 = &c.nights[0];
         let r0 = &rows[4];
         assert!(
@@ -453,7 +454,10 @@ fn chase_view_shows_the_transient_timeline_at_both_sizes() {
             r0.contains(&format!("{:.1}", n0.expected_mag.unwrap())),
             "{r0}"
         );
-        let planned = rows.iter().filter(|r| r.contains("● obs")).count();
+        let planned = rows
+            .iter()
+            .filter(|r| r.contains("● obs") || r.contains("◆ spec"))
+            .count();
         let expect = c
             .nights
             .iter()

@@ -6,10 +6,10 @@ use rung::astro::frames::Context;
 use rung::astro::time::{Instant, parse_instant};
 use rung::io::angles::{parse_dec_deg, parse_ra_deg};
 use rung::io::targets::{Kind, Target};
-use rung::ladder::Verdict;
 use rung::ladder::transient::{
-    Chase, ChaseOptions, TransientConfig, TransientMethod, check_band, night_of,
+    Chase, ChaseOptions, Relation, Role, TransientConfig, TransientMethod, check_band, night_of,
 };
+use rung::plan::budget::verdict_text;
 use rung::programme::Report;
 use serde_json::{Map, Value, json};
 use std::path::PathBuf;
@@ -39,9 +39,24 @@ pub struct Args {
     /// Redshift of the host (heliocentric), ≥ 0.
     #[arg(long, allow_hyphen_values = true)]
     pub redshift: Option<f64>,
-    /// Band of the magnitudes and of the follow-up.
+    /// Band of the magnitudes given with --mag and --peak-mag.
     #[arg(long, default_value = "B")]
     pub band: String,
+    /// Bands of the follow-up, comma-separated, B first (default from config).
+    #[arg(long, value_delimiter = ',')]
+    pub bands: Option<Vec<String>>,
+    /// Spectroscopic class, e.g. Ia (default: a candidate, to be classified).
+    #[arg(long, value_name = "CLASS")]
+    pub classification: Option<String>,
+    /// The host's own distance modulus, mag (a calibrator).
+    #[arg(long, allow_hyphen_values = true)]
+    pub host_mu: Option<f64>,
+    /// The uncertainty of --host-mu, mag.
+    #[arg(long, allow_hyphen_values = true, requires = "host_mu")]
+    pub host_mu_err: Option<f64>,
+    /// Standardization: stretch-colour or decline-rate (default from config).
+    #[arg(long, value_name = "RELATION")]
+    pub standardization: Option<String>,
     /// Foreground extinction in --band, mag.
     #[arg(
         long = "extinction-mag",
@@ -115,8 +130,10 @@ fn build_target(a: &Args, cfg: &TransientConfig) -> Result<Target> {
     MAG.check_opt_as("--mag", a.mag)?;
     MAG.check_opt_as("--peak-mag", a.peak_mag)?;
     EXTINCTION_MAG.check_as("--extinction-mag", a.extinction)?;
-    if a.mag.is_none() && a.peak_mag.is_none() && a.redshift.is_none() {
-        bail!("give --mag (at discovery), --peak-mag or --redshift to place the light curve");
+    if a.mag.is_none() && a.peak_mag.is_none() && a.redshift.is_none() && a.host_mu.is_none() {
+        bail!(
+            "give --mag (at discovery), --peak-mag, --redshift or --host-mu to place the light curve"
+        );
     }
     let mut t = Target::plain(
         &a.name,
@@ -198,6 +215,18 @@ pub fn run(a: Args) -> Result<()> {
             );
         }
     }
+    let relation = match &a.standardization {
+        None => None,
+        Some(r) => Some(Relation::parse(r).with_context(|| {
+            format!("--standardization {r}: give stretch-colour or decline-rate")
+        })?),
+    };
+    let bands = a.bands.as_ref().map(|v| {
+        v.iter()
+            .map(|b| b.trim().to_ascii_uppercase())
+            .filter(|b| !b.is_empty())
+            .collect::<Vec<_>>()
+    });
     let method = TransientMethod::with(
         cfg,
         ChaseOptions {
@@ -206,6 +235,11 @@ pub fn run(a: Args) -> Result<()> {
             dm15: a.dm15,
             sigma_peak_goal_mag: a.sigma_peak,
             sigma_dm15_goal: a.sigma_dm15,
+            relation,
+            bands,
+            classification: a.classification.clone(),
+            host_mu_mag: a.host_mu.map(|m| (m, a.host_mu_err.unwrap_or(0.0))),
+            zero_point: None,
         },
     );
     let st = st.with_method(Arc::new(method));
@@ -268,14 +302,57 @@ fn to_json(
     o.insert("site".into(), json!(site.name));
     o.insert("instrument".into(), json!(instrument));
     o.insert("band".into(), json!(c.band));
+    o.insert("bands".into(), json!(c.bands));
     o.insert("discovered".into(), iso(t.discovered));
     o.insert("now".into(), iso(Some(now)));
     o.insert("redshift".into(), json!(t.redshift));
     o.insert("extinction_mag".into(), json!(t.extinction_mag));
+    o.insert("provisional".into(), json!(c.provisional));
+    o.insert(
+        "classification".into(),
+        json!({
+            "status": c.classification.status,
+            "needed": c.classification.needed,
+            "night": c.classification.night.map(|d| d.to_string()),
+            "time": iso(c.classification.time),
+            "spectrum": c.classification.spectrum,
+            "note": c.classification.note,
+        }),
+    );
+    o.insert("relation".into(), json!(c.standardizer.relation.as_str()));
+    o.insert("zero_point".into(), json!(c.standardizer.zero_point));
+    o.insert(
+        "cosmology".into(),
+        json!({
+            "h0_km_s_mpc": c.standardizer.cosmology.h0_km_s_mpc,
+            "omega_m": c.standardizer.cosmology.omega_m,
+        }),
+    );
+    o.insert("role".into(), json!(c.role.as_str()));
+    if let Role::HubbleFlow { z } = c.role {
+        o.insert(
+            "luminosity_distance_mpc".into(),
+            json!(c.standardizer.cosmology.luminosity_distance_mpc(z).ok()),
+        );
+    }
+    if let Role::Calibrator {
+        host_mu_mag,
+        host_mu_err_mag,
+    } = c.role
+    {
+        o.insert("host_mu_mag".into(), json!(host_mu_mag));
+        o.insert("host_mu_err_mag".into(), json!(host_mu_err_mag));
+    }
+    o.insert("peak_abs_mag".into(), num(c.peak_abs_mag));
     o.insert("t_max".into(), iso(Some(c.t_max)));
     o.insert("peak_mag".into(), num(c.placement.params.m_max));
     o.insert("hubble_peak_mag".into(), json!(c.placement.hubble_peak_mag));
     o.insert("dm15_assumed".into(), num(c.placement.params.dm15));
+    o.insert(
+        "colour_assumed_mag".into(),
+        num(c.placement.params.colour_mag),
+    );
+    o.insert("rise_assumed_d".into(), num(c.placement.params.rise_days));
     o.insert("snr_goal".into(), num(c.snr_goal));
     o.insert("goal_pct".into(), num(c.goal_pct));
     let nights: Vec<Value> = c
@@ -300,6 +377,9 @@ fn to_json(
                 "exptime_s": n.exptime_s,
                 "n_exposures": n.n_exposures,
                 "visit_s": n.visit_s,
+                "bands": n.bands,
+                "spectrum": if n.classification { json!(n.spectrum) } else { Value::Null },
+                "classification": n.classification,
                 "usable": n.usable,
                 "planned": n.planned,
                 "reason": n.reason,
@@ -319,22 +399,25 @@ fn to_json(
     );
     let d = &c.design;
     o.insert("cadence_days".into(), json!(d.cadence_days));
+    o.insert("near_max_every".into(), json!(d.near_max_every));
     o.insert("dense_around_max".into(), json!(d.dense_around_max));
     let epochs: Vec<Value> = d
         .nights
         .iter()
-        .filter_map(|i| {
+        .zip(&d.epochs)
+        .map(|(i, e)| {
             let n = &c.nights[*i];
-            Some(json!({
+            json!({
                 "night": n.night.to_string(),
-                "time": iso(n.epoch_time),
+                "time": iso(Some(e.time)),
                 "expected_mag": n.expected_mag,
-                "exptime_s": n.exptime_s?,
-                "n_exposures": n.n_exposures,
-                "snr": c.snr_goal,
-                "airmass": n.best_airmass,
-                "visit_s": n.visit_s,
-            }))
+                "exptime_s": e.exptime_s,
+                "n_exposures": e.n_exposures,
+                "snr": e.snr,
+                "airmass": num(e.airmass),
+                "visit_s": e.visit_s,
+                "exposures": e.exposures,
+            })
         })
         .collect();
     o.insert("epochs".into(), Value::Array(epochs));
@@ -344,11 +427,24 @@ fn to_json(
         json!(d.fit.map(|f| f.sigma_peak_mag)),
     );
     o.insert("sigma_dm15".into(), json!(d.fit.map(|f| f.sigma_dm15)));
+    o.insert(
+        "sigma_colour_mag".into(),
+        json!(d.fit.map(|f| f.sigma_colour_mag)),
+    );
+    o.insert("sigma_rise_d".into(), json!(d.fit.map(|f| f.sigma_rise_d)));
     let b = d.budget;
     o.insert("sigma_mu_mag".into(), json!(b.map(|b| b.sigma_mu_mag)));
     o.insert(
         "sigma_mu_phot_mag".into(),
         json!(b.map(|b| b.sigma_mu_phot_mag)),
+    );
+    o.insert(
+        "sigma_mu_phot_one_lost_mag".into(),
+        json!(d.sigma_mu_phot_one_lost_mag),
+    );
+    o.insert(
+        "worst_lost_night".into(),
+        json!(d.worst_lost_night.map(|n| n.to_string())),
     );
     o.insert(
         "sigma_mu_floor_mag".into(),
@@ -360,16 +456,42 @@ fn to_json(
         json!(b.map(|b| b.sigma_extinction_mag)),
     );
     o.insert(
+        "sigma_host_rv_mag".into(),
+        json!(b.and_then(|b| b.sigma_host_rv_mag)),
+    );
+    o.insert(
+        "sigma_kcorr_mag".into(),
+        json!(b.map(|b| b.sigma_kcorr_mag)),
+    );
+    o.insert(
         "sigma_pec_mag".into(),
         json!(b.and_then(|b| b.sigma_pec_mag)),
     );
+    o.insert(
+        "sigma_host_distance_mag".into(),
+        json!(b.and_then(|b| b.sigma_host_distance_mag)),
+    );
+    o.insert(
+        "sigma_zero_point_mag".into(),
+        json!(b.and_then(|b| b.sigma_zero_point_mag)),
+    );
+    o.insert(
+        "error_terms".into(),
+        json!(b.map(|b| b.error_terms()).unwrap_or_default()),
+    );
+    o.insert("host_extinction".into(), json!(c.host_extinction));
     o.insert(
         "distance_precision_pct".into(),
         json!(b.map(|b| b.distance_precision_pct)),
     );
     o.insert("floor_pct".into(), json!(b.map(|b| b.floor_pct)));
     o.insert("hours_needed".into(), num(d.hours_needed));
-    o.insert("goal_met".into(), json!(d.meets_goal));
+    o.insert("goal_met".into(), json!(c.goal_met));
+    o.insert(
+        "design_meets_requirement".into(),
+        json!(d.meets_requirement),
+    );
+    o.insert("sparser_cadences".into(), json!(c.sparser));
     o.insert(
         "verdict".into(),
         serde_json::to_value(&c.verdict).unwrap_or(Value::Null),
@@ -379,45 +501,43 @@ fn to_json(
     Value::Object(o)
 }
 
-fn verdict_text(v: &Verdict) -> String {
-    match v {
-        Verdict::Reachable => "goal reachable".into(),
-        Verdict::LimitedByFloor { floor_pct } => {
-            format!("limited by the floor of {floor_pct:.1}%")
-        }
-        Verdict::NotObservable { when } => match when {
-            Some(w) => format!("not reachable: {w}"),
-            None => "not observable enough".into(),
-        },
-        Verdict::NeedsMoreSeasons { .. } => "needs more nights".into(),
-    }
-}
-
 fn print_table(c: &Chase, site: &rung::astro::site::Site, t: &Target, sky: &[Option<f64>]) {
     let o = |v: Option<f64>, dp: usize| super::opt(v, dp);
     println!(
-        "Chase of {} ({} band) from {} at {} (times local {})",
+        "Chase of {} in {} from {} at {} (times local {})",
         c.target,
-        c.band,
+        c.bands.join(", "),
         t.discovered
             .map(|d| d.round_to_second().iso())
             .unwrap_or_default(),
         site.name,
         site.timezone.name()
     );
+    if c.provisional {
+        println!("  PROVISIONAL: {}", c.classification.note);
+    } else {
+        println!("  {}", c.classification.note);
+    }
     println!(
-        "  maximum expected {} at {:.2} mag (Δm15 {:.2} assumed)",
+        "  B maximum expected {} at {:.2} mag (Δm15 {:.2}, B−V {:.2}, rise {:.1} d assumed)",
         c.t_max.round_to_second().iso(),
         c.placement.params.m_max,
-        c.placement.params.dm15
+        c.placement.params.dm15,
+        c.placement.params.colour_mag,
+        c.placement.params.rise_days
     );
     println!(
-        "  {:<10} {:>5}-{:<5} {:>6} {:>6} {:>5} {:>5} {:>6} {:>6} {:>6} {:>7}  plan",
-        "night", "from", "to", "airm", "moon°", "sun°", "sky", "phase", "mag", "exp_s", "reason"
+        "  {:<10} {:>5}-{:<5} {:>5} {:>5} {:>5} {:>5} {:>6} {:>5} {:>6}  plan",
+        "night", "from", "to", "airm", "moon°", "sun°", "sky", "phase", "B", "exp_s"
     );
     for (n, s) in c.nights.iter().zip(sky) {
+        let mark = match (n.planned, n.classification) {
+            (true, true) => "* spec ",
+            (true, false) => "*      ",
+            _ => "       ",
+        };
         println!(
-            "  {:<10} {:>5}-{:<5} {:>6} {:>6.0} {:>5.0} {:>5} {:>6} {:>6} {:>6}  {}{}",
+            "  {:<10} {:>5}-{:<5} {:>5} {:>5.0} {:>5.0} {:>5} {:>6} {:>5} {:>6}  {}{}",
             n.night,
             super::local_hm(n.window_start, site),
             super::local_hm(n.window_end, site),
@@ -426,9 +546,9 @@ fn print_table(c: &Chase, site: &rung::astro::site::Site, t: &Target, sky: &[Opt
             n.solar_elongation_deg,
             o(*s, 1),
             o(n.phase_days, 1),
-            o(n.expected_mag, 2),
+            o(n.expected_mag, 1),
             o(n.exptime_s, 0),
-            if n.planned { "* " } else { "  " },
+            mark,
             n.reason.clone().unwrap_or_default()
         );
     }
@@ -440,38 +560,78 @@ fn print_table(c: &Chase, site: &rung::astro::site::Site, t: &Target, sky: &[Opt
     );
     let d = &c.design;
     println!(
-        "  cadence: every {} night(s){}, {} epochs, {:.2} h with overheads",
+        "  cadence: every {} night(s) around maximum, every {} on the decline: {} epochs in {}, {:.2} h with overheads{}",
+        d.near_max_every,
         d.cadence_days,
-        if d.dense_around_max {
-            " plus every night around maximum"
+        d.epochs.len(),
+        c.bands.join(""),
+        d.hours_needed,
+        if c.classification.night.is_some() {
+            " and the classification spectrum"
         } else {
             ""
-        },
-        d.epochs.len(),
-        d.hours_needed
+        }
     );
+    for s in &c.sparser {
+        println!(
+            "  sparser: every {} around maximum, {} on the decline ({} epochs, {:.2} h): {}",
+            s.near_max_every, s.cadence_days, s.epochs, s.hours, s.reason
+        );
+    }
     if let Some(f) = d.fit {
         println!(
-            "  σ(t_max) {:.2} d   σ(peak) {:.3} mag   σ(Δm15) {:.3} mag",
-            f.sigma_tmax_d, f.sigma_peak_mag, f.sigma_dm15
+            "  σ(t_max) {:.2} d   σ(peak) {:.3} mag   σ(Δm15) {:.3} mag   σ(B−V) {:.3} mag   σ(rise) {:.1} d",
+            f.sigma_tmax_d, f.sigma_peak_mag, f.sigma_dm15, f.sigma_colour_mag, f.sigma_rise_d
+        );
+    }
+    if let Some(h) = c.host_extinction {
+        println!(
+            "  host dust from the colour curve: E(B−V) {:.2} ± {:.3} mag, A_V {:.2} ± {:.2} mag (R_V {})",
+            h.ebv_mag, h.sigma_ebv_mag, h.av_mag, h.sigma_av_mag, h.r_v
         );
     }
     if let Some(b) = d.budget {
+        let terms: Vec<String> = b
+            .error_terms()
+            .iter()
+            .map(|e| {
+                format!(
+                    "{} {:.3}{}",
+                    e.name,
+                    e.sigma_mag,
+                    if e.shared { " (shared)" } else { "" }
+                )
+            })
+            .collect();
         println!(
-            "  σ_μ {:.3} mag (photometry {:.3}, floor {:.3}) → σ_d/d {:.1}% (goal {}%, floor {:.1}%)",
+            "  standardized by {}: σ_μ {:.3} mag = {}",
+            c.standardizer.relation.words(),
             b.sigma_mu_mag,
-            b.sigma_mu_phot_mag,
-            b.sigma_mu_floor_mag,
-            b.distance_precision_pct,
-            c.goal_pct,
-            b.floor_pct
+            terms.join(", ")
         );
+        match c.role {
+            Role::Calibrator {
+                host_mu_mag,
+                host_mu_err_mag,
+            } => println!(
+                "  calibrator (host μ {host_mu_mag} ± {host_mu_err_mag}): peak absolute magnitude M_B {:.2} ± {:.3} mag expected; σ as distance {:.1}% (goal {}%, floor {:.1}%)",
+                c.peak_abs_mag, b.sigma_mu_mag, b.distance_precision_pct, c.goal_pct, b.floor_pct
+            ),
+            _ => println!(
+                "  σ_d/d {:.1}% (goal {}%, floor {:.1}%)",
+                b.distance_precision_pct, c.goal_pct, b.floor_pct
+            ),
+        }
     }
-    println!("  verdict: {}", verdict_text(&c.verdict));
+    println!(
+        "  verdict: {}{}",
+        if c.provisional { "provisional, " } else { "" },
+        verdict_text(&c.verdict)
+    );
     for s in &c.cautions {
         println!("  CAUTION: {s}");
     }
-    for s in &c.notes {
+    for s in c.notes.iter().filter(|n| !n.starts_with("PROVISIONAL")) {
         println!("  note: {s}");
     }
 }

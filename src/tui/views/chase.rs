@@ -2,9 +2,9 @@
 //! night by night the window, the rest-frame phase, the expected magnitude, the
 //! exposure, the Moon, and which nights the chosen cadence observes.
 
+use crate::plan::budget::verdict_text;
 use crate::tui::state::{MethodBody, State, View, detail_offset, detail_rows};
 use crate::tui::views::fmt::{fit, hm, put, rfit};
-use crate::tui::views::phase::verdict_text;
 use crate::tui::views::scroll_mark;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
@@ -30,25 +30,21 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         return;
     };
     let d = &c.design;
-    let cadence = if d.cadence_days == 1 {
-        "every night".to_string()
+    let cadence = if d.near_max_every == d.cadence_days {
+        format!("every {} n", d.cadence_days)
     } else {
-        format!("every {} nights", d.cadence_days)
+        format!("{} n at max, {} after", d.near_max_every, d.cadence_days)
     };
     put(
         buf,
         area.x,
         area.y,
         &format!(
-            "Chase · ✶ {name} · max {} ({} {:.1}) · {cadence}{} · goal {:.0}%",
+            "Chase · ✶ {name}{} · {} · max {} (B {:.1}) · goal {:.0}%",
+            if c.provisional { " · PROVISIONAL" } else { "" },
+            c.bands.join(""),
             c.t_max.local(&s.site().timezone).format("%Y-%m-%d"),
-            c.band,
             c.placement.params.m_max,
-            if d.dense_around_max {
-                " + dense near max"
-            } else {
-                ""
-            },
             c.goal_pct
         ),
         area.width,
@@ -58,11 +54,11 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         ("night", 10, false),
         ("window", 11, false),
         ("phase", 7, true),
-        ("mag", 5, true),
+        ("B", 5, true),
         ("exp s", 6, true),
         ("airm", 5, true),
         ("Moon", 5, true),
-        ("plan", 5, false),
+        ("plan", 6, false),
     ];
     let line = |v: [String; 8]| -> String {
         v.iter()
@@ -83,7 +79,9 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             (Some(a), Some(b)) => format!("{}-{}", hm(Some(a), s.site()), hm(Some(b), s.site())),
             _ => "none".into(),
         };
-        let plan = if n.planned {
+        let plan = if n.planned && n.classification {
+            "◆ spec"
+        } else if n.planned {
             "● obs"
         } else if n.usable {
             "○"
@@ -122,11 +120,12 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     }
     let buy = match &d.budget {
         Some(b) => format!(
-            "σd/d {:.1}% (floor {:.1}%) · {} epochs · {:.1} h · {}",
+            "σd/d {:.1}% (floor {:.1}%) · {} epochs · {:.1} h · {}{}",
             b.distance_precision_pct,
             b.floor_pct,
             d.epochs.len(),
             d.hours_needed,
+            if c.provisional { "provisional, " } else { "" },
             verdict_text(&c.verdict)
         ),
         None => format!(
@@ -140,14 +139,26 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         buf,
         area.x,
         fy + 1,
-        "● planned  ○ usable  — not (reason beside it)",
+        &format!("● obs ◆ +spectrum ○ usable · {cadence}"),
         area.width,
         th.dim(),
     );
+    let cl = &c.classification;
+    let provisional = match (cl.night, &cl.spectrum) {
+        (Some(n), Some(sp)) => format!(
+            "PROVISIONAL until classified: spectrum {} ({:.0} s, {} R {:.0})",
+            n.format("%b %d"),
+            sp.exptime_s,
+            sp.spectrograph,
+            sp.resolution
+        ),
+        _ => "PROVISIONAL until a spectrum from elsewhere classifies it".to_string(),
+    };
     let note = c
         .cautions
         .first()
         .map(|n| (format!("☼ {n}"), th.warn()))
+        .or_else(|| c.provisional.then(|| (provisional, th.warn())))
         .or_else(|| c.notes.first().map(|n| (n.clone(), th.dim())));
     if let Some((n, st)) = note {
         put(buf, area.x, fy + 2, &n, area.width, st);
