@@ -727,7 +727,7 @@ fn method_options() {
     );
     run(
         "M16",
-        c(&["--host-mu", "60"]),
+        c(&["--host-mu", "60", "--host-mu-err", "0"]),
         "invalid host_mu_mag: 60 ± 0 is not a host distance modulus (15..45 mag, error 0..5)",
     );
     run(

@@ -512,3 +512,25 @@ fn decline_rate_standardization_is_selectable_with_its_own_floor() {
     let h = c.host_extinction.unwrap();
     assert!(h.sigma_ebv_mag > 0.03 && h.sigma_ebv_mag < 0.06, "{h:?}");
 }
+
+#[test]
+fn the_targets_file_says_bands_class_and_host_distance() {
+    // The transient columns of the targets file (one table of fields,
+    // src/io/kinds.rs): a classified supernova in a host of known distance,
+    // followed in B, V and I.
+    let text = "name,kind,ra,dec,band,discovered,mag_now,redshift,bands,classification,host_mu_mag,host_mu_err_mag\n\
+                TEST-CAL,transient,50,-30,B,2026-11-15T04:00:00Z,15.5,0.004,B V I,Ia,31.9,0.05\n\
+                TEST-BAD,transient,50,-30,B,2026-11-15T04:00:00Z,15.5,0.004,,,31.9,\n";
+    let l = rung::io::targets::parse_csv(text, std::path::Path::new("t.csv"));
+    assert!(l.problems.is_empty(), "{:?}", l.problems);
+    let m = TransientMethod::new().unwrap();
+    let f = m.facts(&l.targets[0]).unwrap();
+    assert_eq!(f.bands, ["B", "V", "I"]);
+    assert!(!f.needs_classification());
+    assert!(matches!(
+        f.role,
+        Role::Calibrator { host_mu_mag, host_mu_err_mag } if host_mu_mag == 31.9 && host_mu_err_mag == 0.05
+    ));
+    let e = m.facts(&l.targets[1]).unwrap_err().to_string();
+    assert!(e.contains("host_mu_mag without host_mu_err_mag"), "{e}");
+}

@@ -238,7 +238,11 @@ pub fn run(a: Args) -> Result<()> {
             relation,
             bands,
             classification: a.classification.clone(),
-            host_mu_mag: a.host_mu.map(|m| (m, a.host_mu_err.unwrap_or(0.0))),
+            host_mu_mag: match (a.host_mu, a.host_mu_err) {
+                (Some(m), Some(e)) => Some((m, e)),
+                (Some(_), None) => bail!("give --host-mu-err (mag) with --host-mu"),
+                (None, _) => None,
+            },
             zero_point: None,
         },
     );

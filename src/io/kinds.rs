@@ -103,6 +103,10 @@ kinds! {
         ("mag_now", Optional),
         ("redshift", Optional),
         ("extinction_mag", Optional),
+        ("bands", Optional),
+        ("classification", Optional),
+        ("host_mu_mag", Optional),
+        ("host_mu_err_mag", Optional),
     ];
     /// Visibility only.
     Plain = "plain", '○', "visibility only", &[("mag", Optional)];
@@ -606,6 +610,62 @@ pub const COLUMNS: &[Column] = &[
         set: |t, c| t.extinction_mag = c.num().unwrap_or(0.0),
     },
     Column {
+        key: "bands",
+        unit: "band list",
+        about: "chase bands, B first, e.g. B V R",
+        ty: Ty::Text,
+        default: "",
+        bounds: &[],
+        every_kind: false,
+        need: Optional,
+        get: |t| text_or_empty(&t.bands),
+        set: |t, c| t.bands = c.text(),
+    },
+    Column {
+        key: "classification",
+        unit: "class",
+        about: "spectroscopic class (Ia); empty: a candidate",
+        ty: Ty::Text,
+        default: "",
+        bounds: &[],
+        every_kind: false,
+        need: Optional,
+        get: |t| text_or_empty(&t.classification),
+        set: |t, c| t.classification = c.text(),
+    },
+    Column {
+        key: "host_mu_mag",
+        unit: "mag",
+        about: "host's own distance modulus (a calibrator)",
+        ty: Ty::Number,
+        default: "",
+        bounds: &[Bound::within(
+            15.0,
+            45.0,
+            "is not a host distance modulus: 15 mag is 10 kpc, 45 mag 10 Gpc",
+        )],
+        every_kind: false,
+        need: Optional,
+        get: |t| Cell::num_or_empty(t.host_mu_mag),
+        set: |t, c| t.host_mu_mag = c.num(),
+    },
+    Column {
+        key: "host_mu_err_mag",
+        unit: "mag",
+        about: "its uncertainty, mag",
+        ty: Ty::Number,
+        default: "",
+        bounds: &[Bound::within(
+            0.0,
+            5.0,
+            "is not an uncertainty of a distance modulus (0 to 5 mag)",
+        )],
+        every_kind: false,
+        need: Optional,
+        get: |t| Cell::num_or_empty(t.host_mu_err_mag),
+        set: |t, c| t.host_mu_err_mag = c.num(),
+    },
+    Column {
         key: "goal_pct",
         unit: "%",
         about: "distance goal σd/d, %",
@@ -655,6 +715,15 @@ impl Bound {
             min_open: true,
             ..self
         }
+    }
+}
+
+/// A text field's value: empty text is no value (as an empty field reads).
+fn text_or_empty(s: &str) -> Cell {
+    if s.is_empty() {
+        Cell::Empty
+    } else {
+        Cell::Text(s.to_string())
     }
 }
 
@@ -711,6 +780,14 @@ pub struct Target {
     pub redshift: Option<f64>,
     /// Foreground extinction in `band`, mag (default 0).
     pub extinction_mag: f64,
+    /// Bands of a transient's chase, B first ("B V R"; empty: the configured ones).
+    pub bands: String,
+    /// A transient's spectroscopic class (`Ia`); empty: an unclassified candidate.
+    pub classification: String,
+    /// Distance modulus of a transient's host from its own method, mag (a calibrator).
+    pub host_mu_mag: Option<f64>,
+    /// Its uncertainty, mag.
+    pub host_mu_err_mag: Option<f64>,
     /// Distance-precision goal, percent.
     pub goal_pct: Option<f64>,
     /// Priority (higher first), default 1.
@@ -748,6 +825,10 @@ impl Target {
             mag_now: None,
             redshift: None,
             extinction_mag: 0.0,
+            bands: String::new(),
+            classification: String::new(),
+            host_mu_mag: None,
+            host_mu_err_mag: None,
             goal_pct: None,
             priority: 1.0,
             notes: String::new(),

@@ -185,11 +185,17 @@ impl TransientMethod {
             ));
         }
         check_band(&self.cfg, &t.band)?;
-        let bands = self
-            .options
+        let listed: Vec<String> = t
             .bands
-            .clone()
-            .unwrap_or_else(|| self.cfg.planning.bands.clone());
+            .split(|c: char| c == ',' || c.is_whitespace())
+            .filter(|b| !b.is_empty())
+            .map(|b| b.to_ascii_uppercase())
+            .collect();
+        let bands = match (&self.options.bands, listed.is_empty()) {
+            (Some(b), _) => b.clone(),
+            (None, false) => listed,
+            (None, true) => self.cfg.planning.bands.clone(),
+        };
         self.cfg.check_bands(&bands)?;
         crate::bounds::REDSHIFT.check_opt_as("redshift", t.redshift)?;
         let zmax = self.cfg.kcorrection.max_redshift;
@@ -205,7 +211,21 @@ impl TransientMethod {
             ));
         }
         let z = t.redshift.filter(|z| *z > 0.0);
-        let role = match (self.options.host_mu_mag, z) {
+        let host = match (self.options.host_mu_mag, t.host_mu_mag, t.host_mu_err_mag) {
+            (Some(h), _, _) => Some(h),
+            (None, Some(mu), Some(err)) => Some((mu, err)),
+            (None, Some(_), None) => {
+                return Err(RungError::invalid(
+                    "host_mu_err_mag",
+                    format!(
+                        "{} gives host_mu_mag without host_mu_err_mag: a calibrator needs its host distance's uncertainty",
+                        t.name
+                    ),
+                ));
+            }
+            (None, None, _) => None,
+        };
+        let role = match (host, z) {
             (Some((mu, err)), _) => {
                 if !((15.0..=45.0).contains(&mu) && (0.0..5.0).contains(&err)) {
                     return Err(RungError::invalid(
@@ -223,7 +243,12 @@ impl TransientMethod {
             (None, Some(z)) => Role::HubbleFlow { z },
             (None, None) => Role::Unanchored,
         };
-        let status = ClassStatus::parse(self.options.classification.as_deref());
+        let status = ClassStatus::parse(
+            self.options
+                .classification
+                .as_deref()
+                .or(Some(t.classification.as_str())),
+        );
         if let ClassStatus::Other(c) = &status {
             return Err(RungError::invalid(
                 "classification",
