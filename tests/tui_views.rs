@@ -456,7 +456,7 @@ fn chase_view_shows_the_transient_timeline_at_both_sizes() {
         );
         let planned = rows
             .iter()
-            .filter(|r| r.contains("● obs") || r.contains("◆ spec"))
+            .filter(|r| (r.contains("● obs") || r.contains("◆ spec")) && !r.contains("○ usable"))
             .count();
         let expect = c
             .nights
