@@ -231,7 +231,7 @@ pub(crate) fn night_row(
 ) -> Result<ChaseNight> {
     let site = s.site;
     let night = Night::shared(site, date)?;
-    let tn = night.target(place, &s.limits);
+    let tn = night.windows(place, &s.limits);
     let nb = inp.not_before;
     let windows: Vec<(Instant, Instant)> = tn
         .windows
