@@ -175,12 +175,12 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
         .clone()
         .or_else(|| if changed { plan_path.clone() } else { None });
     if let Some(path) = &save_to {
-        if plan_path.as_ref() == Some(path) && path.exists() {
-            let old = std::fs::read(path).with_context(|| format!("reading {}", path.display()))?;
-            let bak = PathBuf::from(format!("{}.bak", path.display()));
-            rung::io::atomic::write_atomic(&bak, &old)?;
+        if plan_path.as_ref() == Some(path) {
+            // Re-saving over the loaded plan keeps its previous version as .bak.
+            rung::io::atomic::save_with_backup(path, p.to_json().as_bytes())?;
+        } else {
+            file::save(&p, path)?;
         }
-        file::save(&p, path)?;
         eprintln!("rung: plan saved to {}", path.display());
     }
     if let Some(path) = &a.ics {

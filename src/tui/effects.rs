@@ -289,7 +289,8 @@ pub fn save(
             .map_err(|e| format!("cannot create {}: {e}", dir.display()))?;
     }
     if let Some((bp, bytes)) = backup {
-        write_atomic(bp, bytes).map_err(|e| e.to_string())?;
+        // The backup is as private as the file it copies.
+        crate::io::atomic::write_atomic_like(bp, bytes, Some(path)).map_err(|e| e.to_string())?;
     }
     write_atomic(path, text.as_bytes()).map_err(|e| e.to_string())?;
     Ok(path.to_path_buf())
