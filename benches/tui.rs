@@ -55,6 +55,8 @@ fn state(size: (u16, u16)) -> State {
             refused_rows: 0,
             original: None,
             layout: None,
+            disk: None,
+            instance: None,
         },
         size,
         theme: Theme { color: true },

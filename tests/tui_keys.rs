@@ -475,6 +475,7 @@ fn unsaved_edits_left_by_a_session_are_offered_back() {
         path: recovery.clone(),
         targets: edited.clone(),
         written: Some("2026-12-02 03:00".into()),
+        note: None,
     };
     // Yes: the edits come back as unsaved edits (the file itself is untouched).
     let mut s = open_with(Some(offer()));

@@ -357,3 +357,80 @@ fn a_vanished_terminal_ends_rung_instead_of_spinning() {
         std::thread::sleep(Duration::from_millis(200));
     }
 }
+
+/// Two `rung` processes on one programme (the user's own file), then a third
+/// after the second is killed: neither loses or silently undoes the other's
+/// edits (src/io/session.rs, src/io/merge.rs; the same key by key in
+/// tests/tui_sessions.rs).
+#[test]
+fn two_sessions_on_one_programme() {
+    let cfg = tempfile::tempdir().unwrap();
+    let prog = cfg.path().join("programme.csv");
+    std::fs::copy(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("targets-demo/targets.csv"),
+        &prog,
+    )
+    .unwrap();
+    let Some(a) = Tmux::start(&command(cfg.path(), "")) else {
+        return;
+    };
+    a.wait_for("Roster · 26 of 26 targets");
+    let b = Tmux::start(&command(cfg.path(), "")).unwrap();
+    // The second session knows of the first.
+    b.wait_for("another rung (process");
+    b.wait_for("Roster · 26 of 26 targets");
+    remove_first_target(&a);
+    b.send("End");
+    b.send("d");
+    b.wait_for("Remove LPO-T2026b");
+    b.send("y");
+    b.wait_for("● unsaved");
+    let pid_b = rung_pid(&b);
+    let (ra, rb) = (
+        cfg.path().join("programme.csv.unsaved"),
+        cfg.path().join(format!("programme.csv.unsaved-{pid_b}")),
+    );
+    assert!(ra.exists() && rb.exists());
+    // A's save leaves B's unsaved edits where they are.
+    a.send("w");
+    a.wait_for("saved /");
+    assert!(!ra.exists() && rb.exists());
+    // B's save merges: both removals are in the file.
+    b.send("w");
+    b.wait_for("merged with the changes");
+    let names = |p: &Path| -> Vec<String> {
+        rung::io::targets::load(p)
+            .unwrap()
+            .targets
+            .into_iter()
+            .map(|t| t.name)
+            .collect()
+    };
+    let now = names(&prog);
+    assert_eq!(now.len(), 24, "{now:?}");
+    assert!(!now.contains(&"LPO-P01".to_string()) && !now.contains(&"LPO-T2026b".to_string()));
+    // B edits again and is killed (SIGKILL: nothing runs on its way out).
+    b.send("d");
+    b.wait_for("Remove LPO-");
+    b.send("y");
+    b.wait_for("● unsaved");
+    assert!(rb.exists());
+    signal("-KILL", &pid_b);
+    b.wait_for("RUNG-EXIT-137");
+    assert_eq!(names(&rb).len(), 23);
+    // The next session offers B's edits back (A still runs).
+    let c = Tmux::start(&command(cfg.path(), "")).unwrap();
+    c.wait_for("Unsaved edits found");
+    c.send("y");
+    c.wait_for("Roster · 23 of 23 targets");
+    assert!(!rb.exists(), "B's file is taken over by C's own");
+    c.send("w");
+    c.wait_for("saved /");
+    assert_eq!(names(&prog).len(), 23);
+    for t in [&a, &c] {
+        t.send("q");
+        assert_restored(t, "RUNG-EXIT-0");
+    }
+    // The first session's lock went with it.
+    assert!(!cfg.path().join("programme.csv.lock").exists());
+}

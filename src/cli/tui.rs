@@ -124,6 +124,8 @@ pub fn setup(a: &Args) -> Result<Setup> {
                     refused_rows: refused,
                     original,
                     layout,
+                    disk: None,
+                    instance: None,
                 },
                 msg,
             )
@@ -140,6 +142,8 @@ pub fn setup(a: &Args) -> Result<Setup> {
                     refused_rows: r.refused,
                     original,
                     layout: r.layout,
+                    disk: None,
+                    instance: None,
                 },
                 r.message,
             )
@@ -156,6 +160,8 @@ pub fn setup(a: &Args) -> Result<Setup> {
                     refused_rows: r.refused,
                     original: None,
                     layout: r.layout,
+                    disk: None,
+                    instance: None,
                 },
                 r.message,
             )
@@ -185,7 +191,36 @@ pub fn setup(a: &Args) -> Result<Setup> {
     if !instruments.contains(&instrument) {
         instruments.push(instrument);
     }
-    let (recovered, message) = find_recovery(&programme, &targets, message);
+    // Other sessions on this programme (rung::io::session): the first holds
+    // the lock; another keeps its unsaved edits in a file of its own, and every
+    // save merges with what the others saved.
+    let mut programme = programme;
+    let claim = rung::io::session::Claim::acquire(&programme.save_path);
+    programme.instance = claim.shared().then(std::process::id);
+    programme.disk = Programme::disk_now(&programme.save_path);
+    for p in [
+        programme.save_path.clone(),
+        programme.recovery_path(),
+        programme.backup_path(),
+    ] {
+        rung::io::atomic::sweep_stale_temps(&p);
+    }
+    let message = match claim.other_pid {
+        Some(pid) => Some(format!(
+            "another rung{} has {} open: your unsaved edits go to {}, and a save merges with what it saves",
+            if pid > 0 {
+                format!(" (process {pid})")
+            } else {
+                String::new()
+            },
+            programme.save_path.display(),
+            programme.recovery_path().display()
+        )),
+        None => message,
+    };
+    let first = !claim.shared();
+    *CLAIM.lock().unwrap_or_else(|e| e.into_inner()) = Some(claim);
+    let (recovered, message) = effects::find_recovery(&programme, &targets, message, first);
     Ok(Setup {
         recovered,
         settings,
@@ -201,54 +236,12 @@ pub fn setup(a: &Args) -> Result<Setup> {
     })
 }
 
-/// Unsaved edits an earlier session left beside the programme file. A file
-/// that cannot be read is left as it is and said in the first message; one that
-/// holds the programme as saved is not offered.
-fn find_recovery(
-    programme: &Programme,
-    targets: &[Target],
-    message: Option<String>,
-) -> (Option<rung::tui::state::Recovered>, Option<String>) {
-    let path = programme.recovery_path();
-    if !path.exists() {
-        return (None, message);
-    }
-    // The recovery file is written in the programme's layout, so it holds the
-    // rows the programme file had refused, as they were: those are no reason
-    // to refuse it.
-    let loaded = match rung::io::targets::load_keeping(&path) {
-        Ok(l) => match l.problems.first() {
-            Some(p) if l.problems.len() > programme.refused_rows => Err(p.to_string()),
-            _ => Ok(l.targets),
-        },
-        Err(e) => Err(e.to_string()),
-    };
-    match loaded {
-        Ok(kept) if kept == targets => (None, message),
-        Ok(kept) => {
-            let written = std::fs::metadata(&path)
-                .and_then(|m| m.modified())
-                .ok()
-                .map(|t| {
-                    chrono::DateTime::<chrono::Local>::from(t)
-                        .format("%Y-%m-%d %H:%M")
-                        .to_string()
-                });
-            let r = rung::tui::state::Recovered {
-                path,
-                targets: kept,
-                written,
-            };
-            (Some(r), message)
-        }
-        Err(why) => (
-            None,
-            Some(format!(
-                "unsaved edits in {} not offered back: {why} (the file is left as it is)",
-                path.display()
-            )),
-        ),
-    }
+/// This session's hold on its programme ([`rung::io::session::Claim`]): the
+/// lock is let go (and its file removed) when the UI ends.
+static CLAIM: std::sync::Mutex<Option<rung::io::session::Claim>> = std::sync::Mutex::new(None);
+
+fn release_claim() {
+    drop(CLAIM.lock().unwrap_or_else(|e| e.into_inner()).take());
 }
 
 fn spawn(effect: Effect, tx: &mpsc::Sender<Msg>, inline: &mut Vec<Msg>) {
@@ -260,7 +253,7 @@ fn spawn(effect: Effect, tx: &mpsc::Sender<Msg>, inline: &mut Vec<Msg>) {
         }
         // Saves and the unsaved-edits file happen at once, in order, before
         // anything else (and before a quit).
-        e @ (Effect::Save { .. } | Effect::Recovery { .. }) => inline.extend(effects::run(e)),
+        e @ (Effect::Save(_) | Effect::Recovery { .. }) => inline.extend(effects::run(e)),
         e => {
             let tx = tx.clone();
             std::thread::spawn(move || {
@@ -403,6 +396,7 @@ pub fn run(a: Args) -> Result<()> {
     watch_terminal();
     let res = event_loop(&mut terminal, setup, &signalled);
     ratatui::restore();
+    release_claim();
     let sig = signalled.load(std::sync::atomic::Ordering::Relaxed);
     let kept = match &res {
         Ok(Some(p)) => format!(

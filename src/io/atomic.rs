@@ -62,7 +62,7 @@ fn temp_prefix(name: &std::ffi::OsStr) -> String {
 }
 
 /// Whether process `pid` still runs (on this machine).
-fn process_alive(pid: u32) -> bool {
+pub(crate) fn process_alive(pid: u32) -> bool {
     if pid == std::process::id() {
         return true;
     }

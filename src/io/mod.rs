@@ -4,6 +4,8 @@ pub mod angles;
 pub mod atomic;
 pub mod csv_text;
 pub mod kinds;
+pub mod merge;
+pub mod session;
 pub mod sites;
 pub mod targets;
 pub mod write_targets;

@@ -10,7 +10,7 @@ use crate::plan::season::{
     Constraints, NightSky, PreparedPlace, ScanSetup, TargetNightRow, scan_night,
 };
 use crate::tui::msg::{
-    Effect, Msg, NightJob, PlanJob, RecoveryOp, SeasonJob, SeasonRows, SeasonSky,
+    Effect, Msg, NightJob, PlanJob, RecoveryOp, SaveJob, Saved, SeasonJob, SeasonRows, SeasonSky,
 };
 use crate::tui::state::{
     BudgetKey, MethodBody, MethodKey, MethodResult, NightData, SeasonKey, TargetRow, View,
@@ -296,6 +296,155 @@ pub fn save(
     Ok(path.to_path_buf())
 }
 
+/// Save the programme (see [`SaveJob`]): as it is when the file is still
+/// the one this session last read or wrote; merged with another session's
+/// changes when not; a conflict when both changed a target (nothing written).
+pub fn save_programme(job: &SaveJob) -> Msg {
+    use crate::io::merge::{bytes_fingerprint, merge3};
+    let path = &job.path;
+    let now = match std::fs::read(path) {
+        Ok(b) => Some(b),
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => None,
+        Err(e) => return Msg::Saved(Err(format!("cannot read {}: {e}", path.display()))),
+    };
+    let written = |text: &str| Some(bytes_fingerprint(text.as_bytes()));
+    if let Some(bytes) = now
+        .as_ref()
+        .filter(|b| Some(bytes_fingerprint(b)) != job.expect)
+    {
+        if job.force {
+            // The user chose to overwrite: what the other session saved is kept.
+            let bak = crate::io::atomic::backup_path(path);
+            if let Err(e) = crate::io::atomic::write_atomic_like(&bak, bytes, Some(path)) {
+                return Msg::Saved(Err(e.to_string()));
+            }
+            return Msg::Saved(save(path, &job.text, None).map(|p| Saved {
+                path: p,
+                disk: written(&job.text),
+                merged: None,
+            }));
+        }
+        let theirs = match crate::io::targets::load_keeping(path) {
+            Ok(l) if l.problems.is_empty() => l.targets,
+            Ok(l) => {
+                return Msg::Saved(Err(format!(
+                    "{} was changed by another session or program and a row of it no longer reads ({}); nothing was written, your edits stay unsaved",
+                    path.display(),
+                    l.problems
+                        .first()
+                        .map(|p| p.to_string())
+                        .unwrap_or_default()
+                )));
+            }
+            Err(e) => return Msg::Saved(Err(e.to_string())),
+        };
+        let m = merge3(&job.base, &theirs, &job.mine);
+        if !m.conflicts.is_empty() {
+            return Msg::SaveConflict(m.conflicts);
+        }
+        let text = crate::io::write_targets::to_csv(&m.targets);
+        return Msg::Saved(save(path, &text, job.backup.as_ref()).map(|p| Saved {
+            path: p,
+            disk: written(&text),
+            merged: Some(m),
+        }));
+    }
+    Msg::Saved(save(path, &job.text, job.backup.as_ref()).map(|p| Saved {
+        path: p,
+        disk: written(&job.text),
+        merged: None,
+    }))
+}
+
+/// Unsaved edits that an ended session left beside the programme file
+/// (`crate::io::session::left_recoveries`: this session's own file name when it
+/// is the first, and the files of other sessions that no longer run), the
+/// newest first. Edits made on an earlier version of the file are merged with
+/// what was saved since (`crate::io::merge`), a target both changed taking the
+/// edits' version, and the question says so. A file that cannot be read is
+/// left as it is and said in the first message; one that holds the programme
+/// as it is now is not offered.
+pub fn find_recovery(
+    programme: &crate::tui::state::Programme,
+    targets: &[Target],
+    message: Option<String>,
+    first: bool,
+) -> (Option<crate::tui::state::Recovered>, Option<String>) {
+    let found = crate::io::session::left_recoveries(&programme.save_path, first);
+    let Some(path) = found.first().cloned() else {
+        return (None, message);
+    };
+    let message = match found.len() {
+        1 => message,
+        n => message.or_else(|| {
+            Some(format!(
+                "{} more files of unsaved edits from ended sessions are offered at the next start",
+                n - 1
+            ))
+        }),
+    };
+    let read = std::fs::read_to_string(&path)
+        .map_err(|e| e.to_string())
+        .and_then(|text| crate::io::merge::read_recovery(&text, &path, programme.refused_rows));
+    let r = match read {
+        Ok(r) => r,
+        Err(why) => {
+            return (
+                None,
+                Some(format!(
+                    "unsaved edits in {} not offered back: {why} (the file is left as it is)",
+                    path.display()
+                )),
+            );
+        }
+    };
+    let (kept, note) = match r.base {
+        Some((fp, base)) if fp != programme.disk => {
+            let m = crate::io::merge::merge3(&base, targets, &r.mine);
+            let mut kept = m.targets;
+            for name in &m.conflicts {
+                kept.retain(|t| &t.name != name);
+                if let Some(t) = r.mine.iter().find(|t| &t.name == name) {
+                    kept.push(t.clone());
+                }
+            }
+            let mut note = format!(
+                "They were made on an earlier version of {}: restoring merges them with what was saved since",
+                programme.save_path.display()
+            );
+            if !m.theirs_changed.is_empty() {
+                note.push_str(&format!(" ({})", m.theirs_changed.join(", ")));
+            }
+            if !m.conflicts.is_empty() {
+                note.push_str(&format!(
+                    ", and where both changed a target ({}) the edits' version is taken",
+                    m.conflicts.join(", ")
+                ));
+            }
+            (kept, Some(note))
+        }
+        _ => (r.mine, None),
+    };
+    if kept == targets {
+        return (None, message);
+    }
+    let written = std::fs::metadata(&path)
+        .and_then(|m| m.modified())
+        .ok()
+        .map(|t| {
+            chrono::DateTime::<chrono::Local>::from(t)
+                .format("%Y-%m-%d %H:%M")
+                .to_string()
+        });
+    let r = crate::tui::state::Recovered {
+        path,
+        targets: kept,
+        written,
+        note,
+    };
+    (Some(r), message)
+}
+
 /// Keep, remove or set aside the unsaved-edits file (see [`RecoveryOp`]).
 /// A file that is already absent counts as removed.
 pub fn keep_recovery(path: &std::path::Path, op: &RecoveryOp) -> std::result::Result<(), String> {
@@ -354,9 +503,7 @@ pub fn run(effect: Effect) -> Vec<Msg> {
         Effect::ExportPlan(job) => vec![Msg::Exported(
             export_plan(&job).map_err(|e| format!("plan not exported: {e}")),
         )],
-        Effect::Save { path, text, backup } => {
-            vec![Msg::Saved(save(&path, &text, backup.as_ref()))]
-        }
+        Effect::Save(job) => vec![save_programme(&job)],
         Effect::Recovery { path, op } => vec![Msg::RecoveryKept(keep_recovery(&path, &op))],
         Effect::Batch(list) => list.into_iter().flat_map(run).collect(),
     }

@@ -163,8 +163,11 @@ pub enum Msg {
     SeasonReady(Box<SeasonRows>),
     /// The season could not be computed.
     SeasonFailed(SeasonKey, String),
-    /// A save finished: the path written, or the error.
-    Saved(Result<PathBuf, String>),
+    /// A save finished: what was written, or the error.
+    Saved(Result<Saved, String>),
+    /// A save found the file changed by another session, and both changed
+    /// these targets: nothing was written.
+    SaveConflict(Vec<String>),
     /// A budget was computed (or failed).
     BudgetReady(
         Box<BudgetKey>,
@@ -226,6 +229,40 @@ pub struct PlanJob {
     pub dir: PathBuf,
 }
 
+/// A save of the programme: written as `text` when the file is still the one
+/// this session last read or wrote (`expect`); else merged by target with what
+/// another session saved there ([`crate::io::merge::merge3`] of `base`, the
+/// file, `mine`), and refused when both changed a target, unless `force`.
+#[derive(Debug, Clone)]
+pub struct SaveJob {
+    /// Where the programme goes.
+    pub path: PathBuf,
+    /// CSV text of `mine`.
+    pub text: String,
+    /// A copy of the file as it was loaded, written once before the first save.
+    pub backup: Option<(PathBuf, Vec<u8>)>,
+    /// Fingerprint of the file as this session last read or wrote it (`None`: no file then).
+    pub expect: Option<u64>,
+    /// Write even over another session's changes (the user chose to): the
+    /// file as it is then goes to the backup first.
+    pub force: bool,
+    /// The programme as this session last read or wrote it.
+    pub base: Vec<Target>,
+    /// The programme as this session has it.
+    pub mine: Vec<Target>,
+}
+
+/// What a save wrote.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Saved {
+    /// The file.
+    pub path: PathBuf,
+    /// Fingerprint of the bytes written.
+    pub disk: Option<u64>,
+    /// When another session had saved meanwhile: the merge that was written.
+    pub merged: Option<crate::io::merge::Merged>,
+}
+
 /// What to do with the unsaved-edits file.
 #[derive(Debug, Clone, PartialEq)]
 pub enum RecoveryOp {
@@ -252,15 +289,8 @@ pub enum Effect {
     ExportPlan(Box<PlanJob>),
     /// Compute a distance-method report for one target (in the background).
     Method(Box<MethodKey>),
-    /// Write the programme atomically; first keep a copy of the original file when asked.
-    Save {
-        /// Where the programme goes.
-        path: PathBuf,
-        /// CSV text.
-        text: String,
-        /// A copy of the file as it was loaded, written once before the first save.
-        backup: Option<(PathBuf, Vec<u8>)>,
-    },
+    /// Write the programme atomically (see [`SaveJob`]).
+    Save(Box<SaveJob>),
     /// Do something with the unsaved-edits (recovery) file.
     Recovery {
         /// The recovery file.

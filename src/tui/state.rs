@@ -136,6 +136,14 @@ pub struct Programme {
     /// The source file as written (comments, column order, refused rows), for
     /// saves that keep it even when every target read from it is removed.
     pub layout: Option<std::sync::Arc<crate::io::csv_text::Layout>>,
+    /// Fingerprint of the bytes of the file at `save_path` as this session
+    /// last read or wrote them (`None`: there was no file): a save that finds
+    /// other bytes there merges with them ([`crate::io::merge`]).
+    pub disk: Option<u64>,
+    /// `Some(pid)` when another session held the programme at start: this
+    /// session's unsaved edits then go to `<file>.unsaved-<pid>`
+    /// ([`crate::io::session`]).
+    pub instance: Option<u32>,
 }
 
 impl Programme {
@@ -159,7 +167,14 @@ impl Programme {
     /// either (a signal, a panic, a closed terminal, a power cut) leaves it for
     /// the next start to offer back.
     pub fn recovery_path(&self) -> PathBuf {
-        crate::io::atomic::with_suffix(&self.save_path, ".unsaved")
+        crate::io::session::recovery_path(&self.save_path, self.instance)
+    }
+
+    /// The fingerprint of the file at `path` now (`None` when there is none).
+    pub fn disk_now(path: &std::path::Path) -> Option<u64> {
+        std::fs::read(path)
+            .ok()
+            .map(|b| crate::io::merge::bytes_fingerprint(&b))
     }
 }
 
@@ -178,6 +193,9 @@ pub struct Recovered {
     pub targets: Vec<Target>,
     /// When it was last written (local time text), if known.
     pub written: Option<String>,
+    /// What restoring does beyond bringing the edits back (edits made on an
+    /// earlier version of the file are merged with what was saved since).
+    pub note: Option<String>,
 }
 
 /// One target in one night, as the views show it.
@@ -398,6 +416,9 @@ pub enum Question {
     Remove(String),
     /// Restore the unsaved edits an earlier session left?
     Restore(Box<Recovered>),
+    /// The file changed since this session read it and both changed these
+    /// targets: overwrite it with this session's programme?
+    Overwrite(Vec<String>),
 }
 
 /// How a message reads.

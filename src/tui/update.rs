@@ -131,11 +131,19 @@ fn follow_clock(s: &mut State) -> bool {
 }
 
 /// Keep the unsaved edits in the recovery file, or remove it once nothing is unsaved.
+/// The recovery file records the base the edits were made on, so that edits
+/// restored after a crash merge with what was saved since ([`crate::io::merge`]).
 fn keep_edits(s: &State) -> Effect {
     Effect::Recovery {
         path: s.programme.recovery_path(),
         op: if s.dirty() {
-            RecoveryOp::Keep(s.programme.text_of(&s.targets))
+            RecoveryOp::Keep(crate::io::merge::recovery_text(
+                &s.programme.save_path.display().to_string(),
+                s.programme.disk,
+                &s.saved,
+                &s.targets,
+                &s.programme.text_of(&s.targets),
+            ))
         } else {
             RecoveryOp::Remove
         },
@@ -404,7 +412,8 @@ fn move_sel(s: &mut State, to: i64) -> Option<Effect> {
     season_effect(s)
 }
 
-fn save(s: &mut State) -> Option<Effect> {
+/// Save; `force` writes over another session's changes (the user said so).
+fn save(s: &mut State, force: bool) -> Option<Effect> {
     let p = &s.programme;
     let backup = match (&p.original, &p.source) {
         (Some(bytes), Some(src)) if !p.is_demo && *src == p.save_path => {
@@ -414,11 +423,15 @@ fn save(s: &mut State) -> Option<Effect> {
     };
     let path = p.save_path.clone();
     say(s, format!("saving {} …", path.display()), Level::Info);
-    Some(Effect::Save {
+    Some(Effect::Save(Box::new(crate::tui::msg::SaveJob {
         path,
         text: s.programme.text_of(&s.targets),
         backup,
-    })
+        expect: s.programme.disk,
+        force,
+        base: s.saved.clone(),
+        mine: s.targets.clone(),
+    })))
 }
 
 fn act(s: &mut State, a: Action) -> Option<Effect> {
@@ -514,10 +527,42 @@ fn act(s: &mut State, a: Action) -> Option<Effect> {
                 (Question::Restore(r), Action::Yes) => {
                     let n = r.targets.len();
                     let what = format!(
-                        "restored the unsaved edits from {} ({n} targets)",
-                        r.path.display()
+                        "restored the unsaved edits from {} ({n} targets){}",
+                        r.path.display(),
+                        r.note
+                            .as_ref()
+                            .map(|x| format!("; {x}"))
+                            .unwrap_or_default()
                     );
-                    change(s, r.targets, what)
+                    let e = change(s, r.targets, what);
+                    // Edits of another (ended) session now live in this
+                    // session's file: the other file goes, or it would be
+                    // offered again.
+                    if r.path != s.programme.recovery_path() {
+                        Effect::join(
+                            e,
+                            Some(Effect::Recovery {
+                                path: r.path,
+                                op: RecoveryOp::Remove,
+                            }),
+                        )
+                    } else {
+                        e
+                    }
+                }
+                (Question::Overwrite(_), Action::Yes) => save(s, true),
+                (Question::Overwrite(names), _) => {
+                    say(
+                        s,
+                        format!(
+                            "not saved: {} stays as the other session saved it; your edits ({}) stay unsaved, kept in {}",
+                            s.programme.save_path.display(),
+                            names.join(", "),
+                            s.programme.recovery_path().display()
+                        ),
+                        Level::Warn,
+                    );
+                    None
                 }
                 (Question::Restore(r), _) => {
                     let old = crate::tui::state::declined_recovery_path(&r.path);
@@ -769,7 +814,7 @@ fn act_main_inner(s: &mut State, a: Action) -> Option<Effect> {
                 None
             }
         },
-        Action::Save => save(s),
+        Action::Save => save(s, false),
         Action::Sites => {
             let sel = s
                 .sites
@@ -968,14 +1013,57 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
             }
             None
         }
-        Msg::Saved(Ok(p)) => {
+        Msg::Saved(Ok(sv)) => {
+            let p = sv.path;
             s.programme.source = Some(p.clone());
             s.programme.save_path = p.clone();
             s.programme.is_demo = false;
             s.programme.original = None;
-            s.saved = s.targets.clone();
-            say(s, format!("saved {}", p.display()), Level::Good);
-            Some(keep_edits(s))
+            s.programme.disk = sv.disk;
+            match sv.merged {
+                // Another session had saved meanwhile: what was written is the
+                // merge, which this session now shows.
+                Some(m) => {
+                    let keep = s.selected().map(|t| t.name.clone());
+                    let theirs = if m.theirs_changed.is_empty() {
+                        String::new()
+                    } else {
+                        format!(" ({})", m.theirs_changed.join(", "))
+                    };
+                    s.targets = m.targets;
+                    s.saved = s.targets.clone();
+                    let e = after_change(
+                        s,
+                        format!(
+                            "saved {}, merged with the changes another session saved to it{theirs}",
+                            p.display()
+                        ),
+                        keep,
+                    );
+                    if let Some((text, _)) = s.message.clone() {
+                        say(s, text, Level::Good);
+                    }
+                    e
+                }
+                None => {
+                    s.saved = s.targets.clone();
+                    say(s, format!("saved {}", p.display()), Level::Good);
+                    Some(keep_edits(s))
+                }
+            }
+        }
+        Msg::SaveConflict(names) => {
+            say(
+                s,
+                format!(
+                    "NOT saved: another session saved {} meanwhile, and you both changed {}",
+                    s.programme.save_path.display(),
+                    names.join(", ")
+                ),
+                Level::Warn,
+            );
+            s.overlay = Some(Overlay::Question(Question::Overwrite(names)));
+            None
         }
         Msg::RecoveryKept(Ok(())) => None,
         Msg::RecoveryKept(Err(e)) => {

@@ -213,7 +213,7 @@ pub fn question(s: &State, q: &Question, area: Rect, buf: &mut Buffer) {
         Question::Restore(r) => (
             "Unsaved edits found",
             format!(
-                "An earlier session ended with unsaved edits, kept in {}{} ({} targets). \
+                "An earlier session ended with unsaved edits, kept in {}{} ({} targets).{} \
                  Restore them? y restores them as unsaved edits; n sets them aside in {}.",
                 r.path.display(),
                 r.written
@@ -221,7 +221,22 @@ pub fn question(s: &State, q: &Question, area: Rect, buf: &mut Buffer) {
                     .map(|w| format!(" at {w}"))
                     .unwrap_or_default(),
                 r.targets.len(),
+                r.note
+                    .as_ref()
+                    .map(|n| format!(" {n}."))
+                    .unwrap_or_default(),
                 crate::tui::state::declined_recovery_path(&r.path).display()
+            ),
+        ),
+        Question::Overwrite(names) => (
+            "Changed by another session",
+            format!(
+                "Another session saved {} since this one read it, and you both changed {}. \
+                 Overwrite it with this session's programme? y overwrites (the file as the \
+                 other session saved it is kept in {}); n leaves it and keeps your edits unsaved.",
+                s.programme.save_path.display(),
+                names.join(", "),
+                s.programme.backup_path().display()
             ),
         ),
     };
