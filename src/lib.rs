@@ -14,6 +14,7 @@ pub mod error;
 pub mod io;
 pub mod ladder;
 pub mod linalg;
+pub mod output;
 pub mod photometry;
 pub mod plan;
 pub mod programme;

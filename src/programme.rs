@@ -570,9 +570,10 @@ pub fn report(settings: &Settings, target: &Target) -> Result<Report> {
             format!("no distance method for kind '{}'", target.kind.as_str()),
         )
     })?;
+    let goal = settings.goal_for(target);
+    let target = &*crate::ladder::with_goal(target, goal);
     let s = settings.setting(target);
     let em = &settings.photometer;
-    let goal = settings.goal_for(target);
     let any = m.as_any();
     if let Some(p) = any.downcast_ref::<ParallaxMethod>() {
         let plan = match goal {

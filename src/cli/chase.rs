@@ -9,7 +9,6 @@ use rung::io::targets::{Kind, Target};
 use rung::ladder::transient::{
     Chase, ChaseOptions, Relation, Role, TransientConfig, TransientMethod, check_band, night_of,
 };
-use rung::plan::budget::verdict_text;
 use rung::programme::Report;
 use serde_json::{Map, Value, json};
 use std::path::PathBuf;
@@ -268,17 +267,14 @@ pub fn run(a: Args) -> Result<()> {
         })
         .collect();
     if a.json {
-        println!(
-            "{}",
-            serde_json::to_string_pretty(&to_json(
-                &chase,
-                &site,
-                &target,
-                now,
-                &sky,
-                &photometer.instrument.name
-            ))?
-        );
+        super::print_json(&to_json(
+            &chase,
+            &site,
+            &target,
+            now,
+            &sky,
+            &photometer.instrument.name,
+        ))?;
     } else {
         print_table(&chase, &site, &target, &sky);
     }
@@ -507,7 +503,7 @@ fn to_json(
 
 fn print_table(c: &Chase, site: &rung::astro::site::Site, t: &Target, sky: &[Option<f64>]) {
     let o = |v: Option<f64>, dp: usize| super::opt(v, dp);
-    println!(
+    super::outln!(
         "Chase of {} in {} from {} at {} (times local {})",
         c.target,
         c.bands.join(", "),
@@ -518,11 +514,11 @@ fn print_table(c: &Chase, site: &rung::astro::site::Site, t: &Target, sky: &[Opt
         site.timezone.name()
     );
     if c.provisional {
-        println!("  PROVISIONAL: {}", c.classification.note);
+        super::outln!("  PROVISIONAL: {}", c.classification.note);
     } else {
-        println!("  {}", c.classification.note);
+        super::outln!("  {}", c.classification.note);
     }
-    println!(
+    super::outln!(
         "  B maximum expected {} at {:.2} mag (Δm15 {:.2}, B−V {:.2}, rise {:.1} d assumed)",
         c.t_max.round_to_second().iso(),
         c.placement.params.m_max,
@@ -530,9 +526,18 @@ fn print_table(c: &Chase, site: &rung::astro::site::Site, t: &Target, sky: &[Opt
         c.placement.params.colour_mag,
         c.placement.params.rise_days
     );
-    println!(
+    super::outln!(
         "  {:<10} {:>5}-{:<5} {:>5} {:>5} {:>5} {:>5} {:>6} {:>5} {:>6}  plan",
-        "night", "from", "to", "airm", "moon°", "sun°", "sky", "phase", "B", "exp_s"
+        "night",
+        "from",
+        "to",
+        "airm",
+        "moon°",
+        "sun°",
+        "sky",
+        "phase",
+        "B",
+        "exp_s"
     );
     for (n, s) in c.nights.iter().zip(sky) {
         let mark = match (n.planned, n.classification) {
@@ -540,7 +545,7 @@ fn print_table(c: &Chase, site: &rung::astro::site::Site, t: &Target, sky: &[Opt
             (true, false) => "*      ",
             _ => "       ",
         };
-        println!(
+        super::outln!(
             "  {:<10} {:>5}-{:<5} {:>5} {:>5.0} {:>5.0} {:>5} {:>6} {:>5} {:>6}  {}{}",
             n.night,
             super::local_hm(n.window_start, site),
@@ -556,14 +561,14 @@ fn print_table(c: &Chase, site: &rung::astro::site::Site, t: &Target, sky: &[Opt
             n.reason.clone().unwrap_or_default()
         );
     }
-    println!(
+    super::outln!(
         "  last observable night: {}",
         c.last_night
             .map(|d| d.to_string())
             .unwrap_or_else(|| "none".into())
     );
     let d = &c.design;
-    println!(
+    super::outln!(
         "  cadence: every {} night(s) around maximum, every {} on the decline: {} epochs in {}, {:.2} h with overheads{}",
         d.near_max_every,
         d.cadence_days,
@@ -577,21 +582,33 @@ fn print_table(c: &Chase, site: &rung::astro::site::Site, t: &Target, sky: &[Opt
         }
     );
     for s in &c.sparser {
-        println!(
+        super::outln!(
             "  sparser: every {} around maximum, {} on the decline ({} epochs, {:.2} h): {}",
-            s.near_max_every, s.cadence_days, s.epochs, s.hours, s.reason
+            s.near_max_every,
+            s.cadence_days,
+            s.epochs,
+            s.hours,
+            s.reason
         );
     }
     if let Some(f) = d.fit {
-        println!(
+        super::outln!(
             "  σ(t_max) {:.2} d   σ(peak) {:.3} mag   σ(Δm15) {:.3} mag   σ(B−V) {:.3} mag   σ(rise) {:.1} d",
-            f.sigma_tmax_d, f.sigma_peak_mag, f.sigma_dm15, f.sigma_colour_mag, f.sigma_rise_d
+            f.sigma_tmax_d,
+            f.sigma_peak_mag,
+            f.sigma_dm15,
+            f.sigma_colour_mag,
+            f.sigma_rise_d
         );
     }
     if let Some(h) = c.host_extinction {
-        println!(
+        super::outln!(
             "  host dust from the colour curve: E(B−V) {:.2} ± {:.3} mag, A_V {:.2} ± {:.2} mag (R_V {})",
-            h.ebv_mag, h.sigma_ebv_mag, h.av_mag, h.sigma_av_mag, h.r_v
+            h.ebv_mag,
+            h.sigma_ebv_mag,
+            h.av_mag,
+            h.sigma_av_mag,
+            h.r_v
         );
     }
     if let Some(b) = d.budget {
@@ -607,7 +624,7 @@ fn print_table(c: &Chase, site: &rung::astro::site::Site, t: &Target, sky: &[Opt
                 )
             })
             .collect();
-        println!(
+        super::outln!(
             "  standardized by {}: σ_μ {:.3} mag = {}",
             c.standardizer.relation.words(),
             b.sigma_mu_mag,
@@ -617,25 +634,31 @@ fn print_table(c: &Chase, site: &rung::astro::site::Site, t: &Target, sky: &[Opt
             Role::Calibrator {
                 host_mu_mag,
                 host_mu_err_mag,
-            } => println!(
+            } => super::outln!(
                 "  calibrator (host μ {host_mu_mag} ± {host_mu_err_mag}): peak absolute magnitude M_B {:.2} ± {:.3} mag expected; σ as distance {:.1}% (goal {}%, floor {:.1}%)",
-                c.peak_abs_mag, b.sigma_mu_mag, b.distance_precision_pct, c.goal_pct, b.floor_pct
+                c.peak_abs_mag,
+                b.sigma_mu_mag,
+                b.distance_precision_pct,
+                c.goal_pct,
+                b.floor_pct
             ),
-            _ => println!(
+            _ => super::outln!(
                 "  σ_d/d {:.1}% (goal {}%, floor {:.1}%)",
-                b.distance_precision_pct, c.goal_pct, b.floor_pct
+                b.distance_precision_pct,
+                c.goal_pct,
+                b.floor_pct
             ),
         }
     }
-    println!(
+    super::outln!(
         "  verdict: {}{}",
         if c.provisional { "provisional, " } else { "" },
-        verdict_text(&c.verdict)
+        c.verdict.text()
     );
     for s in &c.cautions {
-        println!("  CAUTION: {s}");
+        super::outln!("  CAUTION: {s}");
     }
     for s in c.notes.iter().filter(|n| !n.starts_with("PROVISIONAL")) {
-        println!("  note: {s}");
+        super::outln!("  note: {s}");
     }
 }

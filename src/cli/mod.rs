@@ -15,6 +15,30 @@ use anyhow::Result;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicBool, Ordering};
 
+/// Print a line of a table or report through the output layer
+/// (`rung::output::table_line`: names cannot drive the terminal, no number is
+/// written as `-0.00`): `outln!("...", args)` to standard output,
+/// `outln!(writer, "...", args)` to a writer (returns its `io::Result`).
+macro_rules! outln {
+    () => {
+        println!()
+    };
+    ($fmt:literal $($arg:tt)*) => {
+        println!("{}", rung::output::table_line(&format!($fmt $($arg)*)))
+    };
+    ($w:expr, $fmt:literal $($arg:tt)*) => {
+        writeln!($w, "{}", rung::output::table_line(&format!($fmt $($arg)*)))
+    };
+}
+pub(crate) use outln;
+
+/// Print a JSON document through the output layer (`rung::output::json`:
+/// pretty, non-finite numbers as `null`, no negative zero).
+pub fn print_json<T: serde::Serialize + ?Sized>(v: &T) -> Result<()> {
+    println!("{}", rung::output::json(v)?);
+    Ok(())
+}
+
 /// Set when some input rows were refused; `main` then exits with code 3
 /// (the output for the good rows was still produced).
 pub static SKIPPED_INPUT: AtomicBool = AtomicBool::new(false);
@@ -24,7 +48,8 @@ pub fn skipped_input() -> bool {
     SKIPPED_INPUT.load(Ordering::Relaxed)
 }
 
-/// The error and its causes on one line.
+/// The error and its causes on one line, with any control character (from a
+/// name in a file) shown as an escape (`rung::output::one_line`).
 pub fn one_line(e: &anyhow::Error) -> String {
     let mut s = e.to_string();
     for c in e.chain().skip(1) {
@@ -34,7 +59,7 @@ pub fn one_line(e: &anyhow::Error) -> String {
             s.push_str(&cs);
         }
     }
-    s.replace('\n', " ")
+    rung::output::one_line(&s.replace('\n', " ")).into_owned()
 }
 
 /// Folder of the demo programme: `$RUNG_DEMO_DIR`, else `targets-demo/` beside
@@ -85,7 +110,7 @@ pub fn settings(
     let st = rung::programme::Settings::resolve(&req, now()?)?;
     // A site whose zone contradicts its longitude (`Site::zone_warning`) is said on stderr.
     if let Some(w) = st.site.zone_warning() {
-        eprintln!("rung: warning: {w}");
+        eprintln!("rung: warning: {}", rung::output::one_line(&w));
     }
     Ok(st)
 }
@@ -122,10 +147,13 @@ pub fn load_targets(path: &Path) -> Result<Vec<rung::io::targets::Target>> {
     }
     let l = l?;
     for w in &l.warnings {
-        eprintln!("rung: warning: {w}");
+        eprintln!("rung: warning: {}", rung::output::one_line(&w.to_string()));
     }
     for p in &l.problems {
-        eprintln!("rung: warning: {p} (row skipped)");
+        eprintln!(
+            "rung: warning: {} (row skipped)",
+            rung::output::one_line(&p.to_string())
+        );
         SKIPPED_INPUT.store(true, Ordering::Relaxed);
     }
     if l.targets.is_empty() {
@@ -158,9 +186,10 @@ pub fn default_run() -> Result<()> {
     })
 }
 
-/// Format an optional number with a fixed number of decimals, or "-".
+/// Format an optional number with a fixed number of decimals, or "-" when it
+/// has no finite value (`rung::output::num`).
 pub fn opt(v: Option<f64>, dp: usize) -> String {
-    v.map(|x| format!("{x:.dp$}")).unwrap_or_else(|| "-".into())
+    rung::output::num(v, dp)
 }
 
 /// Local clock time (HH:MM) of an instant at a site, or "-".

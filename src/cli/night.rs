@@ -157,12 +157,12 @@ pub fn run(a: Args) -> Result<()> {
                 .collect();
             o.insert("targets".into(), Value::Array(list));
         }
-        println!("{}", serde_json::to_string_pretty(&Value::Object(o))?);
+        super::print_json(&Value::Object(o))?;
         return Ok(());
     }
     let l = |e: &Event| super::local_hm(e.t, &site);
     let u = |e: &Event| super::utc_hm(e.t);
-    println!(
+    super::outln!(
         "Night of {date} at {} ({:.4}°, {:.4}°, {:.0} m; times local {} / UTC)",
         site.name,
         site.lat_deg,
@@ -170,9 +170,14 @@ pub fn run(a: Args) -> Result<()> {
         site.elev_m,
         site.timezone.name()
     );
-    println!(
+    super::outln!(
         "  {:<14} {:>7} {:>7}   {:<14} {:>7} {:>7}",
-        "", "local", "UTC", "", "local", "UTC"
+        "",
+        "local",
+        "UTC",
+        "",
+        "local",
+        "UTC"
     );
     for (n1, e1, n2, e2) in [
         ("sunset", &e.sunset, "sunrise", &e.sunrise),
@@ -191,7 +196,7 @@ pub fn run(a: Args) -> Result<()> {
         ),
         ("moonrise", &e.moonrise, "moonset", &e.moonset),
     ] {
-        println!(
+        super::outln!(
             "  {:<14} {:>7} {:>7}   {:<14} {:>7} {:>7}",
             n1,
             l(e1),
@@ -201,25 +206,35 @@ pub fn run(a: Args) -> Result<()> {
             u(e2)
         );
     }
-    println!(
+    super::outln!(
         "  Moon {:.0}% lit, {}",
         100.0 * e.moon_illumination,
         if e.moon_waxing { "waxing" } else { "waning" }
     );
     for ev in [&e.astronomical_dusk, &e.sunset] {
         if let Some(r) = &ev.reason {
-            println!("  note: {r}");
+            super::outln!("  note: {r}");
         }
     }
     if !rows.is_empty() {
-        println!();
-        println!(
+        super::outln!();
+        super::outln!(
             "  Targets: window above {:.0}° with the Sun below {:.0}° (local times)",
-            limits.min_alt_deg, limits.sun_alt_deg
+            limits.min_alt_deg,
+            limits.sun_alt_deg
         );
-        println!(
+        super::outln!(
             "  {:<20} {:<9} {:>6} {:>6} {:>6} {:>13} {:>6} {:>7} {:>7} {:>5}",
-            "name", "kind", "rise", "trans", "set", "window", "hours", "max alt", "airmass", "Moon"
+            "name",
+            "kind",
+            "rise",
+            "trans",
+            "set",
+            "window",
+            "hours",
+            "max alt",
+            "airmass",
+            "Moon"
         );
         for ((t, tn), (moon_sep, _)) in rows.iter().zip(&extras) {
             let w = tn
@@ -232,7 +247,7 @@ pub fn run(a: Args) -> Result<()> {
                     )
                 })
                 .unwrap_or_else(|| "-".into());
-            println!(
+            super::outln!(
                 "  {:<20} {:<9} {:>6} {:>6} {:>6} {:>13} {:>6.2} {:>7} {:>7} {:>5}",
                 t.name,
                 t.kind.as_str(),
@@ -250,7 +265,7 @@ pub fn run(a: Args) -> Result<()> {
         }
         for ((t, _), (_, caution)) in rows.iter().zip(&extras) {
             if let Some((at, m)) = caution {
-                println!(
+                super::outln!(
                     "  {} from {}: {m}",
                     t.name,
                     super::local_hm(Some(*at), &site)

@@ -7,8 +7,8 @@ use rung::astro::time::{Instant, parse_instant};
 use rung::astro::{pointing, sun_caution};
 use rung::io::angles::{parse_dec_deg, parse_ra_deg};
 use rung::io::targets::{Kind, Target};
+use rung::ladder::Setting;
 use rung::ladder::parallax::{FactorAxis, ParallaxConfig, ParallaxMethod, ParallaxPlan};
-use rung::ladder::{Setting, Verdict};
 use rung::programme::{Report, Settings};
 use serde_json::{Value, json};
 use std::path::PathBuf;
@@ -251,7 +251,7 @@ pub fn run(a: Args) -> Result<()> {
             &cautions,
             &s,
         )?;
-        println!("{}", serde_json::to_string_pretty(&v)?);
+        super::print_json(&v)?;
         return Ok(());
     }
     print_text(
@@ -373,23 +373,6 @@ fn to_json(
     }))
 }
 
-fn verdict_text(v: &Verdict) -> String {
-    match v {
-        Verdict::Reachable => "reachable".into(),
-        Verdict::LimitedByFloor { floor_pct } => {
-            format!("not reachable: limited by the per-epoch floor (best {floor_pct:.1} %)")
-        }
-        Verdict::NotObservable { when } => format!(
-            "not observable in the range{}",
-            when.as_ref().map(|w| format!(" ({w})")).unwrap_or_default()
-        ),
-        Verdict::NeedsMoreSeasons { seasons } => match seasons {
-            Some(n) => format!("needs more seasons (about {n})"),
-            None => "needs more seasons".into(),
-        },
-    }
-}
-
 #[allow(clippy::too_many_arguments)]
 fn print_text(
     site: &rung::astro::site::Site,
@@ -402,7 +385,7 @@ fn print_text(
     s: &Setting,
 ) {
     let el = &plan.ellipse;
-    println!(
+    super::outln!(
         "{} from {} with {}: ϖ = {:.2} mas (d ≈ {:.1} pc), nights {} to {} ({mode})",
         t.name,
         site.name,
@@ -412,12 +395,15 @@ fn print_text(
         s.from,
         s.to
     );
-    println!(
+    super::outln!(
         "  parallactic ellipse {:.2} × {:.2} mas, major axis at PA {:.1}°, ecliptic latitude {:+.1}°",
-        el.semi_major_mas, el.semi_minor_mas, el.pa_major_deg, el.ecliptic_lat_deg
+        el.semi_major_mas,
+        el.semi_minor_mas,
+        el.pa_major_deg,
+        el.ecliptic_lat_deg
     );
     let obs = plan.series.nights.iter().filter(|n| n.observable).count();
-    println!(
+    super::outln!(
         "  {} nights, {obs} observable within ±{:.1} h below airmass {:.2}; candidates at |P_{}| ≥ {:.2} au ({:.0} % of {:.3}): {} season(s)",
         plan.series.nights.len(),
         cfg.ha_limit_h,
@@ -430,7 +416,7 @@ fn print_text(
     );
     for season in plan.series.seasons(cfg.season_gap_d) {
         if let (Some(a), Some(b)) = (season.first(), season.last()) {
-            println!(
+            super::outln!(
                 "    season {} to {}: {} candidate night(s)",
                 plan.series.nights[*a].night,
                 plan.series.nights[*b].night,
@@ -439,13 +425,22 @@ fn print_text(
         }
     }
     if !plan.epochs.is_empty() {
-        println!("  epochs:");
-        println!(
+        super::outln!("  epochs:");
+        super::outln!(
             "    {:<20} {:>3} {:>7} {:>7} {:>6} {:>6} {:>6} {:>8} {:>4} {:>7}",
-            "time (UTC)", "ssn", "P_ra", "P_dec", "HA h", "X", "SNR", "exp s", "n", "σ mas"
+            "time (UTC)",
+            "ssn",
+            "P_ra",
+            "P_dec",
+            "HA h",
+            "X",
+            "SNR",
+            "exp s",
+            "n",
+            "σ mas"
         );
         for e in &plan.epochs {
-            println!(
+            super::outln!(
                 "    {:<20} {:>3} {:>+7.3} {:>+7.3} {:>+6.2} {:>6.3} {:>6.0} {:>8.1} {:>4} {:>7.2}",
                 e.epoch.time.round_to_second().iso(),
                 e.season,
@@ -461,7 +456,7 @@ fn print_text(
         }
     }
     if let Some(sol) = &plan.solution {
-        println!(
+        super::outln!(
             "  σ_ϖ = {:.2} mas, σ_μ = {:.2} mas/yr (RA {:.2}, Dec {:.2}), ϖ–μ correlation {:+.2}, baseline {:.2} yr",
             sol.sigma_parallax_mas,
             sol.sigma_pm_masyr,
@@ -470,16 +465,17 @@ fn print_text(
             sol.corr_parallax_pm,
             sol.baseline_yr
         );
-        println!(
+        super::outln!(
             "  σ_d/d = {:.2} %, {:.2} telescope hours with overheads",
-            plan.prediction.distance_precision_pct, plan.prediction.hours_needed
+            plan.prediction.distance_precision_pct,
+            plan.prediction.hours_needed
         );
     }
-    println!("  verdict: {}", verdict_text(&plan.prediction.verdict));
+    super::outln!("  verdict: {}", plan.prediction.verdict.text());
     for n in &plan.prediction.notes {
-        println!("  note: {n}");
+        super::outln!("  note: {n}");
     }
     for c in cautions {
-        println!("  {c}");
+        super::outln!("  {c}");
     }
 }

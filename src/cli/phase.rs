@@ -6,7 +6,6 @@ use rung::astro::bary::bjd_tdb;
 use rung::astro::time::parse_instant;
 use rung::io::angles::{parse_dec_deg, parse_ra_deg};
 use rung::io::targets::{BANDS, Kind, Target};
-use rung::ladder::Verdict;
 use rung::ladder::pulsator::{PhaseReport, PulsatorMethod};
 use rung::programme::Report;
 use serde_json::{Map, Value, json};
@@ -377,7 +376,7 @@ fn print_json(
     }
     o.insert("cautions".into(), json!(r.cautions));
     o.insert("notes".into(), json!(r.notes));
-    println!("{}", serde_json::to_string_pretty(&Value::Object(o))?);
+    super::print_json(&Value::Object(o))?;
     Ok(())
 }
 
@@ -390,7 +389,7 @@ fn print_text(
     at: Option<(rung::astro::time::Instant, rung::astro::bary::Bjd)>,
 ) {
     let e = &r.star.ephemeris;
-    println!(
+    super::outln!(
         "{} (P = {} d, E0 = BJD_TDB {}, ±{} d) from {}; times local {} / UTC",
         target.name,
         e.period_d,
@@ -400,7 +399,7 @@ fn print_text(
         site.timezone.name()
     );
     if let Some((t, b)) = at {
-        println!(
+        super::outln!(
             "  at {}: BJD_TDB {:.5}, phase {:.3} ± {:.3}",
             t.iso(),
             b.jd(),
@@ -408,9 +407,14 @@ fn print_text(
             e.phase_sigma(&b)
         );
     }
-    println!(
+    super::outln!(
         "  {:<10} {:>13} {:>13}   {:>6} → {:<6} {:>6}",
-        "night", "window local", "window UTC", "phase", "", "span"
+        "night",
+        "window local",
+        "window UTC",
+        "phase",
+        "",
+        "span"
     );
     let mut rows: Vec<(chrono::NaiveDate, String)> = r
         .windows
@@ -437,21 +441,26 @@ fn print_text(
     }
     rows.sort_by_key(|x| x.0);
     for (_, l) in rows {
-        println!("{l}");
+        super::outln!("{l}");
     }
-    println!(
+    super::outln!(
         "Visit plan: {} of {} phase bins on {} night(s)",
         r.plan.bins_covered,
         r.plan.bins,
         r.plan.nights_needed()
     );
-    println!(
+    super::outln!(
         "  {:<20} {:>6} {:>4} {:>9} {:>5} {:>7}",
-        "UTC", "phase", "bin", "exptime_s", "snr", "airmass"
+        "UTC",
+        "phase",
+        "bin",
+        "exptime_s",
+        "snr",
+        "airmass"
     );
     for (i, v) in r.plan.visits.iter().enumerate() {
         let ep = r.epochs.get(i);
-        println!(
+        super::outln!(
             "  {:<20} {:>6.3} {:>4} {:>9} {:>5} {:>7}",
             v.time.iso(),
             v.phase,
@@ -462,23 +471,26 @@ fn print_text(
         );
     }
     match r.alias.beat_period_d {
-        Some(b) => println!(
+        Some(b) => super::outln!(
             "Beat period (day alias {}/{}): {:.2} d",
-            r.alias.m, r.alias.k, b
+            r.alias.m,
+            r.alias.k,
+            b
         ),
-        None => println!(
+        None => super::outln!(
             "Beat period: none, 1/P = {}/{} per day exactly",
-            r.alias.m, r.alias.k
+            r.alias.m,
+            r.alias.k
         ),
     }
-    println!(
+    super::outln!(
         "Phase uncertainty: {:.4} at the start, {:.4} at the end of the range{}",
         r.phase_sigma_start,
         r.phase_sigma,
         if r.stale { " (STALE)" } else { "" }
     );
     if let (Some(p), Some(b)) = (&r.prediction, &r.budget) {
-        println!(
+        super::outln!(
             "Distance: μ = {:.3} mag ({:.0} pc); σ_μ = {:.3} mag (relation {:.3}, mean mag {:.4}, extinction {:.3}, K = {}) → σ_d/d = {:.2} % in {:.2} h{}",
             b.distance_modulus_mag,
             b.distance_pc,
@@ -491,20 +503,14 @@ fn print_text(
             p.hours_needed,
             goal.map(|g| format!(" (goal {g} %)")).unwrap_or_default()
         );
-        match &p.verdict {
-            Verdict::LimitedByFloor { floor_pct } => {
-                println!("  goal out of reach: floor {floor_pct:.2} % from the relation's scatter")
-            }
-            Verdict::NeedsMoreSeasons { .. } => {
-                println!("  goal not reached: more nights or epochs needed")
-            }
-            _ => {}
+        if goal.is_some() {
+            super::outln!("  verdict: {}", p.verdict.text());
         }
     }
     for c in &r.cautions {
-        println!("CAUTION: {c}");
+        super::outln!("CAUTION: {c}");
     }
     for n in &r.notes {
-        println!("note: {n}");
+        super::outln!("note: {n}");
     }
 }

@@ -206,7 +206,7 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
             "outcomes": outcomes,
             "settings": st.to_json(),
         });
-        println!("{}", serde_json::to_string_pretty(&v)?);
+        super::print_json(&v)?;
         return Ok(());
     }
     print_plan(&p, &site, outcomes.as_deref());
@@ -227,7 +227,7 @@ fn print_plan(
     site: &rung::astro::site::Site,
     outcomes: Option<&[schedule::Outcome]>,
 ) {
-    println!(
+    super::outln!(
         "Plan {} to {} at {} ({:.1} h per night, above {:.0}°, Sun below {:.0}°): {} visits",
         p.from,
         p.to,
@@ -246,9 +246,9 @@ fn print_plan(
             } else {
                 ""
             };
-            println!("  night {}{lost}", v.night);
+            super::outln!("  night {}{lost}", v.night);
         }
-        println!(
+        super::outln!(
             "    {} UTC / {} local  {:<14} {:<9} {:>2}×{:>5.0} s  X={:.2}  {:<7} {}",
             super::utc_hm(Some(v.start)),
             super::local_hm(Some(v.start), site),
@@ -262,10 +262,15 @@ fn print_plan(
         );
     }
     if let Some(os) = outcomes {
-        println!();
-        println!(
+        super::outln!();
+        super::outln!(
             "  {:<14} {:<9} {:>7} {:>5} {:>8} {:>8}  verdict",
-            "target", "method", "planned", "done", "σd/d %", "goal %"
+            "target",
+            "method",
+            "planned",
+            "done",
+            "σd/d %",
+            "goal %"
         );
         for o in os {
             let got = o
@@ -273,7 +278,7 @@ fn print_plan(
                 .as_ref()
                 .map(|p| p.distance_precision_pct)
                 .filter(|x| x.is_finite());
-            println!(
+            super::outln!(
                 "  {:<14} {:<9} {:>7} {:>5} {:>8} {:>8}  {}",
                 o.target,
                 o.kind.as_str(),
@@ -281,11 +286,9 @@ fn print_plan(
                 o.done,
                 super::opt(got, 2),
                 super::opt(o.goal_pct, 1),
-                match o.meets_goal {
-                    Some(true) => "meets goal".to_string(),
-                    Some(false) => "short of goal".to_string(),
-                    None => o.notes.join("; "),
-                }
+                o.verdict()
+                    .map(|v| v.text())
+                    .unwrap_or_else(|| o.notes.join("; "))
             );
         }
     }
@@ -338,13 +341,13 @@ pub fn run_budget(a: BudgetArgs) -> Result<()> {
         if let Some(o) = v.as_object_mut() {
             o.insert("settings".into(), st.to_json());
         }
-        println!("{}", serde_json::to_string_pretty(&v)?);
+        super::print_json(&v)?;
     } else if a.csv {
         print!("{}", budget::csv(&b));
     } else if a.markdown {
         print!("{}", budget::markdown(&b));
     } else {
-        println!(
+        super::outln!(
             "Distance budget {} to {} at {} with {} (window above {:.0}°, Sun below {:.0}°)",
             st.from,
             st.to,
@@ -353,12 +356,18 @@ pub fn run_budget(a: BudgetArgs) -> Result<()> {
             st.limits.min_alt_deg,
             st.limits.sun_alt_deg
         );
-        println!(
+        super::outln!(
             "  {:<14} {:<9} {:>6} {:>8} {:>6} {:>8} {:>7}  verdict",
-            "target", "method", "goal %", "reach %", "epochs", "exp/ep s", "hours"
+            "target",
+            "method",
+            "goal %",
+            "reach %",
+            "epochs",
+            "exp/ep s",
+            "hours"
         );
         for r in &b.rows {
-            println!(
+            super::outln!(
                 "  {:<14} {:<9} {:>6.1} {:>8} {:>6} {:>8.0} {:>7.1}  {}",
                 r.target,
                 r.kind.as_str(),
@@ -367,15 +376,15 @@ pub fn run_budget(a: BudgetArgs) -> Result<()> {
                 r.epochs,
                 r.exptime_per_epoch_s,
                 r.hours,
-                budget::verdict_text(&r.verdict)
+                r.verdict.text()
             );
         }
-        println!("  total {:.1} h", b.total_hours);
+        super::outln!("  total {:.1} h", b.total_hours);
         for (k, h) in &b.hours_by_semester {
-            println!("  semester {k}: {h:.1} h");
+            super::outln!("  semester {k}: {h:.1} h");
         }
         for (name, why) in &b.skipped {
-            println!("  skipped {name}: {why}");
+            super::outln!("  skipped {name}: {why}");
         }
     }
     Ok(())

@@ -5,6 +5,7 @@
 
 use anyhow::{Context as _, Result};
 use rayon::prelude::*;
+use rung::output::{csv_field, csv_num, csv_record, push_iso, push_num, push_uint, push2};
 use rung::plan::season::{
     self, Constraints, NightRows, NightSky, SeasonSummary, TargetNightRow, TargetSummary,
 };
@@ -86,7 +87,10 @@ pub fn run(a: Args) -> Result<()> {
     let mut summary = SeasonSummary::new(places.len());
     let want_rows = !a.summary && (a.csv || a.json);
 
-    let csv_names: Vec<Vec<u8>> = names.iter().map(|n| csv_field(n).into_bytes()).collect();
+    let csv_names: Vec<Vec<u8>> = names
+        .iter()
+        .map(|n| csv_field(n).into_owned().into_bytes())
+        .collect();
     let json_names: Vec<Vec<u8>> = names
         .iter()
         .map(|n| {
@@ -212,20 +216,19 @@ fn write_summary(
     if a.csv {
         writeln!(out, "{SUMMARY_HEADER}")?;
         for t in totals {
-            writeln!(
-                out,
-                "{},{:.3},{},{},{},{},{:.3},{},{}",
-                csv_field(&names[t.target]),
-                t.total_hours,
-                t.nights_observable,
-                d(t.first_night).unwrap_or_default(),
-                d(t.last_night).unwrap_or_default(),
-                t.best_month_text().unwrap_or_default(),
-                t.best_month_hours,
-                t.best_airmass
-                    .map(|x| format!("{x:.3}"))
-                    .unwrap_or_default(),
-                d(t.best_airmass_night).unwrap_or_default(),
+            out.write_all(
+                csv_record(&[
+                    names[t.target].clone(),
+                    csv_num(t.total_hours, 3),
+                    t.nights_observable.to_string(),
+                    d(t.first_night).unwrap_or_default(),
+                    d(t.last_night).unwrap_or_default(),
+                    t.best_month_text().unwrap_or_default(),
+                    csv_num(t.best_month_hours, 3),
+                    csv_num(t.best_airmass, 3),
+                    d(t.best_airmass_night).unwrap_or_default(),
+                ])
+                .as_bytes(),
             )?;
         }
         return Ok(());
@@ -257,10 +260,10 @@ fn write_summary(
             "moon_sep_deg": c.moon_sep_deg,
             "summary": list,
         });
-        serde_json::to_writer_pretty(&mut *out, &v)?;
-        return writeln!(out);
+        let text = rung::output::json(&v).map_err(std::io::Error::other)?;
+        return writeln!(out, "{text}");
     }
-    writeln!(
+    super::outln!(
         out,
         "Season {from} to {to} at {}: above {:.0}°, Sun below {:.0}°{}",
         site.name,
@@ -272,13 +275,20 @@ fn write_summary(
             String::new()
         }
     )?;
-    writeln!(
+    super::outln!(
         out,
         "  {:<20} {:>8} {:>6} {:>10} {:>10} {:>8} {:>7} {:>7}",
-        "target", "hours", "nights", "first", "last", "best mo", "mo hrs", "airmass"
+        "target",
+        "hours",
+        "nights",
+        "first",
+        "last",
+        "best mo",
+        "mo hrs",
+        "airmass"
     )?;
     for t in totals {
-        writeln!(
+        super::outln!(
             out,
             "  {:<20} {:>8.1} {:>6} {:>10} {:>10} {:>8} {:>7.1} {:>7}",
             names[t.target],
@@ -292,15 +302,6 @@ fn write_summary(
         )?;
     }
     Ok(())
-}
-
-/// A CSV field, quoted when it holds a comma, quote or line break.
-fn csv_field(s: &str) -> String {
-    if s.contains([',', '"', '\n', '\r']) {
-        format!("\"{}\"", s.replace('"', "\"\""))
-    } else {
-        s.to_string()
-    }
 }
 
 /// Per-night formatting state: the date text and the clock origin.
@@ -328,9 +329,9 @@ impl NightFmt {
             p.copy_from_slice(&b[..11]);
         }
         let mut csv_tail = vec![b','];
-        push_fixed(&mut csv_tail, sky.dark_hours(), 3);
+        push_num(&mut csv_tail, Some(sky.dark_hours()), 3, false);
         csv_tail.push(b',');
-        push_fixed(&mut csv_tail, sky.moon_illumination, 3);
+        push_num(&mut csv_tail, Some(sky.moon_illumination), 3, false);
         csv_tail.push(b',');
         NightFmt {
             date: sky.date.to_string().into_bytes(),
@@ -382,17 +383,17 @@ impl NightFmt {
         buf.push(b',');
         buf.extend_from_slice(&self.date);
         buf.push(b',');
-        push_fixed(buf, r.observable_hours, 3);
+        push_num(buf, Some(r.observable_hours), 3, false);
         buf.push(b',');
-        opt_fixed(buf, r.best_airmass, 3, false);
+        push_num(buf, r.best_airmass, 3, false);
         buf.push(b',');
-        opt_fixed(buf, r.moon_separation_min_deg, 2, false);
+        push_num(buf, r.moon_separation_min_deg, 2, false);
         buf.push(b',');
-        opt_fixed(buf, r.max_altitude_deg, 2, false);
+        push_num(buf, r.max_altitude_deg, 2, false);
         buf.push(b',');
         self.time(buf, r.transit_s, false);
         buf.push(b',');
-        push_fixed(buf, r.transit_altitude_deg, 2);
+        push_num(buf, Some(r.transit_altitude_deg), 2, false);
         buf.push(b',');
         self.time(buf, r.window_start_s, false);
         buf.push(b',');
@@ -409,17 +410,17 @@ impl NightFmt {
         buf.extend_from_slice(b",\"night\":\"");
         buf.extend_from_slice(&self.date);
         buf.extend_from_slice(b"\",\"observable_hours\":");
-        push_fixed(buf, r.observable_hours, 4);
+        push_num(buf, Some(r.observable_hours), 4, true);
         buf.extend_from_slice(b",\"best_airmass\":");
-        opt_fixed(buf, r.best_airmass, 4, true);
+        push_num(buf, r.best_airmass, 4, true);
         buf.extend_from_slice(b",\"moon_separation_min_deg\":");
-        opt_fixed(buf, r.moon_separation_min_deg, 3, true);
+        push_num(buf, r.moon_separation_min_deg, 3, true);
         buf.extend_from_slice(b",\"max_altitude_deg\":");
-        opt_fixed(buf, r.max_altitude_deg, 3, true);
+        push_num(buf, r.max_altitude_deg, 3, true);
         buf.extend_from_slice(b",\"transit\":");
         self.time(buf, r.transit_s, true);
         buf.extend_from_slice(b",\"transit_altitude_deg\":");
-        push_fixed(buf, r.transit_altitude_deg, 3);
+        push_num(buf, Some(r.transit_altitude_deg), 3, true);
         buf.extend_from_slice(b",\"window_start\":");
         self.time(buf, r.window_start_s, true);
         buf.extend_from_slice(b",\"window_end\":");
@@ -427,148 +428,11 @@ impl NightFmt {
         buf.extend_from_slice(b",\"windows\":");
         push_uint(buf, r.windows as u64);
         buf.extend_from_slice(b",\"dark_hours\":");
-        push_fixed(buf, self.dark_hours, 4);
+        push_num(buf, Some(self.dark_hours), 4, true);
         buf.extend_from_slice(b",\"moon_illumination\":");
-        push_fixed(buf, self.moon_illumination, 4);
+        push_num(buf, Some(self.moon_illumination), 4, true);
         buf.extend_from_slice(b",\"sun_caution\":");
         buf.extend_from_slice(if r.sun_caution { b"true" } else { b"false" });
         buf.push(b'}');
-    }
-}
-
-const DIGITS2: &[u8; 200] = b"0001020304050607080910111213141516171819\
-2021222324252627282930313233343536373839\
-4041424344454647484950515253545556575859\
-6061626364656667686970717273747576777879\
-8081828384858687888990919293949596979899";
-
-/// Two decimal digits of `v` (< 100).
-fn push2(buf: &mut Vec<u8>, v: usize) {
-    let i = 2 * (v % 100);
-    buf.extend_from_slice(&DIGITS2[i..i + 2]);
-}
-
-fn push_uint(buf: &mut Vec<u8>, mut v: u64) {
-    let mut tmp = [0u8; 20];
-    let mut i = tmp.len();
-    while v >= 100 {
-        let d = 2 * (v % 100) as usize;
-        v /= 100;
-        i -= 2;
-        tmp[i..i + 2].copy_from_slice(&DIGITS2[d..d + 2]);
-    }
-    if v >= 10 {
-        let d = 2 * v as usize;
-        i -= 2;
-        tmp[i..i + 2].copy_from_slice(&DIGITS2[d..d + 2]);
-    } else {
-        i -= 1;
-        tmp[i] = b'0' + v as u8;
-    }
-    buf.extend_from_slice(&tmp[i..]);
-}
-
-/// `v` zero-padded to at least `width` digits.
-fn push_padded(buf: &mut Vec<u8>, v: u64, width: usize) {
-    let mut tmp = [b'0'; 20];
-    let mut x = v;
-    let mut i = tmp.len();
-    while x > 0 {
-        i -= 1;
-        tmp[i] = b'0' + (x % 10) as u8;
-        x /= 10;
-    }
-    let start = (tmp.len() - width).min(i);
-    buf.extend_from_slice(&tmp[start..]);
-}
-
-const SCALE: [u64; 5] = [1, 10, 100, 1000, 10_000];
-
-/// A number with `dp` (≤ 4) decimals, rounded half away from zero.
-fn push_fixed(buf: &mut Vec<u8>, x: f64, dp: u32) {
-    if !x.is_finite() {
-        buf.push(b'0');
-        return;
-    }
-    let dp = dp.min(4) as usize;
-    let scale = SCALE[dp];
-    let m = (x.abs() * scale as f64 + 0.5) as u64;
-    if x < 0.0 && m > 0 {
-        buf.push(b'-');
-    }
-    push_uint(buf, m / scale);
-    if dp > 0 {
-        buf.push(b'.');
-        push_padded(buf, m % scale, dp);
-    }
-}
-
-fn opt_fixed(buf: &mut Vec<u8>, x: Option<f64>, dp: u32, json: bool) {
-    match x {
-        Some(v) => push_fixed(buf, v, dp),
-        None if json => buf.extend_from_slice(b"null"),
-        None => {}
-    }
-}
-
-/// UTC ISO 8601 text `YYYY-MM-DDTHH:MM:SSZ` of a Unix time (rounded to the
-/// second); days to civil date by the proleptic Gregorian algorithm of
-/// H. Hinnant, "chrono-Compatible Low-Level Date Algorithms" (days_from_civil inverse).
-fn push_iso(buf: &mut Vec<u8>, unix_s: f64) {
-    let t = unix_s.round() as i64;
-    let days = t.div_euclid(86_400);
-    let sod = t.rem_euclid(86_400);
-    let z = days + 719_468;
-    let era = z.div_euclid(146_097);
-    let doe = z - era * 146_097;
-    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
-    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
-    let mp = (5 * doy + 2) / 153;
-    let d = doy - (153 * mp + 2) / 5 + 1;
-    let m = if mp < 10 { mp + 3 } else { mp - 9 };
-    let y = yoe + era * 400 + i64::from(m <= 2);
-    push_padded(buf, y.max(0) as u64, 4);
-    buf.push(b'-');
-    push_padded(buf, m as u64, 2);
-    buf.push(b'-');
-    push_padded(buf, d as u64, 2);
-    buf.push(b'T');
-    push_padded(buf, (sod / 3600) as u64, 2);
-    buf.push(b':');
-    push_padded(buf, (sod / 60 % 60) as u64, 2);
-    buf.push(b':');
-    push_padded(buf, (sod % 60) as u64, 2);
-    buf.push(b'Z');
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn fixed_and_iso_formatting() {
-        let mut b = Vec::new();
-        push_fixed(&mut b, 1.23456, 3);
-        b.push(b' ');
-        push_fixed(&mut b, -0.0004, 3);
-        b.push(b' ');
-        push_fixed(&mut b, -12.5, 2);
-        b.push(b' ');
-        push_fixed(&mut b, 0.05, 2);
-        assert_eq!(String::from_utf8(b).unwrap(), "1.235 0.000 -12.50 0.05");
-        // Checked against chrono's calendar (proleptic Gregorian, UTC).
-        let dt = chrono::DateTime::parse_from_rfc3339("2026-12-01T23:46:03Z").unwrap();
-        let mut b = Vec::new();
-        push_iso(&mut b, dt.timestamp() as f64 + 0.2);
-        assert_eq!(String::from_utf8(b).unwrap(), "2026-12-01T23:46:03Z");
-        for s in [-86_400i64 * 365 * 9, 0, 951_782_400, 4_102_444_799] {
-            let want = chrono::DateTime::from_timestamp(s, 0)
-                .unwrap()
-                .format("%Y-%m-%dT%H:%M:%SZ")
-                .to_string();
-            let mut b = Vec::new();
-            push_iso(&mut b, s as f64);
-            assert_eq!(String::from_utf8(b).unwrap(), want);
-        }
     }
 }

@@ -202,11 +202,11 @@ fn emit(
             o.insert((*k).into(), val.clone());
         }
         o.insert("cautions".into(), json!(caution.iter().collect::<Vec<_>>()));
-        println!("{}", serde_json::to_string_pretty(&v)?);
+        super::print_json(&v)?;
         return Ok(());
     }
     let b = &e.budget;
-    println!(
+    super::outln!(
         "{} ({} = {:.2}) from {} with {} at {} ({})",
         s.name,
         e.band,
@@ -216,10 +216,13 @@ fn emit(
         s.t.iso(),
         s.time_rule
     );
-    println!("  {asked}");
-    println!(
+    super::outln!("  {asked}");
+    super::outln!(
         "  altitude {:.1}°, airmass {:.3}, extinction {:.3} mag; seeing {:.2}\"",
-        e.altitude_deg, e.airmass, e.extinction_mag, e.seeing_fwhm_arcsec
+        e.altitude_deg,
+        e.airmass,
+        e.extinction_mag,
+        e.seeing_fwhm_arcsec
     );
     let moon = match e.sky.moon_mag_arcsec2 {
         Some(m) => format!("Moon term {m:.2}"),
@@ -229,7 +232,7 @@ fn emit(
         Some(m) => format!(", twilight term {m:.2}"),
         None => String::new(),
     };
-    println!(
+    super::outln!(
         "  sky {:.2} mag/arcsec² in {} (dark {:.2}, {moon}{tw}); Moon {:.0}% lit, {:.1}° away, altitude {:.1}°",
         e.sky_mag_arcsec2,
         e.band,
@@ -238,7 +241,7 @@ fn emit(
         e.moon_separation_deg,
         e.moon_altitude_deg
     );
-    println!(
+    super::outln!(
         "  exposure {:.1} s in {} × {:.1} s; aperture radius {:.2}\" ({:.1} px, {:.0}% of the light), sky annulus {:.0} px",
         b.exptime_s,
         b.n_exposures,
@@ -248,12 +251,14 @@ fn emit(
         100.0 * b.encircled_fraction,
         b.background_pixels
     );
-    println!(
+    super::outln!(
         "  signal {:.0} e⁻; sky {:.1} e⁻/px, dark {:.2} e⁻/px",
-        b.star_electrons, b.sky_electrons_per_pixel, b.dark_electrons_per_pixel
+        b.star_electrons,
+        b.sky_electrons_per_pixel,
+        b.dark_electrons_per_pixel
     );
     let var = b.noise_total_e.powi(2).max(f64::MIN_POSITIVE);
-    println!("  noise           e⁻     share of variance");
+    super::outln!("  noise           e⁻     share of variance");
     for (label, n) in [
         ("star", b.noise_star_e),
         ("sky", b.noise_sky_e),
@@ -261,24 +266,24 @@ fn emit(
         ("read", b.noise_read_e),
         ("scintillation", b.noise_scintillation_e),
     ] {
-        println!("    {label:<13} {n:9.1}   {:5.1}%", 100.0 * n * n / var);
+        super::outln!("    {label:<13} {n:9.1}   {:5.1}%", 100.0 * n * n / var);
     }
-    println!("    {:<13} {:9.1}", "total", b.noise_total_e);
+    super::outln!("    {:<13} {:9.1}", "total", b.noise_total_e);
     // The magnitude error 2.5/(ln 10 · SNR) is first order in 1/SNR: it
     // means something only for a detection.
     if b.snr >= 1.0 {
-        println!(
+        super::outln!(
             "  SNR {:.1}  ({:.4} mag)",
             b.snr,
             2.5 / std::f64::consts::LN_10 / b.snr
         );
     } else {
-        println!(
+        super::outln!(
             "  SNR {:.2}  (no detection: the noise exceeds the signal)",
             b.snr
         );
     }
-    println!(
+    super::outln!(
         "  peak pixel {:.0} e⁻ of {:.0} e⁻ ({}); visit with overheads {:.0} s",
         b.peak_pixel_electrons,
         b.saturation_electrons,
@@ -299,13 +304,13 @@ fn emit(
             .find(|(k, _)| *k == "limiting_snr")
             .and_then(|(_, v)| v.as_f64()),
     ) {
-        println!("  limiting magnitude {lim:.2} at SNR {snr} in the same exposure");
+        super::outln!("  limiting magnitude {lim:.2} at SNR {snr} in the same exposure");
     }
     for n in &e.notes {
-        println!("  note: {n}");
+        super::outln!("  note: {n}");
     }
     if let Some(c) = caution {
-        println!("  {c}");
+        super::outln!("  {c}");
     }
     Ok(())
 }

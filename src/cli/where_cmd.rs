@@ -55,46 +55,48 @@ pub fn run(a: Args) -> Result<()> {
         o.insert("sky_v_mag_arcsec2".into(), json!(sky_v));
         o.insert("humidity".into(), json!(site.humidity));
         o.insert("cautions".into(), json!(caution.iter().collect::<Vec<_>>()));
-        println!("{}", serde_json::to_string_pretty(&v)?);
+        super::print_json(&v)?;
         return Ok(());
     }
     let local = t.local(&site.timezone);
-    println!(
+    super::outln!(
         "{name} from {} at {} ({} local)",
         site.name,
         t.iso(),
         local.format("%Y-%m-%d %H:%M:%S %Z")
     );
-    println!(
+    super::outln!(
         "  altitude      {:8.3}°  (geometric {:.3}°)",
-        p.altitude_deg, p.altitude_geometric_deg
+        p.altitude_deg,
+        p.altitude_geometric_deg
     );
-    println!("  azimuth       {:8.3}°  (north 0, east 90)", p.azimuth_deg);
-    println!("  airmass       {:>8}", super::opt(p.airmass, 3));
-    println!("  hour angle    {:+8.3} h", p.hour_angle_h);
-    println!("  parallactic   {:+8.2}°", p.parallactic_angle_deg);
-    println!(
+    super::outln!("  azimuth       {:8.3}°  (north 0, east 90)", p.azimuth_deg);
+    super::outln!("  airmass       {:>8}", super::opt(p.airmass, 3));
+    super::outln!("  hour angle    {:+8.3} h", p.hour_angle_h);
+    super::outln!("  parallactic   {:+8.2}°", p.parallactic_angle_deg);
+    super::outln!(
         "  Sun           {:+8.2}° altitude, {:.1}° away",
-        p.sun_altitude_deg, p.sun_separation_deg
+        p.sun_altitude_deg,
+        p.sun_separation_deg
     );
-    println!(
+    super::outln!(
         "  Moon          {:+8.2}° altitude, {:.1}° away, {:.0}% lit",
         p.moon_altitude_deg,
         p.moon_separation_deg,
         100.0 * p.moon_illumination
     );
-    println!(
+    super::outln!(
         "  sky V         {:>8} mag/arcsec² at the target",
         super::opt(sky_v, 2)
     );
-    println!(
+    super::outln!(
         "  refraction at {:.1} hPa, {:.1} °C, humidity {:.0} %",
         p.pressure_hpa,
         p.temperature_c,
         100.0 * site.humidity
     );
     if let Some(c) = caution {
-        println!("  {c}");
+        super::outln!("  {c}");
     }
     Ok(())
 }

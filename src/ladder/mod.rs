@@ -161,8 +161,12 @@ impl BandExposure {
 }
 
 /// How a distance goal stands for a target.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-#[serde(tag = "verdict", rename_all = "snake_case")]
+///
+/// Worded here once: [`Verdict::label`] (the machine label), [`Verdict::text`]
+/// (the words every table, view and export shows) and [`Verdict::short`] (a
+/// narrow column). In JSON a verdict is an object with its variant under
+/// `verdict` and its fields, plus `label` and `text`.
+#[derive(Debug, Clone, PartialEq)]
 pub enum Verdict {
     /// The goal is reached with the epochs given.
     Reachable,
@@ -181,6 +185,71 @@ pub enum Verdict {
         /// How many seasons would do, if known.
         seasons: Option<u32>,
     },
+}
+
+impl Verdict {
+    /// The machine label: `reachable`, `floor`, `not_observable`,
+    /// `more_seasons` (the budget's `verdict_label` and CSV `verdict`).
+    pub fn label(&self) -> &'static str {
+        match self {
+            Verdict::Reachable => "reachable",
+            Verdict::LimitedByFloor { .. } => "floor",
+            Verdict::NotObservable { .. } => "not_observable",
+            Verdict::NeedsMoreSeasons { .. } => "more_seasons",
+        }
+    }
+
+    /// The verdict in words, as every table, view and export shows it:
+    /// "reachable", "floor 10.1 %", "not observable (why)", "needs 3 seasons",
+    /// "needs more seasons".
+    pub fn text(&self) -> String {
+        match self {
+            Verdict::Reachable => "reachable".into(),
+            Verdict::LimitedByFloor { floor_pct } => {
+                format!("floor {} %", crate::output::num(*floor_pct, 1))
+            }
+            Verdict::NotObservable { when: Some(w) } => format!("not observable ({w})"),
+            Verdict::NotObservable { when: None } => "not observable".into(),
+            Verdict::NeedsMoreSeasons { seasons: Some(n) } => format!("needs {n} seasons"),
+            Verdict::NeedsMoreSeasons { seasons: None } => "needs more seasons".into(),
+        }
+    }
+
+    /// The verdict in at most 7 characters, for a narrow column where the
+    /// precision is not a number: "reach", "floor", "unobs", "3 seas",
+    /// "seas" (the same words as [`Verdict::text`], cut).
+    pub fn short(&self) -> String {
+        match self {
+            Verdict::Reachable => "reach".into(),
+            Verdict::LimitedByFloor { .. } => "floor".into(),
+            Verdict::NotObservable { .. } => "unobs".into(),
+            Verdict::NeedsMoreSeasons { seasons: Some(n) } => format!("{n} seas"),
+            Verdict::NeedsMoreSeasons { seasons: None } => "seas".into(),
+        }
+    }
+}
+
+impl Serialize for Verdict {
+    fn serialize<S: serde::Serializer>(&self, ser: S) -> std::result::Result<S::Ok, S::Error> {
+        use serde::ser::SerializeMap;
+        let mut m = ser.serialize_map(None)?;
+        let variant = match self {
+            Verdict::Reachable => "reachable",
+            Verdict::LimitedByFloor { .. } => "limited_by_floor",
+            Verdict::NotObservable { .. } => "not_observable",
+            Verdict::NeedsMoreSeasons { .. } => "needs_more_seasons",
+        };
+        m.serialize_entry("verdict", variant)?;
+        match self {
+            Verdict::Reachable => {}
+            Verdict::LimitedByFloor { floor_pct } => m.serialize_entry("floor_pct", floor_pct)?,
+            Verdict::NotObservable { when } => m.serialize_entry("when", when)?,
+            Verdict::NeedsMoreSeasons { seasons } => m.serialize_entry("seasons", seasons)?,
+        }
+        m.serialize_entry("label", self.label())?;
+        m.serialize_entry("text", &self.text())?;
+        m.end()
+    }
 }
 
 /// σ_d/d per magnitude of σ_μ: d ∝ 10^(μ/5), so σ_d/d = (ln 10 / 5) σ_μ.
@@ -288,6 +357,20 @@ pub fn goal_for(t: &Target, programme_goal_pct: Option<f64>, m: &dyn Method) -> 
     t.goal_pct
         .or(programme_goal_pct)
         .or_else(|| m.default_goal_pct())
+}
+
+/// The target as its method sees it: with `goal_pct` set to the goal it is
+/// planned for ([`goal_for`]), so a method's verdict (which compares with
+/// `Setting::target.goal_pct`) judges the same goal whether the goal came from
+/// the target, its programme or the method's default.
+pub fn with_goal(t: &Target, goal_pct: Option<f64>) -> std::borrow::Cow<'_, Target> {
+    if t.goal_pct == goal_pct {
+        std::borrow::Cow::Borrowed(t)
+    } else {
+        let mut t = t.clone();
+        t.goal_pct = goal_pct;
+        std::borrow::Cow::Owned(t)
+    }
 }
 
 /// The distance methods of a programme, each with its configuration.

@@ -9,6 +9,7 @@
 use crate::error::Result;
 use crate::io::targets::{Kind, Target};
 use crate::ladder::{Prediction, Verdict};
+use crate::output::{csv_num, csv_table, fixed, md_cell, num};
 use crate::programme::Settings;
 use chrono::{Datelike, NaiveDate};
 use serde::Serialize;
@@ -65,16 +66,6 @@ pub fn semester(d: NaiveDate) -> String {
     }
 }
 
-/// The short label of a verdict.
-pub fn verdict_label(v: &Verdict) -> &'static str {
-    match v {
-        Verdict::Reachable => "reachable",
-        Verdict::LimitedByFloor { .. } => "floor",
-        Verdict::NotObservable { .. } => "not_observable",
-        Verdict::NeedsMoreSeasons { .. } => "more_seasons",
-    }
-}
-
 pub use crate::programme::check_goal;
 
 /// What a target's goal takes with the programme's settings: its method's
@@ -88,8 +79,9 @@ pub fn target_prediction(
 ) -> Option<std::result::Result<Prediction, String>> {
     let m = settings.method(t.kind)?;
     let g = settings.goal_for(t)?;
+    let t = crate::ladder::with_goal(t, Some(g));
     Some(
-        m.goal(&settings.setting(t), &settings.photometer, g)
+        m.goal(&settings.setting(&t), &settings.photometer, g)
             .map_err(|e| e.to_string()),
     )
 }
@@ -156,7 +148,7 @@ pub fn assemble(
                         0.0
                     },
                     hours: p.hours_needed.max(0.0),
-                    verdict_label: verdict_label(&p.verdict).to_string(),
+                    verdict_label: p.verdict.label().to_string(),
                     verdict: p.verdict.clone(),
                     hours_by_month: by_month,
                     notes: p.notes.clone(),
@@ -195,89 +187,72 @@ pub fn assemble(
     }
 }
 
-/// The verdict in words, for tables.
-pub fn verdict_text(v: &Verdict) -> String {
-    match v {
-        Verdict::Reachable => "reachable".into(),
-        Verdict::LimitedByFloor { floor_pct } => format!("floor {floor_pct:.1} %"),
-        Verdict::NotObservable { when } => match when {
-            Some(w) => format!("not observable ({w})"),
-            None => "not observable".into(),
-        },
-        Verdict::NeedsMoreSeasons { seasons } => match seasons {
-            Some(n) => format!("needs {n} seasons"),
-            None => "needs more seasons".into(),
-        },
-    }
-}
-
 /// The budget as a Markdown table ready for a proposal.
 pub fn markdown(b: &Budget) -> String {
     let mut s = String::from(
         "| target | method | goal σd/d | achievable σd/d | epochs | exposure / epoch | hours | verdict |\n| --- | --- | ---: | ---: | ---: | ---: | ---: | --- |\n",
     );
+    // A number without a value is an en dash, as proposals print it.
+    let pct = |x: f64| fixed(x, 1).map_or("–".to_string(), |v| format!("{v} %"));
     for r in &b.rows {
         s.push_str(&format!(
-            "| {} | {} | {:.1} % | {} | {} | {:.0} s | {:.1} | {} |\n",
-            r.target,
+            "| {} | {} | {} | {} | {} | {} s | {} | {} |\n",
+            md_cell(&r.target),
             r.kind.as_str(),
-            r.goal_pct,
-            if r.achievable_pct.is_finite() {
-                format!("{:.1} %", r.achievable_pct)
-            } else {
-                "–".into()
-            },
+            pct(r.goal_pct),
+            pct(r.achievable_pct),
             r.epochs,
-            r.exptime_per_epoch_s,
-            r.hours + 0.0,
-            verdict_text(&r.verdict)
+            num(r.exptime_per_epoch_s, 0),
+            num(r.hours, 1),
+            md_cell(&r.verdict.text())
         ));
     }
     s.push_str(&format!(
-        "| **total** | | | | | | **{:.1}** | |\n",
-        b.total_hours
+        "| **total** | | | | | | **{}** | |\n",
+        num(b.total_hours, 1)
     ));
     if !b.hours_by_semester.is_empty() {
         s.push_str("\n| semester | hours |\n| --- | ---: |\n");
         for (k, h) in &b.hours_by_semester {
-            s.push_str(&format!("| {k} | {h:.1} |\n"));
+            s.push_str(&format!("| {k} | {} |\n", num(*h, 1)));
         }
     }
     if !b.hours_by_month.is_empty() {
         s.push_str("\n| month | hours |\n| --- | ---: |\n");
         for (k, h) in &b.hours_by_month {
-            s.push_str(&format!("| {k} | {h:.1} |\n"));
+            s.push_str(&format!("| {k} | {} |\n", num(*h, 1)));
         }
     }
     s
 }
 
-/// The budget as CSV (one row per target).
+/// The budget as CSV (one row per target; a number without a value is an
+/// empty field).
 pub fn csv(b: &Budget) -> String {
-    let mut w = csv::Writer::from_writer(Vec::new());
-    let _ = w.write_record([
-        "target",
-        "kind",
-        "goal_pct",
-        "achievable_pct",
-        "epochs",
-        "exptime_per_epoch_s",
-        "hours",
-        "verdict",
-        "detail",
-    ]);
-    for r in &b.rows {
-        let _ = w.write_record([
-            r.target.clone(),
-            r.kind.as_str().to_string(),
-            format!("{:.3}", r.goal_pct),
-            format!("{:.3}", r.achievable_pct),
-            r.epochs.to_string(),
-            format!("{:.1}", r.exptime_per_epoch_s),
-            format!("{:.3}", r.hours),
-            r.verdict_label.clone(),
-            verdict_text(&r.verdict),
-        ]);
-    }
-    String::from_utf8(w.into_inner().unwrap_or_default()).unwrap_or_default()
+    csv_table(
+        &[
+            "target",
+            "kind",
+            "goal_pct",
+            "achievable_pct",
+            "epochs",
+            "exptime_per_epoch_s",
+            "hours",
+            "verdict",
+            "detail",
+        ],
+        b.rows.iter().map(|r| {
+            vec![
+                r.target.clone(),
+                r.kind.as_str().to_string(),
+                csv_num(r.goal_pct, 3),
+                csv_num(r.achievable_pct, 3),
+                r.epochs.to_string(),
+                csv_num(r.exptime_per_epoch_s, 1),
+                csv_num(r.hours, 3),
+                r.verdict_label.clone(),
+                r.verdict.text(),
+            ]
+        }),
+    )
 }

@@ -3,48 +3,50 @@
 
 use crate::astro::site::Site;
 use crate::astro::time::Instant;
+use crate::output::{csv_num, csv_table, md_cell, num};
 use crate::plan::schedule::{Status, Visit};
 use chrono::{NaiveDate, Offset, TimeZone, Utc};
 use chrono_tz::{OffsetComponents, Tz};
 
-/// CSV of visits with a header row; times in UTC ISO 8601 and local.
+/// CSV of visits with a header row; times in UTC ISO 8601 and local; a
+/// number without a value is an empty field.
 pub fn visits_csv(visits: &[Visit], site: &Site) -> String {
-    let mut w = csv::Writer::from_writer(Vec::new());
-    let _ = w.write_record([
-        "id",
-        "target",
-        "kind",
-        "night",
-        "start_utc",
-        "end_utc",
-        "start_local",
-        "end_local",
-        "exptime_s",
-        "n_exposures",
-        "snr",
-        "airmass",
-        "status",
-        "cautions",
-    ]);
-    for v in visits {
-        let _ = w.write_record([
-            v.id.clone(),
-            v.target.clone(),
-            v.kind.as_str().to_string(),
-            v.night.to_string(),
-            v.start.iso(),
-            v.end.iso(),
-            local_iso(v.start, &site.timezone),
-            local_iso(v.end, &site.timezone),
-            format!("{:.1}", v.exptime_s),
-            v.n_exposures.to_string(),
-            format!("{:.1}", v.snr),
-            format!("{:.3}", v.airmass),
-            status_str(v.status).to_string(),
-            v.cautions.join(" | "),
-        ]);
-    }
-    String::from_utf8(w.into_inner().unwrap_or_default()).unwrap_or_default()
+    csv_table(
+        &[
+            "id",
+            "target",
+            "kind",
+            "night",
+            "start_utc",
+            "end_utc",
+            "start_local",
+            "end_local",
+            "exptime_s",
+            "n_exposures",
+            "snr",
+            "airmass",
+            "status",
+            "cautions",
+        ],
+        visits.iter().map(|v| {
+            vec![
+                v.id.clone(),
+                v.target.clone(),
+                v.kind.as_str().to_string(),
+                v.night.to_string(),
+                v.start.iso(),
+                v.end.iso(),
+                local_iso(v.start, &site.timezone),
+                local_iso(v.end, &site.timezone),
+                csv_num(v.exptime_s, 1),
+                v.n_exposures.to_string(),
+                csv_num(v.snr, 1),
+                csv_num(v.airmass, 3),
+                status_str(v.status).to_string(),
+                v.cautions.join(" | "),
+            ]
+        }),
+    )
 }
 
 fn status_str(s: Status) -> &'static str {
@@ -298,22 +300,18 @@ pub fn night_sheet(visits: &[Visit], site: &Site, night: NaiveDate, header: &str
         any = true;
         let hm = |t: Instant| t.round_to_second().local(tz).format("%H:%M:%S").to_string();
         s.push_str(&format!(
-            "| {} | {} | {} | {} | {} | {} × {:.0} s | {:.0} | {:.2} | {} | {} |\n",
+            "| {} | {} | {} | {} | {} | {} × {} s | {} | {} | {} | {} |\n",
             v.start.round_to_second().to_datetime().format("%H:%M:%S"),
             hm(v.start),
             hm(v.end),
-            v.target,
+            md_cell(&v.target),
             v.kind.as_str(),
             v.n_exposures,
-            v.exptime_s / v.n_exposures.max(1) as f64,
-            v.snr,
-            v.airmass,
+            num(v.exptime_s / v.n_exposures.max(1) as f64, 0),
+            num(v.snr, 0),
+            num(v.airmass, 2),
             status_str(v.status),
-            if v.cautions.is_empty() {
-                "".to_string()
-            } else {
-                v.cautions.join("; ")
-            },
+            md_cell(&v.cautions.join("; ")),
         ));
     }
     if !any {

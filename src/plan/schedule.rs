@@ -31,7 +31,7 @@ use crate::astro::sun_caution_at;
 use crate::astro::time::Instant;
 use crate::error::{Result, RungError};
 use crate::io::targets::{Kind, Target};
-use crate::ladder::{Epoch, ExposureModel, MethodSet, Prediction, Setting, goal_for};
+use crate::ladder::{Epoch, ExposureModel, MethodSet, Prediction, Setting, goal_for, with_goal};
 use crate::programme::Settings;
 use chrono::NaiveDate;
 use serde::{Deserialize, Serialize};
@@ -185,8 +185,26 @@ pub struct Outcome {
     pub prediction: Option<Prediction>,
     /// Whether the goal is met by the placed and done visits.
     pub meets_goal: Option<bool>,
+    /// The verdict of what the goal takes (the budget's, from the same
+    /// `Method::goal`), for a target with a goal whose method answered.
+    pub goal_verdict: Option<crate::ladder::Verdict>,
     /// Notes (errors of the method, no visits).
     pub notes: Vec<String>,
+}
+
+impl Outcome {
+    /// The verdict a plan shows for the target: the goal's (the budget's)
+    /// while every epoch the goal asked for is placed or done (none placed
+    /// when it asked for none), else the verdict of what the placed and done
+    /// visits buy; `None` without a goal.
+    pub fn verdict(&self) -> Option<&crate::ladder::Verdict> {
+        self.goal_pct?;
+        match (&self.goal_verdict, &self.prediction) {
+            (Some(v), _) if self.planned + self.done >= self.requested => Some(v),
+            (_, Some(p)) => Some(&p.verdict),
+            (v, None) => v.as_ref(),
+        }
+    }
 }
 
 /// Hours used on one night.
@@ -329,26 +347,32 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
     let mut reqs: Vec<Req> = Vec::new();
     let mut requested: HashMap<usize, usize> = HashMap::new();
     let mut method_notes: HashMap<usize, Vec<String>> = HashMap::new();
+    let mut goal_verdicts: HashMap<usize, crate::ladder::Verdict> = HashMap::new();
     // Every target's proposal, in parallel (each method call is independent),
     // then taken in target order so the result does not depend on threads.
-    let proposals: Vec<Option<Result<Vec<Epoch>>>> = {
+    type Proposal = (Vec<Epoch>, Option<crate::ladder::Verdict>);
+    let proposals: Vec<Option<Result<Proposal>>> = {
         use rayon::prelude::*;
         req.targets
             .par_iter()
             .map(|t| {
                 let m = req.methods.for_kind(t.kind)?;
+                let goal = goal_for(t, req.goal_pct, m);
+                let judged = with_goal(t, goal);
                 let setting = Setting {
                     site: req.site,
-                    target: t,
+                    target: &judged,
                     from: req.from,
                     to: req.to,
                     limits: req.limits,
                 };
                 // A target with a goal asks for the epochs its goal takes (the
                 // budget's); one without, for its method's own proposal.
-                Some(match goal_for(t, req.goal_pct, m) {
-                    Some(g) => m.goal(&setting, req.em, g).map(|p| p.epochs),
-                    None => m.propose(&setting, req.em),
+                Some(match goal {
+                    Some(g) => m
+                        .goal(&setting, req.em, g)
+                        .map(|p| (p.epochs, Some(p.verdict))),
+                    None => m.propose(&setting, req.em).map(|e| (e, None)),
                 })
             })
             .collect()
@@ -358,7 +382,12 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
             continue;
         };
         let mut epochs = match proposal {
-            Ok(e) => e,
+            Ok((e, v)) => {
+                if let Some(v) = v {
+                    goal_verdicts.insert(ti, v);
+                }
+                e
+            }
             Err(e) => {
                 method_notes
                     .entry(ti)
@@ -517,9 +546,10 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                 let goal = goal_for(t, req.goal_pct, m);
                 let mine: &[&Visit] = by_target.get(t.name.as_str()).map_or(&[], |v| v);
                 let epochs: Vec<Epoch> = mine.iter().map(|v| v.epoch()).collect();
+                let judged = with_goal(t, goal);
                 let setting = Setting {
                     site: req.site,
-                    target: t,
+                    target: &judged,
                     from: req.from,
                     to: req.to,
                     limits: req.limits,
@@ -549,6 +579,7 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                     requested: requested.get(&ti).copied().unwrap_or(0),
                     prediction,
                     meets_goal,
+                    goal_verdict: goal_verdicts.get(&ti).cloned(),
                     notes,
                 })
             })

@@ -2,7 +2,6 @@
 //! the coming year, the epochs and hours it takes (from `plan::budget::budget`,
 //! as `rung budget`), and the hours by semester.
 
-use crate::plan::budget::verdict_text;
 use crate::tui::keymap::{Scope, keys_for};
 use crate::tui::msg::Action;
 use crate::tui::state::{State, scroll_offset};
@@ -105,7 +104,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             r.epochs.to_string(),
             format!("{:.0}", r.exptime_per_epoch_s),
             format!("{:.1}", r.hours),
-            verdict_text(&r.verdict),
+            r.verdict.text(),
         ]);
         let sel = sel_name.as_deref() == Some(r.target.as_str());
         let st = if sel { th.selected() } else { th.text() };
@@ -118,7 +117,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
                     buf,
                     area.x + x,
                     y,
-                    &verdict_text(&r.verdict),
+                    &r.verdict.text(),
                     area.width - x,
                     th.notice(),
                 );

@@ -2,7 +2,6 @@
 //! night by night the window, the rest-frame phase, the expected magnitude, the
 //! exposure, the Moon, and which nights the chosen cadence observes.
 
-use crate::plan::budget::verdict_text;
 use crate::tui::state::{MethodBody, State, View, detail_offset, detail_rows};
 use crate::tui::views::fmt::{fit, hm, put, rfit};
 use crate::tui::views::scroll_mark;
@@ -126,12 +125,12 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             d.epochs.len(),
             d.hours_needed,
             if c.provisional { "provisional, " } else { "" },
-            verdict_text(&c.verdict)
+            c.verdict.text()
         ),
         None => format!(
             "{} epochs do not fix the light curve · {}",
             d.epochs.len(),
-            verdict_text(&c.verdict)
+            c.verdict.text()
         ),
     };
     put(buf, area.x, fy, &buy, area.width, th.text());

@@ -33,17 +33,22 @@ pub fn dec_text(dec_deg: f64) -> String {
     format!("{sign}{:02}:{:02}:{:02}", s / 3600, s / 60 % 60, s % 60)
 }
 
-/// A number with `dp` decimals, or "—".
+/// A number with `dp` decimals, or "—" when it has no finite value (the
+/// output layer's rules: `crate::output::fixed`).
 pub fn num(v: Option<f64>, dp: usize) -> String {
-    v.map(|x| format!("{x:.dp$}")).unwrap_or_else(|| "—".into())
+    v.and_then(|x| crate::output::fixed(x, dp))
+        .unwrap_or_else(|| "—".into())
 }
 
 /// Write `text` at (x, y) cut to `w` cells; returns the column after it.
+/// Control and bidirectional formatting characters (from a target's name or
+/// notes) are shown as escapes (`crate::output::one_line`).
 pub fn put(buf: &mut Buffer, x: u16, y: u16, text: &str, w: u16, style: Style) -> u16 {
     if w == 0 {
         return x;
     }
-    buf.set_stringn(x, y, text, w as usize, style).0
+    buf.set_stringn(x, y, crate::output::one_line(text), w as usize, style)
+        .0
 }
 
 /// Pad or cut `s` to exactly `w` characters.

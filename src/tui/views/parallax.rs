@@ -5,7 +5,6 @@
 use crate::tui::state::{MethodBody, State};
 use crate::tui::views::chart::Braille;
 use crate::tui::views::fmt::put;
-use crate::tui::views::phase::verdict_text;
 use chrono::Datelike;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
@@ -162,7 +161,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             p.epochs.len(),
             p.seasons_available,
             pr.hours_needed,
-            verdict_text(&pr.verdict)
+            pr.verdict.text()
         ),
         area.width,
         th.text(),

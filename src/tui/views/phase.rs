@@ -2,28 +2,11 @@
 //! `PulsatorMethod::analyse`), night by night, with the planned visits and what
 //! the points buy.
 
-use crate::ladder::Verdict;
 use crate::tui::state::{MethodBody, State, View, detail_offset, detail_rows};
 use crate::tui::views::fmt::{hm, put};
 use crate::tui::views::scroll_mark;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
-
-/// A verdict in words.
-pub fn verdict_text(v: &Verdict) -> String {
-    match v {
-        Verdict::Reachable => "goal reachable".into(),
-        Verdict::LimitedByFloor { floor_pct } => format!("limited by a {floor_pct:.1}% floor"),
-        Verdict::NotObservable { when } => match when {
-            Some(w) => format!("not observable ({w})"),
-            None => "not observable".into(),
-        },
-        Verdict::NeedsMoreSeasons { seasons } => match seasons {
-            Some(n) => format!("needs {n} seasons"),
-            None => "needs more seasons".into(),
-        },
-    }
-}
 
 /// Draw the Phase view.
 pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
@@ -169,7 +152,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
                 .map(|b| format!(" (floor {:.2}%, {:.0} pc)", b.floor_pct, b.distance_pc))
                 .unwrap_or_default(),
             pr.hours_needed,
-            verdict_text(&pr.verdict)
+            pr.verdict.text()
         ),
         (None, _) => "no distance prediction (the star needs mean_mag)".into(),
     };

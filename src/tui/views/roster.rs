@@ -48,13 +48,8 @@ pub fn progress_text(s: &State, t: &Target) -> String {
             reached,
             verdict,
         } => {
-            use crate::ladder::Verdict;
             let a = if !achievable_pct.is_finite() {
-                match verdict {
-                    Verdict::NeedsMoreSeasons { seasons: Some(n) } => format!("{n} seas"),
-                    Verdict::NotObservable { .. } => "unobs".to_string(),
-                    _ => "—".to_string(),
-                }
+                verdict.short()
             } else if achievable_pct >= 100.0 {
                 ">99".to_string()
             } else {

@@ -1,0 +1,486 @@
+//! The one output layer: how rung writes numbers and names in tables, JSON
+//! and CSV. Every command's table lines, JSON documents and CSV fields, the
+//! budget's and the plan's exports and the terminal UI's cells go through it,
+//! so these rules hold everywhere:
+//!
+//! - A number that is not finite (no value, NaN, infinity) is `null` in JSON,
+//!   an empty field in CSV and [`MISSING`] in a table: never `inf` or `NaN`.
+//! - A number that rounds to zero at the precision shown carries no sign:
+//!   never `-0.00`, `-0.0` or `-0` (in tables, JSON and CSV alike).
+//! - Text that came from a file (target names, notes) cannot drive the
+//!   terminal: control characters (escape sequences, carriage returns, tabs)
+//!   and the Unicode controls that reorder a line (bidirectional overrides and
+//!   isolates) are shown as escapes (`\x1b`, `\u{202e}`) in tables and in the
+//!   UI. JSON and CSV keep the text as it is (their own quoting makes it inert).
+//! - A Markdown cell escapes `|`, so a name cannot split the proposal's table.
+
+use serde::Serialize;
+use std::borrow::Cow;
+
+/// What a table shows for a number that has no value.
+pub const MISSING: &str = "-";
+
+/// A character a table shows as an escape: C0 and C1 controls except the
+/// line break, DEL, and the bidirectional formatting characters (marks,
+/// embeddings, overrides, isolates) that reorder what follows them.
+fn hidden(c: char) -> bool {
+    (c.is_control() && c != '\n')
+        || matches!(c, '\u{200e}' | '\u{200f}' | '\u{061c}' | '\u{202a}'..='\u{202e}' | '\u{2066}'..='\u{2069}')
+}
+
+fn escape_into(out: &mut String, c: char) {
+    use std::fmt::Write;
+    if (c as u32) < 0x100 {
+        let _ = write!(out, "\\x{:02x}", c as u32);
+    } else {
+        let _ = write!(out, "\\u{{{:x}}}", c as u32);
+    }
+}
+
+/// Text for a terminal: control and bidirectional formatting characters
+/// shown as escapes (`ESC` → `\x1b`, U+202E → `\u{202e}`, a tab → `\x09`);
+/// line breaks kept. Borrowed when there is nothing to escape.
+pub fn text(s: &str) -> Cow<'_, str> {
+    if !s.chars().any(hidden) {
+        return Cow::Borrowed(s);
+    }
+    let mut out = String::with_capacity(s.len() + 8);
+    for c in s.chars() {
+        if hidden(c) {
+            escape_into(&mut out, c);
+        } else {
+            out.push(c);
+        }
+    }
+    Cow::Owned(out)
+}
+
+/// A text on one line: [`text`] with line breaks escaped too (for a cell, a
+/// status line or a one-line message).
+pub fn one_line(s: &str) -> Cow<'_, str> {
+    if !s.chars().any(|c| hidden(c) || c == '\n') {
+        return Cow::Borrowed(s);
+    }
+    let mut out = String::with_capacity(s.len() + 8);
+    for c in s.chars() {
+        if hidden(c) || c == '\n' {
+            escape_into(&mut out, c);
+        } else {
+            out.push(c);
+        }
+    }
+    Cow::Owned(out)
+}
+
+/// A table line as printed: [`text`] (escapes), and no sign on a number that
+/// is written as zero (`-0.00` → ` 0.00`, keeping the column's width).
+///
+/// A number here is a run of digits with an optional fraction that is not
+/// part of a longer token (a date, a clock time, a name); only a run of zeros
+/// after a minus sign loses the sign.
+pub fn table_line(s: &str) -> Cow<'_, str> {
+    let t = text(s);
+    if !t.contains("-0") {
+        return t;
+    }
+    let b = t.as_bytes();
+    let mut out = String::with_capacity(b.len());
+    let mut last = 0;
+    let mut i = 0;
+    while i < b.len() {
+        if b[i] == b'-' && negative_zero_at(b, i) {
+            out.push_str(&t[last..i]);
+            // Keep right-aligned columns aligned: a space in the sign's place
+            // when the number follows a space, else no sign.
+            if i > 0 && b[i - 1] == b' ' {
+                out.push(' ');
+            }
+            last = i + 1;
+        }
+        i += 1;
+    }
+    out.push_str(&t[last..]);
+    Cow::Owned(out)
+}
+
+/// Whether the `-` at `i` starts a number written as zero (`-0`, `-0.000`).
+fn negative_zero_at(b: &[u8], i: usize) -> bool {
+    if i > 0 {
+        let p = b[i - 1];
+        if p.is_ascii_alphanumeric() || matches!(p, b'.' | b'-' | b'+' | b':' | b'_') {
+            return false;
+        }
+    }
+    let mut j = i + 1;
+    let start = j;
+    while j < b.len() && b[j] == b'0' {
+        j += 1;
+    }
+    if j == start {
+        return false;
+    }
+    if j < b.len() && b[j] == b'.' {
+        j += 1;
+        let f = j;
+        while j < b.len() && b[j] == b'0' {
+            j += 1;
+        }
+        if j == f {
+            return false;
+        }
+    }
+    match b.get(j) {
+        None => true,
+        Some(c) if c.is_ascii_digit() || matches!(c, b'.' | b':' | b'-' | b'/') => false,
+        Some(b'e' | b'E') => !b
+            .get(j + 1)
+            .is_some_and(|c| c.is_ascii_digit() || *c == b'-'),
+        Some(_) => true,
+    }
+}
+
+/// `x` with `dp` decimals, no sign when it rounds to zero; `None` when `x`
+/// is not finite.
+pub fn fixed(x: f64, dp: usize) -> Option<String> {
+    if !x.is_finite() {
+        return None;
+    }
+    let s = format!("{x:.dp$}");
+    Some(match s.strip_prefix('-') {
+        Some(rest) if rest.bytes().all(|c| c == b'0' || c == b'.') => rest.to_string(),
+        _ => s,
+    })
+}
+
+/// `x` with `dp` decimals and an explicit sign (`+0.25`, `-1.50`; zero is
+/// `+0.00`); `None` when `x` is not finite.
+pub fn signed(x: f64, dp: usize) -> Option<String> {
+    let s = fixed(x, dp)?;
+    Some(if s.starts_with('-') {
+        s
+    } else {
+        format!("+{s}")
+    })
+}
+
+/// A table cell: `x` with `dp` decimals, or [`MISSING`] when there is no
+/// finite value.
+pub fn num(x: impl Into<Option<f64>>, dp: usize) -> String {
+    x.into()
+        .and_then(|x| fixed(x, dp))
+        .unwrap_or_else(|| MISSING.into())
+}
+
+/// A CSV field for a number: `x` with `dp` decimals, or an empty field when
+/// there is no finite value.
+pub fn csv_num(x: impl Into<Option<f64>>, dp: usize) -> String {
+    x.into().and_then(|x| fixed(x, dp)).unwrap_or_default()
+}
+
+/// A CSV field (RFC 4180): quoted when it holds a comma, a quote or a line
+/// break, quotes doubled.
+pub fn csv_field(s: &str) -> Cow<'_, str> {
+    if s.contains([',', '"', '\n', '\r']) {
+        Cow::Owned(format!("\"{}\"", s.replace('"', "\"\"")))
+    } else {
+        Cow::Borrowed(s)
+    }
+}
+
+/// One CSV record with its line end.
+pub fn csv_record<S: AsRef<str>>(fields: &[S]) -> String {
+    let mut out = String::new();
+    for (i, f) in fields.iter().enumerate() {
+        if i > 0 {
+            out.push(',');
+        }
+        out.push_str(&csv_field(f.as_ref()));
+    }
+    out.push('\n');
+    out
+}
+
+/// A CSV table: a header row and one record per row.
+pub fn csv_table<S: AsRef<str>>(header: &[&str], rows: impl IntoIterator<Item = Vec<S>>) -> String {
+    let mut out = csv_record(header);
+    for r in rows {
+        out.push_str(&csv_record(&r));
+    }
+    out
+}
+
+/// A Markdown table cell: [`one_line`] with `|` escaped.
+pub fn md_cell(s: &str) -> String {
+    one_line(s).replace('|', "\\|")
+}
+
+/// A JSON value with every negative zero made zero (non-finite numbers are
+/// already `null` in a `serde_json::Value`).
+pub fn clean_json(v: &mut serde_json::Value) {
+    use serde_json::Value;
+    match v {
+        Value::Number(n) if n.is_f64() && n.as_f64() == Some(0.0) => {
+            *v = serde_json::json!(0.0);
+        }
+        Value::Array(a) => a.iter_mut().for_each(clean_json),
+        Value::Object(o) => o.values_mut().for_each(clean_json),
+        _ => {}
+    }
+}
+
+/// A JSON document as rung prints it: pretty, non-finite numbers as `null`,
+/// no negative zero.
+pub fn json<T: Serialize + ?Sized>(v: &T) -> crate::Result<String> {
+    let mut v = serde_json::to_value(v)
+        .map_err(|e| crate::RungError::invalid("JSON output", e.to_string()))?;
+    clean_json(&mut v);
+    serde_json::to_string_pretty(&v)
+        .map_err(|e| crate::RungError::invalid("JSON output", e.to_string()))
+}
+
+/// A JSON number or `null` when `x` is not finite (no negative zero).
+pub fn json_num(x: f64) -> serde_json::Value {
+    if !x.is_finite() {
+        serde_json::Value::Null
+    } else {
+        serde_json::json!(x + 0.0)
+    }
+}
+
+// The fast path: numbers, times and names straight into byte buffers, for
+// outputs of millions of rows (`rung season`), with the same rules.
+
+const DIGITS2: &[u8; 200] = b"0001020304050607080910111213141516171819\
+2021222324252627282930313233343536373839\
+4041424344454647484950515253545556575859\
+6061626364656667686970717273747576777879\
+8081828384858687888990919293949596979899";
+
+/// Two decimal digits of `v` (< 100).
+pub fn push2(buf: &mut Vec<u8>, v: usize) {
+    let i = 2 * (v % 100);
+    buf.extend_from_slice(&DIGITS2[i..i + 2]);
+}
+
+/// An unsigned integer.
+pub fn push_uint(buf: &mut Vec<u8>, mut v: u64) {
+    let mut tmp = [0u8; 20];
+    let mut i = tmp.len();
+    while v >= 100 {
+        let d = 2 * (v % 100) as usize;
+        v /= 100;
+        i -= 2;
+        tmp[i..i + 2].copy_from_slice(&DIGITS2[d..d + 2]);
+    }
+    if v >= 10 {
+        let d = 2 * v as usize;
+        i -= 2;
+        tmp[i..i + 2].copy_from_slice(&DIGITS2[d..d + 2]);
+    } else {
+        i -= 1;
+        tmp[i] = b'0' + v as u8;
+    }
+    buf.extend_from_slice(&tmp[i..]);
+}
+
+/// `v` zero-padded to at least `width` digits.
+pub fn push_padded(buf: &mut Vec<u8>, v: u64, width: usize) {
+    let mut tmp = [b'0'; 20];
+    let mut x = v;
+    let mut i = tmp.len();
+    while x > 0 {
+        i -= 1;
+        tmp[i] = b'0' + (x % 10) as u8;
+        x /= 10;
+    }
+    let start = (tmp.len() - width).min(i);
+    buf.extend_from_slice(&tmp[start..]);
+}
+
+const SCALE: [u64; 5] = [1, 10, 100, 1000, 10_000];
+
+/// A finite number with `dp` (≤ 4) decimals, rounded half away from zero, no
+/// sign when it rounds to zero. Returns false (and writes nothing) when `x`
+/// is not finite: the caller writes its format's missing value.
+pub fn push_fixed(buf: &mut Vec<u8>, x: f64, dp: u32) -> bool {
+    if !x.is_finite() {
+        return false;
+    }
+    let dp = dp.min(4) as usize;
+    let scale = SCALE[dp];
+    let m = (x.abs() * scale as f64 + 0.5) as u64;
+    if x < 0.0 && m > 0 {
+        buf.push(b'-');
+    }
+    push_uint(buf, m / scale);
+    if dp > 0 {
+        buf.push(b'.');
+        push_padded(buf, m % scale, dp);
+    }
+    true
+}
+
+/// A number or its format's missing value: `null` in JSON, nothing in CSV.
+pub fn push_num(buf: &mut Vec<u8>, x: Option<f64>, dp: u32, json: bool) {
+    let done = x.is_some_and(|x| push_fixed(buf, x, dp));
+    if !done && json {
+        buf.extend_from_slice(b"null");
+    }
+}
+
+/// UTC ISO 8601 text `YYYY-MM-DDTHH:MM:SSZ` of a Unix time (rounded to the
+/// second); days to civil date by the proleptic Gregorian algorithm of
+/// H. Hinnant, "chrono-Compatible Low-Level Date Algorithms" (days_from_civil inverse).
+pub fn push_iso(buf: &mut Vec<u8>, unix_s: f64) {
+    let t = unix_s.round() as i64;
+    let days = t.div_euclid(86_400);
+    let sod = t.rem_euclid(86_400);
+    let z = days + 719_468;
+    let era = z.div_euclid(146_097);
+    let doe = z - era * 146_097;
+    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
+    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    let mp = (5 * doy + 2) / 153;
+    let d = doy - (153 * mp + 2) / 5 + 1;
+    let m = if mp < 10 { mp + 3 } else { mp - 9 };
+    let y = yoe + era * 400 + i64::from(m <= 2);
+    push_padded(buf, y.max(0) as u64, 4);
+    buf.push(b'-');
+    push_padded(buf, m as u64, 2);
+    buf.push(b'-');
+    push_padded(buf, d as u64, 2);
+    buf.push(b'T');
+    push_padded(buf, (sod / 3600) as u64, 2);
+    buf.push(b':');
+    push_padded(buf, (sod / 60 % 60) as u64, 2);
+    buf.push(b':');
+    push_padded(buf, (sod % 60) as u64, 2);
+    buf.push(b'Z');
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn numbers_have_no_negative_zero_and_no_infinity() {
+        assert_eq!(fixed(-0.0004, 3).as_deref(), Some("0.000"));
+        assert_eq!(fixed(-0.0, 1).as_deref(), Some("0.0"));
+        assert_eq!(fixed(-0.4, 0).as_deref(), Some("0"));
+        assert_eq!(fixed(-0.006, 2).as_deref(), Some("-0.01"));
+        assert_eq!(fixed(f64::INFINITY, 2), None);
+        assert_eq!(signed(-0.0001, 2).as_deref(), Some("+0.00"));
+        assert_eq!(signed(-1.5, 2).as_deref(), Some("-1.50"));
+        assert_eq!(num(f64::NAN, 2), "-");
+        assert_eq!(num(None, 2), "-");
+        assert_eq!(csv_num(f64::NEG_INFINITY, 2), "");
+        assert_eq!(csv_num(-0.0, 3), "0.000");
+        let mut v = serde_json::json!({"a": -0.0, "b": [1.5, -0.0], "c": "-0.0"});
+        clean_json(&mut v);
+        assert_eq!(v.to_string(), r#"{"a":0.0,"b":[1.5,0.0],"c":"-0.0"}"#);
+        #[derive(Serialize)]
+        struct R {
+            x: f64,
+            y: f64,
+            z: f64,
+        }
+        let s = json(&R {
+            x: f64::INFINITY,
+            y: f64::NAN,
+            z: -0.0,
+        })
+        .unwrap();
+        assert!(
+            !s.contains("inf") && !s.contains("NaN") && !s.contains("-0"),
+            "{s}"
+        );
+        assert!(s.contains("\"x\": null") && s.contains("\"z\": 0.0"), "{s}");
+    }
+
+    #[test]
+    fn table_lines_lose_the_sign_of_zero_only() {
+        assert_eq!(table_line("  P_ra  -0.000 +0.25"), "  P_ra   0.000 +0.25");
+        assert_eq!(table_line("x=-0.0%"), "x=0.0%");
+        assert_eq!(table_line("-0"), "0");
+        // Not numbers written as zero: kept.
+        for keep in [
+            "2026-01-05",
+            "21:30-00:15",
+            "-0.01",
+            "-0.5",
+            "LPO-0",
+            "HA -00:30",
+            "1e-0",
+            "-0.0e5",
+            "a-0",
+        ] {
+            assert_eq!(table_line(keep), keep);
+        }
+    }
+
+    #[test]
+    fn names_cannot_drive_the_terminal() {
+        let evil = "LPO\x1b[2J\x1b]0;owned\x07\r\tX\u{202e}gpj.exe\u{9b}";
+        let t = text(evil);
+        assert!(!t.chars().any(hidden), "{t}");
+        assert_eq!(
+            t,
+            "LPO\\x1b[2J\\x1b]0;owned\\x07\\x0d\\x09X\\u{202e}gpj.exe\\x9b"
+        );
+        assert_eq!(text("plain name é"), "plain name é");
+        assert!(matches!(text("plain"), Cow::Borrowed(_)));
+        assert_eq!(text("two\nlines"), "two\nlines");
+        assert_eq!(one_line("two\nlines"), "two\\x0alines");
+        assert_eq!(md_cell("a|b\x1b"), "a\\|b\\x1b");
+    }
+
+    #[test]
+    fn csv_fields_are_quoted_as_needed() {
+        assert_eq!(
+            csv_record(&["a", "b,c", "d\"e", "f\ng"]),
+            "a,\"b,c\",\"d\"\"e\",\"f\ng\"\n"
+        );
+        assert_eq!(
+            csv_table(
+                &["x", "y"],
+                vec![vec!["1".to_string(), csv_num(f64::NAN, 1)]]
+            ),
+            "x,y\n1,\n"
+        );
+    }
+
+    #[test]
+    fn fast_path_follows_the_same_rules() {
+        let mut b = Vec::new();
+        push_fixed(&mut b, 1.23456, 3);
+        b.push(b' ');
+        push_fixed(&mut b, -0.0004, 3);
+        b.push(b' ');
+        push_fixed(&mut b, -12.5, 2);
+        b.push(b' ');
+        push_fixed(&mut b, 0.05, 2);
+        b.push(b' ');
+        push_num(&mut b, Some(f64::INFINITY), 2, true);
+        b.push(b' ');
+        push_num(&mut b, None, 2, false);
+        b.push(b'|');
+        assert_eq!(
+            String::from_utf8(b).unwrap(),
+            "1.235 0.000 -12.50 0.05 null |"
+        );
+        // Checked against chrono's calendar (proleptic Gregorian, UTC).
+        let dt = chrono::DateTime::parse_from_rfc3339("2026-12-01T23:46:03Z").unwrap();
+        let mut b = Vec::new();
+        push_iso(&mut b, dt.timestamp() as f64 + 0.2);
+        assert_eq!(String::from_utf8(b).unwrap(), "2026-12-01T23:46:03Z");
+        for s in [-86_400i64 * 365 * 9, 0, 951_782_400, 4_102_444_799] {
+            let want = chrono::DateTime::from_timestamp(s, 0)
+                .unwrap()
+                .format("%Y-%m-%dT%H:%M:%SZ")
+                .to_string();
+            let mut b = Vec::new();
+            push_iso(&mut b, s as f64);
+            assert_eq!(String::from_utf8(b).unwrap(), want);
+        }
+    }
+}
