@@ -92,10 +92,19 @@ pub fn romer_delay_s(obs_bary_au: &[f64; 3], n_hat: &[f64; 3]) -> f64 {
 /// Inputs: `ctx` a context of `site` at the instant (exact, or from a
 /// `NightFrame`), `place` the ICRS catalogue place. Result: two-part BJD_TDB.
 /// Accuracy: better than 1 ms (module note); with a `NightFrame` context the
-/// Earth's position is interpolated to < 1 km (≈ 3 µs).
+/// Earth's position is interpolated to < 1 km (≈ 3 µs) and TDB − TT (SOFA
+/// `dtdb`) to a few µs.
 pub fn bjd_tdb_ctx(site: &Site, ctx: &Context, place: &CatalogPlace) -> Bjd {
-    let (u_km, v_km) = site.spin_axis_uv_km();
-    let (t1, t2) = ctx.t.tdb(site.lon_rad(), u_km, v_km);
+    let (t1, t2) = match ctx.tdb_minus_tt_s() {
+        Some(d) => {
+            let (a, b) = ctx.tt();
+            (a, b + d / DAY_S)
+        }
+        None => {
+            let (u_km, v_km) = site.spin_axis_uv_km();
+            ctx.t.tdb(site.lon_rad(), u_km, v_km)
+        }
+    };
     let n = barycentric_direction(place, ctx.t.julian_epoch_tt());
     let dt_d = romer_delay_s(&ctx.observer_bary_au(), &n) / DAY_S;
     Bjd {

@@ -108,6 +108,13 @@ pub struct Context {
     /// Observer's geocentric position, au, GCRS.
     obs_geo_au: [f64; 3],
     tt: (f64, f64),
+    /// The Moon's geocentric position and velocity when the maker of the
+    /// context already has them (a night interpolates them from its own SOFA
+    /// `moon98` samples); otherwise `moon98` is called when asked.
+    moon_pv: Option<[[f64; 3]; 2]>,
+    /// TDB − TT at the site, seconds, when the maker has it (a night's frame
+    /// interpolates SOFA `dtdb`).
+    tdb_minus_tt_s: Option<f64>,
 }
 
 fn site_refraction(site: &Site) -> (f64, f64, f64, f64) {
@@ -179,7 +186,22 @@ impl Context {
             earth_bary: eb,
             obs_geo_au,
             tt,
+            moon_pv: None,
+            tdb_minus_tt_s: None,
         }
+    }
+
+    /// The same context with the Moon's geocentric position and velocity
+    /// (au, au/d, GCRS) given instead of computed by `moon98` when asked.
+    pub(crate) fn with_moon(mut self, pv: [[f64; 3]; 2]) -> Self {
+        self.moon_pv = Some(pv);
+        self
+    }
+
+    /// TDB − TT at the site (seconds) when the context carries it (contexts
+    /// of a night's frame do, from SOFA `dtdb` interpolated through the night).
+    pub fn tdb_minus_tt_s(&self) -> Option<f64> {
+        self.tdb_minus_tt_s
     }
 
     /// TT of the context as a two-part Julian date.
@@ -267,6 +289,9 @@ impl Context {
 
     /// Geocentric Moon position (au) and velocity (au/d), GCRS (SOFA `moon98`).
     pub fn moon_geo_pv(&self) -> [[f64; 3]; 2] {
+        if let Some(pv) = self.moon_pv {
+            return pv;
+        }
         sofars::eph::moon98(self.tt.0, self.tt.1)
     }
 
@@ -368,13 +393,23 @@ pub struct NightFrame {
     refb: f64,
     t0: Instant,
     span_s: f64,
-    // Samples at 0, 1/2, 1 of the span: x, y, s, s', ebpv (6), ehp (3), eh velocity (3).
-    samples: [[f64; 16]; 3],
+    // Samples at 0, 1/2, 1 of the span: x, y, s, s', ebpv (6), ehp (3), eh
+    // velocity (3), TDB − TT (s).
+    samples: [[f64; SLOW_N]; 3],
 }
 
-fn slow_quantities(t: Instant) -> Result<[f64; 16]> {
+/// Number of slowly varying quantities a [`NightFrame`] samples.
+const SLOW_N: usize = 17;
+
+fn slow_quantities(t: Instant, site: &Site) -> Result<[f64; SLOW_N]> {
     t.check_span()?;
     let (t1, t2) = t.tt();
+    // TDB − TT with the site's topocentric term (SOFA dtdb), as Instant::tdb.
+    let (u1, u2) = t.ut1();
+    let ut_frac = (u1 - 0.5).fract() + u2;
+    let ut_frac = ut_frac - ut_frac.floor();
+    let (u_km, v_km) = site.spin_axis_uv_km();
+    let dtdb = sofars::ts::dtdb(t1, t2, ut_frac, site.lon_rad(), u_km, v_km);
     let r = sofars::pnp::pnm06a(t1, t2);
     let (x, y) = sofars::pnp::bpn2xy(&r);
     let s = sofars::pnp::s06(t1, t2, x, y);
@@ -385,7 +420,7 @@ fn slow_quantities(t: Instant) -> Result<[f64; 16]> {
     })?;
     Ok([
         x, y, s, sp, eb[0][0], eb[0][1], eb[0][2], eb[1][0], eb[1][1], eb[1][2], eh[0][0],
-        eh[0][1], eh[0][2], eh[1][0], eh[1][1], eh[1][2],
+        eh[0][1], eh[0][2], eh[1][0], eh[1][1], eh[1][2], dtdb,
     ])
 }
 
@@ -411,9 +446,9 @@ impl NightFrame {
             t0: start,
             span_s,
             samples: [
-                slow_quantities(start)?,
-                slow_quantities(mid)?,
-                slow_quantities(end)?,
+                slow_quantities(start, site)?,
+                slow_quantities(mid, site)?,
+                slow_quantities(end, site)?,
             ],
         })
     }
@@ -430,14 +465,16 @@ impl NightFrame {
 
     /// The slowly varying quantities at `t`, interpolated: CIP X, Y, CIO
     /// locator s, TIO locator s′, the Earth's barycentric position and
-    /// velocity (au, au/d) and heliocentric position and velocity.
-    fn slow(&self, t: Instant) -> [f64; 16] {
+    /// velocity (au, au/d) and heliocentric position and velocity, TDB − TT
+    /// at the site (seconds; its daily topocentric term of about 2 µs is
+    /// followed only as far as three samples follow it).
+    fn slow(&self, t: Instant) -> [f64; SLOW_N] {
         let u = t.seconds_since(&self.t0) / self.span_s; // 0..1
         // Quadratic Lagrange weights at nodes 0, 0.5, 1.
         let w0 = 2.0 * (u - 0.5) * (u - 1.0);
         let w1 = -4.0 * u * (u - 1.0);
         let w2 = 2.0 * u * (u - 0.5);
-        let mut q = [0.0; 16];
+        let mut q = [0.0; SLOW_N];
         for (i, qi) in q.iter_mut().enumerate() {
             *qi = w0 * self.samples[0][i] + w1 * self.samples[1][i] + w2 * self.samples[2][i];
         }
@@ -513,7 +550,9 @@ impl NightFrame {
             self.refb,
             &mut astrom,
         );
-        Context::finish(t, (t1, t2), astrom, eh, eb)
+        let mut c = Context::finish(t, (t1, t2), astrom, eh, eb);
+        c.tdb_minus_tt_s = Some(q[16]);
+        c
     }
 }
 

@@ -160,8 +160,74 @@ pub struct Night {
     /// What every target shares for its closed-form visibility
     /// (`astro::visibility`).
     pub sky: SkyFrame,
+    /// The Moon through the night, for the contexts of [`Night::context`].
+    moon_table: MoonTable,
     /// Dark intervals already found, by Sun limit (degrees).
     dark_cache: DarkCache,
+}
+
+/// The Moon's geocentric position and velocity (SOFA `moon98`) every
+/// [`MoonTable::STEP_S`] from two hours before a night to two hours after,
+/// interpolated by four-point (cubic) Lagrange: the Moon's orbit is smooth
+/// on that scale (it turns by 0.55° an hour), and the interpolation errs by
+/// well under a metre (0.001″), so a night calls `moon98` 30 times instead of
+/// once per context (unit test `moon_table_matches_moon98`).
+#[derive(Debug, Clone)]
+struct MoonTable {
+    t0: Instant,
+    pv: Vec<[[f64; 3]; 2]>,
+}
+
+impl MoonTable {
+    const STEP_S: f64 = 3600.0;
+    const MARGIN_S: f64 = 7200.0;
+
+    fn new(start: Instant, end: Instant) -> Self {
+        let t0 = start.add_seconds(-Self::MARGIN_S);
+        let n = ((end.seconds_since(&start) + 2.0 * Self::MARGIN_S) / Self::STEP_S).ceil() as usize;
+        let pv = (0..=n)
+            .map(|k| {
+                let (a, b) = t0.add_seconds(k as f64 * Self::STEP_S).tt();
+                sofars::eph::moon98(a, b)
+            })
+            .collect();
+        MoonTable { t0, pv }
+    }
+
+    /// The Moon at `t`, or `None` outside the table.
+    fn at(&self, t: Instant) -> Option<[[f64; 3]; 2]> {
+        let x = t.seconds_since(&self.t0) / Self::STEP_S;
+        let i = x.floor() as i64 - 1;
+        if i < 0 || i as usize + 3 >= self.pv.len() {
+            return None;
+        }
+        let i = i as usize;
+        let u = x - (i + 1) as f64; // in [0, 1) between nodes i+1 and i+2
+        // Cubic Lagrange weights at nodes −1, 0, 1, 2.
+        let w = [
+            -u * (u - 1.0) * (u - 2.0) / 6.0,
+            (u + 1.0) * (u - 1.0) * (u - 2.0) / 2.0,
+            -(u + 1.0) * u * (u - 2.0) / 2.0,
+            (u + 1.0) * u * (u - 1.0) / 6.0,
+        ];
+        let mut out = [[0.0; 3]; 2];
+        for (k, wk) in w.iter().enumerate() {
+            for (o, p) in out.iter_mut().zip(&self.pv[i + k]) {
+                for (oj, pj) in o.iter_mut().zip(p) {
+                    *oj += wk * pj;
+                }
+            }
+        }
+        Some(out)
+    }
+
+    /// `c` with the Moon from the table (unchanged outside it).
+    fn attach(&self, c: Context) -> Context {
+        match self.at(c.t) {
+            Some(pv) => c.with_moon(pv),
+            None => c,
+        }
+    }
 }
 
 /// Dark intervals of a night by Sun limit, found once and shared by the
@@ -273,13 +339,18 @@ impl Night {
             f1 = hi;
         }
         let frame = NightFrame::new(site, f0, f1)?;
+        let moon_table = MoonTable::new(start, end);
         let times = grid(start, end, GRID_STEP_S);
-        let contexts: Vec<Context> = times.iter().map(|t| frame.context(*t)).collect();
+        let contexts: Vec<Context> = times
+            .iter()
+            .map(|t| moon_table.attach(frame.context(*t)))
+            .collect();
         let sun: Vec<Observed> = contexts.iter().map(|c| c.sun()).collect();
         let moon: Vec<Observed> = contexts.iter().map(|c| c.moon()).collect();
         let sky = SkyFrame::new(site, start, end, &frame);
         Ok(Night {
             sky,
+            moon_table,
             date,
             site: site.clone(),
             start,
@@ -297,7 +368,7 @@ impl Night {
 
     /// Context at any instant of the night.
     pub fn context(&self, t: Instant) -> Context {
-        self.frame.context(t)
+        self.moon_table.attach(self.frame.context(t))
     }
 
     /// Geometric altitude of the Sun's centre, degrees.
@@ -566,5 +637,54 @@ impl TargetNight {
                 .partial_cmp(&b.1.seconds_since(&b.0))
                 .unwrap_or(std::cmp::Ordering::Equal)
         })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn moon_table_matches_moon98() {
+        // The interpolated Moon against SOFA moon98 at odd instants through
+        // two nights (new and full Moon): within 1 m (0.0005″ at the Moon).
+        let site = crate::io::sites::resolve("pampa-lucero").unwrap();
+        for day in ["2026-12-09", "2026-12-24"] {
+            let night = Night::new(&site, day.parse().unwrap()).unwrap();
+            let span = night.end.seconds_since(&night.start);
+            for k in 0..=50 {
+                let t = night.start.add_seconds(span * k as f64 / 50.0 + 17.3);
+                let got = night.context(t).moon_geo_pv();
+                let (a, b) = t.tt();
+                let want = sofars::eph::moon98(a, b);
+                let d = (0..3)
+                    .map(|i| (got[0][i] - want[0][i]).powi(2))
+                    .sum::<f64>()
+                    .sqrt();
+                assert!(
+                    d * sofars::consts::DAU < 1.0,
+                    "{day} +{k}: {} m",
+                    d * sofars::consts::DAU
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn frame_tdb_matches_dtdb() {
+        // TDB − TT carried by the night's contexts against SOFA dtdb with the
+        // site's terms: within 5 µs.
+        let site = crate::io::sites::resolve("sierra-alcaravan").unwrap();
+        let night = Night::new(&site, "2027-03-01".parse().unwrap()).unwrap();
+        let (u, v) = site.spin_axis_uv_km();
+        for k in 0..=24 {
+            let t = night.start.add_seconds(k as f64 * 3600.0);
+            let c = night.context(t);
+            let (t1, t2) = t.tdb(site.lon_rad(), u, v);
+            let (a, b) = c.tt();
+            let want = ((t1 - a) + (t2 - b)) * crate::astro::time::DAY_S;
+            let got = c.tdb_minus_tt_s().unwrap();
+            assert!((got - want).abs() < 5e-6, "{k}: {got} vs {want}");
+        }
     }
 }
