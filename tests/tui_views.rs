@@ -857,12 +857,12 @@ fn roster_moon_and_sun_columns_are_the_numbers_of_rung_night_json() {
         let name = t["name"].as_str().unwrap();
         let r = s.row(name).unwrap();
         // (serde_json's default float parsing is not bit-exact: compare to 1e-9°.)
-        match (r.moon_sep_deg, t["moon_separation_deg"].as_f64()) {
+        match (r.moon_separation_deg, t["moon_separation_deg"].as_f64()) {
             (Some(a), Some(b)) => assert!((a - b).abs() < 1e-9, "{name}: {a} vs {b}"),
             (a, b) => assert_eq!(a, b, "{name}"),
         }
         let line = row_of(&rows, &format!(" {name} "));
-        if let Some(m) = r.moon_sep_deg {
+        if let Some(m) = r.moon_separation_deg {
             assert!(line.contains(&format!("{m:.0}°")), "{line}");
         }
         match (&r.sun_caution, t["sun_caution"].as_object()) {

@@ -95,8 +95,27 @@ pub fn moon_separation_deg(night: &night::Night, place: &CatalogPlace, t: Instan
 /// (the Sun moves about 1° a day among the stars), so only the start of a
 /// spell, set by the Sun or the target rising, can be late by up to the step.
 pub fn first_sun_caution(night: &night::Night, place: &CatalogPlace) -> Option<(Instant, String)> {
-    for (c, sun_alt) in night.contexts.iter().zip(&night.sun_alt_deg) {
+    // The closed form of the target's track (good to 1″) skips the grid
+    // instants where the target is well below the horizon or well away from
+    // the Sun; the rest are checked on the exact places, as before.
+    let track = night.track(place);
+    let (sd, cd) = track.dec_mid_rad().sin_cos();
+    let cos_far = (night.site.sun_avoid_deg + 0.1)
+        .min(180.0)
+        .to_radians()
+        .cos();
+    let sin_low = (-1f64).to_radians().sin();
+    for (i, (c, sun_alt)) in night.contexts.iter().zip(&night.sun_alt_deg).enumerate() {
         if *sun_alt <= SUN_UP_DEG {
+            continue;
+        }
+        let s = night.sky.offset(c.t);
+        if track.sin_alt_linear(s) < sin_low {
+            continue;
+        }
+        let sun = &night.sun[i];
+        let (ss, cs) = sun.dec_rad.sin_cos();
+        if sd * ss + cd * cs * (track.ha_linear(s) - sun.ha_rad).cos() < cos_far {
             continue;
         }
         if c.observe(place).alt_rad <= 0.0 {

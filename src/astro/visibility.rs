@@ -361,6 +361,11 @@ impl<'a> Track<'a> {
         self.ha_mid + ERA_RATE_RAD_S * (s - 0.5 * self.frame.span_s)
     }
 
+    /// CIRS declination at the night's middle, radians (the closed form's).
+    pub fn dec_mid_rad(&self) -> f64 {
+        self.di[1]
+    }
+
     /// Closed-form sine of the geometric altitude at offset `s`.
     pub fn sin_alt_linear(&self, s: f64) -> f64 {
         self.a + self.b * self.ha_linear(s).cos()

@@ -31,9 +31,6 @@ fn ev(o: &mut Map<String, Value>, reasons: &mut Map<String, Value>, key: &str, e
     }
 }
 
-/// A target's Moon distance at its best time (degrees) and its first Sun caution.
-type Extras = (Option<f64>, Option<(rung::astro::time::Instant, String)>);
-
 /// Run `rung night`.
 pub fn run(a: Args) -> Result<()> {
     let st = super::settings(
@@ -53,27 +50,12 @@ pub fn run(a: Args) -> Result<()> {
     };
     let night = Night::new(&site, date)?;
     let e = night.events();
-    let rows: Vec<_> = {
-        use rayon::prelude::*;
-        targets
-            .par_iter()
-            .map(|t| (t, night.target(&t.place(), &limits)))
-            .collect()
-    };
-    // Per target: the Moon's distance at the best time, and the first Sun caution.
-    let extras: Vec<Extras> = {
-        use rayon::prelude::*;
-        rows.par_iter()
-            .map(|(t, tn)| {
-                let p = t.place();
-                (
-                    tn.max_altitude_time
-                        .map(|tm| rung::astro::moon_separation_deg(&night, &p, tm)),
-                    rung::astro::first_sun_caution(&night, &p),
-                )
-            })
-            .collect()
-    };
+    // One row per target from the night's table (the same rows the UI shows).
+    let places: Vec<_> = targets.iter().map(|t| t.place()).collect();
+    let table = rung::plan::night_table::rows(&night, &places, &limits);
+    let rows: Vec<_> = targets.iter().zip(&table).collect();
+    // The programme's bands (built-in merged with the user's), as the photometry uses.
+    let bands = &st.photometer.bands;
     if a.json {
         let mut o = Map::new();
         let mut reasons = Map::new();
@@ -108,8 +90,8 @@ pub fn run(a: Args) -> Result<()> {
         if a.targets.is_some() {
             let list: Vec<Value> = rows
                 .iter()
-                .zip(&extras)
-                .map(|((t, tn), (moon_sep, caution))| {
+                .map(|(t, row)| {
+                    let tn = &row.night;
                     let mut r = Map::new();
                     let mut why = Map::new();
                     r.insert("name".into(), json!(t.name));
@@ -142,11 +124,16 @@ pub fn run(a: Args) -> Result<()> {
                         "max_altitude_time".into(),
                         json!(tn.max_altitude_time.map(|t| t.iso())),
                     );
-                    r.insert("moon_separation_deg".into(), json!(moon_sep));
+                    r.insert("moon_separation_deg".into(), json!(row.moon_separation_deg));
+                    let sky = row.sky_brightness(bands, &t.band).and_then(|x| x.ok());
+                    r.insert(
+                        "sky_mag_arcsec2".into(),
+                        json!(sky.as_ref().map(|x| x.sky_mag_arcsec2)),
+                    );
                     r.insert(
                         "sun_caution".into(),
                         json!(
-                            caution
+                            row.sun_caution
                                 .as_ref()
                                 .map(|(t, m)| json!({"first": t.iso(), "text": m}))
                         ),
@@ -236,7 +223,8 @@ pub fn run(a: Args) -> Result<()> {
             "airmass",
             "Moon"
         );
-        for ((t, tn), (moon_sep, _)) in rows.iter().zip(&extras) {
+        for (t, row) in &rows {
+            let tn = &row.night;
             let w = tn
                 .main_window()
                 .map(|w| {
@@ -258,13 +246,13 @@ pub fn run(a: Args) -> Result<()> {
                 tn.observable_hours,
                 super::opt(tn.max_altitude_deg, 1),
                 super::opt(tn.min_airmass, 2),
-                moon_sep
+                row.moon_separation_deg
                     .map(|m| format!("{m:.0}°"))
                     .unwrap_or_else(|| "-".into()),
             );
         }
-        for ((t, _), (_, caution)) in rows.iter().zip(&extras) {
-            if let Some((at, m)) = caution {
+        for (t, row) in &rows {
+            if let Some((at, m)) = &row.sun_caution {
                 super::outln!(
                     "  {} from {}: {m}",
                     t.name,

@@ -4,10 +4,12 @@
 //!   every target on every night of a range, streamed one night at a time.
 //! - [`budget`]: what each target's distance goal costs, with a verdict.
 //! - [`schedule`]: places the methods' epochs as visits on nights and times.
+//! - [`night_table`]: one night, per target the row `rung night` and the UI show.
 //! - [`file`]: plans saved and re-planned; [`export`]: CSV, iCalendar, night sheets.
 
 pub mod budget;
 pub mod export;
 pub mod file;
+pub mod night_table;
 pub mod schedule;
 pub mod season;

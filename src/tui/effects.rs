@@ -13,37 +13,33 @@ use crate::tui::msg::{
     Effect, Msg, NightJob, PlanJob, RecoveryOp, SaveJob, Saved, SeasonJob, SeasonRows, SeasonSky,
 };
 use crate::tui::state::{
-    BudgetKey, MethodBody, MethodKey, MethodResult, NightData, SeasonKey, TargetRow, View,
+    BudgetKey, MethodBody, MethodKey, MethodResult, NightData, SeasonKey, View,
 };
 use rayon::prelude::*;
 use std::sync::Arc;
-
-/// One target's row of the night table.
-pub fn target_row(night: &Night, t: &Target, limits: &crate::astro::night::Limits) -> TargetRow {
-    let place = t.place();
-    let tn = night.target(&place, limits);
-    let obs: Vec<_> = night.contexts.iter().map(|c| c.observe(&place)).collect();
-    let alt_deg = obs.iter().map(|o| o.alt_rad.to_degrees() as f32).collect();
-    let moon_sep_deg = tn
-        .max_altitude_time
-        .map(|tm| crate::astro::moon_separation_deg(night, &place, tm));
-    let caution = crate::astro::first_sun_caution(night, &place);
-    TargetRow {
-        night: tn,
-        moon_sep_deg,
-        alt_deg,
-        sun_caution: caution,
-    }
-}
 
 /// The night table for a job.
 pub fn night_data(job: &NightJob) -> Result<NightData> {
     let night = Night::new(&job.site, job.date)?;
     let events = night.events();
-    let rows = job
+    let places: Vec<_> = job.targets.iter().map(|t| t.place()).collect();
+    let table = crate::plan::night_table::rows(&night, &places, &job.limits);
+    let tracks = job
         .targets
         .par_iter()
-        .map(|t| (t.name.clone(), target_row(&night, t, &job.limits)))
+        .zip(&places)
+        .map(|(t, p)| {
+            (
+                t.name.clone(),
+                crate::plan::night_table::altitude_track(&night, p),
+            )
+        })
+        .collect();
+    let rows = job
+        .targets
+        .iter()
+        .map(|t| t.name.clone())
+        .zip(table)
         .collect();
     Ok(NightData {
         generation: job.generation,
@@ -61,6 +57,7 @@ pub fn night_data(job: &NightJob) -> Result<NightData> {
         sun_alt_deg: night.sun_alt_deg.clone(),
         moon_alt_deg: night.moon_alt_deg.clone(),
         rows,
+        tracks,
     })
 }
 

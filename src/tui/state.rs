@@ -1,7 +1,7 @@
 //! The one [`State`] of the UI and the results cached in it.
 
 use crate::astro::frames::Context;
-use crate::astro::night::{Limits, NightEvents, TargetNight};
+use crate::astro::night::{Limits, NightEvents};
 use crate::astro::site::Site;
 use crate::astro::time::Instant;
 use crate::io::targets::Target;
@@ -198,19 +198,9 @@ pub struct Recovered {
     pub note: Option<String>,
 }
 
-/// One target in one night, as the views show it.
-#[derive(Debug, Clone, PartialEq)]
-pub struct TargetRow {
-    /// Rise, transit, set, windows, best altitude.
-    pub night: TargetNight,
-    /// Target–Moon distance at the best time, degrees.
-    pub moon_sep_deg: Option<f64>,
-    /// Observed altitude on the night's grid, degrees.
-    pub alt_deg: Vec<f32>,
-    /// A Sun caution when the target is above the horizon within the site's
-    /// Sun-avoidance angle while the Sun is up, with the first such instant.
-    pub sun_caution: Option<(Instant, String)>,
-}
+/// One target in one night, as the views show it: its row of the night's
+/// table (`plan::night_table`), the very row `rung night` prints.
+pub type TargetRow = crate::plan::night_table::NightRow;
 
 /// The night table: computed by the library off the draw path.
 #[derive(Debug, Clone)]
@@ -237,6 +227,9 @@ pub struct NightData {
     pub moon_alt_deg: Vec<f64>,
     /// Per target, by name.
     pub rows: HashMap<String, TargetRow>,
+    /// Per target, by name: observed altitude on the grid, degrees (for the
+    /// Tonight chart; `plan::night_table::altitude_track`).
+    pub tracks: HashMap<String, Vec<f32>>,
 }
 
 /// What a season strip is for.
@@ -742,7 +735,10 @@ impl State {
                     .unwrap_or(big),
                 SortKey::Hours => r.map(|r| -r.night.observable_hours).unwrap_or(big),
                 SortKey::Airmass => r.and_then(|r| r.night.min_airmass).unwrap_or(big),
-                SortKey::Moon => r.and_then(|r| r.moon_sep_deg).map(|m| -m).unwrap_or(big),
+                SortKey::Moon => r
+                    .and_then(|r| r.moon_separation_deg)
+                    .map(|m| -m)
+                    .unwrap_or(big),
                 SortKey::Priority => -t.priority,
             };
             (v, t.name.to_lowercase())

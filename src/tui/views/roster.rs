@@ -103,7 +103,7 @@ fn header_and_cells(s: &State, t: Option<&Target>, wide: bool) -> Vec<(String, u
         (
             t.map(|_| {
                 dash(
-                    r.and_then(|r| r.moon_sep_deg)
+                    r.and_then(|r| r.moon_separation_deg)
                         .map(|m| format!("{m:.0}°"))
                         .unwrap_or("—".into()),
                 )

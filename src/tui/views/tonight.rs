@@ -150,8 +150,8 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             br.dot(d as i64, y_of(a), th.series_moon());
         }
     }
-    if let Some(r) = row {
-        let alt: Vec<f64> = r.alt_deg.iter().map(|a| *a as f64).collect();
+    if let Some(track) = t.and_then(|t| n.tracks.get(&t.name)) {
+        let alt: Vec<f64> = track.iter().map(|a| *a as f64).collect();
         let mut prev: Option<(i64, i64)> = None;
         for d in 0..dw {
             let a = interp(&n.grid_s, &alt, dot_t(d));
@@ -284,7 +284,7 @@ fn target_line(
         nt.observable_hours,
         num(nt.max_altitude_deg, 0),
         num(nt.min_airmass, 2),
-        r.moon_sep_deg
+        r.moon_separation_deg
             .map(|m| format!("{m:.0}°"))
             .unwrap_or("—".into()),
     )
