@@ -1002,3 +1002,53 @@ fn targets_files_second_round_on_the_command_line() {
     );
     assert_eq!(code, Some(3));
 }
+
+/// C16: a file of many bad rows prints the first 50 and one line counting
+/// the rest (200 MB of garbage behind a good header used to print 1.5 million
+/// lines), and the good rows are still used.
+#[test]
+fn a_flood_of_bad_rows_prints_fifty_and_a_count() {
+    let d = tempfile::tempdir().unwrap();
+    let f = d.path().join("t.csv");
+    let file = f.display().to_string();
+    let mut text = String::from("name,ra,dec\nFirst,10,-20\n");
+    for i in 0..1250 {
+        text.push_str(&format!("x{i},nowhere\n"));
+    }
+    text.push_str("Last,200,-20\n");
+    std::fs::write(&f, text).unwrap();
+    let (code, e) = cli(&[
+        "season",
+        "--site",
+        "pampa-lucero",
+        "--targets",
+        &file,
+        "--from",
+        "2026-12-01",
+        "--to",
+        "2026-12-01",
+        "--summary",
+        "--csv",
+    ]);
+    let lines: Vec<&str> = e.lines().collect();
+    assert_eq!(lines.len(), 51, "{e}");
+    assert_eq!(
+        lines[0],
+        format!(
+            "rung: warning: {file}, line 3: row has 2 fields but the header has 3 (row skipped)"
+        )
+    );
+    assert_eq!(
+        lines[49],
+        format!(
+            "rung: warning: {file}, line 52: row has 2 fields but the header has 3 (row skipped)"
+        )
+    );
+    check(
+        "C16",
+        lines[50].to_string(),
+        "rung: warning: and 1,200 more rows skipped (not shown: only the first 50 are printed)"
+            .into(),
+    );
+    assert_eq!(code, Some(3), "the good rows were used, some were refused");
+}

@@ -118,10 +118,28 @@ pub fn settings(
 /// Files smaller than this load without a progress bar.
 const PROGRESS_FROM_BYTES: u64 = 8 * 1024 * 1024;
 
+/// At most this many warnings and refused rows of a targets file are printed;
+/// the rest are counted in one last line. (200 MB of garbage behind a good
+/// header used to print a warning per row: 1.5 million lines, 191 MB on stderr.)
+pub const SHOWN_NOTES: usize = 50;
+
 /// Load targets, printing each refused row as a warning on stderr (the good
 /// rows load). A large file shows a progress bar on stderr, only when stderr
 /// is a terminal (never in pipes, logs or `--json` captures).
 pub fn load_targets(path: &Path) -> Result<Vec<rung::io::targets::Target>> {
+    let mut targets = Vec::new();
+    stream_targets(path, &mut |t| targets.push(t))?;
+    Ok(targets)
+}
+
+/// Read a targets file handing each good target to `on_target` as it is read
+/// (a CSV file is never held whole), with [`load_targets`]'s warnings, capped
+/// at [`SHOWN_NOTES`] lines and a count, and its progress bar. Returns how many
+/// targets were read; a file without a usable target is an error.
+pub fn stream_targets(
+    path: &Path,
+    on_target: &mut dyn FnMut(rung::io::targets::Target),
+) -> Result<usize> {
     use std::io::IsTerminal;
     let size = std::fs::metadata(path).map(|m| m.len()).unwrap_or(0);
     let bar = (size >= PROGRESS_FROM_BYTES && std::io::stderr().is_terminal()).then(|| {
@@ -136,30 +154,100 @@ pub fn load_targets(path: &Path) -> Result<Vec<rung::io::targets::Target>> {
         }
         b
     });
-    let l = rung::io::targets::load_with_progress(path, &mut |read, total| {
-        if let Some(b) = &bar {
-            b.set_length(total);
-            b.set_position(read);
-        }
-    });
+    let notes = std::cell::RefCell::new(Notes::default());
+    let mut count = 0usize;
+    let r = rung::io::targets::stream(
+        path,
+        &mut |t| {
+            count += 1;
+            on_target(t);
+        },
+        &mut |p| notes.borrow_mut().note(&p, true, bar.as_ref()),
+        &mut |w| notes.borrow_mut().note(&w, false, bar.as_ref()),
+        &mut |read, total| {
+            if let Some(b) = &bar {
+                b.set_length(total);
+                b.set_position(read);
+            }
+        },
+    );
     if let Some(b) = &bar {
         b.finish_and_clear();
     }
-    let l = l?;
-    for w in &l.warnings {
-        eprintln!("rung: warning: {}", rung::output::one_line(&w.to_string()));
-    }
-    for p in &l.problems {
-        eprintln!(
-            "rung: warning: {} (row skipped)",
-            rung::output::one_line(&p.to_string())
-        );
-        SKIPPED_INPUT.store(true, Ordering::Relaxed);
-    }
-    if l.targets.is_empty() {
+    r?;
+    notes.into_inner().finish();
+    if count == 0 {
         anyhow::bail!("{}: no usable targets", path.display());
     }
-    Ok(l.targets)
+    Ok(count)
+}
+
+/// The warnings and refused rows of one targets file: the first
+/// [`SHOWN_NOTES`] printed as they come (on one line each, through the output
+/// layer), the others only counted.
+#[derive(Default)]
+struct Notes {
+    shown: usize,
+    more_rows: u64,
+    more_warnings: u64,
+}
+
+impl Notes {
+    fn note(&mut self, e: &rung::RungError, row: bool, bar: Option<&indicatif::ProgressBar>) {
+        if row {
+            SKIPPED_INPUT.store(true, Ordering::Relaxed);
+        }
+        if self.shown >= SHOWN_NOTES {
+            *if row {
+                &mut self.more_rows
+            } else {
+                &mut self.more_warnings
+            } += 1;
+            return;
+        }
+        self.shown += 1;
+        let text = e.to_string();
+        let text = rung::output::one_line(&text);
+        let line = if row {
+            format!("rung: warning: {text} (row skipped)")
+        } else {
+            format!("rung: warning: {text}")
+        };
+        match bar {
+            Some(b) => b.suspend(|| eprintln!("{line}")),
+            None => eprintln!("{line}"),
+        }
+    }
+
+    /// The count of what was not printed, in one line.
+    fn finish(self) {
+        let mut parts = Vec::new();
+        if self.more_rows > 0 {
+            parts.push(format!("{} more rows skipped", grouped(self.more_rows)));
+        }
+        if self.more_warnings > 0 {
+            parts.push(format!("{} more warnings", grouped(self.more_warnings)));
+        }
+        if !parts.is_empty() {
+            eprintln!(
+                "rung: warning: and {} (not shown: only the first {SHOWN_NOTES} are printed)",
+                parts.join(" and ")
+            );
+        }
+    }
+}
+
+/// A count with thousands separated by commas: 1520144 → `1,520,144`.
+pub fn grouped(n: u64) -> String {
+    let digits = n.to_string();
+    let mut out = String::with_capacity(digits.len() + digits.len() / 3);
+    for (i, ch) in digits.chars().enumerate() {
+        if i > 0 && (digits.len() - i).is_multiple_of(3) {
+            out.push(',');
+        }
+        out.push(ch);
+    }
+    out
 }
 
 /// A target by name from `file`, or from the demo programme when no file is
@@ -207,4 +295,17 @@ pub fn utc_hm(t: Option<rung::astro::time::Instant>) -> String {
             .to_string()
     })
     .unwrap_or_else(|| "-".into())
+}
+
+#[cfg(test)]
+mod tests {
+    #[test]
+    fn counts_are_grouped_by_thousands() {
+        let g = |n| super::grouped(n);
+        assert_eq!(g(0), "0");
+        assert_eq!(g(999), "999");
+        assert_eq!(g(1000), "1,000");
+        assert_eq!(g(1_520_144), "1,520,144");
+        assert_eq!(g(12_345_678_901), "12,345,678,901");
+    }
 }

@@ -722,27 +722,47 @@ fn is_toml(path: &Path) -> bool {
 /// [`load`] with a progress callback `on_progress(bytes_read, total_bytes)`
 /// (called about every MiB while a CSV file streams, and once at the end).
 pub fn load_with_progress(path: &Path, on_progress: &mut dyn FnMut(u64, u64)) -> Result<Loaded> {
+    let mut out = Loaded::default();
+    let Loaded {
+        targets,
+        problems,
+        warnings,
+        ..
+    } = &mut out;
+    stream(
+        path,
+        &mut |t| targets.push(t),
+        &mut |p| problems.push(p),
+        &mut |w| warnings.push(w),
+        on_progress,
+    )?;
+    Ok(out)
+}
+
+/// Read a targets file of either format (by extension, as [`load`]) handing
+/// each good target, refused row and warning to its callback in file order,
+/// holding none of them: a CSV file streams ([`stream_csv_progress`]); a TOML
+/// file, read whole (at most [`MAX_TOML_BYTES`]), is parsed and then handed
+/// over.
+pub fn stream(
+    path: &Path,
+    on_target: &mut dyn FnMut(Target),
+    on_problem: &mut dyn FnMut(RungError),
+    on_warning: &mut dyn FnMut(RungError),
+    on_progress: &mut dyn FnMut(u64, u64),
+) -> Result<()> {
     if !is_toml(path) {
-        let mut out = Loaded::default();
-        let Loaded {
-            targets,
-            problems,
-            warnings,
-            ..
-        } = &mut out;
-        stream_csv_progress(
-            path,
-            &mut |t| targets.push(t),
-            &mut |p| problems.push(p),
-            &mut |w| warnings.push(w),
-            on_progress,
-        )?;
-        return Ok(out);
+        return stream_csv_progress(path, on_target, on_problem, on_warning, on_progress);
     }
     let text = read_toml_text(path)?;
     let len = text.len() as u64;
+    let l = parse_toml(&text, path);
+    drop(text);
+    l.warnings.into_iter().for_each(&mut *on_warning);
+    l.problems.into_iter().for_each(&mut *on_problem);
+    l.targets.into_iter().for_each(&mut *on_target);
     on_progress(len, len);
-    Ok(parse_toml(&text, path))
+    Ok(())
 }
 
 fn read_toml_text(path: &Path) -> Result<String> {
