@@ -15,3 +15,11 @@ if ! command -v tmux >/dev/null 2>&1; then
 fi
 
 cargo test --locked --release
+
+# The library builds without the terminal crates (the `tui` feature off): the
+# engine alone. In release, so the dependencies built for the tests are reused.
+cargo build --locked --release --no-default-features --lib
+if cargo tree --locked --no-default-features -e normal | grep -qiE 'ratatui|crossterm|signal-hook'; then
+    echo "scripts/test.sh: a terminal crate is built without the tui feature" >&2
+    exit 1
+fi

@@ -4,6 +4,10 @@
 //!
 //! The engine is this library; the `rung` binary and its terminal UI are thin
 //! shells over it. The library never prints and never touches the terminal.
+//!
+//! The terminal UI ([`tui`]: state, update and drawing into buffers) is the
+//! `tui` cargo feature, on by default; `cargo build --no-default-features`
+//! builds the engine without the terminal crates.
 
 #![warn(missing_docs)]
 
@@ -19,6 +23,7 @@ pub mod photometry;
 pub mod plan;
 pub mod programme;
 pub mod sky;
+#[cfg(feature = "tui")]
 pub mod tui;
 
 pub use error::{Result, RungError};

@@ -22,6 +22,7 @@ enum Command {
     /// The night of a date: twilights, Moon, and each target's window.
     Night(cli::night::Args),
     /// The terminal UI: roster, tonight, season (keyboard-driven; ? shows the keys).
+    #[cfg(feature = "tui")]
     Tui(cli::tui::Args),
     /// Chase a fresh thermonuclear supernova: nightly windows, exposures, cadence, distance precision.
     Chase(Box<cli::chase::Args>),
@@ -53,6 +54,7 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Some(Command::Where(a)) => cli::where_cmd::run(a),
         Some(Command::Night(a)) => cli::night::run(a),
+        #[cfg(feature = "tui")]
         Some(Command::Tui(a)) => cli::tui::run(a),
         Some(Command::Chase(a)) => cli::chase::run(*a),
         Some(Command::Phase(a)) => cli::phase::run(*a),

@@ -8,6 +8,7 @@ pub mod phase;
 pub mod plan;
 pub mod season;
 pub mod snr;
+#[cfg(feature = "tui")]
 pub mod tui;
 pub mod where_cmd;
 
@@ -259,9 +260,11 @@ pub fn target_by_name(file: &Option<PathBuf>, name: &str) -> Result<rung::io::ta
     Ok(rung::io::targets::find_by_name(ts, name, &file)?)
 }
 
-/// `rung` with no subcommand: the terminal UI when stdout is a terminal,
-/// else tonight's plan for the demo programme as a table (so scripts keep working).
+/// `rung` with no subcommand: the terminal UI when stdout is a terminal (in
+/// a build with the `tui` feature), else tonight's plan for the demo
+/// programme as a table (so scripts keep working).
 pub fn default_run() -> Result<()> {
+    #[cfg(feature = "tui")]
     if std::io::IsTerminal::is_terminal(&std::io::stdout()) {
         return tui::run(tui::Args::default());
     }

@@ -10,10 +10,10 @@ use crate::plan::season::{
     Constraints, NightSky, PreparedPlace, ScanSetup, TargetNightRow, scan_night,
 };
 use crate::tui::msg::{
-    Effect, Msg, NightJob, PlanJob, RecoveryOp, SaveJob, Saved, SeasonJob, SeasonRows, SeasonSky,
+    Effect, Msg, NightJob, PlanJob, RecoveryOp, SaveJob, Saved, SeasonJob, SeasonRows,
 };
 use crate::tui::state::{
-    BudgetKey, MethodBody, MethodKey, MethodResult, NightData, SeasonKey, View,
+    BudgetKey, MethodBody, MethodKey, MethodResult, NightData, SeasonKey, SeasonSky, View,
 };
 use rayon::prelude::*;
 use std::sync::Arc;

@@ -2,8 +2,121 @@
 //! looks keys up here and the help overlay is drawn from the same table, so the
 //! two cannot disagree.
 
-use crate::tui::msg::Action;
 use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
+
+/// What a key can be bound to. Every binding in [`KEYMAP`] names one.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Action {
+    /// Leave (asks first when there are unsaved changes).
+    Quit,
+    /// Leave without saving (from the unsaved-changes question).
+    QuitDiscard,
+    /// Open or close the key overlay.
+    Help,
+    /// Next view.
+    NextView,
+    /// Previous view.
+    PrevView,
+    /// The Roster view.
+    ShowRoster,
+    /// The Tonight view.
+    ShowTonight,
+    /// The Season view.
+    ShowSeason,
+    /// The Parallax view (parallax targets).
+    ShowParallax,
+    /// The Phase view (pulsators).
+    ShowPhase,
+    /// The Chase view (transients).
+    ShowChase,
+    /// Pick the instrument.
+    Instruments,
+    /// The Budget view.
+    ShowBudget,
+    /// Export the budget (CSV and Markdown) beside the programme file.
+    Export,
+    /// Schedule the Season view's span and export the plan (JSON, CSV,
+    /// iCalendar) and tonight's night sheet beside the programme file.
+    ExportPlan,
+    /// Selection up one row.
+    Up,
+    /// Selection down one row.
+    Down,
+    /// Selection up one page.
+    PageUp,
+    /// Selection down one page.
+    PageDown,
+    /// First row.
+    Top,
+    /// Last row.
+    Bottom,
+    /// One night earlier.
+    NightBack,
+    /// One night later.
+    NightFwd,
+    /// One week earlier.
+    WeekBack,
+    /// One week later.
+    WeekFwd,
+    /// One month earlier.
+    MonthBack,
+    /// One month later.
+    MonthFwd,
+    /// Back to the current night.
+    Today,
+    /// Follow the clock (the night and the time marker move on their own).
+    Live,
+    /// Type to filter the roster.
+    Filter,
+    /// Next sort column.
+    Sort,
+    /// Reverse the sort order.
+    SortReverse,
+    /// Add a target.
+    Add,
+    /// Edit the selected target.
+    Edit,
+    /// Remove the selected target (asks first).
+    Remove,
+    /// Undo the last change to the programme.
+    Undo,
+    /// Redo what was undone.
+    Redo,
+    /// Save the programme (atomically).
+    Save,
+    /// Pick the site.
+    Sites,
+    /// Season strip: every night or every week.
+    SeasonStep,
+    /// Raise the minimum altitude by 5°.
+    MinAltUp,
+    /// Lower the minimum altitude by 5°.
+    MinAltDown,
+    /// Form, picker, filter: confirm.
+    Accept,
+    /// Form, picker, filter, overlay: close without change.
+    Cancel,
+    /// Form: next field.
+    NextField,
+    /// Form: previous field.
+    PrevField,
+    /// Form: next value of a choice field (kind, band).
+    NextChoice,
+    /// Form: previous value of a choice field.
+    PrevChoice,
+    /// Plan export: one telescope hour a night more.
+    PlanHoursUp,
+    /// Plan export: one telescope hour a night less.
+    PlanHoursDown,
+    /// Scroll the view's detail list (Chase timeline) down a row.
+    DetailDown,
+    /// Scroll the view's detail list up a row.
+    DetailUp,
+    /// Question: yes.
+    Yes,
+    /// Question: no.
+    No,
+}
 
 /// Where a binding applies.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

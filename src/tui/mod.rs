@@ -13,7 +13,8 @@ pub mod theme;
 pub mod update;
 pub mod views;
 
-pub use msg::{Action, Effect, Msg};
+pub use keymap::Action;
+pub use msg::{Effect, Msg};
 pub use state::State;
 pub use update::{Setup, init, update};
 

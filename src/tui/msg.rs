@@ -1,137 +1,18 @@
-//! Everything that can happen to the UI ([`Msg`]), the actions keys are bound
-//! to ([`Action`]), and the side effects `update` asks for ([`Effect`]).
+//! Everything that can happen to the UI ([`Msg`]) and the side effects
+//! `update` asks for ([`Effect`]). The actions keys are bound to live with the
+//! key table (`crate::tui::keymap::Action`); the data results carry live with
+//! the state (`crate::tui::state`).
 
 use crate::astro::night::Limits;
 use crate::astro::site::Site;
 use crate::astro::time::Instant;
 use crate::io::targets::Target;
-use crate::tui::state::{BudgetKey, MethodKey, MethodResult, NightData, SeasonKey};
+// Re-exported where it used to live, for code that names it `msg::Action`.
+pub use crate::tui::keymap::Action;
+use crate::tui::state::{BudgetKey, MethodKey, MethodResult, NightData, SeasonKey, SeasonSky};
 use crossterm::event::KeyEvent;
 use std::path::PathBuf;
 use std::sync::Arc;
-
-/// What a key can be bound to. Every binding in [`crate::tui::keymap::KEYMAP`] names one.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
-pub enum Action {
-    /// Leave (asks first when there are unsaved changes).
-    Quit,
-    /// Leave without saving (from the unsaved-changes question).
-    QuitDiscard,
-    /// Open or close the key overlay.
-    Help,
-    /// Next view.
-    NextView,
-    /// Previous view.
-    PrevView,
-    /// The Roster view.
-    ShowRoster,
-    /// The Tonight view.
-    ShowTonight,
-    /// The Season view.
-    ShowSeason,
-    /// The Parallax view (parallax targets).
-    ShowParallax,
-    /// The Phase view (pulsators).
-    ShowPhase,
-    /// The Chase view (transients).
-    ShowChase,
-    /// Pick the instrument.
-    Instruments,
-    /// The Budget view.
-    ShowBudget,
-    /// Export the budget (CSV and Markdown) beside the programme file.
-    Export,
-    /// Schedule the Season view's span and export the plan (JSON, CSV,
-    /// iCalendar) and tonight's night sheet beside the programme file.
-    ExportPlan,
-    /// Selection up one row.
-    Up,
-    /// Selection down one row.
-    Down,
-    /// Selection up one page.
-    PageUp,
-    /// Selection down one page.
-    PageDown,
-    /// First row.
-    Top,
-    /// Last row.
-    Bottom,
-    /// One night earlier.
-    NightBack,
-    /// One night later.
-    NightFwd,
-    /// One week earlier.
-    WeekBack,
-    /// One week later.
-    WeekFwd,
-    /// One month earlier.
-    MonthBack,
-    /// One month later.
-    MonthFwd,
-    /// Back to the current night.
-    Today,
-    /// Follow the clock (the night and the time marker move on their own).
-    Live,
-    /// Type to filter the roster.
-    Filter,
-    /// Next sort column.
-    Sort,
-    /// Reverse the sort order.
-    SortReverse,
-    /// Add a target.
-    Add,
-    /// Edit the selected target.
-    Edit,
-    /// Remove the selected target (asks first).
-    Remove,
-    /// Undo the last change to the programme.
-    Undo,
-    /// Redo what was undone.
-    Redo,
-    /// Save the programme (atomically).
-    Save,
-    /// Pick the site.
-    Sites,
-    /// Season strip: every night or every week.
-    SeasonStep,
-    /// Raise the minimum altitude by 5°.
-    MinAltUp,
-    /// Lower the minimum altitude by 5°.
-    MinAltDown,
-    /// Form, picker, filter: confirm.
-    Accept,
-    /// Form, picker, filter, overlay: close without change.
-    Cancel,
-    /// Form: next field.
-    NextField,
-    /// Form: previous field.
-    PrevField,
-    /// Form: next value of a choice field (kind, band).
-    NextChoice,
-    /// Form: previous value of a choice field.
-    PrevChoice,
-    /// Plan export: one telescope hour a night more.
-    PlanHoursUp,
-    /// Plan export: one telescope hour a night less.
-    PlanHoursDown,
-    /// Scroll the view's detail list (Chase timeline) down a row.
-    DetailDown,
-    /// Scroll the view's detail list up a row.
-    DetailUp,
-    /// Question: yes.
-    Yes,
-    /// Question: no.
-    No,
-}
-
-/// The prepared nights of a season strip (season engine), shared by its jobs.
-#[derive(Debug, Clone)]
-pub struct SeasonSky {
-    /// What does not change from night to night.
-    pub setup: crate::plan::season::ScanSetup,
-    /// One night per column.
-    pub skies: Vec<crate::plan::season::NightSky>,
-}
 
 /// A computed season strip for some targets.
 #[derive(Debug, Clone)]

@@ -247,13 +247,22 @@ pub struct SeasonKey {
     pub limits: Limits,
 }
 
+/// The prepared nights of a season strip (season engine), shared by its jobs.
+#[derive(Debug, Clone)]
+pub struct SeasonSky {
+    /// What does not change from night to night.
+    pub setup: crate::plan::season::ScanSetup,
+    /// One night per column.
+    pub skies: Vec<crate::plan::season::NightSky>,
+}
+
 /// The season strip: observable hours per target and night.
 #[derive(Debug, Clone, Default)]
 pub struct SeasonData {
     /// What the cached rows are for.
     pub key: Option<SeasonKey>,
     /// The nights, once computed.
-    pub nights: Option<Arc<crate::tui::msg::SeasonSky>>,
+    pub nights: Option<Arc<SeasonSky>>,
     /// Hours by target name.
     pub hours: HashMap<String, Vec<f64>>,
     /// Targets being computed.

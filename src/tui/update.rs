@@ -8,8 +8,9 @@ use crate::astro::{pointing, sun_caution};
 use crate::io::targets::Target;
 use crate::programme::Settings;
 use crate::tui::form::Form;
+use crate::tui::keymap::Action;
 use crate::tui::keymap::{self, Scope};
-use crate::tui::msg::{Action, Effect, Msg, NightJob, PlanJob, RecoveryOp, SeasonJob};
+use crate::tui::msg::{Effect, Msg, NightJob, PlanJob, RecoveryOp, SeasonJob};
 use crate::tui::state::{
     Level, Overlay, PLAN_HOURS_PER_NIGHT, PLAN_HOURS_RANGE, Programme, Question, Recovered,
     SeasonData, SkyNow, SortKey, State, UNDO_DEPTH, View, scroll_offset,

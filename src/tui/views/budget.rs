@@ -2,8 +2,8 @@
 //! the coming year, the epochs and hours it takes (from `plan::budget::budget`,
 //! as `rung budget`), and the hours by semester.
 
+use crate::tui::keymap::Action;
 use crate::tui::keymap::{Scope, keys_for};
-use crate::tui::msg::Action;
 use crate::tui::state::{State, scroll_offset};
 use crate::tui::theme::kind_glyph;
 use crate::tui::views::fmt::{fit, put, rfit};

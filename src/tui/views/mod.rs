@@ -12,8 +12,8 @@ pub mod roster;
 pub mod season;
 pub mod tonight;
 
+use crate::tui::keymap::Action;
 use crate::tui::keymap::{Scope, keys_for};
-use crate::tui::msg::Action;
 use crate::tui::state::{Level, Overlay, State, View};
 use fmt::{hm, hm_utc, put};
 use ratatui::buffer::Buffer;

@@ -2,8 +2,8 @@
 //! site picker and yes/no questions.
 
 use crate::tui::form::{Form, choices, field_hint};
+use crate::tui::keymap::Action;
 use crate::tui::keymap::{Scope, help_lines, keys_for};
-use crate::tui::msg::Action;
 use crate::tui::state::{Question, State};
 use crate::tui::views::fmt::{centered, fit, put};
 use ratatui::buffer::Buffer;
