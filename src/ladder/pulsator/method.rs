@@ -1,0 +1,566 @@
+//! The method's face: the phase analysis of `rung phase`, proposals,
+//! predictions and goal plans.
+
+use super::*;
+use crate::astro::frames::Context;
+use crate::astro::time::{DAY_S, Instant};
+use crate::astro::{pointing, sun_caution};
+use crate::error::{Result, RungError};
+use crate::io::targets::Kind;
+use crate::ladder::{Epoch, ExposureModel, Method, Prediction, Setting, Verdict};
+use chrono::NaiveDate;
+use std::path::Path;
+
+/// Everything `rung phase` shows for one pulsator over a range of nights.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PhaseReport {
+    /// The star.
+    pub star: Star,
+    /// Observable windows with their phases.
+    pub windows: Vec<PhaseWindow>,
+    /// Nights of the range with no window.
+    pub dark_nights: Vec<NaiveDate>,
+    /// The visit plan.
+    pub plan: CoveragePlan,
+    /// Day alias and beat period.
+    pub alias: Alias,
+    /// Phase uncertainty at the start of the range, cycles.
+    pub phase_sigma_start: f64,
+    /// Phase uncertainty at the end of the range, cycles.
+    pub phase_sigma: f64,
+    /// Whether the ephemeris is stale by the end of the range.
+    pub stale: bool,
+    /// Epochs of the visits (exposures sized by the exposure model), when one was given.
+    pub epochs: Vec<Epoch>,
+    /// Per-point signal-to-noise the exposures were sized for.
+    pub snr_per_point: f64,
+    /// The distance budget of the planned points, when it can be computed.
+    pub budget: Option<DistanceBudget>,
+    /// The rule-of-thumb mean-magnitude error σ√((2K+1)/N), mag.
+    pub sigma_mean_rule_mag: Option<f64>,
+    /// The prediction (precision, hours, verdict), when an exposure model was given.
+    pub prediction: Option<Prediction>,
+    /// Safety cautions (Sun proximity).
+    pub cautions: Vec<String>,
+    /// Warnings and explanations.
+    pub notes: Vec<String>,
+}
+
+/// The pulsating-star method.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PulsatorMethod {
+    /// Coefficients and defaults.
+    pub config: PulsatorConfig,
+    /// Phase bins of a plan.
+    pub bins: usize,
+    /// Fourier harmonics.
+    pub harmonics: usize,
+    /// Per-point SNR of proposals.
+    pub snr: f64,
+    /// Warn when coverage needs more nights than this.
+    pub max_nights: usize,
+}
+
+impl Default for PulsatorMethod {
+    fn default() -> Self {
+        Self::with_config(PulsatorConfig::builtin())
+    }
+}
+
+/// Context, exposure and epoch for one visit.
+fn epoch_at(
+    s: &Setting,
+    em: &dyn ExposureModel,
+    star: &Star,
+    t: Instant,
+    snr: f64,
+) -> Result<(Epoch, Option<String>)> {
+    let mag = star.faint_mag().ok_or_else(|| {
+        RungError::invalid(
+            format!("mean_mag of target '{}'", s.target.name),
+            "is missing: exposures and the distance need the star's mean magnitude",
+        )
+    })?;
+    let ctx = Context::exact(s.site, t)?;
+    let (exptime_s, n_exposures) = em.exptime(mag, &star.band, snr, &ctx, &star.place)?;
+    let got = em.snr(mag, &star.band, exptime_s, &ctx, &star.place)?;
+    let p = pointing(s.site, &ctx, &star.place);
+    let caution = sun_caution(s.site, &p);
+    let visit_s = exptime_s + n_exposures as f64 * em.readout_s() + em.visit_overhead_s();
+    Ok((
+        Epoch {
+            time: t,
+            exptime_s,
+            n_exposures,
+            snr: got,
+            airmass: p.airmass.unwrap_or(f64::NAN),
+            visit_s,
+            exposures: crate::ladder::BandExposure::single(&star.band, exptime_s, n_exposures, got),
+        },
+        caution,
+    ))
+}
+
+impl PulsatorMethod {
+    /// The method with its configuration from the layers of
+    /// [`PulsatorConfig::load`] (built-in, the user's file, then `extra`).
+    pub fn load(extra: Option<&Path>) -> Result<Self> {
+        Ok(Self::with_config(PulsatorConfig::load(extra)?))
+    }
+
+    /// The method with a given configuration and its defaults.
+    pub fn with_config(config: PulsatorConfig) -> Self {
+        PulsatorMethod {
+            bins: config.defaults.bins,
+            harmonics: config.defaults.harmonics,
+            snr: config.defaults.propose_snr,
+            max_nights: config.defaults.coverage_nights_warn,
+            config,
+        }
+    }
+
+    fn check(&self) -> Result<()> {
+        if !(2..=10_000).contains(&self.bins) {
+            return Err(RungError::invalid(
+                "--bins",
+                format!("{} is not within 2..10000", self.bins),
+            ));
+        }
+        if !(1..=10).contains(&self.harmonics) {
+            return Err(RungError::invalid(
+                "--harmonics",
+                format!("{} is not within 1..10", self.harmonics),
+            ));
+        }
+        if !(self.snr.is_finite() && self.snr >= 2.0) {
+            return Err(RungError::invalid(
+                "--snr",
+                format!("{} is not a signal-to-noise of at least 2", self.snr),
+            ));
+        }
+        crate::bounds::SNR.check_as("--snr", self.snr)?;
+        Ok(())
+    }
+
+    /// The whole phase analysis over the setting's range: windows and their
+    /// phases, a plan covering `self.bins` bins, the beat period, the
+    /// ephemeris's phase uncertainty and, with an exposure model, the epochs
+    /// (per-point SNR `self.snr`) and the distance precision they buy.
+    pub fn analyse(&self, s: &Setting, em: Option<&dyn ExposureModel>) -> Result<PhaseReport> {
+        self.analyse_with(s, em, self.bins, self.snr)
+    }
+
+    fn analyse_with(
+        &self,
+        s: &Setting,
+        em: Option<&dyn ExposureModel>,
+        bins: usize,
+        snr: f64,
+    ) -> Result<PhaseReport> {
+        self.check()?;
+        let star = Star::from_target(s.target)?;
+        let e = star.ephemeris;
+        let mut notes = Vec::new();
+        // Phase coverage is planned over at most MAX_RANGE_NIGHTS nights: a
+        // season's budget over several years uses its first stretch.
+        let capped_to = s.from + chrono::Duration::days(MAX_RANGE_NIGHTS - 1);
+        let capped;
+        let s = if s.to > capped_to {
+            notes.push(format!(
+                "phase coverage planned over the first {MAX_RANGE_NIGHTS} nights of the range ({} to {capped_to})",
+                s.from
+            ));
+            capped = Setting {
+                to: capped_to,
+                ..s.clone()
+            };
+            &capped
+        } else {
+            s
+        };
+        let mut cautions = Vec::new();
+        let (windows, dark_nights) = phase_windows(s.site, &star, s.from, s.to, &s.limits)?;
+        // The dwell a visit needs: its length with the exposure model, at the
+        // middle of the first window; else 10 minutes.
+        let mut dwell_s = 600.0;
+        if let (Some(em), Some(w), Some(mag)) = (em, windows.first(), star.faint_mag()) {
+            let mid = w.start.add_seconds(w.end.seconds_since(&w.start) / 2.0);
+            let ctx = Context::exact(s.site, mid)?;
+            let (x, n) = em.exptime(mag, &star.band, snr, &ctx, &star.place)?;
+            dwell_s = x + n as f64 * em.readout_s() + em.visit_overhead_s();
+        }
+        let bin_len_s = e.period_d * DAY_S / bins as f64;
+        if dwell_s > bin_len_s {
+            notes.push(format!(
+                "a visit ({:.0} s) is longer than a phase bin ({:.0} s): each point smears over more than one bin",
+                dwell_s, bin_len_s
+            ));
+        }
+        let plan = plan_coverage(&windows, &e, bins, dwell_s)?;
+        let alias = day_alias(e.period_d, self.config.defaults.alias_max_denominator);
+        let start_t = windows.first().map(|w| w.bjd_start);
+        let end_t = windows.last().map(|w| w.bjd_end);
+        let (sig0, sig1) = match (start_t, end_t) {
+            (Some(a), Some(b)) => (e.phase_sigma(&a), e.phase_sigma(&b)),
+            _ => {
+                let noon = crate::astro::night::local_noon(s.site, s.from)?;
+                let b = crate::astro::bary::bjd_tdb(s.site, noon, &star.place)?;
+                (e.phase_sigma(&b), e.phase_sigma(&b))
+            }
+        };
+        let stale = sig1 > self.config.defaults.stale_phase;
+        if stale {
+            notes.push(format!(
+                "STALE EPHEMERIS: the phase uncertainty reaches {:.3} cycles (±{:.2} d on a maximum) by the end of the range, past {}; re-derive the period before trusting phases",
+                sig1,
+                sig1 * e.period_d,
+                self.config.defaults.stale_phase
+            ));
+        }
+        if e.period_err_d == 0.0 {
+            notes.push("period_err_d not given: the phase uncertainty is shown as 0".into());
+        }
+        match alias.beat_period_d {
+            None => notes.push(format!(
+                "the period is commensurate with the day (1/P = {}/{} per day): the same phases return every {} night(s) and never drift from this site",
+                alias.m, alias.k, alias.k
+            )),
+            Some(b) if alias.m != 0 && b / alias.k as f64 > self.max_nights as f64 => {
+                notes.push(format!(
+                    "day alias {}/{}: the beat period is {:.1} d, so one site sweeps the whole cycle only in about {:.0} nights (more than {}); a second site at another longitude would help",
+                    alias.m,
+                    alias.k,
+                    b,
+                    b / alias.k as f64,
+                    self.max_nights
+                ))
+            }
+            _ => {}
+        }
+        if plan.bins_covered < bins {
+            notes.push(format!(
+                "{} of {} phase bins cannot be reached in {} to {} (missing bins {:?}); extend the range",
+                bins - plan.bins_covered,
+                bins,
+                s.from,
+                s.to,
+                plan.missing_bins
+            ));
+        }
+        if plan.nights_needed() > self.max_nights {
+            notes.push(format!(
+                "covering the phases needs {} nights, more than {}",
+                plan.nights_needed(),
+                self.max_nights
+            ));
+        }
+        if windows.is_empty() {
+            notes.push(format!(
+                "'{}' is not observable from {} between {} and {} under the limits given",
+                s.target.name, s.site.name, s.from, s.to
+            ));
+        }
+        let law = self.config.law(&star.band);
+        let mut epochs = Vec::new();
+        let mut budget = None;
+        let mut rule = None;
+        let mut prediction = None;
+        if let (Some(em), Ok(_)) = (em, &law) {
+            if star.mean_mag.is_some() {
+                for v in &plan.visits {
+                    let (ep, c) = epoch_at(s, em, &star, v.time, snr)?;
+                    if let Some(c) = c {
+                        cautions.push(format!("{}: {c}", v.time.iso()));
+                    }
+                    epochs.push(ep);
+                }
+                let p = self.predict_star(s, &star, &epochs, &mut notes)?;
+                budget = p.1;
+                rule = p.2;
+                let mut pred = p.0;
+                if windows.is_empty() {
+                    pred.verdict = Verdict::NotObservable {
+                        when: Some(format!(
+                            "not between {} and {} under these limits",
+                            s.from, s.to
+                        )),
+                    };
+                }
+                prediction = Some(pred);
+            } else {
+                notes.push("mean_mag not given: no exposures or distance precision".into());
+            }
+        } else if let (Some(m), Ok(law)) = (star.mean_mag, &law) {
+            // No exposure model: the budget at the floor, to show what the relation allows.
+            let b = distance_budget(
+                m,
+                e.period_d,
+                star.extinction_mag,
+                0.0,
+                law,
+                self.config.defaults.extinction_sigma_frac,
+            );
+            notes.push(format!(
+                "no exposure model: distance precision not computed; the relation alone limits it to {:.1} %",
+                b.floor_pct
+            ));
+        }
+        if let Err(e) = law {
+            notes.push(format!("{e}: no distance"));
+        }
+        Ok(PhaseReport {
+            star,
+            windows,
+            dark_nights,
+            plan,
+            alias,
+            phase_sigma_start: sig0,
+            phase_sigma: sig1,
+            stale,
+            epochs,
+            snr_per_point: snr,
+            budget,
+            sigma_mean_rule_mag: rule,
+            prediction,
+            cautions,
+            notes,
+        })
+    }
+
+    /// Prediction for a star's epochs, with its budget and the rule-of-thumb σ_m̄.
+    fn predict_star(
+        &self,
+        s: &Setting,
+        star: &Star,
+        epochs: &[Epoch],
+        notes: &mut Vec<String>,
+    ) -> Result<(Prediction, Option<DistanceBudget>, Option<f64>)> {
+        let law = self.config.law(&star.band)?;
+        let mean = star.mean_mag.ok_or_else(|| {
+            RungError::invalid(
+                format!("mean_mag of target '{}'", s.target.name),
+                "is missing: the distance needs the star's mean magnitude",
+            )
+        })?;
+        let mut phases = Vec::with_capacity(epochs.len());
+        let mut sigmas = Vec::with_capacity(epochs.len());
+        for ep in epochs {
+            if !(ep.snr.is_finite() && ep.snr > 0.0) {
+                return Err(RungError::invalid(
+                    "epoch",
+                    format!(
+                        "signal-to-noise {} at {} is not positive",
+                        ep.snr,
+                        ep.time.iso()
+                    ),
+                ));
+            }
+            let b = crate::astro::bary::bjd_tdb(s.site, ep.time, &star.place)?;
+            phases.push(star.ephemeris.phase(&b));
+            sigmas.push(sigma_mag_from_snr(ep.snr));
+        }
+        let hours_needed = epochs.iter().map(|e| e.visit_s).sum::<f64>() / 3600.0;
+        let k = self.harmonics;
+        let floor = distance_budget(
+            mean,
+            star.ephemeris.period_d,
+            star.extinction_mag,
+            0.0,
+            law,
+            self.config.defaults.extinction_sigma_frac,
+        )
+        .floor_pct;
+        let (pct, budget, rule) = match mean_mag_sigma(&phases, &sigmas, k) {
+            Ok(sm) => {
+                let b = distance_budget(
+                    mean,
+                    star.ephemeris.period_d,
+                    star.extinction_mag,
+                    sm,
+                    law,
+                    self.config.defaults.extinction_sigma_frac,
+                );
+                let rms = (sigmas.iter().map(|x| x * x).sum::<f64>() / sigmas.len() as f64).sqrt();
+                let r = mean_mag_sigma_rule(rms, sigmas.len(), k);
+                (b.distance_precision_pct, Some(b), Some(r))
+            }
+            Err(e) => {
+                notes.push(format!("{e}: no distance precision from these epochs"));
+                (f64::INFINITY, None, None)
+            }
+        };
+        let verdict = match s.target.goal_pct {
+            _ if !pct.is_finite() => Verdict::NeedsMoreSeasons { seasons: None },
+            Some(g) if pct <= g => Verdict::Reachable,
+            Some(g) if floor >= g => Verdict::LimitedByFloor { floor_pct: floor },
+            Some(_) => Verdict::NeedsMoreSeasons { seasons: None },
+            None => Verdict::Reachable,
+        };
+        Ok((
+            Prediction {
+                kind: Kind::Pulsator,
+                epochs: epochs.to_vec(),
+                distance_precision_pct: pct,
+                hours_needed,
+                verdict,
+                notes: notes.clone(),
+                error_terms: budget.as_ref().map(|b| b.error_terms()).unwrap_or_default(),
+            },
+            budget,
+            rule,
+        ))
+    }
+
+    /// Goal mode with the full report: the points, the per-point SNR and the
+    /// plan that reach `goal_pct`, or the floor set by the relation's scatter.
+    ///
+    /// Rule: σ_m̄ allowed = √(σ_μ,goal² − σ_PL² − σ_A²) with σ_μ,goal =
+    /// goal/(100 · ln10/5). With N points well spread in phase σ_m̄ ≈ σ/√N
+    /// (the fit covariance), so N starts at max(bins, 2K + 1) and the per-point
+    /// SNR is 1.0857 √N / σ_m̄ allowed, kept within [snr_min, snr_max]; when
+    /// snr_max is not enough N grows. The plan then covers N bins (one point
+    /// per bin) and the prediction from the actual phases decides; the SNR is
+    /// raised up to twice if uneven phases fall short.
+    pub fn goal_report(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        goal_pct: f64,
+    ) -> Result<PhaseReport> {
+        if !(goal_pct.is_finite() && goal_pct > 0.0 && goal_pct <= 100.0) {
+            return Err(RungError::invalid(
+                "goal",
+                format!("{goal_pct} is not a percentage in (0, 100]"),
+            ));
+        }
+        self.check()?;
+        let star = Star::from_target(s.target)?;
+        let law = self.config.law(&star.band)?;
+        let mean = star.mean_mag.ok_or_else(|| {
+            RungError::invalid(
+                format!("mean_mag of target '{}'", s.target.name),
+                "is missing: the distance needs the star's mean magnitude",
+            )
+        })?;
+        let d = &self.config.defaults;
+        let b0 = distance_budget(
+            mean,
+            star.ephemeris.period_d,
+            star.extinction_mag,
+            0.0,
+            law,
+            d.extinction_sigma_frac,
+        );
+        let mut goal_t = s.target.clone();
+        goal_t.goal_pct = Some(goal_pct);
+        let s2 = Setting {
+            target: &goal_t,
+            ..s.clone()
+        };
+        if goal_pct <= b0.floor_pct * (1.0 + 1e-9) {
+            let mut r = self.analyse_with(&s2, Some(em), self.bins, self.snr)?;
+            r.notes.push(format!(
+                "goal {goal_pct} % is out of reach for this method: the relation's scatter ({:.3} mag) and the extinction error ({:.3} mag) set a floor of {:.2} % whatever the points",
+                b0.sigma_pl_mag, b0.sigma_ext_mag, b0.floor_pct
+            ));
+            if let Some(p) = &mut r.prediction {
+                p.verdict = Verdict::LimitedByFloor {
+                    floor_pct: b0.floor_pct,
+                };
+                p.notes = r.notes.clone();
+            }
+            return Ok(r);
+        }
+        let s_mu = goal_pct / 100.0 / DIST_FRAC_PER_MAG;
+        let allowed = (s_mu * s_mu - b0.sigma_pl_mag.powi(2) - b0.sigma_ext_mag.powi(2)).sqrt();
+        let mut n = self.bins.max(2 * self.harmonics + 1);
+        let mut snr = MAG_PER_INV_SNR / (allowed * (n as f64).sqrt());
+        if snr > d.snr_max {
+            let need = (MAG_PER_INV_SNR / d.snr_max / allowed).powi(2).ceil() as usize;
+            n = n.max(need);
+            snr = d.snr_max;
+        }
+        snr = snr.max(d.snr_min);
+        if n > 2000 {
+            return Err(RungError::invalid(
+                "goal",
+                format!("{goal_pct} % would need {n} points; choose a looser goal"),
+            ));
+        }
+        let mut r = self.analyse_with(&s2, Some(em), n, snr)?;
+        for _ in 0..2 {
+            let Some(p) = &r.prediction else { break };
+            if p.distance_precision_pct <= goal_pct || !p.distance_precision_pct.is_finite() {
+                break;
+            }
+            let Some(b) = &r.budget else { break };
+            let ratio = b.sigma_mean_mag / allowed;
+            let next = (snr * ratio * 1.05).min(d.snr_max);
+            if next <= snr * 1.001 {
+                break;
+            }
+            snr = next;
+            r = self.analyse_with(&s2, Some(em), n, snr)?;
+        }
+        r.notes.push(format!(
+            "goal {goal_pct} %: {n} points in {n} phase bins at SNR {snr:.0} each (σ ≈ {:.4} mag per point)",
+            sigma_mag_from_snr(snr)
+        ));
+        if r.plan.bins_covered < n
+            && let Some(p) = &mut r.prediction
+            && p.verdict == Verdict::Reachable
+            && p.distance_precision_pct > goal_pct
+        {
+            p.verdict = Verdict::NeedsMoreSeasons { seasons: None };
+        }
+        if let Some(p) = &mut r.prediction {
+            p.notes = r.notes.clone();
+        }
+        Ok(r)
+    }
+}
+
+impl Method for PulsatorMethod {
+    fn kind(&self) -> Kind {
+        Kind::Pulsator
+    }
+
+    fn config_json(&self) -> serde_json::Value {
+        serde_json::json!({
+            "config": self.config,
+            "bins": self.bins,
+            "harmonics": self.harmonics,
+            "snr": self.snr,
+            "max_nights": self.max_nights,
+        })
+    }
+
+    fn as_any(&self) -> &dyn std::any::Any {
+        self
+    }
+
+    /// One visit per phase bin (`bins`, default 10) on the fewest nights of
+    /// the range, exposures sized for the per-point SNR `snr` at the faint phase.
+    fn propose(&self, s: &Setting, em: &dyn ExposureModel) -> Result<Vec<Epoch>> {
+        Ok(self.analyse(s, Some(em))?.epochs)
+    }
+
+    /// σ_d/d from the epochs' phases (BJD_TDB) and SNRs through the Fourier-fit
+    /// covariance and the Leavitt law; hours with overheads from the epochs.
+    fn predict(&self, s: &Setting, em: &dyn ExposureModel, epochs: &[Epoch]) -> Result<Prediction> {
+        let _ = em;
+        let star = Star::from_target(s.target)?;
+        let mut notes = Vec::new();
+        Ok(self.predict_star(s, &star, epochs, &mut notes)?.0)
+    }
+
+    fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {
+        let r = self.goal_report(s, em, goal_pct)?;
+        r.prediction.ok_or_else(|| {
+            RungError::invalid(
+                format!("target '{}'", s.target.name),
+                "no prediction could be made (no mean magnitude or no Leavitt law for its band)",
+            )
+        })
+    }
+}
