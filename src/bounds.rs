@@ -236,6 +236,26 @@ pub const PM_MASYR: Bound = Bound {
     why: "no star moves faster than about 10,400 mas/yr",
 };
 
+/// V−I colour of a star (a parallax target or its reference stars).
+pub const COLOUR_VI_MAG: Bound = Bound {
+    key: "color_vi_mag",
+    unit: "mag",
+    min: -1.0,
+    max: 8.0,
+    min_exclusive: false,
+    why: "stars run from about V-I = -0.4 (the hottest) to about 5 (the coolest dwarfs seen in V)",
+};
+
+/// Reference stars measured with a parallax target.
+pub const REF_STAR_COUNT: Bound = Bound {
+    key: "ref_star_count",
+    unit: "",
+    min: 3.0,
+    max: 1000.0,
+    min_exclusive: false,
+    why: "a linear plate model (six constants) needs at least three reference stars, and a CCD frame holds at most a few hundred useful ones",
+};
+
 /// Redshift of a transient's host.
 pub const REDSHIFT: Bound = Bound {
     key: "redshift",
@@ -327,7 +347,7 @@ pub fn too_many_sub_exposures(n: f64) -> String {
 }
 
 /// Every bound, for documentation and the fuzz harness.
-pub const ALL: [&Bound; 13] = [
+pub const ALL: [&Bound; 15] = [
     &MAG,
     &AMPLITUDE_MAG,
     &EXTINCTION_MAG,
@@ -341,6 +361,8 @@ pub const ALL: [&Bound; 13] = [
     &SEEING_ARCSEC,
     &EXPTIME_S,
     &SNR,
+    &COLOUR_VI_MAG,
+    &REF_STAR_COUNT,
 ];
 
 #[cfg(test)]

@@ -86,6 +86,10 @@ kinds! {
         ("pm_dec_masyr", Optional),
         ("epoch_yr", Optional),
         ("mag", Optional),
+        ("color_vi_mag", Optional),
+        ("ref_star_count", Optional),
+        ("ref_mag", Optional),
+        ("ref_color_vi_mag", Optional),
     ];
     /// Pulsating star (period–luminosity).
     Pulsator = "pulsator", '∿', "pulsating star, period-luminosity distance", &[
@@ -344,6 +348,7 @@ pub struct Column {
 const MAGNITUDE: Bound = Bound::physical(&crate::bounds::MAG);
 const NOT_NEGATIVE: Bound = Bound::at_least(0.0, "must not be negative");
 const PROPER_MOTION: Bound = Bound::physical(&crate::bounds::PM_MASYR);
+const COLOUR_VI: Bound = Bound::physical(&crate::bounds::COLOUR_VI_MAG);
 
 /// The fields table: every field of a targets file, in the order a new file
 /// writes them. Column order in a file is free; names are matched without
@@ -476,6 +481,54 @@ pub const COLUMNS: &[Column] = &[
         need: Optional,
         get: |t| Cell::Text(t.band.clone()),
         set: |t, c| t.band = c.text(),
+    },
+    Column {
+        key: "color_vi_mag",
+        unit: "mag",
+        about: "V−I colour (DCR)",
+        ty: Ty::Number,
+        default: "",
+        bounds: &[COLOUR_VI],
+        every_kind: false,
+        need: Optional,
+        get: |t| Cell::num_or_empty(t.color_vi_mag),
+        set: |t, c| t.color_vi_mag = c.num(),
+    },
+    Column {
+        key: "ref_star_count",
+        unit: "count",
+        about: "reference stars in the frame",
+        ty: Ty::Number,
+        default: "",
+        bounds: &[Bound::physical(&crate::bounds::REF_STAR_COUNT)],
+        every_kind: false,
+        need: Optional,
+        get: |t| Cell::num_or_empty(t.ref_star_count),
+        set: |t, c| t.ref_star_count = c.num(),
+    },
+    Column {
+        key: "ref_mag",
+        unit: "mag",
+        about: "their typical mag in band",
+        ty: Ty::Number,
+        default: "",
+        bounds: &[MAGNITUDE],
+        every_kind: false,
+        need: Optional,
+        get: |t| Cell::num_or_empty(t.ref_mag),
+        set: |t, c| t.ref_mag = c.num(),
+    },
+    Column {
+        key: "ref_color_vi_mag",
+        unit: "mag",
+        about: "their mean V−I colour",
+        ty: Ty::Number,
+        default: "",
+        bounds: &[COLOUR_VI],
+        every_kind: false,
+        need: Optional,
+        get: |t| Cell::num_or_empty(t.ref_color_vi_mag),
+        set: |t, c| t.ref_color_vi_mag = c.num(),
     },
     Column {
         key: "period_d",
@@ -760,6 +813,14 @@ pub struct Target {
     pub mag: Option<f64>,
     /// Photometric band.
     pub band: String,
+    /// V−I colour of a parallax target, mag (differential chromatic refraction).
+    pub color_vi_mag: Option<f64>,
+    /// Number of reference stars measured with a parallax target (none: estimated).
+    pub ref_star_count: Option<f64>,
+    /// Typical magnitude of those reference stars in `band` (none: estimated).
+    pub ref_mag: Option<f64>,
+    /// Mean V−I colour of the reference stars, mag (none: the method's default).
+    pub ref_color_vi_mag: Option<f64>,
     /// Pulsation period, days.
     pub period_d: Option<f64>,
     /// Epoch of maximum light, BJD_TDB.
@@ -815,6 +876,10 @@ impl Target {
             epoch_yr: 2000.0,
             mag: None,
             band: "V".into(),
+            color_vi_mag: None,
+            ref_star_count: None,
+            ref_mag: None,
+            ref_color_vi_mag: None,
             period_d: None,
             epoch_max_bjd: None,
             period_err_d: None,

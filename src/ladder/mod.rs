@@ -52,6 +52,19 @@ pub trait ExposureModel: Sync {
     fn readout_s(&self) -> f64;
     /// Typical seeing FWHM, arcseconds.
     fn seeing_fwhm_arcsec(&self) -> f64;
+    /// Clear aperture of the telescope, metres, when the model knows it (the
+    /// parallax method scales atmospheric image motion with it). The default
+    /// knows none.
+    fn aperture_m(&self) -> Option<f64> {
+        None
+    }
+    /// Effective wavelength and width (FWHM) of a band, Å: the model's own
+    /// band table. The default reads the built-in table (`config/bands.toml`).
+    fn passband_angstrom(&self, band: &str) -> Option<(f64, f64)> {
+        let set = crate::sky::bands::BandSet::builtin().ok()?;
+        let b = set.get(band).ok()?;
+        Some((b.lambda_eff_angstrom, b.bandwidth_angstrom))
+    }
     /// Exposure of a long-slit spectrum of a point source of magnitude `mag`
     /// in `band` reaching `snr` per resolution element at
     /// `wavelength_angstrom` (a transient's classification spectrum). The

@@ -357,6 +357,15 @@ impl ExposureModel for Photometer {
         self.seeing_fwhm_arcsec
     }
 
+    fn aperture_m(&self) -> Option<f64> {
+        Some(self.instrument.aperture_m)
+    }
+
+    fn passband_angstrom(&self, band: &str) -> Option<(f64, f64)> {
+        let b = self.bands.get(band).ok()?;
+        Some((b.lambda_eff_angstrom, b.bandwidth_angstrom))
+    }
+
     fn spectrum_exptime(
         &self,
         mag: f64,

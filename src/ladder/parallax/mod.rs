@@ -28,6 +28,8 @@
 //! seasons would do, or what the floor is ([`Reach`]). Moonlight enters through the
 //! exposure model (sky brightness), not as a separate Moon-distance cut.
 
+pub mod astrometry;
+
 use crate::astro::airmass::{altitude_for_airmass_deg, kasten_young};
 use crate::astro::frames::{CatalogPlace, Context, Observed};
 use crate::astro::night::{Limits, Night, TargetNight};

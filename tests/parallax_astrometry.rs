@@ -1,0 +1,139 @@
+//! The per-epoch astrometric error model of the parallax method
+//! (src/ladder/parallax/astrometry.rs) against published figures, and its
+//! scaling with exposure time and reference-star magnitude.
+
+use rung::astro::site::Site;
+use rung::ladder::parallax::astrometry::{
+    Dcr, FrameRule, StarCounts, centroid_mas, effective_wavelength_angstrom,
+    estimate_reference_stars, image_motion_mas, refraction_a_mas,
+};
+
+/// Han (1989, AJ 97, 607): the differential image motion of star pairs at the
+/// Allegheny Observatory (0.76 m) is 0.140″ (S/600″)^0.33 t^−0.5 (S in arcsec,
+/// t in s; quoted from the abstract of a later Allegheny study). Han & Gatewood
+/// (1995) found 0.054″ in place of 0.140″ on Mauna Kea.
+#[test]
+fn image_motion_is_han_1989_at_allegheny() {
+    for (s, t) in [(330.0, 1.0f64), (600.0, 10.0), (1260.0, 100.0)] {
+        let han = 140.0 * (s / 600.0_f64).powf(0.33) / t.sqrt();
+        let got = image_motion_mas(0.140, s, 0.76, t);
+        // Han's exponent 0.33 against Lindegren's 1/3: within 0.5 % over 330″–1260″.
+        assert!((got / han - 1.0).abs() < 0.005, "{s} {t}: {got} vs {han}");
+    }
+    // Mauna Kea, 600″, 1 s: 54 mas.
+    assert!((image_motion_mas(0.054, 600.0, 0.76, 1.0) - 54.0).abs() < 1e-9);
+    // Falls as t^−1/2: a 16× longer exposure moves a quarter as much.
+    let a = image_motion_mas(0.140, 400.0, 1.0, 30.0);
+    let b = image_motion_mas(0.140, 400.0, 1.0, 480.0);
+    assert!((b / a - 0.25).abs() < 1e-12);
+}
+
+/// Filippenko (1982, PASP 94, 715), Table 1 as reproduced by CTIO's
+/// "Differential Atmospheric Refraction" page: refraction relative to 5000 Å
+/// at an altitude of 2 km (P = 600 mm Hg, T = 7 °C, water vapour 8 mm Hg:
+/// the conditions of the table, quoted from memory), in arcsec, at
+/// sec z = 1.50: 4000 Å +0.71, 6000 Å −0.37, 7000 Å −0.60, 8000 Å −0.74,
+/// 9000 Å −0.84. rung's DCR is the difference of SOFA `refco`'s A at two
+/// wavelengths times tan z; it must reproduce the table to 0.02″.
+#[test]
+fn refraction_dispersion_matches_filippenko_1982() {
+    let mut site = Site::new("two-km", -30.0, -70.0, 2000.0, chrono_tz::UTC).unwrap();
+    site.pressure_hpa = Some(600.0 * 1.333_224);
+    site.temperature_c = 7.0;
+    // 8 mm Hg of water at 7 °C is about saturation (7.5 mm Hg); the water
+    // term of refco does not depend on wavelength, so it cancels anyway.
+    site.humidity = 1.0;
+    let tan_z = (1.5f64 * 1.5 - 1.0).sqrt();
+    let a5 = refraction_a_mas(&site, 5000.0);
+    for (wl, table) in [
+        (4000.0, 0.71),
+        (6000.0, -0.37),
+        (7000.0, -0.60),
+        (8000.0, -0.74),
+        (9000.0, -0.84),
+    ] {
+        let got = (refraction_a_mas(&site, wl) - a5) * tan_z / 1000.0;
+        assert!((got - table).abs() < 0.02, "{wl} Å: {got:.3}″ vs {table}″");
+    }
+}
+
+/// DCR is zero for equal colours and at the zenith, grows with tan z and with
+/// the colour difference, and a redder target is refracted less (its
+/// effective wavelength is longer).
+#[test]
+fn dcr_scales_with_colour_difference_and_tan_z() {
+    let site = rung::io::sites::resolve("pampa-lucero").unwrap();
+    let v_i = (5450.0, 7980.0);
+    let i_band = (7980.0, 1490.0);
+    let v_band = (5450.0, 880.0);
+    let same = Dcr::new(&site, i_band, v_i, 1.0, 1.0);
+    assert_eq!(same.mas_per_tanz, 0.0);
+    let one = Dcr::new(&site, i_band, v_i, 2.0, 1.0);
+    let three = Dcr::new(&site, i_band, v_i, 4.0, 1.0);
+    assert!(one.mas_per_tanz < 0.0, "a redder target is refracted less");
+    // Linear to a few per cent (the dispersion of air flattens toward the red).
+    assert!(
+        (three.mas_per_tanz / one.mas_per_tanz - 3.0).abs() < 0.1,
+        "{one:?} {three:?}"
+    );
+    let (dx, dy) = one.displacement_mas(0.0, 0.7);
+    assert_eq!((dx, dy), (0.0, 0.0));
+    let (dx, dy) = one.displacement_mas(1.0, std::f64::consts::FRAC_PI_2);
+    assert!((dx - one.mas_per_tanz).abs() < 1e-12 && dy.abs() < 1e-9);
+    // V is more dispersive than I: a larger DCR per magnitude of colour.
+    let v = Dcr::new(&site, v_band, v_i, 2.0, 1.0);
+    assert!(v.mas_per_tanz.abs() > one.mas_per_tanz.abs());
+    // Order of magnitude (a fact of the trade, quoted from memory: DCR between
+    // an M dwarf and its reference stars is a few to a few tens of mas at
+    // tan z ≈ 1 in broad optical bands): 1–30 mas per magnitude of V−I.
+    for d in [one, v] {
+        assert!((1.0..30.0).contains(&d.mas_per_tanz.abs()), "{d:?}");
+    }
+    // The effective wavelength moves redward with V−I by
+    // width²/(12 λ0 · 2.5 log10(λI/λV)) per magnitude: about 55 Å in I.
+    let per_mag = effective_wavelength_angstrom(7980.0, 1490.0, 1.0, 5450.0, 7980.0) - 7980.0;
+    assert!(
+        (per_mag - 1490.0f64.powi(2) / (12.0 * 7980.0 * 2.5 * (7980.0f64 / 5450.0).log10())).abs()
+            < 1e-9
+    );
+    assert!((40.0..70.0).contains(&per_mag), "{per_mag}");
+}
+
+/// The centroid of a Gaussian image: σ_FWHM/2.35 over the SNR (common
+/// practice): 1.2″ at SNR 100 is 5.1 mas, and halves when the SNR doubles
+/// (four times the exposure when photon-limited).
+#[test]
+fn centroid_error_scales_with_snr() {
+    let a = centroid_mas(1.2, 100.0).unwrap();
+    assert!((a - 1200.0 / 235.0).abs() < 1e-9);
+    assert!((centroid_mas(1.2, 200.0).unwrap() / a - 0.5).abs() < 1e-12);
+    assert!(centroid_mas(1.2, 0.0).is_err() && centroid_mas(0.0, 10.0).is_err());
+}
+
+/// Star counts grow toward the plane and toward faint magnitudes; fainter
+/// reference stars are more numerous but each measured worse.
+#[test]
+fn reference_stars_from_the_star_counts() {
+    let counts = StarCounts {
+        pole_per_deg2_at_20: 1000.0,
+        slope_per_mag: 0.25,
+        min_latitude_deg: 10.0,
+    };
+    assert!((counts.brighter_than_per_deg2(20.0, 90.0) - 1000.0).abs() < 1e-9);
+    assert!((counts.brighter_than_per_deg2(20.0, 30.0) - 2000.0).abs() < 1e-6);
+    assert_eq!(
+        counts.brighter_than_per_deg2(16.0, 2.0),
+        counts.brighter_than_per_deg2(16.0, -10.0)
+    );
+    let rule = FrameRule {
+        radius_arcmin: 5.0,
+        mag_window: (-3.0, 1.0),
+        max_stars: 1000.0,
+        counts,
+    };
+    let (n15, m15) = estimate_reference_stars(15.0, 60.0, &rule);
+    let (n18, m18) = estimate_reference_stars(18.0, 60.0, &rule);
+    // Five times more stars three magnitudes fainter (10^0.75), each 3 mag fainter on average.
+    assert!((n18 / n15 - 10f64.powf(0.75)).abs() < 1e-6);
+    assert!((m18 - m15 - 3.0).abs() < 1e-9);
+}
