@@ -6,6 +6,7 @@
 //! scheduler use only this face ([`Method`]), so a fourth method is a new file
 //! plus one line in [`methods`].
 
+pub mod chain;
 pub mod parallax;
 pub mod pulsator;
 pub mod transient;
