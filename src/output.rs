@@ -13,6 +13,9 @@
 //!   isolates) are shown as escapes (`\x1b`, `\u{202e}`) in tables and in the
 //!   UI. JSON and CSV keep the text as it is (their own quoting makes it inert).
 //! - A Markdown cell escapes `|`, so a name cannot split the proposal's table.
+//! - A clock time (`HH:MM`, UTC or local) is read off the instant rounded to
+//!   the second, as JSON writes it ([`clock_hm`]): a table, the UI and
+//!   `--json` never disagree on the minute.
 
 use serde::Serialize;
 use std::borrow::Cow;
@@ -137,6 +140,16 @@ fn negative_zero_at(b: &[u8], i: usize) -> bool {
             .is_some_and(|c| c.is_ascii_digit() || *c == b'-'),
         Some(_) => true,
     }
+}
+
+/// The clock time `HH:MM` of `t` in the zone `tz` (UTC: `chrono::Utc`), of
+/// the instant rounded to the whole second as every ISO time in JSON is: an
+/// event at 23:52:59.6 is `23:53` in a table as in JSON (`23:53:00Z`).
+pub fn clock_hm<Z: chrono::TimeZone>(t: crate::astro::time::Instant, tz: &Z) -> String
+where
+    Z::Offset: std::fmt::Display,
+{
+    t.round_to_second().local(tz).format("%H:%M").to_string()
 }
 
 /// `x` with `dp` decimals, no sign when it rounds to zero; `None` when `x`
@@ -361,6 +374,19 @@ pub fn push_iso(buf: &mut Vec<u8>, unix_s: f64) {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn clock_times_are_read_off_the_instant_json_writes() {
+        // 23:52:59.6 UTC is written 23:52:59.6 → "23:53:00Z" in JSON, so a
+        // table shows 23:53, in UTC and in a zone three hours behind (20:53).
+        let t = crate::astro::time::parse_instant("2026-12-01T23:52:59.6Z").unwrap();
+        assert_eq!(t.iso(), "2026-12-01T23:53:00Z");
+        assert_eq!(clock_hm(t, &chrono::Utc), "23:53");
+        let zone = chrono_tz::America::Argentina::Catamarca;
+        assert_eq!(clock_hm(t, &zone), "20:53");
+        let t = crate::astro::time::parse_instant("2026-12-01T23:52:59.4Z").unwrap();
+        assert_eq!(clock_hm(t, &zone), "20:52");
+    }
 
     #[test]
     fn numbers_have_no_negative_zero_and_no_infinity() {

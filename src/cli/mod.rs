@@ -285,19 +285,14 @@ pub fn opt(v: Option<f64>, dp: usize) -> String {
 
 /// Local clock time (HH:MM) of an instant at a site, or "-".
 pub fn local_hm(t: Option<rung::astro::time::Instant>, site: &rung::astro::site::Site) -> String {
-    t.map(|t| t.local(&site.timezone).format("%H:%M").to_string())
+    t.map(|t| rung::output::clock_hm(t, &site.timezone))
         .unwrap_or_else(|| "-".into())
 }
 
 /// UTC clock time (HH:MM) of an instant, or "-".
 pub fn utc_hm(t: Option<rung::astro::time::Instant>) -> String {
-    t.map(|t| {
-        t.round_to_second()
-            .to_datetime()
-            .format("%H:%M")
-            .to_string()
-    })
-    .unwrap_or_else(|| "-".into())
+    t.map(|t| rung::output::clock_hm(t, &chrono::Utc))
+        .unwrap_or_else(|| "-".into())
 }
 
 #[cfg(test)]

@@ -6,7 +6,7 @@ use crate::tui::keymap::Action;
 use crate::tui::keymap::{Scope, keys_for};
 use crate::tui::state::{State, scroll_offset};
 use crate::tui::theme::kind_glyph;
-use crate::tui::views::fmt::{fit, put, rfit};
+use crate::tui::views::fmt::{fit, goal, put, rfit};
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
 
@@ -58,6 +58,11 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         }
         Some(Ok(b)) => b,
     };
+    // The verdict takes the rest of the line, so it is never cut where
+    // there is room for it (at least 24 cells).
+    let verdict_w = (area.width as usize)
+        .saturating_sub(15 + 5 + 6 * 4 + 6)
+        .max(24);
     let cols: [(&str, usize, bool); 7] = [
         ("target", 15, false),
         ("goal", 5, true),
@@ -65,7 +70,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         ("epochs", 6, true),
         ("exp s", 6, true),
         ("hours", 6, true),
-        ("verdict", 24, false),
+        ("verdict", verdict_w, false),
     ];
     let line = |v: [String; 7]| -> String {
         v.iter()
@@ -95,7 +100,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         let y = area.y + 2 + k as u16;
         let text = line([
             format!("{} {}", kind_glyph(r.kind), r.target),
-            format!("{:.0}%", r.goal_pct),
+            goal(r.goal_pct),
             if r.achievable_pct.is_finite() {
                 format!("{:.1}%", r.achievable_pct)
             } else {

@@ -3,7 +3,7 @@
 //! exposure, the Moon, and which nights the chosen cadence observes.
 
 use crate::tui::state::{MethodBody, State, View, detail_offset, detail_rows};
-use crate::tui::views::fmt::{fit, hm, put, rfit};
+use crate::tui::views::fmt::{fit, goal, hm, num, pct, put, rfit};
 use crate::tui::views::scroll_mark;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
@@ -39,12 +39,12 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         area.x,
         area.y,
         &format!(
-            "Chase · ✶ {name}{} · {} · max {} (B {:.1}) · goal {:.0}%",
+            "Chase · ✶ {name}{} · {} · max {} (B {:.1}) · goal {}",
             if c.provisional { " · PROVISIONAL" } else { "" },
             c.bands.join(""),
             c.t_max.local(&s.site().timezone).format("%Y-%m-%d"),
             c.placement.params.m_max,
-            c.goal_pct
+            goal(c.goal_pct)
         ),
         area.width,
         th.title(),
@@ -119,11 +119,11 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     }
     let buy = match &d.budget {
         Some(b) => format!(
-            "σd/d {:.1}% (floor {:.1}%) · {} epochs · {:.1} h · {}{}",
-            b.distance_precision_pct,
-            b.floor_pct,
+            "σd/d {} (floor {}) · {} epochs · {} h · {}{}",
+            pct(b.distance_precision_pct, 1),
+            pct(b.floor_pct, 1),
             d.epochs.len(),
-            d.hours_needed,
+            num(Some(d.hours_needed), 1),
             if c.provisional { "provisional, " } else { "" },
             c.verdict.text()
         ),

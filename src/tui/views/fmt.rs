@@ -8,16 +8,13 @@ use ratatui::style::Style;
 
 /// Local HH:MM of an instant at a site, or "—".
 pub fn hm(t: Option<Instant>, site: &Site) -> String {
-    t.map(|t| t.local(&site.timezone).format("%H:%M").to_string())
+    t.map(|t| crate::output::clock_hm(t, &site.timezone))
         .unwrap_or_else(|| "—".into())
 }
 
 /// UTC HH:MM.
 pub fn hm_utc(t: Instant) -> String {
-    t.round_to_second()
-        .to_datetime()
-        .format("%H:%M")
-        .to_string()
+    crate::output::clock_hm(t, &chrono::Utc)
 }
 
 /// Right ascension in hours, minutes, seconds.
@@ -38,6 +35,24 @@ pub fn dec_text(dec_deg: f64) -> String {
 pub fn num(v: Option<f64>, dp: usize) -> String {
     v.and_then(|x| crate::output::fixed(x, dp))
         .unwrap_or_else(|| "—".into())
+}
+
+/// A percentage with `dp` decimals ("2.63%"), or "—" when it has no finite
+/// value (a method that proposes no epochs predicts none).
+pub fn pct(v: f64, dp: usize) -> String {
+    match crate::output::fixed(v, dp) {
+        Some(t) => format!("{t}%"),
+        None => "—".into(),
+    }
+}
+
+/// A distance goal as every view writes it: "3%", "2.5%" (one decimal at
+/// most, as the Roster's progress column and `rung budget` show it).
+pub fn goal(g: f64) -> String {
+    match crate::output::fixed(g, 1) {
+        Some(t) => format!("{}%", t.strip_suffix(".0").unwrap_or(&t)),
+        None => "—".into(),
+    }
 }
 
 /// Write `text` at (x, y) cut to `w` cells; returns the column after it.

@@ -48,7 +48,7 @@ pub fn scroll_mark(
 
 /// The status line: site, UTC and local time, Sun altitude, Moon phase and rise/set.
 pub fn status_text(s: &State, width: u16) -> String {
-    let local = s.now.local(&s.site().timezone).format("%H:%M").to_string();
+    let local = crate::output::clock_hm(s.now, &s.site().timezone);
     let sun = s
         .sky
         .as_ref()

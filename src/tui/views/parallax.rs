@@ -4,7 +4,7 @@
 
 use crate::tui::state::{MethodBody, State};
 use crate::tui::views::chart::Braille;
-use crate::tui::views::fmt::put;
+use crate::tui::views::fmt::{num, pct, put};
 use chrono::Datelike;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
@@ -156,11 +156,11 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         area.x,
         fy,
         &format!(
-            "{sol}σd/d {:.2}% · {} epochs in {} seasons · {:.1} h · {}",
-            pr.distance_precision_pct,
+            "{sol}σd/d {} · {} epochs in {} seasons · {} h · {}",
+            pct(pr.distance_precision_pct, 2),
             p.epochs.len(),
             p.seasons_available,
-            pr.hours_needed,
+            num(Some(pr.hours_needed), 1),
             pr.verdict.text()
         ),
         area.width,

@@ -3,7 +3,7 @@
 //! the points buy.
 
 use crate::tui::state::{MethodBody, State, View, detail_offset, detail_rows};
-use crate::tui::views::fmt::{hm, put};
+use crate::tui::views::fmt::{hm, num, pct, put};
 use crate::tui::views::scroll_mark;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
@@ -146,12 +146,16 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     // What the points buy.
     let buy = match (&r.prediction, &r.budget) {
         (Some(pr), b) => format!(
-            "σd/d {:.2}%{} · {:.1} h · {}",
-            pr.distance_precision_pct,
+            "σd/d {}{} · {} h · {}",
+            pct(pr.distance_precision_pct, 2),
             b.as_ref()
-                .map(|b| format!(" (floor {:.2}%, {:.0} pc)", b.floor_pct, b.distance_pc))
+                .map(|b| format!(
+                    " (floor {}, {} pc)",
+                    pct(b.floor_pct, 2),
+                    num(Some(b.distance_pc), 0)
+                ))
                 .unwrap_or_default(),
-            pr.hours_needed,
+            num(Some(pr.hours_needed), 1),
             pr.verdict.text()
         ),
         (None, _) => "no distance prediction (the star needs mean_mag)".into(),

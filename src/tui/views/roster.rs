@@ -3,7 +3,7 @@
 use crate::io::targets::Target;
 use crate::tui::state::{Progress, State, scroll_offset};
 use crate::tui::theme::kind_glyph;
-use crate::tui::views::fmt::{dec_text, fit, hm, num, put, ra_text, rfit};
+use crate::tui::views::fmt::{dec_text, fit, goal, hm, num, put, ra_text, rfit};
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
 
@@ -34,10 +34,7 @@ pub const PROGRESS_W: usize = 11;
 /// to say, "unobs/3%" when not observable, "…/3%" while computing, "—/3%" when
 /// the method gives nothing (no method, failed), "—" without a goal.
 pub fn progress_text(s: &State, t: &Target) -> String {
-    let g = |x: f64| {
-        let t = format!("{x:.1}");
-        t.strip_suffix(".0").map(str::to_string).unwrap_or(t)
-    };
+    let g = |x: f64| goal(x).trim_end_matches('%').to_string();
     match s.progress(t) {
         Progress::NoGoal => "—".into(),
         Progress::Pending { goal_pct } => format!("…/{}%", g(goal_pct)),

@@ -4,7 +4,7 @@
 use crate::tui::state::{NightData, State, TargetRow};
 use crate::tui::theme::{band_glyph, kind_glyph};
 use crate::tui::views::chart::{Braille, interp};
-use crate::tui::views::fmt::{dec_text, hm, num, put, ra_text};
+use crate::tui::views::fmt::{dec_text, goal, hm, num, put, ra_text};
 use crate::tui::views::roster;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
@@ -228,7 +228,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             hm(r.night.set.t, site),
             ra_text(t.ra_deg),
             dec_text(t.dec_deg),
-            t.goal_pct.map(|g| format!("{g}%")).unwrap_or("—".into()),
+            t.goal_pct.map(goal).unwrap_or("—".into()),
             t.priority,
             t.notes
         );
