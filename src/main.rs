@@ -32,8 +32,8 @@ enum Command {
     Parallax(Box<cli::parallax::Args>),
     /// Place visits on nights for a season; save, mark done or lost, re-plan, export (CSV, JSON, iCalendar, night sheet).
     Plan(Box<cli::plan::PlanArgs>),
-    /// What each target's distance goal costs: method, precision, epochs, hours, verdict.
-    Budget(Box<cli::plan::BudgetArgs>),
+    /// What each target's distance goal costs (weather, overheads), and which goals the hours asked meet.
+    Budget(Box<cli::budget::Args>),
     /// Signal-to-noise of an exposure on a star under tonight's sky.
     Snr(cli::snr::SnrArgs),
     /// Exposure time that reaches a signal-to-noise on a star under tonight's sky.
@@ -60,7 +60,7 @@ fn main() -> ExitCode {
         Some(Command::Phase(a)) => cli::phase::run(*a),
         Some(Command::Parallax(a)) => cli::parallax::run(*a),
         Some(Command::Plan(a)) => cli::plan::run_plan(*a),
-        Some(Command::Budget(a)) => cli::plan::run_budget(*a),
+        Some(Command::Budget(a)) => cli::budget::run(*a),
         Some(Command::Snr(a)) => cli::snr::run_snr(a),
         Some(Command::Exptime(a)) => cli::snr::run_exptime(a),
         Some(Command::Season(a)) => cli::season::run(a),

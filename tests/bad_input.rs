@@ -83,9 +83,13 @@ fn sites() {
         ("S2", err(resolve("10,20,30,Not/AZone")), "cannot read time zone from 'Not/AZone': expected an IANA zone such as America/Santiago".into()),
         ("S3", s("[[site]]\nname = \"a\"\nlat_deg = 95\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n"), "s.toml, line 3, field 'lat_deg': 95 is not within -90..+90 degrees".into()),
         ("S4", s("[[site]]\nname = \"a\nlat_deg = 10\n"), "s.toml, line 2: invalid basic string, expected `\"`".into()),
-        ("S5", s("[[site]]\nname = \"a\"\nlattitude = 10\n"), "s.toml, line 3, field 'lattitude': unknown field `lattitude`, expected one of `name`, `lat_deg`, `lon_deg`, `elev_m`, `timezone`, `pressure_hpa`, `temperature_c`, `humidity`, `sun_avoid_deg`, `horizon`, `description`".into()),
+        ("S5", s("[[site]]\nname = \"a\"\nlattitude = 10\n"), "s.toml, line 3, field 'lattitude': unknown field `lattitude`, expected one of `name`, `lat_deg`, `lon_deg`, `elev_m`, `timezone`, `pressure_hpa`, `temperature_c`, `humidity`, `sun_avoid_deg`, `horizon`, `description`, `clear_fraction`, `clear_source`, `semesters`".into()),
         ("S6", s("[[site]]\nname = \"a\"\nlat_deg = 10\nlon_deg = 10\nelev_m = 0\ntimezone = \"Mars/Olympus\"\n"), "s.toml, line 6, field 'timezone': 'Mars/Olympus' is not an IANA time zone".into()),
         ("S7", s("[[site]]\nname = \"a\"\nlat_deg = 10\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n\n[[site]]\nname = \"A\"\nlat_deg = 20\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\n"), "s.toml, line 9, field 'name': site 'A' is named twice in this file (first at line 1); rename or remove one".into()),
+        ("S8", s("[[site]]\nname = \"a\"\nlat_deg = 10\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\nclear_fraction = [0.5, 0.5, 0.5, 1.2, 0.5, 0.5, 0.5, 0.5, 0.5, 0.5, 0.5, 0.5]\n"), "s.toml, line 7, field 'clear_fraction': 1.2 for month 4 is not a fraction of nights in (0, 1]".into()),
+        ("S9", s("[[site]]\nname = \"a\"\nlat_deg = 10\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\nclear_fraction = [0.5, 0.5]\n"), "s.toml, line 7, field 'clear_fraction': invalid length 2, expected an array of length 12".into()),
+        ("S10", s("[[site]]\nname = \"a\"\nlat_deg = 10\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\nsemesters = [{ name = \"A\", start_month = 4 }, { name = \"B\", start_month = 4 }]\n"), "s.toml, line 7, field 'semesters': two semesters start in month 4".into()),
+        ("S11", s("[[site]]\nname = \"a\"\nlat_deg = 10\nlon_deg = 10\nelev_m = 0\ntimezone = \"UTC\"\nsemesters = [{ name = \"A\", start_month = 13 }]\n"), "s.toml, line 7, field 'semesters': start_month 13 of 'A' is not a month 1-12".into()),
     ] {
         check(id, got, want);
     }
@@ -498,7 +502,32 @@ fn plan_and_budget_options() {
     run(
         "I1",
         budget(&["--goal", "3", "--instrument", "nope-2m"]),
-        "invalid --instrument: unknown instrument 'nope-2m'; known instruments: lucero-1m",
+        "invalid --instrument: unknown instrument 'nope-2m'; known instruments: lucero-1m, alcaravan-2m",
+    );
+    run(
+        "H4",
+        budget(&["--hours", "-4"]),
+        "invalid --hours: -4 is not a number of hours within 0..1000000",
+    );
+    run(
+        "H5",
+        budget(&["--hours", "10", "--nights", "3"]),
+        "invalid hours asked: give one of --hours H, --hours-per-semester LABEL=H,... or --nights N",
+    );
+    run(
+        "H6",
+        budget(&["--hours-per-semester", "2031A=5"]),
+        "invalid --hours-per-semester: 2031A is not a semester of the range 2026-03-01 to 2026-06-01 (its semesters: 2026A)",
+    );
+    run(
+        "H7",
+        budget(&["--hours-per-semester", "2026A=5,2026A=6"]),
+        "invalid --hours-per-semester: 2026A is given twice",
+    );
+    run(
+        "H8",
+        budget(&["--hours", "10", "--confidence", "1.5"]),
+        "invalid --confidence: 1.5 is not a quantile within 0.5..0.999",
     );
     run(
         "H1",
@@ -514,7 +543,7 @@ fn plan_and_budget_options() {
     run(
         "I2",
         plan(&["--hours-per-night", "3", "--instrument", "nope-2m"]),
-        "invalid --instrument: unknown instrument 'nope-2m'; known instruments: lucero-1m",
+        "invalid --instrument: unknown instrument 'nope-2m'; known instruments: lucero-1m, alcaravan-2m",
     );
     run(
         "R4",
@@ -653,7 +682,7 @@ fn method_options() {
     run(
         "M6",
         p(&["--instrument", "nope-2m"]),
-        "invalid --instrument: unknown instrument 'nope-2m'; known instruments: lucero-1m",
+        "invalid --instrument: unknown instrument 'nope-2m'; known instruments: lucero-1m, alcaravan-2m",
     );
     run(
         "M7",
@@ -801,7 +830,7 @@ fn instruments_toml() {
         (
             "I5",
             bad("readout_s", "read_out_s"),
-            "i.toml, line 12, field 'read_out_s': unknown field `read_out_s`, expected one of `name`, `description`, `aperture_m`, `obstruction`, `pixel_scale_arcsec`, `read_noise_e`, `dark_e_per_pix_s`, `gain_e_per_adu`, `full_well_e`, `adc_bits`, `linear_fraction`, `seeing_fwhm_arcsec`, `readout_s`, `visit_overhead_s`, `min_exptime_s`, `max_sub_exptime_s`, `sky_annulus_fwhm`, `throughput`, `spectrograph`",
+            "i.toml, line 12, field 'read_out_s': unknown field `read_out_s`, expected one of `name`, `description`, `aperture_m`, `obstruction`, `pixel_scale_arcsec`, `read_noise_e`, `dark_e_per_pix_s`, `gain_e_per_adu`, `full_well_e`, `adc_bits`, `linear_fraction`, `seeing_fwhm_arcsec`, `readout_s`, `visit_overhead_s`, `filter_change_s`, `calibration_s_per_night`, `min_exptime_s`, `max_sub_exptime_s`, `sky_annulus_fwhm`, `throughput`, `spectrograph`",
         ),
         (
             "I6",
@@ -812,6 +841,14 @@ fn instruments_toml() {
                 p,
             )),
             "i.toml, line 23, field 'spectrograph.resolution': instrument test-1m: 5 is not a resolving power within 10..200000",
+        ),
+        (
+            "I7",
+            bad(
+                "visit_overhead_s = 120.0",
+                "visit_overhead_s = 120.0\ncalibration_s_per_night = 20000.0",
+            ),
+            "i.toml, line 14, field 'calibration_s_per_night': instrument test-1m: 20000 is not within 0..14400 s (at most four hours a night)",
         ),
     ] {
         check(id, got, want.to_string());

@@ -39,6 +39,138 @@ pub struct Site {
     pub horizon: Vec<HorizonPoint>,
     /// Sun-avoidance angle (degrees) while the Sun is up.
     pub sun_avoid_deg: f64,
+    /// Weather statistics and the proposal calendar (the budget's).
+    pub climate: Climate,
+}
+
+/// A semester of a site's proposal calendar: its name and the month it starts.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SemesterStart {
+    /// Name appended to the year of its start ("A" → "2027A").
+    pub name: String,
+    /// First month (1–12).
+    pub start_month: u32,
+}
+
+/// A site's weather statistics and proposal calendar.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Climate {
+    /// Fraction of nights clear enough for the programme, by month (January
+    /// first), when the site gives it; else the budget's documented default.
+    pub clear_fraction: Option<[f64; 12]>,
+    /// Where the clear fractions come from, in words.
+    pub clear_source: Option<String>,
+    /// Semesters in order of their first month (at least one).
+    pub semesters: Vec<SemesterStart>,
+}
+
+impl Default for Climate {
+    /// No climatology; semesters A (February–July) and B (August–January),
+    /// common practice at many observatories.
+    fn default() -> Self {
+        Climate {
+            clear_fraction: None,
+            clear_source: None,
+            semesters: vec![
+                SemesterStart {
+                    name: "A".into(),
+                    start_month: 2,
+                },
+                SemesterStart {
+                    name: "B".into(),
+                    start_month: 8,
+                },
+            ],
+        }
+    }
+}
+
+impl Climate {
+    /// The semester that holds a date: its label (year of its first month and
+    /// its name, "2026B"), its first day and its last day.
+    pub fn semester_of(
+        &self,
+        d: chrono::NaiveDate,
+    ) -> (String, chrono::NaiveDate, chrono::NaiveDate) {
+        use chrono::{Datelike, NaiveDate};
+        let m = d.month();
+        let n = self.semesters.len();
+        let (i, year) = match self.semesters.iter().rposition(|s| s.start_month <= m) {
+            Some(i) => (i, d.year()),
+            None => (n - 1, d.year() - 1),
+        };
+        let s = &self.semesters[i];
+        let start = NaiveDate::from_ymd_opt(year, s.start_month, 1).unwrap_or(d);
+        let (ny, nm) = if i + 1 < n {
+            (year, self.semesters[i + 1].start_month)
+        } else {
+            (year + 1, self.semesters[0].start_month)
+        };
+        let end = NaiveDate::from_ymd_opt(ny, nm, 1)
+            .and_then(|x| x.pred_opt())
+            .unwrap_or(d);
+        (format!("{year}{}", s.name), start, end)
+    }
+
+    /// Check the clear fractions (each in (0, 1]) and the semesters (one to
+    /// twelve, distinct months 1–12, names of 1–8 letters or digits); the
+    /// semesters are put in order of their first month.
+    pub fn validated(mut self) -> Result<Self> {
+        if let Some(f) = &self.clear_fraction {
+            for (m, v) in f.iter().enumerate() {
+                if !v.is_finite() || *v <= 0.0 || *v > 1.0 {
+                    return Err(RungError::invalid(
+                        "clear_fraction",
+                        format!(
+                            "{v} for month {} is not a fraction of nights in (0, 1]",
+                            m + 1
+                        ),
+                    ));
+                }
+            }
+        }
+        if self.semesters.is_empty() || self.semesters.len() > 12 {
+            return Err(RungError::invalid(
+                "semesters",
+                format!(
+                    "{} semesters: give one to twelve, each with name and start_month",
+                    self.semesters.len()
+                ),
+            ));
+        }
+        self.semesters.sort_by_key(|s| s.start_month);
+        for (i, s) in self.semesters.iter().enumerate() {
+            if !(1..=12).contains(&s.start_month) {
+                return Err(RungError::invalid(
+                    "semesters",
+                    format!(
+                        "start_month {} of '{}' is not a month 1-12",
+                        s.start_month, s.name
+                    ),
+                ));
+            }
+            if i > 0 && self.semesters[i - 1].start_month == s.start_month {
+                return Err(RungError::invalid(
+                    "semesters",
+                    format!("two semesters start in month {}", s.start_month),
+                ));
+            }
+            if s.name.is_empty()
+                || s.name.chars().count() > 8
+                || !s.name.chars().all(|c| c.is_alphanumeric())
+            {
+                return Err(RungError::invalid(
+                    "semesters",
+                    format!(
+                        "name '{}' must be 1-8 letters or digits",
+                        s.name.escape_default()
+                    ),
+                ));
+            }
+        }
+        Ok(self)
+    }
 }
 
 /// Standard-atmosphere pressure at height `elev_m` (hPa): the ICAO/US 1976
@@ -63,6 +195,7 @@ impl Site {
             humidity: 0.5,
             horizon: Vec::new(),
             sun_avoid_deg: DEFAULT_SUN_AVOID_DEG,
+            climate: Climate::default(),
         };
         s.validated()
     }

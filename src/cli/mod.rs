@@ -1,6 +1,7 @@
 //! Subcommands of the `rung` binary and the formatting they share.
 
 pub mod args;
+pub mod budget;
 pub mod chase;
 pub mod night;
 pub mod parallax;

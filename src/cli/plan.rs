@@ -1,9 +1,7 @@
-//! `rung plan` (place visits on nights, save, re-plan, export) and
-//! `rung budget` (what each distance goal costs).
+//! `rung plan`: place visits on nights, save, re-plan, export.
 
 use anyhow::{Context as _, Result};
 use rung::astro::time::parse_date;
-use rung::plan::budget;
 use rung::plan::export;
 use rung::plan::file::{self, PlanFile};
 use rung::plan::schedule::{self, Request, Status};
@@ -292,100 +290,4 @@ fn print_plan(
             );
         }
     }
-}
-
-/// Arguments of `rung budget`.
-#[derive(clap::Args)]
-pub struct BudgetArgs {
-    #[command(flatten)]
-    pub site: super::args::SiteArg,
-    /// Targets file (CSV or TOML).
-    #[arg(long)]
-    pub targets: PathBuf,
-    #[command(flatten)]
-    pub range: super::args::RangeArgs,
-    #[command(flatten)]
-    pub goal: super::args::GoalArg,
-    #[command(flatten)]
-    pub instrument: super::args::InstrumentArg,
-    #[command(flatten)]
-    pub limits: super::args::WindowLimits,
-    /// JSON output.
-    #[arg(long)]
-    pub json: bool,
-    /// CSV output.
-    #[arg(long)]
-    pub csv: bool,
-    /// A Markdown table ready for a proposal.
-    #[arg(long)]
-    pub markdown: bool,
-}
-
-/// Run `rung budget`.
-pub fn run_budget(a: BudgetArgs) -> Result<()> {
-    let st = super::settings(
-        super::args::choices(
-            Some(&a.site),
-            Some(&a.instrument),
-            Some(&a.limits),
-            Some(&a.range),
-            Some(&a.goal),
-        ),
-        Some(&a.targets),
-        &[],
-    )?;
-    let targets = super::load_targets(&a.targets)?;
-    let b = budget::budget(&st, &targets)?;
-    if a.json {
-        let mut v = serde_json::to_value(&b)?;
-        if let Some(o) = v.as_object_mut() {
-            o.insert("settings".into(), st.to_json());
-        }
-        super::print_json(&v)?;
-    } else if a.csv {
-        print!("{}", budget::csv(&b));
-    } else if a.markdown {
-        print!("{}", budget::markdown(&b));
-    } else {
-        super::outln!(
-            "Distance budget {} to {} at {} with {} (window above {:.0}°, Sun below {:.0}°)",
-            st.from,
-            st.to,
-            st.site.name,
-            st.instrument().name,
-            st.limits.min_alt_deg,
-            st.limits.sun_alt_deg
-        );
-        super::outln!(
-            "  {:<14} {:<9} {:>6} {:>8} {:>6} {:>8} {:>7}  verdict",
-            "target",
-            "method",
-            "goal %",
-            "reach %",
-            "epochs",
-            "exp/ep s",
-            "hours"
-        );
-        for r in &b.rows {
-            super::outln!(
-                "  {:<14} {:<9} {:>6.1} {:>8} {:>6} {:>8.0} {:>7.1}  {}",
-                r.target,
-                r.kind.as_str(),
-                r.goal_pct,
-                super::opt(Some(r.achievable_pct).filter(|x| x.is_finite()), 2),
-                r.epochs,
-                r.exptime_per_epoch_s,
-                r.hours,
-                r.verdict.text()
-            );
-        }
-        super::outln!("  total {:.1} h", b.total_hours);
-        for (k, h) in &b.hours_by_semester {
-            super::outln!("  semester {k}: {h:.1} h");
-        }
-        for (name, why) in &b.skipped {
-            super::outln!("  skipped {name}: {why}");
-        }
-    }
-    Ok(())
 }

@@ -1,7 +1,7 @@
 //! The site catalogue: `config/sites.toml` (built in), the user's own
 //! `sites.toml` in the user config folder, and inline `LAT,LON,ELEV_M[,ZONE]`.
 
-use crate::astro::site::{DEFAULT_SUN_AVOID_DEG, HorizonPoint, Site};
+use crate::astro::site::{Climate, DEFAULT_SUN_AVOID_DEG, HorizonPoint, SemesterStart, Site};
 use crate::config::{self, Layer, Named};
 use crate::error::{Location, Result, RungError};
 use crate::io::atomic::save_with_backup;
@@ -25,6 +25,9 @@ struct SiteRow {
     sun_avoid_deg: Option<f64>,
     horizon: Option<Vec<[f64; 2]>>,
     description: Option<String>,
+    clear_fraction: Option<[f64; 12]>,
+    clear_source: Option<String>,
+    semesters: Option<Vec<SemesterStart>>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -75,6 +78,12 @@ fn site_from_row(r: SiteRow) -> Result<Site> {
             .map(|[az_deg, alt_deg]| HorizonPoint { az_deg, alt_deg })
             .collect(),
         sun_avoid_deg: r.sun_avoid_deg.unwrap_or(DEFAULT_SUN_AVOID_DEG),
+        climate: Climate {
+            clear_fraction: r.clear_fraction,
+            clear_source: r.clear_source,
+            semesters: r.semesters.unwrap_or_else(|| Climate::default().semesters),
+        }
+        .validated()?,
     };
     site.validated().map_err(|e| match e {
         // Name the key as it is written in the file.
@@ -132,6 +141,28 @@ pub fn site_toml(site: &Site) -> String {
             .map(|h| format!("[{:?}, {:?}]", h.az_deg, h.alt_deg))
             .collect();
         t.push_str(&format!("horizon = [{}]\n", pts.join(", ")));
+    }
+    if let Some(f) = &site.climate.clear_fraction {
+        let v: Vec<String> = f.iter().map(|x| format!("{x:?}")).collect();
+        t.push_str(&format!("clear_fraction = [{}]\n", v.join(", ")));
+    }
+    if let Some(src) = &site.climate.clear_source {
+        t.push_str(&format!("clear_source = {}\n", q(src)));
+    }
+    if site.climate.semesters != Climate::default().semesters {
+        let v: Vec<String> = site
+            .climate
+            .semesters
+            .iter()
+            .map(|s| {
+                format!(
+                    "{{ name = {}, start_month = {} }}",
+                    q(&s.name),
+                    s.start_month
+                )
+            })
+            .collect();
+        t.push_str(&format!("semesters = [{}]\n", v.join(", ")));
     }
     t
 }

@@ -85,6 +85,12 @@ pub trait ExposureModel: Sync {
             "this exposure model has no spectrograph",
         ))
     }
+    /// Time to change filters between the bands of one visit, seconds, when
+    /// the instrument profile gives it (a method falls back on its own
+    /// configuration otherwise). The default gives none.
+    fn filter_change_s(&self) -> Option<f64> {
+        None
+    }
 }
 
 /// The exposure of a spectrum in a visit (a transient's classification).

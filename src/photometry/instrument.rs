@@ -47,6 +47,14 @@ pub struct Instrument {
     pub readout_s: f64,
     /// Slew and acquisition per visit, s.
     pub visit_overhead_s: f64,
+    /// Filter change between the bands of one visit, s (when the profile
+    /// gives it, the methods take it from here).
+    #[serde(default)]
+    pub filter_change_s: Option<f64>,
+    /// Night-time calibrations charged once per night the programme
+    /// observes (standard-star fields, focus), s.
+    #[serde(default)]
+    pub calibration_s_per_night: f64,
     /// Shortest exposure, s.
     pub min_exptime_s: f64,
     /// Longest single exposure, s.
@@ -154,6 +162,25 @@ impl Instrument {
         SEEING_ARCSEC.check(self.seeing_fwhm_arcsec)?;
         nonneg(self.readout_s, "readout_s")?;
         nonneg(self.visit_overhead_s, "visit_overhead_s")?;
+        if let Some(f) = self.filter_change_s
+            && !(f.is_finite() && (0.0..=3600.0).contains(&f))
+        {
+            return Err(bad(
+                "filter_change_s",
+                format!("{f} is not within 0..3600 s"),
+            ));
+        }
+        if !(self.calibration_s_per_night.is_finite()
+            && (0.0..=14_400.0).contains(&self.calibration_s_per_night))
+        {
+            return Err(bad(
+                "calibration_s_per_night",
+                format!(
+                    "{} is not within 0..14400 s (at most four hours a night)",
+                    self.calibration_s_per_night
+                ),
+            ));
+        }
         EXPTIME_S.check_as("min_exptime_s", self.min_exptime_s)?;
         EXPTIME_S.check_as("max_sub_exptime_s", self.max_sub_exptime_s)?;
         if self.max_sub_exptime_s < self.min_exptime_s {

@@ -353,6 +353,10 @@ impl ExposureModel for Photometer {
         self.instrument.readout_s
     }
 
+    fn filter_change_s(&self) -> Option<f64> {
+        self.instrument.filter_change_s
+    }
+
     fn seeing_fwhm_arcsec(&self) -> f64 {
         self.seeing_fwhm_arcsec
     }

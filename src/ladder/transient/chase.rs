@@ -381,7 +381,9 @@ pub(crate) fn night_row(
             .iter()
             .map(|b| b.exptime_s + b.n_exposures as f64 * em.readout_s())
             .sum::<f64>()
-        + (plans.len().saturating_sub(1)) as f64 * inp.cfg.planning.filter_change_s;
+        + (plans.len().saturating_sub(1)) as f64
+            * em.filter_change_s()
+                .unwrap_or(inp.cfg.planning.filter_change_s);
     row.exptime_s = Some(total);
     row.n_exposures = Some(n_total);
     row.visit_s = Some(visit);

@@ -1,0 +1,164 @@
+//! `rung budget`: what each distance goal costs with the site's weather and
+//! the instrument's overheads, and, given the hours asked, which goals they
+//! meet.
+
+use anyhow::Result;
+use rung::plan::budget::{self, Asked, Budget, Options};
+use std::path::PathBuf;
+
+/// Arguments of `rung budget`.
+#[derive(clap::Args)]
+pub struct Args {
+    #[command(flatten)]
+    pub site: super::args::SiteArg,
+    /// Targets file (CSV or TOML).
+    #[arg(long)]
+    pub targets: PathBuf,
+    #[command(flatten)]
+    pub range: super::args::RangeArgs,
+    #[command(flatten)]
+    pub goal: super::args::GoalArg,
+    #[command(flatten)]
+    pub instrument: super::args::InstrumentArg,
+    #[command(flatten)]
+    pub limits: super::args::WindowLimits,
+    /// Telescope hours asked over the range (scheduled hours; the weather takes its share): which goals they meet
+    #[arg(long, allow_hyphen_values = true)]
+    pub hours: Option<f64>,
+    /// Hours asked per semester: H for every semester of the range, or LABEL=H,LABEL=H (e.g. 2027A=20,2027B=15)
+    #[arg(long, allow_hyphen_values = true)]
+    pub hours_per_semester: Option<String>,
+    /// Whole nights asked, each worth the range's mean dark time (Sun below --sun-alt)
+    #[arg(long, allow_hyphen_values = true)]
+    pub nights: Option<f64>,
+    /// Quantile of the pessimistic hours with the weather, 0.5..0.999 (default 0.9)
+    #[arg(long, allow_hyphen_values = true)]
+    pub confidence: Option<f64>,
+    /// JSON output (with every target's σd/d-against-hours curve).
+    #[arg(long)]
+    pub json: bool,
+    /// CSV output.
+    #[arg(long)]
+    pub csv: bool,
+    /// A Markdown table ready for a proposal.
+    #[arg(long)]
+    pub markdown: bool,
+}
+
+/// The hours asked on the command line, if any.
+fn asked(a: &Args) -> Result<Option<Asked>> {
+    let per = match &a.hours_per_semester {
+        Some(t) => Asked::parse_per_semester(t)?,
+        None => Default::default(),
+    };
+    let x = Asked {
+        hours: a.hours,
+        hours_per_semester: per,
+        nights: a.nights,
+    };
+    if x == Asked::default() {
+        return Ok(None);
+    }
+    x.check()?;
+    Ok(Some(x))
+}
+
+/// Run `rung budget`.
+pub fn run(a: Args) -> Result<()> {
+    let asked = asked(&a)?;
+    if let Some(q) = a.confidence
+        && !(q.is_finite() && (0.5..=0.999).contains(&q))
+    {
+        anyhow::bail!(rung::RungError::invalid(
+            "--confidence",
+            format!("{q} is not a quantile within 0.5..0.999"),
+        ));
+    }
+    let st = super::settings(
+        super::args::choices(
+            Some(&a.site),
+            Some(&a.instrument),
+            Some(&a.limits),
+            Some(&a.range),
+            Some(&a.goal),
+        ),
+        Some(&a.targets),
+        &[],
+    )?;
+    let targets = super::load_targets(&a.targets)?;
+    let opts = Options {
+        curves: a.json,
+        asked,
+        confidence: a.confidence,
+    };
+    let b = budget::budget_with(&st, &targets, &opts)?;
+    if a.json {
+        let mut v = serde_json::to_value(&b)?;
+        if let Some(o) = v.as_object_mut() {
+            o.insert("settings".into(), st.to_json());
+        }
+        super::print_json(&v)?;
+    } else if a.csv {
+        print!("{}", budget::csv(&b));
+    } else if a.markdown {
+        print!("{}", budget::markdown(&b));
+    } else {
+        print_text(&st, &b);
+    }
+    Ok(())
+}
+
+fn print_text(st: &rung::programme::Settings, b: &Budget) {
+    use rung::output::num;
+    super::outln!(
+        "Distance budget {} to {} at {} with {} (window above {:.0}°, Sun below {:.0}°)",
+        st.from,
+        st.to,
+        st.site.name,
+        st.instrument().name,
+        st.limits.min_alt_deg,
+        st.limits.sun_alt_deg
+    );
+    for l in budget::assumptions(b) {
+        super::outln!("  {l}");
+    }
+    super::outln!(
+        "  {:<14} {:<9} {:>6} {:>8} {:>6} {:>8} {:>7} {:>7} {:>7}  verdict",
+        "target",
+        "method",
+        "goal %",
+        "reach %",
+        "epochs",
+        "exp/ep s",
+        "hours",
+        "exp h",
+        format!("{}% h", num(b.weather.confidence * 100.0, 0))
+    );
+    for r in &b.rows {
+        super::outln!(
+            "  {:<14} {:<9} {:>6} {:>8} {:>6} {:>8} {:>7} {:>7} {:>7}  {}",
+            r.target,
+            r.kind.as_str(),
+            num(r.goal_pct, 1),
+            super::opt(Some(r.achievable_pct).filter(|x| x.is_finite()), 2),
+            r.epochs,
+            num(r.exptime_per_epoch_s, 0),
+            num(r.hours, 1),
+            num(r.hours_expected, 1),
+            num(r.hours_pessimistic, 1),
+            r.verdict.text()
+        );
+    }
+    for l in budget::totals_lines(b) {
+        super::outln!("  {l}");
+    }
+    for (name, why) in &b.skipped {
+        super::outln!("  skipped {name}: {why}");
+    }
+    if let Some(a) = &b.allocation {
+        super::outln!();
+        for l in budget::allocation_lines(b, a) {
+            super::outln!("{l}");
+        }
+    }
+}

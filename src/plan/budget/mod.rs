@@ -1,0 +1,874 @@
+//! The distance-goal budget: for each target, the method, the precision it can
+//! reach, the epochs, exposures and hours it takes, and a verdict; totals by
+//! month and by the site's semesters; the hours with the site's weather
+//! (expected and a pessimistic quantile, [`weather`]) and the instrument's
+//! overheads; and, given the hours asked, the allocation that meets the most
+//! priority-weighted goals ([`allocation`], solved exactly by [`alloc`]), what
+//! each target reaches with its share ([`curve`]), what is left and what more
+//! hours would buy.
+//!
+//! Semesters are the site's (`semesters` in the site catalogue); without
+//! them, the common practice of many observatories (not a standard): A runs
+//! from 1 February to 31 July, B from 1 August to 31 January; January belongs
+//! to the B semester of the year before.
+
+pub mod alloc;
+pub mod allocation;
+pub mod curve;
+pub mod weather;
+
+pub use allocation::{Allocation, Asked, allocate};
+pub use curve::CurvePoint;
+
+use crate::astro::site::Climate;
+use crate::error::Result;
+use crate::io::targets::{Kind, Target};
+use crate::ladder::{Prediction, Verdict};
+use crate::output::{csv_num, csv_table, fixed, md_cell, num};
+use crate::programme::Settings;
+use chrono::{Datelike, NaiveDate};
+use serde::Serialize;
+use std::collections::BTreeMap;
+use weather::{DEFAULT_CLEAR_FRACTION, HoursDistribution, NightLoad};
+
+/// One target's line of the budget.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct BudgetRow {
+    /// Target name.
+    pub target: String,
+    /// Method.
+    pub kind: Kind,
+    /// Goal σ_d/d, percent.
+    pub goal_pct: f64,
+    /// What the method reaches with the epochs below, percent.
+    pub achievable_pct: f64,
+    /// Number of epochs.
+    pub epochs: usize,
+    /// Mean exposure per epoch, seconds.
+    pub exptime_per_epoch_s: f64,
+    /// Hours with the method's overheads (acquisition, readouts, filter
+    /// changes), clear weather.
+    pub hours: f64,
+    /// The verdict.
+    pub verdict: Verdict,
+    /// Short verdict label: reachable, floor, not_observable, more_seasons.
+    pub verdict_label: String,
+    /// Hours by month (YYYY-MM).
+    pub hours_by_month: BTreeMap<String, f64>,
+    /// The method's notes.
+    pub notes: Vec<String>,
+    /// The target's priority (the weight of its goal in the allocation).
+    pub priority: f64,
+    /// Nights its epochs fall on.
+    pub nights: usize,
+    /// Hours by the site's semester (clear weather).
+    pub hours_by_semester: BTreeMap<String, f64>,
+    /// Expected scheduled hours with the site's weather (`hours` / f by month).
+    pub hours_expected: f64,
+    /// The pessimistic quantile of the scheduled hours with the weather
+    /// (`weather.confidence`).
+    pub hours_pessimistic: f64,
+    /// Seconds of open shutter over all epochs.
+    pub exposure_s: f64,
+    /// The inverse curve: σ_d/d against hours, from zero to the best the
+    /// range allows (empty unless asked for).
+    pub curve: Vec<CurvePoint>,
+    /// The nights of its epochs with their clear-weather hours.
+    #[serde(skip)]
+    pub epoch_nights: Vec<(NaiveDate, f64)>,
+}
+
+/// The weather the budget assumes.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct WeatherInfo {
+    /// Clear fraction by month, January first.
+    pub clear_fraction: [f64; 12],
+    /// Where it comes from.
+    pub source: String,
+    /// Whether the site gives none and the default is used.
+    pub default_used: bool,
+    /// The quantile of the pessimistic hours (e.g. 0.9).
+    pub confidence: f64,
+}
+
+/// The overheads the budget charges, from the instrument profile.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Overheads {
+    /// The instrument.
+    pub instrument: String,
+    /// Acquisition (slew, centring, guiding) per visit, s.
+    pub acquisition_s: f64,
+    /// Readout per exposure, s.
+    pub readout_s: f64,
+    /// Filter change between bands of a visit, s (the instrument's, else the method's).
+    pub filter_change_s: Option<f64>,
+    /// Calibrations per night observed, s.
+    pub calibration_s_per_night: f64,
+    /// Nights the budget's epochs fall on.
+    pub calibration_nights: usize,
+    /// Calibration hours, clear weather.
+    pub calibration_hours: f64,
+    /// Open-shutter hours of every epoch.
+    pub exposure_hours: f64,
+    /// Every other hour: acquisition, readouts, filter changes, spectra's set-up.
+    pub visit_overhead_hours: f64,
+}
+
+/// One semester of the range.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SemesterInfo {
+    /// Label ("2027A").
+    pub label: String,
+    /// First day of the semester.
+    pub from: NaiveDate,
+    /// Last day of the semester.
+    pub to: NaiveDate,
+    /// Hours needed in it (targets and calibrations), clear weather.
+    pub hours: f64,
+    /// The same, expected with the weather.
+    pub hours_expected: f64,
+}
+
+/// The budget of a programme.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Budget {
+    /// One row per target with a distance method.
+    pub rows: Vec<BudgetRow>,
+    /// Targets left out (no method, or the method failed), with the reason.
+    pub skipped: Vec<(String, String)>,
+    /// Hours by month (YYYY-MM) over all targets.
+    pub hours_by_month: BTreeMap<String, f64>,
+    /// Hours by semester (e.g. 2026B), targets only, clear weather.
+    pub hours_by_semester: BTreeMap<String, f64>,
+    /// Total hours of the targets, clear weather, without calibrations.
+    pub total_hours: f64,
+    /// Site name.
+    pub site: String,
+    /// Instrument name.
+    pub instrument: String,
+    /// First night of the range.
+    pub from: NaiveDate,
+    /// Last night of the range.
+    pub to: NaiveDate,
+    /// The weather assumed.
+    pub weather: WeatherInfo,
+    /// The overheads charged.
+    pub overheads: Overheads,
+    /// The semesters of the range with their hours (targets and calibrations).
+    pub semesters: Vec<SemesterInfo>,
+    /// Total with the calibrations, clear weather.
+    pub total_hours_with_calibrations: f64,
+    /// Expected scheduled hours with the weather (targets and calibrations).
+    pub total_hours_expected: f64,
+    /// The pessimistic quantile of the programme's scheduled hours.
+    pub total_hours_pessimistic: f64,
+    /// The allocation of the hours asked, when hours were asked.
+    pub allocation: Option<Allocation>,
+}
+
+/// What the budget computes beyond each target's goal.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Options {
+    /// Each target's inverse curve (σ_d/d against hours).
+    pub curves: bool,
+    /// The hours asked, to allocate.
+    pub asked: Option<Asked>,
+    /// The quantile of the pessimistic hours; `None`: [`weather::DEFAULT_CONFIDENCE`].
+    pub confidence: Option<f64>,
+}
+
+/// The semester label of a date with the common-practice calendar (2026A =
+/// Feb–Jul 2026, 2026B = Aug 2026–Jan 2027); a site's own calendar is
+/// [`Climate::semester_of`].
+pub fn semester(d: NaiveDate) -> String {
+    Climate::default().semester_of(d).0
+}
+
+pub use crate::programme::check_goal;
+
+/// The clear fraction by month at the programme's site, with its source and
+/// whether the default stands in.
+pub fn clear_fraction(settings: &Settings) -> ([f64; 12], String, bool) {
+    match &settings.site.climate.clear_fraction {
+        Some(f) => (
+            *f,
+            settings
+                .site
+                .climate
+                .clear_source
+                .clone()
+                .unwrap_or_else(|| format!("site catalogue ({})", settings.site.name)),
+            false,
+        ),
+        None => (
+            [DEFAULT_CLEAR_FRACTION; 12],
+            format!(
+                "default {DEFAULT_CLEAR_FRACTION} every month: the site gives no clear_fraction"
+            ),
+            true,
+        ),
+    }
+}
+
+/// What a target's goal takes with the programme's settings: its method's
+/// `goal` with the programme's setting and photometry, the goal from
+/// [`Settings::goal_for`] (its own, else the programme's, else its method's
+/// default). `None` when the target has no method or no goal; an error is
+/// kept as its message.
+pub fn target_prediction(
+    settings: &Settings,
+    t: &Target,
+) -> Option<std::result::Result<Prediction, String>> {
+    let m = settings.method(t.kind)?;
+    let g = settings.goal_for(t)?;
+    let t = crate::ladder::with_goal(t, Some(g));
+    Some(
+        m.goal(&settings.setting(&t), &settings.photometer, g)
+            .map_err(|e| e.to_string()),
+    )
+}
+
+/// One target's work for the budget: its prediction at its goal and, when
+/// asked, its inverse curve.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TargetWork {
+    /// The method's prediction at the target's goal.
+    pub prediction: Prediction,
+    /// The inverse curve (empty unless asked for).
+    pub curve: Vec<CurvePoint>,
+}
+
+/// [`target_prediction`] and, with `curves`, the target's inverse curve.
+pub fn target_work(
+    settings: &Settings,
+    t: &Target,
+    curves: bool,
+) -> Option<std::result::Result<TargetWork, String>> {
+    let r = target_prediction(settings, t)?;
+    Some(r.map(|p| {
+        let curve = if curves {
+            curve::inverse_curve(settings, t, Some(&p))
+        } else {
+            Vec::new()
+        };
+        TargetWork {
+            prediction: p,
+            curve,
+        }
+    }))
+}
+
+/// Budget every target that has a method, with the programme's settings (its
+/// site, range, limits, instrument and methods; [`target_prediction`] for
+/// each target, on all cores); a target without a method or a goal is
+/// skipped with a reason.
+pub fn budget(settings: &Settings, targets: &[Target]) -> Result<Budget> {
+    budget_with(settings, targets, &Options::default())
+}
+
+/// [`budget`] with the curves and the allocation the options ask for.
+pub fn budget_with(settings: &Settings, targets: &[Target], opts: &Options) -> Result<Budget> {
+    crate::plan::schedule::dates(settings.from, settings.to)?;
+    if let Some(a) = &opts.asked {
+        a.check()?;
+        a.check_semesters(settings)?;
+    }
+    let work: Vec<_> = {
+        use rayon::prelude::*;
+        targets
+            .par_iter()
+            .map(|t| target_work(settings, t, opts.curves || opts.asked.is_some()))
+            .collect()
+    };
+    assemble_with(settings, targets, work, opts)
+}
+
+/// The budget from each target's [`target_prediction`] (one per target, in
+/// order): rows, targets skipped, totals by month and semester.
+pub fn assemble(
+    settings: &Settings,
+    targets: &[Target],
+    work: Vec<Option<std::result::Result<Prediction, String>>>,
+) -> Budget {
+    let work = work
+        .into_iter()
+        .map(|w| {
+            w.map(|r| {
+                r.map(|p| TargetWork {
+                    prediction: p,
+                    curve: Vec::new(),
+                })
+            })
+        })
+        .collect();
+    // Without hours asked nothing here can fail.
+    assemble_with(settings, targets, work, &Options::default())
+        .unwrap_or_else(|_| unreachable_budget(settings))
+}
+
+fn unreachable_budget(settings: &Settings) -> Budget {
+    let (f, source, default_used) = clear_fraction(settings);
+    Budget {
+        rows: Vec::new(),
+        skipped: Vec::new(),
+        hours_by_month: BTreeMap::new(),
+        hours_by_semester: BTreeMap::new(),
+        total_hours: 0.0,
+        site: settings.site.name.clone(),
+        instrument: settings.instrument().name.clone(),
+        from: settings.from,
+        to: settings.to,
+        weather: WeatherInfo {
+            clear_fraction: f,
+            source,
+            default_used,
+            confidence: weather::DEFAULT_CONFIDENCE,
+        },
+        overheads: overheads(settings, 0, 0.0, 0.0, 0.0),
+        semesters: Vec::new(),
+        total_hours_with_calibrations: 0.0,
+        total_hours_expected: 0.0,
+        total_hours_pessimistic: 0.0,
+        allocation: None,
+    }
+}
+
+fn overheads(
+    settings: &Settings,
+    nights: usize,
+    cal_h: f64,
+    exposure_h: f64,
+    visit_h: f64,
+) -> Overheads {
+    let i = settings.instrument();
+    Overheads {
+        instrument: i.name.clone(),
+        acquisition_s: i.visit_overhead_s,
+        readout_s: i.readout_s,
+        filter_change_s: i.filter_change_s,
+        calibration_s_per_night: i.calibration_s_per_night,
+        calibration_nights: nights,
+        calibration_hours: cal_h,
+        exposure_hours: exposure_h,
+        visit_overhead_hours: (visit_h - exposure_h).max(0.0),
+    }
+}
+
+/// The site's semesters that the range touches: label, first and last day.
+pub fn range_semesters(settings: &Settings) -> Vec<(String, NaiveDate, NaiveDate)> {
+    let mut out = Vec::new();
+    let mut d = settings.from;
+    while d <= settings.to {
+        let s = settings.site.climate.semester_of(d);
+        d = match s.2.succ_opt() {
+            Some(x) => x,
+            None => {
+                out.push(s);
+                break;
+            }
+        };
+        out.push(s);
+    }
+    out
+}
+
+/// Night loads (month, clear hours) of a set of (night, hours) pairs, each
+/// night with `cal_h` of calibrations when `cal_h` > 0.
+pub fn night_loads(nights: &[(NaiveDate, f64)], cal_h: f64) -> Vec<NightLoad> {
+    nights
+        .iter()
+        .map(|(d, h)| NightLoad {
+            month: d.month(),
+            hours: h + cal_h,
+        })
+        .collect()
+}
+
+/// [`assemble`] with curves and the allocation of the hours asked.
+pub fn assemble_with(
+    settings: &Settings,
+    targets: &[Target],
+    work: Vec<Option<std::result::Result<TargetWork, String>>>,
+    opts: &Options,
+) -> Result<Budget> {
+    let site = &settings.site;
+    let climate = &site.climate;
+    let (clear, source, default_used) = clear_fraction(settings);
+    let confidence = opts.confidence.unwrap_or(weather::DEFAULT_CONFIDENCE);
+    let work: Vec<(usize, std::result::Result<TargetWork, String>)> = work
+        .into_iter()
+        .enumerate()
+        .filter_map(|(i, w)| w.map(|w| (i, w)))
+        .collect();
+    let mut rows = Vec::new();
+    let mut skipped = Vec::new();
+    let mut done = vec![false; targets.len()];
+    let mut exposure_s = 0.0;
+    let mut visit_s = 0.0;
+    for (i, r) in work {
+        done[i] = true;
+        let t = &targets[i];
+        let goal = settings.goal_for(t).unwrap_or(f64::NAN);
+        match r {
+            Ok(TargetWork {
+                prediction: p,
+                curve,
+            }) => {
+                let nights = curve::epoch_nights(settings, &p);
+                let mut by_month: BTreeMap<String, f64> = BTreeMap::new();
+                let mut by_semester: BTreeMap<String, f64> = BTreeMap::new();
+                for (d, h) in &nights {
+                    *by_month
+                        .entry(format!("{:04}-{:02}", d.year(), d.month()))
+                        .or_default() += h;
+                    *by_semester.entry(climate.semester_of(*d).0).or_default() += h;
+                }
+                let loads = night_loads(&nights, 0.0);
+                let n = p.epochs.len();
+                let exp: f64 = p.epochs.iter().map(|e| e.exptime_s).sum();
+                exposure_s += exp;
+                visit_s += p.hours_needed.max(0.0) * 3600.0;
+                rows.push(BudgetRow {
+                    target: t.name.clone(),
+                    kind: t.kind,
+                    goal_pct: goal,
+                    achievable_pct: p.distance_precision_pct,
+                    epochs: n,
+                    exptime_per_epoch_s: if n > 0 { exp / n as f64 } else { 0.0 },
+                    hours: p.hours_needed.max(0.0),
+                    verdict_label: p.verdict.label().to_string(),
+                    verdict: p.verdict.clone(),
+                    hours_by_month: by_month,
+                    notes: p.notes.clone(),
+                    priority: t.priority,
+                    nights: nights.len(),
+                    hours_by_semester: by_semester,
+                    hours_expected: weather::expected_hours(&loads, &clear),
+                    hours_pessimistic: HoursDistribution::new(&loads, &clear).quantile(confidence),
+                    exposure_s: exp,
+                    curve,
+                    epoch_nights: nights,
+                });
+            }
+            Err(e) => skipped.push((t.name.clone(), e)),
+        }
+    }
+    for (i, t) in targets.iter().enumerate() {
+        if !done[i] {
+            let why = if settings.method(t.kind).is_none() {
+                format!("no distance method for kind '{}'", t.kind.as_str())
+            } else {
+                "no goal: give the target a goal_pct or pass --goal-pct".to_string()
+            };
+            skipped.push((t.name.clone(), why));
+        }
+    }
+    let mut hours_by_month: BTreeMap<String, f64> = BTreeMap::new();
+    let mut hours_by_semester: BTreeMap<String, f64> = BTreeMap::new();
+    for r in &rows {
+        for (m, h) in &r.hours_by_month {
+            *hours_by_month.entry(m.clone()).or_default() += h;
+        }
+        for (m, h) in &r.hours_by_semester {
+            *hours_by_semester.entry(m.clone()).or_default() += h;
+        }
+    }
+    let total_hours = rows.iter().map(|r| r.hours).sum::<f64>() + 0.0;
+    // The programme's nights: every target's epochs, a calibration each.
+    let cal_h = settings.instrument().calibration_s_per_night / 3600.0;
+    let mut prog: BTreeMap<NaiveDate, f64> = BTreeMap::new();
+    for r in &rows {
+        for (d, h) in &r.epoch_nights {
+            *prog.entry(*d).or_default() += h;
+        }
+    }
+    let prog_nights: Vec<(NaiveDate, f64)> = prog.into_iter().collect();
+    let loads = night_loads(&prog_nights, cal_h);
+    let calibration_hours = cal_h * prog_nights.len() as f64;
+    let mut semesters: Vec<SemesterInfo> = range_semesters(settings)
+        .into_iter()
+        .map(|(label, from, to)| SemesterInfo {
+            label,
+            from,
+            to,
+            hours: 0.0,
+            hours_expected: 0.0,
+        })
+        .collect();
+    {
+        for ((d, _), l) in prog_nights.iter().zip(&loads) {
+            let label = climate.semester_of(*d).0;
+            if let Some(s) = semesters.iter_mut().find(|s| s.label == label) {
+                s.hours += l.hours;
+                s.hours_expected += weather::expected_hours(std::slice::from_ref(l), &clear);
+            }
+        }
+    }
+    let mut b = Budget {
+        total_hours_with_calibrations: total_hours + calibration_hours,
+        total_hours_expected: weather::expected_hours(&loads, &clear),
+        total_hours_pessimistic: HoursDistribution::new(&loads, &clear).quantile(confidence),
+        overheads: overheads(
+            settings,
+            prog_nights.len(),
+            calibration_hours,
+            exposure_s / 3600.0,
+            visit_s / 3600.0,
+        ),
+        rows,
+        skipped,
+        hours_by_month,
+        hours_by_semester,
+        total_hours,
+        site: site.name.clone(),
+        instrument: settings.instrument().name.clone(),
+        from: settings.from,
+        to: settings.to,
+        weather: WeatherInfo {
+            clear_fraction: clear,
+            source,
+            default_used,
+            confidence,
+        },
+        semesters,
+        allocation: None,
+    };
+    if let Some(a) = &opts.asked {
+        b.allocation = Some(allocation::allocate(settings, &b, a)?);
+    }
+    Ok(b)
+}
+
+/// The budget as Markdown tables ready for a proposal: the targets (with
+/// the share of the hours asked when there is an allocation), the totals,
+/// the semesters and the months.
+pub fn markdown(b: &Budget) -> String {
+    let q = num(b.weather.confidence * 100.0, 0);
+    let alloc = b.allocation.as_ref();
+    let mut s = format!(
+        "| target | method | goal σd/d | achievable σd/d | epochs | exposure / epoch | hours | expected h | {q} % h | verdict |{}\n| --- | --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: | --- |{}\n",
+        if alloc.is_some() {
+            " share h | reaches | status |"
+        } else {
+            ""
+        },
+        if alloc.is_some() {
+            " ---: | ---: | --- |"
+        } else {
+            ""
+        }
+    );
+    // A number without a value is an en dash, as proposals print it.
+    let pct = |x: f64| fixed(x, 1).map_or("–".to_string(), |v| format!("{v} %"));
+    for (i, r) in b.rows.iter().enumerate() {
+        let share = alloc
+            .and_then(|a| a.shares.get(i))
+            .map(|sh| {
+                format!(
+                    " {} | {} | {} |",
+                    num(sh.hours, 1),
+                    pct(sh.reaches_pct),
+                    sh.status.replace('_', " ")
+                )
+            })
+            .unwrap_or_default();
+        s.push_str(&format!(
+            "| {} | {} | {} | {} | {} | {} s | {} | {} | {} | {} |{share}\n",
+            md_cell(&r.target),
+            r.kind.as_str(),
+            pct(r.goal_pct),
+            pct(r.achievable_pct),
+            r.epochs,
+            num(r.exptime_per_epoch_s, 0),
+            num(r.hours, 1),
+            num(r.hours_expected, 1),
+            num(r.hours_pessimistic, 1),
+            md_cell(&r.verdict.text())
+        ));
+    }
+    s.push_str(&format!(
+        "| **total** | | | | | | **{}** | **{}** | **{}** | |{}\n",
+        num(b.total_hours, 1),
+        num(b.rows.iter().map(|r| r.hours_expected).sum::<f64>(), 1),
+        num(b.rows.iter().map(|r| r.hours_pessimistic).sum::<f64>(), 1),
+        alloc
+            .map(|a| format!(
+                " **{}** | | {} of {} goals met |",
+                num(a.shares.iter().map(|s| s.hours).sum::<f64>(), 1),
+                a.goals_met,
+                a.goals_total
+            ))
+            .unwrap_or_default()
+    ));
+    s.push('\n');
+    for l in assumptions(b).iter().chain(totals_lines(b).iter().take(1)) {
+        s.push_str(&format!("{}\n\n", md_cell(l)));
+    }
+    if let Some(a) = alloc {
+        s.push_str(&format!(
+            "Hours asked {}: {} of {} goals met (priority-weighted {} of {}), {} h allocated with {} h of calibrations, {} h left; probability that the weather lets them fit {}.\n\n",
+            md_cell(&asked_words(a)),
+            a.goals_met,
+            a.goals_total,
+            num(a.weight_met, 0),
+            num(a.weight_total, 0),
+            num(a.hours_allocated, 1),
+            num(a.calibration_hours, 1),
+            num(a.hours_left, 1),
+            num(a.probability_all_met, 2)
+        ));
+    }
+    if !b.semesters.is_empty() {
+        s.push_str(
+            "| semester | from | to | hours | expected h |\n| --- | --- | --- | ---: | ---: |\n",
+        );
+        for x in &b.semesters {
+            s.push_str(&format!(
+                "| {} | {} | {} | {} | {} |\n",
+                x.label,
+                x.from,
+                x.to,
+                num(x.hours, 1),
+                num(x.hours_expected, 1)
+            ));
+        }
+    }
+    if !b.hours_by_month.is_empty() {
+        s.push_str("\n| month | hours |\n| --- | ---: |\n");
+        for (k, h) in &b.hours_by_month {
+            s.push_str(&format!("| {k} | {} |\n", num(*h, 1)));
+        }
+    }
+    s
+}
+
+/// The budget as CSV (one row per target; a number without a value is an
+/// empty field). The share columns are empty without hours asked.
+pub fn csv(b: &Budget) -> String {
+    let alloc = b.allocation.as_ref();
+    csv_table(
+        &[
+            "target",
+            "kind",
+            "goal_pct",
+            "achievable_pct",
+            "epochs",
+            "exptime_per_epoch_s",
+            "hours",
+            "verdict",
+            "detail",
+            "priority",
+            "nights",
+            "hours_expected",
+            "hours_pessimistic",
+            "share_status",
+            "share_hours",
+            "share_reaches_pct",
+        ],
+        b.rows.iter().enumerate().map(|(i, r)| {
+            let sh = alloc.and_then(|a| a.shares.get(i));
+            vec![
+                r.target.clone(),
+                r.kind.as_str().to_string(),
+                csv_num(r.goal_pct, 3),
+                csv_num(r.achievable_pct, 3),
+                r.epochs.to_string(),
+                csv_num(r.exptime_per_epoch_s, 1),
+                csv_num(r.hours, 3),
+                r.verdict_label.clone(),
+                r.verdict.text(),
+                csv_num(r.priority, 3),
+                r.nights.to_string(),
+                csv_num(r.hours_expected, 3),
+                csv_num(r.hours_pessimistic, 3),
+                sh.map(|s| s.status.clone()).unwrap_or_default(),
+                sh.map(|s| csv_num(s.hours, 3)).unwrap_or_default(),
+                sh.map(|s| csv_num(s.reaches_pct, 3)).unwrap_or_default(),
+            ]
+        }),
+    )
+}
+
+/// The clear fractions in a few words: their range over the months.
+pub fn clear_words(w: &WeatherInfo) -> String {
+    let lo = w
+        .clear_fraction
+        .iter()
+        .cloned()
+        .fold(f64::INFINITY, f64::min);
+    let hi = w
+        .clear_fraction
+        .iter()
+        .cloned()
+        .fold(f64::NEG_INFINITY, f64::max);
+    if (hi - lo).abs() < 1e-9 {
+        format!("clear fraction {} every month", num(lo, 2))
+    } else {
+        format!("clear fraction {}–{} by month", num(lo, 2), num(hi, 2))
+    }
+}
+
+/// The budget's assumptions in words (weather, overheads): the lines every
+/// text output and the Budget view print above the table.
+pub fn assumptions(b: &Budget) -> Vec<String> {
+    let o = &b.overheads;
+    let filt = o
+        .filter_change_s
+        .map(|f| format!(", filter change {} s", num(f, 0)))
+        .unwrap_or_default();
+    vec![
+        format!(
+            "weather: {} ({}); pessimistic hours at the {} % quantile",
+            clear_words(&b.weather),
+            b.weather.source,
+            num(b.weather.confidence * 100.0, 0)
+        ),
+        format!(
+            "overheads ({}): acquisition {} s a visit, readout {} s an exposure{filt}, calibrations {} s a night on {} nights",
+            o.instrument,
+            num(o.acquisition_s, 0),
+            num(o.readout_s, 0),
+            num(o.calibration_s_per_night, 0),
+            o.calibration_nights
+        ),
+    ]
+}
+
+/// The totals in words: clear, with calibrations, expected, pessimistic, and by semester.
+pub fn totals_lines(b: &Budget) -> Vec<String> {
+    let mut out = vec![format!(
+        "total {} h in clear weather ({} h open shutter, {} h visit overheads); {} h with {} h of calibrations; {} h expected with the weather, {} h at the {} % quantile",
+        num(b.total_hours, 1),
+        num(b.overheads.exposure_hours, 1),
+        num(b.overheads.visit_overhead_hours, 1),
+        num(b.total_hours_with_calibrations, 1),
+        num(b.overheads.calibration_hours, 1),
+        num(b.total_hours_expected, 1),
+        num(b.total_hours_pessimistic, 1),
+        num(b.weather.confidence * 100.0, 0)
+    )];
+    for s in &b.semesters {
+        out.push(format!(
+            "semester {} ({} to {}): {} h clear, {} h expected",
+            s.label,
+            s.from,
+            s.to,
+            num(s.hours, 1),
+            num(s.hours_expected, 1)
+        ));
+    }
+    out
+}
+
+/// The hours asked in words.
+pub fn asked_words(a: &Allocation) -> String {
+    if let Some(n) = a.nights_asked {
+        format!(
+            "{} nights ({} h at {} dark hours a night)",
+            num(n, 1),
+            num(a.hours_asked, 1),
+            num(a.hours_per_night.unwrap_or(f64::NAN), 2)
+        )
+    } else if !a.hours_asked_by_semester.is_empty() {
+        let parts: Vec<String> = a
+            .hours_asked_by_semester
+            .iter()
+            .map(|(k, h)| format!("{k} {} h", num(*h, 1)))
+            .collect();
+        format!("{} h ({})", num(a.hours_asked, 1), parts.join(", "))
+    } else {
+        format!("{} h", num(a.hours_asked, 1))
+    }
+}
+
+/// The allocation in words: the hours asked, each target's share and what it
+/// reaches, the goals met, what is left, and what more hours would buy.
+pub fn allocation_lines(b: &Budget, a: &Allocation) -> Vec<String> {
+    let mut out = vec![format!(
+        "Hours asked: {} (expected weather; the allocation meets the most priority-weighted goals{})",
+        asked_words(a),
+        if a.proven_optimal {
+            ", proven optimal"
+        } else {
+            "; the search stopped before proving it optimal"
+        }
+    )];
+    out.push(format!(
+        "  {:<14} {:>4} {:>6} {:<12} {:>7} {:>9}  why",
+        "target", "prio", "goal %", "status", "share h", "reaches %"
+    ));
+    for s in &a.shares {
+        out.push(format!(
+            "  {:<14} {:>4} {:>6} {:<12} {:>7} {:>9}  {}",
+            s.target,
+            num(s.priority, 0),
+            num(s.goal_pct, 1),
+            s.status,
+            num(s.hours, 1),
+            num(s.reaches_pct, 1),
+            s.why
+        ));
+    }
+    out.push(format!(
+        "  goals met: {} of {} (priority-weighted {} of {}); {} h allocated ({} h of calibrations), {} h left",
+        a.goals_met,
+        a.goals_total,
+        num(a.weight_met, 0),
+        num(a.weight_total, 0),
+        num(a.hours_allocated, 1),
+        num(a.calibration_hours, 1),
+        num(a.hours_left, 1)
+    ));
+    for (k, h) in &a.hours_left_by_semester {
+        out.push(format!(
+            "  semester {k}: {} h allocated of {} h, {} h left",
+            num(
+                a.hours_allocated_by_semester.get(k).copied().unwrap_or(0.0),
+                1
+            ),
+            num(a.hours_asked_by_semester.get(k).copied().unwrap_or(0.0), 1),
+            num(*h, 1)
+        ));
+    }
+    out.push(format!(
+        "  weather: the goals met fit the hours asked with probability {}; at the {} % quantile of each goal's hours {} goals are met (weight {})",
+        num(a.probability_all_met, 2),
+        num(b.weather.confidence * 100.0, 0),
+        a.goals_met_pessimistic,
+        num(a.weight_met_pessimistic, 0)
+    ));
+    match &a.next {
+        Some(n) => out.push(format!(
+            "  more hours: at {} h the best allocation meets {} goals (weight {}), adding {}{}",
+            num(n.hours, 1),
+            n.goals_met,
+            num(n.weight, 0),
+            n.adds.join(", "),
+            if n.drops.is_empty() {
+                String::new()
+            } else {
+                format!(" for {}", n.drops.join(", "))
+            }
+        )),
+        None => out.push("  more hours: no further goal falls in".into()),
+    }
+    let steps: Vec<String> = a
+        .steps
+        .iter()
+        .map(|s| {
+            format!(
+                "{} h → {} ({})",
+                num(s.hours, 1),
+                s.goals_met,
+                num(s.weight, 0)
+            )
+        })
+        .collect();
+    if !steps.is_empty() {
+        out.push(format!(
+            "  goals met (weight) against hours: {}",
+            steps.join(", ")
+        ));
+    }
+    out
+}
