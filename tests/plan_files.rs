@@ -20,6 +20,8 @@ fn plan_for(ts: &[Target]) -> PlanFile {
         instrument: None,
         lost_nights: Default::default(),
         visits: vec![],
+        horizon_to: None,
+        log_seq: 0,
     }
 }
 
@@ -115,6 +117,11 @@ fn replanned_visits_never_reuse_an_id() {
         status,
         cautions: vec![],
         exposures: vec![],
+        ra_deg: None,
+        dec_deg: None,
+        observed: None,
+        seeing_arcsec: None,
+        comment: None,
     };
     let mut p = plan_for(&ts);
     p.visits = vec![

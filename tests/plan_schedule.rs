@@ -158,6 +158,8 @@ fn run(
         goal_pct: None,
         done,
         lost_nights: lost,
+        horizon_to: day(to),
+        not_before: None,
     };
     schedule(&req).unwrap()
 }
@@ -274,6 +276,8 @@ fn hours_beyond_the_night_are_refused() {
         goal_pct: None,
         done: vec![],
         lost_nights: BTreeSet::new(),
+        horizon_to: day("2026-12-03"),
+        not_before: None,
     };
     let e = schedule(&req).unwrap_err().to_string();
     assert!(

@@ -39,9 +39,12 @@ pub struct PlanArgs {
     /// Mark a visit as lost by id (repeatable).
     #[arg(long)]
     pub lost: Vec<String>,
-    /// Place again everything that is not done (keeps done visits, skips lost nights).
+    /// Place again everything that is not done (keeps done visits, skips lost nights, places nothing before the clock: RUNG_NOW or now).
     #[arg(long)]
     pub replan: bool,
+    /// Last night the methods plan for, YYYY-MM-DD (default: --to, or 36 months after --from when that is later; their epochs after --to are counted in the outcomes as planned).
+    #[arg(long)]
+    pub horizon_to: Option<String>,
     /// Save the plan to this file (atomic; with --load the default is the loaded file, with a .bak of the old one).
     #[arg(long)]
     pub save: Option<PathBuf>,
@@ -109,35 +112,40 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
     }
     let st = super::settings(choices, Some(&targets_path), &[])?;
 
-    let mut outcomes = None;
+    let horizon = a
+        .horizon_to
+        .as_deref()
+        .map(parse_date)
+        .transpose()
+        .context("--horizon-to")?;
+    let mut sched: Option<schedule::Schedule> = None;
     let mut p = match plan.take() {
         Some(p) => p,
         None => {
             let hours = a.hours_per_night.context("give --hours-per-night H")?;
-            let s = schedule::schedule(&Request::programme(&st, &targets, hours))?;
+            let mut req = Request::programme(&st, &targets, hours);
+            if let Some(h) = horizon {
+                req.horizon_to = h;
+            }
+            let s = schedule::schedule(&req)?;
             report_unplaced(&s);
-            outcomes = Some(s.outcomes);
-            PlanFile::new(
+            let mut p = PlanFile::new(
                 &st,
                 &targets,
                 targets_path.display().to_string(),
                 hours,
-                s.visits,
-            )
+                s.visits.clone(),
+            );
+            p.horizon_to = Some(s.horizon_to);
+            sched = Some(s);
+            p
         }
     };
     let site = st.site.clone();
     let mut changed = a.load.is_none();
     for n in &a.lost_night {
         let d = parse_date(n).context("--lost-night")?;
-        p.lost_nights.insert(d);
-        for v in p
-            .visits
-            .iter_mut()
-            .filter(|v| v.night == d && v.status == Status::Planned)
-        {
-            v.status = Status::Lost;
-        }
+        p.lose_night(d);
         changed = true;
     }
     if !a.done.is_empty() {
@@ -149,24 +157,10 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
         changed = true;
     }
     if a.replan {
-        let hours = a.hours_per_night.unwrap_or(p.hours_per_night);
-        let done: Vec<_> = p
-            .visits
-            .iter()
-            .filter(|v| v.status == Status::Done)
-            .cloned()
-            .collect();
-        let req = Request {
-            done,
-            lost_nights: p.lost_nights.clone(),
-            ..Request::programme(&st, &targets, hours)
-        };
-        let s = schedule::schedule(&req)?;
+        let s = p.replan(&st, &targets, super::now()?, a.hours_per_night, horizon)?;
         report_unplaced(&s);
-        p.replace_visits(s.visits.clone());
-        p.hours_per_night = hours;
         changed = true;
-        outcomes = Some(s.outcomes);
+        sched = Some(s);
     }
     let save_to = a
         .save
@@ -201,30 +195,33 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
     if a.json {
         let v = serde_json::json!({
             "plan": &p,
-            "outcomes": outcomes,
+            "outcomes": sched.as_ref().map(|s| &s.outcomes),
+            "unplaced": sched.as_ref().map(|s| &s.unplaced),
+            "nights": sched.as_ref().map(|s| &s.nights),
+            "horizon_to": sched.as_ref().map(|s| s.horizon_to),
             "settings": st.to_json(),
         });
         super::print_json(&v)?;
         return Ok(());
     }
-    print_plan(&p, &site, outcomes.as_deref());
+    print_plan(&p, &site, sched.as_ref());
     Ok(())
 }
 
 fn report_unplaced(s: &schedule::Schedule) {
     if !s.unplaced.is_empty() {
         eprintln!(
-            "rung: note: {} requested epochs found no place (see --json 'unplaced' via the library)",
+            "rung: note: {} requested epochs found no place (listed with the reason under 'unplaced' in --json)",
             s.unplaced.len()
         );
     }
 }
 
-fn print_plan(
-    p: &PlanFile,
-    site: &rung::astro::site::Site,
-    outcomes: Option<&[schedule::Outcome]>,
-) {
+fn print_plan(p: &PlanFile, site: &rung::astro::site::Site, sched: Option<&schedule::Schedule>) {
+    let outcomes = sched.map(|s| s.outcomes.as_slice());
+    let uses: std::collections::HashMap<_, _> = sched
+        .map(|s| s.nights.iter().map(|n| (n.night, n)).collect())
+        .unwrap_or_default();
     super::outln!(
         "Plan {} to {} at {} ({:.1} h per night, above {:.0}°, Sun below {:.0}°): {} visits",
         p.from,
@@ -244,19 +241,43 @@ fn print_plan(
             } else {
                 ""
             };
-            super::outln!("  night {}{lost}", v.night);
+            let used = uses
+                .get(&v.night)
+                .map(|n| {
+                    format!(
+                        "  {:.1} of {:.1} h used ({:.0} %)",
+                        n.used_hours,
+                        n.capacity_hours,
+                        100.0 * n.used_fraction
+                    )
+                })
+                .unwrap_or_default();
+            super::outln!("  night {}{lost}{used}", v.night);
         }
         super::outln!(
-            "    {} UTC / {} local  {:<14} {:<9} {:>2}×{:>5.0} s  X={:.2}  {:<7} {}",
+            "    {} UTC / {} local  {:<16} {:<9} {:<5} {:>2}×{:>5.0} s  X={:.2}  {:<7} {}",
             super::utc_hm(Some(v.start)),
             super::local_hm(Some(v.start), site),
-            v.target,
+            v.id,
             v.kind.as_str(),
+            export::bands(v),
             v.n_exposures,
             v.exptime_s / v.n_exposures.max(1) as f64,
             v.airmass,
             format!("{:?}", v.status).to_lowercase(),
             v.cautions.first().map(|c| c.as_str()).unwrap_or("")
+        );
+    }
+    if let Some(s) = sched {
+        let (used, cap): (f64, f64) = s.nights.iter().fold((0.0, 0.0), |a, n| {
+            (a.0 + n.used_hours, a.1 + n.capacity_hours)
+        });
+        super::outln!(
+            "  {:.1} of {:.1} telescope hours used ({:.0} %); the methods plan to {}; ids (NAME#N) are what --done and --lost take",
+            used,
+            cap,
+            if cap > 0.0 { 100.0 * used / cap } else { 0.0 },
+            s.horizon_to
         );
     }
     if let Some(os) = outcomes {
@@ -271,11 +292,7 @@ fn print_plan(
             "goal %"
         );
         for o in os {
-            let got = o
-                .prediction
-                .as_ref()
-                .map(|p| p.distance_precision_pct)
-                .filter(|x| x.is_finite());
+            let got = o.distance_precision_pct;
             super::outln!(
                 "  {:<14} {:<9} {:>7} {:>5} {:>8} {:>8}  {}",
                 o.target,

@@ -345,6 +345,12 @@ pub struct Prediction {
     pub error_terms: Vec<ErrorTerm>,
 }
 
+/// The spacing the scheduler keeps between two visits of one target unless
+/// the method says otherwise ([`Method::min_spacing_s`]): 12 hours, one visit
+/// a night (common practice: a second visit in the same night repeats the
+/// same epoch).
+pub const DEFAULT_SPACING_S: f64 = 12.0 * 3600.0;
+
 /// The face every distance method shows.
 pub trait Method: Send + Sync {
     /// Which targets this method serves.
@@ -355,6 +361,14 @@ pub trait Method: Send + Sync {
     fn predict(&self, s: &Setting, em: &dyn ExposureModel, epochs: &[Epoch]) -> Result<Prediction>;
     /// The epochs and hours that reach `goal_pct`, or why they cannot.
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction>;
+    /// The least time between two visits of one target that the method
+    /// counts as two epochs, seconds. The scheduler keeps visits of a target
+    /// at least this far apart, or as far apart as the method's own epochs
+    /// when it asks for them closer. Default: [`DEFAULT_SPACING_S`], one
+    /// visit a night.
+    fn min_spacing_s(&self) -> f64 {
+        DEFAULT_SPACING_S
+    }
     /// The distance goal (percent) the method plans for when neither the
     /// target nor its programme gives one.
     fn default_goal_pct(&self) -> Option<f64> {

@@ -27,6 +27,15 @@ pub fn visits_csv(visits: &[Visit], site: &Site) -> String {
             "airmass",
             "status",
             "cautions",
+            "ra_deg",
+            "dec_deg",
+            "ra_hms",
+            "dec_dms",
+            "bands",
+            "exptime_per_frame_s",
+            "observed_utc",
+            "seeing_arcsec",
+            "comment",
         ],
         visits.iter().map(|v| {
             vec![
@@ -44,9 +53,89 @@ pub fn visits_csv(visits: &[Visit], site: &Site) -> String {
                 csv_num(v.airmass, 3),
                 status_str(v.status).to_string(),
                 v.cautions.join(" | "),
+                csv_num(v.ra_deg, 6),
+                csv_num(v.dec_deg, 6),
+                v.ra_deg.map(ra_hms).unwrap_or_default(),
+                v.dec_deg.map(dec_dms).unwrap_or_default(),
+                bands(v),
+                csv_num(per_frame_s(v), 1),
+                v.observed.map(|t| t.iso()).unwrap_or_default(),
+                csv_num(v.seeing_arcsec, 2),
+                v.comment.clone().unwrap_or_default(),
             ]
         }),
     )
+}
+
+/// Right ascension as hours, minutes and seconds to 0.1 s (`05:34:31.9`).
+pub fn ra_hms(ra_deg: f64) -> String {
+    let t = (ra_deg.rem_euclid(360.0) / 15.0 * 36_000.0).round() as i64 % 864_000;
+    format!(
+        "{:02}:{:02}:{:02}.{}",
+        t / 36_000,
+        t / 600 % 60,
+        t / 10 % 60,
+        t % 10
+    )
+}
+
+/// Declination as signed degrees, arcminutes and arcseconds to 1″ (`-22:00:52`).
+pub fn dec_dms(dec_deg: f64) -> String {
+    let sign = if dec_deg < 0.0 { '-' } else { '+' };
+    let t = (dec_deg.abs() * 3600.0).round() as i64;
+    format!("{sign}{:02}:{:02}:{:02}", t / 3600, t / 60 % 60, t % 60)
+}
+
+/// The bands of a visit in the order taken (`BVR`), or `-` when the plan
+/// file did not record them.
+pub fn bands(v: &Visit) -> String {
+    if v.exposures.is_empty() {
+        return "-".into();
+    }
+    v.exposures
+        .iter()
+        .map(|b| b.band.as_str())
+        .collect::<Vec<_>>()
+        .join(" ")
+}
+
+/// The exposure of one frame of the visit's primary band, seconds.
+pub fn per_frame_s(v: &Visit) -> f64 {
+    match v.exposures.first() {
+        Some(b) => b.exptime_s / b.n_exposures.max(1) as f64,
+        None => v.exptime_s / v.n_exposures.max(1) as f64,
+    }
+}
+
+/// What to take, band by band: `B 3 × 30 s, V 3 × 20 s` (or the totals
+/// when the bands were not recorded).
+pub fn exposure_text(v: &Visit) -> String {
+    if v.exposures.is_empty() {
+        return format!(
+            "{} × {} s",
+            v.n_exposures,
+            num(v.exptime_s / v.n_exposures.max(1) as f64, 0)
+        );
+    }
+    v.exposures
+        .iter()
+        .map(|b| {
+            format!(
+                "{} {} × {} s",
+                b.band,
+                b.n_exposures,
+                num(b.exptime_s / b.n_exposures.max(1) as f64, 0)
+            )
+        })
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+fn place_text(v: &Visit) -> String {
+    match (v.ra_deg, v.dec_deg) {
+        (Some(r), Some(d)) => format!("{} {}", ra_hms(r), dec_dms(d)),
+        _ => "-".into(),
+    }
 }
 
 fn status_str(s: Status) -> &'static str {
@@ -254,16 +343,18 @@ pub fn ics(visits: &[Visit], site: &Site, stamp: Instant) -> String {
         s.push_str(&fold(&format!(
             "SUMMARY:{}",
             ics_text(&format!(
-                "{} ({}) {:.0} s",
+                "{} ({}) {:.0} s [{}]",
                 v.target,
                 v.kind.as_str(),
-                v.exptime_s
+                v.exptime_s,
+                v.id
             ))
         )));
         let mut d = format!(
-            "{} x {:.0} s, SNR {:.0}, airmass {:.2}, {} (UTC {} to {}).",
-            v.n_exposures,
-            v.exptime_s / v.n_exposures.max(1) as f64,
+            "Visit {}. RA/Dec (ICRS) {}. {}; SNR {:.0}, airmass {:.2}, {} (UTC {} to {}).",
+            v.id,
+            place_text(v),
+            exposure_text(v),
             v.snr,
             v.airmass,
             status_str(v.status),
@@ -293,21 +384,23 @@ pub fn night_sheet(visits: &[Visit], site: &Site, night: NaiveDate, header: &str
     let tz = &site.timezone;
     let mut s = format!("# Night sheet {night} at {}\n\n{header}\n\n", site.name);
     s.push_str(&format!("Times are UTC and local ({}).\n\n", tz.name()));
-    s.push_str("| start UTC | start local | end local | target | kind | exposure | SNR | airmass | status | cautions |\n");
-    s.push_str("| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |\n");
+    s.push_str("| start UTC | start local | end local | visit | target | kind | RA (ICRS) | Dec (ICRS) | exposure (band frames × s) | SNR | airmass | status | cautions |\n");
+    s.push_str("| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |\n");
     let mut any = false;
     for v in visits.iter().filter(|v| v.night == night) {
         any = true;
         let hm = |t: Instant| t.round_to_second().local(tz).format("%H:%M:%S").to_string();
         s.push_str(&format!(
-            "| {} | {} | {} | {} | {} | {} × {} s | {} | {} | {} | {} |\n",
+            "| {} | {} | {} | {} | {} | {} | {} | {} | {} | {} | {} | {} | {} |\n",
             v.start.round_to_second().to_datetime().format("%H:%M:%S"),
             hm(v.start),
             hm(v.end),
+            md_cell(&v.id),
             md_cell(&v.target),
             v.kind.as_str(),
-            v.n_exposures,
-            num(v.exptime_s / v.n_exposures.max(1) as f64, 0),
+            v.ra_deg.map(ra_hms).unwrap_or_else(|| "–".into()),
+            v.dec_deg.map(dec_dms).unwrap_or_else(|| "–".into()),
+            md_cell(&exposure_text(v)),
             num(v.snr, 0),
             num(v.airmass, 2),
             status_str(v.status),
@@ -315,7 +408,7 @@ pub fn night_sheet(visits: &[Visit], site: &Site, night: NaiveDate, header: &str
         ));
     }
     if !any {
-        s.push_str("| – | – | – | no visits this night | | | | | | |\n");
+        s.push_str("| – | – | – | – | no visits this night | | | | | | | | |\n");
     }
     if visits
         .iter()

@@ -45,6 +45,18 @@ pub struct PlanFile {
     pub lost_nights: BTreeSet<NaiveDate>,
     /// The visits.
     pub visits: Vec<Visit>,
+    /// The last night the methods planned for (absent in older plan files: `to`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub horizon_to: Option<NaiveDate>,
+    /// How many events of the plan's observing log (`plan::log`) this file
+    /// holds; a later event found in the log is applied when the plan is
+    /// opened (absent in older plan files: 0).
+    #[serde(default, skip_serializing_if = "is_zero")]
+    pub log_seq: u64,
+}
+
+fn is_zero(n: &u64) -> bool {
+    *n == 0
 }
 
 impl PlanFile {
@@ -70,6 +82,8 @@ impl PlanFile {
             instrument: Some(settings.instrument().name.clone()),
             lost_nights: BTreeSet::new(),
             visits,
+            horizon_to: None,
+            log_seq: 0,
         }
     }
 
@@ -158,6 +172,62 @@ impl PlanFile {
                 .unwrap_or(std::cmp::Ordering::Equal)
         });
         self.visits = out;
+    }
+
+    /// Re-plan at the clock `now`: planned visits that have begun without
+    /// being marked done are marked lost (kept for the record, their ids
+    /// never reused), then everything not done is placed again from `now`
+    /// on (done visits kept, lost nights skipped) with `settings` (the
+    /// plan's own site, range, limits and instrument) and the plan's hours a
+    /// night unless `hours` is given. Returns the new schedule.
+    pub fn replan(
+        &mut self,
+        settings: &Settings,
+        targets: &[Target],
+        now: crate::astro::time::Instant,
+        hours: Option<f64>,
+        horizon_to: Option<NaiveDate>,
+    ) -> Result<crate::plan::schedule::Schedule> {
+        use crate::plan::schedule::{Request, schedule};
+        let hours = hours.unwrap_or(self.hours_per_night);
+        for v in self.visits.iter_mut() {
+            if v.status == Status::Planned && v.start < now {
+                v.status = Status::Lost;
+            }
+        }
+        let done: Vec<Visit> = self
+            .visits
+            .iter()
+            .filter(|v| v.status == Status::Done)
+            .cloned()
+            .collect();
+        let mut req = Request {
+            done,
+            lost_nights: self.lost_nights.clone(),
+            not_before: Some(now),
+            ..Request::programme(settings, targets, hours)
+        };
+        if let Some(h) = horizon_to.or(self.horizon_to) {
+            req.horizon_to = h;
+        }
+        let s = schedule(&req)?;
+        self.replace_visits(s.visits.clone());
+        self.hours_per_night = hours;
+        self.horizon_to = Some(s.horizon_to);
+        Ok(s)
+    }
+
+    /// Mark a night lost: its planned visits become lost and a re-plan
+    /// places nothing on it.
+    pub fn lose_night(&mut self, night: NaiveDate) {
+        self.lost_nights.insert(night);
+        for v in self
+            .visits
+            .iter_mut()
+            .filter(|v| v.night == night && v.status == Status::Planned)
+        {
+            v.status = Status::Lost;
+        }
     }
 
     /// The plan as pretty JSON text.

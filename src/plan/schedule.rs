@@ -6,23 +6,37 @@
 //! 1. Each night of the range gets a capacity: the lesser of `hours_per_night`
 //!    and its dark time (Sun below the limit); a night marked lost gets none.
 //!    Visits marked done in an earlier plan are kept as they are and occupy
-//!    their time first.
+//!    their time first. Nothing is placed before `not_before` (a re-plan
+//!    during the night places only what is still ahead).
 //! 2. Each target's method gives the epochs its distance goal takes
 //!    (`Method::goal`, the goal from `ladder::goal_for`: the budget's epochs),
-//!    or, for a target without a goal, its own proposal (`Method::propose`). A done visit
-//!    of the target absorbs the proposed epoch nearest to it.
-//! 3. Requests are taken in order of target priority (high first), then
-//!    preferred time, then target name.
-//! 4. A request is placed on its own night if it can be, else on the nearest
-//!    night within its kind's flexibility (parallax ±10 nights, pulsator and
-//!    transient ±1), earlier night first on ties. On a night, its preferred time
-//!    is moved by whole sidereal days (so the hour angle is kept) and the visit
-//!    starts as close to that as the target's window, the visits already placed
-//!    and the night's capacity allow.
-//! 5. Requests that fit nowhere are listed as unplaced with the reason.
+//!    or, for a target without a goal, its own proposal (`Method::propose`),
+//!    over the range extended to the horizon ([`default_horizon`]): epochs
+//!    after the range's last night are counted as planned in the outcomes
+//!    (`Outcome::later`), so a plan of two weeks is a slice of a programme.
+//!    A done visit of the target absorbs the proposed epoch nearest to it.
+//! 3. Visits that would not buy precision are not planned: a target whose
+//!    goal verdict is "not observable" (a supernova peak that cannot be
+//!    sampled, a parallax factor too small) gets none, and a transient's
+//!    visits stay between its method's first and last epochs (its useful
+//!    window).
+//! 4. Two visits of one target keep the method's spacing
+//!    (`Method::min_spacing_s`, one visit a night by default) between their
+//!    mid-times, or the method's own epochs' closest separation when it asks
+//!    for them closer.
+//! 5. Every wanted epoch is a group of alternatives: its own night, then the
+//!    nearest nights within its kind's flexibility (parallax ±10 nights,
+//!    pulsator and transient ±1), earlier night first on ties; on each night
+//!    its preferred time is moved by whole sidereal days (so the hour angle is
+//!    kept). The packing core ([`crate::plan::pack`]) places the groups by
+//!    priority, each at the feasible start nearest its preferred time, then
+//!    moves placed visits inside their windows to open room for the rest.
+//! 6. Epochs that fit nowhere are listed as unplaced with the reason.
 //!
 //! Each visit includes its overheads (`Epoch::visit_s`), so consecutive visits
-//! leave room for slews and readouts.
+//! leave room for slews and readouts. A printed precision is finite and at
+//! most 100 % ([`shown_precision`]); beyond, the visits give no distance and
+//! the outcome says so.
 
 use crate::astro::airmass::kasten_young;
 use crate::astro::night::{Limits, Night};
@@ -31,7 +45,9 @@ use crate::astro::sun_caution_at;
 use crate::astro::time::Instant;
 use crate::error::{Result, RungError};
 use crate::io::targets::{Kind, Target};
-use crate::ladder::{Epoch, ExposureModel, MethodSet, Prediction, Setting, goal_for, with_goal};
+use crate::ladder::{
+    DEFAULT_SPACING_S, Epoch, ExposureModel, MethodSet, Prediction, Setting, goal_for, with_goal,
+};
 use crate::programme::Settings;
 use chrono::NaiveDate;
 use serde::{Deserialize, Serialize};
@@ -85,6 +101,21 @@ pub struct Visit {
     /// written before bands were recorded).
     #[serde(default)]
     pub exposures: Vec<crate::ladder::BandExposure>,
+    /// The target's right ascension, ICRS degrees (absent in older plan files).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub ra_deg: Option<f64>,
+    /// The target's declination, ICRS degrees (absent in older plan files).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub dec_deg: Option<f64>,
+    /// When a done visit was observed (UTC), as the observer marked it.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub observed: Option<Instant>,
+    /// Seeing FWHM the observer noted, arcseconds.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub seeing_arcsec: Option<f64>,
+    /// The observer's comment.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub comment: Option<String>,
 }
 
 impl Visit {
@@ -132,6 +163,13 @@ pub struct Request<'a> {
     pub done: Vec<Visit>,
     /// Nights on which nothing can be placed.
     pub lost_nights: BTreeSet<NaiveDate>,
+    /// The last night the methods plan for (at least `to`; see
+    /// [`default_horizon`]): their epochs after `to` count as planned in
+    /// the outcomes.
+    pub horizon_to: NaiveDate,
+    /// No visit is placed before this instant (a re-plan during the night
+    /// places only what is still ahead).
+    pub not_before: Option<Instant>,
 }
 
 impl<'a> Request<'a> {
@@ -151,6 +189,8 @@ impl<'a> Request<'a> {
             goal_pct: settings.goal_pct,
             done: vec![],
             lost_nights: BTreeSet::new(),
+            horizon_to: default_horizon(settings.from, settings.to),
+            not_before: None,
         }
     }
 }
@@ -181,8 +221,14 @@ pub struct Outcome {
     pub done: usize,
     /// Epochs the method asked for.
     pub requested: usize,
+    /// The method's epochs after the plan's last night, up to the horizon,
+    /// counted in the prediction as planned.
+    pub later: usize,
     /// The method's prediction for the placed and done visits, when there are any.
     pub prediction: Option<Prediction>,
+    /// The predicted σd/d to print, percent: the prediction's when it is
+    /// finite and at most 100 %, else `None` (the visits give no distance).
+    pub distance_precision_pct: Option<f64>,
     /// Whether the goal is met by the placed and done visits.
     pub meets_goal: Option<bool>,
     /// The verdict of what the goal takes (the budget's, from the same
@@ -200,7 +246,7 @@ impl Outcome {
     pub fn verdict(&self) -> Option<&crate::ladder::Verdict> {
         self.goal_pct?;
         match (&self.goal_verdict, &self.prediction) {
-            (Some(v), _) if self.planned + self.done >= self.requested => Some(v),
+            (Some(v), _) if self.planned + self.done + self.later >= self.requested => Some(v),
             (_, Some(p)) => Some(&p.verdict),
             (v, None) => v.as_ref(),
         }
@@ -218,6 +264,8 @@ pub struct NightUse {
     pub capacity_hours: f64,
     /// Hours placed.
     pub used_hours: f64,
+    /// `used_hours` / `capacity_hours` (0 when the night has no capacity).
+    pub used_fraction: f64,
     /// Whether the night is lost.
     pub lost: bool,
 }
@@ -233,6 +281,8 @@ pub struct Schedule {
     pub unplaced: Vec<Unplaced>,
     /// Per-night use.
     pub nights: Vec<NightUse>,
+    /// The last night the methods planned for.
+    pub horizon_to: NaiveDate,
 }
 
 fn flex_nights(kind: Kind) -> i64 {
@@ -268,7 +318,6 @@ struct NightSlot {
     dark: Vec<(Instant, Instant)>,
     capacity_s: f64,
     used_s: f64,
-    busy: Vec<(Instant, Instant)>,
     lost: bool,
 }
 
@@ -276,8 +325,26 @@ fn overlaps(a: (Instant, Instant), b: (Instant, Instant)) -> bool {
     a.0 < b.1 && b.0 < a.1
 }
 
+/// The last night the methods plan for when a plan asks for `from`..`to`:
+/// `to`, or the default programme range
+/// ([`crate::programme::DEFAULT_RANGE_MONTHS`] from `from`, less a day) when
+/// that is later. A plan of two weeks is then a slice of a programme long
+/// enough for a parallax: the methods' epochs that fall in the two weeks are
+/// placed, and the later ones are counted as planned for the outcomes.
+pub fn default_horizon(from: NaiveDate, to: NaiveDate) -> NaiveDate {
+    from.checked_add_months(chrono::Months::new(crate::programme::DEFAULT_RANGE_MONTHS))
+        .and_then(|d| d.pred_opt())
+        .map_or(to, |d| d.max(to))
+}
+
+/// Shortest spacing the scheduler ever keeps between two visits of one
+/// target when the method's own epochs are closer (a method asking for two
+/// visits at once gets them one after the other), seconds.
+const MIN_SPACING_S: f64 = 0.0;
+
 /// Build a schedule by the rule in the module documentation.
 pub fn schedule(req: &Request) -> Result<Schedule> {
+    use crate::plan::pack::{self, Fixed, Item, Problem};
     if !req.hours_per_night.is_finite() || req.hours_per_night <= 0.0 || req.hours_per_night > 24.0
     {
         return Err(RungError::invalid(
@@ -285,6 +352,8 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
             format!("{} is not within (0, 24] hours", req.hours_per_night),
         ));
     }
+    let horizon_to = req.horizon_to.max(req.to);
+    dates(req.from, horizon_to)?;
     let days = dates(req.from, req.to)?;
     let mut slots = Vec::with_capacity(days.len());
     for night in Night::shared_range(req.site, req.from, req.to)? {
@@ -298,7 +367,6 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                 dark_s.min(req.hours_per_night * 3600.0)
             },
             used_s: 0.0,
-            busy: Vec::new(),
             dark,
             night,
             lost,
@@ -325,31 +393,42 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
     let spans: Vec<(Instant, Instant)> =
         slots.iter().map(|s| (s.night.start, s.night.end)).collect();
     let night_of = |t: Instant| -> Option<usize> { spans.iter().position(|s| t >= s.0 && t < s.1) };
+    // Times inside the packer: seconds from the first night's start.
+    let origin = slots[0].night.start;
+    let secs = |t: Instant| t.seconds_since(&origin);
+    let not_before_s = req.not_before.map(|t| secs(t).ceil());
+    let by_name: HashMap<&str, usize> = req
+        .targets
+        .iter()
+        .enumerate()
+        .map(|(i, t)| (t.name.as_str(), i))
+        .collect();
 
-    // Done visits first.
+    // Done visits first: they keep their time.
     let mut visits: Vec<Visit> = Vec::new();
+    let mut fixed: Vec<Fixed> = Vec::new();
     for v in &req.done {
         if let Some(&i) = index.get(&v.night) {
-            slots[i].busy.push((v.start, v.end));
             slots[i].used_s += v.end.seconds_since(&v.start);
+            fixed.push(Fixed {
+                // A done visit of a target no longer listed still occupies its time.
+                target: by_name
+                    .get(v.target.as_str())
+                    .copied()
+                    .unwrap_or(req.targets.len()),
+                night: i,
+                start_s: secs(v.start),
+                end_s: secs(v.end),
+            });
         }
         let mut v = v.clone();
         v.status = Status::Done;
         visits.push(v);
     }
 
-    // Requests from the methods.
-    struct Req {
-        target: usize,
-        priority: f64,
-        epoch: Epoch,
-    }
-    let mut reqs: Vec<Req> = Vec::new();
-    let mut requested: HashMap<usize, usize> = HashMap::new();
-    let mut method_notes: HashMap<usize, Vec<String>> = HashMap::new();
-    let mut goal_verdicts: HashMap<usize, crate::ladder::Verdict> = HashMap::new();
-    // Every target's proposal, in parallel (each method call is independent),
-    // then taken in target order so the result does not depend on threads.
+    // Every target's proposal over the horizon, in parallel (each method
+    // call is independent), then taken in target order so the result does
+    // not depend on threads.
     type Proposal = (Vec<Epoch>, Option<crate::ladder::Verdict>);
     let proposals: Vec<Option<Result<Proposal>>> = {
         use rayon::prelude::*;
@@ -363,7 +442,7 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                     site: req.site,
                     target: &judged,
                     from: req.from,
-                    to: req.to,
+                    to: horizon_to,
                     limits: req.limits,
                 };
                 // A target with a goal asks for the epochs its goal takes (the
@@ -377,17 +456,29 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
             })
             .collect()
     };
+
+    let mut requested: HashMap<usize, usize> = HashMap::new();
+    let mut method_notes: HashMap<usize, Vec<String>> = HashMap::new();
+    let mut goal_verdicts: HashMap<usize, crate::ladder::Verdict> = HashMap::new();
+    let mut later: HashMap<usize, Vec<Epoch>> = HashMap::new();
+    let mut spacing_s = vec![0.0; req.targets.len() + 1];
+    let mut problem = Problem {
+        capacity_s: slots.iter().map(|s| s.capacity_s).collect(),
+        spacing_s: Vec::new(),
+        items: Vec::new(),
+        fixed,
+    };
+    // Per group: the target and the epoch it stands for.
+    let mut groups: Vec<(usize, Epoch, i64)> = Vec::new();
+    let mut unplaced = Vec::new();
+    let mut windows_cache: HashMap<(usize, usize), Vec<(Instant, Instant)>> = HashMap::new();
     for ((ti, t), proposal) in req.targets.iter().enumerate().zip(proposals) {
         let Some(proposal) = proposal else {
             continue;
         };
-        let mut epochs = match proposal {
-            Ok((e, v)) => {
-                if let Some(v) = v {
-                    goal_verdicts.insert(ti, v);
-                }
-                e
-            }
+        let m = req.methods.for_kind(t.kind);
+        let (mut epochs, verdict) = match proposal {
+            Ok(x) => x,
             Err(e) => {
                 method_notes
                     .entry(ti)
@@ -396,7 +487,37 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                 continue;
             }
         };
+        epochs.sort_by(|a, b| {
+            a.time
+                .partial_cmp(&b.time)
+                .unwrap_or(std::cmp::Ordering::Equal)
+        });
         requested.insert(ti, epochs.len());
+        // The method's spacing, or its own epochs' closest separation when
+        // it asks for them closer.
+        let own_gap = epochs
+            .windows(2)
+            .map(|w| w[1].time.seconds_since(&w[0].time))
+            .fold(f64::INFINITY, f64::min);
+        spacing_s[ti] = m
+            .map_or(DEFAULT_SPACING_S, |m| m.min_spacing_s())
+            .min(own_gap)
+            .max(MIN_SPACING_S);
+        if let Some(v) = &verdict {
+            goal_verdicts.insert(ti, v.clone());
+            // Visits that cannot give a distance (a peak that cannot be
+            // sampled, a target that is not observable enough) are not
+            // planned: they would not buy precision.
+            if matches!(v, crate::ladder::Verdict::NotObservable { .. }) && !epochs.is_empty() {
+                method_notes.entry(ti).or_default().push(format!(
+                    "{} visits not planned: they cannot give a distance ({})",
+                    epochs.len(),
+                    v.text()
+                ));
+                requested.insert(ti, 0);
+                continue;
+            }
+        }
         // Each done visit absorbs the nearest proposed epoch.
         for d in req.done.iter().filter(|d| d.target == t.name) {
             if let Some((k, _)) = epochs.iter().enumerate().min_by(|a, b| {
@@ -407,119 +528,168 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                 epochs.remove(k);
             }
         }
-        for e in epochs {
-            reqs.push(Req {
-                target: ti,
-                priority: t.priority,
-                epoch: e,
-            });
-        }
-    }
-    reqs.sort_by(|a, b| {
-        b.priority
-            .partial_cmp(&a.priority)
-            .unwrap_or(std::cmp::Ordering::Equal)
-            .then(
-                a.epoch
-                    .time
-                    .partial_cmp(&b.epoch.time)
-                    .unwrap_or(std::cmp::Ordering::Equal),
-            )
-            .then(req.targets[a.target].name.cmp(&req.targets[b.target].name))
-    });
-
-    let mut windows_cache: HashMap<(usize, usize), Vec<(Instant, Instant)>> = HashMap::new();
-    let mut unplaced = Vec::new();
-    let mut counter: BTreeMap<String, usize> = BTreeMap::new();
-    for v in &visits {
-        *counter.entry(v.target.clone()).or_default() += 1;
-    }
-    for r in &reqs {
-        let t = &req.targets[r.target];
+        // A transient's visits stay inside the nights its method asked for
+        // (its useful window): never before the first, never after the last.
+        let useful = (t.kind == Kind::Transient).then(|| {
+            let f = epochs.first().and_then(|e| night_of(e.time));
+            let l = epochs.last().and_then(|e| night_of(e.time));
+            (f, l)
+        });
+        let end_s = secs(slots[slots.len() - 1].night.end);
         let place = t.place();
-        let dur = r.epoch.visit_s.max(1.0).round();
-        let home = night_of(r.epoch.time);
-        let Some(home) = home else {
-            unplaced.push(Unplaced {
-                target: t.name.clone(),
-                preferred: r.epoch.time,
-                reason: "preferred time is outside the range".into(),
-            });
-            continue;
-        };
-        let flex = flex_nights(t.kind);
-        let mut order: Vec<i64> = vec![0];
-        for k in 1..=flex {
-            order.push(-k);
-            order.push(k);
+        for e in epochs {
+            let Some(home) = night_of(e.time) else {
+                if secs(e.time) >= end_s {
+                    later.entry(ti).or_default().push(e);
+                } else {
+                    unplaced.push(Unplaced {
+                        target: t.name.clone(),
+                        preferred: e.time,
+                        reason: "preferred time is outside the range".into(),
+                    });
+                }
+                continue;
+            };
+            let g = groups.len();
+            let dur = e.visit_s.max(1.0).round();
+            let flex = flex_nights(t.kind);
+            let mut order: Vec<i64> = vec![0];
+            for k in 1..=flex {
+                order.push(-k);
+                order.push(k);
+            }
+            for (rank, k) in order.into_iter().enumerate() {
+                let ni = home as i64 + k;
+                if ni < 0 || ni as usize >= slots.len() {
+                    continue;
+                }
+                let ni = ni as usize;
+                if let Some((f, l)) = useful
+                    && (f.is_some_and(|f| ni < f) || l.is_some_and(|l| ni > l))
+                {
+                    continue;
+                }
+                if slots[ni].lost || slots[ni].capacity_s < dur {
+                    continue;
+                }
+                let wins = windows_cache
+                    .entry((ti, ni))
+                    .or_insert_with(|| slots[ni].night.windows(&place, &req.limits).windows)
+                    .clone();
+                let windows: Vec<(f64, f64)> = wins
+                    .iter()
+                    .map(|(a, b)| {
+                        let a = (secs(*a) + 1.0).ceil();
+                        let a = not_before_s.map_or(a, |n| a.max(n));
+                        (a, (secs(*b) - 1.0).floor())
+                    })
+                    .filter(|(a, b)| b - a >= dur)
+                    .collect();
+                if windows.is_empty() {
+                    continue;
+                }
+                // Preferred time moved by whole sidereal days onto this night.
+                let pref = (secs(e.time) + k as f64 * SIDEREAL_DAY_S - dur / 2.0).round();
+                problem.items.push(Item {
+                    group: g,
+                    rank,
+                    target: ti,
+                    night: ni,
+                    value: t.priority.max(1e-3),
+                    dur_s: dur,
+                    pref_s: pref,
+                    windows,
+                });
+            }
+            groups.push((ti, e, flex));
         }
-        let mut placed: Option<(usize, Instant)> = None;
-        for k in order {
-            let ni = home as i64 + k;
-            if ni < 0 || ni as usize >= slots.len() {
-                continue;
-            }
-            let ni = ni as usize;
-            if slots[ni].lost || slots[ni].used_s + dur > slots[ni].capacity_s {
-                continue;
-            }
-            let wins = windows_cache
-                .entry((r.target, ni))
-                .or_insert_with(|| slots[ni].night.windows(&place, &req.limits).windows)
-                .clone();
-            // Preferred time moved by whole sidereal days onto this night.
-            let pref = r
-                .epoch
-                .time
-                .add_seconds(k as f64 * SIDEREAL_DAY_S - dur / 2.0);
-            if let Some(s) = best_start(&wins, &slots[ni].busy, pref, dur) {
-                placed = Some((ni, s));
+    }
+    problem.spacing_s = spacing_s.clone();
+    let placements = pack::pack(&problem);
+    let mut placed_groups = BTreeSet::new();
+    let mut counter: BTreeMap<String, BTreeSet<String>> = BTreeMap::new();
+    for v in &visits {
+        counter
+            .entry(v.target.clone())
+            .or_default()
+            .insert(v.id.clone());
+    }
+    let mut new_visits = Vec::new();
+    for x in &placements {
+        let it = &problem.items[x.item];
+        placed_groups.insert(it.group);
+        let (ti, e, _) = &groups[it.group];
+        let t = &req.targets[*ti];
+        let place = t.place();
+        let ni = it.night;
+        let s = origin.add_seconds(x.start_s);
+        let end = origin.add_seconds(x.start_s + it.dur_s);
+        slots[ni].used_s += it.dur_s;
+        let mid = s.add_seconds(it.dur_s / 2.0);
+        let ctx = slots[ni].night.context(mid);
+        let airmass = kasten_young(ctx.observe(&place).alt_rad.to_degrees());
+        let mut cautions = Vec::new();
+        for at in [s, mid, end] {
+            let c = slots[ni].night.context(at);
+            if let Some(w) = sun_caution_at(req.site, &c, &place) {
+                cautions.push(w);
                 break;
             }
         }
-        match placed {
-            Some((ni, s)) => {
-                let e = s.add_seconds(dur);
-                slots[ni].busy.push((s, e));
-                slots[ni].used_s += dur;
-                let n = counter.entry(t.name.clone()).or_default();
-                *n += 1;
-                let mid = s.add_seconds(dur / 2.0);
-                let ctx = slots[ni].night.context(mid);
-                let airmass = kasten_young(ctx.observe(&place).alt_rad.to_degrees());
-                let mut cautions = Vec::new();
-                for at in [s, mid, e] {
-                    let c = slots[ni].night.context(at);
-                    if let Some(w) = sun_caution_at(req.site, &c, &place) {
-                        cautions.push(w);
-                        break;
-                    }
-                }
-                visits.push(Visit {
-                    id: format!("{}#{}", t.name, n),
-                    target: t.name.clone(),
-                    kind: t.kind,
-                    night: slots[ni].night.date,
-                    start: s,
-                    end: e,
-                    exptime_s: r.epoch.exptime_s,
-                    n_exposures: r.epoch.n_exposures,
-                    snr: r.epoch.snr,
-                    airmass: airmass.unwrap_or(f64::NAN),
-                    status: Status::Planned,
-                    cautions,
-                    exposures: r.epoch.exposures.clone(),
-                });
-            }
-            None => unplaced.push(Unplaced {
-                target: t.name.clone(),
-                preferred: r.epoch.time,
-                reason: format!(
-                    "no free time inside the target's window within ±{flex} nights (windows, other visits, or the {:.1} h per night)",
-                    req.hours_per_night
-                ),
-            }),
+        new_visits.push(Visit {
+            id: String::new(),
+            target: t.name.clone(),
+            kind: t.kind,
+            night: slots[ni].night.date,
+            start: s,
+            end,
+            exptime_s: e.exptime_s,
+            n_exposures: e.n_exposures,
+            snr: e.snr,
+            airmass: airmass.unwrap_or(f64::NAN),
+            status: Status::Planned,
+            cautions,
+            exposures: e.exposures.clone(),
+            ra_deg: Some(t.ra_deg),
+            dec_deg: Some(t.dec_deg),
+            observed: None,
+            seeing_arcsec: None,
+            comment: None,
+        });
+    }
+    // Ids: NAME#n with the smallest n not yet used by the target, in time order.
+    for v in new_visits.iter_mut() {
+        let used = counter.entry(v.target.clone()).or_default();
+        let mut n = 1;
+        while used.contains(&format!("{}#{n}", v.target)) {
+            n += 1;
         }
+        v.id = format!("{}#{n}", v.target);
+        used.insert(v.id.clone());
+    }
+    visits.extend(new_visits);
+    for (g, (ti, e, flex)) in groups.iter().enumerate() {
+        if placed_groups.contains(&g) {
+            continue;
+        }
+        let t = &req.targets[*ti];
+        let any = problem.items.iter().any(|it| it.group == g);
+        let reason = if any {
+            format!(
+                "no free time inside the target's window within ±{flex} nights that keeps {} from its other visits (windows, other visits, or the {:.1} h per night)",
+                spacing_text(spacing_s[*ti]),
+                req.hours_per_night
+            )
+        } else {
+            format!(
+                "every night within ±{flex} nights of it is lost, already over, outside the range or the target's useful window, or has no window for the target"
+            )
+        };
+        unplaced.push(Unplaced {
+            target: t.name.clone(),
+            preferred: e.time,
+            reason,
+        });
     }
     visits.sort_by(|a, b| {
         a.start
@@ -545,13 +715,19 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                 let m = req.methods.for_kind(t.kind)?;
                 let goal = goal_for(t, req.goal_pct, m);
                 let mine: &[&Visit] = by_target.get(t.name.as_str()).map_or(&[], |v| v);
-                let epochs: Vec<Epoch> = mine.iter().map(|v| v.epoch()).collect();
+                let later_e: &[Epoch] = later.get(&ti).map_or(&[], |v| v);
+                let mut epochs: Vec<Epoch> = mine
+                    .iter()
+                    .filter(|v| v.status != Status::Lost)
+                    .map(|v| v.epoch())
+                    .collect();
+                epochs.extend(later_e.iter().cloned());
                 let judged = with_goal(t, goal);
                 let setting = Setting {
                     site: req.site,
                     target: &judged,
                     from: req.from,
-                    to: req.to,
+                    to: horizon_to,
                     limits: req.limits,
                 };
                 let prediction = if epochs.is_empty() {
@@ -561,13 +737,28 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                     match m.predict(&setting, req.em, &epochs) {
                         Ok(p) => Some(p),
                         Err(e) => {
-                            notes.push(format!("no prediction: {e}"));
+                            notes.push(format!(
+                                "these visits alone give no distance yet: {}",
+                                crate::error::one_line_cut(&e.to_string(), 160)
+                            ));
                             None
                         }
                     }
                 };
-                let meets_goal = match (goal, &prediction) {
-                    (Some(g), Some(p)) => Some(p.distance_precision_pct <= g),
+                let shown = prediction
+                    .as_ref()
+                    .and_then(|p| shown_precision(p.distance_precision_pct));
+                if let Some(p) = &prediction
+                    && shown.is_none()
+                {
+                    notes.push(format!(
+                        "these visits give no useful distance (σd/d {})",
+                        precision_words(p.distance_precision_pct)
+                    ));
+                }
+                let meets_goal = match (goal, shown) {
+                    (Some(g), Some(p)) => Some(p <= g),
+                    (Some(_), None) if prediction.is_some() => Some(false),
                     _ => None,
                 };
                 Some(Outcome {
@@ -577,7 +768,9 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                     planned: mine.iter().filter(|v| v.status == Status::Planned).count(),
                     done: mine.iter().filter(|v| v.status == Status::Done).count(),
                     requested: requested.get(&ti).copied().unwrap_or(0),
+                    later: later_e.len(),
                     prediction,
+                    distance_precision_pct: shown,
                     meets_goal,
                     goal_verdict: goal_verdicts.get(&ti).cloned(),
                     notes,
@@ -587,12 +780,22 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
     };
     let nights = slots
         .iter()
-        .map(|s| NightUse {
-            night: s.night.date,
-            dark_hours: s.dark.iter().map(|(a, b)| b.seconds_since(a)).sum::<f64>() / 3600.0 + 0.0,
-            capacity_hours: s.capacity_s / 3600.0,
-            used_hours: s.used_s / 3600.0,
-            lost: s.lost,
+        .map(|s| {
+            let capacity_hours = s.capacity_s / 3600.0;
+            let used_hours = s.used_s / 3600.0;
+            NightUse {
+                night: s.night.date,
+                dark_hours: s.dark.iter().map(|(a, b)| b.seconds_since(a)).sum::<f64>() / 3600.0
+                    + 0.0,
+                capacity_hours,
+                used_hours,
+                used_fraction: if capacity_hours > 0.0 {
+                    (used_hours / capacity_hours).min(1.0)
+                } else {
+                    0.0
+                },
+                lost: s.lost,
+            }
         })
         .collect();
     Ok(Schedule {
@@ -600,7 +803,36 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
         outcomes,
         unplaced,
         nights,
+        horizon_to,
     })
+}
+
+/// A precision fit to print, percent: finite, positive and at most 100 %
+/// (beyond that the visits do not give a distance); `None` otherwise.
+pub fn shown_precision(pct: f64) -> Option<f64> {
+    (pct.is_finite() && pct > 0.0 && pct <= MAX_SHOWN_PRECISION_PCT).then_some(pct)
+}
+
+/// The largest σd/d a plan prints, percent: beyond it the distance is not measured.
+pub const MAX_SHOWN_PRECISION_PCT: f64 = 100.0;
+
+fn precision_words(pct: f64) -> String {
+    if pct.is_finite() && pct > MAX_SHOWN_PRECISION_PCT {
+        format!("above {MAX_SHOWN_PRECISION_PCT:.0} %")
+    } else {
+        "not finite".into()
+    }
+}
+
+/// A spacing in words ("12 h", "40 min", "3.0 d").
+pub fn spacing_text(s: f64) -> String {
+    if s >= 2.0 * 86_400.0 {
+        format!("{:.1} d", s / 86_400.0)
+    } else if s >= 3600.0 {
+        format!("{:.0} h", s / 3600.0)
+    } else {
+        format!("{:.0} min", s / 60.0)
+    }
 }
 
 /// The start nearest `pref` such that `[start, start + dur]` lies inside one of

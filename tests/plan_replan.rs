@@ -1,0 +1,330 @@
+//! Re-planning, as properties: after nights and visits are lost and the rest
+//! re-planned, no two visits of one target are closer than its method allows,
+//! no transient is visited after its useful window, and every precision a
+//! plan prints is finite.
+//!
+//! The methods here are small test doubles (documented on each): these tests
+//! check the scheduler's rules, not the methods' science.
+
+use chrono::NaiveDate;
+use proptest::prelude::*;
+use rung::astro::frames::{CatalogPlace, Context};
+use rung::astro::night::Limits;
+use rung::io::sites::resolve;
+use rung::io::targets::{Kind, Target};
+use rung::ladder::{
+    BandExposure, DEFAULT_SPACING_S, Epoch, ExposureModel, Method, MethodSet, Prediction, Setting,
+    Verdict,
+};
+use rung::plan::schedule::{Request, Schedule, Status, Visit, schedule};
+use std::collections::BTreeSet;
+use std::sync::Arc;
+
+/// Test photometry: fixed exposures and overheads.
+struct FixedPhot;
+impl ExposureModel for FixedPhot {
+    fn snr(&self, _m: f64, _b: &str, t: f64, _c: &Context, _p: &CatalogPlace) -> rung::Result<f64> {
+        Ok(100.0 * (t / 300.0).sqrt())
+    }
+    fn exptime(
+        &self,
+        _m: f64,
+        _b: &str,
+        _s: f64,
+        _c: &Context,
+        _p: &CatalogPlace,
+    ) -> rung::Result<(f64, u32)> {
+        Ok((300.0, 1))
+    }
+    fn visit_overhead_s(&self) -> f64 {
+        120.0
+    }
+    fn readout_s(&self) -> f64 {
+        10.0
+    }
+    fn seeing_fwhm_arcsec(&self) -> f64 {
+        1.2
+    }
+}
+
+/// Test method: on every night from `first` (nights after the range's start)
+/// to `last`, `per_night` epochs `gap_h` hours apart around local midnight.
+/// Its precision is `precision(n)` for n epochs, so absurd and non-finite
+/// values can be asked for.
+struct Nightly {
+    kind: Kind,
+    first: usize,
+    last: usize,
+    per_night: usize,
+    gap_h: f64,
+    precision: fn(usize) -> f64,
+}
+
+impl Method for Nightly {
+    fn kind(&self) -> Kind {
+        self.kind
+    }
+    fn propose(&self, s: &Setting, _em: &dyn ExposureModel) -> rung::Result<Vec<Epoch>> {
+        let mut out = Vec::new();
+        for (i, d) in s.from.iter_days().take_while(|d| *d <= s.to).enumerate() {
+            if i < self.first || i > self.last {
+                continue;
+            }
+            let midnight = rung::astro::night::local_noon(s.site, d)?.add_seconds(12.0 * 3600.0);
+            for k in 0..self.per_night {
+                let off = (k as f64 - (self.per_night as f64 - 1.0) / 2.0) * self.gap_h * 3600.0;
+                out.push(Epoch {
+                    time: midnight.add_seconds(off),
+                    exptime_s: 300.0,
+                    n_exposures: 1,
+                    snr: 100.0,
+                    airmass: 1.2,
+                    visit_s: 900.0,
+                    exposures: BandExposure::single("V", 300.0, 1, 100.0),
+                });
+            }
+        }
+        Ok(out)
+    }
+    fn predict(
+        &self,
+        _s: &Setting,
+        _em: &dyn ExposureModel,
+        e: &[Epoch],
+    ) -> rung::Result<Prediction> {
+        Ok(Prediction {
+            kind: self.kind,
+            epochs: e.to_vec(),
+            distance_precision_pct: (self.precision)(e.len()),
+            hours_needed: e.iter().map(|x| x.visit_s).sum::<f64>() / 3600.0,
+            verdict: Verdict::Reachable,
+            notes: vec![],
+            error_terms: vec![],
+        })
+    }
+    fn goal(&self, s: &Setting, em: &dyn ExposureModel, _g: f64) -> rung::Result<Prediction> {
+        let e = self.propose(s, em)?;
+        self.predict(s, em, &e)
+    }
+    fn as_any(&self) -> &dyn std::any::Any {
+        self
+    }
+}
+
+fn day(s: &str) -> NaiveDate {
+    NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap()
+}
+
+const FROM: &str = "2026-12-01";
+const TO: &str = "2026-12-08";
+
+/// Targets near the meridian at local midnight in December at the demo
+/// site, so every night has a window for each.
+fn targets(n: usize, seed: u64) -> Vec<Target> {
+    (0..n)
+        .map(|i| {
+            let ra = 60.0 + ((seed as usize * 7 + i * 13) % 40) as f64;
+            let mut t = Target::plain(&format!("T{i}"), ra, -30.0 + (i % 5) as f64 * 4.0);
+            t.kind = match i % 3 {
+                0 => Kind::Pulsator,
+                1 => Kind::Transient,
+                _ => Kind::Parallax,
+            };
+            t.priority = 1.0 + (i % 3) as f64;
+            t.goal_pct = Some(5.0);
+            t
+        })
+        .collect()
+}
+
+/// The doubles: pulsators asking for three visits a night 2 h apart (closer
+/// than the default spacing: the method asks for it), transients useful on
+/// nights 1 to 4 only, parallaxes one a night with absurd or non-finite
+/// precisions for few epochs.
+fn methods() -> MethodSet {
+    MethodSet::new(vec![
+        Arc::new(Nightly {
+            kind: Kind::Pulsator,
+            first: 0,
+            last: 99,
+            per_night: 3,
+            gap_h: 2.0,
+            precision: |n| 10.0 / (n.max(1) as f64).sqrt(),
+        }),
+        Arc::new(Nightly {
+            kind: Kind::Transient,
+            first: 1,
+            last: 4,
+            per_night: 1,
+            gap_h: 0.0,
+            precision: |n| if n < 3 { 8350.0 } else { 7.0 },
+        }),
+        Arc::new(Nightly {
+            kind: Kind::Parallax,
+            first: 0,
+            last: 99,
+            per_night: 1,
+            gap_h: 0.0,
+            precision: |n| {
+                if n < 4 {
+                    f64::NAN
+                } else if n < 6 {
+                    f64::INFINITY
+                } else {
+                    3.0
+                }
+            },
+        }),
+    ])
+}
+
+fn run(ts: &[Target], done: Vec<Visit>, lost: BTreeSet<NaiveDate>, hours: f64) -> Schedule {
+    let site = resolve("pampa-lucero").unwrap();
+    let m = methods();
+    let req = Request {
+        site: &site,
+        targets: ts,
+        from: day(FROM),
+        to: day(TO),
+        limits: Limits::new(30.0, -12.0).unwrap(),
+        hours_per_night: hours,
+        methods: &m,
+        em: &FixedPhot,
+        goal_pct: None,
+        done,
+        lost_nights: lost,
+        horizon_to: day(TO),
+        not_before: None,
+    };
+    schedule(&req).unwrap()
+}
+
+/// The spacing the doubles allow: the default, or the method's own closer epochs.
+fn allowed_s(kind: Kind) -> f64 {
+    match kind {
+        Kind::Pulsator => 2.0 * 3600.0,
+        _ => DEFAULT_SPACING_S,
+    }
+}
+
+fn check_spacing(s: &Schedule) -> Result<(), TestCaseError> {
+    let mut by: std::collections::BTreeMap<&str, Vec<&Visit>> = Default::default();
+    for v in s.visits.iter().filter(|v| v.status != Status::Lost) {
+        by.entry(v.target.as_str()).or_default().push(v);
+    }
+    for (name, mut vs) in by {
+        vs.sort_by(|a, b| a.start.partial_cmp(&b.start).unwrap());
+        for w in vs.windows(2) {
+            let gap = w[1].mid().seconds_since(&w[0].mid());
+            prop_assert!(
+                gap >= allowed_s(w[0].kind) - 1.0,
+                "{name}: {} and {} only {:.0} s apart",
+                w[0].id,
+                w[1].id,
+                gap
+            );
+        }
+    }
+    Ok(())
+}
+
+fn check_transient_window(s: &Schedule) -> Result<(), TestCaseError> {
+    let last_useful = day(FROM) + chrono::Days::new(4);
+    for v in s.visits.iter().filter(|v| v.kind == Kind::Transient) {
+        prop_assert!(
+            v.night <= last_useful && v.night >= day(FROM) + chrono::Days::new(1),
+            "{} on {} is outside its useful window",
+            v.id,
+            v.night
+        );
+    }
+    Ok(())
+}
+
+fn check_precisions(s: &Schedule) -> Result<(), TestCaseError> {
+    for o in &s.outcomes {
+        if let Some(p) = o.distance_precision_pct {
+            prop_assert!(
+                p.is_finite() && p > 0.0 && p <= 100.0,
+                "{}: {p} printed",
+                o.target
+            );
+        }
+        // The words a plan prints never carry a non-finite number.
+        let text = serde_json::to_string(&o.notes).unwrap();
+        prop_assert!(!text.contains("NaN") && !text.contains("inf"), "{text}");
+    }
+    Ok(())
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 8, .. ProptestConfig::default() })]
+    #[test]
+    fn replanning_keeps_spacing_windows_and_finite_precisions(
+        seed in 0u64..1000,
+        n in 3usize..8,
+        lost_mask in 0u8..=255,
+        done_every in 2usize..5,
+        hours in 3.0f64..7.0,
+    ) {
+        let ts = targets(n, seed);
+        let first = run(&ts, vec![], BTreeSet::new(), hours);
+        check_spacing(&first)?;
+        check_transient_window(&first)?;
+        check_precisions(&first)?;
+        // Some visits observed, some nights lost, the rest re-planned.
+        let done: Vec<Visit> = first
+            .visits
+            .iter()
+            .enumerate()
+            .filter(|(i, _)| i % done_every == 0)
+            .map(|(_, v)| Visit { status: Status::Done, ..v.clone() })
+            .collect();
+        let lost: BTreeSet<NaiveDate> = (0..8)
+            .filter(|k| lost_mask & (1 << k) != 0)
+            .map(|k| day(FROM) + chrono::Days::new(k))
+            .filter(|d| !done.iter().any(|v| v.night == *d))
+            .collect();
+        let second = run(&ts, done, lost.clone(), hours);
+        check_spacing(&second)?;
+        check_transient_window(&second)?;
+        check_precisions(&second)?;
+        for v in second.visits.iter().filter(|v| v.status == Status::Planned) {
+            prop_assert!(!lost.contains(&v.night), "{} on a lost night", v.id);
+        }
+    }
+}
+
+/// A re-plan at a clock inside the range places nothing before the clock.
+#[test]
+fn a_replan_places_nothing_before_the_clock() {
+    let ts = targets(6, 3);
+    let site = resolve("pampa-lucero").unwrap();
+    let m = methods();
+    let now = rung::astro::time::parse_instant("2026-12-04T04:00:00Z").unwrap();
+    let req = Request {
+        site: &site,
+        targets: &ts,
+        from: day(FROM),
+        to: day(TO),
+        limits: Limits::new(30.0, -12.0).unwrap(),
+        hours_per_night: 6.0,
+        methods: &m,
+        em: &FixedPhot,
+        goal_pct: None,
+        done: vec![],
+        lost_nights: BTreeSet::new(),
+        horizon_to: day(TO),
+        not_before: Some(now),
+    };
+    let s = schedule(&req).unwrap();
+    assert!(!s.visits.is_empty());
+    for v in &s.visits {
+        assert!(
+            v.start >= now,
+            "{} starts at {} before the clock",
+            v.id,
+            v.start.iso()
+        );
+    }
+}
