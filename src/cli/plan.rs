@@ -42,7 +42,7 @@ pub struct PlanArgs {
     /// Place again everything that is not done (keeps done visits, skips lost nights, places nothing before the clock: RUNG_NOW or now).
     #[arg(long)]
     pub replan: bool,
-    /// Last night the methods plan for, YYYY-MM-DD (default: --to, or 36 months after --from when that is later; their epochs after --to are counted in the outcomes as planned).
+    /// Last night the methods plan for, YYYY-MM-DD (default: the programme's own last night when --to ends earlier: its settings file's, else 36 months after --from; their epochs after --to are counted in the outcomes as planned).
     #[arg(long)]
     pub horizon_to: Option<String>,
     /// Save the plan to this file (atomic; with --load the default is the loaded file, with a .bak of the old one).
@@ -110,14 +110,21 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
     if let (Some(p), Some(w)) = (&plan, from_plan("site")) {
         rung::io::sites::resolve(&p.site).context(w)?;
     }
+    let choices_for_horizon = choices.clone();
     let st = super::settings(choices, Some(&targets_path), &[])?;
 
-    let horizon = a
-        .horizon_to
-        .as_deref()
-        .map(parse_date)
-        .transpose()
-        .context("--horizon-to")?;
+    let horizon = match a.horizon_to.as_deref() {
+        Some(h) => Some(parse_date(h).context("--horizon-to")?),
+        // A --to that shortens the programme makes the plan a slice of it:
+        // the methods plan to the programme's own last night.
+        None if a.range.to.is_some() && plan.is_none() => {
+            let mut whole = choices_for_horizon.clone();
+            whole.to = None;
+            let prog = super::settings(whole, Some(&targets_path), &[])?;
+            Some(prog.to.max(st.to))
+        }
+        None => None,
+    };
     let mut sched: Option<schedule::Schedule> = None;
     let mut p = match plan.take() {
         Some(p) => p,

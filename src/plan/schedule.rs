@@ -11,9 +11,10 @@
 //! 2. Each target's method gives the epochs its distance goal takes
 //!    (`Method::goal`, the goal from `ladder::goal_for`: the budget's epochs),
 //!    or, for a target without a goal, its own proposal (`Method::propose`),
-//!    over the range extended to the horizon ([`default_horizon`]): epochs
-//!    after the range's last night are counted as planned in the outcomes
-//!    (`Outcome::later`), so a plan of two weeks is a slice of a programme.
+//!    over the range extended to the horizon (`Request::horizon_to`; `rung
+//!    plan --to` shorter than the programme's range makes a plan a slice of
+//!    the programme): epochs after the range's last night are counted as
+//!    planned in the outcomes (`Outcome::later`).
 //!    A done visit of the target absorbs the proposed epoch nearest to it.
 //! 3. Visits that would not buy precision are not planned: a target whose
 //!    goal verdict is "not observable" (a supernova peak that cannot be
@@ -163,9 +164,9 @@ pub struct Request<'a> {
     pub done: Vec<Visit>,
     /// Nights on which nothing can be placed.
     pub lost_nights: BTreeSet<NaiveDate>,
-    /// The last night the methods plan for (at least `to`; see
-    /// [`default_horizon`]): their epochs after `to` count as planned in
-    /// the outcomes.
+    /// The last night the methods plan for (at least `to`; a plan shorter
+    /// than its programme is a slice of it, see the module documentation):
+    /// their epochs after `to` count as planned in the outcomes.
     pub horizon_to: NaiveDate,
     /// No visit is placed before this instant (a re-plan during the night
     /// places only what is still ahead).
@@ -189,7 +190,7 @@ impl<'a> Request<'a> {
             goal_pct: settings.goal_pct,
             done: vec![],
             lost_nights: BTreeSet::new(),
-            horizon_to: default_horizon(settings.from, settings.to),
+            horizon_to: settings.to,
             not_before: None,
         }
     }
@@ -323,18 +324,6 @@ struct NightSlot {
 
 fn overlaps(a: (Instant, Instant), b: (Instant, Instant)) -> bool {
     a.0 < b.1 && b.0 < a.1
-}
-
-/// The last night the methods plan for when a plan asks for `from`..`to`:
-/// `to`, or the default programme range
-/// ([`crate::programme::DEFAULT_RANGE_MONTHS`] from `from`, less a day) when
-/// that is later. A plan of two weeks is then a slice of a programme long
-/// enough for a parallax: the methods' epochs that fall in the two weeks are
-/// placed, and the later ones are counted as planned for the outcomes.
-pub fn default_horizon(from: NaiveDate, to: NaiveDate) -> NaiveDate {
-    from.checked_add_months(chrono::Months::new(crate::programme::DEFAULT_RANGE_MONTHS))
-        .and_then(|d| d.pred_opt())
-        .map_or(to, |d| d.max(to))
 }
 
 /// Shortest spacing the scheduler ever keeps between two visits of one
@@ -514,7 +503,6 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                     epochs.len(),
                     v.text()
                 ));
-                requested.insert(ti, 0);
                 continue;
             }
         }
