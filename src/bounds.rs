@@ -194,6 +194,26 @@ pub const PERIOD_D: Bound = Bound {
     why: "pulsators with period-luminosity distances run from about 0.02 d (delta Scuti stars) to about 2000 d (long-period variables), and the phase plan's work grows as 1/period",
 };
 
+/// Metallicity [Fe/H] of a pulsator (`feh_dex`).
+pub const FEH_DEX: Bound = Bound {
+    key: "feh_dex",
+    unit: "dex",
+    min: -5.0,
+    max: 1.0,
+    min_exclusive: false,
+    why: "pulsators used for distances run from about -3 dex (metal-poor RR Lyrae stars) to about +0.5 dex (inner-disc Cepheids); no star is known below -5 dex with a pulsation distance or above +1 dex",
+};
+
+/// Uncertainty of a metallicity (`feh_err_dex`).
+pub const FEH_ERR_DEX: Bound = Bound {
+    key: "feh_err_dex",
+    unit: "dex",
+    min: 0.0,
+    max: 2.0,
+    min_exclusive: false,
+    why: "an uncertainty is not negative, and one above 2 dex says nothing about the star",
+};
+
 /// Why a period uncertainty `err_d` (days) is refused for a period of
 /// `period_d` days (when known), or `None`: it must be zero or positive and
 /// smaller than the period itself.
@@ -347,7 +367,7 @@ pub fn too_many_sub_exposures(n: f64) -> String {
 }
 
 /// Every bound, for documentation and the fuzz harness.
-pub const ALL: [&Bound; 15] = [
+pub const ALL: [&Bound; 17] = [
     &MAG,
     &AMPLITUDE_MAG,
     &EXTINCTION_MAG,
@@ -363,6 +383,8 @@ pub const ALL: [&Bound; 15] = [
     &SNR,
     &COLOUR_VI_MAG,
     &REF_STAR_COUNT,
+    &FEH_DEX,
+    &FEH_ERR_DEX,
 ];
 
 #[cfg(test)]

@@ -112,3 +112,126 @@ fn bad_input_is_one_clear_line() {
         "{err}"
     );
 }
+
+/// docs/bad-input.md, "Pulsator classes and relations": each answer word for word.
+#[test]
+fn relation_refusals_word_for_word() {
+    let demo = concat!(env!("CARGO_MANIFEST_DIR"), "/targets-demo/targets.csv");
+    let base = [
+        "phase",
+        "--targets",
+        demo,
+        "--target",
+        "LPO-C05",
+        "--from",
+        "2026-12-01",
+        "--nights",
+        "3",
+    ];
+    let run = |extra: &[&str]| {
+        let mut a: Vec<&str> = base.to_vec();
+        a.extend(extra);
+        rung(&a)
+    };
+    // R1
+    let (code, _, err) = run(&["--class", "quasar"]);
+    assert_eq!(code, 2);
+    assert_eq!(
+        err.trim(),
+        "rung: error: invalid --class: 'quasar' is not a pulsator class rung has relations for: cepheid, rrlyrae, mira"
+    );
+    // R2
+    let (code, _, err) = run(&["--feh-dex", "3"]);
+    assert_eq!(code, 2);
+    assert_eq!(
+        err.trim(),
+        "rung: error: invalid --feh-dex: 3 dex is not within -5..1 dex: pulsators used for distances run from about -3 dex (metal-poor RR Lyrae stars) to about +0.5 dex (inner-disc Cepheids); no star is known below -5 dex with a pulsation distance or above +1 dex"
+    );
+    // R3: the phases are still planned; the distance is refused in the notes.
+    let (code, out, err) = run(&["--period-d", "0.55", "--class", "cepheid", "--json"]);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert!(v["distance_precision_pct"].is_null() && v["relation"].is_null());
+    assert_eq!(v["class"], "cepheid");
+    let notes: Vec<&str> = v["notes"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|n| n.as_str().unwrap())
+        .collect();
+    assert!(
+        notes.contains(&"invalid period_d: 0.55 d is outside the classical Cepheid V relation's range 3.7–35.6 d (Benedict et al. 2007, AJ 133, 1810); it is not applied outside the periods it was calibrated on: a star this short is no classical Cepheid (RR Lyrae stars pulsate in 0.2–1 d: give class = rrlyrae): no distance"),
+        "{notes:?}"
+    );
+    // R4: no class given and no relation covers 2 d.
+    let (code, out, _) = run(&["--period-d", "2", "--json"]);
+    assert_eq!(code, 0);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert!(v["class"].is_null() && v["distance_precision_pct"].is_null());
+    assert!(
+        v["notes"].as_array().unwrap().iter().any(|n| n.as_str().unwrap()
+            == "invalid class: no relation covers a 2 d period (classical Cepheid 3–100 d, RR Lyrae star 0.2–1 d, Mira 100–420 d): no class can be inferred and no distance given; give the class and a relation valid at this period: no distance"),
+        "{:#}",
+        v["notes"]
+    );
+    // The same star as an RR Lyrae star: accepted, the class said.
+    let (code, out, err) = run(&["--period-d", "0.55", "--json"]);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(v["class"], "rrlyrae");
+    assert_eq!(v["class_from"], "inferred");
+    assert_eq!(v["relation"]["band"], "V");
+    assert!(v["sigma_feh_mag"].as_f64().unwrap() > 0.1);
+}
+
+/// A targets file's class and metallicity columns are read and checked
+/// (docs/bad-input.md R5, R6).
+#[test]
+fn class_and_metallicity_columns() {
+    let dir = std::path::Path::new(env!("CARGO_TARGET_TMPDIR")).join("cls_columns");
+    std::fs::create_dir_all(&dir).unwrap();
+    let f = dir.join("t.csv");
+    std::fs::write(
+        &f,
+        "name,kind,ra,dec,band,period_d,epoch_max_bjd,mean_mag,class,feh_dex,feh_err_dex\n\
+         RR-A,pulsator,03:11:36,-03:18:00,V,0.55,2461005.017,13.1,rrlyrae,-1.2,0.1\n\
+         RR-B,pulsator,03:11:36,-03:18:00,V,0.55,2461005.017,13.1,quasar,,\n\
+         RR-C,pulsator,03:11:36,-03:18:00,V,0.55,2461005.017,13.1,,-7,\n",
+    )
+    .unwrap();
+    let fs = f.to_str().unwrap();
+    let (code, out, err) = rung(&[
+        "phase",
+        "--targets",
+        fs,
+        "--target",
+        "RR-A",
+        "--from",
+        "2026-12-01",
+        "--nights",
+        "2",
+        "--instrument",
+        "lucero-1m",
+        "--json",
+    ]);
+    // RR-B and RR-C are refused rows (exit 3), RR-A is planned.
+    assert_eq!(code, 3, "{err}");
+    assert!(
+        err.contains(&format!(
+            "{fs}, line 3, field 'class': 'quasar' is not one of cepheid, rrlyrae, mira"
+        )),
+        "{err}"
+    );
+    assert!(
+        err.contains(&format!(
+            "{fs}, line 4, field 'feh_dex': -7 dex is not within -5..1 dex"
+        )),
+        "{err}"
+    );
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(v["class"], "rrlyrae");
+    assert_eq!(v["class_from"], "given");
+    assert_eq!(v["feh_dex"], -1.2);
+    // |γ| σ[Fe/H] = 0.214 × 0.1 (Clementini et al. 2003, M_V–[Fe/H]).
+    assert!((v["sigma_feh_mag"].as_f64().unwrap() - 0.0214).abs() < 1e-12);
+}

@@ -3,7 +3,7 @@
 //! the cited Leavitt-law coefficients.
 
 use rung::ladder::pulsator::{
-    PulsatorConfig, distance_budget, distance_modulus, fourier_fit, mean_mag_sigma,
+    PulsatorClass, PulsatorConfig, distance_budget, distance_modulus, fourier_fit, mean_mag_sigma,
     mean_mag_sigma_rule, sigma_mag_from_snr,
 };
 
@@ -146,34 +146,59 @@ fn fit_recovers_a_noiseless_curve_and_refuses_too_few_points() {
 #[test]
 fn distance_modulus_by_hand_with_cited_coefficients() {
     // Leavitt law, V band: M_V = −2.43 (log P − 1) − 4.05 (Benedict et al. 2007,
-    // AJ 133, 1810; quoted from memory), as in config/pulsator.toml.
+    // AJ 133, 1810; quoted from memory), as in config/pulsator.toml, with the
+    // Cepheid metallicity term γ = −0.2 ± 0.1 mag/dex at [Fe/H] = 0.
     let cfg = PulsatorConfig::builtin();
-    let v = cfg.law("V").unwrap();
-    assert_eq!((v.a, v.b), (-2.43, -4.05));
+    let v = cfg
+        .star_relation(
+            Some(PulsatorClass::Cepheid),
+            "V",
+            10.0,
+            Some(0.0),
+            Some(0.1),
+        )
+        .unwrap();
+    assert_eq!(
+        (v.relation.slope, v.relation.zero_point_mag),
+        (-2.43, -4.05)
+    );
     // By hand: P = 10 d → log P − 1 = 0, M = −4.05; m̄ = 12.00, A_V = 0.30:
     // μ = 12.00 + 4.05 − 0.30 = 15.75; d = 10^(15.75/5 + 1) = 10^4.15 = 14 125 pc.
     assert!((v.abs_mag(10.0) + 4.05).abs() < 1e-12);
-    let mu = distance_modulus(12.0, 10.0, 0.30, v);
+    let mu = distance_modulus(12.0, 10.0, 0.30, &v);
     assert!((mu - 15.75).abs() < 1e-12);
     // By hand: P = 10^1.5 d = 31.62 d → M = −2.43 × 0.5 − 4.05 = −5.265;
     // with m̄ = 12, A = 0: μ = 17.265.
-    assert!((distance_modulus(12.0, 10f64.powf(1.5), 0.0, v) - 17.265).abs() < 1e-12);
+    assert!((distance_modulus(12.0, 10f64.powf(1.5), 0.0, &v) - 17.265).abs() < 1e-12);
     // By hand: P = 5 d → log P − 1 = −0.30103, M = 0.731503 − 4.05 = −3.318497.
     assert!((v.abs_mag(5.0) + 3.318_497).abs() < 1e-6);
+    // [Fe/H] = −0.5: M = −4.05 + (−0.2)(−0.5) = −3.95 at 10 d.
+    let poor = cfg
+        .star_relation(
+            Some(PulsatorClass::Cepheid),
+            "V",
+            10.0,
+            Some(-0.5),
+            Some(0.1),
+        )
+        .unwrap();
+    assert!((poor.abs_mag(10.0) + 3.95).abs() < 1e-12);
 
     // Budget by hand at P = 10 d with σ_m̄ = 0.01 mag and σ_A = 0.1 × 0.30 = 0.03:
-    // σ_PL² = 0.21² + 0.02² = 0.0445 (scatter and zero-point error, config);
-    // σ_μ² = 0.0445 + 0.0001 + 0.0009 = 0.0455, σ_μ = 0.213307;
-    // σ_d/d = (ln 10/5) σ_μ = 0.460517 × 0.213307 = 9.8232 %.
-    let b = distance_budget(12.0, 10.0, 0.30, 0.01, v, 0.1);
+    // scatter 0.21, zero point 0.02 (config) → σ_PL² = 0.0445; metallicity
+    // |γ| σ[Fe/H] = 0.2 × 0.1 = 0.02;
+    // σ_μ² = 0.0445 + 0.0004 + 0.0001 + 0.0009 = 0.0459, σ_μ = 0.214243;
+    // σ_d/d = (ln 10/5) σ_μ = 0.460517 × 0.214243 = 9.8663 %.
+    let b = distance_budget(12.0, 10.0, 0.30, 0.01, &v, 0.1);
     assert!(
         (b.distance_pc - 14_125.375).abs() < 0.01,
         "{}",
         b.distance_pc
     );
     assert!((b.sigma_pl_mag - 0.0445f64.sqrt()).abs() < 1e-12);
-    assert!((b.sigma_mu_mag - 0.213_307).abs() < 1e-6);
-    assert!((b.distance_precision_pct - 9.8232).abs() < 1e-3);
-    // The floor (σ_m̄ → 0): 0.460517 × √(0.0445 + 0.0009) = 9.8125 %.
-    assert!((b.floor_pct - 9.8125).abs() < 1e-3);
+    assert!((b.sigma_feh_mag - 0.02).abs() < 1e-12);
+    assert!((b.sigma_mu_mag - 0.0459f64.sqrt()).abs() < 1e-9);
+    assert!((b.distance_precision_pct - 9.8663).abs() < 1e-3);
+    // The floor (σ_m̄ → 0): 0.460517 × √(0.0445 + 0.0004 + 0.0009) = 9.8555 %.
+    assert!((b.floor_pct - 9.8555).abs() < 1e-3);
 }

@@ -36,9 +36,18 @@ pub struct Args {
     /// Mean magnitude in the band, mag.
     #[arg(long, allow_hyphen_values = true)]
     pub mean_mag: Option<f64>,
-    /// Photometric band (U, B, V, R, I).
+    /// Photometric band (U, B, V, R, I, J, H, K).
     #[arg(long)]
     pub band: Option<String>,
+    /// Class of pulsator, which picks its relation (cepheid, rrlyrae, mira; default: the target's, else inferred from the period where unambiguous).
+    #[arg(long)]
+    pub class: Option<String>,
+    /// Metallicity [Fe/H], dex (default: the target's, else the class's assumed value).
+    #[arg(long, allow_hyphen_values = true)]
+    pub feh_dex: Option<f64>,
+    /// Uncertainty of the metallicity, dex.
+    #[arg(long, allow_hyphen_values = true)]
+    pub feh_err_dex: Option<f64>,
     /// Foreground extinction in the band, mag.
     #[arg(long, visible_alias = "extinction", allow_hyphen_values = true)]
     pub extinction_mag: Option<f64>,
@@ -130,9 +139,23 @@ fn build_target(a: &Args) -> Result<Target> {
     if let Some(b) = &a.band {
         let up = b.trim().to_ascii_uppercase();
         if !BANDS.contains(&up.as_str()) {
-            bail!("--band '{b}' is not one of U, B, V, R, I");
+            bail!("--band '{b}' is not one of {}", BANDS.join(", "));
         }
         t.band = up;
+    }
+    if let Some(c) = &a.class {
+        let c = rung::ladder::pulsator::PulsatorClass::parse(c).map_err(|e| match e {
+            rung::RungError::Invalid { why, .. } => rung::RungError::invalid("--class", why),
+            other => other,
+        })?;
+        t.class = c.as_str().to_string();
+    }
+    use rung::bounds::{FEH_DEX, FEH_ERR_DEX};
+    if let Some(f) = FEH_DEX.check_opt_as("--feh-dex", a.feh_dex)? {
+        t.feh_dex = Some(f);
+    }
+    if let Some(f) = FEH_ERR_DEX.check_opt_as("--feh-err-dex", a.feh_err_dex)? {
+        t.feh_err_dex = Some(f);
     }
     if t.period_d.is_none() {
         bail!(
@@ -147,6 +170,15 @@ fn build_target(a: &Args) -> Result<Target> {
         );
     }
     Ok(t)
+}
+
+/// " + 0.59" or " − 4.05" for a term of a formula.
+fn signed(x: f64) -> String {
+    if x < 0.0 {
+        format!(" − {}", -x)
+    } else {
+        format!(" + {x}")
+    }
 }
 
 fn opt_num(x: f64) -> Value {
@@ -374,6 +406,34 @@ fn print_json(
     ] {
         o.insert(k.into(), f.map(opt_num).unwrap_or(Value::Null));
     }
+    for (k, f) in [
+        ("sigma_scatter_mag", b.map(|b| b.sigma_scatter_mag)),
+        ("sigma_zero_point_mag", b.map(|b| b.sigma_zero_point_mag)),
+        ("sigma_feh_mag", b.map(|b| b.sigma_feh_mag)),
+    ] {
+        o.insert(k.into(), f.map(opt_num).unwrap_or(Value::Null));
+    }
+    match &r.relation {
+        Some(rel) => {
+            o.insert("class".into(), json!(rel.relation.class));
+            o.insert("class_from".into(), json!(rel.class_from));
+            o.insert("feh_dex".into(), json!(rel.feh_dex));
+            o.insert("feh_err_dex".into(), json!(rel.feh_err_dex));
+            o.insert("feh_assumed".into(), json!(rel.feh_assumed));
+            o.insert("relation".into(), serde_json::to_value(&rel.relation)?);
+        }
+        None => {
+            o.insert(
+                "class".into(),
+                json!(r.star.class.map(|c| c.as_str().to_string())),
+            );
+            o.insert("class_from".into(), Value::Null);
+            o.insert("feh_dex".into(), json!(r.star.feh_dex));
+            o.insert("feh_err_dex".into(), json!(r.star.feh_err_dex));
+            o.insert("feh_assumed".into(), Value::Null);
+            o.insert("relation".into(), Value::Null);
+        }
+    }
     o.insert("cautions".into(), json!(r.cautions));
     o.insert("notes".into(), json!(r.notes));
     super::print_json(&Value::Object(o))?;
@@ -489,13 +549,48 @@ fn print_text(
         r.phase_sigma,
         if r.stale { " (STALE)" } else { "" }
     );
+    if let Some(rel) = &r.relation {
+        let x = &rel.relation;
+        super::outln!(
+            "Relation: {} {} ({}{}), M = {} (log P − {}){}{}, valid {}–{} d, scatter {} mag; [Fe/H] {:+.2} ± {:.2} dex{}",
+            x.class.words(),
+            x.band,
+            x.class.as_str(),
+            if rel.class_from == rung::ladder::pulsator::ClassFrom::Inferred {
+                ", inferred from the period"
+            } else {
+                ""
+            },
+            x.slope,
+            x.pivot_log_p,
+            signed(x.zero_point_mag),
+            if x.feh_coeff_mag_per_dex != 0.0 {
+                format!(
+                    "{} ([Fe/H] − {})",
+                    signed(x.feh_coeff_mag_per_dex),
+                    x.feh_ref_dex
+                )
+            } else {
+                String::new()
+            },
+            x.period_min_d,
+            x.period_max_d,
+            x.scatter_mag,
+            rel.feh_dex,
+            rel.feh_err_dex,
+            if rel.feh_assumed { " (assumed)" } else { "" }
+        );
+        super::outln!("  source: {}", x.source);
+    }
     if let (Some(p), Some(b)) = (&r.prediction, &r.budget) {
         super::outln!(
-            "Distance: μ = {:.3} mag ({:.0} pc); σ_μ = {:.3} mag (relation {:.3}, mean mag {:.4}, extinction {:.3}, K = {}) → σ_d/d = {:.2} % in {:.2} h{}",
+            "Distance: μ = {:.3} mag ({:.0} pc); σ_μ = {:.3} mag (scatter {:.3}, zero point {:.3}, metallicity {:.3}, mean mag {:.4}, extinction {:.3}, K = {}) → σ_d/d = {:.2} % in {:.2} h{}",
             b.distance_modulus_mag,
             b.distance_pc,
             b.sigma_mu_mag,
-            b.sigma_pl_mag,
+            b.sigma_scatter_mag,
+            b.sigma_zero_point_mag,
+            b.sigma_feh_mag,
             b.sigma_mean_mag,
             b.sigma_ext_mag,
             m.harmonics,

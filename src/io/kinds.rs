@@ -26,8 +26,12 @@ pub const VALID_FROM_EPOCH_YR: f64 = 1960.0;
 pub const VALID_TO_EPOCH_YR: f64 = 2100.0;
 /// Longest accepted field, bytes. Longer fields are rejected, not loaded.
 pub const MAX_FIELD_BYTES: usize = 4096;
-/// Photometric bands a target may name (the `band` field's choices).
-pub const BANDS: [&str; 5] = ["U", "B", "V", "R", "I"];
+/// Photometric bands a target may name (the `band` field's choices): the
+/// optical U B V R I and the near-infrared J H K.
+pub const BANDS: [&str; 8] = ["U", "B", "V", "R", "I", "J", "H", "K"];
+/// Classes of pulsator (the `class` field's choices); each picks its
+/// period–luminosity relations (`config/pulsator.toml`).
+pub const PULSATOR_CLASSES: [&str; 3] = ["cepheid", "rrlyrae", "mira"];
 
 /// Whether a field must be given.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -99,6 +103,9 @@ kinds! {
         ("amplitude_mag", Optional),
         ("mean_mag", Optional),
         ("extinction_mag", Optional),
+        ("class", Optional),
+        ("feh_dex", Optional),
+        ("feh_err_dex", Optional),
     ];
     /// Thermonuclear supernova (standardized candle).
     Transient = "transient", '✶', "thermonuclear supernova, standardized candle", &[
@@ -472,7 +479,7 @@ pub const COLUMNS: &[Column] = &[
     },
     Column {
         key: "band",
-        unit: "U B V R I",
+        unit: "U B V R I J H K",
         about: "←/→ to choose",
         ty: Ty::Choice(&BANDS),
         default: "V",
@@ -601,6 +608,42 @@ pub const COLUMNS: &[Column] = &[
         need: Optional,
         get: |t| Cell::num_or_empty(t.mean_mag),
         set: |t, c| t.mean_mag = c.num(),
+    },
+    Column {
+        key: "class",
+        unit: "cepheid rrlyrae mira",
+        about: "picks the relation; empty: inferred from the period",
+        ty: Ty::Choice(&PULSATOR_CLASSES),
+        default: "",
+        bounds: &[],
+        every_kind: false,
+        need: Optional,
+        get: |t| text_or_empty(&t.class),
+        set: |t, c| t.class = c.text(),
+    },
+    Column {
+        key: "feh_dex",
+        unit: "dex",
+        about: "metallicity [Fe/H], dex",
+        ty: Ty::Number,
+        default: "",
+        bounds: &[Bound::physical(&crate::bounds::FEH_DEX)],
+        every_kind: false,
+        need: Optional,
+        get: |t| Cell::num_or_empty(t.feh_dex),
+        set: |t, c| t.feh_dex = c.num(),
+    },
+    Column {
+        key: "feh_err_dex",
+        unit: "dex",
+        about: "its uncertainty, dex",
+        ty: Ty::Number,
+        default: "",
+        bounds: &[Bound::physical(&crate::bounds::FEH_ERR_DEX)],
+        every_kind: false,
+        need: Optional,
+        get: |t| Cell::num_or_empty(t.feh_err_dex),
+        set: |t, c| t.feh_err_dex = c.num(),
     },
     Column {
         key: "discovered",
@@ -831,6 +874,13 @@ pub struct Target {
     pub amplitude_mag: Option<f64>,
     /// Intensity-mean magnitude, mag.
     pub mean_mag: Option<f64>,
+    /// A pulsator's class (`cepheid`, `rrlyrae`, `mira`); empty: inferred
+    /// from the period where that is unambiguous.
+    pub class: String,
+    /// A pulsator's metallicity [Fe/H], dex.
+    pub feh_dex: Option<f64>,
+    /// Its uncertainty, dex.
+    pub feh_err_dex: Option<f64>,
     /// Discovery instant (transients).
     pub discovered: Option<Instant>,
     /// Expected peak magnitude (transients).
@@ -885,6 +935,9 @@ impl Target {
             period_err_d: None,
             amplitude_mag: None,
             mean_mag: None,
+            class: String::new(),
+            feh_dex: None,
+            feh_err_dex: None,
             discovered: None,
             peak_mag: None,
             mag_now: None,

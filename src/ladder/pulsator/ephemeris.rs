@@ -151,6 +151,13 @@ pub struct Star {
     pub extinction_mag: f64,
     /// Catalogue place.
     pub place: CatalogPlace,
+    /// Class, when the target gives one (else inferred from the period
+    /// where unambiguous, [`super::PulsatorConfig::settle_class`]).
+    pub class: Option<super::PulsatorClass>,
+    /// Metallicity [Fe/H], dex, when given.
+    pub feh_dex: Option<f64>,
+    /// Its uncertainty, dex, when given.
+    pub feh_err_dex: Option<f64>,
 }
 
 impl Star {
@@ -177,7 +184,20 @@ impl Star {
                 format!("ra {} dec {} is not a direction", t.ra_deg, t.dec_deg),
             )));
         }
+        let class = if t.class.trim().is_empty() {
+            None
+        } else {
+            Some(super::PulsatorClass::parse(&t.class).map_err(named)?)
+        };
+        use crate::bounds::{FEH_DEX, FEH_ERR_DEX};
+        FEH_DEX.check_opt_as("feh_dex", t.feh_dex).map_err(named)?;
+        FEH_ERR_DEX
+            .check_opt_as("feh_err_dex", t.feh_err_dex)
+            .map_err(named)?;
         Ok(Star {
+            class,
+            feh_dex: t.feh_dex,
+            feh_err_dex: t.feh_err_dex,
             ephemeris,
             amplitude_mag,
             mean_mag: t.mean_mag,
@@ -185,6 +205,18 @@ impl Star {
             extinction_mag: t.extinction_mag,
             place: t.place(),
         })
+    }
+
+    /// The relation this star uses in its band, with its class and
+    /// metallicity settled ([`super::PulsatorConfig::star_relation`]).
+    pub fn relation(&self, cfg: &super::PulsatorConfig) -> Result<super::StarRelation> {
+        cfg.star_relation(
+            self.class,
+            &self.band,
+            self.ephemeris.period_d,
+            self.feh_dex,
+            self.feh_err_dex,
+        )
     }
 
     /// Magnitude at the faint phase, mean + amplitude/2 (exposures are sized for it).

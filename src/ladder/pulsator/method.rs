@@ -34,6 +34,8 @@ pub struct PhaseReport {
     pub epochs: Vec<Epoch>,
     /// Per-point signal-to-noise the exposures were sized for.
     pub snr_per_point: f64,
+    /// The relation the star's distance uses (class, metallicity), when one applies.
+    pub relation: Option<StarRelation>,
     /// The distance budget of the planned points, when it can be computed.
     pub budget: Option<DistanceBudget>,
     /// The rule-of-thumb mean-magnitude error σ√((2K+1)/N), mag.
@@ -99,6 +101,17 @@ fn epoch_at(
         },
         caution,
     ))
+}
+
+/// An error about a star's relation, with the target's name in its subject.
+fn name_target(e: RungError, s: &Setting) -> RungError {
+    match e {
+        RungError::Invalid { what, why } => RungError::Invalid {
+            what: format!("{what} of target '{}'", s.target.name),
+            why,
+        },
+        other => other,
+    }
 }
 
 impl PulsatorMethod {
@@ -260,7 +273,16 @@ impl PulsatorMethod {
                 s.target.name, s.site.name, s.from, s.to
             ));
         }
-        let law = self.config.law(&star.band);
+        let law = star.relation(&self.config);
+        if let Ok(r) = &law {
+            notes.extend(r.notes.iter().cloned());
+            if r.relation.reddening_free() && star.extinction_mag > 0.0 {
+                notes.push(format!(
+                    "{} is reddening-free: extinction_mag {} is not applied",
+                    r.relation.band, star.extinction_mag
+                ));
+            }
+        }
         let mut epochs = Vec::new();
         let mut budget = None;
         let mut rule = None;
@@ -305,9 +327,13 @@ impl PulsatorMethod {
                 b.floor_pct
             ));
         }
-        if let Err(e) = law {
-            notes.push(format!("{e}: no distance"));
-        }
+        let relation = match law {
+            Ok(r) => Some(r),
+            Err(e) => {
+                notes.push(format!("{e}: no distance"));
+                None
+            }
+        };
         Ok(PhaseReport {
             star,
             windows,
@@ -322,6 +348,7 @@ impl PulsatorMethod {
             budget,
             sigma_mean_rule_mag: rule,
             prediction,
+            relation,
             cautions,
             notes,
         })
@@ -335,7 +362,7 @@ impl PulsatorMethod {
         epochs: &[Epoch],
         notes: &mut Vec<String>,
     ) -> Result<(Prediction, Option<DistanceBudget>, Option<f64>)> {
-        let law = self.config.law(&star.band)?;
+        let law = &star.relation(&self.config).map_err(|e| name_target(e, s))?;
         let mean = star.mean_mag.ok_or_else(|| {
             RungError::invalid(
                 format!("mean_mag of target '{}'", s.target.name),
@@ -435,7 +462,14 @@ impl PulsatorMethod {
         }
         self.check()?;
         let star = Star::from_target(s.target)?;
-        let law = self.config.law(&star.band)?;
+        // No relation for this star (period outside every range, no class,
+        // no relation in its band): the phases and the plan still stand, the
+        // refusal is said and no distance is given.
+        let law = match star.relation(&self.config) {
+            Ok(r) => r,
+            Err(_) => return self.analyse_with(s, Some(em), self.bins, self.snr),
+        };
+        let law = &law;
         let mean = star.mean_mag.ok_or_else(|| {
             RungError::invalid(
                 format!("mean_mag of target '{}'", s.target.name),
@@ -460,8 +494,12 @@ impl PulsatorMethod {
         if goal_pct <= b0.floor_pct * (1.0 + 1e-9) {
             let mut r = self.analyse_with(&s2, Some(em), self.bins, self.snr)?;
             r.notes.push(format!(
-                "goal {goal_pct} % is out of reach for this method: the relation's scatter ({:.3} mag) and the extinction error ({:.3} mag) set a floor of {:.2} % whatever the points",
-                b0.sigma_pl_mag, b0.sigma_ext_mag, b0.floor_pct
+                "goal {goal_pct} % is out of reach for this method: the relation's scatter ({:.3} mag) and calibration ({:.3} mag), the metallicity term ({:.3} mag) and the extinction error ({:.3} mag) set a floor of {:.2} % whatever the points",
+                b0.sigma_scatter_mag,
+                b0.sigma_zero_point_mag,
+                b0.sigma_feh_mag,
+                b0.sigma_ext_mag,
+                b0.floor_pct
             ));
             if let Some(p) = &mut r.prediction {
                 p.verdict = Verdict::LimitedByFloor {
@@ -472,7 +510,8 @@ impl PulsatorMethod {
             return Ok(r);
         }
         let s_mu = goal_pct / 100.0 / DIST_FRAC_PER_MAG;
-        let allowed = (s_mu * s_mu - b0.sigma_pl_mag.powi(2) - b0.sigma_ext_mag.powi(2)).sqrt();
+        let floor_mag = b0.floor_pct / 100.0 / DIST_FRAC_PER_MAG;
+        let allowed = (s_mu * s_mu - floor_mag * floor_mag).sqrt();
         let mut n = self.bins.max(2 * self.harmonics + 1);
         let mut snr = MAG_PER_INV_SNR / (allowed * (n as f64).sqrt());
         if snr > d.snr_max {
@@ -555,11 +594,15 @@ impl Method for PulsatorMethod {
     }
 
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {
+        // A star no relation applies to is refused with the reason.
+        Star::from_target(s.target)?
+            .relation(&self.config)
+            .map_err(|e| name_target(e, s))?;
         let r = self.goal_report(s, em, goal_pct)?;
         r.prediction.ok_or_else(|| {
             RungError::invalid(
                 format!("target '{}'", s.target.name),
-                "no prediction could be made (no mean magnitude or no Leavitt law for its band)",
+                "no prediction could be made (no mean magnitude or no period–luminosity relation for its class and band)",
             )
         })
     }

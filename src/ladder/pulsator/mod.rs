@@ -15,7 +15,8 @@
 //!
 //! Files by concern: `config` (coefficients and defaults), `ephemeris`
 //! (phase, its uncertainty, the day alias, a star's checked data),
-//! `coverage` (windows and visit plans), `fit` (Fourier fits and mean
+//! `coverage` (windows and visit plans), `relations` (period–luminosity
+//! relations by class and band, the class of a star, its metallicity), `fit` (Fourier fits and mean
 //! magnitudes), `distance` (distance modulus and its budget), `method` (the
 //! phase analysis and the shared method face).
 
@@ -25,6 +26,7 @@ mod distance;
 mod ephemeris;
 mod fit;
 mod method;
+pub mod relations;
 
 pub use config::*;
 pub use coverage::*;
@@ -32,6 +34,10 @@ pub use distance::*;
 pub use ephemeris::*;
 pub use fit::*;
 pub use method::*;
+pub use relations::{
+    CLASS_NAMES, CLASSES, ClassDefaults, ClassFrom, PulsatorClass, Relation, RelationSpec,
+    StarRelation, Wesenheit,
+};
 
 use std::f64::consts::LN_10;
 
