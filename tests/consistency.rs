@@ -555,6 +555,16 @@ fn every_demo_target_agrees_on_every_surface() {
                 d.has(format!("{n} plan notes"), &notes, why);
                 *compared.entry("refused alike").or_default() += 1;
             }
+            (Ok(m), None, Some(why))
+                if kind == "pulsator" && m["distance_precision_pct"].is_null() =>
+            {
+                // A pulsator no relation applies to: its phases are still
+                // planned, its distance refused with the budget's reason.
+                d.has(format!("{n} {kind} note"), &m["notes"].to_string(), why);
+                let notes = o["notes"].to_string();
+                d.has(format!("{n} plan notes"), &notes, why);
+                *compared.entry("refused alike").or_default() += 1;
+            }
             (m, b, sk) => d.0.push(format!(
                 "{n}: method {:?}, budget row {}, skipped {sk:?}",
                 m.as_ref().map(|_| "ok"),
@@ -832,6 +842,11 @@ fn method_line(kind: &str, m: &Value) -> String {
         Some(x) => format!("{x:.dp$}%"),
         None => "—".into(),
     };
+    // A pulsator no relation applies to has no distance and no verdict; the
+    // view says why (the note the command gives).
+    if kind == "pulsator" && m["verdict"].is_null() {
+        return "no distance: ".into();
+    }
     let verdict = m["verdict"]["text"].as_str().unwrap().to_string();
     let epochs = epoch_list(m).len();
     match kind {

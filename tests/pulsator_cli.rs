@@ -160,7 +160,7 @@ fn relation_refusals_word_for_word() {
         .map(|n| n.as_str().unwrap())
         .collect();
     assert!(
-        notes.contains(&"invalid period_d: 0.55 d is outside the classical Cepheid V relation's range 3.7–35.6 d (Benedict et al. 2007, AJ 133, 1810); it is not applied outside the periods it was calibrated on: a star this short is no classical Cepheid (RR Lyrae stars pulsate in 0.2–1 d: give class = rrlyrae): no distance"),
+        notes.contains(&"invalid period_d of target 'LPO-C05': 0.55 d is outside the classical Cepheid V relation's range 3.7–35.6 d (Benedict et al. 2007, AJ 133, 1810); it is not applied outside the periods it was calibrated on: a star this short is no classical Cepheid (RR Lyrae stars pulsate in 0.2–1 d: give class = rrlyrae): no distance"),
         "{notes:?}"
     );
     // R4: no class given and no relation covers 2 d.
@@ -170,7 +170,7 @@ fn relation_refusals_word_for_word() {
     assert!(v["class"].is_null() && v["distance_precision_pct"].is_null());
     assert!(
         v["notes"].as_array().unwrap().iter().any(|n| n.as_str().unwrap()
-            == "invalid class: no relation covers a 2 d period (classical Cepheid 3–100 d, RR Lyrae star 0.2–1 d, Mira 100–420 d): no class can be inferred and no distance given; give the class and a relation valid at this period: no distance"),
+            == "invalid class of target 'LPO-C05': no relation covers a 2 d period (classical Cepheid 3–100 d, RR Lyrae star 0.2–1 d, Mira 100–420 d): no class can be inferred and no distance given; give the class and a relation valid at this period: no distance"),
         "{:#}",
         v["notes"]
     );

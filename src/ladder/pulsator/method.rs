@@ -273,7 +273,7 @@ impl PulsatorMethod {
                 s.target.name, s.site.name, s.from, s.to
             ));
         }
-        let law = star.relation(&self.config);
+        let law = star.relation(&self.config).map_err(|e| name_target(e, s));
         if let Ok(r) = &law {
             notes.extend(r.notes.iter().cloned());
             if r.relation.reddening_free() && star.extinction_mag > 0.0 {

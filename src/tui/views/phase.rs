@@ -158,7 +158,11 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             num(Some(pr.hours_needed), 1),
             pr.verdict.text()
         ),
-        (None, _) => "no distance prediction (the star needs mean_mag)".into(),
+        (None, _) => match r.notes.iter().find_map(|n| n.strip_suffix(": no distance")) {
+            // No relation applies (period outside its range, no class).
+            Some(why) => format!("no distance: {why}"),
+            None => "no distance prediction (the star needs mean_mag)".into(),
+        },
     };
     put(buf, area.x, fy, &buy, area.width, th.text());
     put(
