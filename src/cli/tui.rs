@@ -8,6 +8,7 @@ use rung::astro::time::parse_date;
 use rung::io::sites;
 use rung::io::targets::Target;
 use rung::tui::effects;
+use rung::tui::jobs::{Jobs, Lane};
 use rung::tui::state::Programme;
 use rung::tui::theme::Theme;
 use rung::tui::{Effect, Msg, Setup, draw, init, update};
@@ -244,40 +245,87 @@ fn release_claim() {
     drop(CLAIM.lock().unwrap_or_else(|e| e.into_inner()).take());
 }
 
-fn spawn(effect: Effect, tx: &mpsc::Sender<Msg>, inline: &mut Vec<Msg>) {
-    match effect {
-        Effect::Batch(list) => {
-            for e in list {
-                spawn(e, tx, inline);
-            }
-        }
-        // Saves and the unsaved-edits file happen at once, in order, before
-        // anything else (and before a quit).
-        e @ (Effect::Save(_) | Effect::Recovery { .. }) => inline.extend(effects::run(e)),
-        e => {
-            let tx = tx.clone();
+/// What wakes the event loop: a terminal event (read on a thread of its
+/// own), or the messages of a finished background job.
+enum Wake {
+    Input(crossterm::event::Event),
+    Done(Lane, Vec<Msg>),
+}
+
+/// Background jobs: the policy of [`rung::tui::jobs`] (one job per lane, a
+/// newer one superseding the older, the budget after the night table) and
+/// the threads that run them.
+struct Runner {
+    jobs: Jobs,
+    tx: mpsc::Sender<Wake>,
+}
+
+impl Runner {
+    fn start(&self, starts: Vec<rung::tui::jobs::Start>) {
+        for st in starts {
+            let tx = self.tx.clone();
             std::thread::spawn(move || {
-                for m in effects::run(e) {
-                    if tx.send(m).is_err() {
-                        break;
-                    }
-                }
+                let msgs = effects::run_until(st.effect, &st.cancel);
+                let _ = tx.send(Wake::Done(st.lane, msgs));
             });
         }
     }
+
+    /// Run an effect: saves and the unsaved-edits file at once, in order
+    /// (their messages into `inline`), computations as background jobs.
+    fn spawn(&mut self, effect: Effect, inline: &mut Vec<Msg>) {
+        match effect {
+            Effect::Batch(list) => {
+                for e in list {
+                    self.spawn(e, inline);
+                }
+            }
+            e @ (Effect::Save(_) | Effect::Recovery { .. }) => inline.extend(effects::run(e)),
+            e => {
+                let starts = self.jobs.submit(e);
+                self.start(starts);
+            }
+        }
+    }
+
+    /// A job ended: start what waited for it.
+    fn finished(&mut self, lane: Lane) {
+        let starts = self.jobs.finished(lane);
+        self.start(starts);
+    }
 }
 
-fn apply(state: &mut rung::tui::State, msg: Msg, tx: &mpsc::Sender<Msg>) {
+fn apply(state: &mut rung::tui::State, msg: Msg, runner: &mut Runner) {
     let mut queue = vec![msg];
     while let Some(m) = queue.pop() {
         if let Some(e) = update(state, m) {
             let mut inline = Vec::new();
-            spawn(e, tx, &mut inline);
+            runner.spawn(e, &mut inline);
             inline.reverse();
             queue.extend(inline);
         }
     }
 }
+
+/// Read terminal events on a thread of their own, so that the event loop
+/// sleeps until an event or a job's result arrives (no polling delay).
+fn read_input(tx: mpsc::Sender<Wake>) {
+    std::thread::spawn(move || {
+        while let Ok(ev) = crossterm::event::read() {
+            if tx.send(Wake::Input(ev)).is_err() {
+                break;
+            }
+        }
+    });
+}
+
+/// The longest the event loop sleeps without a message: how soon a signal
+/// from outside is seen.
+const SIGNAL_CHECK: Duration = Duration::from_millis(250);
+
+/// The most time spent applying queued keys and results before the screen is
+/// redrawn (a pasted burst is applied in slices, redrawing between them).
+const DRAIN_SLICE: Duration = Duration::from_millis(30);
 
 /// Signals that end the UI from outside (kill, a closed terminal, Ctrl-C sent
 /// by another process); each sets a flag the event loop checks, so the terminal
@@ -303,23 +351,45 @@ fn event_loop(
     mut setup: Setup,
     signalled: &std::sync::atomic::AtomicUsize,
 ) -> Result<Option<PathBuf>> {
-    use crossterm::event::{self, Event};
     let size = terminal.size()?;
     setup.size = (size.width, size.height);
-    let (tx, rx) = mpsc::channel::<Msg>();
+    let (tx, rx) = mpsc::channel::<Wake>();
+    let mut runner = Runner {
+        jobs: Jobs::default(),
+        tx: tx.clone(),
+    };
     let (mut state, first) = init(setup);
     if let Some(e) = first {
         let mut inline = Vec::new();
-        spawn(e, &tx, &mut inline);
+        runner.spawn(e, &mut inline);
         for m in inline {
-            apply(&mut state, m, &tx);
+            apply(&mut state, m, &mut runner);
         }
     }
+    read_input(tx);
     let mut last_tick = std::time::Instant::now();
     // Test hook for the terminal-restore test (tests/tui_tmux.rs): panic after the first frame.
     let panic_test = std::env::var_os("RUNG_TUI_TEST_PANIC").is_some();
+    let handle = |state: &mut rung::tui::State, runner: &mut Runner, w: Wake| match w {
+        Wake::Input(crossterm::event::Event::Key(k)) => apply(state, Msg::Key(k), runner),
+        Wake::Input(crossterm::event::Event::Resize(w, h)) => {
+            apply(state, Msg::Resize(w, h), runner)
+        }
+        Wake::Input(_) => {}
+        Wake::Done(lane, msgs) => {
+            for m in msgs {
+                apply(state, m, runner);
+            }
+            runner.finished(lane);
+        }
+    };
+    // Draw when something happened (a key, a result, the clock), not on every wake-up.
+    let mut redraw = true;
     loop {
-        terminal.draw(|f| draw(&state, f))?;
+        if redraw {
+            terminal.draw(|f| draw(&state, f))?;
+            redraw = false;
+        }
         if panic_test {
             panic!("RUNG_TUI_TEST_PANIC is set: panicking on purpose to test terminal restore");
         }
@@ -328,20 +398,25 @@ fn event_loop(
             let kept = state.programme.recovery_path();
             return Ok((state.dirty() && kept.exists()).then_some(kept));
         }
-        if event::poll(Duration::from_millis(200))? {
-            match event::read()? {
-                Event::Key(k) => apply(&mut state, Msg::Key(k), &tx),
-                Event::Resize(w, h) => apply(&mut state, Msg::Resize(w, h), &tx),
-                _ => {}
+        // Sleep until a key, a result or the next tick; then apply everything
+        // queued (a burst of keys, results) before drawing once.
+        let tick_in = Duration::from_secs(1).saturating_sub(last_tick.elapsed());
+        if let Ok(w) = rx.recv_timeout(tick_in.min(SIGNAL_CHECK)) {
+            redraw = true;
+            let slice = std::time::Instant::now();
+            handle(&mut state, &mut runner, w);
+            while slice.elapsed() < DRAIN_SLICE && !state.quit {
+                match rx.try_recv() {
+                    Ok(w) => handle(&mut state, &mut runner, w),
+                    Err(_) => break,
+                }
             }
-        }
-        while let Ok(m) = rx.try_recv() {
-            apply(&mut state, m, &tx);
         }
         if last_tick.elapsed() >= Duration::from_secs(1) {
             last_tick = std::time::Instant::now();
             if let Ok(now) = super::now() {
-                apply(&mut state, Msg::Tick(now), &tx);
+                apply(&mut state, Msg::Tick(now), &mut runner);
+                redraw = true;
             }
         }
     }

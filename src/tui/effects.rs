@@ -9,6 +9,7 @@ use crate::io::targets::Target;
 use crate::plan::season::{
     Constraints, NightSky, PreparedPlace, ScanSetup, TargetNightRow, scan_night,
 };
+pub use crate::tui::jobs::Cancel;
 use crate::tui::msg::{
     Effect, Msg, NightJob, PlanJob, RecoveryOp, SaveJob, Saved, SeasonJob, SeasonRows,
 };
@@ -160,6 +161,13 @@ pub fn method_report(k: &MethodKey) -> MethodBody {
 /// and settings: an edit recomputes only the targets it changed, and going
 /// back to settings already seen costs nothing.
 pub fn budget_for(k: &BudgetKey) -> Result<crate::plan::budget::Budget> {
+    budget_until(k, &Cancel::default()).map(|b| b.expect("never cancelled"))
+}
+
+/// [`budget_for`], stopping between targets once `cancel` is set (a newer
+/// budget superseded it): `None` then. The targets already computed are kept
+/// for the next budget with the same settings.
+pub fn budget_until(k: &BudgetKey, cancel: &Cancel) -> Result<Option<crate::plan::budget::Budget>> {
     use crate::plan::budget::{assemble, target_prediction};
     use std::collections::HashMap;
     use std::sync::{Mutex, OnceLock};
@@ -191,11 +199,13 @@ pub fn budget_for(k: &BudgetKey) -> Result<crate::plan::budget::Budget> {
         },
         Err(_) => vec![None; k.targets.len()],
     };
-    let work: Vec<Row> = k
+    let work: Vec<Option<Row>> = k
         .targets
         .par_iter()
         .zip(known)
-        .map(|(t, r)| r.unwrap_or_else(|| target_prediction(&k.settings, t)))
+        .map(|(t, r)| {
+            r.or_else(|| (!cancel.is_cancelled()).then(|| target_prediction(&k.settings, t)))
+        })
         .collect();
     if let Ok(mut m) = memo.lock() {
         let i = match find(&m) {
@@ -210,13 +220,17 @@ pub fn budget_for(k: &BudgetKey) -> Result<crate::plan::budget::Budget> {
         };
         let rows = &mut m[i].1;
         for (t, r) in k.targets.iter().zip(&work) {
+            let Some(r) = r else { continue };
             let v = rows.entry(t.name.clone()).or_default();
             if !v.iter().any(|(mt, _)| mt == t) {
                 v.push((t.clone(), r.clone()));
             }
         }
     }
-    Ok(assemble(&k.settings, &k.targets, work))
+    match work.into_iter().collect::<Option<Vec<Row>>>() {
+        Some(work) => Ok(Some(assemble(&k.settings, &k.targets, work))),
+        None => Ok(None),
+    }
 }
 
 /// The files of a plan export, named after the site and span.
@@ -463,6 +477,14 @@ pub fn keep_recovery(path: &std::path::Path, op: &RecoveryOp) -> std::result::Re
 
 /// Run an effect to completion here and return the messages it produces.
 pub fn run(effect: Effect) -> Vec<Msg> {
+    run_until(effect, &Cancel::default())
+}
+
+/// [`run`], for a job a newer one may supersede: a budget stops between
+/// targets once `cancel` is set and produces no message (the newer job
+/// answers); other jobs run to the end (their results are dropped by the
+/// state's generation or key when stale).
+pub fn run_until(effect: Effect, cancel: &Cancel) -> Vec<Msg> {
     match effect {
         Effect::Night(job) => vec![match night_data(&job) {
             Ok(d) => Msg::NightReady(Box::new(d)),
@@ -476,10 +498,11 @@ pub fn run(effect: Effect) -> Vec<Msg> {
             let body = method_report(&k);
             vec![Msg::MethodReady(Box::new(MethodResult { key: *k, body }))]
         }
-        Effect::Budget(k) => {
-            let r = budget_for(&k).map(Box::new).map_err(|e| e.to_string());
-            vec![Msg::BudgetReady(k, r)]
-        }
+        Effect::Budget(k) => match budget_until(&k, cancel) {
+            Ok(None) => Vec::new(),
+            Ok(Some(b)) => vec![Msg::BudgetReady(k, Ok(Box::new(b)))],
+            Err(e) => vec![Msg::BudgetReady(k, Err(e.to_string()))],
+        },
         Effect::Export(files) => {
             let mut done = Vec::new();
             let mut err = None;
@@ -502,7 +525,10 @@ pub fn run(effect: Effect) -> Vec<Msg> {
         )],
         Effect::Save(job) => vec![save_programme(&job)],
         Effect::Recovery { path, op } => vec![Msg::RecoveryKept(keep_recovery(&path, &op))],
-        Effect::Batch(list) => list.into_iter().flat_map(run).collect(),
+        Effect::Batch(list) => list
+            .into_iter()
+            .flat_map(|e| run_until(e, cancel))
+            .collect(),
     }
 }
 

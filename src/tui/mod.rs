@@ -6,6 +6,7 @@
 
 pub mod effects;
 pub mod form;
+pub mod jobs;
 pub mod keymap;
 pub mod msg;
 pub mod state;
