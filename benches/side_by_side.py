@@ -14,12 +14,21 @@ speed ratio.
 
 Usage: python3 benches/side_by_side.py [--targets 200] [--nights 30]
 Needs the release binary: cargo build --release (or --rung PATH).
+
+With --programme it times instead the jobs an observer runs on a whole
+programme, each once, as the command line runs them (nights built afresh):
+`rung budget` over 18 months, `rung plan` over 6 months at 8 h a night and
+`rung night --targets`, on synthetic invented programmes of 26, 1,000 and
+10,000 targets (`--sizes`), the rows benches/support/synthetic.rs writes for
+the criterion benchmark (benches/programme.rs): wall and CPU seconds and peak
+memory of each run, with the machine's load average.
 """
 
 import argparse
 import csv
 import datetime as dt
 import io
+import math
 import os
 import subprocess
 import sys
@@ -123,6 +132,79 @@ def astropy_season(names, ra, dec, dates, min_alt, sun_alt, moon_sep, step_min=5
     return hours
 
 
+def synthetic_programme(n):
+    """The CSV of benches/support/synthetic.rs for n targets (same rows)."""
+    lines = [
+        "# synthetic invented programme (benches/support/synthetic.rs)",
+        "name,kind,ra,dec,parallax_mas,pm_ra_masyr,pm_dec_masyr,mag,band,period_d,epoch_max_bjd,"
+        "period_err_d,amplitude_mag,mean_mag,discovered,peak_mag,mag_now,redshift,extinction_mag,"
+        "goal_pct,priority,notes",
+    ]
+    golden = 180.0 * (3.0 - math.sqrt(5.0))
+    s_lo, s_hi = math.sin(math.radians(-80.0)), math.sin(math.radians(35.0))
+    for i in range(n):
+        ra = math.fmod(golden * i, 360.0)
+        z = s_lo + (s_hi - s_lo) * (i + 0.5) / n
+        dec = math.degrees(math.asin(z))
+        name = f"SYN-{i:05d}"
+        k = i % 13
+        if k <= 5:
+            row = (f"{name},parallax,{ra:.5f},{dec:.5f},{15 + (i * 37) % 86},{100 + (i * 53) % 400},"
+                   f"{-200 + (i * 29) % 400},{12.0 + ((i * 7) % 61) / 10.0:.1f},{'R' if i % 2 == 0 else 'I'},"
+                   f",,,,,,,,,,{5 if i % 3 == 0 else 3},1,synthetic (invented)")
+        elif k <= 11:
+            period = 2.0 * 30.0 ** math.modf(i * 0.618034)[0]
+            row = (f"{name},pulsator,{ra:.5f},{dec:.5f},,,,,V,{period:.4f},"
+                   f"{2461000.0 + math.fmod(i * 0.37, period):.4f},{period * 2e-5:.6f},"
+                   f"{0.4 + (i % 6) / 10.0:.1f},{8.0 + ((i * 11) % 51) / 10.0:.1f},,,,,"
+                   f"{0.1 + (i % 9) / 10.0:.2f},{12 if i % 4 == 0 else 3},1,synthetic (invented)")
+        else:
+            row = (f"{name},transient,{ra:.5f},{dec:.5f},,,,,B,,,,,,2026-11-{20 + i % 10:02d}T06:00:00Z,"
+                   f"{15.5 + (i % 25) / 10.0:.1f},,{0.01 + (i % 40) / 1000.0:.3f},0.05,8,2,synthetic (invented)")
+        lines.append(row)
+    return "\n".join(lines) + "\n"
+
+
+def timed_run(cmd, env):
+    """Run cmd once: (wall s, CPU s, peak resident MB), its output discarded."""
+    with open(os.devnull, "wb") as null, tempfile.TemporaryFile() as err:
+        t = time.perf_counter()
+        p = subprocess.Popen(cmd, stdout=null, stderr=err, env=env)
+        _, status, ru = os.wait4(p.pid, 0)
+        wall = time.perf_counter() - t
+        p.returncode = os.waitstatus_to_exitcode(status)
+        if p.returncode not in (0,):
+            err.seek(0)
+            sys.exit(f"side_by_side: {' '.join(cmd)} failed ({p.returncode}): {err.read().decode()[:500]}")
+    return wall, ru.ru_utime + ru.ru_stime, ru.ru_maxrss / 1024.0
+
+
+def programme_scale(a):
+    sizes = [int(x) for x in a.sizes.split(",")]
+    print(f"machine: {os.cpu_count()} logical cores, {os.uname().machine}")
+    print(f"{'job':<34} {'targets':>8} {'wall s':>8} {'CPU s':>8} {'peak MB':>8} {'load':>5}")
+    with tempfile.TemporaryDirectory() as tmp:
+        env = dict(os.environ, RUNG_CONFIG_DIR=os.path.join(tmp, "config"), RUNG_NOW="2026-12-02T01:00:00Z")
+        os.makedirs(env["RUNG_CONFIG_DIR"])
+        for n in sizes:
+            path = os.path.join(tmp, f"synthetic-{n}.csv")
+            with open(path, "w") as f:
+                f.write(synthetic_programme(n))
+            site = ["--site", SITE["name"], "--targets", path]
+            jobs = [
+                ("budget, 18 months", ["budget", *site, "--from", "2026-12-01", "--to", "2028-05-31", "--json"]),
+                ("plan, 6 months, 8 h/night", ["plan", *site, "--from", "2026-12-01", "--to", "2027-05-31",
+                                               "--hours-per-night", "8", "--json"]),
+                ("night --targets", ["night", *site, "--date", "2026-12-01", "--json"]),
+            ]
+            for label, args in jobs:
+                if a.only and a.only not in label:
+                    continue
+                load = os.getloadavg()[0]
+                wall, cpu, mb = timed_run([a.rung, *args], env)
+                print(f"{label:<34} {n:>8} {wall:>8.2f} {cpu:>8.2f} {mb:>8.0f} {load:>5.1f}", flush=True)
+
+
 def main():
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--targets", type=int, default=200)
@@ -132,10 +214,17 @@ def main():
     ap.add_argument("--sun-alt", type=float, default=-18.0)
     ap.add_argument("--moon-sep", type=float, default=30.0)
     ap.add_argument("--rung", default=os.path.join(ROOT, "target", "release", "rung"))
+    ap.add_argument("--programme", action="store_true",
+                    help="time budget, plan and night on synthetic programmes instead")
+    ap.add_argument("--sizes", default="26,1000,10000", help="programme sizes for --programme")
+    ap.add_argument("--only", default="", help="with --programme: only the jobs whose label contains this")
     a = ap.parse_args()
 
     if not os.path.exists(a.rung):
         sys.exit(f"side_by_side: {a.rung} not found; build it with `cargo build --release`")
+    if a.programme:
+        programme_scale(a)
+        return
 
     names, ra, dec = invented_targets(a.targets)
     start = dt.date.fromisoformat(a.start)
