@@ -110,7 +110,7 @@ fn a_users_pulsator_file_changes_budget_phase_and_the_ui_alike() {
     let user = tempfile::tempdir().unwrap();
     std::fs::write(
         user.path().join("pulsator.toml"),
-        "# a narrower V-band relation and finer phase bins\n[defaults]\nbins = 12\n\n[band.V]\nscatter_mag = 0.05\n",
+        "# a narrower V-band relation and finer phase bins\n[defaults]\nbins = 12\n\n[relation.cepheid.V]\nscatter_mag = 0.05\n",
     )
     .unwrap();
 
