@@ -423,9 +423,9 @@ fn budgets_and_ranges() {
         ("B2", err(check_goal(-3.0)), "invalid goal: -3 % is not a distance precision in (0, 100] %".into()),
         ("B3", err(check_goal(101.0)), "invalid goal: 101 % is not a distance precision in (0, 100] %".into()),
         ("B4", err(check_goal(f64::NAN)), "invalid goal: NaN % is not a distance precision in (0, 100] %".into()),
-        ("R1", err(dates(day("2026-06-01"), day("2026-03-01"))), "invalid date range: --from 2026-06-01 is after --to 2026-03-01".into()),
-        ("R2", err(dates(day("2026-03-01"), day("2036-06-01"))), "invalid date range: 3746 nights is longer than the 1098 nights a plan or a budget may span".into()),
-        ("R3", err(rung::plan::season::nights_in(day("2026-03-01"), day("2046-03-01"))), "invalid date range: 2026-03-01 to 2046-03-01 is 7306 nights; a season scan covers at most 3653 nights (10 years)".into()),
+        ("D1", err(dates(day("2026-06-01"), day("2026-03-01"))), "invalid date range: --from 2026-06-01 is after --to 2026-03-01".into()),
+        ("D2", err(dates(day("2026-03-01"), day("2036-06-01"))), "invalid date range: 3746 nights is longer than the 1098 nights a plan or a budget may span".into()),
+        ("D3", err(rung::plan::season::nights_in(day("2026-03-01"), day("2046-03-01"))), "invalid date range: 2026-03-01 to 2046-03-01 is 7306 nights; a season scan covers at most 3653 nights (10 years)".into()),
     ] {
         check(id, got, want);
     }
@@ -546,7 +546,7 @@ fn plan_and_budget_options() {
         "invalid --instrument: unknown instrument 'nope-2m'; known instruments: lucero-1m, alcaravan-2m",
     );
     run(
-        "R4",
+        "D4",
         vec![
             "plan".into(),
             "--targets".into(),
@@ -864,17 +864,17 @@ fn user_method_config() {
     let p = Path::new("pulsator.toml");
     let e = err(PulsatorConfig::merged("# mine\n[defaults]\nbins = 1\n", p));
     check(
-        "C1",
+        "G1",
         e,
         "pulsator.toml, line 3, field 'defaults.bins': must be within 2..200".into(),
     );
     let e = err(PulsatorConfig::merged("[defaults]\nbinz = 12\n", p));
     assert!(
         e.starts_with("pulsator.toml, line 2, field 'defaults.binz': unknown field `binz`"),
-        "C2: {e}"
+        "G2: {e}"
     );
     check(
-        "C2",
+        "G2",
         e.split(", expected").next().unwrap_or("").to_string(),
         "pulsator.toml, line 2, field 'defaults.binz': unknown field `binz`".into(),
     );
@@ -882,7 +882,7 @@ fn user_method_config() {
     let f = d.path().join("parallax.toml");
     std::fs::write(&f, "# only what I change\nmax_airmass = 0.9\n").unwrap();
     check(
-        "C3",
+        "G3",
         err(ParallaxConfig::load(Some(&f))),
         format!(
             "{}, line 2, field 'max_airmass': 0.9 must be at least 1",
@@ -892,7 +892,7 @@ fn user_method_config() {
     let t = d.path().join("transient.toml");
     std::fs::write(&t, "[cadence]\nlost_nights_tolerated = 2\n").unwrap();
     check(
-        "C4",
+        "G4",
         err(rung::ladder::transient::TransientConfig::load(Some(&t))),
         format!(
             "{}, line 2, field 'cadence.lost_nights_tolerated': must be 0 or 1",
