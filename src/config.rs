@@ -55,6 +55,11 @@ pub const PULSATOR: ConfigFile = ConfigFile {
     name: "pulsator.toml",
     builtin: include_str!("../config/pulsator.toml"),
 };
+/// Fields: host galaxies and clusters whose pulsators share a pointing.
+pub const FIELD: ConfigFile = ConfigFile {
+    name: "field.toml",
+    builtin: include_str!("../config/field.toml"),
+};
 /// The transient method's coefficients.
 pub const TRANSIENT: ConfigFile = ConfigFile {
     name: "transient.toml",

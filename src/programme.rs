@@ -230,6 +230,9 @@ pub struct Settings {
     pub goal_pct: Option<f64>,
     /// Every distance method with its configuration (`ladder::methods`).
     pub methods: MethodSet,
+    /// The fields' configuration (`config/field.toml`, the user's
+    /// `field.toml`, then a `field.toml` named on the command line).
+    pub fields: crate::ladder::field::FieldConfig,
     /// Where each setting came from (`site`, `instrument`, `from`, `to`,
     /// `min_alt_deg`, `sun_alt_deg`, `goal_pct`).
     pub origins: BTreeMap<&'static str, Origin>,
@@ -247,6 +250,7 @@ impl PartialEq for Settings {
             && self.limits == o.limits
             && self.goal_pct == o.goal_pct
             && self.methods == o.methods
+            && self.fields == o.fields
     }
 }
 
@@ -407,6 +411,9 @@ impl Settings {
             limits,
             goal_pct,
             methods: crate::ladder::methods(&req.method_files)?,
+            fields: crate::ladder::field::FieldConfig::load(
+                req.method_files.get("field.toml").map(|p| p.as_path()),
+            )?,
             origins,
         })
     }
@@ -440,6 +447,48 @@ impl Settings {
             Some(m) => crate::ladder::goal_for(t, self.goal_pct, m),
             None => t.goal_pct.or(self.goal_pct),
         }
+    }
+
+    /// The planner of fields: the pulsating-star method (its relations, bins,
+    /// harmonics and SNR limits) and the fields' configuration. An error when
+    /// the settings have no pulsating-star method.
+    pub fn field_planner(&self) -> Result<crate::ladder::field::FieldPlanner<'_>> {
+        Ok(crate::ladder::field::FieldPlanner {
+            pulsator: self
+                .methods
+                .get::<PulsatorMethod>()
+                .ok_or_else(|| RungError::invalid("field", "no pulsating-star method"))?,
+            config: &self.fields,
+        })
+    }
+
+    /// Where and when the field `g` of `targets` may be observed, with its
+    /// goal (its own `goal_pct`, else the programme's).
+    pub fn field_setting<'a>(
+        &'a self,
+        targets: &'a [Target],
+        g: &crate::ladder::field::FieldGroup,
+    ) -> crate::ladder::field::FieldSetting<'a> {
+        let field = &targets[g.field];
+        crate::ladder::field::FieldSetting {
+            site: &self.site,
+            field,
+            members: g.members.iter().map(|i| &targets[*i]).collect(),
+            from: self.from,
+            to: self.to,
+            limits: self.limits,
+            goal_pct: self.goal_for(field),
+        }
+    }
+
+    /// The plan of the field `g` of `targets` (its goal's, else the proposal).
+    pub fn field_report(
+        &self,
+        targets: &[Target],
+        g: &crate::ladder::field::FieldGroup,
+    ) -> Result<crate::ladder::field::FieldReport> {
+        self.field_planner()?
+            .plan(&self.field_setting(targets, g), &self.photometer)
     }
 
     /// The same settings at another site (a choice made in the UI).

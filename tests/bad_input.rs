@@ -174,7 +174,7 @@ fn targets_csv() {
         (
             "C6",
             "name,ra,dec,kind\nA,1,2,quasar\n",
-            "t.csv, line 2, field 'kind': 'quasar' is not one of parallax, pulsator, transient, plain",
+            "t.csv, line 2, field 'kind': 'quasar' is not one of parallax, pulsator, transient, field, plain",
             0,
         ),
         (

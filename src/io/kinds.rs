@@ -106,6 +106,7 @@ kinds! {
         ("class", Optional),
         ("feh_dex", Optional),
         ("feh_err_dex", Optional),
+        ("field", Optional),
     ];
     /// Thermonuclear supernova (standardized candle).
     Transient = "transient", '✶', "thermonuclear supernova, standardized candle", &[
@@ -118,6 +119,12 @@ kinds! {
         ("classification", Optional),
         ("host_mu_mag", Optional),
         ("host_mu_err_mag", Optional),
+    ];
+    /// A host galaxy or cluster: the field its pulsators share (one pointing
+    /// serves them; their distances combine into the field's).
+    Field = "field", '◎', "host galaxy or cluster: one pointing, one distance from its pulsators", &[
+        ("feh_dex", Optional),
+        ("feh_err_dex", Optional),
     ];
     /// Visibility only.
     Plain = "plain", '○', "visibility only", &[("mag", Optional)];
@@ -160,7 +167,7 @@ impl Kind {
         column(field).is_some_and(|c| c.every_kind)
             || self.spec().fields.iter().any(|(f, _)| *f == field)
     }
-    /// The names of all kinds, for messages: "parallax, pulsator, transient, plain".
+    /// The names of all kinds, for messages: "parallax, pulsator, transient, field, plain".
     pub fn names() -> String {
         KINDS.iter().map(|k| k.name).collect::<Vec<_>>().join(", ")
     }
@@ -646,6 +653,18 @@ pub const COLUMNS: &[Column] = &[
         set: |t, c| t.feh_err_dex = c.num(),
     },
     Column {
+        key: "field",
+        unit: "name",
+        about: "host galaxy or cluster: a target of kind field",
+        ty: Ty::Text,
+        default: "",
+        bounds: &[],
+        every_kind: false,
+        need: Optional,
+        get: |t| text_or_empty(&t.field),
+        set: |t, c| t.field = c.text(),
+    },
+    Column {
         key: "discovered",
         unit: "ISO 8601",
         about: "ISO 8601 UTC",
@@ -877,7 +896,10 @@ pub struct Target {
     /// A pulsator's class (`cepheid`, `rrlyrae`, `mira`); empty: inferred
     /// from the period where that is unambiguous.
     pub class: String,
-    /// A pulsator's metallicity [Fe/H], dex.
+    /// The field (host galaxy or cluster, a target of kind `field`) a
+    /// pulsator belongs to; empty: none.
+    pub field: String,
+    /// The metallicity [Fe/H] of a pulsator or a field's mean, dex.
     pub feh_dex: Option<f64>,
     /// Its uncertainty, dex.
     pub feh_err_dex: Option<f64>,
@@ -936,6 +958,7 @@ impl Target {
             amplitude_mag: None,
             mean_mag: None,
             class: String::new(),
+            field: String::new(),
             feh_dex: None,
             feh_err_dex: None,
             discovered: None,

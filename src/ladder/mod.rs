@@ -7,6 +7,7 @@
 //! plus one line in [`methods`].
 
 pub mod chain;
+pub mod field;
 pub mod parallax;
 pub mod pulsator;
 pub mod transient;
@@ -65,6 +66,48 @@ pub trait ExposureModel: Sync {
         let set = crate::sky::bands::BandSet::builtin().ok()?;
         let b = set.get(band).ok()?;
         Some((b.lambda_eff_angstrom, b.bandwidth_angstrom))
+    }
+
+    /// The camera's field of view, arcmin: [width along right ascension,
+    /// height along declination]; `None` when the model does not know it
+    /// (a field then cannot tell which stars one pointing serves).
+    fn fov_arcmin(&self) -> Option<[f64; 2]> {
+        None
+    }
+    /// Outer radius of the photometry's sky annulus, arcsec: a star of a
+    /// field is measured in a pointing only this far inside the field's
+    /// edges. The default: 5 seeing FWHM.
+    fn annulus_outer_arcsec(&self) -> f64 {
+        5.0 * self.seeing_fwhm_arcsec()
+    }
+    /// Sub-exposures a star of magnitude `mag` needs in a total `exptime_s`
+    /// to stay within the detector's linear range (a field visit is split for
+    /// its brightest star). The default: one.
+    fn frames_for(
+        &self,
+        mag: f64,
+        band: &str,
+        exptime_s: f64,
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<u32> {
+        let _ = (mag, band, exptime_s, ctx, place);
+        Ok(1)
+    }
+    /// Signal-to-noise on a star of magnitude `mag` in a total `exptime_s`
+    /// split into `n_frames` sub-exposures chosen for another star (each frame
+    /// adds read noise). The default ignores the split: [`Self::snr`].
+    fn snr_in_frames(
+        &self,
+        mag: f64,
+        band: &str,
+        exptime_s: f64,
+        n_frames: u32,
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<f64> {
+        let _ = n_frames;
+        self.snr(mag, band, exptime_s, ctx, place)
     }
     /// Exposure of a long-slit spectrum of a point source of magnitude `mag`
     /// in `band` reaching `snr` per resolution element at

@@ -63,9 +63,34 @@ pub struct Instrument {
     pub sky_annulus_fwhm: [f64; 2],
     /// End-to-end efficiency per band above the atmosphere.
     pub throughput: BTreeMap<String, f64>,
+    /// Field of view of the camera on the sky, arcmin: one number for a
+    /// square field, or [width along right ascension, height along
+    /// declination] (the detector read with north up); absent when unknown.
+    #[serde(default)]
+    pub fov_arcmin: Option<Fov>,
     /// A long-slit spectrograph on the same telescope, if it has one.
     #[serde(default)]
     pub spectrograph: Option<Spectrograph>,
+}
+
+/// A camera's field of view, arcmin (`fov_arcmin` in instruments.toml).
+#[derive(Debug, Clone, Copy, PartialEq, Deserialize, Serialize)]
+#[serde(untagged)]
+pub enum Fov {
+    /// A square field of this side.
+    Square(f64),
+    /// [width along right ascension, height along declination].
+    Rect([f64; 2]),
+}
+
+impl Fov {
+    /// [width along right ascension, height along declination], arcmin.
+    pub fn sides_arcmin(&self) -> [f64; 2] {
+        match *self {
+            Fov::Square(s) => [s, s],
+            Fov::Rect(r) => r,
+        }
+    }
 }
 
 impl Instrument {
@@ -205,6 +230,16 @@ impl Instrument {
                     &format!("throughput.{k}"),
                     format!("{v} is not an efficiency in (0, 1]"),
                 ));
+            }
+        }
+        if let Some(f) = self.fov_arcmin {
+            for v in f.sides_arcmin() {
+                if !(v.is_finite() && v > 0.0 && v <= 600.0) {
+                    return Err(bad(
+                        "fov_arcmin",
+                        format!("{v} is not a field of view in (0, 600] arcmin"),
+                    ));
+                }
             }
         }
         let spectrograph = self.spectrograph.map(|s| s.validated()).transpose()?;

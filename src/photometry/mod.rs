@@ -370,6 +370,49 @@ impl ExposureModel for Photometer {
         Some((b.lambda_eff_angstrom, b.bandwidth_angstrom))
     }
 
+    fn fov_arcmin(&self) -> Option<[f64; 2]> {
+        self.instrument.fov_arcmin.map(|f| f.sides_arcmin())
+    }
+
+    fn annulus_outer_arcsec(&self) -> f64 {
+        self.instrument.sky_annulus_fwhm[1] * self.seeing_fwhm_arcsec
+    }
+
+    /// The split [`ccd::Rates::n_exposures_for`] gives this star.
+    fn frames_for(
+        &self,
+        mag: f64,
+        band: &str,
+        exptime_s: f64,
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<u32> {
+        ccd::check_exptime(exptime_s)?;
+        let (r, _) = self.prepare(mag, band, ctx, place)?;
+        r.n_exposures_for(exptime_s, &self.instrument)
+    }
+
+    /// The CCD equation with `n_frames` reads, through the aperture best for
+    /// this star and split.
+    fn snr_in_frames(
+        &self,
+        mag: f64,
+        band: &str,
+        exptime_s: f64,
+        n_frames: u32,
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<f64> {
+        ccd::check_exptime(exptime_s)?;
+        let (r, _) = self.prepare(mag, band, ctx, place)?;
+        let n = n_frames.max(1);
+        let radius = r.best_radius_pix(exptime_s, n);
+        Ok(
+            r.evaluate(exptime_s, n, radius, self.instrument.saturation_e())
+                .snr,
+        )
+    }
+
     fn spectrum_exptime(
         &self,
         mag: f64,

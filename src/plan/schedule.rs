@@ -289,7 +289,8 @@ pub struct Schedule {
 fn flex_nights(kind: Kind) -> i64 {
     match kind {
         Kind::Parallax => 10,
-        Kind::Pulsator | Kind::Transient => 1,
+        // A field's visits serve every star of its pointing (src/ladder/field.rs).
+        Kind::Pulsator | Kind::Transient | Kind::Field => 1,
         Kind::Plain => 0,
     }
 }

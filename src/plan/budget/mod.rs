@@ -76,6 +76,9 @@ pub struct BudgetRow {
     /// The nights of its epochs with their clear-weather hours.
     #[serde(skip)]
     pub epoch_nights: Vec<(NaiveDate, f64)>,
+    /// A field's stars (counted in its row, never in rows of their own;
+    /// src/ladder/field.rs); empty for any other target.
+    pub members: Vec<String>,
 }
 
 /// The weather the budget assumes.
@@ -258,6 +261,41 @@ pub fn target_work(
     }))
 }
 
+/// What the target at `i` of a list takes, a field being one unit
+/// (src/ladder/field.rs): a field's plan with all its stars (one row, its
+/// hours counted once, its verdict); nothing for a star of a field (its
+/// field's row counts it); a refused field link as the reason; any other
+/// target as [`target_prediction`].
+pub fn list_prediction(
+    settings: &Settings,
+    targets: &[Target],
+    links: &crate::ladder::field::Links,
+    i: usize,
+) -> Option<std::result::Result<Prediction, String>> {
+    use crate::ladder::field::Role;
+    match links.role(i) {
+        Role::Alone => target_prediction(settings, &targets[i]),
+        Role::Member(_) => None,
+        Role::Refused(why) => Some(Err(why.to_string())),
+        Role::Field(g) => {
+            let f = &targets[g.field];
+            settings.goal_for(f)?;
+            if g.members.is_empty() {
+                return Some(Err(format!(
+                    "field '{}' has no pulsators: give its stars field = {}",
+                    f.name, f.name
+                )));
+            }
+            Some(
+                settings
+                    .field_report(targets, g)
+                    .map(|r| r.prediction)
+                    .map_err(|e| e.to_string()),
+            )
+        }
+    }
+}
+
 /// Budget every target that has a method, with the programme's settings (its
 /// site, range, limits, instrument and methods; [`target_prediction`] for
 /// each target, on all cores); a target without a method or a goal is
@@ -273,11 +311,22 @@ pub fn budget_with(settings: &Settings, targets: &[Target], opts: &Options) -> R
         a.check()?;
         a.check_semesters(settings)?;
     }
+    let links = crate::ladder::field::link(targets);
+    let curves = opts.curves || opts.asked.is_some();
     let work: Vec<_> = {
         use rayon::prelude::*;
-        targets
-            .par_iter()
-            .map(|t| target_work(settings, t, opts.curves || opts.asked.is_some()))
+        (0..targets.len())
+            .into_par_iter()
+            .map(|i| match links.role(i) {
+                crate::ladder::field::Role::Alone => target_work(settings, &targets[i], curves),
+                // A field's row (its curve is not drawn) or a star of one.
+                _ => list_prediction(settings, targets, &links, i).map(|r| {
+                    r.map(|p| TargetWork {
+                        prediction: p,
+                        curve: Vec::new(),
+                    })
+                }),
+            })
             .collect()
     };
     assemble_with(settings, targets, work, opts)
@@ -393,6 +442,7 @@ pub fn assemble_with(
 ) -> Result<Budget> {
     let site = &settings.site;
     let climate = &site.climate;
+    let links = crate::ladder::field::link(targets);
     let (clear, source, default_used) = clear_fraction(settings);
     let confidence = opts.confidence.unwrap_or(weather::DEFAULT_CONFIDENCE);
     let work: Vec<(usize, std::result::Result<TargetWork, String>)> = work
@@ -448,14 +498,24 @@ pub fn assemble_with(
                     exposure_s: exp,
                     curve,
                     epoch_nights: nights,
+                    members: match links.role(i) {
+                        crate::ladder::field::Role::Field(g) => {
+                            g.members.iter().map(|m| targets[*m].name.clone()).collect()
+                        }
+                        _ => Vec::new(),
+                    },
                 });
             }
             Err(e) => skipped.push((t.name.clone(), e)),
         }
     }
     for (i, t) in targets.iter().enumerate() {
+        if let crate::ladder::field::Role::Member(_) = links.role(i) {
+            // Counted in its field's row.
+            continue;
+        }
         if !done[i] {
-            let why = if settings.method(t.kind).is_none() {
+            let why = if t.kind != Kind::Field && settings.method(t.kind).is_none() {
                 format!("no distance method for kind '{}'", t.kind.as_str())
             } else {
                 "no goal: give the target a goal_pct or pass --goal-pct".to_string()
