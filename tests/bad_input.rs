@@ -369,7 +369,7 @@ fn plan_files() {
         ("P1", err(plan.check_targets(&other, p)), format!("p.json, field 'targets_fingerprint': this plan was made for another targets list (t.csv, fingerprint {fa}); the list given has fingerprint {fb}. Nothing was changed")),
         ("P2", err(parse(&good[..good.find("\"visits\"").unwrap()], p)), "p.json, line 12: not a readable plan file (column 2): EOF while parsing a value".into()),
         ("P3", err(parse("", p)), "p.json, line 1: not a readable plan file (column 0): EOF while parsing a value".into()),
-        ("P4", bad("\"kind\": \"plain\"", "\"kind\": \"quasar\""), "p.json, line 16, field 'kind': not a readable plan file (column 22): unknown variant `quasar`, expected one of `parallax`, `pulsator`, `transient`, `plain`".into()),
+        ("P4", bad("\"kind\": \"plain\"", "\"kind\": \"quasar\""), "p.json, line 16, field 'kind': not a readable plan file (column 22): unknown variant `quasar`, expected one of `parallax`, `pulsator`, `transient`, `field`, `plain`".into()),
         ("P5", bad("\"status\": \"planned\"", "\"status\": \"maybe\""), "p.json, line 24, field 'status': not a readable plan file (column 23): unknown variant `maybe`, expected one of `planned`, `done`, `lost`".into()),
         ("P6", bad("\"start\": \"2026-03-02T01:00:00Z\"", "\"start\": \"2026-03-02T25:00:00Z\""), format!("p.json, line 18, field 'start': not a readable plan file (column 37): cannot read time from '2026-03-02T25:00:00Z': {ISO}")),
         ("P7", bad("  \"lost_nights\": [],\n", "  \"lost_nights\": [],\n  \"notes\": \"x\",\n"), "p.json, line 12, field 'notes': not a readable plan file (column 9): unknown field `notes`, expected one of `format`, `site`, `targets_file`, `targets_fingerprint`, `from`, `to`, `hours_per_night`, `min_alt_deg`, `sun_alt_deg`, `instrument`, `lost_nights`, `visits`, `h…".into()),
@@ -830,7 +830,7 @@ fn instruments_toml() {
         (
             "I5",
             bad("readout_s", "read_out_s"),
-            "i.toml, line 12, field 'read_out_s': unknown field `read_out_s`, expected one of `name`, `description`, `aperture_m`, `obstruction`, `pixel_scale_arcsec`, `read_noise_e`, `dark_e_per_pix_s`, `gain_e_per_adu`, `full_well_e`, `adc_bits`, `linear_fraction`, `seeing_fwhm_arcsec`, `readout_s`, `visit_overhead_s`, `filter_change_s`, `calibration_s_per_night`, `min_exptime_s`, `max_sub_exptime_s`, `sky_annulus_fwhm`, `throughput`, `spectrograph`",
+            "i.toml, line 12, field 'read_out_s': unknown field `read_out_s`, expected one of `name`, `description`, `aperture_m`, `obstruction`, `pixel_scale_arcsec`, `read_noise_e`, `dark_e_per_pix_s`, `gain_e_per_adu`, `full_well_e`, `adc_bits`, `linear_fraction`, `seeing_fwhm_arcsec`, `readout_s`, `visit_overhead_s`, `filter_change_s`, `calibration_s_per_night`, `min_exptime_s`, `max_sub_exptime_s`, `sky_annulus_fwhm`, `throughput`, `fov_arcmin`, `spectrograph`",
         ),
         (
             "I6",

@@ -1015,6 +1015,7 @@ impl<'a> FieldPlanner<'a> {
     /// The exposure of one visit of a pointing at `t`: per band, sized for
     /// the faintest star at its faint phase to reach `snr`, split for the
     /// brightest at its bright phase.
+    #[allow(clippy::too_many_arguments)]
     fn visit_epoch(
         &self,
         fs: &FieldSetting,
@@ -1039,26 +1040,36 @@ impl<'a> FieldPlanner<'a> {
                 .iter()
                 .max_by(|a, b| a.faint_mag.total_cmp(&b.faint_mag))
                 .ok_or_else(|| RungError::invalid("field", "a band without stars"))?;
-            let (exptime_s, n) =
+            let (mut exptime_s, n) =
                 em.exptime(faint.faint_mag, &band, snr, &ctx, &faint.star.place)?;
+            // Split for the brightest star; each frame adds read noise, so
+            // the exposure grows until the faintest star still reaches `snr`.
             let mut frames = n;
-            for m in &stars {
-                frames = frames.max(em.frames_for(
-                    m.bright_mag,
+            let mut got = f64::NAN;
+            for _ in 0..8 {
+                frames = n;
+                for m in &stars {
+                    frames = frames.max(em.frames_for(
+                        m.bright_mag,
+                        &band,
+                        exptime_s,
+                        &ctx,
+                        &m.star.place,
+                    )?);
+                }
+                got = em.snr_in_frames(
+                    faint.faint_mag,
                     &band,
                     exptime_s,
+                    frames,
                     &ctx,
-                    &m.star.place,
-                )?);
+                    &faint.star.place,
+                )?;
+                if got >= snr * (1.0 - 1e-6) {
+                    break;
+                }
+                exptime_s *= (snr / got).powi(2) * 1.0001;
             }
-            let got = em.snr_in_frames(
-                faint.faint_mag,
-                &band,
-                exptime_s,
-                frames,
-                &ctx,
-                &faint.star.place,
-            )?;
             visit_s += exptime_s + frames as f64 * em.readout_s();
             exposures.push(BandExposure {
                 band,
@@ -1502,7 +1513,10 @@ impl<'a> FieldPlanner<'a> {
             .map(|m| self.star_terms(m, 0.0))
             .collect();
         let floor = combine(&perfect, &prep.wide).map_or(f64::NAN, |x| x.floor_pct);
-        if !(goal > floor * (1.0 + 1e-9)) {
+        if perfect.is_empty() {
+            return run(n0, self.pulsator.snr, &mut notes);
+        }
+        if goal <= floor * (1.0 + 1e-9) {
             notes.push(format!(
                 "goal {goal} % is out of reach for this field: the relation's scatter over its stars and the field-wide terms set a floor of {floor:.2} % whatever the points"
             ));

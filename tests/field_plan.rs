@@ -1,0 +1,275 @@
+//! A field's plan with the demo instrument: one visit serves every star inside
+//! the field of view and none outside, exposures are sized for the faintest
+//! star, the cadence covers the phases of all stars, and the budget counts a
+//! field once.
+
+use chrono::NaiveDate;
+use rung::astro::frames::Context;
+use rung::astro::night::Limits;
+use rung::io::sites;
+use rung::io::targets::{Kind, Target};
+use rung::ladder::field::{FieldConfig, FieldPlanner, FieldSetting, standard_offset_arcmin};
+use rung::ladder::pulsator::PulsatorMethod;
+use rung::ladder::{ExposureModel, Verdict};
+use rung::photometry::Photometer;
+use std::collections::BTreeMap;
+use std::process::Command;
+
+const RA0: f64 = 40.4;
+const DEC0: f64 = -38.8667;
+
+/// An invented Cepheid at standard offset (ξ, η) arcmin from the field's centre.
+fn cepheid(name: &str, xi: f64, eta: f64, period_d: f64, mean_mag: f64) -> Target {
+    let r = |a: f64| (a / 60.0).to_radians();
+    let (a, b) = sofars::projection::tpsts(r(xi), r(eta), RA0.to_radians(), DEC0.to_radians());
+    let mut t = Target::plain(name, a.to_degrees(), b.to_degrees());
+    t.kind = Kind::Pulsator;
+    t.period_d = Some(period_d);
+    t.epoch_max_bjd = Some(2_461_000.0 + 0.37 * period_d);
+    t.period_err_d = Some(period_d * 2e-5);
+    t.amplitude_mag = Some(0.8);
+    t.mean_mag = Some(mean_mag);
+    t.extinction_mag = 0.12;
+    t.field = "LPO-G9".into();
+    t
+}
+
+fn field() -> Target {
+    let mut g = Target::plain("LPO-G9", RA0, DEC0);
+    g.kind = Kind::Field;
+    g.goal_pct = Some(5.0);
+    g.feh_dex = Some(-0.4);
+    g.feh_err_dex = Some(0.1);
+    g
+}
+
+fn members() -> Vec<Target> {
+    vec![
+        cepheid("G9-V1", -3.0, 2.0, 3.1, 19.6),
+        cepheid("G9-V2", 1.0, -4.0, 5.4, 19.1),
+        cepheid("G9-V3", 4.5, 4.5, 8.2, 18.6),
+        cepheid("G9-V4", -5.5, -1.0, 12.7, 18.1),
+        cepheid("G9-V5", 0.5, 0.5, 21.3, 17.6),
+        // Outside the 13.65' field (9' east): a pointing of its own.
+        cepheid("G9-V6", 9.0, 0.0, 6.6, 18.9),
+    ]
+}
+
+fn d(s: &str) -> NaiveDate {
+    NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap()
+}
+
+#[test]
+fn one_visit_serves_the_stars_inside_and_none_outside() {
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let em = Photometer::demo(&site).unwrap();
+    assert_eq!(em.fov_arcmin(), Some([13.65, 13.65]));
+    let pm = PulsatorMethod::default();
+    let cfg = FieldConfig::builtin();
+    let planner = FieldPlanner {
+        pulsator: &pm,
+        config: &cfg,
+    };
+    let g = field();
+    let ms = members();
+    let fs = FieldSetting {
+        site: &site,
+        field: &g,
+        members: ms.iter().collect(),
+        from: d("2026-12-01"),
+        to: d("2027-01-15"),
+        limits: Limits::new(30.0, -12.0).unwrap(),
+        goal_pct: Some(5.0),
+    };
+    let r = planner.plan(&fs, &em).unwrap();
+    assert_eq!(r.pointings.len(), 2);
+    let (own, out) = (&r.pointings[0], &r.pointings[1]);
+    assert_eq!(own.target, "LPO-G9");
+    assert_eq!(own.stars, ["G9-V1", "G9-V2", "G9-V3", "G9-V4", "G9-V5"]);
+    assert_eq!(out.target, "G9-V6");
+    assert_eq!(out.stars, ["G9-V6"]);
+    assert!(!own.epochs.is_empty() && !out.epochs.is_empty());
+    // Every visit of the field's pointing gives each star inside a point; the
+    // star outside gets its points from its own pointing only.
+    for s in &r.stars[..5] {
+        assert_eq!(s.pointing, Some(0), "{}", s.name);
+        assert_eq!(s.points, own.epochs.len(), "{}", s.name);
+        assert!(s.sigma_mean_mag.is_some(), "{}", s.name);
+        let o = s.offset_arcmin.unwrap();
+        assert!(o[0].abs() < 6.8 && o[1].abs() < 6.8);
+    }
+    assert_eq!(r.stars[5].pointing, Some(1));
+    assert_eq!(r.stars[5].points, out.epochs.len());
+    let o6 = standard_offset_arcmin(RA0, DEC0, ms[5].ra_deg, ms[5].dec_deg).unwrap();
+    assert!((o6[0] - 9.0).abs() < 1e-9);
+    // With the field's own visits alone, the outside star has no point.
+    let mut only_own = BTreeMap::new();
+    only_own.insert("LPO-G9".to_string(), own.epochs.clone());
+    let p = planner.predict(&fs, &em, &only_own).unwrap();
+    assert_eq!(p.stars[5].points, 0);
+    assert_eq!(p.stars[5].excluded.as_deref(), Some("no visit measures it"));
+    for s in &p.stars[..5] {
+        assert_eq!(s.points, own.epochs.len());
+    }
+    assert_eq!(p.distance.as_ref().unwrap().n_stars, 5);
+    // Exposures are sized for the faintest star at its faint phase (G9-V1,
+    // 19.6 + 0.4): it reaches the asked SNR, split for the brightest.
+    assert_eq!(own.faintest.as_deref(), Some("G9-V1"));
+    assert!((own.faintest_mag.unwrap() - 20.0).abs() < 1e-12);
+    assert_eq!(own.brightest.as_deref(), Some("G9-V5"));
+    for e in &own.epochs {
+        let ctx = Context::exact(&site, e.time).unwrap();
+        let v = &e.exposures[0];
+        assert_eq!(v.band, "V");
+        let got = em
+            .snr_in_frames(20.0, "V", v.exptime_s, v.n_exposures, &ctx, &ms[0].place())
+            .unwrap();
+        assert!(
+            got >= r.snr_faintest * (1.0 - 1e-5) && got <= r.snr_faintest * 1.01,
+            "{got} vs {}",
+            r.snr_faintest
+        );
+        let (t_alone, _) = em
+            .exptime(20.0, "V", r.snr_faintest, &ctx, &ms[0].place())
+            .unwrap();
+        assert!(v.exptime_s >= t_alone * (1.0 - 1e-6));
+        assert!(
+            (e.visit_s
+                - (em.visit_overhead_s() + v.exptime_s + v.n_exposures as f64 * em.readout_s()))
+            .abs()
+                < 1e-6
+        );
+    }
+    // Hours are every pointing's visits, once.
+    let hours: f64 = r.prediction.epochs.iter().map(|e| e.visit_s).sum::<f64>() / 3600.0;
+    assert!((r.prediction.hours_needed - hours).abs() < 1e-9);
+    assert_eq!(
+        r.prediction.epochs.len(),
+        own.epochs.len() + out.epochs.len()
+    );
+    // The cadence spreads every star's points over the phase bins.
+    for s in &r.stars {
+        assert!(
+            s.bins_covered * 10 >= s.points * 6,
+            "{}: {} bins for {} points",
+            s.name,
+            s.bins_covered,
+            s.points
+        );
+    }
+    let dist = r.distance.as_ref().unwrap();
+    assert_eq!(dist.n_stars, 6);
+    assert!((r.prediction.distance_precision_pct - dist.distance_precision_pct).abs() < 1e-12);
+    assert_eq!(r.prediction.verdict, Verdict::Reachable, "{:?}", r.notes);
+    assert!(r.prediction.distance_precision_pct <= 5.0);
+    assert!(!r.feh_err_assumed && r.feh_err_dex == 0.1);
+}
+
+#[test]
+fn the_budget_counts_a_field_once() {
+    let dir = std::path::Path::new(env!("CARGO_TARGET_TMPDIR")).join("field_budget");
+    std::fs::create_dir_all(&dir).unwrap();
+    let file = dir.join("t.csv");
+    let mut csv = String::from(
+        "name,kind,ra,dec,period_d,epoch_max_bjd,period_err_d,amplitude_mag,mean_mag,extinction_mag,field,goal_pct\n",
+    );
+    csv.push_str(&format!("LPO-G9,field,{RA0},{DEC0},,,,,,,,5\n"));
+    for t in members().iter().take(5) {
+        csv.push_str(&format!(
+            "{},pulsator,{},{},{},{},{},0.8,{},0.12,LPO-G9,\n",
+            t.name,
+            t.ra_deg,
+            t.dec_deg,
+            t.period_d.unwrap(),
+            t.epoch_max_bjd.unwrap(),
+            t.period_err_d.unwrap(),
+            t.mean_mag.unwrap()
+        ));
+    }
+    csv.push_str("G9-X,pulsator,40.4,-38.9,5.0,2461000.2,0.0001,0.8,18.0,0.1,LPO-G8,5\n");
+    std::fs::write(&file, csv).unwrap();
+    let out = Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args([
+            "budget",
+            "--site",
+            "pampa-lucero",
+            "--targets",
+            file.to_str().unwrap(),
+            "--from",
+            "2026-12-01",
+            "--to",
+            "2027-01-15",
+            "--json",
+        ])
+        .env("RUNG_CONFIG_DIR", env!("CARGO_TARGET_TMPDIR"))
+        .output()
+        .unwrap();
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout)
+        .unwrap_or_else(|e| panic!("{e}: {}", String::from_utf8_lossy(&out.stderr)));
+    let rows = v["rows"].as_array().unwrap();
+    assert_eq!(rows.len(), 1, "{rows:?}");
+    assert_eq!(rows[0]["target"], "LPO-G9");
+    assert_eq!(rows[0]["kind"], "field");
+    assert_eq!(
+        rows[0]["members"],
+        serde_json::json!(["G9-V1", "G9-V2", "G9-V3", "G9-V4", "G9-V5"])
+    );
+    assert_eq!(v["total_hours"], rows[0]["hours"]);
+    // The star with a misspelt field is skipped with the reason; no member is.
+    let skipped = v["skipped"].as_array().unwrap();
+    assert_eq!(skipped.len(), 1, "{skipped:?}");
+    assert_eq!(skipped[0][0], "G9-X");
+    assert_eq!(
+        skipped[0][1],
+        "field 'LPO-G8' of target 'G9-X' names no target of this list; its fields are LPO-G9"
+    );
+}
+
+#[test]
+fn an_instrument_without_a_field_of_view_is_said() {
+    let text = rung::photometry::instrument::BUILTIN_INSTRUMENTS;
+    let bad = text.replace("fov_arcmin = 13.65", "fov_arcmin = 0");
+    let e = rung::photometry::instrument::parse_instruments(&bad, std::path::Path::new("i.toml"))
+        .unwrap_err()
+        .to_string();
+    let line = 1 + text[..text.find("fov_arcmin = 13.65").unwrap()]
+        .matches('\n')
+        .count();
+    assert_eq!(
+        e,
+        format!(
+            "i.toml, line {line}, field 'fov_arcmin': instrument lucero-1m: 0 is not a field of view in (0, 600] arcmin"
+        )
+    );
+    let none = text.replace("fov_arcmin = 13.65\n", "");
+    let list =
+        rung::photometry::instrument::parse_instruments(&none, std::path::Path::new("i.toml"))
+            .unwrap();
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let bands = rung::photometry::BandSet::load().unwrap();
+    let em = Photometer::new(list[0].clone(), bands, site.clone());
+    let pm = PulsatorMethod::default();
+    let cfg = FieldConfig::builtin();
+    let g = field();
+    let ms = members();
+    let fs = FieldSetting {
+        site: &site,
+        field: &g,
+        members: ms.iter().collect(),
+        from: d("2026-12-01"),
+        to: d("2026-12-05"),
+        limits: Limits::new(30.0, -12.0).unwrap(),
+        goal_pct: Some(5.0),
+    };
+    let e = FieldPlanner {
+        pulsator: &pm,
+        config: &cfg,
+    }
+    .plan(&fs, &em)
+    .unwrap_err()
+    .to_string();
+    assert_eq!(
+        e,
+        "invalid field 'LPO-G9': the instrument gives no field of view (fov_arcmin in instruments.toml), so rung cannot tell which stars one pointing serves"
+    );
+}
