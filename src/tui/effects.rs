@@ -199,12 +199,23 @@ pub fn budget_until(k: &BudgetKey, cancel: &Cancel) -> Result<Option<crate::plan
         },
         Err(_) => vec![None; k.targets.len()],
     };
+    // A field is one unit (its plan needs its stars, so it is not kept per
+    // target): its row from its plan, its stars none (plan::budget::list_prediction).
+    let links = crate::ladder::field::link(&k.targets);
+    let alone = |i: usize| matches!(links.role(i), crate::ladder::field::Role::Alone);
     let work: Vec<Option<Row>> = k
         .targets
         .par_iter()
         .zip(known)
-        .map(|(t, r)| {
-            r.or_else(|| (!cancel.is_cancelled()).then(|| target_prediction(&k.settings, t)))
+        .enumerate()
+        .map(|(i, (t, r))| {
+            if alone(i) {
+                r.or_else(|| (!cancel.is_cancelled()).then(|| target_prediction(&k.settings, t)))
+            } else {
+                (!cancel.is_cancelled()).then(|| {
+                    crate::plan::budget::list_prediction(&k.settings, &k.targets, &links, i)
+                })
+            }
         })
         .collect();
     if let Ok(mut m) = memo.lock() {
@@ -219,8 +230,11 @@ pub fn budget_until(k: &BudgetKey, cancel: &Cancel) -> Result<Option<crate::plan
             }
         };
         let rows = &mut m[i].1;
-        for (t, r) in k.targets.iter().zip(&work) {
+        for (i, (t, r)) in k.targets.iter().zip(&work).enumerate() {
             let Some(r) = r else { continue };
+            if !alone(i) {
+                continue;
+            }
             let v = rows.entry(t.name.clone()).or_default();
             if !v.iter().any(|(mt, _)| mt == t) {
                 v.push((t.clone(), r.clone()));

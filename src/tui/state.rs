@@ -651,6 +651,20 @@ impl State {
     /// A budget made before an edit still answers for targets the edit left as
     /// they were, so the column does not blank out while it is recomputed.
     pub fn progress(&self, t: &Target) -> Progress {
+        // A star of a field shows its field's progress (the field is one unit).
+        if !t.field.is_empty()
+            && let Some((k, Ok(b))) = self.budget.as_ref()
+            && self.budget_setting_is_current(k)
+            && k.targets.contains(t)
+            && let Some(r) = b.rows.iter().find(|r| r.members.contains(&t.name))
+        {
+            return Progress::Predicted {
+                achievable_pct: r.achievable_pct,
+                goal_pct: r.goal_pct,
+                reached: r.verdict == crate::ladder::Verdict::Reachable,
+                verdict: r.verdict.clone(),
+            };
+        }
         let Some(goal_pct) = t.goal_pct else {
             return Progress::NoGoal;
         };
