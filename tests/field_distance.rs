@@ -7,28 +7,31 @@ use rung::ladder::field::{
     FieldWide, Role, StarTerms, combine, inside_fov, link, pointings, standard_offset_arcmin,
 };
 
-fn star(mu: f64, sigma_mean: f64, log_p_minus_1: f64, a: f64) -> StarTerms {
+fn star(mu: f64, sigma_mean: f64, log_p_lever: f64, a: f64) -> StarTerms {
     StarTerms {
         mu_mag: mu,
         scatter_mag: 0.21,
         sigma_mean_mag: sigma_mean,
-        relation: "V".into(),
+        relation: "cepheid V".into(),
         zero_point_err_mag: 0.02,
         slope_err_mag_per_dex: 0.12,
-        log_p_minus_1,
+        log_p_lever,
         gamma_mag_per_dex: -0.25,
+        gamma_err_mag_per_dex: 0.1,
+        feh_lever_dex: -0.6,
+        feh_err_dex: 0.15,
         extinction_mag: a,
     }
 }
 
 const WIDE: FieldWide = FieldWide {
-    feh_err_dex: 0.15,
     extinction_sigma_frac: 0.1,
 };
 
 /// The standard error of the weighted mean Σ w_i μ_i / Σ w_i computed
 /// directly from the full covariance matrix of the μ_i:
-/// C_ij = δ_ij (s² + σ_m̄,i²) + σ_zp² + x_i x_j σ_a² + γ² σ[Fe/H]² + f² A_i A_j,
+/// C_ij = δ_ij (s² + σ_m̄,i²) + σ_zp² + x_i x_j σ_a² + z_i z_j σ_γ²
+///        + γ_i γ_j σ[Fe/H]_i σ[Fe/H]_j + f² A_i A_j,
 /// var = wᵀ C w / (Σ w)² (propagation of a linear combination of correlated
 /// quantities; Taylor, An Introduction to Error Analysis, ch. 9).
 fn direct_sigma(stars: &[StarTerms], wide: &FieldWide) -> f64 {
@@ -41,11 +44,15 @@ fn direct_sigma(stars: &[StarTerms], wide: &FieldWide) -> f64 {
     for (i, si) in stars.iter().enumerate() {
         for (j, sj) in stars.iter().enumerate() {
             let mut c = si.zero_point_err_mag * sj.zero_point_err_mag
-                + si.log_p_minus_1
-                    * sj.log_p_minus_1
+                + si.log_p_lever
+                    * sj.log_p_lever
                     * si.slope_err_mag_per_dex
                     * sj.slope_err_mag_per_dex
-                + si.gamma_mag_per_dex * sj.gamma_mag_per_dex * wide.feh_err_dex.powi(2)
+                + si.feh_lever_dex
+                    * sj.feh_lever_dex
+                    * si.gamma_err_mag_per_dex
+                    * sj.gamma_err_mag_per_dex
+                + si.gamma_mag_per_dex * sj.gamma_mag_per_dex * si.feh_err_dex * sj.feh_err_dex
                 + wide.extinction_sigma_frac.powi(2) * si.extinction_mag * sj.extinction_mag;
             if i == j {
                 c += si.scatter_mag.powi(2) + si.sigma_mean_mag.powi(2);
@@ -101,31 +108,34 @@ fn terms_add_up_to_the_direct_covariance_of_the_weighted_mean() {
         shared,
         [
             "relation zero point",
-            "relation slope at the stars' periods"
+            "relation slope at the stars' periods",
+            "relation γ at the stars' [Fe/H]"
         ]
     );
 }
 
 #[test]
 fn sigma_falls_as_one_over_root_n_down_to_the_zero_point() {
-    // N equal stars at P = 10 d (no slope lever), perfect photometry, no
-    // metallicity or extinction term: σ² = σ_PL²/N + σ_zp² exactly.
+    // N equal stars at the pivot period and the reference [Fe/H] (no
+    // slope or γ lever), perfect photometry, no metallicity or extinction
+    // error: σ² = σ_PL²/N + σ_zp² exactly.
     let wide = FieldWide {
-        feh_err_dex: 0.0,
         extinction_sigma_frac: 0.0,
     };
+    let plain = || StarTerms {
+        feh_lever_dex: 0.0,
+        feh_err_dex: 0.0,
+        ..star(22.4, 0.0, 0.0, 0.0)
+    };
     let one = |n: usize| {
-        let stars: Vec<StarTerms> = (0..n).map(|_| star(22.4, 0.0, 0.0, 0.0)).collect();
+        let stars: Vec<StarTerms> = (0..n).map(|_| plain()).collect();
         combine(&stars, &wide).unwrap()
     };
     for n in [1usize, 4, 16, 30, 100, 400] {
         let d = one(n);
         let expect = (0.21f64.powi(2) / n as f64 + 0.02f64.powi(2)).sqrt();
         assert!((d.sigma_mu_mag - expect).abs() < 1e-12, "N = {n}");
-        assert!(
-            (d.sigma_mu_mag - direct_sigma(&vec![star(22.4, 0.0, 0.0, 0.0); n], &wide)).abs()
-                < 1e-12
-        );
+        assert!((d.sigma_mu_mag - direct_sigma(&vec![plain(); n], &wide)).abs() < 1e-12);
         // The scatter term alone is σ_PL/√N.
         assert!((d.error_terms[0].sigma_mag - 0.21 / (n as f64).sqrt()).abs() < 1e-12);
     }
@@ -148,10 +158,12 @@ fn a_monte_carlo_field_scatters_as_its_terms_say() {
     // standard deviation matches σ_μ to within the sampling error (0.5 % for
     // 20 000 draws; 2 % allowed).
     let stars: Vec<StarTerms> = (0..30)
-        .map(|i| star(22.4, 0.01 + 0.002 * i as f64, 0.0, 0.0))
+        .map(|i| StarTerms {
+            feh_lever_dex: 0.0,
+            ..star(22.4, 0.01 + 0.002 * i as f64, 0.0, 0.0)
+        })
         .collect();
     let wide = FieldWide {
-        feh_err_dex: 0.15,
         extinction_sigma_frac: 0.0,
     };
     let d = combine(&stars, &wide).unwrap();
