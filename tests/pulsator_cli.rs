@@ -133,21 +133,21 @@ fn relation_refusals_word_for_word() {
         a.extend(extra);
         rung(&a)
     };
-    // R1
+    // L1
     let (code, _, err) = run(&["--class", "quasar"]);
     assert_eq!(code, 2);
     assert_eq!(
         err.trim(),
         "rung: error: invalid --class: 'quasar' is not a pulsator class rung has relations for: cepheid, rrlyrae, mira"
     );
-    // R2
+    // L2
     let (code, _, err) = run(&["--feh-dex", "3"]);
     assert_eq!(code, 2);
     assert_eq!(
         err.trim(),
         "rung: error: invalid --feh-dex: 3 dex is not within -5..1 dex: pulsators used for distances run from about -3 dex (metal-poor RR Lyrae stars) to about +0.5 dex (inner-disc Cepheids); no star is known below -5 dex with a pulsation distance or above +1 dex"
     );
-    // R3: the phases are still planned; the distance is refused in the notes.
+    // L3: the phases are still planned; the distance is refused in the notes.
     let (code, out, err) = run(&["--period-d", "0.55", "--class", "cepheid", "--json"]);
     assert_eq!(code, 0, "{err}");
     let v: serde_json::Value = serde_json::from_str(&out).unwrap();
@@ -163,7 +163,7 @@ fn relation_refusals_word_for_word() {
         notes.contains(&"invalid period_d of target 'LPO-C05': 0.55 d is outside the classical Cepheid V relation's range 3.7–35.6 d (Benedict et al. 2007, AJ 133, 1810); it is not applied outside the periods it was calibrated on: a star this short is no classical Cepheid (RR Lyrae stars pulsate in 0.2–1 d: give class = rrlyrae): no distance"),
         "{notes:?}"
     );
-    // R4: no class given and no relation covers 2 d.
+    // L4: no class given and no relation covers 2 d.
     let (code, out, _) = run(&["--period-d", "2", "--json"]);
     assert_eq!(code, 0);
     let v: serde_json::Value = serde_json::from_str(&out).unwrap();
@@ -185,7 +185,7 @@ fn relation_refusals_word_for_word() {
 }
 
 /// A targets file's class and metallicity columns are read and checked
-/// (docs/bad-input.md R5, R6).
+/// (docs/bad-input.md L5, L6).
 #[test]
 fn class_and_metallicity_columns() {
     let dir = std::path::Path::new(env!("CARGO_TARGET_TMPDIR")).join("cls_columns");
@@ -234,4 +234,56 @@ fn class_and_metallicity_columns() {
     assert_eq!(v["feh_dex"], -1.2);
     // |γ| σ[Fe/H] = 0.214 × 0.1 (Clementini et al. 2003, M_V–[Fe/H]).
     assert!((v["sigma_feh_mag"].as_f64().unwrap() - 0.0214).abs() < 1e-12);
+}
+
+/// `--band K` with the near-infrared camera: the K relation, the infrared
+/// sky, the extinction carried from V to K; with the optical camera a clear
+/// refusal naming the camera that has K (docs/bad-input.md L7).
+#[test]
+fn band_k_with_the_infrared_camera() {
+    let demo = concat!(env!("CARGO_MANIFEST_DIR"), "/targets-demo/targets.csv");
+    let base = [
+        "phase",
+        "--targets",
+        demo,
+        "--target",
+        "LPO-C05",
+        "--from",
+        "2026-12-01",
+        "--nights",
+        "20",
+        "--band",
+        "K",
+        "--mean-mag",
+        "11.5",
+    ];
+    let mut a = base.to_vec();
+    a.extend(["--instrument", "lucero-1m-ir", "--json"]);
+    let (code, out, err) = rung(&a);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(v["band"], "K");
+    assert_eq!(v["instrument"], "lucero-1m-ir");
+    assert_eq!(v["relation"]["band"], "K");
+    assert_eq!(v["relation"]["class"], "cepheid");
+    // The demo star's A_V = 0.81 becomes A_K = 0.81 × A_K/A_V; CCM (1989) at
+    // 2.159 µm, R_V = 3.1: A_K/A_V = 0.1158 (by hand from the law's infrared
+    // form 0.574 x^1.61 − 0.527 x^1.61/3.1, x = 0.4632 µm⁻¹) → 0.0938 mag.
+    let a_k = v["extinction_mag"].as_f64().unwrap();
+    assert!((a_k - 0.0938).abs() < 0.001, "{a_k}");
+    // K: the relation's 0.09 mag scatter instead of V's 0.21.
+    assert_eq!(v["sigma_scatter_mag"], 0.09);
+    assert!(v["distance_precision_pct"].as_f64().unwrap() < 6.0);
+    // Exposures exist and are split into 60-s frames at most.
+    for x in v["visits"].as_array().unwrap() {
+        assert!(x["exptime_s"].as_f64().unwrap() > 0.0);
+    }
+    let mut a = base.to_vec();
+    a.extend(["--instrument", "lucero-1m"]);
+    let (code, _, err) = rung(&a);
+    assert_eq!(code, 2);
+    assert_eq!(
+        err.trim(),
+        "rung: error: unknown band for instrument lucero-1m 'K'; it has throughput for: B, I, R, U, V; instruments with K: lucero-1m-ir"
+    );
 }

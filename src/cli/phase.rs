@@ -84,7 +84,9 @@ pub struct Args {
     pub json: bool,
 }
 
-fn build_target(a: &Args) -> Result<Target> {
+/// The target `rung phase` plans, with the notes its options call for.
+fn build_target(a: &Args) -> Result<(Target, Vec<String>)> {
+    let mut notes = Vec::new();
     let mut t = match (&a.aim.target, &a.aim.ra, &a.aim.dec) {
         (Some(n), _, _) => {
             let t = super::target_by_name(&a.aim.targets, n)?;
@@ -141,6 +143,20 @@ fn build_target(a: &Args) -> Result<Target> {
         if !BANDS.contains(&up.as_str()) {
             bail!("--band '{b}' is not one of {}", BANDS.join(", "));
         }
+        // The target's extinction is in its own band: carried to the new
+        // band by the Cardelli, Clayton & Mathis (1989) law, R_V = 3.1.
+        if up != t.band && a.extinction_mag.is_none() && t.extinction_mag > 0.0 {
+            let bands = rung::sky::BandSet::load()?;
+            let l0 = bands.get(&t.band)?.lambda_eff_angstrom;
+            let l1 = bands.get(&up)?.lambda_eff_angstrom;
+            use rung::sky::dust::ccm89_a_over_av;
+            let a1 = t.extinction_mag * ccm89_a_over_av(l1, 3.1)? / ccm89_a_over_av(l0, 3.1)?;
+            notes.push(format!(
+                "extinction_mag {} in {} taken to {up} as {a1:.3} mag (Cardelli, Clayton & Mathis 1989, R_V = 3.1); give --extinction-mag to set it",
+                t.extinction_mag, t.band
+            ));
+            t.extinction_mag = a1;
+        }
         t.band = up;
     }
     if let Some(c) = &a.class {
@@ -169,7 +185,7 @@ fn build_target(a: &Args) -> Result<Target> {
             t.name
         );
     }
-    Ok(t)
+    Ok((t, notes))
 }
 
 /// " + 0.59" or " − 4.05" for a term of a formula.
@@ -205,7 +221,7 @@ pub fn run(a: Args) -> Result<()> {
         }
         st.to = st.from + chrono::Days::new(n as u64 - 1);
     }
-    let mut target = build_target(&a)?;
+    let (mut target, option_notes) = build_target(&a)?;
     if a.goal.goal_pct.is_some() {
         target.goal_pct = a.goal.goal_pct;
     }
@@ -228,10 +244,11 @@ pub fn run(a: Args) -> Result<()> {
     }
     let st = st.with_method(Arc::new(m.clone()));
     let site = st.site.clone();
-    let r = match rung::programme::report(&st, &target)? {
+    let mut r = match rung::programme::report(&st, &target)? {
         Report::Phase(r) => *r,
         _ => bail!("no phase report for {}", target.name),
     };
+    r.notes.splice(0..0, option_notes);
     let goal = st.goal_for(&target);
     let at = match &a.at {
         Some(text) => {

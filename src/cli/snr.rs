@@ -25,7 +25,7 @@ pub struct Common {
     /// Star magnitude above the atmosphere (default: the target's magnitude from --targets).
     #[arg(long, allow_hyphen_values = true)]
     pub mag: Option<f64>,
-    /// Band (U, B, V, R, I or one from your bands.toml; default: the target's band, else V).
+    /// Band (U, B, V, R, I, J, H, K or one from your bands.toml; default: the target's band, else V).
     #[arg(long)]
     pub band: Option<String>,
     #[command(flatten)]
@@ -224,9 +224,16 @@ fn emit(
         e.extinction_mag,
         e.seeing_fwhm_arcsec
     );
-    let moon = match e.sky.moon_mag_arcsec2 {
-        Some(m) => format!("Moon term {m:.2}"),
-        None => "Moon down".to_string(),
+    let moon = match (e.sky.airglow_mag_arcsec2, e.sky.moon_mag_arcsec2) {
+        // The near-infrared sky: airglow and heat, no Moon term.
+        (Some(a), _) => format!(
+            "airglow {a:.2}, thermal {}, no Moon term in the infrared",
+            e.sky
+                .thermal_mag_arcsec2
+                .map_or("none".to_string(), |t| format!("{t:.2}"))
+        ),
+        (None, Some(m)) => format!("Moon term {m:.2}"),
+        (None, None) => "Moon down".to_string(),
     };
     let tw = match e.sky.twilight_mag_arcsec2 {
         Some(m) => format!(", twilight term {m:.2}"),

@@ -127,17 +127,31 @@ impl Instrument {
                     .find(|(k, _)| k.eq_ignore_ascii_case(band))
             })
             .map(|(_, v)| *v)
-            .ok_or_else(|| RungError::Unknown {
-                what: format!("band for instrument {}", self.name),
-                name: band.to_string(),
-                hint: format!(
-                    "; it has throughput for: {}",
-                    self.throughput
-                        .keys()
-                        .cloned()
-                        .collect::<Vec<_>>()
-                        .join(", ")
-                ),
+            .ok_or_else(|| {
+                // Name the catalogue's instruments that do have the band.
+                let with: Vec<String> = catalogue()
+                    .unwrap_or_default()
+                    .into_iter()
+                    .filter(|i| i.throughput.keys().any(|k| k.eq_ignore_ascii_case(band)))
+                    .map(|i| i.name)
+                    .collect();
+                RungError::Unknown {
+                    what: format!("band for instrument {}", self.name),
+                    name: band.to_string(),
+                    hint: format!(
+                        "; it has throughput for: {}{}",
+                        self.throughput
+                            .keys()
+                            .cloned()
+                            .collect::<Vec<_>>()
+                            .join(", "),
+                        if with.is_empty() {
+                            String::new()
+                        } else {
+                            format!("; instruments with {band}: {}", with.join(", "))
+                        }
+                    ),
+                }
             })
     }
 

@@ -35,8 +35,33 @@ pub struct Band {
     pub moon_colour_mag: f64,
     /// Colour of the twilight sky, m_band − m_V, mag.
     pub twilight_colour_mag: f64,
+    /// A near-infrared band's sky: airglow and thermal emission instead of
+    /// the optical Moon model (`[band.infrared]`; docs/science.md, Sky
+    /// brightness). Its dark sky (`dark_sky_zenith_mag_arcsec2`) is then the
+    /// airglow at the zenith.
+    #[serde(default)]
+    pub infrared: Option<InfraredSky>,
 }
 
+/// The near-infrared sky model of one band (the project's own
+/// approximation, each number pinned to published practice in
+/// config/bands.toml): OH airglow from a thin layer (van Rhijn 1921) and
+/// grey-body thermal emission of the telescope and the atmosphere at the
+/// ambient temperature.
+#[derive(Debug, Clone, Copy, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct InfraredSky {
+    /// Height of the airglow layer, km (OH emission near 87–90 km).
+    pub airglow_height_km: f64,
+    /// Emissivity of the telescope and instrument (warm mirrors, window).
+    pub emissivity_telescope: f64,
+    /// Emissivity of the atmosphere at the zenith in the band; it grows
+    /// with airmass.
+    pub emissivity_sky_zenith: f64,
+    /// Night-time air and telescope temperature the thermal term is
+    /// evaluated at, °C (set it for your site).
+    pub ambient_temperature_c: f64,
+}
 impl Band {
     /// Photon flux density of a magnitude-0 source, photons s⁻¹ cm⁻² Å⁻¹:
     /// f_λ λ_eff / (h c). Zero points of Bessell, Castelli & Plez (1998); for V
@@ -85,6 +110,31 @@ impl Band {
         ] {
             if !v.is_finite() || v.abs() > 10.0 {
                 return Err((f, format!("{v} is not a colour within ±10 mag")));
+            }
+        }
+        if let Some(ir) = &self.infrared {
+            if !(ir.airglow_height_km.is_finite() && (10.0..=500.0).contains(&ir.airglow_height_km))
+            {
+                return Err((
+                    "infrared.airglow_height_km",
+                    format!("{} is not within 10..500 km", ir.airglow_height_km),
+                ));
+            }
+            for (v, f) in [
+                (ir.emissivity_telescope, "infrared.emissivity_telescope"),
+                (ir.emissivity_sky_zenith, "infrared.emissivity_sky_zenith"),
+            ] {
+                if !(v.is_finite() && (0.0..=1.0).contains(&v)) {
+                    return Err((f, format!("{v} is not an emissivity within 0..1")));
+                }
+            }
+            if !(ir.ambient_temperature_c.is_finite()
+                && (-80.0..=60.0).contains(&ir.ambient_temperature_c))
+            {
+                return Err((
+                    "infrared.ambient_temperature_c",
+                    format!("{} is not within -80..60 °C", ir.ambient_temperature_c),
+                ));
             }
         }
         Ok(())
@@ -216,9 +266,11 @@ mod tests {
     #[test]
     fn builtin_has_ubvri() {
         let s = BandSet::builtin().unwrap();
-        for b in ["U", "B", "V", "R", "I"] {
+        for b in ["U", "B", "V", "R", "I", "J", "H", "K"] {
             assert!(s.get(b).is_ok(), "{b}");
         }
+        assert!(s.get("V").unwrap().infrared.is_none());
+        assert!(s.get("K").unwrap().infrared.is_some());
         assert!(s.get("v").is_ok());
         let e = s.get("Z").unwrap_err().to_string();
         assert!(e.contains("unknown band 'Z'") && e.contains("V"), "{e}");
@@ -244,7 +296,7 @@ mod tests {
         let t = "[[band]]\nname = \"V\"\nlambda_eff_angstrom = 5450\nbandwidth_angstrom = 880\nflambda_zero_cgs = 3.631e-9\nextinction_mag_per_airmass = 0.2\ndark_sky_zenith_mag_arcsec2 = 21.0\nmoon_colour_mag = 0\ntwilight_colour_mag = 0\n";
         s.merge_text(t, Path::new("u.toml")).unwrap();
         assert_eq!(s.get("V").unwrap().dark_sky_zenith_mag_arcsec2, 21.0);
-        assert_eq!(s.bands.len(), 5);
+        assert_eq!(s.bands.len(), 8);
         // Merged in place: V keeps its place in the table.
         assert_eq!(s.bands[2].name, "V");
     }

@@ -17,7 +17,7 @@ pub mod dust;
 
 use crate::astro::frames::{CatalogPlace, Context};
 use crate::error::{Result, RungError};
-pub use bands::{Band, BandSet, TwilightModel};
+pub use bands::{Band, BandSet, InfraredSky, TwilightModel};
 use serde::Serialize;
 
 /// Surface brightness in nanoLamberts of a sky of `mag` mag arcsec⁻²:
@@ -109,6 +109,77 @@ pub fn twilight_v_mag_arcsec2(sun_alt_rad: f64, m: &TwilightModel) -> Option<f64
     Some(m.v_zenith_mag_arcsec2_at_ref + m.slope_mag_per_deg * (m.ref_sun_alt_deg - h))
 }
 
+/// Mean radius of the Earth, km (IUGG, a fact of the trade).
+pub const EARTH_RADIUS_KM: f64 = 6371.0;
+
+/// Boltzmann constant, erg K⁻¹ (exact in SI since 2019).
+pub const K_B_CGS: f64 = 1.380_649e-16;
+
+/// The van Rhijn (1921) factor: how much brighter a thin emitting layer at
+/// height `height_km` looks at zenith distance `z_rad` than at the zenith,
+/// V(z) = [1 − (R/(R + h))² sin² z]^−1/2, R the Earth's radius (the path
+/// through the layer grows as 1/cos of the angle at the layer). Finite at
+/// the horizon: 1/√(1 − (R/(R+h))²), about 6 for h = 87 km.
+pub fn van_rhijn(z_rad: f64, height_km: f64) -> f64 {
+    let r = EARTH_RADIUS_KM / (EARTH_RADIUS_KM + height_km);
+    (1.0 - r * r * z_rad.sin().powi(2)).powf(-0.5)
+}
+
+/// Planck's law, B_λ(T) in erg s⁻¹ cm⁻² Å⁻¹ sr⁻¹ at wavelength
+/// `lambda_angstrom` (Å) and temperature `t_k` (K).
+pub fn planck_flambda_per_sr(lambda_angstrom: f64, t_k: f64) -> f64 {
+    let l = lambda_angstrom * 1e-8; // cm
+    let x = bands::H_CGS * bands::C_CGS / (l * K_B_CGS * t_k);
+    // erg s⁻¹ cm⁻² cm⁻¹ sr⁻¹, then per Å.
+    2.0 * bands::H_CGS * bands::C_CGS * bands::C_CGS / l.powi(5) / x.exp_m1() * 1e-8
+}
+
+/// Surface brightness of a black body at `t_k` (K) seen through `band`,
+/// mag arcsec⁻²: the photon rate of B_λ(T) over the band's top-hat passband
+/// (`lambda_eff` ± `bandwidth`/2, Simpson's rule on 64 intervals) against
+/// that of the band's zero point over the same width. A grey body of
+/// emissivity ε is 2.5 log10(1/ε) fainter.
+pub fn blackbody_mag_arcsec2(band: &Band, t_k: f64) -> f64 {
+    let sr_per_arcsec2 = (std::f64::consts::PI / 180.0 / 3600.0).powi(2);
+    let lo = band.lambda_eff_angstrom - band.bandwidth_angstrom / 2.0;
+    let n = 64;
+    let h = band.bandwidth_angstrom / n as f64;
+    // Photon rate ∝ ∫ B_λ λ dλ (the 1/hc common to both sides cancels).
+    let f = |l: f64| planck_flambda_per_sr(l, t_k) * l;
+    let mut sum = f(lo) + f(lo + band.bandwidth_angstrom);
+    for i in 1..n {
+        sum += f(lo + i as f64 * h) * if i % 2 == 1 { 4.0 } else { 2.0 };
+    }
+    let photons = sum * h / 3.0 * sr_per_arcsec2;
+    let zero = band.flambda_zero_cgs * band.lambda_eff_angstrom * band.bandwidth_angstrom;
+    -2.5 * (photons / zero).log10()
+}
+
+/// The near-infrared sky at zenith distance `z_rad` in a band with an
+/// `infrared` table: (airglow, thermal) in nL. Airglow: the zenith value
+/// (`dark_sky_zenith_mag_arcsec2`) times the van Rhijn factor of its layer,
+/// dimmed by the extinction along the extra path, B = B_zen V(z) 10^(−0.4 k (V(z) − 1));
+/// thermal: a grey body at the ambient temperature whose emissivity is the
+/// telescope's plus the atmosphere's times the airmass
+/// (ε = ε_tel + ε_sky X, at most 1), X from [`ks_airmass`]. The project's own
+/// approximation (docs/science.md, Sky brightness).
+pub fn infrared_sky_nl(band: &Band, ir: &InfraredSky, z_rad: f64) -> (f64, f64) {
+    let k = band.extinction_mag_per_airmass;
+    let v = van_rhijn(z_rad, ir.airglow_height_km);
+    let airglow =
+        nl_from_mag(band.dark_sky_zenith_mag_arcsec2) * v * 10f64.powf(-0.4 * k * (v - 1.0));
+    let eps = (ir.emissivity_telescope + ir.emissivity_sky_zenith * ks_airmass(z_rad)).min(1.0);
+    let thermal = if eps > 0.0 {
+        nl_from_mag(blackbody_mag_arcsec2(
+            band,
+            ir.ambient_temperature_c + 273.15,
+        )) * eps
+    } else {
+        0.0
+    };
+    (airglow, thermal)
+}
+
 /// Atmospheric extinction of a star, mag: k X (first order; k from the band
 /// table, X the Kasten–Young airmass).
 pub fn extinction_mag(band: &Band, airmass: f64) -> f64 {
@@ -162,6 +233,13 @@ pub struct SkyBrightness {
     pub twilight_mag_arcsec2: Option<f64>,
     /// Brightening over the dark zenith sky, mag (positive = brighter).
     pub brightening_mag: f64,
+    /// Which model: `optical` (dark sky, Moon, twilight) or `infrared`
+    /// (airglow, thermal emission, twilight).
+    pub model: String,
+    /// Airglow alone at the target, mag arcsec⁻² (infrared model).
+    pub airglow_mag_arcsec2: Option<f64>,
+    /// Thermal emission alone, mag arcsec⁻² (infrared model).
+    pub thermal_mag_arcsec2: Option<f64>,
     /// Cautions about the model's validity here.
     pub notes: Vec<String>,
 }
@@ -184,9 +262,21 @@ pub fn sky_brightness(band: &Band, tw: &TwilightModel, g: &SkyGeometry) -> Resul
     }
     let z = std::f64::consts::FRAC_PI_2 - g.target_alt_rad;
     let k = band.extinction_mag_per_airmass;
-    let dark = ks_dark_nl(nl_from_mag(band.dark_sky_zenith_mag_arcsec2), z, k);
     let z_moon = std::f64::consts::FRAC_PI_2 - g.moon_alt_rad;
-    let moon_v = ks_moon_nl(g.moon_phase_rad, g.moon_sep_rad, z_moon, z, k);
+    // The near-infrared sky: airglow and thermal emission, no Moon term.
+    let ir = band
+        .infrared
+        .as_ref()
+        .map(|ir| infrared_sky_nl(band, ir, z));
+    let dark = match ir {
+        Some((a, t)) => a + t,
+        None => ks_dark_nl(nl_from_mag(band.dark_sky_zenith_mag_arcsec2), z, k),
+    };
+    let moon_v = if ir.is_some() {
+        0.0
+    } else {
+        ks_moon_nl(g.moon_phase_rad, g.moon_sep_rad, z_moon, z, k)
+    };
     let moon = if moon_v > 0.0 {
         nl_from_mag(mag_from_nl(moon_v) + band.moon_colour_mag)
     } else {
@@ -205,6 +295,12 @@ pub fn sky_brightness(band: &Band, tw: &TwilightModel, g: &SkyGeometry) -> Resul
             sky
         ));
     }
+    if ir.is_some() && g.moon_alt_rad > 0.0 && g.moon_sep_rad.to_degrees() < 20.0 {
+        notes.push(format!(
+            "the target is {:.1}° from the Moon: the near-infrared model leaves moonlight out, and this close it may brighten the sky, most in J",
+            g.moon_sep_rad.to_degrees()
+        ));
+    }
     if moon > 0.0 && g.moon_sep_rad.to_degrees() < 10.0 {
         notes.push(format!(
             "the target is {:.1}° from the Moon: scattered light there is poorly known",
@@ -218,6 +314,9 @@ pub fn sky_brightness(band: &Band, tw: &TwilightModel, g: &SkyGeometry) -> Resul
         moon_mag_arcsec2: (moon > 0.0).then(|| mag_from_nl(moon)),
         twilight_mag_arcsec2: tw_mag,
         brightening_mag: band.dark_sky_zenith_mag_arcsec2 - sky,
+        model: if ir.is_some() { "infrared" } else { "optical" }.into(),
+        airglow_mag_arcsec2: ir.map(|(a, _)| mag_from_nl(a)),
+        thermal_mag_arcsec2: ir.and_then(|(_, t)| (t > 0.0).then(|| mag_from_nl(t))),
         notes,
     })
 }
