@@ -502,7 +502,7 @@ fn plan_and_budget_options() {
     run(
         "I1",
         budget(&["--goal", "3", "--instrument", "nope-2m"]),
-        "invalid --instrument: unknown instrument 'nope-2m'; known instruments: lucero-1m, alcaravan-2m",
+        "invalid --instrument: unknown instrument 'nope-2m'; known instruments: lucero-1m, alcaravan-2m, lucero-1m-ir",
     );
     run(
         "H4",
@@ -543,7 +543,7 @@ fn plan_and_budget_options() {
     run(
         "I2",
         plan(&["--hours-per-night", "3", "--instrument", "nope-2m"]),
-        "invalid --instrument: unknown instrument 'nope-2m'; known instruments: lucero-1m, alcaravan-2m",
+        "invalid --instrument: unknown instrument 'nope-2m'; known instruments: lucero-1m, alcaravan-2m, lucero-1m-ir",
     );
     run(
         "D4",
@@ -682,7 +682,7 @@ fn method_options() {
     run(
         "M6",
         p(&["--instrument", "nope-2m"]),
-        "invalid --instrument: unknown instrument 'nope-2m'; known instruments: lucero-1m, alcaravan-2m",
+        "invalid --instrument: unknown instrument 'nope-2m'; known instruments: lucero-1m, alcaravan-2m, lucero-1m-ir",
     );
     run(
         "M7",
