@@ -421,8 +421,8 @@ fn bad_input_is_refused_with_a_clear_error() {
     assert!(e.contains("signal-to-noise"), "{e}");
     assert!(ccd::check_snr(-3.0).is_err());
     assert!(ccd::check_snr(f64::NAN).is_err());
-    let e = b.get("K").unwrap_err().to_string();
-    assert!(e.contains("unknown band 'K'"), "{e}");
+    let e = b.get("Z").unwrap_err().to_string();
+    assert!(e.contains("unknown band 'Z'"), "{e}");
     let bad = Conditions { airmass: 0.5, ..c };
     assert!(ccd::rates(&ins, b.get("V").unwrap(), 15.0, &bad).is_err());
 }
