@@ -4,43 +4,9 @@
 
 mod cli;
 
-use clap::{Parser, Subcommand};
+use clap::Parser;
+use cli::{Cli, Command};
 use std::process::ExitCode;
-
-/// rung: plan observations for distance measurements (parallax, pulsators, transients).
-#[derive(Parser)]
-#[command(name = "rung", version, about, long_about = None)]
-struct Cli {
-    #[command(subcommand)]
-    command: Option<Command>,
-}
-
-#[derive(Subcommand)]
-enum Command {
-    /// Where a target is at an instant: altitude, azimuth, airmass, Sun and Moon.
-    Where(cli::where_cmd::Args),
-    /// The night of a date: twilights, Moon, and each target's window.
-    Night(cli::night::Args),
-    /// The terminal UI: roster, tonight, season (keyboard-driven; ? shows the keys).
-    #[cfg(feature = "tui")]
-    Tui(cli::tui::Args),
-    /// Chase a fresh thermonuclear supernova: nightly windows, exposures, cadence, distance precision.
-    Chase(Box<cli::chase::Args>),
-    /// Phase coverage of a pulsating star, a visit plan over its phase bins, and its distance precision.
-    Phase(Box<cli::phase::Args>),
-    /// Parallax factors, best epochs, and the precision a schedule buys.
-    Parallax(Box<cli::parallax::Args>),
-    /// Place visits on nights for a season; save, mark done or lost, re-plan, export (CSV, JSON, iCalendar, night sheet).
-    Plan(Box<cli::plan::PlanArgs>),
-    /// What each target's distance goal costs (weather, overheads), and which goals the hours asked meet.
-    Budget(Box<cli::budget::Args>),
-    /// Signal-to-noise of an exposure on a star under tonight's sky.
-    Snr(cli::snr::SnrArgs),
-    /// Exposure time that reaches a signal-to-noise on a star under tonight's sky.
-    Exptime(cli::snr::ExptimeArgs),
-    /// Every target on every night of a date range: observable hours, airmass, Moon.
-    Season(cli::season::Args),
-}
 
 fn main() -> ExitCode {
     // Die quietly like other Unix tools when the reader of stdout goes away

@@ -194,10 +194,15 @@ pub fn csv_num(x: impl Into<Option<f64>>, dp: usize) -> String {
 /// break, quotes doubled.
 pub fn csv_field(s: &str) -> Cow<'_, str> {
     if s.contains([',', '"', '\n', '\r']) {
-        Cow::Owned(format!("\"{}\"", s.replace('"', "\"\"")))
+        Cow::Owned(csv_quoted(s))
     } else {
         Cow::Borrowed(s)
     }
+}
+
+/// A CSV field in quotes, its quotes doubled (RFC 4180), whatever it holds.
+pub fn csv_quoted(s: &str) -> String {
+    format!("\"{}\"", s.replace('"', "\"\""))
 }
 
 /// One CSV record with its line end.

@@ -70,7 +70,7 @@ fn surfaces(cfg: &Path, prog: &Path, name: &str) -> Seen {
         .clone();
     let phase = rung(cfg, &["phase", "--targets", p, "--target", name, "--json"]);
     // The UI as `rung tui --targets FILE` opens it, with the same user folder.
-    // SAFETY: the only test in this binary; no other thread reads the environment.
+    // SAFETY: the tests of this binary hold ENV while they use the variable.
     unsafe { std::env::set_var("RUNG_CONFIG_DIR", cfg) };
     let settings = Settings::resolve(
         &Request {
@@ -101,8 +101,12 @@ fn surfaces(cfg: &Path, prog: &Path, name: &str) -> Seen {
     }
 }
 
+/// Held by each test while it sets and uses `RUNG_CONFIG_DIR`.
+static ENV: std::sync::Mutex<()> = std::sync::Mutex::new(());
+
 #[test]
 fn a_users_pulsator_file_changes_budget_phase_and_the_ui_alike() {
+    let _env = ENV.lock().unwrap_or_else(|e| e.into_inner());
     let name = "LPO-C05";
     let work = tempfile::tempdir().unwrap();
     let prog = programme(work.path());
@@ -153,4 +157,77 @@ fn a_users_pulsator_file_changes_budget_phase_and_the_ui_alike() {
     // each): the floor the built-in relation sets (its scatter alone is
     // 0.21 mag, about 9.7 % in distance) is not the user's.
     assert_ne!(before.budget["verdict"], after.budget["verdict"]);
+}
+
+#[test]
+fn a_goal_not_given_by_the_target_is_the_budgets_in_the_roster() {
+    let _env = ENV.lock().unwrap_or_else(|e| e.into_inner());
+    let work = tempfile::tempdir().unwrap();
+    let cfg = tempfile::tempdir().unwrap();
+    // A parallax target and a supernova without goal_pct; the programme's
+    // settings give 5 %, and the supernova method's default is its own.
+    let demo = std::fs::read_to_string(demo_file()).unwrap();
+    let header = demo.lines().find(|l| l.starts_with("name,")).unwrap();
+    let goal_col = header.split(',').position(|c| c == "goal_pct").unwrap();
+    let mut text = format!("{header}\n");
+    for l in demo
+        .lines()
+        .filter(|l| l.starts_with("LPO-P01,") || l.starts_with("LPO-T2026a,"))
+    {
+        let mut f: Vec<&str> = l.split(',').collect();
+        f[goal_col] = "";
+        text.push_str(&f.join(","));
+        text.push('\n');
+    }
+    let prog = work.path().join("nogoal.csv");
+    std::fs::write(&prog, text).unwrap();
+    // With the programme's goal (5 %) for both, then without: the parallax
+    // target has no goal, the supernova its method's default
+    // (`default_goal_pct` in config/transient.toml).
+    for (programme_goal, want) in [("goal_pct = 5\n", vec![5.0, 5.0]), ("", vec![10.0])] {
+        std::fs::write(
+            work.path().join("nogoal.settings.toml"),
+            format!("[programme]\nfrom = 2026-12-01\nto = 2028-05-31\n{programme_goal}"),
+        )
+        .unwrap();
+        let budget = rung(
+            cfg.path(),
+            &["budget", "--targets", prog.to_str().unwrap(), "--json"],
+        );
+        // SAFETY: ENV is held.
+        unsafe { std::env::set_var("RUNG_CONFIG_DIR", cfg.path()) };
+        let settings = Settings::resolve(
+            &Request {
+                programme: Some(prog.clone()),
+                ..Default::default()
+            },
+            test_now(),
+        )
+        .unwrap();
+        let targets = rung::io::targets::load(&prog).unwrap().targets;
+        assert!(targets.iter().all(|t| t.goal_pct.is_none()));
+        let mut setup = setup_with(
+            targets,
+            Some(prog.clone()),
+            prog.clone(),
+            false,
+            (120, 30),
+            false,
+        );
+        setup.settings = settings;
+        let s = open(setup);
+        let (rows, _) = screen(&s, 120, 30);
+        let mut goals = Vec::new();
+        for r in budget["rows"].as_array().unwrap() {
+            let name = r["target"].as_str().unwrap();
+            let goal = r["goal_pct"].as_f64().unwrap();
+            let a = r["achievable_pct"].as_f64().unwrap();
+            let g = format!("{goal:.1}");
+            let want = format!("{a:.1}/{}%", g.trim_end_matches(".0"));
+            let line = row_of(&rows, name);
+            assert!(line.contains(&want), "{name}: {want} not in {line}");
+            goals.push(goal);
+        }
+        assert_eq!(goals, want, "{budget}");
+    }
 }

@@ -31,6 +31,7 @@ pub const HARNESSES: &[(&str, Harness)] = &[
     ("times", times),
     ("instruments_toml", instruments_toml),
     ("plan_file", plan_file),
+    ("cli_options", cli_options),
 ];
 
 fn check_target(t: &Target) {
@@ -210,6 +211,156 @@ pub fn plan_file(data: &[u8]) {
         Err(e) => {
             check_problem(&e);
             assert!(e.to_string().contains("fuzz-plan.json"), "{e}");
+        }
+    }
+}
+
+/// The `rung` command line itself (`src/cli/mod.rs`, included here so that
+/// the fuzz target parses with the binary's own option grammar).
+#[allow(dead_code, unused_imports, unused_macros, clippy::all)]
+#[path = "../../src/cli/mod.rs"]
+mod cli;
+
+/// The clock of the option checks (a night at the demo site).
+fn fuzz_now() -> Instant {
+    parse_instant("2026-12-02T01:00:00Z").expect("fixed clock")
+}
+
+/// Options whose number is held to a physical bound (`rung::bounds`), as
+/// the commands check them.
+const BOUNDED: &[(&str, &rung::bounds::Bound)] = &[
+    ("--mag", &rung::bounds::MAG),
+    ("--mean-mag", &rung::bounds::MAG),
+    ("--peak-mag", &rung::bounds::MAG),
+    ("--exptime", &rung::bounds::EXPTIME_S),
+    ("--snr", &rung::bounds::SNR),
+    ("--limit-snr", &rung::bounds::SNR),
+    ("--period-d", &rung::bounds::PERIOD_D),
+    ("--amplitude-mag", &rung::bounds::AMPLITUDE_MAG),
+    ("--extinction-mag", &rung::bounds::EXTINCTION_MAG),
+    ("--redshift", &rung::bounds::REDSHIFT),
+    ("--parallax-mas", &rung::bounds::PARALLAX_MAS),
+    ("--seeing", &rung::bounds::SEEING_ARCSEC),
+];
+
+/// Command-line options: the bytes split at NUL or newline into the
+/// arguments after `rung`, parsed by the binary's own grammar (`cli::Cli`,
+/// every subcommand and option); a refusal must render to text. Then every
+/// `--option value` (or `--option=value`) is read as the commands read it:
+/// the programme settings the options choose (`--site` inline or by name,
+/// `--instrument`, `--from`, `--to`, `--min-alt`, `--sun-alt`,
+/// `--goal-pct`) resolved by `programme::Settings::resolve` with a fixed
+/// clock; times (`--at`, `--now`, `--discovered`), dates (`--date`,
+/// `--lost-night`), angles (`--ra`, `--dec`) and the bounded numbers
+/// (`BOUNDED`). Checks: no panic; an accepted value lies within its range
+/// (a site on the globe, limits within their ranges, a non-empty range, a
+/// goal in (0, 100] %, angles on the sky, bounded numbers within their
+/// bound); a refusal is one line naming what it refuses.
+pub fn cli_options(data: &[u8]) {
+    use clap::Parser;
+    use std::os::unix::ffi::OsStrExt;
+    let args: Vec<&std::ffi::OsStr> = data
+        .split(|b| *b == 0 || *b == b'\n')
+        .take(64)
+        .map(std::ffi::OsStr::from_bytes)
+        .collect();
+    let parsed = cli::Cli::try_parse_from(
+        std::iter::once(std::ffi::OsStr::new("rung")).chain(args.iter().copied()),
+    );
+    if let Err(e) = &parsed {
+        assert!(!e.render().to_string().is_empty());
+    }
+    // The value of each option, as text (the last one given wins, as in clap).
+    let mut opts: std::collections::BTreeMap<String, String> = Default::default();
+    let mut it = args
+        .iter()
+        .map(|a| a.to_string_lossy().into_owned())
+        .peekable();
+    while let Some(a) = it.next() {
+        if !a.starts_with("--") {
+            continue;
+        }
+        match a.split_once('=') {
+            Some((k, v)) => {
+                opts.insert(k.to_string(), v.to_string());
+            }
+            None => {
+                if let Some(v) = it.next_if(|v| !v.starts_with("--")) {
+                    opts.insert(a, v);
+                }
+            }
+        }
+    }
+    let refused = |e: &dyn std::fmt::Display| {
+        let m = e.to_string();
+        assert!(!m.is_empty());
+        assert!(!m.contains('\n'), "message spans lines: {m}");
+    };
+    let num = |k: &str| opts.get(k).and_then(|v| v.trim().parse::<f64>().ok());
+    let choices = rung::programme::Choices {
+        site: opts.get("--site").cloned(),
+        instrument: opts.get("--instrument").cloned(),
+        from: opts.get("--from").cloned(),
+        to: opts.get("--to").cloned(),
+        min_alt_deg: num("--min-alt"),
+        sun_alt_deg: num("--sun-alt"),
+        goal_pct: num("--goal-pct").or(num("--goal")),
+    };
+    let req = rung::programme::Request {
+        cli: choices,
+        ..Default::default()
+    };
+    match rung::programme::Settings::resolve(&req, fuzz_now()) {
+        Ok(s) => {
+            assert!(
+                (-90.0..=90.0).contains(&s.site.lat_deg),
+                "{}",
+                s.site.lat_deg
+            );
+            assert!(s.site.lon_deg.is_finite() && s.site.elev_m.is_finite());
+            assert!(s.from <= s.to, "{} > {}", s.from, s.to);
+            assert!((-90.0..=90.0).contains(&s.limits.min_alt_deg));
+            assert!((-90.0..=0.0).contains(&s.limits.sun_alt_deg));
+            if let Some(g) = s.goal_pct {
+                assert!(g > 0.0 && g <= 100.0, "goal {g}");
+            }
+        }
+        Err(e) => refused(&e),
+    }
+    for k in ["--at", "--now", "--discovered"] {
+        if let Some(v) = opts.get(k) {
+            match parse_instant(v) {
+                Ok(t) => assert!(t.check_span().is_ok()),
+                Err(e) => refused(&e),
+            }
+        }
+    }
+    for k in ["--date", "--lost-night"] {
+        if let Some(Err(e)) = opts.get(k).map(|v| parse_date(v)) {
+            refused(&e);
+        }
+    }
+    if let Some(v) = opts.get("--ra") {
+        match parse_ra_deg(v) {
+            Ok(x) => assert!((0.0..360.0).contains(&x), "ra {x}"),
+            Err(e) => refused(&e),
+        }
+    }
+    if let Some(v) = opts.get("--dec") {
+        match parse_dec_deg(v) {
+            Ok(x) => assert!((-90.0..=90.0).contains(&x), "dec {x}"),
+            Err(e) => refused(&e),
+        }
+    }
+    for (k, b) in BOUNDED {
+        if let Some(x) = num(k) {
+            match b.check_as(k, x) {
+                Ok(v) => assert!(v.is_finite() && b.contains(v), "{k} {v}"),
+                Err(e) => {
+                    refused(&e);
+                    assert!(e.to_string().contains(k), "{e}");
+                }
+            }
         }
     }
 }

@@ -17,6 +17,47 @@ use anyhow::Result;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicBool, Ordering};
 
+// The command line (the grammar of every subcommand and option; `main`
+// dispatches it). Here rather than in `main.rs` so that the fuzz target of
+// the option parsers (`fuzz/src/lib.rs`, `cli_options`) parses with it.
+
+/// rung: plan observations for distance measurements (parallax, pulsators, transients).
+#[derive(clap::Parser)]
+#[command(name = "rung", version, about, long_about = None)]
+pub struct Cli {
+    // The subcommand (`rung` alone: the UI on a terminal, else tonight's table).
+    #[command(subcommand)]
+    pub command: Option<Command>,
+}
+
+// The subcommands.
+#[derive(clap::Subcommand)]
+pub enum Command {
+    /// Where a target is at an instant: altitude, azimuth, airmass, Sun and Moon.
+    Where(where_cmd::Args),
+    /// The night of a date: twilights, Moon, and each target's window.
+    Night(night::Args),
+    /// The terminal UI: roster, tonight, season (keyboard-driven; ? shows the keys).
+    #[cfg(feature = "tui")]
+    Tui(tui::Args),
+    /// Chase a fresh thermonuclear supernova: nightly windows, exposures, cadence, distance precision.
+    Chase(Box<chase::Args>),
+    /// Phase coverage of a pulsating star, a visit plan over its phase bins, and its distance precision.
+    Phase(Box<phase::Args>),
+    /// Parallax factors, best epochs, and the precision a schedule buys.
+    Parallax(Box<parallax::Args>),
+    /// Place visits on nights for a season; save, mark done or lost, re-plan, export (CSV, JSON, iCalendar, night sheet).
+    Plan(Box<plan::PlanArgs>),
+    /// What each target's distance goal costs (weather, overheads), and which goals the hours asked meet.
+    Budget(Box<budget::Args>),
+    /// Signal-to-noise of an exposure on a star under tonight's sky.
+    Snr(snr::SnrArgs),
+    /// Exposure time that reaches a signal-to-noise on a star under tonight's sky.
+    Exptime(snr::ExptimeArgs),
+    /// Every target on every night of a date range: observable hours, airmass, Moon.
+    Season(season::Args),
+}
+
 /// Print a line of a table or report through the output layer
 /// (`rung::output::table_line`: names cannot drive the terminal, no number is
 /// written as `-0.00`): `outln!("...", args)` to standard output,

@@ -390,14 +390,14 @@ impl Layout {
 /// Quote a field for CSV when it needs it (a comma, a quote, a line break,
 /// spaces at either end, or `#` at the start of a line's first field).
 pub fn quote(v: &str, first: bool) -> String {
-    let needs = v.contains([',', '"', '\n', '\r'])
-        || v.starts_with([' ', '\t'])
-        || v.ends_with([' ', '\t'])
-        || (first && v.starts_with('#'));
-    if needs {
-        format!("\"{}\"", v.replace('"', "\"\""))
+    // Beyond RFC 4180 (`output::csv_field`): spaces at the ends and a `#`
+    // that would make the line a comment are kept by quotes too.
+    let edges =
+        v.starts_with([' ', '\t']) || v.ends_with([' ', '\t']) || (first && v.starts_with('#'));
+    if edges {
+        crate::output::csv_quoted(v)
     } else {
-        v.to_string()
+        crate::output::csv_field(v).into_owned()
     }
 }
 

@@ -665,7 +665,9 @@ impl State {
                 verdict: r.verdict.clone(),
             };
         }
-        let Some(goal_pct) = t.goal_pct else {
+        // The goal the budget uses: the target's own, else the programme's,
+        // else its method's default (a supernova without goal_pct has one).
+        let Some(goal_pct) = self.settings.goal_for(t) else {
             return Progress::NoGoal;
         };
         let Some((k, b)) = self.budget.as_ref() else {
