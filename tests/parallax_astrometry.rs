@@ -128,6 +128,7 @@ fn reference_stars_from_the_star_counts() {
     let rule = FrameRule {
         radius_arcmin: 5.0,
         mag_window: (-3.0, 1.0),
+        faintest_mag: 0.0,
         max_stars: 1000.0,
         counts,
     };
@@ -136,4 +137,18 @@ fn reference_stars_from_the_star_counts() {
     // Five times more stars three magnitudes fainter (10^0.75), each 3 mag fainter on average.
     assert!((n18 / n15 - 10f64.powf(0.75)).abs() < 1e-6);
     assert!((m18 - m15 - 3.0).abs() < 1e-9);
+    // A bright target is measured against fainter field stars.
+    let rule = FrameRule {
+        faintest_mag: 18.0,
+        ..rule
+    };
+    let (n12, m12) = estimate_reference_stars(12.0, 60.0, &rule);
+    let area = std::f64::consts::PI * (5.0f64 / 60.0).powi(2);
+    let want = (counts.brighter_than_per_deg2(18.0, 60.0)
+        - counts.brighter_than_per_deg2(9.0, 60.0))
+        * area;
+    assert!(
+        (n12 - want).abs() < 1e-9 && m12 > 14.0,
+        "{n12} {want} {m12}"
+    );
 }

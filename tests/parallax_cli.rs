@@ -37,10 +37,18 @@ fn json_has_the_contract_keys() {
         "--from",
         "2026-12-01",
         "--to",
-        "2027-12-31",
+        "2029-05-31",
         "--json",
     ]);
     for k in [
+        "dcr_bias_mas",
+        "absolute_correction_mas",
+        "sigma_parallax_total_mas",
+        "reference_frame",
+        "exposure_rule",
+        "min_baseline_yr",
+        "verdict_reason",
+        "error_terms",
         "series",
         "epochs",
         "sigma_parallax_mas",
@@ -56,7 +64,7 @@ fn json_has_the_contract_keys() {
         assert!(v.get(k).is_some(), "missing {k}");
     }
     let series = v["series"].as_array().unwrap();
-    assert_eq!(series.len(), 396);
+    assert_eq!(series.len(), 913);
     for k in ["night", "pf_ra", "pf_dec", "observable", "best_time"] {
         assert!(series[0].get(k).is_some(), "series missing {k}");
     }
@@ -70,13 +78,44 @@ fn json_has_the_contract_keys() {
         "sigma_mas",
         "pf_ra",
         "pf_dec",
+        "hour_angle_h",
+        "frames",
+        "sigma_terms",
+        "tan_z",
+        "parallactic_angle_deg",
+        "dcr_ra_mas",
+        "dcr_dec_mas",
     ] {
         assert!(epochs[0].get(k).is_some(), "epochs missing {k}");
     }
     assert!(v["sigma_parallax_mas"].as_f64().unwrap() > 0.0);
+    // The distance precision is σϖ of the fit, the DCR bias bound and the
+    // absolute correction in quadrature, over ϖ = 68.4 mas.
     let pct = v["distance_precision_pct"].as_f64().unwrap();
     let s = v["sigma_parallax_mas"].as_f64().unwrap();
-    assert!((pct - 100.0 * s / 68.4).abs() < 1e-9);
+    let b = v["dcr_bias_mas"].as_f64().unwrap();
+    let a = v["absolute_correction_mas"].as_f64().unwrap();
+    let total = v["sigma_parallax_total_mas"].as_f64().unwrap();
+    assert!((total - (s * s + b * b + a * a).sqrt()).abs() < 1e-9);
+    assert!((pct - 100.0 * total / 68.4).abs() < 1e-9);
+    assert_eq!(v["verdict"]["label"], "reachable");
+    assert!(v["baseline_yr"].as_f64().unwrap() >= 2.0);
+    // Each epoch's σ is its terms in quadrature.
+    for e in epochs {
+        let t = &e["sigma_terms"];
+        let q: f64 = [
+            "centroid_mas",
+            "reference_mas",
+            "image_motion_mas",
+            "refraction_mas",
+            "floor_mas",
+        ]
+        .iter()
+        .map(|k| t[k].as_f64().unwrap().powi(2))
+        .sum::<f64>()
+        .sqrt();
+        assert!((q - e["sigma_mas"].as_f64().unwrap()).abs() < 1e-9);
+    }
     // An unobservable night carries no best time.
     assert!(
         series

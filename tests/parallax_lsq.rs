@@ -4,9 +4,7 @@
 mod parallax_support;
 
 use rung::astro::time::Instant;
-use rung::ladder::parallax::{
-    EpochObs, ParallaxConfig, epoch_sigma_mas, parallax_factors_at, solve,
-};
+use rung::ladder::parallax::{EpochObs, astrometry::EpochError, parallax_factors_at, solve};
 
 fn obs_of(case: &serde_json::Value) -> Vec<EpochObs> {
     case["epochs"]
@@ -145,23 +143,16 @@ fn sigma_scales_with_epoch_error_and_count() {
     assert!((a.sigma_parallax_mas / c.sigma_parallax_mas - 2.0).abs() < 1e-9);
 }
 
-/// The per-epoch error: FWHM/(2.35 SNR) (SCIENCE.md), the floor and DCR k·tan z
-/// in quadrature. At the zenith and infinite SNR only the floor remains; at
-/// airmass 2 (tan z = √3, plane parallel) the DCR term is k√3.
+/// The per-epoch error adds its terms in quadrature (independent errors;
+/// docs/science.md, Parallax): with only the floor left the total is the
+/// floor, and each term enters as its square.
 #[test]
 fn epoch_error_terms() {
-    let mut cfg = ParallaxConfig::builtin().unwrap();
-    cfg.floor_mas = 3.0;
-    cfg.dcr_mas_per_tanz = 10.0;
-    let s = epoch_sigma_mas(1.2, 1e12, 1.0, &cfg).unwrap();
-    assert!((s - 3.0).abs() < 1e-9);
-    let s = epoch_sigma_mas(1.2, 100.0, 1.0, &cfg).unwrap();
+    let e = EpochError::new(0.0, 0.0, 0.0, 0.0, 1.5);
+    assert!((e.total_mas - 1.5).abs() < 1e-12);
     let c = 1200.0 / 235.0;
-    assert!((s - (c * c + 9.0f64).sqrt()).abs() < 1e-9);
-    let s = epoch_sigma_mas(1.2, 1e12, 2.0, &cfg).unwrap();
-    assert!((s - (9.0 + 300.0f64).sqrt()).abs() < 1e-9);
-    assert!(epoch_sigma_mas(1.2, 0.0, 1.0, &cfg).is_err());
-    assert!(epoch_sigma_mas(1.2, 50.0, 0.5, &cfg).is_err());
+    let e = EpochError::new(c, 2.0, 3.0, 1.0 * 3f64.sqrt(), 1.5);
+    assert!((e.total_mas - (c * c + 4.0 + 9.0 + 3.0 + 2.25f64).sqrt()).abs() < 1e-9);
 }
 
 /// Bad input: an empty epoch list, too few epochs, epochs all at one instant.

@@ -35,7 +35,10 @@ fn series_candidates_are_near_meridian_in_dark_time_at_large_factor() {
         to: d("2027-11-30"),
         limits: Limits::default(),
     };
-    let m = ParallaxMethod::builtin().unwrap();
+    // The RA factor at 0.8 of its extreme (the series' own rule, whatever the defaults).
+    let mut m = ParallaxMethod::builtin().unwrap();
+    m.cfg.factor_axis = rung::ladder::parallax::FactorAxis::Ra;
+    m.cfg.factor_fraction = 0.8;
     let series = m.series(&s).unwrap();
     assert_eq!(series.nights.len(), 365);
     let cands: Vec<_> = series.nights.iter().filter(|n| n.candidate).collect();
@@ -82,10 +85,15 @@ fn proposed_plan_over_three_years_separates_parallax_and_motion() {
     assert!(sol.corr_parallax_pm.abs() < 0.7, "{}", sol.corr_parallax_pm);
     assert!(plan.prediction.distance_precision_pct < 10.0);
     for e in &plan.epochs {
-        assert!(e.epoch.snr >= 100.0 * 0.999);
+        assert!(e.epoch.snr >= m.cfg.snr * 0.999);
         assert!(e.hour_angle_h.abs() <= 1.0 + 1e-6);
-        assert!(e.sigma_mas >= 3.0);
+        assert!(e.sigma_mas >= m.cfg.floor_mas);
+        assert!((e.terms.total_mas - e.sigma_mas).abs() < 1e-12);
     }
+    // Both signs of the RA factor are sampled.
+    assert!(
+        plan.epochs.iter().any(|e| e.pf_ra > 0.5) && plan.epochs.iter().any(|e| e.pf_ra < -0.5)
+    );
     let h: f64 = plan.epochs.iter().map(|e| e.epoch.visit_s).sum::<f64>() / 3600.0;
     assert!((h - plan.prediction.hours_needed).abs() < 1e-9);
     // The shared face gives the same numbers.

@@ -515,8 +515,11 @@ fn parallax_view_shows_factors_and_epochs_at_both_sizes() {
         assert!(epochs.contains('◆'));
         let sol = p.solution.as_ref().unwrap();
         let line = format!(
-            "σϖ {:.2} mas → σd/d {:.2}% · {} epochs in {} seasons",
+            "σϖ {:.2} mas (fit {:.2}, DCR {:.2}, abs {:.2}) → σd/d {:.2}% · {} epochs in {} seasons",
+            p.sigma_parallax_total_mas.unwrap(),
             sol.sigma_parallax_mas,
+            p.dcr_bias_mas.unwrap().abs(),
+            p.absolute_correction_mas,
             p.prediction.distance_precision_pct,
             p.epochs.len(),
             p.seasons_available

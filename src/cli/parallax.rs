@@ -223,7 +223,7 @@ pub fn run(a: Args) -> Result<()> {
     let (mode, plan) = if !times.is_empty() || a.epochs_file.is_some() {
         let m = ParallaxMethod::new(cfg.clone())?;
         let ep = m.epochs_at(&s, em, &times)?;
-        ("epochs", m.plan_for(&s, ep)?)
+        ("epochs", m.plan_for(&s, em, ep)?)
     } else {
         let mode = if goal.is_some() { "goal" } else { "propose" };
         match rung::programme::report(&st, &tgt)? {
@@ -325,12 +325,19 @@ fn to_json(
                 "n_exposures": e.epoch.n_exposures,
                 "visit_s": e.epoch.visit_s,
                 "sigma_mas": e.sigma_mas,
+                "frames": e.epoch.n_exposures,
+                "sigma_terms": e.terms,
+                "reference_snr": e.reference_snr,
+                "tan_z": e.tan_z,
+                "parallactic_angle_deg": e.parallactic_angle_deg,
+                "dcr_ra_mas": e.dcr_mas[0],
+                "dcr_dec_mas": e.dcr_mas[1],
             })
         })
         .collect();
     let sol = plan.solution.as_ref();
     let pct = finite(plan.prediction.distance_precision_pct);
-    Ok(json!({
+    let mut v = json!({
         "target": t.name,
         "site": site,
         "instrument": instrument,
@@ -348,9 +355,16 @@ fn to_json(
         "sun_alt_deg": s.limits.sun_alt_deg,
         "floor_mas": cfg.floor_mas,
         "dcr_mas_per_tanz": cfg.dcr_mas_per_tanz,
+        "image_motion_arcsec": cfg.image_motion_arcsec,
+        "epoch_sun_alt_deg": cfg.sun_alt_deg.unwrap_or(s.limits.sun_alt_deg),
+        "reference_frame": plan.reference,
+        "dcr": plan.dcr,
+        "exposure_rule": plan.exposure_rule,
         "ellipse": plan.ellipse,
         "yearly_extreme_au": plan.series.yearly_extreme,
         "threshold_au": plan.series.threshold,
+    });
+    let more = json!({
         "series": series,
         "seasons_available": plan.seasons_available,
         "seasons_used": seasons_used,
@@ -363,14 +377,24 @@ fn to_json(
         "corr_parallax_pm_ra": sol.map(|x| x.corr_parallax_pm_ra),
         "corr_parallax_pm_dec": sol.map(|x| x.corr_parallax_pm_dec),
         "baseline_yr": sol.map(|x| x.baseline_yr),
+        "min_baseline_yr": plan.min_baseline_yr,
+        "dcr_bias_mas": plan.dcr_bias_mas,
+        "absolute_correction_mas": plan.absolute_correction_mas,
+        "sigma_parallax_total_mas": plan.sigma_parallax_total_mas,
+        "error_terms": plan.prediction.error_terms,
         "distance_precision_pct": pct,
         "lutz_kelker_warning": pct.is_some_and(|p| p > cfg.lutz_kelker_pct),
         "hours_needed": plan.prediction.hours_needed,
         "verdict": plan.prediction.verdict,
+        "verdict_reason": plan.verdict_reason,
         "goal_reach": plan.reach,
         "cautions": cautions,
         "notes": plan.prediction.notes,
-    }))
+    });
+    if let (Some(o), Value::Object(m)) = (v.as_object_mut(), more) {
+        o.extend(m);
+    }
+    Ok(v)
 }
 
 #[allow(clippy::too_many_arguments)]
@@ -424,10 +448,56 @@ fn print_text(
             );
         }
     }
-    if !plan.epochs.is_empty() {
-        super::outln!("  epochs:");
+    let rf = &plan.reference;
+    let src = |x: rung::ladder::parallax::astrometry::Source| match x {
+        rung::ladder::parallax::astrometry::Source::Given => "given",
+        rung::ladder::parallax::astrometry::Source::Estimated => "estimated",
+    };
+    if rf.count > 0.0 {
         super::outln!(
-            "    {:<20} {:>3} {:>7} {:>7} {:>6} {:>6} {:>6} {:>8} {:>4} {:>7}",
+            "  reference frame: {:.0} stars ({}) of {:.1} mag ({}) and V−I {:.1} ({}), {:.0}″ from the target on average; Galactic latitude {:+.0}°",
+            rf.count,
+            src(rf.count_source),
+            rf.mag,
+            src(rf.mag_source),
+            rf.color_vi_mag,
+            src(rf.color_source),
+            rf.separation_arcsec,
+            rf.galactic_lat_deg
+        );
+        super::outln!(
+            "  DCR {:+.1} mas per tan z against the frame (effective wavelengths {:.0} and {:.0} Å)",
+            plan.dcr.mas_per_tanz,
+            plan.dcr.target_lambda_angstrom,
+            plan.dcr.reference_lambda_angstrom
+        );
+    }
+    if let Some(l) = plan.exposure_rule.levels.first() {
+        super::outln!(
+            "  exposure per epoch: {:.0} s in {} frame(s) (the most precision per telescope hour is at {:.0} s; SNR {:.0} needs {}); levels tried: {}",
+            l.exptime_s,
+            l.frames,
+            plan.exposure_rule.best_rate_exptime_s,
+            cfg.snr,
+            plan.exposure_rule
+                .min_snr_exptime_s
+                .map_or("more than the longest epoch".to_string(), |t| format!(
+                    "{t:.0} s"
+                )),
+            plan.exposure_rule
+                .levels
+                .iter()
+                .map(|l| format!("{:.0} s", l.exptime_s))
+                .collect::<Vec<_>>()
+                .join(", ")
+        );
+    }
+    if !plan.epochs.is_empty() {
+        super::outln!(
+            "  epochs (σ per coordinate = centroid, reference frame, image motion, refraction residual, floor in quadrature; DCR the systematic shift):"
+        );
+        super::outln!(
+            "    {:<20} {:>3} {:>6} {:>6} {:>5} {:>5} {:>5} {:>6} {:>3} {:>5} {:>5} {:>5} {:>5} {:>6}",
             "time (UTC)",
             "ssn",
             "P_ra",
@@ -437,11 +507,15 @@ fn print_text(
             "SNR",
             "exp s",
             "n",
-            "σ mas"
+            "σ mas",
+            "cent",
+            "ref",
+            "motn",
+            "DCR"
         );
         for e in &plan.epochs {
             super::outln!(
-                "    {:<20} {:>3} {:>+7.3} {:>+7.3} {:>+6.2} {:>6.3} {:>6.0} {:>8.1} {:>4} {:>7.2}",
+                "    {:<20} {:>3} {:>+6.2} {:>+6.2} {:>+5.2} {:>5.2} {:>5.0} {:>6.0} {:>3} {:>5.2} {:>5.2} {:>5.2} {:>5.2} {:>+6.2}",
                 e.epoch.time.round_to_second().iso(),
                 e.season,
                 e.pf_ra,
@@ -451,19 +525,35 @@ fn print_text(
                 e.epoch.snr,
                 e.epoch.exptime_s,
                 e.epoch.n_exposures,
-                e.sigma_mas
+                e.sigma_mas,
+                e.terms.centroid_mas,
+                e.terms.reference_mas,
+                e.terms.image_motion_mas,
+                e.dcr_mas[0].hypot(e.dcr_mas[1])
+                    * if plan.dcr.mas_per_tanz < 0.0 {
+                        -1.0
+                    } else {
+                        1.0
+                    }
             );
         }
     }
     if let Some(sol) = &plan.solution {
         super::outln!(
-            "  σ_ϖ = {:.2} mas, σ_μ = {:.2} mas/yr (RA {:.2}, Dec {:.2}), ϖ–μ correlation {:+.2}, baseline {:.2} yr",
+            "  σ_ϖ = {:.2} mas (fit), DCR bias bound {:.2} mas, relative-to-absolute correction {:.2} mas: {:.2} mas in all",
             sol.sigma_parallax_mas,
+            plan.dcr_bias_mas.unwrap_or(0.0).abs(),
+            plan.absolute_correction_mas,
+            plan.sigma_parallax_total_mas.unwrap_or(f64::NAN)
+        );
+        super::outln!(
+            "  σ_μ = {:.2} mas/yr (RA {:.2}, Dec {:.2}), ϖ–μ correlation {:+.2}, baseline {:.2} yr (a reachable plan needs {:.1})",
             sol.sigma_pm_masyr,
             sol.sigma_pm_ra_masyr,
             sol.sigma_pm_dec_masyr,
             sol.corr_parallax_pm,
-            sol.baseline_yr
+            sol.baseline_yr,
+            plan.min_baseline_yr
         );
         super::outln!(
             "  σ_d/d = {:.2} %, {:.2} telescope hours with overheads",
@@ -471,7 +561,11 @@ fn print_text(
             plan.prediction.hours_needed
         );
     }
-    super::outln!("  verdict: {}", plan.prediction.verdict.text());
+    super::outln!(
+        "  verdict: {} ({})",
+        plan.prediction.verdict.text(),
+        plan.verdict_reason
+    );
     for n in &plan.prediction.notes {
         super::outln!("  note: {n}");
     }

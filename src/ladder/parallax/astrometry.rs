@@ -165,6 +165,8 @@ pub struct FrameRule {
     /// Magnitudes taken as reference stars, relative to the target
     /// (brighter limit, fainter limit), e.g. (−3, +1).
     pub mag_window: (f64, f64),
+    /// The fainter limit is at least this magnitude.
+    pub faintest_mag: f64,
     /// Most reference stars a reduction uses.
     pub max_stars: f64,
     /// The star counts.
@@ -173,14 +175,15 @@ pub struct FrameRule {
 
 /// Reference stars estimated from the star counts: the stars of the field
 /// (a disc of `radius_arcmin`) within the magnitude window around the
-/// target's magnitude, the brightest `max_stars` of them when there are more;
+/// target's magnitude (its fainter end at least `faintest_mag`), the
+/// brightest `max_stars` of them when there are more;
 /// their typical magnitude is the mean of the counts' exponential
 /// distribution over the magnitudes taken. Returns (count, mean magnitude).
 pub fn estimate_reference_stars(target_mag: f64, b_deg: f64, rule: &FrameRule) -> (f64, f64) {
     let area_deg2 = std::f64::consts::PI * (rule.radius_arcmin / 60.0).powi(2);
     let n = |m: f64| rule.counts.brighter_than_per_deg2(m, b_deg) * area_deg2;
     let lo = target_mag + rule.mag_window.0;
-    let mut hi = target_mag + rule.mag_window.1;
+    let mut hi = (target_mag + rule.mag_window.1).max(rule.faintest_mag);
     let mut count = n(hi) - n(lo);
     if count > rule.max_stars {
         // The brightest max_stars: N(<hi) = N(<lo) + max.
@@ -356,6 +359,7 @@ mod tests {
         let rule = FrameRule {
             radius_arcmin: 5.0,
             mag_window: (-3.0, 1.0),
+            faintest_mag: 0.0,
             max_stars: 15.0,
             counts: StarCounts {
                 pole_per_deg2_at_20: 1000.0,

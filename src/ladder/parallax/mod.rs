@@ -1,8 +1,9 @@
-//! Trigonometric parallax: parallax factors, the parallactic ellipse, the best
-//! nights for epochs, and the precision a schedule buys once position, proper
+//! Trigonometric parallax: parallax factors, the parallactic ellipse, the
+//! nights and instants an epoch may be taken at, the error of each epoch,
+//! the choice of epochs, and the precision they buy once position, proper
 //! motion and parallax are fitted together.
 //!
-//! Models (SCIENCE.md, Parallax):
+//! Models (docs/science.md, Parallax):
 //! - Parallax factors from the Earth's barycentric position (X, Y, Z) in au,
 //!   equatorial (BCRS) axes, from SOFA `epv00` at TT:
 //!   Pα = X sin α − Y cos α, Pδ = X cos α sin δ + Y sin α sin δ − Z cos δ, so
@@ -11,27 +12,40 @@
 //!   the first-order term of SOFA `pmpx`'s parallax correction.
 //! - The parallactic ellipse has semi-axes ϖ (parallel to the ecliptic) and
 //!   ϖ |sin β|, β the ecliptic latitude (Green, from memory).
-//! - Per-epoch error: centroid error FWHM / (2.35 SNR), a floor and a
-//!   differential-chromatic-refraction term k tan z, added in quadrature.
-//! - Weighted least squares for (x0, y0, μx, μy, ϖ); σ_d/d ≈ σ_ϖ/ϖ, and beyond
-//!   ~10 % the inverse parallax is a biased distance (Lutz & Kelker 1973).
+//! - Per-epoch error by term ([`astrometry`]): the target's centroid, the
+//!   reference frame, atmospheric image motion over the exposure (Han 1989),
+//!   the residual of the colour correction of refraction, a floor.
+//! - Differential chromatic refraction as a systematic ([`astrometry::Dcr`]),
+//!   its bias on ϖ computed for the chosen epochs and reported next to σϖ.
+//! - Weighted least squares for (x0, y0, μx, μy, ϖ) ([`solve`]); the
+//!   correction from relative to absolute parallax adds its own error; σ_d/d
+//!   ≈ σ_ϖ/ϖ, and beyond ~10 % the inverse parallax is a biased distance
+//!   (Lutz & Kelker 1973).
 //!
 //! Planning: [`ParallaxMethod::series`] walks the range night by night
 //! ([`Night`] and the target's windows above the airmass limit with the Sun
-//! below the setting's limit), keeps the instant nearest the meridian within
-//! the hour-angle limit, and marks as candidates the nights whose chosen
-//! factor is within `factor_fraction` of its yearly extreme. Seasons are runs
-//! of candidate nights; [`ParallaxMethod::plan`] takes `epochs_per_season`
-//! of each, [`ParallaxMethod::goal_plan`] searches seasons × epochs × SNR for
-//! the fewest telescope hours that reach a goal, and when the range falls
-//! short continues its nights year by year to a horizon to say how many
-//! seasons would do, or what the floor is ([`Reach`]). Moonlight enters through the
-//! exposure model (sky brightness), not as a separate Moon-distance cut.
+//! below the limit), keeping the usable instants within the hour-angle limit
+//! (the earliest, the one nearest the meridian, the latest). Nights whose
+//! factor is at least `factor_fraction` of its yearly extreme are offered to
+//! the selection ([`select`]), which chooses the epochs that minimise the
+//! parallax variance plus the square of the DCR bias (greedy, then exchange,
+//! on the fit's information matrix). [`ParallaxMethod::plan`] takes
+//! `epochs_per_season` per season; [`ParallaxMethod::goal_plan`] finds the
+//! fewest telescope hours that reach a goal over a baseline of at least
+//! `min_baseline_yr`, and when the range falls short continues its nights
+//! year by year to a horizon to say how many seasons would do, or what the
+//! floor is ([`Reach`]). The goal search, the verdict, the budget, the
+//! command and the view all use this one selection. Moonlight enters
+//! through the exposure model (sky brightness), not as a separate cut.
 
 pub mod astrometry;
+mod plan;
+pub mod select;
+
+pub use plan::{EpochLevel, ExposureRule};
 
 use crate::astro::airmass::{altitude_for_airmass_deg, kasten_young};
-use crate::astro::frames::{CatalogPlace, Context, Observed};
+use crate::astro::frames::{CatalogPlace, Observed};
 use crate::astro::night::{Limits, Night, TargetNight};
 use crate::astro::time::Instant;
 use crate::astro::visibility::Track;
@@ -41,7 +55,6 @@ use crate::io::targets::{Kind, Target};
 use crate::ladder::{Epoch, ExposureModel, Method, Prediction, Setting, Verdict};
 use chrono::NaiveDate;
 use serde::{Deserialize, Serialize};
-use std::collections::HashMap;
 use std::path::Path;
 
 /// The built-in defaults, `config/parallax.toml`.
@@ -111,34 +124,72 @@ impl FactorAxis {
     }
 }
 
-/// Modelling choices of the parallax method (`config/parallax.toml`).
+/// Modelling choices of the parallax method (`config/parallax.toml`, where
+/// each value's source is given).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct ParallaxConfig {
-    /// Per-epoch astrometric floor, mas.
+    /// Per-epoch astrometric floor (detector, optics, centring), mas.
     pub floor_mas: f64,
-    /// Differential chromatic refraction, mas per unit tan z.
+    /// The random part of chromatic refraction left after its colour
+    /// correction, mas per unit tan z.
     pub dcr_mas_per_tanz: f64,
+    /// Differential image motion at 600″ separation in 1 s on a 0.76 m
+    /// aperture, arcsec: the site's constant of Han (1989).
+    pub image_motion_arcsec: f64,
+    /// Radius of the field the reference stars are taken from, arcmin.
+    pub reference_field_radius_arcmin: f64,
+    /// Magnitudes taken as reference stars relative to the target's
+    /// (brighter, fainter), when they are estimated.
+    pub reference_mag_window_mag: [f64; 2],
+    /// The fainter limit of estimated reference stars is at least this
+    /// magnitude (a bright target's frame is made of fainter stars).
+    pub reference_faintest_mag: f64,
+    /// Most reference stars a reduction uses, when they are estimated.
+    pub max_reference_stars: f64,
+    /// Star counts: stars per square degree brighter than 20 mag at the Galactic pole.
+    pub star_counts_pole_per_deg2_at_20: f64,
+    /// Star counts: growth, dex per magnitude.
+    pub star_counts_slope_per_mag: f64,
+    /// Star counts: the latitude below which they stop growing, degrees.
+    pub star_counts_min_latitude_deg: f64,
+    /// V−I of a target that gives none, mag.
+    pub target_color_vi_mag: f64,
+    /// V−I of reference stars when the target gives none, mag.
+    pub reference_color_vi_mag: f64,
+    /// Uncertainty of the correction from relative to absolute parallax, mas.
+    pub absolute_correction_mas: f64,
+    /// Shortest baseline (first to last epoch) a reachable plan needs, years.
+    pub min_baseline_yr: f64,
     /// Hour-angle limit for epochs, hours.
     pub ha_limit_h: f64,
     /// Airmass limit for epochs.
     pub max_airmass: f64,
-    /// A candidate night has |factor| ≥ this fraction of the yearly extreme.
+    /// The Sun's altitude below which parallax epochs may be taken, degrees
+    /// (twilight allowed); absent: the programme's limit.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sun_alt_deg: Option<f64>,
+    /// A night is offered to the selection when |factor| ≥ this fraction of the yearly extreme.
     pub factor_fraction: f64,
-    /// Which factor is maximised.
+    /// Which factor `factor_fraction` reads.
     pub factor_axis: FactorAxis,
-    /// Signal-to-noise aimed at per proposed epoch.
+    /// Least signal-to-noise of the target in an epoch.
     pub snr: f64,
+    /// Fewest epochs in a plan (the fit's redundancy against outliers and lost nights).
+    pub min_epochs: u32,
     /// Epochs proposed per season.
     pub epochs_per_season: u32,
-    /// Most epochs per season the goal search uses.
+    /// Most epochs in one season.
     pub max_epochs_per_season: u32,
     /// Candidate nights closer than this (days) are one season.
     pub season_gap_d: f64,
     /// σ_ϖ/ϖ (percent) above which the Lutz–Kelker warning is given.
     pub lutz_kelker_pct: f64,
-    /// SNR levels tried by the goal search, ascending.
-    pub goal_snr_steps: Vec<f64>,
+    /// Exposure levels the goal search tries, as multiples of the exposure
+    /// that buys the most precision per telescope hour, ascending.
+    pub exposure_steps: Vec<f64>,
+    /// Longest total exposure of one epoch, seconds.
+    pub max_epoch_exptime_s: f64,
 }
 
 impl ParallaxConfig {
@@ -206,6 +257,15 @@ impl ParallaxConfig {
         crate::bounds::SNR.check(self.snr)?;
         pos("season_gap_d", self.season_gap_d)?;
         pos("lutz_kelker_pct", self.lutz_kelker_pct)?;
+        if self.min_epochs < 3 {
+            return Err(RungError::invalid(
+                "min_epochs",
+                format!(
+                    "{} cannot determine position, proper motion and parallax: give at least 3",
+                    self.min_epochs
+                ),
+            ));
+        }
         if self.epochs_per_season == 0 {
             return Err(RungError::invalid(
                 "epochs_per_season",
@@ -221,30 +281,88 @@ impl ParallaxConfig {
                 ),
             ));
         }
-        if self.goal_snr_steps.is_empty() {
+        if self.exposure_steps.is_empty() {
             return Err(RungError::invalid(
-                "goal_snr_steps",
-                "give at least one SNR level",
+                "exposure_steps",
+                "give at least one level",
             ));
         }
-        for v in &self.goal_snr_steps {
-            pos("goal_snr_steps", *v)?;
-            crate::bounds::SNR.check_as("goal_snr_steps", *v)?;
+        for v in &self.exposure_steps {
+            pos("exposure_steps", *v)?;
         }
-        if self.goal_snr_steps.windows(2).any(|w| w[1] <= w[0]) {
-            return Err(RungError::invalid("goal_snr_steps", "levels must ascend"));
+        if self.exposure_steps.windows(2).any(|w| w[1] <= w[0]) {
+            return Err(RungError::invalid("exposure_steps", "levels must ascend"));
+        }
+        crate::bounds::EXPTIME_S.check_as("max_epoch_exptime_s", self.max_epoch_exptime_s)?;
+        let non_neg = |what: &str, v: f64, unit: &str| -> Result<()> {
+            if v.is_finite() && v >= 0.0 {
+                Ok(())
+            } else {
+                Err(RungError::invalid(
+                    what,
+                    format!("{v} must be zero or positive ({unit})"),
+                ))
+            }
+        };
+        pos("image_motion_arcsec", self.image_motion_arcsec)?;
+        pos(
+            "reference_field_radius_arcmin",
+            self.reference_field_radius_arcmin,
+        )?;
+        let [lo, hi] = self.reference_mag_window_mag;
+        if !(lo.is_finite() && hi.is_finite() && lo < hi) {
+            return Err(RungError::invalid(
+                "reference_mag_window_mag",
+                format!("[{lo}, {hi}] must be two magnitudes, the brighter limit first"),
+            ));
+        }
+        crate::bounds::MAG.check_as("reference_faintest_mag", self.reference_faintest_mag)?;
+        crate::bounds::REF_STAR_COUNT.check_as("max_reference_stars", self.max_reference_stars)?;
+        pos(
+            "star_counts_pole_per_deg2_at_20",
+            self.star_counts_pole_per_deg2_at_20,
+        )?;
+        pos("star_counts_slope_per_mag", self.star_counts_slope_per_mag)?;
+        if !(self.star_counts_min_latitude_deg.is_finite()
+            && self.star_counts_min_latitude_deg > 0.0
+            && self.star_counts_min_latitude_deg <= 90.0)
+        {
+            return Err(RungError::invalid(
+                "star_counts_min_latitude_deg",
+                format!(
+                    "{} is not within (0, 90] degrees",
+                    self.star_counts_min_latitude_deg
+                ),
+            ));
+        }
+        crate::bounds::COLOUR_VI_MAG.check_as("target_color_vi_mag", self.target_color_vi_mag)?;
+        crate::bounds::COLOUR_VI_MAG
+            .check_as("reference_color_vi_mag", self.reference_color_vi_mag)?;
+        non_neg(
+            "absolute_correction_mas",
+            self.absolute_correction_mas,
+            "mas",
+        )?;
+        non_neg("min_baseline_yr", self.min_baseline_yr, "years")?;
+        if self.min_baseline_yr > HORIZON_YEARS - 1.0 {
+            return Err(RungError::invalid(
+                "min_baseline_yr",
+                format!(
+                    "{} years is beyond what rung plans ({} years from the range start)",
+                    self.min_baseline_yr,
+                    HORIZON_YEARS - 1.0
+                ),
+            ));
+        }
+        if let Some(h) = self.sun_alt_deg
+            && !(h.is_finite() && (-90.0..=0.0).contains(&h))
+        {
+            return Err(RungError::invalid(
+                "sun_alt_deg",
+                format!("{h} is not within -90..0 degrees"),
+            ));
         }
         Ok(self)
-    }
-}
-
-/// The error terms of a parallax distance with σϖ/ϖ = `pct` percent: the
-/// fit's own term (σ_d/d ≈ σϖ/ϖ), none when the fit gives no finite precision.
-fn parallax_terms(pct: f64) -> Vec<crate::ladder::ErrorTerm> {
-    if pct.is_finite() {
-        vec![crate::ladder::ErrorTerm::from_pct("parallax", pct, false)]
-    } else {
-        Vec::new()
     }
 }
 
@@ -309,9 +427,6 @@ fn earth_year(start: Instant) -> Result<std::sync::Arc<Vec<[f64; 3]>>> {
     }
     Ok(v)
 }
-
-/// Cached exposure per (night index, SNR step): (exptime_s, n_exp, visit_s) or the model's refusal.
-type ExposureCache = HashMap<(usize, usize), std::result::Result<(f64, u32, f64), String>>;
 
 /// The parallactic ellipse of a star.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
@@ -387,6 +502,10 @@ pub struct NightFactor {
     pub candidate: bool,
     /// The observable instant nearest the meridian.
     pub best_time: Option<Instant>,
+    /// The earliest usable instant (most negative hour angle) of the night.
+    pub first_time: Option<Instant>,
+    /// The latest usable instant (most positive hour angle) of the night.
+    pub last_time: Option<Instant>,
     /// Hour angle at `best_time`, hours.
     pub hour_angle_h: Option<f64>,
     /// Airmass at `best_time`.
@@ -470,46 +589,6 @@ pub struct EpochObs {
     pub pf_dec: f64,
     /// Error of each coordinate, mas.
     pub sigma_mas: f64,
-}
-
-/// Per-epoch error of each coordinate, mas: the centroid error
-/// FWHM / (2.35 SNR) (a Gaussian's σ = FWHM/2.355 divided by the SNR; common
-/// practice), the floor and the DCR term k·tan z added in quadrature, with
-/// tan z = sqrt(X² − 1) from the plane-parallel airmass relation X = sec z.
-/// Inputs: seeing FWHM in arcsec, the epoch's SNR, its airmass X ≥ 1. The
-/// same error is applied to both coordinates (a conservative simplification:
-/// DCR acts along the vertical, whose direction on the sky turns with the
-/// parallactic angle). The centroid term is the photon-limited estimate of
-/// SCIENCE.md (Parallax); the floor and k are modelling choices in
-/// `config/parallax.toml`.
-pub fn epoch_sigma_mas(
-    fwhm_arcsec: f64,
-    snr: f64,
-    airmass: f64,
-    cfg: &ParallaxConfig,
-) -> Result<f64> {
-    if !(fwhm_arcsec.is_finite() && fwhm_arcsec > 0.0) {
-        return Err(RungError::invalid(
-            "seeing FWHM",
-            format!("{fwhm_arcsec} arcsec must be positive"),
-        ));
-    }
-    if !(snr.is_finite() && snr > 0.0) {
-        return Err(RungError::invalid(
-            "epoch SNR",
-            format!("{snr} must be positive"),
-        ));
-    }
-    if !(airmass.is_finite() && airmass >= 1.0) {
-        return Err(RungError::invalid(
-            "epoch airmass",
-            format!("{airmass} must be at least 1"),
-        ));
-    }
-    let centroid = 1000.0 * fwhm_arcsec / (2.35 * snr);
-    let tanz = (airmass * airmass - 1.0).max(0.0).sqrt();
-    let dcr = cfg.dcr_mas_per_tanz * tanz;
-    Ok((centroid * centroid + cfg.floor_mas * cfg.floor_mas + dcr * dcr).sqrt())
 }
 
 /// Weighted least squares for (x0, y0, μx, μy, ϖ) from epochs with parallax
@@ -597,8 +676,19 @@ pub struct PlannedEpoch {
     pub pf_dec: f64,
     /// Hour angle, hours.
     pub hour_angle_h: f64,
-    /// Error of each coordinate, mas.
+    /// Error of each coordinate, mas (`terms.total_mas`).
     pub sigma_mas: f64,
+    /// That error by term.
+    pub terms: astrometry::EpochError,
+    /// Signal-to-noise of a typical reference star in the epoch's exposure.
+    pub reference_snr: f64,
+    /// Tangent of the (observed) zenith distance.
+    pub tan_z: f64,
+    /// Parallactic angle, degrees.
+    pub parallactic_angle_deg: f64,
+    /// Differential chromatic refraction of the target against its frame,
+    /// (Δα cos δ, Δδ), mas.
+    pub dcr_mas: [f64; 2],
 }
 
 /// Everything a parallax plan says.
@@ -621,6 +711,25 @@ pub struct ParallaxPlan {
     /// In goal mode when the range falls short: how far its nights, continued
     /// to the horizon, go toward the goal.
     pub reach: Option<Reach>,
+    /// The reference frame the positions are measured against.
+    pub reference: astrometry::ReferenceFrame,
+    /// Differential chromatic refraction of the target against its frame.
+    pub dcr: astrometry::Dcr,
+    /// How an epoch's exposure is chosen.
+    pub exposure_rule: ExposureRule,
+    /// The bias DCR left uncorrected gives ϖ with these epochs, mas (a
+    /// systematic: epochs balanced in hour angle between the parallax
+    /// seasons make it small).
+    pub dcr_bias_mas: Option<f64>,
+    /// Uncertainty of the correction from relative to absolute parallax, mas.
+    pub absolute_correction_mas: f64,
+    /// σϖ of the fit, the DCR bias and the absolute correction in
+    /// quadrature, mas: what the distance precision is computed from.
+    pub sigma_parallax_total_mas: Option<f64>,
+    /// The baseline a reachable plan needs, years.
+    pub min_baseline_yr: f64,
+    /// Why the verdict is what it is, in one line.
+    pub verdict_reason: String,
 }
 
 /// How far a range's candidate nights, continued year by year to
@@ -628,8 +737,11 @@ pub struct ParallaxPlan {
 /// (see `ParallaxMethod::goal_plan`).
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Reach {
-    /// SNR per epoch assumed: the highest level of `goal_snr_steps`.
+    /// Target SNR per epoch at the exposure assumed (the longest level of
+    /// `exposure_steps`), at the reference instant of the exposure rule.
     pub snr: f64,
+    /// Total exposure per epoch assumed, seconds.
+    pub exptime_s: f64,
     /// Seasons of candidate nights inside the range.
     pub range_seasons: usize,
     /// Best σ_ϖ/ϖ of the range's seasons, percent; `None` when they cannot be fitted.
@@ -653,7 +765,18 @@ pub struct Reach {
     /// The repeated year is a full year of real nights (false only for a
     /// range shorter than a year near the end of rung's span).
     pub full_year: bool,
+    /// Baseline of the range's best plan, years.
+    pub range_baseline_yr: Option<f64>,
 }
+
+/// The epoch of a night's windows (instant, hour angle in radians,
+/// airmass), the count of usable instants, and the first and last usable
+/// instants.
+type WindowBest = (
+    Option<(Instant, f64, f64)>,
+    usize,
+    Option<(Instant, Instant)>,
+);
 
 /// The parallax method.
 #[derive(Debug, Clone, PartialEq)]
@@ -693,33 +816,6 @@ fn fmt_limits(cfg: &ParallaxConfig, lim: &Limits) -> String {
     )
 }
 
-/// Pick `k` nights of a season: the season's candidate nights are cut into
-/// `k` consecutive chunks of equal length and each chunk gives its best night
-/// (largest factor, less 10 % of the yearly extreme per hour-limit of hour
-/// angle, so that nights nearer the meridian win ties). All nights when the
-/// season is shorter than `k`.
-fn spread(series: &Series, season: &[usize], k: usize, ha_limit_h: f64) -> Vec<usize> {
-    let m = season.len();
-    if k >= m {
-        return season.to_vec();
-    }
-    let score = |i: usize| {
-        let n = &series.nights[i];
-        n.factor
-            - 0.1 * series.yearly_extreme * n.hour_angle_h.unwrap_or(ha_limit_h).abs() / ha_limit_h
-    };
-    (0..k)
-        .filter_map(|c| {
-            let a = c * m / k;
-            let b = ((c + 1) * m / k).max(a + 1);
-            season[a..b.min(m)]
-                .iter()
-                .copied()
-                .max_by(|x, y| score(*x).total_cmp(&score(*y)))
-        })
-        .collect()
-}
-
 impl ParallaxMethod {
     /// The method with its built-in defaults (`config/parallax.toml`).
     pub fn builtin() -> Result<Self> {
@@ -744,11 +840,14 @@ impl ParallaxMethod {
     }
 
     /// The setting's limits tightened by the airmass limit.
+    ///
+    /// The Sun's limit is the method's `sun_alt_deg` when configured (parallax
+    /// epochs of red targets may be taken in twilight), else the setting's.
     pub fn effective_limits(&self, s: &Setting) -> Limits {
         let alt = altitude_for_airmass_deg(self.cfg.max_airmass).unwrap_or(0.0);
         Limits {
             min_alt_deg: s.limits.min_alt_deg.max(alt),
-            sun_alt_deg: s.limits.sun_alt_deg,
+            sun_alt_deg: self.cfg.sun_alt_deg.unwrap_or(s.limits.sun_alt_deg),
         }
     }
 
@@ -810,7 +909,7 @@ impl ParallaxMethod {
     ) -> Result<NightFactor> {
         let night = Night::shared(s.site, date)?;
         let tn = night.windows(place, lim);
-        let (best, usable) = self.best_in_windows(&night.track(place), &tn);
+        let (best, usable, ends) = self.best_in_windows(&night.track(place), &tn);
         let mid = night
             .start
             .add_seconds(night.end.seconds_since(&night.start) / 2.0);
@@ -830,6 +929,8 @@ impl ParallaxMethod {
             observable,
             candidate: observable && factor >= threshold,
             best_time: best.map(|b| b.0),
+            first_time: ends.map(|e| e.0),
+            last_time: ends.map(|e| e.1),
             hour_angle_h: best.map(|b| b.1.to_degrees() / 15.0),
             airmass: best.map(|b| b.2),
             usable_min: usable as f64 * WINDOW_STEP_S / 60.0,
@@ -840,19 +941,16 @@ impl ParallaxMethod {
     /// start of each window, plus the transit when it lies in one; an instant
     /// is usable when |HA| is within the limit and the airmass at most the
     /// maximum; the epoch is the usable instant nearest the meridian. Returns
-    /// (instant, hour angle in radians, airmass) of the epoch and the count of
-    /// usable instants (the transit not counted).
+    /// (instant, hour angle in radians, airmass) of the epoch, the count of
+    /// usable instants (the transit not counted), and the first and last
+    /// usable instants of the night.
     ///
     /// The usable instants of a window are those inside the hour-angle
     /// interval around a transit where both limits hold (the altitude falls
     /// and |HA| grows away from the transit), so the closed form of the
     /// target's [`Track`] gives their index range; the instants at its ends
     /// and the candidates nearest the meridian are checked on the exact place.
-    fn best_in_windows(
-        &self,
-        track: &Track,
-        tn: &TargetNight,
-    ) -> (Option<(Instant, f64, f64)>, usize) {
+    fn best_in_windows(&self, track: &Track, tn: &TargetNight) -> WindowBest {
         let ha_lim_rad = (self.cfg.ha_limit_h * 15.0).to_radians();
         let ok = |o: &Observed| -> Option<f64> {
             let x = kasten_young(o.alt_rad.to_degrees())?;
@@ -866,6 +964,7 @@ impl ParallaxMethod {
             .map(|h| h.min(ha_lim_rad));
         let mut best: Option<(Instant, f64, f64, f64)> = None; // (t, |ha|, airmass, ha)
         let mut usable = 0usize;
+        let mut ends: Option<(Instant, Instant)> = None;
         let mut consider = |t: Instant, o: &Observed, x: f64| {
             if best.is_none_or(|b| o.ha_rad.abs() < b.1) {
                 best = Some((t, o.ha_rad.abs(), x, o.ha_rad));
@@ -911,6 +1010,13 @@ impl ParallaxMethod {
                         continue;
                     }
                     usable += (i1 - i0 + 1) as usize;
+                    let (t0, t1) = (frame.instant(at(i0)), frame.instant(at(i1)));
+                    ends = Some(match ends {
+                        None => (t0, t1),
+                        Some((a0, a1)) => {
+                            (if t0 < a0 { t0 } else { a0 }, if t1 > a1 { t1 } else { a1 })
+                        }
+                    });
                     // Nearest the meridian: when the transit lies in the
                     // window it is usable itself (considered below) or no
                     // instant is; otherwise the nearest is an end of the range.
@@ -932,7 +1038,7 @@ impl ParallaxMethod {
                 }
             }
         }
-        (best.map(|b| (b.0, b.3, b.2)), usable)
+        (best.map(|b| (b.0, b.3, b.2)), usable, ends)
     }
 
     /// Why a series offers no candidate night, as one line.
@@ -958,670 +1064,6 @@ impl ParallaxMethod {
             )
         }
     }
-
-    /// An epoch at `t` with exposure for `snr` from the exposure model.
-    fn make_epoch(
-        &self,
-        s: &Setting,
-        em: &dyn ExposureModel,
-        ctx: &Context,
-        snr: f64,
-        night: Option<NaiveDate>,
-        season: usize,
-    ) -> Result<PlannedEpoch> {
-        let place = s.target.place();
-        let mag = target_mag(s.target)?;
-        let o = ctx.observe(&place);
-        let alt = o.alt_rad.to_degrees();
-        let x = kasten_young(alt).ok_or_else(|| {
-            RungError::invalid(
-                format!("epoch {}", ctx.t.iso()),
-                format!(
-                    "'{}' is below the horizon then (altitude {alt:.1}°)",
-                    s.target.name
-                ),
-            )
-        })?;
-        let (exptime_s, n_exp) = em.exptime(mag, &s.target.band, snr, ctx, &place)?;
-        let got = em.snr(mag, &s.target.band, exptime_s, ctx, &place)?;
-        let visit_s = exptime_s + n_exp as f64 * em.readout_s() + em.visit_overhead_s();
-        let (pf_ra, pf_dec) = parallax_factors(ctx.earth_bary_au(), place.ra_rad, place.dec_rad);
-        Ok(PlannedEpoch {
-            night,
-            season,
-            epoch: Epoch {
-                time: ctx.t,
-                exptime_s,
-                n_exposures: n_exp,
-                snr: got,
-                airmass: x,
-                visit_s,
-                exposures: crate::ladder::BandExposure::single(
-                    &s.target.band,
-                    exptime_s,
-                    n_exp,
-                    got,
-                ),
-            },
-            pf_ra,
-            pf_dec,
-            hour_angle_h: o.ha_rad.to_degrees() / 15.0,
-            sigma_mas: epoch_sigma_mas(em.seeing_fwhm_arcsec(), got, x, &self.cfg)?,
-        })
-    }
-
-    /// Epochs at a user's instants (exposure for the configured SNR).
-    pub fn epochs_at(
-        &self,
-        s: &Setting,
-        em: &dyn ExposureModel,
-        times: &[Instant],
-    ) -> Result<Vec<PlannedEpoch>> {
-        if times.is_empty() {
-            return Err(RungError::invalid(
-                "epoch list",
-                "it is empty: give at least three epochs",
-            ));
-        }
-        times
-            .iter()
-            .map(|t| {
-                let ctx = Context::exact(s.site, *t)?;
-                self.make_epoch(s, em, &ctx, self.cfg.snr, None, 0)
-            })
-            .collect()
-    }
-
-    /// Planned epochs from shared-face epochs (factors from `epv00`, errors from their SNR and airmass).
-    pub fn planned_from(
-        &self,
-        s: &Setting,
-        em: &dyn ExposureModel,
-        epochs: &[Epoch],
-    ) -> Result<Vec<PlannedEpoch>> {
-        let place = s.target.place();
-        epochs
-            .iter()
-            .map(|e| {
-                let ctx = Context::exact(s.site, e.time)?;
-                let (pf_ra, pf_dec) =
-                    parallax_factors(ctx.earth_bary_au(), place.ra_rad, place.dec_rad);
-                Ok(PlannedEpoch {
-                    night: None,
-                    season: 0,
-                    epoch: e.clone(),
-                    pf_ra,
-                    pf_dec,
-                    hour_angle_h: ctx.observe(&place).ha_rad.to_degrees() / 15.0,
-                    sigma_mas: epoch_sigma_mas(
-                        em.seeing_fwhm_arcsec(),
-                        e.snr,
-                        e.airmass,
-                        &self.cfg,
-                    )?,
-                })
-            })
-            .collect()
-    }
-
-    /// The proposed plan: `epochs_per_season` nights spread over each season
-    /// of candidate nights, exposure for the configured SNR, and its precision.
-    pub fn plan(&self, s: &Setting, em: &dyn ExposureModel) -> Result<ParallaxPlan> {
-        let plx = expected_parallax_mas(s.target)?;
-        target_mag(s.target)?;
-        let series = self.series(s)?;
-        let seasons = series.seasons(self.cfg.season_gap_d);
-        if seasons.is_empty() {
-            return Err(RungError::invalid("target", self.no_candidates(s, &series)));
-        }
-        let mut epochs = Vec::new();
-        for (si, season) in seasons.iter().enumerate() {
-            for i in spread(
-                &series,
-                season,
-                self.cfg.epochs_per_season as usize,
-                self.cfg.ha_limit_h,
-            ) {
-                let nf = &series.nights[i];
-                if let Some(t) = nf.best_time {
-                    let ctx = Night::shared(s.site, nf.night)?.context(t);
-                    epochs.push(self.make_epoch(
-                        s,
-                        em,
-                        &ctx,
-                        self.cfg.snr,
-                        Some(nf.night),
-                        si + 1,
-                    )?);
-                }
-            }
-        }
-        self.finish(s, plx, series, seasons.len(), epochs, None)
-    }
-
-    /// The plan for a user's epochs.
-    pub fn plan_for(&self, s: &Setting, epochs: Vec<PlannedEpoch>) -> Result<ParallaxPlan> {
-        let plx = expected_parallax_mas(s.target)?;
-        if epochs.is_empty() {
-            return Err(RungError::invalid(
-                "epoch list",
-                "it is empty: give at least three epochs",
-            ));
-        }
-        if epochs.len() < 3 {
-            // Refuse before the (slow) factor series; `solve` words it.
-            let obs: Vec<EpochObs> = epochs
-                .iter()
-                .map(|e| EpochObs {
-                    t_yr: e.epoch.time.julian_epoch_tt(),
-                    pf_ra: e.pf_ra,
-                    pf_dec: e.pf_dec,
-                    sigma_mas: e.sigma_mas,
-                })
-                .collect();
-            solve(&obs)?;
-        }
-        let series = self.series(s)?;
-        let n = series.seasons(self.cfg.season_gap_d).len();
-        let outside: Vec<String> = epochs
-            .iter()
-            .filter(|e| {
-                e.hour_angle_h.abs() > self.cfg.ha_limit_h || e.epoch.airmass > self.cfg.max_airmass
-            })
-            .map(|e| e.epoch.time.round_to_second().iso())
-            .collect();
-        let mut plan = self.finish(s, plx, series, n, epochs, None)?;
-        if !outside.is_empty() {
-            plan.prediction.notes.push(format!(
-                "{} epoch(s) lie outside ±{:.1} h of the meridian or above airmass {:.2} (DCR grows with tan z): {}",
-                outside.len(),
-                self.cfg.ha_limit_h,
-                self.cfg.max_airmass,
-                outside.join(", ")
-            ));
-        }
-        Ok(plan)
-    }
-
-    fn finish(
-        &self,
-        s: &Setting,
-        plx: f64,
-        series: Series,
-        seasons_available: usize,
-        epochs: Vec<PlannedEpoch>,
-        verdict: Option<Verdict>,
-    ) -> Result<ParallaxPlan> {
-        let obs: Vec<EpochObs> = epochs
-            .iter()
-            .map(|e| EpochObs {
-                t_yr: e.epoch.time.julian_epoch_tt(),
-                pf_ra: e.pf_ra,
-                pf_dec: e.pf_dec,
-                sigma_mas: e.sigma_mas,
-            })
-            .collect();
-        let sol = solve(&obs)?;
-        let pct = 100.0 * sol.sigma_parallax_mas / plx;
-        let hours = epochs.iter().map(|e| e.epoch.visit_s).sum::<f64>() / 3600.0;
-        let mut notes = self.notes(plx, &sol, pct);
-        let verdict = match verdict {
-            Some(v) => v,
-            None => match s.target.goal_pct {
-                Some(g) if pct > g => {
-                    notes.push(format!(
-                        "these epochs give {pct:.1} %, short of the target's goal of {g:.1} %: see goal mode"
-                    ));
-                    Verdict::NeedsMoreSeasons { seasons: None }
-                }
-                _ if pct.is_finite() => Verdict::Reachable,
-                _ => Verdict::NeedsMoreSeasons { seasons: None },
-            },
-        };
-        let prediction = Prediction {
-            kind: Kind::Parallax,
-            epochs: epochs.iter().map(|e| e.epoch.clone()).collect(),
-            distance_precision_pct: pct,
-            hours_needed: hours,
-            verdict,
-            notes,
-            error_terms: parallax_terms(pct),
-        };
-        Ok(ParallaxPlan {
-            parallax_mas: plx,
-            ellipse: parallactic_ellipse(s.target.place().ra_rad, s.target.place().dec_rad, plx),
-            series,
-            seasons_available,
-            epochs,
-            solution: Some(sol),
-            prediction,
-            reach: None,
-        })
-    }
-
-    fn notes(&self, plx: f64, sol: &Solution, pct: f64) -> Vec<String> {
-        let mut notes = Vec::new();
-        if pct > self.cfg.lutz_kelker_pct {
-            notes.push(format!(
-                "σ_ϖ/ϖ = {pct:.1} % exceeds {:.0} %: 1/ϖ is a biased distance estimate (Lutz & Kelker 1973); do not quote it as the distance",
-                self.cfg.lutz_kelker_pct
-            ));
-        }
-        if sol.corr_parallax_pm.abs() > 0.7 || sol.baseline_yr < 1.5 {
-            notes.push(format!(
-                "baseline {:.2} yr, parallax–proper-motion correlation {:+.2}: proper motion and parallax separate only over about two years or more",
-                sol.baseline_yr, sol.corr_parallax_pm
-            ));
-        }
-        notes.push(format!(
-            "σ_ϖ = {:.2} mas for ϖ = {plx:.2} mas from {} epochs; per-epoch floor {:.1} mas, DCR {:.1} mas per tan z",
-            sol.sigma_parallax_mas, sol.n_epochs, self.cfg.floor_mas, self.cfg.dcr_mas_per_tanz
-        ));
-        notes
-    }
-
-    /// Goal mode: the cheapest plan (fewest telescope hours) that reaches
-    /// `goal_pct` = 100 σ_ϖ/ϖ within the range, searching the number of
-    /// seasons (from the first), epochs per season (`epochs_per_season` to
-    /// `max_epochs_per_season`, so that a lost night does not break a season)
-    /// and the SNR levels of `goal_snr_steps`; or the verdict that says why not.
-    ///
-    /// Why not is one test, [`Reach`]: the range's candidate nights continued
-    /// year by year to [`HORIZON_YEARS`] at the highest SNR tried. When some
-    /// number of seasons within the horizon reaches the goal the verdict is
-    /// `NeedsMoreSeasons` with that number (so the floor over the horizon is
-    /// below the goal); when none does it is `LimitedByFloor` with the best
-    /// over the horizon (above the goal). Both come from the same nights
-    /// whatever the range, so every range gives the same kind of answer. The
-    /// per-epoch floor of SCIENCE.md is an error of each epoch, independent
-    /// between epochs, so it averages down with more epochs: what limits a
-    /// range that falls short is its length, not the floor.
-    pub fn goal_plan(
-        &self,
-        s: &Setting,
-        em: &dyn ExposureModel,
-        goal_pct: f64,
-    ) -> Result<ParallaxPlan> {
-        if !(goal_pct.is_finite() && goal_pct > 0.0) {
-            return Err(RungError::invalid(
-                "distance-precision goal",
-                format!("{goal_pct} % must be positive"),
-            ));
-        }
-        let plx = expected_parallax_mas(s.target)?;
-        let mag = target_mag(s.target)?;
-        let series = self.series(s)?;
-        let seasons = series.seasons(self.cfg.season_gap_d);
-        let place = s.target.place();
-        let ellipse = parallactic_ellipse(place.ra_rad, place.dec_rad, plx);
-        let empty = |verdict: Verdict, notes: Vec<String>, series: Series, n: usize| ParallaxPlan {
-            parallax_mas: plx,
-            ellipse,
-            series,
-            seasons_available: n,
-            epochs: Vec::new(),
-            solution: None,
-            prediction: Prediction {
-                kind: Kind::Parallax,
-                epochs: Vec::new(),
-                distance_precision_pct: f64::INFINITY,
-                hours_needed: 0.0,
-                verdict,
-                notes,
-                error_terms: Vec::new(),
-            },
-            reach: None,
-        };
-        if seasons.is_empty() {
-            let why = self.no_candidates(s, &series);
-            let when = series
-                .nights
-                .iter()
-                .find(|n| n.observable)
-                .map(|n| format!("observable from {} but at a small parallax factor", n.night));
-            return Ok(empty(Verdict::NotObservable { when }, vec![why], series, 0));
-        }
-        let need_mas = goal_pct / 100.0 * plx;
-        let fwhm = em.seeing_fwhm_arcsec();
-        // Contexts at every candidate's best time, once.
-        let cand: Vec<usize> = seasons.iter().flatten().copied().collect();
-        let ctxs: HashMap<usize, Context> = {
-            use rayon::prelude::*;
-            cand.par_iter()
-                .filter_map(|i| series.nights[*i].best_time.map(|t| (*i, t)))
-                .map(|(i, t)| {
-                    Night::shared(s.site, series.nights[i].night).map(|n| (i, n.context(t)))
-                })
-                .collect::<Result<Vec<_>>>()?
-                .into_iter()
-                .collect()
-        };
-        let obs_for =
-            |idx: &[usize], sigma: &dyn Fn(usize) -> Result<f64>| -> Result<Vec<EpochObs>> {
-                idx.iter()
-                    .map(|i| {
-                        let n = &series.nights[*i];
-                        let t = n.best_time.map(|t| t.julian_epoch_tt()).unwrap_or(f64::NAN);
-                        Ok(EpochObs {
-                            t_yr: t,
-                            pf_ra: n.pf_ra,
-                            pf_dec: n.pf_dec,
-                            sigma_mas: sigma(*i)?,
-                        })
-                    })
-                    .collect()
-            };
-        let mut exp_cache: ExposureCache = HashMap::new();
-        let mut best: Option<(f64, usize, usize, usize, f64)> = None; // hours, seasons, k, snr index, sigma
-        let mut first_exp_error: Option<String> = None;
-        let kmax = self.cfg.max_epochs_per_season as usize;
-        for ns in 1..=seasons.len() {
-            for k in (self.cfg.epochs_per_season as usize)..=kmax {
-                let idx: Vec<usize> = seasons[..ns]
-                    .iter()
-                    .flat_map(|se| spread(&series, se, k, self.cfg.ha_limit_h))
-                    .collect();
-                if idx.len() < 3 {
-                    continue;
-                }
-                for (si, snr) in self.cfg.goal_snr_steps.iter().enumerate() {
-                    let sig = |i: usize| {
-                        epoch_sigma_mas(
-                            fwhm,
-                            *snr,
-                            series.nights[i].airmass.unwrap_or(1.0),
-                            &self.cfg,
-                        )
-                    };
-                    let Ok(sol) = solve(&obs_for(&idx, &sig)?) else {
-                        continue;
-                    };
-                    if sol.sigma_parallax_mas > need_mas {
-                        continue;
-                    }
-                    let mut hours = 0.0;
-                    let mut ok = true;
-                    for i in &idx {
-                        let r = exp_cache.entry((*i, si)).or_insert_with(|| {
-                            let ctx = &ctxs[i];
-                            em.exptime(mag, &s.target.band, *snr, ctx, &place)
-                                .map(|(e, n)| {
-                                    (e, n, e + n as f64 * em.readout_s() + em.visit_overhead_s())
-                                })
-                                .map_err(|e| e.to_string())
-                        });
-                        match r {
-                            Ok((_, _, v)) => hours += *v / 3600.0,
-                            Err(e) => {
-                                first_exp_error.get_or_insert_with(|| e.clone());
-                                ok = false;
-                                break;
-                            }
-                        }
-                    }
-                    if ok && best.is_none_or(|b| hours < b.0) {
-                        best = Some((hours, ns, k, si, sol.sigma_parallax_mas));
-                    }
-                    break; // higher SNR at the same epochs only costs more
-                }
-            }
-        }
-        if let Some((_, ns, k, si, _)) = best {
-            let snr = self.cfg.goal_snr_steps[si];
-            let mut epochs = Vec::new();
-            for (sn, se) in seasons[..ns].iter().enumerate() {
-                for i in spread(&series, se, k, self.cfg.ha_limit_h) {
-                    epochs.push(self.make_epoch(
-                        s,
-                        em,
-                        &ctxs[&i],
-                        snr,
-                        Some(series.nights[i].night),
-                        sn + 1,
-                    )?);
-                }
-            }
-            let n = seasons.len();
-            let mut plan = self.finish(s, plx, series, n, epochs, Some(Verdict::Reachable))?;
-            plan.prediction.notes.insert(
-                0,
-                format!(
-                    "goal {goal_pct:.1} %: {ns} season(s) × {k} epoch(s) at SNR {snr:.0} reach {:.2} % in {:.2} h",
-                    plan.prediction.distance_precision_pct, plan.prediction.hours_needed
-                ),
-            );
-            return Ok(plan);
-        }
-        // Why not: continue the range's candidate nights year by year to the
-        // planning horizon, at the highest SNR the search tries, and count the
-        // seasons that would reach the goal (or give the horizon's floor).
-        let reach = self.reach(s, &series, fwhm, goal_pct, plx)?;
-        let snr_top = reach.snr;
-        let mut notes = Vec::new();
-        if let Some(e) = &first_exp_error {
-            notes.push(format!("the exposure model refused some epochs: {e}"));
-        }
-        let span_yr = (s.to - s.from).num_days() as f64 / 365.25 + 1.0 / 365.25;
-        let per_epoch = format!(
-            "at SNR {snr_top:.0} per epoch (the highest tried) with the {:.1} mas floor and DCR",
-            self.cfg.floor_mas
-        );
-        let range_best = match reach.range_best_pct {
-            Some(p) => format!(
-                "the range's {} season(s) × up to {kmax} epochs reach at best {p:.1} %",
-                seasons.len()
-            ),
-            None => format!(
-                "the range's {} candidate night(s) are too few to fit position, proper motion and parallax",
-                seasons.iter().map(|se| se.len()).sum::<usize>()
-            ),
-        };
-        if span_yr < 2.0 || reach.range_corr_parallax_pm.is_none_or(|c| c.abs() > 0.7) {
-            notes.push(format!(
-                "the range {}..{} ({span_yr:.1} yr, {} season(s)) is too short a baseline to separate proper motion from parallax",
-                s.from,
-                s.to,
-                seasons.len()
-            ));
-        }
-        if !reach.full_year {
-            notes.push(
-                "the range covers less than a year and the nights after it are outside rung's span, so the other season of each year is not counted: give a range of two years or more".to_string(),
-            );
-        }
-        let horizon = format!(
-            "{} season(s) in the {:.0} years from {}",
-            reach.horizon_seasons, reach.horizon_yr, s.from
-        );
-        let verdict = match (reach.seasons_needed, reach.floor_pct) {
-            (Some(n), _) if first_exp_error.is_some() && n <= seasons.len() => {
-                notes.push(format!(
-                    "{per_epoch}, {range_best}: the goal is within reach of the range's seasons, but the exposure model refuses the epochs"
-                ));
-                Verdict::NotObservable {
-                    when: Some("the exposure model refuses its epochs".to_string()),
-                }
-            }
-            (Some(n), Some(fp)) => {
-                let by = reach
-                    .reached_by
-                    .map(|d| {
-                        format!(
-                            ", through about {d} ({:.1} years from {})",
-                            ((d - s.from).num_days() + 1) as f64 / 365.25,
-                            s.from
-                        )
-                    })
-                    .unwrap_or_default();
-                notes.push(format!(
-                    "{per_epoch}, {range_best}, short of {goal_pct:.1} %; the same candidate nights continued year by year reach it after {n} season(s) in all{by}; the floor over {horizon} is {fp:.1} %"
-                ));
-                Verdict::NeedsMoreSeasons {
-                    seasons: Some(n as u32),
-                }
-            }
-            (None, Some(fp)) => {
-                notes.push(format!(
-                    "{per_epoch}, {range_best}; even continued year by year, {horizon} reach at best {fp:.1} %, short of {goal_pct:.1} %: independent per-epoch errors average down only as the square root of the number of epochs"
-                ));
-                Verdict::LimitedByFloor { floor_pct: fp }
-            }
-            (_, None) => {
-                notes.push(format!(
-                    "{per_epoch}, {range_best}; even continued year by year over {horizon}, these candidate nights cannot separate position, proper motion and parallax: choose another factor axis or a lower factor fraction"
-                ));
-                Verdict::NeedsMoreSeasons { seasons: None }
-            }
-        };
-        let n = seasons.len();
-        let mut plan = empty(verdict, notes, series, n);
-        plan.reach = Some(reach);
-        Ok(plan)
-    }
-    /// How far the range's candidate nights go toward `goal_pct` when they are
-    /// continued year by year to [`HORIZON_YEARS`] from the range start: the
-    /// best σ_ϖ/ϖ of the range itself, the fewest seasons (counted from the
-    /// range start) that reach the goal, and the best over the horizon (the
-    /// floor the goal verdict compares with the goal).
-    ///
-    /// The schedule is the one the goal search would try at its most generous:
-    /// `max_epochs_per_season` nights per season ([`spread`]), each at the
-    /// highest SNR of `goal_snr_steps`, per-epoch error from
-    /// [`epoch_sigma_mas`] (centroid, floor and DCR in quadrature) and the fit
-    /// of [`solve`]. Beyond the range, night j repeats the night a whole number
-    /// of 365-day years earlier within the range's last year (factors, hour
-    /// angle, airmass and candidacy), its epoch moved by the same number of
-    /// days: the parallax factors repeat with the year to about 1e-2 au, and the
-    /// 0.24-day drift a year moves them by at most about 0.05 au over the horizon.
-    /// A range shorter than a year is first completed to a year with real
-    /// nights. Because the per-epoch errors are independent, σ_ϖ only falls as
-    /// seasons are added (the normal matrix only grows), so "reached after N
-    /// seasons" and "the horizon's floor is below the goal" are the same test.
-    fn reach(
-        &self,
-        s: &Setting,
-        series: &Series,
-        fwhm_arcsec: f64,
-        goal_pct: f64,
-        plx: f64,
-    ) -> Result<Reach> {
-        let snr = self
-            .cfg
-            .goal_snr_steps
-            .last()
-            .copied()
-            .unwrap_or(self.cfg.snr);
-        let kmax = self.cfg.max_epochs_per_season as usize;
-        let gap = self.cfg.season_gap_d;
-        let need_mas = goal_pct / 100.0 * plx;
-        let pct = |sol: &Solution| 100.0 * sol.sigma_parallax_mas / plx;
-        let obs_of = |ser: &Series, t_yr: &[f64], idx: &[usize]| -> Result<Vec<EpochObs>> {
-            idx.iter()
-                .map(|i| {
-                    let n = &ser.nights[*i];
-                    Ok(EpochObs {
-                        t_yr: t_yr[*i],
-                        pf_ra: n.pf_ra,
-                        pf_dec: n.pf_dec,
-                        sigma_mas: epoch_sigma_mas(
-                            fwhm_arcsec,
-                            snr,
-                            n.airmass.unwrap_or(1.0),
-                            &self.cfg,
-                        )?,
-                    })
-                })
-                .collect()
-        };
-        let t_of = |n: &NightFactor| n.best_time.map(|t| t.julian_epoch_tt()).unwrap_or(f64::NAN);
-        // The range alone.
-        let t_range: Vec<f64> = series.nights.iter().map(t_of).collect();
-        let range_idx: Vec<usize> = series
-            .seasons(gap)
-            .iter()
-            .flat_map(|se| spread(series, se, kmax, self.cfg.ha_limit_h))
-            .collect();
-        let range_sol = solve(&obs_of(series, &t_range, &range_idx)?).ok();
-        // Real nights to a full year, then the last year repeated.
-        let mut nights = series.nights.clone();
-        let mut full_year = nights.len() >= YEAR_NIGHTS;
-        if !full_year {
-            let place = s.target.place();
-            let lim = self.effective_limits(s);
-            let dates: Vec<NaiveDate> = (nights.len()..YEAR_NIGHTS)
-                .filter_map(|i| s.from.checked_add_days(chrono::Days::new(i as u64)))
-                .collect();
-            use rayon::prelude::*;
-            let more = dates
-                .par_iter()
-                .map(|d| self.night_factor(s, *d, &place, &lim, series.threshold))
-                .collect::<Result<Vec<_>>>();
-            match more {
-                Ok(more) => {
-                    nights.extend(more);
-                    full_year = true;
-                }
-                // Near the end of rung's span: repeat what there is.
-                Err(RungError::OutOfSpan { .. }) => {}
-                Err(e) => return Err(e),
-            }
-        }
-        let mut t_yr: Vec<f64> = nights.iter().map(t_of).collect();
-        let n_real = nights.len();
-        let horizon_n = n_real.max((HORIZON_YEARS * 365.25).round() as usize);
-        for j in n_real..horizon_n {
-            let c = (j - n_real) / YEAR_NIGHTS + 1;
-            let Some(src) = j.checked_sub(c * YEAR_NIGHTS) else {
-                continue;
-            };
-            let Some(date) = s.from.checked_add_days(chrono::Days::new(j as u64)) else {
-                break;
-            };
-            let mut nf = nights[src].clone();
-            nf.night = date;
-            nf.best_time = None;
-            nights.push(nf);
-            t_yr.push(t_yr[src] + (c * YEAR_NIGHTS) as f64 / 365.25);
-        }
-        let ext = Series {
-            nights,
-            yearly_extreme: series.yearly_extreme,
-            threshold: series.threshold,
-            axis: series.axis,
-        };
-        let ext_seasons = ext.seasons(gap);
-        let mut obs: Vec<EpochObs> = Vec::new();
-        let mut seasons_needed = None;
-        let mut reached_by = None;
-        for (k, se) in ext_seasons.iter().enumerate() {
-            let idx = spread(&ext, se, kmax, self.cfg.ha_limit_h);
-            obs.extend(obs_of(&ext, &t_yr, &idx)?);
-            if obs.len() < 3 {
-                continue;
-            }
-            let Ok(sol) = solve(&obs) else {
-                continue;
-            };
-            if seasons_needed.is_none() && sol.sigma_parallax_mas <= need_mas {
-                seasons_needed = Some(k + 1);
-                reached_by = se.last().map(|i| ext.nights[*i].night);
-            }
-        }
-        // The floor: the fit of every season of the horizon.
-        let floor = solve(&obs).ok().map(|sol| pct(&sol));
-        Ok(Reach {
-            snr,
-            range_seasons: series.seasons(gap).len(),
-            range_best_pct: range_sol.as_ref().map(pct),
-            range_corr_parallax_pm: range_sol.as_ref().map(|x| x.corr_parallax_pm),
-            horizon_yr: horizon_n as f64 / 365.25,
-            horizon_seasons: ext_seasons.len(),
-            floor_pct: floor,
-            seasons_needed,
-            reached_by,
-            full_year,
-        })
-    }
 }
 
 impl Method for ParallaxMethod {
@@ -1642,38 +1084,15 @@ impl Method for ParallaxMethod {
     }
 
     fn predict(&self, s: &Setting, em: &dyn ExposureModel, epochs: &[Epoch]) -> Result<Prediction> {
-        let plx = expected_parallax_mas(s.target)?;
         if epochs.is_empty() {
             return Err(RungError::invalid(
                 "epoch list",
                 "it is empty: give at least three epochs",
             ));
         }
+        expected_parallax_mas(s.target)?;
         let planned = self.planned_from(s, em, epochs)?;
-        let obs: Vec<EpochObs> = planned
-            .iter()
-            .map(|e| EpochObs {
-                t_yr: e.epoch.time.julian_epoch_tt(),
-                pf_ra: e.pf_ra,
-                pf_dec: e.pf_dec,
-                sigma_mas: e.sigma_mas,
-            })
-            .collect();
-        let sol = solve(&obs)?;
-        let pct = 100.0 * sol.sigma_parallax_mas / plx;
-        let verdict = match s.target.goal_pct {
-            Some(g) if pct > g => Verdict::NeedsMoreSeasons { seasons: None },
-            _ => Verdict::Reachable,
-        };
-        Ok(Prediction {
-            kind: Kind::Parallax,
-            epochs: epochs.to_vec(),
-            distance_precision_pct: pct,
-            hours_needed: epochs.iter().map(|e| e.visit_s).sum::<f64>() / 3600.0,
-            verdict,
-            notes: self.notes(plx, &sol, pct),
-            error_terms: parallax_terms(pct),
-        })
+        Ok(self.plan_for(s, em, planned)?.prediction)
     }
 
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {

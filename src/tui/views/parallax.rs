@@ -149,7 +149,15 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     let sol = p
         .solution
         .as_ref()
-        .map(|x| format!("σϖ {:.2} mas → ", x.sigma_parallax_mas))
+        .map(|x| {
+            format!(
+                "σϖ {:.2} mas (fit {:.2}, DCR {:.2}, abs {:.2}) → ",
+                p.sigma_parallax_total_mas.unwrap_or(x.sigma_parallax_mas),
+                x.sigma_parallax_mas,
+                p.dcr_bias_mas.unwrap_or(0.0).abs(),
+                p.absolute_correction_mas
+            )
+        })
         .unwrap_or_default();
     put(
         buf,
