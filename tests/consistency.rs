@@ -851,9 +851,16 @@ fn method_line(kind: &str, m: &Value) -> String {
     let epochs = epoch_list(m).len();
     match kind {
         "parallax" => {
-            let sol = match m["sigma_parallax_mas"].as_f64() {
-                Some(x) => format!("σϖ {x:.2} mas → "),
-                None => String::new(),
+            let sol = match (
+                m["sigma_parallax_total_mas"].as_f64(),
+                m["sigma_parallax_mas"].as_f64(),
+            ) {
+                (Some(t), Some(x)) => format!(
+                    "σϖ {t:.2} mas (fit {x:.2}, DCR {:.2}, abs {:.2}) → ",
+                    m["dcr_bias_mas"].as_f64().unwrap_or(0.0).abs(),
+                    m["absolute_correction_mas"].as_f64().unwrap_or(0.0)
+                ),
+                _ => String::new(),
             };
             format!(
                 "{sol}σd/d {} · {epochs} epochs in {} seasons · {} h · {verdict}",

@@ -312,7 +312,11 @@ fn run(p: Problem, seed: &[usize], start: Option<usize>, stop: Stop) -> Design {
             exchange_for_hours(&mut st, seed, t);
             prune(&mut st, seed, t);
         }
-        Stop::Target(_) => exchange_for_j(&mut st, seed),
+        // Not reached with every admissible candidate the caps allow:
+        // position by position, the best swap, until J is reached or a pass
+        // changes nothing (Fedorov's full exchange would cost k times more
+        // on the long horizon designs this case meets).
+        Stop::Target(t) => exchange_sequential(&mut st, seed, t),
     }
     evaluate(&p, &st.chosen)
 }
@@ -348,6 +352,42 @@ fn exchange_for_j(st: &mut State, seed: &[usize]) {
         st.push(i);
         let last = st.chosen.len() - 1;
         st.chosen.swap(k.min(last), last);
+    }
+}
+
+fn exchange_sequential(st: &mut State, seed: &[usize], target: f64) {
+    let n = st.p.cands.len();
+    for _ in 0..2 {
+        let mut improved = false;
+        for k in 0..st.chosen.len() {
+            if seed.contains(&st.chosen[k]) {
+                continue;
+            }
+            let cur = st.j();
+            if cur <= target {
+                return;
+            }
+            let mut best: Option<(f64, usize)> = None;
+            for i in 0..n {
+                if !st.may_add(i, Some(st.chosen[k])) {
+                    continue;
+                }
+                let jn = st.j_swap(k, i);
+                if jn < cur * (1.0 - 1e-9) && best.is_none_or(|b| jn < b.0) {
+                    best = Some((jn, i));
+                }
+            }
+            if let Some((_, i)) = best {
+                st.remove_at(k);
+                st.push(i);
+                let last = st.chosen.len() - 1;
+                st.chosen.swap(k.min(last), last);
+                improved = true;
+            }
+        }
+        if !improved {
+            return;
+        }
     }
 }
 
