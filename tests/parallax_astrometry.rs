@@ -152,3 +152,73 @@ fn reference_stars_from_the_star_counts() {
         "{n12} {want} {m12}"
     );
 }
+
+/// Bad input of the reference-frame columns and of a frame the star counts
+/// cannot fill (docs/bad-input.md, PX1–PX4): each refused with its reason,
+/// the good rows beside it kept.
+#[test]
+fn bad_reference_frames_are_refused_with_their_reason() {
+    use rung::io::targets::parse_csv;
+    use std::path::Path;
+    let f = Path::new("t.csv");
+    for (id, text, want) in [
+        (
+            "PX1",
+            "name,kind,ra,dec,parallax_mas,mag,ref_star_count\nA,parallax,10,-20,40,15,2\nB,parallax,20,-20,40,15,8\n",
+            "t.csv, line 2, field 'ref_star_count': 2 is not within 3..1000: a linear plate model (six constants) needs at least three reference stars, and a CCD frame holds at most a few hundred useful ones",
+        ),
+        (
+            "PX2",
+            "name,kind,ra,dec,parallax_mas,mag,color_vi_mag\nA,parallax,10,-20,40,15,12\nB,parallax,20,-20,40,15,3\n",
+            "t.csv, line 2, field 'color_vi_mag': 12 mag is not within -1..8 mag: stars run from about V-I = -0.4 (the hottest) to about 5 (the coolest dwarfs seen in V)",
+        ),
+    ] {
+        let l = parse_csv(text, f);
+        let got: Vec<String> = l.problems.iter().map(|p| p.to_string()).collect();
+        assert_eq!(got, vec![want.to_string()], "{id}");
+        assert_eq!(l.targets.len(), 1, "{id}: the good row is kept");
+    }
+    // PX3: a count that is not a whole number, refused by the method.
+    let site = rung::io::sites::resolve("pampa-lucero").unwrap();
+    let em = rung::photometry::Photometer::from_name("lucero-1m", &site).unwrap();
+    let mut t = rung::io::targets::Target::plain("A", 61.3, -18.4);
+    t.kind = rung::io::targets::Kind::Parallax;
+    t.parallax_mas = Some(40.0);
+    t.mag = Some(15.0);
+    t.band = "I".into();
+    t.ref_star_count = Some(7.5);
+    let m = rung::ladder::parallax::ParallaxMethod::builtin().unwrap();
+    let s = rung::ladder::Setting {
+        site: &site,
+        target: &t,
+        from: "2026-12-01".parse().unwrap(),
+        to: "2027-01-15".parse().unwrap(),
+        limits: rung::astro::night::Limits::new(30.0, -12.0).unwrap(),
+    };
+    let e = m.plan(&s, &em).unwrap_err().to_string();
+    assert_eq!(
+        e,
+        "invalid ref_star_count of 'A': 7.5 is not a whole number of stars"
+    );
+    // PX4: a field too small to hold three reference stars: the goal verdict
+    // says so (not observable, the reason in its notes), the plan refuses.
+    let mut t2 = t.clone();
+    t2.ref_star_count = None;
+    let mut m = m;
+    m.cfg.reference_field_radius_arcmin = 0.3;
+    let s = rung::ladder::Setting { target: &t2, ..s };
+    let e = m.plan(&s, &em).unwrap_err().to_string();
+    assert!(
+        e.starts_with("invalid target 'A': the star counts give only ")
+            && e.contains("a linear plate model needs three; give ref_star_count and ref_mag"),
+        "{e}"
+    );
+    let g = m.goal_plan(&s, &em, 5.0).unwrap();
+    assert_eq!(
+        g.prediction.verdict,
+        rung::ladder::Verdict::NotObservable {
+            when: Some("no usable reference frame".into())
+        }
+    );
+    assert_eq!(g.prediction.notes[0], e);
+}
