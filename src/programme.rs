@@ -469,16 +469,15 @@ impl Settings {
         targets: &'a [Target],
         g: &crate::ladder::field::FieldGroup,
     ) -> crate::ladder::field::FieldSetting<'a> {
-        let field = &targets[g.field];
-        crate::ladder::field::FieldSetting {
-            site: &self.site,
-            field,
-            members: g.members.iter().map(|i| &targets[*i]).collect(),
-            from: self.from,
-            to: self.to,
-            limits: self.limits,
-            goal_pct: self.goal_for(field),
-        }
+        crate::ladder::field::FieldSetting::of(
+            &self.site,
+            targets,
+            g,
+            self.from,
+            self.to,
+            self.limits,
+            self.goal_pct,
+        )
     }
 
     /// The plan of the field `g` of `targets` (its goal's, else the proposal).

@@ -273,3 +273,75 @@ fn an_instrument_without_a_field_of_view_is_said() {
         "invalid field 'LPO-G9': the instrument gives no field of view (fov_arcmin in instruments.toml), so rung cannot tell which stars one pointing serves"
     );
 }
+
+#[test]
+fn the_plan_places_a_field_as_one_unit() {
+    let dir = std::path::Path::new(env!("CARGO_TARGET_TMPDIR")).join("field_plan_cli");
+    std::fs::create_dir_all(&dir).unwrap();
+    let file = dir.join("t.csv");
+    let mut csv = String::from(
+        "name,kind,ra,dec,period_d,epoch_max_bjd,period_err_d,amplitude_mag,mean_mag,extinction_mag,field,goal_pct,feh_dex,feh_err_dex\n",
+    );
+    csv.push_str(&format!("LPO-G9,field,{RA0},{DEC0},,,,,,,,5,-0.4,0.1\n"));
+    for t in members() {
+        csv.push_str(&format!(
+            "{},pulsator,{},{},{},{},{},0.8,{},0.12,LPO-G9,,,\n",
+            t.name,
+            t.ra_deg,
+            t.dec_deg,
+            t.period_d.unwrap(),
+            t.epoch_max_bjd.unwrap(),
+            t.period_err_d.unwrap(),
+            t.mean_mag.unwrap()
+        ));
+    }
+    std::fs::write(&file, csv).unwrap();
+    let run = |cmd: &str, extra: &[&str]| -> serde_json::Value {
+        let mut args = vec![
+            cmd,
+            "--site",
+            "pampa-lucero",
+            "--targets",
+            file.to_str().unwrap(),
+            "--from",
+            "2026-12-01",
+            "--to",
+            "2027-02-28",
+            "--json",
+        ];
+        args.extend(extra);
+        let out = Command::new(env!("CARGO_BIN_EXE_rung"))
+            .args(&args)
+            .env("RUNG_CONFIG_DIR", env!("CARGO_TARGET_TMPDIR"))
+            .output()
+            .unwrap();
+        serde_json::from_slice(&out.stdout)
+            .unwrap_or_else(|e| panic!("{e}: {}", String::from_utf8_lossy(&out.stderr)))
+    };
+    let plan = run("plan", &["--hours-per-night", "6"]);
+    // Visits only for the field's pointing and the outside star's own.
+    let visits = plan["plan"]["visits"].as_array().unwrap();
+    assert!(!visits.is_empty());
+    let mut targets: Vec<&str> = visits
+        .iter()
+        .map(|v| v["target"].as_str().unwrap())
+        .collect();
+    targets.sort();
+    targets.dedup();
+    assert_eq!(targets, ["G9-V6", "LPO-G9"]);
+    // One outcome, the field's, with every pointing's visits counted.
+    let outcomes = plan["outcomes"].as_array().unwrap();
+    assert_eq!(outcomes.len(), 1, "{outcomes:?}");
+    assert_eq!(outcomes[0]["target"], "LPO-G9");
+    assert_eq!(
+        outcomes[0]["planned"].as_u64().unwrap() as usize,
+        visits.len()
+    );
+    // All placed: the plan's precision is the budget's.
+    let budget = run("budget", &[]);
+    let row = &budget["rows"][0];
+    assert_eq!(row["epochs"].as_u64().unwrap() as usize, visits.len());
+    let a = outcomes[0]["distance_precision_pct"].as_f64().unwrap();
+    let b = row["achievable_pct"].as_f64().unwrap();
+    assert!((a - b).abs() < 0.05, "plan {a} vs budget {b}");
+}

@@ -195,6 +195,7 @@ fn run(ts: &[Target], done: Vec<Visit>, lost: BTreeSet<NaiveDate>, hours: f64) -
         lost_nights: lost,
         horizon_to: day(TO),
         not_before: None,
+        fields: &rung::ladder::field::FieldConfig::builtin(),
     };
     schedule(&req).unwrap()
 }
@@ -316,6 +317,7 @@ fn a_replan_places_nothing_before_the_clock() {
         lost_nights: BTreeSet::new(),
         horizon_to: day(TO),
         not_before: Some(now),
+        fields: &rung::ladder::field::FieldConfig::builtin(),
     };
     let s = schedule(&req).unwrap();
     assert!(!s.visits.is_empty());

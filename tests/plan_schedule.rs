@@ -160,6 +160,7 @@ fn run(
         lost_nights: lost,
         horizon_to: day(to),
         not_before: None,
+        fields: &rung::ladder::field::FieldConfig::builtin(),
     };
     schedule(&req).unwrap()
 }
@@ -278,6 +279,7 @@ fn hours_beyond_the_night_are_refused() {
         lost_nights: BTreeSet::new(),
         horizon_to: day("2026-12-03"),
         not_before: None,
+        fields: &rung::ladder::field::FieldConfig::builtin(),
     };
     let e = schedule(&req).unwrap_err().to_string();
     assert!(

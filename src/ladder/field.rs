@@ -61,6 +61,11 @@ pub struct FieldDefaults {
     pub candidate_step_s: f64,
     /// Most phase points a plan may ask of each star.
     pub max_points: usize,
+    /// A goal at or below the field's floor is planned for the floor times this.
+    pub floor_margin: f64,
+    /// Nights from the range's first in which a pointing's visits are sought
+    /// first (the span doubles while they do not fit).
+    pub campaign_nights: usize,
 }
 
 /// The configuration of fields (`config/field.toml`).
@@ -112,6 +117,18 @@ impl FieldConfig {
             return Err(RungError::invalid(
                 "defaults.candidate_step_s",
                 "must be within 60..86400 s",
+            ));
+        }
+        if !(d.floor_margin.is_finite() && d.floor_margin > 1.0 && d.floor_margin <= 2.0) {
+            return Err(RungError::invalid(
+                "defaults.floor_margin",
+                "must be within (1, 2]",
+            ));
+        }
+        if !(1..=2000).contains(&d.campaign_nights) {
+            return Err(RungError::invalid(
+                "defaults.campaign_nights",
+                "must be within 1..2000",
             ));
         }
         if !(7..=2000).contains(&d.max_points) {
@@ -539,6 +556,33 @@ pub struct FieldSetting<'a> {
     pub goal_pct: Option<f64>,
 }
 
+impl<'a> FieldSetting<'a> {
+    /// The setting of the field `g` of `targets` at `site` over `from`..`to`
+    /// under `limits`, with its goal: its own `goal_pct`, else the
+    /// programme's `programme_goal_pct`.
+    #[allow(clippy::too_many_arguments)]
+    pub fn of(
+        site: &'a Site,
+        targets: &'a [Target],
+        g: &FieldGroup,
+        from: NaiveDate,
+        to: NaiveDate,
+        limits: Limits,
+        programme_goal_pct: Option<f64>,
+    ) -> Self {
+        let field = &targets[g.field];
+        FieldSetting {
+            site,
+            field,
+            members: g.members.iter().map(|i| &targets[*i]).collect(),
+            from,
+            to,
+            limits,
+            goal_pct: field.goal_pct.or(programme_goal_pct),
+        }
+    }
+}
+
 /// One star of a field in its report.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct FieldStar {
@@ -765,14 +809,16 @@ fn tie_ranks(cands: &[Candidate]) -> Vec<f64> {
     rank
 }
 
-/// Choose up to `n` visits among `cands` (instant, BJD_TDB, tie rank) for
-/// stars with ephemerides (E0 BJD, P days): greedily the candidate whose
-/// phases fall in the most (star, bin) cells still empty (`bins` bins per
-/// star), ties to the lower rank, then the earlier; candidates closer
-/// than `dwell_s` to a chosen one are dropped. Stops when `n` are chosen or
-/// no candidate adds a cell. The result is in time order.
+/// Choose up to `n` visits among `cands` (instant, BJD_TDB, tie rank, cost
+/// in seconds) for stars with ephemerides (E0 BJD, P days): greedily the
+/// candidate that fills the most (star, bin) cells still empty (`bins` bins
+/// per star) per second of telescope time (a moonlit night, whose exposures
+/// are longer, must fill more to be taken), ties to the lower rank, then the
+/// earlier; candidates closer than `dwell_s` to a chosen one are dropped.
+/// Stops when `n` are chosen or no candidate adds a cell. The result is in
+/// time order.
 pub fn choose_visits(
-    cands: &[(Instant, Bjd, f64)],
+    cands: &[(Instant, Bjd, f64, f64)],
     ephemerides: &[(f64, f64)],
     bins: usize,
     n: usize,
@@ -783,13 +829,13 @@ pub fn choose_visits(
     };
     let cells: Vec<Vec<usize>> = cands
         .iter()
-        .map(|(_, b, _)| ephemerides.iter().map(|e| bin_of(b, e)).collect())
+        .map(|(_, b, _, _)| ephemerides.iter().map(|e| bin_of(b, e)).collect())
         .collect();
     let mut covered = vec![vec![false; bins]; ephemerides.len()];
     let mut alive = vec![true; cands.len()];
     let mut chosen: Vec<usize> = Vec::new();
     while chosen.len() < n {
-        let mut best: Option<(usize, usize)> = None;
+        let mut best: Option<(usize, f64)> = None;
         for (c, cell) in cells.iter().enumerate() {
             if !alive[c] {
                 continue;
@@ -802,17 +848,18 @@ pub fn choose_visits(
             if gain == 0 {
                 continue;
             }
+            let score = gain as f64 / cands[c].3.max(1.0);
             let better = match best {
                 None => true,
-                Some((bc, bg)) => {
-                    gain > bg
-                        || (gain == bg
+                Some((bc, bs)) => {
+                    score > bs * (1.0 + 1e-12)
+                        || (score >= bs * (1.0 - 1e-12)
                             && (cands[c].2 < cands[bc].2
                                 || (cands[c].2 == cands[bc].2 && cands[c].0 < cands[bc].0)))
                 }
             };
             if better {
-                best = Some((c, gain));
+                best = Some((c, score));
             }
         }
         let Some((c, _)) = best else { break };
@@ -1124,6 +1171,65 @@ impl<'a> FieldPlanner<'a> {
         Night::shared_range(fs.site, fs.from, to)
     }
 
+    /// Each candidate's cost (s): the visit at the best candidate of its
+    /// night (rank 0), sized for the pointing's faintest star at `snr`
+    /// without the frames split for the brightest; `dwell_s` where that fails.
+    #[allow(clippy::too_many_arguments)]
+    fn night_costs(
+        &self,
+        fs: &FieldSetting,
+        em: &dyn ExposureModel,
+        prep: &Prepared,
+        p: &PointingIdx,
+        cands: &[Candidate],
+        ranks: &[f64],
+        snr: f64,
+        dwell_s: f64,
+    ) -> Vec<f64> {
+        use rayon::prelude::*;
+        let faint: Vec<(&str, f64, &CatalogPlace)> = bands_of(prep, p)
+            .into_iter()
+            .filter_map(|band| {
+                let m = p
+                    .stars
+                    .iter()
+                    .filter_map(|s| prep.members[*s].as_ref())
+                    .filter(|m| m.star.band == band)
+                    .max_by(|a, b| a.faint_mag.total_cmp(&b.faint_mag))?;
+                Some((m.star.band.as_str(), m.faint_mag, &m.star.place))
+            })
+            .collect();
+        let best: Vec<(usize, f64)> = (0..cands.len())
+            .into_par_iter()
+            .filter(|i| ranks[*i] == 0.0)
+            .map(|i| {
+                let cost = Context::exact(fs.site, cands[i].t).ok().and_then(|ctx| {
+                    let mut s = em.visit_overhead_s();
+                    for (band, mag, place) in &faint {
+                        let (t, n) = em.exptime(*mag, band, snr, &ctx, place).ok()?;
+                        s += t + n as f64 * em.readout_s();
+                    }
+                    Some(s)
+                });
+                (i, cost.unwrap_or(dwell_s))
+            })
+            .collect();
+        // Every candidate takes the cost of its night's best one.
+        let mut out = vec![dwell_s; cands.len()];
+        let mut k = 0;
+        for (i, c) in cands.iter().enumerate() {
+            while k + 1 < best.len() && cands[best[k + 1].0].t <= c.t {
+                k += 1;
+            }
+            // The night's best is within a day of each of its candidates.
+            let near = |j: usize| cands[best[j].0].t.seconds_since(&c.t).abs() < 0.75 * 86_400.0;
+            if let Some(j) = [k, k + 1].into_iter().find(|j| *j < best.len() && near(*j)) {
+                out[i] = best[j].1;
+            }
+        }
+        out
+    }
+
     /// The visits of every pointing: `n` per pointing at per-point SNR `snr`
     /// for its faintest star, over `bins` bins.
     #[allow(clippy::too_many_arguments)]
@@ -1157,20 +1263,36 @@ impl<'a> FieldPlanner<'a> {
                 }
             }
             let step = self.config.defaults.candidate_step_s.max(dwell_s);
-            let cands = candidates(fs.site, &centre, nights, &fs.limits, dwell_s, step);
             let ephs: Vec<(f64, f64)> = p
                 .stars
                 .iter()
                 .filter_map(|s| prep.members[*s].as_ref())
                 .map(|m| (m.star.ephemeris.epoch_max_bjd, m.star.ephemeris.period_d))
                 .collect();
-            let ranks = tie_ranks(&cands);
-            let flat: Vec<(Instant, Bjd, f64)> = cands
-                .iter()
-                .zip(&ranks)
-                .map(|(c, r)| (c.t, c.bjd, *r))
-                .collect();
-            let chosen = choose_visits(&flat, &ephs, bins, n, dwell_s);
+            // A campaign: the visits are sought in the first
+            // `campaign_nights` of the range, a span twice as long when they
+            // do not fit, up to the whole range.
+            let mut span = self.config.defaults.campaign_nights.min(nights.len());
+            let (cands, chosen) = loop {
+                let cands =
+                    candidates(fs.site, &centre, &nights[..span], &fs.limits, dwell_s, step);
+                let ranks = tie_ranks(&cands);
+                // A visit's cost on each night: the faintest star's exposure at
+                // the night's best candidate (the Moon and the airmass of that
+                // night), with the overheads.
+                let costs = self.night_costs(fs, em, prep, p, &cands, &ranks, snr, dwell_s);
+                let flat: Vec<(Instant, Bjd, f64, f64)> = cands
+                    .iter()
+                    .zip(&ranks)
+                    .zip(&costs)
+                    .map(|((c, r), k)| (c.t, c.bjd, *r, *k))
+                    .collect();
+                let chosen = choose_visits(&flat, &ephs, bins, n, dwell_s);
+                if chosen.len() >= n || span >= nights.len() {
+                    break (cands, chosen);
+                }
+                span = (2 * span).min(nights.len());
+            };
             if chosen.len() < n {
                 notes.push(format!(
                     "pointing {name}: {} of the {n} visits asked fit in the range's windows",
@@ -1516,17 +1638,18 @@ impl<'a> FieldPlanner<'a> {
         if perfect.is_empty() {
             return run(n0, self.pulsator.snr, &mut notes);
         }
-        if goal <= floor * (1.0 + 1e-9) {
+        let out_of_reach = goal <= floor * (1.0 + 1e-9);
+        let aim = if out_of_reach {
+            let aim = floor * self.config.defaults.floor_margin;
             notes.push(format!(
-                "goal {goal} % is out of reach for this field: the relation's scatter over its stars and the field-wide terms set a floor of {floor:.2} % whatever the points"
+                "goal {goal} % is out of reach for this field: the relation's scatter over its stars and the field-wide terms set a floor of {floor:.2} % whatever the points; planned for {aim:.2} % ({} × the floor)",
+                self.config.defaults.floor_margin
             ));
-            let mut r = run(n0, self.pulsator.snr, &mut notes)?;
-            if floor.is_finite() && !r.prediction.epochs.is_empty() {
-                r.prediction.verdict = Verdict::LimitedByFloor { floor_pct: floor };
-            }
-            return Ok(r);
-        }
-        let s_goal = goal / 100.0 / DIST_FRAC_PER_MAG;
+            aim
+        } else {
+            goal
+        };
+        let s_goal = aim / 100.0 / DIST_FRAC_PER_MAG;
         let refs: Vec<Option<Instant>> = prep
             .pointings
             .iter()
@@ -1566,7 +1689,7 @@ impl<'a> FieldPlanner<'a> {
         }
         let mut r = run(n, snr, &mut notes)?;
         for _ in 0..3 {
-            if r.prediction.distance_precision_pct <= goal || r.prediction.epochs.is_empty() {
+            if r.prediction.distance_precision_pct <= aim || r.prediction.epochs.is_empty() {
                 break;
             }
             if snr < d.snr_max * 0.999 {
@@ -1579,11 +1702,16 @@ impl<'a> FieldPlanner<'a> {
             r = run(n, snr, &mut notes)?;
         }
         let text = format!(
-            "goal {goal} %: {n} points per star over {n} phase bins, each pointing's faintest star at SNR {snr:.0} per point (σ ≈ {:.4} mag)",
+            "{} {:.2} %: {n} points per star over {n} phase bins, each pointing's faintest star at SNR {snr:.0} per point (σ ≈ {:.4} mag)",
+            if out_of_reach { "aim" } else { "goal" },
+            aim,
             MAG_PER_INV_SNR / snr
         );
         r.notes.push(text.clone());
         r.prediction.notes.push(text);
+        if out_of_reach && !r.prediction.epochs.is_empty() {
+            r.prediction.verdict = Verdict::LimitedByFloor { floor_pct: floor };
+        }
         Ok(r)
     }
 }

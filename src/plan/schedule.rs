@@ -171,6 +171,9 @@ pub struct Request<'a> {
     /// No visit is placed before this instant (a re-plan during the night
     /// places only what is still ahead).
     pub not_before: Option<Instant>,
+    /// The fields' configuration (a field is planned as one unit,
+    /// src/ladder/field.rs).
+    pub fields: &'a crate::ladder::field::FieldConfig,
 }
 
 impl<'a> Request<'a> {
@@ -192,6 +195,7 @@ impl<'a> Request<'a> {
             lost_nights: BTreeSet::new(),
             horizon_to: settings.to,
             not_before: None,
+            fields: &settings.fields,
         }
     }
 }
@@ -420,11 +424,82 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
     // call is independent), then taken in target order so the result does
     // not depend on threads.
     type Proposal = (Vec<Epoch>, Option<crate::ladder::Verdict>);
+    // A field is one unit (src/ladder/field.rs): its plan is made once; its
+    // visits go to the targets its pointings are centred on (the field, or a
+    // star outside the field's own pointing), its other stars ask for none.
+    let links = crate::ladder::field::link(req.targets);
+    let planner = req
+        .methods
+        .get::<crate::ladder::pulsator::PulsatorMethod>()
+        .map(|pulsator| crate::ladder::field::FieldPlanner {
+            pulsator,
+            config: req.fields,
+        });
+    let field_setting = |g: &crate::ladder::field::FieldGroup| {
+        crate::ladder::field::FieldSetting::of(
+            req.site,
+            req.targets,
+            g,
+            req.from,
+            horizon_to,
+            req.limits,
+            req.goal_pct,
+        )
+    };
+    let field_plans: HashMap<
+        usize,
+        std::result::Result<crate::ladder::field::FieldReport, String>,
+    > = {
+        use rayon::prelude::*;
+        links
+            .groups
+            .par_iter()
+            .filter(|g| !g.members.is_empty())
+            .filter_map(|g| {
+                let p = planner.as_ref()?;
+                Some((
+                    g.field,
+                    p.plan(&field_setting(g), req.em).map_err(|e| e.to_string()),
+                ))
+            })
+            .collect()
+    };
     let proposals: Vec<Option<Result<Proposal>>> = {
         use rayon::prelude::*;
         req.targets
             .par_iter()
-            .map(|t| {
+            .enumerate()
+            .map(|(ti, t)| {
+                use crate::ladder::field::Role;
+                match links.role(ti) {
+                    Role::Alone => {}
+                    Role::Refused(why) => {
+                        return Some(Err(RungError::invalid("field", why.to_string())));
+                    }
+                    Role::Field(g) | Role::Member(g) => {
+                        let is_field = g.field == ti;
+                        return match field_plans.get(&g.field) {
+                            None if is_field => Some(Err(RungError::invalid(
+                                "field",
+                                format!("'{}' has no pulsators", t.name),
+                            ))),
+                            None | Some(Err(_)) if !is_field => None,
+                            None => None,
+                            Some(Err(e)) => Some(Err(RungError::invalid("field", e.clone()))),
+                            Some(Ok(r)) => {
+                                let e = r.epochs_of(&t.name);
+                                if is_field {
+                                    let verdict = r.goal_pct.map(|_| r.prediction.verdict.clone());
+                                    Some(Ok((e, verdict)))
+                                } else if e.is_empty() {
+                                    None
+                                } else {
+                                    Some(Ok((e, None)))
+                                }
+                            }
+                        };
+                    }
+                }
                 let m = req.methods.for_kind(t.kind)?;
                 let goal = goal_for(t, req.goal_pct, m);
                 let judged = with_goal(t, goal);
@@ -701,6 +776,25 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
             .collect();
         work.into_par_iter()
             .filter_map(|(ti, t, mut notes)| {
+                use crate::ladder::field::Role;
+                match links.role(ti) {
+                    // A field's stars are judged with their field.
+                    Role::Member(_) => return None,
+                    Role::Field(g) => {
+                        return field_outcome(
+                            req,
+                            t,
+                            g,
+                            planner.as_ref(),
+                            &field_setting(g),
+                            field_plans.get(&ti),
+                            &by_target,
+                            &later,
+                            notes,
+                        );
+                    }
+                    _ => {}
+                }
                 let m = req.methods.for_kind(t.kind)?;
                 let goal = goal_for(t, req.goal_pct, m);
                 let mine: &[&Visit] = by_target.get(t.name.as_str()).map_or(&[], |v| v);
@@ -822,6 +916,95 @@ pub fn spacing_text(s: f64) -> String {
     } else {
         format!("{:.0} min", s / 60.0)
     }
+}
+
+/// The outcome of a field: its prediction from the placed and done visits
+/// of all its pointings (each under the name of the target it is centred
+/// on) and the epochs after the plan's last night, as
+/// `FieldPlanner::predict` gives it.
+#[allow(clippy::too_many_arguments)]
+fn field_outcome(
+    req: &Request,
+    t: &Target,
+    g: &crate::ladder::field::FieldGroup,
+    planner: Option<&crate::ladder::field::FieldPlanner>,
+    fs: &crate::ladder::field::FieldSetting,
+    plan: Option<&std::result::Result<crate::ladder::field::FieldReport, String>>,
+    by_target: &HashMap<&str, Vec<&Visit>>,
+    later: &HashMap<usize, Vec<Epoch>>,
+    mut notes: Vec<String>,
+) -> Option<Outcome> {
+    let goal = fs.goal_pct;
+    let mut planned = 0;
+    let mut done = 0;
+    let mut requested = 0;
+    let mut later_n = 0;
+    let mut prediction = None;
+    match (plan, planner) {
+        (Some(Ok(r)), Some(p)) => {
+            requested = r.prediction.epochs.len();
+            let mut visits: BTreeMap<String, Vec<Epoch>> = BTreeMap::new();
+            for pt in &r.pointings {
+                let mine: &[&Visit] = by_target.get(pt.target.as_str()).map_or(&[], |v| v);
+                planned += mine.iter().filter(|v| v.status == Status::Planned).count();
+                done += mine.iter().filter(|v| v.status == Status::Done).count();
+                let mut e: Vec<Epoch> = mine
+                    .iter()
+                    .filter(|v| v.status != Status::Lost)
+                    .map(|v| v.epoch())
+                    .collect();
+                // Epochs after the plan's last night, asked of this pointing.
+                let ti = req.targets.iter().position(|x| x.name == pt.target);
+                if let Some(l) = ti.and_then(|i| later.get(&i)) {
+                    later_n += l.len();
+                    e.extend(l.iter().cloned());
+                }
+                visits.insert(pt.target.clone(), e);
+            }
+            if visits.values().all(|v| v.is_empty()) {
+                notes.push("no visits placed".into());
+            } else {
+                match p.predict(fs, req.em, &visits) {
+                    Ok(r) => prediction = Some(r.prediction),
+                    Err(e) => notes.push(format!(
+                        "these visits alone give no distance yet: {}",
+                        crate::error::one_line_cut(&e.to_string(), 160)
+                    )),
+                }
+            }
+        }
+        (Some(Err(e)), _) => notes.push(format!("no epochs proposed: {e}")),
+        _ if g.members.is_empty() => notes.push(format!(
+            "field '{}' has no pulsators: give its stars field = {}",
+            t.name, t.name
+        )),
+        _ => notes.push("no pulsating-star method to plan the field with".into()),
+    }
+    let shown = prediction
+        .as_ref()
+        .and_then(|p| shown_precision(p.distance_precision_pct));
+    let meets_goal = match (goal, shown) {
+        (Some(g), Some(p)) => Some(p <= g),
+        (Some(_), None) if prediction.is_some() => Some(false),
+        _ => None,
+    };
+    Some(Outcome {
+        target: t.name.clone(),
+        kind: t.kind,
+        goal_pct: goal,
+        planned,
+        done,
+        requested,
+        later: later_n,
+        prediction,
+        distance_precision_pct: shown,
+        meets_goal,
+        goal_verdict: match plan {
+            Some(Ok(r)) if goal.is_some() => Some(r.prediction.verdict.clone()),
+            _ => None,
+        },
+        notes,
+    })
 }
 
 /// The start nearest `pref` such that `[start, start + dur]` lies inside one of
