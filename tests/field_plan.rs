@@ -345,3 +345,108 @@ fn the_plan_places_a_field_as_one_unit() {
     let b = row["achievable_pct"].as_f64().unwrap();
     assert!((a - b).abs() < 0.05, "plan {a} vs budget {b}");
 }
+
+#[test]
+fn phase_shows_the_field_as_the_budget_counts_it() {
+    let dir = std::path::Path::new(env!("CARGO_TARGET_TMPDIR")).join("field_phase_cli");
+    std::fs::create_dir_all(&dir).unwrap();
+    let file = dir.join("t.csv");
+    let mut csv = String::from(
+        "name,kind,ra,dec,period_d,epoch_max_bjd,period_err_d,amplitude_mag,mean_mag,extinction_mag,field,goal_pct,feh_dex,feh_err_dex\n",
+    );
+    csv.push_str(&format!("LPO-G9,field,{RA0},{DEC0},,,,,,,,5,-0.4,0.1\n"));
+    for t in members() {
+        csv.push_str(&format!(
+            "{},pulsator,{},{},{},{},{},0.8,{},0.12,LPO-G9,,,\n",
+            t.name,
+            t.ra_deg,
+            t.dec_deg,
+            t.period_d.unwrap(),
+            t.epoch_max_bjd.unwrap(),
+            t.period_err_d.unwrap(),
+            t.mean_mag.unwrap()
+        ));
+    }
+    std::fs::write(&file, csv).unwrap();
+    let run = |args: &[&str]| {
+        let mut all = vec![
+            args[0],
+            "--site",
+            "pampa-lucero",
+            "--targets",
+            file.to_str().unwrap(),
+            "--from",
+            "2026-12-01",
+            "--to",
+            "2027-02-28",
+        ];
+        all.extend(&args[1..]);
+        let out = Command::new(env!("CARGO_BIN_EXE_rung"))
+            .args(&all[..])
+            .env("RUNG_CONFIG_DIR", env!("CARGO_TARGET_TMPDIR"))
+            .output()
+            .unwrap();
+        (
+            out.status.success(),
+            String::from_utf8_lossy(&out.stdout).to_string(),
+            String::from_utf8_lossy(&out.stderr).to_string(),
+        )
+    };
+    let json = |args: &[&str]| -> serde_json::Value {
+        let (ok, out, err) = run(args);
+        assert!(ok, "{args:?}: {err}");
+        serde_json::from_str(&out).unwrap_or_else(|e| panic!("{e}: {err}"))
+    };
+    let p = json(&["phase", "--field", "LPO-G9", "--json"]);
+    // Its stars, its two pointings (the field's five, the outside star's own).
+    assert_eq!(p["field"], "LPO-G9");
+    assert_eq!(p["stars"].as_array().unwrap().len(), 6);
+    let pts = p["pointings"].as_array().unwrap();
+    assert_eq!(pts.len(), 2);
+    assert_eq!(pts[0]["stars"].as_array().unwrap().len(), 5);
+    assert_eq!(pts[1]["target"], "G9-V6");
+    // The distance's terms add in quadrature to σ_μ.
+    let d = &p["distance"];
+    let sum: f64 = d["error_terms"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|t| t["sigma_mag"].as_f64().unwrap().powi(2))
+        .sum();
+    let s = d["sigma_mu_mag"].as_f64().unwrap();
+    assert!((sum.sqrt() - s).abs() < 1e-9, "{} vs {s}", sum.sqrt());
+    // The same field, the same numbers: phase, budget and plan.
+    let b = json(&["budget", "--json"]);
+    let row = &b["rows"][0];
+    assert_eq!(row["target"], "LPO-G9");
+    let visits: usize = pts
+        .iter()
+        .map(|x| x["epochs"].as_array().unwrap().len())
+        .sum();
+    assert_eq!(row["epochs"].as_u64().unwrap() as usize, visits);
+    let a = d["distance_precision_pct"].as_f64().unwrap();
+    assert!((a - row["achievable_pct"].as_f64().unwrap()).abs() < 1e-9);
+    assert!(
+        (p["prediction"]["hours_needed"].as_f64().unwrap() - row["hours"].as_f64().unwrap()).abs()
+            < 1e-9
+    );
+    // A --target naming the field is the same report; the text says each term.
+    let (ok, text, err) = run(&["phase", "--target", "LPO-G9"]);
+    assert!(ok, "{err}");
+    assert!(text.starts_with("Field LPO-G9 (6 stars)"), "{text}");
+    assert!(text.contains("pointing 2 on G9-V6"), "{text}");
+    for t in d["error_terms"].as_array().unwrap() {
+        assert!(text.contains(t["name"].as_str().unwrap()), "{text}");
+    }
+    // A star's option is refused for a field, never silently ignored.
+    let (ok, _, err) = run(&["phase", "--field", "LPO-G9", "--band", "K"]);
+    assert!(!ok);
+    assert!(err.contains("--band describe(s) one star"), "{err}");
+    // A star is not a field.
+    let (ok, _, err) = run(&["phase", "--field", "G9-V1"]);
+    assert!(!ok);
+    assert!(
+        err.contains("is a pulsator target, not a field; its fields are LPO-G9"),
+        "{err}"
+    );
+}

@@ -21,6 +21,11 @@ use std::sync::Arc;
 pub struct Args {
     #[command(flatten)]
     pub aim: super::args::MethodTarget,
+    /// A field (host galaxy or cluster, a target of kind field) by name from
+    /// --targets: its pointings, the visits that serve all its stars, and the
+    /// field's distance with its terms (a field named by --target is taken as this).
+    #[arg(long, conflicts_with_all = ["target", "ra", "dec", "period_d", "epoch_max_bjd"])]
+    pub field: Option<String>,
     /// Pulsation period, days (overrides the target's).
     #[arg(long, allow_hyphen_values = true)]
     pub period_d: Option<f64>,
@@ -221,10 +226,6 @@ pub fn run(a: Args) -> Result<()> {
         }
         st.to = st.from + chrono::Days::new(n as u64 - 1);
     }
-    let (mut target, option_notes) = build_target(&a)?;
-    if a.goal.goal_pct.is_some() {
-        target.goal_pct = a.goal.goal_pct;
-    }
     let mut m = st
         .methods
         .get::<PulsatorMethod>()
@@ -243,6 +244,47 @@ pub fn run(a: Args) -> Result<()> {
         m.max_nights = n;
     }
     let st = st.with_method(Arc::new(m.clone()));
+    // A field: by --field, or a --target that names one.
+    let field_name = match (&a.field, &a.aim.target) {
+        (Some(f), _) => Some(f.clone()),
+        (None, Some(t)) if a.period_d.is_none() => {
+            let ts = super::load_targets(&programme)?;
+            ts.iter()
+                .find(|x| &x.name == t && x.kind == Kind::Field)
+                .map(|x| x.name.clone())
+        }
+        _ => None,
+    };
+    if let Some(name) = field_name {
+        // A field's stars keep their own values: a star's option would be
+        // silently ignored, so it is refused.
+        let star_only: Vec<&str> = [
+            ("--period-err-d", a.period_err_d.is_some()),
+            ("--amplitude-mag", a.amplitude_mag.is_some()),
+            ("--mean-mag", a.mean_mag.is_some()),
+            ("--band", a.band.is_some()),
+            ("--class", a.class.is_some()),
+            ("--feh-dex", a.feh_dex.is_some()),
+            ("--feh-err-dex", a.feh_err_dex.is_some()),
+            ("--extinction-mag", a.extinction_mag.is_some()),
+            ("--at", a.at.is_some()),
+        ]
+        .into_iter()
+        .filter_map(|(f, given)| given.then_some(f))
+        .collect();
+        if !star_only.is_empty() {
+            bail!(
+                "{} describe(s) one star; field {name} plans its stars with their own values from {} (the field's [Fe/H] is its row's feh_dex, feh_err_dex)",
+                star_only.join(", "),
+                programme.display()
+            );
+        }
+        return run_field(&st, &programme, &name, a.goal.goal_pct, a.json);
+    }
+    let (mut target, option_notes) = build_target(&a)?;
+    if a.goal.goal_pct.is_some() {
+        target.goal_pct = a.goal.goal_pct;
+    }
     let site = st.site.clone();
     let mut r = match rung::programme::report(&st, &target)? {
         Report::Phase(r) => *r,
@@ -624,5 +666,200 @@ fn print_text(
     }
     for n in &r.notes {
         super::outln!("note: {n}");
+    }
+}
+
+/// `rung phase --field NAME`: the field's plan (`Settings::field_report`):
+/// its pointings, the visits that serve every star of each, each star's
+/// phase points and distance, the field's distance with its terms.
+fn run_field(
+    st: &rung::programme::Settings,
+    programme: &std::path::Path,
+    name: &str,
+    goal_pct: Option<f64>,
+    json: bool,
+) -> Result<()> {
+    let mut targets = super::load_targets(programme)?;
+    let links = rung::ladder::field::link(&targets);
+    let Some(g) = links.by_name(&targets, name).cloned() else {
+        let fields: Vec<&str> = links
+            .groups
+            .iter()
+            .map(|g| targets[g.field].name.as_str())
+            .collect();
+        let list = if fields.is_empty() {
+            "it has no field (a target of kind field)".to_string()
+        } else {
+            format!("its fields are {}", fields.join(", "))
+        };
+        match targets.iter().find(|t| t.name == name) {
+            Some(t) => bail!(
+                "'{}' in {} is a {} target, not a field; {list}",
+                t.name,
+                programme.display(),
+                t.kind.as_str()
+            ),
+            None => bail!("{}: no field named '{name}'; {list}", programme.display()),
+        }
+    };
+    if goal_pct.is_some() {
+        targets[g.field].goal_pct = goal_pct;
+    }
+    for (i, why) in &links.refused {
+        if targets[*i].field.trim() == name {
+            eprintln!("rung: warning: {}", rung::output::one_line(why));
+        }
+    }
+    let r = st.field_report(&targets, &g)?;
+    if json {
+        let mut v = serde_json::to_value(&r)?;
+        if let Some(o) = v.as_object_mut() {
+            o.insert("site".into(), json!(st.site.name));
+            o.insert("instrument".into(), json!(st.instrument().name));
+            o.insert("from".into(), json!(st.from.to_string()));
+            o.insert("to".into(), json!(st.to.to_string()));
+            o.insert("settings".into(), st.to_json());
+        }
+        super::print_json(&v)?;
+    } else {
+        print_field_text(st, &r);
+    }
+    Ok(())
+}
+
+fn print_field_text(st: &rung::programme::Settings, r: &rung::ladder::field::FieldReport) {
+    use rung::output::num;
+    let site = &st.site;
+    super::outln!(
+        "Field {} ({} stars) from {} to {} at {} with {} (field of view {}′ × {}′, stars {}″ inside its edges); times local {} / UTC",
+        r.field,
+        r.stars.len(),
+        st.from,
+        st.to,
+        site.name,
+        st.instrument().name,
+        num(r.fov_arcmin[0], 2),
+        num(r.fov_arcmin[1], 2),
+        num(r.margin_arcsec, 1),
+        site.timezone.name()
+    );
+    for (i, p) in r.pointings.iter().enumerate() {
+        super::outln!(
+            "  pointing {} on {} ({}, {}): {} star(s); exposures for {} ({} at its faint phase, SNR {} per point), split for {} ({} at its bright phase); {} visit(s), {} h",
+            i + 1,
+            p.target,
+            num(p.ra_deg, 4),
+            num(p.dec_deg, 4),
+            p.stars.len(),
+            p.faintest.as_deref().unwrap_or("-"),
+            num(p.faintest_mag, 2),
+            num(r.snr_faintest, 0),
+            p.brightest.as_deref().unwrap_or("-"),
+            num(p.brightest_mag, 2),
+            p.epochs.len(),
+            num(p.hours, 2)
+        );
+        if !p.epochs.is_empty() {
+            super::outln!(
+                "    night        local  UTC    airm  bands        exp_s  frames  visit_s"
+            );
+        }
+        for e in &p.epochs {
+            let local = e.time.local(&site.timezone);
+            let night = (local - chrono::Duration::hours(12)).date_naive();
+            let bands: Vec<&str> = e.exposures.iter().map(|b| b.band.as_str()).collect();
+            super::outln!(
+                "    {}  {}  {}  {:>4}  {:<11} {:>6}  {:>6}  {:>7}",
+                night,
+                local.format("%H:%M"),
+                super::utc_hm(Some(e.time)),
+                num(e.airmass, 2),
+                bands.join(" "),
+                num(e.exptime_s, 0),
+                e.n_exposures,
+                num(e.visit_s, 0)
+            );
+        }
+    }
+    super::outln!(
+        "  {:<14} {:>7} {:>4} {:>6} {:>5} {:>4} {:>4} {:>6} {:>7} {:>7} {:>6}",
+        "star",
+        "P_d",
+        "band",
+        "mean",
+        "amp",
+        "pts",
+        "bins",
+        "snr_lo",
+        "σm̄",
+        "μ",
+        "weight"
+    );
+    for s in &r.stars {
+        super::outln!(
+            "  {:<14} {:>7} {:>4} {:>6} {:>5} {:>4} {:>4} {:>6} {:>7} {:>7} {:>6}{}",
+            s.name,
+            num(s.period_d, 3),
+            s.band,
+            num(s.mean_mag, 2),
+            num(s.amplitude_mag, 2),
+            s.points,
+            s.bins_covered,
+            num(s.snr_lowest, 0),
+            num(s.sigma_mean_mag, 4),
+            num(s.distance_modulus_mag, 3),
+            num(s.weight, 3),
+            s.excluded
+                .as_ref()
+                .map(|w| format!("  left out: {w}"))
+                .unwrap_or_default()
+        );
+    }
+    match &r.distance {
+        Some(d) => {
+            let terms: Vec<String> = d
+                .error_terms
+                .iter()
+                .map(|t| {
+                    format!(
+                        "{} {}{}",
+                        t.name,
+                        num(t.sigma_mag, 3),
+                        if t.shared { " (shared)" } else { "" }
+                    )
+                })
+                .collect();
+            super::outln!(
+                "  field distance modulus {} ± {} mag ({} kpc) from {} star(s): {}",
+                num(d.distance_modulus_mag, 3),
+                num(d.sigma_mu_mag, 3),
+                num(d.distance_pc / 1000.0, 1),
+                d.n_stars,
+                terms.join(", ")
+            );
+            super::outln!(
+                "  σ_d/d {} % (floor {} %{})",
+                num(d.distance_precision_pct, 2),
+                num(d.floor_pct, 2),
+                r.goal_pct
+                    .map(|g| format!(", goal {} %", num(g, 1)))
+                    .unwrap_or_default()
+            );
+        }
+        None => {
+            super::outln!("  no field distance: no star has a mean magnitude from these visits")
+        }
+    }
+    super::outln!(
+        "  {} visit(s), {} h with overheads; verdict: {}",
+        r.prediction.epochs.len(),
+        num(r.prediction.hours_needed, 2),
+        r.prediction.verdict.text()
+    );
+    for c in &r.cautions {
+        super::outln!("  SUN CAUTION: {c}");
+    }
+    for n in &r.notes {
+        super::outln!("  note: {n}");
     }
 }
