@@ -26,6 +26,7 @@ fn main() -> ExitCode {
         Some(Command::Phase(a)) => cli::phase::run(*a),
         Some(Command::Parallax(a)) => cli::parallax::run(*a),
         Some(Command::Plan(a)) => cli::plan::run_plan(*a),
+        Some(Command::Next(a)) => cli::next::run(*a),
         Some(Command::Budget(a)) => cli::budget::run(*a),
         Some(Command::Snr(a)) => cli::snr::run_snr(a),
         Some(Command::Exptime(a)) => cli::snr::run_exptime(a),

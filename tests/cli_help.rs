@@ -10,9 +10,9 @@
 use std::path::Path;
 use std::process::Command;
 
-const COMMANDS: [&str; 11] = [
+const COMMANDS: [&str; 12] = [
     "where", "night", "season", "snr", "exptime", "plan", "budget", "parallax", "phase", "chase",
-    "tui",
+    "tui", "next",
 ];
 
 fn help(args: &[&str]) -> String {

@@ -3,6 +3,7 @@
 pub mod args;
 pub mod budget;
 pub mod chase;
+pub mod next;
 pub mod night;
 pub mod parallax;
 pub mod phase;
@@ -48,6 +49,8 @@ pub enum Command {
     Parallax(Box<parallax::Args>),
     /// Place visits on nights for a season; save, mark done or lost, re-plan, export (CSV, JSON, iCalendar, night sheet).
     Plan(Box<plan::PlanArgs>),
+    /// What to observe now, ranked: visible targets and tonight's planned visits, with altitude, airmass, Moon, time left and exposure.
+    Next(Box<next::Args>),
     /// What each target's distance goal costs (weather, overheads), and which goals the hours asked meet.
     Budget(Box<budget::Args>),
     /// Signal-to-noise of an exposure on a star under tonight's sky.

@@ -39,6 +39,18 @@ pub struct PlanArgs {
     /// Mark a visit as lost by id (repeatable).
     #[arg(long)]
     pub lost: Vec<String>,
+    /// The time a visit given to --done was observed, ISO 8601 (default: the clock)
+    #[arg(long = "observed")]
+    pub observed: Option<String>,
+    /// Seeing FWHM noted for the visits given to --done, arcseconds
+    #[arg(long)]
+    pub seeing: Option<f64>,
+    /// A comment for the visits given to --done
+    #[arg(long)]
+    pub comment: Option<String>,
+    /// Rebuild the plan from its observing log (LOG, the plan.log.csv written beside a saved plan) and save it with --save
+    #[arg(long)]
+    pub rebuild: Option<PathBuf>,
     /// Place again everything that is not done (keeps done visits, skips lost nights, places nothing before the clock: RUNG_NOW or now).
     #[arg(long)]
     pub replan: bool,
@@ -64,9 +76,37 @@ pub struct PlanArgs {
 
 /// Run `rung plan`.
 pub fn run_plan(a: PlanArgs) -> Result<()> {
-    let (mut plan, plan_path) = match &a.load {
-        Some(p) => (Some(file::load(p)?), Some(p.clone())),
-        None => (None, None),
+    let (mut plan, plan_path) = match (&a.load, &a.rebuild) {
+        (Some(_), Some(_)) => anyhow::bail!("give --load or --rebuild, not both"),
+        (Some(p), None) => {
+            let mut plan = file::load(p)?;
+            // Marks logged by a process that was stopped before it saved the plan.
+            let n = rung::plan::log::catch_up(&mut plan, &rung::plan::log::log_path(p))?;
+            if n > 0 {
+                eprintln!(
+                    "rung: applied {n} mark(s) from {} that the plan file did not hold yet",
+                    rung::plan::log::log_path(p).display()
+                );
+                rung::plan::log::save_plan(p, &plan)?;
+            }
+            (Some(plan), Some(p.clone()))
+        }
+        (None, Some(log)) => {
+            // The plan's settings from the log's first row.
+            let head = match rung::plan::log::read(log)?
+                .into_iter()
+                .next()
+                .map(|e| e.event)
+            {
+                Some(rung::plan::log::Event::Plan(h)) => *h,
+                _ => anyhow::bail!(
+                    "{} does not start with a plan's settings: not an observing log of rung",
+                    log.display()
+                ),
+            };
+            (Some(head), None)
+        }
+        (None, None) => (None, None),
     };
     // A site or targets file taken from a loaded plan is named as the plan's field.
     let from_plan = |field: &str| {
@@ -127,6 +167,18 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
     };
     let mut sched: Option<schedule::Schedule> = None;
     let mut p = match plan.take() {
+        Some(_) if a.rebuild.is_some() => {
+            let log = a.rebuild.as_ref().expect("checked");
+            let p = rung::plan::log::rebuild(log, &st, &targets)?;
+            eprintln!(
+                "rung: rebuilt {} visits ({} done, {} lost) from {}",
+                p.visits.len(),
+                p.visits.iter().filter(|v| v.status == Status::Done).count(),
+                p.visits.iter().filter(|v| v.status == Status::Lost).count(),
+                log.display()
+            );
+            p
+        }
         Some(p) => p,
         None => {
             let hours = a.hours_per_night.context("give --hours-per-night H")?;
@@ -150,35 +202,119 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
     };
     let site = st.site.clone();
     let mut changed = a.load.is_none();
-    for n in &a.lost_night {
-        let d = parse_date(n).context("--lost-night")?;
-        p.lose_night(d);
-        changed = true;
-    }
-    if !a.done.is_empty() {
-        p.mark(&a.done, Status::Done).context("--done")?;
-        changed = true;
-    }
-    if !a.lost.is_empty() {
-        p.mark(&a.lost, Status::Lost).context("--lost")?;
-        changed = true;
-    }
-    if a.replan {
-        let s = p.replan(&st, &targets, super::now()?, a.hours_per_night, horizon)?;
-        report_unplaced(&s);
-        changed = true;
-        sched = Some(s);
+    let now = super::now()?;
+    let observed = match a.observed.as_deref() {
+        None | Some("now") => now,
+        Some(t) => rung::astro::time::parse_instant(t).context("--observed")?,
+    };
+    let marks = !a.lost_night.is_empty() || !a.done.is_empty() || !a.lost.is_empty() || a.replan;
+    if let (Some(path), true) = (&plan_path, marks) {
+        // A loaded plan: every mark goes to its observing log, then the plan
+        // is saved (plan::log); the plan as it was is kept as .bak.
+        let before = std::fs::read(path).with_context(|| path.display().to_string())?;
+        rung::io::atomic::write_atomic_like(
+            &rung::io::atomic::backup_path(path),
+            &before,
+            Some(path),
+        )?;
+        use rung::plan::log;
+        for n in &a.lost_night {
+            let d = parse_date(n).context("--lost-night")?;
+            log::lose_night(path, &mut p, d, now).context("--lost-night")?;
+        }
+        for id in &a.done {
+            log::mark_done(path, &mut p, id, observed, a.seeing, a.comment.clone(), now)
+                .context("--done")?;
+        }
+        for id in &a.lost {
+            log::mark_lost(path, &mut p, id, now).context("--lost")?;
+        }
+        if a.replan {
+            if a.hours_per_night.is_some() {
+                p.hours_per_night = a.hours_per_night.unwrap_or(p.hours_per_night);
+            }
+            let s = log::replan(path, &mut p, &st, &targets, now)?;
+            report_unplaced(&s);
+            sched = Some(s);
+        }
+        eprintln!(
+            "rung: marks written to {} and the plan saved",
+            log::log_path(path).display()
+        );
+    } else {
+        for n in &a.lost_night {
+            let d = parse_date(n).context("--lost-night")?;
+            p.lose_night(d);
+            changed = true;
+        }
+        if !a.done.is_empty() {
+            p.mark(&a.done, Status::Done).context("--done")?;
+            for v in p.visits.iter_mut().filter(|v| a.done.contains(&v.id)) {
+                v.observed = Some(observed);
+                v.seeing_arcsec = a.seeing;
+                v.comment = a.comment.clone();
+            }
+            changed = true;
+        }
+        if !a.lost.is_empty() {
+            p.mark(&a.lost, Status::Lost).context("--lost")?;
+            changed = true;
+        }
+        if a.replan {
+            let s = p.replan(&st, &targets, now, a.hours_per_night, horizon)?;
+            report_unplaced(&s);
+            changed = true;
+            sched = Some(s);
+        }
     }
     let save_to = a
         .save
         .clone()
         .or_else(|| if changed { plan_path.clone() } else { None });
+    if a.rebuild.is_some() && save_to.is_none() {
+        eprintln!("rung: note: the rebuilt plan is not saved (give --save FILE)");
+    }
     if let Some(path) = &save_to {
         if plan_path.as_ref() == Some(path) {
             // Re-saving over the loaded plan keeps its previous version as .bak.
             rung::io::atomic::save_with_backup(path, p.to_json().as_bytes())?;
         } else {
-            file::save(&p, path)?;
+            // A new plan file starts its observing log (its settings row);
+            // a plan rebuilt from its own log keeps that log.
+            let log = rung::plan::log::log_path(path);
+            if a.rebuild.as_deref() == Some(log.as_path()) {
+                file::save(&p, path)?;
+            } else {
+                if log.exists() {
+                    let old = rung::io::atomic::with_suffix(&log, ".old");
+                    std::fs::rename(&log, &old).with_context(|| log.display().to_string())?;
+                    eprintln!(
+                        "rung: the earlier log {} moved to {}",
+                        log.display(),
+                        old.display()
+                    );
+                }
+                p.log_seq = 0;
+                let marked: Vec<_> = p
+                    .visits
+                    .iter()
+                    .filter(|v| v.status != Status::Planned)
+                    .cloned()
+                    .collect();
+                for v in &marked {
+                    let e = if v.status == Status::Done {
+                        rung::plan::log::Event::Done(Box::new(v.clone()))
+                    } else {
+                        rung::plan::log::Event::Lost(Box::new(v.clone()))
+                    };
+                    if p.log_seq == 0 {
+                        rung::plan::log::start(path, &mut p, now)?;
+                    }
+                    p.log_seq = rung::plan::log::append(&log, &p, e, now)?.seq;
+                }
+                rung::plan::log::start(path, &mut p, now)?;
+                file::save(&p, path)?;
+            }
         }
         eprintln!("rung: plan saved to {}", path.display());
     }
@@ -252,10 +388,15 @@ fn print_plan(p: &PlanFile, site: &rung::astro::site::Site, sched: Option<&sched
                 .get(&v.night)
                 .map(|n| {
                     format!(
-                        "  {:.1} of {:.1} h used ({:.0} %)",
+                        "  {:.1} of {:.1} h used ({:.0} %){}",
                         n.used_hours,
                         n.capacity_hours,
-                        100.0 * n.used_fraction
+                        100.0 * n.used_fraction,
+                        if n.wanting == 0 && n.used_fraction < 0.999 && !n.lost {
+                            ", every visit that buys precision placed"
+                        } else {
+                            ""
+                        }
                     )
                 })
                 .unwrap_or_default();

@@ -35,6 +35,9 @@ pub struct Args {
     pub limits: super::args::WindowLimits,
     #[command(flatten)]
     pub goal: super::args::GoalArg,
+    /// A saved plan (rung plan --save FILE) for the Next view: its visits of tonight to mark done or lost, re-planned from there (each mark written to the plan's observing log, then to the plan)
+    #[arg(long)]
+    pub plan: Option<PathBuf>,
 }
 
 /// The user's own programme file.
@@ -280,7 +283,9 @@ impl Runner {
                     self.spawn(e, inline);
                 }
             }
-            e @ (Effect::Save(_) | Effect::Recovery { .. }) => inline.extend(effects::run(e)),
+            e @ (Effect::Save(_) | Effect::Recovery { .. } | Effect::Next(_)) => {
+                inline.extend(effects::run(e))
+            }
             e => {
                 let starts = self.jobs.submit(e);
                 self.start(starts);
@@ -350,6 +355,7 @@ fn event_loop(
     terminal: &mut ratatui::DefaultTerminal,
     mut setup: Setup,
     signalled: &std::sync::atomic::AtomicUsize,
+    plan: Option<PathBuf>,
 ) -> Result<Option<PathBuf>> {
     let size = terminal.size()?;
     setup.size = (size.width, size.height);
@@ -359,6 +365,7 @@ fn event_loop(
         tx: tx.clone(),
     };
     let (mut state, first) = init(setup);
+    state.plan_file = plan;
     if let Some(e) = first {
         let mut inline = Vec::new();
         runner.spawn(e, &mut inline);
@@ -469,7 +476,7 @@ pub fn run(a: Args) -> Result<()> {
     let signalled = watch_signals()?;
     let mut terminal = ratatui::try_init().context("cannot open the terminal")?;
     watch_terminal();
-    let res = event_loop(&mut terminal, setup, &signalled);
+    let res = event_loop(&mut terminal, setup, &signalled, a.plan.clone());
     ratatui::restore();
     release_claim();
     let sig = signalled.load(std::sync::atomic::Ordering::Relaxed);

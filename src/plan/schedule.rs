@@ -33,6 +33,20 @@
 //!    priority, each at the feasible start nearest its preferred time, then
 //!    moves placed visits inside their windows to open room for the rest.
 //! 6. Epochs that fit nowhere are listed as unplaced with the reason.
+//! 7. The fill: so that the hours given are used whenever a target can use
+//!    them, every target gets on each of the first [`FILL_NIGHTS`] nights a
+//!    candidate extra visit, centred on its highest point in the dark, with
+//!    the exposure of its nearest epoch. Its value is the target's priority
+//!    times the fraction by which it lowers the predicted σd/d of the
+//!    target's epochs (`Method::predict` with and without it); candidates
+//!    buying less than [`MIN_FILL_GAIN`] are dropped (a pulsator at its
+//!    relation floor, a phase bin already covered, a transient past its
+//!    useful window). The packing core places them after the method's own
+//!    epochs (whose value is the priority), highest value first.
+//!
+//! The value of a schedule is the sum of its placed visits' values (the
+//! priority-weighted value the quality tests compare with the exact optimum
+//! of the same packing problem and with its linear-programming bound).
 //!
 //! Each visit includes its overheads (`Epoch::visit_s`), so consecutive visits
 //! leave room for slews and readouts. A printed precision is finite and at
@@ -271,6 +285,11 @@ pub struct NightUse {
     pub used_hours: f64,
     /// `used_hours` / `capacity_hours` (0 when the night has no capacity).
     pub used_fraction: f64,
+    /// Wanted visits (the methods' epochs and the fill) that could have gone
+    /// on this night but found no room: 0 means every visit that buys
+    /// precision was placed, and the rest of the night has nothing useful
+    /// to observe.
+    pub wanting: usize,
     /// Whether the night is lost.
     pub lost: bool,
 }
@@ -288,6 +307,15 @@ pub struct Schedule {
     pub nights: Vec<NightUse>,
     /// The last night the methods planned for.
     pub horizon_to: NaiveDate,
+    /// The priority-weighted value of the placed visits (the packing
+    /// problem's objective: see the module documentation).
+    pub value: f64,
+    /// The packing problem the schedule solved (for quality checks).
+    #[serde(skip)]
+    pub problem: crate::plan::pack::Problem,
+    /// Its solution.
+    #[serde(skip)]
+    pub placements: Vec<crate::plan::pack::Placement>,
 }
 
 fn flex_nights(kind: Kind) -> i64 {
@@ -330,6 +358,16 @@ struct NightSlot {
 fn overlaps(a: (Instant, Instant), b: (Instant, Instant)) -> bool {
     a.0 < b.1 && b.0 < a.1
 }
+
+/// A visit beyond the method's epochs is added only where it lowers the
+/// target's σd/d by at least this fraction of itself (0.5 %): below that it
+/// does not buy precision worth a slew (the project's own threshold).
+pub const MIN_FILL_GAIN: f64 = 0.005;
+
+/// The fill looks at the first this many nights of a plan (two months, the
+/// part an observer re-plans night by night; later nights get their fill
+/// when a re-plan reaches them).
+pub const FILL_NIGHTS: usize = 62;
 
 /// Shortest spacing the scheduler ever keeps between two visits of one
 /// target when the method's own epochs are closer (a method asking for two
@@ -537,6 +575,8 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
     let mut groups: Vec<(usize, Epoch, i64)> = Vec::new();
     let mut unplaced = Vec::new();
     let mut windows_cache: HashMap<(usize, usize), Vec<(Instant, Instant)>> = HashMap::new();
+    type Useful = Option<(Option<usize>, Option<usize>)>;
+    let mut base: Vec<(usize, Vec<Epoch>, Useful)> = Vec::new();
     for ((ti, t), proposal) in req.targets.iter().enumerate().zip(proposals) {
         let Some(proposal) = proposal else {
             continue;
@@ -601,6 +641,14 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
         });
         let end_s = secs(slots[slots.len() - 1].night.end);
         let place = t.place();
+        let mut mine: Vec<Epoch> = req
+            .done
+            .iter()
+            .filter(|d| d.target == t.name)
+            .map(|d| d.epoch())
+            .collect();
+        mine.extend(epochs.iter().cloned());
+        base.push((ti, mine, useful));
         for e in epochs {
             let Some(home) = night_of(e.time) else {
                 if secs(e.time) >= end_s {
@@ -668,6 +716,126 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
             groups.push((ti, e, flex));
         }
     }
+    // The fill (rule 7): one more visit of a target on a night where it
+    // buys precision, valued by what it buys.
+    let first_fill = groups.len();
+    let fill_nights = slots.len().min(FILL_NIGHTS);
+    type Fill = (usize, Epoch, f64, Vec<(f64, f64)>);
+    let fills: Vec<Vec<Fill>> = {
+        use rayon::prelude::*;
+        base.par_iter()
+            .map(|(ti, mine, useful)| {
+                let t = &req.targets[*ti];
+                let Some(m) = req.methods.for_kind(t.kind) else {
+                    return vec![];
+                };
+                if mine.is_empty() {
+                    return vec![];
+                }
+                let goal = goal_for(t, req.goal_pct, m);
+                let judged = with_goal(t, goal);
+                let setting = Setting {
+                    site: req.site,
+                    target: &judged,
+                    from: req.from,
+                    to: horizon_to,
+                    limits: req.limits,
+                };
+                let Some(s0) = m
+                    .predict(&setting, req.em, mine)
+                    .ok()
+                    .and_then(|p| shown_precision(p.distance_precision_pct))
+                else {
+                    return vec![];
+                };
+                let place = t.place();
+                let mut out = Vec::new();
+                for (ni, slot) in slots.iter().enumerate().take(fill_nights) {
+                    if slot.lost || slot.capacity_s <= 0.0 {
+                        continue;
+                    }
+                    if let Some((f, l)) = useful
+                        && (f.is_none_or(|f| ni < f) || l.is_none_or(|l| ni > l))
+                    {
+                        continue;
+                    }
+                    let tn = slot.night.windows(&place, &req.limits);
+                    let Some(best) = tn.max_altitude_time else {
+                        continue;
+                    };
+                    let Some(tpl) = mine.iter().min_by(|a, b| {
+                        a.time
+                            .seconds_since(&best)
+                            .abs()
+                            .total_cmp(&b.time.seconds_since(&best).abs())
+                    }) else {
+                        continue;
+                    };
+                    let dur = tpl.visit_s.max(1.0).round();
+                    let windows: Vec<(f64, f64)> = tn
+                        .windows
+                        .iter()
+                        .map(|(a, b)| {
+                            let a = (secs(*a) + 1.0).ceil();
+                            let a = not_before_s.map_or(a, |n| a.max(n));
+                            (a, (secs(*b) - 1.0).floor())
+                        })
+                        .filter(|(a, b)| b - a >= dur)
+                        .collect();
+                    // The visit centred on the target's highest point, kept inside a window.
+                    let Some(&(w0, w1)) = windows
+                        .iter()
+                        .find(|(a, b)| {
+                            let m = secs(best);
+                            m >= *a && m <= *b
+                        })
+                        .or_else(|| windows.first())
+                    else {
+                        continue;
+                    };
+                    let start = (secs(best) - dur / 2.0).round().clamp(w0, w1 - dur);
+                    let mid = origin.add_seconds(start + dur / 2.0);
+                    let airmass =
+                        kasten_young(slot.night.context(mid).observe(&place).alt_rad.to_degrees());
+                    let cand = Epoch {
+                        time: mid,
+                        airmass: airmass.unwrap_or(tpl.airmass),
+                        ..tpl.clone()
+                    };
+                    let mut with = mine.clone();
+                    with.push(cand.clone());
+                    let Some(s1) = m
+                        .predict(&setting, req.em, &with)
+                        .ok()
+                        .and_then(|p| shown_precision(p.distance_precision_pct))
+                    else {
+                        continue;
+                    };
+                    let gain = (s0 - s1) / s0;
+                    if gain >= MIN_FILL_GAIN {
+                        out.push((ni, cand, t.priority.max(1e-3) * gain, windows));
+                    }
+                }
+                out
+            })
+            .collect()
+    };
+    for ((ti, _, _), list) in base.iter().zip(fills) {
+        for (ni, cand, value, windows) in list {
+            let dur = cand.visit_s.max(1.0).round();
+            problem.items.push(Item {
+                group: groups.len(),
+                rank: 0,
+                target: *ti,
+                night: ni,
+                value,
+                dur_s: dur,
+                pref_s: (secs(cand.time) - dur / 2.0).round(),
+                windows,
+            });
+            groups.push((*ti, cand, 0));
+        }
+    }
     problem.spacing_s = spacing_s.clone();
     let placements = pack::pack(&problem);
     let mut placed_groups = BTreeSet::new();
@@ -732,7 +900,7 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
         used.insert(v.id.clone());
     }
     visits.extend(new_visits);
-    for (g, (ti, e, flex)) in groups.iter().enumerate() {
+    for (g, (ti, e, flex)) in groups.iter().enumerate().take(first_fill) {
         if placed_groups.contains(&g) {
             continue;
         }
@@ -861,9 +1029,16 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
             })
             .collect()
     };
+    let mut wanting = vec![0usize; slots.len()];
+    for it in &problem.items {
+        if !placed_groups.contains(&it.group) {
+            wanting[it.night] += 1;
+        }
+    }
     let nights = slots
         .iter()
-        .map(|s| {
+        .zip(wanting)
+        .map(|(s, wanting)| {
             let capacity_hours = s.capacity_s / 3600.0;
             let used_hours = s.used_s / 3600.0;
             NightUse {
@@ -878,6 +1053,7 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                     0.0
                 },
                 lost: s.lost,
+                wanting,
             }
         })
         .collect();
@@ -887,6 +1063,9 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
         unplaced,
         nights,
         horizon_to,
+        value: crate::plan::pack::value(&problem, &placements),
+        problem,
+        placements,
     })
 }
 

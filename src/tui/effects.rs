@@ -543,6 +543,90 @@ pub fn run_until(effect: Effect, cancel: &Cancel) -> Vec<Msg> {
             .into_iter()
             .flat_map(|e| run_until(e, cancel))
             .collect(),
+        Effect::Next(job) => vec![Msg::NextReady(Box::new(next_data(&job)))],
+    }
+}
+
+/// Apply a Next-view job: load the plan (with any marks its log holds that
+/// the file does not), apply the mark or re-plan through `plan::log` (the log
+/// row first, then the plan saved atomically), and rank the queue.
+pub fn next_data(job: &crate::tui::msg::NextJob) -> crate::tui::state::NextData {
+    use crate::plan::log;
+    use crate::tui::msg::NextOp;
+    let mut note = None;
+    let plan = match &job.plan_file {
+        None => None,
+        Some(path) => {
+            let step = || -> crate::error::Result<(crate::plan::file::PlanFile, Option<String>)> {
+                let mut p = crate::plan::file::load(path)?;
+                log::catch_up(&mut p, &log::log_path(path))?;
+                let st = &job.settings;
+                let what = match &job.op {
+                    NextOp::Refresh => None,
+                    NextOp::Done {
+                        id,
+                        seeing_arcsec,
+                        comment,
+                    } => {
+                        log::mark_done(
+                            path,
+                            &mut p,
+                            id,
+                            job.now,
+                            *seeing_arcsec,
+                            comment.clone(),
+                            job.now,
+                        )?;
+                        Some(format!("{id} done"))
+                    }
+                    NextOp::Lost(id) => {
+                        log::mark_lost(path, &mut p, id, job.now)?;
+                        Some(format!("{id} lost"))
+                    }
+                    NextOp::LoseNight => {
+                        let night = crate::programme::tonight(&st.site, job.now)?;
+                        log::lose_night(path, &mut p, night, job.now)?;
+                        Some(format!("the rest of the night of {night} lost"))
+                    }
+                    NextOp::Replan => {
+                        let mut ps = (**st).clone();
+                        ps.from = p.from;
+                        ps.to = p.to;
+                        let s = log::replan(path, &mut p, &ps, &job.targets, job.now)?;
+                        Some(format!(
+                            "re-planned: {} visits ahead, {} epochs found no place",
+                            s.visits
+                                .iter()
+                                .filter(|v| v.status == crate::plan::schedule::Status::Planned)
+                                .count(),
+                            s.unplaced.len()
+                        ))
+                    }
+                };
+                Ok((
+                    p,
+                    what.map(|w| format!("{w}; saved to {} and its log", path.display())),
+                ))
+            };
+            match step() {
+                Ok((p, w)) => {
+                    note = w;
+                    Some(p)
+                }
+                Err(e) => {
+                    note = Some(format!("not done: {e}"));
+                    crate::plan::file::load(path).ok()
+                }
+            }
+        }
+    };
+    let queue = crate::plan::now::queue(&job.settings, &job.targets, plan.as_ref(), job.now)
+        .map_err(|e| e.to_string());
+    crate::tui::state::NextData {
+        at: job.now,
+        queue,
+        plan,
+        note,
     }
 }
 

@@ -78,7 +78,7 @@ impl Lane {
             Effect::Export(_) => Some(Lane::Files),
             Effect::ExportPlan(_) => Some(Lane::Plan),
             Effect::Budget(_) => Some(Lane::Budget),
-            Effect::Save(_) | Effect::Recovery { .. } | Effect::Batch(_) => None,
+            Effect::Save(_) | Effect::Recovery { .. } | Effect::Next(_) | Effect::Batch(_) => None,
         }
     }
 

@@ -33,6 +33,16 @@ pub enum Action {
     Instruments,
     /// The Budget view.
     ShowBudget,
+    /// The Next view (what to observe now).
+    ShowNext,
+    /// Next view: mark the selected visit done (then type seeing and a comment).
+    MarkDone,
+    /// Next view: mark the selected visit lost.
+    MarkLost,
+    /// Next view: mark the rest of the night lost.
+    LoseNight,
+    /// Next view: re-plan everything not done from now on.
+    Replan,
     /// Export the budget (CSV and Markdown) beside the programme file.
     Export,
     /// Schedule the Season view's span and export the plan (JSON, CSV,
@@ -195,6 +205,26 @@ use Scope as S;
 /// The key table.
 pub const KEYMAP: &[Binding] = &[
     ch(S::Main, '1', A::ShowRoster, "Roster view"),
+    ch(S::Main, '8', A::ShowNext, "Next view: what to observe now"),
+    ch(
+        S::Main,
+        'D',
+        A::MarkDone,
+        "Next: mark the selected visit done",
+    ),
+    ch(
+        S::Main,
+        'B',
+        A::MarkLost,
+        "Next: mark the selected visit lost",
+    ),
+    ch(
+        S::Main,
+        'N',
+        A::LoseNight,
+        "Next: mark the rest of the night lost",
+    ),
+    ch(S::Main, 'R', A::Replan, "Next: re-plan from now"),
     ch(S::Main, '2', A::ShowTonight, "Tonight view"),
     ch(S::Main, '3', A::ShowSeason, "Season view"),
     ch(S::Main, '4', A::ShowParallax, "Parallax view"),

@@ -60,6 +60,46 @@ pub enum Msg {
     MethodReady(Box<MethodResult>),
     /// The unsaved-edits file was written or removed (or the error).
     RecoveryKept(Result<(), String>),
+    /// The Next view's queue was computed (after a mark or re-plan, if any).
+    NextReady(Box<crate::tui::state::NextData>),
+}
+
+/// What the Next view asks of its plan before ranking.
+#[derive(Debug, Clone, PartialEq)]
+pub enum NextOp {
+    /// Only rank.
+    Refresh,
+    /// Mark a visit done now, with seeing (arcsec) and a comment.
+    Done {
+        /// Visit id.
+        id: String,
+        /// Seeing FWHM, arcseconds.
+        seeing_arcsec: Option<f64>,
+        /// Comment.
+        comment: Option<String>,
+    },
+    /// Mark a visit lost.
+    Lost(String),
+    /// Mark the rest of tonight lost.
+    LoseNight,
+    /// Re-plan from now.
+    Replan,
+}
+
+/// A job for the Next view: apply `op` to the plan file (logged, then saved)
+/// and rank the queue at `now`.
+#[derive(Debug, Clone)]
+pub struct NextJob {
+    /// The programme's settings.
+    pub settings: Arc<crate::programme::Settings>,
+    /// The targets.
+    pub targets: Vec<Target>,
+    /// The plan file, if any.
+    pub plan_file: Option<PathBuf>,
+    /// The clock.
+    pub now: Instant,
+    /// What to do first.
+    pub op: NextOp,
 }
 
 /// A job for the night table: the night at a site and every target's visibility in it.
@@ -179,6 +219,8 @@ pub enum Effect {
         /// What to do with it.
         op: RecoveryOp,
     },
+    /// Mark or re-plan the Next view's plan and rank its queue (inline, in order).
+    Next(Box<NextJob>),
     /// Several effects.
     Batch(Vec<Effect>),
 }

@@ -31,11 +31,13 @@ pub enum View {
     Chase,
     /// Hours and precision against each target's goal.
     Budget,
+    /// What to observe now, ranked, with tonight's planned visits to mark.
+    Next,
 }
 
 impl View {
     /// All views in tab order.
-    pub const ALL: [View; 7] = [
+    pub const ALL: [View; 8] = [
         View::Roster,
         View::Tonight,
         View::Season,
@@ -43,6 +45,7 @@ impl View {
         View::Phase,
         View::Chase,
         View::Budget,
+        View::Next,
     ];
     /// Tab label.
     pub fn title(&self) -> &'static str {
@@ -54,6 +57,7 @@ impl View {
             View::Phase => "Phase",
             View::Chase => "Chase",
             View::Budget => "Budget",
+            View::Next => "Next",
         }
     }
     fn index(&self) -> usize {
@@ -64,6 +68,19 @@ impl View {
         let n = View::ALL.len() as i32;
         View::ALL[(self.index() as i32 + d).rem_euclid(n) as usize]
     }
+}
+
+/// The Next view's queue (`crate::plan::now::queue`) and the plan it ranks.
+#[derive(Debug, Clone)]
+pub struct NextData {
+    /// The instant ranked.
+    pub at: Instant,
+    /// The ranking, or why there is none.
+    pub queue: Result<crate::plan::now::Queue, String>,
+    /// The plan, as saved after the last mark.
+    pub plan: Option<crate::plan::file::PlanFile>,
+    /// What the last mark or re-plan did.
+    pub note: Option<String>,
 }
 
 /// Roster sort columns.
@@ -516,6 +533,14 @@ pub struct State {
     pub theme: Theme,
     /// Set when the UI should end.
     pub quit: bool,
+    /// The plan the Next view ranks and marks (`rung tui --plan FILE`).
+    pub plan_file: Option<std::path::PathBuf>,
+    /// The Next view's queue, when computed.
+    pub next: Option<NextData>,
+    /// The Next view's selected row.
+    pub next_sel: usize,
+    /// Typing the seeing and comment of a visit being marked done: (visit id, text).
+    pub next_prompt: Option<(String, String)>,
 }
 
 /// Rows of chrome around a view: status, tabs, message line.

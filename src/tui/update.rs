@@ -10,7 +10,7 @@ use crate::programme::Settings;
 use crate::tui::form::Form;
 use crate::tui::keymap::Action;
 use crate::tui::keymap::{self, Scope};
-use crate::tui::msg::{Effect, Msg, NightJob, PlanJob, RecoveryOp, SeasonJob};
+use crate::tui::msg::{Effect, Msg, NextJob, NextOp, NightJob, PlanJob, RecoveryOp, SeasonJob};
 use crate::tui::state::{
     Level, Overlay, PLAN_HOURS_PER_NIGHT, PLAN_HOURS_RANGE, Programme, Question, Recovered,
     SeasonData, SkyNow, SortKey, State, UNDO_DEPTH, View, scroll_offset,
@@ -97,6 +97,10 @@ pub fn init(setup: Setup) -> (State, Option<Effect>) {
         size: setup.size,
         theme: setup.theme,
         quit: false,
+        plan_file: None,
+        next: None,
+        next_sel: 0,
+        next_prompt: None,
     };
     if s.message.is_none() && s.programme.is_demo {
         s.message = Some((
@@ -190,6 +194,44 @@ fn recompute(s: &mut State) -> Option<Effect> {
         generation: s.night_gen,
     }));
     Effect::join(Some(night), season_effect(s))
+}
+
+/// The Next view's job: `op` on the plan, then the queue at the clock.
+fn next_effect(s: &State, op: NextOp) -> Effect {
+    Effect::Next(Box::new(NextJob {
+        settings: s.settings.clone(),
+        targets: s.targets.clone(),
+        plan_file: s.plan_file.clone(),
+        now: s.now,
+        op,
+    }))
+}
+
+/// The planned visit of the Next view's selected row.
+fn selected_visit(s: &State) -> Option<String> {
+    s.next
+        .as_ref()?
+        .queue
+        .as_ref()
+        .ok()?
+        .rows
+        .get(s.next_sel)?
+        .visit_id
+        .clone()
+}
+
+/// Seeing and comment typed as one line: a first word that is a number is
+/// the seeing in arcseconds, the rest the comment ("1.2 thin cirrus").
+pub fn seeing_and_comment(text: &str) -> (Option<f64>, Option<String>) {
+    let t = text.trim();
+    let (first, rest) = t.split_once(' ').unwrap_or((t, ""));
+    match first.trim_end_matches('"').parse::<f64>() {
+        Ok(x) if x.is_finite() => (
+            Some(x),
+            Some(rest.trim().to_string()).filter(|c| !c.is_empty()),
+        ),
+        _ => (None, Some(t.to_string()).filter(|c| !c.is_empty())),
+    }
 }
 
 /// Ask for what the current view is missing: season rows, or the method report.
@@ -706,6 +748,52 @@ fn act_main_inner(s: &mut State, a: Action) -> Option<Effect> {
             s.view = View::Budget;
             season_effect(s)
         }
+        Action::ShowNext => {
+            s.view = View::Next;
+            Some(next_effect(s, NextOp::Refresh))
+        }
+        Action::MarkDone | Action::MarkLost | Action::LoseNight | Action::Replan
+            if s.view != View::Next =>
+        {
+            say(
+                s,
+                "marks and re-plans are made in the Next view (8)",
+                Level::Info,
+            );
+            None
+        }
+        Action::MarkDone | Action::MarkLost if s.plan_file.is_none() => {
+            say(
+                s,
+                "no plan to mark: start with rung tui --plan FILE (rung plan --save FILE makes one)",
+                Level::Warn,
+            );
+            None
+        }
+        Action::MarkDone | Action::MarkLost => {
+            let id = selected_visit(s);
+            match id {
+                None => {
+                    say(
+                        s,
+                        "the selected row has no planned visit tonight",
+                        Level::Info,
+                    );
+                    None
+                }
+                Some(id) if a == Action::MarkDone => {
+                    s.next_prompt = Some((id, String::new()));
+                    None
+                }
+                Some(id) => Some(next_effect(s, NextOp::Lost(id))),
+            }
+        }
+        Action::LoseNight | Action::Replan if s.plan_file.is_none() => {
+            say(s, "no plan: start with rung tui --plan FILE", Level::Warn);
+            None
+        }
+        Action::LoseNight => Some(next_effect(s, NextOp::LoseNight)),
+        Action::Replan => Some(next_effect(s, NextOp::Replan)),
         Action::Export => export(s),
         Action::ExportPlan => export_plan(s),
         Action::ShowParallax => {
@@ -727,6 +815,19 @@ fn act_main_inner(s: &mut State, a: Action) -> Option<Effect> {
                 .position(|x| *x == s.settings.instrument().name)
                 .unwrap_or(0);
             s.overlay = Some(Overlay::Instruments { sel });
+            None
+        }
+        Action::Up if s.view == View::Next => {
+            s.next_sel = s.next_sel.saturating_sub(1);
+            None
+        }
+        Action::Down if s.view == View::Next => {
+            let n = s
+                .next
+                .as_ref()
+                .and_then(|d| d.queue.as_ref().ok())
+                .map_or(0, |q| q.rows.len());
+            s.next_sel = (s.next_sel + 1).min(n.saturating_sub(1));
             None
         }
         Action::Up => move_sel(s, sel - 1),
@@ -920,6 +1021,34 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
             if k.kind != KeyEventKind::Press {
                 return None;
             }
+            if let Some((id, text)) = s.next_prompt.as_mut() {
+                // Typing the seeing and comment of a visit marked done.
+                match k.code {
+                    KeyCode::Char(c) => text.push(c),
+                    KeyCode::Backspace => {
+                        text.pop();
+                    }
+                    KeyCode::Esc => {
+                        s.next_prompt = None;
+                        say(s, "not marked", Level::Info);
+                    }
+                    KeyCode::Enter => {
+                        let (id, text) = (id.clone(), text.clone());
+                        let (seeing_arcsec, comment) = seeing_and_comment(&text);
+                        s.next_prompt = None;
+                        return Some(next_effect(
+                            s,
+                            NextOp::Done {
+                                id,
+                                seeing_arcsec,
+                                comment,
+                            },
+                        ));
+                    }
+                    _ => {}
+                }
+                return None;
+            }
             let scope = s.scope();
             if let Some(a) = keymap::lookup(scope, &k) {
                 return act(s, a);
@@ -977,7 +1106,33 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
                     return recompute(s);
                 }
             }
+            // The Next view ranks again each minute.
+            if s.view == View::Next
+                && s.next_prompt.is_none()
+                && s.next
+                    .as_ref()
+                    .is_none_or(|d| t.seconds_since(&d.at).abs() >= 60.0)
+            {
+                return Effect::join(
+                    Some(next_effect(s, NextOp::Refresh)),
+                    if moved { season_effect(s) } else { None },
+                );
+            }
             if moved { season_effect(s) } else { None }
+        }
+        Msg::NextReady(d) => {
+            if let Some(n) = &d.note {
+                let warn = n.starts_with("not done");
+                say(s, n, if warn { Level::Warn } else { Level::Info });
+            }
+            s.next = Some(*d);
+            let n = s
+                .next
+                .as_ref()
+                .and_then(|d| d.queue.as_ref().ok())
+                .map_or(0, |q| q.rows.len());
+            s.next_sel = s.next_sel.min(n.saturating_sub(1));
+            None
         }
         Msg::Resize(w, h) => {
             s.size = (w, h);

@@ -5,6 +5,7 @@ pub mod budget;
 pub mod chart;
 pub mod chase;
 pub mod fmt;
+pub mod next;
 pub mod overlays;
 pub mod parallax;
 pub mod phase;
@@ -248,6 +249,7 @@ pub fn render_all(s: &State, area: Rect, buf: &mut Buffer) {
         View::Phase => phase::render(s, body, buf),
         View::Chase => chase::render(s, body, buf),
         View::Budget => budget::render(s, body, buf),
+        View::Next => next::render(s, body, buf),
     }
     bottom(
         s,
