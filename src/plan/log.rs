@@ -485,7 +485,7 @@ fn find<'a>(p: &'a PlanFile, id: &str) -> Result<&'a Visit> {
         .ok_or_else(|| RungError::Unknown {
             what: "visit".into(),
             name: id.into(),
-            hint: "; visit ids look like NAME#N (rung plan prints them)".into(),
+            hint: "; visit ids look like NAME#N (see the plan's CSV or JSON)".into(),
         })
 }
 
