@@ -185,7 +185,11 @@ fn every_view_then_quit_restores_the_terminal() {
     t.send("7");
     t.wait_for("Budget · 2026-12-01 to 2028-05-31");
     t.send("Tab");
+    t.wait_for("Now 01:00 UTC");
+    t.send("Tab");
     t.wait_for("Roster · 26 of 26");
+    t.send("BTab");
+    t.wait_for("Now 01:00 UTC");
     t.send("BTab");
     t.wait_for("Budget · 2026-12-01 to");
     t.send("BTab");
