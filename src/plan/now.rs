@@ -268,7 +268,7 @@ pub fn queue(
                     urgency = urgency.max(u);
                 }
             }
-            Kind::Plain => {}
+            _ => {}
         }
         let plan_factor = match tonight_visit {
             Some(v) if v.start.seconds_since(&now) <= 1800.0 => {
