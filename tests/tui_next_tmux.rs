@@ -8,7 +8,7 @@ use std::path::Path;
 use std::process::Command;
 use std::time::{Duration, Instant};
 
-const DEMO: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/targets-demo/targets.csv");
+const DEMO_DIR: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/targets-demo");
 const NOW: &str = "2026-12-02T01:00:00Z";
 
 struct Tmux {
@@ -120,7 +120,7 @@ fn rung(dir: &Path, args: &[&str]) -> String {
 fn ui(dir: &Path) -> Option<Tmux> {
     let bin = env!("CARGO_BIN_EXE_rung");
     let t = Tmux::start(&format!(
-        "cd '{}' && RUNG_CONFIG_DIR='{}' RUNG_NOW={NOW} NO_COLOR=1 '{bin}' tui --targets '{DEMO}' --plan plan.json; echo RUNG-EXIT-$?; sleep 120",
+        "cd '{}' && RUNG_CONFIG_DIR='{}' RUNG_NOW={NOW} NO_COLOR=1 '{bin}' tui --targets targets.csv --plan plan.json; echo RUNG-EXIT-$?; sleep 120",
         dir.display(),
         dir.display()
     ))?;
@@ -156,12 +156,17 @@ fn select(t: &Tmux, rank: usize) {
 fn mark_done_replan_and_quit_then_a_kill_during_a_mark() {
     let dir = tempfile::tempdir().unwrap();
     let d = dir.path();
+    // A copy of the demo programme: the UI locks the programme it opens, and
+    // the kill -9 below leaves that lock behind (in the temporary folder).
+    for f in ["targets.csv", "targets.settings.toml"] {
+        std::fs::copy(Path::new(DEMO_DIR).join(f), d.join(f)).unwrap();
+    }
     rung(
         d,
         &[
             "plan",
             "--targets",
-            DEMO,
+            "targets.csv",
             "--from",
             "2026-12-01",
             "--to",
