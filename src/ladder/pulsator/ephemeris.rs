@@ -17,6 +17,11 @@ pub struct Ephemeris {
     pub epoch_max_bjd: f64,
     /// 1σ period uncertainty, days (0 when unknown).
     pub period_err_d: f64,
+    /// 1σ uncertainty of the epoch, days (0 when unknown; an ephemeris
+    /// fitted to observed maxima has one).
+    pub epoch_err_d: f64,
+    /// Covariance of epoch and period, days² (0 when unknown).
+    pub epoch_period_cov_d2: f64,
 }
 
 /// The fractional part in [0, 1) of a number of cycles.
@@ -60,6 +65,8 @@ impl Ephemeris {
             period_d: p,
             epoch_max_bjd: e,
             period_err_d: s,
+            epoch_err_d: 0.0,
+            epoch_period_cov_d2: 0.0,
         })
     }
 
@@ -75,16 +82,24 @@ impl Ephemeris {
         frac_phase(self.cycles(bjd))
     }
 
-    /// Phase uncertainty from the period's error, cycles: σ_φ = |n| σ_P / P
-    /// (first-order propagation of σ_P through φ = (t − E0)/P; common practice).
-    /// (The epoch's own error is not in the target data and is not included.)
+    /// Phase uncertainty, cycles: σ_φ = σ_T / P with σ_T the timing
+    /// uncertainty ([`Self::timing_sigma_d`]); |n| σ_P / P when only the
+    /// period's error is known (first-order propagation through
+    /// φ = (t − E0)/P; common practice).
     pub fn phase_sigma(&self, bjd: &Bjd) -> f64 {
-        self.cycles(bjd).abs() * self.period_err_d / self.period_d
+        self.timing_sigma_d(bjd) / self.period_d
     }
 
-    /// Timing uncertainty of a predicted maximum, days: |n| σ_P.
+    /// Timing uncertainty of a predicted maximum n cycles from the epoch,
+    /// days: σ_T² = σ_E² + n² σ_P² + 2 n cov(E, P); |n| σ_P when the epoch's
+    /// error is unknown (a target file gives none).
     pub fn timing_sigma_d(&self, bjd: &Bjd) -> f64 {
-        self.cycles(bjd).abs() * self.period_err_d
+        let n = self.cycles(bjd);
+        (self.epoch_err_d.powi(2)
+            + (n * self.period_err_d).powi(2)
+            + 2.0 * n * self.epoch_period_cov_d2)
+            .max(0.0)
+            .sqrt()
     }
 }
 

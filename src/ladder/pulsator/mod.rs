@@ -15,13 +15,15 @@
 //!
 //! Files by concern: `config` (coefficients and defaults), `ephemeris`
 //! (phase, its uncertainty, the day alias, a star's checked data),
-//! `coverage` (windows and visit plans), `relations` (period–luminosity
+//! `coverage` (windows and visit plans), `discovery` (a cadence that finds
+//! a period, the ephemeris from observed maxima), `relations` (period–luminosity
 //! relations by class and band, the class of a star, its metallicity), `fit` (Fourier fits and mean
 //! magnitudes), `distance` (distance modulus and its budget), `method` (the
 //! phase analysis and the shared method face).
 
 mod config;
 mod coverage;
+mod discovery;
 mod distance;
 mod ephemeris;
 mod fit;
@@ -30,6 +32,7 @@ pub mod relations;
 
 pub use config::*;
 pub use coverage::*;
+pub use discovery::*;
 pub use distance::*;
 pub use ephemeris::*;
 pub use fit::*;
