@@ -392,3 +392,176 @@ fn an_ambiguous_cycle_count_is_refused() {
     .to_string();
     assert!(e.contains("cycle count is ambiguous"), "{e}");
 }
+
+fn rung(args: &[&str]) -> (i32, String, String) {
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args(args)
+        .env("RUNG_CONFIG_DIR", env!("CARGO_TARGET_TMPDIR"))
+        .output()
+        .expect("run rung");
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+/// A candidate with only a period range: `rung phase --period-range` plans
+/// its search without a period or an epoch (docs/science.md, Finding a period).
+#[test]
+fn a_candidate_gets_its_period_search_on_the_command_line() {
+    let (code, out, err) = rung(&[
+        "phase",
+        "--ra",
+        "03:11:36",
+        "--dec",
+        "-03:18:00",
+        "--period-range",
+        "0.3,5",
+        "--from",
+        "2026-12-01",
+        "--nights",
+        "30",
+        "--json",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(v["candidate"], true);
+    let d = &v["discovery"];
+    assert_eq!(d["bjd_tdb"].as_array().unwrap().len(), 24);
+    assert_eq!(d["alias_free"], true, "{d}");
+    assert_eq!(d["recovered"], d["trials"]);
+    assert!(d["alias_peaks"][0]["true_peak"].as_bool().unwrap());
+    assert!(
+        d["period_err_at_max_d"].as_f64().unwrap() > d["period_err_at_min_d"].as_f64().unwrap()
+    );
+    // No amplitude given: the assumed one is said.
+    assert!(
+        v["notes"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|n| n.as_str().unwrap().contains("amplitude_mag not given"))
+    );
+    let (code, out, err) = rung(&[
+        "phase",
+        "--ra",
+        "03:11:36",
+        "--dec",
+        "-03:18:00",
+        "--period-range",
+        "0.3,5",
+        "--from",
+        "2026-12-01",
+        "--nights",
+        "30",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    assert!(
+        out.contains("Period search 0.30000–5.00000 d: 24 observations"),
+        "{out}"
+    );
+    assert!(out.contains("alias-free: yes"), "{out}");
+}
+
+/// Times of maximum on the command line refit the ephemeris the phases use;
+/// the JSON carries the fit, its residuals and its progress
+/// (docs/bad-input.md L8, L9).
+#[test]
+fn maxima_refit_the_ephemeris_on_the_command_line() {
+    let base = [
+        "phase",
+        "--ra",
+        "03:11:36",
+        "--dec",
+        "-03:18:00",
+        "--period-d",
+        "9.87",
+        "--epoch-max-bjd",
+        "2461003.1808",
+        "--period-err-d",
+        "0.0002",
+        "--from",
+        "2026-12-01",
+        "--nights",
+        "10",
+    ];
+    let mut a = base.to_vec();
+    let maxima = "2461032.7736:0.02 2461170.9892:0.02 2461289.4895:0.03 2461408.0088:0.015";
+    a.extend(["--maxima", maxima, "--json"]);
+    let (code, out, err) = rung(&a);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let u = &v["ephemeris_update"];
+    assert_eq!(u["points"].as_array().unwrap().len(), 4);
+    assert_eq!(u["progress"].as_array().unwrap().len(), 3);
+    // The refitted period stands in for the target's everywhere.
+    assert_eq!(v["period_d"], u["new"]["period_d"]);
+    // Near the slope from the first to the last maximum, (2461408.0088 −
+    // 2461032.7736)/38 = 9.87461 d (by hand), well away from the old 9.87.
+    let p = v["period_d"].as_f64().unwrap();
+    assert!((p - 9.87461).abs() < 0.001, "{p}");
+    assert!(u["new"]["period_err_d"].as_f64().unwrap() < 0.001);
+    assert!(v["epoch_err_d"].as_f64().unwrap() > 0.0);
+    // Bad lists are refused word for word.
+    let mut a = base.to_vec();
+    a.extend(["--maxima", "2461032.77 2461170.99:0.02"]);
+    let (code, _, err) = rung(&a);
+    assert_eq!(code, 2);
+    assert_eq!(
+        err.trim(),
+        "rung: error: invalid --maxima: give an error (BJD:err_d) for every time of maximum, or for none"
+    );
+    let mut a = base.to_vec();
+    a.extend(["--maxima", "61032.77"]);
+    let (code, _, err) = rung(&a);
+    assert_eq!(code, 2);
+    assert_eq!(
+        err.trim(),
+        "rung: error: invalid --maxima: '61032.77' is not a full BJD_TDB such as 2461003.185 (optionally :error_d)"
+    );
+    let mut a = base.to_vec();
+    a.extend(["--period-range", "5,0.3"]);
+    let (code, _, err) = rung(&a);
+    assert_eq!(code, 2);
+    assert_eq!(
+        err.trim(),
+        "rung: error: invalid --period-range: the shortest period 5 d must be below the longest 0.3 d"
+    );
+}
+
+/// A targets file's `maxima_bjd`: a bad list refuses its row with file,
+/// line and field, and the good rows load (docs/bad-input.md L10).
+#[test]
+fn a_bad_maxima_column_refuses_its_row() {
+    let dir = std::path::Path::new(env!("CARGO_TARGET_TMPDIR")).join("maxima-col");
+    std::fs::create_dir_all(&dir).unwrap();
+    let f = dir.join("t.csv");
+    std::fs::write(
+        &f,
+        "name,kind,ra,dec,period_d,epoch_max_bjd,mean_mag,maxima_bjd\n\
+         GOOD,pulsator,47.9,-3.3,9.87,2461003.1808,12.4,2461032.7736 2461170.9892 2461289.4895\n\
+         BAD,pulsator,47.9,-3.3,9.87,2461003.1808,12.4,2461032.7736:0\n",
+    )
+    .unwrap();
+    let (code, out, err) = rung(&[
+        "phase",
+        "--targets",
+        f.to_str().unwrap(),
+        "--target",
+        "GOOD",
+        "--from",
+        "2026-12-01",
+        "--nights",
+        "5",
+        "--json",
+    ]);
+    // Exit 3: the output stands, some rows were refused.
+    assert_eq!(code, 3, "{err}");
+    assert!(
+        err.contains("line 3, field 'maxima_bjd': '2461032.7736:0': the error after ':' must be days, above 0 and below 10"),
+        "{err}"
+    );
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(v["ephemeris_update"]["points"].as_array().unwrap().len(), 3);
+}

@@ -189,7 +189,7 @@ fn distance_modulus_by_hand_with_cited_coefficients() {
     // |γ| σ[Fe/H] = 0.2 × 0.1 = 0.02;
     // σ_μ² = 0.0445 + 0.0004 + 0.0001 + 0.0009 = 0.0459, σ_μ = 0.214243;
     // σ_d/d = (ln 10/5) σ_μ = 0.460517 × 0.214243 = 9.8663 %.
-    let b = distance_budget(12.0, 10.0, 0.30, 0.01, &v, 0.1);
+    let b = distance_budget(12.0, 10.0, 0.30, 0.01, &v, 0.1, 0.0);
     assert!(
         (b.distance_pc - 14_125.375).abs() < 0.01,
         "{}",
@@ -201,4 +201,12 @@ fn distance_modulus_by_hand_with_cited_coefficients() {
     assert!((b.distance_precision_pct - 9.8663).abs() < 1e-3);
     // The floor (σ_m̄ → 0): 0.460517 × √(0.0445 + 0.0004 + 0.0009) = 9.8555 %.
     assert!((b.floor_pct - 9.8555).abs() < 1e-3);
+    // With a calibration floor of 0.01 mag, its own term:
+    // σ_μ² = 0.0459 + 0.0001 = 0.0460; the floor √(0.0449 + 0.0009 + 0.0001) = √0.0459
+    let c = distance_budget(12.0, 10.0, 0.30, 0.01, &v, 0.1, 0.01);
+    assert!((c.sigma_mu_mag - 0.046f64.sqrt()).abs() < 1e-9);
+    assert!((c.floor_pct - 100.0 * 0.460517 * 0.0459f64.sqrt()).abs() < 1e-3);
+    let t = c.error_terms();
+    let cal = t.iter().find(|x| x.name == "calibration").unwrap();
+    assert_eq!(cal.sigma_mag, 0.01);
 }

@@ -84,6 +84,12 @@ pub struct Args {
     /// Also give the phase at this instant (ISO 8601 or 'now').
     #[arg(long)]
     pub at: Option<String>,
+    /// Plan a period search over MIN,MAX days (a candidate needs no period or epoch).
+    #[arg(long, value_name = "MIN,MAX")]
+    pub period_range: Option<String>,
+    /// Observed times of maximum, BJD_TDB[:ERR_D] separated by spaces or commas: the ephemeris is refitted to them (overrides the target's maxima_bjd).
+    #[arg(long, value_name = "LIST")]
+    pub maxima: Option<String>,
     /// Machine-readable output.
     #[arg(long)]
     pub json: bool,
@@ -178,9 +184,19 @@ fn build_target(a: &Args) -> Result<(Target, Vec<String>)> {
     if let Some(f) = FEH_ERR_DEX.check_opt_as("--feh-err-dex", a.feh_err_dex)? {
         t.feh_err_dex = Some(f);
     }
+    if let Some(m) = &a.maxima {
+        if let Err(why) = rung::io::kinds::maxima_list(m) {
+            bail!(rung::RungError::invalid("--maxima", why));
+        }
+        t.maxima_bjd = m.trim().to_string();
+    }
+    if a.period_range.is_some() && (t.period_d.is_none() || t.epoch_max_bjd.is_none()) {
+        // A candidate: only its period search is planned.
+        return Ok((t, notes));
+    }
     if t.period_d.is_none() {
         bail!(
-            "no period for '{}': give --period-d DAYS (a pulsator needs its period)",
+            "no period for '{}': give --period-d DAYS (a pulsator needs its period), or --period-range MIN,MAX to plan a search",
             t.name
         );
     }
@@ -242,6 +258,15 @@ pub fn run(a: Args) -> Result<()> {
     }
     if let Some(n) = a.max_nights {
         m.max_nights = n;
+    }
+    if let Some(text) = &a.period_range {
+        m.discover_range = Some(parse_period_range(text)?);
+    }
+    if let (Some((lo, hi)), true) = (
+        m.discover_range,
+        target.period_d.is_none() || target.epoch_max_bjd.is_none(),
+    ) {
+        return run_candidate(&st, &m, target, option_notes, lo, hi, a.json);
     }
     let st = st.with_method(Arc::new(m.clone()));
     // A field: by --field, or a --target that names one.
@@ -309,6 +334,178 @@ pub fn run(a: Args) -> Result<()> {
         print_text(&site, &target, &m, &r, goal, at);
     }
     Ok(())
+}
+
+/// `MIN,MAX` (or `MIN..MAX`) days, each a period rung accepts, MIN below MAX.
+fn parse_period_range(text: &str) -> Result<(f64, f64)> {
+    let bad = |why: String| rung::RungError::invalid("--period-range", why);
+    let (a, b) = text
+        .split_once("..")
+        .or_else(|| text.split_once(','))
+        .ok_or_else(|| bad(format!("'{text}' is not MIN,MAX in days, e.g. 0.3,5")))?;
+    let num = |x: &str| -> Result<f64> {
+        let v: f64 = x
+            .trim()
+            .parse()
+            .map_err(|_| bad(format!("'{}' is not a number of days", x.trim())))?;
+        rung::bounds::PERIOD_D.check_as("--period-range", v)?;
+        Ok(v)
+    };
+    let (lo, hi) = (num(a)?, num(b)?);
+    if lo >= hi {
+        bail!(bad(format!(
+            "the shortest period {lo} d must be below the longest {hi} d"
+        )));
+    }
+    Ok((lo, hi))
+}
+
+/// A candidate with a period range only: its period search.
+fn run_candidate(
+    st: &rung::programme::Settings,
+    m: &PulsatorMethod,
+    mut target: Target,
+    mut notes: Vec<String>,
+    lo: f64,
+    hi: f64,
+    json_out: bool,
+) -> Result<()> {
+    // The search needs no ephemeris; the star's other fields are checked
+    // as usual with a placeholder period inside the range.
+    target.period_d = Some((lo * hi).sqrt());
+    target.epoch_max_bjd = Some(2_451_545.0);
+    target.period_err_d = None;
+    target.maxima_bjd.clear();
+    let star = rung::ladder::pulsator::Star::from_target(&target)?;
+    let s = st.setting(&target);
+    let d = m.discover(&s, Some(&st.photometer), &star, lo, hi)?;
+    notes.extend(d.notes.iter().cloned());
+    if json_out {
+        let o = json!({
+            "target": target.name,
+            "site": st.site.name,
+            "instrument": st.instrument().name,
+            "candidate": true,
+            "period_min_d": lo,
+            "period_max_d": hi,
+            "band": star.band,
+            "discovery": serde_json::to_value(&d)?,
+            "notes": notes,
+        });
+        super::print_json(&o)?;
+    } else {
+        super::outln!(
+            "{}: candidate, period {lo}–{hi} d, from {}",
+            target.name,
+            st.site.name
+        );
+        print_discovery(&d);
+        for n in &notes {
+            super::outln!("note: {n}");
+        }
+    }
+    Ok(())
+}
+
+/// The period-search section of the text output.
+fn print_discovery(d: &rung::ladder::pulsator::DiscoveryPlan) {
+    super::outln!(
+        "Period search {:.5}–{:.5} d: {} observations over {:.1} d (geometric spacing, base {:.2}); expected σ_P {:.2e} d at {:.5} d, {:.2e} d at {:.5} d",
+        d.period_min_d,
+        d.period_max_d,
+        d.bjd_tdb.len(),
+        d.span_d,
+        d.base,
+        d.period_err_at_min_d,
+        d.period_min_d,
+        d.period_err_at_max_d,
+        d.period_max_d
+    );
+    super::outln!(
+        "  alias-free: {} ({} of {} simulated stars recovered); spectral window's tallest sidelobe {:.2} at {:.3} cycles/day (one visit a night: {:.2})",
+        if d.alias_free { "yes" } else { "NO" },
+        d.recovered,
+        d.trials,
+        d.max_sidelobe,
+        d.max_sidelobe_cpd,
+        d.nightly_max_sidelobe
+    );
+    let peaks: Vec<String> = d
+        .alias_peaks
+        .iter()
+        .map(|p| {
+            format!(
+                "{:.5} d {:.0} %{}",
+                p.period_d,
+                100.0 * p.relative,
+                if p.true_peak { " (true)" } else { "" }
+            )
+        })
+        .collect();
+    super::outln!(
+        "  periodogram of a {:.5}-d star over these times: {}",
+        d.test_period_d,
+        peaks.join(" · ")
+    );
+    let steps: Vec<String> = d
+        .progress
+        .iter()
+        .filter(|p| p.epochs % 6 == 0 || p.epochs == d.bjd_tdb.len())
+        .map(|p| format!("{}: {:.2e}", p.epochs, p.period_err_at_max_d))
+        .collect();
+    super::outln!(
+        "  σ_P at {:.5} d as observations accumulate: {}",
+        d.period_max_d,
+        steps.join(", ")
+    );
+    super::outln!("  {:<20} {:>14}", "UTC", "BJD_TDB");
+    for (t, b) in d.times_utc.iter().zip(&d.bjd_tdb) {
+        super::outln!("  {:<20} {:>14.5}", t, b);
+    }
+}
+
+/// The O−C section of the text output.
+fn print_update(u: &rung::ladder::pulsator::EphemerisUpdate) {
+    super::outln!(
+        "Ephemeris from {} maxima: P = {:.7} ± {:.7} d (was {} ± {} d), epoch BJD_TDB {:.5} ± {:.5} d{}",
+        u.points.len(),
+        u.new.period_d,
+        u.new.period_err_d,
+        u.old.period_d,
+        u.old.period_err_d,
+        u.new.epoch_max_bjd,
+        u.new.epoch_err_d,
+        u.reduced_chi2
+            .map(|r| format!(", χ²/ν {r:.2}"))
+            .unwrap_or_default()
+    );
+    super::outln!(
+        "  {:>6} {:>14} {:>10} {:>10}",
+        "cycle",
+        "BJD_TDB",
+        "O−C old d",
+        "O−C new d"
+    );
+    for p in &u.points {
+        super::outln!(
+            "  {:>6} {:>14.5} {:>10.5} {:>10.5}",
+            p.cycle,
+            p.bjd,
+            p.o_minus_c_old_d,
+            p.o_minus_c_new_d
+        );
+    }
+    let steps: Vec<String> = u
+        .progress
+        .iter()
+        .map(|p| {
+            format!(
+                "{}: σ_P {:.2e}, σ_E {:.4}",
+                p.maxima, p.period_err_d, p.epoch_err_d
+            )
+        })
+        .collect();
+    super::outln!("  as maxima accumulate: {}", steps.join(" · "));
 }
 
 #[allow(clippy::too_many_arguments)]
@@ -417,6 +614,12 @@ fn print_json(
     o.insert("phase_sigma".into(), json!(r.phase_sigma));
     o.insert("phase_sigma_start".into(), json!(r.phase_sigma_start));
     o.insert("stale_ephemeris".into(), json!(r.stale));
+    o.insert("epoch_err_d".into(), json!(e.epoch_err_d));
+    o.insert(
+        "ephemeris_update".into(),
+        serde_json::to_value(&r.star.ephemeris_update)?,
+    );
+    o.insert("discovery".into(), serde_json::to_value(&r.discovery)?);
     if let Some((t, b)) = at {
         o.insert("at".into(), json!(t.iso()));
         o.insert("bjd_tdb_at".into(), json!(b.jd()));
@@ -461,6 +664,7 @@ fn print_json(
         ("sigma_mean_rule_mag", r.sigma_mean_rule_mag),
         ("sigma_pl_mag", b.map(|b| b.sigma_pl_mag)),
         ("sigma_ext_mag", b.map(|b| b.sigma_ext_mag)),
+        ("sigma_cal_mag", b.map(|b| b.sigma_cal_mag)),
         ("floor_pct", b.map(|b| b.floor_pct)),
     ] {
         o.insert(k.into(), f.map(opt_num).unwrap_or(Value::Null));
@@ -493,6 +697,20 @@ fn print_json(
             o.insert("relation".into(), Value::Null);
         }
     }
+    o.insert(
+        "mean_from".into(),
+        json!(r.mean.as_ref().map(|m| m.from.clone())),
+    );
+    o.insert("mean".into(), serde_json::to_value(&r.mean)?);
+    o.insert(
+        "error_terms".into(),
+        serde_json::to_value(
+            r.prediction
+                .as_ref()
+                .map(|p| p.error_terms.clone())
+                .unwrap_or_default(),
+        )?,
+    );
     o.insert("cautions".into(), json!(r.cautions));
     o.insert("notes".into(), json!(r.notes));
     super::print_json(&Value::Object(o))?;
@@ -608,6 +826,12 @@ fn print_text(
         r.phase_sigma,
         if r.stale { " (STALE)" } else { "" }
     );
+    if let Some(u) = &r.star.ephemeris_update {
+        print_update(u);
+    }
+    if let Some(d) = &r.discovery {
+        print_discovery(d);
+    }
     if let Some(rel) = &r.relation {
         let x = &rel.relation;
         super::outln!(
@@ -643,7 +867,7 @@ fn print_text(
     }
     if let (Some(p), Some(b)) = (&r.prediction, &r.budget) {
         super::outln!(
-            "Distance: μ = {:.3} mag ({:.0} pc); σ_μ = {:.3} mag (scatter {:.3}, zero point {:.3}, metallicity {:.3}, mean mag {:.4}, extinction {:.3}, K = {}) → σ_d/d = {:.2} % in {:.2} h{}",
+            "Distance: μ = {:.3} mag ({:.0} pc); σ_μ = {:.3} mag (scatter {:.3}, zero point {:.3}, metallicity {:.3}, mean mag {:.4}, extinction {:.3}, calibration {:.3}, K = {}) → σ_d/d = {:.2} % in {:.2} h{}",
             b.distance_modulus_mag,
             b.distance_pc,
             b.sigma_mu_mag,
@@ -652,11 +876,33 @@ fn print_text(
             b.sigma_feh_mag,
             b.sigma_mean_mag,
             b.sigma_ext_mag,
+            b.sigma_cal_mag,
             m.harmonics,
             p.distance_precision_pct,
             p.hours_needed,
             goal.map(|g| format!(" (goal {g} %)")).unwrap_or_default()
         );
+        if let Some(me) = &r.mean {
+            super::outln!(
+                "  mean magnitude: intensity mean {} (σ {:.4} mag{}{}); a magnitude mean of this light curve lies {:+.3} mag from it",
+                if me.from == "template" {
+                    "through the template"
+                } else {
+                    "of the Fourier fit"
+                },
+                me.sigma_mag,
+                me.fourier_sigma_mag
+                    .map(|f| format!("; Fourier fit {f:.4}"))
+                    .unwrap_or_default(),
+                me.template_sigma_mag
+                    .map(|t| format!("; template {t:.4}"))
+                    .unwrap_or_default(),
+                -me.intensity_minus_magnitude_mag
+            );
+            if let Some(src) = &me.template_source {
+                super::outln!("  template: {src}");
+            }
+        }
         if goal.is_some() {
             super::outln!("  verdict: {}", p.verdict.text());
         }

@@ -107,6 +107,7 @@ kinds! {
         ("feh_dex", Optional),
         ("feh_err_dex", Optional),
         ("field", Optional),
+        ("maxima_bjd", Optional),
     ];
     /// Thermonuclear supernova (standardized candle).
     Transient = "transient", '✶', "thermonuclear supernova, standardized candle", &[
@@ -665,6 +666,18 @@ pub const COLUMNS: &[Column] = &[
         set: |t, c| t.field = c.text(),
     },
     Column {
+        key: "maxima_bjd",
+        unit: "BJD_TDB list",
+        about: "observed times of maximum, BJD[:err_d] …; refit the ephemeris",
+        ty: Ty::Text,
+        default: "",
+        bounds: &[],
+        every_kind: false,
+        need: Optional,
+        get: |t| text_or_empty(&t.maxima_bjd),
+        set: |t, c| t.maxima_bjd = c.text(),
+    },
+    Column {
         key: "discovered",
         unit: "ISO 8601",
         about: "ISO 8601 UTC",
@@ -899,6 +912,9 @@ pub struct Target {
     /// The field (host galaxy or cluster, a target of kind `field`) a
     /// pulsator belongs to; empty: none.
     pub field: String,
+    /// A pulsator's observed times of maximum, `BJD[:err_d]` separated by
+    /// spaces, commas or semicolons ([`maxima_list`]); empty: none.
+    pub maxima_bjd: String,
     /// The metallicity [Fe/H] of a pulsator or a field's mean, dex.
     pub feh_dex: Option<f64>,
     /// Its uncertainty, dex.
@@ -959,6 +975,7 @@ impl Target {
             mean_mag: None,
             class: String::new(),
             field: String::new(),
+            maxima_bjd: String::new(),
             feh_dex: None,
             feh_err_dex: None,
             discovered: None,
@@ -1142,6 +1159,47 @@ pub fn read_cell(c: &Column, text: &str) -> Result<Cell, Refusal> {
 /// `None` for a field the row does not have.
 pub type Slots<'a> = [Option<&'a str>; COLUMNS.len()];
 
+/// The times of maximum written in a `maxima_bjd` field: `BJD` or
+/// `BJD:err_d` items (BJD_TDB, error in days) separated by spaces, commas or
+/// semicolons; either every item has an error or none has. Refused with the
+/// reason: an item that is not a full BJD_TDB (2400000–2500000), an error
+/// that is not positive and below 10 days, errors on some items only.
+pub fn maxima_list(text: &str) -> Result<Vec<(f64, Option<f64>)>, String> {
+    let mut out = Vec::new();
+    for item in text
+        .split(|c: char| c.is_whitespace() || c == ',' || c == ';')
+        .filter(|x| !x.is_empty())
+    {
+        let (b, e) = match item.split_once(':') {
+            Some((b, e)) => (b, Some(e)),
+            None => (item, None),
+        };
+        let bjd: f64 = b
+            .parse()
+            .ok()
+            .filter(|x: &f64| x.is_finite() && (2_400_000.0..=2_500_000.0).contains(x))
+            .ok_or_else(|| {
+                format!("'{item}' is not a full BJD_TDB such as 2461003.185 (optionally :error_d)")
+            })?;
+        let err = match e {
+            None => None,
+            Some(e) => Some(
+                e.parse()
+                    .ok()
+                    .filter(|x: &f64| x.is_finite() && *x > 0.0 && *x < 10.0)
+                    .ok_or_else(|| {
+                        format!("'{item}': the error after ':' must be days, above 0 and below 10")
+                    })?,
+            ),
+        };
+        out.push((bjd, err));
+    }
+    if out.iter().any(|m| m.1.is_some()) && out.iter().any(|m| m.1.is_none()) {
+        return Err("give an error (BJD:err_d) for every time of maximum, or for none".into());
+    }
+    Ok(out)
+}
+
 /// Build a target from the text of its fields, checking each against the
 /// fields table and the kind's row of the kinds table; the refusal names the
 /// field.
@@ -1161,6 +1219,9 @@ pub fn target_from_slots(slots: &Slots) -> Result<Target, Refusal> {
         && let Some(why) = crate::bounds::period_err_why_not(e, t.period_d)
     {
         return Err(("period_err_d".to_string(), why));
+    }
+    if let Err(why) = maxima_list(&t.maxima_bjd) {
+        return Err(("maxima_bjd".to_string(), why));
     }
     for (key, need) in t.kind.spec().fields {
         let missing = |k: &str| t.get(k).is_empty();

@@ -567,6 +567,12 @@ pub fn detail_rows(view: View, area_h: u16) -> usize {
     }
 }
 
+/// Rows the Phase view gives to the refitted ephemeris (one) and the period
+/// search (two), taken from its list of nights.
+pub fn phase_extra_rows(r: &crate::ladder::pulsator::PhaseReport) -> usize {
+    usize::from(r.star.ephemeris_update.is_some()) + 2 * usize::from(r.discovery.is_some())
+}
+
 /// The first row of a detail list of `len` rows shown `rows` at a time, for a
 /// wanted first row `scroll`.
 pub fn detail_offset(scroll: usize, rows: usize, len: usize) -> usize {
@@ -577,7 +583,9 @@ impl State {
     /// Rows in the current view's detail list (Phase windows, Chase nights), when there is one.
     pub fn detail_len(&self) -> Option<usize> {
         match self.method_now()? {
-            MethodBody::Phase(r) if self.view == View::Phase => Some(r.windows.len()),
+            MethodBody::Phase(r) if self.view == View::Phase => {
+                Some(r.windows.len() + phase_extra_rows(r))
+            }
             MethodBody::Chase(c) if self.view == View::Chase => Some(c.nights.len()),
             _ => None,
         }

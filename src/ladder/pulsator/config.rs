@@ -89,6 +89,11 @@ pub struct PulsatorDefaults {
     pub snr_max: f64,
     /// Extinction uncertainty as a fraction of the extinction.
     pub extinction_sigma_frac: f64,
+    /// Observations of a period-discovery cadence.
+    pub discovery_epochs: usize,
+    /// Peak-to-peak amplitude a discovery cadence assumes when the target
+    /// gives none, mag.
+    pub discovery_amplitude_mag: f64,
 }
 
 /// The method's configuration: defaults, what each class assumes, and the
@@ -109,6 +114,23 @@ pub struct PulsatorConfig {
     /// replaces the built-in relation of its band).
     #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
     pub band: BTreeMap<String, LeavittLaw>,
+    /// The photometric calibration floor by band, mag (`[calibration_floor_mag]`).
+    #[serde(default)]
+    pub calibration_floor_mag: BTreeMap<String, f64>,
+    /// Light-curve templates by class name and band (`[template.<class>.<band>]`).
+    #[serde(default)]
+    pub template: BTreeMap<String, BTreeMap<String, Template>>,
+}
+
+/// A published light-curve template of one class in one band: the mean
+/// magnitude from few epochs (config/pulsator.toml).
+#[derive(Debug, Clone, PartialEq, Deserialize, Serialize)]
+#[serde(deny_unknown_fields)]
+pub struct Template {
+    /// Error of the mean magnitude from one epoch through the template, mag.
+    pub epoch_sigma_mag: f64,
+    /// The published source.
+    pub source: String,
 }
 
 impl PulsatorConfig {
@@ -117,6 +139,25 @@ impl PulsatorConfig {
         // The embedded file is checked by the unit test `builtin_config_parses`.
         config::merged(&[config::PULSATOR.builtin_layer()], Self::validated)
             .unwrap_or_else(|e| panic!("built-in config/pulsator.toml is broken: {e}"))
+    }
+
+    /// The calibration floor of a relation's band, mag: the band's
+    /// `calibration_floor_mag`, or for a Wesenheit index W = red − R (blue −
+    /// red) the two bands' floors combined as its errors are,
+    /// √((1 + R)² f_red² + R² f_blue²); 0 for a band the table lacks.
+    pub fn calibration_floor(&self, rel: &Relation) -> f64 {
+        let f = |b: &str| self.calibration_floor_mag.get(b).copied().unwrap_or(0.0);
+        match &rel.wesenheit {
+            Some(w) => ((1.0 + w.ratio).powi(2) * f(&w.red).powi(2)
+                + w.ratio.powi(2) * f(&w.blue).powi(2))
+            .sqrt(),
+            None => f(&rel.band),
+        }
+    }
+
+    /// The light-curve template of a class in a band, when one is configured.
+    pub fn template_for(&self, class: PulsatorClass, band: &str) -> Option<&Template> {
+        self.template.get(class.as_str())?.get(band)
     }
 
     /// Parse a complete configuration text; `file` names it in error messages.
@@ -177,6 +218,45 @@ impl PulsatorConfig {
         if !(d.extinction_sigma_frac.is_finite() && (0.0..=1.0).contains(&d.extinction_sigma_frac))
         {
             return Err(bad("defaults.extinction_sigma_frac", "must be within 0..1"));
+        }
+        if !(6..=500).contains(&d.discovery_epochs) {
+            return Err(bad("defaults.discovery_epochs", "must be within 6..500"));
+        }
+        if !(d.discovery_amplitude_mag.is_finite()
+            && d.discovery_amplitude_mag > 0.0
+            && d.discovery_amplitude_mag <= 10.0)
+        {
+            return Err(bad(
+                "defaults.discovery_amplitude_mag",
+                "must be a peak-to-peak amplitude above 0 and at most 10 mag",
+            ));
+        }
+        for (band, f) in &self.calibration_floor_mag {
+            if !(f.is_finite() && (0.0..=0.5).contains(f)) {
+                return Err(bad(
+                    &format!("calibration_floor_mag.{band}"),
+                    "must be within 0..0.5 mag",
+                ));
+            }
+        }
+        for (class, bands) in &self.template {
+            if !is_class_key(class) {
+                return Err(bad(
+                    &format!("template.{class}"),
+                    "is not a class: write template.cepheid, template.rrlyrae or template.mira",
+                ));
+            }
+            for (band, t) in bands {
+                if !(t.epoch_sigma_mag.is_finite()
+                    && t.epoch_sigma_mag > 0.0
+                    && t.epoch_sigma_mag <= 1.0)
+                {
+                    return Err(bad(
+                        &format!("template.{class}.{band}.epoch_sigma_mag"),
+                        "must be above 0 and at most 1 mag",
+                    ));
+                }
+            }
         }
         let mut me = self;
         // The older [band.X] tables become classical-Cepheid relations.

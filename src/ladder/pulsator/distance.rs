@@ -27,6 +27,9 @@ pub struct DistanceBudget {
     pub sigma_mean_mag: f64,
     /// Extinction error, mag (0 for a reddening-free index).
     pub sigma_ext_mag: f64,
+    /// The band's photometric calibration floor, mag: common to every point
+    /// calibrated the same way, so it does not fall with more points.
+    pub sigma_cal_mag: f64,
     /// σ_μ, mag.
     pub sigma_mu_mag: f64,
     /// σ_d/d, percent.
@@ -47,6 +50,7 @@ impl DistanceBudget {
             ErrorTerm::from_mag("metallicity", self.sigma_feh_mag, false),
             ErrorTerm::from_mag("mean magnitude", self.sigma_mean_mag, false),
             ErrorTerm::from_mag("extinction", self.sigma_ext_mag, false),
+            ErrorTerm::from_mag("calibration", self.sigma_cal_mag, false),
         ]
     }
 }
@@ -70,9 +74,11 @@ pub fn distance_modulus(
     mean_mag - rel.abs_mag(period_d) - a
 }
 
-/// The error budget: σ_μ² = σ_PL² + σ_zp² + (γ σ[Fe/H])² + σ_m̄² + σ_A²,
-/// σ_d/d = (ln 10/5) σ_μ. σ_A = `extinction_sigma_frac` × A (none for a
-/// reddening-free index). Inputs in mag and days; result as
+/// The error budget: σ_μ² = σ_PL² + σ_zp² + (γ σ[Fe/H])² + σ_m̄² + σ_A² +
+/// σ_cal², σ_d/d = (ln 10/5) σ_μ. σ_A = `extinction_sigma_frac` × A (none
+/// for a reddening-free index); σ_cal = `calibration_mag`, the band's
+/// photometric calibration floor (part of the floor no number of points
+/// removes). Inputs in mag and days; result as
 /// [`DistanceBudget`]. Source: docs/science.md (Pulsating stars, Distances).
 pub fn distance_budget(
     mean_mag: f64,
@@ -81,6 +87,7 @@ pub fn distance_budget(
     sigma_mean_mag: f64,
     rel: &StarRelation,
     extinction_sigma_frac: f64,
+    calibration_mag: f64,
 ) -> DistanceBudget {
     let mu = distance_modulus(mean_mag, period_d, extinction_mag, rel);
     let s_sc = rel.relation.scatter_mag;
@@ -91,7 +98,8 @@ pub fn distance_budget(
     } else {
         extinction_sigma_frac * extinction_mag
     };
-    let fixed2 = s_sc * s_sc + s_zp * s_zp + s_feh * s_feh + s_a * s_a;
+    let fixed2 =
+        s_sc * s_sc + s_zp * s_zp + s_feh * s_feh + s_a * s_a + calibration_mag * calibration_mag;
     let s_mu = (fixed2 + sigma_mean_mag * sigma_mean_mag).sqrt();
     DistanceBudget {
         abs_mag: rel.abs_mag(period_d),
@@ -103,6 +111,7 @@ pub fn distance_budget(
         sigma_feh_mag: s_feh,
         sigma_mean_mag,
         sigma_ext_mag: s_a,
+        sigma_cal_mag: calibration_mag,
         sigma_mu_mag: s_mu,
         distance_precision_pct: 100.0 * DIST_FRAC_PER_MAG * s_mu,
         floor_pct: 100.0 * DIST_FRAC_PER_MAG * fixed2.sqrt(),

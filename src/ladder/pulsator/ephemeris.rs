@@ -173,6 +173,10 @@ pub struct Star {
     pub feh_dex: Option<f64>,
     /// Its uncertainty, dex, when given.
     pub feh_err_dex: Option<f64>,
+    /// The ephemeris refitted to the observer's times of maximum (the
+    /// target's `maxima_bjd`), when given: `ephemeris` is then its `new`,
+    /// so every phase and the stale-ephemeris check use the refitted one.
+    pub ephemeris_update: Option<super::EphemerisUpdate>,
 }
 
 impl Star {
@@ -209,10 +213,22 @@ impl Star {
         FEH_ERR_DEX
             .check_opt_as("feh_err_dex", t.feh_err_dex)
             .map_err(named)?;
+        let maxima: Vec<super::Maximum> = crate::io::kinds::maxima_list(&t.maxima_bjd)
+            .map_err(|why| named(RungError::invalid("maxima_bjd", why)))?
+            .into_iter()
+            .map(|(bjd, err_d)| super::Maximum { bjd, err_d })
+            .collect();
+        let (ephemeris, ephemeris_update) = if maxima.is_empty() {
+            (ephemeris, None)
+        } else {
+            let u = super::update_ephemeris(&ephemeris, &maxima).map_err(named)?;
+            (u.new, Some(u))
+        };
         Ok(Star {
             class,
             feh_dex: t.feh_dex,
             feh_err_dex: t.feh_err_dex,
+            ephemeris_update,
             ephemeris,
             amplitude_mag,
             mean_mag: t.mean_mag,

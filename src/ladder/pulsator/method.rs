@@ -30,6 +30,10 @@ pub struct PhaseReport {
     pub phase_sigma: f64,
     /// Whether the ephemeris is stale by the end of the range.
     pub stale: bool,
+    /// A period-discovery cadence over the range: proposed when the
+    /// ephemeris is stale from the start (its period searched within
+    /// P ± 3σ_P), or for the period range asked ([`PulsatorMethod::discover_range`]).
+    pub discovery: Option<DiscoveryPlan>,
     /// Epochs of the visits (exposures sized by the exposure model), when one was given.
     pub epochs: Vec<Epoch>,
     /// Per-point signal-to-noise the exposures were sized for.
@@ -40,6 +44,9 @@ pub struct PhaseReport {
     pub budget: Option<DistanceBudget>,
     /// The rule-of-thumb mean-magnitude error σ√((2K+1)/N), mag.
     pub sigma_mean_rule_mag: Option<f64>,
+    /// How the mean magnitude comes from the planned points (Fourier fit or
+    /// template), when it can be computed.
+    pub mean: Option<MeanEstimate>,
     /// The prediction (precision, hours, verdict), when an exposure model was given.
     pub prediction: Option<Prediction>,
     /// Safety cautions (Sun proximity).
@@ -47,6 +54,15 @@ pub struct PhaseReport {
     /// Warnings and explanations.
     pub notes: Vec<String>,
 }
+
+/// A star's prediction with its budget, the rule-of-thumb σ_m̄ and how its
+/// mean magnitude was estimated.
+type StarPrediction = (
+    Prediction,
+    Option<DistanceBudget>,
+    Option<f64>,
+    Option<MeanEstimate>,
+);
 
 /// The pulsating-star method.
 #[derive(Debug, Clone, PartialEq)]
@@ -61,6 +77,9 @@ pub struct PulsatorMethod {
     pub snr: f64,
     /// Warn when coverage needs more nights than this.
     pub max_nights: usize,
+    /// A period range (days) to plan a discovery cadence for, whatever the
+    /// ephemeris (`rung phase --period-range`); `None`: only when stale.
+    pub discover_range: Option<(f64, f64)>,
 }
 
 impl Default for PulsatorMethod {
@@ -128,6 +147,7 @@ impl PulsatorMethod {
             harmonics: config.defaults.harmonics,
             snr: config.defaults.propose_snr,
             max_nights: config.defaults.coverage_nights_warn,
+            discover_range: None,
             config,
         }
     }
@@ -155,12 +175,112 @@ impl PulsatorMethod {
         Ok(())
     }
 
+    /// A cadence of `defaults.discovery_epochs` observations over the
+    /// setting's range that recovers a period between `period_min_d` and
+    /// `period_max_d` ([`plan_discovery`]): per-point error from the method's
+    /// SNR, the star's semi-amplitude (else half of
+    /// `defaults.discovery_amplitude_mag`, said so), the visit's length from
+    /// the exposure model at the faint phase (else 10 minutes).
+    pub fn discover(
+        &self,
+        s: &Setting,
+        em: Option<&dyn ExposureModel>,
+        star: &Star,
+        period_min_d: f64,
+        period_max_d: f64,
+    ) -> Result<DiscoveryPlan> {
+        let mut dwell_s = 600.0;
+        let first = observable_intervals(s.site, &star.place, s.from, s.to, &s.limits)?
+            .first()
+            .copied();
+        if let (Some(em), Some(mag), Some((a, b))) = (em, star.faint_mag(), first) {
+            let ctx = Context::exact(s.site, a.add_seconds(b.seconds_since(&a) / 2.0))?;
+            let (x, n) = em.exptime(mag, &star.band, self.snr, &ctx, &star.place)?;
+            dwell_s = x + n as f64 * em.readout_s() + em.visit_overhead_s();
+        }
+        let d = &self.config.defaults;
+        let (amp, assumed) = if star.amplitude_mag > 0.0 {
+            (star.amplitude_mag, false)
+        } else {
+            (d.discovery_amplitude_mag, true)
+        };
+        let mut plan = plan_discovery(&DiscoveryInput {
+            site: s.site,
+            place: &star.place,
+            from: s.from,
+            to: s.to,
+            limits: &s.limits,
+            period_min_d,
+            period_max_d,
+            epochs: d.discovery_epochs,
+            sigma_point_mag: sigma_mag_from_snr(self.snr),
+            semi_amplitude_mag: amp / 2.0,
+            dwell_s,
+        })?;
+        if assumed {
+            plan.notes.insert(
+                0,
+                format!("amplitude_mag not given: a peak-to-peak amplitude of {amp} mag assumed"),
+            );
+        }
+        Ok(plan)
+    }
+
+    /// The report with its period-discovery cadence: for the range asked
+    /// ([`Self::discover_range`]), else when the ephemeris is stale from the
+    /// start of the range (P ± 3σ_P). Kept out of the goal search and the
+    /// proposals, which do not show it.
+    fn add_discovery(
+        &self,
+        s: &Setting,
+        em: Option<&dyn ExposureModel>,
+        mut r: PhaseReport,
+    ) -> PhaseReport {
+        let e = r.star.ephemeris;
+        // Over the same stretch of nights as the phase coverage.
+        let capped_to = s.from + chrono::Duration::days(MAX_RANGE_NIGHTS - 1);
+        let capped = Setting {
+            to: s.to.min(capped_to),
+            ..s.clone()
+        };
+        let s = &capped;
+        let range = self.discover_range.or_else(|| {
+            (r.phase_sigma_start > self.config.defaults.stale_phase && e.period_err_d > 0.0).then(
+                || {
+                    let lo = (e.period_d - 3.0 * e.period_err_d).max(crate::bounds::PERIOD_D.min);
+                    (lo, e.period_d + 3.0 * e.period_err_d)
+                },
+            )
+        });
+        r.discovery = match range {
+            Some((lo, hi)) => match self.discover(s, em, &r.star, lo, hi) {
+                Ok(d) => {
+                    if self.discover_range.is_none() {
+                        r.notes.push(format!(
+                                "the ephemeris is stale from the start (σφ {:.3}): a period search over {lo:.5}–{hi:.5} d (P ± 3σ_P) in {} observations is proposed",
+                                r.phase_sigma_start,
+                                d.bjd_tdb.len()
+                            ));
+                    }
+                    Some(d)
+                }
+                Err(err) => {
+                    r.notes.push(format!("no period-search cadence: {err}"));
+                    None
+                }
+            },
+            None => None,
+        };
+        r
+    }
+
     /// The whole phase analysis over the setting's range: windows and their
     /// phases, a plan covering `self.bins` bins, the beat period, the
     /// ephemeris's phase uncertainty and, with an exposure model, the epochs
     /// (per-point SNR `self.snr`) and the distance precision they buy.
     pub fn analyse(&self, s: &Setting, em: Option<&dyn ExposureModel>) -> Result<PhaseReport> {
-        self.analyse_with(s, em, self.bins, self.snr)
+        let r = self.analyse_with(s, em, self.bins, self.snr)?;
+        Ok(self.add_discovery(s, em, r))
     }
 
     fn analyse_with(
@@ -233,6 +353,20 @@ impl PulsatorMethod {
         if e.period_err_d == 0.0 {
             notes.push("period_err_d not given: the phase uncertainty is shown as 0".into());
         }
+        if let Some(u) = &star.ephemeris_update {
+            notes.push(format!(
+                "ephemeris refitted to {} observed maxima: P = {:.6} ± {:.6} d (was {} ± {} d), epoch BJD_TDB {:.4} ± {:.4} d",
+                u.points.len(),
+                u.new.period_d,
+                u.new.period_err_d,
+                u.old.period_d,
+                u.old.period_err_d,
+                u.new.epoch_max_bjd,
+                u.new.epoch_err_d
+            ));
+            notes.extend(u.notes.iter().cloned());
+        }
+
         match alias.beat_period_d {
             None => notes.push(format!(
                 "the period is commensurate with the day (1/P = {}/{} per day): the same phases return every {} night(s) and never drift from this site",
@@ -286,6 +420,7 @@ impl PulsatorMethod {
         let mut epochs = Vec::new();
         let mut budget = None;
         let mut rule = None;
+        let mut mean_est = None;
         let mut prediction = None;
         if let (Some(em), Ok(_)) = (em, &law) {
             if star.mean_mag.is_some() {
@@ -299,6 +434,7 @@ impl PulsatorMethod {
                 let p = self.predict_star(s, &star, &epochs, &mut notes)?;
                 budget = p.1;
                 rule = p.2;
+                mean_est = p.3;
                 let mut pred = p.0;
                 if windows.is_empty() {
                     pred.verdict = Verdict::NotObservable {
@@ -321,6 +457,7 @@ impl PulsatorMethod {
                 0.0,
                 law,
                 self.config.defaults.extinction_sigma_frac,
+                self.config.calibration_floor(&law.relation),
             );
             notes.push(format!(
                 "no exposure model: distance precision not computed; the relation alone limits it to {:.1} %",
@@ -343,10 +480,12 @@ impl PulsatorMethod {
             phase_sigma_start: sig0,
             phase_sigma: sig1,
             stale,
+            discovery: None,
             epochs,
             snr_per_point: snr,
             budget,
             sigma_mean_rule_mag: rule,
+            mean: mean_est,
             prediction,
             relation,
             cautions,
@@ -361,8 +500,9 @@ impl PulsatorMethod {
         star: &Star,
         epochs: &[Epoch],
         notes: &mut Vec<String>,
-    ) -> Result<(Prediction, Option<DistanceBudget>, Option<f64>)> {
+    ) -> Result<StarPrediction> {
         let law = &star.relation(&self.config).map_err(|e| name_target(e, s))?;
+        let cal = self.config.calibration_floor(&law.relation);
         let mean = star.mean_mag.ok_or_else(|| {
             RungError::invalid(
                 format!("mean_mag of target '{}'", s.target.name),
@@ -371,6 +511,7 @@ impl PulsatorMethod {
         })?;
         let mut phases = Vec::with_capacity(epochs.len());
         let mut sigmas = Vec::with_capacity(epochs.len());
+        let mut phase_sigma_max: f64 = 0.0;
         for ep in epochs {
             if !(ep.snr.is_finite() && ep.snr > 0.0) {
                 return Err(RungError::invalid(
@@ -384,6 +525,7 @@ impl PulsatorMethod {
             }
             let b = crate::astro::bary::bjd_tdb(s.site, ep.time, &star.place)?;
             phases.push(star.ephemeris.phase(&b));
+            phase_sigma_max = phase_sigma_max.max(star.ephemeris.phase_sigma(&b));
             sigmas.push(sigma_mag_from_snr(ep.snr));
         }
         let hours_needed = epochs.iter().map(|e| e.visit_s).sum::<f64>() / 3600.0;
@@ -395,26 +537,67 @@ impl PulsatorMethod {
             0.0,
             law,
             self.config.defaults.extinction_sigma_frac,
+            cal,
         )
         .floor_pct;
-        let (pct, budget, rule) = match mean_mag_sigma(&phases, &sigmas, k) {
-            Ok(sm) => {
+        // The mean magnitude: the intensity mean of a K-harmonic fit, or
+        // the points through the class's template in this band (while the
+        // ephemeris gives the phases), whichever is the more precise.
+        let model = sinusoid_model(mean, star.amplitude_mag, k);
+        let fourier = intensity_mean_sigma(&phases, &sigmas, k, &model);
+        let template = self
+            .config
+            .template_for(law.relation.class, &law.relation.band)
+            .cloned();
+        let template_sigma = match &template {
+            Some(t) if phase_sigma_max <= self.config.defaults.stale_phase => {
+                template_mean_sigma(&sigmas, t.epoch_sigma_mag).ok()
+            }
+            Some(_) => {
+                notes.push(format!(
+                    "the {} template is not used: the ephemeris's phase error reaches {:.3} cycle at the visits (a template needs the phase)",
+                    law.relation.band, phase_sigma_max
+                ));
+                None
+            }
+            None => None,
+        };
+        let offset = intensity_mean_of(&sinusoid_model(0.0, star.amplitude_mag, 1));
+        let est = match (&fourier, template_sigma) {
+            (Ok(f), Some(t)) if t < *f => Some(("template", t)),
+            (Ok(f), _) => Some(("fourier", *f)),
+            (Err(_), Some(t)) => Some(("template", t)),
+            (Err(_), None) => None,
+        };
+        let mean_est = est.map(|(from, sm)| MeanEstimate {
+            sigma_mag: sm,
+            from: from.to_string(),
+            fourier_sigma_mag: fourier.as_ref().ok().copied(),
+            template_sigma_mag: template_sigma,
+            template_epoch_sigma_mag: template.as_ref().map(|t| t.epoch_sigma_mag),
+            template_source: template.as_ref().map(|t| t.source.clone()),
+            intensity_minus_magnitude_mag: offset,
+        });
+        let (pct, budget, rule) = match (&mean_est, fourier) {
+            (Some(m), _) => {
                 let b = distance_budget(
                     mean,
                     star.ephemeris.period_d,
                     star.extinction_mag,
-                    sm,
+                    m.sigma_mag,
                     law,
                     self.config.defaults.extinction_sigma_frac,
+                    cal,
                 );
                 let rms = (sigmas.iter().map(|x| x * x).sum::<f64>() / sigmas.len() as f64).sqrt();
                 let r = mean_mag_sigma_rule(rms, sigmas.len(), k);
                 (b.distance_precision_pct, Some(b), Some(r))
             }
-            Err(e) => {
+            (None, Err(e)) => {
                 notes.push(format!("{e}: no distance precision from these epochs"));
                 (f64::INFINITY, None, None)
             }
+            (None, Ok(_)) => (f64::INFINITY, None, None),
         };
         let verdict = match s.target.goal_pct {
             _ if !pct.is_finite() => Verdict::NeedsMoreSeasons { seasons: None },
@@ -435,6 +618,7 @@ impl PulsatorMethod {
             },
             budget,
             rule,
+            mean_est,
         ))
     }
 
@@ -449,6 +633,17 @@ impl PulsatorMethod {
     /// per bin) and the prediction from the actual phases decides; the SNR is
     /// raised up to twice if uneven phases fall short.
     pub fn goal_report(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        goal_pct: f64,
+    ) -> Result<PhaseReport> {
+        let r = self.goal_plan_report(s, em, goal_pct)?;
+        Ok(self.add_discovery(s, Some(em), r))
+    }
+
+    /// [`Self::goal_report`] without the discovery cadence.
+    fn goal_plan_report(
         &self,
         s: &Setting,
         em: &dyn ExposureModel,
@@ -484,6 +679,7 @@ impl PulsatorMethod {
             0.0,
             law,
             d.extinction_sigma_frac,
+            self.config.calibration_floor(&law.relation),
         );
         let mut goal_t = s.target.clone();
         goal_t.goal_pct = Some(goal_pct);
@@ -494,11 +690,12 @@ impl PulsatorMethod {
         if goal_pct <= b0.floor_pct * (1.0 + 1e-9) {
             let mut r = self.analyse_with(&s2, Some(em), self.bins, self.snr)?;
             r.notes.push(format!(
-                "goal {goal_pct} % is out of reach for this method: the relation's scatter ({:.3} mag) and calibration ({:.3} mag), the metallicity term ({:.3} mag) and the extinction error ({:.3} mag) set a floor of {:.2} % whatever the points",
+                "goal {goal_pct} % is out of reach for this method: the relation's scatter ({:.3} mag) and calibration ({:.3} mag), the metallicity term ({:.3} mag), the extinction error ({:.3} mag) and the photometric calibration floor ({:.3} mag) set a floor of {:.2} % whatever the points",
                 b0.sigma_scatter_mag,
                 b0.sigma_zero_point_mag,
                 b0.sigma_feh_mag,
                 b0.sigma_ext_mag,
+                b0.sigma_cal_mag,
                 b0.floor_pct
             ));
             if let Some(p) = &mut r.prediction {
@@ -525,6 +722,39 @@ impl PulsatorMethod {
                 "goal",
                 format!("{goal_pct} % would need {n} points; choose a looser goal"),
             ));
+        }
+        // Where the class has a template in this band (published practice in
+        // the near-infrared), fewer epochs may do: each at the SNR whose
+        // error is half the template's (deeper buys little), as many as
+        // (σ² + σ_t²)/σ_m̄,allowed² ask. Taken when it reaches the goal
+        // with fewer points than the Fourier plan.
+        if let Some(t) = self
+            .config
+            .template_for(law.relation.class, &law.relation.band)
+        {
+            let st = t.epoch_sigma_mag;
+            let snr_t = (MAG_PER_INV_SNR / (st / 2.0)).clamp(d.snr_min, d.snr_max);
+            let sp = MAG_PER_INV_SNR / snr_t;
+            let n_t = ((sp * sp + st * st) / (allowed * allowed)).ceil().max(1.0);
+            if n_t < n as f64 {
+                let n_t = n_t as usize;
+                let mut r = self.analyse_with(&s2, Some(em), n_t, snr_t)?;
+                let by_template = r.mean.as_ref().is_some_and(|m| m.from == "template");
+                let reaches = r
+                    .prediction
+                    .as_ref()
+                    .is_some_and(|p| p.distance_precision_pct <= goal_pct);
+                if by_template && reaches {
+                    r.notes.push(format!(
+                        "goal {goal_pct} %: {n_t} epoch(s) through the {} template at SNR {snr_t:.0} each (σ ≈ {sp:.4} mag per point, template {st} mag per epoch; {}) instead of {n} points for a Fourier fit",
+                        law.relation.band, t.source
+                    ));
+                    if let Some(p) = &mut r.prediction {
+                        p.notes = r.notes.clone();
+                    }
+                    return Ok(r);
+                }
+            }
         }
         let mut r = self.analyse_with(&s2, Some(em), n, snr)?;
         for _ in 0..2 {
@@ -581,7 +811,7 @@ impl Method for PulsatorMethod {
     /// One visit per phase bin (`bins`, default 10) on the fewest nights of
     /// the range, exposures sized for the per-point SNR `snr` at the faint phase.
     fn propose(&self, s: &Setting, em: &dyn ExposureModel) -> Result<Vec<Epoch>> {
-        Ok(self.analyse(s, Some(em))?.epochs)
+        Ok(self.analyse_with(s, Some(em), self.bins, self.snr)?.epochs)
     }
 
     /// σ_d/d from the epochs' phases (BJD_TDB) and SNRs through the Fourier-fit
@@ -598,7 +828,7 @@ impl Method for PulsatorMethod {
         Star::from_target(s.target)?
             .relation(&self.config)
             .map_err(|e| name_target(e, s))?;
-        let r = self.goal_report(s, em, goal_pct)?;
+        let r = self.goal_plan_report(s, em, goal_pct)?;
         r.prediction.ok_or_else(|| {
             RungError::invalid(
                 format!("target '{}'", s.target.name),

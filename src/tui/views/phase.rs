@@ -2,7 +2,7 @@
 //! `PulsatorMethod::analyse`), night by night, with the planned visits and what
 //! the points buy.
 
-use crate::tui::state::{MethodBody, State, View, detail_offset, detail_rows};
+use crate::tui::state::{MethodBody, State, View, detail_offset, detail_rows, phase_extra_rows};
 use crate::tui::views::fmt::{hm, num, pct, put};
 use crate::tui::views::scroll_mark;
 use ratatui::buffer::Buffer;
@@ -85,9 +85,86 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         put(buf, strip_x + c, area.y + 2, "╷", 1, th.header());
     }
     let foot = 3u16;
-    let rows = detail_rows(View::Phase, area.height);
+    let extra = phase_extra_rows(r);
+    let rows = detail_rows(View::Phase, area.height).saturating_sub(extra);
     let off = detail_offset(s.detail_scroll, rows, r.windows.len());
     let fy = area.y + area.height - foot;
+    // The refitted ephemeris and the period search, above the footer.
+    let mut ey = fy - extra as u16;
+    if let Some(u) = &r.star.ephemeris_update {
+        let first = u.progress.first().map(|p| p.period_err_d);
+        let line = format!(
+            "O−C {} maxima · P {:.6}±{:.6} d (was {}±{}) · E ±{:.4} d{}",
+            u.points.len(),
+            u.new.period_d,
+            u.new.period_err_d,
+            u.old.period_d,
+            u.old.period_err_d,
+            u.new.epoch_err_d,
+            first
+                .map(|f| format!(" · σP {f:.1e}→{:.1e}", u.new.period_err_d))
+                .unwrap_or_default()
+        );
+        put(buf, area.x, ey, &line, area.width, th.text());
+        ey += 1;
+    }
+    if let Some(d) = &r.discovery {
+        let line = format!(
+            "search {:.4}–{:.4} d · {} obs over {:.1} d · σP {:.1e}–{:.1e} d · {}/{} found{}",
+            d.period_min_d,
+            d.period_max_d,
+            d.bjd_tdb.len(),
+            d.span_d,
+            d.period_err_at_min_d,
+            d.period_err_at_max_d,
+            d.recovered,
+            d.trials,
+            if d.alias_free {
+                " · alias-free"
+            } else {
+                " · ALIASED"
+            }
+        );
+        put(
+            buf,
+            area.x,
+            ey,
+            &line,
+            area.width,
+            if d.alias_free { th.text() } else { th.warn() },
+        );
+        let alias = d
+            .alias_peaks
+            .iter()
+            .find(|p| !p.true_peak)
+            .map(|p| format!(" alias {:.4} d {:.0}%", p.period_d, 100.0 * p.relative))
+            .unwrap_or_default();
+        let head = "pgram ";
+        let w = (area.width as usize)
+            .saturating_sub(head.len() + alias.chars().count())
+            .max(4);
+        let n = d.periodogram_power.len();
+        let bars = ['▁', '▂', '▃', '▄', '▅', '▆', '▇', '█'];
+        let spark: String = (0..if n == 0 { 0 } else { w })
+            .map(|c| {
+                let a = c * n / w;
+                let b = ((c + 1) * n / w).max(a + 1).min(n);
+                let v = d.periodogram_power[a.min(n - 1)..b.max(a.min(n - 1) + 1)]
+                    .iter()
+                    .cloned()
+                    .fold(0.0, f64::max);
+                bars[((v * 7.0).round() as usize).min(7)]
+            })
+            .collect();
+        put(
+            buf,
+            area.x,
+            ey + 1,
+            &format!("{head}{spark}{alias}"),
+            area.width,
+            th.dim(),
+        );
+    }
     for (k, w) in r.windows.iter().skip(off).take(rows).enumerate() {
         let y = area.y + 3 + k as u16;
         let label = format!(
@@ -146,7 +223,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     // What the points buy.
     let buy = match (&r.prediction, &r.budget) {
         (Some(pr), b) => format!(
-            "σd/d {}{} · {} h · {}",
+            "σd/d {}{} · {} h · {}{}",
             pct(pr.distance_precision_pct, 2),
             b.as_ref()
                 .map(|b| format!(
@@ -156,7 +233,18 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
                 ))
                 .unwrap_or_default(),
             num(Some(pr.hours_needed), 1),
-            pr.verdict.text()
+            pr.verdict.text(),
+            b.as_ref()
+                .map(|b| format!(
+                    " · cal {:.3} mag{}",
+                    b.sigma_cal_mag,
+                    if r.mean.as_ref().is_some_and(|m| m.from == "template") {
+                        " · mean by template"
+                    } else {
+                        ""
+                    }
+                ))
+                .unwrap_or_default()
         ),
         (None, _) => match r.notes.iter().find_map(|n| n.strip_suffix(": no distance")) {
             // No relation applies (period outside its range, no class).
