@@ -262,12 +262,6 @@ pub fn run(a: Args) -> Result<()> {
     if let Some(text) = &a.period_range {
         m.discover_range = Some(parse_period_range(text)?);
     }
-    if let (Some((lo, hi)), true) = (
-        m.discover_range,
-        target.period_d.is_none() || target.epoch_max_bjd.is_none(),
-    ) {
-        return run_candidate(&st, &m, target, option_notes, lo, hi, a.json);
-    }
     let st = st.with_method(Arc::new(m.clone()));
     // A field: by --field, or a --target that names one.
     let field_name = match (&a.field, &a.aim.target) {
@@ -293,6 +287,8 @@ pub fn run(a: Args) -> Result<()> {
             ("--feh-err-dex", a.feh_err_dex.is_some()),
             ("--extinction-mag", a.extinction_mag.is_some()),
             ("--at", a.at.is_some()),
+            ("--maxima", a.maxima.is_some()),
+            ("--period-range", a.period_range.is_some()),
         ]
         .into_iter()
         .filter_map(|(f, given)| given.then_some(f))
@@ -307,6 +303,12 @@ pub fn run(a: Args) -> Result<()> {
         return run_field(&st, &programme, &name, a.goal.goal_pct, a.json);
     }
     let (mut target, option_notes) = build_target(&a)?;
+    if let (Some((lo, hi)), true) = (
+        m.discover_range,
+        target.period_d.is_none() || target.epoch_max_bjd.is_none(),
+    ) {
+        return run_candidate(&st, &m, target, option_notes, lo, hi, a.json);
+    }
     if a.goal.goal_pct.is_some() {
         target.goal_pct = a.goal.goal_pct;
     }
