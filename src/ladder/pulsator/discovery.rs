@@ -263,7 +263,8 @@ pub fn alias_peaks(
     let s = vec![1.0; t_d.len()];
     check_light_curve(t_d, &m, &s)?;
     let span = span_of(t_d).max(1e-6);
-    let step = 1.0 / (10.0 * span);
+    // A grid of 1/(10 T), finer when the range is narrow (200 points at least).
+    let step = (1.0 / (10.0 * span)).min((f_max - f_min) / 200.0);
     let grid: Vec<f64> = (0..)
         .map(|i| f_min + step * i as f64)
         .take_while(|f| *f <= f_max)
@@ -518,7 +519,8 @@ pub fn plan_discovery(inp: &DiscoveryInput) -> Result<DiscoveryPlan> {
     // The periodogram of the test star on a coarse grid: the largest power
     // in each of 120 cells, so that no peak narrower than a cell is lost.
     let cells = 120;
-    let fine = 1.0 / (10.0 * span_d.max(1e-6));
+    // At least two samples per cell, however narrow the range.
+    let fine = (1.0 / (10.0 * span_d.max(1e-6))).min((f_hi - f_lo) / (2.0 * cells as f64));
     let ones = vec![1.0; rel.len()];
     let m: Vec<f64> = rel
         .iter()

@@ -94,15 +94,14 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     if let Some(u) = &r.star.ephemeris_update {
         let first = u.progress.first().map(|p| p.period_err_d);
         let line = format!(
-            "O−C {} maxima · P {:.6}±{:.6} d (was {}±{}) · E ±{:.4} d{}",
+            "O−C {} max · P {:.6}±{:.6} d (was {}) · E ±{:.4} d{}",
             u.points.len(),
             u.new.period_d,
             u.new.period_err_d,
             u.old.period_d,
-            u.old.period_err_d,
             u.new.epoch_err_d,
             first
-                .map(|f| format!(" · σP {f:.1e}→{:.1e}", u.new.period_err_d))
+                .map(|f| format!(" · σP {f:.0e}→{:.0e}", u.new.period_err_d))
                 .unwrap_or_default()
         );
         put(buf, area.x, ey, &line, area.width, th.text());
@@ -110,7 +109,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     }
     if let Some(d) = &r.discovery {
         let line = format!(
-            "search {:.4}–{:.4} d · {} obs over {:.1} d · σP {:.1e}–{:.1e} d · {}/{} found{}",
+            "search {:.4}–{:.4} d · {} obs/{:.0} d · σP {:.0e}–{:.0e} d · {}/{}{}",
             d.period_min_d,
             d.period_max_d,
             d.bjd_tdb.len(),
