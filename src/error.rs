@@ -91,6 +91,10 @@ pub enum RungError {
         /// Its status code.
         status: i32,
     },
+    /// The distance ladder cannot answer: a link of the chain is open, or
+    /// the chain cannot be solved.
+    #[error(transparent)]
+    Ladder(#[from] crate::ladder::chain::ChainError),
     /// A file could not be read or written.
     #[error("{path}: {source}")]
     Io {

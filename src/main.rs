@@ -28,6 +28,7 @@ fn main() -> ExitCode {
         Some(Command::Plan(a)) => cli::plan::run_plan(*a),
         Some(Command::Next(a)) => cli::next::run(*a),
         Some(Command::Budget(a)) => cli::budget::run(*a),
+        Some(Command::Ladder(a)) => cli::ladder::run(*a),
         Some(Command::Snr(a)) => cli::snr::run_snr(a),
         Some(Command::Exptime(a)) => cli::snr::run_exptime(a),
         Some(Command::Season(a)) => cli::season::run(a),

@@ -10,9 +10,9 @@
 use std::path::Path;
 use std::process::Command;
 
-const COMMANDS: [&str; 12] = [
+const COMMANDS: [&str; 13] = [
     "where", "night", "season", "snr", "exptime", "plan", "budget", "parallax", "phase", "chase",
-    "tui", "next",
+    "tui", "next", "ladder",
 ];
 
 fn help(args: &[&str]) -> String {

@@ -3,6 +3,7 @@
 pub mod args;
 pub mod budget;
 pub mod chase;
+pub mod ladder;
 pub mod next;
 pub mod night;
 pub mod parallax;
@@ -53,6 +54,8 @@ pub enum Command {
     Next(Box<next::Args>),
     /// What each target's distance goal costs (weather, overheads), and which goals the hours asked meet.
     Budget(Box<budget::Args>),
+    /// The distance ladder: anchors, host fields, calibrators and Hubble flow in one fit; an end point's error budget by rung and what the next hour buys.
+    Ladder(Box<ladder::Args>),
     /// Signal-to-noise of an exposure on a star under tonight's sky.
     Snr(snr::SnrArgs),
     /// Exposure time that reaches a signal-to-noise on a star under tonight's sky.
@@ -175,6 +178,13 @@ pub const SHOWN_NOTES: usize = 50;
 pub fn load_targets(path: &Path) -> Result<Vec<rung::io::targets::Target>> {
     let mut targets = Vec::new();
     stream_targets(path, &mut |t| targets.push(t))?;
+    // Links name other rows: checked once every row is read (warnings; the
+    // distance ladder refuses what it cannot close).
+    let mut notes = Notes::default();
+    for w in rung::io::links::check(&targets, path, None) {
+        notes.note(&w, false, None);
+    }
+    notes.finish();
     Ok(targets)
 }
 

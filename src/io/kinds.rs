@@ -86,6 +86,7 @@ kinds! {
     /// Trigonometric parallax.
     Parallax = "parallax", '◆', "trigonometric parallax", &[
         ("parallax_mas", Required("is required for a parallax target")),
+        ("parallax_err_mas", Optional),
         ("pm_ra_masyr", Optional),
         ("pm_dec_masyr", Optional),
         ("epoch_yr", Optional),
@@ -101,6 +102,8 @@ kinds! {
         ("epoch_max_bjd", Required("is required for a pulsator (BJD_TDB of a maximum)")),
         ("period_err_d", Optional),
         ("amplitude_mag", Optional),
+        ("parallax_mas", Optional),
+        ("parallax_err_mas", Optional),
         ("mean_mag", Optional),
         ("extinction_mag", Optional),
         ("class", Optional),
@@ -120,6 +123,8 @@ kinds! {
         ("classification", Optional),
         ("host_mu_mag", Optional),
         ("host_mu_err_mag", Optional),
+        ("host", Optional),
+        ("peak_err_mag", Optional),
     ];
     /// A host galaxy or cluster: the field its pulsators share (one pointing
     /// serves them; their distances combine into the field's).
@@ -432,6 +437,18 @@ pub const COLUMNS: &[Column] = &[
         need: Optional,
         get: |t| Cell::num_or_empty(t.parallax_mas),
         set: |t, c| t.parallax_mas = c.num(),
+    },
+    Column {
+        key: "parallax_err_mas",
+        unit: "mas",
+        about: "a measured parallax's error (the ladder takes it as given)",
+        ty: Ty::Number,
+        default: "",
+        bounds: &[Bound::above(0.0, "must be positive: a parallax error of zero would fix the ladder by itself")],
+        every_kind: false,
+        need: Optional,
+        get: |t| Cell::num_or_empty(t.parallax_err_mas),
+        set: |t, c| t.parallax_err_mas = c.num(),
     },
     Column {
         key: "pm_ra_masyr",
@@ -794,6 +811,35 @@ pub const COLUMNS: &[Column] = &[
         set: |t, c| t.host_mu_err_mag = c.num(),
     },
     Column {
+        key: "host",
+        unit: "name",
+        about: "the field the host distance comes from (a calibrator)",
+        ty: Ty::Text,
+        default: "",
+        bounds: &[],
+        every_kind: false,
+        need: Optional,
+        get: |t| text_or_empty(&t.host),
+        set: |t, c| t.host = c.text(),
+    },
+    Column {
+        key: "peak_err_mag",
+        unit: "mag",
+        about: "a supernova already observed: its fitted peak's error (the ladder takes it as given)",
+        ty: Ty::Number,
+        default: "",
+        bounds: &[Bound::within(
+            0.0,
+            2.0,
+            "is not the error of a fitted peak (above 0, at most 2 mag)",
+        )
+        .open_min()],
+        every_kind: false,
+        need: Optional,
+        get: |t| Cell::num_or_empty(t.peak_err_mag),
+        set: |t, c| t.peak_err_mag = c.num(),
+    },
+    Column {
         key: "goal_pct",
         unit: "%",
         about: "distance goal σd/d, %",
@@ -878,6 +924,9 @@ pub struct Target {
     pub kind: Kind,
     /// Expected parallax, milliarcseconds.
     pub parallax_mas: Option<f64>,
+    /// Error of a parallax already measured, milliarcseconds (the ladder
+    /// takes the parallax as given instead of planning epochs).
+    pub parallax_err_mas: Option<f64>,
     /// Proper motion in RA, μα* = μα cos δ, mas/yr.
     pub pm_ra_masyr: f64,
     /// Proper motion in Dec, mas/yr.
@@ -937,6 +986,12 @@ pub struct Target {
     pub host_mu_mag: Option<f64>,
     /// Its uncertainty, mag.
     pub host_mu_err_mag: Option<f64>,
+    /// The field (host galaxy) whose distance calibrates this transient;
+    /// empty: none (a link checked at load, [`crate::io::links`]).
+    pub host: String,
+    /// Error of the standardized peak of a supernova already observed, mag
+    /// (the ladder takes it as given instead of planning a chase).
+    pub peak_err_mag: Option<f64>,
     /// Distance-precision goal, percent.
     pub goal_pct: Option<f64>,
     /// Priority (higher first), default 1.
@@ -959,6 +1014,7 @@ impl Target {
             dec_deg,
             kind: DEFAULT_KIND,
             parallax_mas: None,
+            parallax_err_mas: None,
             pm_ra_masyr: 0.0,
             pm_dec_masyr: 0.0,
             epoch_yr: 2000.0,
@@ -987,6 +1043,8 @@ impl Target {
             classification: String::new(),
             host_mu_mag: None,
             host_mu_err_mag: None,
+            host: String::new(),
+            peak_err_mag: None,
             goal_pct: None,
             priority: 1.0,
             notes: String::new(),

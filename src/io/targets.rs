@@ -736,6 +736,9 @@ pub fn load_with_progress(path: &Path, on_progress: &mut dyn FnMut(u64, u64)) ->
         &mut |w| warnings.push(w),
         on_progress,
     )?;
+    // Links name other rows: checked once every row is read.
+    let links = crate::io::links::check(&out.targets, path, None);
+    out.warnings.extend(links);
     Ok(out)
 }
 
@@ -805,15 +808,20 @@ fn read_toml_text(path: &Path) -> Result<String> {
 /// only the edits changed. The text is held whole (a programme being edited
 /// is read whole anyway).
 pub fn load_keeping(path: &Path) -> Result<Loaded> {
+    let with_links = |mut l: Loaded, text: &str| {
+        let links = crate::io::links::check(&l.targets, path, Some(text));
+        l.warnings.extend(links);
+        l
+    };
     if is_toml(path) {
         let text = read_toml_text(path)?;
-        return Ok(toml_text(&text, path, true));
+        return Ok(with_links(toml_text(&text, path, true), &text));
     }
     let f = open_file(path)?;
     drop(f);
     let bytes = std::fs::read(path).map_err(|e| RungError::io(path, e))?;
     match String::from_utf8(bytes) {
-        Ok(text) => Ok(csv_text(&text, path, true)),
+        Ok(text) => Ok(with_links(csv_text(&text, path, true), &text)),
         // A file with rows that are not UTF-8: read as a stream, without layout.
         Err(_) => load(path),
     }

@@ -425,6 +425,72 @@ pub trait Method: Send + Sync {
     /// The method itself, for a command or view that shows its own report
     /// (see [`MethodSet::get`]).
     fn as_any(&self) -> &dyn std::any::Any;
+    /// What one more visit like those of `planned` buys: the prediction with
+    /// it added (its hours and error terms), for the distance ladder's "what
+    /// the next hour buys" (`ladder::chain`). The default tries a repeat of
+    /// each of up to [`ONE_MORE_TRIES`] planned epochs spread through the
+    /// plan and keeps the one whose fall in σ_d/d per added hour is largest;
+    /// a method may override it with a better-placed visit. `None` when
+    /// nothing is planned or no repeat helps.
+    fn one_more(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        planned: &Prediction,
+    ) -> Result<Option<Prediction>> {
+        one_more_by_repeat(self, s, em, planned)
+    }
+}
+
+/// Planned epochs the default [`Method::one_more`] tries to repeat.
+pub const ONE_MORE_TRIES: usize = 6;
+
+/// The default [`Method::one_more`]: repeat, in turn, up to
+/// [`ONE_MORE_TRIES`] planned epochs spread through the plan (first, last
+/// and between) and keep the repeat with the largest fall in σ_d/d per added
+/// hour.
+pub fn one_more_by_repeat<M: Method + ?Sized>(
+    m: &M,
+    s: &Setting,
+    em: &dyn ExposureModel,
+    planned: &Prediction,
+) -> Result<Option<Prediction>> {
+    let n = planned.epochs.len();
+    if n == 0 || !planned.distance_precision_pct.is_finite() {
+        return Ok(None);
+    }
+    let tries = ONE_MORE_TRIES.min(n);
+    let mut picks: Vec<usize> = (0..tries)
+        .map(|k| {
+            if tries == 1 {
+                0
+            } else {
+                k * (n - 1) / (tries - 1)
+            }
+        })
+        .collect();
+    picks.dedup();
+    // The same epochs through `predict`, so the comparison is like for like.
+    let base = m.predict(s, em, &planned.epochs)?;
+    if !base.distance_precision_pct.is_finite() {
+        return Ok(None);
+    }
+    let mut best: Option<(f64, Prediction)> = None;
+    for i in picks {
+        let mut epochs = planned.epochs.clone();
+        epochs.push(planned.epochs[i].clone());
+        let p = m.predict(s, em, &epochs)?;
+        let dh = p.hours_needed - base.hours_needed;
+        let gain = base.distance_precision_pct - p.distance_precision_pct;
+        if !(dh > 0.0 && gain > 0.0 && p.distance_precision_pct.is_finite()) {
+            continue;
+        }
+        let rate = gain / dh;
+        if best.as_ref().is_none_or(|(r, _)| rate > *r) {
+            best = Some((rate, p));
+        }
+    }
+    Ok(best.map(|(_, p)| p))
 }
 
 /// The distance goal of a target (percent): its own `goal_pct`, else the

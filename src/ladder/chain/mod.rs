@@ -9,11 +9,15 @@
 //! end point's error budget by rung and term is exact (docs/science.md,
 //! The ladder).
 
+pub mod build;
 pub mod model;
 pub mod next;
+pub mod report;
 
+pub use build::{Ladder, Member, Role, build};
 pub use model::{
     Budget, Chain, ChainError, EndPoint, Observation, Param, Rung, Share, Solution, Term,
     h0_from_intercept, parallax_modulus, parallax_modulus_bias_mag,
 };
 pub use next::{Change, Ranked, Step, rank};
+pub use report::{DistanceRow, LadderReport, report, report_of};

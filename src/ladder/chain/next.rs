@@ -19,11 +19,11 @@ pub enum Change {
         /// Its terms after the step.
         terms: Vec<Term>,
     },
-    /// One observation more (a new star, calibrator or anchor like those
-    /// planned).
+    /// Observations more (a new star, calibrator or anchor like those
+    /// planned; an anchor brings its parallax and its mean magnitude).
     Added {
-        /// The new observation.
-        observation: Box<Observation>,
+        /// The new observations.
+        observations: Vec<Observation>,
     },
 }
 
@@ -66,7 +66,7 @@ impl Chain {
                     o.terms = terms.clone();
                 }
             }
-            Change::Added { observation } => c.observations.push((**observation).clone()),
+            Change::Added { observations } => c.observations.extend(observations.iter().cloned()),
         }
         c
     }

@@ -1,0 +1,827 @@
+//! The ladder of a programme: its targets and their links turned into the
+//! observations of [`Chain`], each observation's σ from its method's plan
+//! (the same plan every view and the budget show), and the steps an
+//! observer could take next (docs/science.md, The ladder).
+//!
+//! Who is what:
+//!
+//! - a **pulsator with a parallax** (`parallax_mas` on a pulsator row) is an
+//!   anchor: its parallax (as planned by the parallax method, or as given by
+//!   `parallax_err_mas`) fixes its node's modulus, and its mean magnitude
+//!   ties its relation's zero point to it;
+//! - a **pulsator** without one is a host star: its node (its field, or the
+//!   star standing alone) gets a distance through its relation;
+//! - a **transient** with a `host` link (or a host distance given with
+//!   `host_mu_mag` ± `host_mu_err_mag`) is a calibrator of its
+//!   standardization's peak; one with a redshift and no host is in the
+//!   Hubble flow;
+//! - each relation used gets the prior of its published slope.
+//!
+//! An observation's own error terms come from its method's prediction; the
+//! terms the chain replaces are left out: every *shared* term (a zero point),
+//! the configured relation's zero-point and slope errors inside a pulsator's
+//! relation term (the star keeps the relation's scatter), a calibrator's given
+//! host distance and a Hubble-flow supernova's zero point.
+
+use super::model::{Chain, ChainError, MAG_PER_LN, Observation, Param, Rung, Term};
+use super::next::{Change, Step};
+use crate::error::{Location, Result, RungError};
+use crate::io::targets::{Kind, Target};
+use crate::ladder::parallax::ParallaxMethod;
+use crate::ladder::pulsator::PulsatorMethod;
+use crate::ladder::transient::{TransientMethod, ZeroPoint};
+use crate::ladder::{ErrorTerm, Method, Prediction};
+use crate::programme::Settings;
+use serde::Serialize;
+use std::collections::BTreeMap;
+use std::path::Path;
+
+/// What a target is on the ladder.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Role {
+    /// A pulsator with a parallax.
+    Anchor,
+    /// A pulsator whose node takes its distance from its relation.
+    HostStar,
+    /// A supernova in a host with a distance.
+    Calibrator,
+    /// A supernova whose redshift gives its distance.
+    HubbleFlow,
+}
+
+impl Role {
+    /// The role in words.
+    pub fn text(self) -> &'static str {
+        match self {
+            Role::Anchor => "anchor",
+            Role::HostStar => "host star",
+            Role::Calibrator => "calibrator",
+            Role::HubbleFlow => "Hubble flow",
+        }
+    }
+}
+
+/// One target on the ladder.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Member {
+    /// Target name.
+    pub target: String,
+    /// Its kind.
+    pub kind: Kind,
+    /// Its role.
+    pub role: Role,
+    /// The node it measures or sits in (its field, its host, itself).
+    pub node: Option<String>,
+    /// The relation (pulsators) or standardization (supernovae) it uses.
+    pub relation: String,
+    /// Its observations, as indices into the chain.
+    pub observations: Vec<usize>,
+    /// Telescope hours its plan takes (all its observations).
+    pub hours: f64,
+}
+
+/// The ladder of a programme: the chain, who is on it and what was left out.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Ladder {
+    /// The observations.
+    pub chain: Chain,
+    /// The targets on the ladder, in file order.
+    pub members: Vec<Member>,
+    /// Targets of the programme left off the ladder, with the reason.
+    pub left_out: Vec<(String, String)>,
+    /// Warnings for the observer (anchors whose parallax is too poor for a
+    /// linear transform, plans that failed).
+    pub notes: Vec<String>,
+    /// What one more epoch, star, calibrator or anchor would do.
+    pub steps: Vec<Step>,
+    /// H0 of the distance scale the supernova values are written on, km/s/Mpc.
+    pub h0_ref_km_s_mpc: f64,
+}
+
+/// A planned observation of one target: its prediction and what one more
+/// visit would give.
+struct Planned {
+    prediction: Prediction,
+    one_more: Option<Prediction>,
+    /// Whether the goal was out of reach and the method's proposal is used.
+    fallback: bool,
+}
+
+/// The method's plan of a target (the budget's and the views': goal mode
+/// when it has a goal, else the proposal) and its one-more-visit step.
+fn plan(settings: &Settings, m: &dyn Method, t: &Target) -> Result<Planned> {
+    let goal = settings.goal_for(t);
+    let t = crate::ladder::with_goal(t, goal);
+    let s = settings.setting(&t);
+    let em = &settings.photometer;
+    let mut prediction = crate::programme::report(settings, &t)?
+        .prediction()
+        .ok_or_else(|| {
+            RungError::invalid(format!("target '{}'", t.name), "its method gives no plan")
+        })?;
+    let mut fallback = false;
+    if prediction.epochs.is_empty() || !prediction.distance_precision_pct.is_finite() {
+        // The goal is out of reach in the range: what the method's own
+        // proposal over the range buys still counts on the ladder.
+        let e = m.propose(&s, em)?;
+        if !e.is_empty() {
+            prediction = m.predict(&s, em, &e)?;
+            fallback = prediction.distance_precision_pct.is_finite();
+        }
+    }
+    let one_more = if prediction.epochs.is_empty() {
+        None
+    } else {
+        m.one_more(&s, em, &prediction)?
+    };
+    Ok(Planned {
+        prediction,
+        one_more,
+        fallback,
+    })
+}
+
+/// An observation's terms less those named (the chain replaces them).
+type TermsOf = Box<dyn Fn(&[&str]) -> Vec<Term>>;
+
+/// The node a pulsator belongs to: its field, else itself.
+fn node_of(t: &Target) -> String {
+    t.name.clone()
+}
+
+/// A pulsator's relation name: its band's period–luminosity relation.
+fn relation_of(t: &Target) -> String {
+    format!("{} band", t.band)
+}
+
+/// The error terms of a prediction the chain keeps for an observation: the
+/// non-shared ones, less those named in `drop`, with a pulsator's relation
+/// term replaced by the relation's scatter.
+fn own_terms(p: &Prediction, drop: &[&str], scatter: Option<f64>) -> Vec<Term> {
+    p.error_terms
+        .iter()
+        .filter(|t: &&ErrorTerm| !t.shared && !drop.contains(&t.name.as_str()))
+        .map(|t| {
+            if scatter.is_some() && t.name == PL_TERM {
+                Term::new("relation scatter", scatter.unwrap_or(0.0))
+            } else {
+                Term::new(t.name.clone(), t.sigma_mag)
+            }
+        })
+        .collect()
+}
+
+/// Fractional parallax error past which an anchor is noted: the linear
+/// transform to a modulus starts to be biased (docs/science.md, The ladder;
+/// 10 % is the common practice for the onset of the Lutz–Kelker bias).
+pub const WARN_PARALLAX_FRAC: f64 = 0.10;
+
+/// Fractional parallax error past which an anchor is left out of the fit
+/// (common practice: parallax samples are cut at 10–20 %; rung takes 20 %).
+pub const MAX_PARALLAX_FRAC: f64 = 0.20;
+
+/// The pulsator method's name for the relation term of a star (its σ_PL:
+/// scatter, zero point and slope errors together).
+const PL_TERM: &str = "period–luminosity relation";
+
+/// Names of transient terms the chain replaces.
+const HOST_TERM: &str = "host distance";
+const PEC_TERM: &str = "peculiar velocity";
+
+fn link_error(file: Option<&Path>, e: RungError) -> RungError {
+    match e {
+        RungError::InFile { loc, msg } => RungError::InFile {
+            loc: Location {
+                file: loc.file.or_else(|| file.map(Path::to_path_buf)),
+                ..loc
+            },
+            msg,
+        },
+        e => e,
+    }
+}
+
+/// Build the ladder of `targets` with the programme's settings. `file`
+/// names the targets file in link errors (with the line of the row, when
+/// the file can be read). A link that names no target, or a target that
+/// cannot be a host, is an error.
+pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Result<Ladder> {
+    let path = file.unwrap_or(Path::new("targets"));
+    if let Some(e) = crate::io::links::check(targets, path, None)
+        .into_iter()
+        .next()
+    {
+        return Err(link_error(file, e));
+    }
+    let by_name: BTreeMap<&str, &Target> = targets.iter().map(|t| (t.name.as_str(), t)).collect();
+    let pm = settings.methods.get::<PulsatorMethod>();
+    let xm = settings.methods.get::<ParallaxMethod>();
+    let tm = settings.methods.get::<TransientMethod>();
+    let mut left_out: Vec<(String, String)> = Vec::new();
+    let mut notes: Vec<String> = Vec::new();
+
+    // The host node of each transient with a host link.
+    let mut host_node: BTreeMap<&str, String> = BTreeMap::new();
+    for t in targets
+        .iter()
+        .filter(|t| t.kind == Kind::Transient && !t.host.is_empty())
+    {
+        let h = by_name[t.host.as_str()];
+        match h.kind {
+            Kind::Pulsator => {
+                host_node.insert(t.name.as_str(), node_of(h));
+            }
+            k => {
+                let line = file
+                    .and_then(|f| std::fs::read_to_string(f).ok().map(|x| (f, x)))
+                    .and_then(|(f, x)| crate::io::links::line_of(&x, f, &t.name));
+                return Err(RungError::InFile {
+                    loc: Location {
+                        file: file.map(Path::to_path_buf),
+                        line,
+                        field: Some("host".into()),
+                    },
+                    msg: format!(
+                        "'{}' is a {} target: a host is a field of pulsators (or a pulsator standing for one)",
+                        h.name,
+                        k.as_str()
+                    ),
+                });
+            }
+        }
+    }
+
+    // Phase 1: pulsators and their parallaxes, planned on all cores.
+    let pulsators: Vec<&Target> = targets
+        .iter()
+        .filter(|t| t.kind == Kind::Pulsator)
+        .collect();
+    type Plans = (Result<Planned>, Option<Result<Planned>>);
+    let plans1: Vec<Plans> = {
+        use rayon::prelude::*;
+        pulsators
+            .par_iter()
+            .map(|t| {
+                let phot = match pm {
+                    Some(m) => plan(settings, m, t),
+                    None => Err(RungError::invalid("pulsator method", "not configured")),
+                };
+                let plx = match (t.parallax_mas, t.parallax_err_mas, xm) {
+                    (Some(_), None, Some(m)) => {
+                        let mut v = (*t).clone();
+                        v.kind = Kind::Parallax;
+                        v.mag = t.mean_mag;
+                        Some(plan(settings, m, &v))
+                    }
+                    _ => None,
+                };
+                (phot, plx)
+            })
+            .collect()
+    };
+
+    let mut chain = Chain::default();
+    let mut members: Vec<Member> = Vec::new();
+    let mut steps: Vec<Step> = Vec::new();
+    let mut relations: BTreeMap<String, (f64, f64)> = BTreeMap::new();
+
+    for (t, (phot, plx)) in pulsators.iter().zip(plans1) {
+        let Some(pmeth) = pm else { break };
+        let Some(mean) = t.mean_mag else {
+            left_out.push((
+                t.name.clone(),
+                "no mean_mag: a pulsator's distance needs its mean magnitude".into(),
+            ));
+            continue;
+        };
+        let (Some(p), Ok(law)) = (t.period_d, pmeth.config.law(&t.band)) else {
+            left_out.push((
+                t.name.clone(),
+                format!("no period–luminosity relation in band {}", t.band),
+            ));
+            continue;
+        };
+        let phot = match phot {
+            Ok(x) => x,
+            Err(e) => {
+                left_out.push((t.name.clone(), format!("its plan failed: {e}")));
+                continue;
+            }
+        };
+        if !phot.prediction.distance_precision_pct.is_finite() {
+            left_out.push((
+                t.name.clone(),
+                "its plan gives no mean magnitude in the range".into(),
+            ));
+            continue;
+        }
+        let rel = relation_of(t);
+        relations.insert(rel.clone(), (law.a, law.a_err));
+        let node = node_of(t);
+        let anchor = t.parallax_mas.is_some();
+        let rung = if anchor { Rung::Anchor } else { Rung::Host };
+        let x = p.log10() - 1.0;
+        let mut obs_idx = Vec::new();
+        let mut hours = 0.0;
+        // The parallax first: it is what makes an anchor.
+        if let Some(plx_mas) = t.parallax_mas {
+            let given = t.parallax_err_mas;
+            let (terms, h, planned) = match (given, plx) {
+                (Some(err), _) => (
+                    vec![Term::new("parallax (given)", MAG_PER_LN * err / plx_mas)],
+                    0.0,
+                    None,
+                ),
+                (None, Some(Ok(pl))) if pl.prediction.distance_precision_pct.is_finite() => {
+                    if pl.fallback {
+                        notes.push(format!(
+                            "{}: its parallax goal is out of reach in the range; the ladder counts what the parallax method's proposal buys ({:.1} %)",
+                            t.name, pl.prediction.distance_precision_pct
+                        ));
+                    }
+                    (
+                        own_terms(&pl.prediction, &[], None),
+                        pl.prediction.hours_needed,
+                        Some(pl),
+                    )
+                }
+                (None, Some(Ok(_))) => {
+                    left_out.push((t.name.clone(), "its parallax plan reaches no precision in the range (give parallax_err_mas for a parallax already measured)".into()));
+                    continue;
+                }
+                (None, Some(Err(e))) => {
+                    left_out.push((t.name.clone(), format!("its parallax plan failed: {e}")));
+                    continue;
+                }
+                (None, None) => {
+                    left_out.push((t.name.clone(), "no parallax method configured".into()));
+                    continue;
+                }
+            };
+            let frac = given.map_or_else(
+                || {
+                    planned
+                        .as_ref()
+                        .map_or(0.0, |p| p.prediction.distance_precision_pct / 100.0)
+                },
+                |e| e / plx_mas,
+            );
+            if frac > MAX_PARALLAX_FRAC {
+                left_out.push((
+                    t.name.clone(),
+                    format!(
+                        "σϖ/ϖ = {:.0} %, past the {:.0} % an anchor may have: the modulus of so poor a parallax is biased beyond what a linear fit carries (Lutz & Kelker 1973)",
+                        100.0 * frac,
+                        100.0 * MAX_PARALLAX_FRAC
+                    ),
+                ));
+                continue;
+            }
+            if frac > WARN_PARALLAX_FRAC {
+                notes.push(format!(
+                    "{}: σϖ/ϖ = {:.0} %, past 10 %: the modulus of its parallax is used to first order; its second-order bias is {:+.3} mag and the Lutz–Kelker bias, which rung does not correct, grows quickly from here",
+                    t.name,
+                    100.0 * frac,
+                    super::model::parallax_modulus_bias_mag(frac)
+                ));
+            }
+            let (mu, _) = super::model::parallax_modulus(plx_mas, 1.0);
+            let j = chain.observations.len();
+            chain.observations.push(Observation {
+                target: t.name.clone(),
+                node: Some(node.clone()),
+                rung: Rung::Anchor,
+                what: "parallax".into(),
+                value_mag: mu,
+                offset_mag: 0.0,
+                coeffs: vec![(Param::Modulus { node: node.clone() }, 1.0)],
+                terms,
+                hours: h,
+            });
+            obs_idx.push(j);
+            hours += h;
+            if let Some(pl) = planned
+                && let Some(more) = &pl.one_more
+            {
+                steps.push(Step {
+                    label: format!("one more parallax epoch of {}", t.name),
+                    rung: Rung::Anchor,
+                    target: t.name.clone(),
+                    hours: (more.hours_needed - pl.prediction.hours_needed).max(0.0),
+                    change: Change::Sharper {
+                        observation: j,
+                        terms: own_terms(more, &[], None),
+                    },
+                });
+            }
+        }
+        let j = chain.observations.len();
+        chain.observations.push(Observation {
+            target: t.name.clone(),
+            node: Some(node.clone()),
+            rung,
+            what: "mean magnitude".into(),
+            value_mag: mean - t.extinction_mag,
+            offset_mag: law.a * x,
+            coeffs: vec![
+                (Param::Modulus { node: node.clone() }, 1.0),
+                (
+                    Param::ZeroPoint {
+                        relation: rel.clone(),
+                    },
+                    1.0,
+                ),
+                (
+                    Param::Slope {
+                        relation: rel.clone(),
+                    },
+                    x,
+                ),
+            ],
+            terms: own_terms(&phot.prediction, &[], Some(law.scatter_mag)),
+            hours: phot.prediction.hours_needed,
+        });
+        obs_idx.push(j);
+        hours += phot.prediction.hours_needed;
+        if let Some(more) = &phot.one_more {
+            steps.push(Step {
+                label: format!("one more light-curve visit of {}", t.name),
+                rung,
+                target: t.name.clone(),
+                hours: (more.hours_needed - phot.prediction.hours_needed).max(0.0),
+                change: Change::Sharper {
+                    observation: j,
+                    terms: own_terms(more, &[], Some(law.scatter_mag)),
+                },
+            });
+        }
+        members.push(Member {
+            target: t.name.clone(),
+            kind: t.kind,
+            role: if anchor { Role::Anchor } else { Role::HostStar },
+            node: Some(node),
+            relation: rel,
+            observations: obs_idx,
+            hours,
+        });
+    }
+    for (rel, (_, a_err)) in &relations {
+        if *a_err > 0.0 {
+            chain.observations.push(Observation {
+                target: rel.clone(),
+                node: None,
+                rung: Rung::Relation,
+                what: "published slope".into(),
+                value_mag: 0.0,
+                offset_mag: 0.0,
+                coeffs: vec![(
+                    Param::Slope {
+                        relation: rel.clone(),
+                    },
+                    1.0,
+                )],
+                terms: vec![Term::new("slope", *a_err)],
+                hours: 0.0,
+            });
+        }
+    }
+
+    // The hosts' expected moduli, for the supernovae's planned values.
+    let host_mu: BTreeMap<String, (f64, f64)> = match chain.solve() {
+        Ok(sol) => sol
+            .params
+            .iter()
+            .zip(&sol.estimate_mag)
+            .enumerate()
+            .filter_map(|(i, (p, v))| match p {
+                Param::Modulus { node } => {
+                    Some((node.clone(), (*v, sol.covariance[i][i].max(0.0).sqrt())))
+                }
+                _ => None,
+            })
+            .collect(),
+        Err(ChainError::BadObservation { target, what, why }) => {
+            return Err(RungError::invalid(
+                format!("ladder observation '{what}' of {target}"),
+                why,
+            ));
+        }
+        Err(_) => BTreeMap::new(),
+    };
+
+    // Phase 2: supernovae.
+    let transients: Vec<&Target> = targets
+        .iter()
+        .filter(|t| t.kind == Kind::Transient)
+        .collect();
+    let h0_ref = tm.map_or(70.0, |m| m.cfg.cosmology.h0_km_s_mpc);
+    if let Some(tmeth) = tm {
+        let std = tmeth.standardizer()?;
+        let zp = ZeroPoint::configured(&tmeth.cfg, tmeth.relation());
+        let sname = tmeth.relation().as_str().to_string();
+        let peak = Param::PeakMag {
+            standardization: sname.clone(),
+        };
+        // What each transient is, and the view of it its method plans.
+        let mut views: Vec<(&Target, Role, Option<String>, Target)> = Vec::new();
+        for t in &transients {
+            let mut v = (*t).clone();
+            if let Some(node) = host_node.get(t.name.as_str()) {
+                match host_mu.get(node) {
+                    Some((mu, s)) => {
+                        v.host_mu_mag = Some(*mu);
+                        v.host_mu_err_mag = Some(*s);
+                    }
+                    None => {
+                        // The host has no distance yet: plan it as a calibrator
+                        // all the same; the chain says what is open.
+                        v.host_mu_mag = Some(t.host_mu_mag.unwrap_or(30.0));
+                        v.host_mu_err_mag = Some(t.host_mu_err_mag.unwrap_or(0.1));
+                    }
+                }
+                views.push((t, Role::Calibrator, Some(node.clone()), v));
+            } else if t.host_mu_mag.is_some() && t.host_mu_err_mag.is_some() {
+                views.push((t, Role::Calibrator, Some(format!("host of {}", t.name)), v));
+            } else if t.redshift.is_some_and(|z| z > 0.0) {
+                views.push((t, Role::HubbleFlow, None, v));
+            } else {
+                left_out.push((
+                    t.name.clone(),
+                    "no host and no redshift: neither a calibrator nor in the Hubble flow".into(),
+                ));
+            }
+        }
+        // A supernova already observed (its peak's error given) is not chased.
+        let sigma_int = std.sigma_int_mag(&tmeth.cfg);
+        let plans2: Vec<Option<Result<Planned>>> = {
+            use rayon::prelude::*;
+            views
+                .par_iter()
+                .map(|(t, _, _, v)| t.peak_err_mag.is_none().then(|| plan(settings, tmeth, v)))
+                .collect()
+        };
+        for ((t, role, node, v), pl) in views.iter().zip(plans2) {
+            let (terms_of, hours, planned): (TermsOf, f64, Option<Planned>) = match (
+                pl,
+                t.peak_err_mag,
+            ) {
+                (None, Some(err)) => (
+                    Box::new(move |_: &[&str]| {
+                        vec![
+                            Term::new("light-curve fit (given)", err),
+                            Term::new("intrinsic scatter", sigma_int),
+                        ]
+                    }),
+                    0.0,
+                    None,
+                ),
+                (Some(Ok(p)), _) if p.prediction.distance_precision_pct.is_finite() => {
+                    let pred = p.prediction.clone();
+                    (
+                        Box::new(move |drop: &[&str]| own_terms(&pred, drop, None)),
+                        p.prediction.hours_needed,
+                        Some(p),
+                    )
+                }
+                (Some(Err(e)), _) => {
+                    left_out.push((t.name.clone(), format!("its chase failed: {e}")));
+                    continue;
+                }
+                _ => {
+                    left_out.push((t.name.clone(), "its chase gives no distance in the range (give peak_err_mag for a supernova already observed)".into()));
+                    continue;
+                }
+            };
+            let mut obs_idx = Vec::new();
+            let (obs, rung) = match role {
+                Role::Calibrator => {
+                    let node = node.clone().unwrap_or_default();
+                    let linked = host_node.contains_key(t.name.as_str());
+                    if !linked {
+                        // A host distance given with the supernova: the node's own row.
+                        obs_idx.push(chain.observations.len());
+                        chain.observations.push(Observation {
+                            target: t.name.clone(),
+                            node: Some(node.clone()),
+                            rung: Rung::Host,
+                            what: "host distance (given)".into(),
+                            value_mag: v.host_mu_mag.unwrap_or(0.0),
+                            offset_mag: 0.0,
+                            coeffs: vec![(Param::Modulus { node: node.clone() }, 1.0)],
+                            terms: vec![Term::new(
+                                "host distance (given)",
+                                v.host_mu_err_mag.unwrap_or(0.0),
+                            )],
+                            hours: 0.0,
+                        });
+                    }
+                    let mu = host_mu
+                        .get(&node)
+                        .map_or(v.host_mu_mag.unwrap_or(0.0), |x| x.0);
+                    (
+                        Observation {
+                            target: t.name.clone(),
+                            node: Some(node.clone()),
+                            rung: Rung::Calibrator,
+                            what: "standardized peak".into(),
+                            value_mag: mu + zp.abs_mag,
+                            offset_mag: 0.0,
+                            coeffs: vec![
+                                (Param::Modulus { node: node.clone() }, 1.0),
+                                (peak.clone(), 1.0),
+                            ],
+                            terms: terms_of(&[HOST_TERM, PEC_TERM]),
+                            hours,
+                        },
+                        Rung::Calibrator,
+                    )
+                }
+                _ => {
+                    let z = t.redshift.unwrap_or(0.0);
+                    let dl = std.cosmology.luminosity_distance_mpc(z)?;
+                    let mu = 5.0 * dl.log10() + 25.0;
+                    (
+                        Observation {
+                            target: t.name.clone(),
+                            node: None,
+                            rung: Rung::HubbleFlow,
+                            what: "standardized peak".into(),
+                            value_mag: mu + zp.abs_mag,
+                            offset_mag: 5.0 * (h0_ref * dl).log10() + 25.0,
+                            coeffs: vec![(peak.clone(), 1.0), (Param::Hubble, -1.0)],
+                            terms: terms_of(&[HOST_TERM]),
+                            hours,
+                        },
+                        Rung::HubbleFlow,
+                    )
+                }
+            };
+            let drop: &[&str] = if rung == Rung::Calibrator {
+                &[HOST_TERM, PEC_TERM]
+            } else {
+                &[HOST_TERM]
+            };
+            let j = chain.observations.len();
+            chain.observations.push(obs);
+            obs_idx.push(j);
+            if let Some(pl) = &planned
+                && let Some(more) = &pl.one_more
+            {
+                steps.push(Step {
+                    label: format!("one more epoch of {}", t.name),
+                    rung,
+                    target: t.name.clone(),
+                    hours: (more.hours_needed - pl.prediction.hours_needed).max(0.0),
+                    change: Change::Sharper {
+                        observation: j,
+                        terms: own_terms(more, drop, None),
+                    },
+                });
+            }
+            members.push(Member {
+                target: t.name.clone(),
+                kind: t.kind,
+                role: *role,
+                node: node.clone(),
+                relation: sname.clone(),
+                observations: obs_idx,
+                hours,
+            });
+        }
+    }
+    steps.extend(like_the_planned(&chain, &members));
+    Ok(Ladder {
+        chain,
+        members,
+        left_out,
+        notes,
+        steps,
+        h0_ref_km_s_mpc: h0_ref,
+    })
+}
+
+/// The median of a list by a key (the lower middle).
+fn median_by<'a, T>(v: &[&'a T], key: impl Fn(&T) -> f64) -> Option<&'a T> {
+    let mut v = v.to_vec();
+    v.sort_by(|a, b| key(a).total_cmp(&key(b)));
+    v.get(v.len().saturating_sub(1) / 2).copied()
+}
+
+/// Steps that add a target like the planned ones: a new anchor like the
+/// median anchor, a new star in each host node like its median star, a new
+/// calibrator in each host node with stars like the median calibrator, a new
+/// Hubble-flow supernova like the median one. Each costs the hours of the
+/// target it copies.
+fn like_the_planned(chain: &Chain, members: &[Member]) -> Vec<Step> {
+    let obs = |m: &Member, what: &str| {
+        m.observations
+            .iter()
+            .map(|j| &chain.observations[*j])
+            .find(|o| o.what == what)
+            .cloned()
+    };
+    let sigma = |m: &Member| {
+        m.observations
+            .iter()
+            .map(|j| chain.observations[*j].sigma_mag().powi(2))
+            .sum::<f64>()
+    };
+    let mut out = Vec::new();
+    let anchors: Vec<&Member> = members.iter().filter(|m| m.role == Role::Anchor).collect();
+    if let Some(a) = median_by(&anchors, sigma) {
+        let node = "a new anchor".to_string();
+        let mut rows: Vec<Observation> = a
+            .observations
+            .iter()
+            .map(|j| chain.observations[*j].clone())
+            .collect();
+        for r in &mut rows {
+            r.target = node.clone();
+            r.node = Some(node.clone());
+            for (p, _) in &mut r.coeffs {
+                if let Param::Modulus { node: n } = p {
+                    *n = node.clone();
+                }
+            }
+        }
+        out.push(Step {
+            label: format!("a new anchor like {}", a.target),
+            rung: Rung::Anchor,
+            target: a.target.clone(),
+            hours: a.hours,
+            change: Change::Added { observations: rows },
+        });
+    }
+    let mut nodes: BTreeMap<&str, Vec<&Member>> = BTreeMap::new();
+    for m in members.iter().filter(|m| m.role == Role::HostStar) {
+        if let Some(n) = &m.node {
+            nodes.entry(n.as_str()).or_default().push(m);
+        }
+    }
+    let cals: Vec<&Member> = members
+        .iter()
+        .filter(|m| m.role == Role::Calibrator)
+        .collect();
+    let cal_nodes: std::collections::BTreeSet<&str> =
+        cals.iter().filter_map(|m| m.node.as_deref()).collect();
+    for (node, stars) in &nodes {
+        // A node no supernova uses is not on the way to any end point but its own.
+        if !cal_nodes.contains(node) {
+            continue;
+        }
+        if let Some(s) = median_by(stars, sigma)
+            && let Some(mut o) = obs(s, "mean magnitude")
+        {
+            o.target = format!("a new star in {node}");
+            out.push(Step {
+                label: format!("a new star in {node} like {}", s.target),
+                rung: Rung::Host,
+                target: node.to_string(),
+                hours: s.hours,
+                change: Change::Added {
+                    observations: vec![o],
+                },
+            });
+        }
+        if let Some(c) = median_by(&cals, sigma)
+            && let Some(mut o) = obs(c, "standardized peak")
+        {
+            o.target = format!("a new calibrator in {node}");
+            o.node = Some(node.to_string());
+            for (p, _) in &mut o.coeffs {
+                if let Param::Modulus { node: n } = p {
+                    *n = node.to_string();
+                }
+            }
+            out.push(Step {
+                label: format!("a new calibrator in {node} like {}", c.target),
+                rung: Rung::Calibrator,
+                target: node.to_string(),
+                hours: c.hours,
+                change: Change::Added {
+                    observations: vec![o],
+                },
+            });
+        }
+    }
+    let flow: Vec<&Member> = members
+        .iter()
+        .filter(|m| m.role == Role::HubbleFlow)
+        .collect();
+    if let Some(f) = median_by(&flow, sigma)
+        && let Some(mut o) = obs(f, "standardized peak")
+    {
+        o.target = "a new Hubble-flow supernova".into();
+        out.push(Step {
+            label: format!("a new Hubble-flow supernova like {}", f.target),
+            rung: Rung::HubbleFlow,
+            target: f.target.clone(),
+            hours: f.hours,
+            change: Change::Added {
+                observations: vec![o],
+            },
+        });
+    }
+    out
+}

@@ -1,0 +1,291 @@
+//! Everything the Ladder view and `rung ladder` show, computed once: the
+//! chosen end point's value, σ and budget by rung and term, every node's and
+//! every supernova's distance with its own and shared σ, the parameters, the
+//! open links, and the steps ranked by what an hour of each buys.
+
+use super::build::{Ladder, Member, build};
+use super::model::{Budget, EndPoint, Observation, Param, Rung, h0_from_intercept};
+use super::next::{Ranked, rank};
+use crate::error::Result;
+use crate::io::targets::Target;
+use crate::ladder::DIST_FRAC_PER_MAG;
+use crate::programme::Settings;
+use serde::Serialize;
+use std::path::Path;
+
+/// A solved parameter.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ParamRow {
+    /// The parameter.
+    #[serde(flatten)]
+    pub param: Param,
+    /// In words.
+    pub text: String,
+    /// Its estimate, mag.
+    pub value_mag: f64,
+    /// Its σ, mag.
+    pub sigma_mag: f64,
+}
+
+/// A link the programme leaves open.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct OpenRow {
+    /// The parameter no observation fixes.
+    #[serde(flatten)]
+    pub param: Param,
+    /// Why.
+    pub why: String,
+}
+
+/// One distance of the ladder with its σ split into own and shared.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct DistanceRow {
+    /// The node or supernova.
+    pub name: String,
+    /// Its rung (anchor or host for a node; calibrator or Hubble flow for a supernova).
+    pub rung: Rung,
+    /// Distance modulus, mag.
+    pub modulus_mag: f64,
+    /// Distance, Mpc: 10^(μ/5 + 1) pc.
+    pub distance_mpc: f64,
+    /// σ of the modulus, mag.
+    pub sigma_mag: f64,
+    /// σ_d/d, percent.
+    pub distance_pct: f64,
+    /// From its own observations, mag.
+    pub own_sigma_mag: f64,
+    /// From the rungs below (shared with every distance calibrated alike), mag.
+    pub shared_sigma_mag: f64,
+    /// Its own part as σ_d/d, percent.
+    pub own_pct: f64,
+    /// Its shared part as σ_d/d, percent.
+    pub shared_pct: f64,
+}
+
+impl DistanceRow {
+    fn from_budget(name: &str, rung: Rung, b: &Budget) -> DistanceRow {
+        let pct = |s: f64| 100.0 * DIST_FRAC_PER_MAG * s;
+        DistanceRow {
+            name: name.to_string(),
+            rung,
+            modulus_mag: b.value_mag,
+            distance_mpc: 10f64.powf(b.value_mag / 5.0 + 1.0) / 1e6,
+            sigma_mag: b.sigma_mag,
+            distance_pct: b.distance_pct,
+            own_sigma_mag: b.own_sigma_mag,
+            shared_sigma_mag: b.shared_sigma_mag,
+            own_pct: pct(b.own_sigma_mag),
+            shared_pct: pct(b.shared_sigma_mag),
+        }
+    }
+}
+
+/// Telescope hours planned on one rung.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RungHours {
+    /// The rung.
+    pub rung: Rung,
+    /// Hours with overheads.
+    pub hours: f64,
+}
+
+/// The ladder's answer for a programme.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct LadderReport {
+    /// The end point asked for (or chosen: H0 when the chain closes to the
+    /// Hubble flow, else the first host of a calibrator, else the first node).
+    pub end_point: Budget,
+    /// The end point in words.
+    pub end_point_text: String,
+    /// H0 from the intercept, km/s/Mpc, when the chain closes to the Hubble flow.
+    pub h0_km_s_mpc: Option<f64>,
+    /// Its σ_H0/H0, percent.
+    pub h0_sigma_pct: Option<f64>,
+    /// The H0 whose distance scale the supernovae's planned values are
+    /// written on (the chase's configuration), km/s/Mpc: with planned values,
+    /// the fit returns it when the anchors agree with the relations'
+    /// published zero points.
+    pub h0_ref_km_s_mpc: f64,
+    /// Every node's distance (anchors and hosts).
+    pub nodes: Vec<DistanceRow>,
+    /// Every supernova's standardized-candle distance.
+    pub supernovae: Vec<DistanceRow>,
+    /// The solved parameters.
+    pub parameters: Vec<ParamRow>,
+    /// Links left open.
+    pub open: Vec<OpenRow>,
+    /// The targets on the ladder.
+    pub members: Vec<Member>,
+    /// The observations of the chain.
+    pub observations: Vec<Observation>,
+    /// Hours planned per rung.
+    pub hours_by_rung: Vec<RungHours>,
+    /// Steps ranked by the fall of the end point's σ_d/d per hour, best first.
+    pub next: Vec<Ranked>,
+    /// Targets left off the ladder, with the reason.
+    pub left_out: Vec<(String, String)>,
+    /// Warnings.
+    pub notes: Vec<String>,
+}
+
+/// The end point chosen when none is asked for.
+fn default_end_point(l: &Ladder, sol: &super::model::Solution) -> Option<EndPoint> {
+    if sol.index(&Param::Hubble).is_some() {
+        return Some(EndPoint::Hubble);
+    }
+    let closed = |n: &str| {
+        sol.index(&Param::Modulus {
+            node: n.to_string(),
+        })
+        .is_some()
+    };
+    l.members
+        .iter()
+        .filter(|m| m.role == super::build::Role::Calibrator)
+        .chain(l.members.iter())
+        .filter_map(|m| m.node.as_deref())
+        .find(|n| closed(n))
+        .map(|n| EndPoint::Node {
+            node: n.to_string(),
+        })
+}
+
+/// Build, solve and report the ladder of a programme for an end point
+/// (`None`: the default, see [`LadderReport::end_point`]).
+pub fn report(
+    settings: &Settings,
+    targets: &[Target],
+    file: Option<&Path>,
+    end_point: Option<EndPoint>,
+) -> Result<LadderReport> {
+    let l = build(settings, targets, file)?;
+    report_of(l, end_point)
+}
+
+/// [`report`] from a built ladder.
+pub fn report_of(l: Ladder, end_point: Option<EndPoint>) -> Result<LadderReport> {
+    let sol = l.chain.solve()?;
+    let ep = match end_point {
+        Some(e) => e,
+        None => match default_end_point(&l, &sol) {
+            Some(e) => e,
+            None => {
+                // Nothing closes: say what is open, from the bottom.
+                let mut why = sol
+                    .open
+                    .iter()
+                    .min_by(|a, b| a.0.cmp(&b.0))
+                    .map(|(_, w)| w.clone())
+                    .unwrap_or_else(|| {
+                        "the programme has no anchor: give a pulsator its parallax_mas".into()
+                    });
+                // What was left off the ladder may be why.
+                for (t, w) in l.left_out.iter().take(3) {
+                    why.push_str(&format!("; {t} left out: {w}"));
+                }
+                return Err(super::model::ChainError::NotClosed(why).into());
+            }
+        },
+    };
+    let b = l.chain.budget(&sol, &ep)?;
+    let (h0, h0_pct) = match ep {
+        EndPoint::Hubble => (Some(h0_from_intercept(b.value_mag)), Some(b.distance_pct)),
+        _ => match sol.get(&Param::Hubble) {
+            Some((h, s)) => (
+                Some(h0_from_intercept(h)),
+                Some(100.0 * DIST_FRAC_PER_MAG * s),
+            ),
+            None => (None, None),
+        },
+    };
+    let mut nodes = Vec::new();
+    for p in &sol.params {
+        if let Param::Modulus { node } = p {
+            let e = EndPoint::Node { node: node.clone() };
+            let nb = l.chain.budget(&sol, &e)?;
+            let rung = if l
+                .chain
+                .observations
+                .iter()
+                .any(|o| o.node.as_deref() == Some(node.as_str()) && o.rung == Rung::Anchor)
+            {
+                Rung::Anchor
+            } else {
+                Rung::Host
+            };
+            nodes.push(DistanceRow::from_budget(node, rung, &nb));
+        }
+    }
+    let mut supernovae = Vec::new();
+    for m in &l.members {
+        if matches!(
+            m.role,
+            super::build::Role::Calibrator | super::build::Role::HubbleFlow
+        ) {
+            let e = EndPoint::Supernova {
+                target: m.target.clone(),
+            };
+            if let Ok(sb) = l.chain.budget(&sol, &e) {
+                let rung = if m.role == super::build::Role::Calibrator {
+                    Rung::Calibrator
+                } else {
+                    Rung::HubbleFlow
+                };
+                supernovae.push(DistanceRow::from_budget(&m.target, rung, &sb));
+            }
+        }
+    }
+    let parameters = sol
+        .params
+        .iter()
+        .enumerate()
+        .map(|(i, p)| ParamRow {
+            param: p.clone(),
+            text: p.text(),
+            value_mag: sol.estimate_mag[i],
+            sigma_mag: sol.covariance[i][i].max(0.0).sqrt(),
+        })
+        .collect();
+    let open = sol
+        .open
+        .iter()
+        .map(|(p, w)| OpenRow {
+            param: p.clone(),
+            why: w.clone(),
+        })
+        .collect();
+    let mut hours_by_rung = Vec::new();
+    for r in Rung::ALL {
+        let h: f64 = l
+            .chain
+            .observations
+            .iter()
+            .filter(|o| o.rung == r)
+            .map(|o| o.hours)
+            .sum();
+        if h > 0.0 {
+            hours_by_rung.push(RungHours { rung: r, hours: h });
+        }
+    }
+    let next = rank(&l.chain, &ep, l.steps.clone())?
+        .into_iter()
+        .filter(|r| r.gain_pct_per_hour > 0.0)
+        .collect();
+    Ok(LadderReport {
+        end_point_text: ep.text(),
+        end_point: b,
+        h0_km_s_mpc: h0,
+        h0_sigma_pct: h0_pct,
+        h0_ref_km_s_mpc: l.h0_ref_km_s_mpc,
+        nodes,
+        supernovae,
+        parameters,
+        open,
+        members: l.members,
+        observations: l.chain.observations,
+        hours_by_rung,
+        next,
+        left_out: l.left_out,
+        notes: l.notes,
+    })
+}
