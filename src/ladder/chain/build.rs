@@ -15,20 +15,21 @@
 //!   `host_mu_mag` ± `host_mu_err_mag`) is a calibrator of its
 //!   standardization's peak; one with a redshift and no host is in the
 //!   Hubble flow;
-//! - each relation used gets the prior of its published slope.
+//! - each relation used gets the priors of its published slope and
+//!   metallicity term, and each node the prior of its metallicity.
 //!
 //! An observation's own error terms come from its method's prediction; the
-//! terms the chain replaces are left out: every *shared* term (a zero point),
-//! the configured relation's zero-point and slope errors inside a pulsator's
-//! relation term (the star keeps the relation's scatter), a calibrator's given
-//! host distance and a Hubble-flow supernova's zero point.
+//! terms the chain replaces are left out: every *shared* term (a
+//! relation's or a standardization's zero point), a pulsator's metallicity
+//! term (carried as its node's parameter, shared by the node's stars), a
+//! calibrator's given host distance and peculiar velocity.
 
 use super::model::{Chain, ChainError, MAG_PER_LN, Observation, Param, Rung, Term};
 use super::next::{Change, Step};
 use crate::error::{Location, Result, RungError};
 use crate::io::targets::{Kind, Target};
 use crate::ladder::parallax::ParallaxMethod;
-use crate::ladder::pulsator::PulsatorMethod;
+use crate::ladder::pulsator::{PulsatorMethod, Relation, Star};
 use crate::ladder::transient::{TransientMethod, ZeroPoint};
 use crate::ladder::{ErrorTerm, Method, Prediction};
 use crate::programme::Settings;
@@ -150,27 +151,26 @@ fn node_of(t: &Target) -> String {
     t.name.clone()
 }
 
-/// A pulsator's relation name: its band's period–luminosity relation.
-fn relation_of(t: &Target) -> String {
-    format!("{} band", t.band)
+/// A relation's name on the ladder: its class and band ("cepheid V").
+fn relation_name(r: &Relation) -> String {
+    format!("{} {}", r.class.as_str(), r.band)
 }
 
 /// The error terms of a prediction the chain keeps for an observation: the
-/// non-shared ones, less those named in `drop`, with a pulsator's relation
-/// term replaced by the relation's scatter.
-fn own_terms(p: &Prediction, drop: &[&str], scatter: Option<f64>) -> Vec<Term> {
+/// non-shared ones, less those named in `drop` (the chain carries them
+/// otherwise).
+fn own_terms(p: &Prediction, drop: &[&str]) -> Vec<Term> {
     p.error_terms
         .iter()
         .filter(|t: &&ErrorTerm| !t.shared && !drop.contains(&t.name.as_str()))
-        .map(|t| {
-            if scatter.is_some() && t.name == PL_TERM {
-                Term::new("relation scatter", scatter.unwrap_or(0.0))
-            } else {
-                Term::new(t.name.clone(), t.sigma_mag)
-            }
-        })
+        .map(|t| Term::new(t.name.clone(), t.sigma_mag))
         .collect()
 }
+
+/// The pulsator method's name for the metallicity term |γ| σ[Fe/H]: shared
+/// by the stars of one node (one metallicity), so the chain carries it as
+/// the node's parameter.
+const FEH_TERM: &str = "metallicity";
 
 /// Fractional parallax error past which an anchor is noted: the linear
 /// transform to a modulus starts to be biased (docs/science.md, The ladder;
@@ -180,10 +180,6 @@ pub const WARN_PARALLAX_FRAC: f64 = 0.10;
 /// Fractional parallax error past which an anchor is left out of the fit
 /// (common practice: parallax samples are cut at 10–20 %; rung takes 20 %).
 pub const MAX_PARALLAX_FRAC: f64 = 0.20;
-
-/// The pulsator method's name for the relation term of a star (its σ_PL:
-/// scatter, zero point and slope errors together).
-const PL_TERM: &str = "period–luminosity relation";
 
 /// Names of transient terms the chain replaces.
 const HOST_TERM: &str = "host distance";
@@ -284,7 +280,10 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
     let mut chain = Chain::default();
     let mut members: Vec<Member> = Vec::new();
     let mut steps: Vec<Step> = Vec::new();
-    let mut relations: BTreeMap<String, (f64, f64)> = BTreeMap::new();
+    let mut relations: BTreeMap<String, Relation> = BTreeMap::new();
+    // Each node's metallicity uncertainty and γ (the stars of a node share
+    // one metallicity: its error does not average down over them).
+    let mut node_feh: BTreeMap<String, (Rung, f64)> = BTreeMap::new();
 
     for (t, (phot, plx)) in pulsators.iter().zip(plans1) {
         let Some(pmeth) = pm else { break };
@@ -295,13 +294,17 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
             ));
             continue;
         };
-        let (Some(p), Ok(law)) = (t.period_d, pmeth.config.law(&t.band)) else {
-            left_out.push((
-                t.name.clone(),
-                format!("no period–luminosity relation in band {}", t.band),
-            ));
-            continue;
+        let sr = match Star::from_target(t).and_then(|star| star.relation(&pmeth.config)) {
+            Ok(r) => r,
+            Err(e) => {
+                left_out.push((
+                    t.name.clone(),
+                    format!("no period–luminosity relation: {e}"),
+                ));
+                continue;
+            }
         };
+        let p = t.period_d.unwrap_or(10.0);
         let phot = match phot {
             Ok(x) => x,
             Err(e) => {
@@ -316,12 +319,14 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
             ));
             continue;
         }
-        let rel = relation_of(t);
-        relations.insert(rel.clone(), (law.a, law.a_err));
+        let law = &sr.relation;
+        let rel = relation_name(law);
+        relations.insert(rel.clone(), law.clone());
         let node = node_of(t);
         let anchor = t.parallax_mas.is_some();
         let rung = if anchor { Rung::Anchor } else { Rung::Host };
-        let x = p.log10() - 1.0;
+        let x = p.log10() - law.pivot_log_p;
+        let dz = sr.feh_dex - law.feh_ref_dex;
         let mut obs_idx = Vec::new();
         let mut hours = 0.0;
         // The parallax first: it is what makes an anchor.
@@ -341,7 +346,7 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
                         ));
                     }
                     (
-                        own_terms(&pl.prediction, &[], None),
+                        own_terms(&pl.prediction, &[]),
                         pl.prediction.hours_needed,
                         Some(pl),
                     )
@@ -411,7 +416,7 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
                     hours: (more.hours_needed - pl.prediction.hours_needed).max(0.0),
                     change: Change::Sharper {
                         observation: j,
-                        terms: own_terms(more, &[], None),
+                        terms: own_terms(more, &[]),
                     },
                 });
             }
@@ -422,24 +427,50 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
             node: Some(node.clone()),
             rung,
             what: "mean magnitude".into(),
-            value_mag: mean - t.extinction_mag,
-            offset_mag: law.a * x,
-            coeffs: vec![
-                (Param::Modulus { node: node.clone() }, 1.0),
-                (
-                    Param::ZeroPoint {
-                        relation: rel.clone(),
-                    },
-                    1.0,
-                ),
-                (
-                    Param::Slope {
-                        relation: rel.clone(),
-                    },
-                    x,
-                ),
-            ],
-            terms: own_terms(&phot.prediction, &[], Some(law.scatter_mag)),
+            value_mag: mean
+                - if law.reddening_free() {
+                    0.0
+                } else {
+                    t.extinction_mag
+                },
+            offset_mag: law.slope * x + law.feh_coeff_mag_per_dex * dz,
+            coeffs: {
+                let mut c = vec![
+                    (Param::Modulus { node: node.clone() }, 1.0),
+                    (
+                        Param::ZeroPoint {
+                            relation: rel.clone(),
+                        },
+                        1.0,
+                    ),
+                ];
+                if law.slope_err > 0.0 && x != 0.0 {
+                    c.push((
+                        Param::Slope {
+                            relation: rel.clone(),
+                        },
+                        x,
+                    ));
+                }
+                if law.feh_coeff_err_mag_per_dex > 0.0 && dz != 0.0 {
+                    c.push((
+                        Param::FehCoeff {
+                            relation: rel.clone(),
+                        },
+                        dz,
+                    ));
+                }
+                if law.feh_coeff_mag_per_dex != 0.0 && sr.feh_err_dex > 0.0 {
+                    c.push((
+                        Param::Metallicity { node: node.clone() },
+                        law.feh_coeff_mag_per_dex,
+                    ));
+                    let e = node_feh.entry(node.clone()).or_insert((rung, 0.0));
+                    e.1 = e.1.max(sr.feh_err_dex);
+                }
+                c
+            },
+            terms: own_terms(&phot.prediction, &[FEH_TERM]),
             hours: phot.prediction.hours_needed,
         });
         obs_idx.push(j);
@@ -452,7 +483,7 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
                 hours: (more.hours_needed - phot.prediction.hours_needed).max(0.0),
                 change: Change::Sharper {
                     observation: j,
-                    terms: own_terms(more, &[], Some(law.scatter_mag)),
+                    terms: own_terms(more, &[FEH_TERM]),
                 },
             });
         }
@@ -466,27 +497,56 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
             hours,
         });
     }
-    for (rel, (_, a_err)) in &relations {
-        if *a_err > 0.0 {
-            chain.observations.push(Observation {
-                target: rel.clone(),
-                node: None,
-                rung: Rung::Relation,
-                what: "published slope".into(),
-                value_mag: 0.0,
-                offset_mag: 0.0,
-                coeffs: vec![(
-                    Param::Slope {
-                        relation: rel.clone(),
-                    },
-                    1.0,
-                )],
-                terms: vec![Term::new("slope", *a_err)],
-                hours: 0.0,
-            });
+    for (rel, law) in &relations {
+        let prior = |p: Param, what: &str, term: &str, sigma: f64| Observation {
+            target: rel.clone(),
+            node: None,
+            rung: Rung::Relation,
+            what: what.into(),
+            value_mag: 0.0,
+            offset_mag: 0.0,
+            coeffs: vec![(p, 1.0)],
+            terms: vec![Term::new(term, sigma)],
+            hours: 0.0,
+        };
+        let used = |c: &Chain, p: &Param| {
+            c.observations
+                .iter()
+                .any(|o| o.coeffs.iter().any(|(q, _)| q == p))
+        };
+        let slope = Param::Slope {
+            relation: rel.clone(),
+        };
+        if used(&chain, &slope) {
+            let o = prior(slope, "published slope", "slope", law.slope_err);
+            chain.observations.push(o);
+        }
+        let feh = Param::FehCoeff {
+            relation: rel.clone(),
+        };
+        if used(&chain, &feh) {
+            let o = prior(
+                feh,
+                "published metallicity term",
+                "metallicity term",
+                law.feh_coeff_err_mag_per_dex,
+            );
+            chain.observations.push(o);
         }
     }
-
+    for (node, (rung, err)) in &node_feh {
+        chain.observations.push(Observation {
+            target: node.clone(),
+            node: Some(node.clone()),
+            rung: *rung,
+            what: "metallicity".into(),
+            value_mag: 0.0,
+            offset_mag: 0.0,
+            coeffs: vec![(Param::Metallicity { node: node.clone() }, 1.0)],
+            terms: vec![Term::new("metallicity", *err)],
+            hours: 0.0,
+        });
+    }
     // The hosts' expected moduli, for the supernovae's planned values.
     let host_mu: BTreeMap<String, (f64, f64)> = match chain.solve() {
         Ok(sol) => sol
@@ -579,7 +639,7 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
                 (Some(Ok(p)), _) if p.prediction.distance_precision_pct.is_finite() => {
                     let pred = p.prediction.clone();
                     (
-                        Box::new(move |drop: &[&str]| own_terms(&pred, drop, None)),
+                        Box::new(move |drop: &[&str]| own_terms(&pred, drop)),
                         p.prediction.hours_needed,
                         Some(p),
                     )
@@ -675,7 +735,7 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
                     hours: (more.hours_needed - pl.prediction.hours_needed).max(0.0),
                     change: Change::Sharper {
                         observation: j,
-                        terms: own_terms(more, drop, None),
+                        terms: own_terms(more, drop),
                     },
                 });
             }

@@ -19,6 +19,12 @@
 //! | a calibrator's standardized peak | μ[host] + M[s] | calibrators |
 //! | a Hubble-flow supernova's standardized peak, offset 5 log10(c d̂(z)) + 25 | M[s] − h | Hubble flow |
 //! | a relation's published slope | δa[r] (value 0, σ = the slope's error) | relations |
+//! | a relation's published metallicity term | δγ[r] (value 0, σ = its error) | relations |
+//! | a node's metallicity | δZ[node] (value 0, σ = σ[Fe/H]) | the node's |
+//!
+//! A pulsator's row also carries γ δZ[node] + ([Fe/H] − [Fe/H]_ref) δγ[r]
+//! when its relation has a metallicity term: the stars of a node share one
+//! metallicity, so its error does not average down over them.
 //!
 //! d̂(z) = H0 d_L(z) / c is the luminosity distance in units of the Hubble
 //! distance, which depends on the redshift and Ωm only; with d_L in Mpc and c
@@ -102,9 +108,19 @@ pub enum Param {
         /// The relation's name.
         relation: String,
     },
+    /// Correction to a relation's published metallicity term γ, mag per dex.
+    FehCoeff {
+        /// The relation's name.
+        relation: String,
+    },
     /// Distance modulus of a node (an anchor or a host field), mag.
     Modulus {
         /// The node's name (a field, or a target standing alone).
+        node: String,
+    },
+    /// Error of a node's metallicity [Fe/H], dex (shared by its stars).
+    Metallicity {
+        /// The node's name.
         node: String,
     },
     /// Peak absolute magnitude of standardized supernovae, mag.
@@ -123,6 +139,8 @@ impl Param {
         match self {
             Param::ZeroPoint { relation } => format!("zero point of {relation}"),
             Param::Slope { relation } => format!("slope of {relation}"),
+            Param::FehCoeff { relation } => format!("metallicity term of {relation}"),
+            Param::Metallicity { node } => format!("[Fe/H] of {node}"),
             Param::Modulus { node } => format!("μ of {node}"),
             Param::PeakMag { standardization } => format!("peak M of {standardization}"),
             Param::Hubble => "5 log10 H0".into(),
@@ -136,6 +154,10 @@ impl Param {
                 "relation {relation} has no anchor (no pulsator using it sits in a field or on a star with a parallax)"
             ),
             Param::Slope { relation } => format!("relation {relation} has no slope prior"),
+            Param::FehCoeff { relation } => {
+                format!("relation {relation} has no prior on its metallicity term")
+            }
+            Param::Metallicity { node } => format!("{node} has no metallicity prior"),
             Param::Modulus { node } => format!(
                 "{node} has no distance (no parallax, and none of its pulsators uses an anchored relation)"
             ),
