@@ -86,7 +86,7 @@ fn the_programme_closes_from_its_anchors_to_h0() {
         assert!((s.own_sigma_mag.hypot(s.shared_sigma_mag) - s.sigma_mag).abs() < 1e-12);
     }
     // A node's distance in Mpc is 10^(μ/5 + 1) pc.
-    let g = r.nodes.iter().find(|n| n.name == "LPO-G1-C3").unwrap();
+    let g = r.nodes.iter().find(|n| n.name == "LPO-G1").unwrap();
     assert!((g.distance_mpc - 10f64.powf(g.modulus_mag / 5.0 - 5.0)).abs() < 1e-9);
     assert!((g.modulus_mag - 26.0).abs() < 0.01);
 }
@@ -94,16 +94,21 @@ fn the_programme_closes_from_its_anchors_to_h0() {
 #[test]
 fn each_observation_carries_its_methods_own_terms() {
     // The same plan the budget shows (its goal, its epochs): the ladder's
-    // row of a host pulsator keeps the mean-magnitude and extinction terms
-    // and replaces the relation term by the relation's scatter.
+    // row of an anchor keeps the mean-magnitude and extinction terms of its
+    // own plan and replaces the relation term by the relation's scatter.
     let (st, targets) = programme();
     let l = build(&st, &targets, Some(&file())).unwrap();
-    let t = targets.iter().find(|t| t.name == "LPO-G1-C2").unwrap();
+    let t = targets.iter().find(|t| t.name == "LPO-A3").unwrap();
     let p = rung::plan::budget::target_prediction(&st, t)
         .unwrap()
         .unwrap();
-    let m = l.members.iter().find(|m| m.target == "LPO-G1-C2").unwrap();
-    let o = &l.chain.observations[m.observations[0]];
+    let m = l.members.iter().find(|m| m.target == "LPO-A3").unwrap();
+    let o = l
+        .chain
+        .observations
+        .iter()
+        .find(|o| o.target == "LPO-A3" && o.what == "mean magnitude")
+        .unwrap();
     let term = |name: &str| o.terms.iter().find(|x| x.name == name).map(|x| x.sigma_mag);
     let want = |name: &str| {
         p.error_terms
@@ -117,6 +122,37 @@ fn each_observation_carries_its_methods_own_terms() {
     // V scatter of config/pulsator.toml.
     assert_eq!(term("relation scatter"), Some(0.21));
     assert!((o.hours - p.hours_needed).abs() < 1e-12);
+    assert_eq!(m.node.as_deref(), Some("LPO-A3"));
+    // A star of a field takes its mean magnitude from its field's plan (the
+    // plan of `rung phase --field` and the budget's field row): its error
+    // there, the relation's scatter, and a share of the field's hours; the
+    // field's one reddening is the node's parameter, not the star's term.
+    let links = rung::ladder::field::link(&targets);
+    let g = links.by_name(&targets, "LPO-G1").unwrap();
+    let fr = st.field_report(&targets, g).unwrap();
+    let star = fr.stars.iter().find(|s| s.name == "LPO-G1-C2").unwrap();
+    let m = l.members.iter().find(|m| m.target == "LPO-G1-C2").unwrap();
+    assert_eq!(m.node.as_deref(), Some("LPO-G1"));
+    let o = &l.chain.observations[m.observations[0]];
+    let term = |name: &str| o.terms.iter().find(|x| x.name == name).map(|x| x.sigma_mag);
+    assert_eq!(term("mean magnitude"), star.sigma_mean_mag);
+    assert_eq!(term("relation scatter"), Some(0.21));
+    assert_eq!(term("extinction"), None);
+    assert!((o.hours - fr.prediction.hours_needed / 3.0).abs() < 1e-9);
+    let hours: f64 = l
+        .members
+        .iter()
+        .filter(|m| {
+            m.node.as_deref() == Some("LPO-G1") && m.role == rung::ladder::chain::Role::HostStar
+        })
+        .map(|m| m.hours)
+        .sum();
+    assert!((hours - fr.prediction.hours_needed).abs() < 1e-9);
+    assert!(o.coeffs.iter().any(|(p, c)| *p
+        == rung::ladder::chain::Param::Extinction {
+            node: "LPO-G1".into()
+        }
+        && *c == t_ext(&targets, "LPO-G1-C2")));
     // A Hubble-flow supernova keeps its peculiar velocity and drops the
     // configured zero point (the chain measures it).
     let m = l.members.iter().find(|m| m.target == "LPO-T2026d").unwrap();
@@ -128,7 +164,7 @@ fn each_observation_carries_its_methods_own_terms() {
     let o = &l.chain.observations[m.observations[0]];
     assert_eq!(o.terms[0].sigma_mag, 0.05);
     assert_eq!(o.hours, 0.0);
-    assert_eq!(m.node.as_deref(), Some("LPO-G1-C3"));
+    assert_eq!(m.node.as_deref(), Some("LPO-G1"));
 }
 
 struct Rng(u64);
@@ -160,7 +196,7 @@ fn a_monte_carlo_over_the_programmes_chain_gives_the_stated_sigma() {
     let eps = [
         EndPoint::Hubble,
         EndPoint::Node {
-            node: "LPO-G1-C3".into(),
+            node: "LPO-G1".into(),
         },
         EndPoint::Supernova {
             target: "LPO-T2026f".into(),
@@ -209,7 +245,7 @@ fn adding_an_anchor_a_host_star_or_a_calibrator_never_raises_the_sigma() {
     let eps = [
         EndPoint::Hubble,
         EndPoint::Node {
-            node: "LPO-G1-C3".into(),
+            node: "LPO-G1".into(),
         },
         EndPoint::Supernova {
             target: "LPO-T2026a".into(),
@@ -252,7 +288,7 @@ fn a_broken_host_link_names_file_line_and_field() {
     let dir = tempfile::tempdir().unwrap();
     let text = std::fs::read_to_string(file())
         .unwrap()
-        .replace(",LPO-G1-C3,0.05", ",LPO-G1-C9,0.05");
+        .replace(",LPO-G1,0.05", ",LPO-G1-C9,0.05");
     let f = dir.path().join("programme.csv");
     std::fs::write(&f, &text).unwrap();
     std::fs::copy(
@@ -325,4 +361,60 @@ fn a_programme_without_anchors_is_not_closed() {
         e.to_string(),
         "no end point 'LPO-X': no field or anchor of that name"
     );
+}
+
+fn t_ext(targets: &[Target], name: &str) -> f64 {
+    targets
+        .iter()
+        .find(|t| t.name == name)
+        .unwrap()
+        .extinction_mag
+}
+
+#[test]
+fn what_one_more_hour_on_each_target_buys() {
+    // Every target of the ladder gets its line: the best one-more-visit step
+    // its method offers (Method::one_more) and the fall of the end point's
+    // σd/d per hour of it, the same number as that step in the ranking; a
+    // target measured already (given) or a star of a field says why it has none.
+    let (st, targets) = programme();
+    let r = report(&st, &targets, Some(&file()), None).unwrap();
+    assert_eq!(r.marginal.len(), r.members.len());
+    for m in &r.marginal {
+        match (&m.step, m.gain_pct_per_hour) {
+            (Some(label), Some(g)) => {
+                let ranked = r.next.iter().find(|x| &x.step.label == label);
+                if let Some(x) = ranked {
+                    assert_eq!(x.gain_pct_per_hour, g);
+                } else {
+                    // Not in `next`: it does not help the end point.
+                    assert_eq!(g, 0.0, "{label}");
+                }
+                assert!(m.why.is_none());
+            }
+            (None, None) => assert!(m.why.is_some(), "{}", m.target),
+            other => panic!("{}: {other:?}", m.target),
+        }
+    }
+    let given = r
+        .marginal
+        .iter()
+        .find(|m| m.target == "LPO-S2019a")
+        .unwrap();
+    assert!(given.why.as_deref().unwrap().contains("measured already"));
+    let star = r.marginal.iter().find(|m| m.target == "LPO-G1-C1").unwrap();
+    assert!(star.why.as_deref().unwrap().contains("field's visits"));
+    let flow = r
+        .marginal
+        .iter()
+        .find(|m| m.target == "LPO-T2026d")
+        .unwrap();
+    assert!(flow.gain_pct_per_hour.unwrap() > 0.0);
+    // The best step of each rung, in ladder order, each the first of its
+    // rung in the ranking.
+    for b in &r.best_by_rung {
+        let first = r.next.iter().find(|x| x.step.rung == b.step.rung).unwrap();
+        assert_eq!(first, b);
+    }
+    assert!(r.best_by_rung.iter().any(|b| b.step.rung == Rung::Anchor));
 }

@@ -146,9 +146,27 @@ fn plan(settings: &Settings, m: &dyn Method, t: &Target) -> Result<Planned> {
 /// An observation's terms less those named (the chain replaces them).
 type TermsOf = Box<dyn Fn(&[&str]) -> Vec<Term>>;
 
-/// The node a pulsator belongs to: its field, else itself.
+/// The node a pulsator belongs to: its field (the `field` column), else itself.
 fn node_of(t: &Target) -> String {
-    t.name.clone()
+    if t.field.is_empty() {
+        t.name.clone()
+    } else {
+        t.field.clone()
+    }
+}
+
+/// Where a pulsator's mean magnitude comes from.
+enum Phot {
+    /// Its own plan (a star standing alone).
+    Own(Box<Planned>),
+    /// Its field's plan (one pointing's visits serve all its stars): the
+    /// star's mean-magnitude error and its share of the field's hours.
+    Field {
+        /// Error of its mean magnitude, mag.
+        sigma_mean_mag: f64,
+        /// The field's hours over its counted stars.
+        hours: f64,
+    },
 }
 
 /// A relation's name on the ladder: its class and band ("cepheid V").
@@ -228,6 +246,9 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
             Kind::Pulsator => {
                 host_node.insert(t.name.as_str(), node_of(h));
             }
+            Kind::Field => {
+                host_node.insert(t.name.as_str(), h.name.clone());
+            }
             k => {
                 let line = file
                     .and_then(|f| std::fs::read_to_string(f).ok().map(|x| (f, x)))
@@ -253,15 +274,87 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
         .iter()
         .filter(|t| t.kind == Kind::Pulsator)
         .collect();
-    type Plans = (Result<Planned>, Option<Result<Planned>>);
+    // The fields' plans (one per field, all its stars together: the plan
+    // the budget, the Phase view and `rung phase --field` give).
+    let links = crate::ladder::field::link(targets);
+    let field_reports: BTreeMap<String, Result<crate::ladder::field::FieldReport>> = {
+        use rayon::prelude::*;
+        links
+            .groups
+            .par_iter()
+            .filter(|g| !g.members.is_empty())
+            .map(|g| {
+                (
+                    targets[g.field].name.clone(),
+                    settings.field_report(targets, g),
+                )
+            })
+            .collect::<Vec<_>>()
+            .into_iter()
+            .collect()
+    };
+    let field_phot = |i: usize| -> Option<Result<Phot>> {
+        let t = &targets[i];
+        let why = match links.role(i) {
+            crate::ladder::field::Role::Member(g) => {
+                let name = &targets[g.field].name;
+                match field_reports.get(name) {
+                    Some(Ok(fr)) => {
+                        let counted = fr
+                            .stars
+                            .iter()
+                            .filter(|s| s.excluded.is_none() && s.sigma_mean_mag.is_some())
+                            .count()
+                            .max(1);
+                        let star = fr.stars.iter().find(|s| s.name == t.name);
+                        return Some(match star {
+                            Some(s) if s.excluded.is_some() => Err(RungError::invalid(
+                                format!("star '{}' of field '{name}'", t.name),
+                                s.excluded.clone().unwrap_or_default(),
+                            )),
+                            Some(s) => match s.sigma_mean_mag {
+                                Some(sm) if sm.is_finite() => Ok(Phot::Field {
+                                    sigma_mean_mag: sm,
+                                    hours: fr.prediction.hours_needed / counted as f64,
+                                }),
+                                _ => Err(RungError::invalid(
+                                    format!("star '{}' of field '{name}'", t.name),
+                                    "its field's plan gives it no mean magnitude in the range",
+                                )),
+                            },
+                            None => Err(RungError::invalid(
+                                format!("star '{}'", t.name),
+                                format!("not in the plan of field '{name}'"),
+                            )),
+                        });
+                    }
+                    Some(Err(e)) => format!("the plan of its field '{name}' failed: {e}"),
+                    None => format!("field '{name}' has no plan"),
+                }
+            }
+            crate::ladder::field::Role::Refused(why) => why.to_string(),
+            _ => return None,
+        };
+        Some(Err(RungError::invalid(format!("target '{}'", t.name), why)))
+    };
+    // A field's star takes its mean magnitude from its field's plan.
+    let mut from_field: Vec<Option<Result<Phot>>> = targets
+        .iter()
+        .enumerate()
+        .filter(|(_, t)| t.kind == Kind::Pulsator)
+        .map(|(i, _)| field_phot(i))
+        .collect();
+    type Plans = (Result<Phot>, Option<Result<Planned>>);
     let plans1: Vec<Plans> = {
         use rayon::prelude::*;
         pulsators
             .par_iter()
-            .map(|t| {
-                let phot = match pm {
-                    Some(m) => plan(settings, m, t),
-                    None => Err(RungError::invalid("pulsator method", "not configured")),
+            .zip(from_field.par_iter_mut())
+            .map(|(t, ff)| {
+                let phot = match (ff.take(), pm) {
+                    (Some(f), _) => f,
+                    (None, Some(m)) => plan(settings, m, t).map(|p| Phot::Own(Box::new(p))),
+                    (None, None) => Err(RungError::invalid("pulsator method", "not configured")),
                 };
                 let plx = match (t.parallax_mas, t.parallax_err_mas, xm) {
                     (Some(_), None, Some(m)) => {
@@ -284,6 +377,9 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
     // Each node's metallicity uncertainty and γ (the stars of a node share
     // one metallicity: its error does not average down over them).
     let mut node_feh: BTreeMap<String, (Rung, f64)> = BTreeMap::new();
+    // Each field's fractional extinction error (one reddening for the
+    // field: common to its stars, it does not average down either).
+    let mut node_ext: BTreeMap<String, (Rung, f64)> = BTreeMap::new();
 
     for (t, (phot, plx)) in pulsators.iter().zip(plans1) {
         let Some(pmeth) = pm else { break };
@@ -312,7 +408,9 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
                 continue;
             }
         };
-        if !phot.prediction.distance_precision_pct.is_finite() {
+        if let Phot::Own(pl) = &phot
+            && !pl.prediction.distance_precision_pct.is_finite()
+        {
             left_out.push((
                 t.name.clone(),
                 "its plan gives no mean magnitude in the range".into(),
@@ -421,6 +519,10 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
                 });
             }
         }
+        let phot_hours = match &phot {
+            Phot::Own(pl) => pl.prediction.hours_needed,
+            Phot::Field { hours, .. } => *hours,
+        };
         let j = chain.observations.len();
         chain.observations.push(Observation {
             target: t.name.clone(),
@@ -460,6 +562,15 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
                         dz,
                     ));
                 }
+                let ext_frac = pmeth.config.defaults.extinction_sigma_frac;
+                if matches!(phot, Phot::Field { .. })
+                    && !law.reddening_free()
+                    && t.extinction_mag > 0.0
+                    && ext_frac > 0.0
+                {
+                    c.push((Param::Extinction { node: node.clone() }, t.extinction_mag));
+                    node_ext.entry(node.clone()).or_insert((rung, ext_frac));
+                }
                 if law.feh_coeff_mag_per_dex != 0.0 && sr.feh_err_dex > 0.0 {
                     c.push((
                         Param::Metallicity { node: node.clone() },
@@ -470,12 +581,20 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
                 }
                 c
             },
-            terms: own_terms(&phot.prediction, &[FEH_TERM]),
-            hours: phot.prediction.hours_needed,
+            terms: match &phot {
+                Phot::Own(pl) => own_terms(&pl.prediction, &[FEH_TERM]),
+                Phot::Field { sigma_mean_mag, .. } => vec![
+                    Term::new("relation scatter", law.scatter_mag),
+                    Term::new("mean magnitude", *sigma_mean_mag),
+                ],
+            },
+            hours: phot_hours,
         });
         obs_idx.push(j);
-        hours += phot.prediction.hours_needed;
-        if let Some(more) = &phot.one_more {
+        hours += phot_hours;
+        if let Phot::Own(phot) = &phot
+            && let Some(more) = &phot.one_more
+        {
             steps.push(Step {
                 label: format!("one more light-curve visit of {}", t.name),
                 rung,
@@ -533,6 +652,19 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
             );
             chain.observations.push(o);
         }
+    }
+    for (node, (rung, frac)) in &node_ext {
+        chain.observations.push(Observation {
+            target: node.clone(),
+            node: Some(node.clone()),
+            rung: *rung,
+            what: "extinction".into(),
+            value_mag: 0.0,
+            offset_mag: 0.0,
+            coeffs: vec![(Param::Extinction { node: node.clone() }, 1.0)],
+            terms: vec![Term::new("extinction", *frac)],
+            hours: 0.0,
+        });
     }
     for (node, (rung, err)) in &node_feh {
         chain.observations.push(Observation {

@@ -123,6 +123,12 @@ pub enum Param {
         /// The node's name.
         node: String,
     },
+    /// Fractional error of a field's extinction (one reddening for the
+    /// field, shared by its stars): each star's modulus moves by A_i times it.
+    Extinction {
+        /// The node's name.
+        node: String,
+    },
     /// Peak absolute magnitude of standardized supernovae, mag.
     PeakMag {
         /// The standardization's name.
@@ -141,6 +147,7 @@ impl Param {
             Param::Slope { relation } => format!("slope of {relation}"),
             Param::FehCoeff { relation } => format!("metallicity term of {relation}"),
             Param::Metallicity { node } => format!("[Fe/H] of {node}"),
+            Param::Extinction { node } => format!("extinction scale of {node}"),
             Param::Modulus { node } => format!("μ of {node}"),
             Param::PeakMag { standardization } => format!("peak M of {standardization}"),
             Param::Hubble => "5 log10 H0".into(),
@@ -158,6 +165,7 @@ impl Param {
                 format!("relation {relation} has no prior on its metallicity term")
             }
             Param::Metallicity { node } => format!("{node} has no metallicity prior"),
+            Param::Extinction { node } => format!("{node} has no extinction prior"),
             Param::Modulus { node } => format!(
                 "{node} has no distance (no parallax, and none of its pulsators uses an anchored relation)"
             ),

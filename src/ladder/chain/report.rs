@@ -3,9 +3,9 @@
 //! every supernova's distance with its own and shared σ, the parameters, the
 //! open links, and the steps ranked by what an hour of each buys.
 
-use super::build::{Ladder, Member, build};
+use super::build::{Ladder, Member, Role, build};
 use super::model::{Budget, EndPoint, Observation, Param, Rung, h0_from_intercept};
-use super::next::{Ranked, rank};
+use super::next::{Change, Ranked, rank};
 use crate::error::Result;
 use crate::io::targets::Target;
 use crate::ladder::DIST_FRAC_PER_MAG;
@@ -89,6 +89,29 @@ pub struct RungHours {
     pub hours: f64,
 }
 
+/// What one more hour on a target of the ladder buys at the end point:
+/// its method's one more visit (`Method::one_more`: the repeat of a planned
+/// epoch that buys most per hour), the chain solved again with it.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Marginal {
+    /// The target.
+    pub target: String,
+    /// Its role on the ladder.
+    pub role: Role,
+    /// The node it measures or sits in.
+    pub node: Option<String>,
+    /// The step, in words ("one more parallax epoch of LPO-A1"), when its
+    /// method offers one.
+    pub step: Option<String>,
+    /// The step's telescope hours, with overheads.
+    pub hours: Option<f64>,
+    /// The fall of the end point's σ_d/d per hour of the step, percentage
+    /// points per hour (0: the target does not feed the end point).
+    pub gain_pct_per_hour: Option<f64>,
+    /// Why there is no step.
+    pub why: Option<String>,
+}
+
 /// The ladder's answer for a programme.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct LadderReport {
@@ -122,6 +145,12 @@ pub struct LadderReport {
     pub hours_by_rung: Vec<RungHours>,
     /// Steps ranked by the fall of the end point's σ_d/d per hour, best first.
     pub next: Vec<Ranked>,
+    /// What one more hour on each target of the ladder buys at the end
+    /// point (its method's one more visit), in the order of `members`.
+    pub marginal: Vec<Marginal>,
+    /// The best step of each rung that helps the end point, in ladder
+    /// order: where the next hour on each rung is best spent.
+    pub best_by_rung: Vec<Ranked>,
     /// Targets left off the ladder, with the reason.
     pub left_out: Vec<(String, String)>,
     /// Warnings.
@@ -267,9 +296,15 @@ pub fn report_of(l: Ladder, end_point: Option<EndPoint>) -> Result<LadderReport>
             hours_by_rung.push(RungHours { rung: r, hours: h });
         }
     }
-    let next = rank(&l.chain, &ep, l.steps.clone())?
+    let ranked = rank(&l.chain, &ep, l.steps.clone())?;
+    let marginal = marginal_of(&l.members, &ranked);
+    let next: Vec<Ranked> = ranked
         .into_iter()
         .filter(|r| r.gain_pct_per_hour > 0.0)
+        .collect();
+    let best_by_rung = Rung::ALL
+        .iter()
+        .filter_map(|g| next.iter().find(|r| r.step.rung == *g).cloned())
         .collect();
     Ok(LadderReport {
         end_point_text: ep.text(),
@@ -285,7 +320,60 @@ pub fn report_of(l: Ladder, end_point: Option<EndPoint>) -> Result<LadderReport>
         observations: l.chain.observations,
         hours_by_rung,
         next,
+        marginal,
+        best_by_rung,
         left_out: l.left_out,
         notes: l.notes,
     })
+}
+
+/// Each member's best one-more-visit step (a step that sharpens one of its
+/// own observations), from the ranked steps.
+fn marginal_of(members: &[Member], ranked: &[Ranked]) -> Vec<Marginal> {
+    members
+        .iter()
+        .map(|m| {
+            let best = ranked
+                .iter()
+                .filter(|r| {
+                    r.step.target == m.target && matches!(r.step.change, Change::Sharper { .. })
+                })
+                .max_by(|a, b| a.gain_pct_per_hour.total_cmp(&b.gain_pct_per_hour));
+            let why = best.is_none().then(|| {
+                if m.hours <= 0.0 {
+                    "measured already (given in the targets file): no visit is planned".to_string()
+                } else if m.role == Role::HostStar && m.node.as_deref() != Some(m.target.as_str()) {
+                    "a star of a field: the field's visits serve all its stars (see a new star in its field)".to_string()
+                } else {
+                    "its method offers no further visit that sharpens it".to_string()
+                }
+            });
+            Marginal {
+                target: m.target.clone(),
+                role: m.role,
+                node: m.node.clone(),
+                step: best.map(|r| r.step.label.clone()),
+                hours: best.map(|r| r.step.hours),
+                gain_pct_per_hour: best.map(|r| r.gain_pct_per_hour.max(0.0)),
+                why,
+            }
+        })
+        .collect()
+}
+
+impl LadderReport {
+    /// The best gain per hour (percentage points of the end point's σ_d/d)
+    /// of one more visit on the targets of a chain row: the supernova
+    /// itself, or the pulsators of a node. `None` when none offers a step.
+    pub fn marginal_of_row(&self, name: &str) -> Option<f64> {
+        self.marginal
+            .iter()
+            .filter(|m| {
+                m.target == name
+                    || (m.node.as_deref() == Some(name)
+                        && matches!(m.role, Role::Anchor | Role::HostStar))
+            })
+            .filter_map(|m| m.gain_pct_per_hour)
+            .max_by(f64::total_cmp)
+    }
 }
