@@ -156,6 +156,12 @@ pub fn method_report(k: &MethodKey) -> MethodBody {
     }
 }
 
+/// The programme's distance ladder with the key's settings, as `rung
+/// ladder` gives it (`ladder::chain::report`, the default end point).
+pub fn ladder_for(k: &BudgetKey) -> Result<crate::ladder::chain::LadderReport> {
+    crate::ladder::chain::report(&k.settings, &k.targets, None, None)
+}
+
 /// The programme's budget over its range (`plan::budget` with the key's
 /// settings, as `rung budget`). Each target's prediction is kept, per target
 /// and settings: an edit recomputes only the targets it changed, and going
@@ -517,6 +523,10 @@ pub fn run_until(effect: Effect, cancel: &Cancel) -> Vec<Msg> {
             Ok(Some(b)) => vec![Msg::BudgetReady(k, Ok(Box::new(b)))],
             Err(e) => vec![Msg::BudgetReady(k, Err(e.to_string()))],
         },
+        Effect::Ladder(k) => {
+            let r = ladder_for(&k).map(Box::new).map_err(|e| e.to_string());
+            vec![Msg::LadderReady(k, r)]
+        }
         Effect::Export(files) => {
             let mut done = Vec::new();
             let mut err = None;

@@ -55,17 +55,20 @@ pub enum Lane {
     Plan,
     /// The budget (`Effect::Budget`).
     Budget,
+    /// The distance ladder (`Effect::Ladder`).
+    Ladder,
 }
 
 impl Lane {
     /// The lanes in the order they are started.
-    pub const ALL: [Lane; 6] = [
+    pub const ALL: [Lane; 7] = [
         Lane::Night,
         Lane::Method,
         Lane::Season,
         Lane::Files,
         Lane::Plan,
         Lane::Budget,
+        Lane::Ladder,
     ];
 
     /// The lane of an effect; `None` for what runs at once, in order (saves,
@@ -78,13 +81,17 @@ impl Lane {
             Effect::Export(_) => Some(Lane::Files),
             Effect::ExportPlan(_) => Some(Lane::Plan),
             Effect::Budget(_) => Some(Lane::Budget),
+            Effect::Ladder(_) => Some(Lane::Ladder),
             Effect::Save(_) | Effect::Recovery { .. } | Effect::Next(_) | Effect::Batch(_) => None,
         }
     }
 
     /// Whether a newer job of this lane supersedes the older ones.
     pub fn supersedes(self) -> bool {
-        matches!(self, Lane::Night | Lane::Method | Lane::Budget)
+        matches!(
+            self,
+            Lane::Night | Lane::Method | Lane::Budget | Lane::Ladder
+        )
     }
 }
 
@@ -152,7 +159,7 @@ impl Jobs {
                 continue;
             }
             // The table first: the budget waits for the night table.
-            if lane == Lane::Budget
+            if matches!(lane, Lane::Budget | Lane::Ladder)
                 && (self.running.contains_key(&Lane::Night)
                     || self
                         .waiting

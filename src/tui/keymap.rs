@@ -43,6 +43,8 @@ pub enum Action {
     LoseNight,
     /// Next view: re-plan everything not done from now on.
     Replan,
+    /// The Ladder view (the distance ladder of the programme).
+    ShowLadder,
     /// Export the budget (CSV and Markdown) beside the programme file.
     Export,
     /// Schedule the Season view's span and export the plan (JSON, CSV,
@@ -231,6 +233,7 @@ pub const KEYMAP: &[Binding] = &[
     ch(S::Main, '5', A::ShowPhase, "Phase view (pulsators)"),
     ch(S::Main, '6', A::ShowChase, "Chase view (transients)"),
     ch(S::Main, '7', A::ShowBudget, "Budget view"),
+    ch(S::Main, '9', A::ShowLadder, "Ladder view (distance ladder)"),
     ch(S::Main, 'x', A::Export, "export budget (CSV, MD)"),
     ch(S::Main, 'X', A::ExportPlan, "export plan, iCal, sheet"),
     b(S::Main, KeyCode::Tab, A::NextView, "next view"),
@@ -278,7 +281,12 @@ pub const KEYMAP: &[Binding] = &[
         A::PlanHoursDown,
         "plan export: 1 h a night less",
     ),
-    ch(S::Main, 'J', A::DetailDown, "scroll the Phase/Chase list"),
+    ch(
+        S::Main,
+        'J',
+        A::DetailDown,
+        "scroll the Phase/Chase/Ladder list",
+    ),
     ch(
         S::Main,
         'K',

@@ -54,6 +54,11 @@ pub enum Msg {
         Box<BudgetKey>,
         Result<Box<crate::plan::budget::Budget>, String>,
     ),
+    /// The distance ladder was computed (or why it does not close).
+    LadderReady(
+        Box<BudgetKey>,
+        Result<Box<crate::ladder::chain::LadderReport>, String>,
+    ),
     /// An export finished: the files written, or the error.
     Exported(Result<Vec<PathBuf>, String>),
     /// A distance-method report (Phase, Chase) was computed.
@@ -204,6 +209,8 @@ pub enum Effect {
     Season(Box<SeasonJob>),
     /// Compute the programme's budget (in the background).
     Budget(Box<BudgetKey>),
+    /// Compute the programme's distance ladder (in the background).
+    Ladder(Box<BudgetKey>),
     /// Write export files atomically (path, contents).
     Export(Vec<(PathBuf, String)>),
     /// Build a schedule and write the plan files (in the background).

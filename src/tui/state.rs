@@ -33,11 +33,13 @@ pub enum View {
     Budget,
     /// What to observe now, ranked, with tonight's planned visits to mark.
     Next,
+    /// The distance ladder: the chain, the end point's budget by rung, the best next hour.
+    Ladder,
 }
 
 impl View {
     /// All views in tab order.
-    pub const ALL: [View; 8] = [
+    pub const ALL: [View; 9] = [
         View::Roster,
         View::Tonight,
         View::Season,
@@ -46,6 +48,7 @@ impl View {
         View::Chase,
         View::Budget,
         View::Next,
+        View::Ladder,
     ];
     /// Tab label.
     pub fn title(&self) -> &'static str {
@@ -58,6 +61,7 @@ impl View {
             View::Chase => "Chase",
             View::Budget => "Budget",
             View::Next => "Next",
+            View::Ladder => "Ladder",
         }
     }
     fn index(&self) -> usize {
@@ -525,6 +529,14 @@ pub struct State {
     pub budget: Option<(BudgetKey, Result<Box<crate::plan::budget::Budget>, String>)>,
     /// The budget being computed.
     pub budget_pending: Option<BudgetKey>,
+    /// The last distance ladder (or why it does not close), for the
+    /// programme and settings of its key.
+    pub ladder: Option<(
+        BudgetKey,
+        Result<Box<crate::ladder::chain::LadderReport>, String>,
+    )>,
+    /// The ladder being computed.
+    pub ladder_pending: Option<BudgetKey>,
     /// Message line.
     pub message: Option<(String, Level)>,
     /// Terminal size (columns, rows).
@@ -563,6 +575,7 @@ pub fn detail_rows(view: View, area_h: u16) -> usize {
     match view {
         View::Phase => area_h.saturating_sub(6) as usize,
         View::Chase => area_h.saturating_sub(5) as usize,
+        View::Ladder => area_h.saturating_sub(crate::tui::views::ladder::FIXED_ROWS) as usize,
         _ => 0,
     }
 }
@@ -582,6 +595,12 @@ pub fn detail_offset(scroll: usize, rows: usize, len: usize) -> usize {
 impl State {
     /// Rows in the current view's detail list (Phase windows, Chase nights), when there is one.
     pub fn detail_len(&self) -> Option<usize> {
+        if self.view == View::Ladder {
+            return match self.ladder_now()? {
+                Ok(r) => Some(r.nodes.len() + r.supernovae.len()),
+                Err(_) => None,
+            };
+        }
         match self.method_now()? {
             MethodBody::Phase(r) if self.view == View::Phase => {
                 Some(r.windows.len() + phase_extra_rows(r))
@@ -671,6 +690,12 @@ impl State {
     /// Compares in place: a redraw must not copy the programme.
     fn budget_setting_is_current(&self, k: &BudgetKey) -> bool {
         same_settings(&k.settings, &self.settings)
+    }
+
+    /// The distance ladder for the current programme and settings, when computed.
+    pub fn ladder_now(&self) -> Option<&Result<Box<crate::ladder::chain::LadderReport>, String>> {
+        let (k, r) = self.ladder.as_ref()?;
+        (self.budget_setting_is_current(k) && k.targets == self.targets).then_some(r)
     }
 
     /// The budget for the current key, when computed.

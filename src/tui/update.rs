@@ -93,6 +93,8 @@ pub fn init(setup: Setup) -> (State, Option<Effect>) {
         method_pending: None,
         budget: None,
         budget_pending: None,
+        ladder: None,
+        ladder_pending: None,
         message: setup.message.map(|m| (m, Level::Warn)),
         size: setup.size,
         theme: setup.theme,
@@ -238,7 +240,22 @@ pub fn seeing_and_comment(text: &str) -> (Option<f64>, Option<String>) {
 fn season_effect(s: &mut State) -> Option<Effect> {
     let a = season_rows_effect(s);
     let b = Effect::join(a, method_effect(s));
-    Effect::join(b, budget_effect(s))
+    let c = Effect::join(b, budget_effect(s));
+    Effect::join(c, ladder_effect(s))
+}
+
+/// Ask for the distance ladder when the Ladder view shows and it is not
+/// cached for the programme and settings.
+fn ladder_effect(s: &mut State) -> Option<Effect> {
+    if s.view != View::Ladder {
+        return None;
+    }
+    let k = s.budget_key();
+    if s.ladder.as_ref().is_some_and(|l| l.0 == k) || s.ladder_pending.as_ref() == Some(&k) {
+        return None;
+    }
+    s.ladder_pending = Some(k.clone());
+    Some(Effect::Ladder(Box::new(k)))
 }
 
 /// Ask for the budget when the Budget view or the Roster (its goal-progress
@@ -794,6 +811,10 @@ fn act_main_inner(s: &mut State, a: Action) -> Option<Effect> {
         }
         Action::LoseNight => Some(next_effect(s, NextOp::LoseNight)),
         Action::Replan => Some(next_effect(s, NextOp::Replan)),
+        Action::ShowLadder => {
+            s.view = View::Ladder;
+            season_effect(s)
+        }
         Action::Export => export(s),
         Action::ExportPlan => export_plan(s),
         Action::ShowParallax => {
@@ -958,7 +979,9 @@ fn act_main_inner(s: &mut State, a: Action) -> Option<Effect> {
                 );
                 say(
                     s,
-                    format!("nothing to scroll here: {keys} scroll the Phase and Chase lists"),
+                    format!(
+                        "nothing to scroll here: {keys} scroll the Phase, Chase and Ladder lists"
+                    ),
                     Level::Info,
                 );
                 return None;
@@ -1232,6 +1255,15 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
             }
             if *k == s.budget_key() {
                 s.budget = Some((*k, r));
+            }
+            None
+        }
+        Msg::LadderReady(k, r) => {
+            if s.ladder_pending.as_ref() == Some(&*k) {
+                s.ladder_pending = None;
+            }
+            if *k == s.budget_key() {
+                s.ladder = Some((*k, r));
             }
             None
         }

@@ -6,6 +6,7 @@ pub mod chart;
 pub mod chase;
 pub mod fmt;
 pub mod next;
+pub mod ladder;
 pub mod overlays;
 pub mod parallax;
 pub mod phase;
@@ -250,6 +251,7 @@ pub fn render_all(s: &State, area: Rect, buf: &mut Buffer) {
         View::Chase => chase::render(s, body, buf),
         View::Budget => budget::render(s, body, buf),
         View::Next => next::render(s, body, buf),
+        View::Ladder => ladder::render(s, body, buf),
     }
     bottom(
         s,

@@ -1,0 +1,270 @@
+//! Ladder: the programme's distance ladder as `rung ladder` gives it
+//! (`ladder::chain::report`, the same report): each rung's distances with
+//! their σ split into own and shared, the end point's error budget by rung
+//! with each rung's largest term, what one more hour on each target buys at
+//! the end point, and the best next hours.
+
+use crate::ladder::chain::{LadderReport, Rung};
+use crate::tui::state::{State, detail_offset, detail_rows};
+use crate::tui::views::fmt::{fit, pct, put, rfit};
+use ratatui::buffer::Buffer;
+use ratatui::layout::Rect;
+
+/// Rows of the view other than the chain's (title, end point, header, the
+/// budget by rung with its heading, the best next hours with theirs).
+pub const FIXED_ROWS: u16 = 3 + 1 + Rung::ALL.len() as u16 + 1 + NEXT_ROWS as u16;
+
+/// Steps listed under "Best next hour".
+pub const NEXT_ROWS: usize = 3;
+
+/// A number with `dp` decimals, or "—" (the output layer's rules).
+fn n(v: f64, dp: usize) -> String {
+    crate::output::fixed(v, dp).unwrap_or_else(|| "—".into())
+}
+
+/// The chain's rows: (rung, name, μ, σ, own %, shared %, σd/d %, gain %/h).
+pub fn chain_rows(r: &LadderReport) -> Vec<[String; 8]> {
+    r.nodes
+        .iter()
+        .chain(r.supernovae.iter())
+        .map(|d| {
+            let gain = r
+                .marginal_of_row(&d.name)
+                .map_or("—".to_string(), |g| n(g, 3));
+            [
+                d.rung.text().to_string(),
+                d.name.clone(),
+                n(d.modulus_mag, 3),
+                n(d.sigma_mag, 3),
+                pct(d.own_pct, 2),
+                pct(d.shared_pct, 2),
+                pct(d.distance_pct, 2),
+                gain,
+            ]
+        })
+        .collect()
+}
+
+/// Column widths of the chain (the name takes what is left).
+const W: [usize; 8] = [11, 0, 7, 5, 6, 7, 6, 7];
+
+fn line(v: &[String; 8], name_w: usize) -> String {
+    v.iter()
+        .enumerate()
+        .map(|(i, t)| match i {
+            0 => fit(t, W[0]),
+            1 => fit(t, name_w),
+            _ => rfit(t, W[i]),
+        })
+        .collect::<Vec<_>>()
+        .join(" ")
+}
+
+/// The end point in one line: its σ (and H0 with its σ when it is H0),
+/// own and shared.
+pub fn end_point_line(r: &LadderReport) -> String {
+    let b = &r.end_point;
+    let own = 100.0 * crate::ladder::DIST_FRAC_PER_MAG * b.own_sigma_mag;
+    let shared = 100.0 * crate::ladder::DIST_FRAC_PER_MAG * b.shared_sigma_mag;
+    let head = match (&b.end_point, r.h0_km_s_mpc) {
+        (crate::ladder::chain::EndPoint::Hubble, Some(h)) => format!(
+            "H0 {} ± {} km/s/Mpc",
+            n(h, 2),
+            n(h * b.distance_pct / 100.0, 2)
+        ),
+        _ => format!(
+            "{}: μ {} ± {}",
+            r.end_point_text,
+            n(b.value_mag, 3),
+            n(b.sigma_mag, 3)
+        ),
+    };
+    format!(
+        "End point {head} · σ {} · own {} | shared {}",
+        pct(b.distance_pct, 2),
+        pct(own, 2),
+        pct(shared, 2)
+    )
+}
+
+/// One rung's line of the end point's budget: its σd/d, its share of the
+/// variance and its largest term.
+pub fn rung_line(r: &LadderReport, rung: Rung) -> Option<String> {
+    let s = r.end_point.by_rung.iter().find(|s| s.rung == rung)?;
+    let top = r
+        .end_point
+        .by_term
+        .iter()
+        .filter(|t| t.rung == rung)
+        .max_by(|a, b| a.variance_fraction.total_cmp(&b.variance_fraction));
+    Some(format!(
+        "  {} {} {}{}",
+        fit(rung.text(), 15),
+        rfit(&pct(s.distance_pct, 2), 7),
+        rfit(&format!("{}%", n(100.0 * s.variance_fraction, 1)), 6),
+        top.map_or(String::new(), |t| format!(
+            "  largest: {} {}",
+            t.term,
+            pct(t.distance_pct, 2)
+        ))
+    ))
+}
+
+/// One step of the best next hours.
+pub fn next_line(s: &crate::ladder::chain::Ranked) -> String {
+    format!(
+        "  {} %/h  {} ({} h: {} → {})",
+        rfit(&n(s.gain_pct_per_hour, 3), 7),
+        s.step.label,
+        n(s.step.hours, if s.step.hours < 0.1 { 2 } else { 1 }),
+        pct(s.before_pct, 2),
+        pct(s.after_pct, 2)
+    )
+}
+
+/// Draw the Ladder view.
+pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
+    let th = &s.theme;
+    if area.height < 6 || area.width < 40 {
+        put(
+            buf,
+            area.x,
+            area.y,
+            "Ladder: window too small",
+            area.width,
+            th.dim(),
+        );
+        return;
+    }
+    let st = &s.settings;
+    let title = format!(
+        "Ladder · {} to {} · {} · {}",
+        st.from,
+        st.to,
+        st.site.name,
+        st.instrument().name
+    );
+    put(buf, area.x, area.y, &title, area.width, th.title());
+    let r = match s.ladder_now() {
+        None => {
+            put(
+                buf,
+                area.x,
+                area.y + 2,
+                "building the ladder from every target's plan (this takes a while for parallaxes)…",
+                area.width,
+                th.dim(),
+            );
+            return;
+        }
+        Some(Err(e)) => {
+            // Why the chain does not close, in full: it names the open link.
+            let lines = textwrap_simple(&format!("no ladder: {e}"), area.width as usize);
+            for (y, part) in (area.y + 2..area.y + area.height).zip(lines) {
+                put(buf, area.x, y, &part, area.width, th.warn());
+            }
+            return;
+        }
+        Some(Ok(r)) => r,
+    };
+    put(
+        buf,
+        area.x,
+        area.y + 1,
+        &end_point_line(r),
+        area.width,
+        th.text(),
+    );
+    let name_w = (area.width as usize)
+        .saturating_sub(W.iter().sum::<usize>() + 7)
+        .clamp(8, 24);
+    let head = [
+        "rung", "name", "μ mag", "±", "own", "shared", "σd/d", "+1h %/h",
+    ]
+    .map(String::from);
+    put(
+        buf,
+        area.x,
+        area.y + 2,
+        &line(&head, name_w),
+        area.width,
+        th.header(),
+    );
+    let rows = chain_rows(r);
+    let shown = detail_rows(crate::tui::state::View::Ladder, area.height);
+    let off = detail_offset(s.detail_scroll, shown, rows.len());
+    for (k, v) in rows.iter().skip(off).take(shown).enumerate() {
+        put(
+            buf,
+            area.x,
+            area.y + 3 + k as u16,
+            &line(v, name_w),
+            area.width,
+            th.text(),
+        );
+    }
+    let mut y = area.y + 3 + shown as u16;
+    put(
+        buf,
+        area.x,
+        y,
+        "Budget by rung (σd/d, share of the variance, largest term)",
+        area.width,
+        th.header(),
+    );
+    y += 1;
+    for rung in Rung::ALL {
+        if let Some(l) = rung_line(r, rung) {
+            put(buf, area.x, y, &l, area.width, th.text());
+            y += 1;
+        }
+    }
+    let y = area.y + area.height - 1 - NEXT_ROWS as u16;
+    put(
+        buf,
+        area.x,
+        y,
+        "Best next hour (fall of the end point's σd/d per telescope hour)",
+        area.width,
+        th.header(),
+    );
+    if r.next.is_empty() {
+        put(
+            buf,
+            area.x,
+            y + 1,
+            "  no step helps the end point",
+            area.width,
+            th.dim(),
+        );
+    }
+    for (k, step) in r.next.iter().take(NEXT_ROWS).enumerate() {
+        put(
+            buf,
+            area.x,
+            y + 1 + k as u16,
+            &next_line(step),
+            area.width,
+            th.good(),
+        );
+    }
+}
+
+/// Split text into lines of at most `w` characters at spaces.
+fn textwrap_simple(text: &str, w: usize) -> Vec<String> {
+    let mut out = Vec::new();
+    let mut cur = String::new();
+    for word in text.split(' ') {
+        if !cur.is_empty() && cur.chars().count() + 1 + word.chars().count() > w {
+            out.push(std::mem::take(&mut cur));
+        }
+        if !cur.is_empty() {
+            cur.push(' ');
+        }
+        cur.push_str(word);
+    }
+    if !cur.is_empty() {
+        out.push(cur);
+    }
+    out
+}

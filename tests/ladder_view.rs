@@ -1,0 +1,205 @@
+//! The Ladder view (src/tui/views/ladder.rs) draws the report `rung ladder
+//! --json` gives for the same programme and settings, number for number: each
+//! rung's distances with own and shared σ, the end point's budget by rung
+//! with its largest term, what one more hour on each row buys, and the best
+//! next hours (TestBackend at 80×24 and 160×48).
+
+#[path = "tui_support.rs"]
+mod support;
+
+use std::process::Command;
+use support::{ch, has, row_of, screen, state_with};
+
+fn programme_file() -> std::path::PathBuf {
+    std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/ladder_support/programme.csv")
+}
+
+fn n(v: f64, dp: usize) -> String {
+    rung::output::fixed(v, dp).unwrap()
+}
+
+#[test]
+fn the_ladder_view_shows_the_numbers_of_rung_ladder_json() {
+    let targets = rung::io::targets::load(&programme_file()).unwrap().targets;
+    let dir = tempfile::tempdir().unwrap();
+    let mut s = state_with(
+        targets,
+        None,
+        dir.path().join("programme.csv"),
+        true,
+        (80, 24),
+        false,
+    );
+    ch(&mut s, '9');
+    assert_eq!(s.view, rung::tui::state::View::Ladder);
+    // The same settings on the command line (the UI's: demo site, camera,
+    // range and limits).
+    let st = &s.settings;
+    let cfg = tempfile::tempdir().unwrap();
+    let out = Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args([
+            "ladder",
+            "--targets",
+            programme_file().to_str().unwrap(),
+            "--site",
+            &st.site.name,
+            "--instrument",
+            &st.instrument().name,
+            "--from",
+            &st.from.to_string(),
+            "--to",
+            &st.to.to_string(),
+            "--min-alt",
+            &st.limits.min_alt_deg.to_string(),
+            "--sun-alt",
+            &st.limits.sun_alt_deg.to_string(),
+            "--json",
+        ])
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .env("RUNG_CONFIG_DIR", cfg.path())
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let f = |v: &serde_json::Value| v.as_f64().unwrap();
+    for (w, h) in [(80u16, 24u16), (160, 48)] {
+        s.size = (w, h);
+        let (rows, _) = screen(&s, w, h);
+        let text = rows.join("\n");
+        assert!(
+            rows[2].starts_with(&format!(
+                "Ladder · {} to {} · {} · {}",
+                st.from,
+                st.to,
+                st.site.name,
+                st.instrument().name
+            )),
+            "{text}"
+        );
+        // The end point: H0 with its σ, own and shared.
+        let ep = &j["end_point"];
+        let h0 = f(&j["h0_km_s_mpc"]);
+        let pct = f(&ep["distance_pct"]);
+        let k = 100.0 * rung::ladder::DIST_FRAC_PER_MAG;
+        let line = row_of(&rows, "End point");
+        for want in [
+            format!("H0 {} ± {} km/s/Mpc", n(h0, 2), n(h0 * pct / 100.0, 2)),
+            format!("σ {}%", n(pct, 2)),
+            format!("own {}%", n(k * f(&ep["own_sigma_mag"]), 2)),
+            format!("shared {}%", n(k * f(&ep["shared_sigma_mag"]), 2)),
+        ] {
+            assert!(line.contains(&want), "{want:?} not in {line:?}");
+        }
+        // Each row of the chain shown: μ, σ, own, shared, σd/d and the
+        // gain of one more hour there.
+        let shown = rung::tui::state::detail_rows(
+            rung::tui::state::View::Ladder,
+            h - rung::tui::state::CHROME_ROWS,
+        );
+        let all: Vec<&serde_json::Value> = j["nodes"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .chain(j["supernovae"].as_array().unwrap())
+            .collect();
+        assert!(shown >= 5 && all.len() > 5);
+        for d in all.iter().take(shown) {
+            let name = d["name"].as_str().unwrap();
+            let line = row_of(&rows, &format!(" {name} "));
+            for want in [
+                n(f(&d["modulus_mag"]), 3),
+                n(f(&d["sigma_mag"]), 3),
+                format!("{}%", n(f(&d["own_pct"]), 2)),
+                format!("{}%", n(f(&d["shared_pct"]), 2)),
+                format!("{}%", n(f(&d["distance_pct"]), 2)),
+            ] {
+                assert!(line.contains(&want), "{want:?} not in {line:?}");
+            }
+            // The best one-more-visit gain of the row's targets.
+            let gain = j["marginal"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .filter(|m| {
+                    m["target"] == d["name"]
+                        || (m["node"] == d["name"]
+                            && matches!(m["role"].as_str(), Some("anchor" | "host_star")))
+                })
+                .filter_map(|m| m["gain_pct_per_hour"].as_f64())
+                .max_by(f64::total_cmp);
+            let want = gain.map_or("—".to_string(), |g| n(g, 3));
+            assert!(
+                line.trim_end().ends_with(&want),
+                "{want:?} at the end of {line:?}"
+            );
+        }
+        // The budget by rung: each rung's σd/d and share of the variance.
+        for r in ep["by_rung"].as_array().unwrap() {
+            let rung = match r["rung"].as_str().unwrap() {
+                "anchor" => "anchors",
+                "host" => "host fields",
+                "calibrator" => "calibrators",
+                "hubble_flow" => "Hubble flow",
+                _ => "relation priors",
+            };
+            let line = row_of(&rows, &format!("  {rung} "));
+            assert!(
+                line.contains(&format!("{}%", n(f(&r["distance_pct"]), 2))),
+                "{line}"
+            );
+            assert!(
+                line.contains(&format!("{}%", n(100.0 * f(&r["variance_fraction"]), 1))),
+                "{line}"
+            );
+            assert!(line.contains("largest: "), "{line}");
+        }
+        // The best next hours, best first, as the command ranks them.
+        assert!(has(&rows, "Best next hour"));
+        for step in j["next"].as_array().unwrap().iter().take(3) {
+            let line = row_of(&rows, step["label"].as_str().unwrap());
+            assert!(
+                line.contains(&format!("{} %/h", n(f(&step["gain_pct_per_hour"]), 3))),
+                "{line}"
+            );
+        }
+    }
+    // J scrolls the chain (more rows than fit at 80×24).
+    s.size = (80, 24);
+    ch(&mut s, 'J');
+    assert_eq!(s.detail_scroll, 1);
+    let (rows, _) = screen(&s, 80, 24);
+    let first = j["nodes"][0]["name"].as_str().unwrap();
+    assert!(!has(&rows, &format!(" {first} ")), "{}", rows.join("\n"));
+}
+
+#[test]
+fn an_open_ladder_says_which_link_is_missing() {
+    // No anchor: the view says why the chain does not close, as the command does.
+    let targets: Vec<_> = rung::io::targets::load(&programme_file())
+        .unwrap()
+        .targets
+        .into_iter()
+        .filter(|t| !t.name.starts_with("LPO-A"))
+        .collect();
+    let dir = tempfile::tempdir().unwrap();
+    let mut s = state_with(
+        targets,
+        None,
+        dir.path().join("programme.csv"),
+        true,
+        (80, 24),
+        false,
+    );
+    ch(&mut s, '9');
+    let (rows, _) = screen(&s, 80, 24);
+    let text = rows.join(" ");
+    assert!(
+        text.contains("no ladder: the chain is not closed: relation cepheid V has no anchor"),
+        "{}",
+        rows.join("\n")
+    );
+}
