@@ -187,6 +187,26 @@ fn print_text(r: &LadderReport, st: &rung::programme::Settings, steps: usize) {
             "  (a new calibrator needs a supernova to go off in a host field: its hours are the chase's, its timing is not the observer's to choose)"
         );
     }
+    outln!();
+    outln!("One more visit of each target (its method's; fall of the end point's σd/d per hour):");
+    for m in &r.marginal {
+        match (&m.step, m.hours, m.gain_pct_per_hour) {
+            (Some(step), Some(h), Some(g)) => outln!(
+                "  {:>8.3} %/h  {:<16} {} ({} h)",
+                g,
+                m.role.text(),
+                step,
+                rung::output::num(h, if h < 0.1 { 2 } else { 1 })
+            ),
+            _ => outln!(
+                "  {:>8}      {:<16} {}: {}",
+                "–",
+                m.role.text(),
+                m.target,
+                m.why.as_deref().unwrap_or("")
+            ),
+        }
+    }
     for n in &r.notes {
         outln!("note: {n}");
     }

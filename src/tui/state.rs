@@ -568,6 +568,15 @@ pub fn scroll_offset(sel: usize, height: usize) -> usize {
     sel.saturating_sub(height - 1)
 }
 
+/// Steps the Ladder view lists under "Best next hour".
+pub const LADDER_NEXT_ROWS: u16 = 3;
+
+/// Rows of the Ladder view other than the chain's: title, end point and
+/// header; the budget's heading and a line for each rung; the best next
+/// hours with their heading.
+pub const LADDER_FIXED_ROWS: u16 =
+    3 + 1 + crate::ladder::chain::Rung::ALL.len() as u16 + 1 + LADDER_NEXT_ROWS;
+
 /// Rows of the detail list a view shows in a view area `area_h` rows tall
 /// (Phase: title, coverage and header rows above, three foot rows below;
 /// Chase: title and header above, three below).
@@ -575,7 +584,7 @@ pub fn detail_rows(view: View, area_h: u16) -> usize {
     match view {
         View::Phase => area_h.saturating_sub(6) as usize,
         View::Chase => area_h.saturating_sub(5) as usize,
-        View::Ladder => area_h.saturating_sub(crate::tui::views::ladder::FIXED_ROWS) as usize,
+        View::Ladder => area_h.saturating_sub(LADDER_FIXED_ROWS) as usize,
         _ => 0,
     }
 }

@@ -10,12 +10,8 @@ use crate::tui::views::fmt::{fit, pct, put, rfit};
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
 
-/// Rows of the view other than the chain's (title, end point, header, the
-/// budget by rung with its heading, the best next hours with theirs).
-pub const FIXED_ROWS: u16 = 3 + 1 + Rung::ALL.len() as u16 + 1 + NEXT_ROWS as u16;
-
 /// Steps listed under "Best next hour".
-pub const NEXT_ROWS: usize = 3;
+const NEXT_ROWS: usize = crate::tui::state::LADDER_NEXT_ROWS as usize;
 
 /// A number with `dp` decimals, or "—" (the output layer's rules).
 fn n(v: f64, dp: usize) -> String {
