@@ -686,8 +686,8 @@ fn method_options() {
     );
     run(
         "M7",
-        vec!["parallax".into(), "--target".into(), "LPO-C02".into()],
-        "invalid target 'LPO-C02': has no expected parallax_mas: give one (mas, positive)",
+        vec!["parallax".into(), "--target".into(), "LPO-C04".into()],
+        "invalid target 'LPO-C04': has no expected parallax_mas: give one (mas, positive)",
     );
     run(
         "M8",
