@@ -18,7 +18,10 @@ Needs the release binary: cargo build --release (or --rung PATH).
 With --programme it times instead the jobs an observer runs on a whole
 programme, each once, as the command line runs them (nights built afresh):
 `rung budget` over 18 months, `rung plan` over 6 months at 8 h a night and
-`rung night --targets`, on synthetic invented programmes of 26, 1,000 and
+`rung night --targets`, and at the telescope `rung plan` over two weeks
+saved, `rung next --plan` on it and the re-plan after a lost night
+(`rung plan --load --lost-night --replan`; criterion: benches/schedule.rs),
+on synthetic invented programmes of 26, 1,000 and
 10,000 targets (`--sizes`), the rows benches/support/synthetic.rs writes for
 the criterion benchmark (benches/programme.rs): wall and CPU seconds and peak
 memory of each run, with the machine's load average.
@@ -191,11 +194,17 @@ def programme_scale(a):
             with open(path, "w") as f:
                 f.write(synthetic_programme(n))
             site = ["--site", SITE["name"], "--targets", path]
+            plan_path = os.path.join(tmp, f"plan-{n}.json")
             jobs = [
                 ("budget, 18 months", ["budget", *site, "--from", "2026-12-01", "--to", "2028-05-31", "--json"]),
                 ("plan, 6 months, 8 h/night", ["plan", *site, "--from", "2026-12-01", "--to", "2027-05-31",
                                                "--hours-per-night", "8", "--json"]),
                 ("night --targets", ["night", *site, "--date", "2026-12-01", "--json"]),
+                ("plan, two weeks, 8 h/night, saved", ["plan", *site, "--from", "2026-12-01", "--to", "2026-12-14",
+                                                       "--hours-per-night", "8", "--save", plan_path]),
+                ("next --plan", ["next", "--plan", plan_path, "--json"]),
+                ("re-plan after a lost night", ["plan", "--load", plan_path, "--lost-night", "2026-12-02",
+                                                "--replan", "--json"]),
             ]
             for label, args in jobs:
                 if a.only and a.only not in label:

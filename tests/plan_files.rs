@@ -142,3 +142,19 @@ fn replanned_visits_never_reuse_an_id() {
     save(&p, &path).unwrap();
     assert!(load(&path).is_ok());
 }
+
+/// An unknown key's message lists every key a plan file holds, whole, and
+/// cuts the file's own text (the key found) at 60 characters.
+#[test]
+fn an_unknown_key_names_every_key_whole_and_cuts_only_the_files_text() {
+    let long = "k".repeat(500);
+    let text = format!("{{\n  \"format\": \"rung-plan/1\",\n  \"{long}\": 1\n}}\n");
+    let e = rung::plan::file::parse(&text, std::path::Path::new("p.json"))
+        .unwrap_err()
+        .to_string();
+    assert!(
+        e.contains(&format!("unknown field `{}…`", "k".repeat(60))),
+        "{e}"
+    );
+    assert!(e.ends_with("`visits`, `horizon_to`, `log_seq`"), "{e}");
+}

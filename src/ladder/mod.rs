@@ -412,6 +412,23 @@ pub trait Method: Send + Sync {
     fn min_spacing_s(&self) -> f64 {
         DEFAULT_SPACING_S
     }
+    /// Which of the `wanted` epochs the `done` ones already give, by the
+    /// method's own measure of a repeated epoch. The scheduler does not plan
+    /// those again when it re-plans, and the Next queue asks whether an epoch
+    /// tonight can be had tomorrow night. One entry per wanted epoch:
+    /// `Some(why)` when a done epoch gives it, `None` when it is still
+    /// wanted; a done epoch gives at most one. Default: [`covered_nearest`]
+    /// (each done epoch gives the wanted epoch nearest it in time: a visit
+    /// stands for the epoch it was planned as).
+    fn covered(
+        &self,
+        s: &Setting,
+        done: &[Epoch],
+        wanted: &[Epoch],
+    ) -> Result<Vec<Option<String>>> {
+        let _ = s;
+        Ok(covered_nearest(done, wanted))
+    }
     /// The distance goal (percent) the method plans for when neither the
     /// target nor its programme gives one.
     fn default_goal_pct(&self) -> Option<f64> {
@@ -491,6 +508,26 @@ pub fn one_more_by_repeat<M: Method + ?Sized>(
         }
     }
     Ok(best.map(|(_, p)| p))
+}
+
+/// The default measure of [`Method::covered`]: each done epoch, in order,
+/// gives the wanted epoch nearest it in time not yet given (the first of
+/// equals).
+pub fn covered_nearest(done: &[Epoch], wanted: &[Epoch]) -> Vec<Option<String>> {
+    let mut out: Vec<Option<String>> = vec![None; wanted.len()];
+    for d in done {
+        let near = (0..wanted.len())
+            .filter(|k| out[*k].is_none())
+            .min_by(|a, b| {
+                let da = wanted[*a].time.seconds_since(&d.time).abs();
+                let db = wanted[*b].time.seconds_since(&d.time).abs();
+                da.total_cmp(&db)
+            });
+        if let Some(k) = near {
+            out[k] = Some(format!("given by the visit done at {}", d.time.iso()));
+        }
+    }
+    out
 }
 
 /// The distance goal of a target (percent): its own `goal_pct`, else the

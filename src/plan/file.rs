@@ -277,6 +277,23 @@ fn key_on_line(text: &str, line: usize) -> Option<String> {
     Some(crate::error::one_line_cut(key, 40))
 }
 
+/// The parser's message, safe for one line and whole: an unknown key's
+/// message lists every key a plan file holds (rung's own words, kept whole)
+/// after the key found (the file's text, cut to 60 characters); any other
+/// message is cut at 200 characters.
+fn parser_words(msg: &str) -> String {
+    if let Some(rest) = msg.strip_prefix("unknown field `")
+        && let Some((key, expected)) = rest.split_once("`, expected ")
+    {
+        return format!(
+            "unknown field `{}`, expected {}",
+            crate::error::one_line_cut(key, 60),
+            crate::error::one_line_cut(expected, 1000)
+        );
+    }
+    crate::error::one_line_cut(msg, 200)
+}
+
 /// Parse plan text.
 pub fn parse(text: &str, path: &Path) -> Result<PlanFile> {
     let p: PlanFile = serde_json::from_str(text).map_err(|e| {
@@ -301,7 +318,7 @@ pub fn parse(text: &str, path: &Path) -> Result<PlanFile> {
             msg: format!(
                 "not a readable plan file (column {}): {}",
                 e.column(),
-                crate::error::one_line_cut(msg, 200)
+                parser_words(msg)
             ),
         }
     })?;

@@ -11,16 +11,21 @@
 //!
 //! score = priority × (1 + 2 × urgency) × (1 / airmass) × plan factor
 //!
-//! - *urgency* (0 to 1) is the largest of: the window closing (1 when it
-//!   closes now, 0 with three hours or more left); a transient on the last
-//!   night the plan gives it (1), or with later visits planned (0.3), or
-//!   without a plan (0.5); a pulsator whose current phase bin (the method's
-//!   bins) is not reachable tomorrow night (1, else 0.2); a parallax target
-//!   whose right-ascension parallax factor is near its yearly extreme
-//!   (0 at 80 % of the extreme, 1 at the extreme).
-//! - *plan factor*: 1.5 for a planned visit due now (its start within 30
-//!   minutes, or passed and not done), 1.2 for one later tonight, 1 for a
-//!   target without a visit tonight (still a candidate to fill time).
+//! *Urgency* (0 to 1) is the largest of the named rules below
+//! ([`UrgencyRule`]; each row lists the rules that gave it more than 0,
+//! JSON `urgency_rules`). They are written here once and each is a function
+//! of its own, tested in `tests/plan_now.rs`:
+//!
+//! | rule | applies to | value |
+//! | --- | --- | --- |
+//! | `window_closing` | every visible target | 1 − minutes left / 180: 1 as the window closes, 0 with three hours or more left ([`window_closing`]) |
+//! | `last_planned_night` | a transient with a plan | 1 when tonight's planned visit is the last the plan gives it (its useful window closes), else 0 ([`last_planned_night`]) |
+//! | `only_tonight` | a target whose method judges epochs (`Method::covered`) | 1 when no instant inside tomorrow night's windows (sampled every 10 minutes) gives the epoch a visit tonight gives, by the method's own measure: for a pulsator its phase bin, for any target a night without a window tomorrow; else 0 ([`only_tonight`]) |
+//! | `parallax_extreme` | a parallax target | 0 at 80 % of the yearly extreme of its right-ascension parallax factor, rising to 1 at the extreme ([`parallax_extreme`]) |
+//!
+//! The *plan factor* is 1.5 for a planned visit due now (its start within 30
+//! minutes, or passed and not done), 1.2 for one later tonight, 1 for a
+//! target without a visit tonight (still a candidate to fill time).
 //!
 //! Each row also says the current altitude, hour angle, airmass, Moon
 //! distance, minutes left above the limit, the exposure to take (the planned
@@ -34,7 +39,7 @@ use crate::astro::sun_caution_at;
 use crate::astro::time::Instant;
 use crate::error::Result;
 use crate::io::targets::{Kind, Target};
-use crate::ladder::BandExposure;
+use crate::ladder::{BandExposure, Epoch, Method, Setting};
 use crate::plan::file::PlanFile;
 use crate::plan::schedule::{Status, Visit};
 use crate::programme::Settings;
@@ -78,8 +83,10 @@ pub struct NowRow {
     pub sun_caution: Option<String>,
     /// The target's priority.
     pub priority: f64,
-    /// Urgency, 0 to 1.
+    /// Urgency, 0 to 1: the largest of `urgency_rules` (0 when none applies).
     pub urgency: f64,
+    /// The urgency rules that gave more than 0, with their values and why.
+    pub urgency_rules: Vec<Urgent>,
     /// Why it ranks where it does, in words.
     pub reasons: Vec<String>,
     /// The score (0 when not visible).
@@ -101,19 +108,109 @@ pub struct Queue {
     pub rows: Vec<NowRow>,
 }
 
-/// Phase bins a pulsator's method uses when its configuration does not say.
-const DEFAULT_BINS: usize = 10;
+/// The urgency rules of the queue (see the module documentation's table).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum UrgencyRule {
+    /// The current window closes soon ([`window_closing`]).
+    WindowClosing,
+    /// A transient's last planned night ([`last_planned_night`]).
+    LastPlannedNight,
+    /// The epoch of a visit tonight cannot be had tomorrow night ([`only_tonight`]).
+    OnlyTonight,
+    /// A parallax factor near its yearly extreme ([`parallax_extreme`]).
+    ParallaxExtreme,
+}
 
-fn bins(settings: &Settings) -> usize {
-    settings
-        .method(Kind::Pulsator)
-        .map(|m| m.config_json())
-        .and_then(|j| {
-            j.pointer("/defaults/bins")
-                .or_else(|| j.pointer("/bins"))
-                .and_then(|b| b.as_u64())
-        })
-        .map_or(DEFAULT_BINS, |b| b.max(1) as usize)
+impl UrgencyRule {
+    /// The rule's name, as JSON writes it.
+    pub fn name(self) -> &'static str {
+        match self {
+            UrgencyRule::WindowClosing => "window_closing",
+            UrgencyRule::LastPlannedNight => "last_planned_night",
+            UrgencyRule::OnlyTonight => "only_tonight",
+            UrgencyRule::ParallaxExtreme => "parallax_extreme",
+        }
+    }
+}
+
+/// One urgency rule that applies to a row.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Urgent {
+    /// The rule.
+    pub rule: UrgencyRule,
+    /// Its value, 0 to 1.
+    pub value: f64,
+    /// Why, in words.
+    pub why: String,
+}
+
+/// Minutes left in a window at which `window_closing` starts to rise.
+pub const WINDOW_CLOSING_MIN: f64 = 180.0;
+
+/// Rule `window_closing`: 1 − minutes left / 180, within 0 to 1.
+pub fn window_closing(minutes_left: f64) -> f64 {
+    (1.0 - minutes_left / WINDOW_CLOSING_MIN).clamp(0.0, 1.0)
+}
+
+/// Rule `last_planned_night`: 1 when a transient has a planned visit tonight
+/// and none on a later night, else 0.
+pub fn last_planned_night(planned_tonight: bool, planned_later: bool) -> f64 {
+    if planned_tonight && !planned_later {
+        1.0
+    } else {
+        0.0
+    }
+}
+
+/// Step between the instants of tomorrow night the `only_tonight` rule
+/// tries, seconds (10 minutes).
+pub const ONLY_TONIGHT_STEP_S: f64 = 600.0;
+
+/// Rule `only_tonight`: 1 when none of `tomorrow` (instants inside tomorrow
+/// night's windows, as epochs) gives the epoch `tonight` gives by the
+/// method's own measure (`Method::covered`), else 0. With no instant
+/// tomorrow (no window) it is 1. The method's reason is returned with a 0.
+pub fn only_tonight(
+    m: &dyn Method,
+    s: &Setting,
+    tonight: &Epoch,
+    tomorrow: &[Epoch],
+) -> Result<(f64, Option<String>)> {
+    if tomorrow.is_empty() {
+        return Ok((1.0, None));
+    }
+    let covered = m.covered(s, tomorrow, std::slice::from_ref(tonight))?;
+    Ok(match covered.into_iter().next().flatten() {
+        Some(why) => (0.0, Some(why)),
+        None => (1.0, None),
+    })
+}
+
+/// The ratio at which `parallax_extreme` starts to rise.
+pub const PARALLAX_EXTREME_FROM: f64 = 0.8;
+
+/// Rule `parallax_extreme`: 0 up to 80 % of the yearly extreme of the
+/// right-ascension parallax factor (`ratio` = |factor now| / its extreme),
+/// rising linearly to 1 at the extreme.
+pub fn parallax_extreme(ratio: f64) -> f64 {
+    ((ratio - PARALLAX_EXTREME_FROM) / (1.0 - PARALLAX_EXTREME_FROM)).clamp(0.0, 1.0)
+}
+
+/// Instants inside `windows`, every [`ONLY_TONIGHT_STEP_S`], as epochs like `tpl`.
+fn sample_epochs(windows: &[(Instant, Instant)], tpl: &Epoch) -> Vec<Epoch> {
+    let mut out = Vec::new();
+    for (a, b) in windows {
+        let span = b.seconds_since(a);
+        let n = (span / ONLY_TONIGHT_STEP_S).floor() as usize;
+        for k in 0..=n {
+            out.push(Epoch {
+                time: a.add_seconds((k as f64 * ONLY_TONIGHT_STEP_S).min(span)),
+                ..tpl.clone()
+            });
+        }
+    }
+    out
 }
 
 /// The queue at `now` (see the module documentation).
@@ -140,7 +237,6 @@ pub fn queue(
         .succ_opt()
         .map(|d| Night::shared(site, d))
         .transpose()?;
-    let n_bins = bins(settings);
     let visits: &[Visit] = plan.map_or(&[], |p| &p.visits);
     let mut rows: Vec<NowRow> = Vec::new();
     for t in targets {
@@ -184,92 +280,77 @@ pub fn queue(
                 .copied()
         });
         let mut reasons = Vec::new();
-        let mut urgency: f64 = 0.0;
+        let mut rules: Vec<Urgent> = Vec::new();
         if visible {
-            let closing = (1.0 - minutes_left / 180.0).clamp(0.0, 1.0);
-            if closing > 0.0 {
-                reasons.push(format!("window closes in {:.0} min", minutes_left));
+            let u = window_closing(minutes_left);
+            if u > 0.0 {
+                rules.push(Urgent {
+                    rule: UrgencyRule::WindowClosing,
+                    value: u,
+                    why: format!("window closes in {minutes_left:.0} min"),
+                });
             }
-            urgency = urgency.max(closing);
         }
-        match t.kind {
-            Kind::Transient => {
-                let later = mine
-                    .iter()
-                    .any(|v| v.status == Status::Planned && v.night > night_date);
-                let u = if plan.is_none() {
-                    0.5
-                } else if tonight_visit.is_some() && !later {
-                    reasons.push("last planned night of its useful window".into());
-                    1.0
-                } else {
-                    0.3
-                };
-                urgency = urgency.max(u);
+        if t.kind == Kind::Transient && plan.is_some() {
+            let later = mine
+                .iter()
+                .any(|v| v.status == Status::Planned && v.night > night_date);
+            let u = last_planned_night(tonight_visit.is_some(), later);
+            if u > 0.0 {
+                rules.push(Urgent {
+                    rule: UrgencyRule::LastPlannedNight,
+                    value: u,
+                    why: "last planned night of its useful window".into(),
+                });
             }
-            Kind::Pulsator => {
-                if let (Some(p), Some(e0)) = (t.period_d, t.epoch_max_bjd) {
-                    let at = tonight_visit.map_or(now, |v| v.mid());
-                    let bjd = crate::astro::bary::bjd_tdb(site, at, &place)?;
-                    let phase = (bjd.days_since(e0) / p).rem_euclid(1.0);
-                    let bin = ((phase * n_bins as f64).floor() as usize).min(n_bins - 1);
-                    let lo = bin as f64 / n_bins as f64;
-                    let hi = (bin + 1) as f64 / n_bins as f64;
-                    // Is the bin reached inside tomorrow night's windows?
-                    let again = tomorrow.as_ref().is_some_and(|tm| {
-                        tm.windows(&place, &limits).windows.iter().any(|(a, b)| {
-                            let pa = (phase + a.seconds_since(&at) / 86_400.0 / p).rem_euclid(1.0);
-                            let span = b.seconds_since(a) / 86_400.0 / p;
-                            if span >= 1.0 {
-                                return true;
-                            }
-                            // The phases [pa, pa + span] (mod 1) meet [lo, hi).
-                            let meets = |x0: f64, x1: f64| x0 < hi && x1 >= lo;
-                            let end = pa + span;
-                            if end <= 1.0 {
-                                meets(pa, end)
-                            } else {
-                                meets(pa, 1.0) || meets(0.0, end - 1.0)
-                            }
-                        })
-                    });
-                    if again {
-                        urgency = urgency.max(0.2);
+        }
+        if let Some(m) = settings.method(t.kind) {
+            // The epoch a visit tonight gives: the planned visit's, else now.
+            let at = tonight_visit.map_or(now, |v| v.mid());
+            let tpl = source.map_or_else(|| placeholder_epoch(at), |v| v.epoch());
+            let tonight_e = Epoch {
+                time: at,
+                ..tpl.clone()
+            };
+            let tomorrow_windows = tomorrow
+                .as_ref()
+                .map(|tm| tm.windows(&place, &limits).windows)
+                .unwrap_or_default();
+            let tomorrow_e = sample_epochs(&tomorrow_windows, &tpl);
+            // A target its method cannot judge (a pulsator without an
+            // ephemeris) gets nothing from this rule.
+            if let Ok((u, _)) = only_tonight(m, &settings.setting(t), &tonight_e, &tomorrow_e)
+                && u > 0.0
+            {
+                rules.push(Urgent {
+                    rule: UrgencyRule::OnlyTonight,
+                    value: u,
+                    why: if tomorrow_e.is_empty() {
+                        "no window tomorrow night".into()
+                    } else if t.kind == Kind::Pulsator {
+                        "its phase bin cannot be reached tomorrow night".into()
                     } else {
-                        reasons.push(format!(
-                            "phase {phase:.2} (bin {} of {n_bins}) not reachable tomorrow night",
-                            bin + 1
-                        ));
-                        urgency = 1.0;
-                    }
-                }
+                        "its epoch cannot be had tomorrow night".into()
+                    },
+                });
             }
-            Kind::Parallax => {
-                let (ra, dec) = (t.ra_deg.to_radians(), t.dec_deg.to_radians());
-                let (pa_now, _) = crate::ladder::parallax::parallax_factors_at(now, ra, dec)?;
-                let mut extreme: f64 = 0.0;
-                for k in 0..48 {
-                    let (pa, _) = crate::ladder::parallax::parallax_factors_at(
-                        now.add_seconds(k as f64 * 365.25 * 86_400.0 / 48.0),
-                        ra,
-                        dec,
-                    )?;
-                    extreme = extreme.max(pa.abs());
-                }
-                if extreme > 0.0 {
-                    let ratio = pa_now.abs() / extreme;
-                    let u = ((ratio - 0.8) / 0.2).clamp(0.0, 1.0);
-                    if u > 0.0 {
-                        reasons.push(format!(
-                            "parallax factor {:.0} % of its yearly extreme",
-                            100.0 * ratio
-                        ));
-                    }
-                    urgency = urgency.max(u);
-                }
-            }
-            _ => {}
         }
+        if t.kind == Kind::Parallax {
+            let ratio = parallax_ratio(now, t)?;
+            let u = parallax_extreme(ratio);
+            if u > 0.0 {
+                rules.push(Urgent {
+                    rule: UrgencyRule::ParallaxExtreme,
+                    value: u,
+                    why: format!(
+                        "parallax factor {:.0} % of its yearly extreme",
+                        100.0 * ratio
+                    ),
+                });
+            }
+        }
+        let urgency = rules.iter().map(|r| r.value).fold(0.0, f64::max);
+        reasons.extend(rules.iter().map(|r| r.why.clone()));
         let plan_factor = match tonight_visit {
             Some(v) if v.start.seconds_since(&now) <= 1800.0 => {
                 reasons.push(format!("planned visit {} due now", v.id));
@@ -320,6 +401,7 @@ pub fn queue(
             sun_caution: sun_caution_at(site, &ctx, &place),
             priority: t.priority,
             urgency,
+            urgency_rules: rules,
             reasons,
             score,
         });
@@ -346,4 +428,40 @@ pub fn queue(
         dark,
         rows,
     })
+}
+
+/// |right-ascension parallax factor now| over its largest in the year ahead
+/// (sampled 48 times), 0 to 1 (the factors from the parallax method,
+/// `ladder::parallax::parallax_factors_at`).
+fn parallax_ratio(now: Instant, t: &Target) -> Result<f64> {
+    let (ra, dec) = (t.ra_deg.to_radians(), t.dec_deg.to_radians());
+    let (pa_now, _) = crate::ladder::parallax::parallax_factors_at(now, ra, dec)?;
+    let mut extreme: f64 = 0.0;
+    for k in 0..48 {
+        let (pa, _) = crate::ladder::parallax::parallax_factors_at(
+            now.add_seconds(k as f64 * 365.25 * 86_400.0 / 48.0),
+            ra,
+            dec,
+        )?;
+        extreme = extreme.max(pa.abs());
+    }
+    Ok(if extreme > 0.0 {
+        (pa_now.abs() / extreme).min(1.0)
+    } else {
+        0.0
+    })
+}
+
+/// An epoch at `at` for a target without a planned visit (only its time
+/// matters to `Method::covered`).
+fn placeholder_epoch(at: Instant) -> Epoch {
+    Epoch {
+        time: at,
+        exptime_s: 0.0,
+        n_exposures: 0,
+        snr: 0.0,
+        airmass: 1.0,
+        visit_s: 0.0,
+        exposures: vec![],
+    }
 }

@@ -30,6 +30,13 @@
 //!    place, after each placed item on its night has been moved, where its
 //!    windows allow, towards the edges of the free time (left-justified, then
 //!    right-justified), which can open a gap long enough for it.
+//! 4. Exchanges: a group still unplaced tries each of its items in place of
+//!    one placed item that stands in its way (one on the same night, or of
+//!    the same target, lowest value first); the item taken out tries its own
+//!    group's items again (another night, another time), and the exchange is
+//!    kept when the summed value grows (a visit with no other night takes
+//!    the place of one that has another). At most three passes, ending at
+//!    the first that gains nothing.
 
 /// A visit that is already fixed (done, or kept): occupies time and spacing.
 #[derive(Debug, Clone, PartialEq)]
@@ -149,7 +156,8 @@ pub fn check(p: &Problem, sol: &[Placement]) -> Result<(), String> {
     Ok(())
 }
 
-/// Subtract the open interval `(a, b)` from a sorted list of closed intervals.
+/// Subtract the open interval `(a, b)` from a sorted list of closed
+/// intervals (a closed interval may be a single start).
 fn subtract(ivs: &mut Vec<(f64, f64)>, a: f64, b: f64) {
     if b <= a {
         return;
@@ -160,10 +168,12 @@ fn subtract(ivs: &mut Vec<(f64, f64)>, a: f64, b: f64) {
             out.push((x, y));
             continue;
         }
-        if a > x {
+        // The ends of the open interval stay: a start exactly at a busy
+        // visit's end (or ending exactly at its start) fits.
+        if a >= x {
             out.push((x, a));
         }
-        if b < y {
+        if b <= y {
             out.push((b, y));
         }
     }
@@ -306,6 +316,97 @@ impl<'a> Board<'a> {
     }
 }
 
+/// Put `board` back to the placements `saved`.
+fn restore(board: &mut Board, saved: &[Option<f64>]) {
+    let moved: Vec<usize> = (0..saved.len())
+        .filter(|&k| board.placed[k] != saved[k])
+        .collect();
+    for &k in &moved {
+        board.take(k);
+    }
+    for &k in &moved {
+        if let Some(s) = saved[k] {
+            board.put(k, s);
+        }
+    }
+}
+
+/// Passes of the exchange step at most (each pass that gains nothing ends it).
+const EXCHANGE_PASSES: usize = 3;
+
+/// The exchange step of [`pack`]: every group still unplaced tries each of
+/// its items in place of one placed item that stands in its way (on its
+/// night, or of its target), which then tries its own group's items again;
+/// the exchange is kept when the summed value grows.
+fn exchange(p: &Problem, groups: &[(usize, Vec<usize>)], board: &mut Board) {
+    let value_now = |b: &Board| -> f64 {
+        b.placed
+            .iter()
+            .enumerate()
+            .filter(|(_, s)| s.is_some())
+            .map(|(i, _)| p.items[i].value)
+            .sum()
+    };
+    let group_of: std::collections::HashMap<usize, usize> = groups
+        .iter()
+        .enumerate()
+        .flat_map(|(gi, (_, items))| items.iter().map(move |&i| (i, gi)))
+        .collect();
+    for _ in 0..EXCHANGE_PASSES {
+        let mut gained = false;
+        for (_, items) in groups {
+            if items.iter().any(|&i| board.placed[i].is_some()) {
+                continue;
+            }
+            'alts: for &i in items {
+                let it = &p.items[i];
+                if it.value <= 0.0 {
+                    continue;
+                }
+                let mut blockers: Vec<usize> = (0..p.items.len())
+                    .filter(|&k| {
+                        board.placed[k].is_some()
+                            && (p.items[k].night == it.night || p.items[k].target == it.target)
+                    })
+                    .collect();
+                blockers.sort_by(|a, b| {
+                    p.items[*a]
+                        .value
+                        .total_cmp(&p.items[*b].value)
+                        .then(a.cmp(b))
+                });
+                for k in blockers {
+                    let before = value_now(board);
+                    let saved = board.placed.clone();
+                    board.take(k);
+                    let Some(s) = board.nearest(i, it.pref_s, None) else {
+                        restore(board, &saved);
+                        continue;
+                    };
+                    board.put(i, s);
+                    let gk = group_of[&k];
+                    for &j in &groups[gk].1 {
+                        if p.items[j].value > 0.0
+                            && let Some(s) = board.nearest(j, p.items[j].pref_s, None)
+                        {
+                            board.put(j, s);
+                            break;
+                        }
+                    }
+                    if value_now(board) > before + 1e-9 {
+                        gained = true;
+                        break 'alts;
+                    }
+                    restore(board, &saved);
+                }
+            }
+        }
+        if !gained {
+            break;
+        }
+    }
+}
+
 /// Pack a problem by the rule in the module documentation.
 pub fn pack(p: &Problem) -> Vec<Placement> {
     let mut by_group: std::collections::BTreeMap<usize, Vec<usize>> = Default::default();
@@ -379,6 +480,8 @@ pub fn pack(p: &Problem) -> Vec<Placement> {
             }
         }
     }
+    // Third pass: exchanges (see the module documentation).
+    exchange(p, &groups, &mut board);
     let mut out: Vec<Placement> = board
         .placed
         .iter()

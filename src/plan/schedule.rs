@@ -622,15 +622,47 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                 continue;
             }
         }
-        // Each done visit absorbs the nearest proposed epoch.
-        for d in req.done.iter().filter(|d| d.target == t.name) {
-            if let Some((k, _)) = epochs.iter().enumerate().min_by(|a, b| {
-                let da = a.1.time.seconds_since(&d.mid()).abs();
-                let db = b.1.time.seconds_since(&d.mid()).abs();
-                da.partial_cmp(&db).unwrap_or(std::cmp::Ordering::Equal)
-            }) {
-                epochs.remove(k);
+        // The done visits give some of the method's epochs, by the method's
+        // own measure (`Method::covered`: a pulsator's phase bin, else the
+        // nearest epoch in time): those are not planned again.
+        let done_e: Vec<Epoch> = req
+            .done
+            .iter()
+            .filter(|d| d.target == t.name)
+            .map(|d| d.epoch())
+            .collect();
+        if !done_e.is_empty() {
+            let setting = Setting {
+                site: req.site,
+                target: t,
+                from: req.from,
+                to: horizon_to,
+                limits: req.limits,
+            };
+            let given = match m.map(|m| m.covered(&setting, &done_e, &epochs)) {
+                Some(Ok(g)) if g.len() == epochs.len() => g,
+                Some(Err(e)) => {
+                    method_notes.entry(ti).or_default().push(format!(
+                        "the method could not say which epochs the done visits give ({}); each done visit stands for the epoch nearest it",
+                        crate::error::one_line_cut(&e.to_string(), 160)
+                    ));
+                    crate::ladder::covered_nearest(&done_e, &epochs)
+                }
+                _ => crate::ladder::covered_nearest(&done_e, &epochs),
+            };
+            let why: Vec<String> = given.iter().flatten().cloned().collect();
+            if !why.is_empty() {
+                method_notes.entry(ti).or_default().push(format!(
+                    "{} of the method's visits not planned again: {}",
+                    why.len(),
+                    why.join("; ")
+                ));
             }
+            let mut k = 0;
+            epochs.retain(|_| {
+                k += 1;
+                given[k - 1].is_none()
+            });
         }
         // A transient's visits stay inside the nights its method asked for
         // (its useful window): never before the first, never after the last.

@@ -823,6 +823,47 @@ impl Method for PulsatorMethod {
         Ok(self.predict_star(s, &star, epochs, &mut notes)?.0)
     }
 
+    /// A done visit gives the wanted epoch in its phase bin (BJD_TDB phases,
+    /// as `predict`; the plan's bins: `bins`, or one per wanted epoch when
+    /// the goal asked for more), the nearest in phase when several share it,
+    /// whenever in the season it was taken; a done visit in a bin no wanted
+    /// epoch is in gives none (the plan still needs those bins).
+    fn covered(
+        &self,
+        s: &Setting,
+        done: &[Epoch],
+        wanted: &[Epoch],
+    ) -> Result<Vec<Option<String>>> {
+        let star = Star::from_target(s.target)?;
+        let n = self.bins.max(wanted.len()).max(1);
+        let phase = |e: &Epoch| -> Result<f64> {
+            let b = crate::astro::bary::bjd_tdb(s.site, e.time, &star.place)?;
+            Ok(star.ephemeris.phase(&b))
+        };
+        let bin = |p: f64| ((p * n as f64).floor() as usize).min(n - 1);
+        let apart = |a: f64, b: f64| {
+            let d = (a - b).rem_euclid(1.0);
+            d.min(1.0 - d)
+        };
+        let want: Vec<f64> = wanted.iter().map(phase).collect::<Result<_>>()?;
+        let mut out: Vec<Option<String>> = vec![None; wanted.len()];
+        for d in done {
+            let pd = phase(d)?;
+            let b = bin(pd);
+            let best = (0..wanted.len())
+                .filter(|k| out[*k].is_none() && bin(want[*k]) == b)
+                .min_by(|x, y| apart(pd, want[*x]).total_cmp(&apart(pd, want[*y])));
+            if let Some(k) = best {
+                out[k] = Some(format!(
+                    "phase bin {} of {n} already observed (phase {pd:.2}, visit done at {})",
+                    b + 1,
+                    d.time.iso()
+                ));
+            }
+        }
+        Ok(out)
+    }
+
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {
         // A star no relation applies to is refused with the reason.
         Star::from_target(s.target)?
