@@ -252,7 +252,7 @@ fn the_scheduler_drops_what_the_method_says_a_done_visit_gives() {
         .iter()
         .find(|v| v.night == day("2026-12-06"))
         .unwrap();
-    let shift = 86_164.0905;
+    let shift = rung::plan::schedule::SIDEREAL_DAY_S;
     let done = Visit {
         status: Status::Done,
         start: v.start.add_seconds(shift),
