@@ -280,3 +280,106 @@ fn goal_mode_shortfall_reports_a_count_and_the_floor_below_the_goal() {
         assert!(!r[key].is_null(), "{key} missing: {r:#}");
     }
 }
+
+/// The DCR bias bound and the relative-to-absolute correction are named with
+/// the same numbers by `rung parallax` (text and JSON) and `rung budget`
+/// (text and JSON): one demo target (LPO-P03, invented) over thirty months,
+/// the demo programme's settings given on the command line.
+#[test]
+fn dcr_bias_and_absolute_correction_agree_in_parallax_and_budget() {
+    let demo = std::fs::read_to_string(
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("targets-demo/targets.csv"),
+    )
+    .unwrap();
+    let keep: Vec<&str> = demo
+        .lines()
+        .filter(|l| l.starts_with("name,") || l.starts_with("LPO-P03,"))
+        .collect();
+    assert_eq!(keep.len(), 2);
+    let dir = tempfile::tempdir().unwrap();
+    let file = dir.path().join("one.csv");
+    std::fs::write(&file, keep.join("\n") + "\n").unwrap();
+    let file = file.to_str().unwrap();
+    let common = [
+        "--targets",
+        file,
+        "--site",
+        "pampa-lucero",
+        "--instrument",
+        "lucero-1m",
+        "--from",
+        "2026-12-01",
+        "--to",
+        "2029-05-31",
+        "--min-alt",
+        "30",
+        "--sun-alt",
+        "-12",
+    ];
+    let with = |cmd: &str, extra: &[&str]| -> Vec<String> {
+        let mut a = vec![cmd.to_string()];
+        a.extend(common.iter().map(|s| s.to_string()));
+        a.extend(extra.iter().map(|s| s.to_string()));
+        a
+    };
+    let run = |a: Vec<String>| -> String {
+        let a: Vec<&str> = a.iter().map(|s| s.as_str()).collect();
+        let (code, out, err) = rung(&a);
+        assert_eq!(code, 0, "{err}");
+        out
+    };
+    let px: serde_json::Value =
+        serde_json::from_str(&run(with("parallax", &["--target", "LPO-P03", "--json"]))).unwrap();
+    let px_text = run(with("parallax", &["--target", "LPO-P03"]));
+    let bu: serde_json::Value = serde_json::from_str(&run(with("budget", &["--json"]))).unwrap();
+    let bu_text = run(with("budget", &[]));
+
+    let plx = px["parallax_mas"].as_f64().unwrap();
+    let fit = px["sigma_parallax_mas"].as_f64().unwrap();
+    let bias = px["dcr_bias_mas"].as_f64().unwrap().abs();
+    let abs = px["absolute_correction_mas"].as_f64().unwrap();
+    let total = px["sigma_parallax_total_mas"].as_f64().unwrap();
+    assert!(bias > 0.0 && abs > 0.0, "{bias} {abs}");
+    // rung parallax, text: the same numbers as its JSON, in mas and as terms of σd/d.
+    let line = format!(
+        "σ_ϖ = {fit:.2} mas (fit), DCR bias bound {bias:.2} mas, relative-to-absolute correction {abs:.2} mas: {total:.2} mas in all"
+    );
+    assert!(px_text.contains(&line), "{line}\n{px_text}");
+    let terms = px["error_terms"].as_array().unwrap();
+    let term = |name: &str| -> f64 {
+        terms
+            .iter()
+            .find(|t| t["name"] == name)
+            .unwrap_or_else(|| panic!("no term {name}: {terms:?}"))["distance_pct"]
+            .as_f64()
+            .unwrap()
+    };
+    let (p_fit, p_dcr, p_abs) = (
+        term("parallax fit"),
+        term("DCR bias bound"),
+        term("relative-to-absolute correction"),
+    );
+    assert!((p_fit - 100.0 * fit / plx).abs() < 1e-9);
+    assert!((p_dcr - 100.0 * bias / plx).abs() < 1e-9);
+    assert!((p_abs - 100.0 * abs / plx).abs() < 1e-9);
+    let pct_terms = format!(
+        "parallax fit {p_fit:.2} %, DCR bias bound {p_dcr:.2} %, relative-to-absolute correction {p_abs:.2} %"
+    );
+    assert!(
+        px_text.contains(&format!(
+            "σ_d/d = {:.2} % ({pct_terms})",
+            px["distance_precision_pct"].as_f64().unwrap()
+        )),
+        "{px_text}"
+    );
+    // rung budget, JSON: the row's terms are the method's.
+    let row = &bu["rows"][0];
+    assert_eq!(row["target"], "LPO-P03");
+    assert_eq!(row["error_terms"], px["error_terms"]);
+    assert_eq!(row["achievable_pct"], px["distance_precision_pct"]);
+    // rung budget, text: the same terms, named.
+    assert!(
+        bu_text.contains(&format!("LPO-P03: {pct_terms}")),
+        "{pct_terms}\n{bu_text}"
+    );
+}

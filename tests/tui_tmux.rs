@@ -173,7 +173,20 @@ fn every_view_then_quit_restores_the_terminal() {
     t.wait_for("LPO-P02: most");
     t.send("4");
     t.wait_for("Parallax · ◆ LPO-P02");
-    t.wait_for("σd/d");
+    // At 80 columns: σϖ with the DCR bias bound and the relative-to-absolute
+    // correction named, and the distance line whole to its verdict.
+    let s = t.wait_for("σd/d");
+    let terms = s.lines().find(|l| l.contains("σϖ")).unwrap_or_default();
+    assert!(
+        terms.contains("(fit ") && terms.contains(", DCR ") && terms.contains(", abs "),
+        "{s}"
+    );
+    let dist = s.lines().find(|l| l.contains("σd/d")).unwrap_or_default();
+    assert!(
+        dist.contains(" yr · ")
+            && (dist.contains("reachable") || dist.contains("needs") || dist.contains("floor")),
+        "{s}"
+    );
     t.send("5");
     t.wait_for("the Phase view is for pulsators");
     t.send("6");
@@ -183,7 +196,7 @@ fn every_view_then_quit_restores_the_terminal() {
     t.send("Up");
     t.wait_for("● obs");
     t.send("7");
-    t.wait_for("Budget · 2026-12-01 to 2028-05-31");
+    t.wait_for("Budget · 2026-12-01 to 2029-05-31");
     t.send("Tab");
     t.wait_for("Now 01:00 UTC");
     t.send("Tab");

@@ -493,7 +493,7 @@ fn parallax_view_shows_factors_and_epochs_at_both_sizes() {
         s.size = (w, h);
         let (rows, buf) = screen(&s, w, h);
         assert!(
-            rows[2].starts_with("Parallax · ◆ LPO-P03 · ϖ 112.0 mas · 2026-12-01 to 2028-05-31"),
+            rows[2].starts_with("Parallax · ◆ LPO-P03 · ϖ 112.0 mas · 2026-12-01 to 2029-05-31"),
             "{}",
             rows[2]
         );
@@ -514,17 +514,30 @@ fn parallax_view_shows_factors_and_epochs_at_both_sizes() {
         let epochs = row_of(&rows, "epoch");
         assert!(epochs.contains('◆'));
         let sol = p.solution.as_ref().unwrap();
+        // σϖ by term (the DCR bias bound and the relative-to-absolute
+        // correction named, as `rung parallax`), σμ and the correlation;
+        // then the distance, baseline and verdict, whole at 80 columns.
         let line = format!(
-            "σϖ {:.2} mas (fit {:.2}, DCR {:.2}, abs {:.2}) → σd/d {:.2}% · {} epochs in {} seasons",
+            "σϖ {:.2} mas (fit {:.2}, DCR {:.2}, abs {:.2}) · σμ {:.2} mas/yr · ρ(ϖ,μ) {:+.2}",
             p.sigma_parallax_total_mas.unwrap(),
             sol.sigma_parallax_mas,
             p.dcr_bias_mas.unwrap().abs(),
             p.absolute_correction_mas,
-            p.prediction.distance_precision_pct,
-            p.epochs.len(),
-            p.seasons_available
+            sol.sigma_pm_masyr,
+            sol.corr_parallax_pm
         );
         assert!(has(&rows, &line), "{line}");
+        let line = format!(
+            "σd/d {:.2}% · {} epochs in {} seasons over {:.2} yr · {:.1} h · {}",
+            p.prediction.distance_precision_pct,
+            p.epochs.len(),
+            p.seasons_available,
+            sol.baseline_yr,
+            p.prediction.hours_needed,
+            p.prediction.verdict.text()
+        );
+        assert!(has(&rows, &line), "{line}");
+        assert!(has(&rows, "◆ chosen epoch"));
         assert!(has(&rows, "2027") && has(&rows, "2028"));
     }
     // A pulsator is refused with a reason.
@@ -538,7 +551,7 @@ fn budget_view_and_export_match_the_library_budget() {
     let pick = ["LPO-P03", "LPO-C03", "LPO-C05", "LPO-T2026a"];
     let targets = demo_subset(&pick);
     // The same call as `rung budget`, made here directly, with the demo
-    // programme's settings (its range, 2026-12-01 to 2028-05-31).
+    // programme's settings (its range, 2026-12-01 to 2029-05-31).
     let b = rung::plan::budget::budget(&demo_settings(), &targets).unwrap();
     let dir = tempfile::tempdir().unwrap();
     let mut s = state_with(
@@ -553,7 +566,7 @@ fn budget_view_and_export_match_the_library_budget() {
     for (w, h) in [(80u16, 24u16), (160, 48)] {
         let (rows, _) = screen(&s, w, h);
         assert!(
-            rows[2].starts_with("Budget · 2026-12-01 to 2028-05-31 · pampa-lucero · lucero-1m")
+            rows[2].starts_with("Budget · 2026-12-01 to 2029-05-31 · pampa-lucero · lucero-1m")
         );
         assert!(
             rows[3].contains("goal") && rows[3].contains("reach") && rows[3].contains("verdict")
@@ -570,13 +583,13 @@ fn budget_view_and_export_match_the_library_budget() {
     ch(&mut s, 'x');
     let csv = std::fs::read_to_string(
         dir.path()
-            .join("budget-pampa-lucero-2026-12-01-to-2028-05-31.csv"),
+            .join("budget-pampa-lucero-2026-12-01-to-2029-05-31.csv"),
     )
     .unwrap();
     assert_eq!(csv, rung::plan::budget::csv(&b));
     let md = std::fs::read_to_string(
         dir.path()
-            .join("budget-pampa-lucero-2026-12-01-to-2028-05-31.md"),
+            .join("budget-pampa-lucero-2026-12-01-to-2029-05-31.md"),
     )
     .unwrap();
     assert_eq!(md, rung::plan::budget::markdown(&b));

@@ -149,6 +149,13 @@ fn print_text(st: &rung::programme::Settings, b: &Budget) {
             r.verdict.text()
         );
     }
+    let terms = budget::terms_lines(b);
+    if !terms.is_empty() {
+        super::outln!("  σd/d by term (percent, in quadrature):");
+        for l in terms {
+            super::outln!("    {l}");
+        }
+    }
     for l in budget::totals_lines(b) {
         super::outln!("  {l}");
     }

@@ -556,8 +556,14 @@ fn print_text(
             plan.min_baseline_yr
         );
         super::outln!(
-            "  σ_d/d = {:.2} %, {:.2} telescope hours with overheads",
+            "  σ_d/d = {:.2} % ({}), {:.2} telescope hours with overheads",
             plan.prediction.distance_precision_pct,
+            plan.prediction
+                .error_terms
+                .iter()
+                .map(|t| format!("{} {} %", t.name, rung::output::num(t.distance_pct, 2)))
+                .collect::<Vec<_>>()
+                .join(", "),
             plan.prediction.hours_needed
         );
     }

@@ -57,6 +57,10 @@ pub struct BudgetRow {
     pub hours_by_month: BTreeMap<String, f64>,
     /// The method's notes.
     pub notes: Vec<String>,
+    /// The terms of `achievable_pct`, as the method gives them (its
+    /// `error_terms`, in quadrature; for a parallax the fit, the DCR bias
+    /// bound and the relative-to-absolute correction).
+    pub error_terms: Vec<crate::ladder::ErrorTerm>,
     /// The target's priority (the weight of its goal in the allocation).
     pub priority: f64,
     /// Nights its epochs fall on.
@@ -490,6 +494,7 @@ pub fn assemble_with(
                     verdict: p.verdict.clone(),
                     hours_by_month: by_month,
                     notes: p.notes.clone(),
+                    error_terms: p.error_terms.clone(),
                     priority: t.priority,
                     nights: nights.len(),
                     hours_by_semester: by_semester,
@@ -792,6 +797,26 @@ pub fn assumptions(b: &Budget) -> Vec<String> {
             o.calibration_nights
         ),
     ]
+}
+
+/// Each row's σ_d/d by term, percent (the terms add in quadrature to its
+/// `achievable_pct`): one line per row that has terms.
+pub fn terms_lines(b: &Budget) -> Vec<String> {
+    b.rows
+        .iter()
+        .filter(|r| !r.error_terms.is_empty())
+        .map(|r| {
+            format!(
+                "{}: {}",
+                r.target,
+                r.error_terms
+                    .iter()
+                    .map(|t| format!("{} {} %", t.name, num(t.distance_pct, 2)))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            )
+        })
+        .collect()
 }
 
 /// The totals in words: clear, with calibrations, expected, pessimistic, and by semester.

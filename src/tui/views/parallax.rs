@@ -52,7 +52,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     if nights.is_empty() {
         return;
     }
-    let foot = 4u16;
+    let foot = 5u16;
     let label_w = 5u16;
     let chart_h = area.height - 1 - 3 - foot; // title, strip + epochs + axis, footer
     let cw = area.width - label_w;
@@ -143,28 +143,37 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             last_end = c + label.len() as u16 + 1;
         }
     }
-    // What the epochs buy.
+    // What the epochs buy: σϖ by term (the fit, the DCR bias bound, the
+    // relative-to-absolute correction, as `rung parallax`), σμ and the
+    // correlation; the distance, epochs, baseline, hours and verdict; the
+    // verdict's reason when the goal is not reached, then the notes.
     let fy = area.y + area.height - foot;
     let pr = &p.prediction;
-    let sol = p
+    let (sol, base) = p
         .solution
         .as_ref()
         .map(|x| {
-            format!(
-                "σϖ {:.2} mas (fit {:.2}, DCR {:.2}, abs {:.2}) → ",
-                p.sigma_parallax_total_mas.unwrap_or(x.sigma_parallax_mas),
-                x.sigma_parallax_mas,
-                p.dcr_bias_mas.unwrap_or(0.0).abs(),
-                p.absolute_correction_mas
+            (
+                format!(
+                    "σϖ {:.2} mas (fit {:.2}, DCR {:.2}, abs {:.2}) · σμ {:.2} mas/yr · ρ(ϖ,μ) {:+.2}",
+                    p.sigma_parallax_total_mas.unwrap_or(x.sigma_parallax_mas),
+                    x.sigma_parallax_mas,
+                    p.dcr_bias_mas.unwrap_or(0.0).abs(),
+                    p.absolute_correction_mas,
+                    x.sigma_pm_masyr,
+                    x.corr_parallax_pm
+                ),
+                format!(" over {:.2} yr", x.baseline_yr),
             )
         })
         .unwrap_or_default();
+    put(buf, area.x, fy, &sol, area.width, th.text());
     put(
         buf,
         area.x,
-        fy,
+        fy + 1,
         &format!(
-            "{sol}σd/d {} · {} epochs in {} seasons · {} h · {}",
+            "σd/d {} · {} epochs in {} seasons{base} · {} h · {}",
             pct(pr.distance_precision_pct, 2),
             p.epochs.len(),
             p.seasons_available,
@@ -174,15 +183,27 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         area.width,
         th.text(),
     );
+    let why = (!matches!(pr.verdict, crate::ladder::Verdict::Reachable)
+        && !p.verdict_reason.is_empty())
+    .then(|| format!("why: {}", p.verdict_reason));
+    for (k, line) in why
+        .iter()
+        .chain(
+            pr.notes
+                .iter()
+                .filter(|n| Some(*n) != Some(&p.verdict_reason)),
+        )
+        .take(2)
+        .enumerate()
+    {
+        put(buf, area.x, fy + 2 + k as u16, line, area.width, th.dim());
+    }
     put(
         buf,
         area.x,
-        fy + 1,
+        fy + 4,
         "⣿ factor in RA  ⠂ in Dec  sky █ candidate ▒ observable · not  ◆ chosen epoch",
         area.width,
         th.dim(),
     );
-    for (k, note) in pr.notes.iter().take(2).enumerate() {
-        put(buf, area.x, fy + 2 + k as u16, note, area.width, th.dim());
-    }
 }
