@@ -46,7 +46,7 @@ fn limits() -> Limits {
 }
 
 const FROM: &str = "2026-12-01";
-/// Ten months, eighteen months (the demo's range), thirty months.
+/// Ten months, eighteen months, thirty months (the demo programme's range).
 const TO: [&str; 3] = ["2027-09-30", "2028-05-31", "2029-05-31"];
 
 fn setting<'a>(site: &'a Site, t: &'a Target, to: &str) -> Setting<'a> {
@@ -159,7 +159,7 @@ fn the_verdict_agrees_with_the_best_plan_rung_finds() {
     }
 }
 
-/// The demo's eighteen months are shorter than the two-year baseline: every
+/// Eighteen months are shorter than the two-year baseline: every
 /// parallax goal needs more seasons there, the verdict says why, and the
 /// range through the night it names reaches the goal in the goal search itself.
 #[test]

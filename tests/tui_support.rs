@@ -29,7 +29,7 @@ pub fn test_now() -> Instant {
 }
 
 /// The demo programme's settings (targets-demo/targets.settings.toml) at
-/// [`test_now`]: pampa-lucero, lucero-1m, 2026-12-01 to 2028-05-31, 30°, −12°.
+/// [`test_now`]: pampa-lucero, lucero-1m, 2026-12-01 to 2029-05-31, 30°, −12°.
 pub fn demo_settings() -> Settings {
     let req = rung::programme::Request {
         programme: Some(demo_file()),
