@@ -156,12 +156,15 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
     let horizon = match a.horizon_to.as_deref() {
         Some(h) => Some(parse_date(h).context("--horizon-to")?),
         // A --to that shortens the programme makes the plan a slice of it:
-        // the methods plan to the programme's own last night.
+        // the methods plan to the programme's own last night, within the
+        // longest span a plan may have from its first night (a --from long
+        // before a multi-year programme would otherwise ask for more).
         None if a.range.to.is_some() && plan.is_none() => {
             let mut whole = choices_for_horizon.clone();
             whole.to = None;
             let prog = super::settings(whole, Some(&targets_path), &[])?;
-            Some(prog.to.max(st.to))
+            let longest = st.from + chrono::Days::new(schedule::MAX_NIGHTS as u64 - 1);
+            Some(prog.to.min(longest).max(st.to))
         }
         None => None,
     };
