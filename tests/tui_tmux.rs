@@ -200,7 +200,7 @@ fn every_view_then_quit_restores_the_terminal() {
     t.send("Tab");
     t.wait_for("Now 01:00 UTC");
     t.send("Tab");
-    t.wait_for("Ladder · 2026-12-01 to 2028-05-31");
+    t.wait_for("Ladder · 2026-12-01 to 2029-05-31");
     t.wait_for("End point");
     t.send("Tab");
     t.wait_for("Roster · 26 of 26");
