@@ -6,100 +6,12 @@
 
 use std::path::Path;
 use std::process::Command;
-use std::time::{Duration, Instant};
 
 const DEMO_DIR: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/targets-demo");
 const NOW: &str = "2026-12-02T01:00:00Z";
 
-struct Tmux {
-    sock: std::path::PathBuf,
-    _dir: tempfile::TempDir,
-}
-
-impl Tmux {
-    fn start(cmd: &str) -> Option<Tmux> {
-        if !Command::new("tmux")
-            .arg("-V")
-            .output()
-            .is_ok_and(|o| o.status.success())
-        {
-            eprintln!("tmux is not installed: skipping the Next view's terminal run");
-            return None;
-        }
-        let dir = tempfile::tempdir().unwrap();
-        let t = Tmux {
-            sock: dir.path().join("sock"),
-            _dir: dir,
-        };
-        let ok = t
-            .cmd(&[
-                "new-session",
-                "-d",
-                "-s",
-                "rung",
-                "-x",
-                "80",
-                "-y",
-                "24",
-                "sh",
-                "-c",
-                cmd,
-            ])
-            .status
-            .success();
-        assert!(ok, "tmux new-session failed");
-        Some(t)
-    }
-    fn cmd(&self, args: &[&str]) -> std::process::Output {
-        Command::new("tmux")
-            .arg("-S")
-            .arg(&self.sock)
-            .args(args)
-            .output()
-            .unwrap()
-    }
-    fn screen(&self) -> String {
-        String::from_utf8_lossy(&self.cmd(&["capture-pane", "-p", "-t", "rung"]).stdout).to_string()
-    }
-    fn send(&self, key: &str) {
-        self.cmd(&["send-keys", "-t", "rung", key]);
-    }
-    fn wait_for(&self, needle: &str) -> String {
-        let t0 = Instant::now();
-        loop {
-            let s = self.screen();
-            if s.contains(needle) {
-                return s;
-            }
-            assert!(
-                t0.elapsed() < Duration::from_secs(90),
-                "timed out waiting for {needle:?}; screen:\n{s}"
-            );
-            std::thread::sleep(Duration::from_millis(100));
-        }
-    }
-    /// The rung process under the pane's shell.
-    fn rung_pid(&self) -> Option<String> {
-        let shell = String::from_utf8_lossy(
-            &self
-                .cmd(&["display-message", "-p", "-t", "rung", "#{pane_pid}"])
-                .stdout,
-        )
-        .trim()
-        .to_string();
-        let o = Command::new("pgrep").args(["-P", &shell]).output().ok()?;
-        String::from_utf8_lossy(&o.stdout)
-            .lines()
-            .next()
-            .map(|s| s.trim().to_string())
-    }
-}
-
-impl Drop for Tmux {
-    fn drop(&mut self) {
-        let _ = self.cmd(&["kill-server"]);
-    }
-}
+mod tmux_support;
+use tmux_support::Tmux;
 
 fn rung(dir: &Path, args: &[&str]) -> String {
     let o = Command::new(env!("CARGO_BIN_EXE_rung"))
