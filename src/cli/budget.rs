@@ -34,7 +34,22 @@ pub struct Args {
     /// Quantile of the pessimistic hours with the weather, 0.5..0.999 (default 0.9)
     #[arg(long, allow_hyphen_values = true)]
     pub confidence: Option<f64>,
-    /// JSON output (with every target's σd/d-against-hours curve).
+    /// Budget the same programme on these instruments side by side (comma-separated catalogue names)
+    #[arg(long, value_delimiter = ',')]
+    pub instruments: Vec<String>,
+    /// Budget the same programme at these sites side by side (comma-separated catalogue names)
+    #[arg(long, value_delimiter = ',')]
+    pub sites: Vec<String>,
+    /// Write the proposal figure (SVG: σd/d against hours for every target, goals met against hours) to this file
+    #[arg(long)]
+    pub figure: Option<PathBuf>,
+    /// A LaTeX table ready for a proposal (needs booktabs).
+    #[arg(long)]
+    pub latex: bool,
+    /// A technical-justification paragraph written from the numbers.
+    #[arg(long)]
+    pub justification: bool,
+    /// JSON output (with every target's σd/d-against-hours curve and the justification).
     #[arg(long)]
     pub json: bool,
     /// CSV output.
@@ -86,24 +101,88 @@ pub fn run(a: Args) -> Result<()> {
         &[],
     )?;
     let targets = super::load_targets(&a.targets)?;
+    // Side by side: every site asked × every instrument asked.
+    let mut list = Vec::new();
+    let sites: Vec<Option<&String>> = if a.sites.is_empty() {
+        vec![None]
+    } else {
+        a.sites.iter().map(Some).collect()
+    };
+    let instruments: Vec<Option<&String>> = if a.instruments.is_empty() {
+        vec![None]
+    } else {
+        a.instruments.iter().map(Some).collect()
+    };
+    for site in &sites {
+        let at = match site {
+            Some(spec) => st.with_site(
+                rung::io::sites::resolve(spec)
+                    .map_err(|e| anyhow::anyhow!("--sites {spec}: {e}"))?,
+            ),
+            None => st.clone(),
+        };
+        for ins in &instruments {
+            list.push(match ins {
+                Some(name) => at
+                    .with_instrument(name)
+                    .map_err(|e| anyhow::anyhow!("--instruments {name}: {e}"))?,
+                None => at.clone(),
+            });
+        }
+    }
     let opts = Options {
-        curves: a.json,
+        curves: a.json || a.figure.is_some(),
         asked,
         confidence: a.confidence,
     };
-    let b = budget::budget_with(&st, &targets, &opts)?;
+    let budgets = budget::compare::side_by_side(&list, &targets, &opts)?;
+    let b = &budgets[0];
+    if let Some(path) = &a.figure {
+        rung::io::atomic::write_atomic(path, budget::figure::svg(b).as_bytes())?;
+        eprintln!(
+            "rung: figure written to {}",
+            super::full_path(path).display()
+        );
+    }
+    let sides: Vec<budget::compare::Side> = budgets.iter().map(budget::compare::Side::of).collect();
     if a.json {
-        let mut v = serde_json::to_value(&b)?;
+        let mut v = serde_json::to_value(b)?;
         if let Some(o) = v.as_object_mut() {
             o.insert("settings".into(), st.to_json());
+            o.insert(
+                "justification".into(),
+                budget::proposal::justification(b).into(),
+            );
+            if budgets.len() > 1 {
+                o.insert("side_by_side".into(), serde_json::to_value(&sides)?);
+            }
         }
         super::print_json(&v)?;
     } else if a.csv {
-        print!("{}", budget::csv(&b));
+        print!("{}", budget::csv(b));
     } else if a.markdown {
-        print!("{}", budget::markdown(&b));
+        print!("{}", budget::markdown(b));
+    } else if a.latex {
+        print!("{}", budget::proposal::latex(b));
+    } else if a.justification {
+        println!("{}", budget::proposal::justification(b));
+    } else if budgets.len() > 1 {
+        super::outln!(
+            "Side by side {} to {} (window above {:.0}°, Sun below {:.0}°){}",
+            st.from,
+            st.to,
+            st.limits.min_alt_deg,
+            st.limits.sun_alt_deg,
+            b.allocation
+                .as_ref()
+                .map(|x| format!(", {} asked", budget::asked_words(x)))
+                .unwrap_or_default()
+        );
+        for l in budget::compare::side_lines(&sides) {
+            super::outln!("{l}");
+        }
     } else {
-        print_text(&st, &b);
+        print_text(&st, b);
     }
     Ok(())
 }

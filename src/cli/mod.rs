@@ -338,6 +338,12 @@ pub fn opt(v: Option<f64>, dp: usize) -> String {
     rung::output::num(v, dp)
 }
 
+/// A path as the user should read it in a message: absolute (the working
+/// folder joined to a relative path; symbolic links left as they are).
+pub fn full_path(p: &Path) -> PathBuf {
+    std::path::absolute(p).unwrap_or_else(|_| p.to_path_buf())
+}
+
 /// Local clock time (HH:MM) of an instant at a site, or "-".
 pub fn local_hm(t: Option<rung::astro::time::Instant>, site: &rung::astro::site::Site) -> String {
     t.map(|t| rung::output::clock_hm(t, &site.timezone))

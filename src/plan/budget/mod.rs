@@ -14,7 +14,10 @@
 
 pub mod alloc;
 pub mod allocation;
+pub mod compare;
 pub mod curve;
+pub mod figure;
+pub mod proposal;
 pub mod weather;
 
 pub use allocation::{Allocation, Asked, allocate};

@@ -1,0 +1,236 @@
+//! The budget's proposal outputs on the demo programme: the figure renders
+//! (parsed as SVG: a curve per target, the goals-met steps of the JSON, the
+//! hours asked), the LaTeX table is well formed, and the justification
+//! paragraph names only numbers that the JSON holds.
+
+use serde_json::Value;
+use std::process::{Command, Output};
+
+fn rung(args: &[&str]) -> Output {
+    let cfg = tempfile::tempdir().unwrap();
+    Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args(args)
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .env("RUNG_CONFIG_DIR", cfg.path())
+        .output()
+        .unwrap()
+}
+
+fn demo(extra: &[&str]) -> Output {
+    let mut a = vec![
+        "budget",
+        "--targets",
+        "targets-demo/targets.csv",
+        "--from",
+        "2026-12-01",
+        "--to",
+        "2028-05-31",
+        "--hours",
+        "30",
+    ];
+    a.extend(extra);
+    let o = rung(&a);
+    assert!(
+        o.status.success() || o.status.code() == Some(3),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    o
+}
+
+/// Every number in a JSON value.
+fn numbers(v: &Value, out: &mut Vec<f64>) {
+    match v {
+        Value::Number(n) => out.extend(n.as_f64()),
+        Value::Array(a) => a.iter().for_each(|x| numbers(x, out)),
+        Value::Object(o) => o.values().for_each(|x| numbers(x, out)),
+        _ => {}
+    }
+}
+
+/// Every string in a JSON value.
+fn strings(v: &Value, out: &mut Vec<String>) {
+    match v {
+        Value::String(s) => out.push(s.clone()),
+        Value::Array(a) => a.iter().for_each(|x| strings(x, out)),
+        Value::Object(o) => o.values().for_each(|x| strings(x, out)),
+        _ => {}
+    }
+}
+
+#[test]
+fn the_justification_names_only_numbers_in_the_json() {
+    let v: Value = serde_json::from_slice(&demo(&["--json"]).stdout).unwrap();
+    let text = v["justification"].as_str().unwrap().to_string();
+    assert!(
+        text.contains("pampa-lucero") && text.contains("lucero-1m"),
+        "{text}"
+    );
+    assert!(text.contains("30.0 h asked"), "{text}");
+    // Words that carry digits but are not numbers: names, dates, the
+    // weather's source, verdict words. They come from the JSON's strings.
+    let mut words = Vec::new();
+    let mut others = v.clone();
+    others.as_object_mut().unwrap().remove("justification");
+    strings(&others, &mut words);
+    words.retain(|w| w.chars().any(|c| c.is_ascii_digit()) && w.len() > 2);
+    words.sort_by_key(|w| std::cmp::Reverse(w.len()));
+    let mut rest = text.clone();
+    for w in &words {
+        if rest.contains(w.as_str()) {
+            rest = rest.replace(w.as_str(), " ");
+        }
+    }
+    let mut nums = Vec::new();
+    numbers(&others, &mut nums);
+    // Each number left, as printed (its decimals), must be a JSON number so rounded.
+    let mut checked = 0;
+    for tok in rest.split(|c: char| !(c.is_ascii_digit() || c == '.')) {
+        let tok = tok.trim_matches('.');
+        if tok.is_empty() || !tok.chars().any(|c| c.is_ascii_digit()) {
+            continue;
+        }
+        let dp = tok.split_once('.').map_or(0, |(_, f)| f.len());
+        let found = nums.iter().any(|x| format!("{:.*}", dp, x) == tok)
+            || nums.iter().any(|x| format!("{:.*}", dp, x * 100.0) == tok); // a quantile in percent
+        assert!(
+            found,
+            "{tok} in the justification is no number of the JSON:\n{text}"
+        );
+        checked += 1;
+    }
+    assert!(checked >= 20, "{checked} numbers checked in:\n{text}");
+    // It says which goals fit and why the others do not.
+    assert!(text.contains("distance goals are met"), "{text}");
+    assert!(text.contains("no number of hours reaches"), "{text}");
+    assert!(
+        text.contains("would need more hours than are left"),
+        "{text}"
+    );
+}
+
+#[test]
+fn the_figure_renders_with_every_curve_and_the_goals_met_steps() {
+    let d = tempfile::tempdir().unwrap();
+    let svg_path = d.path().join("budget.svg");
+    let o = demo(&["--figure", svg_path.to_str().unwrap(), "--json"]);
+    let v: Value = serde_json::from_slice(&o.stdout).unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        err.contains(&format!("rung: figure written to {}", svg_path.display())),
+        "{err}"
+    );
+    let text = std::fs::read_to_string(&svg_path).unwrap();
+    let doc = roxmltree::Document::parse(&text).expect("the figure is well-formed XML");
+    let root = doc.root_element();
+    assert_eq!(root.tag_name().name(), "svg");
+    assert_eq!(root.attribute("width"), Some("900"));
+    // One curve per target with a point beyond zero hours, each a polyline.
+    let with_points: Vec<&str> = v["rows"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|r| {
+            r["curve"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .any(|p| p["hours"].as_f64().unwrap() > 0.0)
+        })
+        .map(|r| r["target"].as_str().unwrap())
+        .collect();
+    let curves: Vec<&str> = doc
+        .descendants()
+        .filter(|n| n.attribute("class") == Some("curve"))
+        .map(|n| n.attribute("data-target").unwrap())
+        .collect();
+    assert_eq!(curves, with_points);
+    for n in doc
+        .descendants()
+        .filter(|n| n.attribute("class") == Some("curve"))
+    {
+        let poly = n
+            .children()
+            .find(|c| c.tag_name().name() == "polyline")
+            .unwrap();
+        let pts = poly.attribute("points").unwrap();
+        for xy in pts.split(' ') {
+            let (x, y) = xy.split_once(',').unwrap();
+            let (x, y): (f64, f64) = (x.parse().unwrap(), y.parse().unwrap());
+            assert!(
+                (0.0..=900.0).contains(&x) && (0.0..=760.0).contains(&y),
+                "{xy}"
+            );
+        }
+    }
+    // The goals-met steps are the JSON's.
+    let steps: Vec<(f64, f64)> = doc
+        .descendants()
+        .filter(|n| n.attribute("class") == Some("step"))
+        .map(|n| {
+            (
+                n.attribute("data-hours").unwrap().parse().unwrap(),
+                n.attribute("data-weight").unwrap().parse().unwrap(),
+            )
+        })
+        .collect();
+    let want: Vec<(f64, f64)> = v["allocation"]["steps"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|s| (s["hours"].as_f64().unwrap(), s["weight"].as_f64().unwrap()))
+        .collect();
+    // (serde_json reads floats to within an ulp, so compare to 1e-12.)
+    assert_eq!(steps.len(), want.len());
+    for (a, b) in steps.iter().zip(&want) {
+        assert!((a.0 - b.0).abs() < 1e-12 && a.1 == b.1, "{a:?} vs {b:?}");
+    }
+    assert!(
+        doc.descendants()
+            .any(|n| n.attribute("class") == Some("asked"))
+    );
+    assert!(text.contains("30.0 h asked"));
+}
+
+#[test]
+fn the_latex_table_is_well_formed() {
+    let o = demo(&["--latex"]);
+    let t = String::from_utf8(o.stdout).unwrap();
+    assert!(t.contains("\\begin{tabular}") && t.contains("\\end{tabular}"));
+    assert_eq!(t.matches('{').count(), t.matches('}').count(), "{t}");
+    // A header, 25 targets, two totals: 28 rows ending in \\.
+    assert_eq!(t.matches("\\\\\n").count(), 28, "{t}");
+    // Percent signs are escaped, underscores too.
+    for l in t.lines().filter(|l| !l.starts_with('%')) {
+        let bare = l.replace("\\%", "");
+        assert!(!bare.contains('%'), "{l}");
+    }
+    assert!(t.contains("out of reach") && t.contains("met"), "{t}");
+}
+
+#[test]
+fn instruments_side_by_side() {
+    let o = demo(&["--instruments", "lucero-1m,alcaravan-2m", "--json"]);
+    let v: Value = serde_json::from_slice(&o.stdout).unwrap();
+    let sides = v["side_by_side"].as_array().unwrap();
+    assert_eq!(sides.len(), 2);
+    assert_eq!(sides[0]["instrument"], "lucero-1m");
+    assert_eq!(sides[1]["instrument"], "alcaravan-2m");
+    // The first is the budget the top level shows.
+    assert_eq!(sides[0]["total_hours"], v["total_hours"]);
+    assert_eq!(sides[0]["goals_met"], v["allocation"]["goals_met"]);
+    // A 2.2 m telescope needs fewer hours in clear weather for the same goals.
+    assert!(sides[1]["total_hours"].as_f64() < sides[0]["total_hours"].as_f64());
+    for s in sides {
+        assert_eq!(s["rows"].as_array().unwrap().len(), 25);
+        assert!(s["goals_met"].as_u64().unwrap() <= s["goals_reachable"].as_u64().unwrap());
+    }
+    // The text puts them in one table.
+    let o = demo(&["--instruments", "lucero-1m,alcaravan-2m"]);
+    let t = String::from_utf8(o.stdout).unwrap();
+    assert!(
+        t.starts_with("Side by side 2026-12-01 to 2028-05-31"),
+        "{t}"
+    );
+    assert!(t.contains("[2] alcaravan-2m at pampa-lucero"), "{t}");
+}
