@@ -530,6 +530,20 @@ impl Settings {
         s
     }
 
+    /// The same settings over another range (a choice made in the UI, the
+    /// Budget view's request): first and last night as given, checked as
+    /// every plan and budget checks a range.
+    pub fn with_range(&self, from: NaiveDate, to: NaiveDate) -> Result<Settings> {
+        crate::plan::schedule::dates(from, to)?;
+        let mut s = self.clone();
+        s.from = from;
+        s.from_asked = from;
+        s.to = to;
+        s.origins.insert("from", Origin::CommandLine);
+        s.origins.insert("to", Origin::CommandLine);
+        Ok(s)
+    }
+
     /// The same settings with another instrument (a choice made in the UI).
     pub fn with_instrument(&self, name: &str) -> Result<Settings> {
         let mut s = self.clone();

@@ -548,11 +548,37 @@ fn parallax_view_shows_factors_and_epochs_at_both_sizes() {
 
 #[test]
 fn budget_view_and_export_match_the_library_budget() {
-    let pick = ["LPO-P03", "LPO-C03", "LPO-C05", "LPO-T2026a"];
+    use crossterm::event::KeyCode;
+    use rung::plan::budget::{Asked, Options, budget_with, figure, proposal};
+    let pick = ["LPO-P03", "LPO-P12", "LPO-C03", "LPO-C05", "LPO-T2026a"];
     let targets = demo_subset(&pick);
-    // The same call as `rung budget`, made here directly, with the demo
-    // programme's settings (its range, 2026-12-01 to 2029-05-31).
-    let b = rung::plan::budget::budget(&demo_settings(), &targets).unwrap();
+    // The same calls as `rung budget` (and `rung budget --hours 2.5`), made
+    // here directly, with the demo programme's settings (its range,
+    // from the settings) and the curves the view computes.
+    let st = demo_settings();
+    let plain = budget_with(
+        &st,
+        &targets,
+        &Options {
+            curves: true,
+            ..Default::default()
+        },
+    )
+    .unwrap();
+    let asked = Asked {
+        hours: Some(2.5),
+        ..Default::default()
+    };
+    let b = budget_with(
+        &st,
+        &targets,
+        &Options {
+            curves: true,
+            asked: Some(asked),
+            confidence: None,
+        },
+    )
+    .unwrap();
     let dir = tempfile::tempdir().unwrap();
     let mut s = state_with(
         targets,
@@ -566,35 +592,105 @@ fn budget_view_and_export_match_the_library_budget() {
     for (w, h) in [(80u16, 24u16), (160, 48)] {
         let (rows, _) = screen(&s, w, h);
         assert!(
-            rows[2].starts_with("Budget · 2026-12-01 to 2029-05-31 · pampa-lucero · lucero-1m")
+            rows[2].starts_with(&format!(
+                "Budget · {} to {} · pampa-lucero · lucero-1m",
+                st.from, st.to
+            ))
         );
         assert!(
-            rows[3].contains("goal") && rows[3].contains("reach") && rows[3].contains("verdict")
+            rows[3].starts_with("no hours asked (b sets them)"),
+            "{}",
+            rows[3]
         );
-        for r in &b.rows {
+        assert!(
+            rows[4].contains("goal") && rows[4].contains("reach") && rows[4].contains("verdict")
+        );
+        for r in &plain.rows {
             let line = row_of(&rows, &r.target);
             assert!(line.contains(&format!("{:.0}%", r.goal_pct)), "{line}");
-            assert!(line.contains(&format!("{:.1}", r.hours)), "{line}");
+            assert!(line.contains(&format!(" {:.1} ", r.hours)), "{line}");
+            assert!(
+                line.contains(&format!(" {:.1} ", r.hours_expected)),
+                "{line}"
+            );
             assert!(line.contains(&r.verdict.text()), "{line}");
         }
-        assert!(has(&rows, &format!("total {:.1} h", b.total_hours)));
+        assert!(has(&rows, &format!("total {:.1} h", plain.total_hours)));
     }
-    // Export writes the library's CSV and Markdown beside the programme file.
+    // The request: 2.5 hours asked, and an export folder typed in.
+    ch(&mut s, 'b');
+    typed(&mut s, "2.5");
+    for _ in 0..3 {
+        key(&mut s, KeyCode::Tab);
+    }
+    for _ in 0..400 {
+        key(&mut s, KeyCode::Backspace);
+    }
+    let out = dir.path().join("for the proposal");
+    typed(&mut s, out.to_str().unwrap());
+    key(&mut s, KeyCode::Enter);
+    assert!(s.overlay.is_none());
+    let a = b.allocation.as_ref().unwrap();
+    for (w, h) in [(80u16, 24u16), (160, 48)] {
+        let (rows, _) = screen(&s, w, h);
+        assert!(
+            rows[3].starts_with(&format!(
+                "2.5 h asked: {}/{} goals met",
+                a.goals_met, a.goals_total
+            )),
+            "{}",
+            rows[3]
+        );
+        for (r, sh) in b.rows.iter().zip(&a.shares) {
+            let line = row_of(&rows, &r.target);
+            assert!(line.contains(&format!(" {:.1} ", sh.hours)), "{line}");
+            if sh.goal_met {
+                assert!(line.contains("reachable · met"), "{line}");
+            }
+        }
+    }
+    // Something is met and something is not, with its reason on selection.
+    assert!(a.shares.iter().any(|x| x.goal_met) && a.shares.iter().any(|x| !x.goal_met));
+    let unmet = a.shares.iter().find(|x| !x.goal_met).unwrap();
+    select(&mut s, &unmet.target);
+    let (rows, _) = screen(&s, 160, 48);
+    let why = format!("{}: {}", unmet.target, unmet.why);
+    assert!(has(&rows, &why[..why.len().min(150)]), "{why}");
+    // Export writes the library's files into the folder typed, and names
+    // each in full, also at 80 columns.
     ch(&mut s, 'x');
-    let csv = std::fs::read_to_string(
-        dir.path()
-            .join("budget-pampa-lucero-2026-12-01-to-2029-05-31.csv"),
-    )
-    .unwrap();
-    assert_eq!(csv, rung::plan::budget::csv(&b));
-    let md = std::fs::read_to_string(
-        dir.path()
-            .join("budget-pampa-lucero-2026-12-01-to-2029-05-31.md"),
-    )
-    .unwrap();
-    assert_eq!(md, rung::plan::budget::markdown(&b));
+    let stem = format!("budget-pampa-lucero-{}-to-{}", st.from, st.to);
+    let read = |ext: &str| std::fs::read_to_string(out.join(format!("{stem}{ext}"))).unwrap();
+    assert_eq!(read(".csv"), rung::plan::budget::csv(&b));
+    assert_eq!(read(".md"), rung::plan::budget::markdown(&b));
+    assert_eq!(read(".tex"), proposal::latex(&b));
+    assert_eq!(read(".svg"), figure::svg(&b));
+    assert_eq!(
+        read("-justification.txt"),
+        proposal::justification(&b) + "\n"
+    );
     let (rows, _) = screen(&s, 80, 24);
-    assert!(rows[23].starts_with("exported "), "{}", rows[23]);
+    assert!(
+        rows[23].starts_with("exported 5 budget files to "),
+        "{}",
+        rows[23]
+    );
+    // (A name may be wrapped where it has a space; compare without spaces.)
+    let shown: String = rows
+        .iter()
+        .map(|r| r.trim_matches(|c| c == '│' || c == ' ').replace(' ', ""))
+        .collect();
+    for ext in [".csv", ".md", ".tex", ".svg", "-justification.txt"] {
+        let full = out.join(format!("{stem}{ext}")).display().to_string();
+        assert!(
+            shown.contains(&full.replace(' ', "")),
+            "{full} not shown in full:\n{}",
+            rows.join("\n")
+        );
+    }
+    // Any key closes the list.
+    ch(&mut s, 'j');
+    assert!(s.overlay.is_none());
 }
 
 #[test]

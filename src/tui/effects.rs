@@ -163,9 +163,10 @@ pub fn ladder_for(k: &BudgetKey) -> Result<crate::ladder::chain::LadderReport> {
 }
 
 /// The programme's budget over its range (`plan::budget` with the key's
-/// settings, as `rung budget`). Each target's prediction is kept, per target
-/// and settings: an edit recomputes only the targets it changed, and going
-/// back to settings already seen costs nothing.
+/// settings, hours asked and curves, as `rung budget`). Each target's
+/// prediction and curve are kept, per target and settings: an edit
+/// recomputes only the targets it changed, going back to settings already
+/// seen costs nothing, and asking other hours only shares them again.
 pub fn budget_for(k: &BudgetKey) -> Result<crate::plan::budget::Budget> {
     budget_until(k, &Cancel::default()).map(|b| b.expect("never cancelled"))
 }
@@ -174,16 +175,25 @@ pub fn budget_for(k: &BudgetKey) -> Result<crate::plan::budget::Budget> {
 /// budget superseded it): `None` then. The targets already computed are kept
 /// for the next budget with the same settings.
 pub fn budget_until(k: &BudgetKey, cancel: &Cancel) -> Result<Option<crate::plan::budget::Budget>> {
-    use crate::plan::budget::{assemble, target_prediction};
+    use crate::plan::budget::{
+        CurvePoint, Options, TargetWork, assemble_with, curve::inverse_curve, target_prediction,
+    };
     use std::collections::HashMap;
     use std::sync::{Mutex, OnceLock};
-    type Row = Option<std::result::Result<crate::ladder::Prediction, String>>;
+    type Pred = Option<std::result::Result<crate::ladder::Prediction, String>>;
+    /// A target's prediction and, once computed, its curve.
+    type Row = (Pred, Option<Vec<CurvePoint>>);
     type Rows = HashMap<String, Vec<(Target, Row)>>;
     type Memo = Mutex<Vec<(Arc<crate::programme::Settings>, Rows)>>;
     /// Settings whose predictions are kept (the newest).
     const KEEP: usize = 4;
     static MEMO: OnceLock<Memo> = OnceLock::new();
     crate::plan::schedule::dates(k.settings.from, k.settings.to)?;
+    if let Some(a) = &k.asked {
+        a.check()?;
+        a.check_semesters(&k.settings)?;
+    }
+    let curves = k.curves || k.asked.is_some();
     let memo = MEMO.get_or_init(|| Mutex::new(Vec::new()));
     let find = |m: &[(Arc<crate::programme::Settings>, Rows)]| {
         m.iter()
@@ -209,19 +219,36 @@ pub fn budget_until(k: &BudgetKey, cancel: &Cancel) -> Result<Option<crate::plan
     // target): its row from its plan, its stars none (plan::budget::list_prediction).
     let links = crate::ladder::field::link(&k.targets);
     let alone = |i: usize| matches!(links.role(i), crate::ladder::field::Role::Alone);
-    let work: Vec<Option<Row>> = k
+    let rows: Vec<Option<Row>> = k
         .targets
         .par_iter()
         .zip(known)
         .enumerate()
         .map(|(i, (t, r))| {
-            if alone(i) {
-                r.or_else(|| (!cancel.is_cancelled()).then(|| target_prediction(&k.settings, t)))
-            } else {
-                (!cancel.is_cancelled()).then(|| {
-                    crate::plan::budget::list_prediction(&k.settings, &k.targets, &links, i)
-                })
+            if !alone(i) {
+                return (!cancel.is_cancelled()).then(|| {
+                    (
+                        crate::plan::budget::list_prediction(&k.settings, &k.targets, &links, i),
+                        None,
+                    )
+                });
             }
+            let (pred, curve) = match r {
+                Some(x) => x,
+                None if cancel.is_cancelled() => return None,
+                None => (target_prediction(&k.settings, t), None),
+            };
+            let curve = match (curve, &pred) {
+                (Some(c), _) => Some(c),
+                (None, Some(Ok(p))) if curves => {
+                    if cancel.is_cancelled() {
+                        return None;
+                    }
+                    Some(inverse_curve(&k.settings, t, Some(p)))
+                }
+                _ => None,
+            };
+            Some((pred, curve))
         })
         .collect();
     if let Ok(mut m) = memo.lock() {
@@ -235,22 +262,74 @@ pub fn budget_until(k: &BudgetKey, cancel: &Cancel) -> Result<Option<crate::plan
                 m.len() - 1
             }
         };
-        let rows = &mut m[i].1;
-        for (i, (t, r)) in k.targets.iter().zip(&work).enumerate() {
+        let kept = &mut m[i].1;
+        for (i, (t, r)) in k.targets.iter().zip(&rows).enumerate() {
             let Some(r) = r else { continue };
             if !alone(i) {
                 continue;
             }
-            let v = rows.entry(t.name.clone()).or_default();
-            if !v.iter().any(|(mt, _)| mt == t) {
-                v.push((t.clone(), r.clone()));
+            let v = kept.entry(t.name.clone()).or_default();
+            match v.iter_mut().find(|(mt, _)| mt == t) {
+                Some(slot) if slot.1.1.is_none() => slot.1 = r.clone(),
+                Some(_) => {}
+                None => v.push((t.clone(), r.clone())),
             }
         }
     }
-    match work.into_iter().collect::<Option<Vec<Row>>>() {
-        Some(work) => Ok(Some(assemble(&k.settings, &k.targets, work))),
-        None => Ok(None),
-    }
+    let Some(rows) = rows.into_iter().collect::<Option<Vec<Row>>>() else {
+        return Ok(None);
+    };
+    let work = rows
+        .into_iter()
+        .map(|(pred, curve)| {
+            pred.map(|r| {
+                r.map(|p| TargetWork {
+                    prediction: p,
+                    curve: curve.unwrap_or_default(),
+                })
+            })
+        })
+        .collect();
+    assemble_with(
+        &k.settings,
+        &k.targets,
+        work,
+        &Options {
+            curves,
+            asked: k.asked.clone(),
+            confidence: None,
+        },
+    )
+    .map(Some)
+}
+
+/// The budget of `k` with every target's curve ([`budget_for`]) written as
+/// CSV, Markdown, LaTeX, the figure (SVG) and the justification into `dir`
+/// (made when missing), each file atomically; the files written, in full.
+pub fn budget_files(
+    k: &BudgetKey,
+    dir: &std::path::Path,
+    stem: &str,
+) -> std::result::Result<Vec<std::path::PathBuf>, String> {
+    use crate::plan::budget as pb;
+    let mut k = k.clone();
+    k.curves = true;
+    let b = budget_for(&k).map_err(|e| e.to_string())?;
+    let dir = std::path::absolute(dir).unwrap_or_else(|_| dir.to_path_buf());
+    let files = [
+        (format!("{stem}.csv"), pb::csv(&b)),
+        (format!("{stem}.md"), pb::markdown(&b)),
+        (format!("{stem}.tex"), pb::proposal::latex(&b)),
+        (format!("{stem}.svg"), pb::figure::svg(&b)),
+        (
+            format!("{stem}-justification.txt"),
+            pb::proposal::justification(&b) + "\n",
+        ),
+    ];
+    files
+        .into_iter()
+        .map(|(name, text)| save(&dir.join(name), &text, None))
+        .collect()
 }
 
 /// The files of a plan export, named after the site and span.
@@ -543,6 +622,12 @@ pub fn run_until(effect: Effect, cancel: &Cancel) -> Vec<Msg> {
                 Some(e) => Err(e),
                 None => Ok(done),
             })]
+        }
+        Effect::BudgetExport(job) => {
+            let (k, dir, stem) = *job;
+            vec![Msg::BudgetExported(
+                budget_files(&k, &dir, &stem).map_err(|e| format!("budget not exported: {e}")),
+            )]
         }
         Effect::ExportPlan(job) => vec![Msg::Exported(
             export_plan(&job).map_err(|e| format!("plan not exported: {e}")),

@@ -78,7 +78,7 @@ impl Lane {
             Effect::Night(_) => Some(Lane::Night),
             Effect::Method(_) => Some(Lane::Method),
             Effect::Season(_) => Some(Lane::Season),
-            Effect::Export(_) => Some(Lane::Files),
+            Effect::Export(_) | Effect::BudgetExport(_) => Some(Lane::Files),
             Effect::ExportPlan(_) => Some(Lane::Plan),
             Effect::Budget(_) => Some(Lane::Budget),
             Effect::Ladder(_) => Some(Lane::Ladder),
@@ -210,6 +210,8 @@ mod tests {
         Effect::Budget(Box::new(crate::tui::state::BudgetKey {
             settings: Arc::new(st),
             targets: Vec::new(),
+            asked: None,
+            curves: false,
         }))
     }
 

@@ -45,8 +45,11 @@ pub enum Action {
     Replan,
     /// The Ladder view (the distance ladder of the programme).
     ShowLadder,
-    /// Export the budget (CSV and Markdown) beside the programme file.
+    /// Export the budget (CSV, Markdown, LaTeX, the figure, the
+    /// justification) to the Budget view's export folder.
     Export,
+    /// The Budget view's request: hours asked, range, export folder.
+    BudgetAsk,
     /// Schedule the Season view's span and export the plan (JSON, CSV,
     /// iCalendar) and tonight's night sheet beside the programme file.
     ExportPlan,
@@ -234,7 +237,8 @@ pub const KEYMAP: &[Binding] = &[
     ch(S::Main, '6', A::ShowChase, "Chase view (transients)"),
     ch(S::Main, '7', A::ShowBudget, "Budget view"),
     ch(S::Main, '9', A::ShowLadder, "Ladder view (distance ladder)"),
-    ch(S::Main, 'x', A::Export, "export budget (CSV, MD)"),
+    ch(S::Main, 'x', A::Export, "export budget (CSV MD TeX SVG)"),
+    ch(S::Main, 'b', A::BudgetAsk, "budget: hours asked, range"),
     ch(S::Main, 'X', A::ExportPlan, "export plan, iCal, sheet"),
     b(S::Main, KeyCode::Tab, A::NextView, "next view"),
     b(S::Main, KeyCode::BackTab, A::PrevView, "previous view"),

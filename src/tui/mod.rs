@@ -4,6 +4,7 @@
 //! (through [`effects`]) and cached in the state. The terminal itself is driven
 //! by the binary (`src/cli/tui.rs`); this module only writes into buffers.
 
+pub mod ask;
 pub mod effects;
 pub mod form;
 pub mod jobs;

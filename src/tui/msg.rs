@@ -61,6 +61,8 @@ pub enum Msg {
     ),
     /// An export finished: the files written, or the error.
     Exported(Result<Vec<PathBuf>, String>),
+    /// The budget's files were written (each named in full), or why not.
+    BudgetExported(Result<Vec<PathBuf>, String>),
     /// A distance-method report (Phase, Chase) was computed.
     MethodReady(Box<MethodResult>),
     /// The unsaved-edits file was written or removed (or the error).
@@ -213,6 +215,10 @@ pub enum Effect {
     Ladder(Box<BudgetKey>),
     /// Write export files atomically (path, contents).
     Export(Vec<(PathBuf, String)>),
+    /// Compute the budget with every target's curve (kept predictions are
+    /// reused) and write its files (CSV, Markdown, LaTeX, the figure, the
+    /// justification) into the folder, named after the stem.
+    BudgetExport(Box<(BudgetKey, PathBuf, String)>),
     /// Build a schedule and write the plan files (in the background).
     ExportPlan(Box<PlanJob>),
     /// Compute a distance-method report for one target (in the background).

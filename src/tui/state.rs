@@ -340,18 +340,27 @@ pub struct MethodResult {
     pub body: MethodBody,
 }
 
-/// What a budget is for: the programme and its settings.
+/// What a budget is for: the programme, its settings, the hours asked, and
+/// whether each target's inverse curve is wanted (the Budget view's shares
+/// and figure need them; the Roster's progress column does not).
 #[derive(Debug, Clone)]
 pub struct BudgetKey {
     /// The programme.
     pub targets: Vec<crate::io::targets::Target>,
     /// The settings it is computed with.
     pub settings: Arc<Settings>,
+    /// The hours asked (the Budget view's request).
+    pub asked: Option<crate::plan::budget::Asked>,
+    /// Each target's inverse curve.
+    pub curves: bool,
 }
 
 impl PartialEq for BudgetKey {
     fn eq(&self, o: &Self) -> bool {
-        same_settings(&self.settings, &o.settings) && self.targets == o.targets
+        same_settings(&self.settings, &o.settings)
+            && self.targets == o.targets
+            && self.asked == o.asked
+            && self.curves == o.curves
     }
 }
 
@@ -426,6 +435,8 @@ pub enum Overlay {
     },
     /// Target form.
     Form(Box<Form>),
+    /// The Budget view's request form (hours asked, range, export folder).
+    BudgetAsk(Box<crate::tui::ask::AskForm>),
     /// A yes/no question.
     Question(Question),
 }
@@ -442,6 +453,8 @@ pub enum Question {
     /// The file changed since this session read it and both changed these
     /// targets: overwrite it with this session's programme?
     Overwrite(Vec<String>),
+    /// Files written by an export, each named in full (any key closes it).
+    Exported(Vec<std::path::PathBuf>),
 }
 
 /// How a message reads.
@@ -537,6 +550,8 @@ pub struct State {
     )>,
     /// The ladder being computed.
     pub ladder_pending: Option<BudgetKey>,
+    /// The Budget view's request: hours asked, export folder.
+    pub budget_ask: crate::tui::ask::BudgetAsk,
     /// Message line.
     pub message: Option<(String, Level)>,
     /// Terminal size (columns, rows).
@@ -632,7 +647,7 @@ impl State {
         match &self.overlay {
             Some(Overlay::Help { .. }) => Scope::Help,
             Some(Overlay::Sites { .. }) | Some(Overlay::Instruments { .. }) => Scope::Picker,
-            Some(Overlay::Form(_)) => Scope::Form,
+            Some(Overlay::Form(_)) | Some(Overlay::BudgetAsk(_)) => Scope::Form,
             Some(Overlay::Question(_)) => Scope::Question,
             None if self.filtering => Scope::Filter,
             None => Scope::Main,
@@ -687,12 +702,23 @@ impl State {
         })
     }
 
-    /// The budget key for the current programme and settings.
+    /// The budget key for the current programme, settings and hours asked
+    /// (hours asked need the curves, for the shares of the leftover).
     pub fn budget_key(&self) -> BudgetKey {
         BudgetKey {
             targets: self.targets.clone(),
             settings: self.settings.clone(),
+            asked: self.budget_ask.asked.clone(),
+            curves: self.budget_ask.asked.is_some(),
         }
+    }
+
+    /// Whether a budget computed for `k` is the one the views show now: the
+    /// same programme, settings and hours asked.
+    pub fn budget_satisfies(&self, k: &BudgetKey) -> bool {
+        self.budget_setting_is_current(k)
+            && k.asked == self.budget_ask.asked
+            && k.targets == self.targets
     }
 
     /// Whether a budget key is for the current settings (its programme aside).
@@ -710,7 +736,7 @@ impl State {
     /// The budget for the current key, when computed.
     pub fn budget_now(&self) -> Option<&Result<Box<crate::plan::budget::Budget>, String>> {
         let (k, b) = self.budget.as_ref()?;
-        (self.budget_setting_is_current(k) && k.targets == self.targets).then_some(b)
+        self.budget_satisfies(k).then_some(b)
     }
 
     /// A target's progress towards its goal from the budget for the current site,

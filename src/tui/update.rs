@@ -95,6 +95,10 @@ pub fn init(setup: Setup) -> (State, Option<Effect>) {
         budget_pending: None,
         ladder: None,
         ladder_pending: None,
+        budget_ask: crate::tui::ask::BudgetAsk {
+            asked: None,
+            export_dir: std::env::current_dir().unwrap_or_default(),
+        },
         message: setup.message.map(|m| (m, Level::Warn)),
         size: setup.size,
         theme: setup.theme,
@@ -265,7 +269,9 @@ fn budget_effect(s: &mut State) -> Option<Effect> {
         return None;
     }
     let k = s.budget_key();
-    if s.budget.as_ref().is_some_and(|b| b.0 == k) || s.budget_pending.as_ref() == Some(&k) {
+    if s.budget.as_ref().is_some_and(|b| s.budget_satisfies(&b.0))
+        || s.budget_pending.as_ref() == Some(&k)
+    {
         return None;
     }
     s.budget_pending = Some(k.clone());
@@ -273,30 +279,26 @@ fn budget_effect(s: &mut State) -> Option<Effect> {
 }
 
 fn export(s: &mut State) -> Option<Effect> {
-    let Some(Ok(b)) = s.budget_now() else {
-        say(
-            s,
-            "nothing to export yet: open the Budget view (7) and wait for it",
-            Level::Warn,
-        );
+    if s.targets.is_empty() {
+        say(s, "nothing to export: the programme is empty", Level::Warn);
         return None;
-    };
-    let dir = export_dir(s);
+    }
     let stem = format!(
         "budget-{}-{}-to-{}",
         s.site().name,
         s.settings.from,
         s.settings.to
     );
-    let files = vec![
-        (dir.join(format!("{stem}.csv")), crate::plan::budget::csv(b)),
-        (
-            dir.join(format!("{stem}.md")),
-            crate::plan::budget::markdown(b),
-        ),
-    ];
-    say(s, "exporting …", Level::Info);
-    Some(Effect::Export(files))
+    say(
+        s,
+        "exporting the budget (each target's hours curve first) …",
+        Level::Info,
+    );
+    Some(Effect::BudgetExport(Box::new((
+        s.budget_key(),
+        s.budget_ask.export_dir.clone(),
+        stem,
+    ))))
 }
 
 fn export_dir(s: &State) -> std::path::PathBuf {
@@ -662,6 +664,9 @@ fn act(s: &mut State, a: Action) -> Option<Effect> {
 }
 
 fn act_form(s: &mut State, a: Action) -> Option<Effect> {
+    if matches!(s.overlay, Some(Overlay::BudgetAsk(_))) {
+        return act_ask(s, a);
+    }
     let Some(Overlay::Form(f)) = s.overlay.as_mut() else {
         return None;
     };
@@ -705,6 +710,57 @@ fn act_form(s: &mut State, a: Action) -> Option<Effect> {
                 select_name(s, &name);
                 refresh_caution(s);
                 return e;
+            }
+        },
+        _ => {}
+    }
+    None
+}
+
+/// The Budget view's request form: fields, and on accept the new hours
+/// asked, range and export folder (the range through `Settings::with_range`).
+fn act_ask(s: &mut State, a: Action) -> Option<Effect> {
+    let Some(Overlay::BudgetAsk(f)) = s.overlay.as_mut() else {
+        return None;
+    };
+    match a {
+        Action::NextField => f.move_focus(1),
+        Action::PrevField => f.move_focus(-1),
+        Action::Cancel => {
+            s.overlay = None;
+            say(s, "budget request unchanged", Level::Info);
+        }
+        Action::Accept => match f.check(&s.settings) {
+            Err(e) => {
+                f.focus = e.0;
+                f.error = Some(e);
+            }
+            Ok((asked, st, dir)) => {
+                s.overlay = None;
+                let words = match &asked {
+                    Some(a) => format!("{} asked", crate::tui::ask::asked_words(a)),
+                    None => "no hours asked".to_string(),
+                };
+                say(
+                    s,
+                    format!(
+                        "budget: {words}, {} to {}; exports to {}",
+                        st.from,
+                        st.to,
+                        dir.display()
+                    ),
+                    Level::Info,
+                );
+                s.budget_ask = crate::tui::ask::BudgetAsk {
+                    asked,
+                    export_dir: dir,
+                };
+                let st = Arc::new(st);
+                if !crate::tui::state::same_settings(&s.settings, &st) {
+                    s.settings = st;
+                    return recompute(s);
+                }
+                return season_effect(s);
             }
         },
         _ => {}
@@ -814,6 +870,13 @@ fn act_main_inner(s: &mut State, a: Action) -> Option<Effect> {
         Action::ShowLadder => {
             s.view = View::Ladder;
             season_effect(s)
+        }
+        Action::BudgetAsk => {
+            s.overlay = Some(Overlay::BudgetAsk(Box::new(crate::tui::ask::AskForm::new(
+                &s.budget_ask,
+                &s.settings,
+            ))));
+            None
         }
         Action::Export => export(s),
         Action::ExportPlan => export_plan(s),
@@ -1081,14 +1144,18 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
                 .intersects(KeyModifiers::CONTROL | KeyModifiers::ALT);
             match (scope, k.code) {
                 (Scope::Form, KeyCode::Char(c)) if plain => {
-                    if let Some(Overlay::Form(f)) = s.overlay.as_mut() {
-                        f.type_char(c);
+                    match s.overlay.as_mut() {
+                        Some(Overlay::Form(f)) => f.type_char(c),
+                        Some(Overlay::BudgetAsk(f)) => f.type_char(c),
+                        _ => {}
                     }
                     None
                 }
                 (Scope::Form, KeyCode::Backspace) => {
-                    if let Some(Overlay::Form(f)) = s.overlay.as_mut() {
-                        f.backspace();
+                    match s.overlay.as_mut() {
+                        Some(Overlay::Form(f)) => f.backspace(),
+                        Some(Overlay::BudgetAsk(f)) => f.backspace(),
+                        _ => {}
                     }
                     None
                 }
@@ -1253,7 +1320,7 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
             if s.budget_pending.as_ref() == Some(&*k) {
                 s.budget_pending = None;
             }
-            if *k == s.budget_key() {
+            if s.budget_satisfies(&k) {
                 s.budget = Some((*k, r));
             }
             None
@@ -1265,6 +1332,24 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
             if *k == s.budget_key() {
                 s.ladder = Some((*k, r));
             }
+            None
+        }
+        Msg::BudgetExported(Ok(files)) => {
+            let dir = files
+                .first()
+                .and_then(|f| f.parent())
+                .map(|d| d.display().to_string())
+                .unwrap_or_default();
+            say(
+                s,
+                format!("exported {} budget files to {dir}", files.len()),
+                Level::Good,
+            );
+            s.overlay = Some(Overlay::Question(Question::Exported(files)));
+            None
+        }
+        Msg::BudgetExported(Err(e)) => {
+            say(s, format!("NOT exported: {e}"), Level::Warn);
             None
         }
         Msg::Exported(Ok(files)) => {

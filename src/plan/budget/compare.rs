@@ -129,11 +129,20 @@ pub fn side_lines(sides: &[Side]) -> Vec<String> {
         head.push_str(&format!(" {:>12}", format!("[{}]", i + 1)));
     }
     out.push(head);
-    if let Some(first) = sides.first() {
-        for (ri, r) in first.rows.iter().enumerate() {
-            let mut l = format!("  {:<14}", r.target);
+    // Every target of any configuration, in the order first met.
+    let mut names: Vec<&str> = Vec::new();
+    for s in sides {
+        for r in &s.rows {
+            if !names.contains(&r.target.as_str()) {
+                names.push(&r.target);
+            }
+        }
+    }
+    {
+        for name in names {
+            let mut l = format!("  {name:<14}");
             for s in sides {
-                let cell = match s.rows.get(ri) {
+                let cell = match s.rows.iter().find(|x| x.target == name) {
                     Some(x) if x.verdict_label == "reachable" && x.hours > 0.0 => format!(
                         "{}{}",
                         num(x.hours_expected, 1),
@@ -144,7 +153,7 @@ pub fn side_lines(sides: &[Side]) -> Vec<String> {
                         }
                     ),
                     Some(x) => x.verdict_label.replace('_', " "),
-                    None => crate::output::MISSING.to_string(),
+                    None => "skipped".to_string(),
                 };
                 l.push_str(&format!(" {cell:>12}"));
             }

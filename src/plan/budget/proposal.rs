@@ -160,7 +160,7 @@ pub fn justification(b: &Budget) -> String {
         if met.is_empty() { "none".to_string() } else { met.join(", ") }
     ));
     p.push_str(&format!(
-        "They take {} h including {} h of calibrations, leaving {} h; the weather lets them fit with probability {}, and at the {} % quantile of each goal's hours {} goals are met. ",
+        "The allocation uses {} h, {} h of them calibrations (hours the goals met leave go to the other targets' precision), and leaves {} h; the weather lets the goals met fit with probability {}, and at the {} % quantile of each goal's hours {} goals are met. ",
         num(a.hours_allocated, 1),
         num(a.calibration_hours, 1),
         num(a.hours_left, 1),
@@ -171,7 +171,7 @@ pub fn justification(b: &Budget) -> String {
     let out: Vec<String> = a
         .shares
         .iter()
-        .filter(|s| s.status == "out_of_reach")
+        .filter(|s| !s.goal_met && !s.hours_for_goal.is_finite())
         .map(|s| {
             let r = b.rows.iter().find(|r| r.target == s.target);
             format!(
@@ -190,7 +190,7 @@ pub fn justification(b: &Budget) -> String {
     let wait: Vec<String> = a
         .shares
         .iter()
-        .filter(|s| !s.goal_met && s.status != "out_of_reach")
+        .filter(|s| !s.goal_met && s.hours_for_goal.is_finite())
         .map(|s| format!("{} ({} h)", s.target, num(s.hours_for_goal, 1)))
         .collect();
     if !wait.is_empty() {

@@ -1,19 +1,67 @@
-//! Budget: every target's distance goal against what its method reaches in
-//! the coming year, the epochs and hours it takes (from `plan::budget::budget`,
-//! as `rung budget`), and the hours by semester.
+//! Budget: every target's distance goal against what its method reaches
+//! over the programme's range, the epochs and hours it takes in clear weather
+//! and with the site's weather, and, with hours asked (`b`), the allocation:
+//! each target's share and what it reaches, the goals met, the hours left
+//! and what more hours buy; the selected target's reason below (from
+//! `plan::budget`, as `rung budget`). Also the request form and the list of
+//! files an export wrote.
 
+use crate::plan::budget::allocation::Share;
+use crate::tui::ask::{AskForm, FIELDS};
 use crate::tui::keymap::Action;
 use crate::tui::keymap::{Scope, keys_for};
 use crate::tui::state::{State, scroll_offset};
 use crate::tui::theme::kind_glyph;
-use crate::tui::views::fmt::{fit, goal, put, rfit};
+use crate::tui::views::fmt::{centered, fit, goal, put, rfit};
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
+use ratatui::widgets::{Block, Borders, Clear, Widget};
+
+/// A share's status in a few words (the verdict column's tail).
+fn status(sh: &Share) -> String {
+    match sh.status.as_str() {
+        "met" => "met".into(),
+        "partial" => format!("partial {}%", crate::output::num(sh.reaches_pct, 1)),
+        "none" => "no hours".into(),
+        // The verdict already says why.
+        _ => String::new(),
+    }
+}
+
+/// Words cut into lines of at most `w` characters (a word longer than a
+/// line is cut where the line ends).
+pub fn wrap(text: &str, w: usize) -> Vec<String> {
+    let w = w.max(8);
+    let mut lines = Vec::new();
+    let mut cur = String::new();
+    for word in text.split(' ') {
+        let mut word = word.to_string();
+        while word.chars().count() > w {
+            if !cur.is_empty() {
+                lines.push(std::mem::take(&mut cur));
+            }
+            let head: String = word.chars().take(w).collect();
+            word = word.chars().skip(w).collect();
+            lines.push(head);
+        }
+        if cur.chars().count() + word.chars().count() + 1 > w && !cur.is_empty() {
+            lines.push(std::mem::take(&mut cur));
+        }
+        if !cur.is_empty() {
+            cur.push(' ');
+        }
+        cur.push_str(&word);
+    }
+    if !cur.is_empty() {
+        lines.push(cur);
+    }
+    lines
+}
 
 /// Draw the Budget view.
 pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     let th = &s.theme;
-    if area.height < 6 || area.width < 40 {
+    if area.height < 8 || area.width < 40 {
         put(
             buf,
             area.x,
@@ -58,37 +106,70 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         }
         Some(Ok(b)) => b,
     };
-    // The verdict takes the rest of the line, so it is never cut where
-    // there is room for it (at least 24 cells).
-    let verdict_w = (area.width as usize)
-        .saturating_sub(15 + 5 + 6 * 4 + 6)
-        .max(24);
-    let cols: [(&str, usize, bool); 7] = [
+    let n = crate::output::num;
+    let q = n(b.weather.confidence * 100.0, 0);
+    // The request and what it buys.
+    let head = match &b.allocation {
+        Some(a) => format!(
+            "{} h asked: {}/{} goals met (weight {}/{}), {} h left, weather p {} · {}",
+            n(a.hours_asked, 1),
+            a.goals_met,
+            a.goals_total,
+            n(a.weight_met, 0),
+            n(a.weight_total, 0),
+            n(a.hours_left, 1),
+            n(a.probability_all_met, 2),
+            match &a.next {
+                Some(x) => format!("at {} h + {}", n(x.hours, 1), x.adds.join(", ")),
+                None => "no further goal with more hours".into(),
+            }
+        ),
+        None => format!(
+            "no hours asked ({} sets them) · every target: {} h with the weather ({} h at {q} %)",
+            keys_for(Scope::Main, Action::BudgetAsk),
+            n(b.total_hours_expected, 1),
+            n(b.total_hours_pessimistic, 1)
+        ),
+    };
+    put(buf, area.x, area.y + 1, &head, area.width, th.text());
+    // Columns: all at 100 cells and more; without epochs and exposure below.
+    let wide = area.width >= 100;
+    let fixed: Vec<(&str, usize, bool)> = [
         ("target", 15, false),
         ("goal", 5, true),
         ("reach", 6, true),
         ("epochs", 6, true),
         ("exp s", 6, true),
         ("hours", 6, true),
-        ("verdict", verdict_w, false),
-    ];
-    let line = |v: [String; 7]| -> String {
+        ("wthr h", 6, true),
+        ("share", 6, true),
+    ]
+    .into_iter()
+    .filter(|c| wide || !matches!(c.0, "epochs" | "exp s"))
+    .collect();
+    let used: usize = fixed.iter().map(|c| c.1 + 1).sum();
+    // The verdict takes the rest of the line (at least 16 cells).
+    let verdict_w = (area.width as usize).saturating_sub(used).max(16);
+    let mut cols = fixed.clone();
+    cols.push(("verdict", verdict_w, false));
+    let line = |v: &[String]| -> String {
         v.iter()
             .zip(cols.iter())
             .map(|(t, (_, w, r))| if *r { rfit(t, *w) } else { fit(t, *w) })
             .collect::<Vec<_>>()
             .join(" ")
     };
+    let header: Vec<String> = cols.iter().map(|c| c.0.to_string()).collect();
     put(
         buf,
         area.x,
-        area.y + 1,
-        &line(cols.map(|c| c.0.to_string())),
+        area.y + 2,
+        &line(&header),
         area.width,
         th.header(),
     );
-    let foot = 2u16;
-    let rows = area.height.saturating_sub(2 + foot) as usize;
+    let foot = 4u16;
+    let rows = area.height.saturating_sub(3 + foot) as usize;
     // The selected target's row stays in view.
     let sel_name = s.selected().map(|t| t.name.clone());
     let sel_idx = sel_name
@@ -96,9 +177,15 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         .and_then(|n| b.rows.iter().position(|r| &r.target == n))
         .unwrap_or(0);
     let off = scroll_offset(sel_idx, rows);
-    for (k, r) in b.rows.iter().skip(off).take(rows).enumerate() {
-        let y = area.y + 2 + k as u16;
-        let text = line([
+    let share_of = |i: usize| b.allocation.as_ref().and_then(|a| a.shares.get(i));
+    for (k, (i, r)) in b.rows.iter().enumerate().skip(off).take(rows).enumerate() {
+        let y = area.y + 3 + k as u16;
+        let sh = share_of(i);
+        let verdict = match sh {
+            Some(sh) if !status(sh).is_empty() => format!("{} · {}", r.verdict.text(), status(sh)),
+            _ => r.verdict.text(),
+        };
+        let mut cells = vec![
             format!("{} {}", kind_glyph(r.kind), r.target),
             goal(r.goal_pct),
             if r.achievable_pct.is_finite() {
@@ -106,30 +193,65 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             } else {
                 "—".into()
             },
-            r.epochs.to_string(),
-            format!("{:.0}", r.exptime_per_epoch_s),
-            format!("{:.1}", r.hours),
-            r.verdict.text(),
-        ]);
+        ];
+        if wide {
+            cells.push(r.epochs.to_string());
+            cells.push(format!("{:.0}", r.exptime_per_epoch_s));
+        }
+        cells.push(format!("{:.1}", r.hours));
+        cells.push(format!("{:.1}", r.hours_expected));
+        cells.push(match sh {
+            Some(sh) => format!("{:.1}", sh.hours),
+            None => "—".into(),
+        });
+        cells.push(verdict.clone());
         let sel = sel_name.as_deref() == Some(r.target.as_str());
-        let st = if sel { th.selected() } else { th.text() };
-        put(buf, area.x, y, &text, area.width, st);
-        if r.verdict_label != "reachable" && !sel {
-            // The verdict column carries a word as well as the style.
-            let x = cols.iter().take(6).map(|c| c.1 as u16 + 1).sum::<u16>();
+        let style = if sel { th.selected() } else { th.text() };
+        put(buf, area.x, y, &line(&cells), area.width, style);
+        let short = sh.is_some_and(|x| !x.goal_met) || r.verdict_label != "reachable";
+        if short && !sel {
+            // The verdict column carries words as well as the style.
+            let x = used as u16;
             if x < area.width {
-                put(
-                    buf,
-                    area.x + x,
-                    y,
-                    &r.verdict.text(),
-                    area.width - x,
-                    th.notice(),
-                );
+                put(buf, area.x + x, y, &verdict, area.width - x, th.notice());
             }
         }
     }
+    // The selected target's reason: its share's why, else the verdict and
+    // the method's notes.
     let fy = area.y + area.height - foot;
+    let reason = sel_name
+        .as_ref()
+        .and_then(|name| {
+            let i = b.rows.iter().position(|r| &r.target == name)?;
+            let r = &b.rows[i];
+            let mut t = match share_of(i) {
+                Some(sh) => format!("{}: {}", r.target, sh.why),
+                None => format!("{}: {}", r.target, r.verdict.text()),
+            };
+            if !r.notes.is_empty() {
+                t.push_str(" · ");
+                t.push_str(&r.notes.join("; "));
+            }
+            Some(t)
+        })
+        .or_else(|| {
+            sel_name.as_ref().map(|name| {
+                b.skipped
+                    .iter()
+                    .find(|(n, _)| n == name)
+                    .map(|(n, why)| format!("{n}: skipped: {why}"))
+                    .unwrap_or_else(|| format!("{name}: not in the budget"))
+            })
+        })
+        .unwrap_or_default();
+    for (k, l) in wrap(&reason, area.width as usize)
+        .iter()
+        .take(2)
+        .enumerate()
+    {
+        put(buf, area.x, fy + k as u16, l, area.width, th.notice());
+    }
     let sem: Vec<String> = b
         .hours_by_semester
         .iter()
@@ -138,12 +260,15 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     put(
         buf,
         area.x,
-        fy,
+        fy + 2,
         &format!(
-            "total {:.1} h · {} · {} skipped",
+            "total {:.1} h · {} · {} skipped · {} h with calibrations, {} h with the weather, {} h at {q} %",
             b.total_hours,
             sem.join(" · "),
-            b.skipped.len()
+            b.skipped.len(),
+            n(b.total_hours_with_calibrations, 1),
+            n(b.total_hours_expected, 1),
+            n(b.total_hours_pessimistic, 1)
         ),
         area.width,
         th.text(),
@@ -151,14 +276,140 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     put(
         buf,
         area.x,
-        fy + 1,
+        fy + 3,
         &format!(
-            "x: budget CSV+MD · X: plan at {:.0} h/night ({}/{}) JSON CSV iCal sheet",
+            "{}: hours & range · X: plan at {:.0} h/night ({}/{}) · {}: export CSV MD TeX SVG to {}",
+            keys_for(Scope::Main, Action::BudgetAsk),
             s.plan_hours_per_night,
             keys_for(Scope::Main, Action::PlanHoursDown),
-            keys_for(Scope::Main, Action::PlanHoursUp)
+            keys_for(Scope::Main, Action::PlanHoursUp),
+            keys_for(Scope::Main, Action::Export),
+            s.budget_ask.export_dir.display()
         ),
         area.width,
         th.dim(),
+    );
+}
+
+fn frame(title: &str, area: Rect, buf: &mut Buffer, s: &State) -> Rect {
+    Clear.render(area, buf);
+    let b = Block::default()
+        .borders(Borders::ALL)
+        .title(format!(" {title} "))
+        .title_style(s.theme.title());
+    let inner = b.inner(area);
+    b.render(area, buf);
+    inner
+}
+
+/// The request form: hours asked, range, export folder.
+pub fn ask_form(s: &State, f: &AskForm, area: Rect, buf: &mut Buffer) {
+    let h = (FIELDS.len() as u16 * 2 + 5).min(area.height);
+    let r = centered(area, 76, h);
+    let inner = frame("Budget: hours asked and range", r, buf, s);
+    let vw = inner.width.saturating_sub(16) as usize;
+    for (k, (label, hint)) in FIELDS.iter().enumerate() {
+        let y = inner.y + 2 * k as u16;
+        if y + 1 >= inner.y + inner.height {
+            break;
+        }
+        let focused = k == f.focus;
+        let bad = f.error.as_ref().is_some_and(|e| e.0 == k);
+        let mark = if bad {
+            "✗"
+        } else if focused {
+            "▸"
+        } else {
+            " "
+        };
+        put(
+            buf,
+            inner.x,
+            y,
+            &format!("{mark}{}", fit(label, 14)),
+            15,
+            if bad { s.theme.warn() } else { s.theme.text() },
+        );
+        let v = &f.fields[k];
+        // The end of a long value stays in view while it is typed.
+        let shown = if focused {
+            format!("{v}▏")
+        } else {
+            v.clone()
+        };
+        let n = shown.chars().count();
+        let shown: String = if n > vw {
+            shown.chars().skip(n - vw).collect()
+        } else {
+            shown
+        };
+        put(
+            buf,
+            inner.x + 16,
+            y,
+            &shown,
+            vw as u16,
+            if focused {
+                s.theme.selected()
+            } else {
+                s.theme.text()
+            },
+        );
+        put(buf, inner.x + 16, y + 1, hint, vw as u16, s.theme.dim());
+    }
+    let ey = inner.y + inner.height.saturating_sub(2);
+    if let Some((k, msg)) = &f.error {
+        // Two lines for the reason (the blank line above and this one).
+        let lines = wrap(&format!("✗ {}: {msg}", FIELDS[*k].0), inner.width as usize);
+        let first = ey.saturating_sub(lines.len().min(2) as u16 - 1);
+        for (i, l) in lines.iter().take(2).enumerate() {
+            put(
+                buf,
+                inner.x,
+                first + i as u16,
+                l,
+                inner.width,
+                s.theme.warn(),
+            );
+        }
+    }
+    let keys = format!(
+        "{} check and use · {} drop · {} next field",
+        keys_for(Scope::Form, Action::Accept),
+        keys_for(Scope::Form, Action::Cancel),
+        keys_for(Scope::Form, Action::NextField),
+    );
+    put(buf, inner.x, ey + 1, &keys, inner.width, s.theme.dim());
+}
+
+/// The files an export wrote, each named in full (wrapped where a name is
+/// longer than the box).
+pub fn exported(s: &State, files: &[std::path::PathBuf], area: Rect, buf: &mut Buffer) {
+    let w = area.width.min(100).saturating_sub(2).max(10) as usize;
+    let mut lines = vec!["Written:".to_string()];
+    for f in files {
+        lines.extend(wrap(&f.display().to_string(), w));
+    }
+    let h = (lines.len() as u16 + 3).min(area.height);
+    let r = centered(area, 100, h);
+    let inner = frame("Exported", r, buf, s);
+    let rows = inner.height.saturating_sub(1) as usize;
+    for (i, l) in lines.iter().take(rows).enumerate() {
+        put(
+            buf,
+            inner.x,
+            inner.y + i as u16,
+            l,
+            inner.width,
+            s.theme.text(),
+        );
+    }
+    put(
+        buf,
+        inner.x,
+        inner.y + inner.height.saturating_sub(1),
+        "any key closes",
+        inner.width,
+        s.theme.dim(),
     );
 }

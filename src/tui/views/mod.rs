@@ -264,7 +264,11 @@ pub fn render_all(s: &State, area: Rect, buf: &mut Buffer) {
         Some(Overlay::Form(f)) => overlays::form(s, f, body, buf),
         Some(Overlay::Sites { sel }) => overlays::sites(s, *sel, body, buf),
         Some(Overlay::Instruments { sel }) => overlays::instruments(s, *sel, body, buf),
+        Some(Overlay::Question(crate::tui::state::Question::Exported(files))) => {
+            budget::exported(s, files, body, buf)
+        }
         Some(Overlay::Question(q)) => overlays::question(s, q, body, buf),
+        Some(Overlay::BudgetAsk(f)) => budget::ask_form(s, f, body, buf),
     }
 }
 

@@ -199,6 +199,15 @@ pub fn sites(s: &State, sel: usize, area: Rect, buf: &mut Buffer) {
 /// A yes/no question.
 pub fn question(s: &State, q: &Question, area: Rect, buf: &mut Buffer) {
     let (title, text) = match q {
+        // Drawn by the Budget view's module (`budget::exported`).
+        Question::Exported(files) => (
+            "Exported",
+            files
+                .iter()
+                .map(|f| f.display().to_string())
+                .collect::<Vec<_>>()
+                .join(" "),
+        ),
         Question::Quit => (
             "Unsaved changes",
             format!(
