@@ -357,12 +357,17 @@ pub fn svg(b: &Budget) -> String {
     }
     if let Some(h) = asked {
         let xx = x2(h);
+        // The label on the side of the line that has room for it.
+        let (tx, anchor) = if xx > LEFT + pw - 100.0 {
+            (xx - 4.0, "end")
+        } else {
+            (xx + 4.0, "start")
+        };
         let _ = writeln!(
             s,
-            r##"<line class="asked" x1="{xx:.1}" y1="{TOP2}" x2="{xx:.1}" y2="{:.1}" stroke="#CC79A7" stroke-width="2" stroke-dasharray="6 3"/><text x="{:.1}" y="{:.1}" fill="#CC79A7">{} h asked</text>"##,
+            r##"<line class="asked" x1="{xx:.1}" y1="{TOP2}" x2="{xx:.1}" y2="{:.1}" stroke="#CC79A7" stroke-width="2" stroke-dasharray="6 3"/><text x="{tx:.1}" y="{:.1}" text-anchor="{anchor}" fill="#CC79A7">{} h asked</text>"##,
             TOP2 + H2,
-            xx + 4.0,
-            TOP2 + 14.0,
+            TOP2 + H2 - 8.0,
             num(h, 1)
         );
     }
