@@ -153,3 +153,114 @@ fn nothing_asked_meets_nothing() {
             .all(|&i| p.cost(&[i]).iter().sum::<f64>() == 0.0)
     );
 }
+
+/// A small real programme (demo targets: parallaxes, pulsators, a supernova;
+/// one goal out of reach) through the whole budget: the allocation of
+/// `rung budget --hours H` (or per semester) meets goals of the weight the
+/// exhaustive search finds, with its fewest hours, never more than asked;
+/// the goals-met curve is that optimum at every number of hours; every goal
+/// not met says what stops it.
+#[test]
+fn the_budget_of_a_small_programme_allocates_the_exhaustive_optimum() {
+    use rung::plan::budget::{Asked, allocate, allocation, budget};
+    let file = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("targets-demo/targets.csv");
+    let req = rung::programme::Request {
+        programme: Some(file.clone()),
+        ..Default::default()
+    };
+    let now = rung::astro::time::parse_instant("2026-12-02T01:00:00Z").unwrap();
+    // Thirty months: the parallax goals need the two-year baseline.
+    let st = rung::programme::Settings::resolve(&req, now)
+        .unwrap()
+        .with_range(
+            chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap(),
+            chrono::NaiveDate::from_ymd_opt(2029, 5, 31).unwrap(),
+        )
+        .unwrap();
+    let pick = [
+        "LPO-P01",
+        "LPO-P03",
+        "LPO-P04",
+        "LPO-P06",
+        "LPO-P08",
+        "LPO-P11",
+        "LPO-C02",
+        "LPO-C03",
+        "LPO-C06",
+        "LPO-C09",
+        "LPO-T2026a",
+    ];
+    let targets: Vec<_> = rung::io::targets::load(&file)
+        .unwrap()
+        .targets
+        .into_iter()
+        .filter(|t| pick.contains(&t.name.as_str()))
+        .collect();
+    let b = budget(&st, &targets).unwrap();
+    let (p, rows) = allocation::problem_of(&st, &b);
+    // Ten goals within reach, of priorities 1 and 2; LPO-C02 is out of reach.
+    assert_eq!(p.items.len(), 10, "{rows:?}");
+    assert!(p.semesters >= 3);
+    let all: Vec<usize> = (0..p.items.len()).collect();
+    let need: f64 = p.cost(&all).iter().sum();
+    let (curve, proven) = allocation::goals_met_curve(&st, &b);
+    assert!(proven);
+    let met_items = |a: &rung::plan::budget::Allocation| -> Vec<usize> {
+        (0..rows.len())
+            .filter(|&i| a.shares[rows[i]].goal_met)
+            .collect()
+    };
+    for k in 0..=20 {
+        let h = need * 1.1 * k as f64 / 20.0;
+        let asked = Asked {
+            hours: Some(h),
+            ..Default::default()
+        };
+        let a = allocate(&st, &b, &asked).unwrap();
+        let e = exhaustive(&p, &Capacity::Total(h));
+        assert!(a.proven_optimal);
+        assert!(
+            (a.weight_met - e.weight).abs() < 1e-9,
+            "{h} h: {} vs exhaustive {}",
+            a.weight_met,
+            e.weight
+        );
+        let met = met_items(&a);
+        let w: f64 = met.iter().map(|&i| p.items[i].weight).sum();
+        let c: f64 = p.cost(&met).iter().sum();
+        assert!((w - e.weight).abs() < 1e-9);
+        assert!((c - e.hours).abs() < 1e-6, "{h} h: {c} vs {}", e.hours);
+        assert!(c <= h + 1e-9 && a.hours_allocated <= h + 1e-9);
+        let on_curve = curve
+            .iter()
+            .filter(|s| s.hours <= h + 1e-9)
+            .map(|s| s.weight)
+            .fold(0.0, f64::max);
+        assert!((on_curve - e.weight).abs() < 1e-9, "{h} h");
+        for sh in &a.shares {
+            assert_eq!(sh.goal_met, sh.limited_by.is_empty(), "{sh:?}");
+        }
+    }
+    // Asked per semester: the same, semester by semester.
+    let labels: Vec<String> = b.semesters.iter().map(|s| s.label.clone()).collect();
+    let per_sem = p.cost(&all);
+    let mut r = Rng(0x00b0_d9e7_5e3e_5731);
+    for _ in 0..12 {
+        let caps: Vec<f64> = per_sem.iter().map(|c| c * 1.1 * r.next()).collect();
+        let asked = Asked {
+            hours_per_semester: labels.iter().cloned().zip(caps.iter().copied()).collect(),
+            ..Default::default()
+        };
+        let a = allocate(&st, &b, &asked).unwrap();
+        let e = exhaustive(&p, &Capacity::PerSemester(caps.clone()));
+        assert!((a.weight_met - e.weight).abs() < 1e-9, "{caps:?}");
+        let met = met_items(&a);
+        assert!(fits(&p, &met, &Capacity::PerSemester(caps.clone())));
+        for (k, cap) in labels.iter().zip(&caps) {
+            assert!(a.hours_allocated_by_semester[k] <= cap + 1e-9, "{k}");
+        }
+        for sh in a.shares.iter().filter(|s| s.status == "none") {
+            assert_eq!(sh.limited_by, "semester_hours", "{sh:?}");
+        }
+    }
+}

@@ -109,7 +109,7 @@ fn hours_below_and_above_the_need_meet_different_goals() {
 
 #[test]
 fn every_target_has_its_inverse_curve_from_zero_hours() {
-    let v = budget_json(&["--hours", "30"]);
+    let v = budget_json(&["--hours", "3"]);
     for r in v["rows"].as_array().unwrap() {
         let c = r["curve"].as_array().unwrap();
         assert_eq!(c[0]["hours"], 0.0);
@@ -122,6 +122,38 @@ fn every_target_has_its_inverse_curve_from_zero_hours() {
                 a["distance_precision_pct"].as_f64().unwrap()
                     > b["distance_precision_pct"].as_f64().unwrap()
             );
+        }
+        // The marginal gain of each point: σd/d won per further clear hour.
+        for w in c[1..].windows(2) {
+            let (a, b) = (&w[0], &w[1]);
+            let dh = b["hours"].as_f64().unwrap() - a["hours"].as_f64().unwrap();
+            let dp = a["distance_precision_pct"].as_f64().unwrap()
+                - b["distance_precision_pct"].as_f64().unwrap();
+            if dh > 0.0 {
+                let g = b["gain_pct_per_hour"].as_f64().unwrap();
+                assert!(
+                    (g - dp / dh).abs() < 1e-9 * g.abs().max(1.0),
+                    "{g} vs {}",
+                    dp / dh
+                );
+            }
+        }
+        if c.len() > 1 {
+            assert!(c[1]["gain_pct_per_hour"].is_null());
+        }
+        // With the weather the same plan takes more hours: at most 1/min(f).
+        let fmin = v["weather"]["clear_fraction"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|x| x.as_f64().unwrap())
+            .fold(1.0, f64::min);
+        for p in c {
+            let (h, e) = (
+                p["hours"].as_f64().unwrap(),
+                p["hours_expected"].as_f64().unwrap(),
+            );
+            assert!(e >= h - 1e-9 && e <= h / fmin + 1e-9, "{h} {e}");
         }
         // A target that reaches its goal has its goal's plan on the curve.
         if r["verdict_label"] == "reachable" && r["epochs"].as_u64().unwrap() > 0 {
@@ -139,4 +171,152 @@ fn every_target_has_its_inverse_curve_from_zero_hours() {
     // The goals-met curve climbs.
     let steps = v["allocation"]["steps"].as_array().unwrap();
     assert!(steps.len() >= 5);
+    assert_eq!(&v["goals_met_curve"], &v["allocation"]["steps"]);
+    // Every goal not met says what stops it: a term or a constraint.
+    let rows = v["rows"].as_array().unwrap();
+    for (s, r) in v["allocation"]["shares"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .zip(rows)
+    {
+        let by = s["limited_by"].as_str().unwrap();
+        let limit = s["limit"].as_str().unwrap();
+        if s["goal_met"] == true {
+            assert!(by.is_empty() && limit.is_empty());
+            continue;
+        }
+        assert!(!limit.is_empty(), "{s}");
+        match r["verdict_label"].as_str().unwrap() {
+            "reachable" => assert_eq!(by, "hours_asked", "{s}"),
+            "floor" => {
+                // The largest term of the row's error budget, named with its share.
+                assert_eq!(by, "error_term", "{s}");
+                let top = r["error_terms"]
+                    .as_array()
+                    .unwrap()
+                    .iter()
+                    .max_by(|a, b| {
+                        a["distance_pct"]
+                            .as_f64()
+                            .unwrap()
+                            .total_cmp(&b["distance_pct"].as_f64().unwrap())
+                    })
+                    .unwrap();
+                let name = top["name"].as_str().unwrap();
+                assert!(limit.contains(&format!("'{name}'")), "{limit}");
+                let pct = top["distance_pct"].as_f64().unwrap();
+                assert!(pct <= r["achievable_pct"].as_f64().unwrap() + 1e-9);
+                assert!(limit.contains(&format!("{pct:.1} % alone")), "{limit}");
+            }
+            "more_seasons" => assert_eq!(by, "range", "{s}"),
+            "not_observable" => assert_eq!(by, "visibility", "{s}"),
+            other => panic!("verdict {other}"),
+        }
+        // Out of reach, the row says the same without hours asked.
+        if r["verdict_label"] != "reachable" {
+            assert_eq!(r["limited_by"], s["limited_by"]);
+            assert_eq!(r["limit"], s["limit"]);
+        }
+    }
+    // A goal the hours do not buy: its hours are more than the goals met leave.
+    let s = v["allocation"]["shares"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|s| s["limited_by"] == "hours_asked")
+        .expect("3 h leave a reachable goal out");
+    let nums: Vec<f64> = s["limit"]
+        .as_str()
+        .unwrap()
+        .split(' ')
+        .filter_map(|w| w.parse().ok())
+        .collect();
+    assert_eq!(nums.len(), 2, "{s}");
+    assert!(nums[0] > nums[1], "{s}");
+}
+
+#[test]
+fn the_goals_met_curve_and_the_inverse_curves_without_hours_asked() {
+    // Lean: three targets, the demo range.
+    let cfg = tempfile::tempdir().unwrap();
+    let prog = cfg.path().join("three.csv");
+    let demo = std::fs::read_to_string(
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("targets-demo/targets.csv"),
+    )
+    .unwrap();
+    let keep: Vec<&str> = demo
+        .lines()
+        .filter(|l| {
+            l.starts_with('#')
+                || l.starts_with("name,")
+                || ["LPO-C03,", "LPO-C06,", "LPO-C09,"]
+                    .iter()
+                    .any(|n| l.starts_with(n))
+        })
+        .collect();
+    std::fs::write(&prog, keep.join("\n") + "\n").unwrap();
+    let args = |extra: &[&str]| -> Vec<String> {
+        let mut a: Vec<String> = [
+            "budget",
+            "--site",
+            "pampa-lucero",
+            "--targets",
+            prog.to_str().unwrap(),
+            "--from",
+            "2026-12-01",
+            "--to",
+            "2028-05-31",
+        ]
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
+        a.extend(extra.iter().map(|s| s.to_string()));
+        a
+    };
+    let run = |extra: &[&str]| -> Output {
+        let a = args(extra);
+        let r: Vec<&str> = a.iter().map(|s| s.as_str()).collect();
+        rung(&r)
+    };
+    let v: Value = serde_json::from_slice(&run(&["--json"]).stdout).unwrap();
+    assert!(v["allocation"].is_null());
+    let steps = v["goals_met_curve"].as_array().unwrap();
+    assert!(!steps.is_empty() && steps.len() <= 3, "{steps:?}");
+    // Each further step takes more hours; the last meets all three goals.
+    for w in steps.windows(2) {
+        assert!(w[0]["hours"].as_f64() < w[1]["hours"].as_f64());
+    }
+    let last = steps.last().unwrap();
+    assert_eq!(last["goals_met"], 3);
+    // Every goal is met from the programme's total expected need on.
+    assert!(last["hours"].as_f64().unwrap() <= v["total_hours_expected"].as_f64().unwrap() + 1e-6);
+    // The text shows the same curves and steps, number for number.
+    let o = run(&["--curves"]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let t = String::from_utf8(o.stdout).unwrap();
+    let n1 = |x: &Value| rung::output::num(x.as_f64().unwrap(), 1);
+    let n2 = |x: &Value| rung::output::num(x.as_f64().unwrap(), 2);
+    for s in steps {
+        let line = format!(
+            "{} h  {:>3} goals",
+            n1(&s["hours"]),
+            s["goals_met"].as_u64().unwrap()
+        );
+        assert!(t.contains(&line), "{line} not in\n{t}");
+    }
+    for r in v["rows"].as_array().unwrap() {
+        let name = r["target"].as_str().unwrap();
+        let from = t.find(&format!("  {name} (goal")).unwrap();
+        let block = &t[from..];
+        for p in r["curve"].as_array().unwrap().iter().skip(1) {
+            let line = format!(
+                "{:>8} {:>8} {:>8}",
+                n2(&p["hours"]),
+                n2(&p["hours_expected"]),
+                n2(&p["distance_precision_pct"])
+            );
+            assert!(block.contains(&line), "{name}: {line} not in\n{block}");
+        }
+    }
 }

@@ -651,11 +651,33 @@ fn budget_view_and_export_match_the_library_budget() {
     }
     // Something is met and something is not, with its reason on selection.
     assert!(a.shares.iter().any(|x| x.goal_met) && a.shares.iter().any(|x| !x.goal_met));
-    let unmet = a.shares.iter().find(|x| !x.goal_met).unwrap();
-    select(&mut s, &unmet.target);
-    let (rows, _) = screen(&s, 160, 48);
-    let why = format!("{}: {}", unmet.target, unmet.why);
-    assert!(has(&rows, &why[..why.len().min(150)]), "{why}");
+    // Every goal not met: what stops it (the term or the constraint, the
+    // words and numbers of `rung budget --json`), then its share's why.
+    for unmet in a.shares.iter().filter(|x| !x.goal_met) {
+        select(&mut s, &unmet.target);
+        assert!(!unmet.limit.is_empty(), "{unmet:?}");
+        let why = format!(
+            "{}: not met, by {} · {}",
+            unmet.target, unmet.limit, unmet.why
+        );
+        let (rows, _) = screen(&s, 160, 48);
+        let shown: String = rows
+            .iter()
+            .map(|r| r.trim_end())
+            .collect::<Vec<_>>()
+            .join(" ");
+        let start: String = why.chars().take(300).collect();
+        assert!(shown.contains(&start), "{why}\n{}", rows.join("\n"));
+        // At 80 columns the constraint is on screen in full.
+        let (rows, _) = screen(&s, 80, 24);
+        let shown: String = rows
+            .iter()
+            .map(|r| r.trim_end())
+            .collect::<Vec<_>>()
+            .join(" ");
+        let head = format!("{}: not met, by {}", unmet.target, unmet.limit);
+        assert!(shown.contains(&head), "{head}\n{}", rows.join("\n"));
+    }
     // Export writes the library's files into the folder typed, and names
     // each in full, also at 80 columns.
     ch(&mut s, 'x');

@@ -49,6 +49,9 @@ pub struct Args {
     /// A technical-justification paragraph written from the numbers.
     #[arg(long)]
     pub justification: bool,
+    /// Every target's σd/d-against-hours curve (clear and expected hours, the marginal gain of each point) and the hours at which each further goal falls in, after the table
+    #[arg(long)]
+    pub curves: bool,
     /// JSON output (with every target's σd/d-against-hours curve and the justification).
     #[arg(long)]
     pub json: bool,
@@ -131,7 +134,7 @@ pub fn run(a: Args) -> Result<()> {
         }
     }
     let opts = Options {
-        curves: a.json || a.figure.is_some(),
+        curves: a.json || a.figure.is_some() || a.curves,
         asked,
         confidence: a.confidence,
     };
@@ -183,6 +186,12 @@ pub fn run(a: Args) -> Result<()> {
         }
     } else {
         print_text(&st, b);
+    }
+    if a.curves && !(a.json || a.csv || a.markdown || a.latex || a.justification) {
+        super::outln!();
+        for l in budget::curve_lines(b) {
+            super::outln!("{l}");
+        }
     }
     Ok(())
 }

@@ -157,6 +157,16 @@ pub struct Share {
     pub hours_for_goal_pessimistic: f64,
     /// Why, in words (the method's verdict and first note when out of reach).
     pub why: String,
+    /// What stops its goal, when it is not met: `hours_asked` (the hours
+    /// asked, in total, left after the goals met), `semester_hours` (a
+    /// semester's hours asked), `error_term` (a term of the method's error
+    /// budget sets a floor above the goal), `floor` (a floor without a named
+    /// term), `range` (the range has too few seasons or nights),
+    /// `visibility` (the target is not observable enough), `priority` (a
+    /// priority of 0 weighs nothing); empty when the goal is met.
+    pub limited_by: String,
+    /// The same in words, with its numbers (empty when the goal is met).
+    pub limit: String,
 }
 
 /// One step of the goals-met curve.
@@ -256,7 +266,8 @@ struct Built {
     labels: Vec<String>,
 }
 
-fn goal_reached(r: &BudgetRow) -> bool {
+/// Whether a row's goal is reached in the range (a plan with epochs and hours).
+pub fn goal_reached(r: &BudgetRow) -> bool {
     r.verdict == Verdict::Reachable && r.hours.is_finite() && r.epochs > 0
 }
 
@@ -320,6 +331,46 @@ fn names(b: &Budget, built: &Built, items: &[usize]) -> Vec<String> {
         .iter()
         .map(|&i| b.rows[built.rows[i]].target.clone())
         .collect()
+}
+
+/// The allocation problem of a budget as [`allocate`] solves it (expected
+/// weather): its items and, for each, the index of its budget row. For
+/// checking the allocation against an exhaustive search.
+pub fn problem_of(settings: &Settings, b: &Budget) -> (Problem, Vec<usize>) {
+    let cal_h = settings.instrument().calibration_s_per_night / 3600.0;
+    let built = build(b, cal_h, &|_| 1.0, settings);
+    (built.problem, built.rows)
+}
+
+/// The goals-met curve of a budget against total hours (expected weather,
+/// calibrations included): the hours at which each further goal falls in,
+/// whatever the hours asked; and whether every search finished.
+pub fn goals_met_curve(settings: &Settings, b: &Budget) -> (Vec<GainStep>, bool) {
+    let cal_h = settings.instrument().calibration_s_per_night / 3600.0;
+    let built = build(b, cal_h, &|_| 1.0, settings);
+    curve_of(b, &built)
+}
+
+fn curve_of(b: &Budget, built: &Built) -> (Vec<GainStep>, bool) {
+    let mut steps: Vec<GainStep> = Vec::new();
+    let mut prev: BTreeSet<usize> = BTreeSet::new();
+    let mut proven = true;
+    for s in alloc::steps(&built.problem) {
+        proven &= s.proven_optimal;
+        let now: BTreeSet<usize> = s.items.iter().copied().collect();
+        let adds: Vec<usize> = now.difference(&prev).copied().collect();
+        let drops: Vec<usize> = prev.difference(&now).copied().collect();
+        steps.push(GainStep {
+            hours: s.hours,
+            goals_met: now.len(),
+            weight: s.weight,
+            adds: names(b, built, &adds),
+            drops: names(b, built, &drops),
+            met: names(b, built, &s.items),
+        });
+        prev = now;
+    }
+    (steps, proven)
 }
 
 /// Share the hours asked among the budget's goals (see the module documentation).
@@ -395,6 +446,28 @@ pub fn allocate(settings: &Settings, b: &Budget, asked: &Asked) -> Result<Alloca
         Capacity::PerSemester(hs) => used.iter().zip(hs).all(|(u, h)| *u <= h + 1e-9),
     };
     let f_of = |d: &NaiveDate| clear[(d.month() - 1) as usize];
+    // What the goals met leave, by semester (before any partial share), and
+    // the nights they use: what an unmet goal is measured against.
+    let left_after_met: Vec<f64> = match &cap {
+        Capacity::Total(h) => vec![h - used.iter().sum::<f64>()],
+        Capacity::PerSemester(hs) => hs.iter().zip(&used).map(|(h, u)| h - u).collect(),
+    };
+    let nights_of_met = nights_used.clone();
+    // The hours a goal would add to the goals met, by semester: its own
+    // expected hours and the calibrations of its nights not yet used.
+    let goal_adds = |r: &BudgetRow| -> Vec<f64> {
+        let mut add = vec![0.0; nsem];
+        for (d, h) in &r.epoch_nights {
+            add[sem_of(*d)] += h / f_of(d);
+        }
+        let mut ns: BTreeSet<NaiveDate> = BTreeSet::new();
+        for (d, _) in &r.epoch_nights {
+            if !nights_of_met.contains(d) && ns.insert(*d) {
+                add[sem_of(*d)] += cal_h / f_of(d);
+            }
+        }
+        add
+    };
     // Partial shares from the leftover: unmet targets by priority, each the
     // finest point of its curve that still fits (its nights' calibrations included).
     let mut partial: BTreeMap<usize, (f64, f64, f64)> = BTreeMap::new(); // row -> (pct, hours exp, hours clear)
@@ -492,6 +565,18 @@ pub fn allocate(settings: &Settings, b: &Budget, asked: &Asked) -> Result<Alloca
                 ("out_of_reach", 0.0, 0.0, f64::NAN)
             };
             let why = why(r, status, reach, hours, reaches, &b.weather);
+            let (limited_by, limit) = if status == "met" {
+                (String::new(), String::new())
+            } else if r.priority.is_nan() || r.priority <= 0.0 {
+                (
+                    "priority".to_string(),
+                    "its priority 0: its goal weighs nothing in the allocation".to_string(),
+                )
+            } else if reach {
+                hours_limit(&goal_adds(r), &left_after_met, labels, &cap)
+            } else {
+                (r.limited_by.clone(), r.limit.clone())
+            };
             Share {
                 target: r.target.clone(),
                 kind: r.kind,
@@ -506,28 +591,14 @@ pub fn allocate(settings: &Settings, b: &Budget, asked: &Asked) -> Result<Alloca
                 hours_for_goal: if reach { r.hours_expected } else { f64::NAN },
                 hours_for_goal_pessimistic: if reach { r.hours_pessimistic } else { f64::NAN },
                 why,
+                limited_by,
+                limit,
             }
         })
         .collect();
     // The goals-met curve against total hours.
-    let mut steps: Vec<GainStep> = Vec::new();
-    let mut prev: BTreeSet<usize> = BTreeSet::new();
-    let mut proven = choice.proven_optimal && pchoice.proven_optimal;
-    for s in alloc::steps(&built.problem) {
-        proven &= s.proven_optimal;
-        let now: BTreeSet<usize> = s.items.iter().copied().collect();
-        let adds: Vec<usize> = now.difference(&prev).copied().collect();
-        let drops: Vec<usize> = prev.difference(&now).copied().collect();
-        steps.push(GainStep {
-            hours: s.hours,
-            goals_met: now.len(),
-            weight: s.weight,
-            adds: names(b, &built, &adds),
-            drops: names(b, &built, &drops),
-            met: names(b, &built, &s.items),
-        });
-        prev = now;
-    }
+    let (steps, steps_proven) = curve_of(b, &built);
+    let proven = choice.proven_optimal && pchoice.proven_optimal && steps_proven;
     let next = steps
         .iter()
         .find(|s| s.weight > choice.weight + 1e-9)
@@ -565,6 +636,103 @@ pub fn allocate(settings: &Settings, b: &Budget, asked: &Asked) -> Result<Alloca
     })
 }
 
+/// What the hours asked leave a goal that is reachable but not met: the
+/// total (or the semesters) where its hours exceed what the goals met leave.
+fn hours_limit(add: &[f64], left: &[f64], labels: &[String], cap: &Capacity) -> (String, String) {
+    let n = crate::output::num;
+    match cap {
+        Capacity::Total(_) => (
+            "hours_asked".to_string(),
+            format!(
+                "the hours asked: its goal takes {} h expected (its nights' calibrations included), the goals met leave {} h",
+                n(add.iter().sum::<f64>(), 1),
+                n(left.first().copied().unwrap_or(0.0).max(0.0), 1)
+            ),
+        ),
+        Capacity::PerSemester(_) => {
+            let short: Vec<String> = add
+                .iter()
+                .zip(left)
+                .zip(labels)
+                .filter(|((a, l), _)| **a > **l + 1e-9)
+                .map(|((a, l), k)| {
+                    format!(
+                        "{k}: its goal takes {} h expected, the goals met leave {} h",
+                        n(*a, 1),
+                        n(l.max(0.0), 1)
+                    )
+                })
+                .collect();
+            (
+                "semester_hours".to_string(),
+                format!("the hours asked by semester ({})", short.join("; ")),
+            )
+        }
+    }
+}
+
+/// What the range or the method leaves a goal out of reach, as a label and
+/// in words (see [`Share::limited_by`]): the error term that sets the floor,
+/// the seasons the range lacks, or the visibility.
+pub fn range_limit(r: &BudgetRow, settings: &Settings) -> (String, String) {
+    let n = crate::output::num;
+    match &r.verdict {
+        Verdict::LimitedByFloor { floor_pct } => {
+            let top = r
+                .error_terms
+                .iter()
+                .filter(|t| t.distance_pct.is_finite())
+                .max_by(|a, b| a.distance_pct.total_cmp(&b.distance_pct));
+            match top {
+                Some(t) => (
+                    "error_term".to_string(),
+                    format!(
+                        "the error term '{}', {} % alone, of the floor {} % (goal {} %){}",
+                        t.name,
+                        n(t.distance_pct, 1),
+                        n(*floor_pct, 1),
+                        n(r.goal_pct, 1),
+                        if t.shared {
+                            "; shared, it does not average down"
+                        } else {
+                            ""
+                        }
+                    ),
+                ),
+                None => (
+                    "floor".to_string(),
+                    format!(
+                        "the method's floor {} % (goal {} %)",
+                        n(*floor_pct, 1),
+                        n(r.goal_pct, 1)
+                    ),
+                ),
+            }
+        }
+        Verdict::NotObservable { .. } => (
+            "visibility".to_string(),
+            format!("the visibility: {}", r.verdict.text()),
+        ),
+        Verdict::NeedsMoreSeasons { .. } => (
+            "range".to_string(),
+            format!(
+                "the range {} to {}: {}",
+                settings.from,
+                settings.to,
+                r.verdict.text()
+            ),
+        ),
+        // Reachable in words but without a plan (no epochs or hours).
+        Verdict::Reachable => (
+            "range".to_string(),
+            format!(
+                "the range {} to {}: no epochs planned",
+                settings.from, settings.to
+            ),
+        ),
+    }
+}
+
 /// A share's reason in words.
 fn why(
     r: &BudgetRow,
@@ -600,7 +768,7 @@ fn why(
             n(reaches, 1)
         ),
         _ if reach => format!(
-            "goal {} % not met: it takes {} h expected, which the hours asked give to goals of more priority per hour",
+            "goal {} % not met: it takes {} h expected, and the hours asked meet more priority-weighted goals without it",
             n(r.goal_pct, 1),
             n(r.hours_expected, 1)
         ),

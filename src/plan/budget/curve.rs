@@ -11,7 +11,7 @@ use crate::astro::night::night_of;
 use crate::io::targets::Target;
 use crate::ladder::{Prediction, Verdict};
 use crate::programme::Settings;
-use chrono::NaiveDate;
+use chrono::{Datelike, NaiveDate};
 use serde::Serialize;
 
 /// Loosest goal asked, as a multiple of the target's goal (and at least
@@ -31,12 +31,19 @@ const REFINE: usize = 2;
 pub struct CurvePoint {
     /// Telescope hours with overheads, clear weather.
     pub hours: f64,
+    /// The same hours expected with the site's weather (each night's hours
+    /// over its month's clear fraction; calibrations not counted).
+    pub hours_expected: f64,
     /// The distance precision σ_d/d reached, percent (`null` at zero hours).
     pub distance_precision_pct: f64,
     /// Number of epochs.
     pub epochs: usize,
     /// The goal asked of the method for this point, percent (`null` at zero hours).
     pub goal_asked_pct: f64,
+    /// The marginal gain: σ_d/d won per further clear-weather hour from the
+    /// point before, percentage points an hour (`null` at zero hours and at
+    /// the first point, where no precision came before).
+    pub gain_pct_per_hour: f64,
     /// The nights (local dates of their evenings) of the epochs, for the
     /// weather and the calibrations.
     #[serde(skip)]
@@ -65,13 +72,34 @@ pub fn epoch_nights(settings: &Settings, p: &Prediction) -> Vec<(NaiveDate, f64)
     out
 }
 
-fn point(settings: &Settings, p: &Prediction, asked: f64) -> CurvePoint {
+fn point(settings: &Settings, p: &Prediction, asked: f64, clear: &[f64; 12]) -> CurvePoint {
+    let nights = epoch_nights(settings, p);
     CurvePoint {
         hours: p.hours_needed.max(0.0),
+        hours_expected: nights
+            .iter()
+            .map(|(d, h)| h / clear[(d.month() - 1) as usize])
+            .sum(),
         distance_precision_pct: p.distance_precision_pct,
         epochs: p.epochs.len(),
         goal_asked_pct: asked,
-        nights: epoch_nights(settings, p),
+        gain_pct_per_hour: f64::NAN,
+        nights,
+    }
+}
+
+/// The marginal gain of each point over the one before (see
+/// [`CurvePoint::gain_pct_per_hour`]); `curve` in order of hours.
+pub fn set_gains(curve: &mut [CurvePoint]) {
+    for i in 1..curve.len() {
+        let (a, b) = (&curve[i - 1], &curve[i]);
+        let dh = b.hours - a.hours;
+        let g = if a.distance_precision_pct.is_finite() && dh > 0.0 {
+            (a.distance_precision_pct - b.distance_precision_pct) / dh
+        } else {
+            f64::NAN
+        };
+        curve[i].gain_pct_per_hour = g;
     }
 }
 
@@ -91,6 +119,7 @@ pub fn inverse_curve(
         return Vec::new();
     };
     let em = &settings.photometer;
+    let clear = super::clear_fraction(settings).0;
     let ask = |g: f64| -> Option<Prediction> {
         let tg = crate::ladder::with_goal(t, Some(g));
         m.goal(&settings.setting(&tg), em, g).ok()
@@ -105,7 +134,7 @@ pub fn inverse_curve(
     if let (Some(p), Some(g)) = (goal, own_goal)
         && reached(p)
     {
-        pts.push(point(settings, p, g));
+        pts.push(point(settings, p, g, &clear));
     }
     let mut g = (own_goal.unwrap_or(10.0) * LOOSE_FACTOR).max(LOOSEST_PCT);
     let mut last_ok: Option<f64> = None;
@@ -113,7 +142,7 @@ pub fn inverse_curve(
     for _ in 0..MAX_STEPS {
         match ask(g) {
             Some(p) if reached(&p) => {
-                pts.push(point(settings, &p, g));
+                pts.push(point(settings, &p, g, &clear));
                 last_ok = Some(g);
                 // The next goal below what this plan already reaches.
                 g = g.min(p.distance_precision_pct) * STEP;
@@ -129,7 +158,7 @@ pub fn inverse_curve(
             let mid = (ok * miss).sqrt();
             match ask(mid) {
                 Some(p) if reached(&p) => {
-                    pts.push(point(settings, &p, mid));
+                    pts.push(point(settings, &p, mid, &clear));
                     ok = mid;
                 }
                 _ => miss = mid,
@@ -154,12 +183,15 @@ pub fn inverse_curve(
     }
     let mut out = vec![CurvePoint {
         hours: 0.0,
+        hours_expected: 0.0,
         distance_precision_pct: f64::NAN,
         epochs: 0,
         goal_asked_pct: f64::NAN,
+        gain_pct_per_hour: f64::NAN,
         nights: Vec::new(),
     }];
     out.extend(kept);
+    set_gains(&mut out);
     out
 }
 

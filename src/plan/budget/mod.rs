@@ -20,7 +20,7 @@ pub mod figure;
 pub mod proposal;
 pub mod weather;
 
-pub use allocation::{Allocation, Asked, allocate};
+pub use allocation::{Allocation, Asked, GainStep, allocate};
 pub use curve::CurvePoint;
 
 use crate::astro::site::Climate;
@@ -86,6 +86,16 @@ pub struct BudgetRow {
     /// A field's stars (counted in its row, never in rows of their own;
     /// src/ladder/field.rs); empty for any other target.
     pub members: Vec<String>,
+    /// The error budget of `achievable_pct` by term, as the method gives it
+    /// (the terms add in quadrature; empty without a finite precision):
+    /// which term sets a floor.
+    pub error_terms: Vec<crate::ladder::ErrorTerm>,
+    /// What keeps the goal out of reach in the range, when it is: `error_term`,
+    /// `floor`, `range` or `visibility` (as the allocation's shares say it);
+    /// empty when the goal is reachable.
+    pub limited_by: String,
+    /// The same in words, with its numbers.
+    pub limit: String,
 }
 
 /// The weather the budget assumes.
@@ -174,6 +184,11 @@ pub struct Budget {
     pub total_hours_pessimistic: f64,
     /// The allocation of the hours asked, when hours were asked.
     pub allocation: Option<Allocation>,
+    /// The programme's goals met against total hours (expected weather):
+    /// the hours at which each further goal falls in, with or without hours
+    /// asked (empty unless the curves were asked for; the allocation's
+    /// `steps` when hours were asked).
+    pub goals_met_curve: Vec<GainStep>,
 }
 
 /// What the budget computes beyond each target's goal.
@@ -386,6 +401,7 @@ fn unreachable_budget(settings: &Settings) -> Budget {
         total_hours_expected: 0.0,
         total_hours_pessimistic: 0.0,
         allocation: None,
+        goals_met_curve: Vec::new(),
     }
 }
 
@@ -512,7 +528,14 @@ pub fn assemble_with(
                         }
                         _ => Vec::new(),
                     },
+                    error_terms: p.error_terms.clone(),
+                    limited_by: String::new(),
+                    limit: String::new(),
                 });
+                let r = rows.last_mut().expect("a row was just pushed");
+                if !allocation::goal_reached(r) {
+                    (r.limited_by, r.limit) = allocation::range_limit(r, settings);
+                }
             }
             Err(e) => skipped.push((t.name.clone(), e)),
         }
@@ -600,9 +623,14 @@ pub fn assemble_with(
         },
         semesters,
         allocation: None,
+        goals_met_curve: Vec::new(),
     };
     if let Some(a) = &opts.asked {
-        b.allocation = Some(allocation::allocate(settings, &b, a)?);
+        let a = allocation::allocate(settings, &b, a)?;
+        b.goals_met_curve = a.steps.clone();
+        b.allocation = Some(a);
+    } else if opts.curves {
+        b.goals_met_curve = allocation::goals_met_curve(settings, &b).0;
     }
     Ok(b)
 }
@@ -848,6 +876,90 @@ pub fn totals_lines(b: &Budget) -> Vec<String> {
     out
 }
 
+/// Every target's inverse curve and the programme's goals-met curve in
+/// words (`rung budget --curves`): for each target the clear and expected
+/// hours of each point, the σ_d/d it reaches and the marginal gain over the
+/// point before; then the hours at which each further goal falls in.
+pub fn curve_lines(b: &Budget) -> Vec<String> {
+    let mut out = vec![
+        "Inverse curves: σd/d against telescope hours (clear weather, and expected with the weather); gain: σd/d won per further clear hour, percentage points an hour".to_string(),
+    ];
+    for r in &b.rows {
+        let pts: Vec<&CurvePoint> = r
+            .curve
+            .iter()
+            .filter(|p| p.distance_precision_pct.is_finite())
+            .collect();
+        if pts.is_empty() {
+            out.push(format!(
+                "  {} (goal {} %): no curve ({})",
+                r.target,
+                num(r.goal_pct, 1),
+                if r.curve.is_empty() && r.kind == Kind::Field {
+                    "a field's curve is not computed".to_string()
+                } else {
+                    r.verdict.text()
+                }
+            ));
+            continue;
+        }
+        out.push(format!(
+            "  {} (goal {} %, {})",
+            r.target,
+            num(r.goal_pct, 1),
+            r.verdict.text()
+        ));
+        out.push(format!(
+            "    {:>8} {:>8} {:>8} {:>7} {:>10}",
+            "hours", "exp h", "σd/d %", "epochs", "gain %/h"
+        ));
+        for p in pts {
+            let mark = if p.distance_precision_pct <= r.goal_pct + 1e-9 {
+                "  goal met"
+            } else {
+                ""
+            };
+            out.push(format!(
+                "    {:>8} {:>8} {:>8} {:>7} {:>10}{mark}",
+                num(p.hours, 2),
+                num(p.hours_expected, 2),
+                num(p.distance_precision_pct, 2),
+                p.epochs,
+                num(p.gain_pct_per_hour, 2)
+            ));
+        }
+    }
+    out.extend(steps_lines(&b.goals_met_curve));
+    out
+}
+
+/// The goals-met curve in words: from how many hours each further goal
+/// falls in (and the goals the best allocation drops for it).
+pub fn steps_lines(steps: &[GainStep]) -> Vec<String> {
+    if steps.is_empty() {
+        return Vec::new();
+    }
+    let mut out = vec![
+        "Goals met against total hours (expected with the weather, calibrations included): from"
+            .to_string(),
+    ];
+    for s in steps {
+        out.push(format!(
+            "  {:>8} h  {:>3} goals (weight {})  + {}{}",
+            num(s.hours, 1),
+            s.goals_met,
+            num(s.weight, 0),
+            s.adds.join(", "),
+            if s.drops.is_empty() {
+                String::new()
+            } else {
+                format!(", for {}", s.drops.join(", "))
+            }
+        ));
+    }
+    out
+}
+
 /// The hours asked in words.
 pub fn asked_words(a: &Allocation) -> String {
     if let Some(n) = a.nights_asked {
@@ -939,6 +1051,13 @@ pub fn allocation_lines(b: &Budget, a: &Allocation) -> Vec<String> {
             }
         )),
         None => out.push("  more hours: no further goal falls in".into()),
+    }
+    let unmet: Vec<&allocation::Share> = a.shares.iter().filter(|s| !s.limit.is_empty()).collect();
+    if !unmet.is_empty() {
+        out.push("  what stops each goal not met:".into());
+        for s in unmet {
+            out.push(format!("    {:<14} {}", s.target, s.limit));
+        }
     }
     let steps: Vec<String> = a
         .steps

@@ -168,7 +168,9 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         area.width,
         th.header(),
     );
-    let foot = 4u16;
+    // The selected target's reason takes two lines, four on a tall window.
+    let reason_lines: u16 = if area.height >= 30 { 4 } else { 2 };
+    let foot = reason_lines + 2;
     let rows = area.height.saturating_sub(3 + foot) as usize;
     // The selected target's row stays in view.
     let sel_name = s.selected().map(|t| t.name.clone());
@@ -217,17 +219,23 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             }
         }
     }
-    // The selected target's reason: its share's why, else the verdict and
-    // the method's notes.
+    // The selected target's reason: what stops its goal (the constraint or
+    // the error term, as `rung budget --json` gives it), its share's why,
+    // else the verdict, and the method's notes.
     let fy = area.y + area.height - foot;
     let reason = sel_name
         .as_ref()
         .and_then(|name| {
             let i = b.rows.iter().position(|r| &r.target == name)?;
             let r = &b.rows[i];
-            let mut t = match share_of(i) {
-                Some(sh) => format!("{}: {}", r.target, sh.why),
-                None => format!("{}: {}", r.target, r.verdict.text()),
+            let (limit, why) = match share_of(i) {
+                Some(sh) => (&sh.limit, sh.why.clone()),
+                None => (&r.limit, r.verdict.text()),
+            };
+            let mut t = if limit.is_empty() {
+                format!("{}: {why}", r.target)
+            } else {
+                format!("{}: not met, by {limit} · {why}", r.target)
             };
             if !r.notes.is_empty() {
                 t.push_str(" · ");
@@ -247,7 +255,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         .unwrap_or_default();
     for (k, l) in wrap(&reason, area.width as usize)
         .iter()
-        .take(2)
+        .take(reason_lines as usize)
         .enumerate()
     {
         put(buf, area.x, fy + k as u16, l, area.width, th.notice());
@@ -260,7 +268,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     put(
         buf,
         area.x,
-        fy + 2,
+        fy + reason_lines,
         &format!(
             "total {:.1} h · {} · {} skipped · {} h with calibrations, {} h with the weather, {} h at {q} %",
             b.total_hours,
@@ -276,7 +284,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     put(
         buf,
         area.x,
-        fy + 3,
+        fy + reason_lines + 1,
         &format!(
             "{}: hours & range · X: plan at {:.0} h/night ({}/{}) · {}: export CSV MD TeX SVG to {}",
             keys_for(Scope::Main, Action::BudgetAsk),
