@@ -26,7 +26,7 @@ fn demo(extra: &[&str]) -> Output {
         "--to",
         "2028-05-31",
         "--hours",
-        "30",
+        "3",
     ];
     a.extend(extra);
     let o = rung(&a);
@@ -66,7 +66,7 @@ fn the_justification_names_only_numbers_in_the_json() {
         text.contains("pampa-lucero") && text.contains("lucero-1m"),
         "{text}"
     );
-    assert!(text.contains("30.0 h asked"), "{text}");
+    assert!(text.contains("3.0 h asked"), "{text}");
     // Words that carry digits but are not numbers: names, dates, the
     // weather's source, verdict words. They come from the JSON's strings.
     let mut words = Vec::new();
@@ -189,7 +189,7 @@ fn the_figure_renders_with_every_curve_and_the_goals_met_steps() {
         doc.descendants()
             .any(|n| n.attribute("class") == Some("asked"))
     );
-    assert!(text.contains("30.0 h asked"));
+    assert!(text.contains("3.0 h asked"));
 }
 
 #[test]
