@@ -62,7 +62,8 @@ pub struct BudgetRow {
     pub notes: Vec<String>,
     /// The terms of `achievable_pct`, as the method gives them (its
     /// `error_terms`, in quadrature; for a parallax the fit, the DCR bias
-    /// bound and the relative-to-absolute correction).
+    /// bound and the relative-to-absolute correction; empty without a
+    /// finite precision): which term sets a floor.
     pub error_terms: Vec<crate::ladder::ErrorTerm>,
     /// The target's priority (the weight of its goal in the allocation).
     pub priority: f64,
@@ -86,10 +87,6 @@ pub struct BudgetRow {
     /// A field's stars (counted in its row, never in rows of their own;
     /// src/ladder/field.rs); empty for any other target.
     pub members: Vec<String>,
-    /// The error budget of `achievable_pct` by term, as the method gives it
-    /// (the terms add in quadrature; empty without a finite precision):
-    /// which term sets a floor.
-    pub error_terms: Vec<crate::ladder::ErrorTerm>,
     /// What keeps the goal out of reach in the range, when it is: `error_term`,
     /// `floor`, `range` or `visibility` (as the allocation's shares say it);
     /// empty when the goal is reachable.
@@ -528,7 +525,6 @@ pub fn assemble_with(
                         }
                         _ => Vec::new(),
                     },
-                    error_terms: p.error_terms.clone(),
                     limited_by: String::new(),
                     limit: String::new(),
                 });
