@@ -591,12 +591,10 @@ fn budget_view_and_export_match_the_library_budget() {
     ch(&mut s, '7');
     for (w, h) in [(80u16, 24u16), (160, 48)] {
         let (rows, _) = screen(&s, w, h);
-        assert!(
-            rows[2].starts_with(&format!(
-                "Budget · {} to {} · pampa-lucero · lucero-1m",
-                st.from, st.to
-            ))
-        );
+        assert!(rows[2].starts_with(&format!(
+            "Budget · {} to {} · pampa-lucero · lucero-1m",
+            st.from, st.to
+        )));
         assert!(
             rows[3].starts_with("no hours asked (b sets them)"),
             "{}",
