@@ -85,15 +85,15 @@ fn live_mode_follows_the_clock() {
 fn filter_and_sort() {
     let mut s = demo_state((80, 24));
     ch(&mut s, '/');
-    typed(&mut s, "c0");
+    typed(&mut s, "lpo-c0");
     let (rows, _) = screen(&s, 80, 24);
-    assert!(rows[23].starts_with("filter: c0"));
+    assert!(rows[23].starts_with("filter: lpo-c0"));
     key(&mut s, KeyCode::Enter);
     assert_eq!(names(&s).len(), 9);
     assert!(names(&s).iter().all(|n| n.starts_with("LPO-C0")));
     ch(&mut s, '/');
     key(&mut s, KeyCode::Esc);
-    assert_eq!(names(&s).len(), 26);
+    assert_eq!(names(&s).len(), 70);
     // "transient" matches the kind.
     ch(&mut s, '/');
     typed(&mut s, "transient");
@@ -211,16 +211,16 @@ fn edit_validate_undo_redo_and_save() {
         o => panic!("{o:?}"),
     }
     key(&mut s, KeyCode::Esc);
-    assert_eq!(s.targets.len(), 27);
+    assert_eq!(s.targets.len(), 71);
     // Remove (with the question), undo, redo.
     ch(&mut s, 'd');
     ch(&mut s, 'y');
-    assert_eq!(s.targets.len(), 26);
+    assert_eq!(s.targets.len(), 70);
     assert!(!s.targets.iter().any(|t| t.name == "NEW-1"));
     ch(&mut s, 'u');
-    assert_eq!(s.targets.len(), 27);
+    assert_eq!(s.targets.len(), 71);
     ch(&mut s, 'U');
-    assert_eq!(s.targets.len(), 26);
+    assert_eq!(s.targets.len(), 70);
     ch(&mut s, 'u');
     ch(&mut s, 'u');
     ch(&mut s, 'u');
@@ -287,7 +287,7 @@ fn demo_edits_go_to_the_users_file_and_quit_asks_first() {
         "demo untouched"
     );
     let saved = parse_csv(&std::fs::read_to_string(&user).unwrap(), &user);
-    assert_eq!(saved.targets.len(), 25);
+    assert_eq!(saved.targets.len(), 69);
     assert!(!s.programme.is_demo);
     assert!(!user.with_extension("csv.bak").exists());
     // Nothing unsaved: quit at once.
@@ -429,11 +429,11 @@ fn unsaved_edits_are_kept_beside_the_file_until_saved() {
     let kept = parse_csv(&std::fs::read_to_string(&recovery).unwrap(), &recovery);
     assert!(kept.problems.is_empty());
     assert_eq!(kept.targets, s.targets);
-    assert_eq!(kept.targets.len(), 25);
+    assert_eq!(kept.targets.len(), 69);
     ch(&mut s, 'd');
     ch(&mut s, 'y');
     let kept = parse_csv(&std::fs::read_to_string(&recovery).unwrap(), &recovery);
-    assert_eq!(kept.targets.len(), 24);
+    assert_eq!(kept.targets.len(), 68);
     // Undoing back to the file leaves nothing unsaved: the file goes.
     ch(&mut s, 'u');
     ch(&mut s, 'u');
@@ -445,7 +445,7 @@ fn unsaved_edits_are_kept_beside_the_file_until_saved() {
     ch(&mut s, 'w');
     assert!(!recovery.exists());
     let saved = parse_csv(&std::fs::read_to_string(&file).unwrap(), &file);
-    assert_eq!(saved.targets.len(), 25);
+    assert_eq!(saved.targets.len(), 69);
     // Quitting and dropping the edits (q, y) removes it as well.
     ch(&mut s, 'd');
     ch(&mut s, 'y');
@@ -500,7 +500,7 @@ fn unsaved_edits_left_by_a_session_are_offered_back() {
         parse_csv(&std::fs::read_to_string(&file).unwrap(), &file)
             .targets
             .len(),
-        26
+        70
     );
     assert_eq!(
         parse_csv(&std::fs::read_to_string(&recovery).unwrap(), &recovery).targets,
@@ -508,14 +508,14 @@ fn unsaved_edits_left_by_a_session_are_offered_back() {
     );
     // Undo takes the restore back like any change.
     ch(&mut s, 'u');
-    assert_eq!(s.targets.len(), 26);
+    assert_eq!(s.targets.len(), 70);
     assert!(!recovery.exists());
     // No: the file is set aside, not deleted, and the programme is as loaded.
     std::fs::write(&recovery, rung::io::write_targets::to_csv(&edited)).unwrap();
     let mut s = open_with(Some(offer()));
     ch(&mut s, 'n');
     assert!(s.overlay.is_none());
-    assert_eq!(s.targets.len(), 26);
+    assert_eq!(s.targets.len(), 70);
     assert!(!recovery.exists());
     let old = dir.path().join("mine.csv.unsaved.old");
     assert_eq!(

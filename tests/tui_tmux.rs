@@ -24,7 +24,7 @@ fn command(cfg: &Path, extra_env: &str) -> String {
 /// wait for the Roster; `None` (test skipped) without tmux.
 fn open_demo(cfg: &Path) -> Option<Tmux> {
     let t = Tmux::start(&command(cfg, ""))?;
-    t.wait_for("Roster · 26 of 26 targets");
+    t.wait_for("Roster · 70 of 70 targets");
     Some(t)
 }
 
@@ -114,7 +114,7 @@ fn every_view_then_quit_restores_the_terminal() {
     t.wait_for("Ladder · 2026-12-01 to 2029-05-31");
     t.wait_for("End point");
     t.send("Tab");
-    t.wait_for("Roster · 26 of 26");
+    t.wait_for("Roster · 70 of 70");
     t.send("BTab");
     t.wait_for("Ladder · 2026-12-01 to");
     t.send("BTab");
@@ -124,7 +124,7 @@ fn every_view_then_quit_restores_the_terminal() {
     t.send("BTab");
     t.wait_for("Chase · ✶ LPO-T2026a");
     t.send("1");
-    t.wait_for("Roster · 26 of 26");
+    t.wait_for("Roster · 70 of 70");
     t.send("?");
     t.wait_for("Keys (Esc closes");
     t.send("Escape");
@@ -260,7 +260,7 @@ fn sigterm_keeps_unsaved_edits_and_the_next_start_offers_them() {
     };
     t.wait_for("Unsaved edits found");
     t.send("y");
-    t.wait_for("Roster · 25 of 25 targets");
+    t.wait_for("Roster · 69 of 69 targets");
     t.wait_for("● unsaved");
     t.send("w");
     t.wait_for("saved /");
@@ -307,11 +307,11 @@ fn two_sessions_on_one_programme() {
     let Some(a) = Tmux::start(&command(cfg.path(), "")) else {
         return;
     };
-    a.wait_for("Roster · 26 of 26 targets");
+    a.wait_for("Roster · 70 of 70 targets");
     let b = Tmux::start(&command(cfg.path(), "")).unwrap();
     // The second session knows of the first.
     b.wait_for("another rung (process");
-    b.wait_for("Roster · 26 of 26 targets");
+    b.wait_for("Roster · 70 of 70 targets");
     remove_first_target(&a);
     b.send("End");
     b.send("d");
@@ -340,7 +340,7 @@ fn two_sessions_on_one_programme() {
             .collect()
     };
     let now = names(&prog);
-    assert_eq!(now.len(), 24, "{now:?}");
+    assert_eq!(now.len(), 68, "{now:?}");
     assert!(!now.contains(&"LPO-P01".to_string()) && !now.contains(&"LPO-T2026b".to_string()));
     // B edits again and is killed (SIGKILL: nothing runs on its way out).
     b.send("d");
@@ -350,16 +350,16 @@ fn two_sessions_on_one_programme() {
     assert!(rb.exists());
     signal("-KILL", &pid_b);
     b.wait_for("RUNG-EXIT-137");
-    assert_eq!(names(&rb).len(), 23);
+    assert_eq!(names(&rb).len(), 67);
     // The next session offers B's edits back (A still runs).
     let c = Tmux::start(&command(cfg.path(), "")).unwrap();
     c.wait_for("Unsaved edits found");
     c.send("y");
-    c.wait_for("Roster · 23 of 23 targets");
+    c.wait_for("Roster · 67 of 67 targets");
     assert!(!rb.exists(), "B's file is taken over by C's own");
     c.send("w");
     c.wait_for("saved /");
-    assert_eq!(names(&prog).len(), 23);
+    assert_eq!(names(&prog).len(), 67);
     for t in [&a, &c] {
         t.send("q");
         assert_restored(t, "RUNG-EXIT-0");

@@ -48,7 +48,7 @@ fn roster_80x24_shows_library_windows() {
         rows[1]
     );
     assert!(rows[1].trim_end().ends_with("demo"), "{}", rows[1]);
-    assert!(rows[2].starts_with("Roster · 26 of 26 targets · by file order"));
+    assert!(rows[2].starts_with("Roster · 70 of 70 targets · by file order"));
     assert!(rows[3].contains("name") && rows[3].contains("window") && rows[3].contains("airm"));
     // File order, with 24 − 5 = 19 rows visible (status, tabs, title, header, message).
     let night = demo_night();
@@ -79,9 +79,10 @@ fn roster_80x24_shows_library_windows() {
 }
 
 #[test]
-fn roster_160x48_has_wide_columns_and_every_target() {
-    let s = demo_state((160, 48));
-    let (rows, _) = screen(&s, 160, 48);
+fn roster_160x80_has_wide_columns_and_every_target() {
+    // 80 rows: the demo's 70 targets and the chrome.
+    let s = demo_state((160, 80));
+    let (rows, _) = screen(&s, 160, 80);
     assert!(rows[0].contains("Moon ") && rows[0].contains("waning") || rows[0].contains("waxing"));
     for col in ["trans", "RA", "Dec", "prio", "notes"] {
         assert!(rows[3].contains(col), "{col}: {}", rows[3]);
@@ -982,8 +983,8 @@ fn roster_moon_and_sun_columns_are_the_numbers_of_rung_night_json() {
         String::from_utf8_lossy(&out.stderr)
     );
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
-    let s = demo_state((160, 48));
-    let (rows, _) = screen(&s, 160, 48);
+    let s = demo_state((160, 80));
+    let (rows, _) = screen(&s, 160, 80);
     let mut cautions = 0;
     for t in v["targets"].as_array().unwrap() {
         let name = t["name"].as_str().unwrap();
@@ -1009,4 +1010,61 @@ fn roster_moon_and_sun_columns_are_the_numbers_of_rung_night_json() {
         }
     }
     assert!(cautions > 0, "the demo night has daytime Sun cautions");
+}
+
+#[test]
+fn phase_view_shows_a_field_as_one_unit() {
+    // The same library call as `rung phase --field LPO-G1`, made here
+    // directly with the demo programme's settings.
+    let targets = demo_targets();
+    let links = rung::ladder::field::link(&targets);
+    let g = links.by_name(&targets, "LPO-G1").unwrap();
+    let r = demo_settings().field_report(&targets, g).unwrap();
+    let d = r.distance.as_ref().unwrap();
+    let mut s = demo_state((80, 24));
+    ch(&mut s, '5');
+    select(&mut s, "LPO-G1");
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(
+        rows[2].starts_with("Phase · ◎ LPO-G1 · 30 stars · 1 pointing · "),
+        "{}",
+        rows[2]
+    );
+    let visits: usize = r.pointings.iter().map(|p| p.epochs.len()).sum();
+    assert!(
+        rows[3].starts_with(&format!(
+            "{visits} visits · {:.1} h · {}",
+            r.prediction.hours_needed,
+            r.prediction.verdict.text()
+        )),
+        "{}",
+        rows[3]
+    );
+    // The stars with their points and moduli, the field's distance, each term.
+    let x = &r.stars[0];
+    let first = row_of(&rows, &x.name);
+    assert!(
+        first.contains(&format!("{:.3}", x.distance_modulus_mag.unwrap())),
+        "{first}"
+    );
+    assert!(has(
+        &rows,
+        &format!(
+            "μ {:.3} ± {:.3} mag · {:.1} kpc · σd/d {:.2}%",
+            d.distance_modulus_mag,
+            d.sigma_mu_mag,
+            d.distance_pc / 1000.0,
+            d.distance_precision_pct
+        )
+    ));
+    let terms = row_of(&rows, "σμ: ");
+    for t in &d.error_terms {
+        assert!(terms.contains(&format!("{:.3}", t.sigma_mag)), "{terms}");
+    }
+    // A star of the field shows the same unit, that star marked and in sight.
+    select(&mut s, "LPO-G1-C25");
+    let (rows2, _) = screen(&s, 80, 24);
+    assert_eq!(rows2[2], rows[2]);
+    assert!(has(&rows2, "LPO-G1-C25"));
+    assert!(has(&rows2, "rows "), "the 30 stars scroll at 80x24");
 }

@@ -1300,14 +1300,20 @@ impl<'a> FieldPlanner<'a> {
                 ));
             }
             let mut epochs = Vec::with_capacity(chosen.len());
+            // Visits that cannot be exposed, said once per pointing.
+            let mut failed: Vec<(Instant, String)> = Vec::new();
             for c in chosen {
                 match self.visit_epoch(fs, em, prep, p, &centre, cands[c].t, snr) {
                     Ok(e) => epochs.push(e),
-                    Err(e) => notes.push(format!(
-                        "pointing {name}: no visit at {}: {e}",
-                        cands[c].t.iso()
-                    )),
+                    Err(e) => failed.push((cands[c].t, e.to_string())),
                 }
+            }
+            if let Some((t, e)) = failed.first() {
+                notes.push(format!(
+                    "pointing {name}: {} of its visits could not be exposed (the first at {}: {e})",
+                    failed.len(),
+                    t.iso()
+                ));
             }
             out.insert(name, epochs);
         }
@@ -1599,6 +1605,44 @@ impl<'a> FieldPlanner<'a> {
         combine(&terms, &prep.wide).map_or(f64::INFINITY, |d| d.sigma_mu_mag)
     }
 
+    /// The highest per-point SNR in [lo, hi] a visit at each pointing's
+    /// reference instant can give its faintest star (bisection on whether the
+    /// exposure fits one visit); `lo` when even that does not fit (the visits
+    /// then say why).
+    fn feasible_snr(
+        &self,
+        fs: &FieldSetting,
+        em: &dyn ExposureModel,
+        prep: &Prepared,
+        refs: &[Option<Instant>],
+        lo: f64,
+        hi: f64,
+    ) -> f64 {
+        let fits = |snr: f64| {
+            prep.pointings.iter().zip(refs).all(|(p, t)| {
+                let Some(t) = t else { return true };
+                let (_, centre, _, _) = self.centre_of(fs, p);
+                self.visit_epoch(fs, em, prep, p, &centre, *t, snr).is_ok()
+            })
+        };
+        if fits(hi) {
+            return hi;
+        }
+        if !fits(lo) {
+            return lo;
+        }
+        let (mut a, mut b) = (lo.ln(), hi.ln());
+        for _ in 0..16 {
+            let mid = 0.5 * (a + b);
+            if fits(mid.exp()) {
+                a = mid;
+            } else {
+                b = mid;
+            }
+        }
+        a.exp()
+    }
+
     /// The field's plan: with a goal, the fewest points per star and the
     /// lowest per-point SNR for the faintest star that reach it (or the floor
     /// when no number of points can); without, the pulsating-star method's
@@ -1663,11 +1707,15 @@ impl<'a> FieldPlanner<'a> {
             })
             .collect();
         let max_n = self.config.defaults.max_points;
+        // The highest per-point SNR one visit can reach for every pointing's
+        // faintest star (at most snr_max): a faint field cannot be asked for
+        // SNR 300, and asking for it must not leave the field without visits.
+        let snr_top = self.feasible_snr(fs, em, &prep, &refs, d.snr_min, d.snr_max);
         let mut n = n0;
-        let mut snr = d.snr_max;
+        let mut snr = snr_top;
         loop {
-            if self.model_sigma(fs, em, &prep, &refs, n, d.snr_max) <= s_goal {
-                let (mut lo, mut hi) = (d.snr_min.ln(), d.snr_max.ln());
+            if self.model_sigma(fs, em, &prep, &refs, n, snr_top) <= s_goal {
+                let (mut lo, mut hi) = (d.snr_min.ln(), snr_top.ln());
                 if self.model_sigma(fs, em, &prep, &refs, n, d.snr_min) <= s_goal {
                     hi = lo;
                 }
@@ -1692,8 +1740,8 @@ impl<'a> FieldPlanner<'a> {
             if r.prediction.distance_precision_pct <= aim || r.prediction.epochs.is_empty() {
                 break;
             }
-            if snr < d.snr_max * 0.999 {
-                snr = (snr * 1.5).min(d.snr_max);
+            if snr < snr_top * 0.999 {
+                snr = (snr * 1.5).min(snr_top);
             } else if n < max_n {
                 n = (n + n / 2).min(max_n);
             } else {

@@ -133,6 +133,18 @@ pub fn method_report(k: &MethodKey) -> MethodBody {
         _ => return MethodBody::NotApplicable("no report for this view".into()),
     };
     let t = &k.target;
+    // A field, or a star of one, in the Phase view: the field as one unit
+    // (the same call as `rung phase --field`).
+    if !k.field.is_empty() {
+        let links = crate::ladder::field::link(&k.field);
+        return match links.by_name(&k.field, &k.field[0].name) {
+            Some(g) => match k.settings.field_report(&k.field, g) {
+                Ok(r) => MethodBody::Field(Box::new(r)),
+                Err(e) => MethodBody::Failed(e.to_string()),
+            },
+            None => MethodBody::Failed(format!("{} is not a field", k.field[0].name)),
+        };
+    }
     if t.kind != kind {
         let what = match k.view {
             View::Parallax => "the Parallax view is for parallax targets",

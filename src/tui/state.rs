@@ -308,11 +308,18 @@ pub struct MethodKey {
     pub target: crate::io::targets::Target,
     /// The settings it is computed with.
     pub settings: Arc<Settings>,
+    /// In the Phase view, when the target is a field or one of its stars:
+    /// the field's row and its stars (the field is planned as one unit);
+    /// else empty.
+    pub field: Vec<crate::io::targets::Target>,
 }
 
 impl PartialEq for MethodKey {
     fn eq(&self, o: &Self) -> bool {
-        self.view == o.view && self.target == o.target && same_settings(&self.settings, &o.settings)
+        self.view == o.view
+            && self.target == o.target
+            && self.field == o.field
+            && same_settings(&self.settings, &o.settings)
     }
 }
 
@@ -325,6 +332,9 @@ pub enum MethodBody {
     Phase(Box<crate::ladder::pulsator::PhaseReport>),
     /// `TransientMethod::chase`.
     Chase(Box<crate::ladder::transient::Chase>),
+    /// `Settings::field_report`: a field as one unit (the Phase view of a
+    /// field or of one of its stars).
+    Field(Box<crate::ladder::field::FieldReport>),
     /// The selected target is not of the view's kind.
     NotApplicable(String),
     /// The library refused (the message says why).
@@ -629,6 +639,7 @@ impl State {
             MethodBody::Phase(r) if self.view == View::Phase => {
                 Some(r.windows.len() + phase_extra_rows(r))
             }
+            MethodBody::Field(r) if self.view == View::Phase => Some(r.stars.len()),
             MethodBody::Chase(c) if self.view == View::Chase => Some(c.nights.len()),
             _ => None,
         }
@@ -695,11 +706,36 @@ impl State {
         if !matches!(self.view, View::Parallax | View::Phase | View::Chase) {
             return None;
         }
+        let target = self.selected()?;
         Some(MethodKey {
             view: self.view,
-            target: self.selected()?.clone(),
+            target: target.clone(),
             settings: self.settings.clone(),
+            field: if self.view == View::Phase {
+                self.field_of(target)
+            } else {
+                Vec::new()
+            },
         })
+    }
+
+    /// The field a target is or belongs to, as its row and its stars (file
+    /// order), when it links to one (`ladder::field::link`); else empty.
+    pub fn field_of(&self, t: &Target) -> Vec<Target> {
+        use crate::io::targets::Kind;
+        let name = match t.kind {
+            Kind::Field => t.name.as_str(),
+            _ if !t.field.trim().is_empty() => t.field.trim(),
+            _ => return Vec::new(),
+        };
+        let links = crate::ladder::field::link(&self.targets);
+        match links.by_name(&self.targets, name) {
+            Some(g) => std::iter::once(g.field)
+                .chain(g.members.iter().copied())
+                .map(|i| self.targets[i].clone())
+                .collect(),
+            None => Vec::new(),
+        }
     }
 
     /// The budget key for the current programme, settings and hours asked

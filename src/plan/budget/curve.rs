@@ -195,6 +195,27 @@ pub fn inverse_curve(
     out
 }
 
+/// A field's curve (its plan needs its stars, so the goal ladder of
+/// [`inverse_curve`] is not walked for it): zero hours, then its own plan's
+/// point when that reaches its goal.
+pub fn field_curve(settings: &Settings, p: &Prediction, goal_pct: Option<f64>) -> Vec<CurvePoint> {
+    let mut out = vec![CurvePoint {
+        hours: 0.0,
+        distance_precision_pct: f64::NAN,
+        epochs: 0,
+        goal_asked_pct: f64::NAN,
+        nights: Vec::new(),
+    }];
+    if let Some(g) = goal_pct
+        && p.verdict == Verdict::Reachable
+        && p.distance_precision_pct.is_finite()
+        && !p.epochs.is_empty()
+    {
+        out.push(point(settings, p, g));
+    }
+    out
+}
+
 /// The best point of a curve within `hours` (clear weather, or as
 /// `cost` counts them): the finest precision whose cost fits.
 pub fn best_within(

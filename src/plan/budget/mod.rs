@@ -338,11 +338,16 @@ pub fn budget_with(settings: &Settings, targets: &[Target], opts: &Options) -> R
             .into_par_iter()
             .map(|i| match links.role(i) {
                 crate::ladder::field::Role::Alone => target_work(settings, &targets[i], curves),
-                // A field's row (its curve is not drawn) or a star of one.
-                _ => list_prediction(settings, targets, &links, i).map(|r| {
+                // A field's row (its curve: zero and its own plan) or a star of one.
+                role => list_prediction(settings, targets, &links, i).map(|r| {
                     r.map(|p| TargetWork {
+                        curve: match role {
+                            crate::ladder::field::Role::Field(_) if curves => {
+                                curve::field_curve(settings, &p, settings.goal_for(&targets[i]))
+                            }
+                            _ => Vec::new(),
+                        },
                         prediction: p,
-                        curve: Vec::new(),
                     })
                 }),
             })

@@ -1,6 +1,7 @@
 //! Phase: a pulsator's phase coverage over the coming nights (from
 //! `PulsatorMethod::analyse`), night by night, with the planned visits and what
-//! the points buy.
+//! the points buy; a field (or a star of one) as one unit, from
+//! `Settings::field_report` as `rung phase --field`.
 
 use crate::tui::state::{MethodBody, State, View, detail_offset, detail_rows, phase_extra_rows};
 use crate::tui::views::fmt::{hm, num, pct, put};
@@ -23,10 +24,13 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         return;
     }
     let name = s.selected().map(|t| t.name.clone()).unwrap_or_default();
-    let Some(MethodBody::Phase(r)) =
-        super::method_report(s, area, buf, "Phase", "computing the phase coverage…")
-    else {
-        return;
+    let r = match super::method_report(s, area, buf, "Phase", "computing the phase coverage…") {
+        Some(MethodBody::Phase(r)) => r,
+        Some(MethodBody::Field(r)) => {
+            let star = (r.field != name).then_some(name.as_str());
+            return render_field(s, area, buf, r, star);
+        }
+        _ => return,
     };
     let e = &r.star.ephemeris;
     put(
@@ -269,4 +273,187 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         put(buf, area.x, fy + 2, &n, area.width, st);
     }
     scroll_mark(s, area, fy + 1, off, rows, r.windows.len(), buf);
+}
+
+/// A short label of a field-distance term for the foot line (the names are
+/// the library's; the CLI and --json give them in full).
+fn term_label(name: &str) -> String {
+    let n = name.to_lowercase();
+    let short = if n.starts_with("period–luminosity scatter")
+        || n.starts_with("period-luminosity scatter")
+    {
+        "PL"
+    } else if n.starts_with("mean magnitude") {
+        "m̄"
+    } else if n.starts_with("relation zero point") {
+        "zp"
+    } else if n.starts_with("relation slope") {
+        "slp"
+    } else if n.starts_with("relation γ") {
+        "γ"
+    } else if n.starts_with("metallicity") {
+        "[Fe/H]"
+    } else if n.starts_with("extinction") {
+        "A"
+    } else {
+        return name.split_whitespace().next().unwrap_or(name).to_string();
+    };
+    short.to_string()
+}
+
+/// Draw a field (host galaxy or cluster) as one unit: its pointings, its
+/// stars with the points each gets, and the field's distance with its terms
+/// (`Settings::field_report`, as `rung phase --field`). `star`: the member the
+/// Roster selected, marked in the list.
+fn render_field(
+    s: &State,
+    area: Rect,
+    buf: &mut Buffer,
+    r: &crate::ladder::field::FieldReport,
+    star: Option<&str>,
+) {
+    let th = &s.theme;
+    let visits: usize = r.pointings.iter().map(|p| p.epochs.len()).sum();
+    put(
+        buf,
+        area.x,
+        area.y,
+        &format!(
+            "Phase · ◎ {} · {} stars · {} pointing{} · {} to {} · {}",
+            r.field,
+            r.stars.len(),
+            r.pointings.len(),
+            if r.pointings.len() == 1 { "" } else { "s" },
+            s.settings.from,
+            s.settings.to,
+            s.settings.instrument().name
+        ),
+        area.width,
+        th.title(),
+    );
+    // What the field costs, and its pointings with the star each one's
+    // exposures are sized for.
+    let pr = &r.prediction;
+    let pts: Vec<String> = r
+        .pointings
+        .iter()
+        .map(|p| {
+            if r.pointings.len() == 1 {
+                format!(
+                    "{} {}★, exposures for {} ({})",
+                    p.target,
+                    p.stars.len(),
+                    p.faintest.as_deref().unwrap_or("-"),
+                    num(p.faintest_mag, 2)
+                )
+            } else {
+                format!("{} {}★ {}", p.target, p.stars.len(), p.epochs.len())
+            }
+        })
+        .collect();
+    put(
+        buf,
+        area.x,
+        area.y + 1,
+        &format!(
+            "{visits} visits · {} h · {} · {}",
+            num(Some(pr.hours_needed), 1),
+            pr.verdict.text(),
+            pts.join(" · ")
+        ),
+        area.width,
+        th.text(),
+    );
+    let head = format!(
+        "{:<12} {:>7} {:>2} {:>6} {:>4} {:>3} {:>5} {:>4} {:>6} {:>7} {:>5}",
+        "star", "P_d", "bd", "mean", "amp", "pts", "bins", "snr", "σm̄", "μ", "w"
+    );
+    put(buf, area.x, area.y + 2, &head, area.width, th.header());
+    let foot = 3u16;
+    let rows = detail_rows(View::Phase, area.height);
+    let len = r.stars.len();
+    let at = star.and_then(|n| r.stars.iter().position(|x| x.name == n));
+    // The selected star in sight unless the list was scrolled on purpose.
+    let want = match at {
+        Some(i) if s.detail_scroll == 0 && i >= rows => i + 1 - rows,
+        _ => s.detail_scroll,
+    };
+    let off = detail_offset(want, rows, len);
+    let fy = area.y + area.height - foot;
+    for (k, x) in r.stars.iter().enumerate().skip(off).take(rows) {
+        let y = area.y + 3 + (k - off) as u16;
+        let line = format!(
+            "{:<12} {:>7} {:>2} {:>6} {:>4} {:>3} {:>5} {:>4} {:>6} {:>7} {:>5}{}",
+            x.name,
+            num(Some(x.period_d), 3),
+            x.band,
+            num(x.mean_mag, 2),
+            num(Some(x.amplitude_mag), 2),
+            x.points,
+            format!("{}/{}", x.bins_covered, r.bins),
+            num(x.snr_lowest, 0),
+            num(x.sigma_mean_mag, 3),
+            num(x.distance_modulus_mag, 3),
+            num(Some(x.weight), 3),
+            x.excluded
+                .as_ref()
+                .map(|w| format!(" left out: {w}"))
+                .unwrap_or_default()
+        );
+        let st = if Some(k) == at {
+            th.selected()
+        } else if x.excluded.is_some() {
+            th.dim()
+        } else {
+            th.text()
+        };
+        put(buf, area.x, y, &line, area.width, st);
+    }
+    let (l1, l2) = match &r.distance {
+        Some(d) => (
+            format!(
+                "μ {} ± {} mag · {} kpc · σd/d {} (floor {}{})",
+                num(Some(d.distance_modulus_mag), 3),
+                num(Some(d.sigma_mu_mag), 3),
+                num(Some(d.distance_pc / 1000.0), 1),
+                pct(d.distance_precision_pct, 2),
+                pct(d.floor_pct, 2),
+                r.goal_pct
+                    .map(|g| format!(", goal {}", pct(g, 1)))
+                    .unwrap_or_default(),
+            ),
+            format!(
+                "σμ: {}",
+                d.error_terms
+                    .iter()
+                    .map(|t| format!("{} {}", term_label(&t.name), num(Some(t.sigma_mag), 3)))
+                    .collect::<Vec<_>>()
+                    .join("  ")
+            ),
+        ),
+        None => (
+            "no field distance: no star has a mean magnitude from these visits".to_string(),
+            String::new(),
+        ),
+    };
+    put(buf, area.x, fy, &l1, area.width, th.text());
+    put(buf, area.x, fy + 1, &l2, area.width, th.dim());
+    let note = r
+        .cautions
+        .first()
+        .map(|c| (format!("☼ {c}"), th.warn()))
+        .or_else(|| r.notes.first().map(|n| (n.clone(), th.dim())));
+    // The scroll mark, when the stars do not fit, takes the note's right end.
+    let mark_w = if len > rows { 32 } else { 0 };
+    if let Some((n, st)) = note {
+        put(
+            buf,
+            area.x,
+            fy + 2,
+            &n,
+            area.width.saturating_sub(mark_w),
+            st,
+        );
+    }
+    scroll_mark(s, area, fy + 2, off, rows, len, buf);
 }
