@@ -345,16 +345,22 @@ fn the_demo_plan_against_an_upper_bound_and_its_night_fill() {
     };
     let st = rung::programme::Settings::resolve(&req, now).unwrap();
     let mut r = Request::programme(&st, &targets, 8.0);
-    r.horizon_to = "2028-05-31".parse().unwrap();
+    // The demo programme runs to 2029-05-31 (its thirty months).
+    r.horizon_to = "2029-05-31".parse().unwrap();
     let s = schedule(&r).unwrap();
     let got = value(&s.problem, &s.placements);
     let bound = relaxed_bound(&s.problem);
     let used: f64 = s.nights.iter().map(|n| n.used_hours).sum();
     let cap: f64 = s.nights.iter().map(|n| n.capacity_hours).sum();
+    // A visit's exposure time, all its frames (the README quotes the range).
+    let open_s = s.visits.iter().map(|v| v.exptime_s);
+    let shortest_s = open_s.clone().fold(f64::INFINITY, f64::min);
+    let longest_s = open_s.fold(0.0, f64::max);
     println!(
-        "demo, 2026-12-01 to 2026-12-14 at 8 h: value {got:.2} of an upper bound {bound:.2} ({:.1} %); {} visits, {used:.1} of {cap:.1} h used ({:.0} %), per night {}",
+        "demo, 2026-12-01 to 2026-12-14 at 8 h: value {got:.2} of an upper bound {bound:.2} ({:.1} %); {} visits ({shortest_s:.0} s to {:.0} min open), {used:.1} of {cap:.1} h used ({:.0} %), per night {}",
         100.0 * got / bound,
         s.visits.len(),
+        longest_s / 60.0,
         100.0 * used / cap,
         s.nights
             .iter()
