@@ -201,9 +201,11 @@ pub fn inverse_curve(
 pub fn field_curve(settings: &Settings, p: &Prediction, goal_pct: Option<f64>) -> Vec<CurvePoint> {
     let mut out = vec![CurvePoint {
         hours: 0.0,
+        hours_expected: 0.0,
         distance_precision_pct: f64::NAN,
         epochs: 0,
         goal_asked_pct: f64::NAN,
+        gain_pct_per_hour: f64::NAN,
         nights: Vec::new(),
     }];
     if let Some(g) = goal_pct
@@ -211,8 +213,10 @@ pub fn field_curve(settings: &Settings, p: &Prediction, goal_pct: Option<f64>) -
         && p.distance_precision_pct.is_finite()
         && !p.epochs.is_empty()
     {
-        out.push(point(settings, p, g));
+        let clear = super::clear_fraction(settings).0;
+        out.push(point(settings, p, g, &clear));
     }
+    set_gains(&mut out);
     out
 }
 
