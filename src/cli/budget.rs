@@ -40,7 +40,7 @@ pub struct Args {
     /// Budget the same programme at these sites side by side (comma-separated catalogue names)
     #[arg(long, value_delimiter = ',')]
     pub sites: Vec<String>,
-    /// Write the proposal figure (SVG: σd/d against hours for every target, goals met against hours) to this file
+    /// Write the proposal figure (σd/d against hours for every target, goals met against hours) to this file: SVG for FILE.svg, PNG for FILE.png
     #[arg(long)]
     pub figure: Option<PathBuf>,
     /// A LaTeX table ready for a proposal (needs booktabs).
@@ -83,6 +83,9 @@ fn asked(a: &Args) -> Result<Option<Asked>> {
 
 /// Run `rung budget`.
 pub fn run(a: Args) -> Result<()> {
+    if let Some(path) = &a.figure {
+        figure_format(path)?;
+    }
     let asked = asked(&a)?;
     if let Some(q) = a.confidence
         && !(q.is_finite() && (0.5..=0.999).contains(&q))
@@ -141,7 +144,11 @@ pub fn run(a: Args) -> Result<()> {
     let budgets = budget::compare::side_by_side(&list, &targets, &opts)?;
     let b = &budgets[0];
     if let Some(path) = &a.figure {
-        rung::io::atomic::write_atomic(path, budget::figure::svg(b).as_bytes())?;
+        let bytes = match figure_format(path)? {
+            Figure::Svg => budget::figure::svg(b).into_bytes(),
+            Figure::Png => budget::figure::png(b)?,
+        };
+        rung::io::atomic::write_atomic(path, &bytes)?;
         eprintln!(
             "rung: figure written to {}",
             super::full_path(path).display()
@@ -255,5 +262,29 @@ fn print_text(st: &rung::programme::Settings, b: &Budget) {
         for l in budget::allocation_lines(b, a) {
             super::outln!("{l}");
         }
+    }
+}
+
+/// The figure's format, from its file name.
+enum Figure {
+    Svg,
+    Png,
+}
+
+/// `--figure FILE`: SVG for a name ending in `.svg`, PNG for `.png` (any
+/// case); any other name is refused before anything is computed.
+fn figure_format(path: &std::path::Path) -> anyhow::Result<Figure> {
+    match path
+        .extension()
+        .and_then(|e| e.to_str())
+        .map(|e| e.to_ascii_lowercase())
+        .as_deref()
+    {
+        Some("svg") => Ok(Figure::Svg),
+        Some("png") => Ok(Figure::Png),
+        _ => anyhow::bail!(
+            "--figure {}: give a file name ending in .svg or .png (the format follows the name)",
+            path.display()
+        ),
     }
 }

@@ -316,7 +316,7 @@ pub fn budget_until(k: &BudgetKey, cancel: &Cancel) -> Result<Option<crate::plan
 }
 
 /// The budget of `k` with every target's curve ([`budget_for`]) written as
-/// CSV, Markdown, LaTeX, the figure (SVG) and the justification into `dir`
+/// CSV, Markdown, LaTeX, the figure (SVG and PNG) and the justification into `dir`
 /// (made when missing), each file atomically; the files written, in full.
 pub fn budget_files(
     k: &BudgetKey,
@@ -338,10 +338,16 @@ pub fn budget_files(
             pb::proposal::justification(&b) + "\n",
         ),
     ];
-    files
+    let mut written = files
         .into_iter()
         .map(|(name, text)| save(&dir.join(name), &text, None))
-        .collect()
+        .collect::<std::result::Result<Vec<_>, String>>()?;
+    // The figure as PNG too, for a document that takes no SVG.
+    let png = dir.join(format!("{stem}.png"));
+    let bytes = pb::figure::png(&b).map_err(|e| e.to_string())?;
+    write_atomic(&png, &bytes).map_err(|e| e.to_string())?;
+    written.insert(4, png);
+    Ok(written)
 }
 
 /// The files of a plan export, named after the site and span.

@@ -275,7 +275,14 @@ pub fn svg(b: &Budget) -> String {
                 .collect(),
             Some(a.hours_asked),
         ),
-        None => (Vec::new(), None),
+        // Without hours asked, the goals the budget can reach (its curve).
+        None => (
+            b.goals_met_curve
+                .iter()
+                .map(|s| (s.hours, s.weight, s.goals_met))
+                .collect(),
+            None,
+        ),
     };
     let _ = writeln!(
         s,
@@ -290,7 +297,8 @@ pub fn svg(b: &Budget) -> String {
     let wmax = steps.iter().map(|s| s.1).fold(1.0, f64::max);
     let x2 = |h: f64| LEFT + h / xmax2 * pw;
     let y2 = |w: f64| TOP2 + H2 - w / wmax * H2;
-    let step = nice_step(xmax2);
+    // Whole hours on the axis (its labels have no decimals).
+    let step = nice_step(xmax2).max(1.0);
     let mut t = 0.0;
     while t <= xmax2 + 1e-9 {
         let xx = x2(t);
@@ -318,7 +326,7 @@ pub fn svg(b: &Budget) -> String {
     }
     let _ = writeln!(
         s,
-        r#"<text x="{:.1}" y="{:.1}" text-anchor="middle">total hours asked</text>
+        r#"<text x="{:.1}" y="{:.1}" text-anchor="middle">total hours (expected weather)</text>
 <text x="22" y="{:.1}" text-anchor="middle" transform="rotate(-90 22 {:.1})">goals met (weighted)</text>"#,
         LEFT + pw / 2.0,
         TOP2 + H2 + 34.0,
@@ -350,7 +358,7 @@ pub fn svg(b: &Budget) -> String {
     } else {
         let _ = writeln!(
             s,
-            r##"<text x="{:.1}" y="{:.1}" text-anchor="middle" fill="#444">give the hours asked (--hours) for the goals-met curve</text>"##,
+            r##"<text x="{:.1}" y="{:.1}" text-anchor="middle" fill="#444">no goal within reach in this range</text>"##,
             LEFT + pw / 2.0,
             TOP2 + H2 / 2.0
         );
@@ -418,4 +426,59 @@ fn nice_step(max: f64) -> f64 {
         }
     }
     10.0 * p
+}
+
+/// Scale of the PNG against the SVG's pixels: 2, so the raster is
+/// 1800 × 1520 px, sharp at a page's width in print.
+pub const PNG_SCALE: f32 = 2.0;
+
+/// The figure as PNG: the SVG of [`svg`] rendered by the `resvg` crate, on
+/// white, at [`PNG_SCALE`]. Its text takes the system's fonts (the generic
+/// sans-serif family, else the first family installed); on a system with no
+/// font at all the curves, axes and markers are drawn and the labels are not.
+pub fn png(b: &Budget) -> crate::error::Result<Vec<u8>> {
+    png_of_svg(&svg(b), PNG_SCALE)
+}
+
+/// An SVG document rendered to PNG at `scale` (see [`png`]).
+pub fn png_of_svg(text: &str, scale: f32) -> crate::error::Result<Vec<u8>> {
+    use resvg::{tiny_skia, usvg};
+    let bad = |why: String| crate::error::RungError::invalid("figure (PNG)", why);
+    let mut opt = usvg::Options::default();
+    {
+        let db = opt.fontdb_mut();
+        db.load_system_fonts();
+        // The generic family the SVG names must be a font that is there.
+        let generic = [usvg::fontdb::Family::SansSerif];
+        let query = usvg::fontdb::Query {
+            families: &generic,
+            ..Default::default()
+        };
+        if db.query(&query).is_none() {
+            // A sans family when there is one, else any.
+            let family = |f: &usvg::fontdb::FaceInfo| f.families.first().map(|(n, _)| n.clone());
+            let sans = |n: &String| n.contains("Sans") && !n.contains("Mono");
+            let first = db
+                .faces()
+                .filter_map(family)
+                .find(sans)
+                .or_else(|| db.faces().find_map(family));
+            if let Some(name) = first {
+                db.set_sans_serif_family(name);
+            }
+        }
+    }
+    let tree = usvg::Tree::from_str(text, &opt).map_err(|e| bad(e.to_string()))?;
+    let size = tree.size();
+    let w = (size.width() * scale).ceil() as u32;
+    let h = (size.height() * scale).ceil() as u32;
+    let mut pixmap = tiny_skia::Pixmap::new(w.max(1), h.max(1))
+        .ok_or_else(|| bad(format!("no raster of {w} × {h} px")))?;
+    pixmap.fill(tiny_skia::Color::WHITE);
+    resvg::render(
+        &tree,
+        tiny_skia::Transform::from_scale(scale, scale),
+        &mut pixmap.as_mut(),
+    );
+    pixmap.encode_png().map_err(|e| bad(e.to_string()))
 }
