@@ -197,11 +197,17 @@ fn the_latex_table_is_well_formed() {
     let o = demo(&["--latex"]);
     let t = String::from_utf8(o.stdout).unwrap();
     let csv = String::from_utf8(demo(&["--csv"]).stdout).unwrap();
+    // (The CSV's rows of kind `total` are the science, the calibrations
+    // and the total, as the LaTeX table's.)
     let n_rows = csv.lines().count() - 1;
     assert!(t.contains("\\begin{tabular}") && t.contains("\\end{tabular}"));
     assert_eq!(t.matches('{').count(), t.matches('}').count(), "{t}");
-    // A header, a row per target, two totals, each ending in \\.
-    assert_eq!(t.matches("\\\\\n").count(), n_rows + 3, "{t}");
+    // A header, a row per target, science, calibrations and total, each
+    // ending in \\.
+    assert_eq!(t.matches("\\\\\n").count(), n_rows + 1, "{t}");
+    let total = csv.lines().last().unwrap();
+    assert!(total.starts_with("total,total,"), "{csv}");
+    assert!(t.contains("\ncalibrations & "), "{t}");
     // Percent signs are escaped, underscores too.
     for l in t.lines().filter(|l| !l.starts_with('%')) {
         let bare = l.replace("\\%", "");
@@ -238,4 +244,117 @@ fn instruments_side_by_side() {
         "{t}"
     );
     assert!(t.contains("[2] alcaravan-2m at pampa-lucero"), "{t}");
+}
+
+/// `--figure FILE.png` writes the figure as a raster: decoded, it has the
+/// SVG's size at the PNG scale, a white background, and along every curve
+/// of the SVG (of the same budget) pixels in that curve's colour. Lean: two
+/// pulsators and a supernova of the demo over its first season.
+#[test]
+fn the_png_figure_is_the_svg_figure_as_a_raster() {
+    use rung::plan::budget::figure::{HEIGHT, PNG_SCALE, WIDTH};
+    let d = tempfile::tempdir().unwrap();
+    let prog = d.path().join("three.csv");
+    let demo = std::fs::read_to_string(
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("targets-demo/targets.csv"),
+    )
+    .unwrap();
+    let keep: Vec<&str> = demo
+        .lines()
+        .filter(|l| {
+            l.starts_with('#')
+                || l.starts_with("name,")
+                || ["LPO-C03,", "LPO-C06,", "LPO-T2026a,"]
+                    .iter()
+                    .any(|n| l.starts_with(n))
+        })
+        .collect();
+    std::fs::write(&prog, keep.join("\n") + "\n").unwrap();
+    let fig = |name: &str| -> std::path::PathBuf {
+        let path = d.path().join(name);
+        let o = rung(&[
+            "budget",
+            "--targets",
+            prog.to_str().unwrap(),
+            "--from",
+            "2026-12-01",
+            "--to",
+            "2027-07-31",
+            "--hours",
+            "2",
+            "--figure",
+            path.to_str().unwrap(),
+        ]);
+        assert!(
+            o.status.success() || o.status.code() == Some(3),
+            "{}",
+            String::from_utf8_lossy(&o.stderr)
+        );
+        path
+    };
+    let png = std::fs::read(fig("budget.png")).unwrap();
+    let svg = std::fs::read_to_string(fig("budget.svg")).unwrap();
+    let pix = resvg::tiny_skia::Pixmap::decode_png(&png).expect("a PNG that decodes");
+    assert_eq!(
+        (pix.width(), pix.height()),
+        (
+            (WIDTH * PNG_SCALE as f64) as u32,
+            (HEIGHT * PNG_SCALE as f64) as u32
+        )
+    );
+    let at = |x: f64, y: f64| {
+        let p = pix
+            .pixel(
+                (x * PNG_SCALE as f64) as u32,
+                (y * PNG_SCALE as f64) as u32,
+            )
+            .unwrap();
+        (p.red(), p.green(), p.blue())
+    };
+    assert_eq!(at(2.0, 2.0), (255, 255, 255), "a white background");
+    // Every curve of the SVG: at each of its points, within two pixels, a
+    // pixel of its stroke colour (Okabe–Ito, opaque).
+    let doc = roxmltree::Document::parse(&svg).unwrap();
+    let curves: Vec<_> = doc
+        .descendants()
+        .filter(|n| n.attribute("class") == Some("curve"))
+        .collect();
+    assert_eq!(curves.len(), 3, "{svg}");
+    for c in curves {
+        let line = c
+            .descendants()
+            .find(|n| n.has_tag_name("polyline"))
+            .unwrap();
+        let hex = line.attribute("stroke").unwrap().trim_start_matches('#');
+        let want: Vec<u8> = (0..3)
+            .map(|i| u8::from_str_radix(&hex[2 * i..2 * i + 2], 16).unwrap())
+            .collect();
+        for pt in line.attribute("points").unwrap().split_whitespace() {
+            let (x, y) = pt.split_once(',').unwrap();
+            let (x, y): (f64, f64) = (x.parse().unwrap(), y.parse().unwrap());
+            let near = (-2..=2).any(|dx| {
+                (-2..=2).any(|dy| {
+                    let (r, g, b) = at(x + dx as f64 * 0.5, y + dy as f64 * 0.5);
+                    [r, g, b]
+                        .iter()
+                        .zip(&want)
+                        .all(|(a, w)| (*a as i32 - *w as i32).abs() <= 24)
+                })
+            });
+            assert!(near, "no pixel of #{hex} near ({x}, {y})");
+        }
+    }
+    // A name that is neither .svg nor .png is refused before any work.
+    let o = rung(&[
+        "budget",
+        "--targets",
+        prog.to_str().unwrap(),
+        "--figure",
+        d.path().join("budget.pdf").to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{o:?}");
+    assert!(
+        String::from_utf8_lossy(&o.stderr).contains("ending in .svg or .png"),
+        "{o:?}"
+    );
 }

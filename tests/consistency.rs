@@ -793,13 +793,33 @@ fn every_demo_target_agrees_on_every_surface() {
     d.has(
         "Budget view total".into(),
         &all,
-        &format!("total {} h", fixed(&budget["total_hours"], 1)),
+        &format!(
+            "science {} h + calibrations {} h = total {} h clear",
+            fixed(&budget["science_hours"], 1),
+            fixed(&budget["calibration_hours"], 1),
+            fixed(&budget["total_hours_with_calibrations"], 1)
+        ),
     );
-    for (sem, hrs) in budget["hours_by_semester"].as_object().unwrap() {
+    d.has(
+        "Budget view total with the weather".into(),
+        &all,
+        &format!(
+            "with the weather {} + {} = {} h",
+            fixed(&budget["science_hours_expected"], 1),
+            fixed(&budget["calibration_hours_expected"], 1),
+            fixed(&budget["total_hours_expected"], 1)
+        ),
+    );
+    // Each semester's total (science and calibrations), as the text says it.
+    for sem in budget["semesters"].as_array().unwrap() {
         d.has(
             "Budget view semester".into(),
             &all,
-            &format!("{sem} {} h", fixed(hrs, 1)),
+            &format!(
+                "{} {}",
+                sem["label"].as_str().unwrap(),
+                fixed(&sem["hours"], 1)
+            ),
         );
     }
     d.has(

@@ -354,9 +354,16 @@ fn sun_caution_is_flagged_for_a_target_beside_the_sun() {
 }
 
 fn select(s: &mut rung::tui::State, name: &str) {
-    while s.selected().unwrap().name != name {
-        key(s, crossterm::event::KeyCode::Down);
+    // Down, then up: the target may be above the selection.
+    for k in [crossterm::event::KeyCode::Down, crossterm::event::KeyCode::Up] {
+        for _ in 0..100 {
+            if s.selected().unwrap().name == name {
+                return;
+            }
+            key(s, k);
+        }
     }
+    panic!("{name} cannot be selected");
 }
 
 #[test]
@@ -614,7 +621,39 @@ fn budget_view_and_export_match_the_library_budget() {
             );
             assert!(line.contains(&r.verdict.text()), "{line}");
         }
-        assert!(has(&rows, &format!("total {:.1} h", plain.total_hours)));
+        // Science + calibrations = total, each part whole (the words of
+        // `rung budget`), also at 80 columns.
+        for part in rung::plan::budget::total_parts(&plain) {
+            assert!(has(&rows, &part), "{part}\n{}", rows.join("\n"));
+        }
+    }
+    // Each row's reason says each thing once, and its σd/d by term is the
+    // JSON's, every term whole at 80 columns.
+    for r in &plain.rows {
+        select(&mut s, &r.target);
+        for (w, h) in [(80u16, 24u16), (160, 48)] {
+            let (rows, _) = screen(&s, w, h);
+            let at = rows
+                .iter()
+                .position(|l| l.starts_with(&format!("{}: ", r.target)))
+                .unwrap_or_else(|| panic!("no reason for {}:\n{}", r.target, rows.join("\n")));
+            let reason: String = rows[at..]
+                .iter()
+                .take_while(|l| !l.starts_with("σd/d by term"))
+                .map(|l| l.trim_end())
+                .collect::<Vec<_>>()
+                .join(" ");
+            assert!(
+                reason.matches(&r.verdict.text()).count() <= 1,
+                "{reason}"
+            );
+            if w == 80 {
+                for t in &r.error_terms {
+                    let part = format!("{} {:.2} %", t.name, t.distance_pct);
+                    assert!(has(&rows, &part), "{part}\n{}", rows.join("\n"));
+                }
+            }
+        }
     }
     // The request: 2.5 hours asked, and an export folder typed in.
     ch(&mut s, 'b');
@@ -655,9 +694,15 @@ fn budget_view_and_export_match_the_library_budget() {
     for unmet in a.shares.iter().filter(|x| !x.goal_met) {
         select(&mut s, &unmet.target);
         assert!(!unmet.limit.is_empty(), "{unmet:?}");
+        // (Each said once: a why within the limit's words is left out.)
         let why = format!(
-            "{}: not met, by {} · {}",
-            unmet.target, unmet.limit, unmet.why
+            "{}: {}",
+            unmet.target,
+            rung::tui::views::budget::once_each(vec![
+                format!("not met, by {}", unmet.limit),
+                unmet.why.clone()
+            ])
+            .join(" · ")
         );
         let (rows, _) = screen(&s, 160, 48);
         let shown: String = rows
@@ -683,16 +728,71 @@ fn budget_view_and_export_match_the_library_budget() {
     let stem = format!("budget-pampa-lucero-{}-to-{}", st.from, st.to);
     let read = |ext: &str| std::fs::read_to_string(out.join(format!("{stem}{ext}"))).unwrap();
     assert_eq!(read(".csv"), rung::plan::budget::csv(&b));
+    // Each row's σd/d by term in the CSV and the Markdown: the numbers of
+    // `error_terms` in --json (three and two decimals).
+    let csv = read(".csv");
+    let json = serde_json::to_value(&b).unwrap();
+    for r in json["rows"].as_array().unwrap() {
+        let name = r["target"].as_str().unwrap();
+        let terms: Vec<String> = r["error_terms"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|t| {
+                format!(
+                    "{}={:.3}",
+                    t["name"].as_str().unwrap(),
+                    t["distance_pct"].as_f64().unwrap()
+                )
+            })
+            .collect();
+        assert!(!terms.is_empty(), "{name}");
+        let line = csv
+            .lines()
+            .find(|l| l.starts_with(&format!("{name},")))
+            .unwrap();
+        assert!(line.ends_with(&terms.join("; ")), "{line}");
+        let md: Vec<String> = r["error_terms"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|t| {
+                format!(
+                    "{} {:.2} %",
+                    t["name"].as_str().unwrap(),
+                    t["distance_pct"].as_f64().unwrap()
+                )
+            })
+            .collect();
+        assert!(
+            read(".md").contains(&format!("- {name}: {}\n", md.join(", "))),
+            "{name}"
+        );
+    }
+    // One total: science + calibrations = total in the CSV, as in --json.
+    let total = csv.lines().last().unwrap();
+    assert!(
+        total.starts_with(&format!(
+            "total,total,,,,,{:.3},",
+            json["total_hours_with_calibrations"].as_f64().unwrap()
+        )),
+        "{total}"
+    );
     assert_eq!(read(".md"), rung::plan::budget::markdown(&b));
     assert_eq!(read(".tex"), proposal::latex(&b));
     assert_eq!(read(".svg"), figure::svg(&b));
+    // The PNG is the SVG as a raster.
+    assert!(
+        std::fs::read(out.join(format!("{stem}.png"))).unwrap()
+            == figure::png_of_svg(&figure::svg(&b), figure::PNG_SCALE).unwrap()
+    );
     assert_eq!(
         read("-justification.txt"),
         proposal::justification(&b) + "\n"
     );
     let (rows, _) = screen(&s, 80, 24);
     assert!(
-        rows[23].starts_with("exported 5 budget files to "),
+        rows[23].starts_with("exported 6 budget files to "),
         "{}",
         rows[23]
     );
@@ -701,7 +801,7 @@ fn budget_view_and_export_match_the_library_budget() {
         .iter()
         .map(|r| r.trim_matches(|c| c == '│' || c == ' ').replace(' ', ""))
         .collect();
-    for ext in [".csv", ".md", ".tex", ".svg", "-justification.txt"] {
+    for ext in [".csv", ".md", ".tex", ".svg", ".png", "-justification.txt"] {
         let full = out.join(format!("{stem}{ext}")).display().to_string();
         assert!(
             shown.contains(&full.replace(' ', "")),

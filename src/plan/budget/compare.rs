@@ -101,16 +101,18 @@ pub fn side_by_side(
         .collect()
 }
 
-/// The comparison in words: one line per configuration, then the hours each
+/// The comparison in words: one line per configuration (science hours and
+/// the total with calibrations in clear weather, the total expected with the
+/// weather and its pessimistic quantile), then the hours each
 /// target needs on each (expected with the weather) and whether it is met.
 pub fn side_lines(sides: &[Side]) -> Vec<String> {
     let mut out = vec![format!(
-        "  {:<18} {:<14} {:>8} {:>8} {:>8} {:>8} {:>9} {:>9}",
-        "site", "instrument", "clear h", "+cal h", "exp h", "pess h", "reachable", "met"
+        "  {:<18} {:<14} {:>9} {:>8} {:>8} {:>8} {:>9} {:>9}",
+        "site", "instrument", "science h", "total h", "exp h", "pess h", "reachable", "met"
     )];
     for s in sides {
         out.push(format!(
-            "  {:<18} {:<14} {:>8} {:>8} {:>8} {:>8} {:>9} {:>9}",
+            "  {:<18} {:<14} {:>9} {:>8} {:>8} {:>8} {:>9} {:>9}",
             s.site,
             s.instrument,
             num(s.total_hours, 1),

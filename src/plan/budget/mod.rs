@@ -157,8 +157,22 @@ pub struct Budget {
     pub hours_by_month: BTreeMap<String, f64>,
     /// Hours by semester (e.g. 2026B), targets only, clear weather.
     pub hours_by_semester: BTreeMap<String, f64>,
-    /// Total hours of the targets, clear weather, without calibrations.
+    /// The science hours: every target's plan with its visit overheads,
+    /// clear weather, without calibrations (the same as `science_hours`;
+    /// the key predates the total with calibrations, which is the total).
     pub total_hours: f64,
+    /// The science hours (clear weather): the sum of the rows' `hours`.
+    /// Science + calibrations = total (`total_hours_with_calibrations`).
+    pub science_hours: f64,
+    /// The calibration hours (clear weather): `calibration_s_per_night` on
+    /// each night the epochs fall on.
+    pub calibration_hours: f64,
+    /// The science hours expected with the weather: the sum of the rows'
+    /// `hours_expected`.
+    pub science_hours_expected: f64,
+    /// The calibration hours expected with the weather. Science +
+    /// calibrations = `total_hours_expected`.
+    pub calibration_hours_expected: f64,
     /// Site name.
     pub site: String,
     /// Instrument name.
@@ -173,11 +187,13 @@ pub struct Budget {
     pub overheads: Overheads,
     /// The semesters of the range with their hours (targets and calibrations).
     pub semesters: Vec<SemesterInfo>,
-    /// Total with the calibrations, clear weather.
+    /// The total, clear weather: science + calibrations.
     pub total_hours_with_calibrations: f64,
-    /// Expected scheduled hours with the weather (targets and calibrations).
+    /// The total expected with the weather: science + calibrations.
     pub total_hours_expected: f64,
-    /// The pessimistic quantile of the programme's scheduled hours.
+    /// The pessimistic quantile of the total (the programme's scheduled
+    /// hours with calibrations; a quantile of the sum, not the sum of the
+    /// rows' quantiles).
     pub total_hours_pessimistic: f64,
     /// The allocation of the hours asked, when hours were asked.
     pub allocation: Option<Allocation>,
@@ -387,6 +403,10 @@ fn unreachable_budget(settings: &Settings) -> Budget {
         hours_by_month: BTreeMap::new(),
         hours_by_semester: BTreeMap::new(),
         total_hours: 0.0,
+        science_hours: 0.0,
+        calibration_hours: 0.0,
+        science_hours_expected: 0.0,
+        calibration_hours_expected: 0.0,
         site: settings.site.name.clone(),
         instrument: settings.instrument().name.clone(),
         from: settings.from,
@@ -577,6 +597,14 @@ pub fn assemble_with(
     let prog_nights: Vec<(NaiveDate, f64)> = prog.into_iter().collect();
     let loads = night_loads(&prog_nights, cal_h);
     let calibration_hours = cal_h * prog_nights.len() as f64;
+    let science_hours_expected = rows.iter().map(|r| r.hours_expected).sum::<f64>() + 0.0;
+    let calibration_hours_expected = weather::expected_hours(
+        &night_loads(
+            &prog_nights.iter().map(|(d, _)| (*d, 0.0)).collect::<Vec<_>>(),
+            cal_h,
+        ),
+        &clear,
+    );
     let mut semesters: Vec<SemesterInfo> = range_semesters(settings)
         .into_iter()
         .map(|(label, from, to)| SemesterInfo {
@@ -612,6 +640,10 @@ pub fn assemble_with(
         hours_by_month,
         hours_by_semester,
         total_hours,
+        science_hours: total_hours,
+        calibration_hours,
+        science_hours_expected,
+        calibration_hours_expected,
         site: site.name.clone(),
         instrument: settings.instrument().name.clone(),
         from: settings.from,
@@ -683,15 +715,36 @@ pub fn markdown(b: &Budget) -> String {
             md_cell(&r.verdict.text())
         ));
     }
+    // Science + calibrations = total, as every surface says it; the
+    // pessimistic hours are the total's quantile (not a sum of the rows').
+    let share_sum = alloc.map(|a| a.shares.iter().map(|s| s.hours).sum::<f64>());
+    s.push_str(&format!(
+        "| science | | | | | | {} | {} | – | |{}\n",
+        num(b.science_hours, 1),
+        num(b.science_hours_expected, 1),
+        share_sum
+            .map(|h| format!(" {} | | |", num(h, 1)))
+            .unwrap_or_default()
+    ));
+    s.push_str(&format!(
+        "| calibrations | | | | {} nights | {} s / night | {} | {} | – | |{}\n",
+        b.overheads.calibration_nights,
+        num(b.overheads.calibration_s_per_night, 0),
+        num(b.calibration_hours, 1),
+        num(b.calibration_hours_expected, 1),
+        alloc
+            .map(|a| format!(" {} | | |", num(a.calibration_hours, 1)))
+            .unwrap_or_default()
+    ));
     s.push_str(&format!(
         "| **total** | | | | | | **{}** | **{}** | **{}** | |{}\n",
-        num(b.total_hours, 1),
-        num(b.rows.iter().map(|r| r.hours_expected).sum::<f64>(), 1),
-        num(b.rows.iter().map(|r| r.hours_pessimistic).sum::<f64>(), 1),
+        num(b.total_hours_with_calibrations, 1),
+        num(b.total_hours_expected, 1),
+        num(b.total_hours_pessimistic, 1),
         alloc
             .map(|a| format!(
                 " **{}** | | {} of {} goals met |",
-                num(a.shares.iter().map(|s| s.hours).sum::<f64>(), 1),
+                num(a.hours_allocated, 1),
                 a.goals_met,
                 a.goals_total
             ))
@@ -715,9 +768,17 @@ pub fn markdown(b: &Budget) -> String {
             num(a.probability_all_met, 2)
         ));
     }
+    let terms = terms_lines(b);
+    if !terms.is_empty() {
+        s.push_str("σd/d by term (percent, in quadrature):\n\n");
+        for l in &terms {
+            s.push_str(&format!("- {}\n", md_cell(l)));
+        }
+        s.push('\n');
+    }
     if !b.semesters.is_empty() {
         s.push_str(
-            "| semester | from | to | hours | expected h |\n| --- | --- | --- | ---: | ---: |\n",
+            "| semester | from | to | total h | expected h |\n| --- | --- | --- | ---: | ---: |\n",
         );
         for x in &b.semesters {
             s.push_str(&format!(
@@ -731,7 +792,7 @@ pub fn markdown(b: &Budget) -> String {
         }
     }
     if !b.hours_by_month.is_empty() {
-        s.push_str("\n| month | hours |\n| --- | ---: |\n");
+        s.push_str("\n| month | science h |\n| --- | ---: |\n");
         for (k, h) in &b.hours_by_month {
             s.push_str(&format!("| {k} | {} |\n", num(*h, 1)));
         }
@@ -739,30 +800,29 @@ pub fn markdown(b: &Budget) -> String {
     s
 }
 
-/// The budget as CSV (one row per target; a number without a value is an
-/// empty field). The share columns are empty without hours asked.
+/// A row's σ_d/d by term for a CSV field: `name=percent` pairs joined by
+/// `; ` (the terms add in quadrature; the numbers of `error_terms` in
+/// `--json`, three decimals).
+pub fn terms_field(r: &BudgetRow) -> String {
+    r.error_terms
+        .iter()
+        .map(|t| format!("{}={}", t.name, csv_num(t.distance_pct, 3)))
+        .collect::<Vec<_>>()
+        .join("; ")
+}
+
+/// The budget as CSV: one row per target (a number without a value is an
+/// empty field; the share columns are empty without hours asked), each
+/// with its σ_d/d by term; then three rows of kind `total`: `science`,
+/// `calibrations` and `total` (science + calibrations, as every surface
+/// counts it; the pessimistic hours only for the total, its own quantile).
 pub fn csv(b: &Budget) -> String {
     let alloc = b.allocation.as_ref();
-    csv_table(
-        &[
-            "target",
-            "kind",
-            "goal_pct",
-            "achievable_pct",
-            "epochs",
-            "exptime_per_epoch_s",
-            "hours",
-            "verdict",
-            "detail",
-            "priority",
-            "nights",
-            "hours_expected",
-            "hours_pessimistic",
-            "share_status",
-            "share_hours",
-            "share_reaches_pct",
-        ],
-        b.rows.iter().enumerate().map(|(i, r)| {
+    let mut rows: Vec<Vec<String>> = b
+        .rows
+        .iter()
+        .enumerate()
+        .map(|(i, r)| {
             let sh = alloc.and_then(|a| a.shares.get(i));
             vec![
                 r.target.clone(),
@@ -781,8 +841,71 @@ pub fn csv(b: &Budget) -> String {
                 sh.map(|s| s.status.clone()).unwrap_or_default(),
                 sh.map(|s| csv_num(s.hours, 3)).unwrap_or_default(),
                 sh.map(|s| csv_num(s.reaches_pct, 3)).unwrap_or_default(),
+                terms_field(r),
             ]
-        }),
+        })
+        .collect();
+    let sum_row = |name: &str,
+                   nights: String,
+                   hours: f64,
+                   expected: f64,
+                   pess: Option<f64>,
+                   share: Option<f64>| {
+        let mut v = vec![String::new(); 17];
+        v[0] = name.to_string();
+        v[1] = "total".to_string();
+        v[6] = csv_num(hours, 3);
+        v[10] = nights;
+        v[11] = csv_num(expected, 3);
+        v[12] = csv_num(pess, 3);
+        v[14] = csv_num(share, 3);
+        v
+    };
+    rows.push(sum_row(
+        "science",
+        String::new(),
+        b.science_hours,
+        b.science_hours_expected,
+        None,
+        alloc.map(|a| a.shares.iter().map(|s| s.hours).sum::<f64>()),
+    ));
+    rows.push(sum_row(
+        "calibrations",
+        b.overheads.calibration_nights.to_string(),
+        b.calibration_hours,
+        b.calibration_hours_expected,
+        None,
+        alloc.map(|a| a.calibration_hours),
+    ));
+    rows.push(sum_row(
+        "total",
+        String::new(),
+        b.total_hours_with_calibrations,
+        b.total_hours_expected,
+        Some(b.total_hours_pessimistic),
+        alloc.map(|a| a.hours_allocated),
+    ));
+    csv_table(
+        &[
+            "target",
+            "kind",
+            "goal_pct",
+            "achievable_pct",
+            "epochs",
+            "exptime_per_epoch_s",
+            "hours",
+            "verdict",
+            "detail",
+            "priority",
+            "nights",
+            "hours_expected",
+            "hours_pessimistic",
+            "share_status",
+            "share_hours",
+            "share_reaches_pct",
+            "error_terms_pct",
+        ],
+        rows.into_iter(),
     )
 }
 
@@ -831,42 +954,72 @@ pub fn assumptions(b: &Budget) -> Vec<String> {
     ]
 }
 
+/// A row's σ_d/d by term in words, percent with two decimals (the terms
+/// add in quadrature to its `achievable_pct`; the numbers of
+/// `error_terms` in `--json`); empty without terms.
+pub fn terms_words(r: &BudgetRow) -> String {
+    r.error_terms
+        .iter()
+        .map(|t| format!("{} {} %", t.name, num(t.distance_pct, 2)))
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
 /// Each row's σ_d/d by term, percent (the terms add in quadrature to its
 /// `achievable_pct`): one line per row that has terms.
 pub fn terms_lines(b: &Budget) -> Vec<String> {
     b.rows
         .iter()
         .filter(|r| !r.error_terms.is_empty())
-        .map(|r| {
-            format!(
-                "{}: {}",
-                r.target,
-                r.error_terms
-                    .iter()
-                    .map(|t| format!("{} {} %", t.name, num(t.distance_pct, 2)))
-                    .collect::<Vec<_>>()
-                    .join(", ")
-            )
-        })
+        .map(|r| format!("{}: {}", r.target, terms_words(r)))
         .collect()
 }
 
-/// The totals in words: clear, with calibrations, expected, pessimistic, and by semester.
+/// The programme's hours, one definition on every surface: science (the
+/// targets' plans with their visit overheads) + calibrations = total, in
+/// clear weather and expected with the weather, and the total's pessimistic
+/// quantile. Short parts that a narrow window can wrap between (the Budget
+/// view); [`totals_lines`] says the same at length.
+pub fn total_parts(b: &Budget) -> Vec<String> {
+    vec![
+        format!(
+            "science {} h + calibrations {} h = total {} h clear",
+            num(b.science_hours, 1),
+            num(b.calibration_hours, 1),
+            num(b.total_hours_with_calibrations, 1)
+        ),
+        format!(
+            "with the weather {} + {} = {} h, {} h at {} %",
+            num(b.science_hours_expected, 1),
+            num(b.calibration_hours_expected, 1),
+            num(b.total_hours_expected, 1),
+            num(b.total_hours_pessimistic, 1),
+            num(b.weather.confidence * 100.0, 0)
+        ),
+    ]
+}
+
+/// The totals in words (science + calibrations = total; clear, expected,
+/// pessimistic) and by semester (science and calibrations).
 pub fn totals_lines(b: &Budget) -> Vec<String> {
     let mut out = vec![format!(
-        "total {} h in clear weather ({} h open shutter, {} h visit overheads); {} h with {} h of calibrations; {} h expected with the weather, {} h at the {} % quantile",
-        num(b.total_hours, 1),
+        "science {} h ({} h open shutter, {} h visit overheads) + calibrations {} h ({} s on each of {} nights) = total {} h in clear weather; with the weather {} + {} = {} h expected, {} h at the {} % quantile of the total",
+        num(b.science_hours, 1),
         num(b.overheads.exposure_hours, 1),
         num(b.overheads.visit_overhead_hours, 1),
+        num(b.calibration_hours, 1),
+        num(b.overheads.calibration_s_per_night, 0),
+        b.overheads.calibration_nights,
         num(b.total_hours_with_calibrations, 1),
-        num(b.overheads.calibration_hours, 1),
+        num(b.science_hours_expected, 1),
+        num(b.calibration_hours_expected, 1),
         num(b.total_hours_expected, 1),
         num(b.total_hours_pessimistic, 1),
         num(b.weather.confidence * 100.0, 0)
     )];
     for s in &b.semesters {
         out.push(format!(
-            "semester {} ({} to {}): {} h clear, {} h expected",
+            "semester {} ({} to {}): total {} h clear, {} h expected",
             s.label,
             s.from,
             s.to,

@@ -88,19 +88,31 @@ pub fn latex(b: &Budget) -> String {
         ));
     }
     s.push_str("\\midrule\n");
+    // Science + calibrations = total, as every surface counts it; the
+    // pessimistic hours are the total's own quantile.
+    let tail = |share: Option<f64>| match (alloc, share) {
+        (Some(_), Some(h)) => format!(" & {} &", num(h, 1)),
+        _ => String::new(),
+    };
     s.push_str(&format!(
-        "total & & & & & {} & {} & {} & {} \\\\\n",
-        num(b.total_hours, 1),
-        num(b.rows.iter().map(|r| r.hours_expected).sum::<f64>(), 1),
-        num(b.rows.iter().map(|r| r.hours_pessimistic).sum::<f64>(), 1),
-        if alloc.is_some() { "& &" } else { "" }
+        "science & & & & & {} & {} & -- & {} \\\\\n",
+        num(b.science_hours, 1),
+        num(b.science_hours_expected, 1),
+        tail(alloc.map(|a| a.shares.iter().map(|x| x.hours).sum::<f64>()))
     ));
     s.push_str(&format!(
-        "with calibrations & & & & & {} & {} & {} & {} \\\\\n",
+        "calibrations & & & & {} nights & {} & {} & -- & {} \\\\\n",
+        b.overheads.calibration_nights,
+        num(b.calibration_hours, 1),
+        num(b.calibration_hours_expected, 1),
+        tail(alloc.map(|a| a.calibration_hours))
+    ));
+    s.push_str(&format!(
+        "total & & & & & {} & {} & {} & {} \\\\\n",
         num(b.total_hours_with_calibrations, 1),
         num(b.total_hours_expected, 1),
         num(b.total_hours_pessimistic, 1),
-        if alloc.is_some() { "& &" } else { "" }
+        tail(alloc.map(|a| a.hours_allocated))
     ));
     s.push_str("\\bottomrule\n\\end{tabular}\n\\end{table}\n");
     s

@@ -125,7 +125,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             }
         ),
         None => format!(
-            "no hours asked ({} sets them) · every target: {} h with the weather ({} h at {q} %)",
+            "no hours asked ({} sets them) · total {} h with the weather ({} h at {q} %)",
             keys_for(Scope::Main, Action::BudgetAsk),
             n(b.total_hours_expected, 1),
             n(b.total_hours_pessimistic, 1)
@@ -168,12 +168,29 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         area.width,
         th.header(),
     );
-    // The selected target's reason takes two lines, four on a tall window.
-    let reason_lines: u16 = if area.height >= 30 { 4 } else { 2 };
-    let foot = reason_lines + 2;
+    // The selected target's reason takes two lines, four on a tall window;
+    // its σd/d by term three, two on a wide window (each term whole, the
+    // numbers of `error_terms` in `--json`); the totals two, three on a tall window (whole parts,
+    // wrapped between them); the keys one.
+    let tall = area.height >= 30;
+    let reason_lines: u16 = if tall { 4 } else { 2 };
+    let totals = totals_lines(b, area.width as usize, if tall { 3 } else { 2 });
+    let sel_name = s.selected().map(|t| t.name.clone());
+    let sel_row = sel_name
+        .as_ref()
+        .and_then(|name| b.rows.iter().position(|r| &r.target == name));
+    let terms_lines: u16 = if area.width >= 120 { 2 } else { 3 };
+    let terms: Vec<String> = match sel_row.map(|i| &b.rows[i]) {
+        Some(r) if !r.error_terms.is_empty() => {
+            let mut parts = vec![format!("σd/d by term: {}", terms_part(&r.error_terms[0]))];
+            parts.extend(r.error_terms.iter().skip(1).map(terms_part));
+            pack(parts, area.width as usize, terms_lines as usize, ", ")
+        }
+        _ => Vec::new(),
+    };
+    let foot = reason_lines + terms_lines + totals.len() as u16 + 1;
     let rows = area.height.saturating_sub(3 + foot) as usize;
     // The selected target's row stays in view.
-    let sel_name = s.selected().map(|t| t.name.clone());
     let sel_idx = sel_name
         .as_ref()
         .and_then(|n| b.rows.iter().position(|r| &r.target == n))
@@ -221,27 +238,23 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     }
     // The selected target's reason: what stops its goal (the constraint or
     // the error term, as `rung budget --json` gives it), its share's why,
-    // else the verdict, and the method's notes.
+    // else the verdict, and the method's notes, each said once; then its
+    // σd/d by term.
     let fy = area.y + area.height - foot;
-    let reason = sel_name
-        .as_ref()
-        .and_then(|name| {
-            let i = b.rows.iter().position(|r| &r.target == name)?;
+    let reason = sel_row
+        .map(|i| {
             let r = &b.rows[i];
             let (limit, why) = match share_of(i) {
-                Some(sh) => (&sh.limit, sh.why.clone()),
-                None => (&r.limit, r.verdict.text()),
+                Some(sh) => (sh.limit.clone(), sh.why.clone()),
+                None => (r.limit.clone(), r.verdict.text()),
             };
-            let mut t = if limit.is_empty() {
-                format!("{}: {why}", r.target)
-            } else {
-                format!("{}: not met, by {limit} · {why}", r.target)
-            };
-            if !r.notes.is_empty() {
-                t.push_str(" · ");
-                t.push_str(&r.notes.join("; "));
+            let mut parts = Vec::new();
+            if !limit.is_empty() {
+                parts.push(format!("not met, by {limit}"));
             }
-            Some(t)
+            parts.push(why);
+            parts.extend(r.notes.iter().cloned());
+            format!("{}: {}", r.target, once_each(parts).join(" · "))
         })
         .or_else(|| {
             sel_name.as_ref().map(|name| {
@@ -260,33 +273,26 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     {
         put(buf, area.x, fy + k as u16, l, area.width, th.notice());
     }
-    let sem: Vec<String> = b
-        .hours_by_semester
-        .iter()
-        .map(|(k, h)| format!("{k} {h:.1} h"))
-        .collect();
+    for (k, l) in terms.iter().enumerate() {
+        put(buf, area.x, fy + reason_lines + k as u16, l, area.width, th.text());
+    }
+    let ty = fy + reason_lines + terms_lines;
+    for (k, l) in totals.iter().enumerate() {
+        put(
+            buf,
+            area.x,
+            ty + k as u16,
+            l,
+            area.width,
+            th.text(),
+        );
+    }
     put(
         buf,
         area.x,
-        fy + reason_lines,
+        ty + totals.len() as u16,
         &format!(
-            "total {:.1} h · {} · {} skipped · {} h with calibrations, {} h with the weather, {} h at {q} %",
-            b.total_hours,
-            sem.join(" · "),
-            b.skipped.len(),
-            n(b.total_hours_with_calibrations, 1),
-            n(b.total_hours_expected, 1),
-            n(b.total_hours_pessimistic, 1)
-        ),
-        area.width,
-        th.text(),
-    );
-    put(
-        buf,
-        area.x,
-        fy + reason_lines + 1,
-        &format!(
-            "{}: hours & range · X: plan at {:.0} h/night ({}/{}) · {}: export CSV MD TeX SVG to {}",
+            "{}: hours & range · X: plan at {:.0} h/night ({}/{}) · {}: export CSV MD TeX SVG PNG to {}",
             keys_for(Scope::Main, Action::BudgetAsk),
             s.plan_hours_per_night,
             keys_for(Scope::Main, Action::PlanHoursDown),
@@ -297,6 +303,75 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         area.width,
         th.dim(),
     );
+}
+
+/// One term of a row's σd/d in the words of `rung budget`
+/// ([`crate::plan::budget::terms_words`]).
+fn terms_part(t: &crate::ladder::ErrorTerm) -> String {
+    format!("{} {} %", t.name, crate::output::num(t.distance_pct, 2))
+}
+
+/// Parts of a reason, each said once: a part already said by an earlier
+/// one (the same words, or within it) is left out, and a part that says an
+/// earlier one and more takes its place.
+pub fn once_each(parts: Vec<String>) -> Vec<String> {
+    let mut out: Vec<String> = Vec::new();
+    for p in parts {
+        let p = p.trim().to_string();
+        if p.is_empty() || out.iter().any(|o| o.contains(&p)) {
+            continue;
+        }
+        out.retain(|o| !p.contains(o.as_str()));
+        out.push(p);
+    }
+    out
+}
+
+/// The totals in lines of at most `w` characters, at most `max` lines:
+/// science + calibrations = total in clear weather and with the weather
+/// (`plan::budget::total_parts`, the words of `rung budget`), the targets
+/// skipped and the semesters' totals; a part is shown whole or, when the
+/// lines are full, not at all (the semesters first to go).
+pub fn totals_lines(b: &crate::plan::budget::Budget, w: usize, max: usize) -> Vec<String> {
+    let mut parts = crate::plan::budget::total_parts(b);
+    parts.push(format!("{} skipped", b.skipped.len()));
+    if !b.semesters.is_empty() {
+        parts.push(format!(
+            "by semester {} h",
+            b.semesters
+                .iter()
+                .map(|x| format!("{} {}", x.label, crate::output::num(x.hours, 1)))
+                .collect::<Vec<_>>()
+                .join(" · ")
+        ));
+    }
+    pack(parts, w, max, " · ")
+}
+
+/// Parts joined by `sep` into lines of at most `w` characters, at most
+/// `max` lines; a part is shown whole or, when the lines are full, not at
+/// all (a part longer than a line is cut to it).
+pub fn pack(parts: Vec<String>, w: usize, max: usize, sep: &str) -> Vec<String> {
+    let gap = sep.chars().count();
+    let mut lines: Vec<String> = Vec::new();
+    for p in parts {
+        let p = if p.chars().count() > w {
+            p.chars().take(w).collect()
+        } else {
+            p
+        };
+        let n = p.chars().count();
+        let room = lines.len() < max && n <= w;
+        match lines.last_mut() {
+            Some(l) if l.chars().count() + gap + n <= w => {
+                l.push_str(sep);
+                l.push_str(&p);
+            }
+            _ if room => lines.push(p),
+            _ => {}
+        }
+    }
+    lines
 }
 
 fn frame(title: &str, area: Rect, buf: &mut Buffer, s: &State) -> Rect {
