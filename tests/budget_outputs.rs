@@ -304,10 +304,7 @@ fn the_png_figure_is_the_svg_figure_as_a_raster() {
     );
     let at = |x: f64, y: f64| {
         let p = pix
-            .pixel(
-                (x * PNG_SCALE as f64) as u32,
-                (y * PNG_SCALE as f64) as u32,
-            )
+            .pixel((x * PNG_SCALE as f64) as u32, (y * PNG_SCALE as f64) as u32)
             .unwrap();
         (p.red(), p.green(), p.blue())
     };

@@ -600,7 +600,10 @@ pub fn assemble_with(
     let science_hours_expected = rows.iter().map(|r| r.hours_expected).sum::<f64>() + 0.0;
     let calibration_hours_expected = weather::expected_hours(
         &night_loads(
-            &prog_nights.iter().map(|(d, _)| (*d, 0.0)).collect::<Vec<_>>(),
+            &prog_nights
+                .iter()
+                .map(|(d, _)| (*d, 0.0))
+                .collect::<Vec<_>>(),
             cal_h,
         ),
         &clear,

@@ -274,18 +274,18 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         put(buf, area.x, fy + k as u16, l, area.width, th.notice());
     }
     for (k, l) in terms.iter().enumerate() {
-        put(buf, area.x, fy + reason_lines + k as u16, l, area.width, th.text());
-    }
-    let ty = fy + reason_lines + terms_lines;
-    for (k, l) in totals.iter().enumerate() {
         put(
             buf,
             area.x,
-            ty + k as u16,
+            fy + reason_lines + k as u16,
             l,
             area.width,
             th.text(),
         );
+    }
+    let ty = fy + reason_lines + terms_lines;
+    for (k, l) in totals.iter().enumerate() {
+        put(buf, area.x, ty + k as u16, l, area.width, th.text());
     }
     put(
         buf,
