@@ -355,7 +355,10 @@ fn sun_caution_is_flagged_for_a_target_beside_the_sun() {
 
 fn select(s: &mut rung::tui::State, name: &str) {
     // Down, then up: the target may be above the selection.
-    for k in [crossterm::event::KeyCode::Down, crossterm::event::KeyCode::Up] {
+    for k in [
+        crossterm::event::KeyCode::Down,
+        crossterm::event::KeyCode::Up,
+    ] {
         for _ in 0..100 {
             if s.selected().unwrap().name == name {
                 return;
@@ -643,10 +646,7 @@ fn budget_view_and_export_match_the_library_budget() {
                 .map(|l| l.trim_end())
                 .collect::<Vec<_>>()
                 .join(" ");
-            assert!(
-                reason.matches(&r.verdict.text()).count() <= 1,
-                "{reason}"
-            );
+            assert!(reason.matches(&r.verdict.text()).count() <= 1, "{reason}");
             if w == 80 {
                 for t in &r.error_terms {
                     let part = format!("{} {:.2} %", t.name, t.distance_pct);
