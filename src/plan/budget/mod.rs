@@ -908,7 +908,7 @@ pub fn csv(b: &Budget) -> String {
             "share_reaches_pct",
             "error_terms_pct",
         ],
-        rows.into_iter(),
+        rows,
     )
 }
 
