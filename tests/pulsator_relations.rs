@@ -390,3 +390,50 @@ fn calibration_and_scatter_terms_by_hand() {
     let one = k.sigma_single_mag(30.0, -0.3, 0.2);
     assert!((one - (0.09f64.powi(2) + 0.0036439 + 0.04f64.powi(2)).sqrt()).abs() < 1e-5);
 }
+
+#[test]
+fn each_relation_prints_in_its_own_form() {
+    use PulsatorClass::{Cepheid, RrLyrae};
+    // The RR Lyrae stars' optical relation is a luminosity–metallicity one
+    // (no period term): M_V = 0.214 ([Fe/H] + 1.5) + 0.59 (Clementini et al.
+    // 2003 slope, Cacciari & Clementini 2003 zero point, as in
+    // config/pulsator.toml), by hand 0.214 [Fe/H] + 0.59 + 0.214 × 1.5 =
+    // 0.214 [Fe/H] + 0.911. Never "0 (log P − 0)".
+    let rr = rel(RrLyrae, "V");
+    assert_eq!(
+        rr.equation(),
+        "M_V = 0.214 ([Fe/H] + 1.5) + 0.59 (= 0.214 [Fe/H] + 0.911)"
+    );
+    // The classical Cepheids' V relation keeps its period term, with γ at
+    // [Fe/H] = 0 (Benedict et al. 2007 above).
+    assert_eq!(
+        rel(Cepheid, "V").equation(),
+        "M_V = −2.43 (log P − 1) − 0.2 [Fe/H] − 4.05"
+    );
+    // The same text in `rung phase` for a star of the demo cluster.
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args([
+            "phase",
+            "--target",
+            "LPO-GC1-V01",
+            "--from",
+            "2026-12-01",
+            "--to",
+            "2026-12-20",
+        ])
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .env("RUNG_CONFIG_DIR", tempfile::tempdir().unwrap().path())
+        .output()
+        .unwrap();
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    assert!(
+        text.contains("M_V = 0.214 ([Fe/H] + 1.5) + 0.59 (= 0.214 [Fe/H] + 0.911)"),
+        "{text}"
+    );
+    assert!(!text.contains("log P − 0"), "{text}");
+}

@@ -210,14 +210,6 @@ fn build_target(a: &Args) -> Result<(Target, Vec<String>)> {
 }
 
 /// " + 0.59" or " − 4.05" for a term of a formula.
-fn signed(x: f64) -> String {
-    if x < 0.0 {
-        format!(" − {}", -x)
-    } else {
-        format!(" + {x}")
-    }
-}
-
 fn opt_num(x: f64) -> Value {
     if x.is_finite() { json!(x) } else { Value::Null }
 }
@@ -837,7 +829,7 @@ fn print_text(
     if let Some(rel) = &r.relation {
         let x = &rel.relation;
         super::outln!(
-            "Relation: {} {} ({}{}), M = {} (log P − {}){}{}, valid {}–{} d, scatter {} mag; [Fe/H] {:+.2} ± {:.2} dex{}",
+            "Relation: {} {} ({}{}), {}, valid {}–{} d, scatter {} mag; [Fe/H] {:+.2} ± {:.2} dex{}",
             x.class.words(),
             x.band,
             x.class.as_str(),
@@ -846,18 +838,7 @@ fn print_text(
             } else {
                 ""
             },
-            x.slope,
-            x.pivot_log_p,
-            signed(x.zero_point_mag),
-            if x.feh_coeff_mag_per_dex != 0.0 {
-                format!(
-                    "{} ([Fe/H] − {})",
-                    signed(x.feh_coeff_mag_per_dex),
-                    x.feh_ref_dex
-                )
-            } else {
-                String::new()
-            },
+            x.equation(),
             x.period_min_d,
             x.period_max_d,
             x.scatter_mag,

@@ -260,6 +260,69 @@ impl Relation {
         ))
     }
 
+    /// The relation in its own form, for text: "M_V = −2.43 (log P − 1) −
+    /// 4.05", a period–luminosity–metallicity relation with its "+ γ ([Fe/H]
+    /// + 1.5)" term, and a luminosity–metallicity relation (no period term,
+    /// as the RR Lyrae stars' optical one) as "M_V = 0.214 ([Fe/H] + 1.5) +
+    /// 0.59 (= 0.214 [Fe/H] + 0.911)": never a zero slope printed as a
+    /// period term. Coefficients as configured (`{}` of f64).
+    pub fn equation(&self) -> String {
+        let m = format!("M_{}", self.band);
+        // " + x" / " − x" after a first term.
+        let signed = |x: f64| {
+            if x < 0.0 {
+                format!(" − {}", -x)
+            } else {
+                format!(" + {x}")
+            }
+        };
+        let first = |x: f64| {
+            if x < 0.0 {
+                format!("−{}", -x)
+            } else {
+                format!("{x}")
+            }
+        };
+        // "(log P − 1)", "log P" at a zero pivot; the same for [Fe/H].
+        let lever = |name: &str, at: f64| {
+            if at == 0.0 {
+                name.to_string()
+            } else {
+                format!("({name}{})", signed(-at))
+            }
+        };
+        let has_p = self.slope != 0.0;
+        let has_feh = self.feh_coeff_mag_per_dex != 0.0;
+        let mut out = format!("{m} = ");
+        if has_p {
+            out += &format!("{} {}", first(self.slope), lever("log P", self.pivot_log_p));
+        }
+        if has_feh {
+            let g = self.feh_coeff_mag_per_dex;
+            let t = lever("[Fe/H]", self.feh_ref_dex);
+            if has_p {
+                out += &format!("{} {t}", signed(g));
+            } else {
+                out += &format!("{} {t}", first(g));
+            }
+        }
+        if has_p || has_feh {
+            out += &signed(self.zero_point_mag);
+        } else {
+            out += &first(self.zero_point_mag);
+        }
+        if !has_p && has_feh && self.feh_ref_dex != 0.0 {
+            // The same line as a [Fe/H] + b, rounded to the coefficients' 0.001 mag.
+            let b = self.zero_point_mag - self.feh_coeff_mag_per_dex * self.feh_ref_dex;
+            out += &format!(
+                " (= {} [Fe/H]{})",
+                first(self.feh_coeff_mag_per_dex),
+                signed((b * 1000.0).round() / 1000.0)
+            );
+        }
+        out
+    }
+
     /// Absolute magnitude M = slope (log10 P − pivot) + zero point +
     /// γ ([Fe/H] − feh_ref) at `period_d` (days) and `feh_dex` (dex).
     /// Refuses a period outside the valid range. Source: the relation's
