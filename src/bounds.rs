@@ -137,6 +137,18 @@ pub fn show(v: f64) -> String {
     }
 }
 
+/// A magnitude for a message: to 0.001 mag, trailing zeros dropped
+/// (`21.65`, not `21.650000000000002`; `21.905`; `16.3`). JSON keeps the
+/// full value.
+pub fn show_mag(v: f64) -> String {
+    if !v.is_finite() {
+        return show(v);
+    }
+    let t = format!("{v:.3}");
+    let t = t.trim_end_matches('0').trim_end_matches('.');
+    if t == "-0" { "0".into() } else { t.to_string() }
+}
+
 /// A positive amount shown to about three significant figures: `0.4`,
 /// `12.3`, `5120`, `1.06e7` (for sizes in messages, not for values read back).
 pub fn show_about(v: f64) -> String {
@@ -405,6 +417,11 @@ mod tests {
         assert_eq!(show(86_400.0), "86400");
         assert_eq!(show_about(1.061_242_19e7), "1.06e7");
         assert_eq!(show_about(0.43), "0.4");
+        // A faint phase mean + amplitude/2 = 21.30 + 0.35 in floating point.
+        assert_eq!(show_mag(21.30 + 0.35), "21.65");
+        assert_eq!(show_mag(21.67 + 0.47 / 2.0), "21.905");
+        assert_eq!(show_mag(16.3), "16.3");
+        assert_eq!(show_mag(-0.0001), "0");
         assert_eq!(PARALLAX_MAS.range_text(), "(0, 1000] mas");
         assert!(PARALLAX_MAS.check(0.0).is_err());
         assert!(PARALLAX_MAS.check(1000.0).is_ok());

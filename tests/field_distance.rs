@@ -21,6 +21,9 @@ fn star(mu: f64, sigma_mean: f64, log_p_lever: f64, a: f64) -> StarTerms {
         feh_lever_dex: -0.6,
         feh_err_dex: 0.15,
         extinction_mag: a,
+        calibration_band: "V".into(),
+        // The V floor of config/pulsator.toml.
+        calibration_floor_mag: 0.01,
     }
 }
 
@@ -31,7 +34,8 @@ const WIDE: FieldWide = FieldWide {
 /// The standard error of the weighted mean Σ w_i μ_i / Σ w_i computed
 /// directly from the full covariance matrix of the μ_i:
 /// C_ij = δ_ij (s² + σ_m̄,i²) + σ_zp² + x_i x_j σ_a² + z_i z_j σ_γ²
-///        + γ_i γ_j σ[Fe/H]_i σ[Fe/H]_j + f² A_i A_j,
+///        + γ_i γ_j σ[Fe/H]_i σ[Fe/H]_j + f² A_i A_j
+///        + [b_i = b_j] f_cal,i f_cal,j (one calibration per band),
 /// var = wᵀ C w / (Σ w)² (propagation of a linear combination of correlated
 /// quantities; Taylor, An Introduction to Error Analysis, ch. 9).
 fn direct_sigma(stars: &[StarTerms], wide: &FieldWide) -> f64 {
@@ -54,6 +58,9 @@ fn direct_sigma(stars: &[StarTerms], wide: &FieldWide) -> f64 {
                     * sj.gamma_err_mag_per_dex
                 + si.gamma_mag_per_dex * sj.gamma_mag_per_dex * si.feh_err_dex * sj.feh_err_dex
                 + wide.extinction_sigma_frac.powi(2) * si.extinction_mag * sj.extinction_mag;
+            if si.calibration_band == sj.calibration_band {
+                c += si.calibration_floor_mag * sj.calibration_floor_mag;
+            }
             if i == j {
                 c += si.scatter_mag.powi(2) + si.sigma_mean_mag.powi(2);
             }
@@ -97,7 +104,8 @@ fn terms_add_up_to_the_direct_covariance_of_the_weighted_mean() {
     let mu = stars.iter().zip(&w).map(|(s, w)| s.mu_mag * w).sum::<f64>() / w.iter().sum::<f64>();
     assert!((d.distance_modulus_mag - mu).abs() < 1e-12);
     assert!((d.weights.iter().sum::<f64>() - 1.0).abs() < 1e-12);
-    // Only the relation's terms are shared by every distance calibrated on it.
+    // The relation's terms are shared by every distance calibrated on it;
+    // the field's metallicity and its band's calibration by all its stars.
     let shared: Vec<&str> = d
         .error_terms
         .iter()
@@ -109,16 +117,55 @@ fn terms_add_up_to_the_direct_covariance_of_the_weighted_mean() {
         [
             "relation zero point",
             "relation slope at the stars' periods",
-            "relation γ at the stars' [Fe/H]"
+            "relation γ at the stars' [Fe/H]",
+            "metallicity",
+            "calibration"
         ]
     );
+    // The calibration floor of one band does not average down: 30 stars in V
+    // carry its whole 0.01 mag.
+    let cal = d
+        .error_terms
+        .iter()
+        .find(|t| t.name == "calibration")
+        .unwrap();
+    assert!((cal.sigma_mag - 0.01).abs() < 1e-12, "{}", cal.sigma_mag);
+}
+
+#[test]
+fn each_band_has_its_own_calibration() {
+    // Two bands, 0.01 and 0.02 mag floors, equal weights: the field's term is
+    // √((½·0.01)² + (½·0.02)²) (independent calibrations), against the
+    // direct covariance.
+    let wide = FieldWide {
+        extinction_sigma_frac: 0.0,
+    };
+    let stars: Vec<StarTerms> = (0..20)
+        .map(|i| {
+            let mut s = star(22.4, 0.02, 0.0, 0.0);
+            if i % 2 == 1 {
+                s.calibration_band = "I".into();
+                s.calibration_floor_mag = 0.02;
+            }
+            s
+        })
+        .collect();
+    let d = combine(&stars, &wide).unwrap();
+    let cal = d
+        .error_terms
+        .iter()
+        .find(|t| t.name == "calibration")
+        .unwrap();
+    let expect = (0.005f64.powi(2) + 0.01f64.powi(2)).sqrt();
+    assert!((cal.sigma_mag - expect).abs() < 1e-12, "{}", cal.sigma_mag);
+    assert!((d.sigma_mu_mag - direct_sigma(&stars, &wide)).abs() < 1e-12);
 }
 
 #[test]
 fn sigma_falls_as_one_over_root_n_down_to_the_zero_point() {
     // N equal stars at the pivot period and the reference [Fe/H] (no
     // slope or γ lever), perfect photometry, no metallicity or extinction
-    // error: σ² = σ_PL²/N + σ_zp² exactly.
+    // error: σ² = σ_PL²/N + σ_zp² + σ_cal² exactly.
     let wide = FieldWide {
         extinction_sigma_frac: 0.0,
     };
@@ -133,27 +180,29 @@ fn sigma_falls_as_one_over_root_n_down_to_the_zero_point() {
     };
     for n in [1usize, 4, 16, 30, 100, 400] {
         let d = one(n);
-        let expect = (0.21f64.powi(2) / n as f64 + 0.02f64.powi(2)).sqrt();
+        let expect = (0.21f64.powi(2) / n as f64 + 0.02f64.powi(2) + 0.01f64.powi(2)).sqrt();
         assert!((d.sigma_mu_mag - expect).abs() < 1e-12, "N = {n}");
         assert!((d.sigma_mu_mag - direct_sigma(&vec![plain(); n], &wide)).abs() < 1e-12);
         // The scatter term alone is σ_PL/√N.
         assert!((d.error_terms[0].sigma_mag - 0.21 / (n as f64).sqrt()).abs() < 1e-12);
     }
-    // Four times the stars halve the scatter term; the total tends to the zero point.
+    // Four times the stars halve the scatter term; the total tends to the
+    // shared terms, the zero point and the band's calibration.
     let (a, b) = (one(25), one(100));
     assert!((a.error_terms[0].sigma_mag / b.error_terms[0].sigma_mag - 2.0).abs() < 1e-12);
     let many = one(1_000_000);
+    let shared = (0.02f64.powi(2) + 0.01f64.powi(2)).sqrt();
     assert!(
-        (many.sigma_mu_mag - 0.02).abs() < 0.0001,
+        (many.sigma_mu_mag - shared).abs() < 0.0001,
         "{}",
         many.sigma_mu_mag
     );
-    assert!(many.sigma_mu_mag >= 0.02);
+    assert!(many.sigma_mu_mag >= shared);
 }
 
 #[test]
 fn a_monte_carlo_field_scatters_as_its_terms_say() {
-    // Direct simulation: 30 stars, each μ_i = μ + δ_zp + δ_Fe γ + e_i with
+    // Direct simulation: 30 stars, each μ_i = μ + δ_zp + δ_Fe γ + δ_cal + e_i with
     // e_i ~ N(0, s² + σ_m̄,i²), the weighted mean over 20 000 fields; its
     // standard deviation matches σ_μ to within the sampling error (0.5 % for
     // 20 000 draws; 2 % allowed).
@@ -188,7 +237,7 @@ fn a_monte_carlo_field_scatters_as_its_terms_say() {
     let trials = 20_000;
     let mut sum2 = 0.0;
     for _ in 0..trials {
-        let common = 0.02 * normal() + (-0.25) * 0.15 * normal();
+        let common = 0.02 * normal() + (-0.25) * 0.15 * normal() + 0.01 * normal();
         let m: f64 = stars
             .iter()
             .zip(&w)

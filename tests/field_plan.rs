@@ -438,6 +438,22 @@ fn phase_shows_the_field_as_the_budget_counts_it() {
     for t in d["error_terms"].as_array().unwrap() {
         assert!(text.contains(t["name"].as_str().unwrap()), "{text}");
     }
+    // The field's metallicity and its band's calibration floor are shared by
+    // its stars (they do not average down), in --json and in the text.
+    for name in ["metallicity", "calibration"] {
+        let t = d["error_terms"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|t| t["name"] == name)
+            .unwrap_or_else(|| panic!("{name}: {d}"));
+        assert_eq!(t["shared"], true, "{t}");
+        let mag = t["sigma_mag"].as_f64().unwrap();
+        assert!(
+            text.contains(&format!("{name} {mag:.3} (shared)")),
+            "{name} {text}"
+        );
+    }
     // A star's option is refused for a field, never silently ignored.
     let (ok, _, err) = run(&["phase", "--field", "LPO-G9", "--band", "K"]);
     assert!(!ok);

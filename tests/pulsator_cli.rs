@@ -287,3 +287,73 @@ fn band_k_with_the_infrared_camera() {
         "rung: error: unknown band for instrument lucero-1m 'K'; it has throughput for: B, I, R, U, V; instruments with K: lucero-1m-ir"
     );
 }
+
+#[test]
+fn messages_round_the_magnitudes_they_print() {
+    // A faint Cepheid (mean V 21.30, amplitude 0.70: its faint phase is
+    // 21.30 + 0.35, 21.650000000000002 in floating point) that no visit can
+    // expose at SNR 100 (the SNR its goal below the floor asks over the
+    // thirty months): the message says V = 21.65.
+    let dir = tempfile::tempdir().unwrap();
+    let f = dir.path().join("faint.csv");
+    std::fs::write(
+        &f,
+        "name,kind,ra,dec,band,period_d,epoch_max_bjd,period_err_d,amplitude_mag,mean_mag,extinction_mag,goal_pct\n\
+         F1,pulsator,01:36:20.7,-33:41:35,V,5.186,2461003.5695,0.00020,0.7,21.30,0.33,5\n",
+    )
+    .unwrap();
+    let (code, out, err) = rung(&[
+        "budget",
+        "--site",
+        "pampa-lucero",
+        "--targets",
+        f.to_str().unwrap(),
+        "--from",
+        "2026-12-01",
+        "--to",
+        "2029-05-31",
+    ]);
+    let all = format!("{out}{err}");
+    assert!(all.contains("a V = 21.65 star at SNR"), "{code} {all}");
+    assert!(!all.contains("21.6500000"), "{all}");
+}
+
+#[test]
+fn a_stale_ephemeris_gets_no_reachable_verdict() {
+    // P = 5.05 ± 0.01 d from an epoch in 2026: by December 2026 a predicted
+    // maximum is already ±0.15 cycle off (σφ = n σ_P / P after n cycles),
+    // past the 0.1 cycle of config/pulsator.toml; with ±0.0001 d it is not.
+    let verdict = |err: &str| {
+        let mut a: Vec<&str> = STAR.to_vec();
+        let i = a.iter().position(|x| *x == "0.0001").unwrap();
+        a[i] = err;
+        a.extend([
+            "--period-d",
+            "5.05",
+            "--amplitude-mag",
+            "0.8",
+            "--goal-pct",
+            "12",
+        ]);
+        let (code, out, err) = rung(&a);
+        assert_eq!(code, 0, "{err}");
+        let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+        (v["verdict"].clone(), v["notes"].to_string())
+    };
+    let (fresh, _) = verdict("0.0001");
+    assert_eq!(fresh["label"], "reachable", "{fresh}");
+    let (stale, notes) = verdict("0.01");
+    assert_eq!(stale["label"], "stale_ephemeris", "{stale}");
+    assert!(
+        stale["phase_sigma_cycles"].as_f64().unwrap() > 0.1,
+        "{stale}"
+    );
+    assert!(
+        stale["text"]
+            .as_str()
+            .unwrap()
+            .starts_with("needs its ephemeris refreshed"),
+        "{stale}"
+    );
+    assert!(notes.contains("rung phase --maxima"), "{notes}");
+}

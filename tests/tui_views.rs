@@ -1157,10 +1157,20 @@ fn phase_view_shows_a_field_as_one_unit() {
             d.distance_precision_pct
         )
     ));
-    let terms = row_of(&rows, "σμ: ");
+    // Each term on its line: own (averaging down with N) or shared (the
+    // relation's calibration, the field's metallicity, the band's
+    // photometric calibration).
+    let own = row_of(&rows, "σμ own: ");
+    let shared = row_of(&rows, "σμ shared: ");
     for t in &d.error_terms {
-        assert!(terms.contains(&format!("{:.3}", t.sigma_mag)), "{terms}");
+        let line = if t.shared { &shared } else { &own };
+        assert!(line.contains(&format!("{:.3}", t.sigma_mag)), "{line}");
     }
+    assert!(
+        shared.contains("[Fe/H] ") && shared.contains("cal 0.010"),
+        "{shared}"
+    );
+    assert!(!own.contains("[Fe/H]"), "{own}");
     // A star of the field shows the same unit, that star marked and in sight.
     select(&mut s, "LPO-G1-C25");
     let (rows2, _) = screen(&s, 80, 24);

@@ -25,10 +25,13 @@
 //!   of its night, then the earlier), never two overlapping ([`choose_visits`]).
 //! - **Distance.** Each star gives μ_i = m̄_i − M(P_i) − A_i with weight
 //!   w_i = 1/(σ_PL² + σ_m̄,i²); the field's μ is the weighted mean, and
-//!   σ_μ² = σ_PL²/N + σ_zp² + (γ σ[Fe/H])² + σ_phot² (+ the extinction where
-//!   the band is not reddening-free, + the slope at the stars' periods), the
-//!   terms of [`combine`], each an [`ErrorTerm`]; the relation's zero point
-//!   and slope are shared by every distance calibrated on it.
+//!   σ_μ² = σ_PL²/N + σ_zp² + (γ σ[Fe/H])² + σ_phot² + σ_cal² (+ the
+//!   extinction where the band is not reddening-free, + the slope at the
+//!   stars' periods), the terms of [`combine`], each an [`ErrorTerm`]; the
+//!   relation's zero point and slope are shared by every distance calibrated
+//!   on it, and the field's metallicity and its band's photometric
+//!   calibration floor σ_cal by all its stars (shared terms: they do not
+//!   average down with N).
 
 use crate::astro::bary::{Bjd, bjd_tdb_ctx};
 use crate::astro::frames::{CatalogPlace, Context};
@@ -400,6 +403,13 @@ pub struct StarTerms {
     pub feh_err_dex: f64,
     /// Foreground extinction in the star's band, mag (0 for a reddening-free index).
     pub extinction_mag: f64,
+    /// The photometric band of the star's relation ("V", "W_VI"): the stars
+    /// of one band share its calibration.
+    pub calibration_band: String,
+    /// The band's photometric calibration floor, mag (config/pulsator.toml
+    /// `[calibration_floor_mag]`): every point of the band is calibrated the
+    /// same way, so it is common to the field's stars (shared).
+    pub calibration_floor_mag: f64,
 }
 
 /// Field-wide inputs of [`combine`].
@@ -444,10 +454,13 @@ pub struct FieldDistance {
 ///   (log P_i − pivot) σ_a,r;
 /// - relation γ at the stars' [Fe/H] (shared): the same with
 ///   ([Fe/H]_i − reference) σ_γ,r;
-/// - metallicity: |Σ w_i γ_i σ[Fe/H]_i| / W (the field's one metallicity:
-///   its error is common to its stars and does not average down);
+/// - metallicity (shared): |Σ w_i γ_i σ[Fe/H]_i| / W (the field's one
+///   metallicity: its error is common to its stars and does not average down);
 /// - extinction: f Σ w_i A_i / W (one reddening for the field, f its
-///   fractional error; A_i = 0 in a reddening-free index).
+///   fractional error; A_i = 0 in a reddening-free index);
+/// - calibration (shared): √Σ_b (Σ_{i∈b} w_i f_b / W)² over the bands b
+///   used, f_b the band's photometric calibration floor (one calibration
+///   for every star measured in the band; independent between bands).
 ///
 /// `None` without a star. Source: the weighted mean with common errors
 /// (e.g. Taylor, An Introduction to Error Analysis, 2nd ed., ch. 7 and 9;
@@ -487,6 +500,15 @@ pub fn combine(stars: &[StarTerms], wide: &FieldWide) -> Option<FieldDistance> {
     let zero_point = per_relation(&|s| s.zero_point_err_mag);
     let slope = per_relation(&|s| s.log_p_lever * s.slope_err_mag_per_dex);
     let gamma_err = per_relation(&|s| s.feh_lever_dex * s.gamma_err_mag_per_dex);
+    // Shared within a band, independent between bands.
+    let calibration = {
+        let mut by: BTreeMap<&str, f64> = BTreeMap::new();
+        for (s, w) in stars.iter().zip(&w) {
+            *by.entry(s.calibration_band.as_str()).or_default() +=
+                w * s.calibration_floor_mag / sum_w;
+        }
+        by.values().map(|v| v * v).sum::<f64>().sqrt()
+    };
     let metallicity = avg(&|s| s.gamma_mag_per_dex * s.feh_err_dex).abs();
     let extinction = wide.extinction_sigma_frac * avg(&|s| s.extinction_mag);
     let n = stars.len();
@@ -500,8 +522,9 @@ pub fn combine(stars: &[StarTerms], wide: &FieldWide) -> Option<FieldDistance> {
         ErrorTerm::from_mag("relation zero point", zero_point, true),
         ErrorTerm::from_mag("relation slope at the stars' periods", slope, true),
         ErrorTerm::from_mag("relation γ at the stars' [Fe/H]", gamma_err, true),
-        ErrorTerm::from_mag("metallicity", metallicity, false),
+        ErrorTerm::from_mag("metallicity", metallicity, true),
         ErrorTerm::from_mag("extinction", extinction, false),
+        ErrorTerm::from_mag("calibration", calibration, true),
     ];
     let sigma: f64 = terms
         .iter()
@@ -1056,6 +1079,8 @@ impl<'a> FieldPlanner<'a> {
             } else {
                 m.star.extinction_mag
             },
+            calibration_band: r.band.clone(),
+            calibration_floor_mag: self.pulsator.config.calibration_floor(r),
         }
     }
 
@@ -1350,6 +1375,8 @@ impl<'a> FieldPlanner<'a> {
     ) -> Result<FieldReport> {
         let k = self.pulsator.harmonics;
         let stale_at = self.pulsator.config.defaults.stale_phase;
+        // The largest phase uncertainty of a star past `stale_at`, cycles.
+        let mut stale_max: f64 = 0.0;
         let mut stars: Vec<FieldStar> = fs
             .members
             .iter()
@@ -1429,6 +1456,7 @@ impl<'a> FieldPlanner<'a> {
                     let b = bjd_tdb_ctx(fs.site, &ctx, &m.star.place);
                     let sig = m.star.ephemeris.phase_sigma(&b);
                     if sig > stale_at {
+                        stale_max = stale_max.max(sig);
                         notes.push(format!(
                             "STALE EPHEMERIS: {} reaches a phase uncertainty of {sig:.3} cycles by its last visit, past {stale_at}; re-derive its period",
                             st.name
@@ -1523,6 +1551,15 @@ impl<'a> FieldPlanner<'a> {
             Some(g) if floor >= g => Verdict::LimitedByFloor { floor_pct: floor },
             Some(_) => Verdict::NeedsMoreSeasons { seasons: None },
             None => Verdict::Reachable,
+        };
+        // A star whose phases its ephemeris cannot predict: the field's
+        // precision assumed them (the stars' notes say which).
+        let verdict = if verdict == Verdict::Reachable && stale_max > 0.0 {
+            Verdict::StaleEphemeris {
+                phase_sigma: stale_max,
+            }
+        } else {
+            verdict
         };
         let points = plans.iter().map(|p| p.epochs.len()).max().unwrap_or(0);
         Ok(FieldReport {

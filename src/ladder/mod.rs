@@ -248,17 +248,26 @@ pub enum Verdict {
         /// How many seasons would do, if known.
         seasons: Option<u32>,
     },
+    /// The period and epoch are too old for the phases the visits must hit
+    /// (a pulsator's phase uncertainty past `stale_phase`): whatever the
+    /// visits give, the distance waits for a refreshed ephemeris (observed
+    /// maxima refitted, `rung phase --maxima`).
+    StaleEphemeris {
+        /// The phase uncertainty at the visits, cycles.
+        phase_sigma: f64,
+    },
 }
 
 impl Verdict {
     /// The machine label: `reachable`, `floor`, `not_observable`,
-    /// `more_seasons` (the budget's `verdict_label` and CSV `verdict`).
+    /// `more_seasons`, `stale_ephemeris` (the budget's `verdict_label` and CSV `verdict`).
     pub fn label(&self) -> &'static str {
         match self {
             Verdict::Reachable => "reachable",
             Verdict::LimitedByFloor { .. } => "floor",
             Verdict::NotObservable { .. } => "not_observable",
             Verdict::NeedsMoreSeasons { .. } => "more_seasons",
+            Verdict::StaleEphemeris { .. } => "stale_ephemeris",
         }
     }
 
@@ -275,6 +284,10 @@ impl Verdict {
             Verdict::NotObservable { when: None } => "not observable".into(),
             Verdict::NeedsMoreSeasons { seasons: Some(n) } => format!("needs {n} seasons"),
             Verdict::NeedsMoreSeasons { seasons: None } => "needs more seasons".into(),
+            Verdict::StaleEphemeris { phase_sigma } => format!(
+                "needs its ephemeris refreshed (phase ± {} cycle)",
+                crate::output::num(*phase_sigma, 2)
+            ),
         }
     }
 
@@ -288,6 +301,7 @@ impl Verdict {
             Verdict::NotObservable { .. } => "unobs".into(),
             Verdict::NeedsMoreSeasons { seasons: Some(n) } => format!("{n} seas"),
             Verdict::NeedsMoreSeasons { seasons: None } => "seas".into(),
+            Verdict::StaleEphemeris { .. } => "ephem".into(),
         }
     }
 }
@@ -301,6 +315,7 @@ impl Serialize for Verdict {
             Verdict::LimitedByFloor { .. } => "limited_by_floor",
             Verdict::NotObservable { .. } => "not_observable",
             Verdict::NeedsMoreSeasons { .. } => "needs_more_seasons",
+            Verdict::StaleEphemeris { .. } => "stale_ephemeris",
         };
         m.serialize_entry("verdict", variant)?;
         match self {
@@ -308,6 +323,9 @@ impl Serialize for Verdict {
             Verdict::LimitedByFloor { floor_pct } => m.serialize_entry("floor_pct", floor_pct)?,
             Verdict::NotObservable { when } => m.serialize_entry("when", when)?,
             Verdict::NeedsMoreSeasons { seasons } => m.serialize_entry("seasons", seasons)?,
+            Verdict::StaleEphemeris { phase_sigma } => {
+                m.serialize_entry("phase_sigma_cycles", phase_sigma)?
+            }
         }
         m.serialize_entry("label", self.label())?;
         m.serialize_entry("text", &self.text())?;

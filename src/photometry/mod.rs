@@ -248,7 +248,11 @@ impl Photometer {
                 // Say which star: the search knows only its rates.
                 RungError::Invalid { what, why } => RungError::Invalid {
                     what,
-                    why: format!("a {} = {} star at {why}", e.band, crate::bounds::show(mag)),
+                    why: format!(
+                        "a {} = {} star at {why}",
+                        e.band,
+                        crate::bounds::show_mag(mag)
+                    ),
                 },
                 other => other,
             })?;
@@ -337,8 +341,11 @@ impl ExposureModel for Photometer {
             return Err(RungError::invalid(
                 "magnitude",
                 format!(
-                    "{} = {mag} saturates {} even in its shortest exposure ({} s)",
-                    e.band, self.instrument.name, self.instrument.min_exptime_s
+                    "{} = {} saturates {} even in its shortest exposure ({} s)",
+                    e.band,
+                    crate::bounds::show_mag(mag),
+                    self.instrument.name,
+                    self.instrument.min_exptime_s
                 ),
             ));
         }

@@ -109,7 +109,11 @@ impl Spectrograph {
         if !t.is_finite() {
             return Err(RungError::invalid(
                 "magnitude",
-                format!("{mag} gives no spectrum with {}", self.name),
+                format!(
+                    "{} gives no spectrum with {}",
+                    crate::bounds::show_mag(mag),
+                    self.name
+                ),
             ));
         }
         let got =

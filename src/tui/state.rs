@@ -614,6 +614,10 @@ pub fn detail_rows(view: View, area_h: u16) -> usize {
     }
 }
 
+/// Rows a field's Phase view takes from its list of stars: its shared
+/// error terms have a line of their own.
+pub const FIELD_EXTRA_ROWS: usize = 1;
+
 /// Rows the Phase view gives to the refitted ephemeris (one) and the period
 /// search (two), taken from its list of nights.
 pub fn phase_extra_rows(r: &crate::ladder::pulsator::PhaseReport) -> usize {
@@ -639,7 +643,9 @@ impl State {
             MethodBody::Phase(r) if self.view == View::Phase => {
                 Some(r.windows.len() + phase_extra_rows(r))
             }
-            MethodBody::Field(r) if self.view == View::Phase => Some(r.stars.len()),
+            MethodBody::Field(r) if self.view == View::Phase => {
+                Some(r.stars.len() + FIELD_EXTRA_ROWS)
+            }
             MethodBody::Chase(c) if self.view == View::Chase => Some(c.nights.len()),
             _ => None,
         }

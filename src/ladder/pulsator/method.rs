@@ -606,6 +606,19 @@ impl PulsatorMethod {
             Some(_) => Verdict::NeedsMoreSeasons { seasons: None },
             None => Verdict::Reachable,
         };
+        // Phases the ephemeris cannot predict: the precision above assumes
+        // them, so no distance is promised until the ephemeris is refreshed.
+        let stale_at = self.config.defaults.stale_phase;
+        let verdict = if verdict == Verdict::Reachable && phase_sigma_max > stale_at {
+            notes.push(format!(
+                "the ephemeris is stale at the visits (phase ± {phase_sigma_max:.3} cycle, past {stale_at}): refresh it before trusting this precision: time a few maxima and refit (rung phase --maxima BJD[:ERR] ..., or the target's maxima_bjd; the refit is the report's ephemeris_update)"
+            ));
+            Verdict::StaleEphemeris {
+                phase_sigma: phase_sigma_max,
+            }
+        } else {
+            verdict
+        };
         Ok((
             Prediction {
                 kind: Kind::Pulsator,

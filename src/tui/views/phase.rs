@@ -3,7 +3,9 @@
 //! the points buy; a field (or a star of one) as one unit, from
 //! `Settings::field_report` as `rung phase --field`.
 
-use crate::tui::state::{MethodBody, State, View, detail_offset, detail_rows, phase_extra_rows};
+use crate::tui::state::{
+    FIELD_EXTRA_ROWS, MethodBody, State, View, detail_offset, detail_rows, phase_extra_rows,
+};
 use crate::tui::views::fmt::{hm, num, pct, put};
 use crate::tui::views::scroll_mark;
 use ratatui::buffer::Buffer;
@@ -295,6 +297,8 @@ fn term_label(name: &str) -> String {
         "[Fe/H]"
     } else if n.starts_with("extinction") {
         "A"
+    } else if n.starts_with("calibration") {
+        "cal"
     } else {
         return name.split_whitespace().next().unwrap_or(name).to_string();
     };
@@ -369,8 +373,9 @@ fn render_field(
         "star", "P_d", "bd", "mean", "amp", "pts", "bins", "snr", "σm̄", "μ", "w"
     );
     put(buf, area.x, area.y + 2, &head, area.width, th.header());
-    let foot = 3u16;
-    let rows = detail_rows(View::Phase, area.height);
+    // The distance, its own terms, its shared terms and a note.
+    let foot = 3 + FIELD_EXTRA_ROWS as u16;
+    let rows = detail_rows(View::Phase, area.height).saturating_sub(FIELD_EXTRA_ROWS);
     let len = r.stars.len();
     let at = star.and_then(|n| r.stars.iter().position(|x| x.name == n));
     // The selected star in sight unless the list was scrolled on purpose.
@@ -409,7 +414,15 @@ fn render_field(
         };
         put(buf, area.x, y, &line, area.width, st);
     }
-    let (l1, l2) = match &r.distance {
+    let terms = |d: &crate::ladder::field::FieldDistance, shared: bool| {
+        d.error_terms
+            .iter()
+            .filter(|t| t.shared == shared)
+            .map(|t| format!("{} {}", term_label(&t.name), num(Some(t.sigma_mag), 3)))
+            .collect::<Vec<_>>()
+            .join("  ")
+    };
+    let (l1, l2, l3) = match &r.distance {
         Some(d) => (
             format!(
                 "μ {} ± {} mag · {} kpc · σd/d {} (floor {}{})",
@@ -422,22 +435,18 @@ fn render_field(
                     .map(|g| format!(", goal {}", pct(g, 1)))
                     .unwrap_or_default(),
             ),
-            format!(
-                "σμ: {}",
-                d.error_terms
-                    .iter()
-                    .map(|t| format!("{} {}", term_label(&t.name), num(Some(t.sigma_mag), 3)))
-                    .collect::<Vec<_>>()
-                    .join("  ")
-            ),
+            format!("σμ own: {}", terms(d, false)),
+            format!("σμ shared: {}", terms(d, true)),
         ),
         None => (
             "no field distance: no star has a mean magnitude from these visits".to_string(),
+            String::new(),
             String::new(),
         ),
     };
     put(buf, area.x, fy, &l1, area.width, th.text());
     put(buf, area.x, fy + 1, &l2, area.width, th.dim());
+    put(buf, area.x, fy + 2, &l3, area.width, th.dim());
     let note = r
         .cautions
         .first()
@@ -449,11 +458,11 @@ fn render_field(
         put(
             buf,
             area.x,
-            fy + 2,
+            fy + 3,
             &n,
             area.width.saturating_sub(mark_w),
             st,
         );
     }
-    scroll_mark(s, area, fy + 2, off, rows, len, buf);
+    scroll_mark(s, area, fy + 3, off, rows, len, buf);
 }
