@@ -260,12 +260,12 @@ impl Relation {
         ))
     }
 
-    /// The relation in its own form, for text: "M_V = −2.43 (log P − 1) −
-    /// 4.05", a period–luminosity–metallicity relation with its "+ γ ([Fe/H]
-    /// + 1.5)" term, and a luminosity–metallicity relation (no period term,
-    /// as the RR Lyrae stars' optical one) as "M_V = 0.214 ([Fe/H] + 1.5) +
-    /// 0.59 (= 0.214 [Fe/H] + 0.911)": never a zero slope printed as a
-    /// period term. Coefficients as configured (`{}` of f64).
+    /// The relation in its own form, for text: a Leavitt law as
+    /// `M_V = −2.43 (log P − 1) − 4.05` (with its `γ [Fe/H]` term when it
+    /// has one) and a luminosity–metallicity relation, without a period term
+    /// (the RR Lyrae stars' optical one), as
+    /// `M_V = 0.214 ([Fe/H] + 1.5) + 0.59 (= 0.214 [Fe/H] + 0.911)`: never a
+    /// zero slope printed as a period term. Coefficients as configured.
     pub fn equation(&self) -> String {
         let m = format!("M_{}", self.band);
         // " + x" / " − x" after a first term.
