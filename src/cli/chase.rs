@@ -6,6 +6,7 @@ use rung::astro::frames::Context;
 use rung::astro::time::{Instant, parse_instant};
 use rung::io::angles::{parse_dec_deg, parse_ra_deg};
 use rung::io::targets::{Kind, Target};
+use rung::ladder::chain::HostDistance;
 use rung::ladder::transient::{
     Chase, ChaseOptions, Relation, Role, TransientConfig, TransientMethod, check_band, night_of,
 };
@@ -174,6 +175,33 @@ pub fn run(a: Args) -> Result<()> {
     if a.goal.goal_pct.is_some() {
         target.goal_pct = a.goal.goal_pct;
     }
+    // A host named on the row: its planned distance, from the computation
+    // the ladder plans its calibrators with, over the programme's settings
+    // (before --now narrows the range to the chase's). --host-mu overrides
+    // it, as host_mu_mag on the row does.
+    let host = match (&a.aim.target, a.host_mu) {
+        (Some(_), None) if !target.host.is_empty() => {
+            let targets = super::load_targets(&programme)?;
+            let h = rung::ladder::chain::host_distance(&st, &targets, Some(&programme), &target)?;
+            if let Some(h) = &h {
+                target.host_mu_mag = Some(h.modulus_mag);
+                target.host_mu_err_mag = Some(h.sigma_mag);
+            }
+            h
+        }
+        (Some(_), Some(mu)) if !target.host.is_empty() => Some(HostDistance {
+            host: target.host.clone(),
+            node: target.host.clone(),
+            modulus_mag: mu,
+            sigma_mag: a.host_mu_err.unwrap_or(f64::NAN),
+            source: format!(
+                "--host-mu on the command line: an override of {}'s planned distance",
+                target.host
+            ),
+            overridden: true,
+        }),
+        _ => None,
+    };
     let clock = super::now()?;
     let now = match a.now.as_deref().map(str::trim) {
         None | Some("now") => clock,
@@ -274,9 +302,10 @@ pub fn run(a: Args) -> Result<()> {
             now,
             &sky,
             &photometer.instrument.name,
+            host.as_ref(),
         ))?;
     } else {
-        print_table(&chase, &site, &target, &sky);
+        print_table(&chase, &site, &target, &sky, host.as_ref());
     }
     Ok(())
 }
@@ -296,6 +325,7 @@ fn to_json(
     now: Instant,
     sky: &[Option<f64>],
     instrument: &str,
+    host: Option<&HostDistance>,
 ) -> Value {
     let mut o = Map::new();
     o.insert("target".into(), json!(c.target));
@@ -342,6 +372,25 @@ fn to_json(
     {
         o.insert("host_mu_mag".into(), json!(host_mu_mag));
         o.insert("host_mu_err_mag".into(), json!(host_mu_err_mag));
+    }
+    if let Some(cal) = c.calibration() {
+        let mut v = json!(cal);
+        if let Some(m) = v.as_object_mut() {
+            m.insert("host".into(), json!(host.map(|h| h.host.clone())));
+            m.insert("host_node".into(), json!(host.map(|h| h.node.clone())));
+            m.insert(
+                "host_source".into(),
+                json!(
+                    host.map(|h| h.source.clone())
+                        .unwrap_or_else(|| "given as a host distance modulus".into())
+                ),
+            );
+            m.insert(
+                "host_overridden".into(),
+                json!(host.is_none_or(|h| h.overridden)),
+            );
+        }
+        o.insert("calibration".into(), v);
     }
     o.insert("peak_abs_mag".into(), num(c.peak_abs_mag));
     o.insert("t_max".into(), iso(Some(c.t_max)));
@@ -501,7 +550,13 @@ fn to_json(
     Value::Object(o)
 }
 
-fn print_table(c: &Chase, site: &rung::astro::site::Site, t: &Target, sky: &[Option<f64>]) {
+fn print_table(
+    c: &Chase,
+    site: &rung::astro::site::Site,
+    t: &Target,
+    sky: &[Option<f64>],
+    host: Option<&HostDistance>,
+) {
     let o = |v: Option<f64>, dp: usize| super::opt(v, dp);
     super::outln!(
         "Chase of {} in {} from {} at {} (times local {})",
@@ -634,14 +689,29 @@ fn print_table(c: &Chase, site: &rung::astro::site::Site, t: &Target, sky: &[Opt
             Role::Calibrator {
                 host_mu_mag,
                 host_mu_err_mag,
-            } => super::outln!(
-                "  calibrator (host μ {host_mu_mag} ± {host_mu_err_mag}): peak absolute magnitude M_B {:.2} ± {:.3} mag expected; σ as distance {:.1}% (goal {}%, floor {:.1}%)",
-                c.peak_abs_mag,
-                b.sigma_mu_mag,
-                b.distance_precision_pct,
-                c.goal_pct,
-                b.floor_pct
-            ),
+            } => {
+                let who =
+                    host.map_or_else(|| "its host".to_string(), |h| format!("host {}", h.host));
+                super::outln!(
+                    "  calibrator: {who} at μ {host_mu_mag:.3} ± {host_mu_err_mag:.3} mag ({})",
+                    host.map_or("given as a host distance modulus", |h| h.source.as_str())
+                );
+                if let Some(cal) = c.calibration() {
+                    super::outln!(
+                        "  calibrated peak absolute magnitude M_B {:.3} ± {:.3} mag (host distance {:.3}, the supernova's own {:.3})",
+                        cal.peak_abs_mag,
+                        cal.sigma_mag,
+                        cal.sigma_host_mag,
+                        cal.sigma_own_mag
+                    );
+                }
+                super::outln!(
+                    "  σ as distance {:.1}% (goal {}%, floor {:.1}%)",
+                    b.distance_precision_pct,
+                    c.goal_pct,
+                    b.floor_pct
+                );
+            }
             _ => super::outln!(
                 "  σ_d/d {:.1}% (goal {}%, floor {:.1}%)",
                 b.distance_precision_pct,

@@ -130,6 +130,23 @@ fn print_text(r: &LadderReport, st: &rung::programme::Settings, steps: usize) {
     for o in &r.open {
         outln!("  open: {}", o.why);
     }
+    if !r.calibrators.is_empty() {
+        outln!();
+        outln!("Calibrators (host μ ± σ; the peak absolute magnitude each calibrates):");
+        for c in &r.calibrators {
+            outln!(
+                "  {:<12} in {:<10} μ {:.3} ± {:.3}  M_B {:.3} ± {:.3} (host {:.3}, own {:.3})",
+                c.target,
+                c.host,
+                c.host_mu_mag,
+                c.host_mu_err_mag,
+                c.peak_abs_mag,
+                c.sigma_mag,
+                c.sigma_host_mag,
+                c.sigma_own_mag
+            );
+        }
+    }
     outln!();
     let b = &r.end_point;
     outln!(

@@ -157,6 +157,24 @@ pub fn method_report(k: &MethodKey) -> MethodBody {
             t.kind.as_str()
         ));
     }
+    // A transient whose host names a field: its host's planned distance, as
+    // `rung chase` and the ladder take it (`ladder::chain::host_distance`).
+    let resolved;
+    let t = if k.view == View::Chase && !t.host.is_empty() && !k.programme.is_empty() {
+        match crate::ladder::chain::host_distance(&k.settings, &k.programme, k.file.as_deref(), t) {
+            Ok(Some(h)) => {
+                let mut v = t.clone();
+                v.host_mu_mag = Some(h.modulus_mag);
+                v.host_mu_err_mag = Some(h.sigma_mag);
+                resolved = v;
+                &resolved
+            }
+            Ok(None) => t,
+            Err(e) => return MethodBody::Failed(e.to_string()),
+        }
+    } else {
+        t
+    };
     match crate::programme::report(&k.settings, t) {
         Ok(crate::programme::Report::Parallax(p)) => MethodBody::Parallax(p),
         Ok(crate::programme::Report::Phase(p)) => MethodBody::Phase(p),
@@ -171,7 +189,7 @@ pub fn method_report(k: &MethodKey) -> MethodBody {
 /// The programme's distance ladder with the key's settings, as `rung
 /// ladder` gives it (`ladder::chain::report`, the default end point).
 pub fn ladder_for(k: &BudgetKey) -> Result<crate::ladder::chain::LadderReport> {
-    crate::ladder::chain::report(&k.settings, &k.targets, None, None)
+    crate::ladder::chain::report(&k.settings, &k.targets, k.file.as_deref(), None)
 }
 
 /// The programme's budget over its range (`plan::budget` with the key's

@@ -212,6 +212,7 @@ mod tests {
             targets: Vec::new(),
             asked: None,
             curves: false,
+            file: None,
         }))
     }
 

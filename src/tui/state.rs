@@ -312,6 +312,11 @@ pub struct MethodKey {
     /// the field's row and its stars (the field is planned as one unit);
     /// else empty.
     pub field: Vec<crate::io::targets::Target>,
+    /// The programme, when the target's report needs it (a transient whose
+    /// `host` names a field: its host's planned distance); else empty.
+    pub programme: Vec<crate::io::targets::Target>,
+    /// The programme's file, for messages that name it.
+    pub file: Option<std::path::PathBuf>,
 }
 
 impl PartialEq for MethodKey {
@@ -320,6 +325,7 @@ impl PartialEq for MethodKey {
             && self.target == o.target
             && self.field == o.field
             && same_settings(&self.settings, &o.settings)
+            && self.programme == o.programme
     }
 }
 
@@ -363,6 +369,8 @@ pub struct BudgetKey {
     pub asked: Option<crate::plan::budget::Asked>,
     /// Each target's inverse curve.
     pub curves: bool,
+    /// The programme's file, for messages that name it.
+    pub file: Option<std::path::PathBuf>,
 }
 
 impl PartialEq for BudgetKey {
@@ -712,16 +720,24 @@ impl State {
         if !matches!(self.view, View::Parallax | View::Phase | View::Chase) {
             return None;
         }
-        let target = self.selected()?;
+        let target = self.selected()?.clone();
+        let programme = if self.view == View::Chase && !target.host.is_empty() {
+            self.targets.clone()
+        } else {
+            Vec::new()
+        };
+        let field = if self.view == View::Phase {
+            self.field_of(&target)
+        } else {
+            Vec::new()
+        };
         Some(MethodKey {
             view: self.view,
-            target: target.clone(),
+            target,
             settings: self.settings.clone(),
-            field: if self.view == View::Phase {
-                self.field_of(target)
-            } else {
-                Vec::new()
-            },
+            field,
+            programme,
+            file: self.programme_file(),
         })
     }
 
@@ -752,7 +768,17 @@ impl State {
             settings: self.settings.clone(),
             asked: self.budget_ask.asked.clone(),
             curves: self.budget_ask.asked.is_some(),
+            file: self.programme_file(),
         }
+    }
+
+    /// The programme's file as messages name it: the file read at start,
+    /// else where saves go.
+    pub fn programme_file(&self) -> Option<std::path::PathBuf> {
+        self.programme
+            .source
+            .clone()
+            .or_else(|| Some(self.programme.save_path.clone()))
     }
 
     /// Whether a budget computed for `k` is the one the views show now: the

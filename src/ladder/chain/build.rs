@@ -98,6 +98,164 @@ pub struct Ladder {
     pub steps: Vec<Step>,
     /// H0 of the distance scale the supernova values are written on, km/s/Mpc.
     pub h0_ref_km_s_mpc: f64,
+    /// Each host node's planned distance (the moduli the calibrators' plans
+    /// are made with; see [`host_distance`]).
+    pub host_moduli: BTreeMap<String, HostModulus>,
+}
+
+/// A host node's planned distance modulus, as the ladder plans its
+/// calibrators with it.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct HostModulus {
+    /// Distance modulus, mag.
+    pub modulus_mag: f64,
+    /// Its σ, mag.
+    pub sigma_mag: f64,
+    /// Where it comes from, in words.
+    pub source: String,
+}
+
+/// Where a node's planned modulus comes from when the chain fixes it.
+pub const SOURCE_CHAIN: &str = "the ladder: its stars' mean magnitudes (its field's plan) through the relation whose zero point the programme's anchors fix";
+/// Where it comes from when no anchor fixes its relation's zero point.
+pub const SOURCE_FIELD: &str = "its field's plan (rung phase --field) with the relation's published zero point: no anchor of the programme fixes it";
+
+/// A calibrator's host and its planned distance.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct HostDistance {
+    /// The host named on the supernova's row (`host`).
+    pub host: String,
+    /// The ladder's node it is (the field; a pulsator's field, or the pulsator).
+    pub node: String,
+    /// Distance modulus, mag.
+    pub modulus_mag: f64,
+    /// Its σ, mag.
+    pub sigma_mag: f64,
+    /// Where it comes from, in words.
+    pub source: String,
+    /// Whether it is the row's `host_mu_mag` ± `host_mu_err_mag` (an
+    /// override of the host's planned distance).
+    pub overridden: bool,
+}
+
+/// An error about the `host` field of `t`'s row, with the file and line.
+fn host_error(file: Option<&Path>, t: &Target, msg: String) -> RungError {
+    let line = file
+        .and_then(|f| std::fs::read_to_string(f).ok().map(|x| (f, x)))
+        .and_then(|(f, x)| crate::io::links::line_of(&x, f, &t.name));
+    RungError::InFile {
+        loc: Location {
+            file: file.map(Path::to_path_buf),
+            line,
+            field: Some("host".into()),
+        },
+        msg,
+    }
+}
+
+/// The planned distance of the host a transient's `host` column names: the
+/// same moduli the ladder plans its calibrators with ([`build`]'s
+/// `host_moduli`: the chain of the programme's pulsators and anchors, or,
+/// where no anchor fixes the relation, the field's own plan as `rung phase
+/// --field` gives it). The row's `host_mu_mag` ± `host_mu_err_mag`, when
+/// given, override it (said in [`HostDistance::source`]). `None` without a
+/// host link. A host that is not a target of the programme, is not a field
+/// or pulsator, or has no distance is an error with the file, the row's
+/// line and the field `host`.
+pub fn host_distance(
+    settings: &Settings,
+    targets: &[Target],
+    file: Option<&Path>,
+    t: &Target,
+) -> Result<Option<HostDistance>> {
+    if t.host.is_empty() {
+        return Ok(None);
+    }
+    let names: std::collections::HashSet<&str> = targets.iter().map(|x| x.name.as_str()).collect();
+    if let Some((_, msg)) = crate::io::links::dangling(t, &names).into_iter().next() {
+        return Err(host_error(file, t, msg));
+    }
+    let Some(h) = targets.iter().find(|x| x.name == t.host) else {
+        return Err(host_error(
+            file,
+            t,
+            format!("'{}' is not a target of the programme", t.host),
+        ));
+    };
+    let node = match h.kind {
+        Kind::Pulsator => node_of(h),
+        Kind::Field => h.name.clone(),
+        k => {
+            return Err(host_error(
+                file,
+                t,
+                format!(
+                    "'{}' is a {} target: a host is a field of pulsators (or a pulsator standing for one)",
+                    h.name,
+                    k.as_str()
+                ),
+            ));
+        }
+    };
+    if let (Some(mu), Some(err)) = (t.host_mu_mag, t.host_mu_err_mag) {
+        return Ok(Some(HostDistance {
+            host: t.host.clone(),
+            node,
+            modulus_mag: mu,
+            sigma_mag: err,
+            source: format!(
+                "host_mu_mag ± host_mu_err_mag on the row of {}: an override of {}'s planned distance",
+                t.name, t.host
+            ),
+            overridden: true,
+        }));
+    }
+    // The ladder's first rungs (no supernova is planned for them).
+    let below: Vec<Target> = targets
+        .iter()
+        .filter(|x| x.kind != Kind::Transient)
+        .cloned()
+        .collect();
+    let l = build(settings, &below, file)?;
+    match l.host_moduli.get(&node) {
+        Some(m) => Ok(Some(HostDistance {
+            host: t.host.clone(),
+            node,
+            modulus_mag: m.modulus_mag,
+            sigma_mag: m.sigma_mag,
+            source: m.source.clone(),
+            overridden: false,
+        })),
+        None => {
+            let mut why: Vec<String> = l
+                .left_out
+                .iter()
+                .filter(|(n, _)| {
+                    targets
+                        .iter()
+                        .any(|x| &x.name == n && x.kind == Kind::Pulsator && node_of(x) == node)
+                })
+                .take(2)
+                .map(|(n, w)| format!("{n} left out: {w}"))
+                .collect();
+            if why.is_empty() {
+                why.push(if h.kind == Kind::Field {
+                    "no star of the field counts (give its pulsators the field column)".into()
+                } else {
+                    "no anchor fixes its relation's zero point and it is not in a field".into()
+                });
+            }
+            Err(host_error(
+                file,
+                t,
+                format!(
+                    "'{}' has no distance: {} (or give host_mu_mag and host_mu_err_mag on the row)",
+                    t.host,
+                    why.join("; ")
+                ),
+            ))
+        }
+    }
 }
 
 /// A planned observation of one target: its prediction and what one more
@@ -680,16 +838,21 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
         });
     }
     // The hosts' expected moduli, for the supernovae's planned values.
-    let host_mu: BTreeMap<String, (f64, f64)> = match chain.solve() {
+    let mut host_moduli: BTreeMap<String, HostModulus> = match chain.solve() {
         Ok(sol) => sol
             .params
             .iter()
             .zip(&sol.estimate_mag)
             .enumerate()
             .filter_map(|(i, (p, v))| match p {
-                Param::Modulus { node } => {
-                    Some((node.clone(), (*v, sol.covariance[i][i].max(0.0).sqrt())))
-                }
+                Param::Modulus { node } => Some((
+                    node.clone(),
+                    HostModulus {
+                        modulus_mag: *v,
+                        sigma_mag: sol.covariance[i][i].max(0.0).sqrt(),
+                        source: SOURCE_CHAIN.into(),
+                    },
+                )),
                 _ => None,
             })
             .collect(),
@@ -701,6 +864,26 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
         }
         Err(_) => BTreeMap::new(),
     };
+    // A field the chain leaves open (no anchor fixes its relation): its own
+    // plan's distance with the published zero point, as `rung phase --field`.
+    for (name, fr) in &field_reports {
+        if let Ok(fr) = fr
+            && let Some(d) = &fr.distance
+            && d.distance_modulus_mag.is_finite()
+        {
+            host_moduli
+                .entry(name.clone())
+                .or_insert_with(|| HostModulus {
+                    modulus_mag: d.distance_modulus_mag,
+                    sigma_mag: d.sigma_mu_mag,
+                    source: SOURCE_FIELD.into(),
+                });
+        }
+    }
+    let host_mu: BTreeMap<String, (f64, f64)> = host_moduli
+        .iter()
+        .map(|(k, m)| (k.clone(), (m.modulus_mag, m.sigma_mag)))
+        .collect();
 
     // Phase 2: supernovae.
     let transients: Vec<&Target> = targets
@@ -890,6 +1073,7 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
         notes,
         steps,
         h0_ref_km_s_mpc: h0_ref,
+        host_moduli,
     })
 }
 

@@ -14,10 +14,10 @@ pub mod model;
 pub mod next;
 pub mod report;
 
-pub use build::{Ladder, Member, Role, build};
+pub use build::{HostDistance, HostModulus, Ladder, Member, Role, build, host_distance};
 pub use model::{
     Budget, Chain, ChainError, EndPoint, Observation, Param, Rung, Share, Solution, Term,
     h0_from_intercept, parallax_modulus, parallax_modulus_bias_mag,
 };
 pub use next::{Change, Ranked, Step, rank};
-pub use report::{DistanceRow, LadderReport, report, report_of};
+pub use report::{CalibratorRow, DistanceRow, LadderReport, report, report_of};

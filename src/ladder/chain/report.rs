@@ -80,6 +80,71 @@ impl DistanceRow {
     }
 }
 
+/// A calibrator of the ladder: its host's planned distance and the peak
+/// absolute magnitude it calibrates, with the error split into the host's
+/// distance and the supernova's own (the same numbers `rung chase` gives it,
+/// [`crate::ladder::transient::Chase::calibration`]).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CalibratorRow {
+    /// The supernova.
+    pub target: String,
+    /// Its host node.
+    pub host: String,
+    /// The host's planned distance modulus, mag.
+    pub host_mu_mag: f64,
+    /// Its σ, mag.
+    pub host_mu_err_mag: f64,
+    /// Where the host's distance comes from, in words.
+    pub host_source: String,
+    /// The standardized peak absolute magnitude M_B it calibrates, mag.
+    pub peak_abs_mag: f64,
+    /// Its σ, mag.
+    pub sigma_mag: f64,
+    /// The part from the host's distance, mag.
+    pub sigma_host_mag: f64,
+    /// The part from the supernova's own observation, mag.
+    pub sigma_own_mag: f64,
+}
+
+/// The calibrators of a built ladder, in the order of its members.
+fn calibrators_of(l: &Ladder) -> Vec<CalibratorRow> {
+    l.members
+        .iter()
+        .filter(|m| m.role == Role::Calibrator)
+        .filter_map(|m| {
+            let node = m.node.clone()?;
+            let obs = |what: &str| {
+                m.observations
+                    .iter()
+                    .map(|j| &l.chain.observations[*j])
+                    .find(|o| o.what == what)
+            };
+            let peak = obs("standardized peak")?;
+            let (mu, s, source) = match (l.host_moduli.get(&node), obs("host distance (given)")) {
+                (_, Some(g)) => (
+                    g.value_mag,
+                    g.sigma_mag(),
+                    "host_mu_mag ± host_mu_err_mag on its row".to_string(),
+                ),
+                (Some(h), None) => (h.modulus_mag, h.sigma_mag, h.source.clone()),
+                (None, None) => return None,
+            };
+            let own = peak.sigma_mag();
+            Some(CalibratorRow {
+                target: m.target.clone(),
+                host: node,
+                host_mu_mag: mu,
+                host_mu_err_mag: s,
+                host_source: source,
+                peak_abs_mag: peak.value_mag - peak.offset_mag - mu,
+                sigma_mag: s.hypot(own),
+                sigma_host_mag: s,
+                sigma_own_mag: own,
+            })
+        })
+        .collect()
+}
+
 /// Telescope hours planned on one rung.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct RungHours {
@@ -133,6 +198,9 @@ pub struct LadderReport {
     pub nodes: Vec<DistanceRow>,
     /// Every supernova's standardized-candle distance.
     pub supernovae: Vec<DistanceRow>,
+    /// Each calibrator's host distance and the peak absolute magnitude it
+    /// calibrates.
+    pub calibrators: Vec<CalibratorRow>,
     /// The solved parameters.
     pub parameters: Vec<ParamRow>,
     /// Links left open.
@@ -296,6 +364,7 @@ pub fn report_of(l: Ladder, end_point: Option<EndPoint>) -> Result<LadderReport>
             hours_by_rung.push(RungHours { rung: r, hours: h });
         }
     }
+    let calibrators = calibrators_of(&l);
     let ranked = rank(&l.chain, &ep, l.steps.clone())?;
     let marginal = marginal_of(&l.members, &ranked);
     let next: Vec<Ranked> = ranked
@@ -314,6 +383,7 @@ pub fn report_of(l: Ladder, end_point: Option<EndPoint>) -> Result<LadderReport>
         h0_ref_km_s_mpc: l.h0_ref_km_s_mpc,
         nodes,
         supernovae,
+        calibrators,
         parameters,
         open,
         members: l.members,

@@ -204,6 +204,59 @@ pub struct Chase {
     pub notes: Vec<String>,
 }
 
+/// What a calibrator's chase makes of the peak absolute magnitude: the
+/// standardization's zero point as this supernova and its host's distance
+/// give it, with its error split into the host's distance and the
+/// supernova's own (light-curve fit, intrinsic scatter, extinction).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Calibration {
+    /// The host's distance modulus, mag.
+    pub host_mu_mag: f64,
+    /// Its σ, mag.
+    pub host_mu_err_mag: f64,
+    /// The calibrated standardized peak absolute magnitude M_B, mag: the
+    /// configured zero point moved by how far the supernova's standardized
+    /// distance modulus lies from its host's (0 when the peak is placed from
+    /// the host's distance).
+    pub peak_abs_mag: f64,
+    /// Its σ, mag: the two parts in quadrature.
+    pub sigma_mag: f64,
+    /// The part from the host's distance, mag.
+    pub sigma_host_mag: f64,
+    /// The part from the supernova itself (everything else in its budget), mag.
+    pub sigma_own_mag: f64,
+}
+
+impl Chase {
+    /// The calibration a calibrator's chase gives (`None` for another role,
+    /// or when the planned epochs do not fix the light curve).
+    pub fn calibration(&self) -> Option<Calibration> {
+        let Role::Calibrator {
+            host_mu_mag,
+            host_mu_err_mag,
+        } = self.role
+        else {
+            return None;
+        };
+        let b = self.design.budget.as_ref()?;
+        let own = (b.sigma_mu_mag.powi(2) - host_mu_err_mag.powi(2))
+            .max(0.0)
+            .sqrt();
+        let shift = self
+            .placement
+            .hubble_peak_mag
+            .map_or(0.0, |h| self.placement.params.m_max - h);
+        Some(Calibration {
+            host_mu_mag,
+            host_mu_err_mag,
+            peak_abs_mag: self.standardizer.zero_point.abs_mag + shift,
+            sigma_mag: b.sigma_mu_mag,
+            sigma_host_mag: host_mu_err_mag,
+            sigma_own_mag: own,
+        })
+    }
+}
+
 /// The night (local date whose evening starts it) that contains instant `t` at `site`.
 pub fn night_of(site: &crate::astro::site::Site, t: Instant) -> NaiveDate {
     crate::astro::night::night_of(site, t)

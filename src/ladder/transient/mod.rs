@@ -29,8 +29,8 @@ pub mod standardize;
 pub mod template;
 
 pub use chase::{
-    BandPlan, CadenceDesign, CadenceTrial, Chase, ChaseNight, ClassificationPlan, SPECTRUM_BAND,
-    night_of,
+    BandPlan, CadenceDesign, CadenceTrial, Calibration, Chase, ChaseNight, ClassificationPlan,
+    SPECTRUM_BAND, night_of,
 };
 pub use config::{DEFAULT_CONFIG_TOML, Relation, TransientConfig};
 pub use cosmology::{C_KM_S, FlatLcdm, fractional_distance_error};

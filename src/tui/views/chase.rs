@@ -134,14 +134,30 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         ),
     };
     put(buf, area.x, fy, &buy, area.width, th.text());
-    put(
-        buf,
-        area.x,
-        fy + 1,
-        &format!("● obs ◆ +spectrum ○ usable · {cadence}"),
-        area.width,
-        th.dim(),
-    );
+    // A calibrator: its host's distance and the peak absolute magnitude it
+    // calibrates (the numbers of `rung chase` and `rung ladder`), in place
+    // of the legend.
+    let host = s
+        .selected()
+        .map(|t| t.host.clone())
+        .filter(|h| !h.is_empty())
+        .unwrap_or_else(|| "host".into());
+    let (legend, lst) = match c.calibration() {
+        Some(cal) => (
+            format!(
+                "{host} μ {:.3}±{:.3} → M_B {:.3}±{:.3} (host {:.3}, own {:.3})",
+                cal.host_mu_mag,
+                cal.host_mu_err_mag,
+                cal.peak_abs_mag,
+                cal.sigma_mag,
+                cal.sigma_host_mag,
+                cal.sigma_own_mag
+            ),
+            th.text(),
+        ),
+        None => (format!("● obs ◆ +spectrum ○ usable · {cadence}"), th.dim()),
+    };
+    put(buf, area.x, fy + 1, &legend, area.width, lst);
     let cl = &c.classification;
     let provisional = match (cl.night, &cl.spectrum) {
         (Some(n), Some(sp)) => format!(
