@@ -179,6 +179,11 @@ pub fn run(a: Args) -> Result<()> {
     // the ladder plans its calibrators with, over the programme's settings
     // (before --now narrows the range to the chase's). --host-mu overrides
     // it, as host_mu_mag on the row does.
+    // A calibrator already observed (its peak's error given): nothing to
+    // chase; its calibration as the ladder carries it.
+    if a.aim.target.is_some() && !target.host.is_empty() && target.peak_err_mag.is_some() {
+        return observed_calibrator(&a, &st, &programme, &target);
+    }
     let host = match (&a.aim.target, a.host_mu) {
         (Some(_), None) if !target.host.is_empty() => {
             let targets = super::load_targets(&programme)?;
@@ -306,6 +311,76 @@ pub fn run(a: Args) -> Result<()> {
         ))?;
     } else {
         print_table(&chase, &site, &target, &sky, host.as_ref());
+    }
+    Ok(())
+}
+
+/// `rung chase` of a calibrator already observed (`peak_err_mag` given):
+/// its host's planned distance and the peak absolute magnitude it
+/// calibrates, from the ladder of the programme (`rung ladder`'s row).
+fn observed_calibrator(
+    a: &Args,
+    st: &rung::programme::Settings,
+    programme: &std::path::Path,
+    target: &Target,
+) -> Result<()> {
+    let targets = super::load_targets(programme)?;
+    // The host link checked as for a calibrator to chase (file, line, field).
+    let h = rung::ladder::chain::host_distance(st, &targets, Some(programme), target)?;
+    let l = rung::ladder::chain::build(st, &targets, Some(programme))?;
+    let Some(row) = rung::ladder::chain::calibrators_of(&l)
+        .into_iter()
+        .find(|r| r.target == target.name)
+    else {
+        let why = l
+            .left_out
+            .iter()
+            .find(|(n, _)| n == &target.name)
+            .map_or("it is not on the ladder".to_string(), |(_, w)| w.clone());
+        bail!("{}: no calibration: {why}", target.name);
+    };
+    let note = h.as_ref().filter(|h| h.overridden).map(|_| {
+        "host_mu_mag on the row is not used for a supernova already observed: the ladder takes its host's planned distance".to_string()
+    });
+    if a.json {
+        let mut cal = json!(row);
+        if let Some(m) = cal.as_object_mut() {
+            m.insert("host_node".into(), json!(row.host));
+            m.insert("host".into(), json!(target.host));
+            m.insert("host_overridden".into(), json!(false));
+        }
+        super::print_json(&json!({
+            "target": target.name,
+            "role": "calibrator",
+            "observed": true,
+            "peak_err_mag": target.peak_err_mag,
+            "calibration": cal,
+            "notes": note.into_iter().collect::<Vec<_>>(),
+            "settings": st.to_json(),
+        }))?;
+    } else {
+        super::outln!(
+            "{}: a calibrator already observed (its peak's error {} mag given): nothing to chase",
+            target.name,
+            target.peak_err_mag.unwrap_or_default()
+        );
+        super::outln!(
+            "  calibrator: host {} at μ {:.3} ± {:.3} mag ({})",
+            target.host,
+            row.host_mu_mag,
+            row.host_mu_err_mag,
+            row.host_source
+        );
+        super::outln!(
+            "  calibrated peak absolute magnitude M_B {:.3} ± {:.3} mag (host distance {:.3}, the supernova's own {:.3}; planned values, as rung ladder)",
+            row.peak_abs_mag,
+            row.sigma_mag,
+            row.sigma_host_mag,
+            row.sigma_own_mag
+        );
+        if let Some(n) = note {
+            super::outln!("  note: {n}");
+        }
     }
     Ok(())
 }

@@ -157,6 +157,33 @@ pub fn method_report(k: &MethodKey) -> MethodBody {
             t.kind.as_str()
         ));
     }
+    // A calibrator already observed: its calibration from the ladder, as
+    // `rung chase` gives it.
+    if k.view == View::Chase
+        && !t.host.is_empty()
+        && t.peak_err_mag.is_some()
+        && !k.programme.is_empty()
+    {
+        let f = k.file.as_deref();
+        let row = crate::ladder::chain::host_distance(&k.settings, &k.programme, f, t)
+            .and_then(|_| crate::ladder::chain::build(&k.settings, &k.programme, f))
+            .map(|l| {
+                crate::ladder::chain::calibrators_of(&l)
+                    .into_iter()
+                    .find(|r| r.target == t.name)
+                    .ok_or_else(|| {
+                        l.left_out
+                            .iter()
+                            .find(|(n, _)| n == &t.name)
+                            .map_or("it is not on the ladder".to_string(), |(_, w)| w.clone())
+                    })
+            });
+        return match row {
+            Ok(Ok(r)) => MethodBody::Calibrated(Box::new(r)),
+            Ok(Err(why)) => MethodBody::Failed(format!("{}: no calibration: {why}", t.name)),
+            Err(e) => MethodBody::Failed(e.to_string()),
+        };
+    }
     // A transient whose host names a field: its host's planned distance, as
     // `rung chase` and the ladder take it (`ladder::chain::host_distance`).
     let resolved;

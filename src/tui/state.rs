@@ -341,6 +341,9 @@ pub enum MethodBody {
     /// `Settings::field_report`: a field as one unit (the Phase view of a
     /// field or of one of its stars).
     Field(Box<crate::ladder::field::FieldReport>),
+    /// A calibrator already observed (its peak's error given): nothing to
+    /// chase; its calibration as the ladder carries it (`rung chase` says the same).
+    Calibrated(Box<crate::ladder::chain::CalibratorRow>),
     /// The selected target is not of the view's kind.
     NotApplicable(String),
     /// The library refused (the message says why).

@@ -106,8 +106,9 @@ pub struct CalibratorRow {
     pub sigma_own_mag: f64,
 }
 
-/// The calibrators of a built ladder, in the order of its members.
-fn calibrators_of(l: &Ladder) -> Vec<CalibratorRow> {
+/// The calibrators of a built ladder, in the order of its members (what
+/// `rung ladder` and, for a supernova already observed, `rung chase` show).
+pub fn calibrators_of(l: &Ladder) -> Vec<CalibratorRow> {
     l.members
         .iter()
         .filter(|m| m.role == Role::Calibrator)

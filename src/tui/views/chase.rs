@@ -23,6 +23,42 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         return;
     }
     let name = s.selected().map(|t| t.name.clone()).unwrap_or_default();
+    if let Some(MethodBody::Calibrated(r)) = s.method_now() {
+        let host = s.selected().map(|t| t.host.clone()).unwrap_or_default();
+        let lines = [
+            (
+                format!("Chase · ✶ {name} · calibrator already observed"),
+                th.title(),
+            ),
+            (
+                "nothing to chase: its light curve is fitted (peak_err_mag given)".to_string(),
+                th.dim(),
+            ),
+            (
+                format!(
+                    "host {host} μ {:.3} ± {:.3} mag",
+                    r.host_mu_mag, r.host_mu_err_mag
+                ),
+                th.text(),
+            ),
+            (format!("  from {}", r.host_source), th.dim()),
+            (
+                format!(
+                    "calibrated M_B {:.3} ± {:.3} mag (host {:.3}, own {:.3})",
+                    r.peak_abs_mag, r.sigma_mag, r.sigma_host_mag, r.sigma_own_mag
+                ),
+                th.text(),
+            ),
+            (
+                "planned values, as rung ladder and rung chase".to_string(),
+                th.dim(),
+            ),
+        ];
+        for (k, (t, st)) in lines.iter().enumerate() {
+            put(buf, area.x, area.y + k as u16, t, area.width, *st);
+        }
+        return;
+    }
     let Some(MethodBody::Chase(c)) =
         super::method_report(s, area, buf, "Chase", "computing the chase…")
     else {
