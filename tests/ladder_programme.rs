@@ -375,7 +375,17 @@ fn what_one_more_hour_on_each_target_buys() {
     // target measured already (given) or a star of a field says why it has none.
     let (st, targets) = programme();
     let r = report(&st, &targets, Some(&file()), None).unwrap();
-    assert_eq!(r.marginal.len(), r.members.len());
+    // One line per member, then one per field: one more visit of the field
+    // (each pointing once; every star it measures gets one more point).
+    assert_eq!(r.marginal.len(), r.members.len() + 1);
+    let field = r.marginal.last().unwrap();
+    assert_eq!(field.target, "LPO-G1");
+    assert_eq!(
+        field.step.as_deref(),
+        Some("one more visit of field LPO-G1")
+    );
+    assert!(field.gain_pct_per_hour.unwrap() > 0.0, "{field:?}");
+    assert!(field.hours.unwrap() > 0.0);
     for m in &r.marginal {
         match (&m.step, m.gain_pct_per_hour) {
             (Some(label), Some(g)) => {

@@ -324,7 +324,62 @@ enum Phot {
         sigma_mean_mag: f64,
         /// The field's hours over its counted stars.
         hours: f64,
+        /// Its field.
+        field: String,
+        /// The phase points the field's plan gives it.
+        points: usize,
     },
+}
+
+/// A field star's mean-magnitude observation in the chain.
+struct FieldObs {
+    observation: usize,
+    sigma_mean_mag: f64,
+    points: usize,
+    scatter_mag: f64,
+    rung: Rung,
+}
+
+/// One more visit of a field: each of its pointings observed once more
+/// (the hours of one of its planned visits each), so every star they
+/// measure gets one more phase point. A star's mean-magnitude error from N
+/// points of a Fourier fit goes as 1/√N (docs/science.md, Pulsating stars),
+/// so it becomes σ √(N/(N+1)). `None` when the field has no planned visit.
+fn field_visit_step(
+    field: &str,
+    fr: &crate::ladder::field::FieldReport,
+    obs: &[FieldObs],
+) -> Option<Step> {
+    let hours: f64 = fr
+        .pointings
+        .iter()
+        .filter(|p| !p.epochs.is_empty())
+        .map(|p| p.hours / p.epochs.len() as f64)
+        .sum();
+    if hours.is_nan() || hours <= 0.0 || obs.is_empty() {
+        return None;
+    }
+    let observations = obs
+        .iter()
+        .filter(|o| o.points > 0)
+        .map(|o| {
+            let n = o.points as f64;
+            (
+                o.observation,
+                vec![
+                    Term::new("relation scatter", o.scatter_mag),
+                    Term::new("mean magnitude", o.sigma_mean_mag * (n / (n + 1.0)).sqrt()),
+                ],
+            )
+        })
+        .collect();
+    Some(Step {
+        label: format!("one more visit of field {field}"),
+        rung: obs[0].rung,
+        target: field.to_string(),
+        hours,
+        change: Change::SharperMany { observations },
+    })
 }
 
 /// A relation's name on the ladder: its class and band ("cepheid V").
@@ -474,6 +529,8 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
                                 Some(sm) if sm.is_finite() => Ok(Phot::Field {
                                     sigma_mean_mag: sm,
                                     hours: fr.prediction.hours_needed / counted as f64,
+                                    field: name.clone(),
+                                    points: s.points,
                                 }),
                                 _ => Err(RungError::invalid(
                                     format!("star '{}' of field '{name}'", t.name),
@@ -538,6 +595,8 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
     // Each field's fractional extinction error (one reddening for the
     // field: common to its stars, it does not average down either).
     let mut node_ext: BTreeMap<String, (Rung, f64)> = BTreeMap::new();
+    // The mean-magnitude observations of each field's stars.
+    let mut field_obs: BTreeMap<String, Vec<FieldObs>> = BTreeMap::new();
 
     for (t, (phot, plx)) in pulsators.iter().zip(plans1) {
         let Some(pmeth) = pm else { break };
@@ -750,6 +809,21 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
         });
         obs_idx.push(j);
         hours += phot_hours;
+        if let Phot::Field {
+            sigma_mean_mag,
+            field,
+            points,
+            ..
+        } = &phot
+        {
+            field_obs.entry(field.clone()).or_default().push(FieldObs {
+                observation: j,
+                sigma_mean_mag: *sigma_mean_mag,
+                points: *points,
+                scatter_mag: law.scatter_mag,
+                rung,
+            });
+        }
         if let Phot::Own(phot) = &phot
             && let Some(more) = &phot.one_more
         {
@@ -809,6 +883,13 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
                 law.feh_coeff_err_mag_per_dex,
             );
             chain.observations.push(o);
+        }
+    }
+    // One more visit of each field (each of its pointings once): every star
+    // it measures gets one more phase point.
+    for (field, obs) in &field_obs {
+        if let Some(Ok(fr)) = field_reports.get(field) {
+            steps.extend(field_visit_step(field, fr, obs));
         }
     }
     for (node, (rung, frac)) in &node_ext {

@@ -19,6 +19,12 @@ pub enum Change {
         /// Its terms after the step.
         terms: Vec<Term>,
     },
+    /// Several observations get new error terms at once (one more visit of
+    /// a field: every star its pointings measure gets one more point).
+    SharperMany {
+        /// Each observation's index in the chain and its terms after the step.
+        observations: Vec<(usize, Vec<Term>)>,
+    },
     /// Observations more (a new star, calibrator or anchor like those
     /// planned; an anchor brings its parallax and its mean magnitude).
     Added {
@@ -64,6 +70,13 @@ impl Chain {
             Change::Sharper { observation, terms } => {
                 if let Some(o) = c.observations.get_mut(*observation) {
                     o.terms = terms.clone();
+                }
+            }
+            Change::SharperMany { observations } => {
+                for (j, terms) in observations {
+                    if let Some(o) = c.observations.get_mut(*j) {
+                        o.terms = terms.clone();
+                    }
                 }
             }
             Change::Added { observations } => c.observations.extend(observations.iter().cloned()),

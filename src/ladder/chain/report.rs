@@ -215,7 +215,8 @@ pub struct LadderReport {
     /// Steps ranked by the fall of the end point's σ_d/d per hour, best first.
     pub next: Vec<Ranked>,
     /// What one more hour on each target of the ladder buys at the end
-    /// point (its method's one more visit), in the order of `members`.
+    /// point (its method's one more visit), in the order of `members`, then
+    /// one line per field (one more visit of it: every star it measures).
     pub marginal: Vec<Marginal>,
     /// The best step of each rung that helps the end point, in ladder
     /// order: where the next hour on each rung is best spent.
@@ -401,7 +402,25 @@ pub fn report_of(l: Ladder, end_point: Option<EndPoint>) -> Result<LadderReport>
 /// Each member's best one-more-visit step (a step that sharpens one of its
 /// own observations), from the ranked steps.
 fn marginal_of(members: &[Member], ranked: &[Ranked]) -> Vec<Marginal> {
-    members
+    // A field's own line: one more visit of it (every star it measures).
+    let fields = ranked
+        .iter()
+        .filter(|r| matches!(r.step.change, Change::SharperMany { .. }))
+        .map(|r| Marginal {
+            target: r.step.target.clone(),
+            role: if r.step.rung == Rung::Anchor {
+                Role::Anchor
+            } else {
+                Role::HostStar
+            },
+            node: Some(r.step.target.clone()),
+            step: Some(r.step.label.clone()),
+            hours: Some(r.step.hours),
+            gain_pct_per_hour: Some(r.gain_pct_per_hour.max(0.0)),
+            why: None,
+        })
+        .collect::<Vec<_>>();
+    let mut out: Vec<Marginal> = members
         .iter()
         .map(|m| {
             let best = ranked
@@ -414,7 +433,7 @@ fn marginal_of(members: &[Member], ranked: &[Ranked]) -> Vec<Marginal> {
                 if m.hours <= 0.0 {
                     "measured already (given in the targets file): no visit is planned".to_string()
                 } else if m.role == Role::HostStar && m.node.as_deref() != Some(m.target.as_str()) {
-                    "a star of a field: the field's visits serve all its stars (see a new star in its field)".to_string()
+                    "a star of a field: the field's visits serve all its stars (see one more visit of its field, and a new star in it)".to_string()
                 } else {
                     "its method offers no further visit that sharpens it".to_string()
                 }
@@ -429,7 +448,9 @@ fn marginal_of(members: &[Member], ranked: &[Ranked]) -> Vec<Marginal> {
                 why,
             }
         })
-        .collect()
+        .collect();
+    out.extend(fields);
+    out
 }
 
 impl LadderReport {
