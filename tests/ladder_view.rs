@@ -203,3 +203,84 @@ fn an_open_ladder_says_which_link_is_missing() {
         rows.join("\n")
     );
 }
+
+#[test]
+fn the_uis_ladder_error_names_the_file_line_and_field() {
+    // A broken host link: the Ladder view's message is the command's, with
+    // the programme's file, the row's line and the field.
+    let dir = tempfile::tempdir().unwrap();
+    let text = std::fs::read_to_string(programme_file())
+        .unwrap()
+        .replace(",LPO-G1,0.05", ",LPO-G1-C9,0.05");
+    let f = dir.path().join("programme.csv");
+    std::fs::write(&f, &text).unwrap();
+    let line = 1 + text
+        .lines()
+        .position(|l| l.starts_with("LPO-S2019a"))
+        .unwrap();
+    let targets = rung::io::targets::load(&f).unwrap().targets;
+    let mut s = state_with(targets, Some(f.clone()), f.clone(), false, (80, 24), false);
+    ch(&mut s, '9');
+    let want = format!(
+        "{}, line {line}, field 'host': 'LPO-G1-C9' is not a target in this file: a host names a field of the programme",
+        f.display()
+    );
+    match s.ladder_now() {
+        Some(Err(e)) => assert_eq!(e, &want),
+        other => panic!("{other:?}"),
+    }
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(has(&rows, "programme.csv, line"), "{}", rows.join("\n"));
+}
+
+#[test]
+fn the_chase_view_shows_a_calibrators_calibration_as_rung_ladder() {
+    // A calibrator already observed: the Chase view gives its host's
+    // planned distance and the M_B it calibrates, the numbers of the
+    // ladder's calibrator row (tests/ladder_calibrator.rs compares rung
+    // chase --json with rung ladder --json).
+    let f = programme_file();
+    let targets = rung::io::targets::load(&f).unwrap().targets;
+    let mut s = state_with(
+        targets.clone(),
+        Some(f.clone()),
+        f.clone(),
+        false,
+        (80, 24),
+        false,
+    );
+    let i = s
+        .order
+        .iter()
+        .position(|k| s.targets[*k].name == "LPO-S2019a")
+        .unwrap();
+    s.sel = i;
+    ch(&mut s, '6');
+    let l = rung::ladder::chain::build(&s.settings, &targets, Some(&f)).unwrap();
+    let r = rung::ladder::chain::calibrators_of(&l)
+        .into_iter()
+        .find(|r| r.target == "LPO-S2019a")
+        .unwrap();
+    let (rows, _) = screen(&s, 80, 24);
+    let all = rows.join("\n");
+    assert!(
+        has(
+            &rows,
+            &format!(
+                "host LPO-G1 μ {:.3} ± {:.3} mag",
+                r.host_mu_mag, r.host_mu_err_mag
+            )
+        ),
+        "{all}"
+    );
+    assert!(
+        has(
+            &rows,
+            &format!(
+                "calibrated M_B {:.3} ± {:.3} mag (host {:.3}, own {:.3})",
+                r.peak_abs_mag, r.sigma_mag, r.sigma_host_mag, r.sigma_own_mag
+            )
+        ),
+        "{all}"
+    );
+}
