@@ -265,7 +265,7 @@ fn every_demo_target_agrees_on_every_surface() {
     )
     .unwrap();
     let all = demo_targets();
-    assert_eq!(all.len(), 70, "the demo programme");
+    assert_eq!(all.len(), 71, "the demo programme");
     // The targets planned on their own: a field and its stars are one unit,
     // whose surfaces (rung phase --field, rung budget, the Phase view) are
     // compared in tests/field_plan.rs and tests/tui_views.rs.
@@ -273,7 +273,7 @@ fn every_demo_target_agrees_on_every_surface() {
         .into_iter()
         .filter(|t| t.kind.as_str() != "field" && t.field.trim().is_empty())
         .collect();
-    assert_eq!(targets.len(), 26, "the demo's targets outside its fields");
+    assert_eq!(targets.len(), 27, "the demo's targets outside its fields");
     // Every target's method command, two at a time (the machine's cores).
     let methods: BTreeMap<String, Result<Value, String>> = std::thread::scope(|sc| {
         let chunks: Vec<_> = targets
@@ -336,7 +336,7 @@ fn every_demo_target_agrees_on_every_surface() {
         .collect();
 
     // ---- The terminal UI on the same programme, night and clock.
-    // Tall enough for the demo's 70 targets in the Roster.
+    // Tall enough for the demo's 71 targets in the Roster.
     let (w, h) = (160u16, 80u16);
     let mut s = demo_state((w, h));
     assert_eq!(

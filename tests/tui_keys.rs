@@ -93,7 +93,7 @@ fn filter_and_sort() {
     assert!(names(&s).iter().all(|n| n.starts_with("LPO-C0")));
     ch(&mut s, '/');
     key(&mut s, KeyCode::Esc);
-    assert_eq!(names(&s).len(), 70);
+    assert_eq!(names(&s).len(), 71);
     // "transient" matches the kind.
     ch(&mut s, '/');
     typed(&mut s, "transient");
@@ -211,16 +211,16 @@ fn edit_validate_undo_redo_and_save() {
         o => panic!("{o:?}"),
     }
     key(&mut s, KeyCode::Esc);
-    assert_eq!(s.targets.len(), 71);
+    assert_eq!(s.targets.len(), 72);
     // Remove (with the question), undo, redo.
     ch(&mut s, 'd');
     ch(&mut s, 'y');
-    assert_eq!(s.targets.len(), 70);
+    assert_eq!(s.targets.len(), 71);
     assert!(!s.targets.iter().any(|t| t.name == "NEW-1"));
     ch(&mut s, 'u');
-    assert_eq!(s.targets.len(), 71);
+    assert_eq!(s.targets.len(), 72);
     ch(&mut s, 'U');
-    assert_eq!(s.targets.len(), 70);
+    assert_eq!(s.targets.len(), 71);
     ch(&mut s, 'u');
     ch(&mut s, 'u');
     ch(&mut s, 'u');
@@ -287,7 +287,7 @@ fn demo_edits_go_to_the_users_file_and_quit_asks_first() {
         "demo untouched"
     );
     let saved = parse_csv(&std::fs::read_to_string(&user).unwrap(), &user);
-    assert_eq!(saved.targets.len(), 69);
+    assert_eq!(saved.targets.len(), 70);
     assert!(!s.programme.is_demo);
     assert!(!user.with_extension("csv.bak").exists());
     // Nothing unsaved: quit at once.
@@ -429,7 +429,7 @@ fn unsaved_edits_are_kept_beside_the_file_until_saved() {
     let kept = parse_csv(&std::fs::read_to_string(&recovery).unwrap(), &recovery);
     assert!(kept.problems.is_empty());
     assert_eq!(kept.targets, s.targets);
-    assert_eq!(kept.targets.len(), 69);
+    assert_eq!(kept.targets.len(), 70);
     ch(&mut s, 'd');
     ch(&mut s, 'y');
     let kept = parse_csv(&std::fs::read_to_string(&recovery).unwrap(), &recovery);
@@ -445,7 +445,7 @@ fn unsaved_edits_are_kept_beside_the_file_until_saved() {
     ch(&mut s, 'w');
     assert!(!recovery.exists());
     let saved = parse_csv(&std::fs::read_to_string(&file).unwrap(), &file);
-    assert_eq!(saved.targets.len(), 69);
+    assert_eq!(saved.targets.len(), 70);
     // Quitting and dropping the edits (q, y) removes it as well.
     ch(&mut s, 'd');
     ch(&mut s, 'y');
@@ -508,14 +508,14 @@ fn unsaved_edits_left_by_a_session_are_offered_back() {
     );
     // Undo takes the restore back like any change.
     ch(&mut s, 'u');
-    assert_eq!(s.targets.len(), 70);
+    assert_eq!(s.targets.len(), 71);
     assert!(!recovery.exists());
     // No: the file is set aside, not deleted, and the programme is as loaded.
     std::fs::write(&recovery, rung::io::write_targets::to_csv(&edited)).unwrap();
     let mut s = open_with(Some(offer()));
     ch(&mut s, 'n');
     assert!(s.overlay.is_none());
-    assert_eq!(s.targets.len(), 70);
+    assert_eq!(s.targets.len(), 71);
     assert!(!recovery.exists());
     let old = dir.path().join("mine.csv.unsaved.old");
     assert_eq!(

@@ -24,7 +24,7 @@ fn command(cfg: &Path, extra_env: &str) -> String {
 /// wait for the Roster; `None` (test skipped) without tmux.
 fn open_demo(cfg: &Path) -> Option<Tmux> {
     let t = Tmux::start(&command(cfg, ""))?;
-    t.wait_for("Roster · 70 of 70 targets");
+    t.wait_for("Roster · 71 of 71 targets");
     Some(t)
 }
 
@@ -114,7 +114,7 @@ fn every_view_then_quit_restores_the_terminal() {
     t.wait_for("Ladder · 2026-12-01 to 2029-05-31");
     t.wait_for("End point");
     t.send("Tab");
-    t.wait_for("Roster · 70 of 70");
+    t.wait_for("Roster · 71 of 71");
     t.send("BTab");
     t.wait_for("Ladder · 2026-12-01 to");
     t.send("BTab");
@@ -124,7 +124,7 @@ fn every_view_then_quit_restores_the_terminal() {
     t.send("BTab");
     t.wait_for("Chase · ✶ LPO-T2026a");
     t.send("1");
-    t.wait_for("Roster · 70 of 70");
+    t.wait_for("Roster · 71 of 71");
     t.send("?");
     t.wait_for("Keys (Esc closes");
     t.send("Escape");
@@ -307,11 +307,11 @@ fn two_sessions_on_one_programme() {
     let Some(a) = Tmux::start(&command(cfg.path(), "")) else {
         return;
     };
-    a.wait_for("Roster · 70 of 70 targets");
+    a.wait_for("Roster · 71 of 71 targets");
     let b = Tmux::start(&command(cfg.path(), "")).unwrap();
     // The second session knows of the first.
     b.wait_for("another rung (process");
-    b.wait_for("Roster · 70 of 70 targets");
+    b.wait_for("Roster · 71 of 71 targets");
     remove_first_target(&a);
     b.send("End");
     b.send("d");

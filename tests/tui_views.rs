@@ -48,7 +48,7 @@ fn roster_80x24_shows_library_windows() {
         rows[1]
     );
     assert!(rows[1].trim_end().ends_with("demo"), "{}", rows[1]);
-    assert!(rows[2].starts_with("Roster · 70 of 70 targets · by file order"));
+    assert!(rows[2].starts_with("Roster · 71 of 71 targets · by file order"));
     assert!(rows[3].contains("name") && rows[3].contains("window") && rows[3].contains("airm"));
     // File order, with 24 − 5 = 19 rows visible (status, tabs, title, header, message).
     let night = demo_night();
@@ -80,7 +80,7 @@ fn roster_80x24_shows_library_windows() {
 
 #[test]
 fn roster_160x80_has_wide_columns_and_every_target() {
-    // 80 rows: the demo's 70 targets and the chrome.
+    // 80 rows: the demo's 71 targets and the chrome.
     let s = demo_state((160, 80));
     let (rows, _) = screen(&s, 160, 80);
     assert!(rows[0].contains("Moon ") && rows[0].contains("waning") || rows[0].contains("waxing"));

@@ -206,7 +206,31 @@ fn print_text(r: &LadderReport, st: &rung::programme::Settings, steps: usize) {
     }
     outln!();
     outln!("One more visit of each target (its method's; fall of the end point's σd/d per hour):");
+    // The stars of a field, one line per field: its visits serve them all.
+    let field_star = |m: &rung::ladder::chain::report::Marginal| {
+        m.why
+            .as_deref()
+            .is_some_and(|w| w.starts_with("a star of a field"))
+    };
+    let mut said: Vec<&str> = Vec::new();
     for m in &r.marginal {
+        if field_star(m) {
+            let node = m.node.as_deref().unwrap_or("");
+            if !said.contains(&node) {
+                said.push(node);
+                let n = r
+                    .marginal
+                    .iter()
+                    .filter(|x| field_star(x) && x.node.as_deref() == Some(node))
+                    .count();
+                outln!(
+                    "  {:>8}      {:<16} {n} stars of field {node}: the field's visits serve them all (see one more visit of field {node})",
+                    "–",
+                    m.role.text(),
+                );
+            }
+            continue;
+        }
         match (&m.step, m.hours, m.gain_pct_per_hour) {
             (Some(step), Some(h), Some(g)) => outln!(
                 "  {:>8.3} %/h  {:<16} {} ({} h)",
