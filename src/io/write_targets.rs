@@ -255,7 +255,7 @@ mod tests {
         let text = std::fs::read_to_string(&p).unwrap();
         let first = parse_csv(&text, &p);
         assert!(first.problems.is_empty());
-        assert_eq!(first.targets.len(), 70);
+        assert_eq!(first.targets.len(), 71);
         let again = parse_csv(&to_csv(&first.targets), Path::new("x.csv"));
         assert!(again.problems.is_empty(), "{:?}", again.problems);
         assert_eq!(again.targets.len(), first.targets.len());
