@@ -162,7 +162,8 @@ pub struct Share {
     /// semester's hours asked), `error_term` (a term of the method's error
     /// budget sets a floor above the goal), `floor` (a floor without a named
     /// term), `range` (the range has too few seasons or nights),
-    /// `visibility` (the target is not observable enough), `priority` (a
+    /// `visibility` (the target is not observable enough), `ephemeris` (a
+    /// pulsator's ephemeris too stale to predict its phases), `priority` (a
     /// priority of 0 weighs nothing); empty when the goal is met.
     pub limited_by: String,
     /// The same in words, with its numbers (empty when the goal is met).
@@ -721,6 +722,11 @@ pub fn range_limit(r: &BudgetRow, settings: &Settings) -> (String, String) {
                 settings.to,
                 r.verdict.text()
             ),
+        ),
+        // The phases cannot be predicted until the ephemeris is refreshed.
+        Verdict::StaleEphemeris { .. } => (
+            "ephemeris".to_string(),
+            format!("the ephemeris: {}", r.verdict.text()),
         ),
         // Reachable in words but without a plan (no epochs or hours).
         Verdict::Reachable => (

@@ -88,7 +88,7 @@ pub struct BudgetRow {
     /// src/ladder/field.rs); empty for any other target.
     pub members: Vec<String>,
     /// What keeps the goal out of reach in the range, when it is: `error_term`,
-    /// `floor`, `range` or `visibility` (as the allocation's shares say it);
+    /// `floor`, `range`, `visibility` or `ephemeris` (as the allocation's shares say it);
     /// empty when the goal is reachable.
     pub limited_by: String,
     /// The same in words, with its numbers.
