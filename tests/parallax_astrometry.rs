@@ -222,3 +222,242 @@ fn bad_reference_frames_are_refused_with_their_reason() {
     );
     assert_eq!(g.prediction.notes[0], e);
 }
+
+/// A linear plate solution x = a + b ξ + c η fitted to N reference stars,
+/// each measured with error σ, predicts the position at the centroid of its
+/// stars with variance σ²/N: the variance of a least-squares prediction at
+/// the design's mean, [1 ξ̄ η̄] (AᵀA)⁻¹ [1 ξ̄ η̄]ᵀ σ² (a fact of least
+/// squares). Worked here on a small invented field, independently of the
+/// model, so that the model's σ_ref/√N rests on a computation of its own.
+#[test]
+fn reference_frame_term_is_the_plate_solution_error_at_the_centroid() {
+    use rung::ladder::parallax::astrometry::reference_frame_mas;
+    // Seven stars in a 10′ field (arcmin offsets, invented).
+    let xy = [
+        (-3.1, 1.2),
+        (2.4, 3.3),
+        (0.7, -2.8),
+        (-1.9, -0.6),
+        (3.6, -1.4),
+        (-0.4, 4.1),
+        (1.5, 0.2),
+    ];
+    let n = xy.len() as f64;
+    // Normal matrix of (1, ξ, η).
+    let mut m = [[0.0f64; 3]; 3];
+    for (x, y) in xy {
+        let r = [1.0, x, y];
+        for i in 0..3 {
+            for j in 0..3 {
+                m[i][j] += r[i] * r[j];
+            }
+        }
+    }
+    // Its inverse by cofactors.
+    let det = m[0][0] * (m[1][1] * m[2][2] - m[1][2] * m[2][1])
+        - m[0][1] * (m[1][0] * m[2][2] - m[1][2] * m[2][0])
+        + m[0][2] * (m[1][0] * m[2][1] - m[1][1] * m[2][0]);
+    let mut inv = [[0.0f64; 3]; 3];
+    for i in 0..3 {
+        for j in 0..3 {
+            let (a, b) = ((j + 1) % 3, (j + 2) % 3);
+            let (c, d) = ((i + 1) % 3, (i + 2) % 3);
+            inv[i][j] = (m[a][c] * m[b][d] - m[a][d] * m[b][c]) / det;
+        }
+    }
+    let (mx, my) = (
+        xy.iter().map(|p| p.0).sum::<f64>() / n,
+        xy.iter().map(|p| p.1).sum::<f64>() / n,
+    );
+    let v = [1.0, mx, my];
+    let mut var = 0.0;
+    for i in 0..3 {
+        for j in 0..3 {
+            var += v[i] * inv[i][j] * v[j];
+        }
+    }
+    let sigma_star = 6.0; // mas, one reference star's centroid
+    assert!(
+        (var.sqrt() * sigma_star - reference_frame_mas(sigma_star, n)).abs() < 1e-9,
+        "{} vs {}",
+        var.sqrt() * sigma_star,
+        reference_frame_mas(sigma_star, n)
+    );
+    // Away from the centroid the prediction is worse: the model's term is
+    // the best case (a target near the middle of its frame).
+    let off = [1.0, mx + 4.0, my];
+    let mut var_off = 0.0;
+    for i in 0..3 {
+        for j in 0..3 {
+            var_off += off[i] * inv[i][j] * off[j];
+        }
+    }
+    assert!(var_off > var);
+}
+
+/// The reference-frame term of a planned epoch follows the reference stars
+/// given with the target (`ref_star_count`, `ref_mag`): each star's centroid
+/// error FWHM / (2.35 SNR) (the photon-limited centroid of a Gaussian image,
+/// common practice; docs/science.md, Parallax) at its own SNR in the epoch's
+/// exposure, over √N for N stars (the plate solution at the centroid of its
+/// stars, checked above). So: the term grows monotonically with the stars'
+/// magnitude, by between √10 (photon-limited) and 10 (sky-limited) for 2.5
+/// mag, and falls as 1/√N with their count; with reference stars as bright
+/// as the target it is the target's own centroid term over √N; and one
+/// worked value: lucero-1m's seeing of 1.3″ (config/instruments.toml) at a
+/// reference SNR of 100 gives 1300 / (2.35 × 100) = 5.532 mas a star, and
+/// nine stars 5.532 / 3 = 1.844 mas (computed by hand).
+#[test]
+fn reference_frame_term_follows_the_reference_stars_magnitude_and_count() {
+    use rung::ladder::parallax::astrometry::reference_frame_mas;
+    let site = rung::io::sites::resolve("pampa-lucero").unwrap();
+    let em = rung::photometry::Photometer::from_name("lucero-1m", &site).unwrap();
+    assert_eq!(rung::ladder::ExposureModel::seeing_fwhm_arcsec(&em), 1.3);
+    assert!((reference_frame_mas(centroid_mas(1.3, 100.0).unwrap(), 9.0) - 1.8440).abs() < 1e-4);
+    let m = rung::ladder::parallax::ParallaxMethod::builtin().unwrap();
+    let target = |count: f64, ref_mag: f64| {
+        let mut t = rung::io::targets::Target::plain("A", 61.3, -18.4);
+        t.kind = rung::io::targets::Kind::Parallax;
+        t.parallax_mas = Some(40.0);
+        t.mag = Some(16.0);
+        t.band = "I".into();
+        t.ref_star_count = Some(count);
+        t.ref_mag = Some(ref_mag);
+        t
+    };
+    fn setting<'a>(
+        site: &'a rung::astro::site::Site,
+        t: &'a rung::io::targets::Target,
+    ) -> rung::ladder::Setting<'a> {
+        rung::ladder::Setting {
+            site,
+            target: t,
+            from: "2026-12-01".parse().unwrap(),
+            to: "2027-01-15".parse().unwrap(),
+            limits: rung::astro::night::Limits::new(30.0, -12.0).unwrap(),
+        }
+    }
+    // One epoch (its exposure and the target's SNR held fixed), evaluated
+    // against each frame.
+    let when = rung::astro::time::parse_instant("2026-12-05T03:30:00Z").unwrap();
+    let t0 = target(9.0, 16.0);
+    let fixed = m
+        .epochs_at(&setting(&site, &t0), &em, &[when])
+        .unwrap()
+        .remove(0)
+        .epoch;
+    let at = |count: f64, ref_mag: f64| {
+        let t = target(count, ref_mag);
+        m.planned_from(&setting(&site, &t), &em, std::slice::from_ref(&fixed))
+            .unwrap()
+            .remove(0)
+    };
+    // Monotonic in the stars' magnitude, bounded by the two noise regimes.
+    let mags = [13.0, 14.5, 16.0, 17.5, 19.0, 20.5];
+    let terms: Vec<f64> = mags
+        .iter()
+        .map(|m| at(9.0, *m).terms.reference_mas)
+        .collect();
+    for w in terms.windows(2) {
+        assert!(w[1] > w[0], "{terms:?}");
+    }
+    for (a, b) in [(14.5, 17.0), (16.0, 18.5), (17.5, 20.0)] {
+        let r = at(9.0, b).terms.reference_mas / at(9.0, a).terms.reference_mas;
+        assert!(r > 10f64.sqrt() * 0.999 && r < 10.0 * 1.001, "{a}→{b}: {r}");
+    }
+    // 1/√N in the count, the star's SNR unchanged.
+    let e4 = at(4.0, 17.0);
+    for n in [9.0, 16.0, 36.0] {
+        let e = at(n, 17.0);
+        assert!((e.reference_snr - e4.reference_snr).abs() < 1e-9);
+        assert!(
+            (e.terms.reference_mas * n.sqrt() - e4.terms.reference_mas * 2.0).abs() < 1e-9,
+            "{n}"
+        );
+    }
+    // Stars as bright as the target: its own centroid over √N; and the term
+    // is FWHM / (2.35 SNR_ref) / √N at the SNR the epoch reports.
+    let e = at(9.0, 16.0);
+    assert!((e.reference_snr - e.epoch.snr).abs() < 1e-6 * e.epoch.snr);
+    assert!((e.terms.reference_mas - e.terms.centroid_mas / 3.0).abs() < 1e-9);
+    assert!((e.terms.reference_mas - 1300.0 / (2.35 * e.reference_snr) / 3.0).abs() < 1e-9);
+}
+
+/// A bright star (V = 8.9, a Cepheid anchor's brightness) planned for a
+/// parallax on a 1 m telescope: at the exposure the image motion needs its
+/// SNR would pass the 10,000 bound (flat fields and scintillation, not
+/// photons, set the error there). It is attenuated to at most
+/// `max_target_brighter_mag` (3 mag) above its reference stars (a
+/// neutral-density spot; config/parallax.toml, common practice), the plan
+/// succeeds with a finite exposure split to stay below saturation, every SNR
+/// within the bound, and the attenuation is named.
+#[test]
+fn a_bright_star_is_attenuated_and_its_plan_succeeds() {
+    let site = rung::io::sites::resolve("pampa-lucero").unwrap();
+    let em = rung::photometry::Photometer::from_name("lucero-1m", &site).unwrap();
+    let m = rung::ladder::parallax::ParallaxMethod::builtin().unwrap();
+    let mut t = rung::io::targets::Target::plain("B", 99.5, -22.8);
+    t.kind = rung::io::targets::Kind::Parallax;
+    t.parallax_mas = Some(2.7);
+    t.mag = Some(8.9);
+    t.band = "V".into();
+    let s = rung::ladder::Setting {
+        site: &site,
+        target: &t,
+        from: "2026-12-01".parse().unwrap(),
+        to: "2029-05-31".parse().unwrap(),
+        limits: rung::astro::night::Limits::new(30.0, -12.0).unwrap(),
+    };
+    let p = m.plan(&s, &em).unwrap();
+    let att = p.exposure_rule.target_attenuation_mag;
+    // Estimated reference stars of the field (fainter than 16 mag at this
+    // latitude): the target is dimmed by several magnitudes, to 3 mag above them.
+    assert!(att > 3.0, "{att}");
+    assert!((8.9 + att - (p.reference.mag - 3.0)).abs() < 1e-9);
+    assert!(
+        p.prediction
+            .notes
+            .iter()
+            .any(|n| n.contains("neutral-density spot"))
+    );
+    assert!(!p.epochs.is_empty());
+    for e in &p.epochs {
+        assert!(
+            e.epoch.snr > 30.0 && e.epoch.snr <= 10_000.0,
+            "{}",
+            e.epoch.snr
+        );
+        assert!(e.epoch.exptime_s.is_finite() && e.epoch.exptime_s <= 3600.0);
+        assert!(e.epoch.n_exposures >= 1);
+    }
+    assert!(p.prediction.distance_precision_pct.is_finite());
+    // A faint target is not attenuated.
+    let mut f = t.clone();
+    f.mag = Some(16.0);
+    f.band = "I".into();
+    let s = rung::ladder::Setting { target: &f, ..s };
+    assert_eq!(
+        m.plan(&s, &em)
+            .unwrap()
+            .exposure_rule
+            .target_attenuation_mag,
+        0.0
+    );
+    // PX5 (docs/bad-input.md): a negative limit is refused with its key.
+    let text = std::fs::read_to_string(
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("config/parallax.toml"),
+    )
+    .unwrap()
+    .replace(
+        "max_target_brighter_mag = 3.0",
+        "max_target_brighter_mag = -1.0",
+    );
+    let e =
+        rung::ladder::parallax::ParallaxConfig::from_toml(&text, std::path::Path::new("p.toml"))
+            .unwrap_err()
+            .to_string();
+    assert!(
+        e.contains("'max_target_brighter_mag': -1 is not within 0..15 mag"),
+        "{e}"
+    );
+}

@@ -190,6 +190,17 @@ pub struct ParallaxConfig {
     pub exposure_steps: Vec<f64>,
     /// Longest total exposure of one epoch, seconds.
     pub max_epoch_exptime_s: f64,
+    /// A target brighter than its reference stars' typical magnitude by more
+    /// than this is attenuated (a neutral-density spot over it) to this
+    /// difference, mag.
+    #[serde(default = "default_max_target_brighter_mag")]
+    pub max_target_brighter_mag: f64,
+}
+
+/// `max_target_brighter_mag` when a configuration file gives none (the
+/// value of `config/parallax.toml`).
+fn default_max_target_brighter_mag() -> f64 {
+    3.0
 }
 
 impl ParallaxConfig {
@@ -294,6 +305,17 @@ impl ParallaxConfig {
             return Err(RungError::invalid("exposure_steps", "levels must ascend"));
         }
         crate::bounds::EXPTIME_S.check_as("max_epoch_exptime_s", self.max_epoch_exptime_s)?;
+        if !(self.max_target_brighter_mag.is_finite()
+            && (0.0..=15.0).contains(&self.max_target_brighter_mag))
+        {
+            return Err(RungError::invalid(
+                "max_target_brighter_mag",
+                format!(
+                    "{} is not within 0..15 mag (how much brighter than its reference stars a target is observed)",
+                    self.max_target_brighter_mag
+                ),
+            ));
+        }
         let non_neg = |what: &str, v: f64, unit: &str| -> Result<()> {
             if v.is_finite() && v >= 0.0 {
                 Ok(())

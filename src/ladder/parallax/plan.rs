@@ -44,6 +44,11 @@ pub struct ExposureRule {
     /// The instant the rule was worked out at (a candidate near the middle
     /// of the range, nearest the meridian); none when no rule was needed.
     pub reference_time: Option<Instant>,
+    /// Attenuation of the target (a neutral-density spot over it), mag: a
+    /// target more than `max_target_brighter_mag` brighter than its
+    /// reference stars is dimmed to that difference; 0 for the rest. Every
+    /// SNR of the plan is the attenuated target's.
+    pub target_attenuation_mag: f64,
 }
 
 /// The exposure levels are one unit of the rule; the minimum exposure per
@@ -73,6 +78,8 @@ struct Model<'a> {
     em: &'a dyn ExposureModel,
     place: CatalogPlace,
     mag: f64,
+    /// Attenuation of the target (`max_target_brighter_mag`), mag.
+    attenuation_mag: f64,
     fwhm: f64,
     aperture_m: f64,
     frame: ReferenceFrame,
@@ -147,6 +154,18 @@ impl<'a> Model<'a> {
                 cfg.reference_field_radius_arcmin
             ));
         }
+        // A bright target is dimmed to at most max_target_brighter_mag above
+        // its frame (config/parallax.toml: a neutral-density spot; common
+        // practice), so its core stays below saturation while the exposure
+        // averages the image motion down.
+        let attenuation_mag = (rmag - cfg.max_target_brighter_mag - mag).max(0.0);
+        if attenuation_mag > 0.0 {
+            notes.push(format!(
+                "{mag:.1} mag is {:.1} mag brighter than the reference stars (about {rmag:.1} mag): the target is attenuated by {attenuation_mag:.1} mag (a neutral-density spot; max_target_brighter_mag = {:.1}), so it stays below saturation over the exposure the image motion needs",
+                rmag - mag,
+                cfg.max_target_brighter_mag
+            ));
+        }
         let tcol = match t.color_vi_mag {
             Some(c) => c,
             None => {
@@ -192,6 +211,7 @@ impl<'a> Model<'a> {
             em,
             place,
             mag,
+            attenuation_mag,
             fwhm: em.seeing_fwhm_arcsec(),
             aperture_m,
             frame: ReferenceFrame {
@@ -211,6 +231,11 @@ impl<'a> Model<'a> {
 
     fn band(&self) -> &str {
         &self.s.target.band
+    }
+
+    /// The magnitude the detector sees: the target's, attenuated.
+    fn observed_mag(&self) -> f64 {
+        self.mag + self.attenuation_mag
     }
 
     fn geometry(&self, ctx: &Context) -> Result<Geom> {
@@ -247,15 +272,23 @@ impl<'a> Model<'a> {
         exptime_s: f64,
         snr: Option<f64>,
     ) -> Result<(EpochError, f64, f64)> {
-        let snr_t = match snr {
+        // Beyond the SNR bound (10,000) flat fields and scintillation, not
+        // photons, set a star's error (crate::bounds::SNR): the centroid
+        // terms use at most that.
+        let cap = |x: f64| x.min(crate::bounds::SNR.max);
+        let snr_t = cap(match snr {
             Some(x) => x,
-            None => self
-                .em
-                .snr(self.mag, self.band(), exptime_s, ctx, &self.place)?,
-        };
-        let snr_r = self
+            None => self.em.snr(
+                self.observed_mag(),
+                self.band(),
+                exptime_s,
+                ctx,
+                &self.place,
+            )?,
+        });
+        let snr_r = cap(self
             .em
-            .snr(self.frame.mag, self.band(), exptime_s, ctx, &self.place)?;
+            .snr(self.frame.mag, self.band(), exptime_s, ctx, &self.place)?);
         let centroid = astrometry::centroid_mas(self.fwhm, snr_t)?;
         let reference = astrometry::reference_frame_mas(
             astrometry::centroid_mas(self.fwhm, snr_r)?,
@@ -275,13 +308,19 @@ impl<'a> Model<'a> {
         ))
     }
 
-    /// Frames of an epoch of `exptime_s` whose target SNR is `snr` (the
-    /// exposure model's split for saturation and the longest single frame).
-    fn frames(&self, ctx: &Context, snr: f64) -> Result<u32> {
+    /// Frames of an epoch of `exptime_s` (the exposure model's split that
+    /// keeps the attenuated target below saturation, and the longest single
+    /// frame).
+    fn frames(&self, ctx: &Context, exptime_s: f64) -> Result<u32> {
         Ok(self
             .em
-            .exptime(self.mag, self.band(), snr, ctx, &self.place)?
-            .1
+            .frames_for(
+                self.observed_mag(),
+                self.band(),
+                exptime_s,
+                ctx,
+                &self.place,
+            )?
             .max(1))
     }
 
@@ -302,7 +341,7 @@ impl<'a> Model<'a> {
         let mut min_snr: Option<f64> = None;
         for &t in &grid {
             let (e, snr, _) = self.error(ctx, &g, t, None)?;
-            let frames = self.frames(ctx, snr)?;
+            let frames = self.frames(ctx, t)?;
             let rate = 1.0 / (e.total_mas * e.total_mas * self.visit_s(t, frames));
             if best.is_none_or(|b| rate > b.0) {
                 best = Some((rate, t));
@@ -323,7 +362,7 @@ impl<'a> Model<'a> {
                 continue;
             }
             let (e, snr, _) = self.error(ctx, &g, t, None)?;
-            let frames = self.frames(ctx, snr)?;
+            let frames = self.frames(ctx, t)?;
             levels.push(EpochLevel {
                 exptime_s: t,
                 frames,
@@ -337,6 +376,7 @@ impl<'a> Model<'a> {
             min_snr_exptime_s: min_snr,
             levels,
             reference_time: Some(ctx.t),
+            target_attenuation_mag: self.attenuation_mag,
         })
     }
 
@@ -994,6 +1034,7 @@ impl ParallaxMethod {
                 min_snr_exptime_s: None,
                 levels: Vec::new(),
                 reference_time: None,
+                target_attenuation_mag: model.map_or(0.0, |m| m.attenuation_mag),
             }),
             dcr_bias_mas: None,
             absolute_correction_mas: abs,
