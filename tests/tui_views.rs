@@ -550,11 +550,106 @@ fn parallax_view_shows_factors_and_epochs_at_both_sizes() {
         assert!(has(&rows, &line), "{line}");
         assert!(has(&rows, "◆ chosen epoch"));
         assert!(has(&rows, "2027") && has(&rows, "2028"));
+        // The first epoch is picked: its line and its error by term.
+        assert!(
+            has(&rows, &format!("◈ 1/{} ", p.epochs.len())),
+            "{}",
+            rows.join("\n")
+        );
     }
     // A pulsator is refused with a reason.
     select(&mut s, "LPO-C01");
     let (rows, _) = screen(&s, 80, 24);
     assert!(has(&rows, "the Parallax view is for parallax targets"));
+}
+
+/// The Parallax view's picked epoch against `rung parallax --json` (run at
+/// the same clock): J and K move through the epochs, and each one's time,
+/// factors, hour angle, airmass, exposure, SNR and error by term (centroid,
+/// reference frame, image motion, refraction residual, floor, their total,
+/// and the DCR shift) are the json's numbers, whole at 80×24.
+#[test]
+fn parallax_view_picked_epoch_matches_the_json() {
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args(["parallax", "--target", "LPO-P03", "--json"])
+        .env("RUNG_NOW", test_now().iso())
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let epochs = j["epochs"].as_array().unwrap();
+    assert!(epochs.len() >= 10, "{}", epochs.len());
+    let mut s = demo_state((80, 24));
+    ch(&mut s, '4');
+    select(&mut s, "LPO-P03");
+    let f = |e: &serde_json::Value, k: &str| e[k].as_f64().unwrap();
+    let n = epochs.len();
+    // Forward through every epoch, then one back.
+    let mut visits: Vec<usize> = (0..n).collect();
+    visits.push(n - 2);
+    for (step, &k) in visits.iter().enumerate() {
+        if step == n {
+            ch(&mut s, 'K');
+        } else if step > 0 {
+            ch(&mut s, 'J');
+        }
+        let (rows, _) = screen(&s, 80, 24);
+        let e = &epochs[k];
+        let t = e["time"].as_str().unwrap();
+        let line1 = format!(
+            "◈ {}/{n} {}Z Pα {:+.2} Pδ {:+.2} HA {:+.2}h X {:.2} {:.0} s×{} SNR {:.0}",
+            k + 1,
+            &t[..16],
+            f(e, "pf_ra_au"),
+            f(e, "pf_dec_au"),
+            f(e, "hour_angle_h"),
+            f(e, "airmass"),
+            f(e, "exptime_s"),
+            e["frames"].as_u64().unwrap(),
+            f(e, "snr")
+        );
+        let st = &e["sigma_terms"];
+        let line2 = format!(
+            "σ {:.2} mas = cent {:.2} ref {:.2} motion {:.2} refr {:.2} floor {:.2} · DCR {:+.2}",
+            f(st, "total_mas"),
+            f(st, "centroid_mas"),
+            f(st, "reference_mas"),
+            f(st, "image_motion_mas"),
+            f(st, "refraction_mas"),
+            f(st, "floor_mas"),
+            f(e, "dcr_zenith_mas")
+        );
+        for l in [&line1, &line2] {
+            assert!(l.chars().count() <= 80, "{l}");
+            assert!(has(&rows, l), "epoch {k}: {l}\n{}", rows.join("\n"));
+        }
+        // The total is the terms in quadrature (json and screen alike).
+        let q = [
+            "centroid_mas",
+            "reference_mas",
+            "image_motion_mas",
+            "refraction_mas",
+            "floor_mas",
+        ]
+        .iter()
+        .map(|x| f(st, x).powi(2))
+        .sum::<f64>()
+        .sqrt();
+        assert!((q - f(st, "total_mas")).abs() < 1e-9);
+        assert!((f(e, "sigma_mas") - f(st, "total_mas")).abs() < 1e-12);
+        // The DCR shift is the plan's mas per tan z times the epoch's tan z.
+        let d = j["dcr"]["mas_per_tanz"].as_f64().unwrap() * f(e, "tan_z");
+        assert!((d - f(e, "dcr_zenith_mas")).abs() < 1e-9);
+    }
+    // At the last epoch J stays there.
+    ch(&mut s, 'J');
+    ch(&mut s, 'J');
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(has(&rows, &format!("◈ {n}/{n} ")), "{}", rows.join("\n"));
 }
 
 #[test]

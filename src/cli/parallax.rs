@@ -332,6 +332,7 @@ fn to_json(
                 "parallactic_angle_deg": e.parallactic_angle_deg,
                 "dcr_ra_mas": e.dcr_mas[0],
                 "dcr_dec_mas": e.dcr_mas[1],
+                "dcr_zenith_mas": e.dcr_zenith_mas(plan.dcr.mas_per_tanz),
             })
         })
         .collect();
@@ -529,12 +530,7 @@ fn print_text(
                 e.terms.centroid_mas,
                 e.terms.reference_mas,
                 e.terms.image_motion_mas,
-                e.dcr_mas[0].hypot(e.dcr_mas[1])
-                    * if plan.dcr.mas_per_tanz < 0.0 {
-                        -1.0
-                    } else {
-                        1.0
-                    }
+                e.dcr_zenith_mas(plan.dcr.mas_per_tanz)
             );
         }
     }

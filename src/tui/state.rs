@@ -621,6 +621,8 @@ pub fn detail_rows(view: View, area_h: u16) -> usize {
         View::Phase => area_h.saturating_sub(6) as usize,
         View::Chase => area_h.saturating_sub(5) as usize,
         View::Ladder => area_h.saturating_sub(LADDER_FIXED_ROWS) as usize,
+        // One epoch at a time: the keys pick it, two lines show it.
+        View::Parallax => 1,
         _ => 0,
     }
 }
@@ -658,6 +660,9 @@ impl State {
                 Some(r.stars.len() + FIELD_EXTRA_ROWS)
             }
             MethodBody::Chase(c) if self.view == View::Chase => Some(c.nights.len()),
+            MethodBody::Parallax(p) if self.view == View::Parallax && !p.epochs.is_empty() => {
+                Some(p.epochs.len())
+            }
             _ => None,
         }
     }

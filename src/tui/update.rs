@@ -1043,7 +1043,7 @@ fn act_main_inner(s: &mut State, a: Action) -> Option<Effect> {
                 say(
                     s,
                     format!(
-                        "nothing to scroll here: {keys} scroll the Phase, Chase and Ladder lists"
+                        "nothing to scroll here: {keys} scroll the Phase, Chase and Ladder lists and pick the Parallax epoch"
                     ),
                     Level::Info,
                 );

@@ -713,6 +713,15 @@ pub struct PlannedEpoch {
     pub dcr_mas: [f64; 2],
 }
 
+impl PlannedEpoch {
+    /// Differential chromatic refraction of the target against its frame
+    /// along the zenith direction, mas: `mas_per_tanz` (the plan's
+    /// [`astrometry::Dcr`]) × tan z; positive toward the zenith.
+    pub fn dcr_zenith_mas(&self, mas_per_tanz: f64) -> f64 {
+        mas_per_tanz * self.tan_z
+    }
+}
+
 /// Everything a parallax plan says.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct ParallaxPlan {

@@ -1,8 +1,10 @@
 //! Parallax: the parallax factors in RA and Dec through the coming years
 //! (from `ParallaxMethod::plan`), the observable and candidate nights, the
-//! chosen epochs, and the precision they buy.
+//! chosen epochs, the error of one epoch by term (picked with the detail
+//! keys), and the precision they buy.
 
-use crate::tui::state::{MethodBody, State};
+use crate::tui::keymap::{Action, Scope, keys_for};
+use crate::tui::state::{MethodBody, State, View, detail_offset, detail_rows};
 use crate::tui::views::chart::Braille;
 use crate::tui::views::fmt::{num, pct, put};
 use chrono::Datelike;
@@ -54,7 +56,8 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     }
     let foot = 5u16;
     let label_w = 5u16;
-    let chart_h = area.height - 1 - 3 - foot; // title, strip + epochs + axis, footer
+    // Title, strip + epochs + axis, the picked epoch's two lines, footer.
+    let chart_h = area.height - 1 - 3 - PICKED_ROWS - foot;
     let cw = area.width - label_w;
     let cx = area.x + label_w;
     let cy = area.y + 1;
@@ -112,16 +115,32 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         }
     }
     put(buf, area.x, sy, "sky", label_w, th.dim());
-    // Epochs.
+    // Epochs; the picked one (the detail keys move it) drawn last, as ◈.
     put(buf, area.x, sy + 1, "epoch", label_w, th.dim());
-    for e in &p.epochs {
+    let picked = (!p.epochs.is_empty()).then(|| {
+        detail_offset(
+            s.detail_scroll,
+            detail_rows(View::Parallax, area.height),
+            p.epochs.len(),
+        )
+    });
+    let order = (0..p.epochs.len())
+        .filter(|k| Some(*k) != picked)
+        .chain(picked);
+    for k in order {
+        let e = &p.epochs[k];
         if let Some(night) = e.night
             && let Some(i) = nights.iter().position(|x| x.night == night)
         {
             let c = col_of(i).min(cw - 1);
             if let Some(cell) = buf.cell_mut((cx + c, sy + 1)) {
-                cell.set_char('◆');
-                cell.set_style(th.now());
+                if Some(k) == picked {
+                    cell.set_char('◈');
+                    cell.set_style(th.title());
+                } else {
+                    cell.set_char('◆');
+                    cell.set_style(th.now());
+                }
             }
         }
     }
@@ -142,6 +161,36 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             put(buf, cx + c, sy + 2, &label, label.len() as u16, th.dim());
             last_end = c + label.len() as u16 + 1;
         }
+    }
+    // The picked epoch: where and how long, then its error by term, the
+    // numbers of `rung parallax` (its table and the json's sigma_terms).
+    if let Some(k) = picked {
+        let e = &p.epochs[k];
+        let line1 = format!(
+            "◈ {}/{} {}Z Pα {:+.2} Pδ {:+.2} HA {:+.2}h X {:.2} {:.0} s×{} SNR {:.0}",
+            k + 1,
+            p.epochs.len(),
+            &e.epoch.time.round_to_second().iso()[..16],
+            e.pf_ra,
+            e.pf_dec,
+            e.hour_angle_h,
+            e.epoch.airmass,
+            e.epoch.exptime_s,
+            e.epoch.n_exposures,
+            e.epoch.snr
+        );
+        let line2 = format!(
+            "σ {:.2} mas = cent {:.2} ref {:.2} motion {:.2} refr {:.2} floor {:.2} · DCR {:+.2}",
+            e.terms.total_mas,
+            e.terms.centroid_mas,
+            e.terms.reference_mas,
+            e.terms.image_motion_mas,
+            e.terms.refraction_mas,
+            e.terms.floor_mas,
+            e.dcr_zenith_mas(p.dcr.mas_per_tanz)
+        );
+        put(buf, area.x, sy + 3, &line1, area.width, th.text());
+        put(buf, area.x, sy + 4, &line2, area.width, th.text());
     }
     // What the epochs buy: σϖ by term (the fit, the DCR bias bound, the
     // relative-to-absolute correction, as `rung parallax`), σμ and the
@@ -202,8 +251,16 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         buf,
         area.x,
         fy + 4,
-        "⣿ factor in RA  ⠂ in Dec  sky █ candidate ▒ observable · not  ◆ chosen epoch",
+        &format!(
+            "⣿ Pα  ⠂ Pδ  sky █ candidate ▒ observable · not  ◆ chosen epoch  {}/{} ◈",
+            keys_for(Scope::Main, Action::DetailDown),
+            keys_for(Scope::Main, Action::DetailUp)
+        ),
         area.width,
         th.dim(),
     );
 }
+
+/// Rows the Parallax view gives to the picked epoch (its time and geometry,
+/// then its error by term).
+pub const PICKED_ROWS: u16 = 2;
