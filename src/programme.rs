@@ -624,6 +624,24 @@ impl Report {
     }
 }
 
+/// The parallax fit of a target's prediction epochs (σϖ, σμ, the ϖ–μ
+/// correlation, the baseline; [`ParallaxMethod::fit_of`]) with the
+/// programme's settings; `None` unless the target is a parallax target with
+/// a parallax method and epochs the fit can use.
+pub fn parallax_fit(
+    settings: &Settings,
+    target: &Target,
+    epochs: &[crate::ladder::Epoch],
+) -> Option<crate::ladder::parallax::Solution> {
+    if target.kind != crate::io::targets::Kind::Parallax || epochs.is_empty() {
+        return None;
+    }
+    let m = settings.method(target.kind)?;
+    let p = m.as_any().downcast_ref::<ParallaxMethod>()?;
+    p.fit_of(&settings.setting(target), &settings.photometer, epochs)
+        .ok()
+}
+
 /// The report of `target` by its method (see [`Report`]).
 pub fn report(settings: &Settings, target: &Target) -> Result<Report> {
     let m = settings.method(target.kind).ok_or_else(|| {

@@ -543,6 +543,25 @@ fn every_demo_target_agrees_on_every_surface() {
                         &m["error_terms"],
                         &b["error_terms"],
                     );
+                    // σϖ, σμ, the ϖ–μ correlation and the baseline: keys
+                    // of the budget row, the numbers of `rung parallax`
+                    // (the same least squares of the same epochs; the
+                    // budget re-evaluates each epoch's error at its exact
+                    // instant, the plan at its night's context, so they
+                    // agree to about 1e-8, far below any printed digit).
+                    for key in [
+                        "sigma_parallax_mas",
+                        "sigma_pm_masyr",
+                        "sigma_pm_ra_masyr",
+                        "sigma_pm_dec_masyr",
+                        "corr_parallax_pm",
+                        "baseline_yr",
+                    ] {
+                        match (m[key].as_f64(), b[key].as_f64()) {
+                            (Some(x), Some(y)) if (x - y).abs() <= 1e-6 * x.abs().max(1.0) => {}
+                            (x, y) => d.0.push(format!("{n} budget {key}: {y:?} against {x:?}")),
+                        }
+                    }
                     let plx = m["parallax_mas"].as_f64().unwrap();
                     for (term, mas) in [
                         ("DCR bias bound", m["dcr_bias_mas"].as_f64().map(f64::abs)),

@@ -773,6 +773,19 @@ impl ParallaxMethod {
             .collect()
     }
 
+    /// The fit of shared-face epochs (a [`Prediction`]'s, as the budget
+    /// holds them): [`Self::planned_from`], then the same least squares as
+    /// the plan's, so σϖ, σμ, the correlation and the baseline are the
+    /// plan's own numbers.
+    pub fn fit_of(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        epochs: &[Epoch],
+    ) -> Result<Solution> {
+        solve(&obs_of(&self.planned_from(s, em, epochs)?))
+    }
+
     /// The proposed plan: `epochs_per_season` epochs for each season of
     /// offered nights, chosen together to minimise var(ϖ) + bias(ϖ)², at the
     /// exposure rule's first level, and its precision.

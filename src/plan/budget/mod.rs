@@ -93,6 +93,44 @@ pub struct BudgetRow {
     pub limited_by: String,
     /// The same in words, with its numbers.
     pub limit: String,
+    /// A parallax target's fit of these epochs (the numbers of `rung
+    /// parallax`, to about 1e-8: each epoch's error is re-evaluated at its
+    /// exact instant): `sigma_parallax_mas`, `sigma_pm_masyr` (and its RA
+    /// and Dec parts), `corr_parallax_pm`, `baseline_yr` as keys of the row;
+    /// absent for other targets.
+    #[serde(flatten, skip_serializing_if = "Option::is_none")]
+    pub parallax: Option<ParallaxFit>,
+}
+
+/// The structured figures of a parallax row, the same keys as `rung
+/// parallax --json`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ParallaxFit {
+    /// σ of the parallax from the fit, mas.
+    pub sigma_parallax_mas: f64,
+    /// The larger of the two proper-motion σ, mas/yr.
+    pub sigma_pm_masyr: f64,
+    /// σ of μα cos δ, mas/yr.
+    pub sigma_pm_ra_masyr: f64,
+    /// σ of μδ, mas/yr.
+    pub sigma_pm_dec_masyr: f64,
+    /// The larger in absolute value of the ϖ–μ correlations.
+    pub corr_parallax_pm: f64,
+    /// Last minus first epoch, years.
+    pub baseline_yr: f64,
+}
+
+impl From<&crate::ladder::parallax::Solution> for ParallaxFit {
+    fn from(s: &crate::ladder::parallax::Solution) -> Self {
+        ParallaxFit {
+            sigma_parallax_mas: s.sigma_parallax_mas,
+            sigma_pm_masyr: s.sigma_pm_masyr,
+            sigma_pm_ra_masyr: s.sigma_pm_ra_masyr,
+            sigma_pm_dec_masyr: s.sigma_pm_dec_masyr,
+            corr_parallax_pm: s.corr_parallax_pm,
+            baseline_yr: s.baseline_yr,
+        }
+    }
 }
 
 /// The weather the budget assumes.
@@ -552,6 +590,9 @@ pub fn assemble_with(
                     },
                     limited_by: String::new(),
                     limit: String::new(),
+                    parallax: crate::programme::parallax_fit(settings, t, &p.epochs)
+                        .as_ref()
+                        .map(ParallaxFit::from),
                 });
                 let r = rows.last_mut().expect("a row was just pushed");
                 if !allocation::goal_reached(r) {
