@@ -258,11 +258,11 @@ fn reference_frame_term_is_the_plate_solution_error_at_the_centroid() {
         - m[0][1] * (m[1][0] * m[2][2] - m[1][2] * m[2][0])
         + m[0][2] * (m[1][0] * m[2][1] - m[1][1] * m[2][0]);
     let mut inv = [[0.0f64; 3]; 3];
-    for i in 0..3 {
-        for j in 0..3 {
+    for (i, row) in inv.iter_mut().enumerate() {
+        for (j, x) in row.iter_mut().enumerate() {
             let (a, b) = ((j + 1) % 3, (j + 2) % 3);
             let (c, d) = ((i + 1) % 3, (i + 2) % 3);
-            inv[i][j] = (m[a][c] * m[b][d] - m[a][d] * m[b][c]) / det;
+            *x = (m[a][c] * m[b][d] - m[a][d] * m[b][c]) / det;
         }
     }
     let (mx, my) = (

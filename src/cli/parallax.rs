@@ -208,6 +208,11 @@ pub fn run(a: Args) -> Result<()> {
     let mut tgt = target(&a)?;
     // The parallax method, whatever the target's kind (its expected parallax is checked).
     tgt.kind = Kind::Parallax;
+    // A pulsator with a parallax (a ladder anchor) is measured at its mean
+    // magnitude, as the ladder plans it (src/ladder/chain/build.rs).
+    if tgt.mag.is_none() {
+        tgt.mag = tgt.mean_mag;
+    }
     if a.goal.goal_pct.is_some() {
         tgt.goal_pct = a.goal.goal_pct;
     }
