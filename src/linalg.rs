@@ -89,15 +89,72 @@ pub fn spd_inverse(a: &[Vec<f64>]) -> Result<Vec<Vec<f64>>, LinalgError> {
     Ok(inv)
 }
 
-/// [`spd_inverse`] for a fixed-size matrix.
+/// [`spd_inverse`] for a fixed-size matrix, on the stack: the same
+/// arithmetic in the same order (bit-identical results), no allocation.
 pub fn spd_inverse_n<const N: usize>(a: &[[f64; N]; N]) -> Result<[[f64; N]; N], LinalgError> {
-    let rows: Vec<Vec<f64>> = a.iter().map(|r| r.to_vec()).collect();
-    let inv = spd_inverse(&rows)?;
-    let mut out = [[0.0f64; N]; N];
-    for (o, r) in out.iter_mut().zip(inv) {
-        o.copy_from_slice(&r);
+    let li = cholesky_inverse_n(a)?;
+    let mut inv = [[0.0f64; N]; N];
+    for i in 0..N {
+        for j in 0..N {
+            inv[i][j] = (i.max(j)..N).map(|k| li[k][i] * li[k][j]).sum();
+        }
     }
-    Ok(out)
+    Ok(inv)
+}
+
+/// The last row of the inverse of a fixed-size symmetric positive-definite
+/// matrix: the same numbers as the last row of [`spd_inverse_n`] (the same
+/// arithmetic), without forming the other rows. For a least-squares fit
+/// whose parameter of interest is the last one, it is that parameter's
+/// covariance row.
+pub fn spd_inverse_last_row_n<const N: usize>(a: &[[f64; N]; N]) -> Result<[f64; N], LinalgError> {
+    let li = cholesky_inverse_n(a)?;
+    let mut row = [0.0f64; N];
+    let last = N - 1;
+    for (j, r) in row.iter_mut().enumerate() {
+        *r = (last.max(j)..N).map(|k| li[k][last] * li[k][j]).sum();
+    }
+    Ok(row)
+}
+
+/// L⁻¹ of the Cholesky factor of a fixed-size matrix, as [`spd_inverse`]
+/// computes it.
+#[allow(clippy::needless_range_loop)] // index form mirrors the textbook algorithm
+fn cholesky_inverse_n<const N: usize>(a: &[[f64; N]; N]) -> Result<[[f64; N]; N], LinalgError> {
+    if N == 0 {
+        return Err(LinalgError::Shape("empty".into()));
+    }
+    if a.iter().flatten().any(|v| !v.is_finite()) {
+        return Err(LinalgError::Shape("a value is not finite".into()));
+    }
+    let mut l = [[0.0f64; N]; N];
+    for i in 0..N {
+        for j in 0..=i {
+            let s: f64 = (0..j).map(|k| l[i][k] * l[j][k]).sum();
+            if i == j {
+                let d = a[i][i] - s;
+                if d.is_nan() || d <= PIVOT_REL_TOL * a[i][i].abs() || d <= 0.0 {
+                    return Err(LinalgError::Singular {
+                        row: i,
+                        pivot: d,
+                        tol: PIVOT_REL_TOL,
+                    });
+                }
+                l[i][i] = d.sqrt();
+            } else {
+                l[i][j] = (a[i][j] - s) / l[j][j];
+            }
+        }
+    }
+    let mut li = [[0.0f64; N]; N];
+    for i in 0..N {
+        li[i][i] = 1.0 / l[i][i];
+        for j in 0..i {
+            let s: f64 = (j..i).map(|k| l[i][k] * li[k][j]).sum();
+            li[i][j] = -s / l[i][i];
+        }
+    }
+    Ok(li)
 }
 
 #[cfg(test)]
@@ -137,6 +194,22 @@ mod tests {
         let fixed: [[f64; 5]; 5] = std::array::from_fn(|i| std::array::from_fn(|j| a[i][j]));
         let inv2 = spd_inverse_n(&fixed).unwrap();
         assert_eq!(inv2[2][3], inv[2][3]);
+        // The stack version and the last-row version do the same arithmetic:
+        // every element bit-identical to the allocating one.
+        for i in 0..n {
+            for j in 0..n {
+                assert_eq!(inv2[i][j].to_bits(), inv[i][j].to_bits(), "({i}, {j})");
+            }
+        }
+        let last = spd_inverse_last_row_n(&fixed).unwrap();
+        for j in 0..n {
+            assert_eq!(last[j].to_bits(), inv[n - 1][j].to_bits(), "last row, {j}");
+        }
+        let bad = [[1.0, 1.0], [1.0, 1.0]];
+        assert!(matches!(
+            spd_inverse_last_row_n(&bad),
+            Err(LinalgError::Singular { row: 1, .. })
+        ));
     }
 
     #[test]

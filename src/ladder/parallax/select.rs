@@ -120,11 +120,13 @@ impl Acc {
     }
 
     /// (var(ϖ), bias(ϖ)); infinite when the matrix cannot be inverted.
+    /// Only the parallax row of N⁻¹ is formed (the same numbers as the
+    /// full inverse's row, see `crate::linalg::spd_inverse_last_row_n`).
     fn score(&self) -> (f64, f64) {
-        match crate::linalg::spd_inverse_n(&self.n) {
+        match crate::linalg::spd_inverse_last_row_n(&self.n) {
             Ok(c) => {
-                let bias: f64 = (0..5).map(|j| c[4][j] * self.b[j]).sum();
-                (c[4][4], bias)
+                let bias: f64 = (0..5).map(|j| c[j] * self.b[j]).sum();
+                (c[4], bias)
             }
             Err(_) => (f64::INFINITY, 0.0),
         }
@@ -162,40 +164,63 @@ pub enum Stop {
     Target(f64),
 }
 
+/// Dense numbers for the values of `key` over the candidates (slot and
+/// season numbers may be sparse or large), so that the search keeps its
+/// counts in plain vectors.
+fn dense(cands: &[Candidate], key: impl Fn(&Candidate) -> usize) -> (Vec<usize>, usize) {
+    let mut values: Vec<usize> = cands.iter().map(&key).collect();
+    values.sort_unstable();
+    values.dedup();
+    let of = cands
+        .iter()
+        .map(|c| values.binary_search(&key(c)).unwrap_or(0))
+        .collect();
+    (of, values.len())
+}
+
 struct State<'a> {
     p: Problem<'a>,
     acc: Acc,
     chosen: Vec<usize>,
-    slot_used: std::collections::HashSet<usize>,
-    per_season: std::collections::HashMap<usize, usize>,
+    /// Per candidate: its dense slot and season numbers, and whether chosen.
+    slot_of: Vec<usize>,
+    season_of: Vec<usize>,
+    is_chosen: Vec<bool>,
+    /// Per dense slot: taken; per dense season: epochs chosen.
+    slot_used: Vec<bool>,
+    per_season: Vec<usize>,
 }
 
 impl<'a> State<'a> {
     fn new(p: Problem<'a>) -> Self {
+        let (slot_of, n_slots) = dense(p.cands, |c| c.slot);
+        let (season_of, n_seasons) = dense(p.cands, |c| c.season);
         State {
             p,
             acc: Acc::prior(),
             chosen: Vec::new(),
-            slot_used: Default::default(),
-            per_season: Default::default(),
+            slot_of,
+            season_of,
+            is_chosen: vec![false; p.cands.len()],
+            slot_used: vec![false; n_slots],
+            per_season: vec![0; n_seasons],
         }
     }
 
     fn may_add(&self, i: usize, freed: Option<usize>) -> bool {
-        let c = &self.p.cands[i];
-        let freed = freed.map(|f| &self.p.cands[f]);
-        let slot_free =
-            !self.slot_used.contains(&c.slot) || freed.is_some_and(|f| f.slot == c.slot);
-        let in_season = self.per_season.get(&c.season).copied().unwrap_or(0)
-            - freed.map_or(0, |f| (f.season == c.season) as usize);
-        slot_free && in_season < self.p.max_per_season && !self.chosen.contains(&i)
+        let (slot, season) = (self.slot_of[i], self.season_of[i]);
+        let slot_free = !self.slot_used[slot] || freed.is_some_and(|f| self.slot_of[f] == slot);
+        let in_season =
+            self.per_season[season] - freed.map_or(0, |f| (self.season_of[f] == season) as usize);
+        slot_free && in_season < self.p.max_per_season && !self.is_chosen[i]
     }
 
     fn push(&mut self, i: usize) {
         let c = &self.p.cands[i];
         self.acc.add(c, self.p.t_ref, 1.0);
-        self.slot_used.insert(c.slot);
-        *self.per_season.entry(c.season).or_insert(0) += 1;
+        self.slot_used[self.slot_of[i]] = true;
+        self.per_season[self.season_of[i]] += 1;
+        self.is_chosen[i] = true;
         self.chosen.push(i);
     }
 
@@ -203,10 +228,9 @@ impl<'a> State<'a> {
         let i = self.chosen.swap_remove(k);
         let c = &self.p.cands[i];
         self.acc.add(c, self.p.t_ref, -1.0);
-        self.slot_used.remove(&c.slot);
-        if let Some(n) = self.per_season.get_mut(&c.season) {
-            *n -= 1;
-        }
+        self.slot_used[self.slot_of[i]] = false;
+        self.per_season[self.season_of[i]] -= 1;
+        self.is_chosen[i] = false;
     }
 
     fn j(&self) -> f64 {
