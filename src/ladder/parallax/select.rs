@@ -137,6 +137,91 @@ fn j_of(s: (f64, f64)) -> f64 {
     s.0 + s.1 * s.1
 }
 
+/// Screening: the searches below compare J over every admissible candidate
+/// at each step. J with one candidate more is first estimated from the
+/// inverse of the current normal matrix by the Sherman–Morrison–Woodbury
+/// identity (a rank-2 update: the candidate adds two rows; Golub & Van
+/// Loan, *Matrix Computations*, the inverse of a matrix plus a low-rank
+/// term; common practice), a few dozen operations instead of a Cholesky
+/// factorization. Only the candidates whose estimate, widened by
+/// [`SCREEN_REL`], could make them the step's choice are then evaluated
+/// exactly, in the original order and by the original rule, so the choices
+/// are those of the exact search. A finalist whose exact J falls outside
+/// its estimate's bounds makes the step evaluate every candidate exactly.
+const SCREEN_REL: f64 = 1e-6;
+
+/// Fewest chosen epochs before screening: with fewer the weak prior
+/// dominates the normal matrix and the update loses digits, so the exact
+/// evaluation runs on every candidate.
+const SCREEN_MIN_EPOCHS: usize = 5;
+
+/// The inverse of a normal matrix and its DCR vector, from which J with one
+/// candidate more is estimated.
+struct Base {
+    c: [[f64; 5]; 5],
+    b: [f64; 5],
+    t_ref: f64,
+}
+
+impl Base {
+    fn of(acc: &Acc, t_ref: f64) -> Option<Base> {
+        let c = crate::linalg::spd_inverse_n(&acc.n).ok()?;
+        Some(Base { c, b: acc.b, t_ref })
+    }
+
+    /// (estimate of J with `cand` added, its error bound); the estimate is
+    /// NaN when the update cannot be trusted (the candidate is then a
+    /// finalist).
+    #[allow(clippy::needless_range_loop)] // index form mirrors the formula
+    fn j_plus(&self, cand: &Candidate) -> (f64, f64) {
+        let w = 1.0 / (cand.sigma_mas * cand.sigma_mas);
+        let dt = cand.t_yr - self.t_ref;
+        let (pa, pd) = (cand.pf_ra, cand.pf_dec);
+        let a = [[1.0, 0.0, dt, 0.0, pa], [0.0, 1.0, 0.0, dt, pd]];
+        let d = [cand.dcr_ra_mas, cand.dcr_dec_mas];
+        // U = C Aᵀ (5 × 2), S = W⁻¹ + A U (2 × 2); A's rows are
+        // (1, 0, dt, 0, Pα) and (0, 1, 0, dt, Pδ).
+        let mut u = [[0.0; 2]; 5];
+        for (ur, cr) in u.iter_mut().zip(&self.c) {
+            ur[0] = cr[0] + dt * cr[2] + pa * cr[4];
+            ur[1] = cr[1] + dt * cr[3] + pd * cr[4];
+        }
+        let s00 = u[0][0] + dt * u[2][0] + pa * u[4][0] + 1.0 / w;
+        let s01 = u[0][1] + dt * u[2][1] + pa * u[4][1];
+        let s11 = u[1][1] + dt * u[3][1] + pd * u[4][1] + 1.0 / w;
+        let det = s00 * s11 - s01 * s01;
+        if !(det.is_finite() && det > 0.0) {
+            return (f64::NAN, f64::NAN);
+        }
+        // g = S⁻¹ U₄ᵀ; the parallax row of the new inverse, C₄ − g U ᵀ.
+        let g0 = (s11 * u[4][0] - s01 * u[4][1]) / det;
+        let g1 = (s00 * u[4][1] - s01 * u[4][0]) / det;
+        let mut bias = 0.0;
+        let mut bias_abs = 0.0;
+        let mut var = 0.0;
+        for j in 0..5 {
+            let row = self.c[4][j] - g0 * u[j][0] - g1 * u[j][1];
+            let bj = self.b[j] + w * (a[0][j] * d[0] + a[1][j] * d[1]);
+            bias += row * bj;
+            bias_abs += (row * bj).abs();
+            if j == 4 {
+                var = row;
+            }
+        }
+        let j = var + bias * bias;
+        if !j.is_finite() {
+            return (f64::NAN, f64::NAN);
+        }
+        let err = SCREEN_REL * (var.abs() + self.c[4][4].abs() + bias_abs * (bias_abs + 1.0));
+        (j, err)
+    }
+}
+
+/// Whether an exact J lies within its estimate's bounds.
+fn within(exact: f64, (est, err): (f64, f64)) -> bool {
+    (exact - est).abs() <= err
+}
+
 /// The quality of a set of candidates (any order), with the weak prior.
 pub fn evaluate(p: &Problem, chosen: &[usize]) -> Design {
     let mut acc = Acc::prior();
@@ -310,20 +395,58 @@ fn run(p: Problem, seed: &[usize], start: Option<usize>, stop: Stop) -> Design {
         if done {
             break;
         }
-        let mut best: Option<(f64, usize)> = None;
-        for i in 0..n {
-            if !st.may_add(i, None) {
-                continue;
+        let per = |i: usize| match stop {
+            Stop::Count(_) => 1.0,
+            Stop::Target(_) => p.cands[i].hours.max(1e-9),
+        };
+        let exact_best = |only: &mut dyn Iterator<Item = usize>| {
+            let mut best: Option<(f64, usize)> = None;
+            for i in only {
+                if !st.may_add(i, None) {
+                    continue;
+                }
+                let jn = st.j_with(i);
+                let gain = match stop {
+                    Stop::Count(_) => cur - jn,
+                    Stop::Target(_) => (cur - jn) / p.cands[i].hours.max(1e-9),
+                };
+                if best.is_none_or(|b| gain > b.0) {
+                    best = Some((gain, i));
+                }
             }
-            let jn = st.j_with(i);
-            let gain = match stop {
-                Stop::Count(_) => cur - jn,
-                Stop::Target(_) => (cur - jn) / p.cands[i].hours.max(1e-9),
-            };
-            if best.is_none_or(|b| gain > b.0) {
-                best = Some((gain, i));
+            best
+        };
+        let base = (cur.is_finite() && st.chosen.len() >= SCREEN_MIN_EPOCHS)
+            .then(|| Base::of(&st.acc, p.t_ref))
+            .flatten();
+        let best = match base {
+            None => exact_best(&mut (0..n)),
+            Some(base) => {
+                // Estimates of the gain and their bounds; the largest gain
+                // surely reached; the finalists that may reach it.
+                let est: Vec<(usize, (f64, f64))> = (0..n)
+                    .filter(|i| st.may_add(*i, None))
+                    .map(|i| (i, base.j_plus(&p.cands[i])))
+                    .collect();
+                let lb = est
+                    .iter()
+                    .filter(|(_, (j, _))| j.is_finite())
+                    .map(|(i, (j, e))| (cur - j - e) / per(*i))
+                    .fold(f64::NEG_INFINITY, f64::max);
+                let finalists: Vec<(usize, (f64, f64))> = est
+                    .into_iter()
+                    .filter(|(i, (j, e))| j.is_nan() || (cur - j + e) / per(*i) >= lb)
+                    .collect();
+                let trusted = finalists
+                    .iter()
+                    .all(|(i, e)| e.0.is_nan() || within(st.j_with(*i), *e));
+                if trusted {
+                    exact_best(&mut finalists.into_iter().map(|x| x.0))
+                } else {
+                    exact_best(&mut (0..n))
+                }
             }
-        }
+        };
         match best {
             Some((_, i)) => st.push(i),
             None => break,
@@ -347,6 +470,50 @@ fn run(p: Problem, seed: &[usize], start: Option<usize>, stop: Stop) -> Design {
 
 const PASSES: usize = 6;
 
+/// Estimates of J for every admissible swap of the k-th chosen epoch (its
+/// candidate index, estimate and bound), from the exact inverse of the
+/// design without it; None when screening does not apply (see
+/// [`SCREEN_MIN_EPOCHS`]).
+fn screen_swap_at(st: &State, k: usize, cur: f64) -> Option<Vec<(usize, (f64, f64))>> {
+    if !cur.is_finite() || st.chosen.len() < SCREEN_MIN_EPOCHS + 1 {
+        return None;
+    }
+    let mut acc = st.acc;
+    acc.add(&st.p.cands[st.chosen[k]], st.p.t_ref, -1.0);
+    let base = Base::of(&acc, st.p.t_ref)?;
+    Some(
+        (0..st.p.cands.len())
+            .filter(|i| st.may_add(*i, Some(st.chosen[k])))
+            .map(|i| (i, base.j_plus(&st.p.cands[i])))
+            .collect(),
+    )
+}
+
+/// [`screen_swap_at`] for every chosen epoch not in the seed, as
+/// (position, candidate, estimate); None when screening does not apply to
+/// one of them.
+fn screen_swaps(st: &State, seed: &[usize], cur: f64) -> Option<Vec<(usize, usize, (f64, f64))>> {
+    let mut out = Vec::new();
+    for k in 0..st.chosen.len() {
+        if seed.contains(&st.chosen[k]) {
+            continue;
+        }
+        out.extend(
+            screen_swap_at(st, k, cur)?
+                .into_iter()
+                .map(|(i, e)| (k, i, e)),
+        );
+    }
+    Some(out)
+}
+
+/// Whether every finalist's exact J lies within its estimate's bounds.
+fn trusted_swaps(st: &State, finalists: &[(usize, usize, (f64, f64))]) -> bool {
+    finalists
+        .iter()
+        .all(|(k, i, e)| e.0.is_nan() || within(st.j_swap(*k, *i), *e))
+}
+
 /// Fedorov's exchange: the single swap (a chosen epoch for an unchosen
 /// candidate) that lowers J the most, repeated while one does.
 fn exchange_for_j(st: &mut State, seed: &[usize]) {
@@ -354,13 +521,10 @@ fn exchange_for_j(st: &mut State, seed: &[usize]) {
     let max_swaps = PASSES * st.chosen.len().max(1);
     for _ in 0..max_swaps {
         let cur = st.j();
-        let mut best: Option<(f64, usize, usize)> = None;
-        for k in 0..st.chosen.len() {
-            if seed.contains(&st.chosen[k]) {
-                continue;
-            }
-            for i in 0..n {
-                if !st.may_add(i, Some(st.chosen[k])) {
+        let exact_best = |pairs: &mut dyn Iterator<Item = (usize, usize)>| {
+            let mut best: Option<(f64, usize, usize)> = None;
+            for (k, i) in pairs {
+                if seed.contains(&st.chosen[k]) || !st.may_add(i, Some(st.chosen[k])) {
                     continue;
                 }
                 let jn = st.j_swap(k, i);
@@ -368,7 +532,32 @@ fn exchange_for_j(st: &mut State, seed: &[usize]) {
                     best = Some((jn, k, i));
                 }
             }
-        }
+            best
+        };
+        let all = |st: &State| {
+            let m = st.chosen.len();
+            (0..m).flat_map(move |k| (0..n).map(move |i| (k, i)))
+        };
+        let best = match screen_swaps(st, seed, cur) {
+            None => exact_best(&mut all(st)),
+            Some(est) => {
+                // The smallest J surely reached, and the finalists.
+                let ub = est
+                    .iter()
+                    .filter(|(_, _, (j, _))| j.is_finite())
+                    .map(|(_, _, (j, e))| j + e)
+                    .fold(cur * (1.0 - 1e-9), f64::min);
+                let finalists: Vec<(usize, usize, (f64, f64))> = est
+                    .into_iter()
+                    .filter(|(_, _, (j, e))| j.is_nan() || j - e <= ub)
+                    .collect();
+                if trusted_swaps(st, &finalists) {
+                    exact_best(&mut finalists.into_iter().map(|(k, i, _)| (k, i)))
+                } else {
+                    exact_best(&mut all(st))
+                }
+            }
+        };
         let Some((_, k, i)) = best else {
             break;
         };
@@ -391,16 +580,39 @@ fn exchange_sequential(st: &mut State, seed: &[usize], target: f64) {
             if cur <= target {
                 return;
             }
-            let mut best: Option<(f64, usize)> = None;
-            for i in 0..n {
-                if !st.may_add(i, Some(st.chosen[k])) {
-                    continue;
+            let exact_best = |only: &mut dyn Iterator<Item = usize>| {
+                let mut best: Option<(f64, usize)> = None;
+                for i in only {
+                    if !st.may_add(i, Some(st.chosen[k])) {
+                        continue;
+                    }
+                    let jn = st.j_swap(k, i);
+                    if jn < cur * (1.0 - 1e-9) && best.is_none_or(|b| jn < b.0) {
+                        best = Some((jn, i));
+                    }
                 }
-                let jn = st.j_swap(k, i);
-                if jn < cur * (1.0 - 1e-9) && best.is_none_or(|b| jn < b.0) {
-                    best = Some((jn, i));
+                best
+            };
+            let best = match screen_swap_at(st, k, cur) {
+                None => exact_best(&mut (0..n)),
+                Some(est) => {
+                    let ub = est
+                        .iter()
+                        .filter(|(_, (j, _))| j.is_finite())
+                        .map(|(_, (j, e))| j + e)
+                        .fold(cur * (1.0 - 1e-9), f64::min);
+                    let finalists: Vec<(usize, usize, (f64, f64))> = est
+                        .into_iter()
+                        .filter(|(_, (j, e))| j.is_nan() || j - e <= ub)
+                        .map(|(i, e)| (k, i, e))
+                        .collect();
+                    if trusted_swaps(st, &finalists) {
+                        exact_best(&mut finalists.into_iter().map(|x| x.1))
+                    } else {
+                        exact_best(&mut (0..n))
+                    }
                 }
-            }
+            };
             if let Some((_, i)) = best {
                 st.remove_at(k);
                 st.push(i);
@@ -443,17 +655,47 @@ fn exchange_for_hours(st: &mut State, seed: &[usize], target: f64) {
                 continue;
             }
             let h_out = st.p.cands[st.chosen[k]].hours;
-            let mut best: Option<(f64, f64, usize)> = None; // hours, j, index
-            for i in 0..n {
-                let h = st.p.cands[i].hours;
-                if h >= h_out * (1.0 - 1e-9) || !st.may_add(i, Some(st.chosen[k])) {
-                    continue;
+            let cheaper = |i: usize| st.p.cands[i].hours < h_out * (1.0 - 1e-9);
+            let exact_best = |only: &mut dyn Iterator<Item = usize>| {
+                let mut best: Option<(f64, f64, usize)> = None; // hours, j, index
+                for i in only {
+                    let h = st.p.cands[i].hours;
+                    if h >= h_out * (1.0 - 1e-9) || !st.may_add(i, Some(st.chosen[k])) {
+                        continue;
+                    }
+                    let jn = st.j_swap(k, i);
+                    if jn <= target && best.is_none_or(|b| (h, jn) < (b.0, b.1)) {
+                        best = Some((h, jn, i));
+                    }
                 }
-                let jn = st.j_swap(k, i);
-                if jn <= target && best.is_none_or(|b| (h, jn) < (b.0, b.1)) {
-                    best = Some((h, jn, i));
+                best
+            };
+            let best = match screen_swap_at(st, k, st.j()) {
+                None => exact_best(&mut (0..n)),
+                Some(est) => {
+                    // The fewest hours of a swap surely within the target;
+                    // finalists: the swaps that may be within it at no more.
+                    let est: Vec<(usize, (f64, f64))> =
+                        est.into_iter().filter(|(i, _)| cheaper(*i)).collect();
+                    let h_sure = est
+                        .iter()
+                        .filter(|(_, (j, e))| j.is_finite() && j + e <= target)
+                        .map(|(i, _)| st.p.cands[*i].hours)
+                        .fold(f64::INFINITY, f64::min);
+                    let finalists: Vec<(usize, usize, (f64, f64))> = est
+                        .into_iter()
+                        .filter(|(i, (j, e))| {
+                            j.is_nan() || (j - e <= target && st.p.cands[*i].hours <= h_sure)
+                        })
+                        .map(|(i, e)| (k, i, e))
+                        .collect();
+                    if trusted_swaps(st, &finalists) {
+                        exact_best(&mut finalists.into_iter().map(|x| x.1))
+                    } else {
+                        exact_best(&mut (0..n))
+                    }
                 }
-            }
+            };
             if let Some((_, _, i)) = best {
                 st.remove_at(k);
                 st.push(i);
