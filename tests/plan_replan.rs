@@ -8,44 +8,17 @@
 
 use chrono::NaiveDate;
 use proptest::prelude::*;
-use rung::astro::frames::{CatalogPlace, Context};
-use rung::astro::night::Limits;
-use rung::io::sites::resolve;
 use rung::io::targets::{Kind, Target};
 use rung::ladder::{
     BandExposure, DEFAULT_SPACING_S, Epoch, ExposureModel, Method, MethodSet, Prediction, Setting,
     Verdict,
 };
-use rung::plan::schedule::{Request, Schedule, Status, Visit, schedule};
+use rung::plan::schedule::{Schedule, Status, Visit};
 use std::collections::BTreeSet;
 use std::sync::Arc;
 
-/// Test photometry: fixed exposures and overheads.
-struct FixedPhot;
-impl ExposureModel for FixedPhot {
-    fn snr(&self, _m: f64, _b: &str, t: f64, _c: &Context, _p: &CatalogPlace) -> rung::Result<f64> {
-        Ok(100.0 * (t / 300.0).sqrt())
-    }
-    fn exptime(
-        &self,
-        _m: f64,
-        _b: &str,
-        _s: f64,
-        _c: &Context,
-        _p: &CatalogPlace,
-    ) -> rung::Result<(f64, u32)> {
-        Ok((300.0, 1))
-    }
-    fn visit_overhead_s(&self) -> f64 {
-        120.0
-    }
-    fn readout_s(&self) -> f64 {
-        10.0
-    }
-    fn seeing_fwhm_arcsec(&self) -> f64 {
-        1.2
-    }
-}
+mod plan_support;
+use plan_support::{Job, day};
 
 /// Test method: on every night from `first` (nights after the range's start)
 /// to `last`, `per_night` epochs `gap_h` hours apart around local midnight.
@@ -109,10 +82,6 @@ impl Method for Nightly {
     fn as_any(&self) -> &dyn std::any::Any {
         self
     }
-}
-
-fn day(s: &str) -> NaiveDate {
-    NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap()
 }
 
 const FROM: &str = "2026-12-01";
@@ -179,25 +148,14 @@ fn methods() -> MethodSet {
 }
 
 fn run(ts: &[Target], done: Vec<Visit>, lost: BTreeSet<NaiveDate>, hours: f64) -> Schedule {
-    let site = resolve("pampa-lucero").unwrap();
     let m = methods();
-    let req = Request {
-        site: &site,
-        targets: ts,
-        from: day(FROM),
-        to: day(TO),
-        limits: Limits::new(30.0, -12.0).unwrap(),
-        hours_per_night: hours,
-        methods: &m,
-        em: &FixedPhot,
-        goal_pct: None,
+    Job {
         done,
-        lost_nights: lost,
-        horizon_to: day(TO),
-        not_before: None,
-        fields: &rung::ladder::field::FieldConfig::builtin(),
-    };
-    schedule(&req).unwrap()
+        lost,
+        ..Job::new(ts, &m, FROM, TO, hours)
+    }
+    .run()
+    .unwrap()
 }
 
 /// The spacing the doubles allow: the default, or the method's own closer epochs.
@@ -213,10 +171,16 @@ fn check_spacing(s: &Schedule) -> Result<(), TestCaseError> {
     for v in s.visits.iter().filter(|v| v.status != Status::Lost) {
         by.entry(v.target.as_str()).or_default().push(v);
     }
+    // Spacing counts from a done visit's observed time (Visit::span), from
+    // the planned time for any other.
+    let mid = |v: &Visit| {
+        let (a, b) = v.span();
+        a.add_seconds(b.seconds_since(&a) / 2.0)
+    };
     for (name, mut vs) in by {
-        vs.sort_by(|a, b| a.start.partial_cmp(&b.start).unwrap());
+        vs.sort_by(|a, b| mid(a).partial_cmp(&mid(b)).unwrap());
         for w in vs.windows(2) {
-            let gap = w[1].mid().seconds_since(&w[0].mid());
+            let gap = mid(w[1]).seconds_since(&mid(w[0]));
             prop_assert!(
                 gap >= allowed_s(w[0].kind) - 1.0,
                 "{name}: {} and {} only {:.0} s apart",
@@ -267,19 +231,26 @@ proptest! {
         lost_mask in 0u8..=255,
         done_every in 2usize..5,
         hours in 3.0f64..7.0,
+        early_h in -1i32..=1,
     ) {
         let ts = targets(n, seed);
         let first = run(&ts, vec![], BTreeSet::new(), hours);
         check_spacing(&first)?;
         check_transient_window(&first)?;
         check_precisions(&first)?;
-        // Some visits observed, some nights lost, the rest re-planned.
+        // Some visits observed (an hour earlier than planned, on time, or an
+        // hour later: the observed time is what the spacing counts from),
+        // some nights lost, the rest re-planned.
         let done: Vec<Visit> = first
             .visits
             .iter()
             .enumerate()
             .filter(|(i, _)| i % done_every == 0)
-            .map(|(_, v)| Visit { status: Status::Done, ..v.clone() })
+            .map(|(_, v)| Visit {
+                status: Status::Done,
+                observed: Some(v.start.add_seconds(3600.0 * early_h as f64)),
+                ..v.clone()
+            })
             .collect();
         let lost: BTreeSet<NaiveDate> = (0..8)
             .filter(|k| lost_mask & (1 << k) != 0)
@@ -300,26 +271,14 @@ proptest! {
 #[test]
 fn a_replan_places_nothing_before_the_clock() {
     let ts = targets(6, 3);
-    let site = resolve("pampa-lucero").unwrap();
     let m = methods();
     let now = rung::astro::time::parse_instant("2026-12-04T04:00:00Z").unwrap();
-    let req = Request {
-        site: &site,
-        targets: &ts,
-        from: day(FROM),
-        to: day(TO),
-        limits: Limits::new(30.0, -12.0).unwrap(),
-        hours_per_night: 6.0,
-        methods: &m,
-        em: &FixedPhot,
-        goal_pct: None,
-        done: vec![],
-        lost_nights: BTreeSet::new(),
-        horizon_to: day(TO),
+    let s = Job {
         not_before: Some(now),
-        fields: &rung::ladder::field::FieldConfig::builtin(),
-    };
-    let s = schedule(&req).unwrap();
+        ..Job::new(&ts, &m, FROM, TO, 6.0)
+    }
+    .run()
+    .unwrap();
     assert!(!s.visits.is_empty());
     for v in &s.visits {
         assert!(

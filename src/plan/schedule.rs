@@ -140,6 +140,18 @@ impl Visit {
             .add_seconds(self.end.seconds_since(&self.start) / 2.0)
     }
 
+    /// The span a visit occupies for the re-plan: a done visit with its
+    /// observed time (the done time) as observed, from that instant for
+    /// the visit's duration; any other visit as planned. Spacing to a
+    /// target's other visits is counted from this span's middle, so a visit
+    /// marked done earlier or later than planned moves what may follow it.
+    pub fn span(&self) -> (Instant, Instant) {
+        match (self.status, self.observed) {
+            (Status::Done, Some(t)) => (t, t.add_seconds(self.end.seconds_since(&self.start))),
+            _ => (self.start, self.end),
+        }
+    }
+
     /// The visit as an epoch for a method's prediction.
     pub fn epoch(&self) -> Epoch {
         Epoch {
@@ -440,6 +452,8 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
     let mut visits: Vec<Visit> = Vec::new();
     let mut fixed: Vec<Fixed> = Vec::new();
     for v in &req.done {
+        let mut v = v.clone();
+        v.status = Status::Done;
         if let Some(&i) = index.get(&v.night) {
             slots[i].used_s += v.end.seconds_since(&v.start);
             fixed.push(Fixed {
@@ -449,12 +463,11 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                     .copied()
                     .unwrap_or(req.targets.len()),
                 night: i,
-                start_s: secs(v.start),
-                end_s: secs(v.end),
+                // As observed: the spacing counts from the done time.
+                start_s: secs(v.span().0),
+                end_s: secs(v.span().1),
             });
         }
-        let mut v = v.clone();
-        v.status = Status::Done;
         visits.push(v);
     }
 
