@@ -196,3 +196,112 @@ fn a_bad_log_row_names_its_file_line_and_field() {
     );
     assert!(e.contains("'dance' is not a log event"), "{e}");
 }
+
+/// Every export of a saved plan carries what the observer needs at the
+/// telescope for each visit of the night: its id (what --done takes),
+/// RA/Dec, the band(s), the number of frames and the exposure; `rung next`
+/// names the planned visit's id too.
+#[test]
+fn exports_carry_id_place_band_frames_and_exposure() {
+    let d = tempfile::tempdir().unwrap();
+    let p = make_plan(d.path());
+    let night: chrono::NaiveDate = "2026-12-01".parse().unwrap();
+    let tonight: Vec<_> = p.visits.iter().filter(|v| v.night == night).collect();
+    assert!(!tonight.is_empty());
+    let (csv, _) = rung(d.path(), &["plan", "--load", "p.json", "--csv"]);
+    let (sheet, _) = rung(
+        d.path(),
+        &["plan", "--load", "p.json", "--sheet", "2026-12-01"],
+    );
+    rung(d.path(), &["plan", "--load", "p.json", "--ics", "p.ics"]);
+    let ics = std::fs::read_to_string(d.path().join("p.ics")).unwrap();
+    // The calendar read back by an independent parser (the `ical` crate),
+    // its folded lines unfolded.
+    let cal = ical::IcalParser::new(std::io::BufReader::new(ics.as_bytes()))
+        .next()
+        .unwrap()
+        .unwrap();
+    let mut rows = csv::Reader::from_reader(csv.as_bytes());
+    let head = rows.headers().unwrap().clone();
+    let col = |name: &str| head.iter().position(|h| h == name).unwrap();
+    let rows: Vec<csv::StringRecord> = rows.records().map(|r| r.unwrap()).collect();
+    for v in &tonight {
+        let ra = v.ra_deg.expect("RA of a planned visit");
+        let dec = v.dec_deg.expect("Dec of a planned visit");
+        assert!(!v.exposures.is_empty(), "{}: no bands recorded", v.id);
+        // CSV: one row per visit with every field.
+        let r = rows
+            .iter()
+            .find(|r| &r[col("id")] == v.id.as_str())
+            .unwrap();
+        assert!((r[col("ra_deg")].parse::<f64>().unwrap() - ra).abs() < 1e-6);
+        assert!((r[col("dec_deg")].parse::<f64>().unwrap() - dec).abs() < 1e-6);
+        assert_eq!(r[col("n_exposures")].parse::<u32>().unwrap(), v.n_exposures);
+        assert!(r[col("exptime_s")].parse::<f64>().unwrap() > 0.0);
+        for b in &v.exposures {
+            assert!(
+                r[col("bands")].split(' ').any(|x| x == b.band),
+                "{}",
+                &r[col("bands")]
+            );
+            let want = format!("{} {} × ", b.band, b.n_exposures);
+            assert!(
+                r[col("exposures")].contains(&want),
+                "{}: {}",
+                v.id,
+                &r[col("exposures")]
+            );
+        }
+        // Night sheet: the visit's row holds its id, place, bands and frames.
+        let line = sheet
+            .lines()
+            .find(|l| l.contains(&format!("| {} |", v.id)))
+            .unwrap_or_else(|| panic!("{} not on the sheet:\n{sheet}", v.id));
+        assert!(line.contains(&rung::plan::export::ra_hms(ra)), "{line}");
+        assert!(line.contains(&rung::plan::export::dec_dms(dec)), "{line}");
+        for b in &v.exposures {
+            assert!(
+                line.contains(&format!("{} {} × ", b.band, b.n_exposures)),
+                "{line}"
+            );
+        }
+        // Calendar: the event of the visit names all of it.
+        let ev = cal
+            .events
+            .iter()
+            .find(|e| {
+                e.properties.iter().any(|p| {
+                    p.name == "UID"
+                        && p.value.as_deref() == Some(&format!("{}@rung", v.id.replace(' ', "_")))
+                })
+            })
+            .unwrap_or_else(|| panic!("{} has no event", v.id));
+        let desc = ev
+            .properties
+            .iter()
+            .find(|p| p.name == "DESCRIPTION")
+            .and_then(|p| p.value.clone())
+            .unwrap()
+            .replace("\\,", ",")
+            .replace("\\;", ";");
+        assert!(desc.contains(&v.id), "{desc}");
+        assert!(desc.contains(&rung::plan::export::ra_hms(ra)), "{desc}");
+        assert!(desc.contains(&rung::plan::export::dec_dms(dec)), "{desc}");
+        for b in &v.exposures {
+            assert!(
+                desc.contains(&format!("{} {} × ", b.band, b.n_exposures)),
+                "{desc}"
+            );
+        }
+    }
+    // The plan's own table and `rung next` print the ids --done takes.
+    let (table, _) = rung(d.path(), &["plan", "--load", "p.json"]);
+    let (next, _) = rung(d.path(), &["next", "--plan", "p.json"]);
+    for v in &tonight {
+        assert!(table.contains(&v.id), "{} not in the plan table", v.id);
+    }
+    assert!(
+        tonight.iter().any(|v| next.contains(&v.id)),
+        "rung next names no planned visit id:\n{next}"
+    );
+}

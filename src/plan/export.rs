@@ -9,7 +9,10 @@ use chrono::{NaiveDate, Offset, TimeZone, Utc};
 use chrono_tz::{OffsetComponents, Tz};
 
 /// CSV of visits with a header row; times in UTC ISO 8601 and local; a
-/// number without a value is an empty field.
+/// number without a value is an empty field. `exposures` spells every
+/// band's frames and exposure (`B 1 × 3 s, V 1 × 4 s`), as the night sheet
+/// and the calendar do; `n_exposures` and `exptime_per_frame_s` are the
+/// totals and the first band's.
 pub fn visits_csv(visits: &[Visit], site: &Site) -> String {
     csv_table(
         &[
@@ -36,6 +39,7 @@ pub fn visits_csv(visits: &[Visit], site: &Site) -> String {
             "observed_utc",
             "seeing_arcsec",
             "comment",
+            "exposures",
         ],
         visits.iter().map(|v| {
             vec![
@@ -62,6 +66,7 @@ pub fn visits_csv(visits: &[Visit], site: &Site) -> String {
                 v.observed.map(|t| t.iso()).unwrap_or_default(),
                 csv_num(v.seeing_arcsec, 2),
                 v.comment.clone().unwrap_or_default(),
+                exposure_text(v),
             ]
         }),
     )
