@@ -11,7 +11,6 @@
 //!    (each done visit gives the wanted epoch nearest it in time).
 
 use chrono::NaiveDate;
-use rung::astro::frames::{CatalogPlace, Context};
 use rung::astro::night::Limits;
 use rung::astro::time::{Instant, parse_instant};
 use rung::io::sites::resolve;
@@ -20,9 +19,11 @@ use rung::ladder::pulsator::{PulsatorMethod, Star};
 use rung::ladder::{
     BandExposure, Epoch, ExposureModel, Method, MethodSet, Prediction, Setting, Verdict,
 };
-use rung::plan::schedule::{Request, Status, Visit, schedule};
-use std::collections::BTreeSet;
+use rung::plan::schedule::{Status, Visit};
 use std::sync::Arc;
+
+mod plan_support;
+use plan_support::{Job, day};
 
 fn epoch(t: Instant, snr: f64) -> Epoch {
     Epoch {
@@ -34,10 +35,6 @@ fn epoch(t: Instant, snr: f64) -> Epoch {
         visit_s: 900.0,
         exposures: BandExposure::single("V", 300.0, 1, snr),
     }
-}
-
-fn day(s: &str) -> NaiveDate {
-    NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap()
 }
 
 fn demo_pulsator() -> Target {
@@ -114,33 +111,6 @@ fn a_done_visit_gives_the_pulsator_epoch_of_its_phase_bin() {
     assert!(c.iter().all(|x| x.is_none()), "{c:?}");
 }
 
-/// Test photometry: fixed exposures and overheads.
-struct FixedPhot;
-impl ExposureModel for FixedPhot {
-    fn snr(&self, _m: f64, _b: &str, t: f64, _c: &Context, _p: &CatalogPlace) -> rung::Result<f64> {
-        Ok(100.0 * (t / 300.0).sqrt())
-    }
-    fn exptime(
-        &self,
-        _m: f64,
-        _b: &str,
-        _s: f64,
-        _c: &Context,
-        _p: &CatalogPlace,
-    ) -> rung::Result<(f64, u32)> {
-        Ok((300.0, 1))
-    }
-    fn visit_overhead_s(&self) -> f64 {
-        120.0
-    }
-    fn readout_s(&self) -> f64 {
-        10.0
-    }
-    fn seeing_fwhm_arcsec(&self) -> f64 {
-        1.2
-    }
-}
-
 /// Test method: one epoch at local midnight on each of the first six nights,
 /// labelled by its signal-to-noise (100 + night mod 3: the "bin"). With
 /// `labels` its measure is the label: a done epoch gives the first wanted
@@ -207,29 +177,17 @@ impl Method for Labelled {
 }
 
 fn replan(labels: bool, done: Vec<Visit>) -> rung::plan::schedule::Schedule {
-    let site = resolve("pampa-lucero").unwrap();
     let mut t = Target::plain("P1", 80.0, -30.0);
     t.kind = Kind::Pulsator;
     t.goal_pct = Some(5.0);
     let ts = vec![t];
     let m = MethodSet::new(vec![Arc::new(Labelled { labels })]);
-    let req = Request {
-        site: &site,
-        targets: &ts,
-        from: day("2026-12-01"),
-        to: day("2026-12-08"),
-        limits: Limits::new(30.0, -12.0).unwrap(),
-        hours_per_night: 6.0,
-        methods: &m,
-        em: &FixedPhot,
-        goal_pct: None,
+    Job {
         done,
-        lost_nights: BTreeSet::new(),
-        horizon_to: day("2026-12-08"),
-        not_before: None,
-        fields: &rung::ladder::field::FieldConfig::builtin(),
-    };
-    schedule(&req).unwrap()
+        ..Job::new(&ts, &m, "2026-12-01", "2026-12-08", 6.0)
+    }
+    .run()
+    .unwrap()
 }
 
 fn planned_nights(s: &rung::plan::schedule::Schedule) -> Vec<NaiveDate> {

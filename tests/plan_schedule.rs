@@ -6,42 +6,17 @@
 
 use chrono::NaiveDate;
 use proptest::prelude::*;
-use rung::astro::frames::{CatalogPlace, Context};
 use rung::astro::night::Limits;
 use rung::astro::time::Instant;
 use rung::io::sites::resolve;
 use rung::io::targets::{Kind, Target};
 use rung::ladder::{Epoch, ExposureModel, Method, MethodSet, Prediction, Setting, Verdict};
-use rung::plan::schedule::{Request, Status, schedule};
+use rung::plan::schedule::Status;
 use std::collections::BTreeSet;
 use std::sync::Arc;
 
-/// Test photometry: SNR 100 from 300 s in one exposure, fixed overheads.
-struct FixedPhot;
-impl ExposureModel for FixedPhot {
-    fn snr(&self, _m: f64, _b: &str, t: f64, _c: &Context, _p: &CatalogPlace) -> rung::Result<f64> {
-        Ok(100.0 * (t / 300.0).sqrt())
-    }
-    fn exptime(
-        &self,
-        _m: f64,
-        _b: &str,
-        _s: f64,
-        _c: &Context,
-        _p: &CatalogPlace,
-    ) -> rung::Result<(f64, u32)> {
-        Ok((300.0, 1))
-    }
-    fn visit_overhead_s(&self) -> f64 {
-        120.0
-    }
-    fn readout_s(&self) -> f64 {
-        10.0
-    }
-    fn seeing_fwhm_arcsec(&self) -> f64 {
-        1.2
-    }
-}
+mod plan_support;
+use plan_support::{Job, day};
 
 /// Test method: one epoch every `every` nights at local midnight; the
 /// "precision" is 10 %/√N so that more epochs always help.
@@ -122,10 +97,6 @@ fn targets(n: usize, seed: u64) -> Vec<Target> {
         .collect()
 }
 
-fn day(s: &str) -> NaiveDate {
-    NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap()
-}
-
 fn run(
     ts: &[Target],
     from: &str,
@@ -146,23 +117,13 @@ fn run(
         visit_s: 900.0,
     };
     let methods = MethodSet::new(vec![Arc::new(a), Arc::new(b)]);
-    let req = Request {
-        site: &site,
-        targets: ts,
-        from: day(from),
-        to: day(to),
-        limits: Limits::new(30.0, -12.0).unwrap(),
-        hours_per_night: hours,
-        methods: &methods,
-        em: &FixedPhot,
-        goal_pct: None,
+    Job {
         done,
-        lost_nights: lost,
-        horizon_to: day(to),
-        not_before: None,
-        fields: &rung::ladder::field::FieldConfig::builtin(),
-    };
-    schedule(&req).unwrap()
+        lost,
+        ..Job::new(ts, &methods, from, to, hours)
+    }
+    .run()
+    .unwrap()
 }
 
 fn check_invariants(ts: &[Target], s: &rung::plan::schedule::Schedule) {
@@ -265,32 +226,20 @@ fn hours_beyond_the_night_are_refused() {
         visit_s: 600.0,
     };
     let methods = MethodSet::new(vec![Arc::new(m)]);
-    let req = Request {
-        site: &site,
-        targets: &ts,
-        from: day("2026-12-01"),
-        to: day("2026-12-03"),
-        limits: Limits::new(30.0, -12.0).unwrap(),
-        hours_per_night: 11.0, // December nights at -27° have ~7 h with the Sun below -12°.
-        methods: &methods,
-        em: &FixedPhot,
-        goal_pct: None,
-        done: vec![],
-        lost_nights: BTreeSet::new(),
-        horizon_to: day("2026-12-03"),
-        not_before: None,
-        fields: &rung::ladder::field::FieldConfig::builtin(),
-    };
-    let e = schedule(&req).unwrap_err().to_string();
+    // December nights at -27° have ~7 h with the Sun below -12°.
+    let e = Job::new(&ts, &methods, "2026-12-01", "2026-12-03", 11.0)
+        .run()
+        .unwrap_err()
+        .to_string();
     assert!(
         e.contains("--hours-per-night") && e.contains("longest dark time"),
         "{e}"
     );
-    let req = Request {
-        hours_per_night: -1.0,
-        ..req
-    };
-    assert!(schedule(&req).is_err());
+    assert!(
+        Job::new(&ts, &methods, "2026-12-01", "2026-12-03", -1.0)
+            .run()
+            .is_err()
+    );
 }
 
 #[test]

@@ -1,0 +1,107 @@
+//! What the scheduler's tests share (plan_schedule, plan_replan,
+//! plan_covered): the test photometry, dates, and one call of the scheduler
+//! at the demo site with the test's methods.
+//!
+//! Each test file includes it with `mod plan_support;`; not every file uses
+//! every item.
+#![allow(dead_code)]
+
+use chrono::NaiveDate;
+use rung::astro::frames::{CatalogPlace, Context};
+use rung::astro::night::Limits;
+use rung::astro::time::Instant;
+use rung::io::sites::resolve;
+use rung::io::targets::Target;
+use rung::ladder::{ExposureModel, MethodSet};
+use rung::plan::schedule::{Request, Schedule, Visit, schedule};
+use std::collections::BTreeSet;
+
+/// Test photometry: SNR 100 from 300 s in one exposure, fixed overheads.
+pub struct FixedPhot;
+impl ExposureModel for FixedPhot {
+    fn snr(&self, _m: f64, _b: &str, t: f64, _c: &Context, _p: &CatalogPlace) -> rung::Result<f64> {
+        Ok(100.0 * (t / 300.0).sqrt())
+    }
+    fn exptime(
+        &self,
+        _m: f64,
+        _b: &str,
+        _s: f64,
+        _c: &Context,
+        _p: &CatalogPlace,
+    ) -> rung::Result<(f64, u32)> {
+        Ok((300.0, 1))
+    }
+    fn visit_overhead_s(&self) -> f64 {
+        120.0
+    }
+    fn readout_s(&self) -> f64 {
+        10.0
+    }
+    fn seeing_fwhm_arcsec(&self) -> f64 {
+        1.2
+    }
+}
+
+/// A date from `YYYY-MM-DD`.
+pub fn day(s: &str) -> NaiveDate {
+    NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap()
+}
+
+/// One scheduling job: the nights `from`..=`to` (the methods plan to `to`
+/// as well), above 30° with the Sun below −12°, with [`FixedPhot`].
+pub struct Job<'a> {
+    pub targets: &'a [Target],
+    pub methods: &'a MethodSet,
+    pub from: &'a str,
+    pub to: &'a str,
+    pub hours: f64,
+    pub done: Vec<Visit>,
+    pub lost: BTreeSet<NaiveDate>,
+    pub not_before: Option<Instant>,
+}
+
+impl<'a> Job<'a> {
+    /// A job with nothing done, no night lost and no clock.
+    pub fn new(
+        targets: &'a [Target],
+        methods: &'a MethodSet,
+        from: &'a str,
+        to: &'a str,
+        hours: f64,
+    ) -> Self {
+        Job {
+            targets,
+            methods,
+            from,
+            to,
+            hours,
+            done: Vec::new(),
+            lost: BTreeSet::new(),
+            not_before: None,
+        }
+    }
+
+    /// The schedule at the demo site (pampa-lucero).
+    pub fn run(self) -> rung::Result<Schedule> {
+        let site = resolve("pampa-lucero").unwrap();
+        let fields = rung::ladder::field::FieldConfig::builtin();
+        let req = Request {
+            site: &site,
+            targets: self.targets,
+            from: day(self.from),
+            to: day(self.to),
+            limits: Limits::new(30.0, -12.0).unwrap(),
+            hours_per_night: self.hours,
+            methods: self.methods,
+            em: &FixedPhot,
+            goal_pct: None,
+            done: self.done,
+            lost_nights: self.lost,
+            horizon_to: day(self.to),
+            not_before: self.not_before,
+            fields: &fields,
+        };
+        schedule(&req)
+    }
+}
