@@ -266,14 +266,14 @@ fn exports_carry_id_place_band_frames_and_exposure() {
             );
         }
         // Calendar: the event of the visit names all of it.
+        let uid = format!("{}@rung", v.id.replace(' ', "_"));
         let ev = cal
             .events
             .iter()
             .find(|e| {
-                e.properties.iter().any(|p| {
-                    p.name == "UID"
-                        && p.value.as_deref() == Some(&format!("{}@rung", v.id.replace(' ', "_")))
-                })
+                e.properties
+                    .iter()
+                    .any(|p| p.name == "UID" && p.value.as_deref() == Some(uid.as_str()))
             })
             .unwrap_or_else(|| panic!("{} has no event", v.id));
         let desc = ev
