@@ -16,7 +16,7 @@ use std::collections::BTreeSet;
 use std::sync::Arc;
 
 mod plan_support;
-use plan_support::{Job, day};
+use plan_support::Job;
 
 /// Test method: one epoch every `every` nights at local midnight; the
 /// "precision" is 10 %/√N so that more epochs always help.
@@ -105,7 +105,6 @@ fn run(
     done: Vec<rung::plan::schedule::Visit>,
     lost: BTreeSet<NaiveDate>,
 ) -> rung::plan::schedule::Schedule {
-    let site = resolve("pampa-lucero").unwrap();
     let a = EveryNights {
         kind: Kind::Parallax,
         every: 2,
@@ -219,7 +218,6 @@ fn same_input_same_schedule() {
 #[test]
 fn hours_beyond_the_night_are_refused() {
     let ts = targets(2, 1);
-    let site = resolve("pampa-lucero").unwrap();
     let m = EveryNights {
         kind: Kind::Parallax,
         every: 1,

@@ -489,10 +489,14 @@ fn screen_swap_at(st: &State, k: usize, cur: f64) -> Option<Vec<(usize, (f64, f6
     )
 }
 
+/// A screened exchange: the position in the chosen epochs, the candidate
+/// that would take its place and the estimate of J with its error bound.
+type Swap = (usize, usize, (f64, f64));
+
 /// [`screen_swap_at`] for every chosen epoch not in the seed, as
 /// (position, candidate, estimate); None when screening does not apply to
 /// one of them.
-fn screen_swaps(st: &State, seed: &[usize], cur: f64) -> Option<Vec<(usize, usize, (f64, f64))>> {
+fn screen_swaps(st: &State, seed: &[usize], cur: f64) -> Option<Vec<Swap>> {
     let mut out = Vec::new();
     for k in 0..st.chosen.len() {
         if seed.contains(&st.chosen[k]) {
@@ -508,7 +512,7 @@ fn screen_swaps(st: &State, seed: &[usize], cur: f64) -> Option<Vec<(usize, usiz
 }
 
 /// Whether every finalist's exact J lies within its estimate's bounds.
-fn trusted_swaps(st: &State, finalists: &[(usize, usize, (f64, f64))]) -> bool {
+fn trusted_swaps(st: &State, finalists: &[Swap]) -> bool {
     finalists
         .iter()
         .all(|(k, i, e)| e.0.is_nan() || within(st.j_swap(*k, *i), *e))
@@ -547,7 +551,7 @@ fn exchange_for_j(st: &mut State, seed: &[usize]) {
                     .filter(|(_, _, (j, _))| j.is_finite())
                     .map(|(_, _, (j, e))| j + e)
                     .fold(cur * (1.0 - 1e-9), f64::min);
-                let finalists: Vec<(usize, usize, (f64, f64))> = est
+                let finalists: Vec<Swap> = est
                     .into_iter()
                     .filter(|(_, _, (j, e))| j.is_nan() || j - e <= ub)
                     .collect();
@@ -601,7 +605,7 @@ fn exchange_sequential(st: &mut State, seed: &[usize], target: f64) {
                         .filter(|(_, (j, _))| j.is_finite())
                         .map(|(_, (j, e))| j + e)
                         .fold(cur * (1.0 - 1e-9), f64::min);
-                    let finalists: Vec<(usize, usize, (f64, f64))> = est
+                    let finalists: Vec<Swap> = est
                         .into_iter()
                         .filter(|(_, (j, e))| j.is_nan() || j - e <= ub)
                         .map(|(i, e)| (k, i, e))
@@ -682,7 +686,7 @@ fn exchange_for_hours(st: &mut State, seed: &[usize], target: f64) {
                         .filter(|(_, (j, e))| j.is_finite() && j + e <= target)
                         .map(|(i, _)| st.p.cands[*i].hours)
                         .fold(f64::INFINITY, f64::min);
-                    let finalists: Vec<(usize, usize, (f64, f64))> = est
+                    let finalists: Vec<Swap> = est
                         .into_iter()
                         .filter(|(i, (j, e))| {
                             j.is_nan() || (j - e <= target && st.p.cands[*i].hours <= h_sure)
