@@ -260,7 +260,7 @@ fn sigterm_keeps_unsaved_edits_and_the_next_start_offers_them() {
     };
     t.wait_for("Unsaved edits found");
     t.send("y");
-    t.wait_for("Roster · 69 of 69 targets");
+    t.wait_for("Roster · 70 of 70 targets");
     t.wait_for("● unsaved");
     t.send("w");
     t.wait_for("saved /");
@@ -340,7 +340,7 @@ fn two_sessions_on_one_programme() {
             .collect()
     };
     let now = names(&prog);
-    assert_eq!(now.len(), 68, "{now:?}");
+    assert_eq!(now.len(), 69, "{now:?}");
     assert!(!now.contains(&"LPO-P01".to_string()) && !now.contains(&"LPO-T2026b".to_string()));
     // B edits again and is killed (SIGKILL: nothing runs on its way out).
     b.send("d");
@@ -350,16 +350,16 @@ fn two_sessions_on_one_programme() {
     assert!(rb.exists());
     signal("-KILL", &pid_b);
     b.wait_for("RUNG-EXIT-137");
-    assert_eq!(names(&rb).len(), 67);
+    assert_eq!(names(&rb).len(), 68);
     // The next session offers B's edits back (A still runs).
     let c = Tmux::start(&command(cfg.path(), "")).unwrap();
     c.wait_for("Unsaved edits found");
     c.send("y");
-    c.wait_for("Roster · 67 of 67 targets");
+    c.wait_for("Roster · 68 of 68 targets");
     assert!(!rb.exists(), "B's file is taken over by C's own");
     c.send("w");
     c.wait_for("saved /");
-    assert_eq!(names(&prog).len(), 67);
+    assert_eq!(names(&prog).len(), 68);
     for t in [&a, &c] {
         t.send("q");
         assert_restored(t, "RUNG-EXIT-0");
