@@ -190,6 +190,16 @@ fn the_figure_renders_with_every_curve_and_the_goals_met_steps() {
             .any(|n| n.attribute("class") == Some("asked"))
     );
     assert!(text.contains("3.0 h asked"));
+    // Every kind among the rows (fields included) is named in the legend.
+    let texts: Vec<&str> = doc
+        .descendants()
+        .filter(|n| n.tag_name().name() == "text")
+        .filter_map(|n| n.text())
+        .collect();
+    for r in v["rows"].as_array().unwrap() {
+        let k = r["kind"].as_str().unwrap();
+        assert!(texts.contains(&k), "the legend lacks {k}");
+    }
 }
 
 #[test]

@@ -32,7 +32,8 @@ fn colour(k: Kind) -> &'static str {
     }
 }
 
-/// A marker of the kind at (x, y): circle, square or triangle.
+/// A marker of the kind at (x, y): circle, square or triangle (a field's
+/// triangle is grey, a transient's green).
 fn marker(k: Kind, x: f64, y: f64, c: &str) -> String {
     match k {
         Kind::Parallax => format!(r#"<circle cx="{x:.1}" cy="{y:.1}" r="3.2" fill="{c}"/>"#),
@@ -253,6 +254,7 @@ pub fn svg(b: &Budget) -> String {
         (Kind::Parallax, "parallax"),
         (Kind::Pulsator, "pulsator"),
         (Kind::Transient, "transient"),
+        (Kind::Field, "field"),
     ] {
         if b.rows.iter().any(|r| r.kind == k) {
             let lx = WIDTH - RIGHT + 70.0;
