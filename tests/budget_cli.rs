@@ -3,6 +3,8 @@
 //! allocation never exceeds the hours asked, the weather and overheads are
 //! stated, and every target's σd/d-against-hours curve is in the JSON.
 
+mod demo_support;
+
 use serde_json::Value;
 use std::process::{Command, Output};
 
@@ -240,22 +242,8 @@ fn every_target_has_its_inverse_curve_from_zero_hours() {
 fn the_goals_met_curve_and_the_inverse_curves_without_hours_asked() {
     // Lean: three targets, the demo range.
     let cfg = tempfile::tempdir().unwrap();
-    let prog = cfg.path().join("three.csv");
-    let demo = std::fs::read_to_string(
-        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("targets-demo/targets.csv"),
-    )
-    .unwrap();
-    let keep: Vec<&str> = demo
-        .lines()
-        .filter(|l| {
-            l.starts_with('#')
-                || l.starts_with("name,")
-                || ["LPO-C03,", "LPO-C06,", "LPO-C09,"]
-                    .iter()
-                    .any(|n| l.starts_with(n))
-        })
-        .collect();
-    std::fs::write(&prog, keep.join("\n") + "\n").unwrap();
+    let prog =
+        demo_support::demo_subset(cfg.path(), "three.csv", &["LPO-C03", "LPO-C06", "LPO-C09"]);
     let args = |extra: &[&str]| -> Vec<String> {
         let mut a: Vec<String> = [
             "budget",

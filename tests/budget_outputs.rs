@@ -3,6 +3,8 @@
 //! hours asked), the LaTeX table is well formed, and the justification
 //! paragraph names only numbers that the JSON holds.
 
+mod demo_support;
+
 use serde_json::Value;
 use std::process::{Command, Output};
 
@@ -264,22 +266,8 @@ fn instruments_side_by_side() {
 fn the_png_figure_is_the_svg_figure_as_a_raster() {
     use rung::plan::budget::figure::{HEIGHT, PNG_SCALE, WIDTH};
     let d = tempfile::tempdir().unwrap();
-    let prog = d.path().join("three.csv");
-    let demo = std::fs::read_to_string(
-        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("targets-demo/targets.csv"),
-    )
-    .unwrap();
-    let keep: Vec<&str> = demo
-        .lines()
-        .filter(|l| {
-            l.starts_with('#')
-                || l.starts_with("name,")
-                || ["LPO-C03,", "LPO-C06,", "LPO-T2026a,"]
-                    .iter()
-                    .any(|n| l.starts_with(n))
-        })
-        .collect();
-    std::fs::write(&prog, keep.join("\n") + "\n").unwrap();
+    let prog =
+        demo_support::demo_subset(d.path(), "three.csv", &["LPO-C03", "LPO-C06", "LPO-T2026a"]);
     let fig = |name: &str| -> std::path::PathBuf {
         let path = d.path().join(name);
         let o = rung(&[
