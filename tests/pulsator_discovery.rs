@@ -284,19 +284,91 @@ fn the_ephemeris_sharpens_as_maxima_accumulate() {
         })
         .collect();
     let u = update_ephemeris(&old, &maxima).unwrap();
-    // k = 2..8 maxima; the period's error never grows as maxima are added
-    // (errors given and no scaling: the information only adds).
+    // k = 2..8 maxima; the period's formal error (before the χ²/ν scaling,
+    // which grows when a new maximum disagrees with the rest) never grows as
+    // maxima are added, the information only adding, among the steps that
+    // agree on the prior: a step that drops the old ephemeris (the maxima put
+    // its period more than 3σ away) loses the prior's information and is
+    // compared only with steps that also dropped it.
     assert_eq!(u.progress.len(), 7);
+    let formal = |p: &rung::ladder::pulsator::OcStep| {
+        p.period_err_d / p.reduced_chi2.unwrap_or(1.0).max(1.0).sqrt()
+    };
+    for flag in [true, false] {
+        let same: Vec<_> = u.progress.iter().filter(|p| p.prior_used == flag).collect();
+        assert!(
+            same.windows(2)
+                .all(|w| formal(w[1]) <= formal(w[0]) * (1.0 + 1e-12)),
+            "prior {flag}: {same:?}"
+        );
+    }
+    // This star's period changed: the early steps lean on the prior, the
+    // later ones (more maxima, a sharper period) have dropped it, and the
+    // last step is the fit shown.
+    assert!(u.progress[0].prior_used, "{:?}", u.progress);
+    let last = u.progress.last().unwrap();
+    assert!(!last.prior_used && !u.prior_used);
+    assert_eq!(last.period_d, u.new.period_d);
+    // Four maxima (the first fit without the prior) to eight: σ_P falls
+    // from 6.3e-4 to 3.6e-4 d (scaled errors both), by more than 1.5.
+    let first_without = u.progress.iter().find(|p| !p.prior_used).unwrap();
+    assert_eq!(first_without.maxima, 4);
     assert!(
-        u.progress
-            .windows(2)
-            .all(|w| w[1].period_err_d <= w[0].period_err_d * (1.0 + 1e-12)),
-        "{:?}",
+        first_without.period_err_d > 1.5 * last.period_err_d,
+        "{:#?}",
         u.progress
     );
-    let last = u.progress.last().unwrap();
-    assert_eq!(last.period_d, u.new.period_d);
-    assert!(u.progress[0].period_err_d > 3.0 * last.period_err_d);
+}
+
+/// The old period as prior information, a case checked by hand. Weighted
+/// least squares with a Gaussian prior (common practice; e.g. Press et al.,
+/// Numerical Recipes, 3rd ed., § 15.4, from memory): with the maxima placed
+/// symmetrically about the reference cycle the epoch and period decouple,
+/// and the period is the inverse-variance weighted mean of the maxima's own
+/// period and the prior's, with 1/σ_P² = Σu²/σ² + 1/σ_prior².
+#[test]
+fn the_old_period_enters_as_a_prior_checked_by_hand() {
+    // Old P = 2.0000 ± 0.0005 d, epoch 2461000.0; three exact maxima of a
+    // star whose period is 2.0006 d at cycles 0, 10, 20 (±0.01 d each).
+    let old = Ephemeris::new(Some(2.0), Some(2_461_000.0), Some(0.0005)).unwrap();
+    let maxima: Vec<Maximum> = [0.0, 10.0, 20.0]
+        .iter()
+        .map(|n| Maximum {
+            bjd: 2_461_000.0 + 2.0006 * n,
+            err_d: Some(0.01),
+        })
+        .collect();
+    let u = update_ephemeris(&old, &maxima).unwrap();
+    // By hand: u = −10, 0, 10 about n0 = 10; Σu²/σ² = 200/1e-4 = 2e6 d⁻²
+    // (the maxima alone: P = 2.0006 ± 7.07e-4 d), 1/σ_prior² = 4e6 d⁻².
+    // 2.0006 is 0.69σ from 2.0000, so the prior is used:
+    // P = (2e6·2.0006 + 4e6·2.0000)/6e6 = 2.0002 d, σ_P = 1/√6e6 = 4.0825e-4 d;
+    // the epoch at cycle 10 is the mean of the maxima, 2461020.006, σ_E =
+    // 0.01/√3 = 0.0057735 d; χ² = 0.32 + 0.16 over ν = 2 stays below 1, no
+    // scaling.
+    assert!(u.prior_used, "{:?}", u.notes);
+    assert!((u.new.period_d - 2.0002).abs() < 1e-9, "{}", u.new.period_d);
+    assert!(
+        (u.new.period_err_d - 4.0825e-4).abs() < 1e-8,
+        "{}",
+        u.new.period_err_d
+    );
+    assert!((u.new.epoch_max_bjd - 2_461_020.006).abs() < 1e-7);
+    assert!((u.new.epoch_err_d - 0.0057735).abs() < 1e-7);
+    assert!((u.reduced_chi2.unwrap() - 0.24).abs() < 1e-6);
+    assert!(u.notes.iter().any(|n| n.contains("prior of the fit")));
+    // The same maxima with the old period at 1.9960 ± 0.0005 d: 5.3σ away (0.0046/√(7.07e-4² + 5e-4²)),
+    // the prior is dropped and said, and the fit is the maxima's alone.
+    let stale = Ephemeris::new(Some(1.996), Some(2_461_000.0), Some(0.0005)).unwrap();
+    let v = update_ephemeris(&stale, &maxima).unwrap();
+    assert!(!v.prior_used);
+    assert!((v.new.period_d - 2.0006).abs() < 1e-9, "{}", v.new.period_d);
+    assert!((v.new.period_err_d - 7.0711e-4).abs() < 1e-8);
+    assert!(
+        v.notes.iter().any(|n| n.contains("not used as a prior")),
+        "{:?}",
+        v.notes
+    );
 }
 
 #[test]
@@ -328,6 +400,7 @@ fn the_ephemeris_from_times_of_maximum_matches_numpy() {
         let u = update_ephemeris(&old, &maxima).unwrap();
         let w = &case["numpy"];
         let name = case["name"].as_str().unwrap();
+        assert_eq!(u.prior_used, case["prior"].as_bool().unwrap(), "{name}");
         assert_eq!(
             u.points.iter().map(|x| x.cycle).collect::<Vec<_>>(),
             case["cycles"]
@@ -495,6 +568,24 @@ fn maxima_refit_the_ephemeris_on_the_command_line() {
     let u = &v["ephemeris_update"];
     assert_eq!(u["points"].as_array().unwrap().len(), 4);
     assert_eq!(u["progress"].as_array().unwrap().len(), 3);
+    // Each step says whether the old ephemeris was its prior; the old
+    // 9.87 ± 0.0002 d is far from these maxima's 9.8746 d, so the full fit
+    // dropped it and says so.
+    assert_eq!(u["prior_used"], false);
+    assert!(
+        u["progress"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .all(|p| p["prior_used"].is_boolean())
+    );
+    assert!(
+        u["notes"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|n| n.as_str().unwrap().contains("not used as a prior"))
+    );
     // The refitted period stands in for the target's everywhere.
     assert_eq!(v["period_d"], u["new"]["period_d"]);
     // Near the slope from the first to the last maximum, (2461408.0088 −

@@ -474,6 +474,10 @@ fn print_update(u: &rung::ladder::pulsator::EphemerisUpdate) {
             .unwrap_or_default()
     );
     super::outln!(
+        "  old ephemeris as prior: {}",
+        if u.prior_used { "used" } else { "not used" }
+    );
+    super::outln!(
         "  {:>6} {:>14} {:>10} {:>10}",
         "cycle",
         "BJD_TDB",
@@ -494,8 +498,11 @@ fn print_update(u: &rung::ladder::pulsator::EphemerisUpdate) {
         .iter()
         .map(|p| {
             format!(
-                "{}: σ_P {:.2e}, σ_E {:.4}",
-                p.maxima, p.period_err_d, p.epoch_err_d
+                "{}: σ_P {:.2e}, σ_E {:.4}{}",
+                p.maxima,
+                p.period_err_d,
+                p.epoch_err_d,
+                if p.prior_used { " (with prior)" } else { "" }
             )
         })
         .collect();

@@ -4,8 +4,11 @@
 Invented times of maximum of invented stars, and numpy's weighted linear
 least squares of T = E + P (n - n0) over the cycle numbers n the old
 ephemeris assigns (n0 the cycle nearest the weighted mean cycle), with the
-covariance (A^T W A)^-1, scaled by chi2/dof when the scatter exceeds the
-errors (or set by the scatter when no errors are given). Offline; run from
+old period as prior information (one more row, P = old_p with weight
+1/old_pe^2; dropped when the maxima alone put the period more than 3 sigma
+from it), the covariance (A^T W A)^-1 of the whole system, scaled by
+chi2/dof when the scatter exceeds the errors (errors set by the scatter
+about the fit without the prior when none are given). Offline; run from
 the repository root:
 
     python3 tests/reference/make_oc_fixtures.py
@@ -34,14 +37,30 @@ def case(name, old_p, old_e, old_pe, true_p, true_e, cycles, errs):
     n0 = int(np.floor(nbar + 0.5))
     a = np.column_stack([np.ones(len(n)), n - n0])
     y = t - old_e
-    sw = np.sqrt(w)
-    coef, *_ = np.linalg.lstsq(a * sw[:, None], y * sw, rcond=None)
-    cov = np.linalg.inv(a.T @ (a * w[:, None]))
-    chi2 = float(np.sum(w * (y - a @ coef) ** 2))
-    dof = len(n) - 2
+
+    def fit(w, prior):
+        # The prior on the period is one more row of the whitened system:
+        # P = old_p with weight 1/old_pe^2.
+        sw = np.sqrt(w)
+        aw, yw = a * sw[:, None], y * sw
+        if prior:
+            aw = np.vstack([aw, [0.0, 1.0 / old_pe]])
+            yw = np.append(yw, old_p / old_pe)
+        coef, *_ = np.linalg.lstsq(aw, yw, rcond=None)
+        cov = np.linalg.inv(aw.T @ aw)
+        chi2 = float(np.sum((yw - aw @ coef) ** 2))
+        return coef, cov, chi2
+
     if e is None:
-        cov = cov * chi2 / dof
-    elif chi2 / dof > 1:
+        # The scatter about the fit without the prior sets the errors.
+        _, _, chi2 = fit(w, False)
+        w = np.ones(len(n)) / (chi2 / (len(n) - 2))
+    coef0, cov0, _ = fit(w, False)
+    # The prior unless the maxima put the period more than 3 sigma from it.
+    prior = abs(coef0[1] - old_p) <= 3 * np.sqrt(cov0[1, 1] + old_pe**2)
+    coef, cov, chi2 = fit(w, prior)
+    dof = len(n) - 2 + (1 if prior else 0)
+    if e is not None and chi2 / dof > 1:
         cov = cov * chi2 / dof
     return {
         "name": name,
@@ -50,6 +69,7 @@ def case(name, old_p, old_e, old_pe, true_p, true_e, cycles, errs):
         "old_period_err_d": old_pe,
         "maxima": [[float(ti), (None if e is None else float(ei))] for ti, ei in zip(t, (e if e is not None else [None] * len(t)))],
         "cycles": [int(x) for x in n],
+        "prior": bool(prior),
         "numpy": {
             "period_d": float(coef[1]),
             "epoch_bjd": float(old_e + coef[0]),
@@ -67,6 +87,9 @@ cases = [
     case("rrlyrae", 0.5512, 2461000.1200, 0.00001, 0.551234, 2461000.1210, [0, 45, 180, 400, 720, 1100, 1500], [0.002, 0.002, 0.003, 0.002, 0.004, 0.002, 0.003]),
     # No errors given: the scatter sets them.
     case("no-errors", 4.2, 2461010.5, 0.001, 4.2012, 2461010.51, [1, 9, 20, 33, 47, 61], None),
+    # Three maxima over a few cycles and a good catalogue period: the prior
+    # carries most of the period.
+    case("prior-helps", 5.05, 2461005.0170, 0.0001, 5.05004, 2461005.0200, [40, 42, 45], [0.03, 0.03, 0.03]),
 ]
 out = {"numpy": np.__version__, "cases": cases}
 with open("tests/reference/oc_fixtures.json", "w") as f:

@@ -695,6 +695,10 @@ pub struct EphemerisUpdate {
     pub points: Vec<OcPoint>,
     /// χ² per degree of freedom of the fit (`None` with errors unknown).
     pub reduced_chi2: Option<f64>,
+    /// Whether the old ephemeris entered the fit as prior information
+    /// (false: it had no errors, or the maxima put its period more than 3σ
+    /// away and it was dropped; the notes say which).
+    pub prior_used: bool,
     /// The fit on the first k maxima in time order, k = 2 (3 without
     /// errors) up to all: how period and epoch sharpen as maxima accumulate.
     pub progress: Vec<OcStep>,
@@ -717,11 +721,25 @@ pub struct OcStep {
     pub epoch_max_bjd: f64,
     /// Its 1σ error, days.
     pub epoch_err_d: f64,
+    /// Whether this step's fit used the old ephemeris as prior information
+    /// (steps with and without it are not comparable: the prior adds
+    /// information the maxima alone do not have).
+    pub prior_used: bool,
+    /// χ² per degree of freedom of this step's fit (`None` with errors
+    /// unknown or no degree of freedom); above 1 the errors were scaled up
+    /// by its square root.
+    pub reduced_chi2: Option<f64>,
 }
 
 /// The linear ephemeris T_max(n) = E + P n fitted by weighted least squares
 /// to `maxima` (BJD_TDB with their errors), the cycle numbers n counted from
-/// `old`'s epoch with `old`'s period. The epoch is moved to the cycle nearest
+/// `old`'s epoch with `old`'s period, with the old ephemeris as prior
+/// information (its period and, when known, its epoch with their errors and
+/// covariance, added to the normal equations: the weighted least squares of
+/// the maxima and the prior together; a prior the maxima put more than 3σ
+/// away is dropped and said, the period having changed). Source: least
+/// squares with prior information (e.g. Press et al., Numerical Recipes,
+/// 3rd ed., § 15.4, quoted from memory; common practice). The epoch is moved to the cycle nearest
 /// the weighted mean cycle, so that E and P are nearly uncorrelated; their
 /// errors and covariance come from (AᵀWA)⁻¹, scaled by √χ²_ν when the
 /// scatter exceeds the errors given (common practice), or from the scatter
@@ -752,6 +770,8 @@ pub fn update_ephemeris(old: &Ephemeris, maxima: &[Maximum]) -> Result<Ephemeris
                 period_err_d: f.new.period_err_d,
                 epoch_max_bjd: f.new.epoch_max_bjd,
                 epoch_err_d: f.new.epoch_err_d,
+                prior_used: f.prior_used,
+                reduced_chi2: f.reduced_chi2,
             })
         })
         .collect();
@@ -826,34 +846,119 @@ fn fit_oc(old: &Ephemeris, maxima: &[Maximum]) -> Result<EphemerisUpdate> {
     let wsum: f64 = rows.iter().map(|r| 1.0 / (r.2 * r.2)).sum();
     let nbar: f64 = rows.iter().map(|r| r.0 as f64 / (r.2 * r.2)).sum::<f64>() / wsum;
     let n0 = nbar.round() as i64;
-    // Normal equations in (E', P) with E' the maximum at cycle n0; times
-    // relative to the old epoch for precision.
-    let (mut s00, mut s01, mut s11, mut r0, mut r1) = (0.0, 0.0, 0.0, 0.0, 0.0);
-    for (n, t, e) in &rows {
-        let w = 1.0 / (e * e);
-        let u = (n - n0) as f64;
-        let y = t - old.epoch_max_bjd;
-        s00 += w;
-        s01 += w * u;
-        s11 += w * u * u;
-        r0 += w * y;
-        r1 += w * u * y;
+    // The old ephemeris as prior information on (E at cycle 0, P): its
+    // information matrix (the inverse of its covariance; a component whose
+    // error is unknown, 0, carries none).
+    let prior = {
+        let (se, sp, c) = (old.epoch_err_d, old.period_err_d, old.epoch_period_cov_d2);
+        if se > 0.0 && sp > 0.0 {
+            let det = se * se * sp * sp - c * c;
+            (det > 0.0).then(|| [[sp * sp / det, -c / det], [-c / det, se * se / det]])
+        } else if sp > 0.0 {
+            Some([[0.0, 0.0], [0.0, 1.0 / (sp * sp)]])
+        } else if se > 0.0 {
+            Some([[1.0 / (se * se), 0.0], [0.0, 0.0]])
+        } else {
+            None
+        }
+    };
+    let prior_rank = prior.map_or(0.0, |l| {
+        f64::from(u8::from(l[0][0] > 0.0)) + f64::from(u8::from(l[1][1] > 0.0))
+    });
+    // Weighted least squares of y = T − E_old = E' + P (n − n0), E' the
+    // maximum at cycle n0 relative to the old epoch, with the prior's
+    // information added to the normal equations (a prior on g = M θ,
+    // M = [[1, −n0], [0, 1]], mean (0, P_old)). Returns (E', P, C, χ²) with
+    // χ² over the maxima and the prior.
+    let solve = |rows: &[(i64, f64, f64)], prior: Option<[[f64; 2]; 2]>| {
+        let (mut s00, mut s01, mut s11, mut r0, mut r1) = (0.0, 0.0, 0.0, 0.0, 0.0);
+        for (n, t, e) in rows {
+            let w = 1.0 / (e * e);
+            let u = (n - n0) as f64;
+            let y = t - old.epoch_max_bjd;
+            s00 += w;
+            s01 += w * u;
+            s11 += w * u * u;
+            r0 += w * y;
+            r1 += w * u * y;
+        }
+        let k = n0 as f64;
+        if let Some(l) = prior {
+            // Mᵀ Λ M and Mᵀ Λ g0.
+            s00 += l[0][0];
+            s01 += -k * l[0][0] + l[0][1];
+            s11 += k * k * l[0][0] - 2.0 * k * l[0][1] + l[1][1];
+            r0 += l[0][1] * old.period_d;
+            r1 += (-k * l[0][1] + l[1][1]) * old.period_d;
+        }
+        let det = s00 * s11 - s01 * s01;
+        if det.is_nan() || det <= 0.0 {
+            return None;
+        }
+        let (c00, c01, c11) = (s11 / det, -s01 / det, s00 / det);
+        let e_rel = c00 * r0 + c01 * r1;
+        let p = c01 * r0 + c11 * r1;
+        let mut chi2: f64 = rows
+            .iter()
+            .map(|(n, t, e)| ((t - old.epoch_max_bjd - e_rel - p * (n - n0) as f64) / e).powi(2))
+            .sum();
+        if let Some(l) = prior {
+            let g = [e_rel - k * p, p - old.period_d];
+            chi2 +=
+                g[0] * (l[0][0] * g[0] + l[0][1] * g[1]) + g[1] * (l[1][0] * g[0] + l[1][1] * g[1]);
+        }
+        Some((e_rel, p, c00, c01, c11, chi2))
+    };
+    let no_fix = || RungError::invalid("maxima", "the maxima do not fix a period");
+    let n_data = rows.len() as f64;
+    // Without errors the maxima's scatter about the fit without the prior
+    // sets them; the prior then weighs against that scatter.
+    if !known {
+        let (.., chi2) = solve(&rows, None).ok_or_else(no_fix)?;
+        let s = (chi2 / (n_data - 2.0)).sqrt();
+        notes.push(format!(
+            "no errors given for the maxima: their scatter about the fit ({s:.4} d) sets them"
+        ));
+        if s > 0.0 {
+            for r in &mut rows {
+                r.2 = s;
+            }
+        }
     }
-    let det = s00 * s11 - s01 * s01;
-    if det.is_nan() || det <= 0.0 {
-        return Err(RungError::invalid(
-            "maxima",
-            "the maxima do not fix a period",
+    // The prior, unless the maxima contradict it (the period changed, or its
+    // error was too small): beyond 3σ of the two together, it is dropped.
+    let data_only = solve(&rows, None).ok_or_else(no_fix)?;
+    let mut use_prior = prior;
+    if prior.is_some() && old.period_err_d > 0.0 {
+        let gap = (data_only.1 - old.period_d).abs();
+        let sig = (data_only.4 + old.period_err_d.powi(2)).sqrt();
+        if gap > 3.0 * sig {
+            notes.push(format!(
+                "the maxima put the period {:.1}σ from the old {} ± {} d: it has changed (or its error was too small), so the old ephemeris is not used as a prior",
+                gap / sig,
+                old.period_d,
+                old.period_err_d
+            ));
+            use_prior = None;
+        }
+    }
+    if use_prior.is_some() {
+        notes.push(format!(
+            "the old ephemeris is a prior of the fit (P = {} ± {} d{})",
+            old.period_d,
+            old.period_err_d,
+            if old.epoch_err_d > 0.0 {
+                format!(", epoch ± {} d", old.epoch_err_d)
+            } else {
+                String::new()
+            }
         ));
     }
-    let (c00, c01, c11) = (s11 / det, -s01 / det, s00 / det);
-    let e_rel = c00 * r0 + c01 * r1;
-    let p = c01 * r0 + c11 * r1;
-    let chi2: f64 = rows
-        .iter()
-        .map(|(n, t, e)| ((t - old.epoch_max_bjd - e_rel - p * (n - n0) as f64) / e).powi(2))
-        .sum();
-    let dof = rows.len() as f64 - 2.0;
+    let (e_rel, p, c00, c01, c11, chi2) = match use_prior {
+        Some(_) => solve(&rows, use_prior).ok_or_else(no_fix)?,
+        None => data_only,
+    };
+    let dof = n_data - 2.0 + if use_prior.is_some() { prior_rank } else { 0.0 };
     let (scale, red) = if known {
         let red = if dof > 0.0 { Some(chi2 / dof) } else { None };
         match red {
@@ -867,11 +972,7 @@ fn fit_oc(old: &Ephemeris, maxima: &[Maximum]) -> Result<EphemerisUpdate> {
             _ => (1.0, red),
         }
     } else {
-        notes.push(format!(
-            "no errors given for the maxima: their scatter about the fit ({:.4} d) sets them",
-            (chi2 / dof).sqrt()
-        ));
-        (chi2 / dof, None)
+        (1.0, None)
     };
     let new = Ephemeris {
         period_d: p,
@@ -898,6 +999,7 @@ fn fit_oc(old: &Ephemeris, maxima: &[Maximum]) -> Result<EphemerisUpdate> {
         new,
         points,
         reduced_chi2: red,
+        prior_used: use_prior.is_some(),
         progress: Vec::new(),
         notes,
     })
