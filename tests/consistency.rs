@@ -195,11 +195,15 @@ fn row_named<'a>(rows: &'a [Vec<String>], name: &str) -> &'a [String] {
 }
 
 fn select(s: &mut rung::tui::State, name: &str) {
-    for _ in 0..100 {
-        if s.selected().unwrap().name == name {
-            return;
+    use crossterm::event::KeyCode::{Down, Up};
+    // Down the list, then back up (the target may lie above the selection).
+    for k in [Down, Up] {
+        for _ in 0..100 {
+            if s.selected().unwrap().name == name {
+                return;
+            }
+            key(s, k);
         }
-        key(s, crossterm::event::KeyCode::Down);
     }
     panic!("{name} not reached");
 }
@@ -876,6 +880,169 @@ fn every_demo_target_agrees_on_every_surface() {
         &format!("{} skipped", skipped.len()),
     );
 
+    // ---- The demo's fields (#16): each field is one unit, and `rung phase
+    // --field`, its `rung budget` row, its `rung plan` outcome, its Roster
+    // row and the Phase view (the library's `Settings::field_report`, which
+    // the UI draws) give the same numbers; a star of a field takes the
+    // field's metallicity on the command line as in the field's report.
+    for f in ["LPO-G1", "LPO-GC1"] {
+        let p = rung(cfg, &["phase", "--targets", DEMO, "--field", f, "--json"]).unwrap();
+        let (pd, pp, b, o) = (
+            &p["distance"],
+            &p["prediction"],
+            &budget_rows[f],
+            &outcomes[f],
+        );
+        let visits: usize = p["pointings"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|x| x["epochs"].as_array().unwrap().len())
+            .sum();
+        // rung phase --field ↔ rung budget: the same computation, exactly.
+        d.eq(
+            format!("{f} phase vs budget precision"),
+            &pd["distance_precision_pct"],
+            &b["achievable_pct"],
+        );
+        d.eq(
+            format!("{f} phase vs budget hours"),
+            &pp["hours_needed"],
+            &b["hours"],
+        );
+        d.eq(
+            format!("{f} phase vs budget visits"),
+            visits as u64,
+            b["epochs"].as_u64().unwrap(),
+        );
+        d.eq(
+            format!("{f} phase vs budget verdict"),
+            &pp["verdict"],
+            &b["verdict"],
+        );
+        d.eq(
+            format!("{f} phase vs budget goal"),
+            &p["goal_pct"],
+            &b["goal_pct"],
+        );
+        d.eq(
+            format!("{f} phase vs budget terms"),
+            &pd["error_terms"],
+            &b["error_terms"],
+        );
+        // rung plan: asks for the budget's visits and says its verdict; its
+        // own precision is that of the visits it placed (their instants
+        // rounded to the second), the same to every printed digit.
+        d.eq(
+            format!("{f} plan visits asked"),
+            &o["requested"],
+            &b["epochs"],
+        );
+        d.eq(
+            format!("{f} plan verdict"),
+            &o["goal_verdict"],
+            &b["verdict"],
+        );
+        d.eq(format!("{f} plan goal"), &o["goal_pct"], &b["goal_pct"]);
+        d.eq(
+            format!("{f} plan precision"),
+            fixed(&o["distance_precision_pct"], 2),
+            fixed(&b["achievable_pct"], 2),
+        );
+        // The Roster's field row: its progress towards the goal.
+        let row = row_named(roster_rows, f);
+        let tick = if b["verdict"]["label"] == "reachable" {
+            "✓"
+        } else {
+            ""
+        };
+        d.eq(
+            format!("{f} Roster progress"),
+            rt.cell(row, "σd/d·goal"),
+            format!(
+                "{:.1}/{}%{tick}",
+                b["achievable_pct"].as_f64().unwrap(),
+                goal_text(b["goal_pct"].as_f64().unwrap())
+            ),
+        );
+        // The Phase view of the field.
+        ch(&mut s, '1');
+        select(&mut s, f);
+        ch(&mut s, '5');
+        let view: Vec<String> = cells(&s, w, h).iter().map(|r| text(r)).collect();
+        let all = view.join("\n");
+        d.has(
+            format!("{f} Phase view cost"),
+            &all,
+            &format!(
+                "{visits} visits · {} h · {}",
+                fixed(&pp["hours_needed"], 1),
+                pp["verdict"]["text"].as_str().unwrap()
+            ),
+        );
+        d.has(
+            format!("{f} Phase view distance"),
+            &all,
+            &format!(
+                "μ {} ± {} mag · {:.1} kpc · σd/d {}%",
+                fixed(&pd["distance_modulus_mag"], 3),
+                fixed(&pd["sigma_mu_mag"], 3),
+                pd["distance_pc"].as_f64().unwrap() / 1000.0,
+                fixed(&pd["distance_precision_pct"], 2)
+            ),
+        );
+        for x in p["stars"].as_array().unwrap() {
+            let n = x["name"].as_str().unwrap();
+            let line = view
+                .iter()
+                .find(|l| l.starts_with(n))
+                .cloned()
+                .unwrap_or_default();
+            d.has(
+                format!("{n} Phase view μ"),
+                &line,
+                &format!(
+                    "{} {}",
+                    fixed(&x["distance_modulus_mag"], 3),
+                    fixed(&x["weight"], 3)
+                ),
+            );
+        }
+        // A star of the field, asked on its own (the brightest: the faint
+        // ones alone need more than a visit may hold): the field's
+        // metallicity.
+        let star = p["stars"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .min_by(|a, b| {
+                a["mean_mag"]
+                    .as_f64()
+                    .partial_cmp(&b["mean_mag"].as_f64())
+                    .unwrap()
+            })
+            .unwrap()["name"]
+            .as_str()
+            .unwrap();
+        let m = rung(
+            cfg,
+            &["phase", "--targets", DEMO, "--target", star, "--json"],
+        )
+        .unwrap();
+        d.eq(
+            format!("{star} [Fe/H] vs its field"),
+            &m["feh_dex"],
+            &p["feh_dex"],
+        );
+        d.eq(
+            format!("{star} σ[Fe/H] vs its field"),
+            &m["feh_err_dex"],
+            &p["feh_err_dex"],
+        );
+        *compared.entry("fields").or_default() += 1;
+        ch(&mut s, '1');
+    }
+
     // Plan ↔ rung night --json: tonight's visits lie in tonight's windows.
     for v in plan["plan"]["visits"].as_array().unwrap() {
         if v["night"] != DATE {
@@ -915,6 +1082,7 @@ fn every_demo_target_agrees_on_every_surface() {
     );
     assert!(compared["method night↔night"] >= 15, "{compared:?}");
     assert!(compared["plan visits tonight"] >= 5, "{compared:?}");
+    assert_eq!(compared["fields"], 2, "{compared:?}");
 }
 
 /// A method command's epochs (a pulsator's are its `visits`).

@@ -382,3 +382,91 @@ fn links_refuse_what_is_not_a_field_and_say_why() {
         "field 'LPO-G9' of target 'LPO-P2' is refused: only pulsators join a field, and 'LPO-P2' is a parallax target (clear its field)"
     );
 }
+
+/// A star of a field takes the field's metallicity wherever it is resolved
+/// (the field's plan, `rung phase --target` on the star, the ladder): the
+/// star's own [Fe/H] first, else the field's with the star's own σ when
+/// given, else the field's σ, else (the field giving [Fe/H] alone)
+/// config/field.toml's assumed σ (0.2 dex). A star outside any field keeps
+/// what it has.
+#[test]
+fn a_star_of_a_field_takes_the_field_metallicity() {
+    use rung::ladder::field::{FieldConfig, with_field_metallicity};
+    let cfg = FieldConfig::builtin();
+    let mut field = Target::plain("LPO-X1", 10.0, -30.0);
+    field.kind = Kind::Field;
+    field.feh_dex = Some(-1.6);
+    field.feh_err_dex = Some(0.1);
+    let member = |name: &str, feh: Option<f64>, err: Option<f64>| {
+        let mut t = Target::plain(name, 10.0, -30.0);
+        t.kind = Kind::Pulsator;
+        t.field = "LPO-X1".into();
+        t.feh_dex = feh;
+        t.feh_err_dex = err;
+        t
+    };
+    let mut alone = member("LPO-X9", None, None);
+    alone.field.clear();
+    let ts = vec![
+        field.clone(),
+        member("LPO-X1-a", None, None),
+        member("LPO-X1-b", Some(-1.2), Some(0.05)),
+        member("LPO-X1-c", None, Some(0.3)),
+        alone,
+    ];
+    let got = |i: usize, ts: &[Target]| {
+        let (t, note) = with_field_metallicity(ts, &ts[i], &cfg);
+        (t.feh_dex, t.feh_err_dex, note)
+    };
+    let (f, e, note) = got(1, &ts);
+    assert_eq!((f, e), (Some(-1.6), Some(0.1)));
+    assert_eq!(
+        note.unwrap(),
+        "[Fe/H] -1.60 ± 0.10 dex from its field LPO-X1"
+    );
+    assert_eq!(got(2, &ts), (Some(-1.2), Some(0.05), None));
+    // The star's own σ with the field's [Fe/H].
+    assert_eq!(got(3, &ts), (Some(-1.6), Some(0.3), got(3, &ts).2));
+    assert_eq!(got(4, &ts), (None, None, None));
+    // The field gives [Fe/H] without σ: the configured σ, said.
+    let mut ts2 = ts.clone();
+    ts2[0].feh_err_dex = None;
+    let (f, e, note) = got(1, &ts2);
+    assert_eq!((f, e), (Some(-1.6), Some(cfg.defaults.feh_err_dex)));
+    assert_eq!(cfg.defaults.feh_err_dex, 0.2);
+    assert!(note.unwrap().contains("σ assumed"));
+}
+
+/// On the command line: `rung phase --target` on a star of the demo cluster
+/// LPO-GC1 ([Fe/H] −1.60 ± 0.10 on its row) uses its cluster's metallicity,
+/// not the RR Lyrae class's assumed −1.50 ± 0.50 (config/pulsator.toml).
+#[test]
+fn rung_phase_on_a_cluster_star_uses_the_cluster_metallicity() {
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args([
+            "phase",
+            "--targets",
+            concat!(env!("CARGO_MANIFEST_DIR"), "/targets-demo/targets.csv"),
+            "--target",
+            "LPO-GC1-V01",
+            "--nights",
+            "20",
+            "--json",
+        ])
+        .env("RUNG_CONFIG_DIR", env!("CARGO_TARGET_TMPDIR"))
+        .env("RUNG_NOW", "2026-12-02T01:00:00Z")
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["feh_dex"], -1.6);
+    assert_eq!(v["feh_err_dex"], 0.1);
+    assert_eq!(v["feh_assumed"], false);
+    // γ σ[Fe/H] = 0.214 × 0.10 = 0.0214 mag (the V relation's γ).
+    assert!((v["sigma_feh_mag"].as_f64().unwrap() - 0.0214).abs() < 1e-9);
+    assert!(v["notes"].to_string().contains("from its field LPO-GC1"));
+}

@@ -6,6 +6,7 @@ use rung::astro::bary::bjd_tdb;
 use rung::astro::time::parse_instant;
 use rung::io::angles::{parse_dec_deg, parse_ra_deg};
 use rung::io::targets::{BANDS, Kind, Target};
+use rung::ladder::field::FieldConfig;
 use rung::ladder::pulsator::{PhaseReport, PulsatorMethod};
 use rung::programme::Report;
 use serde_json::{Map, Value, json};
@@ -96,7 +97,7 @@ pub struct Args {
 }
 
 /// The target `rung phase` plans, with the notes its options call for.
-fn build_target(a: &Args) -> Result<(Target, Vec<String>)> {
+fn build_target(a: &Args, fields: &FieldConfig) -> Result<(Target, Vec<String>)> {
     let mut notes = Vec::new();
     let mut t = match (&a.aim.target, &a.aim.ra, &a.aim.dec) {
         (Some(n), _, _) => {
@@ -108,6 +109,12 @@ fn build_target(a: &Args) -> Result<(Target, Vec<String>)> {
                     t.kind.as_str()
                 );
             }
+            // A star of a field takes the field's metallicity where its row
+            // gives none (the field's plan and the ladder do the same).
+            let file = a.aim.targets.clone().unwrap_or_else(super::demo_programme);
+            let all = super::load_targets(&file)?;
+            let (t, note) = rung::ladder::field::with_field_metallicity(&all, &t, fields);
+            notes.extend(note);
             t
         }
         (None, Some(r), Some(d)) => {
@@ -294,7 +301,7 @@ pub fn run(a: Args) -> Result<()> {
         }
         return run_field(&st, &programme, &name, a.goal.goal_pct, a.json);
     }
-    let (mut target, option_notes) = build_target(&a)?;
+    let (mut target, option_notes) = build_target(&a, &st.fields)?;
     if let (Some((lo, hi)), true) = (
         m.discover_range,
         target.period_d.is_none() || target.epoch_max_bjd.is_none(),

@@ -199,6 +199,73 @@ impl Links {
     }
 }
 
+/// A field's metallicity for its stars: its row's [Fe/H] and σ[Fe/H], the
+/// σ assumed (`defaults.feh_err_dex`, config/field.toml) when the row gives
+/// [Fe/H] without one. Returns ([Fe/H], σ, whether σ was assumed).
+pub fn field_metallicity(field: &Target, cfg: &FieldConfig) -> (Option<f64>, Option<f64>, bool) {
+    match (field.feh_dex, field.feh_err_dex) {
+        (f, Some(e)) => (f, Some(e), false),
+        (Some(f), None) => (Some(f), Some(cfg.defaults.feh_err_dex), true),
+        (None, None) => (None, None, false),
+    }
+}
+
+/// A star's metallicity as its programme gives it, the one rule every
+/// surface uses (the field's plan, `rung phase --target` on a star of a
+/// field, the ladder): the star's own [Fe/H] when its row gives one; else
+/// its field's, with the star's own σ[Fe/H] when given, else the field's
+/// ([`field_metallicity`]). Sets `feh_dex`, `feh_err_dex` and says whether
+/// the field's [Fe/H] was taken.
+pub fn take_field_metallicity(
+    feh_dex: &mut Option<f64>,
+    feh_err_dex: &mut Option<f64>,
+    field: &Target,
+    cfg: &FieldConfig,
+) -> bool {
+    if feh_dex.is_some() {
+        return false;
+    }
+    let (f, e, _) = field_metallicity(field, cfg);
+    *feh_dex = f;
+    *feh_err_dex = feh_err_dex.or(e);
+    f.is_some()
+}
+
+/// `star` (a target of `targets`) with its field's metallicity where it
+/// gives none of its own ([`take_field_metallicity`]), and a note saying so
+/// when taken. A target in no field, or whose field gives no [Fe/H], is
+/// returned as it is.
+pub fn with_field_metallicity(
+    targets: &[Target],
+    star: &Target,
+    cfg: &FieldConfig,
+) -> (Target, Option<String>) {
+    let mut t = star.clone();
+    let links = link(targets);
+    let Some(i) = targets.iter().position(|x| x.name == star.name) else {
+        return (t, None);
+    };
+    let Role::Member(g) = links.role(i) else {
+        return (t, None);
+    };
+    let field = &targets[g.field];
+    if !take_field_metallicity(&mut t.feh_dex, &mut t.feh_err_dex, field, cfg) {
+        return (t, None);
+    }
+    let note = format!(
+        "[Fe/H] {:+.2} ± {:.2} dex from its field {}{}",
+        t.feh_dex.unwrap_or(0.0),
+        t.feh_err_dex.unwrap_or(0.0),
+        field.name,
+        if field_metallicity(field, cfg).2 && star.feh_err_dex.is_none() {
+            " (σ assumed, config/field.toml)"
+        } else {
+            ""
+        }
+    );
+    (t, Some(note))
+}
+
 /// Link every pulsator that names a field to it. A `field` that names no
 /// target, a target that is not a field, or a target that is not a pulsator
 /// is refused with a message that says which and what to do; the target is
@@ -919,11 +986,7 @@ impl<'a> FieldPlanner<'a> {
         let d = &self.pulsator.config.defaults;
         // The field's metallicity is its stars' unless a star gives its own;
         // its error, when the field gives [Fe/H] without one, is assumed.
-        let (feh_err_dex, feh_assumed) = match (fs.field.feh_dex, fs.field.feh_err_dex) {
-            (_, Some(e)) => (Some(e), false),
-            (Some(_), None) => (Some(self.config.defaults.feh_err_dex), true),
-            (None, None) => (None, false),
-        };
+        let (_, feh_err_dex, feh_assumed) = field_metallicity(fs.field, self.config);
         if feh_assumed {
             notes.push(format!(
                 "the field gives [Fe/H] without feh_err_dex: σ[Fe/H] = {} dex assumed (config/field.toml)",
@@ -937,10 +1000,12 @@ impl<'a> FieldPlanner<'a> {
         for (idx, t) in fs.members.iter().enumerate() {
             let m = (|| -> std::result::Result<Member, String> {
                 let mut star = Star::from_target(t).map_err(|e| e.to_string())?;
-                if star.feh_dex.is_none() {
-                    star.feh_dex = fs.field.feh_dex;
-                    star.feh_err_dex = star.feh_err_dex.or(feh_err_dex);
-                }
+                take_field_metallicity(
+                    &mut star.feh_dex,
+                    &mut star.feh_err_dex,
+                    fs.field,
+                    self.config,
+                );
                 let mean = star.mean_mag.ok_or_else(|| {
                     "has no mean_mag: its exposure and distance need it".to_string()
                 })?;

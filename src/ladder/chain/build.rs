@@ -34,7 +34,7 @@ use crate::ladder::transient::{TransientMethod, ZeroPoint};
 use crate::ladder::{ErrorTerm, Method, Prediction};
 use crate::programme::Settings;
 use serde::Serialize;
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, HashMap};
 use std::path::Path;
 
 /// What a target is on the ladder.
@@ -506,6 +506,16 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
             .into_iter()
             .collect()
     };
+    // Each field's star → its field's row.
+    let field_of: HashMap<&str, &Target> = links
+        .groups
+        .iter()
+        .flat_map(|g| {
+            g.members
+                .iter()
+                .map(move |&m| (targets[m].name.as_str(), &targets[g.field]))
+        })
+        .collect();
     let field_phot = |i: usize| -> Option<Result<Phot>> {
         let t = &targets[i];
         let why = match links.role(i) {
@@ -607,7 +617,19 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
             ));
             continue;
         };
-        let sr = match Star::from_target(t).and_then(|star| star.relation(&pmeth.config)) {
+        // A star of a field takes the field's metallicity where it gives
+        // none (the rule of the field's plan, `field::take_field_metallicity`).
+        let sr = match Star::from_target(t).and_then(|mut star| {
+            if let Some(f) = field_of.get(t.name.as_str()) {
+                crate::ladder::field::take_field_metallicity(
+                    &mut star.feh_dex,
+                    &mut star.feh_err_dex,
+                    f,
+                    &settings.fields,
+                );
+            }
+            star.relation(&pmeth.config)
+        }) {
             Ok(r) => r,
             Err(e) => {
                 left_out.push((
