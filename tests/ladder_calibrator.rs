@@ -306,10 +306,19 @@ fn a_monte_carlo_over_the_demo_chain_gives_its_stated_h0_error() {
     let b = ladder.chain.budget(&sol, &EndPoint::Hubble).unwrap();
     let h0 = h0_from_intercept(b.value_mag);
     let sigma_pct = b.distance_pct;
-    assert!(
-        (h0 - 70.0).abs() < 0.1,
-        "{h0}: planned values on the H0 = 70 scale"
-    );
+    // The calibrator's M_B is measured from its given peak; the Hubble-flow
+    // values are planned on the H0 = 70 scale with the zero point M_zp, so
+    // H0 = 70 × 10^(0.2 (M_B − M_zp)) (by hand: M_B −19.200 from LPO-S2024a's
+    // peak 5.600 less A_B 0.100, ΔM 0.123 and μ(LPO-G1) 24.576; M_zp −19.05:
+    // 70 × 10^(−0.030) = 65.33).
+    let cal = calibrators_of(&ladder)
+        .into_iter()
+        .find(|r| r.target == "LPO-S2024a")
+        .unwrap();
+    assert!(cal.observed);
+    let want = 70.0 * 10f64.powf(0.2 * (cal.peak_abs_mag + 19.05));
+    assert!((h0 - want).abs() < 1e-6, "{h0} vs {want}");
+    assert!((h0 - 65.33).abs() < 0.05, "{h0}");
     let mut r = Rng(2027);
     let n = 400;
     let (mut s1, mut s2) = (0.0, 0.0);
@@ -332,4 +341,135 @@ fn a_monte_carlo_over_the_demo_chain_gives_its_stated_h0_error() {
         "Monte Carlo {sd_pct:.2} % vs linear {sigma_pct:.2} %"
     );
     println!("demo H0 {h0:.2}: linear σ {sigma_pct:.2} %, Monte Carlo {sd_pct:.2} % ({n} draws)");
+}
+
+#[test]
+fn an_observed_calibrator_measures_its_peak_absolute_magnitude() {
+    // Worked example, by hand, for LPO-S2019a of the ladder programme
+    // (B peak 5.173 given, extinction_mag 0.100 in B, the stretch–colour
+    // relation of config/transient.toml: α 0.141, β 3.101, x1 = (Δm15 −
+    // 1.09)/(−0.161), c = colour − E(B−V)_MW + 0.057; the chase's planning
+    // Δm15 1.1 and colour: intrinsic −0.07 + the planning host E(B−V) 0.05
+    // + E(B−V)_MW):
+    //   x1 = (1.1 − 1.09)/(−0.161) = −0.062112;  c = −0.07 + 0.05 + 0.057 = 0.037
+    //   ΔM = −α x1 + β c = 0.008758 + 0.114737 = 0.123495 mag
+    //   m_B,std = 5.173 − 0.100 − 0.123495 = 4.949505 mag
+    //   M_B = m_B,std − μ_host (the host's modulus the chain fits)
+    //   σ_own = √(0.05² + 0.12²) = 0.130 (the given fit and the intrinsic
+    //   scatter), σ = √(σ_host² + σ_own²).
+    let f = file();
+    let l = json(&["ladder", "--targets", f.to_str().unwrap(), "--json"]);
+    let c = l["calibrators"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["target"] == "LPO-S2019a")
+        .unwrap()
+        .clone();
+    let v = |k: &str| c[k].as_f64().unwrap();
+    let sp = &c["standardized_peak"];
+    assert_eq!(c["observed"], true);
+    assert!((sp["correction_mag"].as_f64().unwrap() - 0.123495).abs() < 5e-6);
+    assert!((sp["mw_extinction_b_mag"].as_f64().unwrap() - 0.100).abs() < 1e-9);
+    assert!((sp["standardized_peak_mag"].as_f64().unwrap() - 4.949505).abs() < 5e-6);
+    let mu = v("host_mu_mag");
+    assert!((v("peak_abs_mag") - (4.949505 - mu)).abs() < 5e-6);
+    assert!((v("sigma_own_mag") - 0.13).abs() < 1e-12);
+    assert!((v("sigma_mag") - v("host_mu_err_mag").hypot(0.13)).abs() < 1e-12);
+    // The peak was written so that M_B is the zero point (−19.05) at the
+    // host's fitted distance: the fit returns H0 = 70.
+    assert!(
+        (v("peak_abs_mag") + 19.05).abs() < 0.002,
+        "{}",
+        v("peak_abs_mag")
+    );
+    let text = c["peak_abs_mag_how"].as_str().unwrap();
+    assert!(text.starts_with("measured from its given peak"), "{text}");
+    assert!(
+        l["h0_basis"]
+            .as_str()
+            .unwrap()
+            .starts_with("1 calibrator measured")
+    );
+
+    // The same supernova 2.327 mag fainter (peak 7.500): M_B follows its
+    // peak one for one, the host's distance does not move, and H0 scales
+    // by 10^(0.2 × 2.327) = 2.9205 (h = M_B − (M_zp − 5 log10 70) for
+    // Hubble-flow values written on the H0 = 70 scale). Rung says it lies
+    // more than 1 mag from the zero point.
+    let dir = tempfile::tempdir().unwrap();
+    let g = edited(dir.path(), |t| {
+        t.replace("2019-03-10T04:20:00Z,5.173,", "2019-03-10T04:20:00Z,7.5,")
+    });
+    let gs = g.to_str().unwrap();
+    let l2 = json(&["ladder", "--targets", gs, "--json"]);
+    let c2 = l2["calibrators"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["target"] == "LPO-S2019a")
+        .unwrap();
+    assert!((c2["host_mu_mag"].as_f64().unwrap() - mu).abs() < 1e-9);
+    let dm = c2["peak_abs_mag"].as_f64().unwrap() - v("peak_abs_mag");
+    assert!((dm - 2.327).abs() < 1e-9, "{dm}");
+    let ratio = l2["h0_km_s_mpc"].as_f64().unwrap() / l["h0_km_s_mpc"].as_f64().unwrap();
+    assert!((ratio - 2.9205).abs() < 1e-3, "{ratio}");
+    let notes: Vec<&str> = l2["notes"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|n| n.as_str().unwrap())
+        .collect();
+    assert!(
+        notes
+            .iter()
+            .any(|n| n.starts_with("LPO-S2019a: the M_B -16.72 mag")
+                && n.contains("by more than 1 mag")),
+        "{notes:?}"
+    );
+    // rung chase gives the same M_B, in JSON and in words.
+    let ch = json(&["chase", "--targets", gs, "--target", "LPO-S2019a", "--json"]);
+    close(
+        &ch["calibration"]["peak_abs_mag"],
+        &c2["peak_abs_mag"],
+        "M_B",
+    );
+    assert_eq!(
+        ch["calibration"]["peak_abs_mag_how"],
+        c2["peak_abs_mag_how"]
+    );
+    let (code, out, err) = rung(&["chase", "--targets", gs, "--target", "LPO-S2019a"]);
+    assert_eq!(code, 0, "{err}");
+    assert!(out.contains("M_B -16.723 ±"), "{out}");
+    assert!(
+        out.contains(c2["peak_abs_mag_how"].as_str().unwrap()),
+        "{out}"
+    );
+}
+
+#[test]
+fn an_observed_calibrator_without_its_peak_is_left_out_with_the_reason() {
+    // Its peak's error given, a discovery magnitude but no peak: nothing to
+    // measure M_B from (bad-input LD10).
+    let dir = tempfile::tempdir().unwrap();
+    let g = edited(dir.path(), |t| {
+        t.replace(
+            "2019-03-10T04:20:00Z,5.173,,",
+            "2019-03-10T04:20:00Z,,16.0,",
+        )
+    });
+    let l = json(&["ladder", "--targets", g.to_str().unwrap(), "--json"]);
+    let why = l["left_out"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r[0] == "LPO-S2019a")
+        .expect("left out");
+    assert!(
+        why[1]
+            .as_str()
+            .unwrap()
+            .starts_with("peak_err_mag is given without peak_mag"),
+        "{why}"
+    );
 }

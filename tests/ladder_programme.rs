@@ -424,3 +424,60 @@ fn what_one_more_hour_on_each_target_buys() {
     }
     assert!(r.best_by_rung.iter().any(|b| b.step.rung == Rung::Anchor));
 }
+
+#[test]
+fn a_planned_anchor_carries_its_parallax_plan_into_the_zero_point() {
+    // LPO-A6 has a parallax (8 mas) but no parallax_err_mas: its parallax
+    // is what rung's parallax plan gives over the programme's range. Its
+    // chain row carries the parallax method's own terms (not a given
+    // error), the plan's hours and its one-more-epoch step; and the
+    // relation's zero point (and through it H0) sees that planned σ: a
+    // worse plan gives a worse zero point.
+    use rung::ladder::chain::Param;
+    let (st, targets) = programme();
+    let l = build(&st, &targets, Some(&file())).unwrap();
+    let m = l.members.iter().find(|m| m.target == "LPO-A6").unwrap();
+    assert_eq!(m.role, rung::ladder::chain::Role::Anchor);
+    let j = m
+        .observations
+        .iter()
+        .copied()
+        .find(|j| l.chain.observations[*j].what == "parallax")
+        .unwrap();
+    let o = &l.chain.observations[j];
+    assert!(o.hours > 0.0, "a planned parallax takes telescope time");
+    assert!(o.terms.iter().any(|t| t.name == "parallax fit"));
+    assert!(!o.terms.iter().any(|t| t.name.contains("(given)")));
+    // σ_μ = (5/ln 10) σϖ/ϖ: between the 10 % note and the 20 % cut.
+    let frac = o.sigma_mag() / rung::ladder::chain::model::MAG_PER_LN;
+    assert!((0.10..0.20).contains(&frac), "{frac}");
+    assert!(
+        l.steps
+            .iter()
+            .any(|s| s.label == "one more parallax epoch of LPO-A6")
+    );
+    let zp = Param::ZeroPoint {
+        relation: "cepheid V".into(),
+    };
+    let sigma_zp = |c: &rung::ladder::chain::Chain| c.solve().unwrap().get(&zp).unwrap().1;
+    let planned = sigma_zp(&l.chain);
+    let mut worse = l.chain.clone();
+    for t in &mut worse.observations[j].terms {
+        t.sigma_mag *= 2.0;
+    }
+    let mut gone = l.chain.clone();
+    for t in &mut gone.observations[j].terms {
+        t.sigma_mag *= 1e4;
+    }
+    let (w, g) = (sigma_zp(&worse), sigma_zp(&gone));
+    assert!(planned < w && w < g, "{planned} < {w} < {g}");
+    // H0's budget names the planned parallax's own term.
+    let r = report_of(l, Some(EndPoint::Hubble)).unwrap();
+    let t = r
+        .end_point
+        .by_term
+        .iter()
+        .find(|t| t.rung == Rung::Anchor && t.term == "parallax fit")
+        .expect("the planned parallax in H0's budget");
+    assert!(t.variance_fraction > 0.0);
+}

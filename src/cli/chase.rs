@@ -372,12 +372,13 @@ fn observed_calibrator(
             row.host_source
         );
         super::outln!(
-            "  calibrated peak absolute magnitude M_B {:.3} ± {:.3} mag (host distance {:.3}, the supernova's own {:.3}; planned values, as rung ladder)",
+            "  calibrated peak absolute magnitude M_B {:.3} ± {:.3} mag (host distance {:.3}, the supernova's own {:.3}; as rung ladder)",
             row.peak_abs_mag,
             row.sigma_mag,
             row.sigma_host_mag,
             row.sigma_own_mag
         );
+        super::outln!("  M_B {}", row.peak_abs_mag_how);
         if let Some(n) = note {
             super::outln!("  note: {n}");
         }

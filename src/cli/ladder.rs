@@ -120,11 +120,11 @@ fn print_text(r: &LadderReport, st: &rung::programme::Settings, steps: usize) {
     }
     if let (Some(h), Some(p)) = (r.h0_km_s_mpc, r.h0_sigma_pct) {
         outln!(
-            "  H0 {:.2} ± {:.2} km/s/Mpc ({}; planned values on the H0 = {} scale)",
+            "  H0 {:.2} ± {:.2} km/s/Mpc ({}; {})",
             h,
             h * p / 100.0,
             pct(p),
-            r.h0_ref_km_s_mpc
+            r.h0_basis
         );
     }
     for o in &r.open {
@@ -145,6 +145,7 @@ fn print_text(r: &LadderReport, st: &rung::programme::Settings, steps: usize) {
                 c.sigma_host_mag,
                 c.sigma_own_mag
             );
+            outln!("    M_B {}", c.peak_abs_mag_how);
         }
     }
     outln!();

@@ -30,7 +30,7 @@ use crate::error::{Location, Result, RungError};
 use crate::io::targets::{Kind, Target};
 use crate::ladder::parallax::ParallaxMethod;
 use crate::ladder::pulsator::{PulsatorMethod, Relation, Star};
-use crate::ladder::transient::{TransientMethod, ZeroPoint};
+use crate::ladder::transient::{StandardizedPeak, TransientMethod, ZeroPoint};
 use crate::ladder::{ErrorTerm, Method, Prediction};
 use crate::programme::Settings;
 use serde::Serialize;
@@ -101,7 +101,24 @@ pub struct Ladder {
     /// Each host node's planned distance (the moduli the calibrators' plans
     /// are made with; see [`host_distance`]).
     pub host_moduli: BTreeMap<String, HostModulus>,
+    /// Each calibrator's given peak, standardized as its chase standardizes
+    /// it (calibrators without a given peak take the planned value).
+    pub peaks: BTreeMap<String, CalibratorPeak>,
 }
+
+/// A calibrator's given peak on the ladder.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct CalibratorPeak {
+    /// The peak standardized ([`TransientMethod::standardized_peak`]).
+    pub peak: StandardizedPeak,
+    /// Whether the supernova is already observed (its peak's error given):
+    /// its M_B is measured; otherwise the given peak is a forecast.
+    pub observed: bool,
+}
+
+/// A calibrator's M_B further than this from the zero point is named in the
+/// notes, mag (the chase's own check of a given peak against its distance).
+pub const MB_WARN_MAG: f64 = 1.0;
 
 /// A host node's planned distance modulus, as the ladder plans its
 /// calibrators with it.
@@ -994,6 +1011,7 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
         .filter(|t| t.kind == Kind::Transient)
         .collect();
     let h0_ref = tm.map_or(70.0, |m| m.cfg.cosmology.h0_km_s_mpc);
+    let mut peaks: BTreeMap<String, CalibratorPeak> = BTreeMap::new();
     if let Some(tmeth) = tm {
         let std = tmeth.standardizer()?;
         let zp = ZeroPoint::configured(&tmeth.cfg, tmeth.relation());
@@ -1076,6 +1094,46 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
                 Role::Calibrator => {
                     let node = node.clone().unwrap_or_default();
                     let linked = host_node.contains_key(t.name.as_str());
+                    let mu = host_mu
+                        .get(&node)
+                        .map_or(v.host_mu_mag.unwrap_or(0.0), |x| x.0);
+                    // A peak given (measured, or the observer's forecast):
+                    // standardized as the chase standardizes it, so the M_B
+                    // it calibrates follows it; else the planned value.
+                    let value_mag = match tmeth.standardized_peak(v) {
+                        Ok(Some(sp)) => {
+                            let m_b = sp.standardized_peak_mag - mu;
+                            if (m_b - zp.abs_mag).abs() > MB_WARN_MAG {
+                                notes.push(format!(
+                                    "{}: the M_B {m_b:.2} mag its given peak measures in {node} differs from the zero point {:.2} mag by more than {MB_WARN_MAG} mag: extra extinction, a peculiar event, a wrong host or a wrong peak",
+                                    t.name, zp.abs_mag
+                                ));
+                            }
+                            peaks.insert(
+                                t.name.clone(),
+                                CalibratorPeak {
+                                    peak: sp,
+                                    observed: t.peak_err_mag.is_some(),
+                                },
+                            );
+                            sp.standardized_peak_mag
+                        }
+                        Ok(None) if t.peak_err_mag.is_some() => {
+                            left_out.push((
+                                t.name.clone(),
+                                "peak_err_mag is given without peak_mag: a calibrator already observed measures M_B from its peak, so give the peak it was fitted with".into(),
+                            ));
+                            continue;
+                        }
+                        Ok(None) => mu + zp.abs_mag,
+                        Err(e) => {
+                            left_out.push((
+                                t.name.clone(),
+                                format!("its given peak cannot be standardized: {e}"),
+                            ));
+                            continue;
+                        }
+                    };
                     if !linked {
                         // A host distance given with the supernova: the node's own row.
                         obs_idx.push(chain.observations.len());
@@ -1094,16 +1152,13 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
                             hours: 0.0,
                         });
                     }
-                    let mu = host_mu
-                        .get(&node)
-                        .map_or(v.host_mu_mag.unwrap_or(0.0), |x| x.0);
                     (
                         Observation {
                             target: t.name.clone(),
                             node: Some(node.clone()),
                             rung: Rung::Calibrator,
                             what: "standardized peak".into(),
-                            value_mag: mu + zp.abs_mag,
+                            value_mag,
                             offset_mag: 0.0,
                             coeffs: vec![
                                 (Param::Modulus { node: node.clone() }, 1.0),
@@ -1177,6 +1232,7 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
         steps,
         h0_ref_km_s_mpc: h0_ref,
         host_moduli,
+        peaks,
     })
 }
 

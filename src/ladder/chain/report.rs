@@ -104,6 +104,45 @@ pub struct CalibratorRow {
     pub sigma_host_mag: f64,
     /// The part from the supernova's own observation, mag.
     pub sigma_own_mag: f64,
+    /// Whether the supernova is already observed (`peak_err_mag` given):
+    /// its M_B is then measured from its peak.
+    pub observed: bool,
+    /// Its given peak standardized as the chase standardizes it (`None`
+    /// when no peak is given: M_B is then the planned value, the zero point).
+    pub standardized_peak: Option<crate::ladder::transient::StandardizedPeak>,
+    /// How M_B was found, in words (text, JSON and views say the same).
+    pub peak_abs_mag_how: String,
+}
+
+impl CalibratorRow {
+    /// How a calibrator's M_B is found, in words: from its standardized
+    /// peak less its host's modulus, or the planned value.
+    pub fn how_text(
+        observed: bool,
+        sp: Option<&crate::ladder::transient::StandardizedPeak>,
+        host_mu_mag: f64,
+        peak_abs_mag: f64,
+    ) -> String {
+        match sp {
+            Some(p) => format!(
+                "{}: B peak {:.3} − Milky-Way A_B {:.3} − standardization {:+.3} = {:.3}, less the host's μ {:.3} = {:.3} mag",
+                if observed {
+                    "measured from its given peak"
+                } else {
+                    "from its given peak (a forecast until observed)"
+                },
+                p.peak_b_mag,
+                p.mw_extinction_b_mag,
+                p.correction_mag,
+                p.standardized_peak_mag,
+                host_mu_mag,
+                peak_abs_mag
+            ),
+            None => {
+                "planned value: no peak given, so it calibrates the configured zero point".into()
+            }
+        }
+    }
 }
 
 /// The calibrators of a built ladder, in the order of its members (what
@@ -131,13 +170,20 @@ pub fn calibrators_of(l: &Ladder) -> Vec<CalibratorRow> {
                 (None, None) => return None,
             };
             let own = peak.sigma_mag();
+            let given = l.peaks.get(&m.target);
+            let observed = given.is_some_and(|g| g.observed);
+            let sp = given.map(|g| g.peak);
+            let m_b = peak.value_mag - peak.offset_mag - mu;
             Some(CalibratorRow {
+                observed,
+                standardized_peak: sp,
+                peak_abs_mag_how: CalibratorRow::how_text(observed, sp.as_ref(), mu, m_b),
                 target: m.target.clone(),
                 host: node,
                 host_mu_mag: mu,
                 host_mu_err_mag: s,
                 host_source: source,
-                peak_abs_mag: peak.value_mag - peak.offset_mag - mu,
+                peak_abs_mag: m_b,
                 sigma_mag: s.hypot(own),
                 sigma_host_mag: s,
                 sigma_own_mag: own,
@@ -195,6 +241,10 @@ pub struct LadderReport {
     /// the fit returns it when the anchors agree with the relations'
     /// published zero points.
     pub h0_ref_km_s_mpc: f64,
+    /// What H0 rests on, in words: planned values on the `h0_ref_km_s_mpc`
+    /// scale, or calibrators measured from their given peaks (text, JSON and
+    /// the Ladder view say the same).
+    pub h0_basis: String,
     /// Every node's distance (anchors and hosts).
     pub nodes: Vec<DistanceRow>,
     /// Every supernova's standardized-candle distance.
@@ -367,6 +417,7 @@ pub fn report_of(l: Ladder, end_point: Option<EndPoint>) -> Result<LadderReport>
         }
     }
     let calibrators = calibrators_of(&l);
+    let h0_basis = h0_basis_text(&calibrators, l.h0_ref_km_s_mpc);
     let ranked = rank(&l.chain, &ep, l.steps.clone())?;
     let marginal = marginal_of(&l.members, &ranked);
     let next: Vec<Ranked> = ranked
@@ -383,6 +434,7 @@ pub fn report_of(l: Ladder, end_point: Option<EndPoint>) -> Result<LadderReport>
         h0_km_s_mpc: h0,
         h0_sigma_pct: h0_pct,
         h0_ref_km_s_mpc: l.h0_ref_km_s_mpc,
+        h0_basis,
         nodes,
         supernovae,
         calibrators,
@@ -397,6 +449,36 @@ pub fn report_of(l: Ladder, end_point: Option<EndPoint>) -> Result<LadderReport>
         left_out: l.left_out,
         notes: l.notes,
     })
+}
+
+/// What H0 rests on, in words ([`LadderReport::h0_basis`]).
+pub fn h0_basis_text(calibrators: &[CalibratorRow], h0_ref_km_s_mpc: f64) -> String {
+    let measured = calibrators.iter().filter(|c| c.observed).count();
+    let forecast = calibrators
+        .iter()
+        .filter(|c| !c.observed && c.standardized_peak.is_some())
+        .count();
+    match (measured, forecast) {
+        (0, 0) => format!("planned values on the H0 = {h0_ref_km_s_mpc} scale"),
+        (m, f) => {
+            let mut parts = Vec::new();
+            if m > 0 {
+                parts.push(format!(
+                    "{m} calibrator{} measured from {} given peak{}",
+                    if m == 1 { "" } else { "s" },
+                    if m == 1 { "its" } else { "their" },
+                    if m == 1 { "" } else { "s" }
+                ));
+            }
+            if f > 0 {
+                parts.push(format!("{f} from a forecast peak",));
+            }
+            format!(
+                "{}; the rest planned on the H0 = {h0_ref_km_s_mpc} scale",
+                parts.join(", ")
+            )
+        }
+    }
 }
 
 /// Each member's best one-more-visit step (a step that sharpens one of its

@@ -36,7 +36,9 @@ pub use config::{DEFAULT_CONFIG_TOML, Relation, TransientConfig};
 pub use cosmology::{C_KM_S, FlatLcdm, fractional_distance_error};
 pub use facts::{ClassStatus, Facts, Placement};
 pub use fit::{FitPrecision, MAG_PER_INV_SNR, Measurement};
-pub use standardize::{DistanceBudget, HostExtinction, Role, Standardizer, ZeroPoint};
+pub use standardize::{
+    DistanceBudget, HostExtinction, Role, StandardizedPeak, Standardizer, ZeroPoint,
+};
 pub use template::{CurveParams, Model};
 
 use crate::astro::night::Limits;
@@ -426,6 +428,25 @@ impl TransientMethod {
             hubble_peak_mag,
             how,
         })
+    }
+
+    /// The given peak of a supernova (`peak_mag`, in its band) standardized
+    /// exactly as its chase standardizes it: placed on the template with the
+    /// planning decline rate and colour ([`Self::place`]), the Milky-Way
+    /// extinction of its row taken off and the relation's correction applied
+    /// ([`Standardizer::standardized_peak`]). `None` without a given peak.
+    /// Less its host's distance modulus it is the peak absolute magnitude a
+    /// calibrator measures (the ladder's calibrators, `rung chase`).
+    pub fn standardized_peak(&self, t: &Target) -> Result<Option<StandardizedPeak>> {
+        if t.peak_mag.is_none() {
+            return Ok(None);
+        }
+        let facts = self.facts(t)?;
+        let model = self.model(t, &facts)?;
+        let std = self.standardizer()?;
+        let pl = self.place(t, &facts, &model, &std, self.dm15()?)?;
+        std.check(&self.cfg, &model, &pl.params)?;
+        Ok(Some(std.standardized_peak(&self.cfg, &model, &pl.params)))
     }
 
     /// Everything that depends only on the target: facts, model, standardizer, placement.

@@ -225,6 +225,28 @@ impl Standardizer {
         p.m_max - Self::r_b_mw(model) * model.ebv_mw - self.standardized_abs_mag(cfg, model, p)
     }
 
+    /// The B peak of `p` on the zero point's footing: m_B − A_B(Milky Way)
+    /// less the relation's correction ([`Self::standardized_abs_mag`] less
+    /// the zero point: decline rate or stretch and colour, host dust). Less
+    /// a host's distance modulus it is the peak absolute magnitude M_B the
+    /// supernova measures; it equals μ + M_zp for the distance modulus μ of
+    /// [`Self::distance_modulus`].
+    pub fn standardized_peak(
+        &self,
+        cfg: &TransientConfig,
+        model: &Model,
+        p: &CurveParams,
+    ) -> StandardizedPeak {
+        let mw = Self::r_b_mw(model) * model.ebv_mw;
+        let corr = self.standardized_abs_mag(cfg, model, p) - self.zero_point.abs_mag;
+        StandardizedPeak {
+            peak_b_mag: p.m_max,
+            mw_extinction_b_mag: mw,
+            correction_mag: corr,
+            standardized_peak_mag: p.m_max - mw - corr,
+        }
+    }
+
     /// ∂μ/∂(parameters), order of `template::PARAM_NAMES`.
     pub fn gradient(&self, cfg: &TransientConfig, model: &Model) -> [f64; N_PARAMS] {
         match self.relation {
@@ -365,6 +387,25 @@ impl Standardizer {
             sigma_av_mag: sigma_av,
         }
     }
+}
+
+/// A supernova's B peak standardized as the chase standardizes it
+/// ([`Standardizer::standardized_peak`]): m_B,std = m_B − A_B(MW) − ΔM, with
+/// ΔM the relation's correction; a calibrator's measured peak absolute
+/// magnitude is m_B,std − μ_host.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct StandardizedPeak {
+    /// The B peak, mag (placed from the peak given in the target's band).
+    pub peak_b_mag: f64,
+    /// Milky-Way extinction of the B peak, mag (the row's `extinction_mag`
+    /// carried to B).
+    pub mw_extinction_b_mag: f64,
+    /// The standardization's correction ΔM, mag: the standardized absolute
+    /// magnitude less the zero point (decline rate or stretch and colour,
+    /// and the host dust of the planning colour).
+    pub correction_mag: f64,
+    /// m_B − A_B(MW) − ΔM, mag.
+    pub standardized_peak_mag: f64,
 }
 
 /// The host's dust from the colour curve.

@@ -49,10 +49,8 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
                 ),
                 th.text(),
             ),
-            (
-                "planned values, as rung ladder and rung chase".to_string(),
-                th.dim(),
-            ),
+            (format!("  {}", r.peak_abs_mag_how), th.dim()),
+            ("as rung ladder and rung chase".to_string(), th.dim()),
         ];
         for (k, (t, st)) in lines.iter().enumerate() {
             put(buf, area.x, area.y + k as u16, t, area.width, *st);
