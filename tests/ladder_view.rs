@@ -284,3 +284,121 @@ fn the_chase_view_shows_a_calibrators_calibration_as_rung_ladder() {
         "{all}"
     );
 }
+
+#[test]
+fn single_pulsators_have_their_own_section_in_text_json_and_view() {
+    // The demo's stand-alone Cepheids without parallaxes (LPO-C04, C06, C07,
+    // C08) are not host galaxies: they are listed as `pulsators`, apart
+    // from the host field LPO-G1, in `rung ladder` (text and --json, whose
+    // `rung` keeps its old value `host` and whose new `section` and
+    // `pulsators` say it) and in the Ladder view; each calibrator's M_B
+    // row in the view has the numbers of --json's `calibrators`.
+    let demo = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("targets-demo/targets.csv");
+    let targets = rung::io::targets::load(&demo).unwrap().targets;
+    let dir = tempfile::tempdir().unwrap();
+    let mut s = state_with(
+        targets,
+        Some(demo.clone()),
+        demo.clone(),
+        false,
+        (160, 48),
+        false,
+    );
+    ch(&mut s, '9');
+    let st = &s.settings;
+    let args = |json: bool| {
+        let mut a: Vec<String> = [
+            "ladder",
+            "--targets",
+            demo.to_str().unwrap(),
+            "--site",
+            &st.site.name,
+            "--instrument",
+            &st.instrument().name,
+            "--from",
+            &st.from.to_string(),
+            "--to",
+            &st.to.to_string(),
+            "--min-alt",
+            &st.limits.min_alt_deg.to_string(),
+            "--sun-alt",
+            &st.limits.sun_alt_deg.to_string(),
+        ]
+        .iter()
+        .map(|x| x.to_string())
+        .collect();
+        if json {
+            a.push("--json".into());
+        }
+        a
+    };
+    let run = |json: bool| {
+        let out = Command::new(env!("CARGO_BIN_EXE_rung"))
+            .args(args(json))
+            .env("RUNG_CONFIG_DIR", dir.path())
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        String::from_utf8(out.stdout).unwrap()
+    };
+    let j: serde_json::Value = serde_json::from_str(&run(true)).unwrap();
+    let singles = ["LPO-C04", "LPO-C06", "LPO-C07", "LPO-C08"];
+    let pulsators: Vec<&str> = j["pulsators"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|x| x.as_str().unwrap())
+        .collect();
+    assert_eq!(pulsators, singles);
+    for d in j["nodes"].as_array().unwrap() {
+        let name = d["name"].as_str().unwrap();
+        let want = if singles.contains(&name) {
+            "pulsators"
+        } else if name == "LPO-G1" {
+            "host_fields"
+        } else {
+            "anchors"
+        };
+        assert_eq!(d["section"], want, "{name}");
+        if want != "anchors" {
+            assert_eq!(d["rung"], "host", "{name}: the old key keeps its value");
+        }
+    }
+    let text = run(false);
+    for name in singles {
+        assert!(
+            text.lines()
+                .any(|l| l.starts_with(&format!("  pulsators   {name} "))),
+            "{text}"
+        );
+    }
+    assert!(text.lines().any(|l| l.starts_with("  host fields LPO-G1 ")));
+    assert!(!text.lines().any(|l| l.starts_with("  host fields LPO-C0")));
+    let (rows, _) = screen(&s, 160, 48);
+    let all = rows.join("\n");
+    for name in singles {
+        assert!(
+            row_of(&rows, &format!(" {name} ")).starts_with("pulsators "),
+            "{all}"
+        );
+    }
+    assert!(
+        row_of(&rows, " LPO-G1 ").starts_with("host fields "),
+        "{all}"
+    );
+    let c = &j["calibrators"][0];
+    let line = row_of(&rows, rung::tui::views::ladder::MB_ROW);
+    for want in [
+        format!(" {} ", c["target"].as_str().unwrap()),
+        n(c["peak_abs_mag"].as_f64().unwrap(), 3),
+        n(c["sigma_mag"].as_f64().unwrap(), 3),
+        n(c["sigma_own_mag"].as_f64().unwrap(), 3),
+        n(c["sigma_host_mag"].as_f64().unwrap(), 3),
+    ] {
+        assert!(line.contains(&want), "{want:?} not in {line:?}");
+    }
+}

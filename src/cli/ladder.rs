@@ -94,10 +94,10 @@ fn print_text(r: &LadderReport, st: &rung::programme::Settings, steps: usize) {
     );
     outln!();
     outln!("Chain (node: modulus ± σ, own | shared, σd/d):");
-    for n in &r.nodes {
+    for n in r.chain_in_order() {
         outln!(
             "  {:<11} {:<22} μ {:>7.3} ± {:.3}  own {:>6} | shared {:>6}  {}",
-            n.rung.text(),
+            n.section.text(),
             n.name,
             n.modulus_mag,
             n.sigma_mag,
@@ -106,17 +106,9 @@ fn print_text(r: &LadderReport, st: &rung::programme::Settings, steps: usize) {
             pct(n.distance_pct)
         );
     }
-    for s in &r.supernovae {
-        outln!(
-            "  {:<11} {:<22} μ {:>7.3} ± {:.3}  own {:>6} | shared {:>6}  {}",
-            s.rung.text(),
-            s.name,
-            s.modulus_mag,
-            s.sigma_mag,
-            pct(s.own_pct),
-            pct(s.shared_pct),
-            pct(s.distance_pct)
-        );
+    if !r.pulsators.is_empty() {
+        let s = rung::ladder::chain::Section::Pulsators;
+        outln!("  ({}: {})", s.text(), s.meaning());
     }
     if let (Some(h), Some(p)) = (r.h0_km_s_mpc, r.h0_sigma_pct) {
         outln!(
@@ -236,14 +228,14 @@ fn print_text(r: &LadderReport, st: &rung::programme::Settings, steps: usize) {
             (Some(step), Some(h), Some(g)) => outln!(
                 "  {:>8.3} %/h  {:<16} {} ({} h)",
                 g,
-                m.role.text(),
+                r.role_text(m),
                 step,
                 rung::output::num(h, if h < 0.1 { 2 } else { 1 })
             ),
             _ => outln!(
                 "  {:>8}      {:<16} {}: {}",
                 "–",
-                m.role.text(),
+                r.role_text(m),
                 m.target,
                 m.why.as_deref().unwrap_or("")
             ),

@@ -20,4 +20,6 @@ pub use model::{
     h0_from_intercept, parallax_modulus, parallax_modulus_bias_mag,
 };
 pub use next::{Change, Ranked, Step, rank};
-pub use report::{CalibratorRow, DistanceRow, LadderReport, calibrators_of, report, report_of};
+pub use report::{
+    CalibratorRow, DistanceRow, LadderReport, Section, calibrators_of, report, report_of,
+};

@@ -37,13 +37,83 @@ pub struct OpenRow {
     pub why: String,
 }
 
+/// Where a distance of the ladder is listed: the rung its node or supernova
+/// stands on, with single pulsators (neither an anchor nor a supernova's
+/// host: the chain carries their distances, they calibrate nothing) apart
+/// from the host fields.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Section {
+    /// Nodes with a parallax.
+    Anchors,
+    /// Fields of pulsators, and any node a supernova names as its host.
+    HostFields,
+    /// Single pulsators without a parallax that no supernova names as host.
+    Pulsators,
+    /// Supernovae in hosts with a distance.
+    Calibrators,
+    /// Supernovae whose redshift gives the distance.
+    HubbleFlow,
+}
+
+impl Section {
+    /// Every section, in ladder order.
+    pub const ALL: [Section; 5] = [
+        Section::Anchors,
+        Section::HostFields,
+        Section::Pulsators,
+        Section::Calibrators,
+        Section::HubbleFlow,
+    ];
+    /// The machine label (JSON).
+    pub fn label(self) -> &'static str {
+        match self {
+            Section::Anchors => "anchors",
+            Section::HostFields => "host_fields",
+            Section::Pulsators => "pulsators",
+            Section::Calibrators => "calibrators",
+            Section::HubbleFlow => "hubble_flow",
+        }
+    }
+    /// The section in words, for tables and views.
+    pub fn text(self) -> &'static str {
+        match self {
+            Section::Anchors => "anchors",
+            Section::HostFields => "host fields",
+            Section::Pulsators => "pulsators",
+            Section::Calibrators => "calibrators",
+            Section::HubbleFlow => "Hubble flow",
+        }
+    }
+    /// What the section holds, in one line (text output and the Ladder
+    /// view say the same).
+    pub fn meaning(self) -> &'static str {
+        match self {
+            Section::Anchors => "pulsators with a parallax: they fix their relation's zero point",
+            Section::HostFields => {
+                "fields of pulsators (and hosts a supernova names): their distances through the relation"
+            }
+            Section::Pulsators => {
+                "single pulsators with neither a parallax nor a supernova: the chain carries their distances, they calibrate nothing"
+            }
+            Section::Calibrators => "supernovae in hosts with a distance: they calibrate the peak",
+            Section::HubbleFlow => "supernovae whose redshift gives the distance",
+        }
+    }
+}
+
 /// One distance of the ladder with its σ split into own and shared.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct DistanceRow {
     /// The node or supernova.
     pub name: String,
-    /// Its rung (anchor or host for a node; calibrator or Hubble flow for a supernova).
+    /// Its rung in the chain (anchor or host for a node; calibrator or
+    /// Hubble flow for a supernova). A single pulsator's rung is `host`, as
+    /// before; `section` tells it apart.
     pub rung: Rung,
+    /// Where it is listed (`pulsators` for a single pulsator that is
+    /// neither an anchor nor a supernova's host).
+    pub section: Section,
     /// Distance modulus, mag.
     pub modulus_mag: f64,
     /// Distance, Mpc: 10^(μ/5 + 1) pc.
@@ -63,11 +133,12 @@ pub struct DistanceRow {
 }
 
 impl DistanceRow {
-    fn from_budget(name: &str, rung: Rung, b: &Budget) -> DistanceRow {
+    fn from_budget(name: &str, rung: Rung, section: Section, b: &Budget) -> DistanceRow {
         let pct = |s: f64| 100.0 * DIST_FRAC_PER_MAG * s;
         DistanceRow {
             name: name.to_string(),
             rung,
+            section,
             modulus_mag: b.value_mag,
             distance_mpc: 10f64.powf(b.value_mag / 5.0 + 1.0) / 1e6,
             sigma_mag: b.sigma_mag,
@@ -245,8 +316,12 @@ pub struct LadderReport {
     /// scale, or calibrators measured from their given peaks (text, JSON and
     /// the Ladder view say the same).
     pub h0_basis: String,
-    /// Every node's distance (anchors and hosts).
+    /// Every node's distance (anchors, host fields and single pulsators;
+    /// each row's `section` says which).
     pub nodes: Vec<DistanceRow>,
+    /// The names of the single pulsators among `nodes` (section
+    /// `pulsators`): neither anchors nor a supernova's host.
+    pub pulsators: Vec<String>,
     /// Every supernova's standardized-candle distance.
     pub supernovae: Vec<DistanceRow>,
     /// Each calibrator's host distance and the peak absolute magnitude it
@@ -362,7 +437,19 @@ pub fn report_of(l: Ladder, end_point: Option<EndPoint>) -> Result<LadderReport>
             } else {
                 Rung::Host
             };
-            nodes.push(DistanceRow::from_budget(node, rung, &nb));
+            let section = if rung == Rung::Anchor {
+                Section::Anchors
+            } else if l.members.iter().any(|m| {
+                m.node.as_deref() == Some(node.as_str())
+                    && (m.role == Role::Calibrator || m.target != *node)
+            }) {
+                // A field (its stars' node is not one of them), or a host
+                // a supernova names.
+                Section::HostFields
+            } else {
+                Section::Pulsators
+            };
+            nodes.push(DistanceRow::from_budget(node, rung, section, &nb));
         }
     }
     let mut supernovae = Vec::new();
@@ -375,12 +462,12 @@ pub fn report_of(l: Ladder, end_point: Option<EndPoint>) -> Result<LadderReport>
                 target: m.target.clone(),
             };
             if let Ok(sb) = l.chain.budget(&sol, &e) {
-                let rung = if m.role == super::build::Role::Calibrator {
-                    Rung::Calibrator
+                let (rung, section) = if m.role == super::build::Role::Calibrator {
+                    (Rung::Calibrator, Section::Calibrators)
                 } else {
-                    Rung::HubbleFlow
+                    (Rung::HubbleFlow, Section::HubbleFlow)
                 };
-                supernovae.push(DistanceRow::from_budget(&m.target, rung, &sb));
+                supernovae.push(DistanceRow::from_budget(&m.target, rung, section, &sb));
             }
         }
     }
@@ -435,6 +522,11 @@ pub fn report_of(l: Ladder, end_point: Option<EndPoint>) -> Result<LadderReport>
         h0_sigma_pct: h0_pct,
         h0_ref_km_s_mpc: l.h0_ref_km_s_mpc,
         h0_basis,
+        pulsators: nodes
+            .iter()
+            .filter(|n| n.section == Section::Pulsators)
+            .map(|n| n.name.clone())
+            .collect(),
         nodes,
         supernovae,
         calibrators,
@@ -536,6 +628,23 @@ fn marginal_of(members: &[Member], ranked: &[Ranked]) -> Vec<Marginal> {
 }
 
 impl LadderReport {
+    /// A target's role in words where the report lists it: a single
+    /// pulsator (its node among `pulsators`) is a `pulsator`, not a host star.
+    pub fn role_text(&self, m: &Marginal) -> &'static str {
+        match (&m.role, &m.node) {
+            (Role::HostStar, Some(n)) if self.pulsators.contains(n) => "pulsator",
+            (r, _) => r.text(),
+        }
+    }
+    /// Every distance of the chain (nodes, then supernovae) in ladder order:
+    /// by section, each section in the report's order (what `rung ladder`
+    /// and the Ladder view list).
+    pub fn chain_in_order(&self) -> Vec<&DistanceRow> {
+        let mut v: Vec<&DistanceRow> = self.nodes.iter().chain(&self.supernovae).collect();
+        v.sort_by_key(|d| d.section);
+        v
+    }
+
     /// The best gain per hour (percentage points of the end point's σ_d/d)
     /// of one more visit on the targets of a chain row: the supernova
     /// itself, or the pulsators of a node. `None` when none offers a step.

@@ -18,17 +18,34 @@ fn n(v: f64, dp: usize) -> String {
     crate::output::fixed(v, dp).unwrap_or_else(|| "—".into())
 }
 
-/// The chain's rows: (rung, name, μ, σ, own %, shared %, σd/d %, gain %/h).
+/// The rung column of a calibrator's M_B row.
+pub const MB_ROW: &str = "M_B (calib)";
+
+/// The chain's rows: (section, name, μ, σ, own %, shared %, σd/d %, gain
+/// %/h), then one row per calibrator with the peak absolute magnitude it
+/// calibrates: (`MB_ROW`, name, M_B, σ, own σ, host σ in mag, —, —), the
+/// numbers of `rung ladder`'s `calibrators` and the Chase view.
 pub fn chain_rows(r: &LadderReport) -> Vec<[String; 8]> {
-    r.nodes
-        .iter()
-        .chain(r.supernovae.iter())
+    let mb = r.calibrators.iter().map(|c| {
+        [
+            MB_ROW.to_string(),
+            c.target.clone(),
+            n(c.peak_abs_mag, 3),
+            n(c.sigma_mag, 3),
+            n(c.sigma_own_mag, 3),
+            n(c.sigma_host_mag, 3),
+            "—".to_string(),
+            "—".to_string(),
+        ]
+    });
+    r.chain_in_order()
+        .into_iter()
         .map(|d| {
             let gain = r
                 .marginal_of_row(&d.name)
                 .map_or("—".to_string(), |g| n(g, 3));
             [
-                d.rung.text().to_string(),
+                d.section.text().to_string(),
                 d.name.clone(),
                 n(d.modulus_mag, 3),
                 n(d.sigma_mag, 3),
@@ -38,6 +55,7 @@ pub fn chain_rows(r: &LadderReport) -> Vec<[String; 8]> {
                 gain,
             ]
         })
+        .chain(mb)
         .collect()
 }
 
