@@ -422,6 +422,14 @@ pub trait Method: Send + Sync {
     fn predict(&self, s: &Setting, em: &dyn ExposureModel, epochs: &[Epoch]) -> Result<Prediction>;
     /// The epochs and hours that reach `goal_pct`, or why they cannot.
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction>;
+    /// A search that answers [`Method::goal`] for several goals of one
+    /// target asked one after another (the budget's inverse curve): a method
+    /// may keep between asks what does not depend on the goal, as long as
+    /// every answer is the one [`Method::goal`] gives. Default: each ask is
+    /// [`Method::goal`].
+    fn goal_search(&self) -> Box<dyn GoalSearch + '_> {
+        Box::new(EachGoal(self))
+    }
     /// The least time between two visits of one target that the method
     /// counts as two epochs, seconds. The scheduler keeps visits of a target
     /// at least this far apart, or as far apart as the method's own epochs
@@ -474,6 +482,21 @@ pub trait Method: Send + Sync {
         planned: &Prediction,
     ) -> Result<Option<Prediction>> {
         one_more_by_repeat(self, s, em, planned)
+    }
+}
+
+/// Goals of one target asked one after another ([`Method::goal_search`]).
+pub trait GoalSearch {
+    /// [`Method::goal`] of the method the search came from.
+    fn goal(&mut self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction>;
+}
+
+/// The default [`GoalSearch`]: every ask is [`Method::goal`].
+struct EachGoal<'a, M: ?Sized>(&'a M);
+
+impl<M: Method + ?Sized> GoalSearch for EachGoal<'_, M> {
+    fn goal(&mut self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {
+        self.0.goal(s, em, goal_pct)
     }
 }
 

@@ -42,7 +42,7 @@ pub mod astrometry;
 mod plan;
 pub mod select;
 
-pub use plan::{EpochLevel, ExposureRule};
+pub use plan::{EpochLevel, ExposureRule, ParallaxGoals};
 
 use crate::astro::airmass::{altitude_for_airmass_deg, kasten_young};
 use crate::astro::frames::{CatalogPlace, Observed};
@@ -882,12 +882,10 @@ impl ParallaxMethod {
         }
     }
 
-    /// The parallax factor through the setting's range, night by night, with
-    /// the observable instant nearest the meridian (windows from
-    /// [`Night::target`], sampled every [`WINDOW_STEP_S`] plus the transit),
-    /// and the yearly extreme of the chosen axis (daily samples over 366 days
-    /// from the range start). Nights are computed in parallel.
-    pub fn series(&self, s: &Setting) -> Result<Series> {
+    /// The last night's index of the range (nights − 1), or the refusal of
+    /// a range the series cannot cover (reversed, or longer than
+    /// [`MAX_RANGE_NIGHTS`]).
+    fn range_nights(&self, s: &Setting) -> Result<i64> {
         let n = (s.to - s.from).num_days();
         if n < 0 {
             return Err(RungError::invalid(
@@ -904,6 +902,33 @@ impl ParallaxMethod {
                 ),
             ));
         }
+        Ok(n)
+    }
+
+    /// What [`Self::series`] refuses of a range, without its nights: the
+    /// range itself, the first night's local noon, and the first and last
+    /// nights (the ephemeris span is one interval, so the nights between
+    /// are inside it when both ends are). An empty series on success.
+    pub(crate) fn check_range(&self, s: &Setting) -> Result<Series> {
+        self.range_nights(s)?;
+        crate::astro::night::local_noon(s.site, s.from)?;
+        Night::shared(s.site, s.from)?;
+        Night::shared(s.site, s.to)?;
+        Ok(Series {
+            nights: Vec::new(),
+            yearly_extreme: 0.0,
+            threshold: 0.0,
+            axis: self.cfg.factor_axis,
+        })
+    }
+
+    /// The parallax factor through the setting's range, night by night, with
+    /// the observable instant nearest the meridian (windows from
+    /// [`Night::target`], sampled every [`WINDOW_STEP_S`] plus the transit),
+    /// and the yearly extreme of the chosen axis (daily samples over 366 days
+    /// from the range start). Nights are computed in parallel.
+    pub fn series(&self, s: &Setting) -> Result<Series> {
+        let n = self.range_nights(s)?;
         let place = s.target.place();
         let lim = self.effective_limits(s);
         let axis = self.cfg.factor_axis;
@@ -1123,11 +1148,15 @@ impl Method for ParallaxMethod {
         }
         expected_parallax_mas(s.target)?;
         let planned = self.planned_from(s, em, epochs)?;
-        Ok(self.plan_for(s, em, planned)?.prediction)
+        self.prediction_for(s, em, planned)
     }
 
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {
         Ok(self.goal_plan(s, em, goal_pct)?.prediction)
+    }
+
+    fn goal_search(&self) -> Box<dyn crate::ladder::GoalSearch + '_> {
+        Box::new(ParallaxGoals::new(self))
     }
 }
 

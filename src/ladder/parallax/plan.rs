@@ -11,6 +11,9 @@ use super::astrometry::{self, Dcr, EpochError, FrameRule, ReferenceFrame, Source
 use super::select::{self, Candidate, Design, Problem, Stop};
 use super::*;
 use crate::astro::frames::Context;
+use crate::astro::site::Site;
+use crate::ladder::GoalSearch;
+use std::sync::Arc;
 
 /// One exposure level of an epoch.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -490,6 +493,92 @@ fn parallax_terms(
     v
 }
 
+/// What a goal search keeps between goals of one target: nothing of it
+/// depends on the goal (see [`ParallaxMethod::goal_plan`]).
+#[derive(Default)]
+struct Kept {
+    series: Option<Series>,
+    slots: Option<Arc<Vec<Slot>>>,
+    horizon: Option<Arc<Horizon>>,
+}
+
+/// The range's offered nights continued to the horizon, one instant a night
+/// at every exposure level (see `ParallaxMethod::reach`).
+struct Horizon {
+    /// Whether a whole year of real nights is behind the continuation.
+    full_year: bool,
+    /// Nights in the horizon.
+    horizon_n: usize,
+    /// Each night's date.
+    dates: Vec<NaiveDate>,
+    /// The horizon's seasons (night indices).
+    seasons: Vec<Vec<usize>>,
+    /// Candidates over the horizon, in night order, per level.
+    all: Vec<Vec<Candidate>>,
+}
+
+/// Goals of one target asked one after another ([`Method::goal_search`]):
+/// the answers of [`ParallaxMethod::goal_plan`], the work that does not
+/// depend on the goal done once while the target (but for its goal), the
+/// site, the range, the limits and the exposure model stay the same.
+pub struct ParallaxGoals<'a> {
+    method: &'a ParallaxMethod,
+    key: Option<GoalsKey>,
+    kept: Kept,
+}
+
+/// What [`ParallaxGoals`] keeps its work for.
+#[derive(PartialEq)]
+struct GoalsKey {
+    site: Site,
+    target: Target,
+    from: NaiveDate,
+    to: NaiveDate,
+    limits: Limits,
+    em: usize,
+}
+
+impl<'a> ParallaxGoals<'a> {
+    /// A search with nothing kept yet.
+    pub fn new(method: &'a ParallaxMethod) -> Self {
+        ParallaxGoals {
+            method,
+            key: None,
+            kept: Kept::default(),
+        }
+    }
+
+    /// [`ParallaxMethod::goal_plan`] of `s`.
+    pub fn plan(
+        &mut self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        goal_pct: f64,
+    ) -> Result<ParallaxPlan> {
+        let mut target = s.target.clone();
+        target.goal_pct = None;
+        let key = GoalsKey {
+            site: s.site.clone(),
+            target,
+            from: s.from,
+            to: s.to,
+            limits: s.limits,
+            em: em as *const dyn ExposureModel as *const () as usize,
+        };
+        if self.key.as_ref() != Some(&key) {
+            self.key = Some(key);
+            self.kept = Kept::default();
+        }
+        self.method.goal_plan_kept(s, em, goal_pct, &mut self.kept)
+    }
+}
+
+impl GoalSearch for ParallaxGoals<'_> {
+    fn goal(&mut self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {
+        Ok(self.plan(s, em, goal_pct)?.prediction)
+    }
+}
+
 /// The candidate instants of a set of nights (a night's earliest, nearest
 /// the meridian and latest usable instants, those more than 10 minutes
 /// apart), each with its error and visit at every level.
@@ -832,6 +921,32 @@ impl ParallaxMethod {
         em: &dyn ExposureModel,
         epochs: Vec<PlannedEpoch>,
     ) -> Result<ParallaxPlan> {
+        self.plan_for_with(s, em, epochs, true)
+    }
+
+    /// The prediction of [`Self::plan_for`] alone: the same numbers, notes
+    /// and refusals, without the range's factor series (a plan shows it,
+    /// a prediction does not hold it, and it is most of the work when the
+    /// scheduler weighs one visit more). The range is still checked as the
+    /// series checks it ([`Self::check_range`]).
+    pub fn prediction_for(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        epochs: Vec<PlannedEpoch>,
+    ) -> Result<Prediction> {
+        Ok(self.plan_for_with(s, em, epochs, false)?.prediction)
+    }
+
+    /// [`Self::plan_for`]; without `with_series` the plan's series is empty
+    /// and its season count 0 (nothing of the prediction depends on them).
+    fn plan_for_with(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        epochs: Vec<PlannedEpoch>,
+        with_series: bool,
+    ) -> Result<ParallaxPlan> {
         let plx = expected_parallax_mas(s.target)?;
         if epochs.is_empty() {
             return Err(RungError::invalid(
@@ -845,8 +960,13 @@ impl ParallaxMethod {
         }
         let model = Model::new(&self.cfg, s, em)?;
         let rule = model.rule(&Context::exact(s.site, epochs[0].epoch.time)?)?;
-        let series = self.series(s)?;
-        let n = series.seasons(self.cfg.season_gap_d).len();
+        let (series, n) = if with_series {
+            let series = self.series(s)?;
+            let n = series.seasons(self.cfg.season_gap_d).len();
+            (series, n)
+        } else {
+            (self.check_range(s)?, 0)
+        };
         let outside: Vec<String> = epochs
             .iter()
             .filter(|e| {
@@ -990,6 +1110,20 @@ impl ParallaxMethod {
         em: &dyn ExposureModel,
         goal_pct: f64,
     ) -> Result<ParallaxPlan> {
+        self.goal_plan_kept(s, em, goal_pct, &mut Kept::default())
+    }
+
+    /// [`Self::goal_plan`], keeping in `kept` what does not depend on the
+    /// goal (the series, the range's candidate instants, the horizon's
+    /// candidates) for the next goal of the same target, range, limits and
+    /// exposure model (the caller's promise: [`ParallaxGoals`] keeps it).
+    fn goal_plan_kept(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        goal_pct: f64,
+        kept: &mut Kept,
+    ) -> Result<ParallaxPlan> {
         if !(goal_pct.is_finite() && goal_pct > 0.0) {
             return Err(RungError::invalid(
                 "distance-precision goal",
@@ -998,7 +1132,14 @@ impl ParallaxMethod {
         }
         let plx = expected_parallax_mas(s.target)?;
         target_mag(s.target)?;
-        let series = self.series(s)?;
+        let series = match &kept.series {
+            Some(x) => x.clone(),
+            None => {
+                let x = self.series(s)?;
+                kept.series = Some(x.clone());
+                x
+            }
+        };
         let (idx, season_of, n_seasons) = Self::offered(&series, self.cfg.season_gap_d);
         let place = s.target.place();
         let ellipse = parallactic_ellipse(place.ra_rad, place.dec_rad, plx);
@@ -1129,7 +1270,14 @@ impl ParallaxMethod {
         };
         let nights: Vec<(usize, &NightFactor)> =
             idx.iter().map(|i| (*i, &series.nights[*i])).collect();
-        let slots = slots(&model, &rule, &nights, false)?;
+        let slots = match &kept.slots {
+            Some(x) => x.clone(),
+            None => {
+                let x = Arc::new(slots(&model, &rule, &nights, false)?);
+                kept.slots = Some(x.clone());
+                x
+            }
+        };
         let t_of = |sl: &Slot| sl.t.julian_epoch_tt();
         let cap = self.cfg.max_epochs_per_season as usize;
         let minb = self.cfg.min_baseline_yr;
@@ -1186,7 +1334,7 @@ impl ParallaxMethod {
         }
         // Why not: the nights continued year by year to the horizon.
         let (mut reach, share, share_level) =
-            self.reach(s, &model, &rule, &series, &slots, target_j)?;
+            self.reach(s, &model, &rule, &series, &slots, target_j, kept)?;
         reach.range_seasons = n_seasons;
         if let Some((j, b)) = range_best {
             reach.range_best_pct = j.is_finite().then(|| 100.0 * (j + abs * abs).sqrt() / plx);
@@ -1354,20 +1502,18 @@ impl ParallaxMethod {
     /// errors and candidacy), its epoch moved by the same number of days: the
     /// factors repeat with the year to about 1e-2 au. A range shorter than a
     /// year is first completed to a year with real nights.
-    fn reach(
+    /// The range's offered nights continued year by year to
+    /// [`HORIZON_YEARS`] (see [`Self::reach`]): what the reach of a goal
+    /// searches, which does not depend on the goal.
+    fn horizon(
         &self,
         s: &Setting,
         model: &Model,
         rule: &ExposureRule,
         series: &Series,
         range_slots: &[Slot],
-        target_j: f64,
-    ) -> Result<(Reach, Vec<usize>, usize)> {
-        let level = rule.levels.len() - 1;
-        let plx = expected_parallax_mas(s.target)?;
-        let abs = self.cfg.absolute_correction_mas;
+    ) -> Result<Horizon> {
         let gap = self.cfg.season_gap_d;
-        let minb = self.cfg.min_baseline_yr;
         // Real nights to a full year.
         let mut nights = series.nights.clone();
         let mut full_year = nights.len() >= YEAR_NIGHTS;
@@ -1462,6 +1608,47 @@ impl ParallaxMethod {
                 out.extend(c);
             }
         }
+        Ok(Horizon {
+            full_year,
+            horizon_n,
+            dates: ext.nights.iter().map(|n| n.night).collect(),
+            seasons: ext_seasons,
+            all,
+        })
+    }
+
+    #[allow(clippy::too_many_arguments)]
+    fn reach(
+        &self,
+        s: &Setting,
+        model: &Model,
+        rule: &ExposureRule,
+        series: &Series,
+        range_slots: &[Slot],
+        target_j: f64,
+        kept: &mut Kept,
+    ) -> Result<(Reach, Vec<usize>, usize)> {
+        let level = rule.levels.len() - 1;
+        let plx = expected_parallax_mas(s.target)?;
+        let abs = self.cfg.absolute_correction_mas;
+        let gap = self.cfg.season_gap_d;
+        let minb = self.cfg.min_baseline_yr;
+        let h = match &kept.horizon {
+            Some(h) => h.clone(),
+            None => {
+                let h = Arc::new(self.horizon(s, model, rule, series, range_slots)?);
+                kept.horizon = Some(h.clone());
+                h
+            }
+        };
+        let Horizon {
+            full_year,
+            horizon_n,
+            dates: ref ext_dates,
+            seasons: ref ext_seasons,
+            ref all,
+        } = *h;
+        let nlev = rule.levels.len();
         let cap = self.cfg.max_epochs_per_season as usize;
         let met_at = |k: usize, l: usize| -> (bool, Design, Vec<Candidate>) {
             let cands: Vec<Candidate> = all[l].iter().filter(|c| c.season < k).cloned().collect();
@@ -1508,7 +1695,7 @@ impl ParallaxMethod {
                 .filter(|x| x.0)
                 .min_by(|a, b| a.1.hours.total_cmp(&b.1.hours))
                 .unwrap_or_else(|| met(k));
-            share_level = level_of(&cands, &all);
+            share_level = level_of(&cands, all);
             in_range = d
                 .chosen
                 .iter()
@@ -1518,7 +1705,7 @@ impl ParallaxMethod {
             reached_by = ext_seasons
                 .get(k - 1)
                 .and_then(|se| se.last())
-                .map(|i| ext.nights[*i].night);
+                .map(|i| ext_dates[*i]);
         }
         let l = &rule.levels[level];
         let reach = Reach {

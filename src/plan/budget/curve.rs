@@ -118,11 +118,23 @@ pub fn inverse_curve(
     let Some(m) = settings.method(t.kind) else {
         return Vec::new();
     };
+    inverse_curve_with(settings, t, goal, &mut *m.goal_search())
+}
+
+/// [`inverse_curve`] asking its goals of `search` (the target's method's
+/// [`crate::ladder::Method::goal_search`], which may already hold the work
+/// of the target's own goal).
+pub fn inverse_curve_with(
+    settings: &Settings,
+    t: &Target,
+    goal: Option<&Prediction>,
+    search: &mut dyn crate::ladder::GoalSearch,
+) -> Vec<CurvePoint> {
     let em = &settings.photometer;
     let clear = super::clear_fraction(settings).0;
-    let ask = |g: f64| -> Option<Prediction> {
+    let mut ask = |g: f64| -> Option<Prediction> {
         let tg = crate::ladder::with_goal(t, Some(g));
-        m.goal(&settings.setting(&tg), em, g).ok()
+        search.goal(&settings.setting(&tg), em, g).ok()
     };
     let reached = |p: &Prediction| {
         p.verdict == Verdict::Reachable

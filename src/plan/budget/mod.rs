@@ -320,10 +320,18 @@ pub fn target_work(
     t: &Target,
     curves: bool,
 ) -> Option<std::result::Result<TargetWork, String>> {
-    let r = target_prediction(settings, t)?;
+    let m = settings.method(t.kind)?;
+    let g = settings.goal_for(t)?;
+    // One goal search for the row and its curve: the work that does not
+    // depend on the goal is done once (same answers as target_prediction).
+    let mut search = m.goal_search();
+    let tg = crate::ladder::with_goal(t, Some(g));
+    let r = search
+        .goal(&settings.setting(&tg), &settings.photometer, g)
+        .map_err(|e| e.to_string());
     Some(r.map(|p| {
         let curve = if curves {
-            curve::inverse_curve(settings, t, Some(&p))
+            curve::inverse_curve_with(settings, t, Some(&p), &mut *search)
         } else {
             Vec::new()
         };
