@@ -542,10 +542,9 @@ fn every_demo_target_agrees_on_every_surface() {
                     // The DCR bias bound and the relative-to-absolute
                     // correction: named, with the same numbers, in the
                     // method's terms and the budget row's.
-                    // Names and sharing exactly; numbers to 1e-12
-                    // relative (the DCR bound is summed in another order
-                    // on the two paths: the last bit may differ, no
-                    // printed digit can).
+                    // Exactly: every per-epoch sum (normal matrix, DCR
+                    // vector) is made by one function of the parallax
+                    // method (src/ladder/parallax/mod.rs, add_epoch).
                     let (mt, bt) = (&m["error_terms"], &b["error_terms"]);
                     let same = match (mt.as_array(), bt.as_array()) {
                         (Some(x), Some(y)) => {
@@ -553,14 +552,9 @@ fn every_demo_target_agrees_on_every_surface() {
                                 && x.iter().zip(y).all(|(p, q)| {
                                     p["name"] == q["name"]
                                         && p["shared"] == q["shared"]
-                                        && ["distance_pct", "sigma_mag"].iter().all(|k| {
-                                            match (p[*k].as_f64(), q[*k].as_f64()) {
-                                                (Some(u), Some(v)) => {
-                                                    (u - v).abs() <= 1e-12 * u.abs().max(v.abs())
-                                                }
-                                                _ => p[*k] == q[*k],
-                                            }
-                                        })
+                                        && ["distance_pct", "sigma_mag"]
+                                            .iter()
+                                            .all(|k| p[*k] == q[*k])
                                 })
                         }
                         _ => mt == bt,
@@ -570,10 +564,9 @@ fn every_demo_target_agrees_on_every_surface() {
                     }
                     // σϖ, σμ, the ϖ–μ correlation and the baseline: keys
                     // of the budget row, the numbers of `rung parallax`
-                    // (the same least squares of the same epochs; the
-                    // budget re-evaluates each epoch's error at its exact
-                    // instant, the plan at its night's context, so they
-                    // agree to about 1e-8, far below any printed digit).
+                    // exactly (the same least squares of the same epochs,
+                    // each epoch's error evaluated at its night's context
+                    // on both paths).
                     for key in [
                         "sigma_parallax_mas",
                         "sigma_pm_masyr",
@@ -583,7 +576,7 @@ fn every_demo_target_agrees_on_every_surface() {
                         "baseline_yr",
                     ] {
                         match (m[key].as_f64(), b[key].as_f64()) {
-                            (Some(x), Some(y)) if (x - y).abs() <= 1e-6 * x.abs().max(1.0) => {}
+                            (Some(x), Some(y)) if x == y => {}
                             (x, y) => d.0.push(format!("{n} budget {key}: {y:?} against {x:?}")),
                         }
                     }
@@ -602,7 +595,7 @@ fn every_demo_target_agrees_on_every_surface() {
                             .find(|t| t["name"] == term)
                             .and_then(|t| t["distance_pct"].as_f64());
                         match (got, mas) {
-                            (Some(g), Some(x)) if (g - 100.0 * x / plx).abs() < 1e-9 => {}
+                            (Some(g), Some(x)) if g == 100.0 * x / plx => {}
                             (g, x) => d.0.push(format!(
                                 "{n} budget {term}: {g:?} % against {x:?} mas of {plx} mas"
                             )),
@@ -632,7 +625,9 @@ fn every_demo_target_agrees_on_every_surface() {
                         .sum::<f64>()
                         / epochs as f64;
                     let be = b["exptime_per_epoch_s"].as_f64().unwrap();
-                    if (exp - be).abs() > 1e-9 * be.max(1.0) {
+                    // Summed in the same order: exact for a parallax.
+                    let tol = if kind == "parallax" { 0.0 } else { 1e-9 };
+                    if (exp - be).abs() > tol * be.max(1.0) {
                         d.0.push(format!(
                             "{n} exposure per epoch: {kind} {exp} ≠ budget {be}"
                         ));

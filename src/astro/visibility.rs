@@ -72,7 +72,15 @@ pub struct Refraction {
 impl Refraction {
     /// Tabulate from an astrometry context whose `refa`, `refb` (and latitude)
     /// are the site's.
+    ///
+    /// The table depends on the site's terms only: the local Earth rotation
+    /// angle is set to zero (a direction's hour angle is then minus its
+    /// CIRS right ascension, exactly), so the table [`Refraction::shared`]
+    /// keeps for a site is the same whichever night's context built it.
     pub fn new(astrom: &IauAstrom) -> Self {
+        let mut astrom = *astrom;
+        astrom.eral = 0.0;
+        let astrom = &astrom;
         let mut geo = *astrom;
         geo.refa = 0.0;
         geo.refb = 0.0;
@@ -93,15 +101,23 @@ impl Refraction {
     }
 
     /// The table for a site's refraction constants, built once per process
-    /// and shared (a handful of sites are ever in use).
+    /// and shared (a handful of sites are ever in use). The key holds every
+    /// field of `astrom` the table depends on, so the table is the same bits
+    /// whichever thread or night asks first (the events refined from it,
+    /// and every number after them, do not depend on the order of work).
     pub fn shared(astrom: &IauAstrom) -> Arc<Refraction> {
         use std::sync::{Mutex, OnceLock};
-        type Memo = Mutex<Vec<([u64; 3], Arc<Refraction>)>>;
+        type Memo = Mutex<Vec<([u64; 8], Arc<Refraction>)>>;
         static MEMO: OnceLock<Memo> = OnceLock::new();
         let key = [
             astrom.refa.to_bits(),
             astrom.refb.to_bits(),
             astrom.phi.to_bits(),
+            astrom.sphi.to_bits(),
+            astrom.cphi.to_bits(),
+            astrom.diurab.to_bits(),
+            astrom.xpl.to_bits(),
+            astrom.ypl.to_bits(),
         ];
         let memo = MEMO.get_or_init(|| Mutex::new(Vec::new()));
         if let Ok(m) = memo.lock()
@@ -655,13 +671,20 @@ impl<'a> Track<'a> {
         let best = self.highest_in(&dark_s);
         let observable_s: f64 = windows.iter().map(|(a, b)| b.seconds_since(a)).sum::<f64>() + 0.0;
         let max_altitude_time = best.map(|(_, s)| {
-            // A dark end keeps its own instant.
+            // A dark end keeps its own instant; the night's transit (found
+            // again inside the dark interval, to within a millisecond) is
+            // the transit instant every other caller uses.
             dark.iter()
                 .flat_map(|d| [d.0, d.1])
                 .find(|t| (self.frame.offset(*t) - s).abs() < 1e-9)
+                .or(transit
+                    .t
+                    .filter(|t| (self.frame.offset(*t) - s).abs() < 1e-3))
                 .unwrap_or_else(|| self.frame.instant(s))
         });
-        let max_alt_deg = best.map(|b| b.0.to_degrees());
+        // The altitude at that instant, as `observe_at` gives it there.
+        let max_alt_deg =
+            max_altitude_time.map(|t| self.alt_az_rad(self.frame.offset(t)).0.to_degrees());
         let not_computed = || Event {
             t: None,
             reason: Some("not computed".into()),

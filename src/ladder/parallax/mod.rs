@@ -613,6 +613,36 @@ pub struct EpochObs {
     pub sigma_mas: f64,
 }
 
+/// One epoch's share of the normal equations, the only place they are
+/// summed: adds to the normal matrix `n` (weight `w` = 1/σ², σ in mas) and
+/// to the DCR vector `b` (Aᵀ W d) the epoch's two rows of the design
+/// matrix, [1, 0, Δt, 0, Pα] and [0, 1, 0, Δt, Pδ] (Δt in years from the
+/// reference epoch, factors `pf` in au), each with its DCR displacement
+/// `dcr_mas` (Δα cos δ, Δδ). The least squares ([`solve`]), the plan's DCR
+/// bias and the selection's running sums all call it, so a sum over the same
+/// epochs in the same order gives the same bits wherever it is made.
+#[inline]
+pub(crate) fn add_epoch(
+    n: &mut [[f64; 5]; 5],
+    b: &mut [f64; 5],
+    w: f64,
+    dt: f64,
+    pf: [f64; 2],
+    dcr_mas: [f64; 2],
+) {
+    for (row, d) in [
+        ([1.0, 0.0, dt, 0.0, pf[0]], dcr_mas[0]),
+        ([0.0, 1.0, 0.0, dt, pf[1]], dcr_mas[1]),
+    ] {
+        for i in 0..5 {
+            b[i] += w * row[i] * d;
+            for j in 0..5 {
+                n[i][j] += w * row[i] * row[j];
+            }
+        }
+    }
+}
+
 /// Weighted least squares for (x0, y0, μx, μy, ϖ) from epochs with parallax
 /// factors, model x = x0 + μx (t − t̄) + ϖ Pα, y = y0 + μy (t − t̄) + ϖ Pδ, each
 /// coordinate with error σ_i. Returns the covariance (inverse normal matrix,
@@ -644,16 +674,16 @@ pub fn solve(obs: &[EpochObs]) -> Result<Solution> {
     }
     let tbar = obs.iter().map(|o| o.t_yr).sum::<f64>() / obs.len() as f64;
     let mut n = [[0.0f64; 5]; 5];
+    let mut unused = [0.0f64; 5];
     for o in obs {
-        let w = 1.0 / (o.sigma_mas * o.sigma_mas);
-        let dt = o.t_yr - tbar;
-        for row in [[1.0, 0.0, dt, 0.0, o.pf_ra], [0.0, 1.0, 0.0, dt, o.pf_dec]] {
-            for i in 0..5 {
-                for j in 0..5 {
-                    n[i][j] += w * row[i] * row[j];
-                }
-            }
-        }
+        add_epoch(
+            &mut n,
+            &mut unused,
+            1.0 / (o.sigma_mas * o.sigma_mas),
+            o.t_yr - tbar,
+            [o.pf_ra, o.pf_dec],
+            [0.0, 0.0],
+        );
     }
     let c = crate::linalg::spd_inverse_n(&n).map_err(|_| {
         RungError::invalid(

@@ -432,18 +432,16 @@ impl<'a> Model<'a> {
 /// The bias of ϖ (mas) that DCR displacements left in the data give the
 /// least-squares fit of `sol`: the parallax element of C Aᵀ W d.
 fn dcr_bias_mas(epochs: &[PlannedEpoch], sol: &Solution) -> f64 {
-    let mut b = [0.0f64; 5];
+    let (mut n, mut b) = ([[0.0f64; 5]; 5], [0.0f64; 5]);
     for e in epochs {
-        let w = 1.0 / (e.sigma_mas * e.sigma_mas);
-        let dt = e.epoch.time.julian_epoch_tt() - sol.ref_epoch_yr;
-        for (row, d) in [
-            ([1.0, 0.0, dt, 0.0, e.pf_ra], e.dcr_mas[0]),
-            ([0.0, 1.0, 0.0, dt, e.pf_dec], e.dcr_mas[1]),
-        ] {
-            for i in 0..5 {
-                b[i] += w * row[i] * d;
-            }
-        }
+        super::add_epoch(
+            &mut n,
+            &mut b,
+            1.0 / (e.sigma_mas * e.sigma_mas),
+            e.epoch.time.julian_epoch_tt() - sol.ref_epoch_yr,
+            [e.pf_ra, e.pf_dec],
+            e.dcr_mas,
+        );
     }
     (0..5).map(|j| sol.covariance[4][j] * b[j]).sum()
 }
@@ -842,11 +840,22 @@ impl ParallaxMethod {
         em: &dyn ExposureModel,
         epochs: &[Epoch],
     ) -> Result<Vec<PlannedEpoch>> {
+        self.planned_at(s, em, epochs, &|t| Context::exact(s.site, t))
+    }
+
+    /// [`Self::planned_from`] with each epoch's context from `ctx_of`.
+    fn planned_at(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        epochs: &[Epoch],
+        ctx_of: &dyn Fn(Instant) -> Result<Context>,
+    ) -> Result<Vec<PlannedEpoch>> {
         let model = Model::new(&self.cfg, s, em)?;
         epochs
             .iter()
             .map(|e| {
-                let ctx = Context::exact(s.site, e.time)?;
+                let ctx = ctx_of(e.time)?;
                 let mut p = model.epoch(
                     &ctx,
                     e.exptime_s,
@@ -863,16 +872,20 @@ impl ParallaxMethod {
     }
 
     /// The fit of shared-face epochs (a [`Prediction`]'s, as the budget
-    /// holds them): [`Self::planned_from`], then the same least squares as
-    /// the plan's, so σϖ, σμ, the correlation and the baseline are the
-    /// plan's own numbers.
+    /// holds them): each epoch's error evaluated as the plan evaluated it,
+    /// at its night's context (`Night::context` of the night that holds
+    /// it), then the same least squares, so σϖ, σμ, the correlation and the
+    /// baseline are the plan's own numbers to the last bit.
     pub fn fit_of(
         &self,
         s: &Setting,
         em: &dyn ExposureModel,
         epochs: &[Epoch],
     ) -> Result<Solution> {
-        solve(&obs_of(&self.planned_from(s, em, epochs)?))
+        let at_night = |t: Instant| -> Result<Context> {
+            Ok(Night::shared(s.site, crate::astro::night::night_of(s.site, t))?.context(t))
+        };
+        solve(&obs_of(&self.planned_at(s, em, epochs, &at_night)?))
     }
 
     /// The proposed plan: `epochs_per_season` epochs for each season of

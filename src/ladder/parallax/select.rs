@@ -104,19 +104,14 @@ impl Acc {
     }
 
     fn add(&mut self, c: &Candidate, t_ref: f64, sign: f64) {
-        let w = sign / (c.sigma_mas * c.sigma_mas);
-        let dt = c.t_yr - t_ref;
-        for (row, d) in [
-            ([1.0, 0.0, dt, 0.0, c.pf_ra], c.dcr_ra_mas),
-            ([0.0, 1.0, 0.0, dt, c.pf_dec], c.dcr_dec_mas),
-        ] {
-            for i in 0..5 {
-                self.b[i] += w * row[i] * d;
-                for j in 0..5 {
-                    self.n[i][j] += w * row[i] * row[j];
-                }
-            }
-        }
+        super::add_epoch(
+            &mut self.n,
+            &mut self.b,
+            sign / (c.sigma_mas * c.sigma_mas),
+            c.t_yr - t_ref,
+            [c.pf_ra, c.pf_dec],
+            [c.dcr_ra_mas, c.dcr_dec_mas],
+        );
     }
 
     /// (var(ϖ), bias(ϖ)); infinite when the matrix cannot be inverted.

@@ -94,8 +94,8 @@ pub struct BudgetRow {
     /// The same in words, with its numbers.
     pub limit: String,
     /// A parallax target's fit of these epochs (the numbers of `rung
-    /// parallax`, to about 1e-8: each epoch's error is re-evaluated at its
-    /// exact instant): `sigma_parallax_mas`, `sigma_pm_masyr` (and its RA
+    /// parallax` exactly: each epoch's error is evaluated at its night's
+    /// context, as the plan did): `sigma_parallax_mas`, `sigma_pm_masyr` (and its RA
     /// and Dec parts), `corr_parallax_pm`, `baseline_yr` as keys of the row;
     /// absent for other targets.
     #[serde(flatten, skip_serializing_if = "Option::is_none")]
