@@ -305,3 +305,105 @@ fn exports_carry_id_place_band_frames_and_exposure() {
         "rung next names no planned visit id:\n{next}"
     );
 }
+
+/// A visit marked done an hour before its planned start is shown at the
+/// observed start, marked done, by the plan table, `rung plan --json`
+/// (span_start), `rung next` text (the ✓ and the reason) and `rung next
+/// --json` (done_visit_id, done_start): one time on every surface, in UTC
+/// and in the demo site's own zone.
+#[test]
+fn a_visit_marked_done_early_shows_its_observed_time_on_every_surface() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let p = make_plan(d);
+    // A visit of tonight (2026-12-01) planned to start after 01:10 UTC.
+    let v = p
+        .visits
+        .iter()
+        .find(|v| {
+            v.status == Status::Planned
+                && v.night.to_string() == "2026-12-01"
+                && v.start.iso().as_str() > "2026-12-02T01:10:00Z"
+        })
+        .expect("a visit of the first night after 01:10 UTC")
+        .clone();
+    let observed = v.start.add_seconds(-3600.0);
+    let iso = observed.round_to_second().iso();
+    rung(
+        d,
+        &[
+            "plan",
+            "--load",
+            "p.json",
+            "--done",
+            &v.id,
+            "--observed",
+            &iso,
+        ],
+    );
+    let utc = rung::output::clock_hm(observed, &chrono_tz::UTC);
+    let tz = rung::io::sites::resolve("pampa-lucero").unwrap().timezone;
+    let local = rung::output::clock_hm(observed, &tz);
+    let planned = rung::output::clock_hm(v.start, &chrono_tz::UTC);
+    assert_ne!(utc, planned);
+    // The plan table: the visit's line at the observed time, done.
+    let (table, _) = rung(d, &["plan", "--load", "p.json"]);
+    let line = table
+        .lines()
+        .find(|l| l.contains(&format!(" {} ", v.id)))
+        .unwrap_or_else(|| panic!("{} not in\n{table}", v.id));
+    assert!(
+        line.contains(&format!("{utc} UTC / {local} local")) && line.contains("done"),
+        "{line}"
+    );
+    // rung plan --json: span_start is the observed start, start the planned one.
+    let (json, _) = rung(d, &["plan", "--load", "p.json", "--json"]);
+    let j: serde_json::Value = serde_json::from_str(&json).unwrap();
+    let jv = j["plan"]["visits"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|x| x["id"] == v.id.as_str())
+        .unwrap();
+    assert_eq!(jv["status"], "done");
+    assert_eq!(
+        rung::astro::time::parse_instant(jv["span_start"].as_str().unwrap())
+            .unwrap()
+            .round_to_second()
+            .iso(),
+        iso
+    );
+    assert_eq!(
+        jv["start"].as_str().unwrap()[..16],
+        v.start.iso()[..16],
+        "the planned start is kept"
+    );
+    // rung next, text and JSON, at 23:30 UTC (RUNG_NOW) of that night.
+    let words = format!("visit {} done at {utc} UTC ({local} local)", v.id);
+    let (next, _) = rung(d, &["next", "--plan", "p.json"]);
+    assert!(next.contains(&words), "{words:?} not in\n{next}");
+    let (nj, _) = rung(d, &["next", "--plan", "p.json", "--json"]);
+    let nj: serde_json::Value = serde_json::from_str(&nj).unwrap();
+    let row = nj["rows"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["target"] == v.target.as_str())
+        .unwrap();
+    assert_eq!(row["done_visit_id"], v.id.as_str());
+    assert_eq!(
+        rung::astro::time::parse_instant(row["done_start"].as_str().unwrap())
+            .unwrap()
+            .round_to_second()
+            .iso(),
+        iso
+    );
+    assert!(
+        row["reasons"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|r| r == words.as_str()),
+        "{row}"
+    );
+}

@@ -118,7 +118,7 @@ pub fn run(a: Args) -> Result<()> {
             "  {:>2} {:<14} {:<16} {:>5.1} {:>+6.2} {:>5} {:>5.0} {:>5}  {:<22} {}",
             r.rank,
             r.target,
-            r.visit_id.as_deref().unwrap_or("-"),
+            visit_cell(r),
             r.altitude_deg,
             r.hour_angle_h,
             super::opt(r.airmass.filter(|x| *x < 10.0), 2),
@@ -129,4 +129,14 @@ pub fn run(a: Args) -> Result<()> {
         );
     }
     Ok(())
+}
+
+/// The visit column: tonight's planned visit, else the one marked done
+/// tonight with "✓" (its observed time is among the reasons), else "-".
+fn visit_cell(r: &rung::plan::now::NowRow) -> String {
+    match (&r.visit_id, &r.done_visit_id) {
+        (Some(id), _) => id.clone(),
+        (None, Some(id)) => format!("{id} ✓"),
+        (None, None) => "-".into(),
+    }
 }

@@ -339,8 +339,20 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
         return Ok(());
     }
     if a.json {
+        let mut plan_json = serde_json::to_value(&p)?;
+        // Each visit's span as held (Visit::span): a done visit from its
+        // observed start, any other as planned; the times the table shows.
+        if let Some(vs) = plan_json["visits"].as_array_mut() {
+            for (j, v) in vs.iter_mut().zip(&p.visits) {
+                let (a, b) = v.span();
+                if let Some(o) = j.as_object_mut() {
+                    o.insert("span_start".into(), serde_json::to_value(a)?);
+                    o.insert("span_end".into(), serde_json::to_value(b)?);
+                }
+            }
+        }
         let v = serde_json::json!({
-            "plan": &p,
+            "plan": plan_json,
             "outcomes": sched.as_ref().map(|s| &s.outcomes),
             "unplaced": sched.as_ref().map(|s| &s.unplaced),
             "nights": sched.as_ref().map(|s| &s.nights),
@@ -405,10 +417,13 @@ fn print_plan(p: &PlanFile, site: &rung::astro::site::Site, sched: Option<&sched
                 .unwrap_or_default();
             super::outln!("  night {}{lost}{used}", v.night);
         }
+        // A done visit at its observed start (Visit::span), as `rung next`
+        // and the UI show it.
+        let start = v.span().0;
         super::outln!(
             "    {} UTC / {} local  {:<16} {:<9} {:<5} {:>2}×{:>5.0} s  X={:.2}  {:<7} {}",
-            super::utc_hm(Some(v.start)),
-            super::local_hm(Some(v.start), site),
+            super::utc_hm(Some(start)),
+            super::local_hm(Some(start), site),
             v.id,
             v.kind.as_str(),
             export::bands(v),

@@ -46,6 +46,19 @@ use crate::programme::Settings;
 use chrono::NaiveDate;
 use serde::Serialize;
 
+/// "visit ID done at HH:MM UTC (HH:MM local)": a done visit at its observed
+/// start ([`Visit::span`]), as the queue's reasons, `rung next` and the Now
+/// view say it.
+pub fn done_words(v: &Visit, tz: &chrono_tz::Tz) -> String {
+    let t = v.span().0;
+    format!(
+        "visit {} done at {} UTC ({} local)",
+        v.id,
+        crate::output::clock_hm(t, &chrono_tz::UTC),
+        crate::output::clock_hm(t, tz)
+    )
+}
+
 /// One row of the queue.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct NowRow {
@@ -59,6 +72,12 @@ pub struct NowRow {
     pub visit_id: Option<String>,
     /// Its planned start (UTC).
     pub planned_start: Option<Instant>,
+    /// The visit of the target tonight last marked done, when there is one.
+    pub done_visit_id: Option<String>,
+    /// Its start as observed (UTC, [`Visit::span`]: the observed time the
+    /// observer marked, else the planned start), the time every surface
+    /// shows for a done visit.
+    pub done_start: Option<Instant>,
     /// In a window now.
     pub visible: bool,
     /// Observed (refracted) altitude now, degrees.
@@ -268,6 +287,17 @@ pub fn queue(
                     .unwrap_or(std::cmp::Ordering::Equal)
             })
             .copied();
+        // The visit of it marked done tonight last, at its observed start.
+        let done_tonight = mine
+            .iter()
+            .filter(|v| v.night == night_date && v.status == Status::Done)
+            .max_by(|a, b| {
+                a.span()
+                    .0
+                    .partial_cmp(&b.span().0)
+                    .unwrap_or(std::cmp::Ordering::Equal)
+            })
+            .copied();
         let source = tonight_visit.or_else(|| {
             mine.iter()
                 .filter(|v| v.status != Status::Lost)
@@ -351,6 +381,10 @@ pub fn queue(
         }
         let urgency = rules.iter().map(|r| r.value).fold(0.0, f64::max);
         reasons.extend(rules.iter().map(|r| r.why.clone()));
+        if let Some(v) = done_tonight {
+            // First, where an 80-column line shows it whole.
+            reasons.insert(0, done_words(v, &site.timezone));
+        }
         let plan_factor = match tonight_visit {
             Some(v) if v.start.seconds_since(&now) <= 1800.0 => {
                 reasons.push(format!("planned visit {} due now", v.id));
@@ -388,6 +422,8 @@ pub fn queue(
             kind: t.kind,
             visit_id: tonight_visit.map(|v| v.id.clone()),
             planned_start: tonight_visit.map(|v| v.start),
+            done_visit_id: done_tonight.map(|v| v.id.clone()),
+            done_start: done_tonight.map(|v| v.span().0),
             visible,
             altitude_deg: alt,
             hour_angle_h: obs.ha_rad.to_degrees() / 15.0,

@@ -103,7 +103,17 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             r.rank,
             glyph,
             fit(&r.target, 11),
-            fit(r.visit_id.as_deref().unwrap_or("–"), 13),
+            fit(
+                &match (&r.visit_id, &r.done_visit_id, r.done_start) {
+                    (Some(id), _, _) => id.clone(),
+                    // Done tonight: ✓ and its observed start (the reasons
+                    // below say it whole, as `rung next` does).
+                    (None, Some(_), Some(t)) =>
+                        format!("✓ done {}", crate::output::clock_hm(t, tz)),
+                    _ => "–".into(),
+                },
+                13
+            ),
             num(Some(r.altitude_deg), 1),
             num(Some(r.hour_angle_h), 2),
             num(r.airmass.filter(|x| *x < 10.0), 2),

@@ -1,0 +1,89 @@
+//! The Next view shows a visit marked done at its observed start (not its
+//! planned one), marked done, with the words `rung next` prints
+//! (`rung::plan::now::done_words`); checked on a TestBackend at 80×24.
+
+#[path = "tui_support.rs"]
+mod support;
+
+use rung::plan::schedule::Status;
+use rung::tui::state::{NextData, View};
+use support::*;
+
+#[test]
+fn a_visit_marked_done_early_is_shown_at_its_observed_time() {
+    let cfg = tempfile::tempdir().unwrap();
+    // SAFETY: set before any other thread of this test binary reads it.
+    unsafe { std::env::set_var("RUNG_CONFIG_DIR", cfg.path()) };
+    let mut s = demo_state((80, 24));
+    let st = s.settings.clone();
+    let targets = demo_targets();
+    let mut st2 = (*st).clone();
+    st2.from = "2026-12-01".parse().unwrap();
+    st2.to = "2026-12-02".parse().unwrap();
+    let sch = rung::plan::schedule::schedule(&rung::plan::schedule::Request::programme(
+        &st2, &targets, 8.0,
+    ))
+    .unwrap();
+    let mut plan = rung::plan::file::PlanFile::new(&st2, &targets, "demo".into(), 8.0, sch.visits);
+    let now = test_now(); // 01:00 UTC, 22:00 local
+    // Tonight's first visit planned after now of a target with no other
+    // visit tonight, marked done an hour early.
+    let tonight = |v: &rung::plan::schedule::Visit| v.night.to_string() == "2026-12-01";
+    let alone: Vec<String> = plan
+        .visits
+        .iter()
+        .filter(|v| tonight(v) && v.start > now)
+        .filter(|v| {
+            plan.visits
+                .iter()
+                .filter(|w| tonight(w) && w.target == v.target)
+                .count()
+                == 1
+        })
+        .map(|v| v.id.clone())
+        .collect();
+    let v = plan
+        .visits
+        .iter_mut()
+        .filter(|v| alone.contains(&v.id))
+        .min_by(|a, b| a.start.partial_cmp(&b.start).unwrap())
+        .expect("a visit later tonight, its target's only one");
+    let observed = v.start.add_seconds(-3600.0);
+    v.status = Status::Done;
+    v.observed = Some(observed);
+    let (id, target, planned) = (v.id.clone(), v.target.clone(), v.start);
+    let q = rung::plan::now::queue(&st, &targets, Some(&plan), now).unwrap();
+    let sel = q.rows.iter().position(|r| r.target == target).unwrap();
+    let row = &q.rows[sel];
+    assert_eq!(row.done_visit_id.as_deref(), Some(id.as_str()));
+    assert_eq!(row.done_start, Some(observed));
+    s.view = View::Next;
+    s.next_sel = sel;
+    s.next = Some(NextData {
+        at: now,
+        queue: Ok(q.clone()),
+        plan: Some(plan.clone()),
+        note: None,
+    });
+    let (rows, _) = screen(&s, 80, 24);
+    let tz = &st.site.timezone;
+    let local = rung::output::clock_hm(observed, tz);
+    assert_ne!(local, rung::output::clock_hm(planned, tz));
+    // The row: ✓ done at the observed local time (when the row is on screen).
+    let line = row_of(&rows, &format!("✓ done {local}"));
+    assert!(line.contains(&target[..target.len().min(11)]), "{line}");
+    // The selected row's reasons: the same words as rung next, first.
+    let words = rung::plan::now::done_words(plan.visits.iter().find(|v| v.id == id).unwrap(), tz);
+    assert!(
+        words.contains(&format!(
+            "{} UTC",
+            rung::output::clock_hm(observed, &chrono_tz::UTC)
+        )),
+        "{words}"
+    );
+    assert!(
+        has(&rows, &format!("{target}: {words}")),
+        "{words:?} not on screen:\n{}",
+        rows.join("\n")
+    );
+}
