@@ -39,7 +39,7 @@ pub struct PlanArgs {
     /// Mark a visit as lost by id (repeatable).
     #[arg(long)]
     pub lost: Vec<String>,
-    /// The time a visit given to --done was observed, ISO 8601 (default: the clock)
+    /// When the visits given to --done started, as observed, ISO 8601 (default: the clock when marking); a re-plan holds each from that start for its planned length and spaces the target's later visits from it
     #[arg(long = "observed")]
     pub observed: Option<String>,
     /// Seeing FWHM noted for the visits given to --done, arcseconds
