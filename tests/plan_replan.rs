@@ -289,3 +289,83 @@ fn a_replan_places_nothing_before_the_clock() {
         );
     }
 }
+
+/// A fixed case of the property above: the pulsator double asks for
+/// visits 2 h apart (its first night: 00:52:30, 02:52:30, 04:52:30 and
+/// 06:52:30 UTC, each 15 min). Its first visit, planned for 00:52:30, is
+/// marked done an hour early, observed from 23:52:30. The re-plan holds it
+/// from 23:52:30 to 00:07:30 (its planned length) and the star's next
+/// visit that night is at least the method's 2 h after it, counted from the
+/// observed time (mid 00:00:00), not from the planned one (mid 01:00:00).
+#[test]
+fn a_pulsator_visit_done_an_hour_early_spaces_the_next_from_its_observed_time() {
+    use rung::astro::time::parse_instant;
+    let at = |s: &str| parse_instant(s).unwrap();
+    let ts: Vec<Target> = targets(1, 0);
+    assert_eq!(ts[0].kind, Kind::Pulsator);
+    let first = run(&ts, vec![], BTreeSet::new(), 6.0);
+    let v1 = first.visits.iter().find(|v| v.id == "T0#1").unwrap();
+    assert_eq!(v1.start.iso(), "2026-12-02T00:52:30Z");
+    assert_eq!(v1.end.iso(), "2026-12-02T01:07:30Z");
+    let done = Visit {
+        status: Status::Done,
+        observed: Some(at("2026-12-01T23:52:30Z")),
+        ..v1.clone()
+    };
+    let second = run(&ts, vec![done], BTreeSet::new(), 6.0);
+    let held = second.visits.iter().find(|v| v.id == "T0#1").unwrap();
+    assert_eq!(held.status, Status::Done);
+    let (a, b) = held.span();
+    assert_eq!(a.iso(), "2026-12-01T23:52:30Z");
+    assert_eq!(b.iso(), "2026-12-02T00:07:30Z");
+    let mut later: Vec<&Visit> = second
+        .visits
+        .iter()
+        .filter(|v| v.target == "T0" && v.night == day(FROM) && v.status == Status::Planned)
+        .collect();
+    later.sort_by(|x, y| x.start.partial_cmp(&y.start).unwrap());
+    let next = later.first().expect("the star is visited again that night");
+    let mid = |v: &Visit| {
+        let (a, b) = v.span();
+        a.add_seconds(b.seconds_since(&a) / 2.0)
+    };
+    // From the observed mid, 00:00:00: at least 2 h (to the second).
+    let gap_s = mid(next).seconds_since(&at("2026-12-02T00:00:00Z"));
+    assert!(
+        gap_s >= 2.0 * 3600.0 - 1.0,
+        "{} at {} is {gap_s:.0} s after the observed visit",
+        next.id,
+        next.start.iso()
+    );
+    // Here it keeps its planned 02:52:30, three hours after the observed mid.
+    assert_eq!(next.start.iso(), "2026-12-02T02:52:30Z");
+    for v in &later {
+        assert!(
+            v.start >= b || v.end <= a,
+            "{} overlaps the observed visit",
+            v.id
+        );
+    }
+    // The same visit marked an hour late instead (observed 01:52:30, mid
+    // 02:00:00): the visit planned at 02:52:30 (mid 03:00:00) would be 1 h
+    // after it, so no visit of the star that night has its mid before
+    // 04:00:00; spacing from the planned mid (01:00:00) would have kept it.
+    let late = Visit {
+        status: Status::Done,
+        observed: Some(at("2026-12-02T01:52:30Z")),
+        ..v1.clone()
+    };
+    let third = run(&ts, vec![late], BTreeSet::new(), 6.0);
+    for v in third
+        .visits
+        .iter()
+        .filter(|v| v.target == "T0" && v.night == day(FROM) && v.status == Status::Planned)
+    {
+        assert!(
+            mid(v).seconds_since(&at("2026-12-02T04:00:00Z")) >= -1.0,
+            "{} at {} is under 2 h after the observed 01:52:30",
+            v.id,
+            v.start.iso()
+        );
+    }
+}
