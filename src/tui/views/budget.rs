@@ -28,110 +28,67 @@ fn status(sh: &Share) -> String {
     }
 }
 
-/// Words cut into lines of at most `w` characters (a word longer than a
-/// line is cut where the line ends).
-pub fn wrap(text: &str, w: usize) -> Vec<String> {
-    let w = w.max(8);
-    let mut lines = Vec::new();
-    let mut cur = String::new();
-    for word in text.split(' ') {
-        let mut word = word.to_string();
-        while word.chars().count() > w {
-            if !cur.is_empty() {
-                lines.push(std::mem::take(&mut cur));
-            }
-            let head: String = word.chars().take(w).collect();
-            word = word.chars().skip(w).collect();
-            lines.push(head);
-        }
-        if cur.chars().count() + word.chars().count() + 1 > w && !cur.is_empty() {
-            lines.push(std::mem::take(&mut cur));
-        }
-        if !cur.is_empty() {
-            cur.push(' ');
-        }
-        cur.push_str(&word);
-    }
-    if !cur.is_empty() {
-        lines.push(cur);
-    }
-    lines
-}
+pub use super::fmt::wrap;
 
 /// Draw the Budget view.
 pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     let th = &s.theme;
-    if area.height < 8 || area.width < 40 {
-        put(
-            buf,
-            area.x,
-            area.y,
-            "Budget: window too small",
-            area.width,
-            th.dim(),
-        );
+    let Some(b) = super::programme_view(
+        s,
+        area,
+        buf,
+        "Budget",
+        8,
+        "computing each target's goal (this takes a while for parallaxes)…",
+        s.budget_now(),
+        "budget not computed",
+    ) else {
         return;
-    }
-    let st = &s.settings;
-    let title = format!(
-        "Budget · {} to {} · {} · {}",
-        st.from,
-        st.to,
-        st.site.name,
-        st.instrument().name
-    );
-    put(buf, area.x, area.y, &title, area.width, th.title());
-    let b = match s.budget_now() {
-        None => {
-            put(
-                buf,
-                area.x,
-                area.y + 2,
-                "computing each target's goal (this takes a while for parallaxes)…",
-                area.width,
-                th.dim(),
-            );
-            return;
-        }
-        Some(Err(e)) => {
-            put(
-                buf,
-                area.x,
-                area.y + 2,
-                &format!("budget not computed: {e}"),
-                area.width,
-                th.warn(),
-            );
-            return;
-        }
-        Some(Ok(b)) => b,
     };
     let n = crate::output::num;
     let q = n(b.weather.confidence * 100.0, 0);
-    // The request and what it buys.
-    let head = match &b.allocation {
-        Some(a) => format!(
-            "{} h asked: {}/{} goals met (weight {}/{}), {} h left, weather p {} · {}",
-            n(a.hours_asked, 1),
-            a.goals_met,
-            a.goals_total,
-            n(a.weight_met, 0),
-            n(a.weight_total, 0),
-            n(a.hours_left, 1),
-            n(a.probability_all_met, 2),
+    // The request and what it buys: whole parts, wrapped between them (two
+    // lines, three on a tall window), as the totals are.
+    let head_parts: Vec<String> = match &b.allocation {
+        Some(a) => vec![
+            format!(
+                "{} h asked: {}/{} goals met (weight {}/{})",
+                n(a.hours_asked, 1),
+                a.goals_met,
+                a.goals_total,
+                n(a.weight_met, 0),
+                n(a.weight_total, 0)
+            ),
+            format!("{} h left", n(a.hours_left, 1)),
+            format!("weather p {}", n(a.probability_all_met, 2)),
             match &a.next {
                 Some(x) => format!("at {} h + {}", n(x.hours, 1), x.adds.join(", ")),
                 None => "no further goal with more hours".into(),
-            }
-        ),
-        None => format!(
-            "no hours asked ({} sets them) · total {} h with the weather ({} h at {q} %)",
-            keys_for(Scope::Main, Action::BudgetAsk),
-            n(b.total_hours_expected, 1),
-            n(b.total_hours_pessimistic, 1)
-        ),
+            },
+        ],
+        None => vec![
+            format!(
+                "no hours asked ({} sets them)",
+                keys_for(Scope::Main, Action::BudgetAsk)
+            ),
+            format!(
+                "total {} h with the weather ({} h at {q} %)",
+                n(b.total_hours_expected, 1),
+                n(b.total_hours_pessimistic, 1)
+            ),
+        ],
     };
-    put(buf, area.x, area.y + 1, &head, area.width, th.text());
+    let head = pack(
+        head_parts,
+        area.width as usize,
+        if area.height >= 30 { 3 } else { 2 },
+        " · ",
+    );
+    for (k, l) in head.iter().enumerate() {
+        put(buf, area.x, area.y + 1 + k as u16, l, area.width, th.text());
+    }
+    // Title and request lines above the table's header.
+    let top = 1 + head.len().max(1) as u16;
     // Columns: all at 100 cells and more; without epochs and exposure below.
     let wide = area.width >= 100;
     let fixed: Vec<(&str, usize, bool)> = [
@@ -163,7 +120,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     put(
         buf,
         area.x,
-        area.y + 2,
+        area.y + top,
         &line(&header),
         area.width,
         th.header(),
@@ -189,7 +146,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         _ => Vec::new(),
     };
     let foot = reason_lines + terms_lines + totals.len() as u16 + 1;
-    let rows = area.height.saturating_sub(3 + foot) as usize;
+    let rows = area.height.saturating_sub(top + 1 + foot) as usize;
     // The selected target's row stays in view.
     let sel_idx = sel_name
         .as_ref()
@@ -198,7 +155,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     let off = scroll_offset(sel_idx, rows);
     let share_of = |i: usize| b.allocation.as_ref().and_then(|a| a.shares.get(i));
     for (k, (i, r)) in b.rows.iter().enumerate().skip(off).take(rows).enumerate() {
-        let y = area.y + 3 + k as u16;
+        let y = area.y + top + 1 + k as u16;
         let sh = share_of(i);
         let verdict = match sh {
             Some(sh) if !status(sh).is_empty() => format!("{} · {}", r.verdict.text(), status(sh)),
@@ -442,19 +399,13 @@ pub fn ask_form(s: &State, f: &AskForm, area: Rect, buf: &mut Buffer) {
     }
     let ey = inner.y + inner.height.saturating_sub(2);
     if let Some((k, msg)) = &f.error {
-        // Two lines for the reason (the blank line above and this one).
-        let lines = wrap(&format!("✗ {}: {msg}", FIELDS[*k].0), inner.width as usize);
-        let first = ey.saturating_sub(lines.len().min(2) as u16 - 1);
-        for (i, l) in lines.iter().take(2).enumerate() {
-            put(
-                buf,
-                inner.x,
-                first + i as u16,
-                l,
-                inner.width,
-                s.theme.warn(),
-            );
-        }
+        super::fmt::put_form_error(
+            buf,
+            inner,
+            ey,
+            &format!("✗ {}: {msg}", FIELDS[*k].0),
+            s.theme.warn(),
+        );
     }
     let keys = format!(
         "{} check and use · {} drop · {} next field",

@@ -101,3 +101,44 @@ pub fn centered(area: Rect, w: u16, h: u16) -> Rect {
         h,
     )
 }
+
+/// Words cut into lines of at most `w` characters (a word longer than a
+/// line is cut where the line ends).
+pub fn wrap(text: &str, w: usize) -> Vec<String> {
+    let w = w.max(8);
+    let mut lines = Vec::new();
+    let mut cur = String::new();
+    for word in text.split(' ') {
+        let mut word = word.to_string();
+        while word.chars().count() > w {
+            if !cur.is_empty() {
+                lines.push(std::mem::take(&mut cur));
+            }
+            let head: String = word.chars().take(w).collect();
+            word = word.chars().skip(w).collect();
+            lines.push(head);
+        }
+        if cur.chars().count() + word.chars().count() + 1 > w && !cur.is_empty() {
+            lines.push(std::mem::take(&mut cur));
+        }
+        if !cur.is_empty() {
+            cur.push(' ');
+        }
+        cur.push_str(&word);
+    }
+    if !cur.is_empty() {
+        lines.push(cur);
+    }
+    lines
+}
+
+/// A form's error under its fields: `text` wrapped to the form's width,
+/// at most two lines (the blank line above the last and the last), ending
+/// on line `last_y` of `inner`.
+pub fn put_form_error(buf: &mut Buffer, inner: Rect, last_y: u16, text: &str, style: Style) {
+    let lines = wrap(text, inner.width as usize);
+    let first = last_y.saturating_sub(lines.len().clamp(1, 2) as u16 - 1);
+    for (i, l) in lines.iter().take(2).enumerate() {
+        put(buf, inner.x, first + i as u16, l, inner.width, style);
+    }
+}

@@ -139,47 +139,17 @@ pub fn next_line(s: &crate::ladder::chain::Ranked) -> String {
 /// Draw the Ladder view.
 pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     let th = &s.theme;
-    if area.height < 6 || area.width < 40 {
-        put(
-            buf,
-            area.x,
-            area.y,
-            "Ladder: window too small",
-            area.width,
-            th.dim(),
-        );
+    let Some(r) = super::programme_view(
+        s,
+        area,
+        buf,
+        "Ladder",
+        6,
+        "building the ladder from every target's plan (this takes a while for parallaxes)…",
+        s.ladder_now(),
+        "no ladder",
+    ) else {
         return;
-    }
-    let st = &s.settings;
-    let title = format!(
-        "Ladder · {} to {} · {} · {}",
-        st.from,
-        st.to,
-        st.site.name,
-        st.instrument().name
-    );
-    put(buf, area.x, area.y, &title, area.width, th.title());
-    let r = match s.ladder_now() {
-        None => {
-            put(
-                buf,
-                area.x,
-                area.y + 2,
-                "building the ladder from every target's plan (this takes a while for parallaxes)…",
-                area.width,
-                th.dim(),
-            );
-            return;
-        }
-        Some(Err(e)) => {
-            // Why the chain does not close, in full: it names the open link.
-            let lines = textwrap_simple(&format!("no ladder: {e}"), area.width as usize);
-            for (y, part) in (area.y + 2..area.y + area.height).zip(lines) {
-                put(buf, area.x, y, &part, area.width, th.warn());
-            }
-            return;
-        }
-        Some(Ok(r)) => r,
     };
     put(
         buf,
@@ -262,23 +232,4 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             th.good(),
         );
     }
-}
-
-/// Split text into lines of at most `w` characters at spaces.
-fn textwrap_simple(text: &str, w: usize) -> Vec<String> {
-    let mut out = Vec::new();
-    let mut cur = String::new();
-    for word in text.split(' ') {
-        if !cur.is_empty() && cur.chars().count() + 1 + word.chars().count() > w {
-            out.push(std::mem::take(&mut cur));
-        }
-        if !cur.is_empty() {
-            cur.push(' ');
-        }
-        cur.push_str(word);
-    }
-    if !cur.is_empty() {
-        out.push(cur);
-    }
-    out
 }

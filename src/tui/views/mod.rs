@@ -21,6 +21,60 @@ use fmt::{hm, hm_utc, put};
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
 
+/// The preamble a programme-wide view (Budget, Ladder) draws: "NAME:
+/// window too small" under `min_h` rows or 40 columns; the title line
+/// "NAME · from to to · site · instrument" (the programme's settings);
+/// then, two lines down, `pending` (dim) while the result is computed, or
+/// "ERR_PREFIX: why" wrapped (warn) when it failed. The result when there
+/// is one to draw, else `None` (the view has drawn all it shows).
+#[allow(clippy::too_many_arguments)]
+pub fn programme_view<'a, T>(
+    s: &State,
+    area: Rect,
+    buf: &mut Buffer,
+    name: &str,
+    min_h: u16,
+    pending: &str,
+    result: Option<&'a Result<T, String>>,
+    err_prefix: &str,
+) -> Option<&'a T> {
+    let th = &s.theme;
+    if area.height < min_h || area.width < 40 {
+        put(
+            buf,
+            area.x,
+            area.y,
+            &format!("{name}: window too small"),
+            area.width,
+            th.dim(),
+        );
+        return None;
+    }
+    let st = &s.settings;
+    let title = format!(
+        "{name} · {} to {} · {} · {}",
+        st.from,
+        st.to,
+        st.site.name,
+        st.instrument().name
+    );
+    put(buf, area.x, area.y, &title, area.width, th.title());
+    match result {
+        None => {
+            put(buf, area.x, area.y + 2, pending, area.width, th.dim());
+            None
+        }
+        Some(Err(e)) => {
+            let lines = fmt::wrap(&format!("{err_prefix}: {e}"), area.width as usize);
+            for (y, part) in (area.y + 2..area.y + area.height).zip(lines) {
+                put(buf, area.x, y, &part, area.width, th.warn());
+            }
+            None
+        }
+        Some(Ok(r)) => Some(r),
+    }
+}
+
 /// When a detail list (Phase windows, Chase nights) has more rows than it shows,
 /// say which are shown and the keys that scroll it, right-aligned on row `y`.
 pub fn scroll_mark(

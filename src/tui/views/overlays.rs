@@ -129,14 +129,7 @@ pub fn form(s: &State, f: &Form, area: Rect, buf: &mut Buffer) {
     }
     let ey = inner.y + inner.height - 2;
     if let Some((field, msg)) = &f.error {
-        put(
-            buf,
-            inner.x,
-            ey,
-            &format!("✗ {field}: {msg}"),
-            inner.width,
-            s.theme.warn(),
-        );
+        super::fmt::put_form_error(buf, inner, ey, &format!("✗ {field}: {msg}"), s.theme.warn());
     }
     let keys = format!(
         "{} check and keep · {} drop · {} next field · {} choices",
