@@ -880,6 +880,8 @@ fn every_demo_target_agrees_on_every_surface() {
     // row and the Phase view (the library's `Settings::field_report`, which
     // the UI draws) give the same numbers; a star of a field takes the
     // field's metallicity on the command line as in the field's report.
+    // The ladder, for the fields' distances on the anchors' zero point.
+    let ladder = rung(cfg, &["ladder", "--targets", DEMO, "--json"]).unwrap();
     for f in ["LPO-G1", "LPO-GC1"] {
         let p = rung(cfg, &["phase", "--targets", DEMO, "--field", f, "--json"]).unwrap();
         let (pd, pp, b, o) = (
@@ -979,13 +981,72 @@ fn every_demo_target_agrees_on_every_surface() {
             format!("{f} Phase view distance"),
             &all,
             &format!(
-                "μ {} ± {} mag · {:.1} kpc · σd/d {}%",
+                "published zp: μ {} ± {} · {:.1} kpc · σd/d {}%",
                 fixed(&pd["distance_modulus_mag"], 3),
                 fixed(&pd["sigma_mu_mag"], 3),
                 pd["distance_pc"].as_f64().unwrap() / 1000.0,
                 fixed(&pd["distance_precision_pct"], 2)
             ),
         );
+        d.eq(
+            format!("{f} zero point named"),
+            pd["zero_point"].as_str(),
+            Some("the relation's published zero point"),
+        );
+        // The distance on the anchors' zero point: rung ladder's node, in
+        // rung phase --field and in the Phase view (the ladder's node row
+        // and its planned host modulus come from the same fit by two sums:
+        // they agree to ~1e-13 mag, far below any printed digit).
+        let node = ladder["nodes"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|n| n["name"] == f);
+        match (node, p["anchored"].is_null()) {
+            (Some(n), false) => {
+                let a = &p["anchored"];
+                for (x, y) in [
+                    ("distance_modulus_mag", "modulus_mag"),
+                    ("sigma_mu_mag", "sigma_mag"),
+                ] {
+                    let (u, v) = (a[x].as_f64().unwrap(), n[y].as_f64().unwrap());
+                    if (u - v).abs() > 1e-9 {
+                        d.0.push(format!("{f} anchored {x} {u} vs ladder {v}"));
+                    }
+                }
+                d.eq(
+                    format!("{f} anchored zero point"),
+                    &a["zero_point"],
+                    &n["zero_point"],
+                );
+                d.has(
+                    format!("{f} Phase view anchored"),
+                    &all,
+                    &format!(
+                        "anchors' zp (rung ladder): μ {} ± {} · ",
+                        fixed(&n["modulus_mag"], 3),
+                        fixed(&n["sigma_mag"], 3)
+                    ),
+                );
+                *compared.entry("anchored fields").or_default() += 1;
+            }
+            (None, true) => {
+                d.has(
+                    format!("{f} Phase view anchored"),
+                    &all,
+                    "anchors' zp: none",
+                );
+                d.eq(
+                    format!("{f} anchored why"),
+                    p["anchored_why"].is_string(),
+                    true,
+                );
+            }
+            (n, _) => d.0.push(format!(
+                "{f}: ladder node {n:?}, anchored {}",
+                p["anchored"]
+            )),
+        }
         for x in p["stars"].as_array().unwrap() {
             let n = x["name"].as_str().unwrap();
             let line = view
@@ -1078,6 +1139,7 @@ fn every_demo_target_agrees_on_every_surface() {
     assert!(compared["method night↔night"] >= 15, "{compared:?}");
     assert!(compared["plan visits tonight"] >= 5, "{compared:?}");
     assert_eq!(compared["fields"], 2, "{compared:?}");
+    assert_eq!(compared["anchored fields"], 1, "LPO-G1: {compared:?}");
 }
 
 /// A method command's epochs (a pulsator's are its `visits`).

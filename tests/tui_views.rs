@@ -1250,7 +1250,7 @@ fn phase_view_shows_a_field_as_one_unit() {
     assert!(has(
         &rows,
         &format!(
-            "μ {:.3} ± {:.3} mag · {:.1} kpc · σd/d {:.2}%",
+            "published zp: μ {:.3} ± {:.3} · {:.1} kpc · σd/d {:.2}%",
             d.distance_modulus_mag,
             d.sigma_mu_mag,
             d.distance_pc / 1000.0,

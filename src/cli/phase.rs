@@ -953,7 +953,8 @@ fn run_field(
             eprintln!("rung: warning: {}", rung::output::one_line(why));
         }
     }
-    let r = st.field_report(&targets, &g)?;
+    let mut r = st.field_report(&targets, &g)?;
+    st.anchor_field(&mut r, &targets, Some(programme));
     if json {
         let mut v = serde_json::to_value(&r)?;
         if let Some(o) = v.as_object_mut() {
@@ -1073,10 +1074,11 @@ fn print_field_text(st: &rung::programme::Settings, r: &rung::ladder::field::Fie
                 })
                 .collect();
             super::outln!(
-                "  field distance modulus {} ± {} mag ({} kpc) from {} star(s): {}",
+                "  field distance modulus {} ± {} mag ({} kpc) on {} from {} star(s): {}",
                 num(d.distance_modulus_mag, 3),
                 num(d.sigma_mu_mag, 3),
                 num(d.distance_pc / 1000.0, 1),
+                d.zero_point,
                 d.n_stars,
                 terms.join(", ")
             );
@@ -1092,6 +1094,18 @@ fn print_field_text(st: &rung::programme::Settings, r: &rung::ladder::field::Fie
         None => {
             super::outln!("  no field distance: no star has a mean magnitude from these visits")
         }
+    }
+    match (&r.anchored, &r.anchored_why) {
+        (Some(a), _) => super::outln!(
+            "  on {}: μ {} ± {} mag ({} kpc), σ_d/d {} % (the anchors' parallaxes in place of the published zero point's error)",
+            a.zero_point,
+            num(a.distance_modulus_mag, 3),
+            num(a.sigma_mu_mag, 3),
+            num(a.distance_pc / 1000.0, 1),
+            num(a.distance_precision_pct, 2)
+        ),
+        (None, Some(why)) => super::outln!("  on the programme's anchors: none ({why})"),
+        (None, None) => {}
     }
     super::outln!(
         "  {} visit(s), {} h with overheads; verdict: {}",

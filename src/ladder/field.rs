@@ -506,6 +506,34 @@ pub struct FieldDistance {
     pub weights: Vec<f64>,
     /// The error budget by term.
     pub error_terms: Vec<ErrorTerm>,
+    /// Which zero point the modulus stands on: [`ZERO_POINT_PUBLISHED`] (the
+    /// relation's, from its source in config/pulsator.toml).
+    pub zero_point: String,
+}
+
+/// A field's modulus on the relation's published zero point (its source in
+/// config/pulsator.toml, its error the "relation zero point" term).
+pub const ZERO_POINT_PUBLISHED: &str = "the relation's published zero point";
+/// A modulus on the zero point the programme's anchors fix (their
+/// parallaxes, through the ladder's joint fit: `rung ladder`).
+pub const ZERO_POINT_ANCHORED: &str = "the zero point the programme's anchors fix (rung ladder)";
+
+/// A field's distance with the zero point the programme's anchors fix, as
+/// `rung ladder` gives it (`ladder::chain::build`'s planned host moduli):
+/// shown beside the field's own distance on the published zero point.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct AnchoredDistance {
+    /// Distance modulus, mag.
+    pub distance_modulus_mag: f64,
+    /// Its σ, mag (the anchors' parallaxes and the chain's shared terms in
+    /// place of the published zero point's error).
+    pub sigma_mu_mag: f64,
+    /// Distance, parsecs: 10^(μ/5 + 1).
+    pub distance_pc: f64,
+    /// σ_d/d, percent.
+    pub distance_precision_pct: f64,
+    /// [`ZERO_POINT_ANCHORED`].
+    pub zero_point: String,
 }
 
 /// The weighted mean of the stars' distance moduli and its error budget.
@@ -620,6 +648,7 @@ pub fn combine(stars: &[StarTerms], wide: &FieldWide) -> Option<FieldDistance> {
         floor_pct: floor,
         weights: w.iter().map(|x| x / sum_w).collect(),
         error_terms: terms,
+        zero_point: ZERO_POINT_PUBLISHED.to_string(),
     })
 }
 
@@ -773,6 +802,12 @@ pub struct FieldReport {
     pub cautions: Vec<String>,
     /// Warnings and explanations.
     pub notes: Vec<String>,
+    /// The field's distance on the zero point the programme's anchors fix
+    /// (`rung ladder`'s), when they fix its relation
+    /// (`Settings::anchor_field`); `None` from the field's plan alone.
+    pub anchored: Option<AnchoredDistance>,
+    /// Why there is no anchored distance, when asked for one and none is.
+    pub anchored_why: Option<String>,
 }
 
 impl FieldReport {
@@ -1657,6 +1692,8 @@ impl<'a> FieldPlanner<'a> {
             distance,
             cautions,
             notes: notes.clone(),
+            anchored: None,
+            anchored_why: None,
         })
     }
 

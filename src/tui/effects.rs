@@ -139,7 +139,15 @@ pub fn method_report(k: &MethodKey) -> MethodBody {
         let links = crate::ladder::field::link(&k.field);
         return match links.by_name(&k.field, &k.field[0].name) {
             Some(g) => match k.settings.field_report(&k.field, g) {
-                Ok(r) => MethodBody::Field(Box::new(r)),
+                Ok(mut r) => {
+                    // Beside it, the distance on the anchors' zero point
+                    // (`rung ladder`'s), as `rung phase --field` shows it.
+                    if !k.programme.is_empty() {
+                        k.settings
+                            .anchor_field(&mut r, &k.programme, k.file.as_deref());
+                    }
+                    MethodBody::Field(Box::new(r))
+                }
                 Err(e) => MethodBody::Failed(e.to_string()),
             },
             None => MethodBody::Failed(format!("{} is not a field", k.field[0].name)),

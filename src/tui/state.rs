@@ -313,7 +313,8 @@ pub struct MethodKey {
     /// else empty.
     pub field: Vec<crate::io::targets::Target>,
     /// The programme, when the target's report needs it (a transient whose
-    /// `host` names a field: its host's planned distance); else empty.
+    /// `host` names a field: its host's planned distance; a field in the
+    /// Phase view: its distance on the anchors' zero point); else empty.
     pub programme: Vec<crate::io::targets::Target>,
     /// The programme's file, for messages that name it.
     pub file: Option<std::path::PathBuf>,
@@ -628,8 +629,9 @@ pub fn detail_rows(view: View, area_h: u16) -> usize {
 }
 
 /// Rows a field's Phase view takes from its list of stars: its shared
-/// error terms have a line of their own.
-pub const FIELD_EXTRA_ROWS: usize = 1;
+/// error terms have a line of their own, and the distance on the anchors'
+/// zero point (or why there is none) another.
+pub const FIELD_EXTRA_ROWS: usize = 2;
 
 /// Rows the Phase view gives to the refitted ephemeris (one) and the period
 /// search (two), taken from its list of nights.
@@ -729,16 +731,19 @@ impl State {
             return None;
         }
         let target = self.selected()?.clone();
-        let programme = if self.view == View::Chase && !target.host.is_empty() {
-            self.targets.clone()
-        } else {
-            Vec::new()
-        };
         let field = if self.view == View::Phase {
             self.field_of(&target)
         } else {
             Vec::new()
         };
+        // The whole programme for a calibrator's host distance, and for a
+        // field's distance on the anchors' zero point (the ladder's).
+        let programme =
+            if (self.view == View::Chase && !target.host.is_empty()) || !field.is_empty() {
+                self.targets.clone()
+            } else {
+                Vec::new()
+            };
         Some(MethodKey {
             view: self.view,
             target,

@@ -422,10 +422,25 @@ fn render_field(
             .collect::<Vec<_>>()
             .join("  ")
     };
+    // Which zero point each modulus stands on: the relation's published one
+    // here; the anchors' (rung ladder's) on the next line when they fix it.
+    let l0 = match (&r.anchored, &r.anchored_why) {
+        (Some(a), _) => format!(
+            "anchors' zp (rung ladder): μ {} ± {} · {} kpc · σd/d {}",
+            num(Some(a.distance_modulus_mag), 3),
+            num(Some(a.sigma_mu_mag), 3),
+            num(Some(a.distance_pc / 1000.0), 1),
+            pct(a.distance_precision_pct, 2)
+        ),
+        (None, Some(_)) => {
+            "anchors' zp: none (no anchor of the programme fixes the relation)".to_string()
+        }
+        (None, None) => String::new(),
+    };
     let (l1, l2, l3) = match &r.distance {
         Some(d) => (
             format!(
-                "μ {} ± {} mag · {} kpc · σd/d {} (floor {}{})",
+                "published zp: μ {} ± {} · {} kpc · σd/d {} (floor {}{})",
                 num(Some(d.distance_modulus_mag), 3),
                 num(Some(d.sigma_mu_mag), 3),
                 num(Some(d.distance_pc / 1000.0), 1),
@@ -445,8 +460,9 @@ fn render_field(
         ),
     };
     put(buf, area.x, fy, &l1, area.width, th.text());
-    put(buf, area.x, fy + 1, &l2, area.width, th.dim());
-    put(buf, area.x, fy + 2, &l3, area.width, th.dim());
+    put(buf, area.x, fy + 1, &l0, area.width, th.text());
+    put(buf, area.x, fy + 2, &l2, area.width, th.dim());
+    put(buf, area.x, fy + 3, &l3, area.width, th.dim());
     let note = r
         .cautions
         .first()
@@ -458,11 +474,11 @@ fn render_field(
         put(
             buf,
             area.x,
-            fy + 3,
+            fy + 4,
             &n,
             area.width.saturating_sub(mark_w),
             st,
         );
     }
-    scroll_mark(s, area, fy + 3, off, rows, len, buf);
+    scroll_mark(s, area, fy + 4, off, rows, len, buf);
 }
