@@ -93,7 +93,9 @@ fn print_text(r: &LadderReport, st: &rung::programme::Settings, steps: usize) {
         st.instrument().name
     );
     outln!();
-    outln!("Chain (node: modulus ± σ, own | shared, σd/d):");
+    outln!(
+        "Chain (node: modulus ± σ on the zero point the programme's anchors fix, own | shared, σd/d):"
+    );
     for n in r.chain_in_order() {
         outln!(
             "  {:<11} {:<22} μ {:>7.3} ± {:.3}  own {:>6} | shared {:>6}  {}",

@@ -130,6 +130,11 @@ pub struct DistanceRow {
     pub own_pct: f64,
     /// Its shared part as σ_d/d, percent.
     pub shared_pct: f64,
+    /// Which zero point the modulus stands on: every distance of the ladder
+    /// stands on the one its anchors fix ([`crate::ladder::field::ZERO_POINT_ANCHORED`]),
+    /// where `rung phase --field` gives a field's own on the relation's
+    /// published zero point.
+    pub zero_point: String,
 }
 
 impl DistanceRow {
@@ -147,6 +152,7 @@ impl DistanceRow {
             shared_sigma_mag: b.shared_sigma_mag,
             own_pct: pct(b.own_sigma_mag),
             shared_pct: pct(b.shared_sigma_mag),
+            zero_point: crate::ladder::field::ZERO_POINT_ANCHORED.to_string(),
         }
     }
 }

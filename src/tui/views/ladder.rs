@@ -163,7 +163,9 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         .saturating_sub(W.iter().sum::<usize>() + 7)
         .clamp(8, 24);
     let head = [
-        "rung", "name", "μ mag", "±", "own", "shared", "σd/d", "+1h %/h",
+        // μ on the zero point the anchors fix (`rung ladder`; a field's
+        // own, on the published zero point, is in the Phase view).
+        "rung", "name", "μ anch", "±", "own", "shared", "σd/d", "+1h %/h",
     ]
     .map(String::from);
     put(
