@@ -215,3 +215,59 @@ fn own_copy_setup_as_is(dir: &Path) -> (rung::tui::Setup, std::path::PathBuf) {
     );
     (setup, file)
 }
+
+/// The demo saved as the user's own programme takes its settings file along
+/// (`<stem>.settings.toml` beside it: README, "Programme settings"), so the
+/// next start on the saved file plans the demo's range, site and limits, not
+/// the defaults (before: 2026-12-03 to 2029-12-02, today + 36 months); a
+/// settings file already beside the save is never written over.
+#[test]
+fn the_demo_saved_as_ones_own_keeps_its_settings() {
+    use rung::programme::{Request, Settings, settings_path};
+    let dir = tempfile::tempdir().unwrap();
+    let save = dir.path().join("programme.csv");
+    let mut s = state_with(
+        demo_subset(&["LPO-P01", "LPO-C01"]),
+        Some(demo_file()),
+        save.clone(),
+        true,
+        (80, 24),
+        false,
+    );
+    ch(&mut s, 'w');
+    assert!(save.exists());
+    let written = settings_path(&save);
+    assert_eq!(written, dir.path().join("programme.settings.toml"));
+    assert_eq!(
+        std::fs::read(&written).unwrap(),
+        std::fs::read(settings_path(&demo_file())).unwrap()
+    );
+    // The next start on the saved file: the demo's own settings.
+    let st = Settings::resolve(
+        &Request {
+            programme: Some(save.clone()),
+            ..Default::default()
+        },
+        test_now(),
+    )
+    .unwrap();
+    assert_eq!(st.from.to_string(), "2026-12-01");
+    assert_eq!(st.to.to_string(), "2029-05-31");
+    assert_eq!(st.site.name, "pampa-lucero");
+    assert_eq!(st.limits.min_alt_deg, 30.0);
+    // One already there is the user's: kept as written.
+    std::fs::write(&written, "[programme]\nto = 2027-06-30\n").unwrap();
+    let mut s2 = state_with(
+        demo_subset(&["LPO-P01"]),
+        Some(demo_file()),
+        save.clone(),
+        true,
+        (80, 24),
+        false,
+    );
+    ch(&mut s2, 'w');
+    assert_eq!(
+        std::fs::read_to_string(&written).unwrap(),
+        "[programme]\nto = 2027-06-30\n"
+    );
+}

@@ -481,6 +481,23 @@ pub fn save(
 /// the one this session last read or wrote; merged with another session's
 /// changes when not; a conflict when both changed a target (nothing written).
 pub fn save_programme(job: &SaveJob) -> Msg {
+    // The programme's settings go with it to a new file (the demo saved as
+    // the user's own keeps the demo's range, site and limits), never over a
+    // settings file already there.
+    if let Some((from, to)) = &job.settings
+        && !to.exists()
+        && let Ok(bytes) = std::fs::read(from)
+        && let Err(e) = save(to, &String::from_utf8_lossy(&bytes), None)
+    {
+        return Msg::Saved(Err(format!(
+            "cannot write the programme's settings beside it: {e}; nothing else was written"
+        )));
+    }
+    save_programme_csv(job)
+}
+
+/// The programme's CSV part of [`save_programme`].
+fn save_programme_csv(job: &SaveJob) -> Msg {
     use crate::io::merge::{bytes_fingerprint, merge3};
     let path = &job.path;
     let now = match std::fs::read(path) {

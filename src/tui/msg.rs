@@ -178,6 +178,11 @@ pub struct SaveJob {
     pub base: Vec<Target>,
     /// The programme as this session has it.
     pub mine: Vec<Target>,
+    /// The settings file of the programme read at start and the one beside
+    /// `path` (`programme::settings_path`), when they differ: a programme
+    /// saved to a new file takes its settings along (range, site,
+    /// instrument, limits, goal), written only where none is yet.
+    pub settings: Option<(PathBuf, PathBuf)>,
 }
 
 /// What a save wrote.

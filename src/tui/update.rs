@@ -484,6 +484,16 @@ fn save(s: &mut State, force: bool) -> Option<Effect> {
         _ => None,
     };
     let path = p.save_path.clone();
+    let settings = p
+        .source
+        .as_ref()
+        .map(|src| {
+            (
+                crate::programme::settings_path(src),
+                crate::programme::settings_path(&path),
+            )
+        })
+        .filter(|(a, b)| a != b);
     say(s, format!("saving {} …", path.display()), Level::Info);
     Some(Effect::Save(Box::new(crate::tui::msg::SaveJob {
         path,
@@ -493,6 +503,7 @@ fn save(s: &mut State, force: bool) -> Option<Effect> {
         force,
         base: s.saved.clone(),
         mine: s.targets.clone(),
+        settings,
     })))
 }
 
