@@ -1615,6 +1615,58 @@ impl<'a> FieldPlanner<'a> {
                 stars[*s].weight = *w;
             }
         }
+        // Stars whose period outlasts their pointing's visits: their phases
+        // are only partly covered, their mean magnitudes poorly fixed and
+        // their weight small. Said, so that a weight near 0 is not a mystery.
+        for (k, p) in plans.iter().enumerate() {
+            let (Some(first), Some(last)) = (p.epochs.first(), p.epochs.last()) else {
+                continue;
+            };
+            let span_d = last.time.seconds_since(&first.time) / 86_400.0;
+            // Those that lose more than half the weight the best star has.
+            let wtop = stars.iter().map(|x| x.weight).fold(0.0f64, f64::max);
+            let long: Vec<&FieldStar> = stars
+                .iter()
+                .filter(|x| {
+                    x.pointing == Some(k)
+                        && x.excluded.is_none()
+                        && x.period_d > span_d
+                        && x.bins_covered < bins
+                        && x.weight < 0.5 * wtop
+                })
+                .collect();
+            if long.is_empty() {
+                continue;
+            }
+            let (pmin, pmax) = long.iter().fold((f64::INFINITY, 0.0f64), |(a, b), x| {
+                (a.min(x.period_d), b.max(x.period_d))
+            });
+            let (bmin, bmax) = long.iter().fold((usize::MAX, 0), |(a, b), x| {
+                (a.min(x.bins_covered), b.max(x.bins_covered))
+            });
+            let smax = long
+                .iter()
+                .filter_map(|x| x.sigma_mean_mag)
+                .fold(0.0f64, f64::max);
+            let wmax = long.iter().map(|x| x.weight).fold(0.0f64, f64::max);
+            let names: Vec<&str> = long.iter().map(|x| x.name.as_str()).collect();
+            notes.push(format!(
+                "pointing {}: {} star(s) with periods ({:.1}–{:.1} d) longer than its visits' span ({:.1} d) cover only {}–{} of {} phase bins, so their mean magnitudes are poorly fixed (σm̄ up to {:.2} mag) and they carry little weight (at most {:.3}, the best star {:.3}): {}; visits spread over {:.0} nights or more would count them",
+                p.target,
+                long.len(),
+                pmin,
+                pmax,
+                span_d,
+                bmin,
+                bmax,
+                bins,
+                smax,
+                wmax,
+                wtop,
+                names.join(", "),
+                pmax.ceil()
+            ));
+        }
         for (i, st) in stars.iter().enumerate() {
             if let Some(why) = &st.excluded
                 && prep.excluded[i].is_none()
