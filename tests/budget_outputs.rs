@@ -353,3 +353,94 @@ fn the_png_figure_is_the_svg_figure_as_a_raster() {
         "{o:?}"
     );
 }
+
+#[test]
+fn an_observed_calibrator_is_no_goal_on_any_surface() {
+    // LPO-S2024a is observed already (its peak and the peak's error given):
+    // the budget has nothing to plan for it. It is in no row, no goal, no
+    // hours, and every output says so in its own line (#18).
+    let dir = tempfile::tempdir().unwrap();
+    let f = demo_support::demo_subset(
+        dir.path(),
+        "lean.csv",
+        &["LPO-P01", "LPO-G1", "LPO-S2024a", "LPO-T2026a"],
+    );
+    let run = |extra: &[&str]| {
+        let mut a = vec![
+            "budget",
+            "--targets",
+            f.to_str().unwrap(),
+            "--site",
+            "pampa-lucero",
+            "--from",
+            "2026-12-01",
+            "--to",
+            "2027-03-31",
+            "--hours",
+            "5",
+        ];
+        a.extend(extra);
+        let o = rung(&a);
+        assert!(
+            o.status.success() || o.status.code() == Some(3),
+            "{}",
+            String::from_utf8_lossy(&o.stderr)
+        );
+        String::from_utf8(o.stdout).unwrap()
+    };
+    let v: Value = serde_json::from_str(&run(&["--json"])).unwrap();
+    let rows = v["rows"].as_array().unwrap();
+    assert!(rows.iter().all(|r| r["target"] != "LPO-S2024a"));
+    let o = &v["observed"][0];
+    assert_eq!(o["target"], "LPO-S2024a");
+    assert_eq!(o["counted_as_goal"], false);
+    assert_eq!(o["serves"], "calibrator");
+    assert_eq!(o["host"], "LPO-G1");
+    assert_eq!(o["peak_err_mag"], 0.05);
+    let a = &v["allocation"];
+    assert_eq!(a["goals_total"].as_u64().unwrap() as usize, rows.len());
+    assert!(
+        a["shares"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .all(|s| s["target"] != "LPO-S2024a")
+    );
+    let line = o["text"].as_str().unwrap();
+    assert!(
+        line.starts_with("LPO-S2024a: observed already (peak 5.60 ± 0.05 mag given): nothing to plan; it serves the ladder as a calibrator in LPO-G1"),
+        "{line}"
+    );
+    assert!(line.ends_with("is not counted as a goal"), "{line}");
+    let j = v["justification"].as_str().unwrap();
+    assert!(
+        j.contains("LPO-S2024a is observed already and serves the distance ladder with its measured peak; nothing is planned for it and it is not counted among the goals."),
+        "{j}"
+    );
+    // Text, CSV, Markdown and LaTeX.
+    assert!(run(&[]).contains(&format!("  {line}\n")));
+    let csv = run(&["--csv"]);
+    let r = csv
+        .lines()
+        .find(|l| l.starts_with("LPO-S2024a,"))
+        .expect("its CSV row");
+    assert!(r.starts_with("LPO-S2024a,transient,,,,,,observed,"), "{r}");
+    assert!(r.contains(",not_a_goal,,,"), "{r}");
+    let md = run(&["--markdown"]);
+    assert!(
+        md.contains("| LPO-S2024a | transient | – | – | – | – | – | – | – | observed: serves the ladder, not a goal | – | – | not a goal |"),
+        "{md}"
+    );
+    let n = rows.len();
+    assert!(md.contains(&format!(" of {n} goals met |")), "{md}");
+    let tex = run(&["--latex"]);
+    assert!(
+        tex.contains("LPO-S2024a & transient & -- & -- & -- & -- & -- & -- & observed: serves the ladder, not a goal & -- & not a goal \\\\"),
+        "{tex}"
+    );
+    // The figure draws no curve for it.
+    let svg = dir.path().join("f.svg");
+    run(&["--figure", svg.to_str().unwrap()]);
+    let fig = std::fs::read_to_string(&svg).unwrap();
+    assert!(fig.contains("LPO-T2026a") && !fig.contains("LPO-S2024a"));
+}

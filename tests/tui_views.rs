@@ -1278,3 +1278,33 @@ fn phase_view_shows_a_field_as_one_unit() {
     assert!(has(&rows2, "LPO-G1-C25"));
     assert!(has(&rows2, "rows "), "the 30 stars scroll at 80x24");
 }
+
+#[test]
+fn the_budget_view_says_an_observed_calibrator_is_no_goal() {
+    // LPO-S2024a is observed already: no row, no goal; the view's totals
+    // name it as serving the ladder, its reason is the budget's line, and
+    // the Roster shows no goal for it (#18).
+    let targets = demo_subset(&["LPO-S2024a", "LPO-T2026a"]);
+    let b = rung::plan::budget::budget(&demo_settings(), &targets).unwrap();
+    assert!(b.rows.iter().all(|r| r.target != "LPO-S2024a"));
+    let line = b.observed[0].text.clone();
+    let dir = tempfile::tempdir().unwrap();
+    let mut s = state_with(
+        targets.clone(),
+        None,
+        dir.path().join("programme.csv"),
+        true,
+        (80, 24),
+        true,
+    );
+    assert_eq!(s.progress(&targets[0]), rung::tui::state::Progress::NoGoal);
+    ch(&mut s, '7');
+    select(&mut s, "LPO-S2024a");
+    let (rows, _) = screen(&s, 160, 48);
+    let all = rows.join("\n");
+    assert!(
+        has(&rows, "observed, serving the ladder, no goal: LPO-S2024a"),
+        "{all}"
+    );
+    assert!(all.replace('\n', " ").contains(&line[..60]), "{all}");
+}

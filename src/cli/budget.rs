@@ -254,6 +254,9 @@ fn print_text(st: &rung::programme::Settings, b: &Budget) {
     for l in budget::totals_lines(b) {
         super::outln!("  {l}");
     }
+    for o in &b.observed {
+        super::outln!("  {}", o.text);
+    }
     for (name, why) in &b.skipped {
         super::outln!("  skipped {name}: {why}");
     }

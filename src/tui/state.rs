@@ -825,6 +825,10 @@ impl State {
     /// A budget made before an edit still answers for targets the edit left as
     /// they were, so the column does not blank out while it is recomputed.
     pub fn progress(&self, t: &Target) -> Progress {
+        // A supernova already observed has no goal: it serves the ladder.
+        if crate::plan::budget::observed_row(t).is_some() {
+            return Progress::NoGoal;
+        }
         // A star of a field shows its field's progress (the field is one unit).
         if !t.field.is_empty()
             && let Some((k, Ok(b))) = self.budget.as_ref()

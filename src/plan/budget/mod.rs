@@ -102,6 +102,80 @@ pub struct BudgetRow {
     pub parallax: Option<ParallaxFit>,
 }
 
+/// A target the budget has nothing to plan for: a supernova already
+/// observed (its fitted peak's error, `peak_err_mag`, given) serves the
+/// ladder with its measured peak; it is not a goal, and the budget counts it
+/// in none of its goals, hours or curves.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ObservedRow {
+    /// Target name.
+    pub target: String,
+    /// Its kind (`transient`).
+    pub kind: Kind,
+    /// What it serves on the ladder: `calibrator` (its row names a host, or
+    /// gives a host distance) or `hubble_flow`.
+    pub serves: String,
+    /// The host its row names (a calibrator), else empty.
+    pub host: String,
+    /// Its peak as given, mag (its band).
+    pub peak_mag: Option<f64>,
+    /// Its peak's error as given, mag.
+    pub peak_err_mag: Option<f64>,
+    /// Always false: it is not counted among the goals.
+    pub counted_as_goal: bool,
+    /// The same in words (text, CSV, Markdown, LaTeX, justification and the
+    /// Budget view print it).
+    pub text: String,
+}
+
+/// The verdict column of a supernova already observed (Markdown, LaTeX,
+/// the Budget view).
+pub const OBSERVED_VERDICT: &str = "observed: serves the ladder, not a goal";
+
+/// The budget's line for a supernova already observed (`peak_err_mag`
+/// given): nothing to plan, it serves the ladder. `None` for any other target.
+pub fn observed_row(t: &Target) -> Option<ObservedRow> {
+    if t.kind != Kind::Transient || t.peak_err_mag.is_none() {
+        return None;
+    }
+    let calibrator = !t.host.is_empty() || t.host_mu_mag.is_some();
+    let serves = if calibrator {
+        "calibrator"
+    } else {
+        "hubble_flow"
+    };
+    let role = if !t.host.is_empty() {
+        format!("as a calibrator in {}", t.host)
+    } else if calibrator {
+        "as a calibrator".to_string()
+    } else {
+        "in the Hubble flow".to_string()
+    };
+    let peak = t
+        .peak_mag
+        .map(|m| {
+            format!(
+                "peak {} ± {} mag",
+                num(m, 2),
+                num(t.peak_err_mag.unwrap_or(0.0), 2)
+            )
+        })
+        .unwrap_or_else(|| format!("peak error {} mag", num(t.peak_err_mag.unwrap_or(0.0), 2)));
+    Some(ObservedRow {
+        target: t.name.clone(),
+        kind: t.kind,
+        serves: serves.into(),
+        host: t.host.clone(),
+        peak_mag: t.peak_mag,
+        peak_err_mag: t.peak_err_mag,
+        counted_as_goal: false,
+        text: format!(
+            "{}: observed already ({peak} given): nothing to plan; it serves the ladder {role} (rung ladder) and is not counted as a goal",
+            t.name
+        ),
+    })
+}
+
 /// The structured figures of a parallax row, the same keys as `rung
 /// parallax --json`.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -191,6 +265,9 @@ pub struct Budget {
     pub rows: Vec<BudgetRow>,
     /// Targets left out (no method, or the method failed), with the reason.
     pub skipped: Vec<(String, String)>,
+    /// Supernovae already observed: nothing to plan, they serve the ladder,
+    /// not counted as goals (nor in `rows`, hours or curves).
+    pub observed: Vec<ObservedRow>,
     /// Hours by month (YYYY-MM) over all targets.
     pub hours_by_month: BTreeMap<String, f64>,
     /// Hours by semester (e.g. 2026B), targets only, clear weather.
@@ -295,6 +372,10 @@ pub fn target_prediction(
     settings: &Settings,
     t: &Target,
 ) -> Option<std::result::Result<Prediction, String>> {
+    // A supernova already observed has nothing to plan: no goal.
+    if observed_row(t).is_some() {
+        return None;
+    }
     let m = settings.method(t.kind)?;
     let g = settings.goal_for(t)?;
     let t = crate::ladder::with_goal(t, Some(g));
@@ -446,6 +527,7 @@ fn unreachable_budget(settings: &Settings) -> Budget {
     Budget {
         rows: Vec::new(),
         skipped: Vec::new(),
+        observed: Vec::new(),
         hours_by_month: BTreeMap::new(),
         hours_by_semester: BTreeMap::new(),
         total_hours: 0.0,
@@ -543,6 +625,7 @@ pub fn assemble_with(
         .collect();
     let mut rows = Vec::new();
     let mut skipped = Vec::new();
+    let mut observed = Vec::new();
     let mut done = vec![false; targets.len()];
     let mut exposure_s = 0.0;
     let mut visit_s = 0.0;
@@ -616,6 +699,10 @@ pub fn assemble_with(
             continue;
         }
         if !done[i] {
+            if let Some(o) = observed_row(t) {
+                observed.push(o);
+                continue;
+            }
             let why = if t.kind != Kind::Field && settings.method(t.kind).is_none() {
                 format!("no distance method for kind '{}'", t.kind.as_str())
             } else {
@@ -689,6 +776,7 @@ pub fn assemble_with(
         ),
         rows,
         skipped,
+        observed,
         hours_by_month,
         hours_by_semester,
         total_hours,
@@ -765,6 +853,20 @@ pub fn markdown(b: &Budget) -> String {
             num(r.hours_expected, 1),
             num(r.hours_pessimistic, 1),
             md_cell(&r.verdict.text())
+        ));
+    }
+    // A supernova already observed: its row, no goal and no hours.
+    for o in &b.observed {
+        s.push_str(&format!(
+            "| {} | {} | – | – | – | – | – | – | – | {} |{}\n",
+            md_cell(&o.target),
+            o.kind.as_str(),
+            OBSERVED_VERDICT,
+            if alloc.is_some() {
+                " – | – | not a goal |"
+            } else {
+                ""
+            }
         ));
     }
     // Science + calibrations = total, as every surface says it; the
@@ -865,7 +967,9 @@ pub fn terms_field(r: &BudgetRow) -> String {
 
 /// The budget as CSV: one row per target (a number without a value is an
 /// empty field; the share columns are empty without hours asked), each
-/// with its σ_d/d by term; then three rows of kind `total`: `science`,
+/// with its σ_d/d by term; a supernova already observed as a row of
+/// verdict `observed` and share status `not_a_goal` with its line in
+/// `detail` and no goal or hours; then three rows of kind `total`: `science`,
 /// `calibrations` and `total` (science + calibrations, as every surface
 /// counts it; the pessimistic hours only for the total, its own quantile).
 pub fn csv(b: &Budget) -> String {
@@ -897,6 +1001,17 @@ pub fn csv(b: &Budget) -> String {
             ]
         })
         .collect();
+    // A supernova already observed: its line, verdict `observed`, no
+    // goal, no hours, share status `not_a_goal`.
+    for o in &b.observed {
+        let mut v = vec![String::new(); 17];
+        v[0] = o.target.clone();
+        v[1] = o.kind.as_str().to_string();
+        v[7] = "observed".into();
+        v[8] = o.text.clone();
+        v[13] = "not_a_goal".into();
+        rows.push(v);
+    }
     let sum_row = |name: &str,
                    nights: String,
                    hours: f64,

@@ -87,6 +87,19 @@ pub fn latex(b: &Budget) -> String {
             tex(&r.verdict.text())
         ));
     }
+    for o in &b.observed {
+        s.push_str(&format!(
+            "{} & {} & -- & -- & -- & -- & -- & -- & {}{} \\\\\n",
+            tex(&o.target),
+            o.kind.as_str(),
+            tex(super::OBSERVED_VERDICT),
+            if alloc.is_some() {
+                " & -- & not a goal"
+            } else {
+                ""
+            }
+        ));
+    }
     s.push_str("\\midrule\n");
     // Science + calibrations = total, as every surface counts it; the
     // pessimistic hours are the total's own quantile.
@@ -146,8 +159,21 @@ pub fn justification(b: &Budget) -> String {
         num(b.total_hours_pessimistic, 1),
         q
     ));
+    if !b.observed.is_empty() {
+        let names: Vec<&str> = b.observed.iter().map(|o| o.target.as_str()).collect();
+        p.push_str(&format!(
+            "{} {} observed already and {} the distance ladder with {} measured peak{}; nothing is planned for {} and {} not counted among the goals. ",
+            names.join(", "),
+            if names.len() == 1 { "is" } else { "are" },
+            if names.len() == 1 { "serves" } else { "serve" },
+            if names.len() == 1 { "its" } else { "their" },
+            if names.len() == 1 { "" } else { "s" },
+            if names.len() == 1 { "it" } else { "them" },
+            if names.len() == 1 { "it is" } else { "they are" },
+        ));
+    }
     let Some(a) = &b.allocation else {
-        return p;
+        return p.trim_end().to_string();
     };
     let met: Vec<String> = a
         .shares

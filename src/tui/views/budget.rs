@@ -215,10 +215,16 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         })
         .or_else(|| {
             sel_name.as_ref().map(|name| {
-                b.skipped
+                b.observed
                     .iter()
-                    .find(|(n, _)| n == name)
-                    .map(|(n, why)| format!("{n}: skipped: {why}"))
+                    .find(|o| &o.target == name)
+                    .map(|o| o.text.clone())
+                    .or_else(|| {
+                        b.skipped
+                            .iter()
+                            .find(|(n, _)| n == name)
+                            .map(|(n, why)| format!("{n}: skipped: {why}"))
+                    })
                     .unwrap_or_else(|| format!("{name}: not in the budget"))
             })
         })
@@ -292,6 +298,16 @@ pub fn once_each(parts: Vec<String>) -> Vec<String> {
 pub fn totals_lines(b: &crate::plan::budget::Budget, w: usize, max: usize) -> Vec<String> {
     let mut parts = crate::plan::budget::total_parts(b);
     parts.push(format!("{} skipped", b.skipped.len()));
+    if !b.observed.is_empty() {
+        parts.push(format!(
+            "observed, serving the ladder, no goal: {}",
+            b.observed
+                .iter()
+                .map(|o| o.target.as_str())
+                .collect::<Vec<_>>()
+                .join(", ")
+        ));
+    }
     if !b.semesters.is_empty() {
         parts.push(format!(
             "by semester {} h",
