@@ -96,6 +96,27 @@ fn target_in_its_best_months_gets_a_full_light_curve() {
         "{:?}",
         c.sparser
     );
+    // What was compared: every pair of gaps g ≤ n up to the largest; the
+    // chosen cadence passes and takes the fewest hours of those that pass,
+    // so a sparser trial that also passes takes more hours.
+    let k = &c.cadence_search;
+    let m = k.max_every_n as usize;
+    assert_eq!(k.tried, m * (m + 1) / 2);
+    assert!(k.passing >= 1 && k.passing <= k.tried);
+    for t in c.sparser.iter().filter(|t| t.reason.starts_with("meets")) {
+        assert!(t.hours > c.design.hours_needed, "{t:?}");
+    }
+    let why = c.cadence_choice();
+    assert!(
+        why.contains(&format!(
+            "{} takes the fewest telescope hours of them",
+            rung::ladder::transient::chase::cadence_label(
+                c.design.near_max_every,
+                c.design.cadence_days
+            )
+        )),
+        "{why}"
+    );
     // The test photometer has no spectrograph: the plan stays provisional and
     // says why no classification spectrum is planned.
     assert!(c.provisional);

@@ -115,6 +115,43 @@ fn json_carries_the_contract_keys() {
     assert!(terms.iter().any(|t| t["shared"] == true));
     assert!(v["sparser_cadences"].as_array().is_some());
     assert!(v["luminosity_distance_mpc"].as_f64().unwrap() > 100.0);
+    // Why this cadence: what was compared, what passed and why it won, in
+    // one wording for --json and the text (each sparser trial's own words
+    // inside it).
+    let k = &v["cadence_search"];
+    let m = k["max_every_n"].as_u64().unwrap();
+    assert_eq!(
+        k["tried"].as_u64().unwrap(),
+        m * (m + 1) / 2,
+        "every g ≤ n ≤ {m}"
+    );
+    let choice = v["cadence_choice"].as_str().unwrap();
+    assert!(
+        choice.starts_with(&format!(
+            "{} cadences compared (every g = 1–{m} nights around maximum, every n = g–{m} nights on the decline): {} meet the requirement",
+            k["tried"], k["passing"]
+        )),
+        "{choice}"
+    );
+    assert!(
+        choice.contains("takes the fewest telescope hours of them"),
+        "{choice}"
+    );
+    for t in v["sparser_cadences"].as_array().unwrap() {
+        assert!(choice.contains(t["text"].as_str().unwrap()), "{choice}");
+    }
+    let (code, out, err) = rung(&[
+        "chase",
+        "--target",
+        "LPO-T2026a",
+        "--now",
+        "2026-12-01T12:00:00Z",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    assert!(
+        out.contains(&format!("  why this cadence: {choice}\n")),
+        "{out}"
+    );
 }
 
 #[test]

@@ -617,6 +617,8 @@ fn to_json(
         json!(d.meets_requirement),
     );
     o.insert("sparser_cadences".into(), json!(c.sparser));
+    o.insert("cadence_search".into(), json!(c.cadence_search));
+    o.insert("cadence_choice".into(), json!(c.cadence_choice()));
     o.insert(
         "verdict".into(),
         serde_json::to_value(&c.verdict).unwrap_or(Value::Null),
@@ -712,16 +714,7 @@ fn print_table(
             ""
         }
     );
-    for s in &c.sparser {
-        super::outln!(
-            "  sparser: every {} around maximum, {} on the decline ({} epochs, {:.2} h): {}",
-            s.near_max_every,
-            s.cadence_days,
-            s.epochs,
-            s.hours,
-            s.reason
-        );
-    }
+    super::outln!("  why this cadence: {}", c.cadence_choice());
     if let Some(f) = d.fit {
         super::outln!(
             "  σ(t_max) {:.2} d   σ(peak) {:.3} mag   σ(Δm15) {:.3} mag   σ(B−V) {:.3} mag   σ(rise) {:.1} d",

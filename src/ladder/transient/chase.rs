@@ -135,6 +135,61 @@ pub struct CadenceTrial {
     pub sigma_mu_phot_mag: Option<f64>,
     /// Why it is not chosen.
     pub reason: String,
+    /// The trial in words (what `rung chase` prints and the Chase view
+    /// shows): its gaps, epochs, hours and reason.
+    pub text: String,
+}
+
+impl CadenceTrial {
+    /// The trial in words: "every 4 nights around maximum, every 10 on the
+    /// decline (9 epochs, 0.92 h): <reason>".
+    pub fn words(near: u32, far: u32, epochs: usize, hours: f64, reason: &str) -> String {
+        format!(
+            "{} ({epochs} epochs, {hours:.2} h): {reason}",
+            cadence_label(near, far)
+        )
+    }
+}
+
+/// A cadence in words: "every 3 nights around maximum, every 10 on the
+/// decline" (every usable night when a gap is 1).
+pub fn cadence_label(near: u32, far: u32) -> String {
+    let every = |g: u32| {
+        if g == 1 {
+            "every usable night".to_string()
+        } else {
+            format!("every {g} nights")
+        }
+    };
+    if far > near {
+        format!(
+            "{} around maximum, {} on the decline",
+            every(near),
+            every(far).replace("every usable night", "every night")
+        )
+    } else {
+        format!("{} around maximum and on the decline", every(near))
+    }
+}
+
+/// What the cadence search compared: every pair of gaps (every g nights
+/// within the days around maximum, every n ≥ g outside), how many met the
+/// requirement, and the requirement.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CadenceSearch {
+    /// Cadences tried.
+    pub tried: usize,
+    /// Those that meet the requirement (the chosen one among them, unless
+    /// none does).
+    pub passing: usize,
+    /// The largest gap tried, nights (`max_every_n`, config/transient.toml).
+    pub max_every_n: u32,
+    /// The largest gap around maximum practice allows, nights.
+    pub max_gap_near_max_nights: u32,
+    /// σ_μ the light curve may add so the goal holds, mag.
+    pub need_phot_mag: f64,
+    /// Whether a design must survive one planned night lost.
+    pub robust: bool,
 }
 
 /// The classification step.
@@ -189,6 +244,8 @@ pub struct Chase {
     pub design: CadenceDesign,
     /// Sparser cadences and why they fail.
     pub sparser: Vec<CadenceTrial>,
+    /// What the cadence search compared.
+    pub cadence_search: CadenceSearch,
     /// Host dust expected from the colour curve.
     pub host_extinction: Option<HostExtinction>,
     /// Expected standardized peak absolute magnitude in B (the calibrator's
@@ -228,6 +285,74 @@ pub struct Calibration {
 }
 
 impl Chase {
+    /// Why this cadence, in words (text and `--json` `cadence_choice`):
+    /// what was compared, what passed, and why the chosen one won; then
+    /// each sparser cadence tried beside it and why it lost.
+    pub fn cadence_choice(&self) -> String {
+        let k = &self.cadence_search;
+        let d = &self.design;
+        let rule = format!(
+            "the peak sampled at least every {} nights and the curve where the fit learns it, the light curve's σ_μ at most {:.3} mag so that the goal holds{}",
+            k.max_gap_near_max_nights,
+            k.need_phot_mag,
+            if k.robust {
+                ", also with any one planned night lost"
+            } else {
+                ""
+            }
+        );
+        let head = format!(
+            "{} cadences compared (every g = 1–{m} nights around maximum, every n = g–{m} nights on the decline)",
+            k.tried,
+            m = k.max_every_n
+        );
+        if !d.meets_requirement {
+            return format!(
+                "{head}: none meets the requirement ({rule}); the plan shows {} ({} epochs, {:.2} h)",
+                cadence_label(d.near_max_every, d.cadence_days),
+                d.epochs.len(),
+                d.hours_needed
+            );
+        }
+        let mut out = format!(
+            "{head}: {} meet{} the requirement ({rule}); {} takes the fewest telescope hours of them ({} epochs, {:.2} h)",
+            k.passing,
+            if k.passing == 1 { "s" } else { "" },
+            cadence_label(d.near_max_every, d.cadence_days),
+            d.epochs.len(),
+            d.hours_needed
+        );
+        if !self.sparser.is_empty() {
+            out.push_str("; sparser ones beside it: ");
+            out.push_str(
+                &self
+                    .sparser
+                    .iter()
+                    .map(|t| t.text.clone())
+                    .collect::<Vec<_>>()
+                    .join("; "),
+            );
+        }
+        out
+    }
+
+    /// The same in a few words for the Chase view: "3 n at max, 10 after:
+    /// fewest h of 12/55 passing".
+    pub fn cadence_short(&self) -> String {
+        let d = &self.design;
+        let k = &self.cadence_search;
+        let gaps = if d.near_max_every == d.cadence_days {
+            format!("every {} n", d.cadence_days)
+        } else {
+            format!("{} n at max, {} after", d.near_max_every, d.cadence_days)
+        };
+        if d.meets_requirement {
+            format!("{gaps}: fewest h of {}/{} passing", k.passing, k.tried)
+        } else {
+            format!("{gaps}: none of {} passes", k.tried)
+        }
+    }
+
     /// The calibration a calibrator's chase gives (`None` for another role,
     /// or when the planned epochs do not fix the light curve).
     pub fn calibration(&self) -> Option<Calibration> {

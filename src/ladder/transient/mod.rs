@@ -29,8 +29,8 @@ pub mod standardize;
 pub mod template;
 
 pub use chase::{
-    BandPlan, CadenceDesign, CadenceTrial, Calibration, Chase, ChaseNight, ClassificationPlan,
-    SPECTRUM_BAND, night_of,
+    BandPlan, CadenceDesign, CadenceSearch, CadenceTrial, Calibration, Chase, ChaseNight,
+    ClassificationPlan, SPECTRUM_BAND, night_of,
 };
 pub use config::{DEFAULT_CONFIG_TOML, Relation, TransientConfig};
 pub use cosmology::{C_KM_S, FlatLcdm, fractional_distance_error};
@@ -655,9 +655,12 @@ impl TransientMethod {
         let max_n = cfg.cadence.max_every_n;
         let mut best: Option<CadenceDesign> = None;
         let mut fallback: Option<CadenceDesign> = None;
+        let (mut tried, mut passing) = (0usize, 0usize);
         for near in 1..=max_n {
             for far in near..=max_n {
                 let (d, ok) = design_of(near, far)?;
+                tried += 1;
+                passing += usize::from(ok.is_ok());
                 if near == 1 && far == 1 {
                     fallback = Some(d.clone());
                 }
@@ -711,6 +714,7 @@ impl TransientMethod {
                     epochs: d.epochs.len(),
                     hours: d.hours_needed,
                     sigma_mu_phot_mag: d.budget.map(|b| b.sigma_mu_phot_mag),
+                    text: CadenceTrial::words(a, b, d.epochs.len(), d.hours_needed, &reason),
                     reason,
                 });
             }
@@ -849,6 +853,14 @@ impl TransientMethod {
             provisional,
             design,
             sparser,
+            cadence_search: chase::CadenceSearch {
+                tried,
+                passing,
+                max_every_n: max_n,
+                max_gap_near_max_nights: cfg.cadence.max_gap_near_max_nights,
+                need_phot_mag: need_phot,
+                robust: req.robust,
+            },
             host_extinction,
             peak_abs_mag,
             goal_met,

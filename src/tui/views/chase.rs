@@ -63,11 +63,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         return;
     };
     let d = &c.design;
-    let cadence = if d.near_max_every == d.cadence_days {
-        format!("every {} n", d.cadence_days)
-    } else {
-        format!("{} n at max, {} after", d.near_max_every, d.cadence_days)
-    };
+    let cadence = c.cadence_short();
     put(
         buf,
         area.x,
