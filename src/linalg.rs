@@ -37,7 +37,6 @@ pub enum LinalgError {
 /// Cholesky decomposition. Only the lower triangle is read. Accuracy: the
 /// backward-stable Cholesky factorization, relative error of order the
 /// condition number times 1e-16.
-#[allow(clippy::needless_range_loop)] // index form mirrors the textbook algorithm
 pub fn spd_inverse(a: &[Vec<f64>]) -> Result<Vec<Vec<f64>>, LinalgError> {
     let n = a.len();
     if n == 0 {
@@ -49,57 +48,24 @@ pub fn spd_inverse(a: &[Vec<f64>]) -> Result<Vec<Vec<f64>>, LinalgError> {
             a[r].len()
         )));
     }
-    if a.iter().flatten().any(|v| !v.is_finite()) {
-        return Err(LinalgError::Shape("a value is not finite".into()));
-    }
-    let mut l = vec![vec![0.0f64; n]; n];
-    for i in 0..n {
-        for j in 0..=i {
-            let s: f64 = (0..j).map(|k| l[i][k] * l[j][k]).sum();
-            if i == j {
-                let d = a[i][i] - s;
-                if d.is_nan() || d <= PIVOT_REL_TOL * a[i][i].abs() || d <= 0.0 {
-                    return Err(LinalgError::Singular {
-                        row: i,
-                        pivot: d,
-                        tol: PIVOT_REL_TOL,
-                    });
-                }
-                l[i][i] = d.sqrt();
-            } else {
-                l[i][j] = (a[i][j] - s) / l[j][j];
-            }
-        }
-    }
-    // Inverse of L (lower triangular), then A⁻¹ = L⁻ᵀ L⁻¹.
-    let mut li = vec![vec![0.0f64; n]; n];
-    for i in 0..n {
-        li[i][i] = 1.0 / l[i][i];
-        for j in 0..i {
-            let s: f64 = (j..i).map(|k| l[i][k] * li[k][j]).sum();
-            li[i][j] = -s / l[i][i];
-        }
-    }
-    let mut inv = vec![vec![0.0f64; n]; n];
-    for i in 0..n {
-        for j in 0..n {
-            inv[i][j] = (i.max(j)..n).map(|k| li[k][i] * li[k][j]).sum();
-        }
-    }
-    Ok(inv)
+    let flat: Vec<f64> = a.concat();
+    let mut l = vec![0.0f64; n * n];
+    let mut li = vec![0.0f64; n * n];
+    cholesky_inverse(&flat, n, &mut l, &mut li)?;
+    Ok((0..n)
+        .map(|i| (0..n).map(|j| inverse_element(&li, n, i, j)).collect())
+        .collect())
 }
 
 /// [`spd_inverse`] for a fixed-size matrix, on the stack: the same
-/// arithmetic in the same order (bit-identical results), no allocation.
+/// arithmetic in the same order (the same functions: bit-identical
+/// results), no allocation.
 pub fn spd_inverse_n<const N: usize>(a: &[[f64; N]; N]) -> Result<[[f64; N]; N], LinalgError> {
     let li = cholesky_inverse_n(a)?;
-    let mut inv = [[0.0f64; N]; N];
-    for i in 0..N {
-        for j in 0..N {
-            inv[i][j] = (i.max(j)..N).map(|k| li[k][i] * li[k][j]).sum();
-        }
-    }
-    Ok(inv)
+    let li = li.as_flattened();
+    Ok(std::array::from_fn(|i| {
+        std::array::from_fn(|j| inverse_element(li, N, i, j))
+    }))
 }
 
 /// The last row of the inverse of a fixed-size symmetric positive-definite
@@ -109,52 +75,71 @@ pub fn spd_inverse_n<const N: usize>(a: &[[f64; N]; N]) -> Result<[[f64; N]; N],
 /// covariance row.
 pub fn spd_inverse_last_row_n<const N: usize>(a: &[[f64; N]; N]) -> Result<[f64; N], LinalgError> {
     let li = cholesky_inverse_n(a)?;
-    let mut row = [0.0f64; N];
-    let last = N - 1;
-    for (j, r) in row.iter_mut().enumerate() {
-        *r = (last.max(j)..N).map(|k| li[k][last] * li[k][j]).sum();
-    }
-    Ok(row)
+    let li = li.as_flattened();
+    Ok(std::array::from_fn(|j| inverse_element(li, N, N - 1, j)))
 }
 
-/// L⁻¹ of the Cholesky factor of a fixed-size matrix, as [`spd_inverse`]
-/// computes it.
-#[allow(clippy::needless_range_loop)] // index form mirrors the textbook algorithm
+/// L⁻¹ of the Cholesky factor of a fixed-size matrix ([`cholesky_inverse`]
+/// on the stack).
 fn cholesky_inverse_n<const N: usize>(a: &[[f64; N]; N]) -> Result<[[f64; N]; N], LinalgError> {
     if N == 0 {
         return Err(LinalgError::Shape("empty".into()));
     }
-    if a.iter().flatten().any(|v| !v.is_finite()) {
+    let mut l = [[0.0f64; N]; N];
+    let mut li = [[0.0f64; N]; N];
+    cholesky_inverse(
+        a.as_flattened(),
+        N,
+        l.as_flattened_mut(),
+        li.as_flattened_mut(),
+    )?;
+    Ok(li)
+}
+
+/// The one body of every inverse here: the Cholesky factor L of the n × n
+/// matrix `a` (row-major, only its lower triangle read) into `l`, and L⁻¹
+/// (lower triangular) into `li`, both row-major n × n and zero on entry.
+/// Refuses a value that is not finite and a pivot at or below
+/// [`PIVOT_REL_TOL`] of its diagonal. Inlined, so that a fixed size is
+/// known to the compiler where it is.
+#[inline(always)]
+fn cholesky_inverse(a: &[f64], n: usize, l: &mut [f64], li: &mut [f64]) -> Result<(), LinalgError> {
+    if a.iter().any(|v| !v.is_finite()) {
         return Err(LinalgError::Shape("a value is not finite".into()));
     }
-    let mut l = [[0.0f64; N]; N];
-    for i in 0..N {
+    for i in 0..n {
         for j in 0..=i {
-            let s: f64 = (0..j).map(|k| l[i][k] * l[j][k]).sum();
+            let s: f64 = (0..j).map(|k| l[i * n + k] * l[j * n + k]).sum();
             if i == j {
-                let d = a[i][i] - s;
-                if d.is_nan() || d <= PIVOT_REL_TOL * a[i][i].abs() || d <= 0.0 {
+                let d = a[i * n + i] - s;
+                if d.is_nan() || d <= PIVOT_REL_TOL * a[i * n + i].abs() || d <= 0.0 {
                     return Err(LinalgError::Singular {
                         row: i,
                         pivot: d,
                         tol: PIVOT_REL_TOL,
                     });
                 }
-                l[i][i] = d.sqrt();
+                l[i * n + i] = d.sqrt();
             } else {
-                l[i][j] = (a[i][j] - s) / l[j][j];
+                l[i * n + j] = (a[i * n + j] - s) / l[j * n + j];
             }
         }
     }
-    let mut li = [[0.0f64; N]; N];
-    for i in 0..N {
-        li[i][i] = 1.0 / l[i][i];
+    // Inverse of L (lower triangular), then A⁻¹ = L⁻ᵀ L⁻¹.
+    for i in 0..n {
+        li[i * n + i] = 1.0 / l[i * n + i];
         for j in 0..i {
-            let s: f64 = (j..i).map(|k| l[i][k] * li[k][j]).sum();
-            li[i][j] = -s / l[i][i];
+            let s: f64 = (j..i).map(|k| l[i * n + k] * li[k * n + j]).sum();
+            li[i * n + j] = -s / l[i * n + i];
         }
     }
-    Ok(li)
+    Ok(())
+}
+
+/// Element (i, j) of A⁻¹ = L⁻ᵀ L⁻¹ from L⁻¹ (row-major n × n).
+#[inline(always)]
+fn inverse_element(li: &[f64], n: usize, i: usize, j: usize) -> f64 {
+    (i.max(j)..n).map(|k| li[k * n + i] * li[k * n + j]).sum()
 }
 
 #[cfg(test)]
@@ -210,6 +195,36 @@ mod tests {
             spd_inverse_last_row_n(&bad),
             Err(LinalgError::Singular { row: 1, .. })
         ));
+    }
+
+    #[test]
+    #[allow(clippy::needless_range_loop)]
+    fn one_body_for_rows_and_arrays() {
+        // The rows version and the fixed-size version run one body
+        // (cholesky_inverse, inverse_element): bit-identical inverses on a
+        // matrix of mixed scales (a normal matrix of days and magnitudes),
+        // and the same refusal, row and pivot of a singular one.
+        // D B D with B = [[2, 0.5, 0.3], [0.5, 1.5, 0.2], [0.3, 0.2, 1]]
+        // (diagonally dominant, so positive definite) and D = diag(1e3, 1, 0.1).
+        let a = [[2.0e6, 500.0, 30.0], [500.0, 1.5, 0.02], [30.0, 0.02, 0.01]];
+        let rows: Vec<Vec<f64>> = a.iter().map(|r| r.to_vec()).collect();
+        let inv = spd_inverse(&rows).unwrap();
+        let inv_n = spd_inverse_n(&a).unwrap();
+        let last = spd_inverse_last_row_n(&a).unwrap();
+        for i in 0..3 {
+            for j in 0..3 {
+                assert_eq!(inv[i][j].to_bits(), inv_n[i][j].to_bits(), "({i}, {j})");
+            }
+            assert_eq!(last[i].to_bits(), inv[2][i].to_bits(), "last row, {i}");
+        }
+        let s = [[1.0, 2.0, 0.0], [2.0, 4.0, 0.0], [0.0, 0.0, 1.0]];
+        let rows: Vec<Vec<f64>> = s.iter().map(|r| r.to_vec()).collect();
+        assert_eq!(
+            spd_inverse(&rows).unwrap_err(),
+            spd_inverse_n(&s).unwrap_err()
+        );
+        let nan = [[f64::NAN]];
+        assert!(matches!(spd_inverse_n(&nan), Err(LinalgError::Shape(_))));
     }
 
     #[test]
