@@ -374,7 +374,10 @@ impl<'a> Search<'a> {
         let it = &self.p.items[self.order[m]];
         let still = need - (pre.w[m] - pre.w[k]);
         let err = 4.0 * (pre.tol_h + pre.h_per_w * pre.tol_w);
-        Some((pre.h[m] - pre.h[k] + it.own_total() * still / it.weight, err))
+        Some((
+            pre.h[m] - pre.h[k] + it.own_total() * still / it.weight,
+            err,
+        ))
     }
 
     /// Whether the branch from `k` at `here` hours, needing `need` weight
