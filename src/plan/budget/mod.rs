@@ -401,6 +401,11 @@ pub fn target_work(
     t: &Target,
     curves: bool,
 ) -> Option<std::result::Result<TargetWork, String>> {
+    // A supernova already observed has nothing to plan: no goal (as
+    // target_prediction).
+    if observed_row(t).is_some() {
+        return None;
+    }
     let m = settings.method(t.kind)?;
     let g = settings.goal_for(t)?;
     // One goal search for the row and its curve: the work that does not
