@@ -353,6 +353,20 @@ impl Chase {
         }
     }
 
+    /// The shortest form, for a narrow line: "3/10 n · 27/55 pass" (gaps
+    /// around maximum / after it; cadences that pass / compared).
+    pub fn cadence_compact(&self) -> String {
+        let d = &self.design;
+        let k = &self.cadence_search;
+        let gaps = if d.near_max_every == d.cadence_days {
+            format!("{} n", d.cadence_days)
+        } else {
+            format!("{}/{} n", d.near_max_every, d.cadence_days)
+        };
+        let pass = if d.meets_requirement { k.passing } else { 0 };
+        format!("{gaps} · {pass}/{} pass", k.tried)
+    }
+
     /// The calibration a calibrator's chase gives (`None` for another role,
     /// or when the planned epochs do not fix the light curve).
     pub fn calibration(&self) -> Option<Calibration> {

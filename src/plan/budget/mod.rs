@@ -170,7 +170,7 @@ pub fn observed_row(t: &Target) -> Option<ObservedRow> {
         peak_err_mag: t.peak_err_mag,
         counted_as_goal: false,
         text: format!(
-            "{}: observed already ({peak} given): nothing to plan; it serves the ladder {role} (rung ladder) and is not counted as a goal",
+            "{}: observed ({peak} given), nothing to plan: serves the ladder {role}, not counted as a goal",
             t.name
         ),
     })

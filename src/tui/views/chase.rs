@@ -49,11 +49,18 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
                 ),
                 th.text(),
             ),
-            (format!("  {}", r.peak_abs_mag_how), th.dim()),
-            ("as rung ladder and rung chase".to_string(), th.dim()),
         ];
-        for (k, (t, st)) in lines.iter().enumerate() {
-            put(buf, area.x, area.y + k as u16, t, area.width, *st);
+        // Then how M_B was found, whole (the words of `rung ladder`).
+        let how = super::budget::wrap(&r.peak_abs_mag_how, area.width.saturating_sub(2) as usize);
+        let all = lines
+            .into_iter()
+            .chain(how.into_iter().map(|l| (format!("  {l}"), th.dim())))
+            .chain(std::iter::once((
+                "as rung ladder and rung chase".to_string(),
+                th.dim(),
+            )));
+        for (k, (t, st)) in all.enumerate().take(area.height as usize) {
+            put(buf, area.x, area.y + k as u16, &t, area.width, st);
         }
         return;
     }
@@ -185,7 +192,20 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             ),
             th.text(),
         ),
-        None => (format!("● obs ◆ +spectrum ○ usable · {cadence}"), th.dim()),
+        None => {
+            // The full form when it fits beside the scroll mark, else the
+            // compact one (both `Chase`'s words).
+            let full = format!("● obs ◆ +spectrum ○ usable · {cadence}");
+            let mark = if c.nights.len() > rows { 30 } else { 0 };
+            if full.chars().count() + mark < area.width as usize {
+                (full, th.dim())
+            } else {
+                (
+                    format!("● obs ◆ +spectrum ○ usable · {}", c.cadence_compact()),
+                    th.dim(),
+                )
+            }
+        }
     };
     put(buf, area.x, fy + 1, &legend, area.width, lst);
     let cl = &c.classification;
