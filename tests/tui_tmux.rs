@@ -367,3 +367,40 @@ fn two_sessions_on_one_programme() {
     // The first session's lock went with it.
     assert!(!cfg.path().join("programme.csv.lock").exists());
 }
+
+/// A killed session's lock (its file left, naming a process that is gone):
+/// the next session takes it over with a one-line note, not the warning that
+/// the gone process has the programme open (docs/bad-input.md U6).
+#[test]
+fn a_killed_sessions_lock_is_taken_over() {
+    let cfg = tempfile::tempdir().unwrap();
+    let prog = cfg.path().join("programme.csv");
+    std::fs::copy(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("targets-demo/targets.csv"),
+        &prog,
+    )
+    .unwrap();
+    let before = std::fs::read(&prog).unwrap();
+    let mut child = Command::new("true").spawn().unwrap();
+    let dead = child.id();
+    child.wait().unwrap();
+    std::fs::write(cfg.path().join("programme.csv.lock"), format!("{dead}\n")).unwrap();
+    let Some(t) = Tmux::start(&command(cfg.path(), "")) else {
+        return;
+    };
+    let s = t.wait_for(&format!("left by process {dead}"));
+    assert!(s.contains("took over the lock of"), "{s}");
+    assert!(!s.contains("has ") || !s.contains(" open"), "{s}");
+    t.wait_for("Roster · 71 of 71 targets");
+    let pid = rung_pid(&t);
+    assert_eq!(
+        std::fs::read_to_string(cfg.path().join("programme.csv.lock"))
+            .unwrap()
+            .trim(),
+        pid
+    );
+    t.send("q");
+    t.wait_for("RUNG-EXIT-0");
+    assert!(!cfg.path().join("programme.csv.lock").exists());
+    assert_eq!(std::fs::read(&prog).unwrap(), before, "programme untouched");
+}

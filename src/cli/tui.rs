@@ -220,7 +220,18 @@ pub fn setup(a: &Args) -> Result<Setup> {
             programme.save_path.display(),
             programme.recovery_path().display()
         )),
-        None => message,
+        None => match claim.stale_pid {
+            Some(pid) => Some(format!(
+                "took over the lock of {} left by {}, which no longer runs",
+                programme.save_path.display(),
+                if pid > 0 {
+                    format!("process {pid}")
+                } else {
+                    "a session".to_string()
+                }
+            )),
+            None => message,
+        },
     };
     let first = !claim.shared();
     *CLAIM.lock().unwrap_or_else(|e| e.into_inner()) = Some(claim);

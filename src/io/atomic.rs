@@ -73,7 +73,19 @@ pub(crate) fn process_alive(pid: u32) -> bool {
         };
         // SAFETY: signal 0 sends nothing; it only asks whether the process exists.
         let r = unsafe { libc::kill(p, 0) };
-        r == 0 || std::io::Error::last_os_error().raw_os_error() == Some(libc::EPERM)
+        let exists = r == 0 || std::io::Error::last_os_error().raw_os_error() == Some(libc::EPERM);
+        // A process that has ended but is not yet reaped by its parent (a
+        // zombie, state `Z` in /proc/<pid>/stat on Linux) still answers
+        // signal 0; it holds no files and runs no more.
+        #[cfg(target_os = "linux")]
+        if exists
+            && let Ok(stat) = std::fs::read_to_string(format!("/proc/{p}/stat"))
+            && let Some(rest) = stat.rsplit_once(')').map(|x| x.1)
+            && rest.trim_start().starts_with(['Z', 'X'])
+        {
+            return false;
+        }
+        exists
     }
     #[cfg(not(unix))]
     {

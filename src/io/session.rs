@@ -29,6 +29,9 @@ pub struct Claim {
     lock_path: PathBuf,
     /// The process id of the session that holds the lock, when it is another.
     pub other_pid: Option<u32>,
+    /// The process id named by a lock this session took over because that
+    /// process no longer runs (a killed session's lock).
+    pub stale_pid: Option<u32>,
 }
 
 impl Claim {
@@ -41,6 +44,7 @@ impl Claim {
             lock: None,
             lock_path,
             other_pid: None,
+            stale_pid: None,
         };
         #[cfg(unix)]
         {
@@ -49,7 +53,11 @@ impl Claim {
             use std::os::unix::fs::MetadataExt;
             // A leaving session removes the lock file while it holds it, so a
             // lock taken on a file that is no longer at the path is retried.
-            for _ in 0..5 {
+            let mut stale_pid = None;
+            let mut waits = 0;
+            let mut attempts = 0;
+            while attempts < 8 {
+                attempts += 1;
                 let Ok(mut f) = std::fs::OpenOptions::new()
                     .read(true)
                     .write(true)
@@ -61,13 +69,58 @@ impl Claim {
                 };
                 // SAFETY: flock on a descriptor we own; LOCK_NB never blocks.
                 let r = unsafe { libc::flock(f.as_raw_fd(), libc::LOCK_EX | libc::LOCK_NB) };
+                let held = r != 0
+                    && std::io::Error::last_os_error().raw_os_error() == Some(libc::EWOULDBLOCK);
                 if r != 0 {
                     let mut text = String::new();
                     let _ = f.read_to_string(&mut text);
+                    let pid: Option<u32> = text.trim().parse().ok();
+                    match pid {
+                        // A running process holds it: another session.
+                        Some(p) if p > 0 && process_alive(p) => {
+                            return Claim {
+                                lock: None,
+                                lock_path,
+                                other_pid: Some(p),
+                                stale_pid: None,
+                            };
+                        }
+                        // Held, and the process it names is gone (or none is
+                        // named yet): a session that has just taken it may be
+                        // writing its id, so look again a little later.
+                        _ if held && waits < 5 => {
+                            waits += 1;
+                            attempts -= 1;
+                            std::thread::sleep(std::time::Duration::from_millis(40));
+                            continue;
+                        }
+                        _ if !held && pid.is_none() => {
+                            // No lock can be taken here (`flock` refused) and
+                            // no session named: count as the first.
+                            return alone(lock_path);
+                        }
+                        _ => {}
+                    }
+                    // The lock names a process that no longer runs (a killed
+                    // session, its descriptor kept by something else, or a
+                    // file system without `flock`): take it over. The old
+                    // file is unlinked, never written, and the programme
+                    // file is not touched.
+                    stale_pid = stale_pid.or(pid.filter(|p| *p > 0)).or(Some(0));
+                    if held {
+                        let _ = std::fs::remove_file(&lock_path);
+                        continue;
+                    }
+                    // Without `flock`: the file itself is the claim.
+                    let _ = f.set_len(0);
+                    let _ = f.rewind();
+                    let _ = writeln!(f, "{}", std::process::id());
+                    let _ = f.flush();
                     return Claim {
-                        lock: None,
+                        lock: Some(f),
                         lock_path,
-                        other_pid: text.trim().parse().ok().or(Some(0)),
+                        other_pid: None,
+                        stale_pid,
                     };
                 }
                 let same = match (f.metadata(), std::fs::metadata(&lock_path)) {
@@ -77,6 +130,17 @@ impl Claim {
                 if !same {
                     continue;
                 }
+                // A lock file left by a session that was killed (a session
+                // that ends removes its own) names a process that is gone.
+                if stale_pid.is_none() {
+                    let mut text = String::new();
+                    let _ = f.read_to_string(&mut text);
+                    stale_pid = text
+                        .trim()
+                        .parse::<u32>()
+                        .ok()
+                        .filter(|p| *p > 0 && !process_alive(*p));
+                }
                 let _ = f.set_len(0);
                 let _ = f.rewind();
                 let _ = writeln!(f, "{}", std::process::id());
@@ -85,6 +149,7 @@ impl Claim {
                     lock: Some(f),
                     lock_path,
                     other_pid: None,
+                    stale_pid,
                 };
             }
             alone(lock_path)
@@ -197,6 +262,94 @@ mod tests {
         );
         let again = Claim::acquire(&p);
         assert!(!again.shared());
+    }
+
+    /// A process that has run and ended (reaped): its id names no process.
+    #[cfg(unix)]
+    fn gone_pid() -> u32 {
+        let mut c = std::process::Command::new("true").spawn().unwrap();
+        let pid = c.id();
+        c.wait().unwrap();
+        pid
+    }
+
+    /// Hold `path`'s lock through a descriptor of our own, as a process that
+    /// kept a killed session's descriptor would.
+    #[cfg(unix)]
+    fn hold(path: &Path) -> std::fs::File {
+        use std::os::fd::AsRawFd;
+        let f = std::fs::OpenOptions::new().read(true).open(path).unwrap();
+        // SAFETY: flock on a descriptor we own.
+        let r = unsafe { libc::flock(f.as_raw_fd(), libc::LOCK_EX | libc::LOCK_NB) };
+        assert_eq!(r, 0);
+        f
+    }
+
+    #[cfg(unix)]
+    #[test]
+    fn a_killed_sessions_lock_is_taken_over_with_a_note() {
+        let d = tempfile::tempdir().unwrap();
+        let p = d.path().join("programme.csv");
+        std::fs::write(&p, "name,ra,dec\n").unwrap();
+        let dead = gone_pid();
+        assert!(!process_alive(dead));
+        // Left behind, no one holding it (the usual case after a SIGKILL).
+        std::fs::write(lock_path(&p), format!("{dead}\n")).unwrap();
+        let c = Claim::acquire(&p);
+        assert!(!c.shared(), "a gone process's lock is not another session");
+        assert_eq!(c.stale_pid, Some(dead));
+        assert_eq!(
+            std::fs::read_to_string(lock_path(&p)).unwrap().trim(),
+            std::process::id().to_string()
+        );
+        drop(c);
+        // Held by a descriptor something else kept, naming the gone process.
+        std::fs::write(lock_path(&p), format!("{dead}\n")).unwrap();
+        let keeper = hold(&lock_path(&p));
+        let c = Claim::acquire(&p);
+        assert!(!c.shared());
+        assert_eq!(c.stale_pid, Some(dead));
+        assert!(c.lock.is_some(), "this session holds the new lock");
+        drop(c);
+        drop(keeper);
+        assert_eq!(std::fs::read_to_string(&p).unwrap(), "name,ra,dec\n");
+        // A clean start: no note.
+        let c = Claim::acquire(&p);
+        assert_eq!((c.shared(), c.stale_pid), (false, None));
+    }
+
+    #[cfg(unix)]
+    #[test]
+    fn a_running_processs_lock_still_counts() {
+        let d = tempfile::tempdir().unwrap();
+        let p = d.path().join("programme.csv");
+        let mut child = std::process::Command::new("sleep")
+            .arg("30")
+            .spawn()
+            .unwrap();
+        std::fs::write(lock_path(&p), format!("{}\n", child.id())).unwrap();
+        let keeper = hold(&lock_path(&p));
+        let c = Claim::acquire(&p);
+        assert_eq!(c.other_pid, Some(child.id()));
+        assert_eq!(c.stale_pid, None);
+        drop(c);
+        drop(keeper);
+        let _ = child.kill();
+        let _ = child.wait();
+    }
+
+    #[cfg(target_os = "linux")]
+    #[test]
+    fn an_ended_unreaped_process_is_not_running() {
+        let mut c = std::process::Command::new("true").spawn().unwrap();
+        let pid = c.id();
+        // Not waited for: a zombie until reaped.
+        let t = std::time::Instant::now();
+        while process_alive(pid) && t.elapsed().as_secs() < 10 {
+            std::thread::sleep(std::time::Duration::from_millis(20));
+        }
+        assert!(!process_alive(pid));
+        c.wait().unwrap();
     }
 
     #[test]
