@@ -87,3 +87,81 @@ fn a_visit_marked_done_early_is_shown_at_its_observed_time() {
         rows.join("\n")
     );
 }
+
+/// Marking done takes the clock as the visit's start: the prompt says so, in
+/// UTC and local time (the words of `rung plan --help`'s --observed: "as
+/// observed", "the clock when marking"), and the confirmation names the start.
+#[test]
+fn the_mark_prompt_and_its_confirmation_name_the_start_taken() {
+    let cfg = tempfile::tempdir().unwrap();
+    // SAFETY: set before any other thread of this test binary reads it.
+    unsafe { std::env::set_var("RUNG_CONFIG_DIR", cfg.path()) };
+    let mut s = demo_state((80, 24));
+    let st = s.settings.clone();
+    let targets = demo_targets();
+    let mut st2 = (*st).clone();
+    st2.from = "2026-12-01".parse().unwrap();
+    st2.to = "2026-12-02".parse().unwrap();
+    let sch = rung::plan::schedule::schedule(&rung::plan::schedule::Request::programme(
+        &st2, &targets, 8.0,
+    ))
+    .unwrap();
+    let plan = rung::plan::file::PlanFile::new(&st2, &targets, "demo".into(), 8.0, sch.visits);
+    let now = test_now(); // 01:00 UTC, 22:00 local (the demo site's zone, UTC-3)
+    let v = plan
+        .visits
+        .iter()
+        .filter(|v| v.night.to_string() == "2026-12-01" && v.status == Status::Planned)
+        .min_by(|a, b| a.start.partial_cmp(&b.start).unwrap())
+        .expect("a visit tonight")
+        .clone();
+    let q = rung::plan::now::queue(&st, &targets, Some(&plan), now).unwrap();
+    s.now = now;
+    s.view = View::Next;
+    s.next = Some(NextData {
+        at: now,
+        queue: Ok(q),
+        plan: Some(plan.clone()),
+        note: None,
+    });
+    s.next_prompt = Some((v.id.clone(), "1.2 thin".into()));
+    let (rows, _) = screen(&s, 80, 24);
+    let tz = &st.site.timezone;
+    let (utc, local) = (
+        rung::output::clock_hm(now, &chrono_tz::UTC),
+        rung::output::clock_hm(now, tz),
+    );
+    assert_eq!((utc.as_str(), local.as_str()), ("01:00", "22:00"));
+    let want =
+        format!("visit's start, as observed: the clock when marking, {utc} UTC, {local} local");
+    assert!(
+        has(&rows, &want),
+        "{want:?} not on screen:\n{}",
+        rows.join("\n")
+    );
+    // The words are those of --observed's help.
+    let help = std::fs::read_to_string(
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("src/cli/plan.rs"),
+    )
+    .unwrap();
+    assert!(help.contains("as observed") && help.contains("the clock when marking"));
+    // Enter marks it: the confirmation names the start taken.
+    let path = cfg.path().join("plan.json");
+    rung::plan::file::save(&plan, &path).unwrap();
+    let d = rung::tui::effects::next_data(&rung::tui::msg::NextJob {
+        settings: st.clone(),
+        targets: targets.clone(),
+        plan_file: Some(path),
+        now,
+        op: rung::tui::msg::NextOp::Done {
+            id: v.id.clone(),
+            seeing_arcsec: Some(1.2),
+            comment: None,
+        },
+    });
+    let note = d.note.unwrap();
+    assert!(
+        note.starts_with(&format!("{} done, started {utc} UTC ({local} local)", v.id)),
+        "{note}"
+    );
+}

@@ -760,7 +760,11 @@ pub fn next_data(job: &crate::tui::msg::NextJob) -> crate::tui::state::NextData 
                             comment.clone(),
                             job.now,
                         )?;
-                        Some(format!("{id} done"))
+                        Some(format!(
+                            "{id} done, started {} UTC ({} local)",
+                            crate::output::clock_hm(job.now, &chrono_tz::UTC),
+                            crate::output::clock_hm(job.now, &st.site.timezone)
+                        ))
                     }
                     NextOp::Lost(id) => {
                         log::mark_lost(path, &mut p, id, job.now)?;

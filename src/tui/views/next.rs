@@ -160,7 +160,16 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         None => "D done · B lost · N rest of night lost · R re-plan · ↑↓ select".into(),
     };
     put(buf, area.x, fy + 1, &help, area.width, th.dim());
-    if let Some(n) = &d.note {
+    if s.next_prompt.is_some() {
+        // The clock at Enter is taken as the visit's start (as `rung plan
+        // --done` without --observed takes the clock when marking).
+        let start = format!(
+            "visit's start, as observed: the clock when marking, {} UTC, {} local",
+            crate::output::clock_hm(s.now, &chrono_tz::UTC),
+            crate::output::clock_hm(s.now, tz),
+        );
+        put(buf, area.x, fy + 2, &start, area.width, th.text());
+    } else if let Some(n) = &d.note {
         put(buf, area.x, fy + 2, n, area.width, th.dim());
     }
 }
