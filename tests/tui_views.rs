@@ -1308,3 +1308,56 @@ fn the_budget_view_says_an_observed_calibrator_is_no_goal() {
     );
     assert!(all.replace('\n', " ").contains(&line[..60]), "{all}");
 }
+
+/// The Phase view's note line shows the first of a field's notes and says
+/// how many more there are; `m` opens them all, wrapped whole, so the note
+/// naming the long-period stars the visits leave weightless (as
+/// `rung phase --field LPO-G1` prints it) is reachable at 80x24.
+#[test]
+fn phase_view_reaches_every_note_of_a_field() {
+    let targets = demo_targets();
+    let links = rung::ladder::field::link(&targets);
+    let g = links.by_name(&targets, "LPO-G1").unwrap();
+    let r = demo_settings().field_report(&targets, g).unwrap();
+    let long = r
+        .notes
+        .iter()
+        .find(|n| n.contains("longer than its visits' span"))
+        .expect("the long-period note")
+        .clone();
+    let n = r.cautions.len() + r.notes.len();
+    assert!(n > 1);
+    let mut s = demo_state((80, 24));
+    ch(&mut s, '5');
+    select(&mut s, "LPO-G1");
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(
+        has(&rows, &format!("(+{} more: m)", n - 1)),
+        "{}",
+        rows.join("\n")
+    );
+    ch(&mut s, 'm');
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(has(&rows, &format!("Notes ({n})")), "{}", rows.join("\n"));
+    assert!(has(&rows, "any key closes"), "{}", rows.join("\n"));
+    // The whole note, word by word, in the window's lines in order.
+    let text: String = rows
+        .iter()
+        .filter_map(|l| {
+            let a = l.find('│')?;
+            let b = l.rfind('│')?;
+            (b > a).then(|| l[a + '│'.len_utf8()..b].trim().to_string())
+        })
+        .collect::<Vec<_>>()
+        .join(" ");
+    let text = text.split_whitespace().collect::<Vec<_>>().join(" ");
+    assert!(
+        text.contains(&long),
+        "{long:?} not on screen:\n{}",
+        rows.join("\n")
+    );
+    // Any key closes it.
+    ch(&mut s, 'x');
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(!has(&rows, &format!("Notes ({n})")));
+}

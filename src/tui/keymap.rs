@@ -81,6 +81,8 @@ pub enum Action {
     Today,
     /// Follow the clock (the night and the time marker move on their own).
     Live,
+    /// Every note and caution of the Phase view's report, wrapped in a window.
+    Notes,
     /// Type to filter the roster.
     Filter,
     /// Next sort column.
@@ -258,6 +260,12 @@ pub const KEYMAP: &[Binding] = &[
     ch(S::Main, '}', A::MonthFwd, "a month later"),
     ch(S::Main, 'n', A::Today, "back to the current night"),
     ch(S::Main, 'L', A::Live, "live: follow the clock"),
+    ch(
+        S::Main,
+        'm',
+        A::Notes,
+        "Phase view: all of the report's notes",
+    ),
     ch(S::Main, '/', A::Filter, "filter by typing"),
     ch(S::Main, 'o', A::Sort, "next sort column"),
     ch(S::Main, 'O', A::SortReverse, "reverse the sort"),

@@ -475,6 +475,8 @@ pub enum Question {
     /// The file changed since this session read it and both changed these
     /// targets: overwrite it with this session's programme?
     Overwrite(Vec<String>),
+    /// Every caution and note of the Phase view's report (any key closes it).
+    Notes(Vec<String>),
     /// Files written by an export, each named in full (any key closes it).
     Exported(Vec<std::path::PathBuf>),
 }

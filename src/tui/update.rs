@@ -941,6 +941,26 @@ fn act_main_inner(s: &mut State, a: Action) -> Option<Effect> {
             let d = night_date(s.site(), s.now);
             set_date(s, Some(d))
         }
+        Action::Notes => {
+            use crate::tui::state::MethodBody;
+            let all = match (s.view, s.method_now()) {
+                (View::Phase, Some(MethodBody::Phase(r))) => {
+                    Some(crate::tui::views::phase::all_notes(&r.cautions, &r.notes))
+                }
+                (View::Phase, Some(MethodBody::Field(r))) => {
+                    Some(crate::tui::views::phase::all_notes(&r.cautions, &r.notes))
+                }
+                _ => None,
+            };
+            match all {
+                Some(n) if !n.is_empty() => {
+                    s.overlay = Some(Overlay::Question(Question::Notes(n)));
+                }
+                Some(_) => say(s, "this report has no notes", Level::Info),
+                None => say(s, "notes: m opens them in the Phase view (6)", Level::Info),
+            }
+            None
+        }
         Action::Live => {
             s.live = !s.live;
             if s.live {

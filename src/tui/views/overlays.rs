@@ -191,7 +191,11 @@ pub fn sites(s: &State, sel: usize, area: Rect, buf: &mut Buffer) {
 
 /// A yes/no question.
 pub fn question(s: &State, q: &Question, area: Rect, buf: &mut Buffer) {
+    if let Question::Notes(notes) = q {
+        return notes_window(s, notes, area, buf);
+    }
     let (title, text) = match q {
+        Question::Notes(_) => ("Notes", String::new()),
         // Drawn by the Budget view's module (`budget::exported`).
         Question::Exported(files) => (
             "Exported",
@@ -322,6 +326,66 @@ pub fn instruments(s: &State, sel: usize, area: Rect, buf: &mut Buffer) {
         inner.x,
         inner.y + inner.height - 1,
         "used for exposures in the Phase and Chase views",
+        inner.width,
+        s.theme.dim(),
+    );
+}
+
+/// Words of `text` in lines of at most `w` characters.
+fn wrap(text: &str, w: usize) -> Vec<String> {
+    let mut lines: Vec<String> = Vec::new();
+    let mut cur = String::new();
+    for word in text.split(' ') {
+        if cur.chars().count() + word.chars().count() + 1 > w && !cur.is_empty() {
+            lines.push(std::mem::take(&mut cur));
+        }
+        if !cur.is_empty() {
+            cur.push(' ');
+        }
+        cur.push_str(word);
+    }
+    lines.push(cur);
+    lines
+}
+
+/// Every caution and note of the Phase view's report, each wrapped whole,
+/// a blank line between (any key closes the window).
+fn notes_window(s: &State, notes: &[String], area: Rect, buf: &mut Buffer) {
+    let w = area.width.min(78).saturating_sub(4).max(1) as usize;
+    let mut lines: Vec<String> = Vec::new();
+    for (i, n) in notes.iter().enumerate() {
+        if i > 0 {
+            lines.push(String::new());
+        }
+        lines.extend(wrap(n, w));
+    }
+    let h = (lines.len() as u16 + 4).min(area.height);
+    let r = centered(area, 78, h);
+    let inner = frame(&format!("Notes ({})", notes.len()), r, buf, s);
+    let text_rows = inner.height.saturating_sub(2) as usize;
+    for (i, l) in lines.iter().take(text_rows).enumerate() {
+        put(
+            buf,
+            inner.x,
+            inner.y + i as u16,
+            l,
+            inner.width,
+            s.theme.text(),
+        );
+    }
+    let keys = if lines.len() > text_rows {
+        format!(
+            "{} more lines not shown (rung phase --json has them all) · any key closes",
+            lines.len() - text_rows
+        )
+    } else {
+        "any key closes".to_string()
+    };
+    put(
+        buf,
+        inner.x,
+        inner.y + inner.height.saturating_sub(1),
+        &keys,
         inner.width,
         s.theme.dim(),
     );

@@ -266,15 +266,55 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         area.width,
         th.dim(),
     );
-    let note = r
-        .cautions
-        .first()
-        .map(|c| (format!("☼ {c}"), th.warn()))
-        .or_else(|| r.notes.first().map(|n| (n.clone(), th.dim())));
-    if let Some((n, st)) = note {
+    if let Some((n, st)) = note_line(&r.cautions, &r.notes, area.width as usize, th) {
         put(buf, area.x, fy + 2, &n, area.width, st);
     }
     scroll_mark(s, area, fy + 1, off, rows, r.windows.len(), buf);
+}
+
+/// Every caution (marked ☼) and note of a report, cautions first: what the
+/// notes window (`m`) shows.
+pub fn all_notes(cautions: &[String], notes: &[String]) -> Vec<String> {
+    cautions
+        .iter()
+        .map(|c| format!("☼ {c}"))
+        .chain(notes.iter().cloned())
+        .collect()
+}
+
+/// The view's note line in `width` columns: the first caution, else the first
+/// note; when there are more, it ends in `(+N more: m)` (the key opens them
+/// all, wrapped).
+fn note_line(
+    cautions: &[String],
+    notes: &[String],
+    width: usize,
+    th: &crate::tui::theme::Theme,
+) -> Option<(String, ratatui::style::Style)> {
+    let all = all_notes(cautions, notes);
+    let first = all.first()?;
+    let st = if cautions.is_empty() {
+        th.dim()
+    } else {
+        th.warn()
+    };
+    if all.len() == 1 && first.chars().count() <= width {
+        return Some((first.clone(), st));
+    }
+    let more = if all.len() > 1 {
+        format!(" (+{} more: m)", all.len() - 1)
+    } else {
+        " (m: whole)".to_string()
+    };
+    let room = width.saturating_sub(more.chars().count());
+    let head: String = if first.chars().count() > room {
+        let mut h: String = first.chars().take(room.saturating_sub(1)).collect();
+        h.push('…');
+        h
+    } else {
+        first.clone()
+    };
+    Some((format!("{head}{more}"), st))
 }
 
 /// A short label of a field-distance term for the foot line (the names are
@@ -463,13 +503,14 @@ fn render_field(
     put(buf, area.x, fy + 1, &l0, area.width, th.text());
     put(buf, area.x, fy + 2, &l2, area.width, th.dim());
     put(buf, area.x, fy + 3, &l3, area.width, th.dim());
-    let note = r
-        .cautions
-        .first()
-        .map(|c| (format!("☼ {c}"), th.warn()))
-        .or_else(|| r.notes.first().map(|n| (n.clone(), th.dim())));
     // The scroll mark, when the stars do not fit, takes the note's right end.
     let mark_w = if len > rows { 32 } else { 0 };
+    let note = note_line(
+        &r.cautions,
+        &r.notes,
+        area.width.saturating_sub(mark_w) as usize,
+        th,
+    );
     if let Some((n, st)) = note {
         put(
             buf,
