@@ -402,3 +402,75 @@ fn single_pulsators_have_their_own_section_in_text_json_and_view() {
         assert!(line.contains(&want), "{want:?} not in {line:?}");
     }
 }
+
+#[test]
+fn single_pulsators_have_their_own_line_in_the_hours_by_rung() {
+    // The stand-alone Cepheids (section `pulsators`) keep the rung `host` in
+    // the chain's observations; the hours line gives them their own row, so
+    // the host rung's hours are the host fields' alone (--json: the new key
+    // `pulsator_hours`; `hours_by_rung` keeps its keys).
+    let demo = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("targets-demo/targets.csv");
+    let dir = tempfile::tempdir().unwrap();
+    let run = |json: bool| {
+        let mut a = vec!["ladder", "--targets", demo.to_str().unwrap()];
+        if json {
+            a.push("--json");
+        }
+        let out = Command::new(env!("CARGO_BIN_EXE_rung"))
+            .args(a)
+            .env("RUNG_CONFIG_DIR", dir.path())
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        String::from_utf8(out.stdout).unwrap()
+    };
+    let j: serde_json::Value = serde_json::from_str(&run(true)).unwrap();
+    let singles: Vec<&str> = j["pulsators"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|x| x.as_str().unwrap())
+        .collect();
+    assert!(!singles.is_empty());
+    let obs = j["observations"].as_array().unwrap();
+    let sum = |single: bool| -> f64 {
+        obs.iter()
+            .filter(|o| o["rung"] == "host")
+            .filter(|o| o["node"].as_str().is_some_and(|n| singles.contains(&n)) == single)
+            .map(|o| o["hours"].as_f64().unwrap())
+            .sum()
+    };
+    let (singles_h, fields_h) = (sum(true), sum(false));
+    assert!(singles_h > 0.0 && fields_h > 0.0);
+    let ph = j["pulsator_hours"].as_f64().unwrap();
+    assert!((ph - singles_h).abs() < 1e-9, "{ph} {singles_h}");
+    let host = j["hours_by_rung"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|h| h["rung"] == "host")
+        .unwrap();
+    assert!(host.get("hours").is_some() && host.get("rung").is_some());
+    let host_h = host["hours"].as_f64().unwrap();
+    assert!((host_h - fields_h).abs() < 1e-9, "{host_h} {fields_h}");
+    // Every observation's hours counted once over the lines.
+    let total: f64 = obs.iter().map(|o| o["hours"].as_f64().unwrap()).sum();
+    let lines: f64 = j["hours_by_rung"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|h| h["hours"].as_f64().unwrap())
+        .sum::<f64>()
+        + ph;
+    assert!((total - lines).abs() < 1e-6, "{total} {lines}");
+    let text = run(false);
+    assert!(
+        text.lines()
+            .any(|l| l == format!("  {:<16} {:>7.1} h", "pulsators", ph)),
+        "{text}"
+    );
+}

@@ -176,6 +176,9 @@ fn print_text(r: &LadderReport, st: &rung::programme::Settings, steps: usize) {
     for h in &r.hours_by_rung {
         outln!("  {:<16} {:>7.1} h", h.rung.text(), h.hours);
     }
+    if r.pulsator_hours > 0.0 {
+        outln!("  {:<16} {:>7.1} h", "pulsators", r.pulsator_hours);
+    }
     outln!();
     outln!("Best next hour (fall of the end point's σd/d per telescope hour):");
     for s in r.next.iter().take(steps) {

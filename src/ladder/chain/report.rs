@@ -341,8 +341,13 @@ pub struct LadderReport {
     pub members: Vec<Member>,
     /// The observations of the chain.
     pub observations: Vec<Observation>,
-    /// Hours planned per rung.
+    /// Hours planned per rung (the host rung without the single pulsators,
+    /// which have their own line: `pulsator_hours`).
     pub hours_by_rung: Vec<RungHours>,
+    /// Hours planned on the single pulsators (section `pulsators`): they keep
+    /// the host rung in the chain's observations but calibrate nothing, so
+    /// the hours line gives them their own row.
+    pub pulsator_hours: f64,
     /// Steps ranked by the fall of the end point's σ_d/d per hour, best first.
     pub next: Vec<Ranked>,
     /// What one more hour on each target of the ladder buys at the end
@@ -496,13 +501,28 @@ pub fn report_of(l: Ladder, end_point: Option<EndPoint>) -> Result<LadderReport>
             why: w.clone(),
         })
         .collect();
+    let singles: Vec<String> = nodes
+        .iter()
+        .filter(|n| n.section == Section::Pulsators)
+        .map(|n| n.name.clone())
+        .collect();
+    let single = |o: &Observation| {
+        o.rung == Rung::Host && o.node.as_ref().is_some_and(|n| singles.contains(n))
+    };
+    let pulsator_hours: f64 = l
+        .chain
+        .observations
+        .iter()
+        .filter(|o| single(o))
+        .map(|o| o.hours)
+        .sum();
     let mut hours_by_rung = Vec::new();
     for r in Rung::ALL {
         let h: f64 = l
             .chain
             .observations
             .iter()
-            .filter(|o| o.rung == r)
+            .filter(|o| o.rung == r && !single(o))
             .map(|o| o.hours)
             .sum();
         if h > 0.0 {
@@ -528,11 +548,7 @@ pub fn report_of(l: Ladder, end_point: Option<EndPoint>) -> Result<LadderReport>
         h0_sigma_pct: h0_pct,
         h0_ref_km_s_mpc: l.h0_ref_km_s_mpc,
         h0_basis,
-        pulsators: nodes
-            .iter()
-            .filter(|n| n.section == Section::Pulsators)
-            .map(|n| n.name.clone())
-            .collect(),
+        pulsators: singles,
         nodes,
         supernovae,
         calibrators,
@@ -541,6 +557,7 @@ pub fn report_of(l: Ladder, end_point: Option<EndPoint>) -> Result<LadderReport>
         members: l.members,
         observations: l.chain.observations,
         hours_by_rung,
+        pulsator_hours,
         next,
         marginal,
         best_by_rung,
