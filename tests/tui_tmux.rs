@@ -388,8 +388,9 @@ fn a_killed_sessions_lock_is_taken_over() {
     let Some(t) = Tmux::start(&command(cfg.path(), "")) else {
         return;
     };
-    let s = t.wait_for(&format!("left by process {dead}"));
-    assert!(s.contains("took over the lock of"), "{s}");
+    let s = t.wait_for(&format!(
+        "took over the lock left by process {dead}, no longer running"
+    ));
     assert!(!s.contains("has ") || !s.contains(" open"), "{s}");
     t.wait_for("Roster · 71 of 71 targets");
     let pid = rung_pid(&t);

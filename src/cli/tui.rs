@@ -222,13 +222,13 @@ pub fn setup(a: &Args) -> Result<Setup> {
         )),
         None => match claim.stale_pid {
             Some(pid) => Some(format!(
-                "took over the lock of {} left by {}, which no longer runs",
-                programme.save_path.display(),
+                "took over the lock left by {}, no longer running: {}",
                 if pid > 0 {
                     format!("process {pid}")
                 } else {
                     "a session".to_string()
-                }
+                },
+                programme.save_path.display(),
             )),
             None => message,
         },
