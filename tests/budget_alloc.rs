@@ -4,7 +4,9 @@
 //! hours), never exceeds the hours asked (in total or per semester), and the
 //! goals-met curve agrees with the optimum at every number of hours.
 
-use rung::plan::budget::alloc::{Capacity, Item, NightCost, Problem, allocate, exhaustive, steps};
+use rung::plan::budget::alloc::{
+    Capacity, Item, NightCost, Problem, allocate, exhaustive, least_hours_for, steps,
+};
 
 /// A small deterministic generator (xorshift64*), so every run tries the same programmes.
 struct Rng(u64);
@@ -140,6 +142,72 @@ fn goals_met_curve_is_the_optimum_at_every_number_of_hours() {
             );
         }
     }
+}
+
+/// The curve as its definition reads, every search from scratch: step k + 1
+/// is the fewest hours for more weight than step k, and the best allocation
+/// at those hours.
+fn steps_from_scratch(p: &Problem) -> Vec<(Vec<usize>, f64, f64)> {
+    let mut out: Vec<(Vec<usize>, f64, f64)> = Vec::new();
+    let mut w = 0.0;
+    for _ in 0..(4 * p.items.len() + 4) {
+        let Some(c) = least_hours_for(p, w + 1e-8) else {
+            break;
+        };
+        let a = allocate(p, &Capacity::Total(c.hours));
+        if a.weight <= w + 1e-9 {
+            break;
+        }
+        w = a.weight;
+        out.push((a.items, a.hours, a.weight));
+    }
+    out
+}
+
+/// The curve's searches start from what the step before found (its set and
+/// one goal more as the first incumbent of the fewest-hours search, that
+/// set's weight for the largest-weight search): each step is the exhaustive
+/// optimum where its weight falls in (and not a step earlier), also where
+/// goals tie (copies of the same goal, equal weights); and where the
+/// searches from scratch reach the optimum too, the sets are the very same,
+/// to the last bit of their hours.
+#[test]
+fn goals_met_curve_started_from_the_step_before_is_the_optimum_and_the_same_sets() {
+    let mut r = Rng(0x00c0_ffee_5eed_0042);
+    let mut same = 0;
+    for case in 0..80 {
+        let n = 1 + r.below(10);
+        let sem = 1 + r.below(2);
+        let mut p = programme(&mut r, n, sem, case % 2 == 0);
+        if case % 3 == 0 {
+            // Copies of goals: ties in weight and hours the order must break alike.
+            let copies: Vec<Item> = p.items.iter().take(1 + n / 3).cloned().collect();
+            p.items.extend(copies);
+        }
+        let st = steps(&p);
+        for s in &st {
+            assert!(s.proven_optimal, "case {case}");
+            let e = exhaustive(&p, &Capacity::Total(s.hours));
+            assert!((e.weight - s.weight).abs() < 1e-9, "case {case}");
+            let before = exhaustive(&p, &Capacity::Total(s.hours - 1e-6));
+            assert!(before.weight < s.weight - 1e-9, "case {case}");
+        }
+        let scratch = steps_from_scratch(&p);
+        let scratch_optimal = scratch.len() == st.len()
+            && scratch
+                .iter()
+                .all(|(_, h, w)| (exhaustive(&p, &Capacity::Total(*h)).weight - w).abs() < 1e-9);
+        if scratch_optimal {
+            for (s, (items, hours, weight)) in st.iter().zip(&scratch) {
+                assert_eq!(&s.items, items, "case {case}");
+                assert_eq!(s.hours.to_bits(), hours.to_bits(), "case {case}");
+                assert_eq!(s.weight.to_bits(), weight.to_bits(), "case {case}");
+            }
+            same += 1;
+        }
+    }
+    // Most programmes: the searches from scratch reach the optimum as well.
+    assert!(same >= 60, "{same}");
 }
 
 #[test]
