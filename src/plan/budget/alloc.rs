@@ -299,7 +299,13 @@ impl<'a> Search<'a> {
 
     /// Dantzig's bound: the weight still reachable from position `k` with
     /// `left` hours, items taken fractionally in order.
-    fn bound(&self, k: usize, mut left: f64) -> f64 {
+    fn bound(&self, k: usize, left: f64) -> f64 {
+        // A branch may stand up to EPS_H over its cap (`fits`): its room is
+        // then a hair below zero, where a goal of no hours of its own still
+        // fits; counting from zero keeps the bound a bound (it can only
+        // prune less). A case where this mattered was reported but not
+        // reproduced by tests/budget_alloc.rs.
+        let mut left = left.max(0.0);
         let mut w = 0.0;
         for &i in &self.order[k..] {
             let it = &self.p.items[i];
