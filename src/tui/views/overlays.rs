@@ -5,7 +5,7 @@ use crate::tui::form::{Form, choices, field_hint};
 use crate::tui::keymap::Action;
 use crate::tui::keymap::{Scope, help_lines, keys_for};
 use crate::tui::state::{Question, State};
-use crate::tui::views::fmt::{centered, fit, put};
+use crate::tui::views::fmt::{centered, fit, put, wrap};
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
 use ratatui::widgets::{Block, Borders, Clear, Widget};
@@ -247,18 +247,7 @@ pub fn question(s: &State, q: &Question, area: Rect, buf: &mut Buffer) {
         ),
     };
     let w = area.width.min(64).saturating_sub(2).max(1) as usize;
-    let mut lines: Vec<String> = Vec::new();
-    let mut cur = String::new();
-    for word in text.split(' ') {
-        if cur.chars().count() + word.chars().count() + 1 > w && !cur.is_empty() {
-            lines.push(std::mem::take(&mut cur));
-        }
-        if !cur.is_empty() {
-            cur.push(' ');
-        }
-        cur.push_str(word);
-    }
-    lines.push(cur);
+    let lines = wrap(&text, w);
     let h = (lines.len() as u16 + 4).min(area.height);
     let r = centered(area, 64, h);
     let inner = frame(title, r, buf, s);
@@ -329,23 +318,6 @@ pub fn instruments(s: &State, sel: usize, area: Rect, buf: &mut Buffer) {
         inner.width,
         s.theme.dim(),
     );
-}
-
-/// Words of `text` in lines of at most `w` characters.
-fn wrap(text: &str, w: usize) -> Vec<String> {
-    let mut lines: Vec<String> = Vec::new();
-    let mut cur = String::new();
-    for word in text.split(' ') {
-        if cur.chars().count() + word.chars().count() + 1 > w && !cur.is_empty() {
-            lines.push(std::mem::take(&mut cur));
-        }
-        if !cur.is_empty() {
-            cur.push(' ');
-        }
-        cur.push_str(word);
-    }
-    lines.push(cur);
-    lines
 }
 
 /// Every caution and note of the Phase view's report, each wrapped whole,
