@@ -372,17 +372,7 @@ pub fn target_prediction(
     settings: &Settings,
     t: &Target,
 ) -> Option<std::result::Result<Prediction, String>> {
-    // A supernova already observed has nothing to plan: no goal.
-    if observed_row(t).is_some() {
-        return None;
-    }
-    let m = settings.method(t.kind)?;
-    let g = settings.goal_for(t)?;
-    let t = crate::ladder::with_goal(t, Some(g));
-    Some(
-        m.goal(&settings.setting(&t), &settings.photometer, g)
-            .map_err(|e| e.to_string()),
-    )
+    target_work(settings, t, false).map(|r| r.map(|w| w.prediction))
 }
 
 /// One target's work for the budget: its prediction at its goal and, when
@@ -395,14 +385,15 @@ pub struct TargetWork {
     pub curve: Vec<CurvePoint>,
 }
 
-/// [`target_prediction`] and, with `curves`, the target's inverse curve.
+/// [`target_prediction`] and, with `curves`, the target's inverse curve:
+/// the one place a target's goal is asked (a supernova already observed has
+/// none).
 pub fn target_work(
     settings: &Settings,
     t: &Target,
     curves: bool,
 ) -> Option<std::result::Result<TargetWork, String>> {
-    // A supernova already observed has nothing to plan: no goal (as
-    // target_prediction).
+    // A supernova already observed has nothing to plan: no goal.
     if observed_row(t).is_some() {
         return None;
     }
