@@ -210,6 +210,17 @@ pub fn setup(a: &Args) -> Result<Setup> {
         rung::io::atomic::sweep_stale_temps(&p);
     }
     let message = match claim.other_pid {
+        Some(pid) if claim.other_unseen => Some(format!(
+            "{} is held by {}, not running on this machine (another host or container sharing the folder?): \
+             this session counts as a second one, your unsaved edits go to {}, and a save merges with what the other saves",
+            rung::io::session::lock_path(&programme.save_path).display(),
+            if pid > 0 {
+                format!("process {pid}")
+            } else {
+                "a process that does not name itself".to_string()
+            },
+            programme.recovery_path().display()
+        )),
         Some(pid) => Some(format!(
             "another rung{} has {} open: your unsaved edits go to {}, and a save merges with what it saves",
             if pid > 0 {

@@ -27,8 +27,14 @@ pub struct Claim {
     /// The locked file while this session is the first (released when dropped).
     lock: Option<std::fs::File>,
     lock_path: PathBuf,
-    /// The process id of the session that holds the lock, when it is another.
+    /// The process id of the session that holds the lock, when it is another
+    /// (0 when the lock names none).
     pub other_pid: Option<u32>,
+    /// Whether that holder is out of sight: the lock is held, but the process
+    /// it names does not run on this machine (another host or container
+    /// sharing the folder, or a process that kept a closed session's
+    /// descriptor). Such a lock still counts as another session's.
+    pub other_unseen: bool,
     /// The process id named by a lock this session took over because that
     /// process no longer runs (a killed session's lock).
     pub stale_pid: Option<u32>,
@@ -44,6 +50,7 @@ impl Claim {
             lock: None,
             lock_path,
             other_pid: None,
+            other_unseen: false,
             stale_pid: None,
         };
         #[cfg(unix)]
@@ -82,6 +89,7 @@ impl Claim {
                                 lock: None,
                                 lock_path,
                                 other_pid: Some(p),
+                                other_unseen: false,
                                 stale_pid: None,
                             };
                         }
@@ -94,6 +102,22 @@ impl Claim {
                             std::thread::sleep(std::time::Duration::from_millis(40));
                             continue;
                         }
+                        // Still held, by a process not seen here: a session
+                        // on another machine or in another container sharing
+                        // the folder (its process ids are not ours), or a
+                        // process that kept a closed session's descriptor.
+                        // Someone holds it, so this session is the second:
+                        // taking it over would give two sessions one
+                        // unsaved-edits file.
+                        _ if held => {
+                            return Claim {
+                                lock: None,
+                                lock_path,
+                                other_pid: Some(pid.unwrap_or(0)),
+                                other_unseen: true,
+                                stale_pid: None,
+                            };
+                        }
                         _ if !held && pid.is_none() => {
                             // No lock can be taken here (`flock` refused) and
                             // no session named: count as the first.
@@ -101,17 +125,11 @@ impl Claim {
                         }
                         _ => {}
                     }
-                    // The lock names a process that no longer runs (a killed
-                    // session, its descriptor kept by something else, or a
-                    // file system without `flock`): take it over. The old
-                    // file is unlinked, never written, and the programme
+                    // `flock` refused here (a file system without it) and
+                    // the lock names a process that no longer runs: the
+                    // file itself is the claim, taken over. The programme
                     // file is not touched.
                     stale_pid = stale_pid.or(pid.filter(|p| *p > 0)).or(Some(0));
-                    if held {
-                        let _ = std::fs::remove_file(&lock_path);
-                        continue;
-                    }
-                    // Without `flock`: the file itself is the claim.
                     let _ = f.set_len(0);
                     let _ = f.rewind();
                     let _ = writeln!(f, "{}", std::process::id());
@@ -120,6 +138,7 @@ impl Claim {
                         lock: Some(f),
                         lock_path,
                         other_pid: None,
+                        other_unseen: false,
                         stale_pid,
                     };
                 }
@@ -149,6 +168,7 @@ impl Claim {
                     lock: Some(f),
                     lock_path,
                     other_pid: None,
+                    other_unseen: false,
                     stale_pid,
                 };
             }
@@ -303,19 +323,53 @@ mod tests {
             std::process::id().to_string()
         );
         drop(c);
-        // Held by a descriptor something else kept, naming the gone process.
-        std::fs::write(lock_path(&p), format!("{dead}\n")).unwrap();
-        let keeper = hold(&lock_path(&p));
-        let c = Claim::acquire(&p);
-        assert!(!c.shared());
-        assert_eq!(c.stale_pid, Some(dead));
-        assert!(c.lock.is_some(), "this session holds the new lock");
-        drop(c);
-        drop(keeper);
         assert_eq!(std::fs::read_to_string(&p).unwrap(), "name,ra,dec\n");
         // A clean start: no note.
         let c = Claim::acquire(&p);
         assert_eq!((c.shared(), c.stale_pid), (false, None));
+    }
+
+    #[cfg(unix)]
+    #[test]
+    fn a_held_lock_naming_a_process_not_seen_here_is_another_session() {
+        // A session on another machine sharing the folder holds the lock; its
+        // process id names nothing here (or a descriptor of a closed session
+        // was kept by something). Someone holds it: this session is the
+        // second, keeps its edits apart, and leaves the lock as it is.
+        let d = tempfile::tempdir().unwrap();
+        let p = d.path().join("programme.csv");
+        std::fs::write(&p, "name,ra,dec\n").unwrap();
+        let dead = gone_pid();
+        std::fs::write(lock_path(&p), format!("{dead}\n")).unwrap();
+        let keeper = hold(&lock_path(&p));
+        let c = Claim::acquire(&p);
+        assert!(c.shared(), "a held lock is another session's");
+        assert_eq!((c.other_pid, c.other_unseen), (Some(dead), true));
+        assert_eq!(c.stale_pid, None);
+        assert!(c.lock.is_none());
+        assert_eq!(
+            c.recovery_path(&p),
+            d.path()
+                .join(format!("programme.csv.unsaved-{}", std::process::id()))
+        );
+        drop(c);
+        assert_eq!(
+            std::fs::read_to_string(lock_path(&p)).unwrap().trim(),
+            dead.to_string(),
+            "the holder's lock file is left as it was"
+        );
+        // Named by no one at all, still held: the same.
+        std::fs::write(lock_path(&p), "").unwrap();
+        let c = Claim::acquire(&p);
+        assert_eq!((c.other_pid, c.other_unseen), (Some(0), true));
+        drop(c);
+        drop(keeper);
+        // Released: this session is the first and takes it over with a note.
+        std::fs::write(lock_path(&p), format!("{dead}\n")).unwrap();
+        let c = Claim::acquire(&p);
+        assert!(!c.shared());
+        assert_eq!(c.stale_pid, Some(dead));
+        assert_eq!(std::fs::read_to_string(&p).unwrap(), "name,ra,dec\n");
     }
 
     #[cfg(unix)]
@@ -331,6 +385,7 @@ mod tests {
         let keeper = hold(&lock_path(&p));
         let c = Claim::acquire(&p);
         assert_eq!(c.other_pid, Some(child.id()));
+        assert!(!c.other_unseen);
         assert_eq!(c.stale_pid, None);
         drop(c);
         drop(keeper);
