@@ -1361,3 +1361,35 @@ fn phase_view_reaches_every_note_of_a_field() {
     let (rows, _) = screen(&s, 80, 24);
     assert!(!has(&rows, &format!("Notes ({n})")));
 }
+
+/// A message longer than the screen is wide wraps upward over the view (at
+/// most three lines) instead of being cut at the right edge; a short one keeps
+/// the one bottom line.
+#[test]
+fn a_long_message_wraps_over_the_bottom_lines_at_80_columns() {
+    let mut s = demo_state((80, 24));
+    let long = "/home/observer/programmes/south-2027/programme.csv.lock is held by process \
+                4194300, not running on this machine (another host or container sharing the \
+                folder?): this session counts as a second one";
+    s.message = Some((long.to_string(), rung::tui::state::Level::Warn));
+    let (rows, _) = screen(&s, 80, 24);
+    let low: Vec<&str> = rows[21..24].iter().map(|r| r.trim_end()).collect();
+    let joined = low.join(" ");
+    for word in [
+        "programme.csv.lock",
+        "4194300,",
+        "folder?):",
+        "second",
+        "one",
+    ] {
+        assert!(joined.contains(word), "{word} missing from {low:?}");
+    }
+    assert!(
+        rows[20].contains("LPO-"),
+        "the view keeps the rows above: {rows:?}"
+    );
+    s.message = Some(("saved".to_string(), rung::tui::state::Level::Good));
+    let (rows, _) = screen(&s, 80, 24);
+    assert_eq!(rows[23].trim_end(), "saved");
+    assert!(rows[22].contains("LPO-"), "{rows:?}");
+}

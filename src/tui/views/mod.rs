@@ -270,14 +270,36 @@ pub fn bottom_text(s: &State) -> (String, Level) {
     )
 }
 
-fn bottom(s: &State, area: Rect, buf: &mut Buffer) {
+/// Most lines the bottom text may take: a message longer than the screen is
+/// wide (a confirmation naming a file, a warning about another session) wraps
+/// upward over the view rather than being cut at the right edge.
+const BOTTOM_LINES_MAX: u16 = 3;
+
+/// The bottom text wrapped at `width` columns, at most [`BOTTOM_LINES_MAX`]
+/// lines and `room` lines (the last one cut when it still does not fit).
+fn bottom_lines(s: &State, width: u16, room: u16) -> (Vec<String>, Level) {
     let (text, level) = bottom_text(s);
+    let keep = usize::from(BOTTOM_LINES_MAX.min(room).max(1));
+    if text.chars().count() <= usize::from(width) || width < 8 {
+        return (vec![text], level);
+    }
+    let mut lines = fmt::wrap(&text, usize::from(width));
+    if lines.len() > keep {
+        let rest = lines.split_off(keep - 1).join(" ");
+        lines.push(rest);
+    }
+    (lines, level)
+}
+
+fn bottom(s: &State, lines: &[String], level: Level, area: Rect, buf: &mut Buffer) {
     let st = match level {
         Level::Info => s.theme.dim(),
         Level::Good => s.theme.good(),
         Level::Warn => s.theme.warn(),
     };
-    put(buf, area.x, area.y, &text, area.width, st);
+    for (i, line) in lines.iter().enumerate() {
+        put(buf, area.x, area.y + i as u16, line, area.width, st);
+    }
 }
 
 /// Draw the whole screen into `buf`.
@@ -295,7 +317,10 @@ pub fn render_all(s: &State, area: Rect, buf: &mut Buffer) {
     }
     status(s, Rect::new(area.x, area.y, area.width, 1), buf);
     tabs(s, Rect::new(area.x, area.y + 1, area.width, 1), buf);
-    let body = Rect::new(area.x, area.y + 2, area.width, area.height - 3);
+    // The view keeps at least half the rows below the tabs.
+    let (low, level) = bottom_lines(s, area.width, (area.height - 2) / 2);
+    let n = low.len() as u16;
+    let body = Rect::new(area.x, area.y + 2, area.width, area.height - 2 - n);
     match s.view {
         View::Roster => roster::render(s, body, buf),
         View::Tonight => tonight::render(s, body, buf),
@@ -309,7 +334,9 @@ pub fn render_all(s: &State, area: Rect, buf: &mut Buffer) {
     }
     bottom(
         s,
-        Rect::new(area.x, area.y + area.height - 1, area.width, 1),
+        &low,
+        level,
+        Rect::new(area.x, area.y + area.height - n, area.width, n),
         buf,
     );
     match &s.overlay {
