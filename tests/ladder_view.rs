@@ -107,7 +107,16 @@ fn the_ladder_view_shows_the_numbers_of_rung_ladder_json() {
             .chain(j["supernovae"].as_array().unwrap())
             .collect();
         assert!(shown >= 5 && all.len() > 5);
-        for d in all.iter().take(shown) {
+        // The rows on screen (the view orders them by rung, the JSON lists
+        // nodes then supernovae): every one shown is checked, and a full page is.
+        // (status, tabs, title, end point and header above the chain)
+        let chain = &rows[5..5 + shown];
+        let on_screen: Vec<&&serde_json::Value> = all
+            .iter()
+            .filter(|d| has(chain, &format!(" {} ", d["name"].as_str().unwrap())))
+            .collect();
+        assert_eq!(on_screen.len(), shown.min(all.len()), "{text}");
+        for d in on_screen {
             let name = d["name"].as_str().unwrap();
             let line = row_of(&rows, &format!(" {name} "));
             for want in [
@@ -157,6 +166,32 @@ fn the_ladder_view_shows_the_numbers_of_rung_ladder_json() {
             );
             assert!(line.contains("largest: "), "{line}");
         }
+        // The hours by rung, as `rung ladder` counts them (single pulsators
+        // on their own), and their sum.
+        let hours = row_of(&rows, "Hours: ");
+        let mut total = 0.0;
+        for h in j["hours_by_rung"].as_array().unwrap() {
+            let rung = match h["rung"].as_str().unwrap() {
+                "anchor" => "anchors",
+                "host" => "host fields",
+                "calibrator" => "calibrators",
+                "hubble_flow" => "Hubble flow",
+                _ => "relation priors",
+            };
+            total += f(&h["hours"]);
+            let want = format!("{rung} {} h", n(f(&h["hours"]), 1));
+            assert!(hours.contains(&want), "{want:?} not in {hours:?}");
+        }
+        let ph = f(&j["pulsator_hours"]);
+        assert_eq!(
+            hours.contains(&format!("pulsators {} h", n(ph, 1))),
+            ph > 0.0,
+            "{hours}"
+        );
+        assert!(
+            hours.contains(&format!("= {} h", n(total + ph, 1))),
+            "{hours}"
+        );
         // The best next hours, best first, as the command ranks them.
         assert!(has(&rows, "Best next hour"));
         for step in j["next"].as_array().unwrap().iter().take(3) {

@@ -611,10 +611,10 @@ pub fn scroll_offset(sel: usize, height: usize) -> usize {
 pub const LADDER_NEXT_ROWS: u16 = 3;
 
 /// Rows of the Ladder view other than the chain's: title, end point and
-/// header; the budget's heading and a line for each rung; the best next
-/// hours with their heading.
+/// header; the budget's heading, a line for each rung and the hours by rung;
+/// the best next hours with their heading.
 pub const LADDER_FIXED_ROWS: u16 =
-    3 + 1 + crate::ladder::chain::Rung::ALL.len() as u16 + 1 + LADDER_NEXT_ROWS;
+    3 + 1 + crate::ladder::chain::Rung::ALL.len() as u16 + 1 + 1 + LADDER_NEXT_ROWS;
 
 /// Rows of the detail list a view shows in a view area `area_h` rows tall
 /// (Phase: title, coverage and header rows above, three foot rows below;

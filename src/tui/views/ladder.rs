@@ -124,6 +124,21 @@ pub fn rung_line(r: &LadderReport, rung: Rung) -> Option<String> {
     ))
 }
 
+/// The hours planned by rung on one line (`rung ladder`'s "Hours planned by
+/// rung"; the single pulsators on their own), with their sum.
+pub fn hours_line(r: &LadderReport) -> String {
+    let mut parts: Vec<String> = r
+        .hours_by_rung
+        .iter()
+        .map(|h| format!("{} {} h", h.rung.text(), n(h.hours, 1)))
+        .collect();
+    if r.pulsator_hours > 0.0 {
+        parts.push(format!("pulsators {} h", n(r.pulsator_hours, 1)));
+    }
+    let total: f64 = r.hours_by_rung.iter().map(|h| h.hours).sum::<f64>() + r.pulsator_hours;
+    format!("Hours: {} = {} h", parts.join(" · "), n(total, 1))
+}
+
 /// One step of the best next hours.
 pub fn next_line(s: &crate::ladder::chain::Ranked) -> String {
     format!(
@@ -205,6 +220,7 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             y += 1;
         }
     }
+    put(buf, area.x, y, &hours_line(r), area.width, th.dim());
     let y = area.y + area.height - 1 - NEXT_ROWS as u16;
     put(
         buf,
