@@ -332,9 +332,6 @@ fn quit_discarding_and_site_picker() {
 #[test]
 fn chase_and_phase_lists_scroll_apart_from_the_selection() {
     let mut s = demo_state((80, 24));
-    // The start message names the temporary save path, long enough to wrap
-    // over two bottom lines; the rows counted here assume the one line.
-    s.message = None;
     ch(&mut s, '6');
     let t = s
         .order

@@ -1362,9 +1362,9 @@ fn phase_view_reaches_every_note_of_a_field() {
     assert!(!has(&rows, &format!("Notes ({n})")));
 }
 
-/// A message longer than the screen is wide wraps upward over the view (at
-/// most three lines) instead of being cut at the right edge; a short one keeps
-/// the one bottom line.
+/// A warning or confirmation longer than the screen is wide wraps upward over
+/// the view (at most three lines) instead of being cut at the right edge; a
+/// short one, and a hint of any length, keep the one bottom line.
 #[test]
 fn a_long_message_wraps_over_the_bottom_lines_at_80_columns() {
     let mut s = demo_state((80, 24));
@@ -1391,5 +1391,9 @@ fn a_long_message_wraps_over_the_bottom_lines_at_80_columns() {
     s.message = Some(("saved".to_string(), rung::tui::state::Level::Good));
     let (rows, _) = screen(&s, 80, 24);
     assert_eq!(rows[23].trim_end(), "saved");
+    assert!(rows[22].contains("LPO-"), "{rows:?}");
+    s.message = Some((long.to_string(), rung::tui::state::Level::Info));
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(rows[23].starts_with("/home/observer/"), "{rows:?}");
     assert!(rows[22].contains("LPO-"), "{rows:?}");
 }

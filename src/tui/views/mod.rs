@@ -270,9 +270,10 @@ pub fn bottom_text(s: &State) -> (String, Level) {
     )
 }
 
-/// Most lines the bottom text may take: a message longer than the screen is
-/// wide (a confirmation naming a file, a warning about another session) wraps
-/// upward over the view rather than being cut at the right edge.
+/// Most lines the bottom text may take: a warning or a confirmation longer
+/// than the screen is wide (one naming a file, or another session) wraps
+/// upward over the view rather than being cut at the right edge. A hint
+/// (the keys line, the demo's note on where saves go) keeps its one line.
 const BOTTOM_LINES_MAX: u16 = 3;
 
 /// The bottom text wrapped at `width` columns, at most [`BOTTOM_LINES_MAX`]
@@ -280,7 +281,7 @@ const BOTTOM_LINES_MAX: u16 = 3;
 fn bottom_lines(s: &State, width: u16, room: u16) -> (Vec<String>, Level) {
     let (text, level) = bottom_text(s);
     let keep = usize::from(BOTTOM_LINES_MAX.min(room).max(1));
-    if text.chars().count() <= usize::from(width) || width < 8 {
+    if level == Level::Info || text.chars().count() <= usize::from(width) || width < 8 {
         return (vec![text], level);
     }
     let mut lines = fmt::wrap(&text, usize::from(width));
