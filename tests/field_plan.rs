@@ -466,3 +466,91 @@ fn phase_shows_the_field_as_the_budget_counts_it() {
         "{err}"
     );
 }
+
+/// The visits of a pointing cover the phases of all its stars together: a
+/// 4.1-day and a 26.9-day star share a pointing, ten visits are asked and
+/// the cheap (dark) nights are the first twelve and the last fourteen of 40
+/// (the middle ones, moonlit, cost three times as much). Filling the most
+/// phase bins per second would keep the ten visits in the first dark run,
+/// where the long star moves through fewer than half of its cycle (about
+/// 12/26.9 of it: 5 of its 10 bins); the field's information per second
+/// takes visits from both dark runs, so that both stars' phases are spread
+/// over at least 2K + 1 = 7 of the 10 bins (as many as the K = 3 Fourier
+/// series has terms; config/pulsator.toml) and the long star's mean
+/// magnitude is fixed as well as the short one's. Fixed case, numbers here:
+/// the bins-per-second rule (the chooser before) took nights 0, 1, 2, 3, 5,
+/// 11, 26, 28, 29, 35, giving the long star 6 bins and σm̄ 4.5 mag; the
+/// information rule takes 0, 2, 3, 5, 11, 18, 25, 26, 28, 35: 9 and 7 bins,
+/// σm̄ 0.019 and 0.029 mag.
+#[test]
+fn the_visits_cover_a_short_and_a_long_period_star_together() {
+    use rung::astro::bary::Bjd;
+    use rung::astro::time::Instant;
+    use rung::ladder::field::{ChooserStar, choose_visits};
+    use rung::ladder::pulsator::{frac_phase, mean_mag_sigma};
+    let jd0 = 2_461_376.5; // 2026-12-01 00:00 UTC
+    let cands: Vec<(Instant, Bjd, f64, f64)> = (0..40)
+        .map(|d| {
+            let cost_s = match d {
+                0..=11 => 1000.0,
+                12..=25 => 3000.0,
+                _ => 1100.0,
+            };
+            (
+                Instant::from_jd_utc(jd0 + d as f64 + 0.2).unwrap(),
+                Bjd {
+                    jd1: jd0 + d as f64,
+                    jd2: 0.2,
+                },
+                0.0,
+                cost_s,
+            )
+        })
+        .collect();
+    let stars = [
+        ChooserStar {
+            epoch_bjd: 2_461_376.0,
+            period_d: 4.1,
+            scatter_mag: 0.21,
+        },
+        ChooserStar {
+            epoch_bjd: 2_461_376.0,
+            period_d: 26.9,
+            scatter_mag: 0.21,
+        },
+    ];
+    let (bins, k, sigma_pt) = (10, 3, 0.0543);
+    let chosen = choose_visits(&cands, &stars, bins, k, sigma_pt, 10, 600.0);
+    assert_eq!(chosen.len(), 10, "ten visits asked, forty nights offered");
+    let nights: Vec<usize> = chosen.clone();
+    for s in &stars {
+        let ph: Vec<f64> = chosen
+            .iter()
+            .map(|c| frac_phase(cands[*c].1.days_since(s.epoch_bjd) / s.period_d))
+            .collect();
+        let mut seen = [false; 10];
+        for x in &ph {
+            seen[((x * bins as f64) as usize).min(bins - 1)] = true;
+        }
+        let covered = seen.iter().filter(|b| **b).count();
+        let sm = mean_mag_sigma(&ph, &[sigma_pt; 10], k).unwrap();
+        eprintln!(
+            "P {} d: nights {nights:?}, {covered} bins, σm̄ {sm:.4}",
+            s.period_d
+        );
+        assert!(
+            covered >= 2 * k + 1,
+            "P {} d: {covered} of {bins} bins (nights {nights:?})",
+            s.period_d
+        );
+        // Ten points spread in phase fix the mean to about σ/√10 = 0.017
+        // mag (fit.rs, mean_mag_sigma); bunched ones leave it loose.
+        assert!(sm < 0.05, "P {} d: σm̄ {sm} (nights {nights:?})", s.period_d);
+    }
+    // The visits reach past the first dark run: the long star's cycle is spanned.
+    let span_d = cands[*chosen.last().unwrap()]
+        .0
+        .seconds_since(&cands[chosen[0]].0)
+        / 86_400.0;
+    assert!(span_d >= 0.7 * 26.9, "span {span_d} d (nights {nights:?})");
+}

@@ -20,9 +20,14 @@
 //!   follows from the CCD equation with that exposure and split.
 //! - **Cadence.** The visits of a pointing are chosen together for all its
 //!   stars: among instants every `candidate_step_s` inside the pointing's
-//!   windows, greedily the one whose phases fall in the most phase bins still
-//!   empty over all the stars (ties: the instant nearest the highest altitude
-//!   of its night, then the earlier), never two overlapping ([`choose_visits`]).
+//!   windows, greedily the one that adds the most to the field's information
+//!   (the sum of the stars' weights 1/(σ_PL² + σm̄²), σm̄ from the Fourier fit
+//!   to the phases so far) per second of telescope time, the most phase bins
+//!   still empty over all the stars until the phases can fix a series (ties:
+//!   the instant nearest the highest altitude of its night, then the
+//!   earlier), never two overlapping ([`choose_visits`]). A long-period star
+//!   whose phases are bunched has a weight near 0, so its missing phases pull
+//!   the visits apart in time.
 //! - **Distance.** Each star gives μ_i = m̄_i − M(P_i) − A_i with weight
 //!   w_i = 1/(σ_PL² + σ_m̄,i²); the field's μ is the weighted mean, and
 //!   σ_μ² = σ_PL²/N + σ_zp² + (γ σ[Fe/H])² + σ_phot² + σ_cal² (+ the
@@ -934,46 +939,112 @@ fn tie_ranks(cands: &[Candidate]) -> Vec<f64> {
     rank
 }
 
+/// A star as the visit chooser sees it: its ephemeris and the scatter of
+/// its relation (what its weight in the field's mean can at best be).
+#[derive(Debug, Clone, Copy)]
+pub struct ChooserStar {
+    /// Epoch of maximum, BJD_TDB (days).
+    pub epoch_bjd: f64,
+    /// Period, days.
+    pub period_d: f64,
+    /// The relation's scatter for one star, mag.
+    pub scatter_mag: f64,
+}
+
+/// A star's weight in the field's mean for points at `phases`, each of
+/// error `sigma_point_mag`: 1/(σ_PL² + σm̄²), σm̄ from the `harmonics`-term
+/// Fourier fit's covariance; 0 while the phases cannot fix the series.
+fn chooser_weight(phases: &[f64], sigma_point_mag: f64, harmonics: usize, scatter_mag: f64) -> f64 {
+    let sg = vec![sigma_point_mag; phases.len()];
+    match mean_mag_sigma(phases, &sg, harmonics) {
+        Ok(sm) if sm.is_finite() => 1.0 / (scatter_mag * scatter_mag + sm * sm),
+        _ => 0.0,
+    }
+}
+
 /// Choose up to `n` visits among `cands` (instant, BJD_TDB, tie rank, cost
-/// in seconds) for stars with ephemerides (E0 BJD, P days): greedily the
-/// candidate that fills the most (star, bin) cells still empty (`bins` bins
-/// per star) per second of telescope time (a moonlit night, whose exposures
-/// are longer, must fill more to be taken), ties to the lower rank, then the
-/// earlier; candidates closer than `dwell_s` to a chosen one are dropped.
-/// Stops when `n` are chosen or no candidate adds a cell. The result is in
-/// time order.
+/// in seconds) for the stars of one pointing, all of them together: greedily
+/// the candidate that adds the most to the field's information, the sum over
+/// the stars of their weights 1/(σ_PL² + σm̄²) (σm̄ from the Fourier fit of
+/// `harmonics` terms to their phases, each point of error
+/// `sigma_point_mag`), per second of telescope time (a moonlit night, whose
+/// exposures are longer, must add more to be taken). A star whose phases
+/// cover only part of its cycle has a large σm̄ and a weight near 0, so a
+/// visit that reaches its missing phases is worth more than one that adds a
+/// point to a star already well fixed: the long-period stars pull the visits
+/// apart in time. Until the phases can fix any star's series (fewer than
+/// 2K + 1 points) the candidate filling the most (star, bin) cells still
+/// empty (`bins` bins per star) per second is taken. Ties go to the lower
+/// rank, then the earlier; candidates closer than `dwell_s` to a chosen one
+/// are dropped. Stops when `n` are chosen or no candidate adds information
+/// or a cell. The result is in time order.
+#[allow(clippy::too_many_arguments)]
 pub fn choose_visits(
     cands: &[(Instant, Bjd, f64, f64)],
-    ephemerides: &[(f64, f64)],
+    stars: &[ChooserStar],
     bins: usize,
+    harmonics: usize,
+    sigma_point_mag: f64,
     n: usize,
     dwell_s: f64,
 ) -> Vec<usize> {
-    let bin_of = |bjd: &Bjd, e: &(f64, f64)| -> usize {
-        ((frac_phase(bjd.days_since(e.0) / e.1) * bins as f64) as usize).min(bins - 1)
-    };
-    let cells: Vec<Vec<usize>> = cands
+    use rayon::prelude::*;
+    let phase_of =
+        |bjd: &Bjd, s: &ChooserStar| frac_phase(bjd.days_since(s.epoch_bjd) / s.period_d);
+    let phases: Vec<Vec<f64>> = cands
         .iter()
-        .map(|(_, b, _, _)| ephemerides.iter().map(|e| bin_of(b, e)).collect())
+        .map(|(_, b, _, _)| stars.iter().map(|s| phase_of(b, s)).collect())
         .collect();
-    let mut covered = vec![vec![false; bins]; ephemerides.len()];
+    let bin_of = |x: f64| ((x * bins as f64) as usize).min(bins - 1);
+    let mut covered = vec![vec![false; bins]; stars.len()];
+    let mut taken: Vec<Vec<f64>> = vec![Vec::new(); stars.len()];
+    let mut weight = vec![0.0; stars.len()];
     let mut alive = vec![true; cands.len()];
     let mut chosen: Vec<usize> = Vec::new();
     while chosen.len() < n {
+        // Per candidate: (information added, cells filled).
+        let gains: Vec<(f64, usize)> = phases
+            .par_iter()
+            .enumerate()
+            .map(|(c, ph)| {
+                if !alive[c] {
+                    return (0.0, 0);
+                }
+                let cells = ph
+                    .iter()
+                    .enumerate()
+                    .filter(|(s, x)| !covered[*s][bin_of(**x)])
+                    .count();
+                let mut info = 0.0;
+                let mut buf = Vec::new();
+                for (s, x) in ph.iter().enumerate() {
+                    // Too few points to fix any series even with this one.
+                    if taken[s].len() + 1 < 2 * harmonics + 1 {
+                        continue;
+                    }
+                    buf.clear();
+                    buf.extend_from_slice(&taken[s]);
+                    buf.push(*x);
+                    let w = chooser_weight(&buf, sigma_point_mag, harmonics, stars[s].scatter_mag);
+                    info += (w - weight[s]).max(0.0);
+                }
+                (info, cells)
+            })
+            .collect();
+        let total: f64 = weight.iter().sum();
+        let by_info = gains
+            .iter()
+            .any(|(g, _)| *g > 1e-9 * total.max(f64::MIN_POSITIVE));
         let mut best: Option<(usize, f64)> = None;
-        for (c, cell) in cells.iter().enumerate() {
+        for (c, (info, cells)) in gains.iter().enumerate() {
             if !alive[c] {
                 continue;
             }
-            let gain = cell
-                .iter()
-                .enumerate()
-                .filter(|(s, b)| !covered[*s][**b])
-                .count();
-            if gain == 0 {
+            let gain = if by_info { *info } else { *cells as f64 };
+            if gain <= 0.0 {
                 continue;
             }
-            let score = gain as f64 / cands[c].3.max(1.0);
+            let score = gain / cands[c].3.max(1.0);
             let better = match best {
                 None => true,
                 Some((bc, bs)) => {
@@ -988,8 +1059,10 @@ pub fn choose_visits(
             }
         }
         let Some((c, _)) = best else { break };
-        for (s, b) in cells[c].iter().enumerate() {
-            covered[s][*b] = true;
+        for (s, x) in phases[c].iter().enumerate() {
+            covered[s][bin_of(*x)] = true;
+            taken[s].push(*x);
+            weight[s] = chooser_weight(&taken[s], sigma_point_mag, harmonics, stars[s].scatter_mag);
         }
         chosen.push(c);
         let t = cands[c].0;
@@ -1388,12 +1461,19 @@ impl<'a> FieldPlanner<'a> {
                 }
             }
             let step = self.config.defaults.candidate_step_s.max(dwell_s);
-            let ephs: Vec<(f64, f64)> = p
+            let ephs: Vec<ChooserStar> = p
                 .stars
                 .iter()
                 .filter_map(|s| prep.members[*s].as_ref())
-                .map(|m| (m.star.ephemeris.epoch_max_bjd, m.star.ephemeris.period_d))
+                .map(|m| ChooserStar {
+                    epoch_bjd: m.star.ephemeris.epoch_max_bjd,
+                    period_d: m.star.ephemeris.period_d,
+                    scatter_mag: m.rel.relation.scatter_mag,
+                })
                 .collect();
+            // Each point at the error the plan asks of the faintest star.
+            let sigma_point_mag = MAG_PER_INV_SNR / snr;
+            let harmonics = self.pulsator.harmonics;
             // A campaign: the visits are sought in the first
             // `campaign_nights` of the range, a span twice as long when they
             // do not fit, up to the whole range.
@@ -1412,7 +1492,8 @@ impl<'a> FieldPlanner<'a> {
                     .zip(&costs)
                     .map(|((c, r), k)| (c.t, c.bjd, *r, *k))
                     .collect();
-                let chosen = choose_visits(&flat, &ephs, bins, n, dwell_s);
+                let chosen =
+                    choose_visits(&flat, &ephs, bins, harmonics, sigma_point_mag, n, dwell_s);
                 if chosen.len() >= n || span >= nights.len() {
                     break (cands, chosen);
                 }
