@@ -771,6 +771,12 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
         base.par_iter()
             .map(|(ti, mine, useful)| {
                 let t = &req.targets[*ti];
+                // A field's star is measured at the field's visits and counts
+                // in the field's distance, not its own: one more visit of it
+                // alone buys the field nothing its own method could value.
+                if !matches!(links.role(*ti), crate::ladder::field::Role::Alone) {
+                    return vec![];
+                }
                 let Some(m) = req.methods.for_kind(t.kind) else {
                     return vec![];
                 };
