@@ -538,8 +538,9 @@ fn the_visits_cover_a_short_and_a_long_period_star_together() {
             "P {} d: nights {nights:?}, {covered} bins, σm̄ {sm:.4}",
             s.period_d
         );
+        let terms = 2 * k + 1;
         assert!(
-            covered >= 2 * k + 1,
+            covered >= terms,
             "P {} d: {covered} of {bins} bins (nights {nights:?})",
             s.period_d
         );
