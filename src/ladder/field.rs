@@ -19,15 +19,18 @@
 //!   its bright phase needs to stay linear; every star's signal-to-noise then
 //!   follows from the CCD equation with that exposure and split.
 //! - **Cadence.** The visits of a pointing are chosen together for all its
-//!   stars: among instants every `candidate_step_s` inside the pointing's
-//!   windows, greedily the one that adds the most to the field's information
+//!   stars and all at once: among instants every `candidate_step_s` inside
+//!   the pointing's windows, each costing its own visit's length (its
+//!   airmass, its Moon), the set of visits with the most field information
 //!   (the sum of the stars' weights 1/(σ_PL² + σm̄²), σm̄ from the Fourier fit
-//!   to the phases so far) per second of telescope time, the most phase bins
-//!   still empty over all the stars until the phases can fix a series (ties:
-//!   the instant nearest the highest altitude of its night, then the
-//!   earlier), never two overlapping ([`choose_visits`]). A long-period star
-//!   whose phases are bunched has a weight near 0, so its missing phases pull
-//!   the visits apart in time.
+//!   to their phases) per second of telescope time: two starting sets (grown
+//!   one visit at a time; the cheapest instant of each equal part of the
+//!   span) improved by exchange steps (one visit replaced by another instant
+//!   while that raises the whole set's information per second), the better
+//!   kept ([`choose_visits`]). A long-period star whose phases are bunched has
+//!   a weight near 0, so its missing phases pull the visits apart in time;
+//!   the seconds keep them off low or moonlit instants where cheaper ones
+//!   reach the same phases.
 //! - **Distance.** Each star gives μ_i = m̄_i − M(P_i) − A_i with weight
 //!   w_i = 1/(σ_PL² + σ_m̄,i²); the field's μ is the weighted mean, and
 //!   σ_μ² = σ_PL²/N + σ_zp² + (γ σ[Fe/H])² + σ_phot² + σ_cal² (+ the
@@ -951,33 +954,358 @@ pub struct ChooserStar {
     pub scatter_mag: f64,
 }
 
-/// A star's weight in the field's mean for points at `phases`, each of
-/// error `sigma_point_mag`: 1/(σ_PL² + σm̄²), σm̄ from the `harmonics`-term
-/// Fourier fit's covariance; 0 while the phases cannot fix the series.
-fn chooser_weight(phases: &[f64], sigma_point_mag: f64, harmonics: usize, scatter_mag: f64) -> f64 {
-    let sg = vec![sigma_point_mag; phases.len()];
-    match mean_mag_sigma(phases, &sg, harmonics) {
-        Ok(sm) if sm.is_finite() => 1.0 / (scatter_mag * scatter_mag + sm * sm),
-        _ => 0.0,
+/// The field's information as the visit chooser counts it: for each
+/// candidate and star, the row of the `harmonics`-term Fourier design matrix
+/// at the star's phase (the mean last, so that its variance is 1/L_pp² of
+/// the normal matrix's Cholesky factor L), and the star's phase bin.
+struct Info<'a> {
+    stars: &'a [ChooserStar],
+    /// Terms of the series, 2K + 1.
+    p: usize,
+    /// Weight of one point, 1/σ², mag⁻².
+    inv_var: f64,
+    /// `rows[(c × stars + s) × p + j]`.
+    rows: Vec<f64>,
+    /// `cells[c × stars + s]`: the phase bin.
+    cells: Vec<usize>,
+}
+
+impl<'a> Info<'a> {
+    fn new(
+        cands: &[(Instant, Bjd, f64, f64)],
+        stars: &'a [ChooserStar],
+        bins: usize,
+        harmonics: usize,
+        sigma_point_mag: f64,
+    ) -> Self {
+        let p = 2 * harmonics + 1;
+        let mut rows = Vec::with_capacity(cands.len() * stars.len() * p);
+        let mut cells = Vec::with_capacity(cands.len() * stars.len());
+        for (_, b, _, _) in cands {
+            for s in stars {
+                let x = frac_phase(b.days_since(s.epoch_bjd) / s.period_d);
+                for j in 1..=harmonics {
+                    let a = 2.0 * std::f64::consts::PI * j as f64 * x;
+                    rows.push(a.cos());
+                    rows.push(a.sin());
+                }
+                rows.push(1.0);
+                cells.push(((x * bins as f64) as usize).min(bins.max(1) - 1));
+            }
+        }
+        Info {
+            stars,
+            p,
+            inv_var: 1.0 / (sigma_point_mag * sigma_point_mag),
+            rows,
+            cells,
+        }
+    }
+
+    fn row(&self, c: usize, s: usize) -> &[f64] {
+        let i = (c * self.stars.len() + s) * self.p;
+        &self.rows[i..i + self.p]
+    }
+
+    /// Add candidate `c`'s point of star `s` to the normal matrix `a` (its
+    /// lower triangle, p × p row-major).
+    fn add(&self, a: &mut [f64], c: usize, s: usize) {
+        let r = self.row(c, s);
+        let p = self.p;
+        for i in 0..p {
+            let ri = r[i] * self.inv_var;
+            for j in 0..=i {
+                a[i * p + j] += ri * r[j];
+            }
+        }
+    }
+
+    /// The normal matrices of every star over the visits `set` but its
+    /// `skip`th, stars one after the other.
+    fn normals(&self, set: &[usize], skip: Option<usize>) -> Vec<f64> {
+        let pp = self.p * self.p;
+        let mut a = vec![0.0; self.stars.len() * pp];
+        for (k, c) in set.iter().enumerate() {
+            if Some(k) == skip {
+                continue;
+            }
+            for s in 0..self.stars.len() {
+                self.add(&mut a[s * pp..(s + 1) * pp], *c, s);
+            }
+        }
+        a
+    }
+
+    /// Star `s`'s weight in the field's mean, 1/(σ_PL² + σm̄²), for the
+    /// normal matrix `a` of `count` points; 0 while they cannot fix the
+    /// series (fewer than 2K + 1, or bunched: a Cholesky pivot at or below
+    /// [`crate::linalg::PIVOT_REL_TOL`] of its diagonal, the test of the
+    /// fit's own inverse). `l` is scratch of p × p.
+    fn weight(&self, a: &[f64], count: usize, s: usize, l: &mut [f64]) -> f64 {
+        let p = self.p;
+        if count < p {
+            return 0.0;
+        }
+        for j in 0..p {
+            let mut d = a[j * p + j];
+            for k in 0..j {
+                d -= l[j * p + k] * l[j * p + k];
+            }
+            if d.is_nan() || d <= crate::linalg::PIVOT_REL_TOL * a[j * p + j].abs() || d <= 0.0 {
+                return 0.0;
+            }
+            let ljj = d.sqrt();
+            l[j * p + j] = ljj;
+            for i in j + 1..p {
+                let mut v = a[i * p + j];
+                for k in 0..j {
+                    v -= l[i * p + k] * l[j * p + k];
+                }
+                l[i * p + j] = v / ljj;
+            }
+        }
+        let var_mean = 1.0 / (l[p * p - 1] * l[p * p - 1]);
+        let sc = self.stars[s].scatter_mag;
+        1.0 / (sc * sc + var_mean)
+    }
+
+    /// The field's information with candidate `c` added to the normal
+    /// matrices `base` of `count` points: the sum of the stars' weights.
+    fn with(&self, base: &[f64], count: usize, c: usize, work: &mut [f64]) -> f64 {
+        let pp = self.p * self.p;
+        let (a, l) = work.split_at_mut(pp);
+        let mut total = 0.0;
+        for s in 0..self.stars.len() {
+            a.copy_from_slice(&base[s * pp..(s + 1) * pp]);
+            self.add(a, c, s);
+            total += self.weight(a, count + 1, s, l);
+        }
+        total
+    }
+
+    /// The field's information at the visits `set`.
+    fn total(&self, set: &[usize]) -> f64 {
+        let pp = self.p * self.p;
+        let a = self.normals(set, None);
+        let mut l = vec![0.0; pp];
+        (0..self.stars.len())
+            .map(|s| self.weight(&a[s * pp..(s + 1) * pp], set.len(), s, &mut l))
+            .sum()
+    }
+
+    /// The most information the field can have: every star's mean magnitude
+    /// exact, Σ 1/σ_PL².
+    fn ceiling(&self) -> f64 {
+        self.stars
+            .iter()
+            .map(|s| 1.0 / (s.scatter_mag * s.scatter_mag))
+            .sum()
     }
 }
 
+/// Whether candidate `a` goes before `b` at an equal score: the cheaper,
+/// then the lower tie rank, then the earlier.
+fn goes_before(cands: &[(Instant, Bjd, f64, f64)], a: usize, b: usize) -> bool {
+    let (ca, cb) = (&cands[a], &cands[b]);
+    if ca.3 != cb.3 {
+        return ca.3 < cb.3;
+    }
+    if ca.2 != cb.2 {
+        return ca.2 < cb.2;
+    }
+    ca.0 < cb.0
+}
+
+/// Whether candidate `c` may join the visits `set` (leaving out its
+/// `skip`th): a usable cost, not one of them, none closer than `dwell_s`.
+fn fits_with(
+    cands: &[(Instant, Bjd, f64, f64)],
+    set: &[usize],
+    skip: Option<usize>,
+    c: usize,
+    dwell_s: f64,
+) -> bool {
+    cands[c].3.is_finite()
+        && set.iter().enumerate().all(|(k, o)| {
+            Some(k) == skip || (*o != c && cands[*o].0.seconds_since(&cands[c].0).abs() >= dwell_s)
+        })
+}
+
+/// Grow `set` to `n` visits one at a time: the candidate that adds the most
+/// information per second, the most (star, bin) cells still empty per
+/// second until a visit can add information (fewer than 2K + 1 points).
+fn grow(
+    info: &Info,
+    cands: &[(Instant, Bjd, f64, f64)],
+    set: &mut Vec<usize>,
+    n: usize,
+    bins: usize,
+    dwell_s: f64,
+) {
+    use rayon::prelude::*;
+    let ns = info.stars.len();
+    let pp = info.p * info.p;
+    let mut covered = vec![false; ns * bins.max(1)];
+    for c in set.iter() {
+        for s in 0..ns {
+            covered[s * bins.max(1) + info.cells[c * ns + s]] = true;
+        }
+    }
+    while set.len() < n {
+        let base = info.normals(set, None);
+        let mut l = vec![0.0; pp];
+        let weights: Vec<f64> = (0..ns)
+            .map(|s| info.weight(&base[s * pp..(s + 1) * pp], set.len(), s, &mut l))
+            .collect();
+        let now: f64 = weights.iter().sum();
+        // Per candidate: (information added, cells filled); None when it
+        // cannot join.
+        let gains: Vec<Option<(f64, usize)>> = (0..cands.len())
+            .into_par_iter()
+            .map_init(
+                || vec![0.0; 2 * pp],
+                |work, c| {
+                    if !fits_with(cands, set, None, c, dwell_s) {
+                        return None;
+                    }
+                    let cells = (0..ns)
+                        .filter(|s| !covered[s * bins.max(1) + info.cells[c * ns + s]])
+                        .count();
+                    let (a, l) = work.split_at_mut(pp);
+                    let mut add = 0.0;
+                    for (s, w0) in weights.iter().enumerate() {
+                        a.copy_from_slice(&base[s * pp..(s + 1) * pp]);
+                        info.add(a, c, s);
+                        add += (info.weight(a, set.len() + 1, s, l) - w0).max(0.0);
+                    }
+                    Some((add, cells))
+                },
+            )
+            .collect();
+        let by_info = gains
+            .iter()
+            .flatten()
+            .any(|(g, _)| *g > 1e-9 * now.max(f64::MIN_POSITIVE));
+        let mut best: Option<(usize, f64)> = None;
+        for (c, g) in gains.iter().enumerate() {
+            let Some((add, cells)) = g else { continue };
+            let gain = if by_info { *add } else { *cells as f64 };
+            if gain <= 0.0 {
+                continue;
+            }
+            let score = gain / cands[c].3.max(1.0);
+            let better = match best {
+                None => true,
+                Some((bc, bs)) => {
+                    score > bs * (1.0 + 1e-12)
+                        || (score >= bs * (1.0 - 1e-12) && goes_before(cands, c, bc))
+                }
+            };
+            if better {
+                best = Some((c, score));
+            }
+        }
+        let Some((c, _)) = best else { break };
+        for s in 0..ns {
+            covered[s * bins.max(1) + info.cells[c * ns + s]] = true;
+        }
+        set.push(c);
+    }
+}
+
+/// Exchange steps on `set`: replace one visit by another candidate while
+/// that raises the field's information per second of the visits together
+/// (Σ weights / Σ seconds), each step the best replacement of one visit
+/// (visits taken in turn), until no replacement of any raises it. Returns
+/// the set's information per second.
+fn exchange(
+    info: &Info,
+    cands: &[(Instant, Bjd, f64, f64)],
+    set: &mut [usize],
+    dwell_s: f64,
+) -> f64 {
+    use rayon::prelude::*;
+    let pp = info.p * info.p;
+    let cost = |c: usize| cands[c].3.max(1.0);
+    let seconds = |set: &[usize]| set.iter().map(|c| cost(*c)).sum::<f64>();
+    let mut rate = info.total(set) / seconds(set);
+    if set.is_empty() || rate <= 0.0 {
+        return rate;
+    }
+    let ceiling = info.ceiling();
+    // A bound on the steps (each raises the rate; the bound only guards).
+    let mut steps_left = 20 * set.len() + 50;
+    let mut since = 0;
+    let mut k = 0;
+    while since < set.len() && steps_left > 0 {
+        let base = info.normals(set, Some(k));
+        let rest = seconds(set) - cost(set[k]);
+        let snapshot: &[usize] = set;
+        let best = (0..cands.len())
+            .into_par_iter()
+            .map_init(
+                || vec![0.0; 2 * pp],
+                |work, c| {
+                    // Even exact mean magnitudes for every star would not
+                    // raise the rate at this cost.
+                    if ceiling / (rest + cost(c)) <= rate * (1.0 + 1e-9)
+                        || !fits_with(cands, snapshot, Some(k), c, dwell_s)
+                    {
+                        return None;
+                    }
+                    let r = info.with(&base, snapshot.len() - 1, c, work) / (rest + cost(c));
+                    (r > rate * (1.0 + 1e-9)).then_some((c, r))
+                },
+            )
+            .collect::<Vec<_>>()
+            .into_iter()
+            .flatten()
+            .fold(None, |acc: Option<(usize, f64)>, (c, r)| match acc {
+                Some((bc, br))
+                    if br > r * (1.0 + 1e-12)
+                        || (br >= r * (1.0 - 1e-12) && !goes_before(cands, c, bc)) =>
+                {
+                    Some((bc, br))
+                }
+                _ => Some((c, r)),
+            });
+        match best {
+            Some((c, r)) => {
+                set[k] = c;
+                rate = r;
+                since = 0;
+                steps_left -= 1;
+            }
+            None => since += 1,
+        }
+        k = (k + 1) % set.len();
+    }
+    rate
+}
+
 /// Choose up to `n` visits among `cands` (instant, BJD_TDB, tie rank, cost
-/// in seconds) for the stars of one pointing, all of them together: greedily
-/// the candidate that adds the most to the field's information, the sum over
-/// the stars of their weights 1/(σ_PL² + σm̄²) (σm̄ from the Fourier fit of
-/// `harmonics` terms to their phases, each point of error
-/// `sigma_point_mag`), per second of telescope time (a moonlit night, whose
-/// exposures are longer, must add more to be taken). A star whose phases
-/// cover only part of its cycle has a large σm̄ and a weight near 0, so a
-/// visit that reaches its missing phases is worth more than one that adds a
-/// point to a star already well fixed: the long-period stars pull the visits
-/// apart in time. Until the phases can fix any star's series (fewer than
-/// 2K + 1 points) the candidate filling the most (star, bin) cells still
-/// empty (`bins` bins per star) per second is taken. Ties go to the lower
-/// rank, then the earlier; candidates closer than `dwell_s` to a chosen one
-/// are dropped. Stops when `n` are chosen or no candidate adds information
-/// or a cell. The result is in time order.
+/// in seconds: the visit's own length at that instant, so a low or moonlit
+/// instant costs what its exposure does) for the stars of one pointing, all
+/// of them together, for the most field information per second of
+/// telescope time. The field's information is the sum over its stars of
+/// their weights 1/(σ_PL² + σm̄²) (σm̄ from the Fourier fit of `harmonics`
+/// terms to their phases, each point of error `sigma_point_mag`): a star
+/// whose phases cover only part of its cycle has a large σm̄ and a weight
+/// near 0, so the long-period stars pull the visits apart in time, and the
+/// seconds in the denominator keep them off costly instants where cheaper
+/// ones reach the same phases.
+///
+/// The visits are chosen together, not one at a time: two starting sets,
+/// (1) grown one visit at a time (the candidate adding the most information
+/// per second; until the phases can fix a series, fewer than 2K + 1 points,
+/// the most (star, bin) cells still empty, `bins` bins per star, per
+/// second) and (2) the cheapest candidate in each of `n` equal parts of the
+/// candidates' time span (then grown to `n` if some parts have none), are
+/// each improved by exchange steps (one visit replaced by another candidate
+/// while that raises Σ weights / Σ seconds), and the better is kept (ties:
+/// the first). Candidates with a cost that is not finite cannot be chosen.
+/// Ties go to the cheaper candidate, then the lower rank, then the earlier;
+/// no two visits are closer than `dwell_s`. The result is in time order.
 #[allow(clippy::too_many_arguments)]
 pub fn choose_visits(
     cands: &[(Instant, Bjd, f64, f64)],
@@ -988,90 +1316,64 @@ pub fn choose_visits(
     n: usize,
     dwell_s: f64,
 ) -> Vec<usize> {
-    use rayon::prelude::*;
-    let phase_of =
-        |bjd: &Bjd, s: &ChooserStar| frac_phase(bjd.days_since(s.epoch_bjd) / s.period_d);
-    let phases: Vec<Vec<f64>> = cands
-        .iter()
-        .map(|(_, b, _, _)| stars.iter().map(|s| phase_of(b, s)).collect())
+    if cands.is_empty() || stars.is_empty() || n == 0 {
+        return Vec::new();
+    }
+    let info = Info::new(cands, stars, bins, harmonics, sigma_point_mag);
+    // (1) Grown one at a time.
+    let mut grown = Vec::new();
+    grow(&info, cands, &mut grown, n, bins, dwell_s);
+    let rate_grown = exchange(&info, cands, &mut grown, dwell_s);
+    // (2) Spread: the cheapest of each part of the span.
+    let usable: Vec<usize> = (0..cands.len())
+        .filter(|c| cands[*c].3.is_finite())
         .collect();
-    let bin_of = |x: f64| ((x * bins as f64) as usize).min(bins - 1);
-    let mut covered = vec![vec![false; bins]; stars.len()];
-    let mut taken: Vec<Vec<f64>> = vec![Vec::new(); stars.len()];
-    let mut weight = vec![0.0; stars.len()];
-    let mut alive = vec![true; cands.len()];
-    let mut chosen: Vec<usize> = Vec::new();
-    while chosen.len() < n {
-        // Per candidate: (information added, cells filled).
-        let gains: Vec<(f64, usize)> = phases
-            .par_iter()
-            .enumerate()
-            .map(|(c, ph)| {
-                if !alive[c] {
-                    return (0.0, 0);
-                }
-                let cells = ph
-                    .iter()
-                    .enumerate()
-                    .filter(|(s, x)| !covered[*s][bin_of(**x)])
-                    .count();
-                let mut info = 0.0;
-                let mut buf = Vec::new();
-                for (s, x) in ph.iter().enumerate() {
-                    // Too few points to fix any series even with this one.
-                    if taken[s].len() + 1 < 2 * harmonics + 1 {
-                        continue;
-                    }
-                    buf.clear();
-                    buf.extend_from_slice(&taken[s]);
-                    buf.push(*x);
-                    let w = chooser_weight(&buf, sigma_point_mag, harmonics, stars[s].scatter_mag);
-                    info += (w - weight[s]).max(0.0);
-                }
-                (info, cells)
-            })
-            .collect();
-        let total: f64 = weight.iter().sum();
-        let by_info = gains
-            .iter()
-            .any(|(g, _)| *g > 1e-9 * total.max(f64::MIN_POSITIVE));
-        let mut best: Option<(usize, f64)> = None;
-        for (c, (info, cells)) in gains.iter().enumerate() {
-            if !alive[c] {
-                continue;
-            }
-            let gain = if by_info { *info } else { *cells as f64 };
-            if gain <= 0.0 {
-                continue;
-            }
-            let score = gain / cands[c].3.max(1.0);
-            let better = match best {
-                None => true,
-                Some((bc, bs)) => {
-                    score > bs * (1.0 + 1e-12)
-                        || (score >= bs * (1.0 - 1e-12)
-                            && (cands[c].2 < cands[bc].2
-                                || (cands[c].2 == cands[bc].2 && cands[c].0 < cands[bc].0)))
-                }
-            };
-            if better {
-                best = Some((c, score));
-            }
-        }
-        let Some((c, _)) = best else { break };
-        for (s, x) in phases[c].iter().enumerate() {
-            covered[s][bin_of(*x)] = true;
-            taken[s].push(*x);
-            weight[s] = chooser_weight(&taken[s], sigma_point_mag, harmonics, stars[s].scatter_mag);
-        }
-        chosen.push(c);
-        let t = cands[c].0;
-        for (k, a) in alive.iter_mut().enumerate() {
-            if *a && cands[k].0.seconds_since(&t).abs() < dwell_s {
-                *a = false;
+    let mut spread: Vec<usize> = Vec::new();
+    if let (Some(first), Some(last)) = (
+        usable.iter().min_by(|a, b| {
+            cands[**a]
+                .0
+                .partial_cmp(&cands[**b].0)
+                .unwrap_or(std::cmp::Ordering::Equal)
+        }),
+        usable.iter().max_by(|a, b| {
+            cands[**a]
+                .0
+                .partial_cmp(&cands[**b].0)
+                .unwrap_or(std::cmp::Ordering::Equal)
+        }),
+    ) {
+        let t0 = cands[*first].0;
+        let span_s = cands[*last].0.seconds_since(&t0);
+        for part in 0..n {
+            let lo = span_s * part as f64 / n as f64;
+            let hi = span_s * (part + 1) as f64 / n as f64;
+            let pick = usable
+                .iter()
+                .copied()
+                .filter(|c| {
+                    let x = cands[*c].0.seconds_since(&t0);
+                    x >= lo && (x < hi || (part + 1 == n && x <= hi))
+                })
+                .filter(|c| fits_with(cands, &spread, None, *c, dwell_s))
+                .fold(None, |acc: Option<usize>, c| match acc {
+                    Some(b) if !goes_before(cands, c, b) => Some(b),
+                    _ => Some(c),
+                });
+            if let Some(c) = pick {
+                spread.push(c);
             }
         }
     }
+    grow(&info, cands, &mut spread, n, bins, dwell_s);
+    let rate_spread = exchange(&info, cands, &mut spread, dwell_s);
+    let mut chosen = if spread.len() > grown.len()
+        || (spread.len() == grown.len() && rate_spread > rate_grown * (1.0 + 1e-12))
+    {
+        spread
+    } else {
+        grown
+    };
     chosen.sort_by(|a, b| {
         cands[*a]
             .0
@@ -1369,18 +1671,20 @@ impl<'a> FieldPlanner<'a> {
         Night::shared_range(fs.site, fs.from, to)
     }
 
-    /// Each candidate's cost (s): the visit at the best candidate of its
-    /// night (rank 0), sized for the pointing's faintest star at `snr`
-    /// without the frames split for the brightest; `dwell_s` where that fails.
+    /// Each candidate's cost (s): the visit at that instant (its airmass,
+    /// its Moon), sized for the pointing's faintest star at `snr` without the
+    /// frames split for the brightest, with the overheads; not finite where
+    /// it cannot be exposed (the chooser then passes it by). When no
+    /// candidate can be exposed every one costs `dwell_s`, so that the
+    /// visits are still placed and say why they cannot be exposed.
     #[allow(clippy::too_many_arguments)]
-    fn night_costs(
+    fn candidate_costs(
         &self,
         fs: &FieldSetting,
         em: &dyn ExposureModel,
         prep: &Prepared,
         p: &PointingIdx,
         cands: &[Candidate],
-        ranks: &[f64],
         snr: f64,
         dwell_s: f64,
     ) -> Vec<f64> {
@@ -1397,35 +1701,27 @@ impl<'a> FieldPlanner<'a> {
                 Some((m.star.band.as_str(), m.faint_mag, &m.star.place))
             })
             .collect();
-        let best: Vec<(usize, f64)> = (0..cands.len())
-            .into_par_iter()
-            .filter(|i| ranks[*i] == 0.0)
-            .map(|i| {
-                let cost = Context::exact(fs.site, cands[i].t).ok().and_then(|ctx| {
-                    let mut s = em.visit_overhead_s();
-                    for (band, mag, place) in &faint {
-                        let (t, n) = em.exptime(*mag, band, snr, &ctx, place).ok()?;
-                        s += t + n as f64 * em.readout_s();
-                    }
-                    Some(s)
-                });
-                (i, cost.unwrap_or(dwell_s))
+        let out: Vec<f64> = cands
+            .par_iter()
+            .map(|c| {
+                Context::exact(fs.site, c.t)
+                    .ok()
+                    .and_then(|ctx| {
+                        let mut s = em.visit_overhead_s();
+                        for (band, mag, place) in &faint {
+                            let (t, n) = em.exptime(*mag, band, snr, &ctx, place).ok()?;
+                            s += t + n as f64 * em.readout_s();
+                        }
+                        Some(s)
+                    })
+                    .unwrap_or(f64::INFINITY)
             })
             .collect();
-        // Every candidate takes the cost of its night's best one.
-        let mut out = vec![dwell_s; cands.len()];
-        let mut k = 0;
-        for (i, c) in cands.iter().enumerate() {
-            while k + 1 < best.len() && cands[best[k + 1].0].t <= c.t {
-                k += 1;
-            }
-            // The night's best is within a day of each of its candidates.
-            let near = |j: usize| cands[best[j].0].t.seconds_since(&c.t).abs() < 0.75 * 86_400.0;
-            if let Some(j) = [k, k + 1].into_iter().find(|j| *j < best.len() && near(*j)) {
-                out[i] = best[j].1;
-            }
+        if out.iter().any(|c| c.is_finite()) {
+            out
+        } else {
+            vec![dwell_s; cands.len()]
         }
-        out
     }
 
     /// The visits of every pointing: `n` per pointing at per-point SNR `snr`
@@ -1482,10 +1778,9 @@ impl<'a> FieldPlanner<'a> {
                 let cands =
                     candidates(fs.site, &centre, &nights[..span], &fs.limits, dwell_s, step);
                 let ranks = tie_ranks(&cands);
-                // A visit's cost on each night: the faintest star's exposure at
-                // the night's best candidate (the Moon and the airmass of that
-                // night), with the overheads.
-                let costs = self.night_costs(fs, em, prep, p, &cands, &ranks, snr, dwell_s);
+                // A visit's cost at each candidate: the faintest star's
+                // exposure there (its airmass and Moon), with the overheads.
+                let costs = self.candidate_costs(fs, em, prep, p, &cands, snr, dwell_s);
                 let flat: Vec<(Instant, Bjd, f64, f64)> = cands
                     .iter()
                     .zip(&ranks)
