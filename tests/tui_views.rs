@@ -1310,9 +1310,10 @@ fn the_budget_view_says_an_observed_calibrator_is_no_goal() {
 }
 
 /// The Phase view's note line shows the first of a field's notes and says
-/// how many more there are; `m` opens them all, wrapped whole, so the note
-/// naming the long-period stars the visits leave weightless (as
-/// `rung phase --field LPO-G1` prints it) is reachable at 80x24.
+/// how many more there are; `m` opens them all, wrapped whole, so the
+/// longest of them (as `rung phase --field LPO-G1` prints it; over a range
+/// too short for the visits to span the longest periods, the note naming
+/// the stars left with part of their cycle) is reachable at 80x24.
 #[test]
 fn phase_view_reaches_every_note_of_a_field() {
     let targets = demo_targets();
@@ -1322,9 +1323,11 @@ fn phase_view_reaches_every_note_of_a_field() {
     let long = r
         .notes
         .iter()
-        .find(|n| n.contains("longer than its visits' span"))
-        .expect("the long-period note")
+        .max_by_key(|n| n.chars().count())
+        .expect("the field's notes")
         .clone();
+    // Longer than the window is wide: it must wrap to be read whole.
+    assert!(long.chars().count() > 80, "{long}");
     let n = r.cautions.len() + r.notes.len();
     assert!(n > 1);
     let mut s = demo_state((80, 24));
