@@ -1295,7 +1295,9 @@ fn exchange(
 /// seconds in the denominator keep them off costly instants where cheaper
 /// ones reach the same phases.
 ///
-/// The visits are chosen together, not one at a time: two starting sets,
+/// The visits are chosen together, not one at a time, by exchange steps as
+/// in the exchange algorithms of optimal experimental design (Fedorov 1972,
+/// Theory of Optimal Experiments; quoted from memory): two starting sets,
 /// (1) grown one visit at a time (the candidate adding the most information
 /// per second; until the phases can fix a series, fewer than 2K + 1 points,
 /// the most (star, bin) cells still empty, `bins` bins per star, per
