@@ -117,6 +117,15 @@ pub struct Context {
     tdb_minus_tt_s: Option<f64>,
 }
 
+/// Contexts kept per thread by [`Context::exact`] (about 1 kB each); the
+/// cache is emptied when full.
+const EXACT_CACHE_LEN: usize = 4096;
+
+thread_local! {
+    static EXACT_CACHE: std::cell::RefCell<std::collections::HashMap<[u64; 8], Context>> =
+        std::cell::RefCell::new(std::collections::HashMap::new());
+}
+
 fn site_refraction(site: &Site) -> (f64, f64, f64, f64) {
     (
         site.pressure_hpa(),
@@ -128,7 +137,40 @@ fn site_refraction(site: &Site) -> (f64, f64, f64, f64) {
 
 impl Context {
     /// Full SOFA chain at this instant (`apco13`, DUT1 = 0, no polar motion).
+    ///
+    /// The answer is a pure function of the site's place and weather and of
+    /// the instant, so each thread keeps the last few thousand it computed
+    /// (keyed by the exact bits of both) and hands the same context back when
+    /// asked again: the scheduler's fill asks the same method prediction with
+    /// one epoch more, night after night, and every earlier epoch's context
+    /// is then computed once instead of once per night.
     pub fn exact(site: &Site, t: Instant) -> Result<Self> {
+        let key = [
+            site.lat_deg.to_bits(),
+            site.lon_deg.to_bits(),
+            site.elev_m.to_bits(),
+            site.pressure_hpa().to_bits(),
+            site.temperature_c.to_bits(),
+            site.humidity.to_bits(),
+            t.utc1.to_bits(),
+            t.utc2.to_bits(),
+        ];
+        if let Some(c) = EXACT_CACHE.with(|c| c.borrow().get(&key).copied()) {
+            return Ok(c);
+        }
+        let c = Self::exact_uncached(site, t)?;
+        EXACT_CACHE.with(|cache| {
+            let mut cache = cache.borrow_mut();
+            if cache.len() >= EXACT_CACHE_LEN {
+                cache.clear();
+            }
+            cache.insert(key, c);
+        });
+        Ok(c)
+    }
+
+    /// [`Self::exact`] without the cache.
+    fn exact_uncached(site: &Site, t: Instant) -> Result<Self> {
         // SOFA apco13 unwraps epv00, which has no answer outside 1900-2100: never
         // let an out-of-span instant reach it.
         t.check_span()?;

@@ -157,33 +157,42 @@ pub fn check(p: &Problem, sol: &[Placement]) -> Result<(), String> {
 }
 
 /// Subtract the open interval `(a, b)` from a sorted list of closed
-/// intervals (a closed interval may be a single start).
-fn subtract(ivs: &mut Vec<(f64, f64)>, a: f64, b: f64) {
+/// intervals (a closed interval may be a single start); `tmp` is scratch.
+fn subtract(ivs: &mut Vec<(f64, f64)>, tmp: &mut Vec<(f64, f64)>, a: f64, b: f64) {
     if b <= a {
         return;
     }
-    let mut out = Vec::with_capacity(ivs.len() + 1);
+    // Nothing to cut: the list stays as it is (no copy).
+    if !ivs.iter().any(|&(x, y)| !(b <= x || a >= y)) {
+        return;
+    }
+    tmp.clear();
     for &(x, y) in ivs.iter() {
         if b <= x || a >= y {
-            out.push((x, y));
+            tmp.push((x, y));
             continue;
         }
         // The ends of the open interval stay: a start exactly at a busy
         // visit's end (or ending exactly at its start) fits.
         if a >= x {
-            out.push((x, a));
+            tmp.push((x, a));
         }
         if b <= y {
-            out.push((b, y));
+            tmp.push((b, y));
         }
     }
-    *ivs = out;
+    std::mem::swap(ivs, tmp);
 }
 
 /// A visit on a night: (start, end, target, `Some(item)` or `None` for a fixed visit).
 type Busy = (f64, f64, usize, Option<usize>);
 
 /// State of a packing in progress.
+///
+/// Every question the passes ask (the feasible starts of an item, the items
+/// in the way of another) reads only the night and the target concerned, and
+/// every undo puts back only the items that moved, so a pass costs in
+/// proportion to the items it touches, not to the whole problem.
 struct Board<'a> {
     p: &'a Problem,
     used: Vec<f64>,
@@ -191,7 +200,12 @@ struct Board<'a> {
     busy: Vec<Vec<Busy>>,
     /// Per target: mid-times of its visits.
     mids: Vec<Vec<f64>>,
+    /// Per target: its placed items.
+    of_target: Vec<Vec<usize>>,
     placed: Vec<Option<f64>>,
+    /// Scratch for [`Board::starts`] (its answer) and [`subtract`].
+    ivs: Vec<(f64, f64)>,
+    tmp: Vec<(f64, f64)>,
 }
 
 impl<'a> Board<'a> {
@@ -201,7 +215,10 @@ impl<'a> Board<'a> {
             used: vec![0.0; p.capacity_s.len()],
             busy: vec![Vec::new(); p.capacity_s.len()],
             mids: vec![Vec::new(); p.spacing_s.len()],
+            of_target: vec![Vec::new(); p.spacing_s.len()],
             placed: vec![None; p.items.len()],
+            ivs: Vec::new(),
+            tmp: Vec::new(),
         };
         for f in &p.fixed {
             b.used[f.night] += f.end_s - f.start_s;
@@ -212,21 +229,24 @@ impl<'a> Board<'a> {
     }
 
     /// Feasible starts of item `i` (closed intervals, sorted), ignoring
-    /// `skip` (an item being moved).
-    fn starts(&self, i: usize, skip: Option<usize>) -> Vec<(f64, f64)> {
+    /// `skip` (an item being moved), into `self.ivs`.
+    fn starts(&mut self, i: usize, skip: Option<usize>) {
         let it = &self.p.items[i];
-        let mut ivs: Vec<(f64, f64)> = it
-            .windows
-            .iter()
-            .filter(|w| w.1 - w.0 >= it.dur_s)
-            .map(|w| (w.0, w.1 - it.dur_s))
-            .collect();
+        let ivs = &mut self.ivs;
+        let tmp = &mut self.tmp;
+        ivs.clear();
+        ivs.extend(
+            it.windows
+                .iter()
+                .filter(|w| w.1 - w.0 >= it.dur_s)
+                .map(|w| (w.0, w.1 - it.dur_s)),
+        );
         ivs.sort_by(|a, b| a.0.total_cmp(&b.0));
         for &(s, e, _, who) in &self.busy[it.night] {
             if who.is_some() && who == skip {
                 continue;
             }
-            subtract(&mut ivs, s - it.dur_s, e);
+            subtract(ivs, tmp, s - it.dur_s, e);
         }
         let sp = self.p.spacing_s[it.target];
         if sp > 0.0 {
@@ -239,10 +259,9 @@ impl<'a> Board<'a> {
                     skipped = true;
                     continue;
                 }
-                subtract(&mut ivs, m - sp - half, m + sp - half);
+                subtract(ivs, tmp, m - sp - half, m + sp - half);
             }
         }
-        ivs
     }
 
     fn fits_capacity(&self, i: usize, skip: Option<usize>) -> bool {
@@ -252,12 +271,13 @@ impl<'a> Board<'a> {
     }
 
     /// The feasible start nearest `target_s`.
-    fn nearest(&self, i: usize, target_s: f64, skip: Option<usize>) -> Option<f64> {
+    fn nearest(&mut self, i: usize, target_s: f64, skip: Option<usize>) -> Option<f64> {
         if !self.fits_capacity(i, skip) {
             return None;
         }
+        self.starts(i, skip);
         let mut best: Option<(f64, f64)> = None;
-        for (a, b) in self.starts(i, skip) {
+        for &(a, b) in &self.ivs {
             let s = target_s.clamp(a, b);
             let d = (s - target_s).abs();
             if best.is_none_or(|(bd, _)| d < bd) {
@@ -272,6 +292,7 @@ impl<'a> Board<'a> {
         self.used[it.night] += it.dur_s;
         self.busy[it.night].push((s, s + it.dur_s, it.target, Some(i)));
         self.mids[it.target].push(s + it.dur_s / 2.0);
+        self.of_target[it.target].push(i);
         self.placed[i] = Some(s);
     }
 
@@ -281,52 +302,66 @@ impl<'a> Board<'a> {
             return;
         };
         self.used[it.night] -= it.dur_s;
-        self.busy[it.night].retain(|b| b.3 != Some(i));
+        if let Some(k) = self.busy[it.night].iter().position(|b| b.3 == Some(i)) {
+            self.busy[it.night].remove(k);
+        }
         let m = s + it.dur_s / 2.0;
         if let Some(k) = self.mids[it.target].iter().position(|x| *x == m) {
             self.mids[it.target].remove(k);
+        }
+        if let Some(k) = self.of_target[it.target].iter().position(|&x| x == i) {
+            self.of_target[it.target].remove(k);
+        }
+    }
+
+    /// The placed items of `night` with their starts (the state
+    /// [`Board::put_back`] restores after [`Board::justify`]).
+    fn on_night(&self, night: usize, out: &mut Vec<(f64, usize)>) {
+        out.clear();
+        out.extend(
+            self.busy[night]
+                .iter()
+                .filter_map(|b| b.3.map(|i| (b.0, i))),
+        );
+    }
+
+    /// Put the items of `saved` (from [`Board::on_night`]) back at their starts.
+    fn put_back(&mut self, saved: &[(f64, usize)]) {
+        let moved = |b: &Board, &(s, i): &(f64, usize)| b.placed[i] != Some(s);
+        for x in saved {
+            if moved(self, x) {
+                self.take(x.1);
+            }
+        }
+        for &(s, i) in saved {
+            if self.placed[i].is_none() {
+                self.put(i, s);
+            }
         }
     }
 
     /// Move every placed item of `night` as far towards `left` (or right)
     /// as its windows and neighbours allow, in order, so free time gathers
     /// at the other end and between windows.
-    fn justify(&mut self, night: usize, left: bool) {
-        let mut on: Vec<(f64, usize)> = self.busy[night]
-            .iter()
-            .filter_map(|b| b.3.map(|i| (b.0, i)))
-            .collect();
+    fn justify(&mut self, night: usize, left: bool, on: &mut Vec<(f64, usize)>) {
+        self.on_night(night, on);
         on.sort_by(|a, b| a.0.total_cmp(&b.0));
         if !left {
             on.reverse();
         }
-        for (_, i) in on {
+        for &(_, i) in on.iter() {
             let Some(s0) = self.placed[i] else { continue };
             // The far end, on the side asked, of the free run the item sits in.
+            self.starts(i, Some(i));
             let near = self
-                .starts(i, Some(i))
-                .into_iter()
+                .ivs
+                .iter()
                 .find(|(a, b)| *a <= s0 + 1e-9 && s0 <= *b + 1e-9)
-                .map(|(a, b)| if left { a } else { b });
+                .map(|&(a, b)| if left { a } else { b });
             if let Some(s) = near {
                 self.take(i);
                 self.put(i, s);
             }
-        }
-    }
-}
-
-/// Put `board` back to the placements `saved`.
-fn restore(board: &mut Board, saved: &[Option<f64>]) {
-    let moved: Vec<usize> = (0..saved.len())
-        .filter(|&k| board.placed[k] != saved[k])
-        .collect();
-    for &k in &moved {
-        board.take(k);
-    }
-    for &k in &moved {
-        if let Some(s) = saved[k] {
-            board.put(k, s);
         }
     }
 }
@@ -339,19 +374,13 @@ const EXCHANGE_PASSES: usize = 3;
 /// night, or of its target), which then tries its own group's items again;
 /// the exchange is kept when the summed value grows.
 fn exchange(p: &Problem, groups: &[(usize, Vec<usize>)], board: &mut Board) {
-    let value_now = |b: &Board| -> f64 {
-        b.placed
-            .iter()
-            .enumerate()
-            .filter(|(_, s)| s.is_some())
-            .map(|(i, _)| p.items[i].value)
-            .sum()
-    };
-    let group_of: std::collections::HashMap<usize, usize> = groups
-        .iter()
-        .enumerate()
-        .flat_map(|(gi, (_, items))| items.iter().map(move |&i| (i, gi)))
-        .collect();
+    let mut group_of = vec![usize::MAX; p.items.len()];
+    for (gi, (_, items)) in groups.iter().enumerate() {
+        for &i in items {
+            group_of[i] = gi;
+        }
+    }
+    let mut blockers: Vec<usize> = Vec::new();
     for _ in 0..EXCHANGE_PASSES {
         let mut gained = false;
         for (_, items) in groups {
@@ -363,41 +392,53 @@ fn exchange(p: &Problem, groups: &[(usize, Vec<usize>)], board: &mut Board) {
                 if it.value <= 0.0 {
                     continue;
                 }
-                let mut blockers: Vec<usize> = (0..p.items.len())
-                    .filter(|&k| {
-                        board.placed[k].is_some()
-                            && (p.items[k].night == it.night || p.items[k].target == it.target)
-                    })
-                    .collect();
+                // The placed items on its night or of its target.
+                blockers.clear();
+                blockers.extend(board.busy[it.night].iter().filter_map(|b| b.3));
+                blockers.extend(
+                    board.of_target[it.target]
+                        .iter()
+                        .copied()
+                        .filter(|&k| p.items[k].night != it.night),
+                );
                 blockers.sort_by(|a, b| {
                     p.items[*a]
                         .value
                         .total_cmp(&p.items[*b].value)
                         .then(a.cmp(b))
                 });
-                for k in blockers {
-                    let before = value_now(board);
-                    let saved = board.placed.clone();
+                for &k in &blockers {
+                    let Some(k_start) = board.placed[k] else {
+                        continue;
+                    };
                     board.take(k);
                     let Some(s) = board.nearest(i, it.pref_s, None) else {
-                        restore(board, &saved);
+                        board.put(k, k_start);
                         continue;
                     };
                     board.put(i, s);
-                    let gk = group_of[&k];
-                    for &j in &groups[gk].1 {
+                    // The group taken out tries its items again.
+                    let mut again = None;
+                    for &j in &groups[group_of[k]].1 {
                         if p.items[j].value > 0.0
                             && let Some(s) = board.nearest(j, p.items[j].pref_s, None)
                         {
                             board.put(j, s);
+                            again = Some(j);
                             break;
                         }
                     }
-                    if value_now(board) > before + 1e-9 {
+                    let gain =
+                        it.value + again.map_or(0.0, |j| p.items[j].value) - p.items[k].value;
+                    if gain > 1e-9 {
                         gained = true;
                         break 'alts;
                     }
-                    restore(board, &saved);
+                    if let Some(j) = again {
+                        board.take(j);
+                    }
+                    board.take(i);
+                    board.put(k, k_start);
                 }
             }
         }
@@ -451,6 +492,7 @@ pub fn pack(p: &Problem) -> Vec<Placement> {
         }
     }
     // Second pass: justify the nights an open group could use and try again.
+    let (mut saved, mut on) = (Vec::new(), Vec::new());
     for gi in open {
         let items = &groups[gi].1;
         'alts: for &i in items {
@@ -459,24 +501,15 @@ pub fn pack(p: &Problem) -> Vec<Placement> {
             }
             let night = p.items[i].night;
             for left in [true, false] {
-                let saved: Vec<Option<f64>> = board.placed.clone();
-                board.justify(night, left);
+                // Justifying moves only the items of this night.
+                board.on_night(night, &mut saved);
+                board.justify(night, left, &mut on);
                 if let Some(s) = board.nearest(i, p.items[i].pref_s, None) {
                     board.put(i, s);
                     break 'alts;
                 }
                 // Put the night back as it was.
-                let moved: Vec<usize> = (0..p.items.len())
-                    .filter(|&k| board.placed[k] != saved[k])
-                    .collect();
-                for &k in &moved {
-                    board.take(k);
-                }
-                for &k in &moved {
-                    if let Some(s) = saved[k] {
-                        board.put(k, s);
-                    }
-                }
+                board.put_back(&saved);
             }
         }
     }
