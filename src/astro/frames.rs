@@ -117,12 +117,14 @@ pub struct Context {
     tdb_minus_tt_s: Option<f64>,
 }
 
-/// Contexts kept per thread by [`Context::exact`] (about 1 kB each); the
-/// cache is emptied when full.
+/// Contexts kept per thread by [`Context::exact`] (about 1 kB each), and
+/// Moon positions by [`Context::moon_geo_pv`]; each cache is emptied when full.
 const EXACT_CACHE_LEN: usize = 4096;
 
 thread_local! {
     static EXACT_CACHE: std::cell::RefCell<std::collections::HashMap<[u64; 8], Context>> =
+        std::cell::RefCell::new(std::collections::HashMap::new());
+    static MOON_CACHE: std::cell::RefCell<std::collections::HashMap<[u64; 2], [[f64; 3]; 2]>> =
         std::cell::RefCell::new(std::collections::HashMap::new());
 }
 
@@ -334,7 +336,22 @@ impl Context {
         if let Some(pv) = self.moon_pv {
             return pv;
         }
-        sofars::eph::moon98(self.tt.0, self.tt.1)
+        // A pure function of TT, asked again and again for the same
+        // instants (each exposure a method tries at one epoch needs the
+        // Moon's sky): each thread keeps the last few thousand.
+        let key = [self.tt.0.to_bits(), self.tt.1.to_bits()];
+        if let Some(pv) = MOON_CACHE.with(|c| c.borrow().get(&key).copied()) {
+            return pv;
+        }
+        let pv = sofars::eph::moon98(self.tt.0, self.tt.1);
+        MOON_CACHE.with(|cache| {
+            let mut cache = cache.borrow_mut();
+            if cache.len() >= EXACT_CACHE_LEN {
+                cache.clear();
+            }
+            cache.insert(key, pv);
+        });
+        pv
     }
 
     /// Topocentric observed place of the Moon's centre (SOFA `moon98`), corrected
