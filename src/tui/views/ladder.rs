@@ -130,10 +130,10 @@ pub fn hours_line(r: &LadderReport) -> String {
     let mut parts: Vec<String> = r
         .hours_by_rung
         .iter()
-        .map(|h| format!("{} {} h", h.rung.text(), n(h.hours, 1)))
+        .map(|h| format!("{} {}", h.rung.text(), n(h.hours, 1)))
         .collect();
     if r.pulsator_hours > 0.0 {
-        parts.push(format!("pulsators {} h", n(r.pulsator_hours, 1)));
+        parts.push(format!("pulsators {}", n(r.pulsator_hours, 1)));
     }
     let total: f64 = r.hours_by_rung.iter().map(|h| h.hours).sum::<f64>() + r.pulsator_hours;
     format!("Hours: {} = {} h", parts.join(" · "), n(total, 1))
