@@ -335,3 +335,57 @@ fn the_budget_of_a_small_programme_allocates_the_exhaustive_optimum() {
         }
     }
 }
+
+/// Many goals of the same weight sharing few nights, calibrations as large
+/// as the goals' own hours (the shape of a large programme: the nights'
+/// calibrations decide which goals go together): the allocation and every
+/// step of the curve are the exhaustive optimum, and proven.
+#[test]
+fn equal_weights_sharing_nights_are_the_exhaustive_optimum() {
+    let mut r = Rng(0x5a3e_d0a7_11e5_0007);
+    for case in 0..40 {
+        let n = 8 + r.below(7);
+        let n_nights = 3 + r.below(6);
+        let nights: Vec<NightCost> = (0..n_nights)
+            .map(|_| NightCost {
+                semester: 0,
+                hours: 0.3 + 0.4 * r.next(),
+            })
+            .collect();
+        let items: Vec<Item> = (0..n)
+            .map(|_| {
+                let mut ns: Vec<usize> = (0..1 + r.below(3)).map(|_| r.below(n_nights)).collect();
+                ns.sort_unstable();
+                ns.dedup();
+                Item {
+                    // Mostly weight 1, a few of 2 (common practice: a few priority levels).
+                    weight: if r.next() < 0.2 { 2.0 } else { 1.0 },
+                    hours: vec![0.4 + 0.2 * r.next()],
+                    nights: ns,
+                }
+            })
+            .collect();
+        let p = Problem {
+            items,
+            nights,
+            semesters: 1,
+        };
+        let total: f64 = p.cost(&(0..n).collect::<Vec<_>>()).iter().sum();
+        let st = steps(&p);
+        for s in &st {
+            assert!(s.proven_optimal, "case {case}");
+            let e = exhaustive(&p, &Capacity::Total(s.hours));
+            assert!((e.weight - s.weight).abs() < 1e-9, "case {case}");
+            let before = exhaustive(&p, &Capacity::Total(s.hours - 1e-6));
+            assert!(before.weight < s.weight - 1e-9, "case {case}");
+        }
+        for k in 0..12 {
+            let cap = Capacity::Total(total * k as f64 / 11.0);
+            let a = allocate(&p, &cap);
+            let e = exhaustive(&p, &cap);
+            assert!(a.proven_optimal, "case {case}");
+            assert!((a.weight - e.weight).abs() < 1e-9, "case {case}");
+            assert!((a.hours - e.hours).abs() < 1e-6, "case {case}");
+        }
+    }
+}

@@ -21,15 +21,46 @@
 //!
 //! # The method
 //!
-//! Depth-first branch and bound, items in order of weight per hour (Martello &
-//! Toth, *Knapsack Problems*, 1990, ch. 2: the bound of Dantzig's fractional
-//! relaxation). A set's true cost is at least the sum of its items' own hours
-//! (calibrations only add), so the fractional bound over the items' own hours
-//! is a valid upper bound on the weight still reachable, and the search is
-//! exact. It runs in two passes: the largest weight within the hours, then the
-//! fewest hours that still give that weight (a covering search bounded the
-//! same way). A search that passes [`NODE_LIMIT`] nodes stops with the best set
-//! found and says it is not proven optimal.
+//! Depth-first branch and bound, items in order of weight per own hour, the
+//! item taken before it is left out (Martello & Toth, *Knapsack Problems*,
+//! 1990, ch. 2, from memory). It runs in two passes: the largest weight
+//! within the hours, then the fewest hours that still give that weight (a
+//! covering search). A branch is pruned when a bound shows it cannot beat
+//! the incumbent; the bounds are tried cheapest first, and each is valid on
+//! its own, so the search is exact:
+//!
+//! 1. Dantzig's fractional relaxation over the items' own hours (a set's
+//!    true cost is at least the sum of its items' own hours: calibrations
+//!    only add).
+//! 2. Shares of the calibrations: each undecided item is charged, besides
+//!    its own hours, k_n / min(d_n, m) for each of its nights not yet used,
+//!    d_n the night's undecided users and m the most items a set can still
+//!    take within the hours. Over any set the shares sum to at most the
+//!    calibrations it adds (a night adds k_n once and has at most
+//!    min(d_n, m) users in the set), so the fractional relaxation over
+//!    these costs is a bound.
+//! 3. The linear relaxation of the whole problem, calibrations included.
+//!    For a slope θ ≥ 0, the set B of undecided items that minimises
+//!    cost(B) − θ·weight(B) is a closure problem (an item needs its
+//!    nights), solved as a minimum cut (Picard 1976; the maximum flow by
+//!    Dinic's method; Ahuja, Magnanti & Orlin, *Network Flows*, 1993,
+//!    ch. 7 and 19; all from memory). Each θ gives a Lagrangian bound (for
+//!    the covering search θ·need + min_B (cost(B) − θ·weight(B)); for the
+//!    weight search weight(B) + (room − cost(B)) / θ), and the θ walked
+//!    along the lower convex hull of the points (weight(B), cost(B)) reach
+//!    the relaxation's value. On the budget's programmes (goals of a few
+//!    priorities whose calibrations are as large as their own hours) this
+//!    relaxation is nearly always the optimum or within a fraction of a goal
+//!    of it, where the first two bounds leave the search exponential.
+//!
+//! With whole weights (priorities) the weight still needed is rounded up,
+//! and the weight still reachable down. A set found by a cut that beats the
+//! incumbent is kept as a witness: the branches whose decisions agree with
+//! it cannot be pruned, and get no bound. A bound removes only branches
+//! that hold no set better than the incumbent, so the sets chosen are the
+//! ones the search without these bounds chooses (the first best in the
+//! search's order), in fewer nodes. A search that passes [`NODE_LIMIT`]
+//! nodes stops with the best set found and says it is not proven optimal.
 //!
 //! [`exhaustive`] tries every subset; the tests hold [`allocate`] to it on
 //! random small programmes.
@@ -151,6 +182,98 @@ fn room(cap: &Capacity) -> f64 {
     }
 }
 
+/// A maximum flow by Dinic's method (blocking flows along shortest paths;
+/// Dinic 1970, as in Ahuja, Magnanti & Orlin, *Network Flows*, 1993, ch. 7,
+/// from memory), on the small graph of [`Search::closure`]: used only for
+/// its minimum cut.
+#[derive(Default)]
+struct Flow {
+    head: Vec<usize>,
+    to: Vec<usize>,
+    cap: Vec<f64>,
+    next: Vec<usize>,
+    level: Vec<i32>,
+    it: Vec<usize>,
+    queue: Vec<usize>,
+}
+
+const NONE: usize = usize::MAX;
+
+impl Flow {
+    fn reset(&mut self, nodes: usize) {
+        self.head.clear();
+        self.head.resize(nodes, NONE);
+        self.to.clear();
+        self.cap.clear();
+        self.next.clear();
+    }
+
+    fn edge(&mut self, a: usize, b: usize, c: f64) {
+        for (x, y, c) in [(a, b, c), (b, a, 0.0)] {
+            self.to.push(y);
+            self.cap.push(c);
+            self.next.push(self.head[x]);
+            self.head[x] = self.to.len() - 1;
+        }
+    }
+
+    /// Breadth-first levels from `s` over edges with room; whether `t` is reached.
+    fn levels(&mut self, s: usize, t: usize) -> bool {
+        self.level.clear();
+        self.level.resize(self.head.len(), -1);
+        self.queue.clear();
+        self.level[s] = 0;
+        self.queue.push(s);
+        let mut q = 0;
+        while q < self.queue.len() {
+            let v = self.queue[q];
+            q += 1;
+            let mut e = self.head[v];
+            while e != NONE {
+                let u = self.to[e];
+                if self.cap[e] > FLOW_EPS && self.level[u] < 0 {
+                    self.level[u] = self.level[v] + 1;
+                    self.queue.push(u);
+                }
+                e = self.next[e];
+            }
+        }
+        self.level[t] >= 0
+    }
+
+    fn push(&mut self, v: usize, t: usize, f: f64) -> f64 {
+        if v == t {
+            return f;
+        }
+        while self.it[v] != NONE {
+            let e = self.it[v];
+            let u = self.to[e];
+            if self.cap[e] > FLOW_EPS && self.level[u] == self.level[v] + 1 {
+                let d = self.push(u, t, f.min(self.cap[e]));
+                if d > FLOW_EPS {
+                    self.cap[e] -= d;
+                    self.cap[e ^ 1] += d;
+                    return d;
+                }
+            }
+            self.it[v] = self.next[e];
+        }
+        0.0
+    }
+
+    /// Saturate; afterwards `level[v] >= 0` marks the source side of a minimum cut.
+    fn run(&mut self, s: usize, t: usize) {
+        while self.levels(s, t) {
+            self.it.clear();
+            self.it.extend_from_slice(&self.head);
+            while self.push(s, t, f64::INFINITY) > FLOW_EPS {}
+        }
+    }
+}
+
+/// Residual capacity below which an edge counts as saturated.
+const FLOW_EPS: f64 = 1e-12;
+
 /// The search state: the set so far and its cost, kept incrementally.
 struct Search<'a> {
     p: &'a Problem,
@@ -165,6 +288,38 @@ struct Search<'a> {
     stopped: bool,
     /// Running sums over `order`, to decide most bounds without their loops.
     pre: Prefix,
+    /// For each night, how many items still undecided (from the current
+    /// position of `order` on) use it.
+    avail: Vec<u32>,
+    /// Work space of the share bounds: (cost, weight) of the undecided items.
+    buf: Vec<(f64, f64)>,
+    /// Work space of the closure bounds.
+    flow: Flow,
+    node_of_night: Vec<usize>,
+    /// Candidates of a cut (item, profit), its users by night, and its set.
+    cand: Vec<(usize, f64)>,
+    users: Vec<u32>,
+    cut: Vec<usize>,
+    /// Whether every weight is a whole number (sums of them are then
+    /// whole, and exact in floating point).
+    whole: bool,
+    /// The least weight of the items from each position of `order` on.
+    wmin: Vec<f64>,
+    /// Whether each item is in the set so far.
+    in_set: Vec<bool>,
+    /// A set known to beat the incumbent (a witness): the branches whose
+    /// decisions agree with it cannot be pruned, and need no bound.
+    witness: Option<Witness>,
+    /// The slope of the last relaxation walked, where the next walk starts.
+    theta: f64,
+}
+
+/// A set that beats the incumbent: its items (by item index) and its
+/// weight and hours.
+struct Witness {
+    member: Vec<bool>,
+    weight: f64,
+    hours: f64,
 }
 
 /// Running sums of the items' weights and own hours in search order, with
@@ -249,8 +404,34 @@ impl<'a> Search<'a> {
             rb.total_cmp(&ra).then(a.cmp(&b))
         });
         let pre = Prefix::new(p, &order);
+        let mut avail = vec![0u32; p.nights.len()];
+        for &i in &order {
+            for &n in &p.items[i].nights {
+                avail[n] += 1;
+            }
+        }
         Search {
             pre,
+            avail,
+            buf: Vec::with_capacity(order.len()),
+            flow: Flow::default(),
+            node_of_night: vec![NONE; p.nights.len()],
+            cand: Vec::new(),
+            users: vec![0; p.nights.len()],
+            cut: Vec::new(),
+            whole: order
+                .iter()
+                .all(|&i| p.items[i].weight.fract() == 0.0 && p.items[i].weight < 1e15),
+            in_set: vec![false; p.items.len()],
+            witness: None,
+            theta: 0.0,
+            wmin: {
+                let mut m = vec![f64::INFINITY; order.len() + 1];
+                for j in (0..order.len()).rev() {
+                    m[j] = m[j + 1].min(p.items[order[j]].weight);
+                }
+                m
+            },
             p,
             order,
             cap,
@@ -275,6 +456,7 @@ impl<'a> Search<'a> {
             self.night_use[n] += 1;
         }
         self.set.push(i);
+        self.in_set[i] = true;
         self.weight += it.weight;
     }
 
@@ -290,6 +472,7 @@ impl<'a> Search<'a> {
             }
         }
         self.set.pop();
+        self.in_set[i] = false;
         self.weight -= it.weight;
     }
 
@@ -404,6 +587,419 @@ impl<'a> Search<'a> {
         here + self.cover_bound(k, need) >= limit
     }
 
+    /// The search moves past item `i` (taken or not): its nights lose an
+    /// undecided user.
+    fn pass(&mut self, i: usize) {
+        for &n in &self.p.items[i].nights {
+            self.avail[n] -= 1;
+        }
+    }
+
+    fn unpass(&mut self, i: usize) {
+        for &n in &self.p.items[i].nights {
+            self.avail[n] += 1;
+        }
+    }
+
+    /// The undecided items' costs with their share of the nights not yet
+    /// used: own hours plus k_n / min(d_n, m) for each such night, d_n its
+    /// undecided users, m the most items a set may still take. Over any set
+    /// B of at most m undecided items the shares sum to at most the
+    /// calibrations B adds (a night adds k_n once and has at most
+    /// min(d_n, m) users in B), so these costs summed over B are a lower
+    /// bound on what B adds. Into `self.buf`, (cost, weight).
+    fn share_costs(&mut self, k: usize, m: u32) {
+        self.buf.clear();
+        for &i in &self.order[k..] {
+            let it = &self.p.items[i];
+            let mut c = it.own_total();
+            for &n in &it.nights {
+                if self.night_use[n] == 0 {
+                    c += self.p.nights[n].hours / self.avail[n].min(m).max(1) as f64;
+                }
+            }
+            self.buf.push((c, it.weight));
+        }
+    }
+
+    /// The most undecided items whose share costs (with `m`) sum to at most
+    /// `room`: a bound on the size of any set that adds at most `room`.
+    fn most_items(&mut self, k: usize, m: u32, room: f64) -> u32 {
+        self.share_costs(k, m);
+        self.buf.sort_unstable_by(|a, b| a.0.total_cmp(&b.0));
+        let mut sum = 0.0;
+        let mut count = 0u32;
+        for &(c, _) in &self.buf {
+            sum += c;
+            if sum > room {
+                break;
+            }
+            count += 1;
+        }
+        count
+    }
+
+    /// Shares with the size bound, tightened twice.
+    fn tight_shares(&mut self, k: usize, room: f64) {
+        let mut m = u32::MAX;
+        for _ in 0..3 {
+            let m2 = self.most_items(k, m, room);
+            if m2 >= m {
+                break;
+            }
+            m = m2;
+        }
+        self.share_costs(k, m);
+    }
+
+    /// Whether no set of undecided items adds weight more than `best_w -
+    /// self.weight + EPS_W` within `room` hours more (Dantzig's bound over the share costs).
+    fn share_bound_prunes(&mut self, k: usize, room: f64, best_w: f64) -> bool {
+        let room = room.max(0.0) * (1.0 + 1e-12) + 1e-12;
+        self.tight_shares(k, room);
+        self.buf
+            .sort_unstable_by(|a, b| (b.1 * a.0).total_cmp(&(a.1 * b.0)));
+        let mut left = room;
+        let mut w = 0.0;
+        for &(c, wi) in &self.buf {
+            if c <= left {
+                left -= c;
+                w += wi;
+            } else {
+                w += wi * left / c;
+                break;
+            }
+        }
+        self.weight + self.whole_below(w * (1.0 + 1e-12)) <= best_w + EPS_W
+    }
+
+    /// Whether no set of undecided items adds `need` weight in fewer than
+    /// `room` hours more (the fractional cover over the share costs).
+    fn share_cover_prunes(&mut self, k: usize, need: f64, room: f64) -> bool {
+        if need <= EPS_W {
+            return false;
+        }
+        if room <= 0.0 {
+            return true;
+        }
+        let room = room * (1.0 + 1e-12) + 1e-12;
+        self.tight_shares(k, room);
+        self.buf
+            .sort_unstable_by(|a, b| (b.1 * a.0).total_cmp(&(a.1 * b.0)));
+        let mut need = need;
+        let mut h = 0.0;
+        for &(c, wi) in &self.buf {
+            if wi >= need {
+                h += c * need / wi;
+                return h * (1.0 - 1e-12) >= room;
+            }
+            need -= wi;
+            h += c;
+        }
+        true
+    }
+
+    /// The set B of undecided items (from position `k`) that minimises
+    /// cost(B) - theta * weight(B), cost(B) the hours B adds to the set so
+    /// far (own hours and the calibrations of nights not yet used): the
+    /// closure problem of selecting items that need nights, solved as a
+    /// minimum cut (Picard 1976; Ahuja, Magnanti & Orlin 1993, ch. 19, from
+    /// memory). An item of no profit (theta * weight below its own hours
+    /// and the nights no other candidate uses) never lowers the sum and is
+    /// left out of the graph. B goes to `self.cut`; returns its (weight,
+    /// added hours), both summed from B itself.
+    fn closure(&mut self, k: usize, theta: f64) -> (f64, f64) {
+        let p = self.p;
+        // Candidates: items of positive profit before their nights.
+        self.cand.clear();
+        for &i in &self.order[k..] {
+            let it = &p.items[i];
+            let profit = theta * it.weight - it.own_total();
+            if profit > 0.0 {
+                self.cand.push((i, profit));
+                for &n in &it.nights {
+                    if self.night_use[n] == 0 {
+                        self.users[n] += 1;
+                    }
+                }
+            }
+        }
+        // A night of one candidate is that candidate's own cost.
+        for c in self.cand.iter_mut() {
+            for &n in &p.items[c.0].nights {
+                if self.night_use[n] == 0 && self.users[n] == 1 {
+                    c.1 -= p.nights[n].hours;
+                }
+            }
+        }
+        let (src, sink) = (0usize, 1usize);
+        let mut nodes = 2 + self.cand.len();
+        for c in &self.cand {
+            for &n in &p.items[c.0].nights {
+                if self.night_use[n] == 0 && self.users[n] > 1 && self.node_of_night[n] == NONE {
+                    self.node_of_night[n] = nodes;
+                    nodes += 1;
+                }
+            }
+        }
+        self.flow.reset(nodes);
+        for (j, c) in self.cand.iter().enumerate() {
+            if c.1 <= 0.0 {
+                continue;
+            }
+            self.flow.edge(src, 2 + j, c.1);
+            for &n in &p.items[c.0].nights {
+                let v = self.node_of_night[n];
+                if v != NONE {
+                    self.flow.edge(2 + j, v, f64::INFINITY);
+                }
+            }
+        }
+        for c in &self.cand {
+            for &n in &p.items[c.0].nights {
+                let v = self.node_of_night[n];
+                if v != NONE && v < nodes {
+                    // Each night's edge once: its node moved out of range marks it done.
+                    self.flow.edge(v, sink, p.nights[n].hours);
+                    self.node_of_night[n] = NONE - v;
+                }
+            }
+        }
+        self.flow.run(src, sink);
+        // The source side's items, and the hours they add.
+        self.cut.clear();
+        let (mut w, mut c) = (0.0, 0.0);
+        for (j, cd) in self.cand.iter().enumerate() {
+            if cd.1 > 0.0 && self.flow.level[2 + j] >= 0 {
+                let it = &p.items[cd.0];
+                self.cut.push(cd.0);
+                w += it.weight;
+                c += it.own_total();
+            }
+        }
+        for &i in &self.cut {
+            for &n in &p.items[i].nights {
+                if self.night_use[n] == 0 && self.users[n] != u32::MAX {
+                    self.users[n] = u32::MAX;
+                    c += p.nights[n].hours;
+                }
+            }
+        }
+        for cd in &self.cand {
+            for &n in &p.items[cd.0].nights {
+                self.users[n] = 0;
+                self.node_of_night[n] = NONE;
+            }
+        }
+        (w, c)
+    }
+
+    /// The undecided items' weight and added hours all taken.
+    fn all_undecided(&mut self, k: usize) -> (f64, f64) {
+        let (mut w, mut c) = (0.0, 0.0);
+        let p = self.p;
+        for &i in &self.order[k..] {
+            let it = &p.items[i];
+            w += it.weight;
+            c += it.own_total();
+            for &n in &it.nights {
+                if self.night_use[n] == 0 && self.node_of_night[n] == NONE {
+                    self.node_of_night[n] = 0;
+                    c += p.nights[n].hours;
+                }
+            }
+        }
+        for &i in &self.order[k..] {
+            for &n in &p.items[i].nights {
+                self.node_of_night[n] = NONE;
+            }
+        }
+        (w, c)
+    }
+
+    /// Whether no set of undecided items adds `need` weight in fewer than
+    /// `room` hours more: the linear relaxation of the covering problem,
+    /// whose value is the lower convex hull of the points (weight(B),
+    /// cost(B)) at `need`, walked by minimum cuts (each slope theta gives
+    /// the bound theta * need + min_B (cost(B) - theta * weight(B)), a
+    /// Lagrangian bound, valid for any theta >= 0).
+    fn closure_cover_prunes(&mut self, k: usize, need: f64, room: f64) -> bool {
+        if need <= EPS_W {
+            return false;
+        }
+        if room <= 0.0 {
+            return true;
+        }
+        let margin = 1e-9 * (1.0 + room.abs());
+        let (mut lo, mut hi) = ((0.0, 0.0), self.all_undecided(k));
+        if hi.0 < need - EPS_W {
+            return true;
+        }
+        if self.theta > 0.0 {
+            // The last walk's slope first: often it decides at once.
+            let theta = self.theta;
+            let b = self.closure(k, theta);
+            if b.1 + theta * (need - b.0) - margin >= room {
+                return true;
+            }
+            if b.0 >= need - EPS_W {
+                if b.1 < room - margin && self.witness_from_cut() {
+                    return false;
+                }
+                hi = b;
+            } else {
+                lo = b;
+            }
+        }
+        for _ in 0..40 {
+            if hi.0 - lo.0 <= EPS_W {
+                return false;
+            }
+            let theta = (hi.1 - lo.1) / (hi.0 - lo.0);
+            // The hull between lo and hi, at need: no bound can pass it.
+            if lo.1 + theta * (need - lo.0) < room + margin {
+                return false;
+            }
+            self.theta = theta;
+            let b = self.closure(k, theta);
+            if b.1 + theta * (need - b.0) - margin >= room {
+                return true;
+            }
+            if b.0 >= need - EPS_W && b.1 < room - margin && self.witness_from_cut() {
+                return false;
+            }
+            if b.1 - theta * b.0 >= lo.1 - theta * lo.0 - margin {
+                return false;
+            }
+            if b.0 >= need - EPS_W {
+                hi = b;
+            } else {
+                lo = b;
+            }
+        }
+        false
+    }
+
+    /// Whether no set of undecided items within `room` hours more adds
+    /// weight more than `best_w - self.weight + EPS_W`: the linear
+    /// relaxation as in [`Self::closure_cover_prunes`] (each slope theta > 0
+    /// bounds the weight by weight(B) + (room - cost(B)) / theta).
+    fn closure_bound_prunes(&mut self, k: usize, room: f64, best_w: f64) -> bool {
+        let want = best_w + EPS_W - self.weight;
+        let room = room.max(0.0);
+        let (mut lo, mut hi) = ((0.0, 0.0), self.all_undecided(k));
+        if hi.1 <= room {
+            return hi.0 <= want;
+        }
+        let margin = 1e-9 * (1.0 + want.abs());
+        if self.theta > 0.0 {
+            // The last walk's slope first: often it decides at once.
+            let theta = self.theta;
+            let b = self.closure(k, theta);
+            if self.whole_below(b.0 + (room - b.1) / theta + margin) <= want {
+                return true;
+            }
+            if b.1 <= room {
+                if b.0 > want + margin && b.1 < room - EPS_H - margin && self.witness_from_cut() {
+                    return false;
+                }
+                lo = b;
+            } else {
+                hi = b;
+            }
+        }
+        for _ in 0..40 {
+            if hi.1 - lo.1 <= 0.0 || hi.0 - lo.0 <= 0.0 {
+                return false;
+            }
+            let theta = (hi.1 - lo.1) / (hi.0 - lo.0);
+            if theta <= 0.0 {
+                return false;
+            }
+            // The hull between lo and hi meets the room at no more than
+            // the relaxation's weight: past `want`, no bound can prune.
+            if self.whole_below(lo.0 + (room - lo.1) / theta) > want + margin {
+                return false;
+            }
+            self.theta = theta;
+            let b = self.closure(k, theta);
+            if self.whole_below(b.0 + (room - b.1) / theta + margin) <= want {
+                return true;
+            }
+            if b.1 <= room - EPS_H - margin && b.0 > want + margin && self.witness_from_cut() {
+                return false;
+            }
+            if b.1 - theta * b.0 >= lo.1 - theta * lo.0 - 1e-9 * (1.0 + room) {
+                return false;
+            }
+            if b.1 <= room {
+                lo = b;
+            } else {
+                hi = b;
+            }
+        }
+        false
+    }
+
+    /// Whether the witness agrees with every decision so far (the items
+    /// before position `k`) and still beats the incumbent: weight over
+    /// `best_w` (pass 1) or hours under `best_h` (pass 2).
+    fn witnessed(&self, k: usize, best_w: Option<f64>, best_h: Option<f64>) -> bool {
+        let Some(w) = &self.witness else {
+            return false;
+        };
+        if best_w.is_some_and(|b| w.weight <= b + EPS_W)
+            || best_h.is_some_and(|b| w.hours >= b - EPS_H)
+        {
+            return false;
+        }
+        self.order[..k]
+            .iter()
+            .all(|&i| self.in_set[i] == w.member[i])
+    }
+
+    /// The set so far and the undecided items of the last minimum cut, as a
+    /// witness when it fits.
+    fn witness_from_cut(&mut self) -> bool {
+        let mut member = self.in_set.clone();
+        for &i in &self.cut {
+            member[i] = true;
+        }
+        let set: Vec<usize> = (0..member.len()).filter(|&i| member[i]).collect();
+        let c = self.p.cost(&set);
+        if !fits(&c, self.cap) {
+            return false;
+        }
+        self.witness = Some(Witness {
+            weight: set.iter().map(|&i| self.p.items[i].weight).sum(),
+            hours: c.iter().sum(),
+            member,
+        });
+        true
+    }
+
+    /// The weight a set of undecided items (from `k`) must add to reach
+    /// `target` (within EPS_W, as [`Self::least_hours`] counts it): at
+    /// least one item's, and with whole weights the next whole number.
+    fn need(&self, k: usize, target: f64) -> f64 {
+        let need = target - EPS_W - self.weight;
+        if need <= 0.0 {
+            return 0.0;
+        }
+        let need = need.max(self.wmin[k]);
+        if self.whole { need.ceil() } else { need }
+    }
+
+    /// Weight a set of undecided items may add at most, from a relaxation's
+    /// `ub`: with whole weights the whole number below it.
+    fn whole_below(&self, ub: f64) -> f64 {
+        if self.whole {
+            (ub + 1e-9 * (1.0 + ub.abs())).floor()
+        } else {
+            ub
+        }
+    }
+
     /// Pass 1: the largest weight within the capacity.
     fn best_weight(&mut self, k: usize, best: &mut (f64, Vec<usize>)) {
         self.nodes += 1;
@@ -421,7 +1017,18 @@ impl<'a> Search<'a> {
         if self.bound_prunes(k, left, best.0) {
             return;
         }
+        // A set fits with EPS_H over each semester's hours.
+        let slack = EPS_H * self.p.semesters.max(1) as f64;
+        // A witness (a set beyond this branch beats the incumbent): no
+        // bound prunes the branch, none is computed.
+        if !self.witnessed(k, Some(best.0), None)
+            && (self.share_bound_prunes(k, left + slack, best.0)
+                || self.closure_bound_prunes(k, left + slack, best.0))
+        {
+            return;
+        }
         let i = self.order[k];
+        self.pass(i);
         self.add(i);
         if fits(&self.cost, self.cap) {
             self.best_weight(k + 1, best);
@@ -430,6 +1037,7 @@ impl<'a> Search<'a> {
         if !self.stopped {
             self.best_weight(k + 1, best);
         }
+        self.unpass(i);
     }
 
     /// The least own hours that add `need` weight from position `k` (the
@@ -471,7 +1079,15 @@ impl<'a> Search<'a> {
         if self.cover_prunes(k, here, target - self.weight, best.0) {
             return;
         }
+        let need = self.need(k, target);
+        let room = best.0 - EPS_H - here;
+        if !self.witnessed(k, None, Some(best.0))
+            && (self.share_cover_prunes(k, need, room) || self.closure_cover_prunes(k, need, room))
+        {
+            return;
+        }
         let i = self.order[k];
+        self.pass(i);
         self.add(i);
         if fits(&self.cost, self.cap) {
             self.least_hours(k + 1, target, best);
@@ -480,6 +1096,7 @@ impl<'a> Search<'a> {
         if !self.stopped {
             self.least_hours(k + 1, target, best);
         }
+        self.unpass(i);
     }
 }
 
