@@ -1663,7 +1663,14 @@ impl ParallaxMethod {
         } = *h;
         let nlev = rule.levels.len();
         let cap = self.cfg.max_epochs_per_season as usize;
-        let met_at = |k: usize, l: usize| -> (bool, Design, Vec<Candidate>) {
+        // Each (seasons, level) is searched once: the bisection's last
+        // answer is asked again for the cheapest level.
+        type Met = (bool, Design, Vec<Candidate>);
+        let memo: std::cell::RefCell<Vec<((usize, usize), Met)>> = Default::default();
+        let met_at = |k: usize, l: usize| -> Met {
+            if let Some((_, m)) = memo.borrow().iter().find(|(key, _)| *key == (k, l)) {
+                return m.clone();
+            }
             let cands: Vec<Candidate> = all[l].iter().filter(|c| c.season < k).cloned().collect();
             let d = choose(
                 &cands,
@@ -1673,6 +1680,8 @@ impl ParallaxMethod {
                 self.cfg.min_epochs as usize,
             );
             let ok = d.j() <= target_j && baseline_of(&cands, &d) >= minb - 1e-9;
+            memo.borrow_mut()
+                .push(((k, l), (ok, d.clone(), cands.clone())));
             (ok, d, cands)
         };
         let met = |k: usize| met_at(k, level);

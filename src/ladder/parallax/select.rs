@@ -150,65 +150,115 @@ const SCREEN_REL: f64 = 1e-6;
 /// evaluation runs on every candidate.
 const SCREEN_MIN_EPOCHS: usize = 5;
 
+/// What the screening needs of every candidate, computed once per problem
+/// and laid out one array per quantity, so that the estimates of a step are
+/// one pass over plain arrays: the same values, formed by the same
+/// expressions, as the estimate of one candidate formed them (so
+/// the estimates, the finalists and the choices are unchanged).
+struct Pre {
+    /// t − t_ref, years.
+    dt: Vec<f64>,
+    /// Pα and Pδ.
+    pa: Vec<f64>,
+    pd: Vec<f64>,
+    /// 1/w, w = 1/σ² the candidate's weight.
+    inv_w: Vec<f64>,
+    /// w Aᵀ d, element by element (the candidate's share of the DCR vector).
+    wad: [Vec<f64>; 5],
+}
+
+impl Pre {
+    fn of(p: &Problem) -> Pre {
+        let n = p.cands.len();
+        let mut pre = Pre {
+            dt: Vec::with_capacity(n),
+            pa: Vec::with_capacity(n),
+            pd: Vec::with_capacity(n),
+            inv_w: Vec::with_capacity(n),
+            wad: std::array::from_fn(|_| Vec::with_capacity(n)),
+        };
+        for cand in p.cands {
+            let w = 1.0 / (cand.sigma_mas * cand.sigma_mas);
+            let dt = cand.t_yr - p.t_ref;
+            let (pa, pd) = (cand.pf_ra, cand.pf_dec);
+            let a = [[1.0, 0.0, dt, 0.0, pa], [0.0, 1.0, 0.0, dt, pd]];
+            let d = [cand.dcr_ra_mas, cand.dcr_dec_mas];
+            pre.dt.push(dt);
+            pre.pa.push(pa);
+            pre.pd.push(pd);
+            pre.inv_w.push(1.0 / w);
+            for (j, v) in pre.wad.iter_mut().enumerate() {
+                v.push(w * (a[0][j] * d[0] + a[1][j] * d[1]));
+            }
+        }
+        pre
+    }
+}
+
 /// The inverse of a normal matrix and its DCR vector, from which J with one
 /// candidate more is estimated.
 struct Base {
     c: [[f64; 5]; 5],
     b: [f64; 5],
-    t_ref: f64,
 }
 
 impl Base {
-    fn of(acc: &Acc, t_ref: f64) -> Option<Base> {
+    fn of(acc: &Acc) -> Option<Base> {
         let c = crate::linalg::spd_inverse_n(&acc.n).ok()?;
-        Some(Base { c, b: acc.b, t_ref })
+        Some(Base { c, b: acc.b })
     }
 
-    /// (estimate of J with `cand` added, its error bound); the estimate is
-    /// NaN when the update cannot be trusted (the candidate is then a
-    /// finalist).
+    /// For every candidate i, the estimate of J with it added and its error
+    /// bound into `est[i]` and `err[i]`; the estimate is NaN when the update
+    /// cannot be trusted (the candidate is then a finalist). The arithmetic
+    /// is element by element the same for every candidate, whether it may
+    /// be added or not (the caller filters), so the loop has no branch.
     #[allow(clippy::needless_range_loop)] // index form mirrors the formula
-    fn j_plus(&self, cand: &Candidate) -> (f64, f64) {
-        let w = 1.0 / (cand.sigma_mas * cand.sigma_mas);
-        let dt = cand.t_yr - self.t_ref;
-        let (pa, pd) = (cand.pf_ra, cand.pf_dec);
-        let a = [[1.0, 0.0, dt, 0.0, pa], [0.0, 1.0, 0.0, dt, pd]];
-        let d = [cand.dcr_ra_mas, cand.dcr_dec_mas];
-        // U = C Aᵀ (5 × 2), S = W⁻¹ + A U (2 × 2); A's rows are
-        // (1, 0, dt, 0, Pα) and (0, 1, 0, dt, Pδ).
-        let mut u = [[0.0; 2]; 5];
-        for (ur, cr) in u.iter_mut().zip(&self.c) {
-            ur[0] = cr[0] + dt * cr[2] + pa * cr[4];
-            ur[1] = cr[1] + dt * cr[3] + pd * cr[4];
-        }
-        let s00 = u[0][0] + dt * u[2][0] + pa * u[4][0] + 1.0 / w;
-        let s01 = u[0][1] + dt * u[2][1] + pa * u[4][1];
-        let s11 = u[1][1] + dt * u[3][1] + pd * u[4][1] + 1.0 / w;
-        let det = s00 * s11 - s01 * s01;
-        if !(det.is_finite() && det > 0.0) {
-            return (f64::NAN, f64::NAN);
-        }
-        // g = S⁻¹ U₄ᵀ; the parallax row of the new inverse, C₄ − g U ᵀ.
-        let g0 = (s11 * u[4][0] - s01 * u[4][1]) / det;
-        let g1 = (s00 * u[4][1] - s01 * u[4][0]) / det;
-        let mut bias = 0.0;
-        let mut bias_abs = 0.0;
-        let mut var = 0.0;
-        for j in 0..5 {
-            let row = self.c[4][j] - g0 * u[j][0] - g1 * u[j][1];
-            let bj = self.b[j] + w * (a[0][j] * d[0] + a[1][j] * d[1]);
-            bias += row * bj;
-            bias_abs += (row * bj).abs();
-            if j == 4 {
-                var = row;
+    fn j_plus_all(&self, pre: &Pre, est: &mut Vec<f64>, err: &mut Vec<f64>) {
+        let n = pre.dt.len();
+        est.clear();
+        err.clear();
+        est.resize(n, 0.0);
+        err.resize(n, 0.0);
+        let c = &self.c;
+        let (dts, pas, pds) = (&pre.dt[..n], &pre.pa[..n], &pre.pd[..n]);
+        let iws = &pre.inv_w[..n];
+        let wad: [&[f64]; 5] = std::array::from_fn(|j| &pre.wad[j][..n]);
+        let (est, err) = (&mut est[..n], &mut err[..n]);
+        for i in 0..n {
+            let (dt, pa, pd, inv_w) = (dts[i], pas[i], pds[i], iws[i]);
+            // U = C Aᵀ (5 × 2), S = W⁻¹ + A U (2 × 2); A's rows are
+            // (1, 0, dt, 0, Pα) and (0, 1, 0, dt, Pδ).
+            let mut u = [[0.0; 2]; 5];
+            for (ur, cr) in u.iter_mut().zip(c) {
+                ur[0] = cr[0] + dt * cr[2] + pa * cr[4];
+                ur[1] = cr[1] + dt * cr[3] + pd * cr[4];
             }
+            let s00 = u[0][0] + dt * u[2][0] + pa * u[4][0] + inv_w;
+            let s01 = u[0][1] + dt * u[2][1] + pa * u[4][1];
+            let s11 = u[1][1] + dt * u[3][1] + pd * u[4][1] + inv_w;
+            let det = s00 * s11 - s01 * s01;
+            // g = S⁻¹ U₄ᵀ; the parallax row of the new inverse, C₄ − g U ᵀ.
+            let g0 = (s11 * u[4][0] - s01 * u[4][1]) / det;
+            let g1 = (s00 * u[4][1] - s01 * u[4][0]) / det;
+            let mut bias = 0.0;
+            let mut bias_abs = 0.0;
+            let mut var = 0.0;
+            for j in 0..5 {
+                let row = c[4][j] - g0 * u[j][0] - g1 * u[j][1];
+                let bj = self.b[j] + wad[j][i];
+                bias += row * bj;
+                bias_abs += (row * bj).abs();
+                if j == 4 {
+                    var = row;
+                }
+            }
+            let j = var + bias * bias;
+            let e = SCREEN_REL * (var.abs() + c[4][4].abs() + bias_abs * (bias_abs + 1.0));
+            let ok = det.is_finite() && det > 0.0 && j.is_finite();
+            est[i] = if ok { j } else { f64::NAN };
+            err[i] = if ok { e } else { f64::NAN };
         }
-        let j = var + bias * bias;
-        if !j.is_finite() {
-            return (f64::NAN, f64::NAN);
-        }
-        let err = SCREEN_REL * (var.abs() + self.c[4][4].abs() + bias_abs * (bias_abs + 1.0));
-        (j, err)
     }
 }
 
@@ -260,6 +310,7 @@ fn dense(cands: &[Candidate], key: impl Fn(&Candidate) -> usize) -> (Vec<usize>,
 
 struct State<'a> {
     p: Problem<'a>,
+    pre: &'a Pre,
     acc: Acc,
     chosen: Vec<usize>,
     /// Per candidate: its dense slot and season numbers, and whether chosen.
@@ -272,11 +323,12 @@ struct State<'a> {
 }
 
 impl<'a> State<'a> {
-    fn new(p: Problem<'a>) -> Self {
+    fn new(p: Problem<'a>, pre: &'a Pre) -> Self {
         let (slot_of, n_slots) = dense(p.cands, |c| c.slot);
         let (season_of, n_seasons) = dense(p.cands, |c| c.season);
         State {
             p,
+            pre,
             acc: Acc::prior(),
             chosen: Vec::new(),
             slot_of,
@@ -345,7 +397,8 @@ impl<'a> State<'a> {
 /// [`Stop::Target`], once J is reached, removals and swaps that save hours
 /// while J stays reached. Deterministic for the same input.
 pub fn select(p: Problem, seed: &[usize], stop: Stop) -> Design {
-    let first = run(p, seed, None, stop);
+    let pre = Pre::of(&p);
+    let (first, first_pick) = run(p, &pre, seed, None, stop);
     if !matches!(stop, Stop::Count(_)) || p.cands.is_empty() {
         return first;
     }
@@ -358,7 +411,13 @@ pub fn select(p: Problem, seed: &[usize], stop: Stop) -> Design {
     };
     let mut best = first;
     for start in [extreme(1.0), extreme(-1.0)].into_iter().flatten() {
-        let d = run(p, seed, Some(start), stop);
+        // A start the first search took first, or one the seed leaves no
+        // room for, is that search again (the same state, step by step):
+        // its design is `first`, which it cannot better.
+        if first_pick == Some(start) || !admissible_after(p, &pre, seed, start) {
+            continue;
+        }
+        let (d, _) = run(p, &pre, seed, Some(start), stop);
         if d.j() < best.j() * (1.0 - 1e-12) {
             best = d;
         }
@@ -366,21 +425,42 @@ pub fn select(p: Problem, seed: &[usize], stop: Stop) -> Design {
     best
 }
 
+/// Whether candidate `i` may be added once `seed` is (as [`run`] adds it).
+fn admissible_after(p: Problem, pre: &Pre, seed: &[usize], i: usize) -> bool {
+    let mut st = State::new(p, pre);
+    for &j in seed {
+        if st.may_add(j, None) {
+            st.push(j);
+        }
+    }
+    st.may_add(i, None)
+}
+
 /// One greedy start (`start` added first when admissible, free to be
 /// exchanged later) and its exchange.
-fn run(p: Problem, seed: &[usize], start: Option<usize>, stop: Stop) -> Design {
-    let mut st = State::new(p);
+/// Also the candidate the greedy search took first after the seed and the
+/// start (none when it took none).
+fn run(
+    p: Problem,
+    pre: &Pre,
+    seed: &[usize],
+    start: Option<usize>,
+    stop: Stop,
+) -> (Design, Option<usize>) {
+    let mut st = State::new(p, pre);
     for &i in seed {
         if st.may_add(i, None) {
             st.push(i);
         }
     }
+    let mut first_pick = None;
     if let Some(i) = start
         && st.may_add(i, None)
     {
         st.push(i);
     }
     let n = p.cands.len();
+    let (mut est, mut err) = (Vec::new(), Vec::new());
     loop {
         let cur = st.j();
         let done = match stop {
@@ -412,25 +492,24 @@ fn run(p: Problem, seed: &[usize], start: Option<usize>, stop: Stop) -> Design {
             best
         };
         let base = (cur.is_finite() && st.chosen.len() >= SCREEN_MIN_EPOCHS)
-            .then(|| Base::of(&st.acc, p.t_ref))
+            .then(|| Base::of(&st.acc))
             .flatten();
         let best = match base {
             None => exact_best(&mut (0..n)),
             Some(base) => {
                 // Estimates of the gain and their bounds; the largest gain
                 // surely reached; the finalists that may reach it.
-                let est: Vec<(usize, (f64, f64))> = (0..n)
-                    .filter(|i| st.may_add(*i, None))
-                    .map(|i| (i, base.j_plus(&p.cands[i])))
-                    .collect();
-                let lb = est
-                    .iter()
-                    .filter(|(_, (j, _))| j.is_finite())
-                    .map(|(i, (j, e))| (cur - j - e) / per(*i))
+                base.j_plus_all(pre, &mut est, &mut err);
+                let lb = (0..n)
+                    .filter(|i| est[*i].is_finite() && st.may_add(*i, None))
+                    .map(|i| (cur - est[i] - err[i]) / per(i))
                     .fold(f64::NEG_INFINITY, f64::max);
-                let finalists: Vec<(usize, (f64, f64))> = est
-                    .into_iter()
-                    .filter(|(i, (j, e))| j.is_nan() || (cur - j + e) / per(*i) >= lb)
+                let finalists: Vec<(usize, (f64, f64))> = (0..n)
+                    .filter(|i| {
+                        (est[*i].is_nan() || (cur - est[*i] + err[*i]) / per(*i) >= lb)
+                            && st.may_add(*i, None)
+                    })
+                    .map(|i| (i, (est[i], err[i])))
                     .collect();
                 let trusted = finalists
                     .iter()
@@ -443,7 +522,10 @@ fn run(p: Problem, seed: &[usize], start: Option<usize>, stop: Stop) -> Design {
             }
         };
         match best {
-            Some((_, i)) => st.push(i),
+            Some((_, i)) => {
+                first_pick.get_or_insert(i);
+                st.push(i);
+            }
             None => break,
         }
     }
@@ -460,7 +542,7 @@ fn run(p: Problem, seed: &[usize], start: Option<usize>, stop: Stop) -> Design {
         // on the long horizon designs this case meets).
         Stop::Target(t) => exchange_sequential(&mut st, seed, t),
     }
-    evaluate(&p, &st.chosen)
+    (evaluate(&p, &st.chosen), first_pick)
 }
 
 const PASSES: usize = 6;
@@ -475,11 +557,13 @@ fn screen_swap_at(st: &State, k: usize, cur: f64) -> Option<Vec<(usize, (f64, f6
     }
     let mut acc = st.acc;
     acc.add(&st.p.cands[st.chosen[k]], st.p.t_ref, -1.0);
-    let base = Base::of(&acc, st.p.t_ref)?;
+    let base = Base::of(&acc)?;
+    let (mut est, mut err) = (Vec::new(), Vec::new());
+    base.j_plus_all(st.pre, &mut est, &mut err);
     Some(
         (0..st.p.cands.len())
             .filter(|i| st.may_add(*i, Some(st.chosen[k])))
-            .map(|i| (i, base.j_plus(&st.p.cands[i])))
+            .map(|i| (i, (est[i], err[i])))
             .collect(),
     )
 }
@@ -655,6 +739,11 @@ fn exchange_for_hours(st: &mut State, seed: &[usize], target: f64) {
             }
             let h_out = st.p.cands[st.chosen[k]].hours;
             let cheaper = |i: usize| st.p.cands[i].hours < h_out * (1.0 - 1e-9);
+            // No cheaper candidate (every level's visits cost the same): no
+            // swap to weigh.
+            if !(0..n).any(cheaper) {
+                continue;
+            }
             let exact_best = |only: &mut dyn Iterator<Item = usize>| {
                 let mut best: Option<(f64, f64, usize)> = None; // hours, j, index
                 for i in only {
