@@ -94,6 +94,29 @@ pub trait ExposureModel: Sync {
         let _ = (mag, band, exptime_s, ctx, place);
         Ok(1)
     }
+    /// [`Self::snr`] of each star of `mags` at each exposure of
+    /// `exptimes`, all at one instant: `out[k][m]` the SNR of `mags[m]` in
+    /// `exptimes[k]`, asked in that order (exposure by exposure, star by
+    /// star), the first refusal returned. The same numbers as asking one by
+    /// one, which the default does; a model may share the work that does
+    /// not depend on the exposure (the sky, the star's rates).
+    fn snr_table(
+        &self,
+        mags: &[f64],
+        band: &str,
+        exptimes: &[f64],
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<Vec<Vec<f64>>> {
+        exptimes
+            .iter()
+            .map(|t| {
+                mags.iter()
+                    .map(|m| self.snr(*m, band, *t, ctx, place))
+                    .collect()
+            })
+            .collect()
+    }
     /// Signal-to-noise on a star of magnitude `mag` in a total `exptime_s`
     /// split into `n_frames` sub-exposures chosen for another star (each frame
     /// adds read noise). The default ignores the split: [`Self::snr`].

@@ -327,6 +327,35 @@ impl ExposureModel for Photometer {
         Ok(self.snr_at(mag, band, exptime_s, ctx, place)?.budget.snr)
     }
 
+    /// [`Self::snr`] in a table: each star's rates (its sky, airmass and
+    /// count rates at `ctx`) prepared once, then the same CCD equation per
+    /// exposure, checked and asked in the trait's order, so the same
+    /// numbers and the same first refusal as one call each.
+    fn snr_table(
+        &self,
+        mags: &[f64],
+        band: &str,
+        exptimes: &[f64],
+        ctx: &Context,
+        place: &CatalogPlace,
+    ) -> Result<Vec<Vec<f64>>> {
+        let mut rates: Vec<Option<ccd::Rates>> = mags.iter().map(|_| None).collect();
+        let mut out = Vec::with_capacity(exptimes.len());
+        for &t in exptimes {
+            let mut row = Vec::with_capacity(mags.len());
+            for (m, r) in mags.iter().zip(rates.iter_mut()) {
+                ccd::check_exptime(t)?;
+                if r.is_none() {
+                    *r = Some(self.prepare(*m, band, ctx, place)?.0);
+                }
+                let r = r.as_ref().expect("prepared above");
+                row.push(r.snr_for(t, &self.instrument)?.snr);
+            }
+            out.push(row);
+        }
+        Ok(out)
+    }
+
     /// Errors when the star saturates even in the shortest exposure.
     fn exptime(
         &self,

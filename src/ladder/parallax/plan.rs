@@ -278,8 +278,7 @@ impl<'a> Model<'a> {
         // Beyond the SNR bound (10,000) flat fields and scintillation, not
         // photons, set a star's error (crate::bounds::SNR): the centroid
         // terms use at most that.
-        let cap = |x: f64| x.min(crate::bounds::SNR.max);
-        let snr_t = cap(match snr {
+        let snr_t = match snr {
             Some(x) => x,
             None => self.em.snr(
                 self.observed_mag(),
@@ -288,10 +287,23 @@ impl<'a> Model<'a> {
                 ctx,
                 &self.place,
             )?,
-        });
-        let snr_r = cap(self
+        };
+        let snr_r = self
             .em
-            .snr(self.frame.mag, self.band(), exptime_s, ctx, &self.place)?);
+            .snr(self.frame.mag, self.band(), exptime_s, ctx, &self.place)?;
+        self.error_of(g, exptime_s, snr_t, snr_r)
+    }
+
+    /// [`Self::error`] with the target's and the reference stars' SNR known.
+    fn error_of(
+        &self,
+        g: &Geom,
+        exptime_s: f64,
+        snr_t: f64,
+        snr_r: f64,
+    ) -> Result<(EpochError, f64, f64)> {
+        let cap = |x: f64| x.min(crate::bounds::SNR.max);
+        let (snr_t, snr_r) = (cap(snr_t), cap(snr_r));
         let centroid = astrometry::centroid_mas(self.fwhm, snr_t)?;
         let reference = astrometry::reference_frame_mas(
             astrometry::centroid_mas(self.fwhm, snr_r)?,
@@ -606,11 +618,23 @@ fn slots(
                 .map(|t| {
                     let ctx = night.context(*t);
                     let geom = model.geometry(&ctx)?;
+                    // Every level's SNRs at once (the same numbers); on a
+                    // refusal, level by level as before, so that the same
+                    // refusal is the one returned.
+                    let exps: Vec<f64> = rule.levels.iter().map(|l| l.exptime_s).collect();
+                    let mags = [model.observed_mag(), model.frame.mag];
+                    let table = model
+                        .em
+                        .snr_table(&mags, model.band(), &exps, &ctx, &model.place);
                     let at = rule
                         .levels
                         .iter()
-                        .map(|l| {
-                            let (e, st, sr) = model.error(&ctx, &geom, l.exptime_s, None)?;
+                        .enumerate()
+                        .map(|(k, l)| {
+                            let (e, st, sr) = match &table {
+                                Ok(t) => model.error_of(&geom, l.exptime_s, t[k][0], t[k][1])?,
+                                Err(_) => model.error(&ctx, &geom, l.exptime_s, None)?,
+                            };
                             Ok((e, st, sr, l.visit_s))
                         })
                         .collect::<Result<Vec<_>>>()?;

@@ -474,13 +474,13 @@ fn run(
             Stop::Count(_) => 1.0,
             Stop::Target(_) => p.cands[i].hours.max(1e-9),
         };
-        let exact_best = |only: &mut dyn Iterator<Item = usize>| {
+        let exact_best = |only: &mut dyn Iterator<Item = (usize, Option<f64>)>| {
             let mut best: Option<(f64, usize)> = None;
-            for i in only {
+            for (i, known) in only {
                 if !st.may_add(i, None) {
                     continue;
                 }
-                let jn = st.j_with(i);
+                let jn = known.unwrap_or_else(|| st.j_with(i));
                 let gain = match stop {
                     Stop::Count(_) => cur - jn,
                     Stop::Target(_) => (cur - jn) / p.cands[i].hours.max(1e-9),
@@ -495,7 +495,7 @@ fn run(
             .then(|| Base::of(&st.acc))
             .flatten();
         let best = match base {
-            None => exact_best(&mut (0..n)),
+            None => exact_best(&mut (0..n).map(|i| (i, None))),
             Some(base) => {
                 // Estimates of the gain and their bounds; the largest gain
                 // surely reached; the finalists that may reach it.
@@ -511,13 +511,17 @@ fn run(
                     })
                     .map(|i| (i, (est[i], err[i])))
                     .collect();
-                let trusted = finalists
+                // Each finalist's exact J, kept for the choice.
+                let exact: Option<Vec<(usize, Option<f64>)>> = finalists
                     .iter()
-                    .all(|(i, e)| e.0.is_nan() || within(st.j_with(*i), *e));
-                if trusted {
-                    exact_best(&mut finalists.into_iter().map(|x| x.0))
-                } else {
-                    exact_best(&mut (0..n))
+                    .map(|(i, e)| {
+                        let jn = st.j_with(*i);
+                        (e.0.is_nan() || within(jn, *e)).then_some((*i, Some(jn)))
+                    })
+                    .collect();
+                match exact {
+                    Some(x) => exact_best(&mut x.into_iter()),
+                    None => exact_best(&mut (0..n).map(|i| (i, None))),
                 }
             }
         };
@@ -590,11 +594,16 @@ fn screen_swaps(st: &State, seed: &[usize], cur: f64) -> Option<Vec<Swap>> {
     Some(out)
 }
 
-/// Whether every finalist's exact J lies within its estimate's bounds.
-fn trusted_swaps(st: &State, finalists: &[Swap]) -> bool {
+/// Every finalist's exact J (position, candidate, J), when each lies within
+/// its estimate's bounds; None at the first that does not.
+fn exact_swaps(st: &State, finalists: &[Swap]) -> Option<Vec<(usize, usize, Option<f64>)>> {
     finalists
         .iter()
-        .all(|(k, i, e)| e.0.is_nan() || within(st.j_swap(*k, *i), *e))
+        .map(|(k, i, e)| {
+            let jn = st.j_swap(*k, *i);
+            (e.0.is_nan() || within(jn, *e)).then_some((*k, *i, Some(jn)))
+        })
+        .collect()
 }
 
 /// Fedorov's exchange: the single swap (a chosen epoch for an unchosen
@@ -604,13 +613,13 @@ fn exchange_for_j(st: &mut State, seed: &[usize]) {
     let max_swaps = PASSES * st.chosen.len().max(1);
     for _ in 0..max_swaps {
         let cur = st.j();
-        let exact_best = |pairs: &mut dyn Iterator<Item = (usize, usize)>| {
+        let exact_best = |pairs: &mut dyn Iterator<Item = (usize, usize, Option<f64>)>| {
             let mut best: Option<(f64, usize, usize)> = None;
-            for (k, i) in pairs {
+            for (k, i, known) in pairs {
                 if seed.contains(&st.chosen[k]) || !st.may_add(i, Some(st.chosen[k])) {
                     continue;
                 }
-                let jn = st.j_swap(k, i);
+                let jn = known.unwrap_or_else(|| st.j_swap(k, i));
                 if jn < cur * (1.0 - 1e-9) && best.is_none_or(|b| jn < b.0) {
                     best = Some((jn, k, i));
                 }
@@ -619,7 +628,7 @@ fn exchange_for_j(st: &mut State, seed: &[usize]) {
         };
         let all = |st: &State| {
             let m = st.chosen.len();
-            (0..m).flat_map(move |k| (0..n).map(move |i| (k, i)))
+            (0..m).flat_map(move |k| (0..n).map(move |i| (k, i, None)))
         };
         let best = match screen_swaps(st, seed, cur) {
             None => exact_best(&mut all(st)),
@@ -634,10 +643,9 @@ fn exchange_for_j(st: &mut State, seed: &[usize]) {
                     .into_iter()
                     .filter(|(_, _, (j, e))| j.is_nan() || j - e <= ub)
                     .collect();
-                if trusted_swaps(st, &finalists) {
-                    exact_best(&mut finalists.into_iter().map(|(k, i, _)| (k, i)))
-                } else {
-                    exact_best(&mut all(st))
+                match exact_swaps(st, &finalists) {
+                    Some(x) => exact_best(&mut x.into_iter()),
+                    None => exact_best(&mut all(st)),
                 }
             }
         };
@@ -663,13 +671,13 @@ fn exchange_sequential(st: &mut State, seed: &[usize], target: f64) {
             if cur <= target {
                 return;
             }
-            let exact_best = |only: &mut dyn Iterator<Item = usize>| {
+            let exact_best = |only: &mut dyn Iterator<Item = (usize, Option<f64>)>| {
                 let mut best: Option<(f64, usize)> = None;
-                for i in only {
+                for (i, known) in only {
                     if !st.may_add(i, Some(st.chosen[k])) {
                         continue;
                     }
-                    let jn = st.j_swap(k, i);
+                    let jn = known.unwrap_or_else(|| st.j_swap(k, i));
                     if jn < cur * (1.0 - 1e-9) && best.is_none_or(|b| jn < b.0) {
                         best = Some((jn, i));
                     }
@@ -677,7 +685,7 @@ fn exchange_sequential(st: &mut State, seed: &[usize], target: f64) {
                 best
             };
             let best = match screen_swap_at(st, k, cur) {
-                None => exact_best(&mut (0..n)),
+                None => exact_best(&mut (0..n).map(|i| (i, None))),
                 Some(est) => {
                     let ub = est
                         .iter()
@@ -689,10 +697,9 @@ fn exchange_sequential(st: &mut State, seed: &[usize], target: f64) {
                         .filter(|(_, (j, e))| j.is_nan() || j - e <= ub)
                         .map(|(i, e)| (k, i, e))
                         .collect();
-                    if trusted_swaps(st, &finalists) {
-                        exact_best(&mut finalists.into_iter().map(|x| x.1))
-                    } else {
-                        exact_best(&mut (0..n))
+                    match exact_swaps(st, &finalists) {
+                        Some(x) => exact_best(&mut x.into_iter().map(|(_, i, j)| (i, j))),
+                        None => exact_best(&mut (0..n).map(|i| (i, None))),
                     }
                 }
             };
@@ -744,14 +751,14 @@ fn exchange_for_hours(st: &mut State, seed: &[usize], target: f64) {
             if !(0..n).any(cheaper) {
                 continue;
             }
-            let exact_best = |only: &mut dyn Iterator<Item = usize>| {
+            let exact_best = |only: &mut dyn Iterator<Item = (usize, Option<f64>)>| {
                 let mut best: Option<(f64, f64, usize)> = None; // hours, j, index
-                for i in only {
+                for (i, known) in only {
                     let h = st.p.cands[i].hours;
                     if h >= h_out * (1.0 - 1e-9) || !st.may_add(i, Some(st.chosen[k])) {
                         continue;
                     }
-                    let jn = st.j_swap(k, i);
+                    let jn = known.unwrap_or_else(|| st.j_swap(k, i));
                     if jn <= target && best.is_none_or(|b| (h, jn) < (b.0, b.1)) {
                         best = Some((h, jn, i));
                     }
@@ -759,7 +766,7 @@ fn exchange_for_hours(st: &mut State, seed: &[usize], target: f64) {
                 best
             };
             let best = match screen_swap_at(st, k, st.j()) {
-                None => exact_best(&mut (0..n)),
+                None => exact_best(&mut (0..n).map(|i| (i, None))),
                 Some(est) => {
                     // The fewest hours of a swap surely within the target;
                     // finalists: the swaps that may be within it at no more.
@@ -777,10 +784,9 @@ fn exchange_for_hours(st: &mut State, seed: &[usize], target: f64) {
                         })
                         .map(|(i, e)| (k, i, e))
                         .collect();
-                    if trusted_swaps(st, &finalists) {
-                        exact_best(&mut finalists.into_iter().map(|x| x.1))
-                    } else {
-                        exact_best(&mut (0..n))
+                    match exact_swaps(st, &finalists) {
+                        Some(x) => exact_best(&mut x.into_iter().map(|(_, i, j)| (i, j))),
+                        None => exact_best(&mut (0..n).map(|i| (i, None))),
                     }
                 }
             };
