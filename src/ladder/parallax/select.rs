@@ -213,13 +213,40 @@ impl Base {
     /// cannot be trusted (the candidate is then a finalist). The arithmetic
     /// is element by element the same for every candidate, whether it may
     /// be added or not (the caller filters), so the loop has no branch.
-    #[allow(clippy::needless_range_loop)] // index form mirrors the formula
+    ///
+    /// On a processor with AVX2 the same loop is compiled for it (four
+    /// candidates at a time instead of two): the same IEEE operations on
+    /// every candidate, no fused multiply-add, so the same numbers.
     fn j_plus_all(&self, pre: &Pre, est: &mut Vec<f64>, err: &mut Vec<f64>) {
         let n = pre.dt.len();
         est.clear();
         err.clear();
         est.resize(n, 0.0);
         err.resize(n, 0.0);
+        #[cfg(target_arch = "x86_64")]
+        if std::arch::is_x86_feature_detected!("avx2") {
+            // SAFETY: the processor has AVX2, checked just above.
+            unsafe { self.j_plus_avx2(pre, est, err) };
+            return;
+        }
+        self.j_plus_body(pre, est, err);
+    }
+
+    /// [`Self::j_plus_all`]'s loop compiled for AVX2.
+    ///
+    /// # Safety
+    /// Only on a processor with AVX2.
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    unsafe fn j_plus_avx2(&self, pre: &Pre, est: &mut [f64], err: &mut [f64]) {
+        self.j_plus_body(pre, est, err);
+    }
+
+    /// [`Self::j_plus_all`]'s loop, into `est` and `err` of the candidates' length.
+    #[allow(clippy::needless_range_loop)] // index form mirrors the formula
+    #[inline(always)]
+    fn j_plus_body(&self, pre: &Pre, est: &mut [f64], err: &mut [f64]) {
+        let n = pre.dt.len();
         let c = &self.c;
         let (dts, pas, pds) = (&pre.dt[..n], &pre.pa[..n], &pre.pd[..n]);
         let iws = &pre.inv_w[..n];
