@@ -443,6 +443,27 @@ pub trait Method: Send + Sync {
     fn propose(&self, s: &Setting, em: &dyn ExposureModel) -> Result<Vec<Epoch>>;
     /// The precision a set of epochs buys.
     fn predict(&self, s: &Setting, em: &dyn ExposureModel, epochs: &[Epoch]) -> Result<Prediction>;
+    /// [`Method::predict`] of `base` followed by each of `extra` in turn,
+    /// one answer per extra epoch, in order (the scheduler's fill weighs one
+    /// visit more on each night). A method may keep what the extra epoch
+    /// does not change, as long as every answer is the one `predict` gives.
+    /// Default: `predict` for each.
+    fn predict_each_extra(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        base: &[Epoch],
+        extra: &[Epoch],
+    ) -> Vec<Result<Prediction>> {
+        extra
+            .iter()
+            .map(|e| {
+                let mut with = base.to_vec();
+                with.push(e.clone());
+                self.predict(s, em, &with)
+            })
+            .collect()
+    }
     /// The epochs and hours that reach `goal_pct`, or why they cannot.
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction>;
     /// A search that answers [`Method::goal`] for several goals of one

@@ -800,7 +800,10 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                     return vec![];
                 };
                 let place = t.place();
-                let mut out = Vec::new();
+                // Each night's candidate visit first, then the method's
+                // precision with each one more (asked together: the method
+                // keeps what the extra visit does not change).
+                let mut cands: Vec<(usize, Epoch, Vec<(f64, f64)>)> = Vec::new();
                 for (ni, slot) in slots.iter().enumerate().take(fill_nights) {
                     if slot.lost || slot.capacity_s <= 0.0 {
                         continue;
@@ -853,10 +856,13 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                         airmass: airmass.unwrap_or(tpl.airmass),
                         ..tpl.clone()
                     };
-                    let mut with = mine.clone();
-                    with.push(cand.clone());
-                    let Some(s1) = m
-                        .predict(&setting, req.em, &with)
+                    cands.push((ni, cand, windows));
+                }
+                let extra: Vec<Epoch> = cands.iter().map(|c| c.1.clone()).collect();
+                let preds = m.predict_each_extra(&setting, req.em, mine, &extra);
+                let mut out = Vec::new();
+                for ((ni, cand, windows), p) in cands.into_iter().zip(preds) {
+                    let Some(s1) = p
                         .ok()
                         .and_then(|p| shown_precision(p.distance_precision_pct))
                     else {

@@ -1181,6 +1181,28 @@ impl Method for ParallaxMethod {
         self.prediction_for(s, em, planned)
     }
 
+    fn predict_each_extra(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        base: &[Epoch],
+        extra: &[Epoch],
+    ) -> Vec<Result<Prediction>> {
+        // The base's epochs and exposure rule once; `predict` itself where
+        // the base is refused (it words the refusal).
+        self.predict_each_extra_shared(s, em, base, extra)
+            .unwrap_or_else(|| {
+                extra
+                    .iter()
+                    .map(|e| {
+                        let mut with = base.to_vec();
+                        with.push(e.clone());
+                        self.predict(s, em, &with)
+                    })
+                    .collect()
+            })
+    }
+
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {
         Ok(self.goal_plan(s, em, goal_pct)?.prediction)
     }

@@ -958,7 +958,7 @@ impl ParallaxMethod {
         em: &dyn ExposureModel,
         epochs: Vec<PlannedEpoch>,
     ) -> Result<ParallaxPlan> {
-        self.plan_for_with(s, em, epochs, true)
+        self.plan_for_with(s, em, epochs, true, None)
     }
 
     /// The prediction of [`Self::plan_for`] alone: the same numbers, notes
@@ -972,17 +972,55 @@ impl ParallaxMethod {
         em: &dyn ExposureModel,
         epochs: Vec<PlannedEpoch>,
     ) -> Result<Prediction> {
-        Ok(self.plan_for_with(s, em, epochs, false)?.prediction)
+        Ok(self.plan_for_with(s, em, epochs, false, None)?.prediction)
+    }
+
+    /// [`crate::ladder::Method::predict`] of `base` followed by each of
+    /// `extra` in turn (the scheduler's fill, which weighs one visit more on
+    /// each night): the base's epochs and the exposure rule at its first
+    /// epoch are worked out once, each extra epoch on its own. Every answer
+    /// is the one `predict` gives for `base` then that epoch, bit for bit:
+    /// the same per-epoch evaluation (each epoch's is independent of the
+    /// others'), the rule at the same first epoch, the same fit. `None` when
+    /// the base itself is refused (the caller asks `predict`, which words the
+    /// refusal).
+    pub fn predict_each_extra_shared(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        base: &[Epoch],
+        extra: &[Epoch],
+    ) -> Option<Vec<Result<Prediction>>> {
+        let first = base.first()?;
+        expected_parallax_mas(s.target).ok()?;
+        let planned = self.planned_from(s, em, base).ok()?;
+        let model = Model::new(&self.cfg, s, em).ok()?;
+        let rule = model.rule(&Context::exact(s.site, first.time).ok()?).ok()?;
+        Some(
+            extra
+                .iter()
+                .map(|e| {
+                    let mut all = planned.clone();
+                    all.extend(self.planned_from(s, em, std::slice::from_ref(e))?);
+                    Ok(self
+                        .plan_for_with(s, em, all, false, Some(rule.clone()))?
+                        .prediction)
+                })
+                .collect(),
+        )
     }
 
     /// [`Self::plan_for`]; without `with_series` the plan's series is empty
     /// and its season count 0 (nothing of the prediction depends on them).
+    /// `rule`: the exposure rule at the first epoch when already worked out
+    /// there.
     fn plan_for_with(
         &self,
         s: &Setting,
         em: &dyn ExposureModel,
         epochs: Vec<PlannedEpoch>,
         with_series: bool,
+        rule: Option<ExposureRule>,
     ) -> Result<ParallaxPlan> {
         let plx = expected_parallax_mas(s.target)?;
         if epochs.is_empty() {
@@ -996,7 +1034,10 @@ impl ParallaxMethod {
             solve(&obs_of(&epochs))?;
         }
         let model = Model::new(&self.cfg, s, em)?;
-        let rule = model.rule(&Context::exact(s.site, epochs[0].epoch.time)?)?;
+        let rule = match rule {
+            Some(r) => r,
+            None => model.rule(&Context::exact(s.site, epochs[0].epoch.time)?)?,
+        };
         let (series, n) = if with_series {
             let series = self.series(s)?;
             let n = series.seasons(self.cfg.season_gap_d).len();
