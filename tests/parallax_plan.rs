@@ -241,3 +241,49 @@ fn a_three_year_plan_gives_the_parallax_errors_of_a_ccd_programme() {
         }
     }
 }
+
+/// The scheduler's fill asks the precision of a plan with one epoch more on
+/// each of many nights (`Method::predict_each_extra`); the parallax method
+/// works the base out once, and every answer must be `predict`'s for the base
+/// followed by that epoch, to the last bit (also an extra epoch earlier than
+/// the base's first, and one the method refuses).
+#[test]
+fn each_extra_epoch_is_predicted_as_predict_predicts_it() {
+    let site = rung::io::sites::resolve("pampa-lucero").unwrap();
+    let t = star("TEST-E", 61.3, -18.4, 40.0, 13.0);
+    let s = Setting {
+        site: &site,
+        target: &t,
+        from: d("2026-12-01"),
+        to: d("2027-11-30"),
+        limits: Limits::default(),
+    };
+    let m = ParallaxMethod::builtin().unwrap();
+    let cam = TestCamera::default();
+    let epochs = m.plan(&s, &cam).unwrap().prediction.epochs;
+    assert!(epochs.len() >= 6);
+    let (base, rest) = epochs.split_at(epochs.len() - 3);
+    let mut extra: Vec<rung::ladder::Epoch> = rest.to_vec();
+    extra.push(base[0].clone()); // a repeat of the first
+    let mut early = base[0].clone();
+    early.time = early.time.add_seconds(-86_400.0 * 30.0); // before the base's first
+    extra.push(early);
+    let mut bad = base[1].clone();
+    bad.exptime_s = -1.0; // refused
+    extra.push(bad);
+    let each = m.predict_each_extra(&s, &cam, base, &extra);
+    assert_eq!(each.len(), extra.len());
+    for (e, got) in extra.iter().zip(each) {
+        let mut with = base.to_vec();
+        with.push(e.clone());
+        let want = m.predict(&s, &cam, &with);
+        match (got, want) {
+            (Ok(a), Ok(b)) => assert_eq!(
+                serde_json::to_string(&a).unwrap(),
+                serde_json::to_string(&b).unwrap()
+            ),
+            (Err(a), Err(b)) => assert_eq!(a.to_string(), b.to_string()),
+            (a, b) => panic!("{a:?} vs {b:?}"),
+        }
+    }
+}
