@@ -766,6 +766,8 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
     let first_fill = groups.len();
     let fill_nights = slots.len().min(FILL_NIGHTS);
     type Fill = (usize, Epoch, f64, Vec<(f64, f64)>);
+    // A night's candidate visit: night, epoch, windows.
+    type Cand = (usize, Epoch, Vec<(f64, f64)>);
     let fills: Vec<Vec<Fill>> = {
         use rayon::prelude::*;
         base.par_iter()
@@ -803,7 +805,7 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                 // Each night's candidate visit first, then the method's
                 // precision with each one more (asked together: the method
                 // keeps what the extra visit does not change).
-                let mut cands: Vec<(usize, Epoch, Vec<(f64, f64)>)> = Vec::new();
+                let mut cands: Vec<Cand> = Vec::new();
                 for (ni, slot) in slots.iter().enumerate().take(fill_nights) {
                     if slot.lost || slot.capacity_s <= 0.0 {
                         continue;
