@@ -84,3 +84,44 @@ fn each_methods_terms_add_up_to_its_precision() {
         }
     }
 }
+
+/// The photometer's table of SNRs at one instant (several stars, several
+/// exposures, its sky and rates prepared once: `ExposureModel::snr_table`,
+/// what the parallax method's candidate instants ask) is `snr` asked one by
+/// one, to the last bit, and refuses what `snr` refuses with its words.
+#[test]
+fn the_photometers_snr_table_is_snr_asked_one_by_one() {
+    use rung::ladder::ExposureModel;
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let em = Photometer::demo(&site).unwrap();
+    let t = rung::astro::time::Instant::from_utc_calendar(2026, 12, 2, 2, 0, 0.0).unwrap();
+    let ctx = rung::astro::frames::Context::exact(&site, t).unwrap();
+    let place = rung::io::targets::Target::plain("X", 61.3, -18.4).place();
+    let mags = [11.0, 14.5, 18.25, 21.0];
+    let exptimes = [10.0, 61.0, 300.0, 1800.0];
+    for band in ["V", "I"] {
+        let table = em.snr_table(&mags, band, &exptimes, &ctx, &place).unwrap();
+        assert_eq!(table.len(), exptimes.len());
+        for (row, t_s) in table.iter().zip(exptimes) {
+            assert_eq!(row.len(), mags.len());
+            for (got, m) in row.iter().zip(mags) {
+                let want = em.snr(m, band, t_s, &ctx, &place).unwrap();
+                assert_eq!(got.to_bits(), want.to_bits(), "{band} {m} {t_s}");
+            }
+        }
+    }
+    // A band the instrument has no throughput in, and an impossible magnitude.
+    let a = em
+        .snr_table(&mags, "Q", &exptimes, &ctx, &place)
+        .unwrap_err();
+    let b = em.snr(mags[0], "Q", exptimes[0], &ctx, &place).unwrap_err();
+    assert_eq!(a.to_string(), b.to_string());
+    let bad = [14.0, f64::NAN];
+    let a = em
+        .snr_table(&bad, "V", &exptimes, &ctx, &place)
+        .unwrap_err();
+    let b = em
+        .snr(f64::NAN, "V", exptimes[0], &ctx, &place)
+        .unwrap_err();
+    assert_eq!(a.to_string(), b.to_string());
+}
