@@ -131,7 +131,25 @@ fn the_queue_takes_the_largest_rule_and_ranks_by_its_score() {
     .unwrap();
     let plan = rung::plan::file::PlanFile::new(&st, &targets, "demo".into(), 8.0, s.visits);
     let q = queue(&st, &targets, Some(&plan), now).unwrap();
-    assert_eq!(q.rows.len(), targets.len());
+    // A field is one row (its stars are observed in its visits, as the plan
+    // places them): every target but the fields' stars has its row.
+    let links = rung::ladder::field::link(&targets);
+    let members: usize = links.groups.iter().map(|g| g.members.len()).sum();
+    assert!(members >= 40, "{members}");
+    assert_eq!(q.rows.len(), targets.len() - members);
+    for g in &links.groups {
+        let f = &targets[g.field].name;
+        let row = q.rows.iter().find(|r| &r.target == f).unwrap();
+        let says = format!("field: one pointing serves its {} stars", g.members.len());
+        assert!(row.reasons.contains(&says), "{f}: {:?}", row.reasons);
+        for &m in &g.members {
+            assert!(q.rows.iter().all(|r| r.target != targets[m].name));
+            assert!(
+                plan.visits.iter().all(|v| v.target != targets[m].name),
+                "the plan has no visit of a field's star"
+            );
+        }
+    }
     let mut seen = std::collections::BTreeSet::new();
     for r in &q.rows {
         let top = r.urgency_rules.iter().map(|u| u.value).fold(0.0, f64::max);

@@ -27,6 +27,10 @@
 //! minutes, or passed and not done), 1.2 for one later tonight, 1 for a
 //! target without a visit tonight (still a candidate to fill time).
 //!
+//! A field is one unit here as in the budget and the plan: one row for the
+//! field (its visits serve every star of its pointing, and its row says how
+//! many), none for each of its stars (`crate::ladder::field::link`).
+//!
 //! Each row also says the current altitude, hour angle, airmass, Moon
 //! distance, minutes left above the limit, the exposure to take (the planned
 //! visit's, else the target's nearest planned visit's) and the Sun caution
@@ -258,7 +262,16 @@ pub fn queue(
         .transpose()?;
     let visits: &[Visit] = plan.map_or(&[], |p| &p.visits);
     let mut rows: Vec<NowRow> = Vec::new();
-    for t in targets {
+    let links = crate::ladder::field::link(targets);
+    for (ti, t) in targets.iter().enumerate() {
+        use crate::ladder::field::Role;
+        // A star of a field is observed in its field's visits: the field's
+        // row stands for it.
+        let stars = match links.role(ti) {
+            Role::Member(_) => continue,
+            Role::Field(g) => g.members.len(),
+            _ => 0,
+        };
         let place = t.place();
         let obs = ctx.observe(&place);
         let alt = obs.alt_rad.to_degrees();
@@ -310,6 +323,9 @@ pub fn queue(
                 .copied()
         });
         let mut reasons = Vec::new();
+        if stars > 0 {
+            reasons.push(format!("field: one pointing serves its {stars} stars"));
+        }
         let mut rules: Vec<Urgent> = Vec::new();
         if visible {
             let u = window_closing(minutes_left);
