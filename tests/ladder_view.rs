@@ -147,14 +147,15 @@ fn the_ladder_view_shows_the_numbers_of_rung_ladder_json() {
             );
         }
         // The budget by rung: each rung's σd/d and share of the variance.
+        let rung_text = |r: &serde_json::Value| match r.as_str().unwrap() {
+            "anchor" => "anchors",
+            "host" => "host fields",
+            "calibrator" => "calibrators",
+            "hubble_flow" => "Hubble flow",
+            _ => "relation priors",
+        };
         for r in ep["by_rung"].as_array().unwrap() {
-            let rung = match r["rung"].as_str().unwrap() {
-                "anchor" => "anchors",
-                "host" => "host fields",
-                "calibrator" => "calibrators",
-                "hubble_flow" => "Hubble flow",
-                _ => "relation priors",
-            };
+            let rung = rung_text(&r["rung"]);
             let line = row_of(&rows, &format!("  {rung} "));
             assert!(
                 line.contains(&format!("{}%", n(f(&r["distance_pct"]), 2))),
@@ -172,13 +173,7 @@ fn the_ladder_view_shows_the_numbers_of_rung_ladder_json() {
         assert!(hours.trim_end().ends_with(" h"), "cut: {hours:?}");
         let mut total = 0.0;
         for h in j["hours_by_rung"].as_array().unwrap() {
-            let rung = match h["rung"].as_str().unwrap() {
-                "anchor" => "anchors",
-                "host" => "host fields",
-                "calibrator" => "calibrators",
-                "hubble_flow" => "Hubble flow",
-                _ => "relation priors",
-            };
+            let rung = rung_text(&h["rung"]);
             total += f(&h["hours"]);
             let want = format!("{rung} {}", n(f(&h["hours"]), 1));
             assert!(hours.contains(&want), "{want:?} not in {hours:?}");

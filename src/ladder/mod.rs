@@ -455,14 +455,7 @@ pub trait Method: Send + Sync {
         base: &[Epoch],
         extra: &[Epoch],
     ) -> Vec<Result<Prediction>> {
-        extra
-            .iter()
-            .map(|e| {
-                let mut with = base.to_vec();
-                with.push(e.clone());
-                self.predict(s, em, &with)
-            })
-            .collect()
+        predict_each_by_one(self, s, em, base, extra)
     }
     /// The epochs and hours that reach `goal_pct`, or why they cannot.
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction>;
@@ -527,6 +520,26 @@ pub trait Method: Send + Sync {
     ) -> Result<Option<Prediction>> {
         one_more_by_repeat(self, s, em, planned)
     }
+}
+
+/// [`Method::predict`] of `base` followed by each of `extra`, one call each:
+/// the default of [`Method::predict_each_extra`], and what a method's own
+/// answer must equal.
+pub fn predict_each_by_one<M: Method + ?Sized>(
+    m: &M,
+    s: &Setting,
+    em: &dyn ExposureModel,
+    base: &[Epoch],
+    extra: &[Epoch],
+) -> Vec<Result<Prediction>> {
+    extra
+        .iter()
+        .map(|e| {
+            let mut with = base.to_vec();
+            with.push(e.clone());
+            m.predict(s, em, &with)
+        })
+        .collect()
 }
 
 /// Goals of one target asked one after another ([`Method::goal_search`]).

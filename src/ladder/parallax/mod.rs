@@ -1191,16 +1191,7 @@ impl Method for ParallaxMethod {
         // The base's epochs and exposure rule once; `predict` itself where
         // the base is refused (it words the refusal).
         self.predict_each_extra_shared(s, em, base, extra)
-            .unwrap_or_else(|| {
-                extra
-                    .iter()
-                    .map(|e| {
-                        let mut with = base.to_vec();
-                        with.push(e.clone());
-                        self.predict(s, em, &with)
-                    })
-                    .collect()
-            })
+            .unwrap_or_else(|| crate::ladder::predict_each_by_one(self, s, em, base, extra))
     }
 
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {
