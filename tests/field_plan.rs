@@ -55,6 +55,43 @@ fn members() -> Vec<Target> {
     ]
 }
 
+/// Each star's phases at the chosen instants: it must be covered (6 or more
+/// of `bins` bins, σm̄ < 0.05 mag: ten points spread in phase fix the mean
+/// to about σ/√10 = 0.017 mag, `mean_mag_sigma`; bunched ones leave it
+/// loose); its weight in the field's mean, 1/(σ_PL² + σm̄²), returned.
+fn covered_weights(
+    instants: &[rung::astro::bary::Bjd],
+    stars: &[rung::ladder::field::ChooserStar],
+    bins: usize,
+    k: usize,
+    sigma_pt: f64,
+    said: &dyn std::fmt::Debug,
+) -> Vec<f64> {
+    use rung::ladder::pulsator::{frac_phase, mean_mag_sigma};
+    let mut weights = Vec::new();
+    for s in stars {
+        let ph: Vec<f64> = instants
+            .iter()
+            .map(|b| frac_phase(b.days_since(s.epoch_bjd) / s.period_d))
+            .collect();
+        let mut seen = vec![false; bins];
+        for x in &ph {
+            seen[((x * bins as f64) as usize).min(bins - 1)] = true;
+        }
+        let covered = seen.iter().filter(|b| **b).count();
+        let sm = mean_mag_sigma(&ph, &vec![sigma_pt; ph.len()], k).unwrap();
+        eprintln!("P {} d: {covered} bins, σm̄ {sm:.4} ({said:?})", s.period_d);
+        assert!(
+            covered >= 6,
+            "P {} d: {covered} of {bins} bins ({said:?})",
+            s.period_d
+        );
+        assert!(sm < 0.05, "P {} d: σm̄ {sm} ({said:?})", s.period_d);
+        weights.push(1.0 / (s.scatter_mag.powi(2) + sm * sm));
+    }
+    weights
+}
+
 fn d(s: &str) -> NaiveDate {
     NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap()
 }
@@ -490,7 +527,6 @@ fn the_visits_cover_a_short_and_a_long_period_star_together() {
     use rung::astro::bary::Bjd;
     use rung::astro::time::Instant;
     use rung::ladder::field::{ChooserStar, choose_visits};
-    use rung::ladder::pulsator::{frac_phase, mean_mag_sigma};
     let jd0 = 2_461_376.5; // 2026-12-01 00:00 UTC
     let cands: Vec<(Instant, Bjd, f64, f64)> = (0..40)
         .map(|d| {
@@ -526,33 +562,8 @@ fn the_visits_cover_a_short_and_a_long_period_star_together() {
     let chosen = choose_visits(&cands, &stars, bins, k, sigma_pt, 10, 600.0);
     assert_eq!(chosen.len(), 10, "ten visits asked, forty nights offered");
     let nights: Vec<usize> = chosen.clone();
-    let mut weights = Vec::new();
-    for s in &stars {
-        let ph: Vec<f64> = chosen
-            .iter()
-            .map(|c| frac_phase(cands[*c].1.days_since(s.epoch_bjd) / s.period_d))
-            .collect();
-        let mut seen = [false; 10];
-        for x in &ph {
-            seen[((x * bins as f64) as usize).min(bins - 1)] = true;
-        }
-        let covered = seen.iter().filter(|b| **b).count();
-        let sm = mean_mag_sigma(&ph, &[sigma_pt; 10], k).unwrap();
-        eprintln!(
-            "P {} d: nights {nights:?}, {covered} bins, σm̄ {sm:.4}",
-            s.period_d
-        );
-        assert!(
-            covered >= 6,
-            "P {} d: {covered} of {bins} bins (nights {nights:?})",
-            s.period_d
-        );
-        // Ten points spread in phase fix the mean to about σ/√10 = 0.017
-        // mag (fit.rs, mean_mag_sigma); bunched ones leave it loose.
-        assert!(sm < 0.05, "P {} d: σm̄ {sm} (nights {nights:?})", s.period_d);
-        // The star's weight in the field's mean, 1/(σ_PL² + σm̄²).
-        weights.push(1.0 / (s.scatter_mag.powi(2) + sm * sm));
-    }
+    let instants: Vec<Bjd> = chosen.iter().map(|c| cands[*c].1).collect();
+    let weights = covered_weights(&instants, &stars, bins, k, sigma_pt, &nights);
     assert!(
         weights[1] >= 0.9 * weights[0],
         "the long star weighs {:.2} of the short one (nights {nights:?})",
@@ -588,7 +599,6 @@ fn long_and_short_periods_are_covered_without_costly_visits() {
     use rung::astro::bary::Bjd;
     use rung::astro::time::Instant;
     use rung::ladder::field::{ChooserStar, choose_visits};
-    use rung::ladder::pulsator::{frac_phase, mean_mag_sigma};
     let jd0 = 2_461_376.5; // 2026-12-01 00:00 UTC
     let mut cands: Vec<(Instant, Bjd, f64, f64)> = Vec::new();
     for d in 0..40 {
@@ -629,30 +639,8 @@ fn long_and_short_periods_are_covered_without_costly_visits() {
             cands[*c].3
         );
     }
-    let mut weights = Vec::new();
-    for s in &stars {
-        let ph: Vec<f64> = chosen
-            .iter()
-            .map(|c| frac_phase(cands[*c].1.days_since(s.epoch_bjd) / s.period_d))
-            .collect();
-        let mut seen = [false; 10];
-        for x in &ph {
-            seen[((x * bins as f64) as usize).min(bins - 1)] = true;
-        }
-        let covered = seen.iter().filter(|b| **b).count();
-        let sm = mean_mag_sigma(&ph, &[sigma_pt; 10], k).unwrap();
-        eprintln!(
-            "P {} d: {covered} bins, σm̄ {sm:.4} (nights, costs {nights:?})",
-            s.period_d
-        );
-        assert!(
-            covered >= 6,
-            "P {} d: {covered} bins ({nights:?})",
-            s.period_d
-        );
-        assert!(sm < 0.05, "P {} d: σm̄ {sm} ({nights:?})", s.period_d);
-        weights.push(1.0 / (s.scatter_mag.powi(2) + sm * sm));
-    }
+    let instants: Vec<Bjd> = chosen.iter().map(|c| cands[*c].1).collect();
+    let weights = covered_weights(&instants, &stars, bins, k, sigma_pt, &nights);
     let best = weights.iter().cloned().fold(0.0, f64::max);
     for (s, w) in stars.iter().zip(&weights) {
         assert!(
