@@ -490,48 +490,6 @@ impl Settings {
             .plan(&self.field_setting(targets, g), &self.photometer)
     }
 
-    /// Set `r.anchored` (or `r.anchored_why`): the field's distance on the
-    /// zero point the programme's anchors fix, the number `rung ladder`
-    /// gives (`ladder::chain::build` on `programme`, its planned host
-    /// moduli; the same as `ladder::chain::host_distance`), when the anchors
-    /// fix its relation. The field's own distance stays on the relation's
-    /// published zero point; both are shown, each with its zero point named.
-    /// A ladder that cannot be built leaves the report as it is, with the
-    /// reason in `anchored_why`.
-    pub fn anchor_field(
-        &self,
-        r: &mut crate::ladder::field::FieldReport,
-        programme: &[Target],
-        file: Option<&Path>,
-    ) {
-        use crate::ladder::chain::{build, build::SOURCE_CHAIN};
-        use crate::ladder::field::{AnchoredDistance, ZERO_POINT_ANCHORED};
-        r.anchored = None;
-        r.anchored_why = None;
-        match build(self, programme, file) {
-            Ok(l) => match l.host_moduli.get(&r.field) {
-                Some(m) if m.source == SOURCE_CHAIN => {
-                    r.anchored = Some(AnchoredDistance {
-                        distance_modulus_mag: m.modulus_mag,
-                        sigma_mu_mag: m.sigma_mag,
-                        distance_pc: 10f64.powf(m.modulus_mag / 5.0 + 1.0),
-                        distance_precision_pct: 100.0
-                            * crate::ladder::DIST_FRAC_PER_MAG
-                            * m.sigma_mag,
-                        zero_point: ZERO_POINT_ANCHORED.to_string(),
-                    })
-                }
-                _ => {
-                    r.anchored_why = Some(
-                        "no anchor of the programme fixes its relation's zero point (a star with a parallax using the same relation and band): rung ladder leaves it open"
-                            .to_string(),
-                    )
-                }
-            },
-            Err(e) => r.anchored_why = Some(format!("the ladder: {e}")),
-        }
-    }
-
     /// The same settings at another site (a choice made in the UI).
     pub fn with_site(&self, site: Site) -> Settings {
         let mut s = self.clone();
@@ -576,7 +534,7 @@ impl Settings {
     /// Budget view's request): first and last night as given, checked as
     /// every plan and budget checks a range.
     pub fn with_range(&self, from: NaiveDate, to: NaiveDate) -> Result<Settings> {
-        crate::plan::schedule::dates(from, to)?;
+        dates(from, to)?;
         let mut s = self.clone();
         s.from = from;
         s.from_asked = from;
@@ -722,6 +680,29 @@ pub fn report(settings: &Settings, target: &Target) -> Result<Report> {
         }
     };
     Ok(Report::Other(Box::new(p)))
+}
+
+/// Longest range one schedule may span, nights.
+pub const MAX_NIGHTS: usize = 3 * 366;
+
+/// The dates from `from` to `to` inclusive, checked.
+pub fn dates(from: NaiveDate, to: NaiveDate) -> Result<Vec<NaiveDate>> {
+    if from > to {
+        return Err(RungError::invalid(
+            "date range",
+            format!("--from {from} is after --to {to}"),
+        ));
+    }
+    let n = (to - from).num_days() as usize + 1;
+    if n > MAX_NIGHTS {
+        return Err(RungError::invalid(
+            "date range",
+            format!(
+                "{n} nights is longer than the {MAX_NIGHTS} nights a plan or a budget may span"
+            ),
+        ));
+    }
+    Ok(from.iter_days().take(n).collect())
 }
 
 #[cfg(test)]

@@ -954,7 +954,7 @@ fn run_field(
         }
     }
     let mut r = st.field_report(&targets, &g)?;
-    st.anchor_field(&mut r, &targets, Some(programme));
+    rung::ladder::chain::anchor_field(st, &mut r, &targets, Some(programme));
     if json {
         let mut v = serde_json::to_value(&r)?;
         if let Some(o) = v.as_object_mut() {

@@ -812,7 +812,7 @@ pub struct FieldReport {
     pub notes: Vec<String>,
     /// The field's distance on the zero point the programme's anchors fix
     /// (`rung ladder`'s), when they fix its relation
-    /// (`Settings::anchor_field`); `None` from the field's plan alone.
+    /// (`ladder::chain::anchor_field`); `None` from the field's plan alone.
     pub anchored: Option<AnchoredDistance>,
     /// Why there is no anchored distance, when asked for one and none is.
     pub anchored_why: Option<String>,

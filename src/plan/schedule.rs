@@ -70,8 +70,9 @@ use std::collections::{BTreeMap, BTreeSet, HashMap};
 
 /// Length of the sidereal day, SI seconds (common practice: 23 h 56 m 4.09 s).
 pub const SIDEREAL_DAY_S: f64 = 86_164.090_5;
-/// Longest range one schedule may span, nights.
-pub const MAX_NIGHTS: usize = 3 * 366;
+// The longest range and its check live with the settings (a range is a
+// setting); the scheduler's names for them stay.
+pub use crate::programme::{MAX_NIGHTS, dates};
 
 /// What became of a visit.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
@@ -337,26 +338,6 @@ fn flex_nights(kind: Kind) -> i64 {
         Kind::Pulsator | Kind::Transient | Kind::Field => 1,
         Kind::Plain => 0,
     }
-}
-
-/// The dates from `from` to `to` inclusive, checked.
-pub fn dates(from: NaiveDate, to: NaiveDate) -> Result<Vec<NaiveDate>> {
-    if from > to {
-        return Err(RungError::invalid(
-            "date range",
-            format!("--from {from} is after --to {to}"),
-        ));
-    }
-    let n = (to - from).num_days() as usize + 1;
-    if n > MAX_NIGHTS {
-        return Err(RungError::invalid(
-            "date range",
-            format!(
-                "{n} nights is longer than the {MAX_NIGHTS} nights a plan or a budget may span"
-            ),
-        ));
-    }
-    Ok(from.iter_days().take(n).collect())
 }
 
 struct NightSlot {

@@ -143,8 +143,12 @@ pub fn method_report(k: &MethodKey) -> MethodBody {
                     // Beside it, the distance on the anchors' zero point
                     // (`rung ladder`'s), as `rung phase --field` shows it.
                     if !k.programme.is_empty() {
-                        k.settings
-                            .anchor_field(&mut r, &k.programme, k.file.as_deref());
+                        crate::ladder::chain::anchor_field(
+                            &k.settings,
+                            &mut r,
+                            &k.programme,
+                            k.file.as_deref(),
+                        );
                     }
                     MethodBody::Field(Box::new(r))
                 }

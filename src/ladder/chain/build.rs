@@ -1360,3 +1360,44 @@ fn like_the_planned(chain: &Chain, members: &[Member]) -> Vec<Step> {
     }
     out
 }
+
+/// Set `r.anchored` (or `r.anchored_why`): the field's distance on the
+/// zero point the programme's anchors fix, the number `rung ladder`
+/// gives (`ladder::chain::build` on `programme`, its planned host
+/// moduli; the same as `ladder::chain::host_distance`), when the anchors
+/// fix its relation. The field's own distance stays on the relation's
+/// published zero point; both are shown, each with its zero point named.
+/// A ladder that cannot be built leaves the report as it is, with the
+/// reason in `anchored_why`.
+pub fn anchor_field(
+    settings: &crate::programme::Settings,
+    r: &mut crate::ladder::field::FieldReport,
+    programme: &[Target],
+    file: Option<&Path>,
+) {
+    use crate::ladder::field::{AnchoredDistance, ZERO_POINT_ANCHORED};
+    r.anchored = None;
+    r.anchored_why = None;
+    match build(settings, programme, file) {
+        Ok(l) => match l.host_moduli.get(&r.field) {
+            Some(m) if m.source == SOURCE_CHAIN => {
+                r.anchored = Some(AnchoredDistance {
+                    distance_modulus_mag: m.modulus_mag,
+                    sigma_mu_mag: m.sigma_mag,
+                    distance_pc: 10f64.powf(m.modulus_mag / 5.0 + 1.0),
+                    distance_precision_pct: 100.0
+                        * crate::ladder::DIST_FRAC_PER_MAG
+                        * m.sigma_mag,
+                    zero_point: ZERO_POINT_ANCHORED.to_string(),
+                })
+            }
+            _ => {
+                r.anchored_why = Some(
+                    "no anchor of the programme fixes its relation's zero point (a star with a parallax using the same relation and band): rung ladder leaves it open"
+                        .to_string(),
+                )
+            }
+        },
+        Err(e) => r.anchored_why = Some(format!("the ladder: {e}")),
+    }
+}

@@ -14,7 +14,9 @@ pub mod model;
 pub mod next;
 pub mod report;
 
-pub use build::{HostDistance, HostModulus, Ladder, Member, Role, build, host_distance};
+pub use build::{
+    HostDistance, HostModulus, Ladder, Member, Role, anchor_field, build, host_distance,
+};
 pub use model::{
     Budget, Chain, ChainError, EndPoint, Observation, Param, Rung, Share, Solution, Term,
     h0_from_intercept, parallax_modulus, parallax_modulus_bias_mag,
