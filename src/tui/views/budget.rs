@@ -13,9 +13,9 @@ use crate::tui::keymap::{Scope, keys_for};
 use crate::tui::state::{State, scroll_offset};
 use crate::tui::theme::kind_glyph;
 use crate::tui::views::fmt::{centered, fit, goal, put, rfit};
+use crate::tui::views::overlays::{frame, text_window};
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
-use ratatui::widgets::{Block, Borders, Clear, Widget};
 
 /// A share's status in a few words (the verdict column's tail).
 fn status(sh: &Share) -> String {
@@ -347,17 +347,6 @@ pub fn pack(parts: Vec<String>, w: usize, max: usize, sep: &str) -> Vec<String> 
     lines
 }
 
-fn frame(title: &str, area: Rect, buf: &mut Buffer, s: &State) -> Rect {
-    Clear.render(area, buf);
-    let b = Block::default()
-        .borders(Borders::ALL)
-        .title(format!(" {title} "))
-        .title_style(s.theme.title());
-    let inner = b.inner(area);
-    b.render(area, buf);
-    inner
-}
-
 /// The request form: hours asked, range, export folder.
 pub fn ask_form(s: &State, f: &AskForm, area: Rect, buf: &mut Buffer) {
     let h = (FIELDS.len() as u16 * 2 + 5).min(area.height);
@@ -440,26 +429,16 @@ pub fn exported(s: &State, files: &[std::path::PathBuf], area: Rect, buf: &mut B
     for f in files {
         lines.extend(wrap(&f.display().to_string(), w));
     }
-    let h = (lines.len() as u16 + 3).min(area.height);
-    let r = centered(area, 100, h);
-    let inner = frame("Exported", r, buf, s);
-    let rows = inner.height.saturating_sub(1) as usize;
-    for (i, l) in lines.iter().take(rows).enumerate() {
-        put(
-            buf,
-            inner.x,
-            inner.y + i as u16,
-            l,
-            inner.width,
-            s.theme.text(),
-        );
-    }
-    put(
+    text_window(
+        s,
+        area,
         buf,
-        inner.x,
-        inner.y + inner.height.saturating_sub(1),
-        "any key closes",
-        inner.width,
+        "Exported",
+        100,
+        &lines,
+        s.theme.text(),
+        0,
+        &|_| "any key closes".to_string(),
         s.theme.dim(),
     );
 }

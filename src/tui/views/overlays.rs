@@ -10,7 +10,8 @@ use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
 use ratatui::widgets::{Block, Borders, Clear, Widget};
 
-fn frame(title: &str, area: Rect, buf: &mut Buffer, s: &State) -> Rect {
+/// A cleared, bordered window titled `title` over `area`: its inside.
+pub(crate) fn frame(title: &str, area: Rect, buf: &mut Buffer, s: &State) -> Rect {
     Clear.render(area, buf);
     let b = Block::default()
         .borders(Borders::ALL)
@@ -19,6 +20,39 @@ fn frame(title: &str, area: Rect, buf: &mut Buffer, s: &State) -> Rect {
     let inner = b.inner(area);
     b.render(area, buf);
     inner
+}
+
+/// A window of text: centred in `area`, at most `max_w` wide, `lines`
+/// (wrapped already) from its top in `style`, as many as fit above `gap`
+/// blank rows and the foot line, and on its last row the foot `foot(shown)`
+/// (`shown`: the lines that fit) in `foot_style`.
+#[allow(clippy::too_many_arguments)]
+pub(crate) fn text_window(
+    s: &State,
+    area: Rect,
+    buf: &mut Buffer,
+    title: &str,
+    max_w: u16,
+    lines: &[String],
+    style: ratatui::style::Style,
+    gap: u16,
+    foot: &dyn Fn(usize) -> String,
+    foot_style: ratatui::style::Style,
+) {
+    let h = (lines.len() as u16 + 3 + gap).min(area.height);
+    let inner = frame(title, centered(area, max_w, h), buf, s);
+    let shown = inner.height.saturating_sub(1 + gap) as usize;
+    for (i, l) in lines.iter().take(shown).enumerate() {
+        put(buf, inner.x, inner.y + i as u16, l, inner.width, style);
+    }
+    put(
+        buf,
+        inner.x,
+        inner.y + inner.height.saturating_sub(1),
+        &foot(shown.min(lines.len())),
+        inner.width,
+        foot_style,
+    );
 }
 
 /// The help lines: every scope of the key table.
@@ -247,32 +281,21 @@ pub fn question(s: &State, q: &Question, area: Rect, buf: &mut Buffer) {
         ),
     };
     let w = area.width.min(64).saturating_sub(2).max(1) as usize;
-    let lines = wrap(&text, w);
-    let h = (lines.len() as u16 + 4).min(area.height);
-    let r = centered(area, 64, h);
-    let inner = frame(title, r, buf, s);
-    let text_rows = inner.height.saturating_sub(2) as usize;
-    for (i, l) in lines.iter().take(text_rows).enumerate() {
-        put(
-            buf,
-            inner.x,
-            inner.y + i as u16,
-            l,
-            inner.width,
-            s.theme.notice(),
-        );
-    }
     let keys = format!(
         "{} yes · {} no",
         keys_for(Scope::Question, Action::Yes),
         keys_for(Scope::Question, Action::No)
     );
-    put(
+    text_window(
+        s,
+        area,
         buf,
-        inner.x,
-        inner.y + inner.height.saturating_sub(1),
-        &keys,
-        inner.width,
+        title,
+        64,
+        &wrap(&text, w),
+        s.theme.notice(),
+        1,
+        &|_| keys.clone(),
         s.theme.text(),
     );
 }
@@ -331,34 +354,26 @@ fn notes_window(s: &State, notes: &[String], area: Rect, buf: &mut Buffer) {
         }
         lines.extend(wrap(n, w));
     }
-    let h = (lines.len() as u16 + 4).min(area.height);
-    let r = centered(area, 78, h);
-    let inner = frame(&format!("Notes ({})", notes.len()), r, buf, s);
-    let text_rows = inner.height.saturating_sub(2) as usize;
-    for (i, l) in lines.iter().take(text_rows).enumerate() {
-        put(
-            buf,
-            inner.x,
-            inner.y + i as u16,
-            l,
-            inner.width,
-            s.theme.text(),
-        );
-    }
-    let keys = if lines.len() > text_rows {
-        format!(
-            "{} more lines not shown (rung phase --json has them all) · any key closes",
-            lines.len() - text_rows
-        )
-    } else {
-        "any key closes".to_string()
-    };
-    put(
+    let n = lines.len();
+    text_window(
+        s,
+        area,
         buf,
-        inner.x,
-        inner.y + inner.height.saturating_sub(1),
-        &keys,
-        inner.width,
+        &format!("Notes ({})", notes.len()),
+        78,
+        &lines,
+        s.theme.text(),
+        1,
+        &|shown| {
+            if n > shown {
+                format!(
+                    "{} more lines not shown (rung phase --json has them all) · any key closes",
+                    n - shown
+                )
+            } else {
+                "any key closes".to_string()
+            }
+        },
         s.theme.dim(),
     );
 }
