@@ -12,11 +12,14 @@
 //! an unclosed quote can never swallow the rest of a file. A quote inside an
 //! unquoted field is an ordinary character (`12"`).
 
-use crate::io::kinds::MAX_FIELD_BYTES;
 use std::collections::VecDeque;
 use std::io::BufRead;
 use std::ops::Range;
 use std::sync::Arc;
+
+/// Longest accepted field, bytes (in a CSV or a TOML targets file). Longer
+/// fields are rejected, not loaded.
+pub const MAX_FIELD_BYTES: usize = 4096;
 
 /// Longest accepted physical line of a CSV targets file, bytes. A longer line
 /// must hold a field over [`MAX_FIELD_BYTES`] (24 known columns of at most

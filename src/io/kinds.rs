@@ -24,8 +24,7 @@ use std::sync::Arc;
 pub const VALID_FROM_EPOCH_YR: f64 = 1960.0;
 /// Latest accepted catalogue epoch `epoch_yr` (Julian year, TT); rung's valid span ends with 2099.
 pub const VALID_TO_EPOCH_YR: f64 = 2100.0;
-/// Longest accepted field, bytes. Longer fields are rejected, not loaded.
-pub const MAX_FIELD_BYTES: usize = 4096;
+pub use crate::io::csv_text::MAX_FIELD_BYTES;
 /// Photometric bands a target may name (the `band` field's choices): the
 /// optical U B V R I and the near-infrared J H K.
 pub const BANDS: [&str; 8] = ["U", "B", "V", "R", "I", "J", "H", "K"];

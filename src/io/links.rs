@@ -85,7 +85,7 @@ pub fn line_of(text: &str, file: &Path, name: &str) -> Option<usize> {
     {
         let doc: toml::Table = text.parse().ok()?;
         let list = doc.get("target")?.as_array()?;
-        let lines = crate::io::targets::array_table_lines(text, "target", list.len());
+        let lines = array_table_lines(text, "target", list.len());
         let i = list
             .iter()
             .position(|t| t.get("name").and_then(|v| v.as_str()) == Some(name))?;
@@ -112,4 +112,33 @@ pub fn line_of(text: &str, file: &Path, name: &str) -> Option<usize> {
         }
     }
     None
+}
+
+/// The 1-based lines of the `[[name]]` headers of a TOML text, one per
+/// table of the array (spaces inside the brackets, quoted names and trailing
+/// comments allowed). When they cannot be matched one to one with the
+/// `count` tables (tables written inline, or a header-like line inside a
+/// multi-line string), all are 0, "line not known", rather than wrong.
+pub(crate) fn array_table_lines(text: &str, name: &str, count: usize) -> Vec<usize> {
+    let lines: Vec<usize> = text
+        .lines()
+        .enumerate()
+        .filter(|(_, l)| {
+            let t = l.trim();
+            t.strip_prefix("[[")
+                .and_then(|r| r.split_once("]]"))
+                .is_some_and(|(inner, rest)| {
+                    let inner = inner.trim();
+                    let rest = rest.trim_start();
+                    (inner == name || inner.trim_matches(['"', '\'']) == name)
+                        && (rest.is_empty() || rest.starts_with('#'))
+                })
+        })
+        .map(|(i, _)| i + 1)
+        .collect();
+    if lines.len() == count {
+        lines
+    } else {
+        vec![0; count]
+    }
 }

@@ -615,7 +615,7 @@ fn toml_text(text: &str, file: &Path, keep: bool) -> Loaded {
         return out;
     };
     // Lines of the [[target]] headers, to place errors.
-    let header_lines = array_table_lines(text, "target", list.len());
+    let header_lines = crate::io::links::array_table_lines(text, "target", list.len());
     let mut seen = Seen::new();
     for (i, item) in list.iter().enumerate() {
         let line = header_lines.get(i).copied().unwrap_or(0);
@@ -675,35 +675,6 @@ fn toml_text(text: &str, file: &Path, keep: bool) -> Loaded {
         }
     }
     out
-}
-
-/// The 1-based lines of the `[[name]]` headers of a TOML text, one per
-/// table of the array (spaces inside the brackets, quoted names and trailing
-/// comments allowed). When they cannot be matched one to one with the
-/// `count` tables (tables written inline, or a header-like line inside a
-/// multi-line string), all are 0, "line not known", rather than wrong.
-pub(crate) fn array_table_lines(text: &str, name: &str, count: usize) -> Vec<usize> {
-    let lines: Vec<usize> = text
-        .lines()
-        .enumerate()
-        .filter(|(_, l)| {
-            let t = l.trim();
-            t.strip_prefix("[[")
-                .and_then(|r| r.split_once("]]"))
-                .is_some_and(|(inner, rest)| {
-                    let inner = inner.trim();
-                    let rest = rest.trim_start();
-                    (inner == name || inner.trim_matches(['"', '\'']) == name)
-                        && (rest.is_empty() || rest.starts_with('#'))
-                })
-        })
-        .map(|(i, _)| i + 1)
-        .collect();
-    if lines.len() == count {
-        lines
-    } else {
-        vec![0; count]
-    }
 }
 
 /// Read a targets file (by extension: `.toml`, else CSV). CSV is always read
