@@ -510,6 +510,8 @@ struct Kept {
     series: Option<Series>,
     slots: Option<Arc<Vec<Slot>>>,
     horizon: Option<Arc<Horizon>>,
+    /// The selections' kept steps (the range's and the horizon's problems).
+    memo: select::Memo,
 }
 
 /// The range's offered nights continued to the horizon, one instant a night
@@ -710,7 +712,28 @@ fn choose(
     min_baseline_yr: f64,
     min_epochs: usize,
 ) -> Design {
-    let d = choose_baseline(cands, max_per_season, stop, min_baseline_yr);
+    let memo = &mut select::Memo::default();
+    choose_kept(
+        cands,
+        max_per_season,
+        stop,
+        min_baseline_yr,
+        min_epochs,
+        memo,
+    )
+}
+
+/// [`choose`], its selections keeping their work in `memo` for the next
+/// goal (the same answers, see [`select::Memo`]).
+fn choose_kept(
+    cands: &[Candidate],
+    max_per_season: usize,
+    stop: Stop,
+    min_baseline_yr: f64,
+    min_epochs: usize,
+    memo: &mut select::Memo,
+) -> Design {
+    let d = choose_baseline(cands, max_per_season, stop, min_baseline_yr, memo);
     if d.chosen.len() >= min_epochs || d.chosen.is_empty() || !d.j().is_finite() {
         return d;
     }
@@ -721,7 +744,7 @@ fn choose(
         t_ref,
         max_per_season,
     };
-    select::select(p, &d.chosen, Stop::Count(min_epochs))
+    select::select_with(p, &d.chosen, Stop::Count(min_epochs), memo)
 }
 
 fn choose_baseline(
@@ -729,6 +752,7 @@ fn choose_baseline(
     max_per_season: usize,
     stop: Stop,
     min_baseline_yr: f64,
+    memo: &mut select::Memo,
 ) -> Design {
     if cands.is_empty() {
         return Design {
@@ -744,7 +768,7 @@ fn choose_baseline(
         t_ref,
         max_per_season,
     };
-    let d = select::select(p, &[], stop);
+    let d = select::select_with(p, &[], stop, memo);
     if baseline_of(cands, &d) >= min_baseline_yr {
         return d;
     }
@@ -762,7 +786,7 @@ fn choose_baseline(
     let last = by(&|x, y| x > y + 1e-3);
     match (first, last) {
         (Some(a), Some(b)) if cands[b].t_yr - cands[a].t_yr >= min_baseline_yr => {
-            let d2 = select::select(p, &[a, b], stop);
+            let d2 = select::select_with(p, &[a, b], stop, memo);
             if baseline_of(cands, &d2) >= baseline_of(cands, &d) {
                 d2
             } else {
@@ -1364,12 +1388,13 @@ impl ParallaxMethod {
         let mut range_best: Option<(f64, f64)> = None; // J, baseline
         for level in 0..rule.levels.len() {
             let cands = candidates(&model, &slots, level, &t_of, &|i| season_of[i]);
-            let d = choose(
+            let d = choose_kept(
                 &cands,
                 cap,
                 Stop::Target(target_j),
                 minb,
                 self.cfg.min_epochs as usize,
+                &mut kept.memo,
             );
             let b = baseline_of(&cands, &d);
             if range_best.is_none_or(|r| d.j() < r.0) {
@@ -1732,17 +1757,19 @@ impl ParallaxMethod {
         // answer is asked again for the cheapest level.
         type Met = (bool, Design, Vec<Candidate>);
         let memo: std::cell::RefCell<Vec<((usize, usize), Met)>> = Default::default();
+        let sel = std::cell::RefCell::new(&mut kept.memo);
         let met_at = |k: usize, l: usize| -> Met {
             if let Some((_, m)) = memo.borrow().iter().find(|(key, _)| *key == (k, l)) {
                 return m.clone();
             }
             let cands: Vec<Candidate> = all[l].iter().filter(|c| c.season < k).cloned().collect();
-            let d = choose(
+            let d = choose_kept(
                 &cands,
                 cap,
                 Stop::Target(target_j),
                 minb,
                 self.cfg.min_epochs as usize,
+                &mut sel.borrow_mut(),
             );
             let ok = d.j() <= target_j && baseline_of(&cands, &d) >= minb - 1e-9;
             memo.borrow_mut()

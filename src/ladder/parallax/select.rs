@@ -396,6 +396,15 @@ impl<'a> State<'a> {
         j_of(self.acc.score())
     }
 
+    /// The k-th chosen epoch swapped for candidate `i`, which takes its
+    /// position.
+    fn swap_in(&mut self, k: usize, i: usize) {
+        self.remove_at(k);
+        self.push(i);
+        let last = self.chosen.len() - 1;
+        self.chosen.swap(k.min(last), last);
+    }
+
     /// J with candidate `i` added.
     fn j_with(&self, i: usize) -> f64 {
         let mut a = self.acc;
@@ -424,11 +433,117 @@ impl<'a> State<'a> {
 /// [`Stop::Target`], once J is reached, removals and swaps that save hours
 /// while J stays reached. Deterministic for the same input.
 pub fn select(p: Problem, seed: &[usize], stop: Stop) -> Design {
-    let pre = Pre::of(&p);
-    let (first, first_pick) = run(p, &pre, seed, None, stop);
-    if !matches!(stop, Stop::Count(_)) || p.cands.is_empty() {
-        return first;
+    select_inner(p, seed, stop, None)
+}
+
+/// [`select`], keeping in `memo` what the search of the same problem and
+/// seed finds for the next call with another stop (the same answers, see
+/// [`Memo`]).
+pub fn select_with(p: Problem, seed: &[usize], stop: Stop, memo: &mut Memo) -> Design {
+    let e = memo.entry(p, seed);
+    if let Stop::Count(k) = stop
+        && let Some((_, d)) = e.count.iter().find(|(kk, _)| *kk == k)
+    {
+        return d.clone();
     }
+    let d = select_inner(p, seed, stop, Some(&mut e.trails));
+    if let Stop::Count(k) = stop {
+        e.count.push((k, d.clone()));
+    }
+    d
+}
+
+/// What searches of one problem (its candidates, reference epoch, cap) and
+/// seed found, kept for the next search of the same problem and seed with
+/// another stop: the goals of one target ask the same problems with
+/// targets J one after another.
+///
+/// The greedy search with [`Stop::Target`] chooses each step by the fall of
+/// J per hour, which does not depend on the target: with any target it
+/// takes the same candidates in the same order and only stops sooner or
+/// later (at the first state whose J is reached). Its steps are kept (the
+/// candidates taken and the J of each state), so another target replays
+/// the states (the same additions in the same order, so the same normal
+/// matrix to the last bit) up to its stop, and searches on from the last
+/// kept state only when the target is tighter than any kept J. Likewise the
+/// exchange of a design that does not reach its target
+/// (`exchange_sequential`) starts from the same state (the greedy search
+/// ran out of candidates) and swaps by a rule without the target, which it
+/// only checks before each position: its checks and swaps are kept and
+/// replayed. A [`Stop::Count`] search's whole answer is kept.
+#[derive(Default)]
+pub struct Memo {
+    entries: Vec<Entry>,
+}
+
+struct Entry {
+    cands: Vec<Candidate>,
+    t_ref: f64,
+    max_per_season: usize,
+    seed: Vec<usize>,
+    count: Vec<(usize, Design)>,
+    trails: Trails,
+}
+
+impl Memo {
+    fn entry(&mut self, p: Problem, seed: &[usize]) -> &mut Entry {
+        let at = self.entries.iter().position(|e| {
+            e.t_ref.to_bits() == p.t_ref.to_bits()
+                && e.max_per_season == p.max_per_season
+                && e.seed == seed
+                && e.cands == p.cands
+        });
+        let at = at.unwrap_or_else(|| {
+            self.entries.push(Entry {
+                cands: p.cands.to_vec(),
+                t_ref: p.t_ref,
+                max_per_season: p.max_per_season,
+                seed: seed.to_vec(),
+                count: Vec::new(),
+                trails: Trails::default(),
+            });
+            self.entries.len() - 1
+        });
+        &mut self.entries[at]
+    }
+}
+
+/// The kept steps of one problem and seed (see [`Memo`]).
+#[derive(Default)]
+struct Trails {
+    /// The greedy search by J per hour: the candidates taken, in order.
+    picks: Vec<usize>,
+    /// J of the seed and of each state after it (`picks.len()` or one more
+    /// entries: the last state's J is kept when it was computed).
+    js: Vec<f64>,
+    /// Whether no candidate could be added to the last state.
+    exhausted: bool,
+    /// The exchange of the exhausted design (`exchange_sequential`).
+    seq: Vec<SeqEvent>,
+    /// Where that exchange goes on: (pass, position, improved in the pass)
+    /// of its last check; None when it ran to its end (or has not begun:
+    /// see `seq_begun`).
+    seq_at: Option<(usize, usize, bool)>,
+    seq_begun: bool,
+}
+
+/// One step of `exchange_sequential`.
+#[derive(Clone, Copy)]
+enum SeqEvent {
+    /// J checked against the target before a position.
+    Check(f64),
+    /// The epoch at this position swapped for this candidate.
+    Swap(usize, usize),
+}
+
+/// [`select`], replaying and keeping a [`Stop::Target`] search's steps in
+/// `trails` when given.
+fn select_inner(p: Problem, seed: &[usize], stop: Stop, trails: Option<&mut Trails>) -> Design {
+    let pre = Pre::of(&p);
+    if !matches!(stop, Stop::Count(_)) || p.cands.is_empty() {
+        return run(p, &pre, seed, None, stop, trails).0;
+    }
+    let (first, first_pick) = run(p, &pre, seed, None, stop, None);
     // Exchange stops at a local optimum of single swaps: start again from
     // each extreme of the RA factor and keep the best (greedy starts that
     // differ in the first, prior-dominated steps).
@@ -444,7 +559,7 @@ pub fn select(p: Problem, seed: &[usize], stop: Stop) -> Design {
         if first_pick == Some(start) || !admissible_after(p, &pre, seed, start) {
             continue;
         }
-        let (d, _) = run(p, &pre, seed, Some(start), stop);
+        let (d, _) = run(p, &pre, seed, Some(start), stop, None);
         if d.j() < best.j() * (1.0 - 1e-12) {
             best = d;
         }
@@ -473,6 +588,7 @@ fn run(
     seed: &[usize],
     start: Option<usize>,
     stop: Stop,
+    mut trails: Option<&mut Trails>,
 ) -> (Design, Option<usize>) {
     let mut st = State::new(p, pre);
     for &i in seed {
@@ -488,8 +604,27 @@ fn run(
     }
     let n = p.cands.len();
     let (mut est, mut err) = (Vec::new(), Vec::new());
-    loop {
+    // The kept steps of this search with other targets (see [`Memo`]):
+    // their states up to this target's stop, or all of them.
+    if let Stop::Count(_) = stop {
+        trails = None;
+    }
+    let mut greedy_done = false;
+    if let (Some(tr), Stop::Target(t)) = (trails.as_deref_mut(), stop) {
+        let upto = tr.js.iter().position(|j| *j <= t);
+        for &i in &tr.picks[..upto.unwrap_or(tr.picks.len())] {
+            first_pick.get_or_insert(i);
+            st.push(i);
+        }
+        greedy_done = upto.is_some() || tr.exhausted;
+    }
+    while !greedy_done {
         let cur = st.j();
+        if let Some(tr) = trails.as_deref_mut()
+            && tr.js.len() == tr.picks.len()
+        {
+            tr.js.push(cur);
+        }
         let done = match stop {
             Stop::Count(k) => st.chosen.len() >= k,
             Stop::Target(t) => cur <= t,
@@ -556,8 +691,16 @@ fn run(
             Some((_, i)) => {
                 first_pick.get_or_insert(i);
                 st.push(i);
+                if let Some(tr) = trails.as_deref_mut() {
+                    tr.picks.push(i);
+                }
             }
-            None => break,
+            None => {
+                if let Some(tr) = trails.as_deref_mut() {
+                    tr.exhausted = true;
+                }
+                break;
+            }
         }
     }
     match stop {
@@ -571,7 +714,10 @@ fn run(
         // position by position, the best swap, until J is reached or a pass
         // changes nothing (Fedorov's full exchange would cost k times more
         // on the long horizon designs this case meets).
-        Stop::Target(t) => exchange_sequential(&mut st, seed, t),
+        Stop::Target(t) => match trails {
+            Some(tr) => exchange_sequential(&mut st, seed, t, tr),
+            None => exchange_sequential(&mut st, seed, t, &mut Trails::default()),
+        },
     }
     (evaluate(&p, &st.chosen), first_pick)
 }
@@ -686,16 +832,44 @@ fn exchange_for_j(st: &mut State, seed: &[usize]) {
     }
 }
 
-fn exchange_sequential(st: &mut State, seed: &[usize], target: f64) {
+/// Position by position, the swap that lowers J the most, two passes at
+/// most, until J ≤ `target`. The state must be the exhausted greedy design
+/// of the problem `trail` belongs to: the kept checks and swaps are
+/// replayed up to this target's stop, then the exchange goes on from the
+/// last kept check and keeps its steps (see [`Memo`]).
+fn exchange_sequential(st: &mut State, seed: &[usize], target: f64, trail: &mut Trails) {
+    for ev in &trail.seq {
+        match *ev {
+            SeqEvent::Check(cur) if cur <= target => return,
+            SeqEvent::Check(_) => {}
+            SeqEvent::Swap(k, i) => st.swap_in(k, i),
+        }
+    }
+    let (pass0, k0, improved0) = if !trail.seq_begun {
+        trail.seq_begun = true;
+        (0, 0, false)
+    } else {
+        match trail.seq_at {
+            None => return,
+            Some(at) => {
+                // The last kept check is made again (the same J).
+                trail.seq.pop();
+                at
+            }
+        }
+    };
     let n = st.p.cands.len();
-    for _ in 0..2 {
-        let mut improved = false;
-        for k in 0..st.chosen.len() {
+    let (mut pass, mut k, mut improved) = (pass0, k0, improved0);
+    while pass < 2 {
+        while k < st.chosen.len() {
             if seed.contains(&st.chosen[k]) {
+                k += 1;
                 continue;
             }
             let cur = st.j();
+            trail.seq.push(SeqEvent::Check(cur));
             if cur <= target {
+                trail.seq_at = Some((pass, k, improved));
                 return;
             }
             let exact_best = |only: &mut dyn Iterator<Item = (usize, Option<f64>)>| {
@@ -731,17 +905,20 @@ fn exchange_sequential(st: &mut State, seed: &[usize], target: f64) {
                 }
             };
             if let Some((_, i)) = best {
-                st.remove_at(k);
-                st.push(i);
-                let last = st.chosen.len() - 1;
-                st.chosen.swap(k.min(last), last);
+                st.swap_in(k, i);
+                trail.seq.push(SeqEvent::Swap(k, i));
                 improved = true;
             }
+            k += 1;
         }
         if !improved {
-            return;
+            break;
         }
+        pass += 1;
+        k = 0;
+        improved = false;
     }
+    trail.seq_at = None;
 }
 
 /// Drop epochs (the costliest first) while J stays ≤ `target`.
