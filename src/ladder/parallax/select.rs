@@ -165,6 +165,10 @@ struct Pre {
     inv_w: Vec<f64>,
     /// w Aᵀ d, element by element (the candidate's share of the DCR vector).
     wad: [Vec<f64>; 5],
+    /// Each candidate's dense slot and season numbers (see [`dense`]) and
+    /// their counts, for every search's state.
+    slots: (Vec<usize>, usize),
+    seasons: (Vec<usize>, usize),
 }
 
 impl Pre {
@@ -176,6 +180,8 @@ impl Pre {
             pd: Vec::with_capacity(n),
             inv_w: Vec::with_capacity(n),
             wad: std::array::from_fn(|_| Vec::with_capacity(n)),
+            slots: dense(p.cands, |c| c.slot),
+            seasons: dense(p.cands, |c| c.season),
         };
         for cand in p.cands {
             let w = 1.0 / (cand.sigma_mas * cand.sigma_mas);
@@ -351,8 +357,8 @@ struct State<'a> {
 
 impl<'a> State<'a> {
     fn new(p: Problem<'a>, pre: &'a Pre) -> Self {
-        let (slot_of, n_slots) = dense(p.cands, |c| c.slot);
-        let (season_of, n_seasons) = dense(p.cands, |c| c.season);
+        let (slot_of, n_slots) = pre.slots.clone();
+        let (season_of, n_seasons) = pre.seasons.clone();
         State {
             p,
             pre,
@@ -749,22 +755,35 @@ fn screen_swap_at(st: &State, k: usize, cur: f64) -> Option<Vec<(usize, (f64, f6
 /// that would take its place and the estimate of J with its error bound.
 type Swap = (usize, usize, (f64, f64));
 
-/// [`screen_swap_at`] for every chosen epoch not in the seed, as
-/// (position, candidate, estimate); None when screening does not apply to
-/// one of them.
-fn screen_swaps(st: &State, seed: &[usize], cur: f64) -> Option<Vec<Swap>> {
-    let mut out = Vec::new();
+/// [`screen_swap_at`]'s estimates for every chosen epoch not in the seed:
+/// the positions screened, each one's estimates and bounds for every
+/// candidate (admissible or not) in `bufs`; None when screening does not
+/// apply to one of them. The buffers are kept from step to step.
+fn screen_swaps(
+    st: &State,
+    seed: &[usize],
+    cur: f64,
+    bufs: &mut Vec<(Vec<f64>, Vec<f64>)>,
+) -> Option<Vec<usize>> {
+    if !cur.is_finite() || st.chosen.len() < SCREEN_MIN_EPOCHS + 1 {
+        return None;
+    }
+    let mut free = Vec::new();
     for k in 0..st.chosen.len() {
         if seed.contains(&st.chosen[k]) {
             continue;
         }
-        out.extend(
-            screen_swap_at(st, k, cur)?
-                .into_iter()
-                .map(|(i, e)| (k, i, e)),
-        );
+        let mut acc = st.acc;
+        acc.add(&st.p.cands[st.chosen[k]], st.p.t_ref, -1.0);
+        let base = Base::of(&acc)?;
+        if bufs.len() <= free.len() {
+            bufs.push((Vec::new(), Vec::new()));
+        }
+        let (est, err) = &mut bufs[free.len()];
+        base.j_plus_all(st.pre, est, err);
+        free.push(k);
     }
-    Some(out)
+    Some(free)
 }
 
 /// Every finalist's exact J (position, candidate, J), when each lies within
@@ -784,6 +803,7 @@ fn exact_swaps(st: &State, finalists: &[Swap]) -> Option<Vec<(usize, usize, Opti
 fn exchange_for_j(st: &mut State, seed: &[usize]) {
     let n = st.p.cands.len();
     let max_swaps = PASSES * st.chosen.len().max(1);
+    let mut bufs = Vec::new();
     for _ in 0..max_swaps {
         let cur = st.j();
         let exact_best = |pairs: &mut dyn Iterator<Item = (usize, usize, Option<f64>)>| {
@@ -803,19 +823,32 @@ fn exchange_for_j(st: &mut State, seed: &[usize]) {
             let m = st.chosen.len();
             (0..m).flat_map(move |k| (0..n).map(move |i| (k, i, None)))
         };
-        let best = match screen_swaps(st, seed, cur) {
+        let best = match screen_swaps(st, seed, cur, &mut bufs) {
             None => exact_best(&mut all(st)),
-            Some(est) => {
-                // The smallest J surely reached, and the finalists.
-                let ub = est
-                    .iter()
-                    .filter(|(_, _, (j, _))| j.is_finite())
-                    .map(|(_, _, (j, e))| j + e)
-                    .fold(cur * (1.0 - 1e-9), f64::min);
-                let finalists: Vec<Swap> = est
-                    .into_iter()
-                    .filter(|(_, _, (j, e))| j.is_nan() || j - e <= ub)
-                    .collect();
+            Some(free) => {
+                // The smallest J surely reached over the admissible swaps
+                // (a minimum: the order of the terms does not matter), and
+                // the finalists, position by position in candidate order.
+                let mut ub = cur * (1.0 - 1e-9);
+                for (slot, &k) in free.iter().enumerate() {
+                    let (est, err) = &bufs[slot];
+                    let out = Some(st.chosen[k]);
+                    for i in 0..n {
+                        if est[i].is_finite() && st.may_add(i, out) {
+                            ub = f64::min(ub, est[i] + err[i]);
+                        }
+                    }
+                }
+                let mut finalists: Vec<Swap> = Vec::new();
+                for (slot, &k) in free.iter().enumerate() {
+                    let (est, err) = &bufs[slot];
+                    let out = Some(st.chosen[k]);
+                    for i in 0..n {
+                        if (est[i].is_nan() || est[i] - err[i] <= ub) && st.may_add(i, out) {
+                            finalists.push((k, i, (est[i], err[i])));
+                        }
+                    }
+                }
                 match exact_swaps(st, &finalists) {
                     Some(x) => exact_best(&mut x.into_iter()),
                     None => exact_best(&mut all(st)),
