@@ -376,6 +376,128 @@ pub fn push_iso(buf: &mut Vec<u8>, unix_s: f64) {
     buf.push(b'Z');
 }
 
+/// An instant as JSON writes it (`Instant::iso`: rounded to the second,
+/// `YYYY-MM-DDTHH:MM:SSZ`, a leap second as `:60`), the digits written
+/// straight into `buf` instead of through a formatting pattern.
+pub fn push_instant(buf: &mut Vec<u8>, t: crate::astro::time::Instant) {
+    use chrono::{Datelike, Timelike};
+    let dt = t.round_to_second().to_datetime();
+    push_padded(buf, dt.year().max(0) as u64, 4);
+    buf.push(b'-');
+    push2(buf, dt.month() as usize);
+    buf.push(b'-');
+    push2(buf, dt.day() as usize);
+    buf.push(b'T');
+    push2(buf, dt.hour() as usize);
+    buf.push(b':');
+    push2(buf, dt.minute() as usize);
+    buf.push(b':');
+    let leap = usize::from(dt.nanosecond() >= 1_000_000_000);
+    push2(buf, dt.second() as usize + leap);
+    buf.push(b'Z');
+}
+
+/// `HH:MM` of a date-time, as [`clock_hm`] writes it once the instant is
+/// rounded and in its zone.
+pub fn push_hm<T: chrono::Timelike>(buf: &mut Vec<u8>, t: &T) {
+    push2(buf, t.hour() as usize);
+    buf.push(b':');
+    push2(buf, t.minute() as usize);
+}
+
+// JSON written straight into a buffer, the bytes `json` writes for the same
+// document (pretty, two-space indent, keys in the order given, which must be
+// the sorted order `json` uses; numbers through serde_json's own writer).
+
+/// A JSON string (serde_json's escaping).
+pub fn push_json_str(buf: &mut Vec<u8>, s: &str) {
+    let _ = serde_json::to_writer(&mut *buf, s);
+}
+
+/// A JSON number as [`json`] writes it: `null` when not finite, no negative zero.
+pub fn push_json_num(buf: &mut Vec<u8>, x: Option<f64>) {
+    match x {
+        Some(x) if x.is_finite() => {
+            let _ = serde_json::to_writer(&mut *buf, &(x + 0.0));
+        }
+        _ => buf.extend_from_slice(b"null"),
+    }
+}
+
+/// A JSON instant (`Instant::iso`) or `null`.
+pub fn push_json_instant(buf: &mut Vec<u8>, t: Option<crate::astro::time::Instant>) {
+    match t {
+        Some(t) => {
+            buf.push(b'"');
+            push_instant(buf, t);
+            buf.push(b'"');
+        }
+        None => buf.extend_from_slice(b"null"),
+    }
+}
+
+/// A pretty JSON object or array being written into a buffer at an indent
+/// (in levels of two spaces): `{`/`[` on open, each member on its own line,
+/// `}`/`]` on its own line at close (`{}`/`[]` when empty).
+pub struct JsonNest {
+    level: usize,
+    members: usize,
+    close: u8,
+}
+
+impl JsonNest {
+    /// Open an object (`{`) at `level`.
+    pub fn object(buf: &mut Vec<u8>, level: usize) -> Self {
+        buf.push(b'{');
+        JsonNest {
+            level,
+            members: 0,
+            close: b'}',
+        }
+    }
+
+    /// Open an array (`[`) at `level`.
+    pub fn array(buf: &mut Vec<u8>, level: usize) -> Self {
+        buf.push(b'[');
+        JsonNest {
+            level,
+            members: 0,
+            close: b']',
+        }
+    }
+
+    /// Start the next array element (the caller writes the value).
+    pub fn item(&mut self, buf: &mut Vec<u8>) {
+        if self.members > 0 {
+            buf.push(b',');
+        }
+        buf.push(b'\n');
+        buf.resize(buf.len() + 2 * (self.level + 1), b' ');
+        self.members += 1;
+    }
+
+    /// Start the next object member `"key": ` (the caller writes the value).
+    pub fn key(&mut self, buf: &mut Vec<u8>, key: &str) {
+        self.item(buf);
+        push_json_str(buf, key);
+        buf.extend_from_slice(b": ");
+    }
+
+    /// The level of a value nested in this one.
+    pub fn inner(&self) -> usize {
+        self.level + 1
+    }
+
+    /// Close the object or array.
+    pub fn close(self, buf: &mut Vec<u8>) {
+        if self.members > 0 {
+            buf.push(b'\n');
+            buf.resize(buf.len() + 2 * self.level, b' ');
+        }
+        buf.push(self.close);
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

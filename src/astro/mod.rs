@@ -88,6 +88,36 @@ pub fn moon_separation_deg(night: &night::Night, place: &CatalogPlace, t: Instan
     c.observe(place).separation_rad(&c.moon()).to_degrees()
 }
 
+/// The instants of a night's grid at which the Sun is up, with what the
+/// Sun-avoidance check needs there (the grid index, the offset from the
+/// night's start, the Sun's CIRS hour angle and declination): found once per
+/// night and shared by every target's [`first_sun_caution_in`].
+#[derive(Debug, Clone, Default)]
+pub struct SunUpGrid {
+    /// Per grid instant with the Sun up: index, offset (s), Sun hour angle
+    /// (rad), sine and cosine of the Sun's declination.
+    points: Vec<(usize, f64, f64, f64, f64)>,
+}
+
+impl SunUpGrid {
+    /// The grid instants of `night` with the Sun above [`SUN_UP_DEG`].
+    pub fn new(night: &night::Night) -> Self {
+        let points = night
+            .contexts
+            .iter()
+            .zip(&night.sun_alt_deg)
+            .enumerate()
+            .filter(|(_, (_, sun_alt))| **sun_alt > SUN_UP_DEG)
+            .map(|(i, (c, _))| {
+                let sun = &night.sun[i];
+                let (ss, cs) = sun.dec_rad.sin_cos();
+                (i, night.sky.offset(c.t), sun.ha_rad, ss, cs)
+            })
+            .collect();
+        SunUpGrid { points }
+    }
+}
+
 /// The first instant on the night's 10-minute grid at which the target is
 /// above the horizon within the site's Sun-avoidance angle while the Sun is
 /// up, with the caution text of [`sun_caution`]; `None` when there is none.
@@ -95,6 +125,19 @@ pub fn moon_separation_deg(night: &night::Night, place: &CatalogPlace, t: Instan
 /// (the Sun moves about 1° a day among the stars), so only the start of a
 /// spell, set by the Sun or the target rising, can be late by up to the step.
 pub fn first_sun_caution(night: &night::Night, place: &CatalogPlace) -> Option<(Instant, String)> {
+    first_sun_caution_in(night, &SunUpGrid::new(night), place)
+}
+
+/// [`first_sun_caution`] with the night's Sun-up instants found once
+/// ([`SunUpGrid::new`] of the same `night`), for many targets.
+pub fn first_sun_caution_in(
+    night: &night::Night,
+    grid: &SunUpGrid,
+    place: &CatalogPlace,
+) -> Option<(Instant, String)> {
+    if grid.points.is_empty() {
+        return None;
+    }
     // The closed form of the target's track (good to 1″) skips the grid
     // instants where the target is well below the horizon or well away from
     // the Sun; the rest are checked on the exact places, as before.
@@ -105,23 +148,26 @@ pub fn first_sun_caution(night: &night::Night, place: &CatalogPlace) -> Option<(
         .to_radians()
         .cos();
     let sin_low = (-1f64).to_radians().sin();
-    for (i, (c, sun_alt)) in night.contexts.iter().zip(&night.sun_alt_deg).enumerate() {
-        if *sun_alt <= SUN_UP_DEG {
-            continue;
-        }
-        let s = night.sky.offset(c.t);
+    for &(i, s, sun_ha, ss, cs) in &grid.points {
         if track.sin_alt_linear(s) < sin_low {
             continue;
         }
+        if sd * ss + cd * cs * (track.ha_linear(s) - sun_ha).cos() < cos_far {
+            continue;
+        }
+        let c = &night.contexts[i];
+        let o = c.observe(place);
+        if o.alt_rad <= 0.0 {
+            continue;
+        }
+        // The Sun on the grid is the context's own (`Night::sun`), so this
+        // is the caution of the full pointing without its Moon.
         let sun = &night.sun[i];
-        let (ss, cs) = sun.dec_rad.sin_cos();
-        if sd * ss + cd * cs * (track.ha_linear(s) - sun.ha_rad).cos() < cos_far {
-            continue;
-        }
-        if c.observe(place).alt_rad <= 0.0 {
-            continue;
-        }
-        if let Some(m) = sun_caution(&night.site, &pointing(&night.site, c, place)) {
+        if let Some(m) = caution_text(
+            &night.site,
+            sun.alt_geom_rad.to_degrees(),
+            o.separation_rad(sun).to_degrees(),
+        ) {
             return Some((c.t, m));
         }
     }

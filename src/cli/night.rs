@@ -1,9 +1,17 @@
 //! `rung night`: the night of a date at a site.
 
 use anyhow::{Context as _, Result};
+use chrono::NaiveDate;
+use rayon::prelude::*;
 use rung::astro::night::{Event, Night};
+use rung::astro::night::{Limits, NightEvents};
+use rung::astro::site::Site;
 use rung::astro::time::parse_date;
-use serde_json::{Map, Value, json};
+use rung::io::targets::Target;
+use rung::output::{JsonNest, push_json_instant, push_json_num, push_json_str};
+use rung::plan::night_table::NightRow;
+use rung::sky::BandSet;
+use std::io::Write;
 use std::path::PathBuf;
 
 /// Arguments of `rung night`.
@@ -24,11 +32,176 @@ pub struct Args {
     pub json: bool,
 }
 
-fn ev(o: &mut Map<String, Value>, reasons: &mut Map<String, Value>, key: &str, e: &Event) {
-    o.insert(key.into(), json!(e.iso()));
-    if let Some(r) = &e.reason {
-        reasons.insert(key.into(), json!(r));
+/// The night's JSON document, the bytes `output::json` writes for it (keys
+/// in sorted order, numbers through serde_json, no negative zero, non-finite
+/// as `null`), written straight into `out`: the targets' objects are made on
+/// all cores, in chunks, and joined in order.
+fn write_json(
+    out: &mut Vec<u8>,
+    site: &Site,
+    date: NaiveDate,
+    e: &NightEvents,
+    limits: &Limits,
+    rows: Option<&[(&Target, &NightRow)]>,
+    bands: &BandSet,
+) {
+    let events = [
+        ("astronomical_dawn", &e.astronomical_dawn),
+        ("astronomical_dusk", &e.astronomical_dusk),
+        ("civil_dawn", &e.civil_dawn),
+        ("civil_dusk", &e.civil_dusk),
+    ];
+    let more = [
+        ("moonrise", &e.moonrise),
+        ("moonset", &e.moonset),
+        ("nautical_dawn", &e.nautical_dawn),
+        ("nautical_dusk", &e.nautical_dusk),
+    ];
+    let last = [("sunrise", &e.sunrise), ("sunset", &e.sunset)];
+    let mut o = JsonNest::object(out, 0);
+    let event = |o: &mut JsonNest, out: &mut Vec<u8>, (k, ev): (&str, &Event)| {
+        o.key(out, k);
+        push_json_instant(out, ev.t);
+    };
+    for x in events {
+        event(&mut o, out, x);
     }
+    o.key(out, "date");
+    push_json_str(out, &date.to_string());
+    o.key(out, "min_alt_deg");
+    push_json_num(out, Some(limits.min_alt_deg));
+    o.key(out, "moon_illumination");
+    push_json_num(out, Some(e.moon_illumination));
+    o.key(out, "moon_waxing");
+    out.extend_from_slice(if e.moon_waxing { b"true" } else { b"false" });
+    for x in more {
+        event(&mut o, out, x);
+    }
+    o.key(out, "reasons");
+    let mut r = JsonNest::object(out, o.inner());
+    for (k, ev) in events.iter().chain(&more).chain(&last) {
+        if let Some(why) = &ev.reason {
+            r.key(out, k);
+            push_json_str(out, why);
+        }
+    }
+    r.close(out);
+    o.key(out, "site");
+    push_json_str(out, &site.name);
+    o.key(out, "sun_alt_deg");
+    push_json_num(out, Some(limits.sun_alt_deg));
+    for x in last {
+        event(&mut o, out, x);
+    }
+    if let Some(rows) = rows {
+        o.key(out, "targets");
+        let mut list = JsonNest::array(out, o.inner());
+        let level = list.inner();
+        // Each chunk's objects with where each ends, joined in order.
+        let parts: Vec<(Vec<u8>, Vec<usize>)> = rows
+            .par_chunks(256)
+            .map(|chunk| {
+                let mut b = Vec::with_capacity(1200 * chunk.len());
+                let mut ends = Vec::with_capacity(chunk.len());
+                for (t, row) in chunk {
+                    write_target(&mut b, level, t, row, bands);
+                    ends.push(b.len());
+                }
+                (b, ends)
+            })
+            .collect();
+        for (b, ends) in &parts {
+            let mut from = 0;
+            for &end in ends {
+                list.item(out);
+                out.extend_from_slice(&b[from..end]);
+                from = end;
+            }
+        }
+        list.close(out);
+    }
+    o.key(out, "timezone");
+    push_json_str(out, site.timezone.name());
+    o.close(out);
+}
+
+/// One target's object in the night's JSON, at `level`.
+fn write_target(b: &mut Vec<u8>, level: usize, t: &Target, row: &NightRow, bands: &BandSet) {
+    let tn = &row.night;
+    let w = tn.main_window();
+    let mut o = JsonNest::object(b, level);
+    o.key(b, "kind");
+    push_json_str(b, t.kind.as_str());
+    o.key(b, "max_altitude_deg");
+    push_json_num(b, tn.max_altitude_deg);
+    o.key(b, "max_altitude_time");
+    push_json_instant(b, tn.max_altitude_time);
+    o.key(b, "min_airmass");
+    push_json_num(b, tn.min_airmass);
+    o.key(b, "moon_separation_deg");
+    push_json_num(b, row.moon_separation_deg);
+    o.key(b, "name");
+    push_json_str(b, &t.name);
+    o.key(b, "observable_hours");
+    push_json_num(b, Some(tn.observable_hours));
+    o.key(b, "reasons");
+    let mut why = JsonNest::object(b, o.inner());
+    for (k, ev) in [
+        ("rise", &tn.rise),
+        ("set", &tn.set),
+        ("transit", &tn.transit),
+    ] {
+        if let Some(r) = &ev.reason {
+            why.key(b, k);
+            push_json_str(b, r);
+        }
+    }
+    if w.is_none() {
+        why.key(b, "window_start");
+        push_json_str(
+            b,
+            "not above the altitude limit while the Sun is below its limit",
+        );
+    }
+    why.close(b);
+    o.key(b, "rise");
+    push_json_instant(b, tn.rise.t);
+    o.key(b, "set");
+    push_json_instant(b, tn.set.t);
+    o.key(b, "sky_mag_arcsec2");
+    let sky = row.sky_brightness(bands, &t.band).and_then(|x| x.ok());
+    push_json_num(b, sky.as_ref().map(|x| x.sky_mag_arcsec2));
+    o.key(b, "sun_caution");
+    match &row.sun_caution {
+        Some((at, m)) => {
+            let mut c = JsonNest::object(b, o.inner());
+            c.key(b, "first");
+            push_json_instant(b, Some(*at));
+            c.key(b, "text");
+            push_json_str(b, m);
+            c.close(b);
+        }
+        None => b.extend_from_slice(b"null"),
+    }
+    o.key(b, "transit");
+    push_json_instant(b, tn.transit.t);
+    o.key(b, "window_end");
+    push_json_instant(b, w.map(|w| w.1));
+    o.key(b, "window_start");
+    push_json_instant(b, w.map(|w| w.0));
+    o.key(b, "windows");
+    let mut list = JsonNest::array(b, o.inner());
+    for (start, end) in &tn.windows {
+        list.item(b);
+        let mut x = JsonNest::object(b, list.inner());
+        x.key(b, "end");
+        push_json_instant(b, Some(*end));
+        x.key(b, "start");
+        push_json_instant(b, Some(*start));
+        x.close(b);
+    }
+    list.close(b);
+    o.close(b);
 }
 
 /// Run `rung night`.
@@ -57,96 +230,24 @@ pub fn run(a: Args) -> Result<()> {
     // The programme's bands (built-in merged with the user's), as the photometry uses.
     let bands = &st.photometer.bands;
     if a.json {
-        let mut o = Map::new();
-        let mut reasons = Map::new();
-        o.insert("site".into(), json!(site.name));
-        o.insert("date".into(), json!(date.to_string()));
-        o.insert("timezone".into(), json!(site.timezone.name()));
-        ev(&mut o, &mut reasons, "sunset", &e.sunset);
-        ev(&mut o, &mut reasons, "sunrise", &e.sunrise);
-        ev(&mut o, &mut reasons, "civil_dusk", &e.civil_dusk);
-        ev(&mut o, &mut reasons, "civil_dawn", &e.civil_dawn);
-        ev(&mut o, &mut reasons, "nautical_dusk", &e.nautical_dusk);
-        ev(&mut o, &mut reasons, "nautical_dawn", &e.nautical_dawn);
-        ev(
-            &mut o,
-            &mut reasons,
-            "astronomical_dusk",
-            &e.astronomical_dusk,
+        let mut out = Vec::with_capacity(4096 + 1200 * rows.len());
+        write_json(
+            &mut out,
+            &site,
+            date,
+            &e,
+            &limits,
+            a.targets.is_some().then_some(&rows[..]),
+            bands,
         );
-        ev(
-            &mut o,
-            &mut reasons,
-            "astronomical_dawn",
-            &e.astronomical_dawn,
-        );
-        ev(&mut o, &mut reasons, "moonrise", &e.moonrise);
-        ev(&mut o, &mut reasons, "moonset", &e.moonset);
-        o.insert("moon_illumination".into(), json!(e.moon_illumination));
-        o.insert("moon_waxing".into(), json!(e.moon_waxing));
-        o.insert("min_alt_deg".into(), json!(limits.min_alt_deg));
-        o.insert("sun_alt_deg".into(), json!(limits.sun_alt_deg));
-        o.insert("reasons".into(), Value::Object(reasons));
-        if a.targets.is_some() {
-            let list: Vec<Value> = rows
-                .iter()
-                .map(|(t, row)| {
-                    let tn = &row.night;
-                    let mut r = Map::new();
-                    let mut why = Map::new();
-                    r.insert("name".into(), json!(t.name));
-                    r.insert("kind".into(), json!(t.kind.as_str()));
-                    ev(&mut r, &mut why, "rise", &tn.rise);
-                    ev(&mut r, &mut why, "transit", &tn.transit);
-                    ev(&mut r, &mut why, "set", &tn.set);
-                    let w = tn.main_window();
-                    r.insert("window_start".into(), json!(w.map(|w| w.0.iso())));
-                    r.insert("window_end".into(), json!(w.map(|w| w.1.iso())));
-                    r.insert(
-                        "windows".into(),
-                        json!(
-                            tn.windows
-                                .iter()
-                                .map(|w| json!({"start": w.0.iso(), "end": w.1.iso()}))
-                                .collect::<Vec<_>>()
-                        ),
-                    );
-                    if w.is_none() {
-                        why.insert(
-                            "window_start".into(),
-                            json!("not above the altitude limit while the Sun is below its limit"),
-                        );
-                    }
-                    r.insert("observable_hours".into(), json!(tn.observable_hours));
-                    r.insert("max_altitude_deg".into(), json!(tn.max_altitude_deg));
-                    r.insert("min_airmass".into(), json!(tn.min_airmass));
-                    r.insert(
-                        "max_altitude_time".into(),
-                        json!(tn.max_altitude_time.map(|t| t.iso())),
-                    );
-                    r.insert("moon_separation_deg".into(), json!(row.moon_separation_deg));
-                    let sky = row.sky_brightness(bands, &t.band).and_then(|x| x.ok());
-                    r.insert(
-                        "sky_mag_arcsec2".into(),
-                        json!(sky.as_ref().map(|x| x.sky_mag_arcsec2)),
-                    );
-                    r.insert(
-                        "sun_caution".into(),
-                        json!(
-                            row.sun_caution
-                                .as_ref()
-                                .map(|(t, m)| json!({"first": t.iso(), "text": m}))
-                        ),
-                    );
-                    r.insert("reasons".into(), Value::Object(why));
-                    Value::Object(r)
-                })
-                .collect();
-            o.insert("targets".into(), Value::Array(list));
-        }
-        super::print_json(&Value::Object(o))?;
+        out.push(b'\n');
+        let mut so = std::io::stdout().lock();
+        so.write_all(&out)?;
+        so.flush()?;
         return Ok(());
     }
+    // One buffered writer for the whole table (not a write per line).
+    let mut w = std::io::BufWriter::with_capacity(1 << 16, std::io::stdout().lock());
     let l = |e: &Event| super::local_hm(e.t, &site);
     let u = |e: &Event| super::utc_hm(e.t);
     super::outln!(
@@ -158,6 +259,7 @@ pub fn run(a: Args) -> Result<()> {
         site.timezone.name()
     );
     super::outln!(
+        w,
         "  {:<14} {:>7} {:>7}   {:<14} {:>7} {:>7}",
         "",
         "local",
@@ -165,7 +267,7 @@ pub fn run(a: Args) -> Result<()> {
         "",
         "local",
         "UTC"
-    );
+    )?;
     for (n1, e1, n2, e2) in [
         ("sunset", &e.sunset, "sunrise", &e.sunrise),
         ("civil dusk", &e.civil_dusk, "civil dawn", &e.civil_dawn),
@@ -184,6 +286,7 @@ pub fn run(a: Args) -> Result<()> {
         ("moonrise", &e.moonrise, "moonset", &e.moonset),
     ] {
         super::outln!(
+            w,
             "  {:<14} {:>7} {:>7}   {:<14} {:>7} {:>7}",
             n1,
             l(e1),
@@ -191,26 +294,29 @@ pub fn run(a: Args) -> Result<()> {
             n2,
             l(e2),
             u(e2)
-        );
+        )?;
     }
     super::outln!(
+        w,
         "  Moon {:.0}% lit, {}",
         100.0 * e.moon_illumination,
         if e.moon_waxing { "waxing" } else { "waning" }
-    );
+    )?;
     for ev in [&e.astronomical_dusk, &e.sunset] {
         if let Some(r) = &ev.reason {
-            super::outln!("  note: {r}");
+            super::outln!(w, "  note: {r}")?;
         }
     }
     if !rows.is_empty() {
-        super::outln!();
+        writeln!(w)?;
         super::outln!(
+            w,
             "  Targets: window above {:.0}° with the Sun below {:.0}° (local times)",
             limits.min_alt_deg,
             limits.sun_alt_deg
-        );
+        )?;
         super::outln!(
+            w,
             "  {:<20} {:<9} {:>6} {:>6} {:>6} {:>13} {:>6} {:>7} {:>7} {:>5}",
             "name",
             "kind",
@@ -222,10 +328,10 @@ pub fn run(a: Args) -> Result<()> {
             "max alt",
             "airmass",
             "Moon"
-        );
+        )?;
         for (t, row) in &rows {
             let tn = &row.night;
-            let w = tn
+            let win = tn
                 .main_window()
                 .map(|w| {
                     format!(
@@ -236,30 +342,33 @@ pub fn run(a: Args) -> Result<()> {
                 })
                 .unwrap_or_else(|| "-".into());
             super::outln!(
+                w,
                 "  {:<20} {:<9} {:>6} {:>6} {:>6} {:>13} {:>6.2} {:>7} {:>7} {:>5}",
                 t.name,
                 t.kind.as_str(),
                 l(&tn.rise),
                 l(&tn.transit),
                 l(&tn.set),
-                w,
+                win,
                 tn.observable_hours,
                 super::opt(tn.max_altitude_deg, 1),
                 super::opt(tn.min_airmass, 2),
                 row.moon_separation_deg
                     .map(|m| format!("{m:.0}°"))
                     .unwrap_or_else(|| "-".into()),
-            );
+            )?;
         }
         for (t, row) in &rows {
             if let Some((at, m)) = &row.sun_caution {
                 super::outln!(
+                    w,
                     "  {} from {}: {m}",
                     t.name,
                     super::local_hm(Some(*at), &site)
-                );
+                )?;
             }
         }
     }
+    w.flush()?;
     Ok(())
 }

@@ -3,6 +3,7 @@
 //! (`astro::visibility`) and the night's contexts. One function makes the
 //! row, so the command and the views cannot disagree.
 
+use crate::astro::SunUpGrid;
 use crate::astro::frames::CatalogPlace;
 use crate::astro::night::{Limits, Night, TargetNight};
 use crate::astro::time::Instant;
@@ -47,6 +48,11 @@ impl NightRow {
 
 /// The row of `place` in `night` under `limits`.
 pub fn row(night: &Night, place: &CatalogPlace, limits: &Limits) -> NightRow {
+    row_in(night, &SunUpGrid::new(night), place, limits)
+}
+
+/// [`row`] with the night's Sun-up instants found once (for many targets).
+fn row_in(night: &Night, sun_up: &SunUpGrid, place: &CatalogPlace, limits: &Limits) -> NightRow {
     let tn = night.target(place, limits);
     let sky = tn.max_altitude_time.map(|t| {
         let c = night.context(t);
@@ -55,14 +61,18 @@ pub fn row(night: &Night, place: &CatalogPlace, limits: &Limits) -> NightRow {
     NightRow {
         moon_separation_deg: sky.map(|g| g.moon_sep_rad.to_degrees()),
         sky,
-        sun_caution: crate::astro::first_sun_caution(night, place),
+        sun_caution: crate::astro::first_sun_caution_in(night, sun_up, place),
         night: tn,
     }
 }
 
 /// The rows of every place, in order, computed on all cores.
 pub fn rows(night: &Night, places: &[CatalogPlace], limits: &Limits) -> Vec<NightRow> {
-    places.par_iter().map(|p| row(night, p, limits)).collect()
+    let sun_up = SunUpGrid::new(night);
+    places
+        .par_iter()
+        .map(|p| row_in(night, &sun_up, p, limits))
+        .collect()
 }
 
 /// Observed altitude (degrees) of `place` at each instant of the night's
