@@ -207,3 +207,55 @@ fn the_reported_case_samples_both_sides_of_the_ellipse() {
         g.prediction.notes
     );
 }
+
+/// The goal search's memo ([`select::Memo`]): a ladder of targets asked of
+/// one problem through it (loose to tight, to past what the caps allow, then
+/// looser again) gives each target the design a fresh search gives, to the
+/// last bit; so do the replayed exchange of the unreachable targets and a
+/// kept top-up.
+#[test]
+fn the_kept_steps_give_the_fresh_searches_designs() {
+    let south = rung::io::sites::resolve("pampa-lucero").unwrap();
+    let (ra, dec) = from_ecliptic(60.0, -45.0);
+    let t = star(ra, dec);
+    let mut cands = cases(&south, &t, 2);
+    // Seasons of ten nights, at most three epochs each: the caps bind, so
+    // the tightest targets exhaust the candidates and are exchanged.
+    for c in &mut cands {
+        c.season = c.slot / 10;
+    }
+    let t_ref = cands.iter().map(|c| c.t_yr).sum::<f64>() / cands.len() as f64;
+    let p = Problem {
+        cands: &cands,
+        t_ref,
+        max_per_season: 3,
+    };
+    let j3 = select::select(p, &[], Stop::Count(3)).j();
+    let mut memo = select::Memo::default();
+    let (mut reached, mut missed) = (0, 0);
+    for f in [4.0, 1.0, 0.3, 0.1, 0.03, 1e-3, 1e-6, 1e-9, 0.5, 1e-7, 2.0] {
+        let stop = Stop::Target(j3 * f);
+        let fresh = select::select(p, &[], stop);
+        let kept = select::select_with(p, &[], stop, &mut memo);
+        assert_eq!(kept, fresh, "target {f} × J(3)");
+        assert_eq!(kept.var_mas2.to_bits(), fresh.var_mas2.to_bits());
+        assert_eq!(kept.bias_mas.to_bits(), fresh.bias_mas.to_bits());
+        if fresh.j() <= j3 * f {
+            reached += 1;
+        } else {
+            missed += 1;
+        }
+        // A top-up from this design, asked twice through the memo.
+        if fresh.chosen.len() < 8 {
+            let want = select::select(p, &fresh.chosen, Stop::Count(8));
+            for _ in 0..2 {
+                let got = select::select_with(p, &fresh.chosen, Stop::Count(8), &mut memo);
+                assert_eq!(got, want, "top-up of target {f} × J(3)");
+            }
+        }
+    }
+    assert!(
+        reached >= 3 && missed >= 2,
+        "{reached} reached, {missed} missed"
+    );
+}
