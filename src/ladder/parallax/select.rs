@@ -830,22 +830,20 @@ fn exchange_for_j(st: &mut State, seed: &[usize]) {
                 // (a minimum: the order of the terms does not matter), and
                 // the finalists, position by position in candidate order.
                 let mut ub = cur * (1.0 - 1e-9);
-                for (slot, &k) in free.iter().enumerate() {
-                    let (est, err) = &bufs[slot];
+                for (&k, (est, err)) in free.iter().zip(bufs.iter()) {
                     let out = Some(st.chosen[k]);
-                    for i in 0..n {
-                        if est[i].is_finite() && st.may_add(i, out) {
-                            ub = f64::min(ub, est[i] + err[i]);
+                    for (i, (&j, &e)) in est.iter().zip(err).enumerate() {
+                        if j.is_finite() && st.may_add(i, out) {
+                            ub = f64::min(ub, j + e);
                         }
                     }
                 }
                 let mut finalists: Vec<Swap> = Vec::new();
-                for (slot, &k) in free.iter().enumerate() {
-                    let (est, err) = &bufs[slot];
+                for (&k, (est, err)) in free.iter().zip(bufs.iter()) {
                     let out = Some(st.chosen[k]);
-                    for i in 0..n {
-                        if (est[i].is_nan() || est[i] - err[i] <= ub) && st.may_add(i, out) {
-                            finalists.push((k, i, (est[i], err[i])));
+                    for (i, (&j, &e)) in est.iter().zip(err).enumerate() {
+                        if (j.is_nan() || j - e <= ub) && st.may_add(i, out) {
+                            finalists.push((k, i, (j, e)));
                         }
                     }
                 }
