@@ -624,88 +624,90 @@ fn run(
         }
         greedy_done = upto.is_some() || tr.exhausted;
     }
-    while !greedy_done {
-        let cur = st.j();
-        if let Some(tr) = trails.as_deref_mut()
-            && tr.js.len() == tr.picks.len()
-        {
-            tr.js.push(cur);
-        }
-        let done = match stop {
-            Stop::Count(k) => st.chosen.len() >= k,
-            Stop::Target(t) => cur <= t,
-        };
-        if done {
-            break;
-        }
-        let per = |i: usize| match stop {
-            Stop::Count(_) => 1.0,
-            Stop::Target(_) => p.cands[i].hours.max(1e-9),
-        };
-        let exact_best = |only: &mut dyn Iterator<Item = (usize, Option<f64>)>| {
-            let mut best: Option<(f64, usize)> = None;
-            for (i, known) in only {
-                if !st.may_add(i, None) {
-                    continue;
-                }
-                let jn = known.unwrap_or_else(|| st.j_with(i));
-                let gain = match stop {
-                    Stop::Count(_) => cur - jn,
-                    Stop::Target(_) => (cur - jn) / p.cands[i].hours.max(1e-9),
-                };
-                if best.is_none_or(|b| gain > b.0) {
-                    best = Some((gain, i));
-                }
+    if !greedy_done {
+        loop {
+            let cur = st.j();
+            if let Some(tr) = trails.as_deref_mut()
+                && tr.js.len() == tr.picks.len()
+            {
+                tr.js.push(cur);
             }
-            best
-        };
-        let base = (cur.is_finite() && st.chosen.len() >= SCREEN_MIN_EPOCHS)
-            .then(|| Base::of(&st.acc))
-            .flatten();
-        let best = match base {
-            None => exact_best(&mut (0..n).map(|i| (i, None))),
-            Some(base) => {
-                // Estimates of the gain and their bounds; the largest gain
-                // surely reached; the finalists that may reach it.
-                base.j_plus_all(pre, &mut est, &mut err);
-                let lb = (0..n)
-                    .filter(|i| est[*i].is_finite() && st.may_add(*i, None))
-                    .map(|i| (cur - est[i] - err[i]) / per(i))
-                    .fold(f64::NEG_INFINITY, f64::max);
-                let finalists: Vec<(usize, (f64, f64))> = (0..n)
-                    .filter(|i| {
-                        (est[*i].is_nan() || (cur - est[*i] + err[*i]) / per(*i) >= lb)
-                            && st.may_add(*i, None)
-                    })
-                    .map(|i| (i, (est[i], err[i])))
-                    .collect();
-                // Each finalist's exact J, kept for the choice.
-                let exact: Option<Vec<(usize, Option<f64>)>> = finalists
-                    .iter()
-                    .map(|(i, e)| {
-                        let jn = st.j_with(*i);
-                        (e.0.is_nan() || within(jn, *e)).then_some((*i, Some(jn)))
-                    })
-                    .collect();
-                match exact {
-                    Some(x) => exact_best(&mut x.into_iter()),
-                    None => exact_best(&mut (0..n).map(|i| (i, None))),
-                }
-            }
-        };
-        match best {
-            Some((_, i)) => {
-                first_pick.get_or_insert(i);
-                st.push(i);
-                if let Some(tr) = trails.as_deref_mut() {
-                    tr.picks.push(i);
-                }
-            }
-            None => {
-                if let Some(tr) = trails.as_deref_mut() {
-                    tr.exhausted = true;
-                }
+            let done = match stop {
+                Stop::Count(k) => st.chosen.len() >= k,
+                Stop::Target(t) => cur <= t,
+            };
+            if done {
                 break;
+            }
+            let per = |i: usize| match stop {
+                Stop::Count(_) => 1.0,
+                Stop::Target(_) => p.cands[i].hours.max(1e-9),
+            };
+            let exact_best = |only: &mut dyn Iterator<Item = (usize, Option<f64>)>| {
+                let mut best: Option<(f64, usize)> = None;
+                for (i, known) in only {
+                    if !st.may_add(i, None) {
+                        continue;
+                    }
+                    let jn = known.unwrap_or_else(|| st.j_with(i));
+                    let gain = match stop {
+                        Stop::Count(_) => cur - jn,
+                        Stop::Target(_) => (cur - jn) / p.cands[i].hours.max(1e-9),
+                    };
+                    if best.is_none_or(|b| gain > b.0) {
+                        best = Some((gain, i));
+                    }
+                }
+                best
+            };
+            let base = (cur.is_finite() && st.chosen.len() >= SCREEN_MIN_EPOCHS)
+                .then(|| Base::of(&st.acc))
+                .flatten();
+            let best = match base {
+                None => exact_best(&mut (0..n).map(|i| (i, None))),
+                Some(base) => {
+                    // Estimates of the gain and their bounds; the largest gain
+                    // surely reached; the finalists that may reach it.
+                    base.j_plus_all(pre, &mut est, &mut err);
+                    let lb = (0..n)
+                        .filter(|i| est[*i].is_finite() && st.may_add(*i, None))
+                        .map(|i| (cur - est[i] - err[i]) / per(i))
+                        .fold(f64::NEG_INFINITY, f64::max);
+                    let finalists: Vec<(usize, (f64, f64))> = (0..n)
+                        .filter(|i| {
+                            (est[*i].is_nan() || (cur - est[*i] + err[*i]) / per(*i) >= lb)
+                                && st.may_add(*i, None)
+                        })
+                        .map(|i| (i, (est[i], err[i])))
+                        .collect();
+                    // Each finalist's exact J, kept for the choice.
+                    let exact: Option<Vec<(usize, Option<f64>)>> = finalists
+                        .iter()
+                        .map(|(i, e)| {
+                            let jn = st.j_with(*i);
+                            (e.0.is_nan() || within(jn, *e)).then_some((*i, Some(jn)))
+                        })
+                        .collect();
+                    match exact {
+                        Some(x) => exact_best(&mut x.into_iter()),
+                        None => exact_best(&mut (0..n).map(|i| (i, None))),
+                    }
+                }
+            };
+            match best {
+                Some((_, i)) => {
+                    first_pick.get_or_insert(i);
+                    st.push(i);
+                    if let Some(tr) = trails.as_deref_mut() {
+                        tr.picks.push(i);
+                    }
+                }
+                None => {
+                    if let Some(tr) = trails.as_deref_mut() {
+                        tr.exhausted = true;
+                    }
+                    break;
+                }
             }
         }
     }
