@@ -580,6 +580,14 @@ impl NightFrame {
         (astrom, geo)
     }
 
+    /// The Earth's barycentric position at `t`, au (BCRS axes): the
+    /// [`Context::earth_bary_au`] of [`Self::context`]`(t)`, bit for bit,
+    /// without the rest of the context.
+    pub fn earth_bary_au(&self, t: Instant) -> [f64; 3] {
+        let q = self.slow(t);
+        [q[4], q[5], q[6]]
+    }
+
     /// Context at an instant inside (or slightly outside) the span.
     pub fn context(&self, t: Instant) -> Context {
         let q = self.slow(t);

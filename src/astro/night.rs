@@ -371,6 +371,12 @@ impl Night {
         self.moon_table.attach(self.frame.context(t))
     }
 
+    /// The Earth's barycentric position at `t`, au: that of
+    /// [`Self::context`]`(t)`, without building the context.
+    pub fn earth_bary_au(&self, t: Instant) -> [f64; 3] {
+        self.frame.earth_bary_au(t)
+    }
+
     /// Geometric altitude of the Sun's centre, degrees.
     pub fn sun_alt_at(&self, t: Instant) -> f64 {
         self.context(t).sun().alt_geom_rad.to_degrees()

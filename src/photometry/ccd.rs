@@ -299,28 +299,50 @@ impl Rates {
     /// and the sky annulus's inner radius. Background-limited it tends to
     /// [`BACKGROUND_LIMITED_RADIUS_FWHM`]; for bright stars it grows.
     pub fn best_radius_pix(&self, exptime_s: f64, n: u32) -> f64 {
+        Self::best_radius_pix_each(&[(self, exptime_s, n)])[0]
+    }
+
+    /// [`Self::best_radius_pix`] of several stars' rates, exposures and
+    /// splits, in order: the same golden-section search for each, their
+    /// steps taken side by side (a step of one search does not wait for
+    /// another's, so the processor overlaps them), each answer the one the
+    /// search alone gives, bit for bit.
+    pub fn best_radius_pix_each(jobs: &[(&Rates, f64, u32)]) -> Vec<f64> {
+        const W: usize = 8;
         let g = 0.618_033_988_749_895;
-        let (mut a, mut b) = (0.5f64.min(self.max_radius_pix), self.max_radius_pix);
-        let snr = |r: f64| self.evaluate(exptime_s, n, r, f64::INFINITY).snr;
-        let mut c = b - g * (b - a);
-        let mut d = a + g * (b - a);
-        let (mut fc, mut fd) = (snr(c), snr(d));
-        for _ in 0..60 {
-            if fc > fd {
-                b = d;
-                d = c;
-                fd = fc;
-                c = b - g * (b - a);
-                fc = snr(c);
-            } else {
-                a = c;
-                c = d;
-                fc = fd;
-                d = a + g * (b - a);
-                fd = snr(d);
+        let snr = |j: &(&Rates, f64, u32), r: f64| j.0.evaluate(j.1, j.2, r, f64::INFINITY).snr;
+        let mut out = Vec::with_capacity(jobs.len());
+        for chunk in jobs.chunks(W) {
+            let (mut a, mut b, mut c, mut d) = ([0.0f64; W], [0.0f64; W], [0.0f64; W], [0.0f64; W]);
+            let (mut fc, mut fd) = ([0.0f64; W], [0.0f64; W]);
+            for (k, j) in chunk.iter().enumerate() {
+                a[k] = 0.5f64.min(j.0.max_radius_pix);
+                b[k] = j.0.max_radius_pix;
+                c[k] = b[k] - g * (b[k] - a[k]);
+                d[k] = a[k] + g * (b[k] - a[k]);
+                fc[k] = snr(j, c[k]);
+                fd[k] = snr(j, d[k]);
             }
+            for _ in 0..60 {
+                for (k, j) in chunk.iter().enumerate() {
+                    if fc[k] > fd[k] {
+                        b[k] = d[k];
+                        d[k] = c[k];
+                        fd[k] = fc[k];
+                        c[k] = b[k] - g * (b[k] - a[k]);
+                        fc[k] = snr(j, c[k]);
+                    } else {
+                        a[k] = c[k];
+                        c[k] = d[k];
+                        fc[k] = fd[k];
+                        d[k] = a[k] + g * (b[k] - a[k]);
+                        fd[k] = snr(j, d[k]);
+                    }
+                }
+            }
+            out.extend((0..chunk.len()).map(|k| 0.5 * (a[k] + b[k])));
         }
-        0.5 * (a + b)
+        out
     }
 
     /// Exposure time (s) that reaches `snr` with `n` sub-exposures and a fixed

@@ -186,6 +186,33 @@ impl Photometer {
         Ok((rates, template))
     }
 
+    /// The rates of [`Self::prepare`] alone (the same checks in the same
+    /// order, the same numbers), with the sky and airmass at `ctx` taken
+    /// from `sky` when held and kept there when worked out.
+    fn prepare_rates(
+        &self,
+        mag: f64,
+        band: &str,
+        ctx: &Context,
+        place: &CatalogPlace,
+        sky: &mut Option<(SkyGeometry, SkyBrightness, f64)>,
+    ) -> Result<Rates> {
+        ccd::check_mag(mag)?;
+        let b = self.bands.get(band)?;
+        self.instrument.throughput_in(&b.name)?;
+        if sky.is_none() {
+            *sky = Some(self.sky_and_airmass(b, ctx, place)?);
+        }
+        let (_, sky, airmass) = sky.as_ref().expect("worked out above");
+        let cond = Conditions {
+            airmass: *airmass,
+            sky_mag_arcsec2: sky.sky_mag_arcsec2,
+            seeing_fwhm_arcsec: self.seeing_fwhm_arcsec,
+            site_elev_m: self.site.elev_m,
+        };
+        ccd::rates(&self.instrument, b, mag, &cond)
+    }
+
     fn finish(&self, mut e: Exposure, budget: NoiseBudget) -> Exposure {
         e.aperture_radius_arcsec = budget.aperture_radius_pix * self.instrument.pixel_scale_arcsec;
         if budget.saturated {
@@ -340,20 +367,38 @@ impl ExposureModel for Photometer {
         place: &CatalogPlace,
     ) -> Result<Vec<Vec<f64>>> {
         let mut rates: Vec<Option<ccd::Rates>> = mags.iter().map(|_| None).collect();
-        let mut out = Vec::with_capacity(exptimes.len());
+        // The sky and airmass at `ctx` do not depend on the star's
+        // magnitude: worked out for the first star, kept for the others.
+        let mut sky: Option<(SkyGeometry, SkyBrightness, f64)> = None;
+        // Every fallible step first, in the order one call each takes them
+        // (so the first refusal is the same), then the best apertures of
+        // all the cells at once (`Rates::best_radius_pix_each`), then the
+        // CCD equation through each: the numbers of `Rates::snr_for`.
+        let mut cells: Vec<(usize, f64, u32)> = Vec::with_capacity(exptimes.len() * mags.len());
         for &t in exptimes {
-            let mut row = Vec::with_capacity(mags.len());
-            for (m, r) in mags.iter().zip(rates.iter_mut()) {
+            for (k, (m, r)) in mags.iter().zip(rates.iter_mut()).enumerate() {
                 ccd::check_exptime(t)?;
                 if r.is_none() {
-                    *r = Some(self.prepare(*m, band, ctx, place)?.0);
+                    *r = Some(self.prepare_rates(*m, band, ctx, place, &mut sky)?);
                 }
                 let r = r.as_ref().expect("prepared above");
-                row.push(r.snr_for(t, &self.instrument)?.snr);
+                cells.push((k, t, r.n_exposures_for(t, &self.instrument)?));
             }
-            out.push(row);
         }
-        Ok(out)
+        let rates: Vec<ccd::Rates> = rates.into_iter().flatten().collect();
+        let jobs: Vec<(&ccd::Rates, f64, u32)> =
+            cells.iter().map(|&(k, t, n)| (&rates[k], t, n)).collect();
+        let radii = ccd::Rates::best_radius_pix_each(&jobs);
+        let sat = self.instrument.saturation_e();
+        let snrs: Vec<f64> = jobs
+            .iter()
+            .zip(radii)
+            .map(|(&(r, t, n), radius)| r.evaluate(t, n, radius, sat).snr)
+            .collect();
+        let m = mags.len();
+        Ok((0..exptimes.len())
+            .map(|i| snrs[i * m..(i + 1) * m].to_vec())
+            .collect())
     }
 
     /// Errors when the star saturates even in the shortest exposure.

@@ -994,17 +994,16 @@ impl ParallaxMethod {
         threshold: f64,
     ) -> Result<NightFactor> {
         let night = Night::shared(s.site, date)?;
-        let tn = night.windows(place, lim);
-        let (best, usable, ends) = self.best_in_windows(&night.track(place), &tn);
+        // One track serves the windows and the instants in them.
+        let track = night.track(place);
+        let tn = track.windows_night(&night, lim);
+        let (best, usable, ends) = self.best_in_windows(&track, &tn);
         let mid = night
             .start
             .add_seconds(night.end.seconds_since(&night.start) / 2.0);
         let t_eval = best.map(|b| b.0).unwrap_or(mid);
-        let (pf_ra, pf_dec) = parallax_factors(
-            night.context(t_eval).earth_bary_au(),
-            place.ra_rad,
-            place.dec_rad,
-        );
+        let (pf_ra, pf_dec) =
+            parallax_factors(night.earth_bary_au(t_eval), place.ra_rad, place.dec_rad);
         let factor = self.cfg.factor_axis.value(pf_ra, pf_dec);
         let observable = best.is_some();
         Ok(NightFactor {

@@ -64,6 +64,58 @@ type StarPrediction = (
     Option<MeanEstimate>,
 );
 
+/// What each epoch gives a pulsator's prediction, in the epochs' order: its
+/// phase (BJD_TDB), its magnitude error, and the largest phase error of the
+/// ephemeris over them. An epoch's terms depend on that epoch alone, so the
+/// scheduler's fill works out the base's once and adds each extra epoch's.
+#[derive(Clone)]
+struct EpochTerms {
+    phases: Vec<f64>,
+    sigmas: Vec<f64>,
+    phase_sigma_max: f64,
+}
+
+impl EpochTerms {
+    fn with_capacity(n: usize) -> Self {
+        EpochTerms {
+            phases: Vec::with_capacity(n),
+            sigmas: Vec::with_capacity(n),
+            phase_sigma_max: 0.0,
+        }
+    }
+
+    /// The terms of `epochs` after those held; the first epoch refused.
+    fn add(&mut self, s: &Setting, star: &Star, epochs: &[Epoch]) -> Result<()> {
+        for ep in epochs {
+            if !(ep.snr.is_finite() && ep.snr > 0.0) {
+                return Err(RungError::invalid(
+                    "epoch",
+                    format!(
+                        "signal-to-noise {} at {} is not positive",
+                        ep.snr,
+                        ep.time.iso()
+                    ),
+                ));
+            }
+            let b = crate::astro::bary::bjd_tdb(s.site, ep.time, &star.place)?;
+            self.phases.push(star.ephemeris.phase(&b));
+            self.phase_sigma_max = self.phase_sigma_max.max(star.ephemeris.phase_sigma(&b));
+            self.sigmas.push(sigma_mag_from_snr(ep.snr));
+        }
+        Ok(())
+    }
+}
+
+/// The star's mean magnitude, which its distance needs.
+fn star_mean_mag(s: &Setting, star: &Star) -> Result<f64> {
+    star.mean_mag.ok_or_else(|| {
+        RungError::invalid(
+            format!("mean_mag of target '{}'", s.target.name),
+            "is missing: the distance needs the star's mean magnitude",
+        )
+    })
+}
+
 /// The pulsating-star method.
 #[derive(Debug, Clone, PartialEq)]
 pub struct PulsatorMethod {
@@ -502,32 +554,31 @@ impl PulsatorMethod {
         notes: &mut Vec<String>,
     ) -> Result<StarPrediction> {
         let law = &star.relation(&self.config).map_err(|e| name_target(e, s))?;
+        let mean = star_mean_mag(s, star)?;
+        let mut terms = EpochTerms::with_capacity(epochs.len());
+        terms.add(s, star, epochs)?;
+        self.predict_star_from(s, star, law, mean, epochs, terms, notes)
+    }
+
+    /// [`Self::predict_star`] with the star's relation and mean magnitude
+    /// and its epochs' terms ([`EpochTerms`]) in hand.
+    #[allow(clippy::too_many_arguments)]
+    fn predict_star_from(
+        &self,
+        s: &Setting,
+        star: &Star,
+        law: &StarRelation,
+        mean: f64,
+        epochs: &[Epoch],
+        terms: EpochTerms,
+        notes: &mut Vec<String>,
+    ) -> Result<StarPrediction> {
         let cal = self.config.calibration_floor(&law.relation);
-        let mean = star.mean_mag.ok_or_else(|| {
-            RungError::invalid(
-                format!("mean_mag of target '{}'", s.target.name),
-                "is missing: the distance needs the star's mean magnitude",
-            )
-        })?;
-        let mut phases = Vec::with_capacity(epochs.len());
-        let mut sigmas = Vec::with_capacity(epochs.len());
-        let mut phase_sigma_max: f64 = 0.0;
-        for ep in epochs {
-            if !(ep.snr.is_finite() && ep.snr > 0.0) {
-                return Err(RungError::invalid(
-                    "epoch",
-                    format!(
-                        "signal-to-noise {} at {} is not positive",
-                        ep.snr,
-                        ep.time.iso()
-                    ),
-                ));
-            }
-            let b = crate::astro::bary::bjd_tdb(s.site, ep.time, &star.place)?;
-            phases.push(star.ephemeris.phase(&b));
-            phase_sigma_max = phase_sigma_max.max(star.ephemeris.phase_sigma(&b));
-            sigmas.push(sigma_mag_from_snr(ep.snr));
-        }
+        let EpochTerms {
+            phases,
+            sigmas,
+            phase_sigma_max,
+        } = terms;
         let hours_needed = epochs.iter().map(|e| e.visit_s).sum::<f64>() / 3600.0;
         let k = self.harmonics;
         let floor = distance_budget(
@@ -834,6 +885,46 @@ impl Method for PulsatorMethod {
         let star = Star::from_target(s.target)?;
         let mut notes = Vec::new();
         Ok(self.predict_star(s, &star, epochs, &mut notes)?.0)
+    }
+
+    /// [`Method::predict`] of `base` then each extra epoch: the star, its
+    /// relation and the base epochs' terms (their BJD_TDB phases, the most
+    /// of the work) once, each extra epoch's terms on their own, then the
+    /// same fit, so every answer is `predict`'s bit for bit. When the base
+    /// itself is refused, each extra is asked of `predict` (which words the
+    /// refusal).
+    fn predict_each_extra(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        base: &[Epoch],
+        extra: &[Epoch],
+    ) -> Vec<Result<Prediction>> {
+        let shared = || -> Result<(Star, StarRelation, f64, EpochTerms)> {
+            let star = Star::from_target(s.target)?;
+            let law = star.relation(&self.config)?;
+            let mean = star_mean_mag(s, &star)?;
+            let mut terms = EpochTerms::with_capacity(base.len() + 1);
+            terms.add(s, &star, base)?;
+            Ok((star, law, mean, terms))
+        };
+        let Ok((star, law, mean, terms)) = shared() else {
+            return crate::ladder::predict_each_by_one(self, s, em, base, extra);
+        };
+        extra
+            .iter()
+            .map(|e| {
+                let mut t = terms.clone();
+                t.add(s, &star, std::slice::from_ref(e))?;
+                let mut all = Vec::with_capacity(base.len() + 1);
+                all.extend_from_slice(base);
+                all.push(e.clone());
+                let mut notes = Vec::new();
+                Ok(self
+                    .predict_star_from(s, &star, &law, mean, &all, t, &mut notes)?
+                    .0)
+            })
+            .collect()
     }
 
     /// A done visit gives the wanted epoch in its phase bin (BJD_TDB phases,
