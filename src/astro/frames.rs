@@ -2,8 +2,9 @@
 //! site, shared by every target (SOFA `apco13`, then `atciq` + `atioq`).
 //!
 //! Two ways to build a context:
-//! - [`Context::exact`] calls `apco13` (IAU 2006/2000A precession-nutation, full
-//!   `epv00` ephemeris) at that instant; this is what `rung where` uses.
+//! - [`Context::exact`] is SOFA `apco13` (IAU 2006/2000A precession-nutation,
+//!   full `epv00` ephemeris) at that instant, taken step by step through the
+//!   sofars routines it calls so its Earth is kept; this is what `rung where` uses.
 //! - [`NightFrame::context`] builds it with SOFA `apco` from the slowly varying
 //!   quantities (CIP X, Y, CIO locator s, the Earth's barycentric and
 //!   heliocentric position and velocity) evaluated at three instants of the
@@ -15,7 +16,7 @@
 use crate::astro::site::Site;
 use crate::astro::time::Instant;
 use crate::error::{Result, RungError};
-use sofars::astro::{IauAstrom, ab, apco, apco13, atciq, atioq, refco};
+use sofars::astro::{IauAstrom, ab, apco, atciq, atioq, refco};
 use sofars::consts::DAU;
 use std::f64::consts::PI;
 
@@ -178,32 +179,63 @@ impl Context {
         t.check_span()?;
         let (phpa, tc, rh, wl) = site_refraction(site);
         let mut astrom = IauAstrom::default();
-        let mut eo = 0.0;
-        apco13(
-            t.utc1,
-            t.utc2,
-            crate::astro::time::DUT1_S,
+        // SOFA apco13's own steps, each the sofars routine apco13 calls, in
+        // its order and with its arguments (DUT1 and the polar motion as
+        // above), so `astrom` is apco13's to the bit; the Earth's position
+        // and velocity it finds (epv00 at its TT) are kept for the context
+        // instead of being asked of epv00 a second time (the dearest part
+        // of a context after the nutation).
+        let steps = || -> std::result::Result<_, i32> {
+            use sofars::{erst::era00, pnp, ts};
+            let (tai1, tai2) = ts::utctai(t.utc1, t.utc2)?;
+            let (tt1, tt2) = ts::taitt(tai1, tai2)?;
+            let (ut11, ut12) = ts::utcut1(t.utc1, t.utc2, crate::astro::time::DUT1_S)?;
+            let (ehpv, ebpv) = sofars::eph::epv00(tt1, tt2).ok_or(1)?;
+            let r = pnp::pnm06a(tt1, tt2);
+            let (x, y) = pnp::bpn2xy(&r);
+            let s = pnp::s06(tt1, tt2, x, y);
+            let theta = era00(ut11, ut12);
+            let sp = pnp::sp00(tt1, tt2);
+            let (refa, refb) = refco(phpa, tc, rh, wl);
+            Ok(((tt1, tt2), ehpv, ebpv, x, y, s, theta, sp, refa, refb))
+        };
+        let ((tt1, tt2), ehpv, ebpv, x, y, s, theta, sp, refa, refb) =
+            steps().map_err(|status| RungError::Sofa {
+                routine: "apco13",
+                status,
+            })?;
+        apco(
+            tt1,
+            tt2,
+            &ebpv,
+            &ehpv[0],
+            x,
+            y,
+            s,
+            theta,
             site.lon_rad(),
             site.lat_rad(),
             site.elev_m,
             0.0,
             0.0,
-            phpa,
-            tc,
-            rh,
-            wl,
+            sp,
+            refa,
+            refb,
             &mut astrom,
-            &mut eo,
-        )
-        .map_err(|status| RungError::Sofa {
-            routine: "apco13",
-            status,
-        })?;
+        );
         let tt = t.tt();
-        let (eh, eb) = sofars::eph::epv00(tt.0, tt.1).ok_or(RungError::Sofa {
-            routine: "epv00",
-            status: 1,
-        })?;
+        // The context's TT is the instant's own; its Earth is apco13's when
+        // the two TTs are the same bits (always, while the instant's TT
+        // follows SOFA's), else epv00 at the instant's TT as before.
+        let same = tt.0.to_bits() == tt1.to_bits() && tt.1.to_bits() == tt2.to_bits();
+        let (eh, eb) = if same {
+            (ehpv, ebpv)
+        } else {
+            sofars::eph::epv00(tt.0, tt.1).ok_or(RungError::Sofa {
+                routine: "epv00",
+                status: 1,
+            })?
+        };
         Ok(Self::finish(t, tt, astrom, eh, eb))
     }
 
@@ -651,6 +683,55 @@ mod tests {
             assert!(ds < 0.05, "sun differs by {ds} arcsec");
             let dm = a.moon().separation_rad(&b.moon()).to_degrees() * 3600.0;
             assert!(dm < 0.05, "moon differs by {dm} arcsec");
+        }
+    }
+
+    #[test]
+    fn exact_context_is_sofa_apco13_to_the_bit() {
+        // The exact context takes apco13's steps one sofars routine at a
+        // time (to keep its Earth): its astrometry must be sofars apco13's
+        // own, bit for bit, and its Earth epv00's at the instant's TT.
+        let s = site();
+        for (k, iso) in [
+            "2026-03-10T12:00:00Z",
+            "2026-12-02T01:00:00.25Z",
+            "2027-06-30T23:59:59Z",
+            "2016-12-31T23:59:59.5Z",
+        ]
+        .iter()
+        .enumerate()
+        {
+            let t = parse_instant(iso).unwrap();
+            let c = Context::exact_uncached(&s, t).unwrap();
+            let (phpa, tc, rh, wl) = site_refraction(&s);
+            let mut astrom = IauAstrom::default();
+            let mut eo = 0.0;
+            sofars::astro::apco13(
+                t.utc1,
+                t.utc2,
+                crate::astro::time::DUT1_S,
+                s.lon_rad(),
+                s.lat_rad(),
+                s.elev_m,
+                0.0,
+                0.0,
+                phpa,
+                tc,
+                rh,
+                wl,
+                &mut astrom,
+                &mut eo,
+            )
+            .unwrap();
+            assert_eq!(format!("{:?}", c.astrom), format!("{astrom:?}"), "case {k}");
+            let tt = t.tt();
+            let (eh, eb) = sofars::eph::epv00(tt.0, tt.1).unwrap();
+            assert_eq!(
+                format!("{:?}", c.earth_helio),
+                format!("{eh:?}"),
+                "case {k}"
+            );
+            assert_eq!(format!("{:?}", c.earth_bary), format!("{eb:?}"), "case {k}");
         }
     }
 
