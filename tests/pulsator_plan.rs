@@ -216,3 +216,53 @@ fn a_stale_ephemeris_is_flagged() {
     );
     assert!(r.notes.iter().any(|n| n.contains("STALE")));
 }
+
+/// The scheduler's fill asks the precision of a plan with one epoch more on
+/// each of many nights (`Method::predict_each_extra`); the pulsator method
+/// works the base's phases out once, and every answer must be `predict`'s
+/// for the base followed by that epoch, to the last bit (also a repeat of
+/// a base epoch, one before the base's first, one the method refuses, and
+/// a base the method refuses).
+#[test]
+fn each_extra_epoch_is_predicted_as_predict_predicts_it() {
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let t = star(10.0);
+    let s = Setting {
+        site: &site,
+        target: &t,
+        from: d("2026-12-01"),
+        to: d("2026-12-20"),
+        limits: Limits::new(30.0, -12.0).unwrap(),
+    };
+    let m = PulsatorMethod::default();
+    let em = PhotonLimited;
+    let epochs = m.propose(&s, &em).unwrap();
+    assert!(epochs.len() >= 6);
+    let (base, rest) = epochs.split_at(epochs.len() - 3);
+    let mut extra: Vec<rung::ladder::Epoch> = rest.to_vec();
+    extra.push(base[0].clone());
+    let mut early = base[0].clone();
+    early.time = early.time.add_seconds(-86_400.0 * 3.0);
+    extra.push(early);
+    let mut bad = base[1].clone();
+    bad.snr = -1.0; // refused: the signal-to-noise is not positive
+    extra.push(bad.clone());
+    let mut bad_base = base.to_vec();
+    bad_base[2] = bad;
+    for b in [base, &bad_base[..], &base[..2]] {
+        let each = m.predict_each_extra(&s, &em, b, &extra);
+        assert_eq!(each.len(), extra.len());
+        // The reference: predict of the base and that epoch, one call each.
+        let one_by_one = rung::ladder::predict_each_by_one(&m, &s, &em, b, &extra);
+        for (got, want) in each.into_iter().zip(one_by_one) {
+            match (got, want) {
+                (Ok(a), Ok(b)) => assert_eq!(
+                    serde_json::to_string(&a).unwrap(),
+                    serde_json::to_string(&b).unwrap()
+                ),
+                (Err(a), Err(b)) => assert_eq!(a.to_string(), b.to_string()),
+                (a, b) => panic!("{a:?} vs {b:?}"),
+            }
+        }
+    }
+}
