@@ -233,6 +233,14 @@ impl Flow {
                 let u = self.to[e];
                 if self.cap[e] > FLOW_EPS && self.level[u] < 0 {
                     self.level[u] = self.level[v] + 1;
+                    if u == t {
+                        // The nodes not yet labelled lie no nearer the
+                        // source than `t`: no shortest path to `t` passes
+                        // them, so the blocking flow is the same without
+                        // them (and the last search, which misses `t`,
+                        // labels every node it reaches).
+                        return true;
+                    }
                     self.queue.push(u);
                 }
                 e = self.next[e];
