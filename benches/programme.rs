@@ -11,6 +11,11 @@
 //!   of every target computed (the runner starts it before the budget) and
 //!   the screen drawn at 80×24;
 //! - the UI's next night: `→`, the new night's table, the redraw;
+//! - the UI's cold budget wait (the Roster's σd/d·goal column over the
+//!   budget's 18 months, the UI's memo of predictions cleared before each
+//!   sample through `effects::clear_budget_memo`): until the rows on screen
+//!   at 80×24 show their figures (the budget job streams them, those rows
+//!   first), and until the whole budget is in (every row);
 //! - a key that needs no computation (`↓` in the Roster, a letter typed in
 //!   the filter): the update and the redraw, what stands between a key and a
 //!   redrawn screen (aim: 50 ms).
@@ -36,7 +41,8 @@ use rung::astro::night::Night;
 use rung::astro::time::parse_instant;
 use rung::io::targets::Target;
 use rung::programme::{Choices, Request, Settings};
-use rung::tui::effects::run;
+use rung::tui::effects::{Cancel, budget_streaming, clear_budget_memo, run};
+use rung::tui::state::Progress;
 use rung::tui::state::{Programme, State};
 use rung::tui::theme::Theme;
 use rung::tui::{Action, Effect, Msg, Setup, draw, init, update};
@@ -166,6 +172,65 @@ fn bench(c: &mut Criterion) {
                     .collect();
                 black_box((events, rows, sky))
             })
+        });
+    }
+    g.finish();
+
+    let mut g = c.benchmark_group("UI budget, cold");
+    g.sample_size(10);
+    for (n, t) in &programmes {
+        if *n > 1_000 {
+            continue;
+        }
+        // The state with its night table, the Roster shown; the memo cleared.
+        let ready = || {
+            let (mut s, e) = init(setup(t.clone(), &budget_st));
+            if let Some(e) = e.and_then(night_job) {
+                for m in run(e) {
+                    update(&mut s, m);
+                }
+            }
+            clear_budget_memo();
+            s
+        };
+        let in_sight = |s: &State| {
+            let rows = (24 - rung::tui::state::CHROME_ROWS - 2) as usize;
+            s.order
+                .iter()
+                .take(rows)
+                .all(|&i| !matches!(s.progress(&s.targets[i]), Progress::Pending { .. }))
+        };
+        g.bench_function(format!("rows on screen, {n} targets"), |b| {
+            b.iter_batched(
+                ready,
+                |mut s| {
+                    let k = s.budget_key();
+                    let stop = Cancel::default();
+                    let _ = budget_streaming(&k, &stop, &mut |m| {
+                        update(&mut s, m);
+                        if in_sight(&s) {
+                            stop.cancel();
+                        }
+                    });
+                    assert!(in_sight(&s));
+                    s
+                },
+                BatchSize::PerIteration,
+            )
+        });
+        g.bench_function(format!("every row, {n} targets"), |b| {
+            b.iter_batched(
+                ready,
+                |mut s| {
+                    let k = s.budget_key();
+                    for m in run(Effect::Budget(Box::new(k))) {
+                        update(&mut s, m);
+                    }
+                    assert!(s.budget_now().is_some());
+                    s
+                },
+                BatchSize::PerIteration,
+            )
         });
     }
     g.finish();

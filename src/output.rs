@@ -149,7 +149,9 @@ pub fn clock_hm<Z: chrono::TimeZone>(t: crate::astro::time::Instant, tz: &Z) -> 
 where
     Z::Offset: std::fmt::Display,
 {
-    t.round_to_second().local(tz).format("%H:%M").to_string()
+    let mut b = Vec::with_capacity(5);
+    push_hm(&mut b, &rounded_utc(t).with_timezone(tz));
+    String::from_utf8(b).unwrap_or_default()
 }
 
 /// `x` with `dp` decimals, no sign when it rounds to zero; `None` when `x`
@@ -381,7 +383,7 @@ pub fn push_iso(buf: &mut Vec<u8>, unix_s: f64) {
 /// straight into `buf` instead of through a formatting pattern.
 pub fn push_instant(buf: &mut Vec<u8>, t: crate::astro::time::Instant) {
     use chrono::{Datelike, Timelike};
-    let dt = t.round_to_second().to_datetime();
+    let dt = rounded_utc(t);
     push_padded(buf, dt.year().max(0) as u64, 4);
     buf.push(b'-');
     push2(buf, dt.month() as usize);
@@ -395,6 +397,28 @@ pub fn push_instant(buf: &mut Vec<u8>, t: crate::astro::time::Instant) {
     let leap = usize::from(dt.nanosecond() >= 1_000_000_000);
     push2(buf, dt.second() as usize + leap);
     buf.push(b'Z');
+}
+
+/// `t` rounded to the whole second as a UTC date-time, as
+/// `t.round_to_second().to_datetime()` gives it.
+fn rounded_utc(t: crate::astro::time::Instant) -> chrono::DateTime<chrono::Utc> {
+    use chrono::Timelike;
+    // `Instant::round_to_second` reads the instant to the microsecond, steps
+    // back to the whole second (and on by one from half a second), to be
+    // read again: the whole second read the first time, plus one second when
+    // rounding up, except where the next second may be a leap second (the
+    // last second of a UTC day) or the instant is in one: there the long way.
+    let dt = t.to_datetime();
+    let nanos = dt.nanosecond();
+    if nanos >= 1_000_000_000 || (dt.hour(), dt.minute(), dt.second()) == (23, 59, 59) {
+        return t.round_to_second().to_datetime();
+    }
+    let whole = dt - chrono::Duration::nanoseconds(i64::from(nanos));
+    if nanos >= 500_000_000 {
+        whole + chrono::Duration::seconds(1)
+    } else {
+        whole
+    }
 }
 
 /// `HH:MM` of a date-time, as [`clock_hm`] writes it once the instant is
@@ -600,6 +624,32 @@ mod tests {
             ),
             "x,y\n1,\n"
         );
+    }
+
+    #[test]
+    fn instants_are_written_as_iso_writes_them() {
+        // Around whole and half seconds, across midnight, and on 2016-12-31,
+        // whose last minute has a leap second (IERS Bulletin C 52).
+        let mut n = 0;
+        for base in [
+            "2026-12-01T23:52:59Z",
+            "2026-12-01T23:59:59Z",
+            "2016-12-31T23:59:58Z",
+            "2016-12-31T23:59:59Z",
+            "2017-01-01T00:00:00Z",
+        ] {
+            let t0 = crate::astro::time::parse_instant(base).unwrap();
+            for k in -40..=80 {
+                let t = t0.add_seconds(k as f64 * 0.0371);
+                let mut b = Vec::new();
+                push_instant(&mut b, t);
+                assert_eq!(String::from_utf8(b).unwrap(), t.iso(), "{base} + {k}");
+                let hm = t.round_to_second().local(&chrono::Utc).format("%H:%M");
+                assert_eq!(clock_hm(t, &chrono::Utc), hm.to_string(), "{base} + {k}");
+                n += 1;
+            }
+        }
+        assert_eq!(n, 5 * 121);
     }
 
     #[test]

@@ -275,6 +275,8 @@ fn release_claim() {
 enum Wake {
     Input(crossterm::event::Event),
     Done(Lane, Vec<Msg>),
+    /// What a running job knows already (a budget's first targets).
+    Partial(Msg),
 }
 
 /// Background jobs: the policy of [`rung::tui::jobs`] (one job per lane, a
@@ -290,7 +292,10 @@ impl Runner {
         for st in starts {
             let tx = self.tx.clone();
             std::thread::spawn(move || {
-                let msgs = effects::run_until(st.effect, &st.cancel);
+                let part = tx.clone();
+                let msgs = effects::run_streaming(st.effect, &st.cancel, &mut |m| {
+                    let _ = part.send(Wake::Partial(m));
+                });
                 let _ = tx.send(Wake::Done(st.lane, msgs));
             });
         }
@@ -405,6 +410,7 @@ fn event_loop(
             apply(state, Msg::Resize(w, h), runner)
         }
         Wake::Input(_) => {}
+        Wake::Partial(m) => apply(state, m, runner),
         Wake::Done(lane, msgs) => {
             for m in msgs {
                 apply(state, m, runner);

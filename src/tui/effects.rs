@@ -244,31 +244,64 @@ pub fn budget_for(k: &BudgetKey) -> Result<crate::plan::budget::Budget> {
 /// budget superseded it): `None` then. The targets already computed are kept
 /// for the next budget with the same settings.
 pub fn budget_until(k: &BudgetKey, cancel: &Cancel) -> Result<Option<crate::plan::budget::Budget>> {
+    budget_streaming(k, cancel, &mut |_| {})
+}
+
+/// A target's prediction, as the budget keeps it.
+type Pred = Option<std::result::Result<crate::ladder::Prediction, String>>;
+/// A target's prediction and, once computed, its curve.
+type BudgetRowWork = (Pred, Option<Vec<crate::plan::budget::CurvePoint>>);
+/// The memo of [`budget_streaming`]: per settings (the newest
+/// [`BUDGET_MEMO_KEEP`]), per target name, the targets of that name and their rows.
+type BudgetMemo = std::sync::Mutex<
+    Vec<(
+        Arc<crate::programme::Settings>,
+        std::collections::HashMap<String, Vec<(Target, BudgetRowWork)>>,
+    )>,
+>;
+/// Settings whose predictions are kept (the newest).
+const BUDGET_MEMO_KEEP: usize = 4;
+static BUDGET_MEMO: std::sync::OnceLock<BudgetMemo> = std::sync::OnceLock::new();
+
+/// Forget every target's prediction and curve kept by the budget (the next
+/// budget computes all of them again): for benchmarks of the cold wait.
+pub fn clear_budget_memo() {
+    if let Some(m) = BUDGET_MEMO.get() {
+        m.lock().unwrap_or_else(|e| e.into_inner()).clear();
+    }
+}
+
+/// How many targets a budget computes between two partial results: small
+/// enough that the rows on screen come first and the column fills as the
+/// observer watches, large enough to keep every core busy (two targets a core).
+fn budget_chunk() -> usize {
+    (2 * rayon::current_num_threads()).max(8)
+}
+
+/// [`budget_until`], handing each target's figures to `partial` as soon as
+/// they are computed ([`Msg::BudgetPartial`]): the targets of
+/// [`BudgetKey::first`] (the rows on screen) first, then the others in
+/// programme order, a few at a time.
+pub fn budget_streaming(
+    k: &BudgetKey,
+    cancel: &Cancel,
+    partial: &mut dyn FnMut(Msg),
+) -> Result<Option<crate::plan::budget::Budget>> {
     use crate::plan::budget::{
-        CurvePoint, Options, TargetWork, assemble_with, curve::inverse_curve, target_prediction,
+        Options, TargetWork, assemble_with, curve::inverse_curve, target_prediction,
     };
-    use std::collections::HashMap;
-    use std::sync::{Mutex, OnceLock};
-    type Pred = Option<std::result::Result<crate::ladder::Prediction, String>>;
-    /// A target's prediction and, once computed, its curve.
-    type Row = (Pred, Option<Vec<CurvePoint>>);
-    type Rows = HashMap<String, Vec<(Target, Row)>>;
-    type Memo = Mutex<Vec<(Arc<crate::programme::Settings>, Rows)>>;
-    /// Settings whose predictions are kept (the newest).
-    const KEEP: usize = 4;
-    static MEMO: OnceLock<Memo> = OnceLock::new();
     crate::plan::schedule::dates(k.settings.from, k.settings.to)?;
     if let Some(a) = &k.asked {
         a.check()?;
         a.check_semesters(&k.settings)?;
     }
     let curves = k.curves || k.asked.is_some();
-    let memo = MEMO.get_or_init(|| Mutex::new(Vec::new()));
-    let find = |m: &[(Arc<crate::programme::Settings>, Rows)]| {
+    let memo = BUDGET_MEMO.get_or_init(|| std::sync::Mutex::new(Vec::new()));
+    let find = |m: &[(Arc<crate::programme::Settings>, _)]| {
         m.iter()
             .position(|(s, _)| crate::tui::state::same_settings(s, &k.settings))
     };
-    let known: Vec<Option<Row>> = match memo.lock() {
+    let mut rows: Vec<Option<BudgetRowWork>> = match memo.lock() {
         Ok(m) => match find(&m) {
             Some(i) => k
                 .targets
@@ -288,66 +321,90 @@ pub fn budget_until(k: &BudgetKey, cancel: &Cancel) -> Result<Option<crate::plan
     // target): its row from its plan, its stars none (plan::budget::list_prediction).
     let links = crate::ladder::field::link(&k.targets);
     let alone = |i: usize| matches!(links.role(i), crate::ladder::field::Role::Alone);
-    let rows: Vec<Option<Row>> = k
-        .targets
-        .par_iter()
-        .zip(known)
-        .enumerate()
-        .map(|(i, (t, r))| {
-            if !alone(i) {
-                return (!cancel.is_cancelled()).then(|| {
-                    (
-                        crate::plan::budget::list_prediction(&k.settings, &k.targets, &links, i),
-                        None,
-                    )
-                });
-            }
-            let (pred, curve) = match r {
-                Some(x) => x,
-                None if cancel.is_cancelled() => return None,
-                None => (target_prediction(&k.settings, t), None),
-            };
-            let curve = match (curve, &pred) {
-                (Some(c), _) => Some(c),
-                (None, Some(Ok(p))) if curves => {
-                    if cancel.is_cancelled() {
-                        return None;
-                    }
-                    Some(inverse_curve(&k.settings, t, Some(p)))
-                }
-                _ => None,
-            };
-            Some((pred, curve))
-        })
+    // What is known already goes to the table at once.
+    let known: Vec<usize> = (0..k.targets.len())
+        .filter(|&i| alone(i) && rows[i].is_some())
         .collect();
-    if let Ok(mut m) = memo.lock() {
-        let i = match find(&m) {
-            Some(i) => i,
-            None => {
-                if m.len() >= KEEP {
-                    m.remove(0);
-                }
-                m.push((k.settings.clone(), HashMap::new()));
-                m.len() - 1
-            }
-        };
-        let kept = &mut m[i].1;
-        for (i, (t, r)) in k.targets.iter().zip(&rows).enumerate() {
-            let Some(r) = r else { continue };
-            if !alone(i) {
-                continue;
-            }
-            let v = kept.entry(t.name.clone()).or_default();
-            match v.iter_mut().find(|(mt, _)| mt == t) {
-                Some(slot) if slot.1.1.is_none() => slot.1 = r.clone(),
-                Some(_) => {}
-                None => v.push((t.clone(), r.clone())),
+    send_partial(k, &known, &rows, partial);
+    // The rows on screen first, then the rest in order; each once.
+    let mut seen = vec![false; k.targets.len()];
+    let mut todo = Vec::with_capacity(k.targets.len());
+    for &i in k
+        .first
+        .iter()
+        .chain(&(0..k.targets.len()).collect::<Vec<_>>())
+    {
+        if i < k.targets.len() && !seen[i] {
+            seen[i] = true;
+            let needs_curve = curves && alone(i) && matches!(&rows[i], Some((Some(Ok(_)), None)));
+            if rows[i].is_none() || needs_curve || !alone(i) {
+                todo.push(i);
             }
         }
     }
-    let Some(rows) = rows.into_iter().collect::<Option<Vec<Row>>>() else {
+    let chunk_len = budget_chunk();
+    let mut done = 0;
+    while done < todo.len() {
+        if cancel.is_cancelled() {
+            return Ok(None);
+        }
+        let n = chunk_len.min(todo.len() - done);
+        let chunk = &todo[done..done + n];
+        done += n;
+        let got: Vec<(usize, Option<BudgetRowWork>)> = chunk
+            .par_iter()
+            .map(|&i| {
+                let t = &k.targets[i];
+                if !alone(i) {
+                    return (
+                        i,
+                        (!cancel.is_cancelled()).then(|| {
+                            (
+                                crate::plan::budget::list_prediction(
+                                    &k.settings,
+                                    &k.targets,
+                                    &links,
+                                    i,
+                                ),
+                                None,
+                            )
+                        }),
+                    );
+                }
+                let (pred, curve) = match rows[i].clone() {
+                    Some(x) => x,
+                    None if cancel.is_cancelled() => return (i, None),
+                    None => (target_prediction(&k.settings, t), None),
+                };
+                let curve = match (curve, &pred) {
+                    (Some(c), _) => Some(c),
+                    (None, Some(Ok(p))) if curves => {
+                        if cancel.is_cancelled() {
+                            return (i, None);
+                        }
+                        Some(inverse_curve(&k.settings, t, Some(p)))
+                    }
+                    _ => None,
+                };
+                (i, Some((pred, curve)))
+            })
+            .collect();
+        let mut fresh = Vec::with_capacity(got.len());
+        for (i, r) in got {
+            if r.is_some() && alone(i) {
+                fresh.push(i);
+            }
+            rows[i] = r;
+        }
+        keep_in_memo(memo, k, &fresh, &rows);
+        send_partial(k, &fresh, &rows, partial);
+    }
+    let Some(rows) = rows.into_iter().collect::<Option<Vec<BudgetRowWork>>>() else {
         return Ok(None);
     };
+    if cancel.is_cancelled() {
+        return Ok(None);
+    }
     let work = rows
         .into_iter()
         .map(|(pred, curve)| {
@@ -370,6 +427,67 @@ pub fn budget_until(k: &BudgetKey, cancel: &Cancel) -> Result<Option<crate::plan
         },
     )
     .map(Some)
+}
+
+/// Keep the rows of the targets `fresh` (indices into `k.targets`, each
+/// alone, not in a field) in the memo of `k`'s settings.
+fn keep_in_memo(memo: &BudgetMemo, k: &BudgetKey, fresh: &[usize], rows: &[Option<BudgetRowWork>]) {
+    if fresh.is_empty() {
+        return;
+    }
+    let Ok(mut m) = memo.lock() else {
+        return;
+    };
+    let i = match m
+        .iter()
+        .position(|(s, _)| crate::tui::state::same_settings(s, &k.settings))
+    {
+        Some(i) => i,
+        None => {
+            if m.len() >= BUDGET_MEMO_KEEP {
+                m.remove(0);
+            }
+            m.push((k.settings.clone(), std::collections::HashMap::new()));
+            m.len() - 1
+        }
+    };
+    let kept = &mut m[i].1;
+    for &j in fresh {
+        let (Some(r), t) = (&rows[j], &k.targets[j]) else {
+            continue;
+        };
+        let v = kept.entry(t.name.clone()).or_default();
+        match v.iter_mut().find(|(mt, _)| mt == t) {
+            Some(slot) if slot.1.1.is_none() => slot.1 = r.clone(),
+            Some(_) => {}
+            None => v.push((t.clone(), r.clone())),
+        }
+    }
+}
+
+/// Hand the figures of the targets `idx` to `partial` as one
+/// [`Msg::BudgetPartial`]: per target, what the budget's row will say of it
+/// (the method's σd/d and verdict, or why it has none).
+fn send_partial(
+    k: &BudgetKey,
+    idx: &[usize],
+    rows: &[Option<BudgetRowWork>],
+    partial: &mut dyn FnMut(Msg),
+) {
+    let figures: Vec<(Target, crate::tui::state::PartialFigure)> = idx
+        .iter()
+        .filter_map(|&i| {
+            let (pred, _) = rows[i].as_ref()?;
+            let f = match pred.as_ref()? {
+                Ok(p) => Ok((p.distance_precision_pct, p.verdict.clone())),
+                Err(e) => Err(e.clone()),
+            };
+            Some((k.targets[i].clone(), f))
+        })
+        .collect();
+    if !figures.is_empty() {
+        partial(Msg::BudgetPartial(k.settings.clone(), figures));
+    }
 }
 
 /// The budget of `k` with every target's curve ([`budget_for`]) written as
@@ -676,6 +794,13 @@ pub fn run(effect: Effect) -> Vec<Msg> {
 /// answers); other jobs run to the end (their results are dropped by the
 /// state's generation or key when stale).
 pub fn run_until(effect: Effect, cancel: &Cancel) -> Vec<Msg> {
+    run_streaming(effect, cancel, &mut |_| {})
+}
+
+/// [`run_until`], handing what a job knows before it ends to `partial` as
+/// it comes (a budget's targets, [`budget_streaming`]); the final messages
+/// are returned.
+pub fn run_streaming(effect: Effect, cancel: &Cancel, partial: &mut dyn FnMut(Msg)) -> Vec<Msg> {
     match effect {
         Effect::Night(job) => vec![match night_data(&job) {
             Ok(d) => Msg::NightReady(Box::new(d)),
@@ -689,7 +814,7 @@ pub fn run_until(effect: Effect, cancel: &Cancel) -> Vec<Msg> {
             let body = method_report(&k);
             vec![Msg::MethodReady(Box::new(MethodResult { key: *k, body }))]
         }
-        Effect::Budget(k) => match budget_until(&k, cancel) {
+        Effect::Budget(k) => match budget_streaming(&k, cancel, partial) {
             Ok(None) => Vec::new(),
             Ok(Some(b)) => vec![Msg::BudgetReady(k, Ok(Box::new(b)))],
             Err(e) => vec![Msg::BudgetReady(k, Err(e.to_string()))],

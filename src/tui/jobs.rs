@@ -213,6 +213,7 @@ mod tests {
             asked: None,
             curves: false,
             file: None,
+            first: Vec::new(),
         }))
     }
 
@@ -267,6 +268,61 @@ mod tests {
         assert!(crate::tui::effects::budget_until(&k, &c).unwrap().is_none());
         let msgs = crate::tui::effects::run_until(Effect::Budget(Box::new(k)), &c);
         assert!(msgs.is_empty(), "{}", msgs.len());
+    }
+
+    #[test]
+    fn a_budget_streams_the_figures_its_rows_give_the_first_rows_first() {
+        let Effect::Budget(k) = budget() else {
+            unreachable!()
+        };
+        let mut k = *k;
+        let demo = concat!(env!("CARGO_MANIFEST_DIR"), "/targets-demo/targets.csv");
+        k.targets = crate::io::targets::load(std::path::Path::new(demo))
+            .unwrap()
+            .targets;
+        let last = k.targets.len() - 1;
+        k.first = vec![last, 0];
+        let mut parts = Vec::new();
+        let b =
+            crate::tui::effects::budget_streaming(&k, &Cancel::default(), &mut |m| parts.push(m))
+                .unwrap()
+                .unwrap();
+        let mut seen = Vec::new();
+        for m in &parts {
+            let crate::tui::msg::Msg::BudgetPartial(st, figures) = m else {
+                panic!("not a partial: {m:?}")
+            };
+            assert!(crate::tui::state::same_settings(st, &k.settings));
+            for (t, f) in figures {
+                seen.push(t.name.clone());
+                match f {
+                    Ok((pct, verdict)) => {
+                        let r = b.rows.iter().find(|r| r.target == t.name).unwrap();
+                        assert_eq!(r.achievable_pct.to_bits(), pct.to_bits(), "{}", t.name);
+                        assert_eq!(&r.verdict, verdict, "{}", t.name);
+                    }
+                    Err(why) => assert!(
+                        b.skipped.iter().any(|(n, w)| *n == t.name && w == why),
+                        "{}",
+                        t.name
+                    ),
+                }
+            }
+        }
+        // Every row of a target alone (not in a field) came before the budget.
+        for r in b.rows.iter().filter(|r| r.members.is_empty()) {
+            assert!(seen.contains(&r.target), "{} not streamed", r.target);
+        }
+        // The rows asked first came in the first message, when they have figures.
+        let crate::tui::msg::Msg::BudgetPartial(_, first) = &parts[0] else {
+            unreachable!()
+        };
+        for i in [last, 0] {
+            let name = &k.targets[i].name;
+            if seen.contains(name) {
+                assert!(first.iter().any(|(t, _)| &t.name == name), "{name}");
+            }
+        }
     }
 
     #[test]

@@ -54,6 +54,12 @@ pub enum Msg {
         Box<BudgetKey>,
         Result<Box<crate::plan::budget::Budget>, String>,
     ),
+    /// Some targets' figures from a budget still being computed (for the
+    /// settings given), shown until the whole budget arrives.
+    BudgetPartial(
+        Arc<crate::programme::Settings>,
+        Vec<(Target, crate::tui::state::PartialFigure)>,
+    ),
     /// The distance ladder was computed (or why it does not close).
     LadderReady(
         Box<BudgetKey>,

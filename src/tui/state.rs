@@ -375,7 +375,23 @@ pub struct BudgetKey {
     pub curves: bool,
     /// The programme's file, for messages that name it.
     pub file: Option<std::path::PathBuf>,
+    /// Targets (indices into `targets`) computed first: the rows on screen
+    /// and near the cursor when the budget was asked. Not part of what the
+    /// budget is for (two keys that differ here are equal).
+    pub first: Vec<usize>,
 }
+
+/// What the budget says of one target before the whole budget is ready
+/// (`Msg::BudgetPartial`): the method's σd/d (percent) and verdict, the same
+/// figures as the budget's row, or why the method gives nothing.
+pub type PartialFigure = std::result::Result<(f64, crate::ladder::Verdict), String>;
+
+/// Per target name, the targets of that name and their figures, with the
+/// settings they were computed for.
+pub type PartialFigures = (
+    Arc<Settings>,
+    std::collections::HashMap<String, Vec<(crate::io::targets::Target, PartialFigure)>>,
+);
 
 impl PartialEq for BudgetKey {
     fn eq(&self, o: &Self) -> bool {
@@ -566,6 +582,9 @@ pub struct State {
     pub budget: Option<(BudgetKey, Result<Box<crate::plan::budget::Budget>, String>)>,
     /// The budget being computed.
     pub budget_pending: Option<BudgetKey>,
+    /// Targets' figures from a budget still being computed, shown until the
+    /// whole budget arrives.
+    pub budget_partial: Option<PartialFigures>,
     /// The last distance ladder (or why it does not close), for the
     /// programme and settings of its key.
     pub ladder: Option<(
@@ -784,7 +803,34 @@ impl State {
             asked: self.budget_ask.asked.clone(),
             curves: self.budget_ask.asked.is_some(),
             file: self.programme_file(),
+            first: self.rows_in_sight(),
         }
+    }
+
+    /// Whether a row on the Roster's screen still waits for its figures and
+    /// is not among `first` (the rows a running budget computes first).
+    pub fn rows_in_sight_wait(&self, first: &[usize]) -> bool {
+        let h = (self.size.1 as usize).max(1);
+        let off = scroll_offset(self.sel, h.saturating_sub(CHROME_ROWS as usize + 2).max(1));
+        self.order.iter().skip(off).take(h).any(|&i| {
+            !first.contains(&i)
+                && matches!(self.progress(&self.targets[i]), Progress::Pending { .. })
+        })
+    }
+
+    /// The Roster's rows (indices into `targets`) on screen, then the screens
+    /// below and above: the budget's targets to compute first.
+    pub fn rows_in_sight(&self) -> Vec<usize> {
+        let h = (self.size.1 as usize).max(1);
+        let off = scroll_offset(self.sel, h.saturating_sub(CHROME_ROWS as usize + 2).max(1));
+        let n = self.order.len();
+        let on = off.min(n)..(off + h).min(n);
+        let below = on.end..(on.end + h).min(n);
+        let above = off.saturating_sub(h)..off.min(n);
+        on.chain(below)
+            .chain(above)
+            .map(|i| self.order[i])
+            .collect()
     }
 
     /// The programme's file as messages name it: the file read at start,
@@ -851,11 +897,11 @@ impl State {
             return Progress::NoGoal;
         };
         let Some((k, b)) = self.budget.as_ref() else {
-            return Progress::Pending { goal_pct };
+            return self.partial_progress(t, goal_pct);
         };
         let same = self.budget_setting_is_current(k) && k.targets.contains(t);
         if !same {
-            return Progress::Pending { goal_pct };
+            return self.partial_progress(t, goal_pct);
         }
         let b = match b {
             Ok(b) => b,
@@ -876,6 +922,31 @@ impl State {
         }
         match b.skipped.iter().find(|x| x.0 == t.name) {
             Some((_, why)) => Progress::Unavailable {
+                goal_pct,
+                why: why.clone(),
+            },
+            None => self.partial_progress(t, goal_pct),
+        }
+    }
+
+    /// A target's progress from the figures of a budget being computed
+    /// ([`State::budget_partial`]) for the current settings; pending without.
+    fn partial_progress(&self, t: &Target, goal_pct: f64) -> Progress {
+        let figure = self
+            .budget_partial
+            .as_ref()
+            .filter(|(st, _)| same_settings(st, &self.settings))
+            .and_then(|(_, m)| m.get(&t.name))
+            .and_then(|v| v.iter().find(|(mt, _)| mt == t))
+            .map(|x| &x.1);
+        match figure {
+            Some(Ok((achievable_pct, verdict))) => Progress::Predicted {
+                achievable_pct: *achievable_pct,
+                goal_pct,
+                reached: *verdict == crate::ladder::Verdict::Reachable,
+                verdict: verdict.clone(),
+            },
+            Some(Err(why)) => Progress::Unavailable {
                 goal_pct,
                 why: why.clone(),
             },

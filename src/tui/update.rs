@@ -93,6 +93,7 @@ pub fn init(setup: Setup) -> (State, Option<Effect>) {
         method_pending: None,
         budget: None,
         budget_pending: None,
+        budget_partial: None,
         ladder: None,
         ladder_pending: None,
         budget_ask: crate::tui::ask::BudgetAsk {
@@ -269,11 +270,18 @@ fn budget_effect(s: &mut State) -> Option<Effect> {
         return None;
     }
     let k = s.budget_key();
-    if s.budget.as_ref().is_some_and(|b| s.budget_satisfies(&b.0))
-        || s.budget_pending.as_ref() == Some(&k)
+    if s.budget.as_ref().is_some_and(|b| s.budget_satisfies(&b.0)) {
+        return None;
+    }
+    if let Some(p) = s.budget_pending.as_ref()
+        && *p == k
+        && !(s.view == View::Roster && s.rows_in_sight_wait(&p.first))
     {
         return None;
     }
+    // Asked anew (a newer key, or the same with other rows on screen that
+    // the running job would come to late): the runner stops the running job,
+    // whose targets done so far are kept for this one.
     s.budget_pending = Some(k.clone());
     Some(Effect::Budget(Box::new(k)))
 }
@@ -1353,6 +1361,28 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
             }
             if s.budget_satisfies(&k) {
                 s.budget = Some((*k, r));
+            }
+            None
+        }
+        Msg::BudgetPartial(settings, figures) => {
+            if !crate::tui::state::same_settings(&settings, &s.settings) {
+                return None;
+            }
+            let keep = s
+                .budget_partial
+                .as_ref()
+                .is_some_and(|(st, _)| crate::tui::state::same_settings(st, &settings));
+            if !keep {
+                s.budget_partial = Some((settings, Default::default()));
+            }
+            if let Some((_, m)) = s.budget_partial.as_mut() {
+                for (t, f) in figures {
+                    let v: &mut Vec<_> = m.entry(t.name.clone()).or_default();
+                    match v.iter_mut().find(|(mt, _)| *mt == t) {
+                        Some(slot) => slot.1 = f,
+                        None => v.push((t, f)),
+                    }
+                }
             }
             None
         }
