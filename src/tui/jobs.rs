@@ -253,8 +253,8 @@ mod tests {
         assert_eq!((j.running(), j.waiting()), (0, 0));
     }
 
-    #[test]
-    fn a_superseded_budget_stops_and_says_nothing() {
+    /// The budget's key with the demo programme's targets.
+    fn demo_budget_key() -> crate::tui::state::BudgetKey {
         let Effect::Budget(k) = budget() else {
             unreachable!()
         };
@@ -263,6 +263,12 @@ mod tests {
         k.targets = crate::io::targets::load(std::path::Path::new(demo))
             .unwrap()
             .targets;
+        k
+    }
+
+    #[test]
+    fn a_superseded_budget_stops_and_says_nothing() {
+        let k = demo_budget_key();
         let c = Cancel::default();
         c.cancel();
         assert!(crate::tui::effects::budget_until(&k, &c).unwrap().is_none());
@@ -272,14 +278,7 @@ mod tests {
 
     #[test]
     fn a_budget_streams_the_figures_its_rows_give_the_first_rows_first() {
-        let Effect::Budget(k) = budget() else {
-            unreachable!()
-        };
-        let mut k = *k;
-        let demo = concat!(env!("CARGO_MANIFEST_DIR"), "/targets-demo/targets.csv");
-        k.targets = crate::io::targets::load(std::path::Path::new(demo))
-            .unwrap()
-            .targets;
+        let mut k = demo_budget_key();
         let last = k.targets.len() - 1;
         k.first = vec![last, 0];
         let mut parts = Vec::new();
