@@ -3,6 +3,7 @@
 //! precision, goal mode, and bad input.
 
 mod parallax_support;
+mod plan_support;
 
 use chrono::NaiveDate;
 use parallax_support::TestCamera;
@@ -271,18 +272,5 @@ fn each_extra_epoch_is_predicted_as_predict_predicts_it() {
     let mut bad = base[1].clone();
     bad.exptime_s = -1.0; // refused
     extra.push(bad);
-    let each = m.predict_each_extra(&s, &cam, base, &extra);
-    assert_eq!(each.len(), extra.len());
-    // The reference: predict of the base and that epoch, one call each.
-    let one_by_one = rung::ladder::predict_each_by_one(&m, &s, &cam, base, &extra);
-    for (got, want) in each.into_iter().zip(one_by_one) {
-        match (got, want) {
-            (Ok(a), Ok(b)) => assert_eq!(
-                serde_json::to_string(&a).unwrap(),
-                serde_json::to_string(&b).unwrap()
-            ),
-            (Err(a), Err(b)) => assert_eq!(a.to_string(), b.to_string()),
-            (a, b) => panic!("{a:?} vs {b:?}"),
-        }
-    }
+    plan_support::assert_each_extra_as_predict(&m, &s, &cam, base, &extra);
 }

@@ -1,6 +1,8 @@
 //! Phase reachability, the phase-bin cover, and the `Method` face of the
 //! pulsator method at the invented demo site, with a small test exposure model.
 
+mod plan_support;
+
 use chrono::NaiveDate;
 use rung::Result;
 use rung::astro::frames::{CatalogPlace, Context};
@@ -250,19 +252,6 @@ fn each_extra_epoch_is_predicted_as_predict_predicts_it() {
     let mut bad_base = base.to_vec();
     bad_base[2] = bad;
     for b in [base, &bad_base[..], &base[..2]] {
-        let each = m.predict_each_extra(&s, &em, b, &extra);
-        assert_eq!(each.len(), extra.len());
-        // The reference: predict of the base and that epoch, one call each.
-        let one_by_one = rung::ladder::predict_each_by_one(&m, &s, &em, b, &extra);
-        for (got, want) in each.into_iter().zip(one_by_one) {
-            match (got, want) {
-                (Ok(a), Ok(b)) => assert_eq!(
-                    serde_json::to_string(&a).unwrap(),
-                    serde_json::to_string(&b).unwrap()
-                ),
-                (Err(a), Err(b)) => assert_eq!(a.to_string(), b.to_string()),
-                (a, b) => panic!("{a:?} vs {b:?}"),
-            }
-        }
+        plan_support::assert_each_extra_as_predict(&m, &s, &em, b, &extra);
     }
 }

@@ -1,6 +1,7 @@
 //! What the scheduler's tests share (plan_schedule, plan_replan,
 //! plan_covered): the test photometry, dates, and one call of the scheduler
-//! at the demo site with the test's methods.
+//! at the demo site with the test's methods; and the check of the fill's
+//! `predict_each_extra` against `predict` (parallax_plan, pulsator_plan).
 //!
 //! Each test file includes it with `mod plan_support;`; not every file uses
 //! every item.
@@ -103,5 +104,31 @@ impl<'a> Job<'a> {
             fields: &fields,
         };
         schedule(&req)
+    }
+}
+
+/// `Method::predict_each_extra` must give, for every extra epoch, what
+/// `predict` gives for the base followed by that epoch (one call each,
+/// `rung::ladder::predict_each_by_one`), to the last bit: the same JSON of
+/// each prediction, the same message of each refusal.
+pub fn assert_each_extra_as_predict(
+    m: &dyn rung::ladder::Method,
+    s: &rung::ladder::Setting,
+    em: &dyn ExposureModel,
+    base: &[rung::ladder::Epoch],
+    extra: &[rung::ladder::Epoch],
+) {
+    let each = m.predict_each_extra(s, em, base, extra);
+    assert_eq!(each.len(), extra.len());
+    let one_by_one = rung::ladder::predict_each_by_one(m, s, em, base, extra);
+    for (got, want) in each.into_iter().zip(one_by_one) {
+        match (got, want) {
+            (Ok(a), Ok(b)) => assert_eq!(
+                serde_json::to_string(&a).unwrap(),
+                serde_json::to_string(&b).unwrap()
+            ),
+            (Err(a), Err(b)) => assert_eq!(a.to_string(), b.to_string()),
+            (a, b) => panic!("{a:?} vs {b:?}"),
+        }
     }
 }
