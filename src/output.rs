@@ -686,4 +686,51 @@ mod tests {
             assert_eq!(String::from_utf8(b).unwrap(), want);
         }
     }
+
+    /// The straight writer (`JsonNest`, `push_json_*`) gives the bytes
+    /// `json` gives for the same document: nesting, empty object and array,
+    /// escapes, negative zero and a non-finite number.
+    #[test]
+    fn json_nest_writes_what_json_writes() {
+        let doc = serde_json::json!({
+            "a": [1.5, -0.0, null, {"k": "tab\there \"q\""}],
+            "b": {},
+            "c": [],
+            "d": {"x": [{"y": 2.0}], "z": "é"},
+        });
+        let want = json(&doc).unwrap();
+        let mut b = Vec::new();
+        let mut o = JsonNest::object(&mut b, 0);
+        o.key(&mut b, "a");
+        let mut a = JsonNest::array(&mut b, o.inner());
+        for x in [Some(1.5), Some(-0.0), Some(f64::NAN)] {
+            a.item(&mut b);
+            push_json_num(&mut b, x);
+        }
+        a.item(&mut b);
+        let mut k = JsonNest::object(&mut b, a.inner());
+        k.key(&mut b, "k");
+        push_json_str(&mut b, "tab\there \"q\"");
+        k.close(&mut b);
+        a.close(&mut b);
+        o.key(&mut b, "b");
+        JsonNest::object(&mut b, o.inner()).close(&mut b);
+        o.key(&mut b, "c");
+        JsonNest::array(&mut b, o.inner()).close(&mut b);
+        o.key(&mut b, "d");
+        let mut d = JsonNest::object(&mut b, o.inner());
+        d.key(&mut b, "x");
+        let mut x = JsonNest::array(&mut b, d.inner());
+        x.item(&mut b);
+        let mut y = JsonNest::object(&mut b, x.inner());
+        y.key(&mut b, "y");
+        push_json_num(&mut b, Some(2.0));
+        y.close(&mut b);
+        x.close(&mut b);
+        d.key(&mut b, "z");
+        push_json_str(&mut b, "é");
+        d.close(&mut b);
+        o.close(&mut b);
+        assert_eq!(String::from_utf8(b).unwrap(), want);
+    }
 }
