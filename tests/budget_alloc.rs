@@ -5,7 +5,8 @@
 //! goals-met curve agrees with the optimum at every number of hours.
 
 use rung::plan::budget::alloc::{
-    Capacity, Item, NightCost, Problem, allocate, exhaustive, least_hours_for, steps,
+    Capacity, Item, NightCost, Problem, allocate, exhaustive, hull, least_hours_for, steps,
+    steps_one_by_one,
 };
 
 /// A small deterministic generator (xorshift64*), so every run tries the same programmes.
@@ -388,4 +389,57 @@ fn equal_weights_sharing_nights_are_the_exhaustive_optimum() {
             assert!((a.hours - e.hours).abs() < 1e-6, "case {case}");
         }
     }
+}
+
+/// The curve's stretches between the hull's corners, run side by side and
+/// joined, give the very steps the single sequence gives (the same sets, the
+/// same bits of hours and weight), and each corner is the fewest-hours set
+/// for its weight (the exhaustive search), which is what lets a stretch
+/// start there. Programmes of up to 18 goals for the exhaustive check, and
+/// larger ones (up to 28 goals, more corners) for the sameness alone.
+#[test]
+fn goals_met_curve_in_stretches_is_the_single_sequence_bit_for_bit() {
+    let mut r = Rng(0x5eed_c0de_0bad_f00d);
+    let mut joined = 0;
+    for case in 0..40 {
+        let n = if case % 2 == 0 {
+            6 + r.below(13)
+        } else {
+            19 + r.below(10)
+        };
+        let p = programme(&mut r, n, 1, case % 4 < 2);
+        let corners = hull(&p);
+        for w in corners.windows(2) {
+            assert!(w[1].weight > w[0].weight, "case {case}: corners ascending");
+        }
+        if n <= 18 {
+            for c in &corners {
+                let h: f64 = p.cost(&c.items).iter().sum();
+                let w: f64 = c.items.iter().map(|&i| p.items[i].weight).sum();
+                assert!((w - c.weight).abs() < 1e-9, "case {case}");
+                let e = exhaustive(&p, &Capacity::Total(h + 1e-9));
+                assert!(
+                    (e.weight - w).abs() < 1e-9,
+                    "case {case}: corner is the optimum at its hours"
+                );
+                let under = exhaustive(&p, &Capacity::Total(h - 1e-6));
+                assert!(
+                    under.weight < w - 1e-9,
+                    "case {case}: and not reached with fewer hours"
+                );
+            }
+        }
+        let st = steps(&p);
+        assert_eq!(st, steps_one_by_one(&p), "case {case}");
+        joined += corners
+            .iter()
+            .filter(|c| {
+                st.iter()
+                    .any(|s| s.weight == c.weight && s.items == c.items)
+            })
+            .count();
+    }
+    // The stretches are not all refused (the check would then be the
+    // single sequence alone).
+    assert!(joined > 40, "only {joined} corners met on the curve");
 }

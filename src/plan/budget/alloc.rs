@@ -1212,15 +1212,89 @@ pub struct Step {
 /// tolerances), so a finished search chooses the very set the search from
 /// scratch chooses (the first best in the search's order), in fewer nodes;
 /// one stopped at [`NODE_LIMIT`] keeps at least the known set.
+///
+/// The steps run in stretches side by side, between the corners of the
+/// lower convex hull of the points (weight(B), cost(B)) (see [`hull`]): a
+/// corner's set is the fewest-hours set for its weight, so the curve has a
+/// step at each corner's weight, and the stretch from one corner on needs
+/// only that corner's set to start. Each stretch is then checked against
+/// the one before it: it is kept only when the stretch before ended on that
+/// corner's weight with that very set, which is what its first step would
+/// have started from in one sequence; from the first stretch that fails the
+/// check on, the steps are taken one after the other as before. Each step is
+/// a function of the step before it alone, so the curve is, bit for bit, the
+/// one the single sequence gives.
 pub fn steps(p: &Problem) -> Vec<Step> {
+    use rayon::prelude::*;
+    let max_steps = 4 * p.items.len() + 4;
+    let starts: Vec<(f64, Vec<usize>)> = std::iter::once((0.0, Vec::new()))
+        .chain(hull(p).into_iter().map(|c| (c.weight, c.items)))
+        .collect();
+    let stretches: Vec<Vec<Step>> = (0..starts.len())
+        .into_par_iter()
+        .map(|j| {
+            let (w, before) = &starts[j];
+            let until = starts.get(j + 1).map(|s| s.0);
+            stretch(p, *w, before, until, max_steps)
+        })
+        .collect();
     let mut out: Vec<Step> = Vec::new();
-    let mut w = 0.0;
-    // Each step adds weight, so there are at most as many steps as items
-    // when weights are equal; the guard stops a pathological case.
-    for _ in 0..(4 * p.items.len() + 4) {
+    let n = stretches.len();
+    for (j, st) in stretches.into_iter().enumerate() {
+        if j > 0 {
+            let joins = out
+                .last()
+                .is_some_and(|l| l.weight == starts[j].0 && l.items == starts[j].1);
+            if !joins {
+                break;
+            }
+        }
+        // The last stretch ran to the end of the curve.
+        let whole = j + 1 == n || st.last().is_some_and(|l| l.weight == starts[j + 1].0);
+        out.extend(st);
+        if j + 1 == n {
+            out.truncate(max_steps);
+            return out;
+        }
+        if !whole {
+            break;
+        }
+    }
+    // From the first stretch that did not join, the sequence from the last
+    // step kept.
+    let more = match out.last() {
+        Some(last) => stretch(p, last.weight, &last.items, None, max_steps),
+        None => stretch(p, 0.0, &[], None, max_steps),
+    };
+    out.extend(more);
+    out.truncate(max_steps);
+    out
+}
+
+/// The same curve as [`steps`], its steps taken one after the other from
+/// the start (no stretches side by side): the reference the tests hold
+/// [`steps`] to, bit for bit.
+pub fn steps_one_by_one(p: &Problem) -> Vec<Step> {
+    stretch(p, 0.0, &[], None, 4 * p.items.len() + 4)
+}
+
+/// The steps after weight `w` whose set was `before`, one after the other,
+/// until one reaches `until` (or none adds weight), at most `max_steps`.
+fn stretch(
+    p: &Problem,
+    mut w: f64,
+    before: &[usize],
+    until: Option<f64>,
+    max_steps: usize,
+) -> Vec<Step> {
+    let mut out: Vec<Step> = Vec::new();
+    for _ in 0..max_steps {
+        if until.is_some_and(|u| w >= u) {
+            break;
+        }
         // The step before and its cheapest goal more: a set past its weight,
         // the first incumbent of the fewest-hours search.
-        let before = out.last().map_or(&[][..], |s| &s.items[..]);
+        let before = out.last().map_or(before, |s| &s.items[..]);
         let Some(c) = least_hours_below(p, w + EPS_W * 10.0, one_more(p, before)) else {
             break;
         };
@@ -1238,6 +1312,62 @@ pub fn steps(p: &Problem) -> Vec<Step> {
         });
     }
     out
+}
+
+/// A corner of the lower convex hull of the points (weight(B), cost(B))
+/// over the sets B of items: the set (ascending) and its weight.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Corner {
+    /// Total weight of the set.
+    pub weight: f64,
+    /// The set, ascending.
+    pub items: Vec<usize>,
+}
+
+/// The corners of the lower convex hull of (weight(B), cost(B)), strictly
+/// between the empty set and the last corner of largest weight, ascending
+/// by weight. Each is a set B minimising cost(B) − θ·weight(B) for some
+/// θ > 0 (a minimum cut, as in the closure bounds), so no set of more
+/// weight costs as little: B is the fewest-hours set for its weight. Found
+/// by splitting each hull edge at the slope between its ends until no cut
+/// lies below it (the parametric search of Eisner & Severance 1976, from
+/// memory).
+pub fn hull(p: &Problem) -> Vec<Corner> {
+    let cap = Capacity::Total(f64::INFINITY);
+    let mut s = Search::new(p, &cap);
+    if s.order.is_empty() {
+        return Vec::new();
+    }
+    let top = s.all_undecided(0);
+    let mut corners: Vec<(f64, f64, Vec<usize>)> = Vec::new();
+    let mut edges = vec![((0.0, 0.0), top)];
+    while let Some((lo, hi)) = edges.pop() {
+        if hi.0 - lo.0 <= EPS_W || corners.len() > 4 * p.items.len() {
+            continue;
+        }
+        let theta = (hi.1 - lo.1) / (hi.0 - lo.0);
+        if !(theta > 0.0 && theta.is_finite()) {
+            continue;
+        }
+        let b = s.closure(0, theta);
+        let margin = 1e-9 * (1.0 + hi.1.abs());
+        if b.1 - theta * b.0 < lo.1 - theta * lo.0 - margin
+            && b.0 > lo.0 + EPS_W
+            && b.0 < hi.0 - EPS_W
+        {
+            let mut items = s.cut.clone();
+            items.sort_unstable();
+            corners.push((b.0, b.1, items));
+            edges.push((lo, b));
+            edges.push((b, hi));
+        }
+    }
+    corners.sort_by(|a, b| a.0.total_cmp(&b.0));
+    corners.dedup_by(|a, b| a.0 == b.0);
+    corners
+        .into_iter()
+        .map(|(weight, _, items)| Corner { weight, items })
+        .collect()
 }
 
 /// Every subset tried (at most 20 items): the reference the tests hold
