@@ -111,7 +111,7 @@ fn editing_one_field_changes_that_field_only() {
     );
     // What was saved reads back to the programme in the UI.
     let back = parse_csv(&saved, &file);
-    assert_eq!(back.targets, s.targets);
+    assert_eq!(back.targets, *s.targets);
     // The original is kept once beside it, as before.
     assert_eq!(
         std::fs::read_to_string(dir.path().join("mine.csv.bak")).unwrap(),

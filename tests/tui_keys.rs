@@ -225,7 +225,7 @@ fn edit_validate_undo_redo_and_save() {
     ch(&mut s, 'u');
     ch(&mut s, 'u');
     assert!(
-        s.targets == demo_targets(),
+        *s.targets == demo_targets(),
         "three undos return to the file"
     );
     assert!(!s.dirty());
@@ -236,7 +236,7 @@ fn edit_validate_undo_redo_and_save() {
     assert!(!s.dirty());
     let back = parse_csv(&std::fs::read_to_string(&file).unwrap(), &file);
     assert!(back.problems.is_empty());
-    assert_eq!(back.targets, s.targets);
+    assert_eq!(back.targets, *s.targets);
     let bak = dir.path().join("mine.csv.bak");
     assert_eq!(std::fs::read(&bak).unwrap(), original);
     // Only the file, its backup, no temporary left behind.
@@ -428,7 +428,7 @@ fn unsaved_edits_are_kept_beside_the_file_until_saved() {
     ch(&mut s, 'y');
     let kept = parse_csv(&std::fs::read_to_string(&recovery).unwrap(), &recovery);
     assert!(kept.problems.is_empty());
-    assert_eq!(kept.targets, s.targets);
+    assert_eq!(kept.targets, *s.targets);
     assert_eq!(kept.targets.len(), 70);
     ch(&mut s, 'd');
     ch(&mut s, 'y');
@@ -494,7 +494,7 @@ fn unsaved_edits_left_by_a_session_are_offered_back() {
     ));
     ch(&mut s, 'y');
     assert!(s.overlay.is_none());
-    assert_eq!(s.targets, edited);
+    assert_eq!(*s.targets, edited);
     assert!(s.dirty());
     assert_eq!(
         parse_csv(&std::fs::read_to_string(&file).unwrap(), &file)

@@ -196,7 +196,7 @@ mod tests {
             site: crate::io::sites::resolve("pampa-lucero").unwrap(),
             date: chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap(),
             limits: crate::astro::night::Limits::new(30.0, -12.0).unwrap(),
-            targets: Vec::new(),
+            targets: Arc::default(),
             generation: 1,
         }))
     }
@@ -209,7 +209,7 @@ mod tests {
         .unwrap();
         Effect::Budget(Box::new(crate::tui::state::BudgetKey {
             settings: Arc::new(st),
-            targets: Vec::new(),
+            targets: Arc::default(),
             asked: None,
             curves: false,
             file: None,
@@ -260,9 +260,11 @@ mod tests {
         };
         let mut k = *k;
         let demo = concat!(env!("CARGO_MANIFEST_DIR"), "/targets-demo/targets.csv");
-        k.targets = crate::io::targets::load(std::path::Path::new(demo))
-            .unwrap()
-            .targets;
+        k.targets = Arc::new(
+            crate::io::targets::load(std::path::Path::new(demo))
+                .unwrap()
+                .targets,
+        );
         k
     }
 

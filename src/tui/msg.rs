@@ -124,8 +124,8 @@ pub struct NightJob {
     pub date: chrono::NaiveDate,
     /// Window limits.
     pub limits: Limits,
-    /// Targets to compute.
-    pub targets: Vec<Target>,
+    /// Targets to compute (the state's programme, shared).
+    pub targets: Arc<Vec<Target>>,
     /// Generation counter; stale results are dropped.
     pub generation: u64,
 }

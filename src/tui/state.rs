@@ -298,6 +298,21 @@ pub fn same_settings(a: &Arc<Settings>, b: &Arc<Settings>) -> bool {
     Arc::ptr_eq(a, b) || a == b
 }
 
+/// Whether two programmes are the same: the same `Arc` (a key made from the
+/// state's programme, cheap even at 10,000 targets), or equal values.
+pub fn same_targets(a: &Arc<Vec<Target>>, b: &Arc<Vec<Target>>) -> bool {
+    Arc::ptr_eq(a, b) || a == b
+}
+
+/// Whether a budget's key holds the target `t`: at once when the key's
+/// programme is `now` (the state's) and `t` one of its elements (a row
+/// drawn), else by looking (a linear search, 10,000 comparisons a row at
+/// 10,000 targets).
+fn key_holds(k: &BudgetKey, now: &Arc<Vec<Target>>, t: &Target) -> bool {
+    (Arc::ptr_eq(&k.targets, now) && now.as_ptr_range().contains(&std::ptr::from_ref(t)))
+        || k.targets.contains(t)
+}
+
 /// What a distance-method report is for: a target (as it is now) and the
 /// programme's settings (site, range, limits, instrument, methods).
 #[derive(Debug, Clone)]
@@ -365,8 +380,8 @@ pub struct MethodResult {
 /// and figure need them; the Roster's progress column does not).
 #[derive(Debug, Clone)]
 pub struct BudgetKey {
-    /// The programme.
-    pub targets: Vec<crate::io::targets::Target>,
+    /// The programme (the state's own, shared).
+    pub targets: Arc<Vec<crate::io::targets::Target>>,
     /// The settings it is computed with.
     pub settings: Arc<Settings>,
     /// The hours asked (the Budget view's request).
@@ -396,7 +411,7 @@ pub type PartialFigures = (
 impl PartialEq for BudgetKey {
     fn eq(&self, o: &Self) -> bool {
         same_settings(&self.settings, &o.settings)
-            && self.targets == o.targets
+            && same_targets(&self.targets, &o.targets)
             && self.asked == o.asked
             && self.curves == o.curves
     }
@@ -531,14 +546,15 @@ pub struct State {
     pub now: Instant,
     /// The sky now.
     pub sky: Option<SkyNow>,
-    /// The programme.
-    pub targets: Vec<Target>,
+    /// The programme (shared with the jobs that compute for it: a key
+    /// that holds it costs no copy, and compares by pointer first).
+    pub targets: Arc<Vec<Target>>,
     /// The programme as last saved or loaded (unsaved changes = differs from this).
-    pub saved: Vec<Target>,
+    pub saved: Arc<Vec<Target>>,
     /// Earlier programmes, newest last.
-    pub undo: Vec<Vec<Target>>,
+    pub undo: Vec<Arc<Vec<Target>>>,
     /// Undone programmes, newest last.
-    pub redo: Vec<Vec<Target>>,
+    pub redo: Vec<Arc<Vec<Target>>>,
     /// Files.
     pub programme: Programme,
     /// Current view.
@@ -717,7 +733,7 @@ impl State {
 
     /// Whether the programme differs from the file.
     pub fn dirty(&self) -> bool {
-        self.targets != self.saved
+        !same_targets(&self.targets, &self.saved)
     }
 
     /// The site.
@@ -761,7 +777,7 @@ impl State {
         // field's distance on the anchors' zero point (the ladder's).
         let programme =
             if (self.view == View::Chase && !target.host.is_empty()) || !field.is_empty() {
-                self.targets.clone()
+                self.targets.to_vec()
             } else {
                 Vec::new()
             };
@@ -847,7 +863,7 @@ impl State {
     pub fn budget_satisfies(&self, k: &BudgetKey) -> bool {
         self.budget_setting_is_current(k)
             && k.asked == self.budget_ask.asked
-            && k.targets == self.targets
+            && same_targets(&k.targets, &self.targets)
     }
 
     /// Whether a budget key is for the current settings (its programme aside).
@@ -859,7 +875,7 @@ impl State {
     /// The distance ladder for the current programme and settings, when computed.
     pub fn ladder_now(&self) -> Option<&Result<Box<crate::ladder::chain::LadderReport>, String>> {
         let (k, r) = self.ladder.as_ref()?;
-        (self.budget_setting_is_current(k) && k.targets == self.targets).then_some(r)
+        (self.budget_setting_is_current(k) && same_targets(&k.targets, &self.targets)).then_some(r)
     }
 
     /// The budget for the current key, when computed.
@@ -881,7 +897,7 @@ impl State {
         if !t.field.is_empty()
             && let Some((k, Ok(b))) = self.budget.as_ref()
             && self.budget_setting_is_current(k)
-            && k.targets.contains(t)
+            && key_holds(k, &self.targets, t)
             && let Some(r) = b.rows.iter().find(|r| r.members.contains(&t.name))
         {
             return Progress::Predicted {
@@ -899,7 +915,7 @@ impl State {
         let Some((k, b)) = self.budget.as_ref() else {
             return self.partial_progress(t, goal_pct);
         };
-        let same = self.budget_setting_is_current(k) && k.targets.contains(t);
+        let same = self.budget_setting_is_current(k) && key_holds(k, &self.targets, t);
         if !same {
             return self.partial_progress(t, goal_pct);
         }

@@ -61,6 +61,7 @@ pub fn init(setup: Setup) -> (State, Option<Effect>) {
     let date = setup
         .date
         .unwrap_or_else(|| night_date(&setup.settings.site, setup.now));
+    let targets = Arc::new(setup.targets);
     let mut s = State {
         settings: Arc::new(setup.settings),
         sites: setup.sites,
@@ -68,8 +69,8 @@ pub fn init(setup: Setup) -> (State, Option<Effect>) {
         live,
         now: setup.now,
         sky: None,
-        saved: setup.targets.clone(),
-        targets: setup.targets,
+        saved: targets.clone(),
+        targets,
         undo: Vec::new(),
         redo: Vec::new(),
         programme: setup.programme,
@@ -207,7 +208,7 @@ fn recompute(s: &mut State) -> Option<Effect> {
 fn next_effect(s: &State, op: NextOp) -> Effect {
     Effect::Next(Box::new(NextJob {
         settings: s.settings.clone(),
-        targets: s.targets.clone(),
+        targets: s.targets.to_vec(),
         plan_file: s.plan_file.clone(),
         now: s.now,
         op,
@@ -334,7 +335,7 @@ fn export_plan(s: &mut State) -> Option<Effect> {
         .to_string();
     let job = PlanJob {
         settings: s.settings.clone(),
-        targets: s.targets.clone(),
+        targets: s.targets.to_vec(),
         targets_file,
         hours_per_night: s.plan_hours_per_night,
         sheet_night: s.date.max(from),
@@ -409,9 +410,15 @@ fn say(s: &mut State, text: impl Into<String>, level: Level) {
 /// Replace the programme, keeping the old one for undo.
 fn change(s: &mut State, new: Vec<Target>, what: String) -> Option<Effect> {
     let keep = s.selected().map(|t| t.name.clone());
-    let old = std::mem::replace(&mut s.targets, new);
-    for t in &s.targets {
-        if !old.contains(t) {
+    let old = std::mem::replace(&mut s.targets, Arc::new(new));
+    // The targets the change made or altered lose their season hours (looked
+    // up by name: a linear search each would be 10^8 comparisons at 10,000).
+    let mut was: std::collections::HashMap<&str, Vec<&Target>> = Default::default();
+    for t in old.iter() {
+        was.entry(t.name.as_str()).or_default().push(t);
+    }
+    for t in s.targets.iter() {
+        if !was.get(t.name.as_str()).is_some_and(|v| v.contains(&t)) {
             s.season.hours.remove(&t.name);
         }
     }
@@ -509,8 +516,8 @@ fn save(s: &mut State, force: bool) -> Option<Effect> {
         backup,
         expect: s.programme.disk,
         force,
-        base: s.saved.clone(),
-        mine: s.targets.clone(),
+        base: s.saved.to_vec(),
+        mine: s.targets.to_vec(),
         settings,
     })))
 }
@@ -706,7 +713,7 @@ fn act_form(s: &mut State, a: Action) -> Option<Effect> {
             Ok(t) => {
                 let editing = f.editing.clone();
                 s.overlay = None;
-                let mut new = s.targets.clone();
+                let mut new = s.targets.to_vec();
                 let name = t.name.clone();
                 let what = match &editing {
                     Some(old) => {
@@ -721,7 +728,7 @@ fn act_form(s: &mut State, a: Action) -> Option<Effect> {
                         format!("added {name}")
                     }
                 };
-                if new == s.targets {
+                if new == *s.targets {
                     say(s, format!("{name}: nothing changed"), Level::Info);
                     return None;
                 }
@@ -1315,7 +1322,7 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
                     } else {
                         format!(" ({})", m.theirs_changed.join(", "))
                     };
-                    s.targets = m.targets;
+                    s.targets = Arc::new(m.targets);
                     s.saved = s.targets.clone();
                     let e = after_change(
                         s,
