@@ -225,6 +225,26 @@ pub fn method_report(k: &MethodKey) -> MethodBody {
     }
 }
 
+/// Build the nights of `job` into the library's shared cache
+/// ([`Night::shared`], the nights the budget's methods ask for), one after
+/// another on this thread, not on the pool: the night table's work, on the
+/// pool, does not queue behind them. From the last night back: the budget's
+/// methods walk their nights forward, so they meet these once, instead of
+/// taking turns night by night. Stops once `cancel` is set, or at a night
+/// that cannot be built (the budget says why).
+pub fn build_nights(job: &crate::tui::state::NightsJob, cancel: &Cancel) {
+    let mut d = job.to;
+    while d >= job.from && !cancel.is_cancelled() {
+        if Night::shared(&job.site, d).is_err() {
+            return;
+        }
+        match d.pred_opt() {
+            Some(p) => d = p,
+            None => return,
+        }
+    }
+}
+
 /// The programme's distance ladder with the key's settings, as `rung
 /// ladder` gives it (`ladder::chain::report`, the default end point).
 pub fn ladder_for(k: &BudgetKey) -> Result<crate::ladder::chain::LadderReport> {
@@ -271,17 +291,19 @@ pub fn clear_budget_memo() {
     }
 }
 
-/// How many targets a budget computes between two partial results: small
-/// enough that the rows on screen come first and the column fills as the
-/// observer watches, large enough to keep every core busy (two targets a core).
+/// How many targets a budget computes in one batch after the rows on
+/// screen (a newer budget stops it between batches; each target's figures
+/// go out as it ends): small enough to stop soon, large enough to keep
+/// every core busy (two targets a core).
 fn budget_chunk() -> usize {
     (2 * rayon::current_num_threads()).max(8)
 }
 
 /// [`budget_until`], handing each target's figures to `partial` as soon as
-/// they are computed ([`Msg::BudgetPartial`]): the targets of
-/// [`BudgetKey::first`] (the rows on screen) first, then the others in
-/// programme order, a few at a time.
+/// they are computed ([`Msg::BudgetPartial`], one message a target): the
+/// rows on screen ([`BudgetKey::first_shown`] of [`BudgetKey::first`]) as
+/// the first batch, then the rest of `first`, then the others in programme
+/// order, a few at a time.
 pub fn budget_streaming(
     k: &BudgetKey,
     cancel: &Cancel,
@@ -329,66 +351,102 @@ pub fn budget_streaming(
     // The rows on screen first, then the rest in order; each once.
     let mut seen = vec![false; k.targets.len()];
     let mut todo = Vec::with_capacity(k.targets.len());
-    for &i in k
+    // How many of `todo` are rows on screen: the first batch.
+    let mut lead = 0;
+    for (n, &i) in k
         .first
         .iter()
         .chain(&(0..k.targets.len()).collect::<Vec<_>>())
+        .enumerate()
     {
         if i < k.targets.len() && !seen[i] {
             seen[i] = true;
             let needs_curve = curves && alone(i) && matches!(&rows[i], Some((Some(Ok(_)), None)));
             if rows[i].is_none() || needs_curve || !alone(i) {
                 todo.push(i);
+                if n < k.first_shown.min(k.first.len()) {
+                    lead = todo.len();
+                }
             }
         }
     }
+    // One target's row, from what the memo held of it (`had`).
+    let one = |i: usize, had: Option<BudgetRowWork>| -> Option<BudgetRowWork> {
+        let t = &k.targets[i];
+        if !alone(i) {
+            return (!cancel.is_cancelled()).then(|| {
+                (
+                    crate::plan::budget::list_prediction(&k.settings, &k.targets, &links, i),
+                    None,
+                )
+            });
+        }
+        let (pred, curve) = match had {
+            Some(x) => x,
+            None if cancel.is_cancelled() => return None,
+            None => (target_prediction(&k.settings, t), None),
+        };
+        let curve = match (curve, &pred) {
+            (Some(c), _) => Some(c),
+            (None, Some(Ok(p))) if curves => {
+                if cancel.is_cancelled() {
+                    return None;
+                }
+                Some(inverse_curve(&k.settings, t, Some(p)))
+            }
+            _ => None,
+        };
+        Some((pred, curve))
+    };
     let chunk_len = budget_chunk();
     let mut done = 0;
     while done < todo.len() {
         if cancel.is_cancelled() {
             return Ok(None);
         }
-        let n = chunk_len.min(todo.len() - done);
+        // The rows on screen are one batch (the screen is full when it
+        // ends), the others a few at a time.
+        let n = match lead {
+            l if done < l => l - done,
+            _ => chunk_len,
+        }
+        .min(todo.len() - done);
         let chunk = &todo[done..done + n];
         done += n;
-        let got: Vec<(usize, Option<BudgetRowWork>)> = chunk
-            .par_iter()
-            .map(|&i| {
-                let t = &k.targets[i];
-                if !alone(i) {
-                    return (
-                        i,
-                        (!cancel.is_cancelled()).then(|| {
-                            (
-                                crate::plan::budget::list_prediction(
-                                    &k.settings,
-                                    &k.targets,
-                                    &links,
-                                    i,
-                                ),
-                                None,
-                            )
-                        }),
-                    );
+        // Each target of the batch on the pool; its figures handed on as
+        // soon as it is done (the table fills row by row).
+        let mut got: Vec<(usize, Option<BudgetRowWork>)> = Vec::with_capacity(n);
+        if rayon::current_thread_index().is_some() {
+            // On the pool itself (waiting here would hold a worker): the
+            // batch in parallel, its figures when it ends.
+            got = chunk
+                .par_iter()
+                .map(|&i| (i, one(i, rows[i].clone())))
+                .collect();
+            for (i, r) in &got {
+                if let Some(x) = r.as_ref().filter(|_| alone(*i)) {
+                    send_one(k, *i, x, partial);
                 }
-                let (pred, curve) = match rows[i].clone() {
-                    Some(x) => x,
-                    None if cancel.is_cancelled() => return (i, None),
-                    None => (target_prediction(&k.settings, t), None),
-                };
-                let curve = match (curve, &pred) {
-                    (Some(c), _) => Some(c),
-                    (None, Some(Ok(p))) if curves => {
-                        if cancel.is_cancelled() {
-                            return (i, None);
-                        }
-                        Some(inverse_curve(&k.settings, t, Some(p)))
+            }
+        } else {
+            let (tx, rx) = std::sync::mpsc::channel();
+            let one = &one;
+            rayon::in_place_scope(|sc| {
+                for &i in chunk {
+                    let (tx, had) = (tx.clone(), rows[i].clone());
+                    sc.spawn(move |_| {
+                        let _ = tx.send((i, one(i, had)));
+                    });
+                }
+                drop(tx);
+                for (i, r) in rx {
+                    if let Some(x) = r.as_ref().filter(|_| alone(i)) {
+                        send_one(k, i, x, partial);
                     }
-                    _ => None,
-                };
-                (i, Some((pred, curve)))
-            })
-            .collect();
+                    got.push((i, r));
+                }
+            });
+        }
         let mut fresh = Vec::with_capacity(got.len());
         for (i, r) in got {
             if r.is_some() && alone(i) {
@@ -397,7 +455,6 @@ pub fn budget_streaming(
             rows[i] = r;
         }
         keep_in_memo(memo, k, &fresh, &rows);
-        send_partial(k, &fresh, &rows, partial);
     }
     let Some(rows) = rows.into_iter().collect::<Option<Vec<BudgetRowWork>>>() else {
         return Ok(None);
@@ -488,6 +545,20 @@ fn send_partial(
     if !figures.is_empty() {
         partial(Msg::BudgetPartial(k.settings.clone(), figures));
     }
+}
+
+/// Hand the figures of the target at `i` (its row `r`) to `partial` as
+/// one [`Msg::BudgetPartial`], as [`send_partial`] does.
+fn send_one(k: &BudgetKey, i: usize, r: &BudgetRowWork, partial: &mut dyn FnMut(Msg)) {
+    let f = match r.0.as_ref() {
+        Some(Ok(p)) => Ok((p.distance_precision_pct, p.verdict.clone())),
+        Some(Err(e)) => Err(e.clone()),
+        None => return,
+    };
+    partial(Msg::BudgetPartial(
+        k.settings.clone(),
+        vec![(k.targets[i].clone(), f)],
+    ));
 }
 
 /// The budget of `k` with every target's curve ([`budget_for`]) written as
@@ -819,6 +890,10 @@ pub fn run_streaming(effect: Effect, cancel: &Cancel, partial: &mut dyn FnMut(Ms
             Ok(Some(b)) => vec![Msg::BudgetReady(k, Ok(Box::new(b)))],
             Err(e) => vec![Msg::BudgetReady(k, Err(e.to_string()))],
         },
+        Effect::Nights(job) => {
+            build_nights(&job, cancel);
+            Vec::new()
+        }
         Effect::Ladder(k) => {
             let r = ladder_for(&k).map(Box::new).map_err(|e| e.to_string());
             vec![Msg::LadderReady(k, r)]

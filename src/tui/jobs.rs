@@ -12,7 +12,9 @@
 //!   their result is dropped by the state's generation or key).
 //! - Season rows, exports and plans keep every job, in order.
 //! - The budget waits while the night table is running or waiting: the
-//!   table comes first (the Roster's rows), the budget after.
+//!   table comes first (the Roster's rows), the budget after. The nights of
+//!   the budget's range are built meanwhile, on a thread of their own
+//!   (`Effect::Nights`, outside the pool the table's work runs on).
 //!
 //! The runner (`src/cli/tui.rs`) starts what [`Jobs::submit`] and
 //! [`Jobs::finished`] return on threads of their own and hands each result
@@ -57,12 +59,15 @@ pub enum Lane {
     Budget,
     /// The distance ladder (`Effect::Ladder`).
     Ladder,
+    /// The range's nights built ahead (`Effect::Nights`); never waits.
+    Sky,
 }
 
 impl Lane {
     /// The lanes in the order they are started.
-    pub const ALL: [Lane; 7] = [
+    pub const ALL: [Lane; 8] = [
         Lane::Night,
+        Lane::Sky,
         Lane::Method,
         Lane::Season,
         Lane::Files,
@@ -82,6 +87,7 @@ impl Lane {
             Effect::ExportPlan(_) => Some(Lane::Plan),
             Effect::Budget(_) => Some(Lane::Budget),
             Effect::Ladder(_) => Some(Lane::Ladder),
+            Effect::Nights(_) => Some(Lane::Sky),
             Effect::Save(_) | Effect::Recovery { .. } | Effect::Next(_) | Effect::Batch(_) => None,
         }
     }
@@ -90,7 +96,7 @@ impl Lane {
     pub fn supersedes(self) -> bool {
         matches!(
             self,
-            Lane::Night | Lane::Method | Lane::Budget | Lane::Ladder
+            Lane::Night | Lane::Method | Lane::Budget | Lane::Ladder | Lane::Sky
         )
     }
 }
@@ -214,13 +220,28 @@ mod tests {
             curves: false,
             file: None,
             first: Vec::new(),
+            first_shown: 0,
+        }))
+    }
+
+    fn nights() -> Effect {
+        Effect::Nights(Box::new(crate::tui::state::NightsJob {
+            site: crate::io::sites::resolve("pampa-lucero").unwrap(),
+            from: chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap(),
+            to: chrono::NaiveDate::from_ymd_opt(2026, 12, 3).unwrap(),
         }))
     }
 
     #[test]
-    fn the_budget_waits_for_the_night_table() {
+    fn the_budget_waits_for_the_night_table_its_nights_do_not() {
         let mut j = Jobs::default();
         assert_eq!(j.submit(night()).len(), 1);
+        let s = j.submit(nights());
+        assert_eq!(
+            (s.len(), s[0].lane),
+            (1, Lane::Sky),
+            "built beside the table"
+        );
         assert!(j.submit(budget()).is_empty(), "the table first");
         let s = j.finished(Lane::Night);
         assert_eq!(s.len(), 1);
@@ -283,6 +304,7 @@ mod tests {
         let mut k = demo_budget_key();
         let last = k.targets.len() - 1;
         k.first = vec![last, 0];
+        k.first_shown = 2;
         let mut parts = Vec::new();
         let b =
             crate::tui::effects::budget_streaming(&k, &Cancel::default(), &mut |m| parts.push(m))
@@ -314,15 +336,24 @@ mod tests {
         for r in b.rows.iter().filter(|r| r.members.is_empty()) {
             assert!(seen.contains(&r.target), "{} not streamed", r.target);
         }
-        // The rows asked first came in the first message, when they have figures.
-        let crate::tui::msg::Msg::BudgetPartial(_, first) = &parts[0] else {
-            unreachable!()
-        };
-        for i in [last, 0] {
-            let name = &k.targets[i].name;
-            if seen.contains(name) {
-                assert!(first.iter().any(|(t, _)| &t.name == name), "{name}");
-            }
+        // Each target computed here came in a message of its own, as it
+        // ended (a message of several holds what the memo knew already).
+        // The rows asked first (the rows on screen, one batch) came before
+        // every other row.
+        let firsts: Vec<&String> = k.first.iter().map(|&i| &k.targets[i].name).collect();
+        let order: Vec<&String> = parts
+            .iter()
+            .filter_map(|m| match m {
+                crate::tui::msg::Msg::BudgetPartial(_, f) if f.len() == 1 => Some(&f[0].0.name),
+                _ => None,
+            })
+            .collect();
+        assert!(!order.is_empty(), "no target streamed on its own");
+        if let Some(other) = order.iter().position(|n| !firsts.contains(n)) {
+            assert!(
+                order[other..].iter().all(|n| !firsts.contains(n)),
+                "a row asked first came after another: {order:?}"
+            );
         }
     }
 

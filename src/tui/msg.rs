@@ -9,7 +9,9 @@ use crate::astro::time::Instant;
 use crate::io::targets::Target;
 // Re-exported where it used to live, for code that names it `msg::Action`.
 pub use crate::tui::keymap::Action;
-use crate::tui::state::{BudgetKey, MethodKey, MethodResult, NightData, SeasonKey, SeasonSky};
+use crate::tui::state::{
+    BudgetKey, MethodKey, MethodResult, NightData, NightsJob, SeasonKey, SeasonSky,
+};
 use crossterm::event::KeyEvent;
 use std::path::PathBuf;
 use std::sync::Arc;
@@ -222,6 +224,10 @@ pub enum Effect {
     Season(Box<SeasonJob>),
     /// Compute the programme's budget (in the background).
     Budget(Box<BudgetKey>),
+    /// Build the nights of the programme's range ahead, into the library's
+    /// shared cache (in the background, beside the night table), so the
+    /// budget that follows finds them built.
+    Nights(Box<NightsJob>),
     /// Compute the programme's distance ladder (in the background).
     Ladder(Box<BudgetKey>),
     /// Write export files atomically (path, contents).

@@ -375,6 +375,18 @@ pub struct MethodResult {
     pub body: MethodBody,
 }
 
+/// The nights to build ahead (`Effect::Nights`): every night from `from`
+/// to `to` at `site`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NightsJob {
+    /// Site.
+    pub site: Site,
+    /// First night.
+    pub from: chrono::NaiveDate,
+    /// Last night.
+    pub to: chrono::NaiveDate,
+}
+
 /// What a budget is for: the programme, its settings, the hours asked, and
 /// whether each target's inverse curve is wanted (the Budget view's shares
 /// and figure need them; the Roster's progress column does not).
@@ -394,6 +406,10 @@ pub struct BudgetKey {
     /// and near the cursor when the budget was asked. Not part of what the
     /// budget is for (two keys that differ here are equal).
     pub first: Vec<usize>,
+    /// How many of `first` are the rows on screen: the budget's first
+    /// batch (the screen is full when it ends). Not part of what the budget
+    /// is for either.
+    pub first_shown: usize,
 }
 
 /// What the budget says of one target before the whole budget is ready
@@ -598,6 +614,9 @@ pub struct State {
     pub budget: Option<(BudgetKey, Result<Box<crate::plan::budget::Budget>, String>)>,
     /// The budget being computed.
     pub budget_pending: Option<BudgetKey>,
+    /// The nights last asked to be built ahead for the budget
+    /// (`Effect::Nights`): asked again only when the site or range changes.
+    pub nights_asked: Option<NightsJob>,
     /// Targets' figures from a budget still being computed, shown until the
     /// whole budget arrives.
     pub budget_partial: Option<PartialFigures>,
@@ -820,6 +839,7 @@ impl State {
             curves: self.budget_ask.asked.is_some(),
             file: self.programme_file(),
             first: self.rows_in_sight(),
+            first_shown: self.rows_on_screen(),
         }
     }
 
@@ -832,6 +852,14 @@ impl State {
             !first.contains(&i)
                 && matches!(self.progress(&self.targets[i]), Progress::Pending { .. })
         })
+    }
+
+    /// How many of [`State::rows_in_sight`] are on screen (they come first).
+    pub fn rows_on_screen(&self) -> usize {
+        let h = (self.size.1 as usize).max(1);
+        let shown = h.saturating_sub(CHROME_ROWS as usize + 2).max(1);
+        let off = scroll_offset(self.sel, shown);
+        (off + shown).min(self.order.len()) - off.min(self.order.len())
     }
 
     /// The Roster's rows (indices into `targets`) on screen, then the screens

@@ -94,6 +94,7 @@ pub fn init(setup: Setup) -> (State, Option<Effect>) {
         method_pending: None,
         budget: None,
         budget_pending: None,
+        nights_asked: None,
         budget_partial: None,
         ladder: None,
         ladder_pending: None,
@@ -284,7 +285,18 @@ fn budget_effect(s: &mut State) -> Option<Effect> {
     // the running job would come to late): the runner stops the running job,
     // whose targets done so far are kept for this one.
     s.budget_pending = Some(k.clone());
-    Some(Effect::Budget(Box::new(k)))
+    let budget = Some(Effect::Budget(Box::new(k)));
+    // Its nights are built meanwhile (the budget waits for the night table).
+    let nights = crate::tui::state::NightsJob {
+        site: s.settings.site.clone(),
+        from: s.settings.from,
+        to: s.settings.to,
+    };
+    if s.nights_asked.as_ref() == Some(&nights) {
+        return budget;
+    }
+    s.nights_asked = Some(nights.clone());
+    Effect::join(Some(Effect::Nights(Box::new(nights))), budget)
 }
 
 fn export(s: &mut State) -> Option<Effect> {
