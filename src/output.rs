@@ -500,6 +500,23 @@ impl JsonNest {
         self.members += 1;
     }
 
+    /// Start element `index` (0-based) of an array at `level` in a buffer of
+    /// its own, as [`JsonNest::item`] starts it in place: for elements
+    /// written apart (on other threads) and joined in order, which the array
+    /// then counts with [`JsonNest::add_items`].
+    pub fn item_apart(buf: &mut Vec<u8>, level: usize, index: usize) {
+        if index > 0 {
+            buf.push(b',');
+        }
+        buf.push(b'\n');
+        buf.resize(buf.len() + 2 * (level + 1), b' ');
+    }
+
+    /// Count `n` elements written apart ([`JsonNest::item_apart`]).
+    pub fn add_items(&mut self, n: usize) {
+        self.members += n;
+    }
+
     /// Start the next object member `"key": ` (the caller writes the value).
     pub fn key(&mut self, buf: &mut Vec<u8>, key: &str) {
         self.item(buf);

@@ -97,6 +97,51 @@ pub struct SunUpGrid {
     /// Per grid instant with the Sun up: index, offset (s), Sun hour angle
     /// (rad), sine and cosine of the Sun's declination.
     points: Vec<(usize, f64, f64, f64, f64)>,
+    /// Where the Sun stands through those instants, for a whole-night check
+    /// ([`SunUpGrid::far_all_day`]); `None` when it moves too far for one.
+    reach: Option<SunReach>,
+}
+
+/// The span of the Sun's places over a night's Sun-up instants, as the
+/// closed form of a target's track meets them: a target's hour angle from
+/// the Sun at grid offset s is its middle hour angle plus
+/// q(s) = ω (s − span/2) − H☉(s), which moves by about a degree a day.
+#[derive(Debug, Clone, Copy)]
+struct SunReach {
+    /// Middle of q's range and its half-width, radians.
+    q_mid: f64,
+    q_half: f64,
+    /// Least and greatest sine of the Sun's declination, greatest cosine.
+    sin_dec_lo: f64,
+    sin_dec_hi: f64,
+    cos_dec_hi: f64,
+}
+
+impl SunReach {
+    fn new(points: &[(usize, f64, f64, f64, f64)], span_s: f64) -> Option<Self> {
+        let q = |&(_, s, ha, _, _): &(usize, f64, f64, f64, f64)| {
+            visibility::ERA_RATE_RAD_S * (s - 0.5 * span_s) - ha
+        };
+        let q0 = q(points.first()?);
+        let (mut lo, mut hi) = (0.0f64, 0.0f64);
+        let (mut ss_lo, mut ss_hi, mut cs_hi) = (1.0f64, -1.0f64, 0.0f64);
+        for p in points {
+            let d = sofars::vm::anpm(q(p) - q0);
+            lo = lo.min(d);
+            hi = hi.max(d);
+            ss_lo = ss_lo.min(p.3);
+            ss_hi = ss_hi.max(p.3);
+            cs_hi = cs_hi.max(p.4);
+        }
+        let q_half = 0.5 * (hi - lo);
+        (q_half < 0.5).then_some(SunReach {
+            q_mid: q0 + 0.5 * (lo + hi),
+            q_half,
+            sin_dec_lo: ss_lo,
+            sin_dec_hi: ss_hi,
+            cos_dec_hi: cs_hi,
+        })
+    }
 }
 
 impl SunUpGrid {
@@ -113,8 +158,33 @@ impl SunUpGrid {
                 let (ss, cs) = sun.dec_rad.sin_cos();
                 (i, night.sky.offset(c.t), sun.ha_rad, ss, cs)
             })
-            .collect();
-        SunUpGrid { points }
+            .collect::<Vec<_>>();
+        let reach = SunReach::new(&points, night.sky.span_s());
+        SunUpGrid { points, reach }
+    }
+
+    /// Whether a target whose closed-form track has middle hour angle
+    /// `ha_mid_rad` and declination sine/cosine `sd`, `cd` stays farther
+    /// than `sep_deg` from the Sun at every Sun-up instant of the grid, by
+    /// the closed form (a bound over the Sun's range of places; `false` when
+    /// it cannot tell).
+    fn far_all_day(&self, ha_mid_rad: f64, sd: f64, cd: f64, sep_deg: f64) -> bool {
+        let Some(r) = self.reach else {
+            return false;
+        };
+        if !(0.0..179.0).contains(&sep_deg) {
+            return false;
+        }
+        // The nearest the hour angle from the Sun comes to 0 (mod 2π).
+        let c = sofars::vm::anpm(ha_mid_rad + r.q_mid).abs();
+        let cos_ha_max = if c <= r.q_half {
+            1.0
+        } else {
+            (c - r.q_half).cos()
+        };
+        let cos_sep_max =
+            (sd * r.sin_dec_lo).max(sd * r.sin_dec_hi) + cd * r.cos_dec_hi * cos_ha_max.max(0.0);
+        cos_sep_max + 1e-9 < sep_deg.to_radians().cos()
     }
 }
 
@@ -138,11 +208,31 @@ pub fn first_sun_caution_in(
     if grid.points.is_empty() {
         return None;
     }
+    first_sun_caution_on(night, grid, &night.track(place), place)
+}
+
+/// [`first_sun_caution_in`] with the target's track through the night
+/// already built (`night.track(place)`).
+pub fn first_sun_caution_on(
+    night: &night::Night,
+    grid: &SunUpGrid,
+    track: &visibility::Track,
+    place: &CatalogPlace,
+) -> Option<(Instant, String)> {
+    if grid.points.is_empty() {
+        return None;
+    }
     // The closed form of the target's track (good to 1″) skips the grid
     // instants where the target is well below the horizon or well away from
     // the Sun; the rest are checked on the exact places, as before.
-    let track = night.track(place);
     let (sd, cd) = track.dec_mid_rad().sin_cos();
+    // A target that stays 0.05° beyond the Sun-avoidance angle all day by
+    // the closed form (far more than its 1″ error) has no caution: no grid
+    // instant needs a look.
+    let ha_mid = track.ha_linear(0.5 * night.sky.span_s());
+    if grid.far_all_day(ha_mid, sd, cd, night.site.sun_avoid_deg + 0.05) {
+        return None;
+    }
     let cos_far = (night.site.sun_avoid_deg + 0.1)
         .min(180.0)
         .to_radians()

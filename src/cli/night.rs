@@ -6,6 +6,7 @@ use rayon::prelude::*;
 use rung::astro::night::{Event, Night};
 use rung::astro::night::{Limits, NightEvents};
 use rung::astro::site::Site;
+use rung::astro::time::Instant;
 use rung::astro::time::parse_date;
 use rung::io::targets::Target;
 use rung::output::{JsonNest, push_json_instant, push_json_num, push_json_str};
@@ -34,17 +35,22 @@ pub struct Args {
 
 /// The night's JSON document, the bytes `output::json` writes for it (keys
 /// in sorted order, numbers through serde_json, no negative zero, non-finite
-/// as `null`), written straight into `out`: the targets' objects are made on
-/// all cores, in chunks, and joined in order.
+/// as `null`), written straight to `so`: the targets' objects are made on
+/// all cores, in chunks, each chunk written as it stands, in order. `seeds`
+/// are instants many targets share (the dark intervals' ends), written as
+/// text once.
+#[allow(clippy::too_many_arguments)]
 fn write_json(
-    out: &mut Vec<u8>,
+    so: &mut dyn Write,
     site: &Site,
     date: NaiveDate,
     e: &NightEvents,
     limits: &Limits,
     rows: Option<&[(&Target, &NightRow)]>,
     bands: &BandSet,
-) {
+    seeds: &[Instant],
+) -> std::io::Result<()> {
+    let out = &mut Vec::with_capacity(4096);
     let events = [
         ("astronomical_dawn", &e.astronomical_dawn),
         ("astronomical_dusk", &e.astronomical_dusk),
@@ -95,38 +101,95 @@ fn write_json(
     }
     if let Some(rows) = rows {
         o.key(out, "targets");
-        let mut list = JsonNest::array(out, o.inner());
+        let list_level = o.inner();
+        let mut list = JsonNest::array(out, list_level);
         let level = list.inner();
-        // Each chunk's objects with where each ends, joined in order.
-        let parts: Vec<(Vec<u8>, Vec<usize>)> = rows
-            .par_chunks(256)
-            .map(|chunk| {
+        so.write_all(out)?;
+        out.clear();
+        // Each chunk's elements, separators included, in order.
+        const CHUNK: usize = 256;
+        let mut seeded = Stamps::default();
+        for t in seeds {
+            seeded.push(out, Some(*t));
+            seeded.keep_all(out);
+        }
+        out.clear();
+        let parts: Vec<Vec<u8>> = rows
+            .par_chunks(CHUNK)
+            .enumerate()
+            .map(|(c, chunk)| {
                 let mut b = Vec::with_capacity(1200 * chunk.len());
-                let mut ends = Vec::with_capacity(chunk.len());
-                for (t, row) in chunk {
-                    write_target(&mut b, level, t, row, bands);
-                    ends.push(b.len());
+                let mut stamps = seeded.clone();
+                for (k, (t, row)) in chunk.iter().enumerate() {
+                    JsonNest::item_apart(&mut b, list_level, c * CHUNK + k);
+                    write_target(&mut b, level, t, row, bands, &mut stamps);
                 }
-                (b, ends)
+                b
             })
             .collect();
-        for (b, ends) in &parts {
-            let mut from = 0;
-            for &end in ends {
-                list.item(out);
-                out.extend_from_slice(&b[from..end]);
-                from = end;
-            }
+        for p in &parts {
+            so.write_all(p)?;
         }
+        list.add_items(rows.len());
         list.close(out);
     }
     o.key(out, "timezone");
     push_json_str(out, site.timezone.name());
     o.close(out);
+    out.push(b'\n');
+    so.write_all(out)
+}
+
+/// Instants already written as JSON text, copied instead of converted again:
+/// the night's own (kept for every target) and those of the target being
+/// written (its main window is in its list of windows too).
+#[derive(Clone, Default)]
+struct Stamps {
+    /// The night's: instant (bits) and text.
+    night: Vec<((u64, u64), Vec<u8>)>,
+    /// The target's: instant (bits) and where its text is in the buffer.
+    target: Vec<((u64, u64), std::ops::Range<usize>)>,
+}
+
+impl Stamps {
+    /// `t` as [`push_json_instant`] writes it.
+    fn push(&mut self, b: &mut Vec<u8>, t: Option<Instant>) {
+        let Some(t) = t else {
+            b.extend_from_slice(b"null");
+            return;
+        };
+        let key = (t.utc1.to_bits(), t.utc2.to_bits());
+        if let Some((_, text)) = self.night.iter().find(|(k, _)| *k == key) {
+            b.extend_from_slice(text);
+            return;
+        }
+        if let Some((_, r)) = self.target.iter().find(|(k, _)| *k == key) {
+            b.extend_from_within(r.clone());
+            return;
+        }
+        let from = b.len();
+        push_json_instant(b, Some(t));
+        self.target.push((key, from..b.len()));
+    }
+
+    /// Keep the target's instants, written into `b`, for every target.
+    fn keep_all(&mut self, b: &[u8]) {
+        for (k, r) in self.target.drain(..) {
+            self.night.push((k, b[r].to_vec()));
+        }
+    }
 }
 
 /// One target's object in the night's JSON, at `level`.
-fn write_target(b: &mut Vec<u8>, level: usize, t: &Target, row: &NightRow, bands: &BandSet) {
+fn write_target(
+    b: &mut Vec<u8>,
+    level: usize,
+    t: &Target,
+    row: &NightRow,
+    bands: &BandSet,
+    stamps: &mut Stamps,
+) {
+    stamps.target.clear();
     let tn = &row.night;
     let w = tn.main_window();
     let mut o = JsonNest::object(b, level);
@@ -135,7 +198,7 @@ fn write_target(b: &mut Vec<u8>, level: usize, t: &Target, row: &NightRow, bands
     o.key(b, "max_altitude_deg");
     push_json_num(b, tn.max_altitude_deg);
     o.key(b, "max_altitude_time");
-    push_json_instant(b, tn.max_altitude_time);
+    stamps.push(b, tn.max_altitude_time);
     o.key(b, "min_airmass");
     push_json_num(b, tn.min_airmass);
     o.key(b, "moon_separation_deg");
@@ -165,9 +228,9 @@ fn write_target(b: &mut Vec<u8>, level: usize, t: &Target, row: &NightRow, bands
     }
     why.close(b);
     o.key(b, "rise");
-    push_json_instant(b, tn.rise.t);
+    stamps.push(b, tn.rise.t);
     o.key(b, "set");
-    push_json_instant(b, tn.set.t);
+    stamps.push(b, tn.set.t);
     o.key(b, "sky_mag_arcsec2");
     let sky = row.sky_brightness(bands, &t.band).and_then(|x| x.ok());
     push_json_num(b, sky.as_ref().map(|x| x.sky_mag_arcsec2));
@@ -176,7 +239,7 @@ fn write_target(b: &mut Vec<u8>, level: usize, t: &Target, row: &NightRow, bands
         Some((at, m)) => {
             let mut c = JsonNest::object(b, o.inner());
             c.key(b, "first");
-            push_json_instant(b, Some(*at));
+            stamps.push(b, Some(*at));
             c.key(b, "text");
             push_json_str(b, m);
             c.close(b);
@@ -184,20 +247,20 @@ fn write_target(b: &mut Vec<u8>, level: usize, t: &Target, row: &NightRow, bands
         None => b.extend_from_slice(b"null"),
     }
     o.key(b, "transit");
-    push_json_instant(b, tn.transit.t);
+    stamps.push(b, tn.transit.t);
     o.key(b, "window_end");
-    push_json_instant(b, w.map(|w| w.1));
+    stamps.push(b, w.map(|w| w.1));
     o.key(b, "window_start");
-    push_json_instant(b, w.map(|w| w.0));
+    stamps.push(b, w.map(|w| w.0));
     o.key(b, "windows");
     let mut list = JsonNest::array(b, o.inner());
     for (start, end) in &tn.windows {
         list.item(b);
         let mut x = JsonNest::object(b, list.inner());
         x.key(b, "end");
-        push_json_instant(b, Some(*end));
+        stamps.push(b, Some(*end));
         x.key(b, "start");
-        push_json_instant(b, Some(*start));
+        stamps.push(b, Some(*start));
         x.close(b);
     }
     list.close(b);
@@ -230,20 +293,26 @@ pub fn run(a: Args) -> Result<()> {
     // The programme's bands (built-in merged with the user's), as the photometry uses.
     let bands = &st.photometer.bands;
     if a.json {
-        let mut out = Vec::with_capacity(4096 + 1200 * rows.len());
+        let seeds: Vec<_> = night
+            .dark_intervals(limits.sun_alt_deg)
+            .iter()
+            .flat_map(|d| [d.0, d.1])
+            .collect();
+        let mut so = std::io::stdout().lock();
         write_json(
-            &mut out,
+            &mut so,
             &site,
             date,
             &e,
             &limits,
             a.targets.is_some().then_some(&rows[..]),
             bands,
-        );
-        out.push(b'\n');
-        let mut so = std::io::stdout().lock();
-        so.write_all(&out)?;
+            &seeds,
+        )?;
         so.flush()?;
+        drop(rows);
+        // The process ends here: its memory goes back whole, not target by target.
+        std::mem::forget((table, targets, places));
         return Ok(());
     }
     // One buffered writer for the whole table (not a write per line).
@@ -329,7 +398,20 @@ pub fn run(a: Args) -> Result<()> {
             "airmass",
             "Moon"
         )?;
-        for (t, row) in &rows {
+        // The rows' lines (and then the Sun cautions') made on all cores in
+        // chunks, written in order.
+        let chunks = |f: &(dyn Fn(&mut Vec<u8>, &Target, &NightRow) + Sync)| -> Vec<Vec<u8>> {
+            rows.par_chunks(256)
+                .map(|chunk| {
+                    let mut b = Vec::with_capacity(128 * chunk.len());
+                    for (t, row) in chunk {
+                        f(&mut b, t, row);
+                    }
+                    b
+                })
+                .collect()
+        };
+        let table_rows = chunks(&|b, t, row| {
             let tn = &row.night;
             let win = tn
                 .main_window()
@@ -341,8 +423,9 @@ pub fn run(a: Args) -> Result<()> {
                     )
                 })
                 .unwrap_or_else(|| "-".into());
-            super::outln!(
-                w,
+            // Writing into memory cannot fail.
+            let _ = super::outln!(
+                b,
                 "  {:<20} {:<9} {:>6} {:>6} {:>6} {:>13} {:>6.2} {:>7} {:>7} {:>5}",
                 t.name,
                 t.kind.as_str(),
@@ -356,19 +439,29 @@ pub fn run(a: Args) -> Result<()> {
                 row.moon_separation_deg
                     .map(|m| format!("{m:.0}°"))
                     .unwrap_or_else(|| "-".into()),
-            )?;
+            );
+        });
+        for p in &table_rows {
+            w.write_all(p)?;
         }
-        for (t, row) in &rows {
+        let cautions = chunks(&|b, t, row| {
             if let Some((at, m)) = &row.sun_caution {
-                super::outln!(
-                    w,
+                let _ = super::outln!(
+                    b,
                     "  {} from {}: {m}",
                     t.name,
                     super::local_hm(Some(*at), &site)
-                )?;
+                );
             }
+        });
+        for p in &cautions {
+            w.write_all(p)?;
         }
     }
     w.flush()?;
+    drop(w);
+    drop(rows);
+    // The process ends here: its memory goes back whole, not target by target.
+    std::mem::forget((table, targets, places));
     Ok(())
 }

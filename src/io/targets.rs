@@ -245,9 +245,20 @@ fn read_header(rec: &Record, file: &Path, sink: &mut Sink) -> Option<Header> {
     Some(Header { names, slot, meant })
 }
 
+/// Most records read before they are turned into targets together (on all
+/// cores) and handed on in file order.
+const BATCH_RECORDS: usize = 256;
+/// Most bytes of record text held in one batch (a batch is handed on early
+/// when it reaches this).
+const BATCH_BYTES: usize = 4 * 1024 * 1024;
+
 /// The reader behind every CSV entry point: streams `reader` record by record
-/// (memory bounded by one line of [`MAX_LINE_BYTES`] and one quoted field of
-/// [`MAX_FIELD_BYTES`], plus the names seen for the duplicate check). With
+/// (memory bounded by one batch of [`BATCH_RECORDS`] records or about
+/// [`BATCH_BYTES`], each line at most [`MAX_LINE_BYTES`] and each quoted
+/// field at most [`MAX_FIELD_BYTES`], plus the names seen for the duplicate
+/// check). The records of a batch become targets on all cores; targets,
+/// refused rows and the duplicate check then go in file order, so what is
+/// reported, and in which order, does not depend on the batching. With
 /// `keep`, the layout of the file is recorded too.
 fn read_csv<R: std::io::Read>(
     reader: R,
@@ -261,11 +272,20 @@ fn read_csv<R: std::io::Read>(
     let mut header: Option<Header> = None;
     let mut seen = Seen::new();
     let mut last_progress = 0u64;
+    // Records after the header, read but not yet handed on (the first `n`
+    // of `batch`; the rest are spare buffers), and their bytes.
+    let mut batch: Vec<(Event, Record)> = Vec::new();
+    let mut n = 0usize;
+    let mut bytes = 0usize;
     loop {
         let event = match records.next_into(&mut rec) {
             Ok(Some(e)) => e,
             Ok(None) => break,
             Err(e) => {
+                if let Some(h) = &header {
+                    hand_on(&batch[..n], h, file, &mut seen, keep.as_deref_mut(), sink);
+                    n = 0;
+                }
                 (sink.problem)(in_file(file, rec.line, "", format!("unreadable: {e}")));
                 break;
             }
@@ -320,36 +340,77 @@ fn read_csv<R: std::io::Read>(
             }
             continue;
         };
-        let outcome = match event {
-            Event::Skipped => {
-                if let Some(k) = keep.as_deref_mut() {
-                    k.verbatim(&rec.span);
-                }
-                continue;
-            }
-            Event::Broken(Broken::Overlong) => Err(in_file(
+        // Into the batch; `rec` takes a spare buffer (and keeps the line
+        // just read, which a read error after it names, as before).
+        if n == batch.len() {
+            batch.push((event, Record::default()));
+        }
+        batch[n].0 = event;
+        std::mem::swap(&mut rec, &mut batch[n].1);
+        rec.line = batch[n].1.line;
+        bytes += (batch[n].1.span.end - batch[n].1.span.start) as usize;
+        n += 1;
+        if n == BATCH_RECORDS || bytes >= BATCH_BYTES {
+            hand_on(&batch[..n], h, file, &mut seen, keep.as_deref_mut(), sink);
+            n = 0;
+            bytes = 0;
+        }
+    }
+    if let Some(h) = &header {
+        hand_on(&batch[..n], h, file, &mut seen, keep.as_deref_mut(), sink);
+    }
+    let r = records.bytes_read();
+    (sink.progress)(r, total_bytes.max(r));
+}
+
+/// The records of a batch (after the header) turned into targets or refusals
+/// on all cores, then handed on in file order with the duplicate check.
+fn hand_on(
+    batch: &[(Event, Record)],
+    h: &Header,
+    file: &Path,
+    seen: &mut Seen,
+    mut keep: Option<&mut Keep>,
+    sink: &mut Sink,
+) {
+    use rayon::prelude::*;
+    let keeping = keep.is_some();
+    // `None` for a skipped line.
+    let outcomes: Vec<Option<std::result::Result<Target, RungError>>> = batch
+        .par_iter()
+        .map(|(event, rec)| match *event {
+            Event::Skipped => None,
+            Event::Broken(Broken::Overlong) => Some(Err(in_file(
                 file,
                 rec.line,
                 "",
                 format!(
                     "line is longer than {MAX_LINE_BYTES} bytes: a field exceeds the {MAX_FIELD_BYTES}-byte limit; row skipped unread"
                 ),
-            )),
-            Event::Broken(Broken::Unclosed { field }) => Err(in_file(
+            ))),
+            Event::Broken(Broken::Unclosed { field }) => Some(Err(in_file(
                 file,
                 rec.line,
                 h.names.get(field).map_or("", |s| s.as_str()),
                 "the quote opening this field is never closed; the lines after it are read as rows of their own",
-            )),
-            Event::Broken(Broken::AfterQuote { field }) => Err(in_file(
+            ))),
+            Event::Broken(Broken::AfterQuote { field }) => Some(Err(in_file(
                 file,
                 rec.line,
                 h.names.get(field).map_or("", |s| s.as_str()),
                 "text follows the closing quote of this field (inside quotes, write a quote as \"\")",
-            )),
-            Event::Record => row(&rec, h, file, &mut seen, keep.is_some()),
+            ))),
+            Event::Record => Some(row(rec, h, file, keeping)),
+        })
+        .collect();
+    for ((_, rec), outcome) in batch.iter().zip(outcomes) {
+        let Some(outcome) = outcome else {
+            if let Some(k) = keep.as_deref_mut() {
+                k.verbatim(&rec.span);
+            }
+            continue;
         };
-        match outcome {
+        match outcome.and_then(|t| first_use(t, file, rec.line, seen)) {
             Err(p) => {
                 (sink.problem)(p);
                 if let Some(k) = keep.as_deref_mut() {
@@ -376,16 +437,33 @@ fn read_csv<R: std::io::Read>(
             }
         }
     }
-    let r = records.bytes_read();
-    (sink.progress)(r, total_bytes.max(r));
 }
 
-/// Read one record against the header: the target, or why the row is refused.
+/// `t`, unless an earlier row used its name (then why the row is refused).
+fn first_use(
+    t: Target,
+    file: &Path,
+    line: usize,
+    seen: &mut Seen,
+) -> std::result::Result<Target, RungError> {
+    if seen.contains(t.name.as_str()) {
+        return Err(in_file(
+            file,
+            line,
+            "name",
+            format!("'{}' is already used by an earlier row", cut(&t.name)),
+        ));
+    }
+    seen.insert(t.name.as_str().into());
+    Ok(t)
+}
+
+/// Read one record against the header: the target, or why the row is
+/// refused (all but a name used twice, which [`first_use`] checks in file order).
 fn row(
     rec: &Record,
     h: &Header,
     file: &Path,
-    seen: &mut Seen,
     keep: bool,
 ) -> std::result::Result<Target, RungError> {
     let line = rec.line;
@@ -425,15 +503,6 @@ fn row(
         }
     }
     let mut t = target_from_slots(&slots).map_err(|(f, m)| in_file(file, line, &f, m))?;
-    if seen.contains(t.name.as_str()) {
-        return Err(in_file(
-            file,
-            line,
-            "name",
-            format!("'{}' is already used by an earlier row", cut(&t.name)),
-        ));
-    }
-    seen.insert(t.name.as_str().into());
     if keep {
         t.written = Written(Some(Arc::new(AsWritten {
             fields: (0..rec.len())
@@ -446,8 +515,9 @@ fn row(
 }
 
 /// The CSV reader behind [`parse_csv`], [`stream_csv`] and [`load`]: reads
-/// `reader` record by record, never holding more than one line of at most
-/// [`MAX_LINE_BYTES`] and one quoted field of at most [`MAX_FIELD_BYTES`].
+/// `reader` record by record, never holding more than one batch of records
+/// (at most [`BATCH_RECORDS`], about [`BATCH_BYTES`]; each line at most
+/// [`MAX_LINE_BYTES`], each quoted field at most [`MAX_FIELD_BYTES`]).
 /// Good targets go to `on_target`, refused rows to `on_problem`, columns rung
 /// does not read to `on_warning`; `total_bytes` is passed to `on_progress`
 /// with the bytes read so far (about every MiB, and once at the end).
@@ -471,8 +541,8 @@ pub fn stream_csv_reader<R: std::io::Read>(
 
 /// Stream a CSV targets file: each good target goes to `on_target`, each
 /// refused row to `on_problem` and each column rung does not read to
-/// `on_warning`, in file order, with memory bounded by one line
-/// ([`MAX_LINE_BYTES`]) plus the set of names seen (for the duplicate check),
+/// `on_warning`, in file order, with memory bounded by one batch of lines
+/// ([`BATCH_BYTES`]) plus the set of names seen (for the duplicate check),
 /// whatever the size of the file.
 pub fn stream_csv(
     path: &Path,

@@ -8,7 +8,7 @@ use crate::astro::frames::CatalogPlace;
 use crate::astro::night::{Limits, Night, TargetNight};
 use crate::astro::time::Instant;
 use crate::error::Result;
-use crate::sky::{BandSet, SkyBrightness, SkyGeometry, sky_brightness};
+use crate::sky::{BandSet, SkyAt, SkyBrightness, SkyGeometry, sky_brightness};
 use rayon::prelude::*;
 
 /// A target in a night: events, windows, the highest altitude in the dark,
@@ -48,20 +48,36 @@ impl NightRow {
 
 /// The row of `place` in `night` under `limits`.
 pub fn row(night: &Night, place: &CatalogPlace, limits: &Limits) -> NightRow {
-    row_in(night, &SunUpGrid::new(night), place, limits)
+    row_in(night, &SunUpGrid::new(night), &[], place, limits)
 }
 
-/// [`row`] with the night's Sun-up instants found once (for many targets).
-fn row_in(night: &Night, sun_up: &SunUpGrid, place: &CatalogPlace, limits: &Limits) -> NightRow {
-    let tn = night.target(place, limits);
+/// [`row`] with the night's Sun-up instants found once, and the sky at the
+/// ends of the dark intervals (where most targets are highest in the dark)
+/// made once, for many targets.
+fn row_in(
+    night: &Night,
+    sun_up: &SunUpGrid,
+    dark_ends: &[SkyAt],
+    place: &CatalogPlace,
+    limits: &Limits,
+) -> NightRow {
+    // One track for the row and the Sun caution (`Night::target` is
+    // `night.track(place).target_night(night, limits)`).
+    let track = night.track(place);
+    let tn = track.target_night(night, limits);
     let sky = tn.max_altitude_time.map(|t| {
-        let c = night.context(t);
-        SkyGeometry::at(&c, place)
+        let same = |x: &&SkyAt| {
+            (x.ctx.t.utc1.to_bits(), x.ctx.t.utc2.to_bits()) == (t.utc1.to_bits(), t.utc2.to_bits())
+        };
+        match dark_ends.iter().find(same) {
+            Some(at) => SkyGeometry::at_in(at, place),
+            None => SkyGeometry::at(&night.context(t), place),
+        }
     });
     NightRow {
         moon_separation_deg: sky.map(|g| g.moon_sep_rad.to_degrees()),
         sky,
-        sun_caution: crate::astro::first_sun_caution_in(night, sun_up, place),
+        sun_caution: crate::astro::first_sun_caution_on(night, sun_up, &track, place),
         night: tn,
     }
 }
@@ -69,9 +85,15 @@ fn row_in(night: &Night, sun_up: &SunUpGrid, place: &CatalogPlace, limits: &Limi
 /// The rows of every place, in order, computed on all cores.
 pub fn rows(night: &Night, places: &[CatalogPlace], limits: &Limits) -> Vec<NightRow> {
     let sun_up = SunUpGrid::new(night);
+    let dark_ends: Vec<SkyAt> = night
+        .dark_intervals(limits.sun_alt_deg)
+        .iter()
+        .flat_map(|d| [d.0, d.1])
+        .map(|t| SkyAt::new(&night.context(t)))
+        .collect();
     places
         .par_iter()
-        .map(|p| row_in(night, &sun_up, p, limits))
+        .map(|p| row_in(night, &sun_up, &dark_ends, p, limits))
         .collect()
 }
 

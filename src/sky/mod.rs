@@ -15,7 +15,7 @@
 pub mod bands;
 pub mod dust;
 
-use crate::astro::frames::{CatalogPlace, Context};
+use crate::astro::frames::{CatalogPlace, Context, Observed};
 use crate::error::{Result, RungError};
 pub use bands::{Band, BandSet, InfraredSky, TwilightModel};
 use serde::Serialize;
@@ -186,6 +186,32 @@ pub fn extinction_mag(band: &Band, airmass: f64) -> f64 {
     band.extinction_mag_per_airmass * airmass
 }
 
+/// One instant's context with its Moon and Sun (observed places) and the
+/// Moon's phase angle, what [`SkyGeometry::at_in`] shares between targets.
+#[derive(Debug, Clone)]
+pub struct SkyAt {
+    /// The context.
+    pub ctx: Context,
+    /// `ctx.moon()`.
+    pub moon: Observed,
+    /// `ctx.sun()`.
+    pub sun: Observed,
+    /// `ctx.moon_phase_angle_rad()`.
+    pub moon_phase_rad: f64,
+}
+
+impl SkyAt {
+    /// The Moon, Sun and phase of `ctx`.
+    pub fn new(ctx: &Context) -> Self {
+        SkyAt {
+            ctx: *ctx,
+            moon: ctx.moon(),
+            sun: ctx.sun(),
+            moon_phase_rad: ctx.moon_phase_angle_rad(),
+        }
+    }
+}
+
 /// The geometry the sky model needs, at one target and instant.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct SkyGeometry {
@@ -205,15 +231,20 @@ impl SkyGeometry {
     /// The geometry of `place` seen through `ctx` (SOFA observed places of the
     /// target, Sun and Moon; phase from `Context::moon_phase_angle_rad`).
     pub fn at(ctx: &Context, place: &CatalogPlace) -> Self {
-        let o = ctx.observe(place);
-        let moon = ctx.moon();
-        let sun = ctx.sun();
+        Self::at_in(&SkyAt::new(ctx), place)
+    }
+
+    /// [`SkyGeometry::at`] with the Moon, the Sun and the phase of the
+    /// instant found once ([`SkyAt::new`]), for many targets at one instant:
+    /// the same numbers.
+    pub fn at_in(sky: &SkyAt, place: &CatalogPlace) -> Self {
+        let o = sky.ctx.observe(place);
         SkyGeometry {
             target_alt_rad: o.alt_rad,
-            moon_alt_rad: moon.alt_geom_rad,
-            moon_sep_rad: o.separation_rad(&moon),
-            moon_phase_rad: ctx.moon_phase_angle_rad(),
-            sun_alt_rad: sun.alt_geom_rad,
+            moon_alt_rad: sky.moon.alt_geom_rad,
+            moon_sep_rad: o.separation_rad(&sky.moon),
+            moon_phase_rad: sky.moon_phase_rad,
+            sun_alt_rad: sky.sun.alt_geom_rad,
         }
     }
 }
