@@ -8,6 +8,7 @@ pub mod night;
 pub mod site;
 pub mod time;
 pub mod visibility;
+pub mod window;
 
 use crate::astro::frames::{CatalogPlace, Context};
 use crate::astro::site::Site;

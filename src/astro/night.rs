@@ -6,9 +6,12 @@ use crate::astro::frames::{CatalogPlace, Context, NightFrame, Observed};
 use crate::astro::site::Site;
 use crate::astro::time::{Instant, VALID_FROM_JD, VALID_TO_JD};
 use crate::astro::visibility::{SkyFrame, Track};
+pub use crate::astro::window::{
+    ASTRONOMICAL_DEG, CIVIL_DEG, Event, Limits, NAUTICAL_DEG, STAR_RISE_SET_DEG, SUN_RISE_SET_DEG,
+    TargetNight, intersect_intervals,
+};
 use crate::error::{Result, RungError};
 use chrono::{NaiveDate, NaiveTime, TimeZone};
-use serde::Serialize;
 use std::sync::Arc;
 
 /// Grid spacing used to bracket the Sun and Moon events, seconds (each then
@@ -19,17 +22,6 @@ pub const NIGHT_CACHE_MAX: usize = 1200;
 /// Tolerance to which every event time is refined, seconds (reported times
 /// are then rounded to the second).
 pub const EVENT_TOL_S: f64 = 0.001;
-
-/// Sunrise/sunset altitude of the Sun's geometric centre: −0°50′ (Meeus ch. 15).
-pub const SUN_RISE_SET_DEG: f64 = -50.0 / 60.0;
-/// Civil, nautical and astronomical twilight limits (degrees).
-pub const CIVIL_DEG: f64 = -6.0;
-/// Nautical twilight limit (degrees).
-pub const NAUTICAL_DEG: f64 = -12.0;
-/// Astronomical twilight limit (degrees).
-pub const ASTRONOMICAL_DEG: f64 = -18.0;
-/// Rise/set geometric altitude of a star: −0°34′ (standard refraction at the horizon; Meeus ch. 15).
-pub const STAR_RISE_SET_DEG: f64 = -34.0 / 60.0;
 
 /// An altitude as degrees and arcminutes, e.g. "-0°50′", "-18°".
 pub fn fmt_alt(deg: f64) -> String {
@@ -101,34 +93,6 @@ fn site_key(site: &Site) -> u64 {
         p.alt_deg.to_bits().hash(&mut h);
     }
     h.finish()
-}
-
-/// An event that may not happen, with the reason when it does not.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct Event {
-    /// When, or `None`.
-    pub t: Option<Instant>,
-    /// Why there is no time, when there is none.
-    pub reason: Option<String>,
-}
-
-impl Event {
-    fn at(t: Instant) -> Self {
-        Event {
-            t: Some(t),
-            reason: None,
-        }
-    }
-    fn none(reason: impl Into<String>) -> Self {
-        Event {
-            t: None,
-            reason: Some(reason.into()),
-        }
-    }
-    /// The ISO text, or `None`.
-    pub fn iso(&self) -> Option<String> {
-        self.t.map(|t| t.iso())
-    }
 }
 
 /// One night at one site: its span, an interpolating astrometry frame, and a
@@ -503,83 +467,32 @@ impl Night {
     /// the row of the visibility table (`astro::visibility`), every event
     /// refined to a millisecond on the exact observed place.
     pub fn target(&self, place: &CatalogPlace, limits: &Limits) -> TargetNight {
-        self.sky.track(place).target_night(self, limits)
+        self.target_on(&self.sky.track(place), limits)
+    }
+
+    /// [`Night::target`] for a target whose track through this night is
+    /// already built ([`Night::track`]).
+    pub fn target_on(&self, track: &Track, limits: &Limits) -> TargetNight {
+        track.target_night(&self.site, &self.dark_intervals(limits.sun_alt_deg), limits)
     }
 
     /// The same without rise and set (each `None` with the reason "not
     /// computed"): windows, transit and the highest altitude in the dark, what
     /// the distance methods, the budget and the scheduler need.
     pub fn windows(&self, place: &CatalogPlace, limits: &Limits) -> TargetNight {
-        self.sky.track(place).windows_night(self, limits)
+        self.windows_on(&self.sky.track(place), limits)
+    }
+
+    /// [`Night::windows`] for a target whose track through this night is
+    /// already built ([`Night::track`]).
+    pub fn windows_on(&self, track: &Track, limits: &Limits) -> TargetNight {
+        track.windows_night(&self.site, &self.dark_intervals(limits.sun_alt_deg), limits)
     }
 
     /// A target's [`Track`] through this night: its exact observed place at
     /// any instant and its closed-form first guesses.
     pub fn track(&self, place: &CatalogPlace) -> Track<'_> {
         self.sky.track(place)
-    }
-}
-
-/// The overlaps of two time-ordered lists of disjoint intervals (empty
-/// overlaps dropped).
-pub fn intersect_intervals(
-    a: &[(Instant, Instant)],
-    b: &[(Instant, Instant)],
-) -> Vec<(Instant, Instant)> {
-    let (mut i, mut j) = (0, 0);
-    let mut out = Vec::new();
-    while i < a.len() && j < b.len() {
-        let lo = if a[i].0 > b[j].0 { a[i].0 } else { b[j].0 };
-        let hi = if a[i].1 < b[j].1 { a[i].1 } else { b[j].1 };
-        if lo < hi {
-            out.push((lo, hi));
-        }
-        if a[i].1 < b[j].1 {
-            i += 1;
-        } else {
-            j += 1;
-        }
-    }
-    out
-}
-
-/// Observing limits for a window.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Limits {
-    /// Minimum observed altitude, degrees.
-    pub min_alt_deg: f64,
-    /// The Sun's centre must be below this altitude, degrees.
-    pub sun_alt_deg: f64,
-}
-
-impl Default for Limits {
-    fn default() -> Self {
-        Limits {
-            min_alt_deg: 30.0,
-            sun_alt_deg: ASTRONOMICAL_DEG,
-        }
-    }
-}
-
-impl Limits {
-    /// Checked limits.
-    pub fn new(min_alt_deg: f64, sun_alt_deg: f64) -> Result<Self> {
-        if !min_alt_deg.is_finite() || !(-1.0..=89.0).contains(&min_alt_deg) {
-            return Err(RungError::invalid(
-                "--min-alt",
-                format!("{min_alt_deg} is not within -1..89 degrees"),
-            ));
-        }
-        if !sun_alt_deg.is_finite() || !(-90.0..=0.0).contains(&sun_alt_deg) {
-            return Err(RungError::invalid(
-                "--sun-alt",
-                format!("{sun_alt_deg} is not within -90..0 degrees"),
-            ));
-        }
-        Ok(Limits {
-            min_alt_deg,
-            sun_alt_deg,
-        })
     }
 }
 
@@ -612,38 +525,6 @@ pub struct NightEvents {
     pub moon_waxing: bool,
     /// The middle of the noon-to-noon span (local midnight, to within DST shifts).
     pub local_midnight: Instant,
-}
-
-/// What one target does in one night.
-#[derive(Debug, Clone, PartialEq)]
-pub struct TargetNight {
-    /// Rise (geometric altitude through −0°34′).
-    pub rise: Event,
-    /// Upper transit.
-    pub transit: Event,
-    /// Set.
-    pub set: Event,
-    /// Observable intervals (above the limit and the horizon mask, Sun below its limit).
-    pub windows: Vec<(Instant, Instant)>,
-    /// Total observable time, hours.
-    pub observable_hours: f64,
-    /// Highest observed altitude while the Sun is below its limit, degrees.
-    pub max_altitude_deg: Option<f64>,
-    /// When that altitude is reached.
-    pub max_altitude_time: Option<Instant>,
-    /// Kasten–Young airmass at that altitude.
-    pub min_airmass: Option<f64>,
-}
-
-impl TargetNight {
-    /// The longest observable interval.
-    pub fn main_window(&self) -> Option<(Instant, Instant)> {
-        self.windows.iter().copied().max_by(|a, b| {
-            a.1.seconds_since(&a.0)
-                .partial_cmp(&b.1.seconds_since(&b.0))
-                .unwrap_or(std::cmp::Ordering::Equal)
-        })
-    }
 }
 
 #[cfg(test)]
@@ -692,5 +573,89 @@ mod tests {
             let got = c.tdb_minus_tt_s().unwrap();
             assert!((got - want).abs() < 5e-6, "{k}: {got} vs {want}");
         }
+    }
+
+    /// The grid method the table replaced: the night's contexts every 60 s,
+    /// each sign change refined to 1 ms on `Night::context`.
+    fn brute_windows(night: &Night, place: &CatalogPlace, limits: &Limits) -> Vec<(f64, f64)> {
+        let ts = grid(night.start, night.end, 60.0);
+        let margin = |t: Instant| {
+            let o = night.context(t).observe(place);
+            let floor = limits
+                .min_alt_deg
+                .max(night.site.horizon_alt_deg(o.az_rad.to_degrees()));
+            o.alt_rad.to_degrees() - floor
+        };
+        let vs: Vec<f64> = ts.iter().map(|t| margin(*t)).collect();
+        let mut f = |t: Instant| margin(t);
+        let above = positive_intervals(&mut f, &ts, &vs, 0.001);
+        intersect_intervals(&above, &night.dark_intervals(limits.sun_alt_deg))
+            .iter()
+            .map(|(a, b)| (night.sky.offset(*a), night.sky.offset(*b)))
+            .collect()
+    }
+
+    #[test]
+    fn table_rows_match_a_fine_grid_on_the_full_chain() {
+        // Against the night's own SOFA contexts on a 60 s grid (an independent
+        // path: no closed form, no interpolated CIRS place), at a site with a
+        // horizon mask and one without, targets from pole to pole.
+        let sites = crate::io::sites::catalogue().unwrap();
+        let limits = [
+            Limits::new(30.0, -12.0).unwrap(),
+            Limits::new(0.0, -18.0).unwrap(),
+        ];
+        let mut worst: f64 = 0.0;
+        for site in sites.iter().take(2) {
+            for day in ["2026-03-20", "2026-12-01"] {
+                let night = Night::new(site, day.parse::<NaiveDate>().unwrap()).unwrap();
+                for i in 0..24 {
+                    let place =
+                        CatalogPlace::fixed_deg(i as f64 * 15.0 + 3.0, -88.0 + i as f64 * 7.6);
+                    for lim in &limits {
+                        let got = night.target(&place, lim);
+                        let want = brute_windows(&night, &place, lim);
+                        let got_s: Vec<(f64, f64)> = got
+                            .windows
+                            .iter()
+                            .map(|(a, b)| (night.sky.offset(*a), night.sky.offset(*b)))
+                            .collect();
+                        assert_eq!(
+                            got_s.len(),
+                            want.len(),
+                            "{} {day} #{i}: {got_s:?} vs {want:?}",
+                            site.name
+                        );
+                        for (g, w) in got_s.iter().zip(&want) {
+                            worst = worst.max((g.0 - w.0).abs()).max((g.1 - w.1).abs());
+                        }
+                        // The highest altitude in the dark is at least every
+                        // grid point's, and it is the altitude at its time.
+                        let best_grid = grid(night.start, night.end, 60.0)
+                            .iter()
+                            .filter(|t| night.sun_alt_at(**t) < lim.sun_alt_deg)
+                            .map(|t| night.context(*t).observe(&place).alt_rad.to_degrees())
+                            .fold(f64::NEG_INFINITY, f64::max);
+                        if let (Some(m), Some(t)) = (got.max_altitude_deg, got.max_altitude_time) {
+                            assert!(m >= best_grid - 1e-6, "{m} vs {best_grid}");
+                            let there = night.context(t).observe(&place).alt_rad.to_degrees();
+                            assert!((m - there).abs() < 1e-5, "{m} vs {there}");
+                            assert!(night.sun_alt_at(t) < lim.sun_alt_deg + 1e-4);
+                        }
+                        if let Some(t) = got.transit.t {
+                            // 0.01″ of the night frame's interpolation on the
+                            // sky is 0.01″/cos δ of hour angle.
+                            let o = night.context(t).observe(&place);
+                            let on_sky = o.ha_rad.abs() * o.dec_rad.cos();
+                            assert!(
+                                on_sky < 0.02 / 206_265.0,
+                                "#{i}: transit off by {on_sky} rad"
+                            );
+                        }
+                    }
+                }
+            }
+        }
+        assert!(worst < 0.01, "window edges differ by {worst} s");
     }
 }

@@ -2,7 +2,7 @@
 //! closed form and shared by every job that asks (`rung night`, the UI's
 //! Roster and Tonight, the distance methods, the budget and the scheduler).
 //!
-//! Per night, one [`SkyFrame`] (built with the [`Night`] and kept in it):
+//! Per night, one [`SkyFrame`] (built with each night and kept in it):
 //! SOFA astrometry contexts at the start, middle and end of the night, the
 //! Earth rotation angle as a linear function of time, and SOFA's refraction
 //! tabulated once per site ([`Refraction`]).
@@ -15,7 +15,7 @@
 //! Algorithms*, 2nd ed., eq. 13.6), so every rise, set, transit and window
 //! edge has a closed-form first guess. Each guess is then refined on the
 //! exact observed place, SOFA `atioq` with the Earth rotation angle of the
-//! instant (the same numbers as [`Night::context`] gives, to 0.01″), by a
+//! instant (the same numbers as `Night::context` gives, to 0.01″), by a
 //! Newton step from the closed form's slope and secant steps: one to three
 //! evaluations reach the millisecond, where bisection from the night's
 //! 10-minute grid took ten evaluations (each with a fresh context) to reach
@@ -31,11 +31,9 @@
 use crate::astro::airmass::kasten_young;
 use crate::astro::events::illinois;
 use crate::astro::frames::{CatalogPlace, NightFrame, Observed};
-use crate::astro::night::{
-    Event, Limits, Night, STAR_RISE_SET_DEG, TargetNight, intersect_intervals,
-};
 use crate::astro::site::Site;
 use crate::astro::time::Instant;
+use crate::astro::window::{Event, Limits, STAR_RISE_SET_DEG, TargetNight, intersect_intervals};
 use sofars::astro::{IauAstrom, atciq, atioq};
 use std::f64::consts::{FRAC_PI_2, PI, TAU};
 use std::sync::Arc;
@@ -166,7 +164,7 @@ impl Refraction {
 
 /// What one night offers every target: SOFA astrometry at its start, middle
 /// and end, the Earth rotation angle through it, and the site's refraction.
-/// Built once per night inside [`Night`]; all times are seconds (SI) from the
+/// Built once per night inside `Night`; all times are seconds (SI) from the
 /// night's start.
 #[derive(Debug, Clone)]
 pub struct SkyFrame {
@@ -644,10 +642,16 @@ impl<'a> Track<'a> {
     }
 
     /// Rise, transit, set, windows and the highest altitude in the dark, as
-    /// [`Night::target`] reports them.
-    pub fn target_night(&self, night: &Night, limits: &Limits) -> TargetNight {
+    /// `Night::target` reports them: at `site`, with `dark` the intervals of
+    /// the night when the Sun is below `limits.sun_alt_deg` (in time order).
+    pub fn target_night(
+        &self,
+        site: &Site,
+        dark: &[(Instant, Instant)],
+        limits: &Limits,
+    ) -> TargetNight {
         let (rise, set) = self.rise_set();
-        let mut tn = self.windows_night(night, limits);
+        let mut tn = self.windows_night(site, dark, limits);
         tn.rise = rise;
         tn.set = set;
         tn
@@ -655,15 +659,19 @@ impl<'a> Track<'a> {
 
     /// [`Track::target_night`] without rise and set (their events carry the
     /// reason "not computed"): what the methods and the budget need.
-    pub fn windows_night(&self, night: &Night, limits: &Limits) -> TargetNight {
+    pub fn windows_night(
+        &self,
+        site: &Site,
+        dark: &[(Instant, Instant)],
+        limits: &Limits,
+    ) -> TargetNight {
         let transit = self.transit();
-        let dark = night.dark_intervals(limits.sun_alt_deg);
         let above: Vec<(Instant, Instant)> = self
-            .above_limit(&night.site, limits.min_alt_deg)
+            .above_limit(site, limits.min_alt_deg)
             .iter()
             .map(|(a, b)| (self.frame.instant(*a), self.frame.instant(*b)))
             .collect();
-        let windows = intersect_intervals(&above, &dark);
+        let windows = intersect_intervals(&above, dark);
         let dark_s: Vec<(f64, f64)> = dark
             .iter()
             .map(|(a, b)| (self.frame.offset(*a), self.frame.offset(*b)))
@@ -814,95 +822,4 @@ pub fn push_merged(out: &mut Vec<(f64, f64)>, iv: (f64, f64)) {
         return;
     }
     out.push(iv);
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-    use crate::astro::events::{grid, positive_intervals};
-    use chrono::NaiveDate;
-
-    /// The grid method the table replaced: the night's contexts every 60 s,
-    /// each sign change refined to 1 ms on `Night::context`.
-    fn brute_windows(night: &Night, place: &CatalogPlace, limits: &Limits) -> Vec<(f64, f64)> {
-        let ts = grid(night.start, night.end, 60.0);
-        let margin = |t: Instant| {
-            let o = night.context(t).observe(place);
-            let floor = limits
-                .min_alt_deg
-                .max(night.site.horizon_alt_deg(o.az_rad.to_degrees()));
-            o.alt_rad.to_degrees() - floor
-        };
-        let vs: Vec<f64> = ts.iter().map(|t| margin(*t)).collect();
-        let mut f = |t: Instant| margin(t);
-        let above = positive_intervals(&mut f, &ts, &vs, 0.001);
-        intersect_intervals(&above, &night.dark_intervals(limits.sun_alt_deg))
-            .iter()
-            .map(|(a, b)| (night.sky.offset(*a), night.sky.offset(*b)))
-            .collect()
-    }
-
-    #[test]
-    fn table_rows_match_a_fine_grid_on_the_full_chain() {
-        // Against the night's own SOFA contexts on a 60 s grid (an independent
-        // path: no closed form, no interpolated CIRS place), at a site with a
-        // horizon mask and one without, targets from pole to pole.
-        let sites = crate::io::sites::catalogue().unwrap();
-        let limits = [
-            Limits::new(30.0, -12.0).unwrap(),
-            Limits::new(0.0, -18.0).unwrap(),
-        ];
-        let mut worst: f64 = 0.0;
-        for site in sites.iter().take(2) {
-            for day in ["2026-03-20", "2026-12-01"] {
-                let night = Night::new(site, day.parse::<NaiveDate>().unwrap()).unwrap();
-                for i in 0..24 {
-                    let place =
-                        CatalogPlace::fixed_deg(i as f64 * 15.0 + 3.0, -88.0 + i as f64 * 7.6);
-                    for lim in &limits {
-                        let got = night.target(&place, lim);
-                        let want = brute_windows(&night, &place, lim);
-                        let got_s: Vec<(f64, f64)> = got
-                            .windows
-                            .iter()
-                            .map(|(a, b)| (night.sky.offset(*a), night.sky.offset(*b)))
-                            .collect();
-                        assert_eq!(
-                            got_s.len(),
-                            want.len(),
-                            "{} {day} #{i}: {got_s:?} vs {want:?}",
-                            site.name
-                        );
-                        for (g, w) in got_s.iter().zip(&want) {
-                            worst = worst.max((g.0 - w.0).abs()).max((g.1 - w.1).abs());
-                        }
-                        // The highest altitude in the dark is at least every
-                        // grid point's, and it is the altitude at its time.
-                        let best_grid = grid(night.start, night.end, 60.0)
-                            .iter()
-                            .filter(|t| night.sun_alt_at(**t) < lim.sun_alt_deg)
-                            .map(|t| night.context(*t).observe(&place).alt_rad.to_degrees())
-                            .fold(f64::NEG_INFINITY, f64::max);
-                        if let (Some(m), Some(t)) = (got.max_altitude_deg, got.max_altitude_time) {
-                            assert!(m >= best_grid - 1e-6, "{m} vs {best_grid}");
-                            let there = night.context(t).observe(&place).alt_rad.to_degrees();
-                            assert!((m - there).abs() < 1e-5, "{m} vs {there}");
-                            assert!(night.sun_alt_at(t) < lim.sun_alt_deg + 1e-4);
-                        }
-                        if let Some(t) = got.transit.t {
-                            // 0.01″ of the night frame's interpolation on the
-                            // sky is 0.01″/cos δ of hour angle.
-                            let o = night.context(t).observe(&place);
-                            let on_sky = o.ha_rad.abs() * o.dec_rad.cos();
-                            assert!(
-                                on_sky < 0.02 / 206_265.0,
-                                "#{i}: transit off by {on_sky} rad"
-                            );
-                        }
-                    }
-                }
-            }
-        }
-        assert!(worst < 0.01, "window edges differ by {worst} s");
-    }
 }

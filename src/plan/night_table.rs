@@ -61,10 +61,9 @@ fn row_in(
     place: &CatalogPlace,
     limits: &Limits,
 ) -> NightRow {
-    // One track for the row and the Sun caution (`Night::target` is
-    // `night.track(place).target_night(night, limits)`).
+    // One track for the row and the Sun caution.
     let track = night.track(place);
-    let tn = track.target_night(night, limits);
+    let tn = night.target_on(&track, limits);
     let sky = tn.max_altitude_time.map(|t| {
         let same = |x: &&SkyAt| {
             (x.ctx.t.utc1.to_bits(), x.ctx.t.utc2.to_bits()) == (t.utc1.to_bits(), t.utc2.to_bits())

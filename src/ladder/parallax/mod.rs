@@ -996,7 +996,7 @@ impl ParallaxMethod {
         let night = Night::shared(s.site, date)?;
         // One track serves the windows and the instants in them.
         let track = night.track(place);
-        let tn = track.windows_night(&night, lim);
+        let tn = night.windows_on(&track, lim);
         let (best, usable, ends) = self.best_in_windows(&track, &tn);
         let mid = night
             .start
