@@ -545,7 +545,12 @@ impl<'a> Track<'a> {
 
     /// The first upper transit between the local noons.
     pub fn transit(&self) -> Event {
-        match self.transits(0.0, self.frame.span_s).first() {
+        self.first_transit(&self.transits(0.0, self.frame.span_s))
+    }
+
+    /// The event of the first of the night's upper transits `transits`.
+    fn first_transit(&self, transits: &[f64]) -> Event {
+        match transits.first() {
             Some(s) => Event {
                 t: Some(self.frame.instant(*s)),
                 reason: None,
@@ -626,12 +631,18 @@ impl<'a> Track<'a> {
     /// Highest observed altitude inside the intervals `dark` (offsets), and
     /// its offset: at a dark interval's end or at an upper transit inside it.
     pub fn highest_in(&self, dark: &[(f64, f64)]) -> Option<(f64, f64)> {
+        let span = self.frame.span_s;
+        self.highest_among(dark, &self.transits(0.0, span))
+    }
+
+    /// [`Track::highest_in`] with the night's upper transits already found
+    /// (`transits(0, span)`: those inside each dark interval are the ones
+    /// `transits` finds there, each polished from the same closed-form guess).
+    fn highest_among(&self, dark: &[(f64, f64)], transits: &[f64]) -> Option<(f64, f64)> {
         let mut best: Option<(f64, f64)> = None;
         for &(d0, d1) in dark {
-            let mut cands = vec![d0];
-            cands.extend(self.transits(d0, d1));
-            cands.push(d1);
-            for s in cands {
+            let inside = transits.iter().copied().filter(|s| *s >= d0 && *s < d1);
+            for s in std::iter::once(d0).chain(inside).chain(std::iter::once(d1)) {
                 let alt = self.alt_az_rad(s).0;
                 if best.is_none_or(|b| alt > b.0) {
                     best = Some((alt, s));
@@ -665,7 +676,8 @@ impl<'a> Track<'a> {
         dark: &[(Instant, Instant)],
         limits: &Limits,
     ) -> TargetNight {
-        let transit = self.transit();
+        let transits = self.transits(0.0, self.frame.span_s);
+        let transit = self.first_transit(&transits);
         let above: Vec<(Instant, Instant)> = self
             .above_limit(site, limits.min_alt_deg)
             .iter()
@@ -676,23 +688,39 @@ impl<'a> Track<'a> {
             .iter()
             .map(|(a, b)| (self.frame.offset(*a), self.frame.offset(*b)))
             .collect();
-        let best = self.highest_in(&dark_s);
+        let best = self.highest_among(&dark_s, &transits);
         let observable_s: f64 = windows.iter().map(|(a, b)| b.seconds_since(a)).sum::<f64>() + 0.0;
-        let max_altitude_time = best.map(|(_, s)| {
+        let best_at = best.map(|(alt, s)| {
             // A dark end keeps its own instant; the night's transit (found
             // again inside the dark interval, to within a millisecond) is
-            // the transit instant every other caller uses.
-            dark.iter()
-                .flat_map(|d| [d.0, d.1])
-                .find(|t| (self.frame.offset(*t) - s).abs() < 1e-9)
-                .or(transit
-                    .t
-                    .filter(|t| (self.frame.offset(*t) - s).abs() < 1e-3))
-                .unwrap_or_else(|| self.frame.instant(s))
+            // the transit instant every other caller uses. With the instant,
+            // its offset.
+            let (t, off) = dark
+                .iter()
+                .zip(&dark_s)
+                .flat_map(|(d, o)| [(d.0, o.0), (d.1, o.1)])
+                .find(|(_, o)| (o - s).abs() < 1e-9)
+                .or_else(|| {
+                    transit
+                        .t
+                        .map(|t| (t, self.frame.offset(t)))
+                        .filter(|(_, o)| (o - s).abs() < 1e-3)
+                })
+                .unwrap_or_else(|| {
+                    let t = self.frame.instant(s);
+                    (t, self.frame.offset(t))
+                });
+            // The altitude at that instant, as `observe_at` gives it there
+            // (found already when its offset is the best one's own).
+            let alt = if off.to_bits() == s.to_bits() {
+                alt
+            } else {
+                self.alt_az_rad(off).0
+            };
+            (t, alt)
         });
-        // The altitude at that instant, as `observe_at` gives it there.
-        let max_alt_deg =
-            max_altitude_time.map(|t| self.alt_az_rad(self.frame.offset(t)).0.to_degrees());
+        let max_altitude_time = best_at.map(|(t, _)| t);
+        let max_alt_deg = best_at.map(|(_, alt)| alt.to_degrees());
         let not_computed = || Event {
             t: None,
             reason: Some("not computed".into()),
