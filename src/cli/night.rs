@@ -280,14 +280,24 @@ pub fn run(a: Args) -> Result<()> {
         Some(d) => parse_date(d).context("--date")?,
         None => rung::programme::tonight(&site, super::now()?)?,
     };
-    let targets = match &a.targets {
-        Some(p) => super::load_targets(p)?,
-        None => Vec::new(),
-    };
-    let night = Night::new(&site, date)?;
+    // The night is built on a thread of its own while the targets are read
+    // (errors reported in the same order as one after the other).
+    let (targets, night) = std::thread::scope(|s| {
+        let night = s.spawn(|| Night::new(&site, date));
+        let targets = match &a.targets {
+            Some(p) => super::load_targets(p),
+            None => Ok(Vec::new()),
+        };
+        let night = night
+            .join()
+            .unwrap_or_else(|p| std::panic::resume_unwind(p));
+        (targets, night)
+    });
+    let targets = targets?;
+    let night = night?;
     let e = night.events();
     // One row per target from the night's table (the same rows the UI shows).
-    let places: Vec<_> = targets.iter().map(|t| t.place()).collect();
+    let places: Vec<_> = targets.par_iter().map(|t| t.place()).collect();
     let table = rung::plan::night_table::rows(&night, &places, &limits);
     let rows: Vec<_> = targets.iter().zip(&table).collect();
     // The programme's bands (built-in merged with the user's), as the photometry uses.

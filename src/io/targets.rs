@@ -253,13 +253,13 @@ const BATCH_RECORDS: usize = 256;
 const BATCH_BYTES: usize = 4 * 1024 * 1024;
 
 /// The reader behind every CSV entry point: streams `reader` record by record
-/// (memory bounded by one batch of [`BATCH_RECORDS`] records or about
+/// (memory bounded by two batches of [`BATCH_RECORDS`] records or about
 /// [`BATCH_BYTES`], each line at most [`MAX_LINE_BYTES`] and each quoted
 /// field at most [`MAX_FIELD_BYTES`], plus the names seen for the duplicate
-/// check). The records of a batch become targets on all cores; targets,
-/// refused rows and the duplicate check then go in file order, so what is
-/// reported, and in which order, does not depend on the batching. With
-/// `keep`, the layout of the file is recorded too.
+/// check). The records of a batch become targets on all cores while the next
+/// batch is read; targets, refused rows and the duplicate check then go in
+/// file order, so what is reported, and in which order, does not depend on
+/// the batching. With `keep`, the layout of the file is recorded too.
 fn read_csv<R: std::io::Read>(
     reader: R,
     file: &Path,
@@ -269,21 +269,38 @@ fn read_csv<R: std::io::Read>(
 ) {
     let mut records = Records::new(std::io::BufReader::with_capacity(64 * 1024, reader));
     let mut rec = Record::default();
-    let mut header: Option<Header> = None;
     let mut seen = Seen::new();
     let mut last_progress = 0u64;
-    // Records after the header, read but not yet handed on (the first `n`
-    // of `batch`; the rest are spare buffers), and their bytes.
-    let mut batch: Vec<(Event, Record)> = Vec::new();
+    // Records after the header, read but not yet sent on (the first `n` of
+    // `batch`; the rest are spare buffers), and their bytes. A full batch is
+    // turned into targets on the pool while the next one is read here; the
+    // batch before it, parsed meanwhile, is handed on first, so everything
+    // still goes out in file order.
+    let mut batch: Batch = Vec::new();
     let mut n = 0usize;
     let mut bytes = 0usize;
+    let mut shared: Option<Arc<Header>> = None;
+    let mut in_flight: Option<std::sync::mpsc::Receiver<Parsed>> = None;
+    let mut spare: Batch = Vec::new();
+    let keeping = keep.is_some();
     loop {
         let event = match records.next_into(&mut rec) {
             Ok(Some(e)) => e,
             Ok(None) => break,
             Err(e) => {
-                if let Some(h) = &header {
-                    hand_on(&batch[..n], h, file, &mut seen, keep.as_deref_mut(), sink);
+                if let Some(h) = &shared {
+                    if let Some((done, outcomes)) = in_flight.take().and_then(|rx| rx.recv().ok()) {
+                        hand_on(&done, outcomes, file, &mut seen, keep.as_deref_mut(), sink);
+                    }
+                    let outcomes = parse_batch(&batch[..n], h, file, keeping);
+                    hand_on(
+                        &batch[..n],
+                        outcomes,
+                        file,
+                        &mut seen,
+                        keep.as_deref_mut(),
+                        sink,
+                    );
                     n = 0;
                 }
                 (sink.problem)(in_file(file, rec.line, "", format!("unreadable: {e}")));
@@ -295,7 +312,7 @@ fn read_csv<R: std::io::Read>(
             last_progress = r;
             (sink.progress)(r, total_bytes.max(r));
         }
-        let Some(h) = &header else {
+        let Some(h) = &shared else {
             match event {
                 Event::Skipped => {
                     if let Some(k) = keep.as_deref_mut() {
@@ -321,21 +338,22 @@ fn read_csv<R: std::io::Read>(
                     return;
                 }
                 Event::Record => {
-                    header = Some(match read_header(&rec, file, sink) {
+                    let header = match read_header(&rec, file, sink) {
                         Some(h) => h,
                         None => return,
-                    });
+                    };
                     if let Some(k) = keep.as_deref_mut() {
                         let s = rec.span.start as usize;
                         let e = rec.span.end as usize;
                         k.items
                             .push(Item::Header(s..e - rec.terminator, e - rec.terminator..e));
-                        k.columns = header.as_ref().map(|h| h.names.clone()).unwrap_or_default();
+                        k.columns = header.names.clone();
                         let t = k.text.get(e - rec.terminator..e).unwrap_or("");
                         if !t.is_empty() {
                             k.newline = t.to_string();
                         }
                     }
+                    shared = Some(Arc::new(header));
                 }
             }
             continue;
@@ -351,32 +369,63 @@ fn read_csv<R: std::io::Read>(
         bytes += (batch[n].1.span.end - batch[n].1.span.start) as usize;
         n += 1;
         if n == BATCH_RECORDS || bytes >= BATCH_BYTES {
-            hand_on(&batch[..n], h, file, &mut seen, keep.as_deref_mut(), sink);
+            // The batch before this one (parsed meanwhile) goes on first.
+            if let Some((done, outcomes)) = in_flight.take().and_then(|rx| rx.recv().ok()) {
+                hand_on(&done, outcomes, file, &mut seen, keep.as_deref_mut(), sink);
+                spare = done;
+            }
+            let mut full = std::mem::take(&mut spare);
+            std::mem::swap(&mut full, &mut batch);
+            full.truncate(n);
+            let (tx, rx) = std::sync::mpsc::channel();
+            if rayon::current_thread_index().is_some() {
+                // Already on the pool (which may be this one thread): parse
+                // here rather than wait on a job queued behind this one.
+                let outcomes = parse_batch(&full, h, file, keeping);
+                let _ = tx.send((full, outcomes));
+            } else {
+                let (h, path) = (h.clone(), file.to_path_buf());
+                rayon::spawn(move || {
+                    let outcomes = parse_batch(&full, &h, &path, keeping);
+                    let _ = tx.send((full, outcomes));
+                });
+            }
+            in_flight = Some(rx);
             n = 0;
             bytes = 0;
         }
     }
-    if let Some(h) = &header {
-        hand_on(&batch[..n], h, file, &mut seen, keep.as_deref_mut(), sink);
+    if let Some(h) = &shared {
+        if let Some((done, outcomes)) = in_flight.take().and_then(|rx| rx.recv().ok()) {
+            hand_on(&done, outcomes, file, &mut seen, keep.as_deref_mut(), sink);
+        }
+        let outcomes = parse_batch(&batch[..n], h, file, keeping);
+        hand_on(
+            &batch[..n],
+            outcomes,
+            file,
+            &mut seen,
+            keep.as_deref_mut(),
+            sink,
+        );
     }
     let r = records.bytes_read();
     (sink.progress)(r, total_bytes.max(r));
 }
 
-/// The records of a batch (after the header) turned into targets or refusals
-/// on all cores, then handed on in file order with the duplicate check.
-fn hand_on(
-    batch: &[(Event, Record)],
-    h: &Header,
-    file: &Path,
-    seen: &mut Seen,
-    mut keep: Option<&mut Keep>,
-    sink: &mut Sink,
-) {
+/// Records after the header, with what was found reading each.
+type Batch = Vec<(Event, Record)>;
+/// What each record of a batch came to: `None` for a skipped line, else the
+/// target or why the row is refused (all but a name used twice).
+type Outcomes = Vec<Option<std::result::Result<Target, RungError>>>;
+/// A batch parsed on the pool, with its outcomes.
+type Parsed = (Batch, Outcomes);
+
+/// The records of a batch (after the header) turned into targets or
+/// refusals, on all cores.
+fn parse_batch(batch: &[(Event, Record)], h: &Header, file: &Path, keeping: bool) -> Outcomes {
     use rayon::prelude::*;
-    let keeping = keep.is_some();
-    // `None` for a skipped line.
-    let outcomes: Vec<Option<std::result::Result<Target, RungError>>> = batch
+    batch
         .par_iter()
         .map(|(event, rec)| match *event {
             Event::Skipped => None,
@@ -402,7 +451,19 @@ fn hand_on(
             ))),
             Event::Record => Some(row(rec, h, file, keeping)),
         })
-        .collect();
+        .collect()
+}
+
+/// A parsed batch ([`parse_batch`]) handed on in file order, with the
+/// duplicate check.
+fn hand_on(
+    batch: &[(Event, Record)],
+    outcomes: Outcomes,
+    file: &Path,
+    seen: &mut Seen,
+    mut keep: Option<&mut Keep>,
+    sink: &mut Sink,
+) {
     for ((_, rec), outcome) in batch.iter().zip(outcomes) {
         let Some(outcome) = outcome else {
             if let Some(k) = keep.as_deref_mut() {
@@ -515,8 +576,8 @@ fn row(
 }
 
 /// The CSV reader behind [`parse_csv`], [`stream_csv`] and [`load`]: reads
-/// `reader` record by record, never holding more than one batch of records
-/// (at most [`BATCH_RECORDS`], about [`BATCH_BYTES`]; each line at most
+/// `reader` record by record, never holding more than two batches of records
+/// (each at most [`BATCH_RECORDS`], about [`BATCH_BYTES`]; each line at most
 /// [`MAX_LINE_BYTES`], each quoted field at most [`MAX_FIELD_BYTES`]).
 /// Good targets go to `on_target`, refused rows to `on_problem`, columns rung
 /// does not read to `on_warning`; `total_bytes` is passed to `on_progress`
@@ -541,8 +602,8 @@ pub fn stream_csv_reader<R: std::io::Read>(
 
 /// Stream a CSV targets file: each good target goes to `on_target`, each
 /// refused row to `on_problem` and each column rung does not read to
-/// `on_warning`, in file order, with memory bounded by one batch of lines
-/// ([`BATCH_BYTES`]) plus the set of names seen (for the duplicate check),
+/// `on_warning`, in file order, with memory bounded by two batches of lines
+/// ([`BATCH_BYTES`] each) plus the set of names seen (for the duplicate check),
 /// whatever the size of the file.
 pub fn stream_csv(
     path: &Path,
