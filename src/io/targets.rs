@@ -400,14 +400,7 @@ fn read_csv<R: std::io::Read>(
             hand_on(&done, outcomes, file, &mut seen, keep.as_deref_mut(), sink);
         }
         let outcomes = parse_batch(&batch[..n], h, file, keeping);
-        hand_on(
-            &batch[..n],
-            outcomes,
-            file,
-            &mut seen,
-            keep.as_deref_mut(),
-            sink,
-        );
+        hand_on(&batch[..n], outcomes, file, &mut seen, keep, sink);
     }
     let r = records.bytes_read();
     (sink.progress)(r, total_bytes.max(r));
