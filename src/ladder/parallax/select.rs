@@ -163,6 +163,11 @@ struct Pre {
     pd: Vec<f64>,
     /// 1/w, w = 1/σ² the candidate's weight.
     inv_w: Vec<f64>,
+    /// w itself, and the DCR displacements (α cos δ, δ), for the exact J of
+    /// every candidate at once ([`j_with_all`]).
+    w: Vec<f64>,
+    dra: Vec<f64>,
+    ddec: Vec<f64>,
     /// w Aᵀ d, element by element (the candidate's share of the DCR vector).
     wad: [Vec<f64>; 5],
     /// Each candidate's dense slot and season numbers (see [`dense`]) and
@@ -179,6 +184,9 @@ impl Pre {
             pa: Vec::with_capacity(n),
             pd: Vec::with_capacity(n),
             inv_w: Vec::with_capacity(n),
+            w: Vec::with_capacity(n),
+            dra: Vec::with_capacity(n),
+            ddec: Vec::with_capacity(n),
             wad: std::array::from_fn(|_| Vec::with_capacity(n)),
             slots: dense(p.cands, |c| c.slot),
             seasons: dense(p.cands, |c| c.season),
@@ -193,6 +201,9 @@ impl Pre {
             pre.pa.push(pa);
             pre.pd.push(pd);
             pre.inv_w.push(1.0 / w);
+            pre.w.push(w);
+            pre.dra.push(d[0]);
+            pre.ddec.push(d[1]);
             for (j, v) in pre.wad.iter_mut().enumerate() {
                 v.push(w * (a[0][j] * d[0] + a[1][j] * d[1]));
             }
@@ -292,6 +303,115 @@ impl Base {
             est[i] = if ok { j } else { f64::NAN };
             err[i] = if ok { e } else { f64::NAN };
         }
+    }
+}
+
+/// The exact J of the design `acc` with each candidate added, for every
+/// candidate (admissible or not: the caller filters), into `out`.
+///
+/// Candidate by candidate these are the IEEE operations, in the same order,
+/// of `Acc::add` (its `super::add_epoch`) followed by `Acc::score`
+/// (`crate::linalg::spd_inverse_last_row_n`: Cholesky factor, its inverse,
+/// the last row of the inverse) and `j_of`, so the numbers are the same to
+/// the bit as `State::j_with`'s; a design whose matrix cannot be inverted
+/// (a value not finite, a pivot refused) gets J = ∞ as there. The work has
+/// no branch, so the loop runs over several candidates at once (four with
+/// AVX2; no fused multiply-add, so the same numbers).
+fn j_with_all(acc: &Acc, pre: &Pre, out: &mut Vec<f64>) {
+    let n = pre.dt.len();
+    out.clear();
+    out.resize(n, 0.0);
+    #[cfg(target_arch = "x86_64")]
+    if std::arch::is_x86_feature_detected!("avx2") {
+        // SAFETY: the processor has AVX2, checked just above.
+        unsafe { j_with_avx2(acc, pre, out) };
+        return;
+    }
+    j_with_body(acc, pre, out);
+}
+
+/// [`j_with_all`]'s loop compiled for AVX2.
+///
+/// # Safety
+/// Only on a processor with AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+unsafe fn j_with_avx2(acc: &Acc, pre: &Pre, out: &mut [f64]) {
+    j_with_body(acc, pre, out);
+}
+
+/// [`j_with_all`]'s loop, into `out` of the candidates' length.
+#[allow(clippy::needless_range_loop)] // index form mirrors linalg's loops
+#[inline(always)]
+fn j_with_body(acc: &Acc, pre: &Pre, out: &mut [f64]) {
+    const N: usize = 5;
+    let n = pre.dt.len();
+    let (dts, pas, pds) = (&pre.dt[..n], &pre.pa[..n], &pre.pd[..n]);
+    let (ws, dras, ddecs) = (&pre.w[..n], &pre.dra[..n], &pre.ddec[..n]);
+    let out = &mut out[..n];
+    let tol = crate::linalg::PIVOT_REL_TOL;
+    for i in 0..n {
+        let (w, dt) = (ws[i], dts[i]);
+        // Acc::add (super::add_epoch), sign 1.
+        let mut a = acc.n;
+        let mut b = acc.b;
+        for (row, d) in [
+            ([1.0, 0.0, dt, 0.0, pas[i]], dras[i]),
+            ([0.0, 1.0, 0.0, dt, pds[i]], ddecs[i]),
+        ] {
+            for r in 0..N {
+                b[r] += w * row[r] * d;
+                for c in 0..N {
+                    a[r][c] += w * row[r] * row[c];
+                }
+            }
+        }
+        // crate::linalg::cholesky_inverse: a value not finite or a pivot
+        // refused makes the design's J infinite.
+        let mut ok = true;
+        for r in 0..N {
+            for c in 0..N {
+                ok &= a[r][c].is_finite();
+            }
+        }
+        let mut l = [[0.0f64; N]; N];
+        for r in 0..N {
+            for c in 0..=r {
+                let mut s = -0.0;
+                for k in 0..c {
+                    s += l[r][k] * l[c][k];
+                }
+                if r == c {
+                    let d = a[r][r] - s;
+                    ok &= !(d.is_nan() || d <= tol * a[r][r].abs() || d <= 0.0);
+                    l[r][r] = d.sqrt();
+                } else {
+                    l[r][c] = (a[r][c] - s) / l[c][c];
+                }
+            }
+        }
+        let mut li = [[0.0f64; N]; N];
+        for r in 0..N {
+            li[r][r] = 1.0 / l[r][r];
+            for c in 0..r {
+                let mut s = -0.0;
+                for k in c..r {
+                    s += l[r][k] * li[k][c];
+                }
+                li[r][c] = -s / l[r][r];
+            }
+        }
+        // The last row of L⁻ᵀ L⁻¹ (one term each), the bias and J.
+        let mut bias = -0.0;
+        let mut var = 0.0;
+        for c in 0..N {
+            let row = -0.0 + li[N - 1][N - 1] * li[N - 1][c];
+            bias += row * b[c];
+            if c == N - 1 {
+                var = row;
+            }
+        }
+        out[i] = if ok { var + bias * bias } else { f64::INFINITY };
     }
 }
 
@@ -609,7 +729,7 @@ fn run(
         st.push(i);
     }
     let n = p.cands.len();
-    let (mut est, mut err) = (Vec::new(), Vec::new());
+    let (mut est, mut err, mut exact_js) = (Vec::new(), Vec::new(), Vec::new());
     // The kept steps of this search with other targets (see [`Memo`]):
     // their states up to this target's stop, or all of them.
     if let Stop::Count(_) = stop {
@@ -664,7 +784,11 @@ fn run(
                 .then(|| Base::of(&st.acc))
                 .flatten();
             let best = match base {
-                None => exact_best(&mut (0..n).map(|i| (i, None))),
+                None => {
+                    // Every candidate's exact J at once (the same numbers).
+                    j_with_all(&st.acc, pre, &mut exact_js);
+                    exact_best(&mut (0..n).map(|i| (i, Some(exact_js[i]))))
+                }
                 Some(base) => {
                     // Estimates of the gain and their bounds; the largest gain
                     // surely reached; the finalists that may reach it.
@@ -1082,4 +1206,90 @@ pub fn exhaustive(p: Problem, k: usize) -> Option<Design> {
         }
     }
     best
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Candidates over two years with varied factors, errors and DCR, and
+    /// a few that make a normal matrix singular or not finite.
+    fn cands() -> Vec<Candidate> {
+        let mut v: Vec<Candidate> = (0..40)
+            .map(|k| {
+                let x = k as f64;
+                Candidate {
+                    t_yr: 2027.0 + x * 0.05,
+                    pf_ra: (x * 0.7).sin(),
+                    pf_dec: 0.3 * (x * 1.3).cos(),
+                    sigma_mas: 1.0 + 0.1 * (x * 0.37).sin(),
+                    dcr_ra_mas: 0.2 * (x * 0.9).cos(),
+                    dcr_dec_mas: -0.1 * (x * 0.4).sin(),
+                    hours: 0.5,
+                    slot: k,
+                    season: k / 8,
+                }
+            })
+            .collect();
+        let mut zero = v[3].clone();
+        zero.sigma_mas = 0.0;
+        let mut nan = v[5].clone();
+        nan.pf_ra = f64::NAN;
+        let mut neg = v[7].clone();
+        neg.sigma_mas = -0.0;
+        v.extend([zero, nan, neg]);
+        v
+    }
+
+    #[test]
+    fn every_exact_j_at_once_is_each_ones_to_the_bit() {
+        // j_with_all promises State::j_with's numbers bit for bit, on
+        // designs of none to eight epochs (the prior-dominated ones the
+        // greedy search meets first) and on candidates whose matrix is
+        // singular or not finite.
+        let cands = cands();
+        let p = Problem {
+            cands: &cands,
+            t_ref: 2027.9,
+            max_per_season: 8,
+        };
+        let pre = Pre::of(&p);
+        let mut st = State::new(p, &pre);
+        let mut js = Vec::new();
+        for add in [0, 11, 22, 33, 1, 17, 29, 38, 9] {
+            j_with_all(&st.acc, &pre, &mut js);
+            for (i, j) in js.iter().enumerate() {
+                assert_eq!(
+                    j.to_bits(),
+                    st.j_with(i).to_bits(),
+                    "{} epochs, candidate {i}",
+                    st.chosen.len()
+                );
+            }
+            j_with_body(&st.acc, &pre, &mut js);
+            for (i, j) in js.iter().enumerate() {
+                assert_eq!(
+                    j.to_bits(),
+                    st.j_with(i).to_bits(),
+                    "plain loop, candidate {i}"
+                );
+            }
+            st.push(add);
+        }
+        // A design without the prior's help: one epoch's matrix alone is
+        // singular, so every J is infinite, as State::j_with says.
+        let mut bare = st.acc;
+        bare.n = [[0.0; 5]; 5];
+        j_with_all(&bare, &pre, &mut js);
+        for (i, j) in js.iter().enumerate() {
+            let mut a = bare;
+            a.add(&cands[i], p.t_ref, 1.0);
+            assert_eq!(
+                j.to_bits(),
+                j_of(a.score()).to_bits(),
+                "bare, candidate {i}"
+            );
+            assert!(j.is_infinite(), "{i}");
+        }
+    }
 }
