@@ -793,17 +793,27 @@ fn run(
                     // Estimates of the gain and their bounds; the largest gain
                     // surely reached; the finalists that may reach it.
                     base.j_plus_all(pre, &mut est, &mut err);
-                    let lb = (0..n)
-                        .filter(|i| est[*i].is_finite() && st.may_add(*i, None))
-                        .map(|i| (cur - est[i] - err[i]) / per(i))
-                        .fold(f64::NEG_INFINITY, f64::max);
-                    let finalists: Vec<(usize, (f64, f64))> = (0..n)
-                        .filter(|i| {
-                            (est[*i].is_nan() || (cur - est[*i] + err[*i]) / per(*i) >= lb)
-                                && st.may_add(*i, None)
-                        })
-                        .map(|i| (i, (est[i], err[i])))
-                        .collect();
+                    // One pass: the largest lower bound so far, and the
+                    // candidates whose upper bound reaches it. The bound only
+                    // rises, and a candidate's lower bound is at most its
+                    // upper one (err ≥ 0, per > 0), so a candidate passed
+                    // over could neither raise the final bound nor reach it:
+                    // keeping those that reach the final bound gives the
+                    // finalists of the two passes over every candidate, in
+                    // the same order.
+                    let mut lb = f64::NEG_INFINITY;
+                    let mut finalists: Vec<(usize, (f64, f64))> = Vec::new();
+                    for i in 0..n {
+                        let (e, r) = (est[i], err[i]);
+                        if !(e.is_nan() || (cur - e + r) / per(i) >= lb) || !st.may_add(i, None) {
+                            continue;
+                        }
+                        if e.is_finite() {
+                            lb = f64::max(lb, (cur - e - r) / per(i));
+                        }
+                        finalists.push((i, (e, r)));
+                    }
+                    finalists.retain(|(i, (e, r))| e.is_nan() || (cur - e + r) / per(*i) >= lb);
                     // Each finalist's exact J, kept for the choice.
                     let exact: Option<Vec<(usize, Option<f64>)>> = finalists
                         .iter()
@@ -955,24 +965,26 @@ fn exchange_for_j(st: &mut State, seed: &[usize]) {
                 // The smallest J surely reached over the admissible swaps
                 // (a minimum: the order of the terms does not matter), and
                 // the finalists, position by position in candidate order.
+                // One pass, as in `run`: the bound only falls and a swap's
+                // lower end is at most its upper one (e ≥ 0), so a swap
+                // passed over could neither lower the final bound nor come
+                // within it; keeping those within the final bound gives the
+                // two passes' finalists in the same order.
                 let mut ub = cur * (1.0 - 1e-9);
-                for (&k, (est, err)) in free.iter().zip(bufs.iter()) {
-                    let out = Some(st.chosen[k]);
-                    for (i, (&j, &e)) in est.iter().zip(err).enumerate() {
-                        if j.is_finite() && st.may_add(i, out) {
-                            ub = f64::min(ub, j + e);
-                        }
-                    }
-                }
                 let mut finalists: Vec<Swap> = Vec::new();
                 for (&k, (est, err)) in free.iter().zip(bufs.iter()) {
                     let out = Some(st.chosen[k]);
                     for (i, (&j, &e)) in est.iter().zip(err).enumerate() {
-                        if (j.is_nan() || j - e <= ub) && st.may_add(i, out) {
-                            finalists.push((k, i, (j, e)));
+                        if !(j.is_nan() || j - e <= ub) || !st.may_add(i, out) {
+                            continue;
                         }
+                        if j.is_finite() {
+                            ub = f64::min(ub, j + e);
+                        }
+                        finalists.push((k, i, (j, e)));
                     }
                 }
+                finalists.retain(|(_, _, (j, e))| j.is_nan() || j - e <= ub);
                 match exact_swaps(st, &finalists) {
                     Some(x) => exact_best(&mut x.into_iter()),
                     None => exact_best(&mut all(st)),
