@@ -682,6 +682,53 @@ fn candidates(
         .collect()
 }
 
+/// The most epochs a design may hold over `slots` (one a night, at most
+/// `cap` a season): every season's nights, up to the cap. A search that adds
+/// admissible candidates while any is left (the count-stopped greedy
+/// search) stops with exactly this many, or with its count: with each
+/// candidate admissible, a season is left either at its cap or with all
+/// its nights taken.
+fn most_epochs(slots: &[Slot], season_of: &[usize], cap: usize) -> usize {
+    let mut nights: Vec<(usize, usize)> = slots
+        .iter()
+        .map(|sl| (season_of[sl.night], sl.night))
+        .collect();
+    nights.sort_unstable();
+    nights.dedup();
+    let mut total = 0;
+    let mut at = 0;
+    while at < nights.len() {
+        let season = nights[at].0;
+        let n = nights[at..].iter().take_while(|x| x.0 == season).count();
+        total += n.min(cap);
+        at += n;
+    }
+    total
+}
+
+/// The fewest hours a design of at least `fewest` epochs at `level` costs,
+/// summed as `select::evaluate` sums a design's hours: `fewest` times the
+/// cheapest visit (each term of a design is at least that and the rounded
+/// sum of non-negative terms only grows with more or larger terms).
+///
+/// A design the goal search may choose holds at least `fewest` =
+/// min(`min_epochs`, [`most_epochs`]) epochs: `choose_kept` returns one of
+/// `min_epochs` or more, or tops it up by the count-stopped search (which
+/// ends with min(`min_epochs`, most) epochs, see [`most_epochs`]), or
+/// returns one that is empty (no baseline: never chosen) or of infinite J
+/// (never within the goal).
+fn fewest_hours(slots: &[Slot], level: usize, fewest: usize) -> f64 {
+    let h = slots
+        .iter()
+        .map(|sl| sl.at[level].3 / 3600.0)
+        .fold(f64::INFINITY, f64::min);
+    if !(h >= 0.0) {
+        // A negative (or no) visit length: no bound.
+        return f64::NEG_INFINITY;
+    }
+    (0..fewest).map(|_| h).sum()
+}
+
 /// Which level's candidate list `cands` was cut from (by its first σ).
 fn level_of(cands: &[Candidate], all: &[Vec<Candidate>]) -> usize {
     let Some(c) = cands.first() else {
@@ -1386,7 +1433,18 @@ impl ParallaxMethod {
         // The range: each level, the fewest hours that reach the goal.
         let mut best: Option<(f64, usize, Design, Vec<Candidate>)> = None;
         let mut range_best: Option<(f64, f64)> = None; // J, baseline
+        let fewest = (self.cfg.min_epochs as usize).min(most_epochs(&slots, &season_of, cap));
         for level in 0..rule.levels.len() {
+            // A level whose every design that may be chosen costs at least
+            // the best one's hours cannot be chosen (a design must cost
+            // fewer): it is not searched (see `fewest_hours`). `range_best`
+            // is read only when no level is chosen, so it may miss it.
+            if best
+                .as_ref()
+                .is_some_and(|x| fewest_hours(&slots, level, fewest) >= x.0)
+            {
+                continue;
+            }
             let cands = candidates(&model, &slots, level, &t_of, &|i| season_of[i]);
             let d = choose_kept(
                 &cands,
