@@ -510,6 +510,9 @@ struct Kept {
     series: Option<Series>,
     slots: Option<Arc<Vec<Slot>>>,
     horizon: Option<Arc<Horizon>>,
+    /// The range's candidates at each level (built from the kept slots and
+    /// series, nothing of the goal in them).
+    cands: Vec<Option<Arc<Vec<Candidate>>>>,
     /// The selections' kept steps (the range's and the horizon's problems).
     memo: select::Memo,
 }
@@ -1445,7 +1448,17 @@ impl ParallaxMethod {
             {
                 continue;
             }
-            let cands = candidates(&model, &slots, level, &t_of, &|i| season_of[i]);
+            if kept.cands.len() <= level {
+                kept.cands.resize_with(level + 1, || None);
+            }
+            let cands = match &kept.cands[level] {
+                Some(x) => x.clone(),
+                None => {
+                    let x = Arc::new(candidates(&model, &slots, level, &t_of, &|i| season_of[i]));
+                    kept.cands[level] = Some(x.clone());
+                    x
+                }
+            };
             let d = choose_kept(
                 &cands,
                 cap,
@@ -1460,7 +1473,7 @@ impl ParallaxMethod {
             }
             if d.j() <= target_j && b >= minb - 1e-9 && best.as_ref().is_none_or(|x| d.hours < x.0)
             {
-                best = Some((d.hours, level, d, cands));
+                best = Some((d.hours, level, d, cands.to_vec()));
             }
         }
         if let Some((_, level, d, cands)) = best {
