@@ -327,91 +327,202 @@ fn j_with_all(acc: &Acc, pre: &Pre, out: &mut Vec<f64>) {
         unsafe { j_with_avx2(acc, pre, out) };
         return;
     }
-    j_with_body(acc, pre, out);
+    j_with_body(acc, pre, out, 0);
 }
 
-/// [`j_with_all`]'s loop compiled for AVX2.
+/// [`j_with_all`]'s loop in AVX2 instructions, four candidates in each
+/// (no fused multiply-add: each operation the one [`j_with_body`] does on
+/// each lane); the last candidates, fewer than four, by [`j_with_body`].
 ///
 /// # Safety
 /// Only on a processor with AVX2.
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2")]
-unsafe fn j_with_avx2(acc: &Acc, pre: &Pre, out: &mut [f64]) {
-    j_with_body(acc, pre, out);
-}
-
-/// [`j_with_all`]'s loop, into `out` of the candidates' length.
 #[allow(clippy::needless_range_loop)] // index form mirrors linalg's loops
-#[inline(always)]
-fn j_with_body(acc: &Acc, pre: &Pre, out: &mut [f64]) {
+unsafe fn j_with_avx2(acc: &Acc, pre: &Pre, out: &mut [f64]) {
+    use std::arch::x86_64::*;
     const N: usize = 5;
     let n = pre.dt.len();
-    let (dts, pas, pds) = (&pre.dt[..n], &pre.pa[..n], &pre.pd[..n]);
-    let (ws, dras, ddecs) = (&pre.w[..n], &pre.dra[..n], &pre.ddec[..n]);
-    let out = &mut out[..n];
-    let tol = crate::linalg::PIVOT_REL_TOL;
-    for i in 0..n {
-        let (w, dt) = (ws[i], dts[i]);
-        // Acc::add (super::add_epoch), sign 1.
-        let mut a = acc.n;
-        let mut b = acc.b;
+    assert!(out.len() >= n);
+    let tol = _mm256_set1_pd(crate::linalg::PIVOT_REL_TOL);
+    let zero = _mm256_set1_pd(0.0);
+    let one = _mm256_set1_pd(1.0);
+    let neg0 = _mm256_set1_pd(-0.0);
+    let (add, mul) = (|x, y| _mm256_add_pd(x, y), |x, y| _mm256_mul_pd(x, y));
+    let mut at = 0;
+    while at + 4 <= n {
+        // SAFETY: at + 4 ≤ n, the length of every array read.
+        let get = |v: &[f64]| unsafe { _mm256_loadu_pd(v.as_ptr().add(at)) };
+        let (w, dt, pa, pd) = (get(&pre.w), get(&pre.dt), get(&pre.pa), get(&pre.pd));
+        let (dra, ddec) = (get(&pre.dra), get(&pre.ddec));
+        let mut a: [[__m256d; N]; N] =
+            std::array::from_fn(|r| std::array::from_fn(|c| _mm256_set1_pd(acc.n[r][c])));
+        let mut b: [__m256d; N] = std::array::from_fn(|r| _mm256_set1_pd(acc.b[r]));
         for (row, d) in [
-            ([1.0, 0.0, dt, 0.0, pas[i]], dras[i]),
-            ([0.0, 1.0, 0.0, dt, pds[i]], ddecs[i]),
+            ([one, zero, dt, zero, pa], dra),
+            ([zero, one, zero, dt, pd], ddec),
         ] {
             for r in 0..N {
-                b[r] += w * row[r] * d;
+                b[r] = add(b[r], mul(mul(w, row[r]), d));
                 for c in 0..N {
-                    a[r][c] += w * row[r] * row[c];
+                    a[r][c] = add(a[r][c], mul(mul(w, row[r]), row[c]));
+                }
+            }
+        }
+        // Finite: x − x is 0 (ordered) only for a finite x.
+        let mut ok = _mm256_castsi256_pd(_mm256_set1_epi64x(-1));
+        for r in 0..N {
+            for c in 0..N {
+                let x = a[r][c];
+                ok = _mm256_and_pd(ok, _mm256_cmp_pd::<_CMP_EQ_OQ>(_mm256_sub_pd(x, x), zero));
+            }
+        }
+        let mut lm = [[zero; N]; N];
+        for r in 0..N {
+            for c in 0..=r {
+                let mut s = neg0;
+                for k in 0..c {
+                    s = add(s, mul(lm[r][k], lm[c][k]));
+                }
+                if r == c {
+                    let d = _mm256_sub_pd(a[r][r], s);
+                    // Not refused: d > tol·|a_rr| and d > 0 (false for NaN).
+                    let lim = mul(tol, _mm256_andnot_pd(neg0, a[r][r]));
+                    ok = _mm256_and_pd(ok, _mm256_cmp_pd::<_CMP_GT_OQ>(d, lim));
+                    ok = _mm256_and_pd(ok, _mm256_cmp_pd::<_CMP_GT_OQ>(d, zero));
+                    lm[r][r] = _mm256_sqrt_pd(d);
+                } else {
+                    lm[r][c] = _mm256_div_pd(_mm256_sub_pd(a[r][c], s), lm[c][c]);
+                }
+            }
+        }
+        let mut li = [[zero; N]; N];
+        for r in 0..N {
+            li[r][r] = _mm256_div_pd(one, lm[r][r]);
+            for c in 0..r {
+                let mut s = neg0;
+                for k in c..r {
+                    s = add(s, mul(lm[r][k], li[k][c]));
+                }
+                li[r][c] = _mm256_div_pd(_mm256_xor_pd(s, neg0), lm[r][r]);
+            }
+        }
+        let mut bias = neg0;
+        let mut var = zero;
+        for c in 0..N {
+            let row = add(neg0, mul(li[N - 1][N - 1], li[N - 1][c]));
+            bias = add(bias, mul(row, b[c]));
+            if c == N - 1 {
+                var = row;
+            }
+        }
+        let j = add(var, mul(bias, bias));
+        let j = _mm256_blendv_pd(_mm256_set1_pd(f64::INFINITY), j, ok);
+        // SAFETY: at + 4 ≤ n ≤ out.len().
+        unsafe { _mm256_storeu_pd(out.as_mut_ptr().add(at), j) };
+        at += 4;
+    }
+    j_with_body(acc, pre, out, at);
+}
+
+/// Lanes of [`j_with_body`]: candidates evaluated side by side, each
+/// operation written once for all lanes so that it compiles to one vector
+/// instruction (the same IEEE operation on every lane).
+const LANES: usize = 4;
+type Lanes = [f64; LANES];
+
+#[inline(always)]
+fn lanes(f: impl Fn(usize) -> f64) -> Lanes {
+    std::array::from_fn(f)
+}
+
+/// [`j_with_all`]'s loop, into `out` of the candidates' length: the
+/// candidates [`LANES`] at a time (the last group filled up with copies of
+/// its last candidate, whose answers are dropped).
+#[allow(clippy::needless_range_loop)] // index form mirrors linalg's loops
+#[inline(always)]
+fn j_with_body(acc: &Acc, pre: &Pre, out: &mut [f64], from: usize) {
+    const N: usize = 5;
+    let n = pre.dt.len();
+    let tol = crate::linalg::PIVOT_REL_TOL;
+    let mut at = from;
+    while at < n {
+        let idx: [usize; LANES] = std::array::from_fn(|l| (at + l).min(n - 1));
+        let get = |v: &[f64]| lanes(|l| v[idx[l]]);
+        let (w, dt, pa, pd) = (get(&pre.w), get(&pre.dt), get(&pre.pa), get(&pre.pd));
+        let (dra, ddec) = (get(&pre.dra), get(&pre.ddec));
+        let one = [1.0; LANES];
+        let zero = [0.0; LANES];
+        // Acc::add (super::add_epoch), sign 1: b[r] += w·row[r]·d and
+        // n[r][c] += w·row[r]·row[c], the first row, then the second.
+        let mut a: [[Lanes; N]; N] =
+            std::array::from_fn(|r| std::array::from_fn(|c| [acc.n[r][c]; LANES]));
+        let mut b: [Lanes; N] = std::array::from_fn(|r| [acc.b[r]; LANES]);
+        for (row, d) in [
+            ([one, zero, dt, zero, pa], dra),
+            ([zero, one, zero, dt, pd], ddec),
+        ] {
+            for r in 0..N {
+                b[r] = lanes(|l| b[r][l] + w[l] * row[r][l] * d[l]);
+                for c in 0..N {
+                    a[r][c] = lanes(|l| a[r][c][l] + w[l] * row[r][l] * row[c][l]);
                 }
             }
         }
         // crate::linalg::cholesky_inverse: a value not finite or a pivot
         // refused makes the design's J infinite.
-        let mut ok = true;
+        let mut ok = [true; LANES];
         for r in 0..N {
             for c in 0..N {
-                ok &= a[r][c].is_finite();
+                for l in 0..LANES {
+                    ok[l] &= a[r][c][l].is_finite();
+                }
             }
         }
-        let mut l = [[0.0f64; N]; N];
+        let mut lm = [[zero; N]; N];
         for r in 0..N {
             for c in 0..=r {
-                let mut s = -0.0;
+                let mut s = [-0.0; LANES];
                 for k in 0..c {
-                    s += l[r][k] * l[c][k];
+                    s = lanes(|l| s[l] + lm[r][k][l] * lm[c][k][l]);
                 }
                 if r == c {
-                    let d = a[r][r] - s;
-                    ok &= !(d.is_nan() || d <= tol * a[r][r].abs() || d <= 0.0);
-                    l[r][r] = d.sqrt();
+                    let d = lanes(|l| a[r][r][l] - s[l]);
+                    for l in 0..LANES {
+                        ok[l] &= !(d[l].is_nan() || d[l] <= tol * a[r][r][l].abs() || d[l] <= 0.0);
+                    }
+                    lm[r][r] = lanes(|l| d[l].sqrt());
                 } else {
-                    l[r][c] = (a[r][c] - s) / l[c][c];
+                    lm[r][c] = lanes(|l| (a[r][c][l] - s[l]) / lm[c][c][l]);
                 }
             }
         }
-        let mut li = [[0.0f64; N]; N];
+        let mut li = [[zero; N]; N];
         for r in 0..N {
-            li[r][r] = 1.0 / l[r][r];
+            li[r][r] = lanes(|l| 1.0 / lm[r][r][l]);
             for c in 0..r {
-                let mut s = -0.0;
+                let mut s = [-0.0; LANES];
                 for k in c..r {
-                    s += l[r][k] * li[k][c];
+                    s = lanes(|l| s[l] + lm[r][k][l] * li[k][c][l]);
                 }
-                li[r][c] = -s / l[r][r];
+                li[r][c] = lanes(|l| -s[l] / lm[r][r][l]);
             }
         }
         // The last row of L⁻ᵀ L⁻¹ (one term each), the bias and J.
-        let mut bias = -0.0;
-        let mut var = 0.0;
+        let mut bias = [-0.0; LANES];
+        let mut var = zero;
         for c in 0..N {
-            let row = -0.0 + li[N - 1][N - 1] * li[N - 1][c];
-            bias += row * b[c];
+            let row = lanes(|l| -0.0 + li[N - 1][N - 1][l] * li[N - 1][c][l]);
+            bias = lanes(|l| bias[l] + row[l] * b[c][l]);
             if c == N - 1 {
                 var = row;
             }
         }
-        out[i] = if ok { var + bias * bias } else { f64::INFINITY };
+        let j = lanes(|l| var[l] + bias[l] * bias[l]);
+        for l in 0..LANES.min(n - at) {
+            out[at + l] = if ok[l] { j[l] } else { f64::INFINITY };
+        }
+        at += LANES;
     }
 }
 
@@ -1249,6 +1360,9 @@ mod tests {
         nan.pf_ra = f64::NAN;
         let mut neg = v[7].clone();
         neg.sigma_mas = -0.0;
+        // In a group of four (the AVX2 loop's second) and again at the end
+        // (the last, shorter group).
+        v.splice(5..5, [zero.clone(), nan.clone(), neg.clone()]);
         v.extend([zero, nan, neg]);
         v
     }
@@ -1278,7 +1392,7 @@ mod tests {
                     st.chosen.len()
                 );
             }
-            j_with_body(&st.acc, &pre, &mut js);
+            j_with_body(&st.acc, &pre, &mut js, 0);
             for (i, j) in js.iter().enumerate() {
                 assert_eq!(
                     j.to_bits(),
