@@ -725,7 +725,7 @@ fn fewest_hours(slots: &[Slot], level: usize, fewest: usize) -> f64 {
         .iter()
         .map(|sl| sl.at[level].3 / 3600.0)
         .fold(f64::INFINITY, f64::min);
-    if !(h >= 0.0) {
+    if h.is_nan() || h < 0.0 {
         // A negative (or no) visit length: no bound.
         return f64::NEG_INFINITY;
     }
