@@ -218,13 +218,7 @@ fn a_three_year_plan_gives_the_parallax_errors_of_a_ccd_programme() {
     for v_mag in [15.5, 17.0, 19.0] {
         let mut t = star("TEST-USNO", 61.3, -18.4, 20.0, v_mag - 2.5);
         t.color_vi_mag = Some(2.5);
-        let s = Setting {
-            site: &site,
-            target: &t,
-            from: d("2026-12-01"),
-            to: d("2029-11-30"),
-            limits: Limits::new(30.0, -12.0).unwrap(),
-        };
+        let s = plan_support::setting(&site, &t, "2026-12-01", "2029-11-30");
         let plan = m.plan(&s, &em).unwrap();
         let sol = plan.solution.clone().unwrap();
         assert!(

@@ -11,7 +11,6 @@
 //!    (each done visit gives the wanted epoch nearest it in time).
 
 use chrono::NaiveDate;
-use rung::astro::night::Limits;
 use rung::astro::time::{Instant, parse_instant};
 use rung::io::sites::resolve;
 use rung::io::targets::{Kind, Target};
@@ -51,13 +50,7 @@ fn demo_pulsator() -> Target {
 fn a_done_visit_gives_the_pulsator_epoch_of_its_phase_bin() {
     let site = resolve("pampa-lucero").unwrap();
     let t = demo_pulsator();
-    let s = Setting {
-        site: &site,
-        target: &t,
-        from: day("2026-12-01"),
-        to: day("2027-01-31"),
-        limits: Limits::new(30.0, -12.0).unwrap(),
-    };
+    let s = plan_support::setting(&site, &t, "2026-12-01", "2027-01-31");
     let m = PulsatorMethod::default();
     let star = Star::from_target(&t).unwrap();
     let p = star.ephemeris.period_d;

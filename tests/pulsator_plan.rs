@@ -2,15 +2,15 @@
 //! pulsator method at the invented demo site, with a small test exposure model.
 
 mod plan_support;
+use plan_support::day;
 
-use chrono::NaiveDate;
 use rung::Result;
 use rung::astro::frames::{CatalogPlace, Context};
 use rung::astro::night::Limits;
 use rung::io::sites;
 use rung::io::targets::{Kind, Target};
 use rung::ladder::pulsator::{PulsatorMethod, Star, phase_windows, plan_coverage};
-use rung::ladder::{ExposureModel, Method, Setting, Verdict};
+use rung::ladder::{ExposureModel, Method, Verdict};
 
 /// Test exposure model: photon-noise-limited photometry, SNR = √(R t) with the
 /// count rate R = 10^(−0.4 (m − 25)) e⁻/s (1 e⁻/s at m = 25, no sky, no read
@@ -56,17 +56,13 @@ fn star(period_d: f64) -> Target {
     t
 }
 
-fn d(s: &str) -> NaiveDate {
-    NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap()
-}
-
 #[test]
 fn windows_phases_and_a_full_cover() {
     let site = sites::resolve("pampa-lucero").unwrap();
     let t = star(2.31);
     let st = Star::from_target(&t).unwrap();
     let limits = Limits::new(30.0, -12.0).unwrap();
-    let (ws, _) = phase_windows(&site, &st, d("2026-12-01"), d("2026-12-14"), &limits).unwrap();
+    let (ws, _) = phase_windows(&site, &st, day("2026-12-01"), day("2026-12-14"), &limits).unwrap();
     assert!(ws.len() >= 10, "{} windows", ws.len());
     for w in &ws {
         // Phase span of a window = its length / P (BJD runs at the UTC rate to 1e-4).
@@ -113,13 +109,7 @@ fn a_one_day_period_never_covers_from_one_site() {
     // cover ten bins and the report says why.
     let site = sites::resolve("pampa-lucero").unwrap();
     let t = star(1.0);
-    let s = Setting {
-        site: &site,
-        target: &t,
-        from: d("2026-12-01"),
-        to: d("2026-12-14"),
-        limits: Limits::new(30.0, -12.0).unwrap(),
-    };
+    let s = plan_support::setting(&site, &t, "2026-12-01", "2026-12-14");
     let m = PulsatorMethod::default();
     let r = m.analyse(&s, Some(&PhotonLimited)).unwrap();
     assert!(r.plan.bins_covered < 10, "{} bins", r.plan.bins_covered);
@@ -140,13 +130,7 @@ fn a_one_day_period_never_covers_from_one_site() {
 fn method_face_propose_predict_goal() {
     let site = sites::resolve("pampa-lucero").unwrap();
     let t = star(10.0);
-    let s = Setting {
-        site: &site,
-        target: &t,
-        from: d("2026-12-01"),
-        to: d("2026-12-20"),
-        limits: Limits::new(30.0, -12.0).unwrap(),
-    };
+    let s = plan_support::setting(&site, &t, "2026-12-01", "2026-12-20");
     let m = PulsatorMethod::default();
     assert_eq!(m.kind(), Kind::Pulsator);
     let em = PhotonLimited;
@@ -202,13 +186,7 @@ fn a_stale_ephemeris_is_flagged() {
     let site = sites::resolve("pampa-lucero").unwrap();
     let mut t = star(2.31);
     t.period_err_d = Some(0.002);
-    let s = Setting {
-        site: &site,
-        target: &t,
-        from: d("2026-12-01"),
-        to: d("2026-12-03"),
-        limits: Limits::new(30.0, -12.0).unwrap(),
-    };
+    let s = plan_support::setting(&site, &t, "2026-12-01", "2026-12-03");
     let r = PulsatorMethod::default().analyse(&s, None).unwrap();
     assert!(r.stale);
     assert!(
@@ -229,13 +207,7 @@ fn a_stale_ephemeris_is_flagged() {
 fn each_extra_epoch_is_predicted_as_predict_predicts_it() {
     let site = sites::resolve("pampa-lucero").unwrap();
     let t = star(10.0);
-    let s = Setting {
-        site: &site,
-        target: &t,
-        from: d("2026-12-01"),
-        to: d("2026-12-20"),
-        limits: Limits::new(30.0, -12.0).unwrap(),
-    };
+    let s = plan_support::setting(&site, &t, "2026-12-01", "2026-12-20");
     let m = PulsatorMethod::default();
     let em = PhotonLimited;
     let epochs = m.propose(&s, &em).unwrap();

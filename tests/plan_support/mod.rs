@@ -1,5 +1,5 @@
 //! What the scheduler's tests share (plan_schedule, plan_replan,
-//! plan_covered): the test photometry, dates, and one call of the scheduler
+//! plan_covered): the test photometry, dates, a method's setting, and one call of the scheduler
 //! at the demo site with the test's methods; and the check of the fill's
 //! `predict_each_extra` against `predict` (parallax_plan, pulsator_plan).
 //!
@@ -10,10 +10,11 @@
 use chrono::NaiveDate;
 use rung::astro::frames::{CatalogPlace, Context};
 use rung::astro::night::Limits;
+use rung::astro::site::Site;
 use rung::astro::time::Instant;
 use rung::io::sites::resolve;
 use rung::io::targets::Target;
-use rung::ladder::{ExposureModel, MethodSet};
+use rung::ladder::{ExposureModel, MethodSet, Setting};
 use rung::plan::schedule::{Request, Schedule, Visit, schedule};
 use std::collections::BTreeSet;
 
@@ -47,6 +48,18 @@ impl ExposureModel for FixedPhot {
 /// A date from `YYYY-MM-DD`.
 pub fn day(s: &str) -> NaiveDate {
     NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap()
+}
+
+/// A method's setting for `target` at `site` over the nights `from`..=`to`,
+/// above 30° with the Sun below −12° (the limits of [`Job`]).
+pub fn setting<'a>(site: &'a Site, target: &'a Target, from: &str, to: &str) -> Setting<'a> {
+    Setting {
+        site,
+        target,
+        from: day(from),
+        to: day(to),
+        limits: Limits::new(30.0, -12.0).unwrap(),
+    }
 }
 
 /// One scheduling job: the nights `from`..=`to` (the methods plan to `to`
