@@ -58,11 +58,15 @@ impl Tmux {
     pub fn send(&self, key: &str) {
         self.cmd(&["send-keys", "-t", "rung", key]);
     }
+    /// Waits until `needle` is on screen, also when it wraps from one row to
+    /// the next: a process killed without restoring the terminal leaves the
+    /// cursor wherever its last draw put it, so the shell's next line (for
+    /// example `RUNG-EXIT-137`) can start near the right edge and wrap.
     pub fn wait_for(&self, needle: &str) -> String {
         let t0 = Instant::now();
         loop {
             let s = self.screen();
-            if s.contains(needle) {
+            if s.contains(needle) || s.replace('\n', "").contains(needle) {
                 return s;
             }
             assert!(
