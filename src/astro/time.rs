@@ -120,8 +120,18 @@ fn is_day_start(day_jd: f64) -> bool {
 /// The day's TAI − UTC and the length of its UTC day in SI seconds over
 /// 86 400 (86 401/86 400 on a day that ends with a leap second).
 fn day_scale(day_jd: f64) -> Option<(f64, f64)> {
-    let d0 = tai_minus_utc_at_day(day_jd)?;
-    let d1 = tai_minus_utc_at_day(day_jd + 1.0)?;
+    // One search: the table's entries are months apart, so at most the next
+    // one starts by the next day ([`tai_minus_utc_at_day`] of both days).
+    if day_jd < LEAP_ERA_JD {
+        return None;
+    }
+    let t = leap_seconds();
+    let i = t.partition_point(|(d, _)| *d <= day_jd);
+    let d0 = t[i.checked_sub(1)?].1;
+    let d1 = match t.get(i) {
+        Some((d, v)) if *d <= day_jd + 1.0 => *v,
+        _ => d0,
+    };
     Some((d0, (DAY_S + (d1 - d0)) / DAY_S))
 }
 
@@ -479,6 +489,38 @@ pub fn parse_date(text: &str) -> Result<NaiveDate> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn day_scale_is_both_days_looked_up() {
+        // One search in the table gives what two lookups give (TAI − UTC at
+        // the day and the next), every day from 1960 to 2100, leap days
+        // (2016-12-31: 86 401 s, IERS Bulletin C 52) included.
+        let mut day = VALID_FROM_JD;
+        let mut leap_days = 0;
+        while day < VALID_TO_JD {
+            let two = tai_minus_utc_at_day(day).and_then(|d0| {
+                let d1 = tai_minus_utc_at_day(day + 1.0)?;
+                Some((d0, (DAY_S + (d1 - d0)) / DAY_S))
+            });
+            let one = day_scale(day);
+            assert_eq!(
+                one.map(|(a, b)| (a.to_bits(), b.to_bits())),
+                two.map(|(a, b)| (a.to_bits(), b.to_bits())),
+                "day {day}"
+            );
+            if one.is_some_and(|(_, k)| k != 1.0) {
+                leap_days += 1;
+            }
+            day += 1.0;
+        }
+        assert!(leap_days >= 27, "{leap_days} days with a leap second");
+        let end_2016 = Instant::from_utc_calendar(2016, 12, 31, 0, 0, 0.0).unwrap();
+        assert_eq!(
+            day_scale(end_2016.utc1).map(|x| x.1),
+            Some(86_401.0 / 86_400.0)
+        );
+        assert_eq!(day_scale(f64::NAN), None);
+    }
 
     #[test]
     fn leap_second_day_counts_86401_seconds() {
