@@ -51,6 +51,14 @@ pub const MASK_STEP_S: f64 = 240.0;
 /// Tolerance of every refined event, seconds.
 pub const REFINE_TOL_S: f64 = 0.001;
 
+/// How far (radians, 2°) the closed-form geometric altitude must stand from
+/// a threshold, or from another instant's, for its side to be taken without
+/// an exact evaluation: the closed form is good to a few arcseconds, and
+/// refraction (SOFA `atioq`, never negative) stays under 1° even at and
+/// below the horizon, so the exact observed or geometric altitude is on the
+/// same side.
+const SURE_RAD: f64 = 2.0 * std::f64::consts::PI / 180.0;
+
 /// Geometric altitude range of the refraction table, degrees, and its step.
 const REFR_G0_DEG: f64 = -3.0;
 const REFR_STEP_DEG: f64 = 0.05;
@@ -241,6 +249,7 @@ impl SkyFrame {
         &self.refraction
     }
 
+
     /// Local Earth rotation angle (ERA + longitude, SOFA `eral`) at offset `s`.
     fn eral(&self, s: f64) -> f64 {
         if self.leap {
@@ -385,6 +394,20 @@ impl<'a> Track<'a> {
         self.a + self.b * self.ha_linear(s).cos()
     }
 
+    /// Whether the geometric altitude at offset `s` is above `g_rad`, when
+    /// the closed form stands more than [`SURE_RAD`] from it (far beyond the
+    /// closed form's error and any refraction); `None` nearer.
+    fn clearly_above(&self, s: f64, g_rad: f64) -> Option<bool> {
+        let h = self.sin_alt_linear(s).clamp(-1.0, 1.0).asin();
+        if h > g_rad + SURE_RAD {
+            Some(true)
+        } else if h < g_rad - SURE_RAD {
+            Some(false)
+        } else {
+            None
+        }
+    }
+
     /// Closed-form geometric altitude at the upper transit, radians.
     pub fn transit_alt_geom_rad(&self) -> f64 {
         (self.a + self.b).clamp(-1.0, 1.0).asin()
@@ -490,7 +513,13 @@ impl<'a> Track<'a> {
             .collect();
         crossings.sort_by(|x, y| x.0.total_cmp(&y.0));
         let mut out = Vec::new();
-        let mut open = (f(lo) >= 0.0).then_some(lo);
+        // Above at the start: the closed form says so when it stands far
+        // from the threshold ([`SURE_RAD`]), the exact quantity otherwise.
+        let start_above = match self.clearly_above(lo, g_rad) {
+            Some(up) => up,
+            None => f(lo) >= 0.0,
+        };
+        let mut open = start_above.then_some(lo);
         for (s, rising) in crossings {
             if rising {
                 if open.is_none() {
@@ -638,15 +667,30 @@ impl<'a> Track<'a> {
     /// [`Track::highest_in`] with the night's upper transits already found
     /// (`transits(0, span)`: those inside each dark interval are the ones
     /// `transits` finds there, each polished from the same closed-form guess).
+    ///
+    /// A candidate whose closed-form altitude is [`SURE_RAD`] below the
+    /// highest candidate's is lower on the exact place too, so it is not
+    /// evaluated: the highest (the first of equals) is the same one.
     fn highest_among(&self, dark: &[(f64, f64)], transits: &[f64]) -> Option<(f64, f64)> {
+        let candidates = || {
+            dark.iter().flat_map(|&(d0, d1)| {
+                let inside = transits
+                    .iter()
+                    .copied()
+                    .filter(move |s| *s >= d0 && *s < d1);
+                std::iter::once(d0).chain(inside).chain(std::iter::once(d1))
+            })
+        };
+        let linear = |s: f64| self.sin_alt_linear(s).clamp(-1.0, 1.0).asin();
+        let top = candidates().map(linear).fold(f64::NEG_INFINITY, f64::max);
         let mut best: Option<(f64, f64)> = None;
-        for &(d0, d1) in dark {
-            let inside = transits.iter().copied().filter(|s| *s >= d0 && *s < d1);
-            for s in std::iter::once(d0).chain(inside).chain(std::iter::once(d1)) {
-                let alt = self.alt_az_rad(s).0;
-                if best.is_none_or(|b| alt > b.0) {
-                    best = Some((alt, s));
-                }
+        for s in candidates() {
+            if linear(s) < top - SURE_RAD {
+                continue;
+            }
+            let alt = self.alt_az_rad(s).0;
+            if best.is_none_or(|b| alt > b.0) {
+                best = Some((alt, s));
             }
         }
         best
@@ -850,4 +894,102 @@ pub fn push_merged(out: &mut Vec<(f64, f64)>, iv: (f64, f64)) {
         return;
     }
     out.push(iv);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::astro::night::Night;
+    use chrono::NaiveDate;
+
+    /// Places from pole to pole (near-circumpolar, barely rising, never
+    /// rising at both sites), at many right ascensions.
+    fn places() -> Vec<CatalogPlace> {
+        (0..90)
+            .map(|i| CatalogPlace::fixed_deg(i as f64 * 37.3 % 360.0, -89.5 + i as f64 * 2.0))
+            .collect()
+    }
+
+    #[test]
+    fn closed_form_sides_agree_with_the_exact_place() {
+        // Where the closed form is trusted for a side of a threshold
+        // (`clearly_above`), the exact geometric and observed altitudes
+        // (SOFA `atioq`) are on that side too: every hour of two nights at
+        // two sites, thresholds from below the horizon to near the zenith.
+        let sites = crate::io::sites::catalogue().unwrap();
+        let mut trusted = 0;
+        for site in sites.iter().take(2) {
+            for day in ["2026-06-21", "2026-12-01"] {
+                let night = Night::new(site, day.parse::<NaiveDate>().unwrap()).unwrap();
+                let frame = &night.sky;
+                for place in places() {
+                    let track = frame.track(&place);
+                    for lim_deg in [-1.0, STAR_RISE_SET_DEG, 0.0, 15.0, 30.0, 60.0, 89.0] {
+                        let lim = f64::to_radians(lim_deg);
+                        let g_lim = frame.refraction().geometric(lim);
+                        let mut s = 0.0;
+                        while s <= frame.span_s() {
+                            if let Some(up) = track.clearly_above(s, lim) {
+                                assert_eq!(up, track.alt_geom_rad(s) >= lim, "{place:?} {s}");
+                                trusted += 1;
+                            }
+                            if let Some(up) = track.clearly_above(s, g_lim) {
+                                assert_eq!(up, track.alt_az_rad(s).0 >= lim, "{place:?} {s}");
+                            }
+                            s += 3600.0;
+                        }
+                    }
+                }
+            }
+        }
+        assert!(trusted > 10_000, "{trusted}");
+    }
+
+    #[test]
+    fn highest_skips_only_lower_candidates() {
+        // The highest altitude in the dark is the same bits as evaluating
+        // every candidate (the dark ends and the transits inside), whichever
+        // candidates the closed form lets it skip.
+        let sites = crate::io::sites::catalogue().unwrap();
+        let (mut cases, mut multi) = (0usize, 0usize);
+        for site in sites.iter().take(2) {
+            for day in ["2026-06-21", "2026-12-01"] {
+                let night = Night::new(site, day.parse::<NaiveDate>().unwrap()).unwrap();
+                let frame = &night.sky;
+                for sun in [-0.8, -12.0, -18.0] {
+                    let dark: Vec<(f64, f64)> = night
+                        .dark_intervals(sun)
+                        .iter()
+                        .map(|(a, b)| (frame.offset(*a), frame.offset(*b)))
+                        .collect();
+                    for place in places() {
+                        let track = frame.track(&place);
+                        let transits = track.transits(0.0, frame.span_s());
+                        let mut want: Option<(f64, f64)> = None;
+                        let mut n = 0;
+                        for &(d0, d1) in &dark {
+                            let inside = transits.iter().copied().filter(|s| *s >= d0 && *s < d1);
+                            for s in std::iter::once(d0).chain(inside).chain(std::iter::once(d1)) {
+                                let alt = track.alt_az_rad(s).0;
+                                n += 1;
+                                if want.is_none_or(|b| alt > b.0) {
+                                    want = Some((alt, s));
+                                }
+                            }
+                        }
+                        let got = track.highest_among(&dark, &transits);
+                        assert_eq!(
+                            got.map(|(a, s)| (a.to_bits(), s.to_bits())),
+                            want.map(|(a, s)| (a.to_bits(), s.to_bits())),
+                            "{} {day} {sun} {place:?}",
+                            site.name
+                        );
+                        cases += 1;
+                        multi += usize::from(n > 1);
+                    }
+                }
+            }
+        }
+        assert!(cases == 2 * 2 * 3 * 90 && multi > 500, "{cases} {multi}");
+    }
 }
