@@ -176,11 +176,23 @@ pub const SHOWN_NOTES: usize = 50;
 /// rows load). A large file shows a progress bar on stderr, only when stderr
 /// is a terminal (never in pipes, logs or `--json` captures).
 pub fn load_targets(path: &Path) -> Result<Vec<rung::io::targets::Target>> {
+    load_targets_then(path, &mut |_| {})
+}
+
+/// [`load_targets`], showing each good target to `on_each` as it is read
+/// (in file order, before the whole file is), so work on it can start.
+pub fn load_targets_then(
+    path: &Path,
+    on_each: &mut dyn FnMut(&rung::io::targets::Target),
+) -> Result<Vec<rung::io::targets::Target>> {
     // Room for about as many targets as the file has lines, so the list is
     // not copied as it grows (room not written to costs no memory).
     let size = std::fs::metadata(path).map(|m| m.len()).unwrap_or(0);
     let mut targets = Vec::with_capacity((size / 64).min(1 << 17) as usize);
-    stream_targets(path, &mut |t| targets.push(t))?;
+    stream_targets(path, &mut |t| {
+        on_each(&t);
+        targets.push(t)
+    })?;
     // Links name other rows: checked once every row is read (warnings; the
     // distance ladder refuses what it cannot close).
     let mut notes = Notes::default();

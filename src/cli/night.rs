@@ -2,7 +2,7 @@
 
 use anyhow::{Context as _, Result};
 use chrono::NaiveDate;
-use rayon::prelude::*;
+use rung::astro::frames::CatalogPlace;
 use rung::astro::night::{Event, Night};
 use rung::astro::night::{Limits, NightEvents};
 use rung::astro::site::Site;
@@ -10,10 +10,11 @@ use rung::astro::time::Instant;
 use rung::astro::time::parse_date;
 use rung::io::targets::Target;
 use rung::output::{JsonNest, push_json_instant, push_json_num, push_json_str};
-use rung::plan::night_table::NightRow;
+use rung::plan::night_table::{NightRow, Rows};
 use rung::sky::BandSet;
 use std::io::Write;
 use std::path::PathBuf;
+use std::sync::OnceLock;
 
 /// Arguments of `rung night`.
 #[derive(clap::Args)]
@@ -114,22 +115,16 @@ fn write_json(
             seeded.keep_all(out);
         }
         out.clear();
-        let parts: Vec<Vec<u8>> = rows
-            .par_chunks(CHUNK)
-            .enumerate()
-            .map(|(c, chunk)| {
-                let mut b = Vec::with_capacity(1200 * chunk.len());
-                let mut stamps = seeded.clone();
-                for (k, (t, row)) in chunk.iter().enumerate() {
-                    JsonNest::item_apart(&mut b, list_level, c * CHUNK + k);
-                    write_target(&mut b, level, t, row, bands, &mut stamps);
-                }
-                b
-            })
-            .collect();
-        for p in &parts {
-            so.write_all(p)?;
-        }
+        write_in_order(so, rows.len().div_ceil(CHUNK), &|c| {
+            let chunk = &rows[c * CHUNK..rows.len().min((c + 1) * CHUNK)];
+            let mut b = Vec::with_capacity(1200 * chunk.len());
+            let mut stamps = seeded.clone();
+            for (k, (t, row)) in chunk.iter().enumerate() {
+                JsonNest::item_apart(&mut b, list_level, c * CHUNK + k);
+                write_target(&mut b, level, t, row, bands, &mut stamps);
+            }
+            b
+        })?;
         list.add_items(rows.len());
         list.close(out);
     }
@@ -138,6 +133,39 @@ fn write_json(
     o.close(out);
     out.push(b'\n');
     so.write_all(out)
+}
+
+/// The bytes `make(c)` of the chunks `c` in `0..n`, made on all cores and
+/// written to `so` in order, each as soon as the ones before it are (the
+/// writing overlaps the making, and a written chunk's memory is free again).
+fn write_in_order(
+    so: &mut dyn Write,
+    n: usize,
+    make: &(dyn Fn(usize) -> Vec<u8> + Sync),
+) -> std::io::Result<()> {
+    let (tx, rx) = std::sync::mpsc::channel::<(usize, Vec<u8>)>();
+    rayon::in_place_scope(|s| {
+        for c in 0..n {
+            let tx = tx.clone();
+            s.spawn(move |_| {
+                let _ = tx.send((c, make(c)));
+            });
+        }
+        drop(tx);
+        let mut early = std::collections::BTreeMap::new();
+        let mut next = 0;
+        let mut res = Ok(());
+        for (c, b) in rx {
+            early.insert(c, b);
+            while let Some(b) = early.remove(&next) {
+                if res.is_ok() {
+                    res = so.write_all(&b);
+                }
+                next += 1;
+            }
+        }
+        res
+    })
 }
 
 /// Instants already written as JSON text, copied instead of converted again:
@@ -281,25 +309,78 @@ pub fn run(a: Args) -> Result<()> {
         None => rung::programme::tonight(&site, super::now()?)?,
     };
     // The night is built on a thread of its own while the targets are read
-    // (errors reported in the same order as one after the other).
+    // (errors reported in the same order as one after the other). Once it
+    // stands, the rows of the targets read so far are made on the pool in
+    // chunks while the rest of the file is read.
+    const ROWS_CHUNK: usize = 64;
+    let night_cell: OnceLock<Night> = OnceLock::new();
+    let shared: OnceLock<Rows> = OnceLock::new();
+    let (tx, rx) = std::sync::mpsc::channel::<(usize, Vec<NightRow>)>();
     let (targets, night) = std::thread::scope(|s| {
-        let night = s.spawn(|| Night::new(&site, date));
-        let targets = match &a.targets {
-            Some(p) => super::load_targets(p),
-            None => Ok(Vec::new()),
-        };
-        let night = night
-            .join()
-            .unwrap_or_else(|p| std::panic::resume_unwind(p));
-        (targets, night)
+        let night = s.spawn(|| {
+            let n = Night::new(&site, date)?;
+            let n = night_cell.get_or_init(|| n);
+            let _ = shared.set(Rows::new(n, &limits));
+            rung::error::Result::Ok(())
+        });
+        rayon::in_place_scope(|rs| {
+            let mut chunks = 0usize;
+            let mut spawn = |places: Vec<CatalogPlace>| {
+                let (tx, k, shared) = (tx.clone(), chunks, &shared);
+                chunks += 1;
+                rs.spawn(move |_| {
+                    if let Some(sh) = shared.get() {
+                        let _ = tx.send((k, places.iter().map(|p| sh.row(p)).collect()));
+                    }
+                });
+            };
+            let mut waiting: Vec<Vec<CatalogPlace>> = Vec::new();
+            let mut filling: Vec<CatalogPlace> = Vec::with_capacity(ROWS_CHUNK);
+            let targets = match &a.targets {
+                Some(p) => super::load_targets_then(p, &mut |t| {
+                    filling.push(t.place());
+                    if filling.len() == ROWS_CHUNK {
+                        waiting.push(std::mem::replace(
+                            &mut filling,
+                            Vec::with_capacity(ROWS_CHUNK),
+                        ));
+                    }
+                    if shared.get().is_some() {
+                        for w in waiting.drain(..) {
+                            spawn(w);
+                        }
+                    }
+                }),
+                None => Ok(Vec::new()),
+            };
+            let night = night
+                .join()
+                .unwrap_or_else(|p| std::panic::resume_unwind(p));
+            if targets.is_ok() && shared.get().is_some() {
+                waiting.push(filling);
+                for w in waiting {
+                    spawn(w);
+                }
+            }
+            (targets, night)
+        })
     });
+    drop(tx);
     let targets = targets?;
-    let night = night?;
+    night?;
+    let night = night_cell.get().context("the night was not built")?;
     let e = night.events();
-    // One row per target from the night's table (the same rows the UI shows).
-    let places: Vec<_> = targets.par_iter().map(|t| t.place()).collect();
-    let table = rung::plan::night_table::rows(&night, &places, &limits);
-    let rows: Vec<_> = targets.iter().zip(&table).collect();
+    // One row per target, in file order (the same rows the UI shows).
+    let mut parts: Vec<(usize, Vec<NightRow>)> = rx.into_iter().collect();
+    parts.sort_unstable_by_key(|p| p.0);
+    let table: Vec<&NightRow> = parts.iter().flat_map(|p| &p.1).collect();
+    anyhow::ensure!(
+        table.len() == targets.len(),
+        "{} rows for {} targets",
+        table.len(),
+        targets.len()
+    );
+    let rows: Vec<_> = targets.iter().zip(table.iter().copied()).collect();
     // The programme's bands (built-in merged with the user's), as the photometry uses.
     let bands = &st.photometer.bands;
     if a.json {
@@ -321,8 +402,9 @@ pub fn run(a: Args) -> Result<()> {
         )?;
         so.flush()?;
         drop(rows);
+        drop(table);
         // The process ends here: its memory goes back whole, not target by target.
-        std::mem::forget((table, targets, places));
+        std::mem::forget((parts, targets));
         return Ok(());
     }
     // One buffered writer for the whole table (not a write per line).
@@ -410,18 +492,20 @@ pub fn run(a: Args) -> Result<()> {
         )?;
         // The rows' lines (and then the Sun cautions') made on all cores in
         // chunks, written in order.
-        let chunks = |f: &(dyn Fn(&mut Vec<u8>, &Target, &NightRow) + Sync)| -> Vec<Vec<u8>> {
-            rows.par_chunks(256)
-                .map(|chunk| {
-                    let mut b = Vec::with_capacity(128 * chunk.len());
-                    for (t, row) in chunk {
-                        f(&mut b, t, row);
-                    }
-                    b
-                })
-                .collect()
+        const CHUNK: usize = 256;
+        let chunks = |w: &mut dyn Write,
+                      f: &(dyn Fn(&mut Vec<u8>, &Target, &NightRow) + Sync)|
+         -> std::io::Result<()> {
+            write_in_order(w, rows.len().div_ceil(CHUNK), &|c| {
+                let chunk = &rows[c * CHUNK..rows.len().min((c + 1) * CHUNK)];
+                let mut b = Vec::with_capacity(128 * chunk.len());
+                for (t, row) in chunk {
+                    f(&mut b, t, row);
+                }
+                b
+            })
         };
-        let table_rows = chunks(&|b, t, row| {
+        chunks(&mut w, &|b, t, row| {
             let tn = &row.night;
             let win = tn
                 .main_window()
@@ -450,11 +534,8 @@ pub fn run(a: Args) -> Result<()> {
                     .map(|m| format!("{m:.0}°"))
                     .unwrap_or_else(|| "-".into()),
             );
-        });
-        for p in &table_rows {
-            w.write_all(p)?;
-        }
-        let cautions = chunks(&|b, t, row| {
+        })?;
+        chunks(&mut w, &|b, t, row| {
             if let Some((at, m)) = &row.sun_caution {
                 let _ = super::outln!(
                     b,
@@ -463,15 +544,13 @@ pub fn run(a: Args) -> Result<()> {
                     super::local_hm(Some(*at), &site)
                 );
             }
-        });
-        for p in &cautions {
-            w.write_all(p)?;
-        }
+        })?;
     }
     w.flush()?;
     drop(w);
     drop(rows);
+    drop(table);
     // The process ends here: its memory goes back whole, not target by target.
-    std::mem::forget((table, targets, places));
+    std::mem::forget((parts, targets));
     Ok(())
 }

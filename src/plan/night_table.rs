@@ -81,19 +81,52 @@ fn row_in(
     }
 }
 
+/// What every row of a night shares, found once: the night's Sun-up
+/// instants and the sky at the ends of its dark intervals (where most
+/// targets are highest in the dark). [`Rows::row`] then makes one target's
+/// row, the same bits as [`rows`] gives it, on any thread, while other
+/// targets are still being read.
+pub struct Rows<'a> {
+    night: &'a Night,
+    limits: Limits,
+    sun_up: SunUpGrid,
+    dark_ends: Vec<SkyAt>,
+}
+
+impl<'a> Rows<'a> {
+    /// The shared part of `night`'s rows under `limits`.
+    pub fn new(night: &'a Night, limits: &Limits) -> Self {
+        let sun_up = SunUpGrid::new(night);
+        let dark_ends: Vec<SkyAt> = night
+            .dark_intervals(limits.sun_alt_deg)
+            .iter()
+            .flat_map(|d| [d.0, d.1])
+            .map(|t| SkyAt::new(&night.context(t)))
+            .collect();
+        Rows {
+            night,
+            limits: *limits,
+            sun_up,
+            dark_ends,
+        }
+    }
+
+    /// The row of `place`.
+    pub fn row(&self, place: &CatalogPlace) -> NightRow {
+        row_in(
+            self.night,
+            &self.sun_up,
+            &self.dark_ends,
+            place,
+            &self.limits,
+        )
+    }
+}
+
 /// The rows of every place, in order, computed on all cores.
 pub fn rows(night: &Night, places: &[CatalogPlace], limits: &Limits) -> Vec<NightRow> {
-    let sun_up = SunUpGrid::new(night);
-    let dark_ends: Vec<SkyAt> = night
-        .dark_intervals(limits.sun_alt_deg)
-        .iter()
-        .flat_map(|d| [d.0, d.1])
-        .map(|t| SkyAt::new(&night.context(t)))
-        .collect();
-    places
-        .par_iter()
-        .map(|p| row_in(night, &sun_up, &dark_ends, p, limits))
-        .collect()
+    let shared = Rows::new(night, limits);
+    places.par_iter().map(|p| shared.row(p)).collect()
 }
 
 /// Observed altitude (degrees) of `place` at each instant of the night's
