@@ -117,8 +117,16 @@ impl Record {
     }
     /// Field `i`'s value, unquoted and trimmed; `Err` when it is not UTF-8.
     pub fn value(&self, i: usize) -> Result<&str, std::str::Utf8Error> {
-        let v = std::str::from_utf8(&self.values[self.fields[i].0.clone()])?;
-        Ok(v.trim_matches([' ', '\t']))
+        // Blanks (ASCII) trimmed from the bytes first: the same text, and
+        // text that is not UTF-8 stays so (no blank completes a sequence).
+        let mut b = &self.values[self.fields[i].0.clone()];
+        while let [b' ' | b'\t', rest @ ..] = b {
+            b = rest;
+        }
+        while let [rest @ .., b' ' | b'\t'] = b {
+            b = rest;
+        }
+        std::str::from_utf8(b)
     }
     /// Field `i`'s raw range within the record (relative to `span.start`).
     pub fn raw_range(&self, i: usize) -> Range<usize> {

@@ -500,7 +500,8 @@ fn first_use(
     line: usize,
     seen: &mut Seen,
 ) -> std::result::Result<Target, RungError> {
-    if seen.contains(t.name.as_str()) {
+    // One look in the set: a name already there is left as it was.
+    if !seen.insert(t.name.as_str().into()) {
         return Err(in_file(
             file,
             line,
@@ -508,7 +509,6 @@ fn first_use(
             format!("'{}' is already used by an earlier row", cut(&t.name)),
         ));
     }
-    seen.insert(t.name.as_str().into());
     Ok(t)
 }
 
@@ -533,28 +533,40 @@ fn row(
             ),
         ));
     }
-    if let Some(i) = rec.first_not_utf8() {
-        return Err(in_file(
-            file,
-            line,
-            "",
-            format!(
-                "field {} is not UTF-8 text (save the file as UTF-8); row skipped",
-                i + 1
-            ),
-        ));
-    }
+    // One pass over the fields: a field that is not UTF-8 is reported
+    // before any other problem of the row (the first such field), else the
+    // first field too long or in a misspelt column.
     let mut slots: Slots = [None; COLUMNS.len()];
+    let mut first_bad: Option<RungError> = None;
     for j in 0..rec.len() {
-        let v = rec.value(j).unwrap_or("");
-        check_len(&h.names[j], v).map_err(|(f, m)| in_file(file, line, &f, m))?;
+        let Ok(v) = rec.value(j) else {
+            return Err(in_file(
+                file,
+                line,
+                "",
+                format!(
+                    "field {} is not UTF-8 text (save the file as UTF-8); row skipped",
+                    j + 1
+                ),
+            ));
+        };
+        if first_bad.is_some() {
+            continue;
+        }
+        if let Err((f, m)) = check_len(&h.names[j], v) {
+            first_bad = Some(in_file(file, line, &f, m));
+            continue;
+        }
         match (h.slot[j], h.meant[j]) {
             (Some(i), _) => slots[i] = Some(v),
             (None, Some(m)) if !v.is_empty() => {
-                return Err(in_file(file, line, &h.names[j], misspelt(m)));
+                first_bad = Some(in_file(file, line, &h.names[j], misspelt(m)));
             }
             _ => {}
         }
+    }
+    if let Some(e) = first_bad {
+        return Err(e);
     }
     let mut t = target_from_slots(&slots).map_err(|(f, m)| in_file(file, line, &f, m))?;
     if keep {
