@@ -177,6 +177,42 @@ fn fast_tai_utc(tai1: f64, tai2: f64) -> Option<(f64, f64)> {
     None
 }
 
+/// SI seconds from the TAI `(a0, b0)` to the TAI `(a1, b1)`.
+fn seconds_between((a0, b0): (f64, f64), (a1, b1): (f64, f64)) -> f64 {
+    ((a1 - a0) + (b1 - b0)) * DAY_S
+}
+
+/// An instant with its TAI found once, for many instants counted from it
+/// ([`TaiBase::add_seconds`], [`TaiBase::seconds_to`]): the same bits as
+/// [`Instant::add_seconds`] and [`Instant::seconds_since`] give.
+#[derive(Debug, Clone, Copy)]
+pub struct TaiBase {
+    at: Instant,
+    tai: (f64, f64),
+}
+
+impl TaiBase {
+    /// `at` and its TAI.
+    pub fn new(at: Instant) -> Self {
+        TaiBase { at, tai: at.tai() }
+    }
+
+    /// The instant.
+    pub fn instant(&self) -> Instant {
+        self.at
+    }
+
+    /// `self.instant().add_seconds(s)`.
+    pub fn add_seconds(&self, s: f64) -> Instant {
+        self.at.add_seconds_to_tai(self.tai, s)
+    }
+
+    /// `t.seconds_since(&self.instant())`.
+    pub fn seconds_to(&self, t: Instant) -> f64 {
+        seconds_between(self.tai, t.tai())
+    }
+}
+
 impl Instant {
     /// Refuse this instant when it lies outside rung's valid span. Every entry
     /// point that hands an instant to SOFA's ephemerides calls this, because
@@ -358,7 +394,12 @@ impl Instant {
 
     /// The instant `s` SI seconds later (computed through TAI so that leap seconds count).
     pub fn add_seconds(&self, s: f64) -> Instant {
-        let (a, b) = self.tai();
+        self.add_seconds_to_tai(self.tai(), s)
+    }
+
+    /// [`Instant::add_seconds`] with this instant's TAI (`self.tai()`)
+    /// already found ([`TaiBase`]).
+    fn add_seconds_to_tai(&self, (a, b): (f64, f64), s: f64) -> Instant {
         let b2 = b + s / DAY_S;
         if let Some((u1, u2)) = fast_tai_utc(a, b2) {
             return Instant { utc1: u1, utc2: u2 };
@@ -380,9 +421,7 @@ impl Instant {
 
     /// SI seconds from `earlier` to `self` (through TAI).
     pub fn seconds_since(&self, earlier: &Instant) -> f64 {
-        let (a1, b1) = self.tai();
-        let (a0, b0) = earlier.tai();
-        ((a1 - a0) + (b1 - b0)) * DAY_S
+        seconds_between(earlier.tai(), self.tai())
     }
 
     /// The current instant from the system clock.
@@ -489,6 +528,26 @@ pub fn parse_date(text: &str) -> Result<NaiveDate> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn tai_base_is_the_instant_arithmetic() {
+        // Counting from a kept TAI gives the bits of `add_seconds` and
+        // `seconds_since`, across a leap second (2016-12-31, IERS Bulletin
+        // C 52) and on ordinary days.
+        for base in ["2016-12-31T12:00:00Z", "2026-12-01T15:00:00Z"] {
+            let t0 = parse_instant(base).unwrap();
+            let kept = TaiBase::new(t0);
+            for k in -200..=200 {
+                let s = k as f64 * 613.37 + 0.001 * k as f64;
+                let (a, b) = (kept.add_seconds(s), t0.add_seconds(s));
+                assert_eq!(
+                    (a.utc1.to_bits(), a.utc2.to_bits()),
+                    (b.utc1.to_bits(), b.utc2.to_bits())
+                );
+                assert_eq!(kept.seconds_to(b).to_bits(), b.seconds_since(&t0).to_bits());
+            }
+        }
+    }
 
     #[test]
     fn day_scale_is_both_days_looked_up() {

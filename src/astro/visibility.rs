@@ -32,7 +32,7 @@ use crate::astro::airmass::kasten_young;
 use crate::astro::events::illinois;
 use crate::astro::frames::{CatalogPlace, NightFrame, Observed};
 use crate::astro::site::Site;
-use crate::astro::time::Instant;
+use crate::astro::time::{Instant, TaiBase};
 use crate::astro::window::{Event, Limits, STAR_RISE_SET_DEG, TargetNight, intersect_intervals};
 use sofars::astro::{IauAstrom, atciq, atioq};
 use std::f64::consts::{FRAC_PI_2, PI, TAU};
@@ -176,7 +176,7 @@ impl Refraction {
 /// night's start.
 #[derive(Debug, Clone)]
 pub struct SkyFrame {
-    t0: Instant,
+    t0: TaiBase,
     span_s: f64,
     /// Contexts (refracted) at 0, span/2 and span: what `atciq` needs.
     nodes: [IauAstrom; 3],
@@ -191,6 +191,9 @@ pub struct SkyFrame {
     sin_phi: f64,
     cos_phi: f64,
     refraction: Arc<Refraction>,
+    /// The last altitude limit asked of [`Track::above_limit`] (bits) with
+    /// its geometric altitude, found once for the night's many targets.
+    limit_geom: Arc<std::sync::Mutex<Option<(u64, f64)>>>,
 }
 
 impl SkyFrame {
@@ -212,7 +215,7 @@ impl SkyFrame {
         let phi = site.lat_rad();
         let (astrom, astrom_geo) = frame.site_astrom(mid);
         SkyFrame {
-            t0: start,
+            t0: TaiBase::new(start),
             span_s,
             nodes: [
                 frame.geocentric_astrom(start),
@@ -226,12 +229,13 @@ impl SkyFrame {
             sin_phi: phi.sin(),
             cos_phi: phi.cos(),
             refraction: Refraction::shared(&astrom),
+            limit_geom: Arc::default(),
         }
     }
 
     /// Seconds from the night's start to `t`.
     pub fn offset(&self, t: Instant) -> f64 {
-        t.seconds_since(&self.t0)
+        self.t0.seconds_to(t)
     }
 
     /// The instant `s` seconds after the night's start.
@@ -249,6 +253,22 @@ impl SkyFrame {
         &self.refraction
     }
 
+    /// [`Refraction::geometric`] of the observed altitude `obs_rad`, the
+    /// last one asked kept (the same bits as finding it again).
+    fn limit_geometric(&self, obs_rad: f64) -> f64 {
+        let key = obs_rad.to_bits();
+        if let Ok(m) = self.limit_geom.lock()
+            && let Some((k, g)) = *m
+            && k == key
+        {
+            return g;
+        }
+        let g = self.refraction.geometric(obs_rad);
+        if let Ok(mut m) = self.limit_geom.lock() {
+            *m = Some((key, g));
+        }
+        g
+    }
 
     /// Local Earth rotation angle (ERA + longitude, SOFA `eral`) at offset `s`.
     fn eral(&self, s: f64) -> f64 {
@@ -597,7 +617,7 @@ impl<'a> Track<'a> {
         let span = self.frame.span_s;
         let refr = &self.frame.refraction;
         let lim = min_alt_deg.to_radians();
-        let g_lim = refr.geometric(lim);
+        let g_lim = self.frame.limit_geometric(lim);
         let f = |s: f64| self.alt_az_rad(s).0 - lim;
         let base = self.above(g_lim, &f, 0.0, span);
         let mask_max = site

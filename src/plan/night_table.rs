@@ -48,7 +48,8 @@ impl NightRow {
 
 /// The row of `place` in `night` under `limits`.
 pub fn row(night: &Night, place: &CatalogPlace, limits: &Limits) -> NightRow {
-    row_in(night, &SunUpGrid::new(night), &[], place, limits)
+    let dark = night.dark_intervals(limits.sun_alt_deg);
+    row_in(night, &SunUpGrid::new(night), &dark, &[], place, limits)
 }
 
 /// [`row`] with the night's Sun-up instants found once, and the sky at the
@@ -57,13 +58,15 @@ pub fn row(night: &Night, place: &CatalogPlace, limits: &Limits) -> NightRow {
 fn row_in(
     night: &Night,
     sun_up: &SunUpGrid,
+    dark: &[(Instant, Instant)],
     dark_ends: &[SkyAt],
     place: &CatalogPlace,
     limits: &Limits,
 ) -> NightRow {
-    // One track for the row and the Sun caution.
+    // One track for the row and the Sun caution; the night's dark intervals
+    // under `limits` (`night.dark_intervals`), as `Night::target_on` takes them.
     let track = night.track(place);
-    let tn = night.target_on(&track, limits);
+    let tn = track.target_night(&night.site, dark, limits);
     let sky = tn.max_altitude_time.map(|t| {
         let same = |x: &&SkyAt| {
             (x.ctx.t.utc1.to_bits(), x.ctx.t.utc2.to_bits()) == (t.utc1.to_bits(), t.utc2.to_bits())
@@ -90,6 +93,7 @@ pub struct Rows<'a> {
     night: &'a Night,
     limits: Limits,
     sun_up: SunUpGrid,
+    dark: Vec<(Instant, Instant)>,
     dark_ends: Vec<SkyAt>,
 }
 
@@ -97,8 +101,8 @@ impl<'a> Rows<'a> {
     /// The shared part of `night`'s rows under `limits`.
     pub fn new(night: &'a Night, limits: &Limits) -> Self {
         let sun_up = SunUpGrid::new(night);
-        let dark_ends: Vec<SkyAt> = night
-            .dark_intervals(limits.sun_alt_deg)
+        let dark = night.dark_intervals(limits.sun_alt_deg);
+        let dark_ends: Vec<SkyAt> = dark
             .iter()
             .flat_map(|d| [d.0, d.1])
             .map(|t| SkyAt::new(&night.context(t)))
@@ -107,6 +111,7 @@ impl<'a> Rows<'a> {
             night,
             limits: *limits,
             sun_up,
+            dark,
             dark_ends,
         }
     }
@@ -116,6 +121,7 @@ impl<'a> Rows<'a> {
         row_in(
             self.night,
             &self.sun_up,
+            &self.dark,
             &self.dark_ends,
             place,
             &self.limits,
