@@ -12,7 +12,7 @@ pub use crate::astro::window::{
 };
 use crate::error::{Result, RungError};
 use chrono::{NaiveDate, NaiveTime, TimeZone};
-use std::sync::Arc;
+use std::sync::{Arc, OnceLock};
 
 /// Grid spacing used to bracket the Sun and Moon events, seconds (each then
 /// refined by regula falsi, `astro::events`).
@@ -111,21 +111,24 @@ pub struct Night {
     pub frame: NightFrame,
     /// Bracketing grid.
     pub times: Vec<Instant>,
-    /// Contexts on the grid (one per instant, shared by all targets).
-    pub contexts: Vec<Context>,
+    /// Contexts on the grid (one per instant, shared by all targets),
+    /// without the Moon: [`Night::grid_context`] is the one with it (the
+    /// Sun, a target's place and the time are the same in both).
+    pub(crate) contexts: Vec<Context>,
     /// Geometric altitude of the Sun's centre on the grid, degrees.
     pub sun_alt_deg: Vec<f64>,
-    /// Topocentric geometric altitude of the Moon's centre on the grid, degrees.
-    pub moon_alt_deg: Vec<f64>,
-    /// Moon on the grid.
-    pub moon: Vec<Observed>,
     /// Sun on the grid.
     pub sun: Vec<Observed>,
     /// What every target shares for its closed-form visibility
     /// (`astro::visibility`).
     pub sky: SkyFrame,
-    /// The Moon through the night, for the contexts of [`Night::context`].
-    moon_table: MoonTable,
+    /// The Moon through the night, for the contexts of [`Night::context`],
+    /// made when first asked: the budget's methods walk hundreds of nights
+    /// for their windows and the Sun alone, and look at the Moon on a few.
+    moon_table: OnceLock<MoonTable>,
+    /// The Moon on the grid and its altitude (degrees), made when first
+    /// asked ([`Night::moon`], [`Night::moon_alt_deg`]).
+    moon_grid: OnceLock<(Vec<Observed>, Vec<f64>)>,
     /// Dark intervals already found, by Sun limit (degrees).
     dark_cache: DarkCache,
 }
@@ -136,10 +139,12 @@ pub struct Night {
 /// on that scale (it turns by 0.55° an hour), and the interpolation errs by
 /// well under a metre (0.001″), so a night calls `moon98` 30 times instead of
 /// once per context (unit test `moon_table_matches_moon98`).
+/// Each node is computed when an instant first needs it: a method that
+/// looks at the Moon at one instant of a night pays for four nodes.
 #[derive(Debug, Clone)]
 struct MoonTable {
     t0: Instant,
-    pv: Vec<[[f64; 3]; 2]>,
+    pv: Vec<OnceLock<[[f64; 3]; 2]>>,
 }
 
 impl MoonTable {
@@ -149,13 +154,18 @@ impl MoonTable {
     fn new(start: Instant, end: Instant) -> Self {
         let t0 = start.add_seconds(-Self::MARGIN_S);
         let n = ((end.seconds_since(&start) + 2.0 * Self::MARGIN_S) / Self::STEP_S).ceil() as usize;
-        let pv = (0..=n)
-            .map(|k| {
-                let (a, b) = t0.add_seconds(k as f64 * Self::STEP_S).tt();
-                sofars::eph::moon98(a, b)
-            })
-            .collect();
-        MoonTable { t0, pv }
+        MoonTable {
+            t0,
+            pv: vec![OnceLock::new(); n + 1],
+        }
+    }
+
+    /// The Moon at node `k` (SOFA `moon98`), computed once.
+    fn node(&self, k: usize) -> &[[f64; 3]; 2] {
+        self.pv[k].get_or_init(|| {
+            let (a, b) = self.t0.add_seconds(k as f64 * Self::STEP_S).tt();
+            sofars::eph::moon98(a, b)
+        })
     }
 
     /// The Moon at `t`, or `None` outside the table.
@@ -176,7 +186,7 @@ impl MoonTable {
         ];
         let mut out = [[0.0; 3]; 2];
         for (k, wk) in w.iter().enumerate() {
-            for (o, p) in out.iter_mut().zip(&self.pv[i + k]) {
+            for (o, p) in out.iter_mut().zip(self.node(i + k)) {
                 for (oj, pj) in o.iter_mut().zip(p) {
                     *oj += wk * pj;
                 }
@@ -303,36 +313,72 @@ impl Night {
             f1 = hi;
         }
         let frame = NightFrame::new(site, f0, f1)?;
-        let moon_table = MoonTable::new(start, end);
         let times = grid(start, end, GRID_STEP_S);
-        let contexts: Vec<Context> = times
-            .iter()
-            .map(|t| moon_table.attach(frame.context(*t)))
-            .collect();
+        let contexts: Vec<Context> = times.iter().map(|t| frame.context(*t)).collect();
         let sun: Vec<Observed> = contexts.iter().map(|c| c.sun()).collect();
-        let moon: Vec<Observed> = contexts.iter().map(|c| c.moon()).collect();
         let sky = SkyFrame::new(site, start, end, &frame);
         Ok(Night {
             sky,
-            moon_table,
+            moon_table: OnceLock::new(),
+            moon_grid: OnceLock::new(),
             date,
             site: site.clone(),
             start,
             end,
             sun_alt_deg: sun.iter().map(|o| o.alt_geom_rad.to_degrees()).collect(),
-            moon_alt_deg: moon.iter().map(|o| o.alt_geom_rad.to_degrees()).collect(),
             frame,
             times,
             contexts,
-            moon,
             sun,
             dark_cache: DarkCache::default(),
         })
     }
 
+    /// The Moon's table for this night, made on first use.
+    fn moon_table(&self) -> &MoonTable {
+        self.moon_table
+            .get_or_init(|| MoonTable::new(self.start, self.end))
+    }
+
     /// Context at any instant of the night.
     pub fn context(&self, t: Instant) -> Context {
-        self.moon_table.attach(self.frame.context(t))
+        self.moon_table().attach(self.frame.context(t))
+    }
+
+    /// The context at grid instant `i` ([`Night::times`]), the Moon
+    /// included: [`Night::context`] of that instant.
+    pub fn grid_context(&self, i: usize) -> Context {
+        self.moon_table().attach(self.contexts[i].clone())
+    }
+
+    fn moon_grid(&self) -> &(Vec<Observed>, Vec<f64>) {
+        self.moon_grid.get_or_init(|| {
+            let moon: Vec<Observed> = (0..self.contexts.len())
+                .map(|i| self.grid_context(i).moon())
+                .collect();
+            let alt = moon.iter().map(|o| o.alt_geom_rad.to_degrees()).collect();
+            (moon, alt)
+        })
+    }
+
+    /// The Moon on the grid ([`Night::times`]).
+    pub fn moon(&self) -> &[Observed] {
+        &self.moon_grid().0
+    }
+
+    /// Topocentric geometric altitude of the Moon's centre on the grid
+    /// ([`Night::times`]), degrees.
+    pub fn moon_alt_deg(&self) -> &[f64] {
+        &self.moon_grid().1
+    }
+
+    /// The context at `t` without the Moon's table: the time scales, the
+    /// Sun, the Earth and targets' places are those of [`Night::context`]
+    /// to the bit; its Moon, if asked, is SOFA `moon98`'s own. For callers
+    /// that need no Moon (barycentric times, the Sun's altitude), on nights
+    /// whose Moon is never looked at.
+    pub fn context_without_moon(&self, t: Instant) -> Context {
+        self.frame.context(t)
     }
 
     /// The Earth's barycentric position at `t`, au: that of
@@ -343,7 +389,7 @@ impl Night {
 
     /// Geometric altitude of the Sun's centre, degrees.
     pub fn sun_alt_at(&self, t: Instant) -> f64 {
-        self.context(t).sun().alt_geom_rad.to_degrees()
+        self.context_without_moon(t).sun().alt_geom_rad.to_degrees()
     }
 
     fn sun_crossings(&self, thr_deg: f64) -> Vec<Crossing> {
@@ -416,10 +462,10 @@ impl Night {
     /// First moonrise and first moonset between the local noons.
     pub fn moon_events(&self) -> (Event, Event) {
         let vs: Vec<f64> = self
-            .contexts
+            .moon_alt_deg()
             .iter()
-            .zip(&self.moon_alt_deg)
-            .map(|(c, a)| a - moon_rise_set_topo_deg(c))
+            .enumerate()
+            .map(|(i, a)| a - moon_rise_set_topo_deg(&self.grid_context(i)))
             .collect();
         let mut f = |t: Instant| {
             let c = self.context(t);

@@ -895,8 +895,8 @@ fn candidates(
                 if len < dwell_s {
                     continue;
                 }
-                let ba = bjd_tdb_ctx(site, &night.context(*a), place);
-                let bb = bjd_tdb_ctx(site, &night.context(*b), place);
+                let ba = bjd_tdb_ctx(site, &night.context_without_moon(*a), place);
+                let bb = bjd_tdb_ctx(site, &night.context_without_moon(*b), place);
                 let db = (bb.jd1 - ba.jd1) + (bb.jd2 - ba.jd2);
                 let mut x = dwell_s / 2.0;
                 while x <= len - dwell_s / 2.0 + 1e-6 {

@@ -56,7 +56,7 @@ pub fn night_data(job: &NightJob) -> Result<NightData> {
             .map(|t| t.seconds_since(&night.start))
             .collect(),
         sun_alt_deg: night.sun_alt_deg.clone(),
-        moon_alt_deg: night.moon_alt_deg.clone(),
+        moon_alt_deg: night.moon_alt_deg().to_vec(),
         rows,
         tracks,
     })

@@ -69,8 +69,8 @@ pub fn phase_windows(
             tn.windows
                 .iter()
                 .map(|(a, b)| {
-                    let ba = bjd_tdb_ctx(site, &night.context(*a), &star.place);
-                    let bb = bjd_tdb_ctx(site, &night.context(*b), &star.place);
+                    let ba = bjd_tdb_ctx(site, &night.context_without_moon(*a), &star.place);
+                    let bb = bjd_tdb_ctx(site, &night.context_without_moon(*b), &star.place);
                     let e = &star.ephemeris;
                     PhaseWindow {
                         night: night.date,
