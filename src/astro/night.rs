@@ -348,7 +348,7 @@ impl Night {
     /// The context at grid instant `i` ([`Night::times`]), the Moon
     /// included: [`Night::context`] of that instant.
     pub fn grid_context(&self, i: usize) -> Context {
-        self.moon_table().attach(self.contexts[i].clone())
+        self.moon_table().attach(self.contexts[i])
     }
 
     fn moon_grid(&self) -> &(Vec<Observed>, Vec<f64>) {
