@@ -299,6 +299,9 @@ fn budget_chunk() -> usize {
     (2 * rayon::current_num_threads()).max(8)
 }
 
+/// Most threads that drive the rows on screen (one target each at a time).
+const LEAD_THREADS: usize = 32;
+
 /// [`budget_until`], handing each target's figures to `partial` as soon as
 /// they are computed ([`Msg::BudgetPartial`], one message a target): the
 /// rows on screen ([`BudgetKey::first_shown`] of [`BudgetKey::first`]) as
@@ -412,6 +415,7 @@ pub fn budget_streaming(
         }
         .min(todo.len() - done);
         let chunk = &todo[done..done + n];
+        let is_lead = done < lead;
         done += n;
         // Each target of the batch on the pool; its figures handed on as
         // soon as it is done (the table fills row by row).
@@ -428,6 +432,49 @@ pub fn budget_streaming(
                     send_one(k, *i, x, partial);
                 }
             }
+        } else if is_lead {
+            // The rows on screen: each target driven by a thread of its
+            // own (its parallel parts still on the pool), so that no
+            // target's serial part waits on a pool worker's stack behind
+            // another target's, and every core stays busy to the batch's
+            // end (on the pool, the last rows came one at a time while a
+            // worker slept).
+            let (tx, rx) = std::sync::mpsc::channel();
+            let next = std::sync::atomic::AtomicUsize::new(0);
+            let (one, rows) = (&one, &rows);
+            let work = |tx: std::sync::mpsc::Sender<(usize, Option<BudgetRowWork>)>| loop {
+                let j = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+                let Some(&i) = chunk.get(j) else {
+                    break;
+                };
+                if tx.send((i, one(i, rows[i].clone()))).is_err() {
+                    break;
+                }
+            };
+            std::thread::scope(|sc| {
+                let mut started = 0;
+                for _ in 0..n.min(LEAD_THREADS) {
+                    let tx = tx.clone();
+                    let work = &work;
+                    if std::thread::Builder::new()
+                        .spawn_scoped(sc, move || work(tx))
+                        .is_ok()
+                    {
+                        started += 1;
+                    }
+                }
+                if started == 0 {
+                    // No thread to be had: the batch here, in order.
+                    work(tx.clone());
+                }
+                drop(tx);
+                for (i, r) in rx {
+                    if let Some(x) = r.as_ref().filter(|_| alone(i)) {
+                        send_one(k, i, x, partial);
+                    }
+                    got.push((i, r));
+                }
+            });
         } else {
             let (tx, rx) = std::sync::mpsc::channel();
             let one = &one;

@@ -416,16 +416,18 @@ pub fn parallax_factors_at(t: Instant, ra_rad: f64, dec_rad: f64) -> Result<(f64
 
 /// The Earth's barycentric position (au, SOFA `epv00`) once a day for 366
 /// days from `start`: the yearly sweep of the parallax factors, the same for
-/// every target of a range, so computed once per start and shared.
+/// every target of a range, so computed once per start and shared: the
+/// memo is held while it is computed, so targets started together (the
+/// budget's first rows) wait for one computation instead of each making
+/// its own (366 `epv00` calls).
 fn earth_year(start: Instant) -> Result<std::sync::Arc<Vec<[f64; 3]>>> {
     use std::sync::{Arc, Mutex, OnceLock};
     type Memo = Mutex<Vec<((u64, u64), Arc<Vec<[f64; 3]>>)>>;
     static MEMO: OnceLock<Memo> = OnceLock::new();
     let key = (start.utc1.to_bits(), start.utc2.to_bits());
     let memo = MEMO.get_or_init(|| Mutex::new(Vec::new()));
-    if let Ok(m) = memo.lock()
-        && let Some((_, v)) = m.iter().find(|(k, _)| *k == key)
-    {
+    let mut m = memo.lock().unwrap_or_else(|e| e.into_inner());
+    if let Some((_, v)) = m.iter().find(|(k, _)| *k == key) {
         return Ok(v.clone());
     }
     let v = Arc::new(
@@ -441,12 +443,10 @@ fn earth_year(start: Instant) -> Result<std::sync::Arc<Vec<[f64; 3]>>> {
             })
             .collect::<Result<Vec<_>>>()?,
     );
-    if let Ok(mut m) = memo.lock() {
-        if m.len() >= 16 {
-            m.remove(0);
-        }
-        m.push((key, v.clone()));
+    if m.len() >= 16 {
+        m.remove(0);
     }
+    m.push((key, v.clone()));
     Ok(v)
 }
 
