@@ -114,7 +114,7 @@ pub struct Night {
     /// Contexts on the grid (one per instant, shared by all targets),
     /// without the Moon: [`Night::grid_context`] is the one with it (the
     /// Sun, a target's place and the time are the same in both).
-    pub(crate) contexts: Vec<Context>,
+    pub contexts: Vec<Context>,
     /// Geometric altitude of the Sun's centre on the grid, degrees.
     pub sun_alt_deg: Vec<f64>,
     /// Sun on the grid.
