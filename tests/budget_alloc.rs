@@ -6,7 +6,7 @@
 
 use rung::plan::budget::alloc::{
     Capacity, Item, NightCost, Problem, allocate, exhaustive, hull, least_hours_for, steps,
-    steps_one_by_one,
+    steps_one_by_one, steps_with,
 };
 
 /// A small deterministic generator (xorshift64*), so every run tries the same programmes.
@@ -442,4 +442,85 @@ fn goals_met_curve_in_stretches_is_the_single_sequence_bit_for_bit() {
     // The stretches are not all refused (the check would then be the
     // single sequence alone).
     assert!(joined > 40, "only {joined} corners met on the curve");
+}
+
+/// The bounded curve of a large programme (alloc::steps_bounded, used above
+/// alloc::EXACT_CURVE_ITEMS goals), tried on small random programmes against
+/// the exhaustive search: every step is an allocation that exists (its
+/// hours are its set's cost, its weight its set's weight), the steps rise in
+/// both hours and weight up to every goal that can be met, a step marked
+/// proven is the exhaustive optimum at its hours, and for every step the
+/// fewest hours that give its weight lie between its `hours_at_least` (the
+/// hull's bound) and its `hours`. Against the exact curve: at every number
+/// of hours the bounded curve never claims more weight than the optimum.
+#[test]
+fn bounded_goals_met_curve_brackets_the_exhaustive_optimum() {
+    let mut r = Rng(0x0b0u64 << 40 | 0xd1ce_5eed);
+    let mut bracketed_gap = 0;
+    for case in 0..60 {
+        let n = 6 + r.below(9);
+        let p = programme(&mut r, n, 1, case % 3 != 0);
+        let st = steps_with(&p, true);
+        let all: Vec<usize> = (0..n).filter(|&i| p.items[i].weight > 0.0).collect();
+        let top: f64 = all.iter().map(|&i| p.items[i].weight).sum();
+        if top <= 0.0 {
+            assert!(st.is_empty(), "case {case}");
+            continue;
+        }
+        assert!(
+            (st.last().unwrap().weight - top).abs() < 1e-9,
+            "case {case}: reaches every goal"
+        );
+        for w in st.windows(2) {
+            assert!(
+                w[1].hours > w[0].hours && w[1].weight > w[0].weight,
+                "case {case}"
+            );
+        }
+        for s in &st {
+            let h: f64 = p.cost(&s.items).iter().sum();
+            let w: f64 = s.items.iter().map(|&i| p.items[i].weight).sum();
+            assert_eq!(h, s.hours, "case {case}");
+            assert!((w - s.weight).abs() < 1e-9, "case {case}");
+            let at = exhaustive(&p, &Capacity::Total(s.hours + 1e-9));
+            assert!(
+                at.weight >= s.weight - 1e-9,
+                "case {case}: never above the optimum"
+            );
+            if s.proven_optimal {
+                assert!(
+                    (at.weight - s.weight).abs() < 1e-9,
+                    "case {case}: a proven step"
+                );
+                assert_eq!(s.hours_at_least, s.hours, "case {case}");
+            }
+            // The fewest hours for this weight, from the exhaustive search.
+            let fewest = least_hours_for(&p, s.weight - 1e-9).unwrap();
+            assert!(fewest.proven_optimal, "case {case}");
+            assert!(
+                s.hours_at_least <= fewest.hours + 1e-9 && fewest.hours <= s.hours + 1e-9,
+                "case {case}: {} <= {} <= {}",
+                s.hours_at_least,
+                fewest.hours,
+                s.hours
+            );
+            if fewest.hours < s.hours - 1e-9 {
+                bracketed_gap += 1;
+            }
+        }
+        // The exact curve is the bounded one where the bounded one is proven
+        // (as far as the exact curve goes: it stops after 4n + 4 steps).
+        let exact = steps(&p);
+        let last = exact.last().map_or(0.0, |e| e.weight);
+        for s in st.iter().filter(|s| s.proven_optimal && s.weight <= last) {
+            assert!(
+                exact
+                    .iter()
+                    .any(|e| e.weight == s.weight && (e.hours - s.hours).abs() < 1e-9),
+                "case {case}: a proven step is a step of the exact curve"
+            );
+        }
+    }
+    // Some greedy steps do miss the fewest hours (otherwise the bounds are untried).
+    assert!(bracketed_gap > 0);
 }

@@ -185,6 +185,12 @@ pub struct GainStep {
     pub drops: Vec<String>,
     /// The goals met from these hours on.
     pub met: Vec<String>,
+    /// For a step not proven the fewest (a large programme's steps between
+    /// the hull's corners, or a search stopped at its node limit): no
+    /// allocation meets this weight in fewer hours, so the fewest lie
+    /// between this and `hours`. Absent for a proven step.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub hours_at_least: Option<f64>,
 }
 
 /// The allocation of the hours asked.
@@ -368,6 +374,7 @@ fn curve_of(b: &Budget, built: &Built) -> (Vec<GainStep>, bool) {
             adds: names(b, built, &adds),
             drops: names(b, built, &drops),
             met: names(b, built, &s.items),
+            hours_at_least: (!s.proven_optimal).then_some(s.hours_at_least),
         });
         prev = now;
     }

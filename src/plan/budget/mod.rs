@@ -1262,7 +1262,7 @@ pub fn steps_lines(steps: &[GainStep]) -> Vec<String> {
     ];
     for s in steps {
         out.push(format!(
-            "  {:>8} h  {:>3} goals (weight {})  + {}{}",
+            "  {:>8} h  {:>3} goals (weight {})  + {}{}{}",
             num(s.hours, 1),
             s.goals_met,
             num(s.weight, 0),
@@ -1271,7 +1271,19 @@ pub fn steps_lines(steps: &[GainStep]) -> Vec<String> {
                 String::new()
             } else {
                 format!(", for {}", s.drops.join(", "))
+            },
+            match s.hours_at_least {
+                Some(l) => format!("  (not proven the fewest: at least {} h)", num(l, 1)),
+                None => String::new(),
             }
+        ));
+    }
+    if steps.iter().any(|s| s.hours_at_least.is_some()) {
+        out.push(format!(
+            "  Steps marked 'not proven' are allocations found by greedy searches between exact \
+             steps (a programme of more than {} goals, or a search that reached its node limit); \
+             the fewest hours lie between the two figures.",
+            alloc::EXACT_CURVE_ITEMS
         ));
     }
     out
