@@ -1108,9 +1108,102 @@ impl<'a> Search<'a> {
     }
 }
 
-/// The exact allocation: the allowed set of largest weight, then fewest hours.
+/// The allocation: the allowed set of largest weight, then fewest hours;
+/// exact up to [`EXACT_CURVE_ITEMS`] items, above them [`allocate_bounded`]
+/// (marked not proven).
 pub fn allocate(p: &Problem, cap: &Capacity) -> Choice {
-    allocate_from(p, cap, &[])
+    allocate_with(p, cap, p.items.len() > EXACT_CURVE_ITEMS)
+}
+
+/// [`allocate`], exact or (`bounded`) by [`allocate_bounded`] whatever the
+/// programme's size (the tests hold both to the exhaustive optimum).
+pub fn allocate_with(p: &Problem, cap: &Capacity, bounded: bool) -> Choice {
+    if bounded {
+        allocate_bounded(p, cap)
+    } else {
+        allocate_from(p, cap, &[])
+    }
+}
+
+/// The allocation of a large programme, in work that grows with the items
+/// (the exact search's nodes each solve a minimum cut over every undecided
+/// item, and at a thousand goals it does not finish): with hours in total,
+/// the best step of the bounded goals-met curve ([`steps_with`]) within the
+/// hours; then, from it and from nothing, the goals that still fit added one
+/// at a time, the one of fewest added hours per unit weight first (in every
+/// semester's hours, when asked per semester). The best of these sets,
+/// marked not proven.
+pub fn allocate_bounded(p: &Problem, cap: &Capacity) -> Choice {
+    let pool: Vec<usize> = eligible(p)
+        .into_iter()
+        .filter(|&i| fits(&p.cost(&[i]), cap))
+        .collect();
+    let mut starts: Vec<Vec<usize>> = vec![Vec::new()];
+    if let Capacity::Total(h) = cap {
+        if let Some(s) = steps_with(p, true)
+            .into_iter()
+            .rev()
+            .find(|s| s.hours <= h + EPS_H && fits(&p.cost(&s.items), cap))
+        {
+            starts.push(s.items);
+        }
+    }
+    let mut best: Option<(f64, f64, Vec<usize>)> = None;
+    for start in starts {
+        let set = fill(p, cap, &pool, start);
+        let w: f64 = set.iter().map(|&i| p.items[i].weight).sum();
+        let h: f64 = p.cost(&set).iter().sum();
+        if best
+            .as_ref()
+            .is_none_or(|(bw, bh, _)| w > bw + EPS_W || (w > bw - EPS_W && h < bh - EPS_H))
+        {
+            best = Some((w, h, set));
+        }
+    }
+    p.choice(best.map(|b| b.2).unwrap_or_default(), false)
+}
+
+/// `set` with the items of `pool` that still fit the capacity added one at
+/// a time, fewest added hours (own and new nights' calibrations, in total)
+/// per unit weight first, ties to the lower index.
+fn fill(p: &Problem, cap: &Capacity, pool: &[usize], set: Vec<usize>) -> Vec<usize> {
+    let mut g = Greedy::new(p, &set);
+    let mut cost = p.cost(&set);
+    loop {
+        let mut pick: Option<(f64, usize)> = None;
+        for &i in pool {
+            if g.inside[i] {
+                continue;
+            }
+            let mut with = cost.clone();
+            for (s, h) in p.items[i].hours.iter().enumerate() {
+                with[s] += h;
+            }
+            for &n in &g.nights[i] {
+                if g.users[n] == 0 {
+                    with[p.nights[n].semester] += p.nights[n].hours;
+                }
+            }
+            if !fits(&with, cap) {
+                continue;
+            }
+            let v = g.delta(i) / p.items[i].weight;
+            if pick.is_none_or(|(b, _)| v < b) {
+                pick = Some((v, i));
+            }
+        }
+        let Some((_, i)) = pick else { break };
+        for (s, h) in p.items[i].hours.iter().enumerate() {
+            cost[s] += h;
+        }
+        for &n in &g.nights[i] {
+            if g.users[n] == 0 {
+                cost[p.nights[n].semester] += p.nights[n].hours;
+            }
+        }
+        g.toggle(i);
+    }
+    g.set()
 }
 
 /// [`allocate`] knowing an allowed set: the weight search starts with its
