@@ -235,18 +235,38 @@ impl Base {
     /// candidates at a time instead of two): the same IEEE operations on
     /// every candidate, no fused multiply-add, so the same numbers.
     fn j_plus_all(&self, pre: &Pre, est: &mut Vec<f64>, err: &mut Vec<f64>) {
+        self.j_plus_runs(pre, &[(0, pre.dt.len())], est, err);
+    }
+
+    /// [`Self::j_plus_all`] for the candidates of the index ranges `runs`
+    /// only (each `(from, to)`, `to` excluded): their estimates and bounds,
+    /// each the number `j_plus_all` gives it (a candidate's arithmetic
+    /// does not involve the others), the other entries NaN. The searches
+    /// ask it for the admissible candidates alone ([`admissible_runs`]): on
+    /// a long horizon most seasons fill up and most candidates drop out.
+    fn j_plus_runs(
+        &self,
+        pre: &Pre,
+        runs: &[(usize, usize)],
+        est: &mut Vec<f64>,
+        err: &mut Vec<f64>,
+    ) {
         let n = pre.dt.len();
         est.clear();
         err.clear();
-        est.resize(n, 0.0);
-        err.resize(n, 0.0);
+        est.resize(n, f64::NAN);
+        err.resize(n, f64::NAN);
         #[cfg(target_arch = "x86_64")]
         if std::arch::is_x86_feature_detected!("avx2") {
-            // SAFETY: the processor has AVX2, checked just above.
-            unsafe { self.j_plus_avx2(pre, est, err) };
+            for &(from, to) in runs {
+                // SAFETY: the processor has AVX2, checked just above.
+                unsafe { self.j_plus_avx2(pre, from, to, est, err) };
+            }
             return;
         }
-        self.j_plus_body(pre, est, err);
+        for &(from, to) in runs {
+            self.j_plus_body(pre, from, to, est, err);
+        }
     }
 
     /// [`Self::j_plus_all`]'s loop compiled for AVX2.
@@ -255,20 +275,28 @@ impl Base {
     /// Only on a processor with AVX2.
     #[cfg(target_arch = "x86_64")]
     #[target_feature(enable = "avx2")]
-    unsafe fn j_plus_avx2(&self, pre: &Pre, est: &mut [f64], err: &mut [f64]) {
-        self.j_plus_body(pre, est, err);
+    unsafe fn j_plus_avx2(
+        &self,
+        pre: &Pre,
+        from: usize,
+        to: usize,
+        est: &mut [f64],
+        err: &mut [f64],
+    ) {
+        self.j_plus_body(pre, from, to, est, err);
     }
 
-    /// [`Self::j_plus_all`]'s loop, into `est` and `err` of the candidates' length.
+    /// [`Self::j_plus_all`]'s loop over the candidates `from..to`, into the
+    /// same entries of `est` and `err` (of the candidates' length).
     #[allow(clippy::needless_range_loop)] // index form mirrors the formula
     #[inline(always)]
-    fn j_plus_body(&self, pre: &Pre, est: &mut [f64], err: &mut [f64]) {
-        let n = pre.dt.len();
+    fn j_plus_body(&self, pre: &Pre, from: usize, to: usize, est: &mut [f64], err: &mut [f64]) {
+        let n = to - from;
         let c = &self.c;
-        let (dts, pas, pds) = (&pre.dt[..n], &pre.pa[..n], &pre.pd[..n]);
-        let iws = &pre.inv_w[..n];
-        let wad: [&[f64]; 5] = std::array::from_fn(|j| &pre.wad[j][..n]);
-        let (est, err) = (&mut est[..n], &mut err[..n]);
+        let (dts, pas, pds) = (&pre.dt[from..to], &pre.pa[from..to], &pre.pd[from..to]);
+        let iws = &pre.inv_w[from..to];
+        let wad: [&[f64]; 5] = std::array::from_fn(|j| &pre.wad[j][from..to]);
+        let (est, err) = (&mut est[from..to], &mut err[from..to]);
         for i in 0..n {
             let (dt, pa, pd, inv_w) = (dts[i], pas[i], pds[i], iws[i]);
             // U = C Aᵀ (5 × 2), S = W⁻¹ + A U (2 × 2); A's rows are
@@ -841,6 +869,7 @@ fn run(
     }
     let n = p.cands.len();
     let (mut est, mut err, mut exact_js) = (Vec::new(), Vec::new(), Vec::new());
+    let mut runs = Vec::new();
     // The kept steps of this search with other targets (see [`Memo`]):
     // their states up to this target's stop, or all of them.
     if let Stop::Count(_) = stop {
@@ -903,8 +932,10 @@ fn run(
                 Some(base) => {
                     // Estimates of the gain and their bounds; the largest gain
                     // surely reached; the finalists that may reach it.
-                    base.j_plus_all(pre, &mut est, &mut err);
-                    // One pass: the largest lower bound so far, and the
+                    admissible_runs(&st, None, &mut runs);
+                    base.j_plus_runs(pre, &runs, &mut est, &mut err);
+                    // One pass (over the admissible candidates, in order:
+                    // the others are passed over whatever their estimate): the largest lower bound so far, and the
                     // candidates whose upper bound reaches it. The bound only
                     // rises, and a candidate's lower bound is at most its
                     // upper one (err ≥ 0, per > 0), so a candidate passed
@@ -914,7 +945,7 @@ fn run(
                     // the same order.
                     let mut lb = f64::NEG_INFINITY;
                     let mut finalists: Vec<(usize, (f64, f64))> = Vec::new();
-                    for i in 0..n {
+                    for i in runs.iter().flat_map(|&(from, to)| from..to) {
                         let (e, r) = (est[i], err[i]);
                         if !(e.is_nan() || (cur - e + r) / per(i) >= lb) || !st.may_add(i, None) {
                             continue;
@@ -988,14 +1019,34 @@ fn screen_swap_at(st: &State, k: usize, cur: f64) -> Option<Vec<(usize, (f64, f6
     let mut acc = st.acc;
     acc.add(&st.p.cands[st.chosen[k]], st.p.t_ref, -1.0);
     let base = Base::of(&acc)?;
-    let (mut est, mut err) = (Vec::new(), Vec::new());
-    base.j_plus_all(st.pre, &mut est, &mut err);
+    let (mut est, mut err, mut runs) = (Vec::new(), Vec::new(), Vec::new());
+    admissible_runs(st, Some(st.chosen[k]), &mut runs);
+    base.j_plus_runs(st.pre, &runs, &mut est, &mut err);
     Some(
-        (0..st.p.cands.len())
-            .filter(|i| st.may_add(*i, Some(st.chosen[k])))
+        runs.iter()
+            .flat_map(|&(from, to)| from..to)
             .map(|i| (i, (est[i], err[i])))
             .collect(),
     )
+}
+
+/// The candidates `st.may_add(i, freed)` admits, as maximal ranges of
+/// consecutive indices `(from, to)` (`to` excluded), in index order.
+fn admissible_runs(st: &State, freed: Option<usize>, out: &mut Vec<(usize, usize)>) {
+    out.clear();
+    let n = st.p.cands.len();
+    let mut i = 0;
+    while i < n {
+        if !st.may_add(i, freed) {
+            i += 1;
+            continue;
+        }
+        let from = i;
+        while i < n && st.may_add(i, freed) {
+            i += 1;
+        }
+        out.push((from, i));
+    }
 }
 
 /// A screened exchange: the position in the chosen epochs, the candidate
@@ -1047,6 +1098,7 @@ fn exact_swaps(st: &State, finalists: &[Swap]) -> Option<Vec<(usize, usize, Opti
 
 /// Fedorov's exchange: the single swap (a chosen epoch for an unchosen
 /// candidate) that lowers J the most, repeated while one does.
+#[inline(never)] // its own entry in a profile, apart from the greedy search
 fn exchange_for_j(st: &mut State, seed: &[usize]) {
     let n = st.p.cands.len();
     let max_swaps = PASSES * st.chosen.len().max(1);
@@ -1417,5 +1469,61 @@ mod tests {
             );
             assert!(j.is_infinite(), "{i}");
         }
+    }
+
+    #[test]
+    fn estimates_of_the_admissible_runs_are_every_estimates_to_the_bit() {
+        // j_plus_runs promises j_plus_all's numbers on the candidates of its
+        // runs (NaN elsewhere), and admissible_runs lists exactly the
+        // candidates may_add admits: the searches that ask only for those
+        // see the numbers, finalists and choices of the full screen. Cap 3
+        // a season so that seasons fill up as the design grows.
+        let cands = cands();
+        let p = Problem {
+            cands: &cands,
+            t_ref: 2027.9,
+            max_per_season: 3,
+        };
+        let pre = Pre::of(&p);
+        let mut st = State::new(p, &pre);
+        let (mut all_est, mut all_err) = (Vec::new(), Vec::new());
+        let (mut est, mut err, mut runs) = (Vec::new(), Vec::new(), Vec::new());
+        for add in [0, 11, 22, 33, 1, 17, 29, 38, 9, 2, 12, 24, 41] {
+            if st.may_add(add, None) {
+                st.push(add);
+            }
+            let Some(base) = Base::of(&st.acc) else {
+                continue;
+            };
+            base.j_plus_all(&pre, &mut all_est, &mut all_err);
+            for freed in std::iter::once(None).chain(st.chosen.iter().map(|k| Some(*k))) {
+                admissible_runs(&st, freed, &mut runs);
+                let listed: Vec<usize> = runs.iter().flat_map(|&(a, b)| a..b).collect();
+                let admitted: Vec<usize> =
+                    (0..cands.len()).filter(|i| st.may_add(*i, freed)).collect();
+                assert_eq!(
+                    listed,
+                    admitted,
+                    "{} epochs, freed {freed:?}",
+                    st.chosen.len()
+                );
+                assert!(runs.windows(2).all(|w| w[0].1 < w[1].0), "maximal runs");
+                base.j_plus_runs(&pre, &runs, &mut est, &mut err);
+                assert_eq!(est.len(), cands.len());
+                for i in 0..cands.len() {
+                    if admitted.contains(&i) {
+                        assert_eq!(est[i].to_bits(), all_est[i].to_bits(), "est {i}");
+                        assert_eq!(err[i].to_bits(), all_err[i].to_bits(), "err {i}");
+                    } else {
+                        assert!(est[i].is_nan() && err[i].is_nan(), "{i} left out");
+                    }
+                }
+            }
+        }
+        assert!(st.chosen.len() >= SCREEN_MIN_EPOCHS + 3);
+        // Full seasons leave candidates out.
+        admissible_runs(&st, None, &mut runs);
+        let listed: usize = runs.iter().map(|&(a, b)| b - a).sum();
+        assert!(listed < cands.len() - st.chosen.len(), "{listed}");
     }
 }
