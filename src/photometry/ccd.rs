@@ -141,6 +141,58 @@ pub struct NoiseBudget {
     pub saturated: bool,
 }
 
+/// One search of [`Rates::best_radius_pix_each`]: what
+/// [`Rates::evaluate`] works out the same way at every radius (2σ², the
+/// sky and dark electrons per pixel, the scintillation fraction), by its
+/// expressions.
+struct GoldenJob {
+    star_e_per_s: f64,
+    two_sigma2: f64,
+    background_pixels: f64,
+    exptime_s: f64,
+    sky_e: f64,
+    dark_e: f64,
+    n_f64: f64,
+    read_e: f64,
+    scint_frac: f64,
+    max_radius_pix: f64,
+}
+
+impl GoldenJob {
+    fn of(&(r, exptime_s, n): &(&Rates, f64, u32)) -> GoldenJob {
+        let t = exptime_s;
+        GoldenJob {
+            star_e_per_s: r.star_e_per_s,
+            two_sigma2: 2.0 * r.sigma_pix * r.sigma_pix,
+            background_pixels: r.background_pixels,
+            exptime_s: t,
+            sky_e: r.sky_e_per_pix_s * t,
+            dark_e: r.dark_e_per_pix_s * t,
+            n_f64: n.max(1) as f64,
+            read_e: r.read_e,
+            scint_frac: r.scint_frac_sqrt_s / t.sqrt(),
+            max_radius_pix: r.max_radius_pix,
+        }
+    }
+
+    /// `Rates::evaluate(t, n, radius_pix, ∞).snr`: the same IEEE
+    /// operations in the same order.
+    #[inline(always)]
+    fn snr(&self, radius_pix: f64) -> f64 {
+        let frac = 1.0 - (-radius_pix * radius_pix / self.two_sigma2).exp();
+        let npix = std::f64::consts::PI * radius_pix * radius_pix;
+        let f = npix * (1.0 + npix / self.background_pixels);
+        let nstar = self.star_e_per_s * frac * self.exptime_s;
+        let v_star = nstar;
+        let v_sky = f * self.sky_e;
+        let v_dark = f * self.dark_e;
+        let v_read = f * self.n_f64 * self.read_e * self.read_e;
+        let v_sc = (self.scint_frac * nstar).powi(2);
+        let total = (v_star + v_sky + v_dark + v_read + v_sc).sqrt();
+        if total > 0.0 { nstar / total } else { 0.0 }
+    }
+}
+
 /// Refuse a magnitude outside [`bounds::MAG`](crate::bounds::MAG).
 pub fn check_mag(mag: f64) -> Result<()> {
     crate::bounds::MAG.check_as("magnitude", mag).map(|_| ())
@@ -306,18 +358,21 @@ impl Rates {
     /// splits, in order: the same golden-section search for each, their
     /// steps taken side by side (a step of one search does not wait for
     /// another's, so the processor overlaps them), each answer the one the
-    /// search alone gives, bit for bit.
+    /// search alone gives, bit for bit. The SNR at each radius is
+    /// [`Self::evaluate`]'s ([`GoldenJob::snr`]: its operations in its order),
+    /// with what does not change along a search worked out once.
     pub fn best_radius_pix_each(jobs: &[(&Rates, f64, u32)]) -> Vec<f64> {
         const W: usize = 8;
         let g = 0.618_033_988_749_895;
-        let snr = |j: &(&Rates, f64, u32), r: f64| j.0.evaluate(j.1, j.2, r, f64::INFINITY).snr;
         let mut out = Vec::with_capacity(jobs.len());
         for chunk in jobs.chunks(W) {
+            let chunk: Vec<GoldenJob> = chunk.iter().map(GoldenJob::of).collect();
+            let snr = |j: &GoldenJob, r: f64| j.snr(r);
             let (mut a, mut b, mut c, mut d) = ([0.0f64; W], [0.0f64; W], [0.0f64; W], [0.0f64; W]);
             let (mut fc, mut fd) = ([0.0f64; W], [0.0f64; W]);
             for (k, j) in chunk.iter().enumerate() {
-                a[k] = 0.5f64.min(j.0.max_radius_pix);
-                b[k] = j.0.max_radius_pix;
+                a[k] = 0.5f64.min(j.max_radius_pix);
+                b[k] = j.max_radius_pix;
                 c[k] = b[k] - g * (b[k] - a[k]);
                 d[k] = a[k] + g * (b[k] - a[k]);
                 fc[k] = snr(j, c[k]);
@@ -557,5 +612,87 @@ mod tests {
         assert!((erf(0.5) - 0.520_499_877_8).abs() < 2e-7);
         assert!((erf(1.0) - 0.842_700_792_9).abs() < 2e-7);
         assert!((erf(-1.0) + 0.842_700_792_9).abs() < 2e-7);
+    }
+
+    /// The golden-section search one job at a time, with `if` branches and
+    /// `Rates::evaluate` itself: the reference `best_radius_pix_each`
+    /// promises to match bit for bit.
+    fn best_radius_one(r: &Rates, exptime_s: f64, n: u32) -> f64 {
+        let g = 0.618_033_988_749_895;
+        let snr = |x: f64| r.evaluate(exptime_s, n, x, f64::INFINITY).snr;
+        let mut a = 0.5f64.min(r.max_radius_pix);
+        let mut b = r.max_radius_pix;
+        let mut c = b - g * (b - a);
+        let mut d = a + g * (b - a);
+        let (mut fc, mut fd) = (snr(c), snr(d));
+        for _ in 0..60 {
+            if fc > fd {
+                b = d;
+                d = c;
+                fd = fc;
+                c = b - g * (b - a);
+                fc = snr(c);
+            } else {
+                a = c;
+                c = d;
+                fc = fd;
+                d = a + g * (b - a);
+                fd = snr(d);
+            }
+        }
+        0.5 * (a + b)
+    }
+
+    #[test]
+    fn best_radii_side_by_side_are_each_searchs_to_the_bit() {
+        // Stars from far brighter than the sky to far fainter, short and
+        // long exposures, one to many sub-exposures, narrow and wide PSFs,
+        // strong and no scintillation, and chunks of every length (the
+        // lanes past a chunk's end must not change the answers).
+        let mut seed = 0x2545_f491_4f6c_dd1du64;
+        let mut u = || {
+            seed ^= seed << 13;
+            seed ^= seed >> 7;
+            seed ^= seed << 17;
+            (seed >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let mut rates = Vec::new();
+        for _ in 0..500 {
+            let sigma = 0.3 + 4.0 * u();
+            let ri = 1.0 + 4.0 * u();
+            let fwhm = sigma * FWHM_PER_SIGMA;
+            rates.push(Rates {
+                star_e_per_s: 10f64.powf(-1.0 + 7.0 * u()),
+                sky_e_per_pix_s: 10f64.powf(-2.0 + 4.0 * u()),
+                dark_e_per_pix_s: if u() < 0.2 { 0.0 } else { 0.1 * u() },
+                read_e: 2.0 + 15.0 * u(),
+                scint_frac_sqrt_s: if u() < 0.2 { 0.0 } else { 0.05 * u() },
+                sigma_pix: sigma,
+                background_pixels: 50.0 + 2000.0 * u(),
+                peak_fraction: 0.1,
+                max_radius_pix: (3.0f64.min(ri) * fwhm).max(0.5),
+                extinction_mag: 0.1,
+            });
+        }
+        let jobs: Vec<(&Rates, f64, u32)> = rates
+            .iter()
+            .map(|r| (r, 10f64.powf(4.0 * u()), 1 + (20.0 * u()) as u32))
+            .collect();
+        let want: Vec<u64> = jobs
+            .iter()
+            .map(|(r, t, n)| best_radius_one(r, *t, *n).to_bits())
+            .collect();
+        for len in [1, 3, 8, 9, 17, 500] {
+            let got = Rates::best_radius_pix_each(&jobs[..len]);
+            let got: Vec<u64> = got.iter().map(|x| x.to_bits()).collect();
+            assert_eq!(got, want[..len], "{len} jobs");
+        }
+        // best_radius_pix, one job, is the same search.
+        for (r, t, n) in &jobs[..20] {
+            assert_eq!(
+                r.best_radius_pix(*t, *n).to_bits(),
+                best_radius_one(r, *t, *n).to_bits()
+            );
+        }
     }
 }
