@@ -1139,14 +1139,13 @@ pub fn allocate_bounded(p: &Problem, cap: &Capacity) -> Choice {
         .filter(|&i| fits(&p.cost(&[i]), cap))
         .collect();
     let mut starts: Vec<Vec<usize>> = vec![Vec::new()];
-    if let Capacity::Total(h) = cap {
-        if let Some(s) = steps_with(p, true)
+    if let Capacity::Total(h) = cap
+        && let Some(s) = steps_with(p, true)
             .into_iter()
             .rev()
             .find(|s| s.hours <= h + EPS_H && fits(&p.cost(&s.items), cap))
-        {
-            starts.push(s.items);
-        }
+    {
+        starts.push(s.items);
     }
     let mut best: Option<(f64, f64, Vec<usize>)> = None;
     for start in starts {
@@ -1625,7 +1624,7 @@ impl<'a> Greedy<'a> {
             }
             let mut best: Option<(f64, usize)> = None;
             for &i in pool {
-                if self.inside[i] != !up {
+                if self.inside[i] == up {
                     continue;
                 }
                 let d = self.delta(i);
