@@ -1317,9 +1317,13 @@ pub fn allocation_lines(b: &Budget, a: &Allocation) -> Vec<String> {
         "Hours asked: {} (expected weather; the allocation meets the most priority-weighted goals{})",
         asked_words(a),
         if a.proven_optimal {
-            ", proven optimal"
+            ", proven optimal".to_string()
         } else {
-            "; the search stopped before proving it optimal"
+            format!(
+                "; not proven optimal: a search stopped at its node limit, or a programme of \
+                 more than {} goals allocated by greedy searches",
+                alloc::EXACT_CURVE_ITEMS
+            )
         }
     )];
     out.push(format!(
