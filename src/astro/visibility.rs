@@ -414,11 +414,16 @@ impl<'a> Track<'a> {
         self.a + self.b * self.ha_linear(s).cos()
     }
 
+    /// Closed-form geometric altitude at offset `s`, radians.
+    fn alt_linear_rad(&self, s: f64) -> f64 {
+        self.sin_alt_linear(s).clamp(-1.0, 1.0).asin()
+    }
+
     /// Whether the geometric altitude at offset `s` is above `g_rad`, when
     /// the closed form stands more than [`SURE_RAD`] from it (far beyond the
     /// closed form's error and any refraction); `None` nearer.
     fn clearly_above(&self, s: f64, g_rad: f64) -> Option<bool> {
-        let h = self.sin_alt_linear(s).clamp(-1.0, 1.0).asin();
+        let h = self.alt_linear_rad(s);
         if h > g_rad + SURE_RAD {
             Some(true)
         } else if h < g_rad - SURE_RAD {
@@ -701,11 +706,12 @@ impl<'a> Track<'a> {
                 std::iter::once(d0).chain(inside).chain(std::iter::once(d1))
             })
         };
-        let linear = |s: f64| self.sin_alt_linear(s).clamp(-1.0, 1.0).asin();
-        let top = candidates().map(linear).fold(f64::NEG_INFINITY, f64::max);
+        let top = candidates()
+            .map(|s| self.alt_linear_rad(s))
+            .fold(f64::NEG_INFINITY, f64::max);
         let mut best: Option<(f64, f64)> = None;
         for s in candidates() {
-            if linear(s) < top - SURE_RAD {
+            if self.alt_linear_rad(s) < top - SURE_RAD {
                 continue;
             }
             let alt = self.alt_az_rad(s).0;

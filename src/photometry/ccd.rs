@@ -141,11 +141,13 @@ pub struct NoiseBudget {
     pub saturated: bool,
 }
 
-/// One search of [`Rates::best_radius_pix_each`]: what
-/// [`Rates::evaluate`] works out the same way at every radius (2σ², the
-/// sky and dark electrons per pixel, the scintillation fraction), by its
-/// expressions.
-struct GoldenJob {
+/// One exposure of one star's [`Rates`] (its time and number of
+/// sub-exposures): what [`Rates::evaluate`] works out the same way at every
+/// aperture radius (2σ², the sky and dark electrons per pixel, the
+/// scintillation fraction), once, so that a golden-section search over the
+/// radius ([`Rates::best_radius_pix_each`]) and `evaluate` share one
+/// arithmetic ([`Exposure::terms`]).
+struct Exposure {
     star_e_per_s: f64,
     two_sigma2: f64,
     background_pixels: f64,
@@ -158,10 +160,32 @@ struct GoldenJob {
     max_radius_pix: f64,
 }
 
-impl GoldenJob {
-    fn of(&(r, exptime_s, n): &(&Rates, f64, u32)) -> GoldenJob {
+/// The noise terms of one exposure at one aperture radius ([`Exposure::terms`]).
+struct Terms {
+    frac: f64,
+    npix: f64,
+    nstar: f64,
+    v_sky: f64,
+    v_dark: f64,
+    v_read: f64,
+    v_sc: f64,
+    total: f64,
+}
+
+impl Terms {
+    fn snr(&self) -> f64 {
+        if self.total > 0.0 {
+            self.nstar / self.total
+        } else {
+            0.0
+        }
+    }
+}
+
+impl Exposure {
+    fn of(&(r, exptime_s, n): &(&Rates, f64, u32)) -> Exposure {
         let t = exptime_s;
-        GoldenJob {
+        Exposure {
             star_e_per_s: r.star_e_per_s,
             two_sigma2: 2.0 * r.sigma_pix * r.sigma_pix,
             background_pixels: r.background_pixels,
@@ -175,21 +199,35 @@ impl GoldenJob {
         }
     }
 
-    /// `Rates::evaluate(t, n, radius_pix, ∞).snr`: the same IEEE
-    /// operations in the same order.
+    /// The star's electrons and each noise variance in an aperture of
+    /// `radius_pix` (Merline & Howell 1995's CCD equation, as
+    /// [`Rates::evaluate`] documents it).
     #[inline(always)]
-    fn snr(&self, radius_pix: f64) -> f64 {
+    fn terms(&self, radius_pix: f64) -> Terms {
         let frac = 1.0 - (-radius_pix * radius_pix / self.two_sigma2).exp();
         let npix = std::f64::consts::PI * radius_pix * radius_pix;
         let f = npix * (1.0 + npix / self.background_pixels);
         let nstar = self.star_e_per_s * frac * self.exptime_s;
-        let v_star = nstar;
         let v_sky = f * self.sky_e;
         let v_dark = f * self.dark_e;
         let v_read = f * self.n_f64 * self.read_e * self.read_e;
         let v_sc = (self.scint_frac * nstar).powi(2);
-        let total = (v_star + v_sky + v_dark + v_read + v_sc).sqrt();
-        if total > 0.0 { nstar / total } else { 0.0 }
+        let total = (nstar + v_sky + v_dark + v_read + v_sc).sqrt();
+        Terms {
+            frac,
+            npix,
+            nstar,
+            v_sky,
+            v_dark,
+            v_read,
+            v_sc,
+            total,
+        }
+    }
+
+    #[inline(always)]
+    fn snr(&self, radius_pix: f64) -> f64 {
+        self.terms(radius_pix).snr()
     }
 }
 
@@ -306,19 +344,18 @@ impl Rates {
     ) -> NoiseBudget {
         let t = exptime_s;
         let n = n.max(1);
-        let frac = 1.0 - (-radius_pix * radius_pix / (2.0 * self.sigma_pix * self.sigma_pix)).exp();
-        let npix = std::f64::consts::PI * radius_pix * radius_pix;
-        let f = npix * (1.0 + npix / self.background_pixels);
-        let nstar = self.star_e_per_s * frac * t;
-        let s = self.sky_e_per_pix_s * t;
-        let d = self.dark_e_per_pix_s * t;
-        let v_star = nstar;
-        let v_sky = f * s;
-        let v_dark = f * d;
-        let v_read = f * n as f64 * self.read_e * self.read_e;
-        let sc = self.scint_frac_sqrt_s / t.sqrt();
-        let v_sc = (sc * nstar).powi(2);
-        let total = (v_star + v_sky + v_dark + v_read + v_sc).sqrt();
+        let e = Exposure::of(&(self, t, n));
+        let Terms {
+            frac,
+            npix,
+            nstar,
+            v_sky,
+            v_dark,
+            v_read,
+            v_sc,
+            total,
+        } = e.terms(radius_pix);
+        let (s, d, sc, v_star) = (e.sky_e, e.dark_e, e.scint_frac, nstar);
         let sub = t / n as f64;
         let peak = self.peak_e_per_s() * sub;
         NoiseBudget {
@@ -359,15 +396,15 @@ impl Rates {
     /// steps taken side by side (a step of one search does not wait for
     /// another's, so the processor overlaps them), each answer the one the
     /// search alone gives, bit for bit. The SNR at each radius is
-    /// [`Self::evaluate`]'s ([`GoldenJob::snr`]: its operations in its order),
+    /// [`Self::evaluate`]'s (the same [`Exposure::terms`]),
     /// with what does not change along a search worked out once.
     pub fn best_radius_pix_each(jobs: &[(&Rates, f64, u32)]) -> Vec<f64> {
         const W: usize = 8;
         let g = 0.618_033_988_749_895;
         let mut out = Vec::with_capacity(jobs.len());
         for chunk in jobs.chunks(W) {
-            let chunk: Vec<GoldenJob> = chunk.iter().map(GoldenJob::of).collect();
-            let snr = |j: &GoldenJob, r: f64| j.snr(r);
+            let chunk: Vec<Exposure> = chunk.iter().map(Exposure::of).collect();
+            let snr = |j: &Exposure, r: f64| j.snr(r);
             let (mut a, mut b, mut c, mut d) = ([0.0f64; W], [0.0f64; W], [0.0f64; W], [0.0f64; W]);
             let (mut fc, mut fd) = ([0.0f64; W], [0.0f64; W]);
             for (k, j) in chunk.iter().enumerate() {

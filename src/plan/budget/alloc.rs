@@ -1115,11 +1115,26 @@ pub fn allocate(p: &Problem, cap: &Capacity) -> Choice {
     allocate_with(p, cap, p.items.len() > EXACT_CURVE_ITEMS)
 }
 
+/// [`allocate`] of a problem whose goals-met curve ([`steps`]) is already
+/// known: a large programme's allocation starts from it instead of
+/// finding it again.
+pub fn allocate_along(p: &Problem, cap: &Capacity, curve: &[Step]) -> Choice {
+    if p.items.len() > EXACT_CURVE_ITEMS {
+        allocate_bounded(p, cap, curve)
+    } else {
+        allocate_from(p, cap, &[])
+    }
+}
+
 /// [`allocate`], exact or (`bounded`) by [`allocate_bounded`] whatever the
 /// programme's size (the tests hold both to the exhaustive optimum).
 pub fn allocate_with(p: &Problem, cap: &Capacity, bounded: bool) -> Choice {
     if bounded {
-        allocate_bounded(p, cap)
+        let curve = match cap {
+            Capacity::Total(_) => steps_with(p, true),
+            Capacity::PerSemester(_) => Vec::new(),
+        };
+        allocate_bounded(p, cap, &curve)
     } else {
         allocate_from(p, cap, &[])
     }
@@ -1128,28 +1143,29 @@ pub fn allocate_with(p: &Problem, cap: &Capacity, bounded: bool) -> Choice {
 /// The allocation of a large programme, in work that grows with the items
 /// (the exact search's nodes each solve a minimum cut over every undecided
 /// item, and at a thousand goals it does not finish): with hours in total,
-/// the best step of the bounded goals-met curve ([`steps_with`]) within the
-/// hours; then, from it and from nothing, the goals that still fit added one
+/// the best step of the bounded goals-met curve `curve` ([`steps_with`])
+/// within the hours; then, from it and from nothing, the goals that still fit added one
 /// at a time, the one of fewest added hours per unit weight first (in every
 /// semester's hours, when asked per semester). The best of these sets,
 /// marked not proven.
-pub fn allocate_bounded(p: &Problem, cap: &Capacity) -> Choice {
+pub fn allocate_bounded(p: &Problem, cap: &Capacity, curve: &[Step]) -> Choice {
     let pool: Vec<usize> = eligible(p)
         .into_iter()
         .filter(|&i| fits(&p.cost(&[i]), cap))
         .collect();
+    let nights = distinct_nights(p);
     let mut starts: Vec<Vec<usize>> = vec![Vec::new()];
     if let Capacity::Total(h) = cap
-        && let Some(s) = steps_with(p, true)
-            .into_iter()
+        && let Some(s) = curve
+            .iter()
             .rev()
             .find(|s| s.hours <= h + EPS_H && fits(&p.cost(&s.items), cap))
     {
-        starts.push(s.items);
+        starts.push(s.items.clone());
     }
     let mut best: Option<(f64, f64, Vec<usize>)> = None;
     for start in starts {
-        let set = fill(p, cap, &pool, start);
+        let set = fill(p, &nights, cap, &pool, start);
         let w: f64 = set.iter().map(|&i| p.items[i].weight).sum();
         let h: f64 = p.cost(&set).iter().sum();
         if best
@@ -1165,25 +1181,18 @@ pub fn allocate_bounded(p: &Problem, cap: &Capacity) -> Choice {
 /// `set` with the items of `pool` that still fit the capacity added one at
 /// a time, fewest added hours (own and new nights' calibrations, in total)
 /// per unit weight first, ties to the lower index.
-fn fill(p: &Problem, cap: &Capacity, pool: &[usize], set: Vec<usize>) -> Vec<usize> {
-    let mut g = Greedy::new(p, &set);
-    let mut cost = p.cost(&set);
+fn fill(
+    p: &Problem,
+    nights: &[Vec<usize>],
+    cap: &Capacity,
+    pool: &[usize],
+    set: Vec<usize>,
+) -> Vec<usize> {
+    let mut g = Greedy::new(p, nights, &set);
     loop {
         let mut pick: Option<(f64, usize)> = None;
         for &i in pool {
-            if g.inside[i] {
-                continue;
-            }
-            let mut with = cost.clone();
-            for (s, h) in p.items[i].hours.iter().enumerate() {
-                with[s] += h;
-            }
-            for &n in &g.nights[i] {
-                if g.users[n] == 0 {
-                    with[p.nights[n].semester] += p.nights[n].hours;
-                }
-            }
-            if !fits(&with, cap) {
+            if g.inside[i] || !fits(&g.cost_with(i), cap) {
                 continue;
             }
             let v = g.delta(i) / p.items[i].weight;
@@ -1192,14 +1201,6 @@ fn fill(p: &Problem, cap: &Capacity, pool: &[usize], set: Vec<usize>) -> Vec<usi
             }
         }
         let Some((_, i)) = pick else { break };
-        for (s, h) in p.items[i].hours.iter().enumerate() {
-            cost[s] += h;
-        }
-        for &n in &g.nights[i] {
-            if g.users[n] == 0 {
-                cost[p.nights[n].semester] += p.nights[n].hours;
-            }
-        }
         g.toggle(i);
     }
     g.set()
@@ -1352,8 +1353,8 @@ pub fn steps_with(p: &Problem, bounded: bool) -> Vec<Step> {
 
 /// Items above which [`steps`] gives the bounded curve of [`steps_bounded`]
 /// rather than the exact one (the budget's 1,000-target synthetic programme
-/// has 116 goals; its exact curve takes about 20 s of CPU, and at 1,160
-/// goals the exact curve did not finish in 15 minutes).
+/// has 116 goals; its exact curve takes about 20 s of CPU, and at 1,069
+/// goals, 10,000 targets, the exact curve did not finish in 15 minutes).
 pub const EXACT_CURVE_ITEMS: usize = 400;
 
 fn steps_exact(p: &Problem, corners: &[Corner]) -> Vec<Step> {
@@ -1551,35 +1552,55 @@ fn eligible(p: &Problem) -> Vec<usize> {
 /// nights it alone uses) cost one pass over its nights.
 struct Greedy<'a> {
     p: &'a Problem,
-    nights: Vec<Vec<usize>>,
+    /// Each item's nights, each once ([`distinct_nights`]).
+    nights: &'a [Vec<usize>],
     users: Vec<u32>,
     inside: Vec<bool>,
     weight: f64,
+    /// The set's hours by semester, as [`Problem::cost`] counts them.
+    cost: Vec<f64>,
+}
+
+/// Each item's nights, each once.
+fn distinct_nights(p: &Problem) -> Vec<Vec<usize>> {
+    p.items
+        .iter()
+        .map(|it| {
+            let mut n = it.nights.clone();
+            n.sort_unstable();
+            n.dedup();
+            n
+        })
+        .collect()
 }
 
 impl<'a> Greedy<'a> {
-    fn new(p: &'a Problem, set: &[usize]) -> Self {
-        let nights: Vec<Vec<usize>> = p
-            .items
-            .iter()
-            .map(|it| {
-                let mut n = it.nights.clone();
-                n.sort_unstable();
-                n.dedup();
-                n
-            })
-            .collect();
+    fn new(p: &'a Problem, nights: &'a [Vec<usize>], set: &[usize]) -> Self {
         let mut g = Greedy {
             p,
             nights,
             users: vec![0; p.nights.len()],
             inside: vec![false; p.items.len()],
             weight: 0.0,
+            cost: vec![0.0; p.semesters],
         };
         for &i in set {
             g.toggle(i);
         }
         g
+    }
+    /// The set's hours by semester with item `i` (outside) added.
+    fn cost_with(&self, i: usize) -> Vec<f64> {
+        let mut c = self.cost.clone();
+        for (s, h) in self.p.items[i].hours.iter().enumerate() {
+            c[s] += h;
+        }
+        for &n in &self.nights[i] {
+            if self.users[n] == 0 {
+                c[self.p.nights[n].semester] += self.p.nights[n].hours;
+            }
+        }
+        c
     }
     /// The hours item `i` adds (outside) or saves (inside).
     fn delta(&self, i: usize) -> f64 {
@@ -1592,20 +1613,28 @@ impl<'a> Greedy<'a> {
                 .sum::<f64>()
     }
     fn toggle(&mut self, i: usize) {
-        let w = self.p.items[i].weight;
+        let (p, sign) = (self.p, if self.inside[i] { -1.0 } else { 1.0 });
         if self.inside[i] {
-            self.inside[i] = false;
-            self.weight -= w;
             for &n in &self.nights[i] {
                 self.users[n] -= 1;
             }
-        } else {
-            self.inside[i] = true;
-            self.weight += w;
+        }
+        // A night's calibration comes with its first user and goes with its last.
+        for &n in &self.nights[i] {
+            if self.users[n] == 0 {
+                self.cost[p.nights[n].semester] += sign * p.nights[n].hours;
+            }
+        }
+        if !self.inside[i] {
             for &n in &self.nights[i] {
                 self.users[n] += 1;
             }
         }
+        for (s, h) in p.items[i].hours.iter().enumerate() {
+            self.cost[s] += sign * h;
+        }
+        self.inside[i] = !self.inside[i];
+        self.weight += sign * p.items[i].weight;
     }
     fn set(&self) -> Vec<usize> {
         (0..self.p.items.len())
@@ -1662,6 +1691,7 @@ pub fn steps_bounded(p: &Problem, corners: &[Corner]) -> Vec<Step> {
     if pool.is_empty() {
         return Vec::new();
     }
+    let nights = distinct_nights(p);
     let top: (f64, Vec<usize>) = (pool.iter().map(|&i| p.items[i].weight).sum(), pool.clone());
     let ends: Vec<(f64, Vec<usize>)> = std::iter::once((0.0, Vec::new()))
         .chain(corners.iter().map(|c| (c.weight, c.items.clone())))
@@ -1675,14 +1705,14 @@ pub fn steps_bounded(p: &Problem, corners: &[Corner]) -> Vec<Step> {
         .into_par_iter()
         .flat_map_iter(|j| {
             let ((wa, a), (wb, b)) = (&ends[j], &ends[j + 1]);
-            let pool = &pool;
+            let (pool, nights) = (&pool, &nights);
             [(true, false), (true, true), (false, false), (false, true)]
                 .into_iter()
                 .map(move |(up, per_weight)| {
                     if up {
-                        Greedy::new(p, a).walk(pool, true, per_weight, *wb)
+                        Greedy::new(p, nights, a).walk(pool, true, per_weight, *wb)
                     } else {
-                        Greedy::new(p, b).walk(pool, false, per_weight, *wa)
+                        Greedy::new(p, nights, b).walk(pool, false, per_weight, *wa)
                     }
                 })
         })

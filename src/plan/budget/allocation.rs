@@ -355,14 +355,15 @@ pub fn problem_of(settings: &Settings, b: &Budget) -> (Problem, Vec<usize>) {
 pub fn goals_met_curve(settings: &Settings, b: &Budget) -> (Vec<GainStep>, bool) {
     let cal_h = settings.instrument().calibration_s_per_night / 3600.0;
     let built = build(b, cal_h, &|_| 1.0, settings);
-    curve_of(b, &built)
+    curve_of(b, &built, alloc::steps(&built.problem))
 }
 
-fn curve_of(b: &Budget, built: &Built) -> (Vec<GainStep>, bool) {
+/// The budget's names on the steps `curve` of `built`'s problem.
+fn curve_of(b: &Budget, built: &Built, curve: Vec<alloc::Step>) -> (Vec<GainStep>, bool) {
     let mut steps: Vec<GainStep> = Vec::new();
     let mut prev: BTreeSet<usize> = BTreeSet::new();
     let mut proven = true;
-    for s in alloc::steps(&built.problem) {
+    for s in curve {
         proven &= s.proven_optimal;
         let now: BTreeSet<usize> = s.items.iter().copied().collect();
         let adds: Vec<usize> = now.difference(&prev).copied().collect();
@@ -413,7 +414,9 @@ pub fn allocate(settings: &Settings, b: &Budget, asked: &Asked) -> Result<Alloca
         let by: BTreeMap<String, f64> = labels.iter().cloned().zip(caps.iter().copied()).collect();
         (Capacity::PerSemester(caps.clone()), caps.iter().sum(), by)
     };
-    let choice = alloc::allocate(&built.problem, &cap);
+    // The goals-met curve once: a large programme's allocation starts from it.
+    let curve = alloc::steps(&built.problem);
+    let choice = alloc::allocate_along(&built.problem, &cap, &curve);
     // The pessimistic allocation: each goal at its weather quantile.
     let pess = build(
         b,
@@ -605,7 +608,7 @@ pub fn allocate(settings: &Settings, b: &Budget, asked: &Asked) -> Result<Alloca
         })
         .collect();
     // The goals-met curve against total hours.
-    let (steps, steps_proven) = curve_of(b, &built);
+    let (steps, steps_proven) = curve_of(b, &built, curve);
     let proven = choice.proven_optimal && pchoice.proven_optimal && steps_proven;
     let next = steps
         .iter()
