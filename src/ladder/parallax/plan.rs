@@ -1861,8 +1861,22 @@ impl ParallaxMethod {
         let mut share_level = level;
         if ok_all {
             // The fewest seasons that reach it (more seasons only add
-            // candidates, so the answer is searched by bisection).
+            // candidates, so the answer is searched by bisection). The
+            // answer is most often the first season after the range (a
+            // range that meets the goal but is short of the baseline), so
+            // the search gallops up from there first (range + 1, + 2,
+            // + 4, ...) and bisects only the last gap: the same answer
+            // with one selection instead of about log2(horizon seasons).
             let (mut lo, mut hi) = (range_seasons + 1, nseas);
+            let mut step = 0;
+            while lo + step < hi {
+                if met(lo + step).0 {
+                    hi = lo + step;
+                    break;
+                }
+                lo += step + 1;
+                step = if step == 0 { 1 } else { 2 * step };
+            }
             while lo < hi {
                 let mid = (lo + hi) / 2;
                 if met(mid).0 {
