@@ -267,4 +267,10 @@ fn each_extra_epoch_is_predicted_as_predict_predicts_it() {
     bad.exptime_s = -1.0; // refused
     extra.push(bad);
     plan_support::assert_each_extra_as_predict(&m, &s, &cam, base, &extra);
+    // A base of two (refused alone, three with an extra) and a base that
+    // repeats its first instant.
+    plan_support::assert_each_extra_as_predict(&m, &s, &cam, &base[..2], &extra);
+    let mut twice = base.to_vec();
+    twice.push(base[0].clone());
+    plan_support::assert_each_extra_as_predict(&m, &s, &cam, &twice, &extra);
 }

@@ -457,6 +457,22 @@ pub trait Method: Send + Sync {
     ) -> Vec<Result<Prediction>> {
         predict_each_by_one(self, s, em, base, extra)
     }
+    /// [`Method::predict`] of `base`, then, when it is not refused,
+    /// [`Method::predict_each_extra`] of `base` with the epochs
+    /// `extra_for` gives for that prediction (none asked when it gives
+    /// none, or when the base is refused). The scheduler's fill weighs
+    /// each night's visit against the base's precision, so a method may
+    /// keep the base's work for both, as long as every answer is
+    /// `predict`'s. Default: [`predict_then_each_by_one`].
+    fn predict_then_each_extra(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        base: &[Epoch],
+        extra_for: &mut dyn FnMut(&Prediction) -> Vec<Epoch>,
+    ) -> (Result<Prediction>, Vec<Result<Prediction>>) {
+        predict_then_each_by_one(self, s, em, base, extra_for)
+    }
     /// The epochs and hours that reach `goal_pct`, or why they cannot.
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction>;
     /// A search that answers [`Method::goal`] for several goals of one
@@ -540,6 +556,30 @@ pub fn predict_each_by_one<M: Method + ?Sized>(
             m.predict(s, em, &with)
         })
         .collect()
+}
+
+/// [`Method::predict`] of `base`, then [`Method::predict_each_extra`] of
+/// the epochs `extra_for` gives for it: the default of
+/// [`Method::predict_then_each_extra`].
+pub fn predict_then_each_by_one<M: Method + ?Sized>(
+    m: &M,
+    s: &Setting,
+    em: &dyn ExposureModel,
+    base: &[Epoch],
+    extra_for: &mut dyn FnMut(&Prediction) -> Vec<Epoch>,
+) -> (Result<Prediction>, Vec<Result<Prediction>>) {
+    match m.predict(s, em, base) {
+        Ok(p) => {
+            let extra = extra_for(&p);
+            let each = if extra.is_empty() {
+                Vec::new()
+            } else {
+                m.predict_each_extra(s, em, base, &extra)
+            };
+            (Ok(p), each)
+        }
+        Err(e) => (Err(e), Vec::new()),
+    }
 }
 
 /// Goals of one target asked one after another ([`Method::goal_search`]).

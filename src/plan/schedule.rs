@@ -775,74 +775,80 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                     to: horizon_to,
                     limits: req.limits,
                 };
-                let Some(s0) = m
-                    .predict(&setting, req.em, mine)
+                let place = t.place();
+                // The method's precision of the target's epochs, then, when
+                // it shows one, each night's candidate visit and the
+                // precision with each one more (asked together: the method
+                // keeps what the extra visit does not change).
+                let mut cands: Vec<Cand> = Vec::new();
+                let mut cands_for = |p0: &Prediction| -> Vec<Epoch> {
+                    if shown_precision(p0.distance_precision_pct).is_none() {
+                        return Vec::new();
+                    }
+                    for (ni, slot) in slots.iter().enumerate().take(fill_nights) {
+                        if slot.lost || slot.capacity_s <= 0.0 {
+                            continue;
+                        }
+                        if let Some((f, l)) = useful
+                            && (f.is_none_or(|f| ni < f) || l.is_none_or(|l| ni > l))
+                        {
+                            continue;
+                        }
+                        let tn = slot.night.windows(&place, &req.limits);
+                        let Some(best) = tn.max_altitude_time else {
+                            continue;
+                        };
+                        let Some(tpl) = mine.iter().min_by(|a, b| {
+                            a.time
+                                .seconds_since(&best)
+                                .abs()
+                                .total_cmp(&b.time.seconds_since(&best).abs())
+                        }) else {
+                            continue;
+                        };
+                        let dur = tpl.visit_s.max(1.0).round();
+                        let windows: Vec<(f64, f64)> = tn
+                            .windows
+                            .iter()
+                            .map(|(a, b)| {
+                                let a = (secs(*a) + 1.0).ceil();
+                                let a = not_before_s.map_or(a, |n| a.max(n));
+                                (a, (secs(*b) - 1.0).floor())
+                            })
+                            .filter(|(a, b)| b - a >= dur)
+                            .collect();
+                        // The visit centred on the target's highest point, kept inside a window.
+                        let Some(&(w0, w1)) = windows
+                            .iter()
+                            .find(|(a, b)| {
+                                let m = secs(best);
+                                m >= *a && m <= *b
+                            })
+                            .or_else(|| windows.first())
+                        else {
+                            continue;
+                        };
+                        let start = (secs(best) - dur / 2.0).round().clamp(w0, w1 - dur);
+                        let mid = origin.add_seconds(start + dur / 2.0);
+                        let airmass = kasten_young(
+                            slot.night.context(mid).observe(&place).alt_rad.to_degrees(),
+                        );
+                        let cand = Epoch {
+                            time: mid,
+                            airmass: airmass.unwrap_or(tpl.airmass),
+                            ..tpl.clone()
+                        };
+                        cands.push((ni, cand, windows));
+                    }
+                    cands.iter().map(|c| c.1.clone()).collect()
+                };
+                let (p0, preds) = m.predict_then_each_extra(&setting, req.em, mine, &mut cands_for);
+                let Some(s0) = p0
                     .ok()
                     .and_then(|p| shown_precision(p.distance_precision_pct))
                 else {
                     return vec![];
                 };
-                let place = t.place();
-                // Each night's candidate visit first, then the method's
-                // precision with each one more (asked together: the method
-                // keeps what the extra visit does not change).
-                let mut cands: Vec<Cand> = Vec::new();
-                for (ni, slot) in slots.iter().enumerate().take(fill_nights) {
-                    if slot.lost || slot.capacity_s <= 0.0 {
-                        continue;
-                    }
-                    if let Some((f, l)) = useful
-                        && (f.is_none_or(|f| ni < f) || l.is_none_or(|l| ni > l))
-                    {
-                        continue;
-                    }
-                    let tn = slot.night.windows(&place, &req.limits);
-                    let Some(best) = tn.max_altitude_time else {
-                        continue;
-                    };
-                    let Some(tpl) = mine.iter().min_by(|a, b| {
-                        a.time
-                            .seconds_since(&best)
-                            .abs()
-                            .total_cmp(&b.time.seconds_since(&best).abs())
-                    }) else {
-                        continue;
-                    };
-                    let dur = tpl.visit_s.max(1.0).round();
-                    let windows: Vec<(f64, f64)> = tn
-                        .windows
-                        .iter()
-                        .map(|(a, b)| {
-                            let a = (secs(*a) + 1.0).ceil();
-                            let a = not_before_s.map_or(a, |n| a.max(n));
-                            (a, (secs(*b) - 1.0).floor())
-                        })
-                        .filter(|(a, b)| b - a >= dur)
-                        .collect();
-                    // The visit centred on the target's highest point, kept inside a window.
-                    let Some(&(w0, w1)) = windows
-                        .iter()
-                        .find(|(a, b)| {
-                            let m = secs(best);
-                            m >= *a && m <= *b
-                        })
-                        .or_else(|| windows.first())
-                    else {
-                        continue;
-                    };
-                    let start = (secs(best) - dur / 2.0).round().clamp(w0, w1 - dur);
-                    let mid = origin.add_seconds(start + dur / 2.0);
-                    let airmass =
-                        kasten_young(slot.night.context(mid).observe(&place).alt_rad.to_degrees());
-                    let cand = Epoch {
-                        time: mid,
-                        airmass: airmass.unwrap_or(tpl.airmass),
-                        ..tpl.clone()
-                    };
-                    cands.push((ni, cand, windows));
-                }
-                let extra: Vec<Epoch> = cands.iter().map(|c| c.1.clone()).collect();
-                let preds = m.predict_each_extra(&setting, req.em, mine, &extra);
                 let mut out = Vec::new();
                 for ((ni, cand, windows), p) in cands.into_iter().zip(preds) {
                     let Some(s1) = p

@@ -135,13 +135,43 @@ pub fn assert_each_extra_as_predict(
     assert_eq!(each.len(), extra.len());
     let one_by_one = rung::ladder::predict_each_by_one(m, s, em, base, extra);
     for (got, want) in each.into_iter().zip(one_by_one) {
-        match (got, want) {
-            (Ok(a), Ok(b)) => assert_eq!(
-                serde_json::to_string(&a).unwrap(),
-                serde_json::to_string(&b).unwrap()
-            ),
-            (Err(a), Err(b)) => assert_eq!(a.to_string(), b.to_string()),
-            (a, b) => panic!("{a:?} vs {b:?}"),
-        }
+        assert_same_answer(got, want);
+    }
+    // `predict_then_each_extra`: the base's `predict`, then each extra the
+    // closure gives (which sees the base's prediction), as above.
+    let mut seen = None;
+    let (p0, each) = m.predict_then_each_extra(s, em, base, &mut |p| {
+        seen = Some(serde_json::to_string(p).unwrap());
+        extra.to_vec()
+    });
+    let want0 = m.predict(s, em, base);
+    match (&p0, &want0) {
+        (Ok(a), Ok(_)) => assert_eq!(seen, Some(serde_json::to_string(a).unwrap())),
+        _ => assert!(seen.is_none()),
+    }
+    let one_by_one = if want0.is_ok() {
+        rung::ladder::predict_each_by_one(m, s, em, base, extra)
+    } else {
+        Vec::new()
+    };
+    assert_same_answer(p0, want0);
+    assert_eq!(each.len(), one_by_one.len());
+    for (got, want) in each.into_iter().zip(one_by_one) {
+        assert_same_answer(got, want);
+    }
+}
+
+/// The same prediction (the same JSON) or the same refusal (the same message).
+fn assert_same_answer(
+    got: rung::error::Result<rung::ladder::Prediction>,
+    want: rung::error::Result<rung::ladder::Prediction>,
+) {
+    match (got, want) {
+        (Ok(a), Ok(b)) => assert_eq!(
+            serde_json::to_string(&a).unwrap(),
+            serde_json::to_string(&b).unwrap()
+        ),
+        (Err(a), Err(b)) => assert_eq!(a.to_string(), b.to_string()),
+        (a, b) => panic!("{a:?} vs {b:?}"),
     }
 }

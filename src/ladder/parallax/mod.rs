@@ -1193,6 +1193,29 @@ impl Method for ParallaxMethod {
             .unwrap_or_else(|| crate::ladder::predict_each_by_one(self, s, em, base, extra))
     }
 
+    fn predict_then_each_extra(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        base: &[Epoch],
+        extra_for: &mut dyn FnMut(&Prediction) -> Vec<Epoch>,
+    ) -> (Result<Prediction>, Vec<Result<Prediction>>) {
+        // The base's work once for its prediction and each extra's.
+        let Some(sh) = self.shared_base(s, em, base) else {
+            return crate::ladder::predict_then_each_by_one(self, s, em, base, extra_for);
+        };
+        match self.shared_prediction(&sh, None) {
+            Ok(p) => {
+                let each = extra_for(&p)
+                    .iter()
+                    .map(|e| self.shared_prediction(&sh, Some(e)))
+                    .collect();
+                (Ok(p), each)
+            }
+            Err(e) => (Err(e), Vec::new()),
+        }
+    }
+
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {
         Ok(self.goal_plan(s, em, goal_pct)?.prediction)
     }

@@ -90,6 +90,32 @@ struct Model<'a> {
     notes: Vec<String>,
 }
 
+/// The work on a base's epochs that an extra epoch does not change
+/// ([`ParallaxMethod::shared_base`]).
+pub(crate) struct SharedBase<'a> {
+    model: Model<'a>,
+    planned: Vec<PlannedEpoch>,
+    rule: ExposureRule,
+    plx: f64,
+    range: Series,
+}
+
+/// A shared-face epoch planned with `model` at its context `ctx`: its
+/// error at its exposure and SNR ([`ParallaxMethod::planned_from`]).
+fn planned_with(model: &Model, e: &Epoch, ctx: &Context) -> Result<PlannedEpoch> {
+    let mut p = model.epoch(
+        ctx,
+        e.exptime_s,
+        e.n_exposures,
+        Some(e.snr),
+        None,
+        0,
+        Some(e.visit_s),
+    )?;
+    p.epoch = e.clone();
+    Ok(p)
+}
+
 /// A candidate instant with its errors at every level.
 #[derive(Debug, Clone)]
 struct Slot {
@@ -952,21 +978,82 @@ impl ParallaxMethod {
         let model = Model::new(&self.cfg, s, em)?;
         epochs
             .iter()
-            .map(|e| {
-                let ctx = ctx_of(e.time)?;
-                let mut p = model.epoch(
-                    &ctx,
-                    e.exptime_s,
-                    e.n_exposures,
-                    Some(e.snr),
-                    None,
-                    0,
-                    Some(e.visit_s),
-                )?;
-                p.epoch = e.clone();
-                Ok(p)
-            })
+            .map(|e| planned_with(&model, e, &ctx_of(e.time)?))
             .collect()
+    }
+
+    /// [`Self::predict`](crate::ladder::Method::predict)'s work on `base`
+    /// that an extra epoch does not change (the error model, the base's
+    /// planned epochs, the exposure rule at the first epoch, the range's
+    /// check), each piece worked out as `predict` works it out. `None` when
+    /// `predict` refuses the base before its fit (the caller asks `predict`,
+    /// which words the refusal).
+    pub(crate) fn shared_base<'a>(
+        &'a self,
+        s: &'a Setting<'a>,
+        em: &'a dyn ExposureModel,
+        base: &[Epoch],
+    ) -> Option<SharedBase<'a>> {
+        let first = base.first()?;
+        let plx = expected_parallax_mas(s.target).ok()?;
+        let model = Model::new(&self.cfg, s, em).ok()?;
+        // The first epoch's exact context serves its planned epoch and the
+        // rule (predict works it out twice, the same bits).
+        let ctx0 = Context::exact(s.site, first.time).ok()?;
+        let planned = base
+            .iter()
+            .map(|e| {
+                if e.time == first.time {
+                    planned_with(&model, e, &ctx0)
+                } else {
+                    planned_with(&model, e, &Context::exact(s.site, e.time)?)
+                }
+            })
+            .collect::<Result<Vec<_>>>()
+            .ok()?;
+        let rule = model.rule(&ctx0).ok()?;
+        let range = self.check_range(s).ok()?;
+        Some(SharedBase {
+            model,
+            planned,
+            rule,
+            plx,
+            range,
+        })
+    }
+
+    /// What [`Self::predict`](crate::ladder::Method::predict) gives for the
+    /// base of `sh` followed by `extra` (the base alone for `None`), bit for
+    /// bit: the extra's planned epoch at its exact context, then
+    /// [`Self::plan_for_with`]'s steps after its rule.
+    pub(crate) fn shared_prediction(
+        &self,
+        sh: &SharedBase,
+        extra: Option<&Epoch>,
+    ) -> Result<Prediction> {
+        let mut all = Vec::with_capacity(sh.planned.len() + 1);
+        all.extend_from_slice(&sh.planned);
+        if let Some(e) = extra {
+            all.push(planned_with(
+                &sh.model,
+                e,
+                &Context::exact(sh.model.s.site, e.time)?,
+            )?);
+        }
+        if all.len() < 3 {
+            solve(&obs_of(&all))?;
+        }
+        Ok(self
+            .plan_with_rule(
+                sh.model.s,
+                &sh.model,
+                sh.rule.clone(),
+                sh.plx,
+                sh.range.clone(),
+                0,
+                all,
+            )?
+            .prediction)
     }
 
     /// The fit of shared-face epochs (a [`Prediction`]'s, as the budget
@@ -1065,21 +1152,11 @@ impl ParallaxMethod {
         base: &[Epoch],
         extra: &[Epoch],
     ) -> Option<Vec<Result<Prediction>>> {
-        let first = base.first()?;
-        expected_parallax_mas(s.target).ok()?;
-        let planned = self.planned_from(s, em, base).ok()?;
-        let model = Model::new(&self.cfg, s, em).ok()?;
-        let rule = model.rule(&Context::exact(s.site, first.time).ok()?).ok()?;
+        let sh = self.shared_base(s, em, base)?;
         Some(
             extra
                 .iter()
-                .map(|e| {
-                    let mut all = planned.clone();
-                    all.extend(self.planned_from(s, em, std::slice::from_ref(e))?);
-                    Ok(self
-                        .plan_for_with(s, em, all, false, Some(rule.clone()))?
-                        .prediction)
-                })
+                .map(|e| self.shared_prediction(&sh, Some(e)))
                 .collect(),
         )
     }
@@ -1119,6 +1196,23 @@ impl ParallaxMethod {
         } else {
             (self.check_range(s)?, 0)
         };
+        self.plan_with_rule(s, &model, rule, plx, series, n, epochs)
+    }
+
+    /// [`Self::plan_for_with`] after its checks, with the model, the rule
+    /// and the series in hand: the note on epochs outside the meridian and
+    /// airmass limits, and the fit.
+    #[allow(clippy::too_many_arguments)]
+    fn plan_with_rule(
+        &self,
+        s: &Setting,
+        model: &Model,
+        rule: ExposureRule,
+        plx: f64,
+        series: Series,
+        n: usize,
+        epochs: Vec<PlannedEpoch>,
+    ) -> Result<ParallaxPlan> {
         let outside: Vec<String> = epochs
             .iter()
             .filter(|e| {
@@ -1126,7 +1220,7 @@ impl ParallaxMethod {
             })
             .map(|e| e.epoch.time.round_to_second().iso())
             .collect();
-        let mut plan = self.finish(s, &model, rule, plx, series, n, epochs, None, String::new())?;
+        let mut plan = self.finish(s, model, rule, plx, series, n, epochs, None, String::new())?;
         if !outside.is_empty() {
             plan.prediction.notes.push(format!(
                 "{} epoch(s) lie outside ±{:.1} h of the meridian or above airmass {:.2} (DCR grows with tan z): {}",

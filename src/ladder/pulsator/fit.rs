@@ -84,28 +84,63 @@ fn check_points(phases: &[f64], sigmas: &[f64], k: usize) -> Result<()> {
     Ok(())
 }
 
-#[allow(clippy::needless_range_loop)]
-fn normal_matrix(phases: &[f64], sigmas: &[f64], k: usize) -> Result<Vec<Vec<f64>>> {
-    check_points(phases, sigmas, k)?;
-    let n = 2 * k + 1;
-    let mut a = vec![vec![0.0; n]; n];
-    for (p, s) in phases.iter().zip(sigmas) {
-        let r = design_row(*p, k);
+/// The normal matrix AᵀWA of a K-harmonic fit, summed point by point in
+/// the points' order: the sums of a set of points followed by one more are
+/// those of the set with the point added, to the last bit, so a caller
+/// weighing one more point at a time keeps the set's sums and adds each.
+#[derive(Debug, Clone)]
+pub(crate) struct NormalSums {
+    k: usize,
+    a: Vec<Vec<f64>>,
+}
+
+impl NormalSums {
+    /// No points yet. `k` must be within 1..20 ([`check_points`] says so
+    /// before the sums are inverted).
+    pub(crate) fn new(k: usize) -> Self {
+        let n = 2 * k.min(20) + 1;
+        NormalSums {
+            k,
+            a: vec![vec![0.0; n]; n],
+        }
+    }
+
+    /// Adds one point's share: phase `p` (cycles) with error `s` (mag).
+    #[allow(clippy::needless_range_loop)]
+    pub(crate) fn add(&mut self, p: f64, s: f64) {
+        let n = self.a.len();
+        let r = design_row(p, (n - 1) / 2);
         let w = 1.0 / (s * s);
         for i in 0..n {
             for j in 0..n {
-                a[i][j] += w * r[i] * r[j];
+                self.a[i][j] += w * r[i] * r[j];
             }
         }
     }
-    crate::linalg::spd_inverse(&a).map_err(|_| {
-        RungError::invalid(
-            "phase coverage",
-            format!(
-                "the phases do not constrain a {k}-harmonic Fourier series (points bunched in phase); spread them over the cycle"
-            ),
-        )
-    })
+
+    /// The covariance (AᵀWA)⁻¹ of the points summed, which are `phases`
+    /// and `sigmas` (checked as [`normal_matrix`] checks them).
+    pub(crate) fn covariance(&self, phases: &[f64], sigmas: &[f64]) -> Result<Vec<Vec<f64>>> {
+        let k = self.k;
+        check_points(phases, sigmas, k)?;
+        crate::linalg::spd_inverse(&self.a).map_err(|_| {
+            RungError::invalid(
+                "phase coverage",
+                format!(
+                    "the phases do not constrain a {k}-harmonic Fourier series (points bunched in phase); spread them over the cycle"
+                ),
+            )
+        })
+    }
+}
+
+fn normal_matrix(phases: &[f64], sigmas: &[f64], k: usize) -> Result<Vec<Vec<f64>>> {
+    check_points(phases, sigmas, k)?;
+    let mut a = NormalSums::new(k);
+    for (p, s) in phases.iter().zip(sigmas) {
+        a.add(*p, *s);
+    }
+    a.covariance(phases, sigmas)
 }
 
 /// Weighted least-squares Fourier fit of K harmonics to magnitudes `mags`
@@ -253,9 +288,23 @@ pub fn intensity_mean_sigma(
     model: &[f64],
 ) -> Result<f64> {
     let cov = normal_matrix(phases, sigmas, k)?;
+    Ok(intensity_mean_sigma_of(&cov, &model_gradient(model, k)))
+}
+
+/// The gradient [`intensity_mean_sigma`] propagates: that of the intensity
+/// mean at `model` taken to K harmonics. It depends on the light curve
+/// alone, not on the points, so a caller asking for many sets of points of
+/// one star works it out once.
+pub(crate) fn model_gradient(model: &[f64], k: usize) -> Vec<f64> {
     let mut m = model.to_vec();
     m.resize(2 * k + 1, 0.0);
-    Ok(quad_form(&intensity_mean_gradient(&m), &cov).sqrt())
+    intensity_mean_gradient(&m)
+}
+
+/// [`intensity_mean_sigma`] from the points' covariance and the model's
+/// gradient ([`model_gradient`]).
+pub(crate) fn intensity_mean_sigma_of(cov: &[Vec<f64>], gradient: &[f64]) -> f64 {
+    quad_form(gradient, cov).sqrt()
 }
 
 /// How a star's mean magnitude comes from its points.
@@ -296,4 +345,62 @@ pub fn template_mean_sigma(sigmas: &[f64], template_sigma_mag: f64) -> Result<f6
         .map(|s| 1.0 / (s * s + template_sigma_mag * template_sigma_mag))
         .sum();
     Ok(1.0 / w.sqrt())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The normal matrix summed point by point ([`NormalSums`], as the
+    /// scheduler's fill keeps a base's sums and adds one point) is AᵀWA
+    /// written out as a double sum over points in order, bit for bit, and
+    /// the intensity mean's error from it and from the gradient worked out
+    /// apart is [`intensity_mean_sigma`]'s.
+    #[test]
+    fn sums_point_by_point_are_the_normal_matrix_bit_for_bit() {
+        let k = 3;
+        let n = 2 * k + 1;
+        // Irregular phases and errors (a fixed quasi-random sequence).
+        let phases: Vec<f64> = (0..13).map(|i| (i as f64 * 0.618_034).fract()).collect();
+        let sigmas: Vec<f64> = (0..13).map(|i| 0.01 + 0.003 * (i % 5) as f64).collect();
+        let mut sums = NormalSums::new(k);
+        for (p, s) in phases.iter().zip(&sigmas) {
+            sums.add(*p, *s);
+        }
+        let mut a = vec![vec![0.0; n]; n];
+        for (p, s) in phases.iter().zip(&sigmas) {
+            let w = 1.0 / (s * s);
+            let mut r = vec![1.0];
+            for j in 1..=k {
+                let x = 2.0 * PI * j as f64 * p;
+                r.push(x.cos());
+                r.push(x.sin());
+            }
+            for i in 0..n {
+                for j in 0..n {
+                    a[i][j] += w * r[i] * r[j];
+                }
+            }
+        }
+        for i in 0..n {
+            for j in 0..n {
+                assert_eq!(sums.a[i][j].to_bits(), a[i][j].to_bits(), "({i}, {j})");
+            }
+        }
+        let model = sinusoid_model(15.0, 0.8, k);
+        let whole = intensity_mean_sigma(&phases, &sigmas, k, &model).unwrap();
+        let cov = sums.covariance(&phases, &sigmas).unwrap();
+        let parts = intensity_mean_sigma_of(&cov, &model_gradient(&model, k));
+        assert_eq!(whole.to_bits(), parts.to_bits());
+        // Too few points: the same refusal.
+        let few = NormalSums::new(k);
+        assert_eq!(
+            few.covariance(&phases[..2], &sigmas[..2])
+                .unwrap_err()
+                .to_string(),
+            normal_matrix(&phases[..2], &sigmas[..2], k)
+                .unwrap_err()
+                .to_string()
+        );
+    }
 }

@@ -68,19 +68,24 @@ type StarPrediction = (
 /// phase (BJD_TDB), its magnitude error, and the largest phase error of the
 /// ephemeris over them. An epoch's terms depend on that epoch alone, so the
 /// scheduler's fill works out the base's once and adds each extra epoch's.
+/// The fit's normal matrix is summed epoch by epoch as they are added, in
+/// the same order as a fit of all of them sums it ([`NormalSums`]).
 #[derive(Clone)]
 struct EpochTerms {
     phases: Vec<f64>,
     sigmas: Vec<f64>,
     phase_sigma_max: f64,
+    sums: NormalSums,
 }
 
 impl EpochTerms {
-    fn with_capacity(n: usize) -> Self {
+    /// Room for `n` epochs of a `k`-harmonic fit.
+    fn with_capacity(n: usize, k: usize) -> Self {
         EpochTerms {
             phases: Vec::with_capacity(n),
             sigmas: Vec::with_capacity(n),
             phase_sigma_max: 0.0,
+            sums: NormalSums::new(k),
         }
     }
 
@@ -98,11 +103,33 @@ impl EpochTerms {
                 ));
             }
             let b = crate::astro::bary::bjd_tdb(s.site, ep.time, &star.place)?;
-            self.phases.push(star.ephemeris.phase(&b));
+            let (phase, sigma) = (star.ephemeris.phase(&b), sigma_mag_from_snr(ep.snr));
+            self.phases.push(phase);
             self.phase_sigma_max = self.phase_sigma_max.max(star.ephemeris.phase_sigma(&b));
-            self.sigmas.push(sigma_mag_from_snr(ep.snr));
+            self.sigmas.push(sigma);
+            self.sums.add(phase, sigma);
         }
         Ok(())
+    }
+}
+
+/// What a star's prediction takes from its light curve alone, whatever the
+/// epochs: the gradient of the intensity mean of the K-harmonic sinusoid
+/// about the mean magnitude ([`model_gradient`]) and the intensity mean
+/// minus the magnitude mean of its amplitude's sinusoid. Each is a sum over
+/// 720 phases, the most of a prediction's arithmetic, so the fill's many
+/// predictions of one star share them.
+struct CurveTerms {
+    gradient: Vec<f64>,
+    offset: f64,
+}
+
+impl CurveTerms {
+    fn new(star: &Star, mean: f64, k: usize) -> Self {
+        CurveTerms {
+            gradient: model_gradient(&sinusoid_model(mean, star.amplitude_mag, k), k),
+            offset: intensity_mean_of(&sinusoid_model(0.0, star.amplitude_mag, 1)),
+        }
     }
 }
 
@@ -555,13 +582,15 @@ impl PulsatorMethod {
     ) -> Result<StarPrediction> {
         let law = &star.relation(&self.config).map_err(|e| name_target(e, s))?;
         let mean = star_mean_mag(s, star)?;
-        let mut terms = EpochTerms::with_capacity(epochs.len());
+        let mut terms = EpochTerms::with_capacity(epochs.len(), self.harmonics);
         terms.add(s, star, epochs)?;
-        self.predict_star_from(s, star, law, mean, epochs, terms, notes)
+        let curve = CurveTerms::new(star, mean, self.harmonics);
+        self.predict_star_from(s, star, law, mean, epochs, terms, &curve, notes)
     }
 
     /// [`Self::predict_star`] with the star's relation and mean magnitude
-    /// and its epochs' terms ([`EpochTerms`]) in hand.
+    /// and its epochs' terms ([`EpochTerms`]) and light curve's
+    /// ([`CurveTerms`], of `mean`) in hand.
     #[allow(clippy::too_many_arguments)]
     fn predict_star_from(
         &self,
@@ -571,6 +600,7 @@ impl PulsatorMethod {
         mean: f64,
         epochs: &[Epoch],
         terms: EpochTerms,
+        curve: &CurveTerms,
         notes: &mut Vec<String>,
     ) -> Result<StarPrediction> {
         let cal = self.config.calibration_floor(&law.relation);
@@ -578,6 +608,7 @@ impl PulsatorMethod {
             phases,
             sigmas,
             phase_sigma_max,
+            sums,
         } = terms;
         let hours_needed = epochs.iter().map(|e| e.visit_s).sum::<f64>() / 3600.0;
         let k = self.harmonics;
@@ -594,8 +625,10 @@ impl PulsatorMethod {
         // The mean magnitude: the intensity mean of a K-harmonic fit, or
         // the points through the class's template in this band (while the
         // ephemeris gives the phases), whichever is the more precise.
-        let model = sinusoid_model(mean, star.amplitude_mag, k);
-        let fourier = intensity_mean_sigma(&phases, &sigmas, k, &model);
+        // intensity_mean_sigma of the K-harmonic sinusoid, from the sums.
+        let fourier = sums
+            .covariance(&phases, &sigmas)
+            .map(|cov| intensity_mean_sigma_of(&cov, &curve.gradient));
         let template = self
             .config
             .template_for(law.relation.class, &law.relation.band)
@@ -613,7 +646,7 @@ impl PulsatorMethod {
             }
             None => None,
         };
-        let offset = intensity_mean_of(&sinusoid_model(0.0, star.amplitude_mag, 1));
+        let offset = curve.offset;
         let est = match (&fourier, template_sigma) {
             (Ok(f), Some(t)) if t < *f => Some(("template", t)),
             (Ok(f), _) => Some(("fourier", *f)),
@@ -853,6 +886,64 @@ impl PulsatorMethod {
     }
 }
 
+/// What [`Method::predict`] works out of a base that an extra epoch does
+/// not change: the star, its relation, its mean magnitude, the base's
+/// terms and the light curve's.
+struct SharedBase {
+    star: Star,
+    law: StarRelation,
+    mean: f64,
+    terms: EpochTerms,
+    curve: CurveTerms,
+}
+
+impl PulsatorMethod {
+    /// [`SharedBase`] of `base`; an error where `predict` would refuse
+    /// before its fit (the caller then asks `predict`, which words it).
+    fn shared_base(&self, s: &Setting, base: &[Epoch]) -> Result<SharedBase> {
+        let star = Star::from_target(s.target)?;
+        let law = star.relation(&self.config)?;
+        let mean = star_mean_mag(s, &star)?;
+        let mut terms = EpochTerms::with_capacity(base.len() + 1, self.harmonics);
+        terms.add(s, &star, base)?;
+        let curve = CurveTerms::new(&star, mean, self.harmonics);
+        Ok(SharedBase {
+            star,
+            law,
+            mean,
+            terms,
+            curve,
+        })
+    }
+
+    /// `predict` of `base` then each of `extra`, from `sh` (of `base`).
+    fn each_extra(
+        &self,
+        s: &Setting,
+        sh: &SharedBase,
+        base: &[Epoch],
+        extra: &[Epoch],
+    ) -> Vec<Result<Prediction>> {
+        let mut all = Vec::with_capacity(base.len() + 1);
+        all.extend_from_slice(base);
+        extra
+            .iter()
+            .map(|e| {
+                let mut t = sh.terms.clone();
+                t.add(s, &sh.star, std::slice::from_ref(e))?;
+                all.truncate(base.len());
+                all.push(e.clone());
+                let mut notes = Vec::new();
+                Ok(self
+                    .predict_star_from(
+                        s, &sh.star, &sh.law, sh.mean, &all, t, &sh.curve, &mut notes,
+                    )?
+                    .0)
+            })
+            .collect()
+    }
+}
+
 impl Method for PulsatorMethod {
     fn kind(&self) -> Kind {
         Kind::Pulsator
@@ -900,31 +991,44 @@ impl Method for PulsatorMethod {
         base: &[Epoch],
         extra: &[Epoch],
     ) -> Vec<Result<Prediction>> {
-        let shared = || -> Result<(Star, StarRelation, f64, EpochTerms)> {
-            let star = Star::from_target(s.target)?;
-            let law = star.relation(&self.config)?;
-            let mean = star_mean_mag(s, &star)?;
-            let mut terms = EpochTerms::with_capacity(base.len() + 1);
-            terms.add(s, &star, base)?;
-            Ok((star, law, mean, terms))
-        };
-        let Ok((star, law, mean, terms)) = shared() else {
+        let Ok(sh) = self.shared_base(s, base) else {
             return crate::ladder::predict_each_by_one(self, s, em, base, extra);
         };
-        extra
-            .iter()
-            .map(|e| {
-                let mut t = terms.clone();
-                t.add(s, &star, std::slice::from_ref(e))?;
-                let mut all = Vec::with_capacity(base.len() + 1);
-                all.extend_from_slice(base);
-                all.push(e.clone());
-                let mut notes = Vec::new();
-                Ok(self
-                    .predict_star_from(s, &star, &law, mean, &all, t, &mut notes)?
-                    .0)
-            })
-            .collect()
+        self.each_extra(s, &sh, base, extra)
+    }
+
+    /// [`Method::predict`] of `base` and each extra from one [`SharedBase`].
+    fn predict_then_each_extra(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        base: &[Epoch],
+        extra_for: &mut dyn FnMut(&Prediction) -> Vec<Epoch>,
+    ) -> (Result<Prediction>, Vec<Result<Prediction>>) {
+        let Ok(sh) = self.shared_base(s, base) else {
+            return crate::ladder::predict_then_each_by_one(self, s, em, base, extra_for);
+        };
+        let mut notes = Vec::new();
+        let p0 = self
+            .predict_star_from(
+                s,
+                &sh.star,
+                &sh.law,
+                sh.mean,
+                base,
+                sh.terms.clone(),
+                &sh.curve,
+                &mut notes,
+            )
+            .map(|r| r.0);
+        match p0 {
+            Ok(p) => {
+                let extra = extra_for(&p);
+                let each = self.each_extra(s, &sh, base, &extra);
+                (Ok(p), each)
+            }
+            Err(e) => (Err(e), Vec::new()),
+        }
     }
 
     /// A done visit gives the wanted epoch in its phase bin (BJD_TDB phases,
