@@ -555,3 +555,52 @@ fn the_targets_file_says_bands_class_and_host_distance() {
     let e = m.facts(&l.targets[1]).unwrap_err().to_string();
     assert!(e.contains("host_mu_mag without host_mu_err_mag"), "{e}");
 }
+
+/// The scheduler's fill asks the precision of the epochs with one more on
+/// each of many nights (`Method::predict_each_extra`, and
+/// `predict_then_each_extra` with the base's own); the transient method
+/// prepares the target's model once, and every answer must be `predict`'s
+/// for the base followed by that epoch, to the last bit (the same JSON),
+/// also for a target it refuses (the same message).
+#[test]
+fn each_extra_epoch_is_predicted_as_predict_predicts_it() {
+    let site = site();
+    let t = transient("TEST-OPP", 50.0, -30.0, "2026-11-15T04:00:00Z", 18.3, 0.02);
+    let s = chase_setting(&site, &t, 60, Limits::new(30.0, -12.0).unwrap());
+    let m = TransientMethod::new().unwrap();
+    let g = m.goal(&s, &TestPhotometer, 12.0).unwrap();
+    assert!(g.epochs.len() >= 4);
+    let (base, rest) = g.epochs.split_at(g.epochs.len() - 3);
+    let mut extra = rest.to_vec();
+    extra.push(base[0].clone());
+    let json = |r: rung::Result<rung::ladder::Prediction>| match r {
+        Ok(p) => serde_json::to_string(&p).unwrap(),
+        Err(e) => e.to_string(),
+    };
+    let mut not_one = t.clone();
+    not_one.kind = Kind::Parallax; // refused: not a transient
+    let refused = rung::ladder::Setting {
+        target: &not_one,
+        ..s.clone()
+    };
+    for s in [&s, &refused] {
+        let want: Vec<String> =
+            rung::ladder::predict_each_by_one(&m, s, &TestPhotometer, base, &extra)
+                .into_iter()
+                .map(json)
+                .collect();
+        let got: Vec<String> = m
+            .predict_each_extra(s, &TestPhotometer, base, &extra)
+            .into_iter()
+            .map(json)
+            .collect();
+        assert_eq!(got, want);
+        let (p0, each) =
+            m.predict_then_each_extra(s, &TestPhotometer, base, &mut |_| extra.clone());
+        let want0 = m.predict(s, &TestPhotometer, base);
+        let base_ok = want0.is_ok();
+        assert_eq!(json(p0), json(want0));
+        let got: Vec<String> = each.into_iter().map(json).collect();
+        assert_eq!(got, if base_ok { want } else { Vec::new() });
+    }
+}

@@ -242,11 +242,22 @@ impl<'a> Board<'a> {
                 .map(|w| (w.0, w.1 - it.dur_s)),
         );
         ivs.sort_by(|a, b| a.0.total_cmp(&b.0));
+        // The span of the starts: a busy visit that cuts nothing of it
+        // leaves the list as it is ([`subtract`]'s own first test); the
+        // list only shrinks, so the span found first stays a bound.
+        let (lo, hi) = (
+            ivs.iter().map(|v| v.0).fold(f64::INFINITY, f64::min),
+            ivs.iter().map(|v| v.1).fold(f64::NEG_INFINITY, f64::max),
+        );
         for &(s, e, _, who) in &self.busy[it.night] {
             if who.is_some() && who == skip {
                 continue;
             }
-            subtract(ivs, tmp, s - it.dur_s, e);
+            let (a, b) = (s - it.dur_s, e);
+            if b <= lo || a >= hi {
+                continue;
+            }
+            subtract(ivs, tmp, a, b);
         }
         let sp = self.p.spacing_s[it.target];
         if sp > 0.0 {
@@ -259,7 +270,11 @@ impl<'a> Board<'a> {
                     skipped = true;
                     continue;
                 }
-                subtract(ivs, tmp, m - sp - half, m + sp - half);
+                let (a, b) = (m - sp - half, m + sp - half);
+                if b <= lo || a >= hi {
+                    continue;
+                }
+                subtract(ivs, tmp, a, b);
             }
         }
     }

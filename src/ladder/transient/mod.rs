@@ -1087,7 +1087,84 @@ impl Method for TransientMethod {
         _em: &dyn ExposureModel,
         epochs: &[Epoch],
     ) -> Result<Prediction> {
-        let (facts, model, std, pl) = self.prepare(s)?;
+        self.predict_prepared(s, &self.prepare(s)?, epochs)
+    }
+
+    /// [`Method::predict`] of `base` and each extra with the target's
+    /// [`TransientMethod::prepare`] worked out once (it depends on the
+    /// target alone, and is most of a prediction's work); `predict` for
+    /// each when it refuses the target (it words the refusal).
+    fn predict_each_extra(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        base: &[Epoch],
+        extra: &[Epoch],
+    ) -> Vec<Result<Prediction>> {
+        let Ok(prep) = self.prepare(s) else {
+            return crate::ladder::predict_each_by_one(self, s, em, base, extra);
+        };
+        self.each_extra_prepared(s, &prep, base, extra)
+    }
+
+    fn predict_then_each_extra(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        base: &[Epoch],
+        extra_for: &mut dyn FnMut(&Prediction) -> Vec<Epoch>,
+    ) -> (Result<Prediction>, Vec<Result<Prediction>>) {
+        let Ok(prep) = self.prepare(s) else {
+            return crate::ladder::predict_then_each_by_one(self, s, em, base, extra_for);
+        };
+        match self.predict_prepared(s, &prep, base) {
+            Ok(p) => {
+                let extra = extra_for(&p);
+                let each = self.each_extra_prepared(s, &prep, base, &extra);
+                (Ok(p), each)
+            }
+            Err(e) => (Err(e), Vec::new()),
+        }
+    }
+
+    fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {
+        Ok(self.chase(s, em, Some(goal_pct))?.prediction())
+    }
+}
+
+/// What [`TransientMethod::prepare`] gives: the facts, the light-curve
+/// model, the standardizer and the placement.
+type Prepared = (Facts, Model, Standardizer, Placement);
+
+impl TransientMethod {
+    /// `predict` of `base` followed by each of `extra`, from `prep`.
+    fn each_extra_prepared(
+        &self,
+        s: &Setting,
+        prep: &Prepared,
+        base: &[Epoch],
+        extra: &[Epoch],
+    ) -> Vec<Result<Prediction>> {
+        let mut all = Vec::with_capacity(base.len() + 1);
+        all.extend_from_slice(base);
+        extra
+            .iter()
+            .map(|e| {
+                all.truncate(base.len());
+                all.push(e.clone());
+                self.predict_prepared(s, prep, &all)
+            })
+            .collect()
+    }
+
+    /// [`Method::predict`] after its [`TransientMethod::prepare`].
+    fn predict_prepared(
+        &self,
+        s: &Setting,
+        prep: &Prepared,
+        epochs: &[Epoch],
+    ) -> Result<Prediction> {
+        let (facts, model, std, pl) = prep;
         let cfg = &self.cfg;
         let sigma = |snr: f64| {
             fit::measurement_sigma(
@@ -1173,9 +1250,5 @@ impl Method for TransientMethod {
             notes,
             error_terms: budget.map(|b| b.error_terms()).unwrap_or_default(),
         })
-    }
-
-    fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {
-        Ok(self.chase(s, em, Some(goal_pct))?.prediction())
     }
 }
