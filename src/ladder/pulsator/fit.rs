@@ -357,6 +357,7 @@ mod tests {
     /// the intensity mean's error from it and from the gradient worked out
     /// apart is [`intensity_mean_sigma`]'s.
     #[test]
+    #[allow(clippy::needless_range_loop)]
     fn sums_point_by_point_are_the_normal_matrix_bit_for_bit() {
         let k = 3;
         let n = 2 * k + 1;

@@ -1193,10 +1193,10 @@ impl TransientMethod {
                 }
             }
         }
-        let f = fit::fisher_precision(&model, &pl.params, &meas, cfg.template.rise_sigma_days);
+        let f = fit::fisher_precision(model, &pl.params, &meas, cfg.template.rise_sigma_days);
         let budget = f
             .as_ref()
-            .map(|f| std.budget(cfg, &model, Some(f), facts.role, facts.z))
+            .map(|f| std.budget(cfg, model, Some(f), facts.role, facts.z))
             .transpose()?;
         let hours = epochs.iter().map(|e| e.visit_s).sum::<f64>() / 3600.0;
         let mut notes = vec![format!("light curve: {}", pl.how)];
