@@ -252,10 +252,17 @@ impl Base {
         err: &mut Vec<f64>,
     ) {
         let n = pre.dt.len();
-        est.clear();
-        err.clear();
+        // NaN outside the runs; the entries inside are written below (so
+        // not filled first: on a screen of every candidate that halves the
+        // writes).
         est.resize(n, f64::NAN);
         err.resize(n, f64::NAN);
+        let mut gap_from = 0;
+        for &(from, to) in runs.iter().chain(std::iter::once(&(n, n))) {
+            est[gap_from..from].fill(f64::NAN);
+            err[gap_from..from].fill(f64::NAN);
+            gap_from = to;
+        }
         #[cfg(target_arch = "x86_64")]
         if std::arch::is_x86_feature_detected!("avx2") {
             for &(from, to) in runs {
@@ -358,6 +365,28 @@ fn j_with_all(acc: &Acc, pre: &Pre, out: &mut Vec<f64>) {
     j_with_body(acc, pre, out, 0);
 }
 
+/// Where A's rows, (1, 0, dt, 0, Pα) and (0, 1, 0, dt, Pδ), are not
+/// structurally zero. [`j_with_all`] adds to the normal matrix only the
+/// entries of each row's outer product w·rowᵀ·row at these indices (9 of
+/// 25), and its numbers are still `Acc::add`'s, to the bit:
+///
+/// - a term left out is (w·x)·y with x or y the constant 0 and the other
+///   among 1, dt, Pα, Pδ (of the same row). When w·x and y are finite it is
+///   ±0, and adding ±0 to an entry e changes it only when e is −0; no entry
+///   of a normal matrix is ever −0 (they start at +0 or the prior's 10⁻⁸
+///   and only have terms added, and in round-to-nearest a sum is −0 only
+///   when both terms are). So every entry is the one `Acc::add` forms.
+/// - otherwise the term is not finite: w is not finite, and so is the
+///   kept term (w·1)·1 of entry (0, 0) or (1, 1); or z, the one of x, y
+///   that is not the constant 0, or w·z is not finite, and so is the kept
+///   diagonal term (w·z)·z of the same row (a NaN times anything, or ±∞
+///   times a non-zero number, is not finite, and ±∞·0 is NaN). An entry a
+///   term not finite is added to stays not finite, so the matrix is not
+///   finite both ways and J is infinite both ways.
+///
+/// The DCR vector b is updated in full (its terms are not checked).
+const NONZERO: [[usize; 3]; 2] = [[0, 2, 4], [1, 3, 4]];
+
 /// [`j_with_all`]'s loop in AVX2 instructions, four candidates in each
 /// (no fused multiply-add: each operation the one [`j_with_body`] does on
 /// each lane); the last candidates, fewer than four, by [`j_with_body`].
@@ -386,13 +415,17 @@ unsafe fn j_with_avx2(acc: &Acc, pre: &Pre, out: &mut [f64]) {
         let mut a: [[__m256d; N]; N] =
             std::array::from_fn(|r| std::array::from_fn(|c| _mm256_set1_pd(acc.n[r][c])));
         let mut b: [__m256d; N] = std::array::from_fn(|r| _mm256_set1_pd(acc.b[r]));
-        for (row, d) in [
-            ([one, zero, dt, zero, pa], dra),
-            ([zero, one, zero, dt, pd], ddec),
+        // Only the entries of each row's outer product off its structural
+        // zeros (see [`NONZERO`]).
+        for (row, d, nz) in [
+            ([one, zero, dt, zero, pa], dra, NONZERO[0]),
+            ([zero, one, zero, dt, pd], ddec, NONZERO[1]),
         ] {
             for r in 0..N {
                 b[r] = add(b[r], mul(mul(w, row[r]), d));
-                for c in 0..N {
+            }
+            for r in nz {
+                for c in nz {
                     a[r][c] = add(a[r][c], mul(mul(w, row[r]), row[c]));
                 }
             }
@@ -482,17 +515,20 @@ fn j_with_body(acc: &Acc, pre: &Pre, out: &mut [f64], from: usize) {
         let one = [1.0; LANES];
         let zero = [0.0; LANES];
         // Acc::add (super::add_epoch), sign 1: b[r] += w·row[r]·d and
-        // n[r][c] += w·row[r]·row[c], the first row, then the second.
+        // n[r][c] += w·row[r]·row[c], the first row, then the second; the
+        // terms at a row's structural zeros left out (see [`NONZERO`]).
         let mut a: [[Lanes; N]; N] =
             std::array::from_fn(|r| std::array::from_fn(|c| [acc.n[r][c]; LANES]));
         let mut b: [Lanes; N] = std::array::from_fn(|r| [acc.b[r]; LANES]);
-        for (row, d) in [
-            ([one, zero, dt, zero, pa], dra),
-            ([zero, one, zero, dt, pd], ddec),
+        for (row, d, nz) in [
+            ([one, zero, dt, zero, pa], dra, NONZERO[0]),
+            ([zero, one, zero, dt, pd], ddec, NONZERO[1]),
         ] {
             for r in 0..N {
                 b[r] = lanes(|l| b[r][l] + w[l] * row[r][l] * d[l]);
-                for c in 0..N {
+            }
+            for r in nz {
+                for c in nz {
                     a[r][c] = lanes(|l| a[r][c][l] + w[l] * row[r][l] * row[c][l]);
                 }
             }
@@ -1525,5 +1561,102 @@ mod tests {
         admissible_runs(&st, None, &mut runs);
         let listed: usize = runs.iter().map(|&(a, b)| b - a).sum();
         assert!(listed < cands.len() - st.chosen.len(), "{listed}");
+    }
+
+    /// A small generator for the random problems below (64-bit linear
+    /// congruential, Knuth's MMIX constants; from memory).
+    struct Lcg(u64);
+
+    impl Lcg {
+        fn next(&mut self) -> f64 {
+            self.0 = self
+                .0
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (self.0 >> 11) as f64 / (1u64 << 53) as f64
+        }
+    }
+
+    /// Candidates of a random problem: nights over two to four years, one
+    /// to three instants a night, seasons of about half a year.
+    fn random_cands(g: &mut Lcg) -> Vec<Candidate> {
+        let nights = 20 + (g.next() * 120.0) as usize;
+        let years = 2.0 + 2.0 * g.next();
+        let mut v = Vec::new();
+        for k in 0..nights {
+            let t = years * k as f64 / nights as f64;
+            for _ in 0..1 + (g.next() * 3.0) as usize {
+                let ph = std::f64::consts::TAU * (t + 0.01 * g.next());
+                v.push(Candidate {
+                    t_yr: 2027.0 + t,
+                    pf_ra: ph.sin() * (0.6 + 0.4 * g.next()),
+                    pf_dec: 0.4 * ph.cos() * g.next(),
+                    sigma_mas: 0.5 + 2.0 * g.next(),
+                    dcr_ra_mas: 0.3 * (g.next() - 0.5),
+                    dcr_dec_mas: 0.2 * (g.next() - 0.5),
+                    hours: 0.25 + (g.next() * 3.0).floor() * 0.25,
+                    slot: k,
+                    season: (2.0 * t) as usize,
+                });
+            }
+        }
+        v
+    }
+    #[test]
+    fn every_exact_j_at_once_is_each_ones_on_random_designs() {
+        // j_with_all leaves out the terms at A's structural zeros (see
+        // NONZERO); on random problems, designs grown and shrunk (removals
+        // make entries cancel, some to zero), and candidates with extreme or
+        // not finite values (w·dt overflowing, w = 0, w = ∞, dt = 0, factors
+        // 0 or NaN), its J is State::j_with's bit for bit.
+        let mut g = Lcg(41);
+        for case in 0..200 {
+            let mut cands = random_cands(&mut g);
+            let t_ref = cands[(g.next() * cands.len() as f64) as usize].t_yr;
+            for c in cands.iter_mut() {
+                match (g.next() * 40.0) as usize {
+                    0 => c.sigma_mas = 1e-150,
+                    1 => c.sigma_mas = 1e-200,
+                    2 => c.sigma_mas = f64::INFINITY,
+                    3 => c.t_yr = t_ref,
+                    4 => c.pf_ra = 0.0,
+                    5 => c.pf_dec = -0.0,
+                    6 => c.pf_dec = f64::NAN,
+                    7 => c.t_yr = 1e300,
+                    8 => c.dcr_ra_mas = f64::INFINITY,
+                    _ => {}
+                }
+            }
+            let p = Problem {
+                cands: &cands,
+                t_ref,
+                max_per_season: 1 + (g.next() * 4.0) as usize,
+            };
+            let pre = Pre::of(&p);
+            let mut st = State::new(p, &pre);
+            let mut js = Vec::new();
+            for step in 0..12 {
+                j_with_all(&st.acc, &pre, &mut js);
+                let mut plain = Vec::new();
+                j_with_body(&st.acc, &pre, &mut plain, 0);
+                for i in 0..cands.len() {
+                    let want = st.j_with(i).to_bits();
+                    assert_eq!(js[i].to_bits(), want, "case {case} step {step} cand {i}");
+                    assert_eq!(
+                        plain[i].to_bits(),
+                        want,
+                        "plain: case {case} step {step} {i}"
+                    );
+                }
+                if g.next() < 0.3 && !st.chosen.is_empty() {
+                    st.remove_at((g.next() * st.chosen.len() as f64) as usize);
+                } else {
+                    let i = (g.next() * cands.len() as f64) as usize;
+                    if st.may_add(i, None) {
+                        st.push(i);
+                    }
+                }
+            }
+        }
     }
 }
