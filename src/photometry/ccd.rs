@@ -252,11 +252,15 @@ impl Exposure {
         if !(lo_r < hi_r && hi_r.is_finite()) {
             return 0.5 * (lo_r + hi_r);
         }
-        if !(a > 0.0 && a.is_finite())
-            || !(b > 0.0 && b.is_finite())
-            || !(p > 0.0 && p.is_finite())
-            || !(k >= 0.0 && k.is_finite())
-        {
+        let weighable = a > 0.0
+            && a.is_finite()
+            && b > 0.0
+            && b.is_finite()
+            && p > 0.0
+            && p.is_finite()
+            && k >= 0.0
+            && k.is_finite();
+        if !weighable {
             return hi_r;
         }
         // G and dG/du at u.
