@@ -997,7 +997,7 @@ impl Method for PulsatorMethod {
         self.each_extra(s, &sh, base, extra)
     }
 
-    /// [`Method::predict`] of `base` and each extra from one [`SharedBase`].
+    /// [`Method::predict`] of `base` and each extra from one `SharedBase`.
     fn predict_then_each_extra(
         &self,
         s: &Setting,

@@ -1091,7 +1091,7 @@ impl Method for TransientMethod {
     }
 
     /// [`Method::predict`] of `base` and each extra with the target's
-    /// [`TransientMethod::prepare`] worked out once (it depends on the
+    /// `prepare` worked out once (it depends on the
     /// target alone, and is most of a prediction's work); `predict` for
     /// each when it refuses the target (it words the refusal).
     fn predict_each_extra(
