@@ -334,9 +334,15 @@ impl Base {
             }
             let j = var + bias * bias;
             let e = SCREEN_REL * (var.abs() + c[4][4].abs() + bias_abs * (bias_abs + 1.0));
-            let ok = det.is_finite() && det > 0.0 && j.is_finite();
-            est[i] = if ok { j } else { f64::NAN };
-            err[i] = if ok { e } else { f64::NAN };
+            // Each lane's answer or NaN, chosen by a bit mask: every
+            // lane's arithmetic runs in full (with `&&` and `if` the
+            // compiler loaded the DCR shares and stored the answers
+            // under masks, slow memory operations), the same bits out.
+            let ok = det.is_finite() & (det > 0.0) & j.is_finite();
+            let keep = (ok as u64).wrapping_neg();
+            let nan = f64::NAN.to_bits() & !keep;
+            est[i] = f64::from_bits((j.to_bits() & keep) | nan);
+            err[i] = f64::from_bits((e.to_bits() & keep) | nan);
         }
     }
 }
@@ -1637,7 +1643,7 @@ mod tests {
             let mut js = Vec::new();
             for step in 0..12 {
                 j_with_all(&st.acc, &pre, &mut js);
-                let mut plain = Vec::new();
+                let mut plain = vec![0.0; cands.len()];
                 j_with_body(&st.acc, &pre, &mut plain, 0);
                 for i in 0..cands.len() {
                     let want = st.j_with(i).to_bits();
