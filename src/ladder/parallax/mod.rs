@@ -973,9 +973,15 @@ impl ParallaxMethod {
             .filter_map(|i| s.from.checked_add_days(chrono::Days::new(i as u64)))
             .collect();
         use rayon::prelude::*;
-        let nights: Vec<NightFactor> = dates
+        // The range's nights looked up at once (one site key, the missing
+        // ones built in parallel), then each night's factor.
+        let shared = match (dates.first(), dates.last()) {
+            (Some(a), Some(b)) => Night::shared_range(s.site, *a, *b)?,
+            _ => Vec::new(),
+        };
+        let nights: Vec<NightFactor> = shared
             .par_iter()
-            .map(|d| self.night_factor(s, *d, &place, &lim, threshold))
+            .map(|night| self.night_factor(night, &place, &lim, threshold))
             .collect::<Result<Vec<_>>>()?;
         Ok(Series {
             nights,
@@ -987,13 +993,12 @@ impl ParallaxMethod {
 
     fn night_factor(
         &self,
-        s: &Setting,
-        date: NaiveDate,
+        night: &Night,
         place: &CatalogPlace,
         lim: &Limits,
         threshold: f64,
     ) -> Result<NightFactor> {
-        let night = Night::shared(s.site, date)?;
+        let date = night.date;
         // One track serves the windows and the instants in them.
         let track = night.track(place);
         let tn = night.windows_on(&track, lim);
@@ -1041,9 +1046,19 @@ impl ParallaxMethod {
             let x = kasten_young(o.alt_rad.to_degrees())?;
             (o.ha_rad.abs() <= ha_lim_rad && x <= self.cfg.max_airmass).then_some(x)
         };
+        let alt_lim = altitude_for_airmass_deg(self.cfg.max_airmass);
+        let usable_at = |o: &Observed| {
+            usable(
+                o.alt_rad,
+                o.ha_rad,
+                ha_lim_rad,
+                self.cfg.max_airmass,
+                alt_lim,
+            )
+        };
         let frame = track.frame();
         // Hour-angle half-width of the usable interval, closed form.
-        let alt_x = altitude_for_airmass_deg(self.cfg.max_airmass).unwrap_or(0.0);
+        let alt_x = alt_lim.unwrap_or(0.0);
         let h_use = track
             .half_width_above(frame.refraction().geometric(alt_x.to_radians()))
             .map(|h| h.min(ha_lim_rad));
@@ -1059,8 +1074,18 @@ impl ParallaxMethod {
             let a = frame.offset(*wa);
             let k = (wb.seconds_since(wa) / WINDOW_STEP_S).floor() as i64;
             let at = |i: i64| a + i as f64 * WINDOW_STEP_S;
-            let obs = |i: i64| track.observe(at(i));
-            let good = |i: i64| ok(&obs(i)).is_some();
+            // The instants a stretch's ends settle on are asked again for
+            // the nearest to the meridian: each observed once.
+            let seen: std::cell::RefCell<Vec<(i64, Observed)>> = Default::default();
+            let obs = |i: i64| -> Observed {
+                if let Some((_, o)) = seen.borrow().iter().find(|(j, _)| *j == i) {
+                    return *o;
+                }
+                let o = track.observe(at(i));
+                seen.borrow_mut().push((i, o));
+                o
+            };
+            let good = |i: i64| usable_at(&obs(i));
             if let Some(h) = h_use {
                 let w = h / crate::astro::visibility::ERA_RATE_RAD_S;
                 // One usable stretch around each transit (the whole window
@@ -1151,6 +1176,33 @@ impl ParallaxMethod {
     }
 }
 
+/// Whether an instant at observed altitude `alt_rad` and hour angle
+/// `ha_rad` is usable: |HA| ≤ `ha_lim_rad` and the Kasten–Young airmass at
+/// most `max_airmass`, whose altitude is `alt_lim_deg`
+/// ([`altitude_for_airmass_deg`]). The airmass itself is computed only
+/// where the altitude stands within 1e-6° of that altitude: the airmass
+/// falls as the altitude rises, and 1e-6° is 3e-8 in airmass at 1.5, far
+/// above its rounding; the same answer as asking the airmass (unit test).
+fn usable(
+    alt_rad: f64,
+    ha_rad: f64,
+    ha_lim_rad: f64,
+    max_airmass: f64,
+    alt_lim_deg: Option<f64>,
+) -> bool {
+    let within_ha = ha_rad.abs() <= ha_lim_rad;
+    if !within_ha {
+        return false;
+    }
+    const CLEAR_DEG: f64 = 1e-6;
+    let a = alt_rad.to_degrees();
+    match alt_lim_deg {
+        Some(l) if a >= l + CLEAR_DEG && a <= 90.0 => true,
+        Some(l) if a < l - CLEAR_DEG => false,
+        _ => kasten_young(a).is_some_and(|x| x <= max_airmass),
+    }
+}
+
 impl Method for ParallaxMethod {
     fn kind(&self) -> Kind {
         Kind::Parallax
@@ -1228,6 +1280,69 @@ impl Method for ParallaxMethod {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// `usable` gives the answer of the airmass itself (`kasten_young` ≤
+    /// the limit, |HA| within its limit) at altitudes spread over the sky and
+    /// packed around each limit's altitude, for limits from 1 to past the
+    /// horizon's airmass, and at non-finite inputs.
+    #[test]
+    fn usable_is_the_airmass_test() {
+        let reference = |alt_rad: f64, ha_rad: f64, ha_lim: f64, max: f64| {
+            kasten_young(alt_rad.to_degrees()).is_some_and(|x| ha_rad.abs() <= ha_lim && x <= max)
+        };
+        let mut seed = 0x9e37_79b9_7f4a_7c15_u64;
+        let mut next = move || {
+            seed ^= seed << 13;
+            seed ^= seed >> 7;
+            seed ^= seed << 17;
+            (seed >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let ha_lim = 1.0f64.to_radians() * 15.0;
+        let mut checked = 0;
+        for max in [
+            0.5,
+            1.0,
+            1.000_001,
+            1.2,
+            1.5,
+            2.0,
+            3.0,
+            10.0,
+            38.0,
+            40.0,
+            f64::NAN,
+        ] {
+            let lim = altitude_for_airmass_deg(max);
+            let mut alts: Vec<f64> = (0..2000).map(|_| -5.0 + 100.0 * next()).collect();
+            if let Some(l) = lim {
+                for k in -400..=400 {
+                    alts.push(l + k as f64 * 5e-9);
+                    alts.push(l + k as f64 * 1e-6 / 100.0 * 137.0);
+                }
+                alts.extend([l, l.next_up(), l.next_down(), l + 1e-6, l - 1e-6]);
+            }
+            alts.extend([0.0, 90.0, 90.0f64.next_up(), -0.0, f64::NAN, f64::INFINITY]);
+            for a in alts {
+                for ha in [
+                    0.0,
+                    0.5 * ha_lim,
+                    ha_lim,
+                    ha_lim.next_up(),
+                    -ha_lim,
+                    f64::NAN,
+                ] {
+                    let a_rad = a.to_radians();
+                    assert_eq!(
+                        usable(a_rad, ha, ha_lim, max, lim),
+                        reference(a_rad, ha, ha_lim, max),
+                        "alt {a}°, ha {ha}, max airmass {max}"
+                    );
+                    checked += 1;
+                }
+            }
+        }
+        assert!(checked > 100_000);
+    }
 
     /// The epoch rule sampled as it reads: every WINDOW_STEP_S from each
     /// window's start and the transit, each on the night's own context.

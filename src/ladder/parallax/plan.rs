@@ -1794,7 +1794,10 @@ impl ParallaxMethod {
             use rayon::prelude::*;
             let more = dates
                 .par_iter()
-                .map(|d| self.night_factor(s, *d, &place, &lim, series.threshold))
+                .map(|d| {
+                    let night = Night::shared(s.site, *d)?;
+                    self.night_factor(&night, &place, &lim, series.threshold)
+                })
                 .collect::<Result<Vec<_>>>();
             match more {
                 Ok(more) => {
