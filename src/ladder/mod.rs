@@ -568,18 +568,51 @@ pub fn predict_then_each_by_one<M: Method + ?Sized>(
     base: &[Epoch],
     extra_for: &mut dyn FnMut(&Prediction) -> Vec<Epoch>,
 ) -> (Result<Prediction>, Vec<Result<Prediction>>) {
-    match m.predict(s, em, base) {
+    then_each(m.predict(s, em, base), extra_for, |extra| {
+        if extra.is_empty() {
+            Vec::new()
+        } else {
+            m.predict_each_extra(s, em, base, extra)
+        }
+    })
+}
+
+/// What [`Method::predict_then_each_extra`] answers from the base's
+/// prediction: when it is not refused, `each` of the epochs `extra_for`
+/// gives for it; when it is, no extra answer.
+pub fn then_each(
+    base: Result<Prediction>,
+    extra_for: &mut dyn FnMut(&Prediction) -> Vec<Epoch>,
+    each: impl FnOnce(&[Epoch]) -> Vec<Result<Prediction>>,
+) -> (Result<Prediction>, Vec<Result<Prediction>>) {
+    match base {
         Ok(p) => {
             let extra = extra_for(&p);
-            let each = if extra.is_empty() {
-                Vec::new()
-            } else {
-                m.predict_each_extra(s, em, base, &extra)
-            };
-            (Ok(p), each)
+            let answers = each(&extra);
+            (Ok(p), answers)
         }
         Err(e) => (Err(e), Vec::new()),
     }
+}
+
+/// `f` of `base` with each of `extra` in turn appended (one epoch list
+/// reused), one answer per extra epoch, in order; `f` is given the extra
+/// epoch and the whole list.
+pub fn with_each_extra(
+    base: &[Epoch],
+    extra: &[Epoch],
+    mut f: impl FnMut(&Epoch, &[Epoch]) -> Result<Prediction>,
+) -> Vec<Result<Prediction>> {
+    let mut all = Vec::with_capacity(base.len() + 1);
+    all.extend_from_slice(base);
+    extra
+        .iter()
+        .map(|e| {
+            all.truncate(base.len());
+            all.push(e.clone());
+            f(e, &all)
+        })
+        .collect()
 }
 
 /// Goals of one target asked one after another ([`Method::goal_search`]).

@@ -1256,16 +1256,12 @@ impl Method for ParallaxMethod {
         let Some(sh) = self.shared_base(s, em, base) else {
             return crate::ladder::predict_then_each_by_one(self, s, em, base, extra_for);
         };
-        match self.shared_prediction(&sh, None) {
-            Ok(p) => {
-                let each = extra_for(&p)
-                    .iter()
-                    .map(|e| self.shared_prediction(&sh, Some(e)))
-                    .collect();
-                (Ok(p), each)
-            }
-            Err(e) => (Err(e), Vec::new()),
-        }
+        crate::ladder::then_each(self.shared_prediction(&sh, None), extra_for, |extra| {
+            extra
+                .iter()
+                .map(|e| self.shared_prediction(&sh, Some(e)))
+                .collect()
+        })
     }
 
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {

@@ -924,23 +924,14 @@ impl PulsatorMethod {
         base: &[Epoch],
         extra: &[Epoch],
     ) -> Vec<Result<Prediction>> {
-        let mut all = Vec::with_capacity(base.len() + 1);
-        all.extend_from_slice(base);
-        extra
-            .iter()
-            .map(|e| {
-                let mut t = sh.terms.clone();
-                t.add(s, &sh.star, std::slice::from_ref(e))?;
-                all.truncate(base.len());
-                all.push(e.clone());
-                let mut notes = Vec::new();
-                Ok(self
-                    .predict_star_from(
-                        s, &sh.star, &sh.law, sh.mean, &all, t, &sh.curve, &mut notes,
-                    )?
-                    .0)
-            })
-            .collect()
+        crate::ladder::with_each_extra(base, extra, |e, all| {
+            let mut t = sh.terms.clone();
+            t.add(s, &sh.star, std::slice::from_ref(e))?;
+            let mut notes = Vec::new();
+            Ok(self
+                .predict_star_from(s, &sh.star, &sh.law, sh.mean, all, t, &sh.curve, &mut notes)?
+                .0)
+        })
     }
 }
 
@@ -1021,14 +1012,7 @@ impl Method for PulsatorMethod {
                 &mut notes,
             )
             .map(|r| r.0);
-        match p0 {
-            Ok(p) => {
-                let extra = extra_for(&p);
-                let each = self.each_extra(s, &sh, base, &extra);
-                (Ok(p), each)
-            }
-            Err(e) => (Err(e), Vec::new()),
-        }
+        crate::ladder::then_each(p0, extra_for, |extra| self.each_extra(s, &sh, base, extra))
     }
 
     /// A done visit gives the wanted epoch in its phase bin (BJD_TDB phases,

@@ -1117,14 +1117,9 @@ impl Method for TransientMethod {
         let Ok(prep) = self.prepare(s) else {
             return crate::ladder::predict_then_each_by_one(self, s, em, base, extra_for);
         };
-        match self.predict_prepared(s, &prep, base) {
-            Ok(p) => {
-                let extra = extra_for(&p);
-                let each = self.each_extra_prepared(s, &prep, base, &extra);
-                (Ok(p), each)
-            }
-            Err(e) => (Err(e), Vec::new()),
-        }
+        crate::ladder::then_each(self.predict_prepared(s, &prep, base), extra_for, |extra| {
+            self.each_extra_prepared(s, &prep, base, extra)
+        })
     }
 
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {
@@ -1145,16 +1140,7 @@ impl TransientMethod {
         base: &[Epoch],
         extra: &[Epoch],
     ) -> Vec<Result<Prediction>> {
-        let mut all = Vec::with_capacity(base.len() + 1);
-        all.extend_from_slice(base);
-        extra
-            .iter()
-            .map(|e| {
-                all.truncate(base.len());
-                all.push(e.clone());
-                self.predict_prepared(s, prep, &all)
-            })
-            .collect()
+        crate::ladder::with_each_extra(base, extra, |_, all| self.predict_prepared(s, prep, all))
     }
 
     /// [`Method::predict`] after its [`TransientMethod::prepare`].
