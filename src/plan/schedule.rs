@@ -422,6 +422,19 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
     let origin = slots[0].night.start;
     let secs = |t: Instant| t.seconds_since(&origin);
     let not_before_s = req.not_before.map(|t| secs(t).ceil());
+    // A night's windows as whole seconds from the origin where a visit of
+    // `dur` seconds may start and end (a second inside each end, not before
+    // `not_before`), those too short left out.
+    let visit_windows = |wins: &[(Instant, Instant)], dur: f64| -> Vec<(f64, f64)> {
+        wins.iter()
+            .map(|(a, b)| {
+                let a = (secs(*a) + 1.0).ceil();
+                let a = not_before_s.map_or(a, |n| a.max(n));
+                (a, (secs(*b) - 1.0).floor())
+            })
+            .filter(|(a, b)| b - a >= dur)
+            .collect()
+    };
     let by_name: HashMap<&str, usize> = req
         .targets
         .iter()
@@ -714,15 +727,7 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                     .entry((ti, ni))
                     .or_insert_with(|| slots[ni].night.windows(&place, &req.limits).windows)
                     .clone();
-                let windows: Vec<(f64, f64)> = wins
-                    .iter()
-                    .map(|(a, b)| {
-                        let a = (secs(*a) + 1.0).ceil();
-                        let a = not_before_s.map_or(a, |n| a.max(n));
-                        (a, (secs(*b) - 1.0).floor())
-                    })
-                    .filter(|(a, b)| b - a >= dur)
-                    .collect();
+                let windows = visit_windows(&wins, dur);
                 if windows.is_empty() {
                     continue;
                 }
@@ -807,16 +812,7 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                             continue;
                         };
                         let dur = tpl.visit_s.max(1.0).round();
-                        let windows: Vec<(f64, f64)> = tn
-                            .windows
-                            .iter()
-                            .map(|(a, b)| {
-                                let a = (secs(*a) + 1.0).ceil();
-                                let a = not_before_s.map_or(a, |n| a.max(n));
-                                (a, (secs(*b) - 1.0).floor())
-                            })
-                            .filter(|(a, b)| b - a >= dur)
-                            .collect();
+                        let windows = visit_windows(&tn.windows, dur);
                         // The visit centred on the target's highest point, kept inside a window.
                         let Some(&(w0, w1)) = windows
                             .iter()
