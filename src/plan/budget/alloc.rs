@@ -1413,6 +1413,21 @@ pub fn steps_one_by_one(p: &Problem) -> Vec<Step> {
 
 /// The steps after weight `w` whose set was `before`, one after the other,
 /// until one reaches `until` (or none adds weight), at most `max_steps`.
+///
+/// Each step's fewest-hours search also settles the step before's weight
+/// search, most of the time: step k's set c (the fewest hours for more
+/// weight than step k − 1) is the best allocation at its own hours unless
+/// a heavier set fits them too, and the next fewest-hours search (more
+/// weight than c, from c and its cheapest goal more, the very search the
+/// next step starts with) finds the fewest hours of any heavier set. When
+/// those lie clearly above c's hours (by more than the searches'
+/// tolerances), nothing heavier fits c's hours and the weight search at
+/// them (which starts from c, just under its weight) ends on c's weight,
+/// where its fewest-hours pass keeps c: the step is c, and the next
+/// search's answer is the next step's first search. Otherwise (a heavier
+/// set within a hair of c's hours, a search stopped at [`NODE_LIMIT`]) the
+/// weight search runs as before. The tests hold the curve to the searches
+/// from scratch, bit for bit, ties included.
 fn stretch(
     p: &Problem,
     mut w: f64,
@@ -1421,6 +1436,9 @@ fn stretch(
     max_steps: usize,
 ) -> Vec<Step> {
     let mut out: Vec<Step> = Vec::new();
+    // The fewest-hours search of the step to come, when the step before
+    // already ran it (None: not yet run; Some(None): it found no set).
+    let mut ahead: Option<Option<Choice>> = None;
     for _ in 0..max_steps {
         if until.is_some_and(|u| w >= u) {
             break;
@@ -1428,11 +1446,30 @@ fn stretch(
         // The step before and its cheapest goal more: a set past its weight,
         // the first incumbent of the fewest-hours search.
         let before = out.last().map_or(before, |s| &s.items[..]);
-        let Some(c) = least_hours_below(p, w + EPS_W * 10.0, one_more(p, before)) else {
+        let found = match ahead.take() {
+            Some(c) => c,
+            None => least_hours_below(p, w + EPS_W * 10.0, one_more(p, before)),
+        };
+        let Some(c) = found else {
             break;
         };
-        // The set just found fits its own hours: the weight search starts there.
-        let a = allocate_from(p, &Capacity::Total(c.hours), &c.items);
+        // The search after this step's, were the step c itself.
+        let next = least_hours_below(p, c.weight + EPS_W * 10.0, one_more(p, &c.items));
+        let heavier_clear = match &next {
+            None => true,
+            Some(n) => n.proven_optimal && n.hours > c.hours + 4.0 * EPS_H,
+        };
+        let a = if heavier_clear && c.proven_optimal {
+            ahead = Some(next);
+            c.clone()
+        } else {
+            // The set just found fits its own hours: the weight search starts there.
+            let a = allocate_from(p, &Capacity::Total(c.hours), &c.items);
+            if a.items == c.items {
+                ahead = Some(next);
+            }
+            a
+        };
         if a.weight <= w + EPS_W {
             break;
         }
