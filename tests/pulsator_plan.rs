@@ -227,3 +227,35 @@ fn each_extra_epoch_is_predicted_as_predict_predicts_it() {
         plan_support::assert_each_extra_as_predict(&m, &s, &em, b, &extra);
     }
 }
+
+/// The pulsator's goal search (the budget's inverse curve asks it goal
+/// after goal, keeping the star's phase windows between asks) answers each
+/// goal as `Method::goal` does, to the last bit, also when the next ask is
+/// over other nights (the windows are then worked out again) and when an
+/// ask is refused.
+#[test]
+fn the_goal_search_answers_each_goal_as_goal_does() {
+    let site = sites::resolve("pampa-lucero").unwrap();
+    let t = star(10.0);
+    let m = PulsatorMethod::default();
+    let em = PhotonLimited;
+    let mut search = m.goal_search();
+    let asks = [
+        ("2026-12-01", "2026-12-20", 25.0),
+        ("2026-12-01", "2026-12-20", 11.0),
+        ("2026-12-01", "2026-12-20", 3.0),
+        ("2026-12-01", "2026-12-20", 150.0),
+        ("2026-12-05", "2027-01-10", 10.5),
+        ("2026-12-05", "2027-01-10", 12.0),
+    ];
+    for (from, to, goal) in asks {
+        let s = plan_support::setting(&site, &t, from, to);
+        let kept = search.goal(&s, &em, goal);
+        let fresh = m.goal(&s, &em, goal);
+        assert_eq!(
+            format!("{kept:?}"),
+            format!("{fresh:?}"),
+            "{from} to {to}, goal {goal} %"
+        );
+    }
+}

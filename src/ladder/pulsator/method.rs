@@ -358,7 +358,7 @@ impl PulsatorMethod {
     /// ephemeris's phase uncertainty and, with an exposure model, the epochs
     /// (per-point SNR `self.snr`) and the distance precision they buy.
     pub fn analyse(&self, s: &Setting, em: Option<&dyn ExposureModel>) -> Result<PhaseReport> {
-        let r = self.analyse_with(s, em, self.bins, self.snr)?;
+        let r = self.analyse_with(s, em, self.bins, self.snr, &mut KnownWindows::default())?;
         Ok(self.add_discovery(s, em, r))
     }
 
@@ -368,6 +368,7 @@ impl PulsatorMethod {
         em: Option<&dyn ExposureModel>,
         bins: usize,
         snr: f64,
+        known: &mut KnownWindows,
     ) -> Result<PhaseReport> {
         self.check()?;
         let star = Star::from_target(s.target)?;
@@ -391,7 +392,7 @@ impl PulsatorMethod {
             s
         };
         let mut cautions = Vec::new();
-        let (windows, dark_nights) = phase_windows(s.site, &star, s.from, s.to, &s.limits)?;
+        let (windows, dark_nights) = known.of(s, &star)?;
         // The dwell a visit needs: its length with the exposure model, at the
         // middle of the first window; else 10 minutes.
         let mut dwell_s = 600.0;
@@ -735,16 +736,19 @@ impl PulsatorMethod {
         em: &dyn ExposureModel,
         goal_pct: f64,
     ) -> Result<PhaseReport> {
-        let r = self.goal_plan_report(s, em, goal_pct)?;
+        let r = self.goal_plan_report(s, em, goal_pct, &mut KnownWindows::default())?;
         Ok(self.add_discovery(s, Some(em), r))
     }
 
     /// [`Self::goal_report`] without the discovery cadence.
+    /// Its phase windows come from `known` (worked out there once for the
+    /// goals of one target: they do not depend on the goal).
     fn goal_plan_report(
         &self,
         s: &Setting,
         em: &dyn ExposureModel,
         goal_pct: f64,
+        known: &mut KnownWindows,
     ) -> Result<PhaseReport> {
         if !(goal_pct.is_finite() && goal_pct > 0.0 && goal_pct <= 100.0) {
             return Err(RungError::invalid(
@@ -759,7 +763,7 @@ impl PulsatorMethod {
         // refusal is said and no distance is given.
         let law = match star.relation(&self.config) {
             Ok(r) => r,
-            Err(_) => return self.analyse_with(s, Some(em), self.bins, self.snr),
+            Err(_) => return self.analyse_with(s, Some(em), self.bins, self.snr, known),
         };
         let law = &law;
         let mean = star.mean_mag.ok_or_else(|| {
@@ -785,7 +789,7 @@ impl PulsatorMethod {
             ..s.clone()
         };
         if goal_pct <= b0.floor_pct * (1.0 + 1e-9) {
-            let mut r = self.analyse_with(&s2, Some(em), self.bins, self.snr)?;
+            let mut r = self.analyse_with(&s2, Some(em), self.bins, self.snr, known)?;
             r.notes.push(format!(
                 "goal {goal_pct} % is out of reach for this method: the relation's scatter ({:.3} mag) and calibration ({:.3} mag), the metallicity term ({:.3} mag), the extinction error ({:.3} mag) and the photometric calibration floor ({:.3} mag) set a floor of {:.2} % whatever the points",
                 b0.sigma_scatter_mag,
@@ -835,7 +839,7 @@ impl PulsatorMethod {
             let n_t = ((sp * sp + st * st) / (allowed * allowed)).ceil().max(1.0);
             if n_t < n as f64 {
                 let n_t = n_t as usize;
-                let mut r = self.analyse_with(&s2, Some(em), n_t, snr_t)?;
+                let mut r = self.analyse_with(&s2, Some(em), n_t, snr_t, known)?;
                 let by_template = r.mean.as_ref().is_some_and(|m| m.from == "template");
                 let reaches = r
                     .prediction
@@ -853,7 +857,7 @@ impl PulsatorMethod {
                 }
             }
         }
-        let mut r = self.analyse_with(&s2, Some(em), n, snr)?;
+        let mut r = self.analyse_with(&s2, Some(em), n, snr, known)?;
         for _ in 0..2 {
             let Some(p) = &r.prediction else { break };
             if p.distance_precision_pct <= goal_pct || !p.distance_precision_pct.is_finite() {
@@ -866,7 +870,7 @@ impl PulsatorMethod {
                 break;
             }
             snr = next;
-            r = self.analyse_with(&s2, Some(em), n, snr)?;
+            r = self.analyse_with(&s2, Some(em), n, snr, known)?;
         }
         r.notes.push(format!(
             "goal {goal_pct} %: {n} points in {n} phase bins at SNR {snr:.0} each (σ ≈ {:.4} mag per point)",
@@ -957,7 +961,15 @@ impl Method for PulsatorMethod {
     /// One visit per phase bin (`bins`, default 10) on the fewest nights of
     /// the range, exposures sized for the per-point SNR `snr` at the faint phase.
     fn propose(&self, s: &Setting, em: &dyn ExposureModel) -> Result<Vec<Epoch>> {
-        Ok(self.analyse_with(s, Some(em), self.bins, self.snr)?.epochs)
+        Ok(self
+            .analyse_with(
+                s,
+                Some(em),
+                self.bins,
+                self.snr,
+                &mut KnownWindows::default(),
+            )?
+            .epochs)
     }
 
     /// σ_d/d from the epochs' phases (BJD_TDB) and SNRs through the Fourier-fit
@@ -1057,16 +1069,96 @@ impl Method for PulsatorMethod {
     }
 
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {
+        self.goal_with(s, em, goal_pct, &mut KnownWindows::default())
+    }
+
+    /// The goals of one target keep its phase windows between asks (the
+    /// same answers as [`Method::goal`]: see [`KnownWindows`]).
+    fn goal_search(&self) -> Box<dyn crate::ladder::GoalSearch + '_> {
+        Box::new(PulsatorGoals {
+            m: self,
+            known: KnownWindows::default(),
+        })
+    }
+}
+
+impl PulsatorMethod {
+    /// [`Method::goal`] with the star's phase windows from `known`.
+    fn goal_with(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        goal_pct: f64,
+        known: &mut KnownWindows,
+    ) -> Result<Prediction> {
         // A star no relation applies to is refused with the reason.
         Star::from_target(s.target)?
             .relation(&self.config)
             .map_err(|e| name_target(e, s))?;
-        let r = self.goal_plan_report(s, em, goal_pct)?;
+        let r = self.goal_plan_report(s, em, goal_pct, known)?;
         r.prediction.ok_or_else(|| {
             RungError::invalid(
                 format!("target '{}'", s.target.name),
                 "no prediction could be made (no mean magnitude or no period–luminosity relation for its class and band)",
             )
         })
+    }
+}
+
+/// The goals of one pulsator asked one after another (the budget's inverse
+/// curve), its phase windows kept between asks.
+struct PulsatorGoals<'a> {
+    m: &'a PulsatorMethod,
+    known: KnownWindows,
+}
+
+impl crate::ladder::GoalSearch for PulsatorGoals<'_> {
+    fn goal(&mut self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {
+        self.m.goal_with(s, em, goal_pct, &mut self.known)
+    }
+}
+
+/// A star's phase windows over a range and its nights without one
+/// ([`phase_windows`]), with what they were worked out for: the site, the
+/// star's place and ephemeris, the nights and the limits, which are all
+/// they depend on. A goal's plan asks them up to four times (template,
+/// Fourier plan, two raises of the SNR) and the goals of a target's inverse
+/// curve ask them again: each ask of the same inputs is handed the same
+/// windows, so every answer is the one worked out afresh.
+#[derive(Default)]
+pub(crate) struct KnownWindows {
+    kept: Option<(WindowsKey, Vec<PhaseWindow>, Vec<NaiveDate>)>,
+}
+
+/// The inputs of [`phase_windows`].
+type WindowsKey = (
+    crate::astro::site::Site,
+    crate::astro::frames::CatalogPlace,
+    Ephemeris,
+    NaiveDate,
+    NaiveDate,
+    crate::astro::window::Limits,
+);
+
+impl KnownWindows {
+    /// The phase windows of `star` over the setting's nights, worked out
+    /// when the inputs differ from the last ones (an error is not kept).
+    fn of(&mut self, s: &Setting, star: &Star) -> Result<(Vec<PhaseWindow>, Vec<NaiveDate>)> {
+        let key: WindowsKey = (
+            s.site.clone(),
+            star.place,
+            star.ephemeris,
+            s.from,
+            s.to,
+            s.limits,
+        );
+        if let Some((k, w, d)) = &self.kept
+            && *k == key
+        {
+            return Ok((w.clone(), d.clone()));
+        }
+        let (w, d) = phase_windows(s.site, star, s.from, s.to, &s.limits)?;
+        self.kept = Some((key, w.clone(), d.clone()));
+        Ok((w, d))
     }
 }
