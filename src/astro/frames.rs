@@ -118,15 +118,59 @@ pub struct Context {
     tdb_minus_tt_s: Option<f64>,
 }
 
-/// Contexts kept per thread by [`Context::exact`] (about 1 kB each), and
-/// Moon positions by [`Context::moon_geo_pv`]; each cache is emptied when full.
-const EXACT_CACHE_LEN: usize = 4096;
+/// Moon positions kept per thread by [`Context::moon_geo_pv`]; the cache is
+/// emptied when full.
+const MOON_CACHE_LEN: usize = 4096;
+
+/// The most contexts (about 1 kB each) one generation of [`EXACT_CACHE`]
+/// holds: a plan of 1,000 targets asks about 31,000 distinct instants.
+const EXACT_GENERATION_LEN: usize = 1 << 15;
 
 thread_local! {
-    static EXACT_CACHE: std::cell::RefCell<std::collections::HashMap<[u64; 8], Context>> =
-        std::cell::RefCell::new(std::collections::HashMap::new());
     static MOON_CACHE: std::cell::RefCell<std::collections::HashMap<[u64; 2], [[f64; 3]; 2]>> =
         std::cell::RefCell::new(std::collections::HashMap::new());
+}
+
+/// The contexts [`Context::exact`] computed, shared by all threads, keyed by
+/// the exact bits of the site and the instant. Two generations: a context is
+/// added to (or, asked again, moved into) the newer; when the newer is full
+/// it becomes the older and the older is dropped, so what was asked lately
+/// stays and the cache never passes two generations.
+struct ExactCache {
+    newer: std::collections::HashMap<[u64; 8], Context>,
+    older: std::collections::HashMap<[u64; 8], Context>,
+}
+
+impl ExactCache {
+    fn get(&mut self, key: &[u64; 8]) -> Option<Context> {
+        if let Some(c) = self.newer.get(key) {
+            return Some(*c);
+        }
+        let c = self.older.remove(key)?;
+        self.insert(*key, c);
+        Some(c)
+    }
+
+    fn insert(&mut self, key: [u64; 8], c: Context) {
+        if self.newer.len() >= EXACT_GENERATION_LEN {
+            self.older = std::mem::take(&mut self.newer);
+        }
+        self.newer.insert(key, c);
+    }
+}
+
+static EXACT_CACHE: std::sync::LazyLock<std::sync::Mutex<ExactCache>> =
+    std::sync::LazyLock::new(|| {
+        std::sync::Mutex::new(ExactCache {
+            newer: std::collections::HashMap::new(),
+            older: std::collections::HashMap::new(),
+        })
+    });
+
+/// The shared cache, locked (a panic elsewhere while it was held leaves
+/// whole contexts only, which are still right).
+fn exact_cache() -> std::sync::MutexGuard<'static, ExactCache> {
+    EXACT_CACHE.lock().unwrap_or_else(|e| e.into_inner())
 }
 
 fn site_refraction(site: &Site) -> (f64, f64, f64, f64) {
@@ -142,11 +186,13 @@ impl Context {
     /// Full SOFA chain at this instant (`apco13`, DUT1 = 0, no polar motion).
     ///
     /// The answer is a pure function of the site's place and weather and of
-    /// the instant, so each thread keeps the last few thousand it computed
-    /// (keyed by the exact bits of both) and hands the same context back when
-    /// asked again: the scheduler's fill asks the same method prediction with
-    /// one epoch more, night after night, and every earlier epoch's context
-    /// is then computed once instead of once per night.
+    /// the instant, so the contexts computed are kept for all threads
+    /// ([`ExactCache`], keyed by the exact bits of both) and the same context
+    /// is handed back when asked again: a plan asks a target's epochs for
+    /// its proposal, again for the fill's base and again for its outcome
+    /// (often on another thread, and after tens of thousands of other
+    /// instants), and several targets' fill candidates fall at the same
+    /// instant (the start of a night's window).
     pub fn exact(site: &Site, t: Instant) -> Result<Self> {
         let key = [
             site.lat_deg.to_bits(),
@@ -158,17 +204,13 @@ impl Context {
             t.utc1.to_bits(),
             t.utc2.to_bits(),
         ];
-        if let Some(c) = EXACT_CACHE.with(|c| c.borrow().get(&key).copied()) {
+        if let Some(c) = exact_cache().get(&key) {
             return Ok(c);
         }
+        // Computed without the lock held: two threads asking the same new
+        // instant at once both compute it, to the same bits.
         let c = Self::exact_uncached(site, t)?;
-        EXACT_CACHE.with(|cache| {
-            let mut cache = cache.borrow_mut();
-            if cache.len() >= EXACT_CACHE_LEN {
-                cache.clear();
-            }
-            cache.insert(key, c);
-        });
+        exact_cache().insert(key, c);
         Ok(c)
     }
 
@@ -378,7 +420,7 @@ impl Context {
         let pv = sofars::eph::moon98(self.tt.0, self.tt.1);
         MOON_CACHE.with(|cache| {
             let mut cache = cache.borrow_mut();
-            if cache.len() >= EXACT_CACHE_LEN {
+            if cache.len() >= MOON_CACHE_LEN {
                 cache.clear();
             }
             cache.insert(key, pv);
@@ -733,6 +775,47 @@ mod tests {
             );
             assert_eq!(format!("{:?}", c.earth_bary), format!("{eb:?}"), "case {k}");
         }
+    }
+
+    #[test]
+    fn exact_cache_keeps_what_was_asked_lately() {
+        // A context asked from another thread comes back with the bits of
+        // the one computed here; the generations keep a context asked again
+        // and drop one not asked for two generations.
+        let s = site();
+        let t = parse_instant("2027-02-14T03:00:00Z").unwrap();
+        let here = Context::exact(&s, t).unwrap();
+        let there = std::thread::spawn(move || Context::exact(&site(), t).unwrap())
+            .join()
+            .unwrap();
+        let direct = Context::exact_uncached(&s, t).unwrap();
+        for c in [&here, &there] {
+            assert_eq!(format!("{:?}", c.astrom), format!("{:?}", direct.astrom));
+            assert_eq!(
+                format!("{:?}", c.earth_bary),
+                format!("{:?}", direct.earth_bary)
+            );
+        }
+        let mut cache = ExactCache {
+            newer: std::collections::HashMap::new(),
+            older: std::collections::HashMap::new(),
+        };
+        let key = |i: usize| [i as u64; 8];
+        let (kept, dropped) = (key(usize::MAX), key(usize::MAX - 1));
+        cache.insert(kept, direct);
+        cache.insert(dropped, direct);
+        for i in 0..EXACT_GENERATION_LEN {
+            cache.insert(key(i), direct);
+        }
+        // Both now in the older generation; asking one moves it forward.
+        assert!(cache.older.contains_key(&kept) && cache.older.contains_key(&dropped));
+        assert!(cache.get(&kept).is_some());
+        for i in EXACT_GENERATION_LEN..2 * EXACT_GENERATION_LEN {
+            cache.insert(key(i), direct);
+        }
+        assert!(cache.get(&kept).is_some());
+        assert!(cache.get(&dropped).is_none());
+        assert!(cache.newer.len() + cache.older.len() <= 2 * EXACT_GENERATION_LEN);
     }
 
     #[test]
