@@ -273,4 +273,8 @@ fn each_extra_epoch_is_predicted_as_predict_predicts_it() {
     let mut twice = base.to_vec();
     twice.push(base[0].clone());
     plan_support::assert_each_extra_as_predict(&m, &s, &cam, &twice, &extra);
+    // The fill's ranking: the base's `predict`, each extra within 1e-6 of it.
+    for b in [base, &base[..2], &twice[..]] {
+        plan_support::assert_ranked_extra_near_predict(&m, &s, &cam, b, &extra, 1e-6);
+    }
 }

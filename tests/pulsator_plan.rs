@@ -225,6 +225,8 @@ fn each_extra_epoch_is_predicted_as_predict_predicts_it() {
     bad_base[2] = bad;
     for b in [base, &bad_base[..], &base[..2]] {
         plan_support::assert_each_extra_as_predict(&m, &s, &em, b, &extra);
+        // The fill's ranking: the base's `predict`, each extra within 1e-6 of it.
+        plan_support::assert_ranked_extra_near_predict(&m, &s, &em, b, &extra, 1e-6);
     }
 }
 

@@ -473,6 +473,24 @@ pub trait Method: Send + Sync {
     ) -> (Result<Prediction>, Vec<Result<Prediction>>) {
         predict_then_each_by_one(self, s, em, base, extra_for)
     }
+    /// The scheduler's fill: [`Method::predict`] of `base`, bit for bit,
+    /// then, as [`Method::predict_then_each_extra`], the precision of `base`
+    /// with each of the epochs `extra_for` gives, which only ranks those
+    /// candidate visits (against the base and one another). A method may
+    /// work an extra epoch out at its night's interpolated context
+    /// ([`crate::astro::night::Night::context`]) instead of the exact one
+    /// (a full SOFA chain per candidate): its answers then differ from
+    /// `predict`'s in the last digits, and nothing printed comes from them.
+    /// Default: [`Method::predict_then_each_extra`].
+    fn rank_then_each_extra(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        base: &[Epoch],
+        extra_for: &mut dyn FnMut(&Prediction) -> Vec<Epoch>,
+    ) -> (Result<Prediction>, Vec<Result<Prediction>>) {
+        self.predict_then_each_extra(s, em, base, extra_for)
+    }
     /// The epochs and hours that reach `goal_pct`, or why they cannot.
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction>;
     /// A search that answers [`Method::goal`] for several goals of one

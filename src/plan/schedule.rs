@@ -38,7 +38,9 @@
 //!    candidate extra visit, centred on its highest point in the dark, with
 //!    the exposure of its nearest epoch. Its value is the target's priority
 //!    times the fraction by which it lowers the predicted σd/d of the
-//!    target's epochs (`Method::predict` with and without it); candidates
+//!    target's epochs (`Method::predict` without it; with it, the method's
+//!    ranking, `Method::rank_then_each_extra`, which may work the candidate
+//!    out at its night's interpolated context); candidates
 //!    buying less than [`MIN_FILL_GAIN`] are dropped (a pulsator at its
 //!    relation floor, a phase bin already covered, a transient past its
 //!    useful window). The packing core places them after the method's own
@@ -838,7 +840,7 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                     }
                     cands.iter().map(|c| c.1.clone()).collect()
                 };
-                let (p0, preds) = m.predict_then_each_extra(&setting, req.em, mine, &mut cands_for);
+                let (p0, preds) = m.rank_then_each_extra(&setting, req.em, mine, &mut cands_for);
                 let Some(s0) = p0
                     .ok()
                     .and_then(|p| shown_precision(p.distance_precision_pct))

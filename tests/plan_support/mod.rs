@@ -161,6 +161,45 @@ pub fn assert_each_extra_as_predict(
     }
 }
 
+/// `Method::rank_then_each_extra` (the scheduler's fill) must give the
+/// base's `predict` to the last bit, and for every extra epoch `predict`'s
+/// answer for the base followed by it: the same refusal, or a precision
+/// within `rel` of it (a method may rank a candidate at its night's
+/// interpolated context, which src/astro/frames.rs's
+/// night_frame_matches_exact_context holds to 0.05 arcsec of the exact one).
+pub fn assert_ranked_extra_near_predict(
+    m: &dyn rung::ladder::Method,
+    s: &rung::ladder::Setting,
+    em: &dyn ExposureModel,
+    base: &[rung::ladder::Epoch],
+    extra: &[rung::ladder::Epoch],
+    rel: f64,
+) {
+    let (p0, each) = m.rank_then_each_extra(s, em, base, &mut |_| extra.to_vec());
+    let want0 = m.predict(s, em, base);
+    let one_by_one = if want0.is_ok() {
+        rung::ladder::predict_each_by_one(m, s, em, base, extra)
+    } else {
+        Vec::new()
+    };
+    assert_same_answer(p0, want0);
+    assert_eq!(each.len(), one_by_one.len());
+    for (got, want) in each.into_iter().zip(one_by_one) {
+        match (got, want) {
+            (Ok(a), Ok(b)) => {
+                let (x, y) = (a.distance_precision_pct, b.distance_precision_pct);
+                assert!(
+                    x == y || (x - y).abs() <= rel * y.abs(),
+                    "ranked {x} against predict's {y}"
+                );
+                assert_eq!(a.epochs.len(), b.epochs.len());
+            }
+            (Err(a), Err(b)) => assert_eq!(a.to_string(), b.to_string()),
+            (a, b) => panic!("{a:?} vs {b:?}"),
+        }
+    }
+}
+
 /// The same prediction (the same JSON) or the same refusal (the same message).
 fn assert_same_answer(
     got: rung::error::Result<rung::ladder::Prediction>,

@@ -1252,16 +1252,19 @@ impl Method for ParallaxMethod {
         base: &[Epoch],
         extra_for: &mut dyn FnMut(&Prediction) -> Vec<Epoch>,
     ) -> (Result<Prediction>, Vec<Result<Prediction>>) {
-        // The base's work once for its prediction and each extra's.
-        let Some(sh) = self.shared_base(s, em, base) else {
-            return crate::ladder::predict_then_each_by_one(self, s, em, base, extra_for);
-        };
-        crate::ladder::then_each(self.shared_prediction(&sh, None), extra_for, |extra| {
-            extra
-                .iter()
-                .map(|e| self.shared_prediction(&sh, Some(e)))
-                .collect()
-        })
+        self.shared_then_each(s, em, base, extra_for, false)
+    }
+
+    /// [`Method::predict_then_each_extra`] with each extra epoch's factors
+    /// and errors at its night's interpolated context.
+    fn rank_then_each_extra(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        base: &[Epoch],
+        extra_for: &mut dyn FnMut(&Prediction) -> Vec<Epoch>,
+    ) -> (Result<Prediction>, Vec<Result<Prediction>>) {
+        self.shared_then_each(s, em, base, extra_for, true)
     }
 
     fn goal(&self, s: &Setting, em: &dyn ExposureModel, goal_pct: f64) -> Result<Prediction> {

@@ -1022,6 +1022,37 @@ impl ParallaxMethod {
         })
     }
 
+    /// [`crate::ladder::Method::predict`] of `base`, then each extra epoch
+    /// `extra_for` gives, from one [`SharedBase`] (`predict` itself when the
+    /// base is refused: it words the refusal). Each extra's planned epoch
+    /// at its exact context (`predict`'s answer, bit for bit), or with
+    /// `at_night` at its night's interpolated context (the fill's ranking,
+    /// [`crate::ladder::Method::rank_then_each_extra`]).
+    pub(crate) fn shared_then_each(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        base: &[Epoch],
+        extra_for: &mut dyn FnMut(&Prediction) -> Vec<Epoch>,
+        at_night: bool,
+    ) -> (Result<Prediction>, Vec<Result<Prediction>>) {
+        let Some(sh) = self.shared_base(s, em, base) else {
+            return crate::ladder::predict_then_each_by_one(self, s, em, base, extra_for);
+        };
+        crate::ladder::then_each(self.shared_prediction(&sh, None), extra_for, |extra| {
+            extra
+                .iter()
+                .map(|e| {
+                    if at_night {
+                        self.shared_prediction_at_night(&sh, e)
+                    } else {
+                        self.shared_prediction(&sh, Some(e))
+                    }
+                })
+                .collect()
+        })
+    }
+
     /// What [`Self::predict`](crate::ladder::Method::predict) gives for the
     /// base of `sh` followed by `extra` (the base alone for `None`), bit for
     /// bit: the extra's planned epoch at its exact context, then
@@ -1031,15 +1062,39 @@ impl ParallaxMethod {
         sh: &SharedBase,
         extra: Option<&Epoch>,
     ) -> Result<Prediction> {
-        let mut all = Vec::with_capacity(sh.planned.len() + 1);
-        all.extend_from_slice(&sh.planned);
-        if let Some(e) = extra {
-            all.push(planned_with(
+        let extra = match extra {
+            Some(e) => Some(planned_with(
                 &sh.model,
                 e,
                 &Context::exact(sh.model.s.site, e.time)?,
-            )?);
-        }
+            )?),
+            None => None,
+        };
+        self.shared_prediction_of(sh, extra)
+    }
+
+    /// [`Self::shared_prediction`] of the base and `extra` with the extra's
+    /// planned epoch at its night's interpolated context
+    /// ([`Night::context`]), as the plan's own candidate slots are: the
+    /// fill's ranking of a candidate visit, within the last digits of
+    /// `predict`'s answer.
+    fn shared_prediction_at_night(&self, sh: &SharedBase, extra: &Epoch) -> Result<Prediction> {
+        let site = sh.model.s.site;
+        let night = Night::shared(site, crate::astro::night::night_of(site, extra.time))?;
+        let planned = planned_with(&sh.model, extra, &night.context(extra.time))?;
+        self.shared_prediction_of(sh, Some(planned))
+    }
+
+    /// The prediction of the base of `sh` followed by `extra`'s planned
+    /// epoch: [`Self::plan_for_with`]'s steps after its rule.
+    fn shared_prediction_of(
+        &self,
+        sh: &SharedBase,
+        extra: Option<PlannedEpoch>,
+    ) -> Result<Prediction> {
+        let mut all = Vec::with_capacity(sh.planned.len() + 1);
+        all.extend_from_slice(&sh.planned);
+        all.extend(extra);
         if all.len() < 3 {
             solve(&obs_of(&all))?;
         }

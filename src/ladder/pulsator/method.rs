@@ -91,6 +91,14 @@ impl EpochTerms {
 
     /// The terms of `epochs` after those held; the first epoch refused.
     fn add(&mut self, s: &Setting, star: &Star, epochs: &[Epoch]) -> Result<()> {
+        self.add_at(s, star, epochs, false)
+    }
+
+    /// [`Self::add`]; with `at_night` each epoch's BJD_TDB from its night's
+    /// interpolated context ([`crate::astro::night::Night::context_without_moon`],
+    /// as the phase windows' are) instead of the exact one: the fill's
+    /// ranking of a candidate visit.
+    fn add_at(&mut self, s: &Setting, star: &Star, epochs: &[Epoch], at_night: bool) -> Result<()> {
         for ep in epochs {
             if !(ep.snr.is_finite() && ep.snr > 0.0) {
                 return Err(RungError::invalid(
@@ -102,7 +110,17 @@ impl EpochTerms {
                     ),
                 ));
             }
-            let b = crate::astro::bary::bjd_tdb(s.site, ep.time, &star.place)?;
+            let b = if at_night {
+                use crate::astro::night::{Night, night_of};
+                let night = Night::shared(s.site, night_of(s.site, ep.time))?;
+                crate::astro::bary::bjd_tdb_ctx(
+                    s.site,
+                    &night.context_without_moon(ep.time),
+                    &star.place,
+                )
+            } else {
+                crate::astro::bary::bjd_tdb(s.site, ep.time, &star.place)?
+            };
             let (phase, sigma) = (star.ephemeris.phase(&b), sigma_mag_from_snr(ep.snr));
             self.phases.push(phase);
             self.phase_sigma_max = self.phase_sigma_max.max(star.ephemeris.phase_sigma(&b));
@@ -920,21 +938,55 @@ impl PulsatorMethod {
         })
     }
 
-    /// `predict` of `base` then each of `extra`, from `sh` (of `base`).
+    /// `predict` of `base` then each of `extra`, from `sh` (of `base`);
+    /// with `at_night` each extra's phase from its night's interpolated
+    /// context ([`EpochTerms::add_at`]).
     fn each_extra(
         &self,
         s: &Setting,
         sh: &SharedBase,
         base: &[Epoch],
         extra: &[Epoch],
+        at_night: bool,
     ) -> Vec<Result<Prediction>> {
         crate::ladder::with_each_extra(base, extra, |e, all| {
             let mut t = sh.terms.clone();
-            t.add(s, &sh.star, std::slice::from_ref(e))?;
+            t.add_at(s, &sh.star, std::slice::from_ref(e), at_night)?;
             let mut notes = Vec::new();
             Ok(self
                 .predict_star_from(s, &sh.star, &sh.law, sh.mean, all, t, &sh.curve, &mut notes)?
                 .0)
+        })
+    }
+
+    /// [`Method::predict`] of `base` and each extra from one `SharedBase`
+    /// (`at_night`: [`Self::each_extra`]'s).
+    fn then_each_extra(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        base: &[Epoch],
+        extra_for: &mut dyn FnMut(&Prediction) -> Vec<Epoch>,
+        at_night: bool,
+    ) -> (Result<Prediction>, Vec<Result<Prediction>>) {
+        let Ok(sh) = self.shared_base(s, base) else {
+            return crate::ladder::predict_then_each_by_one(self, s, em, base, extra_for);
+        };
+        let mut notes = Vec::new();
+        let p0 = self
+            .predict_star_from(
+                s,
+                &sh.star,
+                &sh.law,
+                sh.mean,
+                base,
+                sh.terms.clone(),
+                &sh.curve,
+                &mut notes,
+            )
+            .map(|r| r.0);
+        crate::ladder::then_each(p0, extra_for, |extra| {
+            self.each_extra(s, &sh, base, extra, at_night)
         })
     }
 }
@@ -997,7 +1049,7 @@ impl Method for PulsatorMethod {
         let Ok(sh) = self.shared_base(s, base) else {
             return crate::ladder::predict_each_by_one(self, s, em, base, extra);
         };
-        self.each_extra(s, &sh, base, extra)
+        self.each_extra(s, &sh, base, extra, false)
     }
 
     /// [`Method::predict`] of `base` and each extra from one `SharedBase`.
@@ -1008,23 +1060,19 @@ impl Method for PulsatorMethod {
         base: &[Epoch],
         extra_for: &mut dyn FnMut(&Prediction) -> Vec<Epoch>,
     ) -> (Result<Prediction>, Vec<Result<Prediction>>) {
-        let Ok(sh) = self.shared_base(s, base) else {
-            return crate::ladder::predict_then_each_by_one(self, s, em, base, extra_for);
-        };
-        let mut notes = Vec::new();
-        let p0 = self
-            .predict_star_from(
-                s,
-                &sh.star,
-                &sh.law,
-                sh.mean,
-                base,
-                sh.terms.clone(),
-                &sh.curve,
-                &mut notes,
-            )
-            .map(|r| r.0);
-        crate::ladder::then_each(p0, extra_for, |extra| self.each_extra(s, &sh, base, extra))
+        self.then_each_extra(s, em, base, extra_for, false)
+    }
+
+    /// [`Method::predict_then_each_extra`] with each extra's phase from its
+    /// night's interpolated context.
+    fn rank_then_each_extra(
+        &self,
+        s: &Setting,
+        em: &dyn ExposureModel,
+        base: &[Epoch],
+        extra_for: &mut dyn FnMut(&Prediction) -> Vec<Epoch>,
+    ) -> (Result<Prediction>, Vec<Result<Prediction>>) {
+        self.then_each_extra(s, em, base, extra_for, true)
     }
 
     /// A done visit gives the wanted epoch in its phase bin (BJD_TDB phases,
