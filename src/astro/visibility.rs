@@ -59,6 +59,30 @@ pub const REFINE_TOL_S: f64 = 0.001;
 /// same side.
 const SURE_RAD: f64 = 2.0 * std::f64::consts::PI / 180.0;
 
+/// How far a refined crossing of an altitude threshold can stand from its
+/// closed-form guess, seconds: [`polish`] keeps every step within this of
+/// the guess, whatever the function does ([`Track::windows_bound`] leans
+/// on it).
+pub const CROSSING_REACH_S: f64 = 600.0;
+
+/// How far a refined upper transit can stand from its closed-form guess,
+/// seconds (the same way).
+pub const TRANSIT_REACH_S: f64 = 120.0;
+
+/// Seconds added to each side of a bound built from the reaches above:
+/// far beyond the rounding of offsets through instants and back.
+const BOUND_SLACK_S: f64 = 5.0;
+
+/// How far (radians at the equator; divided by the cosine of the
+/// declination elsewhere) the closed-form hour angle may stand from the
+/// exact one for its side of a limit to be taken without an exact
+/// evaluation ([`Track::ha_sure_rad`]): the closed form leaves out the CIRS
+/// place's motion through the night (under 1″ of right ascension), diurnal
+/// aberration (0.3″) and polar motion (under 1″), each divided by cos δ on
+/// the hour-angle axis, so 1e-4 rad (21″) is ten times their sum (unit test
+/// `closed_form_hour_angle_is_within_its_margin`).
+const HA_SURE_RAD: f64 = 1e-4;
+
 /// Geometric altitude range of the refraction table, degrees, and its step.
 const REFR_G0_DEG: f64 = -3.0;
 const REFR_STEP_DEG: f64 = 0.05;
@@ -280,37 +304,86 @@ impl SkyFrame {
         }
     }
 
+    /// The target's CIRS place at node `k` (0, 1, 2: the night's start,
+    /// middle and end), SOFA `atciq`.
+    fn cirs_node(&self, k: usize, place: &CatalogPlace) -> (f64, f64) {
+        let mut a = self.nodes[k];
+        atciq(
+            place.ra_rad,
+            place.dec_rad,
+            place.pm_ra_rad_yr,
+            place.pm_dec_rad_yr,
+            place.parallax_arcsec,
+            place.rv_kms,
+            &mut a,
+        )
+    }
+
     /// The target's [`Track`] through the night.
     pub fn track(&self, place: &CatalogPlace) -> Track<'_> {
-        let mut ri = [0.0; 3];
-        let mut di = [0.0; 3];
-        for k in 0..3 {
-            let mut a = self.nodes[k];
-            let (r, d) = atciq(
-                place.ra_rad,
-                place.dec_rad,
-                place.pm_ra_rad_yr,
-                place.pm_dec_rad_yr,
-                place.parallax_arcsec,
-                place.rv_kms,
-                &mut a,
-            );
-            ri[k] = r;
-            di[k] = d;
-        }
-        // Unwrap the right ascensions around the middle one.
-        for k in [0, 2] {
-            ri[k] = ri[1] + sofars::vm::anpm(ri[k] - ri[1]);
-        }
-        let (sd, cd) = di[1].sin_cos();
-        Track {
+        self.sketch(place).track(place)
+    }
+
+    /// The target's closed form through the night from its CIRS place at
+    /// the night's middle alone (one SOFA `atciq` of the track's three):
+    /// enough to tell, before the track is built, nights whose windows
+    /// cannot matter ([`Sketch::windows_bound`]).
+    pub fn sketch(&self, place: &CatalogPlace) -> Sketch<'_> {
+        let (r1, d1) = self.cirs_node(1, place);
+        let (sd, cd) = d1.sin_cos();
+        Sketch(Track {
             frame: self,
-            ri,
-            di,
-            ha_mid: sofars::vm::anpm(self.eral_mid - ri[1]),
+            ri: [r1; 3],
+            di: [d1; 3],
+            ha_mid: sofars::vm::anpm(self.eral_mid - r1),
             a: self.sin_phi * sd,
             b: self.cos_phi * cd,
+        })
+    }
+}
+
+/// A target's closed form through a night ([`SkyFrame::sketch`]): the
+/// [`Track`]'s middle node only, so only its closed-form quantities are
+/// offered; [`Sketch::track`] completes it into the track itself (the same
+/// bits as [`SkyFrame::track`]).
+#[derive(Debug, Clone)]
+pub struct Sketch<'a>(Track<'a>);
+
+impl<'a> Sketch<'a> {
+    /// The track: the start and end nodes added, the right ascensions
+    /// unwrapped around the middle one.
+    pub fn track(self, place: &CatalogPlace) -> Track<'a> {
+        let mut t = self.0;
+        for k in [0, 2] {
+            let (r, d) = t.frame.cirs_node(k, place);
+            t.ri[k] = t.ri[1] + sofars::vm::anpm(r - t.ri[1]);
+            t.di[k] = d;
         }
+        t
+    }
+
+    /// The night's frame.
+    pub fn frame(&self) -> &'a SkyFrame {
+        self.0.frame
+    }
+
+    /// [`Track::half_width_above`].
+    pub fn half_width_above(&self, g_rad: f64) -> Option<f64> {
+        self.0.half_width_above(g_rad)
+    }
+
+    /// [`Track::transits_linear`].
+    pub fn transits_linear(&self, lo: f64, hi: f64) -> Vec<f64> {
+        self.0.transits_linear(lo, hi)
+    }
+
+    /// [`Track::windows_bound`].
+    pub fn windows_bound(
+        &self,
+        dark_s: &[(f64, f64)],
+        min_alt_deg: f64,
+    ) -> Option<Vec<(f64, f64)>> {
+        self.0.windows_bound(dark_s, min_alt_deg)
     }
 }
 
@@ -421,8 +494,11 @@ impl<'a> Track<'a> {
 
     /// Whether the geometric altitude at offset `s` is above `g_rad`, when
     /// the closed form stands more than [`SURE_RAD`] from it (far beyond the
-    /// closed form's error and any refraction); `None` nearer.
-    fn clearly_above(&self, s: f64, g_rad: f64) -> Option<bool> {
+    /// closed form's error and any refraction); `None` nearer. With `g_rad`
+    /// the geometric altitude of an observed one ([`Refraction::geometric`]),
+    /// the observed altitude is on the same side (unit test
+    /// `closed_form_sides_agree_with_the_exact_place`).
+    pub fn clearly_above(&self, s: f64, g_rad: f64) -> Option<bool> {
         let h = self.alt_linear_rad(s);
         if h > g_rad + SURE_RAD {
             Some(true)
@@ -472,8 +548,8 @@ impl<'a> Track<'a> {
                     &|s| self.ha_rad(s),
                     s0,
                     ERA_RATE_RAD_S,
-                    s0 - 120.0,
-                    s0 + 120.0,
+                    s0 - TRANSIT_REACH_S,
+                    s0 + TRANSIT_REACH_S,
                 )
             })
             .filter(|s| *s >= lo && *s < hi)
@@ -510,7 +586,22 @@ impl<'a> Track<'a> {
     /// first guesses. Near grazing (the closed form's extreme within 30″ of
     /// the threshold) the exact quantity is sampled instead of trusted to the
     /// closed form.
-    fn above(&self, g_rad: f64, f: &dyn Fn(f64) -> f64, lo: f64, hi: f64) -> Vec<(f64, f64)> {
+    ///
+    /// With `only` (offsets), a crossing whose guess stands further than
+    /// [`CROSSING_REACH_S`] (and [`BOUND_SLACK_S`]) from every interval of
+    /// `only` keeps its guess unrefined when the guesses stand further than
+    /// twice that apart: its refined place would be on the same side of
+    /// every end of `only` and the crossings in the same order
+    /// ([`Track::windows_bound`]), so the intervals cut to `only` are the
+    /// same.
+    fn above(
+        &self,
+        g_rad: f64,
+        f: &dyn Fn(f64) -> f64,
+        lo: f64,
+        hi: f64,
+        only: Option<&[(f64, f64)]>,
+    ) -> Vec<(f64, f64)> {
         let top = (self.a + self.b).clamp(-1.0, 1.0).asin();
         let bottom = (self.a - self.b).clamp(-1.0, 1.0).asin();
         let graze = 30f64.to_radians() / 3600.0;
@@ -523,15 +614,24 @@ impl<'a> Track<'a> {
             let h = self.ha_linear(s);
             -self.b * ERA_RATE_RAD_S * h.sin() / g_rad.cos().max(1e-6)
         };
+        let reach = CROSSING_REACH_S + BOUND_SLACK_S;
+        let apart = guesses.windows(2).all(|w| w[1].0 - w[0].0 > 2.0 * reach);
+        let matters = |s0: f64| match only {
+            Some(d) if apart => d.iter().any(|(a, b)| s0 + reach >= *a && s0 - reach <= *b),
+            _ => true,
+        };
         let mut crossings: Vec<Guess> = guesses
             .iter()
             .map(|(s0, r)| {
+                if !matters(*s0) {
+                    return (*s0, *r);
+                }
                 let s = polish(
                     f,
                     *s0,
                     slope(*s0),
-                    (s0 - 600.0).max(lo),
-                    (s0 + 600.0).min(hi),
+                    (s0 - CROSSING_REACH_S).max(lo),
+                    (s0 + CROSSING_REACH_S).min(hi),
                 );
                 (s, *r)
             })
@@ -564,13 +664,121 @@ impl<'a> Track<'a> {
         out
     }
 
+    /// Offsets outside which the night's windows above `min_alt_deg` in the
+    /// dark intervals `dark_s` (offsets) cannot lie, whatever the exact place
+    /// does, from the closed form alone; `None` when it cannot say (a
+    /// grazing night, crossings closer than twice [`CROSSING_REACH_S`], the
+    /// side at the night's start not clear).
+    ///
+    /// [`Track::above_limit`] takes the closed form's crossings in time
+    /// order and refines each within [`CROSSING_REACH_S`] of itself
+    /// ([`polish`]), so with its guesses further apart than twice that the
+    /// refined crossings keep their order and the intervals are the closed
+    /// form's, each end moved by at most the reach (or dropped); the horizon
+    /// mask only cuts inside them. So the closed form's intervals widened by
+    /// the reach (and [`BOUND_SLACK_S`]), cut to the dark, hold the windows
+    /// ([`Track::windows_night`]).
+    pub fn windows_bound(
+        &self,
+        dark_s: &[(f64, f64)],
+        min_alt_deg: f64,
+    ) -> Option<Vec<(f64, f64)>> {
+        let span = self.frame.span_s;
+        let g_rad = self.frame.limit_geometric(min_alt_deg.to_radians());
+        // As in `above`: a grazing night is sampled, not bounded here.
+        let top = (self.a + self.b).clamp(-1.0, 1.0).asin();
+        let bottom = (self.a - self.b).clamp(-1.0, 1.0).asin();
+        let graze = 30f64.to_radians() / 3600.0;
+        if (top - g_rad).abs() < graze || (bottom - g_rad).abs() < graze {
+            return None;
+        }
+        let reach = CROSSING_REACH_S + BOUND_SLACK_S;
+        let guesses = self.crossings_linear(g_rad, 0.0, span);
+        if guesses.windows(2).any(|w| w[1].0 - w[0].0 <= 2.0 * reach) {
+            return None;
+        }
+        let mut open = self.clearly_above(0.0, g_rad)?.then_some(0.0);
+        let mut above = Vec::new();
+        for (s, rising) in guesses {
+            if rising {
+                if open.is_none() {
+                    open = Some((s - reach).max(0.0));
+                }
+            } else if let Some(o) = open.take() {
+                above.push((o, (s + reach).min(span)));
+            }
+        }
+        if let Some(o) = open {
+            above.push((o, span));
+        }
+        let mut out = Vec::new();
+        for &(a0, a1) in &above {
+            for &(d0, d1) in dark_s {
+                let (lo, hi) = (a0.max(d0) - BOUND_SLACK_S, a1.min(d1) + BOUND_SLACK_S);
+                if lo < hi {
+                    out.push((lo, hi));
+                }
+            }
+        }
+        Some(out)
+    }
+
+    /// How far the exact hour angle ([`Track::ha_rad`]) can stand from the
+    /// closed form's (`anpm` of [`Track::ha_linear`]), radians, with a wide
+    /// margin ([`HA_SURE_RAD`] / cos δ); `None` on a night with a leap second
+    /// (the rotation angle is then not the closed form's line) or within
+    /// about 1.1° of a pole.
+    pub fn ha_sure_rad(&self) -> Option<f64> {
+        let c = self.di[1].cos().abs();
+        (!self.frame.leap && c > 0.02).then(|| HA_SURE_RAD / c)
+    }
+
+    /// The windows of [`Track::windows_night`] and the night's first upper
+    /// transit when it can lie inside one of them (refined within
+    /// [`TRANSIT_REACH_S`] of a closed-form guess, it is found only when a
+    /// guess stands that near a window; `None` otherwise): what a caller
+    /// that asks which instants of the windows are usable needs, without the
+    /// highest altitude in the dark. The crossings of the altitude limit far
+    /// from the dark are not refined (they cannot move a window,
+    /// [`Track::above`]).
+    pub fn windows_and_transit(
+        &self,
+        site: &Site,
+        dark: &[(Instant, Instant)],
+        limits: &Limits,
+    ) -> (Vec<(Instant, Instant)>, Option<Instant>) {
+        let span = self.frame.span_s;
+        let dark_s: Vec<(f64, f64)> = dark
+            .iter()
+            .map(|(a, b)| (self.frame.offset(*a), self.frame.offset(*b)))
+            .collect();
+        let above: Vec<(Instant, Instant)> = self
+            .above_limit_in(site, limits.min_alt_deg, Some(&dark_s))
+            .iter()
+            .map(|(a, b)| (self.frame.instant(*a), self.frame.instant(*b)))
+            .collect();
+        let windows = intersect_intervals(&above, dark);
+        let reach = TRANSIT_REACH_S + BOUND_SLACK_S;
+        let near = self.transits_linear(-60.0, span + 60.0).iter().any(|g| {
+            windows.iter().any(|(a, b)| {
+                *g + reach >= self.frame.offset(*a) && *g - reach <= self.frame.offset(*b)
+            })
+        });
+        let transit = if near {
+            self.first_transit(&self.transits(0.0, span)).t
+        } else {
+            None
+        };
+        (windows, transit)
+    }
+
     /// Rise and set (geometric altitude through −0°34′), the first of each
     /// between the local noons, with the reasons when there is none.
     pub fn rise_set(&self) -> (Event, Event) {
         let span = self.frame.span_s;
         let thr = STAR_RISE_SET_DEG.to_radians();
         let f = |s: f64| self.alt_geom_rad(s) - thr;
-        let up = self.above(thr, &f, 0.0, span);
+        let up = self.above(thr, &f, 0.0, span, None);
         let rise = up.iter().map(|w| w.0).find(|s| *s > 0.0);
         let set = up.iter().map(|w| w.1).find(|s| *s < span);
         let circumpolar = up.len() == 1 && up[0] == (0.0, span);
@@ -619,17 +827,31 @@ impl<'a> Track<'a> {
     /// Intervals (offsets) with the observed altitude above `limits.min_alt_deg`
     /// and above the site's horizon mask.
     pub fn above_limit(&self, site: &Site, min_alt_deg: f64) -> Vec<(f64, f64)> {
+        self.above_limit_in(site, min_alt_deg, None)
+    }
+
+    /// [`Track::above_limit`], or with `only` (offsets) the same intervals
+    /// inside `only` (they may differ outside): where the horizon mask
+    /// cannot bite, the crossings far from `only` are not refined
+    /// ([`Track::above`]).
+    fn above_limit_in(
+        &self,
+        site: &Site,
+        min_alt_deg: f64,
+        only: Option<&[(f64, f64)]>,
+    ) -> Vec<(f64, f64)> {
         let span = self.frame.span_s;
         let refr = &self.frame.refraction;
         let lim = min_alt_deg.to_radians();
         let g_lim = self.frame.limit_geometric(lim);
         let f = |s: f64| self.alt_az_rad(s).0 - lim;
-        let base = self.above(g_lim, &f, 0.0, span);
         let mask_max = site
             .horizon
             .iter()
             .map(|h| h.alt_deg)
             .fold(f64::NEG_INFINITY, f64::max);
+        let only = only.filter(|_| mask_max <= min_alt_deg);
+        let base = self.above(g_lim, &f, 0.0, span, only);
         if base.is_empty() || mask_max <= min_alt_deg {
             return base;
         }
@@ -969,6 +1191,111 @@ mod tests {
             }
         }
         assert!(trusted > 10_000, "{trusted}");
+    }
+
+    #[test]
+    fn closed_form_hour_angle_is_within_its_margin() {
+        // The exact hour angle (SOFA `atioq`, `Track::ha_rad`) against the
+        // closed form's, every 20 minutes of two nights at two sites, places
+        // from pole to pole: well inside the margin `ha_sure_rad` allows.
+        let sites = crate::io::sites::catalogue().unwrap();
+        let (mut checked, mut worst) = (0usize, 0.0f64);
+        for site in sites.iter().take(2) {
+            for day in ["2026-06-21", "2026-12-01"] {
+                let night = Night::new(site, day.parse::<NaiveDate>().unwrap()).unwrap();
+                let frame = &night.sky;
+                for place in places() {
+                    let track = frame.track(&place);
+                    let Some(m) = track.ha_sure_rad() else {
+                        continue;
+                    };
+                    let mut s = 0.0;
+                    while s <= frame.span_s() {
+                        let lin = sofars::vm::anpm(track.ha_linear(s));
+                        let d = sofars::vm::anpm(lin - track.ha_rad(s)).abs();
+                        worst = worst.max(d / m);
+                        checked += 1;
+                        s += 1200.0;
+                    }
+                }
+            }
+        }
+        assert!(
+            worst < 0.5 && checked > 10_000,
+            "{worst} of the margin, {checked}"
+        );
+    }
+
+    #[test]
+    fn sketch_is_the_track() {
+        // A sketch completed is the track, to the bit; its closed form is
+        // the track's.
+        let site = crate::io::sites::resolve("pampa-lucero").unwrap();
+        let night = Night::new(&site, "2027-03-01".parse::<NaiveDate>().unwrap()).unwrap();
+        for place in places() {
+            let sketch = night.sky.sketch(&place);
+            let track = night.sky.track(&place);
+            assert_eq!(
+                sketch.transits_linear(-1e6, 1e6),
+                track.transits_linear(-1e6, 1e6)
+            );
+            let done = sketch.track(&place);
+            let bits = |t: &Track| {
+                let mut v: Vec<u64> = t.ri.iter().chain(&t.di).map(|x| x.to_bits()).collect();
+                v.extend([t.ha_mid, t.a, t.b].map(f64::to_bits));
+                v
+            };
+            assert_eq!(bits(&done), bits(&track));
+        }
+    }
+
+    #[test]
+    fn windows_lie_inside_their_bound() {
+        // Every window (and the transit `windows_and_transit` gives) lies
+        // inside the closed form's bound, at two sites (one with a horizon
+        // mask), limits from the horizon up, nights through a year.
+        let sites = crate::io::sites::catalogue().unwrap();
+        let (mut bounded, mut windows) = (0usize, 0usize);
+        for site in sites.iter().take(2) {
+            for day in 0..12 {
+                let date = NaiveDate::from_ymd_opt(2026, 1 + day, 9).unwrap();
+                let night = Night::new(site, date).unwrap();
+                let frame = &night.sky;
+                for (alt, sun) in [(0.0, -0.8), (20.0, -12.0), (41.8, -18.0), (70.0, -12.0)] {
+                    let lim = Limits::new(alt, sun).unwrap();
+                    let dark = night.dark_intervals(sun);
+                    let dark_s: Vec<(f64, f64)> = dark
+                        .iter()
+                        .map(|(a, b)| (frame.offset(*a), frame.offset(*b)))
+                        .collect();
+                    for place in places() {
+                        let track = frame.track(&place);
+                        let tn = track.windows_night(site, &dark, &lim);
+                        let (w, tr) = track.windows_and_transit(site, &dark, &lim);
+                        assert_eq!(w, tn.windows);
+                        if let Some(t) = tr {
+                            assert_eq!(Some(t), tn.transit.t);
+                        } else if let Some(t) = tn.transit.t {
+                            assert!(!w.iter().any(|(a, b)| t >= *a && t <= *b));
+                        }
+                        let Some(bound) = frame.sketch(&place).windows_bound(&dark_s, alt) else {
+                            continue;
+                        };
+                        bounded += 1;
+                        for (a, b) in &tn.windows {
+                            let (a, b) = (frame.offset(*a), frame.offset(*b));
+                            assert!(
+                                bound.iter().any(|(lo, hi)| *lo < a && b < *hi),
+                                "{} {date} {alt} {place:?}: ({a}, {b}) outside {bound:?}",
+                                site.name
+                            );
+                            windows += 1;
+                        }
+                    }
+                }
+            }
+        }
+        assert!(bounded > 6000 && windows > 2000, "{bounded} {windows}");
     }
 
     #[test]

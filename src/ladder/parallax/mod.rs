@@ -46,9 +46,9 @@ pub use plan::{EpochLevel, ExposureRule, ParallaxGoals};
 
 use crate::astro::airmass::{altitude_for_airmass_deg, kasten_young};
 use crate::astro::frames::{CatalogPlace, Observed};
-use crate::astro::night::{Limits, Night, TargetNight};
+use crate::astro::night::{Limits, Night};
 use crate::astro::time::Instant;
-use crate::astro::visibility::Track;
+use crate::astro::visibility::{ERA_RATE_RAD_S, Sketch, SkyFrame, TRANSIT_REACH_S, Track};
 use crate::config::{self, Layer};
 use crate::error::{Result, RungError};
 use crate::io::targets::{Kind, Target};
@@ -905,7 +905,7 @@ impl ParallaxMethod {
     /// The Sun's limit is the method's `sun_alt_deg` when configured (parallax
     /// epochs of red targets may be taken in twilight), else the setting's.
     pub fn effective_limits(&self, s: &Setting) -> Limits {
-        let alt = altitude_for_airmass_deg(self.cfg.max_airmass).unwrap_or(0.0);
+        let alt = airmass_altitude_deg(self.cfg.max_airmass).unwrap_or(0.0);
         Limits {
             min_alt_deg: s.limits.min_alt_deg.max(alt),
             sun_alt_deg: self.cfg.sun_alt_deg.unwrap_or(s.limits.sun_alt_deg),
@@ -998,11 +998,19 @@ impl ParallaxMethod {
         lim: &Limits,
         threshold: f64,
     ) -> Result<NightFactor> {
-        let date = night.date;
-        // One track serves the windows and the instants in them.
-        let track = night.track(place);
-        let tn = night.windows_on(&track, lim);
-        let (best, usable, ends) = self.best_in_windows(&track, &tn);
+        let (best, usable, ends) = self.night_best(night, place, lim, true);
+        Ok(self.factor_of(night, place, threshold, (best, usable, ends)))
+    }
+
+    /// The night's [`NightFactor`] from its epoch, usable count and ends
+    /// ([`Self::best_in_windows`]).
+    fn factor_of(
+        &self,
+        night: &Night,
+        place: &CatalogPlace,
+        threshold: f64,
+        (best, usable, ends): WindowBest,
+    ) -> NightFactor {
         let mid = night
             .start
             .add_seconds(night.end.seconds_since(&night.start) / 2.0);
@@ -1011,8 +1019,8 @@ impl ParallaxMethod {
             parallax_factors(night.earth_bary_au(t_eval), place.ra_rad, place.dec_rad);
         let factor = self.cfg.factor_axis.value(pf_ra, pf_dec);
         let observable = best.is_some();
-        Ok(NightFactor {
-            night: date,
+        NightFactor {
+            night: night.date,
             pf_ra,
             pf_dec,
             factor,
@@ -1024,7 +1032,84 @@ impl ParallaxMethod {
             hour_angle_h: best.map(|b| b.1.to_degrees() / 15.0),
             airmass: best.map(|b| b.2),
             usable_min: usable as f64 * WINDOW_STEP_S / 60.0,
-        })
+        }
+    }
+
+    /// The epoch of a night, its usable instants and their ends
+    /// ([`Self::best_in_windows`]). With `settle`, what the closed form
+    /// settles is not asked of the exact place: a night whose windows
+    /// cannot reach the usable stretches around the transits
+    /// ([`Self::idle`]) has none, without its track; the track's windows are
+    /// found without the highest altitude in the dark, and the transit only
+    /// when it can lie in one ([`Track::windows_and_transit`]). Without
+    /// `settle`, the night's full row ([`Night::windows_on`]) and every
+    /// instant on the exact place: the same answer (unit test
+    /// `settled_nights_are_the_exact_ones`).
+    fn night_best(
+        &self,
+        night: &Night,
+        place: &CatalogPlace,
+        lim: &Limits,
+        settle: bool,
+    ) -> WindowBest {
+        if !settle {
+            let track = night.track(place);
+            let tn = night.windows_on(&track, lim);
+            return self.best_in_windows(&track, &tn.windows, tn.transit.t, false);
+        }
+        let sketch = night.sky.sketch(place);
+        let dark = night.dark_intervals(lim.sun_alt_deg);
+        if self.idle(&sketch, &dark, lim) {
+            return (None, 0, None);
+        }
+        let track = sketch.track(place);
+        let (windows, transit) = track.windows_and_transit(&night.site, &dark, lim);
+        self.best_in_windows(&track, &windows, transit, true)
+    }
+
+    /// Hour-angle half-width (radians) of the instants [`usable`] can
+    /// accept around a transit, closed form, and its use in
+    /// [`Self::best_in_windows`].
+    fn usable_half_width(
+        &self,
+        frame: &SkyFrame,
+        half_width_above: impl Fn(f64) -> Option<f64>,
+    ) -> Option<f64> {
+        let ha_lim_rad = (self.cfg.ha_limit_h * 15.0).to_radians();
+        let alt_x = airmass_altitude_deg(self.cfg.max_airmass).unwrap_or(0.0);
+        half_width_above(frame.refraction().geometric(alt_x.to_radians()))
+            .map(|h| h.min(ha_lim_rad))
+    }
+
+    /// Whether a night's windows cannot hold a usable instant nor the
+    /// transit, from the target's closed form alone: every window lies in
+    /// [`Sketch::windows_bound`], every usable stretch
+    /// [`Self::best_in_windows`] looks at lies around a closed-form transit
+    /// (its half-width from the same closed form), and the refined transit
+    /// within [`TRANSIT_REACH_S`] of one; when none of those meet the bound,
+    /// the windows give no epoch, no usable instant and no ends (the
+    /// stretches' index ranges come out empty without an evaluation).
+    fn idle(&self, sketch: &Sketch, dark: &[(Instant, Instant)], lim: &Limits) -> bool {
+        let frame = sketch.frame();
+        let h_use = self.usable_half_width(frame, |g| sketch.half_width_above(g));
+        if h_use.is_some_and(|h| h >= std::f64::consts::PI) {
+            return false;
+        }
+        let dark_s: Vec<(f64, f64)> = dark
+            .iter()
+            .map(|(a, b)| (frame.offset(*a), frame.offset(*b)))
+            .collect();
+        let Some(bound) = sketch.windows_bound(&dark_s, lim.min_alt_deg) else {
+            return false;
+        };
+        if bound.is_empty() {
+            return true;
+        }
+        let w = h_use.map_or(0.0, |h| h / ERA_RATE_RAD_S) + TRANSIT_REACH_S + 5.0;
+        let transits = sketch.transits_linear(f64::NEG_INFINITY, f64::INFINITY);
+        !bound
+            .iter()
+            .any(|(lo, hi)| transits.iter().any(|s| s - w < *hi && *lo < s + w))
     }
 
     /// The rule of a night's epoch: instants every [`WINDOW_STEP_S`] from the
@@ -1033,20 +1118,32 @@ impl ParallaxMethod {
     /// maximum; the epoch is the usable instant nearest the meridian. Returns
     /// (instant, hour angle in radians, airmass) of the epoch, the count of
     /// usable instants (the transit not counted), and the first and last
-    /// usable instants of the night.
+    /// usable instants of the night. `transit` is the night's first upper
+    /// transit (only looked at inside a window).
     ///
     /// The usable instants of a window are those inside the hour-angle
     /// interval around a transit where both limits hold (the altitude falls
     /// and |HA| grows away from the transit), so the closed form of the
     /// target's [`Track`] gives their index range; the instants at its ends
     /// and the candidates nearest the meridian are checked on the exact place.
-    fn best_in_windows(&self, track: &Track, tn: &TargetNight) -> WindowBest {
+    /// With `settle`, an instant whose closed form stands clearly on one side
+    /// of both limits ([`Track::ha_sure_rad`], [`Track::clearly_above`]) is
+    /// taken as the closed form says, and a candidate whose closed-form |HA|
+    /// is clearly above a usable candidate's exact one is not evaluated (it
+    /// cannot be the nearest the meridian).
+    fn best_in_windows(
+        &self,
+        track: &Track,
+        windows: &[(Instant, Instant)],
+        transit: Option<Instant>,
+        settle: bool,
+    ) -> WindowBest {
         let ha_lim_rad = (self.cfg.ha_limit_h * 15.0).to_radians();
         let ok = |o: &Observed| -> Option<f64> {
             let x = kasten_young(o.alt_rad.to_degrees())?;
             (o.ha_rad.abs() <= ha_lim_rad && x <= self.cfg.max_airmass).then_some(x)
         };
-        let alt_lim = altitude_for_airmass_deg(self.cfg.max_airmass);
+        let alt_lim = airmass_altitude_deg(self.cfg.max_airmass);
         let usable_at = |o: &Observed| {
             usable(
                 o.alt_rad,
@@ -1058,19 +1155,36 @@ impl ParallaxMethod {
         };
         let frame = track.frame();
         // Hour-angle half-width of the usable interval, closed form.
-        let alt_x = alt_lim.unwrap_or(0.0);
-        let h_use = track
-            .half_width_above(frame.refraction().geometric(alt_x.to_radians()))
-            .map(|h| h.min(ha_lim_rad));
-        let mut best: Option<(Instant, f64, f64, f64)> = None; // (t, |ha|, airmass, ha)
+        let h_use = self.usable_half_width(frame, |g| track.half_width_above(g));
+        // What the closed form settles of an instant's usability: outside
+        // the hour-angle limit by more than its margin, or inside it and
+        // clearly above the airmass limit's altitude (and clearly below the
+        // zenith, where `usable` reads the altitude alone).
+        let ha_sure = track.ha_sure_rad().filter(|_| settle);
+        let g_alt = alt_lim.map(|l| frame.refraction().geometric(l.to_radians()));
+        let g_top = 88f64.to_radians();
+        let ha_lin = |s: f64| sofars::vm::anpm(track.ha_linear(s)).abs();
+        let sure = |s: f64| -> Option<bool> {
+            let m = ha_sure?;
+            let h = ha_lin(s);
+            if h > ha_lim_rad + m {
+                return Some(false);
+            }
+            if h < ha_lim_rad - m
+                && track.clearly_above(s, g_alt?)?
+                && track.clearly_above(s, g_top) == Some(false)
+            {
+                return Some(true);
+            }
+            None
+        };
         let mut usable = 0usize;
         let mut ends: Option<(Instant, Instant)> = None;
-        let mut consider = |t: Instant, o: &Observed, x: f64| {
-            if best.is_none_or(|b| o.ha_rad.abs() < b.1) {
-                best = Some((t, o.ha_rad.abs(), x, o.ha_rad));
-            }
-        };
-        for (wa, wb) in &tn.windows {
+        // The candidates nearest the meridian, in the order the rule takes
+        // them (each stretch's ends, window by window, then the transit),
+        // with the exact place when it is already found.
+        let mut cands: Vec<(Instant, f64, Option<Observed>)> = Vec::new();
+        for (wa, wb) in windows {
             let a = frame.offset(*wa);
             let k = (wb.seconds_since(wa) / WINDOW_STEP_S).floor() as i64;
             let at = |i: i64| a + i as f64 * WINDOW_STEP_S;
@@ -1085,9 +1199,9 @@ impl ParallaxMethod {
                 seen.borrow_mut().push((i, o));
                 o
             };
-            let good = |i: i64| usable_at(&obs(i));
+            let good = |i: i64| sure(at(i)).unwrap_or_else(|| usable_at(&obs(i)));
             if let Some(h) = h_use {
-                let w = h / crate::astro::visibility::ERA_RATE_RAD_S;
+                let w = h / ERA_RATE_RAD_S;
                 // One usable stretch around each transit (the whole window
                 // when the limits allow every hour angle).
                 let stretches: Vec<(f64, f64)> = if h >= std::f64::consts::PI {
@@ -1131,21 +1245,48 @@ impl ParallaxMethod {
                     // window it is usable itself (considered below) or no
                     // instant is; otherwise the nearest is an end of the range.
                     for i in [i0, i1] {
-                        let o = obs(i);
-                        if let Some(x) = ok(&o) {
-                            consider(frame.instant(at(i)), &o, x);
-                        }
+                        let known = seen.borrow().iter().find(|(j, _)| *j == i).map(|(_, o)| *o);
+                        cands.push((frame.instant(at(i)), at(i), known));
                     }
                 }
             }
-            if let Some(tr) = tn.transit.t
+            if let Some(tr) = transit
                 && tr.seconds_since(wa) >= 0.0
                 && wb.seconds_since(&tr) >= 0.0
             {
-                let o = track.observe_at(tr);
-                if let Some(x) = ok(&o) {
-                    consider(tr, &o, x);
-                }
+                cands.push((tr, frame.offset(tr), None));
+            }
+        }
+        // The rule takes the first candidate of least exact |HA| among the
+        // usable ones. Candidates are evaluated nearest the meridian first
+        // (closed form); one whose closed-form |HA| exceeds a usable
+        // candidate's exact |HA| by more than the margin has a larger exact
+        // |HA| and is left out.
+        let mut order: Vec<usize> = (0..cands.len()).collect();
+        let lin: Vec<f64> = cands.iter().map(|c| ha_lin(c.1)).collect();
+        if ha_sure.is_some() {
+            order.sort_by(|x, y| lin[*x].total_cmp(&lin[*y]));
+        }
+        let mut exact: Vec<Option<(Observed, f64)>> = vec![None; cands.len()];
+        let mut least: Option<f64> = None;
+        for i in order {
+            if let (Some(m), Some(l)) = (ha_sure, least)
+                && lin[i] - m > l
+            {
+                continue;
+            }
+            let o = cands[i].2.unwrap_or_else(|| track.observe(cands[i].1));
+            if let Some(x) = ok(&o) {
+                exact[i] = Some((o, x));
+                least = Some(least.map_or(o.ha_rad.abs(), |l| l.min(o.ha_rad.abs())));
+            }
+        }
+        let mut best: Option<(Instant, f64, f64, f64)> = None; // (t, |ha|, airmass, ha)
+        for (c, e) in cands.iter().zip(&exact) {
+            if let Some((o, x)) = e
+                && best.is_none_or(|b| o.ha_rad.abs() < b.1)
+            {
+                best = Some((c.0, o.ha_rad.abs(), *x, o.ha_rad));
             }
         }
         (best.map(|b| (b.0, b.3, b.2)), usable, ends)
@@ -1174,6 +1315,27 @@ impl ParallaxMethod {
             )
         }
     }
+}
+
+/// [`altitude_for_airmass_deg`] (60 bisection steps, each a `pow`: more
+/// than the rest of an idle night's work), the last answer kept per
+/// thread: the series asks it of the same limit for every night.
+fn airmass_altitude_deg(max_airmass: f64) -> Option<f64> {
+    use std::cell::Cell;
+    thread_local! {
+        static LAST: Cell<Option<(u64, Option<f64>)>> = const { Cell::new(None) };
+    }
+    let key = max_airmass.to_bits();
+    LAST.with(|last| {
+        if let Some((k, v)) = last.get()
+            && k == key
+        {
+            return v;
+        }
+        let v = altitude_for_airmass_deg(max_airmass);
+        last.set(Some((key, v)));
+        v
+    })
 }
 
 /// Whether an instant at observed altitude `alt_rad` and hour angle
@@ -1279,6 +1441,7 @@ impl Method for ParallaxMethod {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::astro::night::TargetNight;
 
     /// `usable` gives the answer of the airmass itself (`kasten_young` ≤
     /// the limit, |HA| within its limit) at altitudes spread over the sky and
@@ -1382,6 +1545,67 @@ mod tests {
     }
 
     #[test]
+    fn kept_airmass_altitude_is_the_bisection() {
+        // The kept answer is the bisection's own, whichever limit was asked before.
+        for x in [1.5, 1.5, 2.0, f64::NAN, 1.5, 0.5, 38.0, 40.0, 1.0] {
+            assert_eq!(
+                airmass_altitude_deg(x).map(f64::to_bits),
+                altitude_for_airmass_deg(x).map(f64::to_bits),
+                "{x}"
+            );
+        }
+    }
+
+    #[test]
+    fn settled_nights_are_the_exact_ones() {
+        // A night's epoch, usable count and ends with the closed form's
+        // shortcuts (idle nights, settled instants, candidates left out) are
+        // those of the night's full row with every instant on the exact
+        // place, to the bit: both demo sites, targets from pole to pole,
+        // nights through a year, the built-in limits and wide ones, the
+        // Sun's limit of the setting and a twilight one.
+        let sites = crate::io::sites::catalogue().unwrap();
+        let builtin = ParallaxMethod::builtin().unwrap();
+        let mut wide = ParallaxMethod::builtin().unwrap();
+        wide.cfg.ha_limit_h = 4.0;
+        wide.cfg.max_airmass = 2.5;
+        let (mut compared, mut with_epoch, mut without) = (0usize, 0usize, 0usize);
+        for site in sites.iter().take(2) {
+            for d in 0..41 {
+                let date = NaiveDate::from_ymd_opt(2026, 12, 1).unwrap() + chrono::Days::new(9 * d);
+                let night = Night::new(site, date).unwrap();
+                for i in 0..36 {
+                    let place =
+                        CatalogPlace::fixed_deg(i as f64 * 10.0 + 1.0, -85.0 + i as f64 * 4.9);
+                    for (m, sun) in [(&builtin, -12.0), (&wide, -12.0), (&builtin, -6.0)] {
+                        let alt = altitude_for_airmass_deg(m.cfg.max_airmass).unwrap();
+                        let lim = Limits::new(alt.max(20.0), sun).unwrap();
+                        let got = m.night_best(&night, &place, &lim, true);
+                        let want = m.night_best(&night, &place, &lim, false);
+                        assert_eq!(
+                            format!("{got:?}"),
+                            format!("{want:?}"),
+                            "{} {date} #{i} {} h {sun}",
+                            site.name,
+                            m.cfg.ha_limit_h
+                        );
+                        compared += 1;
+                        if got.0.is_some() {
+                            with_epoch += 1;
+                        } else {
+                            without += 1;
+                        }
+                    }
+                }
+            }
+        }
+        assert!(
+            compared == 2 * 41 * 36 * 3 && with_epoch > 1500 && without > 1500,
+            "{compared} {with_epoch} {without}"
+        );
+    }
+
+    #[test]
     fn closed_form_epoch_rule_matches_the_sampled_rule() {
         // Both demo sites, targets from pole to pole, two sets of limits (the
         // built-in ±1 h and airmass 1.5, and a wide ±6 h, airmass 3).
@@ -1403,7 +1627,12 @@ mod tests {
                     let tn = night.windows(&place, &lim);
                     for m in [&narrow, &wide] {
                         let want = sampled(m, &night, &place, &tn);
-                        let got = m.best_in_windows(&night.track(&place), &tn);
+                        let got = m.best_in_windows(
+                            &night.track(&place),
+                            &tn.windows,
+                            tn.transit.t,
+                            true,
+                        );
                         assert_eq!(got.1, want.1, "{} {day} #{i}: usable instants", site.name);
                         match (got.0, want.0) {
                             (Some(g), Some(w)) => {
