@@ -12,7 +12,7 @@ pub mod parallax;
 pub mod pulsator;
 pub mod transient;
 
-use crate::astro::frames::{CatalogPlace, Context};
+use crate::astro::frames::{CatalogPlace, Context, Observed};
 use crate::astro::night::Limits;
 use crate::astro::site::Site;
 use crate::astro::time::Instant;
@@ -116,6 +116,21 @@ pub trait ExposureModel: Sync {
                     .collect()
             })
             .collect()
+    }
+    /// [`Self::snr_table`] with `seen`, the target's observed place through
+    /// `ctx` (`ctx.observe(place)`), already known to the caller: the same
+    /// answers. The default asks [`Self::snr_table`].
+    fn snr_table_seen(
+        &self,
+        mags: &[f64],
+        band: &str,
+        exptimes: &[f64],
+        ctx: &Context,
+        place: &CatalogPlace,
+        seen: &Observed,
+    ) -> Result<Vec<Vec<f64>>> {
+        let _ = seen;
+        self.snr_table(mags, band, exptimes, ctx, place)
     }
     /// Signal-to-noise on a star of magnitude `mag` in a total `exptime_s`
     /// split into `n_frames` sub-exposures chosen for another star (each frame

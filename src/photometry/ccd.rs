@@ -476,6 +476,15 @@ impl Rates {
         Exposure::of(&(self, exptime_s, n)).best_radius_pix()
     }
 
+    /// The SNR of [`Self::snr_for`] with the split `n` known: that of
+    /// [`Self::evaluate`] through [`Self::best_radius_pix`] (the same
+    /// numbers), without the rest of the budget.
+    pub fn snr_best(&self, exptime_s: f64, n: u32) -> f64 {
+        let e = Exposure::of(&(self, exptime_s, n));
+        let Terms { nstar, total, .. } = e.terms(e.best_radius_pix());
+        if total > 0.0 { nstar / total } else { 0.0 }
+    }
+
     /// [`Self::best_radius_pix`] of several stars' rates, exposures and
     /// splits, in order, each the answer of that job alone.
     pub fn best_radius_pix_each(jobs: &[(&Rates, f64, u32)]) -> Vec<f64> {

@@ -27,7 +27,7 @@ pub use ccd::{Conditions, NoiseBudget, Rates};
 pub use instrument::{DEMO_INSTRUMENT, Instrument};
 
 use crate::astro::airmass::kasten_young;
-use crate::astro::frames::{CatalogPlace, Context};
+use crate::astro::frames::{CatalogPlace, Context, Observed};
 use crate::astro::site::Site;
 use crate::error::{Result, RungError};
 use crate::ladder::ExposureModel;
@@ -146,6 +146,32 @@ impl Photometer {
         Ok((g, sky, airmass))
     }
 
+    /// The sky brightness (mag arcsec⁻²) and the airmass of
+    /// [`Self::sky_and_airmass`] alone (the same numbers, the same refusals
+    /// in the same order), with the target's observed place through `ctx`
+    /// taken from `seen` when known.
+    fn sky_mag_and_airmass(
+        &self,
+        b: &Band,
+        ctx: &Context,
+        place: &CatalogPlace,
+        seen: Option<&Observed>,
+    ) -> Result<(f64, f64)> {
+        let g = match seen {
+            Some(o) => SkyGeometry::at_seen(ctx, o),
+            None => SkyGeometry::at(ctx, place),
+        };
+        let sky = crate::sky::sky_mag_arcsec2(b, &self.bands.twilight, &g)?;
+        let alt_deg = g.target_alt_rad.to_degrees();
+        let airmass = kasten_young(alt_deg).ok_or_else(|| {
+            RungError::invalid(
+                "target position",
+                format!("altitude {alt_deg:.1}° has no airmass"),
+            )
+        })?;
+        Ok((sky, airmass))
+    }
+
     fn prepare(
         &self,
         mag: f64,
@@ -188,29 +214,73 @@ impl Photometer {
 
     /// The rates of [`Self::prepare`] alone (the same checks in the same
     /// order, the same numbers), with the sky and airmass at `ctx` taken
-    /// from `sky` when held and kept there when worked out.
+    /// from `sky` when held and kept there when worked out (the target's
+    /// observed place from `seen` when known).
     fn prepare_rates(
         &self,
         mag: f64,
         band: &str,
         ctx: &Context,
         place: &CatalogPlace,
-        sky: &mut Option<(SkyGeometry, SkyBrightness, f64)>,
+        seen: Option<&Observed>,
+        sky: &mut Option<(f64, f64)>,
     ) -> Result<Rates> {
         ccd::check_mag(mag)?;
         let b = self.bands.get(band)?;
         self.instrument.throughput_in(&b.name)?;
-        if sky.is_none() {
-            *sky = Some(self.sky_and_airmass(b, ctx, place)?);
-        }
-        let (_, sky, airmass) = sky.as_ref().expect("worked out above");
+        let (sky_mag_arcsec2, airmass) = match *sky {
+            Some(x) => x,
+            None => *sky.insert(self.sky_mag_and_airmass(b, ctx, place, seen)?),
+        };
         let cond = Conditions {
-            airmass: *airmass,
-            sky_mag_arcsec2: sky.sky_mag_arcsec2,
+            airmass,
+            sky_mag_arcsec2,
             seeing_fwhm_arcsec: self.seeing_fwhm_arcsec,
             site_elev_m: self.site.elev_m,
         };
         ccd::rates(&self.instrument, b, mag, &cond)
+    }
+
+    /// [`ExposureModel::snr_table`], the target's observed place through
+    /// `ctx` taken from `seen` when known: each star's rates (its sky,
+    /// airmass and count rates at `ctx`) prepared once, then the same CCD
+    /// equation per exposure, checked and asked in the trait's order, so
+    /// the same numbers and the same first refusal as one call each.
+    fn table(
+        &self,
+        mags: &[f64],
+        band: &str,
+        exptimes: &[f64],
+        ctx: &Context,
+        place: &CatalogPlace,
+        seen: Option<&Observed>,
+    ) -> Result<Vec<Vec<f64>>> {
+        let mut rates: Vec<Option<ccd::Rates>> = mags.iter().map(|_| None).collect();
+        // The sky and airmass at `ctx` do not depend on the star's
+        // magnitude: worked out for the first star, kept for the others.
+        let mut sky: Option<(f64, f64)> = None;
+        // Every fallible step in the order one call each takes them (so
+        // the first refusal is the same); each cell's SNR is that of
+        // `Rates::snr_for` (`Rates::snr_best`).
+        exptimes
+            .iter()
+            .map(|&t| {
+                mags.iter()
+                    .zip(rates.iter_mut())
+                    .map(|(m, r)| {
+                        ccd::check_exptime(t)?;
+                        let r = match r {
+                            Some(r) => r,
+                            None => {
+                                r.insert(self.prepare_rates(*m, band, ctx, place, seen, &mut sky)?)
+                            }
+                        };
+                        let n = r.n_exposures_for(t, &self.instrument)?;
+                        Ok(r.snr_best(t, n))
+                    })
+                    .collect()
+            })
+            .collect()
     }
 
     fn finish(&self, mut e: Exposure, budget: NoiseBudget) -> Exposure {
@@ -354,10 +424,7 @@ impl ExposureModel for Photometer {
         Ok(self.snr_at(mag, band, exptime_s, ctx, place)?.budget.snr)
     }
 
-    /// [`Self::snr`] in a table: each star's rates (its sky, airmass and
-    /// count rates at `ctx`) prepared once, then the same CCD equation per
-    /// exposure, checked and asked in the trait's order, so the same
-    /// numbers and the same first refusal as one call each.
+    /// [`Self::snr`] in a table ([`Photometer::table`]).
     fn snr_table(
         &self,
         mags: &[f64],
@@ -366,39 +433,20 @@ impl ExposureModel for Photometer {
         ctx: &Context,
         place: &CatalogPlace,
     ) -> Result<Vec<Vec<f64>>> {
-        let mut rates: Vec<Option<ccd::Rates>> = mags.iter().map(|_| None).collect();
-        // The sky and airmass at `ctx` do not depend on the star's
-        // magnitude: worked out for the first star, kept for the others.
-        let mut sky: Option<(SkyGeometry, SkyBrightness, f64)> = None;
-        // Every fallible step first, in the order one call each takes them
-        // (so the first refusal is the same), then the best apertures of
-        // all the cells at once (`Rates::best_radius_pix_each`), then the
-        // CCD equation through each: the numbers of `Rates::snr_for`.
-        let mut cells: Vec<(usize, f64, u32)> = Vec::with_capacity(exptimes.len() * mags.len());
-        for &t in exptimes {
-            for (k, (m, r)) in mags.iter().zip(rates.iter_mut()).enumerate() {
-                ccd::check_exptime(t)?;
-                if r.is_none() {
-                    *r = Some(self.prepare_rates(*m, band, ctx, place, &mut sky)?);
-                }
-                let r = r.as_ref().expect("prepared above");
-                cells.push((k, t, r.n_exposures_for(t, &self.instrument)?));
-            }
-        }
-        let rates: Vec<ccd::Rates> = rates.into_iter().flatten().collect();
-        let jobs: Vec<(&ccd::Rates, f64, u32)> =
-            cells.iter().map(|&(k, t, n)| (&rates[k], t, n)).collect();
-        let radii = ccd::Rates::best_radius_pix_each(&jobs);
-        let sat = self.instrument.saturation_e();
-        let snrs: Vec<f64> = jobs
-            .iter()
-            .zip(radii)
-            .map(|(&(r, t, n), radius)| r.evaluate(t, n, radius, sat).snr)
-            .collect();
-        let m = mags.len();
-        Ok((0..exptimes.len())
-            .map(|i| snrs[i * m..(i + 1) * m].to_vec())
-            .collect())
+        self.table(mags, band, exptimes, ctx, place, None)
+    }
+
+    /// [`Self::snr_table`] without observing the target again.
+    fn snr_table_seen(
+        &self,
+        mags: &[f64],
+        band: &str,
+        exptimes: &[f64],
+        ctx: &Context,
+        place: &CatalogPlace,
+        seen: &Observed,
+    ) -> Result<Vec<Vec<f64>>> {
+        self.table(mags, band, exptimes, ctx, place, Some(seen))
     }
 
     /// Errors when the star saturates even in the shortest exposure.

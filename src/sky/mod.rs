@@ -231,14 +231,32 @@ impl SkyGeometry {
     /// The geometry of `place` seen through `ctx` (SOFA observed places of the
     /// target, Sun and Moon; phase from `Context::moon_phase_angle_rad`).
     pub fn at(ctx: &Context, place: &CatalogPlace) -> Self {
-        Self::at_in(&SkyAt::new(ctx), place)
+        Self::at_seen(ctx, &ctx.observe(place))
     }
 
     /// [`SkyGeometry::at`] with the Moon, the Sun and the phase of the
     /// instant found once ([`SkyAt::new`]), for many targets at one instant:
     /// the same numbers.
     pub fn at_in(sky: &SkyAt, place: &CatalogPlace) -> Self {
-        let o = sky.ctx.observe(place);
+        Self::seen_in(sky, &sky.ctx.observe(place))
+    }
+
+    /// [`SkyGeometry::at`] with the target's observed place through `ctx`
+    /// (`ctx.observe(place)`) already known: the same numbers.
+    pub fn at_seen(ctx: &Context, seen: &Observed) -> Self {
+        // SkyAt::new's parts, without copying the context.
+        let moon = ctx.moon();
+        SkyGeometry {
+            target_alt_rad: seen.alt_rad,
+            moon_alt_rad: moon.alt_geom_rad,
+            moon_sep_rad: seen.separation_rad(&moon),
+            moon_phase_rad: ctx.moon_phase_angle_rad(),
+            sun_alt_rad: ctx.sun().alt_geom_rad,
+        }
+    }
+
+    /// The geometry of the target observed at `o` through `sky.ctx`.
+    fn seen_in(sky: &SkyAt, o: &Observed) -> Self {
         SkyGeometry {
             target_alt_rad: o.alt_rad,
             moon_alt_rad: sky.moon.alt_geom_rad,
@@ -275,13 +293,18 @@ pub struct SkyBrightness {
     pub notes: Vec<String>,
 }
 
-/// Sky brightness in `band` for the geometry `g`: the K&S dark sky scaled with
-/// airmass, the K&S Moon term (evaluated with the band's extinction and shifted
-/// by the band's moonlight colour: exact K&S in V, an approximation in other
-/// bands), and the twilight term shifted by the band's twilight colour, added
-/// as light. Error when the target is below the horizon. Accuracy: K&S quote
-/// 8–23 % in V (from memory); other bands and twilight are approximations.
-pub fn sky_brightness(band: &Band, tw: &TwilightModel, g: &SkyGeometry) -> Result<SkyBrightness> {
+/// The light of [`sky_brightness`]'s parts, nL (the twilight as its
+/// magnitude), and their sum.
+struct SkyLight {
+    ir: Option<(f64, f64)>,
+    dark: f64,
+    moon: f64,
+    tw_mag: Option<f64>,
+    total: f64,
+}
+
+/// The light [`sky_brightness`] adds up, each part the same expression.
+fn sky_light(band: &Band, tw: &TwilightModel, g: &SkyGeometry) -> Result<SkyLight> {
     if g.target_alt_rad.is_nan() || g.target_alt_rad <= 0.0 {
         return Err(RungError::invalid(
             "target position",
@@ -316,6 +339,36 @@ pub fn sky_brightness(band: &Band, tw: &TwilightModel, g: &SkyGeometry) -> Resul
     let tw_mag = twilight_v_mag_arcsec2(g.sun_alt_rad, tw).map(|m| m + band.twilight_colour_mag);
     let twl = tw_mag.map(nl_from_mag).unwrap_or(0.0);
     let total = dark + moon + twl;
+    Ok(SkyLight {
+        ir,
+        dark,
+        moon,
+        tw_mag,
+        total,
+    })
+}
+
+/// The total sky brightness of [`sky_brightness`] alone, mag arcsec⁻²
+/// (`sky_mag_arcsec2`, the same number and the same refusal), without its
+/// parts' magnitudes and notes.
+pub fn sky_mag_arcsec2(band: &Band, tw: &TwilightModel, g: &SkyGeometry) -> Result<f64> {
+    Ok(mag_from_nl(sky_light(band, tw, g)?.total))
+}
+
+/// Sky brightness in `band` for the geometry `g`: the K&S dark sky scaled with
+/// airmass, the K&S Moon term (evaluated with the band's extinction and shifted
+/// by the band's moonlight colour: exact K&S in V, an approximation in other
+/// bands), and the twilight term shifted by the band's twilight colour, added
+/// as light. Error when the target is below the horizon. Accuracy: K&S quote
+/// 8–23 % in V (from memory); other bands and twilight are approximations.
+pub fn sky_brightness(band: &Band, tw: &TwilightModel, g: &SkyGeometry) -> Result<SkyBrightness> {
+    let SkyLight {
+        ir,
+        dark,
+        moon,
+        tw_mag,
+        total,
+    } = sky_light(band, tw, g)?;
     let sky = mag_from_nl(total);
     let mut notes = Vec::new();
     if g.sun_alt_rad.to_degrees() > tw.model_top_sun_alt_deg {

@@ -268,7 +268,12 @@ impl<'a> Model<'a> {
     }
 
     fn geometry(&self, ctx: &Context) -> Result<Geom> {
-        let o = ctx.observe(&self.place);
+        self.geometry_seen(ctx, &ctx.observe(&self.place))
+    }
+
+    /// [`Self::geometry`] with the target's observed place through `ctx`
+    /// (`o`, `ctx.observe(&self.place)`) known.
+    fn geometry_seen(&self, ctx: &Context, o: &crate::astro::frames::Observed) -> Result<Geom> {
         let alt = o.alt_rad.to_degrees();
         let airmass = kasten_young(alt).ok_or_else(|| {
             RungError::invalid(
@@ -630,6 +635,8 @@ fn slots(
     one_per_night: bool,
 ) -> Result<Vec<Slot>> {
     use rayon::prelude::*;
+    let exps: Vec<f64> = rule.levels.iter().map(|l| l.exptime_s).collect();
+    let mags = [model.observed_mag(), model.frame.mag];
     let per: Vec<Vec<Slot>> = nights
         .par_iter()
         .map(|(i, nf)| -> Result<Vec<Slot>> {
@@ -648,15 +655,20 @@ fn slots(
             ts.iter()
                 .map(|t| {
                     let ctx = night.context(*t);
-                    let geom = model.geometry(&ctx)?;
+                    // The target observed once, for its geometry and its sky.
+                    let seen = ctx.observe(&model.place);
+                    let geom = model.geometry_seen(&ctx, &seen)?;
                     // Every level's SNRs at once (the same numbers); on a
                     // refusal, level by level as before, so that the same
                     // refusal is the one returned.
-                    let exps: Vec<f64> = rule.levels.iter().map(|l| l.exptime_s).collect();
-                    let mags = [model.observed_mag(), model.frame.mag];
-                    let table = model
-                        .em
-                        .snr_table(&mags, model.band(), &exps, &ctx, &model.place);
+                    let table = model.em.snr_table_seen(
+                        &mags,
+                        model.band(),
+                        &exps,
+                        &ctx,
+                        &model.place,
+                        &seen,
+                    );
                     let at = rule
                         .levels
                         .iter()
