@@ -159,6 +159,46 @@ struct Exposure {
     max_radius_pix: f64,
 }
 
+/// The ends of the search of [`Exposure::best_radius_pix`], which depend on
+/// the PSF's σ and the largest radius alone (the same for every exposure of
+/// one instrument and seeing): the radii, u = r²/2σ² and e^{−u} at each end.
+#[derive(Debug, Clone, Copy)]
+pub struct RadiusEnds {
+    two_sigma2: f64,
+    max_radius_pix: f64,
+    lo_r: f64,
+    hi_r: f64,
+    lo_u: f64,
+    hi_u: f64,
+    e_lo: f64,
+    e_hi: f64,
+}
+
+impl RadiusEnds {
+    fn of(x: &Exposure) -> Self {
+        let lo_r = 0.5f64.min(x.max_radius_pix);
+        let hi_r = x.max_radius_pix;
+        let (lo_u, hi_u) = (lo_r * lo_r / x.two_sigma2, hi_r * hi_r / x.two_sigma2);
+        RadiusEnds {
+            two_sigma2: x.two_sigma2,
+            max_radius_pix: x.max_radius_pix,
+            lo_r,
+            hi_r,
+            lo_u,
+            hi_u,
+            e_lo: (-lo_u).exp(),
+            e_hi: (-hi_u).exp(),
+        }
+    }
+
+    /// Whether these are the ends of `x`'s search (the same bits of σ and
+    /// of the largest radius).
+    fn fit(&self, x: &Exposure) -> bool {
+        self.two_sigma2.to_bits() == x.two_sigma2.to_bits()
+            && self.max_radius_pix.to_bits() == x.max_radius_pix.to_bits()
+    }
+}
+
 /// The noise terms of one exposure at one aperture radius ([`Exposure::terms`]).
 struct Terms {
     frac: f64,
@@ -240,8 +280,22 @@ impl Exposure {
     /// thousands of jobs) while the radius itself may differ from such a
     /// search's in its last digits.
     fn best_radius_pix(&self) -> f64 {
-        let lo_r = 0.5f64.min(self.max_radius_pix);
-        let hi_r = self.max_radius_pix;
+        self.best_radius_pix_in(&RadiusEnds::of(self))
+    }
+
+    /// [`Self::best_radius_pix`] with the search's ends worked out
+    /// ([`RadiusEnds::of`] of an exposure with the same σ and largest
+    /// radius as this one): the same numbers.
+    fn best_radius_pix_in(&self, ends: &RadiusEnds) -> f64 {
+        let RadiusEnds {
+            lo_r,
+            hi_r,
+            lo_u: lo,
+            hi_u: hi,
+            e_lo,
+            e_hi,
+            ..
+        } = *ends;
         let a = self.star_e_per_s * self.exptime_s;
         let b = self.sky_e + self.dark_e + self.n_f64 * self.read_e * self.read_e;
         let p = std::f64::consts::PI * self.two_sigma2;
@@ -263,9 +317,8 @@ impl Exposure {
         if !weighable {
             return hi_r;
         }
-        // G and dG/du at u.
-        let g = |u: f64| {
-            let e = (-u).exp();
+        // G and dG/du at u, e = e^{−u}.
+        let g_at = |u: f64, e: f64| {
             let one_e = 1.0 - e;
             let f = u * (p + k * u);
             let f1 = p + 2.0 * k * u;
@@ -274,12 +327,13 @@ impl Exposure {
             let du = a * e * (2.0 * e - 1.0) + b * (e * (f1 - 2.0 * f) - one_e * f2);
             (gu, du)
         };
-        let (mut lo, mut hi) = (lo_r * lo_r / self.two_sigma2, hi_r * hi_r / self.two_sigma2);
-        let (g_hi, _) = g(hi);
+        let g = |u: f64| g_at(u, (-u).exp());
+        let (mut lo, mut hi) = (lo, hi);
+        let (g_hi, _) = g_at(hi, e_hi);
         if g_hi >= 0.0 || g_hi.is_nan() {
             return hi_r;
         }
-        let (g_lo, _) = g(lo);
+        let (g_lo, _) = g_at(lo, e_lo);
         if g_lo <= 0.0 || g_lo.is_nan() {
             return lo_r;
         }
@@ -365,12 +419,7 @@ fn check_conditions(c: &Conditions) -> Result<()> {
 /// sky is already as seen from the ground, so it is not extinguished again).
 /// Inputs are checked; errors name the bad value.
 pub fn rates(inst: &Instrument, band: &Band, mag: f64, cond: &Conditions) -> Result<Rates> {
-    check_mag(mag)?;
-    check_conditions(cond)?;
-    let tp = inst.throughput_in(&band.name)?;
-    let a = inst.area_cm2() * tp;
-    let ext = crate::sky::extinction_mag(band, cond.airmass);
-    let star = band.photons_per_s_cm2(mag + ext) * a;
+    let (a, ext, star) = star_rate(inst, band, mag, cond)?;
     let pix_arcsec2 = inst.pixel_scale_arcsec * inst.pixel_scale_arcsec;
     let sky = band.photons_per_s_cm2(cond.sky_mag_arcsec2) * pix_arcsec2 * a;
     let fwhm_pix = cond.seeing_fwhm_arcsec / inst.pixel_scale_arcsec;
@@ -395,6 +444,41 @@ pub fn rates(inst: &Instrument, band: &Band, mag: f64, cond: &Conditions) -> Res
         peak_fraction: p * p,
         max_radius_pix: (3.0f64.min(ri) * fwhm_pix).max(0.5),
         extinction_mag: ext,
+    })
+}
+
+/// The checks of [`rates`] and its collecting area × throughput, extinction
+/// and star electrons per second.
+fn star_rate(
+    inst: &Instrument,
+    band: &Band,
+    mag: f64,
+    cond: &Conditions,
+) -> Result<(f64, f64, f64)> {
+    check_mag(mag)?;
+    check_conditions(cond)?;
+    let tp = inst.throughput_in(&band.name)?;
+    let a = inst.area_cm2() * tp;
+    let ext = crate::sky::extinction_mag(band, cond.airmass);
+    let star = band.photons_per_s_cm2(mag + ext) * a;
+    Ok((a, ext, star))
+}
+
+/// [`rates`] of another star (magnitude `mag`) seen as the star of `like`
+/// was (`like` = `rates(inst, band, _, cond)`): the same checks and the same
+/// numbers, the parts that do not depend on the star taken from `like`.
+pub fn rates_like(
+    inst: &Instrument,
+    band: &Band,
+    mag: f64,
+    cond: &Conditions,
+    like: &Rates,
+) -> Result<Rates> {
+    let (_, ext, star) = star_rate(inst, band, mag, cond)?;
+    Ok(Rates {
+        star_e_per_s: star,
+        extinction_mag: ext,
+        ..*like
     })
 }
 
@@ -479,9 +563,15 @@ impl Rates {
     /// The SNR of [`Self::snr_for`] with the split `n` known: that of
     /// [`Self::evaluate`] through [`Self::best_radius_pix`] (the same
     /// numbers), without the rest of the budget.
-    pub fn snr_best(&self, exptime_s: f64, n: u32) -> f64 {
+    /// `ends` keeps the search's ends between calls (worked out when
+    /// `None` or another σ's).
+    pub fn snr_best(&self, exptime_s: f64, n: u32, ends: &mut Option<RadiusEnds>) -> f64 {
         let e = Exposure::of(&(self, exptime_s, n));
-        let Terms { nstar, total, .. } = e.terms(e.best_radius_pix());
+        let ends = match ends {
+            Some(x) if x.fit(&e) => x,
+            _ => ends.insert(RadiusEnds::of(&e)),
+        };
+        let Terms { nstar, total, .. } = e.terms(e.best_radius_pix_in(ends));
         if total > 0.0 { nstar / total } else { 0.0 }
     }
 

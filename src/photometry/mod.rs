@@ -224,6 +224,7 @@ impl Photometer {
         place: &CatalogPlace,
         seen: Option<&Observed>,
         sky: &mut Option<(f64, f64)>,
+        like: Option<&Rates>,
     ) -> Result<Rates> {
         ccd::check_mag(mag)?;
         let b = self.bands.get(band)?;
@@ -238,7 +239,10 @@ impl Photometer {
             seeing_fwhm_arcsec: self.seeing_fwhm_arcsec,
             site_elev_m: self.site.elev_m,
         };
-        ccd::rates(&self.instrument, b, mag, &cond)
+        match like {
+            Some(like) => ccd::rates_like(&self.instrument, b, mag, &cond, like),
+            None => ccd::rates(&self.instrument, b, mag, &cond),
+        }
     }
 
     /// [`ExposureModel::snr_table`], the target's observed place through
@@ -259,6 +263,11 @@ impl Photometer {
         // The sky and airmass at `ctx` do not depend on the star's
         // magnitude: worked out for the first star, kept for the others.
         let mut sky: Option<(f64, f64)> = None;
+        // The first star's rates lend the others what does not depend on
+        // the star (`ccd::rates_like`); the aperture search's ends are
+        // kept from cell to cell (`ccd::RadiusEnds`).
+        let mut first: Option<Rates> = None;
+        let mut ends: Option<ccd::RadiusEnds> = None;
         // Every fallible step in the order one call each takes them (so
         // the first refusal is the same); each cell's SNR is that of
         // `Rates::snr_for` (`Rates::snr_best`).
@@ -272,11 +281,21 @@ impl Photometer {
                         let r = match r {
                             Some(r) => r,
                             None => {
-                                r.insert(self.prepare_rates(*m, band, ctx, place, seen, &mut sky)?)
+                                let x = self.prepare_rates(
+                                    *m,
+                                    band,
+                                    ctx,
+                                    place,
+                                    seen,
+                                    &mut sky,
+                                    first.as_ref(),
+                                )?;
+                                first.get_or_insert(x);
+                                r.insert(x)
                             }
                         };
                         let n = r.n_exposures_for(t, &self.instrument)?;
-                        Ok(r.snr_best(t, n))
+                        Ok(r.snr_best(t, n, &mut ends))
                     })
                     .collect()
             })
