@@ -984,5 +984,51 @@ mod tests {
         for (g, (r, t, n)) in got.iter().zip(&each) {
             assert_eq!(g.to_bits(), r.best_radius_pix(*t, *n).to_bits());
         }
+        // snr_best is the SNR of evaluate through best_radius_pix to the
+        // bit, with the search's ends kept from job to job (every job's
+        // σ differs: worked out again each time) and for one star at
+        // several exposures (the same σ: kept).
+        let mut ends = None;
+        for (r, t, n) in &jobs {
+            let want = r.evaluate(*t, *n, r.best_radius_pix(*t, *n), f64::INFINITY);
+            assert_eq!(r.snr_best(*t, *n, &mut ends).to_bits(), want.snr.to_bits());
+            assert_eq!(r.snr_best(*t, *n, &mut None).to_bits(), want.snr.to_bits());
+        }
+        for r in edge.iter().chain(jobs.iter().take(200).map(|j| &j.0)) {
+            let mut ends = None;
+            for (t, n) in [(1e-3, 1), (1.0, 1), (30.0, 2), (300.0, 5), (86_400.0, 300)] {
+                let want = r.evaluate(t, n, r.best_radius_pix(t, n), f64::INFINITY);
+                assert_eq!(r.snr_best(t, n, &mut ends).to_bits(), want.snr.to_bits());
+            }
+        }
+    }
+
+    #[test]
+    fn rates_like_is_rates() {
+        // Another star's rates from the first one's are rates() of that
+        // star, field by field to the bit, and refuse what rates() refuses.
+        let inst = crate::photometry::instrument::demo().unwrap();
+        let bands = crate::sky::BandSet::builtin().unwrap();
+        let band = bands.get("V").unwrap();
+        for airmass in [1.0, 1.3, 2.7] {
+            for sky in [17.5, 21.0] {
+                let cond = Conditions {
+                    airmass,
+                    sky_mag_arcsec2: sky,
+                    seeing_fwhm_arcsec: 1.1,
+                    site_elev_m: 2200.0,
+                };
+                let first = rates(&inst, band, 14.0, &cond).unwrap();
+                for mag in [8.0, 14.0, 17.25, 22.0] {
+                    let want = rates(&inst, band, mag, &cond).unwrap();
+                    let got = rates_like(&inst, band, mag, &cond, &first).unwrap();
+                    assert_eq!(format!("{got:?}"), format!("{want:?}"));
+                    assert_eq!(got, want);
+                }
+                let bad = rates(&inst, band, f64::NAN, &cond).unwrap_err();
+                let got = rates_like(&inst, band, f64::NAN, &cond, &first).unwrap_err();
+                assert_eq!(got.to_string(), bad.to_string());
+            }
+        }
     }
 }

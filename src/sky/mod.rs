@@ -442,6 +442,53 @@ mod tests {
     }
 
     #[test]
+    fn seen_and_total_alone_are_the_full_answers() {
+        // SkyGeometry::at_seen with ctx.observe(place) is SkyGeometry::at,
+        // and sky_mag_arcsec2 is sky_brightness's total, to the bit, in
+        // every built-in band (optical and infrared), by day, twilight and
+        // night, Moon up and down; below the horizon both refuse alike.
+        use crate::astro::frames::Context;
+        use crate::astro::time::parse_instant;
+        let site = crate::astro::site::Site::new("t", -30.2, -70.7, 2200.0, "UTC".parse().unwrap())
+            .unwrap();
+        let bands = BandSet::builtin().unwrap();
+        assert!(bands.bands.iter().any(|b| b.infrared.is_some()));
+        let (mut up, mut down) = (0, 0);
+        for when in [
+            "2026-12-02T01:00:00Z",
+            "2026-12-02T04:00:00Z",
+            "2026-12-10T06:30:00Z",
+            "2027-03-15T23:40:00Z",
+            "2027-06-20T16:00:00Z",
+        ] {
+            let ctx = Context::exact(&site, parse_instant(when).unwrap()).unwrap();
+            for ra in [0.0, 50.0, 100.0, 170.0, 260.0, 330.0] {
+                for dec in [-85.0, -50.0, -30.0, 0.0, 25.0] {
+                    let place = CatalogPlace::fixed_deg(ra, dec);
+                    let g = SkyGeometry::at(&ctx, &place);
+                    let seen = SkyGeometry::at_seen(&ctx, &ctx.observe(&place));
+                    assert_eq!(format!("{g:?}"), format!("{seen:?}"));
+                    for b in &bands.bands {
+                        match sky_brightness(b, &bands.twilight, &g) {
+                            Ok(full) => {
+                                up += 1;
+                                let alone = sky_mag_arcsec2(b, &bands.twilight, &g).unwrap();
+                                assert_eq!(alone.to_bits(), full.sky_mag_arcsec2.to_bits());
+                            }
+                            Err(e) => {
+                                down += 1;
+                                let alone = sky_mag_arcsec2(b, &bands.twilight, &g).unwrap_err();
+                                assert_eq!(alone.to_string(), e.to_string());
+                            }
+                        }
+                    }
+                }
+            }
+        }
+        assert!(up > 0 && down > 0, "{up} {down}");
+    }
+
+    #[test]
     fn twilight_steps() {
         let m = BandSet::builtin().unwrap().twilight;
         assert!(twilight_v_mag_arcsec2((-19f64).to_radians(), &m).is_none());
