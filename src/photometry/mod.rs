@@ -216,6 +216,7 @@ impl Photometer {
     /// order, the same numbers), with the sky and airmass at `ctx` taken
     /// from `sky` when held and kept there when worked out (the target's
     /// observed place from `seen` when known).
+    #[allow(clippy::too_many_arguments)]
     fn prepare_rates(
         &self,
         mag: f64,
