@@ -206,7 +206,7 @@ impl MoonTable {
 
 /// Dark intervals of a night by Sun limit, found once and shared by the
 /// targets (and clones) of that night.
-type DarkCache = std::sync::Arc<std::sync::Mutex<Vec<(f64, Vec<(Instant, Instant)>)>>>;
+type DarkCache = std::sync::Arc<std::sync::Mutex<Vec<(f64, Arc<[(Instant, Instant)]>)>>>;
 
 /// Topocentric altitude of the Moon's centre at which its upper limb touches the
 /// refracted horizon: −(0°34′ + semidiameter), the semidiameter being
@@ -493,6 +493,12 @@ impl Night {
     /// Intervals of the night when the Sun's centre is below `sun_alt_deg`
     /// (found once per limit and kept with the night).
     pub fn dark_intervals(&self, sun_alt_deg: f64) -> Vec<(Instant, Instant)> {
+        self.dark_shared(sun_alt_deg).to_vec()
+    }
+
+    /// [`Night::dark_intervals`] as the night keeps them (no copy: the
+    /// series asks them of every night for every target).
+    pub fn dark_shared(&self, sun_alt_deg: f64) -> Arc<[(Instant, Instant)]> {
         if let Ok(c) = self.dark_cache.lock()
             && let Some((_, iv)) = c.iter().find(|(s, _)| *s == sun_alt_deg)
         {
@@ -500,7 +506,8 @@ impl Night {
         }
         let vs: Vec<f64> = self.sun_alt_deg.iter().map(|a| sun_alt_deg - a).collect();
         let mut f = |t: Instant| sun_alt_deg - self.sun_alt_at(t);
-        let iv = positive_intervals(&mut f, &self.times, &vs, EVENT_TOL_S);
+        let iv: Arc<[(Instant, Instant)]> =
+            positive_intervals(&mut f, &self.times, &vs, EVENT_TOL_S).into();
         if let Ok(mut c) = self.dark_cache.lock()
             && c.len() < 16
         {

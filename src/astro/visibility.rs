@@ -279,7 +279,7 @@ impl SkyFrame {
 
     /// [`Refraction::geometric`] of the observed altitude `obs_rad`, the
     /// last one asked kept (the same bits as finding it again).
-    fn limit_geometric(&self, obs_rad: f64) -> f64 {
+    pub fn limit_geometric(&self, obs_rad: f64) -> f64 {
         let key = obs_rad.to_bits();
         if let Ok(m) = self.limit_geom.lock()
             && let Some((k, g)) = *m

@@ -1058,7 +1058,7 @@ impl ParallaxMethod {
             return self.best_in_windows(&track, &tn.windows, tn.transit.t, false);
         }
         let sketch = night.sky.sketch(place);
-        let dark = night.dark_intervals(lim.sun_alt_deg);
+        let dark = night.dark_shared(lim.sun_alt_deg);
         if self.idle(&sketch, &dark, lim) {
             return (None, 0, None);
         }
@@ -1077,8 +1077,10 @@ impl ParallaxMethod {
     ) -> Option<f64> {
         let ha_lim_rad = (self.cfg.ha_limit_h * 15.0).to_radians();
         let alt_x = airmass_altitude_deg(self.cfg.max_airmass).unwrap_or(0.0);
-        half_width_above(frame.refraction().geometric(alt_x.to_radians()))
-            .map(|h| h.min(ha_lim_rad))
+        // The series' altitude limit is this one (the airmass limit's
+        // altitude) unless the setting's is higher: kept with the night
+        // (`SkyFrame::limit_geometric`, the same bits).
+        half_width_above(frame.limit_geometric(alt_x.to_radians())).map(|h| h.min(ha_lim_rad))
     }
 
     /// Whether a night's windows cannot hold a usable instant nor the
@@ -1161,7 +1163,7 @@ impl ParallaxMethod {
         // clearly above the airmass limit's altitude (and clearly below the
         // zenith, where `usable` reads the altitude alone).
         let ha_sure = track.ha_sure_rad().filter(|_| settle);
-        let g_alt = alt_lim.map(|l| frame.refraction().geometric(l.to_radians()));
+        let g_alt = alt_lim.map(|l| frame.limit_geometric(l.to_radians()));
         let g_top = 88f64.to_radians();
         let ha_lin = |s: f64| sofars::vm::anpm(track.ha_linear(s)).abs();
         let sure = |s: f64| -> Option<bool> {
