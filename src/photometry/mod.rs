@@ -136,13 +136,7 @@ impl Photometer {
     ) -> Result<(SkyGeometry, SkyBrightness, f64)> {
         let g = SkyGeometry::at(ctx, place);
         let sky = crate::sky::sky_brightness(b, &self.bands.twilight, &g)?;
-        let alt_deg = g.target_alt_rad.to_degrees();
-        let airmass = kasten_young(alt_deg).ok_or_else(|| {
-            RungError::invalid(
-                "target position",
-                format!("altitude {alt_deg:.1}° has no airmass"),
-            )
-        })?;
+        let airmass = target_airmass(&g)?;
         Ok((g, sky, airmass))
     }
 
@@ -162,13 +156,7 @@ impl Photometer {
             None => SkyGeometry::at(ctx, place),
         };
         let sky = crate::sky::sky_mag_arcsec2(b, &self.bands.twilight, &g)?;
-        let alt_deg = g.target_alt_rad.to_degrees();
-        let airmass = kasten_young(alt_deg).ok_or_else(|| {
-            RungError::invalid(
-                "target position",
-                format!("altitude {alt_deg:.1}° has no airmass"),
-            )
-        })?;
+        let airmass = target_airmass(&g)?;
         Ok((sky, airmass))
     }
 
@@ -430,6 +418,18 @@ impl Photometer {
         let (r, _) = self.prepare(20.0, band, ctx, place)?;
         Ok(r.limiting_mag(20.0, exptime_s, snr, &self.instrument))
     }
+}
+
+/// The target's Kasten–Young airmass at the altitude `g` holds (an error
+/// below the horizon, where it has none).
+fn target_airmass(g: &SkyGeometry) -> Result<f64> {
+    let alt_deg = g.target_alt_rad.to_degrees();
+    kasten_young(alt_deg).ok_or_else(|| {
+        RungError::invalid(
+            "target position",
+            format!("altitude {alt_deg:.1}° has no airmass"),
+        )
+    })
 }
 
 impl ExposureModel for Photometer {

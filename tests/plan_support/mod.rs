@@ -149,12 +149,7 @@ pub fn assert_each_extra_as_predict(
         (Ok(a), Ok(_)) => assert_eq!(seen, Some(serde_json::to_string(a).unwrap())),
         _ => assert!(seen.is_none()),
     }
-    let one_by_one = if want0.is_ok() {
-        rung::ladder::predict_each_by_one(m, s, em, base, extra)
-    } else {
-        Vec::new()
-    };
-    assert_same_answer(p0, want0);
+    let one_by_one = base_same_then_one_by_one(m, s, em, base, extra, p0, want0);
     assert_eq!(each.len(), one_by_one.len());
     for (got, want) in each.into_iter().zip(one_by_one) {
         assert_same_answer(got, want);
@@ -177,12 +172,7 @@ pub fn assert_ranked_extra_near_predict(
 ) {
     let (p0, each) = m.rank_then_each_extra(s, em, base, &mut |_| extra.to_vec());
     let want0 = m.predict(s, em, base);
-    let one_by_one = if want0.is_ok() {
-        rung::ladder::predict_each_by_one(m, s, em, base, extra)
-    } else {
-        Vec::new()
-    };
-    assert_same_answer(p0, want0);
+    let one_by_one = base_same_then_one_by_one(m, s, em, base, extra, p0, want0);
     assert_eq!(each.len(), one_by_one.len());
     for (got, want) in each.into_iter().zip(one_by_one) {
         match (got, want) {
@@ -198,6 +188,27 @@ pub fn assert_ranked_extra_near_predict(
             (a, b) => panic!("{a:?} vs {b:?}"),
         }
     }
+}
+
+/// The fill's base answer `p0` must be `predict`'s `want0` (the same JSON
+/// or the same refusal); then what `predict` gives for the base followed by
+/// each extra epoch, one call each (none when the base is refused).
+fn base_same_then_one_by_one(
+    m: &dyn rung::ladder::Method,
+    s: &rung::ladder::Setting,
+    em: &dyn ExposureModel,
+    base: &[rung::ladder::Epoch],
+    extra: &[rung::ladder::Epoch],
+    p0: rung::error::Result<rung::ladder::Prediction>,
+    want0: rung::error::Result<rung::ladder::Prediction>,
+) -> Vec<rung::error::Result<rung::ladder::Prediction>> {
+    let one_by_one = if want0.is_ok() {
+        rung::ladder::predict_each_by_one(m, s, em, base, extra)
+    } else {
+        Vec::new()
+    };
+    assert_same_answer(p0, want0);
+    one_by_one
 }
 
 /// The same prediction (the same JSON) or the same refusal (the same message).
