@@ -185,35 +185,45 @@ fn room(cap: &Capacity) -> f64 {
 /// A maximum flow by Dinic's method (blocking flows along shortest paths;
 /// Dinic 1970, as in Ahuja, Magnanti & Orlin, *Network Flows*, 1993, ch. 7,
 /// from memory), on the small graph of [`Search::closure`]: used only for
-/// its minimum cut.
+/// its minimum cut. Each node's arcs are a list through `Arc::next`, the
+/// last added first; an arc and its reverse are neighbours (`e ^ 1`).
 #[derive(Default)]
 struct Flow {
-    head: Vec<usize>,
-    to: Vec<usize>,
-    cap: Vec<f64>,
-    next: Vec<usize>,
+    head: Vec<u32>,
+    arcs: Vec<Arc>,
     level: Vec<i32>,
-    it: Vec<usize>,
-    queue: Vec<usize>,
+    it: Vec<u32>,
+    queue: Vec<u32>,
+}
+
+/// An arc of [`Flow`]: its head node, the next arc out of its tail, and
+/// its residual capacity (kept together: the searches read all three).
+#[derive(Clone, Copy)]
+struct Arc {
+    to: u32,
+    next: u32,
+    cap: f64,
 }
 
 const NONE: usize = usize::MAX;
+/// The end of a node's list of arcs.
+const NO_ARC: u32 = u32::MAX;
 
 impl Flow {
     fn reset(&mut self, nodes: usize) {
         self.head.clear();
-        self.head.resize(nodes, NONE);
-        self.to.clear();
-        self.cap.clear();
-        self.next.clear();
+        self.head.resize(nodes, NO_ARC);
+        self.arcs.clear();
     }
 
     fn edge(&mut self, a: usize, b: usize, c: f64) {
         for (x, y, c) in [(a, b, c), (b, a, 0.0)] {
-            self.to.push(y);
-            self.cap.push(c);
-            self.next.push(self.head[x]);
-            self.head[x] = self.to.len() - 1;
+            self.arcs.push(Arc {
+                to: y as u32,
+                next: self.head[x],
+                cap: c,
+            });
+            self.head[x] = (self.arcs.len() - 1) as u32;
         }
     }
 
@@ -223,16 +233,18 @@ impl Flow {
         self.level.resize(self.head.len(), -1);
         self.queue.clear();
         self.level[s] = 0;
-        self.queue.push(s);
+        self.queue.push(s as u32);
         let mut q = 0;
         while q < self.queue.len() {
-            let v = self.queue[q];
+            let v = self.queue[q] as usize;
             q += 1;
+            let lv = self.level[v] + 1;
             let mut e = self.head[v];
-            while e != NONE {
-                let u = self.to[e];
-                if self.cap[e] > FLOW_EPS && self.level[u] < 0 {
-                    self.level[u] = self.level[v] + 1;
+            while e != NO_ARC {
+                let a = self.arcs[e as usize];
+                let u = a.to as usize;
+                if a.cap > FLOW_EPS && self.level[u] < 0 {
+                    self.level[u] = lv;
                     if u == t {
                         // The nodes not yet labelled lie no nearer the
                         // source than `t`: no shortest path to `t` passes
@@ -241,9 +253,9 @@ impl Flow {
                         // labels every node it reaches).
                         return true;
                     }
-                    self.queue.push(u);
+                    self.queue.push(a.to);
                 }
-                e = self.next[e];
+                e = a.next;
             }
         }
         self.level[t] >= 0
@@ -253,18 +265,20 @@ impl Flow {
         if v == t {
             return f;
         }
-        while self.it[v] != NONE {
-            let e = self.it[v];
-            let u = self.to[e];
-            if self.cap[e] > FLOW_EPS && self.level[u] == self.level[v] + 1 {
-                let d = self.push(u, t, f.min(self.cap[e]));
+        let lv = self.level[v] + 1;
+        while self.it[v] != NO_ARC {
+            let e = self.it[v] as usize;
+            let a = self.arcs[e];
+            let u = a.to as usize;
+            if a.cap > FLOW_EPS && self.level[u] == lv {
+                let d = self.push(u, t, f.min(a.cap));
                 if d > FLOW_EPS {
-                    self.cap[e] -= d;
-                    self.cap[e ^ 1] += d;
+                    self.arcs[e].cap -= d;
+                    self.arcs[e ^ 1].cap += d;
                     return d;
                 }
             }
-            self.it[v] = self.next[e];
+            self.it[v] = a.next;
         }
         0.0
     }
@@ -306,8 +320,12 @@ struct Search<'a> {
     node_of_night: Vec<usize>,
     /// Candidates of a cut (item, profit), its users by night, and its set.
     cand: Vec<(usize, f64)>,
+    /// Whether each candidate of the cut is linked to no night node.
+    lone: Vec<bool>,
     users: Vec<u32>,
     cut: Vec<usize>,
+    /// Each item's own hours ([`Item::own_total`], summed once).
+    own: Vec<f64>,
     /// Whether every weight is a whole number (sums of them are then
     /// whole, and exact in floating point).
     whole: bool,
@@ -425,6 +443,8 @@ impl<'a> Search<'a> {
             flow: Flow::default(),
             node_of_night: vec![NONE; p.nights.len()],
             cand: Vec::new(),
+            lone: Vec::new(),
+            own: p.items.iter().map(Item::own_total).collect(),
             users: vec![0; p.nights.len()],
             cut: Vec::new(),
             whole: order
@@ -620,7 +640,7 @@ impl<'a> Search<'a> {
         self.buf.clear();
         for &i in &self.order[k..] {
             let it = &self.p.items[i];
-            let mut c = it.own_total();
+            let mut c = self.own[i];
             for &n in &it.nights {
                 if self.night_use[n] == 0 {
                     c += self.p.nights[n].hours / self.avail[n].min(m).max(1) as f64;
@@ -722,7 +742,7 @@ impl<'a> Search<'a> {
         self.cand.clear();
         for &i in &self.order[k..] {
             let it = &p.items[i];
-            let profit = theta * it.weight - it.own_total();
+            let profit = theta * it.weight - self.own[i];
             if profit > 0.0 {
                 self.cand.push((i, profit));
                 for &n in &it.nights {
@@ -751,10 +771,23 @@ impl<'a> Search<'a> {
             }
         }
         self.flow.reset(nodes);
+        // A candidate without a night node (a lone one) gets no edge: no
+        // path to the sink passes it, so the flow and the other nodes'
+        // levels are the same without it, and it is on the source side
+        // exactly when its edge from the source would have room.
+        self.lone.clear();
+        let mut linked = false;
         for (j, c) in self.cand.iter().enumerate() {
-            if c.1 <= 0.0 {
+            let lone = c.1 <= 0.0
+                || p.items[c.0]
+                    .nights
+                    .iter()
+                    .all(|&n| self.node_of_night[n] == NONE);
+            self.lone.push(lone);
+            if lone {
                 continue;
             }
+            linked = true;
             self.flow.edge(src, 2 + j, c.1);
             for &n in &p.items[c.0].nights {
                 let v = self.node_of_night[n];
@@ -763,26 +796,32 @@ impl<'a> Search<'a> {
                 }
             }
         }
-        for c in &self.cand {
-            for &n in &p.items[c.0].nights {
-                let v = self.node_of_night[n];
-                if v != NONE && v < nodes {
-                    // Each night's edge once: its node moved out of range marks it done.
-                    self.flow.edge(v, sink, p.nights[n].hours);
-                    self.node_of_night[n] = NONE - v;
+        if linked {
+            for c in &self.cand {
+                for &n in &p.items[c.0].nights {
+                    let v = self.node_of_night[n];
+                    if v != NONE && v < nodes {
+                        // Each night's edge once: its node moved out of range marks it done.
+                        self.flow.edge(v, sink, p.nights[n].hours);
+                        self.node_of_night[n] = NONE - v;
+                    }
                 }
             }
+            self.flow.run(src, sink);
         }
-        self.flow.run(src, sink);
         // The source side's items, and the hours they add.
         self.cut.clear();
         let (mut w, mut c) = (0.0, 0.0);
         for (j, cd) in self.cand.iter().enumerate() {
-            if cd.1 > 0.0 && self.flow.level[2 + j] >= 0 {
-                let it = &p.items[cd.0];
+            let inside = if self.lone[j] {
+                cd.1 > FLOW_EPS
+            } else {
+                self.flow.level[2 + j] >= 0
+            };
+            if inside {
                 self.cut.push(cd.0);
-                w += it.weight;
-                c += it.own_total();
+                w += p.items[cd.0].weight;
+                c += self.own[cd.0];
             }
         }
         for &i in &self.cut {
@@ -809,7 +848,7 @@ impl<'a> Search<'a> {
         for &i in &self.order[k..] {
             let it = &p.items[i];
             w += it.weight;
-            c += it.own_total();
+            c += self.own[i];
             for &n in &it.nights {
                 if self.night_use[n] == 0 && self.node_of_night[n] == NONE {
                     self.node_of_night[n] = 0;
@@ -1860,6 +1899,96 @@ mod tests {
         assert_eq!(c.items, vec![1, 2]);
         assert_eq!(c.weight, 22.0);
         assert!(c.proven_optimal);
+    }
+
+    /// A small generator of test numbers (xorshift64*, Vigna 2016, from memory).
+    struct Rng(u64);
+    impl Rng {
+        fn step(&mut self) -> u64 {
+            self.0 ^= self.0 >> 12;
+            self.0 ^= self.0 << 25;
+            self.0 ^= self.0 >> 27;
+            self.0.wrapping_mul(0x2545_f491_4f6c_dd1d)
+        }
+        fn below(&mut self, n: u64) -> u64 {
+            self.step() % n
+        }
+        fn unit(&mut self) -> f64 {
+            (self.step() >> 11) as f64 / (1u64 << 53) as f64
+        }
+    }
+
+    #[test]
+    fn closure_is_the_least_of_cost_less_theta_weight_over_every_set() {
+        // Random programmes with nights shared by several items, by one
+        // (a lone candidate's own cost) and by none, some already used by
+        // decided items: the cut's set must reach the least
+        // cost(B) - theta * weight(B) over every set B of undecided items
+        // (to 1e-9 of the hours), and its weight and hours must be its own.
+        let mut rng = Rng(0x9e37_79b9_7f4a_7c15);
+        for _ in 0..300 {
+            let n_items = 2 + rng.below(9) as usize;
+            let n_nights = 1 + rng.below(8) as usize;
+            let nights: Vec<NightCost> = (0..n_nights)
+                .map(|_| NightCost {
+                    semester: 0,
+                    hours: 0.1 + 2.0 * rng.unit(),
+                })
+                .collect();
+            let items: Vec<Item> = (0..n_items)
+                .map(|_| {
+                    let k = rng.below(4) as usize;
+                    item(
+                        1.0 + rng.below(4) as f64,
+                        0.05 + 3.0 * rng.unit(),
+                        (0..k)
+                            .map(|_| rng.below(n_nights as u64) as usize)
+                            .collect(),
+                    )
+                })
+                .collect();
+            let p = Problem {
+                items,
+                nights,
+                semesters: 1,
+            };
+            let cap = Capacity::Total(f64::INFINITY);
+            let mut s = Search::new(&p, &cap);
+            let k = rng.below(s.order.len() as u64 / 2 + 1) as usize;
+            for j in 0..k {
+                let i = s.order[j];
+                s.pass(i);
+                if rng.below(2) == 0 {
+                    s.add(i);
+                }
+            }
+            let theta = 0.2 + 4.0 * rng.unit();
+            let (w, c) = s.closure(k, theta);
+            let cut = s.cut.clone();
+            let undecided: Vec<usize> = s.order[k..].to_vec();
+            let added = |b: &[usize]| {
+                let mut with = s.set.clone();
+                with.extend_from_slice(b);
+                p.cost(&with)[0] - s.total()
+            };
+            let cut_w: f64 = cut.iter().map(|&i| p.items[i].weight).sum();
+            assert!((w - cut_w).abs() < 1e-9, "{w} {cut_w}");
+            assert!((c - added(&cut)).abs() < 1e-9, "{c} {}", added(&cut));
+            let mut least = f64::INFINITY;
+            for mask in 0u32..(1 << undecided.len()) {
+                let b: Vec<usize> = (0..undecided.len())
+                    .filter(|j| mask & (1 << j) != 0)
+                    .map(|j| undecided[j])
+                    .collect();
+                let bw: f64 = b.iter().map(|&i| p.items[i].weight).sum();
+                least = least.min(added(&b) - theta * bw);
+            }
+            assert!(
+                (c - theta * w - least).abs() < 1e-9,
+                "cut {cut:?}: {} against {least}",
+                c - theta * w
+            );
+        }
     }
 
     #[test]
