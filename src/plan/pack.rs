@@ -156,32 +156,44 @@ pub fn check(p: &Problem, sol: &[Placement]) -> Result<(), String> {
     Ok(())
 }
 
-/// Subtract the open interval `(a, b)` from a sorted list of closed
-/// intervals (a closed interval may be a single start); `tmp` is scratch.
-fn subtract(ivs: &mut Vec<(f64, f64)>, tmp: &mut Vec<(f64, f64)>, a: f64, b: f64) {
-    if b <= a {
-        return;
-    }
-    // Nothing to cut: the list stays as it is (no copy).
-    if !ivs.iter().any(|&(x, y)| !(b <= x || a >= y)) {
-        return;
-    }
-    tmp.clear();
-    for &(x, y) in ivs.iter() {
-        if b <= x || a >= y {
-            tmp.push((x, y));
-            continue;
+/// The closed intervals left of the sorted closed intervals `wins` (a
+/// closed interval may be a single start) once the open intervals `cuts`
+/// (sorted by their start; empty ones left out) are taken away, into `out`,
+/// in order. The ends of an open interval stay: a start exactly at a busy
+/// visit's end (or ending exactly at its start) fits.
+///
+/// What is left of a window is a closed set; its pieces are its connected
+/// parts, so the answer does not depend on the order the cuts are taken in:
+/// one sweep over the cuts sorted by start gives what subtracting them one
+/// by one from a copy of the list gives (the test
+/// `sweep_equals_cutting_one_by_one` compares the two), without the copies.
+fn free_starts(wins: &[(f64, f64)], cuts: &[(f64, f64)], out: &mut Vec<(f64, f64)>) {
+    out.clear();
+    for &(x, y) in wins {
+        // The start of the piece being grown (closed).
+        let mut cur = x;
+        let mut alive = true;
+        for &(a, b) in cuts {
+            if b <= cur {
+                continue;
+            }
+            if a >= y {
+                // The cuts are sorted by start: none after this one reaches in.
+                break;
+            }
+            if a >= cur {
+                out.push((cur, a));
+            }
+            cur = b;
+            if cur > y {
+                alive = false;
+                break;
+            }
         }
-        // The ends of the open interval stay: a start exactly at a busy
-        // visit's end (or ending exactly at its start) fits.
-        if a >= x {
-            tmp.push((x, a));
-        }
-        if b <= y {
-            tmp.push((b, y));
+        if alive {
+            out.push((cur, y));
         }
     }
-    std::mem::swap(ivs, tmp);
 }
 
 /// A visit on a night: (start, end, target, `Some(item)` or `None` for a fixed visit).
@@ -196,16 +208,25 @@ type Busy = (f64, f64, usize, Option<usize>);
 struct Board<'a> {
     p: &'a Problem,
     used: Vec<f64>,
-    /// Per night: the visits on it.
+    /// Per night: the visits on it, sorted by start (so the cuts they make
+    /// in an item's starts come sorted, for [`free_starts`]).
     busy: Vec<Vec<Busy>>,
-    /// Per target: mid-times of its visits.
+    /// Per target: mid-times of its visits, sorted.
     mids: Vec<Vec<f64>>,
     /// Per target: its placed items.
     of_target: Vec<Vec<usize>>,
     placed: Vec<Option<f64>>,
-    /// Scratch for [`Board::starts`] (its answer) and [`subtract`].
+    /// [`Board::starts`]'s answer, and its scratch (the windows' starts, the cuts).
     ivs: Vec<(f64, f64)>,
-    tmp: Vec<(f64, f64)>,
+    wins: Vec<(f64, f64)>,
+    cuts: Vec<(f64, f64)>,
+}
+
+/// Insert `x` into the sorted `v` after the elements equal to it.
+fn insert_sorted<T>(v: &mut Vec<T>, x: T, key: impl Fn(&T) -> f64) {
+    let k = key(&x);
+    let at = v.partition_point(|y| key(y).total_cmp(&k).is_le());
+    v.insert(at, x);
 }
 
 impl<'a> Board<'a> {
@@ -218,12 +239,17 @@ impl<'a> Board<'a> {
             of_target: vec![Vec::new(); p.spacing_s.len()],
             placed: vec![None; p.items.len()],
             ivs: Vec::new(),
-            tmp: Vec::new(),
+            wins: Vec::new(),
+            cuts: Vec::new(),
         };
         for f in &p.fixed {
             b.used[f.night] += f.end_s - f.start_s;
-            b.busy[f.night].push((f.start_s, f.end_s, f.target, None));
-            b.mids[f.target].push((f.start_s + f.end_s) / 2.0);
+            insert_sorted(
+                &mut b.busy[f.night],
+                (f.start_s, f.end_s, f.target, None),
+                |x| x.0,
+            );
+            insert_sorted(&mut b.mids[f.target], (f.start_s + f.end_s) / 2.0, |m| *m);
         }
         b
     }
@@ -232,35 +258,36 @@ impl<'a> Board<'a> {
     /// `skip` (an item being moved), into `self.ivs`.
     fn starts(&mut self, i: usize, skip: Option<usize>) {
         let it = &self.p.items[i];
-        let ivs = &mut self.ivs;
-        let tmp = &mut self.tmp;
-        ivs.clear();
-        ivs.extend(
+        let wins = &mut self.wins;
+        let cuts = &mut self.cuts;
+        wins.clear();
+        wins.extend(
             it.windows
                 .iter()
                 .filter(|w| w.1 - w.0 >= it.dur_s)
                 .map(|w| (w.0, w.1 - it.dur_s)),
         );
-        ivs.sort_by(|a, b| a.0.total_cmp(&b.0));
-        // The span of the starts: a busy visit that cuts nothing of it
-        // leaves the list as it is ([`subtract`]'s own first test); the
-        // list only shrinks, so the span found first stays a bound.
+        wins.sort_by(|a, b| a.0.total_cmp(&b.0));
+        // The span of the starts: a cut outside it cuts nothing.
         let (lo, hi) = (
-            ivs.iter().map(|v| v.0).fold(f64::INFINITY, f64::min),
-            ivs.iter().map(|v| v.1).fold(f64::NEG_INFINITY, f64::max),
+            wins.iter().map(|v| v.0).fold(f64::INFINITY, f64::min),
+            wins.iter().map(|v| v.1).fold(f64::NEG_INFINITY, f64::max),
         );
+        // The busy visits sorted by start give their cuts sorted by start.
+        cuts.clear();
         for &(s, e, _, who) in &self.busy[it.night] {
             if who.is_some() && who == skip {
                 continue;
             }
             let (a, b) = (s - it.dur_s, e);
-            if b <= lo || a >= hi {
+            if b <= a || b <= lo || a >= hi {
                 continue;
             }
-            subtract(ivs, tmp, a, b);
+            cuts.push((a, b));
         }
         let sp = self.p.spacing_s[it.target];
         if sp > 0.0 {
+            let n_busy = cuts.len();
             let half = it.dur_s / 2.0;
             let skip_mid =
                 skip.and_then(|k| self.placed[k].map(|s| s + self.p.items[k].dur_s / 2.0));
@@ -271,18 +298,27 @@ impl<'a> Board<'a> {
                     continue;
                 }
                 let (a, b) = (m - sp - half, m + sp - half);
-                if b <= lo || a >= hi {
+                if b <= a || b <= lo || a >= hi {
                     continue;
                 }
-                subtract(ivs, tmp, a, b);
+                cuts.push((a, b));
+            }
+            if cuts.len() > n_busy && n_busy > 0 {
+                cuts.sort_by(|a, b| a.0.total_cmp(&b.0));
             }
         }
+        free_starts(wins, cuts, &mut self.ivs);
     }
 
     fn fits_capacity(&self, i: usize, skip: Option<usize>) -> bool {
+        self.fits_capacity_at(self.used[self.p.items[i].night], i, skip)
+    }
+
+    /// [`Board::fits_capacity`] were its night's use `used_s`.
+    fn fits_capacity_at(&self, used_s: f64, i: usize, skip: Option<usize>) -> bool {
         let it = &self.p.items[i];
         let freed = skip.map_or(0.0, |k| self.p.items[k].dur_s);
-        self.used[it.night] - freed + it.dur_s <= self.p.capacity_s[it.night] + 1e-6
+        used_s - freed + it.dur_s <= self.p.capacity_s[it.night] + 1e-6
     }
 
     /// The feasible start nearest `target_s`.
@@ -305,8 +341,12 @@ impl<'a> Board<'a> {
     fn put(&mut self, i: usize, s: f64) {
         let it = &self.p.items[i];
         self.used[it.night] += it.dur_s;
-        self.busy[it.night].push((s, s + it.dur_s, it.target, Some(i)));
-        self.mids[it.target].push(s + it.dur_s / 2.0);
+        insert_sorted(
+            &mut self.busy[it.night],
+            (s, s + it.dur_s, it.target, Some(i)),
+            |b| b.0,
+        );
+        insert_sorted(&mut self.mids[it.target], s + it.dur_s / 2.0, |m| *m);
         self.of_target[it.target].push(i);
         self.placed[i] = Some(s);
     }
@@ -317,12 +357,16 @@ impl<'a> Board<'a> {
             return;
         };
         self.used[it.night] -= it.dur_s;
-        if let Some(k) = self.busy[it.night].iter().position(|b| b.3 == Some(i)) {
-            self.busy[it.night].remove(k);
+        let busy = &mut self.busy[it.night];
+        let from = busy.partition_point(|b| b.0.total_cmp(&s).is_lt());
+        if let Some(k) = busy[from..].iter().position(|b| b.3 == Some(i)) {
+            busy.remove(from + k);
         }
         let m = s + it.dur_s / 2.0;
-        if let Some(k) = self.mids[it.target].iter().position(|x| *x == m) {
-            self.mids[it.target].remove(k);
+        let mids = &mut self.mids[it.target];
+        let from = mids.partition_point(|x| *x < m);
+        if mids.get(from) == Some(&m) {
+            mids.remove(from);
         }
         if let Some(k) = self.of_target[it.target].iter().position(|&x| x == i) {
             self.of_target[it.target].remove(k);
@@ -426,6 +470,20 @@ fn exchange(p: &Problem, groups: &[(usize, Vec<usize>)], board: &mut Board) {
                     let Some(k_start) = board.placed[k] else {
                         continue;
                     };
+                    let kn = p.items[k].night;
+                    if kn == it.night {
+                        // Taking `k` out and putting it back when `i` does
+                        // not fit the night's capacity without it, as sums
+                        // (the same two, so `used` keeps its bits) instead
+                        // of moves: the order of a night's visits, a
+                        // target's mid-times and its placed items changes
+                        // no answer (sorted, or sets).
+                        let freed = board.used[kn] - p.items[k].dur_s;
+                        if !board.fits_capacity_at(freed, i, None) {
+                            board.used[kn] = freed + p.items[k].dur_s;
+                            continue;
+                        }
+                    }
                     board.take(k);
                     let Some(s) = board.nearest(i, it.pref_s, None) else {
                         board.put(k, k_start);
@@ -548,6 +606,195 @@ pub fn pack(p: &Problem) -> Vec<Placement> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// A small deterministic generator (xorshift64*), for the random cases.
+    struct Rng(u64);
+
+    impl Rng {
+        fn below(&mut self, n: u64) -> u64 {
+            self.0 ^= self.0 >> 12;
+            self.0 ^= self.0 << 25;
+            self.0 ^= self.0 >> 27;
+            (self.0.wrapping_mul(0x2545_f491_4f6c_dd1d) >> 11) % n
+        }
+    }
+
+    /// The free starts the slow way: a copy of the list per cut, the cut
+    /// taken from every piece it overlaps (the packer's method before the
+    /// sweep of [`free_starts`]).
+    fn subtract(ivs: &mut Vec<(f64, f64)>, a: f64, b: f64) {
+        if b <= a {
+            return;
+        }
+        let mut out = Vec::new();
+        for &(x, y) in ivs.iter() {
+            if b <= x || a >= y {
+                out.push((x, y));
+                continue;
+            }
+            if a >= x {
+                out.push((x, a));
+            }
+            if b <= y {
+                out.push((b, y));
+            }
+        }
+        *ivs = out;
+    }
+
+    #[test]
+    fn sweep_equals_cutting_one_by_one() {
+        // Whole numbers on a short range, so cuts often share ends with
+        // each other and with the windows (the single-start pieces).
+        let mut r = Rng(0x9e37_79b9_7f4a_7c15);
+        for _ in 0..20_000 {
+            let mut wins = Vec::new();
+            let mut x = r.below(10) as f64;
+            for _ in 0..1 + r.below(3) {
+                let y = x + r.below(20) as f64;
+                wins.push((x, y));
+                x = y + 1.0 + r.below(5) as f64;
+            }
+            let cuts: Vec<(f64, f64)> = (0..r.below(12))
+                .map(|_| {
+                    let a = r.below(60) as f64 - 5.0;
+                    (a, a + r.below(12) as f64)
+                })
+                .collect();
+            let mut want = wins.clone();
+            for &(a, b) in &cuts {
+                subtract(&mut want, a, b);
+            }
+            let mut sorted: Vec<(f64, f64)> = cuts.into_iter().filter(|c| c.1 > c.0).collect();
+            sorted.sort_by(|a, b| a.0.total_cmp(&b.0));
+            let mut got = Vec::new();
+            free_starts(&wins, &sorted, &mut got);
+            assert_eq!(got, want, "windows {wins:?} cuts {sorted:?}");
+        }
+    }
+
+    /// A problem of a few nights, targets and items on a grid of 100 s, with
+    /// fixed visits, tight capacities and spacings.
+    fn random_problem(r: &mut Rng) -> Problem {
+        let nights = 1 + r.below(3) as usize;
+        let targets = 1 + r.below(4) as usize;
+        let mut items = Vec::new();
+        for g in 0..4 + r.below(20) as usize {
+            for rank in 0..1 + r.below(3) as usize {
+                let night = r.below(nights as u64) as usize;
+                let base = night as f64 * 100_000.0;
+                let w0 = base + 100.0 * r.below(40) as f64;
+                let w1 = w0 + 100.0 * (1 + r.below(40)) as f64;
+                let w2 = w1 + 100.0 * (1 + r.below(10)) as f64;
+                let w3 = w2 + 100.0 * r.below(30) as f64;
+                items.push(Item {
+                    group: g,
+                    rank,
+                    target: r.below(targets as u64) as usize,
+                    night,
+                    value: 1.0 + r.below(4) as f64 / 2.0,
+                    dur_s: 100.0 * (1 + r.below(8)) as f64,
+                    pref_s: w0 + 100.0 * r.below(50) as f64,
+                    windows: vec![(w0, w1), (w2, w3)],
+                });
+            }
+        }
+        let capacity_s: Vec<f64> = (0..nights)
+            .map(|_| 100.0 * (5 + r.below(30)) as f64)
+            .collect();
+        // At most one fixed visit a night, within its capacity (fixed visits
+        // are taken as they are, so they must keep the rules themselves).
+        let mut fixed = Vec::new();
+        for night in 0..nights {
+            if r.below(2) == 0 {
+                let s = night as f64 * 100_000.0 + 100.0 * r.below(60) as f64;
+                fixed.push(Fixed {
+                    target: r.below(targets as u64) as usize,
+                    night,
+                    start_s: s,
+                    end_s: s + 100.0 * (1 + r.below(5)) as f64,
+                });
+            }
+        }
+        Problem {
+            capacity_s,
+            spacing_s: (0..targets).map(|_| 100.0 * r.below(20) as f64).collect(),
+            items,
+            fixed,
+        }
+    }
+
+    #[test]
+    fn board_starts_equal_cutting_everything_afresh() {
+        // After any puts and takes, an item's starts (with or without an
+        // item skipped) are its windows cut by every visit on its night and
+        // every mid-time of its target, one by one, in the order they came.
+        let mut r = Rng(0x2545_f491_4f6c_dd1d);
+        for _ in 0..300 {
+            let p = random_problem(&mut r);
+            let mut board = Board::new(&p);
+            // The visits as placed, in the order they came: (item or none, night, target, start, end).
+            let mut log: Vec<(Option<usize>, usize, usize, f64, f64)> = p
+                .fixed
+                .iter()
+                .map(|f| (None, f.night, f.target, f.start_s, f.end_s))
+                .collect();
+            for _ in 0..60 {
+                let i = r.below(p.items.len() as u64) as usize;
+                if board.placed[i].is_some() {
+                    board.take(i);
+                    log.retain(|v| v.0 != Some(i));
+                } else if let Some(s) = board.nearest(i, p.items[i].pref_s, None) {
+                    board.put(i, s);
+                    let it = &p.items[i];
+                    log.push((Some(i), it.night, it.target, s, s + it.dur_s));
+                }
+                let j = r.below(p.items.len() as u64) as usize;
+                let skip = log
+                    .iter()
+                    .filter_map(|v| v.0)
+                    .nth(r.below(4) as usize)
+                    .filter(|_| r.below(2) == 0);
+                let it = &p.items[j];
+                let mut want: Vec<(f64, f64)> = it
+                    .windows
+                    .iter()
+                    .filter(|w| w.1 - w.0 >= it.dur_s)
+                    .map(|w| (w.0, w.1 - it.dur_s))
+                    .collect();
+                want.sort_by(|a, b| a.0.total_cmp(&b.0));
+                let sp = p.spacing_s[it.target];
+                for v in &log {
+                    if v.0.is_some() && v.0 == skip {
+                        continue;
+                    }
+                    if v.1 == it.night {
+                        subtract(&mut want, v.3 - it.dur_s, v.4);
+                    }
+                    if v.2 == it.target && sp > 0.0 {
+                        let m = (v.3 + v.4) / 2.0;
+                        let half = it.dur_s / 2.0;
+                        subtract(&mut want, m - sp - half, m + sp - half);
+                    }
+                }
+                board.starts(j, skip);
+                assert_eq!(board.ivs, want, "item {j} skip {skip:?}");
+            }
+        }
+    }
+
+    #[test]
+    fn random_packings_keep_the_rules() {
+        // Tight nights, so the exchange step (and its capacity test without
+        // moves) runs often.
+        let mut r = Rng(0x1234_5678_9abc_def1);
+        for _ in 0..500 {
+            let p = random_problem(&mut r);
+            let sol = pack(&p);
+            check(&p, &sol).unwrap();
+            assert_eq!(pack(&p), sol);
+        }
+    }
 
     fn item(group: usize, target: usize, value: f64, dur: f64, pref: f64, w: (f64, f64)) -> Item {
         Item {
