@@ -304,7 +304,8 @@ impl<'a> Board<'a> {
                 cuts.push((a, b));
             }
             if cuts.len() > n_busy && n_busy > 0 {
-                cuts.sort_by(|a, b| a.0.total_cmp(&b.0));
+                // Ties in start give the same sweep in either order.
+                cuts.sort_unstable_by(|a, b| a.0.total_cmp(&b.0));
             }
         }
         free_starts(wins, cuts, &mut self.ivs);
@@ -439,7 +440,8 @@ fn exchange(p: &Problem, groups: &[(usize, Vec<usize>)], board: &mut Board) {
             group_of[i] = gi;
         }
     }
-    let mut blockers: Vec<usize> = Vec::new();
+    // With their values beside them, so the sort reads no item.
+    let mut blockers: Vec<(f64, usize)> = Vec::new();
     for _ in 0..EXCHANGE_PASSES {
         let mut gained = false;
         for (_, items) in groups {
@@ -453,20 +455,24 @@ fn exchange(p: &Problem, groups: &[(usize, Vec<usize>)], board: &mut Board) {
                 }
                 // The placed items on its night or of its target.
                 blockers.clear();
-                blockers.extend(board.busy[it.night].iter().filter_map(|b| b.3));
+                let value_of = |k: usize| (p.items[k].value, k);
+                blockers.extend(
+                    board.busy[it.night]
+                        .iter()
+                        .filter_map(|b| b.3)
+                        .map(value_of),
+                );
                 blockers.extend(
                     board.of_target[it.target]
                         .iter()
                         .copied()
-                        .filter(|&k| p.items[k].night != it.night),
+                        .filter(|&k| p.items[k].night != it.night)
+                        .map(value_of),
                 );
-                blockers.sort_by(|a, b| {
-                    p.items[*a]
-                        .value
-                        .total_cmp(&p.items[*b].value)
-                        .then(a.cmp(b))
-                });
-                for &k in &blockers {
+                // Lowest value first, then lower index (each item once, so
+                // the order is total and an unstable sort gives it).
+                blockers.sort_unstable_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+                for &(_, k) in &blockers {
                     let Some(k_start) = board.placed[k] else {
                         continue;
                     };
