@@ -23,6 +23,8 @@ pub mod photometry;
 pub mod plan;
 pub mod programme;
 pub mod sky;
+#[cfg(test)]
+mod test_rng;
 #[cfg(feature = "tui")]
 pub mod tui;
 

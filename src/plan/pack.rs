@@ -613,17 +613,7 @@ pub fn pack(p: &Problem) -> Vec<Placement> {
 mod tests {
     use super::*;
 
-    /// A small deterministic generator (xorshift64*), for the random cases.
-    struct Rng(u64);
-
-    impl Rng {
-        fn below(&mut self, n: u64) -> u64 {
-            self.0 ^= self.0 >> 12;
-            self.0 ^= self.0 << 25;
-            self.0 ^= self.0 >> 27;
-            (self.0.wrapping_mul(0x2545_f491_4f6c_dd1d) >> 11) % n
-        }
-    }
+    use crate::test_rng::Rng;
 
     /// The free starts the slow way: a copy of the list per cut, the cut
     /// taken from every piece it overlaps (the packer's method before the

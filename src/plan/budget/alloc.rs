@@ -1901,22 +1901,7 @@ mod tests {
         assert!(c.proven_optimal);
     }
 
-    /// A small generator of test numbers (xorshift64*, Vigna 2016, from memory).
-    struct Rng(u64);
-    impl Rng {
-        fn step(&mut self) -> u64 {
-            self.0 ^= self.0 >> 12;
-            self.0 ^= self.0 << 25;
-            self.0 ^= self.0 >> 27;
-            self.0.wrapping_mul(0x2545_f491_4f6c_dd1d)
-        }
-        fn below(&mut self, n: u64) -> u64 {
-            self.step() % n
-        }
-        fn unit(&mut self) -> f64 {
-            (self.step() >> 11) as f64 / (1u64 << 53) as f64
-        }
-    }
+    use crate::test_rng::Rng;
 
     #[test]
     fn closure_is_the_least_of_cost_less_theta_weight_over_every_set() {
