@@ -322,6 +322,22 @@ impl<'a> Board<'a> {
         used_s - freed + it.dur_s <= self.p.capacity_s[it.night] + 1e-6
     }
 
+    /// Whether item `i` fits its night's capacity with the placed item `k`
+    /// of that night taken out. When it does not, the night's use is left
+    /// as taking `k` out and putting it back would leave it (the same two
+    /// sums, so the same bits), without the moves: the order of a night's
+    /// visits, a target's mid-times and its placed items changes no answer
+    /// (they are sorted, or sets). When it does, nothing changes.
+    fn fits_without(&mut self, k: usize, i: usize) -> bool {
+        let (night, dur_s) = (self.p.items[k].night, self.p.items[k].dur_s);
+        let freed_s = self.used[night] - dur_s;
+        if self.fits_capacity_at(freed_s, i, None) {
+            return true;
+        }
+        self.used[night] = freed_s + dur_s;
+        false
+    }
+
     /// The feasible start nearest `target_s`.
     fn nearest(&mut self, i: usize, target_s: f64, skip: Option<usize>) -> Option<f64> {
         if !self.fits_capacity(i, skip) {
@@ -476,19 +492,8 @@ fn exchange(p: &Problem, groups: &[(usize, Vec<usize>)], board: &mut Board) {
                     let Some(k_start) = board.placed[k] else {
                         continue;
                     };
-                    let kn = p.items[k].night;
-                    if kn == it.night {
-                        // Taking `k` out and putting it back when `i` does
-                        // not fit the night's capacity without it, as sums
-                        // (the same two, so `used` keeps its bits) instead
-                        // of moves: the order of a night's visits, a
-                        // target's mid-times and its placed items changes
-                        // no answer (sorted, or sets).
-                        let freed = board.used[kn] - p.items[k].dur_s;
-                        if !board.fits_capacity_at(freed, i, None) {
-                            board.used[kn] = freed + p.items[k].dur_s;
-                            continue;
-                        }
+                    if p.items[k].night == it.night && !board.fits_without(k, i) {
+                        continue;
                     }
                     board.take(k);
                     let Some(s) = board.nearest(i, it.pref_s, None) else {
