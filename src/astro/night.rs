@@ -72,6 +72,35 @@ pub fn night_of(site: &Site, t: Instant) -> NaiveDate {
 
 /// A key that tells sites apart for the night cache: every field that
 /// changes a night (place, zone, weather, horizon, Sun-avoidance angle).
+/// A night being built: the first caller builds it under this lock, the
+/// others wait for it.
+type BuildSlot = Arc<std::sync::Mutex<Option<Arc<Night>>>>;
+
+/// An entry of the shared night cache: a night still being built, or the
+/// night itself (so that asking a built night takes one count on it).
+enum CacheEntry {
+    Building(BuildSlot),
+    Built(Arc<Night>),
+}
+
+/// The nights [`Night::shared`] keeps, by site key and date, and the
+/// order they were added in (the oldest quarter is dropped when full).
+#[derive(Default)]
+struct NightCache {
+    slots: std::collections::HashMap<(u64, NaiveDate), CacheEntry>,
+    order: std::collections::VecDeque<(u64, NaiveDate)>,
+}
+
+/// The shared night cache, locked (a panic elsewhere while it was held
+/// leaves whole entries only).
+fn night_cache() -> std::sync::MutexGuard<'static, NightCache> {
+    static CACHE: OnceLock<std::sync::Mutex<NightCache>> = OnceLock::new();
+    CACHE
+        .get_or_init(Default::default)
+        .lock()
+        .unwrap_or_else(|e| e.into_inner())
+}
+
 fn site_key(site: &Site) -> u64 {
     use std::hash::{Hash, Hasher};
     let mut h = std::collections::hash_map::DefaultHasher::new();
@@ -246,44 +275,52 @@ impl Night {
     }
 
     /// Every night from `from` to `to` (inclusive) through [`Night::shared`],
-    /// the missing ones built in parallel, in date order.
+    /// the missing ones built in parallel, in date order. The nights already
+    /// built are taken under one lock of the cache, not one per night.
     pub fn shared_range(site: &Site, from: NaiveDate, to: NaiveDate) -> Result<Vec<Arc<Night>>> {
         use rayon::prelude::*;
         let key = site_key(site);
         let dates: Vec<NaiveDate> = from.iter_days().take_while(|d| *d <= to).collect();
+        let built: Vec<Option<Arc<Night>>> = {
+            let c = night_cache();
+            dates
+                .iter()
+                .map(|d| match c.slots.get(&(key, *d)) {
+                    Some(CacheEntry::Built(n)) => Some(n.clone()),
+                    _ => None,
+                })
+                .collect()
+        };
         dates
             .par_iter()
-            .map(|d| Self::shared_keyed(site, key, *d))
+            .zip(built)
+            .map(|(d, b)| match b {
+                Some(n) => Ok(n),
+                None => Self::shared_keyed(site, key, *d),
+            })
             .collect()
     }
 
     fn shared_keyed(site: &Site, key: u64, date: NaiveDate) -> Result<Arc<Night>> {
-        use std::collections::{HashMap, VecDeque};
-        use std::sync::{Mutex, OnceLock};
-        type Slot = Arc<Mutex<Option<Arc<Night>>>>;
-        #[derive(Default)]
-        struct Cache {
-            slots: HashMap<(u64, NaiveDate), Slot>,
-            order: VecDeque<(u64, NaiveDate)>,
-        }
-        static CACHE: OnceLock<Mutex<Cache>> = OnceLock::new();
-        let cache = CACHE.get_or_init(|| Mutex::new(Cache::default()));
-        let slot: Slot = {
-            let mut c = cache.lock().unwrap_or_else(|e| e.into_inner());
-            if let Some(s) = c.slots.get(&(key, date)) {
-                s.clone()
-            } else {
-                if c.slots.len() >= NIGHT_CACHE_MAX {
-                    for _ in 0..NIGHT_CACHE_MAX / 4 {
-                        if let Some(k) = c.order.pop_front() {
-                            c.slots.remove(&k);
+        let slot: BuildSlot = {
+            let mut c = night_cache();
+            match c.slots.get(&(key, date)) {
+                // Built: one count on the night, nothing else to lock.
+                Some(CacheEntry::Built(n)) => return Ok(n.clone()),
+                Some(CacheEntry::Building(s)) => s.clone(),
+                None => {
+                    if c.slots.len() >= NIGHT_CACHE_MAX {
+                        for _ in 0..NIGHT_CACHE_MAX / 4 {
+                            if let Some(k) = c.order.pop_front() {
+                                c.slots.remove(&k);
+                            }
                         }
                     }
+                    let s = BuildSlot::default();
+                    c.slots.insert((key, date), CacheEntry::Building(s.clone()));
+                    c.order.push_back((key, date));
+                    s
                 }
-                let s = Slot::default();
-                c.slots.insert((key, date), s.clone());
-                c.order.push_back((key, date));
-                s
             }
         };
         // Build (once) under the night's own lock; other nights go on meanwhile.
@@ -293,6 +330,14 @@ impl Night {
         }
         let night = Arc::new(Night::new(site, date)?);
         *n = Some(night.clone());
+        // The entry becomes the night itself, unless the night was dropped
+        // from the cache (and perhaps asked and begun again) meanwhile.
+        let mut c = night_cache();
+        if let Some(e) = c.slots.get_mut(&(key, date))
+            && matches!(e, CacheEntry::Building(s) if Arc::ptr_eq(s, &slot))
+        {
+            *e = CacheEntry::Built(night.clone());
+        }
         Ok(night)
     }
 
