@@ -647,9 +647,10 @@ struct State<'a> {
     pre: &'a Pre,
     acc: Acc,
     chosen: Vec<usize>,
-    /// Per candidate: its dense slot and season numbers, and whether chosen.
-    slot_of: Vec<usize>,
-    season_of: Vec<usize>,
+    /// Per candidate: its dense slot and season numbers (the problem's, in
+    /// [`Pre`], shared by every search of it), and whether chosen.
+    slot_of: &'a [usize],
+    season_of: &'a [usize],
     is_chosen: Vec<bool>,
     /// Per dense slot: taken; per dense season: epochs chosen.
     slot_used: Vec<bool>,
@@ -658,8 +659,8 @@ struct State<'a> {
 
 impl<'a> State<'a> {
     fn new(p: Problem<'a>, pre: &'a Pre) -> Self {
-        let (slot_of, n_slots) = pre.slots.clone();
-        let (season_of, n_seasons) = pre.seasons.clone();
+        let (slot_of, n_slots) = (&pre.slots.0[..], pre.slots.1);
+        let (season_of, n_seasons) = (&pre.seasons.0[..], pre.seasons.1);
         State {
             p,
             pre,
