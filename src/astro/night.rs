@@ -70,8 +70,6 @@ pub fn night_of(site: &Site, t: Instant) -> NaiveDate {
     (t.local(&site.timezone) - chrono::Duration::hours(12)).date_naive()
 }
 
-/// A key that tells sites apart for the night cache: every field that
-/// changes a night (place, zone, weather, horizon, Sun-avoidance angle).
 /// A night being built: the first caller builds it under this lock, the
 /// others wait for it.
 type BuildSlot = Arc<std::sync::Mutex<Option<Arc<Night>>>>;
@@ -101,6 +99,8 @@ fn night_cache() -> std::sync::MutexGuard<'static, NightCache> {
         .unwrap_or_else(|e| e.into_inner())
 }
 
+/// A key that tells sites apart for the night cache: every field that
+/// changes a night (place, zone, weather, horizon, Sun-avoidance angle).
 fn site_key(site: &Site) -> u64 {
     use std::hash::{Hash, Hasher};
     let mut h = std::collections::hash_map::DefaultHasher::new();
