@@ -314,35 +314,15 @@ impl<'a> Board<'a> {
     }
 
     fn fits_capacity(&self, i: usize, skip: Option<usize>) -> bool {
-        self.fits_capacity_at(self.used[self.p.items[i].night], i, skip)
-    }
-
-    /// [`Board::fits_capacity`] were its night's use `used_s`.
-    fn fits_capacity_at(&self, used_s: f64, i: usize, skip: Option<usize>) -> bool {
         let it = &self.p.items[i];
         let freed = skip.map_or(0.0, |k| self.p.items[k].dur_s);
-        used_s - freed + it.dur_s <= self.p.capacity_s[it.night] + 1e-6
-    }
-
-    /// Whether item `i` fits its night's capacity with the placed item `k`
-    /// of that night taken out. When it does not, the night's use is left
-    /// as taking `k` out and putting it back would leave it (the same two
-    /// sums, so the same bits), without the moves: the order of a night's
-    /// visits, a target's mid-times and its placed items changes no answer
-    /// (they are sorted, or sets). When it does, nothing changes.
-    fn fits_without(&mut self, k: usize, i: usize) -> bool {
-        let (night, dur_s) = (self.p.items[k].night, self.p.items[k].dur_s);
-        let freed_s = self.used[night] - dur_s;
-        if self.fits_capacity_at(freed_s, i, None) {
-            return true;
-        }
-        self.round_trip_use(k);
-        false
+        self.used[it.night] - freed + it.dur_s <= self.p.capacity_s[it.night] + 1e-6
     }
 
     /// The use of the night of placed item `k` as taking `k` out and putting
     /// it back would leave it (the same two sums, so the same bits), without
-    /// the moves.
+    /// the moves: the order of a night's visits, a target's mid-times and
+    /// its placed items changes no answer (they are sorted, or sets).
     fn round_trip_use(&mut self, k: usize) {
         let (night, dur_s) = (self.p.items[k].night, self.p.items[k].dur_s);
         self.used[night] = (self.used[night] - dur_s) + dur_s;
@@ -521,12 +501,10 @@ fn exchange(p: &Problem, groups: &[(usize, Vec<usize>)], board: &mut Board) {
                     let Some(k_start) = board.placed[k] else {
                         continue;
                     };
-                    if p.items[k].night == it.night && !board.fits_without(k, i) {
-                        continue;
-                    }
-                    // Where `i` would go with `k` out, asked before moving
-                    // anything: most trials end here, and then the board is
-                    // left as taking `k` out and back would leave it.
+                    // Where `i` would go with `k` out (its night's capacity
+                    // first), asked before moving anything: most trials end
+                    // here, and then the board is left as taking `k` out and
+                    // back would leave it.
                     let Some(s) = board.nearest_without(i, it.pref_s, k) else {
                         board.round_trip_use(k);
                         continue;
