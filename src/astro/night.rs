@@ -301,6 +301,24 @@ impl Night {
             .collect()
     }
 
+    /// Builds the nights from `from` to `to` (inclusive) into the shared
+    /// cache, in parallel, before work that will ask for them from several
+    /// threads at once (the targets of a budget or a plan). Without it the
+    /// first target to ask builds the nights while the other threads wait
+    /// on the night it is building instead of building the next ones: at
+    /// the start of `rung plan` one core stood idle for most of a second.
+    /// Only a warm-up: the nights are the ones [`Night::shared`] would
+    /// build (the same bits), a range longer than the cache holds is left
+    /// to be built as asked, and a night that cannot be built is left for
+    /// the caller that asks for it to report.
+    pub fn warm_range(site: &Site, from: NaiveDate, to: NaiveDate) {
+        let nights = (to - from).num_days() + 1;
+        if nights > 0 && nights as usize <= NIGHT_CACHE_MAX {
+            // The error, if any, is the asker's to report (see above).
+            let _ = Self::shared_range(site, from, to);
+        }
+    }
+
     fn shared_keyed(site: &Site, key: u64, date: NaiveDate) -> Result<Arc<Night>> {
         let slot: BuildSlot = {
             let mut c = night_cache();
