@@ -520,6 +520,74 @@ pub fn assemble(
         .unwrap_or_else(|_| unreachable_budget(settings))
 }
 
+/// The budget row of target `i` from its work (see [`assemble_with`]).
+fn budget_row(
+    settings: &Settings,
+    targets: &[Target],
+    links: &crate::ladder::field::Links,
+    i: usize,
+    w: TargetWork,
+    clear: &[f64; 12],
+    confidence: f64,
+) -> BudgetRow {
+    let climate = &settings.site.climate;
+    let t = &targets[i];
+    let goal = settings.goal_for(t).unwrap_or(f64::NAN);
+    let TargetWork {
+        prediction: p,
+        curve,
+    } = w;
+    let nights = curve::epoch_nights(settings, &p);
+    let mut by_month: BTreeMap<String, f64> = BTreeMap::new();
+    let mut by_semester: BTreeMap<String, f64> = BTreeMap::new();
+    for (d, h) in &nights {
+        *by_month
+            .entry(format!("{:04}-{:02}", d.year(), d.month()))
+            .or_default() += h;
+        *by_semester.entry(climate.semester_of(*d).0).or_default() += h;
+    }
+    let loads = night_loads(&nights, 0.0);
+    let n = p.epochs.len();
+    let exp: f64 = p.epochs.iter().map(|e| e.exptime_s).sum();
+    let mut r = BudgetRow {
+        target: t.name.clone(),
+        kind: t.kind,
+        goal_pct: goal,
+        achievable_pct: p.distance_precision_pct,
+        epochs: n,
+        exptime_per_epoch_s: if n > 0 { exp / n as f64 } else { 0.0 },
+        hours: p.hours_needed.max(0.0),
+        verdict_label: p.verdict.label().to_string(),
+        verdict: p.verdict.clone(),
+        hours_by_month: by_month,
+        notes: p.notes.clone(),
+        error_terms: p.error_terms.clone(),
+        priority: t.priority,
+        nights: nights.len(),
+        hours_by_semester: by_semester,
+        hours_expected: weather::expected_hours(&loads, clear),
+        hours_pessimistic: HoursDistribution::new(&loads, clear).quantile(confidence),
+        exposure_s: exp,
+        curve,
+        epoch_nights: nights,
+        members: match links.role(i) {
+            crate::ladder::field::Role::Field(g) => {
+                g.members.iter().map(|m| targets[*m].name.clone()).collect()
+            }
+            _ => Vec::new(),
+        },
+        limited_by: String::new(),
+        limit: String::new(),
+        parallax: crate::programme::parallax_fit(settings, t, &p.epochs)
+            .as_ref()
+            .map(ParallaxFit::from),
+    };
+    if !allocation::goal_reached(&r) {
+        (r.limited_by, r.limit) = allocation::range_limit(&r, settings);
+    }
+    r
+}
+
 fn unreachable_budget(settings: &Settings) -> Budget {
     let (f, source, default_used) = clear_fraction(settings);
     Budget {
@@ -621,74 +689,34 @@ pub fn assemble_with(
         .enumerate()
         .filter_map(|(i, w)| w.map(|w| (i, w)))
         .collect();
+    // Each target's row from its work, in parallel (a row's weather
+    // distribution and parallax fit are its own), then taken in target
+    // order: the sums below add in the same order as one loop did.
+    let built: Vec<(usize, std::result::Result<BudgetRow, String>)> = {
+        use rayon::prelude::*;
+        work.into_par_iter()
+            .map(|(i, r)| {
+                let row =
+                    r.map(|w| budget_row(settings, targets, &links, i, w, &clear, confidence));
+                (i, row)
+            })
+            .collect()
+    };
     let mut rows = Vec::new();
     let mut skipped = Vec::new();
     let mut observed = Vec::new();
     let mut done = vec![false; targets.len()];
     let mut exposure_s = 0.0;
     let mut visit_s = 0.0;
-    for (i, r) in work {
+    for (i, r) in built {
         done[i] = true;
-        let t = &targets[i];
-        let goal = settings.goal_for(t).unwrap_or(f64::NAN);
         match r {
-            Ok(TargetWork {
-                prediction: p,
-                curve,
-            }) => {
-                let nights = curve::epoch_nights(settings, &p);
-                let mut by_month: BTreeMap<String, f64> = BTreeMap::new();
-                let mut by_semester: BTreeMap<String, f64> = BTreeMap::new();
-                for (d, h) in &nights {
-                    *by_month
-                        .entry(format!("{:04}-{:02}", d.year(), d.month()))
-                        .or_default() += h;
-                    *by_semester.entry(climate.semester_of(*d).0).or_default() += h;
-                }
-                let loads = night_loads(&nights, 0.0);
-                let n = p.epochs.len();
-                let exp: f64 = p.epochs.iter().map(|e| e.exptime_s).sum();
-                exposure_s += exp;
-                visit_s += p.hours_needed.max(0.0) * 3600.0;
-                rows.push(BudgetRow {
-                    target: t.name.clone(),
-                    kind: t.kind,
-                    goal_pct: goal,
-                    achievable_pct: p.distance_precision_pct,
-                    epochs: n,
-                    exptime_per_epoch_s: if n > 0 { exp / n as f64 } else { 0.0 },
-                    hours: p.hours_needed.max(0.0),
-                    verdict_label: p.verdict.label().to_string(),
-                    verdict: p.verdict.clone(),
-                    hours_by_month: by_month,
-                    notes: p.notes.clone(),
-                    error_terms: p.error_terms.clone(),
-                    priority: t.priority,
-                    nights: nights.len(),
-                    hours_by_semester: by_semester,
-                    hours_expected: weather::expected_hours(&loads, &clear),
-                    hours_pessimistic: HoursDistribution::new(&loads, &clear).quantile(confidence),
-                    exposure_s: exp,
-                    curve,
-                    epoch_nights: nights,
-                    members: match links.role(i) {
-                        crate::ladder::field::Role::Field(g) => {
-                            g.members.iter().map(|m| targets[*m].name.clone()).collect()
-                        }
-                        _ => Vec::new(),
-                    },
-                    limited_by: String::new(),
-                    limit: String::new(),
-                    parallax: crate::programme::parallax_fit(settings, t, &p.epochs)
-                        .as_ref()
-                        .map(ParallaxFit::from),
-                });
-                let r = rows.last_mut().expect("a row was just pushed");
-                if !allocation::goal_reached(r) {
-                    (r.limited_by, r.limit) = allocation::range_limit(r, settings);
-                }
+            Ok(row) => {
+                exposure_s += row.exposure_s;
+                visit_s += row.hours * 3600.0;
+                rows.push(row);
             }
-            Err(e) => skipped.push((t.name.clone(), e)),
+            Err(e) => skipped.push((targets[i].name.clone(), e)),
         }
     }
     for (i, t) in targets.iter().enumerate() {
