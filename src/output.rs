@@ -251,11 +251,31 @@ pub fn clean_json(v: &mut serde_json::Value) {
 /// A JSON document as rung prints it: pretty, non-finite numbers as `null`,
 /// no negative zero.
 pub fn json<T: Serialize + ?Sized>(v: &T) -> crate::Result<String> {
-    let mut v = serde_json::to_value(v)
-        .map_err(|e| crate::RungError::invalid("JSON output", e.to_string()))?;
+    json_value(to_json_value(v)?)
+}
+
+/// [`json`] of a document already made a `serde_json::Value` (not copied
+/// into a second one).
+pub fn json_value(mut v: serde_json::Value) -> crate::Result<String> {
     clean_json(&mut v);
     serde_json::to_string_pretty(&v)
         .map_err(|e| crate::RungError::invalid("JSON output", e.to_string()))
+}
+
+/// `v` as a `serde_json::Value`, the error worded as rung's.
+pub fn to_json_value<T: Serialize + ?Sized>(v: &T) -> crate::Result<serde_json::Value> {
+    serde_json::to_value(v).map_err(|e| crate::RungError::invalid("JSON output", e.to_string()))
+}
+
+/// A list as a JSON array, its elements made values in parallel (the same
+/// value as `serde_json::to_value` of the list: the elements in order).
+pub fn json_array_par<T: Serialize + Sync>(items: &[T]) -> crate::Result<serde_json::Value> {
+    use rayon::prelude::*;
+    let a = items
+        .par_iter()
+        .map(to_json_value)
+        .collect::<crate::Result<Vec<_>>>()?;
+    Ok(serde_json::Value::Array(a))
 }
 
 /// A JSON number or `null` when `x` is not finite (no negative zero).

@@ -339,7 +339,19 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
         return Ok(());
     }
     if a.json {
-        let mut plan_json = serde_json::to_value(&p)?;
+        // The two large parts (the plan's visits, the targets' outcomes)
+        // made values side by side; the document as `output::json` makes
+        // it, without copying it into a second value.
+        let (plan_json, outcomes) = rayon::join(
+            || rung::output::to_json_value(&p),
+            || {
+                sched
+                    .as_ref()
+                    .map(|s| rung::output::json_array_par(&s.outcomes))
+                    .transpose()
+            },
+        );
+        let (mut plan_json, outcomes) = (plan_json?, outcomes?);
         // Each visit's span as held (Visit::span): a done visit from its
         // observed start, any other as planned; the times the table shows.
         if let Some(vs) = plan_json["visits"].as_array_mut() {
@@ -351,15 +363,25 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
                 }
             }
         }
-        let v = serde_json::json!({
-            "plan": plan_json,
-            "outcomes": sched.as_ref().map(|s| &s.outcomes),
-            "unplaced": sched.as_ref().map(|s| &s.unplaced),
-            "nights": sched.as_ref().map(|s| &s.nights),
-            "horizon_to": sched.as_ref().map(|s| s.horizon_to),
-            "settings": st.to_json(),
-        });
-        super::print_json(&v)?;
+        // The parts moved into the document (json! would copy each value).
+        let mut v = serde_json::Map::new();
+        v.insert("plan".into(), plan_json);
+        v.insert("outcomes".into(), outcomes.unwrap_or_default());
+        v.insert(
+            "unplaced".into(),
+            serde_json::to_value(sched.as_ref().map(|s| &s.unplaced))?,
+        );
+        v.insert(
+            "nights".into(),
+            serde_json::to_value(sched.as_ref().map(|s| &s.nights))?,
+        );
+        v.insert(
+            "horizon_to".into(),
+            serde_json::to_value(sched.as_ref().map(|s| s.horizon_to))?,
+        );
+        v.insert("settings".into(), st.to_json());
+        let v = serde_json::Value::Object(v);
+        println!("{}", rung::output::json_value(v)?);
         return Ok(());
     }
     print_plan(&p, &site, sched.as_ref());
