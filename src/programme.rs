@@ -685,6 +685,22 @@ pub fn report(settings: &Settings, target: &Target) -> Result<Report> {
 /// Longest range one schedule may span, nights.
 pub const MAX_NIGHTS: usize = 3 * 366;
 
+/// Builds the nights from `from` to `to` ahead of the targets' work
+/// ([`crate::astro::night::Night::warm_range`]) when at least two targets
+/// will each ask for all of them: parallax stars and pulsators (alone or in
+/// a field) follow the whole range; a supernova asks only for the nights of
+/// its chase, and a single target builds its nights in parallel itself.
+pub fn warm_nights(site: &Site, from: NaiveDate, to: NaiveDate, targets: &[Target]) {
+    let whole_range = targets
+        .iter()
+        .filter(|t| matches!(t.kind, Kind::Parallax | Kind::Pulsator | Kind::Field))
+        .take(2)
+        .count();
+    if whole_range >= 2 {
+        crate::astro::night::Night::warm_range(site, from, to);
+    }
+}
+
 /// The dates from `from` to `to` inclusive, checked.
 pub fn dates(from: NaiveDate, to: NaiveDate) -> Result<Vec<NaiveDate>> {
     if from > to {

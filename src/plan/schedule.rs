@@ -383,7 +383,7 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
     dates(req.from, horizon_to)?;
     let days = dates(req.from, req.to)?;
     // The methods plan to the horizon: its nights built once, in parallel.
-    Night::warm_range(req.site, req.from, horizon_to);
+    crate::programme::warm_nights(req.site, req.from, horizon_to, req.targets);
     let mut slots = Vec::with_capacity(days.len());
     for night in Night::shared_range(req.site, req.from, req.to)? {
         let dark = night.dark_intervals(req.limits.sun_alt_deg);

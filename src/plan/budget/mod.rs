@@ -470,7 +470,7 @@ pub fn budget_with(settings: &Settings, targets: &[Target], opts: &Options) -> R
         a.check_semesters(settings)?;
     }
     // Every target's methods ask for the range's nights: built once, in parallel.
-    crate::astro::night::Night::warm_range(&settings.site, settings.from, settings.to);
+    crate::programme::warm_nights(&settings.site, settings.from, settings.to, targets);
     let links = crate::ladder::field::link(targets);
     let curves = opts.curves || opts.asked.is_some();
     let work: Vec<_> = {
