@@ -220,6 +220,17 @@ struct Board<'a> {
     ivs: Vec<(f64, f64)>,
     wins: Vec<(f64, f64)>,
     cuts: Vec<(f64, f64)>,
+    /// [`Board::gather`]'s cuts of one item, each with what it belongs to.
+    tagged: Vec<(f64, f64, Cut)>,
+}
+
+/// What a cut in an item's starts belongs to: a visit on its night (the
+/// item placed there, `None` for a fixed visit), or one of its target's
+/// mid-times (the spacing).
+#[derive(Clone, Copy)]
+enum Cut {
+    Visit(Option<usize>),
+    Mid(f64),
 }
 
 /// Insert `x` into the sorted `v` after the elements equal to it.
@@ -241,6 +252,7 @@ impl<'a> Board<'a> {
             ivs: Vec::new(),
             wins: Vec::new(),
             cuts: Vec::new(),
+            tagged: Vec::new(),
         };
         for f in &p.fixed {
             b.used[f.night] += f.end_s - f.start_s;
@@ -257,9 +269,21 @@ impl<'a> Board<'a> {
     /// Feasible starts of item `i` (closed intervals, sorted), ignoring
     /// `skip` (an item being moved), into `self.ivs`.
     fn starts(&mut self, i: usize, skip: Option<usize>) {
+        self.gather(i);
+        self.sweep(i, skip);
+    }
+
+    /// Item `i`'s windows (as starts) and every cut that reaches into them:
+    /// the visits on its night and, with a spacing, its target's mid-times,
+    /// each with what it belongs to, sorted by start, into `self.wins` and
+    /// `self.tagged`. What [`Board::sweep`] leaves out of them depends only
+    /// on the item skipped, so the exchange gathers an item's cuts once for
+    /// its trials against every blocker (the visits and mid-times are the
+    /// same at each: a trial that moves anything puts it back or ends them).
+    fn gather(&mut self, i: usize) {
         let it = &self.p.items[i];
         let wins = &mut self.wins;
-        let cuts = &mut self.cuts;
+        let cuts = &mut self.tagged;
         wins.clear();
         wins.extend(
             it.windows
@@ -276,41 +300,53 @@ impl<'a> Board<'a> {
         // The busy visits sorted by start give their cuts sorted by start.
         cuts.clear();
         for &(s, e, _, who) in &self.busy[it.night] {
-            if who.is_some() && who == skip {
-                continue;
-            }
             let (a, b) = (s - it.dur_s, e);
             if b <= a || b <= lo || a >= hi {
                 continue;
             }
-            cuts.push((a, b));
+            cuts.push((a, b, Cut::Visit(who)));
         }
         let sp = self.p.spacing_s[it.target];
         if sp > 0.0 {
             let n_busy = cuts.len();
             let half = it.dur_s / 2.0;
-            // The skipped item's mid-time counts only among its own target's.
-            let skip_mid = skip
-                .filter(|&k| self.p.items[k].target == it.target)
-                .and_then(|k| self.placed[k].map(|s| s + self.p.items[k].dur_s / 2.0));
-            let mut skipped = false;
             for &m in &self.mids[it.target] {
-                if !skipped && skip_mid == Some(m) {
-                    skipped = true;
-                    continue;
-                }
                 let (a, b) = (m - sp - half, m + sp - half);
                 if b <= a || b <= lo || a >= hi {
                     continue;
                 }
-                cuts.push((a, b));
+                cuts.push((a, b, Cut::Mid(m)));
             }
             if cuts.len() > n_busy && n_busy > 0 {
                 // Ties in start give the same sweep in either order.
                 cuts.sort_unstable_by(|a, b| a.0.total_cmp(&b.0));
             }
         }
-        free_starts(wins, cuts, &mut self.ivs);
+    }
+
+    /// The feasible starts of item `i` from its gathered cuts
+    /// ([`Board::gather`]), ignoring `skip` (an item being moved: its visit
+    /// and, among its own target's, one mid-time equal to its own), into
+    /// `self.ivs`.
+    fn sweep(&mut self, i: usize, skip: Option<usize>) {
+        let it = &self.p.items[i];
+        // The skipped item's mid-time counts only among its own target's.
+        let skip_mid = skip
+            .filter(|&k| self.p.items[k].target == it.target)
+            .and_then(|k| self.placed[k].map(|s| s + self.p.items[k].dur_s / 2.0));
+        let mut skipped = false;
+        self.cuts.clear();
+        for &(a, b, tag) in &self.tagged {
+            match tag {
+                Cut::Visit(who) if who.is_some() && who == skip => continue,
+                Cut::Mid(m) if !skipped && skip_mid == Some(m) => {
+                    skipped = true;
+                    continue;
+                }
+                _ => self.cuts.push((a, b)),
+            }
+        }
+        free_starts(&self.wins, &self.cuts, &mut self.ivs);
     }
 
     fn fits_capacity(&self, i: usize, skip: Option<usize>) -> bool {
@@ -342,12 +378,27 @@ impl<'a> Board<'a> {
     /// with `k`'s time freed when they share it (the same sum as after the
     /// take), and the starts with `k`'s visit and, for its own target, its
     /// mid-time left out.
-    fn nearest_without(&mut self, i: usize, target_s: f64, k: usize) -> Option<f64> {
+    ///
+    /// `i`'s cuts are gathered only when `gathered` is false (which it then
+    /// sets): the exchange tries one item against each blocker in turn, and
+    /// until a trial moves something its cuts are the same at every trial
+    /// ([`Board::gather`]).
+    fn nearest_without_gathered(
+        &mut self,
+        i: usize,
+        target_s: f64,
+        k: usize,
+        gathered: &mut bool,
+    ) -> Option<f64> {
         let same_night = self.p.items[k].night == self.p.items[i].night;
         if !self.fits_capacity(i, same_night.then_some(k)) {
             return None;
         }
-        self.starts(i, Some(k));
+        if !*gathered {
+            self.gather(i);
+            *gathered = true;
+        }
+        self.sweep(i, Some(k));
         self.nearest_start(target_s)
     }
 
@@ -497,6 +548,10 @@ fn exchange(p: &Problem, groups: &[(usize, Vec<usize>)], board: &mut Board) {
                 // Lowest value first, then lower index (each item once, so
                 // the order is total and an unstable sort gives it).
                 blockers.sort_unstable_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+                // `i`'s cuts, gathered at its first trial that needs them and
+                // again after a trial that moved visits (and asked other items
+                // their starts).
+                let mut gathered = false;
                 for &(_, k) in &blockers {
                     let Some(k_start) = board.placed[k] else {
                         continue;
@@ -505,10 +560,12 @@ fn exchange(p: &Problem, groups: &[(usize, Vec<usize>)], board: &mut Board) {
                     // first), asked before moving anything: most trials end
                     // here, and then the board is left as taking `k` out and
                     // back would leave it.
-                    let Some(s) = board.nearest_without(i, it.pref_s, k) else {
+                    let Some(s) = board.nearest_without_gathered(i, it.pref_s, k, &mut gathered)
+                    else {
                         board.round_trip_use(k);
                         continue;
                     };
+                    gathered = false;
                     board.take(k);
                     board.put(i, s);
                     // The group taken out tries its items again.
@@ -817,32 +874,39 @@ mod tests {
             let placed: Vec<usize> = (0..p.items.len())
                 .filter(|&k| board.placed[k].is_some())
                 .collect();
-            for _ in 0..20 {
-                let (Some(&k), i) = (
-                    placed.get(r.below(placed.len().max(1) as u64) as usize),
-                    r.below(p.items.len() as u64) as usize,
-                ) else {
-                    continue;
-                };
-                if board.placed[i].is_some() {
+            for _ in 0..5 {
+                let i = r.below(p.items.len() as u64) as usize;
+                if board.placed[i].is_some() || placed.is_empty() {
                     continue;
                 }
+                // One item against several blockers, its cuts gathered at
+                // most once, as the exchange asks (another item's starts
+                // asked between the trials would spoil them: see below).
+                let ks: Vec<usize> = (0..4)
+                    .map(|_| placed[r.below(placed.len() as u64) as usize])
+                    .collect();
                 let pref = p.items[i].pref_s;
-                let got = board.nearest_without(i, pref, k);
-                let mut after = board.used.clone();
-                let night = p.items[k].night;
-                after[night] = (after[night] - p.items[k].dur_s) + p.items[k].dur_s;
-                let k_start = board.placed[k].unwrap();
-                board.take(k);
-                let want = board.nearest(i, pref, None);
-                board.put(k, k_start);
-                assert_eq!(
-                    got.map(f64::to_bits),
-                    want.map(f64::to_bits),
-                    "item {i} without {k}"
-                );
-                assert_eq!(board.used, after);
-                compared += 1;
+                let mut gathered = false;
+                let got: Vec<Option<f64>> = ks
+                    .iter()
+                    .map(|&k| board.nearest_without_gathered(i, pref, k, &mut gathered))
+                    .collect();
+                for (&k, got) in ks.iter().zip(got) {
+                    let mut after = board.used.clone();
+                    let night = p.items[k].night;
+                    after[night] = (after[night] - p.items[k].dur_s) + p.items[k].dur_s;
+                    let k_start = board.placed[k].unwrap();
+                    board.take(k);
+                    let want = board.nearest(i, pref, None);
+                    board.put(k, k_start);
+                    assert_eq!(
+                        got.map(f64::to_bits),
+                        want.map(f64::to_bits),
+                        "item {i} without {k}"
+                    );
+                    assert_eq!(board.used, after);
+                    compared += 1;
+                }
             }
         }
         assert!(compared > 1000, "{compared} cases");
