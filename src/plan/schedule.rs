@@ -946,12 +946,20 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
         used.insert(v.id.clone());
     }
     visits.extend(new_visits);
+    // Which groups have an item at all (once: asked of every item for each
+    // unplaced group, this took 8 s at 10,000 targets).
+    let mut has_items = vec![false; groups.len()];
+    for it in &problem.items {
+        if let Some(h) = has_items.get_mut(it.group) {
+            *h = true;
+        }
+    }
     for (g, (ti, e, flex)) in groups.iter().enumerate().take(first_fill) {
         if placed_groups.contains(&g) {
             continue;
         }
         let t = &req.targets[*ti];
-        let any = problem.items.iter().any(|it| it.group == g);
+        let any = has_items[g];
         let reason = if any {
             format!(
                 "no free time inside the target's window within ±{flex} nights that keeps {} from its other visits (windows, other visits, or the {:.1} h per night)",
