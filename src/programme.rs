@@ -691,9 +691,14 @@ pub const MAX_NIGHTS: usize = 3 * 366;
 /// a field) follow the whole range; a supernova asks only for the nights of
 /// its chase, and a single target builds its nights in parallel itself.
 pub fn warm_nights(site: &Site, from: NaiveDate, to: NaiveDate, targets: &[Target]) {
+    // Every kind answers (a new method's kind too: the compiler asks).
+    let follows_range = |k: Kind| match k {
+        Kind::Parallax | Kind::Pulsator | Kind::Field => true,
+        Kind::Transient | Kind::Plain => false,
+    };
     let whole_range = targets
         .iter()
-        .filter(|t| matches!(t.kind, Kind::Parallax | Kind::Pulsator | Kind::Field))
+        .filter(|t| follows_range(t.kind))
         .take(2)
         .count();
     if whole_range >= 2 {
