@@ -220,8 +220,11 @@ struct Board<'a> {
     ivs: Vec<(f64, f64)>,
     wins: Vec<(f64, f64)>,
     cuts: Vec<(f64, f64)>,
-    /// [`Board::gather`]'s cuts of one item, each with what it belongs to.
+    /// [`Board::gather`]'s cuts of one item, each with what it belongs to,
+    /// and that item while they hold: every put and take forgets it (they
+    /// are the only moves of visits and mid-times).
     tagged: Vec<(f64, f64, Cut)>,
+    gathered: Option<usize>,
 }
 
 /// What a cut in an item's starts belongs to: a visit on its night (the
@@ -253,6 +256,7 @@ impl<'a> Board<'a> {
             wins: Vec::new(),
             cuts: Vec::new(),
             tagged: Vec::new(),
+            gathered: None,
         };
         for f in &p.fixed {
             b.used[f.night] += f.end_s - f.start_s;
@@ -269,7 +273,9 @@ impl<'a> Board<'a> {
     /// Feasible starts of item `i` (closed intervals, sorted), ignoring
     /// `skip` (an item being moved), into `self.ivs`.
     fn starts(&mut self, i: usize, skip: Option<usize>) {
-        self.gather(i);
+        if self.gathered != Some(i) {
+            self.gather(i);
+        }
         self.sweep(i, skip);
     }
 
@@ -277,10 +283,11 @@ impl<'a> Board<'a> {
     /// the visits on its night and, with a spacing, its target's mid-times,
     /// each with what it belongs to, sorted by start, into `self.wins` and
     /// `self.tagged`. What [`Board::sweep`] leaves out of them depends only
-    /// on the item skipped, so the exchange gathers an item's cuts once for
-    /// its trials against every blocker (the visits and mid-times are the
-    /// same at each: a trial that moves anything puts it back or ends them).
+    /// on the item skipped, so they serve every question about the item
+    /// until a visit moves ([`Board::starts`] gathers them again only then):
+    /// the exchange tries an item against every blocker with one gathering.
     fn gather(&mut self, i: usize) {
+        self.gathered = Some(i);
         let it = &self.p.items[i];
         let wins = &mut self.wins;
         let cuts = &mut self.tagged;
@@ -378,27 +385,12 @@ impl<'a> Board<'a> {
     /// with `k`'s time freed when they share it (the same sum as after the
     /// take), and the starts with `k`'s visit and, for its own target, its
     /// mid-time left out.
-    ///
-    /// `i`'s cuts are gathered only when `gathered` is false (which it then
-    /// sets): the exchange tries one item against each blocker in turn, and
-    /// until a trial moves something its cuts are the same at every trial
-    /// ([`Board::gather`]).
-    fn nearest_without_gathered(
-        &mut self,
-        i: usize,
-        target_s: f64,
-        k: usize,
-        gathered: &mut bool,
-    ) -> Option<f64> {
+    fn nearest_without(&mut self, i: usize, target_s: f64, k: usize) -> Option<f64> {
         let same_night = self.p.items[k].night == self.p.items[i].night;
         if !self.fits_capacity(i, same_night.then_some(k)) {
             return None;
         }
-        if !*gathered {
-            self.gather(i);
-            *gathered = true;
-        }
-        self.sweep(i, Some(k));
+        self.starts(i, Some(k));
         self.nearest_start(target_s)
     }
 
@@ -416,6 +408,7 @@ impl<'a> Board<'a> {
     }
 
     fn put(&mut self, i: usize, s: f64) {
+        self.gathered = None;
         let it = &self.p.items[i];
         self.used[it.night] += it.dur_s;
         insert_sorted(
@@ -433,6 +426,7 @@ impl<'a> Board<'a> {
         let Some(s) = self.placed[i].take() else {
             return;
         };
+        self.gathered = None;
         self.used[it.night] -= it.dur_s;
         let busy = &mut self.busy[it.night];
         let from = busy.partition_point(|b| b.0.total_cmp(&s).is_lt());
@@ -548,10 +542,6 @@ fn exchange(p: &Problem, groups: &[(usize, Vec<usize>)], board: &mut Board) {
                 // Lowest value first, then lower index (each item once, so
                 // the order is total and an unstable sort gives it).
                 blockers.sort_unstable_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
-                // `i`'s cuts, gathered at its first trial that needs them and
-                // again after a trial that moved visits (and asked other items
-                // their starts).
-                let mut gathered = false;
                 for &(_, k) in &blockers {
                     let Some(k_start) = board.placed[k] else {
                         continue;
@@ -560,12 +550,10 @@ fn exchange(p: &Problem, groups: &[(usize, Vec<usize>)], board: &mut Board) {
                     // first), asked before moving anything: most trials end
                     // here, and then the board is left as taking `k` out and
                     // back would leave it.
-                    let Some(s) = board.nearest_without_gathered(i, it.pref_s, k, &mut gathered)
-                    else {
+                    let Some(s) = board.nearest_without(i, it.pref_s, k) else {
                         board.round_trip_use(k);
                         continue;
                     };
-                    gathered = false;
                     board.take(k);
                     board.put(i, s);
                     // The group taken out tries its items again.
@@ -879,17 +867,15 @@ mod tests {
                 if board.placed[i].is_some() || placed.is_empty() {
                     continue;
                 }
-                // One item against several blockers, its cuts gathered at
-                // most once, as the exchange asks (another item's starts
-                // asked between the trials would spoil them: see below).
+                // One item against several blockers, its cuts gathered once
+                // for them all, as the exchange asks.
                 let ks: Vec<usize> = (0..4)
                     .map(|_| placed[r.below(placed.len() as u64) as usize])
                     .collect();
                 let pref = p.items[i].pref_s;
-                let mut gathered = false;
                 let got: Vec<Option<f64>> = ks
                     .iter()
-                    .map(|&k| board.nearest_without_gathered(i, pref, k, &mut gathered))
+                    .map(|&k| board.nearest_without(i, pref, k))
                     .collect();
                 for (&k, got) in ks.iter().zip(got) {
                     let mut after = board.used.clone();
