@@ -137,8 +137,10 @@ impl HoursDistribution {
                     continue;
                 }
                 let off = (x as f64 * cell).round() as usize;
-                for (i, d) in mass.iter().enumerate() {
-                    next[i + off] += d * p;
+                // Each cell gains d·p once per term, in the terms' order (a
+                // loop over slices, without an index check per cell).
+                for (n, d) in next[off..off + mass.len()].iter_mut().zip(&mass) {
+                    *n += d * p;
                 }
             }
             // Drop the far tail.
