@@ -3,7 +3,11 @@
 //! instrument and an empty user config folder:
 //!
 //! - `rung budget` over 18 months (2026-12-01 to 2028-05-31): `plan::budget::budget`;
-//! - `rung plan` over 6 months at 8 h a night: `plan::schedule::schedule`;
+//! - `rung plan` over 6 months at 8 h a night, its methods planning to the
+//!   programme's last night as the command line's do (2029-11-30: a
+//!   programme without its own range runs 36 months from its first night,
+//!   and `--to` makes the plan a slice of it, src/cli/plan.rs):
+//!   `plan::schedule::schedule`;
 //! - `rung night --targets` for 2026-12-01: the night, its events, one
 //!   `plan::night_table` row per target and its sky brightness, as
 //!   src/cli/night.rs computes them;
@@ -124,6 +128,9 @@ fn bench(c: &mut Criterion) {
     unsafe { std::env::set_var("RUNG_CONFIG_DIR", &cfg) };
     let budget_st = settings("2026-12-01", "2028-05-31");
     let plan_st = settings("2026-12-01", "2027-05-31");
+    // The programme's last night, where `rung plan --to 2027-05-31` has its
+    // methods plan to (see the module note).
+    let horizon_to = chrono::NaiveDate::from_ymd_opt(2029, 11, 30).unwrap();
     let date = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
     let programmes: Vec<(usize, Vec<Target>)> =
         SIZES.iter().map(|&n| (n, synthetic::targets(n))).collect();
@@ -148,7 +155,8 @@ fn bench(c: &mut Criterion) {
         }
         g.bench_function(format!("{n} targets"), |b| {
             b.iter(|| {
-                let req = rung::plan::schedule::Request::programme(&plan_st, t, 8.0);
+                let mut req = rung::plan::schedule::Request::programme(&plan_st, t, 8.0);
+                req.horizon_to = horizon_to;
                 black_box(rung::plan::schedule::schedule(&req).unwrap())
             })
         });
