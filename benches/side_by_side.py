@@ -25,6 +25,13 @@ on synthetic invented programmes of 26, 1,000 and
 10,000 targets (`--sizes`), the rows benches/support/synthetic.rs writes for
 the criterion benchmark (benches/programme.rs): wall and CPU seconds and peak
 memory of each run, with the machine's load average.
+
+With --ui it times the terminal UI in tmux at 80x24 on the same synthetic
+programmes (`--sizes`, `--runs` each): until the table shows, until the
+rows on screen have their sigma-d/d figures, and from a key to the redrawn
+pane while the budget runs (needs tmux).
+
+The season comparison needs numpy and astropy; --programme and --ui do not.
 """
 
 import argparse
@@ -39,18 +46,27 @@ import tempfile
 import time
 from zoneinfo import ZoneInfo
 
-import numpy as np
+import shutil
 
-# Offline: never fetch IERS tables; UT1-UTC beyond the bundled table is taken
-# as the table's edge value (rung takes DUT1 = 0; either way < 1 s).
-from astropy.utils import iers
+np = iers = u = AltAz = EarthLocation = SkyCoord = get_body = get_sun = Time = None
 
-iers.conf.auto_download = False
-iers.conf.iers_degraded_accuracy = "ignore"
 
-import astropy.units as u  # noqa: E402
-from astropy.coordinates import AltAz, EarthLocation, SkyCoord, get_body, get_sun  # noqa: E402
-from astropy.time import Time  # noqa: E402
+def load_astropy():
+    """numpy and astropy, for the season comparison only (`--programme` and
+    `--ui` time rung alone and run without them)."""
+    global np, iers, u, AltAz, EarthLocation, SkyCoord, get_body, get_sun, Time
+    import numpy as np
+
+    # Offline: never fetch IERS tables; UT1-UTC beyond the bundled table is taken
+    # as the table's edge value (rung takes DUT1 = 0; either way < 1 s).
+    from astropy.utils import iers
+
+    iers.conf.auto_download = False
+    iers.conf.iers_degraded_accuracy = "ignore"
+
+    import astropy.units as u
+    from astropy.coordinates import AltAz, EarthLocation, SkyCoord, get_body, get_sun
+    from astropy.time import Time
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 ROOT = os.path.dirname(HERE)
@@ -214,6 +230,69 @@ def programme_scale(a):
                 print(f"{label:<34} {n:>8} {wall:>8.2f} {cpu:>8.2f} {mb:>8.0f} {load:>5.1f}", flush=True)
 
 
+def ui_waits(a):
+    """The terminal UI at 80x24 in tmux, timed as a person at the keyboard
+    sees it: from the start until the pane shows the table (a row of the
+    programme), until no row on screen still shows `…` (the sigma-d/d
+    column of the rows on screen filled), and for six keys sent from 2 s
+    after the start (the rows on screen filled, the budget going on with the
+    other rows: the pane does not change on its own then), from the key
+    until the pane's text or colours change. The polling of tmux (about
+    every 10 ms) is included in every figure."""
+    if shutil.which("tmux") is None:
+        sys.exit("side_by_side: --ui needs tmux")
+    sizes = [int(x) for x in a.sizes.split(",")]
+    print(f"machine: {os.cpu_count()} logical cores, {os.uname().machine}")
+    print(f"{'targets':>8} {'table s':>8} {'filled s':>9} {'keys ms (Down Down End Home Down Up)':<40} {'load':>5}")
+    keys = ["Down", "Down", "End", "Home", "Down", "Up"]
+    with tempfile.TemporaryDirectory() as tmp:
+        for n in sizes:
+            path = os.path.join(tmp, f"synthetic-{n}.csv")
+            with open(path, "w") as f:
+                f.write(synthetic_programme(n))
+            for run in range(a.runs):
+                sock = f"rung-side-by-side-{os.getpid()}-{n}-{run}"
+                cfg = os.path.join(tmp, f"config-{n}-{run}")
+                os.makedirs(cfg)
+                tmux = ["tmux", "-L", sock]
+
+                def pane(colours=False):
+                    args = [*tmux, "capture-pane", "-p", *(["-e"] if colours else []), "-t", "ui"]
+                    return subprocess.run(args, capture_output=True, text=True).stdout
+
+                load = os.getloadavg()[0]
+                cmd = (f"env RUNG_CONFIG_DIR='{cfg}' RUNG_NOW=2026-12-02T01:00:00Z '{a.rung}' tui "
+                       f"--site {SITE['name']} --targets '{path}' --date 2026-12-01")
+                t0 = time.perf_counter()
+                subprocess.run([*tmux, "new-session", "-d", "-s", "ui", "-x", "80", "-y", "24", cmd], check=True)
+                table = filled = None
+                try:
+                    while time.perf_counter() - t0 < 120:
+                        rows = [line for line in pane().splitlines() if "SYN-" in line]
+                        now = time.perf_counter() - t0
+                        if table is None and rows:
+                            table = now
+                        if rows and not any("…" in line for line in rows):
+                            filled = now
+                            break
+                        time.sleep(0.01)
+                    time.sleep(max(0.0, 2.0 - (time.perf_counter() - t0)))
+                    waits = []
+                    for k in keys:
+                        before = pane(colours=True)
+                        t = time.perf_counter()
+                        subprocess.run([*tmux, "send-keys", "-t", "ui", k], check=True)
+                        while pane(colours=True) == before and time.perf_counter() - t < 5:
+                            pass
+                        waits.append(1e3 * (time.perf_counter() - t))
+                        time.sleep(0.15)
+                finally:
+                    subprocess.run([*tmux, "kill-server"], capture_output=True)
+                show = lambda x: f"{x:.2f}" if x is not None else "-"  # noqa: E731
+                ks = " ".join(f"{w:.0f}" for w in waits)
+                print(f"{n:>8} {show(table):>8} {show(filled):>9} {ks:<40} {load:>5.1f}", flush=True)
+
+
 def main():
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--targets", type=int, default=200)
@@ -227,6 +306,9 @@ def main():
                     help="time budget, plan and night on synthetic programmes instead")
     ap.add_argument("--sizes", default="26,1000,10000", help="programme sizes for --programme")
     ap.add_argument("--only", default="", help="with --programme: only the jobs whose label contains this")
+    ap.add_argument("--ui", action="store_true",
+                    help="time the terminal UI in tmux on synthetic programmes instead (--sizes, --runs)")
+    ap.add_argument("--runs", type=int, default=3, help="with --ui: runs at each size")
     a = ap.parse_args()
 
     if not os.path.exists(a.rung):
@@ -234,6 +316,10 @@ def main():
     if a.programme:
         programme_scale(a)
         return
+    if a.ui:
+        ui_waits(a)
+        return
+    load_astropy()
 
     names, ra, dec = invented_targets(a.targets)
     start = dt.date.fromisoformat(a.start)
