@@ -275,7 +275,13 @@ def ui_waits(a):
                         if rows and not any("…" in line for line in rows):
                             filled = now
                             break
+                        if not rows and subprocess.run([*tmux, "has-session", "-t", "ui"],
+                                                       capture_output=True).returncode != 0:
+                            break  # rung ended (a message, an error) before its table
                         time.sleep(0.01)
+                    if table is None:
+                        print(f"{n:>8} the table never showed (rung ended or took over 120 s)", flush=True)
+                        continue
                     time.sleep(max(0.0, 2.0 - (time.perf_counter() - t0)))
                     waits = []
                     for k in keys:
