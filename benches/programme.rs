@@ -6,7 +6,7 @@
 //! - `rung plan` over 6 months at 8 h a night, its methods planning to the
 //!   programme's last night as the command line's do (2029-11-30: a
 //!   programme without its own range runs 36 months from its first night,
-//!   and `--to` makes the plan a slice of it, src/cli/plan.rs):
+//!   and `--to` makes the plan a slice of it, `plan::schedule::slice_horizon`):
 //!   `plan::schedule::schedule`;
 //! - `rung night --targets` for 2026-12-01: the night, its events, one
 //!   `plan::night_table` row per target and its sky brightness, as
@@ -58,13 +58,14 @@ fn large() -> bool {
     std::env::var_os("RUNG_BENCH_LARGE").is_some()
 }
 
-/// The demo site and instrument over `from`..`to`, nothing from the user's folder.
-fn settings(from: &str, to: &str) -> Settings {
+/// The demo site and instrument over `from`..`to` (no `to`: the programme's
+/// own 36 months), nothing from the user's folder.
+fn settings(from: &str, to: Option<&str>) -> Settings {
     let now = parse_instant("2026-12-02T01:00:00Z").unwrap();
     let req = Request {
         cli: Choices {
             from: Some(from.into()),
-            to: Some(to.into()),
+            to: to.map(Into::into),
             ..Default::default()
         },
         ..Default::default()
@@ -126,11 +127,11 @@ fn bench(c: &mut Criterion) {
     std::fs::create_dir_all(&cfg).unwrap();
     // SAFETY: set before criterion or rayon start any thread.
     unsafe { std::env::set_var("RUNG_CONFIG_DIR", &cfg) };
-    let budget_st = settings("2026-12-01", "2028-05-31");
-    let plan_st = settings("2026-12-01", "2027-05-31");
-    // The programme's last night, where `rung plan --to 2027-05-31` has its
-    // methods plan to (see the module note).
-    let horizon_to = chrono::NaiveDate::from_ymd_opt(2029, 11, 30).unwrap();
+    let budget_st = settings("2026-12-01", Some("2028-05-31"));
+    let plan_st = settings("2026-12-01", Some("2027-05-31"));
+    // Where `rung plan --to 2027-05-31` has its methods plan to: the
+    // programme's own last night (no --to) as a slice's horizon.
+    let horizon_to = rung::plan::schedule::slice_horizon(&plan_st, settings("2026-12-01", None).to);
     let date = chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap();
     let programmes: Vec<(usize, Vec<Target>)> =
         SIZES.iter().map(|&n| (n, synthetic::targets(n))).collect();

@@ -184,6 +184,14 @@ def synthetic_programme(n):
     return "\n".join(lines) + "\n"
 
 
+def write_programme(folder, n):
+    """The synthetic programme of `n` targets written into `folder`; its path."""
+    path = os.path.join(folder, f"synthetic-{n}.csv")
+    with open(path, "w") as f:
+        f.write(synthetic_programme(n))
+    return path
+
+
 def timed_run(cmd, env):
     """Run cmd once: (wall s, CPU s, peak resident MB), its output discarded."""
     with open(os.devnull, "wb") as null, tempfile.TemporaryFile() as err:
@@ -206,9 +214,7 @@ def programme_scale(a):
         env = dict(os.environ, RUNG_CONFIG_DIR=os.path.join(tmp, "config"), RUNG_NOW="2026-12-02T01:00:00Z")
         os.makedirs(env["RUNG_CONFIG_DIR"])
         for n in sizes:
-            path = os.path.join(tmp, f"synthetic-{n}.csv")
-            with open(path, "w") as f:
-                f.write(synthetic_programme(n))
+            path = write_programme(tmp, n)
             site = ["--site", SITE["name"], "--targets", path]
             plan_path = os.path.join(tmp, f"plan-{n}.json")
             jobs = [
@@ -247,9 +253,7 @@ def ui_waits(a):
     keys = ["Down", "Down", "End", "Home", "Down", "Up"]
     with tempfile.TemporaryDirectory() as tmp:
         for n in sizes:
-            path = os.path.join(tmp, f"synthetic-{n}.csv")
-            with open(path, "w") as f:
-                f.write(synthetic_programme(n))
+            path = write_programme(tmp, n)
             for run in range(a.runs):
                 sock = f"rung-side-by-side-{os.getpid()}-{n}-{run}"
                 cfg = os.path.join(tmp, f"config-{n}-{run}")

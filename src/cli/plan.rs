@@ -163,8 +163,7 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
             let mut whole = choices_for_horizon.clone();
             whole.to = None;
             let prog = super::settings(whole, Some(&targets_path), &[])?;
-            let longest = st.from + chrono::Days::new(schedule::MAX_NIGHTS as u64 - 1);
-            Some(prog.to.min(longest).max(st.to))
+            Some(schedule::slice_horizon(&st, prog.to))
         }
         None => None,
     };

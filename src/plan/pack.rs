@@ -345,7 +345,7 @@ impl<'a> Board<'a> {
         self.cuts.clear();
         for &(a, b, tag) in &self.tagged {
             match tag {
-                Cut::Visit(who) if who.is_some() && who == skip => continue,
+                Cut::Visit(Some(w)) if Some(w) == skip => continue,
                 Cut::Mid(m) if !skipped && skip_mid == Some(m) => {
                     skipped = true;
                     continue;

@@ -205,6 +205,17 @@ pub struct Request<'a> {
     pub fields: &'a crate::ladder::field::FieldConfig,
 }
 
+/// The last night the methods plan to when a plan is a slice of its
+/// programme (`settings`, whose range ends before `programme_to`, the
+/// programme's own last night): that night, within the longest span a plan
+/// may have from its first night ([`MAX_NIGHTS`]: a first night long before
+/// the end of a multi-year programme would otherwise ask for more), and
+/// never before the plan's own last night.
+pub fn slice_horizon(settings: &Settings, programme_to: NaiveDate) -> NaiveDate {
+    let longest = settings.from + chrono::Days::new(MAX_NIGHTS as u64 - 1);
+    programme_to.min(longest).max(settings.to)
+}
+
 impl<'a> Request<'a> {
     /// A request for a programme: its settings' site, range, limits,
     /// methods, photometry and goal, with `hours_per_night` at the telescope
