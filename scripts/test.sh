@@ -16,8 +16,9 @@ fi
 
 # Release optimisation without the release profile's whole-program link
 # (Cargo.toml: lto, codegen-units): the suite has about 80 test binaries and
-# each would be linked whole, which would add many minutes for code whose
-# numbers are the same to the bit either way (docs/performance.md, 2026-12-05).
+# each would be linked whole (12 s for one of the smaller ones; minutes in
+# all) for code whose numbers are the same to the bit either way
+# (docs/performance.md, 2026-12-05).
 export CARGO_PROFILE_RELEASE_LTO=false CARGO_PROFILE_RELEASE_CODEGEN_UNITS=16
 
 cargo test --locked --release
