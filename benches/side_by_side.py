@@ -40,13 +40,12 @@ import datetime as dt
 import io
 import math
 import os
+import shutil
 import subprocess
 import sys
 import tempfile
 import time
 from zoneinfo import ZoneInfo
-
-import shutil
 
 np = iers = u = AltAz = EarthLocation = SkyCoord = get_body = get_sun = Time = None
 
@@ -298,9 +297,9 @@ def ui_waits(a):
                         time.sleep(0.15)
                 finally:
                     subprocess.run([*tmux, "kill-server"], capture_output=True)
-                show = lambda x: f"{x:.2f}" if x is not None else "-"  # noqa: E731
                 ks = " ".join(f"{w:.0f}" for w in waits)
-                print(f"{n:>8} {show(table):>8} {show(filled):>9} {ks:<40} {load:>5.1f}", flush=True)
+                shown = f"{filled:.2f}" if filled is not None else "-"
+                print(f"{n:>8} {table:>8.2f} {shown:>9} {ks:<40} {load:>5.1f}", flush=True)
 
 
 def main():

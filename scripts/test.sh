@@ -14,11 +14,9 @@ if ! command -v tmux >/dev/null 2>&1; then
     fi
 fi
 
-# Release optimisation without the release profile's whole-program link
-# (Cargo.toml: lto, codegen-units): the suite has about 80 test binaries and
-# each would be linked whole (12 s for one of the smaller ones; minutes in
-# all) for code whose numbers are the same to the bit either way
-# (docs/performance.md, 2026-12-05).
+# Release optimisation without the release profile's whole-program link,
+# which would link each of the suite's test binaries whole (DEVELOPERS.md,
+# "Tests").
 export CARGO_PROFILE_RELEASE_LTO=false CARGO_PROFILE_RELEASE_CODEGEN_UNITS=16
 
 cargo test --locked --release
