@@ -659,6 +659,29 @@ pub enum Stop {
 /// season numbers may be sparse or large), so that the search keeps its
 /// counts in plain vectors.
 fn dense(cands: &[Candidate], key: impl Fn(&Candidate) -> usize) -> (Vec<usize>, usize) {
+    // Candidates in time order (as the methods make them) have their
+    // slots and seasons in order too: each value's rank in one pass.
+    let mut of = Vec::with_capacity(cands.len());
+    let mut prev: Option<usize> = None;
+    let mut rank = 0;
+    for c in cands {
+        let v = key(c);
+        match prev {
+            Some(x) if v == x => {}
+            Some(x) if v > x => rank += 1,
+            Some(_) => {
+                of.clear();
+                break;
+            }
+            None => {}
+        }
+        prev = Some(v);
+        of.push(rank);
+    }
+    if of.len() == cands.len() {
+        return (of, prev.map_or(0, |_| rank + 1));
+    }
+    // Otherwise the rank among the sorted distinct values.
     let mut values: Vec<usize> = cands.iter().map(&key).collect();
     values.sort_unstable();
     values.dedup();
@@ -1637,6 +1660,46 @@ mod tests {
         }
         v
     }
+    #[test]
+    fn dense_numbers_are_ranks_among_the_distinct_values() {
+        // In order (one pass) or not (sorted), each key becomes the rank
+        // of its value among the distinct values.
+        let mut g = Lcg(3);
+        for case in 0..200 {
+            let n = (g.next() * 30.0) as usize;
+            let mut keys: Vec<usize> = (0..n).map(|_| (g.next() * 12.0) as usize * 7).collect();
+            if case % 2 == 0 {
+                keys.sort_unstable();
+            }
+            let cands: Vec<Candidate> = keys
+                .iter()
+                .map(|k| Candidate {
+                    t_yr: 2027.0,
+                    pf_ra: 0.0,
+                    pf_dec: 0.0,
+                    sigma_mas: 1.0,
+                    dcr_ra_mas: 0.0,
+                    dcr_dec_mas: 0.0,
+                    hours: 1.0,
+                    slot: *k,
+                    season: 0,
+                })
+                .collect();
+            let mut distinct = keys.clone();
+            distinct.sort_unstable();
+            distinct.dedup();
+            let want: Vec<usize> = keys
+                .iter()
+                .map(|k| distinct.iter().position(|d| d == k).unwrap())
+                .collect();
+            assert_eq!(
+                dense(&cands, |c| c.slot),
+                (want, distinct.len()),
+                "{keys:?}"
+            );
+        }
+    }
+
     #[test]
     fn screened_searches_choose_what_exact_searches_choose() {
         // Screening only skips the exact J of candidates that cannot be a
