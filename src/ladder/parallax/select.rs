@@ -1720,7 +1720,7 @@ mod tests {
             let count = 4 + (g.next() * 16.0) as usize;
             let full = select(p, &seed, Stop::Count(count));
             screened_steps += full.chosen.len().saturating_sub(SCREEN_MIN_EPOCHS);
-            // Goals between the best this count reaches and three times it:
+            // Goals from half the J this count reaches to three times it:
             // some met early, some after the greedy steps, some not at all.
             let goals = [full.j() * 0.5, full.j(), full.j() * (1.0 + 2.0 * g.next())];
             let stops: Vec<Stop> = std::iter::once(Stop::Count(count))
