@@ -152,7 +152,9 @@ const SCREEN_REL: f64 = 1e-6;
 /// admissible candidate's exact J against its estimate, at every screened
 /// step of `budget` on synthetic programmes of 100 and 300 targets and on
 /// the demo, and of `plan` on 100): the largest error was 6.3e-7 of its
-/// bound at three epochs, 1.3e-9 at four and more. Five before that date:
+/// bound at three epochs, 1.3e-9 at four and more (with the fused
+/// multiply-adds of [`Base::j_plus_all`], 5.7e-7 and 1.2e-9 on the
+/// `budget` runs). Five before that date:
 /// the same choices (the same bytes out), two more steps exact.
 const SCREEN_MIN_EPOCHS: usize = 3;
 
@@ -258,9 +260,13 @@ impl Base {
     /// is element by element the same for every candidate, whether it may
     /// be added or not (the caller filters), so the loop has no branch.
     ///
-    /// On a processor with AVX2 the same loop is compiled for it (four
-    /// candidates at a time instead of two): the same IEEE operations on
-    /// every candidate, no fused multiply-add, so the same numbers.
+    /// On a processor with AVX2 and FMA the loop is compiled for them:
+    /// four candidates at a time instead of two, and each product with the
+    /// sum it feeds fused into one operation (one rounding instead of two).
+    /// Its estimates then differ from the plain loop's in their last bits,
+    /// far inside the bound (`SCREEN_REL`, a million times the largest
+    /// error measured); the choices are made on exact J either way, so
+    /// they are the same.
     fn j_plus_all(&self, pre: &Pre, est: &mut Vec<f64>, err: &mut Vec<f64>) {
         self.j_plus_runs(pre, &[(0, pre.dt.len())], est, err);
     }
@@ -291,24 +297,26 @@ impl Base {
             gap_from = to;
         }
         #[cfg(target_arch = "x86_64")]
-        if std::arch::is_x86_feature_detected!("avx2") {
+        if std::arch::is_x86_feature_detected!("avx2") && std::arch::is_x86_feature_detected!("fma")
+        {
             for &(from, to) in runs {
-                // SAFETY: the processor has AVX2, checked just above.
+                // SAFETY: the processor has AVX2 and FMA, checked just above.
                 unsafe { self.j_plus_avx2(pre, from, to, est, err) };
             }
             return;
         }
         for &(from, to) in runs {
-            self.j_plus_body(pre, from, to, est, err);
+            self.j_plus_body::<false>(pre, from, to, est, err);
         }
     }
 
-    /// [`Self::j_plus_all`]'s loop compiled for AVX2.
+    /// [`Self::j_plus_all`]'s loop compiled for AVX2, its products and
+    /// sums fused.
     ///
     /// # Safety
-    /// Only on a processor with AVX2.
+    /// Only on a processor with AVX2 and FMA.
     #[cfg(target_arch = "x86_64")]
-    #[target_feature(enable = "avx2")]
+    #[target_feature(enable = "avx2,fma")]
     unsafe fn j_plus_avx2(
         &self,
         pre: &Pre,
@@ -317,14 +325,24 @@ impl Base {
         est: &mut [f64],
         err: &mut [f64],
     ) {
-        self.j_plus_body(pre, from, to, est, err);
+        self.j_plus_body::<true>(pre, from, to, est, err);
     }
 
     /// [`Self::j_plus_all`]'s loop over the candidates `from..to`, into the
-    /// same entries of `est` and `err` (of the candidates' length).
+    /// same entries of `est` and `err` (of the candidates' length); with
+    /// `FMA` each a·b + c is one fused multiply-add (to be compiled only
+    /// where the processor has them: elsewhere `mul_add` is a slow call).
     #[allow(clippy::needless_range_loop)] // index form mirrors the formula
     #[inline(always)]
-    fn j_plus_body(&self, pre: &Pre, from: usize, to: usize, est: &mut [f64], err: &mut [f64]) {
+    fn j_plus_body<const FMA: bool>(
+        &self,
+        pre: &Pre,
+        from: usize,
+        to: usize,
+        est: &mut [f64],
+        err: &mut [f64],
+    ) {
+        let madd = |a: f64, b: f64, c: f64| if FMA { a.mul_add(b, c) } else { a * b + c };
         let n = to - from;
         let c = &self.c;
         let (dts, pas, pds) = (&pre.dt[from..to], &pre.pa[from..to], &pre.pd[from..to]);
@@ -337,21 +355,21 @@ impl Base {
             // (1, 0, dt, 0, Pα) and (0, 1, 0, dt, Pδ).
             let mut u = [[0.0; 2]; 5];
             for (ur, cr) in u.iter_mut().zip(c) {
-                ur[0] = cr[0] + dt * cr[2] + pa * cr[4];
-                ur[1] = cr[1] + dt * cr[3] + pd * cr[4];
+                ur[0] = madd(pa, cr[4], madd(dt, cr[2], cr[0]));
+                ur[1] = madd(pd, cr[4], madd(dt, cr[3], cr[1]));
             }
-            let s00 = u[0][0] + dt * u[2][0] + pa * u[4][0] + inv_w;
-            let s01 = u[0][1] + dt * u[2][1] + pa * u[4][1];
-            let s11 = u[1][1] + dt * u[3][1] + pd * u[4][1] + inv_w;
-            let det = s00 * s11 - s01 * s01;
+            let s00 = madd(pa, u[4][0], madd(dt, u[2][0], u[0][0])) + inv_w;
+            let s01 = madd(pa, u[4][1], madd(dt, u[2][1], u[0][1]));
+            let s11 = madd(pd, u[4][1], madd(dt, u[3][1], u[1][1])) + inv_w;
+            let det = madd(s00, s11, -(s01 * s01));
             // g = S⁻¹ U₄ᵀ; the parallax row of the new inverse, C₄ − g U ᵀ.
-            let g0 = (s11 * u[4][0] - s01 * u[4][1]) / det;
-            let g1 = (s00 * u[4][1] - s01 * u[4][0]) / det;
+            let g0 = madd(s11, u[4][0], -(s01 * u[4][1])) / det;
+            let g1 = madd(s00, u[4][1], -(s01 * u[4][0])) / det;
             let mut bias = 0.0;
             let mut bias_abs = 0.0;
             let mut var = 0.0;
             for j in 0..5 {
-                let row = c[4][j] - g0 * u[j][0] - g1 * u[j][1];
+                let row = madd(-g1, u[j][1], madd(-g0, u[j][0], c[4][j]));
                 let bj = self.b[j] + wad[j][i];
                 bias += row * bj;
                 bias_abs += (row * bj).abs();
@@ -359,7 +377,7 @@ impl Base {
                     var = row;
                 }
             }
-            let j = var + bias * bias;
+            let j = madd(bias, bias, var);
             let e = SCREEN_REL * (var.abs() + c[4][4].abs() + bias_abs * (bias_abs + 1.0));
             // Each lane's answer or NaN, chosen by a bit mask: every
             // lane's arithmetic runs in full (with `&&` and `if` the
