@@ -677,35 +677,28 @@ pub enum Stop {
 /// season numbers may be sparse or large), so that the search keeps its
 /// counts in plain vectors.
 fn dense(cands: &[Candidate], key: impl Fn(&Candidate) -> usize) -> (Vec<usize>, usize) {
-    // Candidates in time order (as the methods make them) have their
-    // slots and seasons in order too: each value's rank in one pass.
-    let mut of = Vec::with_capacity(cands.len());
-    let mut prev: Option<usize> = None;
-    let mut rank = 0;
-    for c in cands {
-        let v = key(c);
-        match prev {
-            Some(x) if v == x => {}
-            Some(x) if v > x => rank += 1,
-            Some(_) => {
-                of.clear();
-                break;
-            }
-            None => {}
-        }
-        prev = Some(v);
-        of.push(rank);
-    }
-    if of.len() == cands.len() {
-        return (of, prev.map_or(0, |_| rank + 1));
+    let keys: Vec<usize> = cands.iter().map(key).collect();
+    // Candidates in time order (as the methods make them) have their slots
+    // and seasons in order too: each value's rank in one pass.
+    if keys.is_sorted() {
+        let mut rank = 0;
+        let of = keys
+            .iter()
+            .enumerate()
+            .map(|(i, k)| {
+                rank += usize::from(i > 0 && *k != keys[i - 1]);
+                rank
+            })
+            .collect();
+        return (of, if keys.is_empty() { 0 } else { rank + 1 });
     }
     // Otherwise the rank among the sorted distinct values.
-    let mut values: Vec<usize> = cands.iter().map(&key).collect();
+    let mut values = keys.clone();
     values.sort_unstable();
     values.dedup();
-    let of = cands
+    let of = keys
         .iter()
-        .map(|c| values.binary_search(&key(c)).unwrap_or(0))
+        .map(|k| values.binary_search(k).unwrap_or(0))
         .collect();
     (of, values.len())
 }
@@ -1021,10 +1014,8 @@ fn run(
                         continue;
                     }
                     let jn = known.unwrap_or_else(|| st.j_with(i));
-                    let gain = match stop {
-                        Stop::Count(_) => cur - jn,
-                        Stop::Target(_) => (cur - jn) / p.cands[i].hours.max(1e-9),
-                    };
+                    // Dividing by 1 (a count) leaves the fall as it is.
+                    let gain = (cur - jn) / per(i);
                     if best.is_none_or(|b| gain > b.0) {
                         best = Some((gain, i));
                     }
