@@ -541,6 +541,11 @@ fn plan_and_budget_options() {
     );
     run("H3", plan(&[]), "give --hours-per-night H");
     run(
+        "D5",
+        plan(&["--hours-per-night", "3", "--horizon-to", "2026-03-04"]),
+        "--horizon-to: 2026-03-04 is before the plan's last night 2026-03-05: the methods plan at least to it (give a later night, or leave --horizon-to out)",
+    );
+    run(
         "I2",
         plan(&["--hours-per-night", "3", "--instrument", "nope-2m"]),
         "invalid --instrument: unknown instrument 'nope-2m'; known instruments: lucero-1m, alcaravan-2m, lucero-1m-ir",
@@ -583,6 +588,25 @@ fn plan_and_budget_options() {
         "V4",
         &["plan", "--load", s, "--lost-night", "2026-02-30"],
         "--lost-night: cannot read date from '2026-02-30': expected YYYY-MM-DD, a real calendar date such as 2026-12-01",
+    );
+    // The horizon the plan was made with, as saved.
+    let made_to = serde_json::from_str::<serde_json::Value>(&text).unwrap()["horizon_to"]
+        .as_str()
+        .unwrap()
+        .to_string();
+    check_cli(
+        "V5",
+        &[
+            "plan",
+            "--load",
+            s,
+            "--replan",
+            "--horizon-to",
+            "2027-03-05",
+        ],
+        &format!(
+            "--horizon-to applies when a plan is made (or rebuilt with --rebuild): a loaded plan keeps the horizon it was made with ({made_to})"
+        ),
     );
     let other = d.path().join("other.csv");
     std::fs::write(&other, "name,ra,dec\nX-1,10,-20\n").unwrap();

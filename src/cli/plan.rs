@@ -54,7 +54,7 @@ pub struct PlanArgs {
     /// Place again everything that is not done (keeps done visits, skips lost nights, places nothing before the clock: RUNG_NOW or now).
     #[arg(long)]
     pub replan: bool,
-    /// Last night the methods plan for, YYYY-MM-DD (default: the programme's own last night when --to ends earlier: its settings file's, else 36 months after --from; their epochs after --to are counted in the outcomes as planned).
+    /// Last night the methods plan for, YYYY-MM-DD, on or after --to, when a plan is made or rebuilt (default: the programme's own last night when --to ends earlier: its settings file's, else 36 months after --from; their epochs after --to are counted in the outcomes as planned).
     #[arg(long)]
     pub horizon_to: Option<String>,
     /// Save the plan to this file (atomic; with --load the default is the loaded file, with a .bak of the old one).
@@ -154,7 +154,25 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
     let st = super::settings(choices, Some(&targets_path), &[])?;
 
     let horizon = match a.horizon_to.as_deref() {
-        Some(h) => Some(parse_date(h).context("--horizon-to")?),
+        // A loaded plan's re-plans are replayed from its observing log,
+        // which holds the horizon the plan was made with: it stays.
+        Some(_) if a.load.is_some() => anyhow::bail!(
+            "--horizon-to applies when a plan is made (or rebuilt with --rebuild): a loaded plan keeps the horizon it was made with{}",
+            plan.as_ref()
+                .and_then(|p| p.horizon_to)
+                .map(|h| format!(" ({h})"))
+                .unwrap_or_default()
+        ),
+        Some(h) => {
+            let h = parse_date(h).context("--horizon-to")?;
+            if h < st.to {
+                anyhow::bail!(
+                    "--horizon-to: {h} is before the plan's last night {}: the methods plan at least to it (give a later night, or leave --horizon-to out)",
+                    st.to
+                );
+            }
+            Some(h)
+        }
         // A --to that shortens the programme makes the plan a slice of it:
         // the methods plan to the programme's own last night, within the
         // longest span a plan may have from its first night (a --from long
