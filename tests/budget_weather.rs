@@ -4,6 +4,9 @@
 //! scipy's negative binomial (tests/reference/make_budget_weather_fixtures.py)
 //! and, for several months together, against a simulation.
 
+mod rng_support;
+
+use rng_support::XorShift;
 use rung::plan::budget::weather::{
     HoursDistribution, NightLoad, expected_hours, nights_quantile, quantile_hours,
 };
@@ -79,17 +82,6 @@ fn expected_hours_scale_as_one_over_the_clear_fraction() {
     }
 }
 
-/// xorshift64*, seeded: the same simulation every run.
-struct Rng(u64);
-impl Rng {
-    fn next(&mut self) -> f64 {
-        self.0 ^= self.0 >> 12;
-        self.0 ^= self.0 << 25;
-        self.0 ^= self.0 >> 27;
-        (self.0.wrapping_mul(0x2545_f491_4f6c_dd1d) >> 11) as f64 / (1u64 << 53) as f64
-    }
-}
-
 #[test]
 fn several_months_together_match_a_simulation() {
     // Nights in four months of different clear fractions and loads; each
@@ -105,7 +97,7 @@ fn several_months_together_match_a_simulation() {
         }
     }
     let d = HoursDistribution::new(&loads, &clear);
-    let mut rng = Rng(0x1234_5678_9abc_def1);
+    let mut rng = XorShift(0x1234_5678_9abc_def1);
     let mut sims: Vec<f64> = (0..200_000)
         .map(|_| {
             loads
@@ -113,7 +105,7 @@ fn several_months_together_match_a_simulation() {
                 .map(|l| {
                     let f = clear[(l.month - 1) as usize];
                     let mut tries = 1.0;
-                    while rng.next() >= f {
+                    while rng.unit() >= f {
                         tries += 1.0;
                     }
                     tries * l.hours

@@ -6,20 +6,20 @@
 
 #[path = "../fuzz/src/lib.rs"]
 mod harness;
+mod rng_support;
 
+use rng_support::XorShift;
 use std::path::{Path, PathBuf};
 
 /// Mutations per harness (a few thousand in all; a few seconds in the dev profile).
 const MUTATIONS: usize = 700;
 
-/// xorshift64*: a fixed, seedable generator so every run tries the same inputs.
-struct Rng(u64);
+/// The draws of the inputs (tests/rng_support), so every run tries the
+/// same inputs.
+struct Rng(XorShift);
 impl Rng {
     fn next(&mut self) -> u64 {
-        self.0 ^= self.0 >> 12;
-        self.0 ^= self.0 << 25;
-        self.0 ^= self.0 >> 27;
-        self.0.wrapping_mul(0x2545_F491_4F6C_DD1D)
+        self.0.step()
     }
     fn below(&mut self, n: usize) -> usize {
         if n == 0 {
@@ -198,7 +198,7 @@ fn harnesses_survive_seeds_and_mutations() {
         for (file, data) in &seeds {
             run_one(name, *f, data, file);
         }
-        let mut rng = Rng(0x9E37_79B9_7F4A_7C15 ^ (k as u64 + 1));
+        let mut rng = Rng(XorShift(0x9E37_79B9_7F4A_7C15 ^ (k as u64 + 1)));
         for i in 0..MUTATIONS {
             let (_, base) = &seeds[rng.below(seeds.len())];
             let (_, other) = &seeds[rng.below(seeds.len())];

@@ -7,6 +7,9 @@
 //! refused with file, line and field. The programme is the invented ladder
 //! programme of tests/ladder_support/ (not the demo).
 
+mod rng_support;
+
+use rng_support::Rng;
 use rung::io::targets::load;
 use rung::ladder::chain::{build, calibrators_of, host_distance};
 use rung::programme::{Request, Settings};
@@ -256,23 +259,6 @@ fn a_host_that_is_missing_or_has_no_distance_names_file_line_and_field() {
         err.contains("field 'host': 'LPO-T2026d' is a transient target"),
         "{err}"
     );
-}
-
-struct Rng(u64);
-impl Rng {
-    // SplitMix64 (Steele, Lea & Flood 2014) with Box–Muller (Box & Muller 1958).
-    fn next_u64(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-    fn gauss(&mut self) -> f64 {
-        let u = |r: &mut Rng| ((r.next_u64() >> 11) as f64 + 0.5) / (1u64 << 53) as f64;
-        let (u1, u2) = (u(self), u(self));
-        (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
-    }
 }
 
 #[test]

@@ -14,32 +14,14 @@
 
 #![allow(clippy::needless_range_loop, clippy::type_complexity)]
 
+mod rng_support;
+
 use proptest::prelude::*;
+use rng_support::Rng;
 use rung::ladder::chain::{
     Chain, ChainError, EndPoint, Observation, Param, Rung, Term, h0_from_intercept,
     parallax_modulus, parallax_modulus_bias_mag,
 };
-
-struct Rng(u64);
-impl Rng {
-    fn next_u64(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-    fn uniform(&mut self) -> f64 {
-        ((self.next_u64() >> 11) as f64 + 0.5) / (1u64 << 53) as f64
-    }
-    fn gauss(&mut self) -> f64 {
-        let (u1, u2) = (self.uniform(), self.uniform());
-        (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
-    }
-    fn range(&mut self, lo: f64, hi: f64) -> f64 {
-        lo + (hi - lo) * self.uniform()
-    }
-}
 
 fn zp() -> Param {
     Param::ZeroPoint {

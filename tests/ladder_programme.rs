@@ -5,6 +5,9 @@
 //! Monte Carlo over the programme's chain, adding a target never raises the
 //! end point's σ, and broken links are refused with file, line and field.
 
+mod rng_support;
+
+use rng_support::Rng;
 use rung::astro::time::{Instant, parse_instant};
 use rung::io::targets::{Target, load};
 use rung::ladder::chain::{Change, EndPoint, Rung, build, report, report_of};
@@ -161,23 +164,6 @@ fn each_observation_carries_its_methods_own_terms() {
     assert_eq!(o.terms[0].sigma_mag, 0.05);
     assert_eq!(o.hours, 0.0);
     assert_eq!(m.node.as_deref(), Some("LPO-G1"));
-}
-
-struct Rng(u64);
-impl Rng {
-    // SplitMix64 (Steele, Lea & Flood 2014) with Box–Muller (Box & Muller 1958).
-    fn next_u64(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-    fn gauss(&mut self) -> f64 {
-        let u = |r: &mut Rng| ((r.next_u64() >> 11) as f64 + 0.5) / (1u64 << 53) as f64;
-        let (u1, u2) = (u(self), u(self));
-        (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
-    }
 }
 
 #[test]

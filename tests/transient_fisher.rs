@@ -12,32 +12,16 @@
 
 #![allow(clippy::needless_range_loop)] // index loops mirror the matrix algebra
 
+mod rng_support;
 mod transient_support;
 
+use rng_support::Rng;
 use rung::astro::night::Limits;
 use rung::ladder::Epoch;
 use rung::ladder::transient::fit::{self, Measurement, measurement_sigma};
 use rung::ladder::transient::template::N_PARAMS;
 use rung::ladder::transient::{CurveParams, Model, SPECTRUM_BAND, Standardizer, TransientMethod};
 use transient_support::{TestPhotometer, chase_setting, method_at, site, transient};
-
-struct Rng(u64);
-impl Rng {
-    fn next_u64(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-    fn uniform(&mut self) -> f64 {
-        ((self.next_u64() >> 11) as f64 + 0.5) / (1u64 << 53) as f64
-    }
-    fn gauss(&mut self) -> f64 {
-        let (u1, u2) = (self.uniform(), self.uniform());
-        (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
-    }
-}
 
 /// Solve a x = b by Gaussian elimination with partial pivoting.
 fn solve(mut a: Vec<Vec<f64>>, mut b: Vec<f64>) -> Option<Vec<f64>> {
