@@ -318,6 +318,24 @@ fn a_pulsator_visit_done_an_hour_early_spaces_the_next_from_its_observed_time() 
     let (a, b) = held.span();
     assert_eq!(a.iso(), "2026-12-01T23:52:30Z");
     assert_eq!(b.iso(), "2026-12-02T00:07:30Z");
+    // Its epoch, for the star's phase and its prediction, is the observed
+    // mid (00:00:00), not the planned one (01:00:00).
+    assert_eq!(v1.epoch().time.iso(), "2026-12-02T01:00:00Z");
+    assert_eq!(held.epoch().time.iso(), "2026-12-02T00:00:00Z");
+    let outcome = second.outcomes.iter().find(|o| o.target == "T0").unwrap();
+    let times: Vec<String> = outcome
+        .prediction
+        .as_ref()
+        .expect("the star's visits give a prediction")
+        .epochs
+        .iter()
+        .map(|e| e.time.iso())
+        .collect();
+    assert!(
+        times.contains(&"2026-12-02T00:00:00Z".to_string())
+            && !times.contains(&"2026-12-02T01:00:00Z".to_string()),
+        "{times:?}"
+    );
     let mut later: Vec<&Visit> = second
         .visits
         .iter()

@@ -155,10 +155,13 @@ impl Visit {
         }
     }
 
-    /// The visit as an epoch for a method's prediction.
+    /// The visit as an epoch for a method's prediction, at the middle of
+    /// its [`Visit::span`]: a done visit where it was observed (its phase,
+    /// its parallax factor), any other as planned (its [`Visit::mid`]).
     pub fn epoch(&self) -> Epoch {
+        let (a, b) = self.span();
         Epoch {
-            time: self.mid(),
+            time: a.add_seconds(b.seconds_since(&a) / 2.0),
             exptime_s: self.exptime_s,
             n_exposures: self.n_exposures,
             snr: self.snr,
