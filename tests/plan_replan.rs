@@ -357,6 +357,30 @@ fn a_pulsator_visit_done_an_hour_early_spaces_the_next_from_its_observed_time() 
     );
     // Here it keeps its planned 02:52:30, three hours after the observed mid.
     assert_eq!(next.start.iso(), "2026-12-02T02:52:30Z");
+    // Its calendar event too is where it was observed, with its planned
+    // time in the description; a visit not done keeps its planned time.
+    let site = rung::io::sites::resolve("pampa-lucero").unwrap();
+    let ics = rung::plan::export::ics(&second.visits, &site, at("2026-12-01T12:00:00Z"))
+        .replace("\r\n ", "");
+    let event = |id: &str| {
+        ics.split("BEGIN:VEVENT")
+            .find(|e| e.contains(&format!("UID:{id}@rung")))
+            .unwrap()
+            .to_string()
+    };
+    let e1 = event("T0#1");
+    assert!(
+        e1.contains("UTC 2026-12-01T23:52:30Z to 2026-12-02T00:07:30Z")
+            && e1.contains("planned for UTC 2026-12-02T00:52:30Z to 2026-12-02T01:07:30Z")
+            // pampa-lucero keeps UTC−3 all year: 23:52:30 UTC is 20:52:30 local.
+            && e1.contains(":20261201T205230"),
+        "{e1}"
+    );
+    let e2 = event(&next.id);
+    assert!(
+        e2.contains(":20261201T235230") && !e2.contains("planned for"),
+        "{e2}"
+    );
     for v in &later {
         assert!(
             v.start >= b || v.end <= a,

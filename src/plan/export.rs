@@ -306,9 +306,10 @@ pub fn vtimezone(tz: &Tz, from: Instant, to: Instant) -> String {
     s
 }
 
-/// An iCalendar file with one VEVENT per visit, DTSTART/DTEND in the site's zone.
-/// `stamp` is the DTSTAMP of every event (the plan's creation time, for
-/// reproducible files).
+/// An iCalendar file with one VEVENT per visit, DTSTART/DTEND in the site's zone:
+/// the visit's [`Visit::span`] (a done visit where it was observed, its
+/// planned time then in the description). `stamp` is the DTSTAMP of every
+/// event (the plan's creation time, for reproducible files).
 pub fn ics(visits: &[Visit], site: &Site, stamp: Instant) -> String {
     let tz = &site.timezone;
     let mut s = String::new();
@@ -319,16 +320,17 @@ pub fn ics(visits: &[Visit], site: &Site, stamp: Instant) -> String {
     if let (Some(a), Some(b)) = (
         visits
             .iter()
-            .map(|v| v.start)
+            .map(|v| v.span().0)
             .reduce(|a, b| if b < a { b } else { a }),
         visits
             .iter()
-            .map(|v| v.end)
+            .map(|v| v.span().1)
             .reduce(|a, b| if b > a { b } else { a }),
     ) {
         s.push_str(&vtimezone(tz, a, b));
     }
     for v in visits {
+        let (start, end) = v.span();
         s.push_str(&fold("BEGIN:VEVENT"));
         s.push_str(&fold(&format!(
             "UID:{}@rung",
@@ -338,12 +340,12 @@ pub fn ics(visits: &[Visit], site: &Site, stamp: Instant) -> String {
         s.push_str(&fold(&format!(
             "DTSTART;TZID={}:{}",
             tz.name(),
-            local_stamp(v.start, tz)
+            local_stamp(start, tz)
         )));
         s.push_str(&fold(&format!(
             "DTEND;TZID={}:{}",
             tz.name(),
-            local_stamp(v.end, tz)
+            local_stamp(end, tz)
         )));
         s.push_str(&fold(&format!(
             "SUMMARY:{}",
@@ -363,9 +365,16 @@ pub fn ics(visits: &[Visit], site: &Site, stamp: Instant) -> String {
             v.snr,
             v.airmass,
             status_str(v.status),
-            v.start.iso(),
-            v.end.iso()
+            start.iso(),
+            end.iso()
         );
+        if start != v.start {
+            d.push_str(&format!(
+                " Observed at that time; planned for UTC {} to {}.",
+                v.start.iso(),
+                v.end.iso()
+            ));
+        }
         for c in &v.cautions {
             d.push(' ');
             d.push_str(c);
@@ -395,11 +404,13 @@ pub fn night_sheet(visits: &[Visit], site: &Site, night: NaiveDate, header: &str
     for v in visits.iter().filter(|v| v.night == night) {
         any = true;
         let hm = |t: Instant| t.round_to_second().local(tz).format("%H:%M:%S").to_string();
+        // A done visit where it was observed (Visit::span).
+        let (start, end) = v.span();
         s.push_str(&format!(
             "| {} | {} | {} | {} | {} | {} | {} | {} | {} | {} | {} | {} | {} |\n",
-            v.start.round_to_second().to_datetime().format("%H:%M:%S"),
-            hm(v.start),
-            hm(v.end),
+            start.round_to_second().to_datetime().format("%H:%M:%S"),
+            hm(start),
+            hm(end),
             md_cell(&v.id),
             md_cell(&v.target),
             v.kind.as_str(),
