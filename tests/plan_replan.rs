@@ -376,6 +376,35 @@ fn a_pulsator_visit_done_an_hour_early_spaces_the_next_from_its_observed_time() 
             && e1.contains(":20261201T205230"),
         "{e1}"
     );
+    // The night sheet shows it at its observed time, in time order: the
+    // star's first row that night.
+    let sheet = rung::plan::export::night_sheet(&second.visits, &site, day(FROM), "");
+    let rows: Vec<&str> = sheet
+        .lines()
+        .filter(|l| l.starts_with("| ") && l.contains("| T0#"))
+        .collect();
+    assert!(
+        rows.first()
+            .is_some_and(|r| r.starts_with("| 23:52:30 |") && r.contains("| T0#1 |")),
+        "{rows:?}"
+    );
+    // Observed after the star's next planned visit (03:30:00, after
+    // 02:52:30): the sheet lists the two in the order of their times.
+    let v2 = first.visits.iter().find(|v| v.id == "T0#2").unwrap();
+    assert_eq!(v2.start.iso(), "2026-12-02T02:52:30Z");
+    let after = Visit {
+        status: Status::Done,
+        observed: Some(at("2026-12-02T03:30:00Z")),
+        ..v1.clone()
+    };
+    let sheet = rung::plan::export::night_sheet(&[after, v2.clone()], &site, day(FROM), "");
+    let rows: Vec<&str> = sheet.lines().filter(|l| l.contains("| T0#")).collect();
+    assert!(
+        rows.len() == 2
+            && rows[0].starts_with("| 02:52:30 |")
+            && rows[1].starts_with("| 03:30:00 |"),
+        "{rows:?}"
+    );
     let e2 = event(&next.id);
     assert!(
         e2.contains(":20261201T235230") && !e2.contains("planned for"),

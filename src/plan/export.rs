@@ -401,7 +401,15 @@ pub fn night_sheet(visits: &[Visit], site: &Site, night: NaiveDate, header: &str
     s.push_str("| start UTC | start local | end local | visit | target | kind | RA (ICRS) | Dec (ICRS) | exposure (band frames × s) | SNR | airmass | status | cautions |\n");
     s.push_str("| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |\n");
     let mut any = false;
-    for v in visits.iter().filter(|v| v.night == night) {
+    // In the order of the times shown (a done visit where it was observed).
+    let mut on: Vec<&Visit> = visits.iter().filter(|v| v.night == night).collect();
+    on.sort_by(|a, b| {
+        a.span()
+            .0
+            .partial_cmp(&b.span().0)
+            .unwrap_or(std::cmp::Ordering::Equal)
+    });
+    for v in on {
         any = true;
         let hm = |t: Instant| t.round_to_second().local(tz).format("%H:%M:%S").to_string();
         // A done visit where it was observed (Visit::span).
