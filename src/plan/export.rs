@@ -403,12 +403,7 @@ pub fn night_sheet(visits: &[Visit], site: &Site, night: NaiveDate, header: &str
     let mut any = false;
     // In the order of the times shown (a done visit where it was observed).
     let mut on: Vec<&Visit> = visits.iter().filter(|v| v.night == night).collect();
-    on.sort_by(|a, b| {
-        a.span()
-            .0
-            .partial_cmp(&b.span().0)
-            .unwrap_or(std::cmp::Ordering::Equal)
-    });
+    on.sort_by(|a, b| Visit::by_span_start(a, b));
     for v in on {
         any = true;
         let hm = |t: Instant| t.round_to_second().local(tz).format("%H:%M:%S").to_string();

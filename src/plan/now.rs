@@ -304,12 +304,7 @@ pub fn queue(
         let done_tonight = mine
             .iter()
             .filter(|v| v.night == night_date && v.status == Status::Done)
-            .max_by(|a, b| {
-                a.span()
-                    .0
-                    .partial_cmp(&b.span().0)
-                    .unwrap_or(std::cmp::Ordering::Equal)
-            })
+            .max_by(|a, b| Visit::by_span_start(a, b))
             .copied();
         let source = tonight_visit.or_else(|| {
             mine.iter()

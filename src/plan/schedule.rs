@@ -137,10 +137,11 @@ pub struct Visit {
 }
 
 impl Visit {
-    /// Mid-visit instant.
+    /// Mid-visit instant: the middle of its [`Visit::span`] (a done visit
+    /// where it was observed, any other as planned).
     pub fn mid(&self) -> Instant {
-        self.start
-            .add_seconds(self.end.seconds_since(&self.start) / 2.0)
+        let (a, b) = self.span();
+        a.add_seconds(b.seconds_since(&a) / 2.0)
     }
 
     /// The span a visit occupies for the re-plan: a done visit with its
@@ -155,13 +156,21 @@ impl Visit {
         }
     }
 
-    /// The visit as an epoch for a method's prediction, at the middle of
-    /// its [`Visit::span`]: a done visit where it was observed (its phase,
-    /// its parallax factor), any other as planned (its [`Visit::mid`]).
+    /// Visits in the order of their spans' starts (the order the views
+    /// show them in; incomparable starts as equal).
+    pub fn by_span_start(a: &Visit, b: &Visit) -> std::cmp::Ordering {
+        a.span()
+            .0
+            .partial_cmp(&b.span().0)
+            .unwrap_or(std::cmp::Ordering::Equal)
+    }
+
+    /// The visit as an epoch for a method's prediction, at its
+    /// [`Visit::mid`]: a done visit where it was observed (its phase, its
+    /// parallax factor), any other as planned.
     pub fn epoch(&self) -> Epoch {
-        let (a, b) = self.span();
         Epoch {
-            time: a.add_seconds(b.seconds_since(&a) / 2.0),
+            time: self.mid(),
             exptime_s: self.exptime_s,
             n_exposures: self.n_exposures,
             snr: self.snr,
