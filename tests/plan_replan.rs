@@ -372,7 +372,11 @@ fn a_pulsator_visit_done_an_hour_early_spaces_the_next_from_its_observed_time() 
     assert!(
         e1.contains("UTC 2026-12-01T23:52:30Z to 2026-12-02T00:07:30Z")
             && e1.contains("planned for UTC 2026-12-02T00:52:30Z to 2026-12-02T01:07:30Z")
-            // pampa-lucero keeps UTC−3 all year: 23:52:30 UTC is 20:52:30 local.
+            // pampa-lucero's zone, America/Argentina/Catamarca (config/sites.toml),
+            // keeps UTC−3 all year in the IANA tz database (from memory; an
+            // exported file's local times are read back with an independent
+            // iCalendar parser in tests/plan_schedule.rs):
+            // 23:52:30 UTC is 20:52:30 local.
             && e1.contains(":20261201T205230"),
         "{e1}"
     );
