@@ -407,3 +407,176 @@ fn a_visit_marked_done_early_shows_its_observed_time_on_every_surface() {
         "{row}"
     );
 }
+
+/// The airmass a plan shows for a visit, from `rung plan --json`.
+fn json_visit(dir: &Path, id: &str) -> serde_json::Value {
+    let (json, _) = rung(dir, &["plan", "--load", "p.json", "--json"]);
+    let j: serde_json::Value = serde_json::from_str(&json).unwrap();
+    j["plan"]["visits"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|x| x["id"] == id)
+        .unwrap()
+        .clone()
+}
+
+/// A visit marked done 80 minutes after its planned start shows the airmass
+/// of the middle of the visit as observed, beside the time the views show
+/// (not the planned time's), the same as `rung where` at that instant (to
+/// 1e-9: the plan works through the night's interpolated frame, `rung
+/// where` through SOFA apco13 at the instant, docs/science.md); and the
+/// plan table lists the night's visits in the order of the times it shows.
+#[test]
+fn a_visit_marked_done_later_shows_the_airmass_of_its_observed_time() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let p = make_plan(d);
+    // A visit of the first night whose target is still well up 80 minutes
+    // after its planned start, at an airmass that differs by more than the
+    // two decimals the table shows.
+    let site = rung::io::sites::resolve("pampa-lucero").unwrap();
+    let airmass_at = |v: &rung::plan::schedule::Visit, t: rung::astro::time::Instant| {
+        let place =
+            rung::astro::frames::CatalogPlace::fixed_deg(v.ra_deg.unwrap(), v.dec_deg.unwrap());
+        let ctx = rung::astro::frames::Context::exact(&site, t).unwrap();
+        rung::astro::pointing(&site, &ctx, &place).airmass
+    };
+    let shift_s = 4800.0;
+    let v = p
+        .visits
+        .iter()
+        .find(|v| {
+            let mid = v.mid().add_seconds(shift_s);
+            v.status == Status::Planned
+                && v.night.to_string() == "2026-12-01"
+                && airmass_at(v, mid).is_some_and(|x| x < 2.5 && (x - v.airmass).abs() > 0.02)
+        })
+        .expect("a visit of the first night still up 80 minutes later")
+        .clone();
+    let observed = v.start.add_seconds(shift_s);
+    let iso = observed.iso();
+    let (_, err) = rung(
+        d,
+        &[
+            "plan",
+            "--load",
+            "p.json",
+            "--done",
+            &v.id,
+            "--observed",
+            &iso,
+        ],
+    );
+    assert!(!err.contains("check the observed time"), "{err}");
+    let jv = json_visit(d, &v.id);
+    let got = jv["airmass"].as_f64().unwrap();
+    let mid = v.mid().add_seconds(shift_s);
+    // rung where at the observed middle (the command, as an observer runs it).
+    let (w, _) = rung(
+        d,
+        &[
+            "where",
+            "--targets",
+            DEMO,
+            "--target",
+            &v.target,
+            "--at",
+            // To the microsecond: the middle of an odd number of seconds
+            // falls on a half second.
+            &mid.to_datetime()
+                .format("%Y-%m-%dT%H:%M:%S%.6fZ")
+                .to_string(),
+            "--json",
+        ],
+    );
+    let w: serde_json::Value = serde_json::from_str(&w).unwrap();
+    let want = w["airmass"].as_f64().unwrap();
+    assert!(
+        (got - want).abs() < 1e-9 * want,
+        "{}: airmass {got} in the plan, {want} from rung where at {}",
+        v.id,
+        mid.iso()
+    );
+    assert!(
+        (got - v.airmass).abs() > 0.02,
+        "{}: still the planned airmass {}",
+        v.id,
+        v.airmass
+    );
+    // The table: its line shows that airmass; the night's lines in time order.
+    let (table, _) = rung(d, &["plan", "--load", "p.json"]);
+    let line = table
+        .lines()
+        .find(|l| l.contains(&format!(" {} ", v.id)))
+        .unwrap();
+    assert!(line.contains(&format!("X={got:.2}")), "{line}");
+    let night: Vec<&str> = table
+        .lines()
+        .skip_while(|l| !l.contains("night 2026-12-01"))
+        .skip(1)
+        .take_while(|l| !l.contains("night "))
+        .collect();
+    let times: Vec<&str> = night.iter().map(|l| &l.trim_start()[..5]).collect();
+    let mut sorted = times.clone();
+    sorted.sort();
+    // The first night starts in the evening UTC of 2026-12-01 (00:xx UTC of
+    // the 2nd for this site, UTC−3 in config/sites.toml), so clock order is
+    // time order within it.
+    assert_eq!(
+        times, sorted,
+        "the night's lines out of time order:\n{table}"
+    );
+}
+
+/// A visit marked done at an instant when its target is below the horizon,
+/// or with the Sun up, keeps a sensible airmass and the observer is told to
+/// check the time: the plan stays loadable (its airmasses within 1..100).
+#[test]
+fn a_visit_marked_done_at_an_unlikely_time_says_so() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let p = make_plan(d);
+    let site = rung::io::sites::resolve("pampa-lucero").unwrap();
+    // Twelve hours after a planned middle: daytime at the site, and a target
+    // that is not circumpolar is below the horizon.
+    let shift_s = 12.0 * 3600.0;
+    let (v, alt_deg) = p
+        .visits
+        .iter()
+        .filter(|v| v.status == Status::Planned)
+        .find_map(|v| {
+            let place =
+                rung::astro::frames::CatalogPlace::fixed_deg(v.ra_deg.unwrap(), v.dec_deg.unwrap());
+            let ctx =
+                rung::astro::frames::Context::exact(&site, v.mid().add_seconds(shift_s)).unwrap();
+            let pt = rung::astro::pointing(&site, &ctx, &place);
+            (pt.altitude_deg < -5.0 && pt.sun_altitude_deg > 5.0)
+                .then(|| (v.clone(), pt.altitude_deg))
+        })
+        .expect("a visit whose target is down twelve hours later, in daylight");
+    let observed = v.start.add_seconds(shift_s);
+    let (_, err) = rung(
+        d,
+        &[
+            "plan",
+            "--load",
+            "p.json",
+            "--done",
+            &v.id,
+            "--observed",
+            &observed.iso(),
+        ],
+    );
+    assert!(
+        err.contains(&format!(
+            "'{}' is below the horizon (altitude {alt_deg:.1}°), so its airmass stays the planned {:.2}",
+            v.target, v.airmass
+        )) && err.contains("the Sun is up")
+            && err.contains("check the observed time"),
+        "{err}"
+    );
+    let jv = json_visit(d, &v.id);
+    assert_eq!(jv["status"], "done");
+    assert_eq!(jv["airmass"].as_f64().unwrap(), v.airmass);
+}

@@ -242,9 +242,17 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
             let d = parse_date(n).context("--lost-night")?;
             log::lose_night(path, &mut p, d, now).context("--lost-night")?;
         }
+        let mark = log::DoneMark {
+            observed,
+            seeing_arcsec: a.seeing,
+            comment: a.comment.clone(),
+        };
         for id in &a.done {
-            log::mark_done(path, &mut p, id, observed, a.seeing, a.comment.clone(), now)
-                .context("--done")?;
+            let note =
+                log::mark_done(path, &mut p, id, &mark, &site, &targets, now).context("--done")?;
+            if let Some(n) = note {
+                eprintln!("rung: note: {n}");
+            }
         }
         for id in &a.lost {
             log::mark_lost(path, &mut p, id, now).context("--lost")?;
@@ -270,7 +278,13 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
         if !a.done.is_empty() {
             p.mark(&a.done, Status::Done).context("--done")?;
             for v in p.visits.iter_mut().filter(|v| a.done.contains(&v.id)) {
-                v.observed = Some(observed);
+                let place = v.place_in(&targets);
+                if let Some(n) = v
+                    .mark_done_at(&site, place.as_ref(), observed)
+                    .context("--done")?
+                {
+                    eprintln!("rung: note: {n}");
+                }
                 v.seeing_arcsec = a.seeing;
                 v.comment = a.comment.clone();
             }
@@ -429,8 +443,17 @@ fn print_plan(p: &PlanFile, site: &rung::astro::site::Site, sched: Option<&sched
         p.sun_alt_deg,
         p.visits.len()
     );
+    // Night by night, each night's visits in the order of the times shown
+    // (a done visit at its observed start, Visit::span), as the night
+    // sheet lists them.
+    let mut shown: Vec<&rung::plan::schedule::Visit> = p.visits.iter().collect();
+    shown.sort_by(|a, b| {
+        a.night
+            .cmp(&b.night)
+            .then_with(|| rung::plan::schedule::Visit::by_span_start(a, b))
+    });
     let mut night = None;
-    for v in &p.visits {
+    for v in shown {
         if night != Some(v.night) {
             night = Some(v.night);
             let lost = if p.lost_nights.contains(&v.night) {

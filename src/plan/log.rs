@@ -21,6 +21,7 @@
 //! `data` (JSON: the plan's settings for `plan`, the visit for `done` and
 //! `lost`, the hours for `replan`).
 
+use crate::astro::site::Site;
 use crate::astro::time::Instant;
 use crate::error::{Location, Result, RungError};
 use crate::io::targets::Target;
@@ -396,18 +397,32 @@ pub fn start(plan_path: &Path, p: &mut PlanFile, now: Instant) -> Result<()> {
     Ok(())
 }
 
-/// Mark a visit done at `observed` with optional seeing and comment: logged,
-/// then the plan saved.
+/// How a visit was observed, as the observer marks it done.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DoneMark {
+    /// When the visit started, as observed (UTC).
+    pub observed: Instant,
+    /// Seeing FWHM the observer noted, arcseconds.
+    pub seeing_arcsec: Option<f64>,
+    /// The observer's comment.
+    pub comment: Option<String>,
+}
+
+/// Mark a visit done as `mark` says: its airmass becomes the one at the
+/// middle of the visit as observed ([`Visit::mark_done_at`], the target's
+/// place from `targets`), then the mark is logged and the plan saved.
+/// Returns the note [`Visit::mark_done_at`] gives when the airmass stays as
+/// planned.
 pub fn mark_done(
     plan_path: &Path,
     p: &mut PlanFile,
     id: &str,
-    observed: Instant,
-    seeing_arcsec: Option<f64>,
-    comment: Option<String>,
+    mark: &DoneMark,
+    site: &Site,
+    targets: &[Target],
     now: Instant,
-) -> Result<()> {
-    if let Some(s) = seeing_arcsec
+) -> Result<Option<String>> {
+    if let Some(s) = mark.seeing_arcsec
         && !(s.is_finite() && s > 0.0 && s <= 20.0)
     {
         return Err(RungError::invalid(
@@ -416,13 +431,16 @@ pub fn mark_done(
         ));
     }
     let mut v = find(p, id)?.clone();
-    v.status = Status::Done;
-    v.observed = Some(observed);
-    v.seeing_arcsec = seeing_arcsec;
-    v.comment = comment
+    let place = v.place_in(targets);
+    let note = v.mark_done_at(site, place.as_ref(), mark.observed)?;
+    v.seeing_arcsec = mark.seeing_arcsec;
+    v.comment = mark
+        .comment
+        .clone()
         .map(|c| c.replace(['\n', '\r'], " "))
         .filter(|c| !c.trim().is_empty());
-    record(plan_path, p, Event::Done(Box::new(v)), now)
+    record(plan_path, p, Event::Done(Box::new(v)), now)?;
+    Ok(note)
 }
 
 /// Mark a visit lost: logged, then the plan saved.

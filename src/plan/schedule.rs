@@ -165,6 +165,73 @@ impl Visit {
             .unwrap_or(std::cmp::Ordering::Equal)
     }
 
+    /// Mark the visit done, observed from `observed` (its start), with the
+    /// airmass at the middle of the span it then occupies ([`Visit::span`])
+    /// for `place` (the target's), through the frame of the night that
+    /// middle falls in, as a placed visit's airmass is at its placed middle:
+    /// the time a view shows and the airmass beside it are of the same
+    /// instant. Returns a note for the observer when the time looks like a
+    /// slip: the target below the horizon at that middle (its airmass then
+    /// stays as planned) or the Sun above it. The airmass also stays as
+    /// planned, with a note, when no place is known (an old plan file's
+    /// visit of a target no longer listed). Errors: the site has no night
+    /// for that instant (outside the ephemeris span).
+    pub fn mark_done_at(
+        &mut self,
+        site: &Site,
+        place: Option<&crate::astro::frames::CatalogPlace>,
+        observed: Instant,
+    ) -> Result<Option<String>> {
+        self.status = Status::Done;
+        self.observed = Some(observed);
+        let Some(place) = place else {
+            return Ok(Some(format!(
+                "{}: its target's place is not known, so its airmass stays the planned {:.2}",
+                self.id, self.airmass
+            )));
+        };
+        let mid = self.mid();
+        let night =
+            crate::astro::night::Night::shared(site, crate::astro::night::night_of(site, mid))?;
+        let ctx = night.context(mid);
+        let alt_deg = ctx.observe(place).alt_rad.to_degrees();
+        let sun_alt_deg = ctx.sun().alt_geom_rad.to_degrees();
+        let at = format!(
+            "at the middle of {} as observed ({})",
+            self.id,
+            mid.round_to_second().iso()
+        );
+        let mut slips = Vec::new();
+        match kasten_young(alt_deg) {
+            Some(x) => self.airmass = x,
+            None => slips.push(format!(
+                "'{}' is below the horizon (altitude {alt_deg:.1}°), so its airmass stays the planned {:.2}",
+                self.target, self.airmass
+            )),
+        }
+        if sun_alt_deg > 0.0 {
+            slips.push(format!("the Sun is up (altitude {sun_alt_deg:.1}°)"));
+        }
+        Ok((!slips.is_empty())
+            .then(|| format!("{at} {}: check the observed time", slips.join(" and "))))
+    }
+
+    /// The visit's target's place: the listed target's (its space motion
+    /// too), else the ICRS place the plan file keeps with the visit (a
+    /// fixed place), else none.
+    pub fn place_in(&self, targets: &[Target]) -> Option<crate::astro::frames::CatalogPlace> {
+        targets
+            .iter()
+            .find(|t| t.name == self.target)
+            .map(|t| t.place())
+            .or_else(|| {
+                Some(crate::astro::frames::CatalogPlace::fixed_deg(
+                    self.ra_deg?,
+                    self.dec_deg?,
+                ))
+            })
+    }
+
     /// The visit as an epoch for a method's prediction, at its
     /// [`Visit::mid`]: a done visit where it was observed (its phase, its
     /// parallax factor), any other as planned.

@@ -1002,19 +1002,25 @@ pub fn next_data(job: &crate::tui::msg::NextJob) -> crate::tui::state::NextData 
                         seeing_arcsec,
                         comment,
                     } => {
-                        log::mark_done(
+                        let mark = log::DoneMark {
+                            observed: job.now,
+                            seeing_arcsec: *seeing_arcsec,
+                            comment: comment.clone(),
+                        };
+                        let aside = log::mark_done(
                             path,
                             &mut p,
                             id,
-                            job.now,
-                            *seeing_arcsec,
-                            comment.clone(),
+                            &mark,
+                            &st.site,
+                            &job.targets,
                             job.now,
                         )?;
                         Some(format!(
-                            "{id} done, started {} UTC ({} local)",
+                            "{id} done, started {} UTC ({} local){}",
                             crate::output::clock_hm(job.now, &chrono_tz::UTC),
-                            crate::output::clock_hm(job.now, &st.site.timezone)
+                            crate::output::clock_hm(job.now, &st.site.timezone),
+                            aside.map(|n| format!("; {n}")).unwrap_or_default()
                         ))
                     }
                     NextOp::Lost(id) => {
