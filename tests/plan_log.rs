@@ -580,3 +580,99 @@ fn a_visit_marked_done_at_an_unlikely_time_says_so() {
     assert_eq!(jv["status"], "done");
     assert_eq!(jv["airmass"].as_f64().unwrap(), v.airmass);
 }
+
+/// A visit marked done when its target stood near the Sun in daylight gets
+/// the Sun caution of that time in every view (as the scheduler gives a
+/// placed visit's, at its start, middle or end), the caution `rung where`
+/// gives at that instant; the same visit marked done in the dark has none.
+#[test]
+fn a_visit_marked_done_near_the_sun_carries_the_sun_caution() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let p = make_plan(d);
+    let site = rung::io::sites::resolve("pampa-lucero").unwrap();
+    let v = p
+        .visits
+        .iter()
+        .find(|v| v.status == Status::Planned && v.cautions.is_empty())
+        .unwrap()
+        .clone();
+    let place = rung::astro::frames::CatalogPlace::fixed_deg(v.ra_deg.unwrap(), v.dec_deg.unwrap());
+    // The first local noon (15:00 UTC here) of the coming year when the
+    // target is up, less than 30° from the Sun, with the Sun up.
+    let noon = |k: f64| v.start.add_seconds(k * 86_400.0 - 3600.0 * 12.0);
+    let k = (0..366)
+        .map(|k| k as f64)
+        .find(|k| {
+            let ctx = rung::astro::frames::Context::exact(&site, noon(*k)).unwrap();
+            let pt = rung::astro::pointing(&site, &ctx, &place);
+            pt.altitude_deg > 10.0 && pt.sun_separation_deg < 30.0 && pt.sun_altitude_deg > 10.0
+        })
+        .expect("a day of the year the target stands near the Sun");
+    let observed = noon(k).round_to_second();
+    rung(
+        d,
+        &[
+            "plan",
+            "--load",
+            "p.json",
+            "--done",
+            &v.id,
+            "--observed",
+            &observed.iso(),
+        ],
+    );
+    let jv = json_visit(d, &v.id);
+    let cautions: Vec<&str> = jv["cautions"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| c.as_str().unwrap())
+        .collect();
+    // rung where at the observed start names the same caution (the site's
+    // limit, 45° by default, config/sites.toml).
+    let (w, _) = rung(
+        d,
+        &[
+            "where",
+            "--targets",
+            DEMO,
+            "--target",
+            &v.target,
+            "--at",
+            &observed.iso(),
+            "--json",
+        ],
+    );
+    let w: serde_json::Value = serde_json::from_str(&w).unwrap();
+    let want: Vec<&str> = w["cautions"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| c.as_str().unwrap())
+        .collect();
+    assert!(
+        !want.is_empty() && want[0].starts_with("SUN CAUTION"),
+        "{w}"
+    );
+    assert_eq!(cautions.len(), 1, "{jv}");
+    assert!(cautions[0].starts_with("SUN CAUTION"), "{jv}");
+    // The separation printed to 0.1°: the same unless it is a hair from a
+    // rounding edge between the start and the exact instant.
+    assert_eq!(cautions[0], want[0]);
+    // Marked again at its planned start: in the dark, no caution.
+    rung(
+        d,
+        &[
+            "plan",
+            "--load",
+            "p.json",
+            "--done",
+            &v.id,
+            "--observed",
+            &v.start.iso(),
+        ],
+    );
+    let jv = json_visit(d, &v.id);
+    assert_eq!(jv["cautions"].as_array().unwrap().len(), 0, "{jv}");
+}

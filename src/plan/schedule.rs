@@ -170,7 +170,9 @@ impl Visit {
     /// for `place` (the target's), through the frame of the night that
     /// middle falls in, as a placed visit's airmass is at its placed middle:
     /// the time a view shows and the airmass beside it are of the same
-    /// instant. Returns a note for the observer when the time looks like a
+    /// instant; so are its cautions (the Sun caution of the span as
+    /// observed, as the scheduler gives a placed visit's). Returns a note
+    /// for the observer when the time looks like a
     /// slip: the target below the horizon at that middle (its airmass then
     /// stays as planned) or the Sun above it. The airmass also stays as
     /// planned, with a note, when no place is known (an old plan file's
@@ -201,6 +203,9 @@ impl Visit {
             self.id,
             mid.round_to_second().iso()
         );
+        // Its cautions too are those of the span as observed.
+        let (start, end) = self.span();
+        self.cautions = span_cautions(site, &night, place, [start, mid, end]);
         let mut slips = Vec::new();
         match kasten_young(alt_deg) {
             Some(x) => self.airmass = x,
@@ -246,6 +251,20 @@ impl Visit {
             exposures: self.exposures.clone(),
         }
     }
+}
+
+/// A visit's cautions on `night` at its start, middle and end: the Sun
+/// caution at the first of them where it applies.
+fn span_cautions(
+    site: &Site,
+    night: &Night,
+    place: &crate::astro::frames::CatalogPlace,
+    at: [Instant; 3],
+) -> Vec<String> {
+    at.into_iter()
+        .find_map(|at| sun_caution_at(site, &night.context(at), place))
+        .into_iter()
+        .collect()
 }
 
 /// Everything the scheduler needs.
@@ -996,14 +1015,7 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
         let mid = s.add_seconds(it.dur_s / 2.0);
         let ctx = slots[ni].night.context(mid);
         let airmass = kasten_young(ctx.observe(&place).alt_rad.to_degrees());
-        let mut cautions = Vec::new();
-        for at in [s, mid, end] {
-            let c = slots[ni].night.context(at);
-            if let Some(w) = sun_caution_at(req.site, &c, &place) {
-                cautions.push(w);
-                break;
-            }
-        }
+        let cautions = span_cautions(req.site, &slots[ni].night, &place, [s, mid, end]);
         new_visits.push(Visit {
             id: String::new(),
             target: t.name.clone(),
