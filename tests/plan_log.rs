@@ -425,8 +425,9 @@ fn json_visit(dir: &Path, id: &str) -> serde_json::Value {
 /// of the middle of the visit as observed, beside the time the views show
 /// (not the planned time's), the same as `rung where` at that instant (to
 /// 1e-9: the plan works through the night's interpolated frame, `rung
-/// where` through SOFA apco13 at the instant, docs/science.md); and the
-/// plan table lists the night's visits in the order of the times it shows.
+/// where` through SOFA apco13 at the instant; the frame's bound, 0.01″ in
+/// the CIP, is in src/astro/frames.rs and DEVELOPERS.md); and the plan
+/// table lists the night's visits in the order of the times it shows.
 #[test]
 fn a_visit_marked_done_later_shows_the_airmass_of_its_observed_time() {
     let dir = tempfile::tempdir().unwrap();

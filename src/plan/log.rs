@@ -408,11 +408,11 @@ pub struct DoneMark {
     pub comment: Option<String>,
 }
 
-/// Mark a visit done as `mark` says: its airmass becomes the one at the
-/// middle of the visit as observed ([`Visit::mark_done_at`], the target's
+/// Mark a visit done as `mark` says: its airmass and Sun caution become
+/// those of the visit as observed ([`Visit::mark_done_at`], the target's
 /// place from `targets`), then the mark is logged and the plan saved.
-/// Returns the note [`Visit::mark_done_at`] gives when the airmass stays as
-/// planned.
+/// Returns the note [`Visit::mark_done_at`] gives when the observed time
+/// looks like a slip (or the target's place is unknown).
 pub fn mark_done(
     plan_path: &Path,
     p: &mut PlanFile,

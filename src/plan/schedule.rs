@@ -168,16 +168,15 @@ impl Visit {
     /// Mark the visit done, observed from `observed` (its start), with the
     /// airmass at the middle of the span it then occupies ([`Visit::span`])
     /// for `place` (the target's), through the frame of the night that
-    /// middle falls in, as a placed visit's airmass is at its placed middle:
-    /// the time a view shows and the airmass beside it are of the same
-    /// instant; so are its cautions (the Sun caution of the span as
-    /// observed, as the scheduler gives a placed visit's). Returns a note
-    /// for the observer when the time looks like a
-    /// slip: the target below the horizon at that middle (its airmass then
-    /// stays as planned) or the Sun above it. The airmass also stays as
-    /// planned, with a note, when no place is known (an old plan file's
-    /// visit of a target no longer listed). Errors: the site has no night
-    /// for that instant (outside the ephemeris span).
+    /// middle falls in, and the Sun caution of that span, as the scheduler
+    /// gives a placed visit's at its placed time: the time a view shows and
+    /// the airmass and caution beside it are of the same instants. Returns
+    /// a note for the observer when the time looks like a slip: the target
+    /// below the horizon at that middle (its airmass then stays as planned)
+    /// or the Sun above it. With no place known (an old plan file's visit of
+    /// a target no longer listed) the airmass and cautions stay as planned,
+    /// with a note. Errors: the site has no night for that instant (outside
+    /// the ephemeris span).
     pub fn mark_done_at(
         &mut self,
         site: &Site,
