@@ -164,4 +164,28 @@ fn the_mark_prompt_and_its_confirmation_name_the_start_taken() {
         note.starts_with(&format!("{} done, started {utc} UTC ({local} local)", v.id)),
         "{note}"
     );
+    // The visit saved: observed from the clock, with the airmass of the
+    // middle of the visit so observed (as `rung plan --done` gives it:
+    // tests/plan_log.rs), here within 1e-9 of SOFA apco13's at that instant.
+    let done = d
+        .plan
+        .unwrap()
+        .visits
+        .into_iter()
+        .find(|x| x.id == v.id)
+        .unwrap();
+    assert_eq!((done.status, done.observed), (Status::Done, Some(now)));
+    let mid = now.add_seconds(v.end.seconds_since(&v.start) / 2.0);
+    let t = targets.iter().find(|t| t.name == v.target).unwrap();
+    let ctx = rung::astro::frames::Context::exact(&st.site, mid).unwrap();
+    let want = rung::astro::pointing(&st.site, &ctx, &t.place())
+        .airmass
+        .unwrap();
+    assert!(
+        (done.airmass - want).abs() < 1e-9 * want,
+        "{}: {} against {want} (planned {})",
+        v.id,
+        done.airmass,
+        v.airmass
+    );
 }
