@@ -608,6 +608,24 @@ fn plan_and_budget_options() {
             "--horizon-to applies when a plan is made (or rebuilt with --rebuild): a loaded plan keeps the horizon it was made with ({made_to})"
         ),
     );
+    // A visit of the plan marked done at an instant outside the span.
+    let first_id = serde_json::from_str::<serde_json::Value>(&text).unwrap()["visits"][0]["id"]
+        .as_str()
+        .unwrap()
+        .to_string();
+    check_cli(
+        "V7",
+        &[
+            "plan",
+            "--load",
+            s,
+            "--done",
+            &first_id,
+            "--observed",
+            "1800-01-01T00:00:00Z",
+        ],
+        "--observed: 1800-01-01 is outside rung's valid span (1960-01-01 to 2099-12-31): the Earth ephemeris (SOFA epv00) covers 1900-2100 and UTC starts in 1960",
+    );
     let other = d.path().join("other.csv");
     std::fs::write(&other, "name,ra,dec\nX-1,10,-20\n").unwrap();
     let fp_other =
