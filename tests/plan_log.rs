@@ -688,3 +688,61 @@ fn a_visit_marked_done_near_the_sun_carries_the_sun_caution() {
     let jv = json_visit(d, &v.id);
     assert_eq!(jv["cautions"].as_array().unwrap().len(), 0, "{jv}");
 }
+
+/// A visit of the second night observed on the first (marked done with
+/// that time) is shown on the first night, where a re-plan holds its time
+/// (Visit::held_night): in the plan table under the first night's heading,
+/// in the first night's sheet and not in the second's.
+#[test]
+fn a_visit_observed_on_another_night_is_shown_on_that_night() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let p = make_plan(d);
+    let first = |n: &str| {
+        p.visits
+            .iter()
+            .filter(|v| v.status == Status::Planned && v.night.to_string() == n)
+            .min_by(|a, b| a.start.partial_cmp(&b.start).unwrap())
+            .unwrap()
+            .clone()
+    };
+    let (w, v) = (first("2026-12-01"), first("2026-12-02"));
+    // Observed an hour after the first night's first visit starts.
+    let observed = w.start.add_seconds(3600.0).round_to_second();
+    rung(
+        d,
+        &[
+            "plan",
+            "--load",
+            "p.json",
+            "--done",
+            &v.id,
+            "--observed",
+            &observed.iso(),
+        ],
+    );
+    let (table, _) = rung(d, &["plan", "--load", "p.json"]);
+    let night_of_line = |id: &str| -> String {
+        let mut night = String::new();
+        for l in table.lines() {
+            if let Some(rest) = l.trim_start().strip_prefix("night ") {
+                night = rest[..10].to_string();
+            }
+            if l.contains(&format!(" {id} ")) {
+                return night;
+            }
+        }
+        panic!("{id} not in\n{table}")
+    };
+    assert_eq!(night_of_line(&v.id), "2026-12-01", "{table}");
+    let jv = json_visit(d, &v.id);
+    assert_eq!(
+        (jv["held_night"].as_str(), jv["night"].as_str()),
+        (Some("2026-12-01"), Some("2026-12-02"))
+    );
+    let (sheet1, _) = rung(d, &["plan", "--load", "p.json", "--sheet", "2026-12-01"]);
+    let (sheet2, _) = rung(d, &["plan", "--load", "p.json", "--sheet", "2026-12-02"]);
+    let cell = format!("| {} |", v.id);
+    assert!(sheet1.contains(&cell), "{sheet1}");
+    assert!(!sheet2.contains(&cell), "{sheet2}");
+}

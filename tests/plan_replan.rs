@@ -444,3 +444,75 @@ fn a_pulsator_visit_done_an_hour_early_spaces_the_next_from_its_observed_time() 
         );
     }
 }
+
+/// A visit planned for the second night but observed on the first (as the
+/// Next view's `D` does when it offers a target's nearest visit from
+/// another night) holds its observed time on the first night: the re-plan
+/// places nothing on the first night over it, and the first night's hours
+/// used count it. They used to go to its planned night, so the first
+/// night's packing did not see it and placed other visits over it (here
+/// for some of the first night's visits' times, observed there in turn).
+#[test]
+fn a_visit_done_on_another_night_holds_its_time_on_that_night() {
+    let ts: Vec<Target> = targets(6, 7);
+    let first = run(&ts, vec![], BTreeSet::new(), 6.0);
+    let on = |v: &Visit, d: &str| v.night == day(d) && v.status == Status::Planned;
+    let v = first
+        .visits
+        .iter()
+        .find(|v| on(v, "2026-12-02"))
+        .expect("a visit on the second night")
+        .clone();
+    let mut overlaps = Vec::new();
+    // Observed, in turn, where each of the first night's visits of the
+    // other targets stands.
+    for w in first
+        .visits
+        .iter()
+        .filter(|w| on(w, "2026-12-01") && w.target != v.target)
+    {
+        let done = Visit {
+            status: Status::Done,
+            observed: Some(w.start),
+            ..v.clone()
+        };
+        let (a, b) = done.span();
+        let second = run(&ts, vec![done], BTreeSet::new(), 6.0);
+        let tonight: Vec<&Visit> = second
+            .visits
+            .iter()
+            .filter(|x| on(x, "2026-12-01"))
+            .collect();
+        for x in &tonight {
+            let (xa, xb) = x.span();
+            if !(xb <= a || xa >= b) {
+                overlaps.push(format!(
+                    "{} ({} to {}) over {} observed from {} to {}",
+                    x.id,
+                    xa.iso(),
+                    xb.iso(),
+                    v.id,
+                    a.iso(),
+                    b.iso()
+                ));
+            }
+        }
+        let placed_h: f64 = tonight
+            .iter()
+            .map(|x| x.end.seconds_since(&x.start) / 3600.0)
+            .sum();
+        let n1 = second
+            .nights
+            .iter()
+            .find(|n| n.night == day("2026-12-01"))
+            .unwrap();
+        let dur_h = b.seconds_since(&a) / 3600.0;
+        assert!(
+            (n1.used_hours - (placed_h + dur_h)).abs() < 1e-6,
+            "observed at {}: the first night's {} h used against {placed_h} h placed and {dur_h} h observed",
+            a.iso(),
+            n1.used_hours
+        );
+    }
+    assert!(overlaps.is_empty(), "{}", overlaps.join("\n"));
+}

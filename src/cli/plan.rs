@@ -391,6 +391,11 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
                 if let Some(o) = j.as_object_mut() {
                     o.insert("span_start".into(), serde_json::to_value(a)?);
                     o.insert("span_end".into(), serde_json::to_value(b)?);
+                    // The night it is shown under (Visit::held_night).
+                    o.insert(
+                        "held_night".into(),
+                        serde_json::to_value(v.held_night(&site))?,
+                    );
                 }
             }
         }
@@ -443,26 +448,27 @@ fn print_plan(p: &PlanFile, site: &rung::astro::site::Site, sched: Option<&sched
         p.sun_alt_deg,
         p.visits.len()
     );
-    // Night by night, each night's visits in the order of the times shown
-    // (a done visit at its observed start, Visit::span), as the night
+    // Night by night (a done visit on the night it was observed in,
+    // Visit::held_night), each night's visits in the order of the times
+    // shown (a done visit at its observed start, Visit::span), as the night
     // sheet lists them.
-    let mut shown: Vec<&rung::plan::schedule::Visit> = p.visits.iter().collect();
-    shown.sort_by(|a, b| {
-        a.night
-            .cmp(&b.night)
+    let mut shown: Vec<(chrono::NaiveDate, &rung::plan::schedule::Visit)> =
+        p.visits.iter().map(|v| (v.held_night(site), v)).collect();
+    shown.sort_by(|(na, a), (nb, b)| {
+        na.cmp(nb)
             .then_with(|| rung::plan::schedule::Visit::by_span_start(a, b))
     });
     let mut night = None;
-    for v in shown {
-        if night != Some(v.night) {
-            night = Some(v.night);
-            let lost = if p.lost_nights.contains(&v.night) {
+    for (vn, v) in shown {
+        if night != Some(vn) {
+            night = Some(vn);
+            let lost = if p.lost_nights.contains(&vn) {
                 "  (lost)"
             } else {
                 ""
             };
             let used = uses
-                .get(&v.night)
+                .get(&vn)
                 .map(|n| {
                     format!(
                         "  {:.1} of {:.1} h used ({:.0} %){}",
@@ -477,7 +483,7 @@ fn print_plan(p: &PlanFile, site: &rung::astro::site::Site, sched: Option<&sched
                     )
                 })
                 .unwrap_or_default();
-            super::outln!("  night {}{lost}{used}", v.night);
+            super::outln!("  night {}{lost}{used}", vn);
         }
         // A done visit at its observed start (Visit::span), as `rung next`
         // and the UI show it.

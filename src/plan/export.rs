@@ -401,9 +401,14 @@ pub fn night_sheet(visits: &[Visit], site: &Site, night: NaiveDate, header: &str
     s.push_str("| start UTC | start local | end local | visit | target | kind | RA (ICRS) | Dec (ICRS) | exposure (band frames × s) | SNR | airmass | status | cautions |\n");
     s.push_str("| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |\n");
     let mut any = false;
-    // In the order of the times shown (a done visit where it was observed).
-    let mut on: Vec<&Visit> = visits.iter().filter(|v| v.night == night).collect();
+    // In the order of the times shown (a done visit where it was observed,
+    // on the night it was observed in: Visit::held_night).
+    let mut on: Vec<&Visit> = visits
+        .iter()
+        .filter(|v| v.held_night(site) == night)
+        .collect();
     on.sort_by(|a, b| Visit::by_span_start(a, b));
+    let cautioned = on.iter().any(|v| !v.cautions.is_empty());
     for v in on {
         any = true;
         let hm = |t: Instant| t.round_to_second().local(tz).format("%H:%M:%S").to_string();
@@ -429,10 +434,7 @@ pub fn night_sheet(visits: &[Visit], site: &Site, night: NaiveDate, header: &str
     if !any {
         s.push_str("| – | – | – | – | no visits this night | | | | | | | | |\n");
     }
-    if visits
-        .iter()
-        .any(|v| v.night == night && !v.cautions.is_empty())
-    {
+    if cautioned {
         s.push_str(
             "\n**SUN CAUTION** on some visits: the observatory's own safety rules prevail.\n",
         );

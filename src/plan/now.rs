@@ -300,10 +300,12 @@ pub fn queue(
                     .unwrap_or(std::cmp::Ordering::Equal)
             })
             .copied();
-        // The visit of it marked done tonight last, at its observed start.
+        // The visit of it marked done tonight last, at its observed start
+        // (observed tonight: Visit::held_night, whatever night it was
+        // planned for).
         let done_tonight = mine
             .iter()
-            .filter(|v| v.night == night_date && v.status == Status::Done)
+            .filter(|v| v.status == Status::Done && v.held_night(site) == night_date)
             .max_by(|a, b| Visit::by_span_start(a, b))
             .copied();
         let source = tonight_visit.or_else(|| {

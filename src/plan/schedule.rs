@@ -156,6 +156,17 @@ impl Visit {
         }
     }
 
+    /// The night a visit belongs to as shown and as held by a re-plan: for a
+    /// done visit with an observed time, the night its span's middle falls
+    /// in (a visit observed on another night than planned moves to it);
+    /// for any other, its planned night.
+    pub fn held_night(&self, site: &Site) -> NaiveDate {
+        match (self.status, self.observed) {
+            (Status::Done, Some(_)) => crate::astro::night::night_of(site, self.mid()),
+            _ => self.night,
+        }
+    }
+
     /// Visits in the order of their spans' starts (the order the views
     /// show them in; incomparable starts as equal).
     pub fn by_span_start(a: &Visit, b: &Visit) -> std::cmp::Ordering {
@@ -560,7 +571,14 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
     for v in &req.done {
         let mut v = v.clone();
         v.status = Status::Done;
-        if let Some(&i) = index.get(&v.night) {
+        // It holds its time on the night it was observed in
+        // (Visit::held_night), which is its planned night unless it was
+        // observed on another; one observed outside the range's nights
+        // keeps its planned night's place, as before.
+        if let Some(&i) = index
+            .get(&v.held_night(req.site))
+            .or_else(|| index.get(&v.night))
+        {
             slots[i].used_s += v.end.seconds_since(&v.start);
             fixed.push(Fixed {
                 // A done visit of a target no longer listed still occupies its time.
