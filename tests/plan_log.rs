@@ -745,4 +745,14 @@ fn a_visit_observed_on_another_night_is_shown_on_that_night() {
     let cell = format!("| {} |", v.id);
     assert!(sheet1.contains(&cell), "{sheet1}");
     assert!(!sheet2.contains(&cell), "{sheet2}");
+    // rung next on the first night (23:30 UTC, RUNG_NOW): done tonight.
+    let (nj, _) = rung(d, &["next", "--plan", "p.json", "--json"]);
+    let nj: serde_json::Value = serde_json::from_str(&nj).unwrap();
+    let row = nj["rows"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["target"] == v.target.as_str())
+        .unwrap();
+    assert_eq!(row["done_visit_id"], v.id.as_str(), "{row}");
 }
