@@ -329,18 +329,7 @@ fn a_visit_marked_done_early_shows_its_observed_time_on_every_surface() {
         .clone();
     let observed = v.start.add_seconds(-3600.0);
     let iso = observed.round_to_second().iso();
-    rung(
-        d,
-        &[
-            "plan",
-            "--load",
-            "p.json",
-            "--done",
-            &v.id,
-            "--observed",
-            &iso,
-        ],
-    );
+    mark_done(d, &v.id, &iso);
     let utc = rung::output::clock_hm(observed, &chrono_tz::UTC);
     let tz = rung::io::sites::resolve("pampa-lucero").unwrap().timezone;
     let local = rung::output::clock_hm(observed, &tz);
@@ -357,14 +346,7 @@ fn a_visit_marked_done_early_shows_its_observed_time_on_every_surface() {
         "{line}"
     );
     // rung plan --json: span_start is the observed start, start the planned one.
-    let (json, _) = rung(d, &["plan", "--load", "p.json", "--json"]);
-    let j: serde_json::Value = serde_json::from_str(&json).unwrap();
-    let jv = j["plan"]["visits"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .find(|x| x["id"] == v.id.as_str())
-        .unwrap();
+    let jv = json_visit(d, &v.id);
     assert_eq!(jv["status"], "done");
     assert_eq!(
         rung::astro::time::parse_instant(jv["span_start"].as_str().unwrap())
@@ -421,6 +403,42 @@ fn json_visit(dir: &Path, id: &str) -> serde_json::Value {
         .clone()
 }
 
+/// `rung plan --load p.json --done ID --observed AT` in `dir`; its stderr.
+fn mark_done(dir: &Path, id: &str, at: &str) -> String {
+    rung(
+        dir,
+        &["plan", "--load", "p.json", "--done", id, "--observed", at],
+    )
+    .1
+}
+
+/// `rung where --target TARGET --at AT --json` on the demo programme.
+fn where_json(dir: &Path, target: &str, at: &str) -> serde_json::Value {
+    let (w, _) = rung(
+        dir,
+        &[
+            "where",
+            "--targets",
+            DEMO,
+            "--target",
+            target,
+            "--at",
+            at,
+            "--json",
+        ],
+    );
+    serde_json::from_str(&w).unwrap()
+}
+
+/// A JSON array of strings.
+fn strings(v: &serde_json::Value) -> Vec<&str> {
+    v.as_array()
+        .unwrap()
+        .iter()
+        .map(|c| c.as_str().unwrap())
+        .collect()
+}
+
 /// A visit marked done 80 minutes after its planned start shows the airmass
 /// of the middle of the visit as observed, beside the time the views show
 /// (not the planned time's), the same as `rung where` at that instant (to
@@ -457,41 +475,21 @@ fn a_visit_marked_done_later_shows_the_airmass_of_its_observed_time() {
         .clone();
     let observed = v.start.add_seconds(shift_s);
     let iso = observed.iso();
-    let (_, err) = rung(
-        d,
-        &[
-            "plan",
-            "--load",
-            "p.json",
-            "--done",
-            &v.id,
-            "--observed",
-            &iso,
-        ],
-    );
+    let err = mark_done(d, &v.id, &iso);
     assert!(!err.contains("check the observed time"), "{err}");
     let jv = json_visit(d, &v.id);
     let got = jv["airmass"].as_f64().unwrap();
     let mid = v.mid().add_seconds(shift_s);
     // rung where at the observed middle (the command, as an observer runs it).
-    let (w, _) = rung(
+    // To the microsecond: the middle of an odd number of seconds
+    // falls on a half second.
+    let w = where_json(
         d,
-        &[
-            "where",
-            "--targets",
-            DEMO,
-            "--target",
-            &v.target,
-            "--at",
-            // To the microsecond: the middle of an odd number of seconds
-            // falls on a half second.
-            &mid.to_datetime()
-                .format("%Y-%m-%dT%H:%M:%S%.6fZ")
-                .to_string(),
-            "--json",
-        ],
+        &v.target,
+        &mid.to_datetime()
+            .format("%Y-%m-%dT%H:%M:%S%.6fZ")
+            .to_string(),
     );
-    let w: serde_json::Value = serde_json::from_str(&w).unwrap();
     let want = w["airmass"].as_f64().unwrap();
     assert!(
         (got - want).abs() < 1e-9 * want,
@@ -566,18 +564,7 @@ fn a_visit_marked_done_at_an_unlikely_time_says_so() {
         &rung::astro::frames::Context::exact(&site, mid).unwrap(),
         &place,
     );
-    let (_, err) = rung(
-        d,
-        &[
-            "plan",
-            "--load",
-            "p.json",
-            "--done",
-            &v.id,
-            "--observed",
-            &observed.iso(),
-        ],
-    );
+    let err = mark_done(d, &v.id, &observed.iso());
     let want = format!(
         "rung: note: at the middle of {} as observed ({}) '{}' is below the horizon (altitude {:.1}°), so its airmass stays the planned {:.2} and the Sun is up (altitude {:.1}°): check the observed time",
         v.id,
@@ -622,47 +609,13 @@ fn a_visit_marked_done_near_the_sun_carries_the_sun_caution() {
         })
         .expect("a day of the year the target stands near the Sun");
     let observed = noon(k).round_to_second();
-    rung(
-        d,
-        &[
-            "plan",
-            "--load",
-            "p.json",
-            "--done",
-            &v.id,
-            "--observed",
-            &observed.iso(),
-        ],
-    );
+    mark_done(d, &v.id, &observed.iso());
     let jv = json_visit(d, &v.id);
-    let cautions: Vec<&str> = jv["cautions"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .map(|c| c.as_str().unwrap())
-        .collect();
+    let cautions = strings(&jv["cautions"]);
     // rung where at the observed start names the same caution (the site's
     // limit, 45° by default, config/sites.toml).
-    let (w, _) = rung(
-        d,
-        &[
-            "where",
-            "--targets",
-            DEMO,
-            "--target",
-            &v.target,
-            "--at",
-            &observed.iso(),
-            "--json",
-        ],
-    );
-    let w: serde_json::Value = serde_json::from_str(&w).unwrap();
-    let want: Vec<&str> = w["cautions"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .map(|c| c.as_str().unwrap())
-        .collect();
+    let w = where_json(d, &v.target, &observed.iso());
+    let want = strings(&w["cautions"]);
     assert!(
         !want.is_empty() && want[0].starts_with("SUN CAUTION"),
         "{w}"
@@ -673,18 +626,7 @@ fn a_visit_marked_done_near_the_sun_carries_the_sun_caution() {
     // rounding edge between the start and the exact instant.
     assert_eq!(cautions[0], want[0]);
     // Marked again at its planned start: in the dark, no caution.
-    rung(
-        d,
-        &[
-            "plan",
-            "--load",
-            "p.json",
-            "--done",
-            &v.id,
-            "--observed",
-            &v.start.iso(),
-        ],
-    );
+    mark_done(d, &v.id, &v.start.iso());
     let jv = json_visit(d, &v.id);
     assert_eq!(jv["cautions"].as_array().unwrap().len(), 0, "{jv}");
 }
@@ -709,18 +651,7 @@ fn a_visit_observed_on_another_night_is_shown_on_that_night() {
     let (w, v) = (first("2026-12-01"), first("2026-12-02"));
     // Observed an hour after the first night's first visit starts.
     let observed = w.start.add_seconds(3600.0).round_to_second();
-    rung(
-        d,
-        &[
-            "plan",
-            "--load",
-            "p.json",
-            "--done",
-            &v.id,
-            "--observed",
-            &observed.iso(),
-        ],
-    );
+    mark_done(d, &v.id, &observed.iso());
     let (table, _) = rung(d, &["plan", "--load", "p.json"]);
     let night_of_line = |id: &str| -> String {
         let mut night = String::new();

@@ -227,6 +227,11 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
         None | Some("now") => now,
         Some(t) => rung::astro::time::parse_instant(t).context("--observed")?,
     };
+    let mark = rung::plan::schedule::DoneMark {
+        observed,
+        seeing_arcsec: a.seeing,
+        comment: a.comment.clone(),
+    };
     let marks = !a.lost_night.is_empty() || !a.done.is_empty() || !a.lost.is_empty() || a.replan;
     if let (Some(path), true) = (&plan_path, marks) {
         // A loaded plan: every mark goes to its observing log, then the plan
@@ -242,11 +247,6 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
             let d = parse_date(n).context("--lost-night")?;
             log::lose_night(path, &mut p, d, now).context("--lost-night")?;
         }
-        let mark = log::DoneMark {
-            observed,
-            seeing_arcsec: a.seeing,
-            comment: a.comment.clone(),
-        };
         for id in &a.done {
             let note =
                 log::mark_done(path, &mut p, id, &mark, &site, &targets, now).context("--done")?;
@@ -276,17 +276,14 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
             changed = true;
         }
         if !a.done.is_empty() {
-            p.mark(&a.done, Status::Done).context("--done")?;
-            for v in p.visits.iter_mut().filter(|v| a.done.contains(&v.id)) {
-                let place = v.place_in(&targets);
-                if let Some(n) = v
-                    .mark_done_at(&site, place.as_ref(), observed)
-                    .context("--done")?
-                {
+            for id in &a.done {
+                let note = p
+                    .visit_mut(id)
+                    .and_then(|v| v.mark_done(&mark, &site, &targets))
+                    .context("--done")?;
+                if let Some(n) = note {
                     eprintln!("rung: note: {n}");
                 }
-                v.seeing_arcsec = a.seeing;
-                v.comment = a.comment.clone();
             }
             changed = true;
         }

@@ -119,19 +119,33 @@ impl PlanFile {
         Ok(())
     }
 
+    /// The visit with id `id`; an unknown id is an error naming it.
+    pub fn visit(&self, id: &str) -> Result<&Visit> {
+        let i = self.visit_index(id)?;
+        Ok(&self.visits[i])
+    }
+
+    /// [`Self::visit`], to change it.
+    pub fn visit_mut(&mut self, id: &str) -> Result<&mut Visit> {
+        let i = self.visit_index(id)?;
+        Ok(&mut self.visits[i])
+    }
+
+    fn visit_index(&self, id: &str) -> Result<usize> {
+        self.visits
+            .iter()
+            .position(|v| v.id == id)
+            .ok_or_else(|| RungError::Unknown {
+                what: "visit".into(),
+                name: id.into(),
+                hint: "; visit ids look like NAME#N (see the plan's CSV or JSON)".into(),
+            })
+    }
+
     /// Mark visits done or lost by id; an unknown id is an error naming it.
     pub fn mark(&mut self, ids: &[String], status: Status) -> Result<()> {
         for id in ids {
-            let v = self
-                .visits
-                .iter_mut()
-                .find(|v| &v.id == id)
-                .ok_or_else(|| RungError::Unknown {
-                    what: "visit".into(),
-                    name: id.clone(),
-                    hint: "; visit ids look like NAME#N (see the plan's CSV or JSON)".into(),
-                })?;
-            v.status = status;
+            self.visit_mut(id)?.status = status;
         }
         Ok(())
     }

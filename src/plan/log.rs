@@ -397,22 +397,13 @@ pub fn start(plan_path: &Path, p: &mut PlanFile, now: Instant) -> Result<()> {
     Ok(())
 }
 
-/// How a visit was observed, as the observer marks it done.
-#[derive(Debug, Clone, PartialEq)]
-pub struct DoneMark {
-    /// When the visit started, as observed (UTC).
-    pub observed: Instant,
-    /// Seeing FWHM the observer noted, arcseconds.
-    pub seeing_arcsec: Option<f64>,
-    /// The observer's comment.
-    pub comment: Option<String>,
-}
+pub use crate::plan::schedule::DoneMark;
 
-/// Mark a visit done as `mark` says: its airmass and Sun caution become
-/// those of the visit as observed ([`Visit::mark_done_at`], the target's
-/// place from `targets`), then the mark is logged and the plan saved.
-/// Returns the note [`Visit::mark_done_at`] gives when the observed time
-/// looks like a slip (or the target's place is unknown).
+/// Mark a visit done as `mark` says ([`Visit::mark_done`]: its airmass and
+/// Sun caution become those of the visit as observed, the target's place
+/// from `targets`), then log the mark and save the plan. Returns the note
+/// [`Visit::mark_done`] gives when the observed time looks like a slip (or
+/// the target's place is unknown).
 pub fn mark_done(
     plan_path: &Path,
     p: &mut PlanFile,
@@ -422,30 +413,15 @@ pub fn mark_done(
     targets: &[Target],
     now: Instant,
 ) -> Result<Option<String>> {
-    if let Some(s) = mark.seeing_arcsec
-        && !(s.is_finite() && s > 0.0 && s <= 20.0)
-    {
-        return Err(RungError::invalid(
-            "seeing",
-            format!("{s} is not a seeing FWHM within (0, 20] arcseconds"),
-        ));
-    }
-    let mut v = find(p, id)?.clone();
-    let place = v.place_in(targets);
-    let note = v.mark_done_at(site, place.as_ref(), mark.observed)?;
-    v.seeing_arcsec = mark.seeing_arcsec;
-    v.comment = mark
-        .comment
-        .clone()
-        .map(|c| c.replace(['\n', '\r'], " "))
-        .filter(|c| !c.trim().is_empty());
+    let mut v = p.visit(id)?.clone();
+    let note = v.mark_done(mark, site, targets)?;
     record(plan_path, p, Event::Done(Box::new(v)), now)?;
     Ok(note)
 }
 
 /// Mark a visit lost: logged, then the plan saved.
 pub fn mark_lost(plan_path: &Path, p: &mut PlanFile, id: &str, now: Instant) -> Result<()> {
-    let mut v = find(p, id)?.clone();
+    let mut v = p.visit(id)?.clone();
     v.status = Status::Lost;
     record(plan_path, p, Event::Lost(Box::new(v)), now)
 }
@@ -494,17 +470,6 @@ pub fn replan(
     *p = copy;
     save_plan(plan_path, p)?;
     Ok(s)
-}
-
-fn find<'a>(p: &'a PlanFile, id: &str) -> Result<&'a Visit> {
-    p.visits
-        .iter()
-        .find(|v| v.id == id)
-        .ok_or_else(|| RungError::Unknown {
-            what: "visit".into(),
-            name: id.into(),
-            hint: "; visit ids look like NAME#N (see the plan's CSV or JSON)".into(),
-        })
 }
 
 fn record(plan_path: &Path, p: &mut PlanFile, event: Event, now: Instant) -> Result<()> {

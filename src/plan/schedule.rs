@@ -176,19 +176,48 @@ impl Visit {
             .unwrap_or(std::cmp::Ordering::Equal)
     }
 
-    /// Mark the visit done, observed from `observed` (its start), with the
-    /// airmass at the middle of the span it then occupies ([`Visit::span`])
-    /// for `place` (the target's), through the frame of the night that
+    /// Mark the visit done as `mark` says: observed from `mark.observed`
+    /// (its start), with the airmass at the middle of the span it then
+    /// occupies ([`Visit::span`]) for its target's place
+    /// ([`Visit::place_in`] `targets`), through the frame of the night that
     /// middle falls in, and the Sun caution of that span, as the scheduler
     /// gives a placed visit's at its placed time: the time a view shows and
-    /// the airmass and caution beside it are of the same instants. Returns
-    /// a note for the observer when the time looks like a slip: the target
-    /// below the horizon at that middle (its airmass then stays as planned)
-    /// or the Sun above it. With no place known (an old plan file's visit of
-    /// a target no longer listed) the airmass and cautions stay as planned,
-    /// with a note. Errors: the site has no night for that instant (outside
-    /// the ephemeris span).
-    pub fn mark_done_at(
+    /// the airmass and caution beside it are of the same instants; then the
+    /// seeing and the comment (on one line). Returns a note for the
+    /// observer when the time looks like a slip: the target below the
+    /// horizon at that middle (its airmass then stays as planned) or the
+    /// Sun above it. With no place known (an old plan file's visit of a
+    /// target no longer listed) the airmass and cautions stay as planned,
+    /// with a note. Errors, the visit unchanged: a seeing outside (0, 20]
+    /// arcseconds; no night for that instant (outside the ephemeris span).
+    pub fn mark_done(
+        &mut self,
+        mark: &DoneMark,
+        site: &Site,
+        targets: &[Target],
+    ) -> Result<Option<String>> {
+        if let Some(s) = mark.seeing_arcsec
+            && !(s.is_finite() && s > 0.0 && s <= 20.0)
+        {
+            return Err(RungError::invalid(
+                "seeing",
+                format!("{s} is not a seeing FWHM within (0, 20] arcseconds"),
+            ));
+        }
+        let mut v = self.clone();
+        let note = v.observed_at(site, v.place_in(targets).as_ref(), mark.observed)?;
+        v.seeing_arcsec = mark.seeing_arcsec;
+        v.comment = mark
+            .comment
+            .as_ref()
+            .map(|c| c.replace(['\n', '\r'], " "))
+            .filter(|c| !c.trim().is_empty());
+        *self = v;
+        Ok(note)
+    }
+
+    /// [`Visit::mark_done`]'s status, time, airmass and cautions.
+    fn observed_at(
         &mut self,
         site: &Site,
         place: Option<&crate::astro::frames::CatalogPlace>,
@@ -208,12 +237,6 @@ impl Visit {
         let ctx = night.context(mid);
         let alt_deg = ctx.observe(place).alt_rad.to_degrees();
         let sun_alt_deg = ctx.sun().alt_geom_rad.to_degrees();
-        let at = format!(
-            "at the middle of {} as observed ({})",
-            self.id,
-            mid.round_to_second().iso()
-        );
-        // Its cautions too are those of the span as observed.
         let (start, end) = self.span();
         self.cautions = span_cautions(site, &night, place, [start, mid, end]);
         let mut slips = Vec::new();
@@ -227,8 +250,14 @@ impl Visit {
         if sun_alt_deg > 0.0 {
             slips.push(format!("the Sun is up (altitude {sun_alt_deg:.1}°)"));
         }
-        Ok((!slips.is_empty())
-            .then(|| format!("{at} {}: check the observed time", slips.join(" and "))))
+        Ok((!slips.is_empty()).then(|| {
+            format!(
+                "at the middle of {} as observed ({}) {}: check the observed time",
+                self.id,
+                mid.round_to_second().iso(),
+                slips.join(" and ")
+            )
+        }))
     }
 
     /// The visit's target's place: the listed target's (its space motion
@@ -261,6 +290,18 @@ impl Visit {
             exposures: self.exposures.clone(),
         }
     }
+}
+
+/// How a visit was observed, as the observer marks it done
+/// ([`Visit::mark_done`]).
+#[derive(Debug, Clone, PartialEq)]
+pub struct DoneMark {
+    /// When the visit started, as observed (UTC).
+    pub observed: Instant,
+    /// Seeing FWHM the observer noted, arcseconds.
+    pub seeing_arcsec: Option<f64>,
+    /// The observer's comment.
+    pub comment: Option<String>,
 }
 
 /// A visit's cautions on `night` at its start, middle and end: the Sun
