@@ -122,6 +122,7 @@ fn replanned_visits_never_reuse_an_id() {
         observed: None,
         seeing_arcsec: None,
         comment: None,
+        snr_measured: Default::default(),
     };
     let mut p = plan_for(&ts);
     p.visits = vec![

@@ -157,6 +157,8 @@ fn the_mark_prompt_and_its_confirmation_name_the_start_taken() {
             id: v.id.clone(),
             seeing_arcsec: Some(1.2),
             comment: None,
+            // "snr=42" typed (rung::tui::update::done_typed): the primary band's.
+            snr_measured: vec![(None, 42.0)],
         },
     });
     let note = d.note.unwrap();
@@ -175,6 +177,10 @@ fn the_mark_prompt_and_its_confirmation_name_the_start_taken() {
         .find(|x| x.id == v.id)
         .unwrap();
     assert_eq!((done.status, done.observed), (Status::Done, Some(now)));
+    assert_eq!(
+        done.snr_measured.into_iter().collect::<Vec<_>>(),
+        vec![(v.exposures[0].band.clone(), 42.0)]
+    );
     let mid = now.add_seconds(v.end.seconds_since(&v.start) / 2.0);
     let t = targets.iter().find(|t| t.name == v.target).unwrap();
     let ctx = rung::astro::frames::Context::exact(&st.site, mid).unwrap();

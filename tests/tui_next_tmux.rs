@@ -95,7 +95,7 @@ fn mark_done_replan_and_quit_then_a_kill_during_a_mark() {
     let Some(t) = ui(d) else { return };
     select(&t, rank);
     t.send("D");
-    t.wait_for("seeing and comment");
+    t.wait_for("snr= and comment");
     t.send("1.1 clear and steady");
     t.send("Enter");
     t.wait_for(&format!("{id} done"));
@@ -126,7 +126,7 @@ fn mark_done_replan_and_quit_then_a_kill_during_a_mark() {
     let Some(t) = ui(d) else { return };
     select(&t, rank);
     t.send("D");
-    t.wait_for("seeing and comment");
+    t.wait_for("snr= and comment");
     t.send("Enter");
     if let Some(pid) = t.rung_pid() {
         let _ = Command::new("kill").args(["-9", &pid]).status();

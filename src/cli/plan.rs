@@ -48,6 +48,9 @@ pub struct PlanArgs {
     /// A comment for the visits given to --done
     #[arg(long)]
     pub comment: Option<String>,
+    /// The signal-to-noise measured on the visits given to --done: 62 (their primary band) or BAND=SNR,... (B=55,V=70); the outcomes take it in place of the expected one
+    #[arg(long, allow_hyphen_values = true)]
+    pub snr: Option<String>,
     /// Rebuild the plan from its observing log (LOG, the plan.log.csv written beside a saved plan) and save it with --save
     #[arg(long)]
     pub rebuild: Option<PathBuf>,
@@ -227,10 +230,27 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
         None | Some("now") => now,
         Some(t) => rung::astro::time::parse_instant(t).context("--observed")?,
     };
+    if a.done.is_empty() {
+        for (given, flag) in [
+            (a.observed.is_some(), "--observed"),
+            (a.seeing.is_some(), "--seeing"),
+            (a.comment.is_some(), "--comment"),
+            (a.snr.is_some(), "--snr"),
+        ] {
+            if given {
+                anyhow::bail!("{flag} describes the visits given to --done: give --done ID too");
+            }
+        }
+    }
+    let snr_measured = match a.snr.as_deref() {
+        None => Vec::new(),
+        Some(t) => rung::plan::schedule::parse_snr_measured(t).context("--snr")?,
+    };
     let mark = rung::plan::schedule::DoneMark {
         observed,
         seeing_arcsec: a.seeing,
         comment: a.comment.clone(),
+        snr_measured,
     };
     let marks = !a.lost_night.is_empty() || !a.done.is_empty() || !a.lost.is_empty() || a.replan;
     if let (Some(path), true) = (&plan_path, marks) {

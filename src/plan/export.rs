@@ -40,6 +40,7 @@ pub fn visits_csv(visits: &[Visit], site: &Site) -> String {
             "seeing_arcsec",
             "comment",
             "exposures",
+            "snr_measured",
         ],
         visits.iter().map(|v| {
             vec![
@@ -67,6 +68,11 @@ pub fn visits_csv(visits: &[Visit], site: &Site) -> String {
                 csv_num(v.seeing_arcsec, 2),
                 v.comment.clone().unwrap_or_default(),
                 exposure_text(v),
+                v.snr_measured
+                    .iter()
+                    .map(|(b, s)| format!("{b}={}", csv_num(*s, 1)))
+                    .collect::<Vec<_>>()
+                    .join(";"),
             ]
         }),
     )
@@ -134,6 +140,29 @@ pub fn exposure_text(v: &Visit) -> String {
         })
         .collect::<Vec<_>>()
         .join(", ")
+}
+
+/// A visit's signal-to-noise as the sheet and the calendar show it: the
+/// expected one, and for a done visit the measured one(s) the methods take
+/// ([`Visit::epoch`]) beside the expected of the same bands: "62 measured
+/// (80 expected)", "B 55, V 70 measured (B 60, V 80 expected)".
+pub fn snr_text(v: &Visit) -> String {
+    let Some(measured) = v.measured_text() else {
+        return num(v.snr, 0);
+    };
+    let expected = if !v.measured_primary_only() {
+        v.snr_measured
+            .keys()
+            .map(|b| {
+                let e = v.exposures.iter().find(|x| &x.band == b).map(|x| x.snr);
+                format!("{b} {}", num(e, 0))
+            })
+            .collect::<Vec<_>>()
+            .join(", ")
+    } else {
+        num(v.snr, 0)
+    };
+    format!("{measured} measured ({expected} expected)")
 }
 
 fn place_text(v: &Visit) -> String {
@@ -358,11 +387,11 @@ pub fn ics(visits: &[Visit], site: &Site, stamp: Instant) -> String {
             ))
         )));
         let mut d = format!(
-            "Visit {}. RA/Dec (ICRS) {}. {}; SNR {:.0}, airmass {:.2}, {} (UTC {} to {}).",
+            "Visit {}. RA/Dec (ICRS) {}. {}; SNR {}, airmass {:.2}, {} (UTC {} to {}).",
             v.id,
             place_text(v),
             exposure_text(v),
-            v.snr,
+            snr_text(v),
             v.airmass,
             status_str(v.status),
             start.iso(),
@@ -425,7 +454,7 @@ pub fn night_sheet(visits: &[Visit], site: &Site, night: NaiveDate, header: &str
             v.ra_deg.map(ra_hms).unwrap_or_else(|| "–".into()),
             v.dec_deg.map(dec_dms).unwrap_or_else(|| "–".into()),
             md_cell(&exposure_text(v)),
-            num(v.snr, 0),
+            snr_text(v),
             num(v.airmass, 2),
             status_str(v.status),
             md_cell(&v.cautions.join("; ")),

@@ -451,6 +451,11 @@ pub fn parse(text: &str, path: &Path) -> Result<PlanFile> {
                 ),
             ));
         }
+        for (band, snr) in &v.snr_measured {
+            if let Some(why) = crate::bounds::SNR.why_not(*snr) {
+                return Err(of("snr_measured", format!("band '{band}': {why}")));
+            }
+        }
         if !(v.airmass.is_finite() && (1.0..=100.0).contains(&v.airmass)) {
             return Err(of(
                 "airmass",

@@ -52,14 +52,18 @@ use serde::Serialize;
 
 /// "visit ID done at HH:MM UTC (HH:MM local)": a done visit at its observed
 /// start ([`Visit::span`]), as the queue's reasons, `rung next` and the Now
-/// view say it.
+/// view say it; with ", S/N 62 measured" when the observer gave one
+/// ([`Visit::measured_text`]).
 pub fn done_words(v: &Visit, tz: &chrono_tz::Tz) -> String {
     let t = v.span().0;
     format!(
-        "visit {} done at {} UTC ({} local)",
+        "visit {} done at {} UTC ({} local){}",
         v.id,
         crate::output::clock_hm(t, &chrono_tz::UTC),
-        crate::output::clock_hm(t, tz)
+        crate::output::clock_hm(t, tz),
+        v.measured_text()
+            .map(|m| format!(", S/N {m} measured"))
+            .unwrap_or_default()
     )
 }
 
@@ -350,7 +354,9 @@ pub fn queue(
         if let Some(m) = settings.method(t.kind) {
             // The epoch a visit tonight gives: the planned visit's, else now.
             let at = tonight_visit.map_or(now, |v| v.mid());
-            let tpl = source.map_or_else(|| placeholder_epoch(at), |v| v.epoch());
+            // The exposure a visit tonight would take: as expected (a done
+            // visit's measured signal-to-noise was of that visit alone).
+            let tpl = source.map_or_else(|| placeholder_epoch(at), |v| v.expected_epoch());
             let tonight_e = Epoch {
                 time: at,
                 ..tpl.clone()

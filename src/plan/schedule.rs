@@ -134,6 +134,12 @@ pub struct Visit {
     /// The observer's comment.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub comment: Option<String>,
+    /// The signal-to-noise the observer measured on a done visit, by band
+    /// (absent when none was given): the methods take it in place of the
+    /// expected `snr` (the primary band's) and of the bands' own in
+    /// `exposures` ([`Visit::epoch`]).
+    #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
+    pub snr_measured: BTreeMap<String, f64>,
 }
 
 impl Visit {
@@ -207,6 +213,7 @@ impl Visit {
         let mut v = self.clone();
         let note = v.observed_at(site, v.place_in(targets).as_ref(), mark.observed)?;
         v.seeing_arcsec = mark.seeing_arcsec;
+        v.snr_measured = v.measured_by_band(&mark.snr_measured, targets)?;
         v.comment = mark
             .comment
             .as_ref()
@@ -278,8 +285,25 @@ impl Visit {
 
     /// The visit as an epoch for a method's prediction, at its
     /// [`Visit::mid`]: a done visit where it was observed (its phase, its
-    /// parallax factor), any other as planned.
+    /// parallax factor) and with the signal-to-noise measured on it where
+    /// the observer gave one (`snr_measured`, band by band), any other as
+    /// planned.
     pub fn epoch(&self) -> Epoch {
+        let mut e = self.expected_epoch();
+        if let Some(s) = self.primary_band().and_then(|b| self.snr_measured.get(b)) {
+            e.snr = *s;
+        }
+        for b in &mut e.exposures {
+            if let Some(s) = self.snr_measured.get(&b.band) {
+                b.snr = *s;
+            }
+        }
+        e
+    }
+
+    /// [`Visit::epoch`] with the expected signal-to-noise whatever was
+    /// measured: the pattern of another visit of the same target.
+    pub fn expected_epoch(&self) -> Epoch {
         Epoch {
             time: self.mid(),
             exptime_s: self.exptime_s,
@@ -290,6 +314,138 @@ impl Visit {
             exposures: self.exposures.clone(),
         }
     }
+
+    /// The band `snr` is of: the first of `exposures`; for a visit without
+    /// them (a plan file written before bands were recorded), the one band
+    /// a measured signal-to-noise was given for.
+    fn primary_band(&self) -> Option<&str> {
+        match self.exposures.first() {
+            Some(b) => Some(b.band.as_str()),
+            None if self.snr_measured.len() == 1 => {
+                self.snr_measured.keys().next().map(|k| k.as_str())
+            }
+            None => None,
+        }
+    }
+
+    /// The measured signal-to-noise as text, when the observer gave one:
+    /// "62" when it is the primary band's alone, else band by band
+    /// ("B 55, V 70"), whole numbers.
+    pub fn measured_text(&self) -> Option<String> {
+        match self.snr_measured.len() {
+            0 => None,
+            _ if self.measured_primary_only() => self
+                .snr_measured
+                .values()
+                .next()
+                .map(|s| crate::output::num(*s, 0)),
+            _ => Some(
+                self.snr_measured
+                    .iter()
+                    .map(|(b, s)| format!("{b} {}", crate::output::num(*s, 0)))
+                    .collect::<Vec<_>>()
+                    .join(", "),
+            ),
+        }
+    }
+
+    /// Whether the measured signal-to-noise is the primary band's alone.
+    pub fn measured_primary_only(&self) -> bool {
+        self.snr_measured.len() == 1
+            && self
+                .primary_band()
+                .is_some_and(|p| self.snr_measured.contains_key(p))
+    }
+
+    /// The bands this visit exposes in: its `exposures`', else its target's
+    /// band (from `targets`).
+    fn bands_in(&self, targets: &[Target]) -> Vec<String> {
+        if self.exposures.is_empty() {
+            targets
+                .iter()
+                .find(|t| t.name == self.target)
+                .map(|t| vec![t.band.clone()])
+                .unwrap_or_default()
+        } else {
+            self.exposures.iter().map(|b| b.band.clone()).collect()
+        }
+    }
+
+    /// A measured signal-to-noise as given ([`parse_snr_measured`]) by band:
+    /// a value without a band is the primary band's. Errors: a value outside
+    /// [`crate::bounds::SNR`], a band the visit does not expose in, a band
+    /// given twice.
+    fn measured_by_band(
+        &self,
+        given: &[(Option<String>, f64)],
+        targets: &[Target],
+    ) -> Result<BTreeMap<String, f64>> {
+        let bands = self.bands_in(targets);
+        let mut out = BTreeMap::new();
+        for (band, snr) in given {
+            if let Some(why) = crate::bounds::SNR.why_not(*snr) {
+                return Err(RungError::invalid(
+                    "snr",
+                    format!("measured signal-to-noise of {}: {why}", self.id),
+                ));
+            }
+            let band = match band {
+                Some(b) if bands.contains(b) => b.clone(),
+                Some(b) => {
+                    return Err(RungError::invalid(
+                        "snr",
+                        format!(
+                            "{} exposes in {}, not in '{b}'",
+                            self.id,
+                            if bands.is_empty() {
+                                "no band known".to_string()
+                            } else {
+                                bands.join(", ")
+                            }
+                        ),
+                    ));
+                }
+                None => bands.first().cloned().ok_or_else(|| {
+                    RungError::invalid(
+                        "snr",
+                        format!(
+                            "the band of {} is not known (its target is not listed): give BAND=SNR",
+                            self.id
+                        ),
+                    )
+                })?,
+            };
+            if out.insert(band.clone(), *snr).is_some() {
+                return Err(RungError::invalid(
+                    "snr",
+                    format!("band '{band}' is given twice"),
+                ));
+            }
+        }
+        Ok(out)
+    }
+}
+
+/// A measured signal-to-noise as the observer types it: `62` (the visit's
+/// primary band) or `B=55,V=70` (band by band; a bare value among them is
+/// the primary band's). Errors name the part that is not a number.
+pub fn parse_snr_measured(text: &str) -> Result<Vec<(Option<String>, f64)>> {
+    let mut out = Vec::new();
+    for part in text.split(',').map(str::trim) {
+        let (band, value) = match part.split_once('=') {
+            Some((b, v)) if !b.trim().is_empty() => (Some(b.trim().to_string()), v.trim()),
+            Some(_) => (None, ""),
+            None => (None, part),
+        };
+        let snr: f64 = value.parse().map_err(|_| {
+            RungError::invalid(
+                "snr",
+                format!("'{part}' is not a signal-to-noise (give 62, or BAND=SNR such as V=62, comma-separated)"),
+            )
+        })?;
+        out.push((band, snr));
+    }
+    Ok(out)
 }
 
 /// How a visit was observed, as the observer marks it done
@@ -302,6 +458,9 @@ pub struct DoneMark {
     pub seeing_arcsec: Option<f64>,
     /// The observer's comment.
     pub comment: Option<String>,
+    /// The signal-to-noise the observer measured ([`parse_snr_measured`]):
+    /// none, the primary band's, or band by band.
+    pub snr_measured: Vec<(Option<String>, f64)>,
 }
 
 /// A visit's cautions on `night` at its start, middle and end: the Sun
@@ -1093,6 +1252,7 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
             observed: None,
             seeing_arcsec: None,
             comment: None,
+            snr_measured: BTreeMap::new(),
         });
     }
     // Ids: NAME#n with the smallest n not yet used by the target, in time order.

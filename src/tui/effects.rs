@@ -1001,11 +1001,13 @@ pub fn next_data(job: &crate::tui::msg::NextJob) -> crate::tui::state::NextData 
                         id,
                         seeing_arcsec,
                         comment,
+                        snr_measured,
                     } => {
                         let mark = log::DoneMark {
                             observed: job.now,
                             seeing_arcsec: *seeing_arcsec,
                             comment: comment.clone(),
+                            snr_measured: snr_measured.clone(),
                         };
                         let aside = log::mark_done(
                             path,

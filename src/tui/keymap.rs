@@ -35,7 +35,7 @@ pub enum Action {
     ShowBudget,
     /// The Next view (what to observe now).
     ShowNext,
-    /// Next view: mark the selected visit done (then type seeing and a comment).
+    /// Next view: mark the selected visit done (then type seeing, measured signal-to-noise and a comment).
     MarkDone,
     /// Next view: mark the selected visit lost.
     MarkLost,

@@ -92,6 +92,8 @@ pub enum NextOp {
         seeing_arcsec: Option<f64>,
         /// Comment.
         comment: Option<String>,
+        /// Measured signal-to-noise, as `rung plan --snr` takes it.
+        snr_measured: Vec<(Option<String>, f64)>,
     },
     /// Mark a visit lost.
     Lost(String),

@@ -229,18 +229,45 @@ fn selected_visit(s: &State) -> Option<String> {
         .clone()
 }
 
-/// Seeing and comment typed as one line: a first word that is a number is
-/// the seeing in arcseconds, the rest the comment ("1.2 thin cirrus").
-pub fn seeing_and_comment(text: &str) -> (Option<f64>, Option<String>) {
+/// What the observer typed when marking a visit done, as one line.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DoneTyped {
+    /// Seeing FWHM, arcseconds.
+    pub seeing_arcsec: Option<f64>,
+    /// Comment.
+    pub comment: Option<String>,
+    /// Measured signal-to-noise (`rung plan --snr`'s forms).
+    pub snr_measured: Vec<(Option<String>, f64)>,
+}
+
+/// Seeing, measured signal-to-noise and comment typed as one line: a first
+/// word that is a number is the seeing in arcseconds, a word `snr=…` the
+/// signal-to-noise measured (what `rung plan --snr` takes: `snr=62`,
+/// `snr=B=55,V=70`), the rest the comment ("1.2 snr=62 thin cirrus").
+/// Errors: an `snr=` word that is not a signal-to-noise.
+pub fn done_typed(text: &str) -> crate::error::Result<DoneTyped> {
     let t = text.trim();
     let (first, rest) = t.split_once(' ').unwrap_or((t, ""));
-    match first.trim_end_matches('"').parse::<f64>() {
-        Ok(x) if x.is_finite() => (
-            Some(x),
-            Some(rest.trim().to_string()).filter(|c| !c.is_empty()),
-        ),
-        _ => (None, Some(t.to_string()).filter(|c| !c.is_empty())),
+    let (seeing_arcsec, rest) = match first.trim_end_matches('"').parse::<f64>() {
+        Ok(x) if x.is_finite() => (Some(x), rest),
+        _ => (None, t),
+    };
+    let mut snr_measured = Vec::new();
+    let mut words = Vec::new();
+    for w in rest.split_whitespace() {
+        match w.get(..4) {
+            Some(p) if p.eq_ignore_ascii_case("snr=") => {
+                snr_measured.extend(crate::plan::schedule::parse_snr_measured(&w[4..])?);
+            }
+            _ => words.push(w),
+        }
     }
+    let comment = Some(words.join(" ")).filter(|c| !c.is_empty());
+    Ok(DoneTyped {
+        seeing_arcsec,
+        comment,
+        snr_measured,
+    })
 }
 
 /// Ask for what the current view is missing: season rows, or the method report.
@@ -1178,14 +1205,22 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
                     }
                     KeyCode::Enter => {
                         let (id, text) = (id.clone(), text.clone());
-                        let (seeing_arcsec, comment) = seeing_and_comment(&text);
+                        let typed = match done_typed(&text) {
+                            Ok(x) => x,
+                            Err(e) => {
+                                // The prompt stays, with what was typed, to mend.
+                                say(s, e.to_string(), Level::Warn);
+                                return None;
+                            }
+                        };
                         s.next_prompt = None;
                         return Some(next_effect(
                             s,
                             NextOp::Done {
                                 id,
-                                seeing_arcsec,
-                                comment,
+                                seeing_arcsec: typed.seeing_arcsec,
+                                comment: typed.comment,
+                                snr_measured: typed.snr_measured,
                             },
                         ));
                     }

@@ -154,8 +154,10 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         );
     }
     let help = match &s.next_prompt {
+        // What is typed first, so that it stays on screen as it grows; the
+        // hint after it.
         Some((id, text)) => format!(
-            "{id} done: seeing and comment (\"1.2 thin cirrus\"), Enter to mark, Esc: {text}▏"
+            "{id} done › {text}▏  seeing, snr= and comment (\"1.2 snr=80 cirrus\"), Enter, Esc"
         ),
         None => "D done · B lost · N rest of night lost · R re-plan · ↑↓ select".into(),
     };
