@@ -687,3 +687,89 @@ fn a_visit_observed_on_another_night_is_shown_on_that_night() {
         .unwrap();
     assert_eq!(row["done_visit_id"], v.id.as_str(), "{row}");
 }
+
+/// `--now T` is the present a re-plan and a mark are made at: the re-plan
+/// is the one made with the clock at T (`RUNG_NOW=T`), its log row holds T
+/// as the re-plan's clock and the real clock as the time it was written; a
+/// visit marked done without --observed starts at T. Without --replan or
+/// --done it has nothing to apply to and is refused, as is a date that is
+/// not one, with the plan file unchanged.
+#[test]
+fn now_is_the_present_of_a_replan_and_a_mark() {
+    let at = "2026-12-02T03:00:00Z";
+    let a = tempfile::tempdir().unwrap();
+    let b = tempfile::tempdir().unwrap();
+    make_plan(a.path());
+    make_plan(b.path());
+    rung(
+        a.path(),
+        &["plan", "--load", "p.json", "--replan", "--now", at],
+    );
+    let o = Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args(["plan", "--load", "p.json", "--replan"])
+        .current_dir(b.path())
+        .env("RUNG_CONFIG_DIR", b.path())
+        .env("RUNG_NOW", at)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let pa = file::load(&a.path().join("p.json")).unwrap();
+    let pb = file::load(&b.path().join("p.json")).unwrap();
+    assert_eq!(pa.visits, pb.visits);
+    assert!(pa.visits.iter().any(|v| v.status == Status::Lost));
+    let rows = log::read(&log::log_path(&a.path().join("p.json"))).unwrap();
+    let last = rows.last().unwrap();
+    assert_eq!(last.logged.iso(), NOW);
+    match &last.event {
+        Event::Replan { at: t, .. } => assert_eq!(t.iso(), at),
+        e => panic!("{e:?}"),
+    }
+    // A mark without --observed takes --now as the visit's start.
+    let id = pa
+        .visits
+        .iter()
+        .find(|v| v.status == Status::Planned)
+        .unwrap()
+        .id
+        .clone();
+    let later = "2026-12-04T04:00:00Z";
+    rung(
+        a.path(),
+        &["plan", "--load", "p.json", "--done", &id, "--now", later],
+    );
+    let v = file::load(&a.path().join("p.json")).unwrap();
+    assert_eq!(
+        v.visit(&id).unwrap().observed.map(|t| t.iso()).as_deref(),
+        Some(later)
+    );
+    // Refused, the plan file unchanged.
+    let before = std::fs::read(a.path().join("p.json")).unwrap();
+    for (args, why) in [
+        (
+            vec!["plan", "--load", "p.json", "--now", at],
+            "--now is the present a re-plan or a mark is made at: give --replan or --done ID too",
+        ),
+        (
+            vec![
+                "plan",
+                "--load",
+                "p.json",
+                "--replan",
+                "--now",
+                "2026-12-32T00:00:00Z",
+            ],
+            "--now: ",
+        ),
+    ] {
+        let o = Command::new(env!("CARGO_BIN_EXE_rung"))
+            .args(&args)
+            .current_dir(a.path())
+            .env("RUNG_CONFIG_DIR", a.path())
+            .env("RUNG_NOW", NOW)
+            .output()
+            .unwrap();
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert!(!o.status.success() && err.contains(why), "{args:?}: {err}");
+        assert_eq!(std::fs::read(a.path().join("p.json")).unwrap(), before);
+    }
+}

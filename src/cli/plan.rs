@@ -39,7 +39,7 @@ pub struct PlanArgs {
     /// Mark a visit as lost by id (repeatable).
     #[arg(long)]
     pub lost: Vec<String>,
-    /// When the visits given to --done started, as observed, ISO 8601 (default: the clock when marking); a re-plan holds each from that start for its planned length and spaces the target's later visits from it
+    /// When the visits given to --done started, as observed, ISO 8601 (default: --now, else the clock when marking); a re-plan holds each from that start for its planned length and spaces the target's later visits from it
     #[arg(long = "observed")]
     pub observed: Option<String>,
     /// Seeing FWHM noted for the visits given to --done, arcseconds
@@ -54,9 +54,12 @@ pub struct PlanArgs {
     /// Rebuild the plan from its observing log (LOG, the plan.log.csv written beside a saved plan) and save it with --save
     #[arg(long)]
     pub rebuild: Option<PathBuf>,
-    /// Place again everything that is not done (keeps done visits, skips lost nights, places nothing before the clock: RUNG_NOW or now).
+    /// Place again everything that is not done (keeps done visits, skips lost nights, places nothing before --now, else the clock: RUNG_NOW or now).
     #[arg(long)]
     pub replan: bool,
+    /// The present instant, ISO 8601 or 'now' (default: the clock, RUNG_NOW or now): --replan places nothing before it and --done without --observed takes it as the visit's start (the observing log still records when each mark was written)
+    #[arg(long)]
+    pub now: Option<String>,
     /// Last night the methods plan for, YYYY-MM-DD, on or after --to, when a plan is made or rebuilt (default: the programme's own last night when --to ends earlier: its settings file's, else 36 months after --from; their epochs after --to are counted in the outcomes as planned).
     #[arg(long)]
     pub horizon_to: Option<String>,
@@ -225,7 +228,13 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
     };
     let site = st.site.clone();
     let mut changed = a.load.is_none();
-    let now = super::now()?;
+    // The clock marks are logged at; the present the plan is marked and
+    // re-planned at (--now, else the clock).
+    let clock = super::now()?;
+    let now = match a.now.as_deref().map(str::trim) {
+        None | Some("now") => clock,
+        Some(t) => rung::astro::time::parse_instant(t).context("--now")?,
+    };
     let observed = match a.observed.as_deref() {
         None | Some("now") => now,
         Some(t) => rung::astro::time::parse_instant(t).context("--observed")?,
@@ -241,6 +250,11 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
                 anyhow::bail!("{flag} describes the visits given to --done: give --done ID too");
             }
         }
+    }
+    if a.now.is_some() && !a.replan && a.done.is_empty() {
+        anyhow::bail!(
+            "--now is the present a re-plan or a mark is made at: give --replan or --done ID too"
+        );
     }
     let snr_measured = match a.snr.as_deref() {
         None => Vec::new(),
@@ -265,23 +279,23 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
         use rung::plan::log;
         for n in &a.lost_night {
             let d = parse_date(n).context("--lost-night")?;
-            log::lose_night(path, &mut p, d, now).context("--lost-night")?;
+            log::lose_night(path, &mut p, d, clock).context("--lost-night")?;
         }
         for id in &a.done {
-            let note =
-                log::mark_done(path, &mut p, id, &mark, &site, &targets, now).context("--done")?;
+            let note = log::mark_done(path, &mut p, id, &mark, &site, &targets, clock)
+                .context("--done")?;
             if let Some(n) = note {
                 eprintln!("rung: note: {n}");
             }
         }
         for id in &a.lost {
-            log::mark_lost(path, &mut p, id, now).context("--lost")?;
+            log::mark_lost(path, &mut p, id, clock).context("--lost")?;
         }
         if a.replan {
             if a.hours_per_night.is_some() {
                 p.hours_per_night = a.hours_per_night.unwrap_or(p.hours_per_night);
             }
-            let s = log::replan(path, &mut p, &st, &targets, now)?;
+            let s = log::replan(path, &mut p, &st, &targets, now, clock)?;
             report_unplaced(&s);
             sched = Some(s);
         }

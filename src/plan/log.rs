@@ -446,22 +446,23 @@ pub fn lose_night(
     record(plan_path, p, Event::LostNight(night), now)
 }
 
-/// Re-plan at `now` (`PlanFile::replan`): logged, then the plan saved.
+/// Re-plan at `at` (`PlanFile::replan`): logged at `now`, then the plan saved.
 pub fn replan(
     plan_path: &Path,
     p: &mut PlanFile,
     settings: &Settings,
     targets: &[Target],
+    at: Instant,
     now: Instant,
 ) -> Result<Schedule> {
     let mut copy = p.clone();
-    let s = copy.replan(settings, targets, now, None, None)?;
+    let s = copy.replan(settings, targets, at, None, None)?;
     start(plan_path, p, now)?;
     let e = append(
         &log_path(plan_path),
         p,
         Event::Replan {
-            at: now,
+            at,
             hours_per_night: copy.hours_per_night,
         },
         now,

@@ -1038,7 +1038,7 @@ pub fn next_data(job: &crate::tui::msg::NextJob) -> crate::tui::state::NextData 
                         let mut ps = (**st).clone();
                         ps.from = p.from;
                         ps.to = p.to;
-                        let s = log::replan(path, &mut p, &ps, &job.targets, job.now)?;
+                        let s = log::replan(path, &mut p, &ps, &job.targets, job.now, job.now)?;
                         Some(format!(
                             "re-planned: {} visits ahead, {} epochs found no place",
                             s.visits
