@@ -299,7 +299,7 @@ fn a_bad_measured_snr_is_refused_and_the_plan_is_unchanged() {
         ("V=", "'V=' is not a signal-to-noise"),
         (
             "X=40",
-            &format!("{} exposes in {band}, not in 'X'", v.id) as &str,
+            &format!("{}: it exposes in {band}, not in 'X'", v.id) as &str,
         ),
         (
             &format!("{band}=40,{band}=50") as &str,
@@ -317,6 +317,48 @@ fn a_bad_measured_snr_is_refused_and_the_plan_is_unchanged() {
             "--snr {snr}"
         );
     }
+    // A value no method would take (V8): a field's pointing (its stars'
+    // are worked out star by star), a supernova's classification spectrum.
+    let f = first_of(&p, "field");
+    let err = refused(
+        d,
+        &["plan", "--load", "p.json", "--done", &f.id, "--snr", "40"],
+    );
+    assert!(
+        err.contains(&format!(
+            "{}: a field's stars each have their own signal-to-noise, which rung works out from the exposure star by star: a measured one is not taken (note it with --comment)",
+            f.id
+        )),
+        "{err}"
+    );
+    let t = first_of(&p, "transient");
+    let err = refused(
+        d,
+        &[
+            "plan",
+            "--load",
+            "p.json",
+            "--done",
+            &t.id,
+            "--snr",
+            "spectrum=20",
+        ],
+    );
+    let photometric: Vec<&str> = t
+        .exposures
+        .iter()
+        .map(|b| b.band.as_str())
+        .filter(|b| *b != "spectrum")
+        .collect();
+    assert!(
+        err.contains(&format!(
+            "{}: the signal-to-noise of its spectrum exposure does not enter the distance (those that do: {})",
+            t.id,
+            photometric.join(", ")
+        )),
+        "{err}"
+    );
+    assert_eq!(std::fs::read(d.join("p.json")).unwrap(), before);
     // The options of --done without it (V9: they used to be passed over).
     for (flag, value) in [
         ("--snr", "40"),

@@ -734,6 +734,30 @@ pub fn covered_nearest(done: &[Epoch], wanted: &[Epoch]) -> Vec<Option<String>> 
     out
 }
 
+/// Which of a visit's bands (`bands`, primary first) a method's prediction
+/// takes the signal-to-noise of from the visit itself ([`Epoch::snr`],
+/// [`BandExposure::snr`]), so that a value measured on a done visit in
+/// such a band changes the outcome: the primary band of a parallax star
+/// (its centroid error) and of a pulsator (its phase point); every band of
+/// a supernova but its classification spectrum (the light-curve points);
+/// none for a field (each star's is worked out from the exposure, star by
+/// star) or a plain target (no distance). Else the reason none is taken.
+pub fn bands_weighed(kind: Kind, bands: &[String]) -> std::result::Result<Vec<String>, String> {
+    match kind {
+        Kind::Parallax | Kind::Pulsator => Ok(bands.iter().take(1).cloned().collect()),
+        Kind::Transient => Ok(bands
+            .iter()
+            .filter(|b| b.as_str() != transient::SPECTRUM_BAND)
+            .cloned()
+            .collect()),
+        Kind::Field => Err(
+            "a field's stars each have their own signal-to-noise, which rung works out from the exposure star by star"
+                .into(),
+        ),
+        Kind::Plain => Err("a plain target has no distance to take it".into()),
+    }
+}
+
 /// The distance goal of a target (percent): its own `goal_pct`, else the
 /// programme's `programme_goal_pct`, else its method's default, else none.
 /// The one rule: the budget, the scheduler and every view use it.

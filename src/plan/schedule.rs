@@ -373,53 +373,63 @@ impl Visit {
 
     /// A measured signal-to-noise as given ([`parse_snr_measured`]) by band:
     /// a value without a band is the primary band's. Errors: a value outside
-    /// [`crate::bounds::SNR`], a band the visit does not expose in, a band
-    /// given twice.
+    /// [`crate::bounds::SNR`], a band the visit does not expose in or whose
+    /// signal-to-noise its method does not take from the visit
+    /// ([`crate::ladder::bands_weighed`]: a field, a plain target, a
+    /// supernova's spectrum), a band given twice.
     fn measured_by_band(
         &self,
         given: &[(Option<String>, f64)],
         targets: &[Target],
     ) -> Result<BTreeMap<String, f64>> {
-        let bands = self.bands_in(targets);
         let mut out = BTreeMap::new();
-        for (band, snr) in given {
-            if let Some(why) = crate::bounds::SNR.why_not(*snr) {
-                return Err(RungError::invalid(
-                    "snr",
-                    format!("measured signal-to-noise of {}: {why}", self.id),
+        if given.is_empty() {
+            return Ok(out);
+        }
+        let bands = self.bands_in(targets);
+        let refuse = |why: String| Err(RungError::invalid("snr", format!("{}: {why}", self.id)));
+        let weighed = match crate::ladder::bands_weighed(self.kind, &bands) {
+            Ok(w) => w,
+            Err(why) => {
+                return refuse(format!(
+                    "{why}: a measured one is not taken (note it with --comment)"
                 ));
             }
+        };
+        for (band, snr) in given {
+            if let Some(why) = crate::bounds::SNR.why_not(*snr) {
+                return refuse(format!("measured signal-to-noise {why}"));
+            }
             let band = match band {
-                Some(b) if bands.contains(b) => b.clone(),
-                Some(b) => {
-                    return Err(RungError::invalid(
-                        "snr",
-                        format!(
-                            "{} exposes in {}, not in '{b}'",
-                            self.id,
-                            if bands.is_empty() {
-                                "no band known".to_string()
-                            } else {
-                                bands.join(", ")
-                            }
-                        ),
+                Some(b) if weighed.contains(b) => b.clone(),
+                Some(b) if bands.contains(b) => {
+                    return refuse(format!(
+                        "the signal-to-noise of its {b} exposure does not enter the distance (those that do: {})",
+                        weighed.join(", ")
                     ));
                 }
-                None => bands.first().cloned().ok_or_else(|| {
-                    RungError::invalid(
-                        "snr",
-                        format!(
-                            "the band of {} is not known (its target is not listed): give BAND=SNR",
-                            self.id
-                        ),
-                    )
-                })?,
+                Some(b) => {
+                    return refuse(format!(
+                        "it exposes in {}, not in '{b}'",
+                        if bands.is_empty() {
+                            "no band known".to_string()
+                        } else {
+                            bands.join(", ")
+                        }
+                    ));
+                }
+                None => match weighed.first() {
+                    Some(b) => b.clone(),
+                    None => {
+                        return refuse(
+                            "its band is not known (its target is not listed): give BAND=SNR"
+                                .into(),
+                        );
+                    }
+                },
             };
             if out.insert(band.clone(), *snr).is_some() {
-                return Err(RungError::invalid(
-                    "snr",
-                    format!("band '{band}' is given twice"),
-                ));
+                return refuse(format!("band '{band}' is given twice"));
             }
         }
         Ok(out)
