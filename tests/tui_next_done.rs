@@ -195,3 +195,73 @@ fn the_mark_prompt_and_its_confirmation_name_the_start_taken() {
         v.airmass
     );
 }
+
+/// A slip typed when marking done (a signal-to-noise for a band no method
+/// takes, a word that is not a number, a seeing out of range) is refused at
+/// Enter with the reason, and the prompt stays with what was typed, to mend
+/// (tests/plan_snr.rs has the same refusals from `rung plan --done`).
+#[test]
+fn a_slip_in_the_mark_prompt_keeps_the_prompt() {
+    let mut s = demo_state((80, 24));
+    let st = s.settings.clone();
+    let targets = demo_targets();
+    let mut st2 = (*st).clone();
+    st2.from = "2026-12-01".parse().unwrap();
+    st2.to = "2026-12-02".parse().unwrap();
+    // The methods plan to the end of 2027, so that every kind has a visit.
+    let mut req = rung::plan::schedule::Request::programme(&st2, &targets, 8.0);
+    req.horizon_to = "2027-12-31".parse().unwrap();
+    let sch = rung::plan::schedule::schedule(&req).unwrap();
+    let plan = rung::plan::file::PlanFile::new(&st2, &targets, "demo".into(), 8.0, sch.visits);
+    let now = test_now();
+    let q = rung::plan::now::queue(&st, &targets, Some(&plan), now).unwrap();
+    s.now = now;
+    s.view = View::Next;
+    s.next = Some(NextData {
+        at: now,
+        queue: Ok(q),
+        plan: Some(plan.clone()),
+        note: None,
+    });
+    let of = |kind: &str| {
+        plan.visits
+            .iter()
+            .find(|v| v.kind.as_str() == kind && v.status == Status::Planned)
+            .unwrap_or_else(|| panic!("no {kind} visit"))
+            .id
+            .clone()
+    };
+    for (id, text, why) in [
+        (
+            of("transient"),
+            "1.1 snr=spectrum=20 cirrus",
+            "the signal-to-noise of its spectrum exposure does not enter the distance",
+        ),
+        (
+            of("field"),
+            "snr=40",
+            "a field's stars each have their own signal-to-noise",
+        ),
+        (
+            of("pulsator"),
+            "1.0 snr=lots",
+            "'lots' is not a signal-to-noise",
+        ),
+        (
+            of("pulsator"),
+            "25 haze",
+            "25 is not a seeing FWHM within (0, 20] arcseconds",
+        ),
+    ] {
+        s.next_prompt = Some((id.clone(), String::new()));
+        typed(&mut s, text);
+        key(&mut s, crossterm::event::KeyCode::Enter);
+        assert_eq!(
+            s.next_prompt,
+            Some((id.clone(), text.to_string())),
+            "{text}"
+        );
+        let said = s.message.as_ref().map(|m| m.0.clone()).unwrap_or_default();
+        assert!(said.contains(why), "{text}: {said}");
+    }
+}

@@ -202,6 +202,25 @@ impl Visit {
         site: &Site,
         targets: &[Target],
     ) -> Result<Option<String>> {
+        let snr_measured = self.check_mark(mark, targets)?;
+        let mut v = self.clone();
+        let note = v.observed_at(site, v.place_in(targets).as_ref(), mark.observed)?;
+        v.seeing_arcsec = mark.seeing_arcsec;
+        v.snr_measured = snr_measured;
+        v.comment = mark
+            .comment
+            .as_ref()
+            .map(|c| c.replace(['\n', '\r'], " "))
+            .filter(|c| !c.trim().is_empty());
+        *self = v;
+        Ok(note)
+    }
+
+    /// What [`Visit::mark_done`] refuses of `mark` before it works anything
+    /// out (the UI asks it before it closes its prompt, so that a slip is
+    /// mended, not retyped): a seeing outside (0, 20] arcseconds, a measured
+    /// signal-to-noise it would not take. Returns the measured values by band.
+    pub fn check_mark(&self, mark: &DoneMark, targets: &[Target]) -> Result<BTreeMap<String, f64>> {
         if let Some(s) = mark.seeing_arcsec
             && !(s.is_finite() && s > 0.0 && s <= 20.0)
         {
@@ -210,17 +229,7 @@ impl Visit {
                 format!("{s} is not a seeing FWHM within (0, 20] arcseconds"),
             ));
         }
-        let mut v = self.clone();
-        let note = v.observed_at(site, v.place_in(targets).as_ref(), mark.observed)?;
-        v.seeing_arcsec = mark.seeing_arcsec;
-        v.snr_measured = v.measured_by_band(&mark.snr_measured, targets)?;
-        v.comment = mark
-            .comment
-            .as_ref()
-            .map(|c| c.replace(['\n', '\r'], " "))
-            .filter(|c| !c.trim().is_empty());
-        *self = v;
-        Ok(note)
+        self.measured_by_band(&mark.snr_measured, targets)
     }
 
     /// [`Visit::mark_done`]'s status, time, airmass and cautions.

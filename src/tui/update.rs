@@ -270,6 +270,27 @@ pub fn done_typed(text: &str) -> crate::error::Result<DoneTyped> {
     })
 }
 
+/// [`crate::plan::schedule::Visit::check_mark`] of what was typed for visit
+/// `id`, when the Next view holds its plan (else the mark's own refusal
+/// tells).
+fn check_typed(s: &State, id: &str, t: &DoneTyped) -> crate::error::Result<()> {
+    let visit = s
+        .next
+        .as_ref()
+        .and_then(|d| d.plan.as_ref())
+        .and_then(|p| p.visits.iter().find(|v| v.id == id));
+    let Some(v) = visit else {
+        return Ok(());
+    };
+    let mark = crate::plan::schedule::DoneMark {
+        observed: s.now,
+        seeing_arcsec: t.seeing_arcsec,
+        comment: t.comment.clone(),
+        snr_measured: t.snr_measured.clone(),
+    };
+    v.check_mark(&mark, &s.targets).map(|_| ())
+}
+
 /// Ask for what the current view is missing: season rows, or the method report.
 fn season_effect(s: &mut State) -> Option<Effect> {
     let a = season_rows_effect(s);
@@ -1205,10 +1226,15 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
                     }
                     KeyCode::Enter => {
                         let (id, text) = (id.clone(), text.clone());
-                        let typed = match done_typed(&text) {
+                        // A slip (a word that is not a signal-to-noise, a
+                        // band the visit would not take, a seeing out of
+                        // range) keeps the prompt, with what was typed, to
+                        // mend.
+                        let typed = match done_typed(&text)
+                            .and_then(|t| check_typed(s, &id, &t).map(|_| t))
+                        {
                             Ok(x) => x,
                             Err(e) => {
-                                // The prompt stays, with what was typed, to mend.
                                 say(s, e.to_string(), Level::Warn);
                                 return None;
                             }
