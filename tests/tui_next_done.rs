@@ -96,18 +96,8 @@ fn the_mark_prompt_and_its_confirmation_name_the_start_taken() {
     let cfg = tempfile::tempdir().unwrap();
     // SAFETY: set before any other thread of this test binary reads it.
     unsafe { std::env::set_var("RUNG_CONFIG_DIR", cfg.path()) };
-    let mut s = demo_state((80, 24));
-    let st = s.settings.clone();
-    let targets = demo_targets();
-    let mut st2 = (*st).clone();
-    st2.from = "2026-12-01".parse().unwrap();
-    st2.to = "2026-12-02".parse().unwrap();
-    let sch = rung::plan::schedule::schedule(&rung::plan::schedule::Request::programme(
-        &st2, &targets, 8.0,
-    ))
-    .unwrap();
-    let plan = rung::plan::file::PlanFile::new(&st2, &targets, "demo".into(), 8.0, sch.visits);
-    let now = test_now(); // 01:00 UTC, 22:00 local (the demo site's zone, UTC-3)
+    let (mut s, plan) = next_view_with_plan(None);
+    let (st, targets, now) = (s.settings.clone(), demo_targets(), s.now);
     let v = plan
         .visits
         .iter()
@@ -115,15 +105,6 @@ fn the_mark_prompt_and_its_confirmation_name_the_start_taken() {
         .min_by(|a, b| a.start.partial_cmp(&b.start).unwrap())
         .expect("a visit tonight")
         .clone();
-    let q = rung::plan::now::queue(&st, &targets, Some(&plan), now).unwrap();
-    s.now = now;
-    s.view = View::Next;
-    s.next = Some(NextData {
-        at: now,
-        queue: Ok(q),
-        plan: Some(plan.clone()),
-        note: None,
-    });
     s.next_prompt = Some((v.id.clone(), "1.2 thin".into()));
     let (rows, _) = screen(&s, 80, 24);
     let tz = &st.site.timezone;
@@ -202,27 +183,8 @@ fn the_mark_prompt_and_its_confirmation_name_the_start_taken() {
 /// (tests/plan_snr.rs has the same refusals from `rung plan --done`).
 #[test]
 fn a_slip_in_the_mark_prompt_keeps_the_prompt() {
-    let mut s = demo_state((80, 24));
-    let st = s.settings.clone();
-    let targets = demo_targets();
-    let mut st2 = (*st).clone();
-    st2.from = "2026-12-01".parse().unwrap();
-    st2.to = "2026-12-02".parse().unwrap();
     // The methods plan to the end of 2027, so that every kind has a visit.
-    let mut req = rung::plan::schedule::Request::programme(&st2, &targets, 8.0);
-    req.horizon_to = "2027-12-31".parse().unwrap();
-    let sch = rung::plan::schedule::schedule(&req).unwrap();
-    let plan = rung::plan::file::PlanFile::new(&st2, &targets, "demo".into(), 8.0, sch.visits);
-    let now = test_now();
-    let q = rung::plan::now::queue(&st, &targets, Some(&plan), now).unwrap();
-    s.now = now;
-    s.view = View::Next;
-    s.next = Some(NextData {
-        at: now,
-        queue: Ok(q),
-        plan: Some(plan.clone()),
-        note: None,
-    });
+    let (mut s, plan) = next_view_with_plan(Some("2027-12-31"));
     let of = |kind: &str| {
         plan.visits
             .iter()
@@ -264,4 +226,36 @@ fn a_slip_in_the_mark_prompt_keeps_the_prompt() {
         let said = s.message.as_ref().map(|m| m.0.clone()).unwrap_or_default();
         assert!(said.contains(why), "{text}: {said}");
     }
+}
+
+/// The demo state at 80×24 in the Next view at `test_now()` (01:00 UTC,
+/// 22:00 local: the demo site's zone is UTC-3) with a plan of the nights of
+/// 2026-12-01 and 02 (its methods planning to `horizon_to` when given), the
+/// queue ranked with it.
+fn next_view_with_plan(
+    horizon_to: Option<&str>,
+) -> (rung::tui::state::State, rung::plan::file::PlanFile) {
+    let mut s = demo_state((80, 24));
+    let st = s.settings.clone();
+    let targets = demo_targets();
+    let mut st2 = (*st).clone();
+    st2.from = "2026-12-01".parse().unwrap();
+    st2.to = "2026-12-02".parse().unwrap();
+    let mut req = rung::plan::schedule::Request::programme(&st2, &targets, 8.0);
+    if let Some(h) = horizon_to {
+        req.horizon_to = h.parse().unwrap();
+    }
+    let sch = rung::plan::schedule::schedule(&req).unwrap();
+    let plan = rung::plan::file::PlanFile::new(&st2, &targets, "demo".into(), 8.0, sch.visits);
+    let now = test_now();
+    let q = rung::plan::now::queue(&st, &targets, Some(&plan), now).unwrap();
+    s.now = now;
+    s.view = View::Next;
+    s.next = Some(NextData {
+        at: now,
+        queue: Ok(q),
+        plan: Some(plan.clone()),
+        note: None,
+    });
+    (s, plan)
 }
