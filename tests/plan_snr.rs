@@ -173,6 +173,16 @@ fn a_measured_snr_is_what_the_outcome_takes() {
             pct(&plain)
         );
         assert_eq!(v_low["snr_measured"][&key].as_f64(), Some(expected / 4.0));
+        // The outcome says which done visits weigh a measured value.
+        let said = |o: &serde_json::Value| {
+            o["notes"].as_array().unwrap().iter().any(|n| {
+                n.as_str().unwrap().starts_with(&format!(
+                    "with the signal-to-noise measured on {} S/N ",
+                    v.id
+                ))
+            })
+        };
+        assert!(said(&o_low) && said(&o_same) && !said(&plain), "{o_low}");
     }
 }
 

@@ -1366,6 +1366,18 @@ pub fn schedule(req: &Request) -> Result<Schedule> {
                     .map(|v| v.epoch())
                     .collect();
                 epochs.extend(later_e.iter().cloned());
+                // Which done visits weigh what was measured (Visit::epoch).
+                let measured: Vec<String> = mine
+                    .iter()
+                    .filter(|v| v.status == Status::Done)
+                    .filter_map(|v| v.measured_text().map(|m| format!("{} S/N {m}", v.id)))
+                    .collect();
+                if !measured.is_empty() {
+                    notes.push(format!(
+                        "with the signal-to-noise measured on {}",
+                        measured.join(", ")
+                    ));
+                }
                 let judged = with_goal(t, goal);
                 let setting = Setting {
                     site: req.site,
