@@ -227,6 +227,12 @@ fn a_measured_snr_is_kept_in_the_log_and_shown_in_every_export() {
     for (k, b) in e.exposures.iter().enumerate().skip(2) {
         assert_eq!(b.snr, v.exposures[k].snr, "{}", b.band);
     }
+    // Only while the visit is done (a visit marked lost afterwards, or a
+    // hand-edited planned one, is as expected).
+    let mut lost = sv.clone();
+    lost.status = Status::Lost;
+    assert_eq!(lost.epoch(), sv.expected_epoch());
+    assert_ne!(sv.epoch(), sv.expected_epoch());
 
     // Rebuilt from the log alone.
     ok(

@@ -135,9 +135,9 @@ pub struct Visit {
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub comment: Option<String>,
     /// The signal-to-noise the observer measured on a done visit, by band
-    /// (absent when none was given): the methods take it in place of the
-    /// expected `snr` (the primary band's) and of the bands' own in
-    /// `exposures` ([`Visit::epoch`]).
+    /// (absent when none was given): while the visit is done, the methods
+    /// take it in place of the expected `snr` (the primary band's) and of
+    /// the bands' own in `exposures` ([`Visit::epoch`]).
     #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
     pub snr_measured: BTreeMap<String, f64>,
 }
@@ -299,6 +299,9 @@ impl Visit {
     /// planned.
     pub fn epoch(&self) -> Epoch {
         let mut e = self.expected_epoch();
+        if self.status != Status::Done {
+            return e;
+        }
         if let Some(s) = self.primary_band().and_then(|b| self.snr_measured.get(b)) {
             e.snr = *s;
         }
