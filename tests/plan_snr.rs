@@ -294,6 +294,24 @@ fn a_measured_snr_is_kept_in_the_log_and_shown_in_every_export() {
     );
     let said = format!("S/N {} 12, {} 40 measured", bands[0], bands[1]);
     assert!(next.contains(&said), "{said}\n{next}");
+
+    // Marked done again without --snr: the new mark replaces the old one
+    // whole (README: "Marking a visit done again replaces everything").
+    ok(
+        d,
+        &[
+            "plan",
+            "--load",
+            "p.json",
+            "--done",
+            &v.id,
+            "--observed",
+            &start,
+        ],
+    );
+    let again = file::load(&d.join("p.json")).unwrap();
+    let av = again.visits.iter().find(|x| x.id == v.id).unwrap();
+    assert!(av.snr_measured.is_empty() && av.seeing_arcsec.is_none());
 }
 
 /// Bad measured values are refused with the reason, and the plan file stays
