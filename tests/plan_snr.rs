@@ -432,6 +432,19 @@ fn a_plan_file_with_a_bad_measured_snr_names_file_field_and_visit() {
             && err.contains("-5 is not within (0, 10000]"),
         "{err}"
     );
+    // A band the visit did not expose in (it would weigh nothing).
+    for x in j["visits"].as_array_mut().unwrap() {
+        if x["id"] == v.id.as_str() {
+            x["snr_measured"] = serde_json::json!({ "X": 40.0 });
+        }
+    }
+    std::fs::write(d.join("bad.json"), serde_json::to_vec(&j).unwrap()).unwrap();
+    let err = file::load(&d.join("bad.json")).unwrap_err().to_string();
+    let want = format!(
+        "field 'snr_measured': visit '{}': band 'X': it exposes in {}",
+        v.id, v.exposures[0].band
+    );
+    assert!(err.contains("bad.json") && err.contains(&want), "{err}");
 }
 
 /// The UI's line typed when marking done: the seeing first, `snr=` words

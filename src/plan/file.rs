@@ -455,6 +455,14 @@ pub fn parse(text: &str, path: &Path) -> Result<PlanFile> {
             if let Some(why) = crate::bounds::SNR.why_not(*snr) {
                 return Err(of("snr_measured", format!("band '{band}': {why}")));
             }
+            // A band the visit did not expose in would weigh nothing.
+            if !v.exposures.is_empty() && !v.exposures.iter().any(|b| &b.band == band) {
+                let bands: Vec<&str> = v.exposures.iter().map(|b| b.band.as_str()).collect();
+                return Err(of(
+                    "snr_measured",
+                    format!("band '{band}': it exposes in {}", bands.join(", ")),
+                ));
+            }
         }
         if !(v.airmass.is_finite() && (1.0..=100.0).contains(&v.airmass)) {
             return Err(of(
