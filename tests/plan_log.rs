@@ -197,6 +197,61 @@ fn a_bad_log_row_names_its_file_line_and_field() {
     assert!(e.contains("'dance' is not a log event"), "{e}");
 }
 
+/// A logged visit out of a plan file's bounds (a mark written by hand or by
+/// another program: a measured signal-to-noise of -5, an airmass of 0.5) is
+/// refused when the log is read, naming the log, its line and field, before
+/// a catch-up could save it into the plan (which its next load would then
+/// refuse, naming the plan file); the plan file keeps its bytes
+/// (docs/bad-input.md V13).
+#[test]
+fn a_logged_visit_out_of_bounds_is_named_in_the_log_and_never_saved() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let p = make_plan(d);
+    let path = d.join("p.json");
+    let before = std::fs::read(&path).unwrap();
+    let now = rung::astro::time::parse_instant(NOW).unwrap();
+    let mut v = p.visits[0].clone();
+    v.status = Status::Done;
+    let band = v.exposures[0].band.clone();
+    v.snr_measured.insert(band.clone(), -5.0);
+    log::append(
+        &log::log_path(&path),
+        &p,
+        Event::Done(Box::new(v.clone())),
+        now,
+    )
+    .unwrap();
+    let o = Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args(["plan", "--load", "p.json"])
+        .current_dir(d)
+        .env("RUNG_CONFIG_DIR", d)
+        .env("RUNG_NOW", NOW)
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    let want = format!(
+        "p.log.csv, line 3, field 'data': snr_measured: visit '{}': band '{band}': -5 is not within (0, 10000]",
+        v.id
+    );
+    assert!(!o.status.success() && err.contains(&want), "{err}");
+    assert_eq!(std::fs::read(&path).unwrap(), before);
+    // The same for a plain bound of a visit (its airmass).
+    let lp = log::log_path(&path);
+    let text = std::fs::read_to_string(&lp).unwrap();
+    let first_rows: String = text.lines().take(2).map(|l| format!("{l}\n")).collect();
+    std::fs::write(&lp, first_rows).unwrap();
+    v.snr_measured.clear();
+    v.airmass = 0.5;
+    log::append(&lp, &p, Event::Done(Box::new(v.clone())), now).unwrap();
+    let e = log::read(&lp).unwrap_err().to_string();
+    assert!(
+        e.contains("p.log.csv, line 3, field 'data': airmass: visit")
+            && e.contains("0.5 is not an airmass within 1..100"),
+        "{e}"
+    );
+}
+
 /// Every export of a saved plan carries what the observer needs at the
 /// telescope for each visit of the night: its id (what --done takes),
 /// RA/Dec, the band(s), the number of frames and the exposure; `rung next`

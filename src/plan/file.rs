@@ -402,79 +402,93 @@ pub fn parse(text: &str, path: &Path) -> Result<PlanFile> {
         if !seen.insert(v.id.clone()) {
             return Err(at("visits", format!("visit id '{id}' appears twice")));
         }
-        if v.end < v.start {
-            return Err(at("visits", format!("visit '{id}' ends before it starts")));
-        }
-        // A hand-edited visit is held to the same bounds as a planned one.
-        let of = |field: &str, why: String| at(field, format!("visit '{id}': {why}"));
-        if v.night < p.from || v.night > p.to {
-            return Err(of(
-                "night",
-                format!("{} is outside the plan's nights, {range}", v.night),
-            ));
-        }
-        // A night runs from local noon to local noon, so its visits lie within
-        // a day of the night's local midnight, wherever the site is.
-        let midnight = v
-            .night
-            .succ_opt()
-            .unwrap_or(v.night)
-            .and_time(chrono::NaiveTime::MIN);
-        for (field, t) in [("start", v.start), ("end", v.end)] {
-            let off_h = (t.to_datetime().naive_utc() - midnight).num_minutes() as f64 / 60.0;
-            if !(-26.0..=26.0).contains(&off_h) {
-                return Err(of(
-                    field,
-                    format!("{} is not in its night of {}", t.iso(), v.night),
-                ));
-            }
-        }
-        if let Some(why) = crate::bounds::EXPTIME_S.why_not(v.exptime_s) {
-            return Err(of("exptime_s", why));
-        }
-        if !(1..=crate::bounds::MAX_SUB_EXPOSURES).contains(&v.n_exposures) {
-            return Err(of(
-                "n_exposures",
-                format!(
-                    "{} is not within 1..{} sub-exposures",
-                    v.n_exposures,
-                    crate::bounds::MAX_SUB_EXPOSURES
-                ),
-            ));
-        }
-        if !(v.snr.is_finite() && v.snr > 0.0) {
-            return Err(of(
-                "snr",
-                format!(
-                    "{} is not a signal-to-noise (a positive number)",
-                    crate::bounds::show(v.snr)
-                ),
-            ));
-        }
-        for (band, snr) in &v.snr_measured {
-            if let Some(why) = crate::bounds::SNR.why_not(*snr) {
-                return Err(of("snr_measured", format!("band '{band}': {why}")));
-            }
-            // A band the visit did not expose in would weigh nothing.
-            if !v.exposures.is_empty() && !v.exposures.iter().any(|b| &b.band == band) {
-                let bands: Vec<&str> = v.exposures.iter().map(|b| b.band.as_str()).collect();
-                return Err(of(
-                    "snr_measured",
-                    format!("band '{band}': it exposes in {}", bands.join(", ")),
-                ));
-            }
-        }
-        if !(v.airmass.is_finite() && (1.0..=100.0).contains(&v.airmass)) {
-            return Err(of(
-                "airmass",
-                format!(
-                    "{} is not an airmass within 1..100",
-                    crate::bounds::show(v.airmass)
-                ),
-            ));
+        if let Some((field, why)) = check_visit(v, p.from, p.to) {
+            return Err(at(field, why));
         }
     }
     Ok(p)
+}
+
+/// The first bound a visit breaks, as (field, reason), for a plan of the
+/// nights `from` to `to`: a hand-edited visit, or one read back from an
+/// observing log, is held to the same bounds as a planned one.
+pub fn check_visit(
+    v: &crate::plan::schedule::Visit,
+    from: NaiveDate,
+    to: NaiveDate,
+) -> Option<(&'static str, String)> {
+    let id = crate::error::one_line_cut(&v.id, 60);
+    if v.end < v.start {
+        return Some(("visits", format!("visit '{id}' ends before it starts")));
+    }
+    let of = |field: &'static str, why: String| Some((field, format!("visit '{id}': {why}")));
+    if v.night < from || v.night > to {
+        return of(
+            "night",
+            format!("{} is outside the plan's nights, {from} to {to}", v.night),
+        );
+    }
+    // A night runs from local noon to local noon, so its visits lie within
+    // a day of the night's local midnight, wherever the site is.
+    let midnight = v
+        .night
+        .succ_opt()
+        .unwrap_or(v.night)
+        .and_time(chrono::NaiveTime::MIN);
+    for (field, t) in [("start", v.start), ("end", v.end)] {
+        let off_h = (t.to_datetime().naive_utc() - midnight).num_minutes() as f64 / 60.0;
+        if !(-26.0..=26.0).contains(&off_h) {
+            return of(
+                field,
+                format!("{} is not in its night of {}", t.iso(), v.night),
+            );
+        }
+    }
+    if let Some(why) = crate::bounds::EXPTIME_S.why_not(v.exptime_s) {
+        return of("exptime_s", why);
+    }
+    if !(1..=crate::bounds::MAX_SUB_EXPOSURES).contains(&v.n_exposures) {
+        return of(
+            "n_exposures",
+            format!(
+                "{} is not within 1..{} sub-exposures",
+                v.n_exposures,
+                crate::bounds::MAX_SUB_EXPOSURES
+            ),
+        );
+    }
+    if !(v.snr.is_finite() && v.snr > 0.0) {
+        return of(
+            "snr",
+            format!(
+                "{} is not a signal-to-noise (a positive number)",
+                crate::bounds::show(v.snr)
+            ),
+        );
+    }
+    for (band, snr) in &v.snr_measured {
+        if let Some(why) = crate::bounds::SNR.why_not(*snr) {
+            return of("snr_measured", format!("band '{band}': {why}"));
+        }
+        // A band the visit did not expose in would weigh nothing.
+        if !v.exposures.is_empty() && !v.exposures.iter().any(|b| &b.band == band) {
+            let bands: Vec<&str> = v.exposures.iter().map(|b| b.band.as_str()).collect();
+            return of(
+                "snr_measured",
+                format!("band '{band}': it exposes in {}", bands.join(", ")),
+            );
+        }
+    }
+    if !(v.airmass.is_finite() && (1.0..=100.0).contains(&v.airmass)) {
+        return of(
+            "airmass",
+            format!(
+                "{} is not an airmass within 1..100",
+                crate::bounds::show(v.airmass)
+            ),
+        );
+    }
+    None
 }
 
 /// Save atomically (temp file + fsync + rename).

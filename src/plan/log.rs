@@ -173,6 +173,8 @@ pub fn read(path: &Path) -> Result<Vec<Entry>> {
     };
     let mut out = Vec::new();
     let mut header = true;
+    // The plan's nights, from its settings row: what a visit row is checked against.
+    let mut range: Option<(NaiveDate, NaiveDate)> = None;
     let at = |line: usize, field: &str, msg: String| RungError::InFile {
         loc: Location {
             file: Some(path.to_path_buf()),
@@ -229,13 +231,24 @@ pub fn read(path: &Path) -> Result<Vec<Entry>> {
             serde_json::from_str(&f(9)).map_err(|e| at(line, field, format!("data: {e}")))
         };
         let event = match f(2).as_str() {
-            "plan" => Event::Plan(Box::new(
-                serde_json::from_value(json("data")?)
-                    .map_err(|e| at(line, "data", format!("plan settings: {e}")))?,
-            )),
+            "plan" => {
+                let head: PlanFile = serde_json::from_value(json("data")?)
+                    .map_err(|e| at(line, "data", format!("plan settings: {e}")))?;
+                range = Some((head.from, head.to));
+                Event::Plan(Box::new(head))
+            }
             k @ ("done" | "lost") => {
                 let v: Visit = serde_json::from_value(json("data")?)
                     .map_err(|e| at(line, "data", format!("visit: {e}")))?;
+                // Held to a plan file's bounds, so that a bad row is named
+                // here and never saved into the plan by a catch-up.
+                if let Some((field, why)) = crate::plan::file::check_visit(
+                    &v,
+                    range.map_or(v.night, |r| r.0),
+                    range.map_or(v.night, |r| r.1),
+                ) {
+                    return Err(at(line, "data", format!("{field}: {why}")));
+                }
                 if k == "done" {
                     Event::Done(Box::new(v))
                 } else {
