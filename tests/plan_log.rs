@@ -53,13 +53,7 @@ fn marks_go_to_the_log_and_the_plan_and_the_plan_rebuilds_from_the_log() {
     let dir = tempfile::tempdir().unwrap();
     let d = dir.path();
     let p = make_plan(d);
-    let first = p
-        .visits
-        .iter()
-        .find(|v| v.status == Status::Planned)
-        .unwrap()
-        .id
-        .clone();
+    let first = first_planned(&p);
     let second = p
         .visits
         .iter()
@@ -780,13 +774,7 @@ fn now_is_the_present_of_a_replan_and_a_mark() {
         e => panic!("{e:?}"),
     }
     // A mark without --observed takes --now as the visit's start.
-    let id = pa
-        .visits
-        .iter()
-        .find(|v| v.status == Status::Planned)
-        .unwrap()
-        .id
-        .clone();
+    let id = first_planned(&pa);
     let later = "2026-12-04T04:00:00Z";
     rung(
         a.path(),
@@ -827,4 +815,14 @@ fn now_is_the_present_of_a_replan_and_a_mark() {
         assert!(!o.status.success() && err.contains(why), "{args:?}: {err}");
         assert_eq!(std::fs::read(a.path().join("p.json")).unwrap(), before);
     }
+}
+
+/// The id of the plan's first planned visit.
+fn first_planned(p: &PlanFile) -> String {
+    p.visits
+        .iter()
+        .find(|v| v.status == Status::Planned)
+        .unwrap()
+        .id
+        .clone()
 }

@@ -77,6 +77,23 @@ fn first_of(p: &PlanFile, kind: &str) -> rung::plan::schedule::Visit {
         .clone()
 }
 
+/// `rung plan --load p.json --done ID --observed START [--snr SNR]` in `dir`.
+fn mark(dir: &Path, id: &str, start: &str, snr: Option<&str>) {
+    let mut args = vec![
+        "plan",
+        "--load",
+        "p.json",
+        "--done",
+        id,
+        "--observed",
+        start,
+    ];
+    if let Some(s) = snr {
+        args.extend(["--snr", s]);
+    }
+    ok(dir, &args);
+}
+
 /// A copy of `p.json` in its own folder with `id` marked done at its planned
 /// start (with `--snr SNR` when given), then re-planned: the target's
 /// outcome (`rung plan --json`) and the visit as saved.
@@ -90,19 +107,7 @@ fn done_and_replan(
     let d = dir.path();
     std::fs::copy(src.join("p.json"), d.join("p.json")).unwrap();
     std::fs::copy(src.join("p.log.csv"), d.join("p.log.csv")).unwrap();
-    let mut args = vec![
-        "plan",
-        "--load",
-        "p.json",
-        "--done",
-        id,
-        "--observed",
-        start,
-    ];
-    if let Some(s) = snr {
-        args.extend(["--snr", s]);
-    }
-    ok(d, &args);
+    mark(d, id, start, snr);
     let j: serde_json::Value =
         serde_json::from_str(&ok(d, &["plan", "--load", "p.json", "--replan", "--json"])).unwrap();
     let target = id.split('#').next().unwrap();
@@ -199,20 +204,7 @@ fn a_measured_snr_is_kept_in_the_log_and_shown_in_every_export() {
     assert!(bands.len() >= 2, "{bands:?}");
     let given = format!("{}=12.4,{}=40", bands[0], bands[1]);
     let start = v.start.iso();
-    ok(
-        d,
-        &[
-            "plan",
-            "--load",
-            "p.json",
-            "--done",
-            &v.id,
-            "--observed",
-            &start,
-            "--snr",
-            &given,
-        ],
-    );
+    mark(d, &v.id, &start, Some(&given));
     let saved = file::load(&d.join("p.json")).unwrap();
     let sv = saved.visits.iter().find(|x| x.id == v.id).unwrap();
     assert_eq!(sv.snr_measured.get(bands[0]), Some(&12.4));
@@ -297,18 +289,7 @@ fn a_measured_snr_is_kept_in_the_log_and_shown_in_every_export() {
 
     // Marked done again without --snr: the new mark replaces the old one
     // whole (README: "Marking a visit done again replaces everything").
-    ok(
-        d,
-        &[
-            "plan",
-            "--load",
-            "p.json",
-            "--done",
-            &v.id,
-            "--observed",
-            &start,
-        ],
-    );
+    mark(d, &v.id, &start, None);
     let again = file::load(&d.join("p.json")).unwrap();
     let av = again.visits.iter().find(|x| x.id == v.id).unwrap();
     assert!(av.snr_measured.is_empty() && av.seeing_arcsec.is_none());
