@@ -14,18 +14,9 @@ fn a_visit_marked_done_early_is_shown_at_its_observed_time() {
     let cfg = tempfile::tempdir().unwrap();
     // SAFETY: set before any other thread of this test binary reads it.
     unsafe { std::env::set_var("RUNG_CONFIG_DIR", cfg.path()) };
-    let mut s = demo_state((80, 24));
-    let st = s.settings.clone();
-    let targets = demo_targets();
-    let mut st2 = (*st).clone();
-    st2.from = "2026-12-01".parse().unwrap();
-    st2.to = "2026-12-02".parse().unwrap();
-    let sch = rung::plan::schedule::schedule(&rung::plan::schedule::Request::programme(
-        &st2, &targets, 8.0,
-    ))
-    .unwrap();
-    let mut plan = rung::plan::file::PlanFile::new(&st2, &targets, "demo".into(), 8.0, sch.visits);
-    let now = test_now(); // 01:00 UTC, 22:00 local
+    let (mut s, mut plan) = next_view_with_plan(None);
+    let (st, targets) = (s.settings.clone(), demo_targets());
+    let now = s.now; // 01:00 UTC, 22:00 local
     // Tonight's first visit planned after now of a target with no other
     // visit tonight, marked done an hour early.
     let tonight = |v: &rung::plan::schedule::Visit| v.night.to_string() == "2026-12-01";

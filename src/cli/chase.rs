@@ -208,10 +208,7 @@ pub fn run(a: Args) -> Result<()> {
         _ => None,
     };
     let clock = super::now()?;
-    let now = match a.now.as_deref().map(str::trim) {
-        None | Some("now") => clock,
-        Some(t) => parse_instant(t).context("--now")?,
-    };
+    let now = super::instant_or(a.now.as_deref(), clock, "--now")?;
     let disc = target
         .discovered
         .context("the target has no discovery time")?;

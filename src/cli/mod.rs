@@ -138,6 +138,22 @@ pub fn now() -> Result<rung::astro::time::Instant> {
     }
 }
 
+/// An instant option (`--at`, `--now`, `--observed`): absent or `now` is
+/// `default` (the clock, or an instant already taken from it), else the ISO
+/// 8601 instant given; a bad one is named by `flag`.
+pub fn instant_or(
+    arg: Option<&str>,
+    default: rung::astro::time::Instant,
+    flag: &str,
+) -> Result<rung::astro::time::Instant> {
+    match arg.map(str::trim) {
+        None => Ok(default),
+        Some(t) if t.eq_ignore_ascii_case("now") => Ok(default),
+        Some(t) => rung::astro::time::parse_instant(t)
+            .map_err(|e| anyhow::anyhow!(e).context(flag.to_string())),
+    }
+}
+
 /// The programme settings of a command, resolved once
 /// (`rung::programme::Settings::resolve`): the command line's `choices`, then
 /// the settings file of `programme` (its targets file), the user's

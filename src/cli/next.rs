@@ -1,7 +1,7 @@
 //! `rung next`: what to observe now, ranked (`rung::plan::now`), the same
 //! rows as the terminal UI's Next view.
 
-use anyhow::{Context as _, Result};
+use anyhow::Result;
 use std::path::PathBuf;
 
 /// Arguments of `rung next`.
@@ -52,10 +52,7 @@ pub fn run(a: Args) -> Result<()> {
         choices.instrument = p.instrument.clone();
     }
     let st = super::settings(choices, Some(&targets_path), &[])?;
-    let now = match a.at.as_deref() {
-        None | Some("now") => super::now()?,
-        Some(t) => rung::astro::time::parse_instant(t).context("--at")?,
-    };
+    let now = super::instant_or(a.at.as_deref(), super::now()?, "--at")?;
     let mut q = rung::plan::now::queue(&st, &targets, plan.as_ref(), now)?;
     if let Some(n) = a.rows {
         q.rows.truncate(n);

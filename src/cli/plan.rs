@@ -231,14 +231,8 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
     // The clock marks are logged at; the present the plan is marked and
     // re-planned at (--now, else the clock).
     let clock = super::now()?;
-    let now = match a.now.as_deref().map(str::trim) {
-        None | Some("now") => clock,
-        Some(t) => rung::astro::time::parse_instant(t).context("--now")?,
-    };
-    let observed = match a.observed.as_deref() {
-        None | Some("now") => now,
-        Some(t) => rung::astro::time::parse_instant(t).context("--observed")?,
-    };
+    let now = super::instant_or(a.now.as_deref(), clock, "--now")?;
+    let observed = super::instant_or(a.observed.as_deref(), now, "--observed")?;
     if a.done.is_empty() {
         for (given, flag) in [
             (a.observed.is_some(), "--observed"),

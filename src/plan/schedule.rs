@@ -280,16 +280,17 @@ impl Visit {
     /// too), else the ICRS place the plan file keeps with the visit (a
     /// fixed place), else none.
     pub fn place_in(&self, targets: &[Target]) -> Option<crate::astro::frames::CatalogPlace> {
-        targets
-            .iter()
-            .find(|t| t.name == self.target)
-            .map(|t| t.place())
-            .or_else(|| {
-                Some(crate::astro::frames::CatalogPlace::fixed_deg(
-                    self.ra_deg?,
-                    self.dec_deg?,
-                ))
-            })
+        self.target_in(targets).map(|t| t.place()).or_else(|| {
+            Some(crate::astro::frames::CatalogPlace::fixed_deg(
+                self.ra_deg?,
+                self.dec_deg?,
+            ))
+        })
+    }
+
+    /// The visit's target among `targets` (by name), if listed.
+    fn target_in<'t>(&self, targets: &'t [Target]) -> Option<&'t Target> {
+        targets.iter().find(|t| t.name == self.target)
     }
 
     /// The visit as an epoch for a method's prediction, at its
@@ -373,9 +374,7 @@ impl Visit {
     /// band (from `targets`).
     fn bands_in(&self, targets: &[Target]) -> Vec<String> {
         if self.exposures.is_empty() {
-            targets
-                .iter()
-                .find(|t| t.name == self.target)
+            self.target_in(targets)
                 .map(|t| vec![t.band.clone()])
                 .unwrap_or_default()
         } else {
