@@ -386,6 +386,8 @@ fn plan_files() {
         ("P22", bad("\"lost_nights\": []", "\"lost_nights\": [\"1970-01-01\"]"), "p.json, field 'lost_nights': 1970-01-01 is outside the plan's nights, 2026-03-01 to 2026-03-03".into()),
         ("P23", bad("\"end\": \"2026-03-02T01:10:00Z\"", "\"end\": \"2026-03-05T01:10:00Z\""), "p.json, field 'end': visit 'A#1': 2026-03-05T01:10:00Z is not in its night of 2026-03-01".into()),
         ("P24", bad("\"n_exposures\": 1", "\"n_exposures\": 0"), "p.json, field 'n_exposures': visit 'A#1': 0 is not within 1..10000 sub-exposures".into()),
+        // The seeing noted with a mark: the instruments' bound (bounds::SEEING_ARCSEC).
+        ("P25", bad("\"cautions\": []", "\"cautions\": [],\n      \"seeing_arcsec\": -3.0"), "p.json, field 'seeing_arcsec': visit 'A#1': -3 arcsec is not within (0, 30] arcsec: a star image is never a point, and beyond 30 arcsec nothing is measured".into()),
         ("V1", err(marked.mark(&["A#9".into()], rung::plan::schedule::Status::Done)), "unknown visit 'A#9'; visit ids look like NAME#N (see the plan's CSV or JSON)".into()),
     ] {
         check(id, got, want);

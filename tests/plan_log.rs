@@ -234,7 +234,7 @@ fn a_logged_visit_out_of_bounds_is_named_in_the_log_and_never_saved() {
     let lp = log::log_path(&path);
     let text = std::fs::read_to_string(&lp).unwrap();
     let first_rows: String = text.lines().take(2).map(|l| format!("{l}\n")).collect();
-    std::fs::write(&lp, first_rows).unwrap();
+    std::fs::write(&lp, &first_rows).unwrap();
     v.snr_measured.clear();
     v.airmass = 0.5;
     log::append(&lp, &p, Event::Done(Box::new(v.clone())), now).unwrap();
@@ -244,6 +244,31 @@ fn a_logged_visit_out_of_bounds_is_named_in_the_log_and_never_saved() {
             && e.contains("0.5 is not an airmass within 1..100"),
         "{e}"
     );
+    // And the seeing noted with the mark (a plan file's bound since the
+    // mark's own; it used to be applied and saved as it was).
+    std::fs::write(&lp, &first_rows).unwrap();
+    v.airmass = p.visits[0].airmass;
+    v.seeing_arcsec = Some(500.0);
+    log::append(&lp, &p, Event::Done(Box::new(v.clone())), now).unwrap();
+    let e = log::read(&lp).unwrap_err().to_string();
+    assert!(
+        e.contains("p.log.csv, line 3, field 'data': seeing_arcsec: visit")
+            && e.contains("500 arcsec is not within (0, 30] arcsec"),
+        "{e}"
+    );
+    let o = Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args(["plan", "--load", "p.json"])
+        .current_dir(d)
+        .env("RUNG_CONFIG_DIR", d)
+        .env("RUNG_NOW", NOW)
+        .output()
+        .unwrap();
+    assert!(
+        !o.status.success(),
+        "{}",
+        String::from_utf8_lossy(&o.stdout)
+    );
+    assert_eq!(std::fs::read(&path).unwrap(), before);
 }
 
 /// Every export of a saved plan carries what the observer needs at the

@@ -202,8 +202,8 @@ fn a_slip_in_the_mark_prompt_keeps_the_prompt() {
         ),
         (
             of("pulsator"),
-            "25 haze",
-            "25 is not a seeing FWHM within (0, 20] arcseconds",
+            "40 haze",
+            "40 arcsec is not within (0, 30] arcsec",
         ),
     ] {
         s.next_prompt = Some((id.clone(), String::new()));

@@ -479,6 +479,12 @@ pub fn check_visit(
             );
         }
     }
+    if let Some(why) = v
+        .seeing_arcsec
+        .and_then(|s| crate::bounds::SEEING_ARCSEC.why_not(s))
+    {
+        return of("seeing_arcsec", why);
+    }
     if !(v.airmass.is_finite() && (1.0..=100.0).contains(&v.airmass)) {
         return of(
             "airmass",

@@ -194,8 +194,9 @@ impl Visit {
     /// horizon at that middle (its airmass then stays as planned) or the
     /// Sun above it. With no place known (an old plan file's visit of a
     /// target no longer listed) the airmass and cautions stay as planned,
-    /// with a note. Errors, the visit unchanged: a seeing outside (0, 20]
-    /// arcseconds; no night for that instant (outside the ephemeris span).
+    /// with a note. Errors, the visit unchanged: a seeing outside the
+    /// instruments' bound ([`crate::bounds::SEEING_ARCSEC`], (0, 30]
+    /// arcseconds); no night for that instant (outside the ephemeris span).
     pub fn mark_done(
         &mut self,
         mark: &DoneMark,
@@ -218,16 +219,12 @@ impl Visit {
 
     /// What [`Visit::mark_done`] refuses of `mark` before it works anything
     /// out (the UI asks it before it closes its prompt, so that a slip is
-    /// mended, not retyped): a seeing outside (0, 20] arcseconds, a measured
+    /// mended, not retyped): a seeing outside the bound an instrument's
+    /// seeing has ([`crate::bounds::SEEING_ARCSEC`]), a measured
     /// signal-to-noise it would not take. Returns the measured values by band.
     pub fn check_mark(&self, mark: &DoneMark, targets: &[Target]) -> Result<BTreeMap<String, f64>> {
-        if let Some(s) = mark.seeing_arcsec
-            && !(s.is_finite() && s > 0.0 && s <= 20.0)
-        {
-            return Err(RungError::invalid(
-                "seeing",
-                format!("{s} is not a seeing FWHM within (0, 20] arcseconds"),
-            ));
+        if let Some(s) = mark.seeing_arcsec {
+            crate::bounds::SEEING_ARCSEC.check_as("seeing", s)?;
         }
         self.measured_by_band(&mark.snr_measured, targets)
     }
