@@ -388,6 +388,13 @@ fn plan_files() {
         ("P24", bad("\"n_exposures\": 1", "\"n_exposures\": 0"), "p.json, field 'n_exposures': visit 'A#1': 0 is not within 1..10000 sub-exposures".into()),
         // The seeing noted with a mark: the instruments' bound (bounds::SEEING_ARCSEC).
         ("P25", bad("\"cautions\": []", "\"cautions\": [],\n      \"seeing_arcsec\": -3.0"), "p.json, field 'seeing_arcsec': visit 'A#1': -3 arcsec is not within (0, 30] arcsec: a star image is never a point, and beyond 30 arcsec nothing is measured".into()),
+        // A band's own exposure (the sheet and the CSV show it) and the
+        // place kept for a target no longer listed.
+        ("P26", bad("\"cautions\": []", "\"cautions\": [],\n      \"exposures\": [{\"band\": \"V\", \"exptime_s\": 60.0, \"n_exposures\": 1, \"snr\": -5.0}]"), "p.json, field 'exposures': visit 'A#1': band 'V': snr -5 is not a signal-to-noise (a positive number)".into()),
+        ("P27", bad("\"cautions\": []", "\"cautions\": [],\n      \"exposures\": [{\"band\": \"V\", \"exptime_s\": 60.0, \"n_exposures\": 0, \"snr\": 100.0}]"), "p.json, field 'exposures': visit 'A#1': band 'V': n_exposures 0 is not within 1..10000 sub-exposures".into()),
+        ("P28", bad("\"cautions\": []", "\"cautions\": [],\n      \"exposures\": [{\"band\": \" \", \"exptime_s\": 60.0, \"n_exposures\": 1, \"snr\": 100.0}]"), "p.json, field 'exposures': visit 'A#1': an exposure without a band".into()),
+        ("P29", bad("\"cautions\": []", "\"cautions\": [],\n      \"ra_deg\": 400.0,\n      \"dec_deg\": -20.0"), "p.json, field 'ra_deg': visit 'A#1': 400 is not a right ascension within 0..360 degrees".into()),
+        ("P30", bad("\"cautions\": []", "\"cautions\": [],\n      \"ra_deg\": 10.0,\n      \"dec_deg\": -95.0"), "p.json, field 'dec_deg': visit 'A#1': -95 is not a declination within -90..90 degrees".into()),
         ("V1", err(marked.mark(&["A#9".into()], rung::plan::schedule::Status::Done)), "unknown visit 'A#9'; visit ids look like NAME#N (see the plan's CSV or JSON)".into()),
     ] {
         check(id, got, want);

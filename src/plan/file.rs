@@ -479,6 +479,54 @@ pub fn check_visit(
             );
         }
     }
+    for b in &v.exposures {
+        let band = crate::error::one_line_cut(&b.band, 20);
+        let why = if b.band.trim().is_empty() {
+            Some("an exposure without a band".to_string())
+        } else if let Some(why) = crate::bounds::EXPTIME_S.why_not(b.exptime_s) {
+            Some(format!("band '{band}': exptime_s {why}"))
+        } else if !(1..=crate::bounds::MAX_SUB_EXPOSURES).contains(&b.n_exposures) {
+            Some(format!(
+                "band '{band}': n_exposures {} is not within 1..{} sub-exposures",
+                b.n_exposures,
+                crate::bounds::MAX_SUB_EXPOSURES
+            ))
+        } else if !(b.snr.is_finite() && b.snr > 0.0) {
+            Some(format!(
+                "band '{band}': snr {} is not a signal-to-noise (a positive number)",
+                crate::bounds::show(b.snr)
+            ))
+        } else {
+            None
+        };
+        if let Some(why) = why {
+            return of("exposures", why);
+        }
+    }
+    // The place kept for a target no longer listed (the views and a
+    // re-plan observe it there).
+    if let Some(ra) = v.ra_deg
+        && !(ra.is_finite() && (0.0..360.0).contains(&ra))
+    {
+        return of(
+            "ra_deg",
+            format!(
+                "{} is not a right ascension within 0..360 degrees",
+                crate::bounds::show(ra)
+            ),
+        );
+    }
+    if let Some(dec) = v.dec_deg
+        && !(dec.is_finite() && (-90.0..=90.0).contains(&dec))
+    {
+        return of(
+            "dec_deg",
+            format!(
+                "{} is not a declination within -90..90 degrees",
+                crate::bounds::show(dec)
+            ),
+        );
+    }
     if let Some(why) = v
         .seeing_arcsec
         .and_then(|s| crate::bounds::SEEING_ARCSEC.why_not(s))
