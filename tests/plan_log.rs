@@ -27,6 +27,11 @@ fn rung(dir: &Path, args: &[&str]) -> (String, String) {
 
 /// A three-night plan of the demo programme saved in `dir` (its log started).
 fn make_plan(dir: &Path) -> PlanFile {
+    make_plan_to(dir, "2026-12-03")
+}
+
+/// [`make_plan`] from 2026-12-01 to the night `to`.
+fn make_plan_to(dir: &Path, to: &str) -> PlanFile {
     rung(
         dir,
         &[
@@ -36,9 +41,9 @@ fn make_plan(dir: &Path) -> PlanFile {
             "--from",
             "2026-12-01",
             "--to",
-            "2026-12-03",
+            to,
             "--horizon-to",
-            "2026-12-03",
+            to,
             "--hours-per-night",
             "6",
             "--save",
@@ -269,6 +274,111 @@ fn a_logged_visit_out_of_bounds_is_named_in_the_log_and_never_saved() {
         String::from_utf8_lossy(&o.stdout)
     );
     assert_eq!(std::fs::read(&path).unwrap(), before);
+}
+
+/// The other rows of an observing log are held to the plan file's bounds
+/// too: a lost night outside the plan's nights, a re-plan's hours a night
+/// out of (0, 24], the plan the log starts with out of its own bounds. Each
+/// is named by the log's line and field when the log is read, and the plan
+/// keeps its bytes (a catch-up used to apply the first two and save a plan
+/// its next load refused). docs/bad-input.md V15.
+#[test]
+fn log_rows_out_of_a_plans_bounds_are_named_and_never_saved() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let p = make_plan(d);
+    let path = d.join("p.json");
+    let lp = log::log_path(&path);
+    let before = std::fs::read(&path).unwrap();
+    let first_rows = std::fs::read_to_string(&lp).unwrap();
+    let now = rung::astro::time::parse_instant(NOW).unwrap();
+    let night: chrono::NaiveDate = "2030-12-03".parse().unwrap();
+    log::append(&lp, &p, Event::LostNight(night), now).unwrap();
+    let o = Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args(["plan", "--load", "p.json"])
+        .current_dir(d)
+        .env("RUNG_CONFIG_DIR", d)
+        .env("RUNG_NOW", NOW)
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        !o.status.success()
+            && err.contains(
+                "p.log.csv, line 3, field 'night': 2030-12-03 is outside the plan's nights, 2026-12-01 to 2026-12-03"
+            ),
+        "{err}"
+    );
+    assert_eq!(std::fs::read(&path).unwrap(), before);
+    // A re-plan's hours a night.
+    std::fs::write(&lp, &first_rows).unwrap();
+    let replan = Event::Replan {
+        at: now,
+        hours_per_night: -1.0,
+    };
+    log::append(&lp, &p, replan, now).unwrap();
+    let e = log::read(&lp).unwrap_err().to_string();
+    assert!(
+        e.contains(
+            "p.log.csv, line 3, field 'data': hours_per_night: -1 is not within (0, 24] hours"
+        ),
+        "{e}"
+    );
+    // The plan the log starts with (what a rebuild starts from).
+    let other = d.join("q.log.csv");
+    let mut head = p.clone();
+    head.visits.clear();
+    head.hours_per_night = 30.0;
+    log::append(&other, &head, Event::Plan(Box::new(head.clone())), now).unwrap();
+    let e = log::read(&other).unwrap_err().to_string();
+    assert!(
+        e.contains(
+            "q.log.csv, line 2, field 'data': hours_per_night: 30 is not within (0, 24] hours"
+        ),
+        "{e}"
+    );
+    assert_eq!(std::fs::read(&path).unwrap(), before);
+}
+
+/// `rung plan --lost-night` on a plan being made holds the night to the
+/// plan's nights as a saved plan's mark does: the plan used to be saved
+/// with it and refused by its next load. docs/bad-input.md V16.
+#[test]
+fn a_lost_night_outside_a_new_plan_is_refused_and_nothing_saved() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let o = Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args([
+            "plan",
+            "--targets",
+            DEMO,
+            "--from",
+            "2026-12-01",
+            "--to",
+            "2026-12-03",
+            "--horizon-to",
+            "2026-12-03",
+            "--hours-per-night",
+            "6",
+            "--lost-night",
+            "2030-01-01",
+            "--save",
+            "p.json",
+        ])
+        .current_dir(d)
+        .env("RUNG_CONFIG_DIR", d)
+        .env("RUNG_NOW", NOW)
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        !o.status.success()
+            && err.contains(
+                "--lost-night: invalid night: 2030-01-01 is outside the plan's nights, 2026-12-01 to 2026-12-03"
+            ),
+        "{err}"
+    );
+    assert!(!d.join("p.json").exists());
 }
 
 /// Every export of a saved plan carries what the observer needs at the
@@ -654,6 +764,54 @@ fn a_visit_marked_done_at_an_unlikely_time_says_so() {
     assert_eq!(jv["airmass"].as_f64().unwrap(), v.airmass);
 }
 
+/// An observed time whose night lies outside the plan's nights (a year
+/// typed wrong) is refused, naming the night and the plan's nights, with
+/// the plan file and its log left as they were; the same visit then marks
+/// done at a time within them (docs/bad-input.md V14).
+#[test]
+fn a_visit_observed_outside_the_plans_nights_is_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let p = make_plan(d);
+    let v = &p.visits[0];
+    let path = d.join("p.json");
+    let lp = rung::plan::log::log_path(&path);
+    let (plan_before, log_before) = (std::fs::read(&path).unwrap(), std::fs::read(&lp).unwrap());
+    let year_off = v.start.add_seconds(365.0 * 86_400.0).round_to_second();
+    let o = Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args([
+            "plan",
+            "--load",
+            "p.json",
+            "--done",
+            &v.id,
+            "--observed",
+            &year_off.iso(),
+        ])
+        .current_dir(d)
+        .env("RUNG_CONFIG_DIR", d)
+        .env("RUNG_NOW", NOW)
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    let site = rung::io::sites::resolve("pampa-lucero").unwrap();
+    let mut marked = v.clone();
+    marked.status = Status::Done;
+    marked.observed = Some(year_off);
+    let want = format!(
+        "--done: invalid observed: {} as observed ({}) falls on the night of {}, outside the plan's nights, 2026-12-01 to 2026-12-03: check the observed time",
+        v.id,
+        year_off.iso(),
+        marked.held_night(&site)
+    );
+    assert!(!o.status.success() && err.contains(&want), "{want}\n{err}");
+    assert_eq!(std::fs::read(&path).unwrap(), plan_before);
+    assert_eq!(std::fs::read(&lp).unwrap(), log_before);
+    // Within the plan's nights, the same mark is taken.
+    mark_done(d, &v.id, &v.start.round_to_second().iso());
+    assert_eq!(json_visit(d, &v.id)["status"], "done");
+}
+
 /// A visit marked done when its target stood near the Sun in daylight gets
 /// the Sun caution of that time in every view (as the scheduler gives a
 /// placed visit's, at its start, middle or end), the caution `rung where`
@@ -662,7 +820,8 @@ fn a_visit_marked_done_at_an_unlikely_time_says_so() {
 fn a_visit_marked_done_near_the_sun_carries_the_sun_caution() {
     let dir = tempfile::tempdir().unwrap();
     let d = dir.path();
-    let p = make_plan(d);
+    // A year's plan: a mark is held within the plan's nights.
+    let p = make_plan_to(d, "2027-11-30");
     let site = rung::io::sites::resolve("pampa-lucero").unwrap();
     let v = p
         .visits
@@ -671,10 +830,10 @@ fn a_visit_marked_done_near_the_sun_carries_the_sun_caution() {
         .unwrap()
         .clone();
     let place = rung::astro::frames::CatalogPlace::fixed_deg(v.ra_deg.unwrap(), v.dec_deg.unwrap());
-    // The first local noon (15:00 UTC here) of the coming year when the
+    // The first local noon (15:00 UTC here) of the plan's year when the
     // target is up, less than 30° from the Sun, with the Sun up.
     let noon = |k: f64| v.start.add_seconds(k * 86_400.0 - 3600.0 * 12.0);
-    let k = (0..366)
+    let k = (1..360)
         .map(|k| k as f64)
         .find(|k| {
             let ctx = rung::astro::frames::Context::exact(&site, noon(*k)).unwrap();

@@ -300,15 +300,20 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
     } else {
         for n in &a.lost_night {
             let d = parse_date(n).context("--lost-night")?;
+            // As a saved plan's mark (log::lose_night): a night outside
+            // the plan's would make a file its next load refuses.
+            if let Some(why) = rung::plan::file::check_night(d, p.from, p.to) {
+                return Err(rung::error::RungError::invalid("night", why)).context("--lost-night");
+            }
             p.lose_night(d);
             changed = true;
         }
         if !a.done.is_empty() {
             for id in &a.done {
-                let note = p
-                    .visit_mut(id)
-                    .and_then(|v| v.mark_done(&mark, &site, &targets))
+                let (v, note) = p
+                    .marked_done(id, &mark, &site, &targets)
                     .context("--done")?;
+                *p.visit_mut(id)? = v;
                 if let Some(n) = note {
                     eprintln!("rung: note: {n}");
                 }

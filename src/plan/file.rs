@@ -125,6 +125,37 @@ impl PlanFile {
         Ok(&self.visits[i])
     }
 
+    /// The visit `id` marked done as `mark` says ([`Visit::mark_done`]),
+    /// as a copy, with the note that gives; the plan itself unchanged.
+    /// Refused when the visit as observed falls on a night outside the
+    /// plan's (an observed time a year off, a slip of the keyboard, used to
+    /// be taken and shown on that night; a re-plan keeps a lost night within
+    /// the plan's nights the same way).
+    pub fn marked_done(
+        &self,
+        id: &str,
+        mark: &crate::plan::schedule::DoneMark,
+        site: &crate::astro::site::Site,
+        targets: &[Target],
+    ) -> Result<(Visit, Option<String>)> {
+        let mut v = self.visit(id)?.clone();
+        let note = v.mark_done(mark, site, targets)?;
+        let night = v.held_night(site);
+        if night < self.from || night > self.to {
+            return Err(RungError::invalid(
+                "observed",
+                format!(
+                    "{} as observed ({}) falls on the night of {night}, outside the plan's nights, {} to {}: check the observed time",
+                    crate::error::one_line_cut(id, 60),
+                    mark.observed.round_to_second().iso(),
+                    self.from,
+                    self.to
+                ),
+            ));
+        }
+        Ok((v, note))
+    }
+
     /// [`Self::visit`], to change it.
     pub fn visit_mut(&mut self, id: &str) -> Result<&mut Visit> {
         let i = self.visit_index(id)?;
@@ -344,57 +375,8 @@ pub fn parse(text: &str, path: &Path) -> Result<PlanFile> {
         },
         msg,
     };
-    if p.format != FORMAT {
-        return Err(at(
-            "format",
-            format!(
-                "'{}' is not a plan format rung reads (expected {FORMAT})",
-                crate::error::one_line_cut(&p.format, 60)
-            ),
-        ));
-    }
-    // The plan's own settings are checked here, so a hand-edited value is
-    // reported as the file's field rather than as a command-line option.
-    if !(p.hours_per_night.is_finite() && p.hours_per_night > 0.0 && p.hours_per_night <= 24.0) {
-        return Err(at(
-            "hours_per_night",
-            format!("{} is not within (0, 24] hours", p.hours_per_night),
-        ));
-    }
-    if let Err(RungError::Invalid { what, why }) = p.limits() {
-        let field = if what == "--min-alt" {
-            "min_alt_deg"
-        } else {
-            "sun_alt_deg"
-        };
+    if let Some((field, why)) = check_settings(&p) {
         return Err(at(field, why));
-    }
-    for (field, d) in [("from", p.from), ("to", p.to)] {
-        crate::astro::time::parse_date(&d.to_string()).map_err(|e| at(field, e.to_string()))?;
-    }
-    if p.to < p.from {
-        return Err(at("to", format!("{} is before 'from' {}", p.to, p.from)));
-    }
-    let nights = (p.to - p.from).num_days() + 1;
-    if nights > crate::plan::schedule::MAX_NIGHTS as i64 {
-        return Err(at(
-            "to",
-            format!(
-                "{} to {} is {nights} nights, longer than the {} nights a plan may span",
-                p.from,
-                p.to,
-                crate::plan::schedule::MAX_NIGHTS
-            ),
-        ));
-    }
-    let range = format!("{} to {}", p.from, p.to);
-    for d in &p.lost_nights {
-        if *d < p.from || *d > p.to {
-            return Err(at(
-                "lost_nights",
-                format!("{d} is outside the plan's nights, {range}"),
-            ));
-        }
     }
     let mut seen = BTreeSet::new();
     for v in &p.visits {
@@ -407,6 +389,68 @@ pub fn parse(text: &str, path: &Path) -> Result<PlanFile> {
         }
     }
     Ok(p)
+}
+
+/// The first of a plan's own settings that is out of bounds, as (field,
+/// reason): its format, hours a night, limits, nights and lost nights.
+/// [`parse`] asks it of a plan file, [`crate::plan::log::read`] of the plan
+/// an observing log starts with.
+pub fn check_settings(p: &PlanFile) -> Option<(&'static str, String)> {
+    if p.format != FORMAT {
+        return Some((
+            "format",
+            format!(
+                "'{}' is not a plan format rung reads (expected {FORMAT})",
+                crate::error::one_line_cut(&p.format, 60)
+            ),
+        ));
+    }
+    // The plan's own settings are checked here, so a hand-edited value is
+    // reported as the file's field rather than as a command-line option.
+    if let Some(why) = check_hours_per_night(p.hours_per_night) {
+        return Some(("hours_per_night", why));
+    }
+    if let Err(RungError::Invalid { what, why }) = p.limits() {
+        let field = if what == "--min-alt" {
+            "min_alt_deg"
+        } else {
+            "sun_alt_deg"
+        };
+        return Some((field, why));
+    }
+    for (field, d) in [("from", p.from), ("to", p.to)] {
+        if let Err(e) = crate::astro::time::parse_date(&d.to_string()) {
+            return Some((field, e.to_string()));
+        }
+    }
+    if p.to < p.from {
+        return Some(("to", format!("{} is before 'from' {}", p.to, p.from)));
+    }
+    let nights = (p.to - p.from).num_days() + 1;
+    if nights > crate::plan::schedule::MAX_NIGHTS as i64 {
+        return Some((
+            "to",
+            format!(
+                "{} to {} is {nights} nights, longer than the {} nights a plan may span",
+                p.from,
+                p.to,
+                crate::plan::schedule::MAX_NIGHTS
+            ),
+        ));
+    }
+    p.lost_nights
+        .iter()
+        .find_map(|d| check_night(*d, p.from, p.to).map(|why| ("lost_nights", why)))
+}
+
+/// Why `h` is not a plan's telescope hours a night, (0, 24].
+pub fn check_hours_per_night(h: f64) -> Option<String> {
+    (!(h.is_finite() && h > 0.0 && h <= 24.0)).then(|| format!("{h} is not within (0, 24] hours"))
+}
+
+/// Why the night `d` cannot be marked in a plan of the nights `from` to `to`.
+pub fn check_night(d: NaiveDate, from: NaiveDate, to: NaiveDate) -> Option<String> {
+    (d < from || d > to).then(|| format!("{d} is outside the plan's nights, {from} to {to}"))
 }
 
 /// The first bound a visit breaks, as (field, reason), for a plan of the
@@ -422,11 +466,8 @@ pub fn check_visit(
         return Some(("visits", format!("visit '{id}' ends before it starts")));
     }
     let of = |field: &'static str, why: String| Some((field, format!("visit '{id}': {why}")));
-    if v.night < from || v.night > to {
-        return of(
-            "night",
-            format!("{} is outside the plan's nights, {from} to {to}", v.night),
-        );
+    if let Some(why) = check_night(v.night, from, to) {
+        return of("night", why);
     }
     // A night runs from local noon to local noon, so its visits lie within
     // a day of the night's local midnight, wherever the site is.

@@ -234,6 +234,9 @@ pub fn read(path: &Path) -> Result<Vec<Entry>> {
             "plan" => {
                 let head: PlanFile = serde_json::from_value(json("data")?)
                     .map_err(|e| at(line, "data", format!("plan settings: {e}")))?;
+                if let Some((field, why)) = crate::plan::file::check_settings(&head) {
+                    return Err(at(line, "data", format!("{field}: {why}")));
+                }
                 range = Some((head.from, head.to));
                 Event::Plan(Box::new(head))
             }
@@ -255,17 +258,29 @@ pub fn read(path: &Path) -> Result<Vec<Entry>> {
                     Event::Lost(Box::new(v))
                 }
             }
-            "lost_night" => Event::LostNight(
-                crate::astro::time::parse_date(&f(5))
-                    .map_err(|e| at(line, "night", e.to_string()))?,
-            ),
-            "replan" => Event::Replan {
-                at: crate::astro::time::parse_instant(&f(6))
-                    .map_err(|e| at(line, "observed_utc", e.to_string()))?,
-                hours_per_night: json("data")?["hours_per_night"]
+            "lost_night" => {
+                let night = crate::astro::time::parse_date(&f(5))
+                    .map_err(|e| at(line, "night", e.to_string()))?;
+                if let Some(why) =
+                    range.and_then(|(a, b)| crate::plan::file::check_night(night, a, b))
+                {
+                    return Err(at(line, "night", why));
+                }
+                Event::LostNight(night)
+            }
+            "replan" => {
+                let hours_per_night = json("data")?["hours_per_night"]
                     .as_f64()
-                    .ok_or_else(|| at(line, "data", "no hours_per_night".into()))?,
-            },
+                    .ok_or_else(|| at(line, "data", "no hours_per_night".into()))?;
+                if let Some(why) = crate::plan::file::check_hours_per_night(hours_per_night) {
+                    return Err(at(line, "data", format!("hours_per_night: {why}")));
+                }
+                Event::Replan {
+                    at: crate::astro::time::parse_instant(&f(6))
+                        .map_err(|e| at(line, "observed_utc", e.to_string()))?,
+                    hours_per_night,
+                }
+            }
             other => {
                 return Err(at(
                     line,
@@ -426,8 +441,7 @@ pub fn mark_done(
     targets: &[Target],
     now: Instant,
 ) -> Result<Option<String>> {
-    let mut v = p.visit(id)?.clone();
-    let note = v.mark_done(mark, site, targets)?;
+    let (v, note) = p.marked_done(id, mark, site, targets)?;
     record(plan_path, p, Event::Done(Box::new(v)), now)?;
     Ok(note)
 }
@@ -447,14 +461,8 @@ pub fn lose_night(
     night: NaiveDate,
     now: Instant,
 ) -> Result<()> {
-    if night < p.from || night > p.to {
-        return Err(RungError::invalid(
-            "night",
-            format!(
-                "{night} is outside the plan's nights, {} to {}",
-                p.from, p.to
-            ),
-        ));
+    if let Some(why) = crate::plan::file::check_night(night, p.from, p.to) {
+        return Err(RungError::invalid("night", why));
     }
     record(plan_path, p, Event::LostNight(night), now)
 }
