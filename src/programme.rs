@@ -236,6 +236,11 @@ pub struct Settings {
     /// Where each setting came from (`site`, `instrument`, `from`, `to`,
     /// `min_alt_deg`, `sun_alt_deg`, `goal_pct`).
     pub origins: BTreeMap<&'static str, Origin>,
+    /// The settings file that gave the range's last night (else its first),
+    /// so that a range a plan or a budget cannot span is named there
+    /// ([`Settings::nights`]); `None` when the range came from the command
+    /// line or the defaults.
+    pub range_file: Option<Layer>,
 }
 
 impl PartialEq for Settings {
@@ -373,6 +378,10 @@ impl Settings {
             from_asked.max(tonight)
         };
         let to_pick = pick!(to);
+        let range_file = [&to_pick, &from_pick]
+            .into_iter()
+            .flatten()
+            .find_map(|(_, c)| c.layer.clone());
         let to = match &to_pick {
             Some((text, c)) => date(text, c, "to", "--to")?,
             None => from
@@ -415,6 +424,7 @@ impl Settings {
                 req.method_files.get("field.toml").map(|p| p.as_path()),
             )?,
             origins,
+            range_file,
         })
     }
 
@@ -541,7 +551,29 @@ impl Settings {
         s.to = to;
         s.origins.insert("from", Origin::CommandLine);
         s.origins.insert("to", Origin::CommandLine);
+        s.range_file = None;
         Ok(s)
+    }
+
+    /// The range's nights, checked as every plan and budget checks a range
+    /// ([`dates`]); a range a settings file gave is refused there, with
+    /// its file, line and key.
+    pub fn nights(&self) -> Result<Vec<NaiveDate>> {
+        dates(self.from, self.to).map_err(|e| match (&self.range_file, e) {
+            (Some(l), RungError::Invalid { why, .. }) => {
+                let key = if self.origins.get("to") == Some(&Origin::CommandLine) {
+                    "from"
+                } else {
+                    "to"
+                };
+                l.error_at(
+                    &format!("programme.{key}"),
+                    format!("{} to {}: {why}", self.from, self.to),
+                )
+                .with_field(key)
+            }
+            (_, e) => e,
+        })
     }
 
     /// The same settings with another instrument (a choice made in the UI).
@@ -837,6 +869,49 @@ mod tests {
                 && e.contains("the range ended on 2026-03-31"),
             "{e}"
         );
+    }
+
+    /// A range longer than a plan or a budget may span (docs/bad-input.md
+    /// D2a) is refused by those jobs where it was given: the settings file's
+    /// line and key, or the command line's range.
+    #[test]
+    fn a_range_too_long_for_a_plan_is_named_where_it_was_given() {
+        let d = tempfile::tempdir().unwrap();
+        let prog = d.path().join("p.csv");
+        std::fs::write(
+            d.path().join("p.settings.toml"),
+            "[programme]\nfrom = 2026-12-01\nto = 2035-01-01\n",
+        )
+        .unwrap();
+        let req = Request {
+            programme: Some(prog),
+            ..Default::default()
+        };
+        // The settings resolve (a season scan may span ten years) ...
+        let s = resolve_in(d.path(), &req).unwrap();
+        // ... and a plan's or a budget's nights are refused in the file.
+        let e = s.nights().unwrap_err().to_string();
+        assert_eq!(
+            e,
+            format!(
+                "{}, line 3, field 'to': 2026-12-01 to 2035-01-01: 2954 nights is longer than the {MAX_NIGHTS} nights a plan or a budget may span",
+                d.path().join("p.settings.toml").display()
+            )
+        );
+        // The same range from the command line names no file.
+        let day = |t: &str| t.parse::<NaiveDate>().unwrap();
+        assert!(s.with_range(day("2026-12-01"), day("2035-01-01")).is_err());
+        let mut cli = s.clone();
+        cli.range_file = None;
+        assert!(
+            cli.nights()
+                .unwrap_err()
+                .to_string()
+                .starts_with("invalid date range: 2954 nights")
+        );
+        // A range it may span is its nights.
+        let short = s.with_range(day("2026-12-01"), day("2026-12-03")).unwrap();
+        assert_eq!(short.nights().unwrap().len(), 3);
     }
 
     #[test]

@@ -158,6 +158,8 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
     }
     let choices_for_horizon = choices.clone();
     let st = super::settings(choices, Some(&targets_path), &[])?;
+    // A range too long for a plan, named in the settings file that gave it.
+    st.nights()?;
 
     let horizon = match a.horizon_to.as_deref() {
         // A loaded plan's re-plans are replayed from its observing log,

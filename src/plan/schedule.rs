@@ -709,12 +709,8 @@ const MIN_SPACING_S: f64 = 0.0;
 /// Build a schedule by the rule in the module documentation.
 pub fn schedule(req: &Request) -> Result<Schedule> {
     use crate::plan::pack::{self, Fixed, Item, Problem};
-    if !req.hours_per_night.is_finite() || req.hours_per_night <= 0.0 || req.hours_per_night > 24.0
-    {
-        return Err(RungError::invalid(
-            "--hours-per-night",
-            format!("{} is not within (0, 24] hours", req.hours_per_night),
-        ));
+    if let Some(why) = crate::plan::file::check_hours_per_night(req.hours_per_night) {
+        return Err(RungError::invalid("--hours-per-night", why));
     }
     let horizon_to = req.horizon_to.max(req.to);
     dates(req.from, horizon_to)?;

@@ -315,7 +315,7 @@ pub fn budget_streaming(
     use crate::plan::budget::{
         Options, TargetWork, assemble_with, curve::inverse_curve, target_prediction,
     };
-    crate::plan::schedule::dates(k.settings.from, k.settings.to)?;
+    k.settings.nights()?;
     if let Some(a) = &k.asked {
         a.check()?;
         a.check_semesters(&k.settings)?;

@@ -464,7 +464,7 @@ pub fn budget(settings: &Settings, targets: &[Target]) -> Result<Budget> {
 
 /// [`budget`] with the curves and the allocation the options ask for.
 pub fn budget_with(settings: &Settings, targets: &[Target], opts: &Options) -> Result<Budget> {
-    crate::plan::schedule::dates(settings.from, settings.to)?;
+    settings.nights()?;
     if let Some(a) = &opts.asked {
         a.check()?;
         a.check_semesters(settings)?;
