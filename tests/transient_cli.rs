@@ -256,6 +256,68 @@ fn table_output_names_the_verdict() {
     assert!(out.contains("cadence: every"));
 }
 
+/// A discovery years before now (a date typed wrong, most often): the
+/// template's tail is past any magnitude measured, and the chase says so
+/// in words, on each night and once in its notes, rather than as a refused
+/// 14-digit magnitude on every row.
+#[test]
+fn a_discovery_years_ago_says_it_has_faded_past_any_exposure() {
+    // Without --now the chase runs over the programme's range from the
+    // coming night (--now would refuse an instant past its 60-day horizon
+    // after discovery); the clock is fixed.
+    let out = Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args([
+            "chase",
+            "--ra",
+            "03:20:00",
+            "--dec",
+            "-30:00:00",
+            "--discovered",
+            "2020-11-15T04:00:00Z",
+            "--mag",
+            "18.3",
+            "--redshift",
+            "0.02",
+            "--json",
+        ])
+        .env(
+            "RUNG_CONFIG_DIR",
+            concat!(env!("CARGO_MANIFEST_DIR"), "/target/no-user-config"),
+        )
+        .env("RUNG_NOW", "2026-11-15T12:00:00Z")
+        .output()
+        .expect("run rung");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: Value = serde_json::from_slice(&out.stdout).expect("valid JSON");
+    let nights = v["nights"].as_array().unwrap();
+    let reasons: Vec<&str> = nights.iter().filter_map(|n| n["reason"].as_str()).collect();
+    assert!(!reasons.is_empty());
+    for r in &reasons {
+        assert!(
+            r.starts_with("no exposure for B: predicted ")
+                && r.ends_with(" mag, fainter than any exposure reaches (30 mag)"),
+            "{r}"
+        );
+    }
+    let notes: Vec<&str> = v["notes"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter_map(|s| s.as_str())
+        .collect();
+    assert!(
+        notes
+            .iter()
+            .any(|s| s.starts_with("it has faded past any exposure: B ")
+                && s.ends_with("check the discovery date")),
+        "{notes:?}"
+    );
+}
+
 #[test]
 fn bad_input_exits_non_zero_with_one_clear_line() {
     let base = ["chase", "--ra", "50", "--dec", "-30", "--mag", "18"];

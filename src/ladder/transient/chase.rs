@@ -548,8 +548,19 @@ pub(crate) fn night_row(
                     n_exposures: n,
                 }),
                 Err(e) => {
-                    first_err
-                        .get_or_insert_with(|| format!("no exposure for {b} = {mag:.1} mag: {e}"));
+                    first_err.get_or_insert_with(|| {
+                        if mag > crate::bounds::MAG.max {
+                            // Faded past anything measured (a discovery
+                            // date long past, or one typed wrong): said
+                            // plainly, not as a refused magnitude.
+                            format!(
+                                "no exposure for {b}: predicted {mag:.1} mag, fainter than any exposure reaches ({} mag)",
+                                crate::bounds::MAG.max
+                            )
+                        } else {
+                            format!("no exposure for {b} = {mag:.1} mag: {e}")
+                        }
+                    });
                     continue 'times;
                 }
             }

@@ -1009,6 +1009,23 @@ impl TransientMethod {
                 n_obs - n_use
             ));
         }
+        // Faded past anything measured on every observable night: most
+        // likely a discovery date long past, or typed wrong.
+        let faded = |n: &ChaseNight| n.expected_mag.is_some_and(|m| m > crate::bounds::MAG.max);
+        if n_use == 0
+            && let Some(n) = nights.iter().find(|n| faded(n))
+            && nights
+                .iter()
+                .filter(|n| n.window_start.is_some())
+                .all(faded)
+        {
+            notes.push(format!(
+                "it has faded past any exposure: B {:.1} mag predicted on {}, {:.0} rest-frame days after the predicted maximum: check the discovery date",
+                n.expected_mag.unwrap_or(f64::NAN),
+                n.night,
+                n.phase_days.unwrap_or(f64::NAN)
+            ));
+        }
         let t15 = pl.params.t_max_mjd + 15.0 * z1;
         if let Some(i) = last_idx
             && let Some(te) = nights[i].epoch_time
