@@ -656,3 +656,61 @@ fn a_bad_maxima_column_refuses_its_row() {
     let v: serde_json::Value = serde_json::from_str(&out).unwrap();
     assert_eq!(v["ephemeris_update"]["points"].as_array().unwrap().len(), 3);
 }
+
+/// A stale ephemeris gets a period search over P ± 3σ_P; an uncertainty
+/// past 2P/9 holds the search's short end at P/3
+/// (`SHORTEST_SEARCH_FRACTION`): a 5.05-day star with σ_P = 2 d used to be
+/// searched down to 0.01 d, about 20 s of work for one `rung phase`. A
+/// smaller uncertainty keeps P − 3σ_P.
+#[test]
+fn a_stale_ephemeris_search_reaches_down_to_a_third_of_the_period() {
+    let dir = std::path::Path::new(env!("CARGO_TARGET_TMPDIR")).join("stale-search");
+    std::fs::create_dir_all(&dir).unwrap();
+    let f = dir.join("t.csv");
+    std::fs::write(
+        &f,
+        "name,kind,ra,dec,period_d,epoch_max_bjd,period_err_d,mean_mag\n\
+         WIDE,pulsator,47.9,-3.3,5.05,2461005.017,2.0,10.4\n\
+         NARROW,pulsator,47.9,-3.3,5.05,2451005.017,0.05,10.4\n",
+    )
+    .unwrap();
+    let search = |name: &str| {
+        let (code, out, err) = rung(&[
+            "phase",
+            "--targets",
+            f.to_str().unwrap(),
+            "--target",
+            name,
+            "--from",
+            "2026-12-01",
+            "--nights",
+            "60",
+            "--json",
+        ]);
+        assert_eq!(code, 0, "{err}");
+        let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+        let d = &v["discovery"];
+        let note = v["notes"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .filter_map(|n| n.as_str())
+            .find(|n| n.contains("a period search over"))
+            .unwrap_or_default()
+            .to_string();
+        (
+            d["period_min_d"].as_f64().unwrap(),
+            d["period_max_d"].as_f64().unwrap(),
+            note,
+        )
+    };
+    let (lo, hi, note) = search("WIDE");
+    assert_eq!((lo, hi), (5.05 * (1.0 / 3.0), 5.05 + 3.0 * 2.0));
+    assert!(
+        note.contains("(P ± 3σ_P, its short end held at P/3)"),
+        "{note}"
+    );
+    let (lo, hi, note) = search("NARROW");
+    assert_eq!((lo, hi), (5.05 - 3.0 * 0.05, 5.05 + 3.0 * 0.05));
+    assert!(note.contains("(P ± 3σ_P)"), "{note}");
+}

@@ -11,6 +11,16 @@ use crate::ladder::{Epoch, ExposureModel, Method, Prediction, Setting, Verdict};
 use chrono::NaiveDate;
 use std::path::Path;
 
+/// The shortest period a proposed period search reaches, as a fraction of
+/// the catalogued period: P ± 3σ_P, its short end held at P/3 once σ_P
+/// passes 2P/9 (the two are equal there). An uncertainty that large leaves
+/// the short side unconstrained, and a search down to the shortest period
+/// rung takes (0.01 d) costs as 1/P: about 20 s for a 5-day star with σ_P
+/// 2 d. A third keeps the first two harmonics, P/2 and P/3, the usual
+/// confusions of a period analysis (common practice); the fraction itself
+/// is this project's own choice (docs/science.md, Pulsators).
+pub const SHORTEST_SEARCH_FRACTION: f64 = 1.0 / 3.0;
+
 /// Everything `rung phase` shows for one pulsator over a range of nights.
 #[derive(Debug, Clone, PartialEq)]
 pub struct PhaseReport {
@@ -344,7 +354,11 @@ impl PulsatorMethod {
         let range = self.discover_range.or_else(|| {
             (r.phase_sigma_start > self.config.defaults.stale_phase && e.period_err_d > 0.0).then(
                 || {
-                    let lo = (e.period_d - 3.0 * e.period_err_d).max(crate::bounds::PERIOD_D.min);
+                    // P ± 3σ_P, its short end held at P/3
+                    // (SHORTEST_SEARCH_FRACTION) once σ_P passes 2P/9.
+                    let lo = (e.period_d - 3.0 * e.period_err_d)
+                        .max(e.period_d * SHORTEST_SEARCH_FRACTION)
+                        .max(crate::bounds::PERIOD_D.min);
                     (lo, e.period_d + 3.0 * e.period_err_d)
                 },
             )
@@ -353,8 +367,13 @@ impl PulsatorMethod {
             Some((lo, hi)) => match self.discover(s, em, &r.star, lo, hi) {
                 Ok(d) => {
                     if self.discover_range.is_none() {
+                        let held = if lo > e.period_d - 3.0 * e.period_err_d {
+                            ", its short end held at P/3"
+                        } else {
+                            ""
+                        };
                         r.notes.push(format!(
-                                "the ephemeris is stale from the start (σφ {:.3}): a period search over {lo:.5}–{hi:.5} d (P ± 3σ_P) in {} observations is proposed",
+                                "the ephemeris is stale from the start (σφ {:.3}): a period search over {lo:.5}–{hi:.5} d (P ± 3σ_P{held}) in {} observations is proposed",
                                 r.phase_sigma_start,
                                 d.bjd_tdb.len()
                             ));
