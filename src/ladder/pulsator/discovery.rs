@@ -465,22 +465,37 @@ pub fn plan_discovery(inp: &DiscoveryInput) -> Result<DiscoveryPlan> {
             .map(|t| Ok(crate::astro::bary::bjd_tdb(inp.site, *t, inp.place)?.jd()))
             .collect::<Result<Vec<f64>>>()
     };
-    let mut best: Option<(f64, f64, Vec<Instant>)> = None; // (sidelobe, base, times)
+    // The bases 1.00, 1.01, … 1.60 (as a running sum, as they always were),
+    // each one's sidelobe on all cores (its spectral window up to nu_max is
+    // most of the plan's work), then chosen in order: the same choice.
+    let mut bases = Vec::new();
     let mut x = 1.0;
     while x <= 1.6 + 1e-9 {
-        let offs = geometric_offsets(inp.epochs, avail_d, x);
-        let ts = place_offsets(&windows, &offs, inp.dwell_s);
-        if ts.len() == inp.epochs {
-            let rel: Vec<f64> = ts
-                .iter()
-                .map(|t| t.seconds_since(&first.0) / DAY_S)
-                .collect();
-            let (h, _) = tallest_sidelobe(&rel, nu_max);
-            if best.as_ref().is_none_or(|b| h < b.0 - 1e-9) {
-                best = Some((h, x, ts));
-            }
-        }
+        bases.push(x);
         x += 0.01;
+    }
+    let tried: Vec<Option<(f64, f64, Vec<Instant>)>> = {
+        use rayon::prelude::*;
+        bases
+            .par_iter()
+            .map(|&x| {
+                let offs = geometric_offsets(inp.epochs, avail_d, x);
+                let ts = place_offsets(&windows, &offs, inp.dwell_s);
+                (ts.len() == inp.epochs).then(|| {
+                    let rel: Vec<f64> = ts
+                        .iter()
+                        .map(|t| t.seconds_since(&first.0) / DAY_S)
+                        .collect();
+                    (tallest_sidelobe(&rel, nu_max).0, x, ts)
+                })
+            })
+            .collect()
+    };
+    let mut best: Option<(f64, f64, Vec<Instant>)> = None; // (sidelobe, base, times)
+    for (h, x, ts) in tried.into_iter().flatten() {
+        if best.as_ref().is_none_or(|b| h < b.0 - 1e-9) {
+            best = Some((h, x, ts));
+        }
     }
     let Some((_, base, times)) = best else {
         return Err(RungError::invalid(
@@ -631,11 +646,27 @@ pub fn best_frequency(
 
 /// χ² of the weighted least-squares fit m = c + a cos 2πft + b sin 2πft.
 fn sine_chi2(t_d: &[f64], mags: &[f64], sigmas: &[f64], f: f64) -> f64 {
+    // Each point's cosine and sine are worked out once, for the fit and for
+    // its residuals (they used to be worked out again for the residuals:
+    // the same values), on the stack for a light curve of up to STACK
+    // points.
+    const STACK: usize = 64;
+    if t_d.len() <= STACK {
+        let mut cs = [(0.0, 0.0); STACK];
+        sine_chi2_with(t_d, mags, sigmas, f, &mut cs[..t_d.len()])
+    } else {
+        sine_chi2_with(t_d, mags, sigmas, f, &mut vec![(0.0, 0.0); t_d.len()])
+    }
+}
+
+/// [`sine_chi2`] with room `cs` for each point's (cos, sin) of 2πft.
+fn sine_chi2_with(t_d: &[f64], mags: &[f64], sigmas: &[f64], f: f64, cs: &mut [(f64, f64)]) -> f64 {
     let mut n = [[0.0f64; 3]; 3];
     let mut r = [0.0f64; 3];
-    for ((t, m), s) in t_d.iter().zip(mags).zip(sigmas) {
+    for (((t, m), s), c) in t_d.iter().zip(mags).zip(sigmas).zip(cs.iter_mut()) {
         let x = 2.0 * PI * f * t;
-        let row = [1.0, x.cos(), x.sin()];
+        *c = (x.cos(), x.sin());
+        let row = [1.0, c.0, c.1];
         let w = 1.0 / (s * s);
         for i in 0..3 {
             r[i] += w * row[i] * m;
@@ -644,20 +675,18 @@ fn sine_chi2(t_d: &[f64], mags: &[f64], sigmas: &[f64], f: f64) -> f64 {
             }
         }
     }
-    let inv = match crate::linalg::spd_inverse(&n.iter().map(|r| r.to_vec()).collect::<Vec<_>>()) {
+    // The stack inverse: the same arithmetic as crate::linalg::spd_inverse
+    // (bit-identical), without its allocations.
+    let inv = match crate::linalg::spd_inverse_n(&n) {
         Ok(i) => i,
         Err(_) => return f64::INFINITY,
     };
-    let c: Vec<f64> = (0..3)
-        .map(|i| (0..3).map(|j| inv[i][j] * r[j]).sum())
-        .collect();
+    let c: [f64; 3] = std::array::from_fn(|i| (0..3).map(|j| inv[i][j] * r[j]).sum());
     t_d.iter()
         .zip(mags)
         .zip(sigmas)
-        .map(|((t, m), s)| {
-            let x = 2.0 * PI * f * t;
-            ((m - c[0] - c[1] * x.cos() - c[2] * x.sin()) / s).powi(2)
-        })
+        .zip(cs.iter())
+        .map(|(((_, m), s), (cos, sin))| ((m - c[0] - c[1] * cos - c[2] * sin) / s).powi(2))
         .sum()
 }
 
