@@ -236,11 +236,11 @@ pub struct Settings {
     /// Where each setting came from (`site`, `instrument`, `from`, `to`,
     /// `min_alt_deg`, `sun_alt_deg`, `goal_pct`).
     pub origins: BTreeMap<&'static str, Origin>,
-    /// The settings file that gave the range's last night (else its first),
-    /// so that a range a plan or a budget cannot span is named there
-    /// ([`Settings::nights`]); `None` when the range came from the command
-    /// line or the defaults.
-    pub range_file: Option<Layer>,
+    /// The settings file that gave the range's last night (else its
+    /// first), with that key (`to` or `from`), so that a range a plan or a
+    /// budget cannot span is named there ([`Settings::nights`]); `None`
+    /// when the range came from the command line or the defaults.
+    pub range_file: Option<(Layer, &'static str)>,
 }
 
 impl PartialEq for Settings {
@@ -378,10 +378,9 @@ impl Settings {
             from_asked.max(tonight)
         };
         let to_pick = pick!(to);
-        let range_file = [&to_pick, &from_pick]
+        let range_file = [(&to_pick, "to"), (&from_pick, "from")]
             .into_iter()
-            .flatten()
-            .find_map(|(_, c)| c.layer.clone());
+            .find_map(|(pick, key)| Some((pick.as_ref()?.1.layer.clone()?, key)));
         let to = match &to_pick {
             Some((text, c)) => date(text, c, "to", "--to")?,
             None => from
@@ -560,18 +559,12 @@ impl Settings {
     /// its file, line and key.
     pub fn nights(&self) -> Result<Vec<NaiveDate>> {
         dates(self.from, self.to).map_err(|e| match (&self.range_file, e) {
-            (Some(l), RungError::Invalid { why, .. }) => {
-                let key = if self.origins.get("to") == Some(&Origin::CommandLine) {
-                    "from"
-                } else {
-                    "to"
-                };
-                l.error_at(
+            (Some((l, key)), RungError::Invalid { why, .. }) => l
+                .error_at(
                     &format!("programme.{key}"),
                     format!("{} to {}: {why}", self.from, self.to),
                 )
-                .with_field(key)
-            }
+                .with_field(key),
             (_, e) => e,
         })
     }

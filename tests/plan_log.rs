@@ -799,7 +799,7 @@ fn a_visit_observed_outside_the_plans_nights_is_refused() {
     marked.status = Status::Done;
     marked.observed = Some(year_off);
     let want = format!(
-        "--done: invalid observed: {} as observed ({}) falls on the night of {}, outside the plan's nights, 2026-12-01 to 2026-12-03: check the observed time",
+        "--done: invalid observed: {} as observed ({}): its night {} is outside the plan's nights, 2026-12-01 to 2026-12-03: check the observed time",
         v.id,
         year_off.iso(),
         marked.held_night(&site)

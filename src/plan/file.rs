@@ -140,16 +140,13 @@ impl PlanFile {
     ) -> Result<(Visit, Option<String>)> {
         let mut v = self.visit(id)?.clone();
         let note = v.mark_done(mark, site, targets)?;
-        let night = v.held_night(site);
-        if night < self.from || night > self.to {
+        if let Some(why) = check_night(v.held_night(site), self.from, self.to) {
             return Err(RungError::invalid(
                 "observed",
                 format!(
-                    "{} as observed ({}) falls on the night of {night}, outside the plan's nights, {} to {}: check the observed time",
+                    "{} as observed ({}): its night {why}: check the observed time",
                     crate::error::one_line_cut(id, 60),
                     mark.observed.round_to_second().iso(),
-                    self.from,
-                    self.to
                 ),
             ));
         }
