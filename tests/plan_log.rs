@@ -25,6 +25,21 @@ fn rung(dir: &Path, args: &[&str]) -> (String, String) {
     (out, err)
 }
 
+/// `rung` with `args` in `dir`, as [`rung`] runs it, when it must refuse:
+/// its stderr.
+fn refused<S: AsRef<std::ffi::OsStr> + std::fmt::Debug>(dir: &Path, args: &[S]) -> String {
+    let o = Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args(args)
+        .current_dir(dir)
+        .env("RUNG_CONFIG_DIR", dir)
+        .env("RUNG_NOW", NOW)
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&o.stderr).into_owned();
+    assert!(!o.status.success(), "{args:?} was not refused: {err}");
+    err
+}
+
 /// A three-night plan of the demo programme saved in `dir` (its log started).
 fn make_plan(dir: &Path) -> PlanFile {
     make_plan_to(dir, "2026-12-03")
@@ -221,19 +236,12 @@ fn a_logged_visit_out_of_bounds_is_named_in_the_log_and_never_saved() {
         now,
     )
     .unwrap();
-    let o = Command::new(env!("CARGO_BIN_EXE_rung"))
-        .args(["plan", "--load", "p.json"])
-        .current_dir(d)
-        .env("RUNG_CONFIG_DIR", d)
-        .env("RUNG_NOW", NOW)
-        .output()
-        .unwrap();
-    let err = String::from_utf8_lossy(&o.stderr);
+    let err = refused(d, &["plan", "--load", "p.json"]);
     let want = format!(
         "p.log.csv, line 3, field 'data': snr_measured: visit '{}': band '{band}': -5 is not within (0, 10000]",
         v.id
     );
-    assert!(!o.status.success() && err.contains(&want), "{err}");
+    assert!(err.contains(&want), "{err}");
     assert_eq!(std::fs::read(&path).unwrap(), before);
     // The same for a plain bound of a visit (its airmass).
     let lp = log::log_path(&path);
@@ -261,18 +269,7 @@ fn a_logged_visit_out_of_bounds_is_named_in_the_log_and_never_saved() {
             && e.contains("500 arcsec is not within (0, 30] arcsec"),
         "{e}"
     );
-    let o = Command::new(env!("CARGO_BIN_EXE_rung"))
-        .args(["plan", "--load", "p.json"])
-        .current_dir(d)
-        .env("RUNG_CONFIG_DIR", d)
-        .env("RUNG_NOW", NOW)
-        .output()
-        .unwrap();
-    assert!(
-        !o.status.success(),
-        "{}",
-        String::from_utf8_lossy(&o.stdout)
-    );
+    refused(d, &["plan", "--load", "p.json"]);
     assert_eq!(std::fs::read(&path).unwrap(), before);
 }
 
@@ -294,17 +291,9 @@ fn log_rows_out_of_a_plans_bounds_are_named_and_never_saved() {
     let now = rung::astro::time::parse_instant(NOW).unwrap();
     let night: chrono::NaiveDate = "2030-12-03".parse().unwrap();
     log::append(&lp, &p, Event::LostNight(night), now).unwrap();
-    let o = Command::new(env!("CARGO_BIN_EXE_rung"))
-        .args(["plan", "--load", "p.json"])
-        .current_dir(d)
-        .env("RUNG_CONFIG_DIR", d)
-        .env("RUNG_NOW", NOW)
-        .output()
-        .unwrap();
-    let err = String::from_utf8_lossy(&o.stderr);
+    let err = refused(d, &["plan", "--load", "p.json"]);
     assert!(
-        !o.status.success()
-            && err.contains(
+        err.contains(
                 "p.log.csv, line 3, field 'night': 2030-12-03 is outside the plan's nights, 2026-12-01 to 2026-12-03"
             ),
         "{err}"
@@ -347,8 +336,9 @@ fn log_rows_out_of_a_plans_bounds_are_named_and_never_saved() {
 fn a_lost_night_outside_a_new_plan_is_refused_and_nothing_saved() {
     let dir = tempfile::tempdir().unwrap();
     let d = dir.path();
-    let o = Command::new(env!("CARGO_BIN_EXE_rung"))
-        .args([
+    let err = refused(
+        d,
+        &[
             "plan",
             "--targets",
             DEMO,
@@ -364,16 +354,10 @@ fn a_lost_night_outside_a_new_plan_is_refused_and_nothing_saved() {
             "2030-01-01",
             "--save",
             "p.json",
-        ])
-        .current_dir(d)
-        .env("RUNG_CONFIG_DIR", d)
-        .env("RUNG_NOW", NOW)
-        .output()
-        .unwrap();
-    let err = String::from_utf8_lossy(&o.stderr);
+        ],
+    );
     assert!(
-        !o.status.success()
-            && err.contains(
+        err.contains(
                 "--lost-night: invalid night: 2030-01-01 is outside the plan's nights, 2026-12-01 to 2026-12-03"
             ),
         "{err}"
@@ -778,8 +762,9 @@ fn a_visit_observed_outside_the_plans_nights_is_refused() {
     let lp = rung::plan::log::log_path(&path);
     let (plan_before, log_before) = (std::fs::read(&path).unwrap(), std::fs::read(&lp).unwrap());
     let year_off = v.start.add_seconds(365.0 * 86_400.0).round_to_second();
-    let o = Command::new(env!("CARGO_BIN_EXE_rung"))
-        .args([
+    let err = refused(
+        d,
+        &[
             "plan",
             "--load",
             "p.json",
@@ -787,13 +772,8 @@ fn a_visit_observed_outside_the_plans_nights_is_refused() {
             &v.id,
             "--observed",
             &year_off.iso(),
-        ])
-        .current_dir(d)
-        .env("RUNG_CONFIG_DIR", d)
-        .env("RUNG_NOW", NOW)
-        .output()
-        .unwrap();
-    let err = String::from_utf8_lossy(&o.stderr);
+        ],
+    );
     let site = rung::io::sites::resolve("pampa-lucero").unwrap();
     let mut marked = v.clone();
     marked.status = Status::Done;
@@ -804,7 +784,7 @@ fn a_visit_observed_outside_the_plans_nights_is_refused() {
         year_off.iso(),
         marked.held_night(&site)
     );
-    assert!(!o.status.success() && err.contains(&want), "{want}\n{err}");
+    assert!(err.contains(&want), "{want}\n{err}");
     assert_eq!(std::fs::read(&path).unwrap(), plan_before);
     assert_eq!(std::fs::read(&lp).unwrap(), log_before);
     // Within the plan's nights, the same mark is taken.
@@ -988,15 +968,8 @@ fn now_is_the_present_of_a_replan_and_a_mark() {
             "--now: ",
         ),
     ] {
-        let o = Command::new(env!("CARGO_BIN_EXE_rung"))
-            .args(&args)
-            .current_dir(a.path())
-            .env("RUNG_CONFIG_DIR", a.path())
-            .env("RUNG_NOW", NOW)
-            .output()
-            .unwrap();
-        let err = String::from_utf8_lossy(&o.stderr);
-        assert!(!o.status.success() && err.contains(why), "{args:?}: {err}");
+        let err = refused(a.path(), &args);
+        assert!(err.contains(why), "{args:?}: {err}");
         assert_eq!(std::fs::read(a.path().join("p.json")).unwrap(), before);
     }
 }

@@ -30,6 +30,16 @@ fn json(args: &[&str]) -> Value {
     serde_json::from_str(&out).expect("valid JSON")
 }
 
+/// The `notes` of a chase's JSON.
+fn notes_of(v: &Value) -> Vec<&str> {
+    v["notes"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter_map(|s| s.as_str())
+        .collect()
+}
+
 #[test]
 fn json_carries_the_contract_keys() {
     let v = json(&[
@@ -219,12 +229,7 @@ fn demo_transient_near_the_sun_gets_few_nights_and_says_so() {
         .count();
     assert!(usable <= 8, "usable {usable}");
     assert_eq!(v["verdict"]["verdict"], "not_observable");
-    let notes: Vec<&str> = v["notes"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .filter_map(|s| s.as_str())
-        .collect();
+    let notes = notes_of(&v);
     assert!(
         notes.iter().any(|s| s.contains("peak is missed")),
         "{notes:?}"
@@ -303,12 +308,7 @@ fn a_discovery_years_ago_says_it_has_faded_past_any_exposure() {
             "{r}"
         );
     }
-    let notes: Vec<&str> = v["notes"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .filter_map(|s| s.as_str())
-        .collect();
+    let notes = notes_of(&v);
     assert!(
         notes
             .iter()
