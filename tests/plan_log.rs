@@ -11,7 +11,9 @@ use std::process::Command;
 const DEMO: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/targets-demo/targets.csv");
 const NOW: &str = "2026-12-01T23:30:00Z";
 
-fn rung(dir: &Path, args: &[&str]) -> (String, String) {
+/// `rung` with `args` in `dir` (its config folder too) at the clock `NOW`:
+/// (succeeded, stdout, stderr).
+fn run<S: AsRef<std::ffi::OsStr>>(dir: &Path, args: &[S]) -> (bool, String, String) {
     let o = Command::new(env!("CARGO_BIN_EXE_rung"))
         .args(args)
         .current_dir(dir)
@@ -19,24 +21,24 @@ fn rung(dir: &Path, args: &[&str]) -> (String, String) {
         .env("RUNG_NOW", NOW)
         .output()
         .unwrap();
-    let out = String::from_utf8_lossy(&o.stdout).into_owned();
-    let err = String::from_utf8_lossy(&o.stderr).into_owned();
-    assert!(o.status.success(), "{args:?}: {err}");
+    (
+        o.status.success(),
+        String::from_utf8_lossy(&o.stdout).into_owned(),
+        String::from_utf8_lossy(&o.stderr).into_owned(),
+    )
+}
+
+/// [`run`], which must succeed: (stdout, stderr).
+fn rung(dir: &Path, args: &[&str]) -> (String, String) {
+    let (ok, out, err) = run(dir, args);
+    assert!(ok, "{args:?}: {err}");
     (out, err)
 }
 
-/// `rung` with `args` in `dir`, as [`rung`] runs it, when it must refuse:
-/// its stderr.
+/// [`run`], which must refuse: its stderr.
 fn refused<S: AsRef<std::ffi::OsStr> + std::fmt::Debug>(dir: &Path, args: &[S]) -> String {
-    let o = Command::new(env!("CARGO_BIN_EXE_rung"))
-        .args(args)
-        .current_dir(dir)
-        .env("RUNG_CONFIG_DIR", dir)
-        .env("RUNG_NOW", NOW)
-        .output()
-        .unwrap();
-    let err = String::from_utf8_lossy(&o.stderr).into_owned();
-    assert!(!o.status.success(), "{args:?} was not refused: {err}");
+    let (ok, _, err) = run(dir, args);
+    assert!(!ok, "{args:?} was not refused: {err}");
     err
 }
 
