@@ -226,6 +226,12 @@ pub const FEH_ERR_DEX: Bound = Bound {
     why: "an uncertainty is not negative, and one above 2 dex says nothing about the star",
 };
 
+/// Why `h` is not a plan's telescope hours a night, (0, 24] (a plan file,
+/// its observing log's re-plans, `--hours-per-night`).
+pub fn hours_per_night_why_not(h: f64) -> Option<String> {
+    (!(h.is_finite() && h > 0.0 && h <= 24.0)).then(|| format!("{h} is not within (0, 24] hours"))
+}
+
 /// Why a period uncertainty `err_d` (days) is refused for a period of
 /// `period_d` days (when known), or `None`: it must be zero or positive and
 /// smaller than the period itself.

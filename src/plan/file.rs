@@ -404,7 +404,7 @@ pub fn check_settings(p: &PlanFile) -> Option<(&'static str, String)> {
     }
     // The plan's own settings are checked here, so a hand-edited value is
     // reported as the file's field rather than as a command-line option.
-    if let Some(why) = check_hours_per_night(p.hours_per_night) {
+    if let Some(why) = crate::bounds::hours_per_night_why_not(p.hours_per_night) {
         return Some(("hours_per_night", why));
     }
     if let Err(RungError::Invalid { what, why }) = p.limits() {
@@ -438,11 +438,6 @@ pub fn check_settings(p: &PlanFile) -> Option<(&'static str, String)> {
     p.lost_nights
         .iter()
         .find_map(|d| check_night(*d, p.from, p.to).map(|why| ("lost_nights", why)))
-}
-
-/// Why `h` is not a plan's telescope hours a night, (0, 24].
-pub fn check_hours_per_night(h: f64) -> Option<String> {
-    (!(h.is_finite() && h > 0.0 && h <= 24.0)).then(|| format!("{h} is not within (0, 24] hours"))
 }
 
 /// Why the night `d` cannot be marked in a plan of the nights `from` to `to`.

@@ -272,7 +272,7 @@ pub fn read(path: &Path) -> Result<Vec<Entry>> {
                 let hours_per_night = json("data")?["hours_per_night"]
                     .as_f64()
                     .ok_or_else(|| at(line, "data", "no hours_per_night".into()))?;
-                if let Some(why) = crate::plan::file::check_hours_per_night(hours_per_night) {
+                if let Some(why) = crate::bounds::hours_per_night_why_not(hours_per_night) {
                     return Err(at(line, "data", format!("hours_per_night: {why}")));
                 }
                 Event::Replan {

@@ -709,7 +709,7 @@ const MIN_SPACING_S: f64 = 0.0;
 /// Build a schedule by the rule in the module documentation.
 pub fn schedule(req: &Request) -> Result<Schedule> {
     use crate::plan::pack::{self, Fixed, Item, Problem};
-    if let Some(why) = crate::plan::file::check_hours_per_night(req.hours_per_night) {
+    if let Some(why) = crate::bounds::hours_per_night_why_not(req.hours_per_night) {
         return Err(RungError::invalid("--hours-per-night", why));
     }
     let horizon_to = req.horizon_to.max(req.to);
