@@ -8,24 +8,13 @@ use rung::plan::schedule::Status;
 use std::path::Path;
 use std::process::Command;
 
-const DEMO: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/targets-demo/targets.csv");
+mod plan_cli;
+use plan_cli::DEMO;
 const NOW: &str = "2026-12-01T23:30:00Z";
 
-/// `rung` with `args` in `dir` (its config folder too) at the clock `NOW`:
-/// (succeeded, stdout, stderr).
+/// [`plan_cli::run`] at the clock `NOW`.
 fn run<S: AsRef<std::ffi::OsStr>>(dir: &Path, args: &[S]) -> (bool, String, String) {
-    let o = Command::new(env!("CARGO_BIN_EXE_rung"))
-        .args(args)
-        .current_dir(dir)
-        .env("RUNG_CONFIG_DIR", dir)
-        .env("RUNG_NOW", NOW)
-        .output()
-        .unwrap();
-    (
-        o.status.success(),
-        String::from_utf8_lossy(&o.stdout).into_owned(),
-        String::from_utf8_lossy(&o.stderr).into_owned(),
-    )
+    plan_cli::run(dir, NOW, args)
 }
 
 /// [`run`], which must succeed: (stdout, stderr).
@@ -49,25 +38,7 @@ fn make_plan(dir: &Path) -> PlanFile {
 
 /// [`make_plan`] from 2026-12-01 to the night `to`.
 fn make_plan_to(dir: &Path, to: &str) -> PlanFile {
-    rung(
-        dir,
-        &[
-            "plan",
-            "--targets",
-            DEMO,
-            "--from",
-            "2026-12-01",
-            "--to",
-            to,
-            "--horizon-to",
-            to,
-            "--hours-per-night",
-            "6",
-            "--save",
-            "p.json",
-        ],
-    );
-    file::load(&dir.join("p.json")).unwrap()
+    plan_cli::make_plan(dir, NOW, to, to)
 }
 
 #[test]

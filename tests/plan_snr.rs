@@ -11,61 +11,29 @@
 use rung::plan::file::{self, PlanFile};
 use rung::plan::schedule::Status;
 use std::path::Path;
-use std::process::{Command, Output};
 
-const DEMO: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/targets-demo/targets.csv");
+mod plan_cli;
+use plan_cli::DEMO;
 const NOW: &str = "2026-12-02T12:00:00Z";
-
-fn run(dir: &Path, args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_rung"))
-        .args(args)
-        .current_dir(dir)
-        .env("RUNG_CONFIG_DIR", dir)
-        .env("RUNG_NOW", NOW)
-        .output()
-        .unwrap()
-}
 
 /// `rung ARGS` in `dir`, which must succeed: its stdout.
 fn ok(dir: &Path, args: &[&str]) -> String {
-    let o = run(dir, args);
-    assert!(
-        o.status.success(),
-        "{args:?}: {}",
-        String::from_utf8_lossy(&o.stderr)
-    );
-    String::from_utf8_lossy(&o.stdout).into_owned()
+    let (ok, out, err) = plan_cli::run(dir, NOW, args);
+    assert!(ok, "{args:?}: {err}");
+    out
 }
 
 /// `rung ARGS` in `dir`, which must fail: its stderr.
 fn refused(dir: &Path, args: &[&str]) -> String {
-    let o = run(dir, args);
-    assert!(!o.status.success(), "{args:?} was accepted");
-    String::from_utf8_lossy(&o.stderr).into_owned()
+    let (ok, _, err) = plan_cli::run(dir, NOW, args);
+    assert!(!ok, "{args:?} was accepted");
+    err
 }
 
 /// A three-night plan of the demo programme saved as `dir/p.json`, its
 /// methods planning to 2027-12-31 (so that every kind has a visit in it).
 fn make_plan(dir: &Path) -> PlanFile {
-    ok(
-        dir,
-        &[
-            "plan",
-            "--targets",
-            DEMO,
-            "--from",
-            "2026-12-01",
-            "--to",
-            "2026-12-03",
-            "--horizon-to",
-            "2027-12-31",
-            "--hours-per-night",
-            "6",
-            "--save",
-            "p.json",
-        ],
-    );
-    file::load(&dir.join("p.json")).unwrap()
+    plan_cli::make_plan(dir, NOW, "2026-12-03", "2027-12-31")
 }
 
 /// The first planned visit of `kind`.

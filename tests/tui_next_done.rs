@@ -127,10 +127,12 @@ fn the_mark_prompt_and_its_confirmation_name_the_start_taken() {
         now,
         op: rung::tui::msg::NextOp::Done {
             id: v.id.clone(),
-            seeing_arcsec: Some(1.2),
-            comment: None,
-            // "snr=42" typed (rung::tui::update::done_typed): the primary band's.
-            snr_measured: vec![(None, 42.0)],
+            typed: rung::tui::msg::DoneTyped {
+                seeing_arcsec: Some(1.2),
+                comment: None,
+                // "snr=42" typed (rung::tui::update::done_typed): the primary band's.
+                snr_measured: vec![(None, 42.0)],
+            },
         },
     });
     let note = d.note.unwrap();

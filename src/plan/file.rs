@@ -445,6 +445,33 @@ pub fn check_night(d: NaiveDate, from: NaiveDate, to: NaiveDate) -> Option<Strin
     (d < from || d > to).then(|| format!("{d} is outside the plan's nights, {from} to {to}"))
 }
 
+/// The first bound an exposure breaks, a visit's totals or one band's, as
+/// (field, reason): its exposure time, its sub-exposures, its expected
+/// signal-to-noise.
+fn exposure_why_not(exptime_s: f64, n_exposures: u32, snr: f64) -> Option<(&'static str, String)> {
+    if let Some(why) = crate::bounds::EXPTIME_S.why_not(exptime_s) {
+        return Some(("exptime_s", why));
+    }
+    if !(1..=crate::bounds::MAX_SUB_EXPOSURES).contains(&n_exposures) {
+        return Some((
+            "n_exposures",
+            format!(
+                "{n_exposures} is not within 1..{} sub-exposures",
+                crate::bounds::MAX_SUB_EXPOSURES
+            ),
+        ));
+    }
+    (!(snr.is_finite() && snr > 0.0)).then(|| {
+        (
+            "snr",
+            format!(
+                "{} is not a signal-to-noise (a positive number)",
+                crate::bounds::show(snr)
+            ),
+        )
+    })
+}
+
 /// The first bound a visit breaks, as (field, reason), for a plan of the
 /// nights `from` to `to`: a hand-edited visit, or one read back from an
 /// observing log, is held to the same bounds as a planned one.
@@ -477,27 +504,8 @@ pub fn check_visit(
             );
         }
     }
-    if let Some(why) = crate::bounds::EXPTIME_S.why_not(v.exptime_s) {
-        return of("exptime_s", why);
-    }
-    if !(1..=crate::bounds::MAX_SUB_EXPOSURES).contains(&v.n_exposures) {
-        return of(
-            "n_exposures",
-            format!(
-                "{} is not within 1..{} sub-exposures",
-                v.n_exposures,
-                crate::bounds::MAX_SUB_EXPOSURES
-            ),
-        );
-    }
-    if !(v.snr.is_finite() && v.snr > 0.0) {
-        return of(
-            "snr",
-            format!(
-                "{} is not a signal-to-noise (a positive number)",
-                crate::bounds::show(v.snr)
-            ),
-        );
+    if let Some((field, why)) = exposure_why_not(v.exptime_s, v.n_exposures, v.snr) {
+        return of(field, why);
     }
     for (band, snr) in &v.snr_measured {
         if let Some(why) = crate::bounds::SNR.why_not(*snr) {
@@ -513,27 +521,12 @@ pub fn check_visit(
         }
     }
     for b in &v.exposures {
-        let band = crate::error::one_line_cut(&b.band, 20);
-        let why = if b.band.trim().is_empty() {
-            Some("an exposure without a band".to_string())
-        } else if let Some(why) = crate::bounds::EXPTIME_S.why_not(b.exptime_s) {
-            Some(format!("band '{band}': exptime_s {why}"))
-        } else if !(1..=crate::bounds::MAX_SUB_EXPOSURES).contains(&b.n_exposures) {
-            Some(format!(
-                "band '{band}': n_exposures {} is not within 1..{} sub-exposures",
-                b.n_exposures,
-                crate::bounds::MAX_SUB_EXPOSURES
-            ))
-        } else if !(b.snr.is_finite() && b.snr > 0.0) {
-            Some(format!(
-                "band '{band}': snr {} is not a signal-to-noise (a positive number)",
-                crate::bounds::show(b.snr)
-            ))
-        } else {
-            None
-        };
-        if let Some(why) = why {
-            return of("exposures", why);
+        if b.band.trim().is_empty() {
+            return of("exposures", "an exposure without a band".into());
+        }
+        if let Some((field, why)) = exposure_why_not(b.exptime_s, b.n_exposures, b.snr) {
+            let band = crate::error::one_line_cut(&b.band, 20);
+            return of("exposures", format!("band '{band}': {field} {why}"));
         }
     }
     // The place kept for a target no longer listed (the views and a

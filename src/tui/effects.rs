@@ -997,23 +997,12 @@ pub fn next_data(job: &crate::tui::msg::NextJob) -> crate::tui::state::NextData 
                 let st = &job.settings;
                 let what = match &job.op {
                     NextOp::Refresh => None,
-                    NextOp::Done {
-                        id,
-                        seeing_arcsec,
-                        comment,
-                        snr_measured,
-                    } => {
-                        let mark = log::DoneMark {
-                            observed: job.now,
-                            seeing_arcsec: *seeing_arcsec,
-                            comment: comment.clone(),
-                            snr_measured: snr_measured.clone(),
-                        };
+                    NextOp::Done { id, typed } => {
                         let aside = log::mark_done(
                             path,
                             &mut p,
                             id,
-                            &mark,
+                            &typed.mark(job.now),
                             &st.site,
                             &job.targets,
                             job.now,

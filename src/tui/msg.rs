@@ -79,21 +79,42 @@ pub enum Msg {
     NextReady(Box<crate::tui::state::NextData>),
 }
 
+/// What the observer typed when marking a visit done, as one line
+/// (`crate::tui::update::done_typed`).
+#[derive(Debug, Clone, PartialEq)]
+pub struct DoneTyped {
+    /// Seeing FWHM, arcseconds.
+    pub seeing_arcsec: Option<f64>,
+    /// Comment.
+    pub comment: Option<String>,
+    /// Measured signal-to-noise (`rung plan --snr`'s forms).
+    pub snr_measured: Vec<(Option<String>, f64)>,
+}
+
+impl DoneTyped {
+    /// The mark it makes of a visit observed from `observed`.
+    pub fn mark(&self, observed: Instant) -> crate::plan::schedule::DoneMark {
+        crate::plan::schedule::DoneMark {
+            observed,
+            seeing_arcsec: self.seeing_arcsec,
+            comment: self.comment.clone(),
+            snr_measured: self.snr_measured.clone(),
+        }
+    }
+}
+
 /// What the Next view asks of its plan before ranking.
 #[derive(Debug, Clone, PartialEq)]
 pub enum NextOp {
     /// Only rank.
     Refresh,
-    /// Mark a visit done now, with seeing (arcsec) and a comment.
+    /// Mark a visit done now, as typed (seeing, measured signal-to-noise,
+    /// comment).
     Done {
         /// Visit id.
         id: String,
-        /// Seeing FWHM, arcseconds.
-        seeing_arcsec: Option<f64>,
-        /// Comment.
-        comment: Option<String>,
-        /// Measured signal-to-noise, as `rung plan --snr` takes it.
-        snr_measured: Vec<(Option<String>, f64)>,
+        /// What the observer typed.
+        typed: DoneTyped,
     },
     /// Mark a visit lost.
     Lost(String),

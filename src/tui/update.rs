@@ -10,6 +10,7 @@ use crate::programme::Settings;
 use crate::tui::form::Form;
 use crate::tui::keymap::Action;
 use crate::tui::keymap::{self, Scope};
+use crate::tui::msg::DoneTyped;
 use crate::tui::msg::{Effect, Msg, NextJob, NextOp, NightJob, PlanJob, RecoveryOp, SeasonJob};
 use crate::tui::state::{
     Level, Overlay, PLAN_HOURS_PER_NIGHT, PLAN_HOURS_RANGE, Programme, Question, Recovered,
@@ -229,17 +230,6 @@ fn selected_visit(s: &State) -> Option<String> {
         .clone()
 }
 
-/// What the observer typed when marking a visit done, as one line.
-#[derive(Debug, Clone, PartialEq)]
-pub struct DoneTyped {
-    /// Seeing FWHM, arcseconds.
-    pub seeing_arcsec: Option<f64>,
-    /// Comment.
-    pub comment: Option<String>,
-    /// Measured signal-to-noise (`rung plan --snr`'s forms).
-    pub snr_measured: Vec<(Option<String>, f64)>,
-}
-
 /// Seeing, measured signal-to-noise and comment typed as one line: a first
 /// word that is a number is the seeing in arcseconds, a word `snr=…` the
 /// signal-to-noise measured (what `rung plan --snr` takes: `snr=62`,
@@ -282,13 +272,7 @@ fn check_typed(s: &State, id: &str, t: &DoneTyped) -> crate::error::Result<()> {
     let Some(v) = visit else {
         return Ok(());
     };
-    let mark = crate::plan::schedule::DoneMark {
-        observed: s.now,
-        seeing_arcsec: t.seeing_arcsec,
-        comment: t.comment.clone(),
-        snr_measured: t.snr_measured.clone(),
-    };
-    v.check_mark(&mark, &s.targets).map(|_| ())
+    v.check_mark(&t.mark(s.now), &s.targets).map(|_| ())
 }
 
 /// Ask for what the current view is missing: season rows, or the method report.
@@ -1240,15 +1224,7 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
                             }
                         };
                         s.next_prompt = None;
-                        return Some(next_effect(
-                            s,
-                            NextOp::Done {
-                                id,
-                                seeing_arcsec: typed.seeing_arcsec,
-                                comment: typed.comment,
-                                snr_measured: typed.snr_measured,
-                            },
-                        ));
+                        return Some(next_effect(s, NextOp::Done { id, typed }));
                     }
                     _ => {}
                 }
