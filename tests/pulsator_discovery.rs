@@ -661,7 +661,10 @@ fn a_bad_maxima_column_refuses_its_row() {
 /// past 2P/9 holds the search's short end at P/3
 /// (`SHORTEST_SEARCH_FRACTION`): a 5.05-day star with σ_P = 2 d used to be
 /// searched down to 0.01 d, about 20 s of work for one `rung phase`. A
-/// smaller uncertainty keeps P − 3σ_P.
+/// smaller uncertainty keeps P − 3σ_P. The expected ends are the rule
+/// itself, worked out here: P ± 3σ_P is common practice for a search
+/// around a catalogued period, the P/3 floor this project's own choice
+/// (docs/science.md, Finding a period); no outside value.
 #[test]
 fn a_stale_ephemeris_search_reaches_down_to_a_third_of_the_period() {
     let dir = std::path::Path::new(env!("CARGO_TARGET_TMPDIR")).join("stale-search");
