@@ -88,3 +88,59 @@ fn the_request_line_wraps_between_whole_parts_at_80_columns() {
         assert!(has(&rows, t), "{t} missing:\n{}", rows.join("\n"));
     }
 }
+
+/// The request form names its own field when it refuses one: the reason
+/// follows "hours asked", never a command-line option's name (the library's
+/// refusals name `--hours` and `--hours-per-semester`, which the form has
+/// not got). The form stays open and the budget unchanged.
+#[test]
+fn the_request_form_refuses_in_its_own_words() {
+    let targets = demo_subset(&["LPO-P03", "LPO-C03"]);
+    let st = demo_settings();
+    let dir = tempfile::tempdir().unwrap();
+    let mut s = state_with(
+        targets,
+        None,
+        dir.path().join("programme.csv"),
+        true,
+        (80, 24),
+        true,
+    );
+    ch(&mut s, '7');
+    let cases = [
+        (
+            "-5",
+            "✗ hours asked: -5 is not a number of hours within 0..1000000".to_string(),
+        ),
+        (
+            "2027A=x",
+            "✗ hours asked: cannot read '2027A=x': expected H or LABEL=H,LABEL=H".to_string(),
+        ),
+        (
+            "2031A=5",
+            format!(
+                "✗ hours asked: 2031A is not a semester of the range {} to {}",
+                st.from, st.to
+            ),
+        ),
+    ];
+    for (text, want) in cases {
+        ch(&mut s, 'b');
+        typed(&mut s, text);
+        key(&mut s, KeyCode::Enter);
+        assert!(s.overlay.is_some(), "{text}: the form closed");
+        let (rows, _) = screen(&s, 80, 24);
+        // The form's lines, inside its frame, joined where they wrap.
+        let shown: String = rows
+            .iter()
+            .filter_map(|r| r.split('│').nth(1).map(str::trim))
+            .collect::<Vec<_>>()
+            .join(" ");
+        assert!(shown.contains(&want), "{text}: {want}\n{}", rows.join("\n"));
+        assert!(!shown.contains("--hours"), "{}", rows.join("\n"));
+        key(&mut s, KeyCode::Esc);
+        assert!(s.overlay.is_none());
+    }
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(rows[3].starts_with("no hours asked"), "{}", rows[3]);
+}

@@ -2,6 +2,7 @@
 //! its exports go to. It only reads and checks text; the budget itself is
 //! the library's (`plan::budget`).
 
+use crate::error::RungError;
 use crate::plan::budget::Asked;
 use crate::programme::Settings;
 use chrono::NaiveDate;
@@ -107,7 +108,7 @@ pub fn parse_asked(text: &str) -> Result<Option<Asked>, String> {
         }
     } else if t.contains('=') || t.contains(',') {
         Asked {
-            hours_per_semester: Asked::parse_per_semester(t).map_err(|e| e.to_string())?,
+            hours_per_semester: Asked::parse_per_semester(t).map_err(form_why)?,
             ..Default::default()
         }
     } else {
@@ -119,8 +120,19 @@ pub fn parse_asked(text: &str) -> Result<Option<Asked>, String> {
             ..Default::default()
         }
     };
-    a.check().map_err(|e| e.to_string())?;
+    a.check().map_err(form_why)?;
     Ok(Some(a))
+}
+
+/// A refusal in the form's words: the form names its field itself, so the
+/// library's name for the value (a command-line option such as `--hours`)
+/// is left out.
+fn form_why(e: RungError) -> String {
+    match e {
+        RungError::Invalid { why, .. } => why,
+        RungError::Parse { text, why, .. } => format!("cannot read '{text}': {why}"),
+        other => other.to_string(),
+    }
 }
 
 impl AskForm {
@@ -179,7 +191,7 @@ impl AskForm {
                 .map_err(|e| (2, e.to_string()))?
         };
         if let Some(a) = &asked {
-            a.check_semesters(&st).map_err(|e| (0, e.to_string()))?;
+            a.check_semesters(&st).map_err(|e| (0, form_why(e)))?;
         }
         let dir = PathBuf::from(self.fields[3].trim());
         if dir.as_os_str().is_empty() {
