@@ -523,6 +523,12 @@ fn plan_and_budget_options() {
         budget(&["--hours", "10", "--nights", "3"]),
         "invalid hours asked: give one of --hours H, --hours-per-semester LABEL=H,... or --nights N",
     );
+    // It used to print the table's header alone.
+    check_cli(
+        "V17",
+        &["next", "--rows", "0"],
+        "--rows 0 would show no row: give 1 or more (leave --rows out for all)",
+    );
     run(
         "H6",
         budget(&["--hours-per-semester", "2031A=5"]),

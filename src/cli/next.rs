@@ -30,6 +30,9 @@ pub struct Args {
 
 /// Run `rung next`.
 pub fn run(a: Args) -> Result<()> {
+    if a.rows == Some(0) {
+        anyhow::bail!("--rows 0 would show no row: give 1 or more (leave --rows out for all)");
+    }
     let plan = match &a.plan {
         Some(p) => {
             let mut plan = rung::plan::file::load(p)?;
