@@ -956,3 +956,89 @@ fn first_planned(p: &PlanFile) -> String {
         .id
         .clone()
 }
+
+/// The seeing and the comment noted with a mark are shown with the done
+/// visit wherever it is listed: the night sheet (a `|` in the comment kept
+/// inside its cell), the calendar (its commas escaped, RFC 5545), the plan's
+/// listing and `rung next`. They used to reach only the CSV and `--json`.
+#[test]
+fn the_seeing_and_comment_noted_are_shown_with_the_done_visit() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let p = make_plan(d);
+    let v = p
+        .visits
+        .iter()
+        .find(|v| v.status == Status::Planned)
+        .unwrap()
+        .clone();
+    let comment = "thin cirrus | gusts, 20 m/s";
+    rung(
+        d,
+        &[
+            "plan",
+            "--load",
+            "p.json",
+            "--done",
+            &v.id,
+            "--observed",
+            &v.start.iso(),
+            "--seeing",
+            "0.85",
+            "--comment",
+            comment,
+        ],
+    );
+    let noted = format!("done (seeing 0.85″, “{comment}”)");
+    // The night sheet's status cell.
+    let (sheet, _) = rung(
+        d,
+        &["plan", "--load", "p.json", "--sheet", &v.night.to_string()],
+    );
+    let row = sheet
+        .lines()
+        .find(|l| l.contains(&format!("| {} |", v.id)))
+        .unwrap_or_else(|| panic!("{} not on the sheet:\n{sheet}", v.id));
+    assert!(
+        row.contains(&format!("| {} |", noted.replace('|', "\\|"))),
+        "{row}"
+    );
+    // Still 13 cells.
+    assert_eq!(row.replace("\\|", "").matches('|').count(), 14, "{row}");
+    // The calendar's description.
+    rung(d, &["plan", "--load", "p.json", "--ics", "p.ics"]);
+    let ics = std::fs::read_to_string(d.join("p.ics"))
+        .unwrap()
+        .replace("\r\n ", "");
+    assert!(ics.contains(&noted.replace(',', "\\,")), "{ics}");
+    // The plan's listing.
+    let (listing, _) = rung(d, &["plan", "--load", "p.json"]);
+    let line = listing.lines().find(|l| l.contains(&v.id)).unwrap();
+    assert!(line.contains(&noted), "{line}");
+    // rung next, just after the visit.
+    let (next, _) = rung(
+        d,
+        &[
+            "next",
+            "--plan",
+            "p.json",
+            "--at",
+            &v.end.add_seconds(60.0).iso(),
+        ],
+    );
+    assert!(
+        next.contains(&format!("seeing 0.85″, “{comment}”")),
+        "{next}"
+    );
+    // A planned visit says "planned" alone.
+    let other = p
+        .visits
+        .iter()
+        .find(|x| x.status == Status::Planned && x.id != v.id && x.night == v.night)
+        .unwrap();
+    let row = sheet
+        .lines()
+        .find(|l| l.contains(&format!("| {} |", other.id)))
+        .unwrap();
+    assert!(row.contains("| planned |"), "{row}");
+}

@@ -530,7 +530,7 @@ fn print_plan(p: &PlanFile, site: &rung::astro::site::Site, sched: Option<&sched
             v.n_exposures,
             v.exptime_s / v.n_exposures.max(1) as f64,
             v.airmass,
-            format!("{:?}", v.status).to_lowercase(),
+            v.status_words(),
             v.cautions.first().map(|c| c.as_str()).unwrap_or("")
         );
     }

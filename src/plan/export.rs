@@ -56,7 +56,7 @@ pub fn visits_csv(visits: &[Visit], site: &Site) -> String {
                 v.n_exposures.to_string(),
                 csv_num(v.snr, 1),
                 csv_num(v.airmass, 3),
-                status_str(v.status).to_string(),
+                v.status.as_str().to_string(),
                 v.cautions.join(" | "),
                 csv_num(v.ra_deg, 6),
                 csv_num(v.dec_deg, 6),
@@ -169,14 +169,6 @@ fn place_text(v: &Visit) -> String {
     match (v.ra_deg, v.dec_deg) {
         (Some(r), Some(d)) => format!("{} {}", ra_hms(r), dec_dms(d)),
         _ => "-".into(),
-    }
-}
-
-fn status_str(s: Status) -> &'static str {
-    match s {
-        Status::Planned => "planned",
-        Status::Done => "done",
-        Status::Lost => "lost",
     }
 }
 
@@ -393,7 +385,7 @@ pub fn ics(visits: &[Visit], site: &Site, stamp: Instant) -> String {
             exposure_text(v),
             snr_text(v),
             v.airmass,
-            status_str(v.status),
+            v.status_words(),
             start.iso(),
             end.iso()
         );
@@ -456,7 +448,7 @@ pub fn night_sheet(visits: &[Visit], site: &Site, night: NaiveDate, header: &str
             md_cell(&exposure_text(v)),
             snr_text(v),
             num(v.airmass, 2),
-            status_str(v.status),
+            md_cell(&v.status_words()),
             md_cell(&v.cautions.join("; ")),
         ));
     }

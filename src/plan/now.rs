@@ -53,17 +53,22 @@ use serde::Serialize;
 /// "visit ID done at HH:MM UTC (HH:MM local)": a done visit at its observed
 /// start ([`Visit::span`]), as the queue's reasons, `rung next` and the Now
 /// view say it; with ", S/N 62 measured" when the observer gave one
-/// ([`Visit::measured_text`]).
+/// ([`Visit::measured_text`]) and the seeing and comment noted
+/// ([`Visit::noted_words`]).
 pub fn done_words(v: &Visit, tz: &chrono_tz::Tz) -> String {
     let t = v.span().0;
     format!(
-        "visit {} done at {} UTC ({} local){}",
+        "visit {} done at {} UTC ({} local){}{}",
         v.id,
         crate::output::clock_hm(t, &chrono_tz::UTC),
         crate::output::clock_hm(t, tz),
         v.measured_text()
             .map(|m| format!(", S/N {m} measured"))
-            .unwrap_or_default()
+            .unwrap_or_default(),
+        v.noted_words()
+            .iter()
+            .map(|w| format!(", {w}"))
+            .collect::<String>()
     )
 }
 

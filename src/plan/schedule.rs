@@ -88,6 +88,17 @@ pub enum Status {
     Lost,
 }
 
+impl Status {
+    /// "planned", "done" or "lost", as every output writes it.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Status::Planned => "planned",
+            Status::Done => "done",
+            Status::Lost => "lost",
+        }
+    }
+}
+
 /// One placed visit.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Visit {
@@ -335,6 +346,33 @@ impl Visit {
                 self.snr_measured.keys().next().map(|k| k.as_str())
             }
             None => None,
+        }
+    }
+
+    /// The seeing and the comment the observer gave with a mark, as
+    /// ["seeing 1.2″", "“thin cirrus”"] (the seeing as typed, the comment on
+    /// one line; empty when neither was given): what the night sheet, the
+    /// calendar, the plan's listing and `rung next` add to a done visit.
+    pub fn noted_words(&self) -> Vec<String> {
+        let mut w = Vec::new();
+        if let Some(s) = self.seeing_arcsec {
+            w.push(format!("seeing {s}″"));
+        }
+        if let Some(c) = self.comment.as_deref().map(str::trim)
+            && !c.is_empty()
+        {
+            w.push(format!("“{}”", crate::output::one_line(c)));
+        }
+        w
+    }
+
+    /// The status with what the observer noted: "done (seeing 1.2″, “thin
+    /// cirrus”)", else "done", "planned", "lost".
+    pub fn status_words(&self) -> String {
+        let status = self.status.as_str();
+        match self.noted_words() {
+            w if w.is_empty() => status.to_string(),
+            w => format!("{status} ({})", w.join(", ")),
         }
     }
 
