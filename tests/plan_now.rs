@@ -168,7 +168,18 @@ fn the_queue_takes_the_largest_rule_and_ranks_by_its_score() {
                 UrgencyRule::OnlyTonight => {}
             }
         }
+        let t = targets.iter().find(|t| t.name == r.target).unwrap();
+        // Every row in a window says why it ranks there.
         if r.visible {
+            assert!(!r.reasons.is_empty(), "{}: no reason", r.target);
+        }
+        if let Some(why) = rung::plan::budget::observed_words(t) {
+            // A supernova already observed: nothing to plan, in the budget's
+            // words, no rule, score 0.
+            assert!(r.reasons.contains(&why), "{}: {:?}", r.target, r.reasons);
+            assert!(r.urgency_rules.is_empty(), "{}", r.target);
+            assert_eq!(r.score, 0.0, "{}", r.target);
+        } else if r.visible {
             let plan_factor = match r.planned_start {
                 Some(t) if t.seconds_since(&now) <= 1800.0 => 1.5,
                 Some(_) => 1.2,
@@ -182,6 +193,21 @@ fn the_queue_takes_the_largest_rule_and_ranks_by_its_score() {
         }
     }
     assert!(!seen.is_empty(), "no rule applied anywhere in the demo");
+    // The demo's supernova of 2024 is up, and follows every visible target
+    // worth a visit (it ranked among them with no reason before).
+    let sn = q.rows.iter().find(|r| r.target == "LPO-S2024a").unwrap();
+    assert!(sn.visible);
+    assert!(
+        q.rows
+            .iter()
+            .filter(|r| r.visible && r.score > 0.0)
+            .all(|r| r.rank < sn.rank)
+    );
+    assert!(
+        sn.reasons[0].starts_with("observed (peak 5.60 ± 0.05 mag given), nothing to plan"),
+        "{:?}",
+        sn.reasons
+    );
     // Visible first, by score.
     for w in q.rows.windows(2) {
         assert!(w[0].visible >= w[1].visible);

@@ -27,6 +27,13 @@
 //! minutes, or passed and not done), 1.2 for one later tonight, 1 for a
 //! target without a visit tonight (still a candidate to fill time).
 //!
+//! A supernova already observed (its fitted peak's error given,
+//! `peak_err_mag`) has nothing to plan, as in the budget
+//! (`plan::budget::observed_words`): its row says so in the budget's words,
+//! no urgency rule applies and its score is 0, so it follows every target in
+//! a window that is worth a visit. A visible target that nothing else
+//! explains says "nothing urgent: ranked by priority and airmass".
+//!
 //! A field is one unit here as in the budget and the plan: one row for the
 //! field (its visits serve every star of its pointing, and its row says how
 //! many), none for each of its stars (`crate::ladder::field::link`).
@@ -332,8 +339,13 @@ pub fn queue(
         if stars > 0 {
             reasons.push(format!("field: one pointing serves its {stars} stars"));
         }
+        // A supernova already observed: nothing to plan (as the budget says).
+        let nothing_to_plan = crate::plan::budget::observed_words(t);
+        reasons.extend(nothing_to_plan.clone());
         let mut rules: Vec<Urgent> = Vec::new();
-        if visible {
+        if nothing_to_plan.is_some() {
+            // No rule makes it urgent.
+        } else if visible {
             let u = window_closing(minutes_left);
             if u > 0.0 {
                 rules.push(Urgent {
@@ -343,7 +355,7 @@ pub fn queue(
                 });
             }
         }
-        if t.kind == Kind::Transient && plan.is_some() {
+        if t.kind == Kind::Transient && plan.is_some() && nothing_to_plan.is_none() {
             let later = mine
                 .iter()
                 .any(|v| v.status == Status::Planned && v.night > night_date);
@@ -356,7 +368,10 @@ pub fn queue(
                 });
             }
         }
-        if let Some(m) = settings.method(t.kind) {
+        if let Some(m) = settings
+            .method(t.kind)
+            .filter(|_| nothing_to_plan.is_none())
+        {
             // The epoch a visit tonight gives: the planned visit's, else now.
             let at = tonight_visit.map_or(now, |v| v.mid());
             // The exposure a visit tonight would take: as expected (a done
@@ -435,7 +450,10 @@ pub fn queue(
                 None => "no window left tonight".into(),
             });
         }
-        let score = if visible {
+        if visible && reasons.is_empty() {
+            reasons.push("nothing urgent: ranked by priority and airmass".into());
+        }
+        let score = if visible && nothing_to_plan.is_none() {
             t.priority.max(1e-3) * (1.0 + 2.0 * urgency) * plan_factor / airmass.unwrap_or(40.0)
         } else {
             0.0

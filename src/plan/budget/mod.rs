@@ -132,9 +132,18 @@ pub struct ObservedRow {
 /// the Budget view).
 pub const OBSERVED_VERDICT: &str = "observed: serves the ladder, not a goal";
 
-/// The budget's line for a supernova already observed (`peak_err_mag`
-/// given): nothing to plan, it serves the ladder. `None` for any other target.
-pub fn observed_row(t: &Target) -> Option<ObservedRow> {
+/// Why a supernova already observed (`peak_err_mag` given) has nothing to
+/// plan, without its name: "observed (peak 5.60 ± 0.05 mag given), nothing
+/// to plan: serves the ladder as a calibrator in LPO-G1". `None` for any
+/// other target. The budget's line ([`observed_row`]) and `rung next`'s
+/// reason say it in these words.
+pub fn observed_words(t: &Target) -> Option<String> {
+    observed_parts(t).map(|(_, why)| why)
+}
+
+/// What a supernova already observed serves (`calibrator` or
+/// `hubble_flow`) and [`observed_words`].
+fn observed_parts(t: &Target) -> Option<(&'static str, String)> {
     if t.kind != Kind::Transient || t.peak_err_mag.is_none() {
         return None;
     }
@@ -161,6 +170,16 @@ pub fn observed_row(t: &Target) -> Option<ObservedRow> {
             )
         })
         .unwrap_or_else(|| format!("peak error {} mag", num(t.peak_err_mag.unwrap_or(0.0), 2)));
+    Some((
+        serves,
+        format!("observed ({peak} given), nothing to plan: serves the ladder {role}"),
+    ))
+}
+
+/// The budget's line for a supernova already observed (`peak_err_mag`
+/// given): nothing to plan, it serves the ladder. `None` for any other target.
+pub fn observed_row(t: &Target) -> Option<ObservedRow> {
+    let (serves, why) = observed_parts(t)?;
     Some(ObservedRow {
         target: t.name.clone(),
         kind: t.kind,
@@ -169,10 +188,7 @@ pub fn observed_row(t: &Target) -> Option<ObservedRow> {
         peak_mag: t.peak_mag,
         peak_err_mag: t.peak_err_mag,
         counted_as_goal: false,
-        text: format!(
-            "{}: observed ({peak} given), nothing to plan: serves the ladder {role}, not counted as a goal",
-            t.name
-        ),
+        text: format!("{}: {why}, not counted as a goal", t.name),
     })
 }
 
