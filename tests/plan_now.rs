@@ -226,3 +226,29 @@ fn the_queue_takes_the_largest_rule_and_ranks_by_its_score() {
         .collect();
     assert!(names.iter().all(|n| seen.contains(n)));
 }
+
+/// `rung next` in daylight says each row's Sun caution once, first in its
+/// why (it printed "SUN CAUTION: SUN CAUTION: target is ..."), and the
+/// caution's advice whole.
+#[test]
+fn rung_next_says_the_sun_caution_once() {
+    let cfg = tempfile::tempdir().unwrap();
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args(["next", "--at", "2026-12-02T16:00:00Z"])
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .env("RUNG_CONFIG_DIR", cfg.path())
+        .output()
+        .unwrap();
+    assert!(o.status.success());
+    let out = String::from_utf8_lossy(&o.stdout);
+    let cautioned: Vec<&str> = out.lines().filter(|l| l.contains("SUN CAUTION")).collect();
+    assert!(!cautioned.is_empty(), "{out}");
+    for l in cautioned {
+        assert_eq!(l.matches("SUN CAUTION").count(), 1, "{l}");
+        assert!(
+            l.contains("SUN CAUTION: target is ")
+                && l.contains("without the observatory's own safety clearance"),
+            "{l}"
+        );
+    }
+}

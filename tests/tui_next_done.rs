@@ -221,6 +221,101 @@ fn a_slip_in_the_mark_prompt_keeps_the_prompt() {
     }
 }
 
+/// The selected row's "why" is shown whole at 80×24, wrapped onto the lines
+/// under the table (it was one line, cut at the 80th column: a done visit's
+/// seeing and comment, or most of a Sun caution, were never seen), in the
+/// words `rung next` prints (`NowRow::why`), the Sun caution said once (it
+/// used to read "SUN CAUTION: SUN CAUTION: ..." here and in `rung next`).
+#[test]
+fn the_selected_rows_why_is_shown_whole_and_the_sun_caution_once() {
+    let cfg = tempfile::tempdir().unwrap();
+    // SAFETY: set before any other thread of this test binary reads it.
+    unsafe { std::env::set_var("RUNG_CONFIG_DIR", cfg.path()) };
+    let (mut s, mut plan) = next_view_with_plan(None);
+    let (st, targets, now) = (s.settings.clone(), demo_targets(), s.now);
+    // A visit of tonight marked done before now, with seeing and a comment.
+    let v = plan
+        .visits
+        .iter_mut()
+        .filter(|v| v.night.to_string() == "2026-12-01" && v.status == Status::Planned)
+        .min_by(|a, b| a.start.partial_cmp(&b.start).unwrap())
+        .expect("a visit tonight");
+    v.status = Status::Done;
+    v.observed = Some(now.add_seconds(-1800.0));
+    v.seeing_arcsec = Some(1.25);
+    v.comment = Some("thin cirrus to the west, wind 12 m/s from the north".into());
+    let target = v.target.clone();
+    // The words shown under the table, joined where they wrap.
+    let why_on_screen = |s: &rung::tui::state::State, target: &str| -> String {
+        let (rows, _) = screen(s, 80, 24);
+        let at = rows
+            .iter()
+            .position(|r| r.starts_with(&format!("{target}: ")))
+            .unwrap_or_else(|| {
+                panic!(
+                    "no why of {target}:
+{}",
+                    rows.join("\n")
+                )
+            });
+        rows[at..at + 3]
+            .iter()
+            .map(|r| r.trim_end())
+            .collect::<Vec<_>>()
+            .join(" ")
+    };
+    let q = rung::plan::now::queue(&st, &targets, Some(&plan), now).unwrap();
+    s.next_sel = q.rows.iter().position(|r| r.target == target).unwrap();
+    let why = q.rows[s.next_sel].why();
+    assert!(
+        why.contains("seeing 1.25″, “thin cirrus to the west"),
+        "{why}"
+    );
+    let full = format!("{target}: {why}");
+    assert!(
+        full.chars().count() > 80 && full.chars().count() <= 3 * 78,
+        "{full}"
+    );
+    s.next = Some(NextData {
+        at: now,
+        queue: Ok(q),
+        plan: Some(plan.clone()),
+        note: None,
+    });
+    let shown = why_on_screen(&s, &target);
+    assert!(shown.starts_with(&full), "{full}\n{shown}");
+    // In daylight: a row with the Sun caution says it once, first.
+    let day = rung::astro::time::parse_instant("2026-12-02T16:00:00Z").unwrap();
+    let q = rung::plan::now::queue(&st, &targets, Some(&plan), day).unwrap();
+    let k = q
+        .rows
+        .iter()
+        .position(|r| r.sun_caution.is_some())
+        .expect("a cautioned row in daylight");
+    let r = &q.rows[k];
+    let why = r.why();
+    assert!(why.starts_with("SUN CAUTION: target is "), "{why}");
+    assert_eq!(why.matches("SUN CAUTION").count(), 1, "{why}");
+    s.next_sel = k;
+    let cautioned = r.target.clone();
+    s.next = Some(NextData {
+        at: day,
+        queue: Ok(q),
+        plan: Some(plan),
+        note: None,
+    });
+    let shown = why_on_screen(&s, &cautioned);
+    assert!(
+        shown.starts_with(&format!("{cautioned}: SUN CAUTION: target is ")),
+        "{shown}"
+    );
+    assert_eq!(shown.matches("SUN CAUTION").count(), 1, "{shown}");
+    assert!(
+        shown.contains("without the observatory's own safety clearance"),
+        "{shown}"
+    );
+}
+
 /// The demo state at 80×24 in the Next view at `test_now()` (01:00 UTC,
 /// 22:00 local: the demo site's zone is UTC-3) with a plan of the nights of
 /// 2026-12-01 and 02 (its methods planning to `horizon_to` when given), the

@@ -110,10 +110,7 @@ pub fn run(a: Args) -> Result<()> {
         } else {
             "-".into()
         };
-        let mut why = r.reasons.join("; ");
-        if let Some(c) = &r.sun_caution {
-            why = format!("SUN CAUTION: {c}; {why}");
-        }
+        let why = r.why();
         super::outln!(
             "  {:>2} {:<14} {:<16} {:>5.1} {:>+6.2} {:>5} {:>5.0} {:>5}  {:<22} {}",
             r.rank,

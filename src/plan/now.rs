@@ -132,6 +132,20 @@ pub struct NowRow {
     pub score: f64,
 }
 
+impl NowRow {
+    /// The row's "why" as `rung next` and the Next view print it: the Sun
+    /// caution first (its own words, "SUN CAUTION: ..."), then the reasons,
+    /// joined by "; ".
+    pub fn why(&self) -> String {
+        self.sun_caution
+            .iter()
+            .chain(&self.reasons)
+            .map(String::as_str)
+            .collect::<Vec<_>>()
+            .join("; ")
+    }
+}
+
 /// The ranked queue at one instant.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Queue {

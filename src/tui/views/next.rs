@@ -4,13 +4,17 @@
 //!
 //! Layout: a heading line (instant, Sun, plan), one line per row (rank,
 //! visibility glyph, target, visit, altitude, hour angle, airmass, Moon
-//! distance, minutes left, exposure), then the selected row's reasons and
-//! the keys, or the line being typed for a visit marked done.
+//! distance, minutes left, exposure), then the selected row's reasons
+//! (wrapped onto up to three lines, kept for them) and the keys, or the
+//! line being typed for a visit marked done.
 
-use super::fmt::{fit, num, put};
+use super::fmt::{fit, num, put, wrap};
 use crate::tui::state::State;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
+
+/// The most lines the selected row's reasons take under the table.
+const WHY_LINES: usize = 3;
 
 /// Draw the Next view.
 pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
@@ -73,7 +77,29 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         area.width,
         th.dim(),
     );
-    let foot = 3u16;
+    // The selected row's reasons, whole: wrapped onto up to WHY_LINES
+    // lines (a Sun caution first), always that many kept for them so that
+    // the table does not change height as the selection moves.
+    let why_lines: Vec<String> = q
+        .rows
+        .get(s.next_sel)
+        .map(|r| {
+            let mut lines = wrap(&format!("{}: {}", r.target, r.why()), area.width as usize);
+            if lines.len() > WHY_LINES {
+                lines.truncate(WHY_LINES);
+                if let Some(l) = lines.last_mut() {
+                    // More follows (`rung next` prints it all).
+                    let kept: String = l
+                        .chars()
+                        .take((area.width as usize).saturating_sub(1))
+                        .collect();
+                    *l = format!("{}…", kept.trim_end());
+                }
+            }
+            lines
+        })
+        .unwrap_or_default();
+    let foot = 2 + WHY_LINES as u16;
     let rows_h = area.height.saturating_sub(2 + foot) as usize;
     let first = s.next_sel.saturating_sub(rows_h.saturating_sub(1));
     for (k, r) in q.rows.iter().enumerate().skip(first).take(rows_h) {
@@ -136,23 +162,16 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     }
     let fy = area.y + area.height.saturating_sub(foot);
     if let Some(r) = q.rows.get(s.next_sel) {
-        let mut why = r.reasons.join("; ");
-        if let Some(c) = &r.sun_caution {
-            why = format!("SUN CAUTION: {c}; {why}");
+        let style = if r.sun_caution.is_some() {
+            th.warn()
+        } else {
+            th.text()
+        };
+        for (i, l) in why_lines.iter().enumerate() {
+            put(buf, area.x, fy + i as u16, l, area.width, style);
         }
-        put(
-            buf,
-            area.x,
-            fy,
-            &format!("{}: {why}", r.target),
-            area.width,
-            if r.sun_caution.is_some() {
-                th.warn()
-            } else {
-                th.text()
-            },
-        );
     }
+    let fy = fy + WHY_LINES as u16 - 1;
     let help = match &s.next_prompt {
         // What is typed first, so that it stays on screen as it grows; the
         // hint after it.
