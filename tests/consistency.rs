@@ -482,9 +482,10 @@ fn every_demo_target_agrees_on_every_surface() {
             .cloned()
             .unwrap_or_default();
         let want = format!(
-            "window {} ({} h above the limit)  best {}° airmass {}  Moon {} away",
+            "window {} ({} h above {}°) · best {}° airmass {} · Moon {} away",
             want_window.trim_end_matches('+'),
             fixed(&nr["observable_hours"], 1),
+            settings.limits.min_alt_deg,
             fixed(&nr["max_altitude_deg"], 0),
             fixed(&nr["min_airmass"], 2),
             deg(&nr["moon_separation_deg"]),

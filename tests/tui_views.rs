@@ -156,6 +156,19 @@ fn tonight_80x24_chart_and_events() {
         tr.contains(&format!("transit {}", local_hm(tn.transit.t.unwrap()))),
         "{tr}"
     );
+    // The target's lines fit 80 columns: each ends with its last figure
+    // (they were cut at "Moon 144° awa" and "priority" without its value).
+    let t = &demo_targets()[0];
+    assert!(line.trim_end().ends_with(" away"), "{line}");
+    assert!(line.contains(" h above 30°) · best "), "{line}");
+    assert!(
+        tr.contains(&format!(
+            " · goal {}% · pri {}",
+            t.goal_pct.unwrap(),
+            t.priority
+        )),
+        "{tr}"
+    );
     // Local hour labels under the chart.
     let axis = rows
         .iter()

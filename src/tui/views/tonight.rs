@@ -217,12 +217,12 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             buf,
             area.x,
             dy,
-            &target_line(t, r, site),
+            &target_line(r, site, s.settings.limits.min_alt_deg),
             area.width,
             th.text(),
         );
         let id = format!(
-            "rise {} transit {} set {}  RA {} Dec {}  goal {}  priority {}  {}",
+            "rise {} transit {} set {} · RA {} Dec {} · goal {} · pri {} · {}",
             hm(r.night.rise.t, site),
             hm(r.night.transit.t, site),
             hm(r.night.set.t, site),
@@ -268,20 +268,20 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     }
 }
 
-fn target_line(
-    _t: &crate::io::targets::Target,
-    r: &TargetRow,
-    site: &crate::astro::site::Site,
-) -> String {
+/// The selected target's night in one line that fits 80 columns: its main
+/// window, the hours above the altitude limit, its best altitude and
+/// airmass, the Moon's distance.
+fn target_line(r: &TargetRow, site: &crate::astro::site::Site, min_alt_deg: f64) -> String {
     let nt = &r.night;
     let w = nt
         .main_window()
         .map(|w| format!("{}-{}", hm(Some(w.0), site), hm(Some(w.1), site)))
         .unwrap_or_else(|| "none".into());
     format!(
-        "window {} ({:.1} h above the limit)  best {}° airmass {}  Moon {} away",
+        "window {} ({:.1} h above {}°) · best {}° airmass {} · Moon {} away",
         w,
         nt.observable_hours,
+        num(Some(min_alt_deg), 0),
         num(nt.max_altitude_deg, 0),
         num(nt.min_airmass, 2),
         r.moon_separation_deg
