@@ -167,6 +167,18 @@ pub fn fixed(x: f64, dp: usize) -> Option<String> {
     })
 }
 
+/// A gain that is never negative (a fall of σd/d per hour), with `dp`
+/// decimals; a positive one too small to show at `dp` decimals is written
+/// "<0.001" (for `dp` = 3) so that it is not read as none; "—" when not
+/// finite.
+pub fn small_gain(x: f64, dp: usize) -> String {
+    let step = 10f64.powi(-(dp as i32));
+    if x > 0.0 && x < 0.5 * step {
+        return format!("<{step:.dp$}");
+    }
+    fixed(x, dp).unwrap_or_else(|| "—".into())
+}
+
 /// `x` with `dp` decimals and an explicit sign (`+0.25`, `-1.50`; zero is
 /// `+0.00`); `None` when `x` is not finite.
 pub fn signed(x: f64, dp: usize) -> Option<String> {
@@ -562,6 +574,16 @@ impl JsonNest {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_tiny_gain_is_not_written_as_none() {
+        assert_eq!(small_gain(2.5e-5, 3), "<0.001");
+        assert_eq!(small_gain(0.0, 3), "0.000");
+        assert_eq!(small_gain(0.0005, 3), "0.001");
+        assert_eq!(small_gain(0.469, 3), "0.469");
+        assert_eq!(small_gain(1e-4, 2), "<0.01");
+        assert_eq!(small_gain(f64::NAN, 3), "—");
+    }
 
     #[test]
     fn clock_times_are_read_off_the_instant_json_writes() {

@@ -183,8 +183,8 @@ fn print_text(r: &LadderReport, st: &rung::programme::Settings, steps: usize) {
     outln!("Best next hour (fall of the end point's σd/d per telescope hour):");
     for s in r.next.iter().take(steps) {
         outln!(
-            "  {:>8.3} %/h  {:<16} {} ({} h: {} → {})",
-            s.gain_pct_per_hour,
+            "  {:>8} %/h  {:<16} {} ({} h: {} → {})",
+            rung::output::small_gain(s.gain_pct_per_hour, 3),
             s.step.rung.text(),
             s.step.label,
             rung::output::num(s.step.hours, if s.step.hours < 0.1 { 2 } else { 1 }),
@@ -231,8 +231,8 @@ fn print_text(r: &LadderReport, st: &rung::programme::Settings, steps: usize) {
         }
         match (&m.step, m.hours, m.gain_pct_per_hour) {
             (Some(step), Some(h), Some(g)) => outln!(
-                "  {:>8.3} %/h  {:<16} {} ({} h)",
-                g,
+                "  {:>8} %/h  {:<16} {} ({} h)",
+                rung::output::small_gain(g, 3),
                 r.role_text(m),
                 step,
                 rung::output::num(h, if h < 0.1 { 2 } else { 1 })

@@ -43,7 +43,7 @@ pub fn chain_rows(r: &LadderReport) -> Vec<[String; 8]> {
         .map(|d| {
             let gain = r
                 .marginal_of_row(&d.name)
-                .map_or("—".to_string(), |g| n(g, 3));
+                .map_or("—".to_string(), |g| crate::output::small_gain(g, 3));
             [
                 d.section.text().to_string(),
                 d.name.clone(),
@@ -143,7 +143,7 @@ pub fn hours_line(r: &LadderReport) -> String {
 pub fn next_line(s: &crate::ladder::chain::Ranked) -> String {
     format!(
         "  {} %/h  {} ({} h: {} → {})",
-        rfit(&n(s.gain_pct_per_hour, 3), 7),
+        rfit(&crate::output::small_gain(s.gain_pct_per_hour, 3), 7),
         s.step.label,
         n(s.step.hours, if s.step.hours < 0.1 { 2 } else { 1 }),
         pct(s.before_pct, 2),
