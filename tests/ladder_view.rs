@@ -212,6 +212,16 @@ fn the_ladder_view_shows_the_numbers_of_rung_ladder_json() {
                 )),
                 "{line}"
             );
+            // The σd/d after the step, then the step whole, also at 80
+            // columns (the line used to be cut inside its last figure).
+            assert!(
+                line.contains(&format!("→ {}% in ", n(f(&step["after_pct"]), 2))),
+                "{line}"
+            );
+            assert!(
+                line.trim_end().ends_with(step["label"].as_str().unwrap()),
+                "{line}"
+            );
         }
     }
     // J scrolls the chain (more rows than fit at 80×24).

@@ -400,6 +400,16 @@ fn phase_view_shows_the_pulsator_analysis_at_both_sizes() {
             &rows,
             "LPO-P01 is a parallax target: the Phase view is for pulsators"
         ));
+        // Whole at 80 columns too (it was cut before "↑/↓)").
+        let said: String = rows[4..7]
+            .iter()
+            .map(|l| l.trim_end())
+            .collect::<Vec<_>>()
+            .join(" ");
+        assert!(
+            said.contains("the Phase view is for pulsators (choose one with ↑/↓)"),
+            "{said}"
+        );
         select(&mut s, "LPO-C03");
         let (rows, _) = screen(&s, w, h);
         assert!(

@@ -139,15 +139,16 @@ pub fn hours_line(r: &LadderReport) -> String {
     format!("Hours: {} = {} h", parts.join(" · "), n(total, 1))
 }
 
-/// One step of the best next hours.
+/// One step of the best next hours: the gain, the end point's σd/d after it
+/// (before it is the end point's line above) and the hours it takes, then
+/// the step (last: a long label is what gets cut at 80 columns).
 pub fn next_line(s: &crate::ladder::chain::Ranked) -> String {
     format!(
-        "  {} %/h  {} ({} h: {} → {})",
+        "{} %/h  → {} in {} h  {}",
         rfit(&crate::output::small_gain(s.gain_pct_per_hour, 3), 7),
-        s.step.label,
+        pct(s.after_pct, 2),
         n(s.step.hours, if s.step.hours < 0.1 { 2 } else { 1 }),
-        pct(s.before_pct, 2),
-        pct(s.after_pct, 2)
+        s.step.label,
     )
 }
 

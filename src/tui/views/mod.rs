@@ -385,7 +385,23 @@ pub fn method_report<'a>(
         }
         Some(MethodBody::NotApplicable(m)) | Some(MethodBody::Failed(m)) => {
             title(buf);
-            fmt::put(buf, area.x, area.y + 2, m, area.width, th.notice());
+            // Whole, wrapped onto the lines below the title (a method's
+            // refusal can be long).
+            let lines = fmt::wrap(m, area.width as usize);
+            for (i, l) in lines
+                .iter()
+                .take(area.height.saturating_sub(2) as usize)
+                .enumerate()
+            {
+                fmt::put(
+                    buf,
+                    area.x,
+                    area.y + 2 + i as u16,
+                    l,
+                    area.width,
+                    th.notice(),
+                );
+            }
             None
         }
         Some(b) => Some(b),
