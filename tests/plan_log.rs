@@ -1042,3 +1042,69 @@ fn the_seeing_and_comment_noted_are_shown_with_the_done_visit() {
         .unwrap();
     assert!(row.contains("| planned |"), "{row}");
 }
+
+/// A visit marked done and then lost (its data found unusable) is shown
+/// where it was observed, the attempt's record: the sheet's row at the
+/// observed start, beside the airmass of that time (which the done mark
+/// gave), with the seeing and comment noted. It used to be shown at its
+/// planned start beside the observed time's airmass.
+#[test]
+fn a_done_visit_marked_lost_is_shown_where_it_was_observed() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let p = make_plan(d);
+    let v = p
+        .visits
+        .iter()
+        .find(|v| v.status == Status::Planned)
+        .unwrap()
+        .clone();
+    let observed = v.start.add_seconds(2400.0);
+    rung(
+        d,
+        &[
+            "plan",
+            "--load",
+            "p.json",
+            "--done",
+            &v.id,
+            "--observed",
+            &observed.iso(),
+            "--seeing",
+            "3.5",
+            "--comment",
+            "cloud",
+        ],
+    );
+    let done = file::load(&d.join("p.json")).unwrap();
+    let dv = done.visits.iter().find(|x| x.id == v.id).unwrap().clone();
+    assert_ne!(dv.airmass, v.airmass, "the planned and observed airmass differ");
+    rung(d, &["plan", "--load", "p.json", "--lost", &v.id]);
+    let lost = file::load(&d.join("p.json")).unwrap();
+    let lv = lost.visits.iter().find(|x| x.id == v.id).unwrap();
+    assert_eq!(lv.status, Status::Lost);
+    assert_eq!(lv.observed, Some(observed));
+    assert_eq!(lv.airmass, dv.airmass);
+    assert_eq!(lv.span().0, observed);
+    let site = rung::io::sites::resolve(&lost.site).unwrap();
+    let night = lv.held_night(&site);
+    let (sheet, _) = rung(
+        d,
+        &["plan", "--load", "p.json", "--sheet", &night.to_string()],
+    );
+    let row = sheet
+        .lines()
+        .find(|l| l.contains(&format!("| {} |", v.id)))
+        .unwrap_or_else(|| panic!("{} not on the sheet:\n{sheet}", v.id));
+    let hms = |t: rung::astro::time::Instant| {
+        t.round_to_second()
+            .to_datetime()
+            .format("%H:%M:%S")
+            .to_string()
+    };
+    assert!(row.starts_with(&format!("| {} |", hms(observed))), "{row}");
+    assert!(
+        row.contains(&format!("| {:.2} | lost (seeing 3.5″, “cloud”) |", dv.airmass)),
+        "{row}"
+    );
+}

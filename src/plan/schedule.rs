@@ -161,25 +161,31 @@ impl Visit {
         a.add_seconds(b.seconds_since(&a) / 2.0)
     }
 
-    /// The span a visit occupies for the re-plan: a done visit with its
-    /// observed time (the done time) as observed, from that instant for
-    /// the visit's duration; any other visit as planned. Spacing to a
-    /// target's other visits is counted from this span's middle, so a visit
-    /// marked done earlier or later than planned moves what may follow it.
+    /// The span a visit occupies for the re-plan and as shown: a visit with
+    /// an observed time (marked done, or marked done and then lost: the
+    /// attempt, whose airmass and caution the done mark gave) from that
+    /// instant for the visit's duration; any other visit as planned.
+    /// Spacing to a target's other visits is counted from a done visit's
+    /// span's middle, so a visit marked done earlier or later than planned
+    /// moves what may follow it (a lost visit holds no time in a re-plan).
     pub fn span(&self) -> (Instant, Instant) {
         match (self.status, self.observed) {
-            (Status::Done, Some(t)) => (t, t.add_seconds(self.end.seconds_since(&self.start))),
+            (Status::Done | Status::Lost, Some(t)) => {
+                (t, t.add_seconds(self.end.seconds_since(&self.start)))
+            }
             _ => (self.start, self.end),
         }
     }
 
     /// The night a visit belongs to as shown and as held by a re-plan: for a
-    /// done visit with an observed time, the night its span's middle falls
-    /// in (a visit observed on another night than planned moves to it);
-    /// for any other, its planned night.
+    /// visit with an observed time (done, or done and then lost), the night
+    /// its span's middle falls in (a visit observed on another night than
+    /// planned moves to it); for any other, its planned night.
     pub fn held_night(&self, site: &Site) -> NaiveDate {
         match (self.status, self.observed) {
-            (Status::Done, Some(_)) => crate::astro::night::night_of(site, self.mid()),
+            (Status::Done | Status::Lost, Some(_)) => {
+                crate::astro::night::night_of(site, self.mid())
+            }
             _ => self.night,
         }
     }
