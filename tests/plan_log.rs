@@ -1078,7 +1078,10 @@ fn a_done_visit_marked_lost_is_shown_where_it_was_observed() {
     );
     let done = file::load(&d.join("p.json")).unwrap();
     let dv = done.visits.iter().find(|x| x.id == v.id).unwrap().clone();
-    assert_ne!(dv.airmass, v.airmass, "the planned and observed airmass differ");
+    assert_ne!(
+        dv.airmass, v.airmass,
+        "the planned and observed airmass differ"
+    );
     rung(d, &["plan", "--load", "p.json", "--lost", &v.id]);
     let lost = file::load(&d.join("p.json")).unwrap();
     let lv = lost.visits.iter().find(|x| x.id == v.id).unwrap();
@@ -1104,7 +1107,53 @@ fn a_done_visit_marked_lost_is_shown_where_it_was_observed() {
     };
     assert!(row.starts_with(&format!("| {} |", hms(observed))), "{row}");
     assert!(
-        row.contains(&format!("| {:.2} | lost (seeing 3.5″, “cloud”) |", dv.airmass)),
+        row.contains(&format!(
+            "| {:.2} | lost (seeing 3.5″, “cloud”) |",
+            dv.airmass
+        )),
         "{row}"
     );
+}
+
+/// A rebuild whose log marks a visit the plan made again does not hold (a
+/// log written by hand, or the targets file or rung's scheduler changed
+/// since) keeps the logged visit and says so, naming the log's line: it used
+/// to add it beside the plan's own visit of that time without a word. A
+/// rebuild whose marks all match says nothing.
+#[test]
+fn a_rebuild_names_a_logged_visit_the_plan_does_not_hold() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let p = make_plan(d);
+    let path = d.join("p.json");
+    let now = rung::astro::time::parse_instant(NOW).unwrap();
+    let mut v = p.visits[0].clone();
+    v.status = Status::Done;
+    v.id = format!("{}#99", v.target);
+    log::append(
+        &log::log_path(&path),
+        &p,
+        Event::Done(Box::new(v.clone())),
+        now,
+    )
+    .unwrap();
+    let (_, err) = rung(d, &["plan", "--rebuild", "p.log.csv", "--save", "q.json"]);
+    let want = format!(
+        "rung: warning: p.log.csv, line 3: visit {} (done) is not in the plan made again from the log's settings (the targets file or rung's scheduler changed since it was logged): kept as logged, beside the plan's own visits of {}; a --replan places the rest around it",
+        v.id, v.target
+    );
+    assert!(err.contains(&want), "{err}");
+    let q = file::load(&d.join("q.json")).unwrap();
+    assert!(
+        q.visits
+            .iter()
+            .any(|x| x.id == v.id && x.status == Status::Done)
+    );
+    // The marks of the plan's own visits say nothing.
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let p = make_plan(d);
+    rung(d, &["plan", "--load", "p.json", "--done", &p.visits[0].id]);
+    let (_, err) = rung(d, &["plan", "--rebuild", "p.log.csv", "--save", "q.json"]);
+    assert!(!err.contains("warning"), "{err}");
 }

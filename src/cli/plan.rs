@@ -197,7 +197,10 @@ pub fn run_plan(a: PlanArgs) -> Result<()> {
     let mut p = match plan.take() {
         Some(_) if a.rebuild.is_some() => {
             let log = a.rebuild.as_ref().expect("checked");
-            let p = rung::plan::log::rebuild(log, &st, &targets)?;
+            let (p, notes) = rung::plan::log::rebuild(log, &st, &targets)?;
+            for n in &notes {
+                eprintln!("rung: warning: {n}");
+            }
             eprintln!(
                 "rung: rebuilt {} visits ({} done, {} lost) from {}",
                 p.visits.len(),

@@ -75,6 +75,8 @@ pub struct Entry {
     pub logged: Instant,
     /// What happened.
     pub event: Event,
+    /// The line of the log it was read from (`None` for one just written).
+    pub line: Option<usize>,
 }
 
 /// The log of a plan file: `plan.json` → `plan.log.csv`, beside it.
@@ -289,7 +291,12 @@ pub fn read(path: &Path) -> Result<Vec<Entry>> {
                 ));
             }
         };
-        out.push(Entry { seq, logged, event });
+        out.push(Entry {
+            seq,
+            logged,
+            event,
+            line: Some(line),
+        });
     }
     Ok(out)
 }
@@ -302,6 +309,7 @@ pub fn append(path: &Path, plan: &PlanFile, event: Event, now: Instant) -> Resul
         seq: last.max(plan.log_seq) + 1,
         logged: now,
         event,
+        line: None,
     };
     let io = |e| RungError::io(path, e);
     let fresh = !path.exists();
@@ -386,7 +394,14 @@ pub fn catch_up(p: &mut PlanFile, log: &Path) -> Result<usize> {
 
 /// Rebuild a plan from its log alone: the settings of its `plan` row, the
 /// plan made again by the scheduler, then every mark and re-plan replayed.
-pub fn rebuild(log: &Path, settings: &Settings, targets: &[Target]) -> Result<PlanFile> {
+/// Returns the plan and a note for each mark whose visit the plan made
+/// again does not hold (the targets file or the scheduler changed since it
+/// was logged): such a visit is kept as logged, beside the plan's own.
+pub fn rebuild(
+    log: &Path,
+    settings: &Settings,
+    targets: &[Target],
+) -> Result<(PlanFile, Vec<String>)> {
     let entries = read(log)?;
     let Some(Event::Plan(head)) = entries.first().map(|e| &e.event) else {
         return Err(RungError::invalid(
@@ -404,10 +419,23 @@ pub fn rebuild(log: &Path, settings: &Settings, targets: &[Target]) -> Result<Pl
         p.replan(settings, targets, at, Some(hours), None)
             .map(|_| ())
     };
+    let mut notes = Vec::new();
     for e in &entries {
+        if let Event::Done(v) | Event::Lost(v) = &e.event
+            && p.visits.iter().all(|x| x.id != v.id)
+        {
+            notes.push(format!(
+                "{}{}: visit {} ({}) is not in the plan made again from the log's settings (the targets file or rung's scheduler changed since it was logged): kept as logged, beside the plan's own visits of {}; a --replan places the rest around it",
+                log.display(),
+                e.line.map(|l| format!(", line {l}")).unwrap_or_default(),
+                v.id,
+                v.status.as_str(),
+                v.target
+            ));
+        }
         apply(&mut p, e, Some(&replan))?;
     }
-    Ok(p)
+    Ok((p, notes))
 }
 
 /// Save the plan atomically (its `log_seq` says which log rows it holds).
