@@ -948,6 +948,37 @@ fn now_is_the_present_of_a_replan_and_a_mark() {
 }
 
 /// The id of the plan's first planned visit.
+/// `rung plan --load p.json --done ID --observed T --seeing S --comment C`.
+fn mark_done_noted(dir: &Path, id: &str, observed: &str, seeing: &str, comment: &str) {
+    rung(
+        dir,
+        &[
+            "plan",
+            "--load",
+            "p.json",
+            "--done",
+            id,
+            "--observed",
+            observed,
+            "--seeing",
+            seeing,
+            "--comment",
+            comment,
+        ],
+    );
+}
+
+/// The night sheet of `night` and its row of the visit `id`.
+fn sheet_row(dir: &Path, night: &str, id: &str) -> (String, String) {
+    let (sheet, _) = rung(dir, &["plan", "--load", "p.json", "--sheet", night]);
+    let row = sheet
+        .lines()
+        .find(|l| l.contains(&format!("| {id} |")))
+        .unwrap_or_else(|| panic!("{id} not on the sheet:\n{sheet}"))
+        .to_string();
+    (sheet, row)
+}
+
 fn first_planned(p: &PlanFile) -> String {
     p.visits
         .iter()
@@ -973,32 +1004,10 @@ fn the_seeing_and_comment_noted_are_shown_with_the_done_visit() {
         .unwrap()
         .clone();
     let comment = "thin cirrus | gusts, 20 m/s";
-    rung(
-        d,
-        &[
-            "plan",
-            "--load",
-            "p.json",
-            "--done",
-            &v.id,
-            "--observed",
-            &v.start.iso(),
-            "--seeing",
-            "0.85",
-            "--comment",
-            comment,
-        ],
-    );
+    mark_done_noted(d, &v.id, &v.start.iso(), "0.85", comment);
     let noted = format!("done (seeing 0.85″, “{comment}”)");
     // The night sheet's status cell.
-    let (sheet, _) = rung(
-        d,
-        &["plan", "--load", "p.json", "--sheet", &v.night.to_string()],
-    );
-    let row = sheet
-        .lines()
-        .find(|l| l.contains(&format!("| {} |", v.id)))
-        .unwrap_or_else(|| panic!("{} not on the sheet:\n{sheet}", v.id));
+    let (sheet, row) = sheet_row(d, &v.night.to_string(), &v.id);
     assert!(
         row.contains(&format!("| {} |", noted.replace('|', "\\|"))),
         "{row}"
@@ -1060,22 +1069,7 @@ fn a_done_visit_marked_lost_is_shown_where_it_was_observed() {
         .unwrap()
         .clone();
     let observed = v.start.add_seconds(2400.0);
-    rung(
-        d,
-        &[
-            "plan",
-            "--load",
-            "p.json",
-            "--done",
-            &v.id,
-            "--observed",
-            &observed.iso(),
-            "--seeing",
-            "3.5",
-            "--comment",
-            "cloud",
-        ],
-    );
+    mark_done_noted(d, &v.id, &observed.iso(), "3.5", "cloud");
     let done = file::load(&d.join("p.json")).unwrap();
     let dv = done.visits.iter().find(|x| x.id == v.id).unwrap().clone();
     assert_ne!(
@@ -1091,14 +1085,7 @@ fn a_done_visit_marked_lost_is_shown_where_it_was_observed() {
     assert_eq!(lv.span().0, observed);
     let site = rung::io::sites::resolve(&lost.site).unwrap();
     let night = lv.held_night(&site);
-    let (sheet, _) = rung(
-        d,
-        &["plan", "--load", "p.json", "--sheet", &night.to_string()],
-    );
-    let row = sheet
-        .lines()
-        .find(|l| l.contains(&format!("| {} |", v.id)))
-        .unwrap_or_else(|| panic!("{} not on the sheet:\n{sheet}", v.id));
+    let (_, row) = sheet_row(d, &night.to_string(), &v.id);
     let hms = |t: rung::astro::time::Instant| {
         t.round_to_second()
             .to_datetime()

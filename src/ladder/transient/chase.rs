@@ -414,6 +414,14 @@ pub(crate) struct RowInput<'a> {
 /// One night of the chase: window after `not_before`, the epoch at the
 /// highest point in the longest window, each band's magnitude and exposure,
 /// and (unclassified targets) the classification spectrum's exposure.
+/// Whether a predicted magnitude is fainter than any exposure reaches
+/// (`bounds::MAG`): the supernova has faded past anything measured (a
+/// discovery long past, or a date typed wrong). The night's row and the
+/// chase's note say so in these terms.
+pub(crate) fn faded_past_any_exposure(mag: f64) -> bool {
+    mag > crate::bounds::MAG.max
+}
+
 pub(crate) fn night_row(
     s: &Setting,
     em: &dyn ExposureModel,
@@ -549,7 +557,7 @@ pub(crate) fn night_row(
                 }),
                 Err(e) => {
                     first_err.get_or_insert_with(|| {
-                        if mag > crate::bounds::MAG.max {
+                        if faded_past_any_exposure(mag) {
                             // Faded past anything measured (a discovery
                             // date long past, or one typed wrong): said
                             // plainly, not as a refused magnitude.

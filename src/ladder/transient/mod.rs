@@ -1011,7 +1011,7 @@ impl TransientMethod {
         }
         // Faded past anything measured on every observable night: most
         // likely a discovery date long past, or typed wrong.
-        let faded = |n: &ChaseNight| n.expected_mag.is_some_and(|m| m > crate::bounds::MAG.max);
+        let faded = |n: &ChaseNight| n.expected_mag.is_some_and(chase::faded_past_any_exposure);
         if n_use == 0
             && let Some(n) = nights.iter().find(|n| faded(n))
             && nights
