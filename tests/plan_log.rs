@@ -947,7 +947,6 @@ fn now_is_the_present_of_a_replan_and_a_mark() {
     }
 }
 
-/// The id of the plan's first planned visit.
 /// `rung plan --load p.json --done ID --observed T --seeing S --comment C`.
 fn mark_done_noted(dir: &Path, id: &str, observed: &str, seeing: &str, comment: &str) {
     rung(
@@ -979,6 +978,7 @@ fn sheet_row(dir: &Path, night: &str, id: &str) -> (String, String) {
     (sheet, row)
 }
 
+/// The id of the plan's first planned visit.
 fn first_planned(p: &PlanFile) -> String {
     p.visits
         .iter()
