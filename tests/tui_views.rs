@@ -786,6 +786,12 @@ fn budget_view_and_export_match_the_library_budget() {
     typed(&mut s, out.to_str().unwrap());
     key(&mut s, KeyCode::Enter);
     assert!(s.overlay.is_none());
+    // The keys line names the folder exports go to, its end kept at 80
+    // columns (it used to be cut before the folder).
+    let (rows, _) = screen(&s, 80, 24);
+    let keys = row_of(&rows, ": export to ");
+    assert!(keys.trim_end().ends_with("for the proposal"), "{keys}");
+    assert!(keys.chars().count() <= 80, "{keys}");
     let a = b.allocation.as_ref().unwrap();
     for (w, h) in [(80u16, 24u16), (160, 48)] {
         let (rows, _) = screen(&s, w, h);

@@ -12,7 +12,7 @@ use crate::tui::keymap::Action;
 use crate::tui::keymap::{Scope, keys_for};
 use crate::tui::state::{State, scroll_offset};
 use crate::tui::theme::kind_glyph;
-use crate::tui::views::fmt::{centered, fit, goal, put, rfit};
+use crate::tui::views::fmt::{centered, fit, fit_end, goal, put, rfit};
 use crate::tui::views::overlays::{frame, text_window};
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
@@ -254,15 +254,23 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         buf,
         area.x,
         ty + totals.len() as u16,
-        &format!(
-            "{}: hours & range · X: plan at {:.0} h/night ({}/{}) · {}: export CSV MD TeX SVG PNG to {}",
-            keys_for(Scope::Main, Action::BudgetAsk),
-            s.plan_hours_per_night,
-            keys_for(Scope::Main, Action::PlanHoursDown),
-            keys_for(Scope::Main, Action::PlanHoursUp),
-            keys_for(Scope::Main, Action::Export),
-            s.budget_ask.export_dir.display()
-        ),
+        &{
+            // The export folder last, its end kept when the line is too
+            // long (x names every file it writes, in full).
+            let keys = format!(
+                "{}: hours & range · X: plan at {:.0} h/night ({}/{}) · {}: export to ",
+                keys_for(Scope::Main, Action::BudgetAsk),
+                s.plan_hours_per_night,
+                keys_for(Scope::Main, Action::PlanHoursDown),
+                keys_for(Scope::Main, Action::PlanHoursUp),
+                keys_for(Scope::Main, Action::Export),
+            );
+            let room = (area.width as usize).saturating_sub(keys.chars().count());
+            format!(
+                "{keys}{}",
+                fit_end(&s.budget_ask.export_dir.display().to_string(), room)
+            )
+        },
         area.width,
         th.dim(),
     );

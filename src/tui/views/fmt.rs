@@ -66,6 +66,20 @@ pub fn put(buf: &mut Buffer, x: u16, y: u16, text: &str, w: u16, style: Style) -
         .0
 }
 
+/// `s` in at most `w` columns keeping its end (a path's most telling
+/// part): "…" and the last `w` − 1 characters when it is longer.
+pub fn fit_end(s: &str, w: usize) -> String {
+    let n = s.chars().count();
+    if n <= w {
+        return s.to_string();
+    }
+    if w == 0 {
+        return String::new();
+    }
+    let tail: String = s.chars().skip(n - (w - 1)).collect();
+    format!("…{tail}")
+}
+
 /// Pad or cut `s` to exactly `w` characters.
 pub fn fit(s: &str, w: usize) -> String {
     let n = s.chars().count();
