@@ -251,13 +251,7 @@ fn the_selected_rows_why_is_shown_whole_and_the_sun_caution_once() {
         let at = rows
             .iter()
             .position(|r| r.starts_with(&format!("{target}: ")))
-            .unwrap_or_else(|| {
-                panic!(
-                    "no why of {target}:
-{}",
-                    rows.join("\n")
-                )
-            });
+            .unwrap_or_else(|| panic!("no why of {target}:\n{}", rows.join("\n")));
         rows[at..at + 3]
             .iter()
             .map(|r| r.trim_end())

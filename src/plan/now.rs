@@ -356,10 +356,9 @@ pub fn queue(
         // A supernova already observed: nothing to plan (as the budget says).
         let nothing_to_plan = crate::plan::budget::observed_words(t);
         reasons.extend(nothing_to_plan.clone());
+        // No rule makes a target with nothing to plan urgent.
         let mut rules: Vec<Urgent> = Vec::new();
-        if nothing_to_plan.is_some() {
-            // No rule makes it urgent.
-        } else if visible {
+        if visible && nothing_to_plan.is_none() {
             let u = window_closing(minutes_left);
             if u > 0.0 {
                 rules.push(Urgent {

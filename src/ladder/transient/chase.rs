@@ -411,9 +411,6 @@ pub(crate) struct RowInput<'a> {
     pub not_before: Instant,
 }
 
-/// One night of the chase: window after `not_before`, the epoch at the
-/// highest point in the longest window, each band's magnitude and exposure,
-/// and (unclassified targets) the classification spectrum's exposure.
 /// Whether a predicted magnitude is fainter than any exposure reaches
 /// (`bounds::MAG`): the supernova has faded past anything measured (a
 /// discovery long past, or a date typed wrong). The night's row and the
@@ -422,6 +419,9 @@ pub(crate) fn faded_past_any_exposure(mag: f64) -> bool {
     mag > crate::bounds::MAG.max
 }
 
+/// One night of the chase: window after `not_before`, the epoch at the
+/// highest point in the longest window, each band's magnitude and exposure,
+/// and (unclassified targets) the classification spectrum's exposure.
 pub(crate) fn night_row(
     s: &Setting,
     em: &dyn ExposureModel,
