@@ -416,6 +416,63 @@ fn chase_and_phase_lists_scroll_apart_from_the_selection() {
     );
 }
 
+/// The Chase view's summary and note are shown whole at 80 columns, each on
+/// a second line when it needs one, the nights giving up those rows (they
+/// were cut at the 80th column: "provisional, not observable (the us"); the
+/// list still scrolls to its last night.
+#[test]
+fn the_chase_summary_takes_a_second_line_and_the_list_still_ends_on_its_last_night() {
+    let mut s = demo_state((80, 24));
+    ch(&mut s, '6');
+    s.sel = s
+        .order
+        .iter()
+        .position(|i| s.targets[*i].name == "LPO-T2026b")
+        .unwrap();
+    // (The last target: up, then down to it, to compute its chase.)
+    settle(&mut s, Msg::Act(rung::tui::Action::Up));
+    settle(&mut s, Msg::Act(rung::tui::Action::Down));
+    assert_eq!(s.selected().unwrap().name, "LPO-T2026b");
+    let Some(rung::tui::state::MethodBody::Chase(c)) = s.method_now().cloned() else {
+        panic!("no chase")
+    };
+    let extra = rung::tui::views::chase::extra_rows(&c, 80);
+    assert!(extra >= 1, "the demo's late supernova needs a second line");
+    let rows_shown = 24 - 3 - 5 - extra;
+    let (rows, _) = screen(&s, 80, 24);
+    assert!(
+        has(
+            &rows,
+            &format!("rows 1-{rows_shown} of {} · J/K scroll", c.nights.len())
+        ),
+        "{rows:?}"
+    );
+    // The summary whole, over the lines under the nights.
+    let at = 4 + rows_shown;
+    let under: String = rows[at..at + 2]
+        .iter()
+        .map(|l| l.trim_end())
+        .collect::<Vec<_>>()
+        .join(" ");
+    let verdict = c.verdict.text();
+    assert!(under.starts_with("σd/d "), "{under}");
+    assert!(
+        under.ends_with(&format!("provisional, {verdict}")),
+        "{under}"
+    );
+    // Held at the end of the list: its last night on the last row.
+    for _ in 0..500 {
+        ch(&mut s, 'J');
+    }
+    assert_eq!(s.detail_scroll, c.nights.len() - rows_shown);
+    let (rows, _) = screen(&s, 80, 24);
+    let last = c.nights[c.nights.len() - 1]
+        .night
+        .format("%a %b %d")
+        .to_string();
+    assert!(rows[4 + rows_shown - 1].starts_with(&last), "{rows:?}");
+}
+
 #[test]
 fn unsaved_edits_are_kept_beside_the_file_until_saved() {
     let dir = tempfile::tempdir().unwrap();

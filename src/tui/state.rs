@@ -717,7 +717,9 @@ impl State {
             MethodBody::Field(r) if self.view == View::Phase => {
                 Some(r.stars.len() + FIELD_EXTRA_ROWS)
             }
-            MethodBody::Chase(c) if self.view == View::Chase => Some(c.nights.len()),
+            MethodBody::Chase(c) if self.view == View::Chase => {
+                Some(c.nights.len() + crate::tui::views::chase::extra_rows(c, self.size.0))
+            }
             MethodBody::Parallax(p) if self.view == View::Parallax && !p.epochs.is_empty() => {
                 Some(p.epochs.len())
             }

@@ -2,8 +2,9 @@
 //! night by night the window, the rest-frame phase, the expected magnitude, the
 //! exposure, the Moon, and which nights the chosen cadence observes.
 
+use crate::ladder::transient::Chase;
 use crate::tui::state::{MethodBody, State, View, detail_offset, detail_rows};
-use crate::tui::views::fmt::{fit, goal, hm, num, pct, put, rfit};
+use crate::tui::views::fmt::{fit, goal, hm, num, pct, put, rfit, wrap, wrap_at_most};
 use crate::tui::views::scroll_mark;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
@@ -69,7 +70,6 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     else {
         return;
     };
-    let d = &c.design;
     let cadence = c.cadence_short();
     put(
         buf,
@@ -105,8 +105,11 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     };
     let head = line(cols.map(|c| c.0.to_string()));
     put(buf, area.x, area.y + 1, &head, area.width, th.header());
-    let foot = 3u16;
-    let rows = detail_rows(View::Chase, area.height);
+    // The summary and the note each take a second line when they need it,
+    // from the nights (as `State::detail_len` counts them).
+    let extra = extra_rows(c, area.width);
+    let foot = 3 + extra as u16;
+    let rows = detail_rows(View::Chase, area.height).saturating_sub(extra);
     let off = detail_offset(s.detail_scroll, rows, c.nights.len());
     let fy = area.y + area.height - foot;
     for (k, n) in c.nights.iter().skip(off).take(rows).enumerate() {
@@ -154,23 +157,11 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             }
         }
     }
-    let buy = match &d.budget {
-        Some(b) => format!(
-            "σd/d {} (floor {}) · {} epochs · {} h · {}{}",
-            pct(b.distance_precision_pct, 1),
-            pct(b.floor_pct, 1),
-            d.epochs.len(),
-            num(Some(d.hours_needed), 1),
-            if c.provisional { "provisional, " } else { "" },
-            c.verdict.text()
-        ),
-        None => format!(
-            "{} epochs do not fix the light curve · {}",
-            d.epochs.len(),
-            c.verdict.text()
-        ),
-    };
-    put(buf, area.x, fy, &buy, area.width, th.text());
+    let summary = wrap_at_most(&summary(c), area.width as usize, 2);
+    for (i, l) in summary.iter().enumerate() {
+        put(buf, area.x, fy + i as u16, l, area.width, th.text());
+    }
+    let fy = fy + summary.len().max(1) as u16 - 1;
     // A calibrator: its host's distance and the peak absolute magnitude it
     // calibrates (the numbers of `rung chase` and `rung ladder`), in place
     // of the legend.
@@ -208,8 +199,42 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         }
     };
     put(buf, area.x, fy + 1, &legend, area.width, lst);
+    if let Some((n, warn)) = note(c) {
+        let st = if warn { th.warn() } else { th.dim() };
+        for (i, l) in wrap_at_most(&n, area.width as usize, 2).iter().enumerate() {
+            put(buf, area.x, fy + 2 + i as u16, l, area.width, st);
+        }
+    }
+    scroll_mark(s, area, fy + 1, off, rows, c.nights.len(), buf);
+}
+
+/// The line under the nights: σd/d, epochs, hours and the verdict (the
+/// words of `rung chase`).
+fn summary(c: &Chase) -> String {
+    let d = &c.design;
+    match &d.budget {
+        Some(b) => format!(
+            "σd/d {} (floor {}) · {} epochs · {} h · {}{}",
+            pct(b.distance_precision_pct, 1),
+            pct(b.floor_pct, 1),
+            d.epochs.len(),
+            num(Some(d.hours_needed), 1),
+            if c.provisional { "provisional, " } else { "" },
+            c.verdict.text()
+        ),
+        None => format!(
+            "{} epochs do not fix the light curve · {}",
+            d.epochs.len(),
+            c.verdict.text()
+        ),
+    }
+}
+
+/// The line under the legend and whether it warns: the Sun caution, else
+/// the provisional state, else the chase's first note.
+fn note(c: &Chase) -> Option<(String, bool)> {
     let cl = &c.classification;
-    let provisional = match (cl.night, &cl.spectrum) {
+    let provisional = || match (cl.night, &cl.spectrum) {
         (Some(n), Some(sp)) => format!(
             "PROVISIONAL until classified: spectrum {} ({:.0} s, {} R {:.0})",
             n.format("%b %d"),
@@ -219,14 +244,17 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         ),
         _ => "PROVISIONAL until a spectrum from elsewhere classifies it".to_string(),
     };
-    let note = c
-        .cautions
+    c.cautions
         .first()
-        .map(|n| (format!("☼ {n}"), th.warn()))
-        .or_else(|| c.provisional.then(|| (provisional, th.warn())))
-        .or_else(|| c.notes.first().map(|n| (n.clone(), th.dim())));
-    if let Some((n, st)) = note {
-        put(buf, area.x, fy + 2, &n, area.width, st);
-    }
-    scroll_mark(s, area, fy + 1, off, rows, c.nights.len(), buf);
+        .map(|n| (format!("☼ {n}"), true))
+        .or_else(|| c.provisional.then(|| (provisional(), true)))
+        .or_else(|| c.notes.first().map(|n| (n.clone(), false)))
+}
+
+/// Rows the nights give up at `width` columns: one for the summary and one
+/// for the note when either needs a second line (each is shown on at most
+/// two, "…" ending a longer one).
+pub fn extra_rows(c: &Chase, width: u16) -> usize {
+    let second = |t: &str| usize::from(wrap(t, width as usize).len() > 1);
+    second(&summary(c)) + note(c).map_or(0, |(t, _)| second(&t))
 }

@@ -146,6 +146,20 @@ pub fn wrap(text: &str, w: usize) -> Vec<String> {
     lines
 }
 
+/// [`wrap`] onto at most `n` lines of `w`: when more would follow, the
+/// last line ends with "…" (the command line prints the text whole).
+pub fn wrap_at_most(text: &str, w: usize, n: usize) -> Vec<String> {
+    let mut lines = wrap(text, w);
+    if lines.len() > n {
+        lines.truncate(n);
+        if let Some(l) = lines.last_mut() {
+            let kept: String = l.chars().take(w.saturating_sub(1)).collect();
+            *l = format!("{}…", kept.trim_end());
+        }
+    }
+    lines
+}
+
 /// A form's error under its fields: `text` wrapped to the form's width,
 /// at most two lines (the blank line above the last and the last), ending
 /// on line `last_y` of `inner`.

@@ -8,7 +8,7 @@
 //! (wrapped onto up to three lines, kept for them) and the keys, or the
 //! line being typed for a visit marked done.
 
-use super::fmt::{fit, num, put, wrap};
+use super::fmt::{fit, num, put, wrap_at_most};
 use crate::tui::state::State;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
@@ -84,19 +84,11 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         .rows
         .get(s.next_sel)
         .map(|r| {
-            let mut lines = wrap(&format!("{}: {}", r.target, r.why()), area.width as usize);
-            if lines.len() > WHY_LINES {
-                lines.truncate(WHY_LINES);
-                if let Some(l) = lines.last_mut() {
-                    // More follows (`rung next` prints it all).
-                    let kept: String = l
-                        .chars()
-                        .take((area.width as usize).saturating_sub(1))
-                        .collect();
-                    *l = format!("{}…", kept.trim_end());
-                }
-            }
-            lines
+            wrap_at_most(
+                &format!("{}: {}", r.target, r.why()),
+                area.width as usize,
+                WHY_LINES,
+            )
         })
         .unwrap_or_default();
     let foot = 2 + WHY_LINES as u16;
