@@ -436,7 +436,7 @@ fn the_chase_summary_takes_a_second_line_and_the_list_still_ends_on_its_last_nig
     let Some(rung::tui::state::MethodBody::Chase(c)) = s.method_now().cloned() else {
         panic!("no chase")
     };
-    let extra = rung::tui::views::chase::extra_rows(&c, 80);
+    let extra = rung::tui::views::chase_foot::extra_rows(&c, 80);
     assert!(extra >= 1, "the demo's late supernova needs a second line");
     let rows_shown = 24 - 3 - 5 - extra;
     let (rows, _) = screen(&s, 80, 24);

@@ -718,7 +718,7 @@ impl State {
                 Some(r.stars.len() + FIELD_EXTRA_ROWS)
             }
             MethodBody::Chase(c) if self.view == View::Chase => {
-                Some(c.nights.len() + crate::tui::views::chase::extra_rows(c, self.size.0))
+                Some(c.nights.len() + crate::tui::views::chase_foot::extra_rows(c, self.size.0))
             }
             MethodBody::Parallax(p) if self.view == View::Parallax && !p.epochs.is_empty() => {
                 Some(p.epochs.len())

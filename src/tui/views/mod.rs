@@ -4,6 +4,7 @@
 pub mod budget;
 pub mod chart;
 pub mod chase;
+pub mod chase_foot;
 pub mod fmt;
 pub mod ladder;
 pub mod next;
