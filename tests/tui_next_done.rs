@@ -341,3 +341,45 @@ fn next_view_with_plan(
     });
     (s, plan)
 }
+
+/// A mark done from the Next view is confirmed once, whole, at 80 columns:
+/// the bottom lines say it (wrapped), and the view does not repeat it (it
+/// was said twice, on the view's last line and the message line, both cut
+/// at the 80th column before the plan's file name).
+#[test]
+fn a_mark_done_is_confirmed_once_and_whole_at_80_columns() {
+    let cfg = tempfile::tempdir().unwrap();
+    // SAFETY: set before any other thread of this test binary reads it.
+    unsafe { std::env::set_var("RUNG_CONFIG_DIR", cfg.path()) };
+    let (mut s, plan) = next_view_with_plan(None);
+    let path = cfg.path().join("the plan of the first fortnight.json");
+    rung::plan::file::save(&plan, &path).unwrap();
+    s.plan_file = Some(path.clone());
+    let v = plan
+        .visits
+        .iter()
+        .filter(|v| v.night.to_string() == "2026-12-01" && v.status == Status::Planned)
+        .min_by(|a, b| a.start.partial_cmp(&b.start).unwrap())
+        .expect("a visit tonight")
+        .clone();
+    s.next_prompt = Some((v.id.clone(), String::new()));
+    typed(&mut s, "1.2 snr=80 thin cirrus");
+    key(&mut s, crossterm::event::KeyCode::Enter);
+    assert!(s.next_prompt.is_none());
+    let said = s.message.as_ref().map(|m| m.0.clone()).unwrap_or_default();
+    let head = format!("{} done, started 01:00 UTC (22:00 local)", v.id);
+    assert!(said.starts_with(&head), "{said}");
+    assert!(
+        said.ends_with(&format!("saved to {} and its log", path.display())),
+        "{said}"
+    );
+    assert!(said.chars().count() > 80, "{said}");
+    let (rows, _) = screen(&s, 80, 24);
+    let text = rows
+        .iter()
+        .map(|r| r.trim_end())
+        .collect::<Vec<_>>()
+        .join(" ");
+    assert_eq!(text.matches(&head).count(), 1, "{}", rows.join("\n"));
+    assert!(text.contains(&said), "{said}\n{}", rows.join("\n"));
+}

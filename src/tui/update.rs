@@ -1307,8 +1307,10 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
         }
         Msg::NextReady(d) => {
             if let Some(n) = &d.note {
+                // A mark done is good news, said whole (wrapped at 80
+                // columns, as every message but the passing ones).
                 let warn = n.starts_with("not done");
-                say(s, n, if warn { Level::Warn } else { Level::Info });
+                say(s, n, if warn { Level::Warn } else { Level::Good });
             }
             s.next = Some(*d);
             let n = s

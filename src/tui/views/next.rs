@@ -182,7 +182,11 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
             crate::output::clock_hm(s.now, tz),
         );
         put(buf, area.x, fy + 2, &start, area.width, th.text());
-    } else if let Some(n) = &d.note {
+    } else if let Some(n) = &d.note
+        && s.message.as_ref().map(|m| &m.0) != Some(n)
+    {
+        // The last mark's confirmation, once another message has taken the
+        // bottom line (while it is the message, it is said there, whole).
         put(buf, area.x, fy + 2, n, area.width, th.dim());
     }
 }
