@@ -89,13 +89,7 @@ fn the_mark_prompt_and_its_confirmation_name_the_start_taken() {
     unsafe { std::env::set_var("RUNG_CONFIG_DIR", cfg.path()) };
     let (mut s, plan) = next_view_with_plan(None);
     let (st, targets, now) = (s.settings.clone(), demo_targets(), s.now);
-    let v = plan
-        .visits
-        .iter()
-        .filter(|v| v.night.to_string() == "2026-12-01" && v.status == Status::Planned)
-        .min_by(|a, b| a.start.partial_cmp(&b.start).unwrap())
-        .expect("a visit tonight")
-        .clone();
+    let v = plan.visits[first_planned_tonight(&plan)].clone();
     s.next_prompt = Some((v.id.clone(), "1.2 thin".into()));
     let (rows, _) = screen(&s, 80, 24);
     let tz = &st.site.timezone;
@@ -234,12 +228,8 @@ fn the_selected_rows_why_is_shown_whole_and_the_sun_caution_once() {
     let (mut s, mut plan) = next_view_with_plan(None);
     let (st, targets, now) = (s.settings.clone(), demo_targets(), s.now);
     // A visit of tonight marked done before now, with seeing and a comment.
-    let v = plan
-        .visits
-        .iter_mut()
-        .filter(|v| v.night.to_string() == "2026-12-01" && v.status == Status::Planned)
-        .min_by(|a, b| a.start.partial_cmp(&b.start).unwrap())
-        .expect("a visit tonight");
+    let k = first_planned_tonight(&plan);
+    let v = &mut plan.visits[k];
     v.status = Status::Done;
     v.observed = Some(now.add_seconds(-1800.0));
     v.seeing_arcsec = Some(1.25);
@@ -310,6 +300,22 @@ fn the_selected_rows_why_is_shown_whole_and_the_sun_caution_once() {
     );
 }
 
+/// The index of the first visit planned for tonight (2026-12-01).
+fn first_planned_tonight(plan: &rung::plan::file::PlanFile) -> usize {
+    (0..plan.visits.len())
+        .filter(|k| {
+            let v = &plan.visits[*k];
+            v.night.to_string() == "2026-12-01" && v.status == Status::Planned
+        })
+        .min_by(|a, b| {
+            plan.visits[*a]
+                .start
+                .partial_cmp(&plan.visits[*b].start)
+                .unwrap()
+        })
+        .expect("a visit tonight")
+}
+
 /// The demo state at 80×24 in the Next view at `test_now()` (01:00 UTC,
 /// 22:00 local: the demo site's zone is UTC-3) with a plan of the nights of
 /// 2026-12-01 and 02 (its methods planning to `horizon_to` when given), the
@@ -355,13 +361,7 @@ fn a_mark_done_is_confirmed_once_and_whole_at_80_columns() {
     let path = cfg.path().join("the plan of the first fortnight.json");
     rung::plan::file::save(&plan, &path).unwrap();
     s.plan_file = Some(path.clone());
-    let v = plan
-        .visits
-        .iter()
-        .filter(|v| v.night.to_string() == "2026-12-01" && v.status == Status::Planned)
-        .min_by(|a, b| a.start.partial_cmp(&b.start).unwrap())
-        .expect("a visit tonight")
-        .clone();
+    let v = plan.visits[first_planned_tonight(&plan)].clone();
     s.next_prompt = Some((v.id.clone(), String::new()));
     typed(&mut s, "1.2 snr=80 thin cirrus");
     key(&mut s, crossterm::event::KeyCode::Enter);
