@@ -554,11 +554,11 @@ impl Settings {
         Ok(s)
     }
 
-    /// The range's nights, checked as every plan and budget checks a range
-    /// ([`dates`]); a range a settings file gave is refused there, with
-    /// its file, line and key.
-    pub fn nights(&self) -> Result<Vec<NaiveDate>> {
-        dates(self.from, self.to).map_err(|e| match (&self.range_file, e) {
+    /// How many nights the range holds, checked as every plan and budget
+    /// checks a range ([`range_nights`]); a range a settings file gave is
+    /// refused there, with its file, line and key.
+    pub fn nights(&self) -> Result<usize> {
+        range_nights(self.from, self.to).map_err(|e| match (&self.range_file, e) {
             (Some((l, key)), RungError::Invalid { why, .. }) => l
                 .error_at(
                     &format!("programme.{key}"),
@@ -731,8 +731,15 @@ pub fn warm_nights(site: &Site, from: NaiveDate, to: NaiveDate, targets: &[Targe
     }
 }
 
-/// The dates from `from` to `to` inclusive, checked.
+/// The dates from `from` to `to` inclusive, checked ([`range_nights`]).
 pub fn dates(from: NaiveDate, to: NaiveDate) -> Result<Vec<NaiveDate>> {
+    let n = range_nights(from, to)?;
+    Ok(from.iter_days().take(n).collect())
+}
+
+/// How many nights `from` to `to` holds, inclusive: refused when `to` is
+/// before `from` or when a plan or a budget may not span that many.
+pub fn range_nights(from: NaiveDate, to: NaiveDate) -> Result<usize> {
     if from > to {
         return Err(RungError::invalid(
             "date range",
@@ -748,7 +755,7 @@ pub fn dates(from: NaiveDate, to: NaiveDate) -> Result<Vec<NaiveDate>> {
             ),
         ));
     }
-    Ok(from.iter_days().take(n).collect())
+    Ok(n)
 }
 
 #[cfg(test)]
@@ -904,7 +911,7 @@ mod tests {
         );
         // A range it may span is its nights.
         let short = s.with_range(day("2026-12-01"), day("2026-12-03")).unwrap();
-        assert_eq!(short.nights().unwrap().len(), 3);
+        assert_eq!(short.nights().unwrap(), 3);
     }
 
     #[test]
