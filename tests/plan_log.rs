@@ -1019,7 +1019,13 @@ fn the_seeing_and_comment_noted_are_shown_with_the_done_visit() {
     let ics = std::fs::read_to_string(d.join("p.ics"))
         .unwrap()
         .replace("\r\n ", "");
-    assert!(ics.contains(&noted.replace(',', "\\,")), "{ics}");
+    // The status with its notes ends the sentence: no second parenthesis
+    // beside it (it read "done (seeing …) (UTC … to …)").
+    assert!(
+        ics.contains(&format!("{}.", noted.replace(',', "\\,"))),
+        "{ics}"
+    );
+    assert!(!ics.contains(") ("), "{ics}");
     // The plan's listing.
     let (listing, _) = rung(d, &["plan", "--load", "p.json"]);
     let line = listing.lines().find(|l| l.contains(&v.id)).unwrap();

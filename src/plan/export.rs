@@ -379,15 +379,15 @@ pub fn ics(visits: &[Visit], site: &Site, stamp: Instant) -> String {
             ))
         )));
         let mut d = format!(
-            "Visit {}. RA/Dec (ICRS) {}. {}; SNR {}, airmass {:.2}, {} (UTC {} to {}).",
+            "Visit {}. RA/Dec (ICRS) {}. {}; SNR {}, airmass {:.2}; UTC {} to {}; {}.",
             v.id,
             place_text(v),
             exposure_text(v),
             snr_text(v),
             v.airmass,
-            v.status_words(),
             start.iso(),
-            end.iso()
+            end.iso(),
+            v.status_words()
         );
         if start != v.start {
             d.push_str(&format!(
