@@ -345,7 +345,9 @@ fn chase_and_phase_lists_scroll_apart_from_the_selection() {
     let Some(rung::tui::state::MethodBody::Chase(c)) = s.method_now().cloned() else {
         panic!("no chase")
     };
-    let rows_shown = 24 - 3 - 5;
+    // The rows under the nights: the summary and the notes, each on one
+    // line or two.
+    let rows_shown = 24 - 3 - 5 - rung::tui::views::chase_foot::extra_rows(&c, 80);
     assert!(c.nights.len() > rows_shown, "{} nights", c.nights.len());
     let first_row = |s: &rung::tui::State| {
         let (rows, _) = screen(s, 80, 24);

@@ -264,7 +264,7 @@ pub const KEYMAP: &[Binding] = &[
         S::Main,
         'm',
         A::Notes,
-        "Phase view: all of the report's notes",
+        "all notes: Parallax, Phase, Chase, Budget",
     ),
     ch(S::Main, '/', A::Filter, "filter by typing"),
     ch(S::Main, 'o', A::Sort, "next sort column"),

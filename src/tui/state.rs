@@ -522,8 +522,15 @@ pub enum Question {
     /// The file changed since this session read it and both changed these
     /// targets: overwrite it with this session's programme?
     Overwrite(Vec<String>),
-    /// Every caution and note of the Phase view's report (any key closes it).
-    Notes(Vec<String>),
+    /// Every caution and note of the view's report or the Budget view's
+    /// selected target, from line `scroll` of the window (↑/↓ and the page
+    /// keys scroll it, any other key closes it).
+    Notes {
+        /// The notes, each whole.
+        notes: Vec<String>,
+        /// First line shown.
+        scroll: u16,
+    },
     /// Files written by an export, each named in full (any key closes it).
     Exported(Vec<std::path::PathBuf>),
 }

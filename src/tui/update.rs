@@ -1003,20 +1003,37 @@ fn act_main_inner(s: &mut State, a: Action) -> Option<Effect> {
         Action::Notes => {
             use crate::tui::state::MethodBody;
             let all = match (s.view, s.method_now()) {
+                (View::Budget, _) => s.budget_now().and_then(|b| b.as_ref().ok()).map(|b| {
+                    let name = s.selected().map(|t| t.name.as_str());
+                    crate::tui::views::budget::reason_items(b, name)
+                }),
                 (View::Phase, Some(MethodBody::Phase(r))) => {
                     Some(crate::tui::views::phase::all_notes(&r.cautions, &r.notes))
                 }
                 (View::Phase, Some(MethodBody::Field(r))) => {
                     Some(crate::tui::views::phase::all_notes(&r.cautions, &r.notes))
                 }
+                (View::Parallax, Some(MethodBody::Parallax(p))) => {
+                    Some(crate::tui::views::parallax::note_items(p))
+                }
+                (View::Chase, Some(MethodBody::Chase(c))) => {
+                    Some(crate::tui::views::chase_foot::items(c).0)
+                }
                 _ => None,
             };
             match all {
                 Some(n) if !n.is_empty() => {
-                    s.overlay = Some(Overlay::Question(Question::Notes(n)));
+                    s.overlay = Some(Overlay::Question(Question::Notes {
+                        notes: n,
+                        scroll: 0,
+                    }));
                 }
                 Some(_) => say(s, "this report has no notes", Level::Info),
-                None => say(s, "notes: m opens them in the Phase view (6)", Level::Info),
+                None => say(
+                    s,
+                    "m: notes in the Parallax (4), Phase (5), Chase (6) and Budget (7) views",
+                    Level::Info,
+                ),
             }
             None
         }
@@ -1269,6 +1286,29 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
                 (Scope::Question, _)
                     if matches!(s.overlay, Some(Overlay::Question(Question::Restore(_)))) =>
                 {
+                    None
+                }
+                // The notes window scrolls with the arrows and page keys.
+                (
+                    Scope::Question,
+                    KeyCode::Down | KeyCode::Up | KeyCode::PageDown | KeyCode::PageUp,
+                ) if matches!(s.overlay, Some(Overlay::Question(Question::Notes { .. }))) => {
+                    let body = (s.size.0, s.size.1.saturating_sub(3));
+                    if let Some(Overlay::Question(Question::Notes { notes, scroll })) =
+                        s.overlay.as_mut()
+                    {
+                        let (lines, shown) =
+                            crate::tui::views::overlays::notes_layout(notes, body.0, body.1);
+                        let last = lines.len().saturating_sub(shown) as u16;
+                        let page = (shown as u16).max(1);
+                        *scroll = match k.code {
+                            KeyCode::Down => scroll.saturating_add(1),
+                            KeyCode::Up => scroll.saturating_sub(1),
+                            KeyCode::PageDown => scroll.saturating_add(page),
+                            _ => scroll.saturating_sub(page),
+                        }
+                        .min(last);
+                    }
                     None
                 }
                 // Any other key closes a question with "no".

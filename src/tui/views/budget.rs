@@ -12,7 +12,7 @@ use crate::tui::keymap::Action;
 use crate::tui::keymap::{Scope, keys_for};
 use crate::tui::state::{State, scroll_offset};
 use crate::tui::theme::kind_glyph;
-use crate::tui::views::fmt::{centered, fit, fit_end, goal, put, rfit};
+use crate::tui::views::fmt::{centered, fit, fit_end, goal, note_lines, put, rfit};
 use crate::tui::views::overlays::{frame, text_window};
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
@@ -198,40 +198,9 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     // else the verdict, and the method's notes, each said once; then its
     // σd/d by term.
     let fy = area.y + area.height - foot;
-    let reason = sel_row
-        .map(|i| {
-            let r = &b.rows[i];
-            let (limit, why) = match share_of(i) {
-                Some(sh) => (sh.limit.clone(), sh.why.clone()),
-                None => (r.limit.clone(), r.verdict.text()),
-            };
-            let mut parts = Vec::new();
-            if !limit.is_empty() {
-                parts.push(format!("not met, by {limit}"));
-            }
-            parts.push(why);
-            parts.extend(r.notes.iter().cloned());
-            format!("{}: {}", r.target, once_each(parts).join(" · "))
-        })
-        .or_else(|| {
-            sel_name.as_ref().map(|name| {
-                b.observed
-                    .iter()
-                    .find(|o| &o.target == name)
-                    .map(|o| o.text.clone())
-                    .or_else(|| {
-                        b.skipped
-                            .iter()
-                            .find(|(n, _)| n == name)
-                            .map(|(n, why)| format!("{n}: skipped: {why}"))
-                    })
-                    .unwrap_or_else(|| format!("{name}: not in the budget"))
-            })
-        })
-        .unwrap_or_default();
-    for (k, l) in wrap(&reason, area.width as usize)
+    let reason = reason_items(b, sel_name.as_deref());
+    for (k, l) in note_lines(&reason, area.width as usize, reason_lines as usize)
         .iter()
-        .take(reason_lines as usize)
         .enumerate()
     {
         put(buf, area.x, fy + k as u16, l, area.width, th.notice());
@@ -280,6 +249,48 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
 /// ([`crate::plan::budget::terms_words`]).
 fn terms_part(t: &crate::ladder::ErrorTerm) -> String {
     format!("{} {} %", t.name, crate::output::num(t.distance_pct, 2))
+}
+
+/// What the view says of the selected target `name`, as the view and its
+/// notes window (`m`) give it: what stops its goal (the constraint or the
+/// error term, as `rung budget --json` gives it), its share's why, else
+/// the verdict, and the method's notes, each said once, the first after
+/// the target's name; for a target not budgeted, why.
+pub fn reason_items(b: &crate::plan::budget::Budget, name: Option<&str>) -> Vec<String> {
+    let Some(name) = name else {
+        return Vec::new();
+    };
+    if let Some(i) = b.rows.iter().position(|r| r.target == name) {
+        let r = &b.rows[i];
+        let (limit, why) = match b.allocation.as_ref().and_then(|a| a.shares.get(i)) {
+            Some(sh) => (sh.limit.clone(), sh.why.clone()),
+            None => (r.limit.clone(), r.verdict.text()),
+        };
+        let mut parts = Vec::new();
+        if !limit.is_empty() {
+            parts.push(format!("not met, by {limit}"));
+        }
+        parts.push(why);
+        parts.extend(r.notes.iter().cloned());
+        let mut items = once_each(parts);
+        if let Some(first) = items.first_mut() {
+            *first = format!("{}: {first}", r.target);
+        }
+        return items;
+    }
+    vec![
+        b.observed
+            .iter()
+            .find(|o| o.target == name)
+            .map(|o| o.text.clone())
+            .or_else(|| {
+                b.skipped
+                    .iter()
+                    .find(|(n, _)| n == name)
+                    .map(|(n, why)| format!("{n}: skipped: {why}"))
+            })
+            .unwrap_or_else(|| format!("{name}: not in the budget")),
+    ]
 }
 
 /// Parts of a reason, each said once: a part already said by an earlier

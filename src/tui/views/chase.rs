@@ -4,7 +4,7 @@
 
 use super::chase_foot::{extra_rows, note, summary};
 use crate::tui::state::{MethodBody, State, View, detail_offset, detail_rows};
-use crate::tui::views::fmt::{fit, goal, hm, put, rfit, wrap_at_most};
+use crate::tui::views::fmt::{fit, goal, hm, put, rfit, title_parts, wrap_at_most};
 use crate::tui::views::scroll_mark;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
@@ -75,13 +75,23 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         buf,
         area.x,
         area.y,
-        &format!(
-            "Chase · ✶ {name}{} · {} · max {} (B {:.1}) · goal {}",
-            if c.provisional { " · PROVISIONAL" } else { "" },
-            c.bands.join(""),
-            c.t_max.local(&s.site().timezone).format("%Y-%m-%d"),
-            c.placement.params.m_max,
-            goal(c.goal_pct)
+        &title_parts(
+            &[
+                "Chase".to_string(),
+                format!("✶ {name}"),
+                if c.provisional { "PROVISIONAL" } else { "" }.to_string(),
+                c.bands.join(""),
+                format!(
+                    "max {} (B {:.1})",
+                    c.t_max.local(&s.site().timezone).format("%Y-%m-%d"),
+                    c.placement.params.m_max
+                ),
+                format!("goal {}", goal(c.goal_pct)),
+            ]
+            .into_iter()
+            .filter(|p| !p.is_empty())
+            .collect::<Vec<_>>(),
+            area.width as usize,
         ),
         area.width,
         th.title(),
@@ -199,11 +209,10 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         }
     };
     put(buf, area.x, fy + 1, &legend, area.width, lst);
-    if let Some((n, warn)) = note(c) {
-        let st = if warn { th.warn() } else { th.dim() };
-        for (i, l) in wrap_at_most(&n, area.width as usize, 2).iter().enumerate() {
-            put(buf, area.x, fy + 2 + i as u16, l, area.width, st);
-        }
+    let (lines, warn) = note(c, area.width);
+    let st = if warn { th.warn() } else { th.dim() };
+    for (i, l) in lines.iter().enumerate() {
+        put(buf, area.x, fy + 2 + i as u16, l, area.width, st);
     }
     scroll_mark(s, area, fy + 1, off, rows, c.nights.len(), buf);
 }

@@ -1,10 +1,10 @@
 //! The Chase view's lines under its nights: the summary (σd/d, epochs,
-//! hours, verdict) and the note (the Sun caution, the provisional state or
-//! the chase's first note), and the rows they take from the nights. Apart
+//! hours, verdict) and the notes (the Sun cautions, the provisional state
+//! and the chase's notes, as many as two lines hold, `m` for all), and the rows they take from the nights. Apart
 //! from the view so that the state's scroll limit (`State::detail_len`)
 //! counts the same rows without depending on the view.
 
-use super::fmt::{num, pct, wrap};
+use super::fmt::{note_lines, num, pct, wrap};
 use crate::ladder::transient::Chase;
 
 /// The line under the nights: σd/d, epochs, hours and the verdict (the
@@ -29,11 +29,12 @@ pub fn summary(c: &Chase) -> String {
     }
 }
 
-/// The line under the legend and whether it warns: the Sun caution, else
-/// the provisional state, else the chase's first note.
-pub fn note(c: &Chase) -> Option<(String, bool)> {
+/// Everything the chase notes, in the order the view and its notes window
+/// (`m`) give it: the Sun cautions (☼), the provisional state, then the
+/// chase's notes; and whether the first of them warns.
+pub fn items(c: &Chase) -> (Vec<String>, bool) {
     let cl = &c.classification;
-    let provisional = || match (cl.night, &cl.spectrum) {
+    let provisional = c.provisional.then(|| match (cl.night, &cl.spectrum) {
         (Some(n), Some(sp)) => format!(
             "PROVISIONAL until classified: spectrum {} ({:.0} s, {} R {:.0})",
             n.format("%b %d"),
@@ -42,12 +43,26 @@ pub fn note(c: &Chase) -> Option<(String, bool)> {
             sp.resolution
         ),
         _ => "PROVISIONAL until a spectrum from elsewhere classifies it".to_string(),
-    };
-    c.cautions
-        .first()
-        .map(|n| (format!("☼ {n}"), true))
-        .or_else(|| c.provisional.then(|| (provisional(), true)))
-        .or_else(|| c.notes.first().map(|n| (n.clone(), false)))
+    });
+    let all: Vec<String> = c
+        .cautions
+        .iter()
+        .map(|n| format!("☼ {n}"))
+        .chain(provisional)
+        .chain(c.notes.iter().cloned())
+        .collect();
+    let warn = !c.cautions.is_empty() || c.provisional;
+    (all, warn)
+}
+
+/// The lines under the legend at `width` columns and whether they warn:
+/// [`items`] on one line when the first fits there alone, else on two,
+/// with the count of the rest and the key that opens them (`m`).
+pub fn note(c: &Chase, width: u16) -> (Vec<String>, bool) {
+    let (all, warn) = items(c);
+    let w = width as usize;
+    let one = all.len() == 1 && wrap(&all[0], w).len() == 1;
+    (note_lines(&all, w, if one { 1 } else { 2 }), warn)
 }
 
 /// Rows the nights give up at `width` columns: one for the summary and one
@@ -55,5 +70,5 @@ pub fn note(c: &Chase) -> Option<(String, bool)> {
 /// two, "…" ending a longer one).
 pub fn extra_rows(c: &Chase, width: u16) -> usize {
     let second = |t: &str| usize::from(wrap(t, width as usize).len() > 1);
-    second(&summary(c)) + note(c).map_or(0, |(t, _)| second(&t))
+    second(&summary(c)) + note(c, width).0.len().saturating_sub(1)
 }

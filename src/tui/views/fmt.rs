@@ -80,6 +80,27 @@ pub fn fit_end(s: &str, w: usize) -> String {
     format!("…{tail}")
 }
 
+/// A title of `parts` joined by " · " in at most `w` columns: the parts
+/// in their order, each one whole or left out (the first always, cut
+/// only when it alone is too wide), so that a narrow terminal loses a
+/// late part instead of the end of a figure or its unit.
+pub fn title_parts(parts: &[String], w: usize) -> String {
+    let mut out = String::new();
+    let mut n = 0;
+    for p in parts {
+        let len = p.chars().count();
+        if out.is_empty() {
+            out.push_str(p);
+            n = len;
+        } else if n + 3 + len <= w {
+            out.push_str(" · ");
+            out.push_str(p);
+            n += 3 + len;
+        }
+    }
+    out
+}
+
 /// Pad or cut `s` to exactly `w` characters.
 pub fn fit(s: &str, w: usize) -> String {
     let n = s.chars().count();
@@ -160,6 +181,59 @@ pub fn wrap_at_most(text: &str, w: usize, n: usize) -> Vec<String> {
     lines
 }
 
+/// A report's notes (`items`, each a sentence or more) on at most `n`
+/// lines of `w` columns: all of them whole, wrapped, when they fit; else
+/// those that fit whole above the last line, then the next one as far as
+/// it goes, ending with "(+K more: m)" for the K after it, or "(m:
+/// whole)" when it is the last (the key `m` opens them all, wrapped).
+pub fn note_lines(items: &[String], w: usize, n: usize) -> Vec<String> {
+    if n == 0 || items.is_empty() {
+        return Vec::new();
+    }
+    let wrapped: Vec<Vec<String>> = items.iter().map(|t| wrap(t, w)).collect();
+    if wrapped.iter().map(Vec::len).sum::<usize>() <= n {
+        return wrapped.concat();
+    }
+    let mut lines: Vec<String> = Vec::new();
+    let mut shown = 0;
+    for l in &wrapped {
+        if lines.len() + l.len() > n - 1 {
+            break;
+        }
+        lines.extend(l.iter().cloned());
+        shown += 1;
+    }
+    // Not all fit, so the note `shown` is cut: its lines up to the last,
+    // then as much as leaves room for the mark.
+    let rest = items.len() - shown - 1;
+    let mark = if rest > 0 {
+        format!(" (+{rest} more: m)")
+    } else {
+        " (m: whole)".to_string()
+    };
+    let left = n - lines.len();
+    let part = &wrapped[shown];
+    lines.extend(part.iter().take(left - 1).cloned());
+    let tail = part[(left - 1).min(part.len())..].join(" ");
+    let room = w.saturating_sub(mark.chars().count());
+    let head: String = if tail.chars().count() > room {
+        // Cut at the last word that fits whole, when there is one.
+        let chars: Vec<char> = tail.chars().collect();
+        let k = room.saturating_sub(1);
+        let mut kept: String = chars[..k].iter().collect();
+        if chars.get(k) != Some(&' ')
+            && let Some(i) = kept.rfind(' ')
+        {
+            kept.truncate(i);
+        }
+        format!("{}…", kept.trim_end())
+    } else {
+        tail
+    };
+    lines.push(format!("{head}{mark}"));
+    lines
+}
+
 /// A form's error under its fields: `text` wrapped to the form's width,
 /// at most two lines (the blank line above the last and the last), ending
 /// on line `last_y` of `inner`.
@@ -168,5 +242,55 @@ pub fn put_form_error(buf: &mut Buffer, inner: Rect, last_y: u16, text: &str, st
     let first = last_y.saturating_sub(lines.len().clamp(1, 2) as u16 - 1);
     for (i, l) in lines.iter().take(2).enumerate() {
         put(buf, inner.x, first + i as u16, l, inner.width, style);
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn titles_leave_out_whole_parts() {
+        let p = |v: &[&str]| v.iter().map(|x| x.to_string()).collect::<Vec<_>>();
+        let parts = p(&["Parallax", "◆ A", "ϖ 1.0 mas", "2026-12-01 to 2029-05-31"]);
+        assert_eq!(
+            title_parts(&parts, 80),
+            "Parallax · ◆ A · ϖ 1.0 mas · 2026-12-01 to 2029-05-31"
+        );
+        assert_eq!(title_parts(&parts, 40), "Parallax · ◆ A · ϖ 1.0 mas");
+        // A later part that fits after one that does not is kept.
+        let parts = p(&["T", "a very long middle part", "end"]);
+        assert_eq!(title_parts(&parts, 12), "T · end");
+    }
+
+    #[test]
+    fn notes_whole_when_they_fit_else_cut_with_the_key() {
+        let p = |v: &[&str]| v.iter().map(|x| x.to_string()).collect::<Vec<_>>();
+        // Both whole on two lines.
+        assert_eq!(
+            note_lines(&p(&["first note", "second note"]), 20, 2),
+            p(&["first note", "second note"])
+        );
+        // Three notes on two lines: the first whole, the second cut with
+        // the count of the one after it.
+        assert_eq!(
+            note_lines(&p(&["first note", "second note is long", "third"]), 30, 2),
+            p(&["first note", "second note is… (+1 more: m)"])
+        );
+        // One note too long for its lines: its start, and the key.
+        assert_eq!(
+            note_lines(
+                &p(&["one two three four five six seven eight nine ten"]),
+                20,
+                2
+            ),
+            p(&["one two three four", "five six… (m: whole)"])
+        );
+        // One line: the first note's start and how many follow.
+        assert_eq!(
+            note_lines(&p(&["alpha beta", "gamma"]), 30, 1),
+            p(&["alpha beta (+1 more: m)"])
+        );
+        assert!(note_lines(&[], 30, 2).is_empty());
     }
 }

@@ -52,12 +52,14 @@ pub fn programme_view<'a, T>(
         return None;
     }
     let st = &s.settings;
-    let title = format!(
-        "{name} · {} to {} · {} · {}",
-        st.from,
-        st.to,
-        st.site.name,
-        st.instrument().name
+    let title = fmt::title_parts(
+        &[
+            name.to_string(),
+            format!("{} to {}", st.from, st.to),
+            st.site.name.clone(),
+            st.instrument().name.clone(),
+        ],
+        area.width as usize,
     );
     put(buf, area.x, area.y, &title, area.width, th.title());
     match result {

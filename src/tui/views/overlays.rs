@@ -225,11 +225,11 @@ pub fn sites(s: &State, sel: usize, area: Rect, buf: &mut Buffer) {
 
 /// A yes/no question.
 pub fn question(s: &State, q: &Question, area: Rect, buf: &mut Buffer) {
-    if let Question::Notes(notes) = q {
-        return notes_window(s, notes, area, buf);
+    if let Question::Notes { notes, scroll } = q {
+        return notes_window(s, notes, *scroll, area, buf);
     }
     let (title, text) = match q {
-        Question::Notes(_) => ("Notes", String::new()),
+        Question::Notes { .. } => ("Notes", String::new()),
         // Drawn by the Budget view's module (`budget::exported`).
         Question::Exported(files) => (
             "Exported",
@@ -345,30 +345,25 @@ pub fn instruments(s: &State, sel: usize, area: Rect, buf: &mut Buffer) {
 
 /// Every caution and note of the Phase view's report, each wrapped whole,
 /// a blank line between (any key closes the window).
-fn notes_window(s: &State, notes: &[String], area: Rect, buf: &mut Buffer) {
-    let w = area.width.min(78).saturating_sub(4).max(1) as usize;
-    let mut lines: Vec<String> = Vec::new();
-    for (i, n) in notes.iter().enumerate() {
-        if i > 0 {
-            lines.push(String::new());
-        }
-        lines.extend(wrap(n, w));
-    }
+fn notes_window(s: &State, notes: &[String], scroll: u16, area: Rect, buf: &mut Buffer) {
+    let (lines, shown) = notes_layout(notes, area.width, area.height);
     let n = lines.len();
+    let off = (scroll as usize).min(n.saturating_sub(shown));
     text_window(
         s,
         area,
         buf,
         &format!("Notes ({})", notes.len()),
         78,
-        &lines,
+        &lines[off..],
         s.theme.text(),
         1,
-        &|shown| {
+        &|_| {
             if n > shown {
                 format!(
-                    "{} more lines not shown (rung phase --json has them all) · any key closes",
-                    n - shown
+                    "lines {}–{} of {n} · ↑↓ PgUp PgDn scroll · any key closes",
+                    off + 1,
+                    (off + shown).min(n)
                 )
             } else {
                 "any key closes".to_string()
@@ -376,4 +371,21 @@ fn notes_window(s: &State, notes: &[String], area: Rect, buf: &mut Buffer) {
         },
         s.theme.dim(),
     );
+}
+
+/// The notes window's lines in an area of `w` × `h` (each note wrapped
+/// whole, a blank line between two) and how many of them it shows.
+pub fn notes_layout(notes: &[String], w: u16, h: u16) -> (Vec<String>, usize) {
+    let width = w.min(78).saturating_sub(4).max(1) as usize;
+    let mut lines: Vec<String> = Vec::new();
+    for (i, n) in notes.iter().enumerate() {
+        if i > 0 {
+            lines.push(String::new());
+        }
+        lines.extend(wrap(n, width));
+    }
+    // As text_window sizes it: the lines, the frame, the gap and the foot.
+    let win_h = (lines.len() as u16 + 4).min(h);
+    let shown = (win_h.saturating_sub(2 + 2) as usize).min(lines.len());
+    (lines, shown)
 }

@@ -6,7 +6,7 @@
 use crate::tui::keymap::{Action, Scope, keys_for};
 use crate::tui::state::{MethodBody, State, View, detail_offset, detail_rows};
 use crate::tui::views::chart::Braille;
-use crate::tui::views::fmt::{num, pct, put};
+use crate::tui::views::fmt::{note_lines, num, pct, put, title_parts};
 use chrono::Datelike;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
@@ -39,13 +39,18 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         buf,
         area.x,
         area.y,
-        &format!(
-            "Parallax · ◆ {name} · ϖ {:.1} mas · {} to {} · ellipse {:.1}×{:.1} mas",
-            p.parallax_mas,
-            s.settings.from,
-            s.settings.to,
-            p.ellipse.semi_major_mas,
-            p.ellipse.semi_minor_mas
+        &title_parts(
+            &[
+                "Parallax".to_string(),
+                format!("◆ {name}"),
+                format!("ϖ {:.1} mas", p.parallax_mas),
+                format!(
+                    "ellipse {:.1}×{:.1} mas",
+                    p.ellipse.semi_major_mas, p.ellipse.semi_minor_mas
+                ),
+                format!("{} to {}", s.settings.from, s.settings.to),
+            ],
+            area.width as usize,
         ),
         area.width,
         th.title(),
@@ -232,17 +237,8 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         area.width,
         th.text(),
     );
-    let why = (!matches!(pr.verdict, crate::ladder::Verdict::Reachable)
-        && !p.verdict_reason.is_empty())
-    .then(|| format!("why: {}", p.verdict_reason));
-    for (k, line) in why
+    for (k, line) in note_lines(&note_items(p), area.width as usize, 2)
         .iter()
-        .chain(
-            pr.notes
-                .iter()
-                .filter(|n| Some(*n) != Some(&p.verdict_reason)),
-        )
-        .take(2)
         .enumerate()
     {
         put(buf, area.x, fy + 2 + k as u16, line, area.width, th.dim());
@@ -259,6 +255,19 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         area.width,
         th.dim(),
     );
+}
+
+/// The plan's notes as the view and its notes window (`m`) give them: the
+/// verdict's reason first when the goal is not reached ("why: …"), then
+/// the notes (the reason not twice).
+pub fn note_items(p: &crate::ladder::parallax::ParallaxPlan) -> Vec<String> {
+    let pr = &p.prediction;
+    let why = (!matches!(pr.verdict, crate::ladder::Verdict::Reachable)
+        && !p.verdict_reason.is_empty())
+    .then(|| format!("why: {}", p.verdict_reason));
+    why.into_iter()
+        .chain(pr.notes.iter().filter(|n| **n != p.verdict_reason).cloned())
+        .collect()
 }
 
 /// Rows the Parallax view gives to the picked epoch (its time and geometry,

@@ -6,7 +6,7 @@
 use crate::tui::state::{
     FIELD_EXTRA_ROWS, MethodBody, State, View, detail_offset, detail_rows, phase_extra_rows,
 };
-use crate::tui::views::fmt::{hm, num, pct, put};
+use crate::tui::views::fmt::{hm, note_lines, num, pct, put, title_parts};
 use crate::tui::views::scroll_mark;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
@@ -39,12 +39,19 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         buf,
         area.x,
         area.y,
-        &format!(
-            "Phase · ∿ {name} · P {:.4} d · {} to {} · {}",
-            e.period_d,
-            r.windows.first().map_or(s.settings.from, |w| w.night),
-            r.windows.last().map_or(s.settings.to, |w| w.night),
-            s.settings.instrument().name
+        &title_parts(
+            &[
+                "Phase".to_string(),
+                format!("∿ {name}"),
+                format!("P {:.4} d", e.period_d),
+                format!(
+                    "{} to {}",
+                    r.windows.first().map_or(s.settings.from, |w| w.night),
+                    r.windows.last().map_or(s.settings.to, |w| w.night)
+                ),
+                s.settings.instrument().name.clone(),
+            ],
+            area.width as usize,
         ),
         area.width,
         th.title(),
@@ -291,30 +298,14 @@ fn note_line(
     width: usize,
     th: &crate::tui::theme::Theme,
 ) -> Option<(String, ratatui::style::Style)> {
-    let all = all_notes(cautions, notes);
-    let first = all.first()?;
     let st = if cautions.is_empty() {
         th.dim()
     } else {
         th.warn()
     };
-    if all.len() == 1 && first.chars().count() <= width {
-        return Some((first.clone(), st));
-    }
-    let more = if all.len() > 1 {
-        format!(" (+{} more: m)", all.len() - 1)
-    } else {
-        " (m: whole)".to_string()
-    };
-    let room = width.saturating_sub(more.chars().count());
-    let head: String = if first.chars().count() > room {
-        let mut h: String = first.chars().take(room.saturating_sub(1)).collect();
-        h.push('…');
-        h
-    } else {
-        first.clone()
-    };
-    Some((format!("{head}{more}"), st))
+    note_lines(&all_notes(cautions, notes), width, 1)
+        .pop()
+        .map(|l| (l, st))
 }
 
 /// A short label of a field-distance term for the foot line (the names are
@@ -362,15 +353,20 @@ fn render_field(
         buf,
         area.x,
         area.y,
-        &format!(
-            "Phase · ◎ {} · {} stars · {} pointing{} · {} to {} · {}",
-            r.field,
-            r.stars.len(),
-            r.pointings.len(),
-            if r.pointings.len() == 1 { "" } else { "s" },
-            s.settings.from,
-            s.settings.to,
-            s.settings.instrument().name
+        &title_parts(
+            &[
+                "Phase".to_string(),
+                format!("◎ {}", r.field),
+                format!("{} stars", r.stars.len()),
+                format!(
+                    "{} pointing{}",
+                    r.pointings.len(),
+                    if r.pointings.len() == 1 { "" } else { "s" }
+                ),
+                format!("{} to {}", s.settings.from, s.settings.to),
+                s.settings.instrument().name.clone(),
+            ],
+            area.width as usize,
         ),
         area.width,
         th.title(),

@@ -4,7 +4,7 @@
 use crate::tui::state::{NightData, State, TargetRow};
 use crate::tui::theme::{band_glyph, kind_glyph};
 use crate::tui::views::chart::{Braille, interp};
-use crate::tui::views::fmt::{dec_text, goal, hm, num, put, ra_text};
+use crate::tui::views::fmt::{dec_text, goal, hm, num, put, ra_text, title_parts};
 use crate::tui::views::roster;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
@@ -55,14 +55,26 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
     }
     let t = s.selected();
     let title = match t {
-        Some(t) => format!(
-            "Tonight · {} {} {} · night of {} · local times ({})",
-            kind_glyph(t.kind),
-            t.name,
-            t.kind.as_str(),
-            s.date,
-            s.site().timezone.name()
-        ),
+        Some(t) => {
+            // The zone's name when it fits, else "local times" alone (the
+            // header bar gives the local clock): never a name cut short.
+            let parts = |zone: String| {
+                [
+                    "Tonight".to_string(),
+                    format!("{} {} {}", kind_glyph(t.kind), t.name, t.kind.as_str()),
+                    format!("night of {}", s.date),
+                    zone,
+                ]
+            };
+            let whole = format!("local times ({})", s.site().timezone.name());
+            let w = area.width as usize;
+            let title = title_parts(&parts(whole.clone()), w);
+            if title.ends_with(&whole) {
+                title
+            } else {
+                title_parts(&parts("local times".to_string()), w)
+            }
+        }
         None => format!("Tonight · no target selected · night of {}", s.date),
     };
     put(buf, area.x, area.y, &title, area.width, th.title());
