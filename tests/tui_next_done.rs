@@ -55,6 +55,7 @@ fn a_visit_marked_done_early_is_shown_at_its_observed_time() {
         queue: Ok(q.clone()),
         plan: Some(plan.clone()),
         note: None,
+        refused: None,
     });
     let (rows, _) = screen(&s, 80, 24);
     let tz = &st.site.timezone;
@@ -265,6 +266,7 @@ fn the_selected_rows_why_is_shown_whole_and_the_sun_caution_once() {
         queue: Ok(q),
         plan: Some(plan.clone()),
         note: None,
+        refused: None,
     });
     let shown = why_on_screen(&s, &target);
     assert!(shown.starts_with(&full), "{full}\n{shown}");
@@ -287,6 +289,7 @@ fn the_selected_rows_why_is_shown_whole_and_the_sun_caution_once() {
         queue: Ok(q),
         plan: Some(plan),
         note: None,
+        refused: None,
     });
     let shown = why_on_screen(&s, &cautioned);
     assert!(
@@ -344,6 +347,7 @@ fn next_view_with_plan(
         queue: Ok(q),
         plan: Some(plan.clone()),
         note: None,
+        refused: None,
     });
     (s, plan)
 }
@@ -382,4 +386,61 @@ fn a_mark_done_is_confirmed_once_and_whole_at_80_columns() {
         .join(" ");
     assert_eq!(text.matches(&head).count(), 1, "{}", rows.join("\n"));
     assert!(text.contains(&said), "{said}\n{}", rows.join("\n"));
+}
+
+/// A mark refused inside the mark itself (here the plan's log cannot be
+/// read: a folder stands at its path) writes nothing and gives the prompt
+/// back with what was typed, to try again once the cause is mended or to
+/// drop with Esc; it used to close the prompt, and the seeing, the
+/// signal-to-noise and the comment typed at the telescope were lost.
+#[test]
+fn a_refused_mark_gives_the_prompt_back_with_what_was_typed() {
+    use crossterm::event::KeyCode;
+    let dir = tempfile::tempdir().unwrap();
+    let (mut s, plan) = next_view_with_plan(None);
+    let path = dir.path().join("plan.json");
+    rung::plan::file::save(&plan, &path).unwrap();
+    s.plan_file = Some(path.clone());
+    let log = rung::plan::log::log_path(&path);
+    std::fs::create_dir(&log).unwrap();
+    let before = std::fs::read(&path).unwrap();
+    let v = plan.visits[first_planned_tonight(&plan)].clone();
+    s.next_prompt = Some((v.id.clone(), String::new()));
+    let text = "1.2 snr=80 thin cirrus, wind 12 m/s";
+    typed(&mut s, text);
+    key(&mut s, KeyCode::Enter);
+    assert_eq!(s.next_prompt, Some((v.id.clone(), text.to_string())));
+    let said = s.message.as_ref().map(|m| m.0.clone()).unwrap_or_default();
+    assert!(
+        said.starts_with("not done: ") && said.contains("Enter tries again, Esc drops it"),
+        "{said}"
+    );
+    assert_eq!(std::fs::read(&path).unwrap(), before);
+    // The cause mended, Enter marks it with what was typed.
+    std::fs::remove_dir(&log).unwrap();
+    key(&mut s, KeyCode::Enter);
+    assert!(s.next_prompt.is_none());
+    let p = rung::plan::file::load(&path).unwrap();
+    let done = p.visit(&v.id).unwrap();
+    assert_eq!(done.status, Status::Done);
+    assert_eq!(done.seeing_arcsec, Some(1.2));
+    assert_eq!(done.comment.as_deref(), Some("thin cirrus, wind 12 m/s"));
+    // Refused again and dropped: Esc closes the prompt, nothing marked.
+    let w = plan
+        .visits
+        .iter()
+        .find(|x| x.status == Status::Planned && x.id != v.id && x.night == v.night)
+        .unwrap()
+        .clone();
+    // (The plan file holds the first mark: its log can go.)
+    std::fs::remove_file(&log).unwrap();
+    std::fs::create_dir(&log).unwrap();
+    let kept = std::fs::read(&path).unwrap();
+    s.next_prompt = Some((w.id.clone(), String::new()));
+    typed(&mut s, "0.9");
+    key(&mut s, KeyCode::Enter);
+    assert_eq!(s.next_prompt, Some((w.id.clone(), "0.9".to_string())));
+    key(&mut s, KeyCode::Esc);
+    assert!(s.next_prompt.is_none());
+    assert_eq!(std::fs::read(&path).unwrap(), kept);
 }

@@ -988,6 +988,7 @@ pub fn next_data(job: &crate::tui::msg::NextJob) -> crate::tui::state::NextData 
     use crate::plan::log;
     use crate::tui::msg::NextOp;
     let mut note = None;
+    let mut refused = None;
     let plan = match &job.plan_file {
         None => None,
         Some(path) => {
@@ -1043,13 +1044,31 @@ pub fn next_data(job: &crate::tui::msg::NextJob) -> crate::tui::state::NextData 
                     what.map(|w| format!("{w}; saved to {} and its log", path.display())),
                 ))
             };
+            // The log's length before the job: a mark refused after its row
+            // was written (the plan file then failed) is in the log.
+            let log_len =
+                |p: &std::path::Path| std::fs::metadata(log::log_path(p)).map(|m| m.len()).ok();
+            let before = log_len(path);
             match step() {
                 Ok((p, w)) => {
                     note = w;
                     Some(p)
                 }
                 Err(e) => {
-                    note = Some(format!("not done: {e}"));
+                    note = Some(match &job.op {
+                        NextOp::Done { .. } if log_len(path) != before => format!(
+                            "not done in the plan file: {e} (the mark is in the plan's log, \
+                             which the plan takes when it is next loaded)"
+                        ),
+                        NextOp::Done { id, .. } => {
+                            refused = Some(id.clone());
+                            format!(
+                                "not done: {e} (nothing written; the prompt keeps what you \
+                                 typed: Enter tries again, Esc drops it)"
+                            )
+                        }
+                        _ => format!("not done: {e}"),
+                    });
                     crate::plan::file::load(path).ok()
                 }
             }
@@ -1062,6 +1081,7 @@ pub fn next_data(job: &crate::tui::msg::NextJob) -> crate::tui::state::NextData 
         queue,
         plan,
         note,
+        refused,
     }
 }
 

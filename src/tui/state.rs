@@ -85,6 +85,9 @@ pub struct NextData {
     pub plan: Option<crate::plan::file::PlanFile>,
     /// What the last mark or re-plan did.
     pub note: Option<String>,
+    /// The visit whose mark done was refused (nothing written), when the
+    /// last job was one.
+    pub refused: Option<String>,
 }
 
 /// Roster sort columns.
@@ -653,6 +656,9 @@ pub struct State {
     pub next_sel: usize,
     /// Typing the seeing and comment of a visit being marked done: (visit id, text).
     pub next_prompt: Option<(String, String)>,
+    /// A mark done on its way to the plan file: (visit id, text typed), kept
+    /// so that a refused mark gives the prompt back with the text.
+    pub next_typed: Option<(String, String)>,
 }
 
 /// Rows of chrome around a view: status, tabs, message line.

@@ -111,6 +111,7 @@ pub fn init(setup: Setup) -> (State, Option<Effect>) {
         next: None,
         next_sel: 0,
         next_prompt: None,
+        next_typed: None,
     };
     if s.message.is_none() && s.programme.is_demo {
         s.message = Some((
@@ -1241,6 +1242,7 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
                             }
                         };
                         s.next_prompt = None;
+                        s.next_typed = Some((id.clone(), text));
                         return Some(next_effect(s, NextOp::Done { id, typed }));
                     }
                     _ => {}
@@ -1351,6 +1353,15 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
                 // columns, as every message but the passing ones).
                 let warn = n.starts_with("not done");
                 say(s, n, if warn { Level::Warn } else { Level::Good });
+            }
+            // A mark done refused (the plan or its log could not be
+            // written, or the clock is outside the plan's nights): the
+            // prompt again, with what was typed, to try again or drop.
+            if let Some(id) = &d.refused
+                && let Some((typed_id, text)) = s.next_typed.take()
+                && &typed_id == id
+            {
+                s.next_prompt = Some((typed_id, text));
             }
             s.next = Some(*d);
             let n = s
