@@ -531,3 +531,51 @@ fn single_pulsators_have_their_own_line_in_the_hours_by_rung() {
         "{text}"
     );
 }
+
+/// One more visit that leaves the end point as it was gains exactly 0 in
+/// `rung ladder --json`, and so reads the same in the view. In the demo's
+/// ladder the host stars whose light curves no longer limit their field
+/// gained 0 %/h for one of them and 1e-14 to 1e-12 %/h (the fit's
+/// round-off, shown "<0.001" beside the other's "0.000") for the rest;
+/// a real gain (an anchor's visit, 8e-8 of σ_d/d) stays as it was.
+#[test]
+fn a_step_that_leaves_the_end_point_as_it_was_gains_zero() {
+    let cfg = tempfile::tempdir().unwrap();
+    let out = Command::new(env!("CARGO_BIN_EXE_rung"))
+        .args(["ladder", "--json"])
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .env("RUNG_CONFIG_DIR", cfg.path())
+        .env("RUNG_NOW", "2026-12-02T01:00:00Z")
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let before = j["end_point"]["distance_pct"].as_f64().unwrap();
+    let same = rung::ladder::chain::next::SAME_REL * before;
+    let mut zero = Vec::new();
+    let mut real = 0;
+    for m in j["marginal"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .chain(j["next"].as_array().unwrap())
+    {
+        let (Some(g), Some(h)) = (m["gain_pct_per_hour"].as_f64(), m["hours"].as_f64()) else {
+            continue;
+        };
+        // No gain within the round-off: 0, or a fall above it.
+        assert!(g == 0.0 || (g * h).abs() > same, "{m}");
+        if g == 0.0 {
+            zero.push(m["target"].as_str().unwrap().to_string());
+        } else if g * h < 1e-6 * before {
+            real += 1;
+        }
+    }
+    assert!(zero.len() >= 3, "{zero:?}");
+    // Small real gains are kept (the anchors' light-curve visits).
+    assert!(real >= 3, "{real}");
+}
