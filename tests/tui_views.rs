@@ -1381,15 +1381,7 @@ fn phase_view_reaches_every_note_of_a_field() {
     assert!(has(&rows, &format!("Notes ({n})")), "{}", rows.join("\n"));
     assert!(has(&rows, "any key closes"), "{}", rows.join("\n"));
     // The whole note, word by word, in the window's lines in order.
-    let text: String = rows
-        .iter()
-        .filter_map(|l| {
-            let a = l.find('│')?;
-            let b = l.rfind('│')?;
-            (b > a).then(|| l[a + '│'.len_utf8()..b].trim().to_string())
-        })
-        .collect::<Vec<_>>()
-        .join(" ");
+    let text: String = window_rows(&rows).join(" ");
     let text = text.split_whitespace().collect::<Vec<_>>().join(" ");
     assert!(
         text.contains(&long),
