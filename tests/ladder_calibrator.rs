@@ -460,3 +460,103 @@ fn an_observed_calibrator_without_its_peak_is_left_out_with_the_reason() {
         "{why}"
     );
 }
+
+/// The ladder programme with its Hubble flow cut to LPO-T2026d, observed
+/// in 2019 with its light curve fitted: B peak `peak` ± 0.05 mag given
+/// (and `mag_now`, a row's other magnitude).
+fn observed_flow(dir: &Path, peak: &str, mag_now: &str) -> PathBuf {
+    let (peak, mag_now) = (peak.to_string(), mag_now.to_string());
+    edited(dir, move |t| {
+        t.lines()
+            .filter(|l| !["LPO-T2026a,", "LPO-T2026e,", "LPO-T2026f,"].iter().any(|n| l.starts_with(n)))
+            .map(|l| {
+                if l.starts_with("LPO-T2026d,") {
+                    l.replace(
+                        "2026-11-27T05:30:00Z,16.8,18.0,0.034,0.05,8,3,HF (invented),,,,,",
+                        &format!(
+                            "2019-05-01T05:30:00Z,{peak},{mag_now},0.034,0.05,,3,HF observed in 2019 (invented),,,0.05,,"
+                        ),
+                    )
+                } else {
+                    l.to_string()
+                }
+            })
+            .collect::<Vec<_>>()
+            .join("\n")
+    })
+}
+
+/// A Hubble-flow supernova already observed (its peak's error given)
+/// measures the flow with its fitted peak, as an observed calibrator
+/// measures M_B: the ladder used the planned value on the H0 = 70 scale
+/// whatever peak was given, so H0 could not move with the Hubble-flow data.
+/// With one supernova in the flow the intercept follows it exactly: a peak
+/// 0.2 mag fainter puts it 10^0.04 times farther and H0 falls by 10^-0.04
+/// (the distance modulus, μ = 5 log10(d/10 pc)). Its own error is the
+/// fit's (0.05 mag), the intrinsic scatter (0.12 mag, config/transient.toml)
+/// and its peculiar velocity: σ_v = 300 km/s at z = 0.034,
+/// (5/ln 10) (σ_v/cz) (1 + z) (1 + (1 − q0) z/2) with q0 = Ωm/2 − ΩΛ = −0.55
+/// for flat ΛCDM with Ωm = 0.3 (the low-redshift expansion of d_L, common
+/// practice; quoted from memory).
+#[test]
+fn an_observed_hubble_flow_supernova_measures_the_flow_with_its_peak() {
+    let dir = tempfile::tempdir().unwrap();
+    let run = |peak: &str| {
+        let sub = dir.path().join(peak);
+        std::fs::create_dir(&sub).unwrap();
+        let f = observed_flow(&sub, peak, "");
+        json(&["ladder", "--targets", f.to_str().unwrap(), "--json"])
+    };
+    let (a, b) = (run("16.8"), run("17.0"));
+    let h0 = |l: &Value| l["h0_km_s_mpc"].as_f64().unwrap();
+    let ratio = h0(&b) / h0(&a);
+    assert!(
+        (ratio - 10f64.powf(-0.04)).abs() < 1e-9,
+        "{ratio} ({} → {})",
+        h0(&a),
+        h0(&b)
+    );
+    for l in [&a, &b] {
+        assert!(
+            l["h0_basis"]
+                .as_str()
+                .unwrap()
+                .contains("1 Hubble-flow supernova measured from its given peak"),
+            "{}",
+            l["h0_basis"]
+        );
+        let row = l["supernovae"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|r| r["name"] == "LPO-T2026d")
+            .expect("on the ladder");
+        let own = row["own_sigma_mag"].as_f64().unwrap();
+        let (z, c) = (0.034, 299_792.458);
+        let q0 = 0.3 / 2.0 - 0.7;
+        let pec = 5.0 / std::f64::consts::LN_10 * 300.0 / (c * z)
+            * (1.0 + z)
+            * (1.0 + (1.0 - q0) * z / 2.0);
+        let want = (0.05f64.powi(2) + 0.12f64.powi(2) + pec * pec).sqrt();
+        assert!((own - want).abs() < 0.002, "own σ {own} vs {want}");
+    }
+    // Its peak's error without the peak (a magnitude seen once instead):
+    // nothing to measure, left out with the reason.
+    let sub = dir.path().join("none");
+    std::fs::create_dir(&sub).unwrap();
+    let f = observed_flow(&sub, "", "16.0");
+    let l = json(&["ladder", "--targets", f.to_str().unwrap(), "--json"]);
+    let why = l["left_out"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r[0] == "LPO-T2026d")
+        .expect("left out");
+    assert!(
+        why[1]
+            .as_str()
+            .unwrap()
+            .starts_with("peak_err_mag is given without peak_mag"),
+        "{why}"
+    );
+}

@@ -104,6 +104,10 @@ pub struct Ladder {
     /// Each calibrator's given peak, standardized as its chase standardizes
     /// it (calibrators without a given peak take the planned value).
     pub peaks: BTreeMap<String, CalibratorPeak>,
+    /// The Hubble-flow supernovae already observed, which measure the flow
+    /// with their fitted peaks (the others take planned values on the
+    /// `h0_ref_km_s_mpc` scale).
+    pub flow_measured: Vec<String>,
 }
 
 /// A calibrator's given peak on the ladder.
@@ -1012,6 +1016,7 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
         .collect();
     let h0_ref = tm.map_or(70.0, |m| m.cfg.cosmology.h0_km_s_mpc);
     let mut peaks: BTreeMap<String, CalibratorPeak> = BTreeMap::new();
+    let mut flow_measured: Vec<String> = Vec::new();
     if let Some(tmeth) = tm {
         let std = tmeth.standardizer()?;
         let zp = ZeroPoint::configured(&tmeth.cfg, tmeth.relation());
@@ -1174,16 +1179,52 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
                     let z = t.redshift.unwrap_or(0.0);
                     let dl = std.cosmology.luminosity_distance_mpc(z)?;
                     let mu = 5.0 * dl.log10() + 25.0;
+                    let mut terms = terms_of(&[HOST_TERM]);
+                    // A supernova already observed measures the flow: its
+                    // fitted peak standardized as its chase standardizes it
+                    // (a calibrator's way), its error the fit's, the
+                    // intrinsic scatter and its peculiar velocity at its
+                    // redshift; the others take the planned value, on the
+                    // H0_ref scale by construction.
+                    let value_mag = if t.peak_err_mag.is_some() {
+                        match tmeth.standardized_peak(v) {
+                            Ok(Some(sp)) => {
+                                terms.push(Term::new(
+                                    PEC_TERM,
+                                    std.cosmology
+                                        .peculiar_sigma_mu(z, tmeth.cfg.cosmology.sigma_v_km_s)?,
+                                ));
+                                flow_measured.push(t.name.clone());
+                                sp.standardized_peak_mag
+                            }
+                            Ok(None) => {
+                                left_out.push((
+                                    t.name.clone(),
+                                    "peak_err_mag is given without peak_mag: a supernova already observed measures the Hubble flow from its peak, so give the peak it was fitted with".into(),
+                                ));
+                                continue;
+                            }
+                            Err(e) => {
+                                left_out.push((
+                                    t.name.clone(),
+                                    format!("its given peak cannot be standardized: {e}"),
+                                ));
+                                continue;
+                            }
+                        }
+                    } else {
+                        mu + zp.abs_mag
+                    };
                     (
                         Observation {
                             target: t.name.clone(),
                             node: None,
                             rung: Rung::HubbleFlow,
                             what: "standardized peak".into(),
-                            value_mag: mu + zp.abs_mag,
+                            value_mag,
                             offset_mag: 5.0 * (h0_ref * dl).log10() + 25.0,
                             coeffs: vec![(peak.clone(), 1.0), (Param::Hubble, -1.0)],
-                            terms: terms_of(&[HOST_TERM]),
+                            terms,
                             hours,
                         },
                         Rung::HubbleFlow,
@@ -1233,6 +1274,7 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
         h0_ref_km_s_mpc: h0_ref,
         host_moduli,
         peaks,
+        flow_measured,
     })
 }
 

@@ -530,7 +530,7 @@ pub fn report_of(l: Ladder, end_point: Option<EndPoint>) -> Result<LadderReport>
         }
     }
     let calibrators = calibrators_of(&l);
-    let h0_basis = h0_basis_text(&calibrators, l.h0_ref_km_s_mpc);
+    let h0_basis = h0_basis_text(&calibrators, l.flow_measured.len(), l.h0_ref_km_s_mpc);
     let ranked = rank(&l.chain, &ep, l.steps.clone())?;
     let marginal = marginal_of(&l.members, &ranked);
     let next: Vec<Ranked> = ranked
@@ -566,16 +566,18 @@ pub fn report_of(l: Ladder, end_point: Option<EndPoint>) -> Result<LadderReport>
     })
 }
 
-/// What H0 rests on, in words ([`LadderReport::h0_basis`]).
-pub fn h0_basis_text(calibrators: &[CalibratorRow], h0_ref_km_s_mpc: f64) -> String {
+/// What H0 rests on, in words ([`LadderReport::h0_basis`]): the
+/// calibrators measured from their given peaks or forecast, and the
+/// `flow` Hubble-flow supernovae measured from theirs.
+pub fn h0_basis_text(calibrators: &[CalibratorRow], flow: usize, h0_ref_km_s_mpc: f64) -> String {
     let measured = calibrators.iter().filter(|c| c.observed).count();
     let forecast = calibrators
         .iter()
         .filter(|c| !c.observed && c.standardized_peak.is_some())
         .count();
-    match (measured, forecast) {
-        (0, 0) => format!("planned values on the H0 = {h0_ref_km_s_mpc} scale"),
-        (m, f) => {
+    match (measured, forecast, flow) {
+        (0, 0, 0) => format!("planned values on the H0 = {h0_ref_km_s_mpc} scale"),
+        (m, f, k) => {
             let mut parts = Vec::new();
             if m > 0 {
                 parts.push(format!(
@@ -587,6 +589,14 @@ pub fn h0_basis_text(calibrators: &[CalibratorRow], h0_ref_km_s_mpc: f64) -> Str
             }
             if f > 0 {
                 parts.push(format!("{f} from a forecast peak",));
+            }
+            if k > 0 {
+                parts.push(format!(
+                    "{k} Hubble-flow supernova{} measured from {} given peak{}",
+                    if k == 1 { "" } else { "e" },
+                    if k == 1 { "its" } else { "their" },
+                    if k == 1 { "" } else { "s" }
+                ));
             }
             format!(
                 "{}; the rest planned on the H0 = {h0_ref_km_s_mpc} scale",
