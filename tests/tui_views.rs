@@ -1501,8 +1501,12 @@ fn parallax_chase_and_budget_views_reach_every_note() {
             all.contains(" more: m)") || all.contains("(m: whole)"),
             "{all}"
         );
-        // No line of the view ends a word cut by the screen's edge: a cut
-        // note ends in "…" before the key.
+        // The notes window scrolls to its last line also when a long
+        // message takes three of the bottom lines.
+        s.message = Some((
+            "a warning long enough to wrap onto three lines at eighty columns ".repeat(3),
+            rung::tui::state::Level::Warn,
+        ));
         ch(&mut s, 'm');
         let text = notes_text(&mut s);
         for item in &items {

@@ -1003,38 +1003,40 @@ fn act_main_inner(s: &mut State, a: Action) -> Option<Effect> {
         }
         Action::Notes => {
             use crate::tui::state::MethodBody;
-            let all = match (s.view, s.method_now()) {
-                (View::Budget, _) => s.budget_now().and_then(|b| b.as_ref().ok()).map(|b| {
-                    let name = s.selected().map(|t| t.name.as_str());
-                    crate::tui::views::budget::reason_items(b, name)
-                }),
+            // The notes of the view's report; Err: why there are none to show.
+            let none_yet = "no notes here: the view shows no report for the selected target yet";
+            let all: Result<Vec<String>, &str> = match (s.view, s.method_now()) {
+                (View::Budget, _) => match s.budget_now() {
+                    Some(Ok(b)) => {
+                        let name = s.selected().map(|t| t.name.as_str());
+                        Ok(crate::tui::views::budget::reason_items(b, name))
+                    }
+                    _ => Err("no notes here: the budget is not computed yet"),
+                },
                 (View::Phase, Some(MethodBody::Phase(r))) => {
-                    Some(crate::tui::views::phase::all_notes(&r.cautions, &r.notes))
+                    Ok(crate::tui::views::phase::all_notes(&r.cautions, &r.notes))
                 }
                 (View::Phase, Some(MethodBody::Field(r))) => {
-                    Some(crate::tui::views::phase::all_notes(&r.cautions, &r.notes))
+                    Ok(crate::tui::views::phase::all_notes(&r.cautions, &r.notes))
                 }
                 (View::Parallax, Some(MethodBody::Parallax(p))) => {
-                    Some(crate::tui::views::parallax::note_items(p))
+                    Ok(crate::tui::views::parallax::note_items(p))
                 }
                 (View::Chase, Some(MethodBody::Chase(c))) => {
-                    Some(crate::tui::views::chase_foot::items(c).0)
+                    Ok(crate::tui::views::chase_foot::items(c).0)
                 }
-                _ => None,
+                (View::Parallax | View::Phase | View::Chase, _) => Err(none_yet),
+                _ => Err("m: notes in the Parallax (4), Phase (5), Chase (6) and Budget (7) views"),
             };
             match all {
-                Some(n) if !n.is_empty() => {
+                Ok(n) if !n.is_empty() => {
                     s.overlay = Some(Overlay::Question(Question::Notes {
                         notes: n,
                         scroll: 0,
                     }));
                 }
-                Some(_) => say(s, "this report has no notes", Level::Info),
-                None => say(
-                    s,
-                    "m: notes in the Parallax (4), Phase (5), Chase (6) and Budget (7) views",
-                    Level::Info,
-                ),
+                Ok(_) => say(s, "this report has no notes", Level::Info),
+                Err(why) => say(s, why, Level::Info),
             }
             None
         }
@@ -1295,7 +1297,10 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
                     Scope::Question,
                     KeyCode::Down | KeyCode::Up | KeyCode::PageDown | KeyCode::PageUp,
                 ) if matches!(s.overlay, Some(Overlay::Question(Question::Notes { .. }))) => {
-                    let body = (s.size.0, s.size.1.saturating_sub(3));
+                    let body = (
+                        s.size.0,
+                        crate::tui::views::body_height(s, s.size.0, s.size.1),
+                    );
                     if let Some(Overlay::Question(Question::Notes { notes, scroll })) =
                         s.overlay.as_mut()
                     {
@@ -1357,9 +1362,8 @@ pub fn update(s: &mut State, msg: Msg) -> Option<Effect> {
             // A mark done refused (the plan or its log could not be
             // written, or the clock is outside the plan's nights): the
             // prompt again, with what was typed, to try again or drop.
-            if let Some(id) = &d.refused
-                && let Some((typed_id, text)) = s.next_typed.take()
-                && &typed_id == id
+            if let Some((typed_id, text)) = s.next_typed.take()
+                && d.refused.as_ref() == Some(&typed_id)
             {
                 s.next_prompt = Some((typed_id, text));
             }

@@ -306,6 +306,14 @@ fn bottom(s: &State, lines: &[String], level: Level, area: Rect, buf: &mut Buffe
     }
 }
 
+/// The rows the view (and an overlay over it) has on a screen of `w` × `h`:
+/// all but the status line, the tabs and the message lines, the view
+/// keeping at least half the rows below the tabs.
+pub fn body_height(s: &State, w: u16, h: u16) -> u16 {
+    let (low, _) = bottom_lines(s, w, h.saturating_sub(2) / 2);
+    h.saturating_sub(2 + low.len() as u16)
+}
+
 /// Draw the whole screen into `buf`.
 pub fn render_all(s: &State, area: Rect, buf: &mut Buffer) {
     if area.height < 4 || area.width < 20 {
@@ -321,10 +329,14 @@ pub fn render_all(s: &State, area: Rect, buf: &mut Buffer) {
     }
     status(s, Rect::new(area.x, area.y, area.width, 1), buf);
     tabs(s, Rect::new(area.x, area.y + 1, area.width, 1), buf);
-    // The view keeps at least half the rows below the tabs.
     let (low, level) = bottom_lines(s, area.width, (area.height - 2) / 2);
     let n = low.len() as u16;
-    let body = Rect::new(area.x, area.y + 2, area.width, area.height - 2 - n);
+    let body = Rect::new(
+        area.x,
+        area.y + 2,
+        area.width,
+        body_height(s, area.width, area.height),
+    );
     match s.view {
         View::Roster => roster::render(s, body, buf),
         View::Tonight => tonight::render(s, body, buf),
