@@ -342,8 +342,13 @@ fn an_observed_calibrator_measures_its_peak_absolute_magnitude() {
     //   ΔM = −α x1 + β c = 0.008758 + 0.114737 = 0.123495 mag
     //   m_B,std = 5.173 − 0.100 − 0.123495 = 4.949505 mag
     //   M_B = m_B,std − μ_host (the host's modulus the chain fits)
-    //   σ_own = √(0.05² + 0.12²) = 0.130 (the given fit and the intrinsic
-    //   scatter), σ = √(σ_host² + σ_own²).
+    //   σ_own = √(0.05² + 0.12² + σ_MW² + σ_K²) = 0.130057: the given fit,
+    //   the intrinsic scatter and the terms its chase would carry: the
+    //   foreground's, |β − R_B| × 15 % × A_B/R_B with R_B = 4.1 (CCM 1989's
+    //   A_B/E(B−V) at R_V = 3.1, quoted from memory; the 15 % of
+    //   config/transient.toml), 0.00366 mag; the K-correction not applied,
+    //   2.5 log10(1 + z) at z = 0.0012 (Hogg et al. 2002's bandpass term),
+    //   0.00130 mag. σ = √(σ_host² + σ_own²).
     let f = file();
     let l = json(&["ladder", "--targets", f.to_str().unwrap(), "--json"]);
     let c = l["calibrators"]
@@ -361,8 +366,19 @@ fn an_observed_calibrator_measures_its_peak_absolute_magnitude() {
     assert!((sp["standardized_peak_mag"].as_f64().unwrap() - 4.949505).abs() < 5e-6);
     let mu = v("host_mu_mag");
     assert!((v("peak_abs_mag") - (4.949505 - mu)).abs() < 5e-6);
-    assert!((v("sigma_own_mag") - 0.13).abs() < 1e-12);
-    assert!((v("sigma_mag") - v("host_mu_err_mag").hypot(0.13)).abs() < 1e-12);
+    let r_b = 4.1;
+    let mw = (3.101f64 - r_b).abs() * 0.15 * 0.100 / r_b;
+    let k = 2.5 * (1.0012f64).log10();
+    let own = (0.05f64.powi(2) + 0.12f64.powi(2) + mw * mw + k * k).sqrt();
+    // (R_B from the extinction law at the template's B wavelength moves
+    // σ_own by under 2e-5 mag across 4.0..4.3.)
+    assert!(
+        (v("sigma_own_mag") - own).abs() < 5e-5,
+        "{} vs {own}",
+        v("sigma_own_mag")
+    );
+    assert!(v("sigma_own_mag") > 0.13, "{}", v("sigma_own_mag"));
+    assert!((v("sigma_mag") - v("host_mu_err_mag").hypot(v("sigma_own_mag"))).abs() < 1e-12);
     // The peak was written so that M_B is the zero point (−19.05) at the
     // host's fitted distance: the fit returns H0 = 70.
     assert!(
@@ -493,11 +509,14 @@ fn observed_flow(dir: &Path, peak: &str, mag_now: &str) -> PathBuf {
 /// With one supernova in the flow the intercept follows it exactly: a peak
 /// 0.2 mag fainter puts it 10^0.04 times farther and H0 falls by 10^-0.04
 /// (the distance modulus, μ = 5 log10(d/10 pc)). Its own error is the
-/// fit's (0.05 mag), the intrinsic scatter (0.12 mag, config/transient.toml)
-/// and its peculiar velocity: σ_v = 300 km/s at z = 0.034,
-/// (5/ln 10) (σ_v/cz) (1 + z) (1 + (1 − q0) z/2) with q0 = Ωm/2 − ΩΛ = −0.55
-/// for flat ΛCDM with Ωm = 0.3 (the low-redshift expansion of d_L, common
-/// practice; quoted from memory).
+/// fit's given one (0.05 mag) and the terms its chase carries apart from
+/// the fit (`rung chase --json` of the same supernova not yet observed:
+/// intrinsic scatter, Milky-Way extinction, the K-correction not applied,
+/// its peculiar velocity); the row used to carry only the fit and the
+/// intrinsic scatter. The peculiar velocity is checked against the world:
+/// σ_v = 300 km/s at z = 0.034, (5/ln 10) (σ_v/cz) (1 + z) (1 + (1 − q0)
+/// z/2) with q0 = Ωm/2 − ΩΛ = −0.55 for flat ΛCDM with Ωm = 0.3 (the
+/// low-redshift expansion of d_L, common practice; quoted from memory).
 #[test]
 fn an_observed_hubble_flow_supernova_measures_the_flow_with_its_peak() {
     let dir = tempfile::tempdir().unwrap();
@@ -508,6 +527,49 @@ fn an_observed_hubble_flow_supernova_measures_the_flow_with_its_peak() {
         json(&["ladder", "--targets", f.to_str().unwrap(), "--json"])
     };
     let (a, b) = (run("16.8"), run("17.0"));
+    // The terms its chase carries, fresh (the programme as it ships).
+    let chase = json(&[
+        "chase",
+        "--target",
+        "LPO-T2026d",
+        "--targets",
+        file().to_str().unwrap(),
+        "--json",
+    ]);
+    let terms: Vec<(String, f64, bool)> = chase["error_terms"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|t| {
+            (
+                t["name"].as_str().unwrap().to_string(),
+                t["sigma_mag"].as_f64().unwrap(),
+                t["shared"].as_bool().unwrap(),
+            )
+        })
+        .collect();
+    let term = |name: &str| {
+        terms
+            .iter()
+            .find(|t| t.0 == name)
+            .unwrap_or_else(|| panic!("no {name} in {terms:?}"))
+            .1
+    };
+    let (z, c) = (0.034, 299_792.458);
+    let q0 = 0.3 / 2.0 - 0.7;
+    let pec =
+        5.0 / std::f64::consts::LN_10 * 300.0 / (c * z) * (1.0 + z) * (1.0 + (1.0 - q0) * z / 2.0);
+    assert!(
+        (term("peculiar velocity") / pec - 1.0).abs() < 0.02,
+        "{} vs {pec}",
+        term("peculiar velocity")
+    );
+    let rest: f64 = terms
+        .iter()
+        .filter(|t| !t.2 && t.0 != "light-curve fit")
+        .map(|t| t.1 * t.1)
+        .sum();
+    assert!(term("K-correction (not applied)") > 0.0 && term("Milky-Way extinction") > 0.0);
     let h0 = |l: &Value| l["h0_km_s_mpc"].as_f64().unwrap();
     let ratio = h0(&b) / h0(&a);
     assert!(
@@ -532,13 +594,8 @@ fn an_observed_hubble_flow_supernova_measures_the_flow_with_its_peak() {
             .find(|r| r["name"] == "LPO-T2026d")
             .expect("on the ladder");
         let own = row["own_sigma_mag"].as_f64().unwrap();
-        let (z, c) = (0.034, 299_792.458);
-        let q0 = 0.3 / 2.0 - 0.7;
-        let pec = 5.0 / std::f64::consts::LN_10 * 300.0 / (c * z)
-            * (1.0 + z)
-            * (1.0 + (1.0 - q0) * z / 2.0);
-        let want = (0.05f64.powi(2) + 0.12f64.powi(2) + pec * pec).sqrt();
-        assert!((own - want).abs() < 0.002, "own σ {own} vs {want}");
+        let want = (0.05f64.powi(2) + rest).sqrt();
+        assert!((own - want).abs() < 1e-9, "own σ {own} vs {want}");
     }
     // Its peak's error without the peak (a magnitude seen once instead):
     // nothing to measure, left out with the reason.

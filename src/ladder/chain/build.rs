@@ -1054,7 +1054,6 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
             }
         }
         // A supernova already observed (its peak's error given) is not chased.
-        let sigma_int = std.sigma_int_mag(&tmeth.cfg);
         let plans2: Vec<Option<Result<Planned>>> = {
             use rayon::prelude::*;
             views
@@ -1067,16 +1066,27 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
                 pl,
                 t.peak_err_mag,
             ) {
-                (None, Some(err)) => (
-                    Box::new(move |_: &[&str]| {
-                        vec![
-                            Term::new("light-curve fit (given)", err),
-                            Term::new("intrinsic scatter", sigma_int),
-                        ]
-                    }),
-                    0.0,
-                    None,
-                ),
+                (None, Some(err)) => match tmeth.observed_terms(v, err) {
+                    // Already observed: the terms its chase would carry,
+                    // the fit's being the given error.
+                    Ok(all) => (
+                        Box::new(move |drop: &[&str]| {
+                            all.iter()
+                                .filter(|e| !e.shared && !drop.contains(&e.name.as_str()))
+                                .map(|e| Term::new(e.name.clone(), e.sigma_mag))
+                                .collect()
+                        }),
+                        0.0,
+                        None,
+                    ),
+                    Err(e) => {
+                        left_out.push((
+                            t.name.clone(),
+                            format!("its given peak cannot be standardized: {e}"),
+                        ));
+                        continue;
+                    }
+                },
                 (Some(Ok(p)), _) if p.prediction.distance_precision_pct.is_finite() => {
                     let pred = p.prediction.clone();
                     (
@@ -1179,21 +1189,16 @@ pub fn build(settings: &Settings, targets: &[Target], file: Option<&Path>) -> Re
                     let z = t.redshift.unwrap_or(0.0);
                     let dl = std.cosmology.luminosity_distance_mpc(z)?;
                     let mu = 5.0 * dl.log10() + 25.0;
-                    let mut terms = terms_of(&[HOST_TERM]);
+                    let terms = terms_of(&[HOST_TERM]);
                     // A supernova already observed measures the flow: its
                     // fitted peak standardized as its chase standardizes it
-                    // (a calibrator's way), its error the fit's, the
-                    // intrinsic scatter and its peculiar velocity at its
-                    // redshift; the others take the planned value, on the
-                    // H0_ref scale by construction.
+                    // (a calibrator's way), its error the terms its chase
+                    // would carry with the fit's given (its peculiar
+                    // velocity among them); the others take the planned
+                    // value, on the H0_ref scale by construction.
                     let value_mag = if t.peak_err_mag.is_some() {
                         match tmeth.standardized_peak(v) {
                             Ok(Some(sp)) => {
-                                terms.push(Term::new(
-                                    PEC_TERM,
-                                    std.cosmology
-                                        .peculiar_sigma_mu(z, tmeth.cfg.cosmology.sigma_v_km_s)?,
-                                ));
                                 flow_measured.push(t.name.clone());
                                 sp.standardized_peak_mag
                             }

@@ -449,6 +449,37 @@ impl TransientMethod {
         Ok(Some(std.standardized_peak(&self.cfg, &model, &pl.params)))
     }
 
+    /// The error terms of a supernova already observed, its light curve
+    /// fitted with a peak good to `peak_err_mag`: the terms its chase would
+    /// carry (intrinsic scatter, Milky-Way extinction, the K-correction not
+    /// applied, its peculiar velocity in the Hubble flow or its host's
+    /// distance, the shared zero point), the light-curve fit's being the
+    /// given error instead ("light-curve fit (given)").
+    pub fn observed_terms(
+        &self,
+        t: &Target,
+        peak_err_mag: f64,
+    ) -> Result<Vec<crate::ladder::ErrorTerm>> {
+        let facts = self.facts(t)?;
+        let model = self.model(t, &facts)?;
+        let std = self.standardizer()?;
+        let b = std.budget(&self.cfg, &model, None, facts.role, facts.z)?;
+        Ok(b.error_terms()
+            .into_iter()
+            .map(|e| {
+                if e.name == "light-curve fit" {
+                    crate::ladder::ErrorTerm::from_mag(
+                        "light-curve fit (given)",
+                        peak_err_mag,
+                        false,
+                    )
+                } else {
+                    e
+                }
+            })
+            .collect())
+    }
+
     /// Everything that depends only on the target: facts, model, standardizer, placement.
     fn prepare(&self, s: &Setting) -> Result<(Facts, Model, Standardizer, Placement)> {
         let facts = self.check_target(s)?;
