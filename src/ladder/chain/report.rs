@@ -578,24 +578,27 @@ pub fn h0_basis_text(calibrators: &[CalibratorRow], flow: usize, h0_ref_km_s_mpc
     match (measured, forecast, flow) {
         (0, 0, 0) => format!("planned values on the H0 = {h0_ref_km_s_mpc} scale"),
         (m, f, k) => {
+            // "1 calibrator measured from its given peak", "2 ... their
+            // given peaks".
+            let measured = |n: usize, one: &str, many: &str| {
+                if n == 1 {
+                    format!("1 {one} measured from its given peak")
+                } else {
+                    format!("{n} {many} measured from their given peaks")
+                }
+            };
             let mut parts = Vec::new();
             if m > 0 {
-                parts.push(format!(
-                    "{m} calibrator{} measured from {} given peak{}",
-                    if m == 1 { "" } else { "s" },
-                    if m == 1 { "its" } else { "their" },
-                    if m == 1 { "" } else { "s" }
-                ));
+                parts.push(measured(m, "calibrator", "calibrators"));
             }
             if f > 0 {
                 parts.push(format!("{f} from a forecast peak",));
             }
             if k > 0 {
-                parts.push(format!(
-                    "{k} Hubble-flow supernova{} measured from {} given peak{}",
-                    if k == 1 { "" } else { "e" },
-                    if k == 1 { "its" } else { "their" },
-                    if k == 1 { "" } else { "s" }
+                parts.push(measured(
+                    k,
+                    "Hubble-flow supernova",
+                    "Hubble-flow supernovae",
                 ));
             }
             format!(
