@@ -1146,3 +1146,28 @@ fn a_flood_of_bad_rows_prints_fifty_and_a_count() {
     );
     assert_eq!(code, Some(3), "the good rows were used, some were refused");
 }
+
+/// `rung phase --nights N` whose last night lies past the calendar's end
+/// panicked (`NaiveDate + Days` out of range), and one past 2099 was taken
+/// (a note said only the first 400 nights were planned) where a `--to`
+/// there is refused: both refused now, naming the option (bad-input D6).
+#[test]
+fn phase_nights_past_the_valid_span_are_refused() {
+    for n in ["100000", "4000000000"] {
+        check_cli(
+            "D6",
+            &[
+                "phase",
+                "--target",
+                "LPO-C05",
+                "--from",
+                "2026-12-01",
+                "--nights",
+                n,
+            ],
+            &format!(
+                "--nights {n} from 2026-12-01 ends past rung's valid span (1960-01-01 to 2099-12-31): give fewer nights"
+            ),
+        );
+    }
+}

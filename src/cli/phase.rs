@@ -239,7 +239,19 @@ pub fn run(a: Args) -> Result<()> {
         if n == 0 {
             bail!("--nights must be at least 1");
         }
-        st.to = st.from + chrono::Days::new(n as u64 - 1);
+        // The last night must lie in rung's span, as a --to would (a count
+        // past the calendar's end used to panic).
+        st.to = st
+            .from
+            .checked_add_days(chrono::Days::new(n as u64 - 1))
+            .map(|d| d.to_string())
+            .and_then(|d| rung::astro::time::parse_date(&d).ok())
+            .with_context(|| {
+                format!(
+                    "--nights {n} from {} ends past rung's valid span (1960-01-01 to 2099-12-31): give fewer nights",
+                    st.from
+                )
+            })?;
     }
     let mut m = st
         .methods
