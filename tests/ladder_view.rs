@@ -14,6 +14,26 @@ fn programme_file() -> std::path::PathBuf {
     std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/ladder_support/programme.csv")
 }
 
+/// `rung ARGS` (from the repository, with a configuration folder of its
+/// own and the clock at `now` when given): its JSON, the run checked.
+fn rung_json(args: &[&str], now: Option<&str>) -> serde_json::Value {
+    let cfg = tempfile::tempdir().unwrap();
+    let mut cmd = Command::new(env!("CARGO_BIN_EXE_rung"));
+    cmd.args(args)
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .env("RUNG_CONFIG_DIR", cfg.path());
+    if let Some(t) = now {
+        cmd.env("RUNG_NOW", t);
+    }
+    let out = cmd.output().unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_slice(&out.stdout).unwrap()
+}
+
 fn n(v: f64, dp: usize) -> String {
     rung::output::fixed(v, dp).unwrap()
 }
@@ -35,9 +55,8 @@ fn the_ladder_view_shows_the_numbers_of_rung_ladder_json() {
     // The same settings on the command line (the UI's: demo site, camera,
     // range and limits).
     let st = &s.settings;
-    let cfg = tempfile::tempdir().unwrap();
-    let out = Command::new(env!("CARGO_BIN_EXE_rung"))
-        .args([
+    let j = rung_json(
+        &[
             "ladder",
             "--targets",
             programme_file().to_str().unwrap(),
@@ -54,17 +73,9 @@ fn the_ladder_view_shows_the_numbers_of_rung_ladder_json() {
             "--sun-alt",
             &st.limits.sun_alt_deg.to_string(),
             "--json",
-        ])
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
-        .env("RUNG_CONFIG_DIR", cfg.path())
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
+        ],
+        None,
     );
-    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let f = |v: &serde_json::Value| v.as_f64().unwrap();
     for (w, h) in [(80u16, 24u16), (160, 48)] {
         s.size = (w, h);
@@ -540,20 +551,7 @@ fn single_pulsators_have_their_own_line_in_the_hours_by_rung() {
 /// a real gain (an anchor's visit, 8e-8 of σ_d/d) stays as it was.
 #[test]
 fn a_step_that_leaves_the_end_point_as_it_was_gains_zero() {
-    let cfg = tempfile::tempdir().unwrap();
-    let out = Command::new(env!("CARGO_BIN_EXE_rung"))
-        .args(["ladder", "--json"])
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
-        .env("RUNG_CONFIG_DIR", cfg.path())
-        .env("RUNG_NOW", "2026-12-02T01:00:00Z")
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let j = rung_json(&["ladder", "--json"], Some("2026-12-02T01:00:00Z"));
     let before = j["end_point"]["distance_pct"].as_f64().unwrap();
     let same = rung::ladder::chain::next::SAME_REL * before;
     let mut zero = Vec::new();

@@ -516,8 +516,13 @@ pub fn parse_date(text: &str) -> Result<NaiveDate> {
             "expected YYYY-MM-DD, a real calendar date such as 2026-12-01",
         )
     })?;
-    // The date itself must lie in the span; a night that runs past its end is
-    // refused by `Night::new`, which names the instant.
+    check_date(d)
+}
+
+/// Refuse a calendar date outside rung's valid span ([`VALID_FROM`] to
+/// [`VALID_TO`]); a night that runs past its end is refused by
+/// `Night::new`, which names the instant.
+pub fn check_date(d: NaiveDate) -> Result<NaiveDate> {
     let jd = sofars::cal::cal2jd(d.year(), d.month() as i32, d.day() as i32)
         .map(|(a, b)| a + b)
         .unwrap_or(f64::NAN);

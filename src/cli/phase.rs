@@ -241,14 +241,14 @@ pub fn run(a: Args) -> Result<()> {
         }
         // The last night must lie in rung's span, as a --to would (a count
         // past the calendar's end used to panic).
+        use rung::astro::time::{VALID_FROM, VALID_TO, check_date};
         st.to = st
             .from
             .checked_add_days(chrono::Days::new(n as u64 - 1))
-            .map(|d| d.to_string())
-            .and_then(|d| rung::astro::time::parse_date(&d).ok())
+            .and_then(|d| check_date(d).ok())
             .with_context(|| {
                 format!(
-                    "--nights {n} from {} ends past rung's valid span (1960-01-01 to 2099-12-31): give fewer nights",
+                    "--nights {n} from {} ends past rung's valid span ({VALID_FROM} to {VALID_TO}): give fewer nights",
                     st.from
                 )
             })?;

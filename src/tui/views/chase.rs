@@ -76,21 +76,19 @@ pub fn render(s: &State, area: Rect, buf: &mut Buffer) {
         area.x,
         area.y,
         &title_parts(
-            &[
-                "Chase".to_string(),
-                format!("✶ {name}"),
-                if c.provisional { "PROVISIONAL" } else { "" }.to_string(),
-                c.bands.join(""),
-                format!(
-                    "max {} (B {:.1})",
-                    c.t_max.local(&s.site().timezone).format("%Y-%m-%d"),
-                    c.placement.params.m_max
-                ),
-                format!("goal {}", goal(c.goal_pct)),
-            ]
-            .into_iter()
-            .filter(|p| !p.is_empty())
-            .collect::<Vec<_>>(),
+            &["Chase".to_string(), format!("✶ {name}")]
+                .into_iter()
+                .chain(c.provisional.then(|| "PROVISIONAL".to_string()))
+                .chain([
+                    c.bands.join(""),
+                    format!(
+                        "max {} (B {:.1})",
+                        c.t_max.local(&s.site().timezone).format("%Y-%m-%d"),
+                        c.placement.params.m_max
+                    ),
+                    format!("goal {}", goal(c.goal_pct)),
+                ])
+                .collect::<Vec<_>>(),
             area.width as usize,
         ),
         area.width,

@@ -56,13 +56,11 @@ pub fn items(c: &Chase) -> (Vec<String>, bool) {
 }
 
 /// The lines under the legend at `width` columns and whether they warn:
-/// [`items`] on one line when the first fits there alone, else on two,
-/// with the count of the rest and the key that opens them (`m`).
+/// [`items`] on at most two lines, with the count of the rest and the key
+/// that opens them (`m`) when they do not fit.
 pub fn note(c: &Chase, width: u16) -> (Vec<String>, bool) {
     let (all, warn) = items(c);
-    let w = width as usize;
-    let one = all.len() == 1 && wrap(&all[0], w).len() == 1;
-    (note_lines(&all, w, if one { 1 } else { 2 }), warn)
+    (note_lines(&all, width as usize, 2), warn)
 }
 
 /// Rows the nights give up at `width` columns: one for the summary and one

@@ -306,12 +306,19 @@ fn bottom(s: &State, lines: &[String], level: Level, area: Rect, buf: &mut Buffe
     }
 }
 
-/// The rows the view (and an overlay over it) has on a screen of `w` × `h`:
-/// all but the status line, the tabs and the message lines, the view
-/// keeping at least half the rows below the tabs.
+/// The bottom lines on a screen of `w` × `h` and the rows the view (and
+/// an overlay over it) keeps: all but the status line, the tabs and the
+/// bottom lines, the view keeping at least half the rows below the tabs.
+fn bottom_and_body(s: &State, w: u16, h: u16) -> (Vec<String>, Level, u16) {
+    let (low, level) = bottom_lines(s, w, h.saturating_sub(2) / 2);
+    let body_h = h.saturating_sub(2 + low.len() as u16);
+    (low, level, body_h)
+}
+
+/// The rows the view (and an overlay over it) has on a screen of `w` × `h`
+/// ([`bottom_and_body`]).
 pub fn body_height(s: &State, w: u16, h: u16) -> u16 {
-    let (low, _) = bottom_lines(s, w, h.saturating_sub(2) / 2);
-    h.saturating_sub(2 + low.len() as u16)
+    bottom_and_body(s, w, h).2
 }
 
 /// Draw the whole screen into `buf`.
@@ -329,14 +336,9 @@ pub fn render_all(s: &State, area: Rect, buf: &mut Buffer) {
     }
     status(s, Rect::new(area.x, area.y, area.width, 1), buf);
     tabs(s, Rect::new(area.x, area.y + 1, area.width, 1), buf);
-    let (low, level) = bottom_lines(s, area.width, (area.height - 2) / 2);
+    let (low, level, body_h) = bottom_and_body(s, area.width, area.height);
     let n = low.len() as u16;
-    let body = Rect::new(
-        area.x,
-        area.y + 2,
-        area.width,
-        body_height(s, area.width, area.height),
-    );
+    let body = Rect::new(area.x, area.y + 2, area.width, body_h);
     match s.view {
         View::Roster => roster::render(s, body, buf),
         View::Tonight => tonight::render(s, body, buf),
